@@ -1,0 +1,1 @@
+"""Seeded generator of the demo scenario (an invented observatory, people and coordinates)."""

@@ -1,0 +1,190 @@
+"""The demo: an invented observatory with two telescopes and three years of nightly usage.
+
+Everything here is invented: the observatory, its coordinates, its people and its numbers. The
+generator is seeded, so the same ``today`` gives the same data. Seasons: a dusty, windy spring
+(March to June) and a wet summer monsoon (July to September).
+"""
+from __future__ import annotations
+
+import datetime as dt
+
+import numpy as np
+from django.contrib.auth.models import Group, User
+from django.db import transaction
+from django.utils import timezone
+
+from observatory_ops.calc import nights
+from observatory_ops.logbook.models import NightUsage, Reading, ServiceRecord
+from observatory_ops.planning import services as planning
+from observatory_ops.planning.metrics import READING
+from observatory_ops.planning.models import Trigger
+from observatory_ops.registry.models import Site, Telescope
+from observatory_ops.registry.services import subsystem_create
+
+SEED = 20261202
+SITE_SLUG = "vestal-ridge"
+HISTORY_DAYS = 3 * 365
+
+#: Demo logins: (username, role, full name, password). Invented people; passwords for the demo only.
+DEMO_USERS = (
+    ("viewer", "viewer", "Juno Ambry", "demo-viewer-2026"),
+    ("technician", "technician", "Pavo Linnet", "demo-technician-2026"),
+    ("engineer", "engineer", "Mirela Ostrand", "demo-engineer-2026"),
+    ("admin", "administrator", "Rasmus Tolve", "demo-admin-2026"),
+)
+
+# Month (1..12) -> (chance the dome opens, mean PM10 ug/m3 while open, mean RH %).
+_CLIMATE = {
+    1: (0.62, 14, 38), 2: (0.60, 18, 35), 3: (0.68, 45, 28), 4: (0.74, 70, 22), 5: (0.78, 85, 18),
+    6: (0.72, 60, 24), 7: (0.30, 16, 68), 8: (0.28, 12, 72), 9: (0.42, 14, 60), 10: (0.70, 20, 40),
+    11: (0.66, 16, 42), 12: (0.60, 12, 45),
+}
+
+# The register: (kind, name, parent name or None).
+_TREE = (
+    ("truss", "Optical tube and top end", None),
+    ("mirror_cell", "Primary mirror cell", "Optical tube and top end"),
+    ("primary_mirror", "Primary mirror", "Primary mirror cell"),
+    ("secondary_mirror", "Secondary mirror", "Optical tube and top end"),
+    ("focus_mechanism", "Focuser", "Optical tube and top end"),
+    ("mirror_cover", "Mirror cover", "Optical tube and top end"),
+    ("cooling_fans", "Mirror cell fans", "Primary mirror cell"),
+    ("axis1_drive", "Axis 1 drive", None),
+    ("drive_rollers", "Axis 1 drive rollers", "Axis 1 drive"),
+    ("encoder", "Axis 1 encoder", "Axis 1 drive"),
+    ("brake", "Axis 1 brake", "Axis 1 drive"),
+    ("axis2_drive", "Axis 2 drive", None),
+    ("encoder", "Axis 2 encoder", "Axis 2 drive"),
+    ("brake", "Axis 2 brake", "Axis 2 drive"),
+    ("cable_routing", "Cable wraps", None),
+    ("limits", "Limits and interlocks", None),
+    ("ac_power", "AC distribution", None),
+    ("dc_supplies", "DC supplies", None),
+    ("servo_drives", "Servo drives", None),
+    ("computers", "Mount control computer", None),
+)
+
+
+def demo_users() -> list[tuple[str, str, str]]:
+    """Create (or keep) one login per role; returns (username, role, password) for printing."""
+    out = []
+    for username, role, full_name, password in DEMO_USERS:
+        first, last = full_name.split(" ", 1)
+        user, created = User.objects.get_or_create(username=username, defaults={"first_name": first, "last_name": last})
+        if created:
+            user.set_password(password)
+            user.is_staff = role == "administrator"
+            user.is_superuser = role == "administrator"
+            user.save()
+        user.groups.add(Group.objects.get(name=role))
+        out.append((username, role, password))
+    return out
+
+
+def build(today: dt.date | None = None) -> tuple[Site, bool]:
+    """Load the demo unless it is already there. Returns (site, created)."""
+    existing = Site.objects.filter(slug=SITE_SLUG).first()
+    if existing:
+        return existing, False
+    rng = np.random.default_rng(SEED)
+    with transaction.atomic():
+        users = {u[1]: User.objects.get(username=u[0]) for u in DEMO_USERS}
+        site = Site.objects.create(
+            name="Vestal Ridge Observatory",
+            slug=SITE_SLUG,
+            latitude_deg=34.2183,
+            longitude_deg=-107.6412,
+            elevation_m=2230,
+            time_zone="America/Denver",
+            dust_climate="Dusty, windy spring (March to June) from the dry basin to the west; wet summer monsoon "
+            "(July to September).",
+        )
+        today = today or planning.site_today(site)
+        start = today - dt.timedelta(days=HISTORY_DAYS)
+        t70 = Telescope.objects.create(
+            site=site, name="T70", aperture_m=0.7, mount=Telescope.Mount.FORK, tube_mass_kg=260,
+            notes="0.7 m Ritchey-Chretien on an equatorial fork; the site's main survey telescope.",
+        )
+        r40 = Telescope.objects.create(
+            site=site, name="R40", aperture_m=0.4, mount=Telescope.Mount.GERMAN, tube_mass_kg=70,
+            notes="0.4 m robotic telescope on a German equatorial mount, runs unattended.",
+        )
+        subsystems = {}
+        for telescope in (t70, r40):
+            for kind, name, parent in _TREE:
+                subsystems[(telescope.name, name)] = subsystem_create(
+                    telescope, kind, name, counting_from=start,
+                    parent=subsystems.get((telescope.name, parent)) if parent else None,
+                )
+        _usage(site, start, today, rng)
+        _drive_settle_triggers(subsystems, users["technician"], today, rng)
+        _service_history(site, subsystems, users, today, rng)
+        planning.site_recompute(site, today)
+    return site, True
+
+
+def _usage(site: Site, start: dt.date, today: dt.date, rng: np.random.Generator) -> None:
+    place = nights.Site(site.latitude_deg, site.longitude_deg, site.elevation_m, site.time_zone)
+    sky = nights.nights_for_range(place, start, (today - start).days)
+    rows = []
+    for i in range(len(sky.dark_hours)):
+        night = start + dt.timedelta(days=i)
+        p_open, pm10_mean, rh_mean = _CLIMATE[night.month]
+        # Bright time costs the robotic programme less, so a few nights near full moon stay closed.
+        opens = rng.random() < p_open * (0.85 if sky.moon_illumination[i] > 0.9 else 1.0)
+        dark = float(sky.dark_hours[i])
+        open_hours = round(min(dark + 1.0, dark * rng.uniform(0.55, 1.05)), 2) if opens else 0.0
+        slews = int(rng.poisson(5.5 * open_hours)) if open_hours else 0
+        rows.append(
+            NightUsage(
+                site=site, night=night, open_hours=open_hours, slews=slews,
+                axis1_travel_deg=round(slews * rng.uniform(18, 32), 1),
+                axis2_travel_deg=round(slews * rng.uniform(10, 20), 1),
+                brake_cycles=slews + (2 if open_hours else 0),
+                pm10_ugm3=round(float(rng.lognormal(np.log(pm10_mean), 0.45)), 1) if open_hours else None,
+                humidity_pct=round(float(np.clip(rng.normal(rh_mean, 10), 5, 100)), 0),
+                dew=bool(rng.random() < (0.25 if rh_mean > 55 else 0.05)),
+                rain=bool(rng.random() < (0.35 if night.month in (7, 8, 9) else 0.03)),
+                source=NightUsage.Source.DEMO,
+            )
+        )
+    NightUsage.objects.bulk_create(rows, batch_size=500)
+
+
+def _drive_settle_triggers(subsystems, technician, today: dt.date, rng: np.random.Generator) -> None:
+    """Axis 1 drives get a condition trigger on settle time, with monthly readings that drift upward."""
+    for telescope, drift in (("T70", 0.0022), ("R40", 0.0009)):
+        drive = subsystems[(telescope, "Axis 1 drive")]
+        plan = drive.plans.first()
+        Trigger.objects.create(plan=plan, metric=READING, limit=1.0, quantity="settle_time_s")
+        for months_ago in range(8, -1, -1):
+            day = today - dt.timedelta(days=30 * months_ago + 3)
+            value = 0.55 + drift * (240 - 30 * months_ago) + rng.normal(0, 0.02)
+            Reading.objects.create(
+                subsystem=drive, quantity="settle_time_s", unit="s", value=round(value, 3),
+                taken_at=timezone.make_aware(dt.datetime.combine(day, dt.time(22, 30)), drive.telescope.site.zone),
+                taken_by=technician, note="step test, 2 degree slew",
+            )
+
+
+def _service_history(site, subsystems, users, today: dt.date, rng: np.random.Generator) -> None:
+    """Past services so that today shows a mix of overdue, due and later items."""
+    records = []
+    for subsystem in subsystems.values():
+        for plan in subsystem.plans.all():
+            calendar = next((t.limit for t in plan.triggers.all() if t.metric == "calendar_days"), 365.0)
+            # A fraction of the interval has passed since the last service: above 1 is overdue.
+            passed = float(rng.choice([0.35, 0.55, 0.7, 0.85, 0.93, 0.97, 1.08]))
+            last = today - dt.timedelta(days=int(calendar * passed))
+            previous = last - dt.timedelta(days=int(calendar * rng.uniform(0.8, 1.0)))
+            for day in (previous, last):
+                if day < plan.counting_from:
+                    continue
+                records.append(
+                    ServiceRecord(
+                        subsystem=subsystem, plan=plan, performed_on=day, performed_by=users["technician"],
+                        hours_spent=round(plan.estimated_hours * rng.uniform(0.8, 1.4), 1),
+                        summary=plan.name, findings="", created_by=users["technician"],
+                    )
+                )
+    ServiceRecord.objects.bulk_create(records)

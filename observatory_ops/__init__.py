@@ -1,0 +1,1 @@
+"""observatory_ops: maintenance and service-schedule tracking for small observatories."""

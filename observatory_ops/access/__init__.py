@@ -1,0 +1,1 @@
+"""Who may do what: the four roles and the one decorator every view declares its role with."""

@@ -1,0 +1,58 @@
+from django import forms
+from django.conf import settings
+from django.utils import timezone
+
+from observatory_ops.planning.models import ServicePlan
+
+from .quantities import QUANTITY_CHOICES
+
+
+class ServiceRecordForm(forms.Form):
+    plan = forms.ModelChoiceField(
+        queryset=ServicePlan.objects.none(), required=False,
+        help_text="The plan this work fulfils; its counting restarts from the date below. Leave empty for ad hoc work.",
+    )
+    performed_on = forms.DateField(widget=forms.DateInput(attrs={"type": "date"}), help_text="Local date of the work.")
+    hours_spent = forms.FloatField(min_value=0, max_value=1000, initial=1.0)
+    summary = forms.CharField(max_length=200)
+    findings = forms.CharField(widget=forms.Textarea, required=False, max_length=10000)
+
+    def __init__(self, *args, subsystem, **kwargs):
+        super().__init__(*args, **kwargs)
+        self.fields["plan"].queryset = subsystem.plans.filter(active=True)
+
+
+class CorrectionForm(forms.Form):
+    performed_on = forms.DateField(widget=forms.DateInput(attrs={"type": "date"}))
+    hours_spent = forms.FloatField(min_value=0, max_value=1000)
+    summary = forms.CharField(max_length=200)
+    findings = forms.CharField(widget=forms.Textarea, required=False, max_length=10000)
+    void = forms.BooleanField(required=False, label="Withdraw the original record (it was logged in error)")
+
+
+class ReadingForm(forms.Form):
+    quantity = forms.ChoiceField(choices=QUANTITY_CHOICES)
+    value = forms.FloatField()
+    taken_at = forms.DateTimeField(
+        widget=forms.DateTimeInput(attrs={"type": "datetime-local"}), help_text="Site local time."
+    )
+    note = forms.CharField(max_length=200, required=False)
+
+    def __init__(self, *args, **kwargs):
+        super().__init__(*args, **kwargs)
+        self.fields["taken_at"].initial = timezone.localtime().strftime("%Y-%m-%dT%H:%M")
+
+
+class NightsUploadForm(forms.Form):
+    file = forms.FileField(help_text="CSV in the nights format described on this page.")
+    skip_bad = forms.BooleanField(
+        required=False, label="Store the good rows and list the bad ones (otherwise one bad row stores nothing)"
+    )
+
+    def clean_file(self):
+        upload = self.cleaned_data["file"]
+        if upload.size > settings.NIGHTS_UPLOAD_MAX_BYTES:
+            raise forms.ValidationError(
+                f"The file is {upload.size:,} bytes; the limit is {settings.NIGHTS_UPLOAD_MAX_BYTES:,} bytes."
+            )
+        return upload

@@ -1,0 +1,39 @@
+import sys
+from pathlib import Path
+
+from django.core.management.base import BaseCommand, CommandError
+
+from observatory_ops.logbook import services
+from observatory_ops.registry.models import Site
+
+
+class Command(BaseCommand):
+    help = "Import nightly usage from a CSV file (format in README.md). All or nothing unless --skip-bad."
+
+    def add_arguments(self, parser):
+        parser.add_argument("file")
+        parser.add_argument("--site", required=True, help="site slug")
+        parser.add_argument("--skip-bad", action="store_true", help="store the good rows and list the bad ones")
+
+    def handle(self, *args, file, site, skip_bad, **options):
+        target = Site.objects.filter(slug=site).first()
+        if target is None:
+            known = ", ".join(Site.objects.values_list("slug", flat=True)) or "none"
+            raise CommandError(f"no site with slug {site!r} (known: {known})")
+        path = Path(file)
+        if not path.is_file():
+            raise CommandError(f"{file}: no such file")
+
+        def progress(done, total):
+            sys.stderr.write(f"\r  {done}/{total} rows checked and written")
+            if done == total:
+                sys.stderr.write("\n")
+
+        report = services.nights_import(target, path.read_bytes(), skip_bad=skip_bad, progress=progress)
+        for line, reason in report.errors or report.skipped:
+            self.stderr.write(f"line {line}: {reason}")
+        if report.errors:
+            raise CommandError(f"{file}: {report.summary}")
+        for night in report.updated_nights:
+            self.stdout.write(f"updated night {night}")
+        self.stdout.write(f"{file}: {report.summary}")

@@ -1,0 +1,95 @@
+"""Nightly usage, readings and service records.
+
+Readings and service records are append-only: nothing edits or deletes them. A wrong service record
+is corrected by a new record that points to it (``corrects``); the newest record of a chain is the one
+that counts.
+"""
+from __future__ import annotations
+
+from django.conf import settings
+from django.core.exceptions import ValidationError
+from django.core.validators import MaxValueValidator, MinValueValidator
+from django.db import models
+
+from observatory_ops.registry.models import Site, Subsystem
+
+from .quantities import QUANTITY_CHOICES
+
+
+class NightUsage(models.Model):
+    """One row per site per night; the night belongs to the local date of its evening."""
+
+    class Source(models.TextChoices):
+        IMPORT = "import", "CSV import"
+        API = "api", "control software"
+        FORM = "form", "typed in"
+        DEMO = "demo", "demo generator"
+
+    site = models.ForeignKey(Site, on_delete=models.PROTECT, related_name="nights")
+    night = models.DateField(help_text="Local date of the evening the night starts.")
+    open_hours = models.FloatField(validators=[MinValueValidator(0), MaxValueValidator(24)])
+    slews = models.PositiveIntegerField(default=0)
+    axis1_travel_deg = models.FloatField(default=0, validators=[MinValueValidator(0)])
+    axis2_travel_deg = models.FloatField(default=0, validators=[MinValueValidator(0)])
+    brake_cycles = models.PositiveIntegerField(default=0)
+    pm10_ugm3 = models.FloatField(null=True, blank=True, validators=[MinValueValidator(0)])
+    humidity_pct = models.FloatField(null=True, blank=True, validators=[MinValueValidator(0), MaxValueValidator(100)])
+    dew = models.BooleanField(default=False)
+    rain = models.BooleanField(default=False)
+    source = models.CharField(max_length=8, choices=Source.choices, default=Source.FORM)
+    recorded_at = models.DateTimeField(auto_now=True)
+
+    class Meta:
+        ordering = ["site", "night"]
+        constraints = [models.UniqueConstraint(fields=["site", "night"], name="one_usage_row_per_site_night")]
+
+    def __str__(self) -> str:
+        return f"{self.site.slug} {self.night}: {self.open_hours:g} h open"
+
+
+class Reading(models.Model):
+    subsystem = models.ForeignKey(Subsystem, on_delete=models.PROTECT, related_name="readings")
+    quantity = models.CharField(max_length=40, choices=QUANTITY_CHOICES)
+    unit = models.CharField(max_length=16)
+    value = models.FloatField()
+    taken_at = models.DateTimeField()
+    taken_by = models.ForeignKey(settings.AUTH_USER_MODEL, on_delete=models.PROTECT, related_name="+")
+    note = models.CharField(max_length=200, blank=True)
+
+    class Meta:
+        ordering = ["-taken_at"]
+        indexes = [models.Index(fields=["subsystem", "quantity", "taken_at"])]
+
+    def __str__(self) -> str:
+        return f"{self.get_quantity_display()}: {self.value:g} {self.unit}"
+
+
+class ServiceRecord(models.Model):
+    subsystem = models.ForeignKey(Subsystem, on_delete=models.PROTECT, related_name="service_records")
+    plan = models.ForeignKey(
+        "planning.ServicePlan", null=True, blank=True, on_delete=models.PROTECT, related_name="service_records"
+    )
+    performed_on = models.DateField(help_text="Local date the work was done.")
+    performed_by = models.ForeignKey(settings.AUTH_USER_MODEL, on_delete=models.PROTECT, related_name="+")
+    hours_spent = models.FloatField(default=0, validators=[MinValueValidator(0), MaxValueValidator(1000)])
+    summary = models.CharField(max_length=200)
+    findings = models.TextField(blank=True)
+    corrects = models.OneToOneField(
+        "self", null=True, blank=True, on_delete=models.PROTECT, related_name="corrected_by",
+        help_text="The earlier record this one replaces.",
+    )
+    void = models.BooleanField(default=False, help_text="This correction withdraws the record it corrects.")
+    created_at = models.DateTimeField(auto_now_add=True)
+    created_by = models.ForeignKey(settings.AUTH_USER_MODEL, on_delete=models.PROTECT, related_name="+")
+
+    class Meta:
+        ordering = ["-performed_on", "-created_at"]
+
+    def __str__(self) -> str:
+        return f"{self.performed_on} {self.summary}"
+
+    def clean(self) -> None:
+        if self.void and not self.corrects_id:
+            raise ValidationError("Only a correction can withdraw a record.")
+        if self.plan_id and self.plan.subsystem_id != self.subsystem_id:
+            raise ValidationError({"plan": "The plan belongs to another subsystem."})

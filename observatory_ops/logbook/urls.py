@@ -1,0 +1,11 @@
+from django.urls import path
+
+from . import views
+
+urlpatterns = [
+    path("subsystems/<int:pk>/service/new/", views.service_log, name="service-log"),
+    path("service/<int:pk>/correct/", views.service_correct, name="service-correct"),
+    path("subsystems/<int:pk>/readings/new/", views.reading_log, name="reading-log"),
+    path("sites/<slug:slug>/nights/", views.nights_list, name="nights-list"),
+    path("sites/<slug:slug>/nights/import/", views.nights_import, name="nights-import"),
+]

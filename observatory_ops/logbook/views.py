@@ -1,0 +1,109 @@
+from django.contrib import messages
+from django.core.exceptions import ValidationError
+from django.core.paginator import Paginator
+from django.shortcuts import get_object_or_404, redirect, render
+from django.utils import timezone
+
+from observatory_ops.access.decorators import requires
+from observatory_ops.access.roles import TECHNICIAN, VIEWER
+from observatory_ops.registry.models import Site, Subsystem
+
+from . import nights_csv, services
+from .forms import CorrectionForm, NightsUploadForm, ReadingForm, ServiceRecordForm
+from .models import NightUsage, ServiceRecord
+
+
+def _form_errors_from(form, exc: ValidationError) -> None:
+    for message in exc.messages:
+        form.add_error(None, message)
+
+
+@requires(TECHNICIAN)
+def service_log(request, pk):
+    subsystem = get_object_or_404(Subsystem.objects.select_related("telescope__site"), pk=pk)
+    site = subsystem.telescope.site
+    initial = {"performed_on": services.site_today(site)}
+    if request.GET.get("plan"):
+        initial["plan"] = request.GET["plan"]
+    form = ServiceRecordForm(request.POST or None, subsystem=subsystem, initial=initial)
+    if request.method == "POST" and form.is_valid():
+        data = form.cleaned_data
+        try:
+            services.service_record_log(
+                subsystem, data["plan"], data["performed_on"], request.user, data["summary"],
+                hours_spent=data["hours_spent"], findings=data["findings"],
+            )
+        except ValidationError as exc:
+            _form_errors_from(form, exc)
+        else:
+            messages.success(request, "Service work logged; the plan's counting restarts from that date.")
+            return redirect(subsystem)
+    return render(request, "logbook/service_form.html", {"form": form, "subsystem": subsystem, "site": site})
+
+
+@requires(TECHNICIAN)
+def service_correct(request, pk):
+    original = get_object_or_404(ServiceRecord.objects.select_related("subsystem__telescope__site", "plan"), pk=pk)
+    initial = {
+        "performed_on": original.performed_on, "hours_spent": original.hours_spent,
+        "summary": original.summary, "findings": original.findings,
+    }
+    form = CorrectionForm(request.POST or None, initial=initial)
+    if request.method == "POST" and form.is_valid():
+        data = form.cleaned_data
+        try:
+            services.service_record_correct(
+                original, request.user, data["summary"], performed_on=data["performed_on"],
+                hours_spent=data["hours_spent"], findings=data["findings"], void=data["void"],
+            )
+        except ValidationError as exc:
+            _form_errors_from(form, exc)
+        else:
+            messages.success(request, "Correction logged; the original record is kept and marked as superseded.")
+            return redirect(original.subsystem)
+    return render(request, "logbook/correction_form.html", {"form": form, "original": original})
+
+
+@requires(TECHNICIAN)
+def reading_log(request, pk):
+    subsystem = get_object_or_404(Subsystem.objects.select_related("telescope__site"), pk=pk)
+    site = subsystem.telescope.site
+    with timezone.override(site.zone):  # the form's times are the site's local times
+        form = ReadingForm(request.POST or None)
+        if request.method == "POST" and form.is_valid():
+            data = form.cleaned_data
+            try:
+                services.reading_log(
+                    subsystem, data["quantity"], data["value"], data["taken_at"], request.user, data["note"]
+                )
+            except ValidationError as exc:
+                _form_errors_from(form, exc)
+            else:
+                messages.success(request, "Reading logged.")
+                return redirect(subsystem)
+        return render(request, "logbook/reading_form.html", {"form": form, "subsystem": subsystem, "site": site})
+
+
+@requires(VIEWER)
+def nights_list(request, slug):
+    site = get_object_or_404(Site, slug=slug)
+    page = Paginator(NightUsage.objects.filter(site=site).order_by("-night"), 60).get_page(request.GET.get("page"))
+    return render(request, "logbook/nights_list.html", {"site": site, "page": page})
+
+
+@requires(TECHNICIAN)
+def nights_import(request, slug):
+    site = get_object_or_404(Site, slug=slug)
+    form = NightsUploadForm(request.POST or None, request.FILES or None)
+    report = None
+    if request.method == "POST" and form.is_valid():
+        report = services.nights_import(site, form.cleaned_data["file"].read(), skip_bad=form.cleaned_data["skip_bad"])
+        if report.errors:
+            messages.error(request, f"Import refused: {report.summary}")
+        else:
+            messages.success(request, f"Import done: {report.summary}")
+    return render(
+        request,
+        "logbook/nights_import.html",
+        {"site": site, "form": form, "report": report, "columns_doc": nights_csv.__doc__},
+    )

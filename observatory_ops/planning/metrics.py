@@ -1,0 +1,34 @@
+"""What a trigger can count. Adding a trigger metric: add it here, then teach
+``observatory_ops.planning.services.per_night_usage`` how to read it from the nightly log
+(or, for a calendar-like metric, ``plans_recompute``)."""
+
+CALENDAR_DAYS = "calendar_days"
+OPEN_HOURS = "open_hours"
+SLEWS = "slews"
+BRAKE_CYCLES = "brake_cycles"
+AXIS1_TRAVEL = "axis1_travel_deg"
+AXIS2_TRAVEL = "axis2_travel_deg"
+DUST_HOURS = "dust_hours"
+READING = "reading"
+
+METRICS: dict[str, tuple[str, str]] = {
+    # code: (label, unit)
+    CALENDAR_DAYS: ("Calendar days", "days"),
+    OPEN_HOURS: ("Open-dome hours", "h"),
+    SLEWS: ("Slews", "slews"),
+    BRAKE_CYCLES: ("Brake cycles", "cycles"),
+    AXIS1_TRAVEL: ("Axis 1 travel (RA / azimuth)", "deg"),
+    AXIS2_TRAVEL: ("Axis 2 travel (Dec / elevation)", "deg"),
+    DUST_HOURS: ("Dust-weighted open hours", "h"),
+    READING: ("Reading crossing a limit", ""),
+}
+METRIC_CHOICES = [(code, label) for code, (label, _unit) in METRICS.items()]
+
+#: Metrics summed from the nightly usage log, with the NightUsage field each one reads.
+USAGE_FIELDS = {
+    OPEN_HOURS: "open_hours",
+    SLEWS: "slews",
+    BRAKE_CYCLES: "brake_cycles",
+    AXIS1_TRAVEL: "axis1_travel_deg",
+    AXIS2_TRAVEL: "axis2_travel_deg",
+}

@@ -1,0 +1,106 @@
+"""Service plans, their triggers, the computed due state of each plan, and the per-site nights cache."""
+from __future__ import annotations
+
+from django.core.exceptions import ValidationError
+from django.core.validators import MinValueValidator
+from django.db import models
+
+from observatory_ops.calc.triggers import STATUSES
+from observatory_ops.logbook.quantities import QUANTITY_CHOICES
+from observatory_ops.registry.models import Site, Subsystem
+
+from .metrics import METRIC_CHOICES, READING
+
+
+class ServicePlan(models.Model):
+    subsystem = models.ForeignKey(Subsystem, on_delete=models.PROTECT, related_name="plans")
+    name = models.CharField(max_length=160)
+    task = models.TextField(blank=True)
+    steps = models.TextField(blank=True, help_text="One step per line.")
+    hazards = models.JSONField(default=list, blank=True, help_text="Hazards of the task beyond the subsystem's.")
+    estimated_hours = models.FloatField(default=1.0, validators=[MinValueValidator(0)])
+    dust_sensitivity = models.FloatField(
+        default=0.0, validators=[MinValueValidator(0)],
+        help_text="0: dust does not matter; 1: an hour at twice the clean-air PM10 counts as two.",
+    )
+    counting_from = models.DateField(help_text="Start of counting when the plan has no service record yet.")
+    basis = models.CharField(max_length=120, blank=True, help_text="Where the intervals come from.")
+    active = models.BooleanField(default=True)
+
+    class Meta:
+        ordering = ["subsystem__telescope__name", "subsystem__name", "name"]
+
+    def __str__(self) -> str:
+        return self.name
+
+    @property
+    def step_list(self) -> list[str]:
+        return [line.strip() for line in self.steps.splitlines() if line.strip()]
+
+
+class Trigger(models.Model):
+    class Direction(models.TextChoices):
+        ABOVE = "above", "rises to the limit"
+        BELOW = "below", "falls to the limit"
+
+    plan = models.ForeignKey(ServicePlan, on_delete=models.CASCADE, related_name="triggers")
+    metric = models.CharField(max_length=24, choices=METRIC_CHOICES)
+    limit = models.FloatField(validators=[MinValueValidator(0)])
+    quantity = models.CharField(max_length=40, choices=QUANTITY_CHOICES, blank=True, help_text="Reading triggers only.")
+    direction = models.CharField(max_length=8, choices=Direction.choices, default=Direction.ABOVE)
+
+    class Meta:
+        ordering = ["plan", "metric"]
+
+    def __str__(self) -> str:
+        return f"{self.get_metric_display()} {self.limit:g}"
+
+    def clean(self) -> None:
+        if self.metric == READING and not self.quantity:
+            raise ValidationError({"quantity": "A reading trigger needs the quantity it watches."})
+        if self.metric != READING and self.limit <= 0:
+            raise ValidationError({"limit": "A usage or calendar limit must be more than zero."})
+
+
+class PlanStatus(models.Model):
+    """The due state of one plan, computed by ``planning.services.site_recompute``; never edited by hand.
+
+    Kept in a table so the due list is one indexed query however many plans there are.
+    """
+
+    plan = models.OneToOneField(ServicePlan, on_delete=models.CASCADE, primary_key=True, related_name="status")
+    site = models.ForeignKey(Site, on_delete=models.CASCADE, related_name="+")
+    status = models.CharField(max_length=8, choices=[(s, s) for s in STATUSES])
+    metric = models.CharField(max_length=24, choices=METRIC_CHOICES)
+    value = models.FloatField()
+    limit = models.FloatField()
+    unit = models.CharField(max_length=16, blank=True)
+    rate_per_day = models.FloatField(null=True)
+    forecast_date = models.DateField(null=True)
+    earliest = models.DateField(null=True)
+    latest = models.DateField(null=True)
+    last_service_on = models.DateField(null=True)
+    reason = models.TextField(help_text="One sentence: which trigger, value, limit, rate and forecast.")
+    triggers = models.JSONField(default=list, help_text="Every trigger's figures, governing first.")
+    computed_at = models.DateTimeField()
+
+    class Meta:
+        indexes = [models.Index(fields=["site", "status", "forecast_date"])]
+
+
+class NightSky(models.Model):
+    """Cached sky figures of one local night at one site (``calc.nights``), so pages never recompute."""
+
+    site = models.ForeignKey(Site, on_delete=models.CASCADE, related_name="sky")
+    night = models.DateField()
+    sunset = models.DateTimeField(null=True)
+    sunrise = models.DateTimeField(null=True)
+    dusk = models.DateTimeField(null=True)
+    dawn = models.DateTimeField(null=True)
+    dark_hours = models.FloatField()
+    moon_illumination = models.FloatField()
+    moonless_dark_hours = models.FloatField()
+
+    class Meta:
+        ordering = ["site", "night"]
+        constraints = [models.UniqueConstraint(fields=["site", "night"], name="one_sky_row_per_site_night")]

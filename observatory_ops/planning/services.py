@@ -1,0 +1,444 @@
+"""Writes of the planning app: plans from the catalogue, the nights cache, and the due-state recompute.
+
+``site_recompute`` is the one place that turns the logbook into due states. It reads a site's log,
+plans, last services, readings and sky in a fixed number of queries (however many plans there are),
+hands arrays to the pure functions of ``observatory_ops.calc`` and stores one ``PlanStatus`` per plan.
+"""
+from __future__ import annotations
+
+import datetime as dt
+from dataclasses import dataclass
+
+import numpy as np
+from django.db import transaction
+from django.db.models import Max
+from django.utils import timezone
+
+from observatory_ops.calc import exposure, forecast, nights, trend
+from observatory_ops.calc.triggers import TriggerState, due_status, governing
+from observatory_ops.logbook.models import NightUsage, Reading, ServiceRecord
+from observatory_ops.logbook.quantities import QUANTITIES
+from observatory_ops.registry.catalogue import kind as catalogue_kind
+from observatory_ops.registry.models import Site, Subsystem
+
+from . import metrics
+from .models import NightSky, PlanStatus, ServicePlan, Trigger
+
+#: How far ahead forecasts look. A trigger not reached by then has no forecast date.
+HORIZON_DAYS = 3 * 366
+#: Readings used for a condition trend: those since the last service, at most this many of the newest.
+TREND_READINGS = 12
+
+
+def site_today(site: Site, now: dt.datetime | None = None) -> dt.date:
+    """The site's local calendar date now."""
+    return (now or timezone.now()).astimezone(site.zone).date()
+
+
+def plans_from_catalogue(subsystem: Subsystem, counting_from: dt.date) -> list[ServicePlan]:
+    """Create the default service plans of the subsystem's kind, with their triggers."""
+    created = []
+    for template in catalogue_kind(subsystem.kind).plans:
+        plan = ServicePlan.objects.create(
+            subsystem=subsystem,
+            name=template.name,
+            task=template.task,
+            steps="\n".join(template.steps),
+            hazards=list(template.hazards),
+            estimated_hours=template.estimated_hours,
+            dust_sensitivity=template.dust_sensitivity,
+            counting_from=counting_from,
+            basis=template.basis,
+        )
+        Trigger.objects.bulk_create(Trigger(plan=plan, metric=m, limit=limit) for m, limit in template.triggers)
+        created.append(plan)
+    return created
+
+
+# --- the nights cache -------------------------------------------------------------------------------
+
+
+def _calc_site(site: Site) -> nights.Site:
+    return nights.Site(site.latitude_deg, site.longitude_deg, site.elevation_m, site.time_zone)
+
+
+def site_sky_refresh(site: Site, start: dt.date, end: dt.date) -> int:
+    """Make sure the nights cache holds every night from ``start`` to ``end``; compute what is missing.
+
+    Returns the number of nights computed. Missing nights are filled as one contiguous span so astropy
+    is called once.
+    """
+    have = set(NightSky.objects.filter(site=site, night__gte=start, night__lte=end).values_list("night", flat=True))
+    wanted = (end - start).days + 1
+    if len(have) == wanted:
+        return 0
+    missing = [start + dt.timedelta(days=i) for i in range(wanted) if start + dt.timedelta(days=i) not in have]
+    first, last = missing[0], missing[-1]
+    table = nights.nights_for_range(_calc_site(site), first, (last - first).days + 1)
+    rows = []
+    for i, night in enumerate(table.dates):
+        night = _as_date(night)
+        if night in have:
+            continue
+        rows.append(
+            NightSky(
+                site=site,
+                night=night,
+                sunset=_as_datetime(table.sunset_utc[i]),
+                sunrise=_as_datetime(table.sunrise_utc[i]),
+                dusk=_as_datetime(table.dusk_utc[i]),
+                dawn=_as_datetime(table.dawn_utc[i]),
+                dark_hours=float(table.dark_hours[i]),
+                moon_illumination=float(table.moon_illumination[i]),
+                moonless_dark_hours=float(table.moonless_dark_hours[i]),
+            )
+        )
+    NightSky.objects.bulk_create(rows, batch_size=1000, ignore_conflicts=True)
+    return len(rows)
+
+
+def _as_date(value) -> dt.date:
+    if isinstance(value, dt.date):
+        return value
+    return dt.date.fromisoformat(str(np.datetime64(value, "D")))
+
+
+def _as_datetime(value) -> dt.datetime | None:
+    if value is None or np.isnat(np.datetime64(value)):
+        return None
+    seconds = np.datetime64(value, "s").astype("int64")
+    return dt.datetime.fromtimestamp(int(seconds), tz=dt.UTC)
+
+
+# --- the usage model --------------------------------------------------------------------------------
+
+
+@dataclass(frozen=True)
+class UsageLog:
+    """A site's nightly log as arrays, oldest first."""
+
+    nights: np.ndarray  # datetime64[D]
+    columns: dict[str, np.ndarray]  # NightUsage field -> values
+    pm10: np.ndarray  # NaN where not measured
+
+    @classmethod
+    def for_site(cls, site: Site) -> UsageLog:
+        fields = list(metrics.USAGE_FIELDS.values())
+        rows = list(NightUsage.objects.filter(site=site).order_by("night").values_list("night", *fields, "pm10_ugm3"))
+        nights_ = np.array([r[0] for r in rows], dtype="datetime64[D]")
+        columns = {f: np.array([r[1 + i] for r in rows], dtype=float) for i, f in enumerate(fields)}
+        pm10 = np.array([np.nan if r[-1] is None else r[-1] for r in rows], dtype=float)
+        return cls(nights_, columns, pm10)
+
+    def per_night(self, metric: str, dust_sensitivity: float) -> np.ndarray:
+        """The quantity a usage metric counts, for each logged night."""
+        if metric == metrics.DUST_HOURS:
+            return exposure.dust_weighted_hours(self.columns["open_hours"], self.pm10, dust_sensitivity)
+        return self.columns[metrics.USAGE_FIELDS[metric]]
+
+
+@dataclass(frozen=True)
+class UsageModel:
+    """Expected usage for each coming night, and how it was derived (shown on pages)."""
+
+    first_day: dt.date
+    open_hours: np.ndarray
+    month_pm10: np.ndarray  # 12 values, NaN where never measured
+    per_open_hour: dict[str, float]  # usage field -> rate per open hour
+    open_fraction: np.ndarray  # 12 values
+    months_from_history: int
+    spread: float
+    months: np.ndarray  # calendar month (1..12) of each coming night
+
+    def expected(self, metric: str, dust_sensitivity: float) -> np.ndarray:
+        if metric == metrics.OPEN_HOURS:
+            return self.open_hours
+        if metric == metrics.DUST_HOURS:
+            weight = exposure.dust_weight(self.month_pm10[self.months - 1], dust_sensitivity)
+            return self.open_hours * weight
+        return self.open_hours * self.per_open_hour[metrics.USAGE_FIELDS[metric]]
+
+    @property
+    def basis(self) -> str:
+        if self.months_from_history == 12:
+            source = "this site's own open fraction for every month"
+        elif self.months_from_history == 0:
+            source = f"a prior open fraction of {forecast.PRIOR_OPEN_FRACTION:.0%} (no usable history yet)"
+        else:
+            source = (
+                f"this site's open fraction for {self.months_from_history} of 12 months and a prior of "
+                f"{forecast.PRIOR_OPEN_FRACTION:.0%} for the rest"
+            )
+        return f"dark hours of each coming night x {source}; band from month-to-month spread {self.spread:.0%}"
+
+
+def usage_model(site: Site, log: UsageLog, first_day: dt.date, days: int) -> UsageModel:
+    """Expected usage per night from ``first_day`` on, from the site's history and its sky."""
+    end = first_day + dt.timedelta(days=days - 1)
+    history_start = _as_date(log.nights[0]) if len(log.nights) else first_day
+    site_sky_refresh(site, min(history_start, first_day), end)
+    sky = dict(
+        NightSky.objects.filter(site=site, night__gte=min(history_start, first_day), night__lte=end).values_list(
+            "night", "dark_hours"
+        )
+    )
+    past_nights = [_as_date(n) for n in log.nights]
+    past_dark = np.array([sky.get(n, 0.0) for n in past_nights], dtype=float)
+    past_months = np.array([n.month for n in past_nights], dtype=int)
+    open_h = log.columns["open_hours"]
+    fraction, from_history = forecast.monthly_open_fraction(past_months, open_h, past_dark)
+
+    coming = [first_day + dt.timedelta(days=i) for i in range(days)]
+    months = np.array([d.month for d in coming], dtype=int)
+    dark = np.array([sky[d] for d in coming], dtype=float)
+    open_hours = dark * fraction[months - 1]
+
+    total_open = float(open_h.sum())
+    per_open_hour = {
+        field: (float(log.columns[field].sum()) / total_open if total_open > 0 else 0.0)
+        for field in metrics.USAGE_FIELDS.values()
+    }
+    per_open_hour["open_hours"] = 1.0
+
+    month_pm10 = np.full(12, np.nan)
+    measured = ~np.isnan(log.pm10) & (open_h > 0)
+    if measured.any():
+        weights = np.bincount(past_months[measured] - 1, weights=open_h[measured], minlength=12)[:12]
+        sums = np.bincount(past_months[measured] - 1, weights=(open_h * log.pm10)[measured], minlength=12)[:12]
+        with np.errstate(invalid="ignore", divide="ignore"):
+            month_pm10 = np.where(weights > 0, sums / weights, np.nan)
+
+    # Month-to-month spread: each past (year, month)'s open hours against dark hours x that month's fraction.
+    keys = np.array([n.year * 12 + n.month - 1 for n in past_nights], dtype=int)
+    spread = forecast.PRIOR_MONTHLY_SPREAD
+    if len(keys):
+        _, index = np.unique(keys, return_inverse=True)
+        actual = np.bincount(index, weights=open_h)
+        expected = np.bincount(index, weights=past_dark * fraction[past_months - 1])
+        spread = forecast.monthly_spread(actual, expected)
+
+    return UsageModel(
+        first_day=first_day,
+        open_hours=open_hours,
+        month_pm10=month_pm10,
+        per_open_hour=per_open_hour,
+        open_fraction=fraction,
+        months_from_history=int(from_history.sum()),
+        spread=spread,
+        months=months,
+    )
+
+
+# --- the recompute ----------------------------------------------------------------------------------
+
+
+def _offset_date(first_day: dt.date, offset: int) -> dt.date | None:
+    return None if offset < 0 else first_day + dt.timedelta(days=int(offset))
+
+
+def _effective_last_service(plan_ids: list[int]) -> dict[int, dt.date]:
+    """Newest service date per plan, counting only records that are neither corrected nor withdrawn."""
+    rows = (
+        ServiceRecord.objects.filter(plan_id__in=plan_ids, corrected_by__isnull=True, void=False)
+        .values("plan_id")
+        .annotate(last=Max("performed_on"))
+    )
+    return {r["plan_id"]: r["last"] for r in rows}
+
+
+def site_recompute(site: Site, today: dt.date | None = None) -> int:
+    """Recompute and store the due state of every active plan at ``site``. Returns the number of plans."""
+    today = today or site_today(site)
+    plans = list(
+        ServicePlan.objects.filter(
+            subsystem__telescope__site=site, active=True, subsystem__retired_on__isnull=True
+        ).prefetch_related("triggers")
+    )
+    log = UsageLog.for_site(site)
+    last_logged = _as_date(log.nights[-1]) if len(log.nights) else None
+    first_day = min(today, last_logged + dt.timedelta(days=1)) if last_logged else today
+    model = usage_model(site, log, first_day, HORIZON_DAYS)
+    last_service = _effective_last_service([p.pk for p in plans])
+    baselines = {p.pk: max(last_service.get(p.pk, p.counting_from), p.counting_from) for p in plans}
+    readings = _readings_by_subsystem_quantity(plans, baselines)
+
+    states: dict[int, list[TriggerState]] = {p.pk: [] for p in plans}
+    groups: dict[tuple[str, float], list[tuple[ServicePlan, Trigger]]] = {}
+    for plan in plans:
+        for trig in plan.triggers.all():
+            if trig.metric == metrics.CALENDAR_DAYS:
+                states[plan.pk].append(_calendar_state(trig, baselines[plan.pk], today))
+            elif trig.metric == metrics.READING:
+                state = _reading_state(trig, readings.get((plan.subsystem_id, trig.quantity), []), today)
+                if state:
+                    states[plan.pk].append(state)
+            else:
+                sens = plan.dust_sensitivity if trig.metric == metrics.DUST_HOURS else 0.0
+                groups.setdefault((trig.metric, sens), []).append((plan, trig))
+
+    for (metric, sens), members in groups.items():
+        since = np.array([baselines[p.pk] for p, _ in members], dtype="datetime64[D]")
+        values = exposure.accumulated_since(log.nights, log.per_night(metric, sens), since)
+        limits = np.array([t.limit for _, t in members], dtype=float)
+        expected = model.expected(metric, sens)
+        central, early, late = forecast.days_reached(limits - values, expected, model.spread)
+        rate = float(expected[:30].mean()) if len(expected) else 0.0
+        for i, (plan, trig) in enumerate(members):
+            states[plan.pk].append(
+                TriggerState(
+                    metric=metric,
+                    value=float(values[i]),
+                    limit=trig.limit,
+                    rate_per_day=rate,
+                    forecast=_clamp(_offset_date(first_day, central[i]), today),
+                    earliest=_clamp(_offset_date(first_day, early[i]), today),
+                    latest=_clamp(_offset_date(first_day, late[i]), today),
+                    basis=model.basis,
+                    unit=metrics.METRICS[metric][1],
+                )
+            )
+
+    now = timezone.now()
+    rows = []
+    for plan in plans:
+        if not states[plan.pk]:
+            continue
+        gov = governing(states[plan.pk])
+        ordered = [gov] + [s for s in states[plan.pk] if s is not gov]
+        rows.append(
+            PlanStatus(
+                plan=plan,
+                site=site,
+                status=due_status(gov, today, site.look_ahead_days),
+                metric=gov.metric,
+                value=gov.value,
+                limit=gov.limit,
+                unit=gov.unit,
+                rate_per_day=gov.rate_per_day,
+                forecast_date=gov.forecast,
+                earliest=gov.earliest,
+                latest=gov.latest,
+                last_service_on=last_service.get(plan.pk),
+                reason=reason_text(gov),
+                triggers=[_state_json(s) for s in ordered],
+                computed_at=now,
+            )
+        )
+    with transaction.atomic():
+        PlanStatus.objects.filter(site=site).delete()
+        PlanStatus.objects.bulk_create(rows, batch_size=1000)
+    return len(rows)
+
+
+def _clamp(day: dt.date | None, today: dt.date) -> dt.date | None:
+    """A forecast that falls in unlogged past nights is due now, not in the past."""
+    return None if day is None else max(day, today)
+
+
+def _calendar_state(trig: Trigger, baseline: dt.date, today: dt.date) -> TriggerState:
+    due = baseline + dt.timedelta(days=int(round(trig.limit)))
+    return TriggerState(
+        metric=metrics.CALENDAR_DAYS,
+        value=float((today - baseline).days),
+        limit=trig.limit,
+        rate_per_day=1.0,
+        forecast=due,
+        earliest=due,
+        latest=due,
+        basis=f"calendar: {trig.limit:g} days after {baseline.isoformat()}",
+        unit="days",
+    )
+
+
+def _readings_by_subsystem_quantity(plans, baselines) -> dict[tuple[int, str], list[tuple[dt.datetime, float]]]:
+    wanted = {
+        (p.subsystem_id, t.quantity): baselines[p.pk]
+        for p in plans
+        for t in p.triggers.all()
+        if t.metric == metrics.READING
+    }
+    if not wanted:
+        return {}
+    subsystem_ids = {s for s, _ in wanted}
+    out: dict[tuple[int, str], list[tuple[dt.datetime, float]]] = {}
+    for sub_id, quantity, taken_at, value in Reading.objects.filter(subsystem_id__in=subsystem_ids).order_by(
+        "taken_at"
+    ).values_list("subsystem_id", "quantity", "taken_at", "value"):
+        key = (sub_id, quantity)
+        if key in wanted and taken_at.date() >= wanted[key]:
+            out.setdefault(key, []).append((taken_at, value))
+    return {k: v[-TREND_READINGS:] for k, v in out.items()}
+
+
+def _reading_state(trig: Trigger, readings, today: dt.date) -> TriggerState | None:
+    """A condition trigger: latest reading against the limit, with the Theil-Sen trend's crossing date."""
+    if not readings:
+        return None
+    rising = trig.direction == Trigger.Direction.ABOVE
+    label, unit = QUANTITIES[trig.quantity]
+    origin = readings[0][0]
+    days = [(t - origin).total_seconds() / 86400 for t, _ in readings]
+    fit = None
+    if len(readings) >= trend.MIN_READINGS and max(days) > min(days):
+        fit = trend.trend_to_limit(days, [v for _, v in readings], trig.limit, rising)
+
+    def day(offset: float | None) -> dt.date | None:
+        if fit is None or offset is None or not np.isfinite(offset) or offset > 10 * HORIZON_DAYS:
+            return None
+        return max((origin + dt.timedelta(days=float(offset))).date(), today)
+
+    basis = (
+        f"Theil-Sen trend of {fit.n_points} readings: {fit.slope_per_day:+.4g} {unit}/day "
+        f"(95 % interval {fit.slope_low:+.4g} to {fit.slope_high:+.4g})"
+        if fit
+        else f"{len(readings)} reading(s) since the last service: too few for a trend"
+    )
+    return TriggerState(
+        metric=metrics.READING,
+        value=readings[-1][1],
+        limit=trig.limit,
+        rate_per_day=fit.slope_per_day if fit else None,
+        forecast=day(fit.crossing_day) if fit else None,
+        earliest=day(fit.earliest_day) if fit else None,
+        latest=day(fit.latest_day) if fit else None,
+        basis=f"{label} {trig.get_direction_display()} {trig.limit:g} {unit}; " + basis,
+        rising=rising,
+        unit=unit,
+    )
+
+
+def reason_text(state: TriggerState) -> str:
+    """One sentence that says why a plan is where it is: trigger, value, limit, rate and forecast."""
+    label = metrics.METRICS[state.metric][0]
+    unit = state.unit
+    if state.metric == metrics.READING:
+        head = f"latest reading {state.value:g} {unit}; {state.basis}"
+    else:
+        head = f"{label}: {state.value:,.0f} of {state.limit:,.0f} {unit}"
+        if state.rate_per_day is not None and state.metric != metrics.CALENDAR_DAYS:
+            head += f", about {state.rate_per_day:,.1f} {unit} per day expected over the next month"
+    if state.reached:
+        return f"{head}; limit reached."
+    if state.forecast is None:
+        return f"{head}; not reached within {HORIZON_DAYS // 366} years at the expected rate."
+    when = f"; forecast {state.forecast:%d %b %Y}"
+    if state.earliest and state.latest and state.earliest != state.latest:
+        when += f" (between {state.earliest:%d %b} and {state.latest:%d %b %Y})"
+    elif state.earliest and not state.latest:
+        when += f" (from {state.earliest:%d %b %Y}; the slow case runs past the horizon)"
+    return head + when + "."
+
+
+def _state_json(state: TriggerState) -> dict:
+    return {
+        "metric": state.metric,
+        "label": metrics.METRICS[state.metric][0],
+        "value": round(state.value, 3),
+        "limit": state.limit,
+        "unit": state.unit,
+        "rate_per_day": None if state.rate_per_day is None else round(state.rate_per_day, 4),
+        "forecast": state.forecast.isoformat() if state.forecast else None,
+        "earliest": state.earliest.isoformat() if state.earliest else None,
+        "latest": state.latest.isoformat() if state.latest else None,
+        "basis": state.basis,
+    }

@@ -1,0 +1,30 @@
+from django.core.management import call_command
+from django.core.management.base import BaseCommand
+
+from fixtures_demo import generator
+from observatory_ops.planning import selectors
+
+
+class Command(BaseCommand):
+    help = "Migrate, load the invented demo observatory (once), print the demo logins, then serve on 127.0.0.1:8000."
+
+    def add_arguments(self, parser):
+        parser.add_argument("--no-serve", action="store_true", help="stop after loading")
+        parser.add_argument("--port", default="8000")
+
+    def handle(self, *args, **options):
+        call_command("migrate", verbosity=0)
+        logins = generator.demo_users()
+        self.stdout.write("Loading the demo observatory (three years of nights; this takes a few seconds)...")
+        site, created = generator.build()
+        self.stdout.write(("Loaded " if created else "Already loaded: ") + site.name)
+        counts = selectors.status_counts(site)
+        self.stdout.write(f"Due summary: {counts['overdue']} overdue, {counts['due']} due, {counts['later']} later.")
+        for status in selectors.due_for_site(site)[:5]:
+            self.stdout.write(f"  [{status.status}] {status.plan.subsystem}: {status.plan.name}")
+        self.stdout.write("Demo logins (user / password):")
+        for username, role, password in logins:
+            self.stdout.write(f"  {role:<14} {username} / {password}")
+        if not options["no_serve"]:
+            self.stdout.write(f"Serving at http://127.0.0.1:{options['port']}/ (Ctrl-C to stop)")
+            call_command("runserver", f"127.0.0.1:{options['port']}", use_reloader=False)

@@ -1,0 +1,119 @@
+"""Sites, telescopes and the tree of subsystems."""
+from __future__ import annotations
+
+import zoneinfo
+
+from django.core.exceptions import ValidationError
+from django.core.validators import MaxValueValidator, MinValueValidator
+from django.db import models
+from django.urls import reverse
+
+from .catalogue import KIND_CHOICES, KINDS
+
+
+def validate_time_zone(value: str) -> None:
+    try:
+        zoneinfo.ZoneInfo(value)
+    except (zoneinfo.ZoneInfoNotFoundError, ValueError):
+        raise ValidationError(f"{value!r} is not an IANA time zone name (for example Europe/Madrid).") from None
+
+
+def validate_hazards(value) -> None:
+    from observatory_ops.workorders.cautions import HAZARDS
+
+    if not isinstance(value, list) or any(h not in HAZARDS for h in value):
+        raise ValidationError(f"hazards must be a list drawn from: {', '.join(HAZARDS)}")
+
+
+class Site(models.Model):
+    name = models.CharField(max_length=120)
+    slug = models.SlugField(unique=True)
+    latitude_deg = models.FloatField(validators=[MinValueValidator(-90), MaxValueValidator(90)])
+    longitude_deg = models.FloatField(validators=[MinValueValidator(-180), MaxValueValidator(180)])
+    elevation_m = models.FloatField(default=0)
+    time_zone = models.CharField(max_length=64, validators=[validate_time_zone], help_text="IANA name")
+    dust_climate = models.TextField(blank=True, help_text="When and from where dust arrives at this site.")
+    look_ahead_days = models.PositiveIntegerField(
+        default=30, help_text="Items forecast within this many days count as due."
+    )
+
+    class Meta:
+        ordering = ["name"]
+
+    def __str__(self) -> str:
+        return self.name
+
+    def get_absolute_url(self) -> str:
+        return reverse("site-dashboard", args=[self.slug])
+
+    @property
+    def zone(self) -> zoneinfo.ZoneInfo:
+        return zoneinfo.ZoneInfo(self.time_zone)
+
+
+class Telescope(models.Model):
+    class Mount(models.TextChoices):
+        FORK = "fork", "Equatorial fork"
+        GERMAN = "german", "German equatorial"
+        HORSESHOE = "horseshoe", "Horseshoe equatorial"
+        ALT_AZ = "altaz", "Alt-azimuth"
+        OTHER = "other", "Other"
+
+    site = models.ForeignKey(Site, on_delete=models.PROTECT, related_name="telescopes")
+    name = models.CharField(max_length=120)
+    aperture_m = models.FloatField(validators=[MinValueValidator(0.01), MaxValueValidator(20)])
+    mount = models.CharField(max_length=16, choices=Mount.choices)
+    tube_mass_kg = models.FloatField(null=True, blank=True, validators=[MinValueValidator(0)])
+    notes = models.TextField(blank=True)
+
+    class Meta:
+        ordering = ["site__name", "name"]
+        constraints = [models.UniqueConstraint(fields=["site", "name"], name="telescope_name_unique_per_site")]
+
+    def __str__(self) -> str:
+        return f"{self.name} ({self.aperture_m:g} m)"
+
+    @property
+    def equatorial(self) -> bool:
+        return self.mount != self.Mount.ALT_AZ
+
+    @property
+    def axis_names(self) -> tuple[str, str]:
+        return ("right ascension", "declination") if self.equatorial else ("azimuth", "elevation")
+
+
+class SubsystemQuerySet(models.QuerySet):
+    def in_service(self):
+        return self.filter(retired_on__isnull=True)
+
+
+class Subsystem(models.Model):
+    telescope = models.ForeignKey(Telescope, on_delete=models.PROTECT, related_name="subsystems")
+    parent = models.ForeignKey("self", null=True, blank=True, on_delete=models.PROTECT, related_name="children")
+    kind = models.CharField(max_length=32, choices=KIND_CHOICES)
+    name = models.CharField(max_length=120)
+    hazards = models.JSONField(default=list, blank=True, validators=[validate_hazards])
+    serial_number = models.CharField(max_length=80, blank=True)
+    notes = models.TextField(blank=True)
+    retired_on = models.DateField(null=True, blank=True)
+
+    objects = SubsystemQuerySet.as_manager()
+
+    class Meta:
+        ordering = ["telescope__name", "name"]
+
+    def __str__(self) -> str:
+        return f"{self.telescope.name}: {self.name}"
+
+    def get_absolute_url(self) -> str:
+        return reverse("subsystem-detail", args=[self.pk])
+
+    @property
+    def kind_label(self) -> str:
+        return KINDS[self.kind].label if self.kind in KINDS else self.kind
+
+    def clean(self) -> None:
+        if self.parent_id and self.parent.telescope_id != self.telescope_id:
+            raise ValidationError({"parent": "The parent must belong to the same telescope."})
+        if self.parent_id and self.pk and self.parent_id == self.pk:
+            raise ValidationError({"parent": "A subsystem cannot be its own parent."})

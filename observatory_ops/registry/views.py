@@ -1,0 +1,51 @@
+from django.shortcuts import get_object_or_404, redirect, render
+
+from observatory_ops.access.decorators import requires
+from observatory_ops.access.roles import VIEWER
+from observatory_ops.logbook.models import NightUsage
+from observatory_ops.planning import selectors as planning_selectors
+
+from .models import Site, Subsystem
+from .selectors import subsystem_tree
+
+
+@requires(VIEWER)
+def home(request):
+    sites = list(Site.objects.all())
+    if len(sites) == 1:
+        return redirect(sites[0])
+    return render(request, "registry/home.html", {"sites": sites})
+
+
+@requires(VIEWER)
+def site_dashboard(request, slug):
+    site = get_object_or_404(Site, slug=slug)
+    return render(
+        request,
+        "registry/site_dashboard.html",
+        {
+            "site": site,
+            "counts": planning_selectors.status_counts(site),
+            "upcoming": planning_selectors.due_for_site(site)[:12],
+            "telescopes": [(t, subsystem_tree(t)) for t in site.telescopes.all()],
+            "last_night": NightUsage.objects.filter(site=site).order_by("-night").first(),
+            "recent_service": planning_selectors.recent_service(site)[:8],
+        },
+    )
+
+
+@requires(VIEWER)
+def subsystem_detail(request, pk):
+    subsystem = get_object_or_404(Subsystem.objects.select_related("telescope__site", "parent"), pk=pk)
+    return render(
+        request,
+        "registry/subsystem_detail.html",
+        {
+            "subsystem": subsystem,
+            "site": subsystem.telescope.site,
+            "plans": planning_selectors.plans_with_status(subsystem),
+            "records": subsystem.service_records.select_related("plan", "performed_by", "corrects", "corrected_by"),
+            "readings": subsystem.readings.select_related("taken_by")[:50],
+            "children": subsystem.children.in_service(),
+        },
+    )

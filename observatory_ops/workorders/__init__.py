@@ -1,0 +1,1 @@
+"""Work orders: steps, parts, hazard-driven cautions, lifting figures, lifecycle and printable PDF."""

@@ -1,0 +1,225 @@
+"""The caution library: one caution per hazard, chosen by the hazards of a subsystem and a task.
+
+Pure data and one selection function, no Django imports, so the work-order pages, the PDF and the tests
+all read the same wording. The cautions are reminders of the usual controls, not a risk assessment;
+they never say that an isolation or a lift is safe.
+"""
+
+from __future__ import annotations
+
+from collections.abc import Iterable
+from dataclasses import dataclass
+
+HAZARDS: dict[str, str] = {
+    "electrical": "Hazardous electrical energy",
+    "pneumatic": "Stored pneumatic energy",
+    "moving_machinery": "Moving telescope and dome",
+    "suspended_load": "Suspended load",
+    "height": "Work at height",
+    "chemical": "Corrosive or irritant chemicals",
+    "cryogen": "Cryogens",
+    "laser": "Alignment lasers",
+    "optical_surface": "Delicate optical surfaces",
+}
+
+DANGER_TO_LIFE = 4
+SERIOUS_INJURY = 3
+INJURY = 2
+EQUIPMENT_DAMAGE = 1
+
+SEVERITY_LABELS: dict[int, str] = {
+    DANGER_TO_LIFE: "Danger to life",
+    SERIOUS_INJURY: "Risk of serious injury",
+    INJURY: "Risk of injury",
+    EQUIPMENT_DAMAGE: "Risk of damage to equipment",
+}
+
+PRECEDENCE_STATEMENT = (
+    "Local codes and regulations, the manufacturer's instructions and licensed practice take precedence "
+    "over this work order. Where they differ from it, follow them and tell the site engineer. The cautions "
+    "here are reminders of the usual controls, not a risk assessment, and no figure on this work order "
+    "means that a lift or an isolation is safe."
+)
+
+
+@dataclass(frozen=True)
+class Caution:
+    """A caution printed on a work order for one hazard.
+
+    ``severity`` runs from 1 (damage to equipment) to 4 (danger to life); higher is printed first.
+    ``standard`` names the standard or document that governs the controls.
+    """
+
+    hazard: str
+    severity: int
+    title: str
+    text: str
+    standard: str
+
+
+CAUTIONS: dict[str, Caution] = {
+    "electrical": Caution(
+        hazard="electrical",
+        severity=DANGER_TO_LIFE,
+        title=HAZARDS["electrical"],
+        text=(
+            "Isolate the supply at its disconnect, lock and tag it in your own name, and keep the key with you. "
+            "Before you touch any conductor, test for absence of voltage with a tester proved on a known live "
+            "source just before and just after the test. "
+            "Treat servo drives and power supplies as live until their capacitors have discharged for the time "
+            "the maker states. "
+            "Work on or near exposed live parts only under an energised-work permit, by a qualified person "
+            "wearing the protective equipment the arc-flash assessment calls for. "
+            "Remove your lock only when everyone is clear and the covers are back on."
+        ),
+        standard="OSHA 29 CFR 1910.147 (lockout/tagout); ANSI/ASSP Z244.1; NFPA 70E",
+    ),
+    "pneumatic": Caution(
+        hazard="pneumatic",
+        severity=SERIOUS_INJURY,
+        title=HAZARDS["pneumatic"],
+        text=(
+            "Close the air supply valve, lock and tag it, then vent the circuit through its exhaust before you "
+            "open any fitting. "
+            "Read the gauge and confirm zero pressure: receivers and lines trapped behind check valves can stay "
+            "pressurised after the supply is shut. "
+            "Expect brakes and clamps to move when pressure falls or returns, and keep hands out of their path. "
+            "When air returns the brakes release and an out-of-balance axis can swing, so balance or block the "
+            "axis first. "
+            "Restore air slowly, with everyone told and clear."
+        ),
+        standard="ISO 4414; OSHA 29 CFR 1910.147 (lockout/tagout)",
+    ),
+    "moving_machinery": Caution(
+        hazard="moving_machinery",
+        severity=DANGER_TO_LIFE,
+        # Slewing fast and stopping within about a second: common practice, no published source.
+        title=HAZARDS["moving_machinery"],
+        text=(
+            "A telescope mount can slew fast and stop within about a second, and the dome and shutter can move "
+            "on a schedule or a remote command. "
+            "Nobody may be in the swept volume of the telescope or the path of the dome while the drives are "
+            "energised. "
+            "Before entering, take the observatory out of robotic and remote control, switch off and lock out "
+            "the drives, and tell the remote operators. "
+            "Check that no axis can turn under gravity when its brake is released, and block it if it can. "
+            "Never rely on an emergency stop or a software limit in place of isolation."
+        ),
+        standard="OSHA 29 CFR 1910.147 (lockout/tagout)",
+    ),
+    "suspended_load": Caution(
+        hazard="suspended_load",
+        severity=DANGER_TO_LIFE,
+        title=HAZARDS["suspended_load"],
+        text=(
+            "Never stand, walk or reach under a suspended load, and keep everyone outside the exclusion zone "
+            "until the load is set down and blocked. "
+            "Inspect every sling and fitting before use and take out of service anything damaged or without a "
+            "legible rating. "
+            "Lift a few centimetres first, stop, and check balance, brakes and rigging before going higher. "
+            "Control the load with tag lines and let one person give the signals. "
+            "Follow the written lift plan and the rated capacities, not the figures on this sheet alone."
+        ),
+        standard="OSHA 29 CFR 1910.184 (slings)",
+    ),
+    "height": Caution(
+        hazard="height",
+        severity=DANGER_TO_LIFE,
+        title=HAZARDS["height"],
+        text=(
+            "Protect every open edge, hatch and shutter opening a person could fall through, with guardrails, "
+            "covers, or a restraint or fall-arrest system tied to a rated anchor. "
+            "Inspect harnesses, lanyards and anchors before use. "
+            "Work from a platform or scaffold made for the job, never from the telescope, the mount or a chair. "
+            "Tie tools against dropping and keep the area below clear. "
+            "Agree how a fallen worker would be rescued before the work begins."
+        ),
+        standard="OSHA 29 CFR 1910.28 (fall protection)",
+    ),
+    "chemical": Caution(
+        hazard="chemical",
+        severity=SERIOUS_INJURY,
+        title=HAZARDS["chemical"],
+        text=(
+            "Read the safety data sheet of every chemical before you use it and keep it at hand. "
+            "Wear the gloves, eye protection and clothing it calls for, and work with the ventilation it "
+            "requires. "
+            "Bring only the quantity the job needs, in labelled containers, and keep it away from optics you are "
+            "not cleaning. "
+            "Know where the eyewash and the spill kit are, and dispose of waste as the data sheet directs."
+        ),
+        standard="Safety data sheet of each chemical (GHS)",
+    ),
+    "cryogen": Caution(
+        hazard="cryogen",
+        severity=DANGER_TO_LIFE,
+        title=HAZARDS["cryogen"],
+        text=(
+            "Handle liquid nitrogen and other cryogens only in vessels made for them, wearing a face shield, "
+            "loose insulated gloves and clothing that covers arms and legs. "
+            "Fill and vent only where ventilation keeps enough oxygen in the air, and use an oxygen monitor in a "
+            "closed dome or a small room. "
+            "Never seal a cryogen in a closed container or trap it between two valves. "
+            "Move dewars on a trolley and never ride in a lift with one."
+        ),
+        standard="CGA P-12 (cryogenic liquids)",
+    ),
+    "laser": Caution(
+        hazard="laser",
+        severity=SERIOUS_INJURY,
+        title=HAZARDS["laser"],
+        text=(
+            "Read the laser's class on its label before you switch it on and apply the controls that class "
+            "requires. "
+            "Never look into the beam or at a mirror-like reflection of it, and keep the beam away from the eye "
+            "level of anyone standing or seated nearby. "
+            "Take off watches and rings, keep shiny tools out of the beam path, and stop the beam at the end of "
+            "its path. "
+            "Post a warning at the entrance while the laser is on, and switch it off when not in use."
+        ),
+        standard="ANSI Z136.1; IEC 60825-1",
+    ),
+    "optical_surface": Caution(
+        hazard="optical_surface",
+        severity=EQUIPMENT_DAMAGE,
+        title=HAZARDS["optical_surface"],
+        text=(
+            "Touch an optical surface only as the manufacturer's handling instructions allow, and never with "
+            "bare fingers. "
+            "Cover the mirror whenever you are not working on it, and keep tools, fasteners and drips away from "
+            "above it. "
+            "Clean only with the materials and method the coating supplier approves. "
+            "Report any scratch, chip or stain with a photograph before you carry on."
+        ),
+        standard="Manufacturer's handling instructions for the optic",
+    ),
+}
+
+_LIBRARY_ORDER = {code: position for position, code in enumerate(HAZARDS)}
+
+
+def cautions_for(hazards: Iterable[str]) -> list[Caution]:
+    """The cautions for a set of hazards, most severe first.
+
+    Parameters
+    ----------
+    hazards : iterable of str
+        Hazard codes (keys of ``HAZARDS``), for example those of a subsystem and of a task together;
+        repeats are allowed.
+
+    Returns
+    -------
+    list of Caution
+        One caution per distinct hazard, ordered by severity (danger to life first), then in the order
+        of ``HAZARDS``.
+    """
+    if isinstance(hazards, str):
+        raise ValueError(f"hazards must be a collection of hazard codes, not the single string {hazards!r}")
+    codes = list(hazards)
+    unknown = [code for code in codes if not isinstance(code, str) or code not in HAZARDS]
+    if unknown:
+        raise ValueError(f"unknown hazard {', '.join(map(repr, unknown))}; known hazards: {', '.join(HAZARDS)}")
+    return sorted(
+        (CAUTIONS[code] for code in set(codes)),
+        key=lambda caution: (-caution.severity, _LIBRARY_ORDER[caution.hazard]),
+    )

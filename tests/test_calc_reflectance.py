@@ -1,0 +1,192 @@
+"""Mirror reflectance decline fits (observatory_ops.calc.reflectance) against outside references.
+
+References used below:
+- scipy.stats.linregress and numpy.polyfit: ordinary least-squares line, slope and intercept standard errors;
+- scipy.optimize.curve_fit: independent non-linear least squares with the residual-scaled covariance;
+- the textbook standard error of the fitted mean response of a straight line,
+  s sqrt(1/n + (x - xbar)^2 / Sxx) (NIST/SEMATECH e-Handbook of Statistical Methods, chapter 4;
+  Draper and Smith, Applied Regression Analysis; from memory), solved with scipy.optimize.brentq;
+- Pogson's magnitude scale, m = -2.5 log10(flux ratio).
+The synthetic mirrors are invented test data.
+"""
+
+import numpy as np
+import pytest
+from hypothesis import given
+from hypothesis import strategies as st
+from scipy import optimize, stats
+
+from observatory_ops.calc.reflectance import crossing_exposure, fit_decline, predict, throughput_loss_mag
+
+R0, RATE, RECOVERY = 0.905, 2.0e-5, 0.6
+CLEANINGS = (1500.0, 3000.0, 4500.0)
+
+
+def last_cleaning(exposure: np.ndarray, cleanings=CLEANINGS) -> np.ndarray:
+    """The last cleaning at or before each exposure, by brute force."""
+    return np.array([max([c for c in cleanings if c <= e], default=0.0) for e in exposure])
+
+
+def synthetic_mirror(noise: float, seed: int = 7) -> tuple[np.ndarray, np.ndarray]:
+    """Invented readings: known rate and recovery, Gaussian measurement noise."""
+    exposure = np.linspace(0.0, 6000.0, 41)
+    clean = R0 - RATE * (exposure - RECOVERY * last_cleaning(exposure))
+    return exposure, clean + np.random.default_rng(seed).normal(0.0, noise, exposure.size)
+
+
+def straight_line_readings() -> tuple[np.ndarray, np.ndarray]:
+    exposure = np.array([0.0, 400.0, 900.0, 1300.0, 2100.0, 2600.0, 3300.0, 4100.0, 4700.0, 5200.0])
+    return exposure, 0.91 - 1.7e-5 * exposure + np.random.default_rng(3).normal(0.0, 0.003, exposure.size)
+
+
+def test_fit_without_cleanings_matches_scipy_linregress():
+    exposure, measured = straight_line_readings()
+    fit = fit_decline(exposure, measured)
+    reference = stats.linregress(exposure, measured)
+    assert fit.rate_per_hour == pytest.approx(-reference.slope, rel=1e-9)
+    assert fit.r0 == pytest.approx(reference.intercept, rel=1e-12)
+    assert fit.rate_sigma == pytest.approx(reference.stderr, rel=1e-9)
+    assert fit.r0_sigma == pytest.approx(reference.intercept_stderr, rel=1e-9)
+    np.testing.assert_allclose([-fit.rate_per_hour, fit.r0], np.polyfit(exposure, measured, 1), rtol=1e-9)
+    assert np.isnan(fit.recovery_fraction) and fit.n_points == exposure.size
+
+
+def test_fit_with_cleanings_matches_scipy_curve_fit():
+    exposure, measured = synthetic_mirror(noise=0.002)
+    fit = fit_decline(exposure, measured, CLEANINGS)
+
+    def model(x, r0, rate, recovery):
+        return r0 - rate * (x[0] - recovery * x[1])
+
+    params, covariance = optimize.curve_fit(
+        model, np.vstack([exposure, last_cleaning(exposure)]), measured, p0=[0.9, 1e-5, 0.5]
+    )
+    np.testing.assert_allclose([fit.r0, fit.rate_per_hour, fit.recovery_fraction], params, rtol=1e-6)
+    np.testing.assert_allclose(
+        [fit.r0_sigma, fit.rate_sigma, fit.recovery_sigma], np.sqrt(np.diag(covariance)), rtol=1e-5
+    )
+
+
+def test_synthetic_mirror_recovers_its_decline_rate_and_cleaning_recovery_within_three_sigma():
+    fit = fit_decline(*synthetic_mirror(noise=0.002), CLEANINGS)
+    assert abs(fit.r0 - R0) <= 3 * fit.r0_sigma
+    assert abs(fit.rate_per_hour - RATE) <= 3 * fit.rate_sigma
+    assert abs(fit.recovery_fraction - RECOVERY) <= 3 * fit.recovery_sigma
+    assert fit.residual_rms == pytest.approx(0.002, rel=0.3)
+
+
+def test_noise_free_mirror_is_fitted_exactly():
+    fit = fit_decline(*synthetic_mirror(noise=0.0), list(reversed(CLEANINGS)))
+    assert (fit.r0, fit.rate_per_hour, fit.recovery_fraction) == pytest.approx((R0, RATE, RECOVERY), rel=1e-9)
+    assert fit.cleaning_exposure_h == CLEANINGS
+
+
+def test_each_cleaning_recovers_its_fraction_of_the_loss_since_the_previous_cleaning():
+    fit = fit_decline(*synthetic_mirror(noise=0.0), CLEANINGS)
+    before, after = predict(fit, [2999.999999, 3000.0])
+    assert after - before == pytest.approx(RECOVERY * RATE * (3000.0 - 1500.0), rel=1e-5)
+
+
+def test_predict_can_assume_planned_cleanings():
+    fit = fit_decline(*synthetic_mirror(noise=0.0), CLEANINGS)
+    planned = (*CLEANINGS, 7000.0)
+    assert predict(fit, [7500.0], planned)[0] == pytest.approx(R0 - RATE * (7500.0 - RECOVERY * 7000.0))
+
+
+def test_crossing_of_a_noise_free_line_is_where_the_line_meets_the_threshold():
+    exposure = np.linspace(0.0, 3000.0, 7)
+    fit = fit_decline(exposure, 0.9 - 2e-5 * exposure)
+    crossing = crossing_exposure(fit, 0.85)
+    assert crossing.exposure_h == pytest.approx(2500.0)
+    assert crossing.early_h == pytest.approx(2500.0) and crossing.late_h == pytest.approx(2500.0)
+
+
+def test_crossing_band_matches_the_textbook_confidence_band_of_a_line():
+    exposure, measured = straight_line_readings()
+    reference = stats.linregress(exposure, measured)
+    residuals = measured - (reference.intercept + reference.slope * exposure)
+    s = np.sqrt(residuals @ residuals / (exposure.size - 2))
+    sxx = np.sum((exposure - exposure.mean()) ** 2)
+
+    def band_minus_threshold(x: float, side: float) -> float:
+        standard_error = s * np.sqrt(1 / exposure.size + (x - exposure.mean()) ** 2 / sxx)
+        return reference.intercept + reference.slope * x + side * standard_error - 0.84
+
+    crossing = crossing_exposure(fit_decline(exposure, measured), 0.84)
+    assert crossing.early_h == pytest.approx(optimize.brentq(band_minus_threshold, 0, 2e4, args=(-1.0,)), rel=1e-7)
+    assert crossing.late_h == pytest.approx(optimize.brentq(band_minus_threshold, 0, 2e4, args=(1.0,)), rel=1e-7)
+    assert crossing.early_h < crossing.exposure_h < crossing.late_h
+
+
+def test_crossing_after_cleanings_starts_from_the_last_cleaning():
+    fit = fit_decline(*synthetic_mirror(noise=0.002), CLEANINGS)
+    crossing = crossing_exposure(fit, 0.85)
+    root = optimize.brentq(lambda e: predict(fit, [e])[0] - 0.85, CLEANINGS[-1], 1e5)
+    assert crossing.exposure_h == pytest.approx(root, rel=1e-9)
+    assert CLEANINGS[-1] < crossing.early_h < crossing.exposure_h < crossing.late_h
+
+
+def test_crossing_band_is_open_ended_when_the_decline_is_not_significant():
+    exposure = np.array([0.0, 1000.0, 2000.0, 3000.0, 4000.0])
+    fit = fit_decline(exposure, np.array([0.900, 0.905, 0.895, 0.902, 0.897]))
+    assert fit.rate_sigma > abs(fit.rate_per_hour)
+    assert np.isinf(crossing_exposure(fit, 0.85).late_h)
+
+
+def test_mirror_already_below_threshold_crosses_at_its_last_cleaning():
+    fit = fit_decline(*synthetic_mirror(noise=0.0), CLEANINGS)
+    crossing = crossing_exposure(fit, 0.89)
+    assert crossing.exposure_h == crossing.early_h == crossing.late_h == CLEANINGS[-1]
+
+
+def test_three_mirrors_each_losing_seven_percent_cost_a_quarter_magnitude():
+    # Pogson: -2.5 log10((0.855 / 0.92)^3) = 7.5 * 0.03182 = 0.2387 mag, worked by hand.
+    assert throughput_loss_mag([0.855] * 3, [0.92] * 3) == pytest.approx(0.2387, abs=1e-4)
+
+
+@given(
+    st.lists(
+        st.tuples(st.floats(0.01, 1.0), st.floats(0.01, 1.0)),
+        min_size=1,
+        max_size=6,
+    )
+)
+def test_throughput_loss_of_a_train_is_the_sum_of_its_mirrors_losses(mirrors):
+    # Magnitudes of a product of flux ratios add (Pogson's scale is logarithmic).
+    now, fresh = zip(*mirrors, strict=True)
+    each = sum(throughput_loss_mag([n], [f]) for n, f in mirrors)
+    assert throughput_loss_mag(now, fresh) == pytest.approx(each, abs=1e-9)
+
+
+@pytest.mark.parametrize(
+    "call, message",
+    [
+        (lambda: fit_decline([0, 100, 200], [91.0, 90.0, 89.0]), "between 0 and 1"),
+        (lambda: fit_decline([0, 100], [0.91, 0.90]), "at least 3 readings"),
+        (lambda: fit_decline([0, 100, 200], [0.91, 0.90, 0.9], [150.0]), "at least 4 readings"),
+        (lambda: fit_decline([0, 100, 200], [0.91, 0.90]), "3 exposures but 2"),
+        (lambda: fit_decline([-5, 100, 200], [0.91, 0.90, 0.89]), ">= 0 hours"),
+        (lambda: fit_decline([100, 100, 100], [0.91, 0.90, 0.89]), "two different exposures"),
+        (lambda: fit_decline([600, 700, 800, 900], [0.91, 0.90, 0.89, 0.88], [500.0]), "cannot separate"),
+        (lambda: throughput_loss_mag([0.9, 1.2], [0.92, 0.92]), "between 0 and 1"),
+        (lambda: throughput_loss_mag([0.9], [0.92, 0.92]), "one present and one fresh"),
+        (lambda: throughput_loss_mag([0.0], [0.92]), "reflectance of 0"),
+    ],
+)
+def test_bad_input_is_refused_with_a_clear_message(call, message):
+    with pytest.raises(ValueError, match=message):
+        call()
+
+
+def test_recovery_unknown_without_a_reading_after_the_cleaning_is_refused():
+    fit = fit_decline([0.0, 500.0, 1000.0], [0.91, 0.90, 0.89], [1200.0])
+    with pytest.raises(ValueError, match="recovery is unknown"):
+        predict(fit, [1500.0])
+    with pytest.raises(ValueError, match="recovery is unknown"):
+        crossing_exposure(fit, 0.85)
+
+
+def test_threshold_outside_zero_to_one_is_refused():
+    fit = fit_decline([0.0, 500.0, 1000.0], [0.91, 0.90, 0.89])
+    with pytest.raises(ValueError, match="threshold must lie between 0 and 1"):
+        crossing_exposure(fit, 85.0)

@@ -1,0 +1,110 @@
+"""Specifications for the caution library observatory_ops.workorders.cautions (pure data, no database)."""
+
+import re
+
+import pytest
+
+from observatory_ops.workorders.cautions import (
+    CAUTIONS,
+    DANGER_TO_LIFE,
+    HAZARDS,
+    PRECEDENCE_STATEMENT,
+    SEVERITY_LABELS,
+    Caution,
+    cautions_for,
+)
+
+# The standard each hazard must name, from PRODUCT.md "Facts a check may use": OSHA 29 CFR 1910.147,
+# ANSI/ASSP Z244.1 and NFPA 70E (electrical), ISO 4414 (pneumatic), OSHA 1910.184 (slings), OSHA 1910.28
+# (fall protection), ANSI Z136.1 / IEC 60825-1 (lasers), safety data sheets under GHS (chemicals),
+# CGA P-12 (cryogens); the manufacturer's handling instructions for optical surfaces.
+REQUIRED_STANDARDS = {
+    "electrical": ("1910.147", "Z244.1", "NFPA 70E"),
+    "pneumatic": ("ISO 4414",),
+    "moving_machinery": ("1910.147",),
+    "suspended_load": ("1910.184",),
+    "height": ("1910.28",),
+    "chemical": ("safety data sheet", "GHS"),
+    "cryogen": ("CGA P-12",),
+    "laser": ("ANSI Z136.1", "IEC 60825-1"),
+    "optical_surface": ("manufacturer",),
+}
+
+
+def test_every_hazard_has_a_caution_naming_its_standard():
+    assert set(CAUTIONS) == set(HAZARDS) == set(REQUIRED_STANDARDS)
+    for code, caution in CAUTIONS.items():
+        assert caution.hazard == code
+        assert caution.title == HAZARDS[code]
+        assert caution.severity in SEVERITY_LABELS
+        for name in REQUIRED_STANDARDS[code]:
+            assert name.lower() in caution.standard.lower(), (code, name)
+
+
+def test_every_caution_is_three_to_six_sentences():
+    for code, caution in CAUTIONS.items():
+        sentences = re.findall(r"[.!?](?:\s|$)", caution.text)
+        assert 3 <= len(sentences) <= 6, code
+
+
+def test_cautions_are_ordered_by_severity_danger_to_life_first():
+    cautions = cautions_for(HAZARDS)
+    severities = [caution.severity for caution in cautions]
+    assert severities == sorted(severities, reverse=True)
+    assert cautions[0].severity == DANGER_TO_LIFE
+    assert cautions[-1].hazard == "optical_surface"
+
+
+def test_equal_severity_keeps_library_order_whatever_the_input_order():
+    forward = cautions_for(["electrical", "moving_machinery", "height"])
+    backward = cautions_for(["height", "moving_machinery", "electrical"])
+    assert [caution.hazard for caution in forward] == ["electrical", "moving_machinery", "height"]
+    assert forward == backward
+
+
+def test_union_of_subsystem_and_task_hazards_has_no_repeats():
+    subsystem = ["electrical", "moving_machinery", "optical_surface"]
+    task = ["suspended_load", "electrical", "optical_surface", "height"]
+    cautions = cautions_for(subsystem + task)
+    assert [caution.hazard for caution in cautions] == [
+        "electrical",
+        "moving_machinery",
+        "suspended_load",
+        "height",
+        "optical_surface",
+    ]
+
+
+def test_no_hazards_give_no_cautions():
+    assert cautions_for([]) == []
+
+
+def test_moving_machinery_caution_says_the_mount_stops_within_about_a_second():
+    # Common practice, no published source: a mount can slew fast and stop within about a second.
+    text = CAUTIONS["moving_machinery"].text
+    assert "within about a second" in text
+    assert "swept volume" in text and "energised" in text
+
+
+def test_unknown_hazard_raises_value_error_listing_known_hazards():
+    with pytest.raises(ValueError, match="unknown hazard 'radiation'") as excinfo:
+        cautions_for(["electrical", "radiation"])
+    for code in HAZARDS:
+        assert code in str(excinfo.value)
+
+
+def test_single_string_instead_of_a_collection_raises_value_error():
+    with pytest.raises(ValueError, match="not the single string"):
+        cautions_for("electrical")
+
+
+def test_precedence_statement_names_local_codes_manufacturer_and_licensed_practice():
+    statement = PRECEDENCE_STATEMENT.lower()
+    for phrase in ("local codes", "manufacturer's instructions", "licensed practice", "take precedence"):
+        assert phrase in statement
+
+
+def test_cautions_are_immutable():
+    with pytest.raises(AttributeError):
+        CAUTIONS["laser"].severity = 1  # type: ignore[misc]
+    assert isinstance(CAUTIONS["laser"], Caution)
