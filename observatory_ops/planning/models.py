@@ -71,6 +71,7 @@ class PlanStatus(models.Model):
     plan = models.OneToOneField(ServicePlan, on_delete=models.CASCADE, primary_key=True, related_name="status")
     site = models.ForeignKey(Site, on_delete=models.CASCADE, related_name="+")
     status = models.CharField(max_length=8, choices=[(s, s) for s in STATUSES])
+    urgency = models.PositiveSmallIntegerField(help_text="0 overdue, 1 due, 2 later: sorts the due list.")
     metric = models.CharField(max_length=24, choices=METRIC_CHOICES)
     value = models.FloatField()
     limit = models.FloatField()
@@ -85,7 +86,10 @@ class PlanStatus(models.Model):
     computed_at = models.DateTimeField()
 
     class Meta:
-        indexes = [models.Index(fields=["site", "status", "forecast_date"])]
+        indexes = [
+            models.Index(fields=["site", "status", "forecast_date"]),
+            models.Index(fields=["urgency", "forecast_date"]),
+        ]
 
 
 class NightSky(models.Model):

@@ -1,19 +1,23 @@
 """Reads of the planning app for pages, commands and the API."""
 from __future__ import annotations
 
+import datetime as dt
+
+import numpy as np
 from django.db.models import Count, Prefetch, QuerySet
 
 from observatory_ops.calc.triggers import STATUSES
 from observatory_ops.logbook.models import ServiceRecord
 from observatory_ops.registry.models import Site, Subsystem
 
-from .models import PlanStatus, ServicePlan, Trigger
+from . import metrics, plots
+from .models import NightSky, PlanStatus, ServicePlan, Trigger
 
 
 def due_rows() -> QuerySet[PlanStatus]:
     """Every computed plan state with what a due-list row shows, in one query, most urgent first."""
     return PlanStatus.objects.select_related("plan__subsystem__telescope__site").order_by(
-        "forecast_date", "plan__subsystem__telescope__name"
+        "urgency", "forecast_date", "plan__subsystem__telescope__name"
     )
 
 
@@ -40,3 +44,85 @@ def plans_with_status(subsystem: Subsystem) -> QuerySet[ServicePlan]:
         .prefetch_related(Prefetch("triggers", queryset=Trigger.objects.order_by("metric")))
         .order_by("-active", "name")
     )
+
+
+def _iso_utc(moment) -> str | None:
+    return moment.astimezone(dt.UTC).strftime("%Y-%m-%dT%H:%M:%SZ") if moment else None
+
+
+def sky_records(site: Site, start: dt.date, end: dt.date) -> list[dict]:
+    """Cached nights of a site as JSON-ready dicts (same keys as ``calc.nights.NightTable.to_records``)."""
+    return [
+        {
+            "date": n.night.isoformat(),
+            "sunset": _iso_utc(n.sunset),
+            "sunrise": _iso_utc(n.sunrise),
+            "dusk": _iso_utc(n.dusk),
+            "dawn": _iso_utc(n.dawn),
+            "dark_hours": round(n.dark_hours, 4),
+            "moon_illumination": round(n.moon_illumination, 4),
+            "moonless_dark_hours": round(n.moonless_dark_hours, 4),
+        }
+        for n in NightSky.objects.filter(site=site, night__gte=start, night__lte=end).order_by("night")
+    ]
+
+
+def due_record(status: PlanStatus) -> dict:
+    """One plan's due state as a JSON-ready dict (the `due` command and the API use it)."""
+    subsystem = status.plan.subsystem
+    return {
+        "site": subsystem.telescope.site.slug,
+        "subsystem": f"{subsystem.telescope.name}: {subsystem.name}",
+        "subsystem_id": subsystem.pk,
+        "plan": status.plan.name,
+        "plan_id": status.plan_id,
+        "status": status.status,
+        "trigger": status.metric,
+        "value": round(status.value, 3),
+        "limit": status.limit,
+        "unit": status.unit,
+        "rate": None if status.rate_per_day is None else round(status.rate_per_day, 4),
+        "forecast_date": status.forecast_date.isoformat() if status.forecast_date else None,
+        "earliest": status.earliest.isoformat() if status.earliest else None,
+        "latest": status.latest.isoformat() if status.latest else None,
+        "reason": status.reason,
+    }
+
+
+def plans_with_plots(subsystem: Subsystem) -> list[ServicePlan]:
+    """The subsystem's plans, each with ``plot``: an SVG of its governing trigger (see ``plots``)."""
+    from .services import UsageLog, site_today
+
+    site = subsystem.telescope.site
+    today = site_today(site)
+    plans = list(plans_with_status(subsystem))
+    log = None
+    for plan in plans:
+        status = getattr(plan, "status", None)  # a plan not computed yet has none
+        plan.plot = None
+        if status is None:
+            continue
+        baseline = max(status.last_service_on or plan.counting_from, plan.counting_from)
+        rising = True
+        if status.metric == metrics.CALENDAR_DAYS:
+            points = [(baseline, 0.0), (today, status.value)]
+        elif status.metric == metrics.READING:
+            trigger = next(t for t in plan.triggers.all() if t.metric == metrics.READING)
+            rising = trigger.direction == Trigger.Direction.ABOVE
+            points = [
+                (taken.astimezone(site.zone).date(), value)
+                for taken, value in subsystem.readings.filter(quantity=trigger.quantity)
+                .order_by("taken_at")
+                .values_list("taken_at", "value")
+            ]
+        else:
+            log = log or UsageLog.for_site(site)
+            keep = log.nights >= np.datetime64(baseline, "D")
+            totals = np.cumsum(log.per_night(status.metric, plan.dust_sensitivity)[keep])
+            days = log.nights[keep].astype(object)
+            points = [(baseline, 0.0)] + list(zip(days, totals.tolist(), strict=True))
+        plan.plot = plots.accumulation_svg(
+            points, status.limit, status.unit, today, status.value, status.forecast_date, status.earliest,
+            status.latest, rising=rising, title=f"{plan.name}: {status.get_metric_display()}",
+        )
+    return plans

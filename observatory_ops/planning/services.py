@@ -15,7 +15,7 @@ from django.db.models import Max
 from django.utils import timezone
 
 from observatory_ops.calc import exposure, forecast, nights, trend
-from observatory_ops.calc.triggers import TriggerState, due_status, governing
+from observatory_ops.calc.triggers import STATUSES, TriggerState, due_status, governing
 from observatory_ops.logbook.models import NightUsage, Reading, ServiceRecord
 from observatory_ops.logbook.quantities import QUANTITIES
 from observatory_ops.registry.catalogue import kind as catalogue_kind
@@ -305,11 +305,13 @@ def site_recompute(site: Site, today: dt.date | None = None) -> int:
             continue
         gov = governing(states[plan.pk])
         ordered = [gov] + [s for s in states[plan.pk] if s is not gov]
+        status = due_status(gov, today, site.look_ahead_days)
         rows.append(
             PlanStatus(
                 plan=plan,
                 site=site,
-                status=due_status(gov, today, site.look_ahead_days),
+                status=status,
+                urgency=STATUSES.index(status),
                 metric=gov.metric,
                 value=gov.value,
                 limit=gov.limit,

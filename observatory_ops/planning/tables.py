@@ -5,7 +5,7 @@ from .models import PlanStatus
 
 
 class DueTable(tables.Table):
-    status = tables.Column(order_by=("status", "forecast_date"))
+    status = tables.Column(order_by=("urgency", "forecast_date"))
     site = tables.Column(accessor="plan__subsystem__telescope__site__name", verbose_name="Site")
     telescope = tables.Column(accessor="plan__subsystem__telescope__name", verbose_name="Telescope")
     subsystem = tables.Column(accessor="plan__subsystem__name", verbose_name="Subsystem")
@@ -20,7 +20,7 @@ class DueTable(tables.Table):
         fields = ()
         sequence = ("status", "site", "telescope", "subsystem", "plan", "metric", "progress", "forecast_date", "reason")
         attrs = {"class": "due-table"}
-        order_by = "forecast_date"
+        order_by = ("status",)
 
     def render_status(self, value):
         return format_html('<span class="status status-{}">{}</span>', value, value)

@@ -43,7 +43,7 @@ def subsystem_detail(request, pk):
         {
             "subsystem": subsystem,
             "site": subsystem.telescope.site,
-            "plans": planning_selectors.plans_with_status(subsystem),
+            "plans": planning_selectors.plans_with_plots(subsystem),
             "records": subsystem.service_records.select_related("plan", "performed_by", "corrects", "corrected_by"),
             "readings": subsystem.readings.select_related("taken_by")[:50],
             "children": subsystem.children.in_service(),

@@ -1,0 +1,28 @@
+import json
+
+from django.core.management.base import BaseCommand, CommandError
+
+from observatory_ops.planning import selectors
+from observatory_ops.registry.models import Site
+
+
+class Command(BaseCommand):
+    help = "Every service plan's governing trigger, value, limit, rate and forecast date with its band."
+
+    def add_arguments(self, parser):
+        parser.add_argument("--site", help="site slug (default: all sites)")
+        parser.add_argument("--json", action="store_true", dest="as_json", help="print a JSON list, one per plan")
+
+    def handle(self, *args, site=None, as_json=False, **options):
+        rows = selectors.due_rows()
+        if site:
+            target = Site.objects.filter(slug=site).first()
+            if target is None:
+                raise CommandError(f"no site with slug {site!r}")
+            rows = rows.filter(site=target)
+        records = [selectors.due_record(s) for s in rows]
+        if as_json:
+            self.stdout.write(json.dumps(records, indent=1))
+            return
+        for r, s in zip(records, rows, strict=True):
+            self.stdout.write(f"[{s.status:<7}] {r['subsystem']}: {r['plan']}\n          {s.reason}")
