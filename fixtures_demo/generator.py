@@ -20,6 +20,7 @@ from observatory_ops.planning.metrics import READING
 from observatory_ops.planning.models import Trigger
 from observatory_ops.registry.models import Site, Telescope
 from observatory_ops.registry.services import subsystem_create
+from observatory_ops.workorders.models import IsolationPoint, Part
 
 SEED = 20261202
 SITE_SLUG = "vestal-ridge"
@@ -119,6 +120,7 @@ def build(today: dt.date | None = None) -> tuple[Site, bool]:
         _usage(site, start, today, rng)
         _drive_settle_triggers(subsystems, users["technician"], today, rng)
         _service_history(site, subsystems, users, today, rng)
+        _workshop(site, (t70, r40))
         planning.site_recompute(site, today)
     return site, True
 
@@ -188,3 +190,43 @@ def _service_history(site, subsystems, users, today: dt.date, rng: np.random.Gen
                     )
                 )
     ServiceRecord.objects.bulk_create(records)
+
+
+def _workshop(site: Site, telescopes) -> None:
+    """Energy isolation points of each telescope and the site's spare-parts shelf (one part below reorder)."""
+    for telescope in telescopes:
+        IsolationPoint.objects.bulk_create(
+            [
+                IsolationPoint(
+                    telescope=telescope, energy=IsolationPoint.Energy.AC, label=f"{telescope.name} mount isolator",
+                    location="pier cabinet, left door", verify="mount controller display stays dark when switched on",
+                ),
+                IsolationPoint(
+                    telescope=telescope, energy=IsolationPoint.Energy.SERVO,
+                    label=f"{telescope.name} servo amplifier enable key", location="pier cabinet",
+                    verify="drive status lamps off; axis does not answer a jog command",
+                ),
+                IsolationPoint(
+                    telescope=telescope, energy=IsolationPoint.Energy.DC, label="24 V instrument supply breaker",
+                    location="rack 2, breaker 4", verify="meter reads 0 V at the focuser terminal block",
+                ),
+            ]
+        )
+    IsolationPoint.objects.create(
+        telescope=telescopes[0], energy=IsolationPoint.Energy.AIR, label="brake air supply valve",
+        location="compressor room, blue valve", verify="gauge at the brake manifold reads zero after bleeding",
+    )
+    Part.objects.bulk_create(
+        [
+            Part(site=site, name="Fan intake filter 120 mm", part_number="VR-FLT-120", quantity_on_hand=3,
+                 reorder_point=4, location="store, shelf B2"),
+            Part(site=site, name="Brake pad set", part_number="VR-BRK-07", quantity_on_hand=2, reorder_point=1,
+                 location="store, shelf C1", unit="set"),
+            Part(site=site, name="CO2 cylinder for snow cleaning", part_number="VR-CO2-10", quantity_on_hand=1,
+                 reorder_point=1, location="gas cage", unit="cylinder"),
+            Part(site=site, name="Encoder cleaning swabs", part_number="VR-SWB-50", quantity_on_hand=40,
+                 reorder_point=10, location="store, shelf A4", unit="swab"),
+            Part(site=site, name="Drive roller wipes (solvent)", part_number="VR-WIP-20", quantity_on_hand=12,
+                 reorder_point=5, location="flammables cabinet", unit="pack"),
+        ]
+    )

@@ -9,4 +9,5 @@ urlpatterns = [
     path("", include("observatory_ops.registry.urls")),
     path("", include("observatory_ops.logbook.urls")),
     path("", include("observatory_ops.planning.urls")),
+    path("", include("observatory_ops.workorders.urls")),
 ]

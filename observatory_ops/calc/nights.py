@@ -6,8 +6,9 @@ nearest local midnight: the setting before it and the rising after it.
 
 How it is computed, for a whole range of nights at once:
 
-1. astropy gives the apparent geocentric places of the Sun and the Moon (true equator and equinox of
-   date) and the local apparent sidereal time, once per day at 00:00 UTC, in one array call.
+1. astropy gives the apparent geocentric places of the Sun and the Moon and the local apparent sidereal
+   time once per day at 00:00 UTC, in one array call; ERFA's IAU 2006/2000A matrix turns the places to
+   the true equator and equinox of date, the frame of apparent sidereal time.
 2. Between those daily nodes the hour angle (sidereal time minus right ascension, less the steady
    Earth rotation) and the declination and distance are cubic splines. Daily nodes keep the Moon
    within about 4 arcseconds of astropy's own place, the Sun within 0.001 arcsecond; it is what
@@ -25,9 +26,10 @@ import math
 from dataclasses import dataclass
 from zoneinfo import ZoneInfo, ZoneInfoNotFoundError
 
+import erfa
 import numpy as np
 from astropy import units as u
-from astropy.coordinates import TETE, EarthLocation, SkyCoord, get_body, get_sun
+from astropy.coordinates import EarthLocation, get_body, get_sun
 from astropy.time import Time
 from numpy.typing import NDArray
 from scipy.interpolate import CubicSpline
@@ -52,6 +54,8 @@ _SIDEREAL_RATE_RAD_PER_DAY = math.radians(360.98564736629)
 #: Sampling of the dark-hour integration; crossings are interpolated inside a step, so 5 minutes keeps the
 #: sums within seconds of the exact event times.
 _SAMPLE_STEP_DAYS = 5.0 / 1440.0
+#: Nights integrated together for dark hours (bounds memory on twenty-year ranges).
+_NIGHTS_PER_BATCH = 366
 #: Newton steps for event times; each one shrinks the error by more than a factor of 100 away from
 #: grazing nights, so four leave it far below a second.
 _EVENT_REFINEMENTS = 4
@@ -201,13 +205,14 @@ def nights_for_range(site: Site, start: dt.date, days: int) -> NightTable:
 # --- input checks -------------------------------------------------------------------------------
 
 
-def _check_number(name: str, value: float, limit_deg: float) -> None:
+def _check_number(name: str, value: object, limit: float) -> None:
+    """A number with ``|value| <= limit`` degrees; an infinite limit asks only for a finite number."""
     try:
         number = float(value)
     except (TypeError, ValueError):
         raise ValueError(f"{name} must be a number, not {value!r}") from None
-    if not (math.isfinite(number) and abs(number) <= limit_deg):
-        allowed = "a finite number" if math.isinf(limit_deg) else f"between -{limit_deg:g} and {limit_deg:g} degrees"
+    if not (math.isfinite(number) and abs(number) <= limit):
+        allowed = "a finite number" if math.isinf(limit) else f"between -{limit:g} and {limit:g} degrees"
         raise ValueError(f"{name} must be {allowed}, not {value!r}")
 
 
@@ -277,19 +282,25 @@ def _tracks(site: Site, nodes: NDArray[np.float64]) -> tuple[_Track, _Track]:
     """Sun and Moon tracks from one astropy evaluation at the nodes (days)."""
     times = Time(nodes * _SECONDS_PER_DAY, format="unix", scale="utc")
     sidereal = times.sidereal_time("apparent", longitude=site.longitude_deg * u.deg).rad
-    frame = TETE(obstime=times)
+    # GCRS to true equator and equinox of date (IAU 2006/2000A), the rotation astropy's TETE frame applies to a
+    # geocentric place. Applied here directly: SkyCoord.transform_to(TETE) compares its per-instant frame
+    # attributes element by element and took a third of the run time.
+    terrestrial = times.tt
+    to_true_equator = erfa.pnm06a(terrestrial.jd1, terrestrial.jd2)
     return tuple(
-        _track(nodes, sidereal, body.transform_to(frame)) for body in (get_sun(times), get_body("moon", times))
+        _track(nodes, sidereal, erfa.rxp(to_true_equator, body.cartesian.xyz.to_value(u.km).T))
+        for body in (get_sun(times), get_body("moon", times))
     )
 
 
-def _track(nodes: NDArray[np.float64], sidereal_rad: NDArray[np.float64], place: SkyCoord) -> _Track:
-    drift = sidereal_rad - place.ra.rad - _SIDEREAL_RATE_RAD_PER_DAY * (nodes - nodes[0])
+def _track(nodes: NDArray[np.float64], sidereal_rad: NDArray[np.float64], place_km: NDArray[np.float64]) -> _Track:
+    right_ascension, declination, distance = erfa.p2s(place_km)
+    drift = sidereal_rad - right_ascension - _SIDEREAL_RATE_RAD_PER_DAY * (nodes - nodes[0])
     return _Track(
         epoch_days=float(nodes[0]),
         hour_angle_drift_rad=CubicSpline(nodes, np.unwrap(drift)),
-        declination_rad=CubicSpline(nodes, place.dec.rad),
-        distance_km=CubicSpline(nodes, place.distance.to_value(u.km)),
+        declination_rad=CubicSpline(nodes, declination),
+        distance_km=CubicSpline(nodes, distance),
     )
 
 
@@ -376,8 +387,23 @@ def _dark_hours(
 ) -> tuple[NDArray[np.float64], NDArray[np.float64]]:
     """Hours of each noon-to-noon span with the Sun below -18 deg, and of those with the Moon down too.
 
-    Samples every 5 minutes; the last sample of each night is its closing noon (shorter steps after it
-    have zero length), so 23- and 25-hour DST nights are measured exactly.
+    Taken a year of nights at a time, so the sample arrays stay a few megabytes however long the range.
+    """
+    batches = [
+        _dark_hours_of_batch(sun, moon, observer, noons[first : first + _NIGHTS_PER_BATCH + 1])
+        for first in range(0, noons.size - 1, _NIGHTS_PER_BATCH)
+    ]
+    dark, moonless = (np.concatenate(column) for column in zip(*batches, strict=True))
+    return dark, moonless
+
+
+def _dark_hours_of_batch(
+    sun: _Track, moon: _Track, observer: _Observer, noons: NDArray[np.float64]
+) -> tuple[NDArray[np.float64], NDArray[np.float64]]:
+    """:func:`_dark_hours` for the nights between consecutive ``noons``.
+
+    Samples every 5 minutes from each opening noon; samples past the closing noon are held at it and add
+    steps of zero length, so 23- and 25-hour DST nights are measured exactly.
     """
     span = np.diff(noons)
     steps = math.ceil(span.max() / _SAMPLE_STEP_DAYS)

@@ -79,6 +79,9 @@ class ServiceRecord(models.Model):
         help_text="The earlier record this one replaces.",
     )
     void = models.BooleanField(default=False, help_text="This correction withdraws the record it corrects.")
+    work_order = models.ForeignKey(
+        "workorders.WorkOrder", null=True, blank=True, on_delete=models.PROTECT, related_name="service_records"
+    )
     created_at = models.DateTimeField(auto_now_add=True)
     created_by = models.ForeignKey(settings.AUTH_USER_MODEL, on_delete=models.PROTECT, related_name="+")
 

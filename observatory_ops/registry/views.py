@@ -4,6 +4,7 @@ from observatory_ops.access.decorators import requires
 from observatory_ops.access.roles import VIEWER
 from observatory_ops.logbook.models import NightUsage
 from observatory_ops.planning import selectors as planning_selectors
+from observatory_ops.workorders import selectors as workorder_selectors
 
 from .models import Site, Subsystem
 from .selectors import subsystem_tree
@@ -30,6 +31,10 @@ def site_dashboard(request, slug):
             "telescopes": [(t, subsystem_tree(t)) for t in site.telescopes.all()],
             "last_night": NightUsage.objects.filter(site=site).order_by("-night").first(),
             "recent_service": planning_selectors.recent_service(site)[:8],
+            "low_stock": workorder_selectors.low_stock(site),
+            "open_work_orders": workorder_selectors.work_orders()
+            .filter(site=site, state__in=["draft", "issued", "underway", "finished"])
+            .order_by("planned_date")[:10],
         },
     )
 

@@ -1,0 +1,45 @@
+"""The night a moment belongs to, in a site's own time zone."""
+from __future__ import annotations
+
+import datetime as dt
+import zoneinfo
+
+_NOON = dt.time(12, 0)
+
+
+def night_of(moment_utc: dt.datetime, zone: str) -> dt.date:
+    """The night a moment belongs to: the local date of that night's evening.
+
+    Method
+    ------
+    The moment is converted to local civil time with the IANA time zone database (through
+    :mod:`zoneinfo`, PEP 615), which carries each zone's UTC offset and daylight-saving rules. A night
+    runs from local noon to the next local noon, so a local time before noon belongs to the previous
+    date and a local time at or after noon to its own date. Because the split is made on the local
+    clock, a night that contains a daylight-saving change is still one night (it is 23 or 25 hours
+    long instead of 24).
+
+    Parameters
+    ----------
+    moment_utc : an aware datetime (any offset; it is read as an instant).
+    zone : IANA time zone name of the site, e.g. ``"America/Denver"``.
+
+    Returns
+    -------
+    The local date of the evening of the night containing ``moment_utc``.
+
+    Raises
+    ------
+    ValueError
+        When ``moment_utc`` is naive or ``zone`` is not an IANA time zone name.
+    """
+    if not isinstance(moment_utc, dt.datetime) or moment_utc.utcoffset() is None:
+        raise ValueError(f"the moment must be an aware datetime (with a UTC offset), not {moment_utc!r}")
+    try:
+        tz = zoneinfo.ZoneInfo(zone)
+    except (zoneinfo.ZoneInfoNotFoundError, ValueError, TypeError):
+        raise ValueError(f"{zone!r} is not an IANA time zone name (for example Europe/Madrid)") from None
+    local = moment_utc.astimezone(tz)
+    if local.time() < _NOON:
+        return local.date() - dt.timedelta(days=1)
+    return local.date()

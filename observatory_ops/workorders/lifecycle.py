@@ -1,0 +1,43 @@
+"""Who may move a work order from which state to which: one table, read by services and pages.
+
+draft --issue--> issued --start--> underway --finish--> finished --countersign--> countersigned
+draft / issued / underway --withdraw--> withdrawn
+
+Finishing records hours, findings, readings and parts, and writes the service records. Countersigning
+is done by a second person: never the one who finished the work.
+"""
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+from observatory_ops.access.roles import ENGINEER, TECHNICIAN
+
+from .models import State
+
+
+@dataclass(frozen=True)
+class Transition:
+    action: str
+    label: str
+    sources: tuple[str, ...]
+    target: str
+    role: str
+
+
+TRANSITIONS: dict[str, Transition] = {
+    t.action: t
+    for t in (
+        Transition("issue", "Issue to the technicians", (State.DRAFT,), State.ISSUED, ENGINEER),
+        Transition("start", "Start work", (State.ISSUED,), State.UNDERWAY, TECHNICIAN),
+        Transition("finish", "Finish and record", (State.UNDERWAY,), State.FINISHED, TECHNICIAN),
+        Transition("countersign", "Countersign (second person)", (State.FINISHED,), State.COUNTERSIGNED, TECHNICIAN),
+        Transition(
+            "withdraw", "Withdraw", (State.DRAFT, State.ISSUED, State.UNDERWAY), State.WITHDRAWN, ENGINEER
+        ),
+    )
+}
+
+
+def available(state: str) -> list[Transition]:
+    """Transitions that leave ``state`` (whoever may take them)."""
+    return [t for t in TRANSITIONS.values() if state in t.sources]

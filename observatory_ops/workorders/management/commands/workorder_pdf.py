@@ -1,0 +1,27 @@
+from pathlib import Path
+
+from django.core.management.base import BaseCommand, CommandError
+
+from observatory_ops.workorders import pdf, selectors
+from observatory_ops.workorders.models import WorkOrder
+
+
+class Command(BaseCommand):
+    help = "Write the printable PDF of one work order."
+
+    def add_arguments(self, parser):
+        parser.add_argument("id", type=int, help="work order id (the number without WO- and zeros)")
+        parser.add_argument("-o", "--output", required=True, help="PDF file to write")
+        parser.add_argument("--paper", choices=["A4", "letter"], default="A4")
+        parser.add_argument(
+            "--base-url", default="http://127.0.0.1:8000", help="address of the site, for the QR code"
+        )
+
+    def handle(self, *args, **o):
+        order = WorkOrder.objects.select_related("site", "telescope", "assignee").filter(pk=o["id"]).first()
+        if order is None:
+            raise CommandError(f"no work order with id {o['id']}")
+        url = o["base_url"].rstrip("/") + order.get_absolute_url()
+        data = pdf.render_sheet(selectors.sheet(order, url), o["paper"])
+        Path(o["output"]).write_bytes(data)
+        self.stdout.write(f"{order.number}: {len(data):,} bytes written to {o['output']}")

@@ -1,0 +1,177 @@
+"""Work orders, what they cover, the readings they ask for, spare parts, and energy isolation points."""
+from __future__ import annotations
+
+from django.conf import settings
+from django.core.validators import MinValueValidator
+from django.db import models
+from django.urls import reverse
+
+from observatory_ops.logbook.quantities import QUANTITY_CHOICES
+from observatory_ops.registry.models import Site, Subsystem, Telescope
+
+
+class State(models.TextChoices):
+    """Lifecycle of a work order (our own names). See ``lifecycle.TRANSITIONS`` for who may move it."""
+
+    DRAFT = "draft", "draft"
+    ISSUED = "issued", "issued"
+    UNDERWAY = "underway", "underway"
+    FINISHED = "finished", "finished, awaiting countersignature"
+    COUNTERSIGNED = "countersigned", "countersigned"
+    WITHDRAWN = "withdrawn", "withdrawn"
+
+
+class WorkOrder(models.Model):
+    class Type(models.TextChoices):
+        # Terms as EN 13306 (maintenance terminology) uses them.
+        PREVENTIVE = "preventive", "preventive"
+        CORRECTIVE = "corrective", "corrective"
+        CONDITION_BASED = "condition", "condition-based"
+
+    class Priority(models.IntegerChoices):
+        URGENT = 1, "urgent"
+        HIGH = 2, "high"
+        NORMAL = 3, "normal"
+        LOW = 4, "low"
+
+    site = models.ForeignKey(Site, on_delete=models.PROTECT, related_name="work_orders")
+    telescope = models.ForeignKey(Telescope, null=True, blank=True, on_delete=models.PROTECT, related_name="+")
+    title = models.CharField(max_length=200)
+    order_type = models.CharField(max_length=12, choices=Type.choices, default=Type.PREVENTIVE)
+    priority = models.PositiveSmallIntegerField(choices=Priority.choices, default=Priority.NORMAL)
+    state = models.CharField(max_length=16, choices=State.choices, default=State.DRAFT)
+    planned_date = models.DateField(null=True, blank=True)
+    assignee = models.ForeignKey(
+        settings.AUTH_USER_MODEL, null=True, blank=True, on_delete=models.PROTECT, related_name="assigned_work_orders"
+    )
+    estimated_hours = models.FloatField(default=1.0, validators=[MinValueValidator(0)])
+    steps = models.TextField(blank=True, help_text="One step per line.")
+    tools = models.TextField(blank=True, help_text="One tool per line.")
+    hazards = models.JSONField(default=list, blank=True)
+    lift_inputs = models.JSONField(
+        null=True, blank=True, help_text="Mirror and rigging figures for the lifting numbers (see calc.lifting)."
+    )
+    actual_hours = models.FloatField(null=True, blank=True, validators=[MinValueValidator(0)])
+    findings = models.TextField(blank=True)
+    created_at = models.DateTimeField(auto_now_add=True)
+    created_by = models.ForeignKey(settings.AUTH_USER_MODEL, on_delete=models.PROTECT, related_name="+")
+    issued_at = models.DateTimeField(null=True, blank=True)
+    started_at = models.DateTimeField(null=True, blank=True)
+    finished_at = models.DateTimeField(null=True, blank=True)
+    finished_by = models.ForeignKey(
+        settings.AUTH_USER_MODEL, null=True, blank=True, on_delete=models.PROTECT, related_name="+"
+    )
+    countersigned_at = models.DateTimeField(null=True, blank=True)
+    countersigned_by = models.ForeignKey(
+        settings.AUTH_USER_MODEL, null=True, blank=True, on_delete=models.PROTECT, related_name="+"
+    )
+    withdrawn_reason = models.CharField(max_length=200, blank=True)
+
+    class Meta:
+        ordering = ["-created_at"]
+        indexes = [models.Index(fields=["site", "state", "planned_date"])]
+
+    def __str__(self) -> str:
+        return f"{self.number} {self.title}"
+
+    @property
+    def number(self) -> str:
+        return f"WO-{self.pk:05d}" if self.pk else "WO-new"
+
+    def get_absolute_url(self) -> str:
+        return reverse("workorder-detail", args=[self.pk])
+
+    @property
+    def step_list(self) -> list[str]:
+        return [line.strip() for line in self.steps.splitlines() if line.strip()]
+
+    @property
+    def tool_list(self) -> list[str]:
+        return [line.strip() for line in self.tools.splitlines() if line.strip()]
+
+
+class WorkOrderItem(models.Model):
+    """One subsystem (and, when it comes from a due item, its plan) that a work order covers."""
+
+    work_order = models.ForeignKey(WorkOrder, on_delete=models.CASCADE, related_name="items")
+    subsystem = models.ForeignKey(Subsystem, on_delete=models.PROTECT, related_name="+")
+    plan = models.ForeignKey("planning.ServicePlan", null=True, blank=True, on_delete=models.PROTECT, related_name="+")
+    why = models.TextField(blank=True, help_text="The due reason when the work order was made.")
+
+    class Meta:
+        ordering = ["pk"]
+
+
+class RequiredReading(models.Model):
+    """A reading the technician must record to finish the work order."""
+
+    work_order = models.ForeignKey(WorkOrder, on_delete=models.CASCADE, related_name="required_readings")
+    subsystem = models.ForeignKey(Subsystem, on_delete=models.PROTECT, related_name="+")
+    quantity = models.CharField(max_length=40, choices=QUANTITY_CHOICES)
+    unit = models.CharField(max_length=16)
+    limit_text = models.CharField(max_length=80, blank=True)
+    reading = models.OneToOneField(
+        "logbook.Reading", null=True, blank=True, on_delete=models.PROTECT, related_name="+",
+        help_text="The logbook reading recorded on completion.",
+    )
+
+    class Meta:
+        ordering = ["pk"]
+
+
+class Part(models.Model):
+    """A spare part kept in stock at a site."""
+
+    site = models.ForeignKey(Site, on_delete=models.PROTECT, related_name="parts")
+    name = models.CharField(max_length=120)
+    part_number = models.CharField(max_length=60, blank=True)
+    quantity_on_hand = models.FloatField(default=0, validators=[MinValueValidator(0)])
+    reorder_point = models.FloatField(default=0, validators=[MinValueValidator(0)])
+    unit = models.CharField(max_length=16, default="each")
+    location = models.CharField(max_length=80, blank=True)
+
+    class Meta:
+        ordering = ["site", "name"]
+        constraints = [models.UniqueConstraint(fields=["site", "name"], name="part_name_unique_per_site")]
+
+    def __str__(self) -> str:
+        return f"{self.name} ({self.part_number})" if self.part_number else self.name
+
+    @property
+    def low(self) -> bool:
+        return self.quantity_on_hand <= self.reorder_point
+
+
+class PartUse(models.Model):
+    """A part planned for a work order, and how many were used on completion."""
+
+    work_order = models.ForeignKey(WorkOrder, on_delete=models.CASCADE, related_name="part_uses")
+    part = models.ForeignKey(Part, on_delete=models.PROTECT, related_name="uses")
+    quantity_planned = models.FloatField(default=1, validators=[MinValueValidator(0)])
+    quantity_used = models.FloatField(null=True, blank=True, validators=[MinValueValidator(0)])
+
+    class Meta:
+        ordering = ["pk"]
+
+
+class IsolationPoint(models.Model):
+    """Where an energy source of a telescope is isolated and locked out (for the lockout step)."""
+
+    class Energy(models.TextChoices):
+        AC = "ac", "AC mains"
+        DC = "dc", "DC supplies"
+        SERVO = "servo", "servo drives"
+        AIR = "air", "compressed air"
+        OTHER = "other", "other"
+
+    telescope = models.ForeignKey(Telescope, on_delete=models.CASCADE, related_name="isolation_points")
+    energy = models.CharField(max_length=8, choices=Energy.choices)
+    label = models.CharField(max_length=120, help_text="What to switch, lock and tag, e.g. 'Mount main isolator'.")
+    location = models.CharField(max_length=120, blank=True)
+    verify = models.CharField(max_length=160, blank=True, help_text="How to prove it is dead (test before touch).")
+
+    class Meta:
+        ordering = ["telescope", "energy", "label"]
+
+    def __str__(self) -> str:
+        return f"{self.get_energy_display()}: {self.label}"

@@ -1,0 +1,242 @@
+"""Writes of work orders: creation from due items or ad hoc, lifecycle moves, and finishing.
+
+Finishing is the one place that turns a work order into service records, readings and stock changes,
+then recomputes the site's due states. It is claimed with a conditional UPDATE (state must still be
+"underway"), so two people finishing at once yield one completion on SQLite and PostgreSQL alike.
+"""
+from __future__ import annotations
+
+import datetime as dt
+from collections.abc import Sequence
+
+from django.db import transaction
+from django.db.models import F
+from django.utils import timezone
+
+from observatory_ops.access.roles import has_role
+from observatory_ops.calc import lifting
+from observatory_ops.logbook.models import Reading, ServiceRecord
+from observatory_ops.logbook.quantities import QUANTITIES
+from observatory_ops.planning.metrics import READING
+from observatory_ops.planning.models import ServicePlan
+from observatory_ops.planning.services import site_recompute, site_today
+from observatory_ops.registry.models import Site, Subsystem, Telescope
+
+from .cautions import HAZARDS
+from .lifecycle import TRANSITIONS
+from .models import Part, PartUse, RequiredReading, State, WorkOrder, WorkOrderItem
+
+#: Hazards whose energy must be isolated and locked out before work starts.
+ISOLATION_HAZARDS = ("electrical", "pneumatic", "moving_machinery")
+LOCKOUT_STEP = (
+    "Isolate, lock and tag every energy source listed under 'Energy isolation points'; release stored "
+    "pressure; try to start the drives to prove they are dead before touching anything."
+)
+
+
+class Refused(Exception):
+    """A move or a completion that is not allowed; the message says why. Nothing was changed."""
+
+
+def _hazards_of(subsystems: Sequence[Subsystem], plans: Sequence[ServicePlan]) -> list[str]:
+    found = {h for s in subsystems for h in s.hazards} | {h for p in plans for h in p.hazards}
+    return [h for h in HAZARDS if h in found]
+
+
+def _steps_for(plans: Sequence[ServicePlan], hazards: Sequence[str]) -> str:
+    lines = [LOCKOUT_STEP] if any(h in ISOLATION_HAZARDS for h in hazards) else []
+    for plan in plans:
+        prefix = f"[{plan.name}] " if len(plans) > 1 else ""
+        lines += [prefix + step for step in (plan.step_list or [plan.task or plan.name])]
+    return "\n".join(lines)
+
+
+def work_order_from_due(plans: Sequence[ServicePlan], by, planned_date: dt.date | None = None) -> WorkOrder:
+    """One work order covering the given plans (selected on the due list), with steps from their templates."""
+    plans = list(ServicePlan.objects.filter(pk__in=[p.pk for p in plans]).select_related("subsystem__telescope__site"))
+    if not plans:
+        raise Refused("select at least one due item")
+    sites = {p.subsystem.telescope.site_id for p in plans}
+    if len(sites) > 1:
+        raise Refused("the selected items are at different sites; make one work order per site")
+    subsystems = list({p.subsystem_id: p.subsystem for p in plans}.values())
+    telescopes = {s.telescope_id for s in subsystems}
+    hazards = _hazards_of(subsystems, plans)
+    reading_plan = any(t.metric == READING for p in plans for t in p.triggers.all())
+    with transaction.atomic():
+        order = WorkOrder.objects.create(
+            site=plans[0].subsystem.telescope.site,
+            telescope=subsystems[0].telescope if len(telescopes) == 1 else None,
+            title="; ".join(p.name for p in plans)[:200],
+            order_type=WorkOrder.Type.CONDITION_BASED if reading_plan else WorkOrder.Type.PREVENTIVE,
+            planned_date=planned_date,
+            estimated_hours=sum(p.estimated_hours for p in plans),
+            steps=_steps_for(plans, hazards),
+            hazards=hazards,
+            created_by=by,
+        )
+        for plan in plans:
+            status = getattr(plan, "status", None)
+            WorkOrderItem.objects.create(
+                work_order=order, subsystem=plan.subsystem, plan=plan, why=status.reason if status else ""
+            )
+            for trig in plan.triggers.all():
+                if trig.metric == READING:
+                    sign = "at most" if trig.direction == "above" else "at least"
+                    RequiredReading.objects.create(
+                        work_order=order, subsystem=plan.subsystem, quantity=trig.quantity,
+                        unit=QUANTITIES[trig.quantity][1], limit_text=f"{sign} {trig.limit:g}",
+                    )
+    return order
+
+
+def work_order_ad_hoc(
+    site: Site, subsystems: Sequence[Subsystem], title: str, by, order_type: str = WorkOrder.Type.CORRECTIVE,
+    steps: str = "", telescope: Telescope | None = None,
+) -> WorkOrder:
+    """A work order not driven by a due item (a fault, an upgrade)."""
+    if any(s.telescope.site_id != site.pk for s in subsystems):
+        raise Refused("every subsystem must belong to the work order's site")
+    hazards = _hazards_of(subsystems, [])
+    lines = ([LOCKOUT_STEP] if any(h in ISOLATION_HAZARDS for h in hazards) else []) + [
+        line for line in steps.splitlines() if line.strip()
+    ]
+    with transaction.atomic():
+        order = WorkOrder.objects.create(
+            site=site, telescope=telescope, title=title, order_type=order_type, steps="\n".join(lines),
+            hazards=hazards, created_by=by,
+        )
+        WorkOrderItem.objects.bulk_create(WorkOrderItem(work_order=order, subsystem=s) for s in subsystems)
+    return order
+
+
+def _check_move(order: WorkOrder, action: str, by) -> None:
+    transition = TRANSITIONS.get(action)
+    if transition is None:
+        raise Refused(f"unknown action {action!r}")
+    if order.state not in transition.sources:
+        raise Refused(
+            f"cannot {action} a work order that is {order.get_state_display()}; "
+            f"it must be {' or '.join(str(State(s).label) for s in transition.sources)}"
+        )
+    if not has_role(by, transition.role):
+        raise Refused(f"'{transition.label}' needs the {transition.role} role or above")
+
+
+def work_order_move(order: WorkOrder, action: str, by, reason: str = "") -> WorkOrder:
+    """Issue, start, countersign or withdraw. Finishing has its own function (it records the work)."""
+    if action == "finish":
+        raise Refused("finishing records hours, findings and readings: use the finish form")
+    _check_move(order, action, by)
+    now = timezone.now()
+    fields = {"state": TRANSITIONS[action].target}
+    if action == "issue":
+        if not order.step_list:
+            raise Refused("a work order needs at least one step before it is issued")
+        fields["issued_at"] = now
+    elif action == "start":
+        fields["started_at"] = now
+    elif action == "countersign":
+        if order.finished_by_id == by.pk:
+            raise Refused("a second person must countersign: you finished this work order yourself")
+        fields.update(countersigned_at=now, countersigned_by=by)
+    elif action == "withdraw":
+        if not reason.strip():
+            raise Refused("say why the work order is withdrawn")
+        fields["withdrawn_reason"] = reason.strip()[:200]
+    with transaction.atomic():
+        claimed = WorkOrder.objects.filter(pk=order.pk, state=order.state).update(**fields)
+        if not claimed:
+            raise Refused("someone else changed this work order meanwhile; reload it")
+    order.refresh_from_db()
+    return order
+
+
+def work_order_finish(
+    order: WorkOrder,
+    by,
+    actual_hours: float,
+    findings: str,
+    readings: dict[int, float],
+    parts_used: dict[int, float] | None = None,
+) -> WorkOrder:
+    """Record the work: service records for every item, readings, parts used; reset plans; recompute.
+
+    ``readings`` maps RequiredReading id -> value (all are required); ``parts_used`` maps PartUse id ->
+    quantity used (default: as planned). Refused with a reason, changing nothing, when a reading is
+    missing, a quantity is negative, stock would go below zero, or the order is no longer underway.
+    """
+    _check_move(order, "finish", by)
+    if actual_hours is None or actual_hours < 0:
+        raise Refused("actual hours must be 0 or more")
+    required = list(order.required_readings.select_related("subsystem"))
+    missing = [r for r in required if readings.get(r.pk) is None]
+    if missing:
+        names = ", ".join(f"{QUANTITIES[r.quantity][0]} on {r.subsystem.name}" for r in missing)
+        raise Refused(f"record every required reading before finishing (missing: {names})")
+    for r in required:
+        if r.quantity == "reflectance" and not 0 <= readings[r.pk] <= 1:
+            raise Refused("a reflectance is a fraction between 0 and 1")
+    parts_used = parts_used or {}
+    if any(q < 0 for q in parts_used.values()):
+        raise Refused("a quantity of parts used cannot be negative")
+    site = order.site
+    today = site_today(site)
+    now = timezone.now()
+    items = list(order.items.select_related("subsystem", "plan"))
+    with transaction.atomic():
+        claimed = WorkOrder.objects.filter(pk=order.pk, state=State.UNDERWAY).update(
+            state=State.FINISHED, finished_at=now, finished_by=by, actual_hours=actual_hours, findings=findings
+        )
+        if not claimed:
+            raise Refused("this work order has already been finished by someone else")
+        share = actual_hours / max(len(items), 1)
+        ServiceRecord.objects.bulk_create(
+            ServiceRecord(
+                subsystem=item.subsystem, plan=item.plan, performed_on=today, performed_by=by, hours_spent=share,
+                summary=(item.plan.name if item.plan else order.title)[:200], findings=findings,
+                work_order=order, created_by=by,
+            )
+            for item in items
+        )
+        for r in required:
+            r.reading = Reading.objects.create(
+                subsystem=r.subsystem, quantity=r.quantity, unit=r.unit, value=readings[r.pk], taken_at=now,
+                taken_by=by, note=f"recorded on {order.number}",
+            )
+            r.save(update_fields=["reading"])
+        for use in order.part_uses.select_related("part"):
+            quantity = parts_used.get(use.pk, use.quantity_planned)
+            updated = Part.objects.filter(pk=use.part_id, quantity_on_hand__gte=quantity).update(
+                quantity_on_hand=F("quantity_on_hand") - quantity
+            )
+            if not updated:
+                raise Refused(
+                    f"only {use.part.quantity_on_hand:g} {use.part.unit} of {use.part.name} in stock, "
+                    f"{quantity:g} used: correct the stock first"
+                )
+            use.quantity_used = quantity
+            use.save(update_fields=["quantity_used"])
+        site_recompute(site)
+    order.refresh_from_db()
+    return order
+
+
+def part_add(order: WorkOrder, part: Part, quantity: float) -> PartUse:
+    if order.state not in (State.DRAFT, State.ISSUED, State.UNDERWAY):
+        raise Refused("parts can be added only before the work is finished")
+    if part.site_id != order.site_id:
+        raise Refused("that part is kept at another site")
+    if quantity <= 0:
+        raise Refused("the quantity must be more than zero")
+    return PartUse.objects.create(work_order=order, part=part, quantity_planned=quantity)
+
+
+def lift_set(order: WorkOrder, inputs: dict) -> lifting.LiftFigures:
+    """Store the lifting inputs after checking them with ``calc.lifting`` (ValueError names the problem)."""
+    figures = lifting.lift_figures(**inputs)
+    order.lift_inputs = inputs
+    hazards = set(order.hazards) | {"suspended_load"}
+    order.hazards = [h for h in HAZARDS if h in hazards]
+    order.save(update_fields=["lift_inputs", "hazards"])
+    return figures

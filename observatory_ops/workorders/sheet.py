@@ -1,0 +1,106 @@
+"""What one printed work order shows, as plain values: the input of the PDF renderer (``pdf.py``).
+
+No Django imports: the Django layer reads a work order and its related rows and fills a ``Sheet`` with
+text already worded and numbers already formatted; the renderer only lays them out. Every string here is
+user text as far as the renderer is concerned and is printed literally, never read as markup.
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass
+from datetime import date, datetime
+
+
+@dataclass(frozen=True)
+class SheetCaution:
+    """One safety caution: its title, what to do, the standard it follows, and how severe the hazard is."""
+
+    title: str
+    text: str
+    standard: str
+    severity_label: str
+
+
+@dataclass(frozen=True)
+class SheetPart:
+    """A spare part the work needs."""
+
+    name: str
+    part_number: str
+    quantity: float
+
+    def __post_init__(self) -> None:
+        if not math.isfinite(self.quantity) or self.quantity <= 0:
+            raise ValueError(f"part {self.name!r}: quantity must be a positive number, got {self.quantity!r}")
+
+
+@dataclass(frozen=True)
+class SheetReading:
+    """A reading to take and write down: what, in which unit, and the limit it is judged against."""
+
+    label: str
+    unit: str
+    limit_text: str
+
+
+@dataclass(frozen=True)
+class SheetLifting:
+    """Lifting figures, already formatted in kg and lb, the warnings about them, and the checks to make.
+
+    ``rows`` are (label, value) pairs, for example ("Total suspended load", "612 kg (1349 lb)").
+    Nothing here says that a lift is safe; ``checks`` are what a competent person must verify.
+    """
+
+    rows: tuple[tuple[str, str], ...]
+    warnings: tuple[str, ...]
+    checks: tuple[str, ...]
+
+
+@dataclass(frozen=True)
+class Sheet:
+    """Everything one printed work order shows, top to bottom.
+
+    ``why`` has one line per due item (trigger, value now, limit, forecast). ``cautions`` are printed in
+    a framed box before any step, most severe first, followed by ``precedence_statement``.
+    ``isolation_points`` are the energy isolation points of the telescope for the lockout step.
+    ``findings`` is printed when present; otherwise blank ruled lines are left for writing.
+    ``url`` is the work order's address, printed as a QR code.
+    """
+
+    number: str
+    title: str
+    site: str
+    telescope: str
+    subsystems: tuple[str, ...]
+    order_type: str
+    priority: str
+    state: str
+    planned_date: date | None
+    issued_on: date | None
+    assignee: str
+    estimated_hours: float
+    why: tuple[str, ...]
+    cautions: tuple[SheetCaution, ...]
+    precedence_statement: str
+    isolation_points: tuple[str, ...]
+    steps: tuple[str, ...]
+    parts: tuple[SheetPart, ...]
+    tools: tuple[str, ...]
+    readings: tuple[SheetReading, ...]
+    lifting: SheetLifting | None
+    url: str
+    findings: str = ""
+    generated_at: datetime | None = None
+
+    def __post_init__(self) -> None:
+        if not self.number.strip():
+            raise ValueError("work order number must not be blank")
+        if not math.isfinite(self.estimated_hours) or self.estimated_hours < 0:
+            raise ValueError(
+                f"work order {self.number}: estimated hours must be a number of 0 or more, got {self.estimated_hours!r}"
+            )
+        if not self.precedence_statement.strip():
+            raise ValueError(f"work order {self.number}: the precedence statement must not be blank")
+        if not self.url.strip():
+            raise ValueError(f"work order {self.number}: the address (url) for the QR code must not be blank")

@@ -1,0 +1,40 @@
+import django_filters
+import django_tables2 as tables
+from django.utils.html import format_html
+
+from observatory_ops.registry.models import Site
+
+from .models import State, WorkOrder
+
+
+class WorkOrderTable(tables.Table):
+    number = tables.Column(accessor="pk", verbose_name="Number")
+    state = tables.Column()
+    title = tables.Column()
+    site = tables.Column(accessor="site__name", verbose_name="Site")
+    planned_date = tables.Column(verbose_name="Planned")
+    priority = tables.Column()
+    assignee = tables.Column()
+
+    class Meta:
+        model = WorkOrder
+        fields = ()
+        sequence = ("number", "state", "title", "site", "planned_date", "priority", "assignee")
+        order_by = ("-number",)
+
+    def render_number(self, record):
+        return format_html('<a href="{}">{}</a>', record.get_absolute_url(), record.number)
+
+    def render_state(self, record):
+        return format_html('<span class="wo-state wo-{}">{}</span>', record.state, record.get_state_display())
+
+
+class WorkOrderFilter(django_filters.FilterSet):
+    site = django_filters.ModelChoiceFilter(queryset=Site.objects.all(), label="Site")
+    state = django_filters.ChoiceFilter(choices=State.choices, label="State")
+    order_type = django_filters.ChoiceFilter(choices=WorkOrder.Type.choices, label="Type")
+    title = django_filters.CharFilter(lookup_expr="icontains", label="Title contains")
+
+    class Meta:
+        model = WorkOrder
+        fields = ["site", "state", "order_type", "title"]

@@ -1,0 +1,214 @@
+import datetime as dt
+
+from django.contrib import messages
+from django.http import HttpResponse, HttpResponseNotAllowed
+from django.shortcuts import get_object_or_404, redirect, render
+from django.urls import reverse
+from django_tables2 import RequestConfig
+
+from observatory_ops.access.decorators import requires
+from observatory_ops.access.roles import ENGINEER, TECHNICIAN, VIEWER, has_role
+from observatory_ops.planning.models import ServicePlan
+from observatory_ops.planning.services import site_today
+from observatory_ops.registry.models import Site
+
+from . import pdf, selectors, services
+from .forms import AdHocForm, FinishForm, LiftForm, PartAddForm, WithdrawForm, WorkOrderEditForm
+from .lifecycle import TRANSITIONS, available
+from .models import Part, State, WorkOrder
+from .tables import WorkOrderFilter, WorkOrderTable
+
+
+def _order(pk) -> WorkOrder:
+    return get_object_or_404(WorkOrder.objects.select_related("site", "telescope", "assignee"), pk=pk)
+
+
+@requires(VIEWER)
+def work_order_list(request):
+    filtered = WorkOrderFilter(request.GET, queryset=selectors.work_orders())
+    table = WorkOrderTable(filtered.qs)
+    RequestConfig(request, paginate={"per_page": 50}).configure(table)
+    return render(request, "workorders/list.html", {"filter": filtered, "table": table})
+
+
+@requires(TECHNICIAN)
+def work_order_from_due(request):
+    if request.method != "POST":
+        return HttpResponseNotAllowed(["POST"])
+    ids = [int(v) for v in request.POST.getlist("plans") if v.isdigit()]
+    plans = list(ServicePlan.objects.filter(pk__in=ids))
+    try:
+        order = services.work_order_from_due(plans, request.user)
+    except services.Refused as exc:
+        messages.error(request, f"No work order made: {exc}.")
+        return redirect(request.POST.get("back") or reverse("due-list"))
+    messages.success(request, f"{order.number} drafted from {len(plans)} due item(s). Check the steps, then issue it.")
+    return redirect(order)
+
+
+@requires(TECHNICIAN)
+def work_order_ad_hoc(request, slug):
+    site = get_object_or_404(Site, slug=slug)
+    form = AdHocForm(request.POST or None, site=site)
+    if request.method == "POST" and form.is_valid():
+        d = form.cleaned_data
+        subsystems = list(d["subsystems"])
+        telescopes = {s.telescope for s in subsystems}
+        order = services.work_order_ad_hoc(
+            site, subsystems, d["title"], request.user, order_type=d["order_type"], steps=d["steps"],
+            telescope=telescopes.pop() if len(telescopes) == 1 else None,
+        )
+        messages.success(request, f"{order.number} drafted.")
+        return redirect(order)
+    return render(request, "workorders/ad_hoc.html", {"form": form, "site": site})
+
+
+@requires(VIEWER)
+def work_order_detail(request, pk):
+    order = _order(pk)
+    figures = None
+    lift_error = ""
+    try:
+        figures = selectors.lift(order)
+    except ValueError as exc:
+        lift_error = str(exc)
+    return render(
+        request,
+        "workorders/detail.html",
+        {
+            "order": order,
+            "site": order.site,
+            "items": order.items.select_related("subsystem", "plan"),
+            "cautions": selectors.cautions(order),
+            "precedence": selectors.PRECEDENCE_STATEMENT,
+            "isolation_points": selectors.isolation_points(order),
+            "readings": order.required_readings.select_related("subsystem", "reading"),
+            "part_uses": order.part_uses.select_related("part"),
+            "records": order.service_records.select_related("subsystem"),
+            "lift": figures,
+            "lift_rows": selectors.lift_rows(figures) if figures else [],
+            "lift_error": lift_error,
+            "moves": [t for t in available(order.state) if t.action != "finish" and has_role(request.user, t.role)],
+            "can_finish": order.state == State.UNDERWAY and has_role(request.user, TECHNICIAN),
+            "editable": order.state in (State.DRAFT, State.ISSUED) and has_role(request.user, ENGINEER),
+            "part_form": PartAddForm(site=order.site),
+            "withdraw_form": WithdrawForm(),
+        },
+    )
+
+
+@requires(ENGINEER)
+def work_order_edit(request, pk):
+    order = _order(pk)
+    if order.state not in (State.DRAFT, State.ISSUED):
+        messages.error(request, f"{order.number} is {order.get_state_display()}: it can no longer be edited.")
+        return redirect(order)
+    form = WorkOrderEditForm(request.POST or None, instance=order)
+    if request.method == "POST" and form.is_valid():
+        form.save()
+        messages.success(request, "Saved.")
+        return redirect(order)
+    return render(request, "workorders/edit.html", {"form": form, "order": order})
+
+
+@requires(TECHNICIAN)
+def work_order_move(request, pk, action):
+    if request.method != "POST":
+        return HttpResponseNotAllowed(["POST"])
+    order = _order(pk)
+    try:
+        services.work_order_move(order, action, request.user, reason=request.POST.get("reason", ""))
+    except services.Refused as exc:
+        messages.error(request, f"Not done: {exc}.")
+    else:
+        messages.success(request, f"{order.number}: {TRANSITIONS[action].label.lower()}: done.")
+    return redirect(order)
+
+
+@requires(TECHNICIAN)
+def work_order_finish(request, pk):
+    order = _order(pk)
+    form = FinishForm(request.POST or None, order=order, initial={"actual_hours": order.estimated_hours})
+    if request.method == "POST" and form.is_valid():
+        try:
+            services.work_order_finish(
+                order, request.user, form.cleaned_data["actual_hours"], form.cleaned_data["findings"],
+                form.readings(), form.parts(),
+            )
+        except services.Refused as exc:
+            form.add_error(None, str(exc))
+        else:
+            messages.success(request, f"{order.number} finished: service records written, plans restarted.")
+            return redirect(order)
+    return render(request, "workorders/finish.html", {"form": form, "order": order})
+
+
+@requires(ENGINEER)
+def work_order_lift(request, pk):
+    order = _order(pk)
+    form = LiftForm(request.POST or None, initial=order.lift_inputs or None)
+    if request.method == "POST" and form.is_valid():
+        inputs = {k: v for k, v in form.cleaned_data.items() if v is not None}
+        try:
+            services.lift_set(order, inputs)
+        except ValueError as exc:
+            form.add_error(None, str(exc))
+        else:
+            messages.success(request, "Lifting figures saved; the suspended-load caution is on the work order.")
+            return redirect(order)
+    return render(request, "workorders/lift.html", {"form": form, "order": order})
+
+
+@requires(ENGINEER)
+def work_order_part_add(request, pk):
+    if request.method != "POST":
+        return HttpResponseNotAllowed(["POST"])
+    order = _order(pk)
+    form = PartAddForm(request.POST, site=order.site)
+    if form.is_valid():
+        try:
+            services.part_add(order, form.cleaned_data["part"], form.cleaned_data["quantity"])
+        except services.Refused as exc:
+            messages.error(request, f"Not added: {exc}.")
+    else:
+        messages.error(request, "Not added: choose a part and a quantity above zero.")
+    return redirect(order)
+
+
+def _paper(request) -> str:
+    return "letter" if request.GET.get("paper") == "letter" else "A4"
+
+
+@requires(VIEWER)
+def work_order_pdf(request, pk):
+    order = _order(pk)
+    sheet = selectors.sheet(order, request.build_absolute_uri(order.get_absolute_url()))
+    response = HttpResponse(pdf.render_sheet(sheet, _paper(request)), content_type="application/pdf")
+    response["Content-Disposition"] = f'attachment; filename="{order.number}.pdf"'
+    return response
+
+
+@requires(VIEWER)
+def work_order_batch_pdf(request, slug):
+    site = get_object_or_404(Site, slug=slug)
+    today = site_today(site)
+    try:
+        start = dt.date.fromisoformat(request.GET.get("from") or today.isoformat())
+        end = dt.date.fromisoformat(request.GET.get("to") or (start + dt.timedelta(days=6)).isoformat())
+    except ValueError:
+        messages.error(request, "Dates must be given as YYYY-MM-DD.")
+        return redirect("workorder-list")
+    orders = list(selectors.issued_between(site, start, end))
+    if not orders:
+        messages.warning(request, f"No issued work orders at {site.name} planned from {start} to {end}.")
+        return redirect(reverse("workorder-list") + f"?site={site.pk}")
+    sheets = [selectors.sheet(o, request.build_absolute_uri(o.get_absolute_url())) for o in orders]
+    response = HttpResponse(pdf.render_batch(sheets, _paper(request)), content_type="application/pdf")
+    response["Content-Disposition"] = f'attachment; filename="{site.slug}-work-orders-{start}-{end}.pdf"'
+    return response
+
+
+@requires(VIEWER)
+def part_list(request, slug):
+    site = get_object_or_404(Site, slug=slug)
+    return render(request, "workorders/parts.html", {"site": site, "parts": Part.objects.filter(site=site)})
