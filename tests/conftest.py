@@ -5,9 +5,11 @@ import datetime as dt
 import os
 import shutil
 
+import django
 import pytest
 
 os.environ.setdefault("DJANGO_SETTINGS_MODULE", "observatory_ops.settings")
+django.setup()  # test modules import models at module level; the project keeps no pytest.ini at the top
 
 ROLES = ("viewer", "technician", "engineer", "administrator")
 

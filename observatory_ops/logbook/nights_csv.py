@@ -28,6 +28,8 @@ from dataclasses import dataclass, field
 REQUIRED = ("night", "open_hours")
 OPTIONAL = ("slews", "axis1_travel_deg", "axis2_travel_deg", "brake_cycles", "pm10_ugm3", "humidity_pct", "dew", "rain")
 COLUMNS = REQUIRED + OPTIONAL
+#: Largest whole number stored: the top of an integer column in every database Django supports.
+MAX_COUNT = 2_147_483_647
 _TRUE = {"yes", "y", "true", "1"}
 _FALSE = {"no", "n", "false", "0", ""}
 
@@ -40,6 +42,14 @@ class ParsedFile:
 
 class RowError(ValueError):
     pass
+
+
+class FileError(ValueError):
+    """The file cannot be read as text; ``line`` is where the first bad byte is."""
+
+    def __init__(self, line: int, message: str):
+        super().__init__(message)
+        self.line = line
 
 
 def _number(raw: str, name: str, low: float | None = 0.0, high: float | None = None, whole: bool = False):
@@ -86,10 +96,10 @@ def parse_row(record: dict[str, str], latest_night: dt.date) -> dict:
     return {
         "night": night,
         "open_hours": _number(record["open_hours"], "open_hours", 0, 24),
-        "slews": optional("slews", whole=True) or 0,
+        "slews": optional("slews", whole=True, high=MAX_COUNT) or 0,
         "axis1_travel_deg": optional("axis1_travel_deg") or 0.0,
         "axis2_travel_deg": optional("axis2_travel_deg") or 0.0,
-        "brake_cycles": optional("brake_cycles", whole=True) or 0,
+        "brake_cycles": optional("brake_cycles", whole=True, high=MAX_COUNT) or 0,
         "pm10_ugm3": optional("pm10_ugm3"),
         "humidity_pct": optional("humidity_pct", high=100),
         "dew": _flag(record.get("dew") or "", "dew"),
@@ -98,13 +108,17 @@ def parse_row(record: dict[str, str], latest_night: dt.date) -> dict:
 
 
 def decode(data: bytes) -> str:
-    """The file's text; raises ValueError when it is not UTF-8 text."""
-    if b"\x00" in data:
-        raise ValueError("the file is not a text CSV file (it contains binary data)")
+    """The file's text; raises FileError, naming the line of the first bad byte, when it is not UTF-8 text."""
+    nul = data.find(b"\x00")
+    if nul >= 0:
+        raise FileError(data.count(b"\n", 0, nul) + 1, "the file is not a text CSV file (it contains binary data)")
     try:
         return data.decode("utf-8-sig")
     except UnicodeDecodeError as exc:
-        raise ValueError(f"the file is not UTF-8 text (bad byte at position {exc.start})") from None
+        raise FileError(
+            data.count(b"\n", 0, exc.start) + 1,
+            f"the file is not UTF-8 text (byte 0x{data[exc.start]:02x} on this line); save it as UTF-8 CSV",
+        ) from None
 
 
 def parse(text: str, latest_night: dt.date) -> ParsedFile:

@@ -59,8 +59,8 @@ def nights_import(
     report = ImportReport()
     try:
         text = nights_csv.decode(data)
-    except ValueError as exc:
-        report.errors.append((1, str(exc)))
+    except nights_csv.FileError as exc:
+        report.errors.append((exc.line, str(exc)))
         return report
     parsed = nights_csv.parse(text, latest_night=site_today(site))
     if parsed.errors and not (skip_bad and parsed.rows):
@@ -80,6 +80,7 @@ def nights_import(
                 for f in _USAGE_FIELDS:
                     setattr(current, f, values[f])
                 current.source = source
+                current.recorded_at = timezone.now()  # bulk_update skips auto_now
                 changed.append(current)
             else:
                 report.unchanged += 1

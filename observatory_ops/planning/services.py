@@ -10,7 +10,7 @@ import datetime as dt
 from dataclasses import dataclass
 
 import numpy as np
-from django.db import transaction
+from django.db import connection, transaction
 from django.db.models import Max
 from django.utils import timezone
 
@@ -236,10 +236,12 @@ def _offset_date(first_day: dt.date, offset: int) -> dt.date | None:
     return None if offset < 0 else first_day + dt.timedelta(days=int(offset))
 
 
-def _effective_last_service(plan_ids: list[int]) -> dict[int, dt.date]:
-    """Newest service date per plan, counting only records that are neither corrected nor withdrawn."""
+def _effective_last_service(site: Site) -> dict[int, dt.date]:
+    """Newest service date per plan at a site, counting only records neither corrected nor withdrawn."""
     rows = (
-        ServiceRecord.objects.filter(plan_id__in=plan_ids, corrected_by__isnull=True, void=False)
+        ServiceRecord.objects.filter(
+            subsystem__telescope__site=site, plan__isnull=False, corrected_by__isnull=True, void=False
+        )
         .values("plan_id")
         .annotate(last=Max("performed_on"))
     )
@@ -252,20 +254,23 @@ def site_recompute(site: Site, today: dt.date | None = None) -> int:
     plans = list(
         ServicePlan.objects.filter(
             subsystem__telescope__site=site, active=True, subsystem__retired_on__isnull=True
-        ).prefetch_related("triggers")
+        ).select_related("subsystem")
     )
+    triggers_of: dict[int, list[Trigger]] = {}
+    for trig in Trigger.objects.filter(plan__subsystem__telescope__site=site).order_by("pk"):
+        triggers_of.setdefault(trig.plan_id, []).append(trig)
     log = UsageLog.for_site(site)
     last_logged = _as_date(log.nights[-1]) if len(log.nights) else None
     first_day = min(today, last_logged + dt.timedelta(days=1)) if last_logged else today
     model = usage_model(site, log, first_day, HORIZON_DAYS)
-    last_service = _effective_last_service([p.pk for p in plans])
+    last_service = _effective_last_service(site)
     baselines = {p.pk: max(last_service.get(p.pk, p.counting_from), p.counting_from) for p in plans}
-    readings = _readings_by_subsystem_quantity(plans, baselines)
+    readings = _readings_by_subsystem_quantity(site, plans, triggers_of, baselines)
 
     states: dict[int, list[TriggerState]] = {p.pk: [] for p in plans}
     groups: dict[tuple[str, float], list[tuple[ServicePlan, Trigger]]] = {}
     for plan in plans:
-        for trig in plan.triggers.all():
+        for trig in triggers_of.get(plan.pk, []):
             if trig.metric == metrics.CALENDAR_DAYS:
                 states[plan.pk].append(_calendar_state(trig, baselines[plan.pk], today))
             elif trig.metric == metrics.READING:
@@ -328,8 +333,25 @@ def site_recompute(site: Site, today: dt.date | None = None) -> int:
         )
     with transaction.atomic():
         PlanStatus.objects.filter(site=site).delete()
-        PlanStatus.objects.bulk_create(rows, batch_size=1000)
+        _insert_all(PlanStatus, rows)
     return len(rows)
+
+
+def _insert_all(model, objects: list) -> None:
+    """Insert rows in one ``executemany`` statement: one round of SQL however many plans a site has.
+
+    ``bulk_create`` would split the rows into batches bounded by the database's parameter limit (55 rows
+    a statement on SQLite for PlanStatus), making the query count grow with the number of plans.
+    """
+    if not objects:
+        return
+    fields = model._meta.concrete_fields
+    columns = ", ".join(connection.ops.quote_name(f.column) for f in fields)
+    marks = ", ".join(["%s"] * len(fields))
+    sql = f"INSERT INTO {connection.ops.quote_name(model._meta.db_table)} ({columns}) VALUES ({marks})"  # noqa: S608
+    rows = [[f.get_db_prep_save(f.pre_save(obj, add=True), connection) for f in fields] for obj in objects]
+    with connection.cursor() as cursor:
+        cursor.executemany(sql, rows)
 
 
 def _clamp(day: dt.date | None, today: dt.date) -> dt.date | None:
@@ -352,20 +374,23 @@ def _calendar_state(trig: Trigger, baseline: dt.date, today: dt.date) -> Trigger
     )
 
 
-def _readings_by_subsystem_quantity(plans, baselines) -> dict[tuple[int, str], list[tuple[dt.datetime, float]]]:
+def _readings_by_subsystem_quantity(
+    site: Site, plans, triggers_of, baselines
+) -> dict[tuple[int, str], list[tuple[dt.datetime, float]]]:
+    """Readings since each plan's baseline for every (subsystem, quantity) a condition trigger watches."""
     wanted = {
         (p.subsystem_id, t.quantity): baselines[p.pk]
         for p in plans
-        for t in p.triggers.all()
+        for t in triggers_of.get(p.pk, [])
         if t.metric == metrics.READING
     }
     if not wanted:
         return {}
-    subsystem_ids = {s for s, _ in wanted}
+    quantities = {q for _, q in wanted}
     out: dict[tuple[int, str], list[tuple[dt.datetime, float]]] = {}
-    for sub_id, quantity, taken_at, value in Reading.objects.filter(subsystem_id__in=subsystem_ids).order_by(
-        "taken_at"
-    ).values_list("subsystem_id", "quantity", "taken_at", "value"):
+    for sub_id, quantity, taken_at, value in Reading.objects.filter(
+        subsystem__telescope__site=site, quantity__in=quantities
+    ).order_by("taken_at").values_list("subsystem_id", "quantity", "taken_at", "value"):
         key = (sub_id, quantity)
         if key in wanted and taken_at.date() >= wanted[key]:
             out.setdefault(key, []).append((taken_at, value))

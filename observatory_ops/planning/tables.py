@@ -5,7 +5,7 @@ from .models import PlanStatus
 
 
 class DueTable(tables.Table):
-    plans = tables.CheckBoxColumn(accessor="plan_id", verbose_name="", attrs={"th__input": {"title": "select all"}})
+    plans = tables.CheckBoxColumn(accessor="plan_id", verbose_name="", attrs={"th__input": {"title": "tick all"}})
     status = tables.Column(order_by=("urgency", "forecast_date"))
     site = tables.Column(accessor="plan__subsystem__telescope__site__name", verbose_name="Site")
     telescope = tables.Column(accessor="plan__subsystem__telescope__name", verbose_name="Telescope")
@@ -19,7 +19,9 @@ class DueTable(tables.Table):
     class Meta:
         model = PlanStatus
         fields = ()
-        sequence = ("plans", "status", "site", "telescope", "subsystem", "plan", "metric", "progress", "forecast_date", "reason")
+        sequence = (
+            "plans", "status", "site", "telescope", "subsystem", "plan", "metric", "progress", "forecast_date", "reason"
+        )
         attrs = {"class": "due-table"}
         order_by = ("status",)
 

@@ -1,16 +1,17 @@
-"""The printed work order: a ``Sheet`` laid out as a PDF with reportlab, A4 or US Letter.
+"""The printed work order: a ``Sheet`` laid out as a PDF with reportlab, on A4 or US Letter.
 
 Pure layout, no Django and no database: the caller fills a :class:`~observatory_ops.workorders.sheet.Sheet`.
-Order on the page follows the work: header and QR code, why the work is due, the cautions box before
+The order on the page follows the work: header and QR code, why the work is due, the cautions box before
 anything else of the work, isolation points, lifting figures, steps, parts and tools, readings, findings,
-sign-off. Everything prints in black, white and grey, so a mono printer loses nothing.
+sign-off. Everything prints in black, white and light grey, so a mono printer loses nothing.
 
-Every string of the sheet is user text. reportlab's ``Paragraph`` parses markup, so each one passes through
-:func:`_text` (XML escaping) before it reaches a Paragraph, and prints literally. Long text wraps, and long
-paragraphs and table rows split across pages rather than failing.
+Every string of a sheet is user text. reportlab's ``Paragraph`` parses markup, so each one goes through
+:func:`_text` (XML escaping) before it reaches a Paragraph and prints literally; table cells that fit on
+one line are drawn as plain strings, which reportlab never parses. Long text wraps, and long paragraphs and
+table rows split across pages rather than failing.
 
-Page numbers read "page i of n" within each work order, also in a batch; the canvas holds pages back until
-the end of the document to know n (:class:`_NumberedCanvas`).
+Page numbers read "page i of n" within each work order, also in a batch: the canvas holds the pages back
+until the end of the document to know n (:class:`_NumberedCanvas`).
 """
 
 from __future__ import annotations
@@ -18,17 +19,20 @@ from __future__ import annotations
 import io
 from collections import Counter
 from collections.abc import Sequence
+from datetime import date
+from itertools import groupby
 from xml.sax.saxutils import escape
 
 import qrcode
 from qrcode.constants import ERROR_CORRECT_M
 from qrcode.exceptions import DataOverflowError
-from reportlab.graphics.shapes import Drawing, Path, Rect
+from reportlab.graphics.shapes import Drawing, Rect
 from reportlab.lib.colors import Color, black
 from reportlab.lib.enums import TA_CENTER
 from reportlab.lib.pagesizes import A4, LETTER
 from reportlab.lib.styles import ParagraphStyle
 from reportlab.lib.units import mm
+from reportlab.pdfbase.pdfmetrics import stringWidth
 from reportlab.pdfgen.canvas import Canvas
 from reportlab.platypus import (
     BaseDocTemplate,
@@ -59,56 +63,89 @@ GREY = Color(0.35, 0.35, 0.35)
 RULE = Color(0.6, 0.6, 0.6)
 SHADE = Color(0.9, 0.9, 0.9)
 
-_BODY = ParagraphStyle("wo-body", fontName="Helvetica", fontSize=9.5, leading=12.5)
+FONT = "Helvetica"
+FONT_BOLD = "Helvetica-Bold"
+BODY_SIZE = 9.5
+BODY_LEADING = 12.5
+
+_BODY = ParagraphStyle("wo-body", fontName=FONT, fontSize=BODY_SIZE, leading=BODY_LEADING)
 _SMALL = ParagraphStyle("wo-small", parent=_BODY, fontSize=8, leading=10)
 _LABEL = ParagraphStyle("wo-label", parent=_SMALL, fontSize=7, leading=9, textColor=GREY)
 _QR_CAPTION = ParagraphStyle("wo-qr-caption", parent=_LABEL, alignment=TA_CENTER)
-_CELL_HEAD = ParagraphStyle("wo-cell-head", parent=_SMALL, fontName="Helvetica-Bold")
-_NUMBER = ParagraphStyle("wo-number", parent=_BODY, fontName="Helvetica-Bold", fontSize=16, leading=19)
-_TITLE = ParagraphStyle("wo-title", parent=_BODY, fontName="Helvetica-Bold", fontSize=12.5, leading=15.5, spaceAfter=2)
+_NUMBER = ParagraphStyle("wo-number", parent=_BODY, fontName=FONT_BOLD, fontSize=16, leading=19)
+_TITLE = ParagraphStyle("wo-title", parent=_BODY, fontName=FONT_BOLD, fontSize=12.5, leading=15.5, spaceAfter=2)
 _HEADING = ParagraphStyle(
-    "wo-heading", parent=_BODY, fontName="Helvetica-Bold", fontSize=11, leading=14, spaceBefore=11, spaceAfter=4,
+    "wo-heading", parent=_BODY, fontName=FONT_BOLD, fontSize=11, leading=14, spaceBefore=11, spaceAfter=4,
     keepWithNext=1,
 )
+_SUBHEADING = ParagraphStyle("wo-subheading", parent=_BODY, fontName=FONT_BOLD, spaceBefore=4, spaceAfter=2)
 _NOTE = ParagraphStyle("wo-note", parent=_SMALL, textColor=GREY, spaceAfter=4)
 _BULLET = ParagraphStyle("wo-bullet", parent=_BODY, leftIndent=11, bulletIndent=1, spaceAfter=2)
 _ITEM = ParagraphStyle("wo-item", parent=_BODY, spaceAfter=4)
-_CAUTIONS_HEAD = ParagraphStyle("wo-cautions-head", parent=_BODY, fontName="Helvetica-Bold", fontSize=12, leading=15)
-_CAUTION_TITLE = ParagraphStyle("wo-caution-title", parent=_BODY, fontName="Helvetica-Bold", spaceAfter=2)
-_STANDARD = ParagraphStyle("wo-standard", parent=_SMALL, spaceBefore=3)
+_CAUTIONS_HEAD = ParagraphStyle("wo-cautions-head", parent=_BODY, fontName=FONT_BOLD, fontSize=12, leading=15)
 _PRECEDENCE = ParagraphStyle("wo-precedence", parent=_BODY, fontName="Helvetica-Oblique")
 
 _TICK_BOX = 8.5
 _TICK_INDENT = 15.0
 _NUMBER_WIDTH = 17.0
 _WRITING_GAP = 21.0
-# A table row taller than a page (one cell holding a very long text) is cut inside the row, leaving at
-# least this much of it at the foot of a page; shorter rows move to the next page whole.
+_CELL_PADDING = 4
+# A table row taller than a page (a cell holding a very long text) is cut inside the row, leaving at least
+# this much of it at the foot of a page; shorter rows move to the next page whole.
 _SPLIT_IN_ROW_PT = 30
 _SMALLEST_BODY_HEIGHT = min(height for _, height in PAPER_SIZES.values()) - MARGIN_TOP - MARGIN_BOTTOM
 
-_TABLE_GRID = [
+_RULED_TABLE = (
     ("VALIGN", (0, 0), (-1, -1), "TOP"),
-    ("LEFTPADDING", (0, 0), (-1, -1), 4),
-    ("RIGHTPADDING", (0, 0), (-1, -1), 4),
+    ("FONT", (0, 0), (-1, 0), FONT_BOLD, 8, 10),
+    ("FONT", (0, 1), (-1, -1), FONT, BODY_SIZE, BODY_LEADING),
+    ("LEFTPADDING", (0, 0), (-1, -1), _CELL_PADDING),
+    ("RIGHTPADDING", (0, 0), (-1, -1), _CELL_PADDING),
     ("TOPPADDING", (0, 0), (-1, -1), 3),
     ("BOTTOMPADDING", (0, 0), (-1, -1), 4),
     ("LINEBELOW", (0, 0), (-1, 0), 0.9, INK),
     ("LINEBELOW", (0, 1), (-1, -1), 0.4, RULE),
-]
+)
 
-# C0 control characters other than tab and newline print as black boxes; carriage returns are dropped so
-# Windows line ends read as one break.
+# C0 control characters other than tab and newline would print as black boxes; carriage returns go too,
+# so that Windows line ends read as one break.
 _CONTROL_CHARACTERS = dict.fromkeys(code for code in range(32) if code not in (9, 10))
 
 
+class _Paragraph(Paragraph):
+    """A Paragraph that keeps its line breaks when wrapped again at the same width.
+
+    Tables wrap each cell to measure it and again to draw it, and once more for each part after a page
+    break; breaking lines is most of the time a work order takes to lay out.
+    """
+
+    _wrapped_width: float | None = None
+
+    def wrap(self, availWidth, availHeight):  # noqa: N803 - reportlab's names
+        if availWidth != self._wrapped_width:
+            super().wrap(availWidth, availHeight)
+            self._wrapped_width = availWidth
+        return self.width, self.height
+
+
 def _text(value: str) -> str:
-    """User text made safe for a reportlab Paragraph: escaped, printed literally, line breaks kept."""
+    """User text made safe for a reportlab Paragraph: escaped so it prints literally, line breaks kept."""
     return escape(str(value).translate(_CONTROL_CHARACTERS)).replace("\n", "<br/>")
 
 
 def _para(value: str, style: ParagraphStyle = _BODY) -> Paragraph:
-    return Paragraph(_text(value), style)
+    return _Paragraph(_text(value), style)
+
+
+def _cell(value: str, width: float) -> str | Paragraph:
+    """A table cell of user text: the plain string when it fits on one line, else a wrapping Paragraph.
+
+    Plain strings are drawn as they are (reportlab parses no markup in them) and cost far less to lay out.
+    """
+    text = str(value).translate(_CONTROL_CHARACTERS)
+    if "\n" in text or "\t" in text or stringWidth(text, FONT, BODY_SIZE) > width - 2 * _CELL_PADDING:
+        return _Paragraph(_text(text), _BODY)
+    return text
 
 
 def _shorten(value: str, limit: int) -> str:
@@ -117,20 +154,22 @@ def _shorten(value: str, limit: int) -> str:
     return line if len(line) <= limit else line[: limit - 3] + "..."
 
 
+def _date_text(value: date | None) -> str:
+    return value.isoformat() if value is not None else "not set"
+
+
 class _Table(Table):
     """A table that splits between rows, and inside a row only when that row could not fit on any page.
 
-    reportlab's in-row split, left on, also cuts an ordinary row in the space left at the foot of a page
-    after a split between rows, which prints the repeated header twice on one page.
+    reportlab's in-row split, when left on, also cuts an ordinary row in the space left at the foot of a
+    page after a split between rows, which prints the repeated header twice on one page.
     """
 
     def split(self, availWidth, availHeight):  # noqa: N803 - reportlab's names
         self.splitInRow = 0
         parts = super().split(availWidth, availHeight)
-        if parts:
-            return parts
         header = self.repeatRows if isinstance(self.repeatRows, int) else max(self.repeatRows) + 1
-        if header >= len(self._rowHeights):
+        if parts or header >= len(self._rowHeights):
             return parts
         if sum(self._rowHeights[: header + 1]) > _SMALLEST_BODY_HEIGHT:
             self.splitInRow = _SPLIT_IN_ROW_PT
@@ -138,24 +177,24 @@ class _Table(Table):
         return parts
 
 
-def _table(rows: list[list], col_widths: list[float]) -> _Table:
-    """A ruled table with a bold header row, repeated on each page it runs onto."""
-    return _Table(rows, colWidths=col_widths, repeatRows=1, style=TableStyle(_TABLE_GRID), hAlign="LEFT")
+def _ruled_table(header: Sequence[str], rows: list[list], col_widths: list[float]) -> _Table:
+    """A ruled table under a bold header row that repeats on each page the table runs onto."""
+    return _Table([list(header), *rows], colWidths=col_widths, repeatRows=1, style=TableStyle(_RULED_TABLE),
+                  hAlign="LEFT")
 
 
 class _SheetStart(Flowable):
-    """Invisible marker at the top of each work order: tells the canvas which work order the page belongs to."""
+    """Invisible marker at the top of each work order: tells the canvas which work order its pages belong to."""
 
     def __init__(self, index: int, sheet: Sheet):
         super().__init__()
-        self._index = index
-        self._sheet = sheet
+        self._work_order = (index, sheet.number, sheet.title)
 
     def wrap(self, avail_width, avail_height):
         return 0, 0
 
     def draw(self):
-        self.canv.work_order = (self._index, self._sheet.number, self._sheet.title)
+        self.canv.work_order = self._work_order
 
 
 class _Ticked(Flowable):
@@ -192,14 +231,14 @@ class _Ticked(Flowable):
     def draw(self):
         canvas = self.canv
         if self._first_part:
-            style = self._paragraph.style
-            baseline = self.height - style.fontSize
+            font_size = self._paragraph.style.fontSize
+            baseline = self.height - font_size
             canvas.saveState()
             canvas.setLineWidth(0.8)
             canvas.setStrokeColor(INK)
             canvas.rect(0, baseline - 1, _TICK_BOX, _TICK_BOX, stroke=1, fill=0)
             if self._number:
-                canvas.setFont("Helvetica-Bold", style.fontSize)
+                canvas.setFont(FONT_BOLD, font_size)
                 canvas.drawRightString(_TICK_INDENT + _NUMBER_WIDTH - 5, baseline, self._number)
             canvas.restoreState()
         self._paragraph.drawOn(canvas, self._indent, 0)
@@ -231,64 +270,73 @@ class _WritingLines(Flowable):
         self.canv.restoreState()
 
 
-def _qr_drawing(url: str, size: float = QR_SIZE) -> Drawing:
-    """The work order's address as a QR code, drawn as vector rectangles (one path, one per run of dark modules).
+class _QrCode(Flowable):
+    """The work order's address as a QR code, drawn as filled rectangles, one per run of dark modules in a row.
 
-    The matrix comes from the ``qrcode`` package (ISO/IEC 18004), with its four-module quiet zone, at error
-    correction level M; drawing it as vectors avoids raster images and PIL.
+    The module matrix comes from the ``qrcode`` package (ISO/IEC 18004) at error correction level M, with
+    its four-module quiet zone and its own choice of mask. The rectangles go into the page as one literal
+    path in module units: far fewer drawing calls than a graphics widget, and no raster image, so no PIL.
     """
-    code = qrcode.QRCode(error_correction=ERROR_CORRECT_M, border=4)
-    code.add_data(url)
-    try:
-        code.make(fit=True)
-    except DataOverflowError as error:
-        raise ValueError(f"the work order address is too long for a QR code ({len(url)} characters)") from error
-    matrix = code.get_matrix()
-    module = size / len(matrix)
-    path = Path(fillColor=INK, strokeColor=None, strokeWidth=0)
-    for row_index, row in enumerate(matrix):
-        top = size - row_index * module
-        bottom = top - module
-        column = 0
-        while column < len(row):
-            if not row[column]:
-                column += 1
-                continue
-            end = column
-            while end < len(row) and row[end]:
-                end += 1
-            path.moveTo(column * module, bottom)
-            path.lineTo(end * module, bottom)
-            path.lineTo(end * module, top)
-            path.lineTo(column * module, top)
-            path.closePath()
-            column = end
-    drawing = Drawing(size, size)
-    drawing.add(path)
-    return drawing
+
+    def __init__(self, url: str, size: float):
+        super().__init__()
+        code = qrcode.QRCode(error_correction=ERROR_CORRECT_M, border=4)
+        code.add_data(url)
+        try:
+            code.make(fit=True)
+        except DataOverflowError as error:
+            raise ValueError(f"the work order address is too long for a QR code ({len(url)} characters)") from error
+        matrix = code.get_matrix()
+        self._modules = len(matrix)
+        rectangles = (
+            f"{column} {self._modules - 1 - row} {length} 1 re"
+            for row, line in enumerate(matrix)
+            for column, length in _dark_runs(line)
+        )
+        self._path = " ".join(rectangles) + " f"
+        self.width = self.height = size
+
+    def wrap(self, avail_width, avail_height):
+        return self.width, self.height
+
+    def draw(self):
+        module = self.width / self._modules
+        self.canv.saveState()
+        self.canv.setFillColor(INK)
+        self.canv.scale(module, module)
+        self.canv.addLiteral(self._path)
+        self.canv.restoreState()
 
 
-def _date_text(value) -> str:
-    return value.isoformat() if value is not None else "not set"
+def _dark_runs(line: Sequence[bool]) -> list[tuple[int, int]]:
+    """(first column, length) of each run of dark modules in one row of a QR matrix."""
+    runs = []
+    column = 0
+    for dark, group in groupby(line):
+        length = sum(1 for _ in group)
+        if dark:
+            runs.append((column, length))
+        column += length
+    return runs
 
 
 def _heading(title: str) -> Paragraph:
-    return Paragraph(title, _HEADING)
+    return _Paragraph(title, _HEADING)
 
 
-def _none_listed(text: str) -> Paragraph:
-    return Paragraph(text, _NOTE)
+def _note(text: str) -> Paragraph:
+    return _Paragraph(text, _NOTE)
 
 
 def _header(sheet: Sheet, width: float) -> list[Flowable]:
     left = [
-        Paragraph("WORK ORDER", _LABEL),
+        _Paragraph("WORK ORDER", _LABEL),
         _para(sheet.number, _NUMBER),
         _para(sheet.title, _TITLE),
         _para(f"{sheet.site} \N{MIDDLE DOT} {sheet.telescope}"),
         _para("Subsystems: " + (", ".join(sheet.subsystems) or "none named"), _SMALL),
     ]
-    right = [_qr_drawing(sheet.url), Paragraph("Scan to open online", _QR_CAPTION)]
+    right = [_QrCode(sheet.url, QR_SIZE), _Paragraph("Scan to open online", _QR_CAPTION)]
     top = _Table(
         [[left, right]],
         colWidths=[width - QR_SIZE - 6, QR_SIZE + 6],
@@ -301,7 +349,7 @@ def _header(sheet: Sheet, width: float) -> list[Flowable]:
             ("LEFTPADDING", (1, 0), (1, 0), 6),
         ]),
     )
-    facts = [
+    facts = (
         ("Type", sheet.order_type),
         ("Priority", sheet.priority),
         ("State", sheet.state),
@@ -310,17 +358,29 @@ def _header(sheet: Sheet, width: float) -> list[Flowable]:
         ("Issued", _date_text(sheet.issued_on)),
         ("Assignee", sheet.assignee or "not assigned"),
         ("Printed", sheet.generated_at.strftime("%Y-%m-%d %H:%M") if sheet.generated_at else ""),
-    ]
-    cells = [[Paragraph(label, _LABEL), _para(value)] for label, value in facts]
+    )
+    column = width / 4
+    rows = []
+    for first in (0, 4):
+        rows.append([label for label, _ in facts[first : first + 4]])
+        rows.append([_cell(value, column) for _, value in facts[first : first + 4]])
     grid = _Table(
-        [cells[:4], cells[4:]],
-        colWidths=[width / 4] * 4,
+        rows,
+        colWidths=[column] * 4,
         style=TableStyle([
             ("VALIGN", (0, 0), (-1, -1), "TOP"),
+            ("FONT", (0, 0), (-1, -1), FONT, BODY_SIZE, BODY_LEADING),
+            ("FONT", (0, 0), (-1, 0), FONT, 7, 9),
+            ("FONT", (0, 2), (-1, 2), FONT, 7, 9),
+            ("TEXTCOLOR", (0, 0), (-1, 0), GREY),
+            ("TEXTCOLOR", (0, 2), (-1, 2), GREY),
             ("LEFTPADDING", (0, 0), (-1, -1), 0),
-            ("RIGHTPADDING", (0, 0), (-1, -1), 6),
-            ("TOPPADDING", (0, 0), (-1, -1), 4),
-            ("BOTTOMPADDING", (0, 0), (-1, -1), 3),
+            ("RIGHTPADDING", (0, 0), (-1, -1), _CELL_PADDING),
+            ("TOPPADDING", (0, 0), (-1, -1), 0),
+            ("BOTTOMPADDING", (0, 0), (-1, -1), 0),
+            ("TOPPADDING", (0, 0), (-1, 0), 5),
+            ("TOPPADDING", (0, 2), (-1, 2), 6),
+            ("BOTTOMPADDING", (0, -1), (-1, -1), 4),
             ("LINEABOVE", (0, 0), (-1, 0), 1.2, INK),
             ("LINEBELOW", (0, -1), (-1, -1), 1.2, INK),
         ]),
@@ -329,12 +389,10 @@ def _header(sheet: Sheet, width: float) -> list[Flowable]:
 
 
 def _why(sheet: Sheet) -> list[Flowable]:
+    heading = _heading("Why this work is due")
     if not sheet.why:
-        return [_heading("Why this work is due"), _none_listed("Raised by hand, not from a due item.")]
-    return [
-        _heading("Why this work is due"),
-        *(Paragraph(_text(line), _BULLET, bulletText="\N{BULLET}") for line in sheet.why),
-    ]
+        return [heading, _note("Raised by hand, not from a due item.")]
+    return [heading, *(_Paragraph(_text(line), _BULLET, bulletText="\N{BULLET}") for line in sheet.why)]
 
 
 _SEVERITY_RANK = {label: severity for severity, label in SEVERITY_LABELS.items()}
@@ -350,17 +408,21 @@ def _most_severe_first(cautions: Sequence[SheetCaution]) -> list[SheetCaution]:
     return sorted(cautions, key=lambda caution: -_SEVERITY_RANK.get(caution.severity_label, most_severe))
 
 
+def _caution_paragraph(caution: SheetCaution) -> Paragraph:
+    return _Paragraph(
+        f"<b>{_text(caution.severity_label.upper())} \N{MIDDLE DOT} {_text(caution.title)}</b><br/>"
+        f"{_text(caution.text)}<br/>"
+        f"<font size=8>Standard: {_text(caution.standard)}</font>",
+        _BODY,
+    )
+
+
 def _cautions(sheet: Sheet, width: float) -> list[Flowable]:
     """The framed cautions box, most severe first, closed by the precedence statement."""
-    rows: list[list] = [[Paragraph("CAUTIONS \N{EN DASH} read before you start, apply throughout", _CAUTIONS_HEAD)]]
-    for caution in _most_severe_first(sheet.cautions):
-        rows.append([[
-            Paragraph(f"{_text(caution.severity_label.upper())} \N{MIDDLE DOT} {_text(caution.title)}", _CAUTION_TITLE),
-            _para(caution.text),
-            Paragraph(f"Standard: {_text(caution.standard)}", _STANDARD),
-        ]])
+    rows = [[_Paragraph("CAUTIONS \N{EN DASH} read before you start, apply throughout", _CAUTIONS_HEAD)]]
+    rows += [[_caution_paragraph(caution)] for caution in _most_severe_first(sheet.cautions)]
     if not sheet.cautions:
-        rows.append([_para("No hazard cautions were selected for this work.")])
+        rows.append([_note("No hazard cautions were selected for this work.")])
     rows.append([_para(sheet.precedence_statement, _PRECEDENCE)])
     box = _Table(
         rows,
@@ -385,8 +447,8 @@ def _cautions(sheet: Sheet, width: float) -> list[Flowable]:
 def _isolation(sheet: Sheet) -> list[Flowable]:
     heading = _heading("Energy isolation points \N{EN DASH} lock out and tag each before the work starts")
     if not sheet.isolation_points:
-        return [heading, _none_listed("None listed for this telescope; ask the site engineer before working on "
-                                      "powered or pressurised equipment.")]
+        return [heading, _note("None listed for this telescope. Ask the site engineer before working on powered "
+                               "or pressurised equipment.")]
     return [heading, *(_Ticked(_para(point, _ITEM)) for point in sheet.isolation_points)]
 
 
@@ -394,26 +456,26 @@ def _lifting(sheet: Sheet, width: float) -> list[Flowable]:
     lifting = sheet.lifting
     if lifting is None:
         return []
-    rows = [[Paragraph("Figure", _CELL_HEAD), Paragraph("Value", _CELL_HEAD)]]
-    rows += [[_para(label), _para(value)] for label, value in lifting.rows]
+    widths = [width * 0.6, width * 0.4]
     story: list[Flowable] = [
         _heading("Lifting figures"),
-        Paragraph("Estimates from geometry and handbook densities, for planning the lift. They do not approve "
-                  "it: a competent person decides whether and how it goes ahead.", _NOTE),
-        _table(rows, [width * 0.6, width * 0.4]),
+        _note("Estimates from geometry and handbook densities, for planning the lift. They do not approve it: "
+              "a competent person decides whether and how it goes ahead."),
+        _ruled_table(("Figure", "Value"), [[_cell(label, widths[0]), _cell(value, widths[1])]
+                                           for label, value in lifting.rows], widths),
     ]
     if lifting.warnings:
         story.append(Spacer(1, 5))
-        story += [Paragraph(f"<b>Warning:</b> {_text(line)}", _BULLET, bulletText="!") for line in lifting.warnings]
+        story += [_Paragraph(f"<b>Warning:</b> {_text(line)}", _BULLET, bulletText="!") for line in lifting.warnings]
     if lifting.checks:
-        story.append(Paragraph("What a competent person must check before the lift", _CAUTION_TITLE))
+        story.append(_Paragraph("What a competent person must check before the lift", _SUBHEADING))
         story += [_Ticked(_para(check, _ITEM)) for check in lifting.checks]
     return story
 
 
 def _steps(sheet: Sheet) -> list[Flowable]:
     if not sheet.steps:
-        return [_heading("Steps"), _none_listed("No steps listed.")]
+        return [_heading("Steps"), _note("No steps listed.")]
     return [
         _heading("Steps"),
         *(_Ticked(_para(step, _ITEM), f"{number}.") for number, step in enumerate(sheet.steps, start=1)),
@@ -423,32 +485,33 @@ def _steps(sheet: Sheet) -> list[Flowable]:
 def _parts_and_tools(sheet: Sheet, width: float) -> list[Flowable]:
     story: list[Flowable] = [_heading("Parts")]
     if sheet.parts:
-        rows = [[Paragraph(title, _CELL_HEAD) for title in ("Part", "Part no.", "Qty")]]
-        rows += [
-            [_para(part.name), _para(part.part_number), Paragraph(f"{part.quantity:g}", _BODY)] for part in sheet.parts
-        ]
-        story.append(_table(rows, [width - 55 * mm, 40 * mm, 15 * mm]))
+        widths = [width - 55 * mm, 40 * mm, 15 * mm]
+        rows = [[_cell(part.name, widths[0]), _cell(part.part_number, widths[1]), f"{part.quantity:g}"]
+                for part in sheet.parts]
+        story.append(_ruled_table(("Part", "Part no.", "Qty"), rows, widths))
     else:
-        story.append(_none_listed("No parts listed."))
+        story.append(_note("No parts listed."))
     story.append(_heading("Tools"))
     if sheet.tools:
         story += [_Ticked(_para(tool, _ITEM)) for tool in sheet.tools]
     else:
-        story.append(_none_listed("No tools listed."))
+        story.append(_note("No tools listed."))
     return story
 
 
 def _readings(sheet: Sheet, width: float) -> list[Flowable]:
+    heading = _heading("Readings to record")
     if not sheet.readings:
-        return [_heading("Readings to record"), _none_listed("No readings to record.")]
-    value_width = 38 * mm
-    rows = [[Paragraph(title, _CELL_HEAD) for title in ("Reading", "Unit", "Limit", "Value")]]
+        return [heading, _note("No readings to record.")]
+    box_width = 38 * mm
+    widths = [width - 20 * mm - 42 * mm - box_width, 20 * mm, 42 * mm, box_width]
+    rows = []
     for reading in sheet.readings:
-        box = Drawing(value_width - 8, 20)
-        box.add(Rect(0, 0, value_width - 8, 20, strokeColor=INK, strokeWidth=0.8, fillColor=None))
-        rows.append([_para(reading.label), _para(reading.unit), _para(reading.limit_text), box])
-    fixed = 20 * mm + 42 * mm + value_width
-    return [_heading("Readings to record"), _table(rows, [width - fixed, 20 * mm, 42 * mm, value_width])]
+        box = Drawing(box_width - 2 * _CELL_PADDING, 20)
+        box.add(Rect(0, 0, box_width - 2 * _CELL_PADDING, 20, strokeColor=INK, strokeWidth=0.8, fillColor=None))
+        rows.append([_cell(reading.label, widths[0]), _cell(reading.unit, widths[1]),
+                     _cell(reading.limit_text, widths[2]), box])
+    return [heading, _ruled_table(("Reading", "Unit", "Limit", "Value"), rows, widths)]
 
 
 def _findings(sheet: Sheet) -> list[Flowable]:
@@ -458,17 +521,15 @@ def _findings(sheet: Sheet) -> list[Flowable]:
 
 
 def _sign_off(width: float) -> list[Flowable]:
-    rows = [
-        ["", *(Paragraph(title, _LABEL) for title in ("Name", "Signature", "Date"))],
-        [Paragraph("Performed by", _CAUTION_TITLE), "", "", ""],
-        [Paragraph("Checked by", _CAUTION_TITLE), "", "", ""],
-    ]
     table = Table(
-        rows,
+        [["", "Name", "Signature", "Date"], ["Performed by", "", "", ""], ["Checked by", "", "", ""]],
         colWidths=[32 * mm, (width - 62 * mm) / 2, (width - 62 * mm) / 2, 30 * mm],
         rowHeights=[12, 30, 30],
         style=TableStyle([
             ("VALIGN", (0, 0), (-1, -1), "BOTTOM"),
+            ("FONT", (0, 0), (-1, 0), FONT, 7, 9),
+            ("TEXTCOLOR", (0, 0), (-1, 0), GREY),
+            ("FONT", (0, 1), (0, -1), FONT_BOLD, BODY_SIZE, BODY_LEADING),
             ("LEFTPADDING", (0, 0), (-1, -1), 0),
             ("RIGHTPADDING", (0, 0), (-1, -1), 10),
             ("LINEBELOW", (1, 1), (-2, -1), 0.8, INK),
@@ -498,7 +559,7 @@ def _sheet_story(index: int, sheet: Sheet, width: float) -> list[Flowable]:
 class _NumberedCanvas(Canvas):
     """A canvas that holds every page back until ``save`` so each page can say "page i of n" of its work order.
 
-    ``work_order`` is set by :class:`_SheetStart` on the first page of each work order.
+    ``work_order`` (index, number, title) is set by :class:`_SheetStart` on the first page of each work order.
     """
 
     def __init__(self, *args, **kwargs):
@@ -524,18 +585,18 @@ class _NumberedCanvas(Canvas):
     def _draw_page_furniture(self, page: int, pages: int) -> None:
         _, number, title = self.work_order
         width, height = self._pagesize
+        label = f"Work order {_shorten(number, 40)}"
         self.saveState()
         self.setStrokeColor(INK)
         self.setFillColor(INK)
         self.setLineWidth(0.6)
         self.line(MARGIN_X, MARGIN_BOTTOM - 6, width - MARGIN_X, MARGIN_BOTTOM - 6)
-        self.setFont("Helvetica-Bold", 8.5)
-        self.drawString(MARGIN_X, MARGIN_BOTTOM - 17, f"Work order {_shorten(number, 40)}")
+        self.setFont(FONT_BOLD, 8.5)
+        self.drawString(MARGIN_X, MARGIN_BOTTOM - 17, label)
         self.drawRightString(width - MARGIN_X, MARGIN_BOTTOM - 17, f"page {page} of {pages}")
         if page > 1:
-            self.setFont("Helvetica", 8)
-            self.drawString(MARGIN_X, height - MARGIN_TOP + 8,
-                            f"Work order {_shorten(number, 40)} \N{EN DASH} {_shorten(title, 80)} (continued)")
+            self.setFont(FONT, 8)
+            self.drawString(MARGIN_X, height - MARGIN_TOP + 8, f"{label} \N{EN DASH} {_shorten(title, 80)} (continued)")
             self.setLineWidth(0.4)
             self.line(MARGIN_X, height - MARGIN_TOP + 4, width - MARGIN_X, height - MARGIN_TOP + 4)
         self.restoreState()
@@ -547,24 +608,24 @@ def render_batch(sheets: Sequence[Sheet], paper: str = "A4") -> bytes:
     Parameters
     ----------
     sheets : sequence of Sheet
-        The work orders, printed in this order.
+        The work orders, printed in this order; at least one.
     paper : str
         ``"A4"`` (595.28 x 841.89 pt) or ``"letter"`` (US Letter, 612 x 792 pt).
 
     Returns
     -------
     bytes
-        The PDF document.
+        The PDF document. Every page's footer reads "Work order <number>" and "page i of n", counted
+        within its own work order.
     """
     if paper not in PAPER_SIZES:
         raise ValueError(f"paper must be one of {', '.join(PAPER_SIZES)}, got {paper!r}")
     if not sheets:
         raise ValueError("no work orders to print")
-    page_width, page_height = PAPER_SIZES[paper]
     buffer = io.BytesIO()
     document = BaseDocTemplate(
         buffer,
-        pagesize=(page_width, page_height),
+        pagesize=PAPER_SIZES[paper],
         leftMargin=MARGIN_X,
         rightMargin=MARGIN_X,
         topMargin=MARGIN_TOP,
@@ -585,5 +646,5 @@ def render_batch(sheets: Sequence[Sheet], paper: str = "A4") -> bytes:
 
 
 def render_sheet(sheet: Sheet, paper: str = "A4") -> bytes:
-    """One work order as a PDF: see :func:`render_batch` for the paper sizes."""
+    """One work order as a PDF; ``paper`` is ``"A4"`` or ``"letter"``, as for :func:`render_batch`."""
     return render_batch([sheet], paper)

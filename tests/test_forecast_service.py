@@ -1,0 +1,216 @@
+"""The due-state recompute end to end: forecasts from the site's own history and sky.
+
+The synthetic site below has a constant sky (every night 10 dark hours, put straight into the nights
+cache) and constant usage, so each forecast date is known analytically.
+"""
+from __future__ import annotations
+
+import datetime as dt
+import json
+
+import pytest
+from django.core.management import call_command
+
+from observatory_ops.logbook.models import NightUsage
+from observatory_ops.planning import services
+from observatory_ops.planning.models import NightSky, PlanStatus, ServicePlan, Trigger
+from observatory_ops.registry.models import Site, Subsystem, Telescope
+
+TODAY = dt.date(2026, 6, 15)
+
+
+def _plan(subsystem, name, triggers, counting_from, sensitivity=0.0):
+    plan = ServicePlan.objects.create(
+        subsystem=subsystem, name=name, counting_from=counting_from, dust_sensitivity=sensitivity
+    )
+    for metric, limit in triggers:
+        Trigger.objects.create(plan=plan, metric=metric, limit=limit)
+    return plan
+
+
+def _constant_sky(site, start, end, dark_hours=10.0):
+    day = start
+    rows = []
+    while day <= end:
+        rows.append(NightSky(site=site, night=day, dark_hours=dark_hours, moon_illumination=0.5,
+                             moonless_dark_hours=dark_hours / 2))
+        day += dt.timedelta(days=1)
+    NightSky.objects.bulk_create(rows)
+
+
+@pytest.fixture
+def synthetic(db):
+    site = Site.objects.create(name="Flatland", slug="flatland", latitude_deg=0, longitude_deg=0, time_zone="UTC")
+    telescope = Telescope.objects.create(site=site, name="S1", aperture_m=0.5, mount="fork")
+    subsystem = Subsystem.objects.create(telescope=telescope, kind="cooling_fans", name="Fans")
+    start = TODAY - dt.timedelta(days=400)
+    _constant_sky(site, start, TODAY + dt.timedelta(days=services.HORIZON_DAYS + 5))
+    # 400 logged nights, each 6 of 10 dark hours open, 30 slews, PM10 60 ug/m3.
+    NightUsage.objects.bulk_create(
+        NightUsage(site=site, night=start + dt.timedelta(days=i), open_hours=6, slews=30, pm10_ugm3=60)
+        for i in range(400)
+    )
+    return site, subsystem, start
+
+
+def test_constant_rates_give_the_analytic_due_date(synthetic):
+    site, subsystem, start = synthetic
+    # Open hours: 400 nights x 6 h = 2400 h logged; limit 3000 leaves 600 h. Expected per night =
+    # 10 dark h x open fraction 0.6 = 6 h, so the limit is reached at the end of the 100th night from
+    # today: day index 99 -> TODAY + 99 days.
+    hours = _plan(subsystem, "hours", [("open_hours", 3000)], start)
+    # Dust-weighted hours at sensitivity 1: weight 1 + (60 - 20) / 20 = 3, so 18 per night;
+    # logged 7200, limit 9000 leaves 1800 = 100 nights -> TODAY + 99 days.
+    dust = _plan(subsystem, "dust", [("dust_hours", 9000)], start, sensitivity=1.0)
+    # Slews: 5 per open hour x 6 h = 30 per night; logged 12000, limit 13500 leaves 1500 = 50 nights.
+    slews = _plan(subsystem, "slews", [("slews", 13500)], start)
+    # Calendar: exactly 500 days after counting began.
+    calendar = _plan(subsystem, "calendar", [("calendar_days", 500)], start)
+    services.site_recompute(site, TODAY)
+    status = {p.name: PlanStatus.objects.get(plan=p) for p in (hours, dust, slews, calendar)}
+    assert status["hours"].value == pytest.approx(2400)
+    assert status["hours"].forecast_date == TODAY + dt.timedelta(days=99)
+    assert status["dust"].value == pytest.approx(7200)
+    assert status["dust"].forecast_date == TODAY + dt.timedelta(days=99)
+    assert status["slews"].forecast_date == TODAY + dt.timedelta(days=49)
+    assert status["calendar"].forecast_date == start + dt.timedelta(days=500)
+    assert status["calendar"].earliest == status["calendar"].latest == status["calendar"].forecast_date
+    # Every month of history is exactly on the model, so the band collapses to the date itself.
+    assert status["hours"].earliest == status["hours"].latest == status["hours"].forecast_date
+    assert "own open fraction for every month" in status["hours"].reason or status["hours"].triggers[0]["basis"]
+
+
+def test_whichever_comes_first_governs(synthetic):
+    site, subsystem, start = synthetic
+    plan = _plan(subsystem, "both", [("open_hours", 3000), ("slews", 13500)], start)
+    services.site_recompute(site, TODAY)
+    status = PlanStatus.objects.get(plan=plan)
+    assert status.metric == "slews"  # 50 nights away beats 100 nights away
+    assert [t["metric"] for t in status.triggers] == ["slews", "open_hours"]
+
+
+def test_service_record_restarts_counting(synthetic, users):
+    from observatory_ops.logbook.services import service_record_log
+
+    site, subsystem, start = synthetic
+    plan = _plan(subsystem, "hours", [("open_hours", 3000)], start)
+    service_record_log(subsystem, plan, TODAY - dt.timedelta(days=10), users["technician"], "done")
+    services.site_recompute(site, TODAY)
+    status = PlanStatus.objects.get(plan=plan)
+    # Nights from the service date on: the 10 nights TODAY-10 .. TODAY-1, 6 h each.
+    assert status.value == pytest.approx(60)
+    assert status.last_service_on == TODAY - dt.timedelta(days=10)
+
+
+def test_overdue_due_and_later(synthetic):
+    site, subsystem, start = synthetic
+    overdue = _plan(subsystem, "overdue", [("open_hours", 2000)], start)
+    due = _plan(subsystem, "due", [("open_hours", 2460)], start)  # 10 nights away, look-ahead 30 days
+    later = _plan(subsystem, "later", [("open_hours", 5000)], start)
+    services.site_recompute(site, TODAY)
+    got = {p.name: PlanStatus.objects.get(plan=p).status for p in (overdue, due, later)}
+    assert got == {"overdue": "overdue", "due": "due", "later": "later"}
+
+
+def test_condition_trigger_extrapolates_the_theil_sen_trend(db, users):
+    from django.utils import timezone
+
+    from observatory_ops.logbook.models import Reading
+
+    site = Site.objects.create(name="Trend", slug="trend", latitude_deg=30, longitude_deg=0, time_zone="UTC")
+    telescope = Telescope.objects.create(site=site, name="S1", aperture_m=0.5, mount="fork")
+    drive = Subsystem.objects.create(telescope=telescope, kind="axis1_drive", name="Drive")
+    plan = _plan(drive, "settle", [], TODAY - dt.timedelta(days=200))
+    Trigger.objects.create(plan=plan, metric="reading", limit=1.0, quantity="settle_time_s")
+    # Settle time rising 0.005 s/day exactly from 0.5 s, 100 days ago: reaches 1.0 s at day 100 = today.
+    # Use 0.004 s/day: 0.5 + 0.004 d = 1.0 at d = 125 -> 25 days after today.
+    origin = TODAY - dt.timedelta(days=100)
+    for d in range(0, 101, 10):
+        Reading.objects.create(
+            subsystem=drive, quantity="settle_time_s", unit="s", value=0.5 + 0.004 * d,
+            taken_at=timezone.make_aware(dt.datetime.combine(origin + dt.timedelta(days=d), dt.time(12))),
+            taken_by=users["technician"],
+        )
+    services.site_recompute(site, TODAY)
+    status = PlanStatus.objects.get(plan=plan)
+    assert status.metric == "reading"
+    assert status.forecast_date == TODAY + dt.timedelta(days=25)
+    assert status.status == "due"
+    assert "Theil-Sen" in status.reason
+
+
+@pytest.mark.parametrize("latitude", [70.0, 89.0, -75.0])
+def test_polar_sites_and_a_date_ten_years_ahead_run(db, latitude):
+    from observatory_ops.registry.services import subsystem_create
+
+    site = Site.objects.create(name="North", slug=f"n{int(abs(latitude))}", latitude_deg=latitude,
+                               longitude_deg=20, time_zone="Europe/Oslo")
+    telescope = Telescope.objects.create(site=site, name="P1", aperture_m=0.4, mount="german")
+    far = dt.date(2036, 6, 21)
+    subsystem_create(telescope, "cooling_fans", "Fans", counting_from=far - dt.timedelta(days=30))
+    NightUsage.objects.bulk_create(
+        NightUsage(site=site, night=far - dt.timedelta(days=i), open_hours=0.5, pm10_ugm3=30) for i in range(1, 30, 3)
+    )  # a log with gaps
+    assert services.site_recompute(site, far) == 2
+    for status in PlanStatus.objects.filter(site=site):
+        assert status.reason
+
+
+def test_site_with_no_history_uses_the_prior_and_says_so(db):
+    from observatory_ops.registry.services import subsystem_create
+
+    site = Site.objects.create(name="New", slug="new", latitude_deg=35, longitude_deg=-5, time_zone="Europe/Madrid")
+    telescope = Telescope.objects.create(site=site, name="N1", aperture_m=0.3, mount="altaz")
+    subsystem_create(telescope, "enclosure", "Dome", counting_from=TODAY)
+    services.site_recompute(site, TODAY)
+    status = PlanStatus.objects.get(site=site)
+    hours = next(t for t in status.triggers if t["metric"] == "open_hours")
+    assert "prior open fraction" in hours["basis"]
+    assert hours["forecast"] is not None  # prior 0.5 x dark hours still moves toward the limit
+
+
+def test_nights_cache_is_filled_once(site):
+    start = dt.date(2026, 1, 1)
+    assert services.site_sky_refresh(site, start, start + dt.timedelta(days=9)) == 10
+    assert services.site_sky_refresh(site, start, start + dt.timedelta(days=9)) == 0
+    assert services.site_sky_refresh(site, start, start + dt.timedelta(days=14)) == 5
+
+
+def test_due_command_prints_the_documented_keys(synthetic, capsys):
+    site, subsystem, start = synthetic
+    _plan(subsystem, "hours", [("open_hours", 3000)], start)
+    services.site_recompute(site, TODAY)
+    call_command("due", "--site", "flatland", "--json")
+    records = json.loads(capsys.readouterr().out)
+    assert len(records) == 1
+    assert {"subsystem", "plan", "trigger", "value", "limit", "rate", "forecast_date", "earliest", "latest"} <= set(
+        records[0]
+    )
+
+
+def test_nights_command_json_for_a_position_and_for_a_site(site, capsys):
+    call_command("nights", "--lat", "40", "--lon", "-3", "--tz", "Europe/Madrid", "--start", "2026-03-20",
+                 "--days", "2", "--json")
+    by_position = json.loads(capsys.readouterr().out)
+    call_command("nights", "test-hill", "--start", "2026-03-20", "--days", "2", "--json")
+    by_site = json.loads(capsys.readouterr().out)
+    keys = {"date", "sunset", "sunrise", "dusk", "dawn", "dark_hours", "moon_illumination", "moonless_dark_hours"}
+    assert [set(r) for r in by_position] == [keys, keys]
+    assert by_site[0]["date"] == "2026-03-20" and by_site[0]["dusk"].endswith("Z")
+    assert abs(by_site[0]["dark_hours"] - by_position[0]["dark_hours"]) < 0.01
+
+
+@pytest.mark.parametrize(
+    "args, message",
+    [
+        (["--lat", "91", "--lon", "0", "--tz", "UTC"], "latitude"),
+        (["--lat", "10", "--lon", "0"], "--tz"),
+        (["--lat", "10", "--lon", "0", "--tz", "Mars/Olympus"], "zone"),
+        (["nowhere"], "no site"),
+    ],
+)
+def test_nights_command_bad_input_is_a_clear_message(db, args, message):
+    from django.core.management.base import CommandError
+
+    with pytest.raises(CommandError, match=message):
+        call_command("nights", *args, "--start", "2026-01-01", "--days", "3")
