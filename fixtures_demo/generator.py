@@ -13,11 +13,12 @@ from django.contrib.auth.models import Group, User
 from django.db import transaction
 from django.utils import timezone
 
-from observatory_ops.calc import nights
+from observatory_ops.calc import exposure, nights
 from observatory_ops.logbook.models import NightUsage, Reading, ServiceRecord
+from observatory_ops.mirrors.models import CleaningEvent, CoatingEvent, Mirror, ReflectanceMeasurement
 from observatory_ops.planning import services as planning
 from observatory_ops.planning.metrics import READING
-from observatory_ops.planning.models import Trigger
+from observatory_ops.planning.models import BookedRun, Trigger
 from observatory_ops.registry.models import Site, Telescope
 from observatory_ops.registry.services import subsystem_create
 from observatory_ops.workorders.models import IsolationPoint, Part
@@ -77,7 +78,7 @@ def demo_users() -> list[tuple[str, str, str]]:
             user.is_staff = role == "administrator"
             user.is_superuser = role == "administrator"
             user.save()
-        user.groups.add(Group.objects.get(name=role))
+        user.groups.add(Group.objects.get_or_create(name=role)[0])
         out.append((username, role, password))
     return out
 
@@ -121,6 +122,7 @@ def build(today: dt.date | None = None) -> tuple[Site, bool]:
         _drive_settle_triggers(subsystems, users["technician"], today, rng)
         _service_history(site, subsystems, users, today, rng)
         _workshop(site, (t70, r40))
+        _mirrors(site, subsystems, users["technician"], today, rng)
         planning.site_recompute(site, today)
     return site, True
 
@@ -229,4 +231,63 @@ def _workshop(site: Site, telescopes) -> None:
             Part(site=site, name="Drive roller wipes (solvent)", part_number="VR-WIP-20", quantity_on_hand=12,
                  reorder_point=5, location="flammables cabinet", unit="pack"),
         ]
+    )
+
+
+# Mirror: (telescope, diameter, thickness, hole mm, material, cell kg, coated months ago, metal, layers,
+#          decline per dust-weighted hour, recovery per cleaning).
+_MIRRORS = (
+    ("T70", 700, 70, 160, "borosilicate", 95, 14, "al", [], 3.4e-5, 0.5),
+    ("R40", 400, 45, 100, "glass_ceramic", 25, 22, "al", [{"material": "SiO2", "thickness_nm": 100}], 1.6e-5, 0.4),
+)
+
+
+def _mirrors(site, subsystems, technician, today: dt.date, rng: np.random.Generator) -> None:
+    """Primary mirrors with a coating, CO2-snow cleanings every quarter and monthly band measurements.
+
+    The measurements follow the decline model of ``calc.reflectance`` driven by the demo's own dusty
+    nights, plus measurement noise, so the fit on the mirror page recovers an invented decline rate.
+    """
+    from observatory_ops.calc import coating
+
+    usage = list(NightUsage.objects.filter(site=site).order_by("night").values_list("night", "open_hours", "pm10_ugm3"))
+    nights_ = np.array([u[0] for u in usage], dtype="datetime64[D]")
+    per_night = exposure.dust_weighted_hours(
+        [u[1] for u in usage], [np.nan if u[2] is None else u[2] for u in usage], 1.0
+    )
+    cumulative = np.concatenate([[0.0], np.cumsum(per_night)])
+
+    def exposure_on(since: dt.date, day: dt.date) -> float:
+        first, last = np.searchsorted(nights_, np.datetime64(since)), np.searchsorted(nights_, np.datetime64(day))
+        return float(cumulative[last] - cumulative[first])
+
+    for telescope, dia, thick, hole, material, cell, months, metal, layers, rate, recovery in _MIRRORS:
+        mirror = Mirror.objects.create(
+            subsystem=subsystems[(telescope, "Primary mirror")], diameter_mm=dia, thickness_mm=thick, hole_mm=hole,
+            material=material, cell_mass_kg=cell,
+        )
+        coated = today - dt.timedelta(days=int(months * 30.4))
+        CoatingEvent.objects.create(mirror=mirror, coated_on=coated, metal=metal, layers=layers,
+                                    note="vendor chamber, witness sample kept")
+        fresh = coating.coating_curve(metal, [coating.Layer(x["material"], x["thickness_nm"]) for x in layers])
+        r0 = fresh["band_mean"] - 0.004  # a real chamber lands a little under the ideal film
+        cleanings = [coated + dt.timedelta(days=d) for d in range(95, (today - coated).days, 91)]
+        for day in cleanings:
+            CleaningEvent.objects.create(mirror=mirror, cleaned_on=day, method=CleaningEvent.Method.CO2_SNOW)
+        clean_exposures = [exposure_on(coated, c) for c in cleanings]
+        for day in [coated + dt.timedelta(days=d) for d in range(3, (today - coated).days, 30)]:
+            e = exposure_on(coated, day)
+            last_clean = max([c for c in clean_exposures if c <= e], default=0.0)
+            value = r0 - rate * (e - recovery * last_clean) + rng.normal(0, 0.002)
+            ReflectanceMeasurement.objects.create(
+                mirror=mirror, measured_on=day, value=round(float(value), 4), position="mean of 5 marked points",
+                instrument="handheld reflectometer RF-2 (invented)", taken_by=technician,
+            )
+    secondary = Mirror.objects.create(
+        subsystem=subsystems[("T70", "Secondary mirror")], diameter_mm=220, thickness_mm=35, material="glass_ceramic",
+    )
+    CoatingEvent.objects.create(mirror=secondary, coated_on=today - dt.timedelta(days=int(14 * 30.4)), metal="al")
+    BookedRun.objects.create(
+        site=site, title="Comet photometry campaign", starts_on=today + dt.timedelta(days=40),
+        ends_on=today + dt.timedelta(days=58), blocked=True,
     )

@@ -51,6 +51,7 @@ INSTALLED_APPS = [
     "observatory_ops.logbook",
     "observatory_ops.planning",
     "observatory_ops.workorders",
+    "observatory_ops.mirrors",
 ]
 
 MIDDLEWARE = [
@@ -109,7 +110,7 @@ LOGIN_URL = "login"
 LOGIN_REDIRECT_URL = "home"
 LOGOUT_REDIRECT_URL = "login"
 
-LANGUAGE_CODE = "en-gb"
+LANGUAGE_CODE = "en"  # its input formats start with ISO dates, which <input type="date"> needs
 TIME_ZONE = "UTC"  # stored and computed in UTC; pages show each site's own zone
 USE_I18N = False
 USE_TZ = True

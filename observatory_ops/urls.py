@@ -10,4 +10,5 @@ urlpatterns = [
     path("", include("observatory_ops.logbook.urls")),
     path("", include("observatory_ops.planning.urls")),
     path("", include("observatory_ops.workorders.urls")),
+    path("", include("observatory_ops.mirrors.urls")),
 ]

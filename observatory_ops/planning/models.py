@@ -108,3 +108,23 @@ class NightSky(models.Model):
     class Meta:
         ordering = ["site", "night"]
         constraints = [models.UniqueConstraint(fields=["site", "night"], name="one_sky_row_per_site_night")]
+
+
+class BookedRun(models.Model):
+    """An observing run booked at a site: nights that are expensive (or impossible) to lose to downtime."""
+
+    site = models.ForeignKey(Site, on_delete=models.CASCADE, related_name="booked_runs")
+    title = models.CharField(max_length=120)
+    starts_on = models.DateField()
+    ends_on = models.DateField()
+    blocked = models.BooleanField(default=True, help_text="Off: the nights cost more instead of being excluded.")
+
+    class Meta:
+        ordering = ["starts_on"]
+
+    def __str__(self) -> str:
+        return f"{self.title} ({self.starts_on} to {self.ends_on})"
+
+    def clean(self) -> None:
+        if self.ends_on < self.starts_on:
+            raise ValidationError({"ends_on": "A run cannot end before it starts."})

@@ -122,7 +122,9 @@ class _Paragraph(Paragraph):
     _wrapped_width: float | None = None
 
     def wrap(self, availWidth, availHeight):  # noqa: N803 - reportlab's names
-        if availWidth != self._wrapped_width:
+        # Paragraph.split drops the line breaks (blPara) when it refuses to split, so their absence also
+        # means the paragraph must be broken again.
+        if availWidth != self._wrapped_width or not hasattr(self, "blPara"):
             super().wrap(availWidth, availHeight)
             self._wrapped_width = availWidth
         return self.width, self.height
@@ -284,7 +286,7 @@ class _QrCode(Flowable):
         code.add_data(url)
         try:
             code.make(fit=True)
-        except DataOverflowError as error:
+        except (DataOverflowError, ValueError) as error:  # ValueError: no QR version (1 to 40) is big enough
             raise ValueError(f"the work order address is too long for a QR code ({len(url)} characters)") from error
         matrix = code.get_matrix()
         self._modules = len(matrix)

@@ -31,8 +31,8 @@ class SheetPart:
     quantity: float
 
     def __post_init__(self) -> None:
-        if not math.isfinite(self.quantity) or self.quantity <= 0:
-            raise ValueError(f"part {self.name!r}: quantity must be a positive number, got {self.quantity!r}")
+        if not math.isfinite(self.quantity) or self.quantity < 0:
+            raise ValueError(f"part {self.name!r}: quantity must be a number of 0 or more, got {self.quantity!r}")
 
 
 @dataclass(frozen=True)
@@ -94,6 +94,9 @@ class Sheet:
     generated_at: datetime | None = None
 
     def __post_init__(self) -> None:
+        for name in ("subsystems", "why", "isolation_points", "steps", "tools"):
+            if isinstance(getattr(self, name), str):
+                raise ValueError(f"{name} must be a sequence of lines, not a single string")
         if not self.number.strip():
             raise ValueError("work order number must not be blank")
         if not math.isfinite(self.estimated_hours) or self.estimated_hours < 0:

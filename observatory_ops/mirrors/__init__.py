@@ -1,0 +1,1 @@
+"""Mirrors: geometry, coating and cleaning history, reflectance measurements, decline and recoat plans."""

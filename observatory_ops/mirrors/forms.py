@@ -1,0 +1,41 @@
+import datetime as dt
+
+from django import forms
+
+from observatory_ops.calc.windows import RECOAT_PHASES, Phase
+
+from .models import CleaningEvent
+
+
+class MeasurementForm(forms.Form):
+    measured_on = forms.DateField(widget=forms.DateInput(attrs={"type": "date"}))
+    value = forms.FloatField(min_value=0, max_value=1, help_text="Band reflectance as a fraction, e.g. 0.86.")
+    position = forms.CharField(max_length=60, required=False)
+    instrument = forms.CharField(max_length=80, required=False)
+
+
+class CleaningForm(forms.Form):
+    cleaned_on = forms.DateField(widget=forms.DateInput(attrs={"type": "date"}))
+    method = forms.ChoiceField(choices=CleaningEvent.Method.choices)
+    note = forms.CharField(max_length=200, required=False)
+
+
+class WindowForm(forms.Form):
+    start = forms.DateField(widget=forms.DateInput(attrs={"type": "date"}))
+    horizon_days = forms.IntegerField(min_value=7, max_value=3 * 366, initial=365)
+
+    def __init__(self, *args, **kwargs):
+        super().__init__(*args, **kwargs)
+        for i, phase in enumerate(RECOAT_PHASES):
+            self.fields[f"phase_{i}"] = forms.IntegerField(
+                label=f"{phase.name} (days)", min_value=0, max_value=90, initial=phase.days
+            )
+
+    def phases(self) -> list[Phase]:
+        return [Phase(p.name, self.cleaned_data[f"phase_{i}"]) for i, p in enumerate(RECOAT_PHASES)]
+
+    def clean_start(self):
+        start = self.cleaned_data["start"]
+        if start < dt.date(2000, 1, 1) or start > dt.date(2100, 1, 1):
+            raise forms.ValidationError("Choose a start between 2000 and 2100.")
+        return start

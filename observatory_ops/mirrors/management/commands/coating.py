@@ -1,0 +1,41 @@
+import json
+
+from django.core.management.base import BaseCommand, CommandError
+
+from observatory_ops.calc.coating import MATERIALS, Layer, coating_curve
+
+
+def _layer(text: str) -> Layer:
+    material, sep, thickness = text.partition(":")
+    if not sep:
+        raise CommandError(f"--layer must be MATERIAL:THICKNESS_NM, e.g. SiO2:100, not {text!r}")
+    try:
+        return Layer(material, float(thickness))
+    except ValueError:
+        raise CommandError(f"--layer {text!r}: the thickness must be a number of nanometres") from None
+
+
+class Command(BaseCommand):
+    help = "Normal-incidence reflectance of a fresh metal coating under dielectric overcoats (characteristic-matrix)."
+
+    def add_arguments(self, parser):
+        parser.add_argument("--metal", required=True, help="al or ag")
+        parser.add_argument("--layer", action="append", default=[], help=f"MATERIAL:NM, from the metal outward; "
+                            f"materials: {', '.join(MATERIALS)}")
+        parser.add_argument("--from", dest="from_nm", type=float, default=400.0)
+        parser.add_argument("--to", dest="to_nm", type=float, default=1000.0)
+        parser.add_argument("--step", dest="step_nm", type=float, default=10.0)
+        parser.add_argument("--json", action="store_true", dest="as_json")
+
+    def handle(self, *args, **o):
+        layers = [_layer(text) for text in o["layer"]]
+        try:
+            result = coating_curve(o["metal"], layers, o["from_nm"], o["to_nm"], o["step_nm"])
+        except ValueError as exc:
+            raise CommandError(str(exc)) from None
+        if o["as_json"]:
+            self.stdout.write(json.dumps(result))
+            return
+        self.stdout.write(f"band mean {o['from_nm']:g}-{o['to_nm']:g} nm: {result['band_mean']:.4f}")
+        for point in result["curve"]:
+            self.stdout.write(f"{point['wavelength_nm']:8.1f} nm  {point['reflectance']:.4f}")

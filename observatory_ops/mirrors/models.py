@@ -1,0 +1,127 @@
+"""A mirror's geometry and history: coatings, cleanings, reflectance measurements; recoat plans."""
+from __future__ import annotations
+
+from django.conf import settings
+from django.core.exceptions import ValidationError
+from django.core.validators import MaxValueValidator, MinValueValidator
+from django.db import models
+from django.urls import reverse
+
+from observatory_ops.calc.coating import MATERIALS, METALS
+from observatory_ops.calc.lifting import DENSITY
+from observatory_ops.registry.models import Subsystem
+
+
+class Mirror(models.Model):
+    """The optical facts of a mirror subsystem (primary or secondary)."""
+
+    subsystem = models.OneToOneField(Subsystem, on_delete=models.PROTECT, related_name="mirror")
+    diameter_mm = models.FloatField(validators=[MinValueValidator(1)])
+    thickness_mm = models.FloatField(validators=[MinValueValidator(1)])
+    hole_mm = models.FloatField(default=0, validators=[MinValueValidator(0)])
+    material = models.CharField(max_length=24, choices=[(k, k.replace("_", " ")) for k in DENSITY])
+    lightweighting_fraction = models.FloatField(default=0, validators=[MinValueValidator(0), MaxValueValidator(0.95)])
+    cell_mass_kg = models.FloatField(default=0, validators=[MinValueValidator(0)], help_text="Lifted with the mirror.")
+    recoat_loss = models.FloatField(
+        default=0.08, validators=[MinValueValidator(0.001), MaxValueValidator(0.9)],
+        help_text="Recoat when band reflectance has fallen by this fraction of its fresh value (0.08 = 8 %).",
+    )
+    band_from_nm = models.FloatField(default=400)
+    band_to_nm = models.FloatField(default=1000)
+    dust_sensitivity = models.FloatField(default=1.0, validators=[MinValueValidator(0)])
+
+    def __str__(self) -> str:
+        return str(self.subsystem)
+
+    def get_absolute_url(self) -> str:
+        return reverse("mirror-detail", args=[self.pk])
+
+    def clean(self) -> None:
+        if self.hole_mm >= self.diameter_mm:
+            raise ValidationError({"hole_mm": "The central hole must be smaller than the mirror."})
+        if self.band_from_nm >= self.band_to_nm:
+            raise ValidationError({"band_to_nm": "The band must end above where it starts."})
+
+    @property
+    def lift_inputs(self) -> dict:
+        return {
+            "diameter_mm": self.diameter_mm, "thickness_mm": self.thickness_mm, "hole_mm": self.hole_mm,
+            "material": self.material, "lightweighting_fraction": self.lightweighting_fraction,
+            "fixture_kg": self.cell_mass_kg, "legs": 2, "angle_deg": 60,
+        }
+
+
+def validate_layers(value) -> None:
+    if not isinstance(value, list):
+        raise ValidationError("layers must be a list")
+    for layer in value:
+        if not isinstance(layer, dict) or layer.get("material") not in MATERIALS:
+            raise ValidationError(f"each layer needs a material from {', '.join(MATERIALS)}")
+        thickness = layer.get("thickness_nm")
+        if not isinstance(thickness, int | float) or thickness < 0:
+            raise ValidationError("each layer needs a thickness of 0 nm or more")
+
+
+class CoatingEvent(models.Model):
+    mirror = models.ForeignKey(Mirror, on_delete=models.PROTECT, related_name="coatings")
+    coated_on = models.DateField()
+    metal = models.CharField(max_length=4, choices=[(m, m) for m in METALS])
+    layers = models.JSONField(default=list, blank=True, validators=[validate_layers],
+                              help_text='Overcoats from the metal outward: [{"material": "SiO2", "thickness_nm": 100}]')
+    note = models.CharField(max_length=200, blank=True)
+
+    class Meta:
+        ordering = ["-coated_on"]
+
+    def __str__(self) -> str:
+        return f"{self.coated_on} {self.recipe}"
+
+    @property
+    def recipe(self) -> str:
+        overcoats = [f"{x['material']} {x['thickness_nm']:g} nm" for x in self.layers]
+        return " + ".join([self.metal.capitalize(), *overcoats])
+
+
+class CleaningEvent(models.Model):
+    class Method(models.TextChoices):
+        CO2_SNOW = "co2_snow", "CO2 snow"
+        WASH = "wash", "wash"
+
+    mirror = models.ForeignKey(Mirror, on_delete=models.PROTECT, related_name="cleanings")
+    cleaned_on = models.DateField()
+    method = models.CharField(max_length=12, choices=Method.choices)
+    note = models.CharField(max_length=200, blank=True)
+
+    class Meta:
+        ordering = ["-cleaned_on"]
+
+
+class ReflectanceMeasurement(models.Model):
+    """A measured reflectance (0..1): at one wavelength or averaged over the mirror's band. Append-only."""
+
+    mirror = models.ForeignKey(Mirror, on_delete=models.PROTECT, related_name="measurements")
+    measured_on = models.DateField()
+    value = models.FloatField(validators=[MinValueValidator(0), MaxValueValidator(1)])
+    wavelength_nm = models.FloatField(null=True, blank=True, help_text="Empty: averaged over the mirror's band.")
+    position = models.CharField(max_length=60, blank=True, help_text="Where on the mirror, e.g. 'centre', 'r=0.7 N'.")
+    instrument = models.CharField(max_length=80, blank=True)
+    taken_by = models.ForeignKey(settings.AUTH_USER_MODEL, on_delete=models.PROTECT, related_name="+")
+
+    class Meta:
+        ordering = ["measured_on", "pk"]
+
+
+class RecoatPlan(models.Model):
+    """A chosen downtime window turned into a sequence of work orders."""
+
+    mirror = models.ForeignKey(Mirror, on_delete=models.PROTECT, related_name="recoat_plans")
+    starts_on = models.DateField()
+    ends_on = models.DateField()
+    phases = models.JSONField(help_text='[{"name": ..., "days": ...}] in order.')
+    cost = models.FloatField(help_text="Expected usable moonless open hours lost in the window.")
+    created_at = models.DateTimeField(auto_now_add=True)
+    created_by = models.ForeignKey(settings.AUTH_USER_MODEL, on_delete=models.PROTECT, related_name="+")
+    work_orders = models.ManyToManyField("workorders.WorkOrder", related_name="recoat_plans", blank=True)
+
+    class Meta:
+        ordering = ["-starts_on"]

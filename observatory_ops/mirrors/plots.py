@@ -1,0 +1,40 @@
+"""The mirror page's picture: measured reflectance against dust-weighted exposure, the fit and the line."""
+from __future__ import annotations
+
+import math
+
+import numpy as np
+from django.utils.safestring import SafeString
+
+from observatory_ops.calc import reflectance
+from observatory_ops.charts import ALERT, Chart
+
+from .services import MirrorForecast
+
+
+def decline_svg(state: MirrorForecast) -> SafeString | None:
+    if not state.points and state.fresh_band is None:
+        return None
+    ends = [state.exposure_now_h, *(p[1] for p in state.points)]
+    for value in (state.crossing_exposure_h,):
+        if value is not None and math.isfinite(value):
+            ends.append(value)
+    x_high = max(ends) * 1.1 or 100.0
+    values = [p[2] for p in state.points] + [v for v in (state.fresh_band, state.threshold) if v is not None]
+    chart = Chart(0.0, x_high, min(values) - 0.01, max(values) + 0.01, f"Reflectance of {state.mirror}")
+    chart.axes(y_format=".3f", x_label="dust-weighted open hours since coating")
+    if state.fit is not None:
+        grid = np.linspace(0, x_high, 200)
+        chart.line(list(zip(grid, reflectance.predict(state.fit, grid), strict=True)))
+    if state.threshold is not None:
+        chart.hline(state.threshold, f"recoat line {state.threshold:.3f}")
+    if state.fresh_band is not None:
+        chart.hline(state.fresh_band, f"computed fresh {state.fresh_band:.3f}", colour="#4a6b4a")
+    for _, exposure in state.cleanings:
+        chart.line([(exposure, chart.y_low), (exposure, chart.y_high)], colour="#8aa", width=1, dashed=True)
+    chart.dots([(p[1], p[2]) for p in state.points], label="measured")
+    chart.vline(state.exposure_now_h, "now")
+    if state.crossing_exposure_h is not None and math.isfinite(state.crossing_exposure_h) and state.crossing:
+        chart.marker(state.crossing_exposure_h, state.threshold, f"crosses about {state.crossing:%d %b %Y}")
+    chart.text(chart.left + 6, chart.height - chart.bottom - 6, "dashed verticals: cleanings", colour=ALERT)
+    return chart.svg()

@@ -1,0 +1,259 @@
+"""Mirror state and recoat planning: the shell around calc.coating, calc.reflectance and calc.windows.
+
+``mirror_forecast`` gathers a mirror's coatings, cleanings and measurements and the site's log, and
+returns every figure the mirror page, the command and the API show, each with how it was obtained.
+"""
+from __future__ import annotations
+
+import datetime as dt
+import math
+from dataclasses import dataclass, field
+
+import numpy as np
+from django.db import transaction
+
+from observatory_ops.calc import coating, forecast, reflectance, windows
+from observatory_ops.planning import metrics
+from observatory_ops.planning.models import BookedRun, NightSky
+from observatory_ops.planning.services import UsageLog, site_sky_refresh, site_today, usage_model
+from observatory_ops.registry.models import Site
+from observatory_ops.workorders.cautions import HAZARDS
+from observatory_ops.workorders.models import WorkOrder, WorkOrderItem
+
+from .models import Mirror, RecoatPlan
+
+#: Weight of a night inside a booked run that is not blocked: it costs this many times more to lose.
+BOOKED_WEIGHT = 5.0
+
+
+@dataclass
+class MirrorForecast:
+    mirror: Mirror
+    coated_on: dt.date | None
+    recipe: str
+    fresh_band: float | None  # computed from the coating recipe (characteristic-matrix method)
+    fresh_basis: str
+    exposure_now_h: float  # dust-weighted open hours since the coating
+    points: list[tuple[dt.date, float, float]] = field(default_factory=list)  # (date, exposure, reflectance)
+    cleanings: list[tuple[dt.date, float]] = field(default_factory=list)  # (date, exposure)
+    fit: reflectance.DeclineFit | None = None
+    fit_note: str = ""
+    current: float | None = None
+    threshold: float | None = None
+    threshold_basis: str = ""
+    crossing_exposure_h: float | None = None
+    crossing: dt.date | None = None
+    crossing_earliest: dt.date | None = None
+    crossing_latest: dt.date | None = None
+    dust_hours_per_day: float = 0.0
+
+
+def _coating_band(mirror: Mirror, metal: str, layers: list[dict]) -> float:
+    curve = coating.coating_curve(
+        metal, [coating.Layer(x["material"], float(x["thickness_nm"])) for x in layers],
+        from_nm=mirror.band_from_nm, to_nm=mirror.band_to_nm, step_nm=5,
+    )
+    return curve["band_mean"]
+
+
+def _exposure_at(log: UsageLog, per_night: np.ndarray, since: dt.date, days: list[dt.date]) -> np.ndarray:
+    """Dust-weighted hours from the night of ``since`` up to (not including) the night of each day."""
+    cumulative = np.concatenate([[0.0], np.cumsum(per_night)])
+    start = np.searchsorted(log.nights, np.datetime64(since, "D"))
+    ends = np.searchsorted(log.nights, np.array(days, dtype="datetime64[D]"))
+    return cumulative[np.maximum(ends, start)] - cumulative[start]
+
+
+def mirror_forecast(mirror: Mirror, today: dt.date | None = None) -> MirrorForecast:
+    """Fresh reflectance, fitted decline, current estimate, recoat threshold and its crossing date."""
+    site = mirror.subsystem.telescope.site
+    today = today or site_today(site)
+    last = mirror.coatings.order_by("-coated_on").first()
+    if last is None:
+        return MirrorForecast(mirror, None, "", None, "no coating recorded", 0.0, fit_note="no coating recorded")
+    fresh = _coating_band(mirror, last.metal, last.layers)
+    log = UsageLog.for_site(site)
+    per_night = log.per_night(metrics.DUST_HOURS, mirror.dust_sensitivity)
+    measurements = list(
+        mirror.measurements.filter(measured_on__gte=last.coated_on, wavelength_nm__isnull=True).order_by("measured_on")
+    )
+    cleanings = list(mirror.cleanings.filter(cleaned_on__gte=last.coated_on).order_by("cleaned_on"))
+    days = [m.measured_on for m in measurements] + [c.cleaned_on for c in cleanings] + [today]
+    exposures = _exposure_at(log, per_night, last.coated_on, days)
+    n, k = len(measurements), len(cleanings)
+    result = MirrorForecast(
+        mirror=mirror, coated_on=last.coated_on, recipe=last.recipe, fresh_band=fresh,
+        fresh_basis=f"{last.recipe}, {mirror.band_from_nm:g}-{mirror.band_to_nm:g} nm band mean, "
+        "characteristic-matrix method with published optical constants",
+        exposure_now_h=float(exposures[-1]),
+        points=[(m.measured_on, float(e), m.value) for m, e in zip(measurements, exposures[:n], strict=True)],
+        cleanings=[(c.cleaned_on, float(e)) for c, e in zip(cleanings, exposures[n : n + k], strict=True)],
+    )
+    try:
+        fit = reflectance.fit_decline(
+            [p[1] for p in result.points], [p[2] for p in result.points], [c[1] for c in result.cleanings]
+        )
+    except ValueError as exc:
+        result.fit_note = f"no fit yet: {exc}"
+        result.threshold = fresh * (1 - mirror.recoat_loss)
+        result.threshold_basis = f"{mirror.recoat_loss:.0%} below the computed fresh value"
+        return result
+    result.fit = fit
+    result.current = float(reflectance.predict(fit, [result.exposure_now_h])[0])
+    result.threshold = fit.r0 * (1 - mirror.recoat_loss)
+    result.threshold_basis = f"{mirror.recoat_loss:.0%} below the fitted fresh value R0 = {fit.r0:.4f}"
+    crossing = reflectance.crossing_exposure(fit, result.threshold)
+    result.crossing_exposure_h = crossing.exposure_h
+    model = usage_model(site, log, today, 3 * 366)
+    expected = model.expected(metrics.DUST_HOURS, mirror.dust_sensitivity)
+    result.dust_hours_per_day = float(expected[:30].mean())
+    remaining = [x - result.exposure_now_h for x in (crossing.exposure_h, crossing.early_h, crossing.late_h)]
+    offsets = [
+        forecast.days_reached([r], expected)[0][0] if math.isfinite(r) else -1 for r in remaining
+    ]
+    central, early, late = (today + dt.timedelta(days=int(o)) if o >= 0 else None for o in offsets)
+    result.crossing, result.crossing_earliest, result.crossing_latest = central, early, late
+    return result
+
+
+def throughput(mirrors: list[Mirror], today: dt.date | None = None) -> dict:
+    """The optical train's throughput now and fresh (product of band reflectances) and its loss in mag."""
+    states = [mirror_forecast(m, today) for m in mirrors]
+    known = [s for s in states if s.fresh_band is not None]
+    if not known:
+        return {"mirrors": [], "loss_mag": None}
+    now = [s.current if s.current is not None else s.fresh_band for s in known]
+    fresh = [s.fit.r0 if s.fit else s.fresh_band for s in known]
+    return {
+        "mirrors": [str(s.mirror) for s in known],
+        "now": float(np.prod(now)),
+        "fresh": float(np.prod(fresh)),
+        "loss_mag": reflectance.throughput_loss_mag(now, fresh),
+    }
+
+
+def telescope_mirrors(mirror: Mirror) -> list[Mirror]:
+    return list(Mirror.objects.filter(subsystem__telescope=mirror.subsystem.telescope_id).select_related("subsystem"))
+
+
+# --- downtime windows -------------------------------------------------------------------------------
+
+
+@dataclass(frozen=True)
+class NightCost:
+    night: dt.date
+    moon_illumination: float
+    moonless_dark_hours: float
+    open_fraction: float
+    booked: str
+    cost: float
+
+
+def night_costs(site: Site, start: dt.date, horizon_days: int) -> list[NightCost]:
+    """Cost to lose each coming night: moonless dark hours x the month's open fraction; bookings cost more."""
+    if horizon_days < 1:
+        raise ValueError("the horizon must be at least one day")
+    end = start + dt.timedelta(days=horizon_days - 1)
+    site_sky_refresh(site, start, end)
+    sky = list(NightSky.objects.filter(site=site, night__gte=start, night__lte=end).order_by("night"))
+    log = UsageLog.for_site(site)
+    fraction = usage_model(site, log, start, 1).open_fraction
+    runs = list(BookedRun.objects.filter(site=site, starts_on__lte=end, ends_on__gte=start))
+    booked_name = ["" for _ in sky]
+    blocked = np.zeros(len(sky), dtype=bool)
+    expensive = np.zeros(len(sky), dtype=bool)
+    for i, night in enumerate(sky):
+        for run in runs:
+            if run.starts_on <= night.night <= run.ends_on:
+                booked_name[i] = run.title
+                (blocked if run.blocked else expensive)[i] = True
+    per_night_fraction = np.array([fraction[n.night.month - 1] for n in sky])
+    moonless = np.array([n.moonless_dark_hours for n in sky])
+    cost = windows.night_cost(moonless, per_night_fraction, expensive, BOOKED_WEIGHT)
+    cost = np.where(blocked, np.inf, cost)
+    return [
+        NightCost(n.night, n.moon_illumination, n.moonless_dark_hours, float(per_night_fraction[i]),
+                  booked_name[i], float(cost[i]))
+        for i, n in enumerate(sky)
+    ]
+
+
+def best_windows(first_night: dt.date, cost: np.ndarray, days: int, alternatives: int = 3) -> list[dict]:
+    """The cheapest windows of ``days`` nights as dicts with start and end dates, cheapest first."""
+    return [
+        {
+            "start": first_night + dt.timedelta(days=w.start_index),
+            "end": first_night + dt.timedelta(days=w.start_index + w.days - 1),
+            "cost": round(w.cost, 3),
+        }
+        for w in windows.cheapest_windows(cost, days, alternatives)
+    ]
+
+
+# --- recoat plans -----------------------------------------------------------------------------------
+
+#: What each phase of a recoat asks of the work order made for it: (hazards, steps).
+_PHASE_WORK = {
+    "removal": (
+        ("suspended_load", "optical_surface", "moving_machinery", "height"),
+        ("Park the telescope horizontal and lock both axes; fit the mirror-handling fixture.",
+         "Rig the lift as the lifting figures say; a competent person checks the rigging.",
+         "Lower the cell, separate the mirror, place it in its transport crate face up.",),
+    ),
+    "coating": (
+        ("chemical", "optical_surface"),
+        ("Strip the old coating with the agreed chemicals (safety data sheets at hand).",
+         "Coat to the recipe; record the witness-sample reflectance.",),
+    ),
+    "reinstall": (
+        ("suspended_load", "optical_surface", "moving_machinery", "height"),
+        ("Lift the mirror into the cell as the lifting figures say; set the support pads and clips.",
+         "Reinstall the cell and restore the axis balance.",),
+    ),
+    "realignment": (
+        ("laser", "moving_machinery", "height"),
+        ("Collimate with the alignment laser (laser controlled area posted).",
+         "Measure reflectance at the marked positions and record a reading per position.",),
+    ),
+}
+
+
+def _phase_kind(name: str) -> str | None:
+    lowered = name.lower()
+    for key, words in (("removal", ("remov",)), ("coating", ("coat", "strip")), ("reinstall", ("reinstall",)),
+                       ("realignment", ("align", "measure"))):
+        if any(w in lowered for w in words):
+            return key
+    return None
+
+
+def recoat_plan_create(
+    mirror: Mirror, starts_on: dt.date, phases: list[windows.Phase], cost: float, by
+) -> RecoatPlan:
+    """Turn a chosen window into a recoat plan and one draft work order per hands-on phase."""
+    total = windows.total_days(phases)
+    with transaction.atomic():
+        plan = RecoatPlan.objects.create(
+            mirror=mirror, starts_on=starts_on, ends_on=starts_on + dt.timedelta(days=total - 1),
+            phases=[{"name": p.name, "days": p.days} for p in phases], cost=cost, created_by=by,
+        )
+        day = starts_on
+        subsystem = mirror.subsystem
+        for phase in phases:
+            kind = _phase_kind(phase.name)
+            if kind is not None:
+                hazards, steps = _PHASE_WORK[kind]
+                order = WorkOrder.objects.create(
+                    site=subsystem.telescope.site, telescope=subsystem.telescope,
+                    title=f"Recoat {subsystem.name}: {phase.name}", planned_date=day,
+                    estimated_hours=8.0 * phase.days, steps="\n".join(steps),
+                    hazards=[h for h in HAZARDS if h in set(hazards) | set(subsystem.hazards)],
+                    lift_inputs=mirror.lift_inputs if "suspended_load" in hazards else None,
+                    created_by=by,
+                )
+                WorkOrderItem.objects.create(
+                    work_order=order, subsystem=subsystem, why=f"Recoat window {plan.starts_on} to {plan.ends_on}"
+                )
+                plan.work_orders.add(order)
+            day += dt.timedelta(days=phase.days)
+    return plan

@@ -1,0 +1,130 @@
+import datetime as dt
+
+import numpy as np
+from django.contrib import messages
+from django.http import HttpResponse
+from django.shortcuts import get_object_or_404, redirect, render
+
+from observatory_ops.access.decorators import requires
+from observatory_ops.access.roles import ENGINEER, TECHNICIAN, VIEWER, has_role
+from observatory_ops.calc import windows
+from observatory_ops.planning.services import site_recompute, site_today
+from observatory_ops.registry.models import Site
+
+from . import calendar_export, plots, services
+from .forms import CleaningForm, MeasurementForm, WindowForm
+from .models import CleaningEvent, Mirror, ReflectanceMeasurement
+
+
+def _mirror(pk) -> Mirror:
+    return get_object_or_404(Mirror.objects.select_related("subsystem__telescope__site"), pk=pk)
+
+
+@requires(VIEWER)
+def mirror_detail(request, pk):
+    mirror = _mirror(pk)
+    state = services.mirror_forecast(mirror)
+    return render(
+        request,
+        "mirrors/detail.html",
+        {
+            "mirror": mirror,
+            "site": mirror.subsystem.telescope.site,
+            "state": state,
+            "plot": plots.decline_svg(state),
+            "train": services.throughput(services.telescope_mirrors(mirror)),
+            "coatings": mirror.coatings.all(),
+            "cleanings": mirror.cleanings.all(),
+            "measurements": mirror.measurements.select_related("taken_by").order_by("-measured_on")[:40],
+            "plans": mirror.recoat_plans.prefetch_related("work_orders"),
+        },
+    )
+
+
+@requires(TECHNICIAN)
+def measurement_log(request, pk):
+    mirror = _mirror(pk)
+    site = mirror.subsystem.telescope.site
+    form = MeasurementForm(request.POST or None, initial={"measured_on": site_today(site)})
+    if request.method == "POST" and form.is_valid():
+        d = form.cleaned_data
+        if d["measured_on"] > site_today(site):
+            form.add_error("measured_on", "A measurement cannot be in the future.")
+        else:
+            ReflectanceMeasurement.objects.create(mirror=mirror, taken_by=request.user, **d)
+            messages.success(request, "Measurement logged; the decline fit is updated.")
+            return redirect(mirror)
+    return render(request, "mirrors/form.html", {"form": form, "mirror": mirror, "what": "a reflectance measurement"})
+
+
+@requires(TECHNICIAN)
+def cleaning_log(request, pk):
+    mirror = _mirror(pk)
+    site = mirror.subsystem.telescope.site
+    form = CleaningForm(request.POST or None, initial={"cleaned_on": site_today(site)})
+    if request.method == "POST" and form.is_valid():
+        if form.cleaned_data["cleaned_on"] > site_today(site):
+            form.add_error("cleaned_on", "A cleaning cannot be in the future.")
+        else:
+            CleaningEvent.objects.create(mirror=mirror, **form.cleaned_data)
+            messages.success(request, "Cleaning logged.")
+            return redirect(mirror)
+    return render(request, "mirrors/form.html", {"form": form, "mirror": mirror, "what": "a cleaning"})
+
+
+@requires(VIEWER)
+def recoat_planner(request, pk):
+    """Coming nights shaded by moon and cost, the cheapest windows for the recoat, and the plan button."""
+    mirror = _mirror(pk)
+    site = mirror.subsystem.telescope.site
+    today = site_today(site)
+    data = request.POST if request.method == "POST" else (request.GET or None)
+    # By default look no further than the day the mirror is forecast to cross its recoat line (late side).
+    crossing = services.mirror_forecast(mirror, today).crossing_latest if data is None else None
+    horizon = max(min((crossing - today).days, 3 * 366), 30) if crossing else 365
+    form = WindowForm(data, initial={"start": today, "horizon_days": horizon})
+    context = {"mirror": mirror, "site": site, "form": form, "phases": windows.RECOAT_PHASES}
+    if form.is_bound and form.is_valid():
+        phases = form.phases()
+        try:
+            days = windows.total_days(phases)
+            costs = services.night_costs(site, form.cleaned_data["start"], form.cleaned_data["horizon_days"])
+            found = services.best_windows(costs[0].night, np.array([c.cost for c in costs]), days)
+        except ValueError as exc:
+            form.add_error(None, str(exc))
+        else:
+            if request.method == "POST":
+                if not has_role(request.user, ENGINEER):
+                    return render(request, "access/forbidden.html", {"needed": ENGINEER}, status=403)
+                chosen = next((w for w in found if w["start"].isoformat() == request.POST.get("window")), None)
+                if chosen is None:
+                    messages.error(request, "Choose one of the windows listed.")
+                else:
+                    plan = services.recoat_plan_create(mirror, chosen["start"], phases, chosen["cost"], request.user)
+                    site_recompute(site)
+                    messages.success(
+                        request, f"Recoat planned {plan.starts_on} to {plan.ends_on}: "
+                        f"{plan.work_orders.count()} draft work orders made."
+                    )
+                    return redirect(mirror)
+            chosen_days = {w["start"] + dt.timedelta(days=i) for w in found[:1] for i in range(days)}
+            worst = max((c.cost for c in costs if np.isfinite(c.cost)), default=1.0) or 1.0
+            context.update(
+                windows=found, days=days,
+                calendar=[
+                    {"night": c.night, "cost": c.cost, "moon": c.moon_illumination, "booked": c.booked,
+                     "shade": min(c.cost / worst, 1.0) if np.isfinite(c.cost) else 1.0,
+                     "blocked": not np.isfinite(c.cost), "chosen": c.night in chosen_days}
+                    for c in costs
+                ],
+            )
+    return render(request, "mirrors/recoat.html", context)
+
+
+@requires(VIEWER)
+def downtime_calendar(request, slug):
+    site = get_object_or_404(Site, slug=slug)
+    body = calendar_export.site_calendar(site, request.build_absolute_uri("/"))
+    response = HttpResponse(body, content_type="text/calendar; charset=utf-8")
+    response["Content-Disposition"] = f'attachment; filename="{site.slug}-planned-work.ics"'
+    return response
