@@ -34,7 +34,8 @@ class ReadingForm(forms.Form):
     quantity = forms.ChoiceField(choices=QUANTITY_CHOICES)
     value = forms.FloatField()
     taken_at = forms.DateTimeField(
-        widget=forms.DateTimeInput(attrs={"type": "datetime-local"}, format="%Y-%m-%dT%H:%M"), help_text="Site local time."
+        widget=forms.DateTimeInput(attrs={"type": "datetime-local"}, format="%Y-%m-%dT%H:%M"),
+        help_text="Site local time.",
     )
     note = forms.CharField(max_length=200, required=False)
 
