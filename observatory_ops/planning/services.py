@@ -200,13 +200,15 @@ def usage_model(site: Site, log: UsageLog, first_day: dt.date, days: int) -> Usa
     }
     per_open_hour["open_hours"] = 1.0
 
+    # Mean PM10 while open, per calendar month; a month never measured takes the site's overall mean
+    # (and a site that never measured dust counts as clean air: see calc.exposure.dust_weight).
     month_pm10 = np.full(12, np.nan)
     measured = ~np.isnan(log.pm10) & (open_h > 0)
     if measured.any():
         weights = np.bincount(past_months[measured] - 1, weights=open_h[measured], minlength=12)[:12]
         sums = np.bincount(past_months[measured] - 1, weights=(open_h * log.pm10)[measured], minlength=12)[:12]
         with np.errstate(invalid="ignore", divide="ignore"):
-            month_pm10 = np.where(weights > 0, sums / weights, np.nan)
+            month_pm10 = np.where(weights > 0, sums / weights, sums.sum() / weights.sum())
 
     # Month-to-month spread: each past (year, month)'s open hours against dark hours x that month's fraction.
     keys = np.array([n.year * 12 + n.month - 1 for n in past_nights], dtype=int)

@@ -121,7 +121,7 @@ class _Paragraph(Paragraph):
 
     _wrapped_width: float | None = None
 
-    def wrap(self, availWidth, availHeight):  # noqa: N803 - reportlab's names
+    def wrap(self, availWidth, availHeight):  # reportlab's method names
         # Paragraph.split drops the line breaks (blPara) when it refuses to split, so their absence also
         # means the paragraph must be broken again.
         if availWidth != self._wrapped_width or not hasattr(self, "blPara"):
@@ -167,7 +167,7 @@ class _Table(Table):
     page after a split between rows, which prints the repeated header twice on one page.
     """
 
-    def split(self, availWidth, availHeight):  # noqa: N803 - reportlab's names
+    def split(self, availWidth, availHeight):  # reportlab's method names
         self.splitInRow = 0
         parts = super().split(availWidth, availHeight)
         header = self.repeatRows if isinstance(self.repeatRows, int) else max(self.repeatRows) + 1
@@ -224,10 +224,10 @@ class _Ticked(Flowable):
             for position, part in enumerate(parts)
         ]
 
-    def getSpaceBefore(self):  # noqa: N802 - reportlab's name
+    def getSpaceBefore(self):  # reportlab's method names
         return self._paragraph.getSpaceBefore()
 
-    def getSpaceAfter(self):  # noqa: N802 - reportlab's name
+    def getSpaceAfter(self):  # reportlab's method names
         return self._paragraph.getSpaceAfter()
 
     def draw(self):
@@ -569,7 +569,7 @@ class _NumberedCanvas(Canvas):
         self.work_order: tuple[int, str, str] = (0, "", "")
         self._held_pages: list[dict] = []
 
-    def showPage(self):  # noqa: N802 - reportlab's name
+    def showPage(self):  # reportlab's method names
         self._held_pages.append(dict(self.__dict__))
         self._startPage()
 
