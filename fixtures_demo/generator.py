@@ -175,7 +175,7 @@ def _service_history(site, subsystems, users, today: dt.date, rng: np.random.Gen
     """Past services so that today shows a mix of overdue, due and later items."""
     records = []
     for subsystem in subsystems.values():
-        for plan in subsystem.plans.all():
+        for plan in subsystem.plans.exclude(name__startswith="Recoat"):  # recoats follow the coating dates
             calendar = next((t.limit for t in plan.triggers.all() if t.metric == "calendar_days"), 365.0)
             # A fraction of the interval has passed since the last service: above 1 is overdue.
             passed = float(rng.choice([0.35, 0.55, 0.7, 0.85, 0.93, 0.97, 1.08]))
@@ -269,6 +269,11 @@ def _mirrors(site, subsystems, technician, today: dt.date, rng: np.random.Genera
         coated = today - dt.timedelta(days=int(months * 30.4))
         CoatingEvent.objects.create(mirror=mirror, coated_on=coated, metal=metal, layers=layers,
                                     note="vendor chamber, witness sample kept")
+        recoat = mirror.subsystem.plans.get(name__startswith="Recoat")
+        ServiceRecord.objects.create(
+            subsystem=mirror.subsystem, plan=recoat, performed_on=coated, performed_by=technician, hours_spent=36,
+            summary="Primary removed, stripped and recoated; reinstalled and collimated", created_by=technician,
+        )
         fresh = coating.coating_curve(metal, [coating.Layer(x["material"], x["thickness_nm"]) for x in layers])
         r0 = fresh["band_mean"] - 0.004  # a real chamber lands a little under the ideal film
         cleanings = [coated + dt.timedelta(days=d) for d in range(95, (today - coated).days, 91)]

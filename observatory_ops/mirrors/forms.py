@@ -2,6 +2,7 @@ import datetime as dt
 
 from django import forms
 
+from observatory_ops.calc.coating import MATERIALS, METALS
 from observatory_ops.calc.windows import RECOAT_PHASES, Phase
 
 from .models import CleaningEvent
@@ -39,3 +40,28 @@ class WindowForm(forms.Form):
         if start < dt.date(2000, 1, 1) or start > dt.date(2100, 1, 1):
             raise forms.ValidationError("Choose a start between 2000 and 2100.")
         return start
+
+
+class CoatingForm(forms.Form):
+    coated_on = forms.DateField(widget=forms.DateInput(attrs={"type": "date"}))
+    metal = forms.ChoiceField(choices=[(m, m) for m in METALS])
+    layers = forms.CharField(
+        required=False, max_length=200,
+        help_text="Overcoats from the metal outward as MATERIAL:NM, comma-separated, e.g. SiO2:100. Empty: bare.",
+    )
+    note = forms.CharField(max_length=200, required=False)
+
+    def clean_layers(self) -> list[dict]:
+        layers = []
+        for part in filter(None, (p.strip() for p in self.cleaned_data["layers"].split(","))):
+            material, sep, thickness = part.partition(":")
+            try:
+                layer = {"material": material.strip(), "thickness_nm": float(thickness)}
+            except ValueError:
+                layer = None
+            if not sep or layer is None or layer["thickness_nm"] < 0:
+                raise forms.ValidationError(f"{part!r}: write MATERIAL:NM with a thickness of 0 nm or more.")
+            if layer["material"] not in MATERIALS:
+                raise forms.ValidationError(f"{material!r} is not a known material ({', '.join(MATERIALS)}).")
+            layers.append(layer)
+        return layers

@@ -18,7 +18,8 @@ from observatory_ops.planning.models import BookedRun, NightSky
 from observatory_ops.planning.services import UsageLog, site_sky_refresh, site_today, usage_model
 from observatory_ops.registry.models import Site
 from observatory_ops.workorders.cautions import HAZARDS
-from observatory_ops.workorders.models import WorkOrder, WorkOrderItem
+from observatory_ops.workorders.models import RequiredReading, WorkOrder, WorkOrderItem
+from observatory_ops.workorders.services import steps_with_lockout
 
 from .models import Mirror, RecoatPlan
 
@@ -203,7 +204,8 @@ _PHASE_WORK = {
     "coating": (
         ("chemical", "optical_surface"),
         ("Strip the old coating with the agreed chemicals (safety data sheets at hand).",
-         "Coat to the recipe; record the witness-sample reflectance.",),
+         "Coat to the recipe; record the witness-sample reflectance.",
+         "Log the new coating (date and recipe) on the mirror's page, so its decline starts again.",),
     ),
     "reinstall": (
         ("suspended_load", "optical_surface", "moving_machinery", "height"),
@@ -230,30 +232,46 @@ def _phase_kind(name: str) -> str | None:
 def recoat_plan_create(
     mirror: Mirror, starts_on: dt.date, phases: list[windows.Phase], cost: float, by
 ) -> RecoatPlan:
-    """Turn a chosen window into a recoat plan and one draft work order per hands-on phase."""
+    """Turn a chosen window into a recoat plan and one draft work order per hands-on phase.
+
+    The realignment order asks for a band reflectance reading of the new coating, and it carries the
+    mirror's recoat service plan (if any), so finishing it restarts that plan's counting.
+    """
     total = windows.total_days(phases)
+    subsystem = mirror.subsystem
+    recoat_plan = subsystem.plans.filter(active=True, name__icontains="recoat").first()
     with transaction.atomic():
         plan = RecoatPlan.objects.create(
             mirror=mirror, starts_on=starts_on, ends_on=starts_on + dt.timedelta(days=total - 1),
             phases=[{"name": p.name, "days": p.days} for p in phases], cost=cost, created_by=by,
         )
         day = starts_on
-        subsystem = mirror.subsystem
         for phase in phases:
             kind = _phase_kind(phase.name)
             if kind is not None:
                 hazards, steps = _PHASE_WORK[kind]
+                hazards = [h for h in HAZARDS if h in set(hazards) | set(subsystem.hazards)]
                 order = WorkOrder.objects.create(
                     site=subsystem.telescope.site, telescope=subsystem.telescope,
                     title=f"Recoat {subsystem.name}: {phase.name}", planned_date=day,
-                    estimated_hours=8.0 * phase.days, steps="\n".join(steps),
-                    hazards=[h for h in HAZARDS if h in set(hazards) | set(subsystem.hazards)],
+                    estimated_hours=8.0 * phase.days, steps=steps_with_lockout(hazards, steps), hazards=hazards,
                     lift_inputs=mirror.lift_inputs if "suspended_load" in hazards else None,
                     created_by=by,
                 )
                 WorkOrderItem.objects.create(
-                    work_order=order, subsystem=subsystem, why=f"Recoat window {plan.starts_on} to {plan.ends_on}"
+                    work_order=order, subsystem=subsystem, plan=recoat_plan if kind == "realignment" else None,
+                    why=f"Recoat window {plan.starts_on:%d %b %Y} to {plan.ends_on:%d %b %Y}",
                 )
+                if kind == "realignment":
+                    RequiredReading.objects.create(
+                        work_order=order, subsystem=subsystem, quantity="reflectance", unit="fraction",
+                        limit_text=f"about {_coating_band_now(mirror):.3f} expected (computed fresh)",
+                    )
                 plan.work_orders.add(order)
             day += dt.timedelta(days=phase.days)
     return plan
+
+
+def _coating_band_now(mirror: Mirror) -> float:
+    last = mirror.coatings.order_by("-coated_on").first()
+    return _coating_band(mirror, last.metal, last.layers) if last else 0.0

@@ -2,6 +2,7 @@ import datetime as dt
 
 import numpy as np
 from django.contrib import messages
+from django.db.models import Prefetch
 from django.http import HttpResponse
 from django.shortcuts import get_object_or_404, redirect, render
 
@@ -10,10 +11,11 @@ from observatory_ops.access.roles import ENGINEER, TECHNICIAN, VIEWER, has_role
 from observatory_ops.calc import windows
 from observatory_ops.planning.services import site_recompute, site_today
 from observatory_ops.registry.models import Site
+from observatory_ops.workorders.models import WorkOrder
 
 from . import calendar_export, plots, services
-from .forms import CleaningForm, MeasurementForm, WindowForm
-from .models import CleaningEvent, Mirror, ReflectanceMeasurement
+from .forms import CleaningForm, CoatingForm, MeasurementForm, WindowForm
+from .models import CleaningEvent, CoatingEvent, Mirror, ReflectanceMeasurement
 
 
 def _mirror(pk) -> Mirror:
@@ -36,7 +38,9 @@ def mirror_detail(request, pk):
             "coatings": mirror.coatings.all(),
             "cleanings": mirror.cleanings.all(),
             "measurements": mirror.measurements.select_related("taken_by").order_by("-measured_on")[:40],
-            "plans": mirror.recoat_plans.prefetch_related("work_orders"),
+            "plans": mirror.recoat_plans.prefetch_related(
+                Prefetch("work_orders", queryset=WorkOrder.objects.order_by("planned_date", "pk"))
+            ),
         },
     )
 
@@ -70,6 +74,21 @@ def cleaning_log(request, pk):
             messages.success(request, "Cleaning logged.")
             return redirect(mirror)
     return render(request, "mirrors/form.html", {"form": form, "mirror": mirror, "what": "a cleaning"})
+
+
+@requires(TECHNICIAN)
+def coating_log(request, pk):
+    mirror = _mirror(pk)
+    site = mirror.subsystem.telescope.site
+    form = CoatingForm(request.POST or None, initial={"coated_on": site_today(site), "metal": "al"})
+    if request.method == "POST" and form.is_valid():
+        if form.cleaned_data["coated_on"] > site_today(site):
+            form.add_error("coated_on", "A coating cannot be in the future.")
+        else:
+            CoatingEvent.objects.create(mirror=mirror, **form.cleaned_data)
+            messages.success(request, "New coating logged; the decline is now counted from it.")
+            return redirect(mirror)
+    return render(request, "mirrors/form.html", {"form": form, "mirror": mirror, "what": "a new coating"})
 
 
 @requires(VIEWER)

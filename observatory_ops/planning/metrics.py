@@ -10,6 +10,7 @@ AXIS1_TRAVEL = "axis1_travel_deg"
 AXIS2_TRAVEL = "axis2_travel_deg"
 DUST_HOURS = "dust_hours"
 READING = "reading"
+RECOAT_LINE = "recoat_line"
 
 METRICS: dict[str, tuple[str, str]] = {
     # code: (label, unit)
@@ -21,6 +22,7 @@ METRICS: dict[str, tuple[str, str]] = {
     AXIS2_TRAVEL: ("Axis 2 travel (Dec / elevation)", "deg"),
     DUST_HOURS: ("Dust-weighted open hours", "h"),
     READING: ("Reading crossing a limit", ""),
+    RECOAT_LINE: ("Mirror reflectance reaching its recoat line", ""),
 }
 METRIC_CHOICES = [(code, label) for code, (label, _unit) in METRICS.items()]
 

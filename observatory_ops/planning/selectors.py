@@ -17,7 +17,7 @@ from .models import NightSky, PlanStatus, ServicePlan, Trigger
 def due_rows() -> QuerySet[PlanStatus]:
     """Every computed plan state with what a due-list row shows, in one query, most urgent first."""
     return PlanStatus.objects.select_related("plan__subsystem__telescope__site").order_by(
-        "urgency", "forecast_date", "plan__subsystem__telescope__name"
+        "urgency", "forecast_date", "plan__subsystem__telescope__name", "plan_id"
     )
 
 

@@ -256,7 +256,7 @@ def site_recompute(site: Site, today: dt.date | None = None) -> int:
     plans = list(
         ServicePlan.objects.filter(
             subsystem__telescope__site=site, active=True, subsystem__retired_on__isnull=True
-        ).select_related("subsystem")
+        ).select_related("subsystem__mirror")
     )
     triggers_of: dict[int, list[Trigger]] = {}
     for trig in Trigger.objects.filter(plan__subsystem__telescope__site=site).order_by("pk"):
@@ -275,6 +275,10 @@ def site_recompute(site: Site, today: dt.date | None = None) -> int:
         for trig in triggers_of.get(plan.pk, []):
             if trig.metric == metrics.CALENDAR_DAYS:
                 states[plan.pk].append(_calendar_state(trig, baselines[plan.pk], today))
+            elif trig.metric == metrics.RECOAT_LINE:
+                state = _recoat_line_state(plan.subsystem, today)
+                if state:
+                    states[plan.pk].append(state)
             elif trig.metric == metrics.READING:
                 state = _reading_state(trig, readings.get((plan.subsystem_id, trig.quantity), []), today)
                 if state:
@@ -399,6 +403,29 @@ def _readings_by_subsystem_quantity(
     return {k: v[-TREND_READINGS:] for k, v in out.items()}
 
 
+def _recoat_line_state(subsystem: Subsystem, today: dt.date) -> TriggerState | None:
+    """A mirror's fitted reflectance decline reaching its recoat line (see mirrors.services)."""
+    from observatory_ops.mirrors.services import mirror_forecast  # mirrors builds on planning
+
+    mirror = getattr(subsystem, "mirror", None)
+    if mirror is None:
+        return None
+    state = mirror_forecast(mirror, today)
+    if state.threshold is None or (state.current is None and state.fresh_band is None):
+        return None
+    return TriggerState(
+        metric=metrics.RECOAT_LINE,
+        value=state.current if state.current is not None else state.fresh_band,
+        limit=state.threshold,
+        rate_per_day=None,
+        forecast=state.crossing,
+        earliest=state.crossing_earliest,
+        latest=state.crossing_latest,
+        basis=f"band reflectance {state.threshold_basis}; fitted decline against dust-weighted exposure",
+        rising=False,
+    )
+
+
 def _reading_state(trig: Trigger, readings, today: dt.date) -> TriggerState | None:
     """A condition trigger: latest reading against the limit, with the Theil-Sen trend's crossing date."""
     if not readings:
@@ -441,7 +468,9 @@ def reason_text(state: TriggerState) -> str:
     label = metrics.METRICS[state.metric][0]
     unit = state.unit
     if state.metric == metrics.READING:
-        head = f"latest reading {state.value:g} {unit}; {state.basis}"
+        head = f"Latest reading {state.value:g} {unit}; {state.basis}"
+    elif state.metric == metrics.RECOAT_LINE:
+        head = f"Reflectance now about {state.value:.3f}, recoat line {state.limit:.3f}"
     else:
         head = f"{label}: {state.value:,.0f} of {state.limit:,.0f} {unit}"
         if state.rate_per_day is not None and state.metric != metrics.CALENDAR_DAYS:

@@ -71,7 +71,7 @@ KINDS: dict[str, Kind] = {
                     "Recoat primary",
                     "Remove, strip and recoat the primary mirror (aluminium is commonly recoated every one to two "
                     "years).",
-                    (("calendar_days", 730.0),),
+                    (("recoat_line", 1.0), ("calendar_days", 730.0)),
                     COMMON_PRACTICE,
                     hazards=("suspended_load", "chemical"),
                     estimated_hours=40.0,

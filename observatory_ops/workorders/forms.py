@@ -37,7 +37,7 @@ class FinishForm(forms.Form):
         super().__init__(*args, **kwargs)
         for r in order.required_readings.select_related("subsystem"):
             self.fields[f"reading_{r.pk}"] = forms.FloatField(
-                label=f"{r.get_quantity_display()} on {r.subsystem.name} ({r.unit})",
+                label=f"{r.quantity_label} on {r.subsystem.name} ({r.unit})",
                 help_text=f"limit: {r.limit_text}" if r.limit_text else "", required=True,
             )
         for use in order.part_uses.select_related("part"):

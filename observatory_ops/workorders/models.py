@@ -6,7 +6,7 @@ from django.core.validators import MinValueValidator
 from django.db import models
 from django.urls import reverse
 
-from observatory_ops.logbook.quantities import QUANTITY_CHOICES
+from observatory_ops.logbook.quantities import QUANTITIES, QUANTITY_CHOICES
 from observatory_ops.registry.models import Site, Subsystem, Telescope
 
 
@@ -117,6 +117,10 @@ class RequiredReading(models.Model):
 
     class Meta:
         ordering = ["pk"]
+
+    @property
+    def quantity_label(self) -> str:
+        return QUANTITIES[self.quantity][0]
 
 
 class Part(models.Model):

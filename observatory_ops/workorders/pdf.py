@@ -509,22 +509,33 @@ def _readings(sheet: Sheet, width: float) -> list[Flowable]:
     widths = [width - 20 * mm - 42 * mm - box_width, 20 * mm, 42 * mm, box_width]
     rows = []
     for reading in sheet.readings:
-        box = Drawing(box_width - 2 * _CELL_PADDING, 20)
-        box.add(Rect(0, 0, box_width - 2 * _CELL_PADDING, 20, strokeColor=INK, strokeWidth=0.8, fillColor=None))
+        if reading.recorded:
+            box = _cell(reading.recorded, widths[3])
+        else:
+            box = Drawing(box_width - 2 * _CELL_PADDING, 20)
+            box.add(Rect(0, 0, box_width - 2 * _CELL_PADDING, 20, strokeColor=INK, strokeWidth=0.8, fillColor=None))
         rows.append([_cell(reading.label, widths[0]), _cell(reading.unit, widths[1]),
                      _cell(reading.limit_text, widths[2]), box])
     return [heading, _ruled_table(("Reading", "Unit", "Limit", "Value"), rows, widths)]
 
 
 def _findings(sheet: Sheet) -> list[Flowable]:
+    title = "Findings" if sheet.actual_hours is None else f"Findings (actual hours: {sheet.actual_hours:g})"
     if sheet.findings.strip():
-        return [_heading("Findings"), _para(sheet.findings)]
-    return [_heading("Findings"), _WritingLines(FINDINGS_LINES)]
+        return [_heading(title), _para(sheet.findings)]
+    return [_heading(title), _WritingLines(FINDINGS_LINES)]
 
 
-def _sign_off(width: float) -> list[Flowable]:
+def _sign_off(sheet: Sheet, width: float) -> list[Flowable]:
+    def day(value) -> str:
+        return value.isoformat() if value else ""
+
     table = Table(
-        [["", "Name", "Signature", "Date"], ["Performed by", "", "", ""], ["Checked by", "", "", ""]],
+        [
+            ["", "Name", "Signature", "Date"],
+            ["Performed by", _shorten(sheet.performed_by, 40), "", day(sheet.performed_on)],
+            ["Checked by", _shorten(sheet.checked_by, 40), "", day(sheet.checked_on)],
+        ],
         colWidths=[32 * mm, (width - 62 * mm) / 2, (width - 62 * mm) / 2, 30 * mm],
         rowHeights=[12, 30, 30],
         style=TableStyle([
@@ -554,7 +565,7 @@ def _sheet_story(index: int, sheet: Sheet, width: float) -> list[Flowable]:
         *_parts_and_tools(sheet, width),
         *_readings(sheet, width),
         *_findings(sheet),
-        *_sign_off(width),
+        *_sign_off(sheet, width),
     ]
 
 

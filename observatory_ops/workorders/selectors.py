@@ -67,7 +67,7 @@ def sheet(order: WorkOrder, url: str) -> sheet_.Sheet:
         state=order.get_state_display(),
         planned_date=order.planned_date,
         issued_on=order.issued_at.astimezone(zone).date() if order.issued_at else None,
-        assignee=(order.assignee.get_full_name() or order.assignee.username) if order.assignee else "",
+        assignee=_name(order.assignee),
         estimated_hours=order.estimated_hours,
         why=tuple(f"{i.plan.name if i.plan else i.subsystem.name}: {i.why}" for i in items if i.why),
         cautions=tuple(
@@ -87,14 +87,26 @@ def sheet(order: WorkOrder, url: str) -> sheet_.Sheet:
         ),
         tools=tuple(order.tool_list),
         readings=tuple(
-            sheet_.SheetReading(f"{r.get_quantity_display()} ({r.subsystem.name})", r.unit, r.limit_text)
-            for r in order.required_readings.select_related("subsystem")
+            sheet_.SheetReading(
+                f"{r.quantity_label} ({r.subsystem.name})", r.unit, r.limit_text,
+                recorded=f"{r.reading.value:g}" if r.reading else "",
+            )
+            for r in order.required_readings.select_related("subsystem", "reading")
         ),
         lifting=sheet_.SheetLifting(tuple(lift_rows(figures)), figures.warnings, figures.checks) if figures else None,
         url=url,
         findings=order.findings,
-        generated_at=timezone.now(),
+        generated_at=timezone.now().astimezone(zone),
+        actual_hours=order.actual_hours,
+        performed_by=_name(order.finished_by),
+        performed_on=order.finished_at.astimezone(zone).date() if order.finished_at else None,
+        checked_by=_name(order.countersigned_by),
+        checked_on=order.countersigned_at.astimezone(zone).date() if order.countersigned_at else None,
     )
+
+
+def _name(user) -> str:
+    return (user.get_full_name() or user.username) if user else ""
 
 
 def issued_between(site: Site, start, end) -> QuerySet[WorkOrder]:

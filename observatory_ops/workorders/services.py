@@ -43,12 +43,18 @@ def _hazards_of(subsystems: Sequence[Subsystem], plans: Sequence[ServicePlan]) -
     return [h for h in HAZARDS if h in found]
 
 
-def _steps_for(plans: Sequence[ServicePlan], hazards: Sequence[str]) -> str:
+def steps_with_lockout(hazards: Sequence[str], steps: Sequence[str]) -> str:
+    """The steps, preceded by the lockout step when any hazard needs energy isolated first."""
     lines = [LOCKOUT_STEP] if any(h in ISOLATION_HAZARDS for h in hazards) else []
+    return "\n".join(lines + [s.strip() for s in steps if s.strip()])
+
+
+def _steps_for(plans: Sequence[ServicePlan], hazards: Sequence[str]) -> str:
+    steps = []
     for plan in plans:
         prefix = f"[{plan.name}] " if len(plans) > 1 else ""
-        lines += [prefix + step for step in (plan.step_list or [plan.task or plan.name])]
-    return "\n".join(lines)
+        steps += [prefix + step for step in (plan.step_list or [plan.task or plan.name])]
+    return steps_with_lockout(hazards, steps)
 
 
 def work_order_from_due(plans: Sequence[ServicePlan], by, planned_date: dt.date | None = None) -> WorkOrder:
@@ -98,12 +104,10 @@ def work_order_ad_hoc(
     if any(s.telescope.site_id != site.pk for s in subsystems):
         raise Refused("every subsystem must belong to the work order's site")
     hazards = _hazards_of(subsystems, [])
-    lines = ([LOCKOUT_STEP] if any(h in ISOLATION_HAZARDS for h in hazards) else []) + [
-        line for line in steps.splitlines() if line.strip()
-    ]
     with transaction.atomic():
         order = WorkOrder.objects.create(
-            site=site, telescope=telescope, title=title, order_type=order_type, steps="\n".join(lines),
+            site=site, telescope=telescope, title=title, order_type=order_type,
+            steps=steps_with_lockout(hazards, steps.splitlines()),
             hazards=hazards, created_by=by,
         )
         WorkOrderItem.objects.bulk_create(WorkOrderItem(work_order=order, subsystem=s) for s in subsystems)

@@ -42,6 +42,7 @@ class SheetReading:
     label: str
     unit: str
     limit_text: str
+    recorded: str = ""  # the value recorded on completion, if any
 
 
 @dataclass(frozen=True)
@@ -92,6 +93,11 @@ class Sheet:
     url: str
     findings: str = ""
     generated_at: datetime | None = None
+    actual_hours: float | None = None
+    performed_by: str = ""
+    performed_on: date | None = None
+    checked_by: str = ""
+    checked_on: date | None = None
 
     def __post_init__(self) -> None:
         for name in ("subsystems", "why", "isolation_points", "steps", "tools"):
