@@ -7,11 +7,18 @@ SECRET_KEY       required when DEBUG is off; a development key is used only when
 DATABASE_URL     default: a SQLite file in the git-ignored ``data/`` folder.
 ALLOWED_HOSTS    comma-separated host names.
 CELERY_BROKER_URL  e.g. redis://127.0.0.1:6379/0; without it tasks run inline.
+CELERY_RESULT_BACKEND  optional, e.g. redis://127.0.0.1:6379/1; without it task results are not kept.
+CELERY_VISIBILITY_TIMEOUT  seconds before Redis hands an unacknowledged task to another worker (3600).
+CACHE_URL        e.g. redis://127.0.0.1:6379/2; default: memory of each process.
+EMAIL_BACKEND, EMAIL_HOST, EMAIL_PORT, EMAIL_HOST_USER, EMAIL_HOST_PASSWORD, EMAIL_USE_TLS,
+DEFAULT_FROM_EMAIL  outgoing mail (due digests); default: printed on the console.
+SITE_URL         address the pages are served at, for links in e-mails and QR codes (http://127.0.0.1:8000).
 """
 import os
 from pathlib import Path
 
 import dj_database_url
+from celery.schedules import crontab
 
 BASE_DIR = Path(__file__).resolve().parent.parent
 DATA_DIR = Path(os.environ.get("OBSOPS_DATA_DIR", BASE_DIR / "data"))
@@ -52,6 +59,8 @@ INSTALLED_APPS = [
     "observatory_ops.planning",
     "observatory_ops.workorders",
     "observatory_ops.mirrors",
+    "observatory_ops.api",
+    "observatory_ops.archive",
 ]
 
 MIDDLEWARE = [
@@ -117,6 +126,7 @@ USE_TZ = True
 
 STATIC_URL = "static/"
 STATIC_ROOT = BASE_DIR / "staticfiles"
+STATIC_ROOT.mkdir(exist_ok=True)  # whitenoise expects it even before collectstatic (git-ignored)
 STATICFILES_DIRS = [BASE_DIR / "observatory_ops" / "static"]
 STORAGES = {
     "default": {"BACKEND": "django.core.files.storage.FileSystemStorage"},
@@ -134,7 +144,62 @@ FILE_UPLOAD_MAX_MEMORY_SIZE = NIGHTS_UPLOAD_MAX_BYTES
 
 DJANGO_TABLES2_TEMPLATE = "django_tables2/table.html"
 
+SITE_URL = os.environ.get("SITE_URL", "http://127.0.0.1:8000").rstrip("/")
+
+# --- e-mail (due digests) ---------------------------------------------------------------------------
 EMAIL_BACKEND = os.environ.get("EMAIL_BACKEND", "django.core.mail.backends.console.EmailBackend")
+EMAIL_HOST = os.environ.get("EMAIL_HOST", "localhost")
+EMAIL_PORT = int(os.environ.get("EMAIL_PORT", "25"))
+EMAIL_HOST_USER = os.environ.get("EMAIL_HOST_USER", "")
+EMAIL_HOST_PASSWORD = os.environ.get("EMAIL_HOST_PASSWORD", "")
+EMAIL_USE_TLS = _env_flag("EMAIL_USE_TLS", False)
+DEFAULT_FROM_EMAIL = os.environ.get("DEFAULT_FROM_EMAIL", "observatory_ops <observatory-ops@localhost>")
+SERVER_EMAIL = DEFAULT_FROM_EMAIL
+
+# --- cache: shared through Redis when several processes must agree (one digest a day per site) --------
+CACHE_URL = os.environ.get("CACHE_URL", "")
+CACHES = {
+    "default": {"BACKEND": "django.core.cache.backends.redis.RedisCache", "LOCATION": CACHE_URL}
+    if CACHE_URL
+    else {"BACKEND": "django.core.cache.backends.locmem.LocMemCache"}
+}
+
+# --- background work (observatory_ops/celery.py) ----------------------------------------------------
+CELERY_BROKER_URL = os.environ.get("CELERY_BROKER_URL") or None
+# Without a broker every task runs inline in the calling process and its errors reach the caller.
+CELERY_TASK_ALWAYS_EAGER = CELERY_BROKER_URL is None
+CELERY_TASK_EAGER_PROPAGATES = CELERY_TASK_ALWAYS_EAGER
+CELERY_RESULT_BACKEND = os.environ.get("CELERY_RESULT_BACKEND") or None
+CELERY_TASK_IGNORE_RESULT = CELERY_RESULT_BACKEND is None
+CELERY_TASK_SERIALIZER = "json"
+CELERY_ACCEPT_CONTENT = ["json"]
+# A task is acknowledged when it has finished, so a worker that dies mid-task (killed, machine lost)
+# leaves it to run again elsewhere; one task at a time per process, so none waits behind a long one.
+CELERY_TASK_ACKS_LATE = True
+CELERY_TASK_REJECT_ON_WORKER_LOST = True
+CELERY_WORKER_PREFETCH_MULTIPLIER = 1
+CELERY_WORKER_CANCEL_LONG_RUNNING_TASKS_ON_CONNECTION_LOSS = True
+CELERY_BROKER_CONNECTION_RETRY_ON_STARTUP = True
+# Must exceed the longest task plus its longest retry delay, or Redis hands a running task out twice.
+CELERY_BROKER_TRANSPORT_OPTIONS = {"visibility_timeout": int(os.environ.get("CELERY_VISIBILITY_TIMEOUT", "3600"))}
+CELERY_TIMEZONE = "UTC"
+CELERY_BEAT_SCHEDULE = {
+    # Each ingest recomputes its own site at once; this moves calendar triggers and "today" forward
+    # everywhere, and adds the next night to each site's nights cache.
+    "nightly-sky-and-recompute": {
+        "task": "planning.sites_recompute_all",
+        "schedule": crontab(hour=3, minute=30),
+    },
+    "daily-due-digest": {
+        "task": "planning.sites_due_digest_all",
+        "schedule": crontab(hour=6, minute=0),
+    },
+    # Sunday 18:00 UTC is Sunday or early Monday at every site: each builds the week starting that Monday.
+    "weekly-work-order-batch": {
+        "task": "workorders.sites_work_order_batch_all",
+        "schedule": crontab(day_of_week="sun", hour=18, minute=0),
+    },
+}
 
 if not DEBUG:
     SESSION_COOKIE_SECURE = True

@@ -1,14 +1,20 @@
 from django.contrib import admin
 from django.contrib.auth import views as auth_views
 from django.urls import include, path
+from django.views.generic import RedirectView
+
+from observatory_ops.access.login import LimitedLoginView
 
 urlpatterns = [
-    path("login/", auth_views.LoginView.as_view(), name="login"),
+    path("login/", LimitedLoginView.as_view(), name="login"),
     path("logout/", auth_views.LogoutView.as_view(), name="logout"),
+    # The admin signs in through the same limited sign-in page as everyone else.
+    path("admin/login/", RedirectView.as_view(url="/login/?next=/admin/", query_string=False)),
     path("admin/", admin.site.urls),
     path("", include("observatory_ops.registry.urls")),
     path("", include("observatory_ops.logbook.urls")),
     path("", include("observatory_ops.planning.urls")),
     path("", include("observatory_ops.workorders.urls")),
     path("", include("observatory_ops.mirrors.urls")),
+    path("", include("observatory_ops.api.urls")),
 ]

@@ -33,6 +33,29 @@ def require_tool(path_or_name: str, what: str) -> str:
     pytest.skip(message)
 
 
+def require_server(url: str | None, variable: str, what: str) -> str:
+    """Skip (or under CI=true, fail) when a server the test needs is not configured or not answering.
+
+    ``url`` is the value of the environment variable ``variable`` (e.g. ``redis://127.0.0.1:6379/0``);
+    the server counts as answering when its TCP port accepts a connection.
+    """
+    import socket
+    from urllib.parse import urlsplit
+
+    if not url:
+        message = f"{what} is not configured ({variable} is not set); .ci/run starts one on loopback"
+    else:
+        parts = urlsplit(url)
+        try:
+            socket.create_connection((parts.hostname, parts.port), timeout=3).close()
+            return url
+        except OSError as exc:
+            message = f"{what} at {parts.hostname}:{parts.port} ({variable}) does not answer: {exc}"
+    if os.environ.get("CI") == "true":
+        pytest.fail(message)
+    pytest.skip(message)
+
+
 @pytest.fixture
 def users(db):
     from django.contrib.auth.models import Group, User
@@ -66,3 +89,33 @@ def telescope(site):
 @pytest.fixture
 def today():
     return dt.date(2026, 6, 15)
+
+
+def site_in_use(slug: str, kinds=("primary_mirror", "cooling_fans", "limits", "enclosure"), nights: int = 60):
+    """An invented site (UTC zone) in use for a while: catalogue plans counted from 100 days ago, ``nights``
+    logged nights up to yesterday, and a constant sky (10 dark hours a night) cached from a year back to
+    past the forecast horizon, so recomputing it never waits for astropy. Dates follow the real clock,
+    because tasks use each site's own "today"."""
+    from observatory_ops.logbook.models import NightUsage
+    from observatory_ops.planning.models import NightSky
+    from observatory_ops.planning.services import HORIZON_DAYS, site_today
+    from observatory_ops.registry.models import Site, Telescope
+    from observatory_ops.registry.services import subsystem_create
+
+    site = Site.objects.create(name=f"Site {slug}", slug=slug, latitude_deg=31.5, longitude_deg=-110.2,
+                               elevation_m=1500, time_zone="UTC")
+    telescope = Telescope.objects.create(site=site, name="T1", aperture_m=0.6, mount="fork")
+    today = site_today(site)
+    for kind in kinds:
+        subsystem_create(telescope, kind, kind.replace("_", " ").capitalize(), counting_from=today - dt.timedelta(100))
+    NightUsage.objects.bulk_create(
+        NightUsage(site=site, night=today - dt.timedelta(days=i), open_hours=6, slews=40, axis1_travel_deg=900,
+                   brake_cycles=40, pm10_ugm3=35)
+        for i in range(1, nights + 1)
+    )
+    NightSky.objects.bulk_create(
+        NightSky(site=site, night=today + dt.timedelta(days=i), dark_hours=10.0, moon_illumination=0.5,
+                 moonless_dark_hours=5.0)
+        for i in range(-366, HORIZON_DAYS + 2)
+    )
+    return site

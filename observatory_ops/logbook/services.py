@@ -9,7 +9,7 @@ from collections.abc import Callable
 from dataclasses import dataclass, field
 
 from django.core.exceptions import ValidationError
-from django.db import transaction
+from django.db import IntegrityError, transaction
 from django.utils import timezone
 
 from observatory_ops.planning.models import ServicePlan
@@ -28,8 +28,8 @@ class ImportReport:
     created: int = 0
     updated: int = 0
     unchanged: int = 0
-    errors: list[tuple[int, str]] = field(default_factory=list)
-    skipped: list[tuple[int, str]] = field(default_factory=list)
+    errors: list[nights_csv.Problem] = field(default_factory=list)  # (line or index, reason), with .field
+    skipped: list[nights_csv.Problem] = field(default_factory=list)
     stored: bool = False
     updated_nights: list[dt.date] = field(default_factory=list)
 
@@ -60,40 +60,91 @@ def nights_import(
     try:
         text = nights_csv.decode(data)
     except nights_csv.FileError as exc:
-        report.errors.append((exc.line, str(exc)))
+        report.errors.append(nights_csv.Problem(exc.line, str(exc)))
         return report
     parsed = nights_csv.parse(text, latest_night=site_today(site))
     if parsed.errors and not (skip_bad and parsed.rows):
         report.errors = parsed.errors
         return report
     report.skipped = parsed.errors
-    rows = parsed.rows
-    with transaction.atomic():
-        nights = [values["night"] for _, values in rows]
-        existing = {u.night: u for u in NightUsage.objects.select_for_update().filter(site=site, night__in=nights)}
-        new, changed = [], []
-        for done, (_line, values) in enumerate(rows, start=1):
-            current = existing.get(values["night"])
-            if current is None:
-                new.append(NightUsage(site=site, source=source, **values))
-            elif any(getattr(current, f) != values[f] for f in _USAGE_FIELDS):
-                for f in _USAGE_FIELDS:
-                    setattr(current, f, values[f])
-                current.source = source
-                current.recorded_at = timezone.now()  # bulk_update skips auto_now
-                changed.append(current)
-            else:
-                report.unchanged += 1
-            if progress and (done % 500 == 0 or done == len(rows)):
-                progress(done, len(rows))
-        NightUsage.objects.bulk_create(new, batch_size=500)
-        NightUsage.objects.bulk_update(changed, _USAGE_FIELDS + ["source", "recorded_at"], batch_size=500)
-        report.created, report.updated = len(new), len(changed)
-        report.updated_nights = sorted(u.night for u in changed)
-        report.stored = True
-        if new or changed:
-            site_recompute(site)
+    _nights_store(site, [values for _, values in parsed.rows], source, report, progress)
     return report
+
+
+def nights_ingest(site: Site, records: list[dict], source: str = NightUsage.Source.API) -> ImportReport:
+    """Store nights sent by control software as JSON objects (keys: the CSV column names) for one site.
+
+    The same rules as the CSV import (``nights_csv.parse_row``); every bad object is reported with its
+    list index and field (``Problem.field``), and one bad object means nothing is stored. Idempotent per
+    site and night: a night sent again with the same figures changes nothing, with other figures it is
+    updated. Raises ValueError when ``records`` is not a list.
+    """
+    report = ImportReport()
+    parsed = nights_csv.parse_objects(records, latest_night=site_today(site))
+    if parsed.errors:
+        report.errors = parsed.errors
+        return report
+    _nights_store(site, [values for _, values in parsed.rows], source, report)
+    return report
+
+
+def _stored_nights(site: Site, nights: list[dt.date]) -> dict[dt.date, NightUsage]:
+    return {u.night: u for u in NightUsage.objects.select_for_update().filter(site=site, night__in=nights)}
+
+
+def _nights_store(
+    site: Site,
+    rows: list[dict],
+    source: str,
+    report: ImportReport,
+    progress: Callable[[int, int], None] | None = None,
+) -> None:
+    """Create new nights, update changed ones and count the rest, in one transaction; recompute on change.
+
+    Two writers sending the same new night at once both find it absent and one insert fails on the
+    unique (site, night) constraint; that writer starts again once, and then finds the night stored.
+    """
+    nights = [values["night"] for values in rows]
+    for attempt in range(2):
+        try:
+            with transaction.atomic():
+                new, changed, unchanged = _nights_write(site, rows, _stored_nights(site, nights), source, progress)
+                if new or changed:
+                    site_recompute(site)
+            break
+        except IntegrityError:
+            if attempt:
+                raise
+    report.created, report.updated, report.unchanged = len(new), len(changed), unchanged
+    report.updated_nights = sorted(u.night for u in changed)
+    report.stored = True
+
+
+def _nights_write(
+    site: Site,
+    rows: list[dict],
+    existing: dict[dt.date, NightUsage],
+    source: str,
+    progress: Callable[[int, int], None] | None,
+) -> tuple[list[NightUsage], list[NightUsage], int]:
+    new, changed, unchanged = [], [], 0
+    for done, values in enumerate(rows, start=1):
+        current = existing.get(values["night"])
+        if current is None:
+            new.append(NightUsage(site=site, source=source, **values))
+        elif any(getattr(current, f) != values[f] for f in _USAGE_FIELDS):
+            for f in _USAGE_FIELDS:
+                setattr(current, f, values[f])
+            current.source = source
+            current.recorded_at = timezone.now()  # bulk_update skips auto_now
+            changed.append(current)
+        else:
+            unchanged += 1
+        if progress and (done % 500 == 0 or done == len(rows)):
+            progress(done, len(rows))
+    NightUsage.objects.bulk_create(new, batch_size=500)
+    NightUsage.objects.bulk_update(changed, _USAGE_FIELDS + ["source", "recorded_at"], batch_size=500)
+    return new, changed, unchanged
 
 
 def reading_log(

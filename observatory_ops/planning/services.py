@@ -251,7 +251,18 @@ def _effective_last_service(site: Site) -> dict[int, dt.date]:
 
 
 def site_recompute(site: Site, today: dt.date | None = None) -> int:
-    """Recompute and store the due state of every active plan at ``site``. Returns the number of plans."""
+    """Recompute and store the due state of every active plan at ``site``. Returns the number of plans.
+
+    Recomputes of one site take turns: the site's row stays locked until the caller's transaction ends.
+    Two at once on PostgreSQL would otherwise both delete the old rows, and the second would then insert
+    beside the first's (a primary-key violation); taking turns, each also reads what the previous wrote.
+    """
+    with transaction.atomic():
+        Site.objects.select_for_update().filter(pk=site.pk).exists()
+        return _site_recompute(site, today)
+
+
+def _site_recompute(site: Site, today: dt.date | None) -> int:
     today = today or site_today(site)
     plans = list(
         ServicePlan.objects.filter(
@@ -337,9 +348,8 @@ def site_recompute(site: Site, today: dt.date | None = None) -> int:
                 computed_at=now,
             )
         )
-    with transaction.atomic():
-        PlanStatus.objects.filter(site=site).delete()
-        _insert_all(PlanStatus, rows)
+    PlanStatus.objects.filter(site=site).delete()
+    _insert_all(PlanStatus, rows)
     return len(rows)
 
 

@@ -1,0 +1,75 @@
+"""``api_token_required(*methods)``: how an API view declares who may use it.
+
+Control software has no login and no session: it sends ``Authorization: Bearer <token>``, and the token
+is bound to one site. The decorated view takes the site's ``slug`` from the URL and receives the Site
+itself. Every refusal is JSON (see ``responses.error``), checked in this order:
+
+- no token, an unknown token or a revoked one: 401 (whatever the method, so a caller without a valid
+  token learns nothing about the URL);
+- a valid token and a site that does not exist: 404;
+- a valid token of another site: 403;
+- a method not listed: 405.
+
+The views are exempt from CSRF checks (no cookie is ever read) and keep ``required_role = "api-token"``
+so the project's URL walk can tell API views from the pages behind ``access.decorators.requires``.
+"""
+from __future__ import annotations
+
+from functools import wraps
+
+from django.views.decorators.csrf import csrf_exempt
+
+from observatory_ops.registry.models import Site
+
+from .responses import error
+from .selectors import token_for_secret
+
+API_ACCESS = "api-token"
+
+
+def _bearer_secret(request) -> str | None:
+    scheme, _, secret = request.META.get("HTTP_AUTHORIZATION", "").partition(" ")
+    secret = secret.strip()
+    return secret if scheme.lower() == "bearer" and secret else None
+
+
+def api_token_required(*methods: str):
+    if not methods:
+        raise ValueError("name the HTTP methods the view answers, e.g. api_token_required('GET')")
+
+    def decorate(view):
+        @wraps(view)
+        def guarded(request, slug, *args, **kwargs):
+            secret = _bearer_secret(request)
+            if secret is None:
+                return _unauthorised("send the site's API token as 'Authorization: Bearer <token>'", "")
+            token = token_for_secret(secret)
+            if token is None:
+                return _unauthorised("the API token is not known", "invalid_token")
+            if not token.active:
+                return _unauthorised(
+                    f"the API token '{token.name}' was revoked on {token.revoked_at:%Y-%m-%d}", "invalid_token"
+                )
+            site = Site.objects.filter(slug=slug).first()
+            if site is None:
+                return error(404, f"no site with slug {slug!r}")
+            if site.pk != token.site_id:
+                return error(403, f"this API token belongs to site {token.site.slug!r}, not {slug!r}")
+            if request.method not in methods:
+                response = error(405, f"{request.method} is not allowed here; use {' or '.join(methods)}")
+                response["Allow"] = ", ".join(methods)
+                return response
+            request.api_token = token
+            return view(request, site, *args, **kwargs)
+
+        guarded.required_role = API_ACCESS
+        return csrf_exempt(guarded)
+
+    return decorate
+
+
+def _unauthorised(message: str, code: str):
+    response = error(401, message)
+    # RFC 6750, section 3: a refused bearer token is answered with its scheme and, if one was sent, why.
+    response["WWW-Authenticate"] = f'Bearer error="{code}"' if code else "Bearer"
+    return response

@@ -1,0 +1,56 @@
+from django.core.management.base import BaseCommand, CommandError
+
+from observatory_ops.api import services
+from observatory_ops.api.models import ApiToken
+from observatory_ops.registry.models import Site
+
+
+class Command(BaseCommand):
+    help = "Create, list or revoke the API tokens control software uses to post nights (README: Ingest API)."
+
+    def add_arguments(self, parser):
+        actions = parser.add_subparsers(dest="action", required=True)
+        create = actions.add_parser("create", help="create a token and print its secret, once")
+        create.add_argument("--site", required=True, help="site slug")
+        create.add_argument("--name", required=True, help="what uses it, e.g. 'east dome control computer'")
+        revoke = actions.add_parser("revoke", help="revoke a token: it is refused from now on")
+        revoke.add_argument("id", type=int, help="the token's number, as `api_token list` shows it")
+        listing = actions.add_parser("list", help="list the tokens (never their secrets)")
+        listing.add_argument("--site", help="site slug (default: all sites)")
+
+    def handle(self, *args, action, **options):
+        getattr(self, f"_{action}")(**options)
+
+    def _site(self, slug: str) -> Site:
+        site = Site.objects.filter(slug=slug).first()
+        if site is None:
+            known = ", ".join(Site.objects.values_list("slug", flat=True)) or "none"
+            raise CommandError(f"no site with slug {slug!r} (known: {known})")
+        return site
+
+    def _create(self, site, name, **options):
+        try:
+            token, secret = services.api_token_create(self._site(site), name)
+        except ValueError as exc:
+            raise CommandError(str(exc)) from None
+        self.stderr.write(f"Token {token.pk} ({token.name}) for site {token.site.slug}. Copy it now: it is shown once.")
+        self.stdout.write(secret)
+
+    def _revoke(self, id, **options):
+        token = ApiToken.objects.filter(pk=id).first()
+        if token is None:
+            raise CommandError(f"no API token {id}")
+        try:
+            services.api_token_revoke(token)
+        except ValueError as exc:
+            raise CommandError(str(exc)) from None
+        self.stdout.write(f"Token {token.pk} ({token.name}, site {token.site.slug}) revoked.")
+
+    def _list(self, site=None, **options):
+        tokens = ApiToken.objects.select_related("site")
+        if site:
+            tokens = tokens.filter(site=self._site(site))
+        for t in tokens:
+            state = f"revoked {t.revoked_at:%Y-%m-%d}" if t.revoked_at else "active"
+            created = f"{t.created_at:%Y-%m-%d}"
+            self.stdout.write(f"{t.pk:>4}  {t.site.slug:<20} {t.prefix}…  {created}  {state:<18} {t.name}")

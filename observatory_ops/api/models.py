@@ -1,0 +1,36 @@
+"""API tokens: one per piece of control software, each bound to one site.
+
+The token itself is shown once, when it is created; only its SHA-256 hash is stored, with its first
+characters so an administrator can tell tokens apart. A token is revoked, never deleted, so the list
+keeps who created which token and when it stopped working.
+"""
+from __future__ import annotations
+
+from django.conf import settings
+from django.db import models
+
+from observatory_ops.registry.models import Site
+
+
+class ApiToken(models.Model):
+    site = models.ForeignKey(Site, on_delete=models.PROTECT, related_name="api_tokens")
+    name = models.CharField(max_length=100, help_text="What uses it, e.g. the control computer of the east dome.")
+    prefix = models.CharField(max_length=8, editable=False, help_text="The token's first characters.")
+    secret_sha256 = models.CharField(max_length=64, unique=True, editable=False)
+    created_at = models.DateTimeField(auto_now_add=True)
+    created_by = models.ForeignKey(
+        settings.AUTH_USER_MODEL, null=True, blank=True, on_delete=models.PROTECT, related_name="+",
+        help_text="Empty when created with the api_token command.",
+    )
+    revoked_at = models.DateTimeField(null=True, blank=True)
+
+    class Meta:
+        ordering = ["site", "-created_at"]
+        verbose_name = "API token"
+
+    def __str__(self) -> str:
+        return f"{self.name} ({self.site.slug}, {self.prefix}…)"
+
+    @property
+    def active(self) -> bool:
+        return self.revoked_at is None

@@ -1,0 +1,55 @@
+"""The ingest API for control software: post nights, read the due list. Thin: services do the work."""
+from __future__ import annotations
+
+import json
+
+from django.http import JsonResponse
+
+from observatory_ops.logbook import services
+from observatory_ops.planning.selectors import due_record, due_rows
+
+from .decorators import api_token_required
+from .responses import error, errors
+
+#: Largest request body accepted by the nights endpoint (about a thousand nights), in bytes.
+BODY_MAX_BYTES = 256 * 1024
+
+
+def _refuse_duplicate_keys(pairs: list[tuple[str, object]]) -> dict:
+    keys = [key for key, _ in pairs]
+    repeated = sorted({key for key in keys if keys.count(key) > 1})
+    if repeated:
+        # The CSV import refuses a repeated column; a JSON object with a repeated key is refused likewise.
+        raise ValueError(f"repeated key(s) in one object: {', '.join(repeated)}")
+    return dict(pairs)
+
+
+def _too_large(size: int | None) -> JsonResponse:
+    said = f"{size:,} bytes" if size else f"over {BODY_MAX_BYTES:,} bytes"
+    return error(413, f"the body is {said}; the limit is {BODY_MAX_BYTES:,} bytes: send fewer nights at once")
+
+
+@api_token_required("POST")
+def nights_post(request, site):
+    declared = request.META.get("CONTENT_LENGTH") or ""
+    if declared.isdigit() and int(declared) > BODY_MAX_BYTES:
+        return _too_large(int(declared))
+    body = request.read(BODY_MAX_BYTES + 1)  # the declared length may be absent or wrong
+    if len(body) > BODY_MAX_BYTES:
+        return _too_large(None)
+    try:
+        payload = json.loads(body, object_pairs_hook=_refuse_duplicate_keys)
+    except (ValueError, RecursionError) as exc:  # JSONDecodeError and UnicodeDecodeError are ValueErrors
+        return error(400, f"the body is not valid JSON: {exc}")
+    records = [payload] if isinstance(payload, dict) else payload
+    if not isinstance(records, list):
+        return error(400, "the body must be one night (a JSON object) or a list of nights")
+    report = services.nights_ingest(site, records)
+    if report.errors:
+        return errors(400, [(p.position, p.field, p.reason) for p in report.errors])
+    return JsonResponse({"created": report.created, "updated": report.updated, "unchanged": report.unchanged})
+
+
+@api_token_required("GET")
+def due_list(request, site):
+    return JsonResponse([due_record(status) for status in due_rows().filter(site=site)], safe=False)

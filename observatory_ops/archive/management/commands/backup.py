@@ -1,0 +1,19 @@
+from pathlib import Path
+
+from django.core.management.base import BaseCommand, CommandError
+
+from observatory_ops.archive.backup import backup_write
+
+
+class Command(BaseCommand):
+    help = "Write the whole record (register, logbook, plans, work orders, mirrors, people, histories) to FILE."
+
+    def add_arguments(self, parser):
+        parser.add_argument("file", help="backup file; ending in .gz compresses it")
+
+    def handle(self, *args, file, **options):
+        path = Path(file)
+        if path.exists():
+            raise CommandError(f"{file} already exists; choose a new name (a backup never overwrites)")
+        counts = backup_write(path)
+        self.stdout.write(f"{sum(counts.values()):,} rows in {len(counts)} tables written to {file}")

@@ -1,0 +1,22 @@
+from pathlib import Path
+
+from django.core.management.base import BaseCommand, CommandError
+
+from observatory_ops.archive.backup import BackupError, backup_restore
+
+
+class Command(BaseCommand):
+    help = "Load a backup written by `backup` into an empty, migrated database (all or nothing)."
+
+    def add_arguments(self, parser):
+        parser.add_argument("file")
+
+    def handle(self, *args, file, **options):
+        path = Path(file)
+        if not path.is_file():
+            raise CommandError(f"{file}: no such file")
+        try:
+            counts = backup_restore(path)
+        except BackupError as exc:
+            raise CommandError(str(exc)) from None
+        self.stdout.write(f"{sum(counts.values()):,} rows in {len(counts)} tables restored from {file}")

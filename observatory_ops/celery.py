@@ -1,0 +1,86 @@
+"""The Celery application: background work that calls the same services the pages call.
+
+Configuration comes from Django settings under the ``CELERY_`` prefix. Without ``CELERY_BROKER_URL`` every
+task runs inline in the calling process, so the default installation needs no other server; with
+``redis://...`` tasks go to workers (``celery -A observatory_ops worker``) and the schedule to
+``celery -A observatory_ops beat``.
+
+Every task derives from :class:`ServiceTask`: acknowledged only after it has finished (a worker that
+dies mid-task leaves the message to be delivered again), retried with exponential back-off when the
+database connection fails or a transaction loses a deadlock, and written so that running it twice gives
+the same result as running it once.
+"""
+from __future__ import annotations
+
+import os
+import time
+from collections.abc import Iterator
+from contextlib import contextmanager
+from pathlib import Path
+
+from celery import Celery, Task, chain
+from django.db import IntegrityError, InterfaceError, OperationalError, transaction
+
+os.environ.setdefault("DJANGO_SETTINGS_MODULE", "observatory_ops.settings")
+
+app = Celery("observatory_ops")
+app.config_from_object("django.conf:settings", namespace="CELERY")
+app.autodiscover_tasks()
+
+#: Test hook (see tests/test_workers.py): when this names a file that does not exist yet, a task writes
+#: its process id there and then waits inside its open transaction, so a test can kill the worker
+#: mid-task. Never set in production.
+PAUSE_FILE_VARIABLE = "OBSOPS_TEST_PAUSE_FILE"
+
+
+class ServiceTask(Task):
+    """Base of every observatory_ops task: late acknowledgement and retries on database trouble.
+
+    ``OperationalError`` covers a lost connection, a server restart, a deadlock or a serialisation
+    failure on PostgreSQL; ``InterfaceError`` a connection that was closed under the worker;
+    ``IntegrityError`` a concurrent writer that stored the same night first (the retry then finds it and
+    changes nothing). Each task runs in one transaction that is rolled back on any error, so a retry
+    starts from the data as it was.
+    """
+
+    autoretry_for = (OperationalError, InterfaceError, IntegrityError)
+    retry_backoff = True
+    retry_backoff_max = 600
+    retry_jitter = True
+    max_retries = 6
+    acks_late = True
+    reject_on_worker_lost = True
+
+    def retry(self, *args, exc=None, **kwargs):
+        # Inline (no broker), Celery would hand the caller a Retry exception instead of the error; the
+        # caller (a page, a command) gets the error itself at once and does not wait out a back-off.
+        if exc is not None and self.request.is_eager and self.app.conf.task_eager_propagates:
+            raise exc
+        return super().retry(*args, exc=exc, **kwargs)
+
+
+def pause_for_tests() -> None:
+    """Wait here once per marker file when the test hook is set; return at once otherwise."""
+    marker = os.environ.get(PAUSE_FILE_VARIABLE)
+    if not marker or Path(marker).exists():
+        return
+    Path(marker).write_text(str(os.getpid()))
+    time.sleep(float(os.environ.get("OBSOPS_TEST_PAUSE_SECONDS", "120")))
+
+
+@contextmanager
+def task_transaction() -> Iterator[None]:
+    """The task's whole work as one transaction: committed when the task finishes, gone if it fails."""
+    with transaction.atomic():
+        yield
+        pause_for_tests()
+
+
+def each_site(*task_names: str) -> int:
+    """Send the named tasks, in order, for every site (one chain per site); return the number of sites."""
+    from observatory_ops.registry.models import Site
+
+    site_ids = list(Site.objects.order_by("pk").values_list("pk", flat=True))
+    for site_id in site_ids:
+        chain(*(app.signature(name, args=(site_id,), immutable=True) for name in task_names)).delay()
+    return len(site_ids)

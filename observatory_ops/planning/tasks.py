@@ -1,0 +1,52 @@
+"""Background tasks of the planning app: thin shells over ``services`` and ``digest``.
+
+Arguments are plain ids so a task can wait in the broker; each task reads the current rows when it runs.
+"""
+from __future__ import annotations
+
+import datetime as dt
+
+from celery import shared_task
+
+from observatory_ops.celery import ServiceTask, each_site, task_transaction
+from observatory_ops.registry.models import Site
+
+from . import digest, services
+
+
+@shared_task(base=ServiceTask, name="planning.site_sky_refresh")
+def site_sky_refresh(site_id: int) -> int:
+    """Fill the site's nights cache for the whole forecast span from today; return the nights computed."""
+    site = Site.objects.get(pk=site_id)
+    today = services.site_today(site)
+    with task_transaction():
+        return services.site_sky_refresh(site, today, today + dt.timedelta(days=services.HORIZON_DAYS))
+
+
+@shared_task(base=ServiceTask, name="planning.site_recompute")
+def site_recompute(site_id: int) -> int:
+    """Recompute the due state of every plan at the site; return the number of plans."""
+    site = Site.objects.get(pk=site_id)
+    with task_transaction():
+        return services.site_recompute(site)
+
+
+@shared_task(base=ServiceTask, name="planning.due_digest_send", autoretry_for=(*ServiceTask.autoretry_for, OSError))
+def due_digest_send(site_id: int) -> int:
+    """E-mail today's due digest for the site to the engineers, once a day; return the addresses mailed.
+
+    An unreachable or refusing mail server (``OSError``, which ``smtplib.SMTPException`` is) is retried.
+    """
+    return digest.due_digest_send(Site.objects.get(pk=site_id))
+
+
+@shared_task(base=ServiceTask, name="planning.sites_recompute_all")
+def sites_recompute_all() -> int:
+    """Nightly: for every site, extend its nights cache, then recompute it. Returns the number of sites."""
+    return each_site(site_sky_refresh.name, site_recompute.name)
+
+
+@shared_task(base=ServiceTask, name="planning.sites_due_digest_all")
+def sites_due_digest_all() -> int:
+    """Daily: send every site's due digest. Returns the number of sites."""
+    return each_site(due_digest_send.name)

@@ -1,0 +1,68 @@
+"""Specifications for `python manage.py demo --no-serve`: loads once, twice is harmless, the due list explains itself.
+
+Runs in the test database whatever DATABASE_URL says. Slow-ish (several seconds): three years of nights.
+"""
+from __future__ import annotations
+
+from io import StringIO
+
+import pytest
+from django.apps import apps
+from django.contrib.auth.models import User
+from django.core.management import call_command
+from django.urls import reverse
+from django.utils.html import escape
+
+from fixtures_demo.generator import DEMO_USERS, SITE_SLUG
+from observatory_ops.calc.triggers import DUE, OVERDUE
+from observatory_ops.planning.metrics import METRICS
+from observatory_ops.planning.models import PlanStatus
+
+pytestmark = pytest.mark.django_db
+
+
+def row_counts() -> dict[str, int]:
+    return {model._meta.label: model.objects.count() for model in apps.get_models()}
+
+
+@pytest.fixture
+def demo_twice():
+    first, second = StringIO(), StringIO()
+    call_command("demo", "--no-serve", stdout=first)
+    counts = row_counts()
+    call_command("demo", "--no-serve", stdout=second)
+    return counts, first.getvalue(), second.getvalue()
+
+
+def test_running_the_demo_twice_leaves_the_same_row_counts_and_prints_every_login(demo_twice):
+    counts_after_first, first_out, second_out = demo_twice
+    assert row_counts() == counts_after_first
+    assert counts_after_first["logbook.NightUsage"] >= 3 * 365 - 1
+    assert counts_after_first["registry.Telescope"] == 2
+    assert "Loaded Vestal Ridge Observatory" in first_out
+    assert "Already loaded: Vestal Ridge Observatory" in second_out
+    for out in (first_out, second_out):
+        assert "Due summary:" in out
+        for username, role, _name, password in DEMO_USERS:
+            assert f"{role:<14} {username} / {password}" in out
+
+
+def test_the_demo_due_list_has_overdue_and_due_rows_each_with_a_reason_naming_its_trigger(demo_twice, client):
+    rows = list(PlanStatus.objects.filter(site__slug=SITE_SLUG, status__in=[OVERDUE, DUE]))
+    assert {r.status for r in rows} == {OVERDUE, DUE}
+    for row in rows:
+        governing = row.triggers[0]
+        assert governing["metric"] == row.metric
+        reason = row.reason.lower()
+        # The trigger is named by its label ("Open-dome hours: ...") or, for a reading, by its basis
+        # ("Settle time after a slew rises to the limit 1 s; Theil-Sen trend ...").
+        basis = governing["basis"].strip().lower()
+        assert METRICS[row.metric][0].lower() in reason or (basis and basis in reason), row.reason
+
+    client.force_login(User.objects.get(username="viewer"))
+    for status in (OVERDUE, DUE):
+        response = client.get(reverse("due-list"), {"status": status})
+        assert response.status_code == 200
+        page = response.content.decode()
+        for row in (r for r in rows if r.status == status):
+            assert escape(row.reason) in page

@@ -1,0 +1,560 @@
+"""Specifications for the nightly-usage importer: the service, the `import_nights` command and the upload page.
+
+A refused import stores nothing (count and content of every NightUsage row unchanged) and names the line
+of every problem; an accepted import is idempotent per site and night. Malformed files are generated
+with hypothesis. Line numbers count the header as line 1, as a text editor does.
+"""
+from __future__ import annotations
+
+import datetime as dt
+import itertools
+from io import StringIO
+from pathlib import Path
+
+import hypothesis
+import pytest
+from django.core.files.uploadedfile import SimpleUploadedFile
+from django.core.management import CommandError, call_command
+from django.urls import reverse
+from django.utils.html import escape
+from hypothesis import HealthCheck, assume, given
+from hypothesis import strategies as st
+
+from observatory_ops.logbook import services
+from observatory_ops.logbook.models import NightUsage
+from observatory_ops.planning.models import PlanStatus
+from observatory_ops.planning.services import site_today
+from observatory_ops.registry.models import Site
+from observatory_ops.registry.services import subsystem_create
+
+pytestmark = pytest.mark.django_db
+
+COLUMNS = (
+    "night", "open_hours", "slews", "axis1_travel_deg", "axis2_travel_deg", "brake_cycles", "pm10_ugm3",
+    "humidity_pct", "dew", "rain",
+)
+HEADER = ",".join(COLUMNS)
+FIRST_NIGHT = dt.date(2024, 1, 5)  # well in the past; the stored fixture overlaps these nights
+DB_EXAMPLES = hypothesis.settings(
+    max_examples=60, deadline=None,
+    suppress_health_check=[HealthCheck.function_scoped_fixture, HealthCheck.too_slow, HealthCheck.data_too_large],
+)
+_site_numbers = itertools.count()
+
+
+@pytest.fixture(autouse=True)
+def recomputes(monkeypatch):
+    """Record due-state recomputes instead of running them (each costs seconds of sky computation).
+
+    The real recompute runs in test_a_successful_import_refreshes_the_due_states.
+    """
+    calls: list[int] = []
+    monkeypatch.setattr(services, "site_recompute", lambda site: calls.append(site.pk))
+    return calls
+
+
+@pytest.fixture
+def stored(site):
+    """Ten nights already stored, some of which the generated files try to overwrite."""
+    NightUsage.objects.bulk_create(
+        NightUsage(
+            site=site, night=dt.date(2024, 1, 1) + dt.timedelta(days=i), open_hours=3.0 + i / 4, slews=10 + i,
+            pm10_ugm3=30.0, source=NightUsage.Source.IMPORT,
+        )
+        for i in range(10)
+    )
+    return site
+
+
+def snapshot() -> list[dict]:
+    """Every NightUsage row of every site, every field (including recorded_at)."""
+    return list(NightUsage.objects.order_by("site_id", "night").values())
+
+
+def fresh_site() -> Site:
+    n = next(_site_numbers)
+    return Site.objects.create(
+        name=f"Site {n}", slug=f"gen-{n}", latitude_deg=30.0, longitude_deg=10.0, time_zone="Europe/Madrid"
+    )
+
+
+def render(rows: list[list[str]], header: str = HEADER) -> bytes:
+    return "".join(f"{line}\n" for line in [header] + [",".join(cells) for cells in rows]).encode()
+
+
+def good_cells(night: dt.date, open_hours: float = 6.5, slews: int = 40, pm10: str = "35.5") -> list[str]:
+    return [night.isoformat(), repr(open_hours), str(slews), "812.5", "402.0", "42", pm10, "41", "no", "no"]
+
+
+GOOD_FILE = render([good_cells(FIRST_NIGHT + dt.timedelta(days=i), open_hours=5.0 + i) for i in range(3)])
+
+
+# --- generated files ---------------------------------------------------------------------------------
+
+flags = st.sampled_from(["yes", "no", "", "1", "0", "true", "false", "Y", "N", "YES", " no "])
+
+
+@st.composite
+def good_rows(draw, min_size: int = 1, max_size: int = 15) -> list[list[str]]:
+    offsets = draw(st.lists(st.integers(0, 300), min_size=min_size, max_size=max_size, unique=True))
+    rows = []
+    for offset in offsets:
+        rows.append([
+            (FIRST_NIGHT + dt.timedelta(days=offset)).isoformat(),
+            repr(draw(st.floats(0, 24))),
+            str(draw(st.integers(0, 5000))),
+            draw(st.sampled_from(["", "0"]) | st.floats(0, 1e5).map(repr)),
+            repr(draw(st.floats(0, 1e5))),
+            str(draw(st.integers(0, 5000))),
+            draw(st.just("") | st.floats(0, 2000).map(repr)),
+            draw(st.just("") | st.floats(0, 100).map(repr)),
+            draw(flags),
+            draw(flags),
+        ])
+    return rows
+
+
+NOT_A_NUMBER = st.sampled_from(["abc", "7h", "1..2", "--3", "0x10", "\u00bd", "NaN", "inf", "-inf", "1e999", "12 5"])
+ROW_FAULTS = (
+    "bad_number", "negative_hours", "hours_over_24", "empty_hours", "duplicate_night", "future_night", "bad_date",
+    "bad_flag", "humidity_over_100", "negative_count", "fractional_count", "count_too_big", "ragged_short",
+    "ragged_long",
+)
+
+
+@st.composite
+def files_with_bad_rows(draw):
+    """A file of good rows in which some rows are broken; returns (bytes, bad line numbers, good rows)."""
+    rows = draw(good_rows(min_size=1, max_size=12))
+    bad = sorted(draw(st.sets(st.integers(0, len(rows) - 1), min_size=1)))
+    today = site_today(Site(time_zone="Europe/Madrid"))
+    for i in bad:
+        fault = draw(st.sampled_from(ROW_FAULTS))
+        earlier_good = [j for j in range(i) if j not in bad]
+        if fault == "duplicate_night" and not earlier_good:
+            fault = "negative_hours"
+        cells = rows[i]
+        if fault == "bad_number":
+            cells[draw(st.integers(1, 7))] = draw(NOT_A_NUMBER)  # open_hours .. humidity_pct
+        elif fault == "negative_hours":
+            cells[1] = repr(-draw(st.floats(1e-3, 1e6)))
+        elif fault == "hours_over_24":
+            cells[1] = repr(draw(st.floats(24.001, 1e9)))
+        elif fault == "empty_hours":
+            cells[1] = draw(st.sampled_from(["", "  "]))
+        elif fault == "duplicate_night":
+            cells[0] = rows[draw(st.sampled_from(earlier_good))][0]
+        elif fault == "future_night":
+            cells[0] = (today + dt.timedelta(days=draw(st.integers(2, 3650)))).isoformat()
+        elif fault == "bad_date":
+            cells[0] = draw(st.sampled_from(["2024-13-01", "2024-02-30", "yesterday", "", "01/02/2024", "2024-1-5"]))
+        elif fault == "bad_flag":
+            cells[draw(st.sampled_from([8, 9]))] = draw(st.sampled_from(["maybe", "2", "si", "-"]))
+        elif fault == "humidity_over_100":
+            cells[7] = repr(draw(st.floats(100.01, 1e6)))
+        elif fault == "negative_count":
+            cells[draw(st.sampled_from([2, 5]))] = str(-draw(st.integers(1, 10**6)))
+        elif fault == "fractional_count":
+            cells[draw(st.sampled_from([2, 5]))] = draw(st.sampled_from(["2.5", "3.0", "1e3"]))
+        elif fault == "count_too_big":
+            # Beyond what an integer column holds in every supported database (2**31 - 1).
+            cells[draw(st.sampled_from([2, 5]))] = str(draw(st.integers(2**31, 10**30)))
+        elif fault == "ragged_short":
+            del cells[draw(st.integers(1, len(cells) - 1)):]
+        elif fault == "ragged_long":
+            cells.extend(draw(st.lists(st.sampled_from(["", "1", "x"]), min_size=1, max_size=3)))
+    order = draw(st.permutations(range(len(COLUMNS))))
+
+    def permute(cells: list[str]) -> list[str]:
+        return [cells[k] for k in order] if len(cells) == len(COLUMNS) else cells
+
+    header = ",".join(COLUMNS[k] for k in order)
+    data = render([permute(cells) for cells in rows], header)
+    good = [rows[j] for j in range(len(rows)) if j not in bad]
+    return data, [i + 2 for i in bad], good
+
+
+@st.composite
+def files_refused_as_a_whole(draw):
+    """Files with a problem that stops reading: returns (bytes, the one line the error must name)."""
+    rows = draw(good_rows(min_size=1, max_size=6))
+    lines = [HEADER] + [",".join(cells) for cells in rows]
+    kind = draw(st.sampled_from([
+        "unknown_column", "missing_column", "repeated_column", "empty", "blank", "header_only", "latin1", "nul",
+        "utf16",
+    ]))
+    if kind == "unknown_column":
+        lines[0] = HEADER.replace(draw(st.sampled_from(COLUMNS)), draw(st.sampled_from(["date", "hours", "Dust", "x"])))
+        return "\n".join(lines).encode(), 1
+    if kind == "missing_column":
+        name = draw(st.sampled_from(["night", "open_hours"]))
+        k = COLUMNS.index(name)
+        kept = [",".join(c for j, c in enumerate(line.split(",")) if j != k) for line in lines]
+        return "\n".join(kept).encode(), 1
+    if kind == "repeated_column":
+        lines[0] = HEADER.replace("slews", "pm10_ugm3")
+        return "\n".join(lines).encode(), 1
+    if kind == "empty":
+        return b"", 1
+    if kind == "blank":
+        return draw(st.sampled_from([b"\n", b"   \n\n", b"\r\n\t\r\n"])), 1
+    if kind == "header_only":
+        return draw(st.sampled_from([HEADER, HEADER + "\n", HEADER + "\n\n,,,,,,,,,\n"])).encode(), 1
+    at = draw(st.integers(0, len(lines) - 1))
+    if kind == "latin1":
+        # A spreadsheet in a Western European locale saves "o with acute" as the single latin-1 byte 0xf3.
+        lines[at] += ",Observaci\u00f3n"
+        return "\n".join(lines).encode("latin-1"), at + 1
+    if kind == "nul":
+        data = "\n".join(lines).encode()
+        offset = sum(len(line) + 1 for line in lines[:at]) + draw(st.integers(0, len(lines[at])))
+        return data[:offset] + b"\x00" + data[offset:], at + 1
+    return "\n".join(lines).encode("utf-16"), 1
+
+
+def assert_lines_named(errors: list[tuple[int, str]], data: bytes) -> None:
+    last_line = data.count(b"\n") + 1
+    assert errors
+    for line, reason in errors:
+        assert isinstance(line, int) and 1 <= line <= last_line, (line, reason)
+        assert reason.strip()
+
+
+# --- refused imports ---------------------------------------------------------------------------------
+
+
+@DB_EXAMPLES
+@given(case=files_with_bad_rows())
+def test_a_file_with_bad_rows_stores_nothing_and_names_every_bad_line(stored, recomputes, case):
+    data, bad_lines, _good = case
+    before, recomputed_before = snapshot(), len(recomputes)
+    report = services.nights_import(stored, data)
+    assert sorted(line for line, _ in report.errors) == bad_lines
+    assert_lines_named(report.errors, data)
+    assert not report.stored and (report.created, report.updated, report.unchanged) == (0, 0, 0)
+    assert report.summary == f"{len(bad_lines)} bad row(s); nothing was stored."
+    assert snapshot() == before
+    assert len(recomputes) == recomputed_before
+
+
+@DB_EXAMPLES
+@given(case=files_refused_as_a_whole())
+def test_a_file_with_wrong_columns_bad_encoding_or_no_rows_stores_nothing_and_names_the_line(stored, case):
+    data, line = case
+    before = snapshot()
+    report = services.nights_import(stored, data)
+    assert [n for n, _ in report.errors] == [line]
+    assert_lines_named(report.errors, data)
+    assert snapshot() == before
+
+
+@DB_EXAMPLES
+@given(
+    data=st.binary(max_size=400)
+    | st.text(max_size=400).map(str.encode)
+    | st.text(alphabet="0123456789-.,:e\"' \n\r\tnoyes", max_size=300).map(
+        lambda body: (HEADER + "\n" + body).encode()
+    ),
+    skip_bad=st.booleans(),
+)
+def test_any_bytes_at_all_never_raise_and_a_refusal_never_writes(stored, data, skip_bad):
+    before = snapshot()
+    report = services.nights_import(stored, data, skip_bad=skip_bad)
+    if report.errors:
+        assert_lines_named(report.errors, data)
+        assert not report.stored and snapshot() == before
+    else:
+        assert report.stored
+
+
+@pytest.mark.parametrize(
+    ("data", "line", "reason"),
+    [
+        (b"", 1, "the file is empty"),
+        (HEADER.encode() + b"\n", 1, "the file has a header but no rows"),
+        (b"night,hours\n2024-01-01,5\n", 1, "missing column(s): open_hours"),
+        (render([good_cells(FIRST_NIGHT)]) + b"2024-01-07,25\n", 3, "has 2 fields, the header has 10"),
+        (b"night,open_hours\n2024-01-01,-1\n", 2, "open_hours cannot be below 0 (got -1)"),
+        (b"night,open_hours\n2024-01-01,24.5\n", 2, "open_hours cannot be above 24 (got 24.5)"),
+        (b"night,open_hours\n2024-01-01,5\n2024-01-01,6\n", 3, "night 2024-01-01 already appears on line 2"),
+        (b"night,open_hours\n2024-01-01,five\n", 2, "open_hours must be a number, not 'five'"),
+        (b"night,open_hours,slews\n2024-01-01,5,99999999999999999999\n", 2, "slews cannot be above"),
+        (b"night,open_hours\n2024-01-01,5\n2024-01-02,6\nObservaci\xf3n,7\n", 4, "not UTF-8"),
+        (b"night,open_hours\n2024-01-01,5\n\x00\x01\x02", 3, "binary data"),
+    ],
+)
+def test_each_kind_of_bad_input_gets_its_line_and_a_readable_reason(stored, data, line, reason):
+    before = snapshot()
+    report = services.nights_import(stored, data)
+    assert len(report.errors) == 1
+    assert report.errors[0][0] == line
+    assert reason in report.errors[0][1]
+    assert snapshot() == before
+
+
+def test_a_night_in_the_future_is_refused(site):
+    tomorrow = site_today(site) + dt.timedelta(days=1)
+    report = services.nights_import(site, render([good_cells(tomorrow)]))
+    assert report.errors == [
+        (2, f"night {tomorrow} is in the future (the latest night that can be logged is {site_today(site)})")
+    ]
+    assert not NightUsage.objects.exists()
+
+
+# --- accepted imports --------------------------------------------------------------------------------
+
+
+def test_importing_the_same_file_twice_changes_nothing(site, recomputes):
+    first = services.nights_import(site, GOOD_FILE)
+    assert (first.created, first.updated, first.unchanged, first.errors) == (3, 0, 0, [])
+    after_first = snapshot()
+    second = services.nights_import(site, GOOD_FILE)
+    assert (second.created, second.updated, second.unchanged) == (0, 0, 3)
+    assert second.summary == "0 new, 0 updated, 3 unchanged."
+    assert snapshot() == after_first
+    assert recomputes == [site.pk]  # only the import that changed something refreshes the due states
+
+
+def test_a_changed_row_is_reported_as_updated_and_stored(site):
+    services.nights_import(site, GOOD_FILE)
+    before = {row["night"]: row for row in snapshot()}
+    changed_night = FIRST_NIGHT + dt.timedelta(days=1)
+    rows = [good_cells(FIRST_NIGHT + dt.timedelta(days=i), open_hours=5.0 + i) for i in range(3)]
+    rows[1] = good_cells(changed_night, open_hours=9.25, slews=77, pm10="")
+    report = services.nights_import(site, render(rows))
+    assert (report.created, report.updated, report.unchanged) == (0, 1, 2)
+    assert report.updated_nights == [changed_night]
+    after = {row["night"]: row for row in snapshot()}
+    assert (after[changed_night]["open_hours"], after[changed_night]["slews"]) == (9.25, 77)
+    assert after[changed_night]["pm10_ugm3"] is None
+    assert after[changed_night]["id"] == before[changed_night]["id"]
+    assert after[changed_night]["recorded_at"] > before[changed_night]["recorded_at"]
+    for night in (FIRST_NIGHT, FIRST_NIGHT + dt.timedelta(days=2)):
+        assert after[night] == before[night]
+
+
+@DB_EXAMPLES
+@given(rows=good_rows(), which=st.integers(0, 10**6), new_hours=st.floats(0, 24))
+def test_any_good_file_imports_once_then_reports_all_unchanged_and_one_change_as_updated(rows, which, new_hours):
+    site = fresh_site()
+    data = render(rows)
+    first = services.nights_import(site, data)
+    assert (first.created, first.updated, first.unchanged, first.errors) == (len(rows), 0, 0, [])
+    stored_once = snapshot()
+    second = services.nights_import(site, data)
+    assert (second.created, second.updated, second.unchanged) == (0, 0, len(rows))
+    assert snapshot() == stored_once
+
+    i = which % len(rows)
+    assume(float(rows[i][1]) != new_hours)
+    rows[i][1] = repr(new_hours)
+    third = services.nights_import(site, render(rows))
+    assert (third.created, third.updated, third.unchanged) == (0, 1, len(rows) - 1)
+    assert third.updated_nights == [dt.date.fromisoformat(rows[i][0])]
+    assert NightUsage.objects.get(site=site, night=rows[i][0]).open_hours == new_hours
+
+
+def test_skip_bad_stores_the_good_rows_and_lists_the_skipped_ones(site):
+    rows = [good_cells(FIRST_NIGHT + dt.timedelta(days=i)) for i in range(5)]
+    rows[1][1] = "-2"  # line 3
+    rows[3][0] = "2024-02-30"  # line 5
+    report = services.nights_import(site, render(rows), skip_bad=True)
+    assert report.errors == []
+    assert [line for line, _ in report.skipped] == [3, 5]
+    assert report.created == 3
+    assert report.summary == "3 new, 0 updated, 0 unchanged; 2 bad row(s) skipped."
+    stored_nights = set(NightUsage.objects.filter(site=site).values_list("night", flat=True))
+    assert stored_nights == {FIRST_NIGHT, FIRST_NIGHT + dt.timedelta(days=2), FIRST_NIGHT + dt.timedelta(days=4)}
+
+
+@DB_EXAMPLES
+@given(case=files_with_bad_rows())
+def test_skip_bad_stores_exactly_the_good_rows_of_any_file(case):
+    data, bad_lines, good = case
+    site = fresh_site()
+    report = services.nights_import(site, data, skip_bad=True)
+    if not good:
+        assert [line for line, _ in report.errors] == bad_lines
+        assert not NightUsage.objects.filter(site=site).exists()
+        return
+    assert [line for line, _ in report.skipped] == bad_lines
+    assert report.created == len(good)
+    stored_nights = sorted(NightUsage.objects.filter(site=site).values_list("night", flat=True))
+    assert stored_nights == sorted(dt.date.fromisoformat(cells[0]) for cells in good)
+
+
+def test_progress_is_reported_up_to_the_last_row(site):
+    seen = []
+    services.nights_import(site, GOOD_FILE, progress=lambda done, total: seen.append((done, total)))
+    assert seen[-1] == (3, 3)
+
+
+def test_a_successful_import_refreshes_the_due_states(site, telescope, monkeypatch):
+    monkeypatch.undo()  # the real recompute, with the sky computation
+    mirror = subsystem_create(telescope, "primary_mirror", "Primary mirror", counting_from=dt.date(2024, 1, 1))
+    rows = [good_cells(FIRST_NIGHT + dt.timedelta(days=i), open_hours=5.0, pm10="60") for i in range(3)]
+    services.nights_import(site, render(rows))
+    status = PlanStatus.objects.get(plan__subsystem=mirror, plan__name__startswith="Inspect and CO2")
+    dust = next(t for t in status.triggers if t["metric"] == "dust_hours")
+    # Sensitivity 1 at PM10 60: weight 1 + 1 * (60 - 20) / 20 = 3; 3 nights x 5 h x 3 = 45 dust-weighted hours.
+    assert dust["value"] == pytest.approx(45.0)
+
+
+# --- the import_nights command -----------------------------------------------------------------------
+
+
+@pytest.fixture
+def csv_file(tmp_path):
+    def write(data: bytes, name: str = "nights.csv") -> Path:
+        path = tmp_path / name
+        path.write_bytes(data)
+        return path
+
+    return write
+
+
+def run_import(*args: str) -> tuple[str, str]:
+    out, err = StringIO(), StringIO()
+    call_command("import_nights", *args, stdout=out, stderr=err)
+    return out.getvalue(), err.getvalue()
+
+
+def test_command_imports_a_file_and_a_second_run_reports_all_unchanged(site, csv_file):
+    path = str(csv_file(GOOD_FILE))
+    out, _ = run_import(path, "--site", site.slug)
+    assert f"{path}: 3 new, 0 updated, 0 unchanged." in out
+    out, _ = run_import(path, "--site", site.slug)
+    assert f"{path}: 0 new, 0 updated, 3 unchanged." in out
+    assert NightUsage.objects.filter(site=site).count() == 3
+
+
+def test_command_lists_updated_nights(site, csv_file):
+    run_import(str(csv_file(GOOD_FILE)), "--site", site.slug)
+    changed = render([good_cells(FIRST_NIGHT, open_hours=1.5)])
+    out, _ = run_import(str(csv_file(changed, "changed.csv")), "--site", site.slug)
+    assert f"updated night {FIRST_NIGHT}" in out
+    assert "0 new, 1 updated, 0 unchanged." in out
+
+
+def test_command_refuses_a_bad_file_with_each_line_on_stderr_and_stores_nothing(stored, csv_file):
+    rows = [good_cells(FIRST_NIGHT + dt.timedelta(days=i)) for i in range(4)]
+    rows[1][1] = "30"  # line 3
+    rows[2][2] = "many"  # line 4
+    path = str(csv_file(render(rows)))
+    before = snapshot()
+    err = StringIO()
+    with pytest.raises(CommandError, match="2 bad row\\(s\\); nothing was stored"):
+        call_command("import_nights", path, "--site", stored.slug, stdout=StringIO(), stderr=err)
+    assert "line 3: open_hours cannot be above 24 (got 30)" in err.getvalue()
+    assert "line 4: slews must be a whole number, not 'many'" in err.getvalue()
+    assert snapshot() == before
+
+
+def test_command_with_skip_bad_stores_the_good_rows_and_lists_the_skipped(site, csv_file):
+    rows = [good_cells(FIRST_NIGHT + dt.timedelta(days=i)) for i in range(3)]
+    rows[2][8] = "perhaps"  # line 4
+    out, err = run_import(str(csv_file(render(rows))), "--site", site.slug, "--skip-bad")
+    assert "line 4: dew must be yes or no, not 'perhaps'" in err
+    assert "2 new, 0 updated, 0 unchanged; 1 bad row(s) skipped." in out
+    assert NightUsage.objects.filter(site=site).count() == 2
+
+
+def test_command_names_an_unknown_site_and_the_known_ones(site, csv_file):
+    with pytest.raises(CommandError, match="no site with slug 'nowhere' \\(known: test-hill\\)"):
+        run_import(str(csv_file(GOOD_FILE)), "--site", "nowhere")
+    assert not NightUsage.objects.exists()
+
+
+def test_command_names_a_missing_file(site, tmp_path):
+    with pytest.raises(CommandError, match="no such file"):
+        run_import(str(tmp_path / "absent.csv"), "--site", site.slug)
+
+
+# --- the upload page ---------------------------------------------------------------------------------
+
+
+@pytest.fixture
+def technician_client(client, users):
+    client.force_login(users["technician"])
+    return client
+
+
+def upload(client, site, data: bytes, skip_bad: bool = False, name: str = "nights.csv"):
+    payload = {"file": SimpleUploadedFile(name, data, content_type="text/csv")}
+    if skip_bad:
+        payload["skip_bad"] = "on"
+    return client.post(reverse("nights-import", args=[site.slug]), payload)
+
+
+def test_upload_page_shows_the_form_and_the_format(technician_client, site):
+    response = technician_client.get(reverse("nights-import", args=[site.slug]))
+    assert response.status_code == 200
+    assert b"open_hours" in response.content
+
+
+def test_upload_of_a_good_file_stores_it_and_says_so(technician_client, site):
+    response = upload(technician_client, site, GOOD_FILE)
+    assert response.status_code == 200
+    assert b"Import done: 3 new, 0 updated, 0 unchanged." in response.content
+    assert NightUsage.objects.filter(site=site).count() == 3
+
+
+def test_upload_of_a_bad_file_shows_each_line_and_stores_nothing(technician_client, stored):
+    rows = [good_cells(FIRST_NIGHT + dt.timedelta(days=i)) for i in range(4)]
+    rows[0][1] = "-1"  # line 2
+    rows[3][0] = "next tuesday"  # line 5
+    before = snapshot()
+    response = upload(technician_client, stored, render(rows))
+    assert response.status_code == 200
+    page = response.content.decode()
+    assert "Import refused: 2 bad row(s); nothing was stored." in page
+    assert "<td>2</td><td>open_hours cannot be below 0 (got -1)</td>" in page
+    reason = escape("night must be a date as YYYY-MM-DD, not 'next tuesday'")
+    assert f"<td>5</td><td>{reason}</td>" in page
+    assert snapshot() == before
+
+
+def test_upload_with_skip_bad_stores_the_good_rows_and_lists_the_skipped(technician_client, site):
+    rows = [good_cells(FIRST_NIGHT + dt.timedelta(days=i)) for i in range(3)]
+    rows[1][7] = "140"  # line 3
+    response = upload(technician_client, site, render(rows), skip_bad=True)
+    page = response.content.decode()
+    assert "2 new, 0 updated, 0 unchanged; 1 bad row(s) skipped." in page
+    assert "<td>3</td><td>humidity_pct cannot be above 100 (got 140)</td>" in page
+    assert NightUsage.objects.filter(site=site).count() == 2
+
+
+@DB_EXAMPLES
+@given(
+    case=files_with_bad_rows().map(lambda c: c[0])
+    | files_refused_as_a_whole().map(lambda c: c[0])
+    | st.binary(min_size=1, max_size=300),
+)
+def test_upload_of_any_malformed_file_is_never_a_server_error_and_stores_nothing(technician_client, stored, case):
+    before = snapshot()
+    response = upload(technician_client, stored, case)
+    assert response.status_code == 200
+    assert snapshot() == before
+
+
+def test_upload_of_an_empty_file_is_refused_with_a_message(technician_client, site):
+    response = upload(technician_client, site, b"")
+    assert response.status_code == 200
+    assert b"The submitted file is empty." in response.content
+    assert not NightUsage.objects.exists()
+
+
+def test_upload_over_the_size_limit_is_refused_with_a_message(technician_client, site, settings):
+    limit = settings.NIGHTS_UPLOAD_MAX_BYTES
+    response = upload(technician_client, site, b"x" * (limit + 1))
+    assert response.status_code == 200
+    assert f"The file is {limit + 1:,} bytes; the limit is {limit:,} bytes.".encode() in response.content
+    assert not NightUsage.objects.exists()
+
+
+def test_upload_size_limit_is_read_from_settings_and_a_file_at_the_limit_passes(technician_client, site, settings):
+    settings.NIGHTS_UPLOAD_MAX_BYTES = len(GOOD_FILE)
+    assert upload(technician_client, site, GOOD_FILE).status_code == 200
+    assert NightUsage.objects.filter(site=site).count() == 3
+    response = upload(technician_client, site, GOOD_FILE + b"\n")
+    assert f"the limit is {len(GOOD_FILE):,} bytes".encode() in response.content
