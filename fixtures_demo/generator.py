@@ -12,6 +12,7 @@ import numpy as np
 from django.contrib.auth.models import Group, User
 from django.db import transaction
 from django.utils import timezone
+from simple_history.utils import bulk_create_with_history
 
 from observatory_ops.calc import exposure, nights
 from observatory_ops.logbook.models import NightUsage, Reading, ServiceRecord
@@ -75,7 +76,7 @@ def demo_users() -> list[tuple[str, str, str]]:
         user, created = User.objects.get_or_create(username=username, defaults={"first_name": first, "last_name": last})
         if created:
             user.set_password(password)
-            user.is_staff = role == "administrator"
+            user.is_staff = role in ("engineer", "administrator")  # the admin edits the register
             user.is_superuser = role == "administrator"
             user.save()
         user.groups.add(Group.objects.get_or_create(name=role)[0])
@@ -152,7 +153,7 @@ def _usage(site: Site, start: dt.date, today: dt.date, rng: np.random.Generator)
                 source=NightUsage.Source.DEMO,
             )
         )
-    NightUsage.objects.bulk_create(rows, batch_size=500)
+    bulk_create_with_history(rows, NightUsage, batch_size=500)
 
 
 def _drive_settle_triggers(subsystems, technician, today: dt.date, rng: np.random.Generator) -> None:
@@ -191,13 +192,13 @@ def _service_history(site, subsystems, users, today: dt.date, rng: np.random.Gen
                         summary=plan.name, findings="", created_by=users["technician"],
                     )
                 )
-    ServiceRecord.objects.bulk_create(records)
+    bulk_create_with_history(records, ServiceRecord)
 
 
 def _workshop(site: Site, telescopes) -> None:
     """Energy isolation points of each telescope and the site's spare-parts shelf (one part below reorder)."""
     for telescope in telescopes:
-        IsolationPoint.objects.bulk_create(
+        bulk_create_with_history(
             [
                 IsolationPoint(
                     telescope=telescope, energy=IsolationPoint.Energy.AC, label=f"{telescope.name} mount isolator",
@@ -212,13 +213,14 @@ def _workshop(site: Site, telescopes) -> None:
                     telescope=telescope, energy=IsolationPoint.Energy.DC, label="24 V instrument supply breaker",
                     location="rack 2, breaker 4", verify="meter reads 0 V at the focuser terminal block",
                 ),
-            ]
+            ],
+            IsolationPoint,
         )
     IsolationPoint.objects.create(
         telescope=telescopes[0], energy=IsolationPoint.Energy.AIR, label="brake air supply valve",
         location="compressor room, blue valve", verify="gauge at the brake manifold reads zero after bleeding",
     )
-    Part.objects.bulk_create(
+    bulk_create_with_history(
         [
             Part(site=site, name="Fan intake filter 120 mm", part_number="VR-FLT-120", quantity_on_hand=3,
                  reorder_point=4, location="store, shelf B2"),
@@ -230,7 +232,8 @@ def _workshop(site: Site, telescopes) -> None:
                  reorder_point=10, location="store, shelf A4", unit="swab"),
             Part(site=site, name="Drive roller wipes (solvent)", part_number="VR-WIP-20", quantity_on_hand=12,
                  reorder_point=5, location="flammables cabinet", unit="pack"),
-        ]
+        ],
+        Part,
     )
 
 

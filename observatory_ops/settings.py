@@ -37,7 +37,7 @@ SECRET_KEY = os.environ.get("SECRET_KEY", "")
 if not SECRET_KEY:
     if not DEBUG:
         raise RuntimeError("SECRET_KEY must be set when DEBUG is off.")
-    SECRET_KEY = "development-only-key-not-for-production"  # noqa: S105 (used only when DEBUG)
+    SECRET_KEY = "development-only-key-not-for-production"  # noqa: S105  # nosec B105: only when DEBUG is on
 
 ALLOWED_HOSTS = [h.strip() for h in os.environ.get("ALLOWED_HOSTS", "127.0.0.1,localhost").split(",") if h.strip()]
 if DEBUG:
@@ -53,6 +53,7 @@ INSTALLED_APPS = [
     "django.contrib.staticfiles",
     "django_tables2",
     "django_filters",
+    "simple_history",
     "observatory_ops.access",
     "observatory_ops.registry",
     "observatory_ops.logbook",
@@ -71,6 +72,7 @@ MIDDLEWARE = [
     "django.middleware.csrf.CsrfViewMiddleware",
     "django.contrib.auth.middleware.AuthenticationMiddleware",
     "django.contrib.messages.middleware.MessageMiddleware",
+    "observatory_ops.archive.middleware.history_middleware",
     "django.middleware.clickjacking.XFrameOptionsMiddleware",
 ]
 
@@ -183,6 +185,7 @@ CELERY_BROKER_CONNECTION_RETRY_ON_STARTUP = True
 # Must exceed the longest task plus its longest retry delay, or Redis hands a running task out twice.
 CELERY_BROKER_TRANSPORT_OPTIONS = {"visibility_timeout": int(os.environ.get("CELERY_VISIBILITY_TIMEOUT", "3600"))}
 CELERY_TIMEZONE = "UTC"
+CELERY_BEAT_SCHEDULE_FILENAME = str(DATA_DIR / "celerybeat-schedule")  # when each entry last ran
 CELERY_BEAT_SCHEDULE = {
     # Each ingest recomputes its own site at once; this moves calendar triggers and "today" forward
     # everywhere, and adds the next night to each site's nights cache.

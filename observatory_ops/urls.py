@@ -17,4 +17,5 @@ urlpatterns = [
     path("", include("observatory_ops.workorders.urls")),
     path("", include("observatory_ops.mirrors.urls")),
     path("", include("observatory_ops.api.urls")),
+    path("", include("observatory_ops.archive.urls")),
 ]

@@ -7,9 +7,11 @@ import shutil
 
 import django
 import pytest
+from django.conf import settings
 
 os.environ.setdefault("DJANGO_SETTINGS_MODULE", "observatory_ops.settings")
 django.setup()  # test modules import models at module level; the project keeps no pytest.ini at the top
+settings.PASSWORD_HASHERS = ["django.contrib.auth.hashers.MD5PasswordHasher"]  # fast test users only
 
 ROLES = ("viewer", "technician", "engineer", "administrator")
 

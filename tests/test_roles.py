@@ -114,6 +114,8 @@ def records(site, telescope, users):
         ("service", "pk"): record.pk,
         ("workorders", "pk"): order.pk,
         ("mirrors", "pk"): mirror.pk,
+        ("history", "label"): "registry.subsystem",
+        ("record", "pk"): subsystem.pk,
         # A move the draft order cannot take, so an allowed empty POST changes nothing either.
         ("move", "action"): "countersign",
     }

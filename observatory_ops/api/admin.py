@@ -5,6 +5,7 @@ Nothing here edits or deletes a token: a token that should stop working is revok
 from django.contrib import admin, messages
 from django.core.exceptions import PermissionDenied
 from django.template.response import TemplateResponse
+from simple_history.admin import SimpleHistoryAdmin
 
 from observatory_ops.access.roles import ADMINISTRATOR, has_role
 
@@ -14,7 +15,7 @@ from .models import ApiToken
 
 
 @admin.register(ApiToken)
-class ApiTokenAdmin(admin.ModelAdmin):
+class ApiTokenAdmin(SimpleHistoryAdmin):
     list_display = ("name", "site", "shown_prefix", "created_at", "created_by", "revoked_at")
     list_filter = ("site", ("revoked_at", admin.EmptyFieldListFilter))
     fields = ("site", "name", "shown_prefix", "created_at", "created_by", "revoked_at")

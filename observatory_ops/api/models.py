@@ -8,11 +8,13 @@ from __future__ import annotations
 
 from django.conf import settings
 from django.db import models
+from simple_history.models import HistoricalRecords
 
 from observatory_ops.registry.models import Site
 
 
 class ApiToken(models.Model):
+    history = HistoricalRecords()  # who changed what, when: see observatory_ops/archive
     site = models.ForeignKey(Site, on_delete=models.PROTECT, related_name="api_tokens")
     name = models.CharField(max_length=100, help_text="What uses it, e.g. the control computer of the east dome.")
     prefix = models.CharField(max_length=8, editable=False, help_text="The token's first characters.")

@@ -44,7 +44,8 @@ def nights_post(request, site):
     records = [payload] if isinstance(payload, dict) else payload
     if not isinstance(records, list):
         return error(400, "the body must be one night (a JSON object) or a list of nights")
-    report = services.nights_ingest(site, records)
+    token = request.api_token
+    report = services.nights_ingest(site, records, reason=f"sent with API token {token.prefix}... ({token.name})"[:100])
     if report.errors:
         return errors(400, [(p.position, p.field, p.reason) for p in report.errors])
     return JsonResponse({"created": report.created, "updated": report.updated, "unchanged": report.unchanged})

@@ -1,16 +1,17 @@
 from django.contrib import admin
+from simple_history.admin import SimpleHistoryAdmin
 
 from .models import NightUsage, Reading, ServiceRecord
 
 
 @admin.register(NightUsage)
-class NightUsageAdmin(admin.ModelAdmin):
+class NightUsageAdmin(SimpleHistoryAdmin):
     list_display = ("site", "night", "open_hours", "slews", "brake_cycles", "pm10_ugm3", "source")
     list_filter = ("site", "source")
     date_hierarchy = "night"
 
 
-class AppendOnlyAdmin(admin.ModelAdmin):
+class AppendOnlyAdmin(SimpleHistoryAdmin):
     """Readings and service records are evidence: added, never changed or deleted (corrections are new rows)."""
 
     def has_change_permission(self, request, obj=None):

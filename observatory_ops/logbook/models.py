@@ -10,6 +10,7 @@ from django.conf import settings
 from django.core.exceptions import ValidationError
 from django.core.validators import MaxValueValidator, MinValueValidator
 from django.db import models
+from simple_history.models import HistoricalRecords
 
 from observatory_ops.registry.models import Site, Subsystem
 
@@ -19,6 +20,7 @@ from .quantities import QUANTITY_CHOICES
 class NightUsage(models.Model):
     """One row per site per night; the night belongs to the local date of its evening."""
 
+    history = HistoricalRecords()  # who changed what, when: see observatory_ops/archive
     class Source(models.TextChoices):
         IMPORT = "import", "CSV import"
         API = "api", "control software"
@@ -48,6 +50,7 @@ class NightUsage(models.Model):
 
 
 class Reading(models.Model):
+    history = HistoricalRecords()  # who changed what, when: see observatory_ops/archive
     subsystem = models.ForeignKey(Subsystem, on_delete=models.PROTECT, related_name="readings")
     quantity = models.CharField(max_length=40, choices=QUANTITY_CHOICES)
     unit = models.CharField(max_length=16)
@@ -65,6 +68,7 @@ class Reading(models.Model):
 
 
 class ServiceRecord(models.Model):
+    history = HistoricalRecords()  # who changed what, when: see observatory_ops/archive
     subsystem = models.ForeignKey(Subsystem, on_delete=models.PROTECT, related_name="service_records")
     plan = models.ForeignKey(
         "planning.ServicePlan", null=True, blank=True, on_delete=models.PROTECT, related_name="service_records"

@@ -11,6 +11,7 @@ from dataclasses import dataclass, field
 from django.core.exceptions import ValidationError
 from django.db import IntegrityError, transaction
 from django.utils import timezone
+from simple_history.utils import bulk_create_with_history, bulk_update_with_history
 
 from observatory_ops.planning.models import ServicePlan
 from observatory_ops.planning.services import site_recompute, site_today
@@ -49,12 +50,14 @@ def nights_import(
     skip_bad: bool = False,
     source: str = NightUsage.Source.IMPORT,
     progress: Callable[[int, int], None] | None = None,
+    by=None,
 ) -> ImportReport:
     """Import a nights CSV (``nights_csv`` format) for one site: all or nothing, and idempotent.
 
     Every bad row is reported with its line number. Unless ``skip_bad``, one bad row means nothing is
     stored. A night already stored with the same figures is left untouched; with other figures it is
-    updated and reported. ``progress(done, total)`` is called as rows are written.
+    updated and reported. ``progress(done, total)`` is called as rows are written. ``by`` is the
+    person the audit trail names (None for the command line).
     """
     report = ImportReport()
     try:
@@ -67,11 +70,13 @@ def nights_import(
         report.errors = parsed.errors
         return report
     report.skipped = parsed.errors
-    _nights_store(site, [values for _, values in parsed.rows], source, report, progress)
+    _nights_store(site, [values for _, values in parsed.rows], source, report, progress, by)
     return report
 
 
-def nights_ingest(site: Site, records: list[dict], source: str = NightUsage.Source.API) -> ImportReport:
+def nights_ingest(
+    site: Site, records: list[dict], source: str = NightUsage.Source.API, by=None, reason: str = ""
+) -> ImportReport:
     """Store nights sent by control software as JSON objects (keys: the CSV column names) for one site.
 
     The same rules as the CSV import (``nights_csv.parse_row``); every bad object is reported with its
@@ -84,7 +89,7 @@ def nights_ingest(site: Site, records: list[dict], source: str = NightUsage.Sour
     if parsed.errors:
         report.errors = parsed.errors
         return report
-    _nights_store(site, [values for _, values in parsed.rows], source, report)
+    _nights_store(site, [values for _, values in parsed.rows], source, report, by=by, reason=reason)
     return report
 
 
@@ -98,6 +103,8 @@ def _nights_store(
     source: str,
     report: ImportReport,
     progress: Callable[[int, int], None] | None = None,
+    by=None,
+    reason: str = "",
 ) -> None:
     """Create new nights, update changed ones and count the rest, in one transaction; recompute on change.
 
@@ -108,7 +115,9 @@ def _nights_store(
     for attempt in range(2):
         try:
             with transaction.atomic():
-                new, changed, unchanged = _nights_write(site, rows, _stored_nights(site, nights), source, progress)
+                new, changed, unchanged = _nights_write(
+                    site, rows, _stored_nights(site, nights), source, progress, by, reason
+                )
                 if new or changed:
                     site_recompute(site)
             break
@@ -126,6 +135,8 @@ def _nights_write(
     existing: dict[dt.date, NightUsage],
     source: str,
     progress: Callable[[int, int], None] | None,
+    by,
+    reason: str,
 ) -> tuple[list[NightUsage], list[NightUsage], int]:
     new, changed, unchanged = [], [], 0
     for done, values in enumerate(rows, start=1):
@@ -142,8 +153,12 @@ def _nights_write(
             unchanged += 1
         if progress and (done % 500 == 0 or done == len(rows)):
             progress(done, len(rows))
-    NightUsage.objects.bulk_create(new, batch_size=500)
-    NightUsage.objects.bulk_update(changed, _USAGE_FIELDS + ["source", "recorded_at"], batch_size=500)
+    # The *_with_history forms also write the audit trail (django-simple-history skips plain bulk writes).
+    bulk_create_with_history(new, NightUsage, batch_size=500, default_user=by, default_change_reason=reason)
+    bulk_update_with_history(
+        changed, NightUsage, _USAGE_FIELDS + ["source", "recorded_at"], batch_size=500, default_user=by,
+        default_change_reason=reason,
+    )
     return new, changed, unchanged
 
 

@@ -97,7 +97,9 @@ def nights_import(request, slug):
     form = NightsUploadForm(request.POST or None, request.FILES or None)
     report = None
     if request.method == "POST" and form.is_valid():
-        report = services.nights_import(site, form.cleaned_data["file"].read(), skip_bad=form.cleaned_data["skip_bad"])
+        report = services.nights_import(
+            site, form.cleaned_data["file"].read(), skip_bad=form.cleaned_data["skip_bad"], by=request.user
+        )
         if report.errors:
             messages.error(request, f"Import refused: {report.summary}")
         else:

@@ -6,6 +6,7 @@ from django.core.exceptions import ValidationError
 from django.core.validators import MaxValueValidator, MinValueValidator
 from django.db import models
 from django.urls import reverse
+from simple_history.models import HistoricalRecords
 
 from observatory_ops.calc.coating import MATERIALS, METALS
 from observatory_ops.calc.lifting import DENSITY
@@ -15,6 +16,7 @@ from observatory_ops.registry.models import Subsystem
 class Mirror(models.Model):
     """The optical facts of a mirror subsystem (primary or secondary)."""
 
+    history = HistoricalRecords()  # who changed what, when: see observatory_ops/archive
     subsystem = models.OneToOneField(Subsystem, on_delete=models.PROTECT, related_name="mirror")
     diameter_mm = models.FloatField(validators=[MinValueValidator(1)])
     thickness_mm = models.FloatField(validators=[MinValueValidator(1)])
@@ -63,6 +65,7 @@ def validate_layers(value) -> None:
 
 
 class CoatingEvent(models.Model):
+    history = HistoricalRecords()  # who changed what, when: see observatory_ops/archive
     mirror = models.ForeignKey(Mirror, on_delete=models.PROTECT, related_name="coatings")
     coated_on = models.DateField()
     metal = models.CharField(max_length=4, choices=[(m, m) for m in METALS])
@@ -83,6 +86,7 @@ class CoatingEvent(models.Model):
 
 
 class CleaningEvent(models.Model):
+    history = HistoricalRecords()  # who changed what, when: see observatory_ops/archive
     class Method(models.TextChoices):
         CO2_SNOW = "co2_snow", "CO2 snow"
         WASH = "wash", "wash"
@@ -99,6 +103,7 @@ class CleaningEvent(models.Model):
 class ReflectanceMeasurement(models.Model):
     """A measured reflectance (0..1): at one wavelength or averaged over the mirror's band. Append-only."""
 
+    history = HistoricalRecords()  # who changed what, when: see observatory_ops/archive
     mirror = models.ForeignKey(Mirror, on_delete=models.PROTECT, related_name="measurements")
     measured_on = models.DateField()
     value = models.FloatField(validators=[MinValueValidator(0), MaxValueValidator(1)])
@@ -114,6 +119,7 @@ class ReflectanceMeasurement(models.Model):
 class RecoatPlan(models.Model):
     """A chosen downtime window turned into a sequence of work orders."""
 
+    history = HistoricalRecords()  # who changed what, when: see observatory_ops/archive
     mirror = models.ForeignKey(Mirror, on_delete=models.PROTECT, related_name="recoat_plans")
     starts_on = models.DateField()
     ends_on = models.DateField()

@@ -8,6 +8,7 @@ from django.shortcuts import get_object_or_404, redirect, render
 
 from observatory_ops.access.decorators import requires
 from observatory_ops.access.roles import ENGINEER, TECHNICIAN, VIEWER, has_role
+from observatory_ops.archive.history import changes
 from observatory_ops.calc import windows
 from observatory_ops.planning.services import site_recompute, site_today
 from observatory_ops.registry.models import Site
@@ -38,6 +39,9 @@ def mirror_detail(request, pk):
             "coatings": mirror.coatings.all(),
             "cleanings": mirror.cleanings.all(),
             "measurements": mirror.measurements.select_related("taken_by").order_by("-measured_on")[:40],
+            "history": changes(mirror, limit=5),
+            "history_label": "mirrors.mirror",
+            "history_pk": mirror.pk,
             "plans": mirror.recoat_plans.prefetch_related(
                 Prefetch("work_orders", queryset=WorkOrder.objects.order_by("planned_date", "pk"))
             ),

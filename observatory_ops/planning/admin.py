@@ -1,6 +1,7 @@
 from django.contrib import admin
+from simple_history.admin import SimpleHistoryAdmin
 
-from .models import ServicePlan, Trigger
+from .models import BookedRun, ServicePlan, Trigger
 
 
 class TriggerInline(admin.TabularInline):
@@ -9,8 +10,14 @@ class TriggerInline(admin.TabularInline):
 
 
 @admin.register(ServicePlan)
-class ServicePlanAdmin(admin.ModelAdmin):
+class ServicePlanAdmin(SimpleHistoryAdmin):
     list_display = ("name", "subsystem", "dust_sensitivity", "counting_from", "active")
     list_filter = ("subsystem__telescope__site", "subsystem__telescope", "active")
     search_fields = ("name", "subsystem__name")
     inlines = [TriggerInline]
+
+
+@admin.register(BookedRun)
+class BookedRunAdmin(SimpleHistoryAdmin):
+    list_display = ("title", "site", "starts_on", "ends_on", "blocked")
+    list_filter = ("site",)

@@ -4,6 +4,7 @@ from __future__ import annotations
 from django.core.exceptions import ValidationError
 from django.core.validators import MinValueValidator
 from django.db import models
+from simple_history.models import HistoricalRecords
 
 from observatory_ops.calc.triggers import STATUSES
 from observatory_ops.logbook.quantities import QUANTITY_CHOICES
@@ -13,6 +14,7 @@ from .metrics import METRIC_CHOICES, READING
 
 
 class ServicePlan(models.Model):
+    history = HistoricalRecords()  # who changed what, when: see observatory_ops/archive
     subsystem = models.ForeignKey(Subsystem, on_delete=models.PROTECT, related_name="plans")
     name = models.CharField(max_length=160)
     task = models.TextField(blank=True)
@@ -39,6 +41,7 @@ class ServicePlan(models.Model):
 
 
 class Trigger(models.Model):
+    history = HistoricalRecords()  # who changed what, when: see observatory_ops/archive
     class Direction(models.TextChoices):
         ABOVE = "above", "rises to the limit"
         BELOW = "below", "falls to the limit"
@@ -113,6 +116,7 @@ class NightSky(models.Model):
 class BookedRun(models.Model):
     """An observing run booked at a site: nights that are expensive (or impossible) to lose to downtime."""
 
+    history = HistoricalRecords()  # who changed what, when: see observatory_ops/archive
     site = models.ForeignKey(Site, on_delete=models.CASCADE, related_name="booked_runs")
     title = models.CharField(max_length=120)
     starts_on = models.DateField()

@@ -13,6 +13,7 @@ import numpy as np
 from django.db import connection, transaction
 from django.db.models import Max
 from django.utils import timezone
+from simple_history.utils import bulk_create_with_history
 
 from observatory_ops.calc import exposure, forecast, nights, trend
 from observatory_ops.calc.triggers import STATUSES, TriggerState, due_status, governing
@@ -50,7 +51,7 @@ def plans_from_catalogue(subsystem: Subsystem, counting_from: dt.date) -> list[S
             counting_from=counting_from,
             basis=template.basis,
         )
-        Trigger.objects.bulk_create(Trigger(plan=plan, metric=m, limit=limit) for m, limit in template.triggers)
+        bulk_create_with_history([Trigger(plan=plan, metric=m, limit=limit) for m, limit in template.triggers], Trigger)
         created.append(plan)
     return created
 
@@ -364,7 +365,9 @@ def _insert_all(model, objects: list) -> None:
     fields = model._meta.concrete_fields
     columns = ", ".join(connection.ops.quote_name(f.column) for f in fields)
     marks = ", ".join(["%s"] * len(fields))
-    sql = f"INSERT INTO {connection.ops.quote_name(model._meta.db_table)} ({columns}) VALUES ({marks})"  # noqa: S608
+    # Table and column names come from the model and are quoted; every value is a bound parameter.
+    table = connection.ops.quote_name(model._meta.db_table)
+    sql = f"INSERT INTO {table} ({columns}) VALUES ({marks})"  # noqa: S608  # nosec B608
     rows = [[f.get_db_prep_save(f.pre_save(obj, add=True), connection) for f in fields] for obj in objects]
     with connection.cursor() as cursor:
         cursor.executemany(sql, rows)

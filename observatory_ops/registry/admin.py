@@ -1,22 +1,23 @@
 from django.contrib import admin
+from simple_history.admin import SimpleHistoryAdmin
 
 from .models import Site, Subsystem, Telescope
 
 
 @admin.register(Site)
-class SiteAdmin(admin.ModelAdmin):
+class SiteAdmin(SimpleHistoryAdmin):
     list_display = ("name", "slug", "latitude_deg", "longitude_deg", "elevation_m", "time_zone")
     prepopulated_fields = {"slug": ("name",)}
 
 
 @admin.register(Telescope)
-class TelescopeAdmin(admin.ModelAdmin):
+class TelescopeAdmin(SimpleHistoryAdmin):
     list_display = ("name", "site", "aperture_m", "mount")
     list_filter = ("site", "mount")
 
 
 @admin.register(Subsystem)
-class SubsystemAdmin(admin.ModelAdmin):
+class SubsystemAdmin(SimpleHistoryAdmin):
     list_display = ("name", "telescope", "kind", "parent", "retired_on")
     list_filter = ("telescope__site", "telescope", "kind")
     search_fields = ("name", "serial_number")

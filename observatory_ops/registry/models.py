@@ -7,6 +7,7 @@ from django.core.exceptions import ValidationError
 from django.core.validators import MaxValueValidator, MinValueValidator
 from django.db import models
 from django.urls import reverse
+from simple_history.models import HistoricalRecords
 
 from .catalogue import KIND_CHOICES, KINDS
 
@@ -26,6 +27,7 @@ def validate_hazards(value) -> None:
 
 
 class Site(models.Model):
+    history = HistoricalRecords()  # who changed what, when: see observatory_ops/archive
     name = models.CharField(max_length=120)
     slug = models.SlugField(unique=True)
     latitude_deg = models.FloatField(validators=[MinValueValidator(-90), MaxValueValidator(90)])
@@ -52,6 +54,7 @@ class Site(models.Model):
 
 
 class Telescope(models.Model):
+    history = HistoricalRecords()  # who changed what, when: see observatory_ops/archive
     class Mount(models.TextChoices):
         FORK = "fork", "Equatorial fork"
         GERMAN = "german", "German equatorial"
@@ -88,6 +91,7 @@ class SubsystemQuerySet(models.QuerySet):
 
 
 class Subsystem(models.Model):
+    history = HistoricalRecords()  # who changed what, when: see observatory_ops/archive
     telescope = models.ForeignKey(Telescope, on_delete=models.PROTECT, related_name="subsystems")
     parent = models.ForeignKey("self", null=True, blank=True, on_delete=models.PROTECT, related_name="children")
     kind = models.CharField(max_length=32, choices=KIND_CHOICES)

@@ -1,11 +1,16 @@
+from django.contrib import messages
+from django.http import HttpResponseNotAllowed
 from django.shortcuts import get_object_or_404, redirect, render
 
 from observatory_ops.access.decorators import requires
-from observatory_ops.access.roles import VIEWER
+from observatory_ops.access.roles import ENGINEER, VIEWER
+from observatory_ops.archive.history import changes
 from observatory_ops.logbook.models import NightUsage
 from observatory_ops.planning import selectors as planning_selectors
+from observatory_ops.planning.services import site_recompute, site_today
 from observatory_ops.workorders import selectors as workorder_selectors
 
+from . import services
 from .models import Site, Subsystem
 from .selectors import subsystem_tree
 
@@ -52,5 +57,24 @@ def subsystem_detail(request, pk):
             "records": subsystem.service_records.select_related("plan", "performed_by", "corrects", "corrected_by"),
             "readings": subsystem.readings.select_related("taken_by")[:50],
             "children": subsystem.children.in_service(),
+            "history": changes(subsystem, limit=5),
+            "history_label": "registry.subsystem",
+            "history_pk": subsystem.pk,
         },
     )
+
+
+@requires(ENGINEER)
+def subsystem_retire(request, pk):
+    subsystem = get_object_or_404(Subsystem.objects.select_related("telescope__site"), pk=pk)
+    if request.method != "POST":
+        return HttpResponseNotAllowed(["POST"])
+    site = subsystem.telescope.site
+    try:
+        services.subsystem_retire(subsystem, site_today(site), request.POST.get("reason", ""), request.user)
+    except ValueError as exc:
+        messages.error(request, f"Not retired: {exc}.")
+    else:
+        site_recompute(site)
+        messages.success(request, f"{subsystem.name} retired; its records and history are kept.")
+    return redirect(subsystem)

@@ -1,4 +1,5 @@
 from django.contrib import admin
+from simple_history.admin import SimpleHistoryAdmin
 
 from .models import IsolationPoint, Part, PartUse, RequiredReading, WorkOrder, WorkOrderItem
 
@@ -19,7 +20,7 @@ class PartUseInline(admin.TabularInline):
 
 
 @admin.register(WorkOrder)
-class WorkOrderAdmin(admin.ModelAdmin):
+class WorkOrderAdmin(SimpleHistoryAdmin):
     list_display = ("number", "title", "site", "state", "planned_date", "assignee")
     list_filter = ("site", "state", "order_type")
     inlines = [ItemInline, ReadingInline, PartUseInline]
@@ -27,12 +28,12 @@ class WorkOrderAdmin(admin.ModelAdmin):
 
 
 @admin.register(Part)
-class PartAdmin(admin.ModelAdmin):
+class PartAdmin(SimpleHistoryAdmin):
     list_display = ("name", "part_number", "site", "quantity_on_hand", "reorder_point", "location")
     list_filter = ("site",)
 
 
 @admin.register(IsolationPoint)
-class IsolationPointAdmin(admin.ModelAdmin):
+class IsolationPointAdmin(SimpleHistoryAdmin):
     list_display = ("telescope", "energy", "label", "location")
     list_filter = ("telescope__site", "energy")

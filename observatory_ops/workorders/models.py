@@ -5,6 +5,7 @@ from django.conf import settings
 from django.core.validators import MinValueValidator
 from django.db import models
 from django.urls import reverse
+from simple_history.models import HistoricalRecords
 
 from observatory_ops.logbook.quantities import QUANTITIES, QUANTITY_CHOICES
 from observatory_ops.registry.models import Site, Subsystem, Telescope
@@ -22,6 +23,7 @@ class State(models.TextChoices):
 
 
 class WorkOrder(models.Model):
+    history = HistoricalRecords()  # who changed what, when: see observatory_ops/archive
     class Type(models.TextChoices):
         # Terms as EN 13306 (maintenance terminology) uses them.
         PREVENTIVE = "preventive", "preventive"
@@ -93,6 +95,7 @@ class WorkOrder(models.Model):
 class WorkOrderItem(models.Model):
     """One subsystem (and, when it comes from a due item, its plan) that a work order covers."""
 
+    history = HistoricalRecords()  # who changed what, when: see observatory_ops/archive
     work_order = models.ForeignKey(WorkOrder, on_delete=models.CASCADE, related_name="items")
     subsystem = models.ForeignKey(Subsystem, on_delete=models.PROTECT, related_name="+")
     plan = models.ForeignKey("planning.ServicePlan", null=True, blank=True, on_delete=models.PROTECT, related_name="+")
@@ -105,6 +108,7 @@ class WorkOrderItem(models.Model):
 class RequiredReading(models.Model):
     """A reading the technician must record to finish the work order."""
 
+    history = HistoricalRecords()  # who changed what, when: see observatory_ops/archive
     work_order = models.ForeignKey(WorkOrder, on_delete=models.CASCADE, related_name="required_readings")
     subsystem = models.ForeignKey(Subsystem, on_delete=models.PROTECT, related_name="+")
     quantity = models.CharField(max_length=40, choices=QUANTITY_CHOICES)
@@ -126,6 +130,7 @@ class RequiredReading(models.Model):
 class Part(models.Model):
     """A spare part kept in stock at a site."""
 
+    history = HistoricalRecords()  # who changed what, when: see observatory_ops/archive
     site = models.ForeignKey(Site, on_delete=models.PROTECT, related_name="parts")
     name = models.CharField(max_length=120)
     part_number = models.CharField(max_length=60, blank=True)
@@ -149,6 +154,7 @@ class Part(models.Model):
 class PartUse(models.Model):
     """A part planned for a work order, and how many were used on completion."""
 
+    history = HistoricalRecords()  # who changed what, when: see observatory_ops/archive
     work_order = models.ForeignKey(WorkOrder, on_delete=models.CASCADE, related_name="part_uses")
     part = models.ForeignKey(Part, on_delete=models.PROTECT, related_name="uses")
     quantity_planned = models.FloatField(default=1, validators=[MinValueValidator(0)])
@@ -161,6 +167,7 @@ class PartUse(models.Model):
 class IsolationPoint(models.Model):
     """Where an energy source of a telescope is isolated and locked out (for the lockout step)."""
 
+    history = HistoricalRecords()  # who changed what, when: see observatory_ops/archive
     class Energy(models.TextChoices):
         AC = "ac", "AC mains"
         DC = "dc", "DC supplies"

@@ -21,7 +21,7 @@ from collections import Counter
 from collections.abc import Sequence
 from datetime import date
 from itertools import groupby
-from xml.sax.saxutils import escape
+from xml.sax.saxutils import escape  # nosec B406: escapes our own output; no XML is parsed
 
 import qrcode
 from qrcode.constants import ERROR_CORRECT_M

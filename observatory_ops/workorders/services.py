@@ -10,7 +10,6 @@ import datetime as dt
 from collections.abc import Sequence
 
 from django.db import transaction
-from django.db.models import F
 from django.utils import timezone
 
 from observatory_ops.access.roles import has_role
@@ -110,7 +109,8 @@ def work_order_ad_hoc(
             steps=steps_with_lockout(hazards, steps.splitlines()),
             hazards=hazards, created_by=by,
         )
-        WorkOrderItem.objects.bulk_create(WorkOrderItem(work_order=order, subsystem=s) for s in subsystems)
+        for subsystem in subsystems:
+            WorkOrderItem.objects.create(work_order=order, subsystem=subsystem)
     return order
 
 
@@ -152,8 +152,17 @@ def work_order_move(order: WorkOrder, action: str, by, reason: str = "") -> Work
         claimed = WorkOrder.objects.filter(pk=order.pk, state=order.state).update(**fields)
         if not claimed:
             raise Refused("someone else changed this work order meanwhile; reload it")
-    order.refresh_from_db()
+        _record_history(order, by, action)
     return order
+
+
+def _record_history(order: WorkOrder, by, reason: str) -> None:
+    """The claim above is a plain UPDATE (it must be conditional); save once more so the audit trail
+    records the move, by whom and why."""
+    order.refresh_from_db()
+    order._history_user = by
+    order._change_reason = reason
+    order.save()
 
 
 def work_order_finish(
@@ -194,31 +203,30 @@ def work_order_finish(
         )
         if not claimed:
             raise Refused("this work order has already been finished by someone else")
+        _record_history(order, by, "finish")
         share = actual_hours / max(len(items), 1)
-        ServiceRecord.objects.bulk_create(
-            ServiceRecord(
+        for item in items:
+            ServiceRecord.objects.create(
                 subsystem=item.subsystem, plan=item.plan, performed_on=today, performed_by=by, hours_spent=share,
                 summary=(item.plan.name if item.plan else order.title)[:200], findings=findings,
                 work_order=order, created_by=by,
             )
-            for item in items
-        )
         for r in required:
             r.reading = Reading.objects.create(
                 subsystem=r.subsystem, quantity=r.quantity, unit=r.unit, value=readings[r.pk], taken_at=now,
                 taken_by=by, note=f"recorded on {order.number}",
             )
             r.save(update_fields=["reading"])
-        for use in order.part_uses.select_related("part"):
+        for use in order.part_uses.all():
             quantity = parts_used.get(use.pk, use.quantity_planned)
-            updated = Part.objects.filter(pk=use.part_id, quantity_on_hand__gte=quantity).update(
-                quantity_on_hand=F("quantity_on_hand") - quantity
-            )
-            if not updated:
+            part = Part.objects.select_for_update().get(pk=use.part_id)
+            if part.quantity_on_hand < quantity:
                 raise Refused(
-                    f"only {use.part.quantity_on_hand:g} {use.part.unit} of {use.part.name} in stock, "
+                    f"only {part.quantity_on_hand:g} {part.unit} of {part.name} in stock, "
                     f"{quantity:g} used: correct the stock first"
                 )
+            part.quantity_on_hand -= quantity
+            part.save(update_fields=["quantity_on_hand"])
             use.quantity_used = quantity
             use.save(update_fields=["quantity_used"])
         site_recompute(site)

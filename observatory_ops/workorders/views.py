@@ -8,6 +8,7 @@ from django_tables2 import RequestConfig
 
 from observatory_ops.access.decorators import requires
 from observatory_ops.access.roles import ENGINEER, TECHNICIAN, VIEWER, has_role
+from observatory_ops.archive.history import changes
 from observatory_ops.planning.models import ServicePlan
 from observatory_ops.planning.services import site_today
 from observatory_ops.registry.models import Site
@@ -93,6 +94,9 @@ def work_order_detail(request, pk):
             "editable": order.state in (State.DRAFT, State.ISSUED) and has_role(request.user, ENGINEER),
             "part_form": PartAddForm(site=order.site),
             "withdraw_form": WithdrawForm(),
+            "history": changes(order, limit=8),
+            "history_label": "workorders.workorder",
+            "history_pk": order.pk,
         },
     )
 

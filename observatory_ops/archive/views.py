@@ -1,0 +1,31 @@
+from django.http import Http404
+from django.shortcuts import get_object_or_404, render
+
+from observatory_ops.access.decorators import requires
+from observatory_ops.access.roles import VIEWER
+from observatory_ops.exports import csv_response
+
+from .history import audited_model, changes
+
+
+@requires(VIEWER)
+def history(request, label, pk):
+    """Every change to one audited object; ``?export=csv`` downloads it."""
+    model = audited_model(label)
+    if model is None:
+        raise Http404("no history is kept for that kind of record")
+    instance = get_object_or_404(model, pk=pk)
+    entries = changes(instance)
+    if request.GET.get("export") == "csv":
+        rows = (
+            (c.when.isoformat(), c.who, c.kind, c.reason, name, before, after)
+            for c in entries
+            for name, before, after in (c.fields or [("", "", "")])
+        )
+        return csv_response(
+            f"history-{label}-{pk}.csv", ("when_utc", "who", "what", "reason", "field", "before", "after"), rows
+        )
+    return render(
+        request, "archive/history.html",
+        {"instance": instance, "entries": entries, "label": label, "verbose": model._meta.verbose_name},
+    )
