@@ -42,14 +42,14 @@ class WindowForm(forms.Form):
         return start
 
 
-class CoatingForm(forms.Form):
-    coated_on = forms.DateField(widget=forms.DateInput(attrs={"type": "date"}))
+class RecipeForm(forms.Form):
+    """A coating recipe: the metal and its overcoats from the metal outward."""
+
     metal = forms.ChoiceField(choices=[(m, m) for m in METALS])
     layers = forms.CharField(
         required=False, max_length=200,
         help_text="Overcoats from the metal outward as MATERIAL:NM, comma-separated, e.g. SiO2:100. Empty: bare.",
     )
-    note = forms.CharField(max_length=200, required=False)
 
     def clean_layers(self) -> list[dict]:
         layers = []
@@ -65,3 +65,18 @@ class CoatingForm(forms.Form):
                 raise forms.ValidationError(f"{material!r} is not a known material ({', '.join(MATERIALS)}).")
             layers.append(layer)
         return layers
+
+
+class CoatingForm(RecipeForm):
+    coated_on = forms.DateField(widget=forms.DateInput(attrs={"type": "date"}))
+    note = forms.CharField(max_length=200, required=False)
+    field_order = ["coated_on", "metal", "layers", "note"]
+
+
+class CalculatorForm(RecipeForm):
+    from_nm = forms.FloatField(label="Band from (nm)", initial=400)
+    to_nm = forms.FloatField(label="Band to (nm)", initial=1000)
+    step_nm = forms.FloatField(label="Step (nm)", initial=10, min_value=0.1)
+    response = forms.FileField(
+        required=False, help_text="Optional CSV with columns wavelength_nm,weight: weights the band mean."
+    )

@@ -38,3 +38,14 @@ def decline_svg(state: MirrorForecast) -> SafeString | None:
         chart.marker(state.crossing_exposure_h, state.threshold, f"crosses about {state.crossing:%d %b %Y}")
     chart.text(chart.left + 6, chart.height - chart.bottom - 6, "dashed verticals: cleanings", colour=ALERT)
     return chart.svg()
+
+
+def curve_svg(result: dict) -> SafeString:
+    """Reflectance against wavelength for a computed coating curve, with its band mean."""
+    waves = [p["wavelength_nm"] for p in result["curve"]]
+    values = [p["reflectance"] for p in result["curve"]]
+    chart = Chart(waves[0], waves[-1], min(values) - 0.01, min(max(values) + 0.01, 1.0), "Coating reflectance")
+    chart.axes(y_format=".3f", x_label="wavelength (nm)")
+    chart.hline(result["band_mean"], f"band mean {result['band_mean']:.4f}", colour="#4a6b4a")
+    chart.line(list(zip(waves, values, strict=True)))
+    return chart.svg()

@@ -9,13 +9,13 @@ from django.shortcuts import get_object_or_404, redirect, render
 from observatory_ops.access.decorators import requires
 from observatory_ops.access.roles import ENGINEER, TECHNICIAN, VIEWER, has_role
 from observatory_ops.archive.history import changes
-from observatory_ops.calc import windows
+from observatory_ops.calc import coating, windows
 from observatory_ops.planning.services import site_recompute, site_today
 from observatory_ops.registry.models import Site
 from observatory_ops.workorders.models import WorkOrder
 
-from . import calendar_export, plots, services
-from .forms import CleaningForm, CoatingForm, MeasurementForm, WindowForm
+from . import calendar_export, plots, response_csv, services
+from .forms import CalculatorForm, CleaningForm, CoatingForm, MeasurementForm, WindowForm
 from .models import CleaningEvent, CoatingEvent, Mirror, ReflectanceMeasurement
 
 
@@ -151,3 +151,21 @@ def downtime_calendar(request, slug):
     response = HttpResponse(body, content_type="text/calendar; charset=utf-8")
     response["Content-Disposition"] = f'attachment; filename="{site.slug}-planned-work.ics"'
     return response
+
+
+@requires(VIEWER)
+def coating_calculator(request):
+    """Fresh-coating reflectance for a recipe over a band, flat or weighted by an uploaded response."""
+    form = CalculatorForm(request.POST or None, request.FILES or None, initial={"metal": "al"})
+    result = plot = None
+    if request.method == "POST" and form.is_valid():
+        d = form.cleaned_data
+        try:
+            response = response_csv.parse(d["response"].read()) if d["response"] else None
+            layers = [coating.Layer(x["material"], x["thickness_nm"]) for x in d["layers"]]
+            result = coating.coating_curve(d["metal"], layers, d["from_nm"], d["to_nm"], d["step_nm"], response)
+        except ValueError as exc:
+            form.add_error(None, str(exc))
+        else:
+            plot = plots.curve_svg(result)
+    return render(request, "mirrors/coating.html", {"form": form, "result": result, "plot": plot})

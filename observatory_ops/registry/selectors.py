@@ -1,6 +1,8 @@
 """Reads of the register for pages."""
 from __future__ import annotations
 
+from observatory_ops.calc.lifting import tube_mass_warning
+
 from .models import Subsystem, Telescope
 
 
@@ -15,3 +17,10 @@ def subsystem_tree(telescope: Telescope) -> list[tuple[Subsystem, list]]:
         return [(s, build(s.pk)) for s in children.get(parent_id, [])]
 
     return build(None)
+
+
+def tube_warning(telescope: Telescope) -> str | None:
+    """A warning when the registered tube mass is far from what its aperture suggests (calc.lifting)."""
+    if telescope.tube_mass_kg is None:
+        return None
+    return tube_mass_warning(telescope.aperture_m, telescope.tube_mass_kg)

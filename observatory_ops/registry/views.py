@@ -12,7 +12,7 @@ from observatory_ops.workorders import selectors as workorder_selectors
 
 from . import services
 from .models import Site, Subsystem
-from .selectors import subsystem_tree
+from .selectors import subsystem_tree, tube_warning
 
 
 @requires(VIEWER)
@@ -33,7 +33,7 @@ def site_dashboard(request, slug):
             "site": site,
             "counts": planning_selectors.status_counts(site),
             "upcoming": planning_selectors.due_for_site(site)[:12],
-            "telescopes": [(t, subsystem_tree(t)) for t in site.telescopes.all()],
+            "telescopes": [(t, subsystem_tree(t), tube_warning(t)) for t in site.telescopes.all()],
             "last_night": NightUsage.objects.filter(site=site).order_by("-night").first(),
             "recent_service": planning_selectors.recent_service(site)[:8],
             "low_stock": workorder_selectors.low_stock(site),

@@ -1,8 +1,10 @@
 import json
+from pathlib import Path
 
 from django.core.management.base import BaseCommand, CommandError
 
 from observatory_ops.calc.coating import MATERIALS, Layer, coating_curve
+from observatory_ops.mirrors import response_csv
 
 
 def _layer(text: str) -> Layer:
@@ -25,12 +27,16 @@ class Command(BaseCommand):
         parser.add_argument("--from", dest="from_nm", type=float, default=400.0)
         parser.add_argument("--to", dest="to_nm", type=float, default=1000.0)
         parser.add_argument("--step", dest="step_nm", type=float, default=10.0)
+        parser.add_argument("--response", help="CSV with columns wavelength_nm,weight to weight the band mean")
         parser.add_argument("--json", action="store_true", dest="as_json")
 
     def handle(self, *args, **o):
         layers = [_layer(text) for text in o["layer"]]
         try:
-            result = coating_curve(o["metal"], layers, o["from_nm"], o["to_nm"], o["step_nm"])
+            response = response_csv.parse(Path(o["response"]).read_bytes()) if o["response"] else None
+            result = coating_curve(o["metal"], layers, o["from_nm"], o["to_nm"], o["step_nm"], response=response)
+        except OSError as exc:
+            raise CommandError(f"--response: {exc.strerror}: {o['response']}") from None
         except ValueError as exc:
             raise CommandError(str(exc)) from None
         if o["as_json"]:
