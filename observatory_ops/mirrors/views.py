@@ -49,50 +49,45 @@ def mirror_detail(request, pk):
     )
 
 
+def _log_event(request, pk, form_class, date_field: str, what: str, create, done: str, **initial):
+    """One form page for a dated mirror event (measurement, cleaning, coating); the date may not be ahead."""
+    mirror = _mirror(pk)
+    today = site_today(mirror.subsystem.telescope.site)
+    form = form_class(request.POST or None, initial={date_field: today, **initial})
+    if request.method == "POST" and form.is_valid():
+        if form.cleaned_data[date_field] > today:
+            form.add_error(date_field, f"The date cannot be after today ({today}).")
+        else:
+            create(mirror, form.cleaned_data)
+            messages.success(request, done)
+            return redirect(mirror)
+    return render(request, "mirrors/form.html", {"form": form, "mirror": mirror, "what": what})
+
+
 @requires(TECHNICIAN)
 def measurement_log(request, pk):
-    mirror = _mirror(pk)
-    site = mirror.subsystem.telescope.site
-    form = MeasurementForm(request.POST or None, initial={"measured_on": site_today(site)})
-    if request.method == "POST" and form.is_valid():
-        d = form.cleaned_data
-        if d["measured_on"] > site_today(site):
-            form.add_error("measured_on", "A measurement cannot be in the future.")
-        else:
-            ReflectanceMeasurement.objects.create(mirror=mirror, taken_by=request.user, **d)
-            messages.success(request, "Measurement logged; the decline fit is updated.")
-            return redirect(mirror)
-    return render(request, "mirrors/form.html", {"form": form, "mirror": mirror, "what": "a reflectance measurement"})
+    return _log_event(
+        request, pk, MeasurementForm, "measured_on", "a reflectance measurement",
+        lambda mirror, d: ReflectanceMeasurement.objects.create(mirror=mirror, taken_by=request.user, **d),
+        "Measurement logged; the decline fit is updated.",
+    )
 
 
 @requires(TECHNICIAN)
 def cleaning_log(request, pk):
-    mirror = _mirror(pk)
-    site = mirror.subsystem.telescope.site
-    form = CleaningForm(request.POST or None, initial={"cleaned_on": site_today(site)})
-    if request.method == "POST" and form.is_valid():
-        if form.cleaned_data["cleaned_on"] > site_today(site):
-            form.add_error("cleaned_on", "A cleaning cannot be in the future.")
-        else:
-            CleaningEvent.objects.create(mirror=mirror, **form.cleaned_data)
-            messages.success(request, "Cleaning logged.")
-            return redirect(mirror)
-    return render(request, "mirrors/form.html", {"form": form, "mirror": mirror, "what": "a cleaning"})
+    return _log_event(
+        request, pk, CleaningForm, "cleaned_on", "a cleaning",
+        lambda mirror, d: CleaningEvent.objects.create(mirror=mirror, **d), "Cleaning logged.",
+    )
 
 
 @requires(TECHNICIAN)
 def coating_log(request, pk):
-    mirror = _mirror(pk)
-    site = mirror.subsystem.telescope.site
-    form = CoatingForm(request.POST or None, initial={"coated_on": site_today(site), "metal": "al"})
-    if request.method == "POST" and form.is_valid():
-        if form.cleaned_data["coated_on"] > site_today(site):
-            form.add_error("coated_on", "A coating cannot be in the future.")
-        else:
-            CoatingEvent.objects.create(mirror=mirror, **form.cleaned_data)
-            messages.success(request, "New coating logged; the decline is now counted from it.")
-            return redirect(mirror)
-    return render(request, "mirrors/form.html", {"form": form, "mirror": mirror, "what": "a new coating"})
+    return _log_event(
+        request, pk, CoatingForm, "coated_on", "a new coating",
+        lambda mirror, d: CoatingEvent.objects.create(mirror=mirror, **d),
+        "New coating logged; the decline is now counted from it.", metal="al",
+    )
 
 
 @requires(VIEWER)
