@@ -125,6 +125,7 @@ def build(today: dt.date | None = None) -> tuple[Site, bool]:
         _workshop(site, (t70, r40))
         _mirrors(site, subsystems, users["technician"], today, rng)
         planning.site_recompute(site, today)
+        _work_orders(site, users, today)
     return site, True
 
 
@@ -299,3 +300,23 @@ def _mirrors(site, subsystems, technician, today: dt.date, rng: np.random.Genera
         site=site, title="Comet photometry campaign", starts_on=today + dt.timedelta(days=40),
         ends_on=today + dt.timedelta(days=58), blocked=True,
     )
+
+
+def _work_orders(site, users, today: dt.date) -> None:
+    """Two open work orders from today's overdue items: one issued for tomorrow, one underway."""
+    from observatory_ops.planning.models import PlanStatus
+    from observatory_ops.workorders import services as workorders
+
+    overdue = list(
+        PlanStatus.objects.filter(site=site, status="overdue").select_related("plan").order_by("plan_id")[:3]
+    )
+    if len(overdue) < 3:
+        return
+    tomorrow = today + dt.timedelta(days=1)
+    issued = workorders.work_order_from_due([s.plan for s in overdue[:2]], users["engineer"], tomorrow)
+    issued.assignee = users["technician"]
+    issued.save()
+    workorders.work_order_move(issued, "issue", users["engineer"])
+    underway = workorders.work_order_from_due([overdue[2].plan], users["engineer"], today)
+    workorders.work_order_move(underway, "issue", users["engineer"])
+    workorders.work_order_move(underway, "start", users["technician"])

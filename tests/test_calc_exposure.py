@@ -284,3 +284,15 @@ def test_monthly_spread_is_the_sample_standard_deviation_of_relative_deviations(
 
 def test_monthly_spread_needs_six_months_before_replacing_the_prior():
     assert monthly_spread([90, 110, 100, 120, 80], [100] * 5) == PRIOR_MONTHLY_SPREAD
+
+
+def test_reached_on_names_the_night_the_running_total_passed_the_limit():
+    from observatory_ops.calc.exposure import reached_on
+
+    nights = np.array(["2026-01-01", "2026-01-02", "2026-01-03", "2026-01-05"], dtype="datetime64[D]")
+    since = np.array(["2026-01-01", "2026-01-02", "2026-01-02"], dtype="datetime64[D]")
+    # From 1 Jan: 5, 10 -> a limit of 10 is reached on 2 Jan. From 2 Jan: 5, 10, 15 -> 15 on 5 Jan (the
+    # 4th is not logged); a limit of 100 is never reached (NaT).
+    got = reached_on(nights, [5, 5, 5, 5], since, [10, 15, 100])
+    assert got[0] == np.datetime64("2026-01-02") and got[1] == np.datetime64("2026-01-05")
+    assert np.isnat(got[2])

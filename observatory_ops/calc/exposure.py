@@ -65,3 +65,26 @@ def accumulated_since(
     totals = np.concatenate([[0.0], np.cumsum(values)])
     first = np.searchsorted(np.asarray(nights, dtype="datetime64[D]"), np.asarray(since, dtype="datetime64[D]"))
     return totals[-1] - totals[first]
+
+
+def reached_on(
+    nights: NDArray[np.datetime64], per_night: ArrayLike, since: NDArray[np.datetime64], limit: ArrayLike
+) -> NDArray[np.datetime64]:
+    """The night on which the sum from each ``since`` date first reached its ``limit`` (NaT: not yet).
+
+    Method
+    ------
+    The same cumulative sum as :func:`accumulated_since`; a binary search for the first night whose
+    running total since the start date is at least the limit. Per-night values must not be negative.
+    """
+    values = np.asarray(per_night, dtype=float)
+    if np.any(values < 0):
+        raise ValueError("per-night values cannot be negative")
+    nights = np.asarray(nights, dtype="datetime64[D]")
+    totals = np.concatenate([[0.0], np.cumsum(values)])
+    first = np.searchsorted(nights, np.asarray(since, dtype="datetime64[D]"))
+    index = np.searchsorted(totals, totals[first] + np.asarray(limit, dtype=float), side="left")
+    found = index <= len(nights)
+    out = np.full(len(first), np.datetime64("NaT"), dtype="datetime64[D]")
+    out[found] = nights[np.maximum(index[found] - 1, 0)]
+    return out
