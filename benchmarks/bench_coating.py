@@ -4,7 +4,11 @@ Run from the repository root: ``python -m benchmarks.bench_coating``. Target: 50
 """
 
 import statistics
+import sys
 import time
+from pathlib import Path
+
+sys.path.insert(0, str(Path(__file__).resolve().parent.parent))  # run as a plain script too
 
 from observatory_ops.calc.coating import Layer, coating_curve
 

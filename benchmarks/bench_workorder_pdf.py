@@ -11,8 +11,10 @@ import datetime as dt
 import importlib.util
 import io
 import statistics
+import sys
 import time
 from collections.abc import Callable
+from pathlib import Path
 
 from pypdf import PdfReader
 from reportlab.graphics.barcode.qr import QrCodeWidget
@@ -20,6 +22,8 @@ from reportlab.graphics.shapes import Drawing
 from reportlab.lib.pagesizes import A4
 from reportlab.lib.styles import getSampleStyleSheet
 from reportlab.platypus import PageBreak, Paragraph, SimpleDocTemplate, Table
+
+sys.path.insert(0, str(Path(__file__).resolve().parent.parent))  # run as a plain script too
 
 from observatory_ops.calc.lifting import lift_figures
 from observatory_ops.workorders.cautions import PRECEDENCE_STATEMENT, SEVERITY_LABELS, cautions_for

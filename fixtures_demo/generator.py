@@ -18,8 +18,7 @@ from observatory_ops.calc import exposure, nights
 from observatory_ops.logbook.models import NightUsage, Reading, ServiceRecord
 from observatory_ops.mirrors.models import CleaningEvent, CoatingEvent, Mirror, ReflectanceMeasurement
 from observatory_ops.planning import services as planning
-from observatory_ops.planning.metrics import READING
-from observatory_ops.planning.models import BookedRun, Trigger
+from observatory_ops.planning.models import BookedRun
 from observatory_ops.registry.models import Site, Telescope
 from observatory_ops.registry.services import subsystem_create
 from observatory_ops.workorders.models import IsolationPoint, Part
@@ -95,12 +94,12 @@ def build(today: dt.date | None = None) -> tuple[Site, bool]:
         site = Site.objects.create(
             name="Vestal Ridge Observatory",
             slug=SITE_SLUG,
-            latitude_deg=34.2183,
-            longitude_deg=-107.6412,
-            elevation_m=2230,
+            latitude_deg=39.6072,
+            longitude_deg=-110.3741,
+            elevation_m=2410,
             time_zone="America/Denver",
-            dust_climate="Dusty, windy spring (March to June) from the dry basin to the west; wet summer monsoon "
-            "(July to September).",
+            dust_climate="Dusty, windy spring (March to June) from the bare valley floor below the ridge; wet "
+            "summer monsoon (July to September).",
         )
         today = today or planning.site_today(site)
         start = today - dt.timedelta(days=HISTORY_DAYS)
@@ -120,7 +119,7 @@ def build(today: dt.date | None = None) -> tuple[Site, bool]:
                     parent=subsystems.get((telescope.name, parent)) if parent else None,
                 )
         _usage(site, start, today, rng)
-        _drive_settle_triggers(subsystems, users["technician"], today, rng)
+        _drive_settle_readings(subsystems, users["technician"], today, rng)
         _service_history(site, subsystems, users, today, rng)
         _workshop(site, (t70, r40))
         _mirrors(site, subsystems, users["technician"], today, rng)
@@ -157,12 +156,10 @@ def _usage(site: Site, start: dt.date, today: dt.date, rng: np.random.Generator)
     bulk_create_with_history(rows, NightUsage, batch_size=500)
 
 
-def _drive_settle_triggers(subsystems, technician, today: dt.date, rng: np.random.Generator) -> None:
-    """Axis 1 drives get a condition trigger on settle time, with monthly readings that drift upward."""
+def _drive_settle_readings(subsystems, technician, today: dt.date, rng: np.random.Generator) -> None:
+    """Monthly settle-time step tests on the axis 1 drives, drifting upward toward the 1 s limit."""
     for telescope, drift in (("T70", 0.0022), ("R40", 0.0009)):
         drive = subsystems[(telescope, "Axis 1 drive")]
-        plan = drive.plans.first()
-        Trigger.objects.create(plan=plan, metric=READING, limit=1.0, quantity="settle_time_s")
         for months_ago in range(8, -1, -1):
             day = today - dt.timedelta(days=30 * months_ago + 3)
             value = 0.55 + drift * (240 - 30 * months_ago) + rng.normal(0, 0.02)

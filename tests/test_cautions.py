@@ -26,6 +26,7 @@ REQUIRED_STANDARDS = {
     "height": ("1910.28",),
     "chemical": ("safety data sheet", "GHS"),
     "cryogen": ("CGA P-12",),
+    "vacuum_plant": ("1910.147",),  # lockout of the plant's supplies (OSHA 29 CFR 1910.147)
     "laser": ("ANSI Z136.1", "IEC 60825-1"),
     "optical_surface": ("manufacturer",),
 }

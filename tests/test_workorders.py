@@ -10,7 +10,7 @@ from django.core.management.base import CommandError
 from pypdf import PdfReader
 
 from observatory_ops.logbook.models import ServiceRecord
-from observatory_ops.planning.models import PlanStatus, Trigger
+from observatory_ops.planning.models import PlanStatus
 from observatory_ops.registry.services import subsystem_create
 from observatory_ops.workorders import services
 from observatory_ops.workorders.models import IsolationPoint, Part, State, WorkOrder
@@ -19,7 +19,9 @@ from observatory_ops.workorders.models import IsolationPoint, Part, State, WorkO
 @pytest.fixture
 def drive(telescope):
     drive = subsystem_create(telescope, "axis1_drive", "Axis 1 drive", counting_from=dt.date(2026, 1, 1))
-    Trigger.objects.create(plan=drive.plans.first(), metric="reading", limit=1.0, quantity="settle_time_s")
+    # The catalogue gives axis drives a settle-time condition trigger at 1 s (common practice, no
+    # published source) and asks for following error and motor current on the work order.
+    assert drive.plans.first().triggers.filter(metric="reading", quantity="settle_time_s", limit=1.0).exists()
     IsolationPoint.objects.create(telescope=telescope, energy="ac", label="Mount isolator")
     return drive
 
@@ -27,6 +29,10 @@ def drive(telescope):
 @pytest.fixture
 def order(drive, users):
     return services.work_order_from_due(list(drive.plans.all()), users["engineer"])
+
+
+def _all_readings(order, value: float) -> dict[int, float]:
+    return {r.pk: value for r in order.required_readings.all()}
 
 
 def _state(order):
@@ -37,8 +43,12 @@ def test_from_due_items_the_order_has_steps_cautions_and_a_required_reading(orde
     assert order.order_type == WorkOrder.Type.CONDITION_BASED  # a reading trigger: EN 13306 condition-based
     assert order.step_list[0] == services.LOCKOUT_STEP  # electrical + moving machinery: isolate first
     assert {"electrical", "moving_machinery"} <= set(order.hazards)
-    reading = order.required_readings.get()
-    assert reading.quantity == "settle_time_s" and reading.limit_text == "at most 1"
+    reading = order.required_readings.get(quantity="settle_time_s")
+    assert reading.limit_text == "at most 1"
+    assert set(order.required_readings.values_list("quantity", flat=True)) == {
+        "settle_time_s", "following_error_arcsec", "motor_current_a"
+    }
+    assert "clamp meter" in order.tool_list
 
 
 @pytest.mark.parametrize(
@@ -61,8 +71,7 @@ def test_finishing_needs_the_readings_and_then_writes_records_and_restarts_plans
     with pytest.raises(services.Refused, match="missing: Settle time"):
         services.work_order_finish(order, users["technician"], 2.0, "", {})
     assert _state(order) == State.UNDERWAY and not ServiceRecord.objects.exists()
-    reading = order.required_readings.get()
-    services.work_order_finish(order, users["technician"], 2.0, "ok", {reading.pk: 0.7})
+    services.work_order_finish(order, users["technician"], 2.0, "ok", _all_readings(order, 0.7))
     assert _state(order) == State.FINISHED
     record = ServiceRecord.objects.get(work_order=order)
     assert record.plan == drive.plans.first() and record.hours_spent == 2.0
@@ -79,8 +88,7 @@ def test_parts_used_come_out_of_stock_and_low_stock_shows_on_the_dashboard(order
     services.part_add(order, part, 2)
     services.work_order_move(order, "issue", users["engineer"])
     services.work_order_move(order, "start", users["technician"])
-    reading = order.required_readings.get()
-    services.work_order_finish(order, users["technician"], 1.0, "", {reading.pk: 0.6})
+    services.work_order_finish(order, users["technician"], 1.0, "", _all_readings(order, 0.6))
     part.refresh_from_db()
     assert part.quantity_on_hand == 1 and part.low
     client.force_login(users["viewer"])
@@ -92,9 +100,8 @@ def test_using_more_parts_than_stocked_is_refused_and_nothing_changes(order, use
     use = services.part_add(order, part, 1)
     services.work_order_move(order, "issue", users["engineer"])
     services.work_order_move(order, "start", users["technician"])
-    reading = order.required_readings.get()
     with pytest.raises(services.Refused, match="only 1"):
-        services.work_order_finish(order, users["technician"], 1.0, "", {reading.pk: 0.6}, {use.pk: 3})
+        services.work_order_finish(order, users["technician"], 1.0, "", _all_readings(order, 0.6), {use.pk: 3})
     assert _state(order) == State.UNDERWAY and not ServiceRecord.objects.exists()
     part.refresh_from_db()
     assert part.quantity_on_hand == 1

@@ -46,7 +46,9 @@ def backup_write(path: Path) -> dict[str, int]:
         rows = list(model._default_manager.order_by("pk"))
         counts[model._meta.label_lower] = len(rows)
         objects.extend(rows)
-    body = serializers.serialize("json", objects, use_natural_foreign_keys=False)
+    # Natural keys for references to rows the backup does not hold (permissions, content types): their ids
+    # differ between databases, their names do not.
+    body = serializers.serialize("json", objects, use_natural_foreign_keys=True)
     header = {"format": FORMAT, "created_at": dt.datetime.now(dt.UTC).isoformat(), "counts": counts}
     text = json.dumps(header) + "\n" + body
     data = gzip.compress(text.encode()) if str(path).endswith(".gz") else text.encode()

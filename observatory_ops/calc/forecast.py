@@ -13,7 +13,9 @@ from numpy.typing import ArrayLike, NDArray
 #: :data:`MIN_NIGHTS_FOR_HISTORY` logged nights. A clear-sky fraction of about one half is typical of
 #: small-observatory sites (common practice, no published source).
 PRIOR_OPEN_FRACTION = 0.5
-#: Relative month-to-month spread used when a site has too little history to measure its own.
+#: Relative month-to-month spread used when a site has too little history to measure its own: a
+#: deliberately wide default of our own (a third of a month's usage), replaced by the site's own spread
+#: after six logged months.
 PRIOR_MONTHLY_SPREAD = 0.35
 #: A calendar month needs this many logged nights before its own open fraction replaces the prior.
 MIN_NIGHTS_FOR_HISTORY = 20

@@ -400,5 +400,6 @@ def tube_mass_warning(aperture_m: float, tube_mass_kg: float) -> str | None:
     comparison = f"{ratio:.1f} times" if ratio > 1 else f"1/{1 / ratio:.1f} of"
     return (
         f"Registered tube mass {mass:g} kg is {comparison} the roughly {expected:.0f} kg a {aperture_m:g} m tube "
-        f"usually weighs (rule of thumb); check the mass and the aperture before planning a lift."
+        "usually weighs (rule of thumb: common practice, no published source); check the mass and the aperture "
+        "before planning a lift."
     )

@@ -26,7 +26,8 @@ class Mirror(models.Model):
     cell_mass_kg = models.FloatField(default=0, validators=[MinValueValidator(0)], help_text="Lifted with the mirror.")
     recoat_loss = models.FloatField(
         default=0.08, validators=[MinValueValidator(0.001), MaxValueValidator(0.9)],
-        help_text="Recoat when band reflectance has fallen by this fraction of its fresh value (0.08 = 8 %).",
+        help_text="Recoat when band reflectance has fallen by this fraction of its fresh value (0.08 = 8 %; "
+        "the default is common practice, no published source).",
     )
     band_from_nm = models.FloatField(default=400)
     band_to_nm = models.FloatField(default=1000)

@@ -10,20 +10,22 @@ import math
 from dataclasses import dataclass, field
 
 import numpy as np
+from django.core.exceptions import ValidationError
 from django.db import transaction
 
 from observatory_ops.calc import coating, forecast, reflectance, windows
 from observatory_ops.planning import metrics
 from observatory_ops.planning.models import BookedRun, NightSky
-from observatory_ops.planning.services import UsageLog, site_sky_refresh, site_today, usage_model
+from observatory_ops.planning.services import UsageLog, site_recompute, site_sky_refresh, site_today, usage_model
 from observatory_ops.registry.models import Site
 from observatory_ops.workorders.cautions import HAZARDS
 from observatory_ops.workorders.models import RequiredReading, WorkOrder, WorkOrderItem
 from observatory_ops.workorders.services import steps_with_lockout
 
-from .models import Mirror, RecoatPlan
+from .models import CleaningEvent, CoatingEvent, Mirror, RecoatPlan, ReflectanceMeasurement
 
 #: Weight of a night inside a booked run that is not blocked: it costs this many times more to lose.
+#: A setting of our own, chosen so a booked night outweighs any unbooked one; change it to taste.
 BOOKED_WEIGHT = 5.0
 
 
@@ -191,6 +193,38 @@ def best_windows(first_night: dt.date, cost: np.ndarray, days: int, alternatives
     ]
 
 
+def default_horizon_days(mirror: Mirror, today: dt.date) -> int:
+    """Look no further than the day the mirror is forecast to cross its recoat line (late side)."""
+    crossing = mirror_forecast(mirror, today).crossing_latest
+    return max(min((crossing - today).days, 3 * 366), 30) if crossing else 365
+
+
+def recoat_windows(mirror: Mirror, start: dt.date, horizon_days: int, phases: list[windows.Phase]) -> dict:
+    """The cheapest windows for a recoat of these phases, and each coming night's cost for the calendar.
+
+    The calendar's ``shade`` is the night's cost relative to the costliest night in the horizon (0..1);
+    ``chosen`` marks the nights of the cheapest window.
+    """
+    days = windows.total_days(phases)
+    costs = night_costs(mirror.subsystem.telescope.site, start, horizon_days)
+    found = best_windows(costs[0].night, np.array([c.cost for c in costs]), days)
+    chosen = {found[0]["start"] + dt.timedelta(days=i) for i in range(days)} if found else set()
+    worst = max((c.cost for c in costs if np.isfinite(c.cost)), default=1.0) or 1.0
+    calendar = [
+        {"night": c.night, "cost": c.cost, "moon": c.moon_illumination, "booked": c.booked,
+         "shade": min(c.cost / worst, 1.0) if np.isfinite(c.cost) else 1.0,
+         "blocked": not np.isfinite(c.cost), "chosen": c.night in chosen}
+        for c in costs
+    ]
+    lead = (calendar[0]["night"].weekday()) if calendar else 0  # Monday-first weeks
+    booked = sorted({(c.booked, c.night) for c in costs if c.booked})
+    runs = {}
+    for title, night in booked:
+        runs.setdefault(title, [night, night])[1] = night
+    return {"windows": found, "days": days, "calendar": calendar, "lead_blanks": range(lead),
+            "booked_runs": [(title, span[0], span[1]) for title, span in runs.items()]}
+
+
 # --- recoat plans -----------------------------------------------------------------------------------
 
 #: What each phase of a recoat asks of the work order made for it: (hazards, steps).
@@ -232,7 +266,7 @@ def _phase_kind(name: str) -> str | None:
 def recoat_plan_create(
     mirror: Mirror, starts_on: dt.date, phases: list[windows.Phase], cost: float, by
 ) -> RecoatPlan:
-    """Turn a chosen window into a recoat plan and one draft work order per hands-on phase.
+    """Turn a chosen window into a recoat plan and one draft work order per hands-on phase; recompute.
 
     The realignment order asks for a band reflectance reading of the new coating, and it carries the
     mirror's recoat service plan (if any), so finishing it restarts that plan's counting.
@@ -269,9 +303,52 @@ def recoat_plan_create(
                     )
                 plan.work_orders.add(order)
             day += dt.timedelta(days=phase.days)
+        site_recompute(subsystem.telescope.site)
     return plan
 
 
 def _coating_band_now(mirror: Mirror) -> float:
     last = mirror.coatings.order_by("-coated_on").first()
     return _coating_band(mirror, last.metal, last.layers) if last else 0.0
+
+
+# --- mirror events ------------------------------------------------------------------------------------
+
+
+def _check_date(mirror: Mirror, day: dt.date) -> None:
+    today = site_today(mirror.subsystem.telescope.site)
+    if day > today:
+        raise ValidationError(f"the date cannot be after today ({today})")
+
+
+def measurement_log(mirror: Mirror, by, measured_on: dt.date, value: float, **fields) -> ReflectanceMeasurement:
+    """Append a band reflectance measurement and refresh the site's due states (the recoat line moves)."""
+    _check_date(mirror, measured_on)
+    if not 0 <= value <= 1:
+        raise ValidationError("a reflectance is a fraction between 0 and 1")
+    with transaction.atomic():
+        measurement = ReflectanceMeasurement.objects.create(
+            mirror=mirror, measured_on=measured_on, value=value, taken_by=by, **fields
+        )
+        site_recompute(mirror.subsystem.telescope.site)
+    return measurement
+
+
+def cleaning_log(mirror: Mirror, by, cleaned_on: dt.date, method: str, note: str = "") -> CleaningEvent:
+    _check_date(mirror, cleaned_on)
+    with transaction.atomic():
+        cleaning = CleaningEvent.objects.create(mirror=mirror, cleaned_on=cleaned_on, method=method, note=note)
+        site_recompute(mirror.subsystem.telescope.site)
+    return cleaning
+
+
+def coating_log(mirror: Mirror, by, coated_on: dt.date, metal: str, layers: list[dict], note: str = "") -> CoatingEvent:
+    """A new coating: the decline starts again from it, and the mirror's recoat plan restarts its counting."""
+    from observatory_ops.logbook.services import service_record_log  # logbook writes recompute the site
+
+    _check_date(mirror, coated_on)
+    with transaction.atomic():
+        event = CoatingEvent.objects.create(mirror=mirror, coated_on=coated_on, metal=metal, layers=layers, note=note)
+        recoat = mirror.subsystem.plans.filter(active=True, name__icontains="recoat").first()
+        service_record_log(mirror.subsystem, recoat, coated_on, by, f"New coating: {event.recipe}"[:200])
+    return event

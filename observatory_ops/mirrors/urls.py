@@ -8,6 +8,7 @@ urlpatterns = [
     path("mirrors/<int:pk>/cleanings/new/", views.cleaning_log, name="mirror-cleaning"),
     path("mirrors/<int:pk>/coatings/new/", views.coating_log, name="mirror-coating"),
     path("mirrors/<int:pk>/recoat/", views.recoat_planner, name="mirror-recoat"),
+    path("mirrors/<int:pk>/recoat/plan/", views.recoat_plan_create, name="mirror-recoat-plan"),
     path("coating/", views.coating_calculator, name="coating-calculator"),
     path("sites/<slug:slug>/downtime.ics", views.downtime_calendar, name="downtime-ics"),
 ]

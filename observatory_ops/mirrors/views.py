@@ -1,22 +1,21 @@
-import datetime as dt
 
-import numpy as np
 from django.contrib import messages
+from django.core.exceptions import ValidationError
 from django.db.models import Prefetch
-from django.http import HttpResponse
+from django.http import HttpResponse, HttpResponseNotAllowed
 from django.shortcuts import get_object_or_404, redirect, render
 
 from observatory_ops.access.decorators import requires
-from observatory_ops.access.roles import ENGINEER, TECHNICIAN, VIEWER, has_role
+from observatory_ops.access.roles import ENGINEER, TECHNICIAN, VIEWER
 from observatory_ops.archive.history import changes
-from observatory_ops.calc import coating, windows
-from observatory_ops.planning.services import site_recompute, site_today
+from observatory_ops.calc import coating
+from observatory_ops.planning.services import site_today
 from observatory_ops.registry.models import Site
 from observatory_ops.workorders.models import WorkOrder
 
 from . import calendar_export, plots, response_csv, services
 from .forms import CalculatorForm, CleaningForm, CoatingForm, MeasurementForm, WindowForm
-from .models import CleaningEvent, CoatingEvent, Mirror, ReflectanceMeasurement
+from .models import Mirror
 
 
 def _mirror(pk) -> Mirror:
@@ -49,16 +48,18 @@ def mirror_detail(request, pk):
     )
 
 
-def _log_event(request, pk, form_class, date_field: str, what: str, create, done: str, **initial):
-    """One form page for a dated mirror event (measurement, cleaning, coating); the date may not be ahead."""
+def _log_event(request, pk, form_class, date_field: str, what: str, write, done: str, **initial):
+    """One form page for a dated mirror event (measurement, cleaning, coating), written by a service."""
     mirror = _mirror(pk)
-    today = site_today(mirror.subsystem.telescope.site)
-    form = form_class(request.POST or None, initial={date_field: today, **initial})
+    form = form_class(request.POST or None, initial={date_field: site_today(mirror.subsystem.telescope.site),
+                                                     **initial})
     if request.method == "POST" and form.is_valid():
-        if form.cleaned_data[date_field] > today:
-            form.add_error(date_field, f"The date cannot be after today ({today}).")
+        try:
+            write(mirror, request.user, **form.cleaned_data)
+        except ValidationError as exc:
+            for message in exc.messages:
+                form.add_error(None, message)
         else:
-            create(mirror, form.cleaned_data)
             messages.success(request, done)
             return redirect(mirror)
     return render(request, "mirrors/form.html", {"form": form, "mirror": mirror, "what": what})
@@ -66,77 +67,71 @@ def _log_event(request, pk, form_class, date_field: str, what: str, create, done
 
 @requires(TECHNICIAN)
 def measurement_log(request, pk):
-    return _log_event(
-        request, pk, MeasurementForm, "measured_on", "a reflectance measurement",
-        lambda mirror, d: ReflectanceMeasurement.objects.create(mirror=mirror, taken_by=request.user, **d),
-        "Measurement logged; the decline fit is updated.",
-    )
+    return _log_event(request, pk, MeasurementForm, "measured_on", "a reflectance measurement",
+                      services.measurement_log, "Measurement logged; the decline fit is updated.")
 
 
 @requires(TECHNICIAN)
 def cleaning_log(request, pk):
-    return _log_event(
-        request, pk, CleaningForm, "cleaned_on", "a cleaning",
-        lambda mirror, d: CleaningEvent.objects.create(mirror=mirror, **d), "Cleaning logged.",
-    )
+    return _log_event(request, pk, CleaningForm, "cleaned_on", "a cleaning", services.cleaning_log,
+                      "Cleaning logged.")
 
 
 @requires(TECHNICIAN)
 def coating_log(request, pk):
-    return _log_event(
-        request, pk, CoatingForm, "coated_on", "a new coating",
-        lambda mirror, d: CoatingEvent.objects.create(mirror=mirror, **d),
-        "New coating logged; the decline is now counted from it.", metal="al",
-    )
+    return _log_event(request, pk, CoatingForm, "coated_on", "a new coating", services.coating_log,
+                      "New coating logged; the decline and the recoat plan start again from it.", metal="al")
+
+
+def _window_form(request, mirror: Mirror, data) -> WindowForm:
+    today = site_today(mirror.subsystem.telescope.site)
+    horizon = services.default_horizon_days(mirror, today) if data is None else 365
+    return WindowForm(data, initial={"start": today, "horizon_days": horizon})
 
 
 @requires(VIEWER)
 def recoat_planner(request, pk):
     """Coming nights shaded by moon and cost, the cheapest windows for the recoat, and the plan button."""
     mirror = _mirror(pk)
-    site = mirror.subsystem.telescope.site
-    today = site_today(site)
-    data = request.POST if request.method == "POST" else (request.GET or None)
-    # By default look no further than the day the mirror is forecast to cross its recoat line (late side).
-    crossing = services.mirror_forecast(mirror, today).crossing_latest if data is None else None
-    horizon = max(min((crossing - today).days, 3 * 366), 30) if crossing else 365
-    form = WindowForm(data, initial={"start": today, "horizon_days": horizon})
-    context = {"mirror": mirror, "site": site, "form": form, "phases": windows.RECOAT_PHASES}
+    form = _window_form(request, mirror, request.GET or None)
+    context = {"mirror": mirror, "site": mirror.subsystem.telescope.site, "form": form}
     if form.is_bound and form.is_valid():
-        phases = form.phases()
         try:
-            days = windows.total_days(phases)
-            costs = services.night_costs(site, form.cleaned_data["start"], form.cleaned_data["horizon_days"])
-            found = services.best_windows(costs[0].night, np.array([c.cost for c in costs]), days)
+            context.update(services.recoat_windows(mirror, form.cleaned_data["start"],
+                                                   form.cleaned_data["horizon_days"], form.phases()))
         except ValueError as exc:
             form.add_error(None, str(exc))
-        else:
-            if request.method == "POST":
-                if not has_role(request.user, ENGINEER):
-                    return render(request, "access/forbidden.html", {"needed": ENGINEER}, status=403)
-                chosen = next((w for w in found if w["start"].isoformat() == request.POST.get("window")), None)
-                if chosen is None:
-                    messages.error(request, "Choose one of the windows listed.")
-                else:
-                    plan = services.recoat_plan_create(mirror, chosen["start"], phases, chosen["cost"], request.user)
-                    site_recompute(site)
-                    messages.success(
-                        request, f"Recoat planned {plan.starts_on} to {plan.ends_on}: "
-                        f"{plan.work_orders.count()} draft work orders made."
-                    )
-                    return redirect(mirror)
-            chosen_days = {w["start"] + dt.timedelta(days=i) for w in found[:1] for i in range(days)}
-            worst = max((c.cost for c in costs if np.isfinite(c.cost)), default=1.0) or 1.0
-            context.update(
-                windows=found, days=days,
-                calendar=[
-                    {"night": c.night, "cost": c.cost, "moon": c.moon_illumination, "booked": c.booked,
-                     "shade": min(c.cost / worst, 1.0) if np.isfinite(c.cost) else 1.0,
-                     "blocked": not np.isfinite(c.cost), "chosen": c.night in chosen_days}
-                    for c in costs
-                ],
-            )
     return render(request, "mirrors/recoat.html", context)
+
+
+@requires(ENGINEER)
+def recoat_plan_create(request, pk):
+    """Turn the window chosen on the planner into a recoat plan and its draft work orders."""
+    if request.method != "POST":
+        return HttpResponseNotAllowed(["POST"])
+    mirror = _mirror(pk)
+    form = _window_form(request, mirror, request.POST)
+    if not form.is_valid():
+        messages.error(request, "The window settings changed or are not valid; find the windows again.")
+        return redirect("mirror-recoat", pk=mirror.pk)
+    phases = form.phases()
+    try:
+        found = services.recoat_windows(
+            mirror, form.cleaned_data["start"], form.cleaned_data["horizon_days"], phases
+        )["windows"]
+    except ValueError as exc:
+        messages.error(request, f"No plan made: {exc}.")
+        return redirect("mirror-recoat", pk=mirror.pk)
+    chosen = next((w for w in found if w["start"].isoformat() == request.POST.get("window")), None)
+    if chosen is None:
+        messages.error(request, "Choose one of the windows listed.")
+        return redirect("mirror-recoat", pk=mirror.pk)
+    plan = services.recoat_plan_create(mirror, chosen["start"], phases, chosen["cost"], request.user)
+    messages.success(
+        request, f"Recoat planned {plan.starts_on:%d %b %Y} to {plan.ends_on:%d %b %Y}: "
+        f"{plan.work_orders.count()} draft work orders made."
+    )
+    return redirect(mirror)
 
 
 @requires(VIEWER)

@@ -19,6 +19,11 @@ class ServicePlan(models.Model):
     name = models.CharField(max_length=160)
     task = models.TextField(blank=True)
     steps = models.TextField(blank=True, help_text="One step per line.")
+    tools = models.TextField(blank=True, help_text="One tool per line.")
+    parts = models.TextField(blank=True, help_text="Spare parts used, one name per line (as in the site's stock).")
+    readings = models.JSONField(
+        default=list, blank=True, help_text='Readings to record: [{"quantity": "brake_pressure_bar", "limit": "..."}]'
+    )
     hazards = models.JSONField(default=list, blank=True, help_text="Hazards of the task beyond the subsystem's.")
     estimated_hours = models.FloatField(default=1.0, validators=[MinValueValidator(0)])
     dust_sensitivity = models.FloatField(

@@ -106,6 +106,19 @@ def plans_with_plots(subsystem: Subsystem) -> list[ServicePlan]:
         rising = True
         if status.metric == metrics.CALENDAR_DAYS:
             points = [(baseline, 0.0), (today, status.value)]
+        elif status.metric == metrics.RECOAT_LINE:
+            rising = False
+            mirror = getattr(subsystem, "mirror", None)
+            coating = mirror.coatings.order_by("-coated_on").first() if mirror else None
+            points = (
+                list(
+                    mirror.measurements.filter(measured_on__gte=coating.coated_on, wavelength_nm__isnull=True)
+                    .order_by("measured_on")
+                    .values_list("measured_on", "value")
+                )
+                if coating
+                else []
+            )
         elif status.metric == metrics.READING:
             trigger = next(t for t in plan.triggers.all() if t.metric == metrics.READING)
             rising = trigger.direction == Trigger.Direction.ABOVE

@@ -10,7 +10,7 @@ import datetime as dt
 from dataclasses import dataclass
 
 import numpy as np
-from django.db import connection, transaction
+from django.db import transaction
 from django.db.models import Max
 from django.utils import timezone
 from simple_history.utils import bulk_create_with_history
@@ -45,13 +45,19 @@ def plans_from_catalogue(subsystem: Subsystem, counting_from: dt.date) -> list[S
             name=template.name,
             task=template.task,
             steps="\n".join(template.steps),
+            tools="\n".join(template.tools),
+            parts="\n".join(template.parts),
+            readings=[{"quantity": q, "limit": limit} for q, limit in template.readings],
             hazards=list(template.hazards),
             estimated_hours=template.estimated_hours,
             dust_sensitivity=template.dust_sensitivity,
             counting_from=counting_from,
             basis=template.basis,
         )
-        bulk_create_with_history([Trigger(plan=plan, metric=m, limit=limit) for m, limit in template.triggers], Trigger)
+        triggers = [
+            Trigger(plan=plan, metric=t[0], limit=t[1], quantity=t[2] if len(t) > 2 else "") for t in template.triggers
+        ]
+        bulk_create_with_history(triggers, Trigger)
         created.append(plan)
     return created
 
@@ -127,9 +133,10 @@ class UsageLog:
         fields = list(metrics.USAGE_FIELDS.values())
         rows = list(NightUsage.objects.filter(site=site).order_by("night").values_list("night", *fields, "pm10_ugm3"))
         nights_ = np.array([r[0] for r in rows], dtype="datetime64[D]")
-        columns = {f: np.array([r[1 + i] for r in rows], dtype=float) for i, f in enumerate(fields)}
-        pm10 = np.array([np.nan if r[-1] is None else r[-1] for r in rows], dtype=float)
-        return cls(nights_, columns, pm10)
+        # One conversion for every figure column; numpy turns a missing PM10 (None) into NaN.
+        figures = np.array([r[1:] for r in rows], dtype=float).reshape(len(rows), len(fields) + 1)
+        columns = {f: figures[:, i] for i, f in enumerate(fields)}
+        return cls(nights_, columns, figures[:, -1])
 
     def per_night(self, metric: str, dust_sensitivity: float) -> np.ndarray:
         """The quantity a usage metric counts, for each logged night."""
@@ -173,19 +180,22 @@ class UsageModel:
         return f"dark hours of each coming night x {source}; band from month-to-month spread {self.spread:.0%}"
 
 
+def _dark_hours(site: Site, start: dt.date, end: dt.date) -> dict[dt.date, float]:
+    nights_ = NightSky.objects.filter(site=site, night__gte=start, night__lte=end).order_by()  # a dict: no sort
+    return dict(nights_.values_list("night", "dark_hours"))
+
+
 def usage_model(site: Site, log: UsageLog, first_day: dt.date, days: int) -> UsageModel:
     """Expected usage per night from ``first_day`` on, from the site's history and its sky."""
     end = first_day + dt.timedelta(days=days - 1)
-    history_start = _as_date(log.nights[0]) if len(log.nights) else first_day
-    site_sky_refresh(site, min(history_start, first_day), end)
-    sky = dict(
-        NightSky.objects.filter(site=site, night__gte=min(history_start, first_day), night__lte=end).values_list(
-            "night", "dark_hours"
-        )
-    )
-    past_nights = [_as_date(n) for n in log.nights]
+    start = min(_as_date(log.nights[0]), first_day) if len(log.nights) else first_day
+    sky = _dark_hours(site, start, end)
+    if len(sky) < (end - start).days + 1:  # the cache lacks nights: fill them, then read again
+        site_sky_refresh(site, start, end)
+        sky = _dark_hours(site, start, end)
+    past_nights = log.nights.astype(object)  # datetime.date of each logged night
     past_dark = np.array([sky.get(n, 0.0) for n in past_nights], dtype=float)
-    past_months = np.array([n.month for n in past_nights], dtype=int)
+    past_months = log.nights.astype("datetime64[M]").astype(int) % 12 + 1
     open_h = log.columns["open_hours"]
     fraction, from_history = forecast.monthly_open_fraction(past_months, open_h, past_dark)
 
@@ -212,7 +222,7 @@ def usage_model(site: Site, log: UsageLog, first_day: dt.date, days: int) -> Usa
             month_pm10 = np.where(weights > 0, sums / weights, sums.sum() / weights.sum())
 
     # Month-to-month spread: each past (year, month)'s open hours against dark hours x that month's fraction.
-    keys = np.array([n.year * 12 + n.month - 1 for n in past_nights], dtype=int)
+    keys = log.nights.astype("datetime64[M]").astype(int)  # months since 1970-01: one per (year, month)
     spread = forecast.PRIOR_MONTHLY_SPREAD
     if len(keys):
         _, index = np.unique(keys, return_inverse=True)
@@ -266,12 +276,16 @@ def site_recompute(site: Site, today: dt.date | None = None) -> int:
 def _site_recompute(site: Site, today: dt.date | None) -> int:
     today = today or site_today(site)
     plans = list(
-        ServicePlan.objects.filter(
-            subsystem__telescope__site=site, active=True, subsystem__retired_on__isnull=True
-        ).select_related("subsystem__mirror")
+        ServicePlan.objects.filter(subsystem__telescope__site=site, active=True, subsystem__retired_on__isnull=True)
     )
-    triggers_of: dict[int, list[Trigger]] = {}
-    for trig in Trigger.objects.filter(plan__subsystem__telescope__site=site).order_by("pk"):
+    mirrors = _mirrors_by_subsystem(site)
+    # Rows, not model instances: a site has hundreds of triggers and only these five fields are read.
+    triggers_of: dict[int, list] = {}
+    for trig in (
+        Trigger.objects.filter(plan__subsystem__telescope__site=site)
+        .order_by("pk")
+        .values_list("plan_id", "metric", "limit", "quantity", "direction", named=True)
+    ):
         triggers_of.setdefault(trig.plan_id, []).append(trig)
     log = UsageLog.for_site(site)
     last_logged = _as_date(log.nights[-1]) if len(log.nights) else None
@@ -282,13 +296,13 @@ def _site_recompute(site: Site, today: dt.date | None) -> int:
     readings = _readings_by_subsystem_quantity(site, plans, triggers_of, baselines)
 
     states: dict[int, list[TriggerState]] = {p.pk: [] for p in plans}
-    groups: dict[tuple[str, float], list[tuple[ServicePlan, Trigger]]] = {}
+    groups: dict[tuple[str, float], list[tuple[ServicePlan, tuple]]] = {}
     for plan in plans:
         for trig in triggers_of.get(plan.pk, []):
             if trig.metric == metrics.CALENDAR_DAYS:
                 states[plan.pk].append(_calendar_state(trig, baselines[plan.pk], today))
             elif trig.metric == metrics.RECOAT_LINE:
-                state = _recoat_line_state(plan.subsystem, today)
+                state = _recoat_line_state(mirrors.get(plan.subsystem_id), today)
                 if state:
                     states[plan.pk].append(state)
             elif trig.metric == metrics.READING:
@@ -301,21 +315,28 @@ def _site_recompute(site: Site, today: dt.date | None) -> int:
 
     for (metric, sens), members in groups.items():
         since = np.array([baselines[p.pk] for p, _ in members], dtype="datetime64[D]")
-        values = exposure.accumulated_since(log.nights, log.per_night(metric, sens), since)
+        per_night = log.per_night(metric, sens)
+        values = exposure.accumulated_since(log.nights, per_night, since)
         limits = np.array([t.limit for _, t in members], dtype=float)
+        reached = exposure.reached_on(log.nights, per_night, since, limits)  # the night a limit was passed
         expected = model.expected(metric, sens)
         central, early, late = forecast.days_reached(limits - values, expected, model.spread)
         rate = float(expected[:30].mean()) if len(expected) else 0.0
         for i, (plan, trig) in enumerate(members):
+            if values[i] >= limits[i]:
+                on = _as_date(reached[i])
+                dates = (on, on, on)
+            else:
+                dates = tuple(_clamp(_offset_date(first_day, d[i]), today) for d in (central, early, late))
             states[plan.pk].append(
                 TriggerState(
                     metric=metric,
                     value=float(values[i]),
                     limit=trig.limit,
                     rate_per_day=rate,
-                    forecast=_clamp(_offset_date(first_day, central[i]), today),
-                    earliest=_clamp(_offset_date(first_day, early[i]), today),
-                    latest=_clamp(_offset_date(first_day, late[i]), today),
+                    forecast=dates[0],
+                    earliest=dates[1],
+                    latest=dates[2],
                     basis=model.basis,
                     unit=metrics.METRICS[metric][1],
                 )
@@ -355,22 +376,30 @@ def _site_recompute(site: Site, today: dt.date | None) -> int:
 
 
 def _insert_all(model, objects: list) -> None:
-    """Insert rows in one ``executemany`` statement: one round of SQL however many plans a site has.
+    """Insert rows in one statement: one round of SQL however many plans a site has.
 
     ``bulk_create`` would split the rows into batches bounded by the database's parameter limit (55 rows
-    a statement on SQLite for PlanStatus), making the query count grow with the number of plans.
+    a statement on SQLite for PlanStatus), making the query count grow with the number of plans. On
+    PostgreSQL the rows go in one ``COPY``; elsewhere in one ``executemany``. (psycopg's ``executemany``
+    under Django's client-side binding composes and sends one statement per row in Python, which took
+    about a third of a recompute on PostgreSQL: see benchmarks/bench_network.py.)
     """
     if not objects:
         return
     fields = model._meta.concrete_fields
-    columns = ", ".join(connection.ops.quote_name(f.column) for f in fields)
-    marks = ", ".join(["%s"] * len(fields))
+    db = transaction.get_connection()  # itself, not the ``connection`` proxy: a thread-local lookup per use
+    columns = ", ".join(db.ops.quote_name(f.column) for f in fields)
     # Table and column names come from the model and are quoted; every value is a bound parameter.
-    table = connection.ops.quote_name(model._meta.db_table)
-    sql = f"INSERT INTO {table} ({columns}) VALUES ({marks})"  # noqa: S608  # nosec B608
-    rows = [[f.get_db_prep_save(f.pre_save(obj, add=True), connection) for f in fields] for obj in objects]
-    with connection.cursor() as cursor:
-        cursor.executemany(sql, rows)
+    table = db.ops.quote_name(model._meta.db_table)
+    rows = [[f.get_db_prep_save(f.pre_save(obj, add=True), db) for f in fields] for obj in objects]
+    with db.cursor() as cursor:
+        if db.vendor == "postgresql":
+            with cursor.copy(f"COPY {table} ({columns}) FROM STDIN") as copy:
+                for row in rows:
+                    copy.write_row(row)
+        else:
+            marks = ", ".join(["%s"] * len(fields))
+            cursor.executemany(f"INSERT INTO {table} ({columns}) VALUES ({marks})", rows)  # noqa: S608  # nosec B608
 
 
 def _clamp(day: dt.date | None, today: dt.date) -> dt.date | None:
@@ -378,7 +407,7 @@ def _clamp(day: dt.date | None, today: dt.date) -> dt.date | None:
     return None if day is None else max(day, today)
 
 
-def _calendar_state(trig: Trigger, baseline: dt.date, today: dt.date) -> TriggerState:
+def _calendar_state(trig, baseline: dt.date, today: dt.date) -> TriggerState:
     due = baseline + dt.timedelta(days=int(round(trig.limit)))
     return TriggerState(
         metric=metrics.CALENDAR_DAYS,
@@ -416,11 +445,20 @@ def _readings_by_subsystem_quantity(
     return {k: v[-TREND_READINGS:] for k, v in out.items()}
 
 
-def _recoat_line_state(subsystem: Subsystem, today: dt.date) -> TriggerState | None:
+def _mirrors_by_subsystem(site: Site) -> dict:
+    """The site's mirrors by subsystem id, each with its subsystem, telescope and site (read by the forecast)."""
+    from observatory_ops.mirrors.models import Mirror  # mirrors builds on planning
+
+    return {
+        m.subsystem_id: m
+        for m in Mirror.objects.filter(subsystem__telescope__site=site).select_related("subsystem__telescope__site")
+    }
+
+
+def _recoat_line_state(mirror, today: dt.date) -> TriggerState | None:
     """A mirror's fitted reflectance decline reaching its recoat line (see mirrors.services)."""
     from observatory_ops.mirrors.services import mirror_forecast  # mirrors builds on planning
 
-    mirror = getattr(subsystem, "mirror", None)
     if mirror is None:
         return None
     state = mirror_forecast(mirror, today)
@@ -439,7 +477,7 @@ def _recoat_line_state(subsystem: Subsystem, today: dt.date) -> TriggerState | N
     )
 
 
-def _reading_state(trig: Trigger, readings, today: dt.date) -> TriggerState | None:
+def _reading_state(trig, readings, today: dt.date) -> TriggerState | None:
     """A condition trigger: latest reading against the limit, with the Theil-Sen trend's crossing date."""
     if not readings:
         return None
@@ -470,7 +508,7 @@ def _reading_state(trig: Trigger, readings, today: dt.date) -> TriggerState | No
         forecast=day(fit.crossing_day) if fit else None,
         earliest=day(fit.earliest_day) if fit else None,
         latest=day(fit.latest_day) if fit else None,
-        basis=f"{label} {trig.get_direction_display()} {trig.limit:g} {unit}; " + basis,
+        basis=f"{label} {Trigger.Direction(trig.direction).label} {trig.limit:g} {unit}; " + basis,
         rising=rising,
         unit=unit,
     )
@@ -489,7 +527,7 @@ def reason_text(state: TriggerState) -> str:
         if state.rate_per_day is not None and state.metric != metrics.CALENDAR_DAYS:
             head += f", about {state.rate_per_day:,.1f} {unit} per day expected over the next month"
     if state.reached:
-        return f"{head}; limit reached."
+        return f"{head}; limit reached{f' on {state.forecast:%d %b %Y}' if state.forecast else ''}."
     if state.forecast is None:
         return f"{head}; not reached within {HORIZON_DAYS // 366} years at the expected rate."
     when = f"; forecast {state.forecast:%d %b %Y}"

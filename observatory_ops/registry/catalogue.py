@@ -12,6 +12,8 @@ from __future__ import annotations
 
 from dataclasses import dataclass, field
 
+from observatory_ops.calc.trend import SERVO_LOOP_HZ, SETTLE_TIME_LIMIT_S
+
 COMMON_PRACTICE = "common practice, no published source"
 FROM_MEMORY = "from memory"
 
@@ -20,12 +22,15 @@ FROM_MEMORY = "from memory"
 class PlanTemplate:
     name: str
     task: str
-    triggers: tuple[tuple[str, float], ...]  # (metric, limit)
+    triggers: tuple[tuple, ...]  # (metric, limit), or (metric, limit, quantity) for a reading trigger
     basis: str
     dust_sensitivity: float = 0.0
     hazards: tuple[str, ...] = ()  # extra hazards of the task itself (beyond the subsystem's)
     steps: tuple[str, ...] = ()
     estimated_hours: float = 1.0
+    tools: tuple[str, ...] = ()
+    parts: tuple[str, ...] = ()  # spare-part names; matched to the site's stock by name on a work order
+    readings: tuple[tuple[str, str], ...] = ()  # (quantity, limit as text) to record on the work order
 
 
 @dataclass(frozen=True)
@@ -57,7 +62,10 @@ KINDS: dict[str, Kind] = {
                     (("dust_hours", 400.0), ("calendar_days", 120.0)),
                     COMMON_PRACTICE,
                     dust_sensitivity=1.0,
-                    hazards=("cryogen", "height"),
+                    hazards=("cryogen", "height", "moving_machinery"),
+                    tools=("CO2 snow gun with dry-gas purge", "reflectometer", "head torch"),
+                    parts=("CO2 cylinder for snow cleaning",),
+                    readings=(("reflectance", "record before and after; compare with the mirror page"),),
                     steps=(
                         "Close the dome and park the telescope pointing at the horizon stop.",
                         "Open the mirror cover; let the mirror reach ambient temperature to avoid condensation.",
@@ -73,7 +81,7 @@ KINDS: dict[str, Kind] = {
                     "years).",
                     (("recoat_line", 1.0), ("calendar_days", 730.0)),
                     COMMON_PRACTICE,
-                    hazards=("suspended_load", "chemical"),
+                    hazards=("suspended_load", "chemical", "vacuum_plant", "moving_machinery"),
                     estimated_hours=40.0,
                 ),
             ),
@@ -89,7 +97,8 @@ KINDS: dict[str, Kind] = {
                     (("dust_hours", 800.0), ("calendar_days", 180.0)),
                     COMMON_PRACTICE,
                     dust_sensitivity=1.0,
-                    hazards=("cryogen",),
+                    hazards=("cryogen", "moving_machinery"),
+                    tools=("CO2 snow gun with dry-gas purge",),
                     estimated_hours=2.0,
                 ),
             ),
@@ -118,6 +127,7 @@ KINDS: dict[str, Kind] = {
                     "Check axial and lateral support pads, clip clearances and the cell's fixing bolts.",
                     (("calendar_days", 365.0),),
                     COMMON_PRACTICE,
+                    hazards=("moving_machinery",),
                     steps=_INSPECT_STEPS,
                     estimated_hours=2.0,
                 ),
@@ -131,9 +141,16 @@ KINDS: dict[str, Kind] = {
                 PlanTemplate(
                     "Inspect axis 1 drive and check tracking",
                     "Inspect motor, couplings and mounting; check following error, settle time and motor current.",
-                    (("calendar_days", 180.0), ("axis1_travel_deg", 250000.0)),
-                    FROM_MEMORY,
+                    # Settle time: a well-tuned direct-drive mount settles within about 1 s after a slew.
+                    (
+                        ("calendar_days", 180.0),
+                        ("axis1_travel_deg", 250000.0),
+                        ("reading", SETTLE_TIME_LIMIT_S, "settle_time_s"),
+                    ),
+                    FROM_MEMORY + "; settle-time limit " + COMMON_PRACTICE,
                     steps=_INSPECT_STEPS,
+                    tools=("laptop with the mount's tuning software", "clamp meter"),
+                    readings=(("following_error_arcsec", "as the mount's acceptance test"), ("motor_current_a", "")),
                     estimated_hours=2.0,
                 ),
             ),
@@ -146,9 +163,16 @@ KINDS: dict[str, Kind] = {
                 PlanTemplate(
                     "Inspect axis 2 drive and check tracking",
                     "Inspect motor, couplings and mounting; check following error, settle time and motor current.",
-                    (("calendar_days", 180.0), ("axis2_travel_deg", 150000.0)),
-                    FROM_MEMORY,
+                    # Settle time: a well-tuned direct-drive mount settles within about 1 s after a slew.
+                    (
+                        ("calendar_days", 180.0),
+                        ("axis2_travel_deg", 150000.0),
+                        ("reading", SETTLE_TIME_LIMIT_S, "settle_time_s"),
+                    ),
+                    FROM_MEMORY + "; settle-time limit " + COMMON_PRACTICE,
                     steps=_INSPECT_STEPS,
+                    tools=("laptop with the mount's tuning software", "clamp meter"),
+                    readings=(("following_error_arcsec", "as the mount's acceptance test"), ("motor_current_a", "")),
                     estimated_hours=2.0,
                 ),
             ),
@@ -196,6 +220,9 @@ KINDS: dict[str, Kind] = {
                     (("calendar_days", 180.0), ("brake_cycles", 5000.0)),
                     FROM_MEMORY,
                     steps=_INSPECT_STEPS,
+                    tools=("pressure gauge with quick coupling", "feeler gauges"),
+                    parts=("Brake pad set",),
+                    readings=(("brake_pressure_bar", "within the maker's range"), ("brake_release_s", "")),
                 ),
             ),
         ),
@@ -240,6 +267,7 @@ KINDS: dict[str, Kind] = {
                     dust_sensitivity=1.5,
                     steps=_INSPECT_STEPS,
                     estimated_hours=0.5,
+                    parts=("Fan intake filter 120 mm",),
                 ),
                 PlanTemplate(
                     "Check fan bearings and current",
@@ -275,7 +303,8 @@ KINDS: dict[str, Kind] = {
                     "Check fastener torque marks on trusses and spider, then check collimation.",
                     (("calendar_days", 365.0),),
                     COMMON_PRACTICE,
-                    hazards=("laser",),
+                    hazards=("laser", "moving_machinery"),
+                    tools=("torque wrench", "alignment laser or autocollimator"),
                     steps=_INSPECT_STEPS,
                     estimated_hours=3.0,
                 ),
@@ -331,7 +360,9 @@ KINDS: dict[str, Kind] = {
             (
                 PlanTemplate(
                     "Check servo drive fault log and tuning",
-                    "Read the fault log, check the drive's cooling, and step-test the loop (settle time).",
+                    "Read the fault log, check the drive's cooling, and step-test the loop: a direct-drive mount's "
+                    f"loop closes at about {SERVO_LOOP_HZ / 1000:g} kHz and settles within about "
+                    f"{SETTLE_TIME_LIMIT_S:g} s ({COMMON_PRACTICE}).",
                     (("calendar_days", 180.0), ("slews", 30000.0)),
                     FROM_MEMORY,
                     steps=_INSPECT_STEPS,

@@ -9,6 +9,7 @@ from observatory_ops.logbook.models import NightUsage
 from observatory_ops.planning import selectors as planning_selectors
 from observatory_ops.planning.services import site_recompute, site_today
 from observatory_ops.workorders import selectors as workorder_selectors
+from observatory_ops.workorders.cautions import HAZARDS
 
 from . import services
 from .models import Site, Subsystem
@@ -57,6 +58,7 @@ def subsystem_detail(request, pk):
             "records": subsystem.service_records.select_related("plan", "performed_by", "corrects", "corrected_by"),
             "readings": subsystem.readings.select_related("taken_by")[:50],
             "children": subsystem.children.in_service(),
+            "hazard_labels": [HAZARDS.get(h, h) for h in subsystem.hazards],
             "history": changes(subsystem, limit=5),
             "history_label": "registry.subsystem",
             "history_pk": subsystem.pk,

@@ -17,7 +17,8 @@ HAZARDS: dict[str, str] = {
     "suspended_load": "Suspended load",
     "height": "Work at height",
     "chemical": "Corrosive or irritant chemicals",
-    "cryogen": "Cryogens",
+    "cryogen": "Cryogens and CO2 snow",
+    "vacuum_plant": "Vacuum coating plant",
     "laser": "Alignment lasers",
     "optical_surface": "Delicate optical surfaces",
 }
@@ -156,13 +157,30 @@ CAUTIONS: dict[str, Caution] = {
         title=HAZARDS["cryogen"],
         text=(
             "Handle liquid nitrogen and other cryogens only in vessels made for them, wearing a face shield, "
-            "loose insulated gloves and clothing that covers arms and legs. "
-            "Fill and vent only where ventilation keeps enough oxygen in the air, and use an oxygen monitor in a "
-            "closed dome or a small room. "
+            "loose insulated gloves and clothing that covers arms and legs; CO2 snow and its nozzle are cold "
+            "enough to burn skin in seconds. "
+            "Fill, vent and clean with CO2 only where ventilation keeps enough oxygen in the air, and use an "
+            "oxygen or CO2 monitor in a closed dome or a small room. "
+            "Chain gas cylinders upright, open their valves slowly and close them when you stop. "
             "Never seal a cryogen in a closed container or trap it between two valves. "
-            "Move dewars on a trolley and never ride in a lift with one."
+            "Move dewars and cylinders on a trolley and never ride in a lift with one."
         ),
-        standard="CGA P-12 (cryogenic liquids)",
+        standard="CGA P-12 (cryogenic liquids); CGA P-1 (compressed gas cylinders); the gas's safety data sheet",
+    ),
+    "vacuum_plant": Caution(
+        hazard="vacuum_plant",
+        severity=DANGER_TO_LIFE,
+        title=HAZARDS["vacuum_plant"],
+        text=(
+            "Work on the coating chamber only as its operating instructions say, and only if trained on it. "
+            "The glow-discharge and evaporation supplies carry lethal voltages and currents: lock out and prove "
+            "them dead before opening the chamber or touching a source. "
+            "Filaments, boats and the chamber wall stay hot after a run; let them cool and wear heat-resistant "
+            "gloves. "
+            "Never stand in front of a viewport while the chamber is pumped, and vent it with dry gas before "
+            "opening the door."
+        ),
+        standard="the coating plant maker's instructions; OSHA 29 CFR 1910.147 (lockout/tagout); NFPA 70E",
     ),
     "laser": Caution(
         hazard="laser",

@@ -31,6 +31,26 @@ def isolation_points(order: WorkOrder) -> list[IsolationPoint]:
     return list(IsolationPoint.objects.filter(telescope_id__in=telescopes).select_related("telescope"))
 
 
+#: Which registered isolation points answer a hazard: without one, the lockout step has nothing to lock.
+_ISOLATES = {"electrical": {"ac", "dc", "servo"}, "pneumatic": {"air"}}
+
+
+def isolation_gaps(order: WorkOrder) -> list[str]:
+    """A warning for each telescope of the order with a hazard but no isolation point for its energy."""
+    telescopes = {i.subsystem.telescope for i in order.items.select_related("subsystem__telescope")}
+    gaps = []
+    for telescope in sorted(telescopes, key=lambda t: t.name):
+        energies = set(telescope.isolation_points.values_list("energy", flat=True))
+        for hazard, answers in _ISOLATES.items():
+            if hazard in order.hazards and not energies & answers:
+                gaps.append(
+                    f"No {'compressed-air' if hazard == 'pneumatic' else 'electrical'} isolation point is "
+                    f"registered for {telescope.name}: find and lock the supply before work, and have an engineer "
+                    "add it to the register."
+                )
+    return gaps
+
+
 def lift(order: WorkOrder) -> lifting.LiftFigures | None:
     return lifting.lift_figures(**order.lift_inputs) if order.lift_inputs else None
 
@@ -74,7 +94,8 @@ def sheet(order: WorkOrder, url: str) -> sheet_.Sheet:
             sheet_.SheetCaution(c.title, c.text, c.standard, SEVERITY_LABELS[c.severity]) for c in cautions(order)
         ),
         precedence_statement=PRECEDENCE_STATEMENT,
-        isolation_points=tuple(
+        isolation_points=tuple(f"WARNING: {gap}" for gap in isolation_gaps(order))
+        + tuple(
             f"{p.telescope.name}: {p.get_energy_display()}: {p.label}"
             + (f" ({p.location})" if p.location else "")
             + (f"; prove dead: {p.verify}" if p.verify else "")

@@ -68,16 +68,22 @@ def work_order_from_due(plans: Sequence[ServicePlan], by, planned_date: dt.date 
     telescopes = {s.telescope_id for s in subsystems}
     hazards = _hazards_of(subsystems, plans)
     reading_plan = any(t.metric == READING for p in plans for t in p.triggers.all())
+    site = plans[0].subsystem.telescope.site
+    tools = list(dict.fromkeys(tool for p in plans for tool in p.tools.splitlines() if tool.strip()))
+    mirror = next((getattr(s, "mirror", None) for s in subsystems if hasattr(s, "mirror")), None)
     with transaction.atomic():
         order = WorkOrder.objects.create(
-            site=plans[0].subsystem.telescope.site,
+            site=site,
             telescope=subsystems[0].telescope if len(telescopes) == 1 else None,
             title="; ".join(p.name for p in plans)[:200],
             order_type=WorkOrder.Type.CONDITION_BASED if reading_plan else WorkOrder.Type.PREVENTIVE,
             planned_date=planned_date,
             estimated_hours=sum(p.estimated_hours for p in plans),
             steps=_steps_for(plans, hazards),
+            tools="\n".join(tools),
             hazards=hazards,
+            # A lift of a registered mirror gets its figures from the mirror's geometry straight away.
+            lift_inputs=mirror.lift_inputs if mirror is not None and "suspended_load" in hazards else None,
             created_by=by,
         )
         for plan in plans:
@@ -88,11 +94,22 @@ def work_order_from_due(plans: Sequence[ServicePlan], by, planned_date: dt.date 
             for trig in plan.triggers.all():
                 if trig.metric == READING:
                     sign = "at most" if trig.direction == "above" else "at least"
-                    RequiredReading.objects.create(
-                        work_order=order, subsystem=plan.subsystem, quantity=trig.quantity,
-                        unit=QUANTITIES[trig.quantity][1], limit_text=f"{sign} {trig.limit:g}",
-                    )
+                    _require_reading(order, plan.subsystem, trig.quantity, f"{sign} {trig.limit:g}")
+            for wanted in plan.readings:
+                _require_reading(order, plan.subsystem, wanted["quantity"], wanted.get("limit", ""))
+            for name in filter(None, (n.strip() for n in plan.parts.splitlines())):
+                part = Part.objects.filter(site=site, name__iexact=name).first()
+                if part is not None and not order.part_uses.filter(part=part).exists():
+                    PartUse.objects.create(work_order=order, part=part, quantity_planned=1)
     return order
+
+
+def _require_reading(order: WorkOrder, subsystem: Subsystem, quantity: str, limit_text: str) -> None:
+    if not order.required_readings.filter(subsystem=subsystem, quantity=quantity).exists():
+        RequiredReading.objects.create(
+            work_order=order, subsystem=subsystem, quantity=quantity, unit=QUANTITIES[quantity][1],
+            limit_text=limit_text,
+        )
 
 
 def work_order_ad_hoc(

@@ -4,6 +4,7 @@ from django.contrib import messages
 from django.http import HttpResponse, HttpResponseNotAllowed
 from django.shortcuts import get_object_or_404, redirect, render
 from django.urls import reverse
+from django.utils.http import url_has_allowed_host_and_scheme
 from django_tables2 import RequestConfig
 
 from observatory_ops.access.decorators import requires
@@ -14,6 +15,7 @@ from observatory_ops.planning.services import site_today
 from observatory_ops.registry.models import Site
 
 from . import pdf, selectors, services
+from .cautions import PRECEDENCE_STATEMENT, cautions_for
 from .forms import AdHocForm, FinishForm, LiftForm, PartAddForm, WithdrawForm, WorkOrderEditForm
 from .lifecycle import TRANSITIONS, available
 from .models import Part, State, WorkOrder
@@ -42,7 +44,11 @@ def work_order_from_due(request):
         order = services.work_order_from_due(plans, request.user)
     except services.Refused as exc:
         messages.error(request, f"No work order made: {exc}.")
-        return redirect(request.POST.get("back") or reverse("due-list"))
+        back = request.POST.get("back", "")
+        safe = url_has_allowed_host_and_scheme(
+            back, allowed_hosts={request.get_host()}, require_https=request.is_secure()
+        )
+        return redirect(back if back and safe else reverse("due-list"))
     messages.success(request, f"{order.number} drafted from {len(plans)} due item(s). Check the steps, then issue it.")
     return redirect(order)
 
@@ -83,6 +89,7 @@ def work_order_detail(request, pk):
             "cautions": selectors.cautions(order),
             "precedence": selectors.PRECEDENCE_STATEMENT,
             "isolation_points": selectors.isolation_points(order),
+            "isolation_gaps": selectors.isolation_gaps(order),
             "readings": order.required_readings.select_related("subsystem", "reading"),
             "part_uses": order.part_uses.select_related("part"),
             "records": order.service_records.select_related("subsystem"),
@@ -160,7 +167,11 @@ def work_order_lift(request, pk):
         else:
             messages.success(request, "Lifting figures saved; the suspended-load caution is on the work order.")
             return redirect(order)
-    return render(request, "workorders/lift.html", {"form": form, "order": order})
+    return render(
+        request, "workorders/lift.html",
+        {"form": form, "order": order, "cautions": cautions_for(["suspended_load"]),
+         "precedence": PRECEDENCE_STATEMENT},
+    )
 
 
 @requires(ENGINEER)

@@ -93,7 +93,7 @@ def test_engineer_chooses_the_second_window_and_gets_a_recoat_plan_of_draft_work
     page.get_by_role("button", name="Plan the recoat in the chosen window").click()
 
     expect(page).to_have_url(mirror_url)
-    planned = re.compile(rf"Recoat planned {start} to {end}: \d+ draft work orders made")
+    planned = re.compile(rf"Recoat planned {start:%d %b %Y} to {end:%d %b %Y}: \d+ draft work orders made")
     expect(page.locator(".messages")).to_contain_text(planned)
     plan = RecoatPlan.objects.get(mirror=mirror)
     assert (plan.starts_on, plan.ends_on) == (start, end)
@@ -102,7 +102,7 @@ def test_engineer_chooses_the_second_window_and_gets_a_recoat_plan_of_draft_work
     assert all(o.state == State.DRAFT for o in orders)
     assert all(start <= o.planned_date <= end for o in orders)
     links = page.locator("li", has_text=f"{start:%d %b %Y} to {end:%d %b %Y}").get_by_role("link")
-    expect(links).to_have_text([o.number for o in plan.work_orders.all()])
+    expect(links).to_have_text([o.number for o in plan.work_orders.order_by("planned_date", "pk")])  # in phase order
     _shot(page, "3_planned")
 
     # The removal: lifting figures in kg and lb, and the suspended-load caution before the steps.

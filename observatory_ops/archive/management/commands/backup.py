@@ -15,5 +15,8 @@ class Command(BaseCommand):
         path = Path(file)
         if path.exists():
             raise CommandError(f"{file} already exists; choose a new name (a backup never overwrites)")
-        counts = backup_write(path)
+        try:
+            counts = backup_write(path)
+        except OSError as exc:
+            raise CommandError(f"cannot write {file}: {exc.strerror}") from None
         self.stdout.write(f"{sum(counts.values()):,} rows in {len(counts)} tables written to {file}")

@@ -3,6 +3,7 @@ import json
 from django.core.management.base import BaseCommand, CommandError
 
 from observatory_ops.calc.lifting import DENSITY, lift_figures
+from observatory_ops.workorders.cautions import PRECEDENCE_STATEMENT, cautions_for
 
 
 class Command(BaseCommand):
@@ -24,6 +25,7 @@ class Command(BaseCommand):
         parser.add_argument("--json", action="store_true", dest="as_json")
 
     def handle(self, *args, **o):
+        caution = cautions_for(["suspended_load"])[0]
         try:
             f = lift_figures(
                 diameter_mm=o["diameter_mm"], thickness_mm=o["thickness_mm"], material=o["material"],
@@ -44,6 +46,8 @@ class Command(BaseCommand):
             "margin": None if f.margin is None else round(f.margin, 3),
             "warnings": list(f.warnings),
             "checks": list(f.checks),
+            "caution": caution.text,
+            "precedence": PRECEDENCE_STATEMENT,
         }
         if o["as_json"]:
             self.stdout.write(json.dumps(result, indent=1))
@@ -56,3 +60,5 @@ class Command(BaseCommand):
         self.stdout.write("A competent person must check:")
         for c in f.checks:
             self.stdout.write(f"  - {c}")
+        self.stdout.write(f"CAUTION ({caution.standard}): {caution.text}")
+        self.stdout.write(PRECEDENCE_STATEMENT)

@@ -1,0 +1,342 @@
+"""Specifications for the background tasks (observatory_ops/*/tasks.py) as they run without a broker: inline.
+
+Real worker processes on Redis and PostgreSQL, and a worker killed mid-task, are in tests/test_workers.py.
+"""
+from __future__ import annotations
+
+import datetime as dt
+import io
+import os
+import subprocess
+import sys
+
+import pytest
+from conftest import site_in_use
+from django.core import mail
+from django.core.cache import cache
+from django.db import OperationalError
+
+from observatory_ops import celery_app
+from observatory_ops.logbook import services as logbook_services
+from observatory_ops.logbook import tasks as logbook_tasks
+from observatory_ops.logbook.models import NightUsage
+from observatory_ops.planning import digest
+from observatory_ops.planning import services as planning
+from observatory_ops.planning import tasks as planning_tasks
+from observatory_ops.planning.models import NightSky, PlanStatus
+from observatory_ops.workorders import batches
+from observatory_ops.workorders import tasks as workorder_tasks
+
+
+@pytest.fixture(autouse=True)
+def _fresh_cache():
+    cache.clear()  # the once-a-day digest mark lives in the cache
+    yield
+    cache.clear()
+
+
+def plan_states(site) -> dict[int, tuple]:
+    """What the due list shows of each plan at a site (everything but the time it was computed)."""
+    return {
+        s.plan_id: (s.status, s.metric, round(s.value, 6), s.limit, s.forecast_date, s.earliest, s.latest, s.reason)
+        for s in PlanStatus.objects.filter(site=site)
+    }
+
+
+# --- configuration ----------------------------------------------------------------------------------
+
+
+def test_without_a_broker_tasks_run_inline_and_their_errors_reach_the_caller(db):
+    from observatory_ops.registry.models import Site
+
+    assert os.environ.get("CELERY_BROKER_URL") is None  # the README's test command sets none
+    assert celery_app.conf.task_always_eager and celery_app.conf.task_eager_propagates
+    site = site_in_use("inline")
+    assert planning_tasks.site_recompute.delay(site.pk).get() == 6  # plans: mirror 2, fans 2, limits 1, dome 1
+    assert PlanStatus.objects.filter(site=site).count() == 6
+    with pytest.raises(Site.DoesNotExist):
+        planning_tasks.site_recompute.delay(site.pk + 1000)
+
+
+def test_a_broker_url_sends_tasks_to_workers_instead():
+    script = (
+        "import django; django.setup(); from observatory_ops import celery_app as a; "
+        "print(a.conf.task_always_eager, a.conf.broker_url, a.conf.task_acks_late, "
+        "a.conf.task_reject_on_worker_lost, a.conf.worker_prefetch_multiplier)"
+    )
+    env = {**os.environ, "DJANGO_SETTINGS_MODULE": "observatory_ops.settings",
+           "CELERY_BROKER_URL": "redis://127.0.0.1:6379/5"}
+    out = subprocess.run([sys.executable, "-c", script], env=env, capture_output=True, text=True, check=True).stdout
+    assert out.split() == ["False", "redis://127.0.0.1:6379/5", "True", "True", "1"]
+
+
+def test_every_scheduled_task_is_found_acknowledged_late_and_retried_with_back_off():
+    from django.conf import settings
+
+    celery_app.loader.import_default_modules()  # what a worker does at start: autodiscover tasks.py modules
+    scheduled = {entry["task"] for entry in settings.CELERY_BEAT_SCHEDULE.values()}
+    assert scheduled == {
+        "planning.sites_recompute_all", "planning.sites_due_digest_all", "workorders.sites_work_order_batch_all"
+    }
+    ours = {name for name in celery_app.tasks if name.split(".")[0] in {"planning", "workorders", "logbook"}}
+    assert scheduled <= ours
+    assert {"logbook.nights_ingest", "planning.site_sky_refresh", "planning.site_recompute",
+            "planning.due_digest_send", "workorders.work_order_batch_build"} <= ours
+    for name in ours:
+        task = celery_app.tasks[name]
+        assert task.acks_late and task.reject_on_worker_lost, name
+        assert OperationalError in task.autoretry_for and task.retry_backoff and task.max_retries, name
+
+
+# --- recompute and the nights cache -----------------------------------------------------------------
+
+
+def test_recomputing_twice_gives_the_same_rows_as_once(db):
+    site = site_in_use("twice")
+    planning_tasks.site_recompute.delay(site.pk)
+    once = plan_states(site)
+    planning_tasks.site_recompute.delay(site.pk)
+    assert plan_states(site) == once and len(once) == 6
+
+
+def _failing_insert(monkeypatch, failures: int) -> list:
+    """Make the recompute's write fail ``failures`` times (after the old rows were deleted in the same
+    transaction), then work; returns the list of calls."""
+    insert = planning._insert_all
+    calls = []
+
+    def flaky(*args, **kwargs):
+        calls.append(1)
+        if len(calls) <= failures:
+            raise OperationalError("server closed the connection unexpectedly")
+        return insert(*args, **kwargs)
+
+    monkeypatch.setattr(planning, "_insert_all", flaky)
+    return calls
+
+
+def test_inline_a_failing_task_raises_its_own_error_at_once_and_the_rows_stay_as_they_were(db, monkeypatch):
+    site = site_in_use("inline-fail")
+    planning_tasks.site_recompute.delay(site.pk)
+    before = plan_states(site)
+    NightUsage.objects.filter(site=site).update(open_hours=9)  # so a recompute that got through would differ
+    calls = _failing_insert(monkeypatch, failures=1)
+    with pytest.raises(OperationalError):
+        planning_tasks.site_recompute.delay(site.pk)
+    assert len(calls) == 1
+    assert plan_states(site) == before
+
+
+@pytest.fixture
+def as_on_a_worker(monkeypatch):
+    """Errors stay with the task instead of reaching a caller, so Celery's own retries run (inline, without
+    the back-off wait)."""
+    monkeypatch.setattr(celery_app.conf, "task_eager_propagates", False)
+
+
+def test_a_task_that_keeps_failing_is_retried_to_its_limit_then_leaves_the_rows_as_they_were(
+    db, monkeypatch, as_on_a_worker
+):
+    site = site_in_use("flaky")
+    planning_tasks.site_recompute.delay(site.pk)
+    before = plan_states(site)
+    NightUsage.objects.filter(site=site).update(open_hours=9)
+    calls = _failing_insert(monkeypatch, failures=100)
+    result = planning_tasks.site_recompute.delay(site.pk)
+    assert len(calls) == planning_tasks.site_recompute.max_retries + 1
+    with pytest.raises(OperationalError):
+        result.get()
+    assert plan_states(site) == before
+
+
+def test_a_task_that_fails_once_succeeds_on_its_retry(db, monkeypatch, as_on_a_worker):
+    site = site_in_use("blip")
+    calls = _failing_insert(monkeypatch, failures=1)
+    assert planning_tasks.site_recompute.delay(site.pk).get() == 6
+    assert len(calls) == 2 and PlanStatus.objects.filter(site=site).count() == 6
+
+
+def test_sky_refresh_computes_only_the_missing_nights_of_the_forecast_span(db):
+    site = site_in_use("sky")
+    today = planning.site_today(site)
+    last = today + dt.timedelta(days=planning.HORIZON_DAYS)
+    NightSky.objects.filter(site=site, night__gt=last - dt.timedelta(days=3)).delete()
+    assert planning_tasks.site_sky_refresh.delay(site.pk).get() == 3
+    assert NightSky.objects.filter(site=site, night__gte=today, night__lte=last).count() == planning.HORIZON_DAYS + 1
+    assert planning_tasks.site_sky_refresh.delay(site.pk).get() == 0
+
+
+def test_nightly_fan_out_recomputes_every_site(db):
+    sites = [site_in_use("north"), site_in_use("south", kinds=("enclosure",))]
+    assert planning_tasks.sites_recompute_all.delay().get() == 2
+    assert [PlanStatus.objects.filter(site=s).count() for s in sites] == [6, 1]
+
+
+# --- ingest -----------------------------------------------------------------------------------------
+
+
+def _older_nights(site, count: int, open_hours: float = 5.0) -> list[dict]:
+    """Nights before the site's log begins (site_in_use logs the last 60), as control software sends them."""
+    today = planning.site_today(site)
+    return [{"night": (today - dt.timedelta(days=70 + i)).isoformat(), "open_hours": open_hours, "slews": 12}
+            for i in range(count)]
+
+
+def test_ingest_stores_the_nights_once_and_recomputes_the_site(db):
+    site = site_in_use("ingest")
+    planning_tasks.site_recompute.delay(site.pk)
+    before = plan_states(site)
+    records = _older_nights(site, 4)
+    first = logbook_tasks.nights_ingest.delay(site.pk, records).get()
+    assert (first["created"], first["updated"], first["unchanged"], first["errors"]) == (4, 0, 0, [])
+    assert NightUsage.objects.filter(site=site, source="api").count() == 4
+    assert plan_states(site) != before  # 20 more open hours reach the usage triggers
+    again = logbook_tasks.nights_ingest.delay(site.pk, records).get()
+    assert (again["created"], again["updated"], again["unchanged"]) == (0, 0, 4)
+    assert NightUsage.objects.filter(site=site).count() == 64
+
+
+def test_ingest_of_a_bad_night_names_it_and_stores_nothing(db):
+    site = site_in_use("bad")
+    records = _older_nights(site, 2)
+    records[1]["open_hours"] = 25
+    result = logbook_tasks.nights_ingest.delay(site.pk, records).get()
+    assert result["created"] == 0 and len(result["errors"]) == 1
+    assert result["errors"][0]["index"] == 1 and result["errors"][0]["field"] == "open_hours"
+    assert NightUsage.objects.filter(site=site).count() == 60
+
+
+def test_an_ingest_that_fails_after_writing_leaves_the_log_as_it_was(db, monkeypatch):
+    site = site_in_use("broken")
+
+    def lost_connection(*args, **kwargs):
+        raise OperationalError("server closed the connection unexpectedly")
+
+    monkeypatch.setattr(logbook_services, "site_recompute", lost_connection)
+    with pytest.raises(OperationalError):
+        logbook_tasks.nights_ingest.delay(site.pk, _older_nights(site, 3))
+    assert NightUsage.objects.filter(site=site).count() == 60
+
+
+# --- weekly work-order batch ------------------------------------------------------------------------
+
+
+def test_a_batch_week_starts_on_the_coming_monday():
+    # ISO 8601 numbers weeks from Monday; 2026-06-15 is a Monday (any calendar).
+    monday = dt.date(2026, 6, 15)
+    assert batches.coming_monday(monday) == monday
+    assert batches.coming_monday(dt.date(2026, 6, 14)) == monday  # Sunday: tomorrow
+    assert batches.coming_monday(dt.date(2026, 6, 16)) == dt.date(2026, 6, 22)
+
+
+def _issued_order(site, subsystem, users, planned: dt.date, title: str):
+    from observatory_ops.workorders import services
+
+    order = services.work_order_ad_hoc(site, [subsystem], title, users["engineer"], steps="Look and record.")
+    order.planned_date = planned
+    order.save(update_fields=["planned_date"])
+    return services.work_order_move(order, "issue", users["engineer"])
+
+
+def test_weekly_batch_prints_that_weeks_issued_orders_and_a_rerun_replaces_it(db, users, settings, tmp_path):
+    from pypdf import PdfReader
+
+    from observatory_ops.workorders import services
+
+    settings.DATA_DIR = tmp_path
+    site = site_in_use("batch", kinds=("enclosure",))
+    dome = site.telescopes.get().subsystems.get()
+    monday = dt.date(2026, 6, 15)
+    wanted = [_issued_order(site, dome, users, monday + dt.timedelta(days=d), f"Order {d}") for d in (0, 6)]
+    _issued_order(site, dome, users, monday + dt.timedelta(days=7), "Next week")
+    services.work_order_ad_hoc(site, [dome], "Still a draft", users["engineer"], steps="x")
+
+    result = workorder_tasks.work_order_batch_build.delay(site.pk, monday.isoformat()).get()
+    assert result["work_orders"] == 2
+    path = tmp_path / "batches" / "batch" / "2026-W25.pdf"  # ISO week 25 of 2026 begins on 15 June
+    assert result["path"] == str(path)
+    text = " ".join(page.extract_text() for page in PdfReader(io.BytesIO(path.read_bytes())).pages)
+    assert all(o.number in text for o in wanted) and "Next week" not in text and "Still a draft" not in text
+
+    workorder_tasks.work_order_batch_build.delay(site.pk, monday.isoformat())
+    assert [p.name for p in path.parent.iterdir()] == ["2026-W25.pdf"]  # replaced, no copy, no leftovers
+
+    for order in wanted:
+        services.work_order_move(order, "withdraw", users["engineer"], reason="postponed")
+    assert workorder_tasks.work_order_batch_build.delay(site.pk, monday.isoformat()).get()["work_orders"] == 0
+    assert not path.exists()  # a batch for orders since withdrawn is not left behind
+
+
+def test_a_batch_week_that_does_not_start_on_monday_is_refused(db):
+    site = site_in_use("tuesday", kinds=())
+    with pytest.raises(ValueError, match="starts on a Monday"):
+        workorder_tasks.work_order_batch_build.delay(site.pk, "2026-06-16")
+
+
+# --- due digest -------------------------------------------------------------------------------------
+
+
+@pytest.fixture
+def mailed_people(users):
+    from django.contrib.auth.models import Group, User
+
+    for role, user in users.items():
+        user.email = f"{role}@vestal-ridge.invalid"
+        user.save()
+    quiet = User.objects.create_user("engineer-no-mail", password="pw-quiet-123456")
+    quiet.groups.add(Group.objects.get(name="engineer"))
+    gone = User.objects.create_user("engineer-left", email="left@vestal-ridge.invalid", is_active=False)
+    gone.groups.add(Group.objects.get(name="engineer"))
+    return users
+
+
+def test_digest_goes_to_the_engineers_with_every_overdue_and_due_item_and_its_reason(mailed_people):
+    site = site_in_use("digest")
+    planning.site_recompute(site)
+    states = PlanStatus.objects.filter(site=site).select_related("plan")
+    listed = [s for s in states if s.status in ("overdue", "due")]
+    later = [s for s in states if s.status == "later"]
+    assert listed and later  # the site has items of each kind (limits and dome 100 of 90 days: overdue)
+
+    assert planning_tasks.due_digest_send.delay(site.pk).get() == 1
+    (message,) = mail.outbox
+    assert message.to == ["engineer@vestal-ridge.invalid"]
+    overdue = sum(s.status == "overdue" for s in listed)
+    assert message.subject.startswith(f"Site digest: {overdue} overdue, {len(listed) - overdue} due")
+    for state in listed:
+        assert state.plan.name in message.body and state.reason in message.body
+    assert all(s.plan.name not in message.body for s in later)
+    assert f"/due/?site={site.pk}" in message.body
+
+
+def test_digest_is_sent_once_a_day_however_often_the_task_runs(mailed_people):
+    site = site_in_use("once")
+    planning.site_recompute(site)
+    assert planning_tasks.due_digest_send.delay(site.pk).get() == 1
+    assert planning_tasks.due_digest_send.delay(site.pk).get() == 0
+    assert len(mail.outbox) == 1
+
+
+def test_a_digest_that_could_not_be_sent_is_sent_by_the_next_run(mailed_people, monkeypatch):
+    import smtplib
+
+    from django.core.mail import EmailMessage
+
+    site = site_in_use("smtp")
+    planning.site_recompute(site)
+    send = EmailMessage.send
+
+    def refused(self, *args, **kwargs):
+        raise smtplib.SMTPServerDisconnected("connection unexpectedly closed")
+
+    monkeypatch.setattr(EmailMessage, "send", refused)
+    with pytest.raises(smtplib.SMTPServerDisconnected):
+        planning_tasks.due_digest_send.delay(site.pk)
+    monkeypatch.setattr(EmailMessage, "send", send)
+    assert planning_tasks.due_digest_send.delay(site.pk).get() == 1
+
+
+def test_no_digest_when_nothing_is_due(mailed_people):
+    site = site_in_use("calm", kinds=("mirror_cell",))  # 100 of 365 days: later
+    planning.site_recompute(site)
+    assert digest.due_digest_send(site) == 0 and not mail.outbox
