@@ -105,7 +105,9 @@ DATABASES = {
 }
 if DATABASES["default"]["ENGINE"] == "django.db.backends.sqlite3":
     # Wait for a competing writer instead of failing at once with "database is locked".
-    DATABASES["default"].setdefault("OPTIONS", {})["timeout"] = 20
+    # Start write transactions with the write lock (IMMEDIATE), so two writers queue for it instead of one
+    # failing part-way with "database is locked"; wait up to 20 s for it.
+    DATABASES["default"].setdefault("OPTIONS", {}).update(timeout=20, transaction_mode="IMMEDIATE")
     DATABASES["default"]["CONN_MAX_AGE"] = 0
 
 DEFAULT_AUTO_FIELD = "django.db.models.BigAutoField"

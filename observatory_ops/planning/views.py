@@ -14,16 +14,9 @@ from .tables import DueTable
 def due_list(request):
     filtered = DueFilter(request.GET, queryset=selectors.due_rows())
     if request.GET.get("export") == "csv":
-        rows = (
-            (
-                s.status, s.plan.subsystem.telescope.site.name, s.plan.subsystem.telescope.name, s.plan.subsystem.name,
-                s.plan.name, s.get_metric_display(), round(s.value, 3), s.limit, s.unit, s.forecast_date, s.earliest,
-                s.latest, s.reason,
-            )
-            for s in filtered.qs
-        )
-        header = ("status", "site", "telescope", "subsystem", "service", "trigger", "value", "limit", "unit",
-                  "forecast", "earliest", "latest", "why")
+        header = ("status", "site", "subsystem", "plan", "trigger", "value", "limit", "unit", "rate",
+                  "forecast_date", "earliest", "latest", "reason")
+        rows = ([record[k] for k in header] for record in map(selectors.due_record, filtered.qs))
         return csv_response("due-list.csv", header, rows)
     table = DueTable(filtered.qs)
     RequestConfig(request, paginate={"per_page": 50}).configure(table)
