@@ -37,7 +37,8 @@ SECRET_KEY = os.environ.get("SECRET_KEY", "")
 if not SECRET_KEY:
     if not DEBUG:
         raise RuntimeError("SECRET_KEY must be set when DEBUG is off.")
-    SECRET_KEY = "development-only-key-not-for-production"  # noqa: S105  # nosec B105: only when DEBUG is on
+    # A fixed key is acceptable only here, with DEBUG on (bandit B105 is accepted for this line).
+    SECRET_KEY = "development-only-key-not-for-production"  # noqa: S105  # nosec B105
 
 ALLOWED_HOSTS = [h.strip() for h in os.environ.get("ALLOWED_HOSTS", "127.0.0.1,localhost").split(",") if h.strip()]
 if DEBUG:

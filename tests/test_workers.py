@@ -78,6 +78,7 @@ class Workers:
         self.env.pop("CELERY_RESULT_BACKEND", None)
         self.data_dir = data_dir
         self.processes: list[subprocess.Popen] = []
+        self.killed: list[subprocess.Popen] = []
 
     def start(self, **env: str) -> subprocess.Popen:
         log = open(self.data_dir / f"worker-{len(self.processes)}.log", "wb")  # closed in stop()
@@ -92,8 +93,13 @@ class Workers:
 
     def kill(self, process: subprocess.Popen) -> None:
         """SIGKILL the worker and its pool processes at once, as a machine that loses power would."""
+        self.killed.append(process)
         os.killpg(process.pid, signal.SIGKILL)
         process.wait(timeout=30)
+
+    def died(self) -> list[subprocess.Popen]:
+        """Workers that exited though nobody killed them (an import error, a crash)."""
+        return [p for p in self.processes if p not in self.killed and p.poll() is not None]
 
     def logs(self) -> str:
         return "\n".join(p.log.name + ":\n" + Path(p.log.name).read_text(errors="replace") for p in self.processes)
@@ -135,6 +141,8 @@ def producer(redis_url):
 def wait_for(condition, what: str, workers: Workers) -> None:
     deadline = time.monotonic() + WAIT_SECONDS
     while not condition():
+        if workers.died():
+            pytest.fail(f"a worker exited while waiting for {what}\n{workers.logs()}")
         if time.monotonic() > deadline:
             pytest.fail(f"waited {WAIT_SECONDS} s for {what}\n{workers.logs()}")
         time.sleep(0.2)

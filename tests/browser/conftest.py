@@ -11,6 +11,7 @@ from dataclasses import dataclass
 
 import pytest
 from conftest import require_tool
+from django.db import connections
 from django.urls import reverse
 
 CHROMIUM = "/usr/bin/chromium"
@@ -57,6 +58,9 @@ def browser_page(monkeypatch):
         finally:
             context.close()
             browser.close()
+            # Inside sync_playwright the test's queries open a connection of their own (another event-loop
+            # context); close it, or PostgreSQL refuses to drop the test database at the end.
+            connections.close_all()
     if problems:
         pytest.fail("the browser saw server or page errors:\n" + "\n".join(problems))
 
