@@ -21,6 +21,7 @@ from collections import Counter
 from collections.abc import Sequence
 from datetime import date
 from itertools import groupby
+
 # escape() only escapes our own output text; no XML is parsed (bandit B406 is accepted for this line).
 from xml.sax.saxutils import escape  # nosec B406
 
