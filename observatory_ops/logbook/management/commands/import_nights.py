@@ -1,4 +1,3 @@
-import sys
 from pathlib import Path
 
 from django.core.management.base import BaseCommand, CommandError
@@ -25,9 +24,8 @@ class Command(BaseCommand):
             raise CommandError(f"{file}: no such file")
 
         def progress(done, total):
-            sys.stderr.write(f"\r  {done}/{total} rows checked and written")
-            if done == total:
-                sys.stderr.write("\n")
+            self.stderr.write(f"\r  {done}/{total} rows checked and written", ending="\n" if done == total else "")
+            self.stderr.flush()
 
         report = services.nights_import(target, path.read_bytes(), skip_bad=skip_bad, progress=progress)
         for line, reason in report.errors or report.skipped:
