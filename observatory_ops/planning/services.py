@@ -399,7 +399,8 @@ def _insert_all(model, objects: list) -> None:
                     copy.write_row(row)
         else:
             marks = ", ".join(["%s"] * len(fields))
-            cursor.executemany(f"INSERT INTO {table} ({columns}) VALUES ({marks})", rows)  # noqa: S608  # nosec B608
+            sql = f"INSERT INTO {table} ({columns}) VALUES ({marks})"  # noqa: S608  # nosec B608
+            cursor.executemany(sql, rows)
 
 
 def _clamp(day: dt.date | None, today: dt.date) -> dt.date | None:
