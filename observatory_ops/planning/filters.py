@@ -1,4 +1,8 @@
 import django_filters
+from django import forms
+from django.forms.utils import flatatt
+from django.utils.html import escape
+from django.utils.safestring import mark_safe
 
 from observatory_ops.calc.triggers import STATUSES
 from observatory_ops.registry.catalogue import KIND_CHOICES
@@ -7,10 +11,28 @@ from observatory_ops.registry.models import Site, Telescope
 from .models import PlanStatus
 
 
+class QuickSelect(forms.Select):
+    """A select written by joining strings instead of one template per option: on a network the due-list
+    filters list hundreds of sites and telescopes, and option templates were a third of the page's time."""
+
+    def render(self, name, value, attrs=None, renderer=None):
+        chosen = {str(value)} if value not in (None, "") else set()
+        options = "".join(
+            f'<option value="{escape(key)}"{" selected" if str(key) in chosen else ""}>{escape(label)}</option>'
+            for key, label in self.choices
+        )
+        html = f'<select name="{escape(name)}"{flatatt(self.build_attrs(self.attrs, attrs))}>{options}</select>'
+        # Every value and label is escaped above (bandit B308/B703 accepted for this line).
+        return mark_safe(html)  # noqa: S308  # nosec B308 B703
+
+
 class DueFilter(django_filters.FilterSet):
-    site = django_filters.ModelChoiceFilter(queryset=Site.objects.all(), field_name="site", label="Site")
+    site = django_filters.ModelChoiceFilter(
+        queryset=Site.objects.all(), field_name="site", label="Site", widget=QuickSelect
+    )
     telescope = django_filters.ModelChoiceFilter(
-        queryset=Telescope.objects.select_related("site"), field_name="plan__subsystem__telescope", label="Telescope"
+        queryset=Telescope.objects.select_related("site"), field_name="plan__subsystem__telescope", label="Telescope",
+        widget=QuickSelect,
     )
     kind = django_filters.ChoiceFilter(choices=KIND_CHOICES, field_name="plan__subsystem__kind", label="Kind")
     status = django_filters.ChoiceFilter(choices=[(s, s) for s in STATUSES], label="Status")

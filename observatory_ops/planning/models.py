@@ -93,6 +93,15 @@ class PlanStatus(models.Model):
     triggers = models.JSONField(default=list, help_text="Every trigger's figures, governing first.")
     computed_at = models.DateTimeField()
 
+    @property
+    def metric_label(self) -> str:
+        return self.get_metric_display()
+
+    @property
+    def progress(self) -> str:
+        """Value now against the limit, for the due list."""
+        return f"{self.value:,.4g} / {self.limit:,.4g} {self.unit}".strip()
+
     class Meta:
         indexes = [
             models.Index(fields=["site", "status", "forecast_date"]),

@@ -1,10 +1,11 @@
 import django_tables2 as tables
-from django.utils.html import format_html
 
 from .models import PlanStatus
 
 
 class DueTable(tables.Table):
+    """Columns, sorting and paging of the due list; the rows are written by planning/_due_table.html."""
+
     plans = tables.CheckBoxColumn(accessor="plan_id", verbose_name="", attrs={"th__input": {"title": "tick all"}})
     status = tables.Column(order_by=("urgency", "forecast_date"))
     site = tables.Column(accessor="plan__subsystem__telescope__site__name", verbose_name="Site")
@@ -24,26 +25,3 @@ class DueTable(tables.Table):
         )
         attrs = {"class": "due-table"}
         order_by = ("status",)
-
-    def render_status(self, value):
-        return format_html('<span class="status status-{}">{}</span>', value, value)
-
-    def render_subsystem(self, value, record):
-        return format_html('<a href="{}">{}</a>', record.plan.subsystem.get_absolute_url(), value)
-
-    def render_metric(self, record):
-        return record.get_metric_display()
-
-    def render_progress(self, record):
-        return f"{record.value:,.4g} / {record.limit:,.4g} {record.unit}".strip()
-
-    def render_forecast_date(self, value, record):
-        if record.earliest and record.latest and record.earliest != record.latest:
-            return format_html(
-                '{}<br><span class="muted">{} to {}</span>',
-                value.strftime("%d %b %Y"), record.earliest.strftime("%d %b"), record.latest.strftime("%d %b %Y"),
-            )
-        return value.strftime("%d %b %Y")
-
-    def render_reason(self, value):
-        return format_html('<span class="reason">{}</span>', value)

@@ -20,4 +20,32 @@ def due_list(request):
         return csv_response("due-list.csv", header, rows)
     table = DueTable(filtered.qs)
     RequestConfig(request, paginate={"per_page": 50}).configure(table)
-    return render(request, "planning/due_list.html", {"filter": filtered, "table": table})
+    context = {"filter": filtered, "table": table, **_links(request, table)}
+    return render(request, "planning/due_list.html", context)
+
+
+def _links(request, table) -> dict:
+    """Header sort links and page links that keep the filters (the rows template writes them as is)."""
+
+    def query(**changes) -> str:
+        params = request.GET.copy()
+        params.pop("export", None)
+        for key, value in changes.items():
+            params[key] = value
+        return params.urlencode()
+
+    headers = []
+    for column in table.columns:
+        if column.name == "plans" or not column.orderable:
+            headers.append(("" if column.name == "plans" else column.header, "", ""))
+            continue
+        css = "orderable"
+        if column.is_ordered:
+            css += " desc" if column.order_by_alias.is_descending else " asc"
+        headers.append((column.header, query(**{table.prefixed_order_by_field: column.order_by_alias.next}), css))
+    page, field = table.page, table.prefixed_page_field
+    return {
+        "headers": headers,
+        "previous_page": query(**{field: page.previous_page_number()}) if page.has_previous() else "",
+        "next_page": query(**{field: page.next_page_number()}) if page.has_next() else "",
+    }
