@@ -16,7 +16,14 @@ from django.db import transaction
 from observatory_ops.calc import coating, forecast, reflectance, windows
 from observatory_ops.planning import metrics
 from observatory_ops.planning.models import BookedRun, NightSky
-from observatory_ops.planning.services import UsageLog, site_recompute, site_sky_refresh, site_today, usage_model
+from observatory_ops.planning.services import (
+    UsageLog,
+    UsageModel,
+    site_recompute,
+    site_sky_refresh,
+    site_today,
+    usage_model,
+)
 from observatory_ops.registry.models import Site
 from observatory_ops.workorders.cautions import HAZARDS
 from observatory_ops.workorders.models import RequiredReading, WorkOrder, WorkOrderItem
@@ -67,15 +74,21 @@ def _exposure_at(log: UsageLog, per_night: np.ndarray, since: dt.date, days: lis
     return cumulative[np.maximum(ends, start)] - cumulative[start]
 
 
-def mirror_forecast(mirror: Mirror, today: dt.date | None = None) -> MirrorForecast:
-    """Fresh reflectance, fitted decline, current estimate, recoat threshold and its crossing date."""
+def mirror_forecast(
+    mirror: Mirror, today: dt.date | None = None, log: UsageLog | None = None, model: UsageModel | None = None
+) -> MirrorForecast:
+    """Fresh reflectance, fitted decline, current estimate, recoat threshold and its crossing date.
+
+    ``log`` and ``model`` (expected usage from ``today`` on) may be passed by a caller that has already
+    read them, such as the site recompute; otherwise they are read here.
+    """
     site = mirror.subsystem.telescope.site
     today = today or site_today(site)
     last = mirror.coatings.order_by("-coated_on").first()
     if last is None:
         return MirrorForecast(mirror, None, "", None, "no coating recorded", 0.0, fit_note="no coating recorded")
     fresh = _coating_band(mirror, last.metal, last.layers)
-    log = UsageLog.for_site(site)
+    log = log if log is not None else UsageLog.for_site(site)
     per_night = log.per_night(metrics.DUST_HOURS, mirror.dust_sensitivity)
     measurements = list(
         mirror.measurements.filter(measured_on__gte=last.coated_on, wavelength_nm__isnull=True).order_by("measured_on")
@@ -107,7 +120,7 @@ def mirror_forecast(mirror: Mirror, today: dt.date | None = None) -> MirrorForec
     result.threshold_basis = f"{mirror.recoat_loss:.0%} below the fitted fresh value R0 = {fit.r0:.4f}"
     crossing = reflectance.crossing_exposure(fit, result.threshold)
     result.crossing_exposure_h = crossing.exposure_h
-    model = usage_model(site, log, today, 3 * 366)
+    model = model if model is not None else usage_model(site, log, today, 3 * 366)
     expected = model.expected(metrics.DUST_HOURS, mirror.dust_sensitivity)
     result.dust_hours_per_day = float(expected[:30].mean())
     remaining = [x - result.exposure_now_h for x in (crossing.exposure_h, crossing.early_h, crossing.late_h)]

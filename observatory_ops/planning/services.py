@@ -302,7 +302,7 @@ def _site_recompute(site: Site, today: dt.date | None) -> int:
             if trig.metric == metrics.CALENDAR_DAYS:
                 states[plan.pk].append(_calendar_state(trig, baselines[plan.pk], today))
             elif trig.metric == metrics.RECOAT_LINE:
-                state = _recoat_line_state(mirrors.get(plan.subsystem_id), today)
+                state = _recoat_line_state(mirrors.get(plan.subsystem_id), today, log, model)
                 if state:
                     states[plan.pk].append(state)
             elif trig.metric == metrics.READING:
@@ -456,13 +456,13 @@ def _mirrors_by_subsystem(site: Site) -> dict:
     }
 
 
-def _recoat_line_state(mirror, today: dt.date) -> TriggerState | None:
+def _recoat_line_state(mirror, today: dt.date, log: UsageLog, model: UsageModel) -> TriggerState | None:
     """A mirror's fitted reflectance decline reaching its recoat line (see mirrors.services)."""
     from observatory_ops.mirrors.services import mirror_forecast  # mirrors builds on planning
 
     if mirror is None:
         return None
-    state = mirror_forecast(mirror, today)
+    state = mirror_forecast(mirror, today, log, model if model.first_day == today else None)
     if state.threshold is None or (state.current is None and state.fresh_band is None):
         return None
     return TriggerState(
