@@ -213,3 +213,19 @@ def test_sqlite_writers_wait_for_each_other_instead_of_failing(tmp_path):
         t.join()
     assert not errors
     assert sqlite3.connect(path).execute("select count(*) from t").fetchone()[0] == 2
+
+
+def test_a_database_still_locked_after_the_wait_gets_a_clear_503_and_nothing_saved(rf, users):
+    from django.db import OperationalError
+
+    from observatory_ops.database_busy import DatabaseBusyMiddleware
+
+    request = rf.post("/sites/x/nights/import/")
+    request.user = users["technician"]
+    response = DatabaseBusyMiddleware(lambda r: None).process_exception(
+        request, OperationalError("database is locked")
+    )
+    assert response.status_code == 503 and response["Retry-After"] == "5"
+    assert b"Nothing from your" in response.content
+    other = DatabaseBusyMiddleware(lambda r: None).process_exception(request, OperationalError("no such table"))
+    assert other is None  # any other database error stays an error
