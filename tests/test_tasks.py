@@ -128,10 +128,14 @@ def test_inline_a_failing_task_raises_its_own_error_at_once_and_the_rows_stay_as
 
 
 @pytest.fixture
-def as_on_a_worker(monkeypatch):
+def as_on_a_worker():
     """Errors stay with the task instead of reaching a caller, so Celery's own retries run (inline, without
-    the back-off wait)."""
-    monkeypatch.setattr(celery_app.conf, "task_eager_propagates", False)
+    the back-off wait). Set and restored by hand: Celery's settings object is a mapping that newer pytest
+    versions of monkeypatch cannot restore."""
+    previous = celery_app.conf.task_eager_propagates
+    celery_app.conf.task_eager_propagates = False
+    yield
+    celery_app.conf.task_eager_propagates = previous
 
 
 def test_a_task_that_keeps_failing_is_retried_to_its_limit_then_leaves_the_rows_as_they_were(
