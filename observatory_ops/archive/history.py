@@ -5,6 +5,7 @@ import datetime as dt
 from dataclasses import dataclass, field
 
 from django.apps import apps
+from django.core.exceptions import FieldDoesNotExist
 from django.db import models
 
 KIND = {"+": "created", "~": "changed", "-": "deleted"}
@@ -32,6 +33,18 @@ def _text(value) -> str:
     return "" if value is None else str(value)
 
 
+def _shown(model, name: str, value) -> str:
+    """A changed value as a person reads it: a related record by its name, not its id."""
+    try:
+        field = model._meta.get_field(name)
+    except FieldDoesNotExist:  # a field since removed from the model: show the stored value
+        return _text(value)
+    if field.is_relation and value is not None:
+        related = field.related_model._default_manager.filter(pk=value).first()
+        return str(related) if related is not None else _text(value)
+    return _text(value)
+
+
 def changes(instance: models.Model, limit: int | None = None) -> list[Change]:
     """The instance's history, newest first, each change with the fields it changed (before, after)."""
     records = list(instance.history.select_related("history_user").order_by("-history_date", "-history_id"))
@@ -41,7 +54,8 @@ def changes(instance: models.Model, limit: int | None = None) -> list[Change]:
         diffs = []
         if previous is not None and record.history_type == "~":
             delta = record.diff_against(previous)
-            diffs = [(c.field, _text(c.old), _text(c.new)) for c in delta.changes]
+            model = type(instance)
+            diffs = [(c.field, _shown(model, c.field, c.old), _shown(model, c.field, c.new)) for c in delta.changes]
         user = record.history_user
         out.append(
             Change(
