@@ -141,21 +141,23 @@ def cheapest_windows(cost: ArrayLike, days: int, alternatives: int = 3) -> list[
 
 @dataclass(frozen=True)
 class Phase:
-    """One step of a downtime job and the whole days it takes."""
+    """One step of a downtime job, the whole days it takes, and the kind of hands-on work it is
+    ("" for a step without work at the telescope, such as transport)."""
 
     name: str
     days: int
+    work: str = ""
 
 
 #: The steps of recoating a primary mirror and their usual lengths in days for a small observatory's
 #: 0.5-2 m mirror coated at an outside plant a day's drive away (common practice, no published source).
 RECOAT_PHASES: tuple[Phase, ...] = (
-    Phase("removal", 2),
+    Phase("removal", 2, "removal"),
     Phase("transport", 1),
-    Phase("strip and coat", 3),
+    Phase("strip and coat", 3, "coating"),
     Phase("return", 1),
-    Phase("reinstall", 2),
-    Phase("realignment and measurement", 3),
+    Phase("reinstall", 2, "reinstall"),
+    Phase("realignment and measurement", 3, "realignment"),
 )
 
 

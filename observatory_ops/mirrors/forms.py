@@ -33,7 +33,7 @@ class WindowForm(forms.Form):
             )
 
     def phases(self) -> list[Phase]:
-        return [Phase(p.name, self.cleaned_data[f"phase_{i}"]) for i, p in enumerate(RECOAT_PHASES)]
+        return [Phase(p.name, self.cleaned_data[f"phase_{i}"], p.work) for i, p in enumerate(RECOAT_PHASES)]
 
     def clean_start(self):
         start = self.cleaned_data["start"]

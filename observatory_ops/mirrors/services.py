@@ -240,7 +240,7 @@ def recoat_windows(mirror: Mirror, start: dt.date, horizon_days: int, phases: li
 
 # --- recoat plans -----------------------------------------------------------------------------------
 
-#: What each phase of a recoat asks of the work order made for it: (hazards, steps).
+#: What each kind of recoat work (``calc.windows.Phase.work``) asks of its work order: (hazards, steps).
 _PHASE_WORK = {
     "removal": (
         ("suspended_load", "optical_surface", "moving_machinery", "height"),
@@ -267,15 +267,6 @@ _PHASE_WORK = {
 }
 
 
-def _phase_kind(name: str) -> str | None:
-    lowered = name.lower()
-    for key, words in (("removal", ("remov",)), ("coating", ("coat", "strip")), ("reinstall", ("reinstall",)),
-                       ("realignment", ("align", "measure"))):
-        if any(w in lowered for w in words):
-            return key
-    return None
-
-
 def recoat_plan_create(
     mirror: Mirror, starts_on: dt.date, phases: list[windows.Phase], cost: float, by
 ) -> RecoatPlan:
@@ -294,8 +285,8 @@ def recoat_plan_create(
         )
         day = starts_on
         for phase in phases:
-            kind = _phase_kind(phase.name)
-            if kind is not None:
+            kind = phase.work
+            if kind in _PHASE_WORK and phase.days > 0:
                 hazards, steps = _PHASE_WORK[kind]
                 hazards = [h for h in HAZARDS if h in set(hazards) | set(subsystem.hazards)]
                 order = WorkOrder.objects.create(
