@@ -212,3 +212,30 @@ def test_a_tube_far_from_its_aperture_class_is_flagged(telescope, users, client)
     telescope.save()
     client.force_login(users["viewer"])
     assert b"rule of thumb" in client.get(f"/sites/{telescope.site.slug}/").content
+
+
+@pytest.mark.parametrize("quantity, value, message", [
+    ("settle_time_s", -0.2, "cannot be negative"),
+    ("reflectance", 1.2, "between 0 and 1"),
+])
+def test_an_impossible_reading_is_refused_and_nothing_is_stored(telescope, users, quantity, value, message):
+    from django.core.exceptions import ValidationError
+    from django.utils import timezone
+
+    from observatory_ops.logbook.models import Reading
+    from observatory_ops.logbook.services import reading_log
+
+    drive = subsystem_create(telescope, "axis1_drive", "Drive", counting_from=dt.date(2026, 1, 1))
+    with pytest.raises(ValidationError, match=message):
+        reading_log(drive, quantity, value, timezone.now(), users["technician"])
+    assert not Reading.objects.exists()
+
+
+def test_a_negative_reading_on_the_finish_form_is_refused_and_nothing_changes(order, users):
+    services.work_order_move(order, "issue", users["engineer"])
+    services.work_order_move(order, "start", users["technician"])
+    readings = _all_readings(order, 0.5)
+    readings[order.required_readings.get(quantity="settle_time_s").pk] = -1.0
+    with pytest.raises(services.Refused, match="cannot be negative"):
+        services.work_order_finish(order, users["technician"], 1.0, "", readings)
+    assert _state(order) == State.UNDERWAY and not ServiceRecord.objects.exists()

@@ -19,7 +19,7 @@ from observatory_ops.registry.models import Site, Subsystem
 
 from . import nights_csv
 from .models import NightUsage, Reading, ServiceRecord
-from .quantities import QUANTITIES
+from .quantities import QUANTITIES, value_problem
 
 _USAGE_FIELDS = [c for c in nights_csv.COLUMNS if c != "night"]
 
@@ -168,8 +168,9 @@ def reading_log(
     """Append a reading and refresh the due states it may change."""
     if quantity not in QUANTITIES:
         raise ValidationError(f"unknown quantity {quantity!r}")
-    if quantity == "reflectance" and not 0 <= value <= 1:
-        raise ValidationError("a reflectance is a fraction between 0 and 1")
+    problem = value_problem(quantity, value)
+    if problem:
+        raise ValidationError(problem)
     if taken_at > timezone.now() + dt.timedelta(minutes=5):
         raise ValidationError("a reading cannot be taken in the future")
     with transaction.atomic():

@@ -44,7 +44,7 @@ class Kind:
 _INSPECT_STEPS = (
     "Read the last service record and open faults for this subsystem.",
     "Inspect for wear, looseness, contamination and damage; photograph anything unusual.",
-    "Record the readings listed on this work order.",
+    "Record the readings listed on this work order, if any.",
     "Restore the subsystem to service and test it under observation.",
 )
 

@@ -15,7 +15,7 @@ from django.utils import timezone
 from observatory_ops.access.roles import has_role
 from observatory_ops.calc import lifting
 from observatory_ops.logbook.models import Reading, ServiceRecord
-from observatory_ops.logbook.quantities import QUANTITIES
+from observatory_ops.logbook.quantities import QUANTITIES, value_problem
 from observatory_ops.planning.metrics import READING
 from observatory_ops.planning.models import ServicePlan
 from observatory_ops.planning.services import site_recompute, site_today
@@ -205,8 +205,9 @@ def work_order_finish(
         names = ", ".join(f"{QUANTITIES[r.quantity][0]} on {r.subsystem.name}" for r in missing)
         raise Refused(f"record every required reading before finishing (missing: {names})")
     for r in required:
-        if r.quantity == "reflectance" and not 0 <= readings[r.pk] <= 1:
-            raise Refused("a reflectance is a fraction between 0 and 1")
+        problem = value_problem(r.quantity, readings[r.pk])
+        if problem:
+            raise Refused(f"{problem} ({r.subsystem.name})")
     parts_used = parts_used or {}
     if any(q < 0 for q in parts_used.values()):
         raise Refused("a quantity of parts used cannot be negative")
