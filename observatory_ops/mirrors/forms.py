@@ -29,11 +29,15 @@ class WindowForm(forms.Form):
         super().__init__(*args, **kwargs)
         for i, phase in enumerate(RECOAT_PHASES):
             self.fields[f"phase_{i}"] = forms.IntegerField(
-                label=f"{phase.name} (days)", min_value=0, max_value=90, initial=phase.days
+                label=f"{phase.name} (days)", min_value=0, max_value=90, initial=phase.days, required=False
             )
 
     def phases(self) -> list[Phase]:
-        return [Phase(p.name, self.cleaned_data[f"phase_{i}"], p.work) for i, p in enumerate(RECOAT_PHASES)]
+        def days(i: int, phase: Phase) -> int:
+            given = self.cleaned_data.get(f"phase_{i}")
+            return phase.days if given is None else given
+
+        return [Phase(p.name, days(i, p), p.work) for i, p in enumerate(RECOAT_PHASES)]
 
     def clean_start(self):
         start = self.cleaned_data["start"]
