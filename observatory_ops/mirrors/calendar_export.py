@@ -19,24 +19,22 @@ def site_calendar(site: Site, base_url: str) -> bytes:
     calendar.add("version", "2.0")
     calendar.add("x-wr-calname", f"{site.name}: planned work")
     stamp = timezone.now()
+
+    def all_day(uid: str, first: dt.date, last: dt.date, summary: str, description: str) -> None:
+        # RFC 5545 3.6.1: an all-day event's DTEND is the day after its last day.
+        event = Event()
+        for key, value in (("uid", f"{uid}@observatory-ops"), ("dtstamp", stamp), ("dtstart", first),
+                           ("dtend", last + dt.timedelta(days=1)), ("summary", summary),
+                           ("description", description)):
+            event.add(key, value)
+        calendar.add_component(event)
+
     orders = WorkOrder.objects.filter(site=site, planned_date__isnull=False).exclude(state=State.WITHDRAWN)
     for order in orders:
-        event = Event()
-        event.add("uid", f"workorder-{order.pk}@observatory-ops")
-        event.add("dtstamp", stamp)
-        event.add("dtstart", order.planned_date)
-        event.add("dtend", order.planned_date + dt.timedelta(days=1))
-        event.add("summary", f"{order.number} {order.title}")
         address = base_url.rstrip("/") + order.get_absolute_url()
-        event.add("description", f"State: {order.get_state_display()}. {address}")
-        calendar.add_component(event)
+        all_day(f"workorder-{order.pk}", order.planned_date, order.planned_date, f"{order.number} {order.title}",
+                f"State: {order.get_state_display()}. {address}")
     for plan in RecoatPlan.objects.filter(mirror__subsystem__telescope__site=site).select_related("mirror__subsystem"):
-        event = Event()
-        event.add("uid", f"recoat-{plan.pk}@observatory-ops")
-        event.add("dtstamp", stamp)
-        event.add("dtstart", plan.starts_on)
-        event.add("dtend", plan.ends_on + dt.timedelta(days=1))
-        event.add("summary", f"Recoat window: {plan.mirror.subsystem}")
-        event.add("description", ", ".join(f"{p['name']} {p['days']} d" for p in plan.phases))
-        calendar.add_component(event)
+        all_day(f"recoat-{plan.pk}", plan.starts_on, plan.ends_on, f"Recoat window: {plan.mirror.subsystem}",
+                ", ".join(f"{p['name']} {p['days']} d" for p in plan.phases))
     return calendar.to_ical()

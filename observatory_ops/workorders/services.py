@@ -19,7 +19,7 @@ from observatory_ops.logbook.quantities import QUANTITIES, value_problem
 from observatory_ops.planning.metrics import READING
 from observatory_ops.planning.models import ServicePlan
 from observatory_ops.planning.services import site_recompute, site_today
-from observatory_ops.registry.models import Site, Subsystem, Telescope
+from observatory_ops.registry.models import Site, Subsystem
 
 from .cautions import HAZARDS
 from .lifecycle import TRANSITIONS
@@ -114,11 +114,14 @@ def _require_reading(order: WorkOrder, subsystem: Subsystem, quantity: str, limi
 
 def work_order_ad_hoc(
     site: Site, subsystems: Sequence[Subsystem], title: str, by, order_type: str = WorkOrder.Type.CORRECTIVE,
-    steps: str = "", telescope: Telescope | None = None,
+    steps: str = "",
 ) -> WorkOrder:
-    """A work order not driven by a due item (a fault, an upgrade)."""
+    """A work order not driven by a due item (a fault, an upgrade); its telescope is the subsystems' own
+    when they share one."""
     if any(s.telescope.site_id != site.pk for s in subsystems):
         raise Refused("every subsystem must belong to the work order's site")
+    telescopes = {s.telescope for s in subsystems}
+    telescope = telescopes.pop() if len(telescopes) == 1 else None
     hazards = _hazards_of(subsystems, [])
     with transaction.atomic():
         order = WorkOrder.objects.create(

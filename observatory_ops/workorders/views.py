@@ -59,11 +59,8 @@ def work_order_ad_hoc(request, slug):
     form = AdHocForm(request.POST or None, site=site)
     if request.method == "POST" and form.is_valid():
         d = form.cleaned_data
-        subsystems = list(d["subsystems"])
-        telescopes = {s.telescope for s in subsystems}
         order = services.work_order_ad_hoc(
-            site, subsystems, d["title"], request.user, order_type=d["order_type"], steps=d["steps"],
-            telescope=telescopes.pop() if len(telescopes) == 1 else None,
+            site, list(d["subsystems"]), d["title"], request.user, order_type=d["order_type"], steps=d["steps"]
         )
         messages.success(request, f"{order.number} drafted.")
         return redirect(order)

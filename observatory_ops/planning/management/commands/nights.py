@@ -5,7 +5,7 @@ from django.core.management.base import BaseCommand, CommandError
 
 from observatory_ops.calc import nights
 from observatory_ops.planning import selectors, services
-from observatory_ops.registry.models import Site
+from observatory_ops.planning.management import place
 
 
 class Command(BaseCommand):
@@ -15,27 +15,15 @@ class Command(BaseCommand):
     )
 
     def add_arguments(self, parser):
-        parser.add_argument("slug", nargs="?", help="registered site (uses and fills its nights cache)")
-        parser.add_argument("--lat", type=float, help="latitude, degrees north")
-        parser.add_argument("--lon", type=float, help="longitude, degrees east")
-        parser.add_argument("--elevation-m", type=float, default=0.0)
-        parser.add_argument("--tz", help="IANA time zone, e.g. Europe/Madrid")
-        parser.add_argument("--start", required=True, help="local date of the first evening, YYYY-MM-DD")
+        place.add_arguments(parser, "local date of the first evening, YYYY-MM-DD")
         parser.add_argument("--days", type=int, required=True)
         parser.add_argument("--json", action="store_true", help="print a JSON list, one object per night")
 
     def handle(self, *args, **o):
+        start = place.start_of(o)
         try:
-            start = dt.date.fromisoformat(o["start"])
-        except ValueError:
-            raise CommandError(f"--start must be a date as YYYY-MM-DD, not {o['start']!r}") from None
-        try:
-            if o["slug"]:
-                if any(o[k] is not None for k in ("lat", "lon", "tz")):
-                    raise CommandError("give either a site slug or --lat/--lon/--tz, not both")
-                site = Site.objects.filter(slug=o["slug"]).first()
-                if site is None:
-                    raise CommandError(f"no site with slug {o['slug']!r}")
+            site = place.site_of(o)
+            if site is not None:
                 nights.Site(site.latitude_deg, site.longitude_deg, site.elevation_m, site.time_zone)
                 if not 1 <= o["days"] <= nights.MAX_NIGHTS:
                     raise ValueError(f"--days must be between 1 and {nights.MAX_NIGHTS}, not {o['days']}")
@@ -43,13 +31,7 @@ class Command(BaseCommand):
                 services.site_sky_refresh(site, start, end)
                 records = selectors.sky_records(site, start, end)
             else:
-                missing = [f"--{k}" for k in ("lat", "lon", "tz") if o[k] is None]
-                if missing:
-                    raise CommandError(
-                        f"give a site slug, or all of --lat, --lon and --tz (missing {', '.join(missing)})"
-                    )
-                place = nights.Site(o["lat"], o["lon"], o["elevation_m"], o["tz"])
-                records = nights.nights_for_range(place, start, o["days"]).to_records()
+                records = nights.nights_for_range(place.position_of(o), start, o["days"]).to_records()
         except ValueError as exc:
             raise CommandError(str(exc)) from None
         if o["json"]:
