@@ -190,3 +190,23 @@ def test_threshold_outside_zero_to_one_is_refused():
     fit = fit_decline([0.0, 500.0, 1000.0], [0.91, 0.90, 0.89])
     with pytest.raises(ValueError, match="threshold must lie between 0 and 1"):
         crossing_exposure(fit, 85.0)
+
+
+@pytest.mark.parametrize("seed", range(5))
+def test_the_quadratic_solver_agrees_with_numpy_roots(seed):
+    """Outside reference: numpy.roots (eigenvalues of the companion matrix), an independent method."""
+    from observatory_ops.calc.reflectance import _real_roots
+
+    rng = np.random.default_rng(seed)
+    for a, b, c in rng.normal(size=(50, 3)) * [1.0, 10.0, 5.0]:
+        expected = np.roots([a, b, c])
+        expected = np.sort(expected.real[np.abs(expected.imag) < 1e-12])
+        assert _real_roots(a, b, c) == pytest.approx(list(expected), rel=1e-9, abs=1e-12)
+
+
+def test_a_double_root_lost_to_rounding_is_still_found():
+    """(x - 2500)^2 scaled as in a noise-free fit: the discriminant is zero, or below it by rounding."""
+    from observatory_ops.calc.reflectance import _real_roots
+
+    rate, margin = 2e-5, 0.05
+    assert _real_roots(rate**2, -2 * margin * rate, margin**2) == pytest.approx([2500.0, 2500.0])

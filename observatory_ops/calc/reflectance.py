@@ -25,6 +25,7 @@ section 15.5, from memory; for a straight line it equals the textbook standard e
 intercept, NIST/SEMATECH e-Handbook of Statistical Methods, chapter 4, from memory).
 """
 
+import math
 from collections.abc import Sequence
 from dataclasses import dataclass
 
@@ -242,14 +243,11 @@ def crossing_exposure(fit: DeclineFit, threshold: float) -> Crossing:
     g0 = _jacobian(params, np.array([0.0]), last_cleaning)[0]
     g1 = _jacobian(params, np.array([1.0]), last_cleaning)[0] - g0
     rate = fit.rate_per_hour
-    roots = np.roots(
-        [
-            rate**2 - g1 @ covariance @ g1,
-            -2.0 * (margin * rate + g0 @ covariance @ g1),
-            margin**2 - g0 @ covariance @ g0,
-        ]
+    real_roots = _real_roots(
+        rate**2 - g1 @ covariance @ g1,
+        -2.0 * (margin * rate + g0 @ covariance @ g1),
+        margin**2 - g0 @ covariance @ g0,
     )
-    real_roots = np.sort(roots.real[np.abs(roots.imag) <= 1e-9 * np.maximum(1.0, np.abs(roots.real))])
 
     def mean_minus_threshold(exposure: float) -> float:
         return margin - rate * exposure
@@ -263,11 +261,34 @@ def crossing_exposure(fit: DeclineFit, threshold: float) -> Crossing:
             return start
         # A root of the quadratic lies on the lower band where the mean is above the threshold, on the
         # upper band where it is below.
-        candidates = [r for r in real_roots if r > start and np.sign(mean_minus_threshold(r)) == -side]
+        # (A band of no width, from readings on a perfect line, gives a double root on both at once.)
+        tolerance = 1e-9 * abs(margin)
+        candidates = [r for r in real_roots if r > start and -side * mean_minus_threshold(r) >= -tolerance]
         return float(candidates[0]) if candidates else float("inf")
 
     central = start if mean_minus_threshold(start) <= 0 else (margin / rate if rate > 0 else float("inf"))
     return Crossing(exposure_h=float(central), early_h=first_reach(-1.0), late_h=first_reach(1.0))
+
+
+def _real_roots(a: float, b: float, c: float) -> list[float]:
+    """Real roots of ``a x^2 + b x + c``, smallest first.
+
+    The cancellation-free form ``q = -(b + sign(b) sqrt(b^2 - 4ac)) / 2``, roots ``q / a`` and ``c / q``
+    (Press et al., Numerical Recipes, "Quadratic and cubic equations", from memory). A discriminant
+    below zero by no more than rounding (a band of no width touching the threshold) counts as zero, so
+    a double root is found rather than lost as a pair of complex ones.
+    """
+    if a == 0.0:
+        return [-c / b] if b != 0.0 else []
+    discriminant = b * b - 4.0 * a * c
+    if discriminant < 0.0:
+        if -discriminant > 1e-10 * max(b * b, abs(4.0 * a * c)):
+            return []
+        discriminant = 0.0
+    q = -0.5 * (b + math.copysign(math.sqrt(discriminant), b))
+    if q == 0.0:  # b = 0 and c = 0: both roots at zero
+        return [0.0, 0.0]
+    return sorted([q / a, c / q])
 
 
 def throughput_loss_mag(r_now: Sequence[float], r_fresh: Sequence[float]) -> float:
