@@ -7,7 +7,15 @@ import zoneinfo
 _NOON = dt.time(12, 0)
 
 
-def night_of(moment_utc: dt.datetime, zone: str) -> dt.date:
+def zone(name: str) -> zoneinfo.ZoneInfo:
+    """The IANA time zone ``name`` (for example ``"America/Denver"``); ValueError naming it when unknown."""
+    try:
+        return zoneinfo.ZoneInfo(name)
+    except (zoneinfo.ZoneInfoNotFoundError, ValueError, TypeError):
+        raise ValueError(f"unknown time zone {name!r}: give an IANA time zone name such as 'Europe/Madrid'") from None
+
+
+def night_of(moment_utc: dt.datetime, zone_name: str) -> dt.date:
     """The night a moment belongs to: the local date of that night's evening.
 
     Method
@@ -22,7 +30,7 @@ def night_of(moment_utc: dt.datetime, zone: str) -> dt.date:
     Parameters
     ----------
     moment_utc : an aware datetime (any offset; it is read as an instant).
-    zone : IANA time zone name of the site, e.g. ``"America/Denver"``.
+    zone_name : IANA time zone name of the site, e.g. ``"America/Denver"``.
 
     Returns
     -------
@@ -31,15 +39,11 @@ def night_of(moment_utc: dt.datetime, zone: str) -> dt.date:
     Raises
     ------
     ValueError
-        When ``moment_utc`` is naive or ``zone`` is not an IANA time zone name.
+        When ``moment_utc`` is naive or ``zone_name`` is not an IANA time zone name.
     """
     if not isinstance(moment_utc, dt.datetime) or moment_utc.utcoffset() is None:
         raise ValueError(f"the moment must be an aware datetime (with a UTC offset), not {moment_utc!r}")
-    try:
-        tz = zoneinfo.ZoneInfo(zone)
-    except (zoneinfo.ZoneInfoNotFoundError, ValueError, TypeError):
-        raise ValueError(f"{zone!r} is not an IANA time zone name (for example Europe/Madrid)") from None
-    local = moment_utc.astimezone(tz)
+    local = moment_utc.astimezone(zone(zone_name))
     if local.time() < _NOON:
         return local.date() - dt.timedelta(days=1)
     return local.date()

@@ -24,7 +24,7 @@ from __future__ import annotations
 import datetime as dt
 import math
 from dataclasses import dataclass
-from zoneinfo import ZoneInfo, ZoneInfoNotFoundError
+from zoneinfo import ZoneInfo
 
 import erfa
 import numpy as np
@@ -35,6 +35,7 @@ from numpy.typing import NDArray
 from scipy.interpolate import CubicSpline
 
 from observatory_ops.calc import astropy_offline
+from observatory_ops.calc.night_of import zone as zone_named
 
 astropy_offline.configure()
 
@@ -89,7 +90,7 @@ class Site:
         _check_number("latitude", self.latitude_deg, 90.0)
         _check_number("longitude", self.longitude_deg, 180.0)
         _check_number("elevation", self.elevation_m, math.inf)
-        _zone(self.time_zone)
+        zone_named(self.time_zone)
 
 
 @dataclass(frozen=True, eq=False)
@@ -179,7 +180,7 @@ def nights_for_range(site: Site, start: dt.date, days: int) -> NightTable:
         When ``start`` is not a date or ``days`` is out of range.
     """
     _check_range(start, days)
-    zone = _zone(site.time_zone)
+    zone = zone_named(site.time_zone)
     noons = _local_clock_days(zone, start, days + 1, 12)
     midnights = _local_clock_days(zone, start + dt.timedelta(days=1), days, 0)
     first_node = math.floor(noons[0]) - _NODE_MARGIN_DAYS
@@ -214,13 +215,6 @@ def _check_number(name: str, value: object, limit: float) -> None:
     if not (math.isfinite(number) and abs(number) <= limit):
         allowed = "a finite number" if math.isinf(limit) else f"between -{limit:g} and {limit:g} degrees"
         raise ValueError(f"{name} must be {allowed}, not {value!r}")
-
-
-def _zone(name: str) -> ZoneInfo:
-    try:
-        return ZoneInfo(name)
-    except (ZoneInfoNotFoundError, ValueError, TypeError):
-        raise ValueError(f"unknown time zone {name!r}: give an IANA name such as 'Europe/Madrid'") from None
 
 
 def _check_range(start: dt.date, days: int) -> None:

@@ -9,14 +9,16 @@ from django.db import models
 from django.urls import reverse
 from simple_history.models import HistoricalRecords
 
+from observatory_ops.calc import night_of
+
 from .catalogue import KIND_CHOICES, KINDS
 
 
 def validate_time_zone(value: str) -> None:
     try:
-        zoneinfo.ZoneInfo(value)
-    except (zoneinfo.ZoneInfoNotFoundError, ValueError):
-        raise ValidationError(f"{value!r} is not an IANA time zone name (for example Europe/Madrid).") from None
+        night_of.zone(value)
+    except ValueError as exc:
+        raise ValidationError(f"{str(exc)[0].upper()}{str(exc)[1:]}.") from None
 
 
 def validate_hazards(value) -> None:
