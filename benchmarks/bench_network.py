@@ -672,7 +672,9 @@ def run(args: argparse.Namespace) -> None:
     from django.test import Client
 
     from observatory_ops.planning import services
+    from observatory_ops.startup import freeze_loaded_objects
 
+    freeze_loaded_objects()  # as a deployment's workers do after start-up (wsgi.py, the Celery worker)
     with connection.cursor() as cursor:
         cursor.execute("SHOW server_version")
         server = cursor.fetchone()[0]

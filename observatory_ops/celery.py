@@ -19,6 +19,7 @@ from contextlib import contextmanager
 from pathlib import Path
 
 from celery import Celery, Task, chain
+from celery.signals import worker_init
 from django.db import IntegrityError, InterfaceError, OperationalError, transaction
 
 os.environ.setdefault("DJANGO_SETTINGS_MODULE", "observatory_ops.settings")
@@ -26,6 +27,13 @@ os.environ.setdefault("DJANGO_SETTINGS_MODULE", "observatory_ops.settings")
 app = Celery("observatory_ops")
 app.config_from_object("django.conf:settings", namespace="CELERY")
 app.autodiscover_tasks()
+
+
+@worker_init.connect
+def _freeze_after_start(**_kwargs) -> None:
+    from observatory_ops.startup import freeze_loaded_objects
+
+    freeze_loaded_objects()
 
 #: Test hook (see tests/test_workers.py): when this names a file that does not exist yet, a task writes
 #: its process id there and then waits inside its open transaction, so a test can kill the worker

@@ -6,6 +6,7 @@ returns every figure the mirror page, the command and the API show, each with ho
 from __future__ import annotations
 
 import datetime as dt
+import functools
 import math
 from dataclasses import dataclass, field
 
@@ -59,11 +60,15 @@ class MirrorForecast:
 
 
 def _coating_band(mirror: Mirror, metal: str, layers: list[dict]) -> float:
-    curve = coating.coating_curve(
-        metal, [coating.Layer(x["material"], float(x["thickness_nm"])) for x in layers],
-        from_nm=mirror.band_from_nm, to_nm=mirror.band_to_nm, step_nm=5,
-    )
-    return curve["band_mean"]
+    stack = tuple((x["material"], float(x["thickness_nm"])) for x in layers)
+    return _band_mean(metal, stack, mirror.band_from_nm, mirror.band_to_nm)
+
+
+@functools.lru_cache(maxsize=256)
+def _band_mean(metal: str, stack: tuple[tuple[str, float], ...], from_nm: float, to_nm: float) -> float:
+    """Band-mean reflectance of a fresh coating; a pure function of its recipe, so kept once computed."""
+    layers = [coating.Layer(material, thickness) for material, thickness in stack]
+    return coating.coating_curve(metal, layers, from_nm=from_nm, to_nm=to_nm, step_nm=5)["band_mean"]
 
 
 def _exposure_at(log: UsageLog, per_night: np.ndarray, since: dt.date, days: list[dt.date]) -> np.ndarray:
@@ -79,21 +84,24 @@ def mirror_forecast(
 ) -> MirrorForecast:
     """Fresh reflectance, fitted decline, current estimate, recoat threshold and its crossing date.
 
-    ``log`` and ``model`` (expected usage from ``today`` on) may be passed by a caller that has already
-    read them, such as the site recompute; otherwise they are read here.
+    ``log`` and ``model`` (expected usage from ``model.first_day``, on or before ``today``) may be passed
+    by a caller that has already read them, such as the site recompute; otherwise they are read here.
     """
-    site = mirror.subsystem.telescope.site
-    today = today or site_today(site)
-    last = mirror.coatings.order_by("-coated_on").first()
+    today = today or site_today(mirror.subsystem.telescope.site)
+    # Through ``.all()``, so the site recompute's prefetched rows serve (see planning.services).
+    last = max(mirror.coatings.all(), key=lambda c: (c.coated_on, c.pk), default=None)
     if last is None:
         return MirrorForecast(mirror, None, "", None, "no coating recorded", 0.0, fit_note="no coating recorded")
     fresh = _coating_band(mirror, last.metal, last.layers)
-    log = log if log is not None else UsageLog.for_site(site)
+    log = log if log is not None else UsageLog.for_site(mirror.subsystem.telescope.site)
     per_night = log.per_night(metrics.DUST_HOURS, mirror.dust_sensitivity)
-    measurements = list(
-        mirror.measurements.filter(measured_on__gte=last.coated_on, wavelength_nm__isnull=True).order_by("measured_on")
+    measurements = sorted(
+        (m for m in mirror.measurements.all() if m.measured_on >= last.coated_on and m.wavelength_nm is None),
+        key=lambda m: (m.measured_on, m.pk),
     )
-    cleanings = list(mirror.cleanings.filter(cleaned_on__gte=last.coated_on).order_by("cleaned_on"))
+    cleanings = sorted(
+        (c for c in mirror.cleanings.all() if c.cleaned_on >= last.coated_on), key=lambda c: (c.cleaned_on, c.pk)
+    )
     days = [m.measured_on for m in measurements] + [c.cleaned_on for c in cleanings] + [today]
     exposures = _exposure_at(log, per_night, last.coated_on, days)
     n, k = len(measurements), len(cleanings)
@@ -120,8 +128,9 @@ def mirror_forecast(
     result.threshold_basis = f"{mirror.recoat_loss:.0%} below the fitted fresh value R0 = {fit.r0:.4f}"
     crossing = reflectance.crossing_exposure(fit, result.threshold)
     result.crossing_exposure_h = crossing.exposure_h
-    model = model if model is not None else usage_model(site, log, today, 3 * 366)
-    expected = model.expected(metrics.DUST_HOURS, mirror.dust_sensitivity)
+    if model is None or model.first_day > today:
+        model = usage_model(mirror.subsystem.telescope.site, log, today, 3 * 366)
+    expected = model.expected(metrics.DUST_HOURS, mirror.dust_sensitivity)[(today - model.first_day).days :]
     result.dust_hours_per_day = float(expected[:30].mean())
     remaining = [x - result.exposure_now_h for x in (crossing.exposure_h, crossing.early_h, crossing.late_h)]
     offsets = [

@@ -7,6 +7,8 @@ hands arrays to the pure functions of ``observatory_ops.calc`` and stores one ``
 from __future__ import annotations
 
 import datetime as dt
+import functools
+import json
 from dataclasses import dataclass
 
 import numpy as np
@@ -180,28 +182,36 @@ class UsageModel:
         return f"dark hours of each coming night x {source}; band from month-to-month spread {self.spread:.0%}"
 
 
-def _dark_hours(site: Site, start: dt.date, end: dt.date) -> dict[dt.date, float]:
-    nights_ = NightSky.objects.filter(site=site, night__gte=start, night__lte=end).order_by()  # a dict: no sort
-    return dict(nights_.values_list("night", "dark_hours"))
+def _dark_hours(site: Site, start: dt.date, end: dt.date) -> np.ndarray | None:
+    """Dark hours of every night from ``start`` to ``end`` in order, or None when the cache lacks a night.
+
+    Only the hours are read, in night order (the unique index on site and night): when there are as many
+    rows as nights in the span, row ``i`` is the night ``start + i``.
+    """
+    rows = NightSky.objects.filter(site=site, night__gte=start, night__lte=end).order_by("night")
+    hours = np.array(rows.values_list("dark_hours", flat=True), dtype=float)
+    return hours if len(hours) == (end - start).days + 1 else None
 
 
 def usage_model(site: Site, log: UsageLog, first_day: dt.date, days: int) -> UsageModel:
     """Expected usage per night from ``first_day`` on, from the site's history and its sky."""
     end = first_day + dt.timedelta(days=days - 1)
-    start = min(_as_date(log.nights[0]), first_day) if len(log.nights) else first_day
+    if len(log.nights):  # the span covers every logged night and every coming one
+        start, end = min(_as_date(log.nights[0]), first_day), max(_as_date(log.nights[-1]), end)
+    else:
+        start = first_day
     sky = _dark_hours(site, start, end)
-    if len(sky) < (end - start).days + 1:  # the cache lacks nights: fill them, then read again
+    if sky is None:  # the cache lacks nights: fill them, then read again
         site_sky_refresh(site, start, end)
         sky = _dark_hours(site, start, end)
-    past_nights = log.nights.astype(object)  # datetime.date of each logged night
-    past_dark = np.array([sky.get(n, 0.0) for n in past_nights], dtype=float)
+    past_dark = sky[(log.nights - np.datetime64(start, "D")).astype(int)]
     past_months = log.nights.astype("datetime64[M]").astype(int) % 12 + 1
     open_h = log.columns["open_hours"]
     fraction, from_history = forecast.monthly_open_fraction(past_months, open_h, past_dark)
 
-    coming = [first_day + dt.timedelta(days=i) for i in range(days)]
-    months = np.array([d.month for d in coming], dtype=int)
-    dark = np.array([sky[d] for d in coming], dtype=float)
+    coming = np.datetime64(first_day, "D") + np.arange(days)
+    months = coming.astype("datetime64[M]").astype(int) % 12 + 1
+    dark = sky[(first_day - start).days :][:days]
     open_hours = dark * fraction[months - 1]
 
     total_open = float(open_h.sum())
@@ -273,30 +283,46 @@ def site_recompute(site: Site, today: dt.date | None = None) -> int:
         return _site_recompute(site, today)
 
 
+@dataclass(frozen=True)
+class _Plan:
+    """What the recompute reads of a service plan."""
+
+    pk: int
+    subsystem_id: int
+    counting_from: dt.date
+    dust_sensitivity: float
+
+
 def _site_recompute(site: Site, today: dt.date | None) -> int:
     today = today or site_today(site)
-    plans = list(
-        ServicePlan.objects.filter(subsystem__telescope__site=site, active=True, subsystem__retired_on__isnull=True)
-    )
-    mirrors = _mirrors_by_subsystem(site)
-    # Rows, not model instances: a site has hundreds of triggers and only these five fields are read.
+    # One query for the triggers of every active plan, each with the four plan fields read here: rows, not
+    # model instances, since a site has hundreds. A plan without triggers has no due state.
+    plans: list[_Plan] = []
     triggers_of: dict[int, list] = {}
     for trig in (
-        Trigger.objects.filter(plan__subsystem__telescope__site=site)
-        .order_by("pk")
-        .values_list("plan_id", "metric", "limit", "quantity", "direction", named=True)
+        Trigger.objects.filter(
+            plan__subsystem__telescope__site=site, plan__active=True, plan__subsystem__retired_on__isnull=True
+        )
+        .order_by("plan_id", "pk")
+        .values_list("plan_id", "plan__subsystem_id", "plan__counting_from", "plan__dust_sensitivity", "metric",
+                     "limit", "quantity", "direction", named=True)
     ):
-        triggers_of.setdefault(trig.plan_id, []).append(trig)
+        if trig.plan_id not in triggers_of:
+            plans.append(_Plan(trig.plan_id, trig.plan__subsystem_id, trig.plan__counting_from,
+                               trig.plan__dust_sensitivity))
+            triggers_of[trig.plan_id] = []
+        triggers_of[trig.plan_id].append(trig)
+    mirrors = _mirrors_by_subsystem(site)
     log = UsageLog.for_site(site)
     last_logged = _as_date(log.nights[-1]) if len(log.nights) else None
     first_day = min(today, last_logged + dt.timedelta(days=1)) if last_logged else today
-    model = usage_model(site, log, first_day, HORIZON_DAYS)
+    model = usage_model(site, log, first_day, (today - first_day).days + HORIZON_DAYS)  # to the horizon from today
     last_service = _effective_last_service(site)
     baselines = {p.pk: max(last_service.get(p.pk, p.counting_from), p.counting_from) for p in plans}
     readings = _readings_by_subsystem_quantity(site, plans, triggers_of, baselines)
 
     states: dict[int, list[TriggerState]] = {p.pk: [] for p in plans}
-    groups: dict[tuple[str, float], list[tuple[ServicePlan, tuple]]] = {}
+    groups: dict[tuple[str, float], list[tuple]] = {}  # (metric, dust sensitivity) -> [(plan, trigger)]
     for plan in plans:
         for trig in triggers_of.get(plan.pk, []):
             if trig.metric == metrics.CALENDAR_DAYS:
@@ -350,48 +376,42 @@ def _site_recompute(site: Site, today: dt.date | None) -> int:
         gov = governing(states[plan.pk])
         ordered = [gov] + [s for s in states[plan.pk] if s is not gov]
         status = due_status(gov, today, site.look_ahead_days)
-        rows.append(
-            PlanStatus(
-                plan=plan,
-                site=site,
-                status=status,
-                urgency=STATUSES.index(status),
-                metric=gov.metric,
-                value=gov.value,
-                limit=gov.limit,
-                unit=gov.unit,
-                rate_per_day=gov.rate_per_day,
-                forecast_date=gov.forecast,
-                earliest=gov.earliest,
-                latest=gov.latest,
-                last_service_on=last_service.get(plan.pk),
-                reason=reason_text(gov),
-                triggers=[_state_json(s) for s in ordered],
-                computed_at=now,
-            )
-        )
+        rows.append((
+            plan.pk, site.pk, status, STATUSES.index(status), gov.metric, float(gov.value), float(gov.limit), gov.unit,
+            None if gov.rate_per_day is None else float(gov.rate_per_day), gov.forecast, gov.earliest, gov.latest, last_service.get(plan.pk),
+            reason_text(gov), [_state_json(s) for s in ordered], now,
+        ))
     PlanStatus.objects.filter(site=site).delete()
-    _insert_all(PlanStatus, rows)
+    _insert_all(PlanStatus, STATUS_COLUMNS, rows)
     return len(rows)
 
 
-def _insert_all(model, objects: list) -> None:
-    """Insert rows in one statement: one round of SQL however many plans a site has.
+#: The ``PlanStatus`` fields, in the order of the rows ``_site_recompute`` builds.
+STATUS_COLUMNS = (
+    "plan", "site", "status", "urgency", "metric", "value", "limit", "unit", "rate_per_day", "forecast_date",
+    "earliest", "latest", "last_service_on", "reason", "triggers", "computed_at",
+)
 
-    ``bulk_create`` would split the rows into batches bounded by the database's parameter limit (55 rows
-    a statement on SQLite for PlanStatus), making the query count grow with the number of plans. On
-    PostgreSQL the rows go in one ``COPY``; elsewhere in one ``executemany``. (psycopg's ``executemany``
-    under Django's client-side binding composes and sends one statement per row in Python, which took
-    about a third of a recompute on PostgreSQL: see benchmarks/bench_network.py.)
+
+def _insert_all(model, names: tuple[str, ...], rows: list[tuple]) -> None:
+    """Insert rows of plain values (foreign keys as ids) into ``model``'s ``names`` fields in one statement.
+
+    One round of SQL however many plans a site has: ``bulk_create`` would split the rows into batches
+    bounded by the database's parameter limit (55 rows a statement on SQLite for PlanStatus), and would
+    need a model instance per row. On PostgreSQL the rows go in one ``COPY``; elsewhere in one
+    ``executemany``. Values are written as both databases read them: dates in ISO form, JSON as text,
+    a date-time through Django's own conversion (once per distinct value), the rest as they are.
     """
-    if not objects:
+    if not rows:
         return
-    fields = model._meta.concrete_fields
+    fields = [model._meta.get_field(name) for name in names]
     db = transaction.get_connection()  # itself, not the ``connection`` proxy: a thread-local lookup per use
+    convert = [_converter(f, db) for f in fields]
+    if any(convert):
+        rows = [[c(v) if c and v is not None else v for c, v in zip(convert, row, strict=True)] for row in rows]
     columns = ", ".join(db.ops.quote_name(f.column) for f in fields)
     # Table and column names come from the model and are quoted; every value is a bound parameter.
     table = db.ops.quote_name(model._meta.db_table)
-    rows = [[f.get_db_prep_save(f.pre_save(obj, add=True), db) for f in fields] for obj in objects]
     with db.cursor() as cursor:
         if db.vendor == "postgresql":
             with cursor.copy(f"COPY {table} ({columns}) FROM STDIN") as copy:
@@ -401,6 +421,18 @@ def _insert_all(model, objects: list) -> None:
             marks = ", ".join(["%s"] * len(fields))
             sql = f"INSERT INTO {table} ({columns}) VALUES ({marks})"  # noqa: S608  # nosec B608
             cursor.executemany(sql, rows)
+
+
+def _converter(field, db):
+    """How ``_insert_all`` writes a value of ``field``, or None to write it as it is."""
+    kind = field.get_internal_type()
+    if kind == "DateField":
+        return dt.date.isoformat
+    if kind == "JSONField":
+        return functools.partial(json.dumps, cls=field.encoder)
+    if kind == "DateTimeField":
+        return functools.lru_cache(maxsize=4)(lambda value: field.get_db_prep_save(value, db))
+    return None
 
 
 def _clamp(day: dt.date | None, today: dt.date) -> dt.date | None:
@@ -447,13 +479,14 @@ def _readings_by_subsystem_quantity(
 
 
 def _mirrors_by_subsystem(site: Site) -> dict:
-    """The site's mirrors by subsystem id, each with its subsystem, telescope and site (read by the forecast)."""
+    """The site's mirrors by subsystem id, with their coatings, measurements and cleanings (all that
+    ``mirror_forecast`` reads when given the day, the log and the usage model), in four queries."""
     from observatory_ops.mirrors.models import Mirror  # mirrors builds on planning
 
-    return {
-        m.subsystem_id: m
-        for m in Mirror.objects.filter(subsystem__telescope__site=site).select_related("subsystem__telescope__site")
-    }
+    mirrors = Mirror.objects.filter(subsystem__telescope__site=site).prefetch_related(
+        "coatings", "measurements", "cleanings"
+    )
+    return {m.subsystem_id: m for m in mirrors}
 
 
 def _recoat_line_state(mirror, today: dt.date, log: UsageLog, model: UsageModel) -> TriggerState | None:
@@ -462,7 +495,7 @@ def _recoat_line_state(mirror, today: dt.date, log: UsageLog, model: UsageModel)
 
     if mirror is None:
         return None
-    state = mirror_forecast(mirror, today, log, model if model.first_day == today else None)
+    state = mirror_forecast(mirror, today, log, model)
     if state.threshold is None or (state.current is None and state.fresh_band is None):
         return None
     return TriggerState(
