@@ -72,6 +72,16 @@ def users(db):
 
 
 @pytest.fixture
+def recomputes_recorded(monkeypatch) -> list[int]:
+    """Record the recomputes that storing nights asks for (the site's id each time) instead of running them."""
+    from observatory_ops.logbook import services
+
+    calls: list[int] = []
+    monkeypatch.setattr(services, "site_recompute", lambda site, **_options: calls.append(site.pk))
+    return calls
+
+
+@pytest.fixture
 def site(db):
     from observatory_ops.registry.models import Site
 

@@ -44,14 +44,12 @@ EXAMPLES = hypothesis.settings(
 
 
 @pytest.fixture(autouse=True)
-def recomputes(monkeypatch):
+def recomputes(recomputes_recorded):
     """Record due-state recomputes instead of running them (each costs seconds of sky computation).
 
     The real recompute runs in test_posted_nights_reach_the_due_list_the_api_returns.
     """
-    calls: list[int] = []
-    monkeypatch.setattr(logbook_services, "site_recompute", lambda site: calls.append(site.pk))
-    return calls
+    return recomputes_recorded
 
 
 @pytest.fixture

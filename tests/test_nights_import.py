@@ -43,14 +43,12 @@ _site_numbers = itertools.count()
 
 
 @pytest.fixture(autouse=True)
-def recomputes(monkeypatch):
+def recomputes(recomputes_recorded):
     """Record due-state recomputes instead of running them (each costs seconds of sky computation).
 
     The real recompute runs in test_a_successful_import_refreshes_the_due_states.
     """
-    calls: list[int] = []
-    monkeypatch.setattr(services, "site_recompute", lambda site: calls.append(site.pk))
-    return calls
+    return recomputes_recorded
 
 
 @pytest.fixture

@@ -1,6 +1,6 @@
 """What a trigger can count. Adding a trigger metric: add it here, then teach
-``observatory_ops.planning.services.per_night_usage`` how to read it from the nightly log
-(or, for a calendar-like metric, ``plans_recompute``)."""
+``observatory_ops.planning.services`` how to read it (``UsageLog.per_night`` for a quantity of the nightly
+log, ``_site_recompute`` for anything else)."""
 
 CALENDAR_DAYS = "calendar_days"
 OPEN_HOURS = "open_hours"

@@ -10,7 +10,7 @@ from observatory_ops.calc.triggers import STATUSES
 from observatory_ops.logbook.quantities import QUANTITY_CHOICES
 from observatory_ops.registry.models import Site, Subsystem
 
-from .metrics import METRIC_CHOICES, READING
+from .metrics import METRIC_CHOICES, METRICS, READING
 
 
 class ServicePlan(models.Model):
@@ -77,7 +77,8 @@ class PlanStatus(models.Model):
     """
 
     plan = models.OneToOneField(ServicePlan, on_delete=models.CASCADE, primary_key=True, related_name="status")
-    site = models.ForeignKey(Site, on_delete=models.CASCADE, related_name="+")
+    # No index of its own: the (site, status, forecast_date) index below serves every lookup by site.
+    site = models.ForeignKey(Site, on_delete=models.CASCADE, related_name="+", db_index=False)
     status = models.CharField(max_length=8, choices=[(s, s) for s in STATUSES])
     urgency = models.PositiveSmallIntegerField(help_text="0 overdue, 1 due, 2 later: sorts the due list.")
     metric = models.CharField(max_length=24, choices=METRIC_CHOICES)
@@ -96,6 +97,11 @@ class PlanStatus(models.Model):
     @property
     def metric_label(self) -> str:
         return self.get_metric_display()
+
+    @property
+    def trigger_rows(self) -> list[dict]:
+        """Every trigger's stored figures, governing first, each with its metric's label."""
+        return [{**t, "label": METRICS[t["metric"]][0]} for t in self.triggers]
 
     @property
     def progress(self) -> str:

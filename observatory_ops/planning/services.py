@@ -272,7 +272,7 @@ def _effective_last_service(site: Site) -> dict[int, dt.date]:
 
 
 def site_recompute(site: Site, today: dt.date | None = None) -> int:
-    """Recompute and store the due state of every active plan at ``site``. Returns the number of plans.
+    """Recompute and store the due state of every active plan at ``site``. Returns the number of plans stored.
 
     Recomputes of one site take turns: the site's row stays locked until the caller's transaction ends.
     Two at once on PostgreSQL would otherwise both delete the old rows, and the second would then insert
@@ -280,7 +280,7 @@ def site_recompute(site: Site, today: dt.date | None = None) -> int:
     """
     with transaction.atomic():
         Site.objects.select_for_update().filter(pk=site.pk).exists()
-        return _site_recompute(site, today)
+        return _site_recompute(site, today or site_today(site))
 
 
 @dataclass(frozen=True)
@@ -293,8 +293,7 @@ class _Plan:
     dust_sensitivity: float
 
 
-def _site_recompute(site: Site, today: dt.date | None) -> int:
-    today = today or site_today(site)
+def _site_recompute(site: Site, today: dt.date) -> int:
     # One query for the triggers of every active plan, each with the four plan fields read here: rows, not
     # model instances, since a site has hundreds. A plan without triggers has no due state.
     plans: list[_Plan] = []
@@ -312,7 +311,8 @@ def _site_recompute(site: Site, today: dt.date | None) -> int:
                                trig.plan__dust_sensitivity))
             triggers_of[trig.plan_id] = []
         triggers_of[trig.plan_id].append(trig)
-    mirrors = _mirrors_by_subsystem(site)
+    recoat = any(t.metric == metrics.RECOAT_LINE for p in plans for t in triggers_of[p.pk])
+    mirrors = _mirrors_by_subsystem(site) if recoat else {}
     log = UsageLog.for_site(site)
     last_logged = _as_date(log.nights[-1]) if len(log.nights) else None
     first_day = min(today, last_logged + dt.timedelta(days=1)) if last_logged else today
@@ -376,9 +376,10 @@ def _site_recompute(site: Site, today: dt.date | None) -> int:
         gov = governing(states[plan.pk])
         ordered = [gov] + [s for s in states[plan.pk] if s is not gov]
         status = due_status(gov, today, site.look_ahead_days)
+        gov_rate = None if gov.rate_per_day is None else float(gov.rate_per_day)
         rows.append((
             plan.pk, site.pk, status, STATUSES.index(status), gov.metric, float(gov.value), float(gov.limit), gov.unit,
-            None if gov.rate_per_day is None else float(gov.rate_per_day), gov.forecast, gov.earliest, gov.latest, last_service.get(plan.pk),
+            gov_rate, gov.forecast, gov.earliest, gov.latest, last_service.get(plan.pk),
             reason_text(gov), [_state_json(s) for s in ordered], now,
         ))
     PlanStatus.objects.filter(site=site).delete()
@@ -573,9 +574,8 @@ def reason_text(state: TriggerState) -> str:
 
 
 def _state_json(state: TriggerState) -> dict:
-    return {
+    return {  # the metric's label is looked up when shown (PlanStatus.trigger_rows), not stored 400 times a site
         "metric": state.metric,
-        "label": metrics.METRICS[state.metric][0],
         "value": round(state.value, 3),
         "limit": state.limit,
         "unit": state.unit,
