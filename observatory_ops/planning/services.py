@@ -10,9 +10,10 @@ import datetime as dt
 import functools
 import json
 from dataclasses import dataclass
+from typing import NamedTuple
 
 import numpy as np
-from django.db import transaction
+from django.db import connections, transaction
 from django.db.models import Max
 from django.utils import timezone
 from simple_history.utils import bulk_create_with_history
@@ -133,7 +134,7 @@ class UsageLog:
     @classmethod
     def for_site(cls, site: Site) -> UsageLog:
         fields = list(metrics.USAGE_FIELDS.values())
-        rows = list(NightUsage.objects.filter(site=site).order_by("night").values_list("night", *fields, "pm10_ugm3"))
+        rows = _fetched(NightUsage.objects.filter(site=site).order_by("night").values_list("night", *fields, "pm10_ugm3"))
         nights_ = np.array([r[0] for r in rows], dtype="datetime64[D]")
         # One conversion for every figure column; numpy turns a missing PM10 (None) into NaN.
         figures = np.array([r[1:] for r in rows], dtype=float).reshape(len(rows), len(fields) + 1)
@@ -189,8 +190,21 @@ def _dark_hours(site: Site, start: dt.date, end: dt.date) -> np.ndarray | None:
     rows as nights in the span, row ``i`` is the night ``start + i``.
     """
     rows = NightSky.objects.filter(site=site, night__gte=start, night__lte=end).order_by("night")
-    hours = np.array(rows.values_list("dark_hours", flat=True), dtype=float)
+    hours = np.array(_fetched(rows.values_list("dark_hours")), dtype=float).reshape(-1)
     return hours if len(hours) == (end - start).days + 1 else None
+
+
+def _fetched(queryset) -> list[tuple]:
+    """The rows of a ``values_list`` query as the database driver returns them, in one fetch.
+
+    Used for the long reads of a recompute (the usage log, the sky, the triggers), whose plain values
+    (dates, numbers, text, None) both drivers return as Django would: Django's own row iterator would
+    take about as long again as the query itself (benchmarks/README.md).
+    """
+    sql, params = queryset.query.sql_with_params()
+    with connections[queryset.db].cursor() as cursor:
+        cursor.execute(sql, params)
+        return cursor.fetchall()
 
 
 def usage_model(site: Site, log: UsageLog, first_day: dt.date, days: int) -> UsageModel:
@@ -278,9 +292,19 @@ def site_recompute(site: Site, today: dt.date | None = None) -> int:
     Two at once on PostgreSQL would otherwise both delete the old rows, and the second would then insert
     beside the first's (a primary-key violation); taking turns, each also reads what the previous wrote.
     """
-    with transaction.atomic():
+    # No savepoint: inside a caller's transaction (storing nights) a failure here undoes the whole of it.
+    with transaction.atomic(savepoint=False):
         Site.objects.select_for_update().filter(pk=site.pk).exists()
         return _site_recompute(site, today or site_today(site))
+
+
+class _Trigger(NamedTuple):
+    """What the recompute reads of a trigger."""
+
+    metric: str
+    limit: float
+    quantity: str
+    direction: str
 
 
 @dataclass(frozen=True)
@@ -298,19 +322,18 @@ def _site_recompute(site: Site, today: dt.date) -> int:
     # model instances, since a site has hundreds. A plan without triggers has no due state.
     plans: list[_Plan] = []
     triggers_of: dict[int, list] = {}
-    for trig in (
+    for plan_id, subsystem_id, counting_from, sensitivity, *trigger in _fetched(
         Trigger.objects.filter(
             plan__subsystem__telescope__site=site, plan__active=True, plan__subsystem__retired_on__isnull=True
         )
         .order_by("plan_id", "pk")
         .values_list("plan_id", "plan__subsystem_id", "plan__counting_from", "plan__dust_sensitivity", "metric",
-                     "limit", "quantity", "direction", named=True)
+                     "limit", "quantity", "direction")
     ):
-        if trig.plan_id not in triggers_of:
-            plans.append(_Plan(trig.plan_id, trig.plan__subsystem_id, trig.plan__counting_from,
-                               trig.plan__dust_sensitivity))
-            triggers_of[trig.plan_id] = []
-        triggers_of[trig.plan_id].append(trig)
+        if plan_id not in triggers_of:
+            plans.append(_Plan(plan_id, subsystem_id, counting_from, sensitivity))
+            triggers_of[plan_id] = []
+        triggers_of[plan_id].append(_Trigger(*trigger))
     recoat = any(t.metric == metrics.RECOAT_LINE for p in plans for t in triggers_of[p.pk])
     mirrors = _mirrors_by_subsystem(site) if recoat else {}
     log = UsageLog.for_site(site)
