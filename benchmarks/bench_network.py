@@ -18,7 +18,7 @@ is timed but has no target. Figures and targets (issue 6), each printed with "ho
   measured in the same run; peak memory (tracemalloc, in a third pass whose time is not a figure).
   The nights cache (astropy) is filled once per site before, and timed separately;
 - one new night for every site through ``logbook.services.nights_ingest`` (which recomputes the site):
-  at most 5 s in total;
+  at most 5 s in total, judged on the median of three rounds (three successive nights);
 - the due list page, one site and unfiltered, as a signed-in viewer with Django's test client: median
   at most 100 ms over ``--requests`` requests, and a number of SQL queries that does not grow with the rows;
 - one site's ten-year CSV through ``logbook.services.nights_import`` (no target: for information), and
@@ -81,6 +81,8 @@ USAGE_COLUMNS = ("night", "open_hours", "slews", "axis1_travel_deg", "axis2_trav
 RECOMPUTE_TARGET_S = 60.0
 FLOOR_FACTOR = 5.0
 INCREMENTAL_TARGET_S = 5.0
+#: Rounds of one new night at every site; the median round is compared with the target.
+INCREMENTAL_ROUNDS = 3
 PAGE_TARGET_MS = 100.0
 PDF_TARGET_MS = 60.0
 PDF_REPEATS = 30
@@ -589,12 +591,20 @@ def measure_recompute(net: Network) -> dict[str, int]:
 
 
 def measure_incremental(net: Network) -> None:
-    print("\n== one new night at every site (nights_ingest, which recomputes the site)")
-    with GcClock() as collector:
-        times = ingest_all(net.sites, net.last_logged + dt.timedelta(days=1), net.rng)
-    report("incremental recompute, one night per site", f"{sum(times):.1f} s for {len(times)} sites "
-           f"(median {np.median(times) * 1e3:.0f} ms per site; {collector.seconds:.1f} s in the garbage collector)",
-           f"<= {INCREMENTAL_TARGET_S:.0f} s", sum(times) <= INCREMENTAL_TARGET_S)
+    """One new night at every site, ``INCREMENTAL_ROUNDS`` times (the next night each round); the verdict
+    is on the median round, so one round slowed by another program on a shared machine does not decide it."""
+    print(f"\n== one new night at every site, {INCREMENTAL_ROUNDS} rounds (nights_ingest, which recomputes the site)")
+    rounds = []
+    for n in range(INCREMENTAL_ROUNDS):
+        with GcClock() as collector:
+            times = ingest_all(net.sites, net.last_logged + dt.timedelta(days=1 + n), net.rng)
+        rounds.append(sum(times))
+        print(f"  round {n + 1}: {sum(times):.2f} s for {len(times)} sites (median {np.median(times) * 1e3:.0f} ms "
+              f"per site, slowest {max(times) * 1e3:.0f} ms; {collector.seconds:.2f} s in the garbage collector)")
+    median = float(np.median(rounds))
+    report("incremental recompute, one night per site", f"median round {median:.1f} s for {len(net.sites)} sites "
+           f"(rounds {', '.join(f'{r:.1f}' for r in rounds)} s)", f"<= {INCREMENTAL_TARGET_S:.0f} s",
+           median <= INCREMENTAL_TARGET_S)
 
 
 def measure_due_list(net: Network, few: dict[str, int]) -> None:
@@ -681,7 +691,8 @@ def run(args: argparse.Namespace) -> None:
     print(f"{dt.datetime.now(dt.UTC):%Y-%m-%d %H:%M} UTC, Python {platform.python_version()}, PostgreSQL {server}, "
           f"{os.cpu_count()} cores, load average {os.getloadavg()[0]:.2f}")
     today = dt.datetime.now(dt.UTC).date()
-    last_logged = today - dt.timedelta(days=3)  # in the past in every zone, and the next night too
+    # The log ends early enough that every night the rounds and the profile add is in the past in every zone.
+    last_logged = today - dt.timedelta(days=INCREMENTAL_ROUNDS + 2)
     net = Network(args=args, rng=np.random.default_rng(SEED), today=today,
                   start=last_logged - dt.timedelta(days=HISTORY_YEARS * 365 - 1), last_logged=last_logged,
                   sky_end=today + dt.timedelta(days=services.HORIZON_DAYS + 1))
@@ -699,7 +710,7 @@ def run(args: argparse.Namespace) -> None:
     if args.profile:
         profile(f"site_recompute of {site.slug}", lambda: services.site_recompute(site))
         profile(f"nights_ingest of one new night at {site.slug}",
-                lambda: ingest_all([site], net.last_logged + dt.timedelta(days=2), net.rng))
+                lambda: ingest_all([site], net.last_logged + dt.timedelta(days=INCREMENTAL_ROUNDS + 1), net.rng))
         profile("the due list page, unfiltered", lambda: net.client.get(net.urls["unfiltered"]))
 
     print("\n== summary")
