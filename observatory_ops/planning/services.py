@@ -134,7 +134,8 @@ class UsageLog:
     @classmethod
     def for_site(cls, site: Site) -> UsageLog:
         fields = list(metrics.USAGE_FIELDS.values())
-        rows = _fetched(NightUsage.objects.filter(site=site).order_by("night").values_list("night", *fields, "pm10_ugm3"))
+        log = NightUsage.objects.filter(site=site).order_by("night")
+        rows = _fetched(log.values_list("night", *fields, "pm10_ugm3"))
         nights_ = np.array([r[0] for r in rows], dtype="datetime64[D]")
         # One conversion for every figure column; numpy turns a missing PM10 (None) into NaN.
         figures = np.array([r[1:] for r in rows], dtype=float).reshape(len(rows), len(fields) + 1)

@@ -1,7 +1,7 @@
 from django.contrib import admin
 from simple_history.admin import SimpleHistoryAdmin
 
-from .models import IsolationPoint, Part, PartUse, RequiredReading, WorkOrder, WorkOrderItem
+from .models import ChecklistTick, IsolationPoint, Part, PartUse, RequiredReading, WorkOrder, WorkOrderItem
 
 
 class ItemInline(admin.TabularInline):
@@ -19,11 +19,26 @@ class PartUseInline(admin.TabularInline):
     extra = 0
 
 
+class TickInline(admin.TabularInline):
+    """The checklist ticks, read only: they are recorded on the work order page and never edited."""
+
+    model = ChecklistTick
+    extra = 0
+    can_delete = False
+    fields = readonly_fields = ("recorded_at", "recorded_by", "kind", "step_index", "text", "ticked")
+
+    def has_add_permission(self, request, obj=None):
+        return False
+
+    def has_change_permission(self, request, obj=None):
+        return False
+
+
 @admin.register(WorkOrder)
 class WorkOrderAdmin(SimpleHistoryAdmin):
     list_display = ("number", "title", "site", "state", "planned_date", "assignee")
     list_filter = ("site", "state", "order_type")
-    inlines = [ItemInline, ReadingInline, PartUseInline]
+    inlines = [ItemInline, ReadingInline, PartUseInline, TickInline]
     readonly_fields = ("state", "finished_at", "finished_by", "countersigned_at", "countersigned_by")
 
 

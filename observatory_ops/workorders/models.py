@@ -1,4 +1,5 @@
-"""Work orders, what they cover, the readings they ask for, spare parts, and energy isolation points."""
+"""Work orders, what they cover, the readings they ask for, spare parts, energy isolation points, and the
+ticks of their checklist."""
 from __future__ import annotations
 
 from django.conf import settings
@@ -186,3 +187,62 @@ class IsolationPoint(models.Model):
 
     def __str__(self) -> str:
         return f"{self.get_energy_display()}: {self.label}"
+
+    @property
+    def description(self) -> str:
+        """The point in one line, as the page, the checklist record and the printed sheet word it."""
+        return (
+            f"{self.telescope.name}: {self.get_energy_display()}: {self.label}"
+            + (f" ({self.location})" if self.location else "")
+            + (f"; prove dead: {self.verify}" if self.verify else "")
+        )
+
+
+class ChecklistTick(models.Model):
+    """One tick on a work order's checklist (a step done, an isolation point locked out), or one taken back.
+
+    Append-only: taking a tick back is a new row with ``ticked=False``, never a delete, so the record keeps
+    who confirmed what and when, and who took it back. The newest row for a step or a point gives its
+    state. A step is known by its position in ``WorkOrder.step_list``, a point by its id. What was ticked is
+    copied at the time, so a later edit of the steps or of the point register cannot change what was
+    confirmed, and a tick whose copied text no longer reads as the line does now counts for nothing.
+    """
+
+    history = HistoricalRecords()  # who changed what, when: see observatory_ops/archive
+
+    class Kind(models.TextChoices):
+        STEP = "step", "step"
+        POINT = "point", "isolation point"
+
+    work_order = models.ForeignKey(WorkOrder, on_delete=models.CASCADE, related_name="ticks")
+    kind = models.CharField(max_length=8, choices=Kind.choices)
+    step_index = models.PositiveSmallIntegerField(
+        null=True, blank=True, help_text="Position of the step in the work order's step list, counted from 0."
+    )
+    isolation_point = models.ForeignKey(
+        IsolationPoint, null=True, blank=True, on_delete=models.PROTECT, related_name="+"
+    )
+    text = models.TextField(help_text="What was ticked, as it read at the time.")
+    ticked = models.BooleanField(help_text="False when this row takes an earlier tick back.")
+    recorded_at = models.DateTimeField(auto_now_add=True)
+    recorded_by = models.ForeignKey(settings.AUTH_USER_MODEL, on_delete=models.PROTECT, related_name="+")
+
+    class Meta:
+        ordering = ["pk"]
+        constraints = [
+            models.CheckConstraint(
+                condition=(
+                    models.Q(kind="step", step_index__isnull=False, isolation_point__isnull=True)
+                    | models.Q(kind="point", step_index__isnull=True, isolation_point__isnull=False)
+                ),
+                name="checklist_tick_names_one_step_or_one_point",
+            )
+        ]
+
+    def __str__(self) -> str:
+        return f"{self.work_order.number}: {'ticked' if self.ticked else 'taken back'}: {self.text[:60]}"
+
+    @property
+    def line(self) -> tuple[str, int | None]:
+        """Which checklist line this row is about: (kind, step position or isolation point id)."""
+        return self.kind, self.step_index if self.kind == self.Kind.STEP else self.isolation_point_id

@@ -3,7 +3,8 @@
 Pure layout, no Django and no database: the caller fills a :class:`~observatory_ops.workorders.sheet.Sheet`.
 The order on the page follows the work: header and QR code, why the work is due, the cautions box before
 anything else of the work, isolation points, lifting figures, steps, parts and tools, readings, findings,
-sign-off. Everything prints in black, white and light grey, so a mono printer loses nothing.
+the checklist as ticked (finished work), sign-off. Everything prints in black, white and light grey, so a
+mono printer loses nothing.
 
 Every string of a sheet is user text. reportlab's ``Paragraph`` parses markup, so each one goes through
 :func:`_text` (XML escaping) before it reaches a Paragraph and prints literally; table cells that fit on
@@ -528,6 +529,15 @@ def _findings(sheet: Sheet) -> list[Flowable]:
     return [_heading(title), _WritingLines(FINDINGS_LINES)]
 
 
+def _confirmations(sheet: Sheet) -> list[Flowable]:
+    if not sheet.confirmations:
+        return []
+    return [
+        _heading("Checklist as ticked on the work order page"),
+        *(_Paragraph(_text(line), _BULLET, bulletText="\N{BULLET}") for line in sheet.confirmations),
+    ]
+
+
 def _sign_off(sheet: Sheet, width: float) -> list[Flowable]:
     def day(value) -> str:
         return value.isoformat() if value else ""
@@ -567,6 +577,7 @@ def _sheet_story(index: int, sheet: Sheet, width: float) -> list[Flowable]:
         *_parts_and_tools(sheet, width),
         *_readings(sheet, width),
         *_findings(sheet),
+        *_confirmations(sheet),
         *_sign_off(sheet, width),
     ]
 

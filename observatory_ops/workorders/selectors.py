@@ -1,15 +1,18 @@
-"""Reads of work orders: the cautions, lifting figures and printable sheet of one work order."""
+"""Reads of work orders: the cautions, lifting figures, checklist and printable sheet of one work order."""
 from __future__ import annotations
 
+import datetime as dt
+from dataclasses import dataclass
+
 from django.db.models import F, Q, QuerySet
-from django.utils import timezone
+from django.utils import dateformat, timezone
 
 from observatory_ops.calc import lifting
 from observatory_ops.registry.models import Site
 
 from . import sheet as sheet_
 from .cautions import PRECEDENCE_STATEMENT, SEVERITY_LABELS, Caution, cautions_for
-from .models import IsolationPoint, Part, State, WorkOrder
+from .models import ChecklistTick, IsolationPoint, Part, State, WorkOrder
 
 
 def work_orders() -> QuerySet[WorkOrder]:
@@ -51,6 +54,101 @@ def isolation_gaps(order: WorkOrder) -> list[str]:
     return gaps
 
 
+STEP, POINT = ChecklistTick.Kind.STEP, ChecklistTick.Kind.POINT
+
+
+@dataclass(frozen=True)
+class ChecklistLine:
+    """One line of a work order's checklist as it reads now, with the newest tick or untick recorded for it."""
+
+    kind: str
+    key: int  # the step's position in the step list (from 0), or the isolation point's id
+    text: str
+    latest: ChecklistTick | None
+    note: str  # who ticked it, or took the tick back, and when in the site's time; "" when never ticked
+
+    @property
+    def ticked(self) -> bool:
+        """Ticked, and ticked as the line reads now (a tick on a step changed since counts for nothing)."""
+        return self.latest is not None and self.latest.ticked and self.latest.text == self.text
+
+    @property
+    def anchor(self) -> str:
+        return line_anchor(self.kind, self.key)
+
+
+@dataclass(frozen=True)
+class Checklist:
+    steps: list[ChecklistLine]
+    points: list[ChecklistLine]
+
+
+def line_anchor(kind: str, key: int) -> str:
+    """The id of a checklist line on the work order page (step numbers count from 1, as printed)."""
+    return f"step-{key + 1}" if kind == STEP else f"point-{key}"
+
+
+def latest_ticks(order: WorkOrder) -> dict[tuple[str, int | None], ChecklistTick]:
+    """The newest tick or untick of each line of the order's checklist, read in one query."""
+    return {tick.line: tick for tick in order.ticks.select_related("recorded_by").order_by("pk")}
+
+
+def tick_note(tick: ChecklistTick, text: str, zone: dt.tzinfo) -> str:
+    """Who ticked the line (or took the tick back) and when, in the site's time, as the page shows it."""
+    said = f"{_name(tick.recorded_by)}, {dateformat.format(tick.recorded_at.astimezone(zone), 'd M Y H:i')}"
+    if not tick.ticked:
+        return f"tick taken back by {said}"
+    if tick.text != text:
+        return f"ticked by {said} when it read \"{tick.text}\"; changed since: check it again"
+    return f"ticked by {said}"
+
+
+def checklist(order: WorkOrder, points: list[IsolationPoint] | None = None) -> Checklist:
+    """The order's steps and isolation points, each with its newest tick, in a fixed number of queries
+    (one for the ticks, plus two for the points unless ``isolation_points(order)`` is passed in)."""
+    points = isolation_points(order) if points is None else points
+    return _checklist(order, points, latest_ticks(order))
+
+
+def _checklist(order: WorkOrder, points: list[IsolationPoint], latest: dict) -> Checklist:
+    zone = order.site.zone
+
+    def line(kind: str, key: int, text: str) -> ChecklistLine:
+        tick = latest.get((kind, key))
+        return ChecklistLine(kind, key, text, tick, tick_note(tick, text, zone) if tick else "")
+
+    return Checklist(
+        steps=[line(STEP, index, text) for index, text in enumerate(order.step_list)],
+        points=[line(POINT, point.pk, point.description) for point in points],
+    )
+
+
+def checklist_record(order: WorkOrder, points: list[IsolationPoint]) -> tuple[str, ...]:
+    """The checklist as the finished record prints it: every line whose newest entry is a tick, by whom and
+    when (site time), steps first; a tick on a step changed since, as the step read then; and, last, the
+    lines nobody ticked."""
+    zone = order.site.zone
+    latest = latest_ticks(order)
+    lines = _checklist(order, points, latest)
+    place = {(POINT, point.pk): position for position, point in enumerate(points)}
+    ticks = sorted(
+        (tick for tick in latest.values() if tick.ticked),
+        key=lambda tick: (tick.kind != STEP, tick.step_index or 0, place.get(tick.line, len(place)), tick.pk),
+    )
+    current = {(line.kind, line.key): line.text for line in lines.steps + lines.points}
+    record = []
+    for tick in ticks:
+        what = f"Step {tick.step_index + 1}" if tick.kind == STEP else "Isolation point"
+        when = tick.recorded_at.astimezone(zone).strftime("%Y-%m-%d %H:%M")
+        changed = " (as it read then; changed since)" if current.get(tick.line) != tick.text else ""
+        record.append(f"{what}{changed}: {tick.text} \N{EM DASH} ticked by {_name(tick.recorded_by)}, {when}")
+    open_lines = [f"step {line.key + 1}" for line in lines.steps if not line.ticked]
+    open_lines += [f"isolation point {line.text}" for line in lines.points if not line.ticked]
+    if open_lines:
+        record.append("Not ticked: " + "; ".join(open_lines))
+    return tuple(record)
+
+
 def lift(order: WorkOrder) -> lifting.LiftFigures | None:
     return lifting.lift_figures(**order.lift_inputs) if order.lift_inputs else None
 
@@ -76,6 +174,7 @@ def sheet(order: WorkOrder, url: str) -> sheet_.Sheet:
     items = list(order.items.select_related("subsystem", "plan"))
     figures = lift(order)
     zone = order.site.zone
+    points = isolation_points(order)
     return sheet_.Sheet(
         number=order.number,
         title=order.title,
@@ -95,12 +194,7 @@ def sheet(order: WorkOrder, url: str) -> sheet_.Sheet:
         ),
         precedence_statement=PRECEDENCE_STATEMENT,
         isolation_points=tuple(f"WARNING: {gap}" for gap in isolation_gaps(order))
-        + tuple(
-            f"{p.telescope.name}: {p.get_energy_display()}: {p.label}"
-            + (f" ({p.location})" if p.location else "")
-            + (f"; prove dead: {p.verify}" if p.verify else "")
-            for p in isolation_points(order)
-        ),
+        + tuple(p.description for p in points),
         steps=tuple(order.step_list),
         parts=tuple(
             sheet_.SheetPart(u.part.name, u.part.part_number, u.quantity_used or u.quantity_planned)
@@ -123,6 +217,9 @@ def sheet(order: WorkOrder, url: str) -> sheet_.Sheet:
         performed_on=order.finished_at.astimezone(zone).date() if order.finished_at else None,
         checked_by=_name(order.countersigned_by),
         checked_on=order.countersigned_at.astimezone(zone).date() if order.countersigned_at else None,
+        confirmations=(
+            checklist_record(order, points) if order.state in (State.FINISHED, State.COUNTERSIGNED) else ()
+        ),
     )
 
 

@@ -1,4 +1,4 @@
-"""Writes of work orders: creation from due items or ad hoc, lifecycle moves, and finishing.
+"""Writes of work orders: creation from due items or ad hoc, lifecycle moves, checklist ticks, and finishing.
 
 Finishing is the one place that turns a work order into service records, readings and stock changes,
 then recomputes the site's due states. It is claimed with a conditional UPDATE (state must still be
@@ -12,7 +12,7 @@ from collections.abc import Sequence
 from django.db import transaction
 from django.utils import timezone
 
-from observatory_ops.access.roles import has_role
+from observatory_ops.access.roles import TECHNICIAN, has_role
 from observatory_ops.calc import lifting
 from observatory_ops.logbook.models import Reading, ServiceRecord
 from observatory_ops.logbook.quantities import QUANTITIES, value_problem
@@ -23,7 +23,8 @@ from observatory_ops.registry.models import Site, Subsystem
 
 from .cautions import HAZARDS
 from .lifecycle import TRANSITIONS
-from .models import Part, PartUse, RequiredReading, State, WorkOrder, WorkOrderItem
+from .models import ChecklistTick, Part, PartUse, RequiredReading, State, WorkOrder, WorkOrderItem
+from .selectors import isolation_points, latest_ticks
 
 #: Hazards whose energy must be isolated and locked out before work starts.
 ISOLATION_HAZARDS = ("electrical", "pneumatic", "moving_machinery")
@@ -253,6 +254,51 @@ def work_order_finish(
         site_recompute(site)
     order.refresh_from_db()
     return order
+
+
+def checklist_tick_set(
+    order: WorkOrder, kind: str, key: int, ticked: bool, by, seen_text: str | None = None
+) -> ChecklistTick:
+    """Record a tick (``ticked=True``) or take one back (``ticked=False``) on the checklist of an order underway.
+
+    ``kind`` is ``"step"`` (``key`` = the step's position in ``order.step_list``, from 0) or ``"point"``
+    (``key`` = the id of one of the isolation points of the order's telescopes). ``seen_text`` is the
+    line as the person read it on their page: when it has been changed since, the tick is refused rather
+    than recorded against words they did not see. Refused, storing nothing, when the order is not
+    underway, the line does not exist, or the line is already in the state asked for.
+    """
+    if not has_role(by, TECHNICIAN):
+        raise Refused(f"ticking the checklist needs the {TECHNICIAN} role or above")
+    with transaction.atomic():
+        # Locked and read again: a work order finished meanwhile takes no more ticks.
+        current = WorkOrder.objects.select_for_update().get(pk=order.pk)
+        if current.state != State.UNDERWAY:
+            raise Refused(
+                f"ticks are recorded only while the work is underway; {current.number} is "
+                f"{current.get_state_display()}"
+            )
+        entry = ChecklistTick(work_order=current, kind=kind, ticked=ticked, recorded_by=by)
+        if kind == ChecklistTick.Kind.STEP:
+            steps = current.step_list
+            if not 0 <= key < len(steps):
+                raise Refused(f"there is no step {key + 1}: {current.number} has {len(steps)} step(s)")
+            entry.step_index, entry.text, what = key, steps[key], f"step {key + 1}"
+        elif kind == ChecklistTick.Kind.POINT:
+            point = next((p for p in isolation_points(current) if p.pk == key), None)
+            if point is None:
+                raise Refused(f"isolation point #{key} is not one of the points of {current.number}'s telescope")
+            entry.isolation_point, entry.text, what = point, point.description, f"isolation point {point.label!r}"
+        else:
+            raise Refused(f"unknown kind of checklist line {kind!r}; it must be 'step' or 'point'")
+        if seen_text is not None and seen_text.strip() != entry.text:
+            raise Refused(f"{what} has been changed since your page was loaded; reload it and check again")
+        latest = latest_ticks(current).get(entry.line)
+        already = latest is not None and latest.ticked and latest.text == entry.text
+        if already == ticked:
+            raise Refused(f"{what} is {'already ticked' if ticked else 'not ticked'}")
+        entry._history_user = by
+        entry.save()
+    return entry
 
 
 def part_add(order: WorkOrder, part: Part, quantity: float) -> PartUse:

@@ -66,6 +66,8 @@ class Sheet:
     a framed box before any step, most severe first, followed by ``precedence_statement``.
     ``isolation_points`` are the energy isolation points of the telescope for the lockout step.
     ``findings`` is printed when present; otherwise blank ruled lines are left for writing.
+    ``confirmations`` (finished work only) are the checklist lines ticked on the work order page, each
+    with who ticked it and when, and a last line naming those nobody ticked.
     ``url`` is the work order's address, printed as a QR code.
     """
 
@@ -98,9 +100,10 @@ class Sheet:
     performed_on: date | None = None
     checked_by: str = ""
     checked_on: date | None = None
+    confirmations: tuple[str, ...] = ()
 
     def __post_init__(self) -> None:
-        for name in ("subsystems", "why", "isolation_points", "steps", "tools"):
+        for name in ("subsystems", "why", "isolation_points", "steps", "tools", "confirmations"):
             if isinstance(getattr(self, name), str):
                 raise ValueError(f"{name} must be a sequence of lines, not a single string")
         if not self.number.strip():

@@ -9,6 +9,7 @@ urlpatterns = [
     path("workorders/<int:pk>/edit/", views.work_order_edit, name="workorder-edit"),
     path("workorders/<int:pk>/move/<slug:action>/", views.work_order_move, name="workorder-move"),
     path("workorders/<int:pk>/finish/", views.work_order_finish, name="workorder-finish"),
+    path("workorders/<int:pk>/tick/", views.work_order_tick, name="workorder-tick"),
     path("workorders/<int:pk>/lift/", views.work_order_lift, name="workorder-lift"),
     path("workorders/<int:pk>/parts/", views.work_order_part_add, name="workorder-part-add"),
     path("workorders/<int:pk>/pdf/", views.work_order_pdf, name="workorder-pdf"),

@@ -1,7 +1,7 @@
 import datetime as dt
 
 from django.contrib import messages
-from django.http import HttpResponse, HttpResponseNotAllowed
+from django.http import HttpResponse, HttpResponseNotAllowed, JsonResponse
 from django.shortcuts import get_object_or_404, redirect, render
 from django.urls import reverse
 from django.utils.http import url_has_allowed_host_and_scheme
@@ -85,7 +85,8 @@ def work_order_detail(request, pk):
             "items": order.items.select_related("subsystem", "plan"),
             "cautions": selectors.cautions(order),
             "precedence": selectors.PRECEDENCE_STATEMENT,
-            "isolation_points": selectors.isolation_points(order),
+            "checklist": selectors.checklist(order),
+            "can_tick": order.state == State.UNDERWAY and has_role(request.user, TECHNICIAN),
             "isolation_gaps": selectors.isolation_gaps(order),
             "readings": order.required_readings.select_related("subsystem", "reading"),
             "part_uses": order.part_uses.select_related("part"),
@@ -131,6 +132,36 @@ def work_order_move(request, pk, action):
     else:
         messages.success(request, f"{order.number}: {TRANSITIONS[action].label.lower()}: done.")
     return redirect(order)
+
+
+@requires(TECHNICIAN)
+def work_order_tick(request, pk):
+    """Record one tick, or take it back, on the checklist; the checkbox's state is the one asked for.
+
+    A plain form post is answered with the page again, scrolled to the line; a script's post that asks
+    for JSON gets the line's new note (or the refusal) and the page stays as it is.
+    """
+    if request.method != "POST":
+        return HttpResponseNotAllowed(["POST"])
+    order = _order(pk)
+    wants_json = "application/json" in request.headers.get("Accept", "")
+    key = request.POST.get("key", "")
+    try:
+        if not key.isdigit():
+            raise services.Refused("the form did not say which line it is about; reload the page")
+        tick = services.checklist_tick_set(
+            order, request.POST.get("kind", ""), int(key), request.POST.get("ticked") == "1", request.user,
+            seen_text=request.POST.get("text"),
+        )
+    except services.Refused as exc:
+        if wants_json:
+            return JsonResponse({"error": f"Not recorded: {exc}."}, status=409)
+        messages.error(request, f"Not recorded: {exc}.")
+        return redirect(order)
+    note = selectors.tick_note(tick, tick.text, order.site.zone)
+    if wants_json:
+        return JsonResponse({"ticked": tick.ticked, "note": note})
+    return redirect(f"{order.get_absolute_url()}#{selectors.line_anchor(*tick.line)}")
 
 
 @requires(TECHNICIAN)

@@ -1,0 +1,301 @@
+"""The work order checklist as a record: each tick on a step or an isolation point, and each tick taken back,
+is kept with who and when; the newest entry of a line gives its state.
+
+Orders are built as in tests/test_workorders.py (its ``drive`` and ``order`` fixtures: an axis drive whose
+catalogue plan asks for readings, on a telescope with one AC isolation point, "Mount isolator").
+"""
+from __future__ import annotations
+
+import datetime as dt
+import io
+from zoneinfo import ZoneInfo
+
+import pytest
+from django.db import connection
+from django.test.utils import CaptureQueriesContext
+from django.utils import dateformat
+from pypdf import PdfReader
+from test_workorders import _all_readings, drive, order  # noqa: F401  (fixtures, used by name)
+
+from observatory_ops.registry.models import Telescope
+from observatory_ops.workorders import pdf, selectors, services
+from observatory_ops.workorders.models import ChecklistTick, IsolationPoint, State, WorkOrder
+
+STEP, POINT = ChecklistTick.Kind.STEP, ChecklistTick.Kind.POINT
+# The test site's zone (tests/conftest.py), read here from the IANA database directly, not from the site.
+MADRID = ZoneInfo("Europe/Madrid")
+
+
+def _start(work_order, users):
+    services.work_order_move(work_order, "issue", users["engineer"])
+    services.work_order_move(work_order, "start", users["technician"])
+    work_order.refresh_from_db()
+    return work_order
+
+
+def _finish(work_order, users):
+    services.work_order_finish(
+        work_order, users["technician"], 2.0, "brake pads fine", _all_readings(work_order, 0.7)
+    )
+    work_order.refresh_from_db()
+    return work_order
+
+
+def _point(work_order) -> IsolationPoint:
+    return IsolationPoint.objects.get(telescope=work_order.telescope, label="Mount isolator")
+
+
+def _page_time(moment: dt.datetime) -> str:
+    return dateformat.format(moment.astimezone(MADRID), "d M Y H:i")
+
+
+@pytest.fixture
+def draft(order):  # noqa: F811  (the fixture of tests/test_workorders.py, imported above)
+    return order
+
+
+@pytest.fixture
+def underway(draft, users):
+    return _start(draft, users)
+
+
+# --- the service ----------------------------------------------------------------------------------------
+
+
+def test_ticking_and_taking_back_are_both_recorded_and_the_newest_wins(underway, users):
+    technician, engineer = users["technician"], users["engineer"]
+    services.checklist_tick_set(underway, STEP, 0, True, technician)
+    services.checklist_tick_set(underway, STEP, 0, False, technician)
+    services.checklist_tick_set(underway, STEP, 0, True, engineer)
+    services.checklist_tick_set(underway, POINT, _point(underway).pk, True, technician)
+
+    rows = list(ChecklistTick.objects.filter(work_order=underway, kind=STEP))
+    assert [(r.ticked, r.recorded_by.username) for r in rows] == [
+        (True, "technician"), (False, "technician"), (True, "engineer")
+    ]
+    assert {r.text for r in rows} == {underway.step_list[0]}  # the step's words, copied at the time
+    lines = selectors.checklist(underway)
+    assert lines.steps[0].ticked and lines.steps[0].latest.recorded_by == engineer
+    assert not any(line.ticked for line in lines.steps[1:])
+    assert lines.points[0].ticked and lines.points[0].latest.text == _point(underway).description
+    assert lines.points[0].note.startswith("ticked by technician, ")
+
+    services.checklist_tick_set(underway, STEP, 0, False, technician)
+    line = selectors.checklist(underway).steps[0]
+    assert not line.ticked and line.note.startswith("tick taken back by technician, ")
+    assert ChecklistTick.objects.filter(work_order=underway).count() == 5  # nothing was deleted
+
+
+def test_a_tick_keeps_its_history_entry_with_the_person(underway, users):
+    tick = services.checklist_tick_set(underway, STEP, 1, True, users["technician"])
+    assert [(h.history_type, h.history_user) for h in tick.history.all()] == [("+", users["technician"])]
+
+
+def _bring_to(work_order, state, users):
+    if state == State.DRAFT:
+        return work_order
+    if state == State.WITHDRAWN:
+        services.work_order_move(work_order, "withdraw", users["engineer"], reason="mount replaced instead")
+    elif state == State.ISSUED:
+        services.work_order_move(work_order, "issue", users["engineer"])
+    else:
+        _start(work_order, users)
+        services.checklist_tick_set(work_order, STEP, 0, True, users["technician"])
+        _finish(work_order, users)
+        if state == State.COUNTERSIGNED:
+            services.work_order_move(work_order, "countersign", users["engineer"])
+    work_order.refresh_from_db()
+    return work_order
+
+
+@pytest.mark.parametrize(
+    "state, shown_as",
+    [
+        (State.DRAFT, "draft"),
+        (State.ISSUED, "issued"),
+        (State.FINISHED, "finished, awaiting countersignature"),
+        (State.COUNTERSIGNED, "countersigned"),
+        (State.WITHDRAWN, "withdrawn"),
+    ],
+)
+def test_a_tick_outside_the_work_underway_is_refused_and_nothing_is_stored(draft, users, state, shown_as):
+    moved = _bring_to(draft, state, users)
+    before = list(ChecklistTick.objects.values_list("pk", "ticked"))
+    for kind, key, ticked in ((STEP, 0, False), (STEP, 1, True), (POINT, _point(moved).pk, True)):
+        with pytest.raises(services.Refused) as refusal:
+            services.checklist_tick_set(moved, kind, key, ticked, users["technician"])
+        assert str(refusal.value) == (
+            f"ticks are recorded only while the work is underway; {moved.number} is {shown_as}"
+        )
+    assert list(ChecklistTick.objects.values_list("pk", "ticked")) == before
+
+
+def test_a_step_number_outside_the_list_is_refused_and_nothing_is_stored(underway, users):
+    count = len(underway.step_list)
+    with pytest.raises(services.Refused, match=f"there is no step {count + 1}: {underway.number} has {count} step"):
+        services.checklist_tick_set(underway, STEP, count, True, users["technician"])
+    with pytest.raises(services.Refused, match="there is no step 0"):
+        services.checklist_tick_set(underway, STEP, -1, True, users["technician"])
+    assert not ChecklistTick.objects.exists()
+
+
+def test_an_isolation_point_of_another_telescope_is_refused_and_nothing_is_stored(underway, users, site):
+    other = Telescope.objects.create(site=site, name="T2", aperture_m=0.3, mount="fork")
+    foreign = IsolationPoint.objects.create(telescope=other, energy="ac", label="T2 isolator")
+    with pytest.raises(services.Refused, match=rf"isolation point #{foreign.pk} is not one of the points of"):
+        services.checklist_tick_set(underway, POINT, foreign.pk, True, users["technician"])
+    with pytest.raises(services.Refused, match="unknown kind of checklist line 'lever'"):
+        services.checklist_tick_set(underway, "lever", _point(underway).pk, True, users["technician"])
+    assert not ChecklistTick.objects.exists()
+
+
+def test_ticking_a_ticked_line_or_taking_back_an_open_one_changes_nothing(underway, users):
+    with pytest.raises(services.Refused, match="step 1 is not ticked"):
+        services.checklist_tick_set(underway, STEP, 0, False, users["technician"])
+    services.checklist_tick_set(underway, STEP, 0, True, users["technician"])
+    with pytest.raises(services.Refused, match="step 1 is already ticked"):
+        services.checklist_tick_set(underway, STEP, 0, True, users["engineer"])
+    assert ChecklistTick.objects.count() == 1
+
+
+def test_a_viewer_cannot_tick_even_through_the_service(underway, users):
+    with pytest.raises(services.Refused, match="needs the technician role"):
+        services.checklist_tick_set(underway, STEP, 0, True, users["viewer"])
+    assert not ChecklistTick.objects.exists()
+
+
+def test_a_changed_step_loses_its_tick_and_a_page_showing_the_old_words_is_refused(underway, users):
+    first, second = underway.step_list[:2]
+    services.checklist_tick_set(underway, STEP, 1, True, users["technician"], seen_text=second)
+    # Someone rewrites step 2 (the admin can still edit the steps of an order underway).
+    underway.steps = underway.steps.replace(second, "Check the brake pads and the clutch")
+    underway.save()
+    line = selectors.checklist(underway).steps[1]
+    assert not line.ticked and line.latest.text == second  # the record still says what was confirmed
+    assert f'when it read "{second}"; changed since: check it again' in line.note
+    with pytest.raises(services.Refused, match="step 2 has been changed since your page was loaded"):
+        services.checklist_tick_set(underway, STEP, 1, True, users["technician"], seen_text=second)
+    services.checklist_tick_set(underway, STEP, 1, True, users["technician"],
+                                seen_text="Check the brake pads and the clutch")
+    assert selectors.checklist(underway).steps[1].ticked
+    assert selectors.checklist(underway).steps[0].text == first
+
+
+def test_the_checklist_is_read_in_the_same_number_of_queries_however_many_ticks(underway, users):
+    def queries() -> int:
+        fresh = WorkOrder.objects.select_related("site").get(pk=underway.pk)  # as the page reads it
+        with CaptureQueriesContext(connection) as captured:
+            lines = selectors.checklist(fresh)
+            [line.note for line in lines.steps + lines.points]
+        return len(captured)
+
+    few = queries()
+    assert few == 3  # the ticks; the order's items (for their telescopes); the isolation points
+    for index in range(len(underway.step_list)):
+        services.checklist_tick_set(underway, STEP, index, True, users["technician"])
+        services.checklist_tick_set(underway, STEP, index, False, users["engineer"])
+    services.checklist_tick_set(underway, POINT, _point(underway).pk, True, users["technician"])
+    assert queries() == few
+
+
+# --- the page -------------------------------------------------------------------------------------------
+
+
+def _post(client, work_order, **data):
+    return client.post(f"/workorders/{work_order.pk}/tick/", data)
+
+
+def test_a_viewer_gets_403_on_the_tick_post_and_nothing_is_stored(underway, users, client):
+    client.force_login(users["viewer"])
+    response = _post(client, underway, kind="step", key="0", ticked="1")
+    assert response.status_code == 403
+    assert not ChecklistTick.objects.exists()
+
+
+def test_a_tick_posted_without_javascript_returns_to_the_line_and_the_page_says_who_and_when(
+    underway, users, client
+):
+    client.force_login(users["technician"])
+    response = _post(client, underway, kind="step", key="1", ticked="1", text=underway.step_list[1])
+    assert response.status_code == 302 and response["Location"] == f"/workorders/{underway.pk}/#step-2"
+    point = _point(underway)
+    response = _post(client, underway, kind="point", key=str(point.pk), ticked="1", text=point.description)
+    assert response["Location"] == f"/workorders/{underway.pk}/#point-{point.pk}"
+    tick = ChecklistTick.objects.get(kind=STEP)
+    assert (tick.step_index, tick.ticked, tick.recorded_by) == (1, True, users["technician"])
+
+    page = client.get(underway.get_absolute_url()).content.decode()
+    assert f"ticked by technician, {_page_time(tick.recorded_at)}" in page  # site time, Europe/Madrid
+    assert page.count(" checked") == 2 and page.count(">Record</button>") == len(underway.step_list) + 1
+
+    # An unticked box posts no "ticked" field: the tick is taken back.
+    _post(client, underway, kind="step", key="1", text=underway.step_list[1])
+    assert "tick taken back by technician" in client.get(underway.get_absolute_url()).content.decode()
+
+
+def test_a_refused_tick_on_the_page_says_why_and_stores_nothing(draft, users, client):
+    client.force_login(users["technician"])
+    response = _post(client, draft, kind="step", key="0", ticked="1", text=draft.step_list[0])
+    assert response["Location"] == f"/workorders/{draft.pk}/"
+    page = client.get(response["Location"]).content.decode()
+    assert "Not recorded: ticks are recorded only while the work is underway" in page
+    assert "Ticks can be recorded once the work has started." in page
+    response = _post(client, draft)  # an empty post names no line
+    assert "did not say which line" in client.get(response["Location"]).content.decode()
+    assert not ChecklistTick.objects.exists()
+
+
+def test_a_script_post_gets_the_note_or_the_refusal_as_json(underway, users, client):
+    client.force_login(users["technician"])
+    answer = client.post(f"/workorders/{underway.pk}/tick/", {"kind": "step", "key": "0", "ticked": "1"},
+                         HTTP_ACCEPT="application/json")
+    tick = ChecklistTick.objects.get()
+    assert answer.json() == {"ticked": True, "note": f"ticked by technician, {_page_time(tick.recorded_at)}"}
+    refused = client.post(f"/workorders/{underway.pk}/tick/", {"kind": "step", "key": "99", "ticked": "1"},
+                          HTTP_ACCEPT="application/json")
+    assert refused.status_code == 409 and refused.json()["error"].startswith("Not recorded: there is no step 100")
+    assert ChecklistTick.objects.count() == 1
+
+
+def test_a_finished_order_shows_its_ticks_read_only(underway, users, client):
+    services.checklist_tick_set(underway, STEP, 0, True, users["technician"])
+    _finish(underway, users)
+    client.force_login(users["technician"])
+    page = client.get(underway.get_absolute_url()).content.decode()
+    assert "ticked by technician" in page
+    assert page.count(" disabled>") == len(underway.step_list) + 1  # every step and the one point
+    assert "<button type=\"submit\" class=\"noprint\">Record</button>" not in page
+
+
+# --- the printed record ---------------------------------------------------------------------------------
+
+
+def test_the_finished_record_lists_the_confirmations_with_who_and_when(underway, users):
+    point = _point(underway)
+    services.checklist_tick_set(underway, POINT, point.pk, True, users["technician"])
+    services.checklist_tick_set(underway, STEP, 0, True, users["technician"])
+    services.checklist_tick_set(underway, STEP, 2, True, users["engineer"])
+    services.checklist_tick_set(underway, STEP, 2, False, users["engineer"])
+    assert selectors.sheet(underway, "https://ops.example/wo/1/").confirmations == ()  # not finished yet
+    _finish(underway, users)
+
+    sheet = selectors.sheet(underway, "https://ops.example/wo/1/")
+    step_tick = ChecklistTick.objects.get(kind=STEP, step_index=0)
+    point_tick = ChecklistTick.objects.get(kind=POINT)
+    local = "%Y-%m-%d %H:%M"
+    open_steps = "; ".join(f"step {n}" for n in range(2, len(underway.step_list) + 1))
+    assert sheet.confirmations == (
+        f"Step 1: {underway.step_list[0]} \N{EM DASH} ticked by technician, "
+        f"{step_tick.recorded_at.astimezone(MADRID).strftime(local)}",
+        f"Isolation point: {point.description} \N{EM DASH} ticked by technician, "
+        f"{point_tick.recorded_at.astimezone(MADRID).strftime(local)}",
+        f"Not ticked: {open_steps}",
+    )
+    pages = PdfReader(io.BytesIO(pdf.render_sheet(sheet))).pages
+    text = " ".join(" ".join(page.extract_text().split()) for page in pages)
+    assert "Checklist as ticked on the work order page" in text
+    assert "Isolation point: T1: AC mains: Mount isolator" in text and "ticked by technician" in text
+
+    services.work_order_move(underway, "countersign", users["engineer"])
+    underway.refresh_from_db()
+    assert selectors.sheet(underway, "https://ops.example/wo/1/").confirmations == sheet.confirmations
