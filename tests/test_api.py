@@ -492,7 +492,7 @@ def test_posted_nights_reach_the_due_list_the_api_returns(client, site, telescop
     assert {r["site"] for r in records} == {site.slug}
     inspect = next(r for r in records if r["subsystem_id"] == mirror.pk and r["plan"].startswith("Inspect and CO2"))
     status = PlanStatus.objects.get(plan_id=inspect["plan_id"])
-    dust = next(t for t in status.triggers if t["metric"] == "dust_hours")
+    dust = next(t for t in status.trigger_rows if t["metric"] == "dust_hours")
     # Hand computation with calc.exposure.dust_weight: sensitivity 1 at PM10 60 weighs 1 + (60 - 20) / 20 = 3;
     # 3 nights x 5 h x 3 = 45 dust-weighted hours.
     assert dust["value"] == pytest.approx(45.0)

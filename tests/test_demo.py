@@ -51,7 +51,7 @@ def test_the_demo_due_list_has_overdue_and_due_rows_each_with_a_reason_naming_it
     rows = list(PlanStatus.objects.filter(site__slug=SITE_SLUG, status__in=[OVERDUE, DUE]))
     assert {r.status for r in rows} == {OVERDUE, DUE}
     for row in rows:
-        governing = row.triggers[0]
+        governing = row.trigger_rows[0]
         assert governing["metric"] == row.metric
         reason = row.reason.lower()
         # The trigger is named by its label ("Open-dome hours: ...") or, for a reading, by its basis

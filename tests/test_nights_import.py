@@ -393,7 +393,7 @@ def test_a_successful_import_refreshes_the_due_states(site, telescope, monkeypat
     rows = [good_cells(FIRST_NIGHT + dt.timedelta(days=i), open_hours=5.0, pm10="60") for i in range(3)]
     services.nights_import(site, render(rows))
     status = PlanStatus.objects.get(plan__subsystem=mirror, plan__name__startswith="Inspect and CO2")
-    dust = next(t for t in status.triggers if t["metric"] == "dust_hours")
+    dust = next(t for t in status.trigger_rows if t["metric"] == "dust_hours")
     # Sensitivity 1 at PM10 60: weight 1 + 1 * (60 - 20) / 20 = 3; 3 nights x 5 h x 3 = 45 dust-weighted hours.
     assert dust["value"] == pytest.approx(45.0)
 

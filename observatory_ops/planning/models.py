@@ -91,7 +91,10 @@ class PlanStatus(models.Model):
     latest = models.DateField(null=True)
     last_service_on = models.DateField(null=True)
     reason = models.TextField(help_text="One sentence: which trigger, value, limit, rate and forecast.")
-    triggers = models.JSONField(default=list, help_text="Every trigger's figures, governing first.")
+    basis = models.TextField(blank=True, help_text="How the governing trigger's figures were obtained.")
+    triggers = models.JSONField(
+        default=list, help_text="The figures of the plan's other triggers (the governing one is in the columns)."
+    )
     computed_at = models.DateTimeField()
 
     @property
@@ -100,8 +103,14 @@ class PlanStatus(models.Model):
 
     @property
     def trigger_rows(self) -> list[dict]:
-        """Every trigger's stored figures, governing first, each with its metric's label."""
-        return [{**t, "label": METRICS[t["metric"]][0]} for t in self.triggers]
+        """Every trigger's figures, governing first, each with its metric's label (as the page lists them)."""
+        governing = {
+            "metric": self.metric, "value": self.value, "limit": self.limit, "unit": self.unit,
+            "rate_per_day": self.rate_per_day, "basis": self.basis,
+            **{key: day.isoformat() if day else None for key, day in
+               (("forecast", self.forecast_date), ("earliest", self.earliest), ("latest", self.latest))},
+        }
+        return [{**t, "label": METRICS[t["metric"]][0]} for t in (governing, *self.triggers)]
 
     @property
     def progress(self) -> str:

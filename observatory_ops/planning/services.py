@@ -398,13 +398,13 @@ def _site_recompute(site: Site, today: dt.date) -> int:
         if not states[plan.pk]:
             continue
         gov = governing(states[plan.pk])
-        ordered = [gov] + [s for s in states[plan.pk] if s is not gov]
+        others = [s for s in states[plan.pk] if s is not gov]
         status = due_status(gov, today, site.look_ahead_days)
         gov_rate = None if gov.rate_per_day is None else float(gov.rate_per_day)
         rows.append((
             plan.pk, site.pk, status, STATUSES.index(status), gov.metric, float(gov.value), float(gov.limit), gov.unit,
             gov_rate, gov.forecast, gov.earliest, gov.latest, last_service.get(plan.pk),
-            reason_text(gov), [_state_json(s) for s in ordered], now,
+            reason_text(gov), gov.basis, [_state_json(s) for s in others], now,
         ))
     PlanStatus.objects.filter(site=site).delete()
     _insert_all(PlanStatus, STATUS_COLUMNS, rows)
@@ -414,7 +414,7 @@ def _site_recompute(site: Site, today: dt.date) -> int:
 #: The ``PlanStatus`` fields, in the order of the rows ``_site_recompute`` builds.
 STATUS_COLUMNS = (
     "plan", "site", "status", "urgency", "metric", "value", "limit", "unit", "rate_per_day", "forecast_date",
-    "earliest", "latest", "last_service_on", "reason", "triggers", "computed_at",
+    "earliest", "latest", "last_service_on", "reason", "basis", "triggers", "computed_at",
 )
 
 
