@@ -214,3 +214,13 @@ def test_nights_command_bad_input_is_a_clear_message(db, args, message):
 
     with pytest.raises(CommandError, match=message):
         call_command("nights", *args, "--start", "2026-01-01", "--days", "3")
+
+
+def test_a_deleted_plan_takes_its_stored_state_with_it(synthetic):
+    """The state's keys are not checked by the database (see PlanStatus), so Django's cascade must do it."""
+    site, subsystem, start = synthetic
+    plan = _plan(subsystem, "hours", [("open_hours", 3000)], start)
+    services.site_recompute(site, TODAY)
+    assert PlanStatus.objects.filter(plan_id=plan.pk).exists()
+    plan.delete()
+    assert not PlanStatus.objects.filter(plan_id=plan.pk).exists()
