@@ -300,7 +300,8 @@ def _mirrors(site, subsystems, technician, today: dt.date, rng: np.random.Genera
 
 
 def _work_orders(site, users, today: dt.date) -> None:
-    """Two open work orders from today's overdue items: one issued for tomorrow, one underway."""
+    """Two open work orders from today's overdue items: one issued for tomorrow, one underway with its
+    isolation points and first step ticked."""
     from observatory_ops.planning.models import PlanStatus
     from observatory_ops.workorders import services as workorders
 
@@ -317,3 +318,10 @@ def _work_orders(site, users, today: dt.date) -> None:
     underway = workorders.work_order_from_due([overdue[2].plan], users["engineer"], today)
     workorders.work_order_move(underway, "issue", users["engineer"])
     workorders.work_order_move(underway, "start", users["technician"])
+    # The technician has locked out and tagged every isolation point and ticked the first step on the tablet.
+    from observatory_ops.workorders.selectors import isolation_points
+
+    for point in isolation_points(underway):
+        workorders.checklist_tick_set(underway, "point", point.pk, True, users["technician"])
+    if underway.step_list:
+        workorders.checklist_tick_set(underway, "step", 0, True, users["technician"])
