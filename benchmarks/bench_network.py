@@ -401,18 +401,6 @@ def status_rewrite_seconds(repeats: int = 3) -> float:
     return min(timings)
 
 
-def vacuum() -> None:
-    """VACUUM ANALYZE between phases: the full-recompute phase replaces the 40,000 stored states three
-    times over, and the server's autovacuum would otherwise clean up after it in the middle of the next
-    measurement, on the same two cores. (A deployment recomputes every site once a day.)"""
-    from django.db import connection
-
-    started = time.perf_counter()
-    with connection.cursor() as cursor:
-        cursor.execute("VACUUM ANALYZE")
-    print(f"  VACUUM ANALYZE after the full recomputes: {time.perf_counter() - started:.1f} s (not a figure)")
-
-
 def recompute_all(sites: list) -> list[float]:
     from observatory_ops.planning import services
 
@@ -715,7 +703,6 @@ def run(args: argparse.Namespace) -> None:
     net.urls = {"unfiltered": "/due/", "page 2": "/due/?page=2", "sorted by forecast": "/due/?sort=forecast_date",
                 "one site": f"/due/?site={site.pk}", "one site, status due": f"/due/?site={site.pk}&status=due"}
     few = measure_recompute(net)
-    vacuum()
     measure_incremental(net)
     measure_due_list(net, few)
     attempt("CSV import", lambda: measure_import(net))
