@@ -8,6 +8,7 @@ from __future__ import annotations
 import datetime as dt
 import json
 
+import numpy as np
 import pytest
 from django.core.management import call_command
 
@@ -224,3 +225,10 @@ def test_a_deleted_plan_takes_its_stored_state_with_it(synthetic):
     assert PlanStatus.objects.filter(plan_id=plan.pk).exists()
     plan.delete()
     assert not PlanStatus.objects.filter(plan_id=plan.pk).exists()
+
+
+def test_dates_become_the_same_numpy_days_as_numpy_makes_them():
+    """Outside reference: numpy's own conversion of date objects to datetime64[D] (the slow path replaced)."""
+    days = [dt.date(1969, 12, 31), dt.date(1970, 1, 1), dt.date(2000, 2, 29), dt.date(2026, 12, 2)]
+    assert (services._day_array(days) == np.array(days, dtype="datetime64[D]")).all()
+    assert services._day_array([]).dtype == np.dtype("datetime64[D]")
