@@ -619,17 +619,18 @@ def ingest_in_workers(sites: list, night: dt.date, workers: int) -> float:
     from django.db import connections
 
     connections.close_all()  # each process opens its own
+    sys.stdout.flush()  # else each child would print again what the parent had not yet written
     started = time.perf_counter()
     children = []
     for worker in range(workers):
         child = os.fork()
         if child == 0:  # the worker process: ingest its share, then leave without running the parent's clean-up
-            status = 0
+            status = 1  # anything that stops the share before its end is a failure
             try:
                 ingest_all(sites[worker::workers], night, np.random.default_rng(SEED + worker))
+                status = 0
             except Exception as exc:  # reported by the parent as a failed worker
                 print(f"  worker {worker}: {type(exc).__name__}: {exc}", flush=True)
-                status = 1
             finally:
                 connections.close_all()
                 os._exit(status)

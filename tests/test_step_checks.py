@@ -255,6 +255,20 @@ def test_a_script_post_gets_the_note_or_the_refusal_as_json(underway, users, cli
                           HTTP_ACCEPT="application/json")
     assert refused.status_code == 409 and refused.json()["error"].startswith("Not recorded: there is no step 100")
     assert ChecklistTick.objects.count() == 1
+    # Someone else's tick got there first: the refusal says how the line stands, so the box can show it.
+    again = client.post(f"/workorders/{underway.pk}/tick/", {"kind": "step", "key": "0", "ticked": "1"},
+                        HTTP_ACCEPT="application/json")
+    assert again.status_code == 409 and again.json()["ticked"] is True
+    assert "already ticked" in again.json()["error"] and again.json()["note"].startswith("ticked by technician")
+
+
+@pytest.mark.parametrize("key", ["\N{SUPERSCRIPT TWO}", "-1", "1.5", " 1"])
+def test_a_line_number_that_is_not_plain_digits_is_refused_not_an_error(underway, users, client, key):
+    client.force_login(users["technician"])
+    answer = client.post(f"/workorders/{underway.pk}/tick/", {"kind": "step", "key": key, "ticked": "1"},
+                         HTTP_ACCEPT="application/json")
+    assert answer.status_code == 409 and "did not say which line" in answer.json()["error"]
+    assert not ChecklistTick.objects.exists()
 
 
 def test_a_finished_order_shows_its_ticks_read_only(underway, users, client):

@@ -3,7 +3,8 @@
 The file is Django's serialised form of every row of the project's apps, the people and their roles,
 and the change histories, preceded by a small header (format, creation time, row counts) so a restore
 can check it is reading a backup and report what it holds. Restore loads everything in one
-transaction: a failure part-way leaves the database as it was.
+transaction and then recomputes every site's due states (derived rows are not backed up): a failure
+part-way leaves the database as it was.
 """
 from __future__ import annotations
 
@@ -21,7 +22,10 @@ FORMAT = "observatory_ops-backup/1"
 #: Apps whose rows a backup holds, in dependency order. Django's own content types, permissions,
 #: sessions and admin log are rebuilt by migrations or are not part of the record.
 APPS = ("auth", "registry", "planning", "logbook", "workorders", "mirrors", "api", "archive")
-_SKIP = {"auth.permission"}
+#: Derived rows: left out of a backup, skipped in an older backup that holds them, and computed again
+#: for every site after a restore (so a restore into a newer version never carries an old layout).
+_DERIVED = {"planning.planstatus"}
+_SKIP = {"auth.permission"} | _DERIVED
 
 
 def _models():
@@ -99,7 +103,13 @@ def backup_restore(path: Path) -> dict[str, int]:
             model._default_manager.all().delete()  # the migration's role groups come back from the backup
         try:
             for item in serializers.deserialize("json", io.StringIO(body)):
-                item.save()
+                if item.object._meta.label_lower not in _DERIVED:
+                    item.save()
         except serializers.base.DeserializationError as exc:
             raise BackupError(f"{path}: damaged backup ({exc})") from None
+        from observatory_ops.planning.services import site_recompute  # the due states, computed again
+        from observatory_ops.registry.models import Site
+
+        for site in Site.objects.all():
+            site_recompute(site)
     return header["counts"]

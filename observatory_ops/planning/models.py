@@ -76,14 +76,12 @@ class PlanStatus(models.Model):
     Kept in a table so the due list is one indexed query however many plans there are.
     """
 
-    # Derived rows, written only by the recompute: it holds the site's row locked and reads the plans in the
-    # same transaction, and Django's CASCADE removes a state with its plan or site. So the database does
-    # not check the two keys again at every commit (that deferred check of a site's 400 rows cost about
-    # 4 ms of a 50 ms recompute: benchmarks/README.md).
-    plan = models.OneToOneField(
-        ServicePlan, on_delete=models.CASCADE, primary_key=True, related_name="status", db_constraint=False
-    )
-    # No index of its own: the (site, status, forecast_date) index below serves every lookup by site.
+    plan = models.OneToOneField(ServicePlan, on_delete=models.CASCADE, primary_key=True, related_name="status")
+    # Not checked again by the database at every commit (a deferred check of a site's 400 rows was about
+    # 2 ms of a recompute): the recompute holds the site's row locked while it writes, and a site that has
+    # telescopes cannot be deleted (PROTECT), so the site of a state always exists. The plan's key stays
+    # checked: a plan can be deleted while its site is being recomputed. No index of its own either: the
+    # (site, status, forecast_date) index below serves every lookup by site.
     site = models.ForeignKey(Site, on_delete=models.CASCADE, related_name="+", db_index=False, db_constraint=False)
     status = models.CharField(max_length=8, choices=[(s, s) for s in STATUSES])
     urgency = models.PositiveSmallIntegerField(help_text="0 overdue, 1 due, 2 later: sorts the due list.")

@@ -13,7 +13,7 @@ from dataclasses import dataclass
 from typing import NamedTuple
 
 import numpy as np
-from django.db import connections, transaction
+from django.db import transaction
 from django.db.models import Max
 from django.utils import timezone
 from simple_history.utils import bulk_create_with_history
@@ -200,7 +200,7 @@ def _dark_hours(site: Site, start: dt.date, end: dt.date) -> np.ndarray | None:
     rows as nights in the span, row ``i`` is the night ``start + i``.
     """
     rows = NightSky.objects.filter(site=site, night__gte=start, night__lte=end).order_by("night")
-    hours = np.fromiter((hours for hours, in _fetched(rows.values_list("dark_hours"))), float)
+    hours = np.fromiter((row[0] for row in _fetched(rows.values_list("dark_hours"))), float)
     return hours if len(hours) == (end - start).days + 1 else None
 
 
@@ -212,7 +212,7 @@ def _fetched(queryset) -> list[tuple]:
     take about as long again as the query itself (benchmarks/README.md).
     """
     sql, params = queryset.query.sql_with_params()
-    with connections[queryset.db].cursor() as cursor:
+    with transaction.get_connection(queryset.db).cursor() as cursor:
         cursor.execute(sql, params)
         return cursor.fetchall()
 
@@ -228,6 +228,8 @@ def usage_model(site: Site, log: UsageLog, first_day: dt.date, days: int) -> Usa
     if sky is None:  # the cache lacks nights: fill them, then read again
         site_sky_refresh(site, start, end)
         sky = _dark_hours(site, start, end)
+        if sky is None:
+            raise RuntimeError(f"the nights cache of {site} still lacks nights between {start} and {end}")
     past_dark = sky[(log.nights - np.datetime64(start, "D")).astype(int)]
     past_months = log.nights.astype("datetime64[M]").astype(int) % 12 + 1
     open_h = log.columns["open_hours"]
@@ -357,7 +359,7 @@ def _site_recompute(site: Site, today: dt.date) -> int:
     states: dict[int, list[TriggerState]] = {p.pk: [] for p in plans}
     groups: dict[tuple[str, float], list[tuple]] = {}  # (metric, dust sensitivity) -> [(plan, trigger)]
     for plan in plans:
-        for trig in triggers_of.get(plan.pk, []):
+        for trig in triggers_of[plan.pk]:
             if trig.metric == metrics.CALENDAR_DAYS:
                 states[plan.pk].append(_calendar_state(trig, baselines[plan.pk], today))
             elif trig.metric == metrics.RECOAT_LINE:
@@ -434,7 +436,8 @@ def _insert_all(model, names: tuple[str, ...], rows: list[tuple]) -> None:
     bounded by the database's parameter limit (55 rows a statement on SQLite for PlanStatus), and would
     need a model instance per row. On PostgreSQL the rows go in one ``COPY``; elsewhere in one
     ``executemany``. Values are written as both databases read them: dates in ISO form, JSON as text,
-    a date-time through Django's own conversion (once per distinct value), the rest as they are.
+    a date-time through Django's own conversion, the rest as they are. Nothing of ``pre_save`` runs, so
+    the rows must carry every value (``auto_now`` fields included).
     """
     if not rows:
         return
@@ -465,7 +468,12 @@ def _converter(field, db):
     if kind == "JSONField":
         return functools.partial(json.dumps, cls=field.encoder)
     if kind == "DateTimeField":
-        return functools.lru_cache(maxsize=4)(lambda value: field.get_db_prep_save(value, db))
+
+        @functools.lru_cache(maxsize=8)  # the rows of one recompute share one time: converted once
+        def moment(value):
+            return field.get_db_prep_save(value, db)
+
+        return moment
     return None
 
 
@@ -496,7 +504,7 @@ def _readings_by_subsystem_quantity(
     wanted = {
         (p.subsystem_id, t.quantity): baselines[p.pk]
         for p in plans
-        for t in triggers_of.get(p.pk, [])
+        for t in triggers_of[p.pk]
         if t.metric == metrics.READING
     }
     if not wanted:

@@ -38,7 +38,7 @@ def work_order_list(request):
 def work_order_from_due(request):
     if request.method != "POST":
         return HttpResponseNotAllowed(["POST"])
-    ids = [int(v) for v in request.POST.getlist("plans") if v.isdigit()]
+    ids = [int(v) for v in request.POST.getlist("plans") if v.isascii() and v.isdigit()]
     plans = list(ServicePlan.objects.filter(pk__in=ids))
     try:
         order = services.work_order_from_due(plans, request.user)
@@ -147,15 +147,19 @@ def work_order_tick(request, pk):
     wants_json = "application/json" in request.headers.get("Accept", "")
     key = request.POST.get("key", "")
     try:
-        if not key.isdigit():
+        if not (key.isascii() and key.isdigit()):
             raise services.Refused("the form did not say which line it is about; reload the page")
         tick = services.checklist_tick_set(
             order, request.POST.get("kind", ""), int(key), request.POST.get("ticked") == "1", request.user,
             seen_text=request.POST.get("text"),
         )
     except services.Refused as exc:
-        if wants_json:
-            return JsonResponse({"error": f"Not recorded: {exc}."}, status=409)
+        if wants_json:  # with the line's state as recorded, so the box shows it (someone may have ticked it)
+            lines = selectors.checklist(order)
+            asked = (request.POST.get("kind"), key)
+            line = next((x for x in lines.steps + lines.points if (x.kind, str(x.key)) == asked), None)
+            return JsonResponse({"error": f"Not recorded: {exc}.", "ticked": line.ticked if line else None,
+                                 "note": line.note if line else ""}, status=409)
         messages.error(request, f"Not recorded: {exc}.")
         return redirect(order)
     note = selectors.tick_note(tick, tick.text, order.site.zone)

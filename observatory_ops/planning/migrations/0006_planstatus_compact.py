@@ -15,6 +15,24 @@ def governing_out_of_the_list(apps, schema_editor):
             state.save(update_fields=["basis", "triggers"])
 
 
+def governing_back_into_the_list(apps, schema_editor):
+    """The reverse: the governing trigger goes back to the front of the list, rebuilt from the columns."""
+    from observatory_ops.planning.metrics import METRICS
+
+    PlanStatus = apps.get_model("planning", "PlanStatus")
+    for state in PlanStatus.objects.iterator(chunk_size=2000):
+        governing = {
+            "metric": state.metric, "label": METRICS[state.metric][0], "value": round(state.value, 3),
+            "limit": state.limit, "unit": state.unit, "rate_per_day": state.rate_per_day,
+            "forecast": state.forecast_date.isoformat() if state.forecast_date else None,
+            "earliest": state.earliest.isoformat() if state.earliest else None,
+            "latest": state.latest.isoformat() if state.latest else None, "basis": state.basis,
+        }
+        others = [{**t, "label": METRICS[t["metric"]][0]} for t in state.triggers]
+        state.triggers = [governing, *others]
+        state.save(update_fields=["triggers"])
+
+
 class Migration(migrations.Migration):
 
     dependencies = [
@@ -23,12 +41,7 @@ class Migration(migrations.Migration):
     ]
 
     operations = [
-        # The keys of these derived rows are not checked again by the database (see PlanStatus).
-        migrations.AlterField(
-            model_name='planstatus',
-            name='plan',
-            field=models.OneToOneField(db_constraint=False, on_delete=django.db.models.deletion.CASCADE, primary_key=True, related_name='status', serialize=False, to='planning.serviceplan'),
-        ),
+        # The site key of these derived rows is not checked again by the database (see PlanStatus).
         migrations.AlterField(
             model_name='planstatus',
             name='site',
@@ -44,5 +57,5 @@ class Migration(migrations.Migration):
             name='triggers',
             field=models.JSONField(default=list, help_text="The figures of the plan's other triggers (the governing one is in the columns)."),
         ),
-        migrations.RunPython(governing_out_of_the_list, migrations.RunPython.noop),
+        migrations.RunPython(governing_out_of_the_list, governing_back_into_the_list),
     ]
