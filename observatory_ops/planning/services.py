@@ -319,8 +319,7 @@ class _Trigger(NamedTuple):
     direction: str
 
 
-@dataclass(frozen=True)
-class _Plan:
+class _Plan(NamedTuple):
     """What the recompute reads of a service plan."""
 
     pk: int
