@@ -70,6 +70,22 @@ class Trigger(models.Model):
             raise ValidationError({"limit": "A usage or calendar limit must be more than zero."})
 
 
+def trigger_figures(metric, value, limit, unit, rate_per_day, forecast, earliest, latest, basis) -> dict:
+    """One trigger's figures as ``PlanStatus.triggers`` stores them and the subsystem page lists them.
+
+    The one shape of a trigger's record: the recompute stores the plan's other triggers in it, and
+    ``PlanStatus.trigger_rows`` rebuilds the governing one from the columns. The metric's label is looked
+    up when shown, not stored with every state.
+    """
+    return {
+        "metric": metric, "value": value, "limit": limit, "unit": unit, "rate_per_day": rate_per_day,
+        "forecast": forecast.isoformat() if forecast else None,
+        "earliest": earliest.isoformat() if earliest else None,
+        "latest": latest.isoformat() if latest else None,
+        "basis": basis,
+    }
+
+
 class PlanStatus(models.Model):
     """The due state of one plan, computed by ``planning.services.site_recompute``; never edited by hand.
 
@@ -108,12 +124,10 @@ class PlanStatus(models.Model):
     @property
     def trigger_rows(self) -> list[dict]:
         """Every trigger's figures, governing first, each with its metric's label (as the page lists them)."""
-        governing = {
-            "metric": self.metric, "value": self.value, "limit": self.limit, "unit": self.unit,
-            "rate_per_day": self.rate_per_day, "basis": self.basis,
-            **{key: day.isoformat() if day else None for key, day in
-               (("forecast", self.forecast_date), ("earliest", self.earliest), ("latest", self.latest))},
-        }
+        governing = trigger_figures(
+            self.metric, self.value, self.limit, self.unit, self.rate_per_day, self.forecast_date, self.earliest,
+            self.latest, self.basis,
+        )
         return [{**t, "label": METRICS[t["metric"]][0]} for t in (governing, *self.triggers)]
 
     @property

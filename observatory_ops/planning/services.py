@@ -26,7 +26,7 @@ from observatory_ops.registry.catalogue import kind as catalogue_kind
 from observatory_ops.registry.models import Site, Subsystem
 
 from . import metrics
-from .models import NightSky, PlanStatus, ServicePlan, Trigger
+from .models import NightSky, PlanStatus, ServicePlan, Trigger, trigger_figures
 
 #: How far ahead forecasts look. A trigger not reached by then has no forecast date.
 HORIZON_DAYS = 3 * 366
@@ -614,14 +614,8 @@ def reason_text(state: TriggerState) -> str:
 
 
 def _state_json(state: TriggerState) -> dict:
-    return {  # the metric's label is looked up when shown (PlanStatus.trigger_rows), not stored 400 times a site
-        "metric": state.metric,
-        "value": round(state.value, 3),
-        "limit": state.limit,
-        "unit": state.unit,
-        "rate_per_day": None if state.rate_per_day is None else round(state.rate_per_day, 4),
-        "forecast": state.forecast.isoformat() if state.forecast else None,
-        "earliest": state.earliest.isoformat() if state.earliest else None,
-        "latest": state.latest.isoformat() if state.latest else None,
-        "basis": state.basis,
-    }
+    rate = None if state.rate_per_day is None else round(state.rate_per_day, 4)
+    return trigger_figures(
+        state.metric, round(state.value, 3), state.limit, state.unit, rate, state.forecast, state.earliest,
+        state.latest, state.basis,
+    )
