@@ -287,14 +287,14 @@ def _offset_date(first_day: dt.date, offset: int) -> dt.date | None:
 
 def _effective_last_service(site: Site) -> dict[int, dt.date]:
     """Newest service date per plan at a site, counting only records neither corrected nor withdrawn."""
-    rows = (
+    return dict(
         ServiceRecord.objects.filter(
             subsystem__telescope__site=site, plan__isnull=False, corrected_by__isnull=True, void=False
         )
         .values("plan_id")
         .annotate(last=Max("performed_on"))
+        .values_list("plan_id", "last")
     )
-    return {r["plan_id"]: r["last"] for r in rows}
 
 
 def site_recompute(site: Site, today: dt.date | None = None) -> int:
@@ -509,9 +509,10 @@ def _readings_by_subsystem_quantity(
     if not wanted:
         return {}
     quantities = {q for _, q in wanted}
+    since = dt.datetime.combine(min(wanted.values()), dt.time(), tzinfo=dt.UTC)  # no reading before any baseline
     out: dict[tuple[int, str], list[tuple[dt.datetime, float]]] = {}
     for sub_id, quantity, taken_at, value in Reading.objects.filter(
-        subsystem__telescope__site=site, quantity__in=quantities
+        subsystem__telescope__site=site, quantity__in=quantities, taken_at__gte=since
     ).order_by("taken_at").values_list("subsystem_id", "quantity", "taken_at", "value"):
         key = (sub_id, quantity)
         if key in wanted and taken_at.date() >= wanted[key]:
