@@ -182,40 +182,55 @@ def test_two_people_finishing_at_once_yield_one_completion(site, telescope, user
 
 @pytest.mark.django_db(transaction=True)
 def test_sqlite_writers_wait_for_each_other_instead_of_failing(tmp_path):
-    """Two threads write at once to a SQLite file: both writes land (the 20 s busy timeout makes the
-    second wait), none is lost silently."""
-    import sqlite3
-
+    """Two threads write at once through Django to a SQLite file with the project's own database options
+    (settings.py: write lock taken up front, 20 s busy timeout): the second waits, both writes land."""
     from django.conf import settings
+    from django.db import connections, transaction
+    from django.db.utils import load_backend
 
-    if settings.DATABASES["default"]["ENGINE"] != "django.db.backends.sqlite3":
+    default = settings.DATABASES["default"]
+    if default["ENGINE"] != "django.db.backends.sqlite3":
         pytest.skip("SQLite-specific: PostgreSQL has row locks")
     path = Path(tmp_path) / "locked.sqlite3"
-    setup = sqlite3.connect(path)
-    setup.execute("create table t (n integer)")
-    setup.commit()
+    backend = load_backend(default["ENGINE"])
+    config = {**connections["default"].settings_dict, "NAME": str(path)}  # every option as the site runs
+    assert config["OPTIONS"]["transaction_mode"] == "IMMEDIATE" and config["OPTIONS"]["timeout"] >= 5
+
+    def connect(alias):
+        connections[alias] = backend.DatabaseWrapper(config, alias)  # this thread's own connection
+        return connections[alias]
+
+    setup = connect("setup")
+    with setup.cursor() as cursor:
+        cursor.execute("create table t (n integer)")
     setup.close()
-    timeout = settings.DATABASES["default"]["OPTIONS"]["timeout"]
-    errors = []
+    errors, holding = [], threading.Event()
 
     def writer(n):
+        conn = connect(f"writer{n}")
         try:
-            conn = sqlite3.connect(path, timeout=timeout)
-            conn.execute("begin immediate")
-            conn.execute("insert into t values (?)", (n,))
-            threading.Event().wait(0.5)  # hold the write lock so the other writer must wait
-            conn.commit()
-            conn.close()
-        except sqlite3.OperationalError as exc:
+            with transaction.atomic(using=conn.alias), conn.cursor() as cursor:
+                cursor.execute("insert into t values (%s)", [n])
+                holding.set()
+                threading.Event().wait(0.5)  # hold the write lock so the other writer must wait
+        except Exception as exc:  # reported by the assertion below
             errors.append(exc)
+        finally:
+            conn.close()
 
-    threads = [threading.Thread(target=writer, args=(i,)) for i in range(2)]
-    for t in threads:
-        t.start()
-    for t in threads:
-        t.join()
+    first = threading.Thread(target=writer, args=(1,))
+    first.start()
+    holding.wait(5)  # the first holds the lock before the second starts
+    second = threading.Thread(target=writer, args=(2,))
+    second.start()
+    first.join()
+    second.join()
     assert not errors
-    assert sqlite3.connect(path).execute("select count(*) from t").fetchone()[0] == 2
+    check = connect("check")
+    with check.cursor() as cursor:
+        cursor.execute("select n from t order by n")
+        assert [row[0] for row in cursor.fetchall()] == [1, 2]
+    check.close()
 
 
 def test_a_database_still_locked_after_the_wait_gets_a_clear_503_and_nothing_saved(rf, users):
