@@ -13,14 +13,10 @@ the same result as running it once.
 from __future__ import annotations
 
 import os
-import time
-from collections.abc import Iterator
-from contextlib import contextmanager
-from pathlib import Path
 
 from celery import Celery, Task, chain
 from celery.signals import worker_init
-from django.db import IntegrityError, InterfaceError, OperationalError, transaction
+from django.db import IntegrityError, InterfaceError, OperationalError
 
 os.environ.setdefault("DJANGO_SETTINGS_MODULE", "observatory_ops.settings")
 
@@ -34,12 +30,6 @@ def _freeze_after_start(**_kwargs) -> None:
     from observatory_ops.startup import freeze_loaded_objects
 
     freeze_loaded_objects()
-
-#: Test hook (see tests/test_workers.py): when this names a file that does not exist yet, a task writes
-#: its process id there and then waits inside its open transaction, so a test can kill the worker
-#: mid-task. Never set in production.
-PAUSE_FILE_VARIABLE = "OBSOPS_TEST_PAUSE_FILE"
-
 
 class ServiceTask(Task):
     """Base of every observatory_ops task: late acknowledgement and retries on database trouble.
@@ -65,23 +55,6 @@ class ServiceTask(Task):
         if exc is not None and self.request.is_eager and self.app.conf.task_eager_propagates:
             raise exc
         return super().retry(*args, exc=exc, **kwargs)
-
-
-def pause_for_tests() -> None:
-    """Wait here once per marker file when the test hook is set; return at once otherwise."""
-    marker = os.environ.get(PAUSE_FILE_VARIABLE)
-    if not marker or Path(marker).exists():
-        return
-    Path(marker).write_text(str(os.getpid()))
-    time.sleep(float(os.environ.get("OBSOPS_TEST_PAUSE_SECONDS", "120")))
-
-
-@contextmanager
-def task_transaction() -> Iterator[None]:
-    """The task's whole work as one transaction: committed when the task finishes, gone if it fails."""
-    with transaction.atomic():
-        yield
-        pause_for_tests()
 
 
 def each_site(*task_names: str) -> int:

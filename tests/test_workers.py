@@ -24,12 +24,12 @@ from urllib.parse import quote
 
 import pytest
 from conftest import require_server, site_in_use
-from django.db import connection
+from django.db import connection, transaction
 
-from observatory_ops.celery import PAUSE_FILE_VARIABLE
 from observatory_ops.logbook.models import NightUsage
 from observatory_ops.planning import services as planning
 from observatory_ops.planning.models import PlanStatus
+from observatory_ops.registry.models import Site
 
 pytestmark = pytest.mark.django_db(transaction=True)
 
@@ -80,10 +80,11 @@ class Workers:
         self.processes: list[subprocess.Popen] = []
         self.killed: list[subprocess.Popen] = []
 
-    def start(self, **env: str) -> subprocess.Popen:
+    def start(self, concurrency: int = 2, **env: str) -> subprocess.Popen:
         log = open(self.data_dir / f"worker-{len(self.processes)}.log", "wb")  # closed in stop()
         process = subprocess.Popen(
-            [sys.executable, "-m", "celery", "-A", "observatory_ops", "worker", "--loglevel=warning", "-c", "2",
+            [sys.executable, "-m", "celery", "-A", "observatory_ops", "worker", "--loglevel=warning",
+             "-c", str(concurrency),
              "--without-gossip", "--without-mingle", "--without-heartbeat", "-n", f"test{len(self.processes)}@%h"],
             cwd=PROJECT, env={**self.env, **env}, stdout=log, stderr=subprocess.STDOUT, start_new_session=True,
         )
@@ -177,31 +178,59 @@ def _older_nights(site, count: int) -> list[dict]:
     return [{"night": (today - dt.timedelta(days=70 + i)).isoformat(), "open_hours": 5.0} for i in range(count)]
 
 
+def _children(pid: int) -> list[int]:
+    """The process ids whose parent is ``pid`` (Linux /proc)."""
+    found = []
+    for stat in Path("/proc").glob("[0-9]*/stat"):
+        try:
+            fields = stat.read_text().rsplit(")", 1)[1].split()
+        except OSError:  # the process ended while we looked
+            continue
+        if int(fields[1]) == pid:
+            found.append(int(stat.parent.name))
+    return found
+
+
+def _waiting_on_a_lock() -> int:
+    """How many other sessions of this database are waiting for a lock."""
+    with connection.cursor() as cursor:
+        cursor.execute("SELECT pg_stat_clear_snapshot()")  # inside a transaction the view is read once, then kept
+        cursor.execute(
+            "SELECT count(*) FROM pg_stat_activity WHERE datname = current_database() AND wait_event_type = 'Lock'"
+        )
+        return cursor.fetchone()[0]
+
+
 @pytest.mark.parametrize("victim", ["the pool process running the task", "the whole worker"])
-def test_a_worker_killed_mid_task_loses_nothing_and_counts_nothing_twice(workers, producer, tmp_path, victim):
+def test_a_worker_killed_mid_task_loses_nothing_and_counts_nothing_twice(workers, producer, victim):
     """acks_late: the message stays with Redis until the task has finished, so a killed task runs again.
     reject_on_worker_lost: when only the pool process dies, the worker hands the message back at once.
-    The killed attempt's transaction was never committed, so the rerun starts from the data as it was."""
+    The killed attempt's transaction was never committed, so the rerun starts from the data as it was.
+
+    The test holds the site's row locked, so the ingest task stops inside its transaction with its
+    nights written, where its recompute waits for that lock; the worker is killed there."""
     site = site_in_use("kill")
     planning.site_recompute(site)
     before = plan_states(site)
-    marker = tmp_path / "paused"
-    first = workers.start(**{PAUSE_FILE_VARIABLE: str(marker)})
-    producer.send_task("logbook.nights_ingest", args=[site.pk, _older_nights(site, 5)])
-    wait_for(marker.exists, "the ingest task to pause inside its transaction", workers)
-    paused_at = time.monotonic()
-    time.sleep(0.5)  # the pid is written; the task now sleeps with its rows written but not committed
-    assert NightUsage.objects.filter(site=site).count() == 60 and plan_states(site) == before
-
+    with transaction.atomic():
+        Site.objects.select_for_update().filter(pk=site.pk).exists()  # held until this block ends
+        first = workers.start(concurrency=1)  # one pool process: the one running the task
+        producer.send_task("logbook.nights_ingest", args=[site.pk, _older_nights(site, 5)])
+        wait_for(_waiting_on_a_lock, "the ingest task to stop at the site's lock inside its transaction", workers)
+        assert NightUsage.objects.filter(site=site).count() == 60 and plan_states(site) == before
+        if victim == "the whole worker":
+            workers.kill(first)
+            killed_at = time.monotonic()
+        else:
+            (pool,) = _children(first.pid)
+            os.kill(pool, signal.SIGKILL)
+    # The lock is released: the killed attempt's session takes it, finds its client gone and rolls back.
     if victim == "the whole worker":
-        workers.kill(first)
         # A new worker takes over messages whose worker vanished once they are older than the visibility
         # timeout; it looks when it starts, so start it after that much time has passed.
         visibility = 2
-        time.sleep(max(0.0, paused_at + visibility + 1 - time.monotonic()))
-        workers.start(**{PAUSE_FILE_VARIABLE: str(marker), "CELERY_VISIBILITY_TIMEOUT": str(visibility)})
-    else:
-        os.kill(int(marker.read_text()), signal.SIGKILL)
+        time.sleep(max(0.0, killed_at + visibility + 1 - time.monotonic()))
+        workers.start(CELERY_VISIBILITY_TIMEOUT=str(visibility))
 
     wait_for(lambda: NightUsage.objects.filter(site=site).count() == 65, "the ingest to complete", workers)
     time.sleep(1)  # room for a duplicate run to show itself, if there were one
@@ -235,14 +264,6 @@ def _in_threads(*calls) -> list:
     for t in threads:
         t.join(timeout=WAIT_SECONDS)
     return results
-
-
-def _waiting_on_a_lock() -> int:
-    with connection.cursor() as cursor:
-        cursor.execute(
-            "SELECT count(*) FROM pg_stat_activity WHERE datname = current_database() AND wait_event_type = 'Lock'"
-        )
-        return cursor.fetchone()[0]
 
 
 def _hold_inside(module, name: str, held: threading.Event, release: threading.Event, monkeypatch) -> None:

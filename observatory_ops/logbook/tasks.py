@@ -2,8 +2,9 @@
 from __future__ import annotations
 
 from celery import shared_task
+from django.db import transaction
 
-from observatory_ops.celery import ServiceTask, task_transaction
+from observatory_ops.celery import ServiceTask
 from observatory_ops.registry.models import Site
 
 from . import services
@@ -14,7 +15,7 @@ def nights_ingest(site_id: int, records: list[dict], source: str = "api") -> dic
     """Store nights of usage for a site (one record per night) and recompute it; the same nights sent again
     change nothing. Returns the import report's counts and errors."""
     site = Site.objects.get(pk=site_id)
-    with task_transaction():
+    with transaction.atomic():  # the whole work, or none of it
         report = services.nights_ingest(site, records, source=source)
     return {
         "created": report.created,

@@ -7,8 +7,9 @@ from __future__ import annotations
 import datetime as dt
 
 from celery import shared_task
+from django.db import transaction
 
-from observatory_ops.celery import ServiceTask, each_site, task_transaction
+from observatory_ops.celery import ServiceTask, each_site
 from observatory_ops.registry.models import Site
 
 from . import digest, services
@@ -19,7 +20,7 @@ def site_sky_refresh(site_id: int) -> int:
     """Fill the site's nights cache for the whole forecast span from today; return the nights computed."""
     site = Site.objects.get(pk=site_id)
     today = services.site_today(site)
-    with task_transaction():
+    with transaction.atomic():  # the whole work, or none of it
         return services.site_sky_refresh(site, today, today + dt.timedelta(days=services.HORIZON_DAYS))
 
 
@@ -27,7 +28,7 @@ def site_sky_refresh(site_id: int) -> int:
 def site_recompute(site_id: int) -> int:
     """Recompute the due state of every plan at the site; return the number of plans."""
     site = Site.objects.get(pk=site_id)
-    with task_transaction():
+    with transaction.atomic():  # the whole work, or none of it
         return services.site_recompute(site)
 
 
