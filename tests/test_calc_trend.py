@@ -42,3 +42,9 @@ def test_a_trend_moving_away_from_the_limit_never_crosses():
 def test_bad_input_is_a_clear_message(days, values, message):
     with pytest.raises(ValueError, match=message):
         trend_to_limit(days, values, limit=1.0)
+
+
+@pytest.mark.parametrize("values", [[1.0, float("nan"), 2.0], [1.0, float("inf"), 2.0], [-1e308, 0.0, 1e308]])
+def test_values_that_cannot_be_fitted_are_refused_not_turned_into_infinities(values):
+    with pytest.raises(ValueError):
+        trend_to_limit([0.0, 1.0, 2.0], values, limit=5.0)

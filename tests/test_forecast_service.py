@@ -232,3 +232,61 @@ def test_dates_become_the_same_numpy_days_as_numpy_makes_them():
     days = [dt.date(1969, 12, 31), dt.date(1970, 1, 1), dt.date(2000, 2, 29), dt.date(2026, 12, 2)]
     assert (services._day_array(days) == np.array(days, dtype="datetime64[D]")).all()
     assert services._day_array([]).dtype == np.dtype("datetime64[D]")
+
+
+def _drive_with_readings(users, zone: str, values_at: list[tuple[dt.datetime, float]], counting_from: dt.date):
+    """A site in ``zone`` with one drive plan watching settle time (limit 1 s), and the given readings."""
+    from observatory_ops.logbook.models import Reading
+
+    site = Site.objects.create(name=f"Readings {zone}", slug=zone.lower().replace("/", "-"), latitude_deg=30,
+                               longitude_deg=0, time_zone=zone)
+    telescope = Telescope.objects.create(site=site, name="S1", aperture_m=0.5, mount="fork")
+    drive = Subsystem.objects.create(telescope=telescope, kind="axis1_drive", name="Drive")
+    plan = _plan(drive, "settle", [], counting_from)
+    Trigger.objects.create(plan=plan, metric="reading", limit=1.0, quantity="settle_time_s")
+    for taken_at, value in values_at:  # stored directly, as older data may be: no input check on the way
+        Reading.objects.create(subsystem=drive, quantity="settle_time_s", unit="s", value=value, taken_at=taken_at,
+                               taken_by=users["technician"])
+    return site, plan
+
+
+def test_a_reading_counts_from_the_local_day_of_the_last_service(db, users):
+    """The baseline is the site's local date: an evening reading the day before (already the next day
+    in UTC, 7 h ahead of Denver in winter) is not part of the trend; one after local midnight is."""
+    from zoneinfo import ZoneInfo
+
+    local = ZoneInfo("America/Denver")
+    service_day = TODAY - dt.timedelta(days=30)
+    before = dt.datetime.combine(service_day - dt.timedelta(days=1), dt.time(22, 30), tzinfo=local)
+    assert before.astimezone(dt.UTC).date() == service_day  # the case that used to be counted
+    after = [dt.datetime.combine(service_day + dt.timedelta(days=d), dt.time(0, 30), tzinfo=local) for d in (0, 5, 10)]
+    site, plan = _drive_with_readings(users, "America/Denver", [(before, 0.95), *[(t, 0.5) for t in after]],
+                                      service_day)
+    services.site_recompute(site, TODAY)
+    assert "Theil-Sen trend of 3 readings" in PlanStatus.objects.get(plan=plan).reason
+
+
+def test_a_condition_past_its_limit_says_the_day_it_was_first_past(db, users):
+    """Like a counter, which gives the night its limit was passed: the first of the newest run of
+    readings beyond the limit, not today."""
+    noon = [dt.datetime.combine(TODAY - dt.timedelta(days=d), dt.time(12), tzinfo=dt.UTC) for d in (40, 30, 20, 10)]
+    site, plan = _drive_with_readings(users, "UTC", list(zip(noon, [0.8, 1.05, 0.98, 1.02, ], strict=True)),
+                                      TODAY - dt.timedelta(days=60))
+    services.site_recompute(site, TODAY)
+    status = PlanStatus.objects.get(plan=plan)
+    assert status.status == "overdue"
+    assert status.forecast_date == TODAY - dt.timedelta(days=10)  # 0.98 at day -20 was back under the limit
+    assert f"limit reached on {status.forecast_date:%d %b %Y}" in status.reason
+
+
+def test_absurd_readings_leave_the_recompute_working_and_say_why_there_is_no_trend(db, users):
+    """Readings too far apart for a trend (differences overflow to infinity) once jammed the site's
+    recompute, since infinity is not JSON: now the plan shows the reading, no trend and no forecast."""
+    noon = [dt.datetime.combine(TODAY - dt.timedelta(days=d), dt.time(12), tzinfo=dt.UTC) for d in (30, 20, 10)]
+    site, plan = _drive_with_readings(users, "UTC", list(zip(noon, [0.5, -1e308, 1e308], strict=True)),
+                                      TODAY - dt.timedelta(days=60))
+    services.site_recompute(site, TODAY)
+    status = PlanStatus.objects.get(plan=plan)
+    assert "no trend (the readings are too far apart to fit a trend)" in status.reason
+    assert status.rate_per_day is None
+    assert json.loads(json.dumps(status.trigger_rows, allow_nan=False))  # every figure is plain JSON

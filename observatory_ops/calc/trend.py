@@ -58,9 +58,14 @@ def trend_to_limit(days: ArrayLike, values: ArrayLike, limit: float, rising: boo
         raise ValueError("days and values must have the same length")
     if len(days) < MIN_READINGS:
         raise ValueError(f"a trend needs at least {MIN_READINGS} readings, got {len(days)}")
+    if not (np.isfinite(days).all() and np.isfinite(values).all()):
+        raise ValueError("every reading and day must be a finite number")
     if np.ptp(days) == 0:
         raise ValueError("the readings must be taken on at least two different days")
-    slope, intercept, low, high = stats.theilslopes(values, days, alpha=0.95)
+    with np.errstate(over="ignore", invalid="ignore"):  # an overflow is caught just below
+        slope, intercept, low, high = stats.theilslopes(values, days, alpha=0.95)
+    if not np.isfinite([slope, intercept, low, high]).all():  # differences overflowed: absurd readings
+        raise ValueError("the readings are too far apart to fit a trend")
     pivot_x, pivot_y = np.median(days), np.median(values)
 
     def crossing(s: float) -> float | None:

@@ -9,7 +9,7 @@ from __future__ import annotations
 import datetime as dt
 import functools
 import json
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 from typing import NamedTuple
 
 import numpy as np
@@ -366,7 +366,7 @@ def _site_recompute(site: Site, today: dt.date) -> int:
                 if state:
                     states[plan.pk].append(state)
             elif trig.metric == metrics.READING:
-                state = _reading_state(trig, readings.get((plan.subsystem_id, trig.quantity), []), today)
+                state = _reading_state(trig, readings.get((plan.subsystem_id, trig.quantity), []), today, site.zone)
                 if state:
                     states[plan.pk].append(state)
             else:
@@ -509,13 +509,16 @@ def _readings_by_subsystem_quantity(
     if not wanted:
         return {}
     quantities = {q for _, q in wanted}
-    since = dt.datetime.combine(min(wanted.values()), dt.time(), tzinfo=dt.UTC)  # no reading before any baseline
+    # A baseline is a local date at the site (the day of the last service): a reading counts from that
+    # day's local midnight on.
+    zone = site.zone
+    since = dt.datetime.combine(min(wanted.values()), dt.time(), tzinfo=zone)  # no reading before any baseline
     out: dict[tuple[int, str], list[tuple[dt.datetime, float]]] = {}
     for sub_id, quantity, taken_at, value in Reading.objects.filter(
         subsystem__telescope__site=site, quantity__in=quantities, taken_at__gte=since
     ).order_by("taken_at").values_list("subsystem_id", "quantity", "taken_at", "value"):
         key = (sub_id, quantity)
-        if key in wanted and taken_at.date() >= wanted[key]:
+        if key in wanted and taken_at.astimezone(zone).date() >= wanted[key]:
             out.setdefault(key, []).append((taken_at, value))
     return {k: v[-TREND_READINGS:] for k, v in out.items()}
 
@@ -553,7 +556,7 @@ def _recoat_line_state(mirror, today: dt.date, log: UsageLog, model: UsageModel)
     )
 
 
-def _reading_state(trig, readings, today: dt.date) -> TriggerState | None:
+def _reading_state(trig, readings, today: dt.date, zone) -> TriggerState | None:
     """A condition trigger: latest reading against the limit, with the Theil-Sen trend's crossing date."""
     if not readings:
         return None
@@ -561,9 +564,12 @@ def _reading_state(trig, readings, today: dt.date) -> TriggerState | None:
     label, unit = QUANTITIES[trig.quantity]
     origin = readings[0][0]
     days = [(t - origin).total_seconds() / 86400 for t, _ in readings]
-    fit = None
+    fit, no_fit = None, f"{len(readings)} reading(s) since the last service: too few for a trend"
     if len(readings) >= trend.MIN_READINGS and max(days) > min(days):
-        fit = trend.trend_to_limit(days, [v for _, v in readings], trig.limit, rising)
+        try:
+            fit = trend.trend_to_limit(days, [v for _, v in readings], trig.limit, rising)
+        except ValueError as exc:  # readings that cannot be fitted: shown, and no forecast from them
+            no_fit = f"{len(readings)} readings since the last service: no trend ({exc})"
 
     def day(offset: float | None) -> dt.date | None:
         if fit is None or offset is None or not np.isfinite(offset) or offset > 10 * HORIZON_DAYS:
@@ -574,9 +580,9 @@ def _reading_state(trig, readings, today: dt.date) -> TriggerState | None:
         f"Theil-Sen trend of {fit.n_points} readings: {fit.slope_per_day:+.4g} {unit}/day "
         f"(95 % interval {fit.slope_low:+.4g} to {fit.slope_high:+.4g})"
         if fit
-        else f"{len(readings)} reading(s) since the last service: too few for a trend"
+        else no_fit
     )
-    return TriggerState(
+    state = TriggerState(
         metric=metrics.READING,
         value=readings[-1][1],
         limit=trig.limit,
@@ -588,6 +594,13 @@ def _reading_state(trig, readings, today: dt.date) -> TriggerState | None:
         rising=rising,
         unit=unit,
     )
+    if state.reached:  # reached on the day of the first of the newest readings that are all past the limit
+        first = len(readings) - 1
+        while first > 0 and replace(state, value=readings[first - 1][1]).reached:
+            first -= 1
+        on = readings[first][0].astimezone(zone).date()
+        state = replace(state, forecast=on, earliest=on, latest=on)
+    return state
 
 
 def reason_text(state: TriggerState) -> str:
