@@ -66,7 +66,7 @@ class Trigger(models.Model):
     def clean(self) -> None:
         if self.metric == READING and not self.quantity:
             raise ValidationError({"quantity": "A reading trigger needs the quantity it watches."})
-        if self.metric != READING and self.limit <= 0:
+        if self.metric != READING and self.limit is not None and self.limit <= 0:  # None: the field says so
             raise ValidationError({"limit": "A usage or calendar limit must be more than zero."})
 
 

@@ -24,6 +24,10 @@ def home(request):
     return render(request, "registry/home.html", {"sites": sites})
 
 
+#: Rows of the dashboard's "Needs attention" list; the rest are a link away on the due list.
+ATTENTION_ROWS = 12
+
+
 @requires(VIEWER)
 def site_dashboard(request, slug):
     site = get_object_or_404(Site, slug=slug)
@@ -33,7 +37,8 @@ def site_dashboard(request, slug):
         {
             "site": site,
             "counts": planning_selectors.status_counts(site),
-            "upcoming": planning_selectors.due_for_site(site)[:12],
+            "upcoming": planning_selectors.due_for_site(site)[:ATTENTION_ROWS],
+            "attention_rows": ATTENTION_ROWS,
             "telescopes": [(t, subsystem_tree(t), tube_warning(t)) for t in site.telescopes.all()],
             "last_night": NightUsage.objects.filter(site=site).order_by("-night").first(),
             "recent_service": planning_selectors.recent_service(site)[:8],
