@@ -128,6 +128,23 @@ def test_recoat_plan_makes_work_orders_with_cautions_and_lifting(mirror, users):
     assert "chemical" in orders[1].hazards and "laser" in orders[3].hazards
 
 
+def test_the_same_recoat_window_planned_twice_is_refused_until_the_first_is_withdrawn(mirror, users):
+    """A double submit (or the back button) used to make a second plan and a second set of orders."""
+    from django.core.exceptions import ValidationError
+
+    from observatory_ops.calc.windows import RECOAT_PHASES
+    from observatory_ops.workorders.models import State
+
+    phases = list(RECOAT_PHASES)
+    first = services.recoat_plan_create(mirror, dt.date(2026, 8, 1), phases, 3.5, users["engineer"])
+    with pytest.raises(ValidationError, match="already planned from 01 Aug 2026"):
+        services.recoat_plan_create(mirror, dt.date(2026, 8, 3), phases, 3.5, users["engineer"])
+    assert mirror.recoat_plans.count() == 1
+    first.work_orders.update(state=State.WITHDRAWN)
+    services.recoat_plan_create(mirror, dt.date(2026, 8, 3), phases, 3.5, users["engineer"])
+    assert mirror.recoat_plans.count() == 2
+
+
 def test_calendar_export_is_rfc5545(mirror, users, client):
     from icalendar import Calendar
 

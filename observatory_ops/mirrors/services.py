@@ -27,7 +27,7 @@ from observatory_ops.planning.services import (
 )
 from observatory_ops.registry.models import Site
 from observatory_ops.workorders.cautions import HAZARDS
-from observatory_ops.workorders.models import RequiredReading, WorkOrder, WorkOrderItem
+from observatory_ops.workorders.models import RequiredReading, State, WorkOrder, WorkOrderItem
 from observatory_ops.workorders.services import steps_with_lockout
 
 from .models import CleaningEvent, CoatingEvent, Mirror, RecoatPlan, ReflectanceMeasurement
@@ -285,11 +285,24 @@ def recoat_plan_create(
     mirror's recoat service plan (if any), so finishing it restarts that plan's counting.
     """
     total = windows.total_days(phases)
+    ends_on = starts_on + dt.timedelta(days=total - 1)
     subsystem = mirror.subsystem
     recoat_plan = subsystem.plans.filter(active=True, name__icontains="recoat").first()
     with transaction.atomic():
+        Mirror.objects.select_for_update().filter(pk=mirror.pk).exists()  # two submits at once take turns
+        overlapping = (
+            RecoatPlan.objects.filter(mirror=mirror, starts_on__lte=ends_on, ends_on__gte=starts_on)
+            .filter(work_orders__in=WorkOrder.objects.exclude(state=State.WITHDRAWN))  # a plan still in force
+            .first()
+        )
+        if overlapping:
+            raise ValidationError(
+                f"a recoat of this mirror is already planned from {overlapping.starts_on:%d %b %Y} to "
+                f"{overlapping.ends_on:%d %b %Y}; withdraw its work orders first, or choose a window that "
+                "does not overlap it"
+            )
         plan = RecoatPlan.objects.create(
-            mirror=mirror, starts_on=starts_on, ends_on=starts_on + dt.timedelta(days=total - 1),
+            mirror=mirror, starts_on=starts_on, ends_on=ends_on,
             phases=[{"name": p.name, "days": p.days} for p in phases], cost=cost, created_by=by,
         )
         day = starts_on

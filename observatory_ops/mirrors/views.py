@@ -126,7 +126,11 @@ def recoat_plan_create(request, pk):
     if chosen is None:
         messages.error(request, "Choose one of the windows listed.")
         return redirect("mirror-recoat", pk=mirror.pk)
-    plan = services.recoat_plan_create(mirror, chosen["start"], phases, chosen["cost"], request.user)
+    try:
+        plan = services.recoat_plan_create(mirror, chosen["start"], phases, chosen["cost"], request.user)
+    except ValidationError as exc:
+        messages.error(request, f"No plan made: {exc.messages[0]}.")
+        return redirect("mirror-recoat", pk=mirror.pk)
     messages.success(
         request, f"Recoat planned {plan.starts_on:%d %b %Y} to {plan.ends_on:%d %b %Y}: "
         f"{plan.work_orders.count()} draft work orders made."
