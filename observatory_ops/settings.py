@@ -74,6 +74,7 @@ MIDDLEWARE = [
     "django.contrib.auth.middleware.AuthenticationMiddleware",
     "django.contrib.messages.middleware.MessageMiddleware",
     "observatory_ops.archive.middleware.history_middleware",
+    "observatory_ops.api.middleware.ApiJsonErrors",  # before DatabaseBusy: a locked database stays a 503
     "observatory_ops.database_busy.DatabaseBusyMiddleware",
     "django.middleware.clickjacking.XFrameOptionsMiddleware",
 ]
