@@ -290,3 +290,14 @@ def test_absurd_readings_leave_the_recompute_working_and_say_why_there_is_no_tre
     assert "no trend (the readings are too far apart to fit a trend)" in status.reason
     assert status.rate_per_day is None
     assert json.loads(json.dumps(status.trigger_rows, allow_nan=False))  # every figure is plain JSON
+
+
+def test_the_picture_of_a_reached_limit_marks_the_day_instead_of_a_forecast_line_back_in_time():
+    from observatory_ops.planning.plots import accumulation_svg
+
+    day = TODAY - dt.timedelta(days=20)
+    points = [(TODAY - dt.timedelta(days=60), 0.0), (TODAY, 700.0)]
+    reached = str(accumulation_svg(points, 600.0, "h", TODAY, 700.0, day, day, day))
+    assert f"limit reached {day:%d %b %Y}" in reached and "forecast " not in reached.replace("forecast band", "")
+    coming = str(accumulation_svg(points, 900.0, "h", TODAY, 700.0, TODAY + dt.timedelta(days=9), None, None))
+    assert f"forecast {TODAY + dt.timedelta(days=9):%d %b %Y}" in coming

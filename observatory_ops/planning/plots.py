@@ -24,7 +24,8 @@ def accumulation_svg(
     """Accumulated value (or readings) against time, the limit, today, and the forecast with its band.
 
     The forecast is drawn as a dashed line from today's value to the limit at the forecast date; the band
-    (earliest to latest) as a shaded strip, drawn to the plot's end when the slow case runs past it.
+    (earliest to latest) as a shaded strip, drawn to the plot's end when the slow case runs past it. A limit
+    already reached is marked on the day it was reached (the "forecast" of a reached trigger).
     """
     start = points[0][0] if points else today - dt.timedelta(days=30)
     end = max(d for d in (today, forecast, latest, earliest) if d is not None) + dt.timedelta(days=7)
@@ -36,7 +37,9 @@ def accumulation_svg(
         chart.band(earliest, latest or end, "forecast band")
     chart.hline(limit, f"limit {limit:,.4g} {unit}")
     chart.line(points)
-    if forecast:
+    if forecast and forecast < today:  # already reached: mark the day, draw no line back in time
+        chart.marker(forecast, limit, f"limit reached {forecast:%d %b %Y}")
+    elif forecast:
         chart.line([(today, value_now), (forecast, limit)], dashed=True, width=1.5)
         chart.marker(forecast, limit, f"forecast {forecast:%d %b %Y}")
     chart.vline(today, "today")
