@@ -100,3 +100,25 @@ def test_the_dashboard_says_how_many_more_need_attention_than_it_lists(users, cl
     client.force_login(users["viewer"])
     page = client.get(telescope.site.get_absolute_url()).content.decode()
     assert f"{overdue} overdue or due in all: the {ATTENTION_ROWS} first are above" in page
+
+
+def test_retiring_a_subsystem_names_the_work_orders_still_open_for_it(telescope, users, client, today):
+    from observatory_ops.workorders.models import WorkOrder, WorkOrderItem
+
+    _sky(telescope.site)
+    brake = subsystem_create(telescope, "brake", "Brake", counting_from=today)
+    order = WorkOrder.objects.create(site=telescope.site, telescope=telescope, title="Brake pads", steps="Replace",
+                                     hazards=[], created_by=users["engineer"])
+    WorkOrderItem.objects.create(work_order=order, subsystem=brake)
+    client.force_login(users["engineer"])
+    page = client.post(f"/subsystems/{brake.pk}/retire/", {"reason": "replaced"}, follow=True).content.decode()
+    assert f"Work orders still open for it: {order.number} (draft)" in page
+
+
+@pytest.mark.parametrize("query", ["site=999", "site=abc", "status=nonsense"])
+def test_a_due_list_filter_that_cannot_be_applied_is_said_so(users, client, site, query):
+    client.force_login(users["viewer"])
+    page = client.get(f"/due/?{query}").content.decode()
+    assert "not applied" in page and query.split("=")[1] in page
+    download = client.get(f"/due/?{query}&export=csv")
+    assert download.status_code == 400 and b"not applied" in download.content

@@ -1,3 +1,5 @@
+from django.contrib import messages
+from django.http import HttpResponseBadRequest
 from django.shortcuts import render
 from django_tables2 import RequestConfig
 
@@ -13,11 +15,21 @@ from .tables import DueTable
 @requires(VIEWER)
 def due_list(request):
     filtered = DueFilter(request.GET, queryset=selectors.due_rows())
+    # A filter that cannot be applied (an unknown site, a status that does not exist) is said so: on the
+    # page the rest is shown, a download is refused rather than made without it.
+    unapplied = [
+        f"{filtered.form.fields[field].label} {request.GET.get(field)!r} not applied: {' '.join(problems)}"
+        for field, problems in filtered.errors.items()
+    ]
     if request.GET.get("export") == "csv":
+        if unapplied:
+            return HttpResponseBadRequest("; ".join(unapplied), content_type="text/plain; charset=utf-8")
         header = ("status", "site", "subsystem", "plan", "trigger", "value", "limit", "unit", "rate",
                   "forecast_date", "earliest", "latest", "reason")
         rows = ([record[k] for k in header] for record in map(selectors.due_record, filtered.qs))
         return csv_response("due-list.csv", header, rows)
+    for problem in unapplied:
+        messages.warning(request, problem)
     table = DueTable(filtered.qs)
     RequestConfig(request, paginate={"per_page": 50}).configure(table)
     context = {"filter": filtered, "table": table, **_links(request, table)}

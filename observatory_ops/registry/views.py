@@ -84,4 +84,10 @@ def subsystem_retire(request, pk):
     else:
         site_recompute(site)
         messages.success(request, f"{subsystem.name} retired; its records and history are kept.")
+        open_orders = workorder_selectors.work_orders().filter(
+            items__subsystem=subsystem, state__in=["draft", "issued", "underway"]
+        ).distinct()
+        if open_orders:
+            listed = ", ".join(f"{o.number} ({o.state})" for o in open_orders)
+            messages.warning(request, f"Work orders still open for it: {listed}. Finish or withdraw them.")
     return redirect(subsystem)
