@@ -158,6 +158,12 @@ def test_calendar_export_is_rfc5545(mirror, users, client):
     assert len(events) == 5  # four work orders and the window
     window = next(e for e in events if str(e["summary"]).startswith("Recoat window"))
     assert window.decoded("dtstart") == dt.date(2026, 8, 1)
+    # Each recoat work order lasts its phase (RFC 5545: an all-day DTEND is the day after the last day).
+    removal = next(e for e in events if str(e["summary"]).endswith("removal"))
+    assert (removal.decoded("dtstart"), removal.decoded("dtend")) == (dt.date(2026, 8, 1), dt.date(2026, 8, 3))
+    coat = next(e for e in events if str(e["summary"]).endswith("strip and coat"))
+    assert (coat.decoded("dtstart"), coat.decoded("dtend")) == (dt.date(2026, 8, 4), dt.date(2026, 8, 7))
+    assert mirror.subsystem.telescope.name in str(removal["summary"])
 
 
 @pytest.mark.parametrize(

@@ -29,12 +29,38 @@ def site_calendar(site: Site, base_url: str) -> bytes:
             event.add(key, value)
         calendar.add_component(event)
 
-    orders = WorkOrder.objects.filter(site=site, planned_date__isnull=False).exclude(state=State.WITHDRAWN)
+    plans = list(
+        RecoatPlan.objects.filter(mirror__subsystem__telescope__site=site)
+        .select_related("mirror__subsystem__telescope").prefetch_related("work_orders")
+    )
+    last_day = _phase_last_days(plans)
+    orders = (
+        WorkOrder.objects.filter(site=site, planned_date__isnull=False).exclude(state=State.WITHDRAWN)
+        .select_related("telescope")
+    )
     for order in orders:
         address = base_url.rstrip("/") + order.get_absolute_url()
-        all_day(f"workorder-{order.pk}", order.planned_date, order.planned_date, f"{order.number} {order.title}",
-                f"State: {order.get_state_display()}. {address}")
-    for plan in RecoatPlan.objects.filter(mirror__subsystem__telescope__site=site).select_related("mirror__subsystem"):
-        all_day(f"recoat-{plan.pk}", plan.starts_on, plan.ends_on, f"Recoat window: {plan.mirror.subsystem}",
+        where = f"{order.telescope.name}: " if order.telescope else ""
+        all_day(f"workorder-{order.pk}", order.planned_date, last_day.get(order.pk, order.planned_date),
+                f"{order.number} {where}{order.title}", f"State: {order.get_state_display()}. {address}")
+    for plan in plans:
+        subsystem = plan.mirror.subsystem
+        all_day(f"recoat-{plan.pk}", plan.starts_on, plan.ends_on,
+                f"Recoat window: {subsystem.telescope.name} {subsystem.name}",
                 ", ".join(f"{p['name']} {p['days']} d" for p in plan.phases))
     return calendar.to_ical()
+
+
+def _phase_last_days(plans: list[RecoatPlan]) -> dict[int, dt.date]:
+    """The last day of each recoat work order: its phase lasts the phase's days from its planned date."""
+    last = {}
+    for plan in plans:
+        starts, day = {}, plan.starts_on
+        for phase in plan.phases:
+            starts.setdefault(day, phase["days"])
+            day += dt.timedelta(days=phase["days"])
+        for order in plan.work_orders.all():
+            days = starts.get(order.planned_date)
+            if days:
+                last[order.pk] = order.planned_date + dt.timedelta(days=days - 1)
+    return last
