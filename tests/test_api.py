@@ -268,7 +268,7 @@ FUTURE = object()  # replaced by the site's tomorrow in the test
         ([night(axis1_travel_deg=-0.5)], [(0, "axis1_travel_deg", "axis1_travel_deg cannot be below 0 (got -0.5)")]),
         ([night(humidity_pct=140)], [(0, "humidity_pct", "humidity_pct cannot be above 100 (got 140)")]),
         ([night(slews=2.5)], [(0, "slews", "slews must be a whole number, not 2.5")]),
-        ([night(brake_cycles=2**31)], [(0, "brake_cycles", "brake_cycles cannot be above 2.14748e+09")]),
+        ([night(brake_cycles=2**31)], [(0, "brake_cycles", "brake_cycles cannot be above 10,000")]),
         ([night(open_hours=True)], [(0, "open_hours", "open_hours must be a number, not True")]),
         ([night(open_hours="five")], [(0, "open_hours", "open_hours must be a number, not 'five'")]),
         (b'{"night": "2024-03-14", "open_hours": NaN}', [(0, "open_hours", "open_hours must be a finite number")]),
@@ -636,3 +636,118 @@ def test_only_an_administrator_may_see_or_create_tokens_in_the_admin(client, sit
     assert client.post(reverse("admin:api_apitoken_add"), {"site": site.pk, "name": "x"}).status_code == 403
     assert client.get(reverse("admin:api_apitoken_changelist")).status_code == 403
     assert not ApiToken.objects.exists()
+
+
+# --- keys left out, whole numbers written as decimals, bounds, every problem of a night ------------------
+
+
+def test_a_key_left_out_keeps_the_stored_figure_and_only_a_real_change_counts_as_updated(
+    client, site, secret, recomputes
+):
+    assert post(client, site.slug, night(dew=True), secret).json() == {"created": 1, "updated": 0, "unchanged": 0}
+    before = snapshot()
+    short = {"night": NIGHT.isoformat(), "open_hours": 7.5}  # the stored hours; nothing else given
+    assert post(client, site.slug, short, secret).json() == {"created": 0, "updated": 0, "unchanged": 1}
+    assert snapshot() == before
+    response = post(client, site.slug, {**short, "open_hours": 8.25, "pm10_ugm3": None}, secret)
+    assert response.json() == {"created": 0, "updated": 1, "unchanged": 0}
+    usage = NightUsage.objects.get(site=site)
+    assert (usage.open_hours, usage.pm10_ugm3) == (8.25, None)  # given: changed (null clears)
+    assert (usage.slews, usage.axis1_travel_deg, usage.axis2_travel_deg, usage.brake_cycles) == (41, 1030.5, 610, 43)
+    assert (usage.humidity_pct, usage.dew, usage.rain) == (31.0, True, False)  # left out: kept
+    assert recomputes == [site.pk, site.pk]
+
+
+def test_a_new_night_with_keys_left_out_takes_the_blank_values(client, site, secret):
+    assert post(client, site.slug, {"night": NIGHT.isoformat(), "open_hours": 3}, secret).status_code == 200
+    usage = NightUsage.objects.get(site=site)
+    assert (usage.slews, usage.axis1_travel_deg, usage.axis2_travel_deg, usage.brake_cycles) == (0, 0.0, 0.0, 0)
+    assert (usage.pm10_ugm3, usage.humidity_pct, usage.dew, usage.rain) == (None, None, False, False)
+
+
+def test_a_whole_number_sent_with_a_decimal_point_is_accepted_for_a_count(client, site, secret):
+    body = b'{"night": "2024-03-14", "open_hours": 5, "slews": 4.0, "brake_cycles": 1e2}'
+    response = post(client, site.slug, body, secret)
+    assert response.status_code == 200, response.content
+    usage = NightUsage.objects.get(site=site)
+    assert (usage.slews, usage.brake_cycles) == (4, 100)
+
+
+@pytest.mark.parametrize("value", [4.5, 0.1, 1e-9])
+def test_a_fraction_is_still_refused_for_a_count(client, stored, secret, value):
+    before = snapshot()
+    response = post(client, stored.slug, night(slews=value), secret)
+    assert response.status_code == 400
+    assert error_body(response) == [
+        {"index": 0, "field": "slews", "message": f"slews must be a whole number, not {value!r}"}
+    ]
+    assert snapshot() == before
+
+
+def test_a_night_more_than_15_years_back_is_refused_and_the_earliest_accepted_is_stored(client, stored, secret):
+    earliest = nights_csv.earliest_accepted(site_today(stored))
+    before = snapshot()
+    response = post(client, stored.slug, [night(dt.date(1900, 1, 1)), night(earliest - dt.timedelta(days=1))], secret)
+    assert response.status_code == 400
+    assert error_body(response) == [
+        {"index": 0, "field": "night",
+         "message": f"night 1900-01-01 is more than 15 years ago; the earliest accepted is {earliest}"},
+        {"index": 1, "field": "night",
+         "message": f"night {earliest - dt.timedelta(days=1)} is more than 15 years ago; "
+                    f"the earliest accepted is {earliest}"},
+    ]
+    assert snapshot() == before
+    assert post(client, stored.slug, night(earliest), secret).status_code == 200
+
+
+@pytest.mark.parametrize(
+    ("field", "value", "message"),
+    [
+        ("slews", 10_001, "slews cannot be above 10,000 (got 10001)"),
+        ("axis1_travel_deg", 1_000_001, "axis1_travel_deg cannot be above 1,000,000 (got 1000001)"),
+        ("axis2_travel_deg", 1e300, "axis2_travel_deg cannot be above 1,000,000 (got 1e+300)"),
+        ("brake_cycles", 10_001, "brake_cycles cannot be above 10,000 (got 10001)"),
+        ("pm10_ugm3", 10_000.5, "pm10_ugm3 cannot be above 10,000 (got 10000.5)"),
+        ("humidity_pct", -1, "humidity_pct cannot be below 0 (got -1)"),
+    ],
+)
+def test_a_figure_beyond_its_plausibility_bound_is_refused(client, stored, secret, field, value, message):
+    before = snapshot()
+    response = post(client, stored.slug, night(**{field: value}), secret)
+    assert response.status_code == 400
+    assert error_body(response) == [{"index": 0, "field": field, "message": message}]
+    assert snapshot() == before
+
+
+@pytest.mark.parametrize("literal", [b"NaN", b"Infinity", b"-Infinity", b"1e999"])
+@pytest.mark.parametrize("field", ["open_hours", "slews", "axis1_travel_deg", "pm10_ugm3", "humidity_pct"])
+def test_a_figure_that_is_not_finite_is_refused(client, stored, secret, field, literal):
+    body = b'{"night": "2024-03-14", "open_hours": 5, "%s": %s}' % (field.encode(), literal)
+    if field == "open_hours":
+        body = b'{"night": "2024-03-14", "open_hours": %s}' % literal
+    before = snapshot()
+    response = post(client, stored.slug, body, secret)
+    assert response.status_code == 400
+    [error] = error_body(response)
+    assert (error["index"], error["field"]) == (0, field)
+    assert error["message"].startswith(f"{field} must be a finite number")
+    assert snapshot() == before
+
+
+def test_every_problem_of_a_night_is_reported_each_with_its_field(client, stored, secret):
+    before = snapshot()
+    response = post(client, stored.slug, [night(), night(NIGHT + dt.timedelta(days=1), slews=-1, humidity_pct=140,
+                                                         dome="east")], secret)
+    assert response.status_code == 400
+    assert [(e["index"], e["field"], e["message"]) for e in error_body(response)] == [
+        (1, "dome", "unknown field 'dome' (known: " + ", ".join(nights_csv.COLUMNS) + ")"),
+        (1, "slews", "slews cannot be below 0 (got -1)"),
+        (1, "humidity_pct", "humidity_pct cannot be above 100 (got 140)"),
+    ]
+    assert snapshot() == before
+
+
+def test_nights_ingest_of_an_empty_list_is_a_problem_of_the_whole_body(site):
+    report = logbook_services.nights_ingest(site, [])
+    assert report.errors == [(None, "the list of nights is empty")]
+    assert report.summary == "The list of nights is empty. Nothing was stored."

@@ -1,8 +1,9 @@
 """Specifications for the nightly-usage importer: the service, the `import_nights` command and the upload page.
 
 A refused import stores nothing (count and content of every NightUsage row unchanged) and names the line
-of every problem; an accepted import is idempotent per site and night. Malformed files are generated
-with hypothesis. Line numbers count the header as line 1, as a text editor does.
+of every problem of a bad row, or says why the whole file is not a nights CSV; an accepted import is
+idempotent per site and night, and a column the file leaves out keeps the stored figures. Malformed
+files are generated with hypothesis. Line numbers count the header as line 1, as a text editor does.
 """
 from __future__ import annotations
 
@@ -22,6 +23,7 @@ from hypothesis import strategies as st
 
 from observatory_ops.logbook import services
 from observatory_ops.logbook.models import NightUsage
+from observatory_ops.logbook.nights_csv import earliest_accepted
 from observatory_ops.planning.models import PlanStatus
 from observatory_ops.planning.services import site_today
 from observatory_ops.registry.models import Site
@@ -116,8 +118,10 @@ NOT_A_NUMBER = st.sampled_from(["abc", "7h", "1..2", "--3", "0x10", "\u00bd", "N
 ROW_FAULTS = (
     "bad_number", "negative_hours", "hours_over_24", "empty_hours", "duplicate_night", "future_night", "bad_date",
     "bad_flag", "humidity_over_100", "negative_count", "fractional_count", "count_too_big", "ragged_short",
-    "ragged_long",
+    "ragged_long", "night_too_old", "implausible_figure",
 )
+#: Above the plausibility bounds of nights_csv (cells 2..6: slews, travel x2, brake cycles, PM10).
+IMPLAUSIBLE = {2: 10_001, 3: 1_000_000.5, 4: 2e6, 5: 10_001, 6: 10_000.01}
 
 
 @st.composite
@@ -152,11 +156,16 @@ def files_with_bad_rows(draw):
             cells[7] = repr(draw(st.floats(100.01, 1e6)))
         elif fault == "negative_count":
             cells[draw(st.sampled_from([2, 5]))] = str(-draw(st.integers(1, 10**6)))
-        elif fault == "fractional_count":
-            cells[draw(st.sampled_from([2, 5]))] = draw(st.sampled_from(["2.5", "3.0", "1e3"]))
+        elif fault == "fractional_count":  # "3.0" and "1e3" are whole numbers, so accepted
+            cells[draw(st.sampled_from([2, 5]))] = draw(st.sampled_from(["2.5", "3.01", "1e-3"]))
         elif fault == "count_too_big":
             # Beyond what an integer column holds in every supported database (2**31 - 1).
             cells[draw(st.sampled_from([2, 5]))] = str(draw(st.integers(2**31, 10**30)))
+        elif fault == "night_too_old":
+            cells[0] = (earliest_accepted(today) - dt.timedelta(days=draw(st.integers(1, 80_000)))).isoformat()
+        elif fault == "implausible_figure":
+            k = draw(st.sampled_from(sorted(IMPLAUSIBLE)))
+            cells[k] = repr(IMPLAUSIBLE[k] * draw(st.sampled_from([1, 3, 1e6])))
         elif fault == "ragged_short":
             del cells[draw(st.integers(1, len(cells) - 1)):]
         elif fault == "ragged_long":
@@ -174,7 +183,7 @@ def files_with_bad_rows(draw):
 
 @st.composite
 def files_refused_as_a_whole(draw):
-    """Files with a problem that stops reading: returns (bytes, the one line the error must name)."""
+    """Files that are not a nights CSV at all: returns (bytes, the line the reason must name, or None)."""
     rows = draw(good_rows(min_size=1, max_size=6))
     lines = [HEADER] + [",".join(cells) for cells in rows]
     kind = draw(st.sampled_from([
@@ -183,21 +192,21 @@ def files_refused_as_a_whole(draw):
     ]))
     if kind == "unknown_column":
         lines[0] = HEADER.replace(draw(st.sampled_from(COLUMNS)), draw(st.sampled_from(["date", "hours", "Dust", "x"])))
-        return "\n".join(lines).encode(), 1
+        return "\n".join(lines).encode(), None
     if kind == "missing_column":
         name = draw(st.sampled_from(["night", "open_hours"]))
         k = COLUMNS.index(name)
         kept = [",".join(c for j, c in enumerate(line.split(",")) if j != k) for line in lines]
-        return "\n".join(kept).encode(), 1
+        return "\n".join(kept).encode(), None
     if kind == "repeated_column":
         lines[0] = HEADER.replace("slews", "pm10_ugm3")
-        return "\n".join(lines).encode(), 1
+        return "\n".join(lines).encode(), None
     if kind == "empty":
-        return b"", 1
+        return b"", None
     if kind == "blank":
-        return draw(st.sampled_from([b"\n", b"   \n\n", b"\r\n\t\r\n"])), 1
+        return draw(st.sampled_from([b"\n", b"   \n\n", b"\r\n\t\r\n"])), None
     if kind == "header_only":
-        return draw(st.sampled_from([HEADER, HEADER + "\n", HEADER + "\n\n,,,,,,,,,\n"])).encode(), 1
+        return draw(st.sampled_from([HEADER, HEADER + "\n", HEADER + "\n\n,,,,,,,,,\n"])).encode(), None
     at = draw(st.integers(0, len(lines) - 1))
     if kind == "latin1":
         # A spreadsheet in a Western European locale saves "o with acute" as the single latin-1 byte 0xf3.
@@ -206,8 +215,8 @@ def files_refused_as_a_whole(draw):
     if kind == "nul":
         data = "\n".join(lines).encode()
         offset = sum(len(line) + 1 for line in lines[:at]) + draw(st.integers(0, len(lines[at])))
-        return data[:offset] + b"\x00" + data[offset:], at + 1
-    return "\n".join(lines).encode("utf-16"), 1
+        return data[:offset] + b"\x00" + data[offset:], None
+    return "\n".join(lines).encode("utf-16"), None
 
 
 def assert_lines_named(errors: list[tuple[int, str]], data: bytes) -> None:
@@ -216,6 +225,14 @@ def assert_lines_named(errors: list[tuple[int, str]], data: bytes) -> None:
     for line, reason in errors:
         assert isinstance(line, int) and 1 <= line <= last_line, (line, reason)
         assert reason.strip()
+
+
+def assert_refused_as_a_file(report: services.ImportReport) -> None:
+    """The whole file is refused in one sentence, with no line and no count of bad rows."""
+    assert report.file_problem.startswith("This file is not a nights CSV: ")
+    assert [line for line, _ in report.errors] == [None]
+    assert report.summary == f"{report.file_problem}. Nothing was stored."
+    assert "bad row" not in report.summary and report.refused_rows == []
 
 
 # --- refused imports ---------------------------------------------------------------------------------
@@ -227,7 +244,7 @@ def test_a_file_with_bad_rows_stores_nothing_and_names_every_bad_line(stored, re
     data, bad_lines, _good = case
     before, recomputed_before = snapshot(), len(recomputes)
     report = services.nights_import(stored, data)
-    assert sorted(line for line, _ in report.errors) == bad_lines
+    assert sorted({line for line, _ in report.errors}) == bad_lines
     assert_lines_named(report.errors, data)
     assert not report.stored and (report.created, report.updated, report.unchanged) == (0, 0, 0)
     assert report.summary == f"{len(bad_lines)} bad row(s); nothing was stored."
@@ -237,12 +254,13 @@ def test_a_file_with_bad_rows_stores_nothing_and_names_every_bad_line(stored, re
 
 @DB_EXAMPLES
 @given(case=files_refused_as_a_whole())
-def test_a_file_with_wrong_columns_bad_encoding_or_no_rows_stores_nothing_and_names_the_line(stored, case):
+def test_a_file_with_wrong_columns_bad_encoding_or_no_rows_is_refused_as_a_whole_and_stores_nothing(stored, case):
     data, line = case
     before = snapshot()
     report = services.nights_import(stored, data)
-    assert [n for n, _ in report.errors] == [line]
-    assert_lines_named(report.errors, data)
+    assert_refused_as_a_file(report)
+    if line is not None:  # a byte that is not UTF-8: the reason says where it is
+        assert f"on line {line})" in report.file_problem
     assert snapshot() == before
 
 
@@ -258,27 +276,49 @@ def test_a_file_with_wrong_columns_bad_encoding_or_no_rows_stores_nothing_and_na
 def test_any_bytes_at_all_never_raise_and_a_refusal_never_writes(stored, data, skip_bad):
     before = snapshot()
     report = services.nights_import(stored, data, skip_bad=skip_bad)
-    if report.errors:
+    if report.file_problem:
+        assert_refused_as_a_file(report)
+    elif report.errors:
         assert_lines_named(report.errors, data)
+    if report.errors:
         assert not report.stored and snapshot() == before
     else:
         assert report.stored
 
 
 @pytest.mark.parametrize(
+    ("data", "reason"),
+    [
+        (b"", "it is empty"),
+        (HEADER.encode() + b"\n", "it has a header but no rows"),
+        (b"night,hours\n2024-01-01,5\n", "missing column(s): open_hours"),
+        (b"night,open_hours\n2024-01-01,5\n2024-01-02,6\nObservaci\xf3n,7\n",
+         "it is not UTF-8 text (byte 0xf3 on line 4); save it as UTF-8 CSV"),
+        (b"night,open_hours\n2024-01-01,5\n\x00\x01\x02", "it holds binary data, not text"),
+        # The start of a PNG image: the eight-byte signature of the PNG specification (ISO/IEC 15948, 5.2).
+        (b"\x89PNG\r\n\x1a\n\x00\x00\x00\rIHDR\x00\x00\x00\x10", "it holds binary data, not text"),
+        ("night,open_hours".encode("utf-16"), "it is UTF-16 text; save it as UTF-8 CSV"),
+        (b"night;open_hours;slews\n2024-01-01;5;3\n", "its columns are separated by semicolons, not commas"),
+        (b"night\topen_hours\n2024-01-01\t5\n", "its columns are separated by tabs, not commas"),
+    ],
+)
+def test_each_kind_of_file_that_is_not_a_nights_csv_is_refused_as_a_whole(stored, data, reason):
+    before = snapshot()
+    report = services.nights_import(stored, data)
+    assert_refused_as_a_file(report)
+    assert reason in report.file_problem
+    assert snapshot() == before
+
+
+@pytest.mark.parametrize(
     ("data", "line", "reason"),
     [
-        (b"", 1, "the file is empty"),
-        (HEADER.encode() + b"\n", 1, "the file has a header but no rows"),
-        (b"night,hours\n2024-01-01,5\n", 1, "missing column(s): open_hours"),
         (render([good_cells(FIRST_NIGHT)]) + b"2024-01-07,25\n", 3, "has 2 fields, the header has 10"),
         (b"night,open_hours\n2024-01-01,-1\n", 2, "open_hours cannot be below 0 (got -1)"),
         (b"night,open_hours\n2024-01-01,24.5\n", 2, "open_hours cannot be above 24 (got 24.5)"),
         (b"night,open_hours\n2024-01-01,5\n2024-01-01,6\n", 3, "night 2024-01-01 already appears on line 2"),
         (b"night,open_hours\n2024-01-01,five\n", 2, "open_hours must be a number, not 'five'"),
         (b"night,open_hours,slews\n2024-01-01,5,99999999999999999999\n", 2, "slews cannot be above"),
-        (b"night,open_hours\n2024-01-01,5\n2024-01-02,6\nObservaci\xf3n,7\n", 4, "not UTF-8"),
-        (b"night,open_hours\n2024-01-01,5\n\x00\x01\x02", 3, "binary data"),
     ],
 )
 def test_each_kind_of_bad_input_gets_its_line_and_a_readable_reason(stored, data, line, reason):
@@ -448,6 +488,16 @@ def test_command_refuses_a_bad_file_with_each_line_on_stderr_and_stores_nothing(
     assert snapshot() == before
 
 
+def test_command_refuses_a_file_that_is_not_a_nights_csv_in_one_sentence(stored, csv_file):
+    path = str(csv_file(b"night;open_hours\n2026-01-01;5\n"))
+    before = snapshot()
+    err = StringIO()
+    with pytest.raises(CommandError, match="not a nights CSV.*semicolons.*Nothing was stored"):
+        call_command("import_nights", path, "--site", stored.slug, stdout=StringIO(), stderr=err)
+    assert "line None" not in err.getvalue()
+    assert snapshot() == before
+
+
 def test_command_with_skip_bad_stores_the_good_rows_and_lists_the_skipped(site, csv_file):
     rows = [good_cells(FIRST_NIGHT + dt.timedelta(days=i)) for i in range(3)]
     rows[2][8] = "perhaps"  # line 4
@@ -556,3 +606,285 @@ def test_upload_size_limit_is_read_from_settings_and_a_file_at_the_limit_passes(
     assert NightUsage.objects.filter(site=site).count() == 3
     response = upload(technician_client, site, GOOD_FILE + b"\n")
     assert f"the limit is {len(GOOD_FILE):,} bytes".encode() in response.content
+
+
+# --- columns left out of the file --------------------------------------------------------------------
+
+OPTIONAL = COLUMNS[2:]
+
+
+@pytest.fixture
+def full(site):
+    """Three nights with every figure given (none of them equal to a column's blank value)."""
+    NightUsage.objects.bulk_create(
+        NightUsage(
+            site=site, night=FIRST_NIGHT + dt.timedelta(days=i), open_hours=6.0, slews=40 + i, axis1_travel_deg=812.5,
+            axis2_travel_deg=402.0, brake_cycles=42, pm10_ugm3=35.5, humidity_pct=41.0, dew=True, rain=True,
+            source=NightUsage.Source.IMPORT,
+        )
+        for i in range(3)
+    )
+    return site
+
+
+def test_a_file_of_only_the_required_columns_keeps_every_other_stored_figure(full, recomputes):
+    before = {row["night"]: row for row in snapshot()}
+    second, new_night = FIRST_NIGHT + dt.timedelta(days=1), FIRST_NIGHT + dt.timedelta(days=30)
+    data = render([[FIRST_NIGHT.isoformat(), "6.0"], [second.isoformat(), "9.5"], [new_night.isoformat(), "4"]],
+                  header="night,open_hours")
+    report = services.nights_import(full, data)
+    assert (report.created, report.updated, report.unchanged) == (1, 1, 1)
+    assert report.updated_nights == [second]
+    after = {row["night"]: row for row in snapshot()}
+    assert after[FIRST_NIGHT] == before[FIRST_NIGHT]  # its one given figure is the stored one: untouched
+    assert after[FIRST_NIGHT + dt.timedelta(days=2)] == before[FIRST_NIGHT + dt.timedelta(days=2)]
+    moved = {"open_hours", "recorded_at"}
+    assert {k: v for k, v in after[second].items() if k not in moved} == {
+        k: v for k, v in before[second].items() if k not in moved
+    }
+    assert after[second]["open_hours"] == 9.5
+    # A new night takes the blank values, as it always has.
+    assert {k: after[new_night][k] for k in OPTIONAL} == {
+        "slews": 0, "axis1_travel_deg": 0.0, "axis2_travel_deg": 0.0, "brake_cycles": 0, "pm10_ugm3": None,
+        "humidity_pct": None, "dew": False, "rain": False,
+    }
+    assert recomputes == [full.pk]
+
+
+def test_a_blank_cell_in_a_column_that_is_there_still_clears_the_figure(full):
+    report = services.nights_import(full, render([[FIRST_NIGHT.isoformat(), "6.0", "", ""]],
+                                                 header="night,open_hours,pm10_ugm3,slews"))
+    assert (report.updated, report.unchanged) == (1, 0)
+    stored = NightUsage.objects.get(site=full, night=FIRST_NIGHT)
+    assert (stored.pm10_ugm3, stored.slews, stored.brake_cycles, stored.humidity_pct) == (None, 0, 42, 41.0)
+
+
+@DB_EXAMPLES
+@given(first=good_rows(max_size=8), second=good_rows(max_size=8), given_columns=st.sets(st.sampled_from(OPTIONAL)))
+def test_a_column_left_out_never_changes_a_stored_night_and_only_real_changes_count_as_updated(
+    first, second, given_columns
+):
+    site = fresh_site()
+    services.nights_import(site, render(first))
+    before = {row["night"]: row for row in NightUsage.objects.filter(site=site).values()}
+    kept = [k for k, name in enumerate(COLUMNS) if k < 2 or name in given_columns]
+    header = ",".join(COLUMNS[k] for k in kept)
+    report = services.nights_import(site, render([[cells[k] for k in kept] for cells in second], header))
+    assert report.errors == []
+    after = {row["night"]: row for row in NightUsage.objects.filter(site=site).values()}
+    expected_updated = []
+    for cells in second:
+        given = services.nights_csv.parse_row({COLUMNS[k]: cells[k] for k in kept}, site_today(site))
+        night = given["night"]
+        if night not in before:
+            continue
+        for name in COLUMNS[1:]:
+            assert after[night][name] == given.get(name, before[night][name]), name
+        if any(before[night][name] != value for name, value in given.items()):
+            expected_updated.append(night)
+        else:
+            assert after[night] == before[night]
+    assert report.updated_nights == sorted(expected_updated)
+    assert report.created == len({dt.date.fromisoformat(cells[0]) for cells in second} - set(before))
+
+
+# --- how far back, and how large ----------------------------------------------------------------------
+
+
+def test_a_night_more_than_15_years_back_is_refused_naming_the_earliest_accepted(stored, recomputes):
+    earliest = earliest_accepted(site_today(stored))
+    before = snapshot()
+    report = services.nights_import(stored, b"night,open_hours\n1900-01-01,5\n1800-01-01,5\n")
+    assert report.errors == [
+        (2, f"night 1900-01-01 is more than 15 years ago; the earliest accepted is {earliest}"),
+        (3, f"night 1800-01-01 is more than 15 years ago; the earliest accepted is {earliest}"),
+    ]
+    assert snapshot() == before and recomputes == []
+    report = services.nights_import(stored, render([good_cells(earliest - dt.timedelta(days=1))]))
+    assert [(p.position, p.field) for p in report.errors] == [(2, "night")]
+
+
+def test_a_night_at_the_earliest_accepted_date_is_stored_and_the_due_states_computed(site, telescope, monkeypatch):
+    """The real recompute, with the sky of every night from then to the forecast horizon: the span that
+    made the nights cache refuse (a server error) for older nights."""
+    monkeypatch.undo()
+    subsystem_create(telescope, "primary_mirror", "Primary mirror", counting_from=dt.date(2024, 1, 1))
+    earliest = earliest_accepted(site_today(site))
+    report = services.nights_import(site, render([good_cells(earliest)]))
+    assert (report.created, report.errors) == (1, [])
+    assert PlanStatus.objects.filter(plan__subsystem__telescope=telescope).exists()
+
+
+def test_the_earliest_accepted_date_keeps_a_recompute_inside_one_fill_of_the_nights_cache():
+    # planning.services.usage_model asks for every night from the earliest logged to HORIZON_DAYS after today;
+    # calc.nights computes at most MAX_NIGHTS at once. Checked for every day of a leap-year cycle.
+    from observatory_ops.calc.nights import MAX_NIGHTS
+    from observatory_ops.planning.services import HORIZON_DAYS
+
+    for offset in range(4 * 366):
+        today = dt.date(2026, 1, 1) + dt.timedelta(days=offset)
+        assert (today - earliest_accepted(today)).days + 1 + HORIZON_DAYS <= MAX_NIGHTS
+
+
+def test_the_earliest_accepted_date_is_the_same_day_15_years_before_and_the_28th_for_29_february():
+    assert earliest_accepted(dt.date(2026, 12, 2)) == dt.date(2011, 12, 2)
+    assert earliest_accepted(dt.date(2028, 2, 29)) == dt.date(2013, 2, 28)
+
+
+@pytest.mark.parametrize(
+    ("column", "highest", "too_high"),
+    [
+        ("slews", "10000", "10001"),
+        ("axis1_travel_deg", "1000000", "1000000.5"),
+        ("axis2_travel_deg", "1000000", "1e7"),
+        ("brake_cycles", "10000", "10001"),
+        ("pm10_ugm3", "10000", "10000.01"),
+        ("humidity_pct", "100", "100.5"),
+        ("open_hours", "24", "24.01"),
+    ],
+)
+def test_each_figure_is_accepted_up_to_its_plausibility_bound_and_refused_above_it(site, column, highest, too_high):
+    header = "night,open_hours" if column == "open_hours" else f"night,open_hours,{column}"
+
+    def file(value: str) -> bytes:
+        cells = [FIRST_NIGHT.isoformat(), value] if column == "open_hours" else [FIRST_NIGHT.isoformat(), "5", value]
+        return render([cells], header)
+
+    report = services.nights_import(site, file(too_high))
+    [(line, reason)] = report.errors
+    assert line == 2 and reason.startswith(f"{column} cannot be above ") and f"(got {too_high})" in reason
+    assert not NightUsage.objects.exists()
+    assert services.nights_import(site, file(highest)).created == 1
+
+
+@pytest.mark.parametrize("value", ["nan", "NaN", "inf", "-inf", "Infinity", "1e999"])
+@pytest.mark.parametrize("column", ["open_hours", "slews", "axis1_travel_deg", "pm10_ugm3", "humidity_pct"])
+def test_a_figure_that_is_not_finite_is_refused(site, column, value):
+    cells = {"night": FIRST_NIGHT.isoformat(), "open_hours": "5", column: value}
+    report = services.nights_import(site, render([list(cells.values())], ",".join(cells)))
+    assert report.errors == [(2, f"{column} must be a finite number, not {value!r}")]
+    assert not NightUsage.objects.exists()
+
+
+def test_a_count_written_as_a_whole_decimal_is_accepted_and_a_fraction_refused(site):
+    report = services.nights_import(site, b"night,open_hours,slews,brake_cycles\n2024-01-05,5,4.0,1e3\n")
+    assert (report.created, report.errors) == (1, [])
+    stored = NightUsage.objects.get(site=site)
+    assert (stored.slews, stored.brake_cycles) == (4, 1000) and isinstance(stored.slews, int)
+    report = services.nights_import(site, b"night,open_hours,slews\n2024-01-06,5,4.5\n")
+    assert report.errors == [(2, "slews must be a whole number, not '4.5'")]
+
+
+def test_every_problem_of_a_row_is_reported_not_only_the_first(site):
+    data = b"night,open_hours,slews,humidity_pct,dew\n2024-01-05,30,-1,140,perhaps\n2024-01-06,5,3,40,no\n"
+    report = services.nights_import(site, data)
+    assert [(p.position, p.field) for p in report.errors] == [
+        (2, "open_hours"), (2, "slews"), (2, "humidity_pct"), (2, "dew")
+    ]
+    assert report.summary == "1 bad row(s); nothing was stored."
+    assert report.refused_rows == [(
+        2, "open_hours cannot be above 24 (got 30); slews cannot be below 0 (got -1); "
+           "humidity_pct cannot be above 100 (got 140); dew must be yes or no, not 'perhaps'",
+    )]
+    assert not NightUsage.objects.exists()
+
+
+# --- the command and the page, as a user meets them -----------------------------------------------------
+
+
+def test_command_refuses_a_night_far_in_the_past_with_a_message_and_stores_nothing(stored, csv_file):
+    before = snapshot()
+    err = StringIO()
+    with pytest.raises(CommandError, match="1 bad row\\(s\\); nothing was stored"):
+        call_command("import_nights", str(csv_file(b"night,open_hours\n1800-01-01,5\n")), "--site", stored.slug,
+                     stdout=StringIO(), stderr=err)
+    earliest = earliest_accepted(site_today(stored))
+    assert f"line 2: night 1800-01-01 is more than 15 years ago; the earliest accepted is {earliest}" in err.getvalue()
+    assert snapshot() == before
+
+
+def test_command_refuses_a_file_that_is_not_a_nights_csv_as_a_whole(stored, csv_file):
+    before = snapshot()
+    with pytest.raises(CommandError, match="This file is not a nights CSV: missing column\\(s\\): open_hours"):
+        run_import(str(csv_file(b"night,hours\n2024-01-01,5\n")), "--site", stored.slug)
+    assert snapshot() == before
+
+
+def test_upload_page_explains_the_format_in_a_table_drawn_from_the_parser_columns(technician_client, site):
+    from observatory_ops.logbook import nights_csv
+
+    page = technician_client.get(reverse("nights-import", args=[site.slug])).content.decode()
+    assert "=====" not in page and "README.md" not in page  # not the module docstring any more
+    for column in nights_csv.COLUMN_SPECS:
+        assert f"<td><code>{column.name}</code></td><td>{'yes' if column.required else 'no'}</td>" in page
+        assert f"<td>{escape(column.accepted)}</td>" in page
+    assert "<td>0 to 10,000 (whole number)</td>" in page  # slews and brake cycles
+    assert "<td>0 to 1,000,000</td>" in page  # axis travel
+    assert escape(nights_csv.example_csv()) in page
+    earliest = earliest_accepted(site_today(site))
+    assert f"Nights are accepted from {earliest:%Y-%m-%d} on." in page
+
+
+def test_the_example_of_the_help_is_a_good_file():
+    from observatory_ops.logbook import nights_csv
+
+    parsed = nights_csv.parse(nights_csv.example_csv(), latest_night=dt.date(2026, 3, 14))
+    assert parsed.errors == [] and len(parsed.rows) == 1
+    assert set(parsed.rows[0][1]) == set(nights_csv.COLUMNS)
+
+
+@pytest.mark.parametrize(
+    ("data", "name", "reason"),
+    [
+        (b"\x89PNG\r\n\x1a\n\x00\x00\x00\rIHDR\x00\x00\x00\x10\x00\x00\x00\x10", "sky.png", "it holds binary data"),
+        (b"night;open_hours\n2024-01-05;5\n", "nights.csv", "its columns are separated by semicolons, not commas"),
+        (b"night,hours\n2024-01-05,5\n", "nights.csv", "missing column(s): open_hours"),
+    ],
+)
+def test_upload_of_a_file_that_is_not_a_nights_csv_says_so_without_a_row_count(
+    technician_client, stored, data, name, reason
+):
+    before = snapshot()
+    page = upload(technician_client, stored, data, name=name).content.decode()
+    assert f"This file is not a nights CSV: {escape(reason)}" in page
+    assert "bad row(s)" not in page and "Fix these rows" not in page and "<th>Line</th>" not in page
+    assert snapshot() == before
+
+
+def test_upload_lists_every_problem_of_a_row_on_its_line(technician_client, stored):
+    before = snapshot()
+    page = upload(technician_client, stored, b"night,open_hours,slews,humidity_pct\n2024-01-05,5,-1,140\n"
+                  ).content.decode()
+    assert "Import refused: 1 bad row(s); nothing was stored." in page
+    assert "<td>2</td><td>slews cannot be below 0 (got -1); humidity_pct cannot be above 100 (got 140)</td>" in page
+    assert snapshot() == before
+
+
+def test_upload_of_a_night_far_in_the_past_is_a_message_not_a_server_error(technician_client, stored):
+    before = snapshot()
+    response = upload(technician_client, stored, b"night,open_hours\n1900-01-01,5\n")
+    assert response.status_code == 200
+    earliest = earliest_accepted(site_today(stored))
+    assert f"<td>2</td><td>night 1900-01-01 is more than 15 years ago; the earliest accepted is {earliest}</td>" in (
+        response.content.decode()
+    )
+    assert snapshot() == before
+
+
+def test_upload_of_only_the_required_columns_keeps_the_stored_figures(technician_client, full):
+    page = upload(technician_client, full, render([[FIRST_NIGHT.isoformat(), "7.25"]], "night,open_hours"))
+    assert b"Import done: 0 new, 1 updated, 0 unchanged." in page.content
+    stored = NightUsage.objects.get(site=full, night=FIRST_NIGHT)
+    assert (stored.open_hours, stored.slews, stored.pm10_ugm3, stored.humidity_pct, stored.dew) == (
+        7.25, 40, 35.5, 41.0, True
+    )
+
+
+def test_the_readme_table_states_the_ranges_the_parser_applies():
+    from observatory_ops.logbook import nights_csv
+
+    readme = (Path(__file__).resolve().parents[1] / "README.md").read_text(encoding="utf-8")
+    for column in nights_csv.COLUMN_SPECS:
+        if column.kind in ("number", "count"):
+            cells = [f"`{column.name}`", "yes" if column.required else "no", column.unit, column.accepted]
+            assert "|" + "|".join(f" {cell} " if cell else " " for cell in cells) + "|" in readme, column.name

@@ -4,6 +4,7 @@ from django.utils import timezone
 
 from observatory_ops.planning.models import ServicePlan
 
+from . import services
 from .quantities import QUANTITY_CHOICES
 
 
@@ -19,7 +20,15 @@ class ServiceRecordForm(forms.Form):
 
     def __init__(self, *args, subsystem, **kwargs):
         super().__init__(*args, **kwargs)
+        self.site = subsystem.telescope.site
         self.fields["plan"].queryset = subsystem.plans.filter(active=True)
+
+    def clean_performed_on(self):
+        performed_on = self.cleaned_data["performed_on"]
+        problem = services.service_date_problem(self.site, performed_on)
+        if problem:
+            raise forms.ValidationError(problem[0].upper() + problem[1:] + ".")
+        return performed_on
 
 
 class CorrectionForm(forms.Form):

@@ -1,21 +1,13 @@
-"""The nightly-usage CSV format: parsing and validation, with no database access.
+"""The nightly-usage format: its columns, and the checks a CSV row or a JSON object must pass. No database.
 
-Format (UTF-8, comma-separated, one header line; column order free; README.md documents it):
+A file is UTF-8 text, comma-separated, with one header line naming the columns in any order. The API
+takes the same records as JSON objects keyed by the column names. ``COLUMN_SPECS`` defines every column
+once (unit, accepted range, what a blank means): the checks below read it, and so does the help table of
+the import page.
 
-=================  ========  ===================================================================
-column             required  meaning
-=================  ========  ===================================================================
-night              yes       local date of the evening the night starts, YYYY-MM-DD
-open_hours         yes       hours the dome was open, 0 to 24
-slews              no        number of slews (whole number, default 0)
-axis1_travel_deg   no        travel of the RA / azimuth axis in degrees (default 0)
-axis2_travel_deg   no        travel of the Dec / elevation axis in degrees (default 0)
-brake_cycles       no        brake engage/release cycles (whole number, default 0)
-pm10_ugm3          no        mean PM10 dust while open, ug/m3 (blank: not measured)
-humidity_pct       no        mean relative humidity, % (blank: not measured)
-dew                no        yes/no (also 1/0, true/false; blank: no)
-rain               no        yes/no
-=================  ========  ===================================================================
+A column left out of a file (or a key left out of an object) gives nothing: a night already stored keeps
+that figure, and a new night takes the column's blank value. A blank cell or a JSON null is a value: the
+column's blank value.
 """
 from __future__ import annotations
 
@@ -27,22 +19,110 @@ import reprlib
 from collections.abc import Mapping, Sequence
 from dataclasses import dataclass, field
 
-REQUIRED = ("night", "open_hours")
-OPTIONAL = ("slews", "axis1_travel_deg", "axis2_travel_deg", "brake_cycles", "pm10_ugm3", "humidity_pct", "dew", "rain")
-COLUMNS = REQUIRED + OPTIONAL
-#: Largest whole number stored: the top of an integer column in every database Django supports.
-MAX_COUNT = 2_147_483_647
+#: How far back a night (or a service date, see ``logbook.services``) may lie, in years. A recompute asks
+#: the nights cache for every night from the earliest one logged to 3 years ahead (planning.services.
+#: HORIZON_DAYS), and the cache fills at most 20 years at once (calc.nights.MAX_NIGHTS): 15 years back
+#: keeps that span inside one fill with 2 years to spare.
+MAX_YEARS_BACK = 15
+
+# Plausibility bounds of our own, not published limits: far above what a small observatory logs in one
+# night, so a figure beyond one is a typing, unit or counter mistake, refused before it reaches a sum.
+MAX_SLEWS_PER_NIGHT = 10_000  # about one slew every 4 s through a 12-hour night
+MAX_TRAVEL_DEG_PER_NIGHT = 1_000_000  # per axis: about 2,800 full turns
+MAX_BRAKE_CYCLES_PER_NIGHT = 10_000
+MAX_PM10_UGM3 = 10_000  # a mean over the hours the dome was open (it is shut in a dust storm)
+
 _TRUE = {"yes", "y", "true", "1"}
 _FALSE = {"no", "n", "false", "0", ""}
 _JSON_KINDS = {str: "a string", int: "a number", float: "a number", bool: "true or false", list: "a list",
                type(None): "null"}
 
 
+def _figure(value: float) -> str:
+    """A limit as people write it: 24, 10,000, 0.5."""
+    return f"{int(value):,}" if float(value).is_integer() else f"{value:g}"
+
+
+@dataclass(frozen=True)
+class Column:
+    """One column of the format. ``kind`` is "date", "number", "count" (a whole number) or "flag" (yes/no).
+
+    ``blank`` is the value a blank cell or null stands for, and a new night's value when the column is
+    left out; ``example`` is the column's cell in the example row of the help.
+    """
+
+    name: str
+    meaning: str
+    kind: str
+    example: str
+    unit: str = ""
+    low: float | None = None
+    high: float | None = None
+    required: bool = False
+    blank: object = None
+
+    @property
+    def accepted(self) -> str:
+        """The values accepted, in words."""
+        if self.kind == "date":
+            return f"YYYY-MM-DD, not after today, at most {MAX_YEARS_BACK} years back"
+        if self.kind == "flag":
+            return "yes or no (also 1 or 0, true or false)"
+        whole = " (whole number)" if self.kind == "count" else ""
+        return f"{_figure(self.low)} to {_figure(self.high)}{whole}"
+
+    @property
+    def blank_means(self) -> str:
+        """What an empty cell (or null) means, in words."""
+        if self.required:
+            return "refused"
+        if self.blank is None:
+            return "not measured"
+        if self.kind == "flag":
+            return "no"
+        return _figure(self.blank)
+
+
+COLUMN_SPECS: tuple[Column, ...] = (
+    Column("night", "local date of the evening the night starts", "date", "2026-03-14", required=True),
+    Column("open_hours", "hours the dome was open", "number", "7.5", unit="h", low=0, high=24, required=True),
+    Column("slews", "number of slews", "count", "41", low=0, high=MAX_SLEWS_PER_NIGHT, blank=0),
+    Column("axis1_travel_deg", "travel of the right ascension / azimuth axis", "number", "1030.5", unit="degrees",
+           low=0, high=MAX_TRAVEL_DEG_PER_NIGHT, blank=0.0),
+    Column("axis2_travel_deg", "travel of the declination / elevation axis", "number", "610", unit="degrees",
+           low=0, high=MAX_TRAVEL_DEG_PER_NIGHT, blank=0.0),
+    Column("brake_cycles", "brake engage and release cycles", "count", "43", low=0, high=MAX_BRAKE_CYCLES_PER_NIGHT,
+           blank=0),
+    Column("pm10_ugm3", "mean PM10 dust while open", "number", "38.2", unit="µg/m³", low=0, high=MAX_PM10_UGM3),
+    Column("humidity_pct", "mean relative humidity while open", "number", "31", unit="%", low=0, high=100),
+    Column("dew", "dew formed", "flag", "no", blank=False),
+    Column("rain", "rain fell", "flag", "no", blank=False),
+)
+COLUMNS = tuple(c.name for c in COLUMN_SPECS)
+REQUIRED = tuple(c.name for c in COLUMN_SPECS if c.required)
+OPTIONAL = tuple(c.name for c in COLUMN_SPECS if not c.required)
+
+
+def example_csv() -> str:
+    """A header line and one row, every column given."""
+    return "\n".join([",".join(COLUMNS), ",".join(c.example for c in COLUMN_SPECS)])
+
+
+def earliest_accepted(today: dt.date) -> dt.date:
+    """The earliest date accepted on ``today``: ``MAX_YEARS_BACK`` years back (from 29 February, the 28th)."""
+    year = today.year - MAX_YEARS_BACK
+    try:
+        return today.replace(year=year)
+    except ValueError:
+        return today.replace(year=year, day=28)
+
+
 class Problem(tuple):
     """A refused record as the pair (position, reason), plus the ``field`` it concerns.
 
-    The position is a CSV line number or a JSON list index; ``field`` is None for a problem of the whole
-    file or body. Being a pair keeps ``for line, reason in report.errors`` working for every caller.
+    The position is a CSV line number or a JSON list index, None for a problem of the whole file or body
+    (whose records were then not read); ``field`` is None when no one field is at fault. Being a pair
+    keeps ``for line, reason in report.errors`` working for every caller.
     """
 
     field: str | None
@@ -62,26 +142,25 @@ class Problem(tuple):
 
 
 class RowError(ValueError):
-    """The first problem of one record; ``field`` names the column or key it concerns."""
+    """The problems of one record: ``problems`` lists (field, message); ``field`` is the first field."""
 
-    def __init__(self, field: str | None, message: str):
+    def __init__(self, field: str | None, message: str, problems: list[tuple[str | None, str]] | None = None):
         super().__init__(message)
         self.field = field
+        self.problems = problems or [(field, message)]
 
 
 class FileError(ValueError):
-    """The file cannot be read as text; ``line`` is where the first bad byte is."""
-
-    def __init__(self, line: int, message: str):
-        super().__init__(message)
-        self.line = line
+    """The file cannot be read as text; the message says why, in words that follow "This file is not a
+    nights CSV:"."""
 
 
 @dataclass
 class ParsedNights:
     """Records checked one by one against the same rules, CSV rows or JSON objects alike.
 
-    ``where`` words a position in the duplicate-night message ("on line", "at index").
+    ``where`` words a position in the duplicate-night message ("on line", "at index"). Each row of
+    ``rows`` holds the values of the columns its record gives, night and open_hours always among them.
     """
 
     latest_night: dt.date
@@ -90,47 +169,67 @@ class ParsedNights:
     errors: list[Problem] = field(default_factory=list)
     _seen: dict[dt.date, int] = field(default_factory=dict, repr=False)
 
+    @property
+    def whole_problem(self) -> str | None:
+        """The problem of the whole file or body, or None."""
+        return next((p.reason for p in self.errors if p.position is None), None)
+
     def add(self, position: int, record: Mapping[str, object]) -> None:
-        """Validate one record; keep its values, or its first problem. A night may appear only once."""
-        try:
-            values = parse_row(record, self.latest_night)
-        except RowError as exc:
-            self.refuse(position, str(exc), exc.field)
-            return
-        night = values["night"]
-        if night in self._seen:
-            self.refuse(position, f"night {night} already appears {self.where} {self._seen[night]}", "night")
-            return
-        self._seen[night] = position
-        self.rows.append((position, values))
+        """Check one record; keep its values, or every problem it has.
+
+        A night may appear only once among the good records; a record refused for its own figures takes
+        no part in that check.
+        """
+        values, problems = _checked(record, self.latest_night)
+        night = values.get("night")
+        if not problems and night in self._seen:
+            problems.append(("night", f"night {night} already appears {self.where} {self._seen[night]}"))
+        for field_name, reason in problems:
+            self.refuse(position, reason, field_name)
+        if not problems:
+            self._seen[night] = position
+            self.rows.append((position, values))
 
     def refuse(self, position: int | None, reason: str, field_name: str | None = None) -> None:
         self.errors.append(Problem(position, reason, field_name))
 
 
-def _number(raw: object, name: str, low: float | None = 0.0, high: float | None = None, whole: bool = False):
-    """A CSV cell or a JSON number as a number within limits; a JSON float is never a whole number."""
-    kind = "a whole number" if whole else "a number"
-    shown = raw.strip() if isinstance(raw, str) else repr(raw)
+def _read_number(raw: str | int | float) -> int | float:
+    """An int for a whole-number literal, else a float; raises ValueError for text that is no number."""
+    if not isinstance(raw, str):
+        return raw
     try:
-        if isinstance(raw, str):
-            value = int(shown) if whole else float(shown)
-        elif isinstance(raw, int) and not isinstance(raw, bool):
-            value = raw if whole else float(raw)
-        elif isinstance(raw, float) and not whole:
-            value = raw
-        else:
-            raise ValueError
+        return int(raw.strip())
     except ValueError:
-        raise RowError(name, f"{name} must be {kind}, not {reprlib.repr(raw)}") from None
+        return float(raw.strip())
+
+
+def _number(raw: object, column: Column) -> float | int:
+    """A CSV cell or a JSON number within the column's range; a count takes any whole value (4, 4.0, 4e0)."""
+    name, whole = column.name, column.kind == "count"
+    shown = raw.strip() if isinstance(raw, str) else repr(raw)
+    wrong_kind = f"{name} must be {'a whole number' if whole else 'a number'}, not {reprlib.repr(raw)}"
+    if isinstance(raw, bool) or not isinstance(raw, str | int | float):
+        raise RowError(name, wrong_kind)
+    try:
+        value = _read_number(raw)
+        if not whole:
+            value = float(value)
+    except ValueError:
+        raise RowError(name, wrong_kind) from None
     except OverflowError:  # a JSON integer too large for a float, as "1e999" is in a CSV cell
         value = math.inf
-    if not math.isfinite(value):
-        raise RowError(name, f"{name} must be a finite number, not {reprlib.repr(raw)}")
-    if low is not None and value < low:
-        raise RowError(name, f"{name} cannot be below {low:g} (got {shown})")
-    if high is not None and value > high:
-        raise RowError(name, f"{name} cannot be above {high:g} (got {shown})")
+    if isinstance(value, float):
+        if not math.isfinite(value):
+            raise RowError(name, f"{name} must be a finite number, not {reprlib.repr(raw)}")
+        if whole:
+            if not value.is_integer():
+                raise RowError(name, wrong_kind)
+            value = int(value)
+    if column.low is not None and value < column.low:
+        raise RowError(name, f"{name} cannot be below {_figure(column.low)} (got {shown})")
+    if column.high is not None and value > column.high:
+        raise RowError(name, f"{name} cannot be above {_figure(column.high)} (got {shown})")
     return value
 
 
@@ -148,60 +247,78 @@ def _flag(raw: object, name: str) -> bool:
     raise RowError(name, f"{name} must be yes or no, not {reprlib.repr(raw)}")
 
 
-def _blank(raw: object) -> bool:
-    """Nothing given: an empty CSV cell or a JSON null."""
-    return raw is None or (isinstance(raw, str) and not raw.strip())
-
-
-def parse_row(record: Mapping[str, object], latest_night: dt.date) -> dict:
-    """Validate one record and return NightUsage field values. Raises RowError naming the field.
-
-    A record is a CSV row (every value a string) or a JSON object (strings, numbers, booleans, null);
-    the rules are the same: a blank cell and null both mean "not given", whole-number columns take
-    no fractions, ``dew`` and ``rain`` take yes/no, 1/0, true/false or a JSON boolean.
-    """
-    unknown = [name for name in record if name not in COLUMNS]
-    if unknown:
-        raise RowError(unknown[0], f"unknown field {unknown[0]!r} (known: {', '.join(COLUMNS)})")
-    if "night" not in record:
-        raise RowError("night", "night is missing")
-    raw_night = record["night"]
+def _night(raw: object, latest_night: dt.date) -> dt.date:
     try:
-        night = dt.date.fromisoformat(raw_night.strip())
+        night = dt.date.fromisoformat(raw.strip())
     except (AttributeError, ValueError):
-        shown = raw_night.strip() if isinstance(raw_night, str) else raw_night
+        shown = raw.strip() if isinstance(raw, str) else raw
         raise RowError("night", f"night must be a date as YYYY-MM-DD, not {reprlib.repr(shown)}") from None
     if night > latest_night:
         raise RowError(
             "night", f"night {night} is in the future (the latest night that can be logged is {latest_night})"
         )
-    if "open_hours" not in record:
-        raise RowError("open_hours", "open_hours is missing")
-    if _blank(record["open_hours"]):
-        raise RowError("open_hours", "open_hours is empty")
+    earliest = earliest_accepted(latest_night)
+    if night < earliest:
+        raise RowError(
+            "night", f"night {night} is more than {MAX_YEARS_BACK} years ago; the earliest accepted is {earliest}"
+        )
+    return night
 
-    def optional(name: str, **limits):
-        raw = record.get(name)
-        return None if _blank(raw) else _number(raw, name, **limits)
 
-    return {
-        "night": night,
-        "open_hours": _number(record["open_hours"], "open_hours", 0, 24),
-        "slews": optional("slews", whole=True, high=MAX_COUNT) or 0,
-        "axis1_travel_deg": optional("axis1_travel_deg") or 0.0,
-        "axis2_travel_deg": optional("axis2_travel_deg") or 0.0,
-        "brake_cycles": optional("brake_cycles", whole=True, high=MAX_COUNT) or 0,
-        "pm10_ugm3": optional("pm10_ugm3"),
-        "humidity_pct": optional("humidity_pct", high=100),
-        "dew": False if _blank(record.get("dew")) else _flag(record["dew"], "dew"),
-        "rain": False if _blank(record.get("rain")) else _flag(record["rain"], "rain"),
-    }
+def _blank(raw: object) -> bool:
+    """Nothing in the cell: an empty CSV cell or a JSON null."""
+    return raw is None or (isinstance(raw, str) and not raw.strip())
+
+
+def _value(column: Column, raw: object, latest_night: dt.date) -> object:
+    if column.kind == "date":
+        return _night(raw, latest_night)
+    if _blank(raw):
+        if column.required:
+            raise RowError(column.name, f"{column.name} is empty")
+        return column.blank
+    if column.kind == "flag":
+        return _flag(raw, column.name)
+    return _number(raw, column)
+
+
+def _checked(record: Mapping[str, object], latest_night: dt.date) -> tuple[dict, list[tuple[str | None, str]]]:
+    """The values of the columns the record gives, and every (field, message) problem found."""
+    values, problems = {}, []
+    for name in record:
+        if name not in COLUMNS:
+            problems.append((name, f"unknown field {name!r} (known: {', '.join(COLUMNS)})"))
+    for column in COLUMN_SPECS:
+        if column.name not in record:
+            if column.required:
+                problems.append((column.name, f"{column.name} is missing"))
+            continue
+        try:
+            values[column.name] = _value(column, record[column.name], latest_night)
+        except RowError as exc:
+            problems.append((exc.field, str(exc)))
+    return values, problems
+
+
+def parse_row(record: Mapping[str, object], latest_night: dt.date) -> dict:
+    """Check one record and return the NightUsage values of the columns it gives.
+
+    A record is a CSV row (every value a string) or a JSON object (strings, numbers, booleans, null);
+    the rules are the same: a blank cell and null both mean the column's blank value, whole-number
+    columns take no fractions (4.0 is 4), ``dew`` and ``rain`` take yes/no, 1/0, true/false or a JSON
+    boolean. Raises RowError listing every problem (``field`` names the first).
+    """
+    values, problems = _checked(record, latest_night)
+    if problems:
+        raise RowError(problems[0][0], "; ".join(message for _, message in problems), problems)
+    return values
 
 
 def parse_objects(records: Sequence[object], latest_night: dt.date) -> ParsedNights:
-    """Validate nights sent as JSON objects (keys: the CSV column names); positions are list indexes.
+    """Check nights sent as JSON objects (keys: the CSV column names); positions are list indexes.
 
-    Every bad object is reported with its index and field; an empty list is one problem of the whole body.
+    Every problem of every object is reported with its index and field; an empty list is one problem
+    of the whole body.
     """
     if isinstance(records, str | bytes | Mapping) or not isinstance(records, Sequence):
         raise ValueError(f"the nights must be a list of objects, not {type(records).__name__}")
@@ -218,46 +335,56 @@ def parse_objects(records: Sequence[object], latest_night: dt.date) -> ParsedNig
 
 
 def decode(data: bytes) -> str:
-    """The file's text; raises FileError, naming the line of the first bad byte, when it is not UTF-8 text."""
-    nul = data.find(b"\x00")
-    if nul >= 0:
-        raise FileError(data.count(b"\n", 0, nul) + 1, "the file is not a text CSV file (it contains binary data)")
+    """The file's text; raises FileError when it is not UTF-8 text."""
+    if data.startswith((b"\xff\xfe", b"\xfe\xff")):
+        raise FileError("it is UTF-16 text; save it as UTF-8 CSV")
+    if b"\x00" in data:
+        raise FileError("it holds binary data, not text (a spreadsheet or an image?); export the sheet as UTF-8 CSV")
     try:
         return data.decode("utf-8-sig")
     except UnicodeDecodeError as exc:
-        raise FileError(
-            data.count(b"\n", 0, exc.start) + 1,
-            f"the file is not UTF-8 text (byte 0x{data[exc.start]:02x} on this line); save it as UTF-8 CSV",
-        ) from None
+        line = data.count(b"\n", 0, exc.start) + 1
+        byte = data[exc.start]
+        raise FileError(f"it is not UTF-8 text (byte 0x{byte:02x} on line {line}); save it as UTF-8 CSV") from None
+
+
+def _header_problem(header: list[str], first_line: str) -> str | None:
+    """Why the header line does not name the columns of a nights CSV, or None."""
+    missing = [c for c in REQUIRED if c not in header]
+    for separator, called in ((";", "semicolons"), ("\t", "tabs"), ("|", "bars")):
+        if missing and all(c in [h.strip().lower() for h in first_line.split(separator)] for c in REQUIRED):
+            return f"its columns are separated by {called}, not commas; save it as comma-separated CSV"
+    unknown = [h for h in header if h not in COLUMNS]
+    duplicated = sorted({h for h in header if header.count(h) > 1})
+    problems = []
+    if missing:
+        problems.append(f"missing column(s): {', '.join(missing)}")
+    if unknown:
+        problems.append(f"unknown column(s): {', '.join(unknown)} (known: {', '.join(COLUMNS)})")
+    if duplicated:
+        problems.append(f"repeated column(s): {', '.join(duplicated)}")
+    return "; ".join(problems) or None
 
 
 def parse(text: str, latest_night: dt.date) -> ParsedNights:
-    """Parse and validate the whole file. Every bad row is reported with its line number.
+    """Parse and check the whole file. Every problem of every bad row is reported with its line number.
 
-    A file-level problem (empty file, missing or unknown columns) is reported as line 1.
+    A problem of the whole file (empty, no rows, a header that does not name the columns) is reported
+    with position None, and no row is read.
     """
     result = ParsedNights(latest_night, where="on line")
     if not text.strip():
-        result.refuse(1, "the file is empty")
+        result.refuse(None, "it is empty")
         return result
     reader = csv.reader(io.StringIO(text))
     try:
         header = [h.strip().lower() for h in next(reader)]
     except csv.Error as exc:
-        result.refuse(1, f"the header line is not valid CSV ({exc})")
+        result.refuse(None, f"its header line is not valid CSV ({exc})")
         return result
-    missing = [c for c in REQUIRED if c not in header]
-    unknown = [h for h in header if h not in COLUMNS]
-    duplicated = sorted({h for h in header if header.count(h) > 1})
-    if missing or unknown or duplicated:
-        problems = []
-        if missing:
-            problems.append(f"missing column(s): {', '.join(missing)}")
-        if unknown:
-            problems.append(f"unknown column(s): {', '.join(unknown)} (known: {', '.join(COLUMNS)})")
-        if duplicated:
-            problems.append(f"repeated column(s): {', '.join(duplicated)}")
-        result.refuse(1, "; ".join(problems))
+    problem = _header_problem(header, text.splitlines()[0])
+    if problem:
+        result.refuse(None, problem)
         return result
     while True:
         try:
@@ -275,5 +402,5 @@ def parse(text: str, latest_night: dt.date) -> ParsedNights:
             continue
         result.add(line, dict(zip(header, cells, strict=True)))
     if not result.rows and not result.errors:
-        result.refuse(1, "the file has a header but no rows")
+        result.refuse(None, "it has a header but no rows")
     return result

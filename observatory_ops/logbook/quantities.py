@@ -1,4 +1,6 @@
-"""Quantities a technician measures, with their units. Add a line to add a quantity."""
+"""Quantities a technician measures, with their units and plausible ranges. A new quantity takes a line in
+both tables."""
+import math
 
 QUANTITIES: dict[str, tuple[str, str]] = {
     # code: (label, unit)
@@ -16,22 +18,41 @@ QUANTITIES: dict[str, tuple[str, str]] = {
 }
 QUANTITY_CHOICES = [(code, f"{label} ({unit})") for code, (label, unit) in QUANTITIES.items()]
 
+#: code: (lowest, highest) reading accepted, in the quantity's unit. Apart from reflectance (a fraction)
+#: these are plausibility bounds of our own, not published limits: wide enough for the equipment of any
+#: small observatory, so a reading outside one is a typing or unit mistake (a settle time of 1e300 s once
+#: sent a trend to infinity). Only temperature can truly be below zero.
+PLAUSIBLE_RANGE: dict[str, tuple[float, float]] = {
+    "settle_time_s": (0, 3600),  # an hour: a mount still settling then is broken, not slow
+    "following_error_arcsec": (0, 3600),  # one degree
+    "motor_current_a": (0, 200),
+    "brake_pressure_bar": (0, 50),  # air brakes run at a few bar (from memory)
+    "brake_release_s": (0, 60),
+    "reflectance": (0, 1),  # a fraction, by definition
+    "fan_current_a": (0, 50),
+    "supply_voltage_v": (0, 1000),  # up to a three-phase supply or a drive's DC bus
+    "ripple_mv": (0, 10_000),  # 10 V
+    "encoder_signal_pct": (0, 200),  # percent of the nominal level; above 100 is a strong signal
+    "temperature_c": (-90, 150),  # the coldest air on record is about -89 degC (from memory)
+}
+
 
 def unit_of(code: str) -> str:
     return QUANTITIES[code][1]
 
 
-#: Quantities that can truly be below zero; every other one is a magnitude.
-MAY_BE_NEGATIVE = {"temperature_c"}
-
-
 def value_problem(code: str, value: float) -> str | None:
-    """Why a reading cannot be right (None when it can): a negative magnitude, a reflectance outside 0..1."""
-    label = QUANTITIES[code][0]
-    if value != value or value in (float("inf"), float("-inf")):
+    """Why a reading cannot be right (None when it can): not finite, or outside ``PLAUSIBLE_RANGE``."""
+    label, unit = QUANTITIES[code]
+    low, high = PLAUSIBLE_RANGE[code]
+    if not math.isfinite(value):
         return f"{label} must be a finite number"
-    if code == "reflectance" and not 0 <= value <= 1:
+    if code == "reflectance" and not low <= value <= high:
         return "a reflectance is a fraction between 0 and 1"
-    if value < 0 and code not in MAY_BE_NEGATIVE:
-        return f"{label} cannot be negative (got {value:g})"
+    if value < low:
+        if low == 0:
+            return f"{label} cannot be negative (got {value:g})"
+        return f"{label} cannot be below {low:g} {unit} (got {value:g})"
+    if value > high:
+        return f"{label} cannot be above {high:,g} {unit} (got {value:g}); a larger reading is not plausible"
     return None

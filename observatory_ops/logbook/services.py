@@ -22,6 +22,8 @@ from .models import NightUsage, Reading, ServiceRecord
 from .quantities import QUANTITIES, value_problem
 
 _USAGE_FIELDS = [c for c in nights_csv.COLUMNS if c != "night"]
+#: What a new night stores for a column its record leaves out.
+_BLANKS = {c.name: c.blank for c in nights_csv.COLUMN_SPECS if not c.required}
 
 
 @dataclass
@@ -33,15 +35,34 @@ class ImportReport:
     skipped: list[nights_csv.Problem] = field(default_factory=list)
     stored: bool = False
     updated_nights: list[dt.date] = field(default_factory=list)
+    file_problem: str = ""  # a sentence when the whole file or body is refused (then no row was read)
 
     @property
     def summary(self) -> str:
+        if self.file_problem:
+            return f"{self.file_problem}. Nothing was stored."
         if self.errors:
-            return f"{len(self.errors)} bad row(s); nothing was stored."
+            return f"{len(_by_position(self.errors))} bad row(s); nothing was stored."
         text = f"{self.created} new, {self.updated} updated, {self.unchanged} unchanged"
         if self.skipped:
-            text += f"; {len(self.skipped)} bad row(s) skipped"
+            text += f"; {len(_by_position(self.skipped))} bad row(s) skipped"
         return text + "."
+
+    @property
+    def refused_rows(self) -> list[tuple[int | None, str]]:
+        """(line or index, every problem of that row) for each refused row, in order."""
+        return [] if self.file_problem else _by_position(self.errors)
+
+    @property
+    def skipped_rows(self) -> list[tuple[int | None, str]]:
+        return _by_position(self.skipped)
+
+
+def _by_position(problems: list[nights_csv.Problem]) -> list[tuple[int | None, str]]:
+    rows: dict[int | None, list[str]] = {}
+    for position, reason in problems:
+        rows.setdefault(position, []).append(reason)
+    return [(position, "; ".join(reasons)) for position, reasons in rows.items()]
 
 
 def nights_import(
@@ -54,18 +75,21 @@ def nights_import(
 ) -> ImportReport:
     """Import a nights CSV (``nights_csv`` format) for one site: all or nothing, and idempotent.
 
-    Every bad row is reported with its line number. Unless ``skip_bad``, one bad row means nothing is
-    stored. A night already stored with the same figures is left untouched; with other figures it is
-    updated and reported. ``progress(done, total)`` is called as rows are written. ``by`` is the
-    person the audit trail names (None for the command line).
+    Every problem of every bad row is reported with its line number; a file that is not a nights CSV
+    at all is refused as a whole (``ImportReport.file_problem``). Unless ``skip_bad``, one bad row means
+    nothing is stored. A night already stored keeps the figures of the columns the file leaves out; if
+    the file's figures for it are the stored ones it is left untouched, otherwise it is updated and
+    reported. ``progress(done, total)`` is called as rows are written. ``by`` is the person the audit
+    trail names (None for the command line).
     """
     report = ImportReport()
     try:
         text = nights_csv.decode(data)
     except nights_csv.FileError as exc:
-        report.errors.append(nights_csv.Problem(exc.line, str(exc)))
-        return report
+        return _refused_file(report, [nights_csv.Problem(None, str(exc))])
     parsed = nights_csv.parse(text, latest_night=site_today(site))
+    if parsed.whole_problem:
+        return _refused_file(report, parsed.errors)
     if parsed.errors and not (skip_bad and parsed.rows):
         report.errors = parsed.errors
         return report
@@ -74,20 +98,29 @@ def nights_import(
     return report
 
 
+def _refused_file(report: ImportReport, problems: list[nights_csv.Problem]) -> ImportReport:
+    report.errors = problems
+    report.file_problem = f"This file is not a nights CSV: {problems[0].reason}"
+    return report
+
+
 def nights_ingest(
     site: Site, records: list[dict], source: str = NightUsage.Source.API, by=None, reason: str = ""
 ) -> ImportReport:
     """Store nights sent by control software as JSON objects (keys: the CSV column names) for one site.
 
-    The same rules as the CSV import (``nights_csv.parse_row``); every bad object is reported with its
-    list index and field (``Problem.field``), and one bad object means nothing is stored. Idempotent per
-    site and night: a night sent again with the same figures changes nothing, with other figures it is
-    updated. Raises ValueError when ``records`` is not a list.
+    The same rules as the CSV import (``nights_csv.parse_row``); every problem of every bad object is
+    reported with its list index and field (``Problem.field``), and one bad object means nothing is
+    stored. Idempotent per site and night: a night sent again with the same figures changes nothing,
+    with other figures it is updated; a key left out keeps the stored figure. Raises ValueError when
+    ``records`` is not a list.
     """
     report = ImportReport()
     parsed = nights_csv.parse_objects(records, latest_night=site_today(site))
     if parsed.errors:
         report.errors = parsed.errors
+        whole = parsed.whole_problem or ""
+        report.file_problem = whole[:1].upper() + whole[1:]
         return report
     _nights_store(site, [values for _, values in parsed.rows], source, report, by=by, reason=reason)
     return report
@@ -138,17 +171,21 @@ def _nights_write(
     by,
     reason: str,
 ) -> tuple[list[NightUsage], list[NightUsage], int]:
-    new, changed, unchanged = [], [], 0
+    """Each row holds the columns its record gave: a new night takes the blank value of every other
+    column, a stored night keeps its figures for them and counts as changed only when a given one differs."""
+    new, changed, unchanged, written = [], [], 0, set()
     for done, values in enumerate(rows, start=1):
         current = existing.get(values["night"])
+        given = [f for f in _USAGE_FIELDS if f in values]
         if current is None:
-            new.append(NightUsage(site=site, source=source, **values))
-        elif any(getattr(current, f) != values[f] for f in _USAGE_FIELDS):
-            for f in _USAGE_FIELDS:
+            new.append(NightUsage(site=site, source=source, **(_BLANKS | values)))
+        elif any(getattr(current, f) != values[f] for f in given):
+            for f in given:
                 setattr(current, f, values[f])
             current.source = source
             current.recorded_at = timezone.now()  # bulk_update skips auto_now
             changed.append(current)
+            written.update(given)
         else:
             unchanged += 1
         if progress and (done % 500 == 0 or done == len(rows)):
@@ -156,8 +193,8 @@ def _nights_write(
     # The *_with_history forms also write the audit trail (django-simple-history skips plain bulk writes).
     bulk_create_with_history(new, NightUsage, batch_size=500, default_user=by, default_change_reason=reason)
     bulk_update_with_history(
-        changed, NightUsage, _USAGE_FIELDS + ["source", "recorded_at"], batch_size=500, default_user=by,
-        default_change_reason=reason,
+        changed, NightUsage, [f for f in _USAGE_FIELDS if f in written] + ["source", "recorded_at"], batch_size=500,
+        default_user=by, default_change_reason=reason,
     )
     return new, changed, unchanged
 
@@ -182,6 +219,20 @@ def reading_log(
     return reading
 
 
+def service_date_problem(site: Site, performed_on: dt.date) -> str | None:
+    """Why ``performed_on`` cannot be the date of service work at ``site``; None when it can."""
+    today = site_today(site)
+    if performed_on > today:
+        return "the service date cannot be in the future"
+    earliest = nights_csv.earliest_accepted(today)
+    if performed_on < earliest:
+        return (
+            f"service date {performed_on} is more than {nights_csv.MAX_YEARS_BACK} years ago; "
+            f"the earliest accepted is {earliest}"
+        )
+    return None
+
+
 def service_record_log(
     subsystem: Subsystem,
     plan: ServicePlan | None,
@@ -194,8 +245,9 @@ def service_record_log(
 ) -> ServiceRecord:
     """Append a service record; a record for a plan restarts that plan's counting from ``performed_on``."""
     site = subsystem.telescope.site
-    if performed_on > site_today(site):
-        raise ValidationError("the service date cannot be in the future")
+    problem = service_date_problem(site, performed_on)
+    if problem:
+        raise ValidationError(problem)
     record = ServiceRecord(
         subsystem=subsystem, plan=plan, performed_on=performed_on, performed_by=performed_by or by,
         hours_spent=hours_spent, summary=summary, findings=findings, created_by=by,
@@ -211,7 +263,13 @@ def service_record_correct(
     original: ServiceRecord, by, summary: str, performed_on: dt.date | None = None, hours_spent: float | None = None,
     findings: str = "", void: bool = False,
 ) -> ServiceRecord:
-    """Append a correction that replaces ``original`` (or withdraws it with ``void``); nothing is edited."""
+    """Append a correction that replaces ``original`` (or withdraws it with ``void``); nothing is edited.
+
+    A new date is held to the rules of a new record (``service_date_problem``)."""
+    if performed_on and performed_on != original.performed_on:
+        problem = service_date_problem(original.subsystem.telescope.site, performed_on)
+        if problem:
+            raise ValidationError(problem)
     with transaction.atomic():
         original = ServiceRecord.objects.select_for_update().get(pk=original.pk)
         if ServiceRecord.objects.filter(corrects=original).exists():

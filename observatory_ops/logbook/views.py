@@ -100,12 +100,17 @@ def nights_import(request, slug):
         report = services.nights_import(
             site, form.cleaned_data["file"].read(), skip_bad=form.cleaned_data["skip_bad"], by=request.user
         )
-        if report.errors:
+        if report.file_problem:
+            messages.error(request, report.summary)
+        elif report.errors:
             messages.error(request, f"Import refused: {report.summary}")
         else:
             messages.success(request, f"Import done: {report.summary}")
     return render(
         request,
         "logbook/nights_import.html",
-        {"site": site, "form": form, "report": report, "columns_doc": nights_csv.__doc__},
+        {
+            "site": site, "form": form, "report": report, "columns": nights_csv.COLUMN_SPECS,
+            "example": nights_csv.example_csv(), "earliest": nights_csv.earliest_accepted(services.site_today(site)),
+        },
     )

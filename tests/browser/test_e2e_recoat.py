@@ -127,6 +127,6 @@ def test_engineer_chooses_the_second_window_and_gets_a_recoat_plan_of_draft_work
     events = _recoat_events(response.body())
     assert len(events) == 1, f"expected one recoat window in the calendar, found {len(events)}"
     event = events[0]
-    assert str(event["summary"]) == f"Recoat window: {mirror.subsystem}"
+    assert str(event["summary"]) == f"Recoat window: {mirror.subsystem.telescope.name} {mirror.subsystem.name}"
     assert event.decoded("dtstart") == start
     assert event.decoded("dtend") == end + dt.timedelta(days=1)

@@ -28,6 +28,8 @@ class Command(BaseCommand):
             self.stderr.flush()
 
         report = services.nights_import(target, path.read_bytes(), skip_bad=skip_bad, progress=progress)
+        if report.file_problem:  # the whole file is refused: no line to name (the summary says why)
+            raise CommandError(f"{file}: {report.summary}")
         for line, reason in report.errors or report.skipped:
             self.stderr.write(f"line {line}: {reason}")
         if report.errors:
