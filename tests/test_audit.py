@@ -96,8 +96,9 @@ def test_history_of_an_unaudited_kind_is_not_found(users, client):
 def test_records_and_readings_cannot_be_changed_or_deleted_even_by_an_administrator(admin_client, path):
     from django.contrib import admin
 
-    from observatory_ops.logbook.models import Reading, ServiceRecord
+    from observatory_ops.logbook.models import NightUsage, Reading, ServiceRecord
 
-    for model in (ServiceRecord, Reading):
+    for model in (ServiceRecord, Reading, NightUsage):  # nor added there, past the checks of the pages and API
         model_admin = admin.site._registry[model]
         assert not model_admin.has_change_permission(None) and not model_admin.has_delete_permission(None)
+        assert not model_admin.has_add_permission(None)

@@ -1,26 +1,16 @@
 from django.contrib import admin
 from simple_history.admin import SimpleHistoryAdmin
 
-from observatory_ops.planning.admin import RecomputesSite
-
 from .models import NightUsage, Reading, ServiceRecord
 
 
-@admin.register(NightUsage)
-class NightUsageAdmin(RecomputesSite, SimpleHistoryAdmin):
-    list_display = ("site", "night", "open_hours", "slews", "brake_cycles", "pm10_ugm3", "source")
-    list_filter = ("site", "source")
-    date_hierarchy = "night"
+class ReadOnlyAdmin(SimpleHistoryAdmin):
+    """The log is written only through its own ways in, which check every value and recompute the site:
+    nights by import or the API (a night sent again with other figures is updated), readings and service
+    records on the subsystem page (corrections are new rows). Here it is read, with its history."""
 
-    def site_of(self, obj):
-        return obj.site
-
-
-class AppendOnlyAdmin(RecomputesSite, SimpleHistoryAdmin):
-    """Readings and service records are evidence: added, never changed or deleted (corrections are new rows)."""
-
-    def site_of(self, obj):
-        return obj.subsystem.telescope.site
+    def has_add_permission(self, request):
+        return False
 
     def has_change_permission(self, request, obj=None):
         return False
@@ -29,13 +19,20 @@ class AppendOnlyAdmin(RecomputesSite, SimpleHistoryAdmin):
         return False
 
 
+@admin.register(NightUsage)
+class NightUsageAdmin(ReadOnlyAdmin):
+    list_display = ("site", "night", "open_hours", "slews", "brake_cycles", "pm10_ugm3", "source")
+    list_filter = ("site", "source")
+    date_hierarchy = "night"
+
+
 @admin.register(Reading)
-class ReadingAdmin(AppendOnlyAdmin):
+class ReadingAdmin(ReadOnlyAdmin):
     list_display = ("subsystem", "quantity", "value", "unit", "taken_at", "taken_by")
     list_filter = ("quantity", "subsystem__telescope")
 
 
 @admin.register(ServiceRecord)
-class ServiceRecordAdmin(AppendOnlyAdmin):
+class ServiceRecordAdmin(ReadOnlyAdmin):
     list_display = ("performed_on", "subsystem", "plan", "summary", "performed_by", "corrects", "void")
     list_filter = ("subsystem__telescope",)
