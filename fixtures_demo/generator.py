@@ -67,8 +67,12 @@ _TREE = (
 )
 
 
-def demo_users() -> list[tuple[str, str, str]]:
-    """Create (or keep) one login per role; returns (username, role, password) for printing."""
+def demo_users() -> list[tuple[str, str, str | None]]:
+    """Create one login per role where the username is free; returns (username, role, password) for printing.
+
+    An account that already exists is left as it is (no group, no password change), and its password is
+    given as None unless it is still the demo's own (an account this command made on an earlier run).
+    """
     out = []
     for username, role, full_name, password in DEMO_USERS:
         first, last = full_name.split(" ", 1)
@@ -78,8 +82,8 @@ def demo_users() -> list[tuple[str, str, str]]:
             user.is_staff = role in ("engineer", "administrator")  # the admin edits the register
             user.is_superuser = role == "administrator"
             user.save()
-        user.groups.add(Group.objects.get_or_create(name=role)[0])
-        out.append((username, role, password))
+            user.groups.add(Group.objects.get_or_create(name=role)[0])
+        out.append((username, role, password if created or user.check_password(password) else None))
     return out
 
 

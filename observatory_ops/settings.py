@@ -2,8 +2,9 @@
 
 Environment variables
 ---------------------
-DEBUG            "1"/"true" for development. Default: on when not running under CI-less production.
-SECRET_KEY       required when DEBUG is off; a development key is used only when DEBUG is on.
+DEBUG            "1"/"true" for development (the default); "0" in production (see README, Deployment).
+SECRET_KEY       required when DEBUG is off; a development key is used only when it is not set and DEBUG is
+                 on. An installation with a key of its own is treated as production (``demo`` refuses it).
 DATABASE_URL     default: a SQLite file in the git-ignored ``data/`` folder.
 ALLOWED_HOSTS    comma-separated host names.
 CELERY_BROKER_URL  e.g. redis://127.0.0.1:6379/0; without it tasks run inline.
@@ -33,12 +34,13 @@ def _env_flag(name: str, default: bool) -> bool:
 
 DEBUG = _env_flag("DEBUG", True)
 
+# A fixed key is acceptable only with DEBUG on and no key set (bandit B105 is accepted for this line).
+DEVELOPMENT_SECRET_KEY = "development-only-key-not-for-production"  # noqa: S105  # nosec B105
 SECRET_KEY = os.environ.get("SECRET_KEY", "")
 if not SECRET_KEY:
     if not DEBUG:
         raise RuntimeError("SECRET_KEY must be set when DEBUG is off.")
-    # A fixed key is acceptable only here, with DEBUG on (bandit B105 is accepted for this line).
-    SECRET_KEY = "development-only-key-not-for-production"  # noqa: S105  # nosec B105
+    SECRET_KEY = DEVELOPMENT_SECRET_KEY
 
 ALLOWED_HOSTS = [h.strip() for h in os.environ.get("ALLOWED_HOSTS", "127.0.0.1,localhost").split(",") if h.strip()]
 if DEBUG:

@@ -66,3 +66,25 @@ def test_the_demo_due_list_has_overdue_and_due_rows_each_with_a_reason_naming_it
         page = response.content.decode()
         for row in (r for r in rows if r.status == status):
             assert escape(row.reason) in page
+
+
+def test_the_demo_refuses_a_production_installation_and_a_database_with_other_sites(settings, site):
+    from django.core.management.base import CommandError
+
+    settings.SECRET_KEY = "a-key-of-this-installation-0123456789"
+    with pytest.raises(CommandError, match="production installation"):
+        call_command("demo", "--no-serve", stdout=StringIO())
+    settings.SECRET_KEY = settings.DEVELOPMENT_SECRET_KEY
+    with pytest.raises(CommandError, match=f"already holds other sites \\({site.name}\\)"):
+        call_command("demo", "--no-serve", stdout=StringIO())
+    assert not User.objects.exists()
+
+
+def test_an_existing_account_with_a_demo_username_is_left_alone_and_its_password_not_printed(db):
+    from fixtures_demo.generator import demo_users
+
+    admin = User.objects.create_superuser("admin", password="a-strong-password-of-their-own")
+    printed = {username: password for username, _role, password in demo_users()}
+    assert printed["admin"] is None and printed["viewer"]
+    admin.refresh_from_db()
+    assert admin.check_password("a-strong-password-of-their-own") and not admin.groups.exists()

@@ -1,8 +1,10 @@
+from django.conf import settings
 from django.core.management import call_command
-from django.core.management.base import BaseCommand
+from django.core.management.base import BaseCommand, CommandError
 
 from fixtures_demo import generator
 from observatory_ops.planning import selectors
+from observatory_ops.registry.models import Site
 
 
 class Command(BaseCommand):
@@ -13,7 +15,19 @@ class Command(BaseCommand):
         parser.add_argument("--port", default="8000")
 
     def handle(self, *args, **options):
+        # The demo's logins have passwords printed in the README: never in a production database.
+        if settings.SECRET_KEY != settings.DEVELOPMENT_SECRET_KEY:
+            raise CommandError(
+                "SECRET_KEY is set, so this is a production installation: the demo creates logins whose "
+                "passwords are published in the README. Load it into a trial installation of its own."
+            )
         call_command("migrate", verbosity=0)
+        others = list(Site.objects.exclude(slug=generator.SITE_SLUG).values_list("name", flat=True)[:3])
+        if others:
+            raise CommandError(
+                f"this database already holds other sites ({', '.join(others)}): the demo belongs in a database "
+                "of its own; set DATABASE_URL (or OBSOPS_DATA_DIR) to another."
+            )
         logins = generator.demo_users()
         self.stdout.write("Loading the demo observatory (three years of nights; this takes a few seconds)...")
         site, created = generator.build()
@@ -24,7 +38,8 @@ class Command(BaseCommand):
             self.stdout.write(f"  [{status.status}] {status.plan.subsystem}: {status.plan.name}")
         self.stdout.write("Demo logins (user / password):")
         for username, role, password in logins:
-            self.stdout.write(f"  {role:<14} {username} / {password}")
+            shown = password or "(an existing account, left as it was: not a demo login)"
+            self.stdout.write(f"  {role:<14} {username} / {shown}")
         if not options["no_serve"]:
             self.stdout.write(f"Serving at http://127.0.0.1:{options['port']}/ (Ctrl-C to stop)")
             call_command("runserver", f"127.0.0.1:{options['port']}", use_reloader=False)
