@@ -8,6 +8,7 @@ from __future__ import annotations
 
 import datetime as dt
 import io
+import re
 from zoneinfo import ZoneInfo
 
 import pytest
@@ -15,7 +16,7 @@ from django.db import connection
 from django.test.utils import CaptureQueriesContext
 from django.utils import dateformat
 from pypdf import PdfReader
-from test_workorders import _all_readings, drive, order  # noqa: F401  (fixtures, used by name)
+from test_workorders import _all_readings, _unticked, drive, order  # noqa: F401  (fixtures, used by name)
 
 from observatory_ops.registry.models import Telescope
 from observatory_ops.workorders import pdf, selectors, services
@@ -35,7 +36,8 @@ def _start(work_order, users):
 
 def _finish(work_order, users):
     services.work_order_finish(
-        work_order, users["technician"], 2.0, "brake pads fine", _all_readings(work_order, 0.7)
+        work_order, users["technician"], 2.0, "brake pads fine", _all_readings(work_order, 0.7),
+        confirmed_unticked=_unticked(work_order),
     )
     work_order.refresh_from_db()
     return work_order
@@ -297,13 +299,17 @@ def test_the_finished_record_lists_the_confirmations_with_who_and_when(underway,
     step_tick = ChecklistTick.objects.get(kind=STEP, step_index=0)
     point_tick = ChecklistTick.objects.get(kind=POINT)
     local = "%Y-%m-%d %H:%M"
-    open_steps = "; ".join(f"step {n}" for n in range(2, len(underway.step_list) + 1))
+    # Step 3 was ticked and taken back: with every other step it was open when the work was finished, and
+    # the technician confirmed them on the finish form.
+    open_steps = tuple(f"Step {n}: {underway.step_list[n - 1]}" for n in range(2, len(underway.step_list) + 1))
     assert sheet.confirmations == (
         f"Step 1: {underway.step_list[0]} \N{EM DASH} ticked by technician, "
         f"{step_tick.recorded_at.astimezone(MADRID).strftime(local)}",
         f"Isolation point: {point.description} \N{EM DASH} ticked by technician, "
         f"{point_tick.recorded_at.astimezone(MADRID).strftime(local)}",
-        f"Not ticked: {open_steps}",
+        "Not ticked when the work was finished; technician confirmed that each of these was done or did not "
+        "apply:",
+        *open_steps,
     )
     pages = PdfReader(io.BytesIO(pdf.render_sheet(sheet))).pages
     text = " ".join(" ".join(page.extract_text().split()) for page in pages)
@@ -313,3 +319,92 @@ def test_the_finished_record_lists_the_confirmations_with_who_and_when(underway,
     services.work_order_move(underway, "countersign", users["engineer"])
     underway.refresh_from_db()
     assert selectors.sheet(underway, "https://ops.example/wo/1/").confirmations == sheet.confirmations
+
+
+# --- finishing with lines not ticked -----------------------------------------------------------------------
+
+
+def _finish_form(work_order, **extra) -> dict:
+    data = {"actual_hours": "1.5", "findings": "done"}
+    data.update({f"reading_{pk}": str(value) for pk, value in _all_readings(work_order, 0.6).items()})
+    return {**data, **extra}
+
+
+def test_the_finish_page_lists_the_unticked_lines_isolation_points_first(underway, users, client):
+    services.checklist_tick_set(underway, STEP, 0, True, users["technician"])
+    client.force_login(users["technician"])
+    page = client.get(f"/workorders/{underway.pk}/finish/").content.decode()
+    listed = re.findall(r"<li>(Isolation point|Step \d+): ", page.split('<ul class="unticked">')[1].split("</ul>")[0])
+    assert listed == ["Isolation point", *(f"Step {n}" for n in range(2, len(underway.step_list) + 1))]
+    assert "I confirm the unticked lines were done or did not apply" in page
+
+
+def test_finishing_with_unticked_lines_needs_the_confirmation_and_the_record_keeps_it(underway, users, client):
+    services.checklist_tick_set(underway, POINT, _point(underway).pk, True, users["technician"])
+    client.force_login(users["technician"])
+    open_steps = [line.text for line in selectors.unticked_lines(underway)]
+    assert open_steps == underway.step_list  # the point is ticked, no step is
+
+    page = client.post(f"/workorders/{underway.pk}/finish/", _finish_form(underway, unticked=open_steps))
+    assert "confirm here that they were done or did not apply" in page.content.decode()
+    assert WorkOrder.objects.get(pk=underway.pk).state == State.UNDERWAY
+
+    confirmed = _finish_form(underway, unticked=open_steps, confirm_unticked="on")
+    page = client.post(f"/workorders/{underway.pk}/finish/", confirmed, follow=True).content.decode()
+    underway.refresh_from_db()
+    assert underway.state == State.FINISHED
+    assert underway.unticked_at_finish == [f"Step {n}: {text}" for n, text in enumerate(open_steps, start=1)]
+    assert f"Finished with {len(open_steps)} checklist line(s) not ticked; technician confirmed" in page
+    assert f"{len(open_steps)} unticked line(s) confirmed as done or not applicable" in page
+
+
+def test_a_line_whose_tick_was_taken_back_after_the_page_loaded_is_not_confirmed_unseen(underway, users):
+    for index in range(len(underway.step_list)):
+        services.checklist_tick_set(underway, STEP, index, True, users["technician"])
+    seen = [line.text for line in selectors.unticked_lines(underway)]  # only the isolation point
+    services.checklist_tick_set(underway, STEP, 0, False, users["engineer"])  # meanwhile, on another tablet
+    with pytest.raises(services.Refused, match=r"not ticked: step 1 \("):
+        services.work_order_finish(underway, users["technician"], 1.0, "", _all_readings(underway, 0.6),
+                                   confirmed_unticked=seen)
+    underway.refresh_from_db()
+    assert underway.state == State.UNDERWAY and underway.unticked_at_finish == []
+
+
+def test_with_every_line_ticked_finishing_needs_no_confirmation(underway, users, client):
+    services.checklist_tick_set(underway, POINT, _point(underway).pk, True, users["technician"])
+    for index in range(len(underway.step_list)):
+        services.checklist_tick_set(underway, STEP, index, True, users["technician"])
+    client.force_login(users["technician"])
+    page = client.get(f"/workorders/{underway.pk}/finish/").content.decode()
+    assert "Every isolation point and step is ticked." in page and "I confirm" not in page
+    response = client.post(f"/workorders/{underway.pk}/finish/", _finish_form(underway))
+    assert response.status_code == 302
+    underway.refresh_from_db()
+    assert underway.state == State.FINISHED and underway.unticked_at_finish == []
+    assert not any(line.startswith("Not ticked") for line in selectors.sheet(underway, "https://x/").confirmations)
+
+
+def test_the_finish_page_of_an_order_not_underway_sends_back_to_the_order(draft, users, client):
+    client.force_login(users["technician"])
+    response = client.get(f"/workorders/{draft.pk}/finish/", follow=True)
+    assert "is draft: there is nothing to finish" in response.content.decode()
+
+
+# --- the Record buttons and the stylesheet ------------------------------------------------------------------
+
+
+def test_the_hidden_attribute_wins_over_the_stylesheet_display_rules():
+    # site.css gives buttons display:inline-block, which would otherwise beat the hidden attribute the
+    # checklist script sets on the Record buttons (HTML Living Standard: [hidden] is only display:none
+    # in the user agent's sheet, which author rules override).
+    from pathlib import Path
+
+    css = (Path(__file__).parent.parent / "observatory_ops/static/observatory_ops/site.css").read_text()
+    assert re.search(r"\[hidden\]\s*\{\s*display\s*:\s*none\s*!important\s*;?\s*\}", css)
+
+
+def test_without_javascript_every_line_has_its_record_button(underway, users, client):
+    client.force_login(users["technician"])
+    page = client.get(underway.get_absolute_url()).content.decode()
+    buttons = re.findall(r'<button type="submit" class="noprint"[^>]*>Record</button>', page)
+    assert len(buttons) == len(underway.step_list) + 1 and not any("hidden" in b for b in buttons)

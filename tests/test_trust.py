@@ -138,7 +138,7 @@ def test_an_import_interrupted_part_way_leaves_the_data_as_it_was(site, monkeypa
 
 def test_a_completion_interrupted_part_way_leaves_the_data_as_it_was(site, telescope, users, monkeypatch):
     from observatory_ops.registry.services import subsystem_create
-    from observatory_ops.workorders import services
+    from observatory_ops.workorders import selectors, services
     from observatory_ops.workorders.models import Part, State
 
     fans = subsystem_create(telescope, "cooling_fans", "Fans", counting_from=dt.date(2026, 1, 1))
@@ -154,7 +154,8 @@ def test_a_completion_interrupted_part_way_leaves_the_data_as_it_was(site, teles
 
     monkeypatch.setattr(services, "site_recompute", broken_recompute)
     with pytest.raises(RuntimeError):
-        services.work_order_finish(order, users["technician"], 1.5, "done", {})
+        services.work_order_finish(order, users["technician"], 1.5, "done", {},
+                                   confirmed_unticked=[line.text for line in selectors.unticked_lines(order)])
     assert _snapshot() == before
     order.refresh_from_db()
     assert order.state == State.UNDERWAY
@@ -167,16 +168,17 @@ def test_two_people_finishing_at_once_yield_one_completion(site, telescope, user
     real concurrent connections (tests/test_workers.py)."""
     from observatory_ops.logbook.models import ServiceRecord
     from observatory_ops.registry.services import subsystem_create
-    from observatory_ops.workorders import services
+    from observatory_ops.workorders import selectors, services
 
     fans = subsystem_create(telescope, "cooling_fans", "Fans", counting_from=dt.date(2026, 1, 1))
     order = services.work_order_from_due(list(fans.plans.all()), users["engineer"])
     services.work_order_move(order, "issue", users["engineer"])
     services.work_order_move(order, "start", users["technician"])
     stale = type(order).objects.get(pk=order.pk)  # the second person's copy, loaded before the first finishes
-    services.work_order_finish(order, users["technician"], 1.0, "first", {})
-    with pytest.raises(services.Refused, match="already been finished"):
-        services.work_order_finish(stale, users["engineer"], 1.0, "second", {})
+    confirmed = [line.text for line in selectors.unticked_lines(order)]  # nothing ticked, all confirmed
+    services.work_order_finish(order, users["technician"], 1.0, "first", {}, confirmed_unticked=confirmed)
+    with pytest.raises(services.Refused, match="already been finished by someone else"):
+        services.work_order_finish(stale, users["engineer"], 1.0, "second", {}, confirmed_unticked=confirmed)
     assert ServiceRecord.objects.filter(work_order=order).count() == fans.plans.count()
 
 

@@ -317,7 +317,7 @@ def test_finishing_one_work_order_from_two_connections_at_once_yields_one_comple
     connection, waits on the row, then finds the order no longer underway. PostgreSQL's row locks under
     READ COMMITTED re-check the WHERE clause after the wait (PostgreSQL manual, 13.2.1)."""
     from observatory_ops.logbook.models import ServiceRecord
-    from observatory_ops.workorders import services
+    from observatory_ops.workorders import selectors, services
     from observatory_ops.workorders.models import State, WorkOrder
 
     fans = site_in_use("finish", kinds=("cooling_fans",)).telescopes.get().subsystems.get()
@@ -326,8 +326,10 @@ def test_finishing_one_work_order_from_two_connections_at_once_yields_one_comple
     services.work_order_move(order, "start", users["technician"])
     copies = [WorkOrder.objects.get(pk=order.pk) for _ in range(2)]  # each person's page, loaded before
 
+    confirmed = [line.text for line in selectors.unticked_lines(order)]  # nothing ticked, all confirmed
+
     def finish(copy, who, note):
-        return lambda: services.work_order_finish(copy, users[who], 1.0, note, {})
+        return lambda: services.work_order_finish(copy, users[who], 1.0, note, {}, confirmed_unticked=confirmed)
 
     results, seen = _race(finish(copies[0], "technician", "first"), finish(copies[1], "engineer", "second"),
                           monkeypatch, services, "site_recompute")

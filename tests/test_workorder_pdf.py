@@ -307,3 +307,21 @@ def test_qr_code_at_the_top_right_draws_the_address_module_for_module(tmp_path):
     columns = np.rint(left + centres).astype(int)
     drawn = pixels[np.ix_(rows, columns)] < 128
     assert np.array_equal(drawn, expected)
+
+
+def test_a_reading_beyond_its_limit_is_flagged_in_the_table_and_listed_under_it():
+    readings = (
+        SheetReading("Settle time after a slew (Axis 1 drive)", "s", "at most 1", recorded="5", beyond_limit=True),
+        SheetReading("Motor current (Axis 1 drive)", "A", "", recorded="0"),
+    )
+    text = body_text(render_sheet(make_sheet(readings=readings)))
+    assert "5 (BEYOND LIMIT)" in text
+    assert ("Beyond its limit: Settle time after a slew (Axis 1 drive): 5 s (limit at most 1), recorded as "
+            "measured.") in text
+    assert text.count("BEYOND LIMIT") == 1 and text.count("Beyond its limit") == 1  # the current of 0 is not flagged
+
+
+def test_no_beyond_limit_note_when_every_reading_is_within_its_limit():
+    readings = (SheetReading("Settle time after a slew (Axis 1 drive)", "s", "at most 1", recorded="0.4"),)
+    text = body_text(render_sheet(make_sheet(readings=readings)))
+    assert "0.4" in text and "beyond" not in text.lower()

@@ -3,6 +3,7 @@ from __future__ import annotations
 
 import datetime as dt
 import json
+import re
 
 import pytest
 from django.core.management import call_command
@@ -11,8 +12,9 @@ from pypdf import PdfReader
 
 from observatory_ops.logbook.models import ServiceRecord
 from observatory_ops.planning.models import PlanStatus
+from observatory_ops.registry.catalogue import KINDS
 from observatory_ops.registry.services import subsystem_create
-from observatory_ops.workorders import services
+from observatory_ops.workorders import selectors, services
 from observatory_ops.workorders.models import IsolationPoint, Part, State, WorkOrder
 
 
@@ -35,13 +37,21 @@ def _all_readings(order, value: float) -> dict[int, float]:
     return {r.pk: value for r in order.required_readings.all()}
 
 
+def _unticked(order) -> list[str]:
+    """The words of every checklist line nobody ticked: what the technician confirms on the finish form."""
+    return [line.text for line in selectors.unticked_lines(order)]
+
+
 def _state(order):
     return WorkOrder.objects.get(pk=order.pk).state
 
 
 def test_from_due_items_the_order_has_steps_cautions_and_a_required_reading(order):
     assert order.order_type == WorkOrder.Type.CONDITION_BASED  # a reading trigger: EN 13306 condition-based
-    assert order.step_list[0] == services.LOCKOUT_STEP  # electrical + moving machinery: isolate first
+    # Electrical + moving machinery: isolate, after the steps the catalogue does under power (the readings
+    # need the drive running), before anything touches the drive.
+    powered = KINDS["axis1_drive"].plans[0].before_isolation
+    assert order.step_list[: len(powered) + 1] == [*powered, services.LOCKOUT_STEP]
     assert {"electrical", "moving_machinery"} <= set(order.hazards)
     reading = order.required_readings.get(quantity="settle_time_s")
     assert reading.limit_text == "at most 1"
@@ -71,7 +81,8 @@ def test_finishing_needs_the_readings_and_then_writes_records_and_restarts_plans
     with pytest.raises(services.Refused, match="missing: Settle time"):
         services.work_order_finish(order, users["technician"], 2.0, "", {})
     assert _state(order) == State.UNDERWAY and not ServiceRecord.objects.exists()
-    services.work_order_finish(order, users["technician"], 2.0, "ok", _all_readings(order, 0.7))
+    services.work_order_finish(order, users["technician"], 2.0, "ok", _all_readings(order, 0.7),
+                               confirmed_unticked=_unticked(order))
     assert _state(order) == State.FINISHED
     record = ServiceRecord.objects.get(work_order=order)
     assert record.plan == drive.plans.first() and record.hours_spent == 2.0
@@ -88,7 +99,8 @@ def test_parts_used_come_out_of_stock_and_low_stock_shows_on_the_dashboard(order
     services.part_add(order, part, 2)
     services.work_order_move(order, "issue", users["engineer"])
     services.work_order_move(order, "start", users["technician"])
-    services.work_order_finish(order, users["technician"], 1.0, "", _all_readings(order, 0.6))
+    services.work_order_finish(order, users["technician"], 1.0, "", _all_readings(order, 0.6),
+                               confirmed_unticked=_unticked(order))
     part.refresh_from_db()
     assert part.quantity_on_hand == 1 and part.low
     client.force_login(users["viewer"])
@@ -101,7 +113,8 @@ def test_using_more_parts_than_stocked_is_refused_and_nothing_changes(order, use
     services.work_order_move(order, "issue", users["engineer"])
     services.work_order_move(order, "start", users["technician"])
     with pytest.raises(services.Refused, match="only 1"):
-        services.work_order_finish(order, users["technician"], 1.0, "", _all_readings(order, 0.6), {use.pk: 3})
+        services.work_order_finish(order, users["technician"], 1.0, "", _all_readings(order, 0.6), {use.pk: 3},
+                                   confirmed_unticked=_unticked(order))
     assert _state(order) == State.UNDERWAY and not ServiceRecord.objects.exists()
     part.refresh_from_db()
     assert part.quantity_on_hand == 1
@@ -239,3 +252,221 @@ def test_a_negative_reading_on_the_finish_form_is_refused_and_nothing_changes(or
     with pytest.raises(services.Refused, match="cannot be negative"):
         services.work_order_finish(order, users["technician"], 1.0, "", readings)
     assert _state(order) == State.UNDERWAY and not ServiceRecord.objects.exists()
+
+
+# --- several telescopes and shared subsystems --------------------------------------------------------------
+
+
+def test_an_order_over_two_telescopes_names_the_telescope_in_its_title_and_step_prefixes(telescope, site, users):
+    from observatory_ops.registry.models import Telescope
+
+    second = Telescope.objects.create(site=site, name="T2", aperture_m=0.3, mount="fork")
+    fans = [subsystem_create(t, "cooling_fans", "Mirror cell fans", counting_from=dt.date(2026, 1, 1))
+            for t in (telescope, second)]
+    plans = [f.plans.get(name="Replace fan filters") for f in fans]
+    order = services.work_order_from_due(plans, users["engineer"])
+    assert order.title == "T1: Replace fan filters; T2: Replace fan filters"
+    replace = "Replace the intake filters of the mirror-cell and electronics fans."
+    assert f"[T1: Replace fan filters] {replace}" in order.step_list
+    assert f"[T2: Replace fan filters] {replace}" in order.step_list
+    sheet = selectors.sheet(order, "https://ops.example/wo/1/")
+    assert sheet.telescope == "T1, T2"
+    assert sheet.subsystems == ("T1: Mirror cell fans", "T2: Mirror cell fans")
+
+
+def test_two_plans_of_one_name_on_one_telescope_are_told_apart_by_their_subsystem(telescope, users):
+    fans = [subsystem_create(telescope, "cooling_fans", name, counting_from=dt.date(2026, 1, 1))
+            for name in ("Electronics fans", "Mirror cell fans")]
+    order = services.work_order_from_due([f.plans.get(name="Replace fan filters") for f in fans], users["engineer"])
+    assert order.title == "Electronics fans: Replace fan filters; Mirror cell fans: Replace fan filters"
+    assert any(step.startswith("[Mirror cell fans: Replace fan filters] ") for step in order.step_list)
+
+
+def test_the_pdf_header_lists_a_subsystem_once_however_many_of_its_plans_the_order_holds(telescope, users, client):
+    brake = subsystem_create(telescope, "brake", "Axis 2 brake", counting_from=dt.date(2026, 1, 1))
+    fans = subsystem_create(telescope, "cooling_fans", "Mirror cell fans", counting_from=dt.date(2026, 1, 1))
+    order = services.work_order_from_due([*brake.plans.all(), *fans.plans.all()], users["engineer"])
+    assert fans.plans.count() == 2
+    assert selectors.sheet(order, "https://ops.example/wo/1/").subsystems == ("Axis 2 brake", "Mirror cell fans")
+    client.force_login(users["viewer"])
+    from io import BytesIO
+
+    text = " ".join(PdfReader(BytesIO(client.get(f"/workorders/{order.pk}/pdf/").content)).pages[0]
+                    .extract_text().split())
+    assert "Subsystems: Axis 2 brake, Mirror cell fans" in text and text.count("Mirror cell fans") == 1
+
+
+# --- the edit form ---------------------------------------------------------------------------------------
+
+
+def _edit_data(order, **changes) -> dict:
+    data = {"title": order.title, "order_type": order.order_type, "priority": order.priority, "planned_date": "",
+            "assignee": "", "estimated_hours": "2", "steps": order.steps, "tools": order.tools}
+    return {**data, **changes}
+
+
+def test_the_assignee_list_offers_technicians_and_engineers_by_full_name(order, users, client):
+    users["technician"].first_name, users["technician"].last_name = "Rosa", "Delacroix"
+    users["technician"].save()
+    client.force_login(users["engineer"])
+    page = client.get(f"/workorders/{order.pk}/edit/").content.decode()
+    select = page.split('name="assignee"')[1].split("</select>")[0]
+    options = re.findall(r'<option value="(\d*)"[^>]*>([^<]*)</option>', select)
+    assert [label for _, label in options] == ["---------", "engineer", "Rosa Delacroix"]  # no viewer, no admin
+    response = client.post(f"/workorders/{order.pk}/edit/", _edit_data(order, assignee=users["viewer"].pk))
+    assert response.status_code == 200 and "Choose a technician or an engineer" in response.content.decode()
+    assert WorkOrder.objects.get(pk=order.pk).assignee is None
+    client.post(f"/workorders/{order.pk}/edit/", _edit_data(order, assignee=users["technician"].pk))
+    assert WorkOrder.objects.get(pk=order.pk).assignee == users["technician"]
+
+
+@pytest.mark.parametrize("field, value, message", [
+    ("planned_date", "years ago", "is more than a year before today"),
+    ("estimated_hours", "1000.5", "An estimate above 1,000 hours is not accepted"),
+])
+def test_a_date_long_past_or_an_estimate_above_1000_hours_is_refused_and_nothing_changes(
+    order, users, client, field, value, message
+):
+    from observatory_ops.planning.services import site_today
+
+    today = site_today(order.site)
+    if value == "years ago":
+        value = (today - dt.timedelta(days=366)).isoformat()
+    before = WorkOrder.objects.filter(pk=order.pk).values().get()
+    client.force_login(users["engineer"])
+    response = client.post(f"/workorders/{order.pk}/edit/", _edit_data(order, **{field: value}))
+    assert response.status_code == 200 and message in response.content.decode()
+    assert WorkOrder.objects.filter(pk=order.pk).values().get() == before
+    # A year ago to the day, and exactly 1,000 hours, are still accepted.
+    ok = _edit_data(order, planned_date=today.replace(year=today.year - 1).isoformat(), estimated_hours="1000")
+    assert client.post(f"/workorders/{order.pk}/edit/", ok).status_code == 302
+
+
+# --- the page: readings and history ------------------------------------------------------------------------
+
+
+def test_a_reading_of_zero_shows_as_0_not_blank(order, users, client):
+    services.work_order_move(order, "issue", users["engineer"])
+    services.work_order_move(order, "start", users["technician"])
+    services.work_order_finish(order, users["technician"], 1.0, "", _all_readings(order, 0.0),
+                               confirmed_unticked=_unticked(order))
+    client.force_login(users["viewer"])
+    page = client.get(order.get_absolute_url()).content.decode()
+    rows = re.findall(r"<tr><td>(?:Settle time|RMS following|Motor current)[^<]*</td>.*?</tr>", page)
+    assert len(rows) == 3 and all("<td>0.0</td>" in row for row in rows)
+
+
+def test_the_history_shows_times_in_site_time_to_the_minute_and_people_by_name(order, users, client):
+    from zoneinfo import ZoneInfo
+
+    from django.utils import dateformat
+
+    users["technician"].first_name, users["technician"].last_name = "Rosa", "Delacroix"
+    users["technician"].save()
+    order.assignee = users["technician"]
+    order.save()
+    services.work_order_move(order, "issue", users["engineer"])
+    order.refresh_from_db()
+    client.force_login(users["viewer"])
+    history = client.get(order.get_absolute_url()).content.decode().split("<h2>History</h2>")[1]
+    # The test site's zone (tests/conftest.py), read here from the IANA database, not from the site.
+    issued = dateformat.format(order.issued_at.astimezone(ZoneInfo("Europe/Madrid")), "d M Y H:i")
+    assert f"<strong>issued_at</strong>: (empty) → {issued}</div>" in history
+    assert "+00:00" not in history
+    assert "<strong>assignee</strong>: (empty) → Rosa Delacroix</div>" in history
+
+
+# --- readings beyond their limit ---------------------------------------------------------------------------
+
+
+@pytest.mark.parametrize("limit_text, value, beyond", [
+    ("at most 1", 5.0, True), ("at most 1", 1.0, False), ("at most 1", 0.0, False),
+    ("at least 0.8", 0.7, True), ("at least 0.8", 0.8, False), ("at most 1e+06", 2e6, True),
+    ("within the maker's range", 1e9, False), ("", 5.0, False),
+])
+def test_a_reading_is_beyond_a_limit_written_at_most_or_at_least(limit_text, value, beyond):
+    from observatory_ops.workorders.models import RequiredReading
+
+    assert RequiredReading(limit_text=limit_text).beyond_limit(value) is beyond
+
+
+def _finish_post(order, settle: float) -> dict:
+    data = {"actual_hours": "2", "findings": "ok", "confirm_unticked": "on",
+            "unticked": [line.text for line in selectors.unticked_lines(order)]}
+    for r in order.required_readings.all():
+        data[f"reading_{r.pk}"] = str(settle if r.quantity == "settle_time_s" else 0.4)
+    return data
+
+
+def test_a_reading_beyond_its_limit_is_shown_beside_it_then_recorded_and_flagged(order, users, client):
+    services.work_order_move(order, "issue", users["engineer"])
+    services.work_order_move(order, "start", users["technician"])
+    client.force_login(users["technician"])
+    data = _finish_post(order, 5)
+    first = client.post(f"/workorders/{order.pk}/finish/", data).content.decode()
+    flag = "5 s is beyond its limit (at most 1)"
+    field = first.index('name="reading_')
+    assert flag in first and first.index(flag) > field  # beside the settle-time field
+    assert _state(order) == State.UNDERWAY and not ServiceRecord.objects.exists()  # shown, not yet recorded
+
+    flagged = re.findall(r'name="flagged" value="([^"]+)"', first)
+    response = client.post(f"/workorders/{order.pk}/finish/", {**data, "flagged": flagged}, follow=True)
+    page = response.content.decode()
+    assert _state(order) == State.FINISHED
+    assert order.required_readings.get(quantity="settle_time_s").reading.value == 5.0  # as measured
+    assert "1 reading(s) beyond their limit are flagged on the record" in page
+    assert "Settle time after a slew on Axis 1 drive: 5.0 s (limit at most 1)" in page
+    assert '<strong class="beyond-limit">beyond its limit</strong>' in page
+
+    from io import BytesIO
+
+    pdf_text = " ".join(" ".join(p.extract_text().split()) for p in
+                        PdfReader(BytesIO(client.get(f"/workorders/{order.pk}/pdf/").content)).pages)
+    assert "5 (BEYOND LIMIT)" in pdf_text
+    assert "Beyond its limit: Settle time after a slew (Axis 1 drive): 5 s (limit at most 1)" in pdf_text
+
+
+def test_readings_within_their_limits_finish_at_the_first_press(order, users, client):
+    services.work_order_move(order, "issue", users["engineer"])
+    services.work_order_move(order, "start", users["technician"])
+    client.force_login(users["technician"])
+    response = client.post(f"/workorders/{order.pk}/finish/", _finish_post(order, 0.6))
+    assert response.status_code == 302 and _state(order) == State.FINISHED
+
+
+# --- a second press of Finish ------------------------------------------------------------------------------
+
+
+def test_finishing_twice_by_the_same_person_says_it_is_already_finished_by_you(order, users, client):
+    from zoneinfo import ZoneInfo
+
+    from django.utils import dateformat
+
+    services.work_order_move(order, "issue", users["engineer"])
+    services.work_order_move(order, "start", users["technician"])
+    stale = WorkOrder.objects.get(pk=order.pk)  # the page of the second press, loaded before the first landed
+    client.force_login(users["technician"])
+    data = _finish_post(order, 0.6)
+    client.post(f"/workorders/{order.pk}/finish/", data)
+    order.refresh_from_db()
+    when = dateformat.format(order.finished_at.astimezone(ZoneInfo("Europe/Madrid")), "d M Y H:i")
+
+    page = client.post(f"/workorders/{order.pk}/finish/", data, follow=True).content.decode()
+    assert f"{order.number} is already finished (by you, at {when})." in page
+    assert "someone else" not in page
+    with pytest.raises(services.AlreadyFinished, match=re.escape(f"already finished (by you, at {when})")):
+        services.work_order_finish(stale, users["technician"], 1.0, "again", _all_readings(order, 0.6),
+                                   confirmed_unticked=data["unticked"])
+    with pytest.raises(services.AlreadyFinished, match="already been finished by someone else \\(technician, at "):
+        services.work_order_finish(stale, users["engineer"], 1.0, "again", _all_readings(order, 0.6))
+    assert ServiceRecord.objects.filter(work_order=order).count() == 1
+
+
+# --- the PDF command ---------------------------------------------------------------------------------------
+
+
+def test_workorder_pdf_into_a_missing_folder_is_a_clear_message(order, tmp_path):
+    missing = tmp_path / "no" / "such" / "dir"
+    with pytest.raises(CommandError, match=re.escape(f"the folder '{missing}' does not exist")):
+        call_command("workorder_pdf", str(order.pk), "-o", str(missing / "x.pdf"))
+    assert not (tmp_path / "no").exists()

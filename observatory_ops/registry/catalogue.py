@@ -6,6 +6,13 @@ then edit per subsystem. Every default interval says where it comes from in ``ba
 practice" (a rule of thumb of the trade, no published source) or "from memory". Replace them with the
 manufacturer's figures for your own equipment.
 
+Steps come in three groups. ``before_isolation`` are done under power before anything is locked out:
+closing the dome, parking or slewing the telescope, opening covers, tests that need the drives or the
+supply live. ``after_isolation`` follow the lockout step that a work order puts after them
+(``workorders.services.steps_with_lockout``): anything touching drives, brakes, electrics or moving parts;
+one that needs an axis or the dome moved says to remove the lock only under the site's lockout procedure.
+``restore`` starts with the step that removes the locks that way, then whatever is done back in service.
+
 Trigger metrics are listed in ``observatory_ops.planning.metrics``.
 """
 from __future__ import annotations
@@ -26,11 +33,18 @@ class PlanTemplate:
     basis: str
     dust_sensitivity: float = 0.0
     hazards: tuple[str, ...] = ()  # extra hazards of the task itself (beyond the subsystem's)
-    steps: tuple[str, ...] = ()
+    before_isolation: tuple[str, ...] = ()  # done under power, before the lockout step
+    after_isolation: tuple[str, ...] = ()  # done with the energy locked out, in order
+    restore: tuple[str, ...] = ()  # the step that removes the locks, then anything done back in service
     estimated_hours: float = 1.0
     tools: tuple[str, ...] = ()
     parts: tuple[str, ...] = ()  # spare-part names; matched to the site's stock by name on a work order
     readings: tuple[tuple[str, str], ...] = ()  # (quantity, limit as text) to record on the work order
+
+    @property
+    def steps(self) -> tuple[str, ...]:
+        """Every step in the order of the work, as a plan made from this template lists them."""
+        return self.before_isolation + self.after_isolation + self.restore
 
 
 @dataclass(frozen=True)
@@ -41,12 +55,40 @@ class Kind:
     plans: tuple[PlanTemplate, ...] = field(default=())
 
 
-_INSPECT_STEPS = (
-    "Read the last service record and open faults for this subsystem.",
-    "Inspect for wear, looseness, contamination and damage; photograph anything unusual.",
-    "Record the readings listed on this work order, if any.",
-    "Restore the subsystem to service and test it under observation.",
+# Steps shared by several plans. Parking, closing the dome and live tests come before isolation; the
+# last step removes the locks only as the site's lockout procedure says.
+_READ_RECORDS = "Read the last service record and open faults for this subsystem."
+_OUT_OF_SERVICE = "Take the observatory out of robotic and remote control and close the dome."
+_PARK = "Park the telescope at its service position."
+_PREPARE = (_READ_RECORDS, _OUT_OF_SERVICE, _PARK)
+_INSPECT = "Inspect for wear, looseness, contamination and damage; photograph anything unusual."
+_RESTORE = (
+    "When the work is done and everyone is clear, remove the locks and tags as the site's lockout procedure "
+    "says, restore the subsystem to service and test it under observation."
 )
+_READINGS_IN_SERVICE = "With the subsystem back in service, record the readings listed on this work order, if any."
+
+
+def _move_under_procedure(what: str, why: str) -> str:
+    """A step after isolation that needs an axis or the dome moved: only under the site's procedure."""
+    return (
+        f"If {what} must move {why}, remove the lock only as the site's lockout procedure says: everyone clear, "
+        "move it from the control panel, then isolate, lock and tag again before touching anything."
+    )
+
+
+# An axis drive: the readings need the drive under power, so they are taken before isolation.
+_AXIS_BEFORE = (
+    _READ_RECORDS,
+    _OUT_OF_SERVICE,
+    "With everyone outside the swept volume, slew and track from the control computer; record the settle time, "
+    "following error and motor current on this work order.",
+    _PARK,
+)
+_AXIS_AFTER = (
+    "Inspect the motor, couplings and mounting for wear, looseness and damage; photograph anything unusual.",
+)
+
 
 KINDS: dict[str, Kind] = {
     k.code: k
@@ -66,12 +108,18 @@ KINDS: dict[str, Kind] = {
                     tools=("CO2 snow gun with dry-gas purge", "reflectometer", "head torch"),
                     parts=("CO2 cylinder for snow cleaning",),
                     readings=(("reflectance", "record before and after; compare with the mirror page"),),
-                    steps=(
+                    before_isolation=(
                         "Close the dome and park the telescope pointing at the horizon stop.",
                         "Open the mirror cover; let the mirror reach ambient temperature to avoid condensation.",
+                    ),
+                    after_isolation=(
                         "Measure reflectance at the marked positions before cleaning.",
                         "Clean with CO2 snow from the centre outward, keeping the nozzle moving.",
                         "Measure reflectance again at the same positions and record both sets.",
+                    ),
+                    restore=(
+                        "When everyone is clear of the telescope, remove the locks and tags as the site's lockout "
+                        "procedure says, close the mirror cover and return the telescope to service.",
                     ),
                     estimated_hours=3.0,
                 ),
@@ -82,6 +130,21 @@ KINDS: dict[str, Kind] = {
                     (("recoat_line", 1.0), ("calendar_days", 730.0)),
                     COMMON_PRACTICE,
                     hazards=("suspended_load", "chemical", "vacuum_plant", "moving_machinery"),
+                    before_isolation=(
+                        _READ_RECORDS,
+                        _OUT_OF_SERVICE,
+                        "Close the mirror cover and park the telescope where the site's mirror-removal procedure "
+                        "says.",
+                    ),
+                    after_isolation=(
+                        "Remove, strip and recoat the primary as the site's mirror-removal procedure, the lift plan "
+                        "and the coating plant's instructions say.",
+                        "Refit the mirror and its cell with the supports and clips set as before.",
+                    ),
+                    restore=(
+                        "When everyone is clear, remove the locks and tags as the site's lockout procedure says, "
+                        "check the axis balance as that procedure says and return the telescope to service.",
+                    ),
                     estimated_hours=40.0,
                 ),
             ),
@@ -98,6 +161,19 @@ KINDS: dict[str, Kind] = {
                     COMMON_PRACTICE,
                     dust_sensitivity=1.0,
                     hazards=("cryogen", "moving_machinery"),
+                    before_isolation=(
+                        _READ_RECORDS,
+                        _OUT_OF_SERVICE,
+                        "Close the primary mirror cover and point the telescope so the secondary can be reached "
+                        "from the work platform.",
+                    ),
+                    after_isolation=(
+                        "Inspect the secondary coating; photograph anything unusual.",
+                        "Clean with CO2 snow from the centre outward, keeping the nozzle moving.",
+                    ),
+                    restore=(
+                        _RESTORE,
+                    ),
                     tools=("CO2 snow gun with dry-gas purge",),
                     estimated_hours=2.0,
                 ),
@@ -113,7 +189,19 @@ KINDS: dict[str, Kind] = {
                     "Check petal motion, hinge play, seal condition and the closed-position switch.",
                     (("calendar_days", 180.0), ("open_hours", 1500.0)),
                     COMMON_PRACTICE,
-                    steps=_INSPECT_STEPS,
+                    before_isolation=(
+                        *_PREPARE,
+                        "With nobody near the petals, close and open the cover from the control panel; watch "
+                        "every petal move and check that the closed-position switch reports closed. Leave the "
+                        "cover open.",
+                    ),
+                    after_isolation=(
+                        "Check each hinge for play and each petal and seal for wear and damage; photograph "
+                        "anything unusual.",
+                    ),
+                    restore=(
+                        _RESTORE,
+                    ),
                 ),
             ),
         ),
@@ -128,7 +216,19 @@ KINDS: dict[str, Kind] = {
                     (("calendar_days", 365.0),),
                     COMMON_PRACTICE,
                     hazards=("moving_machinery",),
-                    steps=_INSPECT_STEPS,
+                    before_isolation=(
+                        _READ_RECORDS,
+                        _OUT_OF_SERVICE,
+                        "Close the mirror cover and park the telescope where the cell can be reached.",
+                    ),
+                    after_isolation=(
+                        "Check the axial and lateral support pads, the clip clearances and the cell's fixing "
+                        "bolts; photograph anything unusual.",
+                    ),
+                    restore=(
+                        _RESTORE,
+                        _READINGS_IN_SERVICE,
+                    ),
                     estimated_hours=2.0,
                 ),
             ),
@@ -148,7 +248,9 @@ KINDS: dict[str, Kind] = {
                         ("reading", SETTLE_TIME_LIMIT_S, "settle_time_s"),
                     ),
                     FROM_MEMORY + "; settle-time limit " + COMMON_PRACTICE,
-                    steps=_INSPECT_STEPS,
+                    before_isolation=_AXIS_BEFORE,
+                    after_isolation=_AXIS_AFTER,
+                    restore=(_RESTORE,),
                     tools=("laptop with the mount's tuning software", "clamp meter"),
                     readings=(("following_error_arcsec", "as the mount's acceptance test"), ("motor_current_a", "")),
                     estimated_hours=2.0,
@@ -170,7 +272,9 @@ KINDS: dict[str, Kind] = {
                         ("reading", SETTLE_TIME_LIMIT_S, "settle_time_s"),
                     ),
                     FROM_MEMORY + "; settle-time limit " + COMMON_PRACTICE,
-                    steps=_INSPECT_STEPS,
+                    before_isolation=_AXIS_BEFORE,
+                    after_isolation=_AXIS_AFTER,
+                    restore=(_RESTORE,),
                     tools=("laptop with the mount's tuning software", "clamp meter"),
                     readings=(("following_error_arcsec", "as the mount's acceptance test"), ("motor_current_a", "")),
                     estimated_hours=2.0,
@@ -189,7 +293,16 @@ KINDS: dict[str, Kind] = {
                     COMMON_PRACTICE,
                     dust_sensitivity=0.5,
                     hazards=("chemical",),
-                    steps=_INSPECT_STEPS,
+                    before_isolation=_PREPARE,
+                    after_isolation=(
+                        "Clean the roller and disc contact surfaces within reach with solvent wipes; check them "
+                        "for flats and pitting.",
+                        _move_under_procedure("the axis", "to bring the rest of the disc within reach"),
+                    ),
+                    restore=(
+                        _RESTORE,
+                        _READINGS_IN_SERVICE,
+                    ),
                 ),
             ),
         ),
@@ -205,7 +318,17 @@ KINDS: dict[str, Kind] = {
                     COMMON_PRACTICE,
                     dust_sensitivity=1.0,
                     hazards=("chemical",),
-                    steps=_INSPECT_STEPS,
+                    before_isolation=_PREPARE,
+                    after_isolation=(
+                        "Clean the scale within reach with the maker's solvent; inspect it and the read head for "
+                        "damage.",
+                        _move_under_procedure("the axis", "to bring the rest of the scale within reach"),
+                    ),
+                    restore=(
+                        _RESTORE,
+                        "With the drives back in service and everyone outside the swept volume, check the "
+                        "read-head signal level along the full travel and record it.",
+                    ),
                 ),
             ),
         ),
@@ -219,7 +342,22 @@ KINDS: dict[str, Kind] = {
                     "Check pad wear, supply pressure, release time and that the brake holds the axis out of balance.",
                     (("calendar_days", 180.0), ("brake_cycles", 5000.0)),
                     FROM_MEMORY,
-                    steps=_INSPECT_STEPS,
+                    before_isolation=(
+                        _READ_RECORDS,
+                        _OUT_OF_SERVICE,
+                        "With everyone outside the swept volume, read the brake supply pressure, time the brake "
+                        "release, and check that the brake holds the axis out of balance; record the readings.",
+                        _PARK,
+                    ),
+                    after_isolation=(
+                        "Check pad wear with feeler gauges, and the pads, fittings and hoses for damage; "
+                        "photograph anything unusual.",
+                    ),
+                    restore=(
+                        "When the work is done and everyone is clear, remove the locks and tags as the site's "
+                        "lockout procedure says, restore the air slowly and check that the brake releases and "
+                        "holds.",
+                    ),
                     tools=("pressure gauge with quick coupling", "feeler gauges"),
                     parts=("Brake pad set",),
                     readings=(("brake_pressure_bar", "within the maker's range"), ("brake_release_s", "")),
@@ -236,7 +374,21 @@ KINDS: dict[str, Kind] = {
                     "Drive slowly onto each soft and hard limit; test emergency stops and dome interlocks.",
                     (("calendar_days", 90.0),),
                     COMMON_PRACTICE,
-                    steps=_INSPECT_STEPS,
+                    before_isolation=(
+                        _READ_RECORDS,
+                        _OUT_OF_SERVICE,
+                        "With everyone outside the swept volume, drive each axis slowly onto each soft and then "
+                        "each hard limit from the control panel and check that it stops; test every emergency "
+                        "stop and dome interlock.",
+                        _PARK,
+                    ),
+                    after_isolation=(
+                        "Inspect the limit switches, their actuators and their wiring for wear, looseness and "
+                        "damage; photograph anything unusual.",
+                    ),
+                    restore=(
+                        _RESTORE,
+                    ),
                 ),
             ),
         ),
@@ -250,7 +402,20 @@ KINDS: dict[str, Kind] = {
                     "Move each axis through its full range slowly and watch every cable wrap for snagging and wear.",
                     (("calendar_days", 180.0), ("axis1_travel_deg", 200000.0)),
                     COMMON_PRACTICE,
-                    steps=_INSPECT_STEPS,
+                    before_isolation=(
+                        _READ_RECORDS,
+                        _OUT_OF_SERVICE,
+                        "Move each axis slowly through its full range from the control panel and watch every "
+                        "cable wrap for snagging, from outside the swept volume or by camera.",
+                        _PARK,
+                    ),
+                    after_isolation=(
+                        "Inspect each cable wrap close up for chafe, strain and loose ties; photograph anything "
+                        "unusual.",
+                    ),
+                    restore=(
+                        _RESTORE,
+                    ),
                 ),
             ),
         ),
@@ -265,7 +430,15 @@ KINDS: dict[str, Kind] = {
                     (("dust_hours", 500.0), ("calendar_days", 180.0)),
                     COMMON_PRACTICE,
                     dust_sensitivity=1.5,
-                    steps=_INSPECT_STEPS,
+                    before_isolation=_PREPARE,
+                    after_isolation=(
+                        "Replace the intake filters of the mirror-cell and electronics fans.",
+                        _INSPECT,
+                    ),
+                    restore=(
+                        "When the work is done and everyone is clear, remove the locks and tags as the site's "
+                        "lockout procedure says, restore the supply and check that every fan runs.",
+                    ),
                     estimated_hours=0.5,
                     parts=("Fan intake filter 120 mm",),
                 ),
@@ -274,7 +447,18 @@ KINDS: dict[str, Kind] = {
                     "Listen for bearing noise, measure fan current, replace fans that drift.",
                     (("open_hours", 4000.0), ("calendar_days", 365.0)),
                     FROM_MEMORY,
-                    steps=_INSPECT_STEPS,
+                    before_isolation=(
+                        *_PREPARE,
+                        "With the fans running, listen to each for bearing noise and measure its current; "
+                        "record the currents.",
+                    ),
+                    after_isolation=(
+                        "Replace any fan that is noisy or whose current has drifted from its rating.",
+                    ),
+                    restore=(
+                        "When the work is done and everyone is clear, remove the locks and tags as the site's "
+                        "lockout procedure says, restore the supply and check that every fan runs.",
+                    ),
                     estimated_hours=0.5,
                 ),
             ),
@@ -289,7 +473,18 @@ KINDS: dict[str, Kind] = {
                     "Run the focuser over its full range, check backlash, lubricate screws per the maker.",
                     (("calendar_days", 365.0), ("open_hours", 2000.0)),
                     COMMON_PRACTICE,
-                    steps=_INSPECT_STEPS,
+                    before_isolation=(
+                        *_PREPARE,
+                        "From the control computer, run the focuser and the tip-tilt over their full range and "
+                        "check the backlash; record what you find.",
+                    ),
+                    after_isolation=(
+                        "Clean and lubricate the screws as the maker says; inspect them and their bearings for "
+                        "wear.",
+                    ),
+                    restore=(
+                        _RESTORE,
+                    ),
                 ),
             ),
         ),
@@ -305,7 +500,16 @@ KINDS: dict[str, Kind] = {
                     COMMON_PRACTICE,
                     hazards=("laser", "moving_machinery"),
                     tools=("torque wrench", "alignment laser or autocollimator"),
-                    steps=_INSPECT_STEPS,
+                    before_isolation=_PREPARE,
+                    after_isolation=(
+                        "Check the torque marks of every truss and spider fastener; retighten to the maker's "
+                        "torque any that has moved, and mark it again.",
+                        "Check collimation with the alignment laser or autocollimator, with the laser's "
+                        "controlled area posted.",
+                    ),
+                    restore=(
+                        _RESTORE,
+                    ),
                     estimated_hours=3.0,
                 ),
             ),
@@ -320,7 +524,18 @@ KINDS: dict[str, Kind] = {
                     "Inspect enclosures and terminations for heat marks, test residual-current devices.",
                     (("calendar_days", 180.0),),
                     COMMON_PRACTICE,
-                    steps=_INSPECT_STEPS,
+                    before_isolation=(
+                        *_PREPARE,
+                        "Tell everyone on site, then test each residual-current device with its test button and "
+                        "an RCD tester; the circuits behind it go dead when it trips.",
+                    ),
+                    after_isolation=(
+                        "Open the enclosures, test for absence of voltage, and inspect the terminations for heat "
+                        "marks and looseness; photograph anything unusual.",
+                    ),
+                    restore=(
+                        _RESTORE,
+                    ),
                 ),
             ),
         ),
@@ -334,7 +549,18 @@ KINDS: dict[str, Kind] = {
                     "Measure each DC rail under load; record voltage and ripple.",
                     (("calendar_days", 365.0),),
                     COMMON_PRACTICE,
-                    steps=_INSPECT_STEPS,
+                    before_isolation=(
+                        *_PREPARE,
+                        "Measure each DC rail under load and record its voltage and ripple. This is work on live "
+                        "equipment: only a qualified person, under the site's rules for energised work.",
+                    ),
+                    after_isolation=(
+                        "Inspect the supplies' terminations, fans and filters for heat marks, dust and looseness; "
+                        "photograph anything unusual.",
+                    ),
+                    restore=(
+                        _RESTORE,
+                    ),
                 ),
             ),
         ),
@@ -349,7 +575,19 @@ KINDS: dict[str, Kind] = {
                     (("calendar_days", 90.0), ("dust_hours", 1000.0)),
                     COMMON_PRACTICE,
                     dust_sensitivity=1.0,
-                    steps=_INSPECT_STEPS,
+                    before_isolation=(
+                        *_PREPARE,
+                        "Check disk health, that a backup restores, and time synchronisation; record what you "
+                        "find.",
+                        "Shut the control computers down cleanly.",
+                    ),
+                    after_isolation=(
+                        "Clean the intake filters; inspect the cases and cables for dust and damage.",
+                    ),
+                    restore=(
+                        "When the work is done and everyone is clear, remove the locks and tags as the site's "
+                        "lockout procedure says, start the computers and check that the telescope answers.",
+                    ),
                 ),
             ),
         ),
@@ -365,7 +603,21 @@ KINDS: dict[str, Kind] = {
                     f"{SETTLE_TIME_LIMIT_S:g} s ({COMMON_PRACTICE}).",
                     (("calendar_days", 180.0), ("slews", 30000.0)),
                     FROM_MEMORY,
-                    steps=_INSPECT_STEPS,
+                    before_isolation=(
+                        _READ_RECORDS,
+                        _OUT_OF_SERVICE,
+                        "Read and save the drive's fault log.",
+                        "With everyone outside the swept volume, step-test each loop from the tuning software "
+                        "and record how it settles.",
+                        _PARK,
+                    ),
+                    after_isolation=(
+                        "Wait the discharge time the maker states, then clean the heat sinks and fan grilles and "
+                        "check by hand that the fans spin freely.",
+                    ),
+                    restore=(
+                        _RESTORE,
+                    ),
                 ),
             ),
         ),
@@ -379,7 +631,21 @@ KINDS: dict[str, Kind] = {
                     "Inspect shutter and rotation drives, wheels, seals and rain sensor; lubricate as the maker says.",
                     (("calendar_days", 90.0), ("open_hours", 1000.0)),
                     COMMON_PRACTICE,
-                    steps=_INSPECT_STEPS,
+                    before_isolation=(
+                        _READ_RECORDS,
+                        "Take the observatory out of robotic and remote control and park the telescope.",
+                        "With everyone clear of the shutter and the dome's path, open the shutter a little and "
+                        "check that the rain sensor closes it.",
+                        "Turn the dome to its service position and close the shutter.",
+                    ),
+                    after_isolation=(
+                        "Inspect the shutter and rotation drives, wheels and seals; lubricate as the maker says; "
+                        "photograph anything unusual.",
+                        _move_under_procedure("the dome", "to bring the rest of the wheels within reach"),
+                    ),
+                    restore=(
+                        _RESTORE,
+                    ),
                     estimated_hours=3.0,
                 ),
             ),
@@ -389,6 +655,14 @@ KINDS: dict[str, Kind] = {
 }
 
 KIND_CHOICES = [(k.code, k.label) for k in KINDS.values()]
+
+#: Every step the catalogue places before isolation, and every step of its plans' restoring. A work order
+#: recognises them by their words (its plans keep only their steps' text): the lockout step goes after the
+#: first, and in an order of several plans the restoring of all of them comes after all their locked-out work.
+BEFORE_ISOLATION: frozenset[str] = frozenset(
+    step for k in KINDS.values() for plan in k.plans for step in plan.before_isolation
+)
+RESTORE: frozenset[str] = frozenset(step for k in KINDS.values() for plan in k.plans for step in plan.restore)
 
 
 def kind(code: str) -> Kind:

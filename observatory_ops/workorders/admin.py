@@ -39,7 +39,9 @@ class WorkOrderAdmin(SimpleHistoryAdmin):
     list_display = ("number", "title", "site", "state", "planned_date", "assignee")
     list_filter = ("site", "state", "order_type")
     inlines = [ItemInline, ReadingInline, PartUseInline, TickInline]
-    readonly_fields = ("state", "finished_at", "finished_by", "countersigned_at", "countersigned_by")
+    readonly_fields = (
+        "state", "finished_at", "finished_by", "countersigned_at", "countersigned_by", "unticked_at_finish"
+    )
 
 
 @admin.register(Part)

@@ -1,13 +1,32 @@
+import datetime as dt
+
 from django import forms
 from django.contrib.auth import get_user_model
 
+from observatory_ops.access.roles import ENGINEER, TECHNICIAN
 from observatory_ops.calc.lifting import DENSITY
+from observatory_ops.planning.services import site_today
 from observatory_ops.registry.models import Subsystem
 
+from . import services
 from .models import Part, WorkOrder
 
 
+class _PersonChoiceField(forms.ModelChoiceField):
+    def label_from_instance(self, obj) -> str:
+        return obj.get_full_name() or obj.username
+
+
 class WorkOrderEditForm(forms.ModelForm):
+    """The engineer's edit of a draft or issued order. Steps saved without the lockout step, where the order's
+    hazards call for isolation, get it back (``services.steps_with_lockout``); ``lockout_restored`` says so."""
+
+    assignee = _PersonChoiceField(
+        queryset=get_user_model().objects.none(), required=False,
+        help_text="Technicians and engineers.",
+        error_messages={"invalid_choice": "Choose a technician or an engineer from the list."},
+    )
+
     class Meta:
         model = WorkOrder
         fields = ["title", "order_type", "priority", "planned_date", "assignee", "estimated_hours", "steps", "tools"]
@@ -15,7 +34,35 @@ class WorkOrderEditForm(forms.ModelForm):
 
     def __init__(self, *args, **kwargs):
         super().__init__(*args, **kwargs)
-        self.fields["assignee"].queryset = get_user_model().objects.filter(is_active=True).order_by("username")
+        self.lockout_restored = False
+        self.fields["assignee"].queryset = (
+            get_user_model().objects.filter(is_active=True, groups__name__in=[TECHNICIAN, ENGINEER])
+            .distinct().order_by("first_name", "last_name", "username")
+        )
+
+    def clean_planned_date(self):
+        planned = self.cleaned_data["planned_date"]
+        if planned is None or "planned_date" not in self.changed_data:  # a date stored earlier stays as it is
+            return planned
+        today = site_today(self.instance.site)
+        if planned < _a_year_before(today):
+            raise forms.ValidationError(
+                f"{planned:%d %b %Y} is more than a year before today ({today:%d %b %Y}): enter the date the work "
+                "is planned for."
+            )
+        return planned
+
+    def clean_steps(self):
+        steps = self.cleaned_data["steps"].splitlines()
+        self.lockout_restored = services.lockout_missing(self.instance.hazards, steps)
+        return services.steps_with_lockout(self.instance.hazards, steps)
+
+
+def _a_year_before(day: dt.date) -> dt.date:
+    try:
+        return day.replace(year=day.year - 1)
+    except ValueError:  # 29 February
+        return day.replace(year=day.year - 1, day=28)
 
 
 class AdHocForm(forms.Form):
@@ -30,12 +77,16 @@ class AdHocForm(forms.Form):
 
 
 class FinishForm(forms.Form):
+    """Hours, findings, the required readings and the parts used. ``confirm_unticked`` is asked for only
+    when checklist lines are not ticked; ``beyond_limits`` names the readings past their limit."""
+
     actual_hours = forms.FloatField(min_value=0, max_value=1000)
     findings = forms.CharField(widget=forms.Textarea, required=False, max_length=20000)
 
-    def __init__(self, *args, order, **kwargs):
+    def __init__(self, *args, order, unticked=(), **kwargs):
         super().__init__(*args, **kwargs)
-        for r in order.required_readings.select_related("subsystem"):
+        self._required = {r.pk: r for r in order.required_readings.select_related("subsystem")}
+        for r in self._required.values():
             self.fields[f"reading_{r.pk}"] = forms.FloatField(
                 label=f"{r.quantity_label} on {r.subsystem.name} ({r.unit})",
                 help_text=f"limit: {r.limit_text}" if r.limit_text else "", required=True,
@@ -44,12 +95,27 @@ class FinishForm(forms.Form):
             self.fields[f"part_{use.pk}"] = forms.FloatField(
                 label=f"{use.part.name} used ({use.part.unit})", min_value=0, initial=use.quantity_planned
             )
+        if unticked:
+            self.fields["confirm_unticked"] = forms.BooleanField(
+                required=False, label="I confirm the unticked lines were done or did not apply"
+            )
 
     def readings(self) -> dict[int, float]:
         return {int(k[8:]): v for k, v in self.cleaned_data.items() if k.startswith("reading_")}
 
     def parts(self) -> dict[int, float]:
         return {int(k[5:]): v for k, v in self.cleaned_data.items() if k.startswith("part_")}
+
+    def beyond_limits(self) -> dict[str, str]:
+        """Field name -> what to show beside it, for each reading entered past its limit (valid forms only)."""
+        return {
+            f"reading_{pk}": (
+                f"{value:g} {self._required[pk].unit} is beyond its limit ({self._required[pk].limit_text}). "
+                "Check it; it is recorded as measured and flagged on the record."
+            )
+            for pk, value in self.readings().items()
+            if self._required[pk].beyond_limit(value)
+        }
 
 
 class PartAddForm(forms.Form):

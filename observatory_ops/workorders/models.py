@@ -2,8 +2,10 @@
 ticks of their checklist."""
 from __future__ import annotations
 
+import re
+
 from django.conf import settings
-from django.core.validators import MinValueValidator
+from django.core.validators import MaxValueValidator, MinValueValidator
 from django.db import models
 from django.urls import reverse
 from simple_history.models import HistoricalRecords
@@ -47,7 +49,15 @@ class WorkOrder(models.Model):
     assignee = models.ForeignKey(
         settings.AUTH_USER_MODEL, null=True, blank=True, on_delete=models.PROTECT, related_name="assigned_work_orders"
     )
-    estimated_hours = models.FloatField(default=1.0, validators=[MinValueValidator(0)])
+    estimated_hours = models.FloatField(
+        default=1.0,
+        validators=[
+            MinValueValidator(0),
+            MaxValueValidator(
+                1000, message="An estimate above 1,000 hours is not accepted: split the work into several orders."
+            ),
+        ],
+    )
     steps = models.TextField(blank=True, help_text="One step per line.")
     tools = models.TextField(blank=True, help_text="One tool per line.")
     hazards = models.JSONField(default=list, blank=True)
@@ -69,6 +79,11 @@ class WorkOrder(models.Model):
         settings.AUTH_USER_MODEL, null=True, blank=True, on_delete=models.PROTECT, related_name="+"
     )
     withdrawn_reason = models.CharField(max_length=200, blank=True)
+    unticked_at_finish = models.JSONField(
+        default=list, blank=True,
+        help_text="Checklist lines nobody ticked when the work was finished; the person finishing confirmed that "
+                  "they were done or did not apply.",
+    )
 
     class Meta:
         ordering = ["-created_at"]
@@ -126,6 +141,23 @@ class RequiredReading(models.Model):
     @property
     def quantity_label(self) -> str:
         return QUANTITIES[self.quantity][0]
+
+    def beyond_limit(self, value: float | None) -> bool:
+        """True when ``value`` is past a limit written "at most L" or "at least L", as a reading trigger's limit
+        is written on the order. A limit in words ("within the maker's range") is not judged here."""
+        match = _LIMIT.fullmatch(self.limit_text.strip())
+        if match is None or value is None:
+            return False
+        limit = float(match["limit"])
+        return value > limit if match["side"] == "most" else value < limit
+
+    @property
+    def recorded_beyond_limit(self) -> bool:
+        """The recorded reading is past its limit (it was recorded as measured, and the record flags it)."""
+        return self.reading is not None and self.beyond_limit(self.reading.value)
+
+
+_LIMIT = re.compile(r"at (?P<side>most|least) (?P<limit>[-+]?(?:\d+\.?\d*|\.\d+)(?:[eE][-+]?\d+)?)")
 
 
 class Part(models.Model):

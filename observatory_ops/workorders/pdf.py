@@ -513,13 +513,22 @@ def _readings(sheet: Sheet, width: float) -> list[Flowable]:
     rows = []
     for reading in sheet.readings:
         if reading.recorded:
-            box = _cell(reading.recorded, widths[3])
+            box = _cell(f"{reading.recorded} (BEYOND LIMIT)" if reading.beyond_limit else reading.recorded, widths[3])
         else:
             box = Drawing(box_width - 2 * _CELL_PADDING, 20)
             box.add(Rect(0, 0, box_width - 2 * _CELL_PADDING, 20, strokeColor=INK, strokeWidth=0.8, fillColor=None))
         rows.append([_cell(reading.label, widths[0]), _cell(reading.unit, widths[1]),
                      _cell(reading.limit_text, widths[2]), box])
-    return [heading, _ruled_table(("Reading", "Unit", "Limit", "Value"), rows, widths)]
+    story: list[Flowable] = [heading, _ruled_table(("Reading", "Unit", "Limit", "Value"), rows, widths)]
+    beyond = [reading for reading in sheet.readings if reading.recorded and reading.beyond_limit]
+    if beyond:
+        story.append(Spacer(1, 5))
+        story += [
+            _Paragraph(f"<b>Beyond its limit:</b> {_text(f'{r.label}: {r.recorded} {r.unit} (limit {r.limit_text})')}"
+                       ", recorded as measured.", _BULLET, bulletText="!")
+            for r in beyond
+        ]
+    return story
 
 
 def _findings(sheet: Sheet) -> list[Flowable]:

@@ -1,12 +1,16 @@
 """Reads of work orders: the cautions, lifting figures, checklist and printable sheet of one work order."""
 from __future__ import annotations
 
+import dataclasses
 import datetime as dt
 from dataclasses import dataclass
 
+from django.contrib.auth import get_user_model
+from django.db import models
 from django.db.models import F, Q, QuerySet
 from django.utils import dateformat, timezone
 
+from observatory_ops.archive.history import Change, changes
 from observatory_ops.calc import lifting
 from observatory_ops.registry.models import Site
 
@@ -76,6 +80,11 @@ class ChecklistLine:
     def anchor(self) -> str:
         return line_anchor(self.kind, self.key)
 
+    @property
+    def label(self) -> str:
+        """"Isolation point", or "Step n" (counted from 1, as printed)."""
+        return f"Step {self.key + 1}" if self.kind == STEP else "Isolation point"
+
 
 @dataclass(frozen=True)
 class Checklist:
@@ -123,10 +132,17 @@ def _checklist(order: WorkOrder, points: list[IsolationPoint], latest: dict) -> 
     )
 
 
+def unticked_lines(order: WorkOrder) -> list[ChecklistLine]:
+    """The checklist lines not ticked (as they read now): isolation points first, then steps in order."""
+    lines = checklist(order)
+    return [line for line in lines.points + lines.steps if not line.ticked]
+
+
 def checklist_record(order: WorkOrder, points: list[IsolationPoint]) -> tuple[str, ...]:
     """The checklist as the finished record prints it: every line whose newest entry is a tick, by whom and
     when (site time), steps first; a tick on a step changed since, as the step read then; and, last, the
-    lines nobody ticked."""
+    lines nobody ticked: as they were kept when the work was finished, with who confirmed them, or (orders
+    finished before that list was kept) as they stand now."""
     zone = order.site.zone
     latest = latest_ticks(order)
     lines = _checklist(order, points, latest)
@@ -142,6 +158,12 @@ def checklist_record(order: WorkOrder, points: list[IsolationPoint]) -> tuple[st
         when = tick.recorded_at.astimezone(zone).strftime("%Y-%m-%d %H:%M")
         changed = " (as it read then; changed since)" if current.get(tick.line) != tick.text else ""
         record.append(f"{what}{changed}: {tick.text} \N{EM DASH} ticked by {_name(tick.recorded_by)}, {when}")
+    if order.unticked_at_finish:
+        record.append(
+            f"Not ticked when the work was finished; {_name(order.finished_by)} confirmed that each of these was "
+            "done or did not apply:"
+        )
+        return (*record, *order.unticked_at_finish)
     open_lines = [f"step {line.key + 1}" for line in lines.steps if not line.ticked]
     open_lines += [f"isolation point {line.text}" for line in lines.points if not line.ticked]
     if open_lines:
@@ -171,16 +193,21 @@ def lift_rows(figures: lifting.LiftFigures) -> list[tuple[str, str]]:
 
 def sheet(order: WorkOrder, url: str) -> sheet_.Sheet:
     """Everything the printed work order shows, in plain values for ``pdf.render_sheet``."""
-    items = list(order.items.select_related("subsystem", "plan"))
+    items = list(order.items.select_related("subsystem__telescope", "plan"))
     figures = lift(order)
     zone = order.site.zone
     points = isolation_points(order)
+    readings = list(order.required_readings.select_related("subsystem", "reading"))
+    telescopes = sorted({i.subsystem.telescope.name for i in items})
+    subsystems = {i.subsystem_id: i.subsystem for i in items}.values()  # once each, in the order of the items
     return sheet_.Sheet(
         number=order.number,
         title=order.title,
         site=order.site.name,
-        telescope=order.telescope.name if order.telescope else "several",
-        subsystems=tuple(i.subsystem.name for i in items),
+        telescope=order.telescope.name if order.telescope else ", ".join(telescopes) or "several",
+        subsystems=tuple(
+            f"{s.telescope.name}: {s.name}" if len(telescopes) > 1 else s.name for s in subsystems
+        ),
         order_type=order.get_order_type_display(),
         priority=order.get_priority_display(),
         state=order.get_state_display(),
@@ -204,9 +231,9 @@ def sheet(order: WorkOrder, url: str) -> sheet_.Sheet:
         readings=tuple(
             sheet_.SheetReading(
                 f"{r.quantity_label} ({r.subsystem.name})", r.unit, r.limit_text,
-                recorded=f"{r.reading.value:g}" if r.reading else "",
+                recorded=f"{r.reading.value:g}" if r.reading else "", beyond_limit=r.recorded_beyond_limit,
             )
-            for r in order.required_readings.select_related("subsystem", "reading")
+            for r in readings
         ),
         lifting=sheet_.SheetLifting(tuple(lift_rows(figures)), figures.warnings, figures.checks) if figures else None,
         url=url,
@@ -225,6 +252,35 @@ def sheet(order: WorkOrder, url: str) -> sheet_.Sheet:
 
 def _name(user) -> str:
     return (user.get_full_name() or user.username) if user else ""
+
+
+def history(order: WorkOrder, limit: int | None = None) -> list[Change]:
+    """The order's recent changes as ``archive.history.changes`` lists them, with the changed times in the
+    site's time to the minute and the people by their full names, as the rest of the work order page shows
+    them (``changes`` gives a time as its raw UTC text and a person by the user name)."""
+    entries = changes(order, limit=limit)
+    zone = order.site.zone
+    times = {f.name for f in WorkOrder._meta.get_fields() if isinstance(f, models.DateTimeField)}
+    people = {
+        f.name for f in WorkOrder._meta.get_fields()
+        if isinstance(f, models.ForeignKey) and f.related_model is get_user_model()
+    }
+    usernames = {value for entry in entries for name, *values in entry.fields if name in people for value in values}
+    names = {user.username: _name(user) for user in get_user_model().objects.filter(username__in=usernames)}
+
+    def shown(name: str, value: str) -> str:
+        if name in times and value:
+            try:
+                return dateformat.format(dt.datetime.fromisoformat(value).astimezone(zone), "d M Y H:i")
+            except ValueError:
+                return value
+        return names.get(value, value) if name in people else value
+
+    return [
+        dataclasses.replace(entry, fields=[(name, shown(name, before), shown(name, after))
+                                           for name, before, after in entry.fields])
+        for entry in entries
+    ]
 
 
 def issued_between(site: Site, start, end) -> QuerySet[WorkOrder]:

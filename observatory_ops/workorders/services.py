@@ -7,10 +7,13 @@ then recomputes the site's due states. It is claimed with a conditional UPDATE (
 from __future__ import annotations
 
 import datetime as dt
-from collections.abc import Sequence
+import re
+from collections import Counter
+from collections.abc import Collection, Sequence
+from itertools import takewhile
 
 from django.db import transaction
-from django.utils import timezone
+from django.utils import dateformat, timezone
 
 from observatory_ops.access.roles import TECHNICIAN, has_role
 from observatory_ops.calc import lifting
@@ -19,12 +22,13 @@ from observatory_ops.logbook.quantities import QUANTITIES, value_problem
 from observatory_ops.planning.metrics import READING
 from observatory_ops.planning.models import ServicePlan
 from observatory_ops.planning.services import site_recompute, site_today
+from observatory_ops.registry.catalogue import BEFORE_ISOLATION, RESTORE
 from observatory_ops.registry.models import Site, Subsystem
 
 from .cautions import HAZARDS
 from .lifecycle import TRANSITIONS
 from .models import ChecklistTick, Part, PartUse, RequiredReading, State, WorkOrder, WorkOrderItem
-from .selectors import isolation_points, latest_ticks
+from .selectors import isolation_points, latest_ticks, unticked_lines
 
 #: Hazards whose energy must be isolated and locked out before work starts.
 ISOLATION_HAZARDS = ("electrical", "pneumatic", "moving_machinery")
@@ -43,18 +47,76 @@ def _hazards_of(subsystems: Sequence[Subsystem], plans: Sequence[ServicePlan]) -
     return [h for h in HAZARDS if h in found]
 
 
+def needs_isolation(hazards: Sequence[str]) -> bool:
+    """True when any of the hazards needs energy isolated and locked out before the work."""
+    return any(h in ISOLATION_HAZARDS for h in hazards)
+
+
+def lockout_missing(hazards: Sequence[str], steps: Sequence[str]) -> bool:
+    """True when the hazards call for isolation but no step is the lockout step."""
+    return needs_isolation(hazards) and LOCKOUT_STEP not in (s.strip() for s in steps)
+
+
+_PLAN_PREFIX = re.compile(r"^\[[^\]]*\]\s*")
+
+
+def _unprefixed(step: str) -> str:
+    return _PLAN_PREFIX.sub("", step.strip())
+
+
+def _powered_lead(steps: Sequence[str]) -> int:
+    """How many of the first steps are ones the catalogue does under power before isolation (recognised by
+    their words, with or without an order's "[plan] " prefix)."""
+    return sum(1 for _ in takewhile(lambda step: _unprefixed(step) in BEFORE_ISOLATION, steps))
+
+
 def steps_with_lockout(hazards: Sequence[str], steps: Sequence[str]) -> str:
-    """The steps, preceded by the lockout step when any hazard needs energy isolated first."""
-    lines = [LOCKOUT_STEP] if any(h in ISOLATION_HAZARDS for h in hazards) else []
-    return "\n".join(lines + [s.strip() for s in steps if s.strip()])
+    """The steps, one a line, with the lockout step added when a hazard needs energy isolated and no step is it.
+
+    The lockout step goes after the leading steps that the catalogue does under power before isolation
+    (closing the dome, parking, opening covers, live tests: ``catalogue.BEFORE_ISOLATION``) and before
+    everything else. Steps that already hold the lockout step are kept as they are.
+    """
+    lines = [s.strip() for s in steps if s.strip()]
+    if lockout_missing(hazards, lines):
+        lines.insert(_powered_lead(lines), LOCKOUT_STEP)
+    return "\n".join(lines)
 
 
-def _steps_for(plans: Sequence[ServicePlan], hazards: Sequence[str]) -> str:
-    steps = []
+def _plan_labels(plans: Sequence[ServicePlan]) -> dict[int, str]:
+    """How each plan is named in an order's title and step prefixes: by its name, with its telescope when the
+    order spans several telescopes, and with its subsystem when that still leaves two alike."""
+    several = len({p.subsystem.telescope_id for p in plans}) > 1
+    labels = {p.pk: f"{p.subsystem.telescope.name}: {p.name}" if several else p.name for p in plans}
+    repeated = {label for label, count in Counter(labels.values()).items() if count > 1}
+    for p in plans:
+        if labels[p.pk] in repeated:
+            where = f"{p.subsystem.telescope.name}: " if several else ""
+            labels[p.pk] = f"{where}{p.subsystem.name}: {p.name}"
+    return labels
+
+
+def _steps_for(plans: Sequence[ServicePlan], labels: dict[int, str], hazards: Sequence[str]) -> str:
+    """The plans' steps, each prefixed with its plan's label when there are several plans.
+
+    With energy to isolate, the steps of all the plans go in three runs, each in plan order: those done under
+    power before isolation, then (after the one lockout step) the work with the energy locked out, then the
+    restoring, from the first step that removes the locks (``catalogue.RESTORE``). So no plan's locks come
+    off while another plan's locked-out work is still to do.
+    """
+    powered, work, restoring = [], [], []
     for plan in plans:
-        prefix = f"[{plan.name}] " if len(plans) > 1 else ""
-        steps += [prefix + step for step in (plan.step_list or [plan.task or plan.name])]
-    return steps_with_lockout(hazards, steps)
+        prefix = f"[{labels[plan.pk]}] " if len(plans) > 1 else ""
+        steps = [prefix + step for step in (plan.step_list or [plan.task or plan.name])]
+        if not needs_isolation(hazards):
+            work += steps
+            continue
+        first = _powered_lead(steps)
+        release = next((i for i in range(first, len(steps)) if _unprefixed(steps[i]) in RESTORE), len(steps))
+        powered += steps[:first]
+        work += steps[first:release]
+        restoring += steps[release:]
+    return steps_with_lockout(hazards, powered + work + restoring)
 
 
 def work_order_from_due(plans: Sequence[ServicePlan], by, planned_date: dt.date | None = None) -> WorkOrder:
@@ -72,15 +134,16 @@ def work_order_from_due(plans: Sequence[ServicePlan], by, planned_date: dt.date 
     site = plans[0].subsystem.telescope.site
     tools = list(dict.fromkeys(tool for p in plans for tool in p.tools.splitlines() if tool.strip()))
     mirror = next((getattr(s, "mirror", None) for s in subsystems if hasattr(s, "mirror")), None)
+    labels = _plan_labels(plans)
     with transaction.atomic():
         order = WorkOrder.objects.create(
             site=site,
             telescope=subsystems[0].telescope if len(telescopes) == 1 else None,
-            title="; ".join(p.name for p in plans)[:200],
+            title="; ".join(labels[p.pk] for p in plans)[:200],
             order_type=WorkOrder.Type.CONDITION_BASED if reading_plan else WorkOrder.Type.PREVENTIVE,
             planned_date=planned_date,
             estimated_hours=sum(p.estimated_hours for p in plans),
-            steps=_steps_for(plans, hazards),
+            steps=_steps_for(plans, labels, hazards),
             tools="\n".join(tools),
             hazards=hazards,
             # A lift of a registered mirror gets its figures from the mirror's geometry straight away.
@@ -155,6 +218,12 @@ def work_order_move(order: WorkOrder, action: str, by, reason: str = "") -> Work
     _check_move(order, action, by)
     now = timezone.now()
     fields = {"state": TRANSITIONS[action].target}
+    if action in ("issue", "start") and lockout_missing(order.hazards, order.step_list):
+        named = ", ".join(HAZARDS[h].lower() for h in order.hazards if h in ISOLATION_HAZARDS)
+        raise Refused(
+            f"{order.number}'s hazards ({named}) call for energy isolation, but none of its steps is the lockout "
+            "step: edit the steps and save them, which puts it back"
+        )
     if action == "issue":
         if not order.step_list:
             raise Refused("a work order needs at least one step before it is issued")
@@ -186,6 +255,29 @@ def _record_history(order: WorkOrder, by, reason: str) -> None:
     order.save()
 
 
+class AlreadyFinished(Refused):
+    """A finish that comes after the work order was finished: a second press of the button (``by_you``), or
+    a second person."""
+
+    def __init__(self, order: WorkOrder, by):
+        when = dateformat.format(order.finished_at.astimezone(order.site.zone), "d M Y H:i")
+        self.by_you = order.finished_by_id == by.pk
+        if self.by_you:
+            message = f"{order.number} is already finished (by you, at {when})"
+        else:
+            name = order.finished_by.get_full_name() or order.finished_by.username
+            message = f"this work order has already been finished by someone else ({name}, at {when})"
+        super().__init__(message)
+
+
+def _claim_refusal(order: WorkOrder, by) -> Refused:
+    """Why an order could not be claimed for finishing: someone finished it first, or it was moved meanwhile."""
+    current = WorkOrder.objects.select_related("site", "finished_by").get(pk=order.pk)
+    if current.state in (State.FINISHED, State.COUNTERSIGNED) and current.finished_at is not None:
+        return AlreadyFinished(current, by)
+    return Refused(f"someone else changed this work order meanwhile: it is now {current.get_state_display()}")
+
+
 def work_order_finish(
     order: WorkOrder,
     by,
@@ -193,13 +285,21 @@ def work_order_finish(
     findings: str,
     readings: dict[int, float],
     parts_used: dict[int, float] | None = None,
+    confirmed_unticked: Collection[str] = (),
 ) -> WorkOrder:
     """Record the work: service records for every item, readings, parts used; reset plans; recompute.
 
-    ``readings`` maps RequiredReading id -> value (all are required); ``parts_used`` maps PartUse id ->
-    quantity used (default: as planned). Refused with a reason, changing nothing, when a reading is
-    missing, a quantity is negative, stock would go below zero, or the order is no longer underway.
+    ``readings`` maps RequiredReading id -> value (all are required; a value beyond its limit is recorded as
+    measured, and the record flags it); ``parts_used`` maps PartUse id -> quantity used (default: as
+    planned). ``confirmed_unticked`` holds the words of the checklist lines (isolation points and steps)
+    that the person confirmed were done or did not apply although nobody ticked them; every line not
+    ticked when the work is finished must be among them, and the order keeps the list
+    (``unticked_at_finish``). Refused with a reason, changing nothing, when a reading is missing, a
+    quantity is negative, stock would go below zero, an unticked line was not confirmed, or the order is
+    no longer underway (``AlreadyFinished`` when it was finished meanwhile).
     """
+    if order.state in (State.FINISHED, State.COUNTERSIGNED):
+        raise _claim_refusal(order, by)
     _check_move(order, "finish", by)
     if actual_hours is None or actual_hours < 0:
         raise Refused("actual hours must be 0 or more")
@@ -224,7 +324,20 @@ def work_order_finish(
             state=State.FINISHED, finished_at=now, finished_by=by, actual_hours=actual_hours, findings=findings
         )
         if not claimed:
-            raise Refused("this work order has already been finished by someone else")
+            raise _claim_refusal(order, by)
+        # Read once the order is claimed: no tick can be recorded or taken back after this point.
+        unticked = unticked_lines(WorkOrder.objects.select_related("site").get(pk=order.pk))
+        unconfirmed = [line for line in unticked if line.text not in set(confirmed_unticked)]
+        if unconfirmed:
+            raise Refused(
+                "these checklist lines are not ticked: "
+                + "; ".join(f"{line.label.lower()} ({line.text})" for line in unconfirmed)
+                + ". Tick them on the work order page, or confirm that they were done or did not apply"
+            )
+        if unticked:
+            WorkOrder.objects.filter(pk=order.pk).update(
+                unticked_at_finish=[f"{line.label}: {line.text}" for line in unticked]
+            )
         _record_history(order, by, "finish")
         share = actual_hours / max(len(items), 1)
         for item in items:

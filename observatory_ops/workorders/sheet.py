@@ -43,6 +43,7 @@ class SheetReading:
     unit: str
     limit_text: str
     recorded: str = ""  # the value recorded on completion, if any
+    beyond_limit: bool = False  # the recorded value is past its limit (recorded as measured, flagged)
 
 
 @dataclass(frozen=True)
@@ -67,7 +68,8 @@ class Sheet:
     ``isolation_points`` are the energy isolation points of the telescope for the lockout step.
     ``findings`` is printed when present; otherwise blank ruled lines are left for writing.
     ``confirmations`` (finished work only) are the checklist lines ticked on the work order page, each
-    with who ticked it and when, and a last line naming those nobody ticked.
+    with who ticked it and when, then those nobody ticked, with who confirmed they were done or did not apply.
+    A reading whose ``beyond_limit`` is set is flagged in the table and listed under it.
     ``url`` is the work order's address, printed as a QR code.
     """
 

@@ -9,7 +9,6 @@ from django_tables2 import RequestConfig
 
 from observatory_ops.access.decorators import requires
 from observatory_ops.access.roles import ENGINEER, TECHNICIAN, VIEWER, has_role
-from observatory_ops.archive.history import changes
 from observatory_ops.planning.models import ServicePlan
 from observatory_ops.planning.services import site_today
 from observatory_ops.registry.models import Site
@@ -76,6 +75,7 @@ def work_order_detail(request, pk):
         figures = selectors.lift(order)
     except ValueError as exc:
         lift_error = str(exc)
+    readings = list(order.required_readings.select_related("subsystem", "reading"))
     return render(
         request,
         "workorders/detail.html",
@@ -88,7 +88,8 @@ def work_order_detail(request, pk):
             "checklist": selectors.checklist(order),
             "can_tick": order.state == State.UNDERWAY and has_role(request.user, TECHNICIAN),
             "isolation_gaps": selectors.isolation_gaps(order),
-            "readings": order.required_readings.select_related("subsystem", "reading"),
+            "readings": readings,
+            "beyond_limit": [r for r in readings if r.recorded_beyond_limit],
             "part_uses": order.part_uses.select_related("part"),
             "records": order.service_records.select_related("subsystem"),
             "lift": figures,
@@ -99,7 +100,7 @@ def work_order_detail(request, pk):
             "editable": order.state in (State.DRAFT, State.ISSUED) and has_role(request.user, ENGINEER),
             "part_form": PartAddForm(site=order.site),
             "withdraw_form": WithdrawForm(),
-            "history": changes(order, limit=8),
+            "history": selectors.history(order, limit=8),
             "history_label": "workorders.workorder",
             "history_pk": order.pk,
         },
@@ -116,8 +117,17 @@ def work_order_edit(request, pk):
     if request.method == "POST" and form.is_valid():
         form.save()
         messages.success(request, "Saved.")
+        if form.lockout_restored:
+            messages.warning(
+                request, "The lockout step was put back: this work order's hazards call for energy isolation, so "
+                "it cannot go without it. Reword the steps around it if needed, but keep it.",
+            )
         return redirect(order)
-    return render(request, "workorders/edit.html", {"form": form, "order": order})
+    return render(
+        request, "workorders/edit.html",
+        {"form": form, "order": order, "needs_lockout": services.needs_isolation(order.hazards),
+         "lockout_step": services.LOCKOUT_STEP},
+    )
 
 
 @requires(TECHNICIAN)
@@ -170,20 +180,58 @@ def work_order_tick(request, pk):
 
 @requires(TECHNICIAN)
 def work_order_finish(request, pk):
+    """The finish form. It lists the checklist lines nobody ticked (finishing with any needs the confirmation
+    box), and a reading beyond its limit is shown beside its field once before it is recorded as measured."""
     order = _order(pk)
-    form = FinishForm(request.POST or None, order=order, initial={"actual_hours": order.estimated_hours})
-    if request.method == "POST" and form.is_valid():
-        try:
-            services.work_order_finish(
-                order, request.user, form.cleaned_data["actual_hours"], form.cleaned_data["findings"],
-                form.readings(), form.parts(),
-            )
-        except services.Refused as exc:
-            form.add_error(None, str(exc))
+    if order.state != State.UNDERWAY:  # a second press of the button, or an old page
+        if order.finished_at is not None:
+            done = services.AlreadyFinished(order, request.user)
+            level = messages.INFO if done.by_you or request.method != "POST" else messages.ERROR
+            messages.add_message(request, level, f"{done}.")
         else:
-            messages.success(request, f"{order.number} finished: service records written, plans restarted.")
-            return redirect(order)
-    return render(request, "workorders/finish.html", {"form": form, "order": order})
+            messages.info(request, f"{order.number} is {order.get_state_display()}: there is nothing to finish.")
+        return redirect(order)
+    unticked = selectors.unticked_lines(order)
+    form = FinishForm(request.POST or None, order=order, unticked=unticked,
+                      initial={"actual_hours": order.estimated_hours})
+    flags: dict[str, str] = {}
+    flagged: list[str] = []
+    if request.method == "POST" and form.is_valid():
+        flags = form.beyond_limits()
+        flagged = sorted(f"{name}={form.cleaned_data[name]!r}" for name in flags)
+        confirmed = form.cleaned_data.get("confirm_unticked", False)
+        if unticked and not confirmed:
+            form.add_error(
+                "confirm_unticked", "Tick the lines on the work order page, or confirm here that they were done "
+                "or did not apply."
+            )
+        # Readings beyond their limit are first shown beside their fields; the same values posted again from
+        # that page are recorded as measured.
+        elif not flagged or flagged == sorted(request.POST.getlist("flagged")):
+            try:
+                services.work_order_finish(
+                    order, request.user, form.cleaned_data["actual_hours"], form.cleaned_data["findings"],
+                    form.readings(), form.parts(),
+                    confirmed_unticked=request.POST.getlist("unticked") if confirmed else (),
+                )
+            except services.Refused as exc:
+                if isinstance(exc, services.AlreadyFinished) and exc.by_you:  # pressed twice at once
+                    messages.info(request, f"{exc}.")
+                    return redirect(order)
+                form.add_error(None, str(exc))
+            else:
+                done = f"{order.number} finished: service records written, plans restarted."
+                if unticked:
+                    done += f" {len(unticked)} unticked line(s) confirmed as done or not applicable are on the record."
+                if flags:
+                    done += f" {len(flags)} reading(s) beyond their limit are flagged on the record."
+                messages.success(request, done)
+                return redirect(order)
+    fields = [(form[name], flags.get(name, "")) for name in form.fields if name != "confirm_unticked"]
+    return render(
+        request, "workorders/finish.html",
+        {"form": form, "order": order, "fields": fields, "unticked": unticked, "flagged": flagged},
+    )
 
 
 @requires(ENGINEER)

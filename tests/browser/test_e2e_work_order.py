@@ -156,12 +156,22 @@ def test_two_overdue_items_go_from_the_due_list_through_a_work_order_to_counters
     for r in required:
         values[r.pk] = _value_within(r.limit_text)
         page.get_by_label(f"{r.quantity_label} on {r.subsystem.name} ({r.unit})").fill(str(values[r.pk]))
+    # Nothing was ticked on the work order page: the form lists every line, and finishing needs the confirmation.
+    from observatory_ops.workorders.selectors import unticked_lines
+
+    open_lines = unticked_lines(order)
+    expect(page.locator("ul.unticked li")).to_have_count(len(open_lines))
+    page.get_by_role("button", name="Finish and record").click()
+    expect(page.locator(".errorlist")).to_contain_text("confirm here that they were done or did not apply")
+    assert WorkOrder.objects.get(pk=order.pk).state == State.UNDERWAY
+    page.get_by_label("I confirm the unticked lines were done or did not apply").check()
     _shot(page, "3_finish_form")
     page.get_by_role("button", name="Finish and record").click()
 
     expect(page).to_have_url(order_url)
     expect(page.locator(".messages")).to_contain_text(f"{order.number} finished: service records written")
     _expect_state(page, State.FINISHED.label)
+    expect(page.get_by_text(f"Finished with {len(open_lines)} checklist line(s) not ticked")).to_be_visible()
     findings = page.locator("div.panel", has_text=HOSTILE_FINDINGS)
     expect(findings).to_have_count(1)
     expect(findings.locator("b, i")).to_have_count(0)

@@ -21,7 +21,14 @@ class Command(BaseCommand):
         order = WorkOrder.objects.select_related("site", "telescope", "assignee").filter(pk=o["id"]).first()
         if order is None:
             raise CommandError(f"no work order with id {o['id']}")
+        output = Path(o["output"])
+        folder = output.parent
+        if not folder.is_dir():
+            raise CommandError(f"the folder {str(folder)!r} does not exist: create it, or give another output file")
         url = o["base_url"].rstrip("/") + order.get_absolute_url()
         data = pdf.render_sheet(selectors.sheet(order, url), o["paper"])
-        Path(o["output"]).write_bytes(data)
+        try:
+            output.write_bytes(data)
+        except OSError as exc:
+            raise CommandError(f"cannot write {str(output)!r}: {exc.strerror or exc}") from None
         self.stdout.write(f"{order.number}: {len(data):,} bytes written to {o['output']}")

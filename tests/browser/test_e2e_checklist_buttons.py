@@ -1,0 +1,73 @@
+"""In a real browser: the checklist's Record buttons are for pages without JavaScript.
+
+With the script running, a changed box is recorded at once and the script hides the buttons (the hidden
+attribute, which site.css must not override with its display rule for buttons); with JavaScript off,
+every line keeps its Record button and pressing it records the tick.
+"""
+from __future__ import annotations
+
+import datetime as dt
+
+import pytest
+from playwright.sync_api import expect
+
+
+@pytest.fixture
+def underway(transactional_db, users, telescope):
+    from observatory_ops.registry.services import subsystem_create
+    from observatory_ops.workorders import services
+    from observatory_ops.workorders.models import IsolationPoint
+
+    IsolationPoint.objects.create(telescope=telescope, energy="ac", label="Mount isolator")
+    fans = subsystem_create(telescope, "cooling_fans", "Fans", counting_from=dt.date(2026, 1, 1))
+    order = services.work_order_from_due([fans.plans.get(name="Replace fan filters")], users["engineer"])
+    services.work_order_move(order, "issue", users["engineer"])
+    services.work_order_move(order, "start", users["technician"])
+    order.refresh_from_db()
+    return order
+
+
+def _open_as_technician(page, live_server, login, order) -> None:
+    login(page, live_server, "technician", "pw-technician-123456")
+    page.goto(live_server.url + order.get_absolute_url())
+
+
+@pytest.mark.browser
+def test_with_javascript_the_record_buttons_are_hidden_and_a_box_records_at_once(
+    browser_page, live_server, login, underway
+):
+    from observatory_ops.workorders.models import ChecklistTick
+
+    page = browser_page
+    _open_as_technician(page, live_server, login, underway)
+    buttons = page.locator("form.tick button")
+    expect(buttons).to_have_count(len(underway.step_list) + 1)
+    for index in range(buttons.count()):
+        expect(buttons.nth(index)).to_be_hidden()
+    page.locator("#step-1 input[type=checkbox]").check()
+    expect(page.locator("#step-1 .tick-note")).to_contain_text("ticked by technician")
+    assert ChecklistTick.objects.filter(work_order=underway, step_index=0, ticked=True).exists()
+
+
+@pytest.mark.browser
+def test_without_javascript_every_line_has_a_visible_record_button_that_records(
+    browser_page, live_server, login, underway
+):
+    from observatory_ops.workorders.models import ChecklistTick
+
+    page = browser_page
+    # A second context of the same browser, with scripts off.
+    context = page.context.browser.new_context(java_script_enabled=False)
+    try:
+        plain = context.new_page()
+        _open_as_technician(plain, live_server, login, underway)
+        buttons = plain.locator("form.tick button")
+        expect(buttons).to_have_count(len(underway.step_list) + 1)
+        for index in range(buttons.count()):
+            expect(buttons.nth(index)).to_be_visible()
+        plain.locator("#step-2 input[type=checkbox]").check()
+        plain.locator("#step-2 button").click()
+        expect(plain.locator("#step-2 .tick-note")).to_contain_text("ticked by technician")
+        assert ChecklistTick.objects.filter(work_order=underway, step_index=1, ticked=True).exists()
+    finally:
+        context.close()

@@ -1,0 +1,174 @@
+"""Where the lockout step stands in a work order's steps, and that it stays there.
+
+The lockout step (``services.LOCKOUT_STEP``) comes after the steps done under power before isolation
+(closing the dome, parking, opening covers, tests that need the drives live) and before anything that
+touches drives, brakes, electrics or moving parts; the locks come off in the restoring steps, as the
+site's lockout procedure says, after all the locked-out work of the order. An order whose hazards call
+for isolation cannot lose it: saving the steps without it puts it back, and such an order cannot be
+issued or started.
+
+Energy isolation before servicing, and re-energising only under the written procedure, is OSHA 29 CFR
+1910.147 (c)(4) and (e); which steps of a telescope need power is common practice, no published source.
+"""
+from __future__ import annotations
+
+import datetime as dt
+import re
+
+import pytest
+from test_workorders import drive, order  # noqa: F401  (fixtures, used by name)
+
+from observatory_ops.registry.catalogue import BEFORE_ISOLATION, KINDS, RESTORE
+from observatory_ops.registry.services import subsystem_create
+from observatory_ops.workorders import services
+from observatory_ops.workorders.models import State, WorkOrder
+
+LOCKOUT = services.LOCKOUT_STEP
+PLANS = [(kind, plan) for kind in KINDS.values() for plan in kind.plans]
+
+
+def _id(value) -> str:
+    return value.name if hasattr(value, "name") else value.code
+
+
+# --- the catalogue ---------------------------------------------------------------------------------------
+
+
+@pytest.mark.parametrize("kind, plan", PLANS, ids=_id)
+def test_every_catalogue_plan_isolates_after_its_powered_steps_and_before_the_rest(kind, plan):
+    hazards = [*kind.hazards, *plan.hazards]
+    assert services.needs_isolation(hazards), "every catalogue plan so far has energy to isolate"
+    steps = services.steps_with_lockout(hazards, plan.steps).splitlines()
+    assert steps == [*plan.before_isolation, LOCKOUT, *plan.after_isolation, *plan.restore]
+
+
+def test_no_step_is_in_two_of_the_groups():
+    after = {step for _, plan in PLANS for step in plan.after_isolation}
+    assert not after & BEFORE_ISOLATION and not after & RESTORE and not BEFORE_ISOLATION & RESTORE
+
+
+@pytest.mark.parametrize("kind, plan", PLANS, ids=_id)
+def test_nothing_done_under_power_touches_what_isolation_protects(kind, plan):
+    hands_on = re.compile(r"\b(inspect|clean|lubricate|replace|retighten|refit|remove|strip|feeler|terminations)\b",
+                          re.IGNORECASE)
+    for step in plan.before_isolation:
+        assert not hands_on.search(step), step
+
+
+@pytest.mark.parametrize("kind, plan", PLANS, ids=_id)
+def test_the_locks_come_off_only_under_the_site_procedure(kind, plan):
+    moves = re.compile(r"\b(move|slew|turn|rotate|drive|run)\b", re.IGNORECASE)
+    for step in plan.after_isolation:  # moving anything while locked out: only under the procedure
+        assert "remove the locks" not in step, step
+        if moves.search(step):
+            assert "remove the lock only as the site's lockout procedure says" in step, step
+    release, *in_service = plan.restore
+    assert "remove the locks and tags as the site's lockout procedure says" in release
+    for step in in_service:
+        assert "back in service" in step, step
+
+
+def test_the_primary_mirror_clean_parks_and_opens_the_cover_before_isolation(telescope, users):
+    # The reviewer's case: followed in made, the technician must not have to break the lockout to park.
+    mirror = subsystem_create(telescope, "primary_mirror", "Primary", counting_from=dt.date(2026, 1, 1))
+    made = services.work_order_from_due([mirror.plans.get(name="Inspect and CO2-snow clean primary")],
+                                         users["engineer"])
+    assert made.step_list[:3] == [
+        "Close the dome and park the telescope pointing at the horizon stop.",
+        "Open the mirror cover; let the mirror reach ambient temperature to avoid condensation.",
+        LOCKOUT,
+    ]
+    assert made.step_list[3] == "Measure reflectance at the marked positions before cleaning."
+
+
+def test_several_plans_isolate_once_and_restore_after_all_their_locked_out_work(telescope, users):
+    fans = subsystem_create(telescope, "cooling_fans", "Fans", counting_from=dt.date(2026, 1, 1))
+    brake = subsystem_create(telescope, "brake", "Axis 2 brake", counting_from=dt.date(2026, 1, 1))
+    made = services.work_order_from_due([*fans.plans.all(), *brake.plans.all()], users["engineer"])
+    steps = made.step_list
+    assert steps.count(LOCKOUT) == 1
+    lockout = steps.index(LOCKOUT)
+    unprefixed = [re.sub(r"^\[[^\]]*\] ", "", step) for step in steps]
+    assert all(step in BEFORE_ISOLATION for step in unprefixed[:lockout])
+    # No plan's locks come off while another plan's locked-out work is still to do.
+    release = next(i for i, step in enumerate(unprefixed) if step in RESTORE)
+    assert not any(step in BEFORE_ISOLATION or step in RESTORE for step in unprefixed[lockout + 1 : release])
+    assert all(step in RESTORE for step in unprefixed[release:])
+    assert len(steps) == 1 + sum(len(p.step_list) for p in [*fans.plans.all(), *brake.plans.all()])
+
+
+def test_ad_hoc_steps_keep_a_known_powered_step_before_the_lockout(telescope, users, site):
+    mount_drive = subsystem_create(telescope, "axis1_drive", "Drive", counting_from=dt.date(2026, 1, 1))
+    made = services.work_order_ad_hoc(
+        site, [mount_drive], "Replace encoder cable", users["technician"],
+        steps="Park the telescope at its service position.\nReplace the encoder cable.",
+    )
+    assert made.step_list == ["Park the telescope at its service position.", LOCKOUT, "Replace the encoder cable."]
+
+
+def test_work_without_energy_to_isolate_gets_no_lockout_step(telescope, users, site):
+    other = subsystem_create(telescope, "other", "Eyepiece box", counting_from=dt.date(2026, 1, 1))
+    made = services.work_order_ad_hoc(site, [other], "Sort eyepieces", users["technician"], steps="Sort them.")
+    assert made.step_list == ["Sort them."]
+    assert services.steps_with_lockout([], ["Sort them."]) == "Sort them."
+
+
+def test_steps_that_hold_the_lockout_step_are_kept_as_they_are():
+    steps = ["Park the telescope at its service position.", LOCKOUT, "Replace the fuse."]
+    assert services.steps_with_lockout(["electrical"], steps).splitlines() == steps
+
+
+# --- the edit form ---------------------------------------------------------------------------------------
+
+
+def _edit(client, work_order, steps: list[str]):
+    return client.post(f"/workorders/{work_order.pk}/edit/", {
+        "title": work_order.title, "order_type": work_order.order_type, "priority": work_order.priority,
+        "planned_date": "", "assignee": "", "estimated_hours": "2", "steps": "\n".join(steps),
+        "tools": work_order.tools,
+    }, follow=True)
+
+
+def test_saving_steps_without_the_lockout_step_puts_it_back_and_says_so(order, users, client):  # noqa: F811
+    client.force_login(users["engineer"])
+    edit_page = client.get(f"/workorders/{order.pk}/edit/").content.decode()
+    assert "keep the lockout step" in edit_page
+    powered = KINDS["axis1_drive"].plans[0].before_isolation
+    without = [step for step in order.step_list if step != LOCKOUT]
+    page = _edit(client, order, without).content.decode()
+    order.refresh_from_db()
+    assert order.step_list == [*powered, LOCKOUT, *without[len(powered) :]]
+    assert "The lockout step was put back" in page
+
+    # Kept: saved as it is, and nothing is said.
+    page = _edit(client, order, order.step_list).content.decode()
+    assert "The lockout step was put back" not in page
+    assert order.step_list == WorkOrder.objects.get(pk=order.pk).step_list
+
+
+def test_an_order_that_lost_its_lockout_step_cannot_be_issued_or_started(order, users):  # noqa: F811
+    # Steps changed outside the edit form (the admin, a script): the lifecycle refuses.
+    order.steps = "\n".join(step for step in order.step_list if step != LOCKOUT)
+    order.save()
+    with pytest.raises(services.Refused, match="call for energy isolation, but none of its steps is the lockout"):
+        services.work_order_move(order, "issue", users["engineer"])
+    assert WorkOrder.objects.get(pk=order.pk).state == State.DRAFT
+
+    order.steps = services.steps_with_lockout(order.hazards, order.step_list)
+    order.save()
+    services.work_order_move(order, "issue", users["engineer"])
+    order.refresh_from_db()
+    order.steps = "\n".join(step for step in order.step_list if step != LOCKOUT)
+    order.save()
+    with pytest.raises(services.Refused, match="none of its steps is the lockout step"):
+        services.work_order_move(order, "start", users["technician"])
+    assert WorkOrder.objects.get(pk=order.pk).state == State.ISSUED
+
+
+def test_the_page_says_why_an_order_without_its_lockout_step_is_not_issued(order, users, client):  # noqa: F811
+    order.steps = "\n".join(step for step in order.step_list if step != LOCKOUT)
+    order.save()
+    client.force_login(users["engineer"])
+    page = client.post(f"/workorders/{order.pk}/move/issue/", follow=True).content.decode()
+    assert "Not done: WO-" in page and "none of its steps is the lockout step" in page
+    assert WorkOrder.objects.get(pk=order.pk).state == State.DRAFT
