@@ -302,9 +302,10 @@ def test_digest_goes_to_the_engineers_with_every_overdue_and_due_item_and_its_re
     later = [s for s in states if s.status == "later"]
     assert listed and later  # the site has items of each kind (limits and dome 100 of 90 days: overdue)
 
-    assert planning_tasks.due_digest_send.delay(site.pk).get() == 1
+    assert planning_tasks.due_digest_send.delay(site.pk).get() == 2
     (message,) = mail.outbox
-    assert message.to == ["engineer@vestal-ridge.invalid"]
+    # The engineer role and above: the administrator too (the README's install makes a superuser first).
+    assert message.to == ["administrator@vestal-ridge.invalid", "engineer@vestal-ridge.invalid"]
     overdue = sum(s.status == "overdue" for s in listed)
     assert message.subject.startswith(f"Site digest: {overdue} overdue, {len(listed) - overdue} due")
     for state in listed:
@@ -316,7 +317,7 @@ def test_digest_goes_to_the_engineers_with_every_overdue_and_due_item_and_its_re
 def test_digest_is_sent_once_a_day_however_often_the_task_runs(mailed_people):
     site = site_in_use("once")
     planning.site_recompute(site)
-    assert planning_tasks.due_digest_send.delay(site.pk).get() == 1
+    assert planning_tasks.due_digest_send.delay(site.pk).get() == 2  # the engineer and the administrator
     assert planning_tasks.due_digest_send.delay(site.pk).get() == 0
     assert len(mail.outbox) == 1
 
@@ -337,10 +338,18 @@ def test_a_digest_that_could_not_be_sent_is_sent_by_the_next_run(mailed_people, 
     with pytest.raises(smtplib.SMTPServerDisconnected):
         planning_tasks.due_digest_send.delay(site.pk)
     monkeypatch.setattr(EmailMessage, "send", send)
-    assert planning_tasks.due_digest_send.delay(site.pk).get() == 1
+    assert planning_tasks.due_digest_send.delay(site.pk).get() == 2
 
 
 def test_no_digest_when_nothing_is_due(mailed_people):
     site = site_in_use("calm", kinds=("mirror_cell",))  # 100 of 365 days: later
     planning.site_recompute(site)
     assert digest.due_digest_send(site) == 0 and not mail.outbox
+
+
+def test_a_digest_with_nobody_to_send_to_is_logged_not_silent(users, caplog):
+    site = site_in_use("nobody")
+    planning.site_recompute(site)
+    assert planning_tasks.due_digest_send.delay(site.pk).get() == 0
+    assert "no engineer or administrator has an e-mail address" in caplog.text
+    assert not mail.outbox

@@ -37,3 +37,12 @@ def has_role(user, needed: str) -> bool:
     """True when the user's role is ``needed`` or above."""
     role = role_of(user)
     return role is not None and _RANK[role] >= _RANK[needed]
+
+
+def holders_of(needed: str):
+    """The active users whose role is ``needed`` or above, as a query (superusers included)."""
+    from django.contrib.auth import get_user_model
+    from django.db.models import Q
+
+    names = ROLES[_RANK[needed]:]
+    return get_user_model().objects.filter(Q(groups__name__in=names) | Q(is_superuser=True), is_active=True).distinct()

@@ -6,28 +6,30 @@ Sent by the ``planning.due_digest_send`` task (daily, see ``CELERY_BEAT_SCHEDULE
 from __future__ import annotations
 
 import datetime as dt
+import logging
 
 from django.conf import settings
-from django.contrib.auth import get_user_model
 from django.core.cache import cache
 from django.core.mail import EmailMessage
 from django.template.loader import render_to_string
 from django.urls import reverse
 
-from observatory_ops.access.roles import ENGINEER
+from observatory_ops.access.roles import ENGINEER, holders_of
 from observatory_ops.registry.models import Site
 
 from . import selectors
 from .services import site_today
+
+log = logging.getLogger(__name__)
 
 #: How long the "digest sent" mark is kept: longer than a day, so a second run the same day sends nothing.
 SENT_MARK_SECONDS = 2 * 24 * 3600
 
 
 def recipients() -> list[str]:
-    """E-mail addresses of the active people in the engineer role (sites have no per-person assignment)."""
-    users = get_user_model().objects.filter(is_active=True, groups__name=ENGINEER).exclude(email="")
-    return sorted(set(users.values_list("email", flat=True)))
+    """E-mail addresses of the active people in the engineer role or above, administrators and superusers
+    included (sites have no per-person assignment)."""
+    return sorted(set(holders_of(ENGINEER).exclude(email="").values_list("email", flat=True)))
 
 
 def due_digest(site: Site, today: dt.date, to: list[str]) -> EmailMessage | None:
@@ -60,7 +62,10 @@ def due_digest_send(site: Site, today: dt.date | None = None) -> int:
     """
     today = today or site_today(site)
     to = recipients()
-    message = due_digest(site, today, to) if to else None
+    if not to:
+        log.warning("due digest of %s not sent: no engineer or administrator has an e-mail address", site)
+        return 0
+    message = due_digest(site, today, to)
     if message is None:
         return 0
     mark = f"obsops:due-digest:{site.pk}:{today.isoformat()}"
