@@ -10,6 +10,7 @@ import json
 
 import numpy as np
 import pytest
+from conftest import site_in_use
 from django.core.management import call_command
 
 from observatory_ops.logbook.models import NightUsage
@@ -301,3 +302,22 @@ def test_the_picture_of_a_reached_limit_marks_the_day_instead_of_a_forecast_line
     assert f"limit reached {day:%d %b %Y}" in reached and "forecast " not in reached.replace("forecast band", "")
     coming = str(accumulation_svg(points, 900.0, "h", TODAY, 700.0, TODAY + dt.timedelta(days=9), None, None))
     assert f"forecast {TODAY + dt.timedelta(days=9):%d %b %Y}" in coming
+
+
+def test_states_computed_before_the_sites_today_are_brought_up_to_date_when_read(db, users, client):
+    """Without Celery beat nothing recomputes overnight; the first look of the day does it (a calendar
+    trigger's days since the last service moved on), and a second look changes nothing."""
+    import datetime as dt
+
+    from observatory_ops.planning.services import site_today, sites_bring_up_to_date
+
+    site = site_in_use("stale")
+    services.site_recompute(site)
+    assert sites_bring_up_to_date([site]) == []  # computed today: nothing to do
+    yesterday = dt.datetime.combine(site_today(site) - dt.timedelta(days=1), dt.time(12), tzinfo=site.zone)
+    PlanStatus.objects.filter(site=site).update(computed_at=yesterday, value=-1)
+    client.force_login(users["viewer"])
+    assert client.get(f"/due/?site={site.pk}").status_code == 200
+    assert not PlanStatus.objects.filter(site=site, value=-1).exists()
+    assert PlanStatus.objects.filter(site=site).first().computed_at.date() == dt.datetime.now(dt.UTC).date()
+    assert sites_bring_up_to_date() == []

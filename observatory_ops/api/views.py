@@ -7,6 +7,7 @@ from django.http import JsonResponse
 
 from observatory_ops.logbook import services
 from observatory_ops.planning.selectors import due_record, due_rows
+from observatory_ops.planning.services import sites_bring_up_to_date
 
 from .decorators import api_token_required
 from .responses import error, errors
@@ -53,4 +54,5 @@ def nights_post(request, site):
 
 @api_token_required("GET")
 def due_list(request, site):
+    sites_bring_up_to_date([site])
     return JsonResponse([due_record(status) for status in due_rows().filter(site=site)], safe=False)

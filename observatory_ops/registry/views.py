@@ -7,7 +7,7 @@ from observatory_ops.access.roles import ENGINEER, VIEWER
 from observatory_ops.archive.history import changes
 from observatory_ops.logbook.models import NightUsage
 from observatory_ops.planning import selectors as planning_selectors
-from observatory_ops.planning.services import site_recompute, site_today
+from observatory_ops.planning.services import site_recompute, site_today, sites_bring_up_to_date
 from observatory_ops.workorders import selectors as workorder_selectors
 from observatory_ops.workorders.cautions import HAZARDS
 
@@ -31,6 +31,7 @@ ATTENTION_ROWS = 12
 @requires(VIEWER)
 def site_dashboard(request, slug):
     site = get_object_or_404(Site, slug=slug)
+    sites_bring_up_to_date([site])
     return render(
         request,
         "registry/site_dashboard.html",
@@ -53,6 +54,7 @@ def site_dashboard(request, slug):
 @requires(VIEWER)
 def subsystem_detail(request, pk):
     subsystem = get_object_or_404(Subsystem.objects.select_related("telescope__site", "parent"), pk=pk)
+    sites_bring_up_to_date([subsystem.telescope.site])
     return render(
         request,
         "registry/subsystem_detail.html",

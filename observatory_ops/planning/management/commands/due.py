@@ -3,6 +3,7 @@ import json
 from django.core.management.base import BaseCommand, CommandError
 
 from observatory_ops.planning import selectors
+from observatory_ops.planning.services import sites_bring_up_to_date
 from observatory_ops.registry.models import Site
 
 
@@ -15,11 +16,13 @@ class Command(BaseCommand):
 
     def handle(self, *args, site=None, as_json=False, **options):
         rows = selectors.due_rows()
+        target = None
         if site:
             target = Site.objects.filter(slug=site).first()
             if target is None:
                 raise CommandError(f"no site with slug {site!r}")
             rows = rows.filter(site=target)
+        sites_bring_up_to_date([target] if target else None)
         records = [selectors.due_record(s) for s in rows]
         if as_json:
             self.stdout.write(json.dumps(records, indent=1))
