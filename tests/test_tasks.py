@@ -353,3 +353,17 @@ def test_a_digest_with_nobody_to_send_to_is_logged_not_silent(users, caplog):
     assert planning_tasks.due_digest_send.delay(site.pk).get() == 0
     assert "no engineer or administrator has an e-mail address" in caplog.text
     assert not mail.outbox
+
+
+def test_the_digest_command_sends_each_site_once_a_day_for_cron(mailed_people):
+    from io import StringIO
+
+    from django.core.management import call_command
+
+    site = site_in_use("cron")
+    planning.site_recompute(site)
+    out = StringIO()
+    call_command("digest", "--site", "cron", stdout=out)
+    assert f"{site.name}: sent to 2 address(es)" in out.getvalue()
+    call_command("digest", "--site", "cron", stdout=out)
+    assert "nothing sent" in out.getvalue() and len(mail.outbox) == 1
