@@ -321,3 +321,10 @@ def test_states_computed_before_the_sites_today_are_brought_up_to_date_when_read
     assert not PlanStatus.objects.filter(site=site, value=-1).exists()
     assert PlanStatus.objects.filter(site=site).first().computed_at.date() == dt.datetime.now(dt.UTC).date()
     assert sites_bring_up_to_date() == []
+
+
+def test_the_due_lists_progress_words_a_count_as_the_reason_does():
+    counted = PlanStatus(metric="open_hours", value=934.7, limit=600.0, unit="h")
+    measured = PlanStatus(metric="reading", value=1.0954, limit=1.0, unit="s")
+    assert counted.progress == "935 / 600 h"  # the reason says "935 of 600 h"
+    assert measured.progress == "1.095 / 1 s"

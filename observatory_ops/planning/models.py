@@ -10,7 +10,7 @@ from observatory_ops.calc.triggers import STATUSES
 from observatory_ops.logbook.quantities import QUANTITY_CHOICES
 from observatory_ops.registry.models import Site, Subsystem
 
-from .metrics import METRIC_CHOICES, METRICS, READING
+from .metrics import METRIC_CHOICES, METRICS, READING, RECOAT_LINE
 
 
 class ServicePlan(models.Model):
@@ -133,7 +133,9 @@ class PlanStatus(models.Model):
     @property
     def progress(self) -> str:
         """Value now against the limit, for the due list."""
-        return f"{self.value:,.4g} / {self.limit:,.4g} {self.unit}".strip()
+        if self.metric in (READING, RECOAT_LINE):  # measured values: as measured
+            return f"{self.value:,.4g} / {self.limit:,.4g} {self.unit}".strip()
+        return f"{self.value:,.0f} / {self.limit:,.0f} {self.unit}".strip()  # counts, as the reason words them
 
     class Meta:
         indexes = [
