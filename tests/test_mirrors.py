@@ -126,6 +126,15 @@ def test_recoat_plan_makes_work_orders_with_cautions_and_lifting(mirror, users):
     figures = selectors.lift(removal)
     assert figures.mirror_kg > 0
     assert "chemical" in orders[1].hazards and "laser" in orders[3].hazards
+    # Parking is done under power before the lockout; the locks come off only at the end of the phase.
+    from observatory_ops.workorders.services import LOCKOUT_STEP
+
+    steps = removal.steps.splitlines()
+    assert steps.index(LOCKOUT_STEP) == 2 and "Park the telescope horizontal" in steps[1]
+    assert "remove the locks and tags" in steps[-1]
+    realign = orders[3].steps.splitlines()
+    assert realign.index(LOCKOUT_STEP) < realign.index(next(s for s in realign if s.startswith("Collimate")))
+    assert realign[-1].startswith("Under power")
 
 
 def test_the_same_recoat_window_planned_twice_is_refused_until_the_first_is_withdrawn(mirror, users):

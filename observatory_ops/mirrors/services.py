@@ -28,7 +28,7 @@ from observatory_ops.planning.services import (
 from observatory_ops.registry.models import Site
 from observatory_ops.workorders.cautions import HAZARDS
 from observatory_ops.workorders.models import RequiredReading, State, WorkOrder, WorkOrderItem
-from observatory_ops.workorders.services import steps_with_lockout
+from observatory_ops.workorders.services import LOCKOUT_STEP, lockout_missing
 
 from .models import CleaningEvent, CoatingEvent, Mirror, RecoatPlan, ReflectanceMeasurement
 
@@ -250,30 +250,54 @@ def recoat_windows(mirror: Mirror, start: dt.date, horizon_days: int, phases: li
 # --- recoat plans -----------------------------------------------------------------------------------
 
 #: What each kind of recoat work (``calc.windows.Phase.work``) asks of its work order: (hazards, steps).
+_RESTORE_AFTER_PHASE = (
+    "When the phase's work is done and everyone is clear, remove the locks and tags as the site's lockout "
+    "procedure says."
+)
+#: The hands-on phases of a recoat: (hazards, steps under power before isolation, steps with the energy
+#: locked out, steps after the locks are removed). The lockout step goes between the first two when the
+#: hazards call for it (``workorders.services.lockout_missing``).
 _PHASE_WORK = {
     "removal": (
         ("suspended_load", "optical_surface", "moving_machinery", "height"),
-        ("Park the telescope horizontal and lock both axes; fit the mirror-handling fixture.",
+        ("Take the observatory out of robotic and remote control and close the dome.",
+         "Park the telescope horizontal at its service position.",),
+        ("Lock both axes mechanically; fit the mirror-handling fixture.",
          "Rig the lift as the lifting figures say; a competent person checks the rigging.",
          "Lower the cell, separate the mirror, place it in its transport crate face up.",),
+        (_RESTORE_AFTER_PHASE,),
     ),
     "coating": (
         ("chemical", "optical_surface"),
+        (),
         ("Strip the old coating with the agreed chemicals (safety data sheets at hand).",
          "Coat to the recipe; record the witness-sample reflectance.",
          "Log the new coating (date and recipe) on the mirror's page, so its decline starts again.",),
+        (),
     ),
     "reinstall": (
         ("suspended_load", "optical_surface", "moving_machinery", "height"),
+        ("Check that the telescope is parked horizontal at its service position, as the removal left it.",),
         ("Lift the mirror into the cell as the lifting figures say; set the support pads and clips.",
          "Reinstall the cell and restore the axis balance.",),
+        (_RESTORE_AFTER_PHASE,),
     ),
     "realignment": (
         ("laser", "moving_machinery", "height"),
-        ("Collimate with the alignment laser (laser controlled area posted).",
+        ("Park the telescope at its service position.",),
+        ("Collimate with the alignment laser (laser controlled area posted), adjusting the cell with the "
+         "drives locked out.",
          "Measure reflectance at the marked positions and record a reading per position.",),
+        (_RESTORE_AFTER_PHASE,
+         "Under power, check the collimation on a star and record the result.",),
     ),
 }
+
+
+def _phase_steps(hazards: list[str], before: tuple, locked: tuple, after: tuple) -> str:
+    """A phase's steps in the order of the work, with the lockout step where the energy is isolated."""
+    isolate = lockout_missing(hazards, [*before, *locked])
+    return "\n".join([*before, *([LOCKOUT_STEP] if isolate else []), *locked, *(after if isolate else ())])
 
 
 def recoat_plan_create(
@@ -309,12 +333,13 @@ def recoat_plan_create(
         for phase in phases:
             kind = phase.work
             if kind in _PHASE_WORK and phase.days > 0:
-                hazards, steps = _PHASE_WORK[kind]
+                hazards, before, locked, after = _PHASE_WORK[kind]
                 hazards = [h for h in HAZARDS if h in set(hazards) | set(subsystem.hazards)]
                 order = WorkOrder.objects.create(
                     site=subsystem.telescope.site, telescope=subsystem.telescope,
                     title=f"Recoat {subsystem.name}: {phase.name}", planned_date=day,
-                    estimated_hours=8.0 * phase.days, steps=steps_with_lockout(hazards, steps), hazards=hazards,
+                    estimated_hours=8.0 * phase.days, steps=_phase_steps(hazards, before, locked, after),
+                    hazards=hazards,
                     lift_inputs=mirror.lift_inputs if "suspended_load" in hazards else None,
                     created_by=by,
                 )
