@@ -2,21 +2,29 @@
 
 The file is Django's serialised form of every row of the project's apps, the people and their roles,
 and the change histories, preceded by a small header (format, creation time, row counts) so a restore
-can check it is reading a backup and report what it holds. Restore loads everything in one
-transaction and then recomputes every site's due states (derived rows are not backed up): a failure
-part-way leaves the database as it was.
+can check it is reading a backup and report what it holds. It is created readable by its owner only
+(mode 0600): it holds password hashes, API-token hashes and the whole record.
+
+Restore reads and checks the whole file first, then loads everything in one transaction: it checks the
+references between rows, compares the rows restored per table with the header's counts, moves the
+database's id sequences past the restored ids (PostgreSQL; as ``loaddata`` does) and recomputes every
+site's due states (derived rows are not backed up). A refusal or failure at any point leaves the
+database as it was.
 """
 from __future__ import annotations
 
 import datetime as dt
 import gzip
-import io
 import json
+import os
+import zlib
 from pathlib import Path
 
 from django.apps import apps
 from django.core import serializers
-from django.db import transaction
+from django.core.management.color import no_style
+from django.db import DataError, IntegrityError, connection, transaction
+from django.db.migrations.executor import MigrationExecutor
 
 FORMAT = "observatory_ops-backup/1"
 #: Apps whose rows a backup holds, in dependency order. Django's own content types, permissions,
@@ -26,6 +34,8 @@ APPS = ("auth", "registry", "planning", "logbook", "workorders", "mirrors", "api
 #: for every site after a restore (so a restore into a newer version never carries an old layout).
 _DERIVED = {"planning.planstatus"}
 _SKIP = {"auth.permission"} | _DERIVED
+#: Tables named in full when restore refuses a database that already holds rows.
+_BUSY_NAMED = 8
 
 
 def _models():
@@ -44,7 +54,10 @@ class BackupError(ValueError):
 
 
 def backup_write(path: Path) -> dict[str, int]:
-    """Write every row to ``path`` (gzip-compressed JSON when it ends in .gz). Returns row counts."""
+    """Write every row to ``path`` (gzip-compressed JSON when it ends in .gz), readable by its owner only.
+
+    Never overwrites: a file already at ``path`` raises FileExistsError. Returns the row counts.
+    """
     objects, counts = [], {}
     for model in _models():
         rows = list(model._default_manager.order_by("pk"))
@@ -56,28 +69,60 @@ def backup_write(path: Path) -> dict[str, int]:
     header = {"format": FORMAT, "created_at": dt.datetime.now(dt.UTC).isoformat(), "counts": counts}
     text = json.dumps(header) + "\n" + body
     data = gzip.compress(text.encode()) if str(path).endswith(".gz") else text.encode()
-    Path(path).write_bytes(data)
+    # Mode 0600 from creation, before any content: the file holds password and token hashes.
+    out = os.open(path, os.O_WRONLY | os.O_CREAT | os.O_EXCL, 0o600)
+    try:
+        with os.fdopen(out, "wb") as file:
+            file.write(data)
+    except OSError:
+        Path(path).unlink(missing_ok=True)  # a part-written file is no backup
+        raise
     return counts
 
 
-def _read(path: Path) -> tuple[dict, str]:
+def _read(path: Path) -> tuple[dict, list[dict]]:
+    """The header and the rows of the backup at ``path``, checked as far as can be without the database."""
     data = Path(path).read_bytes()
     if data[:2] == b"\x1f\x8b":
         try:
             data = gzip.decompress(data)
-        except OSError as exc:
-            raise BackupError(f"{path}: damaged gzip file ({exc})") from None
+        except (OSError, EOFError, zlib.error) as exc:
+            raise BackupError(f"{path}: the compressed file is damaged or cut short ({exc})") from None
+    first, _, body = data.partition(b"\n")
     try:
-        first, _, body = data.decode("utf-8").partition("\n")
-        header = json.loads(first)
+        header = json.loads(first.decode("utf-8"))
     except (UnicodeDecodeError, json.JSONDecodeError):
         raise BackupError(f"{path} is not an observatory_ops backup (no header line)") from None
     if not isinstance(header, dict) or header.get("format") != FORMAT:
         raise BackupError(f"{path} is not an observatory_ops backup of format {FORMAT}")
-    return header, body
+    counts = header.get("counts")
+    if not isinstance(counts, dict) or not all(type(n) is int for n in counts.values()):
+        raise BackupError(f"{path}: the header of the backup has no row counts, so it was edited or damaged")
+    if not body.strip():
+        raise BackupError(f"{path} holds a backup header but no rows after it: the file was cut short")
+    try:
+        rows = json.loads(body.decode("utf-8"))
+    except UnicodeDecodeError as exc:
+        raise BackupError(f"{path}: the rows after its header are not UTF-8 text ({exc.reason} at byte "
+                          f"{exc.start}), so the file is damaged") from None
+    except json.JSONDecodeError as exc:
+        raise BackupError(f"{path}: the rows after its header are not complete JSON ({exc.msg} at line "
+                          f"{exc.lineno}, column {exc.colno}), so the file was cut short or damaged") from None
+    if not isinstance(rows, list) or not all(
+        isinstance(row, dict) and isinstance(row.get("model"), str) and isinstance(row.get("fields"), dict)
+        for row in rows
+    ):
+        raise BackupError(f"{path}: the rows after its header are not a list of stored rows, so the file was "
+                          "edited or damaged")
+    return header, rows
 
 
-def database_is_empty() -> list[str]:
+def _migrations_pending() -> int:
+    executor = MigrationExecutor(connection)
+    return len(executor.migration_plan(executor.loader.graph.leaf_nodes()))
+
+
+def tables_holding_rows() -> list[str]:
     """Names of tables that already hold rows (role groups made by the migrations do not count)."""
     busy = []
     for model in _models():
@@ -88,28 +133,82 @@ def database_is_empty() -> list[str]:
     return busy
 
 
+def _row_counts() -> dict[str, int]:
+    return {model._meta.label_lower: model._default_manager.count() for model in _models()}
+
+
+def _one_line(exc: Exception) -> str:
+    return " ".join(str(exc).split())
+
+
+def _load(path: Path, rows: list[dict]) -> None:
+    """Save every row of the backup as it is (ids included), naming the row a database rule refuses."""
+    try:
+        for item in serializers.deserialize("python", rows):
+            if item.object._meta.label_lower in _DERIVED:
+                continue
+            try:
+                item.save()
+            except (IntegrityError, DataError) as exc:
+                # The first line names the rule; PostgreSQL's detail after it repeats the whole row.
+                reason = str(exc).splitlines()[0]
+                raise BackupError(f"{path}: row {item.object._meta.label_lower} {item.object.pk} breaks a rule "
+                                  f"of the database ({reason}), so the file was edited or damaged") from None
+    except serializers.base.DeserializationError as exc:
+        raise BackupError(f"{path}: a row cannot be read ({_one_line(exc)}), so the file was edited or "
+                          "damaged") from None
+    # References between rows are checked at commit (deferred); check them now, to name the row.
+    try:
+        connection.check_constraints()
+    except IntegrityError as exc:
+        raise BackupError(f"{path}: a row points at a row that is not in the file ({_one_line(exc)}), so the "
+                          "file was edited or damaged") from None
+
+
+def _check_counts(path: Path, header_counts: dict[str, int], restored: dict[str, int]) -> None:
+    expected = {label: n for label, n in header_counts.items() if label not in _SKIP}
+    differing = [
+        f"{label}: {expected.get(label, 0):,} in the header, {restored.get(label, 0):,} restored"
+        for label in sorted(expected.keys() | restored.keys())
+        if expected.get(label, 0) != restored.get(label, 0)
+    ]
+    if differing:
+        raise BackupError(f"{path} does not hold the rows its header counts ({'; '.join(differing)}), so the "
+                          "file was cut or edited")
+
+
 def backup_restore(path: Path) -> dict[str, int]:
-    """Load a backup into an empty database, all or nothing. Returns the row counts from its header."""
-    header, body = _read(path)
-    busy = database_is_empty()
+    """Load a backup into an empty, migrated database, all or nothing. Returns the rows restored per table.
+
+    Raises BackupError, and leaves the database as it was, when the file is not a whole, unedited backup
+    or the database is not migrated or not empty.
+    """
+    header, rows = _read(path)
+    pending = _migrations_pending()
+    if pending:
+        raise BackupError(f"the database is not migrated ({pending} migrations not applied): run "
+                          "`python manage.py migrate` first, then restore into it")
+    busy = tables_holding_rows()
     if busy:
+        more = f" and {len(busy) - _BUSY_NAMED} more" if len(busy) > _BUSY_NAMED else ""
         raise BackupError(
             "restore needs an empty database, but these tables already hold rows: "
-            + ", ".join(busy[:8]) + ("..." if len(busy) > 8 else "")
+            + ", ".join(busy[:_BUSY_NAMED]) + more
             + ". Create a new database, run `python manage.py migrate`, then restore into it."
         )
     with transaction.atomic():
         for model in (m for m in _models() if m._meta.label_lower == "auth.group"):
             model._default_manager.all().delete()  # the migration's role groups come back from the backup
-        try:
-            for item in serializers.deserialize("json", io.StringIO(body)):
-                if item.object._meta.label_lower not in _DERIVED:
-                    item.save()
-        except serializers.base.DeserializationError as exc:
-            raise BackupError(f"{path}: damaged backup ({exc})") from None
+        _load(path, rows)
+        restored = _row_counts()
+        _check_counts(path, header["counts"], restored)
+        # Rows came with their ids: move the id sequences past them, or the next new row collides.
+        with connection.cursor() as cursor:
+            for statement in connection.ops.sequence_reset_sql(no_style(), list(_models())):
+                cursor.execute(statement)
         from observatory_ops.planning.services import site_recompute  # the due states, computed again
         from observatory_ops.registry.models import Site
 
         for site in Site.objects.all():
             site_recompute(site)
-    return header["counts"]
+    return restored

@@ -13,10 +13,14 @@ class Command(BaseCommand):
 
     def handle(self, *args, file, **options):
         path = Path(file)
+        if path.is_dir():
+            raise CommandError(f"{file} is a folder, not a backup file")
         if not path.is_file():
             raise CommandError(f"{file}: no such file")
         try:
             counts = backup_restore(path)
         except BackupError as exc:
             raise CommandError(str(exc)) from None
+        except OSError as exc:
+            raise CommandError(f"cannot read {file}: {exc.strerror}") from None
         self.stdout.write(f"{sum(counts.values()):,} rows in {len(counts)} tables restored from {file}")

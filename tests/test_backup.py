@@ -1,0 +1,212 @@
+"""Backup and restore: a restored database takes new rows, a backup file is private to its owner, and a
+bad file or database is refused in one sentence that names the problem, leaving every table as it was.
+
+Each test restores and commits as in use (a transactional test), so keys that the database checks at
+commit are checked here too. The suite runs on SQLite and, in CI, on PostgreSQL (DATABASE_URL).
+"""
+from __future__ import annotations
+
+import datetime as dt
+import gzip
+import io
+import json
+import os
+import sqlite3
+import subprocess
+import sys
+from pathlib import Path
+
+import pytest
+from conftest import ROLES, site_in_use
+from django.apps import apps
+from django.core.management import call_command
+from django.core.management.base import CommandError
+
+pytestmark = pytest.mark.django_db(transaction=True)
+
+NIGHTS_LOGGED = 20
+PROJECT = Path(__file__).resolve().parent.parent
+
+
+def _row_counts() -> dict[str, int]:
+    """Rows in every table, Django's own and the many-to-many links included."""
+    return {m._meta.label_lower: m._default_manager.count() for m in apps.get_models(include_auto_created=True)}
+
+
+def _fresh_database() -> None:
+    """What `migrate` leaves in a new database: no rows but the role groups (flush runs the same
+    post-migrate step that makes them). Flush also restarts PostgreSQL's id sequences, so the record
+    written next starts at id 1 as in a new database."""
+    call_command("flush", "--no-input")
+
+
+def _backup_of_a_small_record(path: Path) -> Path:
+    """People in each role, a site in use (plans, nights, histories), a night sent by control software and
+    an API token, written to ``path``; the database is then emptied to what `migrate` leaves."""
+    from django.contrib.auth.models import Group, User
+
+    from observatory_ops.api.services import api_token_create
+    from observatory_ops.logbook.services import nights_ingest
+
+    _fresh_database()
+    people = {}
+    for role in ROLES:
+        people[role] = User.objects.create_user(role, password=f"pw-{role}-123456")
+        people[role].groups.add(Group.objects.get(name=role))
+    site = site_in_use("restore-hill", nights=NIGHTS_LOGGED)
+    last_night = site.nights.order_by("-night").first().night + dt.timedelta(days=1)  # with its history row
+    assert nights_ingest(site, [{"night": last_night.isoformat(), "open_hours": 6.5}], by=people["technician"]).stored
+    api_token_create(site, "east dome control computer", by=people["administrator"])
+    call_command("backup", str(path))
+    _fresh_database()
+    return path
+
+
+def _header_and_rows(path: Path) -> tuple[str, list[dict]]:
+    header, _, body = path.read_text().partition("\n")
+    return header, json.loads(body)
+
+
+def _edited(path: Path, edit) -> Path:
+    """A copy of the backup at ``path`` whose rows went through ``edit`` (a function of the row list)."""
+    header, rows = _header_and_rows(path)
+    edited = path.with_name("edited-" + path.name)
+    edited.write_text(header + "\n" + json.dumps(edit(rows)))
+    return edited
+
+
+def _first_night(rows: list[dict]) -> dict:
+    return next(row for row in rows if row["model"] == "logbook.nightusage")
+
+
+def test_a_restored_database_takes_new_rows(tmp_path):
+    """Restore loads rows with their ids; the id sequences (PostgreSQL) must move past them, or the next
+    night, person, token or history row collides with a restored one."""
+    from django.contrib.auth.models import User
+    from django.db.models import Max
+
+    from observatory_ops.api.models import ApiToken
+    from observatory_ops.api.services import api_token_create
+    from observatory_ops.logbook.models import NightUsage
+    from observatory_ops.logbook.services import nights_ingest
+    from observatory_ops.registry.models import Site
+
+    path = _backup_of_a_small_record(tmp_path / "record.json.gz")
+    out = io.StringIO()
+    call_command("restore", str(path), stdout=out)
+    restored = _row_counts()
+    assert restored["logbook.nightusage"] == NIGHTS_LOGGED + 1
+    assert f"{sum(json.loads(gzip.open(path).readline())['counts'].values()):,} rows" in out.getvalue()
+
+    def highest(model) -> int:
+        return model._default_manager.aggregate(top=Max("pk"))["top"]
+
+    before = {model: highest(model) for model in (User, ApiToken, NightUsage, NightUsage.history.model)}
+    site = Site.objects.get(slug="restore-hill")
+    person = User.objects.create_user("night-assistant", password="pw-night-assistant-123456")
+    token, _ = api_token_create(site, "west dome control computer", by=person)
+    earlier = site.nights.order_by("night").first().night - dt.timedelta(days=1)  # a night not yet logged
+    report = nights_ingest(site, [{"night": earlier.isoformat(), "open_hours": 5.0}], by=person)
+    assert report.created == 1
+    night = NightUsage.objects.get(site=site, night=earlier)
+    history = night.history.get()
+    assert person.pk > before[User]
+    assert token.pk > before[ApiToken]
+    assert night.pk > before[NightUsage]
+    assert history.pk > before[NightUsage.history.model]
+    assert history.history_user == person
+
+
+@pytest.mark.parametrize("name", ["record.json", "record.json.gz"])
+def test_a_backup_file_is_readable_by_its_owner_only(tmp_path, name):
+    """It holds password hashes, API-token hashes and the whole record."""
+    path = tmp_path / name
+    call_command("backup", str(path))
+    assert path.stat().st_mode & 0o777 == 0o600
+
+
+def _cut_in_half(path: Path) -> Path:
+    cut = path.with_name("cut-" + path.name)
+    cut.write_bytes(path.read_bytes()[: path.stat().st_size // 2])
+    return cut
+
+
+def _header_only(path: Path) -> Path:
+    header, _ = _header_and_rows(path)
+    cut = path.with_name("header-only-" + path.name)
+    cut.write_text(header + "\n")
+    return cut
+
+
+def _night_at_a_missing_site(path: Path) -> Path:
+    def edit(rows):
+        _first_night(rows)["fields"]["site"] = 999
+        return rows
+
+    return _edited(path, edit)
+
+
+def _negative_slews(path: Path) -> Path:
+    def edit(rows):
+        _first_night(rows)["fields"]["slews"] = -3
+        return rows
+
+    return _edited(path, edit)
+
+
+def _nights_deleted(path: Path) -> Path:
+    return _edited(path, lambda rows: [row for row in rows if row["model"] != "logbook.nightusage"])
+
+
+@pytest.mark.parametrize(("name", "damage", "message"), [
+    ("record.json.gz", _cut_in_half, r"record\.json\.gz: the compressed file is damaged or cut short"),
+    ("record.json", _cut_in_half, r"record\.json: the rows after its header are not complete JSON \(.+\)"),
+    ("record.json", _header_only, r"record\.json holds a backup header but no rows after it"),
+    ("record.json", _night_at_a_missing_site,
+     r"record\.json: a row points at a row that is not in the file \(.*logbook_nightusage.*\)"),
+    ("record.json", _negative_slews,
+     r"record\.json: row logbook\.nightusage 1 breaks a rule of the database \(.*slews.*\)"),
+    ("record.json", _nights_deleted,
+     rf"record\.json does not hold the rows its header counts \(logbook\.nightusage: {NIGHTS_LOGGED + 1} in the "
+     r"header, 0 restored\)"),
+])
+def test_a_damaged_or_edited_backup_is_refused_and_changes_nothing(tmp_path, name, damage, message):
+    bad = damage(_backup_of_a_small_record(tmp_path / name))
+    before = _row_counts()
+    assert before["auth.group"] == len(ROLES)  # restore replaces these: a refusal must bring them back
+    with pytest.raises(CommandError, match=message) as refusal:
+        call_command("restore", str(bad))
+    assert "\n" not in str(refusal.value)
+    assert _row_counts() == before
+
+
+def test_a_folder_is_not_taken_for_a_missing_file(tmp_path):
+    with pytest.raises(CommandError, match=r"is a folder, not a backup file"):
+        call_command("restore", str(tmp_path))
+
+
+def test_restore_into_a_database_in_use_lists_its_tables_plainly(tmp_path):
+    path = _backup_of_a_small_record(tmp_path / "record.json")
+    call_command("restore", str(path))
+    before = _row_counts()
+    with pytest.raises(CommandError, match=r"already hold rows: auth\.user, .+ and \d+ more\. Create ") as refusal:
+        call_command("restore", str(path))
+    assert ".." not in str(refusal.value)
+    assert _row_counts() == before
+
+
+def test_restore_into_a_database_never_migrated_says_to_migrate_first(tmp_path):
+    """Run as an operator would, against a new SQLite file: one sentence, no traceback, no table made."""
+    path = tmp_path / "record.json"
+    call_command("backup", str(path))
+    database = tmp_path / "never-migrated.sqlite3"
+    run = subprocess.run(
+        [sys.executable, "manage.py", "restore", str(path)], cwd=PROJECT, capture_output=True, text=True,
+        env={**os.environ, "DATABASE_URL": f"sqlite:///{database}"}, check=False,
+    )
+    assert run.returncode == 1
+    assert "Traceback" not in run.stderr
+    assert "the database is not migrated" in run.stderr
+    assert "run `python manage.py migrate` first" in run.stderr
+    with sqlite3.connect(database) as tables:
+        assert tables.execute("SELECT name FROM sqlite_master").fetchall() == []
