@@ -210,3 +210,12 @@ def test_a_double_root_lost_to_rounding_is_still_found():
 
     rate, margin = 2e-5, 0.05
     assert _real_roots(rate**2, -2 * margin * rate, margin**2) == pytest.approx([2500.0, 2500.0])
+
+
+def test_readings_all_at_zero_exposure_are_refused_without_a_numpy_warning():
+    import warnings
+
+    with warnings.catch_warnings():
+        warnings.simplefilter("error")  # a divide-by-zero RuntimeWarning would fail the test
+        with pytest.raises(ValueError, match="two different exposures"):
+            fit_decline([0.0, 0.0, 0.0], [0.90, 0.89, 0.91])

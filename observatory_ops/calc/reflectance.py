@@ -140,7 +140,10 @@ def fit_decline(exposure_h: ArrayLike, reflectance: ArrayLike, cleaning_exposure
         raise ValueError(f"need at least {n_params + 1} readings to fit {what} with uncertainties; got {exposure.size}")
     columns = [np.ones_like(exposure), -exposure, last_cleaning][:n_params]
     design = np.column_stack(columns)
-    scaled = design / np.abs(design).max(axis=0)
+    largest = np.abs(design).max(axis=0)
+    if not largest.all():  # a column of zeros (every reading at zero exposure): nothing to scale or fit
+        raise ValueError("the readings need at least two different exposures")
+    scaled = design / largest
     if np.linalg.matrix_rank(scaled) < n_params:
         if fits_recovery:
             raise ValueError(
