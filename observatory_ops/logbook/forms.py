@@ -66,3 +66,30 @@ class NightsUploadForm(forms.Form):
                 f"The file is {upload.size:,} bytes; the limit is {settings.NIGHTS_UPLOAD_MAX_BYTES:,} bytes."
             )
         return upload
+
+
+class NightForm(forms.Form):
+    """One night typed in: a text field per column of the nights format, checked by the same rules as the
+    CSV import and the API (``nights_csv``), so this form keeps no rules of its own. A field left empty is
+    left out: a night already stored keeps that figure, a new night takes the format's default."""
+
+    def __init__(self, *args, **kwargs):
+        from .nights_csv import COLUMN_SPECS
+
+        super().__init__(*args, **kwargs)
+        for column in COLUMN_SPECS:
+            label = f"{column.meaning[:1].upper()}{column.meaning[1:]}" + (f" ({column.unit})" if column.unit else "")
+            if column.kind == "flag":
+                field = forms.ChoiceField(choices=[("", "leave as it is"), ("no", "no"), ("yes", "yes")],
+                                          required=False, label=label)
+            elif column.kind == "date":
+                field = forms.CharField(required=True, label=label,
+                                        widget=forms.DateInput(attrs={"type": "date"}))
+            else:
+                field = forms.CharField(required=column.required, label=label, help_text=column.accepted,
+                                        widget=forms.TextInput(attrs={"inputmode": "decimal", "size": 10}))
+            self.fields[column.name] = field
+
+    def record(self) -> dict:
+        """The night as the API would send it: only the fields filled in."""
+        return {name: value for name, value in self.cleaned_data.items() if value not in ("", None)}

@@ -8,4 +8,5 @@ urlpatterns = [
     path("subsystems/<int:pk>/readings/new/", views.reading_log, name="reading-log"),
     path("sites/<slug:slug>/nights/", views.nights_list, name="nights-list"),
     path("sites/<slug:slug>/nights/import/", views.nights_import, name="nights-import"),
+    path("sites/<slug:slug>/nights/new/", views.night_log, name="night-log"),
 ]

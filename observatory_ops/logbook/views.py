@@ -1,3 +1,5 @@
+import datetime as dt
+
 from django.contrib import messages
 from django.core.exceptions import ValidationError
 from django.core.paginator import Paginator
@@ -9,7 +11,7 @@ from observatory_ops.access.roles import TECHNICIAN, VIEWER
 from observatory_ops.registry.models import Site, Subsystem
 
 from . import nights_csv, services
-from .forms import CorrectionForm, NightsUploadForm, ReadingForm, ServiceRecordForm
+from .forms import CorrectionForm, NightForm, NightsUploadForm, ReadingForm, ServiceRecordForm
 from .models import NightUsage, ServiceRecord
 
 
@@ -89,6 +91,39 @@ def nights_list(request, slug):
     site = get_object_or_404(Site, slug=slug)
     page = Paginator(NightUsage.objects.filter(site=site).order_by("-night"), 60).get_page(request.GET.get("page"))
     return render(request, "logbook/nights_list.html", {"site": site, "page": page})
+
+
+@requires(TECHNICIAN)
+def night_log(request, slug):
+    """Type in one night, or correct one (``?night=YYYY-MM-DD`` fills the form with what is stored)."""
+    site = get_object_or_404(Site, slug=slug)
+    stored = None
+    if request.method == "GET" and request.GET.get("night"):
+        try:
+            stored = NightUsage.objects.filter(site=site, night=dt.date.fromisoformat(request.GET["night"])).first()
+        except ValueError:
+            messages.warning(request, f"{request.GET['night']!r} is not a date as YYYY-MM-DD: a blank form instead.")
+    initial = {c.name: _shown(getattr(stored, c.name)) for c in nights_csv.COLUMN_SPECS} if stored else {}
+    form = NightForm(request.POST or None, initial=initial)
+    if request.method == "POST" and form.is_valid():
+        report = services.nights_ingest(
+            site, [form.record()], source=NightUsage.Source.FORM, by=request.user, reason="typed in on the log page"
+        )
+        for problem in report.errors:
+            form.add_error(problem.field if problem.field in form.fields else None, problem.reason)
+        if not report.errors:
+            messages.success(request, f"Night {form.cleaned_data['night']}: {report.summary}")
+            return redirect("nights-list", slug=site.slug)
+    return render(request, "logbook/night_form.html", {"site": site, "form": form, "stored": stored})
+
+
+def _shown(value) -> str:
+    """A stored figure as the form shows it: flags as yes or no, nothing for not measured."""
+    if value is None:
+        return ""
+    if isinstance(value, bool):
+        return "yes" if value else "no"
+    return value.isoformat() if hasattr(value, "isoformat") else f"{value:g}"
 
 
 @requires(TECHNICIAN)

@@ -1,0 +1,76 @@
+"""Typing in one night on the nightly log page: the rules of the CSV import and the API, nothing of its own."""
+from __future__ import annotations
+
+import datetime as dt
+
+import pytest
+
+from observatory_ops.logbook.models import NightUsage
+from observatory_ops.planning.services import site_today
+
+
+@pytest.fixture(autouse=True)
+def recomputes(recomputes_recorded):
+    return recomputes_recorded
+
+
+@pytest.fixture
+def technician(client, users):
+    client.force_login(users["technician"])
+    return users["technician"]
+
+
+def _rows(site):
+    return list(NightUsage.objects.filter(site=site).order_by("night").values())
+
+
+def test_a_night_typed_in_is_stored_as_typed_in_and_recomputes_the_site(client, site, technician, recomputes):
+    night = site_today(site) - dt.timedelta(days=1)
+    response = client.post(f"/sites/{site.slug}/nights/new/", {"night": night.isoformat(), "open_hours": "7.25",
+                                                               "slews": "40", "pm10_ugm3": "", "dew": "yes"})
+    assert response.status_code == 302
+    stored = NightUsage.objects.get(site=site, night=night)
+    assert (stored.open_hours, stored.slews, stored.pm10_ugm3, stored.dew, stored.source) == (7.25, 40, None, True,
+                                                                                                "form")
+    assert recomputes == [site.pk]
+
+
+def test_correcting_one_figure_keeps_the_others(client, site, technician):
+    night = site_today(site) - dt.timedelta(days=2)
+    NightUsage.objects.create(site=site, night=night, open_hours=6, slews=33, brake_cycles=30, pm10_ugm3=41.0)
+    form = client.get(f"/sites/{site.slug}/nights/new/?night={night.isoformat()}")
+    assert form.context["form"].initial["slews"] == "33"  # the stored night, ready to correct
+    client.post(f"/sites/{site.slug}/nights/new/", {"night": night.isoformat(), "open_hours": "6.5"})
+    stored = NightUsage.objects.get(site=site, night=night)
+    assert (stored.open_hours, stored.slews, stored.brake_cycles, stored.pm10_ugm3) == (6.5, 33, 30, 41.0)
+
+
+@pytest.mark.parametrize(
+    "values, field, words",
+    [
+        ({"open_hours": "30"}, "open_hours", "24"),
+        ({"open_hours": "5", "slews": "4.5"}, "slews", "whole number"),
+        ({"open_hours": "5", "humidity_pct": "-3"}, "humidity_pct", "0"),
+    ],
+)
+def test_a_bad_figure_is_named_beside_its_field_and_nothing_is_stored(client, site, technician, values, field, words):
+    before = _rows(site)
+    night = (site_today(site) - dt.timedelta(days=1)).isoformat()
+    response = client.post(f"/sites/{site.slug}/nights/new/", {"night": night, **values})
+    assert response.status_code == 200
+    assert words in " ".join(response.context["form"].errors[field])
+    assert _rows(site) == before
+
+
+def test_a_night_in_the_future_and_a_malformed_date_are_refused(client, site, technician):
+    tomorrow = (site_today(site) + dt.timedelta(days=1)).isoformat()
+    response = client.post(f"/sites/{site.slug}/nights/new/", {"night": tomorrow, "open_hours": "5"})
+    assert "in the future" in " ".join(response.context["form"].errors["night"])
+    assert client.get(f"/sites/{site.slug}/nights/new/?night=yesterday").status_code == 200
+    assert not NightUsage.objects.exists()
+
+
+def test_a_viewer_cannot_log_a_night(client, site, users):
+    client.force_login(users["viewer"])
+    response = client.post(f"/sites/{site.slug}/nights/new/", {"night": "2026-01-01", "open_hours": "5"})
+    assert response.status_code == 403 and not NightUsage.objects.exists()
