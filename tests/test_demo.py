@@ -55,7 +55,7 @@ def test_the_demo_due_list_has_overdue_and_due_rows_each_with_a_reason_naming_it
         assert governing["metric"] == row.metric
         reason = row.reason.lower()
         # The trigger is named by its label ("Open-dome hours: ...") or, for a reading, by its basis
-        # ("Settle time after a slew rises to the limit 1 s; Theil-Sen trend ...").
+        # ("Settle time after a slew: Theil-Sen trend of 5 readings ...").
         basis = governing["basis"].strip().lower()
         assert METRICS[row.metric][0].lower() in reason or (basis and basis in reason), row.reason
 

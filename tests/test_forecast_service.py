@@ -328,3 +328,13 @@ def test_the_due_lists_progress_words_a_count_as_the_reason_does():
     measured = PlanStatus(metric="reading", value=1.0954, limit=1.0, unit="s")
     assert counted.progress == "935 / 600 h"  # the reason says "935 of 600 h"
     assert measured.progress == "1.095 / 1 s"
+
+
+def test_a_condition_triggers_sentence_names_the_reading_the_limit_and_the_trend(db, users):
+    noon = [dt.datetime.combine(TODAY - dt.timedelta(days=d), dt.time(12), tzinfo=dt.UTC) for d in (20, 10)]
+    site, plan = _drive_with_readings(users, "UTC", list(zip(noon, [0.9, 1.095], strict=True)),
+                                      TODAY - dt.timedelta(days=60))
+    services.site_recompute(site, TODAY)
+    reason = PlanStatus.objects.get(plan=plan).reason
+    assert reason.startswith("Latest reading 1.095 s against a limit of at most 1 s; Settle time after a slew: "
+                             "2 readings since the last service, too few for a trend; limit reached on ")

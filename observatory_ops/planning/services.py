@@ -584,12 +584,13 @@ def _reading_state(trig, readings, today: dt.date, zone) -> TriggerState | None:
     label, unit = QUANTITIES[trig.quantity]
     origin = readings[0][0]
     days = [(t - origin).total_seconds() / 86400 for t, _ in readings]
-    fit, no_fit = None, f"{len(readings)} reading(s) since the last service: too few for a trend"
+    counted = f"{len(readings)} reading{'' if len(readings) == 1 else 's'} since the last service"
+    fit, no_fit = None, f"{counted}, too few for a trend"
     if len(readings) >= trend.MIN_READINGS and max(days) > min(days):
         try:
             fit = trend.trend_to_limit(days, [v for _, v in readings], trig.limit, rising)
         except ValueError as exc:  # readings that cannot be fitted: shown, and no forecast from them
-            no_fit = f"{len(readings)} readings since the last service: no trend ({exc})"
+            no_fit = f"{counted}, no trend ({exc})"
 
     def day(offset: float | None) -> dt.date | None:
         if fit is None or offset is None or not np.isfinite(offset) or offset > 10 * HORIZON_DAYS:
@@ -610,7 +611,7 @@ def _reading_state(trig, readings, today: dt.date, zone) -> TriggerState | None:
         forecast=day(fit.crossing_day) if fit else None,
         earliest=day(fit.earliest_day) if fit else None,
         latest=day(fit.latest_day) if fit else None,
-        basis=f"{label} {Trigger.Direction(trig.direction).label} {trig.limit:g} {unit}; " + basis,
+        basis=f"{label}: {basis}",
         rising=rising,
         unit=unit,
     )
@@ -628,7 +629,8 @@ def reason_text(state: TriggerState) -> str:
     label = metrics.METRICS[state.metric][0]
     unit = state.unit
     if state.metric == metrics.READING:
-        head = f"Latest reading {state.value:g} {unit}; {state.basis}"
+        bound = "at most" if state.rising else "at least"
+        head = f"Latest reading {state.value:g} {unit} against a limit of {bound} {state.limit:g} {unit}; {state.basis}"
     elif state.metric == metrics.RECOAT_LINE:
         head = f"Reflectance now about {state.value:.3f}, recoat line {state.limit:.3f}"
     else:
