@@ -1,23 +1,48 @@
-"""Reads of the change history kept by django-simple-history: who changed what, when, before and after."""
+"""Reads of the change history kept by django-simple-history: who changed what, when, before and after.
+
+Every page that shows a history reads it here, so it is shown one way everywhere: times in the time zone
+of the record's site (UTC for a record of no site) to the minute, people by their full names, related
+records by their names. The CSV export takes the same changes with times as ISO 8601 in UTC.
+"""
 from __future__ import annotations
 
 import datetime as dt
+import zoneinfo
 from dataclasses import dataclass, field
 
 from django.apps import apps
+from django.contrib.auth import get_user_model
 from django.core.exceptions import FieldDoesNotExist
 from django.db import models
+from django.utils import dateformat
+
+from observatory_ops.registry.models import Site
 
 KIND = {"+": "created", "~": "changed", "-": "deleted"}
+UTC = zoneinfo.ZoneInfo("UTC")
+#: How times are written on the pages (as the rest of the site writes them); the zone is said beside.
+SHOWN_TIME = "d M Y H:i"
+#: Links followed from a record to its site: trigger, plan, subsystem, telescope, site is the longest.
+SITE_LINKS = 5
 
 
 @dataclass
 class Change:
-    when: dt.datetime
+    when: dt.datetime  # as stored: UTC
     who: str
     kind: str
     reason: str
-    fields: list[tuple[str, str, str]] = field(default_factory=list)  # (field, before, after)
+    fields: list[tuple[str, str, str]] = field(default_factory=list)  # (field, before, after) as shown
+    zone: zoneinfo.ZoneInfo = UTC  # the record's site's zone, or UTC for a record of no site
+    fields_exported: list[tuple[str, str, str]] = field(default_factory=list)  # the same, times in ISO UTC
+
+    @property
+    def zone_name(self) -> str:
+        return self.zone.key
+
+    @property
+    def when_shown(self) -> str:
+        return dateformat.format(self.when.astimezone(self.zone), SHOWN_TIME)
 
 
 def audited_model(label: str) -> type[models.Model] | None:
@@ -29,41 +54,81 @@ def audited_model(label: str) -> type[models.Model] | None:
     return model if hasattr(model, "history") else None
 
 
+def site_of(record: models.Model, links: int = SITE_LINKS) -> Site | None:
+    """The site a record belongs to: the record itself if it is one, else the first site reached through
+    the records it points to, in the order its model declares them (a work order's site, a subsystem's
+    telescope's site, a trigger's plan's subsystem's ...); None for a record of no site (a user)."""
+    if isinstance(record, Site):
+        return record
+    if links == 0:
+        return None
+    for link in record._meta.concrete_fields:
+        if not link.many_to_one and not link.one_to_one or link.related_model is get_user_model():
+            continue
+        linked = getattr(record, link.name)
+        found = site_of(linked, links - 1) if linked is not None else None
+        if found is not None:
+            return found
+    return None
+
+
+def zone_of(record: models.Model) -> zoneinfo.ZoneInfo:
+    """The time zone a record's times are shown in: its site's, or UTC when it belongs to no site."""
+    site = site_of(record)
+    return site.zone if site is not None else UTC
+
+
+def person(user) -> str:
+    """A person as the pages name them: full name, or the user name when no name is given."""
+    return (user.get_full_name() or user.username) if user is not None else ""
+
+
 def _text(value) -> str:
     return "" if value is None else str(value)
 
 
-def _shown(model, name: str, value) -> str:
-    """A changed value as a person reads it: a related record by its name, not its id."""
+def _shown(model, name: str, value, zone: zoneinfo.ZoneInfo) -> tuple[str, str]:
+    """A changed value as a person reads it, and as the CSV writes it: a related record by its name (a
+    person by full name), not its id; a time in ``zone`` to the minute on the page, ISO 8601 UTC in the CSV."""
     try:
-        field = model._meta.get_field(name)
+        model_field = model._meta.get_field(name)
     except FieldDoesNotExist:  # a field since removed from the model: show the stored value
-        return _text(value)
-    if field.is_relation and value is not None:
-        related = field.related_model._default_manager.filter(pk=value).first()
-        return str(related) if related is not None else _text(value)
-    return _text(value)
+        return _text(value), _text(value)
+    if isinstance(value, dt.datetime) and value.tzinfo is not None:
+        return dateformat.format(value.astimezone(zone), SHOWN_TIME), value.astimezone(dt.UTC).isoformat()
+    if model_field.is_relation and value is not None:
+        related = model_field.related_model._default_manager.filter(pk=value).first()
+        if related is None:
+            return _text(value), _text(value)
+        text = person(related) if model_field.related_model is get_user_model() else str(related)
+        return text, text
+    return _text(value), _text(value)
 
 
 def changes(instance: models.Model, limit: int | None = None) -> list[Change]:
     """The instance's history, newest first, each change with the fields it changed (before, after)."""
     records = list(instance.history.select_related("history_user").order_by("-history_date", "-history_id"))
+    zone = zone_of(instance)
+    model = type(instance)
     out = []
     for i, record in enumerate(records[: limit or len(records)]):
         previous = records[i + 1] if i + 1 < len(records) else None
         diffs = []
         if previous is not None and record.history_type == "~":
-            delta = record.diff_against(previous)
-            model = type(instance)
-            diffs = [(c.field, _shown(model, c.field, c.old), _shown(model, c.field, c.new)) for c in delta.changes]
+            diffs = [
+                (c.field, _shown(model, c.field, c.old, zone), _shown(model, c.field, c.new, zone))
+                for c in record.diff_against(previous).changes
+            ]
         user = record.history_user
         out.append(
             Change(
-                when=record.history_date,
-                who=(user.get_full_name() or user.username) if user else "system (command or background task)",
+                when=record.history_date.astimezone(dt.UTC),
+                who=person(user) if user else "system (command or background task)",
                 kind=KIND.get(record.history_type, record.history_type),
                 reason=record.history_change_reason or "",
-                fields=diffs,
+                fields=[(name, before[0], after[0]) for name, before, after in diffs],
+                zone=zone,
+                fields_exported=[(name, before[1], after[1]) for name, before, after in diffs],
             )
         )
     return out

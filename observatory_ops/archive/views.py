@@ -10,7 +10,7 @@ from .history import audited_model, changes
 
 @requires(VIEWER)
 def history(request, label, pk):
-    """Every change to one audited object; ``?export=csv`` downloads it."""
+    """Every change to one audited object; ``?export=csv`` downloads it, times as ISO 8601 in UTC."""
     model = audited_model(label)
     if model is None:
         raise Http404("no history is kept for that kind of record")
@@ -20,11 +20,11 @@ def history(request, label, pk):
         rows = (
             (c.when.isoformat(), c.who, c.kind, c.reason, name, before, after)
             for c in entries
-            for name, before, after in (c.fields or [("", "", "")])
+            for name, before, after in (c.fields_exported or [("", "", "")])
         )
-        return csv_response(
-            f"history-{label}-{pk}.csv", ("when_utc", "who", "what", "reason", "field", "before", "after"), rows
-        )
+        # Machine-readable: ISO 8601 in UTC, with the offset written (+00:00), for times in before and after too.
+        header = ("when_utc", "who", "what", "reason", "field", "before", "after")
+        return csv_response(f"history-{label}-{pk}.csv", header, rows)
     return render(
         request, "archive/history.html",
         {"instance": instance, "entries": entries, "label": label, "verbose": model._meta.verbose_name},

@@ -1,12 +1,9 @@
 """Reads of work orders: the cautions, lifting figures, checklist and printable sheet of one work order."""
 from __future__ import annotations
 
-import dataclasses
 import datetime as dt
 from dataclasses import dataclass
 
-from django.contrib.auth import get_user_model
-from django.db import models
 from django.db.models import F, Q, QuerySet
 from django.utils import dateformat, timezone
 
@@ -255,32 +252,9 @@ def _name(user) -> str:
 
 
 def history(order: WorkOrder, limit: int | None = None) -> list[Change]:
-    """The order's recent changes as ``archive.history.changes`` lists them, with the changed times in the
-    site's time to the minute and the people by their full names, as the rest of the work order page shows
-    them (``changes`` gives a time as its raw UTC text and a person by the user name)."""
-    entries = changes(order, limit=limit)
-    zone = order.site.zone
-    times = {f.name for f in WorkOrder._meta.get_fields() if isinstance(f, models.DateTimeField)}
-    people = {
-        f.name for f in WorkOrder._meta.get_fields()
-        if isinstance(f, models.ForeignKey) and f.related_model is get_user_model()
-    }
-    usernames = {value for entry in entries for name, *values in entry.fields if name in people for value in values}
-    names = {user.username: _name(user) for user in get_user_model().objects.filter(username__in=usernames)}
-
-    def shown(name: str, value: str) -> str:
-        if name in times and value:
-            try:
-                return dateformat.format(dt.datetime.fromisoformat(value).astimezone(zone), "d M Y H:i")
-            except ValueError:
-                return value
-        return names.get(value, value) if name in people else value
-
-    return [
-        dataclasses.replace(entry, fields=[(name, shown(name, before), shown(name, after))
-                                           for name, before, after in entry.fields])
-        for entry in entries
-    ]
+    """The order's recent changes, shown as every history is (``archive.history.changes``): times in the
+    site's time to the minute, people by their full names."""
+    return changes(order, limit=limit)
 
 
 def issued_between(site: Site, start, end) -> QuerySet[WorkOrder]:
