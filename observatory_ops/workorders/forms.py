@@ -4,6 +4,7 @@ from django import forms
 from django.contrib.auth import get_user_model
 
 from observatory_ops.access.roles import ENGINEER, TECHNICIAN
+from observatory_ops.archive.history import person
 from observatory_ops.calc.lifting import DENSITY
 from observatory_ops.planning.services import site_today
 from observatory_ops.registry.models import Subsystem
@@ -14,7 +15,7 @@ from .models import Part, WorkOrder
 
 class _PersonChoiceField(forms.ModelChoiceField):
     def label_from_instance(self, obj) -> str:
-        return obj.get_full_name() or obj.username
+        return person(obj)
 
 
 class WorkOrderEditForm(forms.ModelForm):

@@ -7,7 +7,7 @@ from dataclasses import dataclass
 from django.db.models import F, Q, QuerySet
 from django.utils import dateformat, timezone
 
-from observatory_ops.archive.history import Change, changes
+from observatory_ops.archive.history import Change, changes, person
 from observatory_ops.calc import lifting
 from observatory_ops.registry.models import Site
 
@@ -101,7 +101,7 @@ def latest_ticks(order: WorkOrder) -> dict[tuple[str, int | None], ChecklistTick
 
 def tick_note(tick: ChecklistTick, text: str, zone: dt.tzinfo) -> str:
     """Who ticked the line (or took the tick back) and when, in the site's time, as the page shows it."""
-    said = f"{_name(tick.recorded_by)}, {dateformat.format(tick.recorded_at.astimezone(zone), 'd M Y H:i')}"
+    said = f"{person(tick.recorded_by)}, {dateformat.format(tick.recorded_at.astimezone(zone), 'd M Y H:i')}"
     if not tick.ticked:
         return f"tick taken back by {said}"
     if tick.text != text:
@@ -154,10 +154,10 @@ def checklist_record(order: WorkOrder, points: list[IsolationPoint]) -> tuple[st
         what = f"Step {tick.step_index + 1}" if tick.kind == STEP else "Isolation point"
         when = tick.recorded_at.astimezone(zone).strftime("%Y-%m-%d %H:%M")
         changed = " (as it read then; changed since)" if current.get(tick.line) != tick.text else ""
-        record.append(f"{what}{changed}: {tick.text} \N{EM DASH} ticked by {_name(tick.recorded_by)}, {when}")
+        record.append(f"{what}{changed}: {tick.text} \N{EM DASH} ticked by {person(tick.recorded_by)}, {when}")
     if order.unticked_at_finish:
         record.append(
-            f"Not ticked when the work was finished; {_name(order.finished_by)} confirmed that each of these was "
+            f"Not ticked when the work was finished; {person(order.finished_by)} confirmed that each of these was "
             "done or did not apply:"
         )
         return (*record, *order.unticked_at_finish)
@@ -210,7 +210,7 @@ def sheet(order: WorkOrder, url: str) -> sheet_.Sheet:
         state=order.get_state_display(),
         planned_date=order.planned_date,
         issued_on=order.issued_at.astimezone(zone).date() if order.issued_at else None,
-        assignee=_name(order.assignee),
+        assignee=person(order.assignee),
         estimated_hours=order.estimated_hours,
         why=tuple(f"{i.plan.name if i.plan else i.subsystem.name}: {i.why}" for i in items if i.why),
         cautions=tuple(
@@ -237,9 +237,9 @@ def sheet(order: WorkOrder, url: str) -> sheet_.Sheet:
         findings=order.findings,
         generated_at=timezone.now().astimezone(zone),
         actual_hours=order.actual_hours,
-        performed_by=_name(order.finished_by),
+        performed_by=person(order.finished_by),
         performed_on=order.finished_at.astimezone(zone).date() if order.finished_at else None,
-        checked_by=_name(order.countersigned_by),
+        checked_by=person(order.countersigned_by),
         checked_on=order.countersigned_at.astimezone(zone).date() if order.countersigned_at else None,
         confirmations=(
             checklist_record(order, points) if order.state in (State.FINISHED, State.COUNTERSIGNED) else ()
@@ -247,8 +247,6 @@ def sheet(order: WorkOrder, url: str) -> sheet_.Sheet:
     )
 
 
-def _name(user) -> str:
-    return (user.get_full_name() or user.username) if user else ""
 
 
 def history(order: WorkOrder, limit: int | None = None) -> list[Change]:

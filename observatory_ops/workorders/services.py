@@ -16,6 +16,7 @@ from django.db import transaction
 from django.utils import dateformat, timezone
 
 from observatory_ops.access.roles import TECHNICIAN, has_role
+from observatory_ops.archive.history import person
 from observatory_ops.calc import lifting
 from observatory_ops.logbook.models import Reading, ServiceRecord
 from observatory_ops.logbook.quantities import QUANTITIES, value_problem
@@ -265,7 +266,7 @@ class AlreadyFinished(Refused):
         if self.by_you:
             message = f"{order.number} is already finished (by you, at {when})"
         else:
-            name = order.finished_by.get_full_name() or order.finished_by.username
+            name = person(order.finished_by)
             message = f"this work order has already been finished by someone else ({name}, at {when})"
         super().__init__(message)
 
