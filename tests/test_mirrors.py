@@ -173,6 +173,7 @@ def test_calendar_export_is_rfc5545(mirror, users, client):
     coat = next(e for e in events if str(e["summary"]).endswith("strip and coat"))
     assert (coat.decoded("dtstart"), coat.decoded("dtend")) == (dt.date(2026, 8, 4), dt.date(2026, 8, 7))
     assert mirror.subsystem.telescope.name in str(removal["summary"])
+    assert str(removal["uid"]).endswith("@testserver")  # unique to the installation (RFC 5545 3.8.4.7)
 
 
 @pytest.mark.parametrize(

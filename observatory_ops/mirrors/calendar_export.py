@@ -2,6 +2,7 @@
 from __future__ import annotations
 
 import datetime as dt
+from urllib.parse import urlsplit
 
 from django.utils import timezone
 from icalendar import Calendar, Event
@@ -19,11 +20,13 @@ def site_calendar(site: Site, base_url: str) -> bytes:
     calendar.add("version", "2.0")
     calendar.add("x-wr-calname", f"{site.name}: planned work")
     stamp = timezone.now()
+    # RFC 5545 3.8.4.7: a UID unique beyond this calendar; the installation's host name makes it so.
+    host = urlsplit(base_url).netloc or "observatory-ops"
 
     def all_day(uid: str, first: dt.date, last: dt.date, summary: str, description: str) -> None:
         # RFC 5545 3.6.1: an all-day event's DTEND is the day after its last day.
         event = Event()
-        for key, value in (("uid", f"{uid}@observatory-ops"), ("dtstamp", stamp), ("dtstart", first),
+        for key, value in (("uid", f"{uid}@{host}"), ("dtstamp", stamp), ("dtstart", first),
                            ("dtend", last + dt.timedelta(days=1)), ("summary", summary),
                            ("description", description)):
             event.add(key, value)
