@@ -80,8 +80,8 @@ class NightForm(forms.Form):
         for column in COLUMN_SPECS:
             label = f"{column.meaning[:1].upper()}{column.meaning[1:]}" + (f" ({column.unit})" if column.unit else "")
             if column.kind == "flag":
-                field = forms.ChoiceField(choices=[("", "as stored (no for a new night)"), ("no", "no"), ("yes", "yes")],
-                                          required=False, label=label)
+                choices = [("", "as stored (no for a new night)"), ("no", "no"), ("yes", "yes")]
+                field = forms.ChoiceField(choices=choices, required=False, label=label)
             elif column.kind == "date":
                 field = forms.CharField(required=True, label=label,
                                         widget=forms.DateInput(attrs={"type": "date"}))
