@@ -338,3 +338,19 @@ def test_a_condition_triggers_sentence_names_the_reading_the_limit_and_the_trend
     reason = PlanStatus.objects.get(plan=plan).reason
     assert reason.startswith("Latest reading 1.095 s against a limit of at most 1 s; Settle time after a slew: "
                              "2 readings since the last service, too few for a trend; limit reached on ")
+
+
+def test_the_due_lists_csv_download_names_things_as_the_page_does(synthetic, users, client):
+    import csv
+    import io
+
+    site, subsystem, start = synthetic
+    _plan(subsystem, "hours", [("open_hours", 3000)], start)
+    services.site_recompute(site)
+    client.force_login(users["viewer"])
+    rows = list(csv.reader(io.StringIO(client.get("/due/?export=csv").content.decode())))
+    assert rows[0][:6] == ["status", "site", "telescope", "subsystem", "service", "trigger"]
+    record = dict(zip(rows[0], rows[1], strict=True))
+    assert (record["site"], record["telescope"], record["subsystem"]) == ("Flatland", "S1", "Fans")
+    assert record["service"] == "hours" and record["trigger"] == "Open-dome hours" and record["unit"] == "h"
+    assert record["why"].startswith("Open-dome hours:")

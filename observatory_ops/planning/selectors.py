@@ -89,6 +89,28 @@ def due_record(status: PlanStatus) -> dict:
     }
 
 
+#: Columns of the due list's CSV download, for people: names as the page shows them, dates in ISO form.
+DUE_CSV_HEADER = (
+    "status", "site", "telescope", "subsystem", "service", "trigger", "now", "limit", "unit", "rate per day",
+    "forecast", "earliest", "latest", "why",
+)
+
+
+def due_csv_row(status: PlanStatus) -> list:
+    """One due-list row for the CSV download, in the order of ``DUE_CSV_HEADER``.
+
+    The page's words (site and subsystem names, the trigger's label), where ``due_record`` gives the
+    slug and codes that programs read.
+    """
+    subsystem = status.plan.subsystem
+    record = due_record(status)
+    return [
+        status.get_status_display(), subsystem.telescope.site.name, subsystem.telescope.name, subsystem.name,
+        status.plan.name, metrics.METRICS[status.metric][0], record["value"], status.limit, status.unit,
+        record["rate"], record["forecast_date"], record["earliest"], record["latest"], status.reason,
+    ]
+
+
 def plans_with_plots(subsystem: Subsystem) -> list[ServicePlan]:
     """The subsystem's plans, each with ``plot``: an SVG of its governing trigger (see ``plots``)."""
     from .services import UsageLog, site_today

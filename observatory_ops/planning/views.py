@@ -27,10 +27,7 @@ def due_list(request):
     if request.GET.get("export") == "csv":
         if unapplied:
             return HttpResponseBadRequest("; ".join(unapplied), content_type="text/plain; charset=utf-8")
-        header = ("status", "site", "subsystem", "plan", "trigger", "value", "limit", "unit", "rate",
-                  "forecast_date", "earliest", "latest", "reason")
-        rows = ([record[k] for k in header] for record in map(selectors.due_record, filtered.qs))
-        return csv_response("due-list.csv", header, rows)
+        return csv_response("due-list.csv", selectors.DUE_CSV_HEADER, map(selectors.due_csv_row, filtered.qs))
     for problem in unapplied:
         messages.warning(request, problem)
     table = DueTable(filtered.qs)
