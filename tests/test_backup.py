@@ -210,3 +210,16 @@ def test_restore_into_a_database_never_migrated_says_to_migrate_first(tmp_path):
     assert "run `python manage.py migrate` first" in run.stderr
     with sqlite3.connect(database) as tables:
         assert tables.execute("SELECT name FROM sqlite_master").fetchall() == []
+
+
+def test_backup_of_a_database_never_migrated_says_to_migrate_first(tmp_path):
+    """Run as an operator would: one sentence, no traceback, no file written."""
+    database, path = tmp_path / "never-migrated.sqlite3", tmp_path / "record.json"
+    run = subprocess.run(
+        [sys.executable, "manage.py", "backup", str(path)], cwd=PROJECT, capture_output=True, text=True,
+        env={**os.environ, "DATABASE_URL": f"sqlite:///{database}"}, check=False,
+    )
+    assert run.returncode == 1
+    assert "Traceback" not in run.stderr
+    assert "the database is not migrated" in run.stderr and "then back it up" in run.stderr
+    assert not path.exists()

@@ -56,8 +56,13 @@ class BackupError(ValueError):
 def backup_write(path: Path) -> dict[str, int]:
     """Write every row to ``path`` (gzip-compressed JSON when it ends in .gz), readable by its owner only.
 
-    Never overwrites: a file already at ``path`` raises FileExistsError. Returns the row counts.
+    Never overwrites: a file already at ``path`` raises FileExistsError. Returns the row counts. Raises
+    BackupError, writing nothing, when the database is not migrated (its tables would be missing or old).
     """
+    pending = _migrations_pending()
+    if pending:
+        raise BackupError(f"the database is not migrated ({pending} migrations not applied): run "
+                          "`python manage.py migrate` first, then back it up")
     objects, counts = [], {}
     for model in _models():
         rows = list(model._default_manager.order_by("pk"))

@@ -2,7 +2,7 @@ from pathlib import Path
 
 from django.core.management.base import BaseCommand, CommandError
 
-from observatory_ops.archive.backup import backup_write
+from observatory_ops.archive.backup import BackupError, backup_write
 
 
 class Command(BaseCommand):
@@ -17,6 +17,8 @@ class Command(BaseCommand):
             raise CommandError(f"{file} already exists; choose a new name (a backup never overwrites)")
         try:
             counts = backup_write(path)
+        except BackupError as exc:
+            raise CommandError(str(exc)) from None
         except OSError as exc:
             raise CommandError(f"cannot write {file}: {exc.strerror}") from None
         self.stdout.write(f"{sum(counts.values()):,} rows in {len(counts)} tables written to {file}")
