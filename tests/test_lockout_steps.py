@@ -94,7 +94,28 @@ def test_several_plans_isolate_once_and_restore_after_all_their_locked_out_work(
     release = next(i for i, step in enumerate(unprefixed) if step in RESTORE)
     assert not any(step in BEFORE_ISOLATION or step in RESTORE for step in unprefixed[lockout + 1 : release])
     assert all(step in RESTORE for step in unprefixed[release:])
-    assert len(steps) == 1 + sum(len(p.step_list) for p in [*fans.plans.all(), *brake.plans.all()])
+    # Every plan's steps are all there, in the plan's own order; a step the plans share is written once.
+    for plan in [*fans.plans.all(), *brake.plans.all()]:
+        positions = [unprefixed.index(step) for step in plan.step_list]
+        assert positions == sorted(positions), plan.name
+    assert len(unprefixed) == len(set(unprefixed))
+    assert "Park the telescope at its service position." in steps  # shared: no plan's label
+
+
+def test_an_order_across_two_telescopes_parks_each_telescope(site, telescope, users):
+    from observatory_ops.registry.models import Telescope
+
+    other = Telescope.objects.create(site=site, name="West", aperture_m=0.4, mount="fork")
+    plans = [
+        plan
+        for scope in (telescope, other)
+        for kind in ("brake", "cooling_fans")
+        for plan in subsystem_create(scope, kind, kind, counting_from=dt.date(2026, 1, 1)).plans.all()
+    ]
+    steps = services.work_order_from_due(plans, users["engineer"]).step_list
+    park = "Park the telescope at its service position."
+    assert [s for s in steps if s.endswith(park)] == [f"[{telescope.name}] {park}", f"[West] {park}"]
+    assert steps.count(LOCKOUT) == 1
 
 
 def test_ad_hoc_steps_keep_a_known_powered_step_before_the_lockout(telescope, users, site):

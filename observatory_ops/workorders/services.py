@@ -7,6 +7,8 @@ then recomputes the site's due states. It is claimed with a conditional UPDATE (
 from __future__ import annotations
 
 import datetime as dt
+import graphlib
+import heapq
 import re
 from collections import Counter
 from collections.abc import Collection, Sequence
@@ -103,21 +105,69 @@ def _steps_for(plans: Sequence[ServicePlan], labels: dict[int, str], hazards: Se
     With energy to isolate, the steps of all the plans go in three runs, each in plan order: those done under
     power before isolation, then (after the one lockout step) the work with the energy locked out, then the
     restoring, from the first step that removes the locks (``catalogue.RESTORE``). So no plan's locks come
-    off while another plan's locked-out work is still to do.
+    off while another plan's locked-out work is still to do. A powered or restoring step that several plans
+    on one telescope share (closing the dome, parking, restoring) is written once, for all of them.
     """
     powered, work, restoring = [], [], []
     for plan in plans:
-        prefix = f"[{labels[plan.pk]}] " if len(plans) > 1 else ""
-        steps = [prefix + step for step in (plan.step_list or [plan.task or plan.name])]
+        steps = [step.strip() for step in (plan.step_list or [plan.task or plan.name])]
         if not needs_isolation(hazards):
-            work += steps
+            work += [(plan, step) for step in steps]
             continue
         first = _powered_lead(steps)
         release = next((i for i in range(first, len(steps)) if _unprefixed(steps[i]) in RESTORE), len(steps))
-        powered += steps[:first]
-        work += steps[first:release]
-        restoring += steps[release:]
-    return steps_with_lockout(hazards, powered + work + restoring)
+        powered += [(plan, step) for step in steps[:first]]
+        work += [(plan, step) for step in steps[first:release]]
+        restoring += [(plan, step) for step in steps[release:]]
+    several = len(plans) > 1
+    lines = _shared_once(powered, labels, several) + _labelled(work, labels, several)
+    return steps_with_lockout(hazards, lines + _shared_once(restoring, labels, several))
+
+
+def _labelled(run: list[tuple[ServicePlan, str]], labels: dict[int, str], several: bool) -> list[str]:
+    return [f"[{labels[plan.pk]}] {step}" if several else step for plan, step in run]
+
+
+def _shared_once(run: list[tuple[ServicePlan, str]], labels: dict[int, str], several: bool) -> list[str]:
+    """The run's steps, a step that several plans on one telescope share written once: without a plan's
+    label, or with the telescope's name when the order spans several telescopes.
+
+    Merged so that every plan's steps keep their own order (a plan that tests under power before parking
+    still does): a topological order of the steps, each plan's sequence as the constraints, ties going to
+    the step met first. Plans that order two shared steps the other way round get their steps as written,
+    each with its plan's label.
+    """
+    def key(plan, step):
+        return plan.subsystem.telescope_id, step
+
+    sharing = Counter(key(plan, step) for plan, step in run)
+    if len(sharing) == len(run):
+        return _labelled(run, labels, several)
+    first_met = {}
+    for index, (plan, step) in enumerate(run):
+        first_met.setdefault(key(plan, step), (index, plan, step))
+    order = graphlib.TopologicalSorter({k: set() for k in first_met})
+    for previous, (plan, step) in zip(run, run[1:], strict=False):
+        if previous[0] is plan:
+            order.add(key(plan, step), key(*previous))
+    try:
+        order.prepare()
+    except graphlib.CycleError:
+        return _labelled(run, labels, several)
+    telescopes = len({plan.subsystem.telescope_id for plan, _ in run}) > 1
+    ready, lines = [(first_met[k][0], k) for k in order.get_ready()], []
+    heapq.heapify(ready)
+    while ready:
+        _, k = heapq.heappop(ready)
+        _, plan, step = first_met[k]
+        if sharing[k] == 1:
+            lines += _labelled([(plan, step)], labels, several)
+        else:
+            lines.append(f"[{plan.subsystem.telescope.name}] {step}" if telescopes else step)
+        order.done(k)
+        for after in order.get_ready():
+            heapq.heappush(ready, (first_met[after][0], after))
+    return lines
 
 
 def work_order_from_due(plans: Sequence[ServicePlan], by, planned_date: dt.date | None = None) -> WorkOrder:
