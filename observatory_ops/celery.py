@@ -57,11 +57,22 @@ class ServiceTask(Task):
         return super().retry(*args, exc=exc, **kwargs)
 
 
-def each_site(*task_names: str) -> int:
-    """Send the named tasks, in order, for every site (one chain per site); return the number of sites."""
+def each_site(*task_names: str, local_hour: int | None = None) -> int:
+    """Send the named tasks, in order, for every site (one chain per site); return the number of sites.
+
+    With ``local_hour``, only for the sites where the hour now is ``local_hour`` in their own time zone: an
+    hourly beat entry so reaches each site once a day at the same local time, wherever it is.
+    """
+    from django.utils import timezone
+
     from observatory_ops.registry.models import Site
 
-    site_ids = list(Site.objects.order_by("pk").values_list("pk", flat=True))
+    now = timezone.now()
+    site_ids = [
+        site.pk
+        for site in Site.objects.order_by("pk").only("pk", "time_zone")
+        if local_hour is None or now.astimezone(site.zone).hour == local_hour
+    ]
     for site_id in site_ids:
         chain(*(app.signature(name, args=(site_id,), immutable=True) for name in task_names)).delay()
     return len(site_ids)

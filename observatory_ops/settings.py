@@ -193,16 +193,21 @@ CELERY_BROKER_CONNECTION_RETRY_ON_STARTUP = True
 CELERY_BROKER_TRANSPORT_OPTIONS = {"visibility_timeout": int(os.environ.get("CELERY_VISIBILITY_TIMEOUT", "3600"))}
 CELERY_TIMEZONE = "UTC"
 CELERY_BEAT_SCHEDULE_FILENAME = str(DATA_DIR / "celerybeat-schedule")  # when each entry last ran
+#: Local hours (each site's own time zone) of the daily work: the hourly entries below reach each site then.
+SITE_NEW_DAY_HOUR = 0  # at half past: after the site's midnight, "today" moves on
+SITE_DIGEST_HOUR = 6  # on the hour: the engineers' morning
 CELERY_BEAT_SCHEDULE = {
-    # Each ingest recomputes its own site at once; this moves calendar triggers and "today" forward
-    # everywhere, and adds the next night to each site's nights cache.
-    "nightly-sky-and-recompute": {
+    # Each ingest recomputes its own site at once; this moves calendar triggers and "today" forward at each
+    # site just after its local midnight, and adds the next night to its nights cache.
+    "site-new-day": {
         "task": "planning.sites_recompute_all",
-        "schedule": crontab(hour=3, minute=30),
+        "schedule": crontab(minute=30),
+        "kwargs": {"local_hour": SITE_NEW_DAY_HOUR},
     },
-    "daily-due-digest": {
+    "site-due-digest": {
         "task": "planning.sites_due_digest_all",
-        "schedule": crontab(hour=6, minute=0),
+        "schedule": crontab(minute=0),
+        "kwargs": {"local_hour": SITE_DIGEST_HOUR},
     },
     # Sunday 18:00 UTC is Sunday or early Monday at every site: each builds the week starting that Monday.
     "weekly-work-order-batch": {

@@ -15,6 +15,7 @@ from conftest import site_in_use
 from django.core import mail
 from django.core.cache import cache
 from django.db import OperationalError
+from django.utils.timezone import now as timezone_now
 
 from observatory_ops import celery_app
 from observatory_ops.logbook import services as logbook_services
@@ -174,6 +175,33 @@ def test_nightly_fan_out_recomputes_every_site(db):
     sites = [site_in_use("north"), site_in_use("south", kinds=("enclosure",))]
     assert planning_tasks.sites_recompute_all.delay().get() == 2
     assert [PlanStatus.objects.filter(site=s).count() for s in sites] == [6, 1]
+
+
+def test_the_daily_work_reaches_each_site_at_its_own_local_hour(db, monkeypatch):
+    """The beat runs the daily entries every hour; each site is taken when the hour is the right one in its
+    own zone (IANA time zone database: America/Denver is UTC-7 in December)."""
+    from django.conf import settings
+    from django.utils import timezone
+
+    utc_site, denver = site_in_use("greenwich"), site_in_use("denver")
+    denver.time_zone = "America/Denver"
+    denver.save()
+    monkeypatch.setattr(timezone, "now", lambda: dt.datetime(2026, 12, 2, 7, 30, tzinfo=dt.UTC))  # 00:30 in Denver
+    assert planning_tasks.sites_recompute_all.delay(local_hour=0).get() == 1
+    assert PlanStatus.objects.filter(site=denver).exists() and not PlanStatus.objects.filter(site=utc_site).exists()
+    monkeypatch.setattr(timezone, "now", lambda: dt.datetime(2026, 12, 2, 6, 0, tzinfo=dt.UTC))
+    assert planning_tasks.sites_due_digest_all.delay(local_hour=6).get() == 1  # 06:00 at Greenwich only
+    entries = {entry["task"]: entry for entry in settings.CELERY_BEAT_SCHEDULE.values()}
+    assert entries["planning.sites_recompute_all"]["kwargs"] == {"local_hour": settings.SITE_NEW_DAY_HOUR}
+    assert entries["planning.sites_due_digest_all"]["kwargs"] == {"local_hour": settings.SITE_DIGEST_HOUR}
+
+
+def test_a_digest_lists_the_sites_today_even_when_its_states_are_from_yesterday(mailed_people):
+    site = site_in_use("stale")
+    planning.site_recompute(site, planning.site_today(site) - dt.timedelta(days=1))
+    PlanStatus.objects.filter(site=site).update(computed_at=timezone_now() - dt.timedelta(days=1))
+    digest.due_digest_send(site)
+    assert PlanStatus.objects.filter(site=site).first().computed_at.date() == timezone_now().date()
 
 
 # --- ingest -----------------------------------------------------------------------------------------

@@ -18,7 +18,7 @@ from observatory_ops.access.roles import ENGINEER, holders_of
 from observatory_ops.registry.models import Site
 
 from . import selectors
-from .services import site_today
+from .services import site_today, sites_bring_up_to_date
 
 log = logging.getLogger(__name__)
 
@@ -61,6 +61,7 @@ def due_digest_send(site: Site, today: dt.date | None = None) -> int:
     worker killed between claim and send is covered by the next day's, which lists every item again.
     """
     today = today or site_today(site)
+    sites_bring_up_to_date([site])  # states computed before the site's today would list yesterday's items
     to = recipients()
     if not to:
         log.warning("due digest of %s not sent: no engineer or administrator has an e-mail address", site)

@@ -42,12 +42,14 @@ def due_digest_send(site_id: int) -> int:
 
 
 @shared_task(base=ServiceTask, name="planning.sites_recompute_all")
-def sites_recompute_all() -> int:
-    """Nightly: for every site, extend its nights cache, then recompute it. Returns the number of sites."""
-    return each_site(site_sky_refresh.name, site_recompute.name)
+def sites_recompute_all(local_hour: int | None = None) -> int:
+    """Nightly: for every site (or those where it is ``local_hour`` o'clock), extend its nights cache, then
+    recompute it. Returns the number of sites."""
+    return each_site(site_sky_refresh.name, site_recompute.name, local_hour=local_hour)
 
 
 @shared_task(base=ServiceTask, name="planning.sites_due_digest_all")
-def sites_due_digest_all() -> int:
-    """Daily: send every site's due digest. Returns the number of sites."""
-    return each_site(due_digest_send.name)
+def sites_due_digest_all(local_hour: int | None = None) -> int:
+    """Daily: send every site's due digest (or of those where it is ``local_hour`` o'clock). Returns the
+    number of sites."""
+    return each_site(due_digest_send.name, local_hour=local_hour)

@@ -1,7 +1,6 @@
 from django.core.management.base import BaseCommand, CommandError
 
 from observatory_ops.planning import digest
-from observatory_ops.planning.services import sites_bring_up_to_date
 from observatory_ops.registry.models import Site
 
 
@@ -20,7 +19,6 @@ class Command(BaseCommand):
             sites = [s for s in sites if s.slug == site]
             if not sites:
                 raise CommandError(f"no site with slug {site!r}")
-        sites_bring_up_to_date(sites)
         for target in sites:
             sent = digest.due_digest_send(target)
             self.stdout.write(f"{target.name}: " + (f"sent to {sent} address(es)" if sent else
