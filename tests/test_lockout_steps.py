@@ -18,7 +18,7 @@ import re
 import pytest
 from test_workorders import drive, order  # noqa: F401  (fixtures, used by name)
 
-from observatory_ops.registry.catalogue import BEFORE_ISOLATION, KINDS, RESTORE
+from observatory_ops.registry.catalogue import BEFORE_ISOLATION, KINDS, RELEASE, RESTORE
 from observatory_ops.registry.services import subsystem_create
 from observatory_ops.workorders import services
 from observatory_ops.workorders.models import State, WorkOrder
@@ -63,9 +63,11 @@ def test_the_locks_come_off_only_under_the_site_procedure(kind, plan):
         if moves.search(step):
             assert "remove the lock only as the site's lockout procedure says" in step, step
     release, *in_service = plan.restore
-    assert "remove the locks and tags as the site's lockout procedure says" in release
-    for step in in_service:
-        assert "back in service" in step, step
+    assert release == RELEASE  # one wording, so an order over several plans removes the locks once
+    hands_on = re.compile(r"\b(inspect|clean|lubricate|replace|retighten|refit|strip|feeler|terminations)\b",
+                          re.IGNORECASE)
+    for step in in_service:  # after the locks are off: restoring and testing, no hands-on work
+        assert "remove the lock" not in step and not hands_on.search(step), step
 
 
 def test_the_primary_mirror_clean_parks_and_opens_the_cover_before_isolation(telescope, users):
@@ -100,6 +102,7 @@ def test_several_plans_isolate_once_and_restore_after_all_their_locked_out_work(
         assert positions == sorted(positions), plan.name
     assert len(unprefixed) == len(set(unprefixed))
     assert "Park the telescope at its service position." in steps  # shared: no plan's label
+    assert steps.count(RELEASE) == 1  # the locks come off once, after all the locked-out work
 
 
 def test_an_order_across_two_telescopes_parks_each_telescope(site, telescope, users):

@@ -53,6 +53,9 @@ class Kind:
     label: str
     hazards: tuple[str, ...]
     plans: tuple[PlanTemplate, ...] = field(default=())
+    #: Fed from a supply of its own rather than the telescope's (a dome's rotation and shutter drives): its
+    #: work needs an isolation point registered for the subsystem itself (workorders.selectors.isolation_gaps).
+    separate_supply: bool = False
 
 
 # Steps shared by several plans. Parking, closing the dome and live tests come before isolation; the
@@ -62,10 +65,13 @@ _OUT_OF_SERVICE = "Take the observatory out of robotic and remote control and cl
 _PARK = "Park the telescope at its service position."
 _PREPARE = (_READ_RECORDS, _OUT_OF_SERVICE, _PARK)
 _INSPECT = "Inspect for wear, looseness, contamination and damage; photograph anything unusual."
-_RESTORE = (
-    "When the work is done and everyone is clear, remove the locks and tags as the site's lockout procedure "
-    "says, restore the subsystem to service and test it under observation."
+#: The first restoring step of every plan: the one step that removes the locks. An order over several plans
+#: writes it once (workorders.services), after all their locked-out work.
+RELEASE = (
+    "When the work is done and everyone is clear of the telescope, remove the locks and tags as the site's "
+    "lockout procedure says."
 )
+_RESTORE = (RELEASE, "Restore the subsystem to service and test it under observation.")
 _READINGS_IN_SERVICE = "With the subsystem back in service, record the readings listed on this work order, if any."
 
 
@@ -118,8 +124,8 @@ KINDS: dict[str, Kind] = {
                         "Measure reflectance again at the same positions and record both sets.",
                     ),
                     restore=(
-                        "When everyone is clear of the telescope, remove the locks and tags as the site's lockout "
-                        "procedure says, close the mirror cover and return the telescope to service.",
+                        RELEASE,
+                        "Close the mirror cover and return the telescope to service.",
                     ),
                     estimated_hours=3.0,
                 ),
@@ -142,8 +148,8 @@ KINDS: dict[str, Kind] = {
                         "Refit the mirror and its cell with the supports and clips set as before.",
                     ),
                     restore=(
-                        "When everyone is clear, remove the locks and tags as the site's lockout procedure says, "
-                        "check the axis balance as that procedure says and return the telescope to service.",
+                        RELEASE,
+                        "Check the axis balance as the site's procedure says and return the telescope to service.",
                     ),
                     estimated_hours=40.0,
                 ),
@@ -171,9 +177,7 @@ KINDS: dict[str, Kind] = {
                         "Inspect the secondary coating; photograph anything unusual.",
                         "Clean with CO2 snow from the centre outward, keeping the nozzle moving.",
                     ),
-                    restore=(
-                        _RESTORE,
-                    ),
+                    restore=_RESTORE,
                     tools=("CO2 snow gun with dry-gas purge",),
                     estimated_hours=2.0,
                 ),
@@ -199,9 +203,7 @@ KINDS: dict[str, Kind] = {
                         "Check each hinge for play and each petal and seal for wear and damage; photograph "
                         "anything unusual.",
                     ),
-                    restore=(
-                        _RESTORE,
-                    ),
+                    restore=_RESTORE,
                 ),
             ),
         ),
@@ -226,7 +228,7 @@ KINDS: dict[str, Kind] = {
                         "bolts; photograph anything unusual.",
                     ),
                     restore=(
-                        _RESTORE,
+                        *_RESTORE,
                         _READINGS_IN_SERVICE,
                     ),
                     estimated_hours=2.0,
@@ -250,7 +252,7 @@ KINDS: dict[str, Kind] = {
                     FROM_MEMORY + "; settle-time limit " + COMMON_PRACTICE,
                     before_isolation=_AXIS_BEFORE,
                     after_isolation=_AXIS_AFTER,
-                    restore=(_RESTORE,),
+                    restore=_RESTORE,
                     tools=("laptop with the mount's tuning software", "clamp meter"),
                     readings=(("following_error_arcsec", "as the mount's acceptance test"), ("motor_current_a", "")),
                     estimated_hours=2.0,
@@ -274,7 +276,7 @@ KINDS: dict[str, Kind] = {
                     FROM_MEMORY + "; settle-time limit " + COMMON_PRACTICE,
                     before_isolation=_AXIS_BEFORE,
                     after_isolation=_AXIS_AFTER,
-                    restore=(_RESTORE,),
+                    restore=_RESTORE,
                     tools=("laptop with the mount's tuning software", "clamp meter"),
                     readings=(("following_error_arcsec", "as the mount's acceptance test"), ("motor_current_a", "")),
                     estimated_hours=2.0,
@@ -300,7 +302,7 @@ KINDS: dict[str, Kind] = {
                         _move_under_procedure("the axis", "to bring the rest of the disc within reach"),
                     ),
                     restore=(
-                        _RESTORE,
+                        *_RESTORE,
                         _READINGS_IN_SERVICE,
                     ),
                 ),
@@ -325,7 +327,7 @@ KINDS: dict[str, Kind] = {
                         _move_under_procedure("the axis", "to bring the rest of the scale within reach"),
                     ),
                     restore=(
-                        _RESTORE,
+                        *_RESTORE,
                         "With the drives back in service and everyone outside the swept volume, check the "
                         "read-head signal level along the full travel and record it.",
                     ),
@@ -354,9 +356,8 @@ KINDS: dict[str, Kind] = {
                         "photograph anything unusual.",
                     ),
                     restore=(
-                        "When the work is done and everyone is clear, remove the locks and tags as the site's "
-                        "lockout procedure says, restore the air slowly and check that the brake releases and "
-                        "holds.",
+                        RELEASE,
+                        "Restore the air slowly and check that the brake releases and holds.",
                     ),
                     tools=("pressure gauge with quick coupling", "feeler gauges"),
                     parts=("Brake pad set",),
@@ -386,9 +387,7 @@ KINDS: dict[str, Kind] = {
                         "Inspect the limit switches, their actuators and their wiring for wear, looseness and "
                         "damage; photograph anything unusual.",
                     ),
-                    restore=(
-                        _RESTORE,
-                    ),
+                    restore=_RESTORE,
                 ),
             ),
         ),
@@ -413,9 +412,7 @@ KINDS: dict[str, Kind] = {
                         "Inspect each cable wrap close up for chafe, strain and loose ties; photograph anything "
                         "unusual.",
                     ),
-                    restore=(
-                        _RESTORE,
-                    ),
+                    restore=_RESTORE,
                 ),
             ),
         ),
@@ -436,8 +433,8 @@ KINDS: dict[str, Kind] = {
                         _INSPECT,
                     ),
                     restore=(
-                        "When the work is done and everyone is clear, remove the locks and tags as the site's "
-                        "lockout procedure says, restore the supply and check that every fan runs.",
+                        RELEASE,
+                        "Restore the supply and check that every fan runs.",
                     ),
                     estimated_hours=0.5,
                     parts=("Fan intake filter 120 mm",),
@@ -456,8 +453,8 @@ KINDS: dict[str, Kind] = {
                         "Replace any fan that is noisy or whose current has drifted from its rating.",
                     ),
                     restore=(
-                        "When the work is done and everyone is clear, remove the locks and tags as the site's "
-                        "lockout procedure says, restore the supply and check that every fan runs.",
+                        RELEASE,
+                        "Restore the supply and check that every fan runs.",
                     ),
                     estimated_hours=0.5,
                 ),
@@ -482,9 +479,7 @@ KINDS: dict[str, Kind] = {
                         "Clean and lubricate the screws as the maker says; inspect them and their bearings for "
                         "wear.",
                     ),
-                    restore=(
-                        _RESTORE,
-                    ),
+                    restore=_RESTORE,
                 ),
             ),
         ),
@@ -507,9 +502,7 @@ KINDS: dict[str, Kind] = {
                         "Check collimation with the alignment laser or autocollimator, with the laser's "
                         "controlled area posted.",
                     ),
-                    restore=(
-                        _RESTORE,
-                    ),
+                    restore=_RESTORE,
                     estimated_hours=3.0,
                 ),
             ),
@@ -533,9 +526,7 @@ KINDS: dict[str, Kind] = {
                         "Open the enclosures, test for absence of voltage, and inspect the terminations for heat "
                         "marks and looseness; photograph anything unusual.",
                     ),
-                    restore=(
-                        _RESTORE,
-                    ),
+                    restore=_RESTORE,
                 ),
             ),
         ),
@@ -558,9 +549,7 @@ KINDS: dict[str, Kind] = {
                         "Inspect the supplies' terminations, fans and filters for heat marks, dust and looseness; "
                         "photograph anything unusual.",
                     ),
-                    restore=(
-                        _RESTORE,
-                    ),
+                    restore=_RESTORE,
                 ),
             ),
         ),
@@ -585,8 +574,8 @@ KINDS: dict[str, Kind] = {
                         "Clean the intake filters; inspect the cases and cables for dust and damage.",
                     ),
                     restore=(
-                        "When the work is done and everyone is clear, remove the locks and tags as the site's "
-                        "lockout procedure says, start the computers and check that the telescope answers.",
+                        RELEASE,
+                        "Start the computers and check that the telescope answers.",
                     ),
                 ),
             ),
@@ -615,9 +604,7 @@ KINDS: dict[str, Kind] = {
                         "Wait the discharge time the maker states, then clean the heat sinks and fan grilles and "
                         "check by hand that the fans spin freely.",
                     ),
-                    restore=(
-                        _RESTORE,
-                    ),
+                    restore=_RESTORE,
                 ),
             ),
         ),
@@ -643,12 +630,11 @@ KINDS: dict[str, Kind] = {
                         "photograph anything unusual.",
                         _move_under_procedure("the dome", "to bring the rest of the wheels within reach"),
                     ),
-                    restore=(
-                        _RESTORE,
-                    ),
+                    restore=_RESTORE,
                     estimated_hours=3.0,
                 ),
             ),
+            separate_supply=True,
         ),
         Kind("other", "Other", ()),
     )
