@@ -62,6 +62,7 @@ def typical_sheet() -> Sheet:
             for caution in cautions_for(["electrical", "moving_machinery", "suspended_load", "optical_surface"])
         ),
         precedence_statement=PRECEDENCE_STATEMENT,
+        isolation_needed=True,
         isolation_points=(
             "AC mains to the mount cabinet, isolator Q1",
             "Servo drives, enable key switch S2",

@@ -127,7 +127,26 @@ def test_ad_hoc_steps_keep_a_known_powered_step_before_the_lockout(telescope, us
         site, [mount_drive], "Replace encoder cable", users["technician"],
         steps="Park the telescope at its service position.\nReplace the encoder cable.",
     )
-    assert made.step_list == ["Park the telescope at its service position.", LOCKOUT, "Replace the encoder cable."]
+    assert made.step_list == [
+        "Park the telescope at its service position.", LOCKOUT, "Replace the encoder cable.", RELEASE
+    ]
+
+
+def test_ad_hoc_steps_in_their_groups_put_the_lockout_and_the_release_between_them(telescope, users, site, client):
+    """The reviewer's case: the engineer's own wording of powered steps, which no list can recognise."""
+    belt = subsystem_create(telescope, "axis1_drive", "Drive", counting_from=dt.date(2026, 1, 1))
+    client.force_login(users["engineer"])
+    response = client.post(f"/sites/{site.slug}/workorders/new/", {
+        "title": "Replace the drive belt", "order_type": "corrective", "subsystems": [belt.pk],
+        "powered": "Park the telescope at the zenith.\nClose the dome.",
+        "steps": "Replace the belt.", "restore": "Refit the guard, power up and test.",
+    })
+    assert response.status_code == 302
+    made = WorkOrder.objects.latest("pk")
+    assert made.step_list == [
+        "Park the telescope at the zenith.", "Close the dome.", LOCKOUT, "Replace the belt.", RELEASE,
+        "Refit the guard, power up and test.",
+    ]
 
 
 def test_work_without_energy_to_isolate_gets_no_lockout_step(telescope, users, site):

@@ -62,6 +62,7 @@ def make_sheet(**changes) -> Sheet:
             for caution in cautions_for(["electrical", "optical_surface", "moving_machinery"])
         ),
         precedence_statement=PRECEDENCE_STATEMENT,
+        isolation_needed=True,
         isolation_points=("AC mains isolator Q1, mount cabinet", "Compressed air valve V1 at the receiver"),
         steps=STEPS,
         parts=(SheetPart("Lens tissue", "LT-200", 2),),
@@ -155,6 +156,7 @@ def test_markup_in_any_user_text_prints_literally(hostile):
         site=f"Site {hostile}",
         why=(f"Why {hostile}",),
         cautions=(SheetCaution(f"Caution {hostile}", f"Do {hostile}", f"Standard {hostile}", "Danger to life"),),
+        isolation_needed=True,
         isolation_points=(f"Isolator {hostile}",),
         steps=(f"Step {hostile}",),
         parts=(SheetPart(f"Part {hostile}", f"No {hostile}", 1),),

@@ -52,5 +52,6 @@ class PartAdmin(SimpleHistoryAdmin):
 
 @admin.register(IsolationPoint)
 class IsolationPointAdmin(SimpleHistoryAdmin):
-    list_display = ("telescope", "energy", "label", "location")
+    list_display = ("telescope", "subsystem", "energy", "label", "location")
     list_filter = ("telescope__site", "energy")
+    autocomplete_fields = ("subsystem",)  # a network has thousands of subsystems: searched, not listed

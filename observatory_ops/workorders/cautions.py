@@ -23,6 +23,22 @@ HAZARDS: dict[str, str] = {
     "optical_surface": "Delicate optical surfaces",
 }
 
+#: Hazards whose energy must be isolated and locked out before work starts.
+ISOLATION_HAZARDS = ("electrical", "pneumatic", "moving_machinery")
+
+
+#: What the page and the printed order say when the work's hazards need nothing isolated.
+NO_ISOLATION_NEEDED = (
+    "This work needs no energy isolation: none of its hazards is electrical energy, stored pressure or a "
+    "telescope or dome that can move. If the work turns out to touch any of them, stop and ask the site engineer."
+)
+
+
+def needs_isolation(hazards: Iterable[str]) -> bool:
+    """True when any of the hazards needs energy isolated and locked out before the work."""
+    return any(h in ISOLATION_HAZARDS for h in hazards)
+
+
 DANGER_TO_LIFE = 4
 SERIOUS_INJURY = 3
 INJURY = 2

@@ -70,7 +70,20 @@ class AdHocForm(forms.Form):
     title = forms.CharField(max_length=200)
     order_type = forms.ChoiceField(choices=WorkOrder.Type.choices, initial=WorkOrder.Type.CORRECTIVE)
     subsystems = forms.ModelMultipleChoiceField(queryset=Subsystem.objects.none())
-    steps = forms.CharField(widget=forms.Textarea, required=False, help_text="One step per line.")
+    powered = forms.CharField(
+        widget=forms.Textarea(attrs={"rows": 3}), required=False, label="Steps under power, before isolation",
+        help_text="One step a line: taking the telescope out of robotic control, parking, closing the dome, tests "
+        "that need power. Empty if none.",
+    )
+    steps = forms.CharField(
+        widget=forms.Textarea, required=False, label="The work",
+        help_text="One step a line. Where the subsystems' hazards call for it, the lockout step comes before these.",
+    )
+    restore = forms.CharField(
+        widget=forms.Textarea(attrs={"rows": 3}), required=False, label="After the locks are off",
+        help_text="One step a line: restoring and testing. The step that removes the locks, under the site's "
+        "lockout procedure, comes before these.",
+    )
 
     def __init__(self, *args, site, **kwargs):
         super().__init__(*args, **kwargs)

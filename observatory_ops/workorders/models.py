@@ -5,6 +5,7 @@ from __future__ import annotations
 import re
 
 from django.conf import settings
+from django.core.exceptions import ValidationError
 from django.core.validators import MaxValueValidator, MinValueValidator
 from django.db import models
 from django.urls import reverse
@@ -209,6 +210,10 @@ class IsolationPoint(models.Model):
         OTHER = "other", "other"
 
     telescope = models.ForeignKey(Telescope, on_delete=models.CASCADE, related_name="isolation_points")
+    subsystem = models.ForeignKey(
+        Subsystem, on_delete=models.CASCADE, null=True, blank=True, related_name="isolation_points",
+        help_text="Only for work on this subsystem, e.g. the dome's own drives. Blank: for all work on the telescope.",
+    )
     energy = models.CharField(max_length=8, choices=Energy.choices)
     label = models.CharField(max_length=120, help_text="What to switch, lock and tag, e.g. 'Mount main isolator'.")
     location = models.CharField(max_length=120, blank=True)
@@ -220,11 +225,16 @@ class IsolationPoint(models.Model):
     def __str__(self) -> str:
         return f"{self.get_energy_display()}: {self.label}"
 
+    def clean(self) -> None:
+        if self.subsystem_id and self.telescope_id and self.subsystem.telescope_id != self.telescope_id:
+            raise ValidationError({"subsystem": "The subsystem must belong to the point's telescope."})
+
     @property
     def description(self) -> str:
         """The point in one line, as the page, the checklist record and the printed sheet word it."""
+        where = f"{self.telescope.name}: {self.subsystem.name}" if self.subsystem_id else self.telescope.name
         return (
-            f"{self.telescope.name}: {self.get_energy_display()}: {self.label}"
+            f"{where}: {self.get_energy_display()}: {self.label}"
             + (f" ({self.location})" if self.location else "")
             + (f"; prove dead: {self.verify}" if self.verify else "")
         )

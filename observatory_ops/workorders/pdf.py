@@ -50,7 +50,7 @@ from reportlab.platypus import (
     TableStyle,
 )
 
-from observatory_ops.workorders.cautions import SEVERITY_LABELS
+from observatory_ops.workorders.cautions import NO_ISOLATION_NEEDED, SEVERITY_LABELS
 from observatory_ops.workorders.sheet import Sheet, SheetCaution
 
 PAPER_SIZES: dict[str, tuple[float, float]] = {"A4": A4, "letter": LETTER}
@@ -450,6 +450,8 @@ def _cautions(sheet: Sheet, width: float) -> list[Flowable]:
 
 
 def _isolation(sheet: Sheet) -> list[Flowable]:
+    if not sheet.isolation_needed:
+        return [_heading("Energy isolation"), _note(NO_ISOLATION_NEEDED)]
     heading = _heading("Energy isolation points \N{EN DASH} lock out and tag each before the work starts")
     if not sheet.isolation_points:
         return [heading, _note("None listed for this telescope. Ask the site engineer before working on powered "

@@ -9,10 +9,11 @@ from django.utils import dateformat, timezone
 
 from observatory_ops.archive.history import Change, changes, person
 from observatory_ops.calc import lifting
+from observatory_ops.registry import catalogue
 from observatory_ops.registry.models import Site
 
 from . import sheet as sheet_
-from .cautions import PRECEDENCE_STATEMENT, SEVERITY_LABELS, Caution, cautions_for
+from .cautions import PRECEDENCE_STATEMENT, SEVERITY_LABELS, Caution, cautions_for, needs_isolation
 from .models import ChecklistTick, IsolationPoint, Part, State, WorkOrder
 
 
@@ -29,28 +30,55 @@ def cautions(order: WorkOrder) -> list[Caution]:
 
 
 def isolation_points(order: WorkOrder) -> list[IsolationPoint]:
-    telescopes = {i.subsystem.telescope_id for i in order.items.select_related("subsystem")}
+    """The points the order's lockout step locks: each of its telescopes' points for all work there, and
+    the points registered for one of its subsystems (a dome's own drives). None when its hazards need no
+    energy isolated (the order has no lockout step)."""
+    if not needs_isolation(order.hazards):
+        return []
+    items = list(order.items.select_related("subsystem"))
+    telescopes = {i.subsystem.telescope_id for i in items}
     if order.telescope_id:
         telescopes.add(order.telescope_id)
-    return list(IsolationPoint.objects.filter(telescope_id__in=telescopes).select_related("telescope"))
+    subsystems = {i.subsystem_id for i in items}
+    return list(
+        IsolationPoint.objects.filter(telescope_id__in=telescopes)
+        .filter(Q(subsystem__isnull=True) | Q(subsystem_id__in=subsystems))
+        .select_related("telescope", "subsystem")
+    )
 
 
 #: Which registered isolation points answer a hazard: without one, the lockout step has nothing to lock.
 _ISOLATES = {"electrical": {"ac", "dc", "servo"}, "pneumatic": {"air"}}
+_SOURCE = {"electrical": "electrical", "pneumatic": "compressed-air"}
 
 
 def isolation_gaps(order: WorkOrder) -> list[str]:
-    """A warning for each telescope of the order with a hazard but no isolation point for its energy."""
-    telescopes = {i.subsystem.telescope for i in order.items.select_related("subsystem__telescope")}
+    """A warning for each telescope of the order with a hazard but no isolation point for its energy, and
+    for each subsystem fed from a supply of its own (``catalogue.Kind.separate_supply``, a dome) with no
+    point registered for it: the telescope's points do not make its own drives safe."""
+    if not needs_isolation(order.hazards):
+        return []
+    points = isolation_points(order)
+    items = list(order.items.select_related("subsystem__telescope"))
     gaps = []
-    for telescope in sorted(telescopes, key=lambda t: t.name):
-        energies = set(telescope.isolation_points.values_list("energy", flat=True))
+    for telescope in sorted({i.subsystem.telescope for i in items}, key=lambda t: t.name):
+        energies = {p.energy for p in points if p.telescope_id == telescope.pk and p.subsystem_id is None}
         for hazard, answers in _ISOLATES.items():
             if hazard in order.hazards and not energies & answers:
                 gaps.append(
-                    f"No {'compressed-air' if hazard == 'pneumatic' else 'electrical'} isolation point is "
-                    f"registered for {telescope.name}: find and lock the supply before work, and have an engineer "
-                    "add it to the register."
+                    f"No {_SOURCE[hazard]} isolation point is registered for {telescope.name}: find and lock the "
+                    "supply before work, and have an engineer add it to the register."
+                )
+    for item in sorted(items, key=lambda i: i.subsystem.name):
+        subsystem = item.subsystem
+        kind = catalogue.KINDS.get(subsystem.kind)
+        if "electrical" in order.hazards and kind is not None and kind.separate_supply:
+            if not any(p.subsystem_id == subsystem.pk for p in points):
+                gaps.append(
+                    f"No isolation point is registered for {subsystem.telescope.name}: {subsystem.name}, which "
+                    "has a supply of its own: the telescope's points do not make its drives safe. Find and lock "
+                    "its supply before work, and have an engineer add the point to the register for this "
+                    "subsystem."
                 )
     return gaps
 
@@ -194,17 +222,19 @@ def sheet(order: WorkOrder, url: str) -> sheet_.Sheet:
     figures = lift(order)
     zone = order.site.zone
     points = isolation_points(order)
-    readings = list(order.required_readings.select_related("subsystem", "reading"))
+    readings = list(order.required_readings.select_related("subsystem__telescope", "reading"))
     telescopes = sorted({i.subsystem.telescope.name for i in items})
     subsystems = {i.subsystem_id: i.subsystem for i in items}.values()  # once each, in the order of the items
+
+    def where(subsystem) -> str:  # a subsystem as the sheet names it: with its telescope when there are several
+        return f"{subsystem.telescope.name}: {subsystem.name}" if len(telescopes) > 1 else subsystem.name
+
     return sheet_.Sheet(
         number=order.number,
         title=order.title,
         site=order.site.name,
         telescope=order.telescope.name if order.telescope else ", ".join(telescopes) or "several",
-        subsystems=tuple(
-            f"{s.telescope.name}: {s.name}" if len(telescopes) > 1 else s.name for s in subsystems
-        ),
+        subsystems=tuple(where(s) for s in subsystems),
         order_type=order.get_order_type_display(),
         priority=order.get_priority_display(),
         state=order.get_state_display(),
@@ -212,11 +242,16 @@ def sheet(order: WorkOrder, url: str) -> sheet_.Sheet:
         issued_on=order.issued_at.astimezone(zone).date() if order.issued_at else None,
         assignee=person(order.assignee),
         estimated_hours=order.estimated_hours,
-        why=tuple(f"{i.plan.name if i.plan else i.subsystem.name}: {i.why}" for i in items if i.why),
+        why=tuple(
+            f"{where(i.subsystem)}: {i.plan.name}: {i.why}" if i.plan and len(telescopes) > 1
+            else f"{i.plan.name if i.plan else where(i.subsystem)}: {i.why}"
+            for i in items if i.why
+        ),
         cautions=tuple(
             sheet_.SheetCaution(c.title, c.text, c.standard, SEVERITY_LABELS[c.severity]) for c in cautions(order)
         ),
         precedence_statement=PRECEDENCE_STATEMENT,
+        isolation_needed=needs_isolation(order.hazards),
         isolation_points=tuple(f"WARNING: {gap}" for gap in isolation_gaps(order))
         + tuple(p.description for p in points),
         steps=tuple(order.step_list),
@@ -227,7 +262,7 @@ def sheet(order: WorkOrder, url: str) -> sheet_.Sheet:
         tools=tuple(order.tool_list),
         readings=tuple(
             sheet_.SheetReading(
-                f"{r.quantity_label} ({r.subsystem.name})", r.unit, r.limit_text,
+                f"{r.quantity_label} ({where(r.subsystem)})", r.unit, r.limit_text,
                 recorded=f"{r.reading.value:g}" if r.reading else "", beyond_limit=r.recorded_beyond_limit,
             )
             for r in readings

@@ -25,16 +25,14 @@ from observatory_ops.logbook.quantities import QUANTITIES, value_problem
 from observatory_ops.planning.metrics import READING
 from observatory_ops.planning.models import ServicePlan
 from observatory_ops.planning.services import site_recompute, site_today
-from observatory_ops.registry.catalogue import BEFORE_ISOLATION, RESTORE
+from observatory_ops.registry.catalogue import BEFORE_ISOLATION, RELEASE, RESTORE
 from observatory_ops.registry.models import Site, Subsystem
 
-from .cautions import HAZARDS
+from .cautions import HAZARDS, ISOLATION_HAZARDS, needs_isolation
 from .lifecycle import TRANSITIONS
 from .models import ChecklistTick, Part, PartUse, RequiredReading, State, WorkOrder, WorkOrderItem
 from .selectors import isolation_points, latest_ticks, unticked_lines
 
-#: Hazards whose energy must be isolated and locked out before work starts.
-ISOLATION_HAZARDS = ("electrical", "pneumatic", "moving_machinery")
 LOCKOUT_STEP = (
     "Isolate, lock and tag every energy source listed under 'Energy isolation points'; release stored "
     "pressure; try to start the drives to prove they are dead before touching anything."
@@ -48,11 +46,6 @@ class Refused(Exception):
 def _hazards_of(subsystems: Sequence[Subsystem], plans: Sequence[ServicePlan]) -> list[str]:
     found = {h for s in subsystems for h in s.hazards} | {h for p in plans for h in p.hazards}
     return [h for h in HAZARDS if h in found]
-
-
-def needs_isolation(hazards: Sequence[str]) -> bool:
-    """True when any of the hazards needs energy isolated and locked out before the work."""
-    return any(h in ISOLATION_HAZARDS for h in hazards)
 
 
 def lockout_missing(hazards: Sequence[str], steps: Sequence[str]) -> bool:
@@ -229,19 +222,31 @@ def _require_reading(order: WorkOrder, subsystem: Subsystem, quantity: str, limi
 
 def work_order_ad_hoc(
     site: Site, subsystems: Sequence[Subsystem], title: str, by, order_type: str = WorkOrder.Type.CORRECTIVE,
-    steps: str = "",
+    steps: str = "", powered: str = "", restore: str = "",
 ) -> WorkOrder:
     """A work order not driven by a due item (a fault, an upgrade); its telescope is the subsystems' own
-    when they share one."""
+    when they share one.
+
+    Its steps come in the catalogue's three groups, one step a line each: ``powered`` (under power, before
+    isolation: parking, closing the dome, live tests), ``steps`` (the work) and ``restore`` (after the locks
+    are off). Where the hazards call for isolation, the lockout step goes after the powered steps (and after
+    any catalogue powered step that opens the work) and the release step (``catalogue.RELEASE``) before the
+    restoring; without one, the groups simply follow each other.
+    """
     if any(s.telescope.site_id != site.pk for s in subsystems):
         raise Refused("every subsystem must belong to the work order's site")
     telescopes = {s.telescope for s in subsystems}
     telescope = telescopes.pop() if len(telescopes) == 1 else None
     hazards = _hazards_of(subsystems, [])
+    before, work, after = ([line.strip() for line in text.splitlines() if line.strip()] for text in (powered, steps, restore))
+    lines = before + work
+    if lockout_missing(hazards, lines + after):
+        lines.insert(len(before) + _powered_lead(work), LOCKOUT_STEP)
+    if needs_isolation(hazards) and RELEASE not in after:
+        after.insert(0, RELEASE)
     with transaction.atomic():
         order = WorkOrder.objects.create(
-            site=site, telescope=telescope, title=title, order_type=order_type,
-            steps=steps_with_lockout(hazards, steps.splitlines()),
+            site=site, telescope=telescope, title=title, order_type=order_type, steps="\n".join(lines + after),
             hazards=hazards, created_by=by,
         )
         for subsystem in subsystems:

@@ -65,7 +65,8 @@ class Sheet:
 
     ``why`` has one line per due item (trigger, value now, limit, forecast). ``cautions`` are printed in
     a framed box before any step, most severe first, followed by ``precedence_statement``.
-    ``isolation_points`` are the energy isolation points of the telescope for the lockout step.
+    ``isolation_points`` are the energy isolation points of the telescope for the lockout step; with
+    ``isolation_needed`` False the work's hazards need nothing isolated and the sheet says so.
     ``findings`` is printed when present; otherwise blank ruled lines are left for writing.
     ``confirmations`` (finished work only) are the checklist lines ticked on the work order page, each
     with who ticked it and when, then those nobody ticked, with who confirmed they were done or did not apply.
@@ -88,6 +89,7 @@ class Sheet:
     why: tuple[str, ...]
     cautions: tuple[SheetCaution, ...]
     precedence_statement: str
+    isolation_needed: bool
     isolation_points: tuple[str, ...]
     steps: tuple[str, ...]
     parts: tuple[SheetPart, ...]

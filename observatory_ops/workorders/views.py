@@ -14,7 +14,7 @@ from observatory_ops.planning.services import site_today
 from observatory_ops.registry.models import Site
 
 from . import pdf, selectors, services
-from .cautions import PRECEDENCE_STATEMENT, cautions_for
+from .cautions import NO_ISOLATION_NEEDED, PRECEDENCE_STATEMENT, cautions_for, needs_isolation
 from .forms import AdHocForm, FinishForm, LiftForm, PartAddForm, WithdrawForm, WorkOrderEditForm
 from .lifecycle import TRANSITIONS, available
 from .models import Part, State, WorkOrder
@@ -59,7 +59,8 @@ def work_order_ad_hoc(request, slug):
     if request.method == "POST" and form.is_valid():
         d = form.cleaned_data
         order = services.work_order_ad_hoc(
-            site, list(d["subsystems"]), d["title"], request.user, order_type=d["order_type"], steps=d["steps"]
+            site, list(d["subsystems"]), d["title"], request.user, order_type=d["order_type"], steps=d["steps"],
+            powered=d["powered"], restore=d["restore"],
         )
         messages.success(request, f"{order.number} drafted.")
         return redirect(order)
@@ -88,6 +89,7 @@ def work_order_detail(request, pk):
             "checklist": selectors.checklist(order),
             "can_tick": order.state == State.UNDERWAY and has_role(request.user, TECHNICIAN),
             "isolation_gaps": selectors.isolation_gaps(order),
+            "no_isolation_needed": None if needs_isolation(order.hazards) else NO_ISOLATION_NEEDED,
             "readings": readings,
             "beyond_limit": [r for r in readings if r.recorded_beyond_limit],
             "part_uses": order.part_uses.select_related("part"),
@@ -125,7 +127,7 @@ def work_order_edit(request, pk):
         return redirect(order)
     return render(
         request, "workorders/edit.html",
-        {"form": form, "order": order, "needs_lockout": services.needs_isolation(order.hazards),
+        {"form": form, "order": order, "needs_lockout": needs_isolation(order.hazards),
          "lockout_step": services.LOCKOUT_STEP},
     )
 

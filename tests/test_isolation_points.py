@@ -1,0 +1,89 @@
+"""Which energy isolation points a work order's lockout step names, and the warnings when one is missing.
+
+A dome's rotation and shutter drives are fed from a supply of their own: locking out the mount does not
+make them safe, so an enclosure order needs a point registered for the enclosure itself. Isolating every
+energy source of the equipment worked on is OSHA 29 CFR 1910.147 (c)(4)(ii) and (d)(3); that a dome has a
+separate supply is common practice, no published source.
+"""
+from __future__ import annotations
+
+import datetime as dt
+
+import pytest
+from django.core.exceptions import ValidationError
+
+from observatory_ops.registry.models import Telescope
+from observatory_ops.registry.services import subsystem_create
+from observatory_ops.workorders import selectors, services
+from observatory_ops.workorders.models import IsolationPoint
+
+START = dt.date(2026, 1, 1)
+
+
+@pytest.fixture
+def dome(telescope):
+    IsolationPoint.objects.create(telescope=telescope, energy="ac", label="Mount isolator")
+    return subsystem_create(telescope, "enclosure", "Dome", counting_from=START)
+
+
+def _order(subsystem, users):
+    return services.work_order_from_due(list(subsystem.plans.all()), users["engineer"])
+
+
+def test_a_dome_order_without_a_point_of_its_own_is_warned(dome, users):
+    gaps = selectors.isolation_gaps(_order(dome, users))
+    assert len(gaps) == 1 and "Dome, which has a supply of its own" in gaps[0]
+
+
+def test_a_point_registered_for_the_dome_is_named_on_its_orders_only(dome, telescope, users):
+    point = IsolationPoint.objects.create(telescope=telescope, subsystem=dome, energy="ac",
+                                          label="Dome rotation and shutter isolator", location="dome ring panel")
+    order = _order(dome, users)
+    assert selectors.isolation_gaps(order) == []
+    assert {p.label for p in selectors.isolation_points(order)} == {"Mount isolator", point.label}
+    assert point.description.startswith(f"{telescope.name}: Dome: AC mains: Dome rotation and shutter isolator")
+    brake = subsystem_create(telescope, "brake", "Axis 1 brake", counting_from=START)
+    assert point not in selectors.isolation_points(_order(brake, users))
+
+
+def test_a_telescope_without_a_point_for_the_energy_is_warned(telescope, users):
+    brake = subsystem_create(telescope, "brake", "Axis 1 brake", counting_from=START)  # compressed air
+    gaps = selectors.isolation_gaps(_order(brake, users))
+    assert gaps == [f"No compressed-air isolation point is registered for {telescope.name}: find and lock the supply "
+                    "before work, and have an engineer add it to the register."]
+
+
+def test_a_point_for_a_subsystem_of_another_telescope_is_refused(dome, site):
+    other = Telescope.objects.create(site=site, name="West", aperture_m=0.4, mount="fork")
+    with pytest.raises(ValidationError, match="must belong to the point's telescope"):
+        IsolationPoint(telescope=other, subsystem=dome, energy="ac", label="Wrong").full_clean()
+
+
+def test_work_with_nothing_to_isolate_lists_no_points_and_says_why(telescope, site, users, client):
+    import io
+    import re
+
+    from pypdf import PdfReader
+
+    from observatory_ops.workorders.cautions import NO_ISOLATION_NEEDED
+
+    IsolationPoint.objects.create(telescope=telescope, energy="ac", label="Mount isolator")
+    box = subsystem_create(telescope, "other", "Eyepiece box", counting_from=START)
+    order = services.work_order_ad_hoc(site, [box], "Sort the eyepieces", users["engineer"], steps="Sort them.")
+    assert order.hazards == [] and selectors.isolation_points(order) == [] and selectors.isolation_gaps(order) == []
+    client.force_login(users["viewer"])
+    assert NO_ISOLATION_NEEDED in client.get(order.get_absolute_url()).content.decode()
+    document = client.get(f"/workorders/{order.pk}/pdf/").content
+    text = re.sub(r"\s+", " ", " ".join(page.extract_text() for page in PdfReader(io.BytesIO(document)).pages))
+    assert "This work needs no energy isolation" in text and "Mount isolator" not in text
+
+
+def test_a_sheet_over_two_telescopes_says_which_telescope_each_reading_is_for(site, telescope, users):
+    other = Telescope.objects.create(site=site, name="West", aperture_m=0.4, mount="fork")
+    brakes = [subsystem_create(t, "brake", "Axis 1 brake", counting_from=START) for t in (telescope, other)]
+    order = services.work_order_from_due([p for b in brakes for p in b.plans.all()], users["engineer"])
+    printed = selectors.sheet(order, "https://example.invalid/")
+    labels = [r.label for r in printed.readings]
+    assert len(labels) == len(set(labels)) > 0  # no two rows read alike
+    assert any(f"({telescope.name}: Axis 1 brake)" in label for label in labels)
+    assert any("(West: Axis 1 brake)" in label for label in labels)
