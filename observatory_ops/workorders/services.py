@@ -238,7 +238,7 @@ def work_order_ad_hoc(
     telescopes = {s.telescope for s in subsystems}
     telescope = telescopes.pop() if len(telescopes) == 1 else None
     hazards = _hazards_of(subsystems, [])
-    before, work, after = ([line.strip() for line in text.splitlines() if line.strip()] for text in (powered, steps, restore))
+    before, work, after = ([s.strip() for s in text.splitlines() if s.strip()] for text in (powered, steps, restore))
     lines = before + work
     if lockout_missing(hazards, lines + after):
         lines.insert(len(before) + _powered_lead(work), LOCKOUT_STEP)
