@@ -3,9 +3,12 @@ from __future__ import annotations
 
 import datetime as dt
 import json
+import re
+from urllib.parse import urlsplit
 
 import numpy as np
 import pytest
+from django.conf import settings
 from django.core.management import call_command
 from django.core.management.base import CommandError
 
@@ -126,15 +129,16 @@ def test_recoat_plan_makes_work_orders_with_cautions_and_lifting(mirror, users):
     figures = selectors.lift(removal)
     assert figures.mirror_kg > 0
     assert "chemical" in orders[1].hazards and "laser" in orders[3].hazards
-    # Parking is done under power before the lockout; the locks come off only at the end of the phase.
+    # Pointing the tube at the zenith is done under power before the lockout; the removal never takes the
+    # locks off (the telescope stays pinned and out of balance until the reinstall: tests/test_recoat_phases.py).
     from observatory_ops.workorders.services import LOCKOUT_STEP
 
     steps = removal.steps.splitlines()
-    assert steps.index(LOCKOUT_STEP) == 2 and "Park the telescope horizontal" in steps[1]
-    assert "remove the locks and tags" in steps[-1]
+    assert steps.index(LOCKOUT_STEP) == 2 and "Point the tube at the zenith" in steps[1]
+    assert "Leave the drives locked out until the reinstall" in steps[-1]
     realign = orders[3].steps.splitlines()
     assert realign.index(LOCKOUT_STEP) < realign.index(next(s for s in realign if s.startswith("Collimate")))
-    assert realign[-1].startswith("Under power")
+    assert realign[-2].startswith("Under power") and "robotic and remote control" in realign[-1]
 
 
 def test_the_same_recoat_window_planned_twice_is_refused_until_the_first_is_withdrawn(mirror, users):
@@ -173,7 +177,8 @@ def test_calendar_export_is_rfc5545(mirror, users, client):
     coat = next(e for e in events if str(e["summary"]).endswith("strip and coat"))
     assert (coat.decoded("dtstart"), coat.decoded("dtend")) == (dt.date(2026, 8, 4), dt.date(2026, 8, 7))
     assert mirror.subsystem.telescope.name in str(removal["summary"])
-    assert str(removal["uid"]).endswith("@testserver")  # unique to the installation (RFC 5545 3.8.4.7)
+    # Unique to the installation (RFC 5545 3.8.4.7): the host of settings.SITE_URL, not of the request.
+    assert str(removal["uid"]).endswith(f"@{urlsplit(settings.SITE_URL).hostname}")
 
 
 @pytest.mark.parametrize(
@@ -224,3 +229,135 @@ def test_dust_weighting_used_for_mirrors_matches_the_exposure_module(mirror):
     state = services.mirror_forecast(mirror, TODAY)
     expected = exposure.dust_weighted_hours([4.0] * 300, [40.0] * 300, 1.0).sum()
     assert state.exposure_now_h == pytest.approx(float(expected))
+
+
+# --- the recoat orders' reason, the mirror page, the calendar file ----------------------------------------
+
+
+@pytest.fixture
+def on_today(monkeypatch):
+    """The mirror's site reads its "today" as TODAY, the last day of the fixture's log."""
+    monkeypatch.setattr(services, "site_today", lambda site, now=None: TODAY)
+
+
+def _constant_sky(mirror):
+    """8 dark hours a night from the coating to past the forecast horizon (as in the crossing test above)."""
+    start = TODAY - dt.timedelta(days=300)
+    NightSky.objects.bulk_create(
+        NightSky(site=mirror.subsystem.telescope.site, night=start + dt.timedelta(days=i), dark_hours=8,
+                 moon_illumination=0.5, moonless_dark_hours=4) for i in range(300 + 3 * 366 + 10)
+    )
+
+
+def test_recoat_orders_name_the_recoat_line_and_the_forecast_they_answer(mirror, users, on_today):
+    from observatory_ops.calc.windows import RECOAT_PHASES
+    from observatory_ops.workorders import selectors
+
+    _constant_sky(mirror)
+    plan = services.recoat_plan_create(mirror, dt.date(2026, 8, 1), list(RECOAT_PHASES), 3.5, users["engineer"])
+    state = services.mirror_forecast(mirror, TODAY)
+    # Hand computation (see the first test): line 0.90 x (1 - 0.08) = 0.828; 1800 dust-weighted hours more at
+    # 8 a night is 225 nights, day index 224 from today (the fitted exposure is 4200 h only to rounding).
+    assert abs((state.crossing - (TODAY + dt.timedelta(days=224))).days) <= 1
+    assert state.crossing_earliest <= state.crossing <= state.crossing_latest
+    early, late = state.crossing_earliest, state.crossing_latest
+    start = f"{early:%d %b}" if early.year == late.year else f"{early:%d %b %Y}"
+    expected = (
+        f"Reflectance forecast to reach the recoat line 0.828 on {state.crossing:%d %b %Y} "
+        f"(between {start} and {late:%d %b %Y}); recoat window 01 Aug 2026 to 12 Aug 2026"
+    )
+    for order in plan.work_orders.all():  # the printed "Why" line, named by the subsystem (no recoat plan here)
+        assert selectors.sheet(order, "https://ops.example/").why == (f"Primary: {expected}",)
+
+
+def test_recoat_reason_when_already_below_the_line_or_not_yet_fitted(mirror):
+    state = services.mirror_forecast(mirror, TODAY)
+    state.current = 0.82  # below the 0.828 line
+    assert services.recoat_reason(state, dt.date(2026, 8, 1), dt.date(2026, 8, 12)).startswith(
+        "Reflectance estimated at 0.820, already at or below the recoat line 0.828;"
+    )
+    bare = services.MirrorForecast(mirror, TODAY, "Al", 0.9, "", 0.0, fit_note="no fit yet: 1 reading",
+                                   threshold=0.828)
+    assert services.recoat_reason(bare, dt.date(2026, 8, 1), dt.date(2026, 8, 12)) == (
+        "Recoat line 0.828, no crossing forecast (no fit yet: 1 reading); recoat window 01 Aug 2026 to 12 Aug 2026"
+    )
+
+
+def _page_text(client, mirror) -> str:
+    from django.utils.html import strip_tags
+
+    response = client.get(mirror.get_absolute_url())
+    assert response.status_code == 200
+    return re.sub(r"\s+", " ", strip_tags(response.content.decode()))
+
+
+def test_mirror_page_says_the_forecast_assumes_no_cleanings_and_where_the_loss_fraction_comes_from(
+    mirror, users, client, on_today
+):
+    _constant_sky(mirror)
+    client.force_login(users["viewer"])
+    text = _page_text(client, mirror)
+    assert "Crosses the line about" in text
+    assert "The forecast assumes no further cleanings" in text
+    # The default 8 % is a rule of thumb, worded as the model's help text words it.
+    assert "common practice, no published source" in Mirror._meta.get_field("recoat_loss").help_text
+    assert "8% below the fitted fresh value R0 = 0.9000 (the default recoat loss: common practice, no published " \
+        "source)" in text
+    mirror.recoat_loss = 0.10
+    mirror.save()
+    text = _page_text(client, mirror)
+    assert "10% below the fitted fresh value R0 = 0.9000 (recoat loss set for this mirror; the default is common " \
+        "practice, no published source)" in text
+
+
+def _events(client, slug, **extra):
+    from icalendar import Calendar
+
+    response = client.get(f"/sites/{slug}/downtime.ics", **extra)
+    assert response.status_code == 200
+    return list(Calendar.from_ical(response.content).walk("VEVENT"))
+
+
+def test_calendar_status_follows_the_work_order_state(mirror, users, client):
+    """RFC 5545 3.8.1.11: TENTATIVE for a draft, CONFIRMED for work issued, under way or done, and withdrawn
+    work kept as CANCELLED (so a calendar that imported the event marks it off rather than keeping it)."""
+    from observatory_ops.calc.windows import RECOAT_PHASES
+    from observatory_ops.mirrors.calendar_export import EVENT_STATUS
+    from observatory_ops.workorders.models import State
+
+    assert set(EVENT_STATUS) == set(State)  # every state has a status
+    plan = services.recoat_plan_create(mirror, dt.date(2026, 8, 1), list(RECOAT_PHASES), 3.5, users["engineer"])
+    removal, coating, reinstall, realign = plan.work_orders.order_by("planned_date")
+    client.force_login(users["viewer"])
+    slug = mirror.subsystem.telescope.site.slug
+
+    def statuses():
+        found = {}
+        for event in _events(client, slug):
+            summary = str(event["summary"])
+            found["window" if summary.startswith("Recoat window") else summary.split(": ")[-1]] = str(event["status"])
+        return found
+
+    assert set(statuses().values()) == {"TENTATIVE"}  # all drafts, and the window with them
+    type(removal).objects.filter(pk=removal.pk).update(state=State.FINISHED)
+    type(removal).objects.filter(pk=coating.pk).update(state=State.UNDERWAY)
+    type(removal).objects.filter(pk=reinstall.pk).update(state=State.ISSUED)
+    type(removal).objects.filter(pk=realign.pk).update(state=State.WITHDRAWN)
+    assert statuses() == {"removal": "CONFIRMED", "strip and coat": "CONFIRMED", "reinstall": "CONFIRMED",
+                          "realignment and measurement": "CANCELLED", "window": "CONFIRMED"}
+    plan.work_orders.update(state=State.WITHDRAWN)
+    assert set(statuses().values()) == {"CANCELLED"}  # the window too, once none of its orders is in force
+
+
+def test_calendar_uids_do_not_depend_on_the_address_it_was_fetched_through(mirror, users, client, settings):
+    """RFC 5545 3.8.4.7: the same event keeps its UID, globally unique (host of settings.SITE_URL on the right)."""
+    from observatory_ops.calc.windows import RECOAT_PHASES
+
+    settings.SITE_URL = "https://ops.vestal-ridge.example:8443"
+    services.recoat_plan_create(mirror, dt.date(2026, 8, 1), list(RECOAT_PHASES), 3.5, users["engineer"])
+    client.force_login(users["viewer"])
+    slug = mirror.subsystem.telescope.site.slug
+    one = [str(e["uid"]) for e in _events(client, slug, HTTP_HOST="127.0.0.1:8102")]
+    other = [str(e["uid"]) for e in _events(client, slug, HTTP_HOST="localhost")]
+    assert one == other and len(set(one)) == len(one) == 5
+    assert all(uid.endswith("@ops.vestal-ridge.example") for uid in one)

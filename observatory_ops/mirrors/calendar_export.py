@@ -4,6 +4,7 @@ from __future__ import annotations
 import datetime as dt
 from urllib.parse import urlsplit
 
+from django.conf import settings
 from django.utils import timezone
 from icalendar import Calendar, Event
 
@@ -12,23 +13,54 @@ from observatory_ops.workorders.models import State, WorkOrder
 
 from .models import RecoatPlan
 
+#: RFC 5545 3.8.1.11 STATUS of an event for each work order state: a draft is tentative, work issued,
+#: under way or done is confirmed (done work stays as history), and withdrawn work is cancelled, so a
+#: calendar that imported the event earlier marks it off instead of keeping it.
+EVENT_STATUS = {
+    State.DRAFT: "TENTATIVE",
+    State.ISSUED: "CONFIRMED",
+    State.UNDERWAY: "CONFIRMED",
+    State.FINISHED: "CONFIRMED",
+    State.COUNTERSIGNED: "CONFIRMED",
+    State.WITHDRAWN: "CANCELLED",
+}
+
+
+def uid_host() -> str:
+    """The right-hand side of every event's UID: the host of ``settings.SITE_URL``.
+
+    RFC 5545 3.8.4.7 asks for a UID unique beyond this calendar and the same each time the event is sent;
+    the installation's configured host gives both, whatever address the calendar was fetched through.
+    """
+    return (urlsplit(settings.SITE_URL).hostname or "observatory-ops").lower()
+
+
+def _window_status(plan: RecoatPlan) -> str:
+    """A recoat window is cancelled when all its orders are withdrawn, tentative while those left are drafts."""
+    states = {order.state for order in plan.work_orders.all()} - {State.WITHDRAWN}
+    if not states and plan.work_orders.all():
+        return "CANCELLED"
+    return "TENTATIVE" if states <= {State.DRAFT} else "CONFIRMED"
+
 
 def site_calendar(site: Site, base_url: str) -> bytes:
-    """All-day events: each planned, open work order, and each recoat window of the site."""
+    """All-day events: each planned work order (withdrawn ones cancelled), and each recoat window of the site.
+
+    ``base_url`` is where the links in the descriptions point; the events' UIDs do not depend on it.
+    """
     calendar = Calendar()
     calendar.add("prodid", "-//observatory_ops//planned work//EN")
     calendar.add("version", "2.0")
     calendar.add("x-wr-calname", f"{site.name}: planned work")
     stamp = timezone.now()
-    # RFC 5545 3.8.4.7: a UID unique beyond this calendar; the installation's host name makes it so.
-    host = urlsplit(base_url).netloc or "observatory-ops"
+    host = uid_host()
 
-    def all_day(uid: str, first: dt.date, last: dt.date, summary: str, description: str) -> None:
+    def all_day(uid: str, first: dt.date, last: dt.date, summary: str, description: str, status: str) -> None:
         # RFC 5545 3.6.1: an all-day event's DTEND is the day after its last day.
         event = Event()
         for key, value in (("uid", f"{uid}@{host}"), ("dtstamp", stamp), ("dtstart", first),
                            ("dtend", last + dt.timedelta(days=1)), ("summary", summary),
-                           ("description", description)):
+                           ("description", description), ("status", status)):
             event.add(key, value)
         calendar.add_component(event)
 
@@ -38,19 +70,19 @@ def site_calendar(site: Site, base_url: str) -> bytes:
     )
     last_day = _phase_last_days(plans)
     orders = (
-        WorkOrder.objects.filter(site=site, planned_date__isnull=False).exclude(state=State.WITHDRAWN)
-        .select_related("telescope")
+        WorkOrder.objects.filter(site=site, planned_date__isnull=False).select_related("telescope")
     )
     for order in orders:
         address = base_url.rstrip("/") + order.get_absolute_url()
         where = f"{order.telescope.name}: " if order.telescope else ""
         all_day(f"workorder-{order.pk}", order.planned_date, last_day.get(order.pk, order.planned_date),
-                f"{order.number} {where}{order.title}", f"State: {order.get_state_display()}. {address}")
+                f"{order.number} {where}{order.title}", f"State: {order.get_state_display()}. {address}",
+                EVENT_STATUS[order.state])
     for plan in plans:
         subsystem = plan.mirror.subsystem
         all_day(f"recoat-{plan.pk}", plan.starts_on, plan.ends_on,
                 f"Recoat window: {subsystem.telescope.name} {subsystem.name}",
-                ", ".join(f"{p['name']} {p['days']} d" for p in plan.phases))
+                ", ".join(f"{p['name']} {p['days']} d" for p in plan.phases), _window_status(plan))
     return calendar.to_ical()
 
 

@@ -9,6 +9,7 @@ import datetime as dt
 import functools
 import math
 from dataclasses import dataclass, field
+from typing import NamedTuple
 
 import numpy as np
 from django.core.exceptions import ValidationError
@@ -79,6 +80,13 @@ def _exposure_at(log: UsageLog, per_night: np.ndarray, since: dt.date, days: lis
     return cumulative[np.maximum(ends, start)] - cumulative[start]
 
 
+def _loss_basis(mirror: Mirror) -> str:
+    """Where the recoat loss fraction comes from, in the model's help-text wording."""
+    if mirror.recoat_loss == Mirror._meta.get_field("recoat_loss").default:
+        return " (the default recoat loss: common practice, no published source)"
+    return " (recoat loss set for this mirror; the default is common practice, no published source)"
+
+
 def mirror_forecast(
     mirror: Mirror, today: dt.date | None = None, log: UsageLog | None = None, model: UsageModel | None = None
 ) -> MirrorForecast:
@@ -120,12 +128,14 @@ def mirror_forecast(
     except ValueError as exc:
         result.fit_note = f"no fit yet: {exc}"
         result.threshold = fresh * (1 - mirror.recoat_loss)
-        result.threshold_basis = f"{mirror.recoat_loss:.0%} below the computed fresh value"
+        result.threshold_basis = f"{mirror.recoat_loss:.0%} below the computed fresh value{_loss_basis(mirror)}"
         return result
     result.fit = fit
     result.current = float(reflectance.predict(fit, [result.exposure_now_h])[0])
     result.threshold = fit.r0 * (1 - mirror.recoat_loss)
-    result.threshold_basis = f"{mirror.recoat_loss:.0%} below the fitted fresh value R0 = {fit.r0:.4f}"
+    result.threshold_basis = (
+        f"{mirror.recoat_loss:.0%} below the fitted fresh value R0 = {fit.r0:.4f}{_loss_basis(mirror)}"
+    )
     crossing = reflectance.crossing_exposure(fit, result.threshold)
     result.crossing_exposure_h = crossing.exposure_h
     if model is None or model.first_day > today:
@@ -249,55 +259,203 @@ def recoat_windows(mirror: Mirror, start: dt.date, horizon_days: int, phases: li
 
 # --- recoat plans -----------------------------------------------------------------------------------
 
-#: What each kind of recoat work (``calc.windows.Phase.work``) asks of its work order: (hazards, steps).
-_RESTORE_AFTER_PHASE = (
-    "When the phase's work is done and everyone is clear, remove the locks and tags as the site's lockout "
-    "procedure says."
+class _PhaseWork(NamedTuple):
+    """What one kind of recoat work (``calc.windows.Phase.work``) asks of its work order.
+
+    ``before`` is done under power before isolation, ``locked`` with the energy locked out, ``after`` once
+    the locked-out work is done; the lockout step goes between the first two when the hazards call for it
+    (``workorders.services.lockout_missing``). ``lifted`` says what the order's lifting figures are for:
+    the mirror in its cell, the mirror alone, or nothing.
+    """
+
+    hazards: tuple[str, ...]
+    before: tuple[str, ...]
+    locked: tuple[str, ...]
+    after: tuple[str, ...]
+    tools: tuple[str, ...]
+    lifted: str = ""
+
+
+_WITH_CELL, _MIRROR_ONLY = "mirror and cell", "mirror alone"
+
+# Between the removal and the reinstall the telescope stands for days without its heaviest part: the axes
+# stay pinned, the telescope tagged out of service and out of robotic control, and the drives locked out
+# (or powered only under the site's lockout procedure with the pins in). Telescope handling here is common
+# practice, no published source; the site's mirror-removal procedure and the maker's instructions come first.
+_OUT_OF_BALANCE_TAG = (
+    "Tag the telescope out of service at its controls and at the drive cabinet (primary mirror removed, "
+    "out of balance, axes pinned: do not move), keep the observatory out of robotic and remote control "
+    "until the reinstall order is finished, and tell the remote operators."
 )
-#: The hands-on phases of a recoat: (hazards, steps under power before isolation, steps with the energy
-#: locked out, steps after the locks are removed). The lockout step goes between the first two when the
-#: hazards call for it (``workorders.services.lockout_missing``).
+_MIRROR_ONLY_LIFT = (
+    "The lifting figures on this order are for the mirror and its cell together; the mirror lifted alone "
+    "is a smaller load (the mirror mass row), so rig for the figures or for the mirror mass as the lift "
+    "plan says."
+)
+
 _PHASE_WORK = {
-    "removal": (
-        ("suspended_load", "optical_surface", "moving_machinery", "height"),
-        ("Take the observatory out of robotic and remote control and close the dome.",
-         "Park the telescope horizontal at its service position.",),
-        ("Lock both axes mechanically; fit the mirror-handling fixture.",
-         "Rig the lift as the lifting figures say; a competent person checks the rigging.",
-         "Lower the cell, separate the mirror, place it in its transport crate face up.",),
-        (_RESTORE_AFTER_PHASE,),
+    "removal": _PhaseWork(
+        # The drives and the brake air are locked out: their cautions (an axis out of balance swings when the
+        # air returns) belong on the sheet with the lift.
+        hazards=("suspended_load", "optical_surface", "moving_machinery", "height", "electrical", "pneumatic"),
+        before=(
+            "Take the observatory out of robotic and remote control and close the dome.",
+            "Point the tube at the zenith at its service position, so the cell can come out of the tube "
+            "from below (or park as the site's mirror-removal procedure says, if it removes the mirror "
+            "another way).",
+        ),
+        locked=(
+            "Lock both axes mechanically with their locking pins; fit the mirror-handling fixture.",
+            "Set the lifting table (or cart) under the cell, rated for at least the total suspended load in "
+            "the lifting figures; a competent person checks the table and any rigging.",
+            "Unbolt the cell and lower it, with the mirror in it, out of the tube onto the lifting table; "
+            "move it clear of the telescope.",
+            f"Lift the mirror out of its cell with rated slings and place it face up in its transport crate. "
+            f"{_MIRROR_ONLY_LIFT}",
+            "The tube is now far out of balance: fit the balance weights the site's mirror-removal procedure "
+            "gives, if it gives any, and keep both axes pinned either way.",
+        ),
+        after=(
+            "When the phase's work is done and everyone is clear, leave both axes pinned and the locks on "
+            "the drives: do not remove them as at the end of other work.",
+            _OUT_OF_BALANCE_TAG,
+            "Leave the drives locked out until the reinstall. If the site needs power back before then, "
+            "restore it only as the site's lockout procedure says, with both axes still pinned and the "
+            "drives disabled; never release a brake or move an axis until the reinstall restores the "
+            "balance.",
+        ),
+        tools=(
+            "Lifting table or cart rated for at least the total suspended load (mirror and cell)",
+            "Rated slings and shackles for the mirror lift, inspected before use",
+            "Mirror-handling fixture",
+            "Axis locking pins",
+            "Balance weights, if the site's procedure uses them",
+            "Transport crate",
+            "Out-of-service tags",
+        ),
+        lifted=_WITH_CELL,
     ),
-    "coating": (
-        ("chemical", "optical_surface"),
-        (),
-        ("Strip the old coating with the agreed chemicals (safety data sheets at hand).",
-         "Coat to the recipe; record the witness-sample reflectance.",
-         "Log the new coating (date and recipe) on the mirror's page, so its decline starts again.",),
-        (),
+    "coating": _PhaseWork(
+        hazards=("suspended_load", "chemical", "vacuum_plant", "optical_surface"),
+        before=(),
+        locked=(
+            "If an outside coating plant does this work, the plant's own procedures, lift plans and safety "
+            "rules apply to all work there and take precedence over the steps below.",
+            "Before stripping, have the names of the stripping chemicals and their safety data sheets at "
+            "hand: the coating plant chooses the chemicals, and this order cannot know which it uses. Write "
+            "the chemicals' names here: ______________________",
+            "Lift the mirror from its crate into the stripping tank, and later into the coating chamber, with "
+            "rated slings or the plant's lifting fixture; a competent person checks the rigging. The lifting "
+            "figures on this order are for the mirror alone: add the mass of the fixture or spreader used.",
+            "Strip the old coating with those chemicals as their safety data sheets say.",
+            "Coat to the recipe in the vacuum chamber, operated only by people trained on that plant and as "
+            "its operating instructions say; record the witness-sample reflectance.",
+            "Lift the mirror back into its transport crate, face up, as the lifting figures say.",
+            "Log the new coating (date and recipe) on the mirror's page, so its decline starts again.",
+        ),
+        after=(),
+        tools=(
+            "Safety data sheets of the stripping chemicals named by the coating plant",
+            "Personal protective equipment the safety data sheets call for",
+            "Rated slings and shackles, or the coating plant's mirror-lifting fixture, inspected before use",
+            "Witness samples",
+        ),
+        lifted=_MIRROR_ONLY,
     ),
-    "reinstall": (
-        ("suspended_load", "optical_surface", "moving_machinery", "height"),
-        ("Check that the telescope is parked horizontal at its service position, as the removal left it.",),
-        ("Lift the mirror into the cell as the lifting figures say; set the support pads and clips.",
-         "Reinstall the cell and restore the axis balance.",),
-        (_RESTORE_AFTER_PHASE,),
+    "reinstall": _PhaseWork(
+        # The drives and the brake air are locked out: their cautions (an axis out of balance swings when the
+        # air returns) belong on the sheet with the lift.
+        hazards=("suspended_load", "optical_surface", "moving_machinery", "height", "electrical", "pneumatic"),
+        before=(
+            "Check that the telescope is as the removal left it: both axes pinned with the tube at the "
+            "zenith, tagged out of service, out of robotic and remote control (if the drives were powered "
+            "since, the lockout step below isolates them again). Do not move an axis under power: the "
+            "telescope is out of balance until this order restores the balance.",
+        ),
+        locked=(
+            f"Lift the mirror from its crate into the cell with rated slings; set the support pads and clips. "
+            f"{_MIRROR_ONLY_LIFT}",
+            "Raise the cell on the lifting table into the tube from below and bolt it as the site's "
+            "mirror-removal procedure says; a competent person checks the table and any rigging.",
+            "Take off any balance weights fitted at the removal and restore the axis balance with the drives "
+            "still locked out; check it as the site's balancing procedure says (for example one axis at a "
+            "time: hold it, draw its pin, and check that it does not turn under gravity, then pin it again).",
+        ),
+        after=(
+            "Only when both axes are balanced and everyone is clear, remove the pins, the locks and the tags "
+            "as the site's lockout procedure says; make the first moves under power slowly, with everyone "
+            "outside the swept volume.",
+            "Keep the observatory out of robotic and remote control until the realignment order is finished.",
+        ),
+        tools=(
+            "Lifting table or cart rated for at least the total suspended load (mirror and cell)",
+            "Rated slings and shackles for the mirror lift, inspected before use",
+            "Mirror-handling fixture",
+            "Torque wrench for the cell bolts",
+        ),
+        lifted=_WITH_CELL,
     ),
-    "realignment": (
-        ("laser", "moving_machinery", "height"),
-        ("Park the telescope at its service position.",),
-        ("Collimate with the alignment laser (laser controlled area posted), adjusting the cell with the "
-         "drives locked out.",
-         "Measure reflectance at the marked positions and record a reading per position.",),
-        (_RESTORE_AFTER_PHASE,
-         "Under power, check the collimation on a star and record the result.",),
+    "realignment": _PhaseWork(
+        hazards=("laser", "moving_machinery", "height"),
+        before=("Park the telescope at its service position.",),
+        locked=(
+            "Collimate with the alignment laser (laser controlled area posted), adjusting the cell with the "
+            "drives locked out.",
+            "Measure reflectance at the marked positions and record a reading per position.",
+        ),
+        after=(
+            "When the phase's work is done and everyone is clear, remove the locks and tags as the site's "
+            "lockout procedure says.",
+            "Under power, check the collimation on a star and record the result.",
+            "Return the observatory to robotic and remote control only when the collimation check is "
+            "recorded.",
+        ),
+        tools=("Alignment laser", "Reflectometer"),
     ),
 }
 
 
-def _phase_steps(hazards: list[str], before: tuple, locked: tuple, after: tuple) -> str:
+def _phase_steps(hazards: list[str], work: _PhaseWork) -> str:
     """A phase's steps in the order of the work, with the lockout step where the energy is isolated."""
-    isolate = lockout_missing(hazards, [*before, *locked])
-    return "\n".join([*before, *([LOCKOUT_STEP] if isolate else []), *locked, *(after if isolate else ())])
+    isolate = lockout_missing(hazards, [*work.before, *work.locked])
+    return "\n".join(
+        [*work.before, *([LOCKOUT_STEP] if isolate else []), *work.locked, *(work.after if isolate else ())]
+    )
+
+
+def _phase_lift(mirror: Mirror, work: _PhaseWork) -> dict | None:
+    """The lifting figures' inputs: the mirror in its cell, or alone (no cell, fixture not known here)."""
+    if work.lifted == _WITH_CELL:
+        return mirror.lift_inputs
+    if work.lifted == _MIRROR_ONLY:
+        return {**mirror.lift_inputs, "fixture_kg": 0.0}
+    return None
+
+
+def _band_start(first: dt.date, last: dt.date) -> str:
+    """The first date of a band, its year left to the last date when they share it."""
+    return f"{first:%d %b}" if first.year == last.year else f"{first:%d %b %Y}"
+
+
+def recoat_reason(state: MirrorForecast, starts_on: dt.date, ends_on: dt.date) -> str:
+    """Why a recoat order exists: the recoat line it answers, the forecast crossing with its band, the window."""
+    window = f"recoat window {starts_on:%d %b %Y} to {ends_on:%d %b %Y}"
+    if state.threshold is None:
+        return f"No recoat line yet ({state.fit_note}); {window}"
+    line = f"the recoat line {state.threshold:.3f}"
+    if state.current is not None and state.current <= state.threshold:
+        return f"Reflectance estimated at {state.current:.3f}, already at or below {line}; {window}"
+    if state.fit is None:
+        return f"Recoat line {state.threshold:.3f}, no crossing forecast ({state.fit_note}); {window}"
+    if state.crossing is None:
+        return f"Reflectance not forecast to reach {line} within three years; {window}"
+    # The early side is reached before the central date, so it is known whenever the central date is.
+    early, late = state.crossing_earliest, state.crossing_latest
+    if late is None:
+        band = f"between {early:%d %b %Y} and beyond three years"
+    else:
+        band = f"between {_band_start(early, late)} and {late:%d %b %Y}"
+    return f"Reflectance forecast to reach {line} on {state.crossing:%d %b %Y} ({band}); {window}"
 
 
 def recoat_plan_create(
@@ -312,6 +470,7 @@ def recoat_plan_create(
     ends_on = starts_on + dt.timedelta(days=total - 1)
     subsystem = mirror.subsystem
     recoat_plan = subsystem.plans.filter(active=True, name__icontains="recoat").first()
+    why = recoat_reason(mirror_forecast(mirror), starts_on, ends_on)
     with transaction.atomic():
         Mirror.objects.select_for_update().filter(pk=mirror.pk).exists()  # two submits at once take turns
         overlapping = (
@@ -333,19 +492,19 @@ def recoat_plan_create(
         for phase in phases:
             kind = phase.work
             if kind in _PHASE_WORK and phase.days > 0:
-                hazards, before, locked, after = _PHASE_WORK[kind]
-                hazards = [h for h in HAZARDS if h in set(hazards) | set(subsystem.hazards)]
+                work = _PHASE_WORK[kind]
+                hazards = [h for h in HAZARDS if h in set(work.hazards) | set(subsystem.hazards)]
                 order = WorkOrder.objects.create(
                     site=subsystem.telescope.site, telescope=subsystem.telescope,
                     title=f"Recoat {subsystem.name}: {phase.name}", planned_date=day,
-                    estimated_hours=8.0 * phase.days, steps=_phase_steps(hazards, before, locked, after),
-                    hazards=hazards,
-                    lift_inputs=mirror.lift_inputs if "suspended_load" in hazards else None,
+                    estimated_hours=8.0 * phase.days, steps=_phase_steps(hazards, work),
+                    tools="\n".join(work.tools), hazards=hazards,
+                    lift_inputs=_phase_lift(mirror, work) if "suspended_load" in hazards else None,
                     created_by=by,
                 )
                 WorkOrderItem.objects.create(
                     work_order=order, subsystem=subsystem, plan=recoat_plan if kind == "realignment" else None,
-                    why=f"Recoat window {plan.starts_on:%d %b %Y} to {plan.ends_on:%d %b %Y}",
+                    why=why,
                 )
                 if kind == "realignment":
                     RequiredReading.objects.create(

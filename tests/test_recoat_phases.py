@@ -1,0 +1,165 @@
+"""The draft work orders of a primary-mirror recoat, read as the technician reads them: the printed steps,
+cautions, tools and lifting figures of each phase (removal, strip and coat, reinstall, realignment).
+
+Telescope handling here (pinning an out-of-balance tube, lowering a cell from below onto a lifting table)
+is common practice, no published source; lockout follows OSHA 29 CFR 1910.147; slings OSHA 29 CFR 1910.184.
+"""
+from __future__ import annotations
+
+import datetime as dt
+import io
+import math
+
+import pytest
+from pypdf import PdfReader
+
+from observatory_ops.calc.windows import RECOAT_PHASES
+from observatory_ops.mirrors import services
+from observatory_ops.mirrors.models import CoatingEvent, Mirror
+from observatory_ops.registry.catalogue import KINDS
+from observatory_ops.registry.models import Subsystem
+from observatory_ops.workorders import pdf, selectors
+from observatory_ops.workorders.cautions import HAZARDS
+from observatory_ops.workorders.services import LOCKOUT_STEP
+
+URL = "https://ops.vestal-ridge.example/workorders/1/"
+
+
+@pytest.fixture
+def orders(telescope, users):
+    """The four recoat orders of a 500 mm borosilicate primary (120 mm hole, 50 mm thick) in a 30 kg cell."""
+    primary = Subsystem.objects.create(telescope=telescope, kind="primary_mirror", name="Primary")
+    mirror = Mirror.objects.create(subsystem=primary, diameter_mm=500, thickness_mm=50, hole_mm=120,
+                                   material="borosilicate", cell_mass_kg=30)
+    CoatingEvent.objects.create(mirror=mirror, coated_on=dt.date(2025, 8, 1), metal="al")
+    plan = services.recoat_plan_create(mirror, dt.date(2026, 8, 1), list(RECOAT_PHASES), 3.5, users["engineer"])
+    removal, coating, reinstall, realignment = plan.work_orders.order_by("planned_date")
+    return {"removal": removal, "coating": coating, "reinstall": reinstall, "realignment": realignment}
+
+
+def _first(steps: list[str], *words: str) -> int:
+    """Index of the first step holding all the words (case-insensitive)."""
+    return next(i for i, s in enumerate(steps) if all(w.lower() in s.lower() for w in words))
+
+
+def _printed(order) -> str:
+    document = pdf.render_sheet(selectors.sheet(order, URL))
+    return " ".join(" ".join(page.extract_text().split()) for page in PdfReader(io.BytesIO(document)).pages)
+
+
+# Hand computation, density from the CRC Handbook of Chemistry and Physics (borosilicate 2.23 g/cm3):
+# pi / 4 x (50^2 - 12^2) cm2 x 5 cm = 9252.9 cm3, x 2.23 g/cm3 = 20.63 kg.
+MIRROR_KG = math.pi / 4 * (50**2 - 12**2) * 5 * 2.23 / 1000
+
+
+def test_removal_leaves_the_telescope_pinned_locked_out_and_out_of_service(orders):
+    """Release from lockout only when the work is complete (OSHA 29 CFR 1910.147(e)); the telescope is not
+    complete until the reinstall, so the removal ends with the axes pinned, the telescope tagged out of
+    service and out of robotic control, and drive power back only under the lockout procedure with the pins
+    in (common practice, no published source)."""
+    steps = selectors.sheet(orders["removal"], URL).steps
+    lockout = steps.index(LOCKOUT_STEP)
+    pinned = _first(steps, "lock both axes", "pins")
+    lowered = _first(steps, "lower it", "lifting table")
+    assert lockout < pinned < lowered
+    balance = _first(steps, "out of balance", "balance weights")
+    assert "keep both axes pinned" in steps[balance] and balance > lowered
+    ending = steps[balance + 1 :]
+    assert ending, "the removal must end with the telescope left safe, not with the locks off"
+    assert any("do not remove them" in s and "axes pinned" in s for s in ending)
+    tag = ending[_first(ending, "out of service")]
+    assert "robotic and remote control" in tag and "until the reinstall" in tag
+    power = ending[_first(ending, "power back")]
+    assert "Leave the drives locked out until the reinstall" in power
+    assert "only as the site's lockout procedure says, with both axes still pinned" in power
+    # Nothing hands the telescope back: no step removes the locks, tags or pins during the removal.
+    assert not any("remove the locks" in s or "remove the pins" in s for s in steps)
+    assert not any(s.startswith("Under power") for s in steps)
+
+
+def test_reinstall_starts_where_the_removal_left_off_and_balances_before_any_powered_move(orders):
+    """Balance restored with the drives locked out before an axis moves under power (common practice, no
+    published source); the locks come off as the site's procedure says (OSHA 29 CFR 1910.147(e))."""
+    steps = selectors.sheet(orders["reinstall"], URL).steps
+    first = steps[0]
+    assert "as the removal left it" in first and "pinned" in first and "out of service" in first
+    assert "Do not move an axis under power" in first
+    assert not any("horizontal" in s for s in steps)
+    lockout = steps.index(LOCKOUT_STEP)
+    mirror_in = _first(steps, "into the cell")
+    cell_in = _first(steps, "raise the cell", "lifting table")
+    balance = _first(steps, "restore the axis balance", "drives still locked out")
+    released = _first(steps, "only when both axes are balanced", "remove the pins, the locks and the tags")
+    assert lockout < mirror_in < cell_in < balance < released
+    assert "first moves under power" in steps[released]
+    assert "out of robotic and remote control until the realignment" in steps[released + 1]
+    # The realignment gives the telescope back to robotic control only at its very end.
+    realign = selectors.sheet(orders["realignment"], URL).steps
+    assert "Return the observatory to robotic and remote control" in realign[-1]
+
+
+def test_coating_order_carries_the_vacuum_plant_the_lift_and_named_chemicals(orders):
+    coating = orders["coating"]
+    # The catalogue's own "Recoat primary" plan names the coating plant hazard; the order uses the same code.
+    recoat = next(p for p in KINDS["primary_mirror"].plans if p.name == "Recoat primary")
+    assert "vacuum_plant" in recoat.hazards and "vacuum_plant" in coating.hazards
+    sheet = selectors.sheet(coating, URL)
+    titles = {c.title for c in sheet.cautions}
+    assert {HAZARDS["vacuum_plant"], HAZARDS["suspended_load"], HAZARDS["chemical"]} <= titles
+    # Slings: OSHA 29 CFR 1910.184, printed beside the suspended-load caution.
+    assert any("1910.184" in c.standard for c in sheet.cautions)
+    steps = sheet.steps
+    chemicals = steps[_first(steps, "names of the stripping chemicals")]
+    assert "safety data sheets" in chemicals and "cannot know" in chemicals
+    assert not any("agreed chemicals" in s for s in steps)
+    assert "outside coating plant" in steps[0] and "own procedures" in steps[0]
+    assert "tank" in steps[_first(steps, "lift the mirror", "rated slings")]
+    assert "coating chamber" in steps[_first(steps, "lift the mirror", "rated slings")]
+    assert any("Safety data sheets" in t for t in sheet.tools)
+    # Lifted out of its cell: the figures are for the mirror alone (hand computation above), and say so.
+    figures = selectors.lift(coating)
+    assert figures.fixture_kg == 0 and figures.total_kg == pytest.approx(MIRROR_KG, rel=1e-3)
+    assert "for the mirror alone" in steps[_first(steps, "lift the mirror", "rated slings")]
+
+
+def test_removal_lowers_the_cell_from_a_zenith_pointing_tube_with_lifting_gear_listed(orders):
+    removal = orders["removal"]
+    sheet = selectors.sheet(removal, URL)
+    steps = sheet.steps
+    assert not any("horizontal" in s for s in steps)
+    park = steps[_first(steps, "zenith")]
+    assert steps.index(park) < steps.index(LOCKOUT_STEP) and "from below" in park
+    assert any(t.startswith("Lifting table") for t in sheet.tools)
+    assert any("slings" in t and "shackles" in t for t in sheet.tools)
+    # The order keeps its figures for mirror plus the 30 kg cell (hand computation above) ...
+    figures = selectors.lift(removal)
+    assert figures.total_kg == pytest.approx(MIRROR_KG + 30, rel=1e-3)
+    # ... and the mirror-only lift says the figures are for mirror and cell and that its load is less.
+    crate = steps[_first(steps, "transport crate")]
+    assert "mirror and its cell together" in crate and "smaller load" in crate
+    reinstall = selectors.sheet(orders["reinstall"], URL).steps
+    assert "mirror and its cell together" in reinstall[_first(reinstall, "into the cell")]
+
+
+@pytest.mark.parametrize("phase", ["removal", "coating", "reinstall", "realignment"])
+def test_every_printed_recoat_order_lists_its_tools(orders, phase):
+    """The printed sheet (pypdf text of the PDF) lists the tools instead of "No tools listed"."""
+    text = _printed(orders[phase])
+    assert "No tools listed" not in text
+    assert orders[phase].tool_list[0].split()[0] in text
+
+
+def test_lifting_phases_print_the_lift_figures_and_the_precedence_statement(orders):
+    """Local codes, the maker's instructions and licensed practice take precedence (project rule)."""
+    for phase in ("removal", "coating", "reinstall"):
+        text = _printed(orders[phase])
+        assert "Total suspended load" in text and "take precedence" in text
+
+
+def test_removal_and_reinstall_carry_the_cautions_of_the_energies_they_lock_out():
+    """The lockout step of both phases isolates the drives and the brake air (OSHA 29 CFR 1910.147): their
+    electrical and stored-pneumatic cautions are printed with the lift."""
+    from observatory_ops.mirrors.services import _PHASE_WORK
+
+    for phase in ("removal", "reinstall"):
+        assert {"electrical", "pneumatic"} <= set(_PHASE_WORK[phase].hazards), phase
