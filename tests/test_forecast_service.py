@@ -104,6 +104,23 @@ def test_service_record_restarts_counting(synthetic, users):
     assert status.last_service_on == TODAY - dt.timedelta(days=10)
 
 
+def test_service_history_logged_after_registering_counts_from_when_it_happened(synthetic, users):
+    """A site starting with the tool registers its subsystems today and then logs their past service: each
+    plan counts from its last service, and from its counting date only while it has none (the field's help)."""
+    from observatory_ops.logbook.services import service_record_log
+
+    site, subsystem, _ = synthetic
+    plan = _plan(subsystem, "hours and days", [("open_hours", 3000), ("calendar_days", 365)], TODAY)
+    services.site_recompute(site, TODAY)
+    assert PlanStatus.objects.get(plan=plan).value == 0
+    service_record_log(subsystem, plan, TODAY - dt.timedelta(days=200), users["technician"], "done before the tool")
+    services.site_recompute(site, TODAY)
+    status = PlanStatus.objects.get(plan=plan)
+    others = {t["metric"]: t["value"] for t in status.triggers} | {status.metric: status.value}
+    assert others["calendar_days"] == 200
+    assert others["open_hours"] == pytest.approx(200 * 6)  # the 200 logged nights since, 6 h each
+
+
 def test_overdue_due_and_later(synthetic):
     site, subsystem, start = synthetic
     overdue = _plan(subsystem, "overdue", [("open_hours", 2000)], start)

@@ -124,7 +124,7 @@ def plans_with_plots(subsystem: Subsystem) -> list[ServicePlan]:
         plan.plot = None
         if status is None:
             continue
-        baseline = max(status.last_service_on or plan.counting_from, plan.counting_from)
+        baseline = status.last_service_on or plan.counting_from  # as the recompute counts
         rising = True
         if status.metric == metrics.CALENDAR_DAYS:
             points = [(baseline, 0.0), (today, status.value)]

@@ -372,7 +372,9 @@ def _site_recompute(site: Site, today: dt.date) -> int:
     first_day = min(today, last_logged + dt.timedelta(days=1)) if last_logged else today
     model = usage_model(site, log, first_day, (today - first_day).days + HORIZON_DAYS)  # to the horizon from today
     last_service = _effective_last_service(site)
-    baselines = {p.pk: max(last_service.get(p.pk, p.counting_from), p.counting_from) for p in plans}
+    # A plan counts from its last service; ``counting_from`` only while it has none (service history from
+    # before the plan was registered, logged afterwards, counts as it happened).
+    baselines = {p.pk: last_service.get(p.pk, p.counting_from) for p in plans}
     readings = _readings_by_subsystem_quantity(site, plans, triggers_of, baselines)
 
     states: dict[int, list[TriggerState]] = {p.pk: [] for p in plans}
