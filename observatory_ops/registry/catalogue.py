@@ -72,7 +72,10 @@ RELEASE = (
     "lockout procedure says."
 )
 _RESTORE = (RELEASE, "Restore the subsystem to service and test it under observation.")
-_READINGS_IN_SERVICE = "With the subsystem back in service, record the readings listed on this work order, if any."
+
+_GAS_MONITOR = "portable O2/CO2 gas monitor"  # the cryogen caution asks for one in a closed dome
+#: The limit of a reading that only the equipment's maker can give.
+_MAKERS_FIGURE = "the maker's figure"
 
 
 def _move_under_procedure(what: str, why: str) -> str:
@@ -111,7 +114,7 @@ KINDS: dict[str, Kind] = {
                     COMMON_PRACTICE,
                     dust_sensitivity=1.0,
                     hazards=("cryogen", "height", "moving_machinery"),
-                    tools=("CO2 snow gun with dry-gas purge", "reflectometer", "head torch"),
+                    tools=("CO2 snow gun with dry-gas purge", "reflectometer", "head torch", _GAS_MONITOR),
                     parts=("CO2 cylinder for snow cleaning",),
                     readings=(("reflectance", "record before and after; compare with the mirror page"),),
                     before_isolation=(
@@ -178,7 +181,7 @@ KINDS: dict[str, Kind] = {
                         "Clean with CO2 snow from the centre outward, keeping the nozzle moving.",
                     ),
                     restore=_RESTORE,
-                    tools=("CO2 snow gun with dry-gas purge",),
+                    tools=("CO2 snow gun with dry-gas purge", _GAS_MONITOR),
                     estimated_hours=2.0,
                 ),
             ),
@@ -210,7 +213,7 @@ KINDS: dict[str, Kind] = {
         Kind(
             "mirror_cell",
             "Mirror cell and support",
-            ("optical_surface", "suspended_load"),
+            ("optical_surface", "suspended_load", "moving_machinery"),
             (
                 PlanTemplate(
                     "Check support points, pads and clips",
@@ -227,10 +230,7 @@ KINDS: dict[str, Kind] = {
                         "Check the axial and lateral support pads, the clip clearances and the cell's fixing "
                         "bolts; photograph anything unusual.",
                     ),
-                    restore=(
-                        *_RESTORE,
-                        _READINGS_IN_SERVICE,
-                    ),
+                    restore=_RESTORE,
                     estimated_hours=2.0,
                 ),
             ),
@@ -301,10 +301,7 @@ KINDS: dict[str, Kind] = {
                         "for flats and pitting.",
                         _move_under_procedure("the axis", "to bring the rest of the disc within reach"),
                     ),
-                    restore=(
-                        *_RESTORE,
-                        _READINGS_IN_SERVICE,
-                    ),
+                    restore=_RESTORE,
                 ),
             ),
         ),
@@ -329,8 +326,10 @@ KINDS: dict[str, Kind] = {
                     restore=(
                         *_RESTORE,
                         "With the drives back in service and everyone outside the swept volume, check the "
-                        "read-head signal level along the full travel and record it.",
+                        "read-head signal level along the full travel and record the lowest level on this work "
+                        "order.",
                     ),
+                    readings=(("encoder_signal_pct", _MAKERS_FIGURE),),
                 ),
             ),
         ),
@@ -352,8 +351,8 @@ KINDS: dict[str, Kind] = {
                         _PARK,
                     ),
                     after_isolation=(
-                        "Check pad wear with feeler gauges, and the pads, fittings and hoses for damage; "
-                        "photograph anything unusual.",
+                        "Measure the pad wear with feeler gauges and note it in the findings; check the pads, "
+                        "fittings and hoses for damage and photograph anything unusual.",
                     ),
                     restore=(
                         RELEASE,
@@ -419,7 +418,7 @@ KINDS: dict[str, Kind] = {
         Kind(
             "cooling_fans",
             "Cooling fans and filters",
-            ("electrical",),
+            ("electrical", "moving_machinery"),
             (
                 PlanTemplate(
                     "Replace fan filters",
@@ -446,8 +445,8 @@ KINDS: dict[str, Kind] = {
                     FROM_MEMORY,
                     before_isolation=(
                         *_PREPARE,
-                        "With the fans running, listen to each for bearing noise and measure its current; "
-                        "record the currents.",
+                        "With the fans running, listen to each for bearing noise and measure its current; note each "
+                        "fan's current in the findings.",
                     ),
                     after_isolation=(
                         "Replace any fan that is noisy or whose current has drifted from its rating.",
@@ -473,7 +472,7 @@ KINDS: dict[str, Kind] = {
                     before_isolation=(
                         *_PREPARE,
                         "From the control computer, run the focuser and the tip-tilt over their full range and "
-                        "check the backlash; record what you find.",
+                        "check the backlash; note the backlash and anything unusual in the findings.",
                     ),
                     after_isolation=(
                         "Clean and lubricate the screws as the maker says; inspect them and their bearings for "
@@ -486,7 +485,7 @@ KINDS: dict[str, Kind] = {
         Kind(
             "truss",
             "Trusses and top end",
-            ("height",),
+            ("height", "moving_machinery"),
             (
                 PlanTemplate(
                     "Check truss fasteners and collimation",
@@ -542,14 +541,17 @@ KINDS: dict[str, Kind] = {
                     COMMON_PRACTICE,
                     before_isolation=(
                         *_PREPARE,
-                        "Measure each DC rail under load and record its voltage and ripple. This is work on live "
-                        "equipment: only a qualified person, under the site's rules for energised work.",
+                        "Measure each DC rail under load; record on this work order the voltage and ripple of the "
+                        "rail that carries the most current, and note every rail's voltage and ripple in the "
+                        "findings. This is work on live equipment: only a qualified person, under the site's rules "
+                        "for energised work.",
                     ),
                     after_isolation=(
                         "Inspect the supplies' terminations, fans and filters for heat marks, dust and looseness; "
                         "photograph anything unusual.",
                     ),
                     restore=_RESTORE,
+                    readings=(("supply_voltage_v", _MAKERS_FIGURE), ("ripple_mv", _MAKERS_FIGURE)),
                 ),
             ),
         ),
@@ -566,8 +568,8 @@ KINDS: dict[str, Kind] = {
                     dust_sensitivity=1.0,
                     before_isolation=(
                         *_PREPARE,
-                        "Check disk health, that a backup restores, and time synchronisation; record what you "
-                        "find.",
+                        "Check disk health, that a backup restores, and time synchronisation; note the results in the "
+                        "findings.",
                         "Shut the control computers down cleanly.",
                     ),
                     after_isolation=(
@@ -596,8 +598,8 @@ KINDS: dict[str, Kind] = {
                         _READ_RECORDS,
                         _OUT_OF_SERVICE,
                         "Read and save the drive's fault log.",
-                        "With everyone outside the swept volume, step-test each loop from the tuning software "
-                        "and record how it settles.",
+                        "With everyone outside the swept volume, step-test each loop from the tuning software; record "
+                        "the longest settle time on this work order and note how each loop settles in the findings.",
                         _PARK,
                     ),
                     after_isolation=(
@@ -605,6 +607,7 @@ KINDS: dict[str, Kind] = {
                         "check by hand that the fans spin freely.",
                     ),
                     restore=_RESTORE,
+                    readings=(("settle_time_s", _MAKERS_FIGURE),),
                 ),
             ),
         ),
@@ -642,12 +645,25 @@ KINDS: dict[str, Kind] = {
 
 KIND_CHOICES = [(k.code, k.label) for k in KINDS.values()]
 
+#: Earlier wordings of steps done before isolation. Plans stored with them keep their text, so a work order
+#: must still recognise them to put the lockout step after them.
+_EARLIER_BEFORE_ISOLATION = (
+    "With the fans running, listen to each for bearing noise and measure its current; record the currents.",
+    "From the control computer, run the focuser and the tip-tilt over their full range and check the backlash; "
+    "record what you find.",
+    "Measure each DC rail under load and record its voltage and ripple. This is work on live equipment: only a "
+    "qualified person, under the site's rules for energised work.",
+    "Check disk health, that a backup restores, and time synchronisation; record what you find.",
+    "With everyone outside the swept volume, step-test each loop from the tuning software and record how it "
+    "settles.",
+)
+
 #: Every step the catalogue places before isolation, and every step of its plans' restoring. A work order
 #: recognises them by their words (its plans keep only their steps' text): the lockout step goes after the
 #: first, and in an order of several plans the restoring of all of them comes after all their locked-out work.
 BEFORE_ISOLATION: frozenset[str] = frozenset(
     step for k in KINDS.values() for plan in k.plans for step in plan.before_isolation
-)
+) | frozenset(_EARLIER_BEFORE_ISOLATION)
 RESTORE: frozenset[str] = frozenset(step for k in KINDS.values() for plan in k.plans for step in plan.restore)
 
 
