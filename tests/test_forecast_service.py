@@ -121,6 +121,28 @@ def test_service_history_logged_after_registering_counts_from_when_it_happened(s
     assert others["open_hours"] == pytest.approx(200 * 6)  # the 200 logged nights since, 6 h each
 
 
+def test_one_dusty_night_does_not_set_a_months_dust_forecast(synthetic):
+    """As for the open fraction (at least MIN_NIGHTS_FOR_HISTORY logged nights), a month's mean PM10 needs
+    that many measured open nights; with fewer in all, the site counts as clean air and the basis says so."""
+    from observatory_ops.calc import forecast
+
+    site, subsystem, start = synthetic
+    NightUsage.objects.filter(site=site).update(pm10_ugm3=None)
+    NightUsage.objects.filter(site=site, night=TODAY - dt.timedelta(days=1)).update(pm10_ugm3=300)
+    _plan(subsystem, "filters", [("dust_hours", 1e6)], start, sensitivity=1.0)
+    services.site_recompute(site, TODAY)
+    log = services.UsageLog.for_site(site)
+    model = services.usage_model(site, log, TODAY, 60)
+    assert np.isnan(model.month_pm10).all()
+    assert np.allclose(model.expected("dust_hours", 1.0), model.open_hours)  # weight 1: clean air
+    state = PlanStatus.objects.get(plan__name="filters")
+    assert f"PM10 measured on 1 open nights, under {forecast.MIN_NIGHTS_FOR_HISTORY}" in state.basis
+    # With PM10 on every night (60 ug/m3), each month has its own mean.
+    NightUsage.objects.filter(site=site).update(pm10_ugm3=60)
+    model = services.usage_model(site, services.UsageLog.for_site(site), TODAY, 60)
+    assert np.allclose(model.month_pm10, 60) and model.pm10_months == 12
+
+
 def test_overdue_due_and_later(synthetic):
     site, subsystem, start = synthetic
     overdue = _plan(subsystem, "overdue", [("open_hours", 2000)], start)

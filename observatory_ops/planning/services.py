@@ -170,6 +170,8 @@ class UsageModel:
     months_from_history: int
     spread: float
     months: np.ndarray  # calendar month (1..12) of each coming night
+    pm10_months: int = 0  # calendar months with their own mean PM10
+    pm10_nights: int = 0  # open nights with PM10 measured
 
     def expected(self, metric: str, dust_sensitivity: float) -> np.ndarray:
         if metric == metrics.OPEN_HOURS:
@@ -191,6 +193,16 @@ class UsageModel:
                 f"{forecast.PRIOR_OPEN_FRACTION:.0%} for the rest"
             )
         return f"dark hours of each coming night x {source}; band from month-to-month spread {self.spread:.0%}"
+
+    @property
+    def dust_basis(self) -> str:
+        """Where the expected dust of dust-weighted hours comes from."""
+        least = forecast.MIN_NIGHTS_FOR_HISTORY
+        if self.pm10_nights < least:
+            return (f"dust: PM10 measured on {self.pm10_nights} open nights, under {least}, so counted as clean "
+                    "air")
+        return (f"dust: this site's mean PM10 for {self.pm10_months} of 12 months (each measured on at least "
+                f"{least} open nights) and its overall mean for the rest")
 
 
 def _dark_hours(site: Site, start: dt.date, end: dt.date) -> np.ndarray | None:
@@ -247,15 +259,19 @@ def usage_model(site: Site, log: UsageLog, first_day: dt.date, days: int) -> Usa
     }
     per_open_hour["open_hours"] = 1.0
 
-    # Mean PM10 while open, per calendar month; a month never measured takes the site's overall mean
-    # (and a site that never measured dust counts as clean air: see calc.exposure.dust_weight).
+    # Mean PM10 while open, per calendar month, as the open fraction is made: a month measured on fewer than
+    # forecast.MIN_NIGHTS_FOR_HISTORY open nights takes the site's overall mean, and a site with fewer such
+    # nights in all counts as clean air (calc.exposure.dust_weight), so one dusty night cannot set a month.
     month_pm10 = np.full(12, np.nan)
     measured = ~np.isnan(log.pm10) & (open_h > 0)
-    if measured.any():
+    pm10_nights = np.bincount(past_months[measured] - 1, minlength=12)[:12]
+    if pm10_nights.sum() >= forecast.MIN_NIGHTS_FOR_HISTORY:
         weights = np.bincount(past_months[measured] - 1, weights=open_h[measured], minlength=12)[:12]
         sums = np.bincount(past_months[measured] - 1, weights=(open_h * log.pm10)[measured], minlength=12)[:12]
         with np.errstate(invalid="ignore", divide="ignore"):
-            month_pm10 = np.where(weights > 0, sums / weights, sums.sum() / weights.sum())
+            month_pm10 = np.where(
+                pm10_nights >= forecast.MIN_NIGHTS_FOR_HISTORY, sums / weights, sums.sum() / weights.sum()
+            )
 
     # Month-to-month spread: each past (year, month)'s open hours against dark hours x that month's fraction.
     keys = log.nights.astype("datetime64[M]").astype(int)  # months since 1970-01: one per (year, month)
@@ -275,6 +291,8 @@ def usage_model(site: Site, log: UsageLog, first_day: dt.date, days: int) -> Usa
         months_from_history=int(from_history.sum()),
         spread=spread,
         months=months,
+        pm10_months=int((pm10_nights >= forecast.MIN_NIGHTS_FOR_HISTORY).sum()),
+        pm10_nights=int(pm10_nights.sum()),
     )
 
 
@@ -419,7 +437,7 @@ def _site_recompute(site: Site, today: dt.date) -> int:
                     forecast=dates[0],
                     earliest=dates[1],
                     latest=dates[2],
-                    basis=model.basis,
+                    basis=f"{model.basis}; {model.dust_basis}" if metric == metrics.DUST_HOURS else model.basis,
                     unit=metrics.METRICS[metric][1],
                 )
             )
