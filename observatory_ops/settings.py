@@ -129,6 +129,7 @@ LOGIN_REDIRECT_URL = "home"
 LOGOUT_REDIRECT_URL = "login"
 
 LANGUAGE_CODE = "en"  # its input formats start with ISO dates, which <input type="date"> needs
+FORMAT_MODULE_PATH = ["observatory_ops.formats"]  # dates shown as "23 Mar 2027" (formats/en/formats.py)
 TIME_ZONE = "UTC"  # stored and computed in UTC; pages show each site's own zone
 USE_I18N = False
 USE_TZ = True

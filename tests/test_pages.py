@@ -28,3 +28,26 @@ def test_every_demo_page_renders(demo, client):
     for url in urls:
         response = client.get(url)
         assert response.status_code in (200, 302), f"{url}: {response.status_code}"
+
+
+def test_dates_read_one_way_on_every_page(settings):
+    """Day, abbreviated month, year ("23 Mar 2027") wherever a template prints a date as it is."""
+    import datetime as dt
+
+    from django.template import Context, Template
+
+    rendered = Template("{{ day }}; {{ moment }}").render(
+        Context({"day": dt.date(2027, 3, 23), "moment": dt.datetime(2027, 3, 23, 4, 5)})
+    )
+    assert rendered == "23 Mar 2027; 23 Mar 2027 04:05"
+
+
+def test_a_forecast_band_across_new_year_names_both_years():
+    import datetime as dt
+
+    from observatory_ops.calc.triggers import TriggerState
+    from observatory_ops.planning.services import reason_text
+
+    state = TriggerState(metric="open_hours", value=10, limit=20, rate_per_day=1, forecast=dt.date(2027, 1, 10),
+                         earliest=dt.date(2026, 12, 29), latest=dt.date(2027, 1, 29), basis="", unit="h")
+    assert "(between 29 Dec 2026 and 29 Jan 2027)" in reason_text(state)

@@ -663,7 +663,8 @@ def reason_text(state: TriggerState) -> str:
         return f"{head}; not reached within {HORIZON_DAYS // 366} years at the expected rate."
     when = f"; forecast {state.forecast:%d %b %Y}"
     if state.earliest and state.latest and state.earliest != state.latest:
-        when += f" (between {state.earliest:%d %b} and {state.latest:%d %b %Y})"
+        first = f"{state.earliest:%d %b}" if state.earliest.year == state.latest.year else f"{state.earliest:%d %b %Y}"
+        when += f" (between {first} and {state.latest:%d %b %Y})"
     elif state.earliest and not state.latest:
         when += f" (from {state.earliest:%d %b %Y}; the slow case runs past the horizon)"
     return head + when + "."

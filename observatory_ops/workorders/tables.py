@@ -2,6 +2,7 @@ import django_filters
 import django_tables2 as tables
 from django.utils.html import format_html
 
+from observatory_ops.archive.history import person
 from observatory_ops.registry.models import Site
 
 from .models import State, WorkOrder
@@ -24,6 +25,9 @@ class WorkOrderTable(tables.Table):
 
     def render_number(self, record):
         return format_html('<a href="{}">{}</a>', record.get_absolute_url(), record.number)
+
+    def render_assignee(self, record):
+        return person(record.assignee)
 
     def render_state(self, record):
         return format_html('<span class="wo-state wo-{}">{}</span>', record.state, record.get_state_display())
