@@ -36,7 +36,7 @@ def _sky(site):
 def test_a_subsystem_added_in_the_admin_gets_its_kinds_hazards_and_plans(engineer, client, telescope):
     _sky(telescope.site)
     response = client.post("/admin/registry/subsystem/add/", {
-        "telescope": telescope.pk, "kind": "brake", "name": "Dome shutter brake", "hazards": "[]",
+        "telescope": telescope.pk, "kind": "brake", "name": "Dome shutter brake",
         "serial_number": "", "notes": "",
     }, follow=True)
     assert response.status_code == 200
@@ -45,6 +45,17 @@ def test_a_subsystem_added_in_the_admin_gets_its_kinds_hazards_and_plans(enginee
     assert brake.plans.exists()
     assert PlanStatus.objects.filter(plan__subsystem=brake).count() == brake.plans.count()
     assert "default service plan(s) from its kind" in response.content.decode()
+
+
+def test_hazards_are_ticked_by_name_in_the_admin_not_typed_as_json(engineer, client, telescope):
+    _sky(telescope.site)
+    page = client.get("/admin/registry/subsystem/add/").content.decode()
+    assert 'type="checkbox" name="hazards" value="electrical"' in page and "Hazardous electrical energy" in page
+    client.post("/admin/registry/subsystem/add/", {
+        "telescope": telescope.pk, "kind": "other", "name": "Spectrograph", "hazards": ["electrical", "cryogen"],
+        "serial_number": "", "notes": "",
+    })
+    assert Subsystem.objects.get(name="Spectrograph").hazards == ["electrical", "cryogen"]
 
 
 def test_a_trigger_limit_changed_in_the_admin_shows_at_once(engineer, client, telescope, today):

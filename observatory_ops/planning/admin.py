@@ -1,5 +1,8 @@
+from django import forms
 from django.contrib import admin, messages
 from simple_history.admin import SimpleHistoryAdmin
+
+from observatory_ops.registry.forms import HazardsField
 
 from .models import BookedRun, ServicePlan, Trigger
 from .services import site_recompute
@@ -30,8 +33,14 @@ class TriggerInline(admin.TabularInline):
     extra = 1
 
 
+class ServicePlanAdminForm(forms.ModelForm):
+    hazards = HazardsField(help_text="Hazards of this task beyond its subsystem's own; they add safety cautions "
+                           "to its work orders.")
+
+
 @admin.register(ServicePlan)
 class ServicePlanAdmin(RecomputesSite, SimpleHistoryAdmin):
+    form = ServicePlanAdminForm
     list_display = ("name", "subsystem", "dust_sensitivity", "counting_from", "active")
     list_filter = ("subsystem__telescope__site", "subsystem__telescope", "active")
     search_fields = ("name", "subsystem__name")

@@ -5,6 +5,7 @@ from observatory_ops.planning.admin import RecomputesSite
 from observatory_ops.planning.services import plans_from_catalogue, site_today
 
 from .catalogue import kind as catalogue_kind
+from .forms import SubsystemAdminForm
 from .models import Site, Subsystem, Telescope
 
 
@@ -25,6 +26,7 @@ class SubsystemAdmin(RecomputesSite, SimpleHistoryAdmin):
     """A subsystem added here gets what ``registry.services.subsystem_create`` gives one: its kind's hazard
     tags (when none are entered) and default service plans, counted from the site's today."""
 
+    form = SubsystemAdminForm
     list_display = ("name", "telescope", "kind", "parent", "retired_on")
     list_filter = ("telescope__site", "telescope", "kind")
     search_fields = ("name", "serial_number")

@@ -32,10 +32,17 @@ class Site(models.Model):
     history = HistoricalRecords()  # who changed what, when: see observatory_ops/archive
     name = models.CharField(max_length=120)
     slug = models.SlugField(unique=True)
-    latitude_deg = models.FloatField(validators=[MinValueValidator(-90), MaxValueValidator(90)])
-    longitude_deg = models.FloatField(validators=[MinValueValidator(-180), MaxValueValidator(180)])
-    elevation_m = models.FloatField(default=0)
-    time_zone = models.CharField(max_length=64, validators=[validate_time_zone], help_text="IANA name")
+    latitude_deg = models.FloatField(
+        validators=[MinValueValidator(-90), MaxValueValidator(90)], help_text="Degrees, north positive, south negative."
+    )
+    longitude_deg = models.FloatField(
+        validators=[MinValueValidator(-180), MaxValueValidator(180)],
+        help_text="Degrees, east positive, west negative (the Americas are negative).",
+    )
+    elevation_m = models.FloatField(default=0, help_text="Metres above sea level.")
+    time_zone = models.CharField(
+        max_length=64, validators=[validate_time_zone], help_text="IANA name, e.g. America/Denver or Europe/Madrid."
+    )
     dust_climate = models.TextField(blank=True, help_text="When and from where dust arrives at this site.")
     look_ahead_days = models.PositiveIntegerField(
         default=30, help_text="Items forecast within this many days count as due."
