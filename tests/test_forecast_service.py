@@ -393,3 +393,24 @@ def test_the_due_lists_csv_download_names_things_as_the_page_does(synthetic, use
     assert (record["site"], record["telescope"], record["subsystem"]) == ("Flatland", "S1", "Fans")
     assert record["service"] == "hours" and record["trigger"] == "Open-dome hours" and record["unit"] == "h"
     assert record["why"].startswith("Open-dome hours:")
+
+
+def test_the_due_list_says_when_an_item_is_already_on_a_work_order(synthetic, users, client):
+    from django.db import connection
+    from django.test.utils import CaptureQueriesContext
+
+    from observatory_ops.workorders import services as workorders
+
+    site, subsystem, start = synthetic
+    plans = [_plan(subsystem, f"hours {n}", [("open_hours", 3000 + n)], start) for n in range(3)]
+    services.site_recompute(site, TODAY)
+    client.force_login(users["viewer"])
+    with CaptureQueriesContext(connection) as before:
+        client.get("/due/")
+    order = workorders.work_order_from_due(plans[:2], users["engineer"], planned_date=TODAY + dt.timedelta(days=3))
+    with CaptureQueriesContext(connection) as after:
+        page = client.get("/due/").content.decode()
+    assert page.count(f'">{order.number}</a> (draft, planned {TODAY + dt.timedelta(days=3):%d %b %Y})') == 2
+    assert len(after.captured_queries) == len(before.captured_queries)  # one query for the orders, found or not
+    workorders.work_order_move(order, "withdraw", users["engineer"], reason="not needed")
+    assert order.number not in client.get("/due/").content.decode()

@@ -6,6 +6,7 @@ from django_tables2 import RequestConfig
 from observatory_ops.access.decorators import requires
 from observatory_ops.access.roles import VIEWER
 from observatory_ops.exports import csv_response
+from observatory_ops.workorders.selectors import orders_for_plans
 
 from . import selectors
 from .filters import DueFilter
@@ -32,6 +33,10 @@ def due_list(request):
         messages.warning(request, problem)
     table = DueTable(filtered.qs)
     RequestConfig(request, paginate={"per_page": 50}).configure(table)
+    rows = [row.record for row in table.page.object_list]
+    on_orders = orders_for_plans(r.plan_id for r in rows)
+    for record in rows:
+        record.on_orders = on_orders.get(record.plan_id, [])
     context = {"filter": filtered, "table": table, **_links(request, table)}
     return render(request, "planning/due_list.html", context)
 

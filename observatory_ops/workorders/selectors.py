@@ -14,11 +14,31 @@ from observatory_ops.registry.models import Site
 
 from . import sheet as sheet_
 from .cautions import PRECEDENCE_STATEMENT, SEVERITY_LABELS, Caution, cautions_for, needs_isolation
-from .models import ChecklistTick, IsolationPoint, Part, State, WorkOrder
+from .models import ChecklistTick, IsolationPoint, Part, State, WorkOrder, WorkOrderItem
 
 
 def work_orders() -> QuerySet[WorkOrder]:
     return WorkOrder.objects.select_related("site", "telescope", "assignee")
+
+
+#: States of a work order whose work is still to do.
+TO_DO = (State.DRAFT, State.ISSUED, State.UNDERWAY)
+
+
+def orders_for_plans(plan_ids) -> dict[int, list[WorkOrder]]:
+    """The work orders still to do that cover each of the plans (one query), soonest planned first: the due
+    list says when an item is already on one, so nobody plans it twice."""
+    found: dict[int, list[WorkOrder]] = {}
+    items = (
+        WorkOrderItem.objects.filter(plan_id__in=list(plan_ids), work_order__state__in=TO_DO)
+        .select_related("work_order")
+        .order_by(F("work_order__planned_date").asc(nulls_last=True), "work_order_id")
+    )
+    for item in items:
+        orders = found.setdefault(item.plan_id, [])
+        if item.work_order not in orders:
+            orders.append(item.work_order)
+    return found
 
 
 def low_stock(site: Site) -> QuerySet[Part]:
