@@ -414,3 +414,18 @@ def test_the_due_list_says_when_an_item_is_already_on_a_work_order(synthetic, us
     assert len(after.captured_queries) == len(before.captured_queries)  # one query for the orders, found or not
     workorders.work_order_move(order, "withdraw", users["engineer"], reason="not needed")
     assert order.number not in client.get("/due/").content.decode()
+
+
+def test_a_condition_with_no_reading_since_the_last_service_is_named_not_dropped(db, users, client):
+    from conftest import site_in_use
+
+    from observatory_ops.logbook.quantities import QUANTITIES
+    from observatory_ops.registry.services import subsystem_create
+
+    busy = site_in_use("conditions", kinds=())
+    drive = subsystem_create(busy.telescopes.get(), "axis1_drive", "Axis 1 drive",
+                             counting_from=services.site_today(busy) - dt.timedelta(days=30))
+    services.site_recompute(busy)
+    client.force_login(users["viewer"])
+    page = client.get(drive.get_absolute_url()).content.decode()
+    assert f"{QUANTITIES['settle_time_s'][0]}: no reading since" in page

@@ -8,6 +8,7 @@ from django.db.models import Count, Prefetch, QuerySet
 
 from observatory_ops.calc.triggers import STATUSES
 from observatory_ops.logbook.models import ServiceRecord
+from observatory_ops.logbook.quantities import QUANTITIES
 from observatory_ops.registry.models import Site, Subsystem
 
 from . import metrics, plots
@@ -121,10 +122,16 @@ def plans_with_plots(subsystem: Subsystem) -> list[ServicePlan]:
     log = None
     for plan in plans:
         status = getattr(plan, "status", None)  # a plan not computed yet has none
-        plan.plot = None
+        plan.plot, plan.unread = None, []
         if status is None:
             continue
         baseline = status.last_service_on or plan.counting_from  # as the recompute counts
+        # A condition trigger with no reading since the baseline has no figures: say so rather than drop it.
+        shown = {row["basis"].split(":")[0] for row in status.trigger_rows if row["metric"] == metrics.READING}
+        plan.unread = [
+            (QUANTITIES[t.quantity][0], baseline) for t in plan.triggers.all()
+            if t.metric == metrics.READING and t.quantity in QUANTITIES and QUANTITIES[t.quantity][0] not in shown
+        ]
         rising = True
         if status.metric == metrics.CALENDAR_DAYS:
             points = [(baseline, 0.0), (today, status.value)]
