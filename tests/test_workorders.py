@@ -470,3 +470,17 @@ def test_workorder_pdf_into_a_missing_folder_is_a_clear_message(order, tmp_path)
     with pytest.raises(CommandError, match=re.escape(f"the folder '{missing}' does not exist")):
         call_command("workorder_pdf", str(order.pk), "-o", str(missing / "x.pdf"))
     assert not (tmp_path / "no").exists()
+
+
+def test_saving_an_order_unchanged_from_a_browser_records_no_change_of_its_steps_or_tools(order, users, client):
+    """Browsers send a textarea's lines back with CRLF (WHATWG HTML, form submission: newlines normalised)."""
+    client.force_login(users["engineer"])
+    before = order.history.count()
+    data = _edit_data(order, estimated_hours=str(order.estimated_hours))
+    data["steps"], data["tools"] = (data[k].replace("\n", "\r\n") for k in ("steps", "tools"))
+    client.post(f"/workorders/{order.pk}/edit/", data)
+    order.refresh_from_db()
+    latest = order.history.first()
+    assert order.history.count() == before or not {
+        c.field for c in latest.diff_against(latest.prev_record).changes
+    } & {"steps", "tools"}

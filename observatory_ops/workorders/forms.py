@@ -58,6 +58,11 @@ class WorkOrderEditForm(forms.ModelForm):
         self.lockout_restored = services.lockout_missing(self.instance.hazards, steps)
         return services.steps_with_lockout(self.instance.hazards, steps)
 
+    def clean_tools(self):
+        """One tool a line as stored: a browser sends the lines back with CRLF, which saved unchanged tools
+        as a change in the order's history."""
+        return "\n".join(line.strip() for line in self.cleaned_data["tools"].splitlines() if line.strip())
+
 
 def _a_year_before(day: dt.date) -> dt.date:
     try:
