@@ -50,6 +50,10 @@ class Command(BaseCommand):
         tokens = ApiToken.objects.select_related("site")
         if site:
             tokens = tokens.filter(site=self._site(site))
+        if not tokens:
+            self.stdout.write("No API tokens." if not site else f"No API tokens for site {site}.")
+            return
+        self.stdout.write(f"{'id':>4}  {'site':<20} {'begins':<9} {'created':<10}  {'state':<18} name")
         for t in tokens:
             state = f"revoked {t.revoked_at:%Y-%m-%d}" if t.revoked_at else "active"
             created = f"{t.created_at:%Y-%m-%d}"
