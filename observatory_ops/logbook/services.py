@@ -202,7 +202,13 @@ def _nights_write(
 def reading_log(
     subsystem: Subsystem, quantity: str, value: float, taken_at: dt.datetime, by, note: str = ""
 ) -> Reading:
-    """Append a reading and refresh the due states it may change."""
+    """Append a reading and refresh the due states it may change.
+
+    A reflectance reading of a mirror subsystem is also filed among the mirror's measurements, in the same
+    transaction, so the mirror page's decline fit sees it (``mirrors.services.measurement_from_reading``).
+    """
+    from observatory_ops.mirrors.services import measurement_from_reading  # mirrors builds on the logbook
+
     if quantity not in QUANTITIES:
         raise ValidationError(f"unknown quantity {quantity!r}")
     problem = value_problem(quantity, value)
@@ -215,6 +221,7 @@ def reading_log(
             subsystem=subsystem, quantity=quantity, unit=QUANTITIES[quantity][1], value=value,
             taken_at=taken_at, taken_by=by, note=note,
         )
+        measurement_from_reading(reading)
         site_recompute(subsystem.telescope.site)
     return reading
 

@@ -112,9 +112,22 @@ class ReflectanceMeasurement(models.Model):
     position = models.CharField(max_length=60, blank=True, help_text="Where on the mirror, e.g. 'centre', 'r=0.7 N'.")
     instrument = models.CharField(max_length=80, blank=True)
     taken_by = models.ForeignKey(settings.AUTH_USER_MODEL, on_delete=models.PROTECT, related_name="+")
+    reading = models.OneToOneField(
+        "logbook.Reading", null=True, blank=True, on_delete=models.PROTECT, related_name="mirror_measurement",
+        help_text="The logbook reading this measurement comes from (subsystem page or work order); empty when "
+        "it was entered as a measurement (mirror page or admin).",
+    )
 
     class Meta:
         ordering = ["measured_on", "pk"]
+
+    @property
+    def source(self) -> str:
+        """The logbook reading the measurement came from (with its note), for the mirror page; blank otherwise."""
+        if self.reading_id is None:
+            return ""
+        note = self.reading.note
+        return f"logbook reading ({note})" if note else "logbook reading"
 
 
 class RecoatPlan(models.Model):

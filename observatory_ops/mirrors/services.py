@@ -14,10 +14,13 @@ from typing import NamedTuple
 import numpy as np
 from django.core.exceptions import ValidationError
 from django.db import transaction
+from django.utils import timezone
 
 from observatory_ops.calc import coating, forecast, reflectance, windows
+from observatory_ops.logbook.models import Reading, ServiceRecord
+from observatory_ops.logbook.services import service_record_log
 from observatory_ops.planning import metrics
-from observatory_ops.planning.models import BookedRun, NightSky
+from observatory_ops.planning.models import BookedRun, NightSky, ServicePlan
 from observatory_ops.planning.services import (
     UsageLog,
     UsageModel,
@@ -26,7 +29,8 @@ from observatory_ops.planning.services import (
     site_today,
     usage_model,
 )
-from observatory_ops.registry.models import Site
+from observatory_ops.registry.catalogue import KINDS
+from observatory_ops.registry.models import Site, Subsystem
 from observatory_ops.workorders.cautions import HAZARDS
 from observatory_ops.workorders.models import RequiredReading, State, WorkOrder, WorkOrderItem
 from observatory_ops.workorders.services import LOCKOUT_STEP, lockout_missing
@@ -50,6 +54,12 @@ class MirrorForecast:
     cleanings: list[tuple[dt.date, float]] = field(default_factory=list)  # (date, exposure)
     fit: reflectance.DeclineFit | None = None
     fit_note: str = ""
+    # The fit's recovery per cleaning and its sigma, None (never NaN) when the data cannot tell it; then
+    # ``recovery_note`` says why, in the words the page and the command print.
+    recovery_fraction: float | None = None
+    recovery_sigma: float | None = None
+    recovery_note: str = ""
+    cleaning_note: str = ""  # set when a cleaning is left out of the estimate until a measurement follows it
     current: float | None = None
     threshold: float | None = None
     threshold_basis: str = ""
@@ -121,16 +131,28 @@ def mirror_forecast(
         points=[(m.measured_on, float(e), m.value) for m, e in zip(measurements, exposures[:n], strict=True)],
         cleanings=[(c.cleaned_on, float(e)) for c, e in zip(cleanings, exposures[n : n + k], strict=True)],
     )
+    measured_h, measured = [p[1] for p in result.points], [p[2] for p in result.points]
     try:
-        fit = reflectance.fit_decline(
-            [p[1] for p in result.points], [p[2] for p in result.points], [c[1] for c in result.cleanings]
-        )
+        fit = reflectance.fit_decline(measured_h, measured, [c[1] for c in result.cleanings])
+        if not math.isfinite(fit.recovery_fraction) and fit.cleaning_exposure_h:
+            # No measurement follows any cleaning, so no recovery can be fitted, and calc.reflectance will not
+            # predict past a cleaning of unknown recovery: count none until one is measured (the earlier date).
+            fit = reflectance.fit_decline(measured_h, measured)
+            first, last_cleaned = result.cleanings[0][0], result.cleanings[-1][0]
+            which = f"The cleaning of {first:%d %b %Y} is" if k == 1 else (
+                f"The {k} cleanings from {first:%d %b %Y} to {last_cleaned:%d %b %Y} are"
+            )
+            result.cleaning_note = (
+                f"{which} not counted yet: no measurement follows, so the estimate and the forecast assume no "
+                "recovery from cleaning (the earlier date) until one is measured."
+            )
     except ValueError as exc:
         result.fit_note = f"no fit yet: {exc}"
         result.threshold = fresh * (1 - mirror.recoat_loss)
         result.threshold_basis = f"{mirror.recoat_loss:.0%} below the computed fresh value{_loss_basis(mirror)}"
         return result
     result.fit = fit
+    _recovery(result)
     result.current = float(reflectance.predict(fit, [result.exposure_now_h])[0])
     result.threshold = fit.r0 * (1 - mirror.recoat_loss)
     result.threshold_basis = (
@@ -149,6 +171,17 @@ def mirror_forecast(
     central, early, late = (today + dt.timedelta(days=int(o)) if o >= 0 else None for o in offsets)
     result.crossing, result.crossing_earliest, result.crossing_latest = central, early, late
     return result
+
+
+def _recovery(state: MirrorForecast) -> None:
+    """Copy the fit's recovery per cleaning to the state; calc.reflectance marks an unknown one NaN."""
+    fit = state.fit
+    if math.isfinite(fit.recovery_fraction) and math.isfinite(fit.recovery_sigma):
+        state.recovery_fraction, state.recovery_sigma = fit.recovery_fraction, fit.recovery_sigma
+    elif state.cleanings:
+        state.recovery_note = "not determined (no measurement after a cleaning yet)"
+    else:
+        state.recovery_note = "not determined (no cleaning since the coating yet)"
 
 
 def throughput(mirrors: list[Mirror], today: dt.date | None = None) -> dict:
@@ -464,12 +497,12 @@ def recoat_plan_create(
     """Turn a chosen window into a recoat plan and one draft work order per hands-on phase; recompute.
 
     The realignment order asks for a band reflectance reading of the new coating, and it carries the
-    mirror's recoat service plan (if any), so finishing it restarts that plan's counting.
+    mirror's recoat service plans (``recoat_plans``, if any), so finishing it restarts their counting.
     """
     total = windows.total_days(phases)
     ends_on = starts_on + dt.timedelta(days=total - 1)
     subsystem = mirror.subsystem
-    recoat_plan = subsystem.plans.filter(active=True, name__icontains="recoat").first()
+    realignment_plans = recoat_plans(subsystem) or [None]
     why = recoat_reason(mirror_forecast(mirror), starts_on, ends_on)
     with transaction.atomic():
         Mirror.objects.select_for_update().filter(pk=mirror.pk).exists()  # two submits at once take turns
@@ -502,10 +535,8 @@ def recoat_plan_create(
                     lift_inputs=_phase_lift(mirror, work) if "suspended_load" in hazards else None,
                     created_by=by,
                 )
-                WorkOrderItem.objects.create(
-                    work_order=order, subsystem=subsystem, plan=recoat_plan if kind == "realignment" else None,
-                    why=why,
-                )
+                for service_plan in realignment_plans if kind == "realignment" else [None]:
+                    WorkOrderItem.objects.create(work_order=order, subsystem=subsystem, plan=service_plan, why=why)
                 if kind == "realignment":
                     RequiredReading.objects.create(
                         work_order=order, subsystem=subsystem, quantity="reflectance", unit="fraction",
@@ -553,12 +584,66 @@ def cleaning_log(mirror: Mirror, by, cleaned_on: dt.date, method: str, note: str
 
 
 def coating_log(mirror: Mirror, by, coated_on: dt.date, metal: str, layers: list[dict], note: str = "") -> CoatingEvent:
-    """A new coating: the decline starts again from it, and the mirror's recoat plan restarts its counting."""
-    from observatory_ops.logbook.services import service_record_log  # logbook writes recompute the site
-
+    """A new coating: the decline starts again from it, and the mirror's recoat plans restart their counting."""
     _check_date(mirror, coated_on)
     with transaction.atomic():
         event = CoatingEvent.objects.create(mirror=mirror, coated_on=coated_on, metal=metal, layers=layers, note=note)
-        recoat = mirror.subsystem.plans.filter(active=True, name__icontains="recoat").first()
-        service_record_log(mirror.subsystem, recoat, coated_on, by, f"New coating: {event.recipe}"[:200])
+        coating_service_records_log(event, by)
     return event
+
+
+def recoat_plans(subsystem: Subsystem) -> list[ServicePlan]:
+    """The subsystem's active recoat service plans: those with a recoat-line trigger.
+
+    When none has one (an engineer removed the trigger), the plans named as its kind's catalogue plans
+    with a recoat-line trigger. The plan's name alone is not trusted: a site may rename it.
+    """
+    plans = ServicePlan.objects.filter(subsystem=subsystem, active=True).order_by("pk")
+    watched = list(plans.filter(triggers__metric=metrics.RECOAT_LINE).distinct())
+    if watched:
+        return watched
+    spec = KINDS.get(subsystem.kind)
+    names = [p.name for p in spec.plans if any(t[0] == metrics.RECOAT_LINE for t in p.triggers)] if spec else []
+    return list(plans.filter(name__in=names))
+
+
+def coating_service_records_log(event: CoatingEvent, by) -> list[ServiceRecord]:
+    """Restart the mirror's recoat plans from a coating: a service record for each, dated the coating date.
+
+    Idempotent: a plan that already has a record in force on that date gets no second one. Every record
+    recomputes the site (``service_record_log``); without a recoat plan the site is recomputed once here,
+    since the new coating moves the mirror's recoat line all the same.
+    """
+    subsystem = event.mirror.subsystem
+    records = []
+    for plan in recoat_plans(subsystem):
+        in_force = ServiceRecord.objects.filter(
+            plan=plan, performed_on=event.coated_on, void=False, corrected_by__isnull=True
+        )
+        if not in_force.exists():
+            summary = f"New coating: {event.recipe}"[:200]
+            records.append(service_record_log(subsystem, plan, event.coated_on, by, summary))
+    if not records:
+        site_recompute(subsystem.telescope.site)
+    return records
+
+
+def measurement_from_reading(reading: Reading) -> ReflectanceMeasurement | None:
+    """File a reflectance reading of a mirror subsystem among the mirror's measurements (the decline fit).
+
+    A reading is band-averaged (no wavelength), dated its local date at the site. Idempotent per reading;
+    None for any other reading. The caller recomputes the site, as it does for the reading itself.
+    """
+    if reading.quantity != "reflectance":
+        return None
+    mirror = Mirror.objects.select_related("subsystem__telescope__site").filter(subsystem=reading.subsystem_id).first()
+    if mirror is None:
+        return None
+    local_day = timezone.localtime(reading.taken_at, mirror.subsystem.telescope.site.zone).date()
+    measurement, _ = ReflectanceMeasurement.objects.get_or_create(
+        reading=reading,
+        defaults={
+            "mirror": mirror, "measured_on": local_day, "value": reading.value, "taken_by_id": reading.taken_by_id
+        },
+    )
+    return measurement

@@ -37,7 +37,7 @@ def mirror_detail(request, pk):
             "train": services.throughput(services.telescope_mirrors(mirror)),
             "coatings": mirror.coatings.all(),
             "cleanings": mirror.cleanings.all(),
-            "measurements": mirror.measurements.select_related("taken_by").order_by("-measured_on")[:40],
+            "measurements": mirror.measurements.select_related("taken_by", "reading").order_by("-measured_on")[:40],
             "history": changes(mirror, limit=5),
             "history_label": "mirrors.mirror",
             "history_pk": mirror.pk,
@@ -48,19 +48,21 @@ def mirror_detail(request, pk):
     )
 
 
-def _log_event(request, pk, form_class, date_field: str, what: str, write, done: str, **initial):
-    """One form page for a dated mirror event (measurement, cleaning, coating), written by a service."""
+def _log_event(request, pk, form_class, date_field: str, what: str, write, done, **initial):
+    """One form page for a dated mirror event (measurement, cleaning, coating), written by a service.
+
+    ``done`` is the success message, or a function of the mirror and the written event that words it."""
     mirror = _mirror(pk)
     form = form_class(request.POST or None, initial={date_field: site_today(mirror.subsystem.telescope.site),
                                                      **initial})
     if request.method == "POST" and form.is_valid():
         try:
-            write(mirror, request.user, **form.cleaned_data)
+            event = write(mirror, request.user, **form.cleaned_data)
         except ValidationError as exc:
             for message in exc.messages:
                 form.add_error(None, message)
         else:
-            messages.success(request, done)
+            messages.success(request, done(mirror, event) if callable(done) else done)
             return redirect(mirror)
     return render(request, "mirrors/form.html", {"form": form, "mirror": mirror, "what": what})
 
@@ -77,10 +79,21 @@ def cleaning_log(request, pk):
                       "Cleaning logged.")
 
 
+def _coating_logged(mirror: Mirror, event) -> str:
+    """Say what the coating restarted: the decline, and the recoat plans (their counting from the coating date)."""
+    plans = services.recoat_plans(mirror.subsystem)
+    if not plans:
+        return "New coating logged; the decline starts again from it (this mirror has no recoat service plan)."
+    names = ", ".join(p.name for p in plans)
+    restart = "recoat plan {} restarts its" if len(plans) == 1 else "recoat plans {} restart their"
+    return (f"New coating logged; the decline starts again from it, and the {restart.format(names)} counting "
+            f"from {event.coated_on:%d %b %Y}.")
+
+
 @requires(TECHNICIAN)
 def coating_log(request, pk):
     return _log_event(request, pk, CoatingForm, "coated_on", "a new coating", services.coating_log,
-                      "New coating logged; the decline and the recoat plan start again from it.", metal="al")
+                      _coating_logged, metal="al")
 
 
 def _window_form(request, mirror: Mirror, data) -> WindowForm:

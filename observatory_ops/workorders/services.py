@@ -354,6 +354,8 @@ def work_order_finish(
     quantity is negative, stock would go below zero, an unticked line was not confirmed, or the order is
     no longer underway (``AlreadyFinished`` when it was finished meanwhile).
     """
+    from observatory_ops.mirrors.services import measurement_from_reading  # mirrors builds on work orders
+
     if order.state in (State.FINISHED, State.COUNTERSIGNED):
         raise _claim_refusal(order, by)
     _check_move(order, "finish", by)
@@ -408,6 +410,7 @@ def work_order_finish(
                 taken_by=by, note=f"recorded on {order.number}",
             )
             r.save(update_fields=["reading"])
+            measurement_from_reading(r.reading)  # a mirror's reflectance also reaches its decline fit
         for use in order.part_uses.all():
             quantity = parts_used.get(use.pk, use.quantity_planned)
             part = Part.objects.select_for_update().get(pk=use.part_id)

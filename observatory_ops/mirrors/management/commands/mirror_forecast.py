@@ -33,10 +33,12 @@ class Command(BaseCommand):
             "fit": None if fit is None else {
                 "r0": _round(fit.r0), "r0_sigma": _round(fit.r0_sigma),
                 "rate_per_dust_hour": _round(fit.rate_per_hour, 9), "rate_sigma": _round(fit.rate_sigma, 9),
-                "recovery_fraction": _round(fit.recovery_fraction), "recovery_sigma": _round(fit.recovery_sigma),
+                "recovery_fraction": _round(state.recovery_fraction), "recovery_sigma": _round(state.recovery_sigma),
+                "recovery_note": state.recovery_note,
                 "n_points": fit.n_points, "residual_rms": _round(fit.residual_rms, 6),
             },
             "fit_note": state.fit_note,
+            "cleaning_note": state.cleaning_note,
             "exposure_now_dust_hours": _round(state.exposure_now_h, 2),
             "current_estimate": _round(state.current),
             "threshold": _round(state.threshold),
@@ -50,5 +52,9 @@ class Command(BaseCommand):
         if as_json:
             self.stdout.write(json.dumps(result, indent=1))
             return
+        if fit is not None:  # for a person: the recovery as a figure, or in words why there is none
+            note = result["fit"].pop("recovery_note")
+            if state.recovery_fraction is None:
+                result["fit"].update(recovery_fraction=note, recovery_sigma="-")
         for key, value in result.items():
             self.stdout.write(f"{key:<26} {value}")

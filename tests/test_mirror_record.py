@@ -1,0 +1,358 @@
+"""The mirror page joined to the rest of the record: a coating restarts the recoat service plan, a reflectance
+reading logged on the subsystem (or on a work order) reaches the mirror's measurements and names its source,
+and a recovery per cleaning the data cannot tell is said in words, never printed as NaN."""
+from __future__ import annotations
+
+import datetime as dt
+import json
+import re
+import zoneinfo
+
+import numpy as np
+import pytest
+from conftest import site_in_use
+from django.contrib.messages import get_messages
+from django.core.exceptions import ValidationError
+from django.core.management import call_command
+from django.utils import timezone
+from django.utils.html import strip_tags
+
+from observatory_ops.logbook import services as logbook
+from observatory_ops.logbook.models import Reading, ServiceRecord
+from observatory_ops.mirrors import services
+from observatory_ops.mirrors.models import CleaningEvent, CoatingEvent, Mirror, ReflectanceMeasurement
+from observatory_ops.planning import metrics
+from observatory_ops.planning.models import PlanStatus, ServicePlan
+from observatory_ops.planning.services import site_recompute, site_today
+from observatory_ops.registry.models import Subsystem
+
+NOT_DETERMINED = "not determined (no measurement after a cleaning yet)"
+
+
+@pytest.fixture
+def mirror(db):
+    """A primary registered with its catalogue plans (recoat plan: recoat line, or 730 calendar days), counting
+    from 1296 days ago as on the reviewer's site, on a site logging 6 open hours a night at PM10 35 ug/m3."""
+    site = site_in_use("mirror-record", kinds=("primary_mirror",))
+    primary = Subsystem.objects.get(telescope__site=site, kind="primary_mirror")
+    today = site_today(site)
+    ServicePlan.objects.filter(subsystem=primary).update(counting_from=today - dt.timedelta(days=1296))
+    return Mirror.objects.create(subsystem=primary, diameter_mm=500, thickness_mm=50, hole_mm=120,
+                                 material="borosilicate", cell_mass_kg=30)
+
+
+def _today(mirror) -> dt.date:
+    return site_today(mirror.subsystem.telescope.site)
+
+
+def _recoat_plan(mirror) -> ServicePlan:
+    return ServicePlan.objects.get(subsystem=mirror.subsystem, triggers__metric=metrics.RECOAT_LINE)
+
+
+def _page_text(client, mirror) -> str:
+    response = client.get(mirror.get_absolute_url())
+    assert response.status_code == 200
+    return re.sub(r"\s+", " ", strip_tags(response.content.decode()))
+
+
+# --- 1. a coating restarts the recoat plan ------------------------------------------------------------------
+
+
+def test_a_coating_restarts_the_recoat_plan_found_by_its_trigger_whatever_its_name(mirror, users):
+    plan = _recoat_plan(mirror)
+    plan.name = "Aluminise the primary"  # renamed on site: the name no longer says "recoat"
+    plan.save()
+    site_recompute(mirror.subsystem.telescope.site)
+    before = PlanStatus.objects.get(plan=plan)
+    # The catalogue's calendar trigger is 730 days (common practice, no published source); 1296 > 730.
+    assert (before.status, before.metric, before.value, before.limit) == ("overdue", "calendar_days", 1296, 730)
+    coated_on = _today(mirror) - dt.timedelta(days=10)
+    services.coating_log(mirror, users["technician"], coated_on, "al", [])
+    record = ServiceRecord.objects.get(plan=plan)
+    assert record.performed_on == coated_on and record.summary == "New coating: Al"
+    after = PlanStatus.objects.get(plan=plan)
+    # Hand count: 10 calendar days since the coating, against the 730-day limit.
+    assert after.last_service_on == coated_on and after.status != "overdue"
+    assert (after.metric, after.value) == ("calendar_days", 10)
+
+
+def test_a_plan_that_only_mentions_recoat_in_its_name_is_not_restarted(mirror, users):
+    witness = ServicePlan.objects.create(subsystem=mirror.subsystem, name="Check recoat witness samples",
+                                         counting_from=_today(mirror))
+    assert services.recoat_plans(mirror.subsystem) == [_recoat_plan(mirror)]
+    services.coating_log(mirror, users["technician"], _today(mirror), "al", [])
+    assert not ServiceRecord.objects.filter(plan=witness).exists()
+
+
+def test_the_same_coating_date_logged_twice_gives_one_service_record(mirror, users):
+    coated_on = _today(mirror) - dt.timedelta(days=3)
+    first = services.coating_log(mirror, users["technician"], coated_on, "al", [])
+    services.coating_log(mirror, users["technician"], coated_on, "al", [{"material": "SiO2", "thickness_nm": 100}])
+    assert services.coating_service_records_log(first, users["technician"]) == []
+    assert ServiceRecord.objects.filter(plan=_recoat_plan(mirror), performed_on=coated_on).count() == 1
+    assert mirror.coatings.count() == 2  # the coatings themselves are both kept
+
+
+def test_a_voided_record_on_the_coating_date_does_not_count_as_in_force(mirror, users):
+    plan, coated_on = _recoat_plan(mirror), _today(mirror) - dt.timedelta(days=3)
+    original = logbook.service_record_log(mirror.subsystem, plan, coated_on, users["technician"], "typed twice")
+    logbook.service_record_correct(original, users["engineer"], "withdrawn", void=True)
+    services.coating_log(mirror, users["technician"], coated_on, "al", [])
+    assert ServiceRecord.objects.filter(plan=plan, performed_on=coated_on, void=False,
+                                        corrected_by__isnull=True).count() == 1
+
+
+def test_without_a_recoat_line_trigger_the_catalogue_plan_name_is_the_fallback(mirror, users):
+    plan = _recoat_plan(mirror)
+    plan.triggers.filter(metric=metrics.RECOAT_LINE).delete()
+    assert plan.name == "Recoat primary"  # the catalogue's name (registry/catalogue.py)
+    assert services.recoat_plans(mirror.subsystem) == [plan]
+    plan.name = "Aluminise the primary"
+    plan.save()
+    assert services.recoat_plans(mirror.subsystem) == []  # neither trigger nor catalogue name: none
+    services.coating_log(mirror, users["technician"], _today(mirror), "al", [])
+    assert not ServiceRecord.objects.exists()
+    assert mirror.coatings.count() == 1
+
+
+def test_the_recoat_orders_realignment_carries_the_plan_found_by_its_trigger(mirror, users):
+    from observatory_ops.calc.windows import RECOAT_PHASES
+
+    plan = _recoat_plan(mirror)
+    plan.name = "Aluminise the primary"
+    plan.save()
+    CoatingEvent.objects.create(mirror=mirror, coated_on=_today(mirror) - dt.timedelta(days=400), metal="al")
+    recoat = services.recoat_plan_create(mirror, _today(mirror) + dt.timedelta(days=30), list(RECOAT_PHASES), 3.5,
+                                         users["engineer"])
+    realignment = recoat.work_orders.order_by("planned_date").last()
+    assert [item.plan for item in realignment.items.all()] == [plan]
+
+
+def test_a_coating_dated_beyond_the_service_record_window_is_refused_and_nothing_stored(mirror, users):
+    long_ago = _today(mirror) - dt.timedelta(days=16 * 366)  # the logbook accepts 15 years back
+    with pytest.raises(ValidationError, match="more than 15 years ago"):
+        services.coating_log(mirror, users["technician"], long_ago, "al", [])
+    assert not CoatingEvent.objects.exists() and not ServiceRecord.objects.exists()
+
+
+def _mirror_admin_post(client, mirror, coating_rows: list[dict]):
+    """Post the mirror's admin change form as it stands, plus new coating rows in its coatings inline."""
+    page = client.get(f"/admin/mirrors/mirror/{mirror.pk}/change/")
+    form = page.context["adminform"].form
+    data = {name: ("" if value is None else value) for name, value in form.initial.items()}
+    data["subsystem"] = mirror.subsystem_id
+    for formset in page.context["inline_admin_formsets"]:
+        management, prefix = formset.formset.management_form, formset.formset.prefix
+        data.update({f"{prefix}-{k}": v for k, v in management.initial.items()})
+        rows = coating_rows if formset.formset.model is CoatingEvent else []
+        data[f"{prefix}-TOTAL_FORMS"] = management.initial["INITIAL_FORMS"] + len(rows)
+        for i, row in enumerate(rows, start=management.initial["INITIAL_FORMS"]):
+            data.update({f"{prefix}-{i}-{k}": v for k, v in row.items()})
+    return client.post(f"/admin/mirrors/mirror/{mirror.pk}/change/", data)
+
+
+def test_a_coating_added_in_the_admin_restarts_the_recoat_plan(mirror, admin_client):
+    coated_on = _today(mirror) - dt.timedelta(days=20)
+    response = _mirror_admin_post(
+        admin_client, mirror, [{"coated_on": coated_on.isoformat(), "metal": "al", "layers": "[]", "note": ""}]
+    )
+    assert response.status_code == 302
+    record = ServiceRecord.objects.get(plan=_recoat_plan(mirror))
+    assert record.performed_on == coated_on
+    assert PlanStatus.objects.get(plan=record.plan).last_service_on == coated_on
+
+
+def test_a_future_coating_in_the_admin_is_refused_and_nothing_changes(mirror, admin_client):
+    tomorrow = _today(mirror) + dt.timedelta(days=1)
+    response = _mirror_admin_post(
+        admin_client, mirror, [{"coated_on": tomorrow.isoformat(), "metal": "al", "layers": "[]", "note": ""}]
+    )
+    assert response.status_code == 200
+    assert "cannot be in the future" in response.content.decode()
+    assert not CoatingEvent.objects.exists() and not ServiceRecord.objects.exists()
+
+
+# --- 2. a reflectance reading reaches the mirror's measurements ---------------------------------------------
+
+
+def test_a_reflectance_reading_on_the_subsystem_page_reaches_the_mirror_measurements(mirror, users, client):
+    site = mirror.subsystem.telescope.site
+    site.time_zone = "Pacific/Honolulu"  # UTC-10 all year, no daylight saving (IANA time zone database)
+    site.save()
+    day = _today(mirror) - dt.timedelta(days=2)
+    client.force_login(users["technician"])
+    response = client.post(f"/subsystems/{mirror.subsystem_id}/readings/new/", {
+        "quantity": "reflectance", "value": "0.861", "taken_at": f"{day:%Y-%m-%d}T23:30", "note": "centre",
+    })
+    assert response.status_code == 302
+    reading = Reading.objects.get(subsystem=mirror.subsystem, quantity="reflectance")
+    # 23:30 local is 09:30 UTC the next day; the measurement keeps the site's local date.
+    assert reading.taken_at.astimezone(dt.UTC).date() == day + dt.timedelta(days=1)
+    measurement = ReflectanceMeasurement.objects.get(mirror=mirror)
+    assert (measurement.measured_on, measurement.value, measurement.wavelength_nm) == (day, 0.861, None)
+    assert measurement.reading == reading and measurement.taken_by == users["technician"]
+
+
+def test_readings_on_the_subsystem_feed_the_decline_fit(mirror, users):
+    today = _today(mirror)
+    CoatingEvent.objects.create(mirror=mirror, coated_on=today - dt.timedelta(days=50), metal="al")
+    zone = zoneinfo.ZoneInfo(mirror.subsystem.telescope.site.time_zone)
+    for days_ago, value in ((40, 0.90), (30, 0.89), (20, 0.88), (10, 0.87)):
+        taken_at = dt.datetime.combine(today - dt.timedelta(days=days_ago), dt.time(14, 0), zone)
+        logbook.reading_log(mirror.subsystem, "reflectance", value, taken_at, users["technician"])
+    state = services.mirror_forecast(mirror)
+    assert [p[2] for p in state.points] == [0.90, 0.89, 0.88, 0.87]
+    assert state.fit is not None and state.fit.n_points == 4
+
+
+def test_other_readings_and_subsystems_without_a_mirror_store_only_the_reading(mirror, users):
+    taken_at = timezone.now() - dt.timedelta(hours=1)
+    logbook.reading_log(mirror.subsystem, "temperature_c", 12.0, taken_at, users["technician"])
+    other = Subsystem.objects.create(telescope=mirror.subsystem.telescope, kind="secondary_mirror", name="M2")
+    logbook.reading_log(other, "reflectance", 0.85, taken_at, users["technician"])
+    assert Reading.objects.count() == 2 and not ReflectanceMeasurement.objects.exists()
+
+
+def test_the_reading_and_its_measurement_are_stored_together_or_not_at_all(mirror, users, monkeypatch):
+    def fails(site, **options):
+        raise RuntimeError("recompute failed")
+
+    monkeypatch.setattr(logbook, "site_recompute", fails)
+    with pytest.raises(RuntimeError):
+        logbook.reading_log(mirror.subsystem, "reflectance", 0.86, timezone.now(), users["technician"])
+    assert not Reading.objects.exists() and not ReflectanceMeasurement.objects.exists()
+
+
+def test_a_work_order_reading_filed_on_the_mirror_names_its_order(mirror, users, client):
+    """What the one-line change in workorders.services.work_order_finish (see the report) does per reading."""
+    reading = Reading.objects.create(subsystem=mirror.subsystem, quantity="reflectance", unit="fraction",
+                                     value=0.88, taken_at=timezone.now(), taken_by=users["technician"],
+                                     note="recorded on WO-0042")
+    first = services.measurement_from_reading(reading)
+    assert services.measurement_from_reading(reading) == first  # idempotent per reading
+    assert first.source == "logbook reading (recorded on WO-0042)"
+    client.force_login(users["viewer"])
+    assert "logbook reading (recorded on WO-0042)" in _page_text(client, mirror)
+
+
+def test_the_realignment_orders_reflectance_reading_reaches_the_mirror(mirror, users):
+    from observatory_ops.calc.windows import RECOAT_PHASES
+    from observatory_ops.workorders import selectors
+    from observatory_ops.workorders import services as workorders
+
+    CoatingEvent.objects.create(mirror=mirror, coated_on=_today(mirror) - dt.timedelta(days=400), metal="al")
+    recoat = services.recoat_plan_create(mirror, _today(mirror), list(RECOAT_PHASES), 3.5, users["engineer"])
+    order = recoat.work_orders.order_by("planned_date").last()
+    workorders.work_order_move(order, "issue", users["engineer"])
+    workorders.work_order_move(order, "start", users["technician"])
+    readings = {r.pk: 0.89 for r in order.required_readings.all()}
+    workorders.work_order_finish(order, users["technician"], 4.0, "", readings,
+                                 confirmed_unticked=[line.text for line in selectors.unticked_lines(order)])
+    assert ReflectanceMeasurement.objects.filter(mirror=mirror, value=0.89).exists()
+
+
+# --- 3. both visible ------------------------------------------------------------------------------------------
+
+
+def test_the_mirror_page_lists_where_each_measurement_came_from(mirror, users, client):
+    today = _today(mirror)
+    services.measurement_log(mirror, users["technician"], today - dt.timedelta(days=1), 0.87)
+    logbook.reading_log(mirror.subsystem, "reflectance", 0.86, timezone.now(), users["technician"], "after wash")
+    client.force_login(users["viewer"])
+    text = _page_text(client, mirror)
+    assert "Source" in text
+    assert "logbook reading (after wash)" in text and "entered as a measurement" in text
+
+
+def test_the_coating_form_says_the_recoat_plan_restarts(mirror, users, client):
+    coated_on = _today(mirror) - dt.timedelta(days=2)
+    client.force_login(users["technician"])
+    form = client.get(f"/mirrors/{mirror.pk}/coatings/new/").content.decode()
+    assert "recoat service plan restarts its counting from this date" in form
+    response = client.post(f"/mirrors/{mirror.pk}/coatings/new/",
+                           {"coated_on": coated_on.isoformat(), "metal": "al", "layers": "", "note": ""})
+    assert response.status_code == 302
+    assert [str(m) for m in get_messages(response.wsgi_request)] == [
+        f"New coating logged; the decline starts again from it, and the recoat plan Recoat primary restarts its "
+        f"counting from {coated_on:%d %b %Y}."
+    ]
+
+
+# --- 4. a recovery the data cannot tell -------------------------------------------------------------------
+
+
+@pytest.fixture
+def cleaned_after_the_readings(mirror, users):
+    """Four measurements on an exact line, then a cleaning with no measurement after it. (Logging that cleaning
+    used to fail: calc.reflectance will not predict past a cleaning of unknown recovery.)"""
+    today = _today(mirror)
+    coated = today - dt.timedelta(days=50)
+    CoatingEvent.objects.create(mirror=mirror, coated_on=coated, metal="al")
+    # Dust weight at PM10 35, sensitivity 1: 1 + (35 - 20) / 20 = 1.75, x 6 open hours = 10.5 per night.
+    for days in (10, 20, 30, 40):
+        ReflectanceMeasurement.objects.create(mirror=mirror, measured_on=coated + dt.timedelta(days=days),
+                                              value=0.90 - 1e-5 * 10.5 * days, taken_by=users["technician"])
+    services.cleaning_log(mirror, users["technician"], today - dt.timedelta(days=5), "co2_snow")
+    return mirror
+
+
+def test_an_unknown_recovery_is_none_with_a_reason_and_the_line_still_fits(cleaned_after_the_readings):
+    state = services.mirror_forecast(cleaned_after_the_readings)
+    assert (state.recovery_fraction, state.recovery_sigma, state.recovery_note) == (None, None, NOT_DETERMINED)
+    # The cleaning is counted as recovering nothing until a measurement follows it (the earlier, safer date).
+    assert "is not counted yet" in state.cleaning_note
+    assert state.current == pytest.approx(0.90 - 1e-5 * state.exposure_now_h, rel=1e-9)
+    # numpy.polyfit (an independent least-squares fit) on the same points gives the same line.
+    exposures, values = zip(*[(p[1], p[2]) for p in state.points], strict=True)
+    slope, intercept = np.polyfit(exposures, values, 1)
+    assert (state.fit.r0, state.fit.rate_per_hour) == pytest.approx((intercept, -slope), rel=1e-9)
+    assert state.fit.rate_per_hour == pytest.approx(1e-5, rel=1e-9)
+
+
+def test_four_measurements_and_no_cleaning_say_the_recovery_is_not_determined(mirror, users, client):
+    """The reviewer's page: "recovery per cleaning f = nan ± nan" after four measurements."""
+    CoatingEvent.objects.create(mirror=mirror, coated_on=_today(mirror) - dt.timedelta(days=50), metal="al")
+    for days_ago, value in ((40, 0.90), (30, 0.89), (20, 0.88), (10, 0.87)):
+        services.measurement_log(mirror, users["technician"], _today(mirror) - dt.timedelta(days=days_ago), value)
+    state = services.mirror_forecast(mirror)
+    assert state.fit is not None and state.recovery_fraction is None and state.cleaning_note == ""
+    assert state.recovery_note == "not determined (no cleaning since the coating yet)"
+    client.force_login(users["viewer"])
+    text = _page_text(client, mirror)
+    assert "recovery per cleaning f = not determined (no cleaning since the coating yet);" in text
+    assert not re.search(r"\bnan\b", text, re.IGNORECASE)
+
+
+def test_the_mirror_page_says_the_recovery_is_not_determined_and_prints_no_nan(
+    cleaned_after_the_readings, users, client
+):
+    client.force_login(users["viewer"])
+    text = _page_text(client, cleaned_after_the_readings)
+    assert f"recovery per cleaning f = {NOT_DETERMINED};" in text and "is not counted yet" in text
+    assert not re.search(r"\bnan\b", text, re.IGNORECASE)
+
+
+def test_the_forecast_command_says_the_recovery_is_not_determined(cleaned_after_the_readings, capsys):
+    subsystem = str(cleaned_after_the_readings.subsystem_id)
+    call_command("mirror_forecast", subsystem)
+    text = capsys.readouterr().out
+    assert NOT_DETERMINED in text and not re.search(r"\bnan\b|recovery_fraction': None", text, re.IGNORECASE)
+    call_command("mirror_forecast", subsystem, "--json")
+    fit = json.loads(capsys.readouterr().out)["fit"]  # JSON keeps null, with the reason beside it
+    assert (fit["recovery_fraction"], fit["recovery_note"]) == (None, NOT_DETERMINED)
+
+
+def test_a_recovery_that_is_fitted_is_shown_as_a_figure(mirror, users, client):
+    today = _today(mirror)
+    coated = today - dt.timedelta(days=55)
+    CoatingEvent.objects.create(mirror=mirror, coated_on=coated, metal="al")
+    CleaningEvent.objects.create(mirror=mirror, cleaned_on=coated + dt.timedelta(days=25), method="co2_snow")
+    # The model of calc/reflectance.py with R0 0.90, b 1e-5 per hour, f 0.5 (exposure 10.5 h a night).
+    for days in (5, 15, 25, 35, 45):
+        e, last_clean = 10.5 * days, (10.5 * 25 if days >= 25 else 0.0)
+        ReflectanceMeasurement.objects.create(mirror=mirror, measured_on=coated + dt.timedelta(days=days),
+                                              value=0.90 - 1e-5 * (e - 0.5 * last_clean), taken_by=users["technician"])
+    state = services.mirror_forecast(mirror)
+    assert state.recovery_fraction == pytest.approx(0.5, rel=1e-6) and state.recovery_note == ""
+    client.force_login(users["viewer"])
+    assert "recovery per cleaning f = 0.50 ± 0.00;" in _page_text(client, mirror)
