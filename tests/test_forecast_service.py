@@ -429,3 +429,18 @@ def test_a_condition_with_no_reading_since_the_last_service_is_named_not_dropped
     client.force_login(users["viewer"])
     page = client.get(drive.get_absolute_url()).content.decode()
     assert f"{QUANTITIES['settle_time_s'][0]}: no reading since" in page
+
+
+def test_the_reading_form_offers_the_subsystems_own_quantities_first(db, users, client):
+    from conftest import site_in_use
+
+    from observatory_ops.registry.services import subsystem_create
+
+    busy = site_in_use("readings", kinds=())
+    drive = subsystem_create(busy.telescopes.get(), "axis1_drive", "Axis 1 drive",
+                             counting_from=services.site_today(busy))
+    client.force_login(users["technician"])
+    page = client.get(f"/subsystems/{drive.pk}/readings/new/").content.decode()
+    ours = page.split('<optgroup label="For this subsystem">')[1].split("</optgroup>")[0]
+    assert 'value="settle_time_s"' in ours and 'value="reflectance"' not in ours
+    assert 'value="reflectance"' in page.split('<optgroup label="Other quantities">')[1]

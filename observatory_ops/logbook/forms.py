@@ -48,9 +48,15 @@ class ReadingForm(forms.Form):
     )
     note = forms.CharField(max_length=200, required=False)
 
-    def __init__(self, *args, **kwargs):
+    def __init__(self, *args, watched=(), **kwargs):
+        """``watched``: the quantities the subsystem's plans watch or ask for, offered first (any other can
+        still be chosen, under "Other quantities")."""
         super().__init__(*args, **kwargs)
         self.fields["taken_at"].initial = timezone.localtime().strftime("%Y-%m-%dT%H:%M")
+        ours = [(code, label) for code, label in QUANTITY_CHOICES if code in watched]
+        if ours:
+            others = [(code, label) for code, label in QUANTITY_CHOICES if code not in watched]
+            self.fields["quantity"].choices = [("For this subsystem", ours), ("Other quantities", others)]
 
 
 class NightsUploadForm(forms.Form):

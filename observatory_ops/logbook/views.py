@@ -8,6 +8,7 @@ from django.utils import timezone
 
 from observatory_ops.access.decorators import requires
 from observatory_ops.access.roles import TECHNICIAN, VIEWER
+from observatory_ops.planning import selectors
 from observatory_ops.registry.models import Site, Subsystem
 
 from . import nights_csv, services
@@ -71,7 +72,7 @@ def reading_log(request, pk):
     subsystem = get_object_or_404(Subsystem.objects.select_related("telescope__site"), pk=pk)
     site = subsystem.telescope.site
     with timezone.override(site.zone):  # the form's times are the site's local times
-        form = ReadingForm(request.POST or None)
+        form = ReadingForm(request.POST or None, watched=selectors.watched_quantities(subsystem))
         if request.method == "POST" and form.is_valid():
             data = form.cleaned_data
             try:
@@ -81,7 +82,10 @@ def reading_log(request, pk):
             except ValidationError as exc:
                 _form_errors_from(form, exc)
             else:
-                messages.success(request, "Reading logged.")
+                to_mirror = data["quantity"] == "reflectance" and hasattr(subsystem, "mirror")
+                messages.success(request, "Reading logged" + (
+                    "; it is also among the mirror page's measurements, in its decline fit." if to_mirror else "."
+                ))
                 return redirect(subsystem)
         return render(request, "logbook/reading_form.html", {"form": form, "subsystem": subsystem, "site": site})
 

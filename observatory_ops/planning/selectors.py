@@ -47,6 +47,17 @@ def plans_with_status(subsystem: Subsystem) -> QuerySet[ServicePlan]:
     )
 
 
+def watched_quantities(subsystem: Subsystem) -> set[str]:
+    """The reading quantities the subsystem's active plans watch (condition triggers) or ask for on their work
+    orders, and reflectance for a mirror: what a reading of it is most likely to be."""
+    plans = ServicePlan.objects.filter(subsystem=subsystem, active=True)
+    watched = set(Trigger.objects.filter(plan__in=plans, metric=metrics.READING).values_list("quantity", flat=True))
+    watched |= {entry["quantity"] for readings in plans.values_list("readings", flat=True) for entry in readings}
+    if hasattr(subsystem, "mirror"):
+        watched.add("reflectance")
+    return watched
+
+
 def _iso_utc(moment) -> str | None:
     return moment.astimezone(dt.UTC).strftime("%Y-%m-%dT%H:%M:%SZ") if moment else None
 
