@@ -166,8 +166,20 @@ def test_null_means_not_given_and_booleans_or_csv_words_are_flags(client, site, 
     assert (second.open_hours, second.slews, second.dew, second.rain) == (4.5, 12, True, False)
 
 
-def test_a_night_of_today_at_the_site_is_accepted(client, site, secret):
-    assert post(client, site.slug, night(site_today(site)), secret).status_code == 200
+def test_tonight_can_be_logged_once_it_has_begun_not_before(client, site, secret, monkeypatch):
+    """A night is dated by its evening and runs from local noon (calc.night_of): tonight's figures may come
+    from the afternoon on; before noon a night dated today has not begun (a morning-dated night, a slip)."""
+    from django.utils import timezone
+
+    latest_night = logbook_services.latest_night
+    today = site_today(site)
+    morning = dt.datetime.combine(today, dt.time(9, 0), tzinfo=site.zone)
+    monkeypatch.setattr(timezone, "now", lambda: morning)
+    assert latest_night(site) == today - dt.timedelta(days=1)
+    refused = post(client, site.slug, night(today), secret)
+    assert refused.status_code == 400 and "has not begun yet" in error_body(refused)[0]["message"]
+    monkeypatch.setattr(timezone, "now", lambda: morning + dt.timedelta(hours=4))
+    assert post(client, site.slug, night(today), secret).status_code == 200
 
 
 def test_the_api_needs_no_csrf_token_and_sets_no_cookie(site, secret):
@@ -287,7 +299,7 @@ FUTURE = object()  # replaced by the site's tomorrow in the test
              night(slews=-4)],
             [(1, "open_hours", "open_hours cannot be above 24"), (3, "slews", "slews cannot be below 0")],
         ),
-        ([night(night=FUTURE)], [(0, "night", "is in the future (the latest night that can be logged is")]),
+        ([night(night=FUTURE)], [(0, "night", "has not begun yet (a night is dated by its evening; the latest")]),
     ],
 )
 def test_each_bad_body_is_refused_with_400_naming_index_and_field_and_nothing_is_stored(
@@ -314,8 +326,8 @@ def test_a_night_in_the_future_names_the_latest_night_that_can_be_logged(client,
     assert response.status_code == 400
     assert error_body(response) == [{
         "index": 0, "field": "night",
-        "message": f"night {today + dt.timedelta(days=1)} is in the future (the latest night that can be logged is "
-                   f"{today})",
+        "message": f"night {today + dt.timedelta(days=1)} has not begun yet (a night is dated by its evening; the "
+                   f"latest that can be logged now is {logbook_services.latest_night(site)})",
     }]
 
 
@@ -686,7 +698,7 @@ def test_a_fraction_is_still_refused_for_a_count(client, stored, secret, value):
 
 
 def test_a_night_more_than_15_years_back_is_refused_and_the_earliest_accepted_is_stored(client, stored, secret):
-    earliest = nights_csv.earliest_accepted(site_today(stored))
+    earliest = nights_csv.earliest_accepted(logbook_services.latest_night(stored))
     before = snapshot()
     response = post(client, stored.slug, [night(dt.date(1900, 1, 1)), night(earliest - dt.timedelta(days=1))], secret)
     assert response.status_code == 400

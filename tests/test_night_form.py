@@ -65,7 +65,7 @@ def test_a_bad_figure_is_named_beside_its_field_and_nothing_is_stored(client, si
 def test_a_night_in_the_future_and_a_malformed_date_are_refused(client, site, technician):
     tomorrow = (site_today(site) + dt.timedelta(days=1)).isoformat()
     response = client.post(f"/sites/{site.slug}/nights/new/", {"night": tomorrow, "open_hours": "5"})
-    assert "in the future" in " ".join(response.context["form"].errors["night"])
+    assert "has not begun yet" in " ".join(response.context["form"].errors["night"])
     assert client.get(f"/sites/{site.slug}/nights/new/?night=yesterday").status_code == 200
     assert not NightUsage.objects.exists()
 

@@ -333,9 +333,10 @@ def test_each_kind_of_bad_input_gets_its_line_and_a_readable_reason(stored, data
 def test_a_night_in_the_future_is_refused(site):
     tomorrow = site_today(site) + dt.timedelta(days=1)
     report = services.nights_import(site, render([good_cells(tomorrow)]))
-    assert report.errors == [
-        (2, f"night {tomorrow} is in the future (the latest night that can be logged is {site_today(site)})")
-    ]
+    assert report.errors == [(
+        2, f"night {tomorrow} has not begun yet (a night is dated by its evening; the latest that can be logged "
+        f"now is {services.latest_night(site)})"
+    )]
     assert not NightUsage.objects.exists()
 
 
@@ -692,7 +693,7 @@ def test_a_column_left_out_never_changes_a_stored_night_and_only_real_changes_co
 
 
 def test_a_night_more_than_15_years_back_is_refused_naming_the_earliest_accepted(stored, recomputes):
-    earliest = earliest_accepted(site_today(stored))
+    earliest = earliest_accepted(services.latest_night(stored))
     before = snapshot()
     report = services.nights_import(stored, b"night,open_hours\n1900-01-01,5\n1800-01-01,5\n")
     assert report.errors == [
@@ -709,7 +710,7 @@ def test_a_night_at_the_earliest_accepted_date_is_stored_and_the_due_states_comp
     made the nights cache refuse (a server error) for older nights."""
     monkeypatch.undo()
     subsystem_create(telescope, "primary_mirror", "Primary mirror", counting_from=dt.date(2024, 1, 1))
-    earliest = earliest_accepted(site_today(site))
+    earliest = earliest_accepted(services.latest_night(site))
     report = services.nights_import(site, render([good_cells(earliest)]))
     assert (report.created, report.errors) == (1, [])
     assert PlanStatus.objects.filter(plan__subsystem__telescope=telescope).exists()
@@ -798,7 +799,7 @@ def test_command_refuses_a_night_far_in_the_past_with_a_message_and_stores_nothi
     with pytest.raises(CommandError, match="1 bad row\\(s\\); nothing was stored"):
         call_command("import_nights", str(csv_file(b"night,open_hours\n1800-01-01,5\n")), "--site", stored.slug,
                      stdout=StringIO(), stderr=err)
-    earliest = earliest_accepted(site_today(stored))
+    earliest = earliest_accepted(services.latest_night(stored))
     assert f"line 2: night 1800-01-01 is more than 15 years ago; the earliest accepted is {earliest}" in err.getvalue()
     assert snapshot() == before
 
@@ -821,7 +822,7 @@ def test_upload_page_explains_the_format_in_a_table_drawn_from_the_parser_column
     assert "<td>0 to 10,000 (whole number)</td>" in page  # slews and brake cycles
     assert "<td>0 to 1,000,000</td>" in page  # axis travel
     assert escape(nights_csv.example_csv()) in page
-    earliest = earliest_accepted(site_today(site))
+    earliest = earliest_accepted(services.latest_night(site))
     assert f"Nights are accepted from {earliest:%Y-%m-%d} on." in page
 
 
@@ -864,7 +865,7 @@ def test_upload_of_a_night_far_in_the_past_is_a_message_not_a_server_error(techn
     before = snapshot()
     response = upload(technician_client, stored, b"night,open_hours\n1900-01-01,5\n")
     assert response.status_code == 200
-    earliest = earliest_accepted(site_today(stored))
+    earliest = earliest_accepted(services.latest_night(stored))
     assert f"<td>2</td><td>night 1900-01-01 is more than 15 years ago; the earliest accepted is {earliest}</td>" in (
         response.content.decode()
     )

@@ -65,7 +65,8 @@ class Column:
     def accepted(self) -> str:
         """The values accepted, in words."""
         if self.kind == "date":
-            return f"YYYY-MM-DD, not after today, at most {MAX_YEARS_BACK} years back"
+            return (f"YYYY-MM-DD, begun by now (dated by its evening: before local noon the latest is last night), "
+                    f"at most {MAX_YEARS_BACK} years back")
         if self.kind == "flag":
             return "yes or no (also 1 or 0, true or false)"
         whole = " (whole number)" if self.kind == "count" else ""
@@ -255,7 +256,8 @@ def _night(raw: object, latest_night: dt.date) -> dt.date:
         raise RowError("night", f"night must be a date as YYYY-MM-DD, not {reprlib.repr(shown)}") from None
     if night > latest_night:
         raise RowError(
-            "night", f"night {night} is in the future (the latest night that can be logged is {latest_night})"
+            "night", f"night {night} has not begun yet (a night is dated by its evening; the latest that can be "
+            f"logged now is {latest_night})"
         )
     earliest = earliest_accepted(latest_night)
     if night < earliest:

@@ -13,6 +13,7 @@ from django.db import IntegrityError, transaction
 from django.utils import timezone
 from simple_history.utils import bulk_create_with_history, bulk_update_with_history
 
+from observatory_ops.calc.night_of import night_of
 from observatory_ops.planning.models import ServicePlan
 from observatory_ops.planning.services import site_recompute, site_today
 from observatory_ops.registry.models import Site, Subsystem
@@ -87,7 +88,7 @@ def nights_import(
         text = nights_csv.decode(data)
     except nights_csv.FileError as exc:
         return _refused_file(report, [nights_csv.Problem(None, str(exc))])
-    parsed = nights_csv.parse(text, latest_night=site_today(site))
+    parsed = nights_csv.parse(text, latest_night=latest_night(site))
     if parsed.whole_problem:
         return _refused_file(report, parsed.errors)
     if parsed.errors and not (skip_bad and parsed.rows):
@@ -104,6 +105,14 @@ def _refused_file(report: ImportReport, problems: list[nights_csv.Problem]) -> I
     return report
 
 
+def latest_night(site: Site, now: dt.datetime | None = None) -> dt.date:
+    """The newest night that can be logged now: the one the present moment belongs to (``calc.night_of``:
+    a night is dated by the local date of its evening and runs from local noon to noon). Before local noon
+    that is last night, so a night dated today, which has not begun, is refused: a common slip of control
+    software that dates a night by its morning."""
+    return night_of(now or timezone.now(), site.time_zone)
+
+
 def nights_ingest(
     site: Site, records: list[dict], source: str = NightUsage.Source.API, by=None, reason: str = ""
 ) -> ImportReport:
@@ -116,7 +125,7 @@ def nights_ingest(
     ``records`` is not a list.
     """
     report = ImportReport()
-    parsed = nights_csv.parse_objects(records, latest_night=site_today(site))
+    parsed = nights_csv.parse_objects(records, latest_night=latest_night(site))
     if parsed.errors:
         report.errors = parsed.errors
         whole = parsed.whole_problem or ""

@@ -150,6 +150,6 @@ def nights_import(request, slug):
         "logbook/nights_import.html",
         {
             "site": site, "form": form, "report": report, "columns": nights_csv.COLUMN_SPECS,
-            "example": nights_csv.example_csv(), "earliest": nights_csv.earliest_accepted(services.site_today(site)),
+            "example": nights_csv.example_csv(), "earliest": nights_csv.earliest_accepted(services.latest_night(site)),
         },
     )
