@@ -74,3 +74,10 @@ def test_a_viewer_cannot_log_a_night(client, site, users):
     client.force_login(users["viewer"])
     response = client.post(f"/sites/{site.slug}/nights/new/", {"night": "2026-01-01", "open_hours": "5"})
     assert response.status_code == 403 and not NightUsage.objects.exists()
+
+
+def test_a_new_night_form_starts_at_the_night_most_recently_begun(client, site, technician):
+    from observatory_ops.logbook.services import latest_night
+
+    page = client.get(f"/sites/{site.slug}/nights/new/").content.decode()
+    assert f'value="{latest_night(site).isoformat()}"' in page

@@ -107,7 +107,10 @@ def night_log(request, slug):
             stored = NightUsage.objects.filter(site=site, night=dt.date.fromisoformat(request.GET["night"])).first()
         except ValueError:
             messages.warning(request, f"{request.GET['night']!r} is not a date as YYYY-MM-DD: a blank form instead.")
-    initial = {c.name: _shown(getattr(stored, c.name)) for c in nights_csv.COLUMN_SPECS} if stored else {}
+    initial = (
+        {c.name: _shown(getattr(stored, c.name)) for c in nights_csv.COLUMN_SPECS} if stored
+        else {"night": services.latest_night(site).isoformat()}  # the night most likely being typed in
+    )
     form = NightForm(request.POST or None, initial=initial)
     if request.method == "POST" and form.is_valid():
         report = services.nights_ingest(
