@@ -54,8 +54,9 @@ def _backup_of_a_small_record(path: Path) -> Path:
         people[role] = User.objects.create_user(role, password=f"pw-{role}-123456")
         people[role].groups.add(Group.objects.get(name=role))
     site = site_in_use("restore-hill", nights=NIGHTS_LOGGED)
-    last_night = site.nights.order_by("-night").first().night + dt.timedelta(days=1)  # with its history row
-    assert nights_ingest(site, [{"night": last_night.isoformat(), "open_hours": 6.5}], by=people["technician"]).stored
+    # A night before the log's first (every night after it up to yesterday is logged), with its history row.
+    sent = site.nights.order_by("night").first().night - dt.timedelta(days=1)
+    assert nights_ingest(site, [{"night": sent.isoformat(), "open_hours": 6.5}], by=people["technician"]).stored
     api_token_create(site, "east dome control computer", by=people["administrator"])
     call_command("backup", str(path))
     _fresh_database()
