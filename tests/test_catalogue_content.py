@@ -9,15 +9,16 @@ Which parts belong to a telescope, and the wording checked, are common practice,
 """
 from __future__ import annotations
 
+import importlib
 import re
 
 import pytest
 
 from observatory_ops.logbook.quantities import PLAUSIBLE_RANGE, QUANTITIES
-from observatory_ops.registry.catalogue import KINDS
+from observatory_ops.registry.catalogue import BEFORE_ISOLATION, KINDS, RELEASE, RESTORE
 from observatory_ops.workorders.cautions import HAZARDS
 from observatory_ops.workorders.models import RequiredReading
-from observatory_ops.workorders.services import LOCKOUT_STEP, steps_with_lockout
+from observatory_ops.workorders.services import LOCKOUT_STEP, steps_in_groups
 
 PLANS = [(kind, plan) for kind in KINDS.values() for plan in kind.plans]
 
@@ -184,7 +185,25 @@ _STORED_EARLIER = {
 
 
 @pytest.mark.parametrize("code", _STORED_EARLIER)
-def test_a_plan_stored_with_the_earlier_words_still_gets_its_lockout_after_the_live_test(code):
+def test_a_plan_stored_with_the_earlier_words_keeps_its_live_test_under_power_when_split_into_groups(code):
+    """The upgrade that gives stored plans their three groups (planning migration 0007) recognises the earlier
+    words, so the live test stays before the lockout step."""
+    split_lines = importlib.import_module("observatory_ops.planning.migrations.0007_plan_step_groups").split_lines
     steps = _STORED_EARLIER[code]
-    made = steps_with_lockout(list(KINDS[code].hazards), steps).splitlines()
-    assert made == [*steps[:4], LOCKOUT_STEP, steps[4]]
+    powered, work, restore = split_lines(steps, BEFORE_ISOLATION, RESTORE)
+    assert (powered, work, restore) == (steps[:4], steps[4:], [])
+    made = steps_in_groups(list(KINDS[code].hazards), powered, work, restore)
+    assert made == [*steps[:4], LOCKOUT_STEP, steps[4], RELEASE]
+
+
+def test_the_upgrade_splits_the_earlier_restore_wording_from_its_release_clause():
+    split_lines = importlib.import_module("observatory_ops.planning.migrations.0007_plan_step_groups").split_lines
+    stored = [
+        "Park the telescope at its service position.", LOCKOUT_STEP, "Check pad wear.",
+        "When the work is done and everyone is clear, remove the locks and tags as the site's lockout procedure "
+        "says, restore the air slowly and check that the brake releases and holds.",
+    ]
+    assert split_lines(stored, BEFORE_ISOLATION, RESTORE) == (
+        ["Park the telescope at its service position."], ["Check pad wear."],
+        ["Restore the air slowly and check that the brake releases and holds."],
+    )

@@ -18,7 +18,20 @@ class ServicePlan(models.Model):
     subsystem = models.ForeignKey(Subsystem, on_delete=models.PROTECT, related_name="plans")
     name = models.CharField(max_length=160)
     task = models.TextField(blank=True)
-    steps = models.TextField(blank=True, help_text="One step per line.")
+    # A plan's steps in the three groups a work order keeps apart: the lockout step goes between the first two
+    # and the step that removes the locks between the last two (workorders.services), whatever their words.
+    steps_powered = models.TextField(
+        "steps under power, before isolation", blank=True,
+        help_text="One a line: out of robotic control, parking, closing the dome, tests that need power.",
+    )
+    steps = models.TextField(
+        "the work", blank=True,
+        help_text="One a line. Done with the energy locked out where the hazards call for isolation.",
+    )
+    steps_restore = models.TextField(
+        "steps after the locks are off", blank=True,
+        help_text="One a line: restoring and testing (the step that removes the locks comes first by itself).",
+    )
     tools = models.TextField(blank=True, help_text="One tool per line.")
     parts = models.TextField(blank=True, help_text="Spare parts used, one name per line (as in the site's stock).")
     readings = models.JSONField(
@@ -41,8 +54,18 @@ class ServicePlan(models.Model):
         return self.name
 
     @property
+    def step_groups(self) -> tuple[list[str], list[str], list[str]]:
+        """(under power, the work, after the locks are off), each one step a line."""
+        return tuple(
+            [line.strip() for line in text.splitlines() if line.strip()]
+            for text in (self.steps_powered, self.steps, self.steps_restore)
+        )
+
+    @property
     def step_list(self) -> list[str]:
-        return [line.strip() for line in self.steps.splitlines() if line.strip()]
+        """Every step in the order of the work."""
+        powered, work, restore = self.step_groups
+        return powered + work + restore
 
 
 class Trigger(models.Model):

@@ -22,6 +22,7 @@ from observatory_ops.calc import exposure, forecast, nights, trend
 from observatory_ops.calc.triggers import STATUSES, TriggerState, due_status, governing
 from observatory_ops.logbook.models import NightUsage, Reading, ServiceRecord
 from observatory_ops.logbook.quantities import QUANTITIES
+from observatory_ops.registry.catalogue import RELEASE
 from observatory_ops.registry.catalogue import kind as catalogue_kind
 from observatory_ops.registry.models import Site, Subsystem
 
@@ -47,7 +48,10 @@ def plans_from_catalogue(subsystem: Subsystem, counting_from: dt.date) -> list[S
             subsystem=subsystem,
             name=template.name,
             task=template.task,
-            steps="\n".join(template.steps),
+            steps_powered="\n".join(template.before_isolation),
+            steps="\n".join(template.after_isolation),
+            # The release step is the work order's to add (once, after all the locked-out work).
+            steps_restore="\n".join(step for step in template.restore if step != RELEASE),
             tools="\n".join(template.tools),
             parts="\n".join(template.parts),
             readings=[{"quantity": q, "limit": limit} for q, limit in template.readings],
@@ -531,7 +535,7 @@ def _calendar_state(trig, baseline: dt.date, today: dt.date) -> TriggerState:
         forecast=due,
         earliest=due,
         latest=due,
-        basis=f"calendar: {trig.limit:g} days after {baseline.isoformat()}",
+        basis=f"calendar: {trig.limit:g} days after {baseline:%d %b %Y}",
         unit="days",
     )
 

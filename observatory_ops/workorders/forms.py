@@ -19,8 +19,8 @@ class _PersonChoiceField(forms.ModelChoiceField):
 
 
 class WorkOrderEditForm(forms.ModelForm):
-    """The engineer's edit of a draft or issued order. Steps saved without the lockout step, where the order's
-    hazards call for isolation, get it back (``services.steps_with_lockout``); ``lockout_restored`` says so."""
+    """The engineer's edit of a draft or issued order. Steps without the lockout step, where the order's
+    hazards call for isolation, are refused with the line to put back."""
 
     assignee = _PersonChoiceField(
         queryset=get_user_model().objects.none(), required=False,
@@ -35,7 +35,6 @@ class WorkOrderEditForm(forms.ModelForm):
 
     def __init__(self, *args, **kwargs):
         super().__init__(*args, **kwargs)
-        self.lockout_restored = False
         self.fields["assignee"].queryset = (
             get_user_model().objects.filter(is_active=True, groups__name__in=[TECHNICIAN, ENGINEER])
             .distinct().order_by("first_name", "last_name", "username")
@@ -54,9 +53,15 @@ class WorkOrderEditForm(forms.ModelForm):
         return planned
 
     def clean_steps(self):
-        steps = self.cleaned_data["steps"].splitlines()
-        self.lockout_restored = services.lockout_missing(self.instance.hazards, steps)
-        return services.steps_with_lockout(self.instance.hazards, steps)
+        """One step a line; where the hazards call for isolation the lockout step must stay, where the engineer
+        puts it: a step cannot be placed before or after isolation by its words, so it is not put back by guess."""
+        steps = [line.strip() for line in self.cleaned_data["steps"].splitlines() if line.strip()]
+        if services.lockout_missing(self.instance.hazards, steps):
+            raise forms.ValidationError(
+                f"The lockout step is missing, and this order's hazards call for energy isolation. Put this line "
+                f"back where the energy is isolated, after the steps done under power: {services.LOCKOUT_STEP}"
+            )
+        return "\n".join(steps)
 
     def clean_tools(self):
         """One tool a line as stored: a browser sends the lines back with CRLF, which saved unchanged tools

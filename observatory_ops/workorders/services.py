@@ -9,10 +9,8 @@ from __future__ import annotations
 import datetime as dt
 import graphlib
 import heapq
-import re
 from collections import Counter
 from collections.abc import Collection, Sequence
-from itertools import takewhile
 
 from django.db import transaction
 from django.utils import dateformat, timezone
@@ -25,7 +23,7 @@ from observatory_ops.logbook.quantities import QUANTITIES, value_problem
 from observatory_ops.planning.metrics import READING
 from observatory_ops.planning.models import ServicePlan
 from observatory_ops.planning.services import site_recompute, site_today
-from observatory_ops.registry.catalogue import BEFORE_ISOLATION, RELEASE, RESTORE
+from observatory_ops.registry.catalogue import RELEASE
 from observatory_ops.registry.models import Site, Subsystem
 
 from .cautions import HAZARDS, ISOLATION_HAZARDS, needs_isolation
@@ -53,30 +51,14 @@ def lockout_missing(hazards: Sequence[str], steps: Sequence[str]) -> bool:
     return needs_isolation(hazards) and LOCKOUT_STEP not in (s.strip() for s in steps)
 
 
-_PLAN_PREFIX = re.compile(r"^\[[^\]]*\]\s*")
-
-
-def _unprefixed(step: str) -> str:
-    return _PLAN_PREFIX.sub("", step.strip())
-
-
-def _powered_lead(steps: Sequence[str]) -> int:
-    """How many of the first steps are ones the catalogue does under power before isolation (recognised by
-    their words, with or without an order's "[plan] " prefix)."""
-    return sum(1 for _ in takewhile(lambda step: _unprefixed(step) in BEFORE_ISOLATION, steps))
-
-
-def steps_with_lockout(hazards: Sequence[str], steps: Sequence[str]) -> str:
-    """The steps, one a line, with the lockout step added when a hazard needs energy isolated and no step is it.
-
-    The lockout step goes after the leading steps that the catalogue does under power before isolation
-    (closing the dome, parking, opening covers, live tests: ``catalogue.BEFORE_ISOLATION``) and before
-    everything else. Steps that already hold the lockout step are kept as they are.
-    """
-    lines = [s.strip() for s in steps if s.strip()]
-    if lockout_missing(hazards, lines):
-        lines.insert(_powered_lead(lines), LOCKOUT_STEP)
-    return "\n".join(lines)
+def steps_in_groups(hazards: Sequence[str], powered: list[str], work: list[str], restore: list[str]) -> list[str]:
+    """An order's steps from its three groups: with energy to isolate, the lockout step between the steps under
+    power and the work, and the step that removes the locks (``catalogue.RELEASE``) between the work and the
+    restoring; without, the groups one after the other. The groups say where each step belongs, so no step
+    is placed by its wording."""
+    if not needs_isolation(hazards):
+        return powered + work + restore
+    return powered + [LOCKOUT_STEP] + work + [RELEASE] + restore
 
 
 def _plan_labels(plans: Sequence[ServicePlan]) -> dict[int, str]:
@@ -95,26 +77,26 @@ def _plan_labels(plans: Sequence[ServicePlan]) -> dict[int, str]:
 def _steps_for(plans: Sequence[ServicePlan], labels: dict[int, str], hazards: Sequence[str]) -> str:
     """The plans' steps, each prefixed with its plan's label when there are several plans.
 
-    With energy to isolate, the steps of all the plans go in three runs, each in plan order: those done under
-    power before isolation, then (after the one lockout step) the work with the energy locked out, then the
-    restoring, from the first step that removes the locks (``catalogue.RESTORE``). So no plan's locks come
-    off while another plan's locked-out work is still to do. A powered or restoring step that several plans
-    on one telescope share (closing the dome, parking, restoring) is written once, for all of them.
+    Each plan's steps come in three groups (``ServicePlan.step_groups``); the order keeps three runs, each in
+    plan order: all the steps under power, then (after the one lockout step) all the locked-out work, then
+    (after the one release step) all the restoring. So no plan's locks come off while another plan's
+    locked-out work is still to do. A powered or restoring step that several plans on one telescope share
+    (closing the dome, parking) is written once, for all of them.
     """
     powered, work, restoring = [], [], []
     for plan in plans:
-        steps = [step.strip() for step in (plan.step_list or [plan.task or plan.name])]
-        if not needs_isolation(hazards):
-            work += [(plan, step) for step in steps]
-            continue
-        first = _powered_lead(steps)
-        release = next((i for i in range(first, len(steps)) if _unprefixed(steps[i]) in RESTORE), len(steps))
-        powered += [(plan, step) for step in steps[:first]]
-        work += [(plan, step) for step in steps[first:release]]
-        restoring += [(plan, step) for step in steps[release:]]
+        before, during, after = plan.step_groups
+        if not (before or during or after):
+            during = [plan.task or plan.name]
+        own = (LOCKOUT_STEP, RELEASE)  # the order's to add, once: not repeated from a plan that holds them
+        powered += [(plan, step) for step in before if step not in own]
+        work += [(plan, step) for step in during if step not in own]
+        restoring += [(plan, step) for step in after if step not in own]
     several = len(plans) > 1
-    lines = _shared_once(powered, labels, several) + _labelled(work, labels, several)
-    return steps_with_lockout(hazards, lines + _shared_once(restoring, labels, several))
+    return "\n".join(steps_in_groups(
+        hazards, _shared_once(powered, labels, several), _labelled(work, labels, several),
+        _shared_once(restoring, labels, several),
+    ))
 
 
 def _labelled(run: list[tuple[ServicePlan, str]], labels: dict[int, str], several: bool) -> list[str]:
@@ -227,26 +209,20 @@ def work_order_ad_hoc(
     """A work order not driven by a due item (a fault, an upgrade); its telescope is the subsystems' own
     when they share one.
 
-    Its steps come in the catalogue's three groups, one step a line each: ``powered`` (under power, before
-    isolation: parking, closing the dome, live tests), ``steps`` (the work) and ``restore`` (after the locks
-    are off). Where the hazards call for isolation, the lockout step goes after the powered steps (and after
-    any catalogue powered step that opens the work) and the release step (``catalogue.RELEASE``) before the
-    restoring; without one, the groups simply follow each other.
+    Its steps come in three groups, one step a line each: ``powered`` (under power, before isolation:
+    parking, closing the dome, live tests), ``steps`` (the work) and ``restore`` (after the locks are off),
+    put together by ``steps_in_groups``.
     """
     if any(s.telescope.site_id != site.pk for s in subsystems):
         raise Refused("every subsystem must belong to the work order's site")
     telescopes = {s.telescope for s in subsystems}
     telescope = telescopes.pop() if len(telescopes) == 1 else None
     hazards = _hazards_of(subsystems, [])
-    before, work, after = ([s.strip() for s in text.splitlines() if s.strip()] for text in (powered, steps, restore))
-    lines = before + work
-    if lockout_missing(hazards, lines + after):
-        lines.insert(len(before) + _powered_lead(work), LOCKOUT_STEP)
-    if needs_isolation(hazards) and RELEASE not in after:
-        after.insert(0, RELEASE)
+    groups = ([s.strip() for s in text.splitlines() if s.strip()] for text in (powered, steps, restore))
+    lines = steps_in_groups(hazards, *groups)
     with transaction.atomic():
         order = WorkOrder.objects.create(
-            site=site, telescope=telescope, title=title, order_type=order_type, steps="\n".join(lines + after),
+            site=site, telescope=telescope, title=title, order_type=order_type, steps="\n".join(lines),
             hazards=hazards, created_by=by,
         )
         for subsystem in subsystems:

@@ -119,11 +119,6 @@ def work_order_edit(request, pk):
     if request.method == "POST" and form.is_valid():
         form.save()
         messages.success(request, "Saved.")
-        if form.lockout_restored:
-            messages.warning(
-                request, "The lockout step was put back: this work order's hazards call for energy isolation, so "
-                "it cannot go without it. Reword the steps around it if needed, but keep it.",
-            )
         return redirect(order)
     return render(
         request, "workorders/edit.html",
