@@ -87,3 +87,27 @@ def test_a_sheet_over_two_telescopes_says_which_telescope_each_reading_is_for(si
     assert len(labels) == len(set(labels)) > 0  # no two rows read alike
     assert any(f"({telescope.name}: Axis 1 brake)" in label for label in labels)
     assert any("(West: Axis 1 brake)" in label for label in labels)
+
+
+def test_an_ad_hoc_order_takes_the_hazards_its_work_adds(telescope, site, users, client):
+    """The reviewer's case: an ad hoc look at an optical surface from a ladder, at a telescope that can move."""
+    IsolationPoint.objects.create(telescope=telescope, energy="ac", label="Mount isolator")
+    box = subsystem_create(telescope, "other", "Eyepiece box", counting_from=START)
+    client.force_login(users["engineer"])
+    client.post(f"/sites/{site.slug}/workorders/new/", {
+        "title": "Look at the box from the ladder", "order_type": "corrective", "subsystems": [box.pk],
+        "hazards": ["height", "moving_machinery"], "steps": "Look.",
+    })
+    from observatory_ops.workorders.models import WorkOrder
+
+    order = WorkOrder.objects.latest("pk")
+    assert order.hazards == ["moving_machinery", "height"]
+    assert services.LOCKOUT_STEP in order.step_list
+
+
+def test_a_second_order_for_an_item_already_on_one_is_made_with_a_warning(telescope, users, client):
+    brake = subsystem_create(telescope, "brake", "Axis 1 brake", counting_from=START)
+    first = _order(brake, users)
+    client.force_login(users["engineer"])
+    page = client.post("/workorders/from-due/", {"plans": [p.pk for p in brake.plans.all()]}, follow=True)
+    assert f"already on work orders still to do: {first.number} (draft)" in page.content.decode()

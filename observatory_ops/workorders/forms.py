@@ -7,6 +7,7 @@ from observatory_ops.access.roles import ENGINEER, TECHNICIAN
 from observatory_ops.archive.history import person
 from observatory_ops.calc.lifting import DENSITY
 from observatory_ops.planning.services import site_today
+from observatory_ops.registry.forms import HazardsField
 from observatory_ops.registry.models import Subsystem
 
 from . import services
@@ -80,6 +81,11 @@ class AdHocForm(forms.Form):
     title = forms.CharField(max_length=200)
     order_type = forms.ChoiceField(choices=WorkOrder.Type.choices, initial=WorkOrder.Type.CORRECTIVE)
     subsystems = forms.ModelMultipleChoiceField(queryset=Subsystem.objects.none())
+    hazards = HazardsField(
+        label="Further hazards of this work",
+        help_text="The chosen subsystems' own hazards are always included; tick any this work adds (a ladder, "
+        "chemicals, a laser, a moving telescope...). They choose its safety cautions and whether it is locked out.",
+    )
     powered = forms.CharField(
         widget=forms.Textarea(attrs={"rows": 3}), required=False, label="Steps under power, before isolation",
         help_text="One step a line: taking the telescope out of robotic control, parking, closing the dome, tests "

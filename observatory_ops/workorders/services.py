@@ -204,20 +204,20 @@ def _require_reading(order: WorkOrder, subsystem: Subsystem, quantity: str, limi
 
 def work_order_ad_hoc(
     site: Site, subsystems: Sequence[Subsystem], title: str, by, order_type: str = WorkOrder.Type.CORRECTIVE,
-    steps: str = "", powered: str = "", restore: str = "",
+    steps: str = "", powered: str = "", restore: str = "", hazards: Sequence[str] = (),
 ) -> WorkOrder:
     """A work order not driven by a due item (a fault, an upgrade); its telescope is the subsystems' own
     when they share one.
 
     Its steps come in three groups, one step a line each: ``powered`` (under power, before isolation:
     parking, closing the dome, live tests), ``steps`` (the work) and ``restore`` (after the locks are off),
-    put together by ``steps_in_groups``.
+    put together by ``steps_in_groups``. ``hazards`` are the work's own beyond its subsystems'.
     """
     if any(s.telescope.site_id != site.pk for s in subsystems):
         raise Refused("every subsystem must belong to the work order's site")
     telescopes = {s.telescope for s in subsystems}
     telescope = telescopes.pop() if len(telescopes) == 1 else None
-    hazards = _hazards_of(subsystems, [])
+    hazards = [h for h in HAZARDS if h in set(_hazards_of(subsystems, [])) | set(hazards)]
     groups = ([s.strip() for s in text.splitlines() if s.strip()] for text in (powered, steps, restore))
     lines = steps_in_groups(hazards, *groups)
     with transaction.atomic():

@@ -49,6 +49,14 @@ def work_order_from_due(request):
         )
         return redirect(back if back and safe else reverse("due-list"))
     messages.success(request, f"{order.number} drafted from {len(plans)} due item(s). Check the steps, then issue it.")
+    already = {
+        other.number: other for orders in selectors.orders_for_plans(p.pk for p in plans).values()
+        for other in orders if other.pk != order.pk
+    }
+    if already:
+        messages.warning(request, "Some of these items are already on work orders still to do: " + ", ".join(
+            f"{other.number} ({other.get_state_display()})" for other in already.values()
+        ) + f". Withdraw {order.number} or the other if the work is the same.")
     return redirect(order)
 
 
@@ -60,7 +68,7 @@ def work_order_ad_hoc(request, slug):
         d = form.cleaned_data
         order = services.work_order_ad_hoc(
             site, list(d["subsystems"]), d["title"], request.user, order_type=d["order_type"], steps=d["steps"],
-            powered=d["powered"], restore=d["restore"],
+            powered=d["powered"], restore=d["restore"], hazards=d["hazards"],
         )
         messages.success(request, f"{order.number} drafted.")
         return redirect(order)
