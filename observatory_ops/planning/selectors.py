@@ -139,8 +139,9 @@ def plans_with_plots(subsystem: Subsystem) -> list[ServicePlan]:
         baseline = status.last_service_on or plan.counting_from  # as the recompute counts
         # A condition trigger with no reading since the baseline has no figures: say so rather than drop it.
         shown = {row["basis"].split(":")[0] for row in status.trigger_rows if row["metric"] == metrics.READING}
+        since = "the last service" if status.last_service_on else "the plan's start"
         plan.unread = [
-            (QUANTITIES[t.quantity][0], baseline) for t in plan.triggers.all()
+            (QUANTITIES[t.quantity][0], baseline, since) for t in plan.triggers.all()
             if t.metric == metrics.READING and t.quantity in QUANTITIES and QUANTITIES[t.quantity][0] not in shown
         ]
         rising = True
