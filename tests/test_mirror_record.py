@@ -251,6 +251,28 @@ def test_the_realignment_orders_reflectance_reading_reaches_the_mirror(mirror, u
     assert ReflectanceMeasurement.objects.filter(mirror=mirror, value=0.89).exists()
 
 
+def test_finishing_a_cleaning_order_puts_the_cleaning_on_the_mirrors_record(mirror, users, client):
+    """The reviewer's case: a CO2-snow clean finished on its work order left no cleaning on the mirror, so the
+    fit read the recovery as scatter."""
+    from observatory_ops.workorders import selectors
+    from observatory_ops.workorders import services as workorders
+
+    clean = ServicePlan.objects.filter(subsystem=mirror.subsystem, name__icontains="clean").first()
+    order = workorders.work_order_from_due([clean], users["engineer"])
+    workorders.work_order_move(order, "issue", users["engineer"])
+    workorders.work_order_move(order, "start", users["technician"])
+    client.force_login(users["technician"])
+    page = client.get(f"/workorders/{order.pk}/finish/").content.decode()
+    assert f'name="cleaned_{mirror.pk}"' in page and "not cleaned in this work" in page
+    data = {"actual_hours": "2", "findings": "", f"cleaned_{mirror.pk}": "co2_snow", "confirm_unticked": "on",
+            **{f"reading_{r.pk}": "0.88" for r in order.required_readings.all()},
+            "unticked": [line.text for line in selectors.unticked_lines(order)]}
+    response = client.post(f"/workorders/{order.pk}/finish/", data)
+    assert response.status_code == 302, response.content.decode()[:2000]
+    cleaning = CleaningEvent.objects.get(mirror=mirror)
+    assert (cleaning.cleaned_on, cleaning.method, cleaning.note) == (_today(mirror), "co2_snow", f"on {order.number}")
+
+
 # --- 3. both visible ------------------------------------------------------------------------------------------
 
 

@@ -125,6 +125,14 @@ class FinishForm(forms.Form):
             self.fields[f"part_{use.pk}"] = forms.FloatField(
                 label=f"{use.part.name} used ({use.part.unit})", min_value=0, initial=use.quantity_planned
             )
+        from observatory_ops.mirrors.models import CleaningEvent, Mirror  # mirrors builds on work orders
+
+        for mirror in Mirror.objects.filter(subsystem__in=[i.subsystem_id for i in order.items.all()]):
+            self.fields[f"cleaned_{mirror.pk}"] = forms.ChoiceField(
+                label=f"Cleaning of {mirror.subsystem.name}", required=False,
+                choices=[("", "not cleaned in this work"), *CleaningEvent.Method.choices],
+                help_text="A cleaning goes on the mirror's record, so its reflectance forecast counts the recovery.",
+            )
         if unticked:
             self.fields["confirm_unticked"] = forms.BooleanField(
                 required=False, label="I confirm the unticked lines were done or did not apply"
@@ -135,6 +143,10 @@ class FinishForm(forms.Form):
 
     def parts(self) -> dict[int, float]:
         return {int(k[5:]): v for k, v in self.cleaned_data.items() if k.startswith("part_")}
+
+    def cleanings(self) -> dict[int, str]:
+        """Mirror id -> cleaning method, for each mirror the work cleaned."""
+        return {int(k[8:]): v for k, v in self.cleaned_data.items() if k.startswith("cleaned_") and v}
 
     def beyond_limits(self) -> dict[str, str]:
         """Field name -> what to show beside it, for each reading entered past its limit (valid forms only)."""

@@ -318,8 +318,12 @@ def work_order_finish(
     readings: dict[int, float],
     parts_used: dict[int, float] | None = None,
     confirmed_unticked: Collection[str] = (),
+    cleanings: dict[int, str] | None = None,
 ) -> WorkOrder:
     """Record the work: service records for every item, readings, parts used; reset plans; recompute.
+
+    ``cleanings`` maps the id of a mirror the work cleaned -> the method (``CleaningEvent.Method``): each
+    becomes a cleaning on the mirror's record, dated today at the site, so its decline fit sees the recovery.
 
     ``readings`` maps RequiredReading id -> value (all are required; a value beyond its limit is recorded as
     measured, and the record flags it); ``parts_used`` maps PartUse id -> quantity used (default: as
@@ -330,7 +334,8 @@ def work_order_finish(
     quantity is negative, stock would go below zero, an unticked line was not confirmed, or the order is
     no longer underway (``AlreadyFinished`` when it was finished meanwhile).
     """
-    from observatory_ops.mirrors.services import measurement_from_reading  # mirrors builds on work orders
+    from observatory_ops.mirrors.models import Mirror  # mirrors builds on work orders
+    from observatory_ops.mirrors.services import cleaning_log, measurement_from_reading
 
     if order.state in (State.FINISHED, State.COUNTERSIGNED):
         raise _claim_refusal(order, by)
@@ -387,6 +392,9 @@ def work_order_finish(
             )
             r.save(update_fields=["reading"])
             measurement_from_reading(r.reading)  # a mirror's reflectance also reaches its decline fit
+        on_order = {item.subsystem_id for item in items}
+        for mirror in Mirror.objects.filter(pk__in=list(cleanings or {}), subsystem_id__in=on_order):
+            cleaning_log(mirror, by, today, cleanings[mirror.pk], note=f"on {order.number}")
         for use in order.part_uses.all():
             quantity = parts_used.get(use.pk, use.quantity_planned)
             part = Part.objects.select_for_update().get(pk=use.part_id)

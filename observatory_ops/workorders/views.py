@@ -218,6 +218,7 @@ def work_order_finish(request, pk):
                     order, request.user, form.cleaned_data["actual_hours"], form.cleaned_data["findings"],
                     form.readings(), form.parts(),
                     confirmed_unticked=request.POST.getlist("unticked") if confirmed else (),
+                    cleanings=form.cleanings(),
                 )
             except services.Refused as exc:
                 if isinstance(exc, services.AlreadyFinished) and exc.by_you:  # pressed twice at once
