@@ -224,3 +224,19 @@ def test_backup_of_a_database_never_migrated_says_to_migrate_first(tmp_path):
     assert "Traceback" not in run.stderr
     assert "the database is not migrated" in run.stderr and "then back it up" in run.stderr
     assert not path.exists()
+
+
+def test_a_backup_reads_every_table_in_one_snapshot(tmp_path):
+    """A backup taken while the tool is in use must not hold a row pointing at one written after its table
+    was read: on PostgreSQL every table is read in one REPEATABLE READ transaction (PostgreSQL manual,
+    "Transaction Isolation": one snapshot for the whole transaction)."""
+    from django.db import connection
+    from django.test.utils import CaptureQueriesContext
+
+    if connection.vendor != "postgresql":
+        pytest.skip("SQLite's read transaction already sees one state of the file")
+    with CaptureQueriesContext(connection) as captured:
+        call_command("backup", str(tmp_path / "record.json"))
+    statements = [q["sql"] for q in captured.captured_queries]
+    first_read = next(i for i, sql in enumerate(statements) if sql.startswith("SELECT") and "auth_group" in sql)
+    assert any("REPEATABLE READ" in sql for sql in statements[:first_read])

@@ -64,10 +64,18 @@ def backup_write(path: Path) -> dict[str, int]:
         raise BackupError(f"the database is not migrated ({pending} migrations not applied): run "
                           "`python manage.py migrate` first, then back it up")
     objects, counts = [], {}
-    for model in _models():
-        rows = list(model._default_manager.order_by("pk"))
-        counts[model._meta.label_lower] = len(rows)
-        objects.extend(rows)
+    # Every table read in one transaction that sees one moment of the database, so a backup taken while the
+    # tool is in use holds no row pointing at one written after its table was read. PostgreSQL's default
+    # (READ COMMITTED) takes a new snapshot per statement, hence REPEATABLE READ; SQLite's read transaction
+    # already sees one state of the file.
+    with transaction.atomic():
+        if connection.vendor == "postgresql":
+            with connection.cursor() as cursor:
+                cursor.execute("SET TRANSACTION ISOLATION LEVEL REPEATABLE READ READ ONLY")
+        for model in _models():
+            rows = list(model._default_manager.order_by("pk"))
+            counts[model._meta.label_lower] = len(rows)
+            objects.extend(rows)
     # Natural keys for references to rows the backup does not hold (permissions, content types): their ids
     # differ between databases, their names do not.
     body = serializers.serialize("json", objects, use_natural_foreign_keys=True)
