@@ -305,19 +305,34 @@ def _edit_data(order, **changes) -> dict:
     return {**data, **changes}
 
 
-def test_the_assignee_list_offers_technicians_and_engineers_by_full_name(order, users, client):
+def _assignee_options(client, order) -> list[str]:
+    page = client.get(f"/workorders/{order.pk}/edit/").content.decode()
+    select = page.split('name="assignee"')[1].split("</select>")[0]
+    return [label for _, label in re.findall(r'<option value="(\d*)"[^>]*>([^<]*)</option>', select)]
+
+
+def test_the_assignee_list_offers_the_technician_role_and_above_by_full_name(order, users, client):
     users["technician"].first_name, users["technician"].last_name = "Rosa", "Delacroix"
     users["technician"].save()
     client.force_login(users["engineer"])
-    page = client.get(f"/workorders/{order.pk}/edit/").content.decode()
-    select = page.split('name="assignee"')[1].split("</select>")[0]
-    options = re.findall(r'<option value="(\d*)"[^>]*>([^<]*)</option>', select)
-    assert [label for _, label in options] == ["---------", "engineer", "Rosa Delacroix"]  # no viewer, no admin
+    assert _assignee_options(client, order) == ["---------", "administrator", "engineer", "Rosa Delacroix"]
     response = client.post(f"/workorders/{order.pk}/edit/", _edit_data(order, assignee=users["viewer"].pk))
-    assert response.status_code == 200 and "Choose a technician or an engineer" in response.content.decode()
+    assert response.status_code == 200 and "Choose a person from the list" in response.content.decode()
     assert WorkOrder.objects.get(pk=order.pk).assignee is None
     client.post(f"/workorders/{order.pk}/edit/", _edit_data(order, assignee=users["technician"].pk))
     assert WorkOrder.objects.get(pk=order.pk).assignee == users["technician"]
+
+
+def test_an_order_stays_with_its_assignee_who_has_left_when_another_field_is_saved(order, users, client):
+    order.assignee = users["technician"]
+    order.save()
+    users["technician"].is_active = False
+    users["technician"].save()
+    client.force_login(users["engineer"])
+    assert "technician" in _assignee_options(client, order)
+    client.post(f"/workorders/{order.pk}/edit/", _edit_data(order, title="New title", assignee=users["technician"].pk))
+    order.refresh_from_db()
+    assert (order.title, order.assignee) == ("New title", users["technician"])
 
 
 @pytest.mark.parametrize("field, value, message", [

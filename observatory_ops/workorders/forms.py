@@ -2,8 +2,9 @@ import datetime as dt
 
 from django import forms
 from django.contrib.auth import get_user_model
+from django.db.models import Q
 
-from observatory_ops.access.roles import ENGINEER, TECHNICIAN
+from observatory_ops.access.roles import TECHNICIAN, holders_of
 from observatory_ops.archive.history import person
 from observatory_ops.calc.lifting import DENSITY
 from observatory_ops.planning.services import site_today
@@ -25,8 +26,8 @@ class WorkOrderEditForm(forms.ModelForm):
 
     assignee = _PersonChoiceField(
         queryset=get_user_model().objects.none(), required=False,
-        help_text="Technicians and engineers.",
-        error_messages={"invalid_choice": "Choose a technician or an engineer from the list."},
+        help_text="Technicians, engineers and administrators (and whoever it is assigned to now).",
+        error_messages={"invalid_choice": "Choose a person from the list."},
     )
 
     class Meta:
@@ -36,8 +37,11 @@ class WorkOrderEditForm(forms.ModelForm):
 
     def __init__(self, *args, **kwargs):
         super().__init__(*args, **kwargs)
+        # The person it is assigned to stays on the list though they have left or changed role, so saving
+        # another change does not quietly take the order off them.
+        current = Q(pk=self.instance.assignee_id) if self.instance.assignee_id else Q(pk__in=[])
         self.fields["assignee"].queryset = (
-            get_user_model().objects.filter(is_active=True, groups__name__in=[TECHNICIAN, ENGINEER])
+            get_user_model().objects.filter(Q(pk__in=holders_of(TECHNICIAN).values("pk")) | current)
             .distinct().order_by("first_name", "last_name", "username")
         )
 
