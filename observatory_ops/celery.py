@@ -57,22 +57,14 @@ class ServiceTask(Task):
         return super().retry(*args, exc=exc, **kwargs)
 
 
-def each_site(*task_names: str, local_hour: int | None = None) -> int:
-    """Send the named tasks, in order, for every site (one chain per site); return the number of sites.
-
-    With ``local_hour``, only for the sites where the hour now is ``local_hour`` in their own time zone: an
-    hourly beat entry so reaches each site once a day at the same local time, wherever it is.
-    """
-    from django.utils import timezone
-
+def each_site(*task_names: str, sites=None) -> int:
+    """Send the named tasks, in order, for every site (or each of ``sites``), one chain per site; return the
+    number of sites."""
     from observatory_ops.registry.models import Site
 
-    now = timezone.now()
-    site_ids = [
-        site.pk
-        for site in Site.objects.order_by("pk").only("pk", "time_zone")
-        if local_hour is None or now.astimezone(site.zone).hour == local_hour
-    ]
+    site_ids = (
+        list(Site.objects.order_by("pk").values_list("pk", flat=True)) if sites is None else [s.pk for s in sites]
+    )
     for site_id in site_ids:
         chain(*(app.signature(name, args=(site_id,), immutable=True) for name in task_names)).delay()
     return len(site_ids)

@@ -194,17 +194,18 @@ CELERY_BROKER_CONNECTION_RETRY_ON_STARTUP = True
 CELERY_BROKER_TRANSPORT_OPTIONS = {"visibility_timeout": int(os.environ.get("CELERY_VISIBILITY_TIMEOUT", "3600"))}
 CELERY_TIMEZONE = "UTC"
 CELERY_BEAT_SCHEDULE_FILENAME = str(DATA_DIR / "celerybeat-schedule")  # when each entry last ran
-#: Local hours (each site's own time zone) of the daily work: the hourly entries below reach each site then.
-SITE_NEW_DAY_HOUR = 0  # at half past: after the site's midnight, "today" moves on
-SITE_DIGEST_HOUR = 6  # on the hour: the engineers' morning
+#: The local hour (each site's own time zone) from which the day's due digest goes out.
+SITE_DIGEST_HOUR = 6
 CELERY_BEAT_SCHEDULE = {
-    # Each ingest recomputes its own site at once; this moves calendar triggers and "today" forward at each
-    # site just after its local midnight, and adds the next night to its nights cache.
+    # Each ingest recomputes its own site at once. This, every hour, takes each site whose states were
+    # computed before its today (so within the hour after its local midnight, and after any pause of the
+    # workers), adds the next night to its nights cache and moves its calendar triggers and "today" forward.
     "site-new-day": {
         "task": "planning.sites_recompute_all",
         "schedule": crontab(minute=30),
-        "kwargs": {"local_hour": SITE_NEW_DAY_HOUR},
+        "kwargs": {"stale_only": True},
     },
+    # Every hour: each site from SITE_DIGEST_HOUR local time on whose digest of the day is not sent yet.
     "site-due-digest": {
         "task": "planning.sites_due_digest_all",
         "schedule": crontab(minute=0),

@@ -13,7 +13,6 @@ import sys
 import pytest
 from conftest import site_in_use
 from django.core import mail
-from django.core.cache import cache
 from django.db import OperationalError
 from django.utils.timezone import now as timezone_now
 
@@ -27,13 +26,6 @@ from observatory_ops.planning import tasks as planning_tasks
 from observatory_ops.planning.models import NightSky, PlanStatus
 from observatory_ops.workorders import batches
 from observatory_ops.workorders import tasks as workorder_tasks
-
-
-@pytest.fixture(autouse=True)
-def _fresh_cache():
-    cache.clear()  # the once-a-day digest mark lives in the cache
-    yield
-    cache.clear()
 
 
 def plan_states(site) -> dict[int, tuple]:
@@ -177,23 +169,43 @@ def test_nightly_fan_out_recomputes_every_site(db):
     assert [PlanStatus.objects.filter(site=s).count() for s in sites] == [6, 1]
 
 
-def test_the_daily_work_reaches_each_site_at_its_own_local_hour(db, monkeypatch):
-    """The beat runs the daily entries every hour; each site is taken when the hour is the right one in its
-    own zone (IANA time zone database: America/Denver is UTC-7 in December)."""
+def test_the_hourly_new_day_entry_recomputes_the_sites_whose_day_has_turned(db, monkeypatch):
+    """Run every hour, it takes each site whose states were computed before its today: within the hour after
+    the site's midnight, and after any pause of the workers (a late run still finds them)."""
+    from django.conf import settings
+
+    fresh, stale = site_in_use("fresh"), site_in_use("stale-day")
+    planning.site_recompute(fresh)
+    planning.site_recompute(stale)
+    PlanStatus.objects.filter(site=stale).update(computed_at=timezone_now() - dt.timedelta(days=1))
+    recomputed = []
+    monkeypatch.setattr(planning, "site_recompute", lambda site, today=None: recomputed.append(site.slug))
+    assert planning_tasks.sites_recompute_all.delay(stale_only=True).get() == 1
+    assert recomputed == ["stale-day"]
+    entries = {entry["task"]: entry for entry in settings.CELERY_BEAT_SCHEDULE.values()}
+    assert entries["planning.sites_recompute_all"]["kwargs"] == {"stale_only": True}
+
+
+def test_the_digest_goes_out_from_the_local_hour_on_once_a_day_at_each_site(mailed_people, monkeypatch):
+    """IANA time zone database: America/Denver is UTC-7 in December. 06:00 UTC is 06:00 at Greenwich and
+    23:00 the day before in Denver; a run at 08:00 UTC (late: the workers were down) still sends Greenwich's,
+    and nothing twice."""
     from django.conf import settings
     from django.utils import timezone
 
-    utc_site, denver = site_in_use("greenwich"), site_in_use("denver")
+    greenwich, denver = site_in_use("greenwich"), site_in_use("denver")
     denver.time_zone = "America/Denver"
     denver.save()
-    monkeypatch.setattr(timezone, "now", lambda: dt.datetime(2026, 12, 2, 7, 30, tzinfo=dt.UTC))  # 00:30 in Denver
-    assert planning_tasks.sites_recompute_all.delay(local_hour=0).get() == 1
-    assert PlanStatus.objects.filter(site=denver).exists() and not PlanStatus.objects.filter(site=utc_site).exists()
-    monkeypatch.setattr(timezone, "now", lambda: dt.datetime(2026, 12, 2, 6, 0, tzinfo=dt.UTC))
-    assert planning_tasks.sites_due_digest_all.delay(local_hour=6).get() == 1  # 06:00 at Greenwich only
-    entries = {entry["task"]: entry for entry in settings.CELERY_BEAT_SCHEDULE.values()}
-    assert entries["planning.sites_recompute_all"]["kwargs"] == {"local_hour": settings.SITE_NEW_DAY_HOUR}
-    assert entries["planning.sites_due_digest_all"]["kwargs"] == {"local_hour": settings.SITE_DIGEST_HOUR}
+    for site in (greenwich, denver):
+        planning.site_recompute(site)
+    monkeypatch.setattr(timezone, "now", lambda: dt.datetime(2026, 12, 2, 8, 0, tzinfo=dt.UTC))
+    hour = settings.SITE_DIGEST_HOUR
+    assert planning_tasks.sites_due_digest_all.delay(local_hour=hour).get() == 1  # Greenwich only
+    assert len(mail.outbox) == 1 and mail.outbox[0].subject.startswith(greenwich.name)
+    assert planning_tasks.sites_due_digest_all.delay(local_hour=hour).get() == 0  # sent today: not asked again
+    monkeypatch.setattr(timezone, "now", lambda: dt.datetime(2026, 12, 2, 13, 30, tzinfo=dt.UTC))  # 06:30 Denver
+    assert planning_tasks.sites_due_digest_all.delay(local_hour=hour).get() == 1
+    assert len(mail.outbox) == 2
 
 
 def test_a_digest_lists_the_sites_today_even_when_its_states_are_from_yesterday(mailed_people):

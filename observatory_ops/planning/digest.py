@@ -9,7 +9,6 @@ import datetime as dt
 import logging
 
 from django.conf import settings
-from django.core.cache import cache
 from django.core.mail import EmailMessage
 from django.template.loader import render_to_string
 from django.urls import reverse
@@ -21,10 +20,6 @@ from . import selectors
 from .services import site_today, sites_bring_up_to_date
 
 log = logging.getLogger(__name__)
-
-#: How long the "digest sent" mark is kept: longer than a day, so a second run the same day sends nothing.
-SENT_MARK_SECONDS = 2 * 24 * 3600
-
 
 def recipients() -> list[str]:
     """E-mail addresses of the active people in the engineer role or above, administrators and superusers
@@ -56,11 +51,14 @@ def due_digest(site: Site, today: dt.date, to: list[str]) -> EmailMessage | None
 def due_digest_send(site: Site, today: dt.date | None = None) -> int:
     """Send today's digest for ``site`` to the engineers once; return how many addresses it went to.
 
-    At most one digest per site and local day: the day is claimed in the shared cache before sending and
-    released if sending fails, so a retried or repeated task sends nothing twice. A digest lost to a
-    worker killed between claim and send is covered by the next day's, which lists every item again.
+    At most one digest per site and local day, whichever process or command asks: the day is claimed on the
+    site's row (``Site.digest_sent_on``, one conditional UPDATE) before sending and given back if sending
+    fails, so a retried, repeated or hourly task sends nothing twice. A digest lost to a worker killed
+    between claim and send is covered by the next day's, which lists every item again.
     """
     today = today or site_today(site)
+    if Site.objects.filter(pk=site.pk, digest_sent_on=today).exists():
+        return 0
     sites_bring_up_to_date([site])  # states computed before the site's today would list yesterday's items
     to = recipients()
     if not to:
@@ -69,12 +67,12 @@ def due_digest_send(site: Site, today: dt.date | None = None) -> int:
     message = due_digest(site, today, to)
     if message is None:
         return 0
-    mark = f"obsops:due-digest:{site.pk}:{today.isoformat()}"
-    if not cache.add(mark, "sent", timeout=SENT_MARK_SECONDS):
-        return 0
+    previous = Site.objects.filter(pk=site.pk).values_list("digest_sent_on", flat=True).first()
+    if not Site.objects.filter(pk=site.pk).exclude(digest_sent_on=today).update(digest_sent_on=today):
+        return 0  # another process claimed the day meanwhile
     try:
         message.send()
     except BaseException:
-        cache.delete(mark)
+        Site.objects.filter(pk=site.pk, digest_sent_on=today).update(digest_sent_on=previous)
         raise
     return len(to)

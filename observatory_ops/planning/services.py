@@ -332,23 +332,31 @@ def site_recompute(site: Site, today: dt.date | None = None) -> int:
         return _site_recompute(site, today or site_today(site))
 
 
-def sites_bring_up_to_date(sites=None) -> list[Site]:
-    """Recompute each site (of ``sites``, or all) whose stored due states were computed before the site's
-    today; return those recomputed.
+def stale_sites(sites=None) -> list[Site]:
+    """The sites (of ``sites``, or all) whose stored due states were computed before the site's today.
 
-    Calendar triggers and forecasts move with the date, so states computed yesterday are out of date
-    even on a quiet site. With Celery beat the nightly task keeps them current; without it (the embedded
-    default) the pages, the API and the ``due`` command call this before reading, so the first look of
-    the day brings a site up to date. One query: a site's states share one ``computed_at``, so one row
-    per site (found through the site's index) tells.
+    Calendar triggers and forecasts move with the date, so states computed yesterday are out of date even on
+    a quiet site. One query: a site's states share one ``computed_at``, so one row per site (found through
+    the site's index) tells. A site with no states yet is not counted (it has nothing to bring forward).
     """
     newest = PlanStatus.objects.filter(site=OuterRef("pk")).values("computed_at")[:1]
     candidates = Site.objects.all() if sites is None else Site.objects.filter(pk__in=[s.pk for s in sites])
-    stale = []
-    for site in candidates.annotate(computed_at=Subquery(newest)):
-        if site.computed_at is not None and site.computed_at.astimezone(site.zone).date() < site_today(site):
-            site_recompute(site)
-            stale.append(site)
+    return [
+        site for site in candidates.annotate(computed_at=Subquery(newest))
+        if site.computed_at is not None and site.computed_at.astimezone(site.zone).date() < site_today(site)
+    ]
+
+
+def sites_bring_up_to_date(sites=None) -> list[Site]:
+    """Recompute each stale site (``stale_sites``) here and now; return those recomputed.
+
+    With Celery beat the hourly task keeps states current; without it (the embedded default) the pages, the
+    API and the ``due`` command call this before reading, so the first look of the day brings a site up to
+    date.
+    """
+    stale = stale_sites(sites)
+    for site in stale:
+        site_recompute(site)
     return stale
 
 

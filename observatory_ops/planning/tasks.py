@@ -8,6 +8,7 @@ import datetime as dt
 
 from celery import shared_task
 from django.db import transaction
+from django.utils import timezone
 
 from observatory_ops.celery import ServiceTask, each_site
 from observatory_ops.registry.models import Site
@@ -42,14 +43,22 @@ def due_digest_send(site_id: int) -> int:
 
 
 @shared_task(base=ServiceTask, name="planning.sites_recompute_all")
-def sites_recompute_all(local_hour: int | None = None) -> int:
-    """Nightly: for every site (or those where it is ``local_hour`` o'clock), extend its nights cache, then
-    recompute it. Returns the number of sites."""
-    return each_site(site_sky_refresh.name, site_recompute.name, local_hour=local_hour)
+def sites_recompute_all(stale_only: bool = False) -> int:
+    """For every site (or, with ``stale_only``, each whose states were computed before its today: the hourly
+    beat entry, which so reaches each site within the hour after its midnight, and catches up after any
+    pause), extend its nights cache, then recompute it. Returns the number of sites."""
+    sites = services.stale_sites() if stale_only else None
+    return each_site(site_sky_refresh.name, site_recompute.name, sites=sites)
 
 
 @shared_task(base=ServiceTask, name="planning.sites_due_digest_all")
-def sites_due_digest_all(local_hour: int | None = None) -> int:
-    """Daily: send every site's due digest (or of those where it is ``local_hour`` o'clock). Returns the
-    number of sites."""
-    return each_site(due_digest_send.name, local_hour=local_hour)
+def sites_due_digest_all(local_hour: int = 0) -> int:
+    """Send the due digest of each site where it is ``local_hour`` o'clock or later in its own time zone and
+    whose digest of the day is not sent yet (the hourly beat entry: the engineers' morning, whenever the
+    workers run). Returns the number of sites asked."""
+    now = timezone.now()
+    sites = [
+        site for site in Site.objects.order_by("pk")
+        if now.astimezone(site.zone).hour >= local_hour and site.digest_sent_on != services.site_today(site, now)
+    ]
+    return each_site(due_digest_send.name, sites=sites)

@@ -47,6 +47,10 @@ class Site(models.Model):
     look_ahead_days = models.PositiveIntegerField(
         default=30, help_text="Items forecast within this many days count as due."
     )
+    digest_sent_on = models.DateField(
+        null=True, blank=True, editable=False,
+        help_text="The site's local day of the last due digest sent: at most one a day (planning.digest).",
+    )
 
     class Meta:
         ordering = ["name"]
