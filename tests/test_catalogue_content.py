@@ -207,3 +207,28 @@ def test_the_upgrade_splits_the_earlier_restore_wording_from_its_release_clause(
         ["Park the telescope at its service position."], ["Check pad wear."],
         ["Restore the air slowly and check that the brake releases and holds."],
     )
+
+
+def test_the_upgrade_adds_what_the_catalogue_gained_to_stored_subsystems_and_plans(telescope):
+    """Planning migration 0008: a subsystem stored before gets its kind's new hazards, a catalogue plan its new
+    reading rows; nothing is removed."""
+    import datetime as dt
+
+    from django.apps import apps
+
+    from observatory_ops.registry.services import subsystem_create
+
+    upgrade = importlib.import_module("observatory_ops.planning.migrations.0008_catalogue_additions_for_stored_records")
+    fans = subsystem_create(telescope, "cooling_fans", "Cell fans", counting_from=dt.date(2026, 1, 1))
+    supplies = subsystem_create(telescope, "dc_supplies", "DC supplies", counting_from=dt.date(2026, 1, 1))
+    fans.hazards = ["electrical", "chemical"]  # as stored before, with one the engineer added
+    fans.save()
+    plan = supplies.plans.get(readings__isnull=False, name=KINDS["dc_supplies"].plans[0].name)
+    plan.readings = [{"quantity": "ripple_mv", "limit": "as set by the site"}]
+    plan.save()
+    upgrade.add_catalogue_hazards_and_readings(apps, None)
+    fans.refresh_from_db()
+    plan.refresh_from_db()
+    assert set(fans.hazards) == {"electrical", "chemical", *KINDS["cooling_fans"].hazards}
+    assert plan.readings[0] == {"quantity": "ripple_mv", "limit": "as set by the site"}  # kept as the site set it
+    assert {r["quantity"] for r in plan.readings} == {q for q, _ in KINDS["dc_supplies"].plans[0].readings}
