@@ -587,7 +587,10 @@ def test_command_creates_a_token_that_works_lists_it_and_revokes_it(client, site
 
     listing, _ = run("list")
     assert f"{token.prefix}…" in listing and "active" in listing and secret not in listing
-    assert listing.splitlines()[0].split() == ["id", "site", "begins", "created", "state", "name"]
+    assert listing.splitlines()[0].split() == ["id", "site", "begins", "created", "last", "used", "(UTC)", "state",
+                                               "name"]
+    token.refresh_from_db()  # the night sent above used it
+    assert token.last_used_at is not None and f"{token.last_used_at:%Y-%m-%d %H:%M}" in listing
 
     out, _ = run("revoke", str(token.pk))
     assert out.strip() == f"Token {token.pk} (east dome, site test-hill) revoked."

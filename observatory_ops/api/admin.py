@@ -16,9 +16,9 @@ from .models import ApiToken
 
 @admin.register(ApiToken)
 class ApiTokenAdmin(SimpleHistoryAdmin):
-    list_display = ("name", "site", "shown_prefix", "created_at", "created_by", "revoked_at")
+    list_display = ("name", "site", "shown_prefix", "created_at", "created_by", "last_used_at", "revoked_at")
     list_filter = ("site", ("revoked_at", admin.EmptyFieldListFilter))
-    fields = ("site", "name", "shown_prefix", "created_at", "created_by", "revoked_at")
+    fields = ("site", "name", "shown_prefix", "created_at", "created_by", "last_used_at", "revoked_at")
     readonly_fields = fields
     actions = ["revoke"]
 

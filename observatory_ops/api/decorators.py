@@ -15,12 +15,15 @@ so the project's URL walk can tell API views from the pages behind ``access.deco
 """
 from __future__ import annotations
 
+import datetime as dt
 from functools import wraps
 
+from django.utils import timezone
 from django.views.decorators.csrf import csrf_exempt
 
 from observatory_ops.registry.models import Site
 
+from .models import ApiToken
 from .responses import error
 from .selectors import token_for_secret
 
@@ -31,6 +34,14 @@ def _bearer_secret(request) -> str | None:
     scheme, _, secret = request.META.get("HTTP_AUTHORIZATION", "").partition(" ")
     secret = secret.strip()
     return secret if scheme.lower() == "bearer" and secret else None
+
+
+def _mark_used(token: ApiToken) -> None:
+    """Record when the token was last used, at most once a minute (one UPDATE, no history row), so an
+    operator rotating tokens sees whether the control software has moved to the new one."""
+    now = timezone.now()
+    if token.last_used_at is None or now - token.last_used_at >= dt.timedelta(minutes=1):
+        ApiToken.objects.filter(pk=token.pk).update(last_used_at=now)
 
 
 def api_token_required(*methods: str):
@@ -60,6 +71,7 @@ def api_token_required(*methods: str):
                 response["Allow"] = ", ".join(methods)
                 return response
             request.api_token = token
+            _mark_used(token)
             return view(request, site, *args, **kwargs)
 
         guarded.required_role = API_ACCESS

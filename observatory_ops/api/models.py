@@ -25,6 +25,10 @@ class ApiToken(models.Model):
         help_text="Empty when created with the api_token command.",
     )
     revoked_at = models.DateTimeField(null=True, blank=True)
+    last_used_at = models.DateTimeField(
+        null=True, blank=True, editable=False,
+        help_text="When a request last came with it (to the minute): shows which token control software uses.",
+    )
 
     class Meta:
         ordering = ["site", "-created_at"]

@@ -53,8 +53,13 @@ class Command(BaseCommand):
         if not tokens:
             self.stdout.write("No API tokens." if not site else f"No API tokens for site {site}.")
             return
-        self.stdout.write(f"{'id':>4}  {'site':<20} {'begins':<9} {'created':<10}  {'state':<18} name")
+        self.stdout.write(
+            f"{'id':>4}  {'site':<20} {'begins':<9} {'created':<10}  {'last used (UTC)':<16}  {'state':<18} name"
+        )
         for t in tokens:
             state = f"revoked {t.revoked_at:%Y-%m-%d}" if t.revoked_at else "active"
             created = f"{t.created_at:%Y-%m-%d}"
-            self.stdout.write(f"{t.pk:>4}  {t.site.slug:<20} {t.prefix}…  {created}  {state:<18} {t.name}")
+            used = f"{t.last_used_at:%Y-%m-%d %H:%M}" if t.last_used_at else "never"
+            self.stdout.write(
+                f"{t.pk:>4}  {t.site.slug:<20} {t.prefix}…  {created}  {used:<16}  {state:<18} {t.name}"
+            )
