@@ -35,15 +35,17 @@ def test_a_dome_order_without_a_point_of_its_own_is_warned(dome, users):
     assert len(gaps) == 1 and "Dome, which has a supply of its own" in gaps[0]
 
 
-def test_a_point_registered_for_the_dome_is_named_on_its_orders_only(dome, telescope, users):
+def test_a_point_registered_for_the_dome_is_named_on_its_orders_and_where_it_can_move_only(dome, telescope, users):
     point = IsolationPoint.objects.create(telescope=telescope, subsystem=dome, energy="ac",
                                           label="Dome rotation and shutter isolator", location="dome ring panel")
     order = _order(dome, users)
     assert selectors.isolation_gaps(order) == []
     assert {p.label for p in selectors.isolation_points(order)} == {"Mount isolator", point.label}
     assert point.description.startswith(f"{telescope.name}: Dome: AC mains: Dome rotation and shutter isolator")
-    brake = subsystem_create(telescope, "brake", "Axis 1 brake", counting_from=START)
-    assert point not in selectors.isolation_points(_order(brake, users))
+    brake = subsystem_create(telescope, "brake", "Axis 1 brake", counting_from=START)  # a moving telescope
+    assert point in selectors.isolation_points(_order(brake, users))  # the dome can turn during it too
+    mains = subsystem_create(telescope, "ac_power", "Mains", counting_from=START)  # nothing moves
+    assert point not in selectors.isolation_points(_order(mains, users))
 
 
 def test_a_telescope_without_a_point_for_the_energy_is_warned(telescope, users):

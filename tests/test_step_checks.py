@@ -298,7 +298,7 @@ def test_the_finished_record_lists_the_confirmations_with_who_and_when(underway,
     sheet = selectors.sheet(underway, "https://ops.example/wo/1/")
     step_tick = ChecklistTick.objects.get(kind=STEP, step_index=0)
     point_tick = ChecklistTick.objects.get(kind=POINT)
-    local = "%Y-%m-%d %H:%M"
+    local = "%d %b %Y %H:%M"
     # Step 3 was ticked and taken back: with every other step it was open when the work was finished, and
     # the technician confirmed them on the finish form.
     open_steps = tuple(f"Step {n}: {underway.step_list[n - 1]}" for n in range(2, len(underway.step_list) + 1))

@@ -125,7 +125,7 @@ def test_header_sections_and_sign_off_all_print():
     text = body_text(render_sheet(make_sheet()))
     for expected in (
         "WO-0007", "Primary mirror inspection", "Mesa Pinta Station", "Scope B (0.5 m)", "Primary mirror, Mirror cover",
-        "Preventive", "Normal", "Issued", "2026-07-01", "2026-06-15", "Rosa Delacroix", "3.5 h",
+        "Preventive", "Normal", "Issued", "01 Jul 2026", "15 Jun 2026", "Rosa Delacroix", "3.5 h",
         "Why this work is due", "91 of 90 calendar days", "AC mains isolator Q1, mount cabinet", "Lens tissue",
         "LT-200", "Portable reflectometer", "Reflectance at 550 nm", ">= 83 %", "Findings", "Performed by",
         "Checked by", "Signature",

@@ -298,7 +298,9 @@ class _PhaseWork(NamedTuple):
     ``before`` is done under power before isolation, ``locked`` with the energy locked out, ``after`` once
     the locked-out work is done; the lockout step goes between the first two when the hazards call for it
     (``workorders.services.lockout_missing``). ``lifted`` says what the order's lifting figures are for:
-    the mirror in its cell, the mirror alone, or nothing.
+    the mirror in its cell, the mirror alone, or nothing. ``at_telescope`` is False for work done with the
+    mirror away from the telescope (at a coating plant): its order carries the phase's own hazards only, not
+    the mirror subsystem's (a telescope that can move is not part of that work).
     """
 
     hazards: tuple[str, ...]
@@ -307,6 +309,7 @@ class _PhaseWork(NamedTuple):
     after: tuple[str, ...]
     tools: tuple[str, ...]
     lifted: str = ""
+    at_telescope: bool = True
 
 
 _WITH_CELL, _MIRROR_ONLY = "mirror and cell", "mirror alone"
@@ -324,6 +327,21 @@ _MIRROR_ONLY_LIFT = (
     "The lifting figures on this order are for the mirror and its cell together; the mirror lifted alone "
     "is a smaller load (the mirror mass row), so rig for the figures or for the mirror mass as the lift "
     "plan says."
+)
+#: The brakes are applied by springs and released by air: vented under the lockout, they hold an axis whatever
+#: its balance, so an axis that stays put while pinned or braked shows nothing. The check releases one axis's
+#: brake at a time, under the site's procedure, with the drives disabled and the axis restrained (common
+#: practice, no published source; the site's balancing procedure and the mount maker's instructions come first).
+_BALANCE_CHECK = (
+    "Check the balance one axis at a time, as the site's balancing procedure and the mount maker's "
+    "instructions say. The brakes are applied by springs and released by air, so with the air vented they "
+    "hold an axis whatever its balance: never take a pinned or braked axis as balanced. For each axis: keep "
+    "the drives locked out and disabled, everyone outside the swept volume, and the axis held or restrained "
+    "as the procedure says, with its pin in; release that axis's brake only as the procedure says (its air "
+    "restored under the site's lockout procedure, or the maker's manual release); draw the pin only when "
+    "ready, and let the restraint out slowly to see whether the axis turns under gravity. Then pin it and "
+    "apply its brake again (vent its air and lock it out again) before checking the other axis, and "
+    "correct the balance until neither axis turns."
 )
 
 _PHASE_WORK = {
@@ -394,6 +412,7 @@ _PHASE_WORK = {
             "Witness samples",
         ),
         lifted=_MIRROR_ONLY,
+        at_telescope=False,
     ),
     "reinstall": _PhaseWork(
         # The drives and the brake air are locked out: their cautions (an axis out of balance swings when the
@@ -411,8 +430,8 @@ _PHASE_WORK = {
             "Raise the cell on the lifting table into the tube from below and bolt it as the site's "
             "mirror-removal procedure says; a competent person checks the table and any rigging.",
             "Take off any balance weights fitted at the removal and restore the axis balance with the drives "
-            "still locked out; check it as the site's balancing procedure says (for example one axis at a "
-            "time: hold it, draw its pin, and check that it does not turn under gravity, then pin it again).",
+            "still locked out, as the site's balancing procedure and the mount maker's instructions say.",
+            _BALANCE_CHECK,
         ),
         after=(
             "Only when both axes are balanced and everyone is clear, remove the pins, the locks and the tags "
@@ -425,6 +444,7 @@ _PHASE_WORK = {
             "Rated slings and shackles for the mirror lift, inspected before use",
             "Mirror-handling fixture",
             "Torque wrench for the cell bolts",
+            "The axis restraint the site's balancing procedure uses",
         ),
         lifted=_WITH_CELL,
     ),
@@ -526,7 +546,8 @@ def recoat_plan_create(
             kind = phase.work
             if kind in _PHASE_WORK and phase.days > 0:
                 work = _PHASE_WORK[kind]
-                hazards = [h for h in HAZARDS if h in set(work.hazards) | set(subsystem.hazards)]
+                mirror_hazards = set(subsystem.hazards) if work.at_telescope else set()
+                hazards = [h for h in HAZARDS if h in set(work.hazards) | mirror_hazards]
                 order = WorkOrder.objects.create(
                     site=subsystem.telescope.site, telescope=subsystem.telescope,
                     title=f"Recoat {subsystem.name}: {phase.name}", planned_date=day,

@@ -3,6 +3,7 @@ from simple_history.admin import SimpleHistoryAdmin
 
 from observatory_ops.planning.admin import RecomputesSite
 from observatory_ops.planning.services import plans_from_catalogue, site_today
+from observatory_ops.workorders.cautions import HAZARDS
 
 from .catalogue import kind as catalogue_kind
 from .forms import SubsystemAdminForm
@@ -24,7 +25,9 @@ class TelescopeAdmin(SimpleHistoryAdmin):
 @admin.register(Subsystem)
 class SubsystemAdmin(RecomputesSite, SimpleHistoryAdmin):
     """A subsystem added here gets what ``registry.services.subsystem_create`` gives one: its kind's hazard
-    tags (when none are entered) and default service plans, counted from the site's today."""
+    tags and default service plans, counted from the site's today. Hazards ticked when adding it are added to
+    its kind's, never put in their place: the tags choose the cautions on its work orders. A change that
+    leaves out any of its kind's own hazards is saved, with a warning naming them."""
 
     form = SubsystemAdminForm
     list_display = ("name", "telescope", "kind", "parent", "retired_on")
@@ -35,9 +38,18 @@ class SubsystemAdmin(RecomputesSite, SimpleHistoryAdmin):
         return obj.telescope.site
 
     def save_model(self, request, obj, form, change):
-        if not change and not obj.hazards:
-            obj.hazards = list(catalogue_kind(obj.kind).hazards)
+        own = catalogue_kind(obj.kind).hazards
+        if not change:
+            obj.hazards = [code for code in HAZARDS if code in {*own, *obj.hazards}]
         super().save_model(request, obj, form, change)
+        left_out = [HAZARDS[code] for code in HAZARDS if code in own and code not in obj.hazards]
+        if change and left_out:
+            self.message_user(
+                request,
+                f"{obj}: saved without these hazards of its kind: {', '.join(left_out)}. Work orders made for it "
+                "from now on will then lack those cautions; tick them again unless it truly has none of them.",
+                messages.WARNING,
+            )
 
     def save_related(self, request, form, formsets, change):
         if not change:
@@ -45,8 +57,8 @@ class SubsystemAdmin(RecomputesSite, SimpleHistoryAdmin):
             plans = plans_from_catalogue(subsystem, site_today(subsystem.telescope.site))
             self.message_user(
                 request,
-                f"{subsystem}: hazard tags {', '.join(subsystem.hazards) or 'none'} and {len(plans)} default "
-                "service plan(s) from its kind; change them under Service plans.",
+                f"{subsystem}: hazard tags {', '.join(HAZARDS[code] for code in subsystem.hazards) or 'none'} "
+                f"and {len(plans)} default service plan(s) from its kind; change them under Service plans.",
                 messages.INFO,
             )
         super().save_related(request, form, formsets, change)

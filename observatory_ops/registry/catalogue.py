@@ -105,7 +105,9 @@ KINDS: dict[str, Kind] = {
         Kind(
             "primary_mirror",
             "Primary mirror",
-            ("optical_surface",),
+            # Work on a mirror in a telescope that can move: an ad hoc order on it carries the moving-telescope
+            # caution too (a recoat's coating phase, away at the plant, takes only its own hazards).
+            ("optical_surface", "moving_machinery"),
             (
                 PlanTemplate(
                     "Inspect and CO2-snow clean primary",
@@ -161,7 +163,7 @@ KINDS: dict[str, Kind] = {
         Kind(
             "secondary_mirror",
             "Secondary mirror",
-            ("optical_surface", "height"),
+            ("optical_surface", "height", "moving_machinery"),  # in a telescope that can move, as the primary
             (
                 PlanTemplate(
                     "Inspect and clean secondary",

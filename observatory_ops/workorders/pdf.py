@@ -159,8 +159,12 @@ def _shorten(value: str, limit: int) -> str:
     return line if len(line) <= limit else line[: limit - 3] + "..."
 
 
+#: How a date reads on the printed order, as on the pages ("23 Mar 2027").
+_DAY = "%d %b %Y"
+
+
 def _date_text(value: date | None) -> str:
-    return value.isoformat() if value is not None else "not set"
+    return value.strftime(_DAY) if value is not None else "not set"
 
 
 class _Table(Table):
@@ -362,7 +366,7 @@ def _header(sheet: Sheet, width: float) -> list[Flowable]:
         ("Planned date", _date_text(sheet.planned_date)),
         ("Issued", _date_text(sheet.issued_on)),
         ("Assignee", sheet.assignee or "not assigned"),
-        ("Printed", sheet.generated_at.strftime("%Y-%m-%d %H:%M") if sheet.generated_at else ""),
+        ("Printed", sheet.generated_at.strftime(f"{_DAY} %H:%M") if sheet.generated_at else ""),
     )
     column = width / 4
     rows = []
@@ -551,7 +555,7 @@ def _confirmations(sheet: Sheet) -> list[Flowable]:
 
 def _sign_off(sheet: Sheet, width: float) -> list[Flowable]:
     def day(value) -> str:
-        return value.isoformat() if value else ""
+        return value.strftime(_DAY) if value else ""
 
     table = Table(
         [

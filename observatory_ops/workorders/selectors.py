@@ -10,7 +10,7 @@ from django.utils import dateformat, timezone
 from observatory_ops.archive.history import Change, changes, person
 from observatory_ops.calc import lifting
 from observatory_ops.registry import catalogue
-from observatory_ops.registry.models import Site
+from observatory_ops.registry.models import Site, Subsystem
 
 from . import sheet as sheet_
 from .cautions import PRECEDENCE_STATEMENT, SEVERITY_LABELS, Caution, cautions_for, needs_isolation
@@ -49,20 +49,32 @@ def cautions(order: WorkOrder) -> list[Caution]:
     return cautions_for(order.hazards)
 
 
-def isolation_points(order: WorkOrder) -> list[IsolationPoint]:
-    """The points the order's lockout step locks: each of its telescopes' points for all work there, and
-    the points registered for one of its subsystems (a dome's own drives). None when its hazards need no
-    energy isolated (the order has no lockout step)."""
-    if not needs_isolation(order.hazards):
-        return []
-    items = list(order.items.select_related("subsystem"))
+#: Kinds fed from a supply of their own (a dome's rotation and shutter drives): the telescope's points leave them live.
+_SEPARATE_SUPPLY = tuple(code for code, kind in catalogue.KINDS.items() if kind.separate_supply)
+
+
+def _telescopes(order: WorkOrder, items: list[WorkOrderItem]) -> set[int]:
     telescopes = {i.subsystem.telescope_id for i in items}
     if order.telescope_id:
         telescopes.add(order.telescope_id)
-    subsystems = {i.subsystem_id for i in items}
+    return telescopes
+
+
+def isolation_points(order: WorkOrder) -> list[IsolationPoint]:
+    """The points the order's lockout step locks: each of its telescopes' points for all work there, and
+    the points registered for one of its subsystems (a dome's own drives). Work with a moving telescope or
+    dome among its hazards also locks the points of every subsystem in service on those telescopes that has
+    a supply of its own: a dome turning over people on a platform is a danger to any of that work, not only
+    to work on the dome. None when its hazards need no energy isolated (the order has no lockout step)."""
+    if not needs_isolation(order.hazards):
+        return []
+    items = list(order.items.select_related("subsystem"))
+    wanted = Q(subsystem__isnull=True) | Q(subsystem_id__in={i.subsystem_id for i in items})
+    if "moving_machinery" in order.hazards:
+        wanted |= Q(subsystem__kind__in=_SEPARATE_SUPPLY, subsystem__retired_on__isnull=True)
     return list(
-        IsolationPoint.objects.filter(telescope_id__in=telescopes)
-        .filter(Q(subsystem__isnull=True) | Q(subsystem_id__in=subsystems))
+        IsolationPoint.objects.filter(telescope_id__in=_telescopes(order, items))
+        .filter(wanted)
         .select_related("telescope", "subsystem")
     )
 
@@ -75,7 +87,9 @@ _SOURCE = {"electrical": "electrical", "pneumatic": "compressed-air"}
 def isolation_gaps(order: WorkOrder) -> list[str]:
     """A warning for each telescope of the order with a hazard but no isolation point for its energy, and
     for each subsystem fed from a supply of its own (``catalogue.Kind.separate_supply``, a dome) with no
-    point registered for it: the telescope's points do not make its own drives safe."""
+    point registered for it: the telescope's points do not make its own drives safe. That is each such
+    subsystem the order works on with electrical energy among its hazards and, when a moving telescope or
+    dome is among them, each one in service on its telescopes (as ``isolation_points`` lists them)."""
     if not needs_isolation(order.hazards):
         return []
     points = isolation_points(order)
@@ -89,17 +103,25 @@ def isolation_gaps(order: WorkOrder) -> list[str]:
                     f"No {_SOURCE[hazard]} isolation point is registered for {telescope.name}: find and lock the "
                     "supply before work, and have an engineer add it to the register."
                 )
-    for item in sorted(items, key=lambda i: i.subsystem.name):
-        subsystem = item.subsystem
-        kind = catalogue.KINDS.get(subsystem.kind)
-        if "electrical" in order.hazards and kind is not None and kind.separate_supply:
-            if not any(p.subsystem_id == subsystem.pk for p in points):
-                gaps.append(
-                    f"No isolation point is registered for {subsystem.telescope.name}: {subsystem.name}, which "
-                    "has a supply of its own: the telescope's points do not make its drives safe. Find and lock "
-                    "its supply before work, and have an engineer add the point to the register for this "
-                    "subsystem."
-                )
+    worked_on = {i.subsystem_id: i.subsystem for i in items if i.subsystem.kind in _SEPARATE_SUPPLY}
+    own_supply = dict(worked_on) if "electrical" in order.hazards else {}
+    if "moving_machinery" in order.hazards:
+        nearby = Subsystem.objects.in_service().filter(
+            telescope_id__in=_telescopes(order, items), kind__in=_SEPARATE_SUPPLY
+        )
+        own_supply.update({s.pk: s for s in nearby.select_related("telescope")})
+    for subsystem in sorted(own_supply.values(), key=lambda s: (s.telescope.name, s.name)):
+        if any(p.subsystem_id == subsystem.pk for p in points):
+            continue
+        if subsystem.pk in worked_on:
+            why = "the telescope's points do not make its drives safe"
+        else:
+            why = "it can move during this work, and the telescope's points do not stop it"
+        gaps.append(
+            f"No isolation point is registered for {subsystem.telescope.name}: {subsystem.name}, which has a "
+            f"supply of its own: {why}. Find and lock its supply before work, and have an engineer add the point "
+            "to the register for this subsystem."
+        )
     return gaps
 
 
@@ -135,6 +157,7 @@ class ChecklistLine:
 class Checklist:
     steps: list[ChecklistLine]
     points: list[ChecklistLine]
+    steps_note: str = ""  # for the engineer before the work starts: how the steps were put together
 
 
 def line_anchor(kind: str, key: int) -> str:
@@ -158,10 +181,29 @@ def tick_note(tick: ChecklistTick, text: str, zone: dt.tzinfo) -> str:
 
 
 def checklist(order: WorkOrder, points: list[IsolationPoint] | None = None) -> Checklist:
-    """The order's steps and isolation points, each with its newest tick, in a fixed number of queries
-    (one for the ticks, plus two for the points unless ``isolation_points(order)`` is passed in)."""
+    """The order's steps and isolation points, each with its newest tick, and the note on its steps, in a
+    fixed number of queries (one for the ticks, plus two for the points unless ``isolation_points(order)``
+    is passed in, plus one for the note while the order is a draft or issued)."""
     points = isolation_points(order) if points is None else points
-    return _checklist(order, points, latest_ticks(order))
+    lines = _checklist(order, points, latest_ticks(order))
+    return Checklist(lines.steps, lines.points, merged_steps_note(order))
+
+
+def merged_steps_note(order: WorkOrder) -> str:
+    """What the engineer should know before issuing an order over several plans: their steps were merged
+    (``workorders.services``: a powered or restoring step they share written once, the locked-out work of
+    all of them together), which no plan's author saw. "" for one plan, and once the work has started."""
+    if order.state not in (State.DRAFT, State.ISSUED):
+        return ""
+    plans = order.items.filter(plan__isnull=False).values("plan_id").distinct().count()
+    if plans < 2:
+        return ""
+    before = "issuing it" if order.state == State.DRAFT else "the work starts"
+    return (
+        f"The steps of {plans} plans were merged into this order (steps they share written once). Read them "
+        f"through in order before {before}: parking positions, covers and the order of restoring may need "
+        "moving so that they suit every plan."
+    )
 
 
 def _checklist(order: WorkOrder, points: list[IsolationPoint], latest: dict) -> Checklist:
@@ -200,7 +242,7 @@ def checklist_record(order: WorkOrder, points: list[IsolationPoint]) -> tuple[st
     record = []
     for tick in ticks:
         what = f"Step {tick.step_index + 1}" if tick.kind == STEP else "Isolation point"
-        when = tick.recorded_at.astimezone(zone).strftime("%Y-%m-%d %H:%M")
+        when = dateformat.format(tick.recorded_at.astimezone(zone), "d M Y H:i")  # as tick_note words it
         changed = " (as it read then; changed since)" if current.get(tick.line) != tick.text else ""
         record.append(f"{what}{changed}: {tick.text} \N{EM DASH} ticked by {person(tick.recorded_by)}, {when}")
     if order.unticked_at_finish:
