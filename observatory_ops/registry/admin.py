@@ -57,8 +57,9 @@ class SubsystemAdmin(RecomputesSite, SimpleHistoryAdmin):
             plans = plans_from_catalogue(subsystem, site_today(subsystem.telescope.site))
             self.message_user(
                 request,
-                f"{subsystem}: hazard tags {', '.join(HAZARDS[code] for code in subsystem.hazards) or 'none'} "
-                f"and {len(plans)} default service plan(s) from its kind; change them under Service plans.",
+                f"{subsystem}: hazards {', '.join(HAZARDS[code] for code in subsystem.hazards) or 'none'} (its "
+                f"kind's and any ticked), and {len(plans)} default service plan(s) from its kind; change the plans "
+                "under Service plans.",
                 messages.INFO,
             )
         super().save_related(request, form, formsets, change)

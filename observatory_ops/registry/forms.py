@@ -16,5 +16,5 @@ class HazardsField(forms.TypedMultipleChoiceField):
 
 
 class SubsystemAdminForm(forms.ModelForm):
-    hazards = HazardsField(help_text="They choose the safety cautions on its work orders. None ticked when adding "
-                           "one: its kind's own.")
+    hazards = HazardsField(help_text="They choose the safety cautions on its work orders. A new subsystem always "
+                           "gets its kind's own as well as those ticked.")

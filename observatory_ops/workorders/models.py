@@ -212,7 +212,8 @@ class IsolationPoint(models.Model):
     telescope = models.ForeignKey(Telescope, on_delete=models.CASCADE, related_name="isolation_points")
     subsystem = models.ForeignKey(
         Subsystem, on_delete=models.CASCADE, null=True, blank=True, related_name="isolation_points",
-        help_text="Only for work on this subsystem, e.g. the dome's own drives. Blank: for all work on the telescope.",
+        help_text="For a subsystem with a supply of its own, e.g. the dome's drives: listed on its orders and on every "
+        "order at a telescope that can move. Blank: for all work on the telescope.",
     )
     energy = models.CharField(max_length=8, choices=Energy.choices)
     label = models.CharField(max_length=120, help_text="What to switch, lock and tag, e.g. 'Mount main isolator'.")
