@@ -66,10 +66,12 @@ def backup_write(path: Path) -> dict[str, int]:
     objects, counts = [], {}
     # Every table read in one transaction that sees one moment of the database, so a backup taken while the
     # tool is in use holds no row pointing at one written after its table was read. PostgreSQL's default
-    # (READ COMMITTED) takes a new snapshot per statement, hence REPEATABLE READ; SQLite's read transaction
-    # already sees one state of the file.
+    # (READ COMMITTED) takes a new snapshot per statement, hence REPEATABLE READ, which can only be set as a
+    # transaction begins (a caller's own transaction keeps its level); SQLite's read transaction already
+    # sees one state of the file.
+    outermost = not connection.in_atomic_block
     with transaction.atomic():
-        if connection.vendor == "postgresql":
+        if connection.vendor == "postgresql" and outermost:
             with connection.cursor() as cursor:
                 cursor.execute("SET TRANSACTION ISOLATION LEVEL REPEATABLE READ READ ONLY")
         for model in _models():
