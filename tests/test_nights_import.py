@@ -162,7 +162,10 @@ def files_with_bad_rows(draw):
             # Beyond what an integer column holds in every supported database (2**31 - 1).
             cells[draw(st.sampled_from([2, 5]))] = str(draw(st.integers(2**31, 10**30)))
         elif fault == "night_too_old":
-            cells[0] = (earliest_accepted(today) - dt.timedelta(days=draw(st.integers(1, 80_000)))).isoformat()
+            # Counted back from the night before today: the latest night that can be logged is last night
+            # before local noon and tonight after it (logbook.services.latest_night).
+            oldest = earliest_accepted(today - dt.timedelta(days=1))
+            cells[0] = (oldest - dt.timedelta(days=draw(st.integers(1, 80_000)))).isoformat()
         elif fault == "implausible_figure":
             k = draw(st.sampled_from(sorted(IMPLAUSIBLE)))
             cells[k] = repr(IMPLAUSIBLE[k] * draw(st.sampled_from([1, 3, 1e6])))
