@@ -113,3 +113,10 @@ def test_a_second_order_for_an_item_already_on_one_is_made_with_a_warning(telesc
     client.force_login(users["engineer"])
     page = client.post("/workorders/from-due/", {"plans": [p.pk for p in brake.plans.all()]}, follow=True)
     assert f"already on work orders still to do: {first.number} (draft)" in page.content.decode()
+
+
+def test_an_ad_hoc_orders_page_says_it_was_raised_by_hand_as_its_pdf_does(telescope, site, users, client):
+    box = subsystem_create(telescope, "other", "Eyepiece box", counting_from=START)
+    order = services.work_order_ad_hoc(site, [box], "Sort the eyepieces", users["engineer"], steps="Sort them.")
+    client.force_login(users["viewer"])
+    assert "Raised by hand, not from a due item" in client.get(order.get_absolute_url()).content.decode()

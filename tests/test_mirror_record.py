@@ -111,7 +111,7 @@ def test_without_a_recoat_line_trigger_the_catalogue_plan_name_is_the_fallback(m
     plan.save()
     assert services.recoat_plans(mirror.subsystem) == []  # neither trigger nor catalogue name: none
     services.coating_log(mirror, users["technician"], _today(mirror), "al", [])
-    assert not ServiceRecord.objects.exists()
+    assert not ServiceRecord.objects.filter(plan=plan).exists()
     assert mirror.coatings.count() == 1
 
 
@@ -290,14 +290,22 @@ def test_the_coating_form_says_the_recoat_plan_restarts(mirror, users, client):
     coated_on = _today(mirror) - dt.timedelta(days=2)
     client.force_login(users["technician"])
     form = client.get(f"/mirrors/{mirror.pk}/coatings/new/").content.decode()
-    assert "recoat service plan restarts its counting from this date" in form
+    assert "recoat and cleaning service plans restart their counting from this date" in form
     response = client.post(f"/mirrors/{mirror.pk}/coatings/new/",
                            {"coated_on": coated_on.isoformat(), "metal": "al", "layers": "", "note": ""})
     assert response.status_code == 302
     assert [str(m) for m in get_messages(response.wsgi_request)] == [
-        f"New coating logged; the decline starts again from it, and the recoat plan Recoat primary restarts its "
-        f"counting from {coated_on:%d %b %Y}."
+        f"New coating logged; the decline starts again from it, and the plans Recoat primary, Inspect and "
+        f"CO2-snow clean primary restart their counting from {coated_on:%d %b %Y}."
     ]
+
+
+def test_a_new_coating_restarts_the_mirrors_cleaning_plan_too(mirror, users):
+    """The reviewer's case: a freshly coated mirror's cleaning plan still said "497 of 400 h, overdue"."""
+    clean = ServicePlan.objects.get(subsystem=mirror.subsystem, triggers__metric=metrics.DUST_HOURS)
+    services.coating_log(mirror, users["technician"], _today(mirror) - dt.timedelta(days=1), "al", [])
+    assert PlanStatus.objects.get(plan=clean).status == "later"
+    assert ServiceRecord.objects.get(plan=clean).performed_on == _today(mirror) - dt.timedelta(days=1)
 
 
 # --- 4. a recovery the data cannot tell -------------------------------------------------------------------

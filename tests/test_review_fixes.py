@@ -155,7 +155,8 @@ def test_hazards_ticked_when_adding_a_subsystem_are_added_to_its_kinds(engineer,
     dome = Subsystem.objects.get(name="Dome")
     assert dome.hazards == ["electrical", "moving_machinery", "height"]  # in the order of the caution library
     added = next(text for level, text in _messages(response) if level == "info")
-    assert "hazards Hazardous electrical energy, Moving telescope and dome, Work at height (its kind's and any ticked)" in added
+    assert ("hazards Hazardous electrical energy, Moving telescope and dome, Work at height (its kind's and any "
+            "ticked)") in added
     assert "moving_machinery" not in added
 
 

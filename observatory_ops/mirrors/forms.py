@@ -74,7 +74,8 @@ class RecipeForm(forms.Form):
 class CoatingForm(RecipeForm):
     coated_on = forms.DateField(
         widget=forms.DateInput(attrs={"type": "date"}),
-        help_text="The mirror's recoat service plan restarts its counting from this date (a service record is logged).",
+        help_text="The mirror's recoat and cleaning service plans restart their counting from this date (a service "
+        "record is logged for each).",
     )
     note = forms.CharField(max_length=200, required=False)
     field_order = ["coated_on", "metal", "layers", "note"]

@@ -628,16 +628,24 @@ def recoat_plans(subsystem: Subsystem) -> list[ServicePlan]:
     return list(plans.filter(name__in=names))
 
 
+def plans_a_coating_restarts(subsystem: Subsystem) -> list[ServicePlan]:
+    """The mirror's recoat plans (``recoat_plans``), then its cleaning plans: the active plans counting
+    dust-weighted hours, since a new coating is a clean surface."""
+    cleaning = ServicePlan.objects.filter(subsystem=subsystem, active=True, triggers__metric=metrics.DUST_HOURS)
+    return list(dict.fromkeys([*recoat_plans(subsystem), *cleaning.distinct().order_by("pk")]))
+
+
 def coating_service_records_log(event: CoatingEvent, by) -> list[ServiceRecord]:
-    """Restart the mirror's recoat plans from a coating: a service record for each, dated the coating date.
+    """Restart the mirror's recoat plans from a coating, and its cleaning plans (those counting dust-weighted
+    hours: a new coating is a clean surface): a service record for each, dated the coating date.
 
     Idempotent: a plan that already has a record in force on that date gets no second one. Every record
-    recomputes the site (``service_record_log``); without a recoat plan the site is recomputed once here,
+    recomputes the site (``service_record_log``); without such a plan the site is recomputed once here,
     since the new coating moves the mirror's recoat line all the same.
     """
     subsystem = event.mirror.subsystem
     records = []
-    for plan in recoat_plans(subsystem):
+    for plan in plans_a_coating_restarts(subsystem):
         in_force = ServiceRecord.objects.filter(
             plan=plan, performed_on=event.coated_on, void=False, corrected_by__isnull=True
         )

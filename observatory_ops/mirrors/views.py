@@ -80,12 +80,13 @@ def cleaning_log(request, pk):
 
 
 def _coating_logged(mirror: Mirror, event) -> str:
-    """Say what the coating restarted: the decline, and the recoat plans (their counting from the coating date)."""
-    plans = services.recoat_plans(mirror.subsystem)
+    """Say what the coating restarted: the decline, and the recoat and cleaning plans (their counting from the
+    coating date)."""
+    plans = services.plans_a_coating_restarts(mirror.subsystem)
     if not plans:
         return "New coating logged; the decline starts again from it (this mirror has no recoat service plan)."
     names = ", ".join(p.name for p in plans)
-    restart = "recoat plan {} restarts its" if len(plans) == 1 else "recoat plans {} restart their"
+    restart = "plan {} restarts its" if len(plans) == 1 else "plans {} restart their"
     return (f"New coating logged; the decline starts again from it, and the {restart.format(names)} counting "
             f"from {event.coated_on:%d %b %Y}.")
 

@@ -92,6 +92,7 @@ def work_order_detail(request, pk):
             "order": order,
             "site": order.site,
             "items": order.items.select_related("subsystem", "plan"),
+            "has_reasons": order.items.exclude(why="").exists(),  # as the printed order says (pdf._why)
             "cautions": selectors.cautions(order),
             "precedence": selectors.PRECEDENCE_STATEMENT,
             "checklist": selectors.checklist(order),
