@@ -361,3 +361,4 @@ def test_calendar_uids_do_not_depend_on_the_address_it_was_fetched_through(mirro
     other = [str(e["uid"]) for e in _events(client, slug, HTTP_HOST="localhost")]
     assert one == other and len(set(one)) == len(one) == 5
     assert all(uid.endswith("@ops.vestal-ridge.example") for uid in one)
+

@@ -51,3 +51,21 @@ def test_a_forecast_band_across_new_year_names_both_years():
     state = TriggerState(metric="open_hours", value=10, limit=20, rate_per_day=1, forecast=dt.date(2027, 1, 10),
                          earliest=dt.date(2026, 12, 29), latest=dt.date(2027, 1, 29), basis="", unit="h")
     assert "(between 29 Dec 2026 and 29 Jan 2027)" in reason_text(state)
+
+
+def test_each_night_of_the_recoat_calendar_says_how_its_cost_is_made(demo, client):
+    """Traceability: the cost shown is the night's moonless dark hours x the month's open fraction (x the
+    booked weight), as mirrors.services.night_costs computes it."""
+    import re
+
+    from observatory_ops.mirrors.models import Mirror
+
+    client.login(username="viewer", password="demo-viewer-2026")
+    from observatory_ops.planning.services import site_today
+
+    start = site_today(demo)
+    page = client.get(f"/mirrors/{Mirror.objects.first().pk}/recoat/?start={start}&horizon_days=60").content.decode()
+    titles = re.findall(r'class="night[^"]*"[^>]*title="([^"]*)"', page)
+    assert titles and all("Moon" in t for t in titles)
+    costed = [t for t in titles if "cost" in t]
+    assert costed and all(re.search(r"cost [\d.]+ h = [\d.]+ moonless dark h × \d+ % open", t) for t in costed)

@@ -277,6 +277,8 @@ def recoat_windows(mirror: Mirror, start: dt.date, horizon_days: int, phases: li
     worst = max((c.cost for c in costs if np.isfinite(c.cost)), default=1.0) or 1.0
     calendar = [
         {"night": c.night, "cost": c.cost, "moon": c.moon_illumination, "booked": c.booked,
+         "moonless": c.moonless_dark_hours, "open_fraction": c.open_fraction,
+         "weight": BOOKED_WEIGHT if c.booked and np.isfinite(c.cost) else None,
          "shade": min(c.cost / worst, 1.0) if np.isfinite(c.cost) else 1.0,
          "blocked": not np.isfinite(c.cost), "chosen": c.night in chosen}
         for c in costs
