@@ -123,7 +123,9 @@ def test_service_history_logged_after_registering_counts_from_when_it_happened(s
 
 def test_one_dusty_night_does_not_set_a_months_dust_forecast(synthetic):
     """As for the open fraction (at least MIN_NIGHTS_FOR_HISTORY logged nights), a month's mean PM10 needs
-    that many measured open nights; with fewer in all, the site counts as clean air and the basis says so."""
+    that many measured open nights; with fewer in all, the site counts as clean air and the basis says so.
+    The threshold is common practice, no published source (calc.forecast); the weight of 1 for clean air is
+    calc.exposure.dust_weight's own definition, checked in tests/test_calc_exposure.py."""
     from observatory_ops.calc import forecast
 
     site, subsystem, start = synthetic

@@ -24,6 +24,7 @@ from observatory_ops.planning.models import BookedRun, NightSky, ServicePlan
 from observatory_ops.planning.services import (
     UsageLog,
     UsageModel,
+    band_start,
     site_recompute,
     site_sky_refresh,
     site_today,
@@ -487,11 +488,6 @@ def _phase_lift(mirror: Mirror, work: _PhaseWork) -> dict | None:
     return None
 
 
-def _band_start(first: dt.date, last: dt.date) -> str:
-    """The first date of a band, its year left to the last date when they share it."""
-    return f"{first:%d %b}" if first.year == last.year else f"{first:%d %b %Y}"
-
-
 def recoat_reason(state: MirrorForecast, starts_on: dt.date, ends_on: dt.date) -> str:
     """Why a recoat order exists: the recoat line it answers, the forecast crossing with its band, the window."""
     window = f"recoat window {starts_on:%d %b %Y} to {ends_on:%d %b %Y}"
@@ -509,7 +505,7 @@ def recoat_reason(state: MirrorForecast, starts_on: dt.date, ends_on: dt.date) -
     if late is None:
         band = f"between {early:%d %b %Y} and beyond three years"
     else:
-        band = f"between {_band_start(early, late)} and {late:%d %b %Y}"
+        band = f"between {band_start(early, late)} and {late:%d %b %Y}"
     return f"Reflectance forecast to reach {line} on {state.crossing:%d %b %Y} ({band}); {window}"
 
 

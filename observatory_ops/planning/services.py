@@ -656,6 +656,12 @@ def _reading_state(trig, readings, today: dt.date, zone) -> TriggerState | None:
     return state
 
 
+def band_start(first: dt.date, last: dt.date) -> str:
+    """The first date of a forecast band as a sentence words it: its year left to the last date when they
+    share it ("29 Dec 2026 and 29 Jan 2027", "03 Feb and 19 Feb 2027")."""
+    return f"{first:%d %b}" if first.year == last.year else f"{first:%d %b %Y}"
+
+
 def reason_text(state: TriggerState) -> str:
     """One sentence that says why a plan is where it is: trigger, value, limit, rate and forecast."""
     label = metrics.METRICS[state.metric][0]
@@ -675,8 +681,7 @@ def reason_text(state: TriggerState) -> str:
         return f"{head}; not reached within {HORIZON_DAYS // 366} years at the expected rate."
     when = f"; forecast {state.forecast:%d %b %Y}"
     if state.earliest and state.latest and state.earliest != state.latest:
-        first = f"{state.earliest:%d %b}" if state.earliest.year == state.latest.year else f"{state.earliest:%d %b %Y}"
-        when += f" (between {first} and {state.latest:%d %b %Y})"
+        when += f" (between {band_start(state.earliest, state.latest)} and {state.latest:%d %b %Y})"
     elif state.earliest and not state.latest:
         when += f" (from {state.earliest:%d %b %Y}; the slow case runs past the horizon)"
     return head + when + "."
