@@ -647,8 +647,7 @@ KINDS: dict[str, Kind] = {
 
 KIND_CHOICES = [(k.code, k.label) for k in KINDS.values()]
 
-#: Earlier wordings of steps done before isolation. Plans stored with them keep their text, so a work order
-#: must still recognise them to put the lockout step after them.
+#: Earlier wordings of steps done before isolation, which plans stored before the step groups may hold.
 _EARLIER_BEFORE_ISOLATION = (
     "With the fans running, listen to each for bearing noise and measure its current; record the currents.",
     "From the control computer, run the focuser and the tip-tilt over their full range and check the backlash; "
@@ -660,9 +659,9 @@ _EARLIER_BEFORE_ISOLATION = (
     "settles.",
 )
 
-#: Every step the catalogue places before isolation, and every step of its plans' restoring. A work order
-#: recognises them by their words (its plans keep only their steps' text): the lockout step goes after the
-#: first, and in an order of several plans the restoring of all of them comes after all their locked-out work.
+#: Every step the catalogue places before isolation, and every step of its plans' restoring: how the upgrade
+#: that gave stored plans their three step groups (planning migration 0007) told them apart by their words.
+#: Work orders no longer read words: they place steps by the plans' groups (workorders.services).
 BEFORE_ISOLATION: frozenset[str] = frozenset(
     step for k in KINDS.values() for plan in k.plans for step in plan.before_isolation
 ) | frozenset(_EARLIER_BEFORE_ISOLATION)
