@@ -16,7 +16,7 @@ from pypdf import PdfReader
 from observatory_ops.calc.windows import RECOAT_PHASES
 from observatory_ops.mirrors import services
 from observatory_ops.mirrors.models import CoatingEvent, Mirror
-from observatory_ops.registry.catalogue import KINDS
+from observatory_ops.registry.catalogue import KINDS, RELEASE
 from observatory_ops.registry.models import Subsystem
 from observatory_ops.workorders import pdf, selectors
 from observatory_ops.workorders.cautions import HAZARDS
@@ -96,6 +96,19 @@ def test_reinstall_starts_where_the_removal_left_off_and_balances_before_any_pow
     # The realignment gives the telescope back to robotic control only at its very end.
     realign = selectors.sheet(orders["realignment"], URL).steps
     assert "Return the observatory to robotic and remote control" in realign[-1]
+
+
+def test_realignment_removes_the_locks_once_before_its_powered_collimation_check(orders):
+    """Release from lockout when the locked-out work is complete (OSHA 29 CFR 1910.147(e)): the realignment
+    collimates with the drives locked out, then removes the locks with the catalogue's own release step (the
+    one every order uses), and only then checks the collimation on a star under power."""
+    steps = selectors.sheet(orders["realignment"], URL).steps
+    lockout = steps.index(LOCKOUT_STEP)
+    collimate = _first(steps, "collimate with the alignment laser")
+    released = steps.index(RELEASE)
+    star = _first(steps, "under power", "on a star")
+    assert lockout < collimate < released < star
+    assert sum("remove the locks" in s for s in steps) == 1
 
 
 def test_coating_order_carries_the_vacuum_plant_the_lift_and_named_chemicals(orders):

@@ -30,11 +30,11 @@ from observatory_ops.planning.services import (
     site_today,
     usage_model,
 )
-from observatory_ops.registry.catalogue import KINDS
+from observatory_ops.registry.catalogue import KINDS, RELEASE
 from observatory_ops.registry.models import Site, Subsystem
 from observatory_ops.workorders.cautions import HAZARDS
 from observatory_ops.workorders.models import RequiredReading, State, WorkOrder, WorkOrderItem
-from observatory_ops.workorders.services import LOCKOUT_STEP, lockout_missing
+from observatory_ops.workorders.services import steps_in_groups
 
 from .models import CleaningEvent, CoatingEvent, Mirror, RecoatPlan, ReflectanceMeasurement
 
@@ -299,8 +299,10 @@ class _PhaseWork(NamedTuple):
     """What one kind of recoat work (``calc.windows.Phase.work``) asks of its work order.
 
     ``before`` is done under power before isolation, ``locked`` with the energy locked out, ``after`` once
-    the locked-out work is done; the lockout step goes between the first two when the hazards call for it
-    (``workorders.services.lockout_missing``). ``lifted`` says what the order's lifting figures are for:
+    the locked-out work is done; when the hazards call for isolation, the lockout step goes between the first
+    two and ``release`` between the last two (``workorders.services.steps_in_groups``): the catalogue's step
+    that removes the locks, or the phase's own words where the locks stay on or come off only on a condition.
+    ``lifted`` says what the order's lifting figures are for:
     the mirror in its cell, the mirror alone, or nothing. ``at_telescope`` is False for work done with the
     mirror away from the telescope (at a coating plant): its order carries the phase's own hazards only, not
     the mirror subsystem's (a telescope that can move is not part of that work).
@@ -311,6 +313,7 @@ class _PhaseWork(NamedTuple):
     locked: tuple[str, ...]
     after: tuple[str, ...]
     tools: tuple[str, ...]
+    release: str = RELEASE
     lifted: str = ""
     at_telescope: bool = True
 
@@ -369,9 +372,11 @@ _PHASE_WORK = {
             "The tube is now far out of balance: fit the balance weights the site's mirror-removal procedure "
             "gives, if it gives any, and keep both axes pinned either way.",
         ),
-        after=(
+        release=(
             "When the phase's work is done and everyone is clear, leave both axes pinned and the locks on "
-            "the drives: do not remove them as at the end of other work.",
+            "the drives: do not remove them as at the end of other work."
+        ),
+        after=(
             _OUT_OF_BALANCE_TAG,
             "Leave the drives locked out until the reinstall. If the site needs power back before then, "
             "restore it only as the site's lockout procedure says, with both axes still pinned and the "
@@ -436,10 +441,12 @@ _PHASE_WORK = {
             "still locked out, as the site's balancing procedure and the mount maker's instructions say.",
             _BALANCE_CHECK,
         ),
-        after=(
+        release=(
             "Only when both axes are balanced and everyone is clear, remove the pins, the locks and the tags "
             "as the site's lockout procedure says; make the first moves under power slowly, with everyone "
-            "outside the swept volume.",
+            "outside the swept volume."
+        ),
+        after=(
             "Keep the observatory out of robotic and remote control until the realignment order is finished.",
         ),
         tools=(
@@ -460,8 +467,6 @@ _PHASE_WORK = {
             "Measure reflectance at the marked positions and record a reading per position.",
         ),
         after=(
-            "When the phase's work is done and everyone is clear, remove the locks and tags as the site's "
-            "lockout procedure says.",
             "Under power, check the collimation on a star and record the result.",
             "Return the observatory to robotic and remote control only when the collimation check is "
             "recorded.",
@@ -472,11 +477,8 @@ _PHASE_WORK = {
 
 
 def _phase_steps(hazards: list[str], work: _PhaseWork) -> str:
-    """A phase's steps in the order of the work, with the lockout step where the energy is isolated."""
-    isolate = lockout_missing(hazards, [*work.before, *work.locked])
-    return "\n".join(
-        [*work.before, *([LOCKOUT_STEP] if isolate else []), *work.locked, *(work.after if isolate else ())]
-    )
+    """A phase's steps in the order of the work, the isolation placed as on every order."""
+    return "\n".join(steps_in_groups(hazards, [*work.before], [*work.locked], [*work.after], work.release))
 
 
 def _phase_lift(mirror: Mirror, work: _PhaseWork) -> dict | None:

@@ -51,14 +51,20 @@ def lockout_missing(hazards: Sequence[str], steps: Sequence[str]) -> bool:
     return needs_isolation(hazards) and LOCKOUT_STEP not in (s.strip() for s in steps)
 
 
-def steps_in_groups(hazards: Sequence[str], powered: list[str], work: list[str], restore: list[str]) -> list[str]:
+def steps_in_groups(
+    hazards: Sequence[str], powered: list[str], work: list[str], restore: list[str], release: str = RELEASE
+) -> list[str]:
     """An order's steps from its three groups: with energy to isolate, the lockout step between the steps under
-    power and the work, and the step that removes the locks (``catalogue.RELEASE``) between the work and the
-    restoring; without, the groups one after the other. The groups say where each step belongs, so no step
-    is placed by its wording."""
+    power and the work, and ``release`` between the work and the restoring; without, the groups one after the
+    other. The groups say where each step belongs, so no step is placed by its wording.
+
+    ``release`` is the step that ends the isolated work: the catalogue's step that removes the locks
+    (``catalogue.RELEASE``), or the work's own wording where it ends otherwise (a mirror removal keeps the
+    locks on until the reinstall; the reinstall removes them only once the balance is restored).
+    """
     if not needs_isolation(hazards):
         return powered + work + restore
-    return powered + [LOCKOUT_STEP] + work + [RELEASE] + restore
+    return powered + [LOCKOUT_STEP] + work + [release] + restore
 
 
 def _plan_labels(plans: Sequence[ServicePlan]) -> dict[int, str]:
