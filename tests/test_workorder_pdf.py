@@ -103,6 +103,31 @@ def test_cautions_box_prints_before_the_first_step():
     assert text.index(flat(PRECEDENCE_STATEMENT)) < first_step
 
 
+NOTICE = (
+    "Not up to date: this work order lacks hazards its subsystems now carry",
+    "Its subsystems now carry hazards it was made without: Work at height.",
+    "Do not start or carry on the work from this sheet: ask the site engineer for one brought up to date.",
+)
+
+
+def test_a_notice_of_missing_hazards_prints_whole_under_the_header_before_the_work():
+    text = body_text(render_sheet(make_sheet(hazards_notice=NOTICE)))
+    positions = [text.index(line) for line in NOTICE]
+    assert positions == sorted(positions)
+    assert text.index(NOTICE[0]) > text.index("Primary mirror inspection")  # the title, in the header
+    assert positions[-1] < text.index("Why this work is due") < text.index("CAUTIONS")
+
+
+def test_no_notice_of_missing_hazards_for_an_order_up_to_date():
+    assert "Not up to date" not in body_text(render_sheet(make_sheet()))
+
+
+def test_a_steps_warning_prints_above_the_first_step():
+    warning = "None of its steps is the lockout step."
+    text = body_text(render_sheet(make_sheet(steps_warning=warning)))
+    assert text.index("Steps") < text.index(f"Warning: {warning}") < text.index(flat(STEPS[0]))
+
+
 def test_cautions_print_most_severe_first_whatever_order_they_come_in():
     cautions = (
         SheetCaution("Delicate optical surfaces", "Cover the mirror.", "Maker's notes", "Risk of damage to equipment"),
@@ -250,7 +275,7 @@ def test_address_too_long_for_a_qr_code_is_refused():
 @pytest.mark.parametrize(
     "changes",
     [{"number": "  "}, {"estimated_hours": -1.0}, {"estimated_hours": float("nan")}, {"precedence_statement": ""},
-     {"url": ""}, {"steps": "Open the cover and inspect the mirror."}],
+     {"url": ""}, {"steps": "Open the cover and inspect the mirror."}, {"hazards_notice": "Not up to date"}],
 )
 def test_sheet_refuses_values_it_cannot_print(changes):
     with pytest.raises(ValueError):

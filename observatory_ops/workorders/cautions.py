@@ -39,6 +39,40 @@ def needs_isolation(hazards: Iterable[str]) -> bool:
     return any(h in ISOLATION_HAZARDS for h in hazards)
 
 
+# An order copies its hazards when it is made; these say so when its subsystems carry more since
+# (workorders.selectors.hazards_missing), on the page and on paper.
+HAZARDS_MISSING_TITLE = "Not up to date: this work order lacks hazards its subsystems now carry"
+HAZARDS_MISSING_BEFORE_START = (
+    "Before the work starts, the site engineer brings this work order up to date, which adds them and their "
+    "cautions; until then it cannot be issued or started."
+)
+HAZARDS_MISSING_STARTED = (
+    "Technicians: stop the work as soon as it is safe to do so, and ask the site engineer before going on. "
+    "The engineer withdraws this order and makes a new one, which carries them."
+)
+HAZARDS_MISSING_ON_PAPER = (
+    "Do not start or carry on the work from this sheet: ask the site engineer for one brought up to date."
+)
+
+#: Where an order's hazards call for isolation but its steps lack the lockout step (it cannot be issued or started).
+LOCKOUT_STEP_MISSING = (
+    "This work's hazards call for energy isolation, but none of its steps is the lockout step. Do not start the "
+    "work until the site engineer has put it in."
+)
+
+
+def hazards_missing_notice(hazards: Iterable[str]) -> str:
+    """What an order made without ``hazards`` (hazard codes) lacks, naming them as the cautions do."""
+    codes = list(hazards)
+    text = (
+        f"Its subsystems now carry hazards it was made without: {', '.join(HAZARDS[code] for code in codes)}. "
+        "It does not carry their safety cautions (the controls and the protective equipment)"
+    )
+    if needs_isolation(codes):
+        text += ", nor the energy isolation they call for (isolation points and the lockout step)"
+    return text + "."
+
+
 DANGER_TO_LIFE = 4
 SERIOUS_INJURY = 3
 INJURY = 2

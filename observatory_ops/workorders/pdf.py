@@ -1,10 +1,10 @@
 """The printed work order: a ``Sheet`` laid out as a PDF with reportlab, on A4 or US Letter.
 
 Pure layout, no Django and no database: the caller fills a :class:`~observatory_ops.workorders.sheet.Sheet`.
-The order on the page follows the work: header and QR code, why the work is due, the cautions box before
-anything else of the work, isolation points, lifting figures, steps, parts and tools, readings, findings,
-the checklist as ticked (finished work), sign-off. Everything prints in black, white and light grey, so a
-mono printer loses nothing.
+The order on the page follows the work: header and QR code, a framed notice when the order lacks hazards its
+subsystems now carry, why the work is due, the cautions box before anything else of the work, isolation
+points, lifting figures, steps, parts and tools, readings, findings, the checklist as ticked (finished
+work), sign-off. Everything prints in black, white and light grey, so a mono printer loses nothing.
 
 Every string of a sheet is user text. reportlab's ``Paragraph`` parses markup, so each one goes through
 :func:`_text` (XML escaping) before it reaches a Paragraph and prints literally; table cells that fit on
@@ -87,6 +87,7 @@ _BULLET = ParagraphStyle("wo-bullet", parent=_BODY, leftIndent=11, bulletIndent=
 _ITEM = ParagraphStyle("wo-item", parent=_BODY, spaceAfter=4)
 _CAUTIONS_HEAD = ParagraphStyle("wo-cautions-head", parent=_BODY, fontName=FONT_BOLD, fontSize=12, leading=15)
 _PRECEDENCE = ParagraphStyle("wo-precedence", parent=_BODY, fontName="Helvetica-Oblique")
+_NOTICE_TODO = ParagraphStyle("wo-notice-todo", parent=_BODY, fontName=FONT_BOLD)
 
 _TICK_BOX = 8.5
 _TICK_INDENT = 15.0
@@ -426,15 +427,11 @@ def _caution_paragraph(caution: SheetCaution) -> Paragraph:
     )
 
 
-def _cautions(sheet: Sheet, width: float) -> list[Flowable]:
-    """The framed cautions box, most severe first, closed by the precedence statement."""
-    rows = [[_Paragraph("CAUTIONS \N{EN DASH} read before you start, apply throughout", _CAUTIONS_HEAD)]]
-    rows += [[_caution_paragraph(caution)] for caution in _most_severe_first(sheet.cautions)]
-    if not sheet.cautions:
-        rows.append([_note("No hazard cautions were selected for this work.")])
-    rows.append([_para(sheet.precedence_statement, _PRECEDENCE)])
-    box = _Table(
-        rows,
+def _framed(head: Flowable, body: Sequence[Flowable], closing: Flowable, width: float) -> _Table:
+    """A box not to be missed: a heavy frame, a shaded head (repeated on each page the box runs onto), the body
+    ruled line by line, and a shaded closing line."""
+    return _Table(
+        [[head], *([row] for row in body), [closing]],
         colWidths=[width],
         repeatRows=1,
         style=TableStyle([
@@ -450,7 +447,25 @@ def _cautions(sheet: Sheet, width: float) -> list[Flowable]:
             ("BOTTOMPADDING", (0, 0), (-1, -1), 6),
         ]),
     )
+
+
+def _hazards_notice(sheet: Sheet, width: float) -> list[Flowable]:
+    """The order lacks hazards its subsystems now carry: framed like the cautions, above everything of the work."""
+    if not sheet.hazards_notice:
+        return []
+    title, *lines = sheet.hazards_notice
+    *body, closing = lines or [""]
+    box = _framed(_para(title, _CAUTIONS_HEAD), [_para(line) for line in body], _para(closing, _NOTICE_TODO), width)
     return [Spacer(1, 12), box]
+
+
+def _cautions(sheet: Sheet, width: float) -> list[Flowable]:
+    """The framed cautions box, most severe first, closed by the precedence statement."""
+    rows = [_caution_paragraph(caution) for caution in _most_severe_first(sheet.cautions)]
+    if not sheet.cautions:
+        rows.append(_note("No hazard cautions were selected for this work."))
+    head = _Paragraph("CAUTIONS \N{EN DASH} read before you start, apply throughout", _CAUTIONS_HEAD)
+    return [Spacer(1, 12), _framed(head, rows, _para(sheet.precedence_statement, _PRECEDENCE), width)]
 
 
 def _isolation(sheet: Sheet) -> list[Flowable]:
@@ -485,12 +500,12 @@ def _lifting(sheet: Sheet, width: float) -> list[Flowable]:
 
 
 def _steps(sheet: Sheet) -> list[Flowable]:
+    story: list[Flowable] = [_heading("Steps")]
+    if sheet.steps_warning:
+        story.append(_Paragraph(f"<b>Warning:</b> {_text(sheet.steps_warning)}", _BULLET, bulletText="!"))
     if not sheet.steps:
-        return [_heading("Steps"), _note("No steps listed.")]
-    return [
-        _heading("Steps"),
-        *(_Ticked(_para(step, _ITEM), f"{number}.") for number, step in enumerate(sheet.steps, start=1)),
-    ]
+        return [*story, _note("No steps listed.")]
+    return [*story, *(_Ticked(_para(step, _ITEM), f"{number}.") for number, step in enumerate(sheet.steps, start=1))]
 
 
 def _parts_and_tools(sheet: Sheet, width: float) -> list[Flowable]:
@@ -584,6 +599,7 @@ def _sheet_story(index: int, sheet: Sheet, width: float) -> list[Flowable]:
     return [
         _SheetStart(index, sheet),
         *_header(sheet, width),
+        *_hazards_notice(sheet, width),
         *_why(sheet),
         *_cautions(sheet, width),
         *_isolation(sheet),

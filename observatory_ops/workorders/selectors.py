@@ -2,6 +2,7 @@
 from __future__ import annotations
 
 import datetime as dt
+from collections.abc import Sequence
 from dataclasses import dataclass
 
 from django.db.models import F, Q, QuerySet
@@ -9,11 +10,25 @@ from django.utils import dateformat, timezone
 
 from observatory_ops.archive.history import Change, changes, person
 from observatory_ops.calc import lifting
+from observatory_ops.planning.models import ServicePlan
 from observatory_ops.registry import catalogue
 from observatory_ops.registry.models import Site, Subsystem
 
 from . import sheet as sheet_
-from .cautions import PRECEDENCE_STATEMENT, SEVERITY_LABELS, Caution, cautions_for, needs_isolation
+from .cautions import (
+    HAZARDS,
+    HAZARDS_MISSING_BEFORE_START,
+    HAZARDS_MISSING_ON_PAPER,
+    HAZARDS_MISSING_STARTED,
+    HAZARDS_MISSING_TITLE,
+    LOCKOUT_STEP_MISSING,
+    PRECEDENCE_STATEMENT,
+    SEVERITY_LABELS,
+    Caution,
+    cautions_for,
+    hazards_missing_notice,
+    needs_isolation,
+)
 from .models import ChecklistTick, IsolationPoint, Part, State, WorkOrder, WorkOrderItem
 
 
@@ -47,6 +62,55 @@ def low_stock(site: Site) -> QuerySet[Part]:
 
 def cautions(order: WorkOrder) -> list[Caution]:
     return cautions_for(order.hazards)
+
+
+def hazards_of(subsystems: Sequence[Subsystem], plans: Sequence[ServicePlan]) -> list[str]:
+    """The hazards of work on these subsystems under these plans, in the caution library's order: what an
+    order copies when it is made (``services.work_order_from_due``, ``services.work_order_ad_hoc``)."""
+    found = {h for s in subsystems for h in s.hazards} | {h for p in plans for h in p.hazards}
+    return [h for h in HAZARDS if h in found]
+
+
+def hazards_missing(order: WorkOrder) -> list[str]:
+    """The hazards the order's subsystems, and the service plans it covers, carry now that the order does not
+    (codes, in the library's order), for an order still to do; [] once it is finished or withdrawn.
+
+    An order copies its hazards when it is made, so one added later to a subsystem (in the admin, or by an
+    upgrade that adds catalogue hazards) leaves the orders made before without its cautions. Orders of a recoat
+    plan are left out: ``mirrors.services`` gives each phase its own hazards (the coating phase, away at the
+    plant, does not take the mirror's; the realignment covers the recoat plans only to restart them), and an
+    order does not record which phase it is, so they cannot be compared here.
+    """
+    if order.state not in TO_DO or order.recoat_plans.exists():  # recoat_plans: mirrors.RecoatPlan.work_orders
+        return []
+    items = list(order.items.select_related("subsystem", "plan"))
+    now = hazards_of([i.subsystem for i in items], [i.plan for i in items if i.plan_id])
+    return [h for h in now if h not in order.hazards]
+
+
+def hazards_notice(order: WorkOrder, missing: Sequence[str], paper: bool = False) -> tuple[str, ...]:
+    """The notice on an order that lacks the ``missing`` hazards: its title, what the order lacks, and what to
+    do (on the page: an engineer brings it up to date before the work starts, or, once started, the technician
+    stops and asks; on paper: ask the engineer). () when nothing is missing."""
+    if not missing:
+        return ()
+    if paper:
+        todo = HAZARDS_MISSING_ON_PAPER
+    elif order.state == State.UNDERWAY:
+        todo = HAZARDS_MISSING_STARTED
+    else:
+        todo = HAZARDS_MISSING_BEFORE_START
+    return HAZARDS_MISSING_TITLE, hazards_missing_notice(missing), todo
+
+
+def lockout_step_warning(order: WorkOrder) -> str:
+    """For an order still to do whose hazards call for isolation but whose steps lack the lockout step (it cannot
+    be issued or started until an engineer puts it in): the warning the page and the printed steps show."""
+    from .services import lockout_missing  # services reads this module
+
+    if order.state in TO_DO and lockout_missing(order.hazards, order.step_list):
+        return LOCKOUT_STEP_MISSING
+    return ""
 
 
 #: Kinds fed from a supply of their own (a dome's rotation and shutter drives): the telescope's points leave them live.
@@ -313,10 +377,12 @@ def sheet(order: WorkOrder, url: str) -> sheet_.Sheet:
             sheet_.SheetCaution(c.title, c.text, c.standard, SEVERITY_LABELS[c.severity]) for c in cautions(order)
         ),
         precedence_statement=PRECEDENCE_STATEMENT,
+        hazards_notice=hazards_notice(order, hazards_missing(order), paper=True),
         isolation_needed=needs_isolation(order.hazards),
         isolation_points=tuple(f"WARNING: {gap}" for gap in isolation_gaps(order))
         + tuple(p.description for p in points),
         steps=tuple(order.step_list),
+        steps_warning=lockout_step_warning(order),
         parts=tuple(
             sheet_.SheetPart(u.part.name, u.part.part_number, u.quantity_used or u.quantity_planned)
             for u in order.part_uses.select_related("part")

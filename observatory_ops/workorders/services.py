@@ -11,11 +11,12 @@ import graphlib
 import heapq
 from collections import Counter
 from collections.abc import Collection, Sequence
+from dataclasses import dataclass
 
 from django.db import transaction
 from django.utils import dateformat, timezone
 
-from observatory_ops.access.roles import TECHNICIAN, has_role
+from observatory_ops.access.roles import ENGINEER, TECHNICIAN, has_role
 from observatory_ops.archive.history import person
 from observatory_ops.calc import lifting
 from observatory_ops.logbook.models import Reading, ServiceRecord
@@ -29,7 +30,7 @@ from observatory_ops.registry.models import Site, Subsystem
 from .cautions import HAZARDS, ISOLATION_HAZARDS, needs_isolation
 from .lifecycle import TRANSITIONS
 from .models import ChecklistTick, Part, PartUse, RequiredReading, State, WorkOrder, WorkOrderItem
-from .selectors import isolation_points, latest_ticks, unticked_lines
+from .selectors import hazards_missing, hazards_of, isolation_points, latest_ticks, unticked_lines
 
 LOCKOUT_STEP = (
     "Isolate, lock and tag every energy source listed under 'Energy isolation points'; release stored "
@@ -39,11 +40,6 @@ LOCKOUT_STEP = (
 
 class Refused(Exception):
     """A move or a completion that is not allowed; the message says why. Nothing was changed."""
-
-
-def _hazards_of(subsystems: Sequence[Subsystem], plans: Sequence[ServicePlan]) -> list[str]:
-    found = {h for s in subsystems for h in s.hazards} | {h for p in plans for h in p.hazards}
-    return [h for h in HAZARDS if h in found]
 
 
 def lockout_missing(hazards: Sequence[str], steps: Sequence[str]) -> bool:
@@ -161,11 +157,10 @@ def work_order_from_due(plans: Sequence[ServicePlan], by, planned_date: dt.date 
         raise Refused("the selected items are at different sites; make one work order per site")
     subsystems = list({p.subsystem_id: p.subsystem for p in plans}.values())
     telescopes = {s.telescope_id for s in subsystems}
-    hazards = _hazards_of(subsystems, plans)
+    hazards = hazards_of(subsystems, plans)
     reading_plan = any(t.metric == READING for p in plans for t in p.triggers.all())
     site = plans[0].subsystem.telescope.site
     tools = list(dict.fromkeys(tool for p in plans for tool in p.tools.splitlines() if tool.strip()))
-    mirror = next((getattr(s, "mirror", None) for s in subsystems if hasattr(s, "mirror")), None)
     labels = _plan_labels(plans)
     with transaction.atomic():
         order = WorkOrder.objects.create(
@@ -178,8 +173,7 @@ def work_order_from_due(plans: Sequence[ServicePlan], by, planned_date: dt.date 
             steps=_steps_for(plans, labels, hazards),
             tools="\n".join(tools),
             hazards=hazards,
-            # A lift of a registered mirror gets its figures from the mirror's geometry straight away.
-            lift_inputs=mirror.lift_inputs if mirror is not None and "suspended_load" in hazards else None,
+            lift_inputs=_mirror_lift(subsystems, hazards),
             created_by=by,
         )
         for plan in plans:
@@ -198,6 +192,12 @@ def work_order_from_due(plans: Sequence[ServicePlan], by, planned_date: dt.date 
                 if part is not None and not order.part_uses.filter(part=part).exists():
                     PartUse.objects.create(work_order=order, part=part, quantity_planned=1)
     return order
+
+
+def _mirror_lift(subsystems: Sequence[Subsystem], hazards: Sequence[str]) -> dict | None:
+    """A lift of a registered mirror gets its figures from the mirror's geometry straight away."""
+    mirror = next((getattr(s, "mirror", None) for s in subsystems if hasattr(s, "mirror")), None)
+    return mirror.lift_inputs if mirror is not None and "suspended_load" in hazards else None
 
 
 def _require_reading(order: WorkOrder, subsystem: Subsystem, quantity: str, limit_text: str) -> None:
@@ -223,7 +223,7 @@ def work_order_ad_hoc(
         raise Refused("every subsystem must belong to the work order's site")
     telescopes = {s.telescope for s in subsystems}
     telescope = telescopes.pop() if len(telescopes) == 1 else None
-    hazards = [h for h in HAZARDS if h in set(_hazards_of(subsystems, [])) | set(hazards)]
+    hazards = [h for h in HAZARDS if h in set(hazards_of(subsystems, [])) | set(hazards)]
     groups = ([s.strip() for s in text.splitlines() if s.strip()] for text in (powered, steps, restore))
     lines = steps_in_groups(hazards, *groups)
     with transaction.atomic():
@@ -260,7 +260,14 @@ def work_order_move(order: WorkOrder, action: str, by, reason: str = "") -> Work
         named = ", ".join(HAZARDS[h].lower() for h in order.hazards if h in ISOLATION_HAZARDS)
         raise Refused(
             f"{order.number}'s hazards ({named}) call for energy isolation, but none of its steps is the lockout "
-            "step: edit the steps and save them, which puts it back"
+            f"step: an engineer edits the steps and puts this line where the energy is isolated: {LOCKOUT_STEP}"
+        )
+    if action in ("issue", "start") and (missing := hazards_missing(order)):
+        # Its cautions, protective equipment and isolation would be missing from the page and the paper.
+        named = ", ".join(HAZARDS[h].lower() for h in missing)
+        raise Refused(
+            f"{order.number} lacks hazards its subsystems now carry ({named}): an engineer brings it up to date "
+            "first (the button on its page), which adds them and their cautions"
         )
     if action == "issue":
         if not order.step_list:
@@ -481,3 +488,70 @@ def lift_set(order: WorkOrder, inputs: dict) -> lifting.LiftFigures:
     order.hazards = [h for h in HAZARDS if h in hazards]
     order.save(update_fields=["lift_inputs", "hazards"])
     return figures
+
+
+@dataclass(frozen=True)
+class HazardsUpdate:
+    """What ``work_order_hazards_update`` did: the hazards it added (codes), whether it put the lockout step and
+    the release step into the steps, whether it took lifting figures from the mirror, and whether the steps still
+    lack the lockout step the hazards now call for (the engineer must put it in: the order cannot be issued or
+    started until then)."""
+
+    added: list[str]
+    steps_rebuilt: bool
+    lift_added: bool
+    lockout_missing: bool
+
+
+def work_order_hazards_update(order: WorkOrder, by) -> HazardsUpdate:
+    """Add the hazards the order's subsystems and plans carry now that it lacks (``selectors.hazards_missing``),
+    and what the order stores from them; never remove one. Only before the work starts (draft or issued), by an
+    engineer; the audit trail records who.
+
+    The cautions and isolation points follow the hazards when read. The steps: where the added hazards call for
+    isolation and the steps lack the lockout step, an order whose steps are still exactly those its plans give
+    (``_steps_for``) gets them again from the plans' step groups, the lockout step and the step that removes the
+    locks between them; other steps (edited since, or an ad hoc order, whose groups are not kept) are left as
+    they are, since a step's words cannot say whether it is done under power, and ``lockout_missing`` is set: the
+    engineer puts the step in, and until then the order cannot be issued or started (``work_order_move``). A
+    suspended load added to an order without lifting figures takes them from its mirror, as a new order does.
+    Refused, changing nothing, for another role, an order whose work has started or ended, or one that lacks none.
+    """
+    if not has_role(by, ENGINEER):
+        raise Refused(f"bringing a work order's hazards up to date needs the {ENGINEER} role or above")
+    with transaction.atomic():
+        # Locked and read again: the work must not start, nor the hazards be added twice, meanwhile.
+        current = WorkOrder.objects.select_for_update().select_related("site").get(pk=order.pk)
+        if current.state not in (State.DRAFT, State.ISSUED):
+            raise Refused(
+                f"{current.number} is {current.get_state_display()}: only an order not yet started is brought up to "
+                "date; withdraw it and make a new one, which carries its subsystems' hazards"
+            )
+        added = hazards_missing(current)
+        if not added:
+            raise Refused(f"{current.number} already carries every hazard of its subsystems")
+        before = list(current.hazards)
+        current.hazards = [h for h in HAZARDS if h in {*before, *added}]
+        fields = ["hazards"]
+        steps_rebuilt = False
+        if lockout_missing(current.hazards, current.step_list):
+            items = list(current.items.select_related("plan__subsystem__telescope"))
+            plans = [i.plan for i in items]
+            if plans and None not in plans:
+                labels = _plan_labels(plans)
+                if current.steps == _steps_for(plans, labels, before):
+                    current.steps = _steps_for(plans, labels, current.hazards)
+                    fields.append("steps")
+                    steps_rebuilt = True
+        lift_added = False
+        if "suspended_load" in added and current.lift_inputs is None:
+            current.lift_inputs = _mirror_lift([i.subsystem for i in current.items.select_related("subsystem")],
+                                               current.hazards)
+            if current.lift_inputs is not None:
+                fields.append("lift_inputs")
+                lift_added = True
+        current._history_user = by
+        current._change_reason = "hazards brought up to date"
+        current.save(update_fields=fields)
+    order.refresh_from_db()
+    return HazardsUpdate(added, steps_rebuilt, lift_added, lockout_missing(order.hazards, order.step_list))

@@ -63,8 +63,11 @@ class SheetLifting:
 class Sheet:
     """Everything one printed work order shows, top to bottom.
 
+    ``hazards_notice`` (empty for an order up to date) is printed in a framed box under the header, before
+    anything of the work: its title, the hazards the order's subsystems now carry that it lacks, what to do.
     ``why`` has one line per due item (trigger, value now, limit, forecast). ``cautions`` are printed in
     a framed box before any step, most severe first, followed by ``precedence_statement``.
+    ``steps_warning``, when set, is printed above the steps (the lockout step is missing from them).
     ``isolation_points`` are the energy isolation points of the telescope for the lockout step; with
     ``isolation_needed`` False the work's hazards need nothing isolated and the sheet says so.
     ``findings`` is printed when present; otherwise blank ruled lines are left for writing.
@@ -105,9 +108,11 @@ class Sheet:
     checked_by: str = ""
     checked_on: date | None = None
     confirmations: tuple[str, ...] = ()
+    hazards_notice: tuple[str, ...] = ()
+    steps_warning: str = ""
 
     def __post_init__(self) -> None:
-        for name in ("subsystems", "why", "isolation_points", "steps", "tools", "confirmations"):
+        for name in ("subsystems", "why", "isolation_points", "steps", "tools", "confirmations", "hazards_notice"):
             if isinstance(getattr(self, name), str):
                 raise ValueError(f"{name} must be a sequence of lines, not a single string")
         if not self.number.strip():

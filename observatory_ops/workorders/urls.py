@@ -8,6 +8,7 @@ urlpatterns = [
     path("workorders/<int:pk>/", views.work_order_detail, name="workorder-detail"),
     path("workorders/<int:pk>/edit/", views.work_order_edit, name="workorder-edit"),
     path("workorders/<int:pk>/move/<slug:action>/", views.work_order_move, name="workorder-move"),
+    path("workorders/<int:pk>/hazards/", views.work_order_hazards_update, name="workorder-hazards-update"),
     path("workorders/<int:pk>/finish/", views.work_order_finish, name="workorder-finish"),
     path("workorders/<int:pk>/tick/", views.work_order_tick, name="workorder-tick"),
     path("workorders/<int:pk>/lift/", views.work_order_lift, name="workorder-lift"),

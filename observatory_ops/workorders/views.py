@@ -11,10 +11,11 @@ from observatory_ops.access.decorators import requires
 from observatory_ops.access.roles import ENGINEER, TECHNICIAN, VIEWER, has_role
 from observatory_ops.planning.models import ServicePlan
 from observatory_ops.planning.services import site_today
+from observatory_ops.registry.catalogue import RELEASE
 from observatory_ops.registry.models import Site
 
 from . import pdf, selectors, services
-from .cautions import NO_ISOLATION_NEEDED, PRECEDENCE_STATEMENT, cautions_for, needs_isolation
+from .cautions import HAZARDS, NO_ISOLATION_NEEDED, PRECEDENCE_STATEMENT, cautions_for, needs_isolation
 from .forms import AdHocForm, FinishForm, LiftForm, PartAddForm, WithdrawForm, WorkOrderEditForm
 from .lifecycle import TRANSITIONS, available
 from .models import Part, State, WorkOrder
@@ -85,12 +86,17 @@ def work_order_detail(request, pk):
     except ValueError as exc:
         lift_error = str(exc)
     readings = list(order.required_readings.select_related("subsystem", "reading"))
+    editable = order.state in (State.DRAFT, State.ISSUED) and has_role(request.user, ENGINEER)
+    missing = selectors.hazards_missing(order)
     return render(
         request,
         "workorders/detail.html",
         {
             "order": order,
             "site": order.site,
+            "hazards_notice": selectors.hazards_notice(order, missing),
+            "can_update_hazards": bool(missing) and editable,
+            "lockout_step_warning": selectors.lockout_step_warning(order),
             "items": order.items.select_related("subsystem", "plan"),
             "has_reasons": order.items.exclude(why="").exists(),  # as the printed order says (pdf._why)
             "cautions": selectors.cautions(order),
@@ -108,7 +114,7 @@ def work_order_detail(request, pk):
             "lift_error": lift_error,
             "moves": [t for t in available(order.state) if t.action != "finish" and has_role(request.user, t.role)],
             "can_finish": order.state == State.UNDERWAY and has_role(request.user, TECHNICIAN),
-            "editable": order.state in (State.DRAFT, State.ISSUED) and has_role(request.user, ENGINEER),
+            "editable": editable,
             "part_form": PartAddForm(site=order.site),
             "withdraw_form": WithdrawForm(),
             "history": selectors.history(order, limit=8),
@@ -134,6 +140,34 @@ def work_order_edit(request, pk):
         {"form": form, "order": order, "needs_lockout": needs_isolation(order.hazards),
          "lockout_step": services.LOCKOUT_STEP},
     )
+
+
+@requires(ENGINEER)
+def work_order_hazards_update(request, pk):
+    if request.method != "POST":
+        return HttpResponseNotAllowed(["POST"])
+    order = _order(pk)
+    try:
+        update = services.work_order_hazards_update(order, request.user)
+    except services.Refused as exc:
+        messages.error(request, f"Not updated: {exc}.")
+        return redirect(order)
+    cautions = "its caution" if len(update.added) == 1 else "their cautions"
+    done = f"{order.number}: added {', '.join(HAZARDS[h] for h in update.added)}, with {cautions}."
+    if update.steps_rebuilt:
+        done += " The lockout step and the step that removes the locks were put into the steps from its plans."
+    if update.lift_added:
+        done += " Lifting figures were taken from the mirror's geometry."
+    messages.success(request, done)
+    if update.lockout_missing:
+        messages.warning(
+            request, "Its hazards now call for energy isolation, but its steps are not those its plans give (edited "
+            "since, written by hand, or the plans changed), so the lockout step was not placed by guess. Edit the "
+            "steps and put it in after the steps done under power: "
+            f"\"{services.LOCKOUT_STEP}\", and after the locked-out work: \"{RELEASE}\". Until then it cannot be "
+            "issued or started.",
+        )
+    return redirect(order)
 
 
 @requires(TECHNICIAN)
