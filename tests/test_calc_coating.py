@@ -26,6 +26,7 @@ from observatory_ops.calc.coating import (
     reflectance,
     refractive_index,
     stack_reflectance,
+    wavelength_range_nm,
 )
 
 DATA_DIR = Path(__file__).resolve().parent.parent / "observatory_ops" / "calc" / "optical_data"
@@ -229,3 +230,25 @@ def test_bad_input_is_refused_with_a_clear_message(call, message):
 def test_out_of_range_message_names_the_material_and_its_range():
     with pytest.raises(ValueError, match=r"silver \(ag\).*187\.9-1937 nm"):
         refractive_index("ag", [2000.0])
+
+
+def test_wavelength_range_is_where_every_materials_optical_data_overlap():
+    # The metals' tables end where the embedded copies of Rakic 1995 and Johnson and Christy 1972 end (read here
+    # with the csv module); the dielectrics' formulas hold over their published ranges (refractiveindex.info:
+    # Malitson 1965 0.21-3.71 um, Dodge 1984 0.2-7 um, Malitson 1962 0.2652-5.577 um).
+    al_nm, _, _ = read_table("al_rakic1995.csv")
+    ag_nm, _, _ = read_table("ag_johnson_christy1972.csv")
+    assert wavelength_range_nm(["al"]) == pytest.approx((al_nm[0], al_nm[-1]))
+    assert wavelength_range_nm(["ag", "SiO2"]) == pytest.approx((210.0, ag_nm[-1]))
+    assert wavelength_range_nm(["al", "mgf2"]) == pytest.approx((200.0, 7000.0))
+    assert wavelength_range_nm(MATERIALS) == pytest.approx((265.2, 1937.0))
+    low, high = wavelength_range_nm(MATERIALS)
+    for material in MATERIALS:  # refractive_index answers at both ends for every material
+        assert np.all(np.isfinite(refractive_index(material, [low, high])))
+
+
+def test_wavelength_range_needs_a_known_material():
+    with pytest.raises(ValueError, match="unknown material 'gold'"):
+        wavelength_range_nm(["al", "gold"])
+    with pytest.raises(ValueError, match="at least one material"):
+        wavelength_range_nm([])

@@ -133,6 +133,30 @@ def refractive_index(material: str, wavelength_nm: ArrayLike) -> np.ndarray:
     return np.sqrt(n_squared).astype(complex)
 
 
+def wavelength_range_nm(materials: Sequence[str]) -> tuple[float, float]:
+    """Wavelengths over which the optical constants of every given material are known.
+
+    The overlap of each material's published table (Rakic 1995, Johnson and Christy 1972) or the range
+    its published Sellmeier formula was fitted over (Malitson 1965, Dodge 1984, Malitson 1962): where
+    :func:`refractive_index` answers for all of them, so where :func:`reflectance` of a coating made of
+    them can be computed.
+
+    Parameters
+    ----------
+    materials : sequence of str
+        At least one of :data:`MATERIALS`, any letter case.
+
+    Returns
+    -------
+    (float, float)
+        Lowest and highest wavelength in nm.
+    """
+    if not materials:
+        raise ValueError("name at least one material")
+    ranges = [_valid_range_nm(_SOURCES[_key(material)]) for material in materials]
+    return max(low for low, _ in ranges), min(high for _, high in ranges)
+
+
 def stack_reflectance(
     substrate_index: ArrayLike,
     layer_indices: Sequence[ArrayLike],

@@ -86,6 +86,9 @@ def reading_log(request, pk):
                 messages.success(request, "Reading logged" + (
                     "; it is also among the mirror page's measurements, in its decline fit." if to_mirror else "."
                 ))
+                unwatched = selectors.unwatched_reading_note(subsystem, data["quantity"])
+                if unwatched:
+                    messages.warning(request, unwatched)
                 return redirect(subsystem)
         return render(request, "logbook/reading_form.html", {"form": form, "subsystem": subsystem, "site": site})
 

@@ -2,17 +2,45 @@ import datetime as dt
 
 from django import forms
 
-from observatory_ops.calc.coating import MATERIALS, METALS
+from observatory_ops.calc.coating import MATERIALS, METALS, wavelength_range_nm
 from observatory_ops.calc.windows import RECOAT_PHASES, Phase
 
-from .models import CleaningEvent
+from .models import CleaningEvent, Mirror
+
+#: Wavelengths a single-wavelength measurement may be taken at: where the optical data of every coating
+#: material the app knows overlap (calc.coating), so a fresh value could be computed there for any recipe.
+#: It also refuses a wavelength typed in micrometres (0.65) or angstroms (6500).
+MEASURABLE_NM = wavelength_range_nm(MATERIALS)
 
 
 class MeasurementForm(forms.Form):
     measured_on = forms.DateField(widget=forms.DateInput(attrs={"type": "date"}))
-    value = forms.FloatField(min_value=0, max_value=1, help_text="Band reflectance as a fraction, e.g. 0.86.")
+    value = forms.FloatField(
+        min_value=0, max_value=1,
+        help_text="Reflectance as a fraction, e.g. 0.86: the band mean, or at the wavelength below.",
+    )
+    wavelength_nm = forms.FloatField(label="Wavelength (nm)", required=False)
     position = forms.CharField(max_length=60, required=False)
     instrument = forms.CharField(max_length=80, required=False)
+
+    def __init__(self, *args, mirror: Mirror, **kwargs):
+        super().__init__(*args, **kwargs)
+        low, high = MEASURABLE_NM
+        self.fields["wavelength_nm"].help_text = (
+            f"Empty: averaged over the mirror's band from {mirror.band_from_nm:g} to {mirror.band_to_nm:g} nm. "
+            f"Otherwise the one wavelength measured, {low:g} to {high:g} nm: such a value is listed on the "
+            "mirror page but not fitted, since the decline is fitted to band means."
+        )
+
+    def clean_wavelength_nm(self) -> float | None:
+        wavelength = self.cleaned_data["wavelength_nm"]
+        low, high = MEASURABLE_NM
+        if wavelength is not None and not low <= wavelength <= high:
+            raise forms.ValidationError(
+                f"Wavelength: {wavelength:g} nm is outside {low:g} to {high:g} nm, where the optical data of the "
+                "coating materials overlap; give it in nanometres, or leave it empty for a band mean."
+            )
+        return wavelength
 
 
 class CleaningForm(forms.Form):

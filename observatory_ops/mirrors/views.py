@@ -48,13 +48,15 @@ def mirror_detail(request, pk):
     )
 
 
-def _log_event(request, pk, form_class, date_field: str, what: str, write, done, **initial):
+def _dated(mirror: Mirror, date_field: str, **initial) -> dict:
+    """A mirror event form's initial values: dated today at the mirror's site."""
+    return {date_field: site_today(mirror.subsystem.telescope.site), **initial}
+
+
+def _log_event(request, mirror: Mirror, form, what: str, write, done):
     """One form page for a dated mirror event (measurement, cleaning, coating), written by a service.
 
     ``done`` is the success message, or a function of the mirror and the written event that words it."""
-    mirror = _mirror(pk)
-    form = form_class(request.POST or None, initial={date_field: site_today(mirror.subsystem.telescope.site),
-                                                     **initial})
     if request.method == "POST" and form.is_valid():
         try:
             event = write(mirror, request.user, **form.cleaned_data)
@@ -67,16 +69,27 @@ def _log_event(request, pk, form_class, date_field: str, what: str, write, done,
     return render(request, "mirrors/form.html", {"form": form, "mirror": mirror, "what": what})
 
 
+def _measurement_logged(mirror: Mirror, measurement) -> str:
+    """Whether the measurement moved the decline fit: only band means are fitted."""
+    if measurement.wavelength_nm is None:
+        return "Measurement logged; the decline fit is updated."
+    return (f"Measurement at {measurement.wavelength_nm:g} nm logged. It is listed below but not fitted: the decline "
+            "is fitted to band means, so the fit and the recoat forecast are unchanged.")
+
+
 @requires(TECHNICIAN)
 def measurement_log(request, pk):
-    return _log_event(request, pk, MeasurementForm, "measured_on", "a reflectance measurement",
-                      services.measurement_log, "Measurement logged; the decline fit is updated.")
+    mirror = _mirror(pk)
+    form = MeasurementForm(request.POST or None, mirror=mirror, initial=_dated(mirror, "measured_on"))
+    return _log_event(request, mirror, form, "a reflectance measurement", services.measurement_log,
+                      _measurement_logged)
 
 
 @requires(TECHNICIAN)
 def cleaning_log(request, pk):
-    return _log_event(request, pk, CleaningForm, "cleaned_on", "a cleaning", services.cleaning_log,
-                      "Cleaning logged.")
+    mirror = _mirror(pk)
+    form = CleaningForm(request.POST or None, initial=_dated(mirror, "cleaned_on"))
+    return _log_event(request, mirror, form, "a cleaning", services.cleaning_log, "Cleaning logged.")
 
 
 def _coating_logged(mirror: Mirror, event) -> str:
@@ -93,8 +106,9 @@ def _coating_logged(mirror: Mirror, event) -> str:
 
 @requires(TECHNICIAN)
 def coating_log(request, pk):
-    return _log_event(request, pk, CoatingForm, "coated_on", "a new coating", services.coating_log,
-                      _coating_logged, metal="al")
+    mirror = _mirror(pk)
+    form = CoatingForm(request.POST or None, initial=_dated(mirror, "coated_on", metal="al"))
+    return _log_event(request, mirror, form, "a new coating", services.coating_log, _coating_logged)
 
 
 def _window_form(request, mirror: Mirror, data) -> WindowForm:

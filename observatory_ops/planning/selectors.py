@@ -9,10 +9,23 @@ from django.db.models import Count, Prefetch, QuerySet
 from observatory_ops.calc.triggers import STATUSES
 from observatory_ops.logbook.models import ServiceRecord
 from observatory_ops.logbook.quantities import QUANTITIES
+from observatory_ops.registry.catalogue import COMMON_PRACTICE, KINDS
 from observatory_ops.registry.models import Site, Subsystem
 
 from . import metrics, plots
 from .models import NightSky, PlanStatus, ServicePlan, Trigger
+
+#: The catalogue's default limit of each quantity a condition trigger of its plans watches (registry.catalogue).
+CATALOGUE_READING_LIMITS: dict[str, float] = {
+    trigger[2]: trigger[1]
+    for kind in KINDS.values() for template in kind.plans for trigger in template.triggers
+    if trigger[0] == metrics.READING
+}
+#: Where each of those defaults comes from (the catalogue words it inside its plans' ``basis``) and whose own
+#: figure should replace it.
+DEFAULT_LIMIT_SOURCES: dict[str, tuple[str, str]] = {
+    "settle_time_s": (COMMON_PRACTICE, "mount"),  # calc.trend.SETTLE_TIME_LIMIT_S
+}
 
 
 def due_rows() -> QuerySet[PlanStatus]:
@@ -47,15 +60,36 @@ def plans_with_status(subsystem: Subsystem) -> QuerySet[ServicePlan]:
     )
 
 
-def watched_quantities(subsystem: Subsystem) -> set[str]:
-    """The reading quantities the subsystem's active plans watch (condition triggers) or ask for on their work
-    orders, and reflectance for a mirror: what a reading of it is most likely to be."""
+def forecast_quantities(subsystem: Subsystem) -> set[str]:
+    """The reading quantities that move a forecast of the subsystem: those its active plans' condition triggers
+    watch, and reflectance for a mirror (its readings join the decline fit behind the recoat line)."""
     plans = ServicePlan.objects.filter(subsystem=subsystem, active=True)
     watched = set(Trigger.objects.filter(plan__in=plans, metric=metrics.READING).values_list("quantity", flat=True))
-    watched |= {entry["quantity"] for readings in plans.values_list("readings", flat=True) for entry in readings}
     if hasattr(subsystem, "mirror"):
         watched.add("reflectance")
     return watched
+
+
+def watched_quantities(subsystem: Subsystem) -> set[str]:
+    """The reading quantities that move a forecast of the subsystem (``forecast_quantities``) and those its
+    active plans ask for on their work orders: what a reading of it is most likely to be."""
+    plans = ServicePlan.objects.filter(subsystem=subsystem, active=True)
+    asked = {entry["quantity"] for readings in plans.values_list("readings", flat=True) for entry in readings}
+    return forecast_quantities(subsystem) | asked
+
+
+def unwatched_reading_note(subsystem: Subsystem, quantity: str) -> str | None:
+    """What to tell whoever logs a reading that no service plan of the subsystem watches; None when one does.
+
+    Such a reading is kept (any quantity may be logged on any subsystem), but a wrong pick should be noticed.
+    """
+    if quantity in forecast_quantities(subsystem):
+        return None
+    label = QUANTITIES[quantity][0]
+    if not label[:2].isupper():  # "Motor current" reads "motor current" mid-sentence; "RMS following error" stays
+        label = label[:1].lower() + label[1:]
+    return (f"No service plan of {subsystem.name} watches {label}: this reading is stored but does not move any "
+            "forecast.")
 
 
 def _iso_utc(moment) -> str | None:
@@ -123,8 +157,25 @@ def due_csv_row(status: PlanStatus) -> list:
     ]
 
 
+def default_limit_notes(plan: ServicePlan) -> list[str]:
+    """A note for each condition trigger of the plan whose limit is still exactly the catalogue's default for its
+    quantity: a figure of the trade, not this equipment's."""
+    notes = []
+    for trigger in plan.triggers.all():
+        if trigger.metric != metrics.READING or trigger.limit != CATALOGUE_READING_LIMITS.get(trigger.quantity):
+            continue
+        label, unit = QUANTITIES[trigger.quantity]
+        basis, owner = DEFAULT_LIMIT_SOURCES[trigger.quantity]
+        notes.append(
+            f"{label}: limit is the catalogue's default ({trigger.limit:g} {unit}, {basis}); set this {owner}'s own "
+            "figure from its maker's data or its commissioning tests."
+        )
+    return notes
+
+
 def plans_with_plots(subsystem: Subsystem) -> list[ServicePlan]:
-    """The subsystem's plans, each with ``plot``: an SVG of its governing trigger (see ``plots``)."""
+    """The subsystem's plans, each with ``plot``: an SVG of its governing trigger (see ``plots``), and
+    ``default_limits``: the notes of ``default_limit_notes``."""
     from .services import UsageLog, site_today
 
     site = subsystem.telescope.site
@@ -133,7 +184,7 @@ def plans_with_plots(subsystem: Subsystem) -> list[ServicePlan]:
     log = None
     for plan in plans:
         status = getattr(plan, "status", None)  # a plan not computed yet has none
-        plan.plot, plan.unread = None, []
+        plan.plot, plan.unread, plan.default_limits = None, [], default_limit_notes(plan)
         if status is None:
             continue
         baseline = status.last_service_on or plan.counting_from  # as the recompute counts
