@@ -19,7 +19,8 @@ def test_a_page_edit_is_recorded_with_who_and_before_and_after(users, client, si
     response = client.post(
         f"/admin/registry/site/{site.pk}/change/",
         {"name": "Test Hill Station", "slug": site.slug, "latitude_deg": "40", "longitude_deg": "-3",
-         "elevation_m": "800", "time_zone": "Europe/Madrid", "dust_climate": "", "look_ahead_days": "30"},
+         "elevation_m": "800", "time_zone": "Europe/Madrid", "dust_climate": "", "look_ahead_days": "30",
+         "crew_weekdays": ["1", "2", "3", "4", "5"]},
     )
     assert response.status_code == 302, response.content[:500]
     latest = changes(site)[0]

@@ -25,8 +25,13 @@ TODAY = dt.date(2026, 6, 15)
 @pytest.fixture
 def mirror(telescope, users):
     """A bare-aluminium primary coated 300 days ago, 4 h open every night in PM10 40 ug/m3, with monthly
-    measurements falling exactly 2e-5 per dust-weighted hour and one cleaning recovering half the loss."""
+    measurements falling exactly 2e-5 per dust-weighted hour and one cleaning recovering half the loss.
+
+    The crew works every day, so a recoat's dates below are the plain sums of its phases' days from any start;
+    a weekday crew's dates are specified in tests/test_crew_weekdays.py."""
     site = telescope.site
+    site.crew_weekdays = "1234567"
+    site.save()
     coated = TODAY - dt.timedelta(days=300)
     NightUsage.objects.bulk_create(
         NightUsage(site=site, night=coated + dt.timedelta(days=i), open_hours=4, pm10_ugm3=40) for i in range(300)

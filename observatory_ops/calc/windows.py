@@ -6,6 +6,10 @@ loses that day's night. A night's cost is the observing it would have given: its
 years (from :mod:`forecast`), with booked observing runs made expensive or blocked. The cheapest window
 is the run of consecutive nights with the smallest total cost, found with cumulative sums; the
 alternatives are the next cheapest runs that do not overlap the ones already chosen.
+
+The work our own crew does at the telescope (removal, reinstall, realignment) is done on the crew's working
+days only: such a phase starts on a working day and pauses over days off, and the telescope stays down
+meanwhile, so a downtime's length, and the nights it loses, depend on the weekday it begins.
 """
 
 from __future__ import annotations
@@ -113,29 +117,17 @@ def cheapest_windows(cost: ArrayLike, days: int, alternatives: int = 3) -> list[
         or longer than the horizon, when ``alternatives`` is negative, or when every window of ``days``
         contains a blocked night.
     """
-    per_night = _numbers("cost", cost)
-    if np.any(np.isnan(per_night)) or np.any(per_night < 0):
-        raise ValueError("night costs must not be negative or NaN (use inf for a blocked night)")
+    per_night = _costs(cost)
     _check_whole("window length", days, 1)
     _check_whole("number of alternatives", alternatives, 0)
     if days > per_night.size:
         raise ValueError(f"a window of {days} days is longer than the horizon of {per_night.size} days")
-
-    blocked = np.isinf(per_night)
-    sums = _window_sums(np.where(blocked, 0.0, per_night), days)
-    candidates = np.where(_window_sums(blocked.astype(np.int64), days) == 0, sums, np.inf)
-    if np.all(np.isinf(candidates)):
+    chosen = _cheapest(per_night, np.full(per_night.size, days), alternatives)
+    if not chosen:
         raise ValueError(
             f"every window of {days} days contains a blocked night (a booked observing run): "
             "shorten the window, lengthen the horizon or give booked nights a finite weight"
         )
-    chosen = []
-    for _ in range(alternatives + 1):
-        start = int(np.argmin(candidates))
-        if np.isinf(candidates[start]):
-            break
-        chosen.append(Window(start_index=start, days=days, cost=float(sums[start])))
-        candidates[max(start - days + 1, 0) : start + days] = np.inf
     return chosen
 
 
@@ -147,6 +139,11 @@ class Phase:
     name: str
     days: int
     work: str = ""
+
+    @property
+    def needs_crew(self) -> bool:
+        """True for work our own crew does at the telescope (:data:`CREW_WORK`), done on its working days."""
+        return self.work in CREW_WORK
 
 
 #: The steps of recoating a primary mirror and their usual lengths in days for a small observatory's
@@ -178,9 +175,224 @@ def total_days(phases: Iterable[Phase]) -> int:
     return total
 
 
-def _window_sums(values: NDArray, days: int) -> NDArray:
-    cumulative = np.concatenate(([0], np.cumsum(values)))
-    return cumulative[days:] - cumulative[:-days]
+#: Short names of the ISO weekdays, Monday (1) to Sunday (7), as ``datetime.date.isoweekday`` numbers them.
+WEEKDAY_NAMES: tuple[str, ...] = ("Mon", "Tue", "Wed", "Thu", "Fri", "Sat", "Sun")
+EVERY_DAY: frozenset[int] = frozenset(range(1, 8))
+
+#: The kinds of work (``Phase.work``) our own crew does at the telescope. The coating is done at an outside
+#: plant, and the mirror carried there and back by whoever drives it, on their own days: those phases run on
+#: calendar days (common practice, no published source).
+CREW_WORK: frozenset[str] = frozenset({"removal", "reinstall", "realignment"})
+
+
+def crew_weekdays_from(digits: str) -> frozenset[int]:
+    """The crew's working days from their ISO weekday digits, e.g. ``"12345"`` for Monday to Friday.
+
+    Parameters
+    ----------
+    digits : one digit per working day, 1 (Monday) to 7 (Sunday) as ISO 8601 and ``datetime.date.isoweekday``
+        number them, each once, in any order.
+
+    Returns
+    -------
+    frozenset of int: the ISO weekday numbers of the working days.
+
+    Raises
+    ------
+    ValueError
+        Naming the crew weekdays, when ``digits`` is empty, holds anything but the digits 1 to 7, or gives a
+        day twice.
+    """
+    if not digits:
+        raise ValueError("crew weekdays must give at least one working day, as ISO weekday digits "
+                         "(1 Monday to 7 Sunday; 12345 for Monday to Friday)")
+    wrong = sorted({c for c in digits if c not in "1234567"})
+    if wrong:
+        raise ValueError(f"crew weekdays may hold only the digits 1 (Monday) to 7 (Sunday), not "
+                         f"{', '.join(repr(c) for c in wrong)}")
+    twice = sorted({c for c in digits if digits.count(c) > 1})
+    if twice:
+        raise ValueError(f"crew weekdays give {', '.join(WEEKDAY_NAMES[int(c) - 1] for c in twice)} more than once: "
+                         "give each working day once")
+    return frozenset(int(c) for c in digits)
+
+
+def weekdays_text(days: Iterable[int]) -> str:
+    """Weekdays in short words, a run of three or more as a range: ``{1, 2, 3, 4, 5}`` is "Mon–Fri",
+    ``{1, 3, 5, 6}`` "Mon, Wed, Fri, Sat"."""
+    runs: list[list[int]] = []
+    for day in sorted(set(days)):
+        if runs and day == runs[-1][-1] + 1:
+            runs[-1].append(day)
+        else:
+            runs.append([day])
+    parts = []
+    for run in runs:
+        names = [WEEKDAY_NAMES[day - 1] for day in run]
+        parts.extend([f"{names[0]}–{names[-1]}"] if len(run) >= 3 else names)
+    return ", ".join(parts)
+
+
+@dataclass(frozen=True)
+class PhaseDays:
+    """Where one phase falls: its first and last day, counted from the day the work may begin (day 0).
+
+    ``last`` is ``first - 1`` for a phase of no days. The days between ``first`` and ``last`` include any
+    days off a crew phase pauses over.
+    """
+
+    phase: Phase
+    first: int
+    last: int
+
+
+def phase_days(phases: Iterable[Phase], first_weekday: int, crew_days: Iterable[int] = EVERY_DAY) -> list[PhaseDays]:
+    """Lay ``phases`` one after another from day 0, each phase our crew does on the crew's working days.
+
+    Method
+    ------
+    Each phase begins the day after the one before it ends. A phase of crew work (:attr:`Phase.needs_crew`)
+    begins on the first working day from then and takes ``days`` working days, pausing over days off; any
+    other phase takes ``days`` calendar days. Once the first phase has begun, days off waited through or
+    paused over pass with the telescope still down. Any seven consecutive days hold each weekday once, so a
+    crew phase of ``n`` days with ``k`` working days a week ends ``(n - 1) // k`` whole weeks after its first
+    day plus the days to its last ``(n - 1) % k`` working days.
+
+    Parameters
+    ----------
+    phases : the steps of the job, in order.
+    first_weekday : ISO weekday of day 0, 1 (Monday) to 7 (Sunday) (``datetime.date.isoweekday``).
+    crew_days : the crew's working days as ISO weekday numbers (:func:`crew_weekdays_from`).
+
+    Returns
+    -------
+    list of PhaseDays, one per phase, in order.
+
+    Raises
+    ------
+    ValueError
+        When a phase's days are not a whole number of at least 0 or all phases add up to none
+        (:func:`total_days`), ``first_weekday`` is not 1..7, or ``crew_days`` is empty or holds a number
+        outside 1..7.
+    """
+    listed = list(phases)
+    total_days(listed)
+    _check_weekday(first_weekday)
+    working = frozenset(crew_days)
+    if not working or not working <= EVERY_DAY:
+        raise ValueError(
+            f"crew weekdays must be one or more ISO weekdays 1 (Monday) to 7 (Sunday), not {sorted(working)}"
+        )
+
+    def works(day: int) -> bool:
+        return (first_weekday - 1 + day) % 7 + 1 in working
+
+    laid, day = [], 0
+    for phase in listed:
+        if phase.days and phase.needs_crew:
+            first = next(d for d in range(day, day + 7) if works(d))
+            weeks, rest = divmod(phase.days - 1, len(working))
+            last = first + 7 * weeks
+            while rest:
+                last += 1
+                if works(last):
+                    rest -= 1
+        else:
+            first, last = day, day + phase.days - 1
+        laid.append(PhaseDays(phase, first, last))
+        day = last + 1
+    return laid
+
+
+def cheapest_crew_windows(
+    cost: ArrayLike,
+    phases: Iterable[Phase],
+    first_weekday: int,
+    crew_days: Iterable[int] = EVERY_DAY,
+    alternatives: int = 3,
+) -> list[Window]:
+    """The cheapest downtime for ``phases`` done on the crew's working days, then up to ``alternatives`` more.
+
+    Method
+    ------
+    Where the phases fall (:func:`phase_days`) depends only on the weekday the work begins, so there are
+    seven downtime lengths ``L``, one per weekday; no window begins on a weekday where the first phase
+    would wait for the crew (the window begun on the day the crew comes is that one). The cost of the window
+    begun on night ``i`` is ``C[i + L_i] - C[i]`` from one cumulative sum, as in :func:`cheapest_windows`:
+    the nights of days off inside the downtime are lost too and count in it. Alternatives are chosen as
+    there: greedily, cheapest first, each overlapping none chosen before it. With every day a working day,
+    or no crew phase, every length is :func:`total_days` and the result is that of :func:`cheapest_windows`.
+
+    Parameters
+    ----------
+    cost : cost per night, >= 0, ``inf`` for a blocked night (:func:`night_cost`).
+    phases : the steps of the job, in order (:data:`RECOAT_PHASES`).
+    first_weekday : ISO weekday of night 0 of ``cost``, 1 (Monday) to 7 (Sunday).
+    crew_days : the crew's working days as ISO weekday numbers (:func:`crew_weekdays_from`).
+    alternatives : how many further windows to offer besides the cheapest, >= 0.
+
+    Returns
+    -------
+    list of Window, the cheapest first; a window's ``days`` are the nights it loses, days off included.
+
+    Raises
+    ------
+    ValueError
+        On bad costs as :func:`cheapest_windows`, bad phases, weekday or crew days as :func:`phase_days`, a
+        negative ``alternatives``, when even the shortest downtime is longer than the horizon, or when every
+        window contains a blocked night.
+    """
+    per_night = _costs(cost)
+    _check_whole("number of alternatives", alternatives, 0)
+    _check_weekday(first_weekday)
+    listed, working = list(phases), frozenset(crew_days)
+    by_weekday = np.zeros(7, dtype=np.int64)  # 0: no window begins on that weekday
+    for weekday in range(1, 8):
+        laid = [p for p in phase_days(listed, weekday, working) if p.phase.days]
+        if laid[0].first == 0:
+            by_weekday[weekday - 1] = laid[-1].last + 1
+    shortest = int(by_weekday[by_weekday > 0].min())
+    if shortest > per_night.size:
+        raise ValueError(f"the phases take at least {shortest} days on the crew's working days, longer than the "
+                         f"horizon of {per_night.size} days")
+    lengths = by_weekday[(first_weekday - 1 + np.arange(per_night.size)) % 7]
+    chosen = _cheapest(per_night, lengths, alternatives)
+    if not chosen:
+        raise ValueError(
+            "every window for these phases contains a blocked night (a booked observing run): shorten a phase, "
+            "lengthen the horizon or give booked nights a finite weight"
+        )
+    return chosen
+
+
+def _cheapest(per_night: NDArray[np.float64], lengths: NDArray[np.int64], alternatives: int) -> list[Window]:
+    """The greedy choice of :func:`cheapest_windows` for a window of ``lengths[i]`` nights begun on night ``i``
+    (0: none begins there); an empty list when every window that fits holds a blocked night."""
+    starts = np.arange(per_night.size)
+    ends = starts + lengths
+    fits = (lengths > 0) & (ends <= per_night.size)
+    last = np.where(fits, ends, starts)  # in range for the look-ups below
+    blocked = np.isinf(per_night)
+    # Blocked nights are summed as 0 and counted apart, so the infinities never enter a subtraction.
+    cumulative = np.concatenate(([0], np.cumsum(np.where(blocked, 0.0, per_night))))
+    held = np.concatenate(([0], np.cumsum(blocked)))
+    sums = cumulative[last] - cumulative[starts]
+    candidates = np.where(fits & (held[last] == held[starts]), sums, np.inf)
+    chosen = []
+    for _ in range(alternatives + 1):
+        start = int(np.argmin(candidates))
+        if np.isinf(candidates[start]):
+            break
+        chosen.append(Window(start_index=start, days=int(lengths[start]), cost=float(sums[start])))
+        candidates[(starts < ends[start]) & (ends > start)] = np.inf
+    return chosen
+
+
+def _costs(cost: ArrayLike) -> NDArray[np.float64]:
+    per_night = _numbers("cost", cost)
+    if np.any(np.isnan(per_night)) or np.any(per_night < 0):
+        raise ValueError("night costs must not be negative or NaN (use inf for a blocked night)")
+    return per_night
 
 
 def _per_night(name: str, values: ArrayLike, nights: int | None = None) -> NDArray:
@@ -204,3 +416,9 @@ def _check_whole(name: str, value: object, smallest: int) -> None:
         raise ValueError(f"{name} must be a whole number, not {value!r}")
     if value < smallest:
         raise ValueError(f"{name} must be at least {smallest}, not {value}")
+
+
+def _check_weekday(weekday: object) -> None:
+    _check_whole("first weekday", weekday, 1)
+    if weekday > 7:
+        raise ValueError(f"first weekday must be an ISO weekday, 1 (Monday) to 7 (Sunday), not {weekday}")

@@ -247,15 +247,42 @@ def night_costs(site: Site, start: dt.date, horizon_days: int) -> list[NightCost
     ]
 
 
+def _dated(first_night: dt.date, window: windows.Window) -> dict:
+    return {
+        "start": first_night + dt.timedelta(days=window.start_index),
+        "end": first_night + dt.timedelta(days=window.start_index + window.days - 1),
+        "nights": window.days,
+        "cost": round(window.cost, 3),
+    }
+
+
 def best_windows(first_night: dt.date, cost: np.ndarray, days: int, alternatives: int = 3) -> list[dict]:
     """The cheapest windows of ``days`` nights as dicts with start and end dates, cheapest first."""
+    return [_dated(first_night, w) for w in windows.cheapest_windows(cost, days, alternatives)]
+
+
+def crew_windows(
+    first_night: dt.date, cost: np.ndarray, phases: list[windows.Phase], crew_days: frozenset[int],
+    alternatives: int = 3,
+) -> list[dict]:
+    """The cheapest windows for ``phases`` with the crew working ``crew_days`` (``calc.windows.cheapest_crew_windows``),
+    cheapest first, each with its start and end dates and its phases' dates (``phase_dates``)."""
+    found = windows.cheapest_crew_windows(cost, phases, first_night.isoweekday(), crew_days, alternatives)
     return [
-        {
-            "start": first_night + dt.timedelta(days=w.start_index),
-            "end": first_night + dt.timedelta(days=w.start_index + w.days - 1),
-            "cost": round(w.cost, 3),
-        }
-        for w in windows.cheapest_windows(cost, days, alternatives)
+        {**_dated(first_night, w),
+         "phases": phase_dates(first_night + dt.timedelta(days=w.start_index), phases, crew_days)}
+        for w in found
+    ]
+
+
+def phase_dates(starts_on: dt.date, phases: list[windows.Phase], crew_days: frozenset[int]) -> list[dict]:
+    """The first and last date of each phase that takes days, for work that may begin on ``starts_on``: a phase of
+    crew work on the crew's working days (``calc.windows.phase_days``), so it may begin later and pause over days off.
+    """
+    return [
+        {"phase": laid.phase, "first": starts_on + dt.timedelta(days=laid.first),
+         "last": starts_on + dt.timedelta(days=laid.last)}
+        for laid in windows.phase_days(phases, starts_on.isoweekday(), crew_days) if laid.phase.days
     ]
 
 
@@ -268,13 +295,15 @@ def default_horizon_days(mirror: Mirror, today: dt.date) -> int:
 def recoat_windows(mirror: Mirror, start: dt.date, horizon_days: int, phases: list[windows.Phase]) -> dict:
     """The cheapest windows for a recoat of these phases, and each coming night's cost for the calendar.
 
-    The calendar's ``shade`` is the night's cost relative to the costliest night in the horizon (0..1);
-    ``chosen`` marks the nights of the cheapest window.
+    The phases at the telescope are laid on the site's crew working days (``crew_windows``), so a window may
+    hold more nights than the phases' days. The calendar's ``shade`` is the night's cost relative to the
+    costliest night in the horizon (0..1); ``chosen`` marks the nights of the cheapest window.
     """
     days = windows.total_days(phases)
-    costs = night_costs(mirror.subsystem.telescope.site, start, horizon_days)
-    found = best_windows(costs[0].night, np.array([c.cost for c in costs]), days)
-    chosen = {found[0]["start"] + dt.timedelta(days=i) for i in range(days)} if found else set()
+    site = mirror.subsystem.telescope.site
+    costs = night_costs(site, start, horizon_days)
+    found = crew_windows(costs[0].night, np.array([c.cost for c in costs]), phases, site.crew_days)
+    chosen = {found[0]["start"] + dt.timedelta(days=i) for i in range(found[0]["nights"])} if found else set()
     worst = max((c.cost for c in costs if np.isfinite(c.cost)), default=1.0) or 1.0
     calendar = [
         {"night": c.night, "cost": c.cost, "moon": c.moon_illumination, "booked": c.booked,
@@ -516,12 +545,15 @@ def recoat_plan_create(
 ) -> RecoatPlan:
     """Turn a chosen window into a recoat plan and one draft work order per hands-on phase; recompute.
 
-    The realignment order asks for a band reflectance reading of the new coating, and it carries the
-    mirror's recoat service plans (``recoat_plans``, if any), so finishing it restarts their counting.
+    ``starts_on`` is the first day the work may begin. The phases are laid on the site's crew working days
+    (``phase_dates``): each order is dated on its phase's first day, a crew phase's on a working day, and the plan
+    runs from the first phase's first day to the last one's last day (a window from ``recoat_windows`` begins
+    with its first phase). The realignment order asks for a band reflectance reading of the new coating, and it
+    carries the mirror's recoat service plans (``recoat_plans``, if any), so finishing it restarts their counting.
     """
-    total = windows.total_days(phases)
-    ends_on = starts_on + dt.timedelta(days=total - 1)
     subsystem = mirror.subsystem
+    laid = phase_dates(starts_on, phases, subsystem.telescope.site.crew_days)
+    starts_on, ends_on = laid[0]["first"], laid[-1]["last"]
     realignment_plans = recoat_plans(subsystem) or [None]
     why = recoat_reason(mirror_forecast(mirror), starts_on, ends_on)
     with transaction.atomic():
@@ -541,16 +573,16 @@ def recoat_plan_create(
             mirror=mirror, starts_on=starts_on, ends_on=ends_on,
             phases=[{"name": p.name, "days": p.days} for p in phases], cost=cost, created_by=by,
         )
-        day = starts_on
-        for phase in phases:
+        for dates in laid:
+            phase = dates["phase"]
             kind = phase.work
-            if kind in _PHASE_WORK and phase.days > 0:
+            if kind in _PHASE_WORK:
                 work = _PHASE_WORK[kind]
                 mirror_hazards = set(subsystem.hazards) if work.at_telescope else set()
                 hazards = [h for h in HAZARDS if h in set(work.hazards) | mirror_hazards]
                 order = WorkOrder.objects.create(
                     site=subsystem.telescope.site, telescope=subsystem.telescope,
-                    title=f"Recoat {subsystem.name}: {phase.name}", planned_date=day,
+                    title=f"Recoat {subsystem.name}: {phase.name}", planned_date=dates["first"],
                     estimated_hours=8.0 * phase.days, steps=_phase_steps(hazards, work),
                     tools="\n".join(work.tools), hazards=hazards,
                     lift_inputs=_phase_lift(mirror, work) if "suspended_load" in hazards else None,
@@ -564,7 +596,6 @@ def recoat_plan_create(
                         limit_text=f"about {_coating_band_now(mirror):.3f} expected (computed fresh)",
                     )
                 plan.work_orders.add(order)
-            day += dt.timedelta(days=phase.days)
         site_recompute(subsystem.telescope.site)
     return plan
 

@@ -6,12 +6,13 @@ from observatory_ops.planning.services import plans_from_catalogue, site_today
 from observatory_ops.workorders.cautions import HAZARDS
 
 from .catalogue import kind as catalogue_kind
-from .forms import SubsystemAdminForm
+from .forms import SiteAdminForm, SubsystemAdminForm
 from .models import Site, Subsystem, Telescope
 
 
 @admin.register(Site)
 class SiteAdmin(SimpleHistoryAdmin):
+    form = SiteAdminForm
     list_display = ("name", "slug", "latitude_deg", "longitude_deg", "elevation_m", "time_zone")
     prepopulated_fields = {"slug": ("name",)}
 

@@ -1,6 +1,7 @@
 """Form fields the register's admin pages share."""
 from django import forms
 
+from observatory_ops.calc.windows import WEEKDAY_NAMES
 from observatory_ops.workorders.cautions import HAZARDS
 
 
@@ -18,3 +19,31 @@ class HazardsField(forms.TypedMultipleChoiceField):
 class SubsystemAdminForm(forms.ModelForm):
     hazards = HazardsField(help_text="They choose the safety cautions on its work orders. A new subsystem always "
                            "gets its kind's own as well as those ticked.")
+
+
+class CrewWeekdaysField(forms.MultipleChoiceField):
+    """The crew's working days as seven tick boxes, where the admin would show the stored ISO weekday digits
+    ("12345" is Monday to Friday); cleaned back to those digits, in weekday order."""
+
+    def __init__(self, **kwargs):
+        super().__init__(
+            choices=[(str(number), name) for number, name in enumerate(WEEKDAY_NAMES, start=1)],
+            widget=forms.CheckboxSelectMultiple,
+            error_messages={"required": "Crew weekdays: tick at least one day the crew works.",
+                            "invalid_choice": "Crew weekdays: %(value)s is not a weekday (1 Monday to 7 Sunday)."},
+            **kwargs,
+        )
+
+    def prepare_value(self, value):
+        return list(value) if isinstance(value, str) else value
+
+    def clean(self, value) -> str:
+        return "".join(sorted(super().clean(value)))
+
+
+class SiteAdminForm(forms.ModelForm):
+    crew_weekdays = CrewWeekdaysField(
+        help_text="The days the maintenance crew works. The recoat planner starts the phases at the telescope "
+        "(removal, reinstall, realignment) on these days and pauses them over the others; the telescope stays down "
+        "meanwhile, so those nights count in a window's cost."
+    )

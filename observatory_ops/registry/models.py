@@ -9,7 +9,7 @@ from django.db import models
 from django.urls import reverse
 from simple_history.models import HistoricalRecords
 
-from observatory_ops.calc import night_of
+from observatory_ops.calc import night_of, windows
 
 from .catalogue import KIND_CHOICES, KINDS
 
@@ -17,6 +17,13 @@ from .catalogue import KIND_CHOICES, KINDS
 def validate_time_zone(value: str) -> None:
     try:
         night_of.zone(value)
+    except ValueError as exc:
+        raise ValidationError(f"{str(exc)[0].upper()}{str(exc)[1:]}.") from None
+
+
+def validate_crew_weekdays(value: str) -> None:
+    try:
+        windows.crew_weekdays_from(value)
     except ValueError as exc:
         raise ValidationError(f"{str(exc)[0].upper()}{str(exc)[1:]}.") from None
 
@@ -47,6 +54,13 @@ class Site(models.Model):
     look_ahead_days = models.PositiveIntegerField(
         default=30, help_text="Items forecast within this many days count as due."
     )
+    crew_weekdays = models.CharField(
+        max_length=7, default="12345", validators=[validate_crew_weekdays],
+        error_messages={"blank": "Crew weekdays must give at least one working day."},
+        help_text="The days the maintenance crew works, as ISO weekday digits: 1 Monday to 7 Sunday, so 12345 is "
+        "Monday to Friday. The recoat planner starts the phases at the telescope (removal, reinstall, realignment) "
+        "on these days and pauses them over the others.",
+    )
     digest_sent_on = models.DateField(
         null=True, blank=True, editable=False,
         help_text="The site's local day of the last due digest sent: at most one a day (planning.digest).",
@@ -64,6 +78,16 @@ class Site(models.Model):
     @property
     def zone(self) -> zoneinfo.ZoneInfo:
         return zoneinfo.ZoneInfo(self.time_zone)
+
+    @property
+    def crew_days(self) -> frozenset[int]:
+        """The crew's working days as ISO weekday numbers (1 Monday .. 7 Sunday)."""
+        return windows.crew_weekdays_from(self.crew_weekdays)
+
+    @property
+    def crew_days_text(self) -> str:
+        """The crew's working days in short words, e.g. "Mon–Fri"."""
+        return windows.weekdays_text(self.crew_days)
 
 
 class Telescope(models.Model):
