@@ -409,3 +409,26 @@ def test_a_site_whose_crew_works_every_day_plans_as_before(mirror, users) -> Non
     plan = services.recoat_plan_create(mirror, dt.date(2026, 8, 1), list(RECOAT_PHASES), 12.0, users["engineer"])
     assert (plan.starts_on, plan.ends_on) == (dt.date(2026, 8, 1), dt.date(2026, 8, 12))
     assert plan.work_orders.get(title__endswith="removal").planned_date == dt.date(2026, 8, 1)  # a Saturday
+
+
+def test_the_calendar_shows_each_order_over_its_phases_working_days_weekend_included(mirror, users, client) -> None:
+    """RFC 5545 3.6.1: an all-day event ends (DTEND) the day after its last day. A phase that pauses over the
+    crew's days off lasts, on the calendar, from its first day to its last, as the plan laid it out."""
+    from icalendar import Calendar
+
+    from observatory_ops.mirrors import services
+
+    plan = services.recoat_plan_create(mirror, dt.date(2026, 8, 6), list(RECOAT_PHASES), 14.0, users["engineer"])
+    laid = {p["name"]: (dt.date.fromisoformat(p["first"]), dt.date.fromisoformat(p["last"])) for p in plan.phases}
+    assert laid["realignment and measurement"] == (dt.date(2026, 8, 17), dt.date(2026, 8, 19))
+    client.force_login(users["viewer"])
+    events = Calendar.from_ical(client.get(f"/sites/{mirror.subsystem.telescope.site.slug}/downtime.ics").content)
+    spans = {str(e["summary"]): (e.decoded("dtstart"), e.decoded("dtend")) for e in events.walk("VEVENT")}
+    orders = list(plan.work_orders.all())
+    assert len(orders) == 4
+    for order in orders:
+        first, last = laid[order.title.split(": ", 1)[1]]
+        (span,) = [s for summary, s in spans.items() if summary.endswith(order.title)]
+        assert span == (first, last + dt.timedelta(days=1)), order.title
+    window = next(e for e in events.walk("VEVENT") if str(e["summary"]).startswith("Recoat window"))
+    assert "realignment and measurement 3 d (Mon 17 Aug to Wed 19 Aug)" in str(window["description"])

@@ -82,20 +82,22 @@ def site_calendar(site: Site, base_url: str) -> bytes:
         subsystem = plan.mirror.subsystem
         all_day(f"recoat-{plan.pk}", plan.starts_on, plan.ends_on,
                 f"Recoat window: {subsystem.telescope.name} {subsystem.name}",
-                ", ".join(f"{p['name']} {p['days']} d" for p in plan.phases), _window_status(plan))
+                ", ".join(f"{p['name']} {p['days']} d ({_span(p)})" for p in plan.phases), _window_status(plan))
     return calendar.to_ical()
 
 
+def _span(phase: dict) -> str:
+    first, last = dt.date.fromisoformat(phase["first"]), dt.date.fromisoformat(phase["last"])
+    return f"{first:%a %d %b}" if first == last else f"{first:%a %d %b} to {last:%a %d %b}"
+
+
 def _phase_last_days(plans: list[RecoatPlan]) -> dict[int, dt.date]:
-    """The last day of each recoat work order: its phase lasts the phase's days from its planned date."""
+    """The last day of each recoat work order still on its phase's first day, as the plan laid the phase out
+    (a phase at the telescope may pause over the crew's days off: ``services.phase_dates``)."""
     last = {}
     for plan in plans:
-        starts, day = {}, plan.starts_on
-        for phase in plan.phases:
-            starts.setdefault(day, phase["days"])
-            day += dt.timedelta(days=phase["days"])
+        last_of = {dt.date.fromisoformat(p["first"]): dt.date.fromisoformat(p["last"]) for p in plan.phases}
         for order in plan.work_orders.all():
-            days = starts.get(order.planned_date)
-            if days:
-                last[order.pk] = order.planned_date + dt.timedelta(days=days - 1)
+            if order.planned_date in last_of:
+                last[order.pk] = last_of[order.planned_date]
     return last

@@ -137,7 +137,11 @@ class RecoatPlan(models.Model):
     mirror = models.ForeignKey(Mirror, on_delete=models.PROTECT, related_name="recoat_plans")
     starts_on = models.DateField()
     ends_on = models.DateField()
-    phases = models.JSONField(help_text='[{"name": ..., "days": ...}] in order.')
+    phases = models.JSONField(
+        help_text="The phases that take days, in order: "
+        '[{"name": ..., "days": ..., "first": ISO date, "last": ISO date}] '
+        "(a phase at the telescope may pause over the crew's days off, so its last day is stored, not counted)."
+    )
     cost = models.FloatField(help_text="Expected usable moonless open hours lost in the window.")
     created_at = models.DateTimeField(auto_now_add=True)
     created_by = models.ForeignKey(settings.AUTH_USER_MODEL, on_delete=models.PROTECT, related_name="+")

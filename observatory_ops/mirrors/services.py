@@ -571,7 +571,9 @@ def recoat_plan_create(
             )
         plan = RecoatPlan.objects.create(
             mirror=mirror, starts_on=starts_on, ends_on=ends_on,
-            phases=[{"name": p.name, "days": p.days} for p in phases], cost=cost, created_by=by,
+            phases=[{"name": d["phase"].name, "days": d["phase"].days, "first": d["first"].isoformat(),
+                     "last": d["last"].isoformat()} for d in laid],
+            cost=cost, created_by=by,
         )
         for dates in laid:
             phase = dates["phase"]
