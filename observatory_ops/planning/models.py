@@ -1,6 +1,8 @@
 """Service plans, their triggers, the computed due state of each plan, and the per-site nights cache."""
 from __future__ import annotations
 
+import re
+
 from django.core.exceptions import ValidationError
 from django.core.validators import MinValueValidator
 from django.db import models
@@ -33,7 +35,11 @@ class ServicePlan(models.Model):
         help_text="One a line: restoring and testing (the step that removes the locks comes first by itself).",
     )
     tools = models.TextField(blank=True, help_text="One tool per line.")
-    parts = models.TextField(blank=True, help_text="Spare parts used, one name per line (as in the site's stock).")
+    parts = models.TextField(
+        blank=True,
+        help_text="Spare parts used, one a line, named as in the site's parts register: 'Brake pad set' for one, "
+        "'2 x Brake pad set' for more.",
+    )
     readings = models.JSONField(
         default=list, blank=True, help_text='Readings to record: [{"quantity": "brake_pressure_bar", "limit": "..."}]'
     )
@@ -53,6 +59,12 @@ class ServicePlan(models.Model):
     def __str__(self) -> str:
         return self.name
 
+    def clean(self) -> None:
+        try:
+            part_lines(self.parts)
+        except ValueError as exc:
+            raise ValidationError({"parts": str(exc)}) from exc
+
     @property
     def step_groups(self) -> tuple[list[str], list[str], list[str]]:
         """(under power, the work, after the locks are off), each one step a line."""
@@ -66,6 +78,30 @@ class ServicePlan(models.Model):
         """Every step in the order of the work."""
         powered, work, restore = self.step_groups
         return powered + work + restore
+
+
+#: A counted line of a plan's parts: "2 x Brake pad set" (or "2x", "2 ×").
+_COUNTED_PART = re.compile(r"^(?P<quantity>\d+(?:\.\d+)?)\s*[x×]\s+(?P<name>\S.*)$", re.IGNORECASE)
+
+
+def part_lines(text: str) -> list[tuple[str, float]]:
+    """A plan's parts as (name, quantity), one a line: "Brake pad set" is one, "2 x Brake pad set" two.
+
+    Raises ValueError naming the line when its quantity is zero.
+    """
+    parts = []
+    for number, line in enumerate(text.splitlines(), start=1):
+        line = line.strip()
+        counted = _COUNTED_PART.match(line)
+        if counted is None:
+            if line:
+                parts.append((line, 1.0))
+            continue
+        quantity = float(counted["quantity"])
+        if quantity <= 0:
+            raise ValueError(f"line {number} ({line!r}): the quantity must be more than zero")
+        parts.append((counted["name"].strip(), quantity))
+    return parts
 
 
 class Trigger(models.Model):

@@ -9,7 +9,7 @@ manufacturer's figures for your own equipment.
 Steps come in three groups. ``before_isolation`` are done under power before anything is locked out:
 closing the dome, parking or slewing the telescope, opening covers, tests that need the drives or the
 supply live. ``after_isolation`` follow the lockout step that a work order puts after them
-(``workorders.services.steps_with_lockout``): anything touching drives, brakes, electrics or moving parts;
+(``workorders.services.steps_in_groups``): anything touching drives, brakes, electrics or moving parts;
 one that needs an axis or the dome moved says to remove the lock only under the site's lockout procedure.
 ``restore`` starts with the step that removes the locks that way, then whatever is done back in service.
 

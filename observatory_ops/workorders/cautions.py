@@ -54,6 +54,12 @@ HAZARDS_MISSING_ON_PAPER = (
     "Do not start or carry on the work from this sheet: ask the site engineer for one brought up to date."
 )
 
+#: Parts an order's plans name that the site's parts register does not hold (workorders.selectors.parts_unregistered).
+PARTS_UNREGISTERED = (
+    "its service plans name these parts, which the site's parts register does not hold, so none is reserved here "
+    "or counted out of stock: bring them, or ask the site engineer."
+)
+
 #: Where an order's hazards call for isolation but its steps lack the lockout step (it cannot be issued or started).
 LOCKOUT_STEP_MISSING = (
     "This work's hazards call for energy isolation, but none of its steps is the lockout step. Do not start the "

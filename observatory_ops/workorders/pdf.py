@@ -50,7 +50,7 @@ from reportlab.platypus import (
     TableStyle,
 )
 
-from observatory_ops.workorders.cautions import NO_ISOLATION_NEEDED, SEVERITY_LABELS
+from observatory_ops.workorders.cautions import NO_ISOLATION_NEEDED, PARTS_UNREGISTERED, SEVERITY_LABELS
 from observatory_ops.workorders.sheet import Sheet, SheetCaution
 
 PAPER_SIZES: dict[str, tuple[float, float]] = {"A4": A4, "letter": LETTER}
@@ -515,8 +515,11 @@ def _parts_and_tools(sheet: Sheet, width: float) -> list[Flowable]:
         rows = [[_cell(part.name, widths[0]), _cell(part.part_number, widths[1]), f"{part.quantity:g}"]
                 for part in sheet.parts]
         story.append(_ruled_table(("Part", "Part no.", "Qty"), rows, widths))
-    else:
+    elif not sheet.parts_unregistered:
         story.append(_note("No parts listed."))
+    if sheet.parts_unregistered:
+        story.append(_Paragraph(f"<b>Also needed:</b> {_text(PARTS_UNREGISTERED)}", _BULLET, bulletText="!"))
+        story += [_Ticked(_para(line, _ITEM)) for line in sheet.parts_unregistered]
     story.append(_heading("Tools"))
     if sheet.tools:
         story += [_Ticked(_para(tool, _ITEM)) for tool in sheet.tools]

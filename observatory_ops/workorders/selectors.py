@@ -10,7 +10,7 @@ from django.utils import dateformat, timezone
 
 from observatory_ops.archive.history import Change, changes, person
 from observatory_ops.calc import lifting
-from observatory_ops.planning.models import ServicePlan
+from observatory_ops.planning.models import ServicePlan, part_lines
 from observatory_ops.registry import catalogue
 from observatory_ops.registry.models import Site, Subsystem
 
@@ -101,6 +101,21 @@ def hazards_notice(order: WorkOrder, missing: Sequence[str], paper: bool = False
     else:
         todo = HAZARDS_MISSING_BEFORE_START
     return HAZARDS_MISSING_TITLE, hazards_missing_notice(missing), todo
+
+
+def parts_unregistered(order: WorkOrder) -> list[str]:
+    """For an order still to do: the parts its service plans name that the site's parts register does not hold
+    (so none is reserved on the order, nor counted out of stock), as "2 x Brake pad set", each plan's
+    quantities added up; [] otherwise."""
+    if order.state not in TO_DO:
+        return []
+    held = {name.casefold() for name in Part.objects.filter(site=order.site_id).values_list("name", flat=True)}
+    wanted: dict[str, float] = {}
+    for plan in ServicePlan.objects.filter(pk__in=order.items.values("plan_id")).order_by("pk").only("parts"):
+        for name, quantity in part_lines(plan.parts):
+            if name.casefold() not in held:
+                wanted[name] = wanted.get(name, 0.0) + quantity
+    return [f"{quantity:g} x {name}" for name, quantity in wanted.items()]
 
 
 def lockout_step_warning(order: WorkOrder) -> str:
@@ -383,6 +398,7 @@ def sheet(order: WorkOrder, url: str) -> sheet_.Sheet:
         + tuple(p.description for p in points),
         steps=tuple(order.step_list),
         steps_warning=lockout_step_warning(order),
+        parts_unregistered=tuple(parts_unregistered(order)),
         parts=tuple(
             sheet_.SheetPart(u.part.name, u.part.part_number, u.quantity_used or u.quantity_planned)
             for u in order.part_uses.select_related("part")

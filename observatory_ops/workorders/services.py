@@ -22,7 +22,7 @@ from observatory_ops.calc import lifting
 from observatory_ops.logbook.models import Reading, ServiceRecord
 from observatory_ops.logbook.quantities import QUANTITIES, value_problem
 from observatory_ops.planning.metrics import READING
-from observatory_ops.planning.models import ServicePlan
+from observatory_ops.planning.models import ServicePlan, part_lines
 from observatory_ops.planning.services import site_recompute, site_today
 from observatory_ops.registry.catalogue import RELEASE
 from observatory_ops.registry.models import Site, Subsystem
@@ -187,10 +187,16 @@ def work_order_from_due(plans: Sequence[ServicePlan], by, planned_date: dt.date 
                     _require_reading(order, plan.subsystem, trig.quantity, f"{sign} {trig.limit:g}")
             for wanted in plan.readings:
                 _require_reading(order, plan.subsystem, wanted["quantity"], wanted.get("limit", ""))
-            for name in filter(None, (n.strip() for n in plan.parts.splitlines())):
-                part = Part.objects.filter(site=site, name__iexact=name).first()
-                if part is not None and not order.part_uses.filter(part=part).exists():
-                    PartUse.objects.create(work_order=order, part=part, quantity_planned=1)
+        # Parts the site's register holds are reserved on the order, each plan's quantities added up; the others
+        # are named on the order's page and paper (``selectors.parts_unregistered``).
+        register = {part.name.casefold(): part for part in Part.objects.filter(site=site)}
+        planned: Counter[Part] = Counter()
+        for plan in plans:
+            for name, quantity in part_lines(plan.parts):
+                if name.casefold() in register:
+                    planned[register[name.casefold()]] += quantity
+        for part, quantity in planned.items():  # one by one, so the audit trail records each
+            PartUse.objects.create(work_order=order, part=part, quantity_planned=quantity)
     return order
 
 

@@ -110,9 +110,11 @@ class Sheet:
     confirmations: tuple[str, ...] = ()
     hazards_notice: tuple[str, ...] = ()
     steps_warning: str = ""
+    parts_unregistered: tuple[str, ...] = ()  # "2 x Brake pad set": named by the plans, not in the parts register
 
     def __post_init__(self) -> None:
-        for name in ("subsystems", "why", "isolation_points", "steps", "tools", "confirmations", "hazards_notice"):
+        for name in ("subsystems", "why", "isolation_points", "steps", "tools", "confirmations", "hazards_notice",
+                     "parts_unregistered"):
             if isinstance(getattr(self, name), str):
                 raise ValueError(f"{name} must be a sequence of lines, not a single string")
         if not self.number.strip():

@@ -15,7 +15,14 @@ from observatory_ops.registry.catalogue import RELEASE
 from observatory_ops.registry.models import Site
 
 from . import pdf, selectors, services
-from .cautions import HAZARDS, NO_ISOLATION_NEEDED, PRECEDENCE_STATEMENT, cautions_for, needs_isolation
+from .cautions import (
+    HAZARDS,
+    NO_ISOLATION_NEEDED,
+    PARTS_UNREGISTERED,
+    PRECEDENCE_STATEMENT,
+    cautions_for,
+    needs_isolation,
+)
 from .forms import AdHocForm, FinishForm, LiftForm, PartAddForm, WithdrawForm, WorkOrderEditForm
 from .lifecycle import TRANSITIONS, available
 from .models import Part, State, WorkOrder
@@ -97,6 +104,8 @@ def work_order_detail(request, pk):
             "hazards_notice": selectors.hazards_notice(order, missing),
             "can_update_hazards": bool(missing) and editable,
             "lockout_step_warning": selectors.lockout_step_warning(order),
+            "parts_unregistered": selectors.parts_unregistered(order),
+            "parts_unregistered_text": PARTS_UNREGISTERED,
             "items": order.items.select_related("subsystem", "plan"),
             "has_reasons": order.items.exclude(why="").exists(),  # as the printed order says (pdf._why)
             "cautions": selectors.cautions(order),
