@@ -493,7 +493,8 @@ _PHASE_WORK = {
         locked=(
             "Collimate with the alignment laser (laser controlled area posted), adjusting the cell with the "
             "drives locked out.",
-            "Measure reflectance at the marked positions and record a reading per position.",
+            "Measure reflectance at the marked positions; record their mean as the reflectance reading, and each "
+            "position's value in the findings.",
         ),
         after=(
             "Under power, check the collimation on a star and record the result.",

@@ -118,7 +118,9 @@ KINDS: dict[str, Kind] = {
                     hazards=("cryogen", "height", "moving_machinery"),
                     tools=("CO2 snow gun with dry-gas purge", "reflectometer", "head torch", _GAS_MONITOR),
                     parts=("CO2 cylinder for snow cleaning",),
-                    readings=(("reflectance", "record before and after; compare with the mirror page"),),
+                    # One value per reading on the finish form: the one after cleaning, which the mirror's record
+                    # fits; the value before goes in the findings.
+                    readings=(("reflectance", "the mean after cleaning; the mean before in the findings"),),
                     before_isolation=(
                         "Close the dome and park the telescope pointing at the horizon stop.",
                         "Open the mirror cover; let the mirror reach ambient temperature to avoid condensation.",
@@ -126,7 +128,8 @@ KINDS: dict[str, Kind] = {
                     after_isolation=(
                         "Measure reflectance at the marked positions before cleaning.",
                         "Clean with CO2 snow from the centre outward, keeping the nozzle moving.",
-                        "Measure reflectance again at the same positions and record both sets.",
+                        "Measure reflectance again at the same positions: record their mean as the reflectance "
+                        "reading, and both sets of values in the findings.",
                     ),
                     restore=(
                         RELEASE,
