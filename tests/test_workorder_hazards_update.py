@@ -18,7 +18,7 @@ import pytest
 from pypdf import PdfReader
 from test_workorders import drive, order  # noqa: F401  (fixtures, used by name)
 
-from observatory_ops.mirrors.models import Mirror, RecoatPlan
+from observatory_ops.mirrors.models import Mirror
 from observatory_ops.planning.models import ServicePlan
 from observatory_ops.registry.catalogue import RELEASE
 from observatory_ops.registry.services import subsystem_create
@@ -124,22 +124,26 @@ def test_finished_and_withdrawn_orders_show_nothing(order, drive, users, client,
     assert HAZARDS_MISSING_TITLE not in _pdf_text(client, order)
 
 
-def test_orders_of_a_recoat_plan_are_left_out(telescope, users):
-    """mirrors.services gives each recoat phase its own hazards: the coating phase, at the plant, does not take
-    the mirror's (a telescope that can move is not part of it), and the realignment covers the recoat plans only
-    to restart them, not for their chemicals. Their orders do not say which phase they are, so they are not
-    compared with their subsystem."""
+def test_the_recoat_orders_at_the_telescope_are_compared_with_their_mirror_and_the_coating_is_left_out(
+    telescope, users
+):
+    """mirrors.services gives each recoat phase its own hazards besides the mirror's. The coating, away at the
+    plant (``at_telescope`` False), carries its own only: a telescope that can move is not part of it, so
+    nothing the mirror gains is missing from it. The orders at the telescope lack what the mirror gains since;
+    the recoat service plans the realignment covers (to restart them) add nothing of theirs."""
+    from observatory_ops.calc.windows import RECOAT_PHASES
+    from observatory_ops.mirrors import services as mirror_services
+
     primary = subsystem_create(telescope, "primary_mirror", "Primary", counting_from=dt.date(2026, 1, 1))
     mirror = Mirror.objects.create(subsystem=primary, diameter_mm=500, thickness_mm=50, material="borosilicate")
-    coating = WorkOrder.objects.create(site=telescope.site, telescope=telescope, title="Recoat Primary: strip and coat",
-                                       hazards=["suspended_load", "chemical", "vacuum_plant", "optical_surface"],
-                                       created_by=users["engineer"])
-    coating.items.create(subsystem=primary)
-    assert selectors.hazards_missing(coating) == ["moving_machinery"]  # as an order of the due list is compared
-    recoat = RecoatPlan.objects.create(mirror=mirror, starts_on=dt.date(2026, 8, 1), ends_on=dt.date(2026, 8, 10),
-                                       phases=[], cost=0, created_by=users["engineer"])
-    recoat.work_orders.add(coating)
-    assert selectors.hazards_missing(coating) == []
+    plan = mirror_services.recoat_plan_create(mirror, dt.date(2026, 8, 3), list(RECOAT_PHASES), 3.0, users["engineer"])
+    orders = {o.title.split(": ", 1)[1]: o for o in plan.work_orders.all()}
+    assert not orders["strip and coat"].at_telescope
+    assert all(selectors.hazards_missing(o) == [] for o in orders.values())  # the recoat plans' chemicals included
+    _add_hazard(primary, "cryogen")
+    assert selectors.hazards_missing(orders["strip and coat"]) == []
+    for phase in ("removal", "reinstall", "realignment and measurement"):
+        assert selectors.hazards_missing(orders[phase]) == ["cryogen"], phase
 
 
 # --- the page and the paper ------------------------------------------------------------------------------
@@ -150,8 +154,9 @@ def test_the_page_names_the_missing_hazards_and_tells_the_engineer_what_to_do(or
     client.force_login(users["engineer"])
     page = _text(client.get(order.get_absolute_url()))
     assert HAZARDS_MISSING_TITLE in page
-    assert "Its subsystems now carry hazards it was made without: Work at height, Alignment lasers." in page
-    assert "does not carry their safety cautions" in page and HAZARDS_MISSING_BEFORE_START in page
+    assert ("Its subsystems or their service plans now carry hazards it was made without: Work at height, Alignment "
+            "lasers. It does not carry their safety cautions (the controls and the protective equipment)." in page)
+    assert HAZARDS_MISSING_BEFORE_START.format(moves="issued or started") in page
     assert BUTTON in page
     # Above everything of the work, so it is read first.
     assert page.index(HAZARDS_MISSING_TITLE) < page.index("Why this work is due") < page.index("Safety first")
@@ -164,6 +169,19 @@ def test_a_technician_sees_the_notice_without_the_button(order, drive, users, cl
     page = _text(client.get(order.get_absolute_url()))
     assert HAZARDS_MISSING_TITLE in page and "until then it cannot be issued or started." in page
     assert BUTTON not in page
+
+
+def test_an_issued_order_with_its_lockout_step_is_told_only_what_it_lacks(order, drive, users, client):  # noqa: F811
+    """The drive's order already isolates (its lockout step and points): a hazard of stored air added since lacks
+    its cautions, not a lockout step; an issued order can no longer be issued, only started."""
+    services.work_order_move(order, "issue", users["engineer"])
+    assert services.LOCKOUT_STEP in _fresh(order).step_list
+    _add_hazard(drive, "pneumatic")
+    client.force_login(users["technician"])
+    page = _text(client.get(order.get_absolute_url()))
+    assert "It does not carry their safety cautions (the controls and the protective equipment)." in page
+    assert "lockout step their energy calls for" not in page
+    assert "until then it cannot be started." in page and "cannot be issued" not in page
 
 
 def test_a_started_order_has_no_button_and_tells_the_technician_to_stop(order, drive, users, client):  # noqa: F811
@@ -288,7 +306,7 @@ def test_a_newly_needed_lockout_goes_between_the_step_groups_of_an_order_as_its_
     _add_hazard(eyepieces, "electrical")
     client.force_login(users["engineer"])
     page = _text(client.get(made.get_absolute_url()))
-    assert "nor the energy isolation they call for (isolation points and the lockout step)" in page
+    assert "nor the lockout step their energy calls for" in page
     page = _text(client.post(f"/workorders/{made.pk}/hazards/", follow=True))
     assert "The lockout step and the step that removes the locks were put into the steps from its plans." in page
     assert _fresh(made).step_list == [

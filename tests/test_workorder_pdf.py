@@ -105,7 +105,7 @@ def test_cautions_box_prints_before_the_first_step():
 
 NOTICE = (
     "Not up to date: this work order lacks hazards its subsystems now carry",
-    "Its subsystems now carry hazards it was made without: Work at height.",
+    "Its subsystems or their service plans now carry hazards it was made without: Work at height.",
     "Do not start or carry on the work from this sheet: ask the site engineer for one brought up to date.",
 )
 

@@ -587,7 +587,7 @@ def recoat_plan_create(
                     site=subsystem.telescope.site, telescope=subsystem.telescope,
                     title=f"Recoat {subsystem.name}: {phase.name}", planned_date=dates["first"],
                     estimated_hours=8.0 * phase.days, steps=_phase_steps(hazards, work),
-                    tools="\n".join(work.tools), hazards=hazards,
+                    tools="\n".join(work.tools), hazards=hazards, at_telescope=work.at_telescope,
                     lift_inputs=_phase_lift(mirror, work) if "suspended_load" in hazards else None,
                     created_by=by,
                 )

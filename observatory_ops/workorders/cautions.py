@@ -44,14 +44,15 @@ def needs_isolation(hazards: Iterable[str]) -> bool:
 HAZARDS_MISSING_TITLE = "Not up to date: this work order lacks hazards its subsystems now carry"
 HAZARDS_MISSING_BEFORE_START = (
     "Before the work starts, the site engineer brings this work order up to date, which adds them and their "
-    "cautions; until then it cannot be issued or started."
+    "cautions; until then it cannot be {moves}."
 )
 HAZARDS_MISSING_STARTED = (
     "Technicians: stop the work as soon as it is safe to do so, and ask the site engineer before going on. "
     "The engineer withdraws this order and makes a new one, which carries them."
 )
 HAZARDS_MISSING_ON_PAPER = (
-    "Do not start or carry on the work from this sheet: ask the site engineer for one brought up to date."
+    "Do not start the work from this sheet, and if it has started, stop as soon as it is safe to do so: ask the "
+    "site engineer for a work order that carries them."
 )
 
 #: Parts an order's plans name that the site's parts register does not hold (workorders.selectors.parts_unregistered).
@@ -67,15 +68,17 @@ LOCKOUT_STEP_MISSING = (
 )
 
 
-def hazards_missing_notice(hazards: Iterable[str]) -> str:
-    """What an order made without ``hazards`` (hazard codes) lacks, naming them as the cautions do."""
+def hazards_missing_notice(hazards: Iterable[str], lockout_step_missing: bool) -> str:
+    """What an order made without ``hazards`` (hazard codes) lacks, naming them as the cautions do, and the
+    lockout step when its steps lack the one those hazards call for."""
     codes = list(hazards)
     text = (
-        f"Its subsystems now carry hazards it was made without: {', '.join(HAZARDS[code] for code in codes)}. "
-        "It does not carry their safety cautions (the controls and the protective equipment)"
+        "Its subsystems or their service plans now carry hazards it was made without: "
+        f"{', '.join(HAZARDS[code] for code in codes)}. It does not carry their safety cautions (the controls and "
+        "the protective equipment)"
     )
-    if needs_isolation(codes):
-        text += ", nor the energy isolation they call for (isolation points and the lockout step)"
+    if lockout_step_missing:
+        text += ", nor the lockout step their energy calls for"
     return text + "."
 
 

@@ -62,6 +62,11 @@ class WorkOrder(models.Model):
     steps = models.TextField(blank=True, help_text="One step per line.")
     tools = models.TextField(blank=True, help_text="One tool per line.")
     hazards = models.JSONField(default=list, blank=True)
+    at_telescope = models.BooleanField(
+        default=True,
+        help_text="False for work done away from the telescope (a mirror at a coating plant): the order carries "
+        "the work's own hazards, not its subsystems'.",
+    )
     lift_inputs = models.JSONField(
         null=True, blank=True, help_text="Mirror and rigging figures for the lifting numbers (see calc.lifting)."
     )

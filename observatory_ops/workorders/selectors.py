@@ -76,15 +76,17 @@ def hazards_missing(order: WorkOrder) -> list[str]:
     (codes, in the library's order), for an order still to do; [] once it is finished or withdrawn.
 
     An order copies its hazards when it is made, so one added later to a subsystem (in the admin, or by an
-    upgrade that adds catalogue hazards) leaves the orders made before without its cautions. Orders of a recoat
-    plan are left out: ``mirrors.services`` gives each phase its own hazards (the coating phase, away at the
-    plant, does not take the mirror's; the realignment covers the recoat plans only to restart them), and an
-    order does not record which phase it is, so they cannot be compared here.
+    upgrade that adds catalogue hazards) leaves the orders made before without its cautions. Work away from the
+    telescope (``WorkOrder.at_telescope`` False: a mirror at a coating plant) carries its own hazards only, so
+    nothing is compared. The phase orders of a recoat (``mirrors.services``) are compared with their mirror's
+    hazards but not with those of the recoat service plans the realignment covers: it covers them only to
+    restart their counting, and their hazards are the coating's.
     """
-    if order.state not in TO_DO or order.recoat_plans.exists():  # recoat_plans: mirrors.RecoatPlan.work_orders
+    if order.state not in TO_DO or not order.at_telescope:
         return []
     items = list(order.items.select_related("subsystem", "plan"))
-    now = hazards_of([i.subsystem for i in items], [i.plan for i in items if i.plan_id])
+    recoat = order.recoat_plans.exists()  # recoat_plans: mirrors.RecoatPlan.work_orders
+    now = hazards_of([i.subsystem for i in items], [] if recoat else [i.plan for i in items if i.plan_id])
     return [h for h in now if h not in order.hazards]
 
 
@@ -94,13 +96,18 @@ def hazards_notice(order: WorkOrder, missing: Sequence[str], paper: bool = False
     stops and asks; on paper: ask the engineer). () when nothing is missing."""
     if not missing:
         return ()
+    from .services import lockout_missing  # services reads this module
+
     if paper:
         todo = HAZARDS_MISSING_ON_PAPER
     elif order.state == State.UNDERWAY:
         todo = HAZARDS_MISSING_STARTED
     else:
-        todo = HAZARDS_MISSING_BEFORE_START
-    return HAZARDS_MISSING_TITLE, hazards_missing_notice(missing), todo
+        todo = HAZARDS_MISSING_BEFORE_START.format(
+            moves="issued or started" if order.state == State.DRAFT else "started"
+        )
+    lockout = lockout_missing([*order.hazards, *missing], order.step_list)
+    return HAZARDS_MISSING_TITLE, hazards_missing_notice(missing, lockout), todo
 
 
 def parts_unregistered(order: WorkOrder) -> list[str]:
