@@ -66,11 +66,11 @@ def test_removal_leaves_the_telescope_pinned_locked_out_and_out_of_service(order
     assert "keep both axes pinned" in steps[balance] and balance > lowered
     ending = steps[balance + 1 :]
     assert ending, "the removal must end with the telescope left safe, not with the locks off"
-    assert any("do not remove them" in s and "axes pinned" in s for s in ending)
+    kept = ending[_first(ending, "do not take the locks off", "axes pinned")]
+    assert "long-term lock" in kept and "until the reinstall" in kept  # OSHA 29 CFR 1910.147(f)(4)
     tag = ending[_first(ending, "out of service")]
     assert "robotic and remote control" in tag and "until the reinstall" in tag
-    power = ending[_first(ending, "power back")]
-    assert "Leave the drives locked out until the reinstall" in power
+    power = ending[_first(ending, "power back before the reinstall")]
     assert "only as the site's lockout procedure says, with both axes still pinned" in power
     # Nothing hands the telescope back: no step removes the locks, tags or pins during the removal.
     assert not any("remove the locks" in s or "remove the pins" in s for s in steps)
@@ -89,7 +89,7 @@ def test_reinstall_starts_where_the_removal_left_off_and_balances_before_any_pow
     mirror_in = _first(steps, "into the cell")
     cell_in = _first(steps, "raise the cell", "lifting table")
     balance = _first(steps, "restore the axis balance", "drives still locked out")
-    released = _first(steps, "only when both axes are balanced", "remove the pins, the locks and the tags")
+    released = _first(steps, "only when both axes are balanced", "remove the pins, the locks", "long-term locks")
     assert lockout < mirror_in < cell_in < balance < released
     assert "first moves under power" in steps[released]
     assert "out of robotic and remote control until the realignment" in steps[released + 1]
@@ -109,6 +109,17 @@ def test_realignment_removes_the_locks_once_before_its_powered_collimation_check
     star = _first(steps, "under power", "on a star")
     assert lockout < collimate < released < star
     assert sum("remove the locks" in s for s in steps) == 1
+
+
+@pytest.mark.parametrize("phase", ["removal", "reinstall"])
+def test_the_phases_that_may_pause_over_days_off_say_first_how_to_leave_the_work(orders, phase):
+    """Continuity of lockout at shift or personnel changes: OSHA 29 CFR 1910.147(f)(4). A load is never left
+    suspended (common practice, no published source). Said right after the lockout, before any lift."""
+    steps = selectors.sheet(orders[phase], URL).steps
+    stop = steps.index(LOCKOUT_STEP) + 1
+    assert steps[stop].startswith("If the work stops before this order is finished")
+    assert "never left hanging" in steps[stop] and "both axes pinned" in steps[stop]
+    assert "long-term locks" in steps[stop] and "several shifts" in steps[stop]
 
 
 def test_coating_order_carries_the_vacuum_plant_the_lift_and_named_chemicals(orders):

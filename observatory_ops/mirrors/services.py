@@ -379,6 +379,16 @@ _BALANCE_CHECK = (
     "correct the balance until neither axis turns."
 )
 
+# The removal and the reinstall take more than a day and may pause over the crew's days off: the work is left
+# safe at every stop, and the lockout carried over from shift to shift or onto the site's own long-term locks
+# (OSHA 29 CFR 1910.147(f)(4), shift or personnel changes; the site's lockout procedure says how).
+_STOPPING_PART_WAY = (
+    "If the work stops before this order is finished (at the end of a shift, or over the crew's days off), "
+    "leave it safe first: the mirror set down and secured in its crate or in its cell on the lowered lifting "
+    "table, never left hanging; both axes pinned; the locks and tags kept on, handed over from person to person "
+    "or onto the site's long-term locks as its lockout procedure says for work over several shifts."
+)
+
 _PHASE_WORK = {
     "removal": _PhaseWork(
         # The drives and the brake air are locked out: their cautions (an axis out of balance swings when the
@@ -391,6 +401,7 @@ _PHASE_WORK = {
             "another way).",
         ),
         locked=(
+            _STOPPING_PART_WAY,
             "Lock both axes mechanically with their locking pins; fit the mirror-handling fixture.",
             "Set the lifting table (or cart) under the cell, rated for at least the total suspended load in "
             "the lifting figures; a competent person checks the table and any rigging.",
@@ -402,15 +413,15 @@ _PHASE_WORK = {
             "gives, if it gives any, and keep both axes pinned either way.",
         ),
         release=(
-            "When the phase's work is done and everyone is clear, leave both axes pinned and the locks on "
-            "the drives: do not remove them as at the end of other work."
+            "When the phase's work is done and everyone is clear, leave both axes pinned and the drives locked "
+            "out: do not take the locks off as at the end of other work. Replace each person's own lock with the "
+            "site's long-term lock as its lockout procedure says, so the drives stay locked out until the reinstall."
         ),
         after=(
             _OUT_OF_BALANCE_TAG,
-            "Leave the drives locked out until the reinstall. If the site needs power back before then, "
-            "restore it only as the site's lockout procedure says, with both axes still pinned and the "
-            "drives disabled; never release a brake or move an axis until the reinstall restores the "
-            "balance.",
+            "If the site needs power back before the reinstall, restore it only as the site's lockout "
+            "procedure says, with both axes still pinned and the drives disabled; never release a brake or "
+            "move an axis until the reinstall restores the balance.",
         ),
         tools=(
             "Lifting table or cart rated for at least the total suspended load (mirror and cell)",
@@ -462,6 +473,7 @@ _PHASE_WORK = {
             "telescope is out of balance until this order restores the balance.",
         ),
         locked=(
+            _STOPPING_PART_WAY,
             f"Lift the mirror from its crate into the cell with rated slings; set the support pads and clips. "
             f"{_MIRROR_ONLY_LIFT}",
             "Raise the cell on the lifting table into the tube from below and bolt it as the site's "
@@ -471,9 +483,9 @@ _PHASE_WORK = {
             _BALANCE_CHECK,
         ),
         release=(
-            "Only when both axes are balanced and everyone is clear, remove the pins, the locks and the tags "
-            "as the site's lockout procedure says; make the first moves under power slowly, with everyone "
-            "outside the swept volume."
+            "Only when both axes are balanced and everyone is clear, remove the pins, the locks (the site's "
+            "long-term locks from the removal too) and the tags as the site's lockout procedure says; make the "
+            "first moves under power slowly, with everyone outside the swept volume."
         ),
         after=(
             "Keep the observatory out of robotic and remote control until the realignment order is finished.",
