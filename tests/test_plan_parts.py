@@ -33,6 +33,12 @@ def test_a_plans_parts_read_one_a_line_with_an_optional_count(text, parts):
     assert part_lines(text) == parts
 
 
+@pytest.mark.parametrize("line", ["-1 x Brake pad set", "2 x", "1.5.2 x Grease", "0 x Spring kit"])
+def test_a_line_that_starts_as_a_count_but_is_not_one_is_refused_naming_it(line):
+    with pytest.raises(ValueError, match=rf"line 2 \({re.escape(repr(line))}\)"):
+        part_lines(f"Brake pad set\n{line}")
+
+
 def test_a_zero_count_is_refused_on_the_plan_naming_the_line(telescope):
     brake = subsystem_create(telescope, "brake", "Axis 1 brake", counting_from=dt.date(2026, 1, 1))
     plan = brake.plans.first()
@@ -74,13 +80,25 @@ def test_a_part_the_register_lacks_is_named_on_the_page_and_the_paper(brakes, us
     printed = " ".join(" ".join(p.extract_text() for p in PdfReader(io.BytesIO(document)).pages).split())
     assert "Also needed:" in printed and "1 x Spring kit" in printed
     assert printed.index("Parts") < printed.index("1 x Spring kit") < printed.index("Tools")
+    assert "3 each" in printed  # the reserved pads, with the register's unit
 
 
-def test_once_the_register_holds_it_or_the_work_is_done_nothing_is_named(brakes, users, site):
+def test_a_part_planned_beyond_the_stock_on_hand_is_marked_short(brakes, users, client, site):
+    Part.objects.filter(name="brake pad set").update(quantity_on_hand=2)
     order = services.work_order_from_due(_plans(brakes), users["engineer"])
-    Part.objects.create(site=site, name="Spring kit")
+    client.force_login(users["technician"])
+    page = " ".join(html.unescape(re.sub(r"<[^>]+>", " ", client.get(order.get_absolute_url()).content.decode()))
+                    .split())
+    assert "2 (short of the planned 3)" in page
+
+
+def test_a_part_is_named_until_it_is_reserved_on_the_order_or_the_work_is_done(brakes, users, site):
+    order = services.work_order_from_due(_plans(brakes), users["engineer"])
+    springs = Part.objects.create(site=site, name="Spring kit")
+    assert selectors.parts_unregistered(order) == ["1 x Spring kit"]  # in the register now, still not reserved
+    services.part_add(order, springs, 1)
     assert selectors.parts_unregistered(order) == []
-    Part.objects.filter(name="Spring kit").delete()
+    order.part_uses.filter(part=springs).delete()
     order.state = State.WITHDRAWN
     order.save()
     assert selectors.parts_unregistered(order) == []

@@ -80,20 +80,25 @@ class ServicePlan(models.Model):
         return powered + work + restore
 
 
-#: A counted line of a plan's parts: "2 x Brake pad set" (or "2x", "2 ×").
+#: A counted line of a plan's parts: "2 x Brake pad set" (or "2x", "2 ×"); and any line that starts as one.
 _COUNTED_PART = re.compile(r"^(?P<quantity>\d+(?:\.\d+)?)\s*[x×]\s+(?P<name>\S.*)$", re.IGNORECASE)
+_LIKE_A_COUNT = re.compile(r"^[-+]?[\d.]+\s*[x×](\s|$)", re.IGNORECASE)
 
 
 def part_lines(text: str) -> list[tuple[str, float]]:
     """A plan's parts as (name, quantity), one a line: "Brake pad set" is one, "2 x Brake pad set" two.
 
-    Raises ValueError naming the line when its quantity is zero.
+    Raises ValueError naming the line when it starts as a count but is not one ("-1 x Pad", "2 x") or its
+    count is zero.
     """
     parts = []
     for number, line in enumerate(text.splitlines(), start=1):
         line = line.strip()
         counted = _COUNTED_PART.match(line)
         if counted is None:
+            if _LIKE_A_COUNT.match(line):
+                raise ValueError(f"line {number} ({line!r}): write a count as a number above zero, then x, then "
+                                 "the part's name: '2 x Brake pad set'")
             if line:
                 parts.append((line, 1.0))
             continue

@@ -55,10 +55,11 @@ HAZARDS_MISSING_ON_PAPER = (
     "site engineer for a work order that carries them."
 )
 
-#: Parts an order's plans name that the site's parts register does not hold (workorders.selectors.parts_unregistered).
+#: Parts an order's plans name that are not reserved on it (workorders.selectors.parts_unregistered).
 PARTS_UNREGISTERED = (
-    "its service plans name these parts, which the site's parts register does not hold, so none is reserved here "
-    "or counted out of stock: bring them, or ask the site engineer."
+    "its service plans name these parts, which are not reserved on this order (the site's parts register did not "
+    "hold them when it was made), so none is counted out of stock: bring them, or ask the site engineer to add "
+    "them to the order."
 )
 
 #: Where an order's hazards call for isolation but its steps lack the lockout step (it cannot be issued or started).

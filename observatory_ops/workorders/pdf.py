@@ -512,7 +512,7 @@ def _parts_and_tools(sheet: Sheet, width: float) -> list[Flowable]:
     story: list[Flowable] = [_heading("Parts")]
     if sheet.parts:
         widths = [width - 55 * mm, 40 * mm, 15 * mm]
-        rows = [[_cell(part.name, widths[0]), _cell(part.part_number, widths[1]), f"{part.quantity:g}"]
+        rows = [[_cell(part.name, widths[0]), _cell(part.part_number, widths[1]), f"{part.quantity:g} {part.unit}"]
                 for part in sheet.parts]
         story.append(_ruled_table(("Part", "Part no.", "Qty"), rows, widths))
     elif not sheet.parts_unregistered:

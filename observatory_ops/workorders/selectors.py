@@ -111,12 +111,12 @@ def hazards_notice(order: WorkOrder, missing: Sequence[str], paper: bool = False
 
 
 def parts_unregistered(order: WorkOrder) -> list[str]:
-    """For an order still to do: the parts its service plans name that the site's parts register does not hold
-    (so none is reserved on the order, nor counted out of stock), as "2 x Brake pad set", each plan's
-    quantities added up; [] otherwise."""
+    """For an order still to do: the parts its service plans name that are not reserved on it (the site's parts
+    register did not hold them when it was made, and none was added since), as "2 x Brake pad set", each
+    plan's quantities added up; [] otherwise."""
     if order.state not in TO_DO:
         return []
-    held = {name.casefold() for name in Part.objects.filter(site=order.site_id).values_list("name", flat=True)}
+    held = {name.casefold() for name in order.part_uses.values_list("part__name", flat=True)}
     wanted: dict[str, float] = {}
     for plan in ServicePlan.objects.filter(pk__in=order.items.values("plan_id")).order_by("pk").only("parts"):
         for name, quantity in part_lines(plan.parts):
@@ -407,7 +407,7 @@ def sheet(order: WorkOrder, url: str) -> sheet_.Sheet:
         steps_warning=lockout_step_warning(order),
         parts_unregistered=tuple(parts_unregistered(order)),
         parts=tuple(
-            sheet_.SheetPart(u.part.name, u.part.part_number, u.quantity_used or u.quantity_planned)
+            sheet_.SheetPart(u.part.name, u.part.part_number, u.quantity_used or u.quantity_planned, u.part.unit)
             for u in order.part_uses.select_related("part")
         ),
         tools=tuple(order.tool_list),

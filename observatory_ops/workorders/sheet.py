@@ -29,6 +29,7 @@ class SheetPart:
     name: str
     part_number: str
     quantity: float
+    unit: str = "each"
 
     def __post_init__(self) -> None:
         if not math.isfinite(self.quantity) or self.quantity < 0:
