@@ -140,7 +140,7 @@ def test_recoat_plan_makes_work_orders_with_cautions_and_lifting(mirror, users):
 
     steps = removal.steps.splitlines()
     assert steps.index(LOCKOUT_STEP) == 2 and "Point the tube at the zenith" in steps[1]
-    assert "Leave the drives locked out until the reinstall" in steps[-1]
+    assert "power back before the reinstall" in steps[-1] and "both axes still pinned" in steps[-1]
     realign = orders[3].steps.splitlines()
     assert realign.index(LOCKOUT_STEP) < realign.index(next(s for s in realign if s.startswith("Collimate")))
     assert realign[-2].startswith("Under power") and "robotic and remote control" in realign[-1]

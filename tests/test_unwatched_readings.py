@@ -41,8 +41,8 @@ def test_a_reading_no_plan_watches_is_stored_and_said_to_move_no_forecast(site, 
     client.force_login(users["technician"])
     assert _log(client, drive, "temperature_c", "12.5") == [
         (constants.SUCCESS, "Reading logged."),
-        (constants.WARNING, "No service plan of Axis1 drive watches temperature: this reading is stored but does not "
-                            "move any forecast."),
+        (constants.WARNING, "No condition trigger of Axis1 drive's service plans watches temperature: this reading "
+                            "is stored with its history, but it moves no forecast."),
     ]
     assert Reading.objects.get(subsystem=drive).quantity == "temperature_c"
 
@@ -52,8 +52,8 @@ def test_a_quantity_only_asked_for_on_work_orders_moves_no_forecast_either(site,
     client.force_login(users["technician"])
     # The catalogue plan asks for the following error on its work orders but has no condition trigger on it.
     assert _log(client, drive, "following_error_arcsec", "0.4")[-1] == (
-        constants.WARNING, "No service plan of Axis1 drive watches RMS following error: this reading is stored but "
-                           "does not move any forecast."
+        constants.WARNING, "No condition trigger of Axis1 drive's service plans watches RMS following error: this "
+                           "reading is stored with its history, but it moves no forecast."
     )
 
 
@@ -73,8 +73,8 @@ def test_a_trigger_of_an_inactive_plan_watches_nothing(site, users, client):
     assert "settle_time_s" not in selectors.forecast_quantities(drive)
     client.force_login(users["technician"])
     assert _log(client, drive, "settle_time_s", "0.6")[-1] == (
-        constants.WARNING, "No service plan of Axis1 drive watches settle time after a slew: this reading is stored "
-                           "but does not move any forecast."
+        constants.WARNING, "No condition trigger of Axis1 drive's service plans watches settle time after a slew: "
+                           "this reading is stored with its history, but it moves no forecast."
     )
 
 

@@ -88,8 +88,8 @@ def unwatched_reading_note(subsystem: Subsystem, quantity: str) -> str | None:
     label = QUANTITIES[quantity][0]
     if not label[:2].isupper():  # "Motor current" reads "motor current" mid-sentence; "RMS following error" stays
         label = label[:1].lower() + label[1:]
-    return (f"No service plan of {subsystem.name} watches {label}: this reading is stored but does not move any "
-            "forecast.")
+    return (f"No condition trigger of {subsystem.name}'s service plans watches {label}: this reading is stored "
+            "with its history, but it moves no forecast.")
 
 
 def _iso_utc(moment) -> str | None:

@@ -64,7 +64,7 @@ class WorkOrderEditForm(forms.ModelForm):
         if services.lockout_missing(self.instance.hazards, steps):
             raise forms.ValidationError(
                 f"The lockout step is missing, and this order's hazards call for energy isolation. Put this line "
-                f"back where the energy is isolated, after the steps done under power: {services.LOCKOUT_STEP}"
+                f"in where the energy is isolated, after the steps done under power: {services.LOCKOUT_STEP}"
             )
         return "\n".join(steps)
 

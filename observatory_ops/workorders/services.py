@@ -266,7 +266,8 @@ def work_order_move(order: WorkOrder, action: str, by, reason: str = "") -> Work
         named = ", ".join(HAZARDS[h].lower() for h in order.hazards if h in ISOLATION_HAZARDS)
         raise Refused(
             f"{order.number}'s hazards ({named}) call for energy isolation, but none of its steps is the lockout "
-            f"step: an engineer edits the steps and puts this line where the energy is isolated: {LOCKOUT_STEP}"
+            "step: an engineer edits the steps and puts it in where the energy is isolated, after the steps done "
+            "under power (the edit page gives its wording)"
         )
     if action in ("issue", "start") and (missing := hazards_missing(order)):
         # Its cautions, protective equipment and isolation would be missing from the page and the paper.

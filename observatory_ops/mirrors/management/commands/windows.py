@@ -10,8 +10,9 @@ from observatory_ops.planning.management import place
 
 class Command(BaseCommand):
     help = (
-        "The cheapest run of N consecutive nights to lose for downtime (e.g. a recoat), with the next best, "
-        "at a registered site or at a position."
+        "The cheapest run of N consecutive nights to lose for downtime, with the next best, at a registered "
+        "site or at a position. Every day counts as a working day: a recoat's phases on the crew's working "
+        "days are planned on the mirror's recoat planner page."
     )
 
     def add_arguments(self, parser):
@@ -39,6 +40,7 @@ class Command(BaseCommand):
         if o["as_json"]:
             self.stdout.write(json.dumps({"windows": records}, indent=1))
             return
-        self.stdout.write("Cheapest first; cost = expected usable moonless open hours lost.")
+        self.stdout.write("Cheapest first; cost = expected usable moonless open hours lost. N consecutive days, "
+                          "every day a working day (the recoat planner page follows the crew's working days).")
         for r in records:
             self.stdout.write(f"{r['start']} to {r['end']}: {r['cost']:.1f} h")
