@@ -87,7 +87,7 @@ def test_the_balance_check_releases_one_brake_at_a_time_under_the_procedure_not_
     assert not any("draw its pin, and check that it does not turn" in s for s in steps)
     # Three groups kept: powered check, lockout, the locked-out work (balance restored, then checked), release.
     lockout = steps.index(services.LOCKOUT_STEP)
-    released = _first(steps, "only when both axes are balanced", "remove the pins, the locks and the tags")
+    released = _first(steps, "only when both axes are balanced", "remove the pins, the locks")
     assert 0 < lockout < _first(steps, "into the cell") < restored < check < released
     assert "as the removal left it" in steps[0]
 
