@@ -9,7 +9,9 @@ QUANTITIES: dict[str, tuple[str, str]] = {
     "motor_current_a": ("Motor current", "A"),
     "brake_pressure_bar": ("Brake air pressure", "bar"),
     "brake_release_s": ("Brake release time", "s"),
-    "reflectance": ("Reflectance", "fraction"),
+    # Always the mean over the mirror's band: the decline fit takes band means (a value at one wavelength is logged on
+    # the mirror's measurement form, which keeps its wavelength).
+    "reflectance": ("Band reflectance", "fraction"),
     "fan_current_a": ("Fan current", "A"),
     "supply_voltage_v": ("Supply voltage", "V"),
     "ripple_mv": ("Supply ripple", "mV"),
