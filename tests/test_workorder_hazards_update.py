@@ -171,6 +171,14 @@ def test_a_technician_sees_the_notice_without_the_button(order, drive, users, cl
     assert BUTTON not in page
 
 
+def test_the_moves_an_order_behind_its_hazards_cannot_make_are_not_offered(order, drive, users, client):  # noqa: F811
+    client.force_login(users["engineer"])
+    assert "Issue to the technicians" in _text(client.get(order.get_absolute_url()))
+    _add_hazard(drive, "height")
+    page = _text(client.get(order.get_absolute_url()))
+    assert "Issue to the technicians" not in page and "Withdraw" in page
+
+
 def test_an_issued_order_with_its_lockout_step_is_told_only_what_it_lacks(order, drive, users, client):  # noqa: F811
     """The drive's order already isolates (its lockout step and points): a hazard of stored air added since lacks
     its cautions, not a lockout step; an issued order can no longer be issued, only started."""

@@ -121,7 +121,9 @@ def work_order_detail(request, pk):
             "lift": figures,
             "lift_rows": selectors.lift_rows(figures) if figures else [],
             "lift_error": lift_error,
-            "moves": [t for t in available(order.state) if t.action != "finish" and has_role(request.user, t.role)],
+            # An order behind its subsystems' hazards is neither issued nor started (services.work_order_move).
+            "moves": [t for t in available(order.state) if t.action != "finish" and has_role(request.user, t.role)
+                      and not (missing and t.action in ("issue", "start"))],
             "can_finish": order.state == State.UNDERWAY and has_role(request.user, TECHNICIAN),
             "editable": editable,
             "part_form": PartAddForm(site=order.site),
