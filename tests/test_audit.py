@@ -20,7 +20,8 @@ def test_a_page_edit_is_recorded_with_who_and_before_and_after(users, client, si
         f"/admin/registry/site/{site.pk}/change/",
         {"name": "Test Hill Station", "slug": site.slug, "latitude_deg": "40", "longitude_deg": "-3",
          "elevation_m": "800", "time_zone": "Europe/Madrid", "dust_climate": "", "look_ahead_days": "30",
-         "crew_weekdays": ["1", "2", "3", "4", "5"]},
+         "crew_weekdays": ["1", "2", "3", "4", "5"],
+         "crew_days_off-TOTAL_FORMS": "0", "crew_days_off-INITIAL_FORMS": "0"},  # the days-off inline, empty
     )
     assert response.status_code == 302, response.content[:500]
     latest = changes(site)[0]

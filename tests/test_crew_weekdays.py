@@ -274,7 +274,8 @@ def test_a_site_with_bad_crew_weekdays_is_refused_naming_the_field(site, digits:
 
 def _admin_post(client, site, **changes):
     data = {"name": site.name, "slug": site.slug, "latitude_deg": "40", "longitude_deg": "-3", "elevation_m": "800",
-            "time_zone": site.time_zone, "dust_climate": "", "look_ahead_days": "30", **changes}
+            "time_zone": site.time_zone, "dust_climate": "", "look_ahead_days": "30",
+            "crew_days_off-TOTAL_FORMS": "0", "crew_days_off-INITIAL_FORMS": "0", **changes}  # days-off inline, empty
     return client.post(f"/admin/registry/site/{site.pk}/change/", {k: v for k, v in data.items() if v is not None})
 
 

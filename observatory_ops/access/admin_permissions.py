@@ -9,14 +9,17 @@ from __future__ import annotations
 from .roles import ADMINISTRATOR, ENGINEER, TECHNICIAN, VIEWER
 
 _OURS = ("registry", "logbook", "planning", "workorders", "mirrors", "api")
-#: Models an engineer adds and changes in the admin (the register, plans, parts, mirrors). No deletes:
-#: subsystems are retired, records are append-only.
+#: Models an engineer adds and changes in the admin (the register, plans, parts, mirrors). No deletes but
+#: those below: subsystems are retired, records are append-only.
 _ENGINEER_EDITS = {
-    "registry": ("site", "telescope", "subsystem"),
+    "registry": ("site", "telescope", "subsystem", "crewdayoff"),
     "planning": ("serviceplan", "trigger", "bookedrun"),
     "workorders": ("part", "isolationpoint"),
     "mirrors": ("mirror", "coatingevent", "cleaningevent"),
 }
+#: The one thing an engineer deletes: a crew day off listed by mistake or no longer off is a setting, not a
+#: record (its history keeps it all the same).
+_ENGINEER_DELETES = {"registry": ("crewdayoff",)}
 
 
 def role_permissions(role: str, all_permissions) -> list:
@@ -29,6 +32,8 @@ def role_permissions(role: str, all_permissions) -> list:
             p for p in all_permissions
             if p.content_type.model in _ENGINEER_EDITS.get(p.content_type.app_label, ())
             and p.codename.split("_", 1)[0] in ("add", "change")
+            or p.content_type.model in _ENGINEER_DELETES.get(p.content_type.app_label, ())
+            and p.codename.startswith("delete_")
         ]
         return view + edits
     if role == ADMINISTRATOR:

@@ -8,14 +8,16 @@ is the run of consecutive nights with the smallest total cost, found with cumula
 alternatives are the next cheapest runs that do not overlap the ones already chosen.
 
 The work our own crew does at the telescope (removal, reinstall, realignment) is done on the crew's working
-days only: such a phase starts on a working day and pauses over days off, and the telescope stays down
-meanwhile, so a downtime's length, and the nights it loses, depend on the weekday it begins.
+days only: its working weekdays, less any listed day off (a public holiday, a site closure). Such a phase starts
+on a working day and pauses over days off, and the telescope stays down meanwhile, so a downtime's length, and
+the nights it loses, depend on the day it begins.
 """
 
 from __future__ import annotations
 
+import itertools
 import math
-from collections.abc import Iterable
+from collections.abc import Callable, Iterable
 from dataclasses import dataclass
 
 import numpy as np
@@ -246,23 +248,26 @@ class PhaseDays:
     last: int
 
 
-def phase_days(phases: Iterable[Phase], first_weekday: int, crew_days: Iterable[int] = EVERY_DAY) -> list[PhaseDays]:
+def phase_days(
+    phases: Iterable[Phase], first_weekday: int, crew_days: Iterable[int] = EVERY_DAY, *, days_off: Iterable[int] = ()
+) -> list[PhaseDays]:
     """Lay ``phases`` one after another from day 0, each phase our crew does on the crew's working days.
 
     Method
     ------
     Each phase begins the day after the one before it ends. A phase of crew work (:attr:`Phase.needs_crew`)
     begins on the first working day from then and takes ``days`` working days, pausing over days off; any
-    other phase takes ``days`` calendar days. Once the first phase has begun, days off waited through or
-    paused over pass with the telescope still down. Any seven consecutive days hold each weekday once, so a
-    crew phase of ``n`` days with ``k`` working days a week ends ``(n - 1) // k`` whole weeks after its first
-    day plus the days to its last ``(n - 1) % k`` working days.
+    other phase takes ``days`` calendar days. A working day is one of ``crew_days`` that is not in
+    ``days_off``. Once the first phase has begun, days off waited through or paused over pass with the
+    telescope still down. The days are walked one at a time, so any pattern of days off is laid alike.
 
     Parameters
     ----------
     phases : the steps of the job, in order.
     first_weekday : ISO weekday of day 0, 1 (Monday) to 7 (Sunday) (``datetime.date.isoweekday``).
     crew_days : the crew's working days as ISO weekday numbers (:func:`crew_weekdays_from`).
+    days_off : whole days the crew is off besides the weekdays outside ``crew_days`` (public holidays, site
+        closures), as day numbers counted from day 0, each at least 0.
 
     Returns
     -------
@@ -272,27 +277,119 @@ def phase_days(phases: Iterable[Phase], first_weekday: int, crew_days: Iterable[
     ------
     ValueError
         When a phase's days are not a whole number of at least 0 or all phases add up to none
-        (:func:`total_days`), ``first_weekday`` is not 1..7, or ``crew_days`` is empty or holds a number
-        outside 1..7.
+        (:func:`total_days`), ``first_weekday`` is not 1..7, ``crew_days`` is empty or holds a number
+        outside 1..7, or a day off is not a whole number of at least 0.
     """
     listed = list(phases)
     total_days(listed)
+    return _laid(listed, 0, _crew_calendar(first_weekday, crew_days, days_off))
+
+
+def cheapest_crew_windows(
+    cost: ArrayLike,
+    phases: Iterable[Phase],
+    first_weekday: int,
+    crew_days: Iterable[int] = EVERY_DAY,
+    alternatives: int = 3,
+    *,
+    days_off: Iterable[int] = (),
+) -> list[Window]:
+    """The cheapest downtime for ``phases`` done on the crew's working days, then up to ``alternatives`` more.
+
+    Method
+    ------
+    The phases are laid (:func:`phase_days`) from every night ``i`` of the horizon, giving the downtime's
+    length ``L_i``; no window begins on a night where the first phase would wait for the crew (the window
+    begun on the day the crew comes is that one). The cost of the window begun on night ``i`` is
+    ``C[i + L_i] - C[i]`` from one cumulative sum, as in :func:`cheapest_windows`: the nights of days off
+    inside the downtime, weekly or listed, are lost too and count in it. Alternatives are chosen as there:
+    greedily, cheapest first, each overlapping none chosen before it. With every day a working day, or no
+    crew phase, every length is :func:`total_days` and the result is that of :func:`cheapest_windows`.
+
+    Parameters
+    ----------
+    cost : cost per night, >= 0, ``inf`` for a blocked night (:func:`night_cost`).
+    phases : the steps of the job, in order (:data:`RECOAT_PHASES`).
+    first_weekday : ISO weekday of night 0 of ``cost``, 1 (Monday) to 7 (Sunday).
+    crew_days : the crew's working days as ISO weekday numbers (:func:`crew_weekdays_from`).
+    alternatives : how many further windows to offer besides the cheapest, >= 0.
+    days_off : whole days the crew is off besides the weekdays outside ``crew_days`` (public holidays, site
+        closures), as night numbers of ``cost`` (0 is its first night), each at least 0.
+
+    Returns
+    -------
+    list of Window, the cheapest first; a window's ``days`` are the nights it loses, days off included.
+
+    Raises
+    ------
+    ValueError
+        On bad costs as :func:`cheapest_windows`, bad phases, weekday, crew days or days off as
+        :func:`phase_days`, a negative ``alternatives``, an empty horizon, when no downtime begun with the crew
+        in the horizon ends within it, or when every window contains a blocked night.
+    """
+    per_night = _costs(cost)
+    _check_whole("number of alternatives", alternatives, 0)
+    listed = list(phases)
+    total_days(listed)
+    works = _crew_calendar(first_weekday, crew_days, days_off)
+    if per_night.size == 0:
+        raise ValueError("the horizon holds no nights: give the cost of at least one night")
+    lengths = np.zeros(per_night.size, dtype=np.int64)  # 0: no window begins on that night
+    spans = []  # each start's downtime from the day the work begins, for the message below
+    for start in range(per_night.size):
+        laid = [p for p in _laid(listed, start, works) if p.phase.days]
+        begins, ends = laid[0].first, laid[-1].last + 1
+        spans.append(ends - begins)
+        if begins == start:
+            lengths[start] = ends - start
+    shortest = min(spans)
+    if shortest > per_night.size:
+        raise ValueError(f"the phases take at least {shortest} days on the crew's working days, longer than the "
+                         f"horizon of {per_night.size} days")
+    if not np.any((lengths > 0) & (np.arange(per_night.size) + lengths <= per_night.size)):
+        raise ValueError(f"the phases take at least {shortest} days on the crew's working days, and every such "
+                         f"downtime begun in the horizon runs longer than the horizon of {per_night.size} days "
+                         "allows: lengthen the horizon")
+    chosen = _cheapest(per_night, lengths, alternatives)
+    if not chosen:
+        raise ValueError(
+            "every window for these phases contains a blocked night (a booked observing run): shorten a phase, "
+            "lengthen the horizon or give booked nights a finite weight"
+        )
+    return chosen
+
+
+def _crew_calendar(first_weekday: int, crew_days: Iterable[int], days_off: Iterable[int]) -> Callable[[int], bool]:
+    """Whether the crew works on day ``d`` (counted from day 0, an ISO ``first_weekday``): one of ``crew_days``
+    and not in ``days_off``. Checks the three as :func:`phase_days` says."""
     _check_weekday(first_weekday)
     working = frozenset(crew_days)
     if not working or not working <= EVERY_DAY:
         raise ValueError(
             f"crew weekdays must be one or more ISO weekdays 1 (Monday) to 7 (Sunday), not {sorted(working)}"
         )
+    listed_off = list(days_off)
+    for day in listed_off:
+        _check_whole("a day off (counted from day 0)", day, 0)
+    off = frozenset(listed_off)
 
     def works(day: int) -> bool:
-        return (first_weekday - 1 + day) % 7 + 1 in working
+        return (first_weekday - 1 + day) % 7 + 1 in working and day not in off
 
-    laid, day = [], 0
-    for phase in listed:
+    return works
+
+
+def _laid(phases: list[Phase], start: int, works: Callable[[int], bool]) -> list[PhaseDays]:
+    """The phases laid as :func:`phase_days` says, the first one from day ``start``, in the day numbers of ``works``.
+
+    A crew phase finds its first working day: the crew works on at least one weekday and has finitely many
+    days off, so it comes.
+    """
+    laid, day = [], start
+    for phase in phases:
         if phase.days and phase.needs_crew:
-            first = next(d for d in range(day, day + 7) if works(d))
-            weeks, rest = divmod(phase.days - 1, len(working))
-            last = first + 7 * weeks
+            first = next(d for d in itertools.count(day) if works(d))
+            last, rest = first, phase.days - 1
             while rest:
                 last += 1
                 if works(last):
@@ -302,67 +399,6 @@ def phase_days(phases: Iterable[Phase], first_weekday: int, crew_days: Iterable[
         laid.append(PhaseDays(phase, first, last))
         day = last + 1
     return laid
-
-
-def cheapest_crew_windows(
-    cost: ArrayLike,
-    phases: Iterable[Phase],
-    first_weekday: int,
-    crew_days: Iterable[int] = EVERY_DAY,
-    alternatives: int = 3,
-) -> list[Window]:
-    """The cheapest downtime for ``phases`` done on the crew's working days, then up to ``alternatives`` more.
-
-    Method
-    ------
-    Where the phases fall (:func:`phase_days`) depends only on the weekday the work begins, so there are
-    seven downtime lengths ``L``, one per weekday; no window begins on a weekday where the first phase
-    would wait for the crew (the window begun on the day the crew comes is that one). The cost of the window
-    begun on night ``i`` is ``C[i + L_i] - C[i]`` from one cumulative sum, as in :func:`cheapest_windows`:
-    the nights of days off inside the downtime are lost too and count in it. Alternatives are chosen as
-    there: greedily, cheapest first, each overlapping none chosen before it. With every day a working day,
-    or no crew phase, every length is :func:`total_days` and the result is that of :func:`cheapest_windows`.
-
-    Parameters
-    ----------
-    cost : cost per night, >= 0, ``inf`` for a blocked night (:func:`night_cost`).
-    phases : the steps of the job, in order (:data:`RECOAT_PHASES`).
-    first_weekday : ISO weekday of night 0 of ``cost``, 1 (Monday) to 7 (Sunday).
-    crew_days : the crew's working days as ISO weekday numbers (:func:`crew_weekdays_from`).
-    alternatives : how many further windows to offer besides the cheapest, >= 0.
-
-    Returns
-    -------
-    list of Window, the cheapest first; a window's ``days`` are the nights it loses, days off included.
-
-    Raises
-    ------
-    ValueError
-        On bad costs as :func:`cheapest_windows`, bad phases, weekday or crew days as :func:`phase_days`, a
-        negative ``alternatives``, when even the shortest downtime is longer than the horizon, or when every
-        window contains a blocked night.
-    """
-    per_night = _costs(cost)
-    _check_whole("number of alternatives", alternatives, 0)
-    _check_weekday(first_weekday)
-    listed, working = list(phases), frozenset(crew_days)
-    by_weekday = np.zeros(7, dtype=np.int64)  # 0: no window begins on that weekday
-    for weekday in range(1, 8):
-        laid = [p for p in phase_days(listed, weekday, working) if p.phase.days]
-        if laid[0].first == 0:
-            by_weekday[weekday - 1] = laid[-1].last + 1
-    shortest = int(by_weekday[by_weekday > 0].min())
-    if shortest > per_night.size:
-        raise ValueError(f"the phases take at least {shortest} days on the crew's working days, longer than the "
-                         f"horizon of {per_night.size} days")
-    lengths = by_weekday[(first_weekday - 1 + np.arange(per_night.size)) % 7]
-    chosen = _cheapest(per_night, lengths, alternatives)
-    if not chosen:
-        raise ValueError(
-            "every window for these phases contains a blocked night (a booked observing run): shorten a phase, "
-            "lengthen the horizon or give booked nights a finite weight"
-        )
-    return chosen
 
 
 def _cheapest(per_night: NDArray[np.float64], lengths: NDArray[np.int64], alternatives: int) -> list[Window]:

@@ -8,6 +8,7 @@ from __future__ import annotations
 import datetime as dt
 import functools
 import math
+from collections.abc import Iterable, Mapping
 from dataclasses import dataclass, field
 from typing import NamedTuple
 
@@ -32,6 +33,7 @@ from observatory_ops.planning.services import (
 )
 from observatory_ops.registry.catalogue import KINDS, RELEASE
 from observatory_ops.registry.models import Site, Subsystem
+from observatory_ops.registry.selectors import crew_days_off
 from observatory_ops.workorders.cautions import HAZARDS
 from observatory_ops.workorders.models import RequiredReading, State, WorkOrder, WorkOrderItem
 from observatory_ops.workorders.services import steps_in_groups
@@ -263,27 +265,40 @@ def best_windows(first_night: dt.date, cost: np.ndarray, days: int, alternatives
 
 def crew_windows(
     first_night: dt.date, cost: np.ndarray, phases: list[windows.Phase], crew_days: frozenset[int],
-    alternatives: int = 3,
+    days_off: Mapping[dt.date, str], alternatives: int = 3,
 ) -> list[dict]:
-    """The cheapest windows for ``phases`` with the crew working ``crew_days`` (``calc.windows.cheapest_crew_windows``),
-    cheapest first, each with its start and end dates and its phases' dates (``phase_dates``)."""
-    found = windows.cheapest_crew_windows(cost, phases, first_night.isoweekday(), crew_days, alternatives)
+    """The cheapest windows for ``phases`` with the crew working ``crew_days`` and off on ``days_off`` (date ->
+    note) (``calc.windows.cheapest_crew_windows``), cheapest first, each with its start and end dates, its phases'
+    dates (``phase_dates``) and the days off inside it as (date, note) pairs."""
+    found = windows.cheapest_crew_windows(cost, phases, first_night.isoweekday(), crew_days, alternatives,
+                                          days_off=_day_numbers(first_night, days_off))
+    dated = [_dated(first_night, w) for w in found]
     return [
-        {**_dated(first_night, w),
-         "phases": phase_dates(first_night + dt.timedelta(days=w.start_index), phases, crew_days)}
-        for w in found
+        {**w, "phases": phase_dates(w["start"], phases, crew_days, days_off),
+         "days_off": [(day, days_off[day]) for day in sorted(days_off) if w["start"] <= day <= w["end"]]}
+        for w in dated
     ]
 
 
-def phase_dates(starts_on: dt.date, phases: list[windows.Phase], crew_days: frozenset[int]) -> list[dict]:
+def phase_dates(
+    starts_on: dt.date, phases: list[windows.Phase], crew_days: frozenset[int], days_off: Iterable[dt.date]
+) -> list[dict]:
     """The first and last date of each phase that takes days, for work that may begin on ``starts_on``: a phase of
-    crew work on the crew's working days (``calc.windows.phase_days``), so it may begin later and pause over days off.
+    crew work on the crew's working days, less ``days_off`` (``calc.windows.phase_days``), so it may begin later
+    and pause over days off.
     """
     return [
         {"phase": laid.phase, "first": starts_on + dt.timedelta(days=laid.first),
          "last": starts_on + dt.timedelta(days=laid.last)}
-        for laid in windows.phase_days(phases, starts_on.isoweekday(), crew_days) if laid.phase.days
+        for laid in windows.phase_days(phases, starts_on.isoweekday(), crew_days,
+                                       days_off=_day_numbers(starts_on, days_off))
+        if laid.phase.days
     ]
+
+
+def _day_numbers(first: dt.date, days: Iterable[dt.date]) -> list[int]:
+    """``days`` from ``first`` on as day numbers counted from it (``first`` is day 0), as calc.windows takes them."""
+    return [(day - first).days for day in days if day >= first]
 
 
 def default_horizon_days(mirror: Mirror, today: dt.date) -> int:
@@ -295,14 +310,16 @@ def default_horizon_days(mirror: Mirror, today: dt.date) -> int:
 def recoat_windows(mirror: Mirror, start: dt.date, horizon_days: int, phases: list[windows.Phase]) -> dict:
     """The cheapest windows for a recoat of these phases, and each coming night's cost for the calendar.
 
-    The phases at the telescope are laid on the site's crew working days (``crew_windows``), so a window may
-    hold more nights than the phases' days. The calendar's ``shade`` is the night's cost relative to the
-    costliest night in the horizon (0..1); ``chosen`` marks the nights of the cheapest window.
+    The phases at the telescope are laid on the site's crew working days, less its crew days off in the horizon
+    (``crew_windows``), so a window may hold more nights than the phases' days. The calendar's ``shade`` is the
+    night's cost relative to the costliest night in the horizon (0..1); ``chosen`` marks the nights of the
+    cheapest window; ``days_off`` are the site's crew days off in the horizon, date -> note.
     """
     days = windows.total_days(phases)
     site = mirror.subsystem.telescope.site
     costs = night_costs(site, start, horizon_days)
-    found = crew_windows(costs[0].night, np.array([c.cost for c in costs]), phases, site.crew_days)
+    days_off = crew_days_off(site, costs[0].night, costs[-1].night)
+    found = crew_windows(costs[0].night, np.array([c.cost for c in costs]), phases, site.crew_days, days_off)
     chosen = {found[0]["start"] + dt.timedelta(days=i) for i in range(found[0]["nights"])} if found else set()
     worst = max((c.cost for c in costs if np.isfinite(c.cost)), default=1.0) or 1.0
     calendar = [
@@ -319,7 +336,7 @@ def recoat_windows(mirror: Mirror, start: dt.date, horizon_days: int, phases: li
     for title, night in booked:
         runs.setdefault(title, [night, night])[1] = night
     return {"windows": found, "days": days, "calendar": calendar, "lead_blanks": range(lead),
-            "booked_runs": [(title, span[0], span[1]) for title, span in runs.items()]}
+            "booked_runs": [(title, span[0], span[1]) for title, span in runs.items()], "days_off": days_off}
 
 
 # --- recoat plans -----------------------------------------------------------------------------------
@@ -558,14 +575,16 @@ def recoat_plan_create(
 ) -> RecoatPlan:
     """Turn a chosen window into a recoat plan and one draft work order per hands-on phase; recompute.
 
-    ``starts_on`` is the first day the work may begin. The phases are laid on the site's crew working days
-    (``phase_dates``): each order is dated on its phase's first day, a crew phase's on a working day, and the plan
-    runs from the first phase's first day to the last one's last day (a window from ``recoat_windows`` begins
-    with its first phase). The realignment order asks for a band reflectance reading of the new coating, and it
-    carries the mirror's recoat service plans (``recoat_plans``, if any), so finishing it restarts their counting.
+    ``starts_on`` is the first day the work may begin. The phases are laid on the site's crew working days, less
+    its crew days off (``phase_dates``): each order is dated on its phase's first day, a crew phase's on a working
+    day, and the plan runs from the first phase's first day to the last one's last day (a window from
+    ``recoat_windows`` begins with its first phase). The realignment order asks for a band reflectance reading of
+    the new coating, and it carries the mirror's recoat service plans (``recoat_plans``, if any), so finishing it
+    restarts their counting.
     """
     subsystem = mirror.subsystem
-    laid = phase_dates(starts_on, phases, subsystem.telescope.site.crew_days)
+    site = subsystem.telescope.site
+    laid = phase_dates(starts_on, phases, site.crew_days, crew_days_off(site, starts_on))
     starts_on, ends_on = laid[0]["first"], laid[-1]["last"]
     realignment_plans = recoat_plans(subsystem) or [None]
     why = recoat_reason(mirror_forecast(mirror), starts_on, ends_on)

@@ -6,13 +6,23 @@ from observatory_ops.planning.services import plans_from_catalogue, site_today
 from observatory_ops.workorders.cautions import HAZARDS
 
 from .catalogue import kind as catalogue_kind
-from .forms import SiteAdminForm, SubsystemAdminForm
-from .models import Site, Subsystem, Telescope
+from .forms import CrewDaysOffFormSet, SiteAdminForm, SubsystemAdminForm
+from .models import CrewDayOff, Site, Subsystem, Telescope
+
+
+class CrewDayOffInline(admin.TabularInline):
+    """Public holidays and other whole days the crew is off, listed with the site's working weekdays."""
+
+    model = CrewDayOff
+    formset = CrewDaysOffFormSet
+    fields = ("date", "note")
+    extra = 1
 
 
 @admin.register(Site)
 class SiteAdmin(SimpleHistoryAdmin):
     form = SiteAdminForm
+    inlines = [CrewDayOffInline]
     list_display = ("name", "slug", "latitude_deg", "longitude_deg", "elevation_m", "time_zone")
     prepopulated_fields = {"slug": ("name",)}
 

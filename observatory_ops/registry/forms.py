@@ -1,5 +1,7 @@
 """Form fields the register's admin pages share."""
 from django import forms
+from django.core.exceptions import ValidationError
+from django.forms.models import BaseInlineFormSet
 
 from observatory_ops.calc.windows import WEEKDAY_NAMES
 from observatory_ops.workorders.cautions import HAZARDS
@@ -47,3 +49,19 @@ class SiteAdminForm(forms.ModelForm):
         "(removal, reinstall, realignment) on these days and pauses them over the others; the telescope stays down "
         "meanwhile, so those nights count in a window's cost."
     )
+
+
+class CrewDaysOffFormSet(BaseInlineFormSet):
+    """The site's crew days off as rows: a date given on two rows is refused naming it (the model's own check,
+    ``CrewDayOff.clean``, sees only dates already stored)."""
+
+    def clean(self) -> None:
+        dates = [form.cleaned_data["date"] for form in self.forms
+                 if form.cleaned_data.get("date") and not self._should_delete_form(form)]
+        twice = sorted({day for day in dates if dates.count(day) > 1})
+        if twice:
+            raise ValidationError(
+                f"Crew days off: {', '.join(f'{day:%a %d %b %Y}' for day in twice)} given on more than one row: "
+                "give each date once."
+            )
+        super().clean()

@@ -90,6 +90,34 @@ class Site(models.Model):
         return windows.weekdays_text(self.crew_days)
 
 
+class CrewDayOff(models.Model):
+    """A whole day the site's maintenance crew is off besides its weekly days off (a public holiday, a site
+    closure): the recoat planner neither starts nor works a phase at the telescope on it."""
+
+    history = HistoricalRecords()  # who changed what, when: see observatory_ops/archive
+    site = models.ForeignKey(Site, on_delete=models.CASCADE, related_name="crew_days_off")
+    date = models.DateField(
+        help_text="A day the crew is off besides the weekdays not ticked above; the recoat planner pauses work at "
+        "the telescope over it, with the telescope down, so its night counts in a window's cost."
+    )
+    note = models.CharField(max_length=120, blank=True, help_text="Why, e.g. public holiday.")
+
+    class Meta:
+        ordering = ["site", "date"]
+        constraints = [models.UniqueConstraint(fields=["site", "date"], name="one_crew_day_off_per_site_date")]
+        verbose_name = "crew day off"
+        verbose_name_plural = "crew days off"
+
+    def __str__(self) -> str:
+        return f"{self.date:%a %d %b %Y}" + (f" ({self.note})" if self.note else "")
+
+    def clean(self) -> None:
+        stored = CrewDayOff.objects.filter(site=self.site_id, date=self.date).exclude(pk=self.pk)
+        if self.site_id and self.date and stored.exists():
+            raise ValidationError({"date": f"{self.date:%a %d %b %Y} is already listed among this site's crew days "
+                                           "off: give each date once."})
+
+
 class Telescope(models.Model):
     history = HistoricalRecords()  # who changed what, when: see observatory_ops/archive
     class Mount(models.TextChoices):
