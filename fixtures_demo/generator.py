@@ -127,6 +127,7 @@ def build(today: dt.date | None = None) -> tuple[Site, bool]:
         _service_history(site, subsystems, users, today, rng)
         _workshop(site, (t70, r40))
         _mirrors(site, subsystems, users["technician"], today, rng)
+        _repairs(site, subsystems, users, start)
         planning.site_recompute(site, today)
         _work_orders(site, users, today)
     return site, True
@@ -301,6 +302,52 @@ def _mirrors(site, subsystems, technician, today: dt.date, rng: np.random.Genera
         site=site, title="Comet photometry campaign", starts_on=today + dt.timedelta(days=40),
         ends_on=today + dt.timedelta(days=58), blocked=True,
     )
+
+
+# Past faults, each repaired on a corrective work order: (telescope, subsystem, days after the log starts,
+# hours the repair took, title, findings). Invented: the fans wear out at a steady pace, the encoders and a
+# servo drive fail now and then.
+_REPAIRS = (
+    ("T70", "Mirror cell fans", 180, 2.5, "Cell fan 3 stopped", "Bearing seized; fan replaced."),
+    ("T70", "Mirror cell fans", 520, 2.0, "Cell fan 1 noisy and slow", "Bearing worn; fan replaced."),
+    ("T70", "Mirror cell fans", 700, 3.0, "Cell fans tripping the breaker", "Fan 2 winding shorted; replaced."),
+    ("T70", "Mirror cell fans", 1010, 2.0, "Cell fan 4 stopped", "Bearing seized; fan replaced."),
+    ("R40", "Mirror cell fans", 330, 1.5, "Cell fan not turning", "Bearing seized; fan replaced."),
+    ("R40", "Mirror cell fans", 560, 1.5, "Cell fan rattling", "Blade cracked at the hub; fan replaced."),
+    ("R40", "Mirror cell fans", 940, 2.0, "Cell fan stalls when cold", "Bearing grease hardened; fan replaced."),
+    ("T70", "Axis 1 encoder", 412, 4.0, "Axis 1 position jumps", "Read head dirty; scale and head cleaned, "
+     "head realigned."),
+    ("T70", "Axis 1 encoder", 877, 5.5, "Axis 1 encoder errors on slews", "Read-head cable chafed at the wrap; "
+     "cable replaced."),
+    ("R40", "Axis 2 encoder", 648, 3.0, "Axis 2 lost its index", "Index mark contaminated; scale cleaned."),
+    ("R40", "Servo drives", 152, 6.0, "Axis 1 amplifier fault at power-up", "Amplifier replaced from spares, "
+     "loop re-tuned."),
+)
+
+
+def _repairs(site, subsystems, users, start: dt.date) -> None:
+    """Finished and countersigned corrective work orders for the faults above, each with its service record."""
+    from observatory_ops.workorders import services as workorders
+    from observatory_ops.workorders.models import State
+
+    engineer, technician = users["engineer"], users["technician"]
+    for telescope, name, days, hours, title, findings in _REPAIRS:
+        subsystem = subsystems[(telescope, name)]
+        day = start + dt.timedelta(days=days)
+        order = workorders.work_order_ad_hoc(site, [subsystem], title, engineer)
+        reported = timezone.make_aware(dt.datetime.combine(day, dt.time(9, 0)), site.zone)
+        order.created_at = order.issued_at = reported
+        order.started_at = reported + dt.timedelta(hours=1)
+        order.finished_at = order.started_at + dt.timedelta(hours=hours)
+        order.countersigned_at = order.finished_at + dt.timedelta(hours=2)
+        order.state, order.actual_hours, order.findings = State.COUNTERSIGNED, hours, findings
+        order.assignee = order.finished_by = technician
+        order.countersigned_by = engineer
+        order.save()
+        ServiceRecord.objects.create(
+            subsystem=subsystem, performed_on=day, performed_by=technician, hours_spent=hours, summary=title,
+            findings=findings, work_order=order, created_by=technician,
+        )
 
 
 def _work_orders(site, users, today: dt.date) -> None:

@@ -43,8 +43,9 @@ class Chart:
             f"{escape(words)}</text>"
         )
 
-    def axes(self, y_format: str = ",.4g", x_label: str = "") -> None:
-        for i in range(5):
+    def axes(self, y_format: str | None = ",.4g", x_label: str = "") -> None:
+        """Five labels on each axis; ``y_format=None`` leaves the y axis unlabelled (rows labelled in the plot)."""
+        for i in range(5 if y_format else 0):
             value = self.y_low + (self.y_high - self.y_low) * i / 4
             self.text(self.left - 6, self.y(value) + 4, format(value, y_format), "end", MUTED)
         low, high = self._number(self.x_low), self._number(self.x_high)

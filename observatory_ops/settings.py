@@ -63,6 +63,7 @@ INSTALLED_APPS = [
     "observatory_ops.planning",
     "observatory_ops.workorders",
     "observatory_ops.mirrors",
+    "observatory_ops.reliability",
     "observatory_ops.api",
     "observatory_ops.archive",
 ]

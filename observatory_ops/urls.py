@@ -16,6 +16,7 @@ urlpatterns = [
     path("", include("observatory_ops.planning.urls")),
     path("", include("observatory_ops.workorders.urls")),
     path("", include("observatory_ops.mirrors.urls")),
+    path("", include("observatory_ops.reliability.urls")),
     path("", include("observatory_ops.api.urls")),
     path("", include("observatory_ops.archive.urls")),
 ]

@@ -1,0 +1,146 @@
+"""Reliability: MTBF with its chi-square interval and the censored Weibull fit (no database)."""
+from __future__ import annotations
+
+import numpy as np
+import pytest
+from hypothesis import given, settings
+from hypothesis import strategies as st
+from lifelines import WeibullFitter
+from scipy import stats
+
+from observatory_ops.calc.reliability import (
+    INFANT_MORTALITY,
+    RANDOM,
+    WEAR_OUT,
+    beta_reading,
+    mtbf,
+    times_between_failures,
+    weibull_fit,
+)
+
+
+def test_mtbf_bounds_match_the_chi_square_table_for_two_failures_in_1000_hours():
+    # Time-terminated, two-sided 90 %: lower 2T/chi2(0.95; 2n+2), upper 2T/chi2(0.05; 2n) (NIST/SEMATECH
+    # e-Handbook, chapter 8, exponential confidence bounds). Chi-square critical values from the standard
+    # table (NIST/SEMATECH e-Handbook 1.3.6.7.4): 12.592 for 6 degrees of freedom at upper-tail 0.05,
+    # 0.711 for 4 degrees of freedom at lower-tail 0.05.
+    estimate = mtbf(1000.0, 2)
+    assert estimate.mtbf_hours == 500.0
+    assert estimate.lower_hours == pytest.approx(2000 / 12.592, rel=1e-4)
+    assert estimate.upper_hours == pytest.approx(2000 / 0.711, rel=1e-3)
+
+
+def test_mtbf_bounds_equal_a_hand_computation_with_scipy_chi2():
+    # Hand computation with scipy.stats.chi2 quantiles, 7 failures in 5,400 hours.
+    estimate = mtbf(5400.0, 7)
+    assert estimate.lower_hours == pytest.approx(2 * 5400 / stats.chi2.ppf(0.95, 16))
+    assert estimate.upper_hours == pytest.approx(2 * 5400 / stats.chi2.ppf(0.05, 14))
+
+
+def test_no_failure_gives_only_a_lower_bound():
+    # n = 0: 2T/chi2(0.95; 2) = 2T/5.991 (the same table), i.e. T / ln 20; no estimate, no upper bound.
+    estimate = mtbf(3000.0, 0)
+    assert estimate.mtbf_hours is None and estimate.upper_hours is None
+    assert estimate.lower_hours == pytest.approx(6000 / 5.991, rel=1e-4)
+    assert estimate.lower_hours == pytest.approx(3000 / np.log(20))
+
+
+@pytest.mark.parametrize("hours, failures", [(-1.0, 2), (100.0, -1), (100.0, 1.5)])
+def test_mtbf_refuses_negative_hours_and_broken_counts(hours, failures):
+    with pytest.raises(ValueError, match="operating hours|number of failures"):
+        mtbf(hours, failures)
+
+
+@settings(max_examples=80, deadline=None)
+@given(hours=st.floats(1.0, 1e6), failures=st.integers(1, 500))
+def test_the_interval_brackets_the_point_estimate_and_narrows_with_more_failures(hours, failures):
+    estimate = mtbf(hours, failures)
+    assert estimate.lower_hours < estimate.mtbf_hours < estimate.upper_hours
+    # Same MTBF, ten times the record: a relatively narrower interval.
+    longer = mtbf(hours * 10, failures * 10)
+    assert longer.upper_hours / longer.lower_hours < estimate.upper_hours / estimate.lower_hours
+
+
+# Invented times between failures (operating hours) and running intervals.
+FAILURES = [410.0, 655.0, 980.0, 1210.0, 1302.0, 1530.0, 1775.0, 2210.0]
+CENSORED = [300.0, 1400.0, 2500.0, 90.0]
+
+
+def test_weibull_fit_agrees_with_lifelines_on_the_same_censored_data():
+    # Independent reference: lifelines.WeibullFitter (maximum likelihood by gradient optimisation; its
+    # rho_ is the shape, lambda_ the scale). Agreement within 1e-5 relative, far inside the fit's own
+    # uncertainty.
+    fit = weibull_fit(FAILURES, CENSORED)
+    reference = WeibullFitter().fit(FAILURES + CENSORED, event_observed=[1] * len(FAILURES) + [0] * len(CENSORED))
+    assert fit.beta == pytest.approx(reference.rho_, rel=1e-5)
+    assert fit.eta_hours == pytest.approx(reference.lambda_, rel=1e-5)
+    assert fit.log_likelihood == pytest.approx(reference.log_likelihood_, rel=1e-7)
+    assert (fit.failures, fit.censored) == (8, 4)
+
+
+def test_weibull_fit_agrees_with_scipy_censored_fit():
+    # Second reference: scipy.stats.weibull_min.fit on scipy.stats.CensoredData, location fixed at 0.
+    fit = weibull_fit(FAILURES, CENSORED)
+    beta, _, eta = stats.weibull_min.fit(stats.CensoredData(uncensored=FAILURES, right=CENSORED), floc=0)
+    assert fit.beta == pytest.approx(beta, rel=1e-4)
+    assert fit.eta_hours == pytest.approx(eta, rel=1e-4)
+
+
+def test_the_random_failure_test_uses_the_exponential_likelihood_at_beta_one():
+    # At beta = 1 the Weibull is the exponential with eta = T/r (T all hours, r failures); its censored
+    # log-likelihood from scipy.stats.expon gives the likelihood-ratio statistic by hand.
+    fit = weibull_fit(FAILURES, CENSORED)
+    scale = (sum(FAILURES) + sum(CENSORED)) / len(FAILURES)
+    at_one = stats.expon.logpdf(FAILURES, scale=scale).sum() + stats.expon.logsf(CENSORED, scale=scale).sum()
+    assert fit.lr_against_random == pytest.approx(2 * (fit.log_likelihood - at_one))
+    assert fit.differs_from_random == (fit.lr_against_random > stats.chi2.ppf(0.90, 1))
+
+
+def test_weibull_fit_recovers_a_known_shape_from_a_large_simulated_sample():
+    times = stats.weibull_min.rvs(2.5, scale=800.0, size=4000, random_state=np.random.default_rng(7))
+    fit = weibull_fit(times)
+    assert fit.beta == pytest.approx(2.5, rel=0.05)
+    assert fit.eta_hours == pytest.approx(800.0, rel=0.03)
+    assert fit.reading == WEAR_OUT
+
+
+def test_weibull_fit_refuses_fewer_than_three_failures_and_non_positive_times():
+    with pytest.raises(ValueError, match="at least 3 failures, got 2"):
+        weibull_fit([100.0, 200.0], [50.0])
+    with pytest.raises(ValueError, match="positive number of operating hours"):
+        weibull_fit([100.0, 0.0, 200.0])
+
+
+def test_a_censored_time_of_zero_carries_no_information():
+    assert weibull_fit(FAILURES, CENSORED + [0.0]) == weibull_fit(FAILURES, CENSORED)
+
+
+@settings(max_examples=40, deadline=None)
+@given(
+    failures=st.lists(st.floats(1.0, 1e5), min_size=3, max_size=30).filter(lambda x: max(x) > min(x) * 1.001),
+    stretch=st.floats(0.01, 100.0),
+)
+def test_the_fit_scales_with_the_unit_of_time(failures, stretch):
+    # Hours or minutes: the shape does not change, the scale changes by the same factor.
+    fit = weibull_fit(failures)
+    stretched = weibull_fit([t * stretch for t in failures])
+    assert stretched.beta == pytest.approx(fit.beta, rel=1e-6)
+    assert stretched.eta_hours == pytest.approx(fit.eta_hours * stretch, rel=1e-6)
+
+
+def test_the_reading_of_beta_follows_the_standard_interpretation():
+    # NIST/SEMATECH e-Handbook, chapter 8 (bathtub curve): < 1 early failures, 1 random, > 1 wear-out.
+    assert beta_reading(0.6) == INFANT_MORTALITY
+    assert beta_reading(2.4) == WEAR_OUT
+    assert beta_reading(1.3, differs_from_random=False) == RANDOM
+
+
+def test_a_units_record_becomes_times_between_failures_and_a_running_interval():
+    # Failures at 120, 400 and 1000 hours of a unit with 1,300 hours in service (hand computation).
+    between, running = times_between_failures([400.0, 120.0, 1000.0], 1300.0)
+    assert list(between) == [120.0, 280.0, 600.0]
+    assert running == 300.0
+    between, running = times_between_failures([], 800.0)
+    assert len(between) == 0 and running == 800.0
+    with pytest.raises(ValueError, match="within the unit's 800 operating hours"):
+        times_between_failures([900.0], 800.0)

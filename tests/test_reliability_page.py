@@ -1,0 +1,112 @@
+"""Specifications for the reliability page: what counts as a failure, whose hours count, and the figures per kind."""
+from __future__ import annotations
+
+import datetime as dt
+
+import pytest
+from django.contrib.auth.models import User
+from django.urls import reverse
+from django.utils import timezone
+from lifelines import WeibullFitter
+
+from observatory_ops.calc import reliability
+from observatory_ops.logbook.models import NightUsage
+from observatory_ops.registry.services import subsystem_create
+from observatory_ops.reliability.selectors import site_reliability
+from observatory_ops.workorders.models import State, WorkOrder
+from observatory_ops.workorders.services import work_order_ad_hoc
+
+pytestmark = pytest.mark.django_db
+
+START = dt.date(2026, 1, 1)
+TODAY = dt.date(2026, 4, 20)
+
+
+def _order(site, subsystems, by, night: dt.date, state=State.COUNTERSIGNED, kind=WorkOrder.Type.CORRECTIVE, hours=2.0):
+    """An order on ``subsystems`` whose work was finished on the afternoon of ``night`` (site time)."""
+    order = work_order_ad_hoc(site, subsystems, "Fault", by, order_type=kind)
+    order.state, order.actual_hours = state, hours
+    if state in (State.FINISHED, State.COUNTERSIGNED):
+        order.finished_at = timezone.make_aware(dt.datetime.combine(night, dt.time(15, 0)), site.zone)
+    order.save()
+    return order
+
+
+@pytest.fixture
+def record(site, telescope, users):
+    """100 logged nights from 1 Jan 2026, 5 open hours each; two fans, one fan retired on 1 Feb, an encoder."""
+    NightUsage.objects.bulk_create(
+        NightUsage(site=site, night=START + dt.timedelta(days=i), open_hours=5.0) for i in range(100)
+    )
+    fan_a, fan_b, fan_c = (
+        subsystem_create(telescope, "cooling_fans", name, counting_from=START) for name in ("Fan A", "Fan B", "Fan C")
+    )
+    fan_c.retired_on = dt.date(2026, 2, 1)
+    fan_c.save()
+    encoder = subsystem_create(telescope, "encoder", "Axis 1 encoder", counting_from=START)
+    engineer = users["engineer"]
+    _order(site, [fan_a], engineer, dt.date(2026, 1, 21))  # 21 nights: 105 h
+    _order(site, [fan_a], engineer, dt.date(2026, 2, 20), state=State.FINISHED)  # 51 nights: 255 h
+    _order(site, [fan_b], engineer, dt.date(2026, 3, 1), hours=3.0)  # 60 nights: 300 h
+    _order(site, [encoder], engineer, dt.date(2026, 1, 11))  # 11 nights: 55 h
+    # Not failures: a corrective order still underway, one withdrawn, and finished preventive work.
+    _order(site, [fan_b], engineer, dt.date(2026, 4, 1), state=State.UNDERWAY)
+    _order(site, [fan_b], engineer, dt.date(2026, 4, 2), state=State.WITHDRAWN)
+    _order(site, [fan_a, fan_b], engineer, dt.date(2026, 4, 5), kind=WorkOrder.Type.PREVENTIVE, hours=4.0)
+    _order(site, [encoder], engineer, dt.date(2026, 4, 6), kind=WorkOrder.Type.CONDITION_BASED, hours=None)
+    return site
+
+
+def test_fans_failures_hours_mtbf_and_fit_by_hand(record):
+    fans = next(k for k in site_reliability(record, TODAY).kinds if k.code == "cooling_fans")
+    # Hours: 100 nights x 5 h for fans A and B in service; fan C retired on 1 Feb after 31 nights (155 h).
+    assert (fans.in_service, fans.retired, fans.failures) == (2, 1, 3)
+    assert fans.operating_hours == pytest.approx(1155.0)
+    # Times between failures (hand computation): fan A 105 then 150 h, fan B 300 h; running 245, 200, 155 h.
+    assert sorted(fans.between) == [105.0, 150.0, 300.0]
+    assert sorted(fans.running) == [155.0, 200.0, 245.0]
+    assert fans.mtbf == reliability.mtbf(1155.0, 3)
+    assert fans.mtbf.mtbf_hours == pytest.approx(385.0)
+    # The fit agrees with lifelines.WeibullFitter on the same censored data (independent reference).
+    reference = WeibullFitter().fit([105, 150, 300, 155, 200, 245], event_observed=[1, 1, 1, 0, 0, 0])
+    assert fans.fit.beta == pytest.approx(reference.rho_, rel=1e-5)
+    assert fans.fit.eta_hours == pytest.approx(reference.lambda_, rel=1e-5)
+
+
+def test_maintenance_hours_are_split_by_order_type_and_shared_among_an_orders_subsystems(record):
+    report = site_reliability(record, TODAY)
+    fans = next(k for k in report.kinds if k.code == "cooling_fans")
+    encoders = next(k for k in report.kinds if k.code == "encoder")
+    # Corrective: 2 + 2 + 3 h on fans; preventive 4 h over two fans, 2 h each; the condition-based order
+    # has no hours recorded and counts nowhere.
+    assert fans.hours_by_type == {"preventive": 4.0, "condition": 0.0, "corrective": 7.0}
+    assert encoders.hours_by_type == {"preventive": 0.0, "condition": 0.0, "corrective": 2.0}
+    assert report.hours_by_type == {"preventive": 4.0, "condition": 0.0, "corrective": 9.0}
+    assert (report.orders_in_window, report.orders_without_hours) == (6, 1)
+
+
+def test_one_failure_gives_an_interval_but_no_fit(record):
+    encoders = next(k for k in site_reliability(record, TODAY).kinds if k.code == "encoder")
+    assert encoders.failures == 1 and encoders.fit is None
+    assert encoders.no_fit == "too few failures for a fit: 1"
+    assert encoders.mtbf.lower_hours < 500.0 < encoders.mtbf.upper_hours
+
+
+def test_the_selector_reads_a_fixed_number_of_queries(record, telescope, django_assert_max_num_queries):
+    for i in range(10):
+        subsystem_create(telescope, "brake", f"Brake {i}", counting_from=START)
+    with django_assert_max_num_queries(6):
+        site_reliability(record, TODAY)
+
+
+def test_the_page_shows_the_figures_and_says_how_they_are_made(record, client):
+    client.force_login(User.objects.get(username="viewer"))
+    dashboard = client.get(reverse("site-dashboard", args=[record.slug])).content.decode()
+    url = reverse("site-reliability", args=[record.slug])
+    assert url in dashboard
+    page = client.get(url).content.decode()
+    assert "Cooling fans and filters" in page and "385 h" in page
+    assert "too few failures for a fit: 1" in page
+    for words in ("corrective work order that was finished or countersigned", "dome-open hours",
+                  "2T / χ²(0.95; 2n+2)", "NIST/SEMATECH e-Handbook", "<svg"):
+        assert words in page
