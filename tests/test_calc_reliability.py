@@ -10,6 +10,7 @@ from scipy import stats
 
 from observatory_ops.calc.reliability import (
     INFANT_MORTALITY,
+    NOT_TOLD_FROM_RANDOM,
     RANDOM,
     WEAR_OUT,
     beta_reading,
@@ -132,7 +133,7 @@ def test_the_reading_of_beta_follows_the_standard_interpretation():
     # NIST/SEMATECH e-Handbook, chapter 8 (bathtub curve): < 1 early failures, 1 random, > 1 wear-out.
     assert beta_reading(0.6) == INFANT_MORTALITY
     assert beta_reading(2.4) == WEAR_OUT
-    assert beta_reading(1.3, differs_from_random=False) == RANDOM
+    assert beta_reading(1.3, differs_from_random=False) == f"{NOT_TOLD_FROM_RANDOM}: {RANDOM}"
 
 
 def test_a_units_record_becomes_times_between_failures_and_a_running_interval():
@@ -144,3 +145,10 @@ def test_a_units_record_becomes_times_between_failures_and_a_running_interval():
     assert len(between) == 0 and running == 800.0
     with pytest.raises(ValueError, match="within the unit's 800 operating hours"):
         times_between_failures([900.0], 800.0)
+
+
+def test_the_fits_mean_is_the_weibull_mean_scipy_gives():
+    """eta x Gamma(1 + 1/beta), against scipy.stats.weibull_min's own mean (an independent implementation)."""
+    fit = weibull_fit([310.0, 540.0, 720.0, 905.0, 1220.0], [400.0])
+    expected = stats.weibull_min(fit.beta, scale=fit.eta_hours).mean()
+    assert fit.mean_hours == pytest.approx(expected, rel=1e-12)

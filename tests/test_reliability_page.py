@@ -10,7 +10,8 @@ from django.utils import timezone
 from lifelines import WeibullFitter
 
 from observatory_ops.calc import reliability
-from observatory_ops.logbook.models import NightUsage
+from observatory_ops.logbook.models import NightUsage, ServiceRecord
+from observatory_ops.registry.models import Subsystem
 from observatory_ops.registry.services import subsystem_create
 from observatory_ops.reliability.selectors import site_reliability
 from observatory_ops.workorders.models import State, WorkOrder
@@ -73,16 +74,36 @@ def test_fans_failures_hours_mtbf_and_fit_by_hand(record):
     assert fans.fit.eta_hours == pytest.approx(reference.lambda_, rel=1e-5)
 
 
-def test_maintenance_hours_are_split_by_order_type_and_shared_among_an_orders_subsystems(record):
+def test_maintenance_hours_are_the_service_records_hours_by_the_type_of_order_that_wrote_them(record, users):
+    """The hours of the service records in the last 12 months: a finished order's records carry its hours shared
+    among its subsystems (workorders.services), so they are summed as they are, by the order's type; service
+    logged on a subsystem page has its own column; a corrected record counts as corrected, a withdrawn one not."""
+    fan_a, fan_b = (Subsystem.objects.get(name=n) for n in ("Fan A", "Fan B"))
+    encoder = Subsystem.objects.get(name="Axis 1 encoder")
+    preventive = WorkOrder.objects.get(order_type=WorkOrder.Type.PREVENTIVE)
+    corrective = WorkOrder.objects.filter(order_type=WorkOrder.Type.CORRECTIVE, state=State.COUNTERSIGNED).first()
+    by = users["engineer"]
+
+    def logged(subsystem, hours, order=None, on=dt.date(2026, 4, 5), **more):
+        return ServiceRecord.objects.create(subsystem=subsystem, performed_on=on, performed_by=by, created_by=by,
+                                            hours_spent=hours, summary="work", work_order=order, **more)
+
+    logged(fan_a, 2.0, preventive)
+    logged(fan_b, 2.0, preventive)
+    logged(fan_a, 2.5, corrective)
+    logged(encoder, 1.5)  # from the subsystem page, no order
+    wrong = logged(encoder, 9.0)
+    logged(encoder, 0.5, corrects=wrong)  # the correction counts, the record it corrects does not
+    withdrawn = logged(fan_b, 6.0)
+    logged(fan_b, 0.0, corrects=withdrawn, void=True)
+    logged(fan_b, 5.0, on=TODAY - dt.timedelta(days=400))  # before the 12 months
     report = site_reliability(record, TODAY)
     fans = next(k for k in report.kinds if k.code == "cooling_fans")
     encoders = next(k for k in report.kinds if k.code == "encoder")
-    # Corrective: 2 + 2 + 3 h on fans; preventive 4 h over two fans, 2 h each; the condition-based order
-    # has no hours recorded and counts nowhere.
-    assert fans.hours_by_type == {"preventive": 4.0, "condition": 0.0, "corrective": 7.0}
-    assert encoders.hours_by_type == {"preventive": 0.0, "condition": 0.0, "corrective": 2.0}
-    assert report.hours_by_type == {"preventive": 4.0, "condition": 0.0, "corrective": 9.0}
-    assert (report.orders_in_window, report.orders_without_hours) == (6, 1)
+    assert fans.hours_by_type == {"preventive": 4.0, "corrective": 2.5, "condition": 0.0, "without_order": 0.0}
+    assert encoders.hours_by_type == {"preventive": 0.0, "corrective": 0.0, "condition": 0.0, "without_order": 2.0}
+    assert report.hours_by_type == {"preventive": 4.0, "corrective": 2.5, "condition": 0.0, "without_order": 2.0}
+    assert report.records_in_window == 5
 
 
 def test_one_failure_gives_an_interval_but_no_fit(record):
@@ -110,3 +131,21 @@ def test_the_page_shows_the_figures_and_says_how_they_are_made(record, client):
     for words in ("corrective work order that was finished or countersigned", "dome-open hours",
                   "2T / χ²(0.95; 2n+2)", "NIST/SEMATECH e-Handbook", "<svg"):
         assert words in page
+
+
+def test_a_subsystem_with_neither_plans_nor_a_history_entry_counts_from_the_first_logged_night(record, telescope):
+    """Registered before the history was kept, and without plans: nothing says when it entered service, so it is
+    counted from the first logged night (it used to stop the page with a KeyError)."""
+    old = Subsystem.objects.create(telescope=telescope, kind="computers", name="Old control PC")
+    Subsystem.history.filter(id=old.pk).delete()
+    computers = next(k for k in site_reliability(record, TODAY).kinds if k.code == "computers")
+    assert computers.operating_hours == 100 * 5.0  # every logged night, 5 open hours each
+    assert computers.no_fit == "no failure to fit"
+
+
+def test_a_failure_with_no_operating_hours_logged_says_the_mtbf_cannot_be_estimated(site, telescope, users, client):
+    fans = subsystem_create(telescope, "cooling_fans", "Fans", counting_from=START)
+    _order(site, [fans], users["engineer"], dt.date(2026, 1, 5))
+    client.force_login(users["viewer"])
+    page = client.get(reverse("site-reliability", args=[site.slug])).content.decode()
+    assert "no operating hours logged: not estimable" in page and "0 h (0 to 0 h)" not in page

@@ -9,16 +9,22 @@ from dataclasses import dataclass
 
 import numpy as np
 from numpy.typing import ArrayLike
-from scipy import optimize, stats
+from scipy import optimize, special, stats
 
 #: Two-sided confidence of the MTBF interval and of the Weibull shape test.
 CONFIDENCE = 0.90
 #: Fewest failures a Weibull fit is made from: with fewer, two parameters are not determined usefully.
 MIN_FAILURES_FOR_FIT = 3
 
-INFANT_MORTALITY = "early failures (infant mortality): preventive replacement does not help"
-RANDOM = "random failures: preventive replacement does not help; keep spares and inspect"
-WEAR_OUT = "wear-out: preventive service before eta helps"
+# What the shape says for maintenance: common practice, no published source (the shape's meaning, a failure rate
+# falling, constant or rising with age, is the standard one: NIST/SEMATECH e-Handbook, chapter 8).
+INFANT_MORTALITY = (
+    "early failures (infant mortality): replacing on a schedule does not help; look at installation and burn-in"
+)
+RANDOM = "no sign of wear-out: replacing on a schedule does not help; keep spares and inspect"
+WEAR_OUT = "wear-out: service or replacement well before η (by which about 63 % have failed) helps"
+#: Said before ``RANDOM`` when the likelihood-ratio test cannot tell the fitted shape from 1.
+NOT_TOLD_FROM_RANDOM = "cannot be told from a constant failure rate with these failures"
 
 
 @dataclass(frozen=True)
@@ -86,6 +92,11 @@ class WeibullFit:
     @property
     def reading(self) -> str:
         return beta_reading(self.beta, self.differs_from_random)
+
+    @property
+    def mean_hours(self) -> float:
+        """The mean time between failures the fit gives: eta x Gamma(1 + 1/beta) (the Weibull mean)."""
+        return float(self.eta_hours * special.gamma(1.0 + 1.0 / self.beta))
 
 
 def _profile(beta: float, times: np.ndarray, failed: np.ndarray) -> tuple[float, float]:
@@ -172,7 +183,7 @@ def beta_reading(beta: float, differs_from_random: bool = True) -> str:
     cannot tell from 1 is read as random.
     """
     if not differs_from_random:
-        return RANDOM
+        return f"{NOT_TOLD_FROM_RANDOM}: {RANDOM}"
     return INFANT_MORTALITY if beta < 1 else WEAR_OUT
 
 

@@ -3,7 +3,8 @@ what maintenance cost in hours.
 
 A failure is a corrective work order that was finished (or countersigned): one failure for each subsystem it
 names. Operating hours are the site's dome-open hours from the nightly log, counted for each subsystem over
-the nights it was in service. Six queries for a site, whatever its size.
+the nights it was in service. Maintenance hours are those of the service records. A fixed handful of queries
+for a site, whatever its size (tests/test_reliability_page.py counts them).
 """
 from __future__ import annotations
 
@@ -16,7 +17,7 @@ from django.db.models import Min
 
 from observatory_ops.calc import reliability
 from observatory_ops.calc.night_of import night_of
-from observatory_ops.logbook.models import NightUsage
+from observatory_ops.logbook.models import NightUsage, ServiceRecord
 from observatory_ops.planning.models import ServicePlan
 from observatory_ops.planning.services import site_today
 from observatory_ops.registry.catalogue import KINDS
@@ -26,7 +27,10 @@ from observatory_ops.workorders.models import State, WorkOrder, WorkOrderItem
 DONE = (State.FINISHED, State.COUNTERSIGNED)
 #: The maintenance-hours window: the last 12 months, as 365 days back from the site's today.
 HOURS_WINDOW_DAYS = 365
-ORDER_TYPES = (WorkOrder.Type.PREVENTIVE, WorkOrder.Type.CONDITION_BASED, WorkOrder.Type.CORRECTIVE)
+#: The maintenance-hours columns: each work-order type, then service logged without a work order.
+WITHOUT_ORDER = "without_order"
+HOURS_COLUMNS = (*WorkOrder.Type.values, WITHOUT_ORDER)
+HOURS_COLUMN_LABELS = (*WorkOrder.Type.labels, "logged without a work order")
 
 
 @dataclass
@@ -39,7 +43,7 @@ class KindReliability:
     operating_hours: float = 0.0
     between: list[float] = field(default_factory=list)
     running: list[float] = field(default_factory=list)
-    hours_by_type: dict[str, float] = field(default_factory=lambda: dict.fromkeys(ORDER_TYPES, 0.0))
+    hours_by_type: dict[str, float] = field(default_factory=lambda: dict.fromkeys(HOURS_COLUMNS, 0.0))
     mtbf: reliability.MtbfEstimate | None = None
     fit: reliability.WeibullFit | None = None
     no_fit: str = ""
@@ -62,8 +66,7 @@ class SiteReliability:
     kinds: list[KindReliability]
     hours_since: dt.date
     hours_by_type: dict[str, float]
-    orders_in_window: int
-    orders_without_hours: int
+    records_in_window: int
 
     @property
     def hours_total(self) -> float:
@@ -118,7 +121,9 @@ def site_reliability(site: Site, today: dt.date | None = None) -> SiteReliabilit
         kind_of[pk] = row
         row.counted += 1
         row.in_service += retired_on is None
-        start = starts[pk]
+        # A subsystem with neither plans nor a register entry in the history (registered before the history was
+        # kept) is counted from the first logged night.
+        start = starts.get(pk) or (nights[0][0] if nights else today)
         end = min(retired_on, today + dt.timedelta(days=1)) if retired_on else today + dt.timedelta(days=1)
         base = hours_before(start)
         total = max(hours_before(end) - base, 0.0)
@@ -130,20 +135,20 @@ def site_reliability(site: Site, today: dt.date | None = None) -> SiteReliabilit
         row.between += [float(t) for t in between]
         row.running.append(running)
 
+    # Maintenance hours: the hours of the service records of the last 12 months (a work order's shared among the
+    # subsystems it names when it was finished), by the type of the order that wrote them, or logged without one.
+    # Records since corrected count as corrected; withdrawn ones not at all.
     since = today - dt.timedelta(days=HOURS_WINDOW_DAYS)
-    window_start = dt.datetime.combine(since + dt.timedelta(days=1), dt.time(), tzinfo=site.zone)
-    site_hours = dict.fromkeys(ORDER_TYPES, 0.0)
-    orders: dict[int, tuple[str, float | None, list[int]]] = {}
-    for order_id, order_type, hours, subsystem_id in WorkOrderItem.objects.filter(
-        work_order__site=site, work_order__state__in=DONE, work_order__finished_at__gte=window_start,
-    ).values_list("work_order_id", "work_order__order_type", "work_order__actual_hours", "subsystem_id"):
-        orders.setdefault(order_id, (order_type, hours, []))[2].append(subsystem_id)
-    for order_type, hours, items in orders.values():
-        if hours is None:
-            continue
-        site_hours[order_type] += hours
-        for subsystem_id in items:
-            kind_of[subsystem_id].hours_by_type[order_type] += hours / len(items)
+    site_hours = dict.fromkeys(HOURS_COLUMNS, 0.0)
+    records = 0
+    for subsystem_id, hours, order_type in ServiceRecord.objects.filter(
+        subsystem__telescope__site=site, performed_on__gt=since, performed_on__lte=today,
+        corrected_by__isnull=True, void=False,
+    ).values_list("subsystem_id", "hours_spent", "work_order__order_type"):
+        column = order_type or WITHOUT_ORDER
+        records += 1
+        site_hours[column] += hours
+        kind_of[subsystem_id].hours_by_type[column] += hours
 
     shown = [row for row in kinds.values() if row.counted]
     for row in shown:
@@ -153,10 +158,12 @@ def site_reliability(site: Site, today: dt.date | None = None) -> SiteReliabilit
         try:
             row.fit = reliability.weibull_fit(positive, row.running)
         except ValueError as exc:
-            row.no_fit = (
-                f"too few failures for a fit: {len(positive)}"
-                if len(positive) < reliability.MIN_FAILURES_FOR_FIT else str(exc)
-            )
+            if not positive:
+                row.no_fit = "no failure to fit"
+            elif len(positive) < reliability.MIN_FAILURES_FOR_FIT:
+                row.no_fit = f"too few failures for a fit: {len(positive)}"
+            else:
+                row.no_fit = str(exc)
     return SiteReliability(
         today=today,
         first_night=nights[0][0] if nights else None,
@@ -164,6 +171,5 @@ def site_reliability(site: Site, today: dt.date | None = None) -> SiteReliabilit
         kinds=shown,
         hours_since=since + dt.timedelta(days=1),
         hours_by_type=site_hours,
-        orders_in_window=len(orders),
-        orders_without_hours=sum(1 for _, hours, _ in orders.values() if hours is None),
+        records_in_window=records,
     )

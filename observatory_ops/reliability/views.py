@@ -21,6 +21,11 @@ def site_reliability(request, slug):
             "report": report,
             "chart": mtbf_svg(report.kinds),
             "confidence_pct": round(reliability.CONFIDENCE * 100),
+            # With no failure only the lower bound exists: one-sided, at the confidence of the two-sided one's lower
+            # end (90 % two-sided leaves 5 % below, so the bound is a one-sided 95 %).
+            "test_level_pct": round((1 - reliability.CONFIDENCE) * 100),
+            "one_sided_pct": round((1 + reliability.CONFIDENCE) / 2 * 100),
+            "hours_columns": selectors.HOURS_COLUMN_LABELS,
             "min_failures": reliability.MIN_FAILURES_FOR_FIT,
             "readings": (reliability.INFANT_MORTALITY, reliability.RANDOM, reliability.WEAR_OUT),
         },
