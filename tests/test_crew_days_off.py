@@ -379,3 +379,33 @@ def test_a_plan_asked_for_on_a_holiday_begins_with_the_crew_after_it(mirror, use
     plan = services.recoat_plan_create(mirror, CHRISTMAS, list(RECOAT_PHASES), 12.0, users["engineer"])
     assert plan.starts_on == dt.date(2026, 12, 28)
     assert plan.work_orders.get(title__endswith="removal").planned_date == dt.date(2026, 12, 28)
+
+
+@pytest.mark.parametrize("day", [dt.date(1926, 12, 25), dt.date(9999, 12, 31)])
+def test_a_day_off_far_outside_any_plan_is_refused_as_mistyped(site, day):
+    from observatory_ops.registry.models import CrewDayOff
+
+    with pytest.raises(ValidationError, match="looks mistyped"):
+        CrewDayOff(site=site, date=day, note="public holiday").full_clean()
+    assert not CrewDayOff.objects.exists()
+
+
+def test_the_add_site_page_starts_with_a_monday_to_friday_crew(admin_client):
+    page = admin_client.get("/admin/registry/site/add/").content.decode()
+    ticked = re.findall(r'<input type="checkbox" name="crew_weekdays" value="(\d)"[^>]*checked', page)
+    assert ticked == list("12345")
+
+
+def test_only_the_days_off_that_pause_work_at_the_telescope_are_listed_with_a_window():
+    """A day off while the mirror is away at the plant (transport, coating: calendar days) changes nothing, so it
+    is not listed beside the window; one inside a phase at the telescope is. Dates by hand, crew Mon-Fri, the
+    default phases from Monday 3 August 2026: removal 3-4, transport 5, coating 6-8, return 9, reinstall 10-11,
+    realignment 12-14."""
+    from observatory_ops.mirrors.services import crew_windows
+
+    first = dt.date(2026, 8, 3)
+    off = {dt.date(2026, 8, 7): "plant's holiday", dt.date(2026, 8, 13): "public holiday"}
+    cost = np.arange(30, dtype=float)  # each night dearer than the one before: the earliest start is cheapest
+    (window,) = crew_windows(first, cost, list(RECOAT_PHASES), MON_FRI, off, alternatives=0)
+    assert window["start"] == first
+    assert window["days_off"] == [(dt.date(2026, 8, 13), "public holiday")]

@@ -269,15 +269,18 @@ def crew_windows(
 ) -> list[dict]:
     """The cheapest windows for ``phases`` with the crew working ``crew_days`` and off on ``days_off`` (date ->
     note) (``calc.windows.cheapest_crew_windows``), cheapest first, each with its start and end dates, its phases'
-    dates (``phase_dates``) and the days off inside it as (date, note) pairs."""
+    dates (``phase_dates``) and the days off that pause its work at the telescope as (date, note) pairs (a day off
+    that falls while the mirror is away at the plant changes nothing)."""
     found = windows.cheapest_crew_windows(cost, phases, first_night.isoweekday(), crew_days, alternatives,
                                           days_off=_day_numbers(first_night, days_off))
-    dated = [_dated(first_night, w) for w in found]
-    return [
-        {**w, "phases": phase_dates(w["start"], phases, crew_days, days_off),
-         "days_off": [(day, days_off[day]) for day in sorted(days_off) if w["start"] <= day <= w["end"]]}
-        for w in dated
-    ]
+    out = []
+    for window in (_dated(first_night, w) for w in found):
+        laid = phase_dates(window["start"], phases, crew_days, days_off)
+        crew_spans = [(p["first"], p["last"]) for p in laid if p["phase"].needs_crew]
+        pausing = [(day, days_off[day]) for day in sorted(days_off)
+                   if any(first <= day <= last for first, last in crew_spans)]
+        out.append({**window, "phases": laid, "days_off": pausing})
+    return out
 
 
 def phase_dates(

@@ -4,6 +4,7 @@ from django.core.exceptions import ValidationError
 from django.forms.models import BaseInlineFormSet
 
 from observatory_ops.calc.windows import WEEKDAY_NAMES
+from observatory_ops.registry.models import Site
 from observatory_ops.workorders.cautions import HAZARDS
 
 
@@ -45,6 +46,8 @@ class CrewWeekdaysField(forms.MultipleChoiceField):
 
 class SiteAdminForm(forms.ModelForm):
     crew_weekdays = CrewWeekdaysField(
+        # A declared field takes no initial value from the model: a new site starts with the model's default.
+        initial=list(Site._meta.get_field("crew_weekdays").default),
         help_text="The days the maintenance crew works. The recoat planner starts the phases at the telescope "
         "(removal, reinstall, realignment) on these days and pauses them over the others; the telescope stays down "
         "meanwhile, so those nights count in a window's cost."

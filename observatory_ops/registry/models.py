@@ -1,12 +1,14 @@
 """Sites, telescopes and the tree of subsystems."""
 from __future__ import annotations
 
+import datetime as dt
 import zoneinfo
 
 from django.core.exceptions import ValidationError
 from django.core.validators import MaxValueValidator, MinValueValidator
 from django.db import models
 from django.urls import reverse
+from django.utils import timezone
 from simple_history.models import HistoricalRecords
 
 from observatory_ops.calc import night_of, windows
@@ -112,6 +114,10 @@ class CrewDayOff(models.Model):
         return f"{self.date:%a %d %b %Y}" + (f" ({self.note})" if self.note else "")
 
     def clean(self) -> None:
+        latest = timezone.localdate() + dt.timedelta(days=366 * 10)
+        if self.date and not dt.date(2000, 1, 1) <= self.date <= latest:
+            raise ValidationError({"date": f"{self.date:%d %b %Y} looks mistyped: a crew day off falls between "
+                                           f"2000 and ten years from now ({latest:%d %b %Y})."})
         stored = CrewDayOff.objects.filter(site=self.site_id, date=self.date).exclude(pk=self.pk)
         if self.site_id and self.date and stored.exists():
             raise ValidationError({"date": f"{self.date:%a %d %b %Y} is already listed among this site's crew days "
