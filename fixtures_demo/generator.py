@@ -19,7 +19,7 @@ from observatory_ops.logbook.models import NightUsage, Reading, ServiceRecord
 from observatory_ops.mirrors.models import CleaningEvent, CoatingEvent, Mirror, ReflectanceMeasurement
 from observatory_ops.planning import services as planning
 from observatory_ops.planning.models import BookedRun
-from observatory_ops.registry.models import Site, Telescope
+from observatory_ops.registry.models import CrewDayOff, Site, Telescope
 from observatory_ops.registry.services import subsystem_create
 from observatory_ops.workorders.models import IsolationPoint, Part
 
@@ -122,6 +122,7 @@ def build(today: dt.date | None = None) -> tuple[Site, bool]:
                     telescope, kind, name, counting_from=start,
                     parent=subsystems.get((telescope.name, parent)) if parent else None,
                 )
+        _crew_days_off(site, today)
         _usage(site, start, today, rng)
         _drive_settle_readings(subsystems, users["technician"], today, rng)
         _service_history(site, subsystems, users, today, rng)
@@ -131,6 +132,16 @@ def build(today: dt.date | None = None) -> tuple[Site, bool]:
         planning.site_recompute(site, today)
         _work_orders(site, users, today)
     return site, True
+
+
+def _crew_days_off(site: Site, today: dt.date) -> None:
+    """The crew's days off over the coming two years besides weekends: the end-of-year closure (invented)."""
+    for year in (today.year, today.year + 1):
+        for month, day, note in ((12, 24, "end-of-year closure"), (12, 25, "end-of-year closure"),
+                                 (12, 31, "end-of-year closure"), (1, 1, "end-of-year closure")):
+            day_off = dt.date(year if month == 12 else year + 1, month, day)
+            if day_off >= today:
+                CrewDayOff.objects.create(site=site, date=day_off, note=note)
 
 
 def _usage(site: Site, start: dt.date, today: dt.date, rng: np.random.Generator) -> None:

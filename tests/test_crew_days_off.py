@@ -409,3 +409,17 @@ def test_only_the_days_off_that_pause_work_at_the_telescope_are_listed_with_a_wi
     (window,) = crew_windows(first, cost, list(RECOAT_PHASES), MON_FRI, off, alternatives=0)
     assert window["start"] == first
     assert window["days_off"] == [(dt.date(2026, 8, 13), "public holiday")]
+
+
+def test_days_off_a_phase_at_the_telescope_waits_through_are_listed_too():
+    """By hand, crew Mon-Fri, from Tuesday 15 December 2026 with 24 and 25 December off: removal 15-16,
+    transport 17, coating 18-20, return 21, reinstall 22-23; the realignment waits through 24 and 25 December and
+    the weekend and runs 28-30. Both days off held the work up."""
+    from observatory_ops.mirrors.services import crew_windows
+
+    first = dt.date(2026, 12, 15)
+    off = {dt.date(2026, 12, 24): "closure", dt.date(2026, 12, 25): "closure"}
+    cost = np.arange(40, dtype=float)
+    (window,) = crew_windows(first, cost, list(RECOAT_PHASES), MON_FRI, off, alternatives=0)
+    assert (window["start"], window["end"]) == (first, dt.date(2026, 12, 30))
+    assert window["days_off"] == sorted(off.items())

@@ -375,3 +375,10 @@ def test_a_suspended_load_added_to_a_mirror_brings_its_lifting_figures(telescope
     _add_hazard(primary, "suspended_load")
     update = services.work_order_hazards_update(made, users["engineer"])
     assert update.lift_added and _fresh(made).lift_inputs == primary.mirror.lift_inputs
+
+
+def test_the_admin_shows_an_orders_hazards_and_steps_but_does_not_edit_them(order, admin_client):  # noqa: F811
+    """Edited only on the order's pages, which never drop a hazard nor lose the lockout step."""
+    page = admin_client.get(f"/admin/workorders/workorder/{order.pk}/change/").content.decode()
+    assert 'name="hazards"' not in page and 'name="steps"' not in page
+    assert html.escape(LOCKOUT) in page or LOCKOUT in page

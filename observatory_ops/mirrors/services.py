@@ -269,16 +269,17 @@ def crew_windows(
 ) -> list[dict]:
     """The cheapest windows for ``phases`` with the crew working ``crew_days`` and off on ``days_off`` (date ->
     note) (``calc.windows.cheapest_crew_windows``), cheapest first, each with its start and end dates, its phases'
-    dates (``phase_dates``) and the days off that pause its work at the telescope as (date, note) pairs (a day off
-    that falls while the mirror is away at the plant changes nothing)."""
+    dates (``phase_dates``) and the days off that hold up its work at the telescope as (date, note) pairs: those
+    inside the window but not while the mirror is away (transport, coating: calendar days, which a day off does not
+    change)."""
     found = windows.cheapest_crew_windows(cost, phases, first_night.isoweekday(), crew_days, alternatives,
                                           days_off=_day_numbers(first_night, days_off))
     out = []
     for window in (_dated(first_night, w) for w in found):
         laid = phase_dates(window["start"], phases, crew_days, days_off)
-        crew_spans = [(p["first"], p["last"]) for p in laid if p["phase"].needs_crew]
-        pausing = [(day, days_off[day]) for day in sorted(days_off)
-                   if any(first <= day <= last for first, last in crew_spans)]
+        away = [(p["first"], p["last"]) for p in laid if not p["phase"].needs_crew]
+        pausing = [(day, days_off[day]) for day in sorted(days_off) if window["start"] <= day <= window["end"]
+                   and not any(first <= day <= last for first, last in away)]
         out.append({**window, "phases": laid, "days_off": pausing})
     return out
 

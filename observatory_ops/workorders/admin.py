@@ -39,8 +39,11 @@ class WorkOrderAdmin(SimpleHistoryAdmin):
     list_display = ("number", "title", "site", "state", "planned_date", "assignee")
     list_filter = ("site", "state", "order_type")
     inlines = [ItemInline, ReadingInline, PartUseInline, TickInline]
+    # Hazards and steps only through the order's own pages, which never drop a hazard and keep the lockout step
+    # where the energy is isolated (services.work_order_hazards_update, forms.WorkOrderEditForm).
     readonly_fields = (
-        "state", "finished_at", "finished_by", "countersigned_at", "countersigned_by", "unticked_at_finish"
+        "state", "finished_at", "finished_by", "countersigned_at", "countersigned_by", "unticked_at_finish",
+        "hazards", "steps", "at_telescope",
     )
 
 
