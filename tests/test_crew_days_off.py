@@ -423,3 +423,21 @@ def test_days_off_a_phase_at_the_telescope_waits_through_are_listed_too():
     (window,) = crew_windows(first, cost, list(RECOAT_PHASES), MON_FRI, off, alternatives=0)
     assert (window["start"], window["end"]) == (first, dt.date(2026, 12, 30))
     assert window["days_off"] == sorted(off.items())
+
+
+def test_a_plan_whose_phases_a_day_off_listed_since_would_move_says_so_on_the_mirror_page(mirror, users, client):
+    """Planned from Monday 3 August 2026 with no days off, then 11 August (the reinstall's second day) listed: laid
+    out again the reinstall runs 10 and 12 August, so the page says what moved and to plan again."""
+    from observatory_ops.mirrors import services
+    from observatory_ops.registry.models import CrewDayOff
+
+    plan = services.recoat_plan_create(mirror, dt.date(2026, 8, 3), list(RECOAT_PHASES), 12.0, users["engineer"])
+    assert services.plan_out_of_step(plan) == ""
+    CrewDayOff.objects.create(site=mirror.subsystem.telescope.site, date=dt.date(2026, 8, 11), note="flood")
+    said = services.plan_out_of_step(plan)
+    assert "reinstall Mon 10 Aug to Wed 12 Aug" in said and "Tue 11 Aug 2026 (flood)" in said
+    client.force_login(users["viewer"])
+    page = html.unescape(client.get(f"/mirrors/{mirror.pk}/").content.decode())
+    assert said in page
+    plan.work_orders.update(state="withdrawn")
+    assert services.plan_out_of_step(plan) == ""  # nothing left to do on it

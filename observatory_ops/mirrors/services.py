@@ -300,6 +300,34 @@ def phase_dates(
     ]
 
 
+def plan_out_of_step(plan: RecoatPlan) -> str:
+    """For a recoat plan with work still to do: what changed since it was made, when the site's crew days (its
+    weekdays or days off) would now put its phases on other days; "" when they fall as planned.
+
+    The phases are laid out again from the plan's first day (``phase_dates``) and compared with the days stored
+    when it was made; a phase whose name is not one of the planner's (``windows.RECOAT_PHASES``) is not checked.
+    """
+    if not plan.work_orders.filter(state__in=(State.DRAFT, State.ISSUED)).exists():
+        return ""
+    known = {p.name: p for p in windows.RECOAT_PHASES}
+    if any(p["name"] not in known for p in plan.phases):
+        return ""
+    site = plan.mirror.subsystem.telescope.site
+    phases = [windows.Phase(p["name"], p["days"], known[p["name"]].work) for p in plan.phases]
+    days_off = crew_days_off(site, plan.starts_on)
+    now = phase_dates(plan.starts_on, phases, site.crew_days, days_off)
+    stored = [(dt.date.fromisoformat(p["first"]), dt.date.fromisoformat(p["last"])) for p in plan.phases]
+    moved = [f"{laid['phase'].name} {laid['first']:%a %d %b} to {laid['last']:%a %d %b}"
+             for laid, was in zip(now, stored, strict=True) if (laid["first"], laid["last"]) != was]
+    if not moved:
+        return ""
+    inside = [f"{day:%a %d %b %Y}" + (f" ({note})" if note else "") for day, note in days_off.items()
+              if plan.starts_on <= day <= plan.ends_on]
+    listed = f" Days off now listed inside it: {'; '.join(inside)}." if inside else ""
+    return (f"The crew's working days or days off have changed since this plan was made: laid out again from its "
+            f"first day, {'; '.join(moved)}.{listed} Withdraw its orders still to do and plan the window again.")
+
+
 def _day_numbers(first: dt.date, days: Iterable[dt.date]) -> list[int]:
     """``days`` from ``first`` on as day numbers counted from it (``first`` is day 0), as calc.windows takes them."""
     return [(day - first).days for day in days if day >= first]

@@ -41,9 +41,11 @@ def mirror_detail(request, pk):
             "history": changes(mirror, limit=5),
             "history_label": "mirrors.mirror",
             "history_pk": mirror.pk,
-            "plans": mirror.recoat_plans.prefetch_related(
-                Prefetch("work_orders", queryset=WorkOrder.objects.order_by("planned_date", "pk"))
-            ),
+            "plans": [
+                (plan, services.plan_out_of_step(plan)) for plan in mirror.recoat_plans.prefetch_related(
+                    Prefetch("work_orders", queryset=WorkOrder.objects.order_by("planned_date", "pk"))
+                )
+            ],
         },
     )
 
