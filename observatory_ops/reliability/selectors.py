@@ -50,6 +50,13 @@ class KindReliability:
     zero_intervals: int = 0
 
     @property
+    def fit_inputs(self) -> str:
+        """The hours the Weibull fit was made from, as the page lists them so that anyone can fit them again."""
+        between = ", ".join(f"{t:,.0f}" for t in sorted(t for t in self.between if t > 0))
+        running = ", ".join(f"{t:,.0f}" for t in sorted(self.running))
+        return f"between failures: {between or 'none'} h; still running (censored): {running or 'none'} h"
+
+    @property
     def retired(self) -> int:
         return self.counted - self.in_service
 
