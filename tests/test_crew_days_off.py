@@ -21,6 +21,17 @@ import re
 
 import numpy as np
 import pytest
+from crew_calendar import (
+    CREW_WORK,
+    MON_FRI,
+    busday_reference,
+    crews,
+    dated,
+    dates,
+    mirror_under_a_flat_sky,
+    phase_lists,
+    weekmask,
+)
 from django.core.exceptions import ValidationError
 from hypothesis import given, settings
 from hypothesis import strategies as st
@@ -34,48 +45,8 @@ from observatory_ops.calc.windows import (
 )
 
 INF = np.inf
-MON_FRI = frozenset({1, 2, 3, 4, 5})
-#: The work our crew does at the telescope, as the feature asks for it (the coating is at an outside plant).
-CREW_WORK = ("removal", "reinstall", "realignment")
 CHRISTMAS, NEW_YEAR = dt.date(2026, 12, 25), dt.date(2027, 1, 1)
 
-
-def weekmask(crew: frozenset[int]) -> str:
-    """numpy's weekmask runs Monday to Sunday, as ISO weekdays 1 to 7 do."""
-    return "".join("1" if day in crew else "0" for day in range(1, 8))
-
-
-def busday_reference(
-    phases: list[Phase], start: dt.date, crew: frozenset[int], days_off: list[dt.date]
-) -> list[tuple[dt.date, dt.date]]:
-    """Each phase's first and last date from numpy's business-day calendar with the days off as holidays: a crew
-    phase from the first working day on (``busday_offset`` rolled forward) to its ``days - 1``-th working day
-    after that; any other phase on calendar days."""
-    mask, holidays = weekmask(crew), np.array(days_off, dtype="datetime64[D]")
-    cursor, laid = np.datetime64(start, "D"), []
-    for phase in phases:
-        if phase.days and phase.work in CREW_WORK:
-            first = np.busday_offset(cursor, 0, roll="forward", weekmask=mask, holidays=holidays)
-            last = np.busday_offset(first, phase.days - 1, roll="forward", weekmask=mask, holidays=holidays)
-        else:
-            first, last = cursor, cursor + np.timedelta64(phase.days - 1, "D")
-        laid.append((first.astype(dt.date), last.astype(dt.date)))
-        cursor = last + np.timedelta64(1, "D")
-    return laid
-
-
-def dated(phases: list[Phase], start: dt.date, crew: frozenset[int], days_off: list[dt.date]):
-    off = [(day - start).days for day in days_off if day >= start]
-    return [(start + dt.timedelta(days=p.first), start + dt.timedelta(days=p.last))
-            for p in phase_days(phases, start.isoweekday(), crew, days_off=off)]
-
-
-phase_lists = st.lists(
-    st.builds(Phase, name=st.just("step"), days=st.integers(0, 6), work=st.sampled_from([*CREW_WORK, "coating", ""])),
-    min_size=1, max_size=6,
-).filter(lambda phases: sum(p.days for p in phases) > 0)
-crews = st.frozensets(st.integers(1, 7), min_size=1)
-dates = st.dates(dt.date(2000, 1, 1), dt.date(2040, 12, 31))
 #: Days off as day numbers from the start: a few scattered, or a run of them (a closure), within two months.
 offsets = st.one_of(
     st.sets(st.integers(0, 60), max_size=12),
@@ -315,18 +286,9 @@ def test_an_engineer_takes_a_day_off_off_the_list(engineer_in_admin, site) -> No
 def mirror(telescope):
     """A 500 mm primary, and a sky of 4 moonless dark hours every night over December and January (every night
     costs the same), at a site whose crew is off on Christmas Day and New Year's Day."""
-    from observatory_ops.mirrors.models import CoatingEvent, Mirror
-    from observatory_ops.planning.models import NightSky
-    from observatory_ops.registry.models import CrewDayOff, Subsystem
+    from observatory_ops.registry.models import CrewDayOff
 
-    primary = Subsystem.objects.create(telescope=telescope, kind="primary_mirror", name="Primary")
-    made = Mirror.objects.create(subsystem=primary, diameter_mm=500, thickness_mm=50, hole_mm=120,
-                                 material="borosilicate", cell_mass_kg=30)
-    CoatingEvent.objects.create(mirror=made, coated_on=dt.date(2025, 8, 1), metal="al")
-    NightSky.objects.bulk_create(
-        NightSky(site=telescope.site, night=dt.date(2026, 12, 1) + dt.timedelta(days=i), dark_hours=8,
-                 moon_illumination=0.5, moonless_dark_hours=4) for i in range(62)
-    )
+    made = mirror_under_a_flat_sky(telescope, dt.date(2026, 12, 1), 62)
     for day in (CHRISTMAS, NEW_YEAR):
         CrewDayOff.objects.create(site=telescope.site, date=day, note="public holiday")
     return made

@@ -18,6 +18,16 @@ import re
 
 import numpy as np
 import pytest
+from crew_calendar import (
+    CREW_WORK,
+    MON_FRI,
+    busday_reference,
+    crews,
+    dated,
+    dates,
+    mirror_under_a_flat_sky,
+    phase_lists,
+)
 from django.core.exceptions import ValidationError
 from hypothesis import given, settings
 from hypothesis import strategies as st
@@ -37,39 +47,6 @@ from observatory_ops.calc.windows import (
 )
 
 INF = np.inf
-MON_FRI = frozenset({1, 2, 3, 4, 5})
-#: The work our crew does at the telescope, as the feature asks for it (the coating is at an outside plant).
-CREW_WORK = ("removal", "reinstall", "realignment")
-
-
-def busday_reference(phases: list[Phase], start: dt.date, crew: frozenset[int]) -> list[tuple[dt.date, dt.date]]:
-    """Each phase's first and last date from numpy's business-day calendar: a crew phase from the first working
-    day on (``busday_offset`` rolled forward) to its ``days - 1``-th working day after that; any other phase on
-    calendar days. numpy's weekmask runs Monday to Sunday, as ISO weekdays 1 to 7 do."""
-    mask = "".join("1" if day in crew else "0" for day in range(1, 8))
-    cursor, laid = np.datetime64(start, "D"), []
-    for phase in phases:
-        if phase.days and phase.work in CREW_WORK:
-            first = np.busday_offset(cursor, 0, roll="forward", weekmask=mask)
-            last = np.busday_offset(first, phase.days - 1, roll="forward", weekmask=mask)
-        else:
-            first, last = cursor, cursor + np.timedelta64(phase.days - 1, "D")
-        laid.append((first.astype(dt.date), last.astype(dt.date)))
-        cursor = last + np.timedelta64(1, "D")
-    return laid
-
-
-def dated(phases: list[Phase], start: dt.date, crew: frozenset[int]) -> list[tuple[dt.date, dt.date]]:
-    return [(start + dt.timedelta(days=p.first), start + dt.timedelta(days=p.last))
-            for p in phase_days(phases, start.isoweekday(), crew)]
-
-
-phase_lists = st.lists(
-    st.builds(Phase, name=st.just("step"), days=st.integers(0, 6), work=st.sampled_from([*CREW_WORK, "coating", ""])),
-    min_size=1, max_size=6,
-).filter(lambda phases: sum(p.days for p in phases) > 0)
-crews = st.frozensets(st.integers(1, 7), min_size=1)
-dates = st.dates(dt.date(2000, 1, 1), dt.date(2040, 12, 31))
 
 
 # --- where the phases fall ---------------------------------------------------------------------------------
@@ -318,19 +295,7 @@ def test_the_admin_refuses_bad_crew_days_and_keeps_the_stored_ones(engineer_in_a
 @pytest.fixture
 def mirror(telescope):
     """A 500 mm primary, and a sky of 4 moonless dark hours every night (every night costs the same)."""
-    from observatory_ops.mirrors.models import CoatingEvent, Mirror
-    from observatory_ops.planning.models import NightSky
-    from observatory_ops.registry.models import Subsystem
-
-    primary = Subsystem.objects.create(telescope=telescope, kind="primary_mirror", name="Primary")
-    made = Mirror.objects.create(subsystem=primary, diameter_mm=500, thickness_mm=50, hole_mm=120,
-                                 material="borosilicate", cell_mass_kg=30)
-    CoatingEvent.objects.create(mirror=made, coated_on=dt.date(2025, 8, 1), metal="al")
-    NightSky.objects.bulk_create(
-        NightSky(site=telescope.site, night=dt.date(2026, 7, 1) + dt.timedelta(days=i), dark_hours=8,
-                 moon_illumination=0.5, moonless_dark_hours=4) for i in range(120)
-    )
-    return made
+    return mirror_under_a_flat_sky(telescope, dt.date(2026, 7, 1), 120)
 
 
 def _text(html: str) -> str:
