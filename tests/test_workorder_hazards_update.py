@@ -382,3 +382,91 @@ def test_the_admin_shows_an_orders_hazards_and_steps_but_does_not_edit_them(orde
     page = admin_client.get(f"/admin/workorders/workorder/{order.pk}/change/").content.decode()
     assert 'name="hazards"' not in page and 'name="steps"' not in page
     assert html.escape(LOCKOUT) in page or LOCKOUT in page
+
+
+# --- an order started before its subsystems gained a hazard ---------------------------------------------------
+
+
+def _started_then_hazard(order, drive, users):  # noqa: F811
+    services.work_order_move(order, "issue", users["engineer"])
+    services.work_order_move(order, "start", users["technician"])
+    _add_hazard(drive, "height")
+
+
+def _finish_data(work_order, **extra) -> dict:
+    data = {"actual_hours": "1.5", "findings": "", "confirm_unticked": "on",
+            "unticked": [line.text for line in selectors.unticked_lines(work_order)]}
+    data.update({f"reading_{r.pk}": "0.5" for r in work_order.required_readings.all()})
+    return {**data, **extra}
+
+
+def test_finishing_an_order_that_lacks_a_hazard_needs_a_confirmation_and_findings_that_say_how(
+    order, drive, users  # noqa: F811
+):
+    """The work may be done when the hazard appears; finishing it then records that the person confirmed the
+    hazard was controlled (fall protection: OSHA 29 CFR 1910.28), never silently."""
+    _started_then_hazard(order, drive, users)
+    readings = {r.pk: 0.5 for r in order.required_readings.all()}
+    unticked = [line.text for line in selectors.unticked_lines(order)]
+    with pytest.raises(services.Refused, match="lacks hazards .*work at height.*confirm"):
+        services.work_order_finish(order, users["technician"], 1.5, "done", readings, confirmed_unticked=unticked)
+    with pytest.raises(services.Refused, match="say in the findings how the hazards"):
+        services.work_order_finish(
+            order, users["technician"], 1.5, "  ", readings, confirmed_unticked=unticked, confirmed_hazards=["height"]
+        )
+    fresh = _fresh(order)
+    assert fresh.state == State.UNDERWAY and fresh.hazards_confirmed_at_finish == [] and fresh.finished_at is None
+    assert not fresh.items.first().subsystem.service_records.exists()
+
+    services.work_order_finish(
+        order, users["technician"], 1.5, "Harness clipped to the dome anchor throughout.", readings,
+        confirmed_unticked=unticked, confirmed_hazards=["height"],
+    )
+    fresh = _fresh(order)
+    assert fresh.state == State.FINISHED and fresh.hazards_confirmed_at_finish == ["height"]
+    assert "height" not in fresh.hazards  # the order keeps what it carried; the record says what it lacked
+
+
+def test_an_order_that_lacks_nothing_finishes_as_before_and_records_no_hazard(order, users):  # noqa: F811
+    services.work_order_move(order, "issue", users["engineer"])
+    services.work_order_move(order, "start", users["technician"])
+    services.work_order_finish(
+        order, users["technician"], 1.0, "", {r.pk: 0.5 for r in order.required_readings.all()},
+        confirmed_unticked=[line.text for line in selectors.unticked_lines(order)],
+    )
+    assert _fresh(order).hazards_confirmed_at_finish == []
+
+
+def test_the_finish_form_shows_the_lacking_hazards_cautions_and_asks_for_the_confirmation(
+    order, drive, users, client  # noqa: F811
+):
+    _started_then_hazard(order, drive, users)
+    client.force_login(users["technician"])
+    url = f"/workorders/{order.pk}/finish/"
+    page = _text(client.get(url))
+    assert "Hazards this work order lacks" in page and CAUTIONS["height"].text in page
+    assert "local codes" in page.lower()  # the precedence statement stands beside the cautions
+
+    refused = _text(client.post(url, _finish_data(order, findings="done")))
+    assert "Confirm that these hazards were controlled or did not arise" in refused
+    assert _fresh(order).state == State.UNDERWAY
+
+    done = client.post(
+        url, _finish_data(order, findings="Harness on.", confirm_hazards="on", lacking_hazard=["height"]), follow=True
+    )
+    assert _fresh(order).state == State.FINISHED
+    record = _text(done)
+    assert "The 1 hazard(s) it lacked, confirmed as controlled, are on the record." in record
+    assert "confirmed that they were controlled or did not arise, and the findings say how: Work at height." in record
+    assert "hazards its subsystems gained after it was made (work at height)" in _pdf_text(client, order)
+
+
+def test_a_hazard_added_while_the_finish_form_was_open_is_not_confirmed_by_it(order, drive, users, client):  # noqa: F811
+    """The confirmation names the hazards the person saw; one added since sends them back to the form."""
+    _started_then_hazard(order, drive, users)
+    client.force_login(users["technician"])
+    data = _finish_data(order, findings="Harness on.", confirm_hazards="on", lacking_hazard=["height"])
+    _add_hazard(drive, "laser")
+    page = _text(client.post(f"/workorders/{order.pk}/finish/", data))
+    assert "lacks hazards its subsystems gained after it was made (alignment lasers): confirm" in page
+    assert _fresh(order).state == State.UNDERWAY

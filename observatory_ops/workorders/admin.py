@@ -43,6 +43,7 @@ class WorkOrderAdmin(SimpleHistoryAdmin):
     # where the energy is isolated (services.work_order_hazards_update, forms.WorkOrderEditForm).
     readonly_fields = (
         "state", "finished_at", "finished_by", "countersigned_at", "countersigned_by", "unticked_at_finish",
+        "hazards_confirmed_at_finish",
         "hazards", "steps", "at_telescope",
     )
 

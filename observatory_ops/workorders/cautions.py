@@ -48,7 +48,8 @@ HAZARDS_MISSING_BEFORE_START = (
 )
 HAZARDS_MISSING_STARTED = (
     "Technicians: stop the work as soon as it is safe to do so, and ask the site engineer before going on. "
-    "The engineer withdraws this order and makes a new one, which carries them."
+    "The engineer withdraws this order and makes a new one, which carries them. If the work was already done, "
+    "the finish form asks you to confirm that they were controlled or did not arise, and to say how."
 )
 HAZARDS_MISSING_ON_PAPER = (
     "Do not start the work from this sheet, and if it has started, stop as soon as it is safe to do so: ask the "

@@ -112,12 +112,13 @@ class AdHocForm(forms.Form):
 
 class FinishForm(forms.Form):
     """Hours, findings, the required readings and the parts used. ``confirm_unticked`` is asked for only
-    when checklist lines are not ticked; ``beyond_limits`` names the readings past their limit."""
+    when checklist lines are not ticked, ``confirm_hazards`` only when the order lacks hazards its
+    subsystems gained after it was made; ``beyond_limits`` names the readings past their limit."""
 
     actual_hours = forms.FloatField(min_value=0, max_value=1000)
     findings = forms.CharField(widget=forms.Textarea, required=False, max_length=20000)
 
-    def __init__(self, *args, order, unticked=(), **kwargs):
+    def __init__(self, *args, order, unticked=(), lacking_hazards=(), **kwargs):
         super().__init__(*args, **kwargs)
         self._required = {r.pk: r for r in order.required_readings.select_related("subsystem")}
         for r in self._required.values():
@@ -140,6 +141,12 @@ class FinishForm(forms.Form):
         if unticked:
             self.fields["confirm_unticked"] = forms.BooleanField(
                 required=False, label="I confirm the unticked lines were done or did not apply"
+            )
+        if lacking_hazards:
+            self.fields["confirm_hazards"] = forms.BooleanField(
+                required=False,
+                label="I confirm the hazards listed above were controlled, or did not arise in this work, and the "
+                      "findings say how",
             )
 
     def readings(self) -> dict[int, float]:

@@ -90,6 +90,12 @@ class WorkOrder(models.Model):
         help_text="Checklist lines nobody ticked when the work was finished; the person finishing confirmed that "
                   "they were done or did not apply.",
     )
+    hazards_confirmed_at_finish = models.JSONField(
+        default=list, blank=True,
+        help_text="Hazard codes its subsystems gained after it was made, which it lacked when the work was "
+                  "finished; the person finishing confirmed that they were controlled or did not arise, and the "
+                  "findings say how.",
+    )
 
     class Meta:
         ordering = ["-created_at"]

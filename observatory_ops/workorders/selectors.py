@@ -313,7 +313,8 @@ def unticked_lines(order: WorkOrder) -> list[ChecklistLine]:
 
 def checklist_record(order: WorkOrder, points: list[IsolationPoint]) -> tuple[str, ...]:
     """The checklist as the finished record prints it: every line whose newest entry is a tick, by whom and
-    when (site time), steps first; a tick on a step changed since, as the step read then; and, last, the
+    when (site time), steps first; a tick on a step changed since, as the step read then; the hazards the
+    order lacked when it was finished, confirmed as controlled (``hazards_confirmed_at_finish``); and, last, the
     lines nobody ticked: as they were kept when the work was finished, with who confirmed them, or (orders
     finished before that list was kept) as they stand now."""
     zone = order.site.zone
@@ -331,6 +332,13 @@ def checklist_record(order: WorkOrder, points: list[IsolationPoint]) -> tuple[st
         when = dateformat.format(tick.recorded_at.astimezone(zone), "d M Y H:i")  # as tick_note words it
         changed = " (as it read then; changed since)" if current.get(tick.line) != tick.text else ""
         record.append(f"{what}{changed}: {tick.text} \N{EM DASH} ticked by {person(tick.recorded_by)}, {when}")
+    if order.hazards_confirmed_at_finish:
+        record.append(
+            "Finished without the cautions for hazards its subsystems gained after it was made ("
+            + ", ".join(HAZARDS[h].lower() for h in order.hazards_confirmed_at_finish)
+            + f"); {person(order.finished_by)} confirmed that they were controlled or did not arise, and the findings "
+            "say how."
+        )
     if order.unticked_at_finish:
         record.append(
             f"Not ticked when the work was finished; {person(order.finished_by)} confirmed that each of these was "

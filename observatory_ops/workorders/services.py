@@ -339,6 +339,7 @@ def work_order_finish(
     parts_used: dict[int, float] | None = None,
     confirmed_unticked: Collection[str] = (),
     cleanings: dict[int, str] | None = None,
+    confirmed_hazards: Collection[str] = (),
 ) -> WorkOrder:
     """Record the work: service records for every item, readings, parts used; reset plans; recompute.
 
@@ -350,9 +351,12 @@ def work_order_finish(
     planned). ``confirmed_unticked`` holds the words of the checklist lines (isolation points and steps)
     that the person confirmed were done or did not apply although nobody ticked them; every line not
     ticked when the work is finished must be among them, and the order keeps the list
-    (``unticked_at_finish``). Refused with a reason, changing nothing, when a reading is missing, a
-    quantity is negative, stock would go below zero, an unticked line was not confirmed, or the order is
-    no longer underway (``AlreadyFinished`` when it was finished meanwhile).
+    (``unticked_at_finish``). ``confirmed_hazards`` holds the codes of the hazards its subsystems gained
+    after it was made (``selectors.hazards_missing``) that the person confirmed were controlled or did not
+    arise; every one must be among them, the findings must say how, and the order keeps the list
+    (``hazards_confirmed_at_finish``). Refused with a reason, changing nothing, when a reading is missing, a
+    quantity is negative, stock would go below zero, an unticked line or a hazard the order lacks was not
+    confirmed, or the order is no longer underway (``AlreadyFinished`` when it was finished meanwhile).
     """
     from observatory_ops.mirrors.models import Mirror  # mirrors builds on work orders
     from observatory_ops.mirrors.services import cleaning_log, measurement_from_reading
@@ -379,11 +383,24 @@ def work_order_finish(
     now = timezone.now()
     items = list(order.items.select_related("subsystem", "plan"))
     with transaction.atomic():
+        lacking = hazards_missing(order)  # read while the order is still underway
         claimed = WorkOrder.objects.filter(pk=order.pk, state=State.UNDERWAY).update(
-            state=State.FINISHED, finished_at=now, finished_by=by, actual_hours=actual_hours, findings=findings
+            state=State.FINISHED, finished_at=now, finished_by=by, actual_hours=actual_hours, findings=findings,
+            hazards_confirmed_at_finish=lacking,
         )
         if not claimed:
             raise _claim_refusal(order, by)
+        if unconfirmed_hazards := [h for h in lacking if h not in set(confirmed_hazards)]:
+            raise Refused(
+                f"{order.number} lacks hazards its subsystems gained after it was made "
+                f"({', '.join(HAZARDS[h].lower() for h in unconfirmed_hazards)}): confirm that they were controlled "
+                "or did not arise in this work, and say how in the findings, or ask the site engineer"
+            )
+        if lacking and not findings.strip():
+            raise Refused(
+                "say in the findings how the hazards this order lacked "
+                f"({', '.join(HAZARDS[h].lower() for h in lacking)}) were controlled, or why they did not arise"
+            )
         # Read once the order is claimed: no tick can be recorded or taken back after this point.
         unticked = unticked_lines(WorkOrder.objects.select_related("site").get(pk=order.pk))
         unconfirmed = [line for line in unticked if line.text not in set(confirmed_unticked)]

@@ -102,6 +102,7 @@ def work_order_detail(request, pk):
             "order": order,
             "site": order.site,
             "hazards_notice": selectors.hazards_notice(order, missing),
+            "hazards_confirmed": [HAZARDS[h] for h in order.hazards_confirmed_at_finish],
             "can_update_hazards": bool(missing) and editable,
             "lockout_step_warning": selectors.lockout_step_warning(order),
             "parts_unregistered": selectors.parts_unregistered(order),
@@ -243,7 +244,8 @@ def work_order_finish(request, pk):
             messages.info(request, f"{order.number} is {order.get_state_display()}: there is nothing to finish.")
         return redirect(order)
     unticked = selectors.unticked_lines(order)
-    form = FinishForm(request.POST or None, order=order, unticked=unticked,
+    lacking = selectors.hazards_missing(order)
+    form = FinishForm(request.POST or None, order=order, unticked=unticked, lacking_hazards=lacking,
                       initial={"actual_hours": order.estimated_hours})
     flags: dict[str, str] = {}
     flagged: list[str] = []
@@ -251,10 +253,16 @@ def work_order_finish(request, pk):
         flags = form.beyond_limits()
         flagged = sorted(f"{name}={form.cleaned_data[name]!r}" for name in flags)
         confirmed = form.cleaned_data.get("confirm_unticked", False)
+        hazards_confirmed = form.cleaned_data.get("confirm_hazards", False)
         if unticked and not confirmed:
             form.add_error(
                 "confirm_unticked", "Tick the lines on the work order page, or confirm here that they were done "
                 "or did not apply."
+            )
+        elif lacking and not hazards_confirmed:
+            form.add_error(
+                "confirm_hazards", "Confirm that these hazards were controlled or did not arise, and say how in the "
+                "findings; if you cannot, do not finish: ask the site engineer."
             )
         # Readings beyond their limit are first shown beside their fields; the same values posted again from
         # that page are recorded as measured.
@@ -265,6 +273,7 @@ def work_order_finish(request, pk):
                     form.readings(), form.parts(),
                     confirmed_unticked=request.POST.getlist("unticked") if confirmed else (),
                     cleanings=form.cleanings(),
+                    confirmed_hazards=request.POST.getlist("lacking_hazard") if hazards_confirmed else (),
                 )
             except services.Refused as exc:
                 if isinstance(exc, services.AlreadyFinished) and exc.by_you:  # pressed twice at once
@@ -275,14 +284,17 @@ def work_order_finish(request, pk):
                 done = f"{order.number} finished: service records written, plans restarted."
                 if unticked:
                     done += f" {len(unticked)} unticked line(s) confirmed as done or not applicable are on the record."
+                if lacking:
+                    done += f" The {len(lacking)} hazard(s) it lacked, confirmed as controlled, are on the record."
                 if flags:
                     done += f" {len(flags)} reading(s) beyond their limit are flagged on the record."
                 messages.success(request, done)
                 return redirect(order)
-    fields = [(form[name], flags.get(name, "")) for name in form.fields if name != "confirm_unticked"]
+    fields = [(form[name], flags.get(name, "")) for name in form.fields if not name.startswith("confirm_")]
     return render(
         request, "workorders/finish.html",
-        {"form": form, "order": order, "fields": fields, "unticked": unticked, "flagged": flagged},
+        {"form": form, "order": order, "fields": fields, "unticked": unticked, "flagged": flagged,
+         "lacking": lacking, "lacking_cautions": cautions_for(lacking), "precedence": PRECEDENCE_STATEMENT},
     )
 
 
