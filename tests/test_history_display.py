@@ -156,3 +156,28 @@ def test_changes_keep_the_moment_in_utc(denver, named):
     latest = changes(denver)[0]
     assert latest.when == WINTER_UTC and latest.when.utcoffset() == dt.timedelta(0)
     assert latest.when_shown == WINTER_SHOWN and latest.zone_name == DENVER
+
+
+def test_the_sites_history_writes_the_crew_weekdays_in_words(denver, named, users, client):
+    """Stored as ISO weekday digits (ISO 8601: 1 Monday to 7 Sunday), shown as the site's pages write them
+    (Site.crew_days_text): 12345 is Monday to Friday, a run of three or more as a range; 1357 is Monday,
+    Wednesday, Friday and Sunday. The CSV writes the same words."""
+    site = denver.telescope.site
+    _changed_at(site, WINTER_UTC, named, crew_weekdays="1357")
+    client.force_login(users["viewer"])
+    url = f"/history/registry.site/record/{site.pk}/"
+    page = client.get(url).content.decode()
+    assert "<strong>crew_weekdays</strong>: Mon–Fri → Mon, Wed, Fri, Sun</div>" in page
+    assert "12345" not in page and "1357" not in page
+    assert site.crew_days_text == "Mon, Wed, Fri, Sun"  # one helper for both
+    header, *rows = list(csv.reader(io.StringIO(client.get(f"{url}?export=csv").content.decode())))
+    latest = dict(zip(header, rows[0], strict=True))
+    assert (latest["field"], latest["before"], latest["after"]) == ("crew_weekdays", "Mon–Fri", "Mon, Wed, Fri, Sun")
+
+
+def test_crew_weekdays_stored_outside_the_code_are_shown_as_stored(denver, named):
+    """A value saved without validation (a script, an old row) is not in the code: the history shows it as it is
+    rather than failing."""
+    site = denver.telescope.site
+    _changed_at(site, WINTER_UTC, named, crew_weekdays="19")
+    assert changes(site)[0].fields == [("crew_weekdays", "Mon–Fri", "19")]

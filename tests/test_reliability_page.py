@@ -13,7 +13,13 @@ from observatory_ops.calc import reliability
 from observatory_ops.logbook.models import NightUsage, ServiceRecord
 from observatory_ops.registry.models import Subsystem
 from observatory_ops.registry.services import subsystem_create
-from observatory_ops.reliability.selectors import site_reliability
+from observatory_ops.reliability.selectors import (
+    FIRST_NIGHT,
+    IN_SERVICE_SINCE,
+    PLANS_COUNTING_FROM,
+    REGISTERED,
+    site_reliability,
+)
 from observatory_ops.workorders.models import State, WorkOrder
 from observatory_ops.workorders.services import work_order_ad_hoc
 
@@ -140,6 +146,7 @@ def test_a_subsystem_with_neither_plans_nor_a_history_entry_counts_from_the_firs
     Subsystem.history.filter(id=old.pk).delete()
     computers = next(k for k in site_reliability(record, TODAY).kinds if k.code == "computers")
     assert computers.operating_hours == 100 * 5.0  # every logged night, 5 open hours each
+    assert computers.start_bases == FIRST_NIGHT
     assert computers.no_fit == "no failure to fit"
 
 
@@ -159,3 +166,56 @@ def test_the_page_lists_the_hours_each_fit_was_made_from(record, client):
     assert fans.fit_inputs == "between failures: 105, 150, 300 h; still running (censored): 155, 200, 245 h"
     client.force_login(User.objects.get(username="viewer"))
     assert fans.fit_inputs in client.get(reverse("site-reliability", args=[record.slug])).content.decode()
+
+
+def test_a_subsystem_with_an_in_service_date_counts_its_hours_from_that_date(record):
+    """Fan B went into service on 1 Feb 2026, though its plans count from 1 Jan. By hand (5 open hours a night):
+    the 31 January nights (155 h) drop out, so its failure on the night of 1 Mar comes 29 nights (145 h) after it
+    went into service, and it has run 200 h since; the fans' hours are 1,155 - 155 = 1,000 h."""
+    Subsystem.objects.filter(name="Fan B").update(in_service_since=dt.date(2026, 2, 1))
+    fans = next(k for k in site_reliability(record, TODAY).kinds if k.code == "cooling_fans")
+    assert fans.operating_hours == pytest.approx(1000.0)
+    assert sorted(fans.between) == [105.0, 145.0, 150.0]
+    assert sorted(fans.running) == [155.0, 200.0, 245.0]
+    assert [(s.subsystem, s.day, s.basis) for s in fans.starts] == [
+        ("T1: Fan A", START, PLANS_COUNTING_FROM),
+        ("T1: Fan B", dt.date(2026, 2, 1), IN_SERVICE_SINCE),
+        ("T1: Fan C", START, PLANS_COUNTING_FROM),
+    ]
+    assert fans.start_bases == "the in-service date given (1), the plans' earliest counting-from date (2)"
+
+
+def test_an_in_service_date_before_its_plans_counting_from_date_counts_the_nights_between(record, telescope):
+    """A spare encoder registered with plans counting from 1 Mar 2026 but in service since 1 Jan: it counts all
+    100 logged nights (500 h), not the 51 from 1 Mar (255 h)."""
+    spare = subsystem_create(telescope, "encoder", "Axis 2 encoder", counting_from=dt.date(2026, 3, 1),
+                             in_service_since=START)
+    encoders = next(k for k in site_reliability(record, TODAY).kinds if k.code == "encoder")
+    assert encoders.operating_hours == pytest.approx(500.0 + 500.0)
+    assert next(s for s in encoders.starts if s.subsystem == f"T1: {spare.name}").basis == IN_SERVICE_SINCE
+
+
+def test_without_an_in_service_date_the_hours_count_as_before(record, telescope):
+    """None of the fixture's subsystems has an in-service date: each counts from its plans' earliest date, as the
+    first test's hand-computed figures show; one registered without plans counts from the day it was registered
+    (the site's local date of its entry in the history)."""
+    unplanned = Subsystem.objects.create(telescope=telescope, kind="computers", name="Dome PC")
+    registered = unplanned.history.get().history_date.astimezone(record.zone).date()
+    kinds = site_reliability(record, TODAY).kinds
+    for kind in kinds:
+        if kind.code != "computers":
+            assert {s.basis for s in kind.starts} == {PLANS_COUNTING_FROM}
+            assert kind.start_bases == PLANS_COUNTING_FROM
+    computers = next(k for k in kinds if k.code == "computers")
+    assert [(s.day, s.basis) for s in computers.starts] == [(registered, REGISTERED)]
+
+
+def test_the_page_says_where_each_kinds_hours_were_counted_from(record, client):
+    Subsystem.objects.filter(name="Fan B").update(in_service_since=dt.date(2026, 2, 1))
+    client.force_login(User.objects.get(username="viewer"))
+    page = client.get(reverse("site-reliability", args=[record.slug])).content.decode()
+    assert "counted from the in-service date given (1), the plans&#x27; earliest counting-from date (2)" in page
+    assert "T1: Fan B: from 01 Feb 2026 (the in-service date given)" in page
+    assert "counted from the plans&#x27; earliest counting-from date</summary>" in page  # the encoder
+    assert "its &quot;in service since&quot; date where one is given" not in page  # written as text, not escaped
+    assert 'its "in service since" date where one is given' in page

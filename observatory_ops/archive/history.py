@@ -16,7 +16,7 @@ from django.core.exceptions import FieldDoesNotExist
 from django.db import models
 from django.utils import dateformat
 
-from observatory_ops.registry.models import Site
+from observatory_ops.registry.models import Site, crew_weekdays_text
 
 KIND = {"+": "created", "~": "changed", "-": "deleted"}
 UTC = zoneinfo.ZoneInfo("UTC")
@@ -24,6 +24,9 @@ UTC = zoneinfo.ZoneInfo("UTC")
 SHOWN_TIME = "d M Y H:i"
 #: Links followed from a record to its site: trigger, plan, subsystem, telescope, site is the longest.
 SITE_LINKS = 5
+#: Fields stored in a code a person does not read, with how they are written out: the crew's ISO weekday digits
+#: ("12345") as the site's pages write them ("Mon–Fri").
+IN_WORDS = {(Site, "crew_weekdays"): crew_weekdays_text}
 
 
 @dataclass
@@ -89,11 +92,19 @@ def _text(value) -> str:
 
 def _shown(model, name: str, value, zone: zoneinfo.ZoneInfo) -> tuple[str, str]:
     """A changed value as a person reads it, and as the CSV writes it: a related record by its name (a
-    person by full name), not its id; a time in ``zone`` to the minute on the page, ISO 8601 UTC in the CSV."""
+    person by full name), not its id; a coded value in words (``IN_WORDS``); a time in ``zone`` to the minute on
+    the page, ISO 8601 UTC in the CSV."""
     try:
         model_field = model._meta.get_field(name)
     except FieldDoesNotExist:  # a field since removed from the model: show the stored value
         return _text(value), _text(value)
+    in_words = IN_WORDS.get((model, name))
+    if in_words is not None and value:
+        try:
+            text = in_words(value)
+        except ValueError:  # a value stored without validation, so not in the code: show it as stored
+            text = _text(value)
+        return text, text
     if isinstance(value, dt.datetime) and value.tzinfo is not None:
         return dateformat.format(value.astimezone(zone), SHOWN_TIME), value.astimezone(dt.UTC).isoformat()
     if model_field.is_relation and value is not None:

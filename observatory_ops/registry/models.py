@@ -30,6 +30,11 @@ def validate_crew_weekdays(value: str) -> None:
         raise ValidationError(f"{str(exc)[0].upper()}{str(exc)[1:]}.") from None
 
 
+def crew_weekdays_text(digits: str) -> str:
+    """The crew weekdays stored as ISO weekday digits in short words: "12345" is "Mon–Fri"."""
+    return windows.weekdays_text(windows.crew_weekdays_from(digits))
+
+
 def validate_hazards(value) -> None:
     from observatory_ops.workorders.cautions import HAZARDS
 
@@ -89,7 +94,7 @@ class Site(models.Model):
     @property
     def crew_days_text(self) -> str:
         """The crew's working days in short words, e.g. "Mon–Fri"."""
-        return windows.weekdays_text(self.crew_days)
+        return crew_weekdays_text(self.crew_weekdays)
 
 
 class CrewDayOff(models.Model):
@@ -156,6 +161,10 @@ class Telescope(models.Model):
         return ("right ascension", "declination") if self.equatorial else ("azimuth", "elevation")
 
 
+#: The earliest "in service since" date taken as typed; an earlier one is a slip of the keyboard.
+EARLIEST_IN_SERVICE = dt.date(1900, 1, 1)
+
+
 class SubsystemQuerySet(models.QuerySet):
     def in_service(self):
         return self.filter(retired_on__isnull=True)
@@ -170,6 +179,12 @@ class Subsystem(models.Model):
     hazards = models.JSONField(default=list, blank=True, validators=[validate_hazards])
     serial_number = models.CharField(max_length=80, blank=True)
     notes = models.TextField(blank=True)
+    in_service_since = models.DateField(
+        "in service since", null=True, blank=True,
+        help_text="The day it went into service: the start of the operating hours (the nightly log's dome-open "
+        "hours) counted for its reliability figures. Leave empty to count from its service plans' earliest "
+        "'counting from' date (without plans, the day it was registered, else the first logged night).",
+    )
     retired_on = models.DateField(null=True, blank=True)
 
     objects = SubsystemQuerySet.as_manager()
@@ -192,3 +207,22 @@ class Subsystem(models.Model):
             raise ValidationError({"parent": "The parent must belong to the same telescope."})
         if self.parent_id and self.pk and self.parent_id == self.pk:
             raise ValidationError({"parent": "A subsystem cannot be its own parent."})
+        if self.in_service_since:
+            self._clean_in_service_since()
+
+    def _clean_in_service_since(self) -> None:
+        from observatory_ops.planning.services import site_today  # planning's models import this module
+
+        since = self.in_service_since
+        if since < EARLIEST_IN_SERVICE:
+            raise ValidationError({"in_service_since": f"In service since {since:%d %b %Y} looks mistyped: give a "
+                                                       f"date from {EARLIEST_IN_SERVICE:%Y} on."})
+        if self.telescope_id:
+            today = site_today(self.telescope.site)
+            if since > today:
+                raise ValidationError({"in_service_since": f"In service since {since:%d %b %Y} is in the future: the "
+                                                           f"site's today is {today:%d %b %Y}. Give the day it went "
+                                                           "into service, or leave it empty."})
+        if self.retired_on and since > self.retired_on:
+            raise ValidationError({"in_service_since": f"In service since {since:%d %b %Y} is after the day it was "
+                                                       f"retired ({self.retired_on:%d %b %Y})."})

@@ -3,8 +3,9 @@ what maintenance cost in hours.
 
 A failure is a corrective work order that was finished (or countersigned): one failure for each subsystem it
 names. Operating hours are the site's dome-open hours from the nightly log, counted for each subsystem over
-the nights it was in service. Maintenance hours are those of the service records. A fixed handful of queries
-for a site, whatever its size (tests/test_reliability_page.py counts them).
+the nights it was in service (from its "in service since" date where one is given, see ``START_BASES``).
+Maintenance hours are those of the service records. A fixed handful of queries for a site, whatever its size
+(tests/test_reliability_page.py counts them).
 """
 from __future__ import annotations
 
@@ -31,6 +32,23 @@ HOURS_WINDOW_DAYS = 365
 WITHOUT_ORDER = "without_order"
 HOURS_COLUMNS = (*WorkOrder.Type.values, WITHOUT_ORDER)
 HOURS_COLUMN_LABELS = (*WorkOrder.Type.labels, "logged without a work order")
+#: Where a subsystem's operating hours start, first found first: the "in service since" date an engineer gave it,
+#: else the "counting from" date given when it was registered (its plans' earliest), else the day it was entered
+#: in the register (the history's), else the first logged night. The page says which each subsystem's came from.
+IN_SERVICE_SINCE = "the in-service date given"
+PLANS_COUNTING_FROM = "the plans' earliest counting-from date"
+REGISTERED = "the day registered"
+FIRST_NIGHT = "the first logged night"
+START_BASES = (IN_SERVICE_SINCE, PLANS_COUNTING_FROM, REGISTERED, FIRST_NIGHT)
+
+
+@dataclass(frozen=True)
+class Start:
+    """The day a subsystem's operating hours are counted from, and where that day came from."""
+
+    subsystem: str
+    day: dt.date
+    basis: str  # one of START_BASES
 
 
 @dataclass
@@ -48,6 +66,7 @@ class KindReliability:
     fit: reliability.WeibullFit | None = None
     no_fit: str = ""
     zero_intervals: int = 0
+    starts: list[Start] = field(default_factory=list)
 
     @property
     def fit_inputs(self) -> str:
@@ -55,6 +74,16 @@ class KindReliability:
         between = ", ".join(f"{t:,.0f}" for t in sorted(t for t in self.between if t > 0))
         running = ", ".join(f"{t:,.0f}" for t in sorted(self.running))
         return f"between failures: {between or 'none'} h; still running (censored): {running or 'none'} h"
+
+    @property
+    def start_bases(self) -> str:
+        """Where its subsystems' hours were counted from, e.g. "the in-service date given (2), the first logged
+        night (1)"; the count is left out when all share one."""
+        counts = {basis: sum(s.basis == basis for s in self.starts) for basis in START_BASES}
+        used = [(basis, n) for basis, n in counts.items() if n]
+        if len(used) == 1:
+            return used[0][0]
+        return ", ".join(f"{basis} ({n})" for basis, n in used)
 
     @property
     def retired(self) -> int:
@@ -80,20 +109,23 @@ class SiteReliability:
         return sum(self.hours_by_type.values())
 
 
-def _in_service_from(subsystems: list[tuple], site: Site) -> dict[int, dt.date]:
-    """The date each subsystem entered service: the 'counting from' date given when it was registered (its
-    plans' earliest), or for a subsystem without plans the local date it was entered in the register."""
-    starts = dict(
-        ServicePlan.objects.filter(subsystem__telescope__site=site)
-        .order_by()
-        .values("subsystem_id")
-        .annotate(start=Min("counting_from"))
-        .values_list("subsystem_id", "start")
-    )
-    missing = [pk for pk, *_ in subsystems if pk not in starts]
+def _starts(subsystems: list[tuple], site: Site, first_night: dt.date | None, today: dt.date) -> dict[int, Start]:
+    """The day each subsystem's hours are counted from, and its basis (``START_BASES``, first found first)."""
+    names = {pk: f"{telescope}: {name}" for pk, telescope, name, *_ in subsystems}
+    starts = {pk: Start(names[pk], since, IN_SERVICE_SINCE) for pk, *_, since in subsystems if since}
+    if len(starts) < len(subsystems):
+        for pk, day in (
+            ServicePlan.objects.filter(subsystem__telescope__site=site).order_by().values("subsystem_id")
+            .annotate(start=Min("counting_from")).values_list("subsystem_id", "start")
+        ):
+            starts.setdefault(pk, Start(names[pk], day, PLANS_COUNTING_FROM))
+    missing = [pk for pk in names if pk not in starts]
     if missing:
         for pk, when in Subsystem.history.filter(id__in=missing, history_type="+").values_list("id", "history_date"):
-            starts[pk] = when.astimezone(site.zone).date()
+            starts[pk] = Start(names[pk], when.astimezone(site.zone).date(), REGISTERED)
+    # Registered before the history was kept, and without plans: nothing says when it entered service.
+    for pk in missing:
+        starts.setdefault(pk, Start(names[pk], first_night or today, FIRST_NIGHT))
     return starts
 
 
@@ -103,10 +135,12 @@ def site_reliability(site: Site, today: dt.date | None = None) -> SiteReliabilit
     order type (an order's hours shared equally among the subsystems it names, as its service records are)."""
     today = today or site_today(site)
     subsystems = list(
-        Subsystem.objects.filter(telescope__site=site).values_list("pk", "kind", "retired_on").order_by("pk")
+        Subsystem.objects.filter(telescope__site=site)
+        .values_list("pk", "telescope__name", "name", "kind", "retired_on", "in_service_since")
+        .order_by("pk")
     )
-    starts = _in_service_from(subsystems, site)
     nights = list(NightUsage.objects.filter(site=site).order_by("night").values_list("night", "open_hours"))
+    starts = _starts(subsystems, site, nights[0][0] if nights else None, today)
     days = np.array([n for n, _ in nights], dtype="datetime64[D]")
     cumulative = np.concatenate([[0.0], np.cumsum([h for _, h in nights])])
 
@@ -123,16 +157,14 @@ def site_reliability(site: Site, today: dt.date | None = None) -> SiteReliabilit
 
     kinds = {code: KindReliability(code, spec.label) for code, spec in KINDS.items()}
     kind_of = {}
-    for pk, kind, retired_on in subsystems:
+    for pk, _, _, kind, retired_on, _ in subsystems:
         row = kinds.setdefault(kind, KindReliability(kind, kind))
         kind_of[pk] = row
         row.counted += 1
         row.in_service += retired_on is None
-        # A subsystem with neither plans nor a register entry in the history (registered before the history was
-        # kept) is counted from the first logged night.
-        start = starts.get(pk) or (nights[0][0] if nights else today)
+        row.starts.append(starts[pk])
         end = min(retired_on, today + dt.timedelta(days=1)) if retired_on else today + dt.timedelta(days=1)
-        base = hours_before(start)
+        base = hours_before(starts[pk].day)
         total = max(hours_before(end) - base, 0.0)
         # A failure belongs to the nights up to and including the night its repair finished in.
         at = [min(max(hours_before(n + dt.timedelta(days=1)) - base, 0.0), total) for n in failed_at.get(pk, [])]
