@@ -8,6 +8,7 @@ from __future__ import annotations
 
 import datetime as dt
 import math
+import re
 
 import pytest
 from django.core.exceptions import ValidationError
@@ -17,7 +18,7 @@ from django.utils import timezone
 from observatory_ops.logbook import services
 from observatory_ops.logbook.models import Reading, ServiceRecord
 from observatory_ops.logbook.nights_csv import earliest_accepted
-from observatory_ops.logbook.quantities import PLAUSIBLE_RANGE, QUANTITIES, value_problem
+from observatory_ops.logbook.quantities import PLAUSIBLE_RANGE, QUANTITIES, usual_for_kind, value_problem
 from observatory_ops.planning.services import site_today
 from observatory_ops.registry.services import subsystem_create
 
@@ -124,3 +125,74 @@ def test_the_reading_form_refuses_an_absurd_value_with_a_message(client, drive, 
     assert response.status_code == 200
     assert b"Settle time after a slew cannot be above 3,600 s (got 1e+300)" in response.content
     assert not Reading.objects.exists()
+
+
+# --- how far back a reading may lie: the bound of service dates and nights --------------------------------
+
+
+def test_a_reading_more_than_15_years_back_is_refused_naming_the_earliest_accepted(drive, users, recomputes):
+    site = drive.telescope.site
+    earliest = earliest_accepted(site_today(site))
+
+    def at_local_noon(day: dt.date) -> dt.datetime:
+        return timezone.make_aware(dt.datetime.combine(day, dt.time(12)), site.zone)
+
+    for day in (dt.date(1990, 6, 1), earliest - dt.timedelta(days=1)):
+        with pytest.raises(ValidationError) as refused:
+            services.reading_log(drive, "settle_time_s", 0.6, at_local_noon(day), users["technician"])
+        assert refused.value.messages == [
+            f"reading date {day} is more than 15 years ago; the earliest accepted is {earliest}"
+        ]
+    assert not Reading.objects.exists() and recomputes == []
+    services.reading_log(drive, "settle_time_s", 0.6, at_local_noon(earliest), users["technician"])
+    assert Reading.objects.get().taken_at == at_local_noon(earliest)
+
+
+def test_the_reading_form_refuses_a_date_far_back_with_the_message_and_stores_nothing(client, drive, users):
+    client.force_login(users["technician"])
+    response = client.post(reverse("reading-log", args=[drive.pk]), {
+        "quantity": "settle_time_s", "value": "0.6", "taken_at": "1990-06-01T22:30",
+    })
+    assert response.status_code == 200
+    earliest = earliest_accepted(site_today(drive.telescope.site))
+    assert f"reading date 1990-06-01 is more than 15 years ago; the earliest accepted is {earliest}" in (
+        response.content.decode()
+    )
+    assert not Reading.objects.exists()
+
+
+# --- which quantities the reading form offers first ---------------------------------------------------------
+
+
+def _offered(client, subsystem) -> tuple[list[str], list[str]]:
+    """The quantity codes of the form's first group and of "Other quantities" (all of them, flat, when no group)."""
+    page = client.get(reverse("reading-log", args=[subsystem.pk])).content.decode()
+    select = page.split('<select name="quantity"')[1].split("</select>")[0]
+    if '<optgroup label="For this subsystem">' not in select:
+        return [], re.findall(r'value="([a-z0-9_]+)"', select)
+    ours, others = select.split('<optgroup label="For this subsystem">')[1].split('<optgroup label="Other quantities">')
+    return re.findall(r'value="([a-z0-9_]+)"', ours), re.findall(r'value="([a-z0-9_]+)"', others)
+
+
+@pytest.mark.parametrize(("kind", "usual"), [
+    ("brake", ["brake_pressure_bar", "brake_release_s"]),  # registry.catalogue: the brake plan's readings
+    ("dc_supplies", ["supply_voltage_v", "ripple_mv"]),
+    ("primary_mirror", ["reflectance"]),
+])
+def test_the_reading_form_offers_the_kinds_usual_quantities_first_even_with_no_active_plan(
+    client, telescope, users, kind, usual
+):
+    subsystem = subsystem_create(telescope, kind, "Under test", counting_from=dt.date(2026, 1, 1))
+    subsystem.plans.update(active=False)  # what the plans watch and ask for no longer counts
+    client.force_login(users["technician"])
+    ours, others = _offered(client, subsystem)
+    assert sorted(ours) == sorted(usual)
+    assert sorted(ours + others) == sorted(QUANTITIES)  # every quantity can still be chosen
+
+
+def test_a_kind_with_no_usual_quantity_offers_every_quantity_in_one_list(client, telescope, users):
+    assert usual_for_kind("cooling_fans") == set()  # registry.catalogue names no reading for fans
+    fans = subsystem_create(telescope, "cooling_fans", "Cell fans", counting_from=dt.date(2026, 1, 1))
+    client.force_login(users["technician"])
+    ours, others = _offered(client, fans)
+    assert ours == [] and sorted(others) == sorted(QUANTITIES)

@@ -9,6 +9,7 @@ from __future__ import annotations
 
 import datetime as dt
 import itertools
+import re
 from io import StringIO
 from pathlib import Path
 
@@ -250,7 +251,8 @@ def test_a_file_with_bad_rows_stores_nothing_and_names_every_bad_line(stored, re
     assert sorted({line for line, _ in report.errors}) == bad_lines
     assert_lines_named(report.errors, data)
     assert not report.stored and (report.created, report.updated, report.unchanged) == (0, 0, 0)
-    assert report.summary == f"{len(bad_lines)} bad row(s); nothing was stored."
+    rows = "row" if len(bad_lines) == 1 else "rows"
+    assert report.summary == f"{len(bad_lines)} bad {rows}; nothing was stored."
     assert snapshot() == before
     assert len(recomputes) == recomputed_before
 
@@ -292,9 +294,9 @@ def test_any_bytes_at_all_never_raise_and_a_refusal_never_writes(stored, data, s
 @pytest.mark.parametrize(
     ("data", "reason"),
     [
-        (b"", "it is empty"),
+        (b"", "it is empty; it must hold a header line naming the columns (at least night and open_hours"),
         (HEADER.encode() + b"\n", "it has a header but no rows"),
-        (b"night,hours\n2024-01-01,5\n", "missing column(s): open_hours"),
+        (b"night,hours\n2024-01-01,5\n", "missing column: open_hours"),
         (b"night,open_hours\n2024-01-01,5\n2024-01-02,6\nObservaci\xf3n,7\n",
          "it is not UTF-8 text (byte 0xf3 on line 4); save it as UTF-8 CSV"),
         (b"night,open_hours\n2024-01-01,5\n\x00\x01\x02", "it holds binary data, not text"),
@@ -352,7 +354,7 @@ def test_importing_the_same_file_twice_changes_nothing(site, recomputes):
     after_first = snapshot()
     second = services.nights_import(site, GOOD_FILE)
     assert (second.created, second.updated, second.unchanged) == (0, 0, 3)
-    assert second.summary == "0 new, 0 updated, 3 unchanged."
+    assert second.summary == "0 new, 0 updated, 3 unchanged; nothing changed."
     assert snapshot() == after_first
     assert recomputes == [site.pk]  # only the import that changed something refreshes the due states
 
@@ -404,7 +406,7 @@ def test_skip_bad_stores_the_good_rows_and_lists_the_skipped_ones(site):
     assert report.errors == []
     assert [line for line, _ in report.skipped] == [3, 5]
     assert report.created == 3
-    assert report.summary == "3 new, 0 updated, 0 unchanged; 2 bad row(s) skipped."
+    assert report.summary == "3 new, 0 updated, 0 unchanged; 2 bad rows skipped."
     stored_nights = set(NightUsage.objects.filter(site=site).values_list("night", flat=True))
     assert stored_nights == {FIRST_NIGHT, FIRST_NIGHT + dt.timedelta(days=2), FIRST_NIGHT + dt.timedelta(days=4)}
 
@@ -466,7 +468,7 @@ def test_command_imports_a_file_and_a_second_run_reports_all_unchanged(site, csv
     out, _ = run_import(path, "--site", site.slug)
     assert f"{path}: 3 new, 0 updated, 0 unchanged." in out
     out, _ = run_import(path, "--site", site.slug)
-    assert f"{path}: 0 new, 0 updated, 3 unchanged." in out
+    assert f"{path}: 0 new, 0 updated, 3 unchanged; nothing changed.\nChanged no stored nights." in out
     assert NightUsage.objects.filter(site=site).count() == 3
 
 
@@ -485,7 +487,7 @@ def test_command_refuses_a_bad_file_with_each_line_on_stderr_and_stores_nothing(
     path = str(csv_file(render(rows)))
     before = snapshot()
     err = StringIO()
-    with pytest.raises(CommandError, match="2 bad row\\(s\\); nothing was stored"):
+    with pytest.raises(CommandError, match="2 bad rows; nothing was stored"):
         call_command("import_nights", path, "--site", stored.slug, stdout=StringIO(), stderr=err)
     assert "line 3: open_hours cannot be above 24 (got 30)" in err.getvalue()
     assert "line 4: slews must be a whole number, not 'many'" in err.getvalue()
@@ -507,7 +509,7 @@ def test_command_with_skip_bad_stores_the_good_rows_and_lists_the_skipped(site, 
     rows[2][8] = "perhaps"  # line 4
     out, err = run_import(str(csv_file(render(rows))), "--site", site.slug, "--skip-bad")
     assert "line 4: dew must be yes or no, not 'perhaps'" in err
-    assert "2 new, 0 updated, 0 unchanged; 1 bad row(s) skipped." in out
+    assert "2 new, 0 updated, 0 unchanged; 1 bad row skipped." in out
     assert NightUsage.objects.filter(site=site).count() == 2
 
 
@@ -531,8 +533,8 @@ def technician_client(client, users):
     return client
 
 
-def upload(client, site, data: bytes, skip_bad: bool = False, name: str = "nights.csv"):
-    payload = {"file": SimpleUploadedFile(name, data, content_type="text/csv")}
+def upload(client, site, data: bytes, skip_bad: bool = False, name: str = "nights.csv", confirm: str = ""):
+    payload = {"file": SimpleUploadedFile(name, data, content_type="text/csv"), "confirm": confirm}
     if skip_bad:
         payload["skip_bad"] = "on"
     return client.post(reverse("nights-import", args=[site.slug]), payload)
@@ -559,7 +561,7 @@ def test_upload_of_a_bad_file_shows_each_line_and_stores_nothing(technician_clie
     response = upload(technician_client, stored, render(rows))
     assert response.status_code == 200
     page = response.content.decode()
-    assert "Import refused: 2 bad row(s); nothing was stored." in page
+    assert "Import refused: 2 bad rows; nothing was stored." in page
     assert "<td>2</td><td>open_hours cannot be below 0 (got -1)</td>" in page
     reason = escape("night must be a date as YYYY-MM-DD, not 'next tuesday'")
     assert f"<td>5</td><td>{reason}</td>" in page
@@ -571,7 +573,7 @@ def test_upload_with_skip_bad_stores_the_good_rows_and_lists_the_skipped(technic
     rows[1][7] = "140"  # line 3
     response = upload(technician_client, site, render(rows), skip_bad=True)
     page = response.content.decode()
-    assert "2 new, 0 updated, 0 unchanged; 1 bad row(s) skipped." in page
+    assert "2 new, 0 updated, 0 unchanged; 1 bad row skipped." in page
     assert "<td>3</td><td>humidity_pct cannot be above 100 (got 140)</td>" in page
     assert NightUsage.objects.filter(site=site).count() == 2
 
@@ -592,7 +594,8 @@ def test_upload_of_any_malformed_file_is_never_a_server_error_and_stores_nothing
 def test_upload_of_an_empty_file_is_refused_with_a_message(technician_client, site):
     response = upload(technician_client, site, b"")
     assert response.status_code == 200
-    assert b"The submitted file is empty." in response.content
+    assert ("The file is empty. A nights CSV holds a header line naming the columns (at least night and "
+            "open_hours, separated by commas), then one line per night.") in response.content.decode()
     assert not NightUsage.objects.exists()
 
 
@@ -785,7 +788,7 @@ def test_every_problem_of_a_row_is_reported_not_only_the_first(site):
     assert [(p.position, p.field) for p in report.errors] == [
         (2, "open_hours"), (2, "slews"), (2, "humidity_pct"), (2, "dew")
     ]
-    assert report.summary == "1 bad row(s); nothing was stored."
+    assert report.summary == "1 bad row; nothing was stored."
     assert report.refused_rows == [(
         2, "open_hours cannot be above 24 (got 30); slews cannot be below 0 (got -1); "
            "humidity_pct cannot be above 100 (got 140); dew must be yes or no, not 'perhaps'",
@@ -799,7 +802,7 @@ def test_every_problem_of_a_row_is_reported_not_only_the_first(site):
 def test_command_refuses_a_night_far_in_the_past_with_a_message_and_stores_nothing(stored, csv_file):
     before = snapshot()
     err = StringIO()
-    with pytest.raises(CommandError, match="1 bad row\\(s\\); nothing was stored"):
+    with pytest.raises(CommandError, match="1 bad row; nothing was stored"):
         call_command("import_nights", str(csv_file(b"night,open_hours\n1800-01-01,5\n")), "--site", stored.slug,
                      stdout=StringIO(), stderr=err)
     earliest = earliest_accepted(services.latest_night(stored))
@@ -809,7 +812,7 @@ def test_command_refuses_a_night_far_in_the_past_with_a_message_and_stores_nothi
 
 def test_command_refuses_a_file_that_is_not_a_nights_csv_as_a_whole(stored, csv_file):
     before = snapshot()
-    with pytest.raises(CommandError, match="This file is not a nights CSV: missing column\\(s\\): open_hours"):
+    with pytest.raises(CommandError, match="This file is not a nights CSV: missing column: open_hours"):
         run_import(str(csv_file(b"night,hours\n2024-01-01,5\n")), "--site", stored.slug)
     assert snapshot() == before
 
@@ -842,7 +845,7 @@ def test_the_example_of_the_help_is_a_good_file():
     [
         (b"\x89PNG\r\n\x1a\n\x00\x00\x00\rIHDR\x00\x00\x00\x10\x00\x00\x00\x10", "sky.png", "it holds binary data"),
         (b"night;open_hours\n2024-01-05;5\n", "nights.csv", "its columns are separated by semicolons, not commas"),
-        (b"night,hours\n2024-01-05,5\n", "nights.csv", "missing column(s): open_hours"),
+        (b"night,hours\n2024-01-05,5\n", "nights.csv", "missing column: open_hours"),
     ],
 )
 def test_upload_of_a_file_that_is_not_a_nights_csv_says_so_without_a_row_count(
@@ -851,7 +854,7 @@ def test_upload_of_a_file_that_is_not_a_nights_csv_says_so_without_a_row_count(
     before = snapshot()
     page = upload(technician_client, stored, data, name=name).content.decode()
     assert f"This file is not a nights CSV: {escape(reason)}" in page
-    assert "bad row(s)" not in page and "Fix these rows" not in page and "<th>Line</th>" not in page
+    assert re.search(r"\d bad rows?", page) is None and "Fix these rows" not in page and "<th>Line</th>" not in page
     assert snapshot() == before
 
 
@@ -859,7 +862,7 @@ def test_upload_lists_every_problem_of_a_row_on_its_line(technician_client, stor
     before = snapshot()
     page = upload(technician_client, stored, b"night,open_hours,slews,humidity_pct\n2024-01-05,5,-1,140\n"
                   ).content.decode()
-    assert "Import refused: 1 bad row(s); nothing was stored." in page
+    assert "Import refused: 1 bad row; nothing was stored." in page
     assert "<td>2</td><td>slews cannot be below 0 (got -1); humidity_pct cannot be above 100 (got 140)</td>" in page
     assert snapshot() == before
 
@@ -876,7 +879,8 @@ def test_upload_of_a_night_far_in_the_past_is_a_message_not_a_server_error(techn
 
 
 def test_upload_of_only_the_required_columns_keeps_the_stored_figures(technician_client, full):
-    page = upload(technician_client, full, render([[FIRST_NIGHT.isoformat(), "7.25"]], "night,open_hours"))
+    data = render([[FIRST_NIGHT.isoformat(), "7.25"]], "night,open_hours")
+    page = upload(technician_client, full, data, confirm=confirm_token(upload(technician_client, full, data)))
     assert b"Import done: 0 new, 1 updated, 0 unchanged." in page.content
     stored = NightUsage.objects.get(site=full, night=FIRST_NIGHT)
     assert (stored.open_hours, stored.slews, stored.pm10_ugm3, stored.humidity_pct, stored.dew) == (
@@ -892,3 +896,211 @@ def test_the_readme_table_states_the_ranges_the_parser_applies():
         if column.kind in ("number", "count"):
             cells = [f"`{column.name}`", "yes" if column.required else "no", column.unit, column.accepted]
             assert "|" + "|".join(f" {cell} " if cell else " " for cell in cells) + "|" in readme, column.name
+
+
+# --- changing stored nights: the page shows the changes and asks first ----------------------------------
+
+
+def confirm_token(response) -> str:
+    """The token of the changes the page asks to confirm, as its form carries it."""
+    found = re.search(r'name="confirm" value="([0-9a-f]+)"', response.content.decode())
+    assert found, "the page asks for no confirmation"
+    return found.group(1)
+
+
+def messages_of(response) -> list[str]:
+    return [str(m) for m in response.context["messages"]]
+
+
+@pytest.fixture
+def night_of_759(site):
+    """The reviewer's case: a stored night of 7.59 h that a file gives as 7.5 h."""
+    NightUsage.objects.create(site=site, night=FIRST_NIGHT, open_hours=7.59, slews=40, pm10_ugm3=35.5,
+                              source=NightUsage.Source.IMPORT)
+    return site
+
+
+CHANGING_FILE = render(
+    [[FIRST_NIGHT.isoformat(), "7.5", "40", ""], [(FIRST_NIGHT + dt.timedelta(days=1)).isoformat(), "6", "12", "20"]],
+    "night,open_hours,slews,pm10_ugm3",
+)
+
+
+def test_an_upload_that_would_change_a_stored_night_lists_each_change_and_stores_nothing_yet(
+    technician_client, night_of_759, recomputes
+):
+    before = snapshot()
+    response = upload(technician_client, night_of_759, CHANGING_FILE)
+    page = response.content.decode()
+    assert messages_of(response) == [
+        "Check the changes below and confirm them. The file would change 1 stored night (1 new, 0 unchanged); "
+        "nothing was stored yet."
+    ]
+    assert f"<td>{FIRST_NIGHT}</td><td><code>open_hours</code></td><td>7.59</td><td>7.5</td>" in page
+    assert f"<td>{FIRST_NIGHT}</td><td><code>pm10_ugm3</code></td><td>35.5</td><td>empty</td>" in page
+    assert f"<td>{FIRST_NIGHT}</td><td><code>slews</code>" not in page  # the same figure as stored is no change
+    assert "choose the same file again and press <em>Store these changes</em>" in page
+    assert ">Store these changes</button>" in page
+    # Nothing at all is stored, not even the new night: an import is all or nothing.
+    assert snapshot() == before and recomputes == []
+
+
+def test_the_same_file_sent_again_with_the_token_stores_the_changes_shown_and_a_third_time_changes_nothing(
+    technician_client, night_of_759, recomputes
+):
+    token = confirm_token(upload(technician_client, night_of_759, CHANGING_FILE))
+    response = upload(technician_client, night_of_759, CHANGING_FILE, confirm=token)
+    assert messages_of(response) == ["Import done: 1 new, 1 updated, 0 unchanged."]
+    page = response.content.decode()
+    assert "Changed in stored nights:" in page and "<th>Was</th><th>Now</th>" in page
+    assert f"<td>{FIRST_NIGHT}</td><td><code>open_hours</code></td><td>7.59</td><td>7.5</td>" in page
+    stored = NightUsage.objects.get(site=night_of_759, night=FIRST_NIGHT)
+    assert (stored.open_hours, stored.slews, stored.pm10_ugm3) == (7.5, 40, None)
+    assert NightUsage.objects.filter(site=night_of_759).count() == 2 and recomputes == [night_of_759.pk]
+    after = snapshot()
+    # Sent once more (a second click, the browser's back button): nothing changes, and the page says so.
+    response = upload(technician_client, night_of_759, CHANGING_FILE, confirm=token)
+    assert messages_of(response) == ["Import done: 0 new, 0 updated, 2 unchanged; nothing changed."]
+    assert snapshot() == after and recomputes == [night_of_759.pk]
+
+
+def test_a_token_of_other_changes_stores_nothing_and_shows_the_changes_now_due(
+    technician_client, night_of_759, recomputes
+):
+    token = confirm_token(upload(technician_client, night_of_759, CHANGING_FILE))
+    # Someone corrects the night in between: what was confirmed is no longer what the file would change.
+    NightUsage.objects.filter(site=night_of_759, night=FIRST_NIGHT).update(open_hours=7.75)
+    before = snapshot()
+    response = upload(technician_client, night_of_759, CHANGING_FILE, confirm=token)
+    assert messages_of(response)[0].startswith(
+        "These changes are not the ones confirmed (the file or the stored nights differ): check them again."
+    )
+    assert f"<td>{FIRST_NIGHT}</td><td><code>open_hours</code></td><td>7.75</td><td>7.5</td>" in (
+        response.content.decode()
+    )
+    assert snapshot() == before and recomputes == []
+    # Another file under the token of the first is refused the same way.
+    other = render([[FIRST_NIGHT.isoformat(), "7.0"]], "night,open_hours")
+    upload(technician_client, night_of_759, other, confirm=confirm_token(response))
+    assert snapshot() == before
+
+
+def test_a_file_that_changes_no_stored_night_is_stored_at_once(technician_client, night_of_759):
+    new_only = render([[(FIRST_NIGHT + dt.timedelta(days=3)).isoformat(), "5"], [FIRST_NIGHT.isoformat(), "7.59"]],
+                      "night,open_hours")
+    response = upload(technician_client, night_of_759, new_only)
+    assert messages_of(response) == ["Import done: 1 new, 0 updated, 1 unchanged."]
+    assert ">Store these changes</button>" not in response.content.decode()
+    assert NightUsage.objects.filter(site=night_of_759).count() == 2
+
+
+def test_skip_bad_with_changes_lists_the_rows_it_will_skip_and_stores_the_good_ones_once_confirmed(
+    technician_client, night_of_759
+):
+    data = CHANGING_FILE + b"next week,5,1,1\n"
+    before = snapshot()
+    first = upload(technician_client, night_of_759, data, skip_bad=True)
+    page = first.content.decode()
+    assert "Rows that will be skipped:" in page and "<td>4</td>" in page
+    assert 'name="skip_bad" id="id_skip_bad" checked' in page  # the tick is kept for the second send
+    assert snapshot() == before
+    done = upload(technician_client, night_of_759, data, skip_bad=True, confirm=confirm_token(first))
+    assert messages_of(done) == ["Import done: 1 new, 1 updated, 0 unchanged; 1 bad row skipped."]
+
+
+def test_the_service_asks_only_when_told_to_and_the_command_and_api_store_at_once(night_of_759, csv_file):
+    asked = services.nights_import(night_of_759, CHANGING_FILE, confirmed="")
+    assert not asked.stored and asked.confirm_token and not asked.confirmed_other
+    assert [(c.night, c.column, c.old, c.new) for c in asked.changes] == [
+        (FIRST_NIGHT, "open_hours", 7.59, 7.5), (FIRST_NIGHT, "pm10_ugm3", 35.5, None),
+    ]
+    out, _ = run_import(str(csv_file(CHANGING_FILE)), "--site", night_of_759.slug)
+    assert f"updated night {FIRST_NIGHT}: open_hours 7.59 -> 7.5; pm10_ugm3 35.5 -> empty\n" in out
+    assert out.endswith("1 new, 1 updated, 0 unchanged.\nChanged 1 stored night.\n")
+    # The API (nights_ingest) never asks: a night sent with other figures is updated, as before.
+    report = services.nights_ingest(night_of_759, [{"night": FIRST_NIGHT.isoformat(), "open_hours": 7.25}])
+    assert (report.updated, report.stored) == (1, True)
+
+
+@DB_EXAMPLES
+@given(first=good_rows(max_size=8), second=good_rows(max_size=8))
+def test_storing_after_confirmation_gives_exactly_what_the_command_stores_at_once(first, second):
+    asked_site, direct_site = fresh_site(), fresh_site()
+    for target in (asked_site, direct_site):
+        services.nights_import(target, render(first))
+    direct = services.nights_import(direct_site, render(second))
+    asked = services.nights_import(asked_site, render(second), confirmed="")
+    assert [(c.night, c.column) for c in asked.changes] == [(c.night, c.column) for c in direct.changes]
+    if asked.confirm_token:
+        assert not asked.stored
+        asked = services.nights_import(asked_site, render(second), confirmed=asked.confirm_token)
+    assert asked.stored and (asked.created, asked.updated, asked.unchanged) == (
+        direct.created, direct.updated, direct.unchanged
+    )
+
+    def figures(target):
+        return [{k: v for k, v in row.items() if k not in ("id", "site_id", "recorded_at")}
+                for row in NightUsage.objects.filter(site=target).order_by("night").values()]
+
+    assert figures(asked_site) == figures(direct_site)
+
+
+# --- messages ---------------------------------------------------------------------------------------------
+
+
+def test_empty_columns_a_spreadsheet_exports_are_ignored(site):
+    data = b"night,open_hours,slews,,,\n2024-01-05,5,3,,,\n2024-01-06,6,4,, ,\n"
+    report = services.nights_import(site, data)
+    assert (report.created, report.errors) == (2, [])
+
+
+@pytest.mark.parametrize(
+    ("data", "reason"),
+    [
+        (b"night,open_hours,,\n2024-01-05,5,,x\n", "unknown column: column 4 (its header is blank)"),
+        (b"night,,open_hours,\n2024-01-05,1,5,2\n",
+         "unknown columns: column 2 (its header is blank), column 4 (its header is blank)"),
+        (b"slews,,\n3,,\n", "missing columns: night, open_hours"),
+        (b"night,open_hours,night,open_hours,,\n2024-01-05,5,2024-01-06,5,,\n", "repeated columns: night, open_hours"),
+    ],
+)
+def test_a_blank_header_over_values_is_named_by_its_position_and_counts_read_as_words(site, data, reason):
+    report = services.nights_import(site, data)
+    assert_refused_as_a_file(report)
+    assert report.file_problem.startswith(f"This file is not a nights CSV: {reason}")
+    assert not NightUsage.objects.exists()
+
+
+@pytest.mark.parametrize(
+    ("night", "reason"),
+    [
+        ("2023-02-30", "night 2023-02-30 is no such date (February 2023 has 28 days)"),
+        ("2024-02-30", "night 2024-02-30 is no such date (February 2024 has 29 days)"),  # 2024 is a leap year
+        ("2024-04-31", "night 2024-04-31 is no such date (April 2024 has 30 days)"),
+        ("2024-13-01", "night 2024-13-01 is no such date (there is no month 13)"),
+        ("2024-00-10", "night 2024-00-10 is no such date (there is no month 0)"),
+        ("2024-1-5", "night must be a date as YYYY-MM-DD, not '2024-1-5'"),
+    ],
+)
+def test_a_date_written_as_yyyy_mm_dd_that_the_calendar_lacks_is_called_no_such_date(site, night, reason):
+    report = services.nights_import(site, f"night,open_hours\n{night},5\n".encode())
+    assert report.errors == [(2, reason)]
+
+
+def test_the_import_page_says_each_result_once(technician_client, night_of_759):
+    cases = [
+        (render([good_cells(FIRST_NIGHT + dt.timedelta(days=9))]), "Import done: 1 new, 0 updated, 0 unchanged."),
+        (b"night,open_hours\n2024-01-05,-1\n", "Import refused: 1 bad row; nothing was stored."),
+        (b"night;open_hours\n2024-01-05;5\n", "This file is not a nights CSV: its columns are separated by "
+                                              "semicolons, not commas; save it as comma-separated CSV. "
+                                              "Nothing was stored."),
+        (CHANGING_FILE, "Check the changes below and confirm them."),
+    ]
+    for data, said in cases:
+        response = upload(technician_client, night_of_759, data)
+        assert response.content.decode().count(escape(said)) == 1, said
+
+
+def test_a_file_of_blank_lines_says_what_a_nights_file_holds(site, csv_file):
+    with pytest.raises(CommandError, match="it is empty; it must hold a header line naming the columns"):
+        run_import(str(csv_file(b"\n  \n")), "--site", site.slug)

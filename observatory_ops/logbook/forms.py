@@ -4,7 +4,7 @@ from django.utils import timezone
 
 from observatory_ops.planning.models import ServicePlan
 
-from . import services
+from . import nights_csv, services
 from .quantities import QUANTITY_CHOICES
 
 
@@ -49,8 +49,8 @@ class ReadingForm(forms.Form):
     note = forms.CharField(max_length=200, required=False)
 
     def __init__(self, *args, watched=(), **kwargs):
-        """``watched``: the quantities the subsystem's plans watch or ask for, offered first (any other can
-        still be chosen, under "Other quantities")."""
+        """``watched``: the quantities the subsystem's plans watch or ask for and its kind's usual ones, offered
+        first (any other can still be chosen, under "Other quantities")."""
         super().__init__(*args, **kwargs)
         self.fields["taken_at"].initial = timezone.localtime().strftime("%Y-%m-%dT%H:%M")
         ours = [(code, label) for code, label in QUANTITY_CHOICES if code in watched]
@@ -60,10 +60,15 @@ class ReadingForm(forms.Form):
 
 
 class NightsUploadForm(forms.Form):
-    file = forms.FileField(help_text="CSV in the nights format described on this page.")
+    file = forms.FileField(
+        help_text="CSV in the nights format described on this page.",
+        error_messages={"empty": f"The file is empty. A nights CSV holds {nights_csv.WHAT_A_FILE_HOLDS}."},
+    )
     skip_bad = forms.BooleanField(
         required=False, label="Store the good rows and list the bad ones (otherwise one bad row stores nothing)"
     )
+    #: The token of the changes to stored nights the page listed (``services.nights_import``); empty at first.
+    confirm = forms.CharField(required=False, widget=forms.HiddenInput)
 
     def clean_file(self):
         upload = self.cleaned_data["file"]

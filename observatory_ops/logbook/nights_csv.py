@@ -11,13 +11,17 @@ column's blank value.
 """
 from __future__ import annotations
 
+import calendar
 import csv
 import datetime as dt
 import io
 import math
+import re
 import reprlib
 from collections.abc import Mapping, Sequence
 from dataclasses import dataclass, field
+
+from django.template.defaultfilters import pluralize
 
 #: How far back a night (or a service date, see ``logbook.services``) may lie, in years. A recompute asks
 #: the nights cache for every night from the earliest one logged to 3 years ahead (planning.services.
@@ -102,6 +106,27 @@ COLUMN_SPECS: tuple[Column, ...] = (
 COLUMNS = tuple(c.name for c in COLUMN_SPECS)
 REQUIRED = tuple(c.name for c in COLUMN_SPECS if c.required)
 OPTIONAL = tuple(c.name for c in COLUMN_SPECS if not c.required)
+
+
+#: What a nights file must hold, in words that follow "it must hold" (the upload form says it of an empty file too).
+WHAT_A_FILE_HOLDS = (
+    f"a header line naming the columns (at least {' and '.join(REQUIRED)}, separated by commas), then one line "
+    "per night"
+)
+
+
+def cell(value: object) -> str:
+    """A stored figure as a cell of this format writes it: yes or no for a flag, nothing for not measured, a
+    date as YYYY-MM-DD, a number in full (1000000, 123456.7), never rounded."""
+    if value is None:
+        return ""
+    if isinstance(value, bool):
+        return "yes" if value else "no"
+    if isinstance(value, dt.date):
+        return value.isoformat()
+    if isinstance(value, float) and value.is_integer():
+        return str(int(value))
+    return str(value)
 
 
 def example_csv() -> str:
@@ -248,11 +273,27 @@ def _flag(raw: object, name: str) -> bool:
     raise RowError(name, f"{name} must be yes or no, not {reprlib.repr(raw)}")
 
 
+def _no_such_date(text: str) -> str | None:
+    """Why text written as YYYY-MM-DD names no day of the calendar (2023-02-30), or None when it is not so written."""
+    written = re.fullmatch(r"(\d{4})-(\d{2})-(\d{2})", text)
+    if not written:
+        return None
+    year, month, _day = (int(part) for part in written.groups())
+    if not 1 <= month <= 12:
+        return f"there is no month {month}"
+    if year == 0:
+        return "there is no year 0"
+    return f"{calendar.month_name[month]} {year} has {calendar.monthrange(year, month)[1]} days"
+
+
 def _night(raw: object, latest_night: dt.date) -> dt.date:
     try:
         night = dt.date.fromisoformat(raw.strip())
     except (AttributeError, ValueError):
         shown = raw.strip() if isinstance(raw, str) else raw
+        why = _no_such_date(shown) if isinstance(shown, str) else None
+        if why:
+            raise RowError("night", f"night {shown} is no such date ({why})") from None
         raise RowError("night", f"night must be a date as YYYY-MM-DD, not {reprlib.repr(shown)}") from None
     if night > latest_night:
         raise RowError(
@@ -350,21 +391,24 @@ def decode(data: bytes) -> str:
         raise FileError(f"it is not UTF-8 text (byte 0x{byte:02x} on line {line}); save it as UTF-8 CSV") from None
 
 
-def _header_problem(header: list[str], first_line: str) -> str | None:
-    """Why the header line does not name the columns of a nights CSV, or None."""
-    missing = [c for c in REQUIRED if c not in header]
+def _header_problem(columns: dict[int, str], first_line: str) -> str | None:
+    """Why the header line does not name the columns of a nights CSV, or None. ``columns`` maps the position
+    (from 0) of each column that counts to its name; a column with a blank name is named by its position."""
+    names = list(columns.values())
+    missing = [c for c in REQUIRED if c not in names]
     for separator, called in ((";", "semicolons"), ("\t", "tabs"), ("|", "bars")):
         if missing and all(c in [h.strip().lower() for h in first_line.split(separator)] for c in REQUIRED):
             return f"its columns are separated by {called}, not commas; save it as comma-separated CSV"
-    unknown = [h for h in header if h not in COLUMNS]
-    duplicated = sorted({h for h in header if header.count(h) > 1})
+    unknown = [name or f"column {position + 1} (its header is blank)"
+               for position, name in columns.items() if name not in COLUMNS]
+    duplicated = sorted({name for name in names if name and names.count(name) > 1})
     problems = []
     if missing:
-        problems.append(f"missing column(s): {', '.join(missing)}")
+        problems.append(f"missing column{pluralize(missing)}: {', '.join(missing)}")
     if unknown:
-        problems.append(f"unknown column(s): {', '.join(unknown)} (known: {', '.join(COLUMNS)})")
+        problems.append(f"unknown column{pluralize(unknown)}: {', '.join(unknown)} (known: {', '.join(COLUMNS)})")
     if duplicated:
-        problems.append(f"repeated column(s): {', '.join(duplicated)}")
+        problems.append(f"repeated column{pluralize(duplicated)}: {', '.join(duplicated)}")
     return "; ".join(problems) or None
 
 
@@ -372,11 +416,12 @@ def parse(text: str, latest_night: dt.date) -> ParsedNights:
     """Parse and check the whole file. Every problem of every bad row is reported with its line number.
 
     A problem of the whole file (empty, no rows, a header that does not name the columns) is reported
-    with position None, and no row is read.
+    with position None, and no row is checked. A column with neither a header nor a value is left out:
+    spreadsheets export the empty columns right of the data that way.
     """
     result = ParsedNights(latest_night, where="on line")
     if not text.strip():
-        result.refuse(None, "it is empty")
+        result.refuse(None, f"it is empty; it must hold {WHAT_A_FILE_HOLDS}")
         return result
     reader = csv.reader(io.StringIO(text))
     try:
@@ -384,25 +429,33 @@ def parse(text: str, latest_night: dt.date) -> ParsedNights:
     except csv.Error as exc:
         result.refuse(None, f"its header line is not valid CSV ({exc})")
         return result
-    problem = _header_problem(header, text.splitlines()[0])
-    if problem:
-        result.refuse(None, problem)
-        return result
+    lines: list[tuple[int, list[str] | csv.Error]] = []  # (line number, its cells or why it is not valid CSV)
     while True:
         try:
             cells = next(reader)
         except StopIteration:
             break
         except csv.Error as exc:
-            result.refuse(reader.line_num, f"not valid CSV ({exc})")
+            lines.append((reader.line_num, exc))
             continue
-        line = reader.line_num
-        if not any(c.strip() for c in cells):
-            continue
-        if len(cells) != len(header):
+        if any(c.strip() for c in cells):
+            lines.append((reader.line_num, cells))
+    columns = {
+        position: name for position, name in enumerate(header)
+        if name or any(isinstance(cells, list) and position < len(cells) and cells[position].strip()
+                       for _, cells in lines)
+    }
+    problem = _header_problem(columns, text.splitlines()[0])
+    if problem:
+        result.refuse(None, problem)
+        return result
+    for line, cells in lines:
+        if isinstance(cells, csv.Error):
+            result.refuse(line, f"not valid CSV ({cells})")
+        elif len(cells) != len(header):
             result.refuse(line, f"has {len(cells)} fields, the header has {len(header)}")
-            continue
-        result.add(line, dict(zip(header, cells, strict=True)))
+        else:
+            result.add(line, {name: cells[position] for position, name in columns.items()})
     if not result.rows and not result.errors:
         result.refuse(None, "it has a header but no rows")
     return result

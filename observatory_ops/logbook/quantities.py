@@ -2,6 +2,8 @@
 both tables."""
 import math
 
+from observatory_ops.registry.catalogue import KINDS
+
 QUANTITIES: dict[str, tuple[str, str]] = {
     # code: (label, unit)
     "settle_time_s": ("Settle time after a slew", "s"),
@@ -58,3 +60,11 @@ def value_problem(code: str, value: float) -> str | None:
     if value > high:
         return f"{label} cannot be above {high:,g} {unit} (got {value:g}); a larger reading is not plausible"
     return None
+
+
+def usual_for_kind(kind: str) -> set[str]:
+    """The quantities the catalogue's default plans for a subsystem kind watch (reading triggers) or ask for on
+    their work orders (``registry.catalogue``): what a reading of such a subsystem usually is."""
+    plans = KINDS[kind].plans if kind in KINDS else ()
+    watched = {trigger[2] for plan in plans for trigger in plan.triggers if len(trigger) > 2}
+    return watched | {quantity for plan in plans for quantity, _limit in plan.readings}

@@ -5,11 +5,14 @@ Each write ends by recomputing the due states of the site it touched, so pages s
 from __future__ import annotations
 
 import datetime as dt
+import hashlib
+import json
 from collections.abc import Callable
 from dataclasses import dataclass, field
 
 from django.core.exceptions import ValidationError
 from django.db import IntegrityError, transaction
+from django.template.defaultfilters import pluralize
 from django.utils import timezone
 from simple_history.utils import bulk_create_with_history, bulk_update_with_history
 
@@ -27,6 +30,24 @@ _USAGE_FIELDS = [c for c in nights_csv.COLUMNS if c != "night"]
 _BLANKS = {c.name: c.blank for c in nights_csv.COLUMN_SPECS if not c.required}
 
 
+@dataclass(frozen=True)
+class NightChange:
+    """One figure of a stored night that an import changes (or would change, awaiting confirmation)."""
+
+    night: dt.date
+    column: str
+    old: object
+    new: object
+
+    @property
+    def old_text(self) -> str:
+        return nights_csv.cell(self.old) or "empty"
+
+    @property
+    def new_text(self) -> str:
+        return nights_csv.cell(self.new) or "empty"
+
+
 @dataclass
 class ImportReport:
     created: int = 0
@@ -37,16 +58,34 @@ class ImportReport:
     stored: bool = False
     updated_nights: list[dt.date] = field(default_factory=list)
     file_problem: str = ""  # a sentence when the whole file or body is refused (then no row was read)
+    #: Every figure of a stored night that the import changed, or would change when ``confirm_token`` is set.
+    changes: list[NightChange] = field(default_factory=list)
+    #: Set when nothing was stored because the file changes stored nights: the token that confirms these changes.
+    confirm_token: str = ""
+    #: A token was given but the changes are not those it confirmed (the file or the stored nights differ).
+    confirmed_other: bool = False
 
     @property
     def summary(self) -> str:
         if self.file_problem:
             return f"{self.file_problem}. Nothing was stored."
         if self.errors:
-            return f"{len(_by_position(self.errors))} bad row(s); nothing was stored."
+            return f"{_rows(self.errors)}; nothing was stored."
+        if self.confirm_token:
+            nights = len({change.night for change in self.changes})
+            text = (
+                "These changes are not the ones confirmed (the file or the stored nights differ): check them again"
+                if self.confirmed_other else "Check the changes below and confirm them"
+            )
+            return (
+                f"{text}. The file would change {nights} stored night{pluralize(nights)} "
+                f"({self.created} new, {self.unchanged} unchanged); nothing was stored yet."
+            )
         text = f"{self.created} new, {self.updated} updated, {self.unchanged} unchanged"
         if self.skipped:
-            text += f"; {len(_by_position(self.skipped))} bad row(s) skipped"
+            text += f"; {_rows(self.skipped)} skipped"
+        if not (self.created or self.updated):
+            text += "; nothing changed"
         return text + "."
 
     @property
@@ -57,6 +96,12 @@ class ImportReport:
     @property
     def skipped_rows(self) -> list[tuple[int | None, str]]:
         return _by_position(self.skipped)
+
+
+def _rows(problems: list[nights_csv.Problem]) -> str:
+    """"1 bad row", "3 bad rows": the rows the problems are on."""
+    count = len(_by_position(problems))
+    return f"{count} bad row{pluralize(count)}"
 
 
 def _by_position(problems: list[nights_csv.Problem]) -> list[tuple[int | None, str]]:
@@ -73,6 +118,7 @@ def nights_import(
     source: str = NightUsage.Source.IMPORT,
     progress: Callable[[int, int], None] | None = None,
     by=None,
+    confirmed: str | None = None,
 ) -> ImportReport:
     """Import a nights CSV (``nights_csv`` format) for one site: all or nothing, and idempotent.
 
@@ -80,8 +126,13 @@ def nights_import(
     at all is refused as a whole (``ImportReport.file_problem``). Unless ``skip_bad``, one bad row means
     nothing is stored. A night already stored keeps the figures of the columns the file leaves out; if
     the file's figures for it are the stored ones it is left untouched, otherwise it is updated and
-    reported. ``progress(done, total)`` is called as rows are written. ``by`` is the person the audit
-    trail names (None for the command line).
+    reported (``ImportReport.changes``). ``progress(done, total)`` is called as rows are checked. ``by`` is
+    the person the audit trail names (None for the command line).
+
+    ``confirmed`` None stores changes to stored nights at once (the command line). Otherwise (the upload
+    page, "" before any confirmation) a file that would change stored nights is stored only when
+    ``confirmed`` is the token of exactly these changes of this file; if not, nothing is stored and the report
+    lists the changes with their ``confirm_token``. A file that changes no stored night needs no token.
     """
     report = ImportReport()
     try:
@@ -95,8 +146,22 @@ def nights_import(
         report.errors = parsed.errors
         return report
     report.skipped = parsed.errors
-    _nights_store(site, [values for _, values in parsed.rows], source, report, progress, by)
+    approve = None
+    if confirmed is not None:
+        def approve(changes: list[NightChange]) -> bool:
+            token = _confirm_token(data, changes)
+            if token == confirmed:
+                return True
+            report.confirm_token, report.confirmed_other = token, bool(confirmed)
+            return False
+    _nights_store(site, [values for _, values in parsed.rows], source, report, progress, by, approve=approve)
     return report
+
+
+def _confirm_token(data: bytes, changes: list[NightChange]) -> str:
+    """The token that confirms these changes by this file: what was shown is what is stored."""
+    shown = [[c.night.isoformat(), c.column, repr(c.old), repr(c.new)] for c in changes]
+    return hashlib.sha256(data + json.dumps(shown).encode()).hexdigest()
 
 
 def _refused_file(report: ImportReport, problems: list[nights_csv.Problem]) -> ImportReport:
@@ -147,9 +212,12 @@ def _nights_store(
     progress: Callable[[int, int], None] | None = None,
     by=None,
     reason: str = "",
+    approve: Callable[[list[NightChange]], bool] | None = None,
 ) -> None:
     """Create new nights, update changed ones and count the rest, in one transaction; recompute on change.
 
+    ``approve(changes)``, when given, is asked inside the transaction (the stored nights locked) before
+    any stored night is changed; False stores nothing, not even the new nights.
     Two writers sending the same new night at once both find it absent and one insert fails on the
     unique (site, night) constraint; that writer starts again once, and then finds the night stored.
     """
@@ -157,55 +225,66 @@ def _nights_store(
     for attempt in range(2):
         try:
             with transaction.atomic():
-                new, changed, unchanged = _nights_write(
-                    site, rows, _stored_nights(site, nights), source, progress, by, reason
+                new, changed, unchanged, changes = _nights_compare(
+                    site, rows, _stored_nights(site, nights), source, progress
                 )
-                if new or changed:
-                    site_recompute(site)
+                stored = not (changes and approve and not approve(changes))
+                if stored:
+                    _nights_write(new, changed, changes, by, reason)
+                    if new or changed:
+                        site_recompute(site)
             break
         except IntegrityError:
             if attempt:
                 raise
     report.created, report.updated, report.unchanged = len(new), len(changed), unchanged
-    report.updated_nights = sorted(u.night for u in changed)
-    report.stored = True
+    report.changes, report.stored = changes, stored
+    if stored:
+        report.updated_nights = sorted(u.night for u in changed)
 
 
-def _nights_write(
+def _nights_compare(
     site: Site,
     rows: list[dict],
     existing: dict[dt.date, NightUsage],
     source: str,
     progress: Callable[[int, int], None] | None,
-    by,
-    reason: str,
-) -> tuple[list[NightUsage], list[NightUsage], int]:
-    """Each row holds the columns its record gave: a new night takes the blank value of every other
-    column, a stored night keeps its figures for them and counts as changed only when a given one differs."""
-    new, changed, unchanged, written = [], [], 0, set()
+) -> tuple[list[NightUsage], list[NightUsage], int, list[NightChange]]:
+    """The new nights, the stored nights with the file's figures set (not saved), the count of the others,
+    and every figure changed. Each row holds the columns its record gave: a new night takes the blank value
+    of every other column, a stored night keeps its figures for them and counts as changed only when a given
+    one differs."""
+    new, changed, unchanged, changes = [], [], 0, []
     for done, values in enumerate(rows, start=1):
         current = existing.get(values["night"])
-        given = [f for f in _USAGE_FIELDS if f in values]
         if current is None:
             new.append(NightUsage(site=site, source=source, **(_BLANKS | values)))
-        elif any(getattr(current, f) != values[f] for f in given):
-            for f in given:
-                setattr(current, f, values[f])
-            current.source = source
-            current.recorded_at = timezone.now()  # bulk_update skips auto_now
-            changed.append(current)
-            written.update(given)
         else:
-            unchanged += 1
+            differ = [f for f in _USAGE_FIELDS if f in values and getattr(current, f) != values[f]]
+            changes += [NightChange(current.night, f, getattr(current, f), values[f]) for f in differ]
+            for f in differ:
+                setattr(current, f, values[f])
+            if differ:
+                current.source = source
+                current.recorded_at = timezone.now()  # bulk_update skips auto_now
+                changed.append(current)
+            else:
+                unchanged += 1
         if progress and (done % 500 == 0 or done == len(rows)):
             progress(done, len(rows))
+    return new, changed, unchanged, changes
+
+
+def _nights_write(
+    new: list[NightUsage], changed: list[NightUsage], changes: list[NightChange], by, reason: str
+) -> None:
     # The *_with_history forms also write the audit trail (django-simple-history skips plain bulk writes).
     bulk_create_with_history(new, NightUsage, batch_size=500, default_user=by, default_change_reason=reason)
+    written = {change.column for change in changes}
     bulk_update_with_history(
         changed, NightUsage, [f for f in _USAGE_FIELDS if f in written] + ["source", "recorded_at"], batch_size=500,
         default_user=by, default_change_reason=reason,
     )
-    return new, changed, unchanged
 
 
 def reading_log(
@@ -225,28 +304,35 @@ def reading_log(
         raise ValidationError(problem)
     if taken_at > timezone.now() + dt.timedelta(minutes=5):
         raise ValidationError("a reading cannot be taken in the future")
+    site = subsystem.telescope.site
+    problem = date_problem(site, taken_at.astimezone(site.zone).date(), "reading date")
+    if problem:
+        raise ValidationError(problem)
     with transaction.atomic():
         reading = Reading.objects.create(
             subsystem=subsystem, quantity=quantity, unit=QUANTITIES[quantity][1], value=value,
             taken_at=taken_at, taken_by=by, note=note,
         )
         measurement_from_reading(reading)
-        site_recompute(subsystem.telescope.site)
+        site_recompute(site)
     return reading
+
+
+def date_problem(site: Site, day: dt.date, what: str) -> str | None:
+    """Why ``day`` cannot be the local date of ``what`` ("service date", "reading date") at ``site``; None
+    when it can: not in the future, and no further back than a night may be (``nights_csv.MAX_YEARS_BACK``)."""
+    today = site_today(site)
+    if day > today:
+        return f"the {what} cannot be in the future"
+    earliest = nights_csv.earliest_accepted(today)
+    if day < earliest:
+        return f"{what} {day} is more than {nights_csv.MAX_YEARS_BACK} years ago; the earliest accepted is {earliest}"
+    return None
 
 
 def service_date_problem(site: Site, performed_on: dt.date) -> str | None:
     """Why ``performed_on`` cannot be the date of service work at ``site``; None when it can."""
-    today = site_today(site)
-    if performed_on > today:
-        return "the service date cannot be in the future"
-    earliest = nights_csv.earliest_accepted(today)
-    if performed_on < earliest:
-        return (
-            f"service date {performed_on} is more than {nights_csv.MAX_YEARS_BACK} years ago; "
-            f"the earliest accepted is {earliest}"
-        )
-    return None
+    return date_problem(site, performed_on, "service date")
 
 
 def service_record_log(

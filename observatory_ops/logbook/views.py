@@ -14,6 +14,7 @@ from observatory_ops.registry.models import Site, Subsystem
 from . import nights_csv, services
 from .forms import CorrectionForm, NightForm, NightsUploadForm, ReadingForm, ServiceRecordForm
 from .models import NightUsage, ServiceRecord
+from .quantities import usual_for_kind
 
 
 def _form_errors_from(form, exc: ValidationError) -> None:
@@ -72,7 +73,8 @@ def reading_log(request, pk):
     subsystem = get_object_or_404(Subsystem.objects.select_related("telescope__site"), pk=pk)
     site = subsystem.telescope.site
     with timezone.override(site.zone):  # the form's times are the site's local times
-        form = ReadingForm(request.POST or None, watched=selectors.watched_quantities(subsystem))
+        usual = selectors.watched_quantities(subsystem) | usual_for_kind(subsystem.kind)
+        form = ReadingForm(request.POST or None, watched=usual)
         if request.method == "POST" and form.is_valid():
             data = form.cleaned_data
             try:
@@ -111,7 +113,7 @@ def night_log(request, slug):
         except ValueError:
             messages.warning(request, f"{request.GET['night']!r} is not a date as YYYY-MM-DD: a blank form instead.")
     initial = (
-        {c.name: _shown(getattr(stored, c.name)) for c in nights_csv.COLUMN_SPECS} if stored
+        {c.name: nights_csv.cell(getattr(stored, c.name)) for c in nights_csv.COLUMN_SPECS} if stored
         else {"night": services.latest_night(site).isoformat()}  # the night most likely being typed in
     )
     form = NightForm(request.POST or None, initial=initial)
@@ -127,28 +129,25 @@ def night_log(request, slug):
     return render(request, "logbook/night_form.html", {"site": site, "form": form, "stored": stored})
 
 
-def _shown(value) -> str:
-    """A stored figure as the form shows it: flags as yes or no, nothing for not measured."""
-    if value is None:
-        return ""
-    if isinstance(value, bool):
-        return "yes" if value else "no"
-    return value.isoformat() if hasattr(value, "isoformat") else f"{value:g}"
-
-
 @requires(TECHNICIAN)
 def nights_import(request, slug):
     site = get_object_or_404(Site, slug=slug)
     form = NightsUploadForm(request.POST or None, request.FILES or None)
     report = None
     if request.method == "POST" and form.is_valid():
+        data = form.cleaned_data
         report = services.nights_import(
-            site, form.cleaned_data["file"].read(), skip_bad=form.cleaned_data["skip_bad"], by=request.user
+            site, data["file"].read(), skip_bad=data["skip_bad"], by=request.user, confirmed=data["confirm"]
         )
+        # The result is said once, by these messages; the report's panel below holds only its details.
         if report.file_problem:
             messages.error(request, report.summary)
         elif report.errors:
             messages.error(request, f"Import refused: {report.summary}")
+        elif report.confirm_token:
+            messages.warning(request, report.summary)
+            # Browsers never keep a chosen file, so the same file is chosen again, with the token of these changes.
+            form = NightsUploadForm(initial={"skip_bad": data["skip_bad"], "confirm": report.confirm_token})
         else:
             messages.success(request, f"Import done: {report.summary}")
     return render(

@@ -1,6 +1,7 @@
 from pathlib import Path
 
 from django.core.management.base import BaseCommand, CommandError
+from django.template.defaultfilters import pluralize
 
 from observatory_ops.logbook import services
 from observatory_ops.registry.models import Site
@@ -35,5 +36,8 @@ class Command(BaseCommand):
         if report.errors:
             raise CommandError(f"{file}: {report.summary}")
         for night in report.updated_nights:
-            self.stdout.write(f"updated night {night}")
+            changed = [f"{c.column} {c.old_text} -> {c.new_text}" for c in report.changes if c.night == night]
+            self.stdout.write(f"updated night {night}: {'; '.join(changed)}")
         self.stdout.write(f"{file}: {report.summary}")
+        count = len(report.updated_nights)
+        self.stdout.write(f"Changed {count or 'no'} stored night{pluralize(count)}.")
