@@ -66,6 +66,12 @@ _TREE = (
     ("computers", "Mount control computer", None),
 )
 
+#: The T70 was commissioned years before the nightly log was kept (invented); these of its subsystems are the
+#: originals and carry that day as "in service since". Only logged nights have hours, so their reliability figures
+#: still count from the log's first night, as those of the subsystems without the date do.
+_T70_ORIGINALS = ("Axis 1 drive", "Axis 2 drive", "Axis 1 encoder", "Mirror cell fans")
+_T70_COMMISSIONED_BEFORE_LOG = dt.timedelta(days=5 * 365)
+
 
 def demo_users() -> list[tuple[str, str, str | None]]:
     """Create one login per role where the username is free; returns (username, role, password) for printing.
@@ -118,9 +124,11 @@ def build(today: dt.date | None = None) -> tuple[Site, bool]:
         subsystems = {}
         for telescope in (t70, r40):
             for kind, name, parent in _TREE:
+                original = telescope is t70 and name in _T70_ORIGINALS
                 subsystems[(telescope.name, name)] = subsystem_create(
                     telescope, kind, name, counting_from=start,
                     parent=subsystems.get((telescope.name, parent)) if parent else None,
+                    in_service_since=start - _T70_COMMISSIONED_BEFORE_LOG if original else None,
                 )
         _crew_days_off(site, today)
         _usage(site, start, today, rng)
@@ -362,8 +370,8 @@ def _repairs(site, subsystems, users, start: dt.date) -> None:
 
 
 def _work_orders(site, users, today: dt.date) -> None:
-    """Two open work orders from today's overdue items: one issued for tomorrow, one underway with its
-    isolation points and first step ticked."""
+    """Two open work orders from today's overdue items: one issued for tomorrow, one underway with the steps
+    done under power, its isolation points and its lockout step ticked."""
     from observatory_ops.planning.models import PlanStatus
     from observatory_ops.workorders import services as workorders
 
@@ -380,10 +388,16 @@ def _work_orders(site, users, today: dt.date) -> None:
     underway = workorders.work_order_from_due([overdue[2].plan], users["engineer"], today)
     workorders.work_order_move(underway, "issue", users["engineer"])
     workorders.work_order_move(underway, "start", users["technician"])
-    # The technician has locked out and tagged every isolation point and ticked the first step on the tablet.
+    # On the tablet, in the order of the work: the steps done under power, then each isolation point as its lock
+    # goes on and the lockout step, so the locked-out work is next (the service refuses any other sequence).
+    # Without energy to isolate, only the first step is ticked.
     from observatory_ops.workorders.selectors import isolation_points
 
-    for point in isolation_points(underway):
-        workorders.checklist_tick_set(underway, "point", point.pk, True, users["technician"])
-    if underway.step_list:
-        workorders.checklist_tick_set(underway, "step", 0, True, users["technician"])
+    found = workorders.isolated_steps(underway.step_list)
+    lockout = found[0] if found is not None else None
+    for index in range(lockout if lockout is not None else min(1, len(underway.step_list))):
+        workorders.checklist_tick_set(underway, "step", index, True, users["technician"])
+    if lockout is not None:
+        for point in isolation_points(underway):
+            workorders.checklist_tick_set(underway, "point", point.pk, True, users["technician"])
+        workorders.checklist_tick_set(underway, "step", lockout, True, users["technician"])

@@ -47,7 +47,7 @@ def test_work_order_moves_are_in_its_history_with_the_person_and_the_move(telesc
     from observatory_ops.workorders import services
 
     fans = subsystem_create(telescope, "cooling_fans", "Fans", counting_from=dt.date(2026, 1, 1))
-    order = services.work_order_from_due(list(fans.plans.all()), users["engineer"])
+    order = services.work_order_from_due(list(fans.plans.all()), users["engineer"], dt.date(2026, 6, 16))
     services.work_order_move(order, "issue", users["engineer"])
     services.work_order_move(order, "start", users["technician"])
     history = changes(order)

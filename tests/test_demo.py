@@ -68,6 +68,30 @@ def test_the_demo_due_list_has_overdue_and_due_rows_each_with_a_reason_naming_it
             assert escape(row.reason) in page
 
 
+def test_the_demo_order_underway_is_ticked_in_the_sequence_of_the_lockout():
+    """Its ticks go through the service in the order of the work, OSHA 29 CFR 1910.147(d): the steps done under
+    power, then every isolation point as its lock goes on, then the lockout step; the locked-out work is next."""
+    from observatory_ops.workorders import services
+    from observatory_ops.workorders.cautions import needs_isolation
+    from observatory_ops.workorders.models import State, WorkOrder
+    from observatory_ops.workorders.selectors import checklist, isolation_points
+
+    call_command("demo", "--no-serve", stdout=StringIO())
+    order = WorkOrder.objects.get(site__slug=SITE_SLUG, state=State.UNDERWAY)
+    assert needs_isolation(order.hazards)
+    lockout, locked = services.isolated_steps(order.step_list)
+    ticks = list(order.ticks.order_by("pk"))
+    assert all(tick.ticked for tick in ticks)
+    steps = [tick.step_index for tick in ticks if tick.kind == "step"]
+    points = [tick.isolation_point_id for tick in ticks if tick.kind == "point"]
+    assert points and sorted(points) == sorted(p.pk for p in isolation_points(order))
+    assert [tick.kind for tick in ticks] == ["step"] * lockout + ["point"] * len(points) + ["step"]
+    assert steps == list(range(lockout + 1))
+    lines = checklist(order)
+    assert [line.ticked for line in lines.steps] == [index <= lockout for index in range(len(order.step_list))]
+    assert locked and not any(lines.steps[index].ticked for index in locked)
+
+
 def test_the_demo_refuses_a_production_installation_and_a_database_with_other_sites(settings, site):
     from django.core.management.base import CommandError
 

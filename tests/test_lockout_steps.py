@@ -78,12 +78,11 @@ def test_the_primary_mirror_clean_parks_and_opens_the_cover_before_isolation(tel
     mirror = subsystem_create(telescope, "primary_mirror", "Primary", counting_from=dt.date(2026, 1, 1))
     made = services.work_order_from_due([mirror.plans.get(name="Inspect and CO2-snow clean primary")],
                                          users["engineer"])
-    assert made.step_list[:3] == [
-        "Close the dome and park the telescope pointing at the horizon stop.",
-        "Open the mirror cover; let the mirror reach ambient temperature to avoid condensation.",
-        LOCKOUT,
-    ]
-    assert made.step_list[3] == "Measure reflectance at the marked positions before cleaning."
+    steps = made.step_list
+    lockout = steps.index(LOCKOUT)
+    assert steps[lockout - 2].startswith("Park the telescope pointing at the horizon stop")
+    assert steps[lockout - 1].startswith("Open the mirror cover; let the mirror reach ambient temperature")
+    assert steps[lockout + 1] == "Measure reflectance at the marked positions before cleaning."
 
 
 def test_several_plans_isolate_once_and_restore_after_all_their_locked_out_work(telescope, users):
@@ -215,3 +214,18 @@ def test_the_page_says_why_an_order_without_its_lockout_step_is_not_issued(order
     page = client.post(f"/workorders/{order.pk}/move/issue/", follow=True).content.decode()
     assert "Not done: WO-" in page and "none of its steps is the lockout step" in page
     assert WorkOrder.objects.get(pk=order.pk).state == State.DRAFT
+
+
+def test_a_mirror_clean_merged_with_drive_work_closes_the_dome_once_and_keeps_its_own_parking(
+    telescope, users
+):
+    """The shared preparation (records, out of robotic control and the dome closed) is written once; the two
+    parking positions stay two steps, the horizon stop saying which work it is for."""
+    mirror = subsystem_create(telescope, "primary_mirror", "Primary", counting_from=dt.date(2026, 1, 1))
+    axis = subsystem_create(telescope, "axis1_drive", "Axis 1 drive", counting_from=dt.date(2026, 1, 1))
+    made = services.work_order_from_due(
+        [mirror.plans.get(name="Inspect and CO2-snow clean primary"), *axis.plans.all()], users["engineer"]
+    )
+    before = made.step_list[: made.step_list.index(LOCKOUT)]
+    assert sum("close the dome" in step.lower() for step in before) == 1
+    assert any("horizon stop" in step for step in before)

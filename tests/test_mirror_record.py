@@ -258,13 +258,14 @@ def test_finishing_a_cleaning_order_puts_the_cleaning_on_the_mirrors_record(mirr
     from observatory_ops.workorders import services as workorders
 
     clean = ServicePlan.objects.filter(subsystem=mirror.subsystem, name__icontains="clean").first()
-    order = workorders.work_order_from_due([clean], users["engineer"])
+    order = workorders.work_order_from_due([clean], users["engineer"], _today(mirror))
     workorders.work_order_move(order, "issue", users["engineer"])
     workorders.work_order_move(order, "start", users["technician"])
     client.force_login(users["technician"])
     page = client.get(f"/workorders/{order.pk}/finish/").content.decode()
     assert f'name="cleaned_{mirror.pk}"' in page and "not cleaned in this work" in page
     data = {"actual_hours": "2", "findings": "", f"cleaned_{mirror.pk}": "co2_snow", "confirm_unticked": "on",
+            "work_done_on": _today(mirror).isoformat(),
             **{f"reading_{r.pk}": "0.88" for r in order.required_readings.all()},
             "unticked": [line.text for line in selectors.unticked_lines(order)]}
     response = client.post(f"/workorders/{order.pk}/finish/", data)

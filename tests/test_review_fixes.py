@@ -241,7 +241,7 @@ def merged(telescope, users):
     drive = subsystem_create(telescope, "axis1_drive", "Axis 1 drive", counting_from=START)
     fans = subsystem_create(telescope, "cooling_fans", "Fans", counting_from=START)
     plans = [*drive.plans.all(), *fans.plans.all()]
-    return services.work_order_from_due(plans, users["engineer"]), len(plans)
+    return services.work_order_from_due(plans, users["engineer"], START), len(plans)
 
 
 def test_an_order_over_several_plans_says_its_steps_were_merged_until_the_work_starts(merged, users, client):
@@ -250,7 +250,8 @@ def test_an_order_over_several_plans_says_its_steps_were_merged_until_the_work_s
     page = client.get(order.get_absolute_url()).content.decode()
     assert f"The steps of {count} plans were merged" in page and "before issuing it" in page
     assert "parking positions, covers and the order of restoring" in page
-    assert "merged" not in _pdf_text(pdf.render_sheet(selectors.sheet(order, URL)))  # the page only
+    # On paper too, above the steps, as the page shows it (tests/test_workorder_pdf_record.py).
+    assert f"The steps of {count} plans were merged" in _pdf_text(pdf.render_sheet(selectors.sheet(order, URL)))
     services.work_order_move(order, "issue", users["engineer"])
     assert "before the work starts" in client.get(order.get_absolute_url()).content.decode()
     services.work_order_move(order, "start", users["technician"])

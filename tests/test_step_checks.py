@@ -15,11 +15,14 @@ import pytest
 from django.db import connection
 from django.test.utils import CaptureQueriesContext
 from django.utils import dateformat
+from django.utils.html import escape
 from pypdf import PdfReader
 from test_workorders import _all_readings, _unticked, drive, order  # noqa: F401  (fixtures, used by name)
 
+from observatory_ops.registry.catalogue import RELEASE
 from observatory_ops.registry.models import Telescope
 from observatory_ops.workorders import pdf, selectors, services
+from observatory_ops.workorders.cautions import needs_isolation
 from observatory_ops.workorders.models import ChecklistTick, IsolationPoint, State, WorkOrder
 
 STEP, POINT = ChecklistTick.Kind.STEP, ChecklistTick.Kind.POINT
@@ -193,11 +196,139 @@ def test_the_checklist_is_read_in_the_same_number_of_queries_however_many_ticks(
 
     few = queries()
     assert few == 3  # the ticks; the order's items (for their telescopes); the isolation points
-    for index in range(len(underway.step_list)):
-        services.checklist_tick_set(underway, STEP, index, True, users["technician"])
-        services.checklist_tick_set(underway, STEP, index, False, users["engineer"])
     services.checklist_tick_set(underway, POINT, _point(underway).pk, True, users["technician"])
+    for index in range(len(underway.step_list)):  # in order: the lockout before the locked-out work
+        services.checklist_tick_set(underway, STEP, index, True, users["technician"])
+    for index in range(len(underway.step_list)):
+        services.checklist_tick_set(underway, STEP, index, False, users["engineer"])
     assert queries() == few
+
+
+# --- the sequence of the lockout ------------------------------------------------------------------------
+# The axis drive's order (electrical, moving machinery): steps 1-4 under power, step 5 the lockout, step 6 the
+# locked-out inspection, step 7 the release (catalogue.RELEASE), step 8 restoring.
+
+
+def _brake_air(work_order) -> IsolationPoint:
+    return IsolationPoint.objects.create(telescope=work_order.telescope, energy="air", label="Brake air valve")
+
+
+def _ticks() -> list[tuple]:
+    return list(ChecklistTick.objects.values_list("pk", "kind", "step_index", "isolation_point", "ticked"))
+
+
+def test_the_axis_order_places_the_lockout_and_the_release_as_these_tests_read_it(underway):
+    assert underway.step_list[4] == services.LOCKOUT_STEP and underway.step_list[6] == RELEASE
+    assert services.isolated_steps(underway.step_list) == (4, range(5, 6))
+
+
+def test_locked_out_work_is_ticked_only_after_the_lockout_step_and_every_isolation_point(underway, users):
+    """The record follows the sequence of the lockout, OSHA 29 CFR 1910.147(d): the lockout devices go on every
+    energy isolating device ((d)(4)), stored energy is relieved ((d)(5)) and the isolation verified ((d)(6)) before
+    work starts on the locked-out equipment. So a step done locked out is refused while the lockout step or any
+    isolation point is unticked, naming what to tick first, and nothing is stored."""
+    technician = users["technician"]
+    mount, air = _point(underway), _brake_air(underway)
+    for index in range(4):  # the steps under power are ticked as they are done
+        services.checklist_tick_set(underway, STEP, index, True, technician)
+    before = _ticks()
+    with pytest.raises(services.Refused) as refusal:
+        services.checklist_tick_set(underway, STEP, 5, True, technician)
+    assert str(refusal.value) == (
+        "step 6 is done with the energy isolated: tick the lockout (step 5) and isolation points "
+        "'Mount isolator', 'Brake air valve' first"
+    )
+    services.checklist_tick_set(underway, POINT, mount.pk, True, technician)
+    with pytest.raises(services.Refused, match=r"^step 6 is done with the energy isolated: tick the lockout "
+                                               r"\(step 5\) and isolation point 'Brake air valve' first$"):
+        services.checklist_tick_set(underway, STEP, 5, True, technician)
+    assert len(_ticks()) == len(before) + 1  # the point's tick only
+
+    services.checklist_tick_set(underway, POINT, air.pk, True, technician)
+    with pytest.raises(services.Refused, match=r"^step 6 is done with the energy isolated: tick the lockout "
+                                               r"\(step 5\) first$"):
+        services.checklist_tick_set(underway, STEP, 5, True, technician)
+    services.checklist_tick_set(underway, STEP, 4, True, technician)
+    services.checklist_tick_set(underway, STEP, 5, True, technician)
+    assert selectors.checklist(underway).steps[5].ticked
+
+
+def test_the_lockout_step_is_ticked_once_every_point_it_locks_is(underway, users):
+    """The lockout step's own words are "Isolate, lock and tag every energy source listed under 'Energy isolation
+    points'; release stored pressure; try to start the drives ...": each point is ticked as its lock goes on, and
+    the step, which takes them all in, once every one is (OSHA 29 CFR 1910.147(d)(4) to (d)(6), in that order)."""
+    assert services.LOCKOUT_STEP.startswith("Isolate, lock and tag every energy source listed under 'Energy")
+    technician = users["technician"]
+    air = _brake_air(underway)
+    services.checklist_tick_set(underway, POINT, _point(underway).pk, True, technician)
+    with pytest.raises(services.Refused) as refusal:
+        services.checklist_tick_set(underway, STEP, 4, True, technician)
+    assert str(refusal.value) == (
+        "step 5 is the lockout, which locks and tags every isolation point: tick isolation point "
+        "'Brake air valve' first"
+    )
+    services.checklist_tick_set(underway, POINT, air.pk, True, technician)
+    services.checklist_tick_set(underway, STEP, 4, True, technician)
+    assert selectors.checklist(underway).steps[4].ticked
+
+
+def test_without_registered_points_only_the_lockout_step_comes_first(underway, users):
+    _point(underway).delete()
+    assert selectors.isolation_points(underway) == []
+    with pytest.raises(services.Refused, match=r"^step 6 is done with the energy isolated: tick the lockout "
+                                               r"\(step 5\) first$"):
+        services.checklist_tick_set(underway, STEP, 5, True, users["technician"])
+    services.checklist_tick_set(underway, STEP, 4, True, users["technician"])
+    services.checklist_tick_set(underway, STEP, 5, True, users["technician"])
+
+
+def test_taking_a_tick_back_is_always_recorded_and_holds_the_locked_out_work_again(underway, users):
+    technician, engineer = users["technician"], users["engineer"]
+    point = _point(underway)
+    services.checklist_tick_set(underway, POINT, point.pk, True, technician)
+    services.checklist_tick_set(underway, STEP, 4, True, technician)
+    services.checklist_tick_set(underway, STEP, 5, True, technician)
+    # Taken back in any order, the locked-out work's tick last of all: none is refused.
+    services.checklist_tick_set(underway, POINT, point.pk, False, engineer)
+    services.checklist_tick_set(underway, STEP, 4, False, engineer)
+    services.checklist_tick_set(underway, STEP, 5, False, engineer)
+    assert [line.ticked for line in selectors.checklist(underway).steps[4:6]] == [False, False]
+    with pytest.raises(services.Refused, match="tick the lockout \\(step 5\\) and isolation point 'Mount isolator'"):
+        services.checklist_tick_set(underway, STEP, 5, True, technician)
+
+
+def test_a_tick_on_a_point_whose_words_changed_since_counts_for_nothing_in_the_sequence(underway, users):
+    point = _point(underway)
+    services.checklist_tick_set(underway, POINT, point.pk, True, users["technician"])
+    point.location = "behind the pier door"  # the point's line now reads otherwise: its tick no longer counts
+    point.save()
+    with pytest.raises(services.Refused, match="tick isolation point 'Mount isolator' first"):
+        services.checklist_tick_set(underway, STEP, 4, True, users["technician"])
+
+
+def test_the_steps_under_power_and_the_restoring_steps_are_not_held(underway, users):
+    for index in (0, 3, 7):  # before the lockout step, and after the release step
+        services.checklist_tick_set(underway, STEP, index, True, users["technician"])
+    assert [line.ticked for line in selectors.checklist(underway).steps] == [
+        True, False, False, True, False, False, False, True
+    ]
+
+
+def test_an_order_whose_hazards_need_no_isolation_is_ticked_in_any_order(site, users, telescope):
+    from observatory_ops.registry.services import subsystem_create
+
+    mast = subsystem_create(telescope, "other", "Weather mast", counting_from=dt.date(2026, 1, 1))
+    cleaning = services.work_order_ad_hoc(
+        site, [mast], "Clean the rain sensor", users["engineer"],
+        steps="Wipe the rain sensor.\nCheck the sensor reads dry.", powered="Note the sensor's reading.",
+    )
+    cleaning.planned_date = dt.date(2026, 6, 16)  # issued only with one
+    cleaning.save()
+    assert not needs_isolation(cleaning.hazards) and services.LOCKOUT_STEP not in cleaning.step_list
+    _start(cleaning, users)
+    services.checklist_tick_set(cleaning, STEP, 2, True, users["technician"])  # the last step first
+    services.checklist_tick_set(cleaning, STEP, 0, True, users["technician"])
+    assert [line.ticked for line in selectors.checklist(cleaning).steps] == [True, False, True]
 
 
 # --- the page -------------------------------------------------------------------------------------------
@@ -264,6 +395,22 @@ def test_a_script_post_gets_the_note_or_the_refusal_as_json(underway, users, cli
     assert "already ticked" in again.json()["error"] and again.json()["note"].startswith("ticked by technician")
 
 
+def test_locked_out_work_ticked_too_soon_is_refused_on_the_page_with_and_without_javascript(underway, users, client):
+    """The sequence of the lockout (OSHA 29 CFR 1910.147(d)) as the tablet meets it: the refusal names what to tick
+    first, on the page after a plain post, and in the JSON a script's post gets (its box shows the line as it
+    stands, unticked)."""
+    client.force_login(users["technician"])
+    said = ("Not recorded: step 6 is done with the energy isolated: tick the lockout (step 5) and isolation point "
+            "'Mount isolator' first.")
+    response = _post(client, underway, kind="step", key="5", ticked="1", text=underway.step_list[5])
+    assert response.status_code == 302
+    assert escape(said) in client.get(response["Location"]).content.decode()
+    answer = client.post(f"/workorders/{underway.pk}/tick/", {"kind": "step", "key": "5", "ticked": "1"},
+                         HTTP_ACCEPT="application/json")
+    assert answer.status_code == 409 and answer.json() == {"error": said, "ticked": False, "note": ""}
+    assert not ChecklistTick.objects.exists()
+
+
 @pytest.mark.parametrize("key", ["\N{SUPERSCRIPT TWO}", "-1", "1.5", " 1"])
 def test_a_line_number_that_is_not_plain_digits_is_refused_not_an_error(underway, users, client, key):
     client.force_login(users["technician"])
@@ -325,7 +472,9 @@ def test_the_finished_record_lists_the_confirmations_with_who_and_when(underway,
 
 
 def _finish_form(work_order, **extra) -> dict:
-    data = {"actual_hours": "1.5", "findings": "done"}
+    from observatory_ops.planning.services import site_today
+
+    data = {"actual_hours": "1.5", "findings": "done", "work_done_on": site_today(work_order.site).isoformat()}
     data.update({f"reading_{pk}": str(value) for pk, value in _all_readings(work_order, 0.6).items()})
     return {**data, **extra}
 
@@ -359,9 +508,10 @@ def test_finishing_with_unticked_lines_needs_the_confirmation_and_the_record_kee
 
 
 def test_a_line_whose_tick_was_taken_back_after_the_page_loaded_is_not_confirmed_unseen(underway, users):
-    for index in range(len(underway.step_list)):
+    services.checklist_tick_set(underway, POINT, _point(underway).pk, True, users["technician"])
+    for index in range(len(underway.step_list) - 1):
         services.checklist_tick_set(underway, STEP, index, True, users["technician"])
-    seen = [line.text for line in selectors.unticked_lines(underway)]  # only the isolation point
+    seen = [line.text for line in selectors.unticked_lines(underway)]  # only the last step
     services.checklist_tick_set(underway, STEP, 0, False, users["engineer"])  # meanwhile, on another tablet
     with pytest.raises(services.Refused, match=r"not ticked: step 1 \("):
         services.work_order_finish(underway, users["technician"], 1.0, "", _all_readings(underway, 0.6),

@@ -150,7 +150,7 @@ def test_a_completion_interrupted_part_way_leaves_the_data_as_it_was(site, teles
     from observatory_ops.workorders.models import Part, State
 
     fans = subsystem_create(telescope, "cooling_fans", "Fans", counting_from=dt.date(2026, 1, 1))
-    order = services.work_order_from_due(list(fans.plans.all()), users["engineer"])
+    order = services.work_order_from_due(list(fans.plans.all()), users["engineer"], dt.date(2026, 6, 16))
     part = Part.objects.create(site=site, name="Filter", quantity_on_hand=5, reorder_point=1)
     services.part_add(order, part, 2)
     services.work_order_move(order, "issue", users["engineer"])
@@ -179,7 +179,7 @@ def test_two_people_finishing_at_once_yield_one_completion(site, telescope, user
     from observatory_ops.workorders import selectors, services
 
     fans = subsystem_create(telescope, "cooling_fans", "Fans", counting_from=dt.date(2026, 1, 1))
-    order = services.work_order_from_due(list(fans.plans.all()), users["engineer"])
+    order = services.work_order_from_due(list(fans.plans.all()), users["engineer"], dt.date(2026, 6, 16))
     services.work_order_move(order, "issue", users["engineer"])
     services.work_order_move(order, "start", users["technician"])
     stale = type(order).objects.get(pk=order.pk)  # the second person's copy, loaded before the first finishes

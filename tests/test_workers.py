@@ -321,7 +321,7 @@ def test_finishing_one_work_order_from_two_connections_at_once_yields_one_comple
     from observatory_ops.workorders.models import State, WorkOrder
 
     fans = site_in_use("finish", kinds=("cooling_fans",)).telescopes.get().subsystems.get()
-    order = services.work_order_from_due(list(fans.plans.all()), users["engineer"])
+    order = services.work_order_from_due(list(fans.plans.all()), users["engineer"], dt.date(2026, 6, 16))
     services.work_order_move(order, "issue", users["engineer"])
     services.work_order_move(order, "start", users["technician"])
     copies = [WorkOrder.objects.get(pk=order.pk) for _ in range(2)]  # each person's page, loaded before

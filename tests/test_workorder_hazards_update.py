@@ -16,7 +16,7 @@ import re
 
 import pytest
 from pypdf import PdfReader
-from test_workorders import drive, order  # noqa: F401  (fixtures, used by name)
+from test_workorders import PLANNED, drive, order  # noqa: F401  (fixtures, used by name)
 
 from observatory_ops.mirrors.models import Mirror
 from observatory_ops.planning.models import ServicePlan
@@ -306,7 +306,7 @@ def test_an_issued_order_can_be_updated_and_stays_issued(order, drive, users):  
 
 
 def test_a_newly_needed_lockout_goes_between_the_step_groups_of_an_order_as_its_plans_made_it(eyepieces, users, client):
-    made = services.work_order_from_due(list(eyepieces.plans.all()), users["engineer"])
+    made = services.work_order_from_due(list(eyepieces.plans.all()), users["engineer"], PLANNED)
     assert made.step_list == [
         "Switch on the cabinet light.", "Clean each eyepiece with lens tissue.",
         "Put the eyepieces back in their slots.",
@@ -328,7 +328,7 @@ def test_a_newly_needed_lockout_goes_between_the_step_groups_of_an_order_as_its_
 def test_steps_edited_since_are_not_given_a_lockout_by_guess_and_the_order_waits_for_the_engineer(
     eyepieces, users, client
 ):
-    made = services.work_order_from_due(list(eyepieces.plans.all()), users["engineer"])
+    made = services.work_order_from_due(list(eyepieces.plans.all()), users["engineer"], PLANNED)
     made.steps += "\nCheck the cabinet heater works."  # the engineer's own step: under power or not?
     made.save()
     edited = made.step_list
@@ -345,7 +345,8 @@ def test_steps_edited_since_are_not_given_a_lockout_by_guess_and_the_order_waits
 
     steps = [edited[0], LOCKOUT, *edited[1:3], RELEASE, *edited[3:]]
     client.post(f"/workorders/{made.pk}/edit/", {
-        "title": made.title, "order_type": made.order_type, "priority": made.priority, "planned_date": "",
+        "title": made.title, "order_type": made.order_type, "priority": made.priority,
+        "planned_date": PLANNED.isoformat(),
         "assignee": "", "estimated_hours": "1", "steps": "\n".join(steps), "tools": "",
     })
     assert _fresh(made).step_list == steps
@@ -394,7 +395,10 @@ def _started_then_hazard(order, drive, users):  # noqa: F811
 
 
 def _finish_data(work_order, **extra) -> dict:
+    from observatory_ops.planning.services import site_today
+
     data = {"actual_hours": "1.5", "findings": "", "confirm_unticked": "on",
+            "work_done_on": site_today(work_order.site).isoformat(),
             "unticked": [line.text for line in selectors.unticked_lines(work_order)]}
     data.update({f"reading_{r.pk}": "0.5" for r in work_order.required_readings.all()})
     return {**data, **extra}

@@ -28,9 +28,13 @@ def drive(telescope):
     return drive
 
 
+#: The day the orders here are planned for: an order is issued only with one (the calendar and the weekly batch).
+PLANNED = dt.date(2026, 6, 16)
+
+
 @pytest.fixture
 def order(drive, users):
-    return services.work_order_from_due(list(drive.plans.all()), users["engineer"])
+    return services.work_order_from_due(list(drive.plans.all()), users["engineer"], PLANNED)
 
 
 def _all_readings(order, value: float) -> dict[int, float]:
@@ -47,7 +51,9 @@ def _state(order):
 
 
 def test_from_due_items_the_order_has_steps_cautions_and_a_required_reading(order):
-    assert order.order_type == WorkOrder.Type.CONDITION_BASED  # a reading trigger: EN 13306 condition-based
+    # Its settle-time reading trigger has no reading yet, so the drive is due by the calendar or by use, not by a
+    # measured condition: preventive (EN 13306; see tests/test_order_type_and_telescopes.py).
+    assert order.order_type == WorkOrder.Type.PREVENTIVE
     # Electrical + moving machinery: isolate, after the steps the catalogue does under power (the readings
     # need the drive running), before anything touches the drive.
     powered = KINDS["axis1_drive"].plans[0].before_isolation
@@ -92,6 +98,27 @@ def test_finishing_needs_the_readings_and_then_writes_records_and_restarts_plans
         services.work_order_move(order, "countersign", users["technician"])
     services.work_order_move(order, "countersign", users["engineer"])
     assert _state(order) == State.COUNTERSIGNED
+
+
+def test_the_person_who_finished_gets_no_countersign_button_but_a_note_that_a_second_person_does(
+    order, users, client
+):
+    """Countersigning is a second person's (lifecycle.py; services.work_order_move refuses the one who finished):
+    that person's page offers no button the service would refuse, and says who countersigns instead."""
+    services.work_order_move(order, "issue", users["engineer"])
+    services.work_order_move(order, "start", users["technician"])
+    services.work_order_finish(order, users["technician"], 1.0, "ok", _all_readings(order, 0.6),
+                               confirmed_unticked=_unticked(order))
+    note = '<span class="muted" id="countersign-note">a second person countersigns</span>'
+    client.force_login(users["technician"])
+    page = client.get(order.get_absolute_url()).content.decode()
+    assert "Countersign (second person)" not in page and note in page
+    client.force_login(users["engineer"])
+    page = client.get(order.get_absolute_url()).content.decode()
+    assert ">Countersign (second person)</button>" in page and "countersign-note" not in page
+    services.work_order_move(order, "countersign", users["engineer"])
+    client.force_login(users["technician"])
+    assert "countersign-note" not in client.get(order.get_absolute_url()).content.decode()  # nothing left to sign
 
 
 def test_parts_used_come_out_of_stock_and_low_stock_shows_on_the_dashboard(order, users, site, client):
@@ -406,7 +433,10 @@ def test_a_reading_is_beyond_a_limit_written_at_most_or_at_least(limit_text, val
 
 
 def _finish_post(order, settle: float) -> dict:
+    from observatory_ops.planning.services import site_today
+
     data = {"actual_hours": "2", "findings": "ok", "confirm_unticked": "on",
+            "work_done_on": site_today(order.site).isoformat(),
             "unticked": [line.text for line in selectors.unticked_lines(order)]}
     for r in order.required_readings.all():
         data[f"reading_{r.pk}"] = str(settle if r.quantity == "settle_time_s" else 0.4)

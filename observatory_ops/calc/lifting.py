@@ -14,7 +14,7 @@ from __future__ import annotations
 
 import math
 import operator
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 
 import astropy.units as u
 import numpy as np
@@ -253,6 +253,17 @@ class LiftFigures:
     warnings: tuple[str, ...]
     checks: tuple[str, ...]
 
+    @property
+    def over_limit(self) -> bool:
+        """The tension per bearing leg exceeds the working load limit entered (margin below 1)."""
+        return self.margin is not None and self.margin < 1
+
+    @property
+    def too_flat(self) -> bool:
+        """The sling angle is below ``SHALLOW_ANGLE_DEG`` from the horizontal, flatter than rigging practice
+        advises (load factor above 2)."""
+        return self.angle_deg < SHALLOW_ANGLE_DEG
+
 
 def lift_figures(
     diameter_mm: float,
@@ -311,30 +322,7 @@ def lift_figures(
     tension = sling_leg_tension(total, legs, angle)
     margin = None if limit is None else limit / float(tension.to_value(u.kg))
 
-    warnings = []
-    if angle.value < SHALLOW_ANGLE_DEG:
-        warnings.append(
-            f"Sling angle {angle.value:g} degrees from horizontal is below {SHALLOW_ANGLE_DEG:g}: rigging "
-            f"practice advises against such flat angles (load factor {factor:.2f})."
-        )
-    if legs > bearing:
-        warnings.append(
-            f"{legs} legs rigged, but only {bearing} are counted as bearing: the load may ride on two of them."
-        )
-    if legs == 1 and angle.value < 90:
-        warnings.append(
-            f"A single leg hangs vertically above the centre of gravity; check the angle entered "
-            f"({angle.value:g} degrees)."
-        )
-    if margin is None:
-        warnings.append("No working load limit entered: the sling legs' rated capacity has not been compared.")
-    elif margin < 1:
-        warnings.append(
-            f"Leg tension {tension.to_value(u.kg):.0f} kg exceeds the working load limit of {limit:g} kg "
-            f"entered (margin {margin:.2f})."
-        )
-
-    return LiftFigures(
+    figures = LiftFigures(
         mirror_kg=float(mirror.to_value(u.kg)),
         fixture_kg=fixture,
         total_kg=float(total.to_value(u.kg)),
@@ -347,9 +335,39 @@ def lift_figures(
         leg_tension_lb=float(tension.to_value(u.imperial.lb)),
         wll_kg=limit,
         margin=margin,
-        warnings=tuple(warnings),
+        warnings=(),
         checks=LIFT_CHECKS,
     )
+    return replace(figures, warnings=_warnings(figures))
+
+
+def _warnings(figures: LiftFigures) -> tuple[str, ...]:
+    """What is wrong or unknown in a lift's input, read from its figures: the conditions that stop a work order
+    being issued (``LiftFigures.over_limit``, ``LiftFigures.too_flat``) are the ones these warnings state."""
+    warnings = []
+    if figures.too_flat:
+        warnings.append(
+            f"Sling angle {figures.angle_deg:g} degrees from horizontal is below {SHALLOW_ANGLE_DEG:g}: rigging "
+            f"practice advises against such flat angles (load factor {figures.load_factor:.2f})."
+        )
+    if figures.legs_rigged > figures.legs_bearing:
+        warnings.append(
+            f"{figures.legs_rigged} legs rigged, but only {figures.legs_bearing} are counted as bearing: the load "
+            "may ride on two of them."
+        )
+    if figures.legs_rigged == 1 and figures.angle_deg < 90:
+        warnings.append(
+            f"A single leg hangs vertically above the centre of gravity; check the angle entered "
+            f"({figures.angle_deg:g} degrees)."
+        )
+    if figures.margin is None:
+        warnings.append("No working load limit entered: the sling legs' rated capacity has not been compared.")
+    elif figures.over_limit:
+        warnings.append(
+            f"Leg tension {figures.leg_tension_kg:.0f} kg exceeds the working load limit of {figures.wll_kg:g} kg "
+            f"entered (margin {figures.margin:.2f})."
+        )
+    return tuple(warnings)
 
 
 def expected_tube_mass_kg(aperture_m: float) -> float:

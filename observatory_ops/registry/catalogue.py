@@ -122,7 +122,10 @@ KINDS: dict[str, Kind] = {
                     # fits; the value before goes in the findings.
                     readings=(("reflectance", "the mean after cleaning; the mean before in the findings"),),
                     before_isolation=(
-                        "Close the dome and park the telescope pointing at the horizon stop.",
+                        _READ_RECORDS,
+                        _OUT_OF_SERVICE,
+                        "Park the telescope pointing at the horizon stop, so the mirror can be reached from the "
+                        "front (not at the service position other work uses).",
                         "Open the mirror cover; let the mirror reach ambient temperature to avoid condensation.",
                     ),
                     after_isolation=(

@@ -56,6 +56,21 @@ HAZARDS_MISSING_ON_PAPER = (
     "site engineer for a work order that carries them."
 )
 
+#: A telescope whose primary mirror a recoat removed and has not yet put back (workorders.selectors.telescopes_out):
+#: out of balance, axes pinned, drives on the site's long-term locks (the removal order's own release step). Work on
+#: it meanwhile is usual, but no step of it may move an axis or take those locks off (common practice, no published
+#: source; the site's lockout procedure, OSHA 29 CFR 1910.147(f)(4), and the mount maker's instructions come first).
+TELESCOPE_OUT_TITLE = "{telescope} is out of service: its primary mirror is out"
+TELESCOPE_OUT = (
+    "{mirror} was removed on {removed_on} ({removal}), and {reinstall}. Until then the telescope is out of "
+    "balance, with both axes pinned and its drives on the site's long-term locks."
+)
+TELESCOPE_OUT_TODO = (
+    "Do no step that moves an axis, releases a brake or takes those locks off (tests under power, parking, "
+    "returning the telescope to service): leave such steps until the reinstall is finished, and ask the site "
+    "engineer before going on."
+)
+
 #: Parts an order's plans name that are not reserved on it (workorders.selectors.parts_unregistered).
 PARTS_UNREGISTERED = (
     "its service plans name these parts, which are not reserved on this order (the site's parts register did not "
@@ -68,6 +83,20 @@ LOCKOUT_STEP_MISSING = (
     "This work's hazards call for energy isolation, but none of its steps is the lockout step. Do not start the "
     "work until the site engineer has put it in."
 )
+
+#: Why an order is neither issued nor started while its lifting figures stand in the way
+#: (workorders.selectors.lift_refusal): ``{problems}`` names each figure beside its limit, as LIFT_* below word them.
+LIFT_REFUSED = (
+    "{number}'s lifting figures show {problems}: an engineer corrects the lifting figures (the lift page) before it "
+    "is issued or started"
+)
+#: The conditions are those of calc.lifting's warnings (LiftFigures.over_limit, LiftFigures.too_flat).
+LIFT_OVER_LIMIT = "a leg tension of {tension:,.0f} kg, above the working load limit of {limit:g} kg entered per leg"
+LIFT_TOO_FLAT = (
+    "a sling angle of {angle:g} degrees from horizontal (load factor {factor:.2f}), below the {shallow:g} degrees "
+    "under which rigging practice advises against lifting"
+)
+LIFT_INPUTS_INVALID = "stored lifting inputs that are not valid ({problem})"
 
 
 def hazards_missing_notice(hazards: Iterable[str], lockout_step_missing: bool) -> str:
@@ -96,6 +125,14 @@ SEVERITY_LABELS: dict[int, str] = {
     EQUIPMENT_DAMAGE: "Risk of damage to equipment",
 }
 
+
+
+def signal_word(severity_label: str) -> str:
+    """The signal word a caution opens with, on the page and on paper alike: its severity label
+    (``SEVERITY_LABELS``) in capitals, "DANGER TO LIFE"."""
+    return severity_label.upper()
+
+
 PRECEDENCE_STATEMENT = (
     "Local codes and regulations, the manufacturer's instructions and licensed practice take precedence "
     "over this work order. Where they differ from it, follow them and tell the site engineer. The cautions "
@@ -117,6 +154,10 @@ class Caution:
     title: str
     text: str
     standard: str
+
+    @property
+    def signal_word(self) -> str:
+        return signal_word(SEVERITY_LABELS[self.severity])
 
 
 CAUTIONS: dict[str, Caution] = {

@@ -12,7 +12,7 @@ from observatory_ops.registry.forms import HazardsField
 from observatory_ops.registry.models import Subsystem
 
 from . import services
-from .models import Part, WorkOrder
+from .models import Part, State, WorkOrder
 
 
 class _PersonChoiceField(forms.ModelChoiceField):
@@ -47,6 +47,11 @@ class WorkOrderEditForm(forms.ModelForm):
 
     def clean_planned_date(self):
         planned = self.cleaned_data["planned_date"]
+        if planned is None and "planned_date" in self.changed_data and self.instance.state == State.ISSUED:
+            raise forms.ValidationError(  # as issuing asks for one (selectors.moves_held)
+                "An issued order keeps its planned date: the calendar export and the weekly batch go by it. "
+                "Enter the day it is now planned for."
+            )
         if planned is None or "planned_date" not in self.changed_data:  # a date stored earlier stays as it is
             return planned
         today = site_today(self.instance.site)
@@ -110,16 +115,36 @@ class AdHocForm(forms.Form):
         self.fields["subsystems"].queryset = Subsystem.objects.in_service().filter(telescope__site=site)
 
 
-class FinishForm(forms.Form):
-    """Hours, findings, the required readings and the parts used. ``confirm_unticked`` is asked for only
-    when checklist lines are not ticked, ``confirm_hazards`` only when the order lacks hazards its
-    subsystems gained after it was made; ``beyond_limits`` names the readings past their limit."""
+#: The choice on the finish form that says a mirror on the order was not cleaned in its work.
+NOT_CLEANED = "none"
 
-    actual_hours = forms.FloatField(min_value=0, max_value=1000)
+
+class FinishForm(forms.Form):
+    """Hours, the day the work was done, findings, the required readings, the parts used and, for each mirror
+    the order works on, whether it was cleaned. ``confirm_unticked`` is asked for only when checklist lines
+    are not ticked, ``confirm_hazards`` only when the order lacks hazards its subsystems gained after it was
+    made; ``beyond_limits`` names the readings past their limit."""
+
+    # Empty, never the estimate: a tap on Finish must not record the estimate as the time the work took.
+    actual_hours = forms.FloatField(
+        min_value=0, max_value=1000, label="Actual hours",
+        error_messages={"required": "Actual hours: enter the hours the work took."},
+    )
+    work_done_on = forms.DateField(
+        label="Work done on", widget=forms.DateInput(attrs={"type": "date"}),
+        help_text="The day the work was done, at the site: today, unless it is entered later from paper. The "
+                  "service records, readings and cleanings are dated it, and the plans count again from it.",
+        error_messages={"required": "Work done on: enter the day the work was done.",
+                        "invalid": "Work done on: enter a date, such as 2026-06-15."},
+    )
     findings = forms.CharField(widget=forms.Textarea, required=False, max_length=20000)
 
     def __init__(self, *args, order, unticked=(), lacking_hazards=(), **kwargs):
         super().__init__(*args, **kwargs)
+        self._order = order
+        self._today = site_today(order.site)
+        self.fields["actual_hours"].help_text = f"The estimate was {order.estimated_hours:g} h."
+        self.fields["work_done_on"].initial = self._today
         self._required = {r.pk: r for r in order.required_readings.select_related("subsystem")}
         for r in self._required.values():
             self.fields[f"reading_{r.pk}"] = forms.FloatField(
@@ -132,11 +157,21 @@ class FinishForm(forms.Form):
             )
         from observatory_ops.mirrors.models import CleaningEvent, Mirror  # mirrors builds on work orders
 
-        for mirror in Mirror.objects.filter(subsystem__in=[i.subsystem_id for i in order.items.all()]):
+        # Asked with no default for every mirror the order works on: a cleaning plan has no marker that holds (a
+        # site renames its plans and edits their triggers, and a cleaning may be an order raised by hand), and a
+        # forgotten choice would drop the cleaning from the mirror's record and its reflectance forecast. Not
+        # asked on the phase orders of a recoat (removal, coating, reinstall, realignment), whose work is no cleaning.
+        mirrors = [] if order.recoat_phase else Mirror.objects.filter(
+            subsystem__in=[i.subsystem_id for i in order.items.all()]
+        ).select_related("subsystem")
+        for mirror in mirrors:
+            name = mirror.subsystem.name
             self.fields[f"cleaned_{mirror.pk}"] = forms.ChoiceField(
-                label=f"Cleaning of {mirror.subsystem.name}", required=False,
-                choices=[("", "not cleaned in this work"), *CleaningEvent.Method.choices],
+                label=f"Cleaning of {name}",
+                choices=[("", "choose..."), (NOT_CLEANED, "not cleaned in this work"), *CleaningEvent.Method.choices],
                 help_text="A cleaning goes on the mirror's record, so its reflectance forecast counts the recovery.",
+                error_messages={"required": f"Cleaning of {name}: choose how it was cleaned in this work, or "
+                                            "'not cleaned in this work'."},
             )
         if unticked:
             self.fields["confirm_unticked"] = forms.BooleanField(
@@ -149,6 +184,12 @@ class FinishForm(forms.Form):
                       "findings say how",
             )
 
+    def clean_work_done_on(self):
+        day = self.cleaned_data["work_done_on"]
+        if problem := services.work_done_on_problem(self._order, day, self._today):
+            raise forms.ValidationError(f"Work done on: {problem}.")
+        return day
+
     def readings(self) -> dict[int, float]:
         return {int(k[8:]): v for k, v in self.cleaned_data.items() if k.startswith("reading_")}
 
@@ -157,7 +198,7 @@ class FinishForm(forms.Form):
 
     def cleanings(self) -> dict[int, str]:
         """Mirror id -> cleaning method, for each mirror the work cleaned."""
-        return {int(k[8:]): v for k, v in self.cleaned_data.items() if k.startswith("cleaned_") and v}
+        return {int(k[8:]): v for k, v in self.cleaned_data.items() if k.startswith("cleaned_") and v != NOT_CLEANED}
 
     def beyond_limits(self) -> dict[str, str]:
         """Field name -> what to show beside it, for each reading entered past its limit (valid forms only)."""

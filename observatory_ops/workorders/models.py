@@ -67,6 +67,12 @@ class WorkOrder(models.Model):
         help_text="False for work done away from the telescope (a mirror at a coating plant): the order carries "
         "the work's own hazards, not its subsystems'.",
     )
+    recoat_phase = models.CharField(
+        max_length=20, blank=True,
+        help_text="The recoat phase this order does (removal, coating, reinstall, realignment: "
+        "calc.windows.Phase.work); blank for other work. A finished removal with no reinstall finished since means "
+        "the telescope stands without its mirror.",
+    )
     lift_inputs = models.JSONField(
         null=True, blank=True, help_text="Mirror and rigging figures for the lifting numbers (see calc.lifting)."
     )

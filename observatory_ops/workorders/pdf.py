@@ -3,8 +3,9 @@
 Pure layout, no Django and no database: the caller fills a :class:`~observatory_ops.workorders.sheet.Sheet`.
 The order on the page follows the work: header and QR code, a framed notice when the order lacks hazards its
 subsystems now carry, why the work is due, the cautions box before anything else of the work, isolation
-points, lifting figures, steps, parts and tools, readings, findings, the checklist as ticked (finished
-work), sign-off. Everything prints in black, white and light grey, so a mono printer loses nothing.
+points, lifting figures, steps (ticked as on the page, for finished work), parts and tools, readings, the
+checklist as ticked (finished work), findings, and the sign-off with the actual hours and the day of the work.
+Everything prints in black, white and light grey, so a mono printer loses nothing.
 
 Every string of a sheet is user text. reportlab's ``Paragraph`` parses markup, so each one goes through
 :func:`_text` (XML escaping) before it reaches a Paragraph and prints literally; table cells that fit on
@@ -50,8 +51,13 @@ from reportlab.platypus import (
     TableStyle,
 )
 
-from observatory_ops.workorders.cautions import NO_ISOLATION_NEEDED, PARTS_UNREGISTERED, SEVERITY_LABELS
-from observatory_ops.workorders.sheet import Sheet, SheetCaution
+from observatory_ops.workorders.cautions import (
+    NO_ISOLATION_NEEDED,
+    PARTS_UNREGISTERED,
+    SEVERITY_LABELS,
+    signal_word,
+)
+from observatory_ops.workorders.sheet import Sheet, SheetCaution, SheetTick
 
 PAPER_SIZES: dict[str, tuple[float, float]] = {"A4": A4, "letter": LETTER}
 
@@ -60,6 +66,9 @@ MARGIN_TOP = 16 * mm
 MARGIN_BOTTOM = 18 * mm
 QR_SIZE = 28 * mm
 FINDINGS_LINES = 7
+#: Sign-off lines for the people who worked with the one who signs as having done the work: the order does not
+#: know its crew, and a mirror lift takes several hands (rigger, signaller, tag lines).
+CREW_LINES = 3
 
 INK = black
 GREY = Color(0.35, 0.35, 0.35)
@@ -208,16 +217,18 @@ class _SheetStart(Flowable):
 
 
 class _Ticked(Flowable):
-    """A paragraph with a tick box, and optionally a step number, in its left margin.
+    """A paragraph with a tick box, and optionally a step number, in its left margin; the box holds a tick when
+    ``ticked`` (a line ticked on the work order page, printed on the record of finished work).
 
     Splits across pages like the paragraph it holds; the box and the number print on the first part only.
     """
 
-    def __init__(self, paragraph: Paragraph, number: str = "", first_part: bool = True):
+    def __init__(self, paragraph: Paragraph, number: str = "", first_part: bool = True, ticked: bool = False):
         super().__init__()
         self._paragraph = paragraph
         self._number = number
         self._first_part = first_part
+        self._ticked = ticked
         self._indent = _TICK_INDENT + (_NUMBER_WIDTH if number else 0)
 
     def wrap(self, avail_width, avail_height):
@@ -228,7 +239,7 @@ class _Ticked(Flowable):
     def split(self, avail_width, avail_height):
         parts = self._paragraph.split(avail_width - self._indent, avail_height)
         return [
-            _Ticked(part, self._number, first_part=self._first_part and position == 0)
+            _Ticked(part, self._number, first_part=self._first_part and position == 0, ticked=self._ticked)
             for position, part in enumerate(parts)
         ]
 
@@ -247,6 +258,13 @@ class _Ticked(Flowable):
             canvas.setLineWidth(0.8)
             canvas.setStrokeColor(INK)
             canvas.rect(0, baseline - 1, _TICK_BOX, _TICK_BOX, stroke=1, fill=0)
+            if self._ticked:
+                canvas.setLineWidth(1.3)
+                tick = canvas.beginPath()
+                tick.moveTo(1.6, baseline + 3.4)
+                tick.lineTo(3.6, baseline + 1.0)
+                tick.lineTo(7.4, baseline + 6.6)
+                canvas.drawPath(tick, stroke=1, fill=0)
             if self._number:
                 canvas.setFont(FONT_BOLD, font_size)
                 canvas.drawRightString(_TICK_INDENT + _NUMBER_WIDTH - 5, baseline, self._number)
@@ -420,7 +438,7 @@ def _most_severe_first(cautions: Sequence[SheetCaution]) -> list[SheetCaution]:
 
 def _caution_paragraph(caution: SheetCaution) -> Paragraph:
     return _Paragraph(
-        f"<b>{_text(caution.severity_label.upper())} \N{MIDDLE DOT} {_text(caution.title)}</b><br/>"
+        f"<b>{_text(signal_word(caution.severity_label))} \N{MIDDLE DOT} {_text(caution.title)}</b><br/>"
         f"{_text(caution.text)}<br/>"
         f"<font size=8>Standard: {_text(caution.standard)}</font>",
         _BODY,
@@ -449,14 +467,18 @@ def _framed(head: Flowable, body: Sequence[Flowable], closing: Flowable, width: 
     )
 
 
-def _hazards_notice(sheet: Sheet, width: float) -> list[Flowable]:
-    """The order lacks hazards its subsystems now carry: framed like the cautions, above everything of the work."""
-    if not sheet.hazards_notice:
-        return []
-    title, *lines = sheet.hazards_notice
-    *body, closing = lines or [""]
-    box = _framed(_para(title, _CAUTIONS_HEAD), [_para(line) for line in body], _para(closing, _NOTICE_TODO), width)
-    return [Spacer(1, 12), box]
+def _notices(sheet: Sheet, width: float) -> list[Flowable]:
+    """What stands in the way of the work (a telescope without its mirror, hazards the order lacks): each framed
+    like the cautions, above everything of the work; title, body lines, then what to do."""
+    story: list[Flowable] = []
+    for notice in (*sheet.out_of_service, sheet.hazards_notice):
+        if not notice:
+            continue
+        title, *lines = notice
+        *body, closing = lines or [""]
+        head = _para(title, _CAUTIONS_HEAD)
+        story += [Spacer(1, 12), _framed(head, [_para(line) for line in body], _para(closing, _NOTICE_TODO), width)]
+    return story
 
 
 def _cautions(sheet: Sheet, width: float) -> list[Flowable]:
@@ -475,7 +497,15 @@ def _isolation(sheet: Sheet) -> list[Flowable]:
     if not sheet.isolation_points:
         return [heading, _note("None listed for this telescope. Ask the site engineer before working on powered "
                                "or pressurised equipment.")]
-    return [heading, *(_Ticked(_para(point, _ITEM)) for point in sheet.isolation_points)]
+    ticks = sheet.point_ticks or (None,) * len(sheet.isolation_points)
+    return [heading, *(_checklist_line(point, tick) for point, tick in zip(sheet.isolation_points, ticks, strict=True))]
+
+
+def _checklist_line(text: str, tick: SheetTick | None, number: str = "") -> _Ticked:
+    """A step or an isolation point with its tick box: ticked as on the work order page, with the page's note of
+    who ticked it (or took the tick back) and when under it."""
+    note = f"<br/><font size=8>{_text(tick.note)}</font>" if tick is not None and tick.note else ""
+    return _Ticked(_Paragraph(_text(text) + note, _ITEM), number, ticked=tick is not None and tick.ticked)
 
 
 def _lifting(sheet: Sheet, width: float) -> list[Flowable]:
@@ -503,18 +533,24 @@ def _steps(sheet: Sheet) -> list[Flowable]:
     story: list[Flowable] = [_heading("Steps")]
     if sheet.steps_warning:
         story.append(_Paragraph(f"<b>Warning:</b> {_text(sheet.steps_warning)}", _BULLET, bulletText="!"))
+    if sheet.steps_note:
+        story.append(_Paragraph(f"<b>Read first:</b> {_text(sheet.steps_note)}", _BULLET, bulletText="!"))
     if not sheet.steps:
         return [*story, _note("No steps listed.")]
-    return [*story, *(_Ticked(_para(step, _ITEM), f"{number}.") for number, step in enumerate(sheet.steps, start=1))]
+    ticks = sheet.step_ticks or (None,) * len(sheet.steps)
+    return [*story, *(_checklist_line(step, tick, f"{number}.")
+                      for number, (step, tick) in enumerate(zip(sheet.steps, ticks, strict=True), start=1))]
 
 
 def _parts_and_tools(sheet: Sheet, width: float) -> list[Flowable]:
     story: list[Flowable] = [_heading("Parts")]
     if sheet.parts:
-        widths = [width - 55 * mm, 40 * mm, 15 * mm]
-        rows = [[_cell(part.name, widths[0]), _cell(part.part_number, widths[1]), f"{part.quantity:g} {part.unit}"]
+        widths = [width - 100 * mm, 36 * mm, 26 * mm, 38 * mm]
+        rows = [[_cell(part.name, widths[0]), _cell(part.part_number, widths[1]),
+                 _cell(f"{part.quantity:g} {part.unit}", widths[2]),
+                 _written_box(widths[3]) if part.used is None else _cell(f"{part.used:g} {part.unit}", widths[3])]
                 for part in sheet.parts]
-        story.append(_ruled_table(("Part", "Part no.", "Qty"), rows, widths))
+        story.append(_ruled_table(("Part", "Part no.", "Planned", "Used"), rows, widths))
     elif not sheet.parts_unregistered:
         story.append(_note("No parts listed."))
     if sheet.parts_unregistered:
@@ -539,8 +575,7 @@ def _readings(sheet: Sheet, width: float) -> list[Flowable]:
         if reading.recorded:
             box = _cell(f"{reading.recorded} (BEYOND LIMIT)" if reading.beyond_limit else reading.recorded, widths[3])
         else:
-            box = Drawing(box_width - 2 * _CELL_PADDING, 20)
-            box.add(Rect(0, 0, box_width - 2 * _CELL_PADDING, 20, strokeColor=INK, strokeWidth=0.8, fillColor=None))
+            box = _written_box(box_width)
         rows.append([_cell(reading.label, widths[0]), _cell(reading.unit, widths[1]),
                      _cell(reading.limit_text, widths[2]), box])
     story: list[Flowable] = [heading, _ruled_table(("Reading", "Unit", "Limit", "Value"), rows, widths)]
@@ -555,11 +590,17 @@ def _readings(sheet: Sheet, width: float) -> list[Flowable]:
     return story
 
 
+def _written_box(cell_width: float) -> Drawing:
+    """An empty box filling a table cell of ``cell_width``, to write a value in by hand."""
+    box = Drawing(cell_width - 2 * _CELL_PADDING, 20)
+    box.add(Rect(0, 0, cell_width - 2 * _CELL_PADDING, 20, strokeColor=INK, strokeWidth=0.8, fillColor=None))
+    return box
+
+
 def _findings(sheet: Sheet) -> list[Flowable]:
-    title = "Findings" if sheet.actual_hours is None else f"Findings (actual hours: {sheet.actual_hours:g})"
     if sheet.findings.strip():
-        return [_heading(title), _para(sheet.findings)]
-    return [_heading(title), _WritingLines(FINDINGS_LINES)]
+        return [_heading("Findings"), _para(sheet.findings)]
+    return [_heading("Findings"), _WritingLines(FINDINGS_LINES)]
 
 
 def _confirmations(sheet: Sheet) -> list[Flowable]:
@@ -571,18 +612,47 @@ def _confirmations(sheet: Sheet) -> list[Flowable]:
     ]
 
 
+def _record_boxes(sheet: Sheet, width: float) -> Table:
+    """The actual hours and the day the work was done, as the finish form asks for them: filled in for finished
+    work, boxes to write in otherwise."""
+    column = min(60 * mm, width / 2)
+    hours = f"{sheet.actual_hours:g} h" if sheet.actual_hours is not None else _written_box(column)
+    done_on = _date_text(sheet.work_done_on) if sheet.work_done_on is not None else _written_box(column)
+    return Table(
+        [[f"Actual hours (estimate {sheet.estimated_hours:g} h)", "Work done on (date)"], [hours, done_on]],
+        colWidths=[column, column],
+        style=TableStyle([
+            ("VALIGN", (0, 0), (-1, -1), "TOP"),
+            ("FONT", (0, 0), (-1, 0), FONT, 7, 9),
+            ("TEXTCOLOR", (0, 0), (-1, 0), GREY),
+            ("FONT", (0, 1), (-1, 1), FONT, BODY_SIZE, BODY_LEADING),
+            ("LEFTPADDING", (0, 0), (-1, -1), 0),
+            ("RIGHTPADDING", (0, 0), (-1, -1), _CELL_PADDING),
+            ("BOTTOMPADDING", (0, 0), (-1, -1), 2),
+        ]),
+        hAlign="LEFT",
+    )
+
+
 def _sign_off(sheet: Sheet, width: float) -> list[Flowable]:
+    """The actual hours and the day, and a line to sign for the one who did the work, each of the crew with them,
+    the competent person who checked the rigging of a suspended load, and the one who checks the record."""
+
     def day(value) -> str:
         return value.strftime(_DAY) if value else ""
 
+    rows = [
+        ["", "Name", "Signature", "Date"],
+        ["Performed by", _shorten(sheet.performed_by, 40), "", day(sheet.performed_on)],
+        *(["Crew member", "", "", ""] for _ in range(CREW_LINES)),
+    ]
+    if sheet.rigging_check:
+        rows.append(["Rigging checked by\n(competent person)", "", "", ""])
+    rows.append(["Checked by", _shorten(sheet.checked_by, 40), "", day(sheet.checked_on)])
     table = Table(
-        [
-            ["", "Name", "Signature", "Date"],
-            ["Performed by", _shorten(sheet.performed_by, 40), "", day(sheet.performed_on)],
-            ["Checked by", _shorten(sheet.checked_by, 40), "", day(sheet.checked_on)],
-        ],
-        colWidths=[32 * mm, (width - 62 * mm) / 2, (width - 62 * mm) / 2, 30 * mm],
-        rowHeights=[12, 30, 30],
+        rows,
+        colWidths=[36 * mm, (width - 66 * mm) / 2, (width - 66 * mm) / 2, 30 * mm],
+        rowHeights=[12] + [30] * (len(rows) - 1),
         style=TableStyle([
             ("VALIGN", (0, 0), (-1, -1), "BOTTOM"),
             ("FONT", (0, 0), (-1, 0), FONT, 7, 9),
@@ -595,14 +665,14 @@ def _sign_off(sheet: Sheet, width: float) -> list[Flowable]:
         ]),
         hAlign="LEFT",
     )
-    return [KeepTogether([_heading("Sign-off"), table])]
+    return [_heading("Sign-off"), _record_boxes(sheet, width), Spacer(1, 4), table]
 
 
 def _sheet_story(index: int, sheet: Sheet, width: float) -> list[Flowable]:
     return [
         _SheetStart(index, sheet),
         *_header(sheet, width),
-        *_hazards_notice(sheet, width),
+        *_notices(sheet, width),
         *_why(sheet),
         *_cautions(sheet, width),
         *_isolation(sheet),
@@ -610,9 +680,9 @@ def _sheet_story(index: int, sheet: Sheet, width: float) -> list[Flowable]:
         *_steps(sheet),
         *_parts_and_tools(sheet, width),
         *_readings(sheet, width),
-        *_findings(sheet),
         *_confirmations(sheet),
-        *_sign_off(sheet, width),
+        # The sign-off never lands alone on the last page: it goes over with the findings it signs for.
+        KeepTogether([*_findings(sheet), *_sign_off(sheet, width)]),
     ]
 
 

@@ -5,7 +5,7 @@ import datetime as dt
 from collections.abc import Sequence
 from dataclasses import dataclass
 
-from django.db.models import F, Q, QuerySet
+from django.db.models import F, Prefetch, Q, QuerySet
 from django.utils import dateformat, timezone
 
 from observatory_ops.archive.history import Change, changes, person
@@ -21,9 +21,16 @@ from .cautions import (
     HAZARDS_MISSING_ON_PAPER,
     HAZARDS_MISSING_STARTED,
     HAZARDS_MISSING_TITLE,
+    LIFT_INPUTS_INVALID,
+    LIFT_OVER_LIMIT,
+    LIFT_REFUSED,
+    LIFT_TOO_FLAT,
     LOCKOUT_STEP_MISSING,
     PRECEDENCE_STATEMENT,
     SEVERITY_LABELS,
+    TELESCOPE_OUT,
+    TELESCOPE_OUT_TITLE,
+    TELESCOPE_OUT_TODO,
     Caution,
     cautions_for,
     hazards_missing_notice,
@@ -34,6 +41,13 @@ from .models import ChecklistTick, IsolationPoint, Part, State, WorkOrder, WorkO
 
 def work_orders() -> QuerySet[WorkOrder]:
     return WorkOrder.objects.select_related("site", "telescope", "assignee")
+
+
+def work_orders_listed() -> QuerySet[WorkOrder]:
+    """``work_orders`` with each order's items and their telescopes, fetched in one more query for all the rows
+    read: the list names the telescopes of an order over several."""
+    items = WorkOrderItem.objects.select_related("subsystem__telescope")
+    return work_orders().prefetch_related(Prefetch("items", queryset=items))
 
 
 #: States of a work order whose work is still to do.
@@ -54,6 +68,77 @@ def orders_for_plans(plan_ids) -> dict[int, list[WorkOrder]]:
         if item.work_order not in orders:
             orders.append(item.work_order)
     return found
+
+
+@dataclass(frozen=True)
+class TelescopeOut:
+    """A telescope whose primary mirror a recoat removed: the finished ``removal`` order, and the ``reinstall``
+    order still to do (None when none is planned)."""
+
+    telescope_id: int
+    telescope: str
+    mirror: str
+    removal: WorkOrder
+    reinstall: WorkOrder | None
+
+    def notice(self) -> tuple[str, str, str]:
+        """Title, what stands, what not to do: for the pages and the paper of other work at this telescope."""
+        removed_on = dateformat.format(self.removal.finished_at.astimezone(self.removal.site.zone), "d M Y")
+        if self.reinstall is None:
+            reinstall = "no reinstall order is planned yet: the site engineer plans one"
+        else:
+            day = self.reinstall.planned_date
+            planned = dateformat.format(day, "d M Y") if day else "a day not set"
+            reinstall = f"it goes back with {self.reinstall.number}, planned for {planned}"
+        body = TELESCOPE_OUT.format(mirror=self.mirror, removed_on=removed_on, removal=self.removal.number,
+                                    reinstall=reinstall)
+        return TELESCOPE_OUT_TITLE.format(telescope=self.telescope), body, TELESCOPE_OUT_TODO
+
+
+def telescopes_out(sites: Sequence[Site] | None = None) -> dict[int, TelescopeOut]:
+    """Telescope id -> :class:`TelescopeOut`, for each telescope (at ``sites``, or anywhere) whose mirror a recoat
+    removed and no reinstall has put back since: for each mirror, its newest finished removal or reinstall
+    order decides. Three queries at most, whatever the number of orders."""
+    finished = WorkOrder.objects.filter(
+        recoat_phase__in=("removal", "reinstall"), state__in=(State.FINISHED, State.COUNTERSIGNED)
+    )
+    if sites is not None:
+        finished = finished.filter(site__in=list(sites))
+    newest: dict[int, tuple[WorkOrder, Subsystem]] = {}
+    items = Prefetch("items", queryset=WorkOrderItem.objects.select_related("subsystem__telescope"))
+    finished = finished.select_related("site").prefetch_related(items)
+    for order in finished.order_by("finished_at"):
+        for item in order.items.all():
+            newest[item.subsystem_id] = (order, item.subsystem)
+    removed = {pk: pair for pk, pair in newest.items() if pair[0].recoat_phase == "removal"}
+    if not removed:
+        return {}
+    to_do: dict[int, WorkOrder] = {}
+    pending = WorkOrderItem.objects.filter(
+        subsystem_id__in=list(removed), work_order__recoat_phase="reinstall", work_order__state__in=TO_DO
+    ).select_related("work_order").order_by(F("work_order__planned_date").asc(nulls_last=True))
+    for item in pending:
+        to_do.setdefault(item.subsystem_id, item.work_order)
+    return {
+        subsystem.telescope_id: TelescopeOut(
+            subsystem.telescope_id, subsystem.telescope.name, subsystem.name, order, to_do.get(pk)
+        )
+        for pk, (order, subsystem) in removed.items()
+    }
+
+
+def telescope_out_notices(order: WorkOrder) -> list[tuple[str, str, str]]:
+    """The notices for an order still to do at a telescope whose mirror is out (``telescopes_out``); none for the
+    recoat's own orders, which are written for a telescope without its mirror."""
+    if order.state not in TO_DO or order.recoat_phase:
+        return []
+    out = telescopes_out([order.site])
+    if not out:
+        return []
+    at = {order.telescope_id} if order.telescope_id else set(
+        order.items.values_list("subsystem__telescope_id", flat=True)
+    )
+    return [out[pk].notice() for pk in sorted(at) if pk in out]
 
 
 def low_stock(site: Site) -> QuerySet[Part]:
@@ -170,31 +255,50 @@ _ISOLATES = {"electrical": {"ac", "dc", "servo"}, "pneumatic": {"air"}}
 _SOURCE = {"electrical": "electrical", "pneumatic": "compressed-air"}
 
 
+def _hazards_by_telescope(order: WorkOrder, items: list[WorkOrderItem]) -> dict[int, set[str]]:
+    """Telescope id -> the order's hazards that concern work there: those its items on that telescope carry
+    (their subsystems' and plans', ``hazards_of``), and the hazards no item carries (given by hand, or added
+    with the lifting figures), which the order's telescopes share as nothing says whose they are."""
+    by_telescope: dict[int, list[WorkOrderItem]] = {pk: [] for pk in _telescopes(order, items)}
+    for item in items:
+        by_telescope[item.subsystem.telescope_id].append(item)
+    own = {
+        pk: set(hazards_of([i.subsystem for i in there], [i.plan for i in there if i.plan_id]))
+        for pk, there in by_telescope.items()
+    }
+    anyone = set().union(*own.values())
+    unplaced = {h for h in order.hazards if h not in anyone}
+    return {pk: (found & set(order.hazards)) | unplaced for pk, found in own.items()}
+
+
 def isolation_gaps(order: WorkOrder) -> list[str]:
     """A warning for each telescope of the order with a hazard but no isolation point for its energy, and
     for each subsystem fed from a supply of its own (``catalogue.Kind.separate_supply``, a dome) with no
     point registered for it: the telescope's points do not make its own drives safe. That is each such
-    subsystem the order works on with electrical energy among its hazards and, when a moving telescope or
-    dome is among them, each one in service on its telescopes (as ``isolation_points`` lists them)."""
+    subsystem the order works on with electrical energy among its telescope's hazards and, when a moving
+    telescope or dome is among them, each one in service on that telescope (as ``isolation_points`` lists them).
+
+    Each telescope is judged by the hazards of the work there (``_hazards_by_telescope``): an order over two
+    telescopes whose brake work on one involves compressed air asks for no air point on the other."""
     if not needs_isolation(order.hazards):
         return []
     points = isolation_points(order)
-    items = list(order.items.select_related("subsystem__telescope"))
+    items = list(order.items.select_related("subsystem__telescope", "plan"))
+    hazards = _hazards_by_telescope(order, items)
     gaps = []
     for telescope in sorted({i.subsystem.telescope for i in items}, key=lambda t: t.name):
         energies = {p.energy for p in points if p.telescope_id == telescope.pk and p.subsystem_id is None}
         for hazard, answers in _ISOLATES.items():
-            if hazard in order.hazards and not energies & answers:
+            if hazard in hazards[telescope.pk] and not energies & answers:
                 gaps.append(
                     f"No {_SOURCE[hazard]} isolation point is registered for {telescope.name}: find and lock the "
                     "supply before work, and have an engineer add it to the register."
                 )
     worked_on = {i.subsystem_id: i.subsystem for i in items if i.subsystem.kind in _SEPARATE_SUPPLY}
-    own_supply = dict(worked_on) if "electrical" in order.hazards else {}
-    if "moving_machinery" in order.hazards:
-        nearby = Subsystem.objects.in_service().filter(
-            telescope_id__in=_telescopes(order, items), kind__in=_SEPARATE_SUPPLY
-        )
+    own_supply = {pk: s for pk, s in worked_on.items() if "electrical" in hazards[s.telescope_id]}
+    moving = [pk for pk, found in hazards.items() if "moving_machinery" in found]
+    if moving:
+        nearby = Subsystem.objects.in_service().filter(telescope_id__in=moving, kind__in=_SEPARATE_SUPPLY)
         own_supply.update({s.pk: s for s in nearby.select_related("telescope")})
     for subsystem in sorted(own_supply.values(), key=lambda s: (s.telescope.name, s.name)):
         if any(p.subsystem_id == subsystem.pk for p in points):
@@ -352,8 +456,88 @@ def checklist_record(order: WorkOrder, points: list[IsolationPoint]) -> tuple[st
     return tuple(record)
 
 
+def work_done_on(order: WorkOrder) -> dt.date | None:
+    """The day a finished order's work was done, as the finish form gave it: the date of the service records it
+    wrote (``services.work_order_finish``); None before it is finished."""
+    return (
+        order.service_records.filter(corrects__isnull=True).order_by("pk").values_list("performed_on", flat=True)
+        .first()
+    )
+
+
+@dataclass(frozen=True)
+class RecoatPhase:
+    """Where one phase order of a recoat stands in its plan (``mirrors.RecoatPlan.work_orders``): the kind of its
+    work (``WorkOrder.recoat_phase``), the plan's next phase order not withdrawn, and the mirror's state when it
+    is the removal that took the mirror out and no reinstall has put it back (``telescopes_out``)."""
+
+    work: str
+    next_order: WorkOrder | None
+    mirror_out: TelescopeOut | None
+
+
+def recoat_phase(order: WorkOrder) -> RecoatPhase | None:
+    """For a phase order of a recoat, where it stands in its plan; None for any other order."""
+    if not order.recoat_phase:
+        return None
+    plan = order.recoat_plans.order_by("-pk").first()
+    later = plan.work_orders.filter(pk__gt=order.pk).exclude(state=State.WITHDRAWN).order_by("pk") if plan else None
+    out = telescopes_out([order.site]).get(order.telescope_id) if order.recoat_phase == "removal" else None
+    return RecoatPhase(
+        order.recoat_phase, later.first() if later is not None else None,
+        out if out is not None and out.removal.pk == order.pk else None,
+    )
+
+
 def lift(order: WorkOrder) -> lifting.LiftFigures | None:
-    return lifting.lift_figures(**order.lift_inputs) if order.lift_inputs else None
+    """The figures of the order's stored lifting inputs, None when it has none. ValueError names what is wrong with
+    the inputs: a value ``calc.lifting`` refuses, or a field missing or unknown (they are stored as JSON)."""
+    if not order.lift_inputs:
+        return None
+    try:
+        return lifting.lift_figures(**order.lift_inputs)
+    except TypeError as exc:
+        raise ValueError(f"they do not fit the lifting figures: {exc}") from None
+
+
+def lift_refusal(order: WorkOrder) -> str:
+    """Why the order's lift stops it being issued or started, naming each figure and its limit; "" when nothing
+    does. What stops it: a leg tension above the working load limit entered, or a sling angle flatter than
+    rigging practice advises (the conditions of ``calc.lifting``'s warnings: ``LiftFigures.over_limit``,
+    ``LiftFigures.too_flat``), or stored inputs that are not valid. An order without lifting figures passes."""
+    try:
+        figures = lift(order)
+    except ValueError as exc:
+        problems = [LIFT_INPUTS_INVALID.format(problem=exc)]
+    else:
+        if figures is None:
+            return ""
+        problems = []
+        if figures.over_limit:
+            problems.append(LIFT_OVER_LIMIT.format(tension=figures.leg_tension_kg, limit=figures.wll_kg))
+        if figures.too_flat:
+            problems.append(LIFT_TOO_FLAT.format(
+                angle=figures.angle_deg, factor=figures.load_factor, shallow=lifting.SHALLOW_ANGLE_DEG
+            ))
+    return LIFT_REFUSED.format(number=order.number, problems=" and ".join(problems)) if problems else ""
+
+
+#: Why an order is not issued without a planned date.
+NO_PLANNED_DATE = "set the planned date (Edit) before issuing: the calendar export and the weekly batch go by it"
+
+
+def moves_held(order: WorkOrder) -> dict[str, list[str]]:
+    """The moves (``lifecycle`` actions) the order may not take as it stands, whoever asks, each with the reasons:
+    issuing without a planned date (the calendar export and the weekly batch go by it), and issuing or starting
+    while its lift stands in the way (``lift_refusal``). ``services.work_order_move`` refuses
+    them with these words, and the order's page leaves their buttons out and says why."""
+    held: dict[str, list[str]] = {}
+    if order.state == State.DRAFT and order.planned_date is None:
+        held.setdefault("issue", []).append(NO_PLANNED_DATE)
+    if order.state in (State.DRAFT, State.ISSUED) and (why := lift_refusal(order)):
+        for action in ("issue", "start"):
+            held.setdefault(action, []).append(why)
+    return held
 
 
 def lift_rows(figures: lifting.LiftFigures) -> list[tuple[str, str]]:
@@ -381,6 +565,12 @@ def sheet(order: WorkOrder, url: str) -> sheet_.Sheet:
     readings = list(order.required_readings.select_related("subsystem__telescope", "reading"))
     telescopes = sorted({i.subsystem.telescope.name for i in items})
     subsystems = {i.subsystem_id: i.subsystem for i in items}.values()  # once each, in the order of the items
+    finished = order.state in (State.FINISHED, State.COUNTERSIGNED)
+    gaps = isolation_gaps(order)
+    lines = checklist(order, points)
+
+    def ticks(checked: list[ChecklistLine]) -> tuple[sheet_.SheetTick, ...]:  # as the page shows the finished work
+        return tuple(sheet_.SheetTick(line.ticked, line.note) for line in checked) if finished else ()
 
     def where(subsystem) -> str:  # a subsystem as the sheet names it: with its telescope when there are several
         return f"{subsystem.telescope.name}: {subsystem.name}" if len(telescopes) > 1 else subsystem.name
@@ -408,14 +598,17 @@ def sheet(order: WorkOrder, url: str) -> sheet_.Sheet:
         ),
         precedence_statement=PRECEDENCE_STATEMENT,
         hazards_notice=hazards_notice(order, hazards_missing(order), paper=True),
+        out_of_service=tuple(telescope_out_notices(order)),
         isolation_needed=needs_isolation(order.hazards),
-        isolation_points=tuple(f"WARNING: {gap}" for gap in isolation_gaps(order))
-        + tuple(p.description for p in points),
-        steps=tuple(order.step_list),
+        isolation_points=tuple(f"WARNING: {gap}" for gap in gaps) + tuple(line.text for line in lines.points),
+        point_ticks=(None,) * len(gaps) + ticks(lines.points) if finished else (),
+        steps=tuple(line.text for line in lines.steps),
+        step_ticks=ticks(lines.steps),
         steps_warning=lockout_step_warning(order),
+        steps_note=lines.steps_note,
         parts_unregistered=tuple(parts_unregistered(order)),
         parts=tuple(
-            sheet_.SheetPart(u.part.name, u.part.part_number, u.quantity_used or u.quantity_planned, u.part.unit)
+            sheet_.SheetPart(u.part.name, u.part.part_number, u.quantity_planned, u.part.unit, used=u.quantity_used)
             for u in order.part_uses.select_related("part")
         ),
         tools=tuple(order.tool_list),
@@ -431,13 +624,13 @@ def sheet(order: WorkOrder, url: str) -> sheet_.Sheet:
         findings=order.findings,
         generated_at=timezone.now().astimezone(zone),
         actual_hours=order.actual_hours,
+        work_done_on=work_done_on(order) if finished else None,
+        rigging_check="suspended_load" in order.hazards or figures is not None,
         performed_by=person(order.finished_by),
         performed_on=order.finished_at.astimezone(zone).date() if order.finished_at else None,
         checked_by=person(order.countersigned_by),
         checked_on=order.countersigned_at.astimezone(zone).date() if order.countersigned_at else None,
-        confirmations=(
-            checklist_record(order, points) if order.state in (State.FINISHED, State.COUNTERSIGNED) else ()
-        ),
+        confirmations=checklist_record(order, points) if finished else (),
     )
 
 

@@ -19,6 +19,7 @@ from django.utils import dateformat, timezone
 from observatory_ops.access.roles import ENGINEER, TECHNICIAN, has_role
 from observatory_ops.archive.history import person
 from observatory_ops.calc import lifting
+from observatory_ops.calc.triggers import DUE, OVERDUE
 from observatory_ops.logbook.models import Reading, ServiceRecord
 from observatory_ops.logbook.quantities import QUANTITIES, value_problem
 from observatory_ops.planning.metrics import READING
@@ -30,7 +31,7 @@ from observatory_ops.registry.models import Site, Subsystem
 from .cautions import HAZARDS, ISOLATION_HAZARDS, needs_isolation
 from .lifecycle import TRANSITIONS
 from .models import ChecklistTick, Part, PartUse, RequiredReading, State, WorkOrder, WorkOrderItem
-from .selectors import hazards_missing, hazards_of, isolation_points, latest_ticks, unticked_lines
+from .selectors import hazards_missing, hazards_of, isolation_points, latest_ticks, moves_held, unticked_lines
 
 LOCKOUT_STEP = (
     "Isolate, lock and tag every energy source listed under 'Energy isolation points'; release stored "
@@ -45,6 +46,24 @@ class Refused(Exception):
 def lockout_missing(hazards: Sequence[str], steps: Sequence[str]) -> bool:
     """True when the hazards call for isolation but no step is the lockout step."""
     return needs_isolation(hazards) and LOCKOUT_STEP not in (s.strip() for s in steps)
+
+
+def isolated_steps(steps: Sequence[str]) -> tuple[int, range] | None:
+    """Where an order's steps isolate the energy, as ``steps_in_groups`` placed it: the position of the lockout
+    step (``LOCKOUT_STEP``, its first occurrence) and the positions of the steps done locked out after it, up to
+    the step that removes the locks (``catalogue.RELEASE``); None when no step is the lockout step.
+
+    Only those two exact steps are looked for, never other wording. Without ``RELEASE`` after the lockout step
+    (a recoat phase ends its locked-out work in words of its own, or the steps were edited by hand) every step
+    after the lockout step counts as done locked out: the locks may still be on there, and steps ticked in
+    their written order never meet a refusal (``checklist_tick_set``).
+    """
+    lines = [step.strip() for step in steps]
+    if LOCKOUT_STEP not in lines:
+        return None
+    lockout = lines.index(LOCKOUT_STEP)
+    release = next((i for i in range(lockout + 1, len(lines)) if lines[i] == RELEASE), len(lines))
+    return lockout, range(lockout + 1, release)
 
 
 def steps_in_groups(
@@ -149,7 +168,9 @@ def _shared_once(run: list[tuple[ServicePlan, str]], labels: dict[int, str], sev
 
 def work_order_from_due(plans: Sequence[ServicePlan], by, planned_date: dt.date | None = None) -> WorkOrder:
     """One work order covering the given plans (selected on the due list), with steps from their templates."""
-    plans = list(ServicePlan.objects.filter(pk__in=[p.pk for p in plans]).select_related("subsystem__telescope__site"))
+    plans = list(
+        ServicePlan.objects.filter(pk__in=[p.pk for p in plans]).select_related("subsystem__telescope__site", "status")
+    )
     if not plans:
         raise Refused("select at least one due item")
     sites = {p.subsystem.telescope.site_id for p in plans}
@@ -158,7 +179,9 @@ def work_order_from_due(plans: Sequence[ServicePlan], by, planned_date: dt.date 
     subsystems = list({p.subsystem_id: p.subsystem for p in plans}.values())
     telescopes = {s.telescope_id for s in subsystems}
     hazards = hazards_of(subsystems, plans)
-    reading_plan = any(t.metric == READING for p in plans for t in p.triggers.all())
+    # Condition-based (EN 13306) when a measured condition is what made an item due: its governing trigger is a
+    # reading; a plan that merely has a reading trigger among others is due by the calendar or by use.
+    condition_based = any(_due_by(p, READING) for p in plans)
     site = plans[0].subsystem.telescope.site
     tools = list(dict.fromkeys(tool for p in plans for tool in p.tools.splitlines() if tool.strip()))
     labels = _plan_labels(plans)
@@ -167,7 +190,7 @@ def work_order_from_due(plans: Sequence[ServicePlan], by, planned_date: dt.date 
             site=site,
             telescope=subsystems[0].telescope if len(telescopes) == 1 else None,
             title="; ".join(labels[p.pk] for p in plans)[:200],
-            order_type=WorkOrder.Type.CONDITION_BASED if reading_plan else WorkOrder.Type.PREVENTIVE,
+            order_type=WorkOrder.Type.CONDITION_BASED if condition_based else WorkOrder.Type.PREVENTIVE,
             planned_date=planned_date,
             estimated_hours=sum(p.estimated_hours for p in plans),
             steps=_steps_for(plans, labels, hazards),
@@ -198,6 +221,13 @@ def work_order_from_due(plans: Sequence[ServicePlan], by, planned_date: dt.date 
         for part, quantity in planned.items():  # one by one, so the audit trail records each
             PartUse.objects.create(work_order=order, part=part, quantity_planned=quantity)
     return order
+
+
+def _due_by(plan: ServicePlan, metric: str) -> bool:
+    """The plan is due (or overdue) now, by its governing trigger, and that trigger counts ``metric``
+    (``PlanStatus``, as the last recompute left it; a plan never computed is due by nothing)."""
+    status = getattr(plan, "status", None)
+    return status is not None and status.status in (DUE, OVERDUE) and status.metric == metric
 
 
 def _mirror_lift(subsystems: Sequence[Subsystem], hazards: Sequence[str]) -> dict | None:
@@ -276,6 +306,8 @@ def work_order_move(order: WorkOrder, action: str, by, reason: str = "") -> Work
             f"{order.number} lacks hazards its subsystems now carry ({named}): an engineer brings it up to date "
             "first (the button on its page), which adds them and their cautions"
         )
+    if reasons := moves_held(order).get(action):
+        raise Refused("; and ".join(reasons))
     if action == "issue":
         if not order.step_list:
             raise Refused("a work order needs at least one step before it is issued")
@@ -330,6 +362,21 @@ def _claim_refusal(order: WorkOrder, by) -> Refused:
     return Refused(f"someone else changed this work order meanwhile: it is now {current.get_state_display()}")
 
 
+def work_done_on_problem(order: WorkOrder, day: dt.date, today: dt.date | None = None) -> str:
+    """Why ``day`` cannot be the day the order's work was done, "" when it can: it is after the site's today
+    (``today``, read when not given), or before the day the work was started, at the site."""
+    today = today or site_today(order.site)
+    if day > today:
+        return f"{day:%d %b %Y} is after today at the site ({today:%d %b %Y}); enter the day the work was done"
+    started = order.started_at.astimezone(order.site.zone).date() if order.started_at else None
+    if started is not None and day < started:
+        return (
+            f"{day:%d %b %Y} is before the work was started ({started:%d %b %Y}); enter the day the work was done, "
+            "or ask the site engineer if it was started late on the system"
+        )
+    return ""
+
+
 def work_order_finish(
     order: WorkOrder,
     by,
@@ -340,11 +387,18 @@ def work_order_finish(
     confirmed_unticked: Collection[str] = (),
     cleanings: dict[int, str] | None = None,
     confirmed_hazards: Collection[str] = (),
+    work_done_on: dt.date | None = None,
 ) -> WorkOrder:
     """Record the work: service records for every item, readings, parts used; reset plans; recompute.
 
+    ``work_done_on`` is the day the work was done at the site (default: the site's today; a paper order may be
+    entered days later). The service records are dated it, so the plans count again from it; so are the
+    cleanings, and the readings are taken at noon of it (now, when it is today). Refused when it is after today
+    or before the day the work was started (``work_done_on_problem``).
+
     ``cleanings`` maps the id of a mirror the work cleaned -> the method (``CleaningEvent.Method``): each
-    becomes a cleaning on the mirror's record, dated today at the site, so its decline fit sees the recovery.
+    becomes a cleaning on the mirror's record, dated the day the work was done, so its decline fit sees the
+    recovery.
 
     ``readings`` maps RequiredReading id -> value (all are required; a value beyond its limit is recorded as
     measured, and the record flags it); ``parts_used`` maps PartUse id -> quantity used (default: as
@@ -355,8 +409,9 @@ def work_order_finish(
     after it was made (``selectors.hazards_missing``) that the person confirmed were controlled or did not
     arise; every one must be among them, the findings must say how, and the order keeps the list
     (``hazards_confirmed_at_finish``). Refused with a reason, changing nothing, when a reading is missing, a
-    quantity is negative, stock would go below zero, an unticked line or a hazard the order lacks was not
-    confirmed, or the order is no longer underway (``AlreadyFinished`` when it was finished meanwhile).
+    quantity is negative, the day the work was done is out of bounds, stock would go below zero, an unticked
+    line or a hazard the order lacks was not confirmed, or the order is no longer underway (``AlreadyFinished``
+    when it was finished meanwhile).
     """
     from observatory_ops.mirrors.models import Mirror  # mirrors builds on work orders
     from observatory_ops.mirrors.services import cleaning_log, measurement_from_reading
@@ -380,7 +435,17 @@ def work_order_finish(
         raise Refused("a quantity of parts used cannot be negative")
     site = order.site
     today = site_today(site)
+    day = work_done_on or today
+    if problem := work_done_on_problem(order, day, today):
+        raise Refused(f"work done on: {problem}")
     now = timezone.now()
+    # A reading's time of day is not asked on the form. Today's is taken now, which is never in the future
+    # and keeps its order among today's other readings. An earlier day's is taken at noon, site time: its
+    # local date is that day whatever the zone's offset, so the mirror's measurement (dated by the local date)
+    # and the plans' reading trends (counting readings from the local midnight of the last service day) both
+    # see it on the day the work was done; noon also ends the night before (calc.night_of), so it comes after
+    # that night's observing, as daytime work does.
+    taken_at = now if day == today else dt.datetime.combine(day, dt.time(12), tzinfo=site.zone)
     items = list(order.items.select_related("subsystem", "plan"))
     with transaction.atomic():
         lacking = hazards_missing(order)  # read while the order is still underway
@@ -418,20 +483,20 @@ def work_order_finish(
         share = actual_hours / max(len(items), 1)
         for item in items:
             ServiceRecord.objects.create(
-                subsystem=item.subsystem, plan=item.plan, performed_on=today, performed_by=by, hours_spent=share,
+                subsystem=item.subsystem, plan=item.plan, performed_on=day, performed_by=by, hours_spent=share,
                 summary=(item.plan.name if item.plan else order.title)[:200], findings=findings,
                 work_order=order, created_by=by,
             )
         for r in required:
             r.reading = Reading.objects.create(
-                subsystem=r.subsystem, quantity=r.quantity, unit=r.unit, value=readings[r.pk], taken_at=now,
+                subsystem=r.subsystem, quantity=r.quantity, unit=r.unit, value=readings[r.pk], taken_at=taken_at,
                 taken_by=by, note=f"recorded on {order.number}",
             )
             r.save(update_fields=["reading"])
             measurement_from_reading(r.reading)  # a mirror's reflectance also reaches its decline fit
         on_order = {item.subsystem_id for item in items}
         for mirror in Mirror.objects.filter(pk__in=list(cleanings or {}), subsystem_id__in=on_order):
-            cleaning_log(mirror, by, today, cleanings[mirror.pk], note=f"on {order.number}")
+            cleaning_log(mirror, by, day, cleanings[mirror.pk], note=f"on {order.number}")
         for use in order.part_uses.all():
             quantity = parts_used.get(use.pk, use.quantity_planned)
             part = Part.objects.select_for_update().get(pk=use.part_id)
@@ -459,6 +524,12 @@ def checklist_tick_set(
     line as the person read it on their page: when it has been changed since, the tick is refused rather
     than recorded against words they did not see. Refused, storing nothing, when the order is not
     underway, the line does not exist, or the line is already in the state asked for.
+
+    On an order whose hazards need energy isolated the record follows the sequence of the lockout (OSHA 29 CFR
+    1910.147(d): the lockout devices on every isolating device, then stored energy, then the isolation verified,
+    all before the work): a step done locked out (``isolated_steps``) is ticked only once the lockout step and
+    every isolation point of the order are, and the lockout step only once every point is. Refused otherwise,
+    naming what to tick first (``_lockout_sequence_refusal``). Taking a tick back is always recorded.
     """
     if not has_role(by, TECHNICIAN):
         raise Refused(f"ticking the checklist needs the {TECHNICIAN} role or above")
@@ -485,13 +556,57 @@ def checklist_tick_set(
             raise Refused(f"unknown kind of checklist line {kind!r}; it must be 'step' or 'point'")
         if seen_text is not None and seen_text.strip() != entry.text:
             raise Refused(f"{what} has been changed since your page was loaded; reload it and check again")
-        latest = latest_ticks(current).get(entry.line)
+        ticks = latest_ticks(current)
+        latest = ticks.get(entry.line)
         already = latest is not None and latest.ticked and latest.text == entry.text
         if already == ticked:
             raise Refused(f"{what} is {'already ticked' if ticked else 'not ticked'}")
+        if ticked and kind == ChecklistTick.Kind.STEP and (refusal := _lockout_sequence_refusal(current, key, ticks)):
+            raise Refused(refusal)
         entry._history_user = by
         entry.save()
     return entry
+
+
+def _lockout_sequence_refusal(order: WorkOrder, index: int, ticks: dict) -> str:
+    """Why step ``index`` (from 0) cannot be ticked yet under the sequence of the lockout, or "" when it can.
+    ``ticks`` are the order's newest entries (``selectors.latest_ticks``); a tick on a line whose words have
+    changed since counts for nothing, as on the page."""
+    if not needs_isolation(order.hazards):
+        return ""
+    steps = order.step_list
+    found = isolated_steps(steps)
+    if found is None:
+        return ""
+    lockout, locked = found
+    if index != lockout and index not in locked:
+        return ""
+
+    def done(line, text: str) -> bool:
+        tick = ticks.get(line)
+        return tick is not None and tick.ticked and tick.text == text
+
+    points = isolation_points(order)
+    several = len({p.telescope_id for p in points}) > 1
+    open_points = [
+        f"'{p.telescope.name}: {p.label}'" if several else f"'{p.label}'"
+        for p in points if not done((ChecklistTick.Kind.POINT, p.pk), p.description)
+    ]
+    named = f"isolation point{'s' if len(open_points) > 1 else ''} {', '.join(open_points)}"
+    if index == lockout:
+        # The lockout step's own words ("Isolate, lock and tag every energy source listed under 'Energy isolation
+        # points'; release stored pressure; try to start the drives ...") take in locking each point: each point
+        # is ticked as its lock goes on, and the step once all of them are locked, the stored energy released and
+        # the drives tried (1910.147(d)(4) to (d)(6)). So the points come first, and the step closes the lockout.
+        if open_points:
+            return f"step {index + 1} is the lockout, which locks and tags every isolation point: tick {named} first"
+        return ""
+    first = [] if done((ChecklistTick.Kind.STEP, lockout), steps[lockout]) else [f"the lockout (step {lockout + 1})"]
+    if open_points:
+        first.append(named)
+    if not first:
+        return ""
+    return f"step {index + 1} is done with the energy isolated: tick {' and '.join(first)} first"
 
 
 def part_add(order: WorkOrder, part: Part, quantity: float) -> PartUse:

@@ -24,16 +24,28 @@ class SheetCaution:
 
 @dataclass(frozen=True)
 class SheetPart:
-    """A spare part the work needs."""
+    """A spare part the work needs: the ``quantity`` planned, and the quantity ``used`` once the work is finished
+    (None before: the sheet leaves a box to write it in)."""
 
     name: str
     part_number: str
     quantity: float
     unit: str = "each"
+    used: float | None = None
 
     def __post_init__(self) -> None:
-        if not math.isfinite(self.quantity) or self.quantity < 0:
-            raise ValueError(f"part {self.name!r}: quantity must be a number of 0 or more, got {self.quantity!r}")
+        for what, value in (("quantity", self.quantity), ("quantity used", self.used)):
+            if value is not None and (not math.isfinite(value) or value < 0):
+                raise ValueError(f"part {self.name!r}: {what} must be a number of 0 or more, got {value!r}")
+
+
+@dataclass(frozen=True)
+class SheetTick:
+    """How a checklist line (a step, an isolation point) was left on the work order page: ``ticked`` or not, and
+    the page's note of who ticked it or took the tick back, and when ("" when nobody did)."""
+
+    ticked: bool
+    note: str = ""
 
 
 @dataclass(frozen=True)
@@ -64,14 +76,23 @@ class SheetLifting:
 class Sheet:
     """Everything one printed work order shows, top to bottom.
 
-    ``hazards_notice`` (empty for an order up to date) is printed in a framed box under the header, before
-    anything of the work: its title, the hazards the order's subsystems now carry that it lacks, what to do.
+    ``out_of_service`` holds a notice (title, what stands, what not to do) for each telescope of the order whose
+    mirror a recoat has removed, and ``hazards_notice`` (empty for an order up to date) what the order lacks of
+    its subsystems' hazards (title, the hazards, what to do): each is printed in a framed box under the header,
+    before anything of the work.
     ``why`` has one line per due item (trigger, value now, limit, forecast). ``cautions`` are printed in
     a framed box before any step, most severe first, followed by ``precedence_statement``.
     ``steps_warning``, when set, is printed above the steps (the lockout step is missing from them).
     ``isolation_points`` are the energy isolation points of the telescope for the lockout step; with
     ``isolation_needed`` False the work's hazards need nothing isolated and the sheet says so.
+    ``steps_note`` (how the steps of several plans were merged, before the work starts) is printed above the steps.
+    ``step_ticks`` and ``point_ticks`` (finished work only; otherwise empty) give, for each of ``steps`` and of
+    ``isolation_points`` in turn, how it was ticked on the work order page (None for a line that is no checklist
+    line, a warning among the points): a ticked line prints with its box ticked, and each note beside its line.
     ``findings`` is printed when present; otherwise blank ruled lines are left for writing.
+    ``actual_hours`` and ``work_done_on`` (finished work) fill their boxes by the sign-off; without them the boxes
+    are left to write in. ``rigging_check`` adds a sign-off line for the competent person who checks the rigging
+    of a suspended load.
     ``confirmations`` (finished work only) are the checklist lines ticked on the work order page, each
     with who ticked it and when, then those nobody ticked, with who confirmed they were done or did not apply.
     A reading whose ``beyond_limit`` is set is flagged in the table and listed under it.
@@ -110,7 +131,13 @@ class Sheet:
     checked_on: date | None = None
     confirmations: tuple[str, ...] = ()
     hazards_notice: tuple[str, ...] = ()
+    out_of_service: tuple[tuple[str, ...], ...] = ()
     steps_warning: str = ""
+    steps_note: str = ""
+    step_ticks: tuple[SheetTick | None, ...] = ()
+    point_ticks: tuple[SheetTick | None, ...] = ()
+    work_done_on: date | None = None
+    rigging_check: bool = False
     parts_unregistered: tuple[str, ...] = ()  # "2 x Brake pad set": named by the plans, not in the parts register
 
     def __post_init__(self) -> None:
@@ -120,6 +147,9 @@ class Sheet:
                 raise ValueError(f"{name} must be a sequence of lines, not a single string")
         if not self.number.strip():
             raise ValueError("work order number must not be blank")
+        for ticks, lines in (("step_ticks", "steps"), ("point_ticks", "isolation_points")):
+            if getattr(self, ticks) and len(getattr(self, ticks)) != len(getattr(self, lines)):
+                raise ValueError(f"work order {self.number}: {ticks} must give one entry for each of its {lines}")
         if not math.isfinite(self.estimated_hours) or self.estimated_hours < 0:
             raise ValueError(
                 f"work order {self.number}: estimated hours must be a number of 0 or more, got {self.estimated_hours!r}"

@@ -13,6 +13,9 @@ class WorkOrderTable(tables.Table):
     state = tables.Column()
     title = tables.Column()
     site = tables.Column(accessor="site__name", verbose_name="Site")
+    # An order over several telescopes has none of its own: its items name them (``selectors.work_orders_listed``
+    # fetches them for the whole page at once). empty_values=(): rendered for those too.
+    telescope = tables.Column(accessor="telescope__name", verbose_name="Telescope", empty_values=())
     planned_date = tables.Column(verbose_name="Planned")
     priority = tables.Column()
     assignee = tables.Column()
@@ -20,11 +23,16 @@ class WorkOrderTable(tables.Table):
     class Meta:
         model = WorkOrder
         fields = ()
-        sequence = ("number", "state", "title", "site", "planned_date", "priority", "assignee")
+        sequence = ("number", "state", "title", "site", "telescope", "planned_date", "priority", "assignee")
         order_by = ("-number",)
 
     def render_number(self, record):
         return format_html('<a href="{}">{}</a>', record.get_absolute_url(), record.number)
+
+    def render_telescope(self, record):
+        if record.telescope_id:
+            return record.telescope.name
+        return ", ".join(sorted({item.subsystem.telescope.name for item in record.items.all()})) or "several"
 
     def render_assignee(self, record):
         return person(record.assignee)

@@ -4,6 +4,7 @@ from django.contrib import messages
 from django.http import HttpResponse, HttpResponseNotAllowed, JsonResponse
 from django.shortcuts import get_object_or_404, redirect, render
 from django.urls import reverse
+from django.utils.html import format_html, format_html_join
 from django.utils.http import url_has_allowed_host_and_scheme
 from django_tables2 import RequestConfig
 
@@ -35,7 +36,7 @@ def _order(pk) -> WorkOrder:
 
 @requires(VIEWER)
 def work_order_list(request):
-    filtered = WorkOrderFilter(request.GET, queryset=selectors.work_orders())
+    filtered = WorkOrderFilter(request.GET, queryset=selectors.work_orders_listed())
     table = WorkOrderTable(filtered.qs)
     RequestConfig(request, paginate={"per_page": 50}).configure(table)
     return render(request, "workorders/list.html", {"filter": filtered, "table": table})
@@ -56,7 +57,8 @@ def work_order_from_due(request):
             back, allowed_hosts={request.get_host()}, require_https=request.is_secure()
         )
         return redirect(back if back and safe else reverse("due-list"))
-    messages.success(request, f"{order.number} drafted from {len(plans)} due item(s). Check the steps, then issue it.")
+    messages.success(request, f"{order.number} drafted from {len(plans)} due item(s). Check the steps and set the "
+                              "planned date (Edit), then issue it.")
     already = {
         other.number: other for orders in selectors.orders_for_plans(p.pk for p in plans).values()
         for other in orders if other.pk != order.pk
@@ -95,6 +97,16 @@ def work_order_detail(request, pk):
     readings = list(order.required_readings.select_related("subsystem", "reading"))
     editable = order.state in (State.DRAFT, State.ISSUED) and has_role(request.user, ENGINEER)
     missing = selectors.hazards_missing(order)
+    phase = selectors.recoat_phase(order) if order.state in (State.FINISHED, State.COUNTERSIGNED) else None
+    # The person who finished the work may not countersign it (services.work_order_move): no button they can't use.
+    own_work = order.finished_by_id is not None and order.finished_by_id == request.user.pk
+    # Moves refused as the order stands (no planned date, a lift that stands in the way): no buttons, and why.
+    held = selectors.moves_held(order)
+    held_notes: dict[str, list[str]] = {}
+    for t in available(order.state):
+        if has_role(request.user, t.role):
+            for reason in held.get(t.action, []):
+                held_notes.setdefault(reason, []).append(t.label)
     return render(
         request,
         "workorders/detail.html",
@@ -102,6 +114,7 @@ def work_order_detail(request, pk):
             "order": order,
             "site": order.site,
             "hazards_notice": selectors.hazards_notice(order, missing),
+            "out_notices": selectors.telescope_out_notices(order),
             "hazards_confirmed": [HAZARDS[h] for h in order.hazards_confirmed_at_finish],
             "can_update_hazards": bool(missing) and editable,
             "lockout_step_warning": selectors.lockout_step_warning(order),
@@ -119,12 +132,18 @@ def work_order_detail(request, pk):
             "beyond_limit": [r for r in readings if r.recorded_beyond_limit],
             "part_uses": order.part_uses.select_related("part"),
             "records": order.service_records.select_related("subsystem"),
+            "work_done_on": selectors.work_done_on(order),
+            "recoat_phase": phase,
+            "mirror_out": [phase.mirror_out] if phase and phase.mirror_out else [],
             "lift": figures,
             "lift_rows": selectors.lift_rows(figures) if figures else [],
             "lift_error": lift_error,
             # An order behind its subsystems' hazards is neither issued nor started (services.work_order_move).
             "moves": [t for t in available(order.state) if t.action != "finish" and has_role(request.user, t.role)
-                      and not (missing and t.action in ("issue", "start"))],
+                      and not (missing and t.action in ("issue", "start")) and t.action not in held
+                      and not (own_work and t.action == "countersign")],
+            "countersign_by_another": own_work and order.state == State.FINISHED,
+            "moves_held": [(", ".join(labels), reason) for reason, labels in held_notes.items()],
             "can_finish": order.state == State.UNDERWAY and has_role(request.user, TECHNICIAN),
             "editable": editable,
             "part_form": PartAddForm(site=order.site),
@@ -245,8 +264,7 @@ def work_order_finish(request, pk):
         return redirect(order)
     unticked = selectors.unticked_lines(order)
     lacking = selectors.hazards_missing(order)
-    form = FinishForm(request.POST or None, order=order, unticked=unticked, lacking_hazards=lacking,
-                      initial={"actual_hours": order.estimated_hours})
+    form = FinishForm(request.POST or None, order=order, unticked=unticked, lacking_hazards=lacking)
     flags: dict[str, str] = {}
     flagged: list[str] = []
     if request.method == "POST" and form.is_valid():
@@ -274,6 +292,7 @@ def work_order_finish(request, pk):
                     confirmed_unticked=request.POST.getlist("unticked") if confirmed else (),
                     cleanings=form.cleanings(),
                     confirmed_hazards=request.POST.getlist("lacking_hazard") if hazards_confirmed else (),
+                    work_done_on=form.cleaned_data["work_done_on"],
                 )
             except services.Refused as exc:
                 if isinstance(exc, services.AlreadyFinished) and exc.by_you:  # pressed twice at once
@@ -281,14 +300,20 @@ def work_order_finish(request, pk):
                     return redirect(order)
                 form.add_error(None, str(exc))
             else:
-                done = f"{order.number} finished: service records written, plans restarted."
+                done = [_finished(order)]
                 if unticked:
-                    done += f" {len(unticked)} unticked line(s) confirmed as done or not applicable are on the record."
+                    done.append(f"{len(unticked)} unticked line(s) confirmed as done or not applicable are on the "
+                                "record.")
                 if lacking:
-                    done += f" The {len(lacking)} hazard(s) it lacked, confirmed as controlled, are on the record."
+                    done.append(f"The {len(lacking)} hazard(s) it lacked, confirmed as controlled, are on the record.")
                 if flags:
-                    done += f" {len(flags)} reading(s) beyond their limit are flagged on the record."
-                messages.success(request, done)
+                    done.append(f"{len(flags)} reading(s) beyond their limit are flagged on the record.")
+                phase = selectors.recoat_phase(order)
+                if phase is not None and phase.next_order is not None:
+                    done.append(_next_phase(phase.next_order))
+                if phase is not None and phase.mirror_out is not None:
+                    done += phase.mirror_out.notice()[1:]  # the telescope stays locked out until the reinstall
+                messages.success(request, format_html_join(" ", "{}", ((part,) for part in done)))
                 return redirect(order)
     fields = [(form[name], flags.get(name, "")) for name in form.fields if not name.startswith("confirm_")]
     return render(
@@ -296,6 +321,27 @@ def work_order_finish(request, pk):
         {"form": form, "order": order, "fields": fields, "unticked": unticked, "flagged": flagged,
          "lacking": lacking, "lacking_cautions": cautions_for(lacking), "precedence": PRECEDENCE_STATEMENT},
     )
+
+
+def _finished(order: WorkOrder) -> str:
+    """What finishing wrote: the service records and the day they are dated, and how many plans restarted."""
+    records = list(order.service_records.filter(corrects__isnull=True))
+    if not records:  # an order that covers no subsystem
+        return f"{order.number} finished: no service record written, as it covers no subsystem."
+    day = selectors.work_done_on(order)
+    plans = len({r.plan_id for r in records if r.plan_id})
+    written = f"{len(records)} service record{'' if len(records) == 1 else 's'} written, dated {day:%d %b %Y}"
+    if plans:
+        restarted = f"{plans} service plan{'' if plans == 1 else 's'} restarted, counting from that day"
+    else:
+        restarted = "no service plan restarted (the order covers none)"
+    return f"{order.number} finished: {written}; {restarted}."
+
+
+def _next_phase(order: WorkOrder):
+    """The next phase order of a recoat, linked, with the day it is planned for."""
+    planned = f" (planned {order.planned_date:%d %b %Y})" if order.planned_date else ""
+    return format_html('Next: <a href="{}">{} {}</a>{}.', order.get_absolute_url(), order.number, order.title, planned)
 
 
 @requires(ENGINEER)

@@ -20,7 +20,8 @@ def underway(transactional_db, users, telescope):
 
     IsolationPoint.objects.create(telescope=telescope, energy="ac", label="Mount isolator")
     fans = subsystem_create(telescope, "cooling_fans", "Fans", counting_from=dt.date(2026, 1, 1))
-    order = services.work_order_from_due([fans.plans.get(name="Replace fan filters")], users["engineer"])
+    order = services.work_order_from_due([fans.plans.get(name="Replace fan filters")], users["engineer"],
+                                         planned_date=dt.date(2026, 6, 15))
     services.work_order_move(order, "issue", users["engineer"])
     services.work_order_move(order, "start", users["technician"])
     order.refresh_from_db()
@@ -47,6 +48,25 @@ def test_with_javascript_the_record_buttons_are_hidden_and_a_box_records_at_once
     page.locator("#step-1 input[type=checkbox]").check()
     expect(page.locator("#step-1 .tick-note")).to_contain_text("ticked by technician")
     assert ChecklistTick.objects.filter(work_order=underway, step_index=0, ticked=True).exists()
+
+
+@pytest.mark.browser
+def test_with_javascript_locked_out_work_ticked_too_soon_says_why_beside_the_line_and_stays_unticked(
+    browser_page, live_server, login, underway
+):
+    """The sequence of the lockout (OSHA 29 CFR 1910.147(d)): the fan filters (step 5) are changed locked out,
+    after the lockout (step 4) and the isolation point."""
+    from observatory_ops.workorders.models import ChecklistTick
+
+    page = browser_page
+    _open_as_technician(page, live_server, login, underway)
+    page.locator("#step-5 input[type=checkbox]").click()  # not check(): the script unticks it again
+    expect(page.locator("#step-5 .tick-note.refused")).to_have_text(
+        "Not recorded: step 5 is done with the energy isolated: tick the lockout (step 4) and isolation point "
+        "'Mount isolator' first."
+    )
+    expect(page.locator("#step-5 input[type=checkbox]")).not_to_be_checked()
+    assert not ChecklistTick.objects.filter(work_order=underway).exists()
 
 
 @pytest.mark.browser

@@ -129,7 +129,7 @@ def test_two_overdue_items_go_from_the_due_list_through_a_work_order_to_counters
     expected = cautions(order)
     assert expected, "the ticked items carry hazards, so the work order must show cautions"
     box = page.locator("section.cautions")
-    expect(box.locator(".caution strong")).to_have_text([c.title for c in expected])
+    expect(box.locator(".caution strong")).to_have_text([f"{c.signal_word} · {c.title}" for c in expected])
     expect(box.locator(".precedence")).to_have_text(PRECEDENCE_STATEMENT)
     steps = page.locator("ol.checklist li")
     expect(steps).to_have_count(len(order.step_list))
@@ -138,6 +138,16 @@ def test_two_overdue_items_go_from_the_due_list_through_a_work_order_to_counters
     )
     _shot(page, "2_draft")
 
+    # Drafted from the due list without a planned date, it is issued only once it has one (the calendar export
+    # and the weekly batch go by it): the page says so instead of offering the button.
+    from observatory_ops.planning.services import site_today
+
+    expect(page.get_by_role("button", name="Issue to the technicians")).to_have_count(0)
+    expect(page.locator(".moves-held")).to_contain_text("set the planned date (Edit) before issuing")
+    page.get_by_role("link", name="Edit", exact=True).click()
+    page.get_by_label("Planned date").fill(site_today(order.site).isoformat())
+    page.get_by_role("button", name="Save").click()
+    expect(page.locator(".messages")).to_contain_text("Saved.")
     page.get_by_role("button", name="Issue to the technicians").click()
     expect(page.locator(".messages")).to_contain_text("issue to the technicians: done")
     _expect_state(page, State.ISSUED.label)
@@ -156,6 +166,8 @@ def test_two_overdue_items_go_from_the_due_list_through_a_work_order_to_counters
     for r in required:
         values[r.pk] = _value_within(r.limit_text)
         page.get_by_label(f"{r.quantity_label} on {r.subsystem.name} ({r.unit})").fill(str(values[r.pk]))
+    for cleaning in page.locator("select[name^=cleaned_]").all():  # asked with no default on a mirror's order
+        cleaning.select_option("none")
     # Nothing was ticked on the work order page: the form lists every line, and finishing needs the confirmation.
     from observatory_ops.workorders.selectors import unticked_lines
 
@@ -169,7 +181,10 @@ def test_two_overdue_items_go_from_the_due_list_through_a_work_order_to_counters
     page.get_by_role("button", name="Finish and record").click()
 
     expect(page).to_have_url(order_url)
-    expect(page.locator(".messages")).to_contain_text(f"{order.number} finished: service records written")
+    expect(page.locator(".messages")).to_contain_text(
+        f"{order.number} finished: 2 service records written, dated "  # one for each of the two plans
+    )
+    expect(page.locator(".messages")).to_contain_text("2 service plans restarted, counting from that day")
     _expect_state(page, State.FINISHED.label)
     expect(page.get_by_text(f"Finished with {len(open_lines)} checklist line(s) not ticked")).to_be_visible()
     findings = page.locator("div.panel", has_text=HOSTILE_FINDINGS)

@@ -1,0 +1,162 @@
+"""A telescope whose primary mirror a recoat has removed: every other piece of work on it, and the pages a site
+engineer and a manager read, say so until the reinstall is finished.
+
+Between the removal and the reinstall the tube is out of balance, its axes pinned and its drives on the site's
+long-term locks (OSHA 29 CFR 1910.147(f)(4), shift and personnel changes). Work on the telescope meanwhile is
+usual, but nothing may move an axis or take those locks off; how the removal leaves it is common practice, no
+published source.
+"""
+from __future__ import annotations
+
+import datetime as dt
+import html
+import io
+import re
+
+import pytest
+from pypdf import PdfReader
+
+from observatory_ops.calc.windows import RECOAT_PHASES
+from observatory_ops.mirrors import services as mirror_services
+from observatory_ops.mirrors.models import CoatingEvent, Mirror
+from observatory_ops.registry.models import Subsystem
+from observatory_ops.registry.services import subsystem_create
+from observatory_ops.workorders import selectors, services
+from observatory_ops.workorders.cautions import TELESCOPE_OUT_TODO
+from observatory_ops.workorders.models import WorkOrder
+
+OUT = "T1 is out of service: its primary mirror is out"
+
+
+@pytest.fixture
+def recoat(telescope, users):
+    """A recoat of the telescope's primary, planned from 1 Aug 2026: its four phase orders by phase."""
+    primary = Subsystem.objects.create(telescope=telescope, kind="primary_mirror", name="Primary mirror")
+    mirror = Mirror.objects.create(subsystem=primary, diameter_mm=500, thickness_mm=50, hole_mm=120,
+                                   material="borosilicate", cell_mass_kg=30)
+    CoatingEvent.objects.create(mirror=mirror, coated_on=dt.date(2025, 8, 1), metal="al")
+    plan = mirror_services.recoat_plan_create(mirror, dt.date(2026, 8, 1), list(RECOAT_PHASES), 3.5, users["engineer"])
+    return {order.recoat_phase: order for order in plan.work_orders.all()}
+
+
+@pytest.fixture
+def other_work(telescope, users):
+    """Drive work on the same telescope, issued: the kind of order a crew does while the mirror is away."""
+    drive = subsystem_create(telescope, "axis1_drive", "Axis 1 drive", counting_from=dt.date(2026, 1, 1))
+    order = services.work_order_from_due(list(drive.plans.all()), users["engineer"])
+    order.planned_date = dt.date(2026, 8, 4)
+    order.save()
+    services.work_order_move(order, "issue", users["engineer"])
+    return order
+
+
+def _finish(order, users) -> None:
+    order = WorkOrder.objects.get(pk=order.pk)
+    if order.state == "draft":
+        services.work_order_move(order, "issue", users["engineer"])
+    services.work_order_move(order, "start", users["technician"])
+    services.work_order_finish(
+        order, users["technician"], 8.0, "done", {r.pk: 0.9 for r in order.required_readings.all()},
+        confirmed_unticked=[line.text for line in selectors.unticked_lines(order)],
+    )
+
+
+def _text(response) -> str:
+    assert response.status_code == 200
+    return " ".join(html.unescape(re.sub(r"<[^>]+>", " ", response.content.decode())).split())
+
+
+def _pdf(client, order) -> str:
+    document = client.get(f"/workorders/{order.pk}/pdf/").content
+    return " ".join(" ".join(page.extract_text() for page in PdfReader(io.BytesIO(document)).pages).split())
+
+
+def test_the_planner_marks_each_order_with_its_phase(recoat):
+    assert set(recoat) == {"removal", "coating", "reinstall", "realignment"}
+    assert all(order.title.endswith(": " + phase.name) for phase in RECOAT_PHASES if phase.work
+               for order in [recoat[phase.work]])
+
+
+def test_nothing_is_out_before_the_removal_is_finished(recoat, other_work, site, users):
+    services.work_order_move(recoat["removal"], "issue", users["engineer"])
+    services.work_order_move(recoat["removal"], "start", users["technician"])  # underway: the mirror may be in
+    assert selectors.telescopes_out([site]) == {}
+    assert selectors.telescope_out_notices(other_work) == []
+
+
+def test_once_the_removal_is_finished_other_work_on_the_telescope_carries_the_notice(
+    recoat, other_work, site, users, client
+):
+    _finish(recoat["removal"], users)
+    out = selectors.telescopes_out([site])
+    assert list(out) == [other_work.telescope_id]
+    stands = out[other_work.telescope_id]
+    assert stands.removal == recoat["removal"] and stands.reinstall == recoat["reinstall"]
+    title, body, todo = stands.notice()
+    assert title == OUT and todo == TELESCOPE_OUT_TODO
+    assert f"({recoat['removal'].number})" in body and f"goes back with {recoat['reinstall'].number}" in body
+    assert "planned for" in body and "long-term locks" in body
+
+    client.force_login(users["technician"])
+    page = _text(client.get(other_work.get_absolute_url()))
+    assert OUT in page and TELESCOPE_OUT_TODO in page
+    printed = _pdf(client, other_work)
+    assert OUT in printed and "takes those locks off" in printed
+    # The recoat's own orders are written for a telescope without its mirror: no notice on them.
+    assert selectors.telescope_out_notices(WorkOrder.objects.get(pk=recoat["reinstall"].pk)) == []
+    assert OUT not in _text(client.get(recoat["reinstall"].get_absolute_url()))
+
+
+def test_the_dashboard_and_the_due_list_say_which_telescope_stands_without_its_mirror(
+    recoat, site, users, client
+):
+    _finish(recoat["removal"], users)
+    client.force_login(users["viewer"])
+    for url in (site.get_absolute_url(), "/due/", f"/due/?site={site.pk}"):
+        page = _text(client.get(url))
+        assert OUT in page, url
+        assert recoat["reinstall"].number in page
+
+
+def test_the_notice_goes_once_the_reinstall_is_finished(recoat, other_work, site, users):
+    _finish(recoat["removal"], users)
+    _finish(recoat["coating"], users)
+    _finish(recoat["reinstall"], users)
+    assert selectors.telescopes_out([site]) == {}
+    assert selectors.telescope_out_notices(other_work) == []
+
+
+def test_a_withdrawn_reinstall_leaves_the_telescope_out_and_says_none_is_planned(recoat, site, users):
+    _finish(recoat["removal"], users)
+    services.work_order_move(recoat["reinstall"], "withdraw", users["engineer"], reason="replanned")
+    [stands] = selectors.telescopes_out([site]).values()
+    assert stands.reinstall is None
+    assert "no reinstall order is planned yet" in stands.notice()[1]
+
+
+def test_finished_work_and_other_sites_show_nothing(recoat, other_work, site, users):
+    from observatory_ops.registry.models import Site
+
+    _finish(recoat["removal"], users)
+    elsewhere = Site.objects.create(name="Elsewhere", slug="elsewhere", latitude_deg=10, longitude_deg=10,
+                                    elevation_m=100, time_zone="UTC")
+    assert selectors.telescopes_out([elsewhere]) == {}
+    _finish(other_work, users)
+    assert selectors.telescope_out_notices(WorkOrder.objects.get(pk=other_work.pk)) == []
+
+
+def test_the_query_count_does_not_grow_with_the_orders(recoat, site, users, django_assert_max_num_queries):
+    _finish(recoat["removal"], users)
+    with django_assert_max_num_queries(3):
+        selectors.telescopes_out([site])
+
+
+def test_the_upgrade_finds_the_phase_of_orders_planned_before_it_by_their_titles(recoat):
+    import importlib
+
+    from django.apps import apps
+
+    step = importlib.import_module("observatory_ops.workorders.migrations.0010_recoat_phase")
+    WorkOrder.objects.update(recoat_phase="")  # as stored before the field existed
+    step.phases_from_titles(apps, None)
+    assert {o.recoat_phase: o.pk for o in WorkOrder.objects.all()} == {k: o.pk for k, o in recoat.items()}

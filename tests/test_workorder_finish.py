@@ -1,0 +1,305 @@
+"""Finishing a work order, as the technician does it on a tablet or from paper days later: the time the work
+took (asked, never filled in with the estimate), the day it was done (the service records, readings and
+cleanings are dated it, and the plans count again from it), whether each mirror was cleaned (asked on every
+order that works on a mirror, never on a recoat's phase orders), and what the message says happened and what
+comes next.
+"""
+from __future__ import annotations
+
+import datetime as dt
+import html
+import re
+from zoneinfo import ZoneInfo
+
+import pytest
+from conftest import site_in_use
+from django.contrib.messages import get_messages
+from django.utils import timezone
+from test_workorders import _all_readings, _unticked, drive, order  # noqa: F401  (fixtures, used by name)
+
+from observatory_ops.calc.windows import RECOAT_PHASES
+from observatory_ops.logbook.models import Reading, ServiceRecord
+from observatory_ops.mirrors import services as mirror_services
+from observatory_ops.mirrors.models import CleaningEvent, CoatingEvent, Mirror, ReflectanceMeasurement
+from observatory_ops.planning.models import PlanStatus, ServicePlan
+from observatory_ops.planning.services import site_today
+from observatory_ops.registry.models import Subsystem
+from observatory_ops.workorders import services
+from observatory_ops.workorders.cautions import DANGER_TO_LIFE, SEVERITY_LABELS, signal_word
+from observatory_ops.workorders.models import Part, State, WorkOrder
+
+
+def _started(work_order, users, days_ago: int = 0) -> WorkOrder:
+    """Issued and started; the start moved ``days_ago`` days back, as for a paper order entered later."""
+    services.work_order_move(work_order, "issue", users["engineer"])
+    services.work_order_move(work_order, "start", users["technician"])
+    if days_ago:
+        WorkOrder.objects.filter(pk=work_order.pk).update(started_at=timezone.now() - dt.timedelta(days=days_ago))
+    work_order.refresh_from_db()
+    return work_order
+
+
+def _post(work_order, **fields) -> dict:
+    """The finish form as a technician fills it in, every unticked line confirmed; ``fields`` change it."""
+    data = {
+        "actual_hours": "2", "findings": "ok", "work_done_on": site_today(work_order.site).isoformat(),
+        "confirm_unticked": "on", "unticked": _unticked(work_order),
+        **{f"reading_{r.pk}": "0.6" for r in work_order.required_readings.all()},
+    }
+    return {**data, **fields}
+
+
+def _text(response) -> str:
+    return html.unescape(re.sub(r"\s+", " ", re.sub(r"<[^>]+>", " ", response.content.decode())))
+
+
+def _message(response) -> str:
+    return " ".join(str(m) for m in get_messages(response.wsgi_request))
+
+
+def _nothing_stored(work_order) -> None:
+    assert WorkOrder.objects.get(pk=work_order.pk).state == State.UNDERWAY
+    assert not ServiceRecord.objects.exists() and not Reading.objects.exists()
+    assert not CleaningEvent.objects.exists()
+
+
+# --- 1. actual hours ------------------------------------------------------------------------------------------
+
+
+def test_actual_hours_start_empty_with_the_estimate_beside_them(order, users, client):  # noqa: F811
+    _started(order, users)
+    client.force_login(users["technician"])
+    page = client.get(f"/workorders/{order.pk}/finish/").content.decode()
+    field = re.search(r'<input[^>]*name="actual_hours"[^>]*>', page).group(0)
+    assert "value=" not in field  # one tap on Finish cannot record the estimate as the time the work took
+    assert f"The estimate was {order.estimated_hours:g} h." in page
+
+
+def test_finishing_without_actual_hours_is_refused_naming_the_field_and_stores_nothing(order, users, client):  # noqa: F811
+    _started(order, users)
+    client.force_login(users["technician"])
+    data = _post(order)
+    del data["actual_hours"]
+    response = client.post(f"/workorders/{order.pk}/finish/", data)
+    assert response.status_code == 200
+    assert "Actual hours: enter the hours the work took." in _text(response)
+    _nothing_stored(order)
+
+
+# --- 2. the day the work was done ---------------------------------------------------------------------------
+
+
+def test_work_done_on_starts_at_the_sites_today(order, users, client):  # noqa: F811
+    _started(order, users)
+    client.force_login(users["technician"])
+    page = client.get(f"/workorders/{order.pk}/finish/").content.decode()
+    field = re.search(r'<input[^>]*name="work_done_on"[^>]*>', page).group(0)
+    assert f'value="{site_today(order.site).isoformat()}"' in field and 'type="date"' in field
+
+
+def test_a_paper_order_entered_two_days_later_dates_its_records_readings_and_the_plans_counting(
+    order, users, client,  # noqa: F811
+):
+    _started(order, users, days_ago=3)
+    day = site_today(order.site) - dt.timedelta(days=2)
+    client.force_login(users["technician"])
+    response = client.post(f"/workorders/{order.pk}/finish/", _post(order, work_done_on=day.isoformat()))
+    assert response.status_code == 302, _text(response)[-1500:]
+    record = ServiceRecord.objects.get(work_order=order)
+    assert record.performed_on == day
+    # Readings of an earlier day are taken at its noon, site time (Europe/Madrid here).
+    noon = dt.datetime(day.year, day.month, day.day, 12, tzinfo=ZoneInfo("Europe/Madrid"))
+    assert {r.reading.taken_at for r in order.required_readings.select_related("reading")} == {noon}
+    status = PlanStatus.objects.get(plan=record.plan)
+    assert status.last_service_on == day
+    # The drive plan's calendar trigger (180 days, catalogue) counts again from that day: 2 days by hand.
+    calendar = next(row for row in status.trigger_rows if row["metric"] == "calendar_days")
+    assert calendar["value"] == 2
+    assert f"dated {day:%d %b %Y}" in _message(response)
+
+
+def test_work_done_today_is_recorded_with_the_readings_taken_now(order, users):  # noqa: F811
+    _started(order, users)
+    before = timezone.now()
+    services.work_order_finish(order, users["technician"], 1.0, "", _all_readings(order, 0.6),
+                               confirmed_unticked=_unticked(order))
+    assert ServiceRecord.objects.get(work_order=order).performed_on == site_today(order.site)
+    assert all(r.reading.taken_at >= before for r in order.required_readings.select_related("reading"))
+
+
+@pytest.mark.parametrize("days_from_today, started_days_ago, message", [
+    (1, 0, "Work done on: {day} is after today at the site ({today})"),
+    (-2, 1, "Work done on: {day} is before the work was started ({started})"),
+])
+def test_a_future_day_or_one_before_the_start_is_refused_naming_the_field_and_stores_nothing(
+    order, users, client, site, days_from_today, started_days_ago, message,  # noqa: F811
+):
+    part = Part.objects.create(site=site, name="Brake pad set", quantity_on_hand=3)
+    services.part_add(order, part, 1)
+    _started(order, users, days_ago=started_days_ago)
+    today = site_today(site)
+    day = today + dt.timedelta(days=days_from_today)
+    started = order.started_at.astimezone(site.zone).date()
+    expected = message.format(day=f"{day:%d %b %Y}", today=f"{today:%d %b %Y}", started=f"{started:%d %b %Y}")
+    client.force_login(users["technician"])
+    response = client.post(f"/workorders/{order.pk}/finish/", _post(order, work_done_on=day.isoformat()))
+    assert response.status_code == 200 and expected in _text(response)
+    _nothing_stored(order)
+    part.refresh_from_db()
+    assert part.quantity_on_hand == 3
+    # The service refuses it as well, for any caller that is not the form.
+    with pytest.raises(services.Refused, match=re.escape(f"work done on: {expected[len('Work done on: '):]}")):
+        services.work_order_finish(order, users["technician"], 1.0, "", _all_readings(order, 0.6),
+                                   confirmed_unticked=_unticked(order), work_done_on=day)
+    _nothing_stored(order)
+
+
+# --- 3. whether a mirror was cleaned ------------------------------------------------------------------------
+
+
+@pytest.fixture
+def mirror(db):
+    site = site_in_use("finish-clean", kinds=("primary_mirror",))
+    primary = Subsystem.objects.get(telescope__site=site, kind="primary_mirror")
+    made = Mirror.objects.create(subsystem=primary, diameter_mm=500, thickness_mm=50, hole_mm=120,
+                                 material="borosilicate", cell_mass_kg=30)
+    CoatingEvent.objects.create(mirror=made, coated_on=site_today(site) - dt.timedelta(days=400), metal="al")
+    return made
+
+
+@pytest.fixture
+def cleaning_order(mirror, users):
+    clean = ServicePlan.objects.get(subsystem=mirror.subsystem, name="Inspect and CO2-snow clean primary")
+    return services.work_order_from_due([clean], users["engineer"], site_today(mirror.subsystem.telescope.site))
+
+
+def test_the_cleaning_choice_of_a_mirror_order_has_no_default(cleaning_order, mirror, users, client):
+    _started(cleaning_order, users)
+    client.force_login(users["technician"])
+    page = client.get(f"/workorders/{cleaning_order.pk}/finish/").content.decode()
+    select = re.search(rf'<select name="cleaned_{mirror.pk}"[^>]*>.*?</select>', page, re.S).group(0)
+    assert "required" in select
+    assert re.search(r'<option value="" selected>choose...</option>', select)
+    assert '<option value="none">not cleaned in this work</option>' in select
+
+
+def test_a_forgotten_cleaning_choice_is_refused_naming_the_mirror_and_stores_nothing(
+    cleaning_order, mirror, users, client
+):
+    _started(cleaning_order, users)
+    client.force_login(users["technician"])
+    response = client.post(f"/workorders/{cleaning_order.pk}/finish/", _post(cleaning_order))
+    assert response.status_code == 200
+    assert ("Cleaning of Primary mirror: choose how it was cleaned in this work, or 'not cleaned in this work'."
+            in _text(response))
+    _nothing_stored(cleaning_order)
+
+
+def test_not_cleaned_said_explicitly_finishes_without_a_cleaning(cleaning_order, mirror, users, client):
+    _started(cleaning_order, users)
+    client.force_login(users["technician"])
+    response = client.post(f"/workorders/{cleaning_order.pk}/finish/",
+                           _post(cleaning_order, **{f"cleaned_{mirror.pk}": "none"}))
+    assert response.status_code == 302
+    assert WorkOrder.objects.get(pk=cleaning_order.pk).state == State.FINISHED
+    assert not CleaningEvent.objects.exists()
+
+
+def test_a_cleaning_two_days_ago_is_dated_that_day_with_its_reflectance(cleaning_order, mirror, users, client):
+    _started(cleaning_order, users, days_ago=3)
+    day = site_today(mirror.subsystem.telescope.site) - dt.timedelta(days=2)
+    client.force_login(users["technician"])
+    data = _post(cleaning_order, work_done_on=day.isoformat(), **{f"cleaned_{mirror.pk}": "co2_snow"})
+    data.update({f"reading_{r.pk}": "0.88" for r in cleaning_order.required_readings.all()})
+    response = client.post(f"/workorders/{cleaning_order.pk}/finish/", data)
+    assert response.status_code == 302, _text(response)[-1500:]
+    cleaning = CleaningEvent.objects.get(mirror=mirror)
+    assert (cleaning.cleaned_on, cleaning.method) == (day, "co2_snow")
+    # The reflectance reading reaches the mirror's record on the same day (noon UTC, the site's zone).
+    assert ReflectanceMeasurement.objects.get(mirror=mirror, value=0.88).measured_on == day
+
+
+@pytest.fixture
+def recoat(mirror, users):
+    """The four phase orders of a recoat of the mirror, a week from now: removal, coating, reinstall,
+    realignment."""
+    start = site_today(mirror.subsystem.telescope.site) + dt.timedelta(days=7)
+    plan = mirror_services.recoat_plan_create(mirror, start, list(RECOAT_PHASES), 3.5, users["engineer"])
+    removal, coating, reinstall, realignment = plan.work_orders.order_by("pk")
+    assert [o.recoat_phase for o in (removal, coating, reinstall, realignment)] == [
+        "removal", "coating", "reinstall", "realignment"
+    ]
+    return removal, coating, reinstall, realignment
+
+
+@pytest.mark.parametrize("phase", range(4))
+def test_the_recoat_phase_orders_do_not_ask_about_a_cleaning(recoat, mirror, users, client, phase):
+    phase_order = _started(recoat[phase], users)
+    client.force_login(users["technician"])
+    page = client.get(f"/workorders/{phase_order.pk}/finish/").content.decode()
+    assert f'name="cleaned_{mirror.pk}"' not in page and "Cleaning of" not in page
+
+
+# --- 4. what the message says ---------------------------------------------------------------------------------
+
+
+def test_the_message_says_how_many_records_and_plans_and_from_which_day(order, users, client):  # noqa: F811
+    _started(order, users)
+    client.force_login(users["technician"])
+    response = client.post(f"/workorders/{order.pk}/finish/", _post(order))
+    today = site_today(order.site)
+    assert _message(response).startswith(
+        f"{order.number} finished: 1 service record written, dated {today:%d %b %Y}; 1 service plan restarted, "
+        "counting from that day."
+    )
+
+
+def test_finishing_the_removal_names_the_next_phase_and_says_the_telescope_stays_locked_out(
+    recoat, mirror, users, client
+):
+    removal, coating, reinstall, _ = recoat
+    _started(removal, users)
+    client.force_login(users["technician"])
+    response = client.post(f"/workorders/{removal.pk}/finish/", _post(removal))
+    assert response.status_code == 302, _text(response)[-1500:]
+    message = _message(response)
+    today = site_today(mirror.subsystem.telescope.site)
+    # The removal covers the mirror but no service plan: nothing restarted, and the message does not say so.
+    assert f"1 service record written, dated {today:%d %b %Y}; no service plan restarted (the order covers none)." in (
+        message
+    )
+    assert "plans restarted" not in message
+    assert (f'Next: <a href="/workorders/{coating.pk}/">{coating.number} {coating.title}</a> '
+            f"(planned {coating.planned_date:%d %b %Y}).") in message
+    said = html.unescape(message)
+    assert f"it goes back with {reinstall.number}" in said and "drives on the site's long-term locks" in said
+    # The order's page keeps it after the message has gone.
+    page = _text(client.get(removal.get_absolute_url()))
+    assert f"Next phase of this recoat: {coating.number} {coating.title}" in page
+    assert "T1 is out of service: its primary mirror is out" in page and "drives on the site's long-term locks" in page
+    assert f"work done on {today:%d %b %Y}" in page
+
+
+def test_finishing_the_realignment_restarts_the_recoat_plan_and_names_no_next_phase(recoat, mirror, users, client):
+    *_, realignment = recoat
+    _started(realignment, users)
+    client.force_login(users["technician"])
+    data = _post(realignment)
+    data.update({f"reading_{r.pk}": "0.9" for r in realignment.required_readings.all()})
+    response = client.post(f"/workorders/{realignment.pk}/finish/", data)
+    assert response.status_code == 302, _text(response)[-1500:]
+    message = _message(response)
+    assert "1 service plan restarted, counting from that day." in message  # the mirror's recoat plan
+    assert "Next:" not in message and "long-term locks" not in message
+
+
+# --- 6. signal words on the page as on paper ------------------------------------------------------------------
+
+
+def test_the_page_opens_each_caution_with_the_signal_word_the_paper_prints(order, users, client):  # noqa: F811
+    client.force_login(users["viewer"])
+    page = _text(client.get(order.get_absolute_url()))
+    word = signal_word(SEVERITY_LABELS[DANGER_TO_LIFE])
+    assert word == "DANGER TO LIFE"
+    assert f"{word} · Hazardous electrical energy" in page
+    assert f"{word} · Moving telescope and dome" in page
