@@ -12,7 +12,7 @@ from django.conf import settings
 from django.core.management import call_command
 from django.core.management.base import CommandError
 
-from observatory_ops.calc import coating, exposure
+from observatory_ops.calc import coating, exposure, windows
 from observatory_ops.logbook.models import NightUsage
 from observatory_ops.mirrors import services
 from observatory_ops.mirrors.models import CleaningEvent, CoatingEvent, Mirror, ReflectanceMeasurement
@@ -84,10 +84,10 @@ def test_crossing_date_follows_the_expected_dust_hours(mirror):
 
 
 def test_throughput_loss_in_magnitudes(mirror):
-    train = services.throughput([mirror], TODAY)
+    train = services.throughput(mirror.subsystem.telescope, TODAY)
     state = services.mirror_forecast(mirror, TODAY)
     # -2.5 log10(T_now / T_fresh) with one mirror: Pogson's ratio of the current estimate to R0.
-    assert train["loss_mag"] == pytest.approx(-2.5 * np.log10(state.current / state.fit.r0))
+    assert train.loss_mag == pytest.approx(-2.5 * np.log10(state.current / state.fit.r0))
 
 
 def test_mirror_forecast_command_prints_the_documented_figures(mirror, capsys):
@@ -110,7 +110,8 @@ def test_booked_run_nights_are_never_in_a_window(site):
     BookedRun.objects.create(site=site, title="Campaign", starts_on=start, ends_on=start + dt.timedelta(days=89))
     costs = services.night_costs(site, start, 120)
     assert all(not np.isfinite(c.cost) for c in costs[:90])
-    found = services.best_windows(start, np.array([c.cost for c in costs]), 7)
+    week = [windows.Phase("downtime", 7)]
+    found = services.crew_windows(start, np.array([c.cost for c in costs]), week, windows.EVERY_DAY, {})
     assert all(w["start"] >= start + dt.timedelta(days=90) for w in found)
 
 

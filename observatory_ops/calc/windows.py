@@ -181,10 +181,14 @@ def total_days(phases: Iterable[Phase]) -> int:
 WEEKDAY_NAMES: tuple[str, ...] = ("Mon", "Tue", "Wed", "Thu", "Fri", "Sat", "Sun")
 EVERY_DAY: frozenset[int] = frozenset(range(1, 8))
 
+#: The kind of work (``Phase.work``) of a downtime job our crew does at the telescope that is none of a recoat's
+#: steps, such as the ``windows`` command's job of N working days.
+TELESCOPE_WORK = "telescope work"
+
 #: The kinds of work (``Phase.work``) our own crew does at the telescope. The coating is done at an outside
 #: plant, and the mirror carried there and back by whoever drives it, on their own days: those phases run on
 #: calendar days (common practice, no published source).
-CREW_WORK: frozenset[str] = frozenset({"removal", "reinstall", "realignment"})
+CREW_WORK: frozenset[str] = frozenset({"removal", "reinstall", "realignment", TELESCOPE_WORK})
 
 
 def crew_weekdays_from(digits: str) -> frozenset[int]:

@@ -7,7 +7,7 @@ import numpy as np
 from django.utils.safestring import SafeString
 
 from observatory_ops.calc import reflectance
-from observatory_ops.charts import ALERT, Chart
+from observatory_ops.charts import ALERT, BAND, Chart
 
 from .services import MirrorForecast
 
@@ -20,7 +20,8 @@ def decline_svg(state: MirrorForecast) -> SafeString | None:
         if value is not None and math.isfinite(value):
             ends.append(value)
     x_high = max(ends) * 1.1 or 100.0
-    values = [p[2] for p in state.points] + [v for v in (state.fresh_band, state.threshold) if v is not None]
+    lines = (state.fresh_band, state.threshold, state.current)
+    values = [p[2] for p in state.points] + [v for v in lines if v is not None]
     chart = Chart(0.0, x_high, min(values) - 0.01, max(values) + 0.01, f"Reflectance of {state.mirror}")
     chart.axes(y_format=".3f", x_label="dust-weighted open hours since coating")
     if state.fit is not None:
@@ -34,6 +35,8 @@ def decline_svg(state: MirrorForecast) -> SafeString | None:
         chart.line([(exposure, chart.y_low), (exposure, chart.y_high)], colour="#8aa", width=1, dashed=True)
     chart.dots([(p[1], p[2]) for p in state.points], label="measured")
     chart.vline(state.exposure_now_h, "now")
+    if state.current is not None:  # a titled dot, not a label: a label here would cross the recoat line's
+        chart.dots([(state.exposure_now_h, state.current)], colour=BAND, label=f"estimate now {state.current:.4f}")
     if state.crossing_exposure_h is not None and math.isfinite(state.crossing_exposure_h) and state.crossing:
         chart.marker(state.crossing_exposure_h, state.threshold, f"crosses about {state.crossing:%d %b %Y}")
     chart.text(chart.left + 6, chart.height - chart.bottom - 6, "dashed verticals: cleanings", colour=ALERT)

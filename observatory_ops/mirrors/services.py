@@ -32,7 +32,7 @@ from observatory_ops.planning.services import (
     usage_model,
 )
 from observatory_ops.registry.catalogue import KINDS, RELEASE
-from observatory_ops.registry.models import Site, Subsystem
+from observatory_ops.registry.models import Site, Subsystem, Telescope
 from observatory_ops.registry.selectors import crew_days_off
 from observatory_ops.workorders.cautions import HAZARDS
 from observatory_ops.workorders.models import RequiredReading, State, WorkOrder, WorkOrderItem
@@ -52,7 +52,8 @@ class MirrorForecast:
     recipe: str
     fresh_band: float | None  # computed from the coating recipe (characteristic-matrix method)
     fresh_basis: str
-    exposure_now_h: float  # dust-weighted open hours since the coating
+    exposure_now_h: float  # dust-weighted open hours since the coating, to the last logged night before today
+    exposure_logged_to: dt.date | None = None  # that last logged night; None when none is logged since the coating
     points: list[tuple[dt.date, float, float]] = field(default_factory=list)  # (date, exposure, reflectance)
     cleanings: list[tuple[dt.date, float]] = field(default_factory=list)  # (date, exposure)
     fit: reflectance.DeclineFit | None = None
@@ -63,6 +64,9 @@ class MirrorForecast:
     recovery_sigma: float | None = None
     recovery_note: str = ""
     cleaning_note: str = ""  # set when a cleaning is left out of the estimate until a measurement follows it
+    # (date, exposure) of the cleaning whose exposure is c_last(E) in the estimate now; None when the estimate
+    # counts no cleaning (then c_last = 0, the coating).
+    cleaning_counted: tuple[dt.date, float] | None = None
     current: float | None = None
     threshold: float | None = None
     threshold_basis: str = ""
@@ -91,6 +95,13 @@ def _exposure_at(log: UsageLog, per_night: np.ndarray, since: dt.date, days: lis
     start = np.searchsorted(log.nights, np.datetime64(since, "D"))
     ends = np.searchsorted(log.nights, np.array(days, dtype="datetime64[D]"))
     return cumulative[np.maximum(ends, start)] - cumulative[start]
+
+
+def _last_logged_night(log: UsageLog, since: dt.date, before: dt.date) -> dt.date | None:
+    """The last night in the log from the night of ``since`` to the night before ``before``: the last one
+    ``_exposure_at`` counts for ``before``."""
+    start, end = np.searchsorted(log.nights, np.array([since, before], dtype="datetime64[D]"))
+    return log.nights[end - 1].astype(dt.date) if end > start else None
 
 
 def _loss_basis(mirror: Mirror) -> str:
@@ -130,7 +141,7 @@ def mirror_forecast(
         mirror=mirror, coated_on=last.coated_on, recipe=last.recipe, fresh_band=fresh,
         fresh_basis=f"{last.recipe}, {mirror.band_from_nm:g}-{mirror.band_to_nm:g} nm band mean, "
         "characteristic-matrix method with published optical constants",
-        exposure_now_h=float(exposures[-1]),
+        exposure_now_h=float(exposures[-1]), exposure_logged_to=_last_logged_night(log, last.coated_on, today),
         points=[(m.measured_on, float(e), m.value) for m, e in zip(measurements, exposures[:n], strict=True)],
         cleanings=[(c.cleaned_on, float(e)) for c, e in zip(cleanings, exposures[n : n + k], strict=True)],
     )
@@ -157,6 +168,10 @@ def mirror_forecast(
     result.fit = fit
     _recovery(result)
     result.current = float(reflectance.predict(fit, [result.exposure_now_h])[0])
+    if fit.cleaning_exposure_h:  # the fit counts the cleanings: c_last(E) is the last one at or before now
+        result.cleaning_counted = max(
+            (c for c in result.cleanings if c[1] <= result.exposure_now_h), key=lambda c: (c[1], c[0]), default=None
+        )
     result.threshold = fit.r0 * (1 - mirror.recoat_loss)
     result.threshold_basis = (
         f"{mirror.recoat_loss:.0%} below the fitted fresh value R0 = {fit.r0:.4f}{_loss_basis(mirror)}"
@@ -187,24 +202,110 @@ def _recovery(state: MirrorForecast) -> None:
         state.recovery_note = "not determined (no cleaning since the coating yet)"
 
 
-def throughput(mirrors: list[Mirror], today: dt.date | None = None) -> dict:
-    """The optical train's throughput now and fresh (product of band reflectances) and its loss in mag."""
-    states = [mirror_forecast(m, today) for m in mirrors]
-    known = [s for s in states if s.fresh_band is not None]
-    if not known:
-        return {"mirrors": [], "loss_mag": None}
-    now = [s.current if s.current is not None else s.fresh_band for s in known]
-    fresh = [s.fit.r0 if s.fit else s.fresh_band for s in known]
-    return {
-        "mirrors": [str(s.mirror) for s in known],
-        "now": float(np.prod(now)),
-        "fresh": float(np.prod(fresh)),
-        "loss_mag": reflectance.throughput_loss_mag(now, fresh),
-    }
+#: The catalogue's mirror kinds (registry/catalogue.py), in the order light meets them: a telescope's
+#: optical train. A subsystem of one of them without a mirror record is a gap in the train's throughput.
+TRAIN_KINDS = ("primary_mirror", "secondary_mirror")
+
+#: Where a train mirror's reflectance now comes from (``TrainMirror.source``).
+ESTIMATE, MEASURED, ASSUMED_FRESH, LEFT_OUT = "estimate", "last measurement", "assumed fresh", "left out"
 
 
-def telescope_mirrors(mirror: Mirror) -> list[Mirror]:
-    return list(Mirror.objects.filter(subsystem__telescope=mirror.subsystem.telescope_id).select_related("subsystem"))
+@dataclass(frozen=True)
+class TrainMirror:
+    """One mirror of an optical train as its throughput counts it: the reflectance used now and fresh (both
+    None when it is left out of the total), where they come from (``source``) and why, in the page's words."""
+
+    subsystem: Subsystem
+    mirror: Mirror | None  # None: a mirror subsystem with no mirror record
+    now: float | None
+    fresh: float | None
+    source: str
+    basis: str
+
+    @property
+    def loss_mag(self) -> float | None:
+        """This mirror's share of the train's loss (the train's is the sum of its mirrors')."""
+        return None if self.now is None else reflectance.throughput_loss_mag([self.now], [self.fresh])
+
+
+@dataclass(frozen=True)
+class Throughput:
+    """A telescope's optical train: throughput now and fresh (products of the counted mirrors' band reflectances)
+    and the loss in magnitudes, -2.5 log10(T now / T fresh) (Pogson; ``calc.reflectance.throughput_loss_mag``)."""
+
+    mirrors: list[TrainMirror]
+    now: float | None = None
+    fresh: float | None = None
+    loss_mag: float | None = None
+
+    @property
+    def incomplete_note(self) -> str:
+        """Why the total understates the loss: mirrors it takes as fresh or leaves out; "" when it counts them all."""
+        assumed = [str(m.subsystem) for m in self.mirrors if m.source == ASSUMED_FRESH]
+        left_out = [str(m.subsystem) for m in self.mirrors if m.source == LEFT_OUT]
+        counted = [str(m.subsystem) for m in self.mirrors if m.now is not None]
+        parts = []
+        if assumed:
+            parts.append(f"it takes {' and '.join(assumed)} as fresh, so counts no loss for "
+                         f"{'it' if len(assumed) == 1 else 'them'}")
+        if left_out:
+            covers = f"covers {' and '.join(counted)} only" if counted else "covers no mirror"
+            parts.append(f"it leaves out {' and '.join(left_out)}, so {covers}")
+        if not parts:
+            return ""
+        return f"Incomplete: {'; '.join(parts)}. The train has likely lost more light than this."
+
+
+def _train_mirror(state: MirrorForecast) -> TrainMirror:
+    """The reflectance a mirror's forecast gives the train now and fresh, and where each comes from."""
+    mirror = state.mirror
+    if state.fresh_band is None:
+        return TrainMirror(mirror.subsystem, mirror, None, None, LEFT_OUT,
+                           "no coating recorded, so no fresh value: left out of the total")
+    if state.fit is not None:
+        return TrainMirror(
+            mirror.subsystem, mirror, state.current, state.fit.r0, ESTIMATE,
+            f"estimate from the fit at today's exposure ({state.exposure_now_h:,.0f} dust-weighted open hours since "
+            f"the coating of {state.coated_on:%d %b %Y}), against the fitted fresh value R0",
+        )
+    if state.points:
+        measured_on, _, value = state.points[-1]
+        return TrainMirror(
+            mirror.subsystem, mirror, value, state.fresh_band, MEASURED,
+            f"last measurement, {measured_on:%d %b %Y} ({state.fit_note}), against the computed fresh value",
+        )
+    return TrainMirror(
+        mirror.subsystem, mirror, state.fresh_band, state.fresh_band, ASSUMED_FRESH,
+        f"computed fresh value assumed: not measured since its coating of {state.coated_on:%d %b %Y}",
+    )
+
+
+def throughput(telescope: Telescope, today: dt.date | None = None) -> Throughput:
+    """The telescope's optical train (``telescope_mirrors``), each mirror's reflectance now and fresh with where it
+    comes from, and the train's throughput and loss over the mirrors that have figures."""
+    recorded, unrecorded = telescope_mirrors(telescope)
+    log = UsageLog.for_site(telescope.site) if recorded else None
+    train = [_train_mirror(mirror_forecast(m, today, log)) for m in recorded] + [
+        TrainMirror(s, None, None, None, LEFT_OUT, "no mirror record (coating and measurements): left out of the total")
+        for s in unrecorded
+    ]
+    train.sort(key=lambda m: (TRAIN_KINDS.index(m.subsystem.kind) if m.subsystem.kind in TRAIN_KINDS
+                              else len(TRAIN_KINDS), m.subsystem.name))
+    counted = [m for m in train if m.now is not None]
+    if not counted:
+        return Throughput(train)
+    now, fresh = [m.now for m in counted], [m.fresh for m in counted]
+    return Throughput(train, float(np.prod(now)), float(np.prod(fresh)), reflectance.throughput_loss_mag(now, fresh))
+
+
+def telescope_mirrors(telescope: Telescope) -> tuple[list[Mirror], list[Subsystem]]:
+    """A telescope's optical train: the mirror records of its subsystems in service, and its mirror subsystems
+    (``TRAIN_KINDS``) in service that have no mirror record."""
+    in_service = Subsystem.objects.in_service().filter(telescope=telescope)
+    return (
+        list(Mirror.objects.filter(subsystem__in=in_service).select_related("subsystem__telescope__site")),
+        list(in_service.filter(kind__in=TRAIN_KINDS, mirror__isnull=True).select_related("telescope")),
+    )
 
 
 # --- downtime windows -------------------------------------------------------------------------------
@@ -258,11 +359,6 @@ def _dated(first_night: dt.date, window: windows.Window) -> dict:
     }
 
 
-def best_windows(first_night: dt.date, cost: np.ndarray, days: int, alternatives: int = 3) -> list[dict]:
-    """The cheapest windows of ``days`` nights as dicts with start and end dates, cheapest first."""
-    return [_dated(first_night, w) for w in windows.cheapest_windows(cost, days, alternatives)]
-
-
 def crew_windows(
     first_night: dt.date, cost: np.ndarray, phases: list[windows.Phase], crew_days: frozenset[int],
     days_off: Mapping[dt.date, str], alternatives: int = 3,
@@ -282,6 +378,19 @@ def crew_windows(
                    and not any(first <= day <= last for first, last in away)]
         out.append({**window, "phases": laid, "days_off": pausing})
     return out
+
+
+def site_crew_windows(
+    site: Site, start: dt.date, horizon_days: int, phases: list[windows.Phase], alternatives: int = 3
+) -> tuple[list[NightCost], dict[dt.date, str], list[dict]]:
+    """What the recoat planner and the ``windows`` command search at a site: each coming night's cost
+    (``night_costs``), the site's crew days off in the horizon (date -> note), and the cheapest windows for
+    ``phases`` with the site's crew (``crew_windows``), cheapest first."""
+    costs = night_costs(site, start, horizon_days)
+    days_off = crew_days_off(site, costs[0].night, costs[-1].night)
+    found = crew_windows(costs[0].night, np.array([c.cost for c in costs]), phases, site.crew_days, days_off,
+                         alternatives)
+    return costs, days_off, found
 
 
 def phase_dates(
@@ -343,15 +452,16 @@ def recoat_windows(mirror: Mirror, start: dt.date, horizon_days: int, phases: li
     """The cheapest windows for a recoat of these phases, and each coming night's cost for the calendar.
 
     The phases at the telescope are laid on the site's crew working days, less its crew days off in the horizon
-    (``crew_windows``), so a window may hold more nights than the phases' days. The calendar's ``shade`` is the
-    night's cost relative to the costliest night in the horizon (0..1); ``chosen`` marks the nights of the
-    cheapest window; ``days_off`` are the site's crew days off in the horizon, date -> note.
+    (``site_crew_windows``), so a window may hold more nights than the phases' days. The calendar's ``shade`` is
+    the night's cost relative to the costliest night in the horizon (0..1); ``chosen`` marks the nights of the
+    cheapest window; ``day_off`` a listed crew day off (``day_off_note`` says why) and ``crew_works`` a crew
+    working weekday. ``days_off`` are the site's crew days off in the horizon, date -> note; ``crew_rest_days``
+    the weekdays the crew does not work, in short words ("" when it works every day).
     """
     days = windows.total_days(phases)
     site = mirror.subsystem.telescope.site
-    costs = night_costs(site, start, horizon_days)
-    days_off = crew_days_off(site, costs[0].night, costs[-1].night)
-    found = crew_windows(costs[0].night, np.array([c.cost for c in costs]), phases, site.crew_days, days_off)
+    costs, days_off, found = site_crew_windows(site, start, horizon_days, phases)
+    crew = site.crew_days
     chosen = {found[0]["start"] + dt.timedelta(days=i) for i in range(found[0]["nights"])} if found else set()
     worst = max((c.cost for c in costs if np.isfinite(c.cost)), default=1.0) or 1.0
     calendar = [
@@ -359,7 +469,9 @@ def recoat_windows(mirror: Mirror, start: dt.date, horizon_days: int, phases: li
          "moonless": c.moonless_dark_hours, "open_fraction": c.open_fraction,
          "weight": BOOKED_WEIGHT if c.booked and np.isfinite(c.cost) else None,
          "shade": min(c.cost / worst, 1.0) if np.isfinite(c.cost) else 1.0,
-         "blocked": not np.isfinite(c.cost), "chosen": c.night in chosen}
+         "blocked": not np.isfinite(c.cost), "chosen": c.night in chosen,
+         "day_off": c.night in days_off, "day_off_note": days_off.get(c.night, ""),
+         "crew_works": c.night.isoweekday() in crew}
         for c in costs
     ]
     lead = (calendar[0]["night"].weekday()) if calendar else 0  # Monday-first weeks
@@ -368,7 +480,8 @@ def recoat_windows(mirror: Mirror, start: dt.date, horizon_days: int, phases: li
     for title, night in booked:
         runs.setdefault(title, [night, night])[1] = night
     return {"windows": found, "days": days, "calendar": calendar, "lead_blanks": range(lead),
-            "booked_runs": [(title, span[0], span[1]) for title, span in runs.items()], "days_off": days_off}
+            "booked_runs": [(title, span[0], span[1]) for title, span in runs.items()], "days_off": days_off,
+            "crew_rest_days": windows.weekdays_text(windows.EVERY_DAY - crew)}
 
 
 # --- recoat plans -----------------------------------------------------------------------------------
@@ -648,9 +761,10 @@ def recoat_plan_create(
                 hazards = [h for h in HAZARDS if h in set(work.hazards) | mirror_hazards]
                 order = WorkOrder.objects.create(
                     site=subsystem.telescope.site, telescope=subsystem.telescope,
-                    title=f"Recoat {subsystem.name}: {phase.name}", planned_date=dates["first"],
+                    title=f"Recoat {subsystem.telescope.name} {subsystem.name}: {phase.name}",
+                    planned_date=dates["first"],
                     estimated_hours=8.0 * phase.days, steps=_phase_steps(hazards, work),
-                    tools="\n".join(work.tools), hazards=hazards, at_telescope=work.at_telescope,
+                    tools="\n".join(work.tools), hazards=hazards, at_telescope=work.at_telescope, recoat_phase=kind,
                     lift_inputs=_phase_lift(mirror, work) if "suspended_load" in hazards else None,
                     created_by=by,
                 )

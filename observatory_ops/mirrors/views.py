@@ -34,7 +34,7 @@ def mirror_detail(request, pk):
             "site": mirror.subsystem.telescope.site,
             "state": state,
             "plot": plots.decline_svg(state),
-            "train": services.throughput(services.telescope_mirrors(mirror)),
+            "train": services.throughput(mirror.subsystem.telescope),
             "coatings": mirror.coatings.all(),
             "cleanings": mirror.cleanings.all(),
             "measurements": mirror.measurements.select_related("taken_by", "reading").order_by("-measured_on")[:40],

@@ -23,7 +23,7 @@ class Command(BaseCommand):
         if mirror is None:
             raise CommandError(f"subsystem {subsystem_id} has no mirror record (geometry and coating history)")
         state = services.mirror_forecast(mirror)
-        train = services.throughput(services.telescope_mirrors(mirror))
+        train = services.throughput(mirror.subsystem.telescope)
         fit = state.fit
         result = {
             "subsystem": str(mirror),
@@ -46,8 +46,13 @@ class Command(BaseCommand):
             "crossing_date": state.crossing.isoformat() if state.crossing else None,
             "crossing_earliest": state.crossing_earliest.isoformat() if state.crossing_earliest else None,
             "crossing_latest": state.crossing_latest.isoformat() if state.crossing_latest else None,
-            "throughput_loss_mag": _round(train["loss_mag"], 4),
-            "optical_train": train["mirrors"],
+            "throughput_loss_mag": _round(train.loss_mag, 4),
+            "throughput_incomplete": train.incomplete_note,
+            "optical_train": [
+                {"subsystem": str(m.subsystem), "reflectance_now": _round(m.now), "reflectance_fresh": _round(m.fresh),
+                 "source": m.source, "basis": m.basis}
+                for m in train.mirrors
+            ],
         }
         if as_json:
             self.stdout.write(json.dumps(result, indent=1))
@@ -56,5 +61,9 @@ class Command(BaseCommand):
             note = result["fit"].pop("recovery_note")
             if state.recovery_fraction is None:
                 result["fit"].update(recovery_fraction=note, recovery_sigma="-")
+        result["optical_train"] = "; ".join(  # for a person: one clause per mirror, not a list of dicts
+            f"{m['subsystem']} {m['reflectance_now'] if m['reflectance_now'] is not None else '-'}: {m['basis']}"
+            for m in result["optical_train"]
+        )
         for key, value in result.items():
             self.stdout.write(f"{key:<26} {value}")
