@@ -377,8 +377,10 @@ def test_a_condition_triggers_sentence_names_the_reading_the_limit_and_the_trend
                                       TODAY - dt.timedelta(days=60))
     services.site_recompute(site, TODAY)
     reason = PlanStatus.objects.get(plan=plan).reason
+    counting_from = TODAY - dt.timedelta(days=60)  # no service logged: counted from the plan's start
     assert reason.startswith("Latest reading 1.095 s against a limit of at most 1 s; Settle time after a slew: "
-                             "2 readings since the last service, too few for a trend; limit reached on ")
+                             f"2 readings since the plan's start ({counting_from:%d %b %Y}), too few for a trend; "
+                             "limit reached on ")
 
 
 def test_the_due_lists_csv_download_names_things_as_the_page_does(synthetic, users, client):

@@ -37,6 +37,13 @@ def dust_weight(pm10_ugm3: ArrayLike, sensitivity: float) -> NDArray[np.float64]
     return 1.0 + sensitivity * excess
 
 
+def dust_weight_formula(sensitivity: float) -> str:
+    """:func:`dust_weight` in words, with a plan's sensitivity in it, for the basis a page shows."""
+    ref = f"{CLEAN_AIR_PM10_UGM3:g}"
+    return (f"each open hour weighs 1 + {sensitivity:g} x max(0, PM10 - {ref}) / {ref} (PM10 in ug/m3, "
+            f"{ref} = clean air; {sensitivity:g} = this plan's dust sensitivity)")
+
+
 def dust_weighted_hours(open_hours: ArrayLike, pm10_ugm3: ArrayLike, sensitivity: float) -> NDArray[np.float64]:
     """Dust-weighted open hours per night: ``open_hours * dust_weight(pm10, s)`` (see :func:`dust_weight`)."""
     return np.asarray(open_hours, dtype=float) * dust_weight(pm10_ugm3, sensitivity)

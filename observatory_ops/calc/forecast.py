@@ -49,6 +49,23 @@ def monthly_open_fraction(
     return fraction, from_history
 
 
+def logged_per_month(nights: ArrayLike) -> tuple[NDArray[np.int64], NDArray[np.int64]]:
+    """How much history each calendar month's open fraction rests on: logged nights, and years with any.
+
+    Parameters
+    ----------
+    nights : ``datetime64[D]`` dates of logged nights.
+
+    Returns
+    -------
+    nights, years : arrays of 12 counts, index 0 = January.
+    """
+    months = np.asarray(nights, dtype="datetime64[D]").astype("datetime64[M]").astype(np.int64)  # since 1970-01
+    count = np.bincount(months % 12, minlength=12)
+    years = np.bincount(np.unique(months) % 12, minlength=12)  # one (year, month) pair counts one year
+    return count, years
+
+
 def monthly_spread(actual_per_month: ArrayLike, expected_per_month: ArrayLike) -> float:
     """Relative month-to-month variation of usage around the model.
 

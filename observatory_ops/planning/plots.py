@@ -20,12 +20,15 @@ def accumulation_svg(
     latest: dt.date | None,
     rising: bool = True,
     title: str = "",
+    counted_from: tuple[dt.date, str] | None = None,
 ) -> SafeString:
     """Accumulated value (or readings) against time, the limit, today, and the forecast with its band.
 
     The forecast is drawn as a dashed line from today's value to the limit at the forecast date; the band
     (earliest to latest) as a shaded strip, drawn to the plot's end when the slow case runs past it. A limit
     already reached is marked on the day it was reached (the "forecast" of a reached trigger).
+    ``counted_from`` (day, label) marks where counting starts when older points are drawn too: readings from
+    before the last service are shown but not in the trend.
     """
     start = points[0][0] if points else today - dt.timedelta(days=30)
     end = max(d for d in (today, forecast, latest, earliest) if d is not None) + dt.timedelta(days=7)
@@ -43,4 +46,6 @@ def accumulation_svg(
         chart.line([(today, value_now), (forecast, limit)], dashed=True, width=1.5)
         chart.marker(forecast, limit, f"forecast {forecast:%d %b %Y}")
     chart.vline(today, "today")
+    if counted_from and counted_from[0] > start:
+        chart.vline(*counted_from)
     return chart.svg()

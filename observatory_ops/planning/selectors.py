@@ -6,6 +6,7 @@ import datetime as dt
 import numpy as np
 from django.db.models import Count, Prefetch, QuerySet
 
+from observatory_ops.calc import forecast
 from observatory_ops.calc.triggers import STATUSES
 from observatory_ops.logbook.models import ServiceRecord
 from observatory_ops.logbook.quantities import QUANTITIES
@@ -173,9 +174,126 @@ def default_limit_notes(plan: ServicePlan) -> list[str]:
     return notes
 
 
+def significant(value: float, figures: int = 3) -> str:
+    """``value`` to ``figures`` significant figures, with thousands separators and no exponent: 0.002457 ->
+    "0.00246", 714.499 -> "714", 5.216 -> "5.22", 12345.6 -> "12,300"."""
+    if value == 0 or not np.isfinite(value):
+        return f"{value:g}"
+    decimals = figures - 1 - int(np.floor(np.log10(abs(value))))
+    return f"{round(value, decimals):,.{max(decimals, 0)}f}"
+
+
+def _rising(plan: ServicePlan, row: dict) -> bool:
+    """Whether a trigger row's value rises to its limit: all counters do; a reflectance falls to its recoat
+    line; a reading as its trigger says (found by the quantity its basis names, as ``plans_with_plots`` does)."""
+    if row["metric"] == metrics.RECOAT_LINE:
+        return False
+    if row["metric"] != metrics.READING:
+        return True
+    label = row["basis"].split(":")[0]
+    watching = [t for t in plan.triggers.all() if t.metric == metrics.READING and QUANTITIES[t.quantity][0] == label]
+    return not watching or watching[0].direction == Trigger.Direction.ABOVE
+
+
+def trigger_table(plan: ServicePlan) -> list[dict]:
+    """The rows of a plan's trigger table as the subsystem page shows them (``PlanStatus.trigger_rows``):
+    dates as dates, ``reached`` where the limit is already reached (its forecast is then the day it was
+    reached), and ``rate``: the rate per day in words that say what it is (the expected mean over the next
+    30 days for a counter, the trend for a reading; none for a calendar trigger)."""
+    rows = []
+    for row in plan.status.trigger_rows:
+        rising = _rising(plan, row)
+        rate = row["rate_per_day"]
+        if rate is None or row["metric"] == metrics.CALENDAR_DAYS:
+            words = ""
+        elif row["metric"] == metrics.READING:
+            words = f"{'+' if rate > 0 else ''}{significant(rate)} {row['unit']} (trend)"
+        else:
+            words = f"{significant(rate)} {row['unit']} (mean of the next 30 days)"
+        rows.append({
+            **row,
+            "rate": words,
+            "reached": row["value"] >= row["limit"] if rising else row["value"] <= row["limit"],
+            **{key: row[key] and dt.date.fromisoformat(row[key]) for key in ("forecast", "earliest", "latest")},
+        })
+    return rows
+
+
+#: Months the table of expected use shows at the least; more when a forecast on the page lies further out.
+EXPECTED_USE_MONTHS = 12
+
+
+def expected_use_by_month(subsystem: Subsystem, plans: list[ServicePlan]) -> dict | None:
+    """The site's expected use month by month, as the forecasts of the subsystem's counters make it: None when
+    the page shows no such forecast.
+
+    Computed by the recompute's own usage model (``services.forecast_model``): for each coming month its
+    nights, their mean dark hours, the open fraction of that calendar month with the history behind it
+    (``calc.forecast.logged_per_month``), the mean PM10, and for open hours and each (metric, dust sensitivity)
+    the page's triggers count, the expected amount per day (``UsageModel.expected``) and its running total from
+    the first forecast night. A forecast is the day that running total reaches the trigger's limit less its
+    value now. Rows run to the month of the furthest forecast shown, and at least ``EXPECTED_USE_MONTHS``.
+    """
+    from .services import UsageLog, forecast_model, site_today
+
+    counted = metrics.USAGE_FIELDS.keys() | {metrics.DUST_HOURS}
+    columns = [(metrics.OPEN_HOURS, 0.0)]  # every other figure is made from the expected open hours
+    furthest, shown = None, False
+    for plan in plans:
+        for row in getattr(plan, "trigger_table", []):  # the plans with a computed state
+            if row["metric"] not in counted:
+                continue
+            shown = True
+            key = (row["metric"], plan.dust_sensitivity if row["metric"] == metrics.DUST_HOURS else 0.0)
+            columns += [] if key in columns else [key]
+            if row["forecast"] and not row["reached"]:
+                furthest = max(furthest or row["forecast"], row["forecast"])
+    if not shown:
+        return None
+    site = subsystem.telescope.site
+    log = UsageLog.for_site(site)
+    model = forecast_model(site, log, site_today(site))
+    logged, years = forecast.logged_per_month(log.nights)
+    days = np.datetime64(model.first_day, "D") + np.arange(len(model.open_hours))
+    month_of_day = days.astype("datetime64[M]")
+    last = np.datetime64(model.first_day, "M") + (EXPECTED_USE_MONTHS - 1)
+    if furthest is not None:
+        last = max(last, np.datetime64(furthest, "M"))
+    expected = [model.expected(metric, sens) for metric, sens in columns]
+    running = [np.cumsum(e) for e in expected]
+    rows = []
+    for month in np.unique(month_of_day[month_of_day <= last]):
+        index = np.flatnonzero(month_of_day == month)
+        calendar = int(month.astype(int) % 12)  # 0 = January
+        rows.append({
+            "month": month.astype(dt.date),
+            "nights": len(index),
+            "dark_hours": float(model.dark_hours[index].mean()),
+            "open_fraction": float(model.open_fraction[calendar]),
+            "from_history": bool(model.from_history[calendar]),
+            "years": int(years[calendar]),
+            "logged_nights": int(logged[calendar]),
+            "pm10": None if np.isnan(model.month_pm10[calendar]) else float(model.month_pm10[calendar]),
+            # (per day, running total at the month's end) of each column
+            "figures": [(significant(float(e[index].mean())), f"{r[index[-1]]:,.0f}")
+                        for e, r in zip(expected, running, strict=True)],
+        })
+    headers = [
+        metrics.METRICS[metric][0] + (f" (dust sensitivity {sens:g})" if metric == metrics.DUST_HOURS else "")
+        + f", {metrics.METRICS[metric][1]}"
+        for metric, sens in columns
+    ]
+    return {
+        "first_day": model.first_day, "rows": rows, "headers": headers, "basis": model.basis,
+        "dust_basis": model.dust_basis if any(m == metrics.DUST_HOURS for m, _ in columns) else "",
+        "prior": forecast.PRIOR_OPEN_FRACTION, "least_nights": forecast.MIN_NIGHTS_FOR_HISTORY,
+    }
+
+
 def plans_with_plots(subsystem: Subsystem) -> list[ServicePlan]:
-    """The subsystem's plans, each with ``plot``: an SVG of its governing trigger (see ``plots``), and
-    ``default_limits``: the notes of ``default_limit_notes``."""
+    """The subsystem's plans, each with ``plot``: an SVG of its governing trigger (see ``plots``),
+    ``trigger_table``: its triggers' rows (``trigger_table``), and ``default_limits``: the notes of
+    ``default_limit_notes``."""
     from .services import UsageLog, site_today
 
     site = subsystem.telescope.site
@@ -187,6 +305,7 @@ def plans_with_plots(subsystem: Subsystem) -> list[ServicePlan]:
         plan.plot, plan.unread, plan.default_limits = None, [], default_limit_notes(plan)
         if status is None:
             continue
+        plan.trigger_table = trigger_table(plan)
         baseline = status.last_service_on or plan.counting_from  # as the recompute counts
         # A condition trigger with no reading since the baseline has no figures: say so rather than drop it.
         shown = {row["basis"].split(":")[0] for row in status.trigger_rows if row["metric"] == metrics.READING}
@@ -229,5 +348,7 @@ def plans_with_plots(subsystem: Subsystem) -> list[ServicePlan]:
         plan.plot = plots.accumulation_svg(
             points, status.limit, status.unit, today, status.value, status.forecast_date, status.earliest,
             status.latest, rising=rising, title=f"{plan.name}: {status.get_metric_display()}",
+            counted_from=(baseline, f"{'last service' if status.last_service_on else 'plan start'} {baseline:%d %b %Y}")
+            if status.metric == metrics.READING else None,
         )
     return plans

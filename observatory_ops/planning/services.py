@@ -171,9 +171,11 @@ class UsageModel:
     month_pm10: np.ndarray  # 12 values, NaN where never measured
     per_open_hour: dict[str, float]  # usage field -> rate per open hour
     open_fraction: np.ndarray  # 12 values
+    from_history: np.ndarray  # 12 booleans: False where the month took the prior (calc.forecast)
     months_from_history: int
     spread: float
     months: np.ndarray  # calendar month (1..12) of each coming night
+    dark_hours: np.ndarray  # dark hours of each coming night (the sky cache)
     pm10_months: int = 0  # calendar months with their own mean PM10
     pm10_nights: int = 0  # open nights with PM10 measured
 
@@ -197,6 +199,16 @@ class UsageModel:
                 f"{forecast.PRIOR_OPEN_FRACTION:.0%} for the rest"
             )
         return f"dark hours of each coming night x {source}; band from month-to-month spread {self.spread:.0%}"
+
+    def usage_basis(self, metric: str, dust_sensitivity: float) -> str:
+        """How the expected usage of a counter's metric is made (``expected``): the basis of its forecast."""
+        if metric == metrics.DUST_HOURS:
+            return f"{self.basis}; {self.dust_basis}; {exposure.dust_weight_formula(dust_sensitivity)}"
+        if metric == metrics.OPEN_HOURS:
+            return self.basis
+        unit = metrics.METRICS[metric][1]
+        rate = self.per_open_hour[metrics.USAGE_FIELDS[metric]]
+        return f"{self.basis}; times {rate:.3g} {unit} per open hour (this site's log)"
 
     @property
     def dust_basis(self) -> str:
@@ -292,12 +304,22 @@ def usage_model(site: Site, log: UsageLog, first_day: dt.date, days: int) -> Usa
         month_pm10=month_pm10,
         per_open_hour=per_open_hour,
         open_fraction=fraction,
+        from_history=from_history,
         months_from_history=int(from_history.sum()),
         spread=spread,
         months=months,
+        dark_hours=dark,
         pm10_months=int((pm10_nights >= forecast.MIN_NIGHTS_FOR_HISTORY).sum()),
         pm10_nights=int(pm10_nights.sum()),
     )
+
+
+def forecast_model(site: Site, log: UsageLog, today: dt.date) -> UsageModel:
+    """The usage model a recompute forecasts with: from the first night not yet logged (today at the latest,
+    so unlogged past nights count as expected usage) to ``HORIZON_DAYS`` after today."""
+    last_logged = _as_date(log.nights[-1]) if len(log.nights) else None
+    first_day = min(today, last_logged + dt.timedelta(days=1)) if last_logged else today
+    return usage_model(site, log, first_day, (today - first_day).days + HORIZON_DAYS)
 
 
 # --- the recompute ----------------------------------------------------------------------------------
@@ -398,9 +420,8 @@ def _site_recompute(site: Site, today: dt.date) -> int:
     recoat = any(t.metric == metrics.RECOAT_LINE for p in plans for t in triggers_of[p.pk])
     mirrors = _mirrors_by_subsystem(site) if recoat else {}
     log = UsageLog.for_site(site)
-    last_logged = _as_date(log.nights[-1]) if len(log.nights) else None
-    first_day = min(today, last_logged + dt.timedelta(days=1)) if last_logged else today
-    model = usage_model(site, log, first_day, (today - first_day).days + HORIZON_DAYS)  # to the horizon from today
+    model = forecast_model(site, log, today)
+    first_day = model.first_day
     last_service = _effective_last_service(site)
     # A plan counts from its last service; ``counting_from`` only while it has none (service history from
     # before the plan was registered, logged afterwards, counts as it happened).
@@ -418,7 +439,10 @@ def _site_recompute(site: Site, today: dt.date) -> int:
                 if state:
                     states[plan.pk].append(state)
             elif trig.metric == metrics.READING:
-                state = _reading_state(trig, readings.get((plan.subsystem_id, trig.quantity), []), today, site.zone)
+                since = (f"the last service ({baselines[plan.pk]:%d %b %Y})" if plan.pk in last_service
+                         else f"the plan's start ({baselines[plan.pk]:%d %b %Y})")
+                state = _reading_state(trig, readings.get((plan.subsystem_id, trig.quantity), []), today, site.zone,
+                                       since)
                 if state:
                     states[plan.pk].append(state)
             else:
@@ -434,6 +458,7 @@ def _site_recompute(site: Site, today: dt.date) -> int:
         expected = model.expected(metric, sens)
         central, early, late = forecast.days_reached(limits - values, expected, model.spread)
         rate = float(expected[:30].mean()) if len(expected) else 0.0
+        basis = model.usage_basis(metric, sens)
         for i, (plan, trig) in enumerate(members):
             if values[i] >= limits[i]:
                 on = _as_date(reached[i])
@@ -449,7 +474,7 @@ def _site_recompute(site: Site, today: dt.date) -> int:
                     forecast=dates[0],
                     earliest=dates[1],
                     latest=dates[2],
-                    basis=f"{model.basis}; {model.dust_basis}" if metric == metrics.DUST_HOURS else model.basis,
+                    basis=basis,
                     unit=metrics.METRICS[metric][1],
                 )
             )
@@ -572,7 +597,7 @@ def _readings_by_subsystem_quantity(
         key = (sub_id, quantity)
         if key in wanted and taken_at.astimezone(zone).date() >= wanted[key]:
             out.setdefault(key, []).append((taken_at, value))
-    return {k: v[-TREND_READINGS:] for k, v in out.items()}
+    return out
 
 
 def _mirrors_by_subsystem(site: Site) -> dict:
@@ -608,15 +633,24 @@ def _recoat_line_state(mirror, today: dt.date, log: UsageLog, model: UsageModel)
     )
 
 
-def _reading_state(trig, readings, today: dt.date, zone) -> TriggerState | None:
-    """A condition trigger: latest reading against the limit, with the Theil-Sen trend's crossing date."""
+def _reading_state(trig, readings, today: dt.date, zone, since: str) -> TriggerState | None:
+    """A condition trigger: latest reading against the limit, with the Theil-Sen trend's crossing date.
+
+    ``readings`` are all since the baseline, oldest first; the trend uses the newest ``TREND_READINGS``.
+    ``since`` names the baseline for the sentence ("the last service (22 May 2026)"), so the count it gives
+    can be told from the readings listed and drawn, which include older ones.
+    """
     if not readings:
         return None
+    newest = readings[-TREND_READINGS:]
+    counted = (f"{len(readings)} reading{'' if len(readings) == 1 else 's'}" if newest == readings
+               else f"the newest {len(newest)} of {len(readings)} readings")
+    counted += f" since {since}"
+    readings = newest
     rising = trig.direction == Trigger.Direction.ABOVE
     label, unit = QUANTITIES[trig.quantity]
     origin = readings[0][0]
     days = [(t - origin).total_seconds() / 86400 for t, _ in readings]
-    counted = f"{len(readings)} reading{'' if len(readings) == 1 else 's'} since the last service"
     fit, no_fit = None, f"{counted}, too few for a trend"
     if len(readings) >= trend.MIN_READINGS and max(days) > min(days):
         try:
@@ -630,7 +664,7 @@ def _reading_state(trig, readings, today: dt.date, zone) -> TriggerState | None:
         return max((origin + dt.timedelta(days=float(offset))).date(), today)
 
     basis = (
-        f"Theil-Sen trend of {fit.n_points} readings: {fit.slope_per_day:+.4g} {unit}/day "
+        f"Theil-Sen trend of {counted}: {fit.slope_per_day:+.4g} {unit}/day "
         f"(95 % interval {fit.slope_low:+.4g} to {fit.slope_high:+.4g})"
         if fit
         else no_fit

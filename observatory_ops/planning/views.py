@@ -6,7 +6,7 @@ from django_tables2 import RequestConfig
 from observatory_ops.access.decorators import requires
 from observatory_ops.access.roles import VIEWER
 from observatory_ops.exports import csv_response
-from observatory_ops.workorders.selectors import orders_for_plans
+from observatory_ops.workorders.selectors import orders_for_plans, telescopes_out
 
 from . import selectors
 from .filters import DueFilter
@@ -37,7 +37,8 @@ def due_list(request):
     on_orders = orders_for_plans(r.plan_id for r in rows)
     for record in rows:
         record.on_orders = on_orders.get(record.plan_id, [])
-    context = {"filter": filtered, "table": table, **_links(request, table)}
+    out = telescopes_out([chosen] if chosen else None).values()
+    context = {"filter": filtered, "table": table, "telescopes_out": out, **_links(request, table)}
     return render(request, "planning/due_list.html", context)
 
 

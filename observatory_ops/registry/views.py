@@ -32,18 +32,23 @@ ATTENTION_ROWS = 12
 def site_dashboard(request, slug):
     site = get_object_or_404(Site, slug=slug)
     sites_bring_up_to_date([site])
+    upcoming = list(planning_selectors.due_for_site(site)[:ATTENTION_ROWS])
+    on_orders = workorder_selectors.orders_for_plans(s.plan_id for s in upcoming)  # as the due list says it
+    for status in upcoming:
+        status.on_orders = on_orders.get(status.plan_id, [])
     return render(
         request,
         "registry/site_dashboard.html",
         {
             "site": site,
             "counts": planning_selectors.status_counts(site),
-            "upcoming": planning_selectors.due_for_site(site)[:ATTENTION_ROWS],
+            "upcoming": upcoming,
             "attention_rows": ATTENTION_ROWS,
             "telescopes": [(t, subsystem_tree(t), tube_warning(t)) for t in site.telescopes.all()],
             "last_night": NightUsage.objects.filter(site=site).order_by("-night").first(),
             "recent_service": planning_selectors.recent_service(site)[:8],
             "low_stock": workorder_selectors.low_stock(site),
+            "telescopes_out": workorder_selectors.telescopes_out([site]).values(),
             "open_work_orders": workorder_selectors.work_orders()
             .filter(site=site, state__in=["draft", "issued", "underway", "finished"])
             .order_by("planned_date")[:10],
@@ -55,13 +60,15 @@ def site_dashboard(request, slug):
 def subsystem_detail(request, pk):
     subsystem = get_object_or_404(Subsystem.objects.select_related("telescope__site", "parent"), pk=pk)
     sites_bring_up_to_date([subsystem.telescope.site])
+    plans = planning_selectors.plans_with_plots(subsystem)
     return render(
         request,
         "registry/subsystem_detail.html",
         {
             "subsystem": subsystem,
             "site": subsystem.telescope.site,
-            "plans": planning_selectors.plans_with_plots(subsystem),
+            "plans": plans,
+            "expected_use": planning_selectors.expected_use_by_month(subsystem, plans),
             "records": subsystem.service_records.select_related("plan", "performed_by", "corrects", "corrected_by"),
             "readings": subsystem.readings.select_related("taken_by")[:50],
             "children": subsystem.children.in_service(),
