@@ -17,6 +17,7 @@ from simple_history.utils import bulk_create_with_history
 from observatory_ops.calc import exposure, nights
 from observatory_ops.logbook.models import NightUsage, Reading, ServiceRecord
 from observatory_ops.mirrors.models import CleaningEvent, CoatingEvent, Mirror, ReflectanceMeasurement
+from observatory_ops.mirrors.services import plans_a_cleaning_restarts
 from observatory_ops.planning import services as planning
 from observatory_ops.planning.models import BookedRun
 from observatory_ops.registry.models import CrewDayOff, Site, Telescope
@@ -198,7 +199,10 @@ def _service_history(site, subsystems, users, today: dt.date, rng: np.random.Gen
     """Past services so that today shows a mix of overdue, due and later items."""
     records = []
     for subsystem in subsystems.values():
-        for plan in subsystem.plans.exclude(name__startswith="Recoat"):  # recoats follow the coating dates
+        # Recoats follow the coating dates, and the primaries' cleaning plans their cleanings (``_mirrors``).
+        primary = (subsystem.telescope.name, subsystem.name) in _PRIMARIES
+        cleaning = [p.pk for p in plans_a_cleaning_restarts(subsystem)] if primary else []
+        for plan in subsystem.plans.exclude(name__startswith="Recoat").exclude(pk__in=cleaning):
             calendar = next((t.limit for t in plan.triggers.all() if t.metric == "calendar_days"), 365.0)
             # A fraction of the interval has passed since the last service: above 1 is overdue.
             passed = float(rng.choice([0.35, 0.55, 0.7, 0.85, 0.93, 0.97, 1.08]))
@@ -267,6 +271,9 @@ _MIRRORS = (
 )
 
 
+_PRIMARIES = {(telescope, "Primary mirror") for telescope, *_ in _MIRRORS}
+
+
 def _mirrors(site, subsystems, technician, today: dt.date, rng: np.random.Generator) -> None:
     """Primary mirrors with a coating, CO2-snow cleanings every quarter and monthly band measurements.
 
@@ -302,8 +309,13 @@ def _mirrors(site, subsystems, technician, today: dt.date, rng: np.random.Genera
         fresh = coating.coating_curve(metal, [coating.Layer(x["material"], x["thickness_nm"]) for x in layers])
         r0 = fresh["band_mean"] - 0.004  # a real chamber lands a little under the ideal film
         cleanings = [coated + dt.timedelta(days=d) for d in range(95, (today - coated).days, 91)]
-        for day in cleanings:
+        for day in cleanings:  # each cleaning is the cleaning plan's work, as mirrors.services.cleaning_log records it
             CleaningEvent.objects.create(mirror=mirror, cleaned_on=day, method=CleaningEvent.Method.CO2_SNOW)
+            for plan in plans_a_cleaning_restarts(mirror.subsystem):
+                ServiceRecord.objects.create(
+                    subsystem=mirror.subsystem, plan=plan, performed_on=day, performed_by=technician,
+                    hours_spent=plan.estimated_hours, summary="Cleaning: CO2 snow", created_by=technician,
+                )
         clean_exposures = [exposure_on(coated, c) for c in cleanings]
         for day in [coated + dt.timedelta(days=d) for d in range(3, (today - coated).days, 30)]:
             e = exposure_on(coated, day)

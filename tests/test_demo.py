@@ -92,6 +92,23 @@ def test_the_demo_order_underway_is_ticked_in_the_sequence_of_the_lockout():
     assert locked and not any(lines.steps[index].ticked for index in locked)
 
 
+def test_the_demo_primaries_cleaning_plans_count_from_their_last_cleaning():
+    """A reviewer saw a mirror cleaned weeks ago with its cleaning plan overdue: the demo's cleanings and its
+    service records were out of step. Each cleaning is now the cleaning plan's record, as the mirror page logs it."""
+    from observatory_ops.logbook.models import ServiceRecord
+    from observatory_ops.mirrors.models import Mirror
+    from observatory_ops.mirrors.services import plans_a_cleaning_restarts
+
+    call_command("demo", "--no-serve", stdout=StringIO())
+    primaries = Mirror.objects.filter(subsystem__name="Primary mirror", subsystem__telescope__site__slug=SITE_SLUG)
+    assert primaries.count() == 2
+    for mirror in primaries:
+        last_cleaning = mirror.cleanings.order_by("-cleaned_on").first().cleaned_on
+        for plan in plans_a_cleaning_restarts(mirror.subsystem):
+            newest = ServiceRecord.objects.filter(plan=plan).order_by("-performed_on").first()
+            assert newest.performed_on == last_cleaning, plan
+
+
 def test_the_demo_refuses_a_production_installation_and_a_database_with_other_sites(settings, site):
     from django.core.management.base import CommandError
 

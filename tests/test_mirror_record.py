@@ -309,6 +309,42 @@ def test_a_new_coating_restarts_the_mirrors_cleaning_plan_too(mirror, users):
     assert ServiceRecord.objects.get(plan=clean).performed_on == _today(mirror) - dt.timedelta(days=1)
 
 
+def test_a_cleaning_logged_on_the_mirror_page_restarts_its_cleaning_plan(mirror, users, client):
+    """The reviewer's case: a mirror cleaned weeks ago still showed its cleaning plan overdue, counted from an
+    older service record, because a cleaning logged on the mirror page wrote no service record."""
+    clean = ServicePlan.objects.get(subsystem=mirror.subsystem, triggers__metric=metrics.DUST_HOURS)
+    cleaned_on = _today(mirror) - dt.timedelta(days=3)
+    client.force_login(users["technician"])
+    response = client.post(f"/mirrors/{mirror.pk}/cleanings/new/",
+                           {"cleaned_on": cleaned_on.isoformat(), "method": "co2_snow", "note": ""})
+    assert response.status_code == 302
+    assert [str(m) for m in get_messages(response.wsgi_request)] == [
+        f"Cleaning logged; the decline fit counts its recovery, and the plan {clean.name} restarts its counting "
+        f"from {cleaned_on:%d %b %Y}."
+    ]
+    record = ServiceRecord.objects.get(plan=clean)
+    assert (record.performed_on, record.summary) == (cleaned_on, "Cleaning: CO2 snow")
+    assert PlanStatus.objects.get(plan=clean).status == "later"
+    # The recoat plan counts the coating's decline, not the dust on the surface: a cleaning leaves it alone.
+    assert not ServiceRecord.objects.filter(plan=_recoat_plan(mirror)).exists()
+
+
+def test_a_cleaning_finished_on_its_work_order_gives_the_plan_one_record_not_two(mirror, users):
+    from observatory_ops.workorders import selectors
+    from observatory_ops.workorders import services as workorders
+
+    clean = ServicePlan.objects.get(subsystem=mirror.subsystem, triggers__metric=metrics.DUST_HOURS)
+    order = workorders.work_order_from_due([clean], users["engineer"], _today(mirror))
+    workorders.work_order_move(order, "issue", users["engineer"])
+    workorders.work_order_move(order, "start", users["technician"])
+    workorders.work_order_finish(
+        order, users["technician"], 2.0, "", {r.pk: 0.88 for r in order.required_readings.all()},
+        confirmed_unticked=[line.text for line in selectors.unticked_lines(order)], cleanings={mirror.pk: "co2_snow"},
+    )
+    assert ServiceRecord.objects.filter(plan=clean).count() == 1
+    assert CleaningEvent.objects.filter(mirror=mirror).count() == 1
+
+
 # --- 4. a recovery the data cannot tell -------------------------------------------------------------------
 
 

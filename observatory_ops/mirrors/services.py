@@ -808,10 +808,14 @@ def measurement_log(mirror: Mirror, by, measured_on: dt.date, value: float, **fi
 
 
 def cleaning_log(mirror: Mirror, by, cleaned_on: dt.date, method: str, note: str = "") -> CleaningEvent:
+    """A cleaning: the decline fit counts its recovery, and the mirror's cleaning plans
+    (``plans_a_cleaning_restarts``) restart their counting from it, as a coating restarts the recoat plans."""
     _check_date(mirror, cleaned_on)
     with transaction.atomic():
         cleaning = CleaningEvent.objects.create(mirror=mirror, cleaned_on=cleaned_on, method=method, note=note)
-        site_recompute(mirror.subsystem.telescope.site)
+        summary = f"Cleaning: {cleaning.get_method_display()}"[:200]
+        if not _plans_restart(mirror.subsystem, plans_a_cleaning_restarts(mirror.subsystem), cleaned_on, by, summary):
+            site_recompute(mirror.subsystem.telescope.site)
     return cleaning
 
 
@@ -839,11 +843,30 @@ def recoat_plans(subsystem: Subsystem) -> list[ServicePlan]:
     return list(plans.filter(name__in=names))
 
 
-def plans_a_coating_restarts(subsystem: Subsystem) -> list[ServicePlan]:
-    """The mirror's recoat plans (``recoat_plans``), then its cleaning plans: the active plans counting
-    dust-weighted hours, since a new coating is a clean surface."""
+def plans_a_cleaning_restarts(subsystem: Subsystem) -> list[ServicePlan]:
+    """The mirror's cleaning plans: its active plans counting dust-weighted hours (the dust on the surface)."""
     cleaning = ServicePlan.objects.filter(subsystem=subsystem, active=True, triggers__metric=metrics.DUST_HOURS)
-    return list(dict.fromkeys([*recoat_plans(subsystem), *cleaning.distinct().order_by("pk")]))
+    return list(cleaning.distinct().order_by("pk"))
+
+
+def plans_a_coating_restarts(subsystem: Subsystem) -> list[ServicePlan]:
+    """The mirror's recoat plans (``recoat_plans``), then its cleaning plans (``plans_a_cleaning_restarts``),
+    since a new coating is a clean surface."""
+    return list(dict.fromkeys([*recoat_plans(subsystem), *plans_a_cleaning_restarts(subsystem)]))
+
+
+def _plans_restart(
+    subsystem: Subsystem, plans: list[ServicePlan], day: dt.date, by, summary: str
+) -> list[ServiceRecord]:
+    """A service record dated ``day`` for each plan, so each counts again from it; none for a plan that already
+    has a record in force on that day (the work order that did the work wrote it), so it is idempotent. Each
+    record recomputes the site (``service_record_log``)."""
+    records = []
+    for plan in plans:
+        in_force = ServiceRecord.objects.filter(plan=plan, performed_on=day, void=False, corrected_by__isnull=True)
+        if not in_force.exists():
+            records.append(service_record_log(subsystem, plan, day, by, summary))
+    return records
 
 
 def coating_service_records_log(event: CoatingEvent, by) -> list[ServiceRecord]:
@@ -855,14 +878,8 @@ def coating_service_records_log(event: CoatingEvent, by) -> list[ServiceRecord]:
     since the new coating moves the mirror's recoat line all the same.
     """
     subsystem = event.mirror.subsystem
-    records = []
-    for plan in plans_a_coating_restarts(subsystem):
-        in_force = ServiceRecord.objects.filter(
-            plan=plan, performed_on=event.coated_on, void=False, corrected_by__isnull=True
-        )
-        if not in_force.exists():
-            summary = f"New coating: {event.recipe}"[:200]
-            records.append(service_record_log(subsystem, plan, event.coated_on, by, summary))
+    summary = f"New coating: {event.recipe}"[:200]
+    records = _plans_restart(subsystem, plans_a_coating_restarts(subsystem), event.coated_on, by, summary)
     if not records:
         site_recompute(subsystem.telescope.site)
     return records

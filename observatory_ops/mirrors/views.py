@@ -91,7 +91,18 @@ def measurement_log(request, pk):
 def cleaning_log(request, pk):
     mirror = _mirror(pk)
     form = CleaningForm(request.POST or None, initial=_dated(mirror, "cleaned_on"))
-    return _log_event(request, mirror, form, "a cleaning", services.cleaning_log, "Cleaning logged.")
+    return _log_event(request, mirror, form, "a cleaning", services.cleaning_log, _cleaning_logged)
+
+
+def _cleaning_logged(mirror: Mirror, event) -> str:
+    """Say what the cleaning restarted: the decline fit counts its recovery, and the cleaning plans count again."""
+    plans = services.plans_a_cleaning_restarts(mirror.subsystem)
+    if not plans:
+        return "Cleaning logged; the decline fit counts its recovery (this mirror has no cleaning service plan)."
+    names = ", ".join(p.name for p in plans)
+    restart = "plan {} restarts its" if len(plans) == 1 else "plans {} restart their"
+    return (f"Cleaning logged; the decline fit counts its recovery, and the {restart.format(names)} counting "
+            f"from {event.cleaned_on:%d %b %Y}.")
 
 
 def _coating_logged(mirror: Mirror, event) -> str:
