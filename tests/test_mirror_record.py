@@ -242,12 +242,13 @@ def test_the_realignment_orders_reflectance_reading_reaches_the_mirror(mirror, u
 
     CoatingEvent.objects.create(mirror=mirror, coated_on=_today(mirror) - dt.timedelta(days=400), metal="al")
     recoat = services.recoat_plan_create(mirror, _today(mirror), list(RECOAT_PHASES), 3.5, users["engineer"])
-    order = recoat.work_orders.order_by("planned_date").last()
-    workorders.work_order_move(order, "issue", users["engineer"])
-    workorders.work_order_move(order, "start", users["technician"])
-    readings = {r.pk: 0.89 for r in order.required_readings.all()}
-    workorders.work_order_finish(order, users["technician"], 4.0, "", readings,
-                                 confirmed_unticked=[line.text for line in selectors.unticked_lines(order)])
+    for order in recoat.work_orders.order_by("planned_date"):  # each phase starts once the one before is finished
+        workorders.work_order_move(order, "issue", users["engineer"])
+        workorders.work_order_move(order, "start", users["technician"])
+        readings = {r.pk: 0.89 for r in order.required_readings.all()}  # the realignment's reflectance
+        workorders.work_order_finish(order, users["technician"], 4.0, "", readings,
+                                     confirmed_unticked=[line.text for line in selectors.unticked_lines(order)])
+    assert order.recoat_phase == "realignment"
     assert ReflectanceMeasurement.objects.filter(mirror=mirror, value=0.89).exists()
 
 

@@ -199,7 +199,7 @@ def test_the_checklist_is_read_in_the_same_number_of_queries_however_many_ticks(
     services.checklist_tick_set(underway, POINT, _point(underway).pk, True, users["technician"])
     for index in range(len(underway.step_list)):  # in order: the lockout before the locked-out work
         services.checklist_tick_set(underway, STEP, index, True, users["technician"])
-    for index in range(len(underway.step_list)):
+    for index in reversed(range(len(underway.step_list))):  # the lockout's tick after the work done under it
         services.checklist_tick_set(underway, STEP, index, False, users["engineer"])
     assert queries() == few
 
@@ -282,19 +282,104 @@ def test_without_registered_points_only_the_lockout_step_comes_first(underway, u
     services.checklist_tick_set(underway, STEP, 5, True, users["technician"])
 
 
-def test_taking_a_tick_back_is_always_recorded_and_holds_the_locked_out_work_again(underway, users):
-    technician, engineer = users["technician"], users["engineer"]
-    point = _point(underway)
-    services.checklist_tick_set(underway, POINT, point.pk, True, technician)
-    services.checklist_tick_set(underway, STEP, 4, True, technician)
-    services.checklist_tick_set(underway, STEP, 5, True, technician)
-    # Taken back in any order, the locked-out work's tick last of all: none is refused.
-    services.checklist_tick_set(underway, POINT, point.pk, False, engineer)
+def _locked_out_and_working(work_order, users) -> IsolationPoint:
+    """The axis order with its point locked, the lockout step ticked and the locked-out inspection (step 6) done."""
+    point = _point(work_order)
+    services.checklist_tick_set(work_order, POINT, point.pk, True, users["technician"])
+    services.checklist_tick_set(work_order, STEP, 4, True, users["technician"])
+    services.checklist_tick_set(work_order, STEP, 5, True, users["technician"])
+    return point
+
+
+def test_the_lockout_is_not_taken_back_from_under_the_work_done_locked_out(underway, users):
+    """A technician's review: taking back the lockout step or a point after the locked-out work was ticked left
+    that work in the record with no lockout before it. The record keeps the sequence of the lockout (OSHA 29 CFR
+    1910.147(d)) after the fact too: the locked-out work's tick is taken back first, naming it, and nothing is
+    stored meanwhile."""
+    engineer = users["engineer"]
+    point = _locked_out_and_working(underway, users)
+    before = _ticks()
+    with pytest.raises(services.Refused) as refusal:
+        services.checklist_tick_set(underway, STEP, 4, False, engineer)
+    assert str(refusal.value) == (
+        "the tick on step 5 stays: take back step 6 first: it was done with the energy isolated"
+    )
+    with pytest.raises(services.Refused) as refusal:
+        services.checklist_tick_set(underway, POINT, point.pk, False, engineer)
+    assert str(refusal.value) == (  # the lockout step stands on the point too: both, in an order that works
+        "the tick on isolation point 'Mount isolator' stays: take back steps 6 and 5 first: step 6 was done with "
+        "the energy isolated; step 5 is the lockout, which says every isolation point is locked"
+    )
+    assert _ticks() == before
+
+    services.checklist_tick_set(underway, STEP, 5, False, engineer)  # the locked-out work's own tick: always
+    with pytest.raises(services.Refused, match=r"^the tick on isolation point 'Mount isolator' stays: take back "
+                                               r"step 5 first: it is the lockout, which says every isolation "
+                                               r"point is locked$"):
+        services.checklist_tick_set(underway, POINT, point.pk, False, engineer)
     services.checklist_tick_set(underway, STEP, 4, False, engineer)
-    services.checklist_tick_set(underway, STEP, 5, False, engineer)
-    assert [line.ticked for line in selectors.checklist(underway).steps[4:6]] == [False, False]
+    services.checklist_tick_set(underway, POINT, point.pk, False, engineer)
+    assert not any(line.ticked for line in selectors.checklist(underway).steps + selectors.checklist(underway).points)
+    assert [t[4] for t in _ticks()[len(before):]] == [False, False, False]  # each taking back recorded
     with pytest.raises(services.Refused, match="tick the lockout \\(step 5\\) and isolation point 'Mount isolator'"):
-        services.checklist_tick_set(underway, STEP, 5, True, technician)
+        services.checklist_tick_set(underway, STEP, 5, True, users["technician"])
+
+
+def test_the_release_step_is_ticked_only_after_the_lockout_step(underway, users):
+    """Step 7 (catalogue.RELEASE) removes the locks, which the record shows put on first: OSHA 29 CFR 1910.147(e),
+    release from lockout, comes after the work done under (d). The restoring step after it (step 8) is done under
+    power again and waits for nothing (test_the_steps_under_power_and_the_restoring_steps_are_not_held)."""
+    technician = users["technician"]
+    assert underway.step_list[6] == RELEASE
+    before = _ticks()
+    with pytest.raises(services.Refused) as refusal:
+        services.checklist_tick_set(underway, STEP, 6, True, technician)
+    assert str(refusal.value) == "step 7 removes the locks: tick the lockout (step 5) first"
+    assert _ticks() == before
+    services.checklist_tick_set(underway, POINT, _point(underway).pk, True, technician)
+    services.checklist_tick_set(underway, STEP, 4, True, technician)
+    services.checklist_tick_set(underway, STEP, 6, True, technician)  # the locked-out step 6 need not be ticked
+    assert selectors.checklist(underway).steps[6].ticked
+
+
+def test_the_lockout_is_not_taken_back_from_under_the_release_and_the_release_can_be(underway, users):
+    engineer = users["engineer"]
+    point = _locked_out_and_working(underway, users)
+    services.checklist_tick_set(underway, STEP, 6, True, users["technician"])
+    with pytest.raises(services.Refused) as refusal:
+        services.checklist_tick_set(underway, STEP, 4, False, engineer)
+    assert str(refusal.value) == (
+        "the tick on step 5 stays: take back steps 7 and 6 first: step 7 says the locks were removed; step 6 was "
+        "done with the energy isolated"
+    )
+    with pytest.raises(services.Refused, match=r"take back steps 7, 6 and 5 first: step 7 says the locks were "
+                                               r"removed; step 6 was done"):
+        services.checklist_tick_set(underway, POINT, point.pk, False, engineer)
+    for index in (6, 5, 4):  # as the refusals name them
+        services.checklist_tick_set(underway, STEP, index, False, engineer)
+    services.checklist_tick_set(underway, POINT, point.pk, False, engineer)
+
+
+def test_several_locked_out_steps_are_named_together(drive, users, site):  # noqa: F811  (fixture, imported above)
+    brakes = services.work_order_ad_hoc(
+        site, [drive], "Brake service", users["engineer"], powered="Park the telescope at its service position.",
+        steps="Replace the brake pads.\nTighten the motor mount.",
+    )
+    brakes.planned_date = dt.date(2026, 6, 16)  # issued only with one
+    brakes.save()
+    _start(brakes, users)
+    assert services.isolated_steps(brakes.step_list) == (1, range(2, 4))
+    services.checklist_tick_set(brakes, POINT, _point(brakes).pk, True, users["technician"])
+    for index in (1, 2, 3):
+        services.checklist_tick_set(brakes, STEP, index, True, users["technician"])
+    with pytest.raises(services.Refused) as refusal:
+        services.checklist_tick_set(brakes, STEP, 1, False, users["technician"])
+    assert str(refusal.value) == (
+        "the tick on step 2 stays: take back steps 4 and 3 first: they were done with the energy isolated"
+    )
+    services.checklist_tick_set(brakes, STEP, 2, False, users["technician"])  # locked-out work: in any order
+    services.checklist_tick_set(brakes, STEP, 3, False, users["technician"])
+    services.checklist_tick_set(brakes, STEP, 1, False, users["technician"])
 
 
 def test_a_tick_on_a_point_whose_words_changed_since_counts_for_nothing_in_the_sequence(underway, users):
@@ -334,8 +419,9 @@ def test_an_order_whose_hazards_need_no_isolation_is_ticked_in_any_order(site, u
 # --- the page -------------------------------------------------------------------------------------------
 
 
-def _post(client, work_order, **data):
-    return client.post(f"/workorders/{work_order.pk}/tick/", data)
+def _post(client, work_order, follow=False, **data):
+    """The Record button's post (no JavaScript); ``follow`` to get the page it is sent back to."""
+    return client.post(f"/workorders/{work_order.pk}/tick/", data, follow=follow)
 
 
 def test_a_viewer_gets_403_on_the_tick_post_and_nothing_is_stored(underway, users, client):
@@ -369,11 +455,12 @@ def test_a_tick_posted_without_javascript_returns_to_the_line_and_the_page_says_
 def test_a_refused_tick_on_the_page_says_why_and_stores_nothing(draft, users, client):
     client.force_login(users["technician"])
     response = _post(client, draft, kind="step", key="0", ticked="1", text=draft.step_list[0])
-    assert response["Location"] == f"/workorders/{draft.pk}/"
+    assert response["Location"] == f"/workorders/{draft.pk}/#step-1"  # back at the line, as after a tick
     page = client.get(response["Location"]).content.decode()
-    assert "Not recorded: ticks are recorded only while the work is underway" in page
+    assert "Not recorded: ticks are recorded only while the work is underway" in _line(page, "step-1")
     assert "Ticks can be recorded once the work has started." in page
-    response = _post(client, draft)  # an empty post names no line
+    response = _post(client, draft)  # an empty post names no line: the page's top says so
+    assert response["Location"] == f"/workorders/{draft.pk}/"
     assert "did not say which line" in client.get(response["Location"]).content.decode()
     assert not ChecklistTick.objects.exists()
 
@@ -409,6 +496,63 @@ def test_locked_out_work_ticked_too_soon_is_refused_on_the_page_with_and_without
                          HTTP_ACCEPT="application/json")
     assert answer.status_code == 409 and answer.json() == {"error": said, "ticked": False, "note": ""}
     assert not ChecklistTick.objects.exists()
+
+
+def _line(page: str, anchor: str) -> str:
+    """The checklist line with that id, as the page shows it (its box, words, Record button and note)."""
+    return re.search(rf'<li id="{anchor}"[^>]*>(.*?)</li>', page, re.S).group(1)
+
+
+def _note(page: str, anchor: str) -> str:
+    return re.search(r'<span class="tick-note[^"]*"[^>]*>(.*?)</span>', _line(page, anchor), re.S).group(1)
+
+
+def test_without_javascript_a_refusal_returns_to_its_line_and_says_why_there_for_that_page_only(
+    underway, users, client
+):
+    """A technician's review: a refused Record reloaded at the top of the page while a recorded one returned to
+    the line, and an old "Not recorded" stayed on a line after its reason was dealt with. The refusal is said at
+    its line (and at the page's top) on the page that answers it, and on no page after."""
+    client.force_login(users["technician"])
+    response = _post(client, underway, kind="step", key="5", ticked="1", text=underway.step_list[5], follow=True)
+    assert response.redirect_chain == [(f"/workorders/{underway.pk}/#step-6", 302)]
+    page = response.content.decode()
+    said = escape("Not recorded: step 6 is done with the energy isolated: tick the lockout (step 5) and isolation "
+                  "point 'Mount isolator' first.")
+    assert _note(page, "step-6") == said and 'class="tick-note refused" role="alert"' in _line(page, "step-6")
+    assert said in page.split('id="step-6"')[0]  # at the top too, among the page's messages
+    assert " checked" not in _line(page, "step-6")  # the box shows the line as recorded: not ticked
+    assert not any("refused" in _line(page, anchor) for anchor in ("step-5", f"point-{_point(underway).pk}"))
+
+    # The reason dealt with (the point and the lockout ticked, each with its Record button): the note is gone.
+    point = _point(underway)
+    _post(client, underway, kind="point", key=str(point.pk), ticked="1", text=point.description)
+    _post(client, underway, kind="step", key="4", ticked="1", text=underway.step_list[4])
+    page = client.get(underway.get_absolute_url()).content.decode()
+    assert "Not recorded" not in page and _note(page, "step-6") == ""
+    assert not ChecklistTick.objects.filter(step_index=5).exists()
+
+
+def test_without_javascript_a_refused_taking_back_stays_at_its_line_with_the_recorded_note(underway, users, client):
+    point = _locked_out_and_working(underway, users)
+    client.force_login(users["engineer"])
+    # An unticked box posts no "ticked" field: the tick on the point would be taken back.
+    response = _post(client, underway, kind="point", key=str(point.pk), text=point.description, follow=True)
+    assert response.redirect_chain == [(f"/workorders/{underway.pk}/#point-{point.pk}", 302)]
+    note = _note(response.content.decode(), f"point-{point.pk}")
+    assert note.startswith(escape("Not recorded: the tick on isolation point 'Mount isolator' stays: take back "
+                                  "steps 6 and 5 first: step 6 was done with the energy isolated; "))
+    assert note.endswith("(ticked by technician, " + _page_time(ChecklistTick.objects.get(kind=POINT).recorded_at)
+                         + ")")  # and how the line stands, as the script shows it
+    assert " checked" in _line(response.content.decode(), f"point-{point.pk}")
+    assert "Not recorded" not in client.get(underway.get_absolute_url()).content.decode()  # a reload: gone
+
+
+def test_a_refusal_on_one_order_is_not_said_on_another(underway, users, client, drive):  # noqa: F811
+    other = services.work_order_from_due(list(drive.plans.all()), users["engineer"], dt.date(2026, 6, 17))
+    client.force_login(users["technician"])
+    _post(client, underway, kind="step", key="5", ticked="1", text=underway.step_list[5])
+    assert "Not recorded" not in _note(client.get(other.get_absolute_url()).content.decode(), "step-6")
 
 
 @pytest.mark.parametrize("key", ["\N{SUPERSCRIPT TWO}", "-1", "1.5", " 1"])
@@ -503,8 +647,9 @@ def test_finishing_with_unticked_lines_needs_the_confirmation_and_the_record_kee
     underway.refresh_from_db()
     assert underway.state == State.FINISHED
     assert underway.unticked_at_finish == [f"Step {n}: {text}" for n, text in enumerate(open_steps, start=1)]
-    assert f"Finished with {len(open_steps)} checklist line(s) not ticked; technician confirmed" in page
-    assert f"{len(open_steps)} unticked line(s) confirmed as done or not applicable" in page
+    assert len(open_steps) > 1
+    assert f"Finished with {len(open_steps)} checklist lines not ticked; technician confirmed" in page
+    assert f"{len(open_steps)} unticked lines confirmed as done or not applicable are on the record." in page
 
 
 def test_a_line_whose_tick_was_taken_back_after_the_page_loaded_is_not_confirmed_unseen(underway, users):

@@ -29,12 +29,15 @@ from observatory_ops.workorders.cautions import DANGER_TO_LIFE, SEVERITY_LABELS,
 from observatory_ops.workorders.models import Part, State, WorkOrder
 
 
-def _started(work_order, users, days_ago: int = 0) -> WorkOrder:
-    """Issued and started; the start moved ``days_ago`` days back, as for a paper order entered later."""
+def _started(work_order, users, issued_days_ago: int = 0) -> WorkOrder:
+    """Issued (``issued_days_ago`` days back, as for an order printed then) and started now: working from the
+    paper, a technician presses Start on the system only when entering the work afterwards."""
     services.work_order_move(work_order, "issue", users["engineer"])
     services.work_order_move(work_order, "start", users["technician"])
-    if days_ago:
-        WorkOrder.objects.filter(pk=work_order.pk).update(started_at=timezone.now() - dt.timedelta(days=days_ago))
+    if issued_days_ago:
+        WorkOrder.objects.filter(pk=work_order.pk).update(
+            issued_at=timezone.now() - dt.timedelta(days=issued_days_ago)
+        )
     work_order.refresh_from_db()
     return work_order
 
@@ -100,8 +103,9 @@ def test_work_done_on_starts_at_the_sites_today(order, users, client):  # noqa: 
 def test_a_paper_order_entered_two_days_later_dates_its_records_readings_and_the_plans_counting(
     order, users, client,  # noqa: F811
 ):
-    _started(order, users, days_ago=3)
+    _started(order, users, issued_days_ago=3)
     day = site_today(order.site) - dt.timedelta(days=2)
+    assert order.started_at.astimezone(order.site.zone).date() > day  # started on the system only today
     client.force_login(users["technician"])
     response = client.post(f"/workorders/{order.pk}/finish/", _post(order, work_done_on=day.isoformat()))
     assert response.status_code == 302, _text(response)[-1500:]
@@ -127,20 +131,21 @@ def test_work_done_today_is_recorded_with_the_readings_taken_now(order, users): 
     assert all(r.reading.taken_at >= before for r in order.required_readings.select_related("reading"))
 
 
-@pytest.mark.parametrize("days_from_today, started_days_ago, message", [
+@pytest.mark.parametrize("days_from_today, issued_days_ago, message", [
     (1, 0, "Work done on: {day} is after today at the site ({today})"),
-    (-2, 1, "Work done on: {day} is before the work was started ({started})"),
+    (-2, 1, "Work done on: {day} is before {number} was issued ({issued}), and no work on it comes before that"),
 ])
-def test_a_future_day_or_one_before_the_start_is_refused_naming_the_field_and_stores_nothing(
-    order, users, client, site, days_from_today, started_days_ago, message,  # noqa: F811
+def test_a_future_day_or_one_before_the_order_was_issued_is_refused_naming_the_field_and_stores_nothing(
+    order, users, client, site, days_from_today, issued_days_ago, message,  # noqa: F811
 ):
     part = Part.objects.create(site=site, name="Brake pad set", quantity_on_hand=3)
     services.part_add(order, part, 1)
-    _started(order, users, days_ago=started_days_ago)
+    _started(order, users, issued_days_ago=issued_days_ago)
     today = site_today(site)
     day = today + dt.timedelta(days=days_from_today)
-    started = order.started_at.astimezone(site.zone).date()
-    expected = message.format(day=f"{day:%d %b %Y}", today=f"{today:%d %b %Y}", started=f"{started:%d %b %Y}")
+    issued = order.issued_at.astimezone(site.zone).date()
+    expected = message.format(day=f"{day:%d %b %Y}", today=f"{today:%d %b %Y}", issued=f"{issued:%d %b %Y}",
+                              number=order.number)
     client.force_login(users["technician"])
     response = client.post(f"/workorders/{order.pk}/finish/", _post(order, work_done_on=day.isoformat()))
     assert response.status_code == 200 and expected in _text(response)
@@ -206,7 +211,7 @@ def test_not_cleaned_said_explicitly_finishes_without_a_cleaning(cleaning_order,
 
 
 def test_a_cleaning_two_days_ago_is_dated_that_day_with_its_reflectance(cleaning_order, mirror, users, client):
-    _started(cleaning_order, users, days_ago=3)
+    _started(cleaning_order, users, issued_days_ago=3)
     day = site_today(mirror.subsystem.telescope.site) - dt.timedelta(days=2)
     client.force_login(users["technician"])
     data = _post(cleaning_order, work_done_on=day.isoformat(), **{f"cleaned_{mirror.pk}": "co2_snow"})
@@ -232,8 +237,18 @@ def recoat(mirror, users):
     return removal, coating, reinstall, realignment
 
 
+def _earlier_phases_finished(recoat, phase: int, users) -> None:
+    """Finish the phase orders before ``recoat[phase]``: each starts only once the one before it is finished
+    (tests/test_recoat_phase_order.py)."""
+    for earlier in recoat[:phase]:
+        earlier = _started(earlier, users)
+        services.work_order_finish(earlier, users["technician"], 8.0, "done", _all_readings(earlier, 0.9),
+                                   confirmed_unticked=_unticked(earlier))
+
+
 @pytest.mark.parametrize("phase", range(4))
 def test_the_recoat_phase_orders_do_not_ask_about_a_cleaning(recoat, mirror, users, client, phase):
+    _earlier_phases_finished(recoat, phase, users)
     phase_order = _started(recoat[phase], users)
     client.force_login(users["technician"])
     page = client.get(f"/workorders/{phase_order.pk}/finish/").content.decode()
@@ -270,7 +285,7 @@ def test_finishing_the_removal_names_the_next_phase_and_says_the_telescope_stays
     )
     assert "plans restarted" not in message
     assert (f'Next: <a href="/workorders/{coating.pk}/">{coating.number} {coating.title}</a> '
-            f"(planned {coating.planned_date:%d %b %Y}).") in message
+            f"(planned {coating.planned_date:%d %b %Y}; still a draft: issue it).") in message
     said = html.unescape(message)
     assert f"it goes back with {reinstall.number}" in said and "drives on the site's long-term locks" in said
     # The order's page keeps it after the message has gone.
@@ -282,6 +297,7 @@ def test_finishing_the_removal_names_the_next_phase_and_says_the_telescope_stays
 
 def test_finishing_the_realignment_restarts_the_recoat_plan_and_names_no_next_phase(recoat, mirror, users, client):
     *_, realignment = recoat
+    _earlier_phases_finished(recoat, 3, users)
     _started(realignment, users)
     client.force_login(users["technician"])
     data = _post(realignment)

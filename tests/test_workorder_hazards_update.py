@@ -460,7 +460,7 @@ def test_the_finish_form_shows_the_lacking_hazards_cautions_and_asks_for_the_con
     )
     assert _fresh(order).state == State.FINISHED
     record = _text(done)
-    assert "The 1 hazard(s) it lacked, confirmed as controlled, are on the record." in record
+    assert "The hazard it lacked, confirmed as controlled, is on the record." in record
     assert "confirmed that they were controlled or did not arise, and the findings say how: Work at height." in record
     assert "hazards its subsystems gained after it was made (work at height)" in _pdf_text(client, order)
 

@@ -125,7 +125,7 @@ def test_a_finished_orders_paper_shows_the_ticks_the_parts_used_the_hours_and_th
     services.part_add(order, part, 2)
     services.work_order_move(order, "issue", users["engineer"])
     services.work_order_move(order, "start", users["technician"])
-    WorkOrder.objects.filter(pk=order.pk).update(started_at=timezone.now() - dt.timedelta(days=2))
+    WorkOrder.objects.filter(pk=order.pk).update(issued_at=timezone.now() - dt.timedelta(days=2))  # printed then
     order.refresh_from_db()
     services.checklist_tick_set(order, "step", 0, True, users["technician"])
     assert selectors.sheet(order, URL).step_ticks == ()  # the paper of work underway is for ticking by hand

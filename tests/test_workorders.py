@@ -459,7 +459,7 @@ def test_a_reading_beyond_its_limit_is_shown_beside_it_then_recorded_and_flagged
     page = response.content.decode()
     assert _state(order) == State.FINISHED
     assert order.required_readings.get(quantity="settle_time_s").reading.value == 5.0  # as measured
-    assert "1 reading(s) beyond their limit are flagged on the record" in page
+    assert "1 reading beyond its limit is flagged on the record." in page
     assert "Settle time after a slew on Axis 1 drive: 5.0 s (limit at most 1)" in page
     assert '<strong class="beyond-limit">beyond its limit</strong>' in page
 

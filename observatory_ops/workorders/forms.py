@@ -54,13 +54,7 @@ class WorkOrderEditForm(forms.ModelForm):
             )
         if planned is None or "planned_date" not in self.changed_data:  # a date stored earlier stays as it is
             return planned
-        today = site_today(self.instance.site)
-        if planned < _a_year_before(today):
-            raise forms.ValidationError(
-                f"{planned:%d %b %Y} is more than a year before today ({today:%d %b %Y}): enter the date the work "
-                "is planned for."
-            )
-        return planned
+        return _planned_not_long_past(planned, site_today(self.instance.site))
 
     def clean_steps(self):
         """One step a line; where the hazards call for isolation the lockout step must stay, where the engineer
@@ -86,9 +80,26 @@ def _a_year_before(day: dt.date) -> dt.date:
         return day.replace(year=day.year - 1, day=28)
 
 
+def _planned_not_long_past(planned: dt.date, today: dt.date) -> dt.date:
+    """The planned date as entered, refused when it is more than a year before the site's today (a mistyped year):
+    a date a little in the past is kept, for work already done from paper and entered afterwards."""
+    if planned < _a_year_before(today):
+        raise forms.ValidationError(
+            f"Planned date: {planned:%d %b %Y} is more than a year before today at the site ({today:%d %b %Y}): "
+            "enter the date the work is planned for."
+        )
+    return planned
+
+
 class AdHocForm(forms.Form):
     title = forms.CharField(max_length=200)
     order_type = forms.ChoiceField(choices=WorkOrder.Type.choices, initial=WorkOrder.Type.CORRECTIVE)
+    planned_date = forms.DateField(
+        required=False, widget=forms.DateInput(attrs={"type": "date"}),
+        help_text="The day the work is planned for (today unless changed), so the order can be issued straight "
+        "away. Empty if not known yet: it is then set (Edit) before the order is issued.",
+        error_messages={"invalid": "Planned date: enter a date, such as 2026-06-15."},
+    )
     subsystems = forms.ModelMultipleChoiceField(queryset=Subsystem.objects.none())
     hazards = HazardsField(
         label="Further hazards of this work",
@@ -113,6 +124,12 @@ class AdHocForm(forms.Form):
     def __init__(self, *args, site, **kwargs):
         super().__init__(*args, **kwargs)
         self.fields["subsystems"].queryset = Subsystem.objects.in_service().filter(telescope__site=site)
+        self._today = site_today(site)
+        self.fields["planned_date"].initial = self._today
+
+    def clean_planned_date(self):
+        planned = self.cleaned_data["planned_date"]
+        return planned if planned is None else _planned_not_long_past(planned, self._today)
 
 
 #: The choice on the finish form that says a mirror on the order was not cleaned in its work.
@@ -128,7 +145,12 @@ class FinishForm(forms.Form):
     # Empty, never the estimate: a tap on Finish must not record the estimate as the time the work took.
     actual_hours = forms.FloatField(
         min_value=0, max_value=1000, label="Actual hours",
-        error_messages={"required": "Actual hours: enter the hours the work took."},
+        error_messages={
+            "required": "Actual hours: enter the hours the work took.",
+            "invalid": "Actual hours: enter a number of hours, such as 2.5.",
+            "min_value": "Actual hours: enter 0 or more.",
+            "max_value": "Actual hours: more than 1,000 hours is not accepted; split the work into several orders.",
+        },
     )
     work_done_on = forms.DateField(
         label="Work done on", widget=forms.DateInput(attrs={"type": "date"}),
@@ -147,13 +169,18 @@ class FinishForm(forms.Form):
         self.fields["work_done_on"].initial = self._today
         self._required = {r.pk: r for r in order.required_readings.select_related("subsystem")}
         for r in self._required.values():
+            label = f"{r.quantity_label} on {r.subsystem.name} ({r.unit})"
             self.fields[f"reading_{r.pk}"] = forms.FloatField(
-                label=f"{r.quantity_label} on {r.subsystem.name} ({r.unit})",
-                help_text=f"limit: {r.limit_text}" if r.limit_text else "", required=True,
+                label=label, help_text=f"limit: {r.limit_text}" if r.limit_text else "", required=True,
+                error_messages={"required": f"{label}: enter the reading as measured.",
+                                "invalid": f"{label}: enter a number."},
             )
         for use in order.part_uses.select_related("part"):
+            label = f"{use.part.name} used ({use.part.unit})"
             self.fields[f"part_{use.pk}"] = forms.FloatField(
-                label=f"{use.part.name} used ({use.part.unit})", min_value=0, initial=use.quantity_planned
+                label=label, min_value=0, initial=use.quantity_planned,
+                error_messages={"required": f"{label}: enter how many were used (0 if none).",
+                                "invalid": f"{label}: enter a number.", "min_value": f"{label}: enter 0 or more."},
             )
         from observatory_ops.mirrors.models import CleaningEvent, Mirror  # mirrors builds on work orders
 

@@ -4,7 +4,9 @@ draft --issue--> issued --start--> underway --finish--> finished --countersign--
 draft / issued / underway --withdraw--> withdrawn
 
 Finishing records hours, findings, readings and parts, and writes the service records. Countersigning
-is done by a second person: never the one who finished the work.
+is done by a second person: never the one who finished the work. Some moves wait as an order stands, whoever
+asks (``selectors.moves_held``): issuing without a planned date, issuing or starting with a lift in the way, and
+starting a recoat phase before the phase order before it in its recoat plan is finished.
 """
 from __future__ import annotations
 

@@ -10,6 +10,7 @@ from django.utils import dateformat, timezone
 
 from observatory_ops.archive.history import Change, changes, person
 from observatory_ops.calc import lifting
+from observatory_ops.calc.windows import RECOAT_PHASES
 from observatory_ops.planning.models import ServicePlan, part_lines
 from observatory_ops.registry import catalogue
 from observatory_ops.registry.models import Site, Subsystem
@@ -127,10 +128,16 @@ def telescopes_out(sites: Sequence[Site] | None = None) -> dict[int, TelescopeOu
     }
 
 
+#: The recoat phases whose orders are written for a telescope without its mirror (the removal takes it out, the
+#: reinstall puts it back): they carry no notice that it is out. The realignment is written for the mirror in its
+#: cell, its telescope balanced (it moves the telescope under power), so it carries the notice like any other work.
+_WRITTEN_FOR_MIRROR_OUT = ("removal", "coating", "reinstall")
+
+
 def telescope_out_notices(order: WorkOrder) -> list[tuple[str, str, str]]:
     """The notices for an order still to do at a telescope whose mirror is out (``telescopes_out``); none for the
-    recoat's own orders, which are written for a telescope without its mirror."""
-    if order.state not in TO_DO or order.recoat_phase:
+    recoat's own orders written for a telescope without its mirror (``_WRITTEN_FOR_MIRROR_OUT``)."""
+    if order.state not in TO_DO or order.recoat_phase in _WRITTEN_FOR_MIRROR_OUT:
         return []
     out = telescopes_out([order.site])
     if not out:
@@ -465,14 +472,37 @@ def work_done_on(order: WorkOrder) -> dt.date | None:
     )
 
 
+#: The work of a recoat's phase orders in the order it is done (``calc.windows.RECOAT_PHASES``), and each one's name
+#: as the planner gives it ("strip and coat" for the coating).
+RECOAT_SEQUENCE = tuple(phase.work for phase in RECOAT_PHASES if phase.work)
+_PHASE_NAMES = {phase.work: phase.name for phase in RECOAT_PHASES if phase.work}
+
+
+def _recoat_neighbours(order: WorkOrder) -> tuple[int | None, WorkOrder | None, WorkOrder | None]:
+    """For a phase order of a recoat: its mirror's id, and the phase orders just before and just after it in its
+    recoat plan (the newest that holds it), in the order of their work, withdrawn ones included. (None, None, None)
+    for any other order. Two queries."""
+    plan = order.recoat_plans.order_by("-pk").first() if order.recoat_phase in RECOAT_SEQUENCE else None
+    if plan is None:
+        return None, None, None
+    orders = sorted(
+        (o for o in plan.work_orders.all() if o.recoat_phase in RECOAT_SEQUENCE),
+        key=lambda o: (RECOAT_SEQUENCE.index(o.recoat_phase), o.pk),
+    )
+    at = next(i for i, o in enumerate(orders) if o.pk == order.pk)
+    return plan.mirror_id, orders[at - 1] if at else None, orders[at + 1] if at + 1 < len(orders) else None
+
+
 @dataclass(frozen=True)
 class RecoatPhase:
     """Where one phase order of a recoat stands in its plan (``mirrors.RecoatPlan.work_orders``): the kind of its
-    work (``WorkOrder.recoat_phase``), the plan's next phase order not withdrawn, and the mirror's state when it
-    is the removal that took the mirror out and no reinstall has put it back (``telescopes_out``)."""
+    work (``WorkOrder.recoat_phase``), the plan's next phase order (withdrawn or not: a withdrawn one stops the
+    plan), the mirror (its id, for its recoat planner), and the mirror's state when it is the removal that took
+    the mirror out and no reinstall has put it back (``telescopes_out``)."""
 
     work: str
     next_order: WorkOrder | None
+    mirror_id: int | None
     mirror_out: TelescopeOut | None
 
 
@@ -480,12 +510,38 @@ def recoat_phase(order: WorkOrder) -> RecoatPhase | None:
     """For a phase order of a recoat, where it stands in its plan; None for any other order."""
     if not order.recoat_phase:
         return None
-    plan = order.recoat_plans.order_by("-pk").first()
-    later = plan.work_orders.filter(pk__gt=order.pk).exclude(state=State.WITHDRAWN).order_by("pk") if plan else None
+    mirror_id, _, after = _recoat_neighbours(order)
     out = telescopes_out([order.site]).get(order.telescope_id) if order.recoat_phase == "removal" else None
     return RecoatPhase(
-        order.recoat_phase, later.first() if later is not None else None,
-        out if out is not None and out.removal.pk == order.pk else None,
+        order.recoat_phase, after, mirror_id, out if out is not None and out.removal.pk == order.pk else None
+    )
+
+
+#: How an earlier phase order that holds up the next one stands.
+_NOT_YET_FINISHED = {
+    State.DRAFT: "still a draft", State.ISSUED: "issued but not started", State.UNDERWAY: "underway, not finished",
+}
+
+
+def recoat_order_refusal(order: WorkOrder) -> str:
+    """Why a recoat phase order may not start yet, "" when it may: the phase order before it in its recoat plan
+    (``RECOAT_SEQUENCE``) is not finished. Each phase's steps take the one before as done: the coating needs the
+    mirror out, the reinstall the new coating, and the realignment, which moves the telescope under power and takes
+    the locks off, a reinstalled mirror with the balance restored; the locks stay on until then (OSHA 29 CFR
+    1910.147(e)). A withdrawn one stops the plan: it is planned again."""
+    _, before, _ = _recoat_neighbours(order)
+    if before is None or before.state in (State.FINISHED, State.COUNTERSIGNED):
+        return ""
+    this, previous = _PHASE_NAMES[order.recoat_phase], _PHASE_NAMES[before.recoat_phase]
+    if before.state == State.WITHDRAWN:
+        return (
+            f"the {previous} before this {this} ({before.number}, {before.title}) was withdrawn, so this recoat "
+            "cannot go on as planned: withdraw its other orders still to do and plan the recoat again on the "
+            "mirror's recoat planner"
+        )
+    return (
+        f"a recoat's phases are done in their order ({', '.join(_PHASE_NAMES.values())}): this {this} starts only "
+        f"once {before.number} ({before.title}) is finished, and it is {_NOT_YET_FINISHED[before.state]}"
     )
 
 
@@ -528,8 +584,9 @@ NO_PLANNED_DATE = "set the planned date (Edit) before issuing: the calendar expo
 
 def moves_held(order: WorkOrder) -> dict[str, list[str]]:
     """The moves (``lifecycle`` actions) the order may not take as it stands, whoever asks, each with the reasons:
-    issuing without a planned date (the calendar export and the weekly batch go by it), and issuing or starting
-    while its lift stands in the way (``lift_refusal``). ``services.work_order_move`` refuses
+    issuing without a planned date (the calendar export and the weekly batch go by it), issuing or starting
+    while its lift stands in the way (``lift_refusal``), and starting a recoat phase before the phase before it is
+    finished (``recoat_order_refusal``). ``services.work_order_move`` refuses
     them with these words, and the order's page leaves their buttons out and says why."""
     held: dict[str, list[str]] = {}
     if order.state == State.DRAFT and order.planned_date is None:
@@ -537,6 +594,8 @@ def moves_held(order: WorkOrder) -> dict[str, list[str]]:
     if order.state in (State.DRAFT, State.ISSUED) and (why := lift_refusal(order)):
         for action in ("issue", "start"):
             held.setdefault(action, []).append(why)
+    if order.state == State.ISSUED and (why := recoat_order_refusal(order)):
+        held.setdefault("start", []).append(why)
     return held
 
 

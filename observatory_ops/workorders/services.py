@@ -51,7 +51,8 @@ def lockout_missing(hazards: Sequence[str], steps: Sequence[str]) -> bool:
 def isolated_steps(steps: Sequence[str]) -> tuple[int, range] | None:
     """Where an order's steps isolate the energy, as ``steps_in_groups`` placed it: the position of the lockout
     step (``LOCKOUT_STEP``, its first occurrence) and the positions of the steps done locked out after it, up to
-    the step that removes the locks (``catalogue.RELEASE``); None when no step is the lockout step.
+    the step that removes the locks (``catalogue.RELEASE``), which then stands at the range's ``stop``; None when
+    no step is the lockout step.
 
     Only those two exact steps are looked for, never other wording. Without ``RELEASE`` after the lockout step
     (a recoat phase ends its locked-out work in words of its own, or the steps were edited by hand) every step
@@ -247,13 +248,15 @@ def _require_reading(order: WorkOrder, subsystem: Subsystem, quantity: str, limi
 def work_order_ad_hoc(
     site: Site, subsystems: Sequence[Subsystem], title: str, by, order_type: str = WorkOrder.Type.CORRECTIVE,
     steps: str = "", powered: str = "", restore: str = "", hazards: Sequence[str] = (),
+    planned_date: dt.date | None = None,
 ) -> WorkOrder:
     """A work order not driven by a due item (a fault, an upgrade); its telescope is the subsystems' own
     when they share one.
 
     Its steps come in three groups, one step a line each: ``powered`` (under power, before isolation:
     parking, closing the dome, live tests), ``steps`` (the work) and ``restore`` (after the locks are off),
-    put together by ``steps_in_groups``. ``hazards`` are the work's own beyond its subsystems'.
+    put together by ``steps_in_groups``. ``hazards`` are the work's own beyond its subsystems'. With a
+    ``planned_date`` it can be issued as it is (``selectors.moves_held``).
     """
     if any(s.telescope.site_id != site.pk for s in subsystems):
         raise Refused("every subsystem must belong to the work order's site")
@@ -264,8 +267,8 @@ def work_order_ad_hoc(
     lines = steps_in_groups(hazards, *groups)
     with transaction.atomic():
         order = WorkOrder.objects.create(
-            site=site, telescope=telescope, title=title, order_type=order_type, steps="\n".join(lines),
-            hazards=hazards, created_by=by,
+            site=site, telescope=telescope, title=title, order_type=order_type, planned_date=planned_date,
+            steps="\n".join(lines), hazards=hazards, created_by=by,
         )
         for subsystem in subsystems:
             WorkOrderItem.objects.create(work_order=order, subsystem=subsystem)
@@ -364,15 +367,19 @@ def _claim_refusal(order: WorkOrder, by) -> Refused:
 
 def work_done_on_problem(order: WorkOrder, day: dt.date, today: dt.date | None = None) -> str:
     """Why ``day`` cannot be the day the order's work was done, "" when it can: it is after the site's today
-    (``today``, read when not given), or before the day the work was started, at the site."""
+    (``today``, read when not given), or before the day the order was issued, at the site.
+
+    Not the day it was started: a technician working from the printed order presses Start on the system only when
+    entering the work afterwards, so the work may well come before that. The paper exists from the day the order
+    was issued, and no work on it comes before."""
     today = today or site_today(order.site)
     if day > today:
         return f"{day:%d %b %Y} is after today at the site ({today:%d %b %Y}); enter the day the work was done"
-    started = order.started_at.astimezone(order.site.zone).date() if order.started_at else None
-    if started is not None and day < started:
+    issued = order.issued_at.astimezone(order.site.zone).date() if order.issued_at else None
+    if issued is not None and day < issued:
         return (
-            f"{day:%d %b %Y} is before the work was started ({started:%d %b %Y}); enter the day the work was done, "
-            "or ask the site engineer if it was started late on the system"
+            f"{day:%d %b %Y} is before {order.number} was issued ({issued:%d %b %Y}), and no work on it comes "
+            "before that; enter the day the work was done"
         )
     return ""
 
@@ -394,7 +401,7 @@ def work_order_finish(
     ``work_done_on`` is the day the work was done at the site (default: the site's today; a paper order may be
     entered days later). The service records are dated it, so the plans count again from it; so are the
     cleanings, and the readings are taken at noon of it (now, when it is today). Refused when it is after today
-    or before the day the work was started (``work_done_on_problem``).
+    or before the day the order was issued (``work_done_on_problem``).
 
     ``cleanings`` maps the id of a mirror the work cleaned -> the method (``CleaningEvent.Method``): each
     becomes a cleaning on the mirror's record, dated the day the work was done, so its decline fit sees the
@@ -527,9 +534,12 @@ def checklist_tick_set(
 
     On an order whose hazards need energy isolated the record follows the sequence of the lockout (OSHA 29 CFR
     1910.147(d): the lockout devices on every isolating device, then stored energy, then the isolation verified,
-    all before the work): a step done locked out (``isolated_steps``) is ticked only once the lockout step and
-    every isolation point of the order are, and the lockout step only once every point is. Refused otherwise,
-    naming what to tick first (``_lockout_sequence_refusal``). Taking a tick back is always recorded.
+    all before the work, and the locks removed only after it, (e)): a step done locked out (``isolated_steps``)
+    is ticked only once the lockout step and every isolation point of the order are, the lockout step only once
+    every point is, and the release step only once the lockout step is. Nor is the sequence undone afterwards:
+    the tick on a point or on the lockout step is not taken back while a tick that needed it stands. Refused
+    otherwise, naming what to tick or take back first (``_lockout_sequence_refusal``). Taking back the tick of
+    locked-out work, of the release or of any step under power is always recorded.
     """
     if not has_role(by, TECHNICIAN):
         raise Refused(f"ticking the checklist needs the {TECHNICIAN} role or above")
@@ -561,17 +571,18 @@ def checklist_tick_set(
         already = latest is not None and latest.ticked and latest.text == entry.text
         if already == ticked:
             raise Refused(f"{what} is {'already ticked' if ticked else 'not ticked'}")
-        if ticked and kind == ChecklistTick.Kind.STEP and (refusal := _lockout_sequence_refusal(current, key, ticks)):
+        if refusal := _lockout_sequence_refusal(current, entry.line, ticked, what, ticks):
             raise Refused(refusal)
         entry._history_user = by
         entry.save()
     return entry
 
 
-def _lockout_sequence_refusal(order: WorkOrder, index: int, ticks: dict) -> str:
-    """Why step ``index`` (from 0) cannot be ticked yet under the sequence of the lockout, or "" when it can.
-    ``ticks`` are the order's newest entries (``selectors.latest_ticks``); a tick on a line whose words have
-    changed since counts for nothing, as on the page."""
+def _lockout_sequence_refusal(order: WorkOrder, line: tuple, ticked: bool, what: str, ticks: dict) -> str:
+    """Why the tick asked for on ``line`` (``ChecklistTick.line``; ``ticked`` False to take it back) would break
+    the sequence of the lockout, or "" when it would not. ``what`` names the line ("step 5"); ``ticks`` are the
+    order's newest entries (``selectors.latest_ticks``); a tick on a line whose words have changed since counts
+    for nothing, as on the page."""
     if not needs_isolation(order.hazards):
         return ""
     steps = order.step_list
@@ -579,13 +590,41 @@ def _lockout_sequence_refusal(order: WorkOrder, index: int, ticks: dict) -> str:
     if found is None:
         return ""
     lockout, locked = found
-    if index != lockout and index not in locked:
-        return ""
+    # The locked-out work ends at the release step (catalogue.RELEASE) where there is one (isolated_steps).
+    release = locked.stop if locked.stop < len(steps) else None
+    kind, key = line
+    is_point = kind == ChecklistTick.Kind.POINT
 
     def done(line, text: str) -> bool:
         tick = ticks.get(line)
         return tick is not None and tick.ticked and tick.text == text
 
+    def step_done(index: int) -> bool:
+        return done((ChecklistTick.Kind.STEP, index), steps[index])
+
+    if not ticked:
+        if not (is_point or key == lockout):
+            return ""
+        # The release and the locked-out work stand on the lockout step, and through it on every point.
+        lockout_stands = is_point and step_done(lockout)
+        standing = []
+        if release is not None and step_done(release) and (key == lockout or lockout_stands):
+            standing.append(([release], "says the locks were removed", ""))
+        if work := [index for index in locked if step_done(index)]:
+            standing.append((work, "was done with the energy isolated", "were done with the energy isolated"))
+        if lockout_stands:
+            standing.append(([lockout], "is the lockout, which says every isolation point is locked", ""))
+        return _take_back_refusal(what, standing)
+    if is_point:
+        return ""
+    if key == release:
+        # The locks come off after the locked-out work (1910.147(e)), so the record shows them put on before. The
+        # steps after the release are done under power again and wait for nothing more.
+        if step_done(lockout):
+            return ""
+        return f"step {key + 1} removes the locks: tick the lockout (step {lockout + 1}) first"
+    if key != lockout and key not in locked:
+        return ""
     points = isolation_points(order)
     several = len({p.telescope_id for p in points}) > 1
     open_points = [
@@ -593,20 +632,44 @@ def _lockout_sequence_refusal(order: WorkOrder, index: int, ticks: dict) -> str:
         for p in points if not done((ChecklistTick.Kind.POINT, p.pk), p.description)
     ]
     named = f"isolation point{'s' if len(open_points) > 1 else ''} {', '.join(open_points)}"
-    if index == lockout:
+    if key == lockout:
         # The lockout step's own words ("Isolate, lock and tag every energy source listed under 'Energy isolation
         # points'; release stored pressure; try to start the drives ...") take in locking each point: each point
         # is ticked as its lock goes on, and the step once all of them are locked, the stored energy released and
         # the drives tried (1910.147(d)(4) to (d)(6)). So the points come first, and the step closes the lockout.
         if open_points:
-            return f"step {index + 1} is the lockout, which locks and tags every isolation point: tick {named} first"
+            return f"step {key + 1} is the lockout, which locks and tags every isolation point: tick {named} first"
         return ""
-    first = [] if done((ChecklistTick.Kind.STEP, lockout), steps[lockout]) else [f"the lockout (step {lockout + 1})"]
+    first = [] if step_done(lockout) else [f"the lockout (step {lockout + 1})"]
     if open_points:
         first.append(named)
     if not first:
         return ""
-    return f"step {index + 1} is done with the energy isolated: tick {' and '.join(first)} first"
+    return f"step {key + 1} is done with the energy isolated: tick {' and '.join(first)} first"
+
+
+def _take_back_refusal(what: str, standing: list[tuple[list[int], str, str]]) -> str:
+    """Why the tick on an isolation point or on the lockout step (``what``) stays, or "" when it can be taken back.
+    ``standing`` holds the ticked steps that stand on it, as (step positions, what one of them is, what several
+    are), in an order they can be taken back in: taken back first, they keep the record from showing work done
+    locked out, or the locks removed, with no lockout before it."""
+    if not standing:
+        return ""
+    taken = _step_numbers([index for indexes, _, _ in standing for index in indexes])
+    if len(standing) == 1:
+        indexes, one, several = standing[0]
+        because = f"it {one}" if len(indexes) == 1 else f"they {several}"
+    else:
+        because = "; ".join(
+            f"{_step_numbers(indexes)} {one if len(indexes) == 1 else several}" for indexes, one, several in standing
+        )
+    return f"the tick on {what} stays: take back {taken} first: {because}"
+
+
+def _step_numbers(indexes: list[int]) -> str:
+    """"step 6", "steps 7, 6 and 5": positions from 0 said as printed, highest first (an order to take back in)."""
+    said = [str(index + 1) for index in sorted(indexes, reverse=True)]
+    return f"step {said[0]}" if len(said) == 1 else f"steps {', '.join(said[:-1])} and {said[-1]}"
 
 
 def part_add(order: WorkOrder, part: Part, quantity: float) -> PartUse:

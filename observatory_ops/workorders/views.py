@@ -29,9 +29,19 @@ from .lifecycle import TRANSITIONS, available
 from .models import Part, State, WorkOrder
 from .tables import WorkOrderFilter, WorkOrderTable
 
+#: The session key of a tick refused on a plain post: (order id, line anchor, message), shown once at the line.
+TICK_REFUSED = "workorders.tick_refused"
+
 
 def _order(pk) -> WorkOrder:
     return get_object_or_404(WorkOrder.objects.select_related("site", "telescope", "assignee"), pk=pk)
+
+
+def _tick_refused(request, order: WorkOrder) -> dict | None:
+    """The tick refused on this order's page just before (``work_order_tick``), for its line to say why: read
+    once, so the note is gone on the next page, whatever is done meanwhile."""
+    refused = request.session.pop(TICK_REFUSED, None)
+    return {"anchor": refused[1], "text": refused[2]} if refused and refused[0] == order.pk else None
 
 
 @requires(VIEWER)
@@ -47,9 +57,11 @@ def work_order_from_due(request):
     if request.method != "POST":
         return HttpResponseNotAllowed(["POST"])
     ids = [int(v) for v in request.POST.getlist("plans") if v.isascii() and v.isdigit()]
-    plans = list(ServicePlan.objects.filter(pk__in=ids))
+    plans = list(ServicePlan.objects.filter(pk__in=ids).select_related("subsystem__telescope__site"))
+    # The due list asks no date: the order is planned for the site's today, so it can be issued straight away.
+    planned = site_today(plans[0].subsystem.telescope.site) if plans else None
     try:
-        order = services.work_order_from_due(plans, request.user)
+        order = services.work_order_from_due(plans, request.user, planned)
     except services.Refused as exc:
         messages.error(request, f"No work order made: {exc}.")
         back = request.POST.get("back", "")
@@ -57,8 +69,10 @@ def work_order_from_due(request):
             back, allowed_hosts={request.get_host()}, require_https=request.is_secure()
         )
         return redirect(back if back and safe else reverse("due-list"))
-    messages.success(request, f"{order.number} drafted from {len(plans)} due item(s). Check the steps and set the "
-                              "planned date (Edit), then issue it.")
+    items = "1 due item" if len(plans) == 1 else f"{len(plans)} due items"
+    messages.success(request, f"{order.number} drafted from {items}, planned for today ({planned:%d %b %Y}). Check "
+                              "the steps, change the planned date if the work is for another day (Edit), then issue "
+                              "it.")
     already = {
         other.number: other for orders in selectors.orders_for_plans(p.pk for p in plans).values()
         for other in orders if other.pk != order.pk
@@ -78,9 +92,11 @@ def work_order_ad_hoc(request, slug):
         d = form.cleaned_data
         order = services.work_order_ad_hoc(
             site, list(d["subsystems"]), d["title"], request.user, order_type=d["order_type"], steps=d["steps"],
-            powered=d["powered"], restore=d["restore"], hazards=d["hazards"],
+            powered=d["powered"], restore=d["restore"], hazards=d["hazards"], planned_date=d["planned_date"],
         )
-        messages.success(request, f"{order.number} drafted.")
+        planned = f"planned for {order.planned_date:%d %b %Y}" if order.planned_date else (
+            "with no planned date: set one (Edit) before issuing it")
+        messages.success(request, f"{order.number} drafted, {planned}.")
         return redirect(order)
     return render(request, "workorders/ad_hoc.html", {"form": form, "site": site})
 
@@ -125,6 +141,7 @@ def work_order_detail(request, pk):
             "cautions": selectors.cautions(order),
             "precedence": selectors.PRECEDENCE_STATEMENT,
             "checklist": selectors.checklist(order),
+            "refused": _tick_refused(request, order),
             "can_tick": order.state == State.UNDERWAY and has_role(request.user, TECHNICIAN),
             "isolation_gaps": selectors.isolation_gaps(order),
             "no_isolation_needed": None if needs_isolation(order.hazards) else NO_ISOLATION_NEEDED,
@@ -219,8 +236,9 @@ def work_order_move(request, pk, action):
 def work_order_tick(request, pk):
     """Record one tick, or take it back, on the checklist; the checkbox's state is the one asked for.
 
-    A plain form post is answered with the page again, scrolled to the line; a script's post that asks
-    for JSON gets the line's new note (or the refusal) and the page stays as it is.
+    A plain form post is answered with the page again, scrolled to the line, which says why beside its box when
+    the tick was refused; a script's post that asks for JSON gets the line's new note (or the refusal) and the
+    page stays as it is.
     """
     if request.method != "POST":
         return HttpResponseNotAllowed(["POST"])
@@ -235,14 +253,18 @@ def work_order_tick(request, pk):
             seen_text=request.POST.get("text"),
         )
     except services.Refused as exc:
+        lines = selectors.checklist(order)
+        asked = (request.POST.get("kind"), key)
+        line = next((x for x in lines.steps + lines.points if (x.kind, str(x.key)) == asked), None)
         if wants_json:  # with the line's state as recorded, so the box shows it (someone may have ticked it)
-            lines = selectors.checklist(order)
-            asked = (request.POST.get("kind"), key)
-            line = next((x for x in lines.steps + lines.points if (x.kind, str(x.key)) == asked), None)
             return JsonResponse({"error": f"Not recorded: {exc}.", "ticked": line.ticked if line else None,
                                  "note": line.note if line else ""}, status=409)
         messages.error(request, f"Not recorded: {exc}.")
-        return redirect(order)
+        if line is None:
+            return redirect(order)
+        # Back at the line, which says why beside its box for this one page (the detail view pops it).
+        request.session[TICK_REFUSED] = [order.pk, line.anchor, f"Not recorded: {exc}."]
+        return redirect(f"{order.get_absolute_url()}#{line.anchor}")
     note = selectors.tick_note(tick, tick.text, order.site.zone)
     if wants_json:
         return JsonResponse({"ticked": tick.ticked, "note": note})
@@ -302,15 +324,23 @@ def work_order_finish(request, pk):
             else:
                 done = [_finished(order)]
                 if unticked:
-                    done.append(f"{len(unticked)} unticked line(s) confirmed as done or not applicable are on the "
-                                "record.")
+                    done.append(
+                        "1 unticked line confirmed as done or not applicable is on the record." if len(unticked) == 1
+                        else f"{len(unticked)} unticked lines confirmed as done or not applicable are on the record."
+                    )
                 if lacking:
-                    done.append(f"The {len(lacking)} hazard(s) it lacked, confirmed as controlled, are on the record.")
+                    done.append(
+                        "The hazard it lacked, confirmed as controlled, is on the record." if len(lacking) == 1 else
+                        f"The {len(lacking)} hazards it lacked, confirmed as controlled, are on the record."
+                    )
                 if flags:
-                    done.append(f"{len(flags)} reading(s) beyond their limit are flagged on the record.")
+                    done.append(
+                        "1 reading beyond its limit is flagged on the record." if len(flags) == 1
+                        else f"{len(flags)} readings beyond their limit are flagged on the record."
+                    )
                 phase = selectors.recoat_phase(order)
                 if phase is not None and phase.next_order is not None:
-                    done.append(_next_phase(phase.next_order))
+                    done.append(_next_phase(phase.next_order, phase.mirror_id))
                 if phase is not None and phase.mirror_out is not None:
                     done += phase.mirror_out.notice()[1:]  # the telescope stays locked out until the reinstall
                 messages.success(request, format_html_join(" ", "{}", ((part,) for part in done)))
@@ -338,10 +368,27 @@ def _finished(order: WorkOrder) -> str:
     return f"{order.number} finished: {written}; {restarted}."
 
 
-def _next_phase(order: WorkOrder):
-    """The next phase order of a recoat, linked, with the day it is planned for."""
-    planned = f" (planned {order.planned_date:%d %b %Y})" if order.planned_date else ""
-    return format_html('Next: <a href="{}">{} {}</a>{}.', order.get_absolute_url(), order.number, order.title, planned)
+def _next_phase(order: WorkOrder, mirror_id: int):
+    """The next phase order of a recoat, linked, worded by how it stands: the day it is planned for while it is still
+    to do, and what to do with it; a withdrawn one stops the recoat, which is planned again."""
+    link = format_html('<a href="{}">{} {}</a>', order.get_absolute_url(), order.number, order.title)
+    if order.state == State.WITHDRAWN:
+        return format_html(
+            "Next: {} was withdrawn, so this recoat cannot go on as planned: withdraw its other orders still to do "
+            'and plan the recoat again on the <a href="{}">mirror\'s recoat planner</a>.',
+            link, reverse("mirror-recoat", args=[mirror_id]),
+        )
+    stands = {
+        State.DRAFT: "still a draft: issue it" if order.planned_date else "still a draft: set its planned date (Edit) "
+                     "and issue it",
+        State.ISSUED: "issued: it can be started",
+        State.UNDERWAY: "already underway",
+        State.FINISHED: "already finished",
+        State.COUNTERSIGNED: "already finished and countersigned",
+    }[order.state]
+    if order.planned_date and order.state in (State.DRAFT, State.ISSUED):
+        stands = f"planned {order.planned_date:%d %b %Y}; {stands}"
+    return format_html("Next: {} ({}).", link, stands)
 
 
 @requires(ENGINEER)
@@ -355,7 +402,11 @@ def work_order_lift(request, pk):
         except ValueError as exc:
             form.add_error(None, str(exc))
         else:
-            messages.success(request, "Lifting figures saved; the suspended-load caution is on the work order.")
+            saved = "Lifting figures saved; the suspended-load caution is on the work order."
+            if held := selectors.lift_refusal(order):  # saved all the same: the engineer corrects them next
+                messages.warning(request, f"{saved} They stop it being issued or started: {held}.")
+            else:
+                messages.success(request, saved)
             return redirect(order)
     return render(
         request, "workorders/lift.html",

@@ -70,6 +70,52 @@ def test_with_javascript_locked_out_work_ticked_too_soon_says_why_beside_the_lin
 
 
 @pytest.mark.browser
+def test_with_javascript_a_refusal_is_said_until_anything_is_changed_again(browser_page, live_server, login, underway):
+    """A technician's review: an old "Not recorded" stayed beside a line after its reason was dealt with. A refusal
+    answers one change: the next change of any box puts the note back as recorded."""
+    from observatory_ops.workorders.models import ChecklistTick, IsolationPoint
+
+    page = browser_page
+    point = IsolationPoint.objects.get(telescope=underway.telescope)
+    _open_as_technician(page, live_server, login, underway)
+    page.locator("#step-5 input[type=checkbox]").click()
+    expect(page.locator("#step-5 .tick-note.refused")).to_contain_text("Not recorded: step 5 is done with")
+    page.locator(f"#point-{point.pk} input[type=checkbox]").check()
+    expect(page.locator(f"#point-{point.pk} .tick-note")).to_contain_text("ticked by technician")
+    expect(page.locator("#step-5 .tick-note")).to_have_text("")
+    expect(page.locator("#step-5 .tick-note")).not_to_have_class("tick-note refused")
+    page.locator("#step-4 input[type=checkbox]").check()
+    expect(page.locator("#step-4 .tick-note")).to_contain_text("ticked by technician")
+    page.locator("#step-5 input[type=checkbox]").check()
+    expect(page.locator("#step-5 .tick-note")).to_contain_text("ticked by technician")
+    assert ChecklistTick.objects.filter(work_order=underway, step_index=4, ticked=True).exists()
+
+
+@pytest.mark.browser
+def test_with_javascript_the_lockout_is_not_taken_back_from_under_the_locked_out_work(
+    browser_page, live_server, login, underway, users
+):
+    """The sequence of the lockout kept after the fact (OSHA 29 CFR 1910.147(d)): with the filters (step 5) ticked,
+    the tick on the lockout (step 4) stays, and its box shows it ticked again."""
+    from observatory_ops.workorders import services
+    from observatory_ops.workorders.models import ChecklistTick, IsolationPoint
+
+    point = IsolationPoint.objects.get(telescope=underway.telescope)
+    services.checklist_tick_set(underway, "point", point.pk, True, users["technician"])
+    for index in (3, 4):  # the lockout (step 4) and the filters changed under it (step 5)
+        services.checklist_tick_set(underway, "step", index, True, users["technician"])
+    page = browser_page
+    _open_as_technician(page, live_server, login, underway)
+    page.locator("#step-4 input[type=checkbox]").click()  # not uncheck(): the script ticks it again
+    expect(page.locator("#step-4 .tick-note.refused")).to_contain_text(
+        "Not recorded: the tick on step 4 stays: take back step 5 first: it was done with the energy isolated. "
+        "(ticked by technician, "
+    )
+    expect(page.locator("#step-4 input[type=checkbox]")).to_be_checked()
+    assert ChecklistTick.objects.filter(work_order=underway).count() == 3
+
+
+@pytest.mark.browser
 def test_without_javascript_every_line_has_a_visible_record_button_that_records(
     browser_page, live_server, login, underway
 ):

@@ -117,7 +117,7 @@ def test_two_overdue_items_go_from_the_due_list_through_a_work_order_to_counters
         page.locator(f"table.due-table input[name=plans][value='{pk}']").check()
     _shot(page, "1_due_list_ticked")
     page.get_by_role("button", name="Make a work order from the ticked items").click()
-    expect(page.locator(".messages")).to_contain_text("drafted from 2 due item(s)")
+    expect(page.locator(".messages")).to_contain_text("drafted from 2 due items, planned for today")
     order = WorkOrder.objects.latest("pk")  # the demo has open work orders of its own
     assert sorted(order.items.values_list("plan_id", flat=True)) == sorted(plans)
     order_url = live_server.url + order.get_absolute_url()
@@ -138,16 +138,11 @@ def test_two_overdue_items_go_from_the_due_list_through_a_work_order_to_counters
     )
     _shot(page, "2_draft")
 
-    # Drafted from the due list without a planned date, it is issued only once it has one (the calendar export
-    # and the weekly batch go by it): the page says so instead of offering the button.
+    # The due list asks no date: the order is planned for the site's today, so it is issued straight away.
     from observatory_ops.planning.services import site_today
 
-    expect(page.get_by_role("button", name="Issue to the technicians")).to_have_count(0)
-    expect(page.locator(".moves-held")).to_contain_text("set the planned date (Edit) before issuing")
-    page.get_by_role("link", name="Edit", exact=True).click()
-    page.get_by_label("Planned date").fill(site_today(order.site).isoformat())
-    page.get_by_role("button", name="Save").click()
-    expect(page.locator(".messages")).to_contain_text("Saved.")
+    assert order.planned_date == site_today(order.site)
+    expect(page.locator(".moves-held")).to_have_count(0)
     page.get_by_role("button", name="Issue to the technicians").click()
     expect(page.locator(".messages")).to_contain_text("issue to the technicians: done")
     _expect_state(page, State.ISSUED.label)
@@ -186,7 +181,8 @@ def test_two_overdue_items_go_from_the_due_list_through_a_work_order_to_counters
     )
     expect(page.locator(".messages")).to_contain_text("2 service plans restarted, counting from that day")
     _expect_state(page, State.FINISHED.label)
-    expect(page.get_by_text(f"Finished with {len(open_lines)} checklist line(s) not ticked")).to_be_visible()
+    expect(page.get_by_text(f"Finished with {len(open_lines)} checklist line{'' if len(open_lines) == 1 else 's'} "
+                            "not ticked")).to_be_visible()
     findings = page.locator("div.panel", has_text=HOSTILE_FINDINGS)
     expect(findings).to_have_count(1)
     expect(findings.locator("b, i")).to_have_count(0)

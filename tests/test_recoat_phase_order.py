@@ -1,0 +1,241 @@
+"""The phase orders of a recoat are done in their order: removal, strip and coat, reinstall, realignment. Each
+starts only once the one before it in its recoat plan is finished (or countersigned); until then its page offers
+no Start and says which order holds it and how that order stands, and the service refuses it in the same words.
+
+Each phase's steps take the one before as done: the realignment parks the telescope, takes the locks off and
+checks the collimation under power, which only a reinstalled mirror with the balance restored allows; the locks
+stay on until the work is complete (OSHA 29 CFR 1910.147(e)). The order of the phases itself is common practice,
+no published source.
+"""
+from __future__ import annotations
+
+import datetime as dt
+import html
+import io
+import re
+
+import pytest
+from django.contrib.messages import get_messages
+from pypdf import PdfReader
+
+from observatory_ops.calc.windows import RECOAT_PHASES
+from observatory_ops.mirrors import services as mirror_services
+from observatory_ops.mirrors.models import CoatingEvent, Mirror
+from observatory_ops.planning.services import site_today
+from observatory_ops.registry.models import Subsystem
+from observatory_ops.workorders import selectors, services
+from observatory_ops.workorders.models import State, WorkOrder
+
+OUT = "T1 is out of service: its primary mirror is out"
+PHASES = ("removal", "coating", "reinstall", "realignment")
+
+
+@pytest.fixture
+def mirror(telescope):
+    primary = Subsystem.objects.create(telescope=telescope, kind="primary_mirror", name="Primary mirror")
+    mirror = Mirror.objects.create(subsystem=primary, diameter_mm=500, thickness_mm=50, hole_mm=120,
+                                   material="borosilicate", cell_mass_kg=30)
+    CoatingEvent.objects.create(mirror=mirror, coated_on=dt.date(2025, 8, 1), metal="al")
+    return mirror
+
+
+@pytest.fixture
+def recoat(mirror, users):
+    """The four phase orders of a recoat planned from a week ahead, by phase, all drafts."""
+    start = site_today(mirror.subsystem.telescope.site) + dt.timedelta(days=7)
+    plan = mirror_services.recoat_plan_create(mirror, start, list(RECOAT_PHASES), 3.5, users["engineer"])
+    return {order.recoat_phase: order for order in plan.work_orders.all()}
+
+
+def _fresh(order) -> WorkOrder:
+    return WorkOrder.objects.select_related("site", "telescope").get(pk=order.pk)
+
+
+def _issued(order, users) -> WorkOrder:
+    services.work_order_move(_fresh(order), "issue", users["engineer"])
+    return _fresh(order)
+
+
+def _finished(order, users) -> WorkOrder:
+    order = _fresh(order)
+    if order.state == State.DRAFT:
+        order = _issued(order, users)
+    services.work_order_move(order, "start", users["technician"])
+    order = _fresh(order)
+    services.work_order_finish(
+        order, users["technician"], 8.0, "done", {r.pk: 0.9 for r in order.required_readings.all()},
+        confirmed_unticked=[line.text for line in selectors.unticked_lines(order)],
+    )
+    return _fresh(order)
+
+
+def _text(response) -> str:
+    assert response.status_code == 200
+    return " ".join(html.unescape(re.sub(r"<[^>]+>", " ", response.content.decode())).split())
+
+
+def _message(response) -> str:
+    return " ".join(str(m) for m in get_messages(response.wsgi_request))
+
+
+def _held(before: WorkOrder, stands: str, this: str) -> str:
+    return (
+        "a recoat's phases are done in their order (removal, strip and coat, reinstall, realignment and measurement): "
+        f"this {this} starts only once {before.number} ({before.title}) is finished, and it is {stands}"
+    )
+
+
+@pytest.mark.parametrize("stands", ["draft", "issued", "underway"])
+def test_the_reinstall_does_not_start_while_the_strip_and_coat_is_not_finished(recoat, users, client, stands):
+    """The review's case: the reinstall was started and finished while the strip-and-coat order was a draft."""
+    _finished(recoat["removal"], users)
+    coating = recoat["coating"]
+    if stands != "draft":
+        coating = _issued(coating, users)
+    if stands == "underway":
+        services.work_order_move(coating, "start", users["technician"])
+    words = {"draft": "still a draft", "issued": "issued but not started", "underway": "underway, not finished"}
+    expected = _held(coating, words[stands], "reinstall")
+    reinstall = _issued(recoat["reinstall"], users)
+    with pytest.raises(services.Refused) as refused:
+        services.work_order_move(reinstall, "start", users["technician"])
+    assert str(refused.value) == expected
+    assert _fresh(reinstall).state == State.ISSUED and _fresh(reinstall).started_at is None
+    # The telescope still stands without its mirror: nothing cleared the notice.
+    assert list(selectors.telescopes_out([reinstall.site])) == [reinstall.telescope_id]
+
+    client.force_login(users["technician"])
+    page = client.get(reinstall.get_absolute_url()).content.decode()
+    assert 'value="start"' not in page  # no button the service would refuse
+    assert f"Not offered (Start work): {expected}." in _text(client.get(reinstall.get_absolute_url()))
+    # A post from an old page is refused in the same words.
+    response = client.post(f"/workorders/{reinstall.pk}/move/start/", follow=True)
+    assert f"Not done: {expected}." in _text(response)
+    assert _fresh(reinstall).state == State.ISSUED
+
+
+def test_the_realignment_does_not_start_while_the_mirror_is_out(recoat, users, client):
+    """The review's case: the realignment (park, locks off, collimation under power) was started with the mirror
+    out and the tube out of balance."""
+    _finished(recoat["removal"], users)
+    _finished(recoat["coating"], users)
+    reinstall = _issued(recoat["reinstall"], users)
+    realignment = _issued(recoat["realignment"], users)
+    expected = _held(reinstall, "issued but not started", "realignment and measurement")
+    with pytest.raises(services.Refused, match=re.escape(expected)):
+        services.work_order_move(realignment, "start", users["technician"])
+    assert _fresh(realignment).state == State.ISSUED
+
+
+def test_the_phases_done_in_their_order_each_start_once_the_one_before_is_finished(recoat, users):
+    removal = _issued(recoat["removal"], users)
+    assert "start" not in selectors.moves_held(removal)  # the first phase waits for nothing
+    for before, phase in zip(PHASES, PHASES[1:], strict=False):
+        order = _issued(recoat[phase], users)
+        assert "start" in selectors.moves_held(order), phase
+        _finished(recoat[before], users)
+        assert "start" not in selectors.moves_held(_fresh(order)), phase
+    _finished(recoat["realignment"], users)
+    assert {_fresh(o).state for o in recoat.values()} == {State.FINISHED}
+
+
+def test_a_countersigned_phase_lets_the_next_one_start(recoat, users):
+    removal = _finished(recoat["removal"], users)
+    services.work_order_move(removal, "countersign", users["engineer"])  # a second person
+    assert _fresh(removal).state == State.COUNTERSIGNED
+    coating = _issued(recoat["coating"], users)
+    services.work_order_move(coating, "start", users["technician"])
+    assert _fresh(coating).state == State.UNDERWAY
+
+
+def test_after_a_withdrawn_phase_the_recoat_is_planned_again(recoat, users):
+    removal = _finished(recoat["removal"], users)
+    coating = _fresh(recoat["coating"])
+    services.work_order_move(coating, "withdraw", users["engineer"], reason="coating plant closed")
+    reinstall = _issued(recoat["reinstall"], users)
+    with pytest.raises(services.Refused) as refused:
+        services.work_order_move(reinstall, "start", users["technician"])
+    assert str(refused.value) == (
+        f"the strip and coat before this reinstall ({coating.number}, {coating.title}) was withdrawn, so this recoat "
+        "cannot go on as planned: withdraw its other orders still to do and plan the recoat again on the mirror's "
+        "recoat planner"
+    )
+    assert removal.state == State.FINISHED
+
+
+def test_issuing_ahead_is_allowed_only_starting_waits(recoat, users):
+    """The paper may be printed and handed out ahead of the work; only the start waits for the phase before."""
+    for phase in PHASES:
+        assert _issued(recoat[phase], users).state == State.ISSUED
+
+
+# --- the out-of-service notice on the realignment ---------------------------------------------------------------
+
+
+def test_the_realignment_carries_the_out_of_service_notice_while_the_mirror_is_out(recoat, users, client):
+    """Removal, coating and reinstall are written for a telescope without its mirror; the realignment is not."""
+    _finished(recoat["removal"], users)
+    realignment = _fresh(recoat["realignment"])
+    notices = selectors.telescope_out_notices(realignment)
+    assert [title for title, _, _ in notices] == [OUT]
+    for phase in ("coating", "reinstall"):
+        assert selectors.telescope_out_notices(_fresh(recoat[phase])) == [], phase
+    client.force_login(users["technician"])
+    assert OUT in _text(client.get(realignment.get_absolute_url()))
+    document = client.get(f"/workorders/{realignment.pk}/pdf/").content
+    printed = " ".join(" ".join(p.extract_text() for p in PdfReader(io.BytesIO(document)).pages).split())
+    assert OUT in printed
+
+
+def test_once_the_reinstall_is_finished_the_realignment_carries_no_notice(recoat, users):
+    for phase in ("removal", "coating", "reinstall"):
+        _finished(recoat[phase], users)
+    assert selectors.telescope_out_notices(_fresh(recoat["realignment"])) == []
+
+
+# --- the finish message words the next phase order by how it stands ---------------------------------------------
+
+
+def _finish_by_form(client, order, users):
+    order = _fresh(order)
+    if order.state == State.DRAFT:
+        order = _issued(order, users)
+    services.work_order_move(order, "start", users["technician"])
+    order = _fresh(order)
+    client.force_login(users["technician"])
+    data = {
+        "actual_hours": "8", "findings": "done", "work_done_on": site_today(order.site).isoformat(),
+        "confirm_unticked": "on", "unticked": [line.text for line in selectors.unticked_lines(order)],
+        **{f"reading_{r.pk}": "0.9" for r in order.required_readings.all()},
+    }
+    response = client.post(f"/workorders/{order.pk}/finish/", data)
+    assert response.status_code == 302, _text(response)[-1500:]
+    return response
+
+
+def _link(order) -> str:
+    return f'<a href="/workorders/{order.pk}/">{order.number} {order.title}</a>'
+
+
+def test_the_next_phase_still_a_draft_is_to_be_issued(recoat, users, client):
+    coating = recoat["coating"]
+    message = _message(_finish_by_form(client, recoat["removal"], users))
+    assert f"Next: {_link(coating)} (planned {coating.planned_date:%d %b %Y}; still a draft: issue it)." in message
+
+
+def test_the_next_phase_issued_can_be_started(recoat, users, client):
+    coating = _issued(recoat["coating"], users)
+    message = _message(_finish_by_form(client, recoat["removal"], users))
+    assert f"Next: {_link(coating)} (planned {coating.planned_date:%d %b %Y}; issued: it can be started)." in message
+
+
+def test_a_withdrawn_next_phase_says_the_recoat_is_planned_again(recoat, users, client, mirror):
+    coating = _fresh(recoat["coating"])
+    services.work_order_move(coating, "withdraw", users["engineer"], reason="coating plant closed")
+    message = _message(_finish_by_form(client, recoat["removal"], users))
+    assert (
+        f"Next: {_link(coating)} was withdrawn, so this recoat cannot go on as planned: withdraw its other orders "
+        f"still to do and plan the recoat again on the <a href=\"/mirrors/{mirror.pk}/recoat/\">mirror's recoat "
+        "planner</a>."
+    ) in message
+    assert recoat["reinstall"].number not in message.split("Next:")[1].split("was withdrawn")[0]
