@@ -321,17 +321,24 @@ def test_the_planner_shows_the_phase_dates_with_weekdays_and_the_crew_days_used(
 
 
 def test_a_window_over_a_weekend_is_listed_with_its_extra_nights(mirror, users, client) -> None:
-    # By hand: a five-day removal alone (the other phases set to 0 days) over the seven nights from Friday
-    # 31 July 2026. Begun on Friday it takes Fri 31 and Mon 3-Thu 6 August: seven nights down for five days of
-    # work. Saturday and Sunday cannot begin it, and from Monday it would end on Friday 7, beyond the horizon.
+    # By hand: the shortest recoat the planner takes (a two-day removal, the plant next door so no transport or
+    # return, and one day for each other hands-on phase: 5 days of work) over the seven nights from Friday
+    # 31 July 2026. Begun on Friday: removal Fri 31 and (after the weekend) Mon 3 August, strip and coat Tue 4,
+    # reinstall Wed 5, realignment Thu 6: seven nights down for five days of work. Saturday and Sunday cannot begin
+    # it, and from Monday it would end on Friday 7, beyond the horizon.
     client.force_login(users["viewer"])
-    phases = {f"phase_{i}": "0" for i in range(1, len(RECOAT_PHASES))}
+    phases = {"phase_0": "2", "phase_1": "0", "phase_2": "1", "phase_3": "0", "phase_4": "1", "phase_5": "1"}
+    assert len(phases) == len(RECOAT_PHASES)
     page = client.get(f"/mirrors/{mirror.pk}/recoat/",
-                      {"start": "2026-07-31", "horizon_days": "7", "phase_0": "5", **phases}).content.decode()
+                      {"start": "2026-07-31", "horizon_days": "7", **phases}).content.decode()
     text = _text(page)
     assert "Cheapest windows for 5 days of work" in text
     assert "Fri 31 Jul 2026 Thu 06 Aug 2026 7" in text  # from, to, nights lost
-    assert "removal Fri 31 Jul 2026 Thu 06 Aug 2026 5 at the telescope" in text
+    for row in ("removal Fri 31 Jul 2026 Mon 03 Aug 2026 2 at the telescope",
+                "strip and coat Tue 04 Aug 2026 Tue 04 Aug 2026 1 away",
+                "reinstall Wed 05 Aug 2026 Wed 05 Aug 2026 1 at the telescope",
+                "realignment and measurement Thu 06 Aug 2026 Thu 06 Aug 2026 1 at the telescope"):
+        assert row in text
 
 
 def test_the_orders_of_a_plan_made_on_the_planner_fall_on_the_crews_working_days(mirror, users, client) -> None:

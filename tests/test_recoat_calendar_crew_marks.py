@@ -111,3 +111,16 @@ def test_a_day_off_outside_the_horizon_adds_no_legend_line(mirror, users, client
     assert not any("crew-off" in cell["label"] for cell in _cells(page).values())
     legend = _legend(page)
     assert "✕" not in legend and LEGEND_REST in legend
+
+
+def test_the_first_of_a_month_shows_its_day_and_month_beside_the_crew_mark(mirror, users, client) -> None:
+    """1 January 2027 (a Friday) made a crew day off: its label reads "1 Jan ✕", the day number kept (it used to be
+    replaced by the month, "Jan ✕"); the days around it show their number alone."""
+    from observatory_ops.registry.models import CrewDayOff
+
+    CrewDayOff.objects.create(site=mirror.subsystem.telescope.site, date=dt.date(2027, 1, 1), note="new year")
+    client.force_login(users["viewer"])
+    cells = _cells(_planner(client, mirror))
+    assert cells[dt.date(2027, 1, 1)]["label"] == '1 Jan <span class="crew-off">✕</span>'
+    assert cells[dt.date(2026, 12, 31)]["label"] == "31"
+    assert cells[dt.date(2027, 1, 2)]["label"] == '2 <span class="crew-rest">◇</span>'  # a Saturday

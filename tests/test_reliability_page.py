@@ -8,6 +8,7 @@ from django.contrib.auth.models import User
 from django.urls import reverse
 from django.utils import timezone
 from lifelines import WeibullFitter
+from scipy import stats
 
 from observatory_ops.calc import reliability
 from observatory_ops.logbook.models import NightUsage, ServiceRecord
@@ -219,3 +220,73 @@ def test_the_page_says_where_each_kinds_hours_were_counted_from(record, client):
     assert "counted from the plans&#x27; earliest counting-from date</summary>" in page  # the encoder
     assert "its &quot;in service since&quot; date where one is given" not in page  # written as text, not escaped
     assert 'its "in service since" date where one is given' in page
+
+
+def test_failures_before_a_subsystems_in_service_date_are_the_replaced_units_and_left_out(record):
+    """Fan A was replaced: the unit in service since 1 Mar 2026 is a new one, so the failures on the nights of 21 Jan
+    and 20 Feb were the old unit's. Fan B has been in service since 25 Feb 2026, and its failure on the night of 1 Mar
+    (on its fifth night) is its own. By hand (5 open hours a night; the log runs 1 Jan to 10 Apr 2026):
+    fan A 1 Mar-10 Apr, 41 nights, 205 h, no failure, running 205 h; fan B 25 Feb-10 Apr, 45 nights, 225 h, its
+    failure after the nights of 25 Feb-1 Mar (25 h), running 200 h; fan C as before, 155 h. T = 585 h, n = 1."""
+    Subsystem.objects.filter(name="Fan A").update(in_service_since=dt.date(2026, 3, 1))
+    Subsystem.objects.filter(name="Fan B").update(in_service_since=dt.date(2026, 2, 25))
+    fans = next(k for k in site_reliability(record, TODAY).kinds if k.code == "cooling_fans")
+    assert (fans.failures, fans.operating_hours) == (1, pytest.approx(585.0))
+    assert fans.between == [25.0] and sorted(fans.running) == [155.0, 200.0, 205.0]
+    assert fans.zero_intervals == 0
+    assert [(f.subsystem, f.night) for f in fans.left_out] == [
+        ("T1: Fan A", dt.date(2026, 1, 21)), ("T1: Fan A", dt.date(2026, 2, 20)),
+    ]
+    # MTBF = T / n = 585 h; 90 % interval 2T / chi2(0.95; 4) to 2T / chi2(0.05; 2), quantiles from scipy.stats.chi2
+    # (NIST/SEMATECH e-Handbook, chapter 8, time-terminated exponential bounds).
+    assert fans.mtbf.mtbf_hours == pytest.approx(585.0)
+    assert fans.mtbf.lower_hours == pytest.approx(2 * 585.0 / stats.chi2.ppf(0.95, 4))
+    assert fans.mtbf.upper_hours == pytest.approx(2 * 585.0 / stats.chi2.ppf(0.05, 2))
+    assert fans.fit is None and fans.no_fit == "too few failures for a fit: 1"
+    assert fans.fit_inputs == (
+        "between failures: 25 h; still running (censored): 155, 200, 205 h; "
+        "left out, before the in-service date: T1: Fan A on the nights of 21 Jan 2026, 20 Feb 2026"
+    )
+
+
+def test_the_replaced_units_failures_leave_a_fit_of_the_rest(record, telescope, users):
+    """Fan A's failures before its in-service date (1 Mar 2026) are left out; three later failures of fan B (nights
+    of 10, 20 and 30 Mar: 345, 395 and 445 h into the log) remain, enough for a fit. By hand: fan A 205 h running;
+    fan B failures at 300 h (1 Mar), 345, 395, 445 h: between 300, 45, 50, 50 h, running 55 h; fan C 155 h.
+    T = 205 + 500 + 155 = 860 h, n = 4: MTBF 215 h."""
+    for night in (dt.date(2026, 3, 10), dt.date(2026, 3, 20), dt.date(2026, 3, 30)):
+        _order(record, [Subsystem.objects.get(name="Fan B")], users["engineer"], night)
+    Subsystem.objects.filter(name="Fan A").update(in_service_since=dt.date(2026, 3, 1))
+    fans = next(k for k in site_reliability(record, TODAY).kinds if k.code == "cooling_fans")
+    assert (fans.failures, fans.operating_hours) == (4, pytest.approx(860.0))
+    assert fans.mtbf.mtbf_hours == pytest.approx(215.0)
+    assert fans.mtbf.lower_hours == pytest.approx(2 * 860.0 / stats.chi2.ppf(0.95, 10))
+    assert fans.mtbf.upper_hours == pytest.approx(2 * 860.0 / stats.chi2.ppf(0.05, 8))
+    assert fans.fit_inputs == (
+        "between failures: 45, 50, 50, 300 h; still running (censored): 55, 155, 205 h; "
+        "left out, before the in-service date: T1: Fan A on the nights of 21 Jan 2026, 20 Feb 2026"
+    )
+    # The fit is of the failures kept (lifelines.WeibullFitter on the same censored data, independent reference).
+    reference = WeibullFitter().fit([45, 50, 50, 300, 55, 155, 205], event_observed=[1, 1, 1, 1, 0, 0, 0])
+    assert fans.fit.beta == pytest.approx(reference.rho_, rel=1e-5)
+    assert fans.fit.eta_hours == pytest.approx(reference.lambda_, rel=1e-5)
+
+
+def test_the_page_says_how_many_failures_before_the_in_service_date_were_left_out(record, client):
+    Subsystem.objects.filter(name="Fan A").update(in_service_since=dt.date(2026, 3, 1))
+    client.force_login(User.objects.get(username="viewer"))
+    page = client.get(reverse("site-reliability", args=[record.slug])).content.decode()
+    assert "2 failures before the in-service date left out</summary>" in page
+    assert ("Left out, before the in-service date: T1: Fan A on the nights of 21 Jan 2026, 20 Feb 2026 "
+            "(each a failure of the unit its subsystem replaced).") in page
+    assert "came with no dome-open hours since the one before" not in page
+
+
+def test_a_failure_on_the_night_of_the_in_service_date_is_the_subsystems_own(record):
+    """Only nights before the in-service date are left out. Fan B in service since 1 Mar 2026, the night its repair
+    finished: that failure is its own, after that one night's 5 open hours; it has run 200 h since."""
+    Subsystem.objects.filter(name="Fan B").update(in_service_since=dt.date(2026, 3, 1))
+    fans = next(k for k in site_reliability(record, TODAY).kinds if k.code == "cooling_fans")
+    assert fans.left_out == [] and fans.failures == 3
+    assert sorted(fans.between) == [5.0, 105.0, 150.0] and sorted(fans.running) == [155.0, 200.0, 245.0]
+    assert "left out" not in fans.fit_inputs

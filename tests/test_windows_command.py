@@ -54,7 +54,8 @@ def _run(*args: str) -> str:
 
 
 def _at_site(*more: str) -> str:
-    return _run("test-hill", "--days", "3", "--start", START.isoformat(), "--horizon-days", str(HORIZON), *more)
+    return _run("--site", "test-hill", "--days", "3", "--start", START.isoformat(), "--horizon-days", str(HORIZON),
+                *more)
 
 
 def test_at_a_site_the_windows_follow_the_crew_and_list_its_days_off(site) -> None:
@@ -138,7 +139,7 @@ def test_at_a_bare_position_every_day_is_a_working_day_as_before(db) -> None:
 )
 def test_bad_options_are_refused_naming_the_option(site, args: list[str], message: str) -> None:
     with pytest.raises(CommandError, match=message):
-        _run("test-hill", "--start", START.isoformat(), *args)
+        _run("--site", "test-hill", "--start", START.isoformat(), *args)
 
 
 def test_a_horizon_the_crews_days_off_make_too_short_is_refused_saying_so(site) -> None:
@@ -147,7 +148,7 @@ def test_a_horizon_the_crews_days_off_make_too_short_is_refused_saying_so(site) 
     # end later still. Five days of work would fit seven nights were it not for the crew's days.
     with pytest.raises(CommandError, match="^no window for 5 days of work at the telescope: .* runs longer than the "
                                            "horizon of 7 days allows: lengthen the horizon$"):
-        _run("test-hill", "--days", "5", "--start", "2026-12-19", "--horizon-days", "7")
+        _run("--site", "test-hill", "--days", "5", "--start", "2026-12-19", "--horizon-days", "7")
 
 
 def test_a_bare_position_off_the_earth_is_refused_naming_the_latitude(db) -> None:

@@ -55,9 +55,15 @@ class WindowForm(forms.Form):
 
     def __init__(self, *args, **kwargs):
         super().__init__(*args, **kwargs)
+        carried = " and ".join(p.name for p in RECOAT_PHASES if not p.work)
         for i, phase in enumerate(RECOAT_PHASES):
+            # A phase of hands-on work cannot be skipped: without a day it gets no work order, so the plan would,
+            # say, reinstall a mirror never removed. Only carrying the mirror may take no day (a plant next door).
+            least = 1 if phase.work else 0
             self.fields[f"phase_{i}"] = forms.IntegerField(
-                label=f"{phase.name} (days)", min_value=0, max_value=90, initial=phase.days, required=False
+                label=f"{phase.name} (days)", min_value=least, max_value=90, initial=phase.days, required=False,
+                error_messages={"min_value": f"{phase.name.capitalize()} is hands-on work and takes at least 1 day "
+                                             f"(only {carried} may take 0 days)."} if least else None,
             )
 
     def phases(self) -> list[Phase]:

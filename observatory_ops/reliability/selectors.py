@@ -2,10 +2,11 @@
 what maintenance cost in hours.
 
 A failure is a corrective work order that was finished (or countersigned): one failure for each subsystem it
-names. Operating hours are the site's dome-open hours from the nightly log, counted for each subsystem over
-the nights it was in service (from its "in service since" date where one is given, see ``START_BASES``).
-Maintenance hours are those of the service records. A fixed handful of queries for a site, whatever its size
-(tests/test_reliability_page.py counts them).
+names, except one placed on a night before the subsystem's "in service since" date, which was a failure of the unit
+it replaced and is left out (``LeftOut``). Operating hours are the site's dome-open hours from the nightly log,
+counted for each subsystem over the nights it was in service (from its "in service since" date where one is given,
+see ``START_BASES``). Maintenance hours are those of the service records. A fixed handful of queries for a site,
+whatever its size (tests/test_reliability_page.py counts them).
 """
 from __future__ import annotations
 
@@ -51,6 +52,15 @@ class Start:
     basis: str  # one of START_BASES
 
 
+@dataclass(frozen=True)
+class LeftOut:
+    """A failure placed on a night before its subsystem's in-service date: the unit the subsystem replaced failed,
+    so it is not counted among the subsystem's failures."""
+
+    subsystem: str
+    night: dt.date
+
+
 @dataclass
 class KindReliability:
     code: str
@@ -67,13 +77,29 @@ class KindReliability:
     no_fit: str = ""
     zero_intervals: int = 0
     starts: list[Start] = field(default_factory=list)
+    left_out: list[LeftOut] = field(default_factory=list)
 
     @property
     def fit_inputs(self) -> str:
-        """The hours the Weibull fit was made from, as the page lists them so that anyone can fit them again."""
+        """The hours the Weibull fit was made from, as the page lists them so that anyone can fit them again, and
+        the failures left out of it as another unit's."""
         between = ", ".join(f"{t:,.0f}" for t in sorted(t for t in self.between if t > 0))
         running = ", ".join(f"{t:,.0f}" for t in sorted(self.running))
-        return f"between failures: {between or 'none'} h; still running (censored): {running or 'none'} h"
+        text = f"between failures: {between or 'none'} h; still running (censored): {running or 'none'} h"
+        return f"{text}; {self.left_out_text}" if self.left_out else text
+
+    @property
+    def left_out_text(self) -> str:
+        """The failures left out as the replaced unit's, e.g. "left out, before the in-service date: T1: Fan A on
+        the nights of 21 Jan 2026, 20 Feb 2026"."""
+        nights: dict[str, list[dt.date]] = defaultdict(list)
+        for failure in self.left_out:
+            nights[failure.subsystem].append(failure.night)
+        listed = "; ".join(
+            f"{name} on the night{'s' if len(days) > 1 else ''} of {', '.join(f'{d:%d %b %Y}' for d in sorted(days))}"
+            for name, days in nights.items()
+        )
+        return f"left out, before the in-service date: {listed}"
 
     @property
     def start_bases(self) -> str:
@@ -164,10 +190,16 @@ def site_reliability(site: Site, today: dt.date | None = None) -> SiteReliabilit
         row.in_service += retired_on is None
         row.starts.append(starts[pk])
         end = min(retired_on, today + dt.timedelta(days=1)) if retired_on else today + dt.timedelta(days=1)
-        base = hours_before(starts[pk].day)
+        start = starts[pk]
+        base = hours_before(start.day)
         total = max(hours_before(end) - base, 0.0)
+        failed = sorted(failed_at.get(pk, []))
+        if start.basis == IN_SERVICE_SINCE:
+            # Its life starts on that date: a failure before it was the earlier unit's, one since replaced.
+            row.left_out += [LeftOut(start.subsystem, n) for n in failed if n < start.day]
+            failed = [n for n in failed if n >= start.day]
         # A failure belongs to the nights up to and including the night its repair finished in.
-        at = [min(max(hours_before(n + dt.timedelta(days=1)) - base, 0.0), total) for n in failed_at.get(pk, [])]
+        at = [min(max(hours_before(n + dt.timedelta(days=1)) - base, 0.0), total) for n in failed]
         between, running = reliability.times_between_failures(at, total)
         row.operating_hours += total
         row.failures += len(at)

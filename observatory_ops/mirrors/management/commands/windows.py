@@ -18,15 +18,15 @@ class Command(BaseCommand):
     )
 
     def add_arguments(self, parser):
-        place.add_arguments(parser, "first possible day, YYYY-MM-DD")
+        place.add_arguments(parser, "first possible day")
         parser.add_argument("--days", type=int, required=True,
                             help="days of work at the telescope (crew working days at a registered site)")
-        parser.add_argument("--horizon-days", type=int, default=365, help="how many nights from --start to search")
+        parser.add_argument("--horizon-days", type=int, default=365,
+                            help="how many nights from --start to search (default 365)")
         parser.add_argument("--alternatives", type=int, default=3, help="further windows after the cheapest")
         parser.add_argument("--json", action="store_true", dest="as_json")
 
     def handle(self, *args, **o):
-        start = place.start_of(o)
         days, horizon = o["days"], o["horizon_days"]
         # Named by their options here: calc.windows words them as phases and a horizon.
         if days < 1:
@@ -40,6 +40,7 @@ class Command(BaseCommand):
             position = place.position_of(o) if site is None else None
         except ValueError as exc:
             raise CommandError(str(exc)) from None
+        start = place.start_of(o, site)
         work = [windows.Phase("work at the telescope", days, windows.TELESCOPE_WORK)]
         try:
             if site is not None:

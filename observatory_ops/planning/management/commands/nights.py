@@ -15,14 +15,14 @@ class Command(BaseCommand):
     )
 
     def add_arguments(self, parser):
-        place.add_arguments(parser, "local date of the first evening, YYYY-MM-DD")
+        place.add_arguments(parser, "local date of the first evening")
         parser.add_argument("--days", type=int, required=True)
         parser.add_argument("--json", action="store_true", help="print a JSON list, one object per night")
 
     def handle(self, *args, **o):
-        start = place.start_of(o)
+        site = place.site_of(o)
+        start = place.start_of(o, site)
         try:
-            site = place.site_of(o)
             if site is not None:
                 nights.Site(site.latitude_deg, site.longitude_deg, site.elevation_m, site.time_zone)
                 if not 1 <= o["days"] <= nights.MAX_NIGHTS:
