@@ -235,7 +235,7 @@ def test_nights_command_json_for_a_position_and_for_a_site(site, capsys):
     call_command("nights", "--lat", "40", "--lon", "-3", "--tz", "Europe/Madrid", "--start", "2026-03-20",
                  "--days", "2", "--json")
     by_position = json.loads(capsys.readouterr().out)
-    call_command("nights", "test-hill", "--start", "2026-03-20", "--days", "2", "--json")
+    call_command("nights", "--site", "test-hill", "--start", "2026-03-20", "--days", "2", "--json")
     by_site = json.loads(capsys.readouterr().out)
     keys = {"date", "sunset", "sunrise", "dusk", "dawn", "dark_hours", "moon_illumination", "moonless_dark_hours"}
     assert [set(r) for r in by_position] == [keys, keys]
@@ -249,7 +249,7 @@ def test_nights_command_json_for_a_position_and_for_a_site(site, capsys):
         (["--lat", "91", "--lon", "0", "--tz", "UTC"], "latitude"),
         (["--lat", "10", "--lon", "0"], "--tz"),
         (["--lat", "10", "--lon", "0", "--tz", "Mars/Olympus"], "zone"),
-        (["nowhere"], "no site"),
+        (["--site", "nowhere"], "no site"),
     ],
 )
 def test_nights_command_bad_input_is_a_clear_message(db, args, message):

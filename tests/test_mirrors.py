@@ -117,7 +117,7 @@ def test_booked_run_nights_are_never_in_a_window(site):
 
 def test_a_window_longer_than_the_horizon_is_a_clear_error(site):
     with pytest.raises(CommandError, match="longer than the horizon"):
-        call_command("windows", "test-hill", "--days", "40", "--start", "2027-01-01", "--horizon-days", "30")
+        call_command("windows", "--site", "test-hill", "--days", "40", "--start", "2027-01-01", "--horizon-days", "30")
 
 
 def test_recoat_plan_makes_work_orders_with_cautions_and_lifting(mirror, users):
@@ -269,7 +269,7 @@ def test_recoat_orders_name_the_recoat_line_and_the_forecast_they_answer(mirror,
     early, late = state.crossing_earliest, state.crossing_latest
     start = f"{early:%d %b}" if early.year == late.year else f"{early:%d %b %Y}"
     expected = (
-        f"Reflectance forecast to reach the recoat line 0.828 on {state.crossing:%d %b %Y} "
+        f"Reflectance forecast to reach the recoat line 0.8280 on {state.crossing:%d %b %Y} "
         f"(between {start} and {late:%d %b %Y}); recoat window 01 Aug 2026 to 12 Aug 2026"
     )
     for order in plan.work_orders.all():  # the printed "Why" line, named by the subsystem (no recoat plan here)
@@ -280,12 +280,12 @@ def test_recoat_reason_when_already_below_the_line_or_not_yet_fitted(mirror):
     state = services.mirror_forecast(mirror, TODAY)
     state.current = 0.82  # below the 0.828 line
     assert services.recoat_reason(state, dt.date(2026, 8, 1), dt.date(2026, 8, 12)).startswith(
-        "Reflectance estimated at 0.820, already at or below the recoat line 0.828;"
+        "Reflectance estimated at 0.8200, already at or below the recoat line 0.8280;"
     )
     bare = services.MirrorForecast(mirror, TODAY, "Al", 0.9, "", 0.0, fit_note="no fit yet: 1 reading",
                                    threshold=0.828)
     assert services.recoat_reason(bare, dt.date(2026, 8, 1), dt.date(2026, 8, 12)) == (
-        "Recoat line 0.828, no crossing forecast (no fit yet: 1 reading); recoat window 01 Aug 2026 to 12 Aug 2026"
+        "Recoat line 0.8280, no crossing forecast (no fit yet: 1 reading); recoat window 01 Aug 2026 to 12 Aug 2026"
     )
 
 

@@ -1104,3 +1104,19 @@ def test_the_import_page_says_each_result_once(technician_client, night_of_759):
 def test_a_file_of_blank_lines_says_what_a_nights_file_holds(site, csv_file):
     with pytest.raises(CommandError, match="it is empty; it must hold a header line naming the columns"):
         run_import(str(csv_file(b"\n  \n")), "--site", site.slug)
+
+
+def test_after_the_confirmed_changes_are_stored_the_page_offers_a_plain_import_again(technician_client, night_of_759):
+    """A site engineer's review: the stored result still showed "Store these changes" with the spent token filled in,
+    so the next file chosen would have been sent as a confirmation of changes it does not make."""
+    asked = upload(technician_client, night_of_759, CHANGING_FILE)
+    stored = upload(technician_client, night_of_759, CHANGING_FILE, confirm=confirm_token(asked))
+    assert messages_of(stored) == ["Import done: 1 new, 1 updated, 0 unchanged."]
+    page = stored.content.decode()
+    assert ">Import</button>" in page and ">Store these changes</button>" not in page
+    assert re.search(r'name="confirm"(?: value="")? id="id_confirm"', page)  # the hidden token is empty
+    # A refused file sent with the token is not asked to confirm either.
+    refused = upload(technician_client, night_of_759, b"night,open_hours\n2024-01-05,-1\n",
+                     confirm=confirm_token(asked))
+    assert ">Import</button>" in refused.content.decode()
+    assert not re.search(r'name="confirm" value="[0-9a-f]+"', refused.content.decode())

@@ -40,7 +40,7 @@ def dust_weight(pm10_ugm3: ArrayLike, sensitivity: float) -> NDArray[np.float64]
 def dust_weight_formula(sensitivity: float) -> str:
     """:func:`dust_weight` in words, with a plan's sensitivity in it, for the basis a page shows."""
     ref = f"{CLEAN_AIR_PM10_UGM3:g}"
-    return (f"each open hour weighs 1 + {sensitivity:g} x max(0, PM10 - {ref}) / {ref} (PM10 in ug/m3, "
+    return (f"each open hour weighs 1 + {sensitivity:g} x max(0, PM10 - {ref}) / {ref} (PM10 in µg/m³, "
             f"{ref} = clean air; {sensitivity:g} = this plan's dust sensitivity)")
 
 

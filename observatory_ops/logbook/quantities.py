@@ -40,6 +40,26 @@ PLAUSIBLE_RANGE: dict[str, tuple[float, float]] = {
     "temperature_c": (-90, 150),  # the coldest air on record is about -89 degC (from memory)
 }
 
+#: Decimals every reflectance is written to (a measurement, an estimate, a recoat line, a computed fresh value), on
+#: pages, in sentences and on charts alike, so one figure reads the same wherever it appears and an estimate can be
+#: compared with its recoat line digit for digit (a choice of display, as the mirror page lists its measurements).
+REFLECTANCE_DECIMALS = 4
+
+
+def reflectance_text(value: float) -> str:
+    """A reflectance as every page, sentence and chart writes it: 0.82768 -> "0.8277", 0.839 -> "0.8390"."""
+    return f"{value:.{REFLECTANCE_DECIMALS}f}"
+
+
+def significant(value: float, figures: int = 3, signed: bool = False) -> str:
+    """``value`` to ``figures`` significant figures, with thousands separators and no exponent: 0.002457 ->
+    "0.00246", 714.499 -> "714", 5.216 -> "5.22", 12345.6 -> "12,300"; ``signed`` puts "+" before a positive
+    value (a trend), so both ends of an interval read alike: "+0.00210 to +0.00265"."""
+    if value == 0 or not math.isfinite(value):
+        return f"{value:g}"
+    decimals = figures - 1 - math.floor(math.log10(abs(value)))
+    return f"{'+' if signed and value > 0 else ''}{round(value, decimals):,.{max(decimals, 0)}f}"
+
 
 def unit_of(code: str) -> str:
     return QUANTITIES[code][1]

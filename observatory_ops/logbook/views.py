@@ -146,10 +146,12 @@ def nights_import(request, slug):
             messages.error(request, f"Import refused: {report.summary}")
         elif report.confirm_token:
             messages.warning(request, report.summary)
-            # Browsers never keep a chosen file, so the same file is chosen again, with the token of these changes.
-            form = NightsUploadForm(initial={"skip_bad": data["skip_bad"], "confirm": report.confirm_token})
         else:
             messages.success(request, f"Import done: {report.summary}")
+        # Browsers never keep a chosen file, so the next import chooses one again: the same file with the token of
+        # the changes listed when the page asks to confirm them; otherwise a plain import, the token sent (if any)
+        # spent or refused with its import.
+        form = NightsUploadForm(initial={"skip_bad": data["skip_bad"], "confirm": report.confirm_token})
     return render(
         request,
         "logbook/nights_import.html",

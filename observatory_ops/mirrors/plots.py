@@ -8,6 +8,7 @@ from django.utils.safestring import SafeString
 
 from observatory_ops.calc import reflectance
 from observatory_ops.charts import ALERT, BAND, Chart
+from observatory_ops.logbook.quantities import reflectance_text
 
 from .services import MirrorForecast
 
@@ -23,20 +24,21 @@ def decline_svg(state: MirrorForecast) -> SafeString | None:
     lines = (state.fresh_band, state.threshold, state.current)
     values = [p[2] for p in state.points] + [v for v in lines if v is not None]
     chart = Chart(0.0, x_high, min(values) - 0.01, max(values) + 0.01, f"Reflectance of {state.mirror}")
-    chart.axes(y_format=".3f", x_label="dust-weighted open hours since coating")
+    chart.axes(x_label="dust-weighted open hours since coating")
     if state.fit is not None:
         grid = np.linspace(0, x_high, 200)
         chart.line(list(zip(grid, reflectance.predict(state.fit, grid), strict=True)))
     if state.threshold is not None:
-        chart.hline(state.threshold, f"recoat line {state.threshold:.3f}")
+        chart.hline(state.threshold, f"recoat line {reflectance_text(state.threshold)}")
     if state.fresh_band is not None:
-        chart.hline(state.fresh_band, f"computed fresh {state.fresh_band:.3f}", colour="#4a6b4a")
+        chart.hline(state.fresh_band, f"computed fresh {reflectance_text(state.fresh_band)}", colour="#4a6b4a")
     for _, exposure in state.cleanings:
         chart.line([(exposure, chart.y_low), (exposure, chart.y_high)], colour="#8aa", width=1, dashed=True)
     chart.dots([(p[1], p[2]) for p in state.points], label="measured")
     chart.vline(state.exposure_now_h, "now")
     if state.current is not None:  # a titled dot, not a label: a label here would cross the recoat line's
-        chart.dots([(state.exposure_now_h, state.current)], colour=BAND, label=f"estimate now {state.current:.4f}")
+        chart.dots([(state.exposure_now_h, state.current)], colour=BAND,
+                   label=f"estimate now {reflectance_text(state.current)}")
     if state.crossing_exposure_h is not None and math.isfinite(state.crossing_exposure_h) and state.crossing:
         chart.marker(state.crossing_exposure_h, state.threshold, f"crosses about {state.crossing:%d %b %Y}")
     chart.text(chart.left + 6, chart.height - chart.bottom - 6, "dashed verticals: cleanings", colour=ALERT)
@@ -48,7 +50,7 @@ def curve_svg(result: dict) -> SafeString:
     waves = [p["wavelength_nm"] for p in result["curve"]]
     values = [p["reflectance"] for p in result["curve"]]
     chart = Chart(waves[0], waves[-1], min(values) - 0.01, min(max(values) + 0.01, 1.0), "Coating reflectance")
-    chart.axes(y_format=".3f", x_label="wavelength (nm)")
-    chart.hline(result["band_mean"], f"band mean {result['band_mean']:.4f}", colour="#4a6b4a")
+    chart.axes(x_label="wavelength (nm)")
+    chart.hline(result["band_mean"], f"band mean {reflectance_text(result['band_mean'])}", colour="#4a6b4a")
     chart.line(list(zip(waves, values, strict=True)))
     return chart.svg()

@@ -19,6 +19,7 @@ from django.utils import timezone
 
 from observatory_ops.calc import coating, forecast, reflectance, windows
 from observatory_ops.logbook.models import Reading, ServiceRecord
+from observatory_ops.logbook.quantities import reflectance_text
 from observatory_ops.logbook.services import service_record_log
 from observatory_ops.planning import metrics
 from observatory_ops.planning.models import BookedRun, NightSky, ServicePlan
@@ -174,7 +175,7 @@ def mirror_forecast(
         )
     result.threshold = fit.r0 * (1 - mirror.recoat_loss)
     result.threshold_basis = (
-        f"{mirror.recoat_loss:.0%} below the fitted fresh value R0 = {fit.r0:.4f}{_loss_basis(mirror)}"
+        f"{mirror.recoat_loss:.0%} below the fitted fresh value R0 = {reflectance_text(fit.r0)}{_loss_basis(mirror)}"
     )
     crossing = reflectance.crossing_exposure(fit, result.threshold)
     result.crossing_exposure_h = crossing.exposure_h
@@ -699,11 +700,11 @@ def recoat_reason(state: MirrorForecast, starts_on: dt.date, ends_on: dt.date) -
     window = f"recoat window {starts_on:%d %b %Y} to {ends_on:%d %b %Y}"
     if state.threshold is None:
         return f"No recoat line yet ({state.fit_note}); {window}"
-    line = f"the recoat line {state.threshold:.3f}"
+    line = f"the recoat line {reflectance_text(state.threshold)}"
     if state.current is not None and state.current <= state.threshold:
-        return f"Reflectance estimated at {state.current:.3f}, already at or below {line}; {window}"
+        return f"Reflectance estimated at {reflectance_text(state.current)}, already at or below {line}; {window}"
     if state.fit is None:
-        return f"Recoat line {state.threshold:.3f}, no crossing forecast ({state.fit_note}); {window}"
+        return f"Recoat line {reflectance_text(state.threshold)}, no crossing forecast ({state.fit_note}); {window}"
     if state.crossing is None:
         return f"Reflectance not forecast to reach {line} within three years; {window}"
     # The early side is reached before the central date, so it is known whenever the central date is.
@@ -773,7 +774,7 @@ def recoat_plan_create(
                 if kind == "realignment":
                     RequiredReading.objects.create(
                         work_order=order, subsystem=subsystem, quantity="reflectance", unit="fraction",
-                        limit_text=f"about {_coating_band_now(mirror):.3f} expected (computed fresh)",
+                        limit_text=f"about {reflectance_text(_coating_band_now(mirror))} expected (computed fresh)",
                     )
                 plan.work_orders.add(order)
         site_recompute(subsystem.telescope.site)

@@ -9,7 +9,7 @@ from django.db import models
 from simple_history.models import HistoricalRecords
 
 from observatory_ops.calc.triggers import STATUSES
-from observatory_ops.logbook.quantities import QUANTITY_CHOICES
+from observatory_ops.logbook.quantities import QUANTITY_CHOICES, reflectance_text, unit_of
 from observatory_ops.registry.models import Site, Subsystem
 
 from .metrics import METRIC_CHOICES, METRICS, READING, RECOAT_LINE
@@ -150,6 +150,17 @@ def trigger_figures(metric, value, limit, unit, rate_per_day, forecast, earliest
     }
 
 
+def figure_text(metric: str, unit: str, value: float) -> str:
+    """A trigger's value or limit as the pages, the due list and the charts write it: a reflectance (a recoat line,
+    or a reading of band reflectance) by ``reflectance_text``; any other reading as measured, to 4 significant
+    figures; a count or a number of days whole, as the sentence of its state words it."""
+    if metric == RECOAT_LINE or (metric == READING and unit == unit_of("reflectance")):
+        return reflectance_text(value)
+    if metric == READING:
+        return f"{value:,.4g}"
+    return f"{value:,.0f}"
+
+
 class PlanStatus(models.Model):
     """The due state of one plan, computed by ``planning.services.site_recompute``; never edited by hand.
 
@@ -197,9 +208,8 @@ class PlanStatus(models.Model):
     @property
     def progress(self) -> str:
         """Value now against the limit, for the due list."""
-        if self.metric in (READING, RECOAT_LINE):  # measured values: as measured
-            return f"{self.value:,.4g} / {self.limit:,.4g} {self.unit}".strip()
-        return f"{self.value:,.0f} / {self.limit:,.0f} {self.unit}".strip()  # counts, as the reason words them
+        return (f"{figure_text(self.metric, self.unit, self.value)} / "
+                f"{figure_text(self.metric, self.unit, self.limit)} {self.unit}").strip()
 
     class Meta:
         indexes = [

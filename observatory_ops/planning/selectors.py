@@ -6,15 +6,15 @@ import datetime as dt
 import numpy as np
 from django.db.models import Count, Prefetch, QuerySet
 
-from observatory_ops.calc import forecast
+from observatory_ops.calc import forecast, trend
 from observatory_ops.calc.triggers import STATUSES
 from observatory_ops.logbook.models import ServiceRecord
-from observatory_ops.logbook.quantities import QUANTITIES
+from observatory_ops.logbook.quantities import QUANTITIES, significant
 from observatory_ops.registry.catalogue import COMMON_PRACTICE, KINDS
 from observatory_ops.registry.models import Site, Subsystem
 
 from . import metrics, plots
-from .models import NightSky, PlanStatus, ServicePlan, Trigger
+from .models import NightSky, PlanStatus, ServicePlan, Trigger, figure_text
 
 #: The catalogue's default limit of each quantity a condition trigger of its plans watches (registry.catalogue).
 CATALOGUE_READING_LIMITS: dict[str, float] = {
@@ -174,32 +174,30 @@ def default_limit_notes(plan: ServicePlan) -> list[str]:
     return notes
 
 
-def significant(value: float, figures: int = 3) -> str:
-    """``value`` to ``figures`` significant figures, with thousands separators and no exponent: 0.002457 ->
-    "0.00246", 714.499 -> "714", 5.216 -> "5.22", 12345.6 -> "12,300"."""
-    if value == 0 or not np.isfinite(value):
-        return f"{value:g}"
-    decimals = figures - 1 - int(np.floor(np.log10(abs(value))))
-    return f"{round(value, decimals):,.{max(decimals, 0)}f}"
+def _reading_trigger(plan: ServicePlan, basis: str) -> Trigger | None:
+    """The condition trigger of the plan whose figures have this basis: the one watching the quantity it names."""
+    label = basis.split(":")[0]
+    return next((t for t in plan.triggers.all() if t.metric == metrics.READING and t.quantity in QUANTITIES
+                 and QUANTITIES[t.quantity][0] == label), None)
 
 
 def _rising(plan: ServicePlan, row: dict) -> bool:
     """Whether a trigger row's value rises to its limit: all counters do; a reflectance falls to its recoat
-    line; a reading as its trigger says (found by the quantity its basis names, as ``plans_with_plots`` does)."""
+    line; a reading as its trigger says."""
     if row["metric"] == metrics.RECOAT_LINE:
         return False
     if row["metric"] != metrics.READING:
         return True
-    label = row["basis"].split(":")[0]
-    watching = [t for t in plan.triggers.all() if t.metric == metrics.READING and QUANTITIES[t.quantity][0] == label]
-    return not watching or watching[0].direction == Trigger.Direction.ABOVE
+    watching = _reading_trigger(plan, row["basis"])
+    return watching is None or watching.direction == Trigger.Direction.ABOVE
 
 
 def trigger_table(plan: ServicePlan) -> list[dict]:
     """The rows of a plan's trigger table as the subsystem page shows them (``PlanStatus.trigger_rows``):
     dates as dates, ``reached`` where the limit is already reached (its forecast is then the day it was
-    reached), and ``rate``: the rate per day in words that say what it is (the expected mean over the next
-    30 days for a counter, the trend for a reading; none for a calendar trigger)."""
+    reached), ``value_text`` and ``limit_text`` as ``models.figure_text`` writes them, and ``rate``: the rate
+    per day in words that say what it is (the expected mean over the next 30 days for a counter, the trend for a
+    reading; none for a calendar trigger)."""
     rows = []
     for row in plan.status.trigger_rows:
         rising = _rising(plan, row)
@@ -207,12 +205,14 @@ def trigger_table(plan: ServicePlan) -> list[dict]:
         if rate is None or row["metric"] == metrics.CALENDAR_DAYS:
             words = ""
         elif row["metric"] == metrics.READING:
-            words = f"{'+' if rate > 0 else ''}{significant(rate)} {row['unit']} (trend)"
+            words = f"{significant(rate, signed=True)} {row['unit']} (trend)"
         else:
             words = f"{significant(rate)} {row['unit']} (mean of the next 30 days)"
         rows.append({
             **row,
             "rate": words,
+            "value_text": figure_text(row["metric"], row["unit"], row["value"]),
+            "limit_text": figure_text(row["metric"], row["unit"], row["limit"]),
             "reached": row["value"] >= row["limit"] if rising else row["value"] <= row["limit"],
             **{key: row[key] and dt.date.fromisoformat(row[key]) for key in ("forecast", "earliest", "latest")},
         })
@@ -331,14 +331,18 @@ def plans_with_plots(subsystem: Subsystem) -> list[ServicePlan]:
                 else []
             )
         elif status.metric == metrics.READING:
-            trigger = next(t for t in plan.triggers.all() if t.metric == metrics.READING)
+            trigger = _reading_trigger(plan, status.basis)
             rising = trigger.direction == Trigger.Direction.ABOVE
-            points = [
-                (taken.astimezone(site.zone).date(), value)
-                for taken, value in subsystem.readings.filter(quantity=trigger.quantity)
-                .order_by("taken_at")
-                .values_list("taken_at", "value")
-            ]
+            taken = list(subsystem.readings.filter(quantity=trigger.quantity).order_by("taken_at")
+                         .values_list("taken_at", "value"))
+            plan.plot = plots.readings_svg(
+                [(plots.day_of(moment, site.zone), value) for moment, value in taken],
+                reading_trend(taken, baseline, site.zone, trigger.limit, rising), status.limit, status.unit, today,
+                plan.trigger_table[0]["reached"], status.forecast_date, status.earliest, status.latest, rising,
+                f"{plan.name}: {status.get_metric_display()}",
+                (baseline, f"{'last service' if status.last_service_on else 'plan start'} {baseline:%d %b %Y}"),
+            )
+            continue
         else:
             log = log or UsageLog.for_site(site)
             keep = log.nights >= np.datetime64(baseline, "D")
@@ -347,8 +351,32 @@ def plans_with_plots(subsystem: Subsystem) -> list[ServicePlan]:
             points = [(baseline, 0.0)] + list(zip(days, totals.tolist(), strict=True))
         plan.plot = plots.accumulation_svg(
             points, status.limit, status.unit, today, status.value, status.forecast_date, status.earliest,
-            status.latest, rising=rising, title=f"{plan.name}: {status.get_metric_display()}",
-            counted_from=(baseline, f"{'last service' if status.last_service_on else 'plan start'} {baseline:%d %b %Y}")
-            if status.metric == metrics.READING else None,
+            status.latest, rising=rising, title=f"{plan.name}: {status.get_metric_display()}", metric=status.metric,
         )
     return plans
+
+
+def reading_trend(
+    taken: list[tuple[dt.datetime, float]], baseline: dt.date, zone, limit: float, rising: bool
+) -> plots.TrendLine | None:
+    """The Theil-Sen line a condition trigger's due state came from, on a chart's axis of days (``plots.day_of``).
+
+    Fitted as the recompute fits it (``services._reading_state``): to the newest ``services.TREND_READINGS`` of the
+    readings ``taken`` (oldest first) since the baseline's local day, days counted from the first of them. None
+    where the recompute has no trend either (too few readings, all on one day, or readings it cannot fit).
+    """
+    from .services import TREND_READINGS
+
+    counted = [(moment, value) for moment, value in taken if moment.astimezone(zone).date() >= baseline]
+    counted = counted[-TREND_READINGS:]
+    if len(counted) < trend.MIN_READINGS:
+        return None
+    origin = counted[0][0]
+    days = [(moment - origin).total_seconds() / 86400 for moment, _ in counted]
+    try:
+        fit = trend.trend_to_limit(days, [value for _, value in counted], limit, rising)
+    except ValueError:  # all on one day, or too far apart to fit: the state says which
+        return None
+    start = plots.day_of(origin, zone)
+    crossing = None if fit.crossing_day is None else start + fit.crossing_day
+    return plots.TrendLine(start, start + days[-1], fit.value_at(0.0), fit.slope_per_day, crossing)

@@ -21,7 +21,7 @@ from simple_history.utils import bulk_create_with_history
 from observatory_ops.calc import exposure, forecast, nights, trend
 from observatory_ops.calc.triggers import STATUSES, TriggerState, due_status, governing
 from observatory_ops.logbook.models import NightUsage, Reading, ServiceRecord
-from observatory_ops.logbook.quantities import QUANTITIES
+from observatory_ops.logbook.quantities import QUANTITIES, REFLECTANCE_DECIMALS, reflectance_text, significant
 from observatory_ops.registry.catalogue import RELEASE
 from observatory_ops.registry.catalogue import kind as catalogue_kind
 from observatory_ops.registry.models import Site, Subsystem
@@ -217,6 +217,11 @@ class UsageModel:
         if self.pm10_nights < least:
             return (f"dust: PM10 measured on {self.pm10_nights} open nights, under {least}, so counted as clean "
                     "air")
+        if self.pm10_months == 12:
+            return f"dust: this site's mean PM10 for every month (each measured on at least {least} open nights)"
+        if self.pm10_months == 0:
+            return (f"dust: this site's overall mean PM10 for every month (no month measured on {least} open "
+                    "nights yet)")
         return (f"dust: this site's mean PM10 for {self.pm10_months} of 12 months (each measured on at least "
                 f"{least} open nights) and its overall mean for the rest")
 
@@ -664,8 +669,8 @@ def _reading_state(trig, readings, today: dt.date, zone, since: str) -> TriggerS
         return max((origin + dt.timedelta(days=float(offset))).date(), today)
 
     basis = (
-        f"Theil-Sen trend of {counted}: {fit.slope_per_day:+.4g} {unit}/day "
-        f"(95 % interval {fit.slope_low:+.4g} to {fit.slope_high:+.4g})"
+        f"Theil-Sen trend of {counted}: {significant(fit.slope_per_day, signed=True)} {unit}/day "
+        f"(95 % interval {significant(fit.slope_low, signed=True)} to {significant(fit.slope_high, signed=True)})"
         if fit
         else no_fit
     )
@@ -704,7 +709,7 @@ def reason_text(state: TriggerState) -> str:
         bound = "at most" if state.rising else "at least"
         head = f"Latest reading {state.value:g} {unit} against a limit of {bound} {state.limit:g} {unit}; {state.basis}"
     elif state.metric == metrics.RECOAT_LINE:
-        head = f"Reflectance now about {state.value:.3f}, recoat line {state.limit:.3f}"
+        head = f"Reflectance now about {reflectance_text(state.value)}, recoat line {reflectance_text(state.limit)}"
     else:
         head = f"{label}: {state.value:,.0f} of {state.limit:,.0f} {unit}"
         if state.rate_per_day is not None and state.metric != metrics.CALENDAR_DAYS:
@@ -723,7 +728,8 @@ def reason_text(state: TriggerState) -> str:
 
 def _state_json(state: TriggerState) -> dict:
     rate = None if state.rate_per_day is None else round(state.rate_per_day, 4)
+    # Kept to the decimals a reflectance is shown to, the finest figure a page shows of a trigger's value.
     return trigger_figures(
-        state.metric, round(state.value, 3), state.limit, state.unit, rate, state.forecast, state.earliest,
-        state.latest, state.basis,
+        state.metric, round(state.value, REFLECTANCE_DECIMALS), state.limit, state.unit, rate, state.forecast,
+        state.earliest, state.latest, state.basis,
     )

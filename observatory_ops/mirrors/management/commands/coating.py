@@ -4,6 +4,7 @@ from pathlib import Path
 from django.core.management.base import BaseCommand, CommandError
 
 from observatory_ops.calc.coating import MATERIALS, Layer, coating_curve
+from observatory_ops.logbook.quantities import reflectance_text
 from observatory_ops.mirrors import response_csv
 
 
@@ -42,6 +43,6 @@ class Command(BaseCommand):
         if o["as_json"]:
             self.stdout.write(json.dumps(result))
             return
-        self.stdout.write(f"band mean {o['from_nm']:g}-{o['to_nm']:g} nm: {result['band_mean']:.4f}")
+        self.stdout.write(f"band mean {o['from_nm']:g}-{o['to_nm']:g} nm: {reflectance_text(result['band_mean'])}")
         for point in result["curve"]:
-            self.stdout.write(f"{point['wavelength_nm']:8.1f} nm  {point['reflectance']:.4f}")
+            self.stdout.write(f"{point['wavelength_nm']:8.1f} nm  {reflectance_text(point['reflectance'])}")
