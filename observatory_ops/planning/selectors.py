@@ -6,7 +6,7 @@ import datetime as dt
 import numpy as np
 from django.db.models import Count, Prefetch, QuerySet
 
-from observatory_ops.calc import forecast, trend
+from observatory_ops.calc import forecast
 from observatory_ops.calc.triggers import STATUSES
 from observatory_ops.logbook.models import ServiceRecord
 from observatory_ops.logbook.quantities import QUANTITIES, significant
@@ -361,22 +361,18 @@ def reading_trend(
 ) -> plots.TrendLine | None:
     """The Theil-Sen line a condition trigger's due state came from, on a chart's axis of days (``plots.day_of``).
 
-    Fitted as the recompute fits it (``services._reading_state``): to the newest ``services.TREND_READINGS`` of the
-    readings ``taken`` (oldest first) since the baseline's local day, days counted from the first of them. None
-    where the recompute has no trend either (too few readings, all on one day, or readings it cannot fit).
+    Fitted by the recompute's own function (``services.reading_trend_fit``) to the readings ``taken`` (oldest first)
+    since the baseline's local day. None where the recompute has no trend either.
     """
-    from .services import TREND_READINGS
+    from .services import reading_trend_fit
 
     counted = [(moment, value) for moment, value in taken if moment.astimezone(zone).date() >= baseline]
-    counted = counted[-TREND_READINGS:]
-    if len(counted) < trend.MIN_READINGS:
+    if not counted:
         return None
-    origin = counted[0][0]
-    days = [(moment - origin).total_seconds() / 86400 for moment, _ in counted]
-    try:
-        fit = trend.trend_to_limit(days, [value for _, value in counted], limit, rising)
-    except ValueError:  # all on one day, or too far apart to fit: the state says which
+    fit, origin, _ = reading_trend_fit(counted, limit, rising)
+    if fit is None:  # the state says why
         return None
     start = plots.day_of(origin, zone)
+    last = (counted[-1][0] - origin).total_seconds() / 86400
     crossing = None if fit.crossing_day is None else start + fit.crossing_day
-    return plots.TrendLine(start, start + days[-1], fit.value_at(0.0), fit.slope_per_day, crossing)
+    return plots.TrendLine(start, start + last, fit.value_at(0.0), fit.slope_per_day, crossing)

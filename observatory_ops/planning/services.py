@@ -638,6 +638,25 @@ def _recoat_line_state(mirror, today: dt.date, log: UsageLog, model: UsageModel)
     )
 
 
+def reading_trend_fit(
+    readings: list[tuple[dt.datetime, float]], limit: float, rising: bool
+) -> tuple[trend.Trend | None, dt.datetime, str]:
+    """The Theil-Sen trend a condition trigger forecasts from: fitted to the newest ``TREND_READINGS`` of
+    ``readings`` (moment, value; oldest first, all since the trigger's baseline), in days from the first of them.
+    Returns the fit (None with fewer than ``trend.MIN_READINGS``, all on one day, or readings that cannot be
+    fitted), that first moment, and why they could not be fitted ("" otherwise). The recompute's due state and
+    the subsystem page's trend line both come from here."""
+    newest = readings[-TREND_READINGS:]
+    origin = newest[0][0]
+    days = [(moment - origin).total_seconds() / 86400 for moment, _ in newest]
+    if len(newest) < trend.MIN_READINGS or max(days) <= min(days):
+        return None, origin, ""
+    try:
+        return trend.trend_to_limit(days, [value for _, value in newest], limit, rising), origin, ""
+    except ValueError as exc:  # readings that cannot be fitted: shown, and no forecast from them
+        return None, origin, str(exc)
+
+
 def _reading_state(trig, readings, today: dt.date, zone, since: str) -> TriggerState | None:
     """A condition trigger: latest reading against the limit, with the Theil-Sen trend's crossing date.
 
@@ -654,14 +673,8 @@ def _reading_state(trig, readings, today: dt.date, zone, since: str) -> TriggerS
     readings = newest
     rising = trig.direction == Trigger.Direction.ABOVE
     label, unit = QUANTITIES[trig.quantity]
-    origin = readings[0][0]
-    days = [(t - origin).total_seconds() / 86400 for t, _ in readings]
-    fit, no_fit = None, f"{counted}, too few for a trend"
-    if len(readings) >= trend.MIN_READINGS and max(days) > min(days):
-        try:
-            fit = trend.trend_to_limit(days, [v for _, v in readings], trig.limit, rising)
-        except ValueError as exc:  # readings that cannot be fitted: shown, and no forecast from them
-            no_fit = f"{counted}, no trend ({exc})"
+    fit, origin, problem = reading_trend_fit(readings, trig.limit, rising)
+    no_fit = f"{counted}, no trend ({problem})" if problem else f"{counted}, too few for a trend"
 
     def day(offset: float | None) -> dt.date | None:
         if fit is None or offset is None or not np.isfinite(offset) or offset > 10 * HORIZON_DAYS:
