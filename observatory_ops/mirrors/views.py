@@ -94,27 +94,26 @@ def cleaning_log(request, pk):
     return _log_event(request, mirror, form, "a cleaning", services.cleaning_log, _cleaning_logged)
 
 
-def _cleaning_logged(mirror: Mirror, event) -> str:
-    """Say what the cleaning restarted: the decline fit counts its recovery, and the cleaning plans count again."""
-    plans = services.plans_a_cleaning_restarts(mirror.subsystem)
+def _restarted(logged: str, plans: list, day, none: str) -> str:
+    """Say what a mirror event restarted: ``logged`` (what it did to the decline), then the plans that count
+    again from ``day``, or ``none`` when the mirror has no such plan."""
     if not plans:
-        return "Cleaning logged; the decline fit counts its recovery (this mirror has no cleaning service plan)."
+        return f"{logged} ({none})."
     names = ", ".join(p.name for p in plans)
     restart = "plan {} restarts its" if len(plans) == 1 else "plans {} restart their"
-    return (f"Cleaning logged; the decline fit counts its recovery, and the {restart.format(names)} counting "
-            f"from {event.cleaned_on:%d %b %Y}.")
+    return f"{logged}, and the {restart.format(names)} counting from {day:%d %b %Y}."
+
+
+def _cleaning_logged(mirror: Mirror, event) -> str:
+    return _restarted("Cleaning logged; the decline fit counts its recovery",
+                      services.plans_a_cleaning_restarts(mirror.subsystem), event.cleaned_on,
+                      "this mirror has no cleaning service plan")
 
 
 def _coating_logged(mirror: Mirror, event) -> str:
-    """Say what the coating restarted: the decline, and the recoat and cleaning plans (their counting from the
-    coating date)."""
-    plans = services.plans_a_coating_restarts(mirror.subsystem)
-    if not plans:
-        return "New coating logged; the decline starts again from it (this mirror has no recoat service plan)."
-    names = ", ".join(p.name for p in plans)
-    restart = "plan {} restarts its" if len(plans) == 1 else "plans {} restart their"
-    return (f"New coating logged; the decline starts again from it, and the {restart.format(names)} counting "
-            f"from {event.coated_on:%d %b %Y}.")
+    return _restarted("New coating logged; the decline starts again from it",
+                      services.plans_a_coating_restarts(mirror.subsystem), event.coated_on,
+                      "this mirror has no recoat service plan")
 
 
 @requires(TECHNICIAN)

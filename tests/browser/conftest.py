@@ -6,6 +6,7 @@ reason; under CI=true a missing browser fails them (see ``require_tool`` in test
 """
 from __future__ import annotations
 
+import datetime as dt
 import re
 from dataclasses import dataclass
 
@@ -109,3 +110,20 @@ def demo(transactional_db) -> Demo:
         passwords={username: password for username, _, password in logins},
         usernames={role: username for username, role, _ in logins},
     )
+
+
+@pytest.fixture
+def underway(transactional_db, users, telescope):
+    """A fan-filter order underway at a telescope with one isolation point: the checklist the tablet tests tick."""
+    from observatory_ops.registry.services import subsystem_create
+    from observatory_ops.workorders import services
+    from observatory_ops.workorders.models import IsolationPoint
+
+    IsolationPoint.objects.create(telescope=telescope, energy="ac", label="Mount isolator")
+    fans = subsystem_create(telescope, "cooling_fans", "Fans", counting_from=dt.date(2026, 1, 1))
+    order = services.work_order_from_due([fans.plans.get(name="Replace fan filters")], users["engineer"],
+                                         planned_date=dt.date(2026, 6, 15))
+    services.work_order_move(order, "issue", users["engineer"])
+    services.work_order_move(order, "start", users["technician"])
+    order.refresh_from_db()
+    return order

@@ -6,26 +6,8 @@ every line keeps its Record button and pressing it records the tick.
 """
 from __future__ import annotations
 
-import datetime as dt
-
 import pytest
 from playwright.sync_api import expect
-
-
-@pytest.fixture
-def underway(transactional_db, users, telescope):
-    from observatory_ops.registry.services import subsystem_create
-    from observatory_ops.workorders import services
-    from observatory_ops.workorders.models import IsolationPoint
-
-    IsolationPoint.objects.create(telescope=telescope, energy="ac", label="Mount isolator")
-    fans = subsystem_create(telescope, "cooling_fans", "Fans", counting_from=dt.date(2026, 1, 1))
-    order = services.work_order_from_due([fans.plans.get(name="Replace fan filters")], users["engineer"],
-                                         planned_date=dt.date(2026, 6, 15))
-    services.work_order_move(order, "issue", users["engineer"])
-    services.work_order_move(order, "start", users["technician"])
-    order.refresh_from_db()
-    return order
 
 
 def _open_as_technician(page, live_server, login, order) -> None:

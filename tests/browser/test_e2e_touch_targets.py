@@ -8,7 +8,6 @@ Screenshots are left behind for a person to look at; the test never reads them b
 """
 from __future__ import annotations
 
-import datetime as dt
 import tempfile
 from pathlib import Path
 
@@ -24,22 +23,6 @@ _BOXES = """els => els.filter(el => el.offsetParent !== null).map(el => {
   const r = el.getBoundingClientRect();
   return {what: el.outerHTML.slice(0, 90), width: r.width, height: r.height};
 })"""
-
-
-@pytest.fixture
-def underway(transactional_db, users, telescope):
-    from observatory_ops.registry.services import subsystem_create
-    from observatory_ops.workorders import services
-    from observatory_ops.workorders.models import IsolationPoint
-
-    IsolationPoint.objects.create(telescope=telescope, energy="ac", label="Mount isolator")
-    fans = subsystem_create(telescope, "cooling_fans", "Fans", counting_from=dt.date(2026, 1, 1))
-    order = services.work_order_from_due([fans.plans.get(name="Replace fan filters")], users["engineer"],
-                                         planned_date=dt.date(2026, 6, 15))
-    services.work_order_move(order, "issue", users["engineer"])
-    services.work_order_move(order, "start", users["technician"])
-    order.refresh_from_db()
-    return order
 
 
 def _boxes(page: Page, selector: str) -> list[dict]:
