@@ -342,6 +342,28 @@ def test_the_release_step_is_ticked_only_after_the_lockout_step(underway, users)
     assert selectors.checklist(underway).steps[6].ticked
 
 
+def test_locked_out_work_is_not_ticked_once_the_release_says_the_locks_are_off(underway, users):
+    """Release from lockout comes after the work is complete, OSHA 29 CFR 1910.147(e): a locked-out step ticked
+    after the release would show isolated work done without the locks. It is refused, saying how to record work
+    that was in fact done before the release; taking the release back and ticking in order is accepted."""
+    technician = users["technician"]
+    services.checklist_tick_set(underway, POINT, _point(underway).pk, True, technician)
+    services.checklist_tick_set(underway, STEP, 4, True, technician)
+    services.checklist_tick_set(underway, STEP, 6, True, technician)  # the release, step 6 not ticked
+    before = _ticks()
+    with pytest.raises(services.Refused) as refusal:
+        services.checklist_tick_set(underway, STEP, 5, True, technician)
+    assert str(refusal.value).startswith(
+        "step 6 is done with the energy isolated, but step 7 says the locks were removed: if it was done before the "
+        "release, take back step 7 first"
+    )
+    assert _ticks() == before
+    services.checklist_tick_set(underway, STEP, 6, False, technician)
+    services.checklist_tick_set(underway, STEP, 5, True, technician)
+    services.checklist_tick_set(underway, STEP, 6, True, technician)
+    assert [line.ticked for line in selectors.checklist(underway).steps[4:7]] == [True, True, True]
+
+
 def test_the_lockout_is_not_taken_back_from_under_the_release_and_the_release_can_be(underway, users):
     engineer = users["engineer"]
     point = _locked_out_and_working(underway, users)

@@ -643,9 +643,16 @@ def _lockout_sequence_refusal(order: WorkOrder, line: tuple, ticked: bool, what:
     first = [] if step_done(lockout) else [f"the lockout (step {lockout + 1})"]
     if open_points:
         first.append(named)
-    if not first:
-        return ""
-    return f"step {key + 1} is done with the energy isolated: tick {' and '.join(first)} first"
+    if first:
+        return f"step {key + 1} is done with the energy isolated: tick {' and '.join(first)} first"
+    if release is not None and step_done(release):
+        # The release says the locks are off: work ticked after it would show isolated work done without them.
+        return (
+            f"step {key + 1} is done with the energy isolated, but step {release + 1} says the locks were removed: "
+            f"if it was done before the release, take back step {release + 1} first, tick this one, then tick the "
+            "release again; if not, isolate again before doing it"
+        )
+    return ""
 
 
 def _take_back_refusal(what: str, standing: list[tuple[list[int], str, str]]) -> str:
