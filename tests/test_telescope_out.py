@@ -15,11 +15,9 @@ import re
 
 import pytest
 from pypdf import PdfReader
+from test_recoat_phases import orders  # noqa: F401  (fixture, used by name)
 
 from observatory_ops.calc.windows import RECOAT_PHASES
-from observatory_ops.mirrors import services as mirror_services
-from observatory_ops.mirrors.models import CoatingEvent, Mirror
-from observatory_ops.registry.models import Subsystem
 from observatory_ops.registry.services import subsystem_create
 from observatory_ops.workorders import selectors, services
 from observatory_ops.workorders.cautions import TELESCOPE_OUT_TODO
@@ -29,14 +27,10 @@ OUT = "T1 is out of service: its primary mirror is out"
 
 
 @pytest.fixture
-def recoat(telescope, users):
-    """A recoat of the telescope's primary, planned from 1 Aug 2026: its four phase orders by phase."""
-    primary = Subsystem.objects.create(telescope=telescope, kind="primary_mirror", name="Primary mirror")
-    mirror = Mirror.objects.create(subsystem=primary, diameter_mm=500, thickness_mm=50, hole_mm=120,
-                                   material="borosilicate", cell_mass_kg=30)
-    CoatingEvent.objects.create(mirror=mirror, coated_on=dt.date(2025, 8, 1), metal="al")
-    plan = mirror_services.recoat_plan_create(mirror, dt.date(2026, 8, 1), list(RECOAT_PHASES), 3.5, users["engineer"])
-    return {order.recoat_phase: order for order in plan.work_orders.all()}
+def recoat(orders):  # noqa: F811  (the imported fixture)
+    """The recoat of tests/test_recoat_phases.py (a 500 mm primary, planned from 1 Aug 2026), its four phase
+    orders by the phase each carries."""
+    return {order.recoat_phase: order for order in orders.values()}
 
 
 @pytest.fixture
