@@ -9,8 +9,10 @@ from __future__ import annotations
 import datetime as dt
 
 import numpy as np
+from django.conf import settings
 from django.contrib.auth.models import Group, User
-from django.db import transaction
+from django.db import connection, transaction
+from django.db.models import Q
 from django.utils import timezone
 from simple_history.utils import bulk_create_with_history
 
@@ -72,6 +74,43 @@ _TREE = (
 #: still count from the log's first night, as those of the subsystems without the date do.
 _T70_ORIGINALS = ("Axis 1 drive", "Axis 2 drive", "Axis 1 encoder", "Mirror cell fans")
 _T70_COMMISSIONED_BEFORE_LOG = dt.timedelta(days=5 * 365)
+
+
+#: Where the refusals below send the demo: a database of its own.
+_OWN_DATABASE = (
+    "Give the demo a database of its own: run it with OBSOPS_DATA_DIR set to an empty folder, e.g. "
+    "`OBSOPS_DATA_DIR=/tmp/obsops-demo python manage.py demo` (or with DATABASE_URL set to another database)."
+)
+
+
+def load_refusal() -> str:
+    """Why the demo must not be loaded here, or "" when it may be (the demo command and the empty home page ask).
+
+    The demo's logins have passwords published in the README, so it goes only into a trial installation (the
+    development SECRET_KEY) whose database holds nothing but the demo: no site but its own and, until its site is
+    loaded, no user but its own logins (known by username and invented full name). A database not migrated yet
+    holds nothing.
+    """
+    if settings.SECRET_KEY != settings.DEVELOPMENT_SECRET_KEY:
+        return ("SECRET_KEY is set, so this is a production installation: the demo creates logins whose passwords "
+                "are published in the README. Load it into a trial installation of its own.")
+    tables = set(connection.introspection.table_names())
+    if not {Site._meta.db_table, User._meta.db_table} <= tables:
+        return ""
+    others = list(Site.objects.exclude(slug=SITE_SLUG).values_list("name", flat=True)[:3])
+    if others:
+        return f"this database already holds other sites ({', '.join(others)}). {_OWN_DATABASE}"
+    if Site.objects.filter(slug=SITE_SLUG).exists():
+        return ""
+    ours = Q()
+    for username, _role, full_name, _password in DEMO_USERS:
+        first, last = full_name.split(" ", 1)
+        ours |= Q(username=username, first_name=first, last_name=last)
+    strangers = list(User.objects.exclude(ours).order_by("username").values_list("username", flat=True)[:3])
+    if strangers:
+        return (f"this database already has users of its own ({', '.join(strangers)}), and the demo would add "
+                f"logins whose passwords are published in the README. {_OWN_DATABASE}")
+    return ""
 
 
 def demo_users() -> list[tuple[str, str, str | None]]:
@@ -264,7 +303,8 @@ def _workshop(site: Site, telescopes) -> None:
 
 
 # Mirror: (telescope, diameter, thickness, hole mm, material, cell kg, coated months ago, metal, layers,
-#          decline per dust-weighted hour, recovery per cleaning).
+#          decline per dust-weighted hour, recovery per cleaning). The cells' masses are invented, of the order of a
+#          steel cell with its supports and fans for such a mirror, so the demo's lifts count a cell.
 _MIRRORS = (
     ("T70", 700, 70, 160, "borosilicate", 95, 14, "al", [], 3.4e-5, 0.5),
     ("R40", 400, 45, 100, "glass_ceramic", 25, 22, "al", [{"material": "SiO2", "thickness_nm": 100}], 1.6e-5, 0.4),
@@ -327,6 +367,7 @@ def _mirrors(site, subsystems, technician, today: dt.date, rng: np.random.Genera
             )
     secondary = Mirror.objects.create(
         subsystem=subsystems[("T70", "Secondary mirror")], diameter_mm=220, thickness_mm=35, material="glass_ceramic",
+        cell_mass_kg=6,  # invented: its holder with the tip-tilt plate, lifted with it
     )
     CoatingEvent.objects.create(mirror=secondary, coated_on=today - dt.timedelta(days=int(14 * 30.4)), metal="al")
     BookedRun.objects.create(

@@ -7,12 +7,21 @@ SECRET_KEY       required when DEBUG is off; a development key is used only when
                  on. An installation with a key of its own is treated as production (``demo`` refuses it).
 DATABASE_URL     default: a SQLite file in the git-ignored ``data/`` folder.
 ALLOWED_HOSTS    comma-separated host names.
+CSRF_TRUSTED_ORIGINS  comma-separated origins (scheme and host, e.g. https://observatory.example.org) whose
+                 forms are accepted besides the page's own host; default none.
+USE_X_FORWARDED_HOST  "1" to take the host from the proxy's X-Forwarded-Host header (default off: the proxy
+                 passes the public Host header itself).
+OBSOPS_TRUSTED_PROXIES  how many reverse proxies stand in front of the web processes (default 0): sign-in
+                 limits then count the address in X-Forwarded-For that many hops from the right.
+STATIC_ROOT      where `collectstatic` gathers the static files and whitenoise serves them from
+                 (default: ``staticfiles/`` beside ``manage.py``).
 CELERY_BROKER_URL  e.g. redis://127.0.0.1:6379/0; without it tasks run inline.
 CELERY_RESULT_BACKEND  optional, e.g. redis://127.0.0.1:6379/1; without it task results are not kept.
 CELERY_VISIBILITY_TIMEOUT  seconds before Redis hands an unacknowledged task to another worker (3600).
 CACHE_URL        e.g. redis://127.0.0.1:6379/2; default: memory of each process.
-EMAIL_BACKEND, EMAIL_HOST, EMAIL_PORT, EMAIL_HOST_USER, EMAIL_HOST_PASSWORD, EMAIL_USE_TLS,
+EMAIL_BACKEND, EMAIL_HOST, EMAIL_PORT, EMAIL_HOST_USER, EMAIL_HOST_PASSWORD, EMAIL_USE_TLS, EMAIL_USE_SSL,
 DEFAULT_FROM_EMAIL  outgoing mail (due digests); default: printed on the console.
+EMAIL_TIMEOUT    seconds to wait for the mail server at each step before giving up (30).
 SITE_URL         address the pages are served at, for links in e-mails and QR codes (http://127.0.0.1:8000).
 """
 import os
@@ -32,6 +41,20 @@ def _env_flag(name: str, default: bool) -> bool:
     return value.strip().lower() in {"1", "true", "yes", "on"}
 
 
+def _env_count(name: str, default: int, minimum: int = 0) -> int:
+    """A whole number of at least ``minimum`` from the environment; a refusal naming the variable otherwise."""
+    value = os.environ.get(name, "").strip()
+    if not value:
+        return default
+    if not (value.isascii() and value.isdigit()) or int(value) < minimum:
+        raise RuntimeError(f"{name} must be a whole number of {minimum} or more, not {value!r}.")
+    return int(value)
+
+
+def _env_list(name: str, default: str = "") -> list[str]:
+    return [item.strip() for item in os.environ.get(name, default).split(",") if item.strip()]
+
+
 DEBUG = _env_flag("DEBUG", True)
 
 # A fixed key is acceptable only with DEBUG on and no key set (bandit B105 is accepted for this line).
@@ -42,9 +65,14 @@ if not SECRET_KEY:
         raise RuntimeError("SECRET_KEY must be set when DEBUG is off.")
     SECRET_KEY = DEVELOPMENT_SECRET_KEY
 
-ALLOWED_HOSTS = [h.strip() for h in os.environ.get("ALLOWED_HOSTS", "127.0.0.1,localhost").split(",") if h.strip()]
+ALLOWED_HOSTS = _env_list("ALLOWED_HOSTS", "127.0.0.1,localhost")
 if DEBUG:
     ALLOWED_HOSTS += ["testserver"]
+CSRF_TRUSTED_ORIGINS = _env_list("CSRF_TRUSTED_ORIGINS")
+USE_X_FORWARDED_HOST = _env_flag("USE_X_FORWARDED_HOST", False)
+#: Reverse proxies in front of the web processes, each appending the address it saw to X-Forwarded-For;
+#: the sign-in limits (access/login.py) count the client address that many hops from the right.
+TRUSTED_PROXIES = _env_count("OBSOPS_TRUSTED_PROXIES", 0)
 
 INSTALLED_APPS = [
     "django.contrib.admin",
@@ -136,8 +164,8 @@ USE_I18N = False
 USE_TZ = True
 
 STATIC_URL = "static/"
-STATIC_ROOT = BASE_DIR / "staticfiles"
-STATIC_ROOT.mkdir(exist_ok=True)  # whitenoise expects it even before collectstatic (git-ignored)
+STATIC_ROOT = Path(os.environ.get("STATIC_ROOT") or BASE_DIR / "staticfiles")
+STATIC_ROOT.mkdir(parents=True, exist_ok=True)  # whitenoise expects it even before collectstatic (git-ignored)
 STATICFILES_DIRS = [BASE_DIR / "observatory_ops" / "static"]
 STORAGES = {
     "default": {"BACKEND": "django.core.files.storage.FileSystemStorage"},
@@ -158,12 +186,15 @@ DJANGO_TABLES2_TEMPLATE = "django_tables2/table.html"
 SITE_URL = os.environ.get("SITE_URL", "http://127.0.0.1:8000").rstrip("/")
 
 # --- e-mail (due digests) ---------------------------------------------------------------------------
-EMAIL_BACKEND = os.environ.get("EMAIL_BACKEND", "django.core.mail.backends.console.EmailBackend")
+EMAIL_BACKEND = os.environ.get("EMAIL_BACKEND") or "django.core.mail.backends.console.EmailBackend"
 EMAIL_HOST = os.environ.get("EMAIL_HOST", "localhost")
 EMAIL_PORT = int(os.environ.get("EMAIL_PORT", "25"))
 EMAIL_HOST_USER = os.environ.get("EMAIL_HOST_USER", "")
 EMAIL_HOST_PASSWORD = os.environ.get("EMAIL_HOST_PASSWORD", "")
-EMAIL_USE_TLS = _env_flag("EMAIL_USE_TLS", False)
+EMAIL_USE_TLS = _env_flag("EMAIL_USE_TLS", False)  # STARTTLS, usually on port 587
+EMAIL_USE_SSL = _env_flag("EMAIL_USE_SSL", False)  # TLS from the first byte, usually on port 465
+# Without a timeout a server that accepts the connection but never answers holds the digest for ever.
+EMAIL_TIMEOUT = _env_count("EMAIL_TIMEOUT", 30, minimum=1)
 DEFAULT_FROM_EMAIL = os.environ.get("DEFAULT_FROM_EMAIL", "observatory_ops <observatory-ops@localhost>")
 SERVER_EMAIL = DEFAULT_FROM_EMAIL
 
@@ -193,6 +224,13 @@ CELERY_WORKER_CANCEL_LONG_RUNNING_TASKS_ON_CONNECTION_LOSS = True
 CELERY_BROKER_CONNECTION_RETRY_ON_STARTUP = True
 # Must exceed the longest task plus its longest retry delay, or Redis hands a running task out twice.
 CELERY_BROKER_TRANSPORT_OPTIONS = {"visibility_timeout": int(os.environ.get("CELERY_VISIBILITY_TIMEOUT", "3600"))}
+# No task waits for ever on a server that stopped answering. The slowest legitimate task (tasks work one site
+# each) is a new site's first nights cache, median 1.6 s in benchmarks/bench_network.py, or a week's work-order
+# PDFs at about 60 ms an order (bench_workorder_pdf.py); 5 minutes is a wide margin. At the soft limit the task
+# gets an exception and its transaction is rolled back (the digest's day stays unsent for the next hourly
+# run); a task still running a minute later has its process ended. Both stay far below the visibility timeout.
+CELERY_TASK_SOFT_TIME_LIMIT = 300
+CELERY_TASK_TIME_LIMIT = 360
 CELERY_TIMEZONE = "UTC"
 CELERY_BEAT_SCHEDULE_FILENAME = str(DATA_DIR / "celerybeat-schedule")  # when each entry last ran
 #: The local hour (each site's own time zone) from which the day's due digest goes out.

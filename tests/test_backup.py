@@ -8,9 +8,11 @@ from __future__ import annotations
 
 import datetime as dt
 import gzip
+import hashlib
 import io
 import json
 import os
+import re
 import sqlite3
 import subprocess
 import sys
@@ -69,11 +71,23 @@ def _header_and_rows(path: Path) -> tuple[str, list[dict]]:
 
 
 def _edited(path: Path, edit) -> Path:
-    """A copy of the backup at ``path`` whose rows went through ``edit`` (a function of the row list)."""
+    """A copy of the backup at ``path`` whose rows went through ``edit`` (a function of the row list), with the
+    header's checksum written again to match, as a deliberate editor could: so the checks behind the checksum
+    are tried too."""
     header, rows = _header_and_rows(path)
+    body = json.dumps(edit(rows))
+    fields = {**json.loads(header), "body_sha256": hashlib.sha256(body.encode()).hexdigest()}
     edited = path.with_name("edited-" + path.name)
-    edited.write_text(header + "\n" + json.dumps(edit(rows)))
+    edited.write_text(json.dumps(fields) + "\n" + body)
     return edited
+
+
+def _header_changed(path: Path, change) -> Path:
+    """A copy of the backup at ``path`` with the same rows under a header that went through ``change``."""
+    header, _, body = path.read_text().partition("\n")
+    changed = path.with_name("header-changed-" + path.name)
+    changed.write_text(json.dumps(change(json.loads(header))) + "\n" + body)
+    return changed
 
 
 def _first_night(rows: list[dict]) -> dict:
@@ -159,6 +173,17 @@ def _nights_deleted(path: Path) -> Path:
     return _edited(path, lambda rows: [row for row in rows if row["model"] != "logbook.nightusage"])
 
 
+def _open_hours_changed_in_place(path: Path) -> Path:
+    """One night's dome-open hours changed by hand in a text editor, the rest of the file byte for byte as
+    written: the same rows, each still valid, under the same header."""
+    header, _, body = path.read_text().partition("\n")
+    changed = re.sub(r'"open_hours": (\d+\.\d+)', lambda m: f'"open_hours": {float(m[1]) + 1.0}', body, count=1)
+    assert changed != body and len(json.loads(changed)) == len(json.loads(body))
+    edited = path.with_name("edited-" + path.name)
+    edited.write_text(header + "\n" + changed)
+    return edited
+
+
 @pytest.mark.parametrize(("name", "damage", "message"), [
     ("record.json.gz", _cut_in_half, r"record\.json\.gz: the compressed file is damaged or cut short"),
     ("record.json", _cut_in_half, r"record\.json: the rows after its header are not complete JSON \(.+\)"),
@@ -170,6 +195,9 @@ def _nights_deleted(path: Path) -> Path:
     ("record.json", _nights_deleted,
      rf"record\.json does not hold the rows its header counts \(logbook\.nightusage: {NIGHTS_LOGGED + 1} in the "
      r"header, 0 restored\)"),
+    ("record.json", _open_hours_changed_in_place,
+     r"record\.json: the rows after its header are not those the backup wrote \(their SHA-256 differs from the "
+     r"header's\), so the file was damaged or edited"),
 ])
 def test_a_damaged_or_edited_backup_is_refused_and_changes_nothing(tmp_path, name, damage, message):
     bad = damage(_backup_of_a_small_record(tmp_path / name))
@@ -178,6 +206,79 @@ def test_a_damaged_or_edited_backup_is_refused_and_changes_nothing(tmp_path, nam
     with pytest.raises(CommandError, match=message) as refusal:
         call_command("restore", str(bad))
     assert "\n" not in str(refusal.value)
+    assert _row_counts() == before
+
+
+def _latest_migration(app: str) -> str:
+    from django.db.migrations.loader import MigrationLoader
+
+    (leaf,) = MigrationLoader(None, ignore_no_migrations=True).graph.leaf_nodes(app)
+    return leaf[1]
+
+
+def test_a_backup_records_the_migrations_it_was_taken_at_and_a_checksum_of_its_rows(tmp_path):
+    """The header lists every applied migration as [app, name], so a restore can tell the version that wrote
+    it, and the SHA-256 of the bytes after the header line (FIPS 180-4, as Python's hashlib computes it)."""
+    path = tmp_path / "record.json"
+    call_command("backup", str(path))
+    header, _, body = path.read_bytes().partition(b"\n")
+    fields = json.loads(header)
+    assert fields["format"] == "observatory_ops-backup/2"
+    for app in ("auth", "access", "registry", "planning", "logbook", "workorders", "mirrors", "api"):
+        assert [app, _latest_migration(app)] in fields["migrations"]
+    assert fields["body_sha256"] == hashlib.sha256(body).hexdigest()
+
+
+def test_a_backup_from_an_older_version_is_refused_naming_the_first_migration_it_lacks(tmp_path):
+    """Restoring it here would skip the upgrade's data migrations (a hazard a later migration adds to a kind
+    would be missing), so it is restored with the version that wrote it and then upgraded with `migrate`."""
+    path = _backup_of_a_small_record(tmp_path / "record.json")
+    planning, workorders = _latest_migration("planning"), _latest_migration("workorders")
+
+    def before_the_latest_planning_and_workorders_migrations(header):
+        later = (["planning", planning], ["workorders", workorders])
+        return {**header, "migrations": [pair for pair in header["migrations"] if pair not in later]}
+
+    older = _header_changed(path, before_the_latest_planning_and_workorders_migrations)
+    before = _row_counts()
+    with pytest.raises(CommandError) as refusal:
+        call_command("restore", str(older))
+    assert str(refusal.value) == (
+        f"{older} was written by another version of observatory_ops: this database has migration "
+        f"planning.{planning} applied, the backup's database had not (the first of 2 differences). Restore it "
+        "with the version that wrote it, then upgrade with `python manage.py migrate`"
+    )
+    assert _row_counts() == before
+
+
+def test_a_backup_from_a_newer_version_is_refused_naming_the_migration_this_one_lacks(tmp_path):
+    path = _backup_of_a_small_record(tmp_path / "record.json")
+    newer = _header_changed(path, lambda header: {
+        **header, "migrations": [*header["migrations"], ["registry", "9999_from_a_later_version"]],
+    })
+    before = _row_counts()
+    with pytest.raises(CommandError, match=(
+        r"the backup's database had migration registry\.9999_from_a_later_version applied, this database has "
+        r"not\. Restore it with the version that wrote it"
+    )):
+        call_command("restore", str(newer))
+    assert _row_counts() == before
+
+
+def test_a_backup_from_before_migrations_were_recorded_is_refused_with_what_to_do(tmp_path):
+    """Refused rather than restored with a warning: nothing in such a file says which data migrations its rows
+    missed, and a warning scrolls by while the missing hazards stay."""
+    path = _backup_of_a_small_record(tmp_path / "record.json")
+    old = _header_changed(path, lambda header: {
+        "format": "observatory_ops-backup/1", "created_at": header["created_at"], "counts": header["counts"],
+    })
+    before = _row_counts()
+    with pytest.raises(CommandError, match=(
+        r"record\.json was written by an earlier version of observatory_ops, whose backups do not record the "
+        r"migrations they were taken at, .+: restore it with the version that wrote it, then upgrade with "
+        r"`python manage\.py migrate` \(and take a new backup\)"
+    )):
+        call_command("restore", str(old))
     assert _row_counts() == before
 
 

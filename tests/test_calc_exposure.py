@@ -249,6 +249,38 @@ def test_days_reached_matches_a_plain_loop_and_the_band_brackets_the_forecast(pe
             assert e != -1 and e <= f
 
 
+def test_an_amount_counts_from_its_own_start_day():
+    """A plan serviced after the first forecast day counts expected use from its service on, not before.
+    Hand arithmetic: per day 5, 5, then 1 a day. 3 from day 0: 5 >= 3 on day 0. 3 from day 2: 1 + 1 + 1 on days
+    2, 3, 4, so day 4 (offsets stay counted from day 0). Nothing remaining from day 2: day 2 itself. From day 9,
+    past the ten days given: never."""
+    per_day = [5, 5, 1, 1, 1, 1, 1, 1, 1, 1]
+    forecast, earliest, latest = days_reached([3, 3, 0, 3], per_day, start=[0, 2, 2, 9])
+    assert forecast.tolist() == [0, 4, 2, -1]
+    assert earliest.tolist() == latest.tolist() == forecast.tolist()  # no spread: no band
+    with pytest.raises(ValueError, match="before day 0"):
+        days_reached([3], per_day, start=[-1])
+
+
+@FAST
+@given(
+    per_day=st.lists(st.floats(0, 20, allow_nan=False), min_size=0, max_size=120),
+    remaining=st.lists(st.floats(-10, 2000, allow_nan=False), min_size=1, max_size=6),
+    spread=st.floats(0, 0.9),
+    data=st.data(),
+)
+def test_from_a_start_day_the_forecast_and_band_are_those_of_the_days_from_it(per_day, remaining, spread, data):
+    """Counted from day s, everything (forecast, and a band whose months run from s) is the forecast of the days
+    from s on, shifted by s; the forecast is checked against the plain loop on those days."""
+    starts = data.draw(st.lists(st.integers(0, len(per_day) + 2), min_size=len(remaining), max_size=len(remaining)))
+    got = days_reached(remaining, per_day, spread, starts)
+    for i, (r, s) in enumerate(zip(remaining, starts, strict=True)):
+        alone = days_reached([r], per_day[s:], spread)
+        assert [g[i] for g in got] == [int(a[0]) + s if a[0] >= 0 else -1 for a in alone]
+        loop = first_day_by_loop(r, per_day[s:])
+        assert got[0][i] == (loop + s if loop >= 0 else -1)
+
+
 # --- open fraction per calendar month and its spread ------------------------------------------------
 
 

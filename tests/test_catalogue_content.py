@@ -5,7 +5,10 @@ the cautions of its hazards (``workorders.cautions``). These checks read the cat
 figure has a readings row for it or says to note it in the findings; a plan that uses CO2 snow or a cryogen
 brings a gas monitor (its caution asks for an oxygen or CO2 monitor in a closed dome); work with hands at the
 telescope carries the moving-telescope caution, and work from a platform or ladder the work-at-height one.
-Which parts belong to a telescope, and the wording checked, are common practice, no published source.
+Each kind also names what a technician measures on it, so the reading form can offer that first; a kind on which
+nothing is usually measured is one of a short list, and the form says so.
+Which parts belong to a telescope, what is measured on each kind, and the wording checked, are common practice, no
+published source.
 """
 from __future__ import annotations
 
@@ -14,7 +17,7 @@ import re
 
 import pytest
 
-from observatory_ops.logbook.quantities import PLAUSIBLE_RANGE, QUANTITIES
+from observatory_ops.logbook.quantities import PLAUSIBLE_RANGE, QUANTITIES, usual_for_kind
 from observatory_ops.registry.catalogue import BEFORE_ISOLATION, KINDS, RELEASE, RESTORE
 from observatory_ops.workorders.cautions import HAZARDS
 from observatory_ops.workorders.models import RequiredReading
@@ -120,6 +123,36 @@ def test_the_plans_the_reviewer_named_now_print_a_row_for_each_figure():
     assert "encoder_signal_pct" in rows("encoder")
     assert {"brake_pressure_bar", "brake_release_s"} <= rows("brake")  # pad wear: no quantity, in the findings
     assert any("pad wear" in step and _IN_THE_FINDINGS in step for step in KINDS["brake"].plans[0].steps)
+
+
+# --- what is measured on each kind (the reading form offers it first) ----------------------------------------
+
+#: Kinds on which nothing is usually measured: limits and interlocks are tested (they stop or they do not), cable
+#: wraps and trusses looked at and torque-marked, and "other" is anything.
+_NOTHING_MEASURED = {"limits", "cable_routing", "truss", "other"}
+
+
+@pytest.mark.parametrize("kind", KINDS.values(), ids=_id)
+def test_every_kind_names_what_is_measured_on_it_or_is_one_where_nothing_is(kind):
+    assert set(kind.quantities) <= set(QUANTITIES) & set(PLAUSIBLE_RANGE), kind.quantities
+    assert len(kind.quantities) == len(set(kind.quantities))
+    # Written once: a quantity the kind's plans already ask for or watch is not named again.
+    assert not set(kind.quantities) & {q for plan in kind.plans for q in _quantities(plan)}
+    assert bool(usual_for_kind(kind.code)) == (kind.code not in _NOTHING_MEASURED), kind.code
+
+
+def test_the_kinds_the_reviewer_named_have_what_a_technician_measures_on_them():
+    assert usual_for_kind("cooling_fans") == {"fan_current_a", "temperature_c"}  # bearings wear: current drifts
+    assert usual_for_kind("computers") == {"temperature_c"}  # disks' and processors' temperature
+    assert usual_for_kind("enclosure") == {"motor_current_a", "open_close_time_s"}  # drive current, shutter time
+    assert usual_for_kind("primary_mirror") == {"reflectance"}  # from its plan's readings, as before
+
+
+def test_the_quantities_added_for_the_kinds_have_their_units():
+    assert {code: QUANTITIES[code][1] for code in
+            ("open_close_time_s", "rcd_trip_time_ms", "focus_backlash_mm", "clearance_mm")} == {
+        "open_close_time_s": "s", "rcd_trip_time_ms": "ms", "focus_backlash_mm": "mm", "clearance_mm": "mm",
+    }
 
 
 # --- gas monitor ------------------------------------------------------------------------------------------
@@ -232,3 +265,131 @@ def test_the_upgrade_adds_what_the_catalogue_gained_to_stored_subsystems_and_pla
     assert set(fans.hazards) == {"electrical", "chemical", *KINDS["cooling_fans"].hazards}
     assert plan.readings[0] == {"quantity": "ripple_mv", "limit": "as set by the site"}  # kept as the site set it
     assert {r["quantity"] for r in plan.readings} == {q for q, _ in KINDS["dc_supplies"].plans[0].readings}
+
+
+# --- tools: what the steps use is on the list ---------------------------------------------------------------
+
+#: What a step says -> what the plan's tools must then name. Common practice, no published source, except the
+#: voltage tester proved on a known source immediately before and after the test (OSHA 29 CFR 1910.333(b)(2)(iv)(B),
+#: from memory; the electrical caution asks for the same).
+_TOOL_FOR_STEP = (
+    (r"\bRCD tester\b", "RCD tester"),
+    (r"absence of voltage", "proved on a known live source just before and just after use"),
+    (r"\btorque\b", "torque wrench"),
+    (r"\bclearances?\b|feeler gauges", "feeler gauges"),
+    (r"\bmeasure[^.;]*\bcurrent", "clamp meter"),
+    (r"\bmeasure the voltage\b", "multimeter"),
+    (r"\bripple\b", "oscilloscope"),
+    (r"tuning software", "tuning software"),
+    (r"\bCO2 snow\b", "CO2 snow gun"),
+    (r"\breflectance\b", "reflectometer"),
+    (r"\btime the brake release\b", "stopwatch"),
+    (r"supply pressure", "pressure gauge"),
+    (r"\bbacklash\b", "dial indicator"),
+    (r"\bsolvent\b", "safety data sheet"),
+    (r"release screws", "release screws"),
+    (r"alignment laser", "alignment laser"),
+)
+
+
+@pytest.mark.parametrize("kind, plan", PLANS, ids=_id)
+def test_every_tool_a_step_uses_is_on_the_plans_tools(kind, plan):
+    tools = " ".join(plan.tools).lower()
+    for pattern, tool in _TOOL_FOR_STEP:
+        for step in plan.steps:
+            if re.search(pattern, step, re.IGNORECASE):
+                assert tool.lower() in tools, f"{plan.name}: {step!r} uses a {tool} the tools do not list"
+
+
+@pytest.mark.parametrize("kind, plan", PLANS, ids=_id)
+def test_no_tool_holds_a_comma_as_the_work_order_page_lists_them_with_commas(kind, plan):
+    assert not [tool for tool in plan.tools if "," in tool], plan.name
+
+
+def test_the_plans_the_reviewer_named_now_list_their_tools():
+    ac_power = KINDS["ac_power"].plans[0]
+    assert "RCD tester" in ac_power.tools
+    assert any("voltage tester" in tool and "before and just after" in tool for tool in ac_power.tools)
+    assert "torque wrench" in KINDS["truss"].plans[0].tools
+
+
+@pytest.mark.parametrize("kind, plan", PLANS, ids=_id)
+def test_locked_out_work_on_terminals_tests_for_absence_of_voltage_first(kind, plan):
+    # The electrical caution (OSHA 29 CFR 1910.147; NFPA 70E): test before touching any conductor.
+    touched = [i for i, step in enumerate(plan.after_isolation) if re.search(r"\btermina(l|tion)s?\b", step)]
+    if touched:
+        tested = [i for i, step in enumerate(plan.after_isolation) if "absence of voltage" in step]
+        assert tested and tested[0] <= touched[0], plan.name
+
+
+# --- brakes: air-operated, or spring-applied and electrically released -------------------------------------
+
+
+def test_the_air_brake_keeps_its_code_and_its_label_says_it_is_air_operated():
+    air = KINDS["brake"]  # the code stored subsystems and the benchmark use
+    assert air.label == "Brake, air-operated (pneumatic)"
+    assert "pneumatic" in air.hazards
+
+
+def test_a_spring_applied_electrically_released_brake_is_a_kind_of_its_own_with_no_air_in_it():
+    spring = KINDS["spring_brake"]
+    assert spring.label == "Brake, spring-applied, electrically released"
+    assert spring.label.startswith("Brake") and KINDS["brake"].label.startswith("Brake")  # side by side in the list
+    # Its drive's supply releases it; its springs stay loaded with the power off (OSHA 29 CFR 1910.147(d)(5)).
+    assert set(spring.hazards) == {"electrical", "stored_mechanical", "moving_machinery"}
+    (plan,) = spring.plans
+    text = " ".join((plan.name, plan.task, *plan.steps, *plan.tools, *plan.parts)).lower()
+    for air_word in ("pneumatic", "compressed", "pressure", "air supply", "restore the air"):
+        assert air_word not in text, air_word
+    assert {q for q, _ in plan.readings} == {"clearance_mm", "supply_voltage_v"}  # air gap; coil voltage released
+    locked = " ".join(plan.after_isolation)
+    assert "restrain or relieve the spring force" in locked and "pinned or blocked" in locked
+    assert usual_for_kind("spring_brake") == {"clearance_mm", "supply_voltage_v", "brake_release_s"}
+
+
+def test_a_spring_brake_order_carries_the_spring_caution_and_asks_for_an_electrical_point_not_an_air_one(
+    telescope, users
+):
+    import datetime as dt
+
+    from observatory_ops.registry.services import subsystem_create
+    from observatory_ops.workorders import selectors, services
+    from observatory_ops.workorders.models import IsolationPoint
+
+    brake = subsystem_create(telescope, "spring_brake", "Axis 1 brake", counting_from=dt.date(2026, 1, 1))
+    order = services.work_order_from_due(list(brake.plans.all()), users["engineer"])
+    assert {"electrical", "stored_mechanical", "moving_machinery"} <= set(order.hazards)
+    assert "pneumatic" not in order.hazards and LOCKOUT_STEP in order.step_list
+    # A spring is restrained at the brake, not locked at a supply point: only the electrical supply needs a point.
+    assert selectors.isolation_gaps(order) == [
+        f"No electrical isolation point is registered for {telescope.name}: find and lock the supply before work, "
+        "and have an engineer add it to the register."
+    ]
+    IsolationPoint.objects.create(telescope=telescope, energy="ac", label="Mount isolator")
+    assert selectors.isolation_gaps(order) == []
+    printed = selectors.sheet(order, "https://ops.example/workorders/1/")
+    assert HAZARDS["stored_mechanical"] in {c.title for c in printed.cautions}
+    assert "local codes" in printed.precedence_statement.lower()
+
+
+# --- the enclosure: a dome or a roll-off roof ---------------------------------------------------------------
+
+
+@pytest.mark.parametrize("kind, plan", PLANS, ids=_id)
+def test_no_step_assumes_the_enclosure_is_a_dome(kind, plan):
+    # A roll-off roof has no shutter to close and no dome to turn (common practice, no published source): a step
+    # may name a dome only beside the enclosure it is one case of.
+    for text in (plan.name, plan.task, *plan.steps):
+        if re.search(r"\b(dome|shutter)\b", text, re.IGNORECASE):
+            assert re.search(r"\b(enclosure|roof)", text, re.IGNORECASE), text
+        # "The enclosure" is the dome or roof in these steps: an electrical box is a board or a panel.
+        assert "enclosures" not in text.lower(), text
+
+
+def test_the_recoat_removal_prepares_in_the_catalogues_words_so_an_order_writes_them_once():
+    from observatory_ops.mirrors.services import _PHASE_WORK
+
+    assert "Take the observatory out of robotic and remote control and close the enclosure." in (
+        _PHASE_WORK["removal"].before
+    )
+    assert _PHASE_WORK["removal"].before[0] in BEFORE_ISOLATION

@@ -8,19 +8,25 @@ from observatory_ops.workorders.cautions import (
     CAUTIONS,
     DANGER_TO_LIFE,
     HAZARDS,
+    ISOLATION_HAZARDS,
+    NO_ISOLATION_NEEDED,
     PRECEDENCE_STATEMENT,
+    SERIOUS_INJURY,
     SEVERITY_LABELS,
     Caution,
     cautions_for,
+    needs_isolation,
 )
 
 # The standard each hazard must name, from PRODUCT.md "Facts a check may use": OSHA 29 CFR 1910.147,
 # ANSI/ASSP Z244.1 and NFPA 70E (electrical), ISO 4414 (pneumatic), OSHA 1910.184 (slings), OSHA 1910.28
 # (fall protection), ANSI Z136.1 / IEC 60825-1 (lasers), safety data sheets under GHS (chemicals),
-# CGA P-12 (cryogens); the manufacturer's handling instructions for optical surfaces.
+# CGA P-12 (cryogens); the manufacturer's handling instructions for optical surfaces; OSHA 29 CFR 1910.147(d)(5)
+# (stored energy relieved, disconnected or restrained) for the springs of a spring-applied brake.
 REQUIRED_STANDARDS = {
     "electrical": ("1910.147", "Z244.1", "NFPA 70E"),
     "pneumatic": ("ISO 4414",),
+    "stored_mechanical": ("1910.147(d)(5)", "maker"),
     "moving_machinery": ("1910.147",),
     "suspended_load": ("1910.184",),
     "height": ("1910.28",),
@@ -109,3 +115,27 @@ def test_cautions_are_immutable():
     with pytest.raises(AttributeError):
         CAUTIONS["laser"].severity = 1  # type: ignore[misc]
     assert isinstance(CAUTIONS["laser"], Caution)
+
+
+# --- stored mechanical energy (the springs of a spring-applied brake) ----------------------------------------
+
+
+def test_the_spring_caution_says_locking_off_the_power_leaves_the_springs_loaded_and_how_to_restrain_them():
+    # OSHA 29 CFR 1910.147(d)(5)(i): after the energy isolating devices are applied, potentially hazardous stored
+    # energy shall be relieved, disconnected, restrained and otherwise rendered safe.
+    caution = CAUTIONS["stored_mechanical"]
+    text = caution.text.lower()
+    assert "stay loaded" in text and "does not release" in text
+    assert "relieve or restrain the spring force" in text and "the maker provides" in text
+    # Releasing a brake frees the axis it holds (common practice, no published source).
+    assert "pin or block the axis" in text
+    # A spring pack let go can hurt badly; the axis it frees is the moving-telescope caution's danger to life.
+    assert caution.severity == SERIOUS_INJURY
+
+
+def test_a_loaded_spring_is_part_of_energy_control_and_the_no_isolation_note_names_it():
+    # OSHA 29 CFR 1910.147(d)(5): stored energy belongs to the energy control procedure, so work whose only hazard is
+    # a spring still gets the lockout step and its stored-energy line.
+    assert "stored_mechanical" in ISOLATION_HAZARDS
+    assert needs_isolation(["stored_mechanical"])
+    assert "a loaded spring" in NO_ISOLATION_NEEDED

@@ -129,3 +129,30 @@ def test_an_existing_account_with_a_demo_username_is_left_alone_and_its_password
     assert printed["admin"] is None and printed["viewer"]
     admin.refresh_from_db()
     assert admin.check_password("a-strong-password-of-their-own") and not admin.groups.exists()
+
+
+def test_the_demo_refuses_a_database_with_users_of_its_own_saying_why_and_where_to_load_it(db):
+    """The reviewer's case: a fresh real install (migrate, createsuperuser) would have got three more logins whose
+    passwords are in the README. Nothing is added, not even the demo's logins."""
+    from django.core.management.base import CommandError
+
+    User.objects.create_superuser("admin", password="a-strong-password-of-their-own")
+    with pytest.raises(CommandError) as refused:
+        call_command("demo", "--no-serve", stdout=StringIO())
+    assert str(refused.value) == (
+        "this database already has users of its own (admin), and the demo would add logins whose passwords are "
+        "published in the README. Give the demo a database of its own: run it with OBSOPS_DATA_DIR set to an empty "
+        "folder, e.g. `OBSOPS_DATA_DIR=/tmp/obsops-demo python manage.py demo` (or with DATABASE_URL set to another "
+        "database)."
+    )
+    assert list(User.objects.values_list("username", flat=True)) == ["admin"]
+    assert not apps.get_model("registry", "Site").objects.exists()
+
+
+def test_the_demo_loaded_once_loads_again_whatever_users_were_added_to_it_since(db):
+    """A demo database stays the demo's: someone trying the admin may add a person, and `demo` still serves it."""
+    call_command("demo", "--no-serve", stdout=StringIO())
+    User.objects.create_user("trial-person", password="a-password-for-the-trial")
+    out = StringIO()
+    call_command("demo", "--no-serve", stdout=out)
+    assert "Already loaded: Vestal Ridge Observatory" in out.getvalue()

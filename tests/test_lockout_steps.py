@@ -216,10 +216,10 @@ def test_the_page_says_why_an_order_without_its_lockout_step_is_not_issued(order
     assert WorkOrder.objects.get(pk=order.pk).state == State.DRAFT
 
 
-def test_a_mirror_clean_merged_with_drive_work_closes_the_dome_once_and_keeps_its_own_parking(
+def test_a_mirror_clean_merged_with_drive_work_closes_the_enclosure_once_and_keeps_its_own_parking(
     telescope, users
 ):
-    """The shared preparation (records, out of robotic control and the dome closed) is written once; the two
+    """The shared preparation (records, out of robotic control and the enclosure closed) is written once; the two
     parking positions stay two steps, the horizon stop saying which work it is for."""
     mirror = subsystem_create(telescope, "primary_mirror", "Primary", counting_from=dt.date(2026, 1, 1))
     axis = subsystem_create(telescope, "axis1_drive", "Axis 1 drive", counting_from=dt.date(2026, 1, 1))
@@ -227,5 +227,5 @@ def test_a_mirror_clean_merged_with_drive_work_closes_the_dome_once_and_keeps_it
         [mirror.plans.get(name="Inspect and CO2-snow clean primary"), *axis.plans.all()], users["engineer"]
     )
     before = made.step_list[: made.step_list.index(LOCKOUT)]
-    assert sum("close the dome" in step.lower() for step in before) == 1
+    assert sum("close the enclosure" in step.lower() for step in before) == 1
     assert any("horizon stop" in step for step in before)

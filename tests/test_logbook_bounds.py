@@ -20,6 +20,7 @@ from observatory_ops.logbook.models import Reading, ServiceRecord
 from observatory_ops.logbook.nights_csv import earliest_accepted
 from observatory_ops.logbook.quantities import PLAUSIBLE_RANGE, QUANTITIES, usual_for_kind, value_problem
 from observatory_ops.planning.services import site_today
+from observatory_ops.registry.catalogue import KINDS
 from observatory_ops.registry.services import subsystem_create
 
 pytestmark = pytest.mark.django_db
@@ -175,9 +176,14 @@ def _offered(client, subsystem) -> tuple[list[str], list[str]]:
 
 
 @pytest.mark.parametrize(("kind", "usual"), [
-    ("brake", ["brake_pressure_bar", "brake_release_s"]),  # registry.catalogue: the brake plan's readings
+    # registry.catalogue: the brake plan's readings, and the pads' gap (Kind.quantities)
+    ("brake", ["brake_pressure_bar", "brake_release_s", "clearance_mm"]),
     ("dc_supplies", ["supply_voltage_v", "ripple_mv"]),
     ("primary_mirror", ["reflectance"]),
+    # Kinds whose plans ask for no reading: what is measured on them (Kind.quantities)
+    ("cooling_fans", ["fan_current_a", "temperature_c"]),
+    ("computers", ["temperature_c"]),
+    ("enclosure", ["motor_current_a", "open_close_time_s"]),
 ])
 def test_the_reading_form_offers_the_kinds_usual_quantities_first_even_with_no_active_plan(
     client, telescope, users, kind, usual
@@ -190,9 +196,42 @@ def test_the_reading_form_offers_the_kinds_usual_quantities_first_even_with_no_a
     assert sorted(ours + others) == sorted(QUANTITIES)  # every quantity can still be chosen
 
 
-def test_a_kind_with_no_usual_quantity_offers_every_quantity_in_one_list(client, telescope, users):
-    assert usual_for_kind("cooling_fans") == set()  # registry.catalogue names no reading for fans
+@pytest.mark.parametrize("kind", KINDS)
+def test_every_kinds_own_quantities_come_first_and_a_kind_without_says_so(client, telescope, users, kind):
+    subsystem = subsystem_create(telescope, kind, "Under test", counting_from=dt.date(2026, 1, 1))
+    subsystem.plans.update(active=False)  # only the kind's own quantities (registry.catalogue) count
+    client.force_login(users["technician"])
+    ours, others = _offered(client, subsystem)
+    assert set(ours) == usual_for_kind(kind) and sorted(ours + others) == sorted(QUANTITIES)
+    page = client.get(reverse("reading-log", args=[subsystem.pk])).content.decode()
+    assert ("Nothing is usually measured on a subsystem of this kind" in page) == (not ours)
+
+
+def test_a_kind_with_no_usual_quantity_says_so_above_the_list_of_every_quantity(client, telescope, users):
+    assert usual_for_kind("cable_routing") == set()  # cable wraps are looked at, not measured (registry.catalogue)
+    wraps = subsystem_create(telescope, "cable_routing", "Cable wraps", counting_from=dt.date(2026, 1, 1))
+    client.force_login(users["technician"])
+    ours, others = _offered(client, wraps)
+    assert ours == [] and sorted(others) == sorted(QUANTITIES)
+    page = client.get(reverse("reading-log", args=[wraps.pk])).content.decode()
+    assert ("Nothing is usually measured on a subsystem of this kind (Cable routing and cable wraps) and its plans "
+            "ask for no reading: choose the quantity from the whole list.") in page
+
+
+def test_a_kind_with_usual_quantities_does_not_say_nothing_is_measured(client, telescope, users):
     fans = subsystem_create(telescope, "cooling_fans", "Cell fans", counting_from=dt.date(2026, 1, 1))
     client.force_login(users["technician"])
-    ours, others = _offered(client, fans)
-    assert ours == [] and sorted(others) == sorted(QUANTITIES)
+    assert "Nothing is usually measured" not in client.get(reverse("reading-log", args=[fans.pk])).content.decode()
+
+
+def test_a_reading_of_a_kinds_own_quantity_is_stored_from_the_form(client, telescope, users):
+    """The enclosure's shutter time, a quantity added for it, goes through the form like any other."""
+    dome = subsystem_create(telescope, "enclosure", "Dome", counting_from=dt.date(2026, 1, 1))
+    client.force_login(users["technician"])
+    taken = timezone.localtime(timezone.now(), telescope.site.zone) - dt.timedelta(hours=1)
+    response = client.post(reverse("reading-log", args=[dome.pk]), {
+        "quantity": "open_close_time_s", "value": "74", "taken_at": taken.strftime("%Y-%m-%dT%H:%M"), "note": "",
+    })
+    assert response.status_code == 302
+    reading = Reading.objects.get(subsystem=dome)
+    assert (reading.quantity, reading.unit, reading.value) == ("open_close_time_s", "s", 74.0)

@@ -16,6 +16,7 @@ from django.core.exceptions import ValidationError
 from django.core.management import call_command
 from django.utils import timezone
 from django.utils.html import strip_tags
+from test_workorders import _confirmed, _finish_confirmations
 
 from observatory_ops.logbook import services as logbook
 from observatory_ops.logbook.models import Reading, ServiceRecord
@@ -154,7 +155,7 @@ def _mirror_admin_post(client, mirror, coating_rows: list[dict]):
 def test_a_coating_added_in_the_admin_restarts_the_recoat_plan(mirror, admin_client):
     coated_on = _today(mirror) - dt.timedelta(days=20)
     response = _mirror_admin_post(
-        admin_client, mirror, [{"coated_on": coated_on.isoformat(), "metal": "al", "layers": "[]", "note": ""}]
+        admin_client, mirror, [{"coated_on": coated_on.isoformat(), "metal": "al", "layers": "", "note": ""}]
     )
     assert response.status_code == 302
     record = ServiceRecord.objects.get(plan=_recoat_plan(mirror))
@@ -165,7 +166,7 @@ def test_a_coating_added_in_the_admin_restarts_the_recoat_plan(mirror, admin_cli
 def test_a_future_coating_in_the_admin_is_refused_and_nothing_changes(mirror, admin_client):
     tomorrow = _today(mirror) + dt.timedelta(days=1)
     response = _mirror_admin_post(
-        admin_client, mirror, [{"coated_on": tomorrow.isoformat(), "metal": "al", "layers": "[]", "note": ""}]
+        admin_client, mirror, [{"coated_on": tomorrow.isoformat(), "metal": "al", "layers": "", "note": ""}]
     )
     assert response.status_code == 200
     assert "cannot be in the future" in response.content.decode()
@@ -237,17 +238,18 @@ def test_a_work_order_reading_filed_on_the_mirror_names_its_order(mirror, users,
 
 def test_the_realignment_orders_reflectance_reading_reaches_the_mirror(mirror, users):
     from observatory_ops.calc.windows import RECOAT_PHASES
-    from observatory_ops.workorders import selectors
     from observatory_ops.workorders import services as workorders
 
     CoatingEvent.objects.create(mirror=mirror, coated_on=_today(mirror) - dt.timedelta(days=400), metal="al")
     recoat = services.recoat_plan_create(mirror, _today(mirror), list(RECOAT_PHASES), 3.5, users["engineer"])
     for order in recoat.work_orders.order_by("planned_date"):  # each phase starts once the one before is finished
+        if order.lift_inputs:  # a lift starts with the slings' working load limit entered (ASME B30.9)
+            workorders.lift_set(order, {**order.lift_inputs, "wll_kg": 500})
         workorders.work_order_move(order, "issue", users["engineer"])
         workorders.work_order_move(order, "start", users["technician"])
         readings = {r.pk: 0.89 for r in order.required_readings.all()}  # the realignment's reflectance
-        workorders.work_order_finish(order, users["technician"], 4.0, "", readings,
-                                     confirmed_unticked=[line.text for line in selectors.unticked_lines(order)])
+        workorders.work_order_finish(order, users["technician"], 4.0, "Isolation ticked on the paper.", readings,
+                                     **_confirmed(order))
     assert order.recoat_phase == "realignment"
     assert ReflectanceMeasurement.objects.filter(mirror=mirror, value=0.89).exists()
 
@@ -255,7 +257,6 @@ def test_the_realignment_orders_reflectance_reading_reaches_the_mirror(mirror, u
 def test_finishing_a_cleaning_order_puts_the_cleaning_on_the_mirrors_record(mirror, users, client):
     """The reviewer's case: a CO2-snow clean finished on its work order left no cleaning on the mirror, so the
     fit read the recovery as scatter."""
-    from observatory_ops.workorders import selectors
     from observatory_ops.workorders import services as workorders
 
     clean = ServicePlan.objects.filter(subsystem=mirror.subsystem, name__icontains="clean").first()
@@ -265,10 +266,9 @@ def test_finishing_a_cleaning_order_puts_the_cleaning_on_the_mirrors_record(mirr
     client.force_login(users["technician"])
     page = client.get(f"/workorders/{order.pk}/finish/").content.decode()
     assert f'name="cleaned_{mirror.pk}"' in page and "not cleaned in this work" in page
-    data = {"actual_hours": "2", "findings": "", f"cleaned_{mirror.pk}": "co2_snow", "confirm_unticked": "on",
+    data = {"actual_hours": "2", "findings": "Isolation ticked on the paper.", f"cleaned_{mirror.pk}": "co2_snow",
             "work_done_on": _today(mirror).isoformat(),
-            **{f"reading_{r.pk}": "0.88" for r in order.required_readings.all()},
-            "unticked": [line.text for line in selectors.unticked_lines(order)]}
+            **{f"reading_{r.pk}": "0.88" for r in order.required_readings.all()}, **_finish_confirmations(order)}
     response = client.post(f"/workorders/{order.pk}/finish/", data)
     assert response.status_code == 302, response.content.decode()[:2000]
     cleaning = CleaningEvent.objects.get(mirror=mirror)
@@ -331,7 +331,6 @@ def test_a_cleaning_logged_on_the_mirror_page_restarts_its_cleaning_plan(mirror,
 
 
 def test_a_cleaning_finished_on_its_work_order_gives_the_plan_one_record_not_two(mirror, users):
-    from observatory_ops.workorders import selectors
     from observatory_ops.workorders import services as workorders
 
     clean = ServicePlan.objects.get(subsystem=mirror.subsystem, triggers__metric=metrics.DUST_HOURS)
@@ -339,8 +338,8 @@ def test_a_cleaning_finished_on_its_work_order_gives_the_plan_one_record_not_two
     workorders.work_order_move(order, "issue", users["engineer"])
     workorders.work_order_move(order, "start", users["technician"])
     workorders.work_order_finish(
-        order, users["technician"], 2.0, "", {r.pk: 0.88 for r in order.required_readings.all()},
-        confirmed_unticked=[line.text for line in selectors.unticked_lines(order)], cleanings={mirror.pk: "co2_snow"},
+        order, users["technician"], 2.0, "Isolation ticked on the paper.",
+        {r.pk: 0.88 for r in order.required_readings.all()}, **_confirmed(order), cleanings={mirror.pk: "co2_snow"},
     )
     assert ServiceRecord.objects.filter(plan=clean).count() == 1
     assert CleaningEvent.objects.filter(mirror=mirror).count() == 1

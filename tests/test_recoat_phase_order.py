@@ -17,6 +17,8 @@ import re
 import pytest
 from django.contrib.messages import get_messages
 from pypdf import PdfReader
+from test_recoat_phases import slings_rated
+from test_workorders import _confirmed, _finish_confirmations
 
 from observatory_ops.calc.windows import RECOAT_PHASES
 from observatory_ops.mirrors import services as mirror_services
@@ -41,10 +43,11 @@ def mirror(telescope):
 
 @pytest.fixture
 def recoat(mirror, users):
-    """The four phase orders of a recoat planned from a week ahead, by phase, all drafts."""
+    """The four phase orders of a recoat planned from a week ahead, by phase, all drafts, the slings' working load
+    limit entered on each that lifts (without one it would not start: tests/test_start_holds.py)."""
     start = site_today(mirror.subsystem.telescope.site) + dt.timedelta(days=7)
     plan = mirror_services.recoat_plan_create(mirror, start, list(RECOAT_PHASES), 3.5, users["engineer"])
-    return {order.recoat_phase: order for order in plan.work_orders.all()}
+    return {order.recoat_phase: order for order in slings_rated(list(plan.work_orders.all()))}
 
 
 def _fresh(order) -> WorkOrder:
@@ -64,7 +67,7 @@ def _finished(order, users) -> WorkOrder:
     order = _fresh(order)
     services.work_order_finish(
         order, users["technician"], 8.0, "done", {r.pk: 0.9 for r in order.required_readings.all()},
-        confirmed_unticked=[line.text for line in selectors.unticked_lines(order)],
+        **_confirmed(order),
     )
     return _fresh(order)
 
@@ -205,8 +208,7 @@ def _finish_by_form(client, order, users):
     client.force_login(users["technician"])
     data = {
         "actual_hours": "8", "findings": "done", "work_done_on": site_today(order.site).isoformat(),
-        "confirm_unticked": "on", "unticked": [line.text for line in selectors.unticked_lines(order)],
-        **{f"reading_{r.pk}": "0.9" for r in order.required_readings.all()},
+        **_finish_confirmations(order), **{f"reading_{r.pk}": "0.9" for r in order.required_readings.all()},
     }
     response = client.post(f"/workorders/{order.pk}/finish/", data)
     assert response.status_code == 302, _text(response)[-1500:]

@@ -7,6 +7,7 @@ is common practice, no published source; lockout follows OSHA 29 CFR 1910.147; s
 from __future__ import annotations
 
 import datetime as dt
+import html
 import io
 import math
 
@@ -19,7 +20,9 @@ from observatory_ops.mirrors.models import CoatingEvent, Mirror
 from observatory_ops.registry.catalogue import KINDS, RELEASE
 from observatory_ops.registry.models import Subsystem
 from observatory_ops.workorders import pdf, selectors
-from observatory_ops.workorders.cautions import HAZARDS
+from observatory_ops.workorders import services as workorder_services
+from observatory_ops.workorders.cautions import HAZARDS, WORK_STOPPED_PART_WAY
+from observatory_ops.workorders.models import State, WorkOrder
 from observatory_ops.workorders.services import LOCKOUT_STEP
 
 URL = "https://ops.vestal-ridge.example/workorders/1/"
@@ -35,6 +38,19 @@ def orders(telescope, users):
     plan = services.recoat_plan_create(mirror, dt.date(2026, 8, 1), list(RECOAT_PHASES), 3.5, users["engineer"])
     removal, coating, reinstall, realignment = plan.work_orders.order_by("planned_date")
     return {"removal": removal, "coating": coating, "reinstall": reinstall, "realignment": realignment}
+
+
+#: A working load limit per sling leg, as the engineer enters it before the work starts: a lifting order starts only
+#: with one (ASME B30.9: the legs' rated capacity compared with their tension). 500 kg is far above these lifts' legs.
+SLING_WLL_KG = 500
+
+
+def slings_rated(orders):
+    """The orders, each lifting one with ``SLING_WLL_KG`` entered on its lift page (``services.lift_set``)."""
+    for order in orders:
+        if order.lift_inputs:
+            workorder_services.lift_set(order, {**order.lift_inputs, "wll_kg": SLING_WLL_KG})
+    return orders
 
 
 def _first(steps: list[str], *words: str) -> int:
@@ -112,14 +128,37 @@ def test_realignment_removes_the_locks_once_before_its_powered_collimation_check
 
 
 @pytest.mark.parametrize("phase", ["removal", "reinstall"])
-def test_the_phases_that_may_pause_over_days_off_say_first_how_to_leave_the_work(orders, phase):
+def test_the_phases_that_may_pause_over_days_off_say_how_to_leave_the_work_as_a_note_not_a_step(orders, phase, users,
+                                                                                                  client):
     """Continuity of lockout at shift or personnel changes: OSHA 29 CFR 1910.147(f)(4). A load is never left
-    suspended (common practice, no published source). Said right after the lockout, before any lift."""
-    steps = selectors.sheet(orders[phase], URL).steps
-    stop = steps.index(LOCKOUT_STEP) + 1
-    assert steps[stop].startswith("If the work stops before this order is finished")
-    assert "never left hanging" in steps[stop] and "both axes pinned" in steps[stop]
-    assert "long-term locks" in steps[stop] and "several shifts" in steps[stop]
+    suspended (common practice, no published source). It holds only if the work stops, so it is a standing note above
+    the steps, on the page and on paper, and no step to tick after the lockout whether the work stopped or not."""
+    sheet = selectors.sheet(orders[phase], URL)
+    assert sheet.standing_notes == (WORK_STOPPED_PART_WAY,)
+    assert not any("If the work stops" in step for step in sheet.steps)
+    assert sheet.steps[sheet.steps.index(LOCKOUT_STEP) + 1].startswith(("Lock both axes", "Lift the mirror"))
+    note = WORK_STOPPED_PART_WAY
+    assert "never left hanging" in note and "both axes pinned" in note
+    assert "long-term locks" in note and "several shifts" in note
+    printed = _printed(orders[phase])
+    assert f"Throughout this work: {note}" in printed
+    assert printed.index("Throughout this work") < printed.index(LOCKOUT_STEP)  # above the steps, with no box
+    client.force_login(users["technician"])
+    page = " ".join(html.unescape(client.get(orders[phase].get_absolute_url()).content.decode()).split())
+    assert f"<strong>Throughout this work:</strong> {note}" in page
+    assert page.index("Throughout this work") < page.index('id="steps"')
+
+
+def test_the_other_phases_and_finished_orders_carry_no_such_note(orders, users):
+    for phase in ("coating", "realignment"):
+        assert selectors.standing_notes(orders[phase]) == ()
+    slings_rated(orders.values())
+    removal = orders["removal"]
+    workorder_services.work_order_move(removal, "issue", users["engineer"])
+    workorder_services.work_order_move(removal, "start", users["technician"])
+    assert selectors.standing_notes(WorkOrder.objects.get(pk=removal.pk)) == (WORK_STOPPED_PART_WAY,)
+    WorkOrder.objects.filter(pk=removal.pk).update(state=State.FINISHED)  # the record, printed afterwards
+    assert selectors.standing_notes(WorkOrder.objects.get(pk=removal.pk)) == ()
 
 
 def test_coating_order_carries_the_vacuum_plant_the_lift_and_named_chemicals(orders):

@@ -15,10 +15,15 @@ from observatory_ops.logbook.models import NightUsage, ServiceRecord
 from observatory_ops.registry.models import Subsystem
 from observatory_ops.registry.services import subsystem_create
 from observatory_ops.reliability.selectors import (
+    BEFORE_LOG,
+    BEFORE_START,
     FIRST_NIGHT,
     IN_SERVICE_SINCE,
     PLANS_COUNTING_FROM,
     REGISTERED,
+    REPLACED_UNIT,
+    Start,
+    left_out_reason,
     site_reliability,
 )
 from observatory_ops.workorders.models import State, WorkOrder
@@ -157,6 +162,7 @@ def test_a_failure_with_no_operating_hours_logged_says_the_mtbf_cannot_be_estima
     client.force_login(users["viewer"])
     page = client.get(reverse("site-reliability", args=[site.slug])).content.decode()
     assert "no operating hours logged: not estimable" in page and "0 h (0 to 0 h)" not in page
+    assert "Left out: T1: Fans on the night of 05 Jan 2026 (before the first logged night" in page
 
 
 def test_the_page_lists_the_hours_each_fit_was_made_from(record, client):
@@ -234,8 +240,8 @@ def test_failures_before_a_subsystems_in_service_date_are_the_replaced_units_and
     assert (fans.failures, fans.operating_hours) == (1, pytest.approx(585.0))
     assert fans.between == [25.0] and sorted(fans.running) == [155.0, 200.0, 205.0]
     assert fans.zero_intervals == 0
-    assert [(f.subsystem, f.night) for f in fans.left_out] == [
-        ("T1: Fan A", dt.date(2026, 1, 21)), ("T1: Fan A", dt.date(2026, 2, 20)),
+    assert [(f.subsystem, f.night, f.reason) for f in fans.left_out] == [
+        ("T1: Fan A", dt.date(2026, 1, 21), REPLACED_UNIT), ("T1: Fan A", dt.date(2026, 2, 20), REPLACED_UNIT),
     ]
     # MTBF = T / n = 585 h; 90 % interval 2T / chi2(0.95; 4) to 2T / chi2(0.05; 2), quantiles from scipy.stats.chi2
     # (NIST/SEMATECH e-Handbook, chapter 8, time-terminated exponential bounds).
@@ -245,7 +251,8 @@ def test_failures_before_a_subsystems_in_service_date_are_the_replaced_units_and
     assert fans.fit is None and fans.no_fit == "too few failures for a fit: 1"
     assert fans.fit_inputs == (
         "between failures: 25 h; still running (censored): 155, 200, 205 h; "
-        "left out, before the in-service date: T1: Fan A on the nights of 21 Jan 2026, 20 Feb 2026"
+        "left out: T1: Fan A on the nights of 21 Jan 2026, 20 Feb 2026 "
+        "(on or before its in-service date: a failure of the unit it replaced)"
     )
 
 
@@ -264,7 +271,8 @@ def test_the_replaced_units_failures_leave_a_fit_of_the_rest(record, telescope, 
     assert fans.mtbf.upper_hours == pytest.approx(2 * 860.0 / stats.chi2.ppf(0.05, 8))
     assert fans.fit_inputs == (
         "between failures: 45, 50, 50, 300 h; still running (censored): 55, 155, 205 h; "
-        "left out, before the in-service date: T1: Fan A on the nights of 21 Jan 2026, 20 Feb 2026"
+        "left out: T1: Fan A on the nights of 21 Jan 2026, 20 Feb 2026 "
+        "(on or before its in-service date: a failure of the unit it replaced)"
     )
     # The fit is of the failures kept (lifelines.WeibullFitter on the same censored data, independent reference).
     reference = WeibullFitter().fit([45, 50, 50, 300, 55, 155, 205], event_observed=[1, 1, 1, 1, 0, 0, 0])
@@ -272,21 +280,106 @@ def test_the_replaced_units_failures_leave_a_fit_of_the_rest(record, telescope, 
     assert fans.fit.eta_hours == pytest.approx(reference.lambda_, rel=1e-5)
 
 
-def test_the_page_says_how_many_failures_before_the_in_service_date_were_left_out(record, client):
+def test_the_page_says_which_failures_were_left_out_and_why(record, client):
     Subsystem.objects.filter(name="Fan A").update(in_service_since=dt.date(2026, 3, 1))
     client.force_login(User.objects.get(username="viewer"))
     page = client.get(reverse("site-reliability", args=[record.slug])).content.decode()
-    assert "2 failures before the in-service date left out</summary>" in page
-    assert ("Left out, before the in-service date: T1: Fan A on the nights of 21 Jan 2026, 20 Feb 2026 "
-            "(each a failure of the unit its subsystem replaced).") in page
+    assert "2 left out</summary>" in page
+    assert ("Left out: T1: Fan A on the nights of 21 Jan 2026, 20 Feb 2026 (on or before its in-service date: a "
+            "failure of the unit it replaced). Not counted in the failures, the MTBF or the fit.") in page
     assert "came with no dome-open hours since the one before" not in page
 
 
-def test_a_failure_on_the_night_of_the_in_service_date_is_the_subsystems_own(record):
-    """Only nights before the in-service date are left out. Fan B in service since 1 Mar 2026, the night its repair
-    finished: that failure is its own, after that one night's 5 open hours; it has run 200 h since."""
+# --- which failures are a subsystem's own: left_out_reason, the one place the rule is kept ------------------
+
+
+@pytest.mark.parametrize(("night", "reason"), [
+    (dt.date(2026, 2, 28), REPLACED_UNIT),
+    (dt.date(2026, 3, 1), REPLACED_UNIT),  # the day of the swap: the order for the old unit's failure
+    (dt.date(2026, 3, 2), None),
+])
+def test_a_failure_on_or_before_the_in_service_date_is_the_replaced_units(night, reason):
+    start = Start("T1: Fan B", dt.date(2026, 3, 1), IN_SERVICE_SINCE)
+    assert left_out_reason(night, start, first_night=START) == reason
+
+
+@pytest.mark.parametrize(("night", "reason"), [
+    (dt.date(2026, 2, 28), BEFORE_START),
+    (dt.date(2026, 3, 1), None),  # the counting-from date is no replacement: its failure is the subsystem's own
+    (dt.date(2025, 12, 31), BEFORE_LOG),  # before the log too: the log is the reason no hours lead up to it
+])
+def test_a_failure_before_the_day_the_hours_count_from_or_before_the_log_has_no_hours_and_is_left_out(night, reason):
+    start = Start("T1: Fan D", dt.date(2026, 3, 1), PLANS_COUNTING_FROM)
+    assert left_out_reason(night, start, first_night=START) == reason
+
+
+def test_without_a_logged_night_no_failure_has_hours_leading_up_to_it():
+    start = Start("T1: Fans", TODAY, FIRST_NIGHT)
+    assert left_out_reason(dt.date(2026, 1, 5), start, first_night=None) == BEFORE_LOG
+
+
+def test_a_failure_on_the_night_of_the_in_service_date_is_the_replaced_units(record):
+    """The order for the failure that led to a replacement is finished the day of the swap. Fan B in service since
+    1 Mar 2026, the night its repair finished: that failure was the old unit's. By hand (5 open hours a night, log
+    1 Jan to 10 Apr 2026): fan A as in the fixture, 500 h, failures at 105 and 255 h, running 245 h; fan B 1 Mar-10
+    Apr, 41 nights, 205 h, no failure; fan C 155 h. T = 860 h, n = 2: MTBF 430 h."""
     Subsystem.objects.filter(name="Fan B").update(in_service_since=dt.date(2026, 3, 1))
     fans = next(k for k in site_reliability(record, TODAY).kinds if k.code == "cooling_fans")
-    assert fans.left_out == [] and fans.failures == 3
-    assert sorted(fans.between) == [5.0, 105.0, 150.0] and sorted(fans.running) == [155.0, 200.0, 245.0]
-    assert "left out" not in fans.fit_inputs
+    assert [(f.subsystem, f.night, f.reason) for f in fans.left_out] == [
+        ("T1: Fan B", dt.date(2026, 3, 1), REPLACED_UNIT),
+    ]
+    assert (fans.failures, fans.operating_hours) == (2, pytest.approx(860.0))
+    assert sorted(fans.between) == [105.0, 150.0] and sorted(fans.running) == [155.0, 205.0, 245.0]
+    # 90 % interval 2T / chi2(0.95; 2n+2) to 2T / chi2(0.05; 2n), quantiles from scipy.stats.chi2 (NIST/SEMATECH
+    # e-Handbook, chapter 8, time-terminated exponential bounds).
+    assert fans.mtbf.mtbf_hours == pytest.approx(430.0)
+    assert fans.mtbf.lower_hours == pytest.approx(2 * 860.0 / stats.chi2.ppf(0.95, 6))
+    assert fans.mtbf.upper_hours == pytest.approx(2 * 860.0 / stats.chi2.ppf(0.05, 4))
+
+
+def test_failures_with_no_counted_hours_before_them_are_left_out_of_the_mtbf_and_the_fit(record, telescope, users):
+    """Fan D's plans count from 1 Feb 2026: its failure on the night of 25 Jan has no counted hours before it. Fan E
+    has been in service since 1 Dec 2025, before the log began on 1 Jan 2026: its failure on the night of 15 Dec 2025
+    has no logged hours before it. Placed at 0 h they used to shorten the MTBF; now they are left out, named.
+    By hand (5 open hours a night, log 1 Jan to 10 Apr 2026, 100 nights): fan D from 1 Feb, 69 nights, 345 h, its
+    failure on the night of 10 Mar after 38 nights (190 h), running 155 h; fan E every logged night, 500 h, its
+    failure on the night of 31 Mar after 90 nights (450 h), running 50 h; with the fixture's fans (1,155 h, failures
+    after 105, 150 and 300 h, running 155, 200 and 245 h): T = 2,000 h, n = 5, MTBF 400 h."""
+    engineer = users["engineer"]
+    fan_d = subsystem_create(telescope, "cooling_fans", "Fan D", counting_from=dt.date(2026, 2, 1))
+    fan_e = subsystem_create(telescope, "cooling_fans", "Fan E", counting_from=START,
+                             in_service_since=dt.date(2025, 12, 1))
+    for subsystem, night in ((fan_d, dt.date(2026, 1, 25)), (fan_d, dt.date(2026, 3, 10)),
+                             (fan_e, dt.date(2025, 12, 15)), (fan_e, dt.date(2026, 3, 31))):
+        _order(record, [subsystem], engineer, night)
+    fans = next(k for k in site_reliability(record, TODAY).kinds if k.code == "cooling_fans")
+    assert [(f.subsystem, f.night, f.reason) for f in fans.left_out] == [
+        ("T1: Fan D", dt.date(2026, 1, 25), BEFORE_START), ("T1: Fan E", dt.date(2025, 12, 15), BEFORE_LOG),
+    ]
+    assert (fans.failures, fans.operating_hours, fans.zero_intervals) == (5, pytest.approx(2000.0), 0)
+    assert sorted(fans.between) == [105.0, 150.0, 190.0, 300.0, 450.0]
+    assert sorted(fans.running) == [50.0, 155.0, 155.0, 200.0, 245.0]
+    # MTBF and its 90 % interval, quantiles from scipy.stats.chi2 (NIST/SEMATECH e-Handbook, chapter 8).
+    assert fans.mtbf.mtbf_hours == pytest.approx(400.0)
+    assert fans.mtbf.lower_hours == pytest.approx(2 * 2000.0 / stats.chi2.ppf(0.95, 12))
+    assert fans.mtbf.upper_hours == pytest.approx(2 * 2000.0 / stats.chi2.ppf(0.05, 10))
+    # The fit is of the failures kept (lifelines.WeibullFitter on the same censored data, independent reference).
+    reference = WeibullFitter().fit([105, 150, 190, 300, 450, 50, 155, 155, 200, 245],
+                                    event_observed=[1, 1, 1, 1, 1, 0, 0, 0, 0, 0])
+    assert fans.fit.beta == pytest.approx(reference.rho_, rel=1e-5)
+    assert fans.fit.eta_hours == pytest.approx(reference.lambda_, rel=1e-5)
+    assert fans.fit_inputs.endswith(
+        "left out: T1: Fan D on the night of 25 Jan 2026 (before the day its hours are counted from: no counted hours "
+        "lead up to it); T1: Fan E on the night of 15 Dec 2025 (before the first logged night: no logged hours lead "
+        "up to it)"
+    )
+
+
+def test_the_page_names_the_failures_with_no_hours_before_them(record, telescope, users, client):
+    fan_d = subsystem_create(telescope, "cooling_fans", "Fan D", counting_from=dt.date(2026, 2, 1))
+    _order(record, [fan_d], users["engineer"], dt.date(2026, 1, 25))
+    client.force_login(users["viewer"])
+    page = client.get(reverse("site-reliability", args=[record.slug])).content.decode()
+    assert "1 left out</summary>" in page
+    assert ("Left out: T1: Fan D on the night of 25 Jan 2026 (before the day its hours are counted from: no counted "
+            "hours lead up to it). Not counted in the failures, the MTBF or the fit.") in page

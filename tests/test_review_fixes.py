@@ -284,16 +284,15 @@ def test_the_printed_order_gives_its_dates_as_day_month_year(merged):
     assert not re.search(r"\b\d{4}-\d{2}-\d{2}\b", text)
 
 
-def test_the_finished_checklist_record_gives_the_time_as_day_month_year(merged, users):
+def test_the_finished_papers_ticks_give_the_time_as_day_month_year(merged, users):
     """Recorded at 09:30 UTC on 23 March 2027: 10:30 in Madrid, which keeps UTC+1 until the last Sunday of
-    March (IANA time zone database, Europe/Madrid)."""
+    March (IANA time zone database, Europe/Madrid). Printed beside the step it ticks."""
     order, _ = merged
     order.state = State.FINISHED
     tick = ChecklistTick.objects.create(work_order=order, kind=ChecklistTick.Kind.STEP, step_index=0,
                                         text=order.step_list[0], ticked=True, recorded_by=users["technician"])
     ChecklistTick.objects.filter(pk=tick.pk).update(recorded_at=dt.datetime(2027, 3, 23, 9, 30, tzinfo=dt.UTC))
-    record = selectors.checklist_record(order, selectors.isolation_points(order))
-    assert record[0] == f"Step 1: {order.step_list[0]} \N{EM DASH} ticked by technician, 23 Mar 2027 10:30"
+    assert selectors.sheet(order, URL).step_ticks[0].note == "ticked by technician, 23 Mar 2027 10:30"
 
 
 def test_the_calendar_trigger_basis_names_its_start_day_month_year():

@@ -30,6 +30,7 @@ from observatory_ops.access.roles import ADMINISTRATOR, ROLES, VIEWER, has_role,
 from observatory_ops.logbook.models import ServiceRecord
 from observatory_ops.mirrors.models import Mirror
 from observatory_ops.registry.services import subsystem_create
+from observatory_ops.workorders.models import Part
 from observatory_ops.workorders.services import work_order_ad_hoc
 
 SKIPPED = ("admin/", "login/", "logout/", "static/")
@@ -108,12 +109,14 @@ def records(site, telescope, users):
     order = work_order_ad_hoc(site, [subsystem], "Brake squeals on slews", users["engineer"])
     primary = subsystem_create(telescope, "primary_mirror", "Primary mirror", counting_from=dt.date(2025, 1, 1))
     mirror = Mirror.objects.create(subsystem=primary, diameter_mm=500, thickness_mm=60, material="borosilicate")
+    part = Part.objects.create(site=site, name="Brake pad set", quantity_on_hand=2)
     return {
         ("sites", "slug"): site.slug,
         ("subsystems", "pk"): subsystem.pk,
         ("service", "pk"): record.pk,
         ("workorders", "pk"): order.pk,
         ("mirrors", "pk"): mirror.pk,
+        ("parts", "pk"): part.pk,
         ("history", "label"): "registry.subsystem",
         ("record", "pk"): subsystem.pk,
         # A move the draft order cannot take, so an allowed empty POST changes nothing either.

@@ -17,13 +17,20 @@ from django.test.utils import CaptureQueriesContext
 from django.utils import dateformat
 from django.utils.html import escape
 from pypdf import PdfReader
-from test_workorders import _all_readings, _unticked, drive, order  # noqa: F401  (fixtures, used by name)
+from test_workorders import (  # noqa: F401  (fixtures, used by name)
+    ISOLATED,
+    _all_readings,
+    _confirmed,
+    drive,
+    order,
+)
 
 from observatory_ops.registry.catalogue import RELEASE
 from observatory_ops.registry.models import Telescope
 from observatory_ops.workorders import pdf, selectors, services
-from observatory_ops.workorders.cautions import needs_isolation
+from observatory_ops.workorders.cautions import ISOLATION_UNTICKED, needs_isolation
 from observatory_ops.workorders.models import ChecklistTick, IsolationPoint, State, WorkOrder
+from observatory_ops.workorders.sheet import SheetTick
 
 STEP, POINT = ChecklistTick.Kind.STEP, ChecklistTick.Kind.POINT
 # The test site's zone (tests/conftest.py), read here from the IANA database directly, not from the site.
@@ -40,7 +47,7 @@ def _start(work_order, users):
 def _finish(work_order, users):
     services.work_order_finish(
         work_order, users["technician"], 2.0, "brake pads fine", _all_readings(work_order, 0.7),
-        confirmed_unticked=_unticked(work_order),
+        **_confirmed(work_order),
     )
     work_order.refresh_from_db()
     return work_order
@@ -599,7 +606,7 @@ def test_a_finished_order_shows_its_ticks_read_only(underway, users, client):
 # --- the printed record ---------------------------------------------------------------------------------
 
 
-def test_the_finished_record_lists_the_confirmations_with_who_and_when(underway, users):
+def test_the_finished_paper_prints_each_tick_once_beside_its_line_with_who_and_when(underway, users):
     point = _point(underway)
     services.checklist_tick_set(underway, POINT, point.pk, True, users["technician"])
     services.checklist_tick_set(underway, STEP, 0, True, users["technician"])
@@ -611,27 +618,63 @@ def test_the_finished_record_lists_the_confirmations_with_who_and_when(underway,
     sheet = selectors.sheet(underway, "https://ops.example/wo/1/")
     step_tick = ChecklistTick.objects.get(kind=STEP, step_index=0)
     point_tick = ChecklistTick.objects.get(kind=POINT)
+    taken_back = ChecklistTick.objects.filter(kind=STEP, step_index=2).last()
     local = "%d %b %Y %H:%M"
-    # Step 3 was ticked and taken back: with every other step it was open when the work was finished, and
-    # the technician confirmed them on the finish form.
-    open_steps = tuple(f"Step {n}: {underway.step_list[n - 1]}" for n in range(2, len(underway.step_list) + 1))
+    lockout = underway.step_list.index(services.LOCKOUT_STEP)
+    # Beside each line: who ticked it and when, or, for a line nobody ticked, what the technician confirmed at
+    # finishing: the lockout step on its own (the energy isolated, tests/test_workorder_finish_record.py), the
+    # others as done or not applicable. Step 3 was ticked and taken back: both are said.
+    assert sheet.point_ticks == (
+        SheetTick(True, f"ticked by technician, {point_tick.recorded_at.astimezone(MADRID).strftime(local)}"),
+    )
+    assert sheet.step_ticks[0] == SheetTick(
+        True, f"ticked by technician, {step_tick.recorded_at.astimezone(MADRID).strftime(local)}"
+    )
+    assert sheet.step_ticks[2] == SheetTick(
+        False, f"tick taken back by engineer, {taken_back.recorded_at.astimezone(MADRID).strftime(local)}; not ticked; "
+        "at finishing technician confirmed it was done or did not apply"
+    )
+    assert sheet.step_ticks[lockout] == SheetTick(
+        False, "not ticked; at finishing technician confirmed: the energy was isolated, not ticked here"
+    )
+    # The list after the readings carries only what no line does: the answer for the isolation, in full.
     assert sheet.confirmations == (
-        f"Step 1: {underway.step_list[0]} \N{EM DASH} ticked by technician, "
-        f"{step_tick.recorded_at.astimezone(MADRID).strftime(local)}",
-        f"Isolation point: {point.description} \N{EM DASH} ticked by technician, "
-        f"{point_tick.recorded_at.astimezone(MADRID).strftime(local)}",
-        "Not ticked when the work was finished; technician confirmed that each of these was done or did not "
-        "apply:",
-        *open_steps,
+        "Finished with the energy isolation not ticked; technician confirmed, apart from the other lines: "
+        + ISOLATION_UNTICKED[ISOLATED],
     )
     pages = PdfReader(io.BytesIO(pdf.render_sheet(sheet))).pages
     text = " ".join(" ".join(page.extract_text().split()) for page in pages)
-    assert "Checklist as ticked on the work order page" in text
-    assert "Isolation point: T1: AC mains: Mount isolator" in text and "ticked by technician" in text
+    assert "Checklist as ticked" not in text and "Confirmed when the work was finished" in text
+    when = step_tick.recorded_at.astimezone(MADRID).strftime(local)
+    assert text.count(f"ticked by technician, {when}") == 1 + (
+        point_tick.recorded_at.astimezone(MADRID).strftime(local) == when
+    )  # once, beside step 1 (the point's tick, in the same minute, is beside the point)
+    assert text.count(underway.step_list[0]) == 1
 
     services.work_order_move(underway, "countersign", users["engineer"])
     underway.refresh_from_db()
     assert selectors.sheet(underway, "https://ops.example/wo/1/").confirmations == sheet.confirmations
+
+
+def test_a_tick_on_a_line_no_longer_on_the_order_is_kept_in_the_list_after_the_readings(underway, users):
+    """The one thing only the second list carried: a tick on a line the order no longer lists (here its isolation
+    point, moved to another telescope after the work), by whom and when. A tick on a line whose words changed since
+    is said beside that line, once."""
+    point = _point(underway)
+    tick = services.checklist_tick_set(underway, POINT, point.pk, True, users["technician"])
+    _finish(underway, users)
+    IsolationPoint.objects.filter(pk=point.pk).update(label="Mount main isolator")
+    sheet = selectors.sheet(underway, "https://ops.example/wo/1/")
+    assert not any("Mount isolator" in line for line in sheet.confirmations)
+    assert not sheet.point_ticks[0].ticked and f"when it read \"{tick.text}\"" in sheet.point_ticks[0].note
+
+    elsewhere = Telescope.objects.create(site=underway.site, name="T2", aperture_m=0.4, mount="fork")
+    IsolationPoint.objects.filter(pk=point.pk).update(telescope=elsewhere)
+    sheet = selectors.sheet(underway, "https://ops.example/wo/1/")
+    when = tick.recorded_at.astimezone(MADRID).strftime("%d %b %Y %H:%M")
+    assert sheet.confirmations[-1] == (
+        f"Isolation point (no longer on this order): {tick.text} \N{EM DASH} ticked by technician, {when}"
+    )
 
 
 # --- finishing with lines not ticked -----------------------------------------------------------------------
@@ -645,20 +688,32 @@ def _finish_form(work_order, **extra) -> dict:
     return {**data, **extra}
 
 
-def test_the_finish_page_lists_the_unticked_lines_isolation_points_first(underway, users, client):
+def test_the_finish_page_lists_the_unticked_lines_the_energy_isolation_apart_and_first(underway, users, client):
     services.checklist_tick_set(underway, STEP, 0, True, users["technician"])
     client.force_login(users["technician"])
     page = client.get(f"/workorders/{underway.pk}/finish/").content.decode()
-    listed = re.findall(r"<li>(Isolation point|Step \d+): ", page.split('<ul class="unticked">')[1].split("</ul>")[0])
-    assert listed == ["Isolation point", *(f"Step {n}" for n in range(2, len(underway.step_list) + 1))]
-    assert "I confirm the unticked lines were done or did not apply" in page
+
+    def listed(opening: str) -> list[str]:
+        return re.findall(r"<li>(Isolation point|Step \d+): ", page.split(opening)[1].split("</ul>")[0])
+
+    lockout = underway.step_list.index(services.LOCKOUT_STEP) + 1
+    assert page.index('<ul class="unticked isolation">') < page.index('<ul class="unticked">')
+    assert listed('<ul class="unticked isolation">') == ["Isolation point", f"Step {lockout}"]
+    assert listed('<ul class="unticked">') == [
+        f"Step {n}" for n in range(2, len(underway.step_list) + 1) if n != lockout
+    ]
+    assert "I confirm the other unticked lines were done or did not apply" in page
 
 
 def test_finishing_with_unticked_lines_needs_the_confirmation_and_the_record_keeps_it(underway, users, client):
     services.checklist_tick_set(underway, POINT, _point(underway).pk, True, users["technician"])
+    lockout = underway.step_list.index(services.LOCKOUT_STEP)
+    services.checklist_tick_set(underway, STEP, lockout, True, users["technician"])
     client.force_login(users["technician"])
     open_steps = [line.text for line in selectors.unticked_lines(underway)]
-    assert open_steps == underway.step_list  # the point is ticked, no step is
+    # The point and the lockout are ticked, no other step is: no question on the energy isolation.
+    assert open_steps == [step for index, step in enumerate(underway.step_list) if index != lockout]
+    assert 'name="isolation_answer"' not in client.get(f"/workorders/{underway.pk}/finish/").content.decode()
 
     page = client.post(f"/workorders/{underway.pk}/finish/", _finish_form(underway, unticked=open_steps))
     assert "confirm here that they were done or did not apply" in page.content.decode()
@@ -668,7 +723,10 @@ def test_finishing_with_unticked_lines_needs_the_confirmation_and_the_record_kee
     page = client.post(f"/workorders/{underway.pk}/finish/", confirmed, follow=True).content.decode()
     underway.refresh_from_db()
     assert underway.state == State.FINISHED
-    assert underway.unticked_at_finish == [f"Step {n}: {text}" for n, text in enumerate(open_steps, start=1)]
+    assert underway.unticked_at_finish == [
+        f"Step {n}: {text}" for n, text in enumerate(underway.step_list, start=1) if n != lockout + 1
+    ]
+    assert underway.isolation_unticked_at_finish == [] and underway.isolation_confirmed_at_finish == ""
     assert len(open_steps) > 1
     assert f"Finished with {len(open_steps)} checklist lines not ticked; technician confirmed" in page
     assert f"{len(open_steps)} unticked lines confirmed as done or not applicable are on the record." in page

@@ -129,7 +129,7 @@ def test_the_expected_use_by_month_shown_reproduces_the_forecast_date(db, users,
     client.force_login(users["viewer"])
     page = client.get(fans.get_absolute_url()).content.decode()
     assert f"{forecast_on:%d %b %Y}" in page
-    first_day = dt.datetime.strptime(re.search(r"counted from\s+(\d\d \w{3} \d{4})", page)[1], "%d %b %Y").date()
+    first_day = dt.datetime.strptime(re.search(r"total counts from\s+(\d\d \w{3} \d{4})", page)[1], "%d %b %Y").date()
 
     remaining, total, found = hours["limit"] - hours["value"], 0.0, None
     for month, nights, dark, fraction, _pm10, per_day, *_ in _month_rows(page):

@@ -201,11 +201,12 @@ def test_the_digest_goes_out_from_the_local_hour_on_once_a_day_at_each_site(mail
     monkeypatch.setattr(timezone, "now", lambda: dt.datetime(2026, 12, 2, 8, 0, tzinfo=dt.UTC))
     hour = settings.SITE_DIGEST_HOUR
     assert planning_tasks.sites_due_digest_all.delay(local_hour=hour).get() == 1  # Greenwich only
-    assert len(mail.outbox) == 1 and mail.outbox[0].subject.startswith(greenwich.name)
+    mailed = [message.subject.split(":")[0] for message in mail.outbox]  # one message each to two people
+    assert mailed == [greenwich.name] * 2
     assert planning_tasks.sites_due_digest_all.delay(local_hour=hour).get() == 0  # sent today: not asked again
     monkeypatch.setattr(timezone, "now", lambda: dt.datetime(2026, 12, 2, 13, 30, tzinfo=dt.UTC))  # 06:30 Denver
     assert planning_tasks.sites_due_digest_all.delay(local_hour=hour).get() == 1
-    assert len(mail.outbox) == 2
+    assert [message.subject.split(":")[0] for message in mail.outbox[2:]] == [denver.name] * 2
 
 
 def test_a_digest_lists_the_sites_today_even_when_its_states_are_from_yesterday(mailed_people):
@@ -343,9 +344,10 @@ def test_digest_goes_to_the_engineers_with_every_overdue_and_due_item_and_its_re
     assert listed and later  # the site has items of each kind (limits and dome 100 of 90 days: overdue)
 
     assert planning_tasks.due_digest_send.delay(site.pk).get() == 2
-    (message,) = mail.outbox
     # The engineer role and above: the administrator too (the README's install makes a superuser first).
-    assert message.to == ["administrator@vestal-ridge.invalid", "engineer@vestal-ridge.invalid"]
+    assert sorted(address for m in mail.outbox for address in m.recipients()) == [
+        "administrator@vestal-ridge.invalid", "engineer@vestal-ridge.invalid"]
+    message = mail.outbox[0]
     overdue = sum(s.status == "overdue" for s in listed)
     assert message.subject.startswith(f"Site digest: {overdue} overdue, {len(listed) - overdue} due")
     for state in listed:
@@ -359,26 +361,70 @@ def test_digest_is_sent_once_a_day_however_often_the_task_runs(mailed_people):
     planning.site_recompute(site)
     assert planning_tasks.due_digest_send.delay(site.pk).get() == 2  # the engineer and the administrator
     assert planning_tasks.due_digest_send.delay(site.pk).get() == 0
-    assert len(mail.outbox) == 1
+    assert len(mail.outbox) == 2
+
+
+def test_each_engineer_gets_a_message_of_their_own_and_sees_no_other_address(mailed_people):
+    """Engineers of different sites need not know each other's addresses: one message per person, with no
+    copies (RFC 5322, section 3.6.3: every address in To and Cc is shown to all who receive the message)."""
+    site = site_in_use("private")
+    planning.site_recompute(site)
+    assert digest.due_digest_send(site) == 2
+    assert [m.to for m in mail.outbox] == [["administrator@vestal-ridge.invalid"], ["engineer@vestal-ridge.invalid"]]
+    assert all(not m.cc and not m.bcc for m in mail.outbox)
+    assert mail.outbox[0].subject == mail.outbox[1].subject and mail.outbox[0].body == mail.outbox[1].body
 
 
 def test_a_digest_that_could_not_be_sent_is_sent_by_the_next_run(mailed_people, monkeypatch):
     import smtplib
 
-    from django.core.mail import EmailMessage
+    from django.core.mail.backends.locmem import EmailBackend
 
     site = site_in_use("smtp")
     planning.site_recompute(site)
-    send = EmailMessage.send
+    send_messages = EmailBackend.send_messages
 
-    def refused(self, *args, **kwargs):
+    def refused(self, messages):
         raise smtplib.SMTPServerDisconnected("connection unexpectedly closed")
 
-    monkeypatch.setattr(EmailMessage, "send", refused)
+    monkeypatch.setattr(EmailBackend, "send_messages", refused)
     with pytest.raises(smtplib.SMTPServerDisconnected):
         planning_tasks.due_digest_send.delay(site.pk)
-    monkeypatch.setattr(EmailMessage, "send", send)
+    site.refresh_from_db()
+    assert site.digest_sent_on is None
+    monkeypatch.setattr(EmailBackend, "send_messages", send_messages)
     assert planning_tasks.due_digest_send.delay(site.pk).get() == 2
+
+
+@pytest.fixture
+def mail_server_that_never_greets(settings):
+    """A listener on loopback that accepts connections (the kernel completes them) and never says a word:
+    an SMTP client waits for the server's greeting first (RFC 5321, section 3.1)."""
+    import socket
+
+    with socket.socket() as silent:
+        silent.bind(("127.0.0.1", 0))
+        silent.listen(8)
+        settings.EMAIL_BACKEND = "django.core.mail.backends.smtp.EmailBackend"
+        settings.EMAIL_HOST, settings.EMAIL_PORT = silent.getsockname()
+        settings.EMAIL_TIMEOUT = 1
+        yield silent
+
+
+def test_a_mail_server_that_never_answers_gives_up_and_leaves_the_day_to_the_next_run(
+        mailed_people, mail_server_that_never_greets, settings):
+    """Without EMAIL_TIMEOUT the digest would wait for ever; with it the send fails (retried by the task, and
+    inline here the error reaches the caller), the day stays unsent, and the next run sends it."""
+    site = site_in_use("silent-smtp")
+    planning.site_recompute(site)
+    with pytest.raises(OSError, match="timed out"):
+        planning_tasks.due_digest_send.delay(site.pk)
+    site.refresh_from_db()
+    assert site.digest_sent_on is None and not mail.outbox
+    settings.EMAIL_BACKEND = "django.core.mail.backends.locmem.EmailBackend"  # the server answers again
+    assert planning_tasks.due_digest_send.delay(site.pk).get() == 2
+    site.refresh_from_db()
+    assert site.digest_sent_on == planning.site_today(site)
 
 
 def test_no_digest_when_nothing_is_due(mailed_people):
@@ -406,4 +452,22 @@ def test_the_digest_command_sends_each_site_once_a_day_for_cron(mailed_people):
     call_command("digest", "--site", "cron", stdout=out)
     assert f"{site.name}: sent to 2 address(es)" in out.getvalue()
     call_command("digest", "--site", "cron", stdout=out)
-    assert "nothing sent" in out.getvalue() and len(mail.outbox) == 1
+    assert "nothing sent" in out.getvalue() and len(mail.outbox) == 2
+
+
+def test_the_digest_command_says_when_mail_is_only_printed(mailed_people, settings, capsys):
+    """The console backend (the default) prints each message instead of sending it: the command says so."""
+    from io import StringIO
+
+    from django.core.management import call_command
+
+    settings.EMAIL_BACKEND = "django.core.mail.backends.console.EmailBackend"
+    site = site_in_use("console")
+    planning.site_recompute(site)
+    out = StringIO()
+    call_command("digest", "--site", "console", stdout=out)
+    assert out.getvalue() == (
+        f"{site.name}: printed to the log, not sent, for 2 address(es): EMAIL_BACKEND is the console backend (set "
+        "EMAIL_BACKEND=django.core.mail.backends.smtp.EmailBackend and EMAIL_HOST to send)\n"
+    )
+    assert capsys.readouterr().out.count(f"Subject: {site.name}:") == 2 and not mail.outbox

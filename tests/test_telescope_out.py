@@ -15,7 +15,8 @@ import re
 
 import pytest
 from pypdf import PdfReader
-from test_recoat_phases import orders  # noqa: F401  (fixture, used by name)
+from test_recoat_phases import orders, slings_rated  # noqa: F401  (orders: a fixture, used by name)
+from test_workorders import _confirmed
 
 from observatory_ops.calc.windows import RECOAT_PHASES
 from observatory_ops.registry.services import subsystem_create
@@ -29,8 +30,8 @@ OUT = "T1 is out of service: its primary mirror is out"
 @pytest.fixture
 def recoat(orders):  # noqa: F811  (the imported fixture)
     """The recoat of tests/test_recoat_phases.py (a 500 mm primary, planned from 1 Aug 2026), its four phase
-    orders by the phase each carries."""
-    return {order.recoat_phase: order for order in orders.values()}
+    orders by the phase each carries, the slings' working load limit entered on each that lifts."""
+    return {order.recoat_phase: order for order in slings_rated(list(orders.values()))}
 
 
 @pytest.fixture
@@ -51,7 +52,7 @@ def _finish(order, users) -> None:
     services.work_order_move(order, "start", users["technician"])
     services.work_order_finish(
         order, users["technician"], 8.0, "done", {r.pk: 0.9 for r in order.required_readings.all()},
-        confirmed_unticked=[line.text for line in selectors.unticked_lines(order)],
+        **_confirmed(order),
     )
 
 

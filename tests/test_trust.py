@@ -163,7 +163,8 @@ def test_a_completion_interrupted_part_way_leaves_the_data_as_it_was(site, teles
     monkeypatch.setattr(services, "site_recompute", broken_recompute)
     with pytest.raises(RuntimeError):
         services.work_order_finish(order, users["technician"], 1.5, "done", {},
-                                   confirmed_unticked=[line.text for line in selectors.unticked_lines(order)])
+                                   confirmed_unticked=[line.text for line in selectors.unticked_lines(order)],
+                                   isolation_answer="isolated")
     assert _snapshot() == before
     order.refresh_from_db()
     assert order.state == State.UNDERWAY
@@ -184,9 +185,11 @@ def test_two_people_finishing_at_once_yield_one_completion(site, telescope, user
     services.work_order_move(order, "start", users["technician"])
     stale = type(order).objects.get(pk=order.pk)  # the second person's copy, loaded before the first finishes
     confirmed = [line.text for line in selectors.unticked_lines(order)]  # nothing ticked, all confirmed
-    services.work_order_finish(order, users["technician"], 1.0, "first", {}, confirmed_unticked=confirmed)
+    services.work_order_finish(order, users["technician"], 1.0, "first", {}, confirmed_unticked=confirmed,
+                               isolation_answer="isolated")
     with pytest.raises(services.Refused, match="already been finished by someone else"):
-        services.work_order_finish(stale, users["engineer"], 1.0, "second", {}, confirmed_unticked=confirmed)
+        services.work_order_finish(stale, users["engineer"], 1.0, "second", {}, confirmed_unticked=confirmed,
+                                   isolation_answer="isolated")
     assert ServiceRecord.objects.filter(work_order=order).count() == fans.plans.count()
 
 

@@ -329,7 +329,8 @@ def test_finishing_one_work_order_from_two_connections_at_once_yields_one_comple
     confirmed = [line.text for line in selectors.unticked_lines(order)]  # nothing ticked, all confirmed
 
     def finish(copy, who, note):
-        return lambda: services.work_order_finish(copy, users[who], 1.0, note, {}, confirmed_unticked=confirmed)
+        return lambda: services.work_order_finish(copy, users[who], 1.0, note, {}, confirmed_unticked=confirmed,
+                                                  isolation_answer="isolated")
 
     results, seen = _race(finish(copies[0], "technician", "first"), finish(copies[1], "engineer", "second"),
                           monkeypatch, services, "site_recompute")

@@ -43,7 +43,7 @@ def test_work_done_before_the_start_on_the_system_but_after_the_issue_is_accepte
     assert order.started_at.astimezone(order.site.zone).date() > day
     services.work_order_finish(order, users["technician"], 2.0, "from paper",
                                {r.pk: 0.6 for r in order.required_readings.all()},
-                               confirmed_unticked=_unticked(order), work_done_on=day)
+                               confirmed_unticked=_unticked(order), isolation_answer="isolated", work_done_on=day)
     assert ServiceRecord.objects.get(work_order=order).performed_on == day
 
 

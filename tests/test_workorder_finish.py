@@ -15,7 +15,14 @@ import pytest
 from conftest import site_in_use
 from django.contrib.messages import get_messages
 from django.utils import timezone
-from test_workorders import _all_readings, _unticked, drive, order  # noqa: F401  (fixtures, used by name)
+from test_recoat_phases import slings_rated
+from test_workorders import (  # noqa: F401  (fixtures, used by name)
+    _all_readings,
+    _confirmed,
+    _finish_confirmations,
+    drive,
+    order,
+)
 
 from observatory_ops.calc.windows import RECOAT_PHASES
 from observatory_ops.logbook.models import Reading, ServiceRecord
@@ -46,7 +53,7 @@ def _post(work_order, **fields) -> dict:
     """The finish form as a technician fills it in, every unticked line confirmed; ``fields`` change it."""
     data = {
         "actual_hours": "2", "findings": "ok", "work_done_on": site_today(work_order.site).isoformat(),
-        "confirm_unticked": "on", "unticked": _unticked(work_order),
+        **_finish_confirmations(work_order),
         **{f"reading_{r.pk}": "0.6" for r in work_order.required_readings.all()},
     }
     return {**data, **fields}
@@ -125,8 +132,8 @@ def test_a_paper_order_entered_two_days_later_dates_its_records_readings_and_the
 def test_work_done_today_is_recorded_with_the_readings_taken_now(order, users):  # noqa: F811
     _started(order, users)
     before = timezone.now()
-    services.work_order_finish(order, users["technician"], 1.0, "", _all_readings(order, 0.6),
-                               confirmed_unticked=_unticked(order))
+    services.work_order_finish(order, users["technician"], 1.0, "Isolation ticked on the paper.",
+                               _all_readings(order, 0.6), **_confirmed(order))
     assert ServiceRecord.objects.get(work_order=order).performed_on == site_today(order.site)
     assert all(r.reading.taken_at >= before for r in order.required_readings.select_related("reading"))
 
@@ -154,8 +161,8 @@ def test_a_future_day_or_one_before_the_order_was_issued_is_refused_naming_the_f
     assert part.quantity_on_hand == 3
     # The service refuses it as well, for any caller that is not the form.
     with pytest.raises(services.Refused, match=re.escape(f"work done on: {expected[len('Work done on: '):]}")):
-        services.work_order_finish(order, users["technician"], 1.0, "", _all_readings(order, 0.6),
-                                   confirmed_unticked=_unticked(order), work_done_on=day)
+        services.work_order_finish(order, users["technician"], 1.0, "ok", _all_readings(order, 0.6),
+                                   **_confirmed(order), work_done_on=day)
     _nothing_stored(order)
 
 
@@ -227,10 +234,10 @@ def test_a_cleaning_two_days_ago_is_dated_that_day_with_its_reflectance(cleaning
 @pytest.fixture
 def recoat(mirror, users):
     """The four phase orders of a recoat of the mirror, a week from now: removal, coating, reinstall,
-    realignment."""
+    realignment; the slings' working load limit entered on each that lifts (a lift starts only with one)."""
     start = site_today(mirror.subsystem.telescope.site) + dt.timedelta(days=7)
     plan = mirror_services.recoat_plan_create(mirror, start, list(RECOAT_PHASES), 3.5, users["engineer"])
-    removal, coating, reinstall, realignment = plan.work_orders.order_by("pk")
+    removal, coating, reinstall, realignment = slings_rated(list(plan.work_orders.order_by("pk")))
     assert [o.recoat_phase for o in (removal, coating, reinstall, realignment)] == [
         "removal", "coating", "reinstall", "realignment"
     ]
@@ -243,7 +250,7 @@ def _earlier_phases_finished(recoat, phase: int, users) -> None:
     for earlier in recoat[:phase]:
         earlier = _started(earlier, users)
         services.work_order_finish(earlier, users["technician"], 8.0, "done", _all_readings(earlier, 0.9),
-                                   confirmed_unticked=_unticked(earlier))
+                                   **_confirmed(earlier))
 
 
 @pytest.mark.parametrize("phase", range(4))

@@ -16,7 +16,14 @@ import re
 
 import pytest
 from pypdf import PdfReader
-from test_workorders import PLANNED, drive, order  # noqa: F401  (fixtures, used by name)
+from test_workorders import (  # noqa: F401  (fixtures, used by name)
+    ISOLATED,
+    PLANNED,
+    _confirmed,
+    _finish_confirmations,
+    drive,
+    order,
+)
 
 from observatory_ops.mirrors.models import Mirror
 from observatory_ops.planning.models import ServicePlan
@@ -106,8 +113,8 @@ def _move_to(work_order, state: str, users) -> None:
     services.work_order_move(work_order, "issue", users["engineer"])
     services.work_order_move(work_order, "start", users["technician"])
     services.work_order_finish(
-        work_order, users["technician"], 1.0, "", {r.pk: 0.5 for r in work_order.required_readings.all()},
-        confirmed_unticked=[line.text for line in selectors.unticked_lines(work_order)],
+        work_order, users["technician"], 1.0, "Isolation ticked on the paper.",
+        {r.pk: 0.5 for r in work_order.required_readings.all()}, **_confirmed(work_order),
     )
     if state == State.COUNTERSIGNED:
         services.work_order_move(work_order, "countersign", users["engineer"])
@@ -397,9 +404,8 @@ def _started_then_hazard(order, drive, users):  # noqa: F811
 def _finish_data(work_order, **extra) -> dict:
     from observatory_ops.planning.services import site_today
 
-    data = {"actual_hours": "1.5", "findings": "", "confirm_unticked": "on",
-            "work_done_on": site_today(work_order.site).isoformat(),
-            "unticked": [line.text for line in selectors.unticked_lines(work_order)]}
+    data = {"actual_hours": "1.5", "findings": "", "work_done_on": site_today(work_order.site).isoformat(),
+            **_finish_confirmations(work_order)}
     data.update({f"reading_{r.pk}": "0.5" for r in work_order.required_readings.all()})
     return {**data, **extra}
 
@@ -424,7 +430,7 @@ def test_finishing_an_order_that_lacks_a_hazard_needs_a_confirmation_and_finding
 
     services.work_order_finish(
         order, users["technician"], 1.5, "Harness clipped to the dome anchor throughout.", readings,
-        confirmed_unticked=unticked, confirmed_hazards=["height"],
+        confirmed_unticked=unticked, confirmed_hazards=["height"], isolation_answer=ISOLATED,
     )
     fresh = _fresh(order)
     assert fresh.state == State.FINISHED and fresh.hazards_confirmed_at_finish == ["height"]
@@ -435,8 +441,8 @@ def test_an_order_that_lacks_nothing_finishes_as_before_and_records_no_hazard(or
     services.work_order_move(order, "issue", users["engineer"])
     services.work_order_move(order, "start", users["technician"])
     services.work_order_finish(
-        order, users["technician"], 1.0, "", {r.pk: 0.5 for r in order.required_readings.all()},
-        confirmed_unticked=[line.text for line in selectors.unticked_lines(order)],
+        order, users["technician"], 1.0, "Isolation ticked on the paper.",
+        {r.pk: 0.5 for r in order.required_readings.all()}, **_confirmed(order),
     )
     assert _fresh(order).hazards_confirmed_at_finish == []
 

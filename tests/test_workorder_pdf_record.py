@@ -18,7 +18,7 @@ from conftest import require_tool
 from django.utils import timezone
 from pypdf import PdfReader
 from test_workorder_pdf import STEPS, body_text, flat, make_sheet, page_texts, read_pgm
-from test_workorders import _unticked, drive, order  # noqa: F401  (fixtures, used by name)
+from test_workorders import _confirmed, drive, order  # noqa: F401  (fixtures, used by name)
 
 from observatory_ops.planning.services import site_today
 from observatory_ops.registry.services import subsystem_create
@@ -132,7 +132,7 @@ def test_a_finished_orders_paper_shows_the_ticks_the_parts_used_the_hours_and_th
     day = site_today(site) - dt.timedelta(days=1)
     services.work_order_finish(
         order, users["technician"], 2.5, "Pads worn to 3 mm.", {r.pk: 0.6 for r in order.required_readings.all()},
-        {order.part_uses.get().pk: 1}, confirmed_unticked=_unticked(order),
+        {order.part_uses.get().pk: 1}, **_confirmed(order),
         work_done_on=day,
     )
     order.refresh_from_db()

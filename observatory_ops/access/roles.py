@@ -26,11 +26,16 @@ def role_of(user) -> str | None:
     cached = getattr(user, "_obsops_role", False)
     if cached is not False:
         return cached
-    names = set(user.groups.values_list("name", flat=True))
-    held = [r for r in ROLES if r in names]
-    role = held[-1] if held else None
+    role = highest_role(user.groups.values_list("name", flat=True))
     user._obsops_role = role
     return role
+
+
+def highest_role(group_names) -> str | None:
+    """The highest of the roles among a user's group names, or None when none of them is a role."""
+    names = set(group_names)
+    held = [r for r in ROLES if r in names]
+    return held[-1] if held else None
 
 
 def has_role(user, needed: str) -> bool:

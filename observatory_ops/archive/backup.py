@@ -1,20 +1,25 @@
 """Whole-database backup to one JSON file, and restore into an empty database.
 
 The file is Django's serialised form of every row of the project's apps, the people and their roles,
-and the change histories, preceded by a small header (format, creation time, row counts) so a restore
-can check it is reading a backup and report what it holds. It is created readable by its owner only
-(mode 0600): it holds password hashes, API-token hashes and the whole record.
+and the change histories, preceded by a one-line header: format, creation time, the migrations applied to
+the database it was taken from, row counts, and the SHA-256 of the rows after the header. It is created
+readable by its owner only (mode 0600): it holds password hashes, API-token hashes and the whole record.
 
-Restore reads and checks the whole file first, then loads everything in one transaction: it checks the
-references between rows, compares the rows restored per table with the header's counts, moves the
-database's id sequences past the restored ids (PostgreSQL; as ``loaddata`` does) and recomputes every
-site's due states (derived rows are not backed up). A refusal or failure at any point leaves the
-database as it was.
+Restore reads and checks the whole file first (the checksum catches an edit that keeps the row counts; it is
+no seal: an editor who also rewrites the header's checksum passes it), and refuses a backup taken at other
+migrations than the database's: rows written by an older version go into the newer tables without the data
+migrations of the upgrade (a hazard a later migration added would be missing), so such a backup is restored
+with the version that wrote it and then upgraded with ``migrate``. Then it loads everything in one
+transaction: it checks the references between rows, compares the rows restored per table with the header's
+counts, moves the database's id sequences past the restored ids (PostgreSQL; as ``loaddata`` does) and
+recomputes every site's due states (derived rows are not backed up). A refusal or failure at any point
+leaves the database as it was.
 """
 from __future__ import annotations
 
 import datetime as dt
 import gzip
+import hashlib
 import json
 import os
 import zlib
@@ -26,14 +31,15 @@ from django.core.management.color import no_style
 from django.db import DataError, IntegrityError, connection, transaction
 from django.db.migrations.executor import MigrationExecutor
 
-FORMAT = "observatory_ops-backup/1"
+FORMAT = "observatory_ops-backup/2"
+#: Backups that record no migrations: this version cannot tell which data migrations they missed.
+_UNCHECKED_FORMATS = {"observatory_ops-backup/1"}
 #: Apps whose rows a backup holds, in dependency order. Django's own content types, permissions,
 #: sessions and admin log are rebuilt by migrations or are not part of the record.
 APPS = ("auth", "registry", "planning", "logbook", "workorders", "mirrors", "api", "archive")
-#: Derived rows: left out of a backup, skipped in an older backup that holds them, and computed again
-#: for every site after a restore (so a restore into a newer version never carries an old layout).
-_DERIVED = {"planning.planstatus"}
-_SKIP = {"auth.permission"} | _DERIVED
+#: Left out of a backup: permissions, which migrations make, and the due states, which are derived rows
+#: computed again for every site after a restore.
+_SKIP = {"auth.permission", "planning.planstatus"}
 #: Tables named in full when restore refuses a database that already holds rows.
 _BUSY_NAMED = 8
 
@@ -59,7 +65,7 @@ def backup_write(path: Path) -> dict[str, int]:
     Never overwrites: a file already at ``path`` raises FileExistsError. Returns the row counts. Raises
     BackupError, writing nothing, when the database is not migrated (its tables would be missing or old).
     """
-    pending = _migrations_pending()
+    pending, applied = _migrations()
     if pending:
         raise BackupError(f"the database is not migrated ({pending} migrations not applied): run "
                           "`python manage.py migrate` first, then back it up")
@@ -80,10 +86,14 @@ def backup_write(path: Path) -> dict[str, int]:
             objects.extend(rows)
     # Natural keys for references to rows the backup does not hold (permissions, content types): their ids
     # differ between databases, their names do not.
-    body = serializers.serialize("json", objects, use_natural_foreign_keys=True)
-    header = {"format": FORMAT, "created_at": dt.datetime.now(dt.UTC).isoformat(), "counts": counts}
-    text = json.dumps(header) + "\n" + body
-    data = gzip.compress(text.encode()) if str(path).endswith(".gz") else text.encode()
+    body = serializers.serialize("json", objects, use_natural_foreign_keys=True).encode()
+    header = {
+        "format": FORMAT, "created_at": dt.datetime.now(dt.UTC).isoformat(), "migrations": applied,
+        "counts": counts, "body_sha256": hashlib.sha256(body).hexdigest(),
+    }
+    data = json.dumps(header).encode() + b"\n" + body
+    if str(path).endswith(".gz"):
+        data = gzip.compress(data)
     # Mode 0600 from creation, before any content: the file holds password and token hashes.
     out = os.open(path, os.O_WRONLY | os.O_CREAT | os.O_EXCL, 0o600)
     try:
@@ -108,11 +118,27 @@ def _read(path: Path) -> tuple[dict, list[dict]]:
         header = json.loads(first.decode("utf-8"))
     except (UnicodeDecodeError, json.JSONDecodeError):
         raise BackupError(f"{path} is not an observatory_ops backup (no header line)") from None
+    if isinstance(header, dict) and header.get("format") in _UNCHECKED_FORMATS:
+        raise BackupError(
+            f"{path} was written by an earlier version of observatory_ops, whose backups do not record the "
+            "migrations they were taken at, so this version cannot tell which upgrade steps its rows missed: "
+            "restore it with the version that wrote it, then upgrade with `python manage.py migrate` (and take a "
+            "new backup)"
+        )
     if not isinstance(header, dict) or header.get("format") != FORMAT:
         raise BackupError(f"{path} is not an observatory_ops backup of format {FORMAT}")
     counts = header.get("counts")
     if not isinstance(counts, dict) or not all(type(n) is int for n in counts.values()):
         raise BackupError(f"{path}: the header of the backup has no row counts, so it was edited or damaged")
+    migrations = header.get("migrations")
+    if not isinstance(migrations, list) or not all(
+        isinstance(pair, list) and len(pair) == 2 and all(isinstance(part, str) for part in pair)
+        for pair in migrations
+    ):
+        raise BackupError(f"{path}: the header of the backup has no list of migrations, so it was edited or "
+                          "damaged")
+    if not isinstance(header.get("body_sha256"), str):
+        raise BackupError(f"{path}: the header of the backup has no checksum, so it was edited or damaged")
     if not body.strip():
         raise BackupError(f"{path} holds a backup header but no rows after it: the file was cut short")
     try:
@@ -123,6 +149,9 @@ def _read(path: Path) -> tuple[dict, list[dict]]:
     except json.JSONDecodeError as exc:
         raise BackupError(f"{path}: the rows after its header are not complete JSON ({exc.msg} at line "
                           f"{exc.lineno}, column {exc.colno}), so the file was cut short or damaged") from None
+    if hashlib.sha256(body).hexdigest() != header["body_sha256"]:
+        raise BackupError(f"{path}: the rows after its header are not those the backup wrote (their SHA-256 "
+                          "differs from the header's), so the file was damaged or edited")
     if not isinstance(rows, list) or not all(
         isinstance(row, dict) and isinstance(row.get("model"), str) and isinstance(row.get("fields"), dict)
         for row in rows
@@ -132,9 +161,29 @@ def _read(path: Path) -> tuple[dict, list[dict]]:
     return header, rows
 
 
-def _migrations_pending() -> int:
+def _migrations() -> tuple[int, list[list[str]]]:
+    """How many of this version's migrations the database lacks, and the [app, name] of each it has applied,
+    in order (a squashed migration stands for those it replaces, as in the migration graph)."""
     executor = MigrationExecutor(connection)
-    return len(executor.migration_plan(executor.loader.graph.leaf_nodes()))
+    graph = executor.loader.graph
+    applied = sorted([app, name] for app, name in executor.loader.applied_migrations if (app, name) in graph.nodes)
+    return len(executor.migration_plan(graph.leaf_nodes())), applied
+
+
+def _check_migrations(path: Path, backup: list[list[str]], database: list[list[str]]) -> None:
+    """Refuse a backup taken at other migrations than the database's, naming the first difference."""
+    theirs, ours = {tuple(pair) for pair in backup}, {tuple(pair) for pair in database}
+    differing = sorted(theirs ^ ours)
+    if not differing:
+        return
+    first = ".".join(differing[0])
+    which = (f"this database has migration {first} applied, the backup's database had not" if differing[0] in ours
+             else f"the backup's database had migration {first} applied, this database has not")
+    more = f" (the first of {len(differing)} differences)" if len(differing) > 1 else ""
+    raise BackupError(
+        f"{path} was written by another version of observatory_ops: {which}{more}. Restore it with the version "
+        "that wrote it, then upgrade with `python manage.py migrate`"
+    )
 
 
 def tables_holding_rows() -> list[str]:
@@ -160,8 +209,6 @@ def _load(path: Path, rows: list[dict]) -> None:
     """Save every row of the backup as it is (ids included), naming the row a database rule refuses."""
     try:
         for item in serializers.deserialize("python", rows):
-            if item.object._meta.label_lower in _DERIVED:
-                continue
             try:
                 item.save()
             except (IntegrityError, DataError) as exc:
@@ -180,8 +227,7 @@ def _load(path: Path, rows: list[dict]) -> None:
                           "file was edited or damaged") from None
 
 
-def _check_counts(path: Path, header_counts: dict[str, int], restored: dict[str, int]) -> None:
-    expected = {label: n for label, n in header_counts.items() if label not in _SKIP}
+def _check_counts(path: Path, expected: dict[str, int], restored: dict[str, int]) -> None:
     differing = [
         f"{label}: {expected.get(label, 0):,} in the header, {restored.get(label, 0):,} restored"
         for label in sorted(expected.keys() | restored.keys())
@@ -199,10 +245,11 @@ def backup_restore(path: Path) -> dict[str, int]:
     or the database is not migrated or not empty.
     """
     header, rows = _read(path)
-    pending = _migrations_pending()
+    pending, applied = _migrations()
     if pending:
         raise BackupError(f"the database is not migrated ({pending} migrations not applied): run "
                           "`python manage.py migrate` first, then restore into it")
+    _check_migrations(path, header["migrations"], applied)
     busy = tables_holding_rows()
     if busy:
         more = f" and {len(busy) - _BUSY_NAMED} more" if len(busy) > _BUSY_NAMED else ""

@@ -235,11 +235,12 @@ class LiftFigures:
 
     Masses are kilograms and pounds; tensions are kilogram-force expressed as kilograms (and pounds),
     the way sling tags state working load limits. ``margin`` is the working load limit entered divided
-    by the leg tension, or None when no limit was entered.
+    by the leg tension, or None when no limit was entered. ``fixture_kg`` is None when the cell / fixture mass
+    was not entered: the load and tensions are then the mirror's alone.
     """
 
     mirror_kg: float
-    fixture_kg: float
+    fixture_kg: float | None
     total_kg: float
     total_lb: float
     legs_rigged: int
@@ -264,13 +265,24 @@ class LiftFigures:
         advises (load factor above 2)."""
         return self.angle_deg < SHALLOW_ANGLE_DEG
 
+    @property
+    def no_limit(self) -> bool:
+        """No working load limit was entered, so the legs' rated capacity is not compared with their tension."""
+        return self.wll_kg is None
+
+    @property
+    def fixture_not_entered(self) -> bool:
+        """No cell / fixture mass was entered (0 is entered: a mirror lifted without its cell), so the load and the
+        leg tension are the mirror's alone, less than those of the mirror in its cell."""
+        return self.fixture_kg is None
+
 
 def lift_figures(
     diameter_mm: float,
     thickness_mm: float,
     material: str,
     hole_mm: float = 0,
-    fixture_kg: float = 0,
+    fixture_kg: float | None = None,
     legs: int = 2,
     angle_deg: float = 60,
     wll_kg: float | None = None,
@@ -287,8 +299,9 @@ def lift_figures(
         Mirror outer diameter, edge thickness and central hole in millimetres.
     material : str
         A key of ``DENSITY``.
-    fixture_kg : float
-        Mass of the cell, lifting fixture and anything else below the hook, kg, not negative.
+    fixture_kg : float or None
+        Mass of the cell, lifting fixture and anything else below the hook, kg, not negative; 0 for nothing but the
+        mirror; None when not entered (the figures are then the mirror alone, with a warning).
     legs : int
         Sling legs rigged, at least 1.
     angle_deg : float
@@ -304,8 +317,8 @@ def lift_figures(
         The figures, warnings about the input, and the checks a competent person must make.
     """
     bearing = bearing_legs(legs)
-    fixture = _finite_number(fixture_kg, "fixture mass")
-    _require(fixture >= 0, f"fixture mass must not be negative, got {fixture_kg}")
+    fixture = None if fixture_kg is None else _finite_number(fixture_kg, "fixture mass")
+    _require(fixture is None or fixture >= 0, f"fixture mass must not be negative, got {fixture_kg}")
     angle = _finite_number(angle_deg, "sling angle") * u.deg
     limit = None if wll_kg is None else _finite_number(wll_kg, "working load limit")
     _require(limit is None or limit > 0, f"working load limit must be positive, got {wll_kg}")
@@ -317,7 +330,7 @@ def lift_figures(
         _finite_number(hole_mm, "hole diameter") * u.mm,
         _finite_number(lightweighting_fraction, "lightweighting fraction"),
     )
-    total = mirror + fixture * u.kg
+    total = mirror + (fixture or 0) * u.kg
     factor = load_factor(angle)
     tension = sling_leg_tension(total, legs, angle)
     margin = None if limit is None else limit / float(tension.to_value(u.kg))
@@ -343,8 +356,14 @@ def lift_figures(
 
 def _warnings(figures: LiftFigures) -> tuple[str, ...]:
     """What is wrong or unknown in a lift's input, read from its figures: the conditions that stop a work order
-    being issued (``LiftFigures.over_limit``, ``LiftFigures.too_flat``) are the ones these warnings state."""
+    being issued (``LiftFigures.over_limit``, ``LiftFigures.too_flat``) or started (those,
+    ``LiftFigures.no_limit`` and ``LiftFigures.fixture_not_entered``) are the ones these warnings state."""
     warnings = []
+    if figures.fixture_not_entered:
+        warnings.append(
+            "Cell / fixture mass not entered: the figures are the mirror alone, less than the load of the mirror in "
+            "its cell."
+        )
     if figures.too_flat:
         warnings.append(
             f"Sling angle {figures.angle_deg:g} degrees from horizontal is below {SHALLOW_ANGLE_DEG:g}: rigging "
@@ -360,7 +379,7 @@ def _warnings(figures: LiftFigures) -> tuple[str, ...]:
             f"A single leg hangs vertically above the centre of gravity; check the angle entered "
             f"({figures.angle_deg:g} degrees)."
         )
-    if figures.margin is None:
+    if figures.no_limit:
         warnings.append("No working load limit entered: the sling legs' rated capacity has not been compared.")
     elif figures.over_limit:
         warnings.append(

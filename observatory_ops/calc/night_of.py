@@ -47,3 +47,33 @@ def night_of(moment_utc: dt.datetime, zone_name: str) -> dt.date:
     if local.time() < _NOON:
         return local.date() - dt.timedelta(days=1)
     return local.date()
+
+
+def zone_gap_h(longitude_deg: float, zone_name: str, year: int) -> tuple[float, float]:
+    """How far a time zone's clock runs from the mean solar time at a longitude, in hours.
+
+    Method
+    ------
+    Local mean solar time runs ahead of UTC by longitude / 15 hours, east positive (the Earth turns 360 degrees
+    in 24 hours: the definition of mean solar time, e.g. Meeus, Astronomical Algorithms, ch. 12, from memory). The
+    zone's UTC offset is read from the IANA time zone database (:mod:`zoneinfo`) on 15 January and 15 July of
+    ``year``, so standard and daylight time are both seen whichever hemisphere the zone is in, and the one closer
+    to the longitude's is used. The gap is wrapped into -12..12 hours: a zone kept across the date line
+    (Pacific/Kiritimati, UTC+14 at about 157 degrees west) is near its longitude, not a day away.
+
+    Returns
+    -------
+    (gap_h, offset_h): the zone's offset minus the longitude's, wrapped, and the zone's offset used (hours).
+
+    Raises
+    ------
+    ValueError
+        When ``zone_name`` is not an IANA time zone name.
+    """
+    tz = zone(zone_name)
+    solar_h = longitude_deg / 15.0
+    offsets = [
+        dt.datetime(year, month, 15, 12, tzinfo=tz).utcoffset().total_seconds() / 3600.0 for month in (1, 7)
+    ]
+    gaps = [((offset - solar_h + 12.0) % 24.0 - 12.0, offset) for offset in offsets]
+    return min(gaps, key=lambda gap: abs(gap[0]))

@@ -10,10 +10,12 @@ intervals, all of that reduces to
 
     R(E) = R0 - b * (E - f * c_last(E))
 
-where ``c_last(E)`` is the exposure of the last cleaning at or before ``E`` (0 before the first). A
-reading taken at the exposure of a cleaning counts as taken after it. Without cleanings this is a
-straight line. A linear loss with exposure and a partial recovery by washing are common practice, no
-published source; the fit itself is ordinary least squares.
+where ``c_last(E)`` is the exposure of the last cleaning done before the reading (0 before the first).
+Which cleanings came before a reading is a matter of dates, which the caller may give
+(``cleanings_before``): a reading dated before a cleaning is before it even at the same exposure (no
+night logged between the two). Without them, a reading at a cleaning's exposure counts as taken after
+it. Without cleanings this is a straight line. A linear loss with exposure and a partial recovery by
+washing are common practice, no published source; the fit itself is ordinary least squares.
 
 Fit
 ---
@@ -95,6 +97,19 @@ def _last_cleaning(exposure_h: np.ndarray, cleanings: np.ndarray) -> np.ndarray:
     return np.concatenate([[0.0], cleanings])[np.searchsorted(cleanings, exposure_h, side="right")]
 
 
+def _cleanings_done(exposure_h: np.ndarray, cleanings: np.ndarray, cleanings_before: Sequence[int]) -> np.ndarray:
+    """Exposure of the last cleaning done before each reading, from how many were (``fit_decline``)."""
+    done = np.asarray(cleanings_before) if len(cleanings_before) else np.zeros(0, dtype=np.int64)
+    if done.shape != exposure_h.shape or not np.issubdtype(done.dtype, np.integer):
+        raise ValueError("cleanings_before needs one whole count per reading")
+    if np.any(done < 0) or np.any(done > cleanings.size):
+        raise ValueError(f"cleanings_before must count between 0 and the {cleanings.size} cleanings")
+    last = np.concatenate([[0.0], cleanings])[done]
+    if np.any(last > exposure_h):
+        raise ValueError("a cleaning counted before a reading has more exposure than the reading")
+    return last
+
+
 def _jacobian(fit_params: np.ndarray, exposure_h: np.ndarray, last_cleaning: np.ndarray) -> np.ndarray:
     """Derivatives of R(E) with respect to (r0, rate) or (r0, rate, recovery)."""
     if fit_params.size == 2:
@@ -103,7 +118,12 @@ def _jacobian(fit_params: np.ndarray, exposure_h: np.ndarray, last_cleaning: np.
     return np.column_stack([np.ones_like(exposure_h), -(exposure_h - recovery * last_cleaning), rate * last_cleaning])
 
 
-def fit_decline(exposure_h: ArrayLike, reflectance: ArrayLike, cleaning_exposure_h: Sequence[float] = ()) -> DeclineFit:
+def fit_decline(
+    exposure_h: ArrayLike,
+    reflectance: ArrayLike,
+    cleaning_exposure_h: Sequence[float] = (),
+    cleanings_before: Sequence[int] | None = None,
+) -> DeclineFit:
     """Fit ``R(E) = R0 - b (E - f c_last(E))`` to measured reflectance by least squares.
 
     See the module docstring for the model and the source of the uncertainties.
@@ -116,6 +136,9 @@ def fit_decline(exposure_h: ArrayLike, reflectance: ArrayLike, cleaning_exposure
         Measured reflectance (0 to 1) at each reading.
     cleaning_exposure_h : sequence of float
         Exposure at each cleaning since coating, any order.
+    cleanings_before : sequence of int, optional
+        For each reading, how many of the cleanings were done before it (by their dates). By default every
+        cleaning at or below the reading's exposure.
 
     Returns
     -------
@@ -125,14 +148,16 @@ def fit_decline(exposure_h: ArrayLike, reflectance: ArrayLike, cleaning_exposure
     ------
     ValueError
         Mismatched lengths, values out of range, too few readings (3 for a line, 4 when a reading
-        follows a cleaning), or readings that cannot separate the recovery from the fresh reflectance.
+        follows a cleaning), ``cleanings_before`` that puts a cleaning before a reading at a lower exposure,
+        or readings that cannot separate the recovery from the fresh reflectance.
     """
     exposure = _as_exposures(exposure_h, "exposures")
     measured = _as_reflectances(reflectance, "reflectances")
     cleanings = _as_cleanings(cleaning_exposure_h)
     if exposure.size != measured.size:
         raise ValueError(f"{exposure.size} exposures but {measured.size} reflectances")
-    last_cleaning = _last_cleaning(exposure, cleanings)
+    last_cleaning = (_last_cleaning(exposure, cleanings) if cleanings_before is None
+                     else _cleanings_done(exposure, cleanings, cleanings_before))
     fits_recovery = bool(np.any(last_cleaning > 0))
     n_params = 3 if fits_recovery else 2
     if exposure.size < n_params + 1:

@@ -14,7 +14,10 @@ class ServiceRecordForm(forms.Form):
         help_text="The plan this work fulfils; its counting restarts from the date below. Leave empty for ad hoc work.",
     )
     performed_on = forms.DateField(widget=forms.DateInput(attrs={"type": "date"}), help_text="Local date of the work.")
-    hours_spent = forms.FloatField(min_value=0, max_value=1000, initial=1.0)
+    hours_spent = forms.FloatField(
+        min_value=0, max_value=1000, required=False,
+        help_text="Leave empty if not known (a past service entered from memory): no hours are made up for it.",
+    )
     summary = forms.CharField(max_length=200)
     findings = forms.CharField(widget=forms.Textarea, required=False, max_length=10000)
 
@@ -33,7 +36,9 @@ class ServiceRecordForm(forms.Form):
 
 class CorrectionForm(forms.Form):
     performed_on = forms.DateField(widget=forms.DateInput(attrs={"type": "date"}))
-    hours_spent = forms.FloatField(min_value=0, max_value=1000)
+    hours_spent = forms.FloatField(
+        min_value=0, max_value=1000, required=False, help_text="Empty: as the original record gives them.",
+    )
     summary = forms.CharField(max_length=200)
     findings = forms.CharField(widget=forms.Textarea, required=False, max_length=10000)
     void = forms.BooleanField(required=False, label="Withdraw the original record (it was logged in error)")
@@ -44,19 +49,26 @@ class ReadingForm(forms.Form):
     value = forms.FloatField()
     taken_at = forms.DateTimeField(
         widget=forms.DateTimeInput(attrs={"type": "datetime-local"}, format="%Y-%m-%dT%H:%M"),
-        help_text="Site local time.",
+        help_text="Site local time. A plan counts readings from its last service (from its start while none is "
+        "logged): entering past readings, log the last service first.",
     )
     note = forms.CharField(max_length=200, required=False)
 
-    def __init__(self, *args, watched=(), **kwargs):
+    def __init__(self, *args, watched=(), kind_label="", **kwargs):
         """``watched``: the quantities the subsystem's plans watch or ask for and its kind's usual ones, offered
-        first (any other can still be chosen, under "Other quantities")."""
+        first (any other can still be chosen, under "Other quantities"). With none, the field says that nothing is
+        usually measured on a subsystem of its kind (``kind_label``) above the list of every quantity."""
         super().__init__(*args, **kwargs)
         self.fields["taken_at"].initial = timezone.localtime().strftime("%Y-%m-%dT%H:%M")
         ours = [(code, label) for code, label in QUANTITY_CHOICES if code in watched]
         if ours:
             others = [(code, label) for code, label in QUANTITY_CHOICES if code not in watched]
             self.fields["quantity"].choices = [("For this subsystem", ours), ("Other quantities", others)]
+        else:
+            self.fields["quantity"].help_text = (
+                f"Nothing is usually measured on a subsystem of this kind ({kind_label}) and its plans ask for no "
+                "reading: choose the quantity from the whole list."
+            )
 
 
 class NightsUploadForm(forms.Form):

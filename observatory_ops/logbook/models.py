@@ -75,7 +75,11 @@ class ServiceRecord(models.Model):
     )
     performed_on = models.DateField(help_text="Local date the work was done.")
     performed_by = models.ForeignKey(settings.AUTH_USER_MODEL, on_delete=models.PROTECT, related_name="+")
-    hours_spent = models.FloatField(default=0, validators=[MinValueValidator(0), MaxValueValidator(1000)])
+    hours_spent = models.FloatField(
+        null=True, blank=True, validators=[MinValueValidator(0), MaxValueValidator(1000)],
+        help_text="Hours of work; empty when not known (a service back-filled from memory, a cleaning logged on the "
+        "mirror page): such a record counts no maintenance hours.",
+    )
     summary = models.CharField(max_length=200)
     findings = models.TextField(blank=True)
     corrects = models.OneToOneField(

@@ -19,6 +19,10 @@ QUANTITIES: dict[str, tuple[str, str]] = {
     "ripple_mv": ("Supply ripple", "mV"),
     "encoder_signal_pct": ("Encoder signal level", "%"),
     "temperature_c": ("Temperature", "degC"),
+    "open_close_time_s": ("Open or close time", "s"),  # a shutter, roof or mirror cover, end to end
+    "rcd_trip_time_ms": ("RCD trip time", "ms"),  # as a residual-current device tester reads it
+    "focus_backlash_mm": ("Focus backlash", "mm"),
+    "clearance_mm": ("Feeler-gauge clearance", "mm"),  # a mirror clip's or a brake pad's gap
 }
 QUANTITY_CHOICES = [(code, f"{label} ({unit})") for code, (label, unit) in QUANTITIES.items()]
 
@@ -38,6 +42,10 @@ PLAUSIBLE_RANGE: dict[str, tuple[float, float]] = {
     "ripple_mv": (0, 10_000),  # 10 V
     "encoder_signal_pct": (0, 200),  # percent of the nominal level; above 100 is a strong signal
     "temperature_c": (-90, 150),  # the coldest air on record is about -89 degC (from memory)
+    "open_close_time_s": (0, 3600),  # an hour: a shutter or cover still moving then is stuck, not slow
+    "rcd_trip_time_ms": (0, 10_000),  # ten seconds: a tester gives up long before (from memory)
+    "focus_backlash_mm": (0, 100),  # more than a focuser's whole travel
+    "clearance_mm": (0, 100),  # a feeler-gauge set stops at about 1 mm (from memory); 100 mm is a unit slip
 }
 
 #: Decimals every reflectance is written to (a measurement, an estimate, a recoat line, a computed fresh value), on
@@ -83,8 +91,11 @@ def value_problem(code: str, value: float) -> str | None:
 
 
 def usual_for_kind(kind: str) -> set[str]:
-    """The quantities the catalogue's default plans for a subsystem kind watch (reading triggers) or ask for on
-    their work orders (``registry.catalogue``): what a reading of such a subsystem usually is."""
-    plans = KINDS[kind].plans if kind in KINDS else ()
+    """What a reading of a subsystem of this kind usually is (``registry.catalogue``): the quantities the kind's
+    default plans watch (reading triggers) or ask for on their work orders, and the others measured on it
+    (``Kind.quantities``). Empty for a kind on which nothing is usually measured."""
+    if kind not in KINDS:
+        return set()
+    plans = KINDS[kind].plans
     watched = {trigger[2] for plan in plans for trigger in plan.triggers if len(trigger) > 2}
-    return watched | {quantity for plan in plans for quantity, _limit in plan.readings}
+    return watched | {quantity for plan in plans for quantity, _limit in plan.readings} | set(KINDS[kind].quantities)

@@ -18,6 +18,7 @@ from simple_history.utils import bulk_create_with_history, bulk_update_with_hist
 
 from observatory_ops.calc.night_of import night_of
 from observatory_ops.planning.models import ServicePlan
+from observatory_ops.planning.selectors import nights_before_unknown_starts_note
 from observatory_ops.planning.services import site_recompute, site_today
 from observatory_ops.registry.models import Site, Subsystem
 
@@ -64,6 +65,9 @@ class ImportReport:
     confirm_token: str = ""
     #: A token was given but the changes are not those it confirmed (the file or the stored nights differ).
     confirmed_other: bool = False
+    #: Set when stored nights are before the start of plans whose last service is unknown, so move none of their
+    #: counters (``planning.selectors.nights_before_unknown_starts_note``).
+    uncounted_note: str = ""
 
     @property
     def summary(self) -> str:
@@ -86,7 +90,7 @@ class ImportReport:
             text += f"; {_rows(self.skipped)} skipped"
         if not (self.created or self.updated):
             text += "; nothing changed"
-        return text + "."
+        return f"{text}. {self.uncounted_note}".strip()
 
     @property
     def refused_rows(self) -> list[tuple[int | None, str]]:
@@ -241,6 +245,7 @@ def _nights_store(
     report.changes, report.stored = changes, stored
     if stored:
         report.updated_nights = sorted(u.night for u in changed)
+        report.uncounted_note = nights_before_unknown_starts_note(site, [u.night for u in new + changed])
 
 
 def _nights_compare(
@@ -341,11 +346,12 @@ def service_record_log(
     performed_on: dt.date,
     by,
     summary: str,
-    hours_spent: float = 0.0,
+    hours_spent: float | None = None,
     findings: str = "",
     performed_by=None,
 ) -> ServiceRecord:
-    """Append a service record; a record for a plan restarts that plan's counting from ``performed_on``."""
+    """Append a service record; a record for a plan restarts that plan's counting from ``performed_on``.
+    ``hours_spent`` None: not known, so the record counts no maintenance hours."""
     site = subsystem.telescope.site
     problem = service_date_problem(site, performed_on)
     if problem:

@@ -74,7 +74,7 @@ def reading_log(request, pk):
     site = subsystem.telescope.site
     with timezone.override(site.zone):  # the form's times are the site's local times
         usual = selectors.watched_quantities(subsystem) | usual_for_kind(subsystem.kind)
-        form = ReadingForm(request.POST or None, watched=usual)
+        form = ReadingForm(request.POST or None, watched=usual, kind_label=subsystem.get_kind_display())
         if request.method == "POST" and form.is_valid():
             data = form.cleaned_data
             try:
@@ -91,6 +91,11 @@ def reading_log(request, pk):
                 unwatched = selectors.unwatched_reading_note(subsystem, data["quantity"])
                 if unwatched:
                     messages.warning(request, unwatched)
+                early = selectors.reading_before_counting_note(
+                    subsystem, data["quantity"], data["taken_at"].astimezone(site.zone).date()
+                )
+                if early:
+                    messages.warning(request, early)
                 return redirect(subsystem)
         return render(request, "logbook/reading_form.html", {"form": form, "subsystem": subsystem, "site": site})
 

@@ -1,3 +1,5 @@
+from collections.abc import Callable
+
 from django.contrib import admin
 from django.forms.models import BaseInlineFormSet
 from simple_history.admin import SimpleHistoryAdmin
@@ -6,38 +8,66 @@ from observatory_ops.logbook.services import service_date_problem
 from observatory_ops.planning.admin import RecomputesSite
 
 from . import services
+from .forms import CoatingEventAdminForm, MirrorAdminForm
 from .models import CleaningEvent, CoatingEvent, Mirror, RecoatPlan, ReflectanceMeasurement
 
 
-class CoatingFormSet(BaseInlineFormSet):
-    """A coating added here restarts the mirror's recoat plans too, so its date must suit a service record."""
+class RestartsPlansFormSet(BaseInlineFormSet):
+    """Coating or cleaning rows: each one added (or redated) here restarts the mirror's plans as one logged on the
+    mirror page does, through the same service (``restart``), so its date must suit a service record."""
+
+    date_field: str
+    event: str  # "coating" or "cleaning"
+    restarts: str  # the plans it restarts, in words
+    restart: Callable  # the service that restarts them: services.<event>_service_records_log(event, by)
 
     def clean(self):
         super().clean()
         site = self.instance.subsystem.telescope.site if self.instance.subsystem_id else None
         for form in self.forms:
-            day = form.cleaned_data.get("coated_on") if hasattr(form, "cleaned_data") else None
-            if site is None or day is None or self._should_delete_form(form) or "coated_on" not in form.changed_data:
+            day = form.cleaned_data.get(self.date_field) if hasattr(form, "cleaned_data") else None
+            redated = self.date_field in form.changed_data
+            if site is None or day is None or self._should_delete_form(form) or not redated:
                 continue
             problem = service_date_problem(site, day)
             if problem:
-                why = f"The coating restarts the mirror's recoat plan from this date, and {problem}."
-                form.add_error("coated_on", why)
+                why = f"The {self.event} restarts the mirror's {self.restarts} from this date, and {problem}."
+                form.add_error(self.date_field, why)
+
+    def events_to_restart_from(self) -> list:
+        """The rows saved as new, or with a new date."""
+        redated = [event for event, fields in self.changed_objects if self.date_field in fields]
+        return [*self.new_objects, *redated]
 
 
-class CoatingInline(admin.TabularInline):
+class CoatingFormSet(RestartsPlansFormSet):
+    date_field, event, restarts = "coated_on", "coating", "recoat plans"
+    restart = staticmethod(services.coating_service_records_log)
+
+
+class CleaningFormSet(RestartsPlansFormSet):
+    date_field, event, restarts = "cleaned_on", "cleaning", "cleaning plans"
+    restart = staticmethod(services.cleaning_service_records_log)
+
+
+class CoatingInline(admin.StackedInline):
+    """Stacked, so each field's help (the overcoats' format above all) shows under it, not in a tooltip."""
+
     model = CoatingEvent
+    form = CoatingEventAdminForm
     formset = CoatingFormSet
     extra = 0
 
 
 class CleaningInline(admin.TabularInline):
     model = CleaningEvent
+    formset = CleaningFormSet
     extra = 0
 
 
 @admin.register(Mirror)
 class MirrorAdmin(RecomputesSite, SimpleHistoryAdmin):
+    form = MirrorAdminForm
     list_display = ("subsystem", "diameter_mm", "thickness_mm", "material", "recoat_loss")
     inlines = [CoatingInline, CleaningInline]
 
@@ -45,12 +75,12 @@ class MirrorAdmin(RecomputesSite, SimpleHistoryAdmin):
         return obj.subsystem.telescope.site
 
     def save_formset(self, request, form, formset, change):
-        """A coating added (or redated) here restarts the recoat plans as one logged on the mirror page does."""
+        """A coating or a cleaning added (or redated) here restarts the mirror's plans as one logged on the mirror
+        page does."""
         super().save_formset(request, form, formset, change)
-        if formset.model is CoatingEvent:
-            redated = [event for event, fields in formset.changed_objects if "coated_on" in fields]
-            for event in [*formset.new_objects, *redated]:
-                services.coating_service_records_log(event, request.user)
+        if isinstance(formset, RestartsPlansFormSet):
+            for event in formset.events_to_restart_from():
+                formset.restart(event, request.user)
 
 
 @admin.register(ReflectanceMeasurement)

@@ -4,8 +4,10 @@ from django import forms
 
 from observatory_ops.calc.coating import MATERIALS, METALS, wavelength_range_nm
 from observatory_ops.calc.windows import RECOAT_PHASES, Phase
+from observatory_ops.registry.models import Subsystem
 
-from .models import CleaningEvent, Mirror
+from . import layers_text
+from .models import TRAIN_KINDS, CleaningEvent, CoatingEvent, Mirror
 
 #: Wavelengths a single-wavelength measurement may be taken at: where the optical data of every coating
 #: material the app knows overlap (calc.coating), so a fresh value could be computed there for any recipe.
@@ -85,24 +87,59 @@ class RecipeForm(forms.Form):
 
     metal = forms.ChoiceField(choices=[(m, m) for m in METALS])
     layers = forms.CharField(
-        required=False, max_length=200,
-        help_text="Overcoats from the metal outward as MATERIAL:NM, comma-separated, e.g. SiO2:100. Empty: bare.",
+        required=False, max_length=200, help_text=f"Overcoats as {layers_text.FORMAT}. Empty: bare metal.",
     )
 
     def clean_layers(self) -> list[dict]:
-        layers = []
-        for part in filter(None, (p.strip() for p in self.cleaned_data["layers"].split(","))):
-            material, sep, thickness = part.partition(":")
-            try:
-                layer = {"material": material.strip(), "thickness_nm": float(thickness)}
-            except ValueError:
-                layer = None
-            if not sep or layer is None or layer["thickness_nm"] < 0:
-                raise forms.ValidationError(f"{part!r}: write MATERIAL:NM with a thickness of 0 nm or more.")
-            if layer["material"] not in MATERIALS:
-                raise forms.ValidationError(f"{material!r} is not a known material ({', '.join(MATERIALS)}).")
-            layers.append(layer)
-        return layers
+        return layers_field_clean(self.cleaned_data["layers"])
+
+
+def layers_field_clean(text: str) -> list[dict]:
+    """Typed overcoats (``layers_text``) as a coating event stores them; the form's error names the bad layer."""
+    try:
+        return layers_text.as_stored(layers_text.parse(text))
+    except ValueError as exc:
+        raise forms.ValidationError(f"{str(exc)[0].upper()}{str(exc)[1:]}.") from None
+
+
+class CoatingEventAdminForm(forms.ModelForm):
+    """A coating row of the mirror's admin page: its overcoats typed as on the mirror page, where the model keeps
+    them as a JSON list."""
+
+    layers = forms.CharField(
+        required=False, widget=forms.Textarea(attrs={"rows": 3, "cols": 30}),
+        help_text=f"Overcoats as {layers_text.FORMAT}. Empty: bare metal.",
+    )
+
+    class Meta:
+        model = CoatingEvent
+        fields = ("coated_on", "metal", "layers", "note")
+
+    def __init__(self, *args, **kwargs):
+        super().__init__(*args, **kwargs)
+        if self.instance.pk:
+            self.initial["layers"] = layers_text.as_text(self.instance.layers)
+
+    def clean_layers(self) -> list[dict]:
+        return layers_field_clean(self.cleaned_data["layers"])
+
+
+class MirrorAdminForm(forms.ModelForm):
+    """A mirror record is offered only the mirror subsystems (``TRAIN_KINDS``) in service that have none yet, and
+    its own; ``Mirror.clean`` refuses any other all the same."""
+
+    class Meta:
+        model = Mirror
+        fields = "__all__"
+
+    def __init__(self, *args, **kwargs):
+        super().__init__(*args, **kwargs)
+        offered = Subsystem.objects.filter(kind__in=TRAIN_KINDS, retired_on__isnull=True, mirror__isnull=True)
+        if self.instance.subsystem_id:
+            offered = offered | Subsystem.objects.filter(pk=self.instance.subsystem_id)
+        field = self.fields["subsystem"]
+        field.queryset = offered.select_related("telescope")
+        field.help_text = "A primary or secondary mirror subsystem in service that has no mirror record yet."
 
 
 class CoatingForm(RecipeForm):

@@ -10,7 +10,13 @@ from simple_history.models import HistoricalRecords
 
 from observatory_ops.calc.coating import MATERIALS, METALS
 from observatory_ops.calc.lifting import DENSITY
+from observatory_ops.registry.catalogue import KINDS
 from observatory_ops.registry.models import Subsystem
+
+#: The catalogue's mirror kinds (registry/catalogue.py), in the order light meets them: a telescope's
+#: optical train. Only a subsystem of one of them takes a mirror record; one without a record is a gap in the
+#: train's throughput, and its recoat line is not judged.
+TRAIN_KINDS = ("primary_mirror", "secondary_mirror")
 
 
 class Mirror(models.Model):
@@ -23,7 +29,13 @@ class Mirror(models.Model):
     hole_mm = models.FloatField(default=0, validators=[MinValueValidator(0)])
     material = models.CharField(max_length=24, choices=[(k, k.replace("_", " ")) for k in DENSITY])
     lightweighting_fraction = models.FloatField(default=0, validators=[MinValueValidator(0), MaxValueValidator(0.95)])
-    cell_mass_kg = models.FloatField(default=0, validators=[MinValueValidator(0)], help_text="Lifted with the mirror.")
+    # No default: a cell weighs something, and a 0 nobody typed left the cell out of the lifting figures unnoticed.
+    cell_mass_kg = models.FloatField(
+        null=True, blank=True, validators=[MinValueValidator(0)],
+        help_text="Mass of the cell the mirror is lifted in, and anything else below the hook with it, in kg. Empty: "
+        "not entered, so the lifting figures are the mirror alone and a lift of the mirror in its cell is not "
+        "started. 0: the mirror is lifted without its cell.",
+    )
     recoat_loss = models.FloatField(
         default=0.08, validators=[MinValueValidator(0.001), MaxValueValidator(0.9)],
         help_text="Recoat when band reflectance has fallen by this fraction of its fresh value (0.08 = 8 %; "
@@ -40,6 +52,11 @@ class Mirror(models.Model):
         return reverse("mirror-detail", args=[self.pk])
 
     def clean(self) -> None:
+        if self.subsystem_id and self.subsystem.kind not in TRAIN_KINDS:
+            kinds = " or ".join(KINDS[code].label.lower() for code in TRAIN_KINDS)
+            raise ValidationError({"subsystem": f"{self.subsystem} is of the kind {self.subsystem.kind_label}: a "
+                                                f"mirror record belongs only to a {kinds} subsystem, since it joins "
+                                                "the telescope's optical train and sets the recoat line."})
         if self.hole_mm >= self.diameter_mm:
             raise ValidationError({"hole_mm": "The central hole must be smaller than the mirror."})
         if self.band_from_nm >= self.band_to_nm:
@@ -47,6 +64,9 @@ class Mirror(models.Model):
 
     @property
     def lift_inputs(self) -> dict:
+        """``calc.lifting.lift_figures``'s inputs for the mirror in its cell, as a work order stores them; the cell
+        mass None while not entered (an order's figures take it from here once it is: workorders.selectors
+        .lift_inputs)."""
         return {
             "diameter_mm": self.diameter_mm, "thickness_mm": self.thickness_mm, "hole_mm": self.hole_mm,
             "material": self.material, "lightweighting_fraction": self.lightweighting_fraction,
@@ -96,6 +116,10 @@ class CleaningEvent(models.Model):
     cleaned_on = models.DateField()
     method = models.CharField(max_length=12, choices=Method.choices)
     note = models.CharField(max_length=200, blank=True)
+    work_order = models.ForeignKey(
+        "workorders.WorkOrder", null=True, blank=True, on_delete=models.PROTECT, related_name="cleanings",
+        help_text="The work order whose finishing recorded it; empty for a cleaning logged on the mirror's page.",
+    )
 
     class Meta:
         ordering = ["-cleaned_on"]

@@ -5,6 +5,7 @@ returns every figure the mirror page, the command and the API show, each with ho
 """
 from __future__ import annotations
 
+import bisect
 import datetime as dt
 import functools
 import math
@@ -39,7 +40,7 @@ from observatory_ops.workorders.cautions import HAZARDS
 from observatory_ops.workorders.models import RequiredReading, State, WorkOrder, WorkOrderItem
 from observatory_ops.workorders.services import steps_in_groups
 
-from .models import CleaningEvent, CoatingEvent, Mirror, RecoatPlan, ReflectanceMeasurement
+from .models import TRAIN_KINDS, CleaningEvent, CoatingEvent, Mirror, RecoatPlan, ReflectanceMeasurement
 
 #: Weight of a night inside a booked run that is not blocked: it costs this many times more to lose.
 #: A setting of our own, chosen so a booked night outweighs any unbooked one; change it to taste.
@@ -147,8 +148,12 @@ def mirror_forecast(
         cleanings=[(c.cleaned_on, float(e)) for c, e in zip(cleanings, exposures[n : n + k], strict=True)],
     )
     measured_h, measured = [p[1] for p in result.points], [p[2] for p in result.points]
+    # A measurement follows the cleanings dated on or before it, and precedes one dated after it even at the same
+    # exposure (no night logged between the two): by date, not by exposure.
+    cleaned_on = [c.cleaned_on for c in cleanings]
+    cleanings_before = [bisect.bisect_right(cleaned_on, m.measured_on) for m in measurements]
     try:
-        fit = reflectance.fit_decline(measured_h, measured, [c[1] for c in result.cleanings])
+        fit = reflectance.fit_decline(measured_h, measured, [c[1] for c in result.cleanings], cleanings_before)
         if not math.isfinite(fit.recovery_fraction) and fit.cleaning_exposure_h:
             # No measurement follows any cleaning, so no recovery can be fitted, and calc.reflectance will not
             # predict past a cleaning of unknown recovery: count none until one is measured (the earlier date).
@@ -203,10 +208,6 @@ def _recovery(state: MirrorForecast) -> None:
         state.recovery_note = "not determined (no cleaning since the coating yet)"
 
 
-#: The catalogue's mirror kinds (registry/catalogue.py), in the order light meets them: a telescope's
-#: optical train. A subsystem of one of them without a mirror record is a gap in the train's throughput.
-TRAIN_KINDS = ("primary_mirror", "secondary_mirror")
-
 #: Where a train mirror's reflectance now comes from (``TrainMirror.source``).
 ESTIMATE, MEASURED, ASSUMED_FRESH, LEFT_OUT = "estimate", "last measurement", "assumed fresh", "left out"
 
@@ -257,28 +258,45 @@ class Throughput:
         return f"Incomplete: {'; '.join(parts)}. The train has likely lost more light than this."
 
 
-def _train_mirror(state: MirrorForecast) -> TrainMirror:
-    """The reflectance a mirror's forecast gives the train now and fresh, and where each comes from."""
-    mirror = state.mirror
+class ReflectanceNow(NamedTuple):
+    """A mirror's band reflectance now and fresh as its forecast gives them (both None without a coating), where
+    they come from (``source``: ``ESTIMATE``, ``MEASURED``, ``ASSUMED_FRESH`` or ``LEFT_OUT``) and why, in words: the
+    one wording of the mirror page's optical train and the subsystem page's recoat line
+    (``planning.services._recoat_line_state``)."""
+
+    now: float | None
+    fresh: float | None
+    source: str
+    basis: str
+
+
+def reflectance_now(state: MirrorForecast) -> ReflectanceNow:
+    """The reflectance a mirror's forecast gives now and fresh, and where each comes from: the fit's estimate; the
+    last measurement while there is no fit; the computed fresh value while nothing is measured since the coating."""
     if state.fresh_band is None:
-        return TrainMirror(mirror.subsystem, mirror, None, None, LEFT_OUT,
-                           "no coating recorded, so no fresh value: left out of the total")
+        return ReflectanceNow(None, None, LEFT_OUT, "no coating recorded, so no fresh value: left out of the total")
     if state.fit is not None:
-        return TrainMirror(
-            mirror.subsystem, mirror, state.current, state.fit.r0, ESTIMATE,
+        return ReflectanceNow(
+            state.current, state.fit.r0, ESTIMATE,
             f"estimate from the fit at today's exposure ({state.exposure_now_h:,.0f} dust-weighted open hours since "
             f"the coating of {state.coated_on:%d %b %Y}), against the fitted fresh value R0",
         )
     if state.points:
         measured_on, _, value = state.points[-1]
-        return TrainMirror(
-            mirror.subsystem, mirror, value, state.fresh_band, MEASURED,
+        return ReflectanceNow(
+            value, state.fresh_band, MEASURED,
             f"last measurement, {measured_on:%d %b %Y} ({state.fit_note}), against the computed fresh value",
         )
-    return TrainMirror(
-        mirror.subsystem, mirror, state.fresh_band, state.fresh_band, ASSUMED_FRESH,
-        f"computed fresh value assumed: not measured since its coating of {state.coated_on:%d %b %Y}",
+    return ReflectanceNow(
+        state.fresh_band, state.fresh_band, ASSUMED_FRESH,
+        f"computed fresh value assumed: not measured since its coating of {state.coated_on:%d %b %Y} "
+        f"({state.fit_note})",
     )
+
+
+def _train_mirror(state: MirrorForecast) -> TrainMirror:
+    """The reflectance a mirror's forecast gives the train now and fresh, and where each comes from."""
+    return TrainMirror(state.mirror.subsystem, state.mirror, *reflectance_now(state))
 
 
 def throughput(telescope: Telescope, today: dt.date | None = None) -> Throughput:
@@ -542,29 +560,20 @@ _BALANCE_CHECK = (
     "correct the balance until neither axis turns."
 )
 
-# The removal and the reinstall take more than a day and may pause over the crew's days off: the work is left
-# safe at every stop, and the lockout carried over from shift to shift or onto the site's own long-term locks
-# (OSHA 29 CFR 1910.147(f)(4), shift or personnel changes; the site's lockout procedure says how).
-_STOPPING_PART_WAY = (
-    "If the work stops before this order is finished (at the end of a shift, or over the crew's days off), "
-    "leave it safe first: the mirror set down and secured in its crate or in its cell on the lowered lifting "
-    "table, never left hanging; both axes pinned; the locks and tags kept on, handed over from person to person "
-    "or onto the site's long-term locks as its lockout procedure says for work over several shifts."
-)
-
+# How to leave the removal and the reinstall if their work stops part way (both take more than a day and may pause
+# over the crew's days off) is a standing note of their orders, not a step to tick: workorders.selectors.standing_notes.
 _PHASE_WORK = {
     "removal": _PhaseWork(
         # The drives and the brake air are locked out: their cautions (an axis out of balance swings when the
         # air returns) belong on the sheet with the lift.
         hazards=("suspended_load", "optical_surface", "moving_machinery", "height", "electrical", "pneumatic"),
         before=(
-            "Take the observatory out of robotic and remote control and close the dome.",
+            "Take the observatory out of robotic and remote control and close the enclosure.",
             "Point the tube at the zenith at its service position, so the cell can come out of the tube "
             "from below (or park as the site's mirror-removal procedure says, if it removes the mirror "
             "another way).",
         ),
         locked=(
-            _STOPPING_PART_WAY,
             "Lock both axes mechanically with their locking pins; fit the mirror-handling fixture.",
             "Set the lifting table (or cart) under the cell, rated for at least the total suspended load in "
             "the lifting figures; a competent person checks the table and any rigging.",
@@ -636,7 +645,6 @@ _PHASE_WORK = {
             "telescope is out of balance until this order restores the balance.",
         ),
         locked=(
-            _STOPPING_PART_WAY,
             f"Lift the mirror from its crate into the cell with rated slings; set the support pads and clips. "
             f"{_MIRROR_ONLY_LIFT}",
             "Raise the cell on the lifting table into the tube from below and bolt it as the site's "
@@ -808,15 +816,18 @@ def measurement_log(mirror: Mirror, by, measured_on: dt.date, value: float, **fi
     return measurement
 
 
-def cleaning_log(mirror: Mirror, by, cleaned_on: dt.date, method: str, note: str = "") -> CleaningEvent:
+def cleaning_log(
+    mirror: Mirror, by, cleaned_on: dt.date, method: str, note: str = "", work_order=None
+) -> CleaningEvent:
     """A cleaning: the decline fit counts its recovery, and the mirror's cleaning plans
-    (``plans_a_cleaning_restarts``) restart their counting from it, as a coating restarts the recoat plans."""
+    (``plans_a_cleaning_restarts``) restart their counting from it, as a coating restarts the recoat plans.
+    ``work_order``: the order whose finishing records it, whose page and paper then show it."""
     _check_date(mirror, cleaned_on)
     with transaction.atomic():
-        cleaning = CleaningEvent.objects.create(mirror=mirror, cleaned_on=cleaned_on, method=method, note=note)
-        summary = f"Cleaning: {cleaning.get_method_display()}"[:200]
-        if not _plans_restart(mirror.subsystem, plans_a_cleaning_restarts(mirror.subsystem), cleaned_on, by, summary):
-            site_recompute(mirror.subsystem.telescope.site)
+        cleaning = CleaningEvent.objects.create(
+            mirror=mirror, cleaned_on=cleaned_on, method=method, note=note, work_order=work_order
+        )
+        cleaning_service_records_log(cleaning, by)
     return cleaning
 
 
@@ -881,6 +892,22 @@ def coating_service_records_log(event: CoatingEvent, by) -> list[ServiceRecord]:
     subsystem = event.mirror.subsystem
     summary = f"New coating: {event.recipe}"[:200]
     records = _plans_restart(subsystem, plans_a_coating_restarts(subsystem), event.coated_on, by, summary)
+    if not records:
+        site_recompute(subsystem.telescope.site)
+    return records
+
+
+def cleaning_service_records_log(cleaning: CleaningEvent, by) -> list[ServiceRecord]:
+    """Restart the mirror's cleaning plans (``plans_a_cleaning_restarts``) from a cleaning: a service record for
+    each, dated the cleaning date. The one path of a cleaning logged on the mirror page, on a work order or in the
+    admin.
+
+    Idempotent as ``coating_service_records_log``; without such a plan the site is recomputed once here, since
+    the cleaning moves the mirror's decline all the same.
+    """
+    subsystem = cleaning.mirror.subsystem
+    summary = f"Cleaning: {cleaning.get_method_display()}"[:200]
+    records = _plans_restart(subsystem, plans_a_cleaning_restarts(subsystem), cleaning.cleaned_on, by, summary)
     if not records:
         site_recompute(subsystem.telescope.site)
     return records

@@ -2,6 +2,7 @@ from django import forms
 from django.contrib import admin, messages
 from simple_history.admin import SimpleHistoryAdmin
 
+from observatory_ops.logbook.quantities import QUANTITIES, usual_for_kind
 from observatory_ops.registry.forms import HazardsField
 
 from .models import BookedRun, ServicePlan, Trigger
@@ -37,11 +38,33 @@ class ServicePlanAdminForm(forms.ModelForm):
     hazards = HazardsField(help_text="Hazards of this task beyond its subsystem's own; they add safety cautions "
                            "to its work orders.")
 
+    def __init__(self, *args, **kwargs):
+        """The readings' help names the quantity codes usual on this plan's subsystem, not one kind's example."""
+        super().__init__(*args, **kwargs)
+        subsystem = self.instance.subsystem if self.instance.subsystem_id else None
+        if subsystem is None or "readings" not in self.fields:
+            return
+        usual = [f"{code} ({label}, {unit})" for code, (label, unit) in QUANTITIES.items()
+                 if code in usual_for_kind(subsystem.kind)]
+        kind = subsystem.kind_label
+        self.fields["readings"].help_text += (
+            f" The codes usual on its subsystem's kind ({kind}): {', '.join(usual)}." if usual
+            else f" Nothing is usually measured on its subsystem's kind ({kind}): any code of the reading form."
+        )
+
+    def clean(self):
+        """A counting date typed in is a date given by hand: the plan counts from it, no longer "last service
+        unknown" (unless the box is unticked in the same change)."""
+        cleaned = super().clean()
+        if "counting_from" in self.changed_data and "counting_from_given" not in self.changed_data:
+            cleaned["counting_from_given"] = True
+        return cleaned
+
 
 @admin.register(ServicePlan)
 class ServicePlanAdmin(RecomputesSite, SimpleHistoryAdmin):
     form = ServicePlanAdminForm
-    list_display = ("name", "subsystem", "dust_sensitivity", "counting_from", "active")
+    list_display = ("name", "subsystem", "dust_sensitivity", "counting_from", "counting_from_given", "active")
     list_filter = ("subsystem__telescope__site", "subsystem__telescope", "active")
     search_fields = ("name", "subsystem__name")
     inlines = [TriggerInline]

@@ -1,7 +1,7 @@
 """The due digest: one e-mail a day per site to its engineers, listing what is overdue and due, and why.
 
-Sent by the ``planning.due_digest_send`` task (daily, see ``CELERY_BEAT_SCHEDULE``) through Django's mail
-(the console backend unless ``EMAIL_BACKEND`` says otherwise).
+Sent by the ``planning.due_digest_send`` task (hourly, for the sites due for it, see ``CELERY_BEAT_SCHEDULE``)
+through Django's mail: printed by the console backend unless ``EMAIL_BACKEND`` says otherwise.
 """
 from __future__ import annotations
 
@@ -9,7 +9,8 @@ import datetime as dt
 import logging
 
 from django.conf import settings
-from django.core.mail import EmailMessage
+from django.core.mail import EmailMessage, get_connection
+from django.db import transaction
 from django.template.loader import render_to_string
 from django.urls import reverse
 
@@ -20,6 +21,14 @@ from . import selectors
 from .services import site_today, sites_bring_up_to_date
 
 log = logging.getLogger(__name__)
+
+CONSOLE_BACKEND = "django.core.mail.backends.console.EmailBackend"
+
+
+def mail_is_printed() -> bool:
+    """Whether mail is printed to the process's output (its log) instead of sent: Django's console backend."""
+    return settings.EMAIL_BACKEND == CONSOLE_BACKEND
+
 
 def recipients() -> list[str]:
     """E-mail addresses of the active people in the engineer role or above, administrators and superusers
@@ -49,12 +58,14 @@ def due_digest(site: Site, today: dt.date, to: list[str]) -> EmailMessage | None
 
 
 def due_digest_send(site: Site, today: dt.date | None = None) -> int:
-    """Send today's digest for ``site`` to the engineers once; return how many addresses it went to.
+    """Send today's digest for ``site`` to each engineer once; return how many addresses it went to.
 
-    At most one digest per site and local day, whichever process or command asks: the day is claimed on the
-    site's row (``Site.digest_sent_on``, one conditional UPDATE) before sending and given back if sending
-    fails, so a retried, repeated or hourly task sends nothing twice. A digest lost to a worker killed
-    between claim and send is covered by the next day's, which lists every item again.
+    One message per person: a message to all of them would show every engineer's address to every other.
+    At most one digest per site and local day, whichever process or command asks: the site's row is locked
+    while the messages go out and the day is recorded on it (``Site.digest_sent_on``) in the same transaction,
+    after the last message was accepted. So a second process waits and then finds the day sent, and a send
+    that fails, times out (``EMAIL_TIMEOUT``) or is killed leaves the day unsent for the next hourly run. A
+    failure part-way means those already mailed get that day's digest twice, rather than anyone none.
     """
     today = today or site_today(site)
     if Site.objects.filter(pk=site.pk, digest_sent_on=today).exists():
@@ -67,12 +78,17 @@ def due_digest_send(site: Site, today: dt.date | None = None) -> int:
     message = due_digest(site, today, to)
     if message is None:
         return 0
-    previous = Site.objects.filter(pk=site.pk).values_list("digest_sent_on", flat=True).first()
-    if not Site.objects.filter(pk=site.pk).exclude(digest_sent_on=today).update(digest_sent_on=today):
-        return 0  # another process claimed the day meanwhile
+    messages = [EmailMessage(message.subject, message.body, to=[address]) for address in to]
+    mail = get_connection()
+    # Connected and greeted before the site's row is locked: a server that accepts but never answers fails
+    # here, after EMAIL_TIMEOUT, holding up no one.
+    mail.open()
     try:
-        message.send()
-    except BaseException:
-        Site.objects.filter(pk=site.pk, digest_sent_on=today).update(digest_sent_on=previous)
-        raise
-    return len(to)
+        with transaction.atomic():
+            if not Site.objects.select_for_update().filter(pk=site.pk).exclude(digest_sent_on=today).exists():
+                return 0  # another process sent it meanwhile
+            mail.send_messages(messages)
+            Site.objects.filter(pk=site.pk).update(digest_sent_on=today)
+    finally:
+        mail.close()
+    return len(messages)

@@ -8,7 +8,7 @@ from django.core.validators import MinValueValidator
 from django.db import models
 from simple_history.models import HistoricalRecords
 
-from observatory_ops.calc.triggers import STATUSES
+from observatory_ops.calc.triggers import OVERDUE, STATUSES
 from observatory_ops.logbook.quantities import QUANTITY_CHOICES, reflectance_text, unit_of
 from observatory_ops.registry.models import Site, Subsystem
 
@@ -41,7 +41,9 @@ class ServicePlan(models.Model):
         "'2 x Brake pad set' for more.",
     )
     readings = models.JSONField(
-        default=list, blank=True, help_text='Readings to record: [{"quantity": "brake_pressure_bar", "limit": "..."}]'
+        default=list, blank=True,
+        help_text='Readings its work orders ask for, as a JSON list of {"quantity": code, "limit": "in words"}; '
+        "[] for none.",
     )
     hazards = models.JSONField(default=list, blank=True, help_text="Hazards of the task beyond the subsystem's.")
     estimated_hours = models.FloatField(default=1.0, validators=[MinValueValidator(0)])
@@ -50,6 +52,14 @@ class ServicePlan(models.Model):
         help_text="0: dust does not matter; 1: an hour at twice the clean-air PM10 counts as two.",
     )
     counting_from = models.DateField(help_text="Start of counting when the plan has no service record yet.")
+    # A plan made with a new subsystem gets the day it was registered, which says nothing of when the equipment
+    # was last serviced: until a service is logged or a date is given here, the plan is due for a baseline service.
+    counting_from_given = models.BooleanField(
+        "counting date known", default=True,
+        help_text="Ticked: the date above is a real start (the last service before records began, or the day the "
+        "equipment went into service new); changing the date ticks it. Unticked (the plans a new subsystem brings): "
+        "its last service is unknown, so the plan is due now for a baseline service until a service is logged.",
+    )
     basis = models.CharField(max_length=120, blank=True, help_text="Where the intervals come from.")
     active = models.BooleanField(default=True)
 
@@ -161,6 +171,10 @@ def figure_text(metric: str, unit: str, value: float) -> str:
     return f"{value:,.0f}"
 
 
+#: The due list's "Now / limit" of a plan due for a baseline service (``PlanStatus.progress``).
+UNKNOWN_PROGRESS = "last service unknown"
+
+
 class PlanStatus(models.Model):
     """The due state of one plan, computed by ``planning.services.site_recompute``; never edited by hand.
 
@@ -185,6 +199,9 @@ class PlanStatus(models.Model):
     earliest = models.DateField(null=True)
     latest = models.DateField(null=True)
     last_service_on = models.DateField(null=True)
+    last_service_unknown = models.BooleanField(
+        default=False, help_text="No service record and no counting date given: due now for a baseline service."
+    )
     reason = models.TextField(help_text="One sentence: which trigger, value, limit, rate and forecast.")
     basis = models.TextField(blank=True, help_text="How the governing trigger's figures were obtained.")
     triggers = models.JSONField(
@@ -207,7 +224,10 @@ class PlanStatus(models.Model):
 
     @property
     def progress(self) -> str:
-        """Value now against the limit, for the due list."""
+        """Value now against the limit, for the due list; "last service unknown" for a plan due for a baseline
+        service (its figures count from the plan's start, not from a service) until a limit is reached."""
+        if self.last_service_unknown and self.status != OVERDUE:
+            return UNKNOWN_PROGRESS
         return (f"{figure_text(self.metric, self.unit, self.value)} / "
                 f"{figure_text(self.metric, self.unit, self.limit)} {self.unit}").strip()
 

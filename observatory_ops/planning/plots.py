@@ -3,14 +3,19 @@ from __future__ import annotations
 
 import datetime as dt
 from collections.abc import Sequence
-from typing import NamedTuple
+from typing import TYPE_CHECKING, NamedTuple
 
 from django.utils.safestring import SafeString
 
-from observatory_ops.charts import ACCENT, LINE_PX, MUTED, Chart
+from observatory_ops.calc import reflectance
+from observatory_ops.charts import ACCENT, CHAR_PX, LINE_PX, MUTED, Chart
+from observatory_ops.logbook.quantities import reflectance_text
 
 from . import metrics
 from .models import figure_text
+
+if TYPE_CHECKING:  # mirrors builds on planning: imported for the annotations only
+    from observatory_ops.mirrors.services import MirrorForecast
 
 #: Fill of the readings a trend leaves out (before the last service, or older than the newest it takes): drawn, but
 #: lighter than those it was fitted to.
@@ -26,6 +31,7 @@ class TrendLine(NamedTuple):
     value_at_start: float
     slope_per_day: float
     crossing: float | None  # the day it reaches the limit; None when it moves away from it
+    crossing_on: dt.date | None  # the site's date of that day (``services.trend_date``), as the due state dates it
 
     def value_at(self, day: float) -> float:
         return self.value_at_start + self.slope_per_day * (day - self.start)
@@ -36,6 +42,15 @@ def day_of(moment: dt.datetime, zone) -> float:
     local = moment.astimezone(zone)
     midnight = dt.datetime.combine(local.date(), dt.time(), tzinfo=zone)
     return local.toordinal() + (local - midnight).total_seconds() / 86400
+
+
+def _label_along(chart: Chart, points: Sequence[tuple], words: str) -> None:
+    """Name a drawn line beside the first of its ``points`` where the words keep clear, above it or below: reaching
+    right of the point, or left of it where they would run past the plot's right edge (so that even a label placed
+    where nothing is clear stays inside the picture)."""
+    right = chart.area[2] - CHAR_PX * len(words)
+    chart.label([(chart.x(x), chart.y(y) + dy, "start" if chart.x(x) <= right else "end") for x, y in points
+                 for dy in (-6, 14)], words, ACCENT)
 
 
 def _date(day: float) -> dt.date:
@@ -131,15 +146,14 @@ def readings_svg(
         chart.line(drawn, width=1.5)
         (first, _), (last, _) = drawn
         along = [first + (last - first) * k / 8 for k in range(9)]  # places for its label, along it
-        chart.label([(chart.x(x), chart.y(trend.value_at(x)) + dy, "start") for x in along for dy in (-6, 14)],
-                    "Theil-Sen trend", ACCENT)
+        _label_along(chart, [(x, trend.value_at(x)) for x in along], "Theil-Sen trend")
     if reached and forecast:
         on = next(((x, v) for x, v in readings if _date(x) == forecast and (v >= limit if rising else v <= limit)),
                   (forecast, limit))
         chart.marker(*on, f"limit reached {forecast:%d %b %Y}")
-    elif trend and trend.crossing is not None and forecast:
-        said = f"forecast {forecast:%d %b %Y}" if trend.crossing >= today.toordinal() else (
-            f"trend at the limit {_date(trend.crossing):%d %b %Y}")  # the forecast is then today, the earliest
+    elif trend and trend.crossing_on is not None and forecast:
+        said = f"forecast {forecast:%d %b %Y}" if trend.crossing_on >= today else (
+            f"trend at the limit {trend.crossing_on:%d %b %Y}")  # the forecast is then today, the earliest
         chart.marker(trend.crossing, limit, said)
     chart.vline(today, "today")
     if counted_from[0] > start:
@@ -150,3 +164,87 @@ def readings_svg(
                     "light dots: readings not in the trend", MUTED)
     return chart.svg()
 
+
+
+def _counted_cleanings(state: MirrorForecast) -> list[tuple[dt.date, float]]:
+    """The cleanings (date, exposure) the fit of ``state`` counts: all since the coating, or none when it counts
+    none (``MirrorForecast.cleaning_note`` then says why)."""
+    return state.cleanings if state.fit.cleaning_exposure_h else []
+
+
+def fitted_decline_by_date(state: MirrorForecast, today: dt.date) -> list[tuple[dt.date, float]]:
+    """The fitted decline of ``state`` (``mirrors.services.mirror_forecast``: the fit the recompute forecasts from
+    and the mirror page draws against exposure) at each date whose dust-weighted exposure the forecast knows,
+    oldest first: the coating (E = 0), every band measurement, each cleaning the fit counts, and today (E now).
+    The values are ``calc.reflectance.predict`` of the fit at those exposures, each date after the cleanings dated
+    on or before it, as the fit counts them for its measurements; on a cleaning's date the line rises from the
+    fit's value with only the cleanings dated before.
+
+    A date's exposure is that of the nights before it, so date order is exposure order; a measurement dated
+    before a cleaning is before it even at the same exposure (no night logged between the two)."""
+    fit = state.fit
+    counted = _counted_cleanings(state)
+    dated = [(state.coated_on, 0.0), *((day, hours) for day, hours, _ in state.points), *counted,
+             (today, state.exposure_now_h)]
+
+    def fitted(day: dt.date, hours: float, with_that_days: bool) -> float:
+        done = [c for cleaned, c in counted if cleaned < day or (with_that_days and cleaned == day)]
+        return float(reflectance.predict(fit, [hours], done)[0])
+
+    knots = [(day, 1, fitted(day, hours, True)) for day, hours in dated]
+    knots += [(day, 0, fitted(day, hours, False)) for day, hours in counted]
+    return [(day, value) for day, _, value in sorted(knots, key=lambda knot: knot[:2])]
+
+
+def recoat_svg(state: MirrorForecast, today: dt.date, title: str) -> SafeString:
+    """A recoat-line trigger's picture against dates: the mirror's band measurements since its coating as dots,
+    the recoat line, and the fitted decline its forecast came from (``fitted_decline_by_date``), dashed on from
+    today's estimate to the forecast date on the line, with the forecast band. Every date and figure is the
+    state's, the one the recompute stores; ``recoat_caption`` words the fit under it."""
+    limit, forecast = state.threshold, state.crossing
+    fitted = fitted_decline_by_date(state, today) if state.fit else []
+    dates = (today, forecast, state.crossing_earliest, state.crossing_latest)
+    end = max(d for d in dates if d is not None) + dt.timedelta(days=7)
+    values = [value for _, _, value in state.points] + [value for _, value in fitted] + [limit]
+    limit_label = f"recoat line {figure_text(metrics.RECOAT_LINE, '', limit)}"
+    chart = _frame(state.coated_on, end, values, limit, limit_label, False, title, state.crossing_earliest,
+                   state.crossing_latest)
+    if fitted:
+        chart.line(fitted, width=1.5)
+        _label_along(chart, fitted, "fitted decline")
+    chart.dots([(day, value) for day, _, value in state.points], label="band measurement")
+    if state.current is not None and forecast:
+        if state.current <= limit:  # reached: the state dates it today, where the fit is now
+            chart.marker(today, state.current, f"limit reached {forecast:%d %b %Y}")
+        else:
+            chart.line([(today, state.current), (forecast, limit)], dashed=True, width=1.5)
+            chart.marker(forecast, limit, f"forecast {forecast:%d %b %Y}")
+    chart.vline(today, "today")
+    return chart.svg()
+
+
+def recoat_caption(state: MirrorForecast) -> str:
+    """What ``recoat_svg`` draws, in words: the fit with its figures, the measurements it was made from, and how
+    the line is laid on dates and carried to the forecast."""
+    coated = f"{state.coated_on:%d %b %Y}"
+    if state.fit is None:
+        return (f"Dots: the mirror's band measurements since its coating of {coated}; {state.fit_note}, so no "
+                "decline is drawn and no crossing is forecast.")
+    fit, counted = state.fit, _counted_cleanings(state)
+    figures = f"R0 = {reflectance_text(fit.r0)}, b = {fit.rate_per_hour:.3e} per hour"
+    formula, cleanings = "R = R0 − b·E", ""
+    if counted:
+        formula = "R = R0 − b·(E − f·c)"
+        figures += (f", f = {fit.recovery_fraction:.2f} (the share of the loss a cleaning recovers; c: E at the last "
+                    "cleaning)")
+        cleanings = f", on either side of each cleaning ({', '.join(f'{day:%d %b %Y}' for day, _ in counted)})"
+    words = (
+        f"Fitted decline: the least-squares fit of {formula} to the {fit.n_points} band measurements (dots) against "
+        f"E, the dust-weighted open hours since the coating of {coated}: {figures}. The line is the fit at the "
+        f"coating, at each measurement{cleanings} and today (E = {state.exposure_now_h:,.1f} h), straight between "
+        "them; the forecast comes from the same fit, and the mirror's page draws it against E."
+    )
+    if state.crossing and state.current is not None and state.current > state.threshold:
+        words += (f" Dashed: from today to the day the dust-weighted hours expected each night bring E to "
+                  f"{state.crossing_exposure_h:,.1f} h, where the fit meets the recoat line.")
+    return f"{words} {state.cleaning_note}".strip()

@@ -14,7 +14,7 @@ from observatory_ops.registry.catalogue import COMMON_PRACTICE, KINDS
 from observatory_ops.registry.models import Site, Subsystem
 
 from . import metrics, plots
-from .models import NightSky, PlanStatus, ServicePlan, Trigger, figure_text
+from .models import UNKNOWN_PROGRESS, NightSky, PlanStatus, ServicePlan, Trigger, figure_text
 
 #: The catalogue's default limit of each quantity a condition trigger of its plans watches (registry.catalogue).
 CATALOGUE_READING_LIMITS: dict[str, float] = {
@@ -93,6 +93,63 @@ def unwatched_reading_note(subsystem: Subsystem, quantity: str) -> str | None:
             "with its history, but it moves no forecast.")
 
 
+def reading_before_counting_note(subsystem: Subsystem, quantity: str, day: dt.date) -> str | None:
+    """What to tell whoever logs a reading of ``quantity`` dated ``day`` (the site's local date) that comes before
+    the day the subsystem's plans watching it count from: their last service, or their start while none is logged.
+    Such a reading is kept but judges nothing (``services._readings_by_subsystem_quantity``). None when every plan
+    watching the quantity counts it, or none watches it (``unwatched_reading_note`` says so)."""
+    from .services import effective_last_service
+
+    plans = list(ServicePlan.objects.filter(
+        subsystem=subsystem, active=True, triggers__metric=metrics.READING, triggers__quantity=quantity
+    ).distinct().order_by("name"))
+    last_service = effective_last_service(plan__in=plans)
+    serviced = [(p.name, last_service[p.pk]) for p in plans if p.pk in last_service and day < last_service[p.pk]]
+    unserviced = [(p.name, p.counting_from) for p in plans if p.pk not in last_service and day < p.counting_from]
+    notes = []
+    if unserviced:
+        names = " and ".join(f"{name} ({start:%d %b %Y})" for name, start in unserviced)
+        notes.append(
+            f"This reading of {day:%d %b %Y} is before the start of {names}, with no service of "
+            f"{'it' if len(unserviced) == 1 else 'them'} logged, so it judges nothing yet. Entering past readings? "
+            "Log the last service first (Log service for this plan, dated when it was done): the plan then counts "
+            "from it, and the readings after it count."
+        )
+    if serviced:
+        names = " and ".join(f"{name} ({on:%d %b %Y})" for name, on in serviced)
+        notes.append(f"This reading of {day:%d %b %Y} is before the last service of {names}: a plan judges the "
+                     "readings since its last service, so this one is kept in the history only.")
+    return " ".join(notes) or None
+
+
+def nights_before_unknown_starts_note(site: Site, nights: list[dt.date]) -> str:
+    """Why stored ``nights`` move no counter of some plans: they are before the start of plans whose last service
+    is unknown (no service record, counting date not given: ``ServicePlan.counting_from_given``), which count from
+    their start until a service is logged. "" when there are no such plans with a usage trigger."""
+    from .services import effective_last_service
+
+    if not nights:
+        return ""
+    plans = list(ServicePlan.objects.filter(
+        subsystem__telescope__site=site, subsystem__retired_on__isnull=True, active=True, counting_from_given=False,
+        counting_from__gt=min(nights), triggers__metric__in=[*metrics.USAGE_FIELDS, metrics.DUST_HOURS],
+    ).distinct())
+    serviced = effective_last_service(plan__in=plans)
+    unknown = [p for p in plans if p.pk not in serviced]
+    if not unknown:
+        return ""
+    first, last = min(p.counting_from for p in unknown), max(p.counting_from for p in unknown)
+    when = f"{first:%d %b %Y}" if first == last else f"{first:%d %b %Y} to {last:%d %b %Y}"
+    before = sum(1 for night in nights if night < last)
+    one, count = before == 1, len(unknown)
+    return (
+        f"{before} of these nights {'is' if one else 'are'} before the start ({when}) of {count} service "
+        f"plan{'' if count == 1 else 's'} whose last service is unknown, so {'it moves' if one else 'they move'} none "
+        "of their counters. Log each plan's last service (Log service for this plan, on its subsystem page): it then "
+        "counts from that day, and the nights after it count."
+    )
+
+
 def _iso_utc(moment) -> str | None:
     return moment.astimezone(dt.UTC).strftime("%Y-%m-%dT%H:%M:%SZ") if moment else None
 
@@ -132,6 +189,7 @@ def due_record(status: PlanStatus) -> dict:
         "forecast_date": status.forecast_date.isoformat() if status.forecast_date else None,
         "earliest": status.earliest.isoformat() if status.earliest else None,
         "latest": status.latest.isoformat() if status.latest else None,
+        "last_service_unknown": status.last_service_unknown,
         "reason": status.reason,
     }
 
@@ -151,9 +209,11 @@ def due_csv_row(status: PlanStatus) -> list:
     """
     subsystem = status.plan.subsystem
     record = due_record(status)
+    unknown = status.progress == UNKNOWN_PROGRESS  # the page's words for a plan due for a baseline service
     return [
         status.get_status_display(), subsystem.telescope.site.name, subsystem.telescope.name, subsystem.name,
-        status.plan.name, metrics.METRICS[status.metric][0], record["value"], status.limit, status.unit,
+        status.plan.name, metrics.METRICS[status.metric][0], status.progress if unknown else record["value"],
+        status.limit, status.unit,
         record["rate"], record["forecast_date"], record["earliest"], record["latest"], status.reason,
     ]
 
@@ -197,7 +257,9 @@ def trigger_table(plan: ServicePlan) -> list[dict]:
     dates as dates, ``reached`` where the limit is already reached (its forecast is then the day it was
     reached), ``value_text`` and ``limit_text`` as ``models.figure_text`` writes them, and ``rate``: the rate
     per day in words that say what it is (the expected mean over the next 30 days for a counter, the trend for a
-    reading; none for a calendar trigger)."""
+    reading; none for a calendar trigger). While the plan's last service is unknown its days since are "unknown",
+    and a counter's figure, counted from the plan's start, is "at least" that."""
+    unknown = plan.status.last_service_unknown
     rows = []
     for row in plan.status.trigger_rows:
         rising = _rising(plan, row)
@@ -208,10 +270,15 @@ def trigger_table(plan: ServicePlan) -> list[dict]:
             words = f"{significant(rate, signed=True)} {row['unit']} (trend)"
         else:
             words = f"{significant(rate)} {row['unit']} (mean of the next 30 days)"
+        value_text = figure_text(row["metric"], row["unit"], row["value"])
+        if unknown and row["metric"] == metrics.CALENDAR_DAYS:
+            value_text = "unknown"
+        elif unknown and (row["metric"] in metrics.USAGE_FIELDS or row["metric"] == metrics.DUST_HOURS):
+            value_text = f"at least {value_text}"
         rows.append({
             **row,
             "rate": words,
-            "value_text": figure_text(row["metric"], row["unit"], row["value"]),
+            "value_text": value_text,
             "limit_text": figure_text(row["metric"], row["unit"], row["limit"]),
             "reached": row["value"] >= row["limit"] if rising else row["value"] <= row["limit"],
             **{key: row[key] and dt.date.fromisoformat(row[key]) for key in ("forecast", "earliest", "latest")},
@@ -291,9 +358,11 @@ def expected_use_by_month(subsystem: Subsystem, plans: list[ServicePlan]) -> dic
 
 
 def plans_with_plots(subsystem: Subsystem) -> list[ServicePlan]:
-    """The subsystem's plans, each with ``plot``: an SVG of its governing trigger (see ``plots``),
-    ``trigger_table``: its triggers' rows (``trigger_table``), and ``default_limits``: the notes of
-    ``default_limit_notes``."""
+    """The subsystem's plans, each with ``plot``: an SVG of its governing trigger (see ``plots``), ``caption``: the
+    words under it where it needs them (the fitted decline of a recoat line), ``trigger_table``: its triggers' rows
+    (``trigger_table``), and ``default_limits``: the notes of ``default_limit_notes``."""
+    from observatory_ops.mirrors.services import mirror_forecast  # mirrors builds on planning
+
     from .services import UsageLog, site_today
 
     site = subsystem.telescope.site
@@ -302,7 +371,7 @@ def plans_with_plots(subsystem: Subsystem) -> list[ServicePlan]:
     log = None
     for plan in plans:
         status = getattr(plan, "status", None)  # a plan not computed yet has none
-        plan.plot, plan.unread, plan.default_limits = None, [], default_limit_notes(plan)
+        plan.plot, plan.caption, plan.unread, plan.default_limits = None, "", [], default_limit_notes(plan)
         if status is None:
             continue
         plan.trigger_table = trigger_table(plan)
@@ -314,22 +383,21 @@ def plans_with_plots(subsystem: Subsystem) -> list[ServicePlan]:
             (QUANTITIES[t.quantity][0], baseline, since) for t in plan.triggers.all()
             if t.metric == metrics.READING and t.quantity in QUANTITIES and QUANTITIES[t.quantity][0] not in shown
         ]
-        rising = True
+        if status.progress == UNKNOWN_PROGRESS:  # no picture of the way to a limit from a service nobody knows
+            continue
+        title = f"{plan.name}: {status.get_metric_display()}"
         if status.metric == metrics.CALENDAR_DAYS:
             points = [(baseline, 0.0), (today, status.value)]
         elif status.metric == metrics.RECOAT_LINE:
-            rising = False
+            # The state the recompute stored this trigger from (services._recoat_line_state), computed again here
+            # for its fit: the picture and the figures come from the one function.
             mirror = getattr(subsystem, "mirror", None)
-            coating = mirror.coatings.order_by("-coated_on").first() if mirror else None
-            points = (
-                list(
-                    mirror.measurements.filter(measured_on__gte=coating.coated_on, wavelength_nm__isnull=True)
-                    .order_by("measured_on")
-                    .values_list("measured_on", "value")
-                )
-                if coating
-                else []
-            )
+            log = log or UsageLog.for_site(site)
+            decline = mirror_forecast(mirror, today, log) if mirror else None
+            if decline is not None and decline.threshold is not None:
+                plan.plot = plots.recoat_svg(decline, today, title)
+                plan.caption = plots.recoat_caption(decline)
+            continue
         elif status.metric == metrics.READING:
             trigger = _reading_trigger(plan, status.basis)
             rising = trigger.direction == Trigger.Direction.ABOVE
@@ -338,8 +406,7 @@ def plans_with_plots(subsystem: Subsystem) -> list[ServicePlan]:
             plan.plot = plots.readings_svg(
                 [(plots.day_of(moment, site.zone), value) for moment, value in taken],
                 reading_trend(taken, baseline, site.zone, trigger.limit, rising), status.limit, status.unit, today,
-                plan.trigger_table[0]["reached"], status.forecast_date, status.earliest, status.latest, rising,
-                f"{plan.name}: {status.get_metric_display()}",
+                plan.trigger_table[0]["reached"], status.forecast_date, status.earliest, status.latest, rising, title,
                 (baseline, f"{'last service' if status.last_service_on else 'plan start'} {baseline:%d %b %Y}"),
             )
             continue
@@ -351,7 +418,7 @@ def plans_with_plots(subsystem: Subsystem) -> list[ServicePlan]:
             points = [(baseline, 0.0)] + list(zip(days, totals.tolist(), strict=True))
         plan.plot = plots.accumulation_svg(
             points, status.limit, status.unit, today, status.value, status.forecast_date, status.earliest,
-            status.latest, rising=rising, title=f"{plan.name}: {status.get_metric_display()}", metric=status.metric,
+            status.latest, title=title, metric=status.metric,
         )
     return plans
 
@@ -362,9 +429,10 @@ def reading_trend(
     """The Theil-Sen line a condition trigger's due state came from, on a chart's axis of days (``plots.day_of``).
 
     Fitted by the recompute's own function (``services.reading_trend_fit``) to the readings ``taken`` (oldest first)
-    since the baseline's local day. None where the recompute has no trend either.
+    since the baseline's local day, its crossing dated as the recompute dates it (``services.trend_date``). None
+    where the recompute has no trend either.
     """
-    from .services import reading_trend_fit
+    from .services import reading_trend_fit, trend_date
 
     counted = [(moment, value) for moment, value in taken if moment.astimezone(zone).date() >= baseline]
     if not counted:
@@ -375,4 +443,5 @@ def reading_trend(
     start = plots.day_of(origin, zone)
     last = (counted[-1][0] - origin).total_seconds() / 86400
     crossing = None if fit.crossing_day is None else start + fit.crossing_day
-    return plots.TrendLine(start, start + last, fit.value_at(0.0), fit.slope_per_day, crossing)
+    return plots.TrendLine(start, start + last, fit.value_at(0.0), fit.slope_per_day, crossing,
+                           trend_date(origin, fit.crossing_day, zone))

@@ -21,7 +21,7 @@ from simple_history.utils import bulk_create_with_history
 from observatory_ops.calc import exposure, forecast, nights, trend
 from observatory_ops.calc.triggers import STATUSES, TriggerState, due_status, governing
 from observatory_ops.logbook.models import NightUsage, Reading, ServiceRecord
-from observatory_ops.logbook.quantities import QUANTITIES, REFLECTANCE_DECIMALS, reflectance_text, significant
+from observatory_ops.logbook.quantities import QUANTITIES, reflectance_text, significant
 from observatory_ops.registry.catalogue import RELEASE
 from observatory_ops.registry.catalogue import kind as catalogue_kind
 from observatory_ops.registry.models import Site, Subsystem
@@ -33,6 +33,14 @@ from .models import NightSky, PlanStatus, ServicePlan, Trigger, trigger_figures
 HORIZON_DAYS = 3 * 366
 #: Readings used for a condition trend: those since the last service, at most this many of the newest.
 TREND_READINGS = 12
+#: Unlogged past nights beyond this many are named in a usage forecast's basis: they are counted as used at the
+#: expected rate (``forecast_model``), and a month of them is more than the lag of a log sent in now and then, so
+#: the reader should know (a choice of our own).
+UNLOGGED_NIGHTS_SAID = 30
+#: What a plan whose last service is unknown (no service record, and its counting date not given) needs: it is due
+#: now. Equipment of unknown maintenance history gets a baseline service before its intervals mean anything
+#: (common practice, no published source).
+UNKNOWN_LAST_SERVICE = "no service record: enter the last service if it is known, or do a baseline service"
 
 
 def site_today(site: Site, now: dt.datetime | None = None) -> dt.date:
@@ -40,8 +48,13 @@ def site_today(site: Site, now: dt.datetime | None = None) -> dt.date:
     return (now or timezone.now()).astimezone(site.zone).date()
 
 
-def plans_from_catalogue(subsystem: Subsystem, counting_from: dt.date) -> list[ServicePlan]:
-    """Create the default service plans of the subsystem's kind, with their triggers."""
+def plans_from_catalogue(subsystem: Subsystem, counting_from: dt.date | None) -> list[ServicePlan]:
+    """Create the default service plans of the subsystem's kind, with their triggers, counting from
+    ``counting_from``. None: nobody said when the equipment was last serviced (a subsystem added in the admin), so
+    the plans count from the site's today with their last service unknown (``ServicePlan.counting_from_given``
+    False): due now for a baseline service until a service is logged or a counting date is given."""
+    given = counting_from is not None
+    counting_from = counting_from or site_today(subsystem.telescope.site)
     created = []
     for template in catalogue_kind(subsystem.kind).plans:
         plan = ServicePlan.objects.create(
@@ -59,6 +72,7 @@ def plans_from_catalogue(subsystem: Subsystem, counting_from: dt.date) -> list[S
             estimated_hours=template.estimated_hours,
             dust_sensitivity=template.dust_sensitivity,
             counting_from=counting_from,
+            counting_from_given=given,
             basis=template.basis,
         )
         triggers = [
@@ -178,6 +192,8 @@ class UsageModel:
     dark_hours: np.ndarray  # dark hours of each coming night (the sky cache)
     pm10_months: int = 0  # calendar months with their own mean PM10
     pm10_nights: int = 0  # open nights with PM10 measured
+    spread_months: int = 0  # complete months the spread was measured from; 0: the prior spread
+    unlogged_nights: int = 0  # past nights from ``first_day`` to yesterday, none logged: counted as expected
 
     def expected(self, metric: str, dust_sensitivity: float) -> np.ndarray:
         if metric == metrics.OPEN_HOURS:
@@ -198,7 +214,18 @@ class UsageModel:
                 f"this site's open fraction for {self.months_from_history} of 12 months and a prior of "
                 f"{forecast.PRIOR_OPEN_FRACTION:.0%} for the rest"
             )
-        return f"dark hours of each coming night x {source}; band from month-to-month spread {self.spread:.0%}"
+        if self.spread_months:
+            band = (f"band from this site's month-to-month spread {self.spread:.0%} ({self.spread_months} complete "
+                    "months, each against the same month of its other years)")
+        else:
+            band = (f"band from a prior month-to-month spread of {self.spread:.0%} (too few complete months logged "
+                    "in more than one year to measure the site's own)")
+        basis = f"dark hours of each coming night x {source}; {band}"
+        if self.unlogged_nights > UNLOGGED_NIGHTS_SAID:
+            last = self.first_day - dt.timedelta(days=1)
+            basis += (f"; no night logged since {last:%d %b %Y}: the {self.unlogged_nights} nights since are counted "
+                      "as used at the expected rate (from the last service, if later)")
+        return basis
 
     def usage_basis(self, metric: str, dust_sensitivity: float) -> str:
         """How the expected usage of a counter's metric is made (``expected``): the basis of its forecast."""
@@ -294,14 +321,16 @@ def usage_model(site: Site, log: UsageLog, first_day: dt.date, days: int) -> Usa
                 pm10_nights >= forecast.MIN_NIGHTS_FOR_HISTORY, sums / weights, sums.sum() / weights.sum()
             )
 
-    # Month-to-month spread: each past (year, month)'s open hours against dark hours x that month's fraction.
+    # Month-to-month spread: each complete past (year, month) against the same month of the other years
+    # (calc.forecast.months_left_out). The month of the night after the last logged one (or of the first forecast
+    # day, if earlier) is still being logged, so it and any later month are left out.
     keys = log.nights.astype("datetime64[M]").astype(int)  # months since 1970-01: one per (year, month)
-    spread = forecast.PRIOR_MONTHLY_SPREAD
-    if len(keys):
-        _, index = np.unique(keys, return_inverse=True)
-        actual = np.bincount(index, weights=open_h)
-        expected = np.bincount(index, weights=past_dark * fraction[past_months - 1])
-        spread = forecast.monthly_spread(actual, expected)
+    unlogged = min([np.datetime64(first_day, "D"), *log.nights[-1:] + 1])
+    first_incomplete = int(unlogged.astype("datetime64[M]").astype(int))
+    actual, expected = forecast.months_left_out(keys, open_h, past_dark, first_incomplete)
+    spread = forecast.monthly_spread(actual, expected)
+    compared = int((expected > 0).sum())
+    spread_months = compared if compared >= forecast.MIN_MONTHS_FOR_SPREAD else 0  # fewer: the prior (as above)
 
     return UsageModel(
         first_day=first_day,
@@ -312,6 +341,7 @@ def usage_model(site: Site, log: UsageLog, first_day: dt.date, days: int) -> Usa
         from_history=from_history,
         months_from_history=int(from_history.sum()),
         spread=spread,
+        spread_months=spread_months,
         months=months,
         dark_hours=dark,
         pm10_months=int((pm10_nights >= forecast.MIN_NIGHTS_FOR_HISTORY).sum()),
@@ -320,11 +350,18 @@ def usage_model(site: Site, log: UsageLog, first_day: dt.date, days: int) -> Usa
 
 
 def forecast_model(site: Site, log: UsageLog, today: dt.date) -> UsageModel:
-    """The usage model a recompute forecasts with: from the first night not yet logged (today at the latest,
-    so unlogged past nights count as expected usage) to ``HORIZON_DAYS`` after today."""
+    """The usage model a recompute forecasts with: from the first night not yet logged (today at the latest) to
+    ``HORIZON_DAYS`` after today.
+
+    Past nights after the last logged one are taken as used at the expected rate, a plan's from its baseline when
+    that is later (``_site_recompute``): a log that lags behind still moves the due dates on (common practice, no
+    published source). The cost of the assumption: a shutdown left unlogged counts as use, and after a long one
+    every plan counting from before it is due. The basis says so once more than ``UNLOGGED_NIGHTS_SAID`` nights
+    are missing."""
     last_logged = _as_date(log.nights[-1]) if len(log.nights) else None
     first_day = min(today, last_logged + dt.timedelta(days=1)) if last_logged else today
-    return usage_model(site, log, first_day, (today - first_day).days + HORIZON_DAYS)
+    model = usage_model(site, log, first_day, (today - first_day).days + HORIZON_DAYS)
+    return replace(model, unlogged_nights=(today - first_day).days) if last_logged else model
 
 
 # --- the recompute ----------------------------------------------------------------------------------
@@ -334,12 +371,11 @@ def _offset_date(first_day: dt.date, offset: int) -> dt.date | None:
     return None if offset < 0 else first_day + dt.timedelta(days=int(offset))
 
 
-def _effective_last_service(site: Site) -> dict[int, dt.date]:
-    """Newest service date per plan at a site, counting only records neither corrected nor withdrawn."""
+def effective_last_service(**where) -> dict[int, dt.date]:
+    """Newest service date per plan of the service records matching ``where`` (``subsystem__telescope__site=site``,
+    ``plan__in=plans``), counting only records neither corrected nor withdrawn: the date a plan counts from."""
     return dict(
-        ServiceRecord.objects.filter(
-            subsystem__telescope__site=site, plan__isnull=False, corrected_by__isnull=True, void=False
-        )
+        ServiceRecord.objects.filter(plan__isnull=False, corrected_by__isnull=True, void=False, **where)
         .values("plan_id")
         .annotate(last=Max("performed_on"))
         .values_list("plan_id", "last")
@@ -403,23 +439,24 @@ class _Plan(NamedTuple):
     subsystem_id: int
     counting_from: dt.date
     dust_sensitivity: float
+    counting_from_given: bool
 
 
 def _site_recompute(site: Site, today: dt.date) -> int:
-    # One query for the triggers of every active plan, each with the four plan fields read here: rows, not
+    # One query for the triggers of every active plan, each with the five plan fields read here: rows, not
     # model instances, since a site has hundreds. A plan without triggers has no due state.
     plans: list[_Plan] = []
     triggers_of: dict[int, list] = {}
-    for plan_id, subsystem_id, counting_from, sensitivity, *trigger in _fetched(
+    for plan_id, subsystem_id, counting_from, sensitivity, given, *trigger in _fetched(
         Trigger.objects.filter(
             plan__subsystem__telescope__site=site, plan__active=True, plan__subsystem__retired_on__isnull=True
         )
         .order_by("plan_id", "pk")
-        .values_list("plan_id", "plan__subsystem_id", "plan__counting_from", "plan__dust_sensitivity", "metric",
-                     "limit", "quantity", "direction")
+        .values_list("plan_id", "plan__subsystem_id", "plan__counting_from", "plan__dust_sensitivity",
+                     "plan__counting_from_given", "metric", "limit", "quantity", "direction")
     ):
         if plan_id not in triggers_of:
-            plans.append(_Plan(plan_id, subsystem_id, counting_from, sensitivity))
+            plans.append(_Plan(plan_id, subsystem_id, counting_from, sensitivity, bool(given)))
             triggers_of[plan_id] = []
         triggers_of[plan_id].append(_Trigger(*trigger))
     recoat = any(t.metric == metrics.RECOAT_LINE for p in plans for t in triggers_of[p.pk])
@@ -427,10 +464,13 @@ def _site_recompute(site: Site, today: dt.date) -> int:
     log = UsageLog.for_site(site)
     model = forecast_model(site, log, today)
     first_day = model.first_day
-    last_service = _effective_last_service(site)
+    last_service = effective_last_service(subsystem__telescope__site=site)
     # A plan counts from its last service; ``counting_from`` only while it has none (service history from
-    # before the plan was registered, logged afterwards, counts as it happened).
+    # before the plan was registered, logged afterwards, counts as it happened). With neither a service nor a
+    # counting date given, its last service is unknown: it still counts from ``counting_from`` (the day it was
+    # registered), but is due now (``_unknown_last_service``).
     baselines = {p.pk: last_service.get(p.pk, p.counting_from) for p in plans}
+    unknown = {p.pk for p in plans if not p.counting_from_given and p.pk not in last_service}
     readings = _readings_by_subsystem_quantity(site, plans, triggers_of, baselines)
 
     states: dict[int, list[TriggerState]] = {p.pk: [] for p in plans}
@@ -454,6 +494,11 @@ def _site_recompute(site: Site, today: dt.date) -> int:
                 sens = plan.dust_sensitivity if trig.metric == metrics.DUST_HOURS else 0.0
                 groups.setdefault((trig.metric, sens), []).append((plan, trig))
 
+    # A counter's expected use runs from the first unlogged night, or from its plan's baseline (last service or
+    # counting date) when that is later: use before the baseline is not the serviced part's (a service logged today
+    # after months of unlogged nights starts from nothing, not from those months' assumed use).
+    first_counted = np.datetime64(first_day, "D")
+    ahead = (today - first_day).days  # the model's day index of today: "the next month" starts there
     for (metric, sens), members in groups.items():
         since = _day_array(baselines[p.pk] for p, _ in members)
         per_night = log.per_night(metric, sens)
@@ -461,8 +506,9 @@ def _site_recompute(site: Site, today: dt.date) -> int:
         limits = np.array([t.limit for _, t in members], dtype=float)
         reached = exposure.reached_on(log.nights, per_night, since, limits)  # the night a limit was passed
         expected = model.expected(metric, sens)
-        central, early, late = forecast.days_reached(limits - values, expected, model.spread)
-        rate = float(expected[:30].mean()) if len(expected) else 0.0
+        start = np.maximum((since - first_counted).astype(np.int64), 0)
+        central, early, late = forecast.days_reached(limits - values, expected, model.spread, start)
+        rate = float(expected[ahead:][:30].mean()) if len(expected) > ahead else 0.0
         basis = model.usage_basis(metric, sens)
         for i, (plan, trig) in enumerate(members):
             if values[i] >= limits[i]:
@@ -489,14 +535,19 @@ def _site_recompute(site: Site, today: dt.date) -> int:
     for plan in plans:
         if not states[plan.pk]:
             continue
+        if plan.pk in unknown:
+            states[plan.pk] = [_unknown_last_service(s, plan.counting_from, today) for s in states[plan.pk]]
         gov = governing(states[plan.pk])
         others = [s for s in states[plan.pk] if s is not gov]
         status = due_status(gov, today, site.look_ahead_days)
         gov_rate = None if gov.rate_per_day is None else float(gov.rate_per_day)
+        reason = reason_text(gov)
+        if plan.pk in unknown:
+            reason = unknown_last_service_reason(reason, gov.reached, plan.counting_from)
         rows.append((
             plan.pk, site.pk, status, STATUSES.index(status), gov.metric, float(gov.value), float(gov.limit), gov.unit,
-            gov_rate, gov.forecast, gov.earliest, gov.latest, last_service.get(plan.pk),
-            reason_text(gov), gov.basis, [_state_json(s) for s in others], now,
+            gov_rate, gov.forecast, gov.earliest, gov.latest, last_service.get(plan.pk), plan.pk in unknown,
+            reason, gov.basis, [_state_json(s) for s in others], now,
         ))
     PlanStatus.objects.filter(site=site).delete()
     _insert_all(PlanStatus, STATUS_COLUMNS, rows)
@@ -506,7 +557,7 @@ def _site_recompute(site: Site, today: dt.date) -> int:
 #: The ``PlanStatus`` fields, in the order of the rows ``_site_recompute`` builds.
 STATUS_COLUMNS = (
     "plan", "site", "status", "urgency", "metric", "value", "limit", "unit", "rate_per_day", "forecast_date",
-    "earliest", "latest", "last_service_on", "reason", "basis", "triggers", "computed_at",
+    "earliest", "latest", "last_service_on", "last_service_unknown", "reason", "basis", "triggers", "computed_at",
 )
 
 
@@ -556,6 +607,29 @@ def _converter(field, db):
 
         return moment
     return None
+
+
+def _unknown_last_service(state: TriggerState, counting_from: dt.date, today: dt.date) -> TriggerState:
+    """A trigger of a plan whose last service is unknown: its figures as counted from the plan's start (a floor:
+    the real figure since the last service can only be higher), due today unless its limit is already reached,
+    and its basis saying so."""
+    basis = (f"last service unknown ({UNKNOWN_LAST_SERVICE}); counted meanwhile from the plan's start on "
+             f"{counting_from:%d %b %Y}: {state.basis}")
+    if state.reached:
+        return replace(state, basis=basis)
+    return replace(state, forecast=today, earliest=today, latest=today, basis=basis)
+
+
+def unknown_last_service_reason(reason: str, reached: bool, counting_from: dt.date) -> str:
+    """The sentence of a plan whose last service is unknown: due now for a baseline service; or, when a limit is
+    reached even counting from the plan's start, ``reason`` (the governing trigger's) and why it may be further
+    past."""
+    start = f"{counting_from:%d %b %Y}"
+    if reached:
+        return (f"{reason} Last service unknown, so counted from the plan's start on {start}: the true figure may be "
+                f"higher ({UNKNOWN_LAST_SERVICE}).")
+    return (f"Last service unknown ({UNKNOWN_LAST_SERVICE}): due now. Its triggers count from the plan's start on "
+            f"{start} until a service is logged.")
 
 
 def _clamp(day: dt.date | None, today: dt.date) -> dt.date | None:
@@ -617,23 +691,26 @@ def _mirrors_by_subsystem(site: Site) -> dict:
 
 
 def _recoat_line_state(mirror, today: dt.date, log: UsageLog, model: UsageModel) -> TriggerState | None:
-    """A mirror's fitted reflectance decline reaching its recoat line (see mirrors.services)."""
-    from observatory_ops.mirrors.services import mirror_forecast  # mirrors builds on planning
+    """A mirror's band reflectance now reaching its recoat line (see mirrors.services): the fit's estimate, or
+    until there is a fit the last measurement or the computed fresh value, worded as the mirror page words them
+    (``mirrors.services.reflectance_now``)."""
+    from observatory_ops.mirrors.services import mirror_forecast, reflectance_now  # mirrors builds on planning
 
     if mirror is None:
         return None
     state = mirror_forecast(mirror, today, log, model)
-    if state.threshold is None or (state.current is None and state.fresh_band is None):
+    now = reflectance_now(state)
+    if state.threshold is None or now.now is None:
         return None
     return TriggerState(
         metric=metrics.RECOAT_LINE,
-        value=state.current if state.current is not None else state.fresh_band,
+        value=now.now,
         limit=state.threshold,
         rate_per_day=None,
         forecast=state.crossing,
         earliest=state.crossing_earliest,
         latest=state.crossing_latest,
-        basis=f"band reflectance {state.threshold_basis}; fitted decline against dust-weighted exposure",
+        basis=f"band reflectance now: {now.basis}; recoat line {state.threshold_basis}",
         rising=False,
     )
 
@@ -645,7 +722,7 @@ def reading_trend_fit(
     ``readings`` (moment, value; oldest first, all since the trigger's baseline), in days from the first of them.
     Returns the fit (None with fewer than ``trend.MIN_READINGS``, all on one day, or readings that cannot be
     fitted), that first moment, and why they could not be fitted ("" otherwise). The recompute's due state and
-    the subsystem page's trend line both come from here."""
+    the subsystem page's trend line both come from here, and their dates from ``trend_date``."""
     newest = readings[-TREND_READINGS:]
     origin = newest[0][0]
     days = [(moment - origin).total_seconds() / 86400 for moment, _ in newest]
@@ -655,6 +732,17 @@ def reading_trend_fit(
         return trend.trend_to_limit(days, [value for _, value in newest], limit, rising), origin, ""
     except ValueError as exc:  # readings that cannot be fitted: shown, and no forecast from them
         return None, origin, str(exc)
+
+
+def trend_date(origin: dt.datetime, offset_days: float | None, zone) -> dt.date | None:
+    """The site's local date (``zone``, from ``Site.time_zone``) of the moment ``offset_days`` after ``origin``:
+    the day a trend of ``reading_trend_fit`` reaches its limit, or an end of its band. Local, not UTC: an evening
+    west of Greenwich is already the next day in UTC. None without an offset, or one so far out (past ten forecast
+    horizons) that no date is meant. The due state's dates and the subsystem chart's mark of the crossing both
+    come from here."""
+    if offset_days is None or not np.isfinite(offset_days) or offset_days > 10 * HORIZON_DAYS:
+        return None
+    return (origin + dt.timedelta(days=float(offset_days))).astimezone(zone).date()
 
 
 def _reading_state(trig, readings, today: dt.date, zone, since: str) -> TriggerState | None:
@@ -677,9 +765,8 @@ def _reading_state(trig, readings, today: dt.date, zone, since: str) -> TriggerS
     no_fit = f"{counted}, no trend ({problem})" if problem else f"{counted}, too few for a trend"
 
     def day(offset: float | None) -> dt.date | None:
-        if fit is None or offset is None or not np.isfinite(offset) or offset > 10 * HORIZON_DAYS:
-            return None
-        return max((origin + dt.timedelta(days=float(offset))).date(), today)
+        on = trend_date(origin, offset, zone)
+        return None if on is None else max(on, today)
 
     basis = (
         f"Theil-Sen trend of {counted}: {significant(fit.slope_per_day, signed=True)} {unit}/day "
@@ -740,9 +827,10 @@ def reason_text(state: TriggerState) -> str:
 
 
 def _state_json(state: TriggerState) -> dict:
-    rate = None if state.rate_per_day is None else round(state.rate_per_day, 4)
-    # Kept to the decimals a reflectance is shown to, the finest figure a page shows of a trigger's value.
+    # Stored as computed, like the governing trigger's columns: the pages round a figure once, when they write it
+    # (a rate of 0.00051 rounded here to 0.0005 read "+0.000500" beside a basis of "+0.000510").
+    rate = None if state.rate_per_day is None else float(state.rate_per_day)
     return trigger_figures(
-        state.metric, round(state.value, REFLECTANCE_DECIMALS), state.limit, state.unit, rate, state.forecast,
-        state.earliest, state.latest, state.basis,
+        state.metric, float(state.value), state.limit, state.unit, rate, state.forecast, state.earliest, state.latest,
+        state.basis,
     )

@@ -2,12 +2,13 @@ from django.contrib import admin, messages
 from simple_history.admin import SimpleHistoryAdmin
 
 from observatory_ops.planning.admin import RecomputesSite
-from observatory_ops.planning.services import plans_from_catalogue, site_today
+from observatory_ops.planning.services import plans_from_catalogue
 from observatory_ops.workorders.cautions import HAZARDS
 
 from .catalogue import kind as catalogue_kind
 from .forms import CrewDaysOffFormSet, SiteAdminForm, SubsystemAdminForm
 from .models import CrewDayOff, Site, Subsystem, Telescope
+from .templatetags.coordinates import coordinates
 
 
 class CrewDayOffInline(admin.TabularInline):
@@ -23,8 +24,12 @@ class CrewDayOffInline(admin.TabularInline):
 class SiteAdmin(SimpleHistoryAdmin):
     form = SiteAdminForm
     inlines = [CrewDayOffInline]
-    list_display = ("name", "slug", "latitude_deg", "longitude_deg", "elevation_m", "time_zone")
+    list_display = ("name", "slug", "position", "elevation_m", "time_zone")
     prepopulated_fields = {"slug": ("name",)}
+
+    @admin.display(description="position")
+    def position(self, site):
+        return coordinates(site)
 
 
 @admin.register(Telescope)
@@ -36,7 +41,8 @@ class TelescopeAdmin(SimpleHistoryAdmin):
 @admin.register(Subsystem)
 class SubsystemAdmin(RecomputesSite, SimpleHistoryAdmin):
     """A subsystem added here gets what ``registry.services.subsystem_create`` gives one: its kind's hazard
-    tags and default service plans, counted from the site's today. Hazards ticked when adding it are added to
+    tags and default service plans, counted from the site's today with the last service unknown (due for a baseline
+    service until one is logged: ``plans_from_catalogue``). Hazards ticked when adding it are added to
     its kind's, never put in their place: the tags choose the cautions on its work orders. A change that
     leaves out any of its kind's own hazards is saved, with a warning naming them."""
 
@@ -65,12 +71,13 @@ class SubsystemAdmin(RecomputesSite, SimpleHistoryAdmin):
     def save_related(self, request, form, formsets, change):
         if not change:
             subsystem = form.instance
-            plans = plans_from_catalogue(subsystem, site_today(subsystem.telescope.site))
+            plans = plans_from_catalogue(subsystem, None)
             self.message_user(
                 request,
                 f"{subsystem}: hazards {', '.join(HAZARDS[code] for code in subsystem.hazards) or 'none'} (its "
                 f"kind's and any ticked), and {len(plans)} default service plan(s) from its kind; change the plans "
-                "under Service plans.",
+                "under Service plans. Their last service is unknown, so each is due for a baseline service: on the "
+                "subsystem page, log the last service of each plan if you know it.",
                 messages.INFO,
             )
         super().save_related(request, form, formsets, change)

@@ -1,16 +1,16 @@
 """The catalogue of subsystem kinds: what each kind is, its hazards and its default service plans.
 
-Adding a kind: add one ``Kind`` to ``KINDS`` below (code, label, hazards, plans). Existing
-subsystems are not changed; new subsystems of the kind get its default plans, which the engineer can
-then edit per subsystem. Every default interval says where it comes from in ``basis``: "common
-practice" (a rule of thumb of the trade, no published source) or "from memory". Replace them with the
-manufacturer's figures for your own equipment.
+Adding a kind: add one ``Kind`` to ``KINDS`` below (code, label, hazards, plans, and the quantities measured
+on it beyond its plans' readings). Existing subsystems are not changed; new subsystems of the kind get its
+default plans, which the engineer can then edit per subsystem. Every default interval says where it comes
+from in ``basis``: "common practice" (a rule of thumb of the trade, no published source) or "from memory".
+Replace them with the manufacturer's figures for your own equipment.
 
 Steps come in three groups. ``before_isolation`` are done under power before anything is locked out:
-closing the dome, parking or slewing the telescope, opening covers, tests that need the drives or the
-supply live. ``after_isolation`` follow the lockout step that a work order puts after them
+closing the enclosure (a dome's shutter or a roll-off roof), parking or slewing the telescope, opening covers, tests
+that need the drives or the supply live. ``after_isolation`` follow the lockout step that a work order puts after them
 (``workorders.services.steps_in_groups``): anything touching drives, brakes, electrics or moving parts;
-one that needs an axis or the dome moved says to remove the lock only under the site's lockout procedure.
+one that needs an axis or the enclosure moved says to remove the lock only under the site's lockout procedure.
 ``restore`` starts with the step that removes the locks that way, then whatever is done back in service.
 
 Trigger metrics are listed in ``observatory_ops.planning.metrics``.
@@ -56,12 +56,17 @@ class Kind:
     #: Fed from a supply of its own rather than the telescope's (a dome's rotation and shutter drives): its
     #: work needs an isolation point registered for the subsystem itself (workorders.selectors.isolation_gaps).
     separate_supply: bool = False
+    #: Reading quantities (codes of ``logbook.quantities``) a technician measures on such a subsystem besides those
+    #: its plans ask for or watch: the reading form offers them first (``logbook.quantities.usual_for_kind``).
+    #: Empty where nothing is usually measured (the work is looking and testing), and the form says so.
+    quantities: tuple[str, ...] = ()
 
 
-# Steps shared by several plans. Parking, closing the dome and live tests come before isolation; the
-# last step removes the locks only as the site's lockout procedure says.
+# Steps shared by several plans. Parking, closing the enclosure and live tests come before isolation; the
+# last step removes the locks only as the site's lockout procedure says. "Enclosure", not "dome": the same words
+# serve a dome's shutter and a roll-off roof.
 _READ_RECORDS = "Read the last service record and open faults for this subsystem."
-_OUT_OF_SERVICE = "Take the observatory out of robotic and remote control and close the dome."
+_OUT_OF_SERVICE = "Take the observatory out of robotic and remote control and close the enclosure."
 _PARK = "Park the telescope at its service position."
 _PREPARE = (_READ_RECORDS, _OUT_OF_SERVICE, _PARK)
 _INSPECT = "Inspect for wear, looseness, contamination and damage; photograph anything unusual."
@@ -77,9 +82,18 @@ _GAS_MONITOR = "portable O2/CO2 gas monitor"  # the cryogen caution asks for one
 #: The limit of a reading that only the equipment's maker can give.
 _MAKERS_FIGURE = "the maker's figure"
 
+# Tools that several plans bring, worded once (no commas in a tool: the work order page lists them with commas). The
+# voltage tester is proved before and after use as the electrical caution says (workorders.cautions); the protective
+# equipment for a solvent is what its safety data sheet says.
+_PROVED = "proved on a known live source just before and just after use"
+_VOLTAGE_TESTER = f"voltage tester {_PROVED}"
+_FEELER_GAUGES = "feeler gauges"
+_MULTIMETER = "digital multimeter with insulated probes"
+_SOLVENT_PPE = "gloves and eye protection the solvent's safety data sheet calls for"
+
 
 def _move_under_procedure(what: str, why: str) -> str:
-    """A step after isolation that needs an axis or the dome moved: only under the site's procedure."""
+    """A step after isolation that needs an axis or the enclosure moved: only under the site's procedure."""
     return (
         f"If {what} must move {why}, remove the lock only as the site's lockout procedure says: everyone clear, "
         "move it from the control panel, then isolate, lock and tag again before touching anything."
@@ -162,6 +176,11 @@ KINDS: dict[str, Kind] = {
                         RELEASE,
                         "Check the axis balance as the site's procedure says and return the telescope to service.",
                     ),
+                    tools=(
+                        "the lifting table or cart and the rated slings the lift plan lists",
+                        "mirror-handling fixture",
+                        "transport crate",
+                    ),
                     estimated_hours=40.0,
                 ),
             ),
@@ -193,6 +212,8 @@ KINDS: dict[str, Kind] = {
                     estimated_hours=2.0,
                 ),
             ),
+            # Its reflectance, measured as the primary's is, tells when a clean no longer brings it back.
+            quantities=("reflectance",),
         ),
         Kind(
             "mirror_cover",
@@ -217,6 +238,8 @@ KINDS: dict[str, Kind] = {
                     restore=_RESTORE,
                 ),
             ),
+            # The petals' time to open or close and their drives' current both grow as the hinges stiffen.
+            quantities=("open_close_time_s", "motor_current_a"),
         ),
         Kind(
             "mirror_cell",
@@ -239,9 +262,11 @@ KINDS: dict[str, Kind] = {
                         "bolts; photograph anything unusual.",
                     ),
                     restore=_RESTORE,
+                    tools=(_FEELER_GAUGES,),  # the clips' clearances
                     estimated_hours=2.0,
                 ),
             ),
+            quantities=("clearance_mm",),  # each clip's clearance to the mirror, with feeler gauges
         ),
         Kind(
             "axis1_drive",
@@ -310,8 +335,11 @@ KINDS: dict[str, Kind] = {
                         _move_under_procedure("the axis", "to bring the rest of the disc within reach"),
                     ),
                     restore=_RESTORE,
+                    tools=("solvent wipes the roller maker approves", _SOLVENT_PPE),
                 ),
             ),
+            # A flat or slipping roller shows in the tracking error; a stiff one in the drive's current.
+            quantities=("following_error_arcsec", "motor_current_a"),
         ),
         Kind(
             "encoder",
@@ -337,13 +365,18 @@ KINDS: dict[str, Kind] = {
                         "read-head signal level along the full travel and record the lowest level on this work "
                         "order.",
                     ),
+                    tools=(
+                        "the encoder maker's solvent and lint-free wipes",
+                        _SOLVENT_PPE,
+                        "the encoder maker's signal-level tool or the mount's diagnostic software",
+                    ),
                     readings=(("encoder_signal_pct", _MAKERS_FIGURE),),
                 ),
             ),
         ),
         Kind(
-            "brake",
-            "Brake",
+            "brake",  # the code stored subsystems and the benchmark use; the label says which brake it is
+            "Brake, air-operated (pneumatic)",
             ("pneumatic", "moving_machinery"),
             (
                 PlanTemplate(
@@ -366,11 +399,66 @@ KINDS: dict[str, Kind] = {
                         RELEASE,
                         "Restore the air slowly and check that the brake releases and holds.",
                     ),
-                    tools=("pressure gauge with quick coupling", "feeler gauges"),
+                    tools=("pressure gauge with quick coupling", _FEELER_GAUGES, "stopwatch"),
                     parts=("Brake pad set",),
                     readings=(("brake_pressure_bar", "within the maker's range"), ("brake_release_s", "")),
                 ),
             ),
+            quantities=("clearance_mm",),  # the pads' gap, with the feeler gauges the plan brings
+        ),
+        Kind(
+            # Springs apply it and its coil, fed from the drive's supply, releases it: with the power locked off it
+            # is applied, and its springs stay loaded (OSHA 29 CFR 1910.147(d)(5): stored energy restrained).
+            "spring_brake",
+            "Brake, spring-applied, electrically released",
+            ("electrical", "stored_mechanical", "moving_machinery"),
+            (
+                PlanTemplate(
+                    "Check brake air gap, release voltage and holding",
+                    "Check the air gap and lining wear, the coil voltage when released, and that the brake holds the "
+                    "axis out of balance.",
+                    (("calendar_days", 180.0), ("brake_cycles", 5000.0)),  # as the air-operated brake's
+                    COMMON_PRACTICE,
+                    before_isolation=(
+                        _READ_RECORDS,
+                        _OUT_OF_SERVICE,
+                        "With everyone outside the swept volume, measure the voltage at the brake coil while the "
+                        "drive holds the brake released and record it on this work order; then, with the drive "
+                        "disabled, check that the springs apply the brake and that it holds the axis out of balance. "
+                        "This is work on live equipment: only a qualified person, under the site's rules for "
+                        "energised work.",
+                        _PARK,
+                    ),
+                    after_isolation=(
+                        "Test for absence of voltage at the brake coil's terminals with the voltage tester before "
+                        "touching them.",
+                        "With the brake applied by its springs, holding the axis, measure the air gap between "
+                        "armature and magnet body with feeler gauges at three points round the brake and record the "
+                        "largest clearance on this work order; note the lining wear in the findings.",
+                        "If the gap or the lining is beyond the maker's limit, adjust or replace only as the maker's "
+                        "instructions say: restrain or relieve the spring force with the maker's release screws or "
+                        "tool before taking the brake apart, and keep the axis pinned or blocked while its brake is "
+                        "off.",
+                        "Check the coil's terminals and cable for heat marks, looseness and damage; photograph "
+                        "anything unusual.",
+                    ),
+                    restore=(
+                        RELEASE,
+                        "Restore the supply and, with everyone outside the swept volume, check that the brake "
+                        "releases when the drive is enabled and holds when it is disabled.",
+                    ),
+                    tools=(
+                        _FEELER_GAUGES,
+                        _MULTIMETER,
+                        _VOLTAGE_TESTER,
+                        "the brake maker's release screws or spring-restraining tool",
+                    ),
+                    readings=(("clearance_mm", _MAKERS_FIGURE), ("supply_voltage_v", _MAKERS_FIGURE)),
+                    estimated_hours=1.5,
+                ),
+            ),
+            # The release time, where the drive logs it: a coil or an air gap going wrong slows the release.
+            quantities=("brake_release_s",),
         ),
         Kind(
             "limits",
@@ -379,7 +467,7 @@ KINDS: dict[str, Kind] = {
             (
                 PlanTemplate(
                     "Test limit switches and interlocks",
-                    "Drive slowly onto each soft and hard limit; test emergency stops and dome interlocks.",
+                    "Drive slowly onto each soft and hard limit; test emergency stops and enclosure interlocks.",
                     (("calendar_days", 90.0),),
                     COMMON_PRACTICE,
                     before_isolation=(
@@ -387,7 +475,7 @@ KINDS: dict[str, Kind] = {
                         _OUT_OF_SERVICE,
                         "With everyone outside the swept volume, drive each axis slowly onto each soft and then "
                         "each hard limit from the control panel and check that it stops; test every emergency "
-                        "stop and dome interlock.",
+                        "stop and enclosure interlock.",
                         _PARK,
                     ),
                     after_isolation=(
@@ -463,9 +551,12 @@ KINDS: dict[str, Kind] = {
                         RELEASE,
                         "Restore the supply and check that every fan runs.",
                     ),
+                    tools=("clamp meter with a low-current range for the fans' supply (AC or DC)",),
                     estimated_hours=0.5,
                 ),
             ),
+            # A fan's current drifts as its bearings wear; the temperature is that of the air or mirror it cools.
+            quantities=("fan_current_a", "temperature_c"),
         ),
         Kind(
             "focus_mechanism",
@@ -487,8 +578,10 @@ KINDS: dict[str, Kind] = {
                         "wear.",
                     ),
                     restore=_RESTORE,
+                    tools=("dial indicator on a magnetic base", "the lubricant the maker names"),
                 ),
             ),
+            quantities=("focus_backlash_mm",),
         ),
         Kind(
             "truss",
@@ -521,7 +614,7 @@ KINDS: dict[str, Kind] = {
             (
                 PlanTemplate(
                     "Inspect AC distribution and test residual-current devices",
-                    "Inspect enclosures and terminations for heat marks, test residual-current devices.",
+                    "Inspect distribution boards and terminations for heat marks, test residual-current devices.",
                     (("calendar_days", 180.0),),
                     COMMON_PRACTICE,
                     before_isolation=(
@@ -530,12 +623,15 @@ KINDS: dict[str, Kind] = {
                         "an RCD tester; the circuits behind it go dead when it trips.",
                     ),
                     after_isolation=(
-                        "Open the enclosures, test for absence of voltage, and inspect the terminations for heat "
-                        "marks and looseness; photograph anything unusual.",
+                        "Open the distribution boards, test for absence of voltage, and inspect the terminations for "
+                        "heat marks and looseness; photograph anything unusual.",
                     ),
                     restore=_RESTORE,
+                    tools=("RCD tester", _VOLTAGE_TESTER),
                 ),
             ),
+            # The mains voltage at the distribution board; each residual-current device's trip time from the tester.
+            quantities=("supply_voltage_v", "rcd_trip_time_ms"),
         ),
         Kind(
             "dc_supplies",
@@ -555,10 +651,11 @@ KINDS: dict[str, Kind] = {
                         "for energised work.",
                     ),
                     after_isolation=(
-                        "Inspect the supplies' terminations, fans and filters for heat marks, dust and looseness; "
-                        "photograph anything unusual.",
+                        "Test for absence of voltage at the supplies' terminals, then inspect their terminations, fans "
+                        "and filters for heat marks, dust and looseness; photograph anything unusual.",
                     ),
                     restore=_RESTORE,
+                    tools=(_MULTIMETER, "oscilloscope (for the ripple)", _VOLTAGE_TESTER),
                     readings=(("supply_voltage_v", _MAKERS_FIGURE), ("ripple_mv", _MAKERS_FIGURE)),
                 ),
             ),
@@ -589,6 +686,7 @@ KINDS: dict[str, Kind] = {
                     ),
                 ),
             ),
+            quantities=("temperature_c",),  # the disks' and processors' temperature, as their health checks report it
         ),
         Kind(
             "servo_drives",
@@ -611,41 +709,53 @@ KINDS: dict[str, Kind] = {
                         _PARK,
                     ),
                     after_isolation=(
-                        "Wait the discharge time the maker states, then clean the heat sinks and fan grilles and "
-                        "check by hand that the fans spin freely.",
+                        "Wait the discharge time the maker states and test for absence of voltage on the DC bus, then "
+                        "clean the heat sinks and fan grilles and check by hand that the fans spin freely.",
                     ),
                     restore=_RESTORE,
+                    tools=(
+                        "laptop with the drive's tuning software",
+                        f"voltage tester rated for the drive's DC bus and {_PROVED}",
+                    ),
                     readings=(("settle_time_s", _MAKERS_FIGURE),),
                 ),
             ),
+            # The heat sink's temperature, the DC bus voltage and the motor current, as the drive reports them.
+            quantities=("temperature_c", "supply_voltage_v", "motor_current_a"),
         ),
         Kind(
             "enclosure",
             "Enclosure (dome, shutter, roof)",
             ("moving_machinery", "electrical", "height"),
             (
+                # Worded for a dome (shutter and rotation) and a roll-off roof alike.
                 PlanTemplate(
-                    "Inspect shutter and rotation drive, lubricate",
-                    "Inspect shutter and rotation drives, wheels, seals and rain sensor; lubricate as the maker says.",
+                    "Inspect enclosure drives, wheels and seals, lubricate",
+                    "Inspect the enclosure's drives (shutter, roof, rotation), wheels, seals and rain sensor; "
+                    "lubricate as the maker says.",
                     (("calendar_days", 90.0), ("open_hours", 1000.0)),
                     COMMON_PRACTICE,
                     before_isolation=(
                         _READ_RECORDS,
                         "Take the observatory out of robotic and remote control and park the telescope.",
-                        "With everyone clear of the shutter and the dome's path, open the shutter a little and "
-                        "check that the rain sensor closes it.",
-                        "Turn the dome to its service position and close the shutter.",
+                        "With everyone clear of the enclosure's moving parts and their path, open the enclosure a "
+                        "little and check that the rain sensor closes it.",
+                        "Close the enclosure, with a dome turned to its service position first.",
                     ),
                     after_isolation=(
-                        "Inspect the shutter and rotation drives, wheels and seals; lubricate as the maker says; "
+                        "Inspect the enclosure's drives, wheels, rails and seals; lubricate as the maker says; "
                         "photograph anything unusual.",
-                        _move_under_procedure("the dome", "to bring the rest of the wheels within reach"),
+                        _move_under_procedure("the enclosure", "to bring the rest of the wheels within reach"),
                     ),
                     restore=_RESTORE,
+                    tools=("grease gun", "the lubricants the maker names"),
                     estimated_hours=3.0,
                 ),
             ),
             separate_supply=True,
+            # The rotation and shutter drives' current, and the shutter's (or roof's) time to open or close: both grow
+            # as wheels, chains and seals drag.
+            quantities=("motor_current_a", "open_close_time_s"),
         ),
         Kind("other", "Other", ()),
     )
@@ -663,6 +773,13 @@ _EARLIER_BEFORE_ISOLATION = (
     "Check disk health, that a backup restores, and time synchronisation; record what you find.",
     "With everyone outside the swept volume, step-test each loop from the tuning software and record how it "
     "settles.",
+    # Worded for a dome before the enclosure's steps served a roll-off roof too.
+    "Take the observatory out of robotic and remote control and close the dome.",
+    "With everyone outside the swept volume, drive each axis slowly onto each soft and then each hard limit from the "
+    "control panel and check that it stops; test every emergency stop and dome interlock.",
+    "With everyone clear of the shutter and the dome's path, open the shutter a little and check that the rain "
+    "sensor closes it.",
+    "Turn the dome to its service position and close the shutter.",
 )
 
 #: Every step the catalogue places before isolation, and every step of its plans' restoring: how the upgrade

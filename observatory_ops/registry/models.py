@@ -42,6 +42,23 @@ def validate_hazards(value) -> None:
         raise ValidationError(f"hazards must be a list drawn from: {', '.join(HAZARDS)}")
 
 
+def latitude_text(degrees: float) -> str:
+    """A latitude as pages write it: 39.6072 -> "39.607° N", -27.35 -> "27.350° S"."""
+    return f"{abs(degrees):.3f}° {'N' if degrees >= 0 else 'S'}"
+
+
+def longitude_text(degrees: float) -> str:
+    """A longitude as pages write it: -110.3741 -> "110.374° W", 2.35 -> "2.350° E"."""
+    return f"{abs(degrees):.3f}° {'E' if degrees >= 0 else 'W'}"
+
+
+#: How far (hours) a site's time zone may run from the mean solar time of its longitude before the longitude is
+#: refused as mistyped. Zones are wide, and some are kept far from the Sun: western China keeps UTC+8 at about
+#: 74° E, some 3.1 h ahead of it (from memory); a longitude with the wrong sign is off by twice its own hours
+#: (109° W typed as 109° E with America/Denver: over 9 h).
+MAX_ZONE_GAP_H = 3.5
+
+
 class Site(models.Model):
     history = HistoricalRecords()  # who changed what, when: see observatory_ops/archive
     name = models.CharField(max_length=120)
@@ -85,6 +102,32 @@ class Site(models.Model):
     @property
     def zone(self) -> zoneinfo.ZoneInfo:
         return zoneinfo.ZoneInfo(self.time_zone)
+
+    def clean(self) -> None:
+        if self.longitude_deg is not None and self.time_zone:
+            self._clean_longitude_against_zone()
+
+    def _clean_longitude_against_zone(self) -> None:
+        """Refuse a longitude far from its time zone's (``calc.night_of.zone_gap_h``): most often one typed with
+        the wrong sign, which would put every sunset and dark hour of the site hours out."""
+        try:
+            gap, offset = night_of.zone_gap_h(self.longitude_deg, self.time_zone, timezone.now().year)
+        except ValueError:
+            return  # an unknown zone: the time zone's own validator says so
+        if abs(gap) <= MAX_ZONE_GAP_H:
+            return
+        solar = self.longitude_deg / 15
+        flipped, _ = night_of.zone_gap_h(-self.longitude_deg, self.time_zone, timezone.now().year)
+        hint = (
+            f"East is positive and west negative: is it {longitude_text(-self.longitude_deg)} "
+            f"({-self.longitude_deg:g})?" if abs(flipped) <= MAX_ZONE_GAP_H
+            else "Check the longitude and the time zone."
+        )
+        raise ValidationError({"longitude_deg": (
+            f"Longitude {longitude_text(self.longitude_deg)} ({self.longitude_deg:g}) has its mean solar time at "
+            f"UTC{solar:+.1f} h, but {self.time_zone} keeps UTC{offset:+g} h: more than {MAX_ZONE_GAP_H:g} hours "
+            f"apart, farther than a time zone is from the places that keep it. {hint}"
+        )})
 
     @property
     def crew_days(self) -> frozenset[int]:

@@ -2,10 +2,12 @@ from django.contrib import messages
 from django.http import HttpResponseNotAllowed
 from django.shortcuts import get_object_or_404, redirect, render
 
+from fixtures_demo.generator import load_refusal
 from observatory_ops.access.decorators import requires
 from observatory_ops.access.roles import ENGINEER, VIEWER
 from observatory_ops.archive.history import changes
 from observatory_ops.logbook.models import NightUsage
+from observatory_ops.mirrors.models import TRAIN_KINDS
 from observatory_ops.planning import selectors as planning_selectors
 from observatory_ops.planning.services import site_recompute, site_today, sites_bring_up_to_date
 from observatory_ops.workorders import selectors as workorder_selectors
@@ -21,7 +23,9 @@ def home(request):
     sites = list(Site.objects.all())
     if len(sites) == 1:
         return redirect(sites[0])
-    return render(request, "registry/home.html", {"sites": sites})
+    # The demo is offered only where its command would load it: never beside real users, whatever the page.
+    offer_demo = not sites and not load_refusal()
+    return render(request, "registry/home.html", {"sites": sites, "offer_demo": offer_demo})
 
 
 #: Rows of the dashboard's "Needs attention" list; the rest are a link away on the due list.
@@ -36,6 +40,7 @@ def site_dashboard(request, slug):
     on_orders = workorder_selectors.orders_for_plans(s.plan_id for s in upcoming)  # as the due list says it
     for status in upcoming:
         status.on_orders = on_orders.get(status.plan_id, [])
+    telescopes = [(t, subsystem_tree(t), tube_warning(t)) for t in site.telescopes.all()]
     return render(
         request,
         "registry/site_dashboard.html",
@@ -44,7 +49,9 @@ def site_dashboard(request, slug):
             "counts": planning_selectors.status_counts(site),
             "upcoming": upcoming,
             "attention_rows": ATTENTION_ROWS,
-            "telescopes": [(t, subsystem_tree(t), tube_warning(t)) for t in site.telescopes.all()],
+            "telescopes": telescopes,
+            # A site being set up: telescopes with no subsystem in service yet (the page points to where to add them).
+            "bare_telescopes": [t for t, nodes, _ in telescopes if not nodes],
             "last_night": NightUsage.objects.filter(site=site).order_by("-night").first(),
             "recent_service": planning_selectors.recent_service(site)[:8],
             "low_stock": workorder_selectors.low_stock(site),
@@ -67,6 +74,9 @@ def subsystem_detail(request, pk):
         {
             "subsystem": subsystem,
             "site": subsystem.telescope.site,
+            # A mirror subsystem in service without its mirror record: no reflectance, so no recoat line is judged.
+            "mirror_missing": subsystem.kind in TRAIN_KINDS and not subsystem.retired_on
+            and not hasattr(subsystem, "mirror"),
             "plans": plans,
             "expected_use": planning_selectors.expected_use_by_month(subsystem, plans),
             "records": subsystem.service_records.select_related("plan", "performed_by", "corrects", "corrected_by"),

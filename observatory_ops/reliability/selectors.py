@@ -2,11 +2,11 @@
 what maintenance cost in hours.
 
 A failure is a corrective work order that was finished (or countersigned): one failure for each subsystem it
-names, except one placed on a night before the subsystem's "in service since" date, which was a failure of the unit
-it replaced and is left out (``LeftOut``). Operating hours are the site's dome-open hours from the nightly log,
-counted for each subsystem over the nights it was in service (from its "in service since" date where one is given,
-see ``START_BASES``). Maintenance hours are those of the service records. A fixed handful of queries for a site,
-whatever its size (tests/test_reliability_page.py counts them).
+names, except the replaced unit's and those with no counted operating hours leading up to them, which are left out
+with the reason (``left_out_reason``, the one place that rule is kept). Operating hours are the site's dome-open
+hours from the nightly log, counted for each subsystem over the nights it was in service (from its "in service
+since" date where one is given, see ``START_BASES``). Maintenance hours are those of the service records. A fixed
+handful of queries for a site, whatever its size (tests/test_reliability_page.py counts them).
 """
 from __future__ import annotations
 
@@ -52,13 +52,37 @@ class Start:
     basis: str  # one of START_BASES
 
 
+#: Why a failure is left out of its subsystem's failures, MTBF and fit (``left_out_reason``).
+REPLACED_UNIT = "on or before its in-service date: a failure of the unit it replaced"
+BEFORE_START = "before the day its hours are counted from: no counted hours lead up to it"
+BEFORE_LOG = "before the first logged night: no logged hours lead up to it"
+
+
 @dataclass(frozen=True)
 class LeftOut:
-    """A failure placed on a night before its subsystem's in-service date: the unit the subsystem replaced failed,
-    so it is not counted among the subsystem's failures."""
+    """A failure not counted among its subsystem's, and why (``REPLACED_UNIT``, ``BEFORE_START``, ``BEFORE_LOG``)."""
 
     subsystem: str
     night: dt.date
+    reason: str
+
+
+def left_out_reason(night: dt.date, start: Start, first_night: dt.date | None) -> str | None:
+    """Why a failure placed on ``night`` is not one of the subsystem's own, counted against its hours; None when it is.
+
+    A unit swapped in on its in-service date replaced one that failed, and the corrective order for that failure is
+    normally finished the day of the swap: so a failure on or before the in-service date is the old unit's. A
+    failure before the day the hours are counted from, or before the first logged night, has no counted operating
+    hours leading up to it: placed at 0 h it would shorten the MTBF and add a failure at no time to the fit, so it is
+    left out rather than counted against hours it did not fall in.
+    """
+    if start.basis == IN_SERVICE_SINCE and night <= start.day:
+        return REPLACED_UNIT
+    if first_night is None or night < first_night:
+        return BEFORE_LOG
+    if night < start.day:
+        return BEFORE_START
+    return None
 
 
 @dataclass
@@ -82,7 +106,7 @@ class KindReliability:
     @property
     def fit_inputs(self) -> str:
         """The hours the Weibull fit was made from, as the page lists them so that anyone can fit them again, and
-        the failures left out of it as another unit's."""
+        the failures left out of it."""
         between = ", ".join(f"{t:,.0f}" for t in sorted(t for t in self.between if t > 0))
         running = ", ".join(f"{t:,.0f}" for t in sorted(self.running))
         text = f"between failures: {between or 'none'} h; still running (censored): {running or 'none'} h"
@@ -90,16 +114,17 @@ class KindReliability:
 
     @property
     def left_out_text(self) -> str:
-        """The failures left out as the replaced unit's, e.g. "left out, before the in-service date: T1: Fan A on
-        the nights of 21 Jan 2026, 20 Feb 2026"."""
-        nights: dict[str, list[dt.date]] = defaultdict(list)
+        """The failures left out, each subsystem's nights with the reason, e.g. "left out: T1: Fan A on the nights of
+        21 Jan 2026, 20 Feb 2026 (on or before its in-service date: a failure of the unit it replaced)"."""
+        nights: dict[tuple[str, str], list[dt.date]] = defaultdict(list)
         for failure in self.left_out:
-            nights[failure.subsystem].append(failure.night)
+            nights[failure.subsystem, failure.reason].append(failure.night)
         listed = "; ".join(
-            f"{name} on the night{'s' if len(days) > 1 else ''} of {', '.join(f'{d:%d %b %Y}' for d in sorted(days))}"
-            for name, days in nights.items()
+            f"{name} on the night{'s' if len(days) > 1 else ''} of {', '.join(f'{d:%d %b %Y}' for d in sorted(days))} "
+            f"({reason})"
+            for (name, reason), days in nights.items()
         )
-        return f"left out, before the in-service date: {listed}"
+        return f"left out: {listed}"
 
     @property
     def start_bases(self) -> str:
@@ -129,6 +154,7 @@ class SiteReliability:
     hours_since: dt.date
     hours_by_type: dict[str, float]
     records_in_window: int
+    records_without_hours: int  # of those, records whose hours are not known: they count none
 
     @property
     def hours_total(self) -> float:
@@ -166,7 +192,8 @@ def site_reliability(site: Site, today: dt.date | None = None) -> SiteReliabilit
         .order_by("pk")
     )
     nights = list(NightUsage.objects.filter(site=site).order_by("night").values_list("night", "open_hours"))
-    starts = _starts(subsystems, site, nights[0][0] if nights else None, today)
+    first_night = nights[0][0] if nights else None
+    starts = _starts(subsystems, site, first_night, today)
     days = np.array([n for n, _ in nights], dtype="datetime64[D]")
     cumulative = np.concatenate([[0.0], np.cumsum([h for _, h in nights])])
 
@@ -193,13 +220,16 @@ def site_reliability(site: Site, today: dt.date | None = None) -> SiteReliabilit
         start = starts[pk]
         base = hours_before(start.day)
         total = max(hours_before(end) - base, 0.0)
-        failed = sorted(failed_at.get(pk, []))
-        if start.basis == IN_SERVICE_SINCE:
-            # Its life starts on that date: a failure before it was the earlier unit's, one since replaced.
-            row.left_out += [LeftOut(start.subsystem, n) for n in failed if n < start.day]
-            failed = [n for n in failed if n >= start.day]
-        # A failure belongs to the nights up to and including the night its repair finished in.
-        at = [min(max(hours_before(n + dt.timedelta(days=1)) - base, 0.0), total) for n in failed]
+        failed = []
+        for night in sorted(failed_at.get(pk, [])):
+            reason = left_out_reason(night, start, first_night)
+            if reason:
+                row.left_out.append(LeftOut(start.subsystem, night, reason))
+            else:
+                failed.append(night)
+        # A failure belongs to the nights up to and including the night its repair finished in; one placed after
+        # the subsystem was retired stays at the end of its hours.
+        at = [min(hours_before(n + dt.timedelta(days=1)) - base, total) for n in failed]
         between, running = reliability.times_between_failures(at, total)
         row.operating_hours += total
         row.failures += len(at)
@@ -208,16 +238,20 @@ def site_reliability(site: Site, today: dt.date | None = None) -> SiteReliabilit
 
     # Maintenance hours: the hours of the service records of the last 12 months (a work order's shared among the
     # subsystems it names when it was finished), by the type of the order that wrote them, or logged without one.
-    # Records since corrected count as corrected; withdrawn ones not at all.
+    # Records since corrected count as corrected; withdrawn ones not at all; those whose hours are not known count
+    # none, and are counted apart so the page can say how many.
     since = today - dt.timedelta(days=HOURS_WINDOW_DAYS)
     site_hours = dict.fromkeys(HOURS_COLUMNS, 0.0)
-    records = 0
+    records = without_hours = 0
     for subsystem_id, hours, order_type in ServiceRecord.objects.filter(
         subsystem__telescope__site=site, performed_on__gt=since, performed_on__lte=today,
         corrected_by__isnull=True, void=False,
     ).values_list("subsystem_id", "hours_spent", "work_order__order_type"):
         column = order_type or WITHOUT_ORDER
         records += 1
+        if hours is None:
+            without_hours += 1
+            continue
         site_hours[column] += hours
         kind_of[subsystem_id].hours_by_type[column] += hours
 
@@ -237,10 +271,11 @@ def site_reliability(site: Site, today: dt.date | None = None) -> SiteReliabilit
                 row.no_fit = str(exc)
     return SiteReliability(
         today=today,
-        first_night=nights[0][0] if nights else None,
+        first_night=first_night,
         last_night=nights[-1][0] if nights else None,
         kinds=shown,
         hours_since=since + dt.timedelta(days=1),
         hours_by_type=site_hours,
         records_in_window=records,
+        records_without_hours=without_hours,
     )

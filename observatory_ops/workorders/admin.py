@@ -1,11 +1,28 @@
+from django import forms
 from django.contrib import admin
+from django.core.exceptions import ValidationError
+from django.forms.models import BaseInlineFormSet
 from simple_history.admin import SimpleHistoryAdmin
 
+from . import selectors
 from .models import ChecklistTick, IsolationPoint, Part, PartUse, RequiredReading, WorkOrder, WorkOrderItem
+
+
+class ItemsFixedOnceStarted(BaseInlineFormSet):
+    """The subsystems an order covers choose the isolation points its lockout step locks (a dome's own drives), so
+    they are not added, changed or removed once the work has started (``WorkOrder.started_edit_refusal``), as its
+    steps, hazards and telescope are not (``WorkOrder.clean``)."""
+
+    def clean(self):
+        super().clean()
+        if any(form.has_changed() for form in self.forms):
+            if why := self.instance.started_edit_refusal("subsystems it covers"):
+                raise ValidationError(why)
 
 
 class ItemInline(admin.TabularInline):
     model = WorkOrderItem
+    formset = ItemsFixedOnceStarted
     extra = 0
 
 
@@ -17,6 +34,8 @@ class ReadingInline(admin.TabularInline):
 class PartUseInline(admin.TabularInline):
     model = PartUse
     extra = 0
+    # What finishing found short in the register, and when the stock was counted (services.part_count_record).
+    readonly_fields = ("quantity_short", "short_counted_at")
 
 
 class TickInline(admin.TabularInline):
@@ -43,7 +62,7 @@ class WorkOrderAdmin(SimpleHistoryAdmin):
     # where the energy is isolated (services.work_order_hazards_update, forms.WorkOrderEditForm).
     readonly_fields = (
         "state", "finished_at", "finished_by", "countersigned_at", "countersigned_by", "unticked_at_finish",
-        "hazards_confirmed_at_finish",
+        "hazards_confirmed_at_finish", "isolation_unticked_at_finish", "isolation_confirmed_at_finish", "crew",
         "hazards", "steps", "at_telescope",
     )
 
@@ -54,8 +73,44 @@ class PartAdmin(SimpleHistoryAdmin):
     list_filter = ("site",)
 
 
+class IsolationPointForm(forms.ModelForm):
+    """A point on the lockout of an order underway (``selectors.orders_underway_locking``) is not moved to another
+    telescope or subsystem: it would leave that lockout unsaid. Its words may be corrected: the tick on it then counts
+    for nothing until it is ticked again, which holds the work done locked out (``services.checklist_tick_set``)."""
+
+    class Meta:
+        model = IsolationPoint
+        fields = "__all__"
+
+    def clean(self):
+        cleaned = super().clean()
+        if self.instance.pk and {"telescope", "subsystem"} & set(self.changed_data):
+            if orders := selectors.orders_underway_locking(IsolationPoint.objects.get(pk=self.instance.pk)):
+                raise ValidationError(_locked_by(orders, "moved to another telescope or subsystem"))
+        return cleaned
+
+
+def _locked_by(orders: list[WorkOrder], done: str) -> str:
+    numbers = [order.number for order in orders]
+    named = " and ".join([", ".join(numbers[:-1]), numbers[-1]] if len(numbers) > 1 else numbers)
+    return (
+        f"This point is on the lockout of {named}, underway: it is not {done} while that work is underway, since it "
+        "would drop out of the lockout in progress. Do it once the work is finished or withdrawn."
+    )
+
+
 @admin.register(IsolationPoint)
 class IsolationPointAdmin(SimpleHistoryAdmin):
+    form = IsolationPointForm
     list_display = ("telescope", "subsystem", "energy", "label", "location")
     list_filter = ("telescope__site", "energy")
     autocomplete_fields = ("subsystem",)  # a network has thousands of subsystems: searched, not listed
+
+    def get_deleted_objects(self, objs, request):
+        """A point on the lockout of an order underway is not deleted (the single delete page and the list's delete
+        action both ask here): Django's page lists those orders as standing in the way, and deletes nothing."""
+        deleted, counts, permissions, protected = super().get_deleted_objects(objs, request)
+        for point in objs:
+            if orders := selectors.orders_underway_locking(point):
+                protected.append(f"{point}: {_locked_by(orders, 'deleted')}")
+        return deleted, counts, permissions, protected

@@ -13,6 +13,7 @@ from dataclasses import dataclass
 HAZARDS: dict[str, str] = {
     "electrical": "Hazardous electrical energy",
     "pneumatic": "Stored pneumatic energy",
+    "stored_mechanical": "Stored mechanical energy (springs)",
     "moving_machinery": "Moving telescope and dome",
     "suspended_load": "Suspended load",
     "height": "Work at height",
@@ -23,20 +24,73 @@ HAZARDS: dict[str, str] = {
     "optical_surface": "Delicate optical surfaces",
 }
 
-#: Hazards whose energy must be isolated and locked out before work starts.
-ISOLATION_HAZARDS = ("electrical", "pneumatic", "moving_machinery")
+#: Hazards whose energy must be isolated and locked out before work starts. A loaded spring is part of that energy
+#: control (OSHA 29 CFR 1910.147(d)(5): stored energy relieved, disconnected or restrained after isolation), but it is
+#: restrained at the equipment itself, not locked at a supply point, so it asks for no isolation point of its own, as
+#: a moving telescope does not (workorders.selectors._ISOLATES names the points that answer a hazard).
+ISOLATION_HAZARDS = ("electrical", "pneumatic", "stored_mechanical", "moving_machinery")
 
 
 #: What the page and the printed order say when the work's hazards need nothing isolated.
 NO_ISOLATION_NEEDED = (
-    "This work needs no energy isolation: none of its hazards is electrical energy, stored pressure or a "
-    "telescope or dome that can move. If the work turns out to touch any of them, stop and ask the site engineer."
+    "This work needs no energy isolation: none of its hazards is electrical energy, stored pressure, a loaded "
+    "spring or a telescope or dome that can move. If the work turns out to touch any of them, stop and ask the site "
+    "engineer."
 )
 
 
 def needs_isolation(hazards: Iterable[str]) -> bool:
     """True when any of the hazards needs energy isolated and locked out before the work."""
     return any(h in ISOLATION_HAZARDS for h in hazards)
+
+
+# Finishing an order whose lockout step or an isolation point nobody ticked (workorders.forms.FinishForm,
+# services.work_order_finish). The isolation comes before the work and its locks come off only after it (OSHA 29 CFR
+# 1910.147(d), (e)), so an unticked lockout is not covered by the box that confirms the other unticked lines: the
+# person finishing says, on its own, which of these is true, and the findings say why. The record keeps the answer.
+ISOLATION_UNTICKED_TITLE = "The energy isolation is not ticked"
+ISOLATION_UNTICKED_QUESTION = (
+    "Nobody ticked these lines of the lockout on the work order page. Say which of the answers below is true: it is "
+    "asked apart from the other unticked lines, the record keeps it, and the findings must say why. If none is "
+    "true, do not finish: ask the site engineer."
+)
+#: The answer that the energy was not isolated: the record shows it to the engineer who countersigns.
+NOT_ISOLATED = "not_isolated"
+#: Answer code -> what the person finishing confirms (the form's choice, the page's and the paper's record).
+ISOLATION_UNTICKED = {
+    "isolated": (
+        "The energy was isolated: every source listed was locked and tagged, stored energy released and the "
+        "isolation proved before the work, and the locks were removed only after it. It was not ticked here (ticked "
+        "on paper, or missed); the findings say why."
+    ),
+    "not_needed": (
+        "The work needed no isolation: it touched nothing energised, pressurised or able to move. The findings say "
+        "why."
+    ),
+    NOT_ISOLATED: "The energy was NOT isolated. The findings say why, and how the hazards were controlled instead.",
+}
+#: The same answers in a few words, beside each unticked line of the lockout on the finished paper.
+ISOLATION_UNTICKED_SHORT = {
+    "isolated": "the energy was isolated, not ticked here",
+    "not_needed": "the work needed no isolation",
+    NOT_ISOLATED: "the energy was NOT isolated",
+}
+ISOLATION_UNTICKED_RECORD = (
+    "Finished with the energy isolation not ticked; {person} confirmed, apart from the other lines: {answer}"
+)
+ISOLATION_UNTICKED_REQUIRED = (
+    "the energy isolation is not ticked ({lines}): tick it on the work order page, or say on the finish form, on its "
+    "own, whether the energy was isolated, the work needed no isolation, or the energy was not isolated"
+)
+ISOLATION_UNTICKED_FINDINGS = (
+    "say in the findings why the energy isolation was not ticked: how it was isolated, why the work needed none, or "
+    "why it was not isolated and how the hazards were controlled instead"
+)
+#: Shown with the record of an order finished with the energy not isolated, for the engineer who countersigns it.
+NOT_ISOLATED_REVIEW = (
+    "The site engineer reads the findings before countersigning, and follows the site's lockout procedure on work "
+    "done without isolation."
+)
 
 
 # An order copies its hazards when it is made; these say so when its subsystems carry more since
@@ -97,6 +151,39 @@ LIFT_TOO_FLAT = (
     "under which rigging practice advises against lifting"
 )
 LIFT_INPUTS_INVALID = "stored lifting inputs that are not valid ({problem})"
+#: A lift with no working load limit entered (LiftFigures.no_limit) is not started: the paper may go out before the
+#: slings are chosen, but the legs' rated capacity is compared with their tension before the lift (ASME B30.9).
+LIFT_NO_LIMIT = "no working load limit entered per leg"
+LIFT_NO_LIMIT_REFUSED = (
+    "{number}'s lifting figures have no working load limit entered, so the sling legs' rated capacity is not compared "
+    "with their tension: an engineer enters the working load limit per leg of the slings as rigged on the lift page "
+    "('Lifting figures' on the work order page) before the work starts; the order may be issued meanwhile"
+)
+#: A lift with no cell / fixture mass entered (LiftFigures.fixture_not_entered) is not started either: its load and leg
+#: tension are the mirror's alone, below those of the mirror in its cell, so slings, shackles or a lifting table
+#: chosen for them may be under-rated (ASME B30.9: each item's rated capacity at least the load it carries).
+#: ``{where}`` is LIFT_CELL_ON_MIRROR for an order on a registered mirror, LIFT_CELL_ON_LIFT_PAGE otherwise.
+LIFT_NO_CELL = "no cell / fixture mass entered, so they are the mirror alone (enter it {where})"
+LIFT_NO_CELL_REFUSED = (
+    "{number}'s lifting figures have no cell / fixture mass entered, so the load and the sling legs' tension are the "
+    "mirror's alone, without the cell it is lifted in, and the slings and lifting table may be chosen too light: an "
+    "engineer enters the mass of the cell, or 0 for a mirror lifted without its cell, {where} before the work starts; "
+    "the order may be issued meanwhile"
+)
+LIFT_CELL_ON_MIRROR = "on the mirror's record in the admin ({url})"
+LIFT_CELL_ON_LIFT_PAGE = "on the lift page ('Lifting figures' on the work order page)"
+
+#: Said on the page and the paper of a recoat's removal and reinstall orders still to do (workorders.selectors
+#: .standing_notes), to keep in mind throughout, not a step to tick: the work takes more than a day and may pause over
+#: the crew's days off, so it is left safe at every stop and the lockout carried over from shift to shift or onto the
+#: site's long-term locks (OSHA 29 CFR 1910.147(f)(4), shift or personnel changes; the site's lockout procedure says
+#: how). A load is never left hanging: common practice, no published source.
+WORK_STOPPED_PART_WAY = (
+    "If the work stops before this order is finished (at the end of a shift, or over the crew's days off), "
+    "leave it safe first: the mirror set down and secured in its crate or in its cell on the lowered lifting "
+    "table, never left hanging; both axes pinned; the locks and tags kept on, handed over from person to person "
+    "or onto the site's long-term locks as its lockout procedure says for work over several shifts."
+)
 
 
 def hazards_missing_notice(hazards: Iterable[str], lockout_step_missing: bool) -> str:
@@ -192,6 +279,24 @@ CAUTIONS: dict[str, Caution] = {
             "Restore air slowly, with everyone told and clear."
         ),
         standard="ISO 4414; OSHA 29 CFR 1910.147 (lockout/tagout)",
+    ),
+    # A spring-applied brake (or any spring pack) keeps its energy when every supply is locked off: OSHA 29 CFR
+    # 1910.147(d)(5) asks for stored energy to be relieved, disconnected or restrained before the work. Releasing the
+    # brake frees the axis it holds, which the moving-telescope caution covers too.
+    "stored_mechanical": Caution(
+        hazard="stored_mechanical",
+        severity=SERIOUS_INJURY,
+        title=HAZARDS["stored_mechanical"],
+        text=(
+            "A spring-applied brake holds its axis with springs that stay loaded when every supply is locked off: "
+            "isolating the power does not release that energy. "
+            "Before you adjust or take apart a brake or any spring pack, relieve or restrain the spring force with "
+            "the tool or release screws the maker provides, never by prying the armature or the disc. "
+            "Releasing a brake, by hand or by power, frees the axis it holds: pin or block the axis first, and "
+            "keep hands out of the gap between armature and magnet. "
+            "Check that the brake applies and holds the axis again before anyone relies on it."
+        ),
+        standard="OSHA 29 CFR 1910.147(d)(5) (stored energy); the brake maker's instructions",
     ),
     "moving_machinery": Caution(
         hazard="moving_machinery",

@@ -1,4 +1,5 @@
 import datetime as dt
+import re
 
 from django import forms
 from django.contrib.auth import get_user_model
@@ -12,6 +13,7 @@ from observatory_ops.registry.forms import HazardsField
 from observatory_ops.registry.models import Subsystem
 
 from . import services
+from .cautions import ISOLATION_UNTICKED, ISOLATION_UNTICKED_FINDINGS
 from .models import Part, State, WorkOrder
 
 
@@ -137,10 +139,13 @@ NOT_CLEANED = "none"
 
 
 class FinishForm(forms.Form):
-    """Hours, the day the work was done, findings, the required readings, the parts used and, for each mirror
-    the order works on, whether it was cleaned. ``confirm_unticked`` is asked for only when checklist lines
-    are not ticked, ``confirm_hazards`` only when the order lacks hazards its subsystems gained after it was
-    made; ``beyond_limits`` names the readings past their limit."""
+    """Hours, the day the work was done, who did it with the person finishing (the crew), findings, the required
+    readings, the parts used and, for each mirror the order works on, whether it was cleaned.
+    ``confirm_unticked`` is asked for only when checklist lines other than the energy isolation's are not ticked
+    (``unticked``); ``isolation_unticked``, the lockout step and isolation points nobody ticked, get a question of
+    their own (``isolation_answer``, ``cautions.ISOLATION_UNTICKED``), with no default; ``confirm_hazards`` is asked
+    only when the order lacks hazards its subsystems gained after it was made; ``beyond_limits`` names the readings
+    past their limit."""
 
     # Empty, never the estimate: a tap on Finish must not record the estimate as the time the work took.
     actual_hours = forms.FloatField(
@@ -159,9 +164,16 @@ class FinishForm(forms.Form):
         error_messages={"required": "Work done on: enter the day the work was done.",
                         "invalid": "Work done on: enter a date, such as 2026-06-15."},
     )
+    crew = forms.CharField(
+        required=False, max_length=1000, label="Crew",
+        help_text="The others who did the work with you, names separated by commas; empty if you worked alone. They "
+                  "are printed on the crew lines of the paper, to sign.",
+        widget=forms.TextInput(attrs={"autocomplete": "off", "autocapitalize": "words"}),
+        error_messages={"max_length": "Crew: at most %(limit_value)d characters; name each person once."},
+    )
     findings = forms.CharField(widget=forms.Textarea, required=False, max_length=20000)
 
-    def __init__(self, *args, order, unticked=(), lacking_hazards=(), **kwargs):
+    def __init__(self, *args, order, unticked=(), isolation_unticked=(), lacking_hazards=(), **kwargs):
         super().__init__(*args, **kwargs)
         self._order = order
         self._today = site_today(order.site)
@@ -200,9 +212,18 @@ class FinishForm(forms.Form):
                 error_messages={"required": f"Cleaning of {name}: choose how it was cleaned in this work, or "
                                             "'not cleaned in this work'."},
             )
+        if isolation_unticked:
+            self.fields["isolation_answer"] = forms.ChoiceField(
+                label="Energy isolation not ticked", widget=forms.RadioSelect,
+                choices=list(ISOLATION_UNTICKED.items()),
+                error_messages={"required": "Energy isolation not ticked: say which of these is true, or tick the "
+                                            "isolation on the work order page.",
+                                "invalid_choice": "Energy isolation not ticked: choose one of the answers listed."},
+            )
         if unticked:
             self.fields["confirm_unticked"] = forms.BooleanField(
-                required=False, label="I confirm the unticked lines were done or did not apply"
+                required=False, label="I confirm the other unticked lines were done or did not apply"
+                if isolation_unticked else "I confirm the unticked lines were done or did not apply",
             )
         if lacking_hazards:
             self.fields["confirm_hazards"] = forms.BooleanField(
@@ -216,6 +237,22 @@ class FinishForm(forms.Form):
         if problem := services.work_done_on_problem(self._order, day, self._today):
             raise forms.ValidationError(f"Work done on: {problem}.")
         return day
+
+    def clean_crew(self) -> list[str]:
+        """The names, one each, in the order typed: separated by commas, semicolons or new lines."""
+        names = [name.strip() for name in re.split(r"[,;\n]", self.cleaned_data["crew"]) if name.strip()]
+        if too_long := [name for name in names if len(name) > services.CREW_NAME_MAX]:
+            raise forms.ValidationError(
+                f"Crew: \"{too_long[0][:40]}...\" is longer than {services.CREW_NAME_MAX} characters for one name; "
+                "separate the names with commas."
+            )
+        return list(dict.fromkeys(names))
+
+    def clean(self):
+        cleaned = super().clean()
+        if cleaned.get("isolation_answer") and not cleaned.get("findings", "").strip():
+            self.add_error("findings", f"Findings: {ISOLATION_UNTICKED_FINDINGS}.")
+        return cleaned
 
     def readings(self) -> dict[int, float]:
         return {int(k[8:]): v for k, v in self.cleaned_data.items() if k.startswith("reading_")}
@@ -248,13 +285,33 @@ class PartAddForm(forms.Form):
         self.fields["part"].queryset = Part.objects.filter(site=site)
 
 
+class PartCountForm(forms.Form):
+    """The stock of a part as counted on the shelf, after finished work used more than the register held."""
+
+    counted = forms.FloatField(min_value=0)
+
+    def __init__(self, *args, part: Part, **kwargs):
+        super().__init__(*args, **kwargs)
+        label = f"Counted {part.name} ({part.unit})"
+        self.fields["counted"].label = label
+        self.fields["counted"].error_messages.update({
+            "required": f"{label}: enter the number on the shelf (0 if none).",
+            "invalid": f"{label}: enter a number, such as 4.",
+            "min_value": f"{label}: enter 0 or more.",
+        })
+
+
 class LiftForm(forms.Form):
     diameter_mm = forms.FloatField(label="Mirror diameter (mm)")
     thickness_mm = forms.FloatField(label="Edge thickness (mm)")
     hole_mm = forms.FloatField(label="Central hole (mm)", initial=0)
     material = forms.ChoiceField(choices=[(k, k.replace("_", " ")) for k in DENSITY])
     lightweighting_fraction = forms.FloatField(initial=0, help_text="Fraction of the solid blank removed, 0 to <1.")
-    fixture_kg = forms.FloatField(label="Cell / fixture mass (kg)", initial=0)
+    fixture_kg = forms.FloatField(
+        label="Cell / fixture mass (kg)", required=False,
+        help_text="Empty: not entered (a mirror's record gives it once entered there); the figures are then the mirror "
+        "alone and the work is not started. 0: nothing is lifted with the mirror.",
+    )
     legs = forms.IntegerField(label="Sling legs rigged", initial=2)
     angle_deg = forms.FloatField(label="Leg angle from horizontal (deg)", initial=60)
     wll_kg = forms.FloatField(label="Working load limit per leg (kg)", required=False)

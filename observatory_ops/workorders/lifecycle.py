@@ -5,8 +5,11 @@ draft / issued / underway --withdraw--> withdrawn
 
 Finishing records hours, findings, readings and parts, and writes the service records. Countersigning
 is done by a second person: never the one who finished the work. Some moves wait as an order stands, whoever
-asks (``selectors.moves_held``): issuing without a planned date, issuing or starting with a lift in the way, and
-starting a recoat phase before the phase order before it in its recoat plan is finished.
+asks (``selectors.moves_held``): issuing without a planned date, issuing or starting with a lift in the way (starting
+also while no working load limit is entered), and starting a recoat phase before the phase order before it in its
+recoat plan is finished. A start more than a week before the planned date is asked first, not refused
+(``selectors.early_start_question``). Once the work has started, what its checklist is made of stays as stored
+(``models.WorkOrder.clean``).
 """
 from __future__ import annotations
 

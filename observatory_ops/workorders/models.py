@@ -102,6 +102,22 @@ class WorkOrder(models.Model):
                   "finished; the person finishing confirmed that they were controlled or did not arise, and the "
                   "findings say how.",
     )
+    isolation_unticked_at_finish = models.JSONField(
+        default=list, blank=True,
+        help_text="The lockout step and isolation points nobody ticked when the work was finished; the person "
+                  "finishing answered for them on their own (isolation_confirmed_at_finish), not with the other "
+                  "unticked lines, and the findings say why.",
+    )
+    isolation_confirmed_at_finish = models.CharField(
+        max_length=16, blank=True,
+        help_text="The answer given for an unticked energy isolation: a key of cautions.ISOLATION_UNTICKED "
+                  "(isolated, not_needed, not_isolated); blank when none was asked.",
+    )
+    crew = models.JSONField(
+        null=True, blank=True,
+        help_text="Who did the work with the person who finished it, names as entered on the finish form; [] when "
+                  "none was named, null for orders finished before the form asked.",
+    )
 
     class Meta:
         ordering = ["-created_at"]
@@ -124,6 +140,39 @@ class WorkOrder(models.Model):
     @property
     def tool_list(self) -> list[str]:
         return [line.strip() for line in self.tools.splitlines() if line.strip()]
+
+    def clean(self) -> None:
+        """Once the work has started, what its checklist is made of stays as stored (``FIXED_ONCE_STARTED``): the
+        admin's change form, the admin history's revert (which would bring back an earlier version's steps and state)
+        and the edit page all save through a form that calls this. The lifecycle moves go through
+        ``services.work_order_move`` and ``services.work_order_finish``, never a form."""
+        stored = WorkOrder.objects.filter(pk=self.pk).values(*FIXED_ONCE_STARTED).first() if self.pk else None
+        if stored and any(getattr(self, field) != stored[field] for field in FIXED_ONCE_STARTED):
+            if why := self.started_edit_refusal("steps, hazards, telescope and state"):
+                raise ValidationError(why)
+
+    def started_edit_refusal(self, what: str) -> str:
+        """Why ``what`` ("the subsystems it covers") of this order may not change, "" while it may: as stored, a
+        draft or an issued order is still edited. Underway, the technicians tick its lockout step, the steps done with
+        the energy isolated and the isolation points it locks (its telescope's and its subsystems') as they stand, so a
+        change would move them under the lockout in progress; finished or withdrawn, it is the record."""
+        state = WorkOrder.objects.filter(pk=self.pk).values_list("state", flat=True).first() if self.pk else None
+        if state is None or state in (State.DRAFT, State.ISSUED):
+            return ""
+        if state == State.UNDERWAY:
+            return (
+                f"{self.number} is underway: its {what} are not changed while the work is underway, since its lockout "
+                "step, the steps done with the energy isolated and the isolation points it locks are ticked as they "
+                "stand. To change the work, leave it safe, withdraw this order on its page (saying why) and make a new "
+                "one."
+            )
+        return f"{self.number} is {State(state).label}: its record stays as it was, its {what} included."
+
+
+#: What an order's checklist is made of, with the state it is in: its steps (the lockout step, the work done locked
+#: out), its hazards (whether it is locked out at all, and its cautions), its telescope (whose isolation points the
+#: lockout step locks) and whether the work is at the telescope. Fixed once the work has started (``WorkOrder.clean``).
+FIXED_ONCE_STARTED = ("state", "steps", "hazards", "telescope_id", "at_telescope")
 
 
 class WorkOrderItem(models.Model):
@@ -210,9 +259,23 @@ class PartUse(models.Model):
     part = models.ForeignKey(Part, on_delete=models.PROTECT, related_name="uses")
     quantity_planned = models.FloatField(default=1, validators=[MinValueValidator(0)])
     quantity_used = models.FloatField(null=True, blank=True, validators=[MinValueValidator(0)])
+    quantity_short = models.FloatField(
+        default=0, validators=[MinValueValidator(0)],
+        help_text="How many of those used the parts register did not hold when the work was finished: the register "
+                  "was brought to zero, and the difference waits for the site engineer to count the stock.",
+    )
+    short_counted_at = models.DateTimeField(
+        null=True, blank=True,
+        help_text="When the stock was counted and the register corrected after the shortfall; empty while it waits.",
+    )
 
     class Meta:
         ordering = ["pk"]
+
+    @property
+    def short_to_count(self) -> bool:
+        """Used beyond the register, and the stock not counted since."""
+        return self.quantity_short > 0 and self.short_counted_at is None
 
 
 class IsolationPoint(models.Model):

@@ -3,8 +3,9 @@
 Pure layout, no Django and no database: the caller fills a :class:`~observatory_ops.workorders.sheet.Sheet`.
 The order on the page follows the work: header and QR code, a framed notice when the order lacks hazards its
 subsystems now carry, why the work is due, the cautions box before anything else of the work, isolation
-points, lifting figures, steps (ticked as on the page, for finished work), parts and tools, readings, the
-checklist as ticked (finished work), findings, and the sign-off with the actual hours and the day of the work.
+points, lifting figures, steps (ticked as on the page, with who ticked each and when, for finished work), parts and
+tools, readings, the mirrors' cleaning and what was confirmed at finishing (finished work), findings, and the sign-off
+with the actual hours, the day of the work and the crew.
 Everything prints in black, white and light grey, so a mono printer loses nothing.
 
 Every string of a sheet is user text. reportlab's ``Paragraph`` parses markup, so each one goes through
@@ -57,7 +58,7 @@ from observatory_ops.workorders.cautions import (
     SEVERITY_LABELS,
     signal_word,
 )
-from observatory_ops.workorders.sheet import Sheet, SheetCaution, SheetTick
+from observatory_ops.workorders.sheet import Sheet, SheetCaution, SheetPart, SheetTick
 
 PAPER_SIZES: dict[str, tuple[float, float]] = {"A4": A4, "letter": LETTER}
 
@@ -66,8 +67,8 @@ MARGIN_TOP = 16 * mm
 MARGIN_BOTTOM = 18 * mm
 QR_SIZE = 28 * mm
 FINDINGS_LINES = 7
-#: Sign-off lines for the people who worked with the one who signs as having done the work: the order does not
-#: know its crew, and a mirror lift takes several hands (rigger, signaller, tag lines).
+#: Sign-off lines left blank for the people who work with the one who signs as having done the work, until the finish
+#: form names them: a mirror lift takes several hands (rigger, signaller, tag lines).
 CREW_LINES = 3
 
 INK = black
@@ -535,6 +536,8 @@ def _steps(sheet: Sheet) -> list[Flowable]:
         story.append(_Paragraph(f"<b>Warning:</b> {_text(sheet.steps_warning)}", _BULLET, bulletText="!"))
     if sheet.steps_note:
         story.append(_Paragraph(f"<b>Read first:</b> {_text(sheet.steps_note)}", _BULLET, bulletText="!"))
+    story += [_Paragraph(f"<b>Throughout this work:</b> {_text(note)}", _BULLET, bulletText="!")
+              for note in sheet.standing_notes]
     if not sheet.steps:
         return [*story, _note("No steps listed.")]
     ticks = sheet.step_ticks or (None,) * len(sheet.steps)
@@ -548,9 +551,15 @@ def _parts_and_tools(sheet: Sheet, width: float) -> list[Flowable]:
         widths = [width - 100 * mm, 36 * mm, 26 * mm, 38 * mm]
         rows = [[_cell(part.name, widths[0]), _cell(part.part_number, widths[1]),
                  _cell(f"{part.quantity:g} {part.unit}", widths[2]),
-                 _written_box(widths[3]) if part.used is None else _cell(f"{part.used:g} {part.unit}", widths[3])]
+                 _written_box(widths[3]) if part.used is None else _cell(_used(part), widths[3])]
                 for part in sheet.parts]
         story.append(_ruled_table(("Part", "Part no.", "Planned", "Used"), rows, widths))
+        if any(part.short for part in sheet.parts):
+            story.append(_Paragraph(
+                "<b>Beyond the register:</b> more were used than the parts register held when the work was finished. "
+                "It was brought to zero, and the shortfall marked for the site engineer to count the stock.",
+                _BULLET, bulletText="!",
+            ))
     elif not sheet.parts_unregistered:
         story.append(_note("No parts listed."))
     if sheet.parts_unregistered:
@@ -562,6 +571,11 @@ def _parts_and_tools(sheet: Sheet, width: float) -> list[Flowable]:
     else:
         story.append(_note("No tools listed."))
     return story
+
+
+def _used(part: SheetPart) -> str:
+    used = f"{part.used:g} {part.unit}"
+    return f"{used} ({part.short:g} beyond the register)" if part.short else used
 
 
 def _readings(sheet: Sheet, width: float) -> list[Flowable]:
@@ -603,11 +617,20 @@ def _findings(sheet: Sheet) -> list[Flowable]:
     return [_heading("Findings"), _WritingLines(FINDINGS_LINES)]
 
 
+def _cleanings(sheet: Sheet) -> list[Flowable]:
+    if not sheet.cleanings:
+        return []
+    return [
+        _heading("Mirror cleaning"),
+        *(_Paragraph(_text(line), _BULLET, bulletText="\N{BULLET}") for line in sheet.cleanings),
+    ]
+
+
 def _confirmations(sheet: Sheet) -> list[Flowable]:
     if not sheet.confirmations:
         return []
     return [
-        _heading("Checklist as ticked on the work order page"),
+        _heading("Confirmed when the work was finished"),
         *(_Paragraph(_text(line), _BULLET, bulletText="\N{BULLET}") for line in sheet.confirmations),
     ]
 
@@ -635,16 +658,22 @@ def _record_boxes(sheet: Sheet, width: float) -> Table:
 
 
 def _sign_off(sheet: Sheet, width: float) -> list[Flowable]:
-    """The actual hours and the day, and a line to sign for the one who did the work, each of the crew with them,
-    the competent person who checked the rigging of a suspended load, and the one who checks the record."""
+    """The actual hours and the day, and a line to sign for the one who did the work, each of the crew with them
+    (named as the finish form gave them, else blank lines), the competent person who checked the rigging of a
+    suspended load, and the one who checks the record."""
 
     def day(value) -> str:
         return value.strftime(_DAY) if value else ""
 
+    if sheet.crew is None:
+        crew = [["Crew member", "", "", ""] for _ in range(CREW_LINES)]
+    else:
+        crew = [["Crew member", _shorten(name, 40), "", day(sheet.performed_on)] for name in sheet.crew]
+        crew = crew or [["Crew member", "none named", "", ""]]
     rows = [
         ["", "Name", "Signature", "Date"],
         ["Performed by", _shorten(sheet.performed_by, 40), "", day(sheet.performed_on)],
-        *(["Crew member", "", "", ""] for _ in range(CREW_LINES)),
+        *crew,
     ]
     if sheet.rigging_check:
         rows.append(["Rigging checked by\n(competent person)", "", "", ""])
@@ -680,6 +709,7 @@ def _sheet_story(index: int, sheet: Sheet, width: float) -> list[Flowable]:
         *_steps(sheet),
         *_parts_and_tools(sheet, width),
         *_readings(sheet, width),
+        *_cleanings(sheet),
         *_confirmations(sheet),
         # The sign-off never lands alone on the last page: it goes over with the findings it signs for.
         KeepTogether([*_findings(sheet), *_sign_off(sheet, width)]),

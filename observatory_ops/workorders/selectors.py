@@ -6,12 +6,14 @@ from collections.abc import Sequence
 from dataclasses import dataclass
 
 from django.db.models import F, Prefetch, Q, QuerySet
+from django.urls import reverse
 from django.utils import dateformat, timezone
 
 from observatory_ops.archive.history import Change, changes, person
 from observatory_ops.calc import lifting
 from observatory_ops.calc.windows import RECOAT_PHASES
 from observatory_ops.planning.models import ServicePlan, part_lines
+from observatory_ops.planning.services import site_today
 from observatory_ops.registry import catalogue
 from observatory_ops.registry.models import Site, Subsystem
 
@@ -22,22 +24,34 @@ from .cautions import (
     HAZARDS_MISSING_ON_PAPER,
     HAZARDS_MISSING_STARTED,
     HAZARDS_MISSING_TITLE,
+    ISOLATION_UNTICKED,
+    ISOLATION_UNTICKED_RECORD,
+    ISOLATION_UNTICKED_SHORT,
+    LIFT_CELL_ON_LIFT_PAGE,
+    LIFT_CELL_ON_MIRROR,
     LIFT_INPUTS_INVALID,
+    LIFT_NO_CELL,
+    LIFT_NO_CELL_REFUSED,
+    LIFT_NO_LIMIT,
+    LIFT_NO_LIMIT_REFUSED,
     LIFT_OVER_LIMIT,
     LIFT_REFUSED,
     LIFT_TOO_FLAT,
     LOCKOUT_STEP_MISSING,
+    NOT_ISOLATED,
+    NOT_ISOLATED_REVIEW,
     PRECEDENCE_STATEMENT,
     SEVERITY_LABELS,
     TELESCOPE_OUT,
     TELESCOPE_OUT_TITLE,
     TELESCOPE_OUT_TODO,
+    WORK_STOPPED_PART_WAY,
     Caution,
     cautions_for,
     hazards_missing_notice,
     needs_isolation,
 )
-from .models import ChecklistTick, IsolationPoint, Part, State, WorkOrder, WorkOrderItem
+from .models import ChecklistTick, IsolationPoint, Part, PartUse, State, WorkOrder, WorkOrderItem
 
 
 def work_orders() -> QuerySet[WorkOrder]:
@@ -148,6 +162,21 @@ def telescope_out_notices(order: WorkOrder) -> list[tuple[str, str, str]]:
     return [out[pk].notice() for pk in sorted(at) if pk in out]
 
 
+#: The recoat phases whose work takes more than a day and may pause over the crew's days off with the mirror off its
+#: cell or the telescope out of balance (mirrors.services._PHASE_WORK): their orders carry ``WORK_STOPPED_PART_WAY``.
+_MAY_PAUSE_PART_WAY = ("removal", "reinstall")
+
+
+def standing_notes(order: WorkOrder) -> tuple[str, ...]:
+    """What the page and the paper of an order still to do say to keep in mind throughout its work, above its steps
+    and not among them, so nobody ticks it: how to leave a recoat's removal or reinstall if the work stops part way.
+    Orders made before it became a note keep it among their steps as they were, except those still draft or issued
+    (migration ``workorders.0013``), so it may read twice on an old order underway."""
+    if order.state in TO_DO and order.recoat_phase in _MAY_PAUSE_PART_WAY:
+        return (WORK_STOPPED_PART_WAY,)
+    return ()
+
+
 def low_stock(site: Site) -> QuerySet[Part]:
     return Part.objects.filter(site=site, quantity_on_hand__lte=F("reorder_point"))
 
@@ -255,6 +284,13 @@ def isolation_points(order: WorkOrder) -> list[IsolationPoint]:
         .filter(wanted)
         .select_related("telescope", "subsystem")
     )
+
+
+def orders_underway_locking(point: IsolationPoint) -> list[WorkOrder]:
+    """The orders underway at the point's site whose lockout locks it (``isolation_points``), oldest first: the
+    admin neither deletes it nor moves it to another telescope or subsystem while they are underway."""
+    underway = WorkOrder.objects.filter(state=State.UNDERWAY, site_id=point.telescope.site_id).order_by("pk")
+    return [order for order in underway if any(p.pk == point.pk for p in isolation_points(order))]
 
 
 #: Which registered isolation points answer a hazard: without one, the lockout step has nothing to lock.
@@ -422,27 +458,56 @@ def unticked_lines(order: WorkOrder) -> list[ChecklistLine]:
     return [line for line in lines.points + lines.steps if not line.ticked]
 
 
+def isolation_lines(lines: Sequence[ChecklistLine]) -> list[ChecklistLine]:
+    """Of ``lines``, those of the energy isolation: the isolation points and the lockout step. Not ticked when the
+    work is finished, they are answered for on their own (``cautions.ISOLATION_UNTICKED``), not with the others."""
+    from .services import LOCKOUT_STEP  # services reads this module
+
+    return [line for line in lines if line.kind == POINT or line.text == LOCKOUT_STEP]
+
+
+def finished_line_notes(order: WorkOrder, lines: Sequence[ChecklistLine]) -> list[str]:
+    """For each of a finished order's checklist ``lines``, what its paper prints beside it: who ticked it and when
+    (``tick_note``), or, for a line not ticked, what the person finishing confirmed for it: the answer for the energy
+    isolation (``isolation_confirmed_at_finish``), or that it was done or did not apply (``unticked_at_finish``);
+    "not ticked when the work was finished" for an order finished before those were kept."""
+    by = person(order.finished_by)
+    isolation = set(order.isolation_unticked_at_finish)
+    others = set(order.unticked_at_finish)
+    notes = []
+    for line in lines:
+        if line.ticked:
+            notes.append(line.note)
+            continue
+        kept = f"{line.label}: {line.text}"
+        if kept in isolation and order.isolation_confirmed_at_finish in ISOLATION_UNTICKED_SHORT:
+            said = f"not ticked; at finishing {by} confirmed: " + ISOLATION_UNTICKED_SHORT[
+                order.isolation_confirmed_at_finish
+            ]
+        elif kept in others:
+            said = f"not ticked; at finishing {by} confirmed it was done or did not apply"
+        else:
+            said = "not ticked when the work was finished"
+        notes.append(f"{line.note}; {said}" if line.note else said)
+    return notes
+
+
 def checklist_record(order: WorkOrder, points: list[IsolationPoint]) -> tuple[str, ...]:
-    """The checklist as the finished record prints it: every line whose newest entry is a tick, by whom and
-    when (site time), steps first; a tick on a step changed since, as the step read then; the hazards the
-    order lacked when it was finished, confirmed as controlled (``hazards_confirmed_at_finish``); and, last, the
-    lines nobody ticked: as they were kept when the work was finished, with who confirmed them, or (orders
-    finished before that list was kept) as they stand now."""
+    """What the finished record confirms beyond the notes beside its checklist lines (``finished_line_notes``): the
+    answer given for an energy isolation nobody ticked (``isolation_confirmed_at_finish``), the hazards the order
+    lacked when it was finished, confirmed as controlled (``hazards_confirmed_at_finish``), and ticks on lines no
+    longer on the order (an isolation point moved to another telescope since, say), by whom and when (site time). A
+    tick on a line whose words changed since is said beside that line (``tick_note``)."""
     zone = order.site.zone
     latest = latest_ticks(order)
     lines = _checklist(order, points, latest)
-    place = {(POINT, point.pk): position for position, point in enumerate(points)}
-    ticks = sorted(
-        (tick for tick in latest.values() if tick.ticked),
-        key=lambda tick: (tick.kind != STEP, tick.step_index or 0, place.get(tick.line, len(place)), tick.pk),
-    )
-    current = {(line.kind, line.key): line.text for line in lines.steps + lines.points}
     record = []
-    for tick in ticks:
-        what = f"Step {tick.step_index + 1}" if tick.kind == STEP else "Isolation point"
-        when = dateformat.format(tick.recorded_at.astimezone(zone), "d M Y H:i")  # as tick_note words it
-        changed = " (as it read then; changed since)" if current.get(tick.line) != tick.text else ""
-        record.append(f"{what}{changed}: {tick.text} \N{EM DASH} ticked by {person(tick.recorded_by)}, {when}")
+    if order.isolation_confirmed_at_finish in ISOLATION_UNTICKED:
+        record.append(ISOLATION_UNTICKED_RECORD.format(
+            person=person(order.finished_by), answer=ISOLATION_UNTICKED[order.isolation_confirmed_at_finish]
+        ))
+        if order.isolation_confirmed_at_finish == NOT_ISOLATED:
+            record.append(NOT_ISOLATED_REVIEW)
     if order.hazards_confirmed_at_finish:
         record.append(
             "Finished without the cautions for hazards its subsystems gained after it was made ("
@@ -450,17 +515,50 @@ def checklist_record(order: WorkOrder, points: list[IsolationPoint]) -> tuple[st
             + f"); {person(order.finished_by)} confirmed that they were controlled or did not arise, and the findings "
             "say how."
         )
-    if order.unticked_at_finish:
-        record.append(
-            f"Not ticked when the work was finished; {person(order.finished_by)} confirmed that each of these was "
-            "done or did not apply:"
-        )
-        return (*record, *order.unticked_at_finish)
-    open_lines = [f"step {line.key + 1}" for line in lines.steps if not line.ticked]
-    open_lines += [f"isolation point {line.text}" for line in lines.points if not line.ticked]
-    if open_lines:
-        record.append("Not ticked: " + "; ".join(open_lines))
+    on_order = {(line.kind, line.key) for line in lines.steps + lines.points}
+    elsewhere = sorted(
+        (tick for tick in latest.values() if tick.ticked and tick.line not in on_order),
+        key=lambda tick: (tick.kind != STEP, tick.step_index or 0, tick.pk),
+    )
+    for tick in elsewhere:
+        what = f"Step {tick.step_index + 1}" if tick.kind == STEP else "Isolation point"
+        when = dateformat.format(tick.recorded_at.astimezone(zone), "d M Y H:i")  # as tick_note words it
+        record.append(f"{what} (no longer on this order): {tick.text} \N{EM DASH} ticked by "
+                      f"{person(tick.recorded_by)}, {when}")
     return tuple(record)
+
+
+def cleanings_at_finish(order: WorkOrder) -> list[str]:
+    """For a finished order that worked on mirrors (not a recoat's phase order, whose finish form asks nothing of
+    it), what its finishing recorded of each one's cleaning: the method and the day (``mirrors.CleaningEvent``, on
+    the mirror's record), or that none was recorded; [] otherwise."""
+    if order.state not in (State.FINISHED, State.COUNTERSIGNED) or order.recoat_phase:
+        return []
+    from observatory_ops.mirrors.models import Mirror  # mirrors builds on work orders
+
+    mirrors = Mirror.objects.filter(subsystem__in=order.items.values("subsystem_id")).select_related("subsystem")
+    lines = []
+    for mirror in mirrors.order_by("subsystem__name"):
+        done = [
+            f"cleaned by {c.get_method_display()} on {dateformat.format(c.cleaned_on, 'd M Y')}"
+            for c in mirror.cleanings.filter(work_order=order).order_by("pk")
+        ]
+        lines.append(f"{mirror.subsystem.name}: {'; '.join(done) if done else 'no cleaning recorded in this work'}")
+    return lines
+
+
+def parts_to_count(site: Site) -> list[tuple[Part, list[PartUse]]]:
+    """The site's parts that finished work used beyond what the register held, the stock not counted since, each
+    with the part lines of those orders (newest first): the register stands at zero for them, so the site engineer
+    counts the stock (``services.part_count_record``). Two queries."""
+    uses = (
+        PartUse.objects.filter(part__site=site, quantity_short__gt=0, short_counted_at__isnull=True)
+        .select_related("part", "work_order").order_by("part__name", "-work_order__finished_at", "-pk")
+    )
+    found: dict[int, tuple[Part, list[PartUse]]] = {}
+    for use in uses:
+        found.setdefault(use.part_id, (use.part, []))[1].append(use)
+    return list(found.values())
 
 
 def work_done_on(order: WorkOrder) -> dt.date | None:
@@ -545,22 +643,56 @@ def recoat_order_refusal(order: WorkOrder) -> str:
     )
 
 
+def lift_mirror(order: WorkOrder):
+    """The registered mirror among the order's subsystems (``mirrors.Mirror``), None when it covers none."""
+    from observatory_ops.mirrors.models import Mirror  # mirrors builds on work orders
+
+    return Mirror.objects.filter(subsystem__in=order.items.values("subsystem_id")).order_by("subsystem__name").first()
+
+
+def lift_inputs(order: WorkOrder) -> dict | None:
+    """The order's stored lifting inputs, with a cell / fixture mass not entered on the order (empty) taken from its
+    mirror's record once it is entered there: that is where ``lift_refusal`` sends the engineer. The order stores a copy
+    of the mirror's inputs when it is made, and keeps what this gives once its work starts
+    (``services.work_order_move``). None when the order has no lifting inputs."""
+    inputs = order.lift_inputs
+    if not isinstance(inputs, dict) or not inputs or inputs.get("fixture_kg") is not None:
+        return inputs or None
+    mirror = lift_mirror(order)
+    if mirror is None or mirror.cell_mass_kg is None:
+        return inputs
+    return {**inputs, "fixture_kg": mirror.cell_mass_kg}
+
+
+def lift_cell_record(order: WorkOrder) -> str:
+    """The address of the admin page where the cell mass of the order's mirror is entered; "" when the order covers no
+    registered mirror (its cell or fixture mass is then entered on the lift page)."""
+    mirror = lift_mirror(order)
+    return "" if mirror is None else reverse("admin:mirrors_mirror_change", args=[mirror.pk])
+
+
 def lift(order: WorkOrder) -> lifting.LiftFigures | None:
-    """The figures of the order's stored lifting inputs, None when it has none. ValueError names what is wrong with
-    the inputs: a value ``calc.lifting`` refuses, or a field missing or unknown (they are stored as JSON)."""
-    if not order.lift_inputs:
+    """The figures of the order's lifting inputs (``lift_inputs``), None when it has none. ValueError names what is
+    wrong with the inputs: a value ``calc.lifting`` refuses, or a field missing or unknown (they are stored as JSON)."""
+    inputs = lift_inputs(order)
+    if not inputs:
         return None
     try:
-        return lifting.lift_figures(**order.lift_inputs)
+        return lifting.lift_figures(**inputs)
     except TypeError as exc:
         raise ValueError(f"they do not fit the lifting figures: {exc}") from None
 
 
-def lift_refusal(order: WorkOrder) -> str:
-    """Why the order's lift stops it being issued or started, naming each figure and its limit; "" when nothing
-    does. What stops it: a leg tension above the working load limit entered, or a sling angle flatter than
-    rigging practice advises (the conditions of ``calc.lifting``'s warnings: ``LiftFigures.over_limit``,
-    ``LiftFigures.too_flat``), or stored inputs that are not valid. An order without lifting figures passes."""
+def lift_refusal(order: WorkOrder, action: str = "issue") -> str:
+    """Why the order's lift stops it being issued (``action`` "issue") or started ("start"), naming each figure and
+    its limit; "" when nothing does. What stops both: a leg tension above the working load limit entered, or a sling
+    angle flatter than rigging practice advises (the conditions of ``calc.lifting``'s warnings:
+    ``LiftFigures.over_limit``, ``LiftFigures.too_flat``), or stored inputs that are not valid. What stops the start
+    only: no working load limit entered (``LiftFigures.no_limit``), as a recoat order's lift has when it is made from
+    the mirror's defaults, and no cell / fixture mass entered (``LiftFigures.fixture_not_entered``: the figures are the
+    mirror alone), each said with where to enter it, as the figures also warn of them; the paper may go out before
+    the slings are chosen, but the lift does not begin before their rated capacity is compared with the tension of
+    the whole load (ASME B30.9). An order without lifting figures passes."""
     try:
         figures = lift(order)
     except ValueError as exc:
@@ -575,36 +707,74 @@ def lift_refusal(order: WorkOrder) -> str:
             problems.append(LIFT_TOO_FLAT.format(
                 angle=figures.angle_deg, factor=figures.load_factor, shallow=lifting.SHALLOW_ANGLE_DEG
             ))
+        if action == "start":
+            unentered = [
+                (short, alone) for short, alone, missing in (
+                    (LIFT_NO_LIMIT, LIFT_NO_LIMIT_REFUSED, figures.no_limit),
+                    (LIFT_NO_CELL, LIFT_NO_CELL_REFUSED, figures.fixture_not_entered),
+                ) if missing
+            ]
+            record = lift_cell_record(order) if figures.fixture_not_entered else ""
+            where = LIFT_CELL_ON_MIRROR.format(url=record) if record else LIFT_CELL_ON_LIFT_PAGE
+            if unentered and not problems:  # each said on its own with where to enter it
+                return "; and ".join(alone.format(number=order.number, where=where) for _, alone in unentered)
+            problems += [short.format(where=where) for short, _ in unentered]
     return LIFT_REFUSED.format(number=order.number, problems=" and ".join(problems)) if problems else ""
 
 
 #: Why an order is not issued without a planned date.
 NO_PLANNED_DATE = "set the planned date (Edit) before issuing: the calendar export and the weekly batch go by it"
 
-
 def moves_held(order: WorkOrder) -> dict[str, list[str]]:
     """The moves (``lifecycle`` actions) the order may not take as it stands, whoever asks, each with the reasons:
     issuing without a planned date (the calendar export and the weekly batch go by it), issuing or starting
-    while its lift stands in the way (``lift_refusal``), and starting a recoat phase before the phase before it is
-    finished (``recoat_order_refusal``). ``services.work_order_move`` refuses
-    them with these words, and the order's page leaves their buttons out and says why."""
+    while its lift stands in the way (``lift_refusal``: the start also while no working load limit is entered), and
+    starting a recoat phase before the phase before it is finished (``recoat_order_refusal``).
+    ``services.work_order_move`` refuses them with these words, and the order's page leaves their buttons out and
+    says why."""
     held: dict[str, list[str]] = {}
     if order.state == State.DRAFT and order.planned_date is None:
         held.setdefault("issue", []).append(NO_PLANNED_DATE)
-    if order.state in (State.DRAFT, State.ISSUED) and (why := lift_refusal(order)):
+    if order.state in (State.DRAFT, State.ISSUED):
         for action in ("issue", "start"):
-            held.setdefault(action, []).append(why)
+            if why := lift_refusal(order, action):
+                held.setdefault(action, []).append(why)
     if order.state == State.ISSUED and (why := recoat_order_refusal(order)):
         held.setdefault("start", []).append(why)
     return held
 
 
+#: Starting this many days or fewer before the planned date is asked nothing; earlier, the person confirms first (a
+#: week: common practice, no published source). It is a question, not a refusal: work is sometimes brought forward.
+EARLY_START_DAYS = 7
+
+
+def early_start_question(order: WorkOrder) -> str:
+    """For an issued order planned more than ``EARLY_START_DAYS`` after the site's today, the question its start asks
+    first ("... planned for 23 Mar 2027, 40 days from now: start anyway?"); "" otherwise, and while its start is held
+    (``moves_held``: it is refused in those words, asked or not). A recoat's removal started weeks early takes the
+    telescope out of service weeks before its window."""
+    if order.state != State.ISSUED or order.planned_date is None:
+        return ""
+    days = (order.planned_date - site_today(order.site)).days
+    if days <= EARLY_START_DAYS or "start" in moves_held(order):
+        return ""
+    return f"{order.number} is planned for {order.planned_date:%d %b %Y}, {days} days from now: start anyway?"
+
+
 def lift_rows(figures: lifting.LiftFigures) -> list[tuple[str, str]]:
-    """The lifting figures as (label, value) pairs in kg and lb, as the page and the PDF show them."""
+    """The lifting figures as (label, value) pairs in kg and lb, as the page and the PDF show them: a cell / fixture
+    mass not entered is said to be, and the load then to be the mirror alone; an entered 0 is said to be entered."""
+    if figures.fixture_not_entered:
+        fixture, alone = "not entered", ", the mirror alone"
+    elif figures.fixture_kg == 0:
+        fixture, alone = "0 kg, entered (nothing lifted with the mirror)", ""
+    else:
+        fixture, alone = f"{figures.fixture_kg:,.1f} kg ({figures.fixture_kg / 0.45359237:,.1f} lb)", ""
     rows = [
         ("Mirror mass", f"{figures.mirror_kg:,.1f} kg ({figures.mirror_kg / 0.45359237:,.1f} lb)"),
-        ("Cell / fixture mass", f"{figures.fixture_kg:,.1f} kg ({figures.fixture_kg / 0.45359237:,.1f} lb)"),
-        ("Total suspended load", f"{figures.total_kg:,.1f} kg ({figures.total_lb:,.1f} lb)"),
+        ("Cell / fixture mass", fixture),
+        ("Total suspended load", f"{figures.total_kg:,.1f} kg ({figures.total_lb:,.1f} lb){alone}"),
         ("Sling legs rigged / taken as bearing", f"{figures.legs_rigged} / {figures.legs_bearing}"),
         ("Leg angle from horizontal", f"{figures.angle_deg:g} deg (load factor {figures.load_factor:.3f})"),
         ("Tension per bearing leg", f"{figures.leg_tension_kg:,.1f} kg ({figures.leg_tension_lb:,.1f} lb)"),
@@ -629,7 +799,10 @@ def sheet(order: WorkOrder, url: str) -> sheet_.Sheet:
     lines = checklist(order, points)
 
     def ticks(checked: list[ChecklistLine]) -> tuple[sheet_.SheetTick, ...]:  # as the page shows the finished work
-        return tuple(sheet_.SheetTick(line.ticked, line.note) for line in checked) if finished else ()
+        if not finished:
+            return ()
+        notes = finished_line_notes(order, checked)
+        return tuple(sheet_.SheetTick(line.ticked, note) for line, note in zip(checked, notes, strict=True))
 
     def where(subsystem) -> str:  # a subsystem as the sheet names it: with its telescope when there are several
         return f"{subsystem.telescope.name}: {subsystem.name}" if len(telescopes) > 1 else subsystem.name
@@ -665,9 +838,11 @@ def sheet(order: WorkOrder, url: str) -> sheet_.Sheet:
         step_ticks=ticks(lines.steps),
         steps_warning=lockout_step_warning(order),
         steps_note=lines.steps_note,
+        standing_notes=standing_notes(order),
         parts_unregistered=tuple(parts_unregistered(order)),
         parts=tuple(
-            sheet_.SheetPart(u.part.name, u.part.part_number, u.quantity_planned, u.part.unit, used=u.quantity_used)
+            sheet_.SheetPart(u.part.name, u.part.part_number, u.quantity_planned, u.part.unit, used=u.quantity_used,
+                             short=u.quantity_short)
             for u in order.part_uses.select_related("part")
         ),
         tools=tuple(order.tool_list),
@@ -690,6 +865,8 @@ def sheet(order: WorkOrder, url: str) -> sheet_.Sheet:
         checked_by=person(order.countersigned_by),
         checked_on=order.countersigned_at.astimezone(zone).date() if order.countersigned_at else None,
         confirmations=checklist_record(order, points) if finished else (),
+        crew=tuple(order.crew) if finished and order.crew is not None else None,
+        cleanings=tuple(cleanings_at_finish(order)),
     )
 
 

@@ -9,6 +9,7 @@ from __future__ import annotations
 import datetime as dt
 import graphlib
 import heapq
+import math
 from collections import Counter
 from collections.abc import Collection, Sequence
 from dataclasses import dataclass
@@ -28,10 +29,29 @@ from observatory_ops.planning.services import site_recompute, site_today
 from observatory_ops.registry.catalogue import RELEASE
 from observatory_ops.registry.models import Site, Subsystem
 
-from .cautions import HAZARDS, ISOLATION_HAZARDS, needs_isolation
+from .cautions import (
+    HAZARDS,
+    ISOLATION_HAZARDS,
+    ISOLATION_UNTICKED,
+    ISOLATION_UNTICKED_FINDINGS,
+    ISOLATION_UNTICKED_REQUIRED,
+    needs_isolation,
+)
 from .lifecycle import TRANSITIONS
 from .models import ChecklistTick, Part, PartUse, RequiredReading, State, WorkOrder, WorkOrderItem
-from .selectors import hazards_missing, hazards_of, isolation_points, latest_ticks, moves_held, unticked_lines
+from .selectors import (
+    hazards_missing,
+    hazards_of,
+    isolation_lines,
+    isolation_points,
+    latest_ticks,
+    lift_inputs,
+    moves_held,
+    unticked_lines,
+)
+
+#: The longest name the finish form takes for one of the crew (names are separated by commas).
+CREW_NAME_MAX = 80
 
 LOCKOUT_STEP = (
     "Isolate, lock and tag every energy source listed under 'Energy isolation points'; release stored "
@@ -317,6 +337,8 @@ def work_order_move(order: WorkOrder, action: str, by, reason: str = "") -> Work
         fields["issued_at"] = now
     elif action == "start":
         fields["started_at"] = now
+        if order.lift_inputs:  # the cell mass it starts with stays its record, whatever the mirror's says later
+            fields["lift_inputs"] = lift_inputs(order)
     elif action == "countersign":
         if order.finished_by_id == by.pk:
             raise Refused("a second person must countersign: you finished this work order yourself")
@@ -395,6 +417,8 @@ def work_order_finish(
     cleanings: dict[int, str] | None = None,
     confirmed_hazards: Collection[str] = (),
     work_done_on: dt.date | None = None,
+    isolation_answer: str = "",
+    crew: Sequence[str] = (),
 ) -> WorkOrder:
     """Record the work: service records for every item, readings, parts used; reset plans; recompute.
 
@@ -409,16 +433,27 @@ def work_order_finish(
 
     ``readings`` maps RequiredReading id -> value (all are required; a value beyond its limit is recorded as
     measured, and the record flags it); ``parts_used`` maps PartUse id -> quantity used (default: as
-    planned). ``confirmed_unticked`` holds the words of the checklist lines (isolation points and steps)
-    that the person confirmed were done or did not apply although nobody ticked them; every line not
-    ticked when the work is finished must be among them, and the order keeps the list
+    planned). A part used beyond what the parts register holds is recorded as used all the same (the work was
+    done): the register is brought to zero, never below, and the difference kept on the order's part line
+    (``PartUse.quantity_short``) for the site engineer to count the stock (``part_count_record``).
+
+    ``confirmed_unticked`` holds the words of the checklist lines (isolation points and steps) that the person
+    confirmed although nobody ticked them; every line not ticked when the work is finished must be among them.
+    The lines of the energy isolation (the lockout step and the isolation points, ``selectors.isolation_lines``)
+    are not confirmed with the others: ``isolation_answer`` must say, on its own, which of
+    ``cautions.ISOLATION_UNTICKED`` is true (isolated, no isolation needed, not isolated), and the findings must say
+    why; the order keeps those lines and the answer (``isolation_unticked_at_finish``,
+    ``isolation_confirmed_at_finish``), and the other lines, confirmed as done or not applicable
     (``unticked_at_finish``). ``confirmed_hazards`` holds the codes of the hazards its subsystems gained
     after it was made (``selectors.hazards_missing``) that the person confirmed were controlled or did not
     arise; every one must be among them, the findings must say how, and the order keeps the list
-    (``hazards_confirmed_at_finish``). Refused with a reason, changing nothing, when a reading is missing, a
-    quantity is negative, the day the work was done is out of bounds, stock would go below zero, an unticked
-    line or a hazard the order lacks was not confirmed, or the order is no longer underway (``AlreadyFinished``
-    when it was finished meanwhile).
+    (``hazards_confirmed_at_finish``). ``crew`` names who did the work with the person finishing (kept as
+    ``crew``, printed on the paper's crew lines).
+
+    Refused with a reason, changing nothing, when a reading is missing, a quantity is not a number of 0 or more,
+    the day the work was done is out of bounds, an unticked line or a hazard the order lacks was not confirmed,
+    an unticked isolation has no answer or no findings, a crew name is too long, or the order is no longer
+    underway (``AlreadyFinished`` when it was finished meanwhile).
     """
     from observatory_ops.mirrors.models import Mirror  # mirrors builds on work orders
     from observatory_ops.mirrors.services import cleaning_log, measurement_from_reading
@@ -438,8 +473,17 @@ def work_order_finish(
         if problem:
             raise Refused(f"{problem} ({r.subsystem.name})")
     parts_used = parts_used or {}
-    if any(q < 0 for q in parts_used.values()):
-        raise Refused("a quantity of parts used cannot be negative")
+    uses = list(order.part_uses.select_related("part"))
+    for use in uses:
+        quantity = parts_used.get(use.pk, use.quantity_planned)
+        if not isinstance(quantity, int | float) or not math.isfinite(quantity) or quantity < 0:
+            raise Refused(f"{use.part.name} used: enter a number of 0 or more, not {quantity!r}")
+    if isinstance(crew, str):  # one string would be read as a name per character
+        raise ValueError("crew must be a sequence of names, not a single string")
+    crew = [name.strip() for name in crew if name.strip()]
+    if too_long := [name for name in crew if len(name) > CREW_NAME_MAX]:
+        raise Refused(f"crew: {too_long[0][:40]!r}... is longer than {CREW_NAME_MAX} characters; "
+                      "separate the names with commas")
     site = order.site
     today = site_today(site)
     day = work_done_on or today
@@ -475,17 +519,29 @@ def work_order_finish(
             )
         # Read once the order is claimed: no tick can be recorded or taken back after this point.
         unticked = unticked_lines(WorkOrder.objects.select_related("site").get(pk=order.pk))
-        unconfirmed = [line for line in unticked if line.text not in set(confirmed_unticked)]
+        isolation = isolation_lines(unticked)
+        others = [line for line in unticked if line not in isolation]
+        seen = set(confirmed_unticked)
+        answered = isolation_answer in ISOLATION_UNTICKED and all(line.text in seen for line in isolation)
+        if isolation and not answered:
+            raise Refused(ISOLATION_UNTICKED_REQUIRED.format(
+                lines="; ".join(f"{line.label.lower()} ({line.text})" for line in isolation)
+            ))
+        if isolation and not findings.strip():
+            raise Refused(ISOLATION_UNTICKED_FINDINGS)
+        unconfirmed = [line for line in others if line.text not in seen]
         if unconfirmed:
             raise Refused(
                 "these checklist lines are not ticked: "
                 + "; ".join(f"{line.label.lower()} ({line.text})" for line in unconfirmed)
                 + ". Tick them on the work order page, or confirm that they were done or did not apply"
             )
-        if unticked:
-            WorkOrder.objects.filter(pk=order.pk).update(
-                unticked_at_finish=[f"{line.label}: {line.text}" for line in unticked]
-            )
+        WorkOrder.objects.filter(pk=order.pk).update(
+            unticked_at_finish=[f"{line.label}: {line.text}" for line in others],
+            isolation_unticked_at_finish=[f"{line.label}: {line.text}" for line in isolation],
+            isolation_confirmed_at_finish=isolation_answer if isolation else "",
+            crew=crew,
+        )
         _record_history(order, by, "finish")
         share = actual_hours / max(len(items), 1)
         for item in items:
@@ -503,19 +559,20 @@ def work_order_finish(
             measurement_from_reading(r.reading)  # a mirror's reflectance also reaches its decline fit
         on_order = {item.subsystem_id for item in items}
         for mirror in Mirror.objects.filter(pk__in=list(cleanings or {}), subsystem_id__in=on_order):
-            cleaning_log(mirror, by, day, cleanings[mirror.pk], note=f"on {order.number}")
-        for use in order.part_uses.all():
+            cleaning_log(mirror, by, day, cleanings[mirror.pk], note=f"on {order.number}", work_order=order)
+        for use in uses:
             quantity = parts_used.get(use.pk, use.quantity_planned)
             part = Part.objects.select_for_update().get(pk=use.part_id)
-            if part.quantity_on_hand < quantity:
-                raise Refused(
-                    f"only {part.quantity_on_hand:g} {part.unit} of {part.name} in stock, "
-                    f"{quantity:g} used: correct the stock first"
-                )
-            part.quantity_on_hand -= quantity
+            # The register is short when the work used more than it held: the work was done, so it is recorded,
+            # the register goes to zero (a stock is never negative) and the difference waits for a count. Rounded,
+            # so that sums of decimal quantities (0.1 + 0.2 m of cable) leave no shortfall of a rounding error.
+            short = round(max(quantity - part.quantity_on_hand, 0.0), 6)
+            part.quantity_on_hand = max(part.quantity_on_hand - quantity, 0.0)
+            part._history_user = by
             part.save(update_fields=["quantity_on_hand"])
-            use.quantity_used = quantity
-            use.save(update_fields=["quantity_used"])
+            use.quantity_used, use.quantity_short = quantity, short
+            use._history_user = by
+            use.save(update_fields=["quantity_used", "quantity_short"])
         site_recompute(site)
     order.refresh_from_db()
     return order
@@ -689,8 +746,40 @@ def part_add(order: WorkOrder, part: Part, quantity: float) -> PartUse:
     return PartUse.objects.create(work_order=order, part=part, quantity_planned=quantity)
 
 
+def part_count_record(part: Part, counted: float, by) -> list[PartUse]:
+    """The stock of ``part`` as counted on the shelf: the register is set to it, and the shortfalls waiting for a
+    count (finished work that used more than the register held, ``PartUse.quantity_short``) are marked counted.
+    Returns the part lines marked. An engineer's; refused, changing nothing, for a count that is not a number of 0 or
+    more or a part with no shortfall waiting (other corrections of the register are made in the admin)."""
+    if not has_role(by, ENGINEER):
+        raise Refused(f"recording a count of the stock needs the {ENGINEER} role or above")
+    if not isinstance(counted, int | float) or not math.isfinite(counted) or counted < 0:
+        raise Refused(f"counted {part.name}: enter the number on the shelf, 0 or more")
+    with transaction.atomic():
+        current = Part.objects.select_for_update().get(pk=part.pk)
+        waiting = list(PartUse.objects.filter(part=current, quantity_short__gt=0, short_counted_at__isnull=True))
+        if not waiting:
+            raise Refused(f"no shortfall of {current.name} is waiting for a count; correct the register in the admin")
+        now = timezone.now()
+        current.quantity_on_hand = counted
+        current._history_user = by
+        current._change_reason = "counted after a shortfall"
+        current.save(update_fields=["quantity_on_hand"])
+        for use in waiting:  # one by one, so the audit trail records each
+            use.short_counted_at = now
+            use._history_user = by
+            use.save(update_fields=["short_counted_at"])
+    part.refresh_from_db()
+    return waiting
+
+
 def lift_set(order: WorkOrder, inputs: dict) -> lifting.LiftFigures:
-    """Store the lifting inputs after checking them with ``calc.lifting`` (ValueError names the problem)."""
+    """Store the lifting inputs after checking them with ``calc.lifting`` (ValueError names the problem). Refused
+    once the order is finished or withdrawn: its record stays as it was. Underway, the figures may still be corrected
+    (the slings rigged are not those planned)."""
+    if order.state in (State.FINISHED, State.COUNTERSIGNED, State.WITHDRAWN):
+        raise Refused(f"{order.number} is {order.get_state_display()}: its record stays as it was, its lifting "
+                      "figures included")
     figures = lifting.lift_figures(**inputs)
     order.lift_inputs = inputs
     hazards = set(order.hazards) | {"suspended_load"}

@@ -25,16 +25,18 @@ class SheetCaution:
 @dataclass(frozen=True)
 class SheetPart:
     """A spare part the work needs: the ``quantity`` planned, and the quantity ``used`` once the work is finished
-    (None before: the sheet leaves a box to write it in)."""
+    (None before: the sheet leaves a box to write it in), of which ``short`` were more than the parts register held
+    (it was brought to zero; the site engineer counts the stock)."""
 
     name: str
     part_number: str
     quantity: float
     unit: str = "each"
     used: float | None = None
+    short: float = 0
 
     def __post_init__(self) -> None:
-        for what, value in (("quantity", self.quantity), ("quantity used", self.used)):
+        for what, value in (("quantity", self.quantity), ("quantity used", self.used), ("shortfall", self.short)):
             if value is not None and (not math.isfinite(value) or value < 0):
                 raise ValueError(f"part {self.name!r}: {what} must be a number of 0 or more, got {value!r}")
 
@@ -86,6 +88,7 @@ class Sheet:
     ``isolation_points`` are the energy isolation points of the telescope for the lockout step; with
     ``isolation_needed`` False the work's hazards need nothing isolated and the sheet says so.
     ``steps_note`` (how the steps of several plans were merged, before the work starts) is printed above the steps.
+    ``standing_notes`` (what to keep in mind throughout the work, not steps to tick) are printed above the steps.
     ``step_ticks`` and ``point_ticks`` (finished work only; otherwise empty) give, for each of ``steps`` and of
     ``isolation_points`` in turn, how it was ticked on the work order page (None for a line that is no checklist
     line, a warning among the points): a ticked line prints with its box ticked, and each note beside its line.
@@ -93,8 +96,12 @@ class Sheet:
     ``actual_hours`` and ``work_done_on`` (finished work) fill their boxes by the sign-off; without them the boxes
     are left to write in. ``rigging_check`` adds a sign-off line for the competent person who checks the rigging
     of a suspended load.
-    ``confirmations`` (finished work only) are the checklist lines ticked on the work order page, each
-    with who ticked it and when, then those nobody ticked, with who confirmed they were done or did not apply.
+    ``confirmations`` (finished work only) are what the person finishing confirmed beyond the notes beside the
+    checklist lines (``step_ticks``, ``point_ticks``: who ticked each and when, or what was confirmed for a line
+    nobody ticked): the answer for an energy isolation nobody ticked, the hazards the order lacked, and ticks on lines
+    no longer on the order. ``cleanings`` (finished work on mirrors) say how each mirror was cleaned, if at all.
+    ``crew`` (finished work) names who did the work with the one who finished it, one to a crew line; None leaves
+    the crew lines blank to write in.
     A reading whose ``beyond_limit`` is set is flagged in the table and listed under it.
     ``url`` is the work order's address, printed as a QR code.
     """
@@ -134,15 +141,18 @@ class Sheet:
     out_of_service: tuple[tuple[str, ...], ...] = ()
     steps_warning: str = ""
     steps_note: str = ""
+    standing_notes: tuple[str, ...] = ()
     step_ticks: tuple[SheetTick | None, ...] = ()
     point_ticks: tuple[SheetTick | None, ...] = ()
     work_done_on: date | None = None
     rigging_check: bool = False
     parts_unregistered: tuple[str, ...] = ()  # "2 x Brake pad set": named by the plans, not in the parts register
+    crew: tuple[str, ...] | None = None
+    cleanings: tuple[str, ...] = ()
 
     def __post_init__(self) -> None:
         for name in ("subsystems", "why", "isolation_points", "steps", "tools", "confirmations", "hazards_notice",
-                     "parts_unregistered"):
+                     "parts_unregistered", "crew", "cleanings", "standing_notes"):
             if isinstance(getattr(self, name), str):
                 raise ValueError(f"{name} must be a sequence of lines, not a single string")
         if not self.number.strip():

@@ -10,6 +10,7 @@ from django_tables2 import RequestConfig
 
 from observatory_ops.access.decorators import requires
 from observatory_ops.access.roles import ENGINEER, TECHNICIAN, VIEWER, has_role
+from observatory_ops.archive.history import person
 from observatory_ops.planning.models import ServicePlan
 from observatory_ops.planning.services import site_today
 from observatory_ops.registry.catalogue import RELEASE
@@ -18,13 +19,19 @@ from observatory_ops.registry.models import Site
 from . import pdf, selectors, services
 from .cautions import (
     HAZARDS,
+    ISOLATION_UNTICKED,
+    ISOLATION_UNTICKED_QUESTION,
+    ISOLATION_UNTICKED_RECORD,
+    ISOLATION_UNTICKED_TITLE,
     NO_ISOLATION_NEEDED,
+    NOT_ISOLATED,
+    NOT_ISOLATED_REVIEW,
     PARTS_UNREGISTERED,
     PRECEDENCE_STATEMENT,
     cautions_for,
     needs_isolation,
 )
-from .forms import AdHocForm, FinishForm, LiftForm, PartAddForm, WithdrawForm, WorkOrderEditForm
+from .forms import AdHocForm, FinishForm, LiftForm, PartAddForm, PartCountForm, WithdrawForm, WorkOrderEditForm
 from .lifecycle import TRANSITIONS, available
 from .models import Part, State, WorkOrder
 from .tables import WorkOrderFilter, WorkOrderTable
@@ -132,8 +139,11 @@ def work_order_detail(request, pk):
             "hazards_notice": selectors.hazards_notice(order, missing),
             "out_notices": selectors.telescope_out_notices(order),
             "hazards_confirmed": [HAZARDS[h] for h in order.hazards_confirmed_at_finish],
+            "isolation_record": _isolation_record(order),
+            "cleanings": selectors.cleanings_at_finish(order),
             "can_update_hazards": bool(missing) and editable,
             "lockout_step_warning": selectors.lockout_step_warning(order),
+            "standing_notes": selectors.standing_notes(order),
             "parts_unregistered": selectors.parts_unregistered(order),
             "parts_unregistered_text": PARTS_UNREGISTERED,
             "items": order.items.select_related("subsystem", "plan"),
@@ -155,6 +165,7 @@ def work_order_detail(request, pk):
             "lift": figures,
             "lift_rows": selectors.lift_rows(figures) if figures else [],
             "lift_error": lift_error,
+            "cell_record": selectors.lift_cell_record(order) if figures else "",
             # An order behind its subsystems' hazards is neither issued nor started (services.work_order_move).
             "moves": [t for t in available(order.state) if t.action != "finish" and has_role(request.user, t.role)
                       and not (missing and t.action in ("issue", "start")) and t.action not in held
@@ -170,6 +181,18 @@ def work_order_detail(request, pk):
             "history_pk": order.pk,
         },
     )
+
+
+def _isolation_record(order: WorkOrder) -> dict | None:
+    """What the person finishing answered for an energy isolation nobody ticked, as the order's record shows it."""
+    answer = order.isolation_confirmed_at_finish
+    if answer not in ISOLATION_UNTICKED:
+        return None
+    return {
+        "said": ISOLATION_UNTICKED_RECORD.format(person=person(order.finished_by), answer=ISOLATION_UNTICKED[answer]),
+        "lines": order.isolation_unticked_at_finish,
+        "review": NOT_ISOLATED_REVIEW if answer == NOT_ISOLATED else "",
+    }
 
 
 @requires(ENGINEER)
@@ -220,9 +243,14 @@ def work_order_hazards_update(request, pk):
 
 @requires(TECHNICIAN)
 def work_order_move(request, pk, action):
+    """Issue, start, countersign or withdraw (the buttons of the order's page). A start more than a week before the
+    planned date is asked first, on a page of its own whose button posts here again with ``early=confirmed``."""
     if request.method != "POST":
         return HttpResponseNotAllowed(["POST"])
     order = _order(pk)
+    if action == "start" and request.POST.get("early") != "confirmed":
+        if question := selectors.early_start_question(order):
+            return render(request, "workorders/start_early.html", {"order": order, "question": question})
     try:
         services.work_order_move(order, action, request.user, reason=request.POST.get("reason", ""))
     except services.Refused as exc:
@@ -285,16 +313,21 @@ def work_order_finish(request, pk):
             messages.info(request, f"{order.number} is {order.get_state_display()}: there is nothing to finish.")
         return redirect(order)
     unticked = selectors.unticked_lines(order)
+    isolation = selectors.isolation_lines(unticked)  # answered for on their own, not with the other lines
+    others = [line for line in unticked if line not in isolation]
     lacking = selectors.hazards_missing(order)
-    form = FinishForm(request.POST or None, order=order, unticked=unticked, lacking_hazards=lacking)
+    form = FinishForm(
+        request.POST or None, order=order, unticked=others, isolation_unticked=isolation, lacking_hazards=lacking
+    )
     flags: dict[str, str] = {}
     flagged: list[str] = []
     if request.method == "POST" and form.is_valid():
         flags = form.beyond_limits()
         flagged = sorted(f"{name}={form.cleaned_data[name]!r}" for name in flags)
         confirmed = form.cleaned_data.get("confirm_unticked", False)
+        isolation_answer = form.cleaned_data.get("isolation_answer", "")
         hazards_confirmed = form.cleaned_data.get("confirm_hazards", False)
-        if unticked and not confirmed:
+        if others and not confirmed:
             form.add_error(
                 "confirm_unticked", "Tick the lines on the work order page, or confirm here that they were done "
                 "or did not apply."
@@ -311,10 +344,15 @@ def work_order_finish(request, pk):
                 services.work_order_finish(
                     order, request.user, form.cleaned_data["actual_hours"], form.cleaned_data["findings"],
                     form.readings(), form.parts(),
-                    confirmed_unticked=request.POST.getlist("unticked") if confirmed else (),
+                    confirmed_unticked=[
+                        *(request.POST.getlist("unticked") if confirmed else ()),
+                        *(request.POST.getlist("isolation_unticked") if isolation_answer else ()),
+                    ],
                     cleanings=form.cleanings(),
                     confirmed_hazards=request.POST.getlist("lacking_hazard") if hazards_confirmed else (),
                     work_done_on=form.cleaned_data["work_done_on"],
+                    isolation_answer=isolation_answer,
+                    crew=form.cleaned_data["crew"],
                 )
             except services.Refused as exc:
                 if isinstance(exc, services.AlreadyFinished) and exc.by_you:  # pressed twice at once
@@ -323,10 +361,12 @@ def work_order_finish(request, pk):
                 form.add_error(None, str(exc))
             else:
                 done = [_finished(order)]
-                if unticked:
+                if isolation:
+                    done.append("Your answer for the energy isolation nobody ticked is on the record.")
+                if others:
                     done.append(
-                        "1 unticked line confirmed as done or not applicable is on the record." if len(unticked) == 1
-                        else f"{len(unticked)} unticked lines confirmed as done or not applicable are on the record."
+                        "1 unticked line confirmed as done or not applicable is on the record." if len(others) == 1
+                        else f"{len(others)} unticked lines confirmed as done or not applicable are on the record."
                     )
                 if lacking:
                     done.append(
@@ -338,6 +378,8 @@ def work_order_finish(request, pk):
                         "1 reading beyond its limit is flagged on the record." if len(flags) == 1
                         else f"{len(flags)} readings beyond their limit are flagged on the record."
                     )
+                if short := [use for use in order.part_uses.select_related("part") if use.quantity_short]:
+                    done.append(_beyond_register(short))
                 phase = selectors.recoat_phase(order)
                 if phase is not None and phase.next_order is not None:
                     done.append(_next_phase(phase.next_order, phase.mirror_id))
@@ -345,11 +387,27 @@ def work_order_finish(request, pk):
                     done += phase.mirror_out.notice()[1:]  # the telescope stays locked out until the reinstall
                 messages.success(request, format_html_join(" ", "{}", ((part,) for part in done)))
                 return redirect(order)
-    fields = [(form[name], flags.get(name, "")) for name in form.fields if not name.startswith("confirm_")]
+    asked_apart = ("confirm_unticked", "confirm_hazards", "isolation_answer")
+    fields = [(form[name], flags.get(name, "")) for name in form.fields if name not in asked_apart]
     return render(
         request, "workorders/finish.html",
-        {"form": form, "order": order, "fields": fields, "unticked": unticked, "flagged": flagged,
+        {"form": form, "order": order, "fields": fields, "unticked": unticked, "others": others,
+         "isolation": isolation, "isolation_title": ISOLATION_UNTICKED_TITLE,
+         "isolation_question": ISOLATION_UNTICKED_QUESTION, "flagged": flagged,
          "lacking": lacking, "lacking_cautions": cautions_for(lacking), "precedence": PRECEDENCE_STATEMENT},
+    )
+
+
+def _beyond_register(uses) -> str:
+    """What finishing did with parts used beyond what the register held."""
+    said = "; ".join(
+        f"{use.part.name}: {use.quantity_used:g} {use.part.unit} used, "
+        f"{use.quantity_used - use.quantity_short:g} in the register" for use in uses
+    )
+    return (
+        f"More parts were used than the parts register held ({said}). They are recorded as used, the register is "
+        "brought to zero, and the shortfall is marked on this order and on the parts register for the site engineer "
+        "to count the stock and correct it."
     )
 
 
@@ -394,24 +452,31 @@ def _next_phase(order: WorkOrder, mirror_id: int):
 @requires(ENGINEER)
 def work_order_lift(request, pk):
     order = _order(pk)
-    form = LiftForm(request.POST or None, initial=order.lift_inputs or None)
+    form = LiftForm(request.POST or None, initial=selectors.lift_inputs(order))
     if request.method == "POST" and form.is_valid():
         inputs = {k: v for k, v in form.cleaned_data.items() if v is not None}
         try:
             services.lift_set(order, inputs)
-        except ValueError as exc:
+        except (ValueError, services.Refused) as exc:
             form.add_error(None, str(exc))
         else:
             saved = "Lifting figures saved; the suspended-load caution is on the work order."
             if held := selectors.lift_refusal(order):  # saved all the same: the engineer corrects them next
                 messages.warning(request, f"{saved} They stop it being issued or started: {held}.")
+            elif held := selectors.lift_refusal(order, "start"):
+                messages.warning(request, f"{saved} It may be issued, but they stop the work being started: {held}.")
             else:
                 messages.success(request, saved)
             return redirect(order)
+    try:
+        figures = selectors.lift(order)
+    except ValueError:  # not valid as stored: the order's page names the problem, and saving the form names it
+        figures = None
     return render(
         request, "workorders/lift.html",
         {"form": form, "order": order, "cautions": cautions_for(["suspended_load"]),
-         "precedence": PRECEDENCE_STATEMENT},
+         "precedence": PRECEDENCE_STATEMENT, "lift": figures,
+         "cell_record": selectors.lift_cell_record(order) if figures else ""},
     )
 
 
@@ -467,4 +532,42 @@ def work_order_batch_pdf(request, slug):
 @requires(VIEWER)
 def part_list(request, slug):
     site = get_object_or_404(Site, slug=slug)
-    return render(request, "workorders/parts.html", {"site": site, "parts": Part.objects.filter(site=site)})
+    return _part_list(request, site)
+
+
+def _part_list(request, site: Site, refused: tuple[int, PartCountForm] | None = None):
+    """The parts register, with the shortfalls waiting for a count; ``refused`` is a count just refused (the part's
+    id and its form, with the message), shown at its part."""
+    to_count = [
+        (part, uses, refused[1] if refused and refused[0] == part.pk else _count_form(part))
+        for part, uses in selectors.parts_to_count(site)
+    ]
+    return render(
+        request, "workorders/parts.html",
+        {"site": site, "parts": Part.objects.filter(site=site), "to_count": to_count,
+         "counting": {part.pk for part, _, _ in to_count}, "can_count": has_role(request.user, ENGINEER)},
+    )
+
+
+def _count_form(part: Part, data=None) -> PartCountForm:
+    return PartCountForm(data, part=part, auto_id=f"count-{part.pk}-%s")  # ids of their own: one form a part
+
+
+@requires(ENGINEER)
+def part_count(request, slug, pk):
+    """The engineer's count of a part's stock after a shortfall: the register is set to it."""
+    if request.method != "POST":
+        return HttpResponseNotAllowed(["POST"])
+    site = get_object_or_404(Site, slug=slug)
+    part = get_object_or_404(Part, site=site, pk=pk)
+    form = _count_form(part, request.POST)
+    if form.is_valid():
+        try:
+            services.part_count_record(part, form.cleaned_data["counted"], request.user)
+        except services.Refused as exc:
+            messages.error(request, f"Not recorded: {exc}.")
+        else:
+            messages.success(request, f"{part.name}: the register now holds {part.quantity_on_hand:g} {part.unit}, "
+                                      "as counted; its shortfall is marked counted.")
+            return redirect("part-list", slug=site.slug)
+    return _part_list(request, site, refused=(part.pk, form))

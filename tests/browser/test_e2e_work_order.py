@@ -154,7 +154,7 @@ def test_two_overdue_items_go_from_the_due_list_through_a_work_order_to_counters
     page.get_by_role("link", name="Finish and record").click()
     expect(page.get_by_role("heading", level=1)).to_contain_text(f"Finish {order.number}")
     page.get_by_label("Actual hours").fill("2.5")
-    page.get_by_label("Findings").fill(HOSTILE_FINDINGS)
+    page.get_by_label("Findings:", exact=True).fill(HOSTILE_FINDINGS)  # the isolation answers speak of findings too
     required = list(order.required_readings.select_related("subsystem"))
     assert required, "a plan with a reading trigger must make the finish form ask for the reading"
     values = {}
@@ -163,15 +163,22 @@ def test_two_overdue_items_go_from_the_due_list_through_a_work_order_to_counters
         page.get_by_label(f"{r.quantity_label} on {r.subsystem.name} ({r.unit})").fill(str(values[r.pk]))
     for cleaning in page.locator("select[name^=cleaned_]").all():  # asked with no default on a mirror's order
         cleaning.select_option("none")
-    # Nothing was ticked on the work order page: the form lists every line, and finishing needs the confirmation.
-    from observatory_ops.workorders.selectors import unticked_lines
+    # Nothing was ticked on the work order page: the form lists every line, and finishing needs the confirmations:
+    # the energy isolation's on its own (OSHA 29 CFR 1910.147), the box for the other lines.
+    from observatory_ops.workorders.cautions import ISOLATION_UNTICKED
+    from observatory_ops.workorders.selectors import isolation_lines, unticked_lines
 
     open_lines = unticked_lines(order)
+    others = [line for line in open_lines if line not in isolation_lines(open_lines)]
     expect(page.locator("ul.unticked li")).to_have_count(len(open_lines))
+    expect(page.locator("ul.unticked.isolation li")).to_have_count(len(open_lines) - len(others))
+    # The isolation's answer is required in the browser itself (no default); the box for the others on the server.
+    page.get_by_label(ISOLATION_UNTICKED["isolated"]).check()
     page.get_by_role("button", name="Finish and record").click()
     expect(page.locator(".errorlist")).to_contain_text("confirm here that they were done or did not apply")
     assert WorkOrder.objects.get(pk=order.pk).state == State.UNDERWAY
-    page.get_by_label("I confirm the unticked lines were done or did not apply").check()
+    expect(page.get_by_label(ISOLATION_UNTICKED["isolated"])).to_be_checked()  # kept on the page sent back
+    page.get_by_label("I confirm the other unticked lines were done or did not apply").check()
     _shot(page, "3_finish_form")
     page.get_by_role("button", name="Finish and record").click()
 
@@ -181,8 +188,9 @@ def test_two_overdue_items_go_from_the_due_list_through_a_work_order_to_counters
     )
     expect(page.locator(".messages")).to_contain_text("2 service plans restarted, counting from that day")
     _expect_state(page, State.FINISHED.label)
-    expect(page.get_by_text(f"Finished with {len(open_lines)} checklist line{'' if len(open_lines) == 1 else 's'} "
+    expect(page.get_by_text(f"Finished with {len(others)} checklist line{'' if len(others) == 1 else 's'} "
                             "not ticked")).to_be_visible()
+    expect(page.locator("#isolation-confirmed")).to_contain_text(ISOLATION_UNTICKED["isolated"])
     findings = page.locator("div.panel", has_text=HOSTILE_FINDINGS)
     expect(findings).to_have_count(1)
     expect(findings.locator("b, i")).to_have_count(0)

@@ -3,19 +3,9 @@ from pathlib import Path
 
 from django.core.management.base import BaseCommand, CommandError
 
-from observatory_ops.calc.coating import MATERIALS, Layer, coating_curve
+from observatory_ops.calc.coating import MATERIALS, coating_curve
 from observatory_ops.logbook.quantities import reflectance_text
-from observatory_ops.mirrors import response_csv
-
-
-def _layer(text: str) -> Layer:
-    material, sep, thickness = text.partition(":")
-    if not sep:
-        raise CommandError(f"--layer must be MATERIAL:THICKNESS_NM, e.g. SiO2:100, not {text!r}")
-    try:
-        return Layer(material, float(thickness))
-    except ValueError:
-        raise CommandError(f"--layer {text!r}: the thickness must be a number of nanometres") from None
+from observatory_ops.mirrors import layers_text, response_csv
 
 
 class Command(BaseCommand):
@@ -23,8 +13,8 @@ class Command(BaseCommand):
 
     def add_arguments(self, parser):
         parser.add_argument("--metal", required=True, help="al or ag")
-        parser.add_argument("--layer", action="append", default=[], help=f"MATERIAL:NM, from the metal outward; "
-                            f"materials: {', '.join(MATERIALS)}")
+        parser.add_argument("--layer", action="append", default=[], help=f"overcoats as {layers_text.FORMAT}, or "
+                            f"--layer once per layer; materials: {', '.join(MATERIALS)}")
         parser.add_argument("--from", dest="from_nm", type=float, default=400.0)
         parser.add_argument("--to", dest="to_nm", type=float, default=1000.0)
         parser.add_argument("--step", dest="step_nm", type=float, default=10.0)
@@ -32,7 +22,10 @@ class Command(BaseCommand):
         parser.add_argument("--json", action="store_true", dest="as_json")
 
     def handle(self, *args, **o):
-        layers = [_layer(text) for text in o["layer"]]
+        try:
+            layers = [layer for text in o["layer"] for layer in layers_text.parse(text)]
+        except ValueError as exc:
+            raise CommandError(f"--layer: {exc}") from None
         try:
             response = response_csv.parse(Path(o["response"]).read_bytes()) if o["response"] else None
             result = coating_curve(o["metal"], layers, o["from_nm"], o["to_nm"], o["step_nm"], response=response)

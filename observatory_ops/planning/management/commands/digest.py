@@ -19,7 +19,15 @@ class Command(BaseCommand):
             sites = [s for s in sites if s.slug == site]
             if not sites:
                 raise CommandError(f"no site with slug {site!r}")
+        printed = digest.mail_is_printed()
         for target in sites:
             sent = digest.due_digest_send(target)
-            self.stdout.write(f"{target.name}: " + (f"sent to {sent} address(es)" if sent else
-                              "nothing sent (nothing due, already sent today, or nobody with an e-mail address)"))
+            if not sent:
+                outcome = "nothing sent (nothing due, already sent today, or nobody with an e-mail address)"
+            elif printed:
+                outcome = (f"printed to the log, not sent, for {sent} address(es): EMAIL_BACKEND is the console "
+                           "backend (set EMAIL_BACKEND=django.core.mail.backends.smtp.EmailBackend and EMAIL_HOST "
+                           "to send)")
+            else:
+                outcome = f"sent to {sent} address(es)"
+            self.stdout.write(f"{target.name}: {outcome}")

@@ -1,10 +1,8 @@
-from django.conf import settings
 from django.core.management import call_command
 from django.core.management.base import BaseCommand, CommandError
 
 from fixtures_demo import generator
 from observatory_ops.planning import selectors
-from observatory_ops.registry.models import Site
 
 
 class Command(BaseCommand):
@@ -15,19 +13,11 @@ class Command(BaseCommand):
         parser.add_argument("--port", default="8000")
 
     def handle(self, *args, **options):
-        # The demo's logins have passwords printed in the README: never in a production database.
-        if settings.SECRET_KEY != settings.DEVELOPMENT_SECRET_KEY:
-            raise CommandError(
-                "SECRET_KEY is set, so this is a production installation: the demo creates logins whose "
-                "passwords are published in the README. Load it into a trial installation of its own."
-            )
+        # The demo's logins have passwords printed in the README: never in a database of real records.
+        refusal = generator.load_refusal()
+        if refusal:
+            raise CommandError(refusal)
         call_command("migrate", verbosity=0)
-        others = list(Site.objects.exclude(slug=generator.SITE_SLUG).values_list("name", flat=True)[:3])
-        if others:
-            raise CommandError(
-                f"this database already holds other sites ({', '.join(others)}): the demo belongs in a database "
-                "of its own; set DATABASE_URL (or OBSOPS_DATA_DIR) to another."
-            )
         logins = generator.demo_users()
         self.stdout.write("Loading the demo observatory (three years of nights; this takes a few seconds)...")
         site, created = generator.build()

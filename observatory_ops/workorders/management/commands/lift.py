@@ -18,7 +18,9 @@ class Command(BaseCommand):
         parser.add_argument("--hole-mm", type=float, default=0.0)
         parser.add_argument("--material", required=True, help=f"one of: {', '.join(DENSITY)}")
         parser.add_argument("--lightweighting", type=float, default=0.0, help="fraction of the blank removed")
-        parser.add_argument("--fixture-kg", type=float, default=0.0)
+        parser.add_argument("--fixture-kg", type=float, default=None,
+                            help="cell / fixture mass lifted with the mirror (0: none); not given, the figures are the "
+                                 "mirror alone, with a warning")
         parser.add_argument("--legs", type=int, required=True)
         parser.add_argument("--angle-deg", type=float, required=True, help="leg angle from the horizontal")
         parser.add_argument("--wll-kg", type=float, default=None, help="working load limit of one leg")
@@ -36,7 +38,7 @@ class Command(BaseCommand):
             raise CommandError(str(exc)) from None
         result = {
             "mirror_kg": round(f.mirror_kg, 3),
-            "fixture_kg": round(f.fixture_kg, 3),
+            "fixture_kg": None if f.fixture_not_entered else round(f.fixture_kg, 3),
             "total_kg": round(f.total_kg, 3),
             "total_lb": round(f.total_lb, 3),
             "legs_bearing": f.legs_bearing,

@@ -1,0 +1,145 @@
+"""Production settings read from the environment, the system checks that catch a quietly wrong one, and the
+limits that keep a background task from waiting for ever (README, Deployment)."""
+from __future__ import annotations
+
+import json
+import os
+import secrets
+import subprocess
+import sys
+from pathlib import Path
+
+import pytest
+from django.core.checks import run_checks
+
+PROJECT = Path(__file__).resolve().parent.parent
+READ = ("EMAIL_TIMEOUT", "EMAIL_USE_SSL", "EMAIL_USE_TLS", "CSRF_TRUSTED_ORIGINS", "USE_X_FORWARDED_HOST",
+        "STATIC_ROOT")
+
+
+def _environment(**variables: str | None) -> dict[str, str]:
+    """This process's environment without any variable the tests here set, then ``variables`` (None: unset)."""
+    env = {name: value for name, value in os.environ.items() if name not in READ and name != "DEBUG"}
+    env = {**env, "DJANGO_SETTINGS_MODULE": "observatory_ops.settings", **variables}
+    return {name: value for name, value in env.items() if value is not None}
+
+
+def _settings_with(**variables: str) -> dict:
+    script = ("import json; from django.conf import settings as s; "
+              f"print(json.dumps({{name: str(getattr(s, name)) for name in {READ!r}}}))")
+    run = subprocess.run([sys.executable, "-c", script], env=_environment(**variables), cwd=PROJECT,
+                         capture_output=True, text=True, check=True)
+    return json.loads(run.stdout)
+
+
+def test_the_defaults_keep_what_the_settings_were():
+    assert _settings_with() == {
+        "EMAIL_TIMEOUT": "30", "EMAIL_USE_SSL": "False", "EMAIL_USE_TLS": "False", "CSRF_TRUSTED_ORIGINS": "[]",
+        "USE_X_FORWARDED_HOST": "False", "STATIC_ROOT": str(PROJECT / "staticfiles"),
+    }
+
+
+def test_mail_and_reverse_proxy_settings_come_from_the_environment(tmp_path):
+    static = tmp_path / "var" / "static"
+    assert _settings_with(
+        EMAIL_TIMEOUT="10", EMAIL_USE_SSL="1", CSRF_TRUSTED_ORIGINS="https://observatory.example.org, https://ops.example.org",
+        USE_X_FORWARDED_HOST="1", STATIC_ROOT=str(static),
+    ) == {
+        "EMAIL_TIMEOUT": "10", "EMAIL_USE_SSL": "True", "EMAIL_USE_TLS": "False",
+        "CSRF_TRUSTED_ORIGINS": "['https://observatory.example.org', 'https://ops.example.org']",
+        "USE_X_FORWARDED_HOST": "True", "STATIC_ROOT": str(static),
+    }
+    assert static.is_dir()  # made, as the default is, for whitenoise before the first collectstatic
+
+
+def test_a_mail_timeout_of_nothing_is_refused_naming_the_variable():
+    """0 would make every socket operation fail at once rather than wait; a word is no number of seconds."""
+    for value in ("0", "thirty"):
+        run = subprocess.run([sys.executable, "-c", "from django.conf import settings; settings.EMAIL_TIMEOUT"],
+                             env=_environment(EMAIL_TIMEOUT=value), cwd=PROJECT, capture_output=True, text=True,
+                             check=False)
+        assert run.returncode != 0
+        assert f"EMAIL_TIMEOUT must be a whole number of 1 or more, not '{value}'." in run.stderr
+
+
+# --- system checks ------------------------------------------------------------------------------------
+
+
+def _mail_checks() -> list[str]:
+    return [message.id for message in run_checks(include_deployment_checks=True, tags=["mail"])]
+
+
+def test_production_with_mail_only_printed_is_warned_naming_the_variable(settings):
+    settings.DEBUG = False
+    settings.EMAIL_BACKEND = "django.core.mail.backends.console.EmailBackend"
+    (warning,) = run_checks(include_deployment_checks=True, tags=["mail"])
+    assert warning.id == "planning.W001"
+    assert "printed to the log, not sent" in warning.msg
+    assert "EMAIL_BACKEND=django.core.mail.backends.smtp.EmailBackend" in warning.hint
+    settings.EMAIL_BACKEND = "django.core.mail.backends.smtp.EmailBackend"
+    assert _mail_checks() == []
+
+
+def test_development_prints_mail_without_a_warning(settings):
+    settings.DEBUG = True
+    settings.EMAIL_BACKEND = "django.core.mail.backends.console.EmailBackend"
+    assert _mail_checks() == []
+
+
+def test_starttls_and_tls_from_the_first_byte_at_once_is_an_error(settings):
+    """Django's SMTP backend refuses the pair when it sends (so every digest would fail); the check says so
+    at `check` and `migrate` time instead."""
+    settings.EMAIL_USE_TLS = settings.EMAIL_USE_SSL = True
+    assert "planning.E001" in _mail_checks()
+    settings.EMAIL_USE_TLS = False
+    assert "planning.E001" not in _mail_checks()
+
+
+def _check_deploy(**variables: str | None) -> subprocess.CompletedProcess:
+    production = {
+        "DEBUG": "0", "SECRET_KEY": secrets.token_urlsafe(50), "ALLOWED_HOSTS": "observatory.example.org",
+        "SITE_URL": "https://observatory.example.org",
+        "EMAIL_BACKEND": "django.core.mail.backends.smtp.EmailBackend", "EMAIL_HOST": "smtp.example.org",
+    }
+    return subprocess.run([sys.executable, "manage.py", "check", "--deploy"], cwd=PROJECT, capture_output=True,
+                          text=True, env=_environment(**{**production, **variables}), check=False)
+
+
+def test_check_deploy_passes_a_production_environment_and_warns_of_mail_left_printed():
+    run = _check_deploy()
+    assert run.returncode == 0 and "System check identified no issues" in run.stdout + run.stderr
+    for unset in (None, ""):  # not in the environment file, or written there with no value
+        run = _check_deploy(EMAIL_BACKEND=unset)
+        assert run.returncode == 0 and "(planning.W001)" in run.stderr
+
+
+def test_turning_off_the_https_redirect_or_hsts_gives_djangos_warnings_not_a_failure():
+    """Both are allowed (README, Deployment: a proxy that redirects itself; HSTS off for a shared host). Django
+    still warns (security.W008, security.W004), and `check --deploy` exits 0 on warnings."""
+    run = _check_deploy(SECURE_SSL_REDIRECT="0", SECURE_HSTS_SECONDS="0")
+    assert run.returncode == 0
+    assert "(security.W008)" in run.stderr and "(security.W004)" in run.stderr
+
+
+# --- background work --------------------------------------------------------------------------------------
+
+
+def test_no_task_runs_for_ever_and_none_is_handed_out_twice_while_it_runs():
+    """The soft limit raises in the task (its transaction rolls back), the hard limit ends its process a minute
+    later; the slowest legitimate task takes seconds (benchmarks/bench_network.py). Redis gives an unacknowledged
+    task to another worker after the visibility timeout, which must exceed the longest run plus the longest
+    retry delay (Celery documentation, "Using Redis": visibility timeout)."""
+    from observatory_ops import celery_app
+    from observatory_ops.celery import ServiceTask
+
+    soft, hard = celery_app.conf.task_soft_time_limit, celery_app.conf.task_time_limit
+    assert 60 <= soft < hard
+    assert hard + ServiceTask.retry_backoff_max < celery_app.conf.broker_transport_options["visibility_timeout"]
+
+
+@pytest.mark.parametrize("variable", ["OBSOPS_TRUSTED_PROXIES", "EMAIL_TIMEOUT"])
+def test_a_negative_count_is_refused(variable):
+    run = subprocess.run([sys.executable, "-c", "from django.conf import settings; settings.DEBUG"],
+                         env=_environment(**{variable: "-1"}), cwd=PROJECT, capture_output=True, text=True,
+                         check=False)
+    assert run.returncode != 0 and f"{variable} must be a whole number of" in run.stderr

@@ -1,0 +1,81 @@
+"""Hours of a service record may be unknown: a last service back-filled from memory adds no made-up maintenance
+hours, and the reliability page says how many records in its window gave none."""
+from __future__ import annotations
+
+import datetime as dt
+import html
+import re
+
+import pytest
+
+from observatory_ops.logbook import services
+from observatory_ops.logbook.models import ServiceRecord
+from observatory_ops.planning.services import site_today
+from observatory_ops.registry.services import subsystem_create
+from observatory_ops.reliability.selectors import site_reliability
+
+pytestmark = pytest.mark.django_db
+
+
+def _text(response) -> str:
+    return " ".join(html.unescape(re.sub(r"<[^>]+>", " ", response.content.decode())).split())
+
+
+@pytest.fixture
+def fans(telescope):
+    return subsystem_create(telescope, "cooling_fans", "Mirror cell fans",
+                            counting_from=site_today(telescope.site) - dt.timedelta(days=200))
+
+
+def test_the_service_form_leaves_the_hours_empty_and_says_empty_is_not_known(fans, users, client):
+    client.force_login(users["technician"])
+    page = client.get(f"/subsystems/{fans.pk}/service/new/")
+    field = page.context["form"]["hours_spent"]
+    assert field.value() is None
+    assert "Leave empty if not known (a past service entered from memory): no hours are made up for it." in _text(page)
+
+
+def test_a_back_filled_service_with_no_hours_is_stored_as_unknown_and_shown_so(fans, users, client):
+    day = site_today(fans.telescope.site) - dt.timedelta(days=90)
+    plan = fans.plans.first()
+    client.force_login(users["technician"])
+    response = client.post(f"/subsystems/{fans.pk}/service/new/", {
+        "plan": plan.pk, "performed_on": day.isoformat(), "hours_spent": "", "summary": "Filters changed (from the "
+        "paper logbook)", "findings": "",
+    })
+    assert response.status_code == 302
+    record = ServiceRecord.objects.get(subsystem=fans)
+    assert (record.performed_on, record.hours_spent) == (day, None)
+    assert "Filters changed (from the paper logbook) not known" in _text(client.get(fans.get_absolute_url()))
+
+
+def test_a_correction_left_empty_keeps_the_originals_hours_known_or_not(fans, users, client):
+    today = site_today(fans.telescope.site)
+    unknown = services.service_record_log(fans, None, today, users["technician"], "fans")
+    known = services.service_record_log(fans, None, today, users["technician"], "filters", hours_spent=2.0)
+    client.force_login(users["technician"])
+    assert "fans (hours not known)" in _text(client.get(f"/service/{unknown.pk}/correct/"))
+    assert "filters (2 h)" in _text(client.get(f"/service/{known.pk}/correct/"))
+    for original in (unknown, known):
+        response = client.post(f"/service/{original.pk}/correct/", {
+            "performed_on": original.performed_on.isoformat(), "hours_spent": "", "summary": "corrected",
+            "findings": "",
+        })
+        assert response.status_code == 302
+    assert ServiceRecord.objects.get(corrects=unknown).hours_spent is None
+    assert ServiceRecord.objects.get(corrects=known).hours_spent == 2.0
+
+
+def test_the_reliability_page_counts_no_hours_for_unknown_ones_and_says_how_many(fans, users, client):
+    today = site_today(fans.telescope.site)
+    services.service_record_log(fans, None, today - dt.timedelta(days=30), users["technician"], "cleaned",
+                                hours_spent=1.5)
+    services.service_record_log(fans, None, today - dt.timedelta(days=60), users["technician"], "back-filled")
+    services.service_record_log(fans, None, today - dt.timedelta(days=61), users["technician"], "back-filled")
+    report = site_reliability(fans.telescope.site, today)
+    assert (report.records_in_window, report.records_without_hours) == (3, 2)
+    assert report.hours_total == 1.5  # by hand: only the known 1.5 h
+    client.force_login(users["viewer"])
+    text = _text(client.get(f"/sites/{fans.telescope.site.slug}/reliability/"))
+    assert ("3 service records in these 12 months; 2 of them give no hours (not known) and are not counted below."
+            in text)
