@@ -16,6 +16,7 @@ from django.core.exceptions import ValidationError
 from django.core.management import call_command
 from django.utils import timezone
 from django.utils.html import strip_tags
+from test_mirror_admin import _admin_post
 from test_workorders import _confirmed, _finish_confirmations
 
 from observatory_ops.logbook import services as logbook
@@ -136,26 +137,10 @@ def test_a_coating_dated_beyond_the_service_record_window_is_refused_and_nothing
     assert not CoatingEvent.objects.exists() and not ServiceRecord.objects.exists()
 
 
-def _mirror_admin_post(client, mirror, coating_rows: list[dict]):
-    """Post the mirror's admin change form as it stands, plus new coating rows in its coatings inline."""
-    page = client.get(f"/admin/mirrors/mirror/{mirror.pk}/change/")
-    form = page.context["adminform"].form
-    data = {name: ("" if value is None else value) for name, value in form.initial.items()}
-    data["subsystem"] = mirror.subsystem_id
-    for formset in page.context["inline_admin_formsets"]:
-        management, prefix = formset.formset.management_form, formset.formset.prefix
-        data.update({f"{prefix}-{k}": v for k, v in management.initial.items()})
-        rows = coating_rows if formset.formset.model is CoatingEvent else []
-        data[f"{prefix}-TOTAL_FORMS"] = management.initial["INITIAL_FORMS"] + len(rows)
-        for i, row in enumerate(rows, start=management.initial["INITIAL_FORMS"]):
-            data.update({f"{prefix}-{i}-{k}": v for k, v in row.items()})
-    return client.post(f"/admin/mirrors/mirror/{mirror.pk}/change/", data)
-
-
 def test_a_coating_added_in_the_admin_restarts_the_recoat_plan(mirror, admin_client):
     coated_on = _today(mirror) - dt.timedelta(days=20)
-    response = _mirror_admin_post(
-        admin_client, mirror, [{"coated_on": coated_on.isoformat(), "metal": "al", "layers": "", "note": ""}]
+    response = _admin_post(
+        admin_client, mirror, coatings=[{"coated_on": coated_on.isoformat(), "metal": "al", "layers": "", "note": ""}]
     )
     assert response.status_code == 302
     record = ServiceRecord.objects.get(plan=_recoat_plan(mirror))
@@ -165,8 +150,8 @@ def test_a_coating_added_in_the_admin_restarts_the_recoat_plan(mirror, admin_cli
 
 def test_a_future_coating_in_the_admin_is_refused_and_nothing_changes(mirror, admin_client):
     tomorrow = _today(mirror) + dt.timedelta(days=1)
-    response = _mirror_admin_post(
-        admin_client, mirror, [{"coated_on": tomorrow.isoformat(), "metal": "al", "layers": "", "note": ""}]
+    response = _admin_post(
+        admin_client, mirror, coatings=[{"coated_on": tomorrow.isoformat(), "metal": "al", "layers": "", "note": ""}]
     )
     assert response.status_code == 200
     assert "cannot be in the future" in response.content.decode()

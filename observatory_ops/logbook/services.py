@@ -65,9 +65,15 @@ class ImportReport:
     confirm_token: str = ""
     #: A token was given but the changes are not those it confirmed (the file or the stored nights differ).
     confirmed_other: bool = False
-    #: Set when stored nights are before the start of plans whose last service is unknown, so move none of their
-    #: counters (``planning.selectors.nights_before_unknown_starts_note``).
-    uncounted_note: str = ""
+    #: The site and the nights stored, for ``uncounted_note``.
+    stored_on: tuple[Site, list[dt.date]] | None = None
+
+    @property
+    def uncounted_note(self) -> str:
+        """Why some stored nights move no counter: they are before the start of plans whose last service is
+        unknown (``planning.selectors.nights_before_unknown_starts_note``). Worked out when read (the import page
+        and command read it in ``summary``; the API's ingest does not, so it costs the ingest nothing)."""
+        return nights_before_unknown_starts_note(*self.stored_on) if self.stored_on else ""
 
     @property
     def summary(self) -> str:
@@ -245,7 +251,7 @@ def _nights_store(
     report.changes, report.stored = changes, stored
     if stored:
         report.updated_nights = sorted(u.night for u in changed)
-        report.uncounted_note = nights_before_unknown_starts_note(site, [u.night for u in new + changed])
+        report.stored_on = (site, [u.night for u in new + changed])
 
 
 def _nights_compare(

@@ -134,6 +134,8 @@ def nights_before_unknown_starts_note(site: Site, nights: list[dt.date]) -> str:
         subsystem__telescope__site=site, subsystem__retired_on__isnull=True, active=True, counting_from_given=False,
         counting_from__gt=min(nights), triggers__metric__in=[*metrics.USAGE_FIELDS, metrics.DUST_HOURS],
     ).distinct())
+    if not plans:
+        return ""
     serviced = effective_last_service(plan__in=plans)
     unknown = [p for p in plans if p.pk not in serviced]
     if not unknown:
