@@ -109,7 +109,6 @@ def site_in_use(slug: str, kinds=("primary_mirror", "cooling_fans", "limits", "e
     past the forecast horizon, so recomputing it never waits for astropy. Dates follow the real clock,
     because tasks use each site's own "today"."""
     from observatory_ops.logbook.models import NightUsage
-    from observatory_ops.planning.models import NightSky
     from observatory_ops.planning.services import HORIZON_DAYS, site_today
     from observatory_ops.registry.models import Site, Telescope
     from observatory_ops.registry.services import subsystem_create
@@ -125,9 +124,17 @@ def site_in_use(slug: str, kinds=("primary_mirror", "cooling_fans", "limits", "e
                    brake_cycles=40, pm10_ugm3=35)
         for i in range(1, nights + 1)
     )
-    NightSky.objects.bulk_create(
-        NightSky(site=site, night=today + dt.timedelta(days=i), dark_hours=10.0, moon_illumination=0.5,
-                 moonless_dark_hours=5.0)
-        for i in range(-366, HORIZON_DAYS + 2)
-    )
+    constant_sky(site, today - dt.timedelta(days=366), today + dt.timedelta(days=HORIZON_DAYS + 1))
     return site
+
+
+def constant_sky(site, first: dt.date, last: dt.date) -> None:
+    """Cache a constant sky for ``site`` from ``first`` to ``last`` inclusive (10 dark hours a night, 5 of them
+    moonless), so a recompute never waits for astropy."""
+    from observatory_ops.planning.models import NightSky
+
+    NightSky.objects.bulk_create(
+        NightSky(site=site, night=first + dt.timedelta(days=i), dark_hours=10.0, moon_illumination=0.5,
+                 moonless_dark_hours=5.0)
+        for i in range((last - first).days + 1)
+    )

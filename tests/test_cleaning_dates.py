@@ -15,13 +15,13 @@ import datetime as dt
 
 import numpy as np
 import pytest
+from conftest import constant_sky
 from scipy import optimize
 
 from observatory_ops.calc.reflectance import fit_decline, predict
 from observatory_ops.logbook.models import NightUsage
 from observatory_ops.mirrors.models import CleaningEvent, CoatingEvent, Mirror, ReflectanceMeasurement
 from observatory_ops.mirrors.services import mirror_forecast
-from observatory_ops.planning.models import NightSky
 from observatory_ops.registry.models import Subsystem
 
 R0, RATE, RECOVERY = 0.90, 2.0e-5, 0.5
@@ -80,11 +80,7 @@ def mirror(telescope, users):
     NightUsage.objects.bulk_create(
         NightUsage(site=site, night=night, open_hours=4, pm10_ugm3=40) for night in nights if night not in NOT_LOGGED
     )
-    NightSky.objects.bulk_create(
-        NightSky(site=site, night=COATED + dt.timedelta(days=i), dark_hours=10.0, moon_illumination=0.5,
-                 moonless_dark_hours=5.0)
-        for i in range((TODAY - COATED).days + 3 * 366 + 2)
-    )
+    constant_sky(site, COATED, TODAY + dt.timedelta(days=3 * 366 + 1))
     primary = Subsystem.objects.create(telescope=telescope, kind="primary_mirror", name="Primary")
     m = Mirror.objects.create(subsystem=primary, diameter_mm=500, thickness_mm=50, material="borosilicate")
     CoatingEvent.objects.create(mirror=m, coated_on=COATED, metal="al")

@@ -19,6 +19,7 @@ from collections import defaultdict
 
 import numpy as np
 import pytest
+from conftest import constant_sky
 from scipy import stats
 
 from observatory_ops.calc.forecast import (
@@ -132,17 +133,12 @@ def test_the_spread_matches_a_plain_python_leave_one_out_and_scipy_tstd(seed):
 @pytest.fixture
 def flat_site(db):
     """A site with a constant sky (10 dark hours every night) cached from two years back to past the horizon."""
-    from observatory_ops.planning.models import NightSky
     from observatory_ops.planning.services import HORIZON_DAYS
     from observatory_ops.registry.models import Site
 
     site = Site.objects.create(name="Flatland", slug="flatland", latitude_deg=0, longitude_deg=0, time_zone="UTC")
     first = TODAY - dt.timedelta(days=800)
-    NightSky.objects.bulk_create(
-        NightSky(site=site, night=first + dt.timedelta(days=i), dark_hours=10.0, moon_illumination=0.5,
-                 moonless_dark_hours=5.0)
-        for i in range(800 + HORIZON_DAYS + 5)
-    )
+    constant_sky(site, first, first + dt.timedelta(days=800 + HORIZON_DAYS + 4))
     return site
 
 

@@ -20,11 +20,12 @@ import datetime as dt
 import math
 
 import pytest
+from conftest import constant_sky
 
 from observatory_ops.calc import forecast
 from observatory_ops.logbook.models import NightUsage
 from observatory_ops.planning import services
-from observatory_ops.planning.models import NightSky, PlanStatus, ServicePlan, Trigger
+from observatory_ops.planning.models import PlanStatus, ServicePlan, Trigger
 from observatory_ops.registry.models import Site, Subsystem, Telescope
 
 TODAY = dt.date(2026, 6, 15)
@@ -40,11 +41,7 @@ def quiet_since_new_year(db):
     fans = Subsystem.objects.create(telescope=telescope, kind="cooling_fans", name="Fans")
     first = dt.date(2025, 1, 1)
     sky_end = TODAY + dt.timedelta(days=services.HORIZON_DAYS + 5)
-    NightSky.objects.bulk_create(
-        NightSky(site=site, night=first + dt.timedelta(days=i), dark_hours=10.0, moon_illumination=0.5,
-                 moonless_dark_hours=5.0)
-        for i in range((sky_end - first).days + 1)
-    )
+    constant_sky(site, first, sky_end)
     NightUsage.objects.bulk_create(
         NightUsage(site=site, night=first + dt.timedelta(days=i),
                    open_hours=OPEN_HOURS_BY_MONTH[(first + dt.timedelta(days=i)).month])

@@ -18,12 +18,13 @@ import io
 import re
 
 import pytest
+from conftest import constant_sky
 from django.core.files.uploadedfile import SimpleUploadedFile
 from django.utils import timezone
 
 from observatory_ops.logbook.services import nights_import, service_record_log
 from observatory_ops.planning import digest
-from observatory_ops.planning.models import NightSky, PlanStatus, ServicePlan, Trigger
+from observatory_ops.planning.models import PlanStatus, ServicePlan, Trigger
 from observatory_ops.planning.services import HORIZON_DAYS, site_recompute, site_today
 from observatory_ops.registry.models import Subsystem
 from observatory_ops.registry.services import subsystem_create
@@ -53,11 +54,7 @@ def now(telescope):
     astropy."""
     site = telescope.site
     today = site_today(site)
-    NightSky.objects.bulk_create(
-        NightSky(site=site, night=today + dt.timedelta(days=i), dark_hours=10.0, moon_illumination=0.5,
-                 moonless_dark_hours=5.0)
-        for i in range(-400, HORIZON_DAYS + 2)
-    )
+    constant_sky(site, today - dt.timedelta(days=400), today + dt.timedelta(days=HORIZON_DAYS + 1))
     return today
 
 

@@ -13,11 +13,12 @@ import html
 import re
 
 import pytest
+from conftest import constant_sky
 
 from observatory_ops.logbook.models import Reading
 from observatory_ops.mirrors.models import CoatingEvent, Mirror
 from observatory_ops.mirrors.services import ASSUMED_FRESH, mirror_forecast, reflectance_now, throughput
-from observatory_ops.planning.models import NightSky, PlanStatus, ServicePlan, Trigger
+from observatory_ops.planning.models import PlanStatus, ServicePlan, Trigger
 from observatory_ops.planning.selectors import plans_with_plots, trigger_table
 from observatory_ops.planning.services import HORIZON_DAYS, site_recompute, site_today
 from observatory_ops.registry.models import Subsystem
@@ -33,11 +34,7 @@ def _text(response) -> str:
 def today(telescope):
     site = telescope.site
     today = site_today(site)
-    NightSky.objects.bulk_create(
-        NightSky(site=site, night=today + dt.timedelta(days=i), dark_hours=10.0, moon_illumination=0.5,
-                 moonless_dark_hours=5.0)
-        for i in range(-100, HORIZON_DAYS + 2)
-    )
+    constant_sky(site, today - dt.timedelta(days=100), today + dt.timedelta(days=HORIZON_DAYS + 1))
     return today
 
 

@@ -16,11 +16,12 @@ import zoneinfo
 
 import numpy as np
 import pytest
+from conftest import constant_sky
 from scipy import stats
 
 from observatory_ops.logbook.models import Reading
 from observatory_ops.planning import plots, selectors, services
-from observatory_ops.planning.models import NightSky, PlanStatus, ServicePlan, Trigger
+from observatory_ops.planning.models import PlanStatus, ServicePlan, Trigger
 from observatory_ops.registry.models import Site, Subsystem, Telescope
 
 ZONE_NAME = "America/Denver"  # UTC-7 in January and February (Mountain Standard Time)
@@ -47,11 +48,7 @@ def _site_with_readings(users, values: list[float]) -> tuple[Site, ServicePlan, 
         Reading.objects.create(subsystem=drive, quantity="settle_time_s", unit="s", value=value,
                                taken_at=FIRST + dt.timedelta(days=day), taken_by=users["technician"])
     # A constant sky, so the recompute's usage model never waits for astropy (the reading trigger does not use it).
-    NightSky.objects.bulk_create(
-        NightSky(site=site, night=TODAY + dt.timedelta(days=i), dark_hours=10.0, moon_illumination=0.5,
-                 moonless_dark_hours=5.0)
-        for i in range(-30, services.HORIZON_DAYS + 2)
-    )
+    constant_sky(site, TODAY - dt.timedelta(days=30), TODAY + dt.timedelta(days=services.HORIZON_DAYS + 1))
     services.site_recompute(site, TODAY)
     return site, plan, drive
 
