@@ -143,7 +143,7 @@ def test_one_dusty_night_does_not_set_a_months_dust_forecast(synthetic):
     NightUsage.objects.filter(site=site, night=TODAY - dt.timedelta(days=1)).update(pm10_ugm3=300)
     _plan(subsystem, "filters", [("dust_hours", 1e6)], start, sensitivity=1.0)
     services.site_recompute(site, TODAY)
-    log = services.UsageLog.for_site(site)
+    log = services.UsageLog.site_wide(site)
     model = services.usage_model(site, log, TODAY, 60)
     assert np.isnan(model.month_pm10).all()
     assert np.allclose(model.expected("dust_hours", 1.0), model.open_hours)  # weight 1: clean air
@@ -151,7 +151,7 @@ def test_one_dusty_night_does_not_set_a_months_dust_forecast(synthetic):
     assert f"PM10 measured on 1 open nights, under {forecast.MIN_NIGHTS_FOR_HISTORY}" in state.basis
     # With PM10 on every night (60 ug/m3), each month has its own mean.
     NightUsage.objects.filter(site=site).update(pm10_ugm3=60)
-    model = services.usage_model(site, services.UsageLog.for_site(site), TODAY, 60)
+    model = services.usage_model(site, services.UsageLog.site_wide(site), TODAY, 60)
     assert np.allclose(model.month_pm10, 60) and model.pm10_months == 12
 
 

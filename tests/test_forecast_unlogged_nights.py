@@ -64,7 +64,7 @@ def _service(subsystem, plan, on: dt.date, users) -> None:
 
 def test_the_month_table_is_the_one_the_hand_computations_use(quiet_since_new_year):
     site, _ = quiet_since_new_year
-    model = services.forecast_model(site, services.UsageLog.for_site(site), TODAY)
+    model = services.forecast_model(site, services.UsageLog.site_wide(site), TODAY)
     assert model.first_day == LAST_LOGGED + dt.timedelta(days=1)
     assert model.open_fraction.tolist() == pytest.approx([OPEN_HOURS_BY_MONTH[m] / 10 for m in range(1, 13)])
     assert model.from_history.all()

@@ -12,13 +12,19 @@ from django.core.validators import MaxValueValidator, MinValueValidator
 from django.db import models
 from simple_history.models import HistoricalRecords
 
-from observatory_ops.registry.models import Site, Subsystem
+from observatory_ops.registry.models import Site, Subsystem, Telescope
 
 from .quantities import QUANTITY_CHOICES
 
 
 class NightUsage(models.Model):
-    """One row per site per night; the night belongs to the local date of its evening."""
+    """One night's usage: the site's (``telescope`` empty), or one telescope's own.
+
+    The night belongs to the local date of its evening. A telescope's log is its own rows, and the site's
+    rows on the nights it has none of its own (``planning.services.UsageLog``): a site whose telescopes share
+    one dome sends one row a night; a site whose telescopes are used apart sends one row per telescope, and
+    may send the site's row too (the dome's controller) for the telescopes that send nothing.
+    """
 
     history = HistoricalRecords()  # who changed what, when: see observatory_ops/archive
     class Source(models.TextChoices):
@@ -28,6 +34,10 @@ class NightUsage(models.Model):
         DEMO = "demo", "demo generator"
 
     site = models.ForeignKey(Site, on_delete=models.PROTECT, related_name="nights")
+    telescope = models.ForeignKey(
+        Telescope, null=True, blank=True, on_delete=models.PROTECT, related_name="nights",
+        help_text="Empty: the site's night, counted for every telescope with no row of its own that night.",
+    )
     night = models.DateField(help_text="Local date of the evening the night starts.")
     open_hours = models.FloatField(validators=[MinValueValidator(0), MaxValueValidator(24)])
     slews = models.PositiveIntegerField(default=0)
@@ -43,10 +53,23 @@ class NightUsage(models.Model):
 
     class Meta:
         ordering = ["site", "night"]
-        constraints = [models.UniqueConstraint(fields=["site", "night"], name="one_usage_row_per_site_night")]
+        constraints = [
+            # Read by site in night order (the recompute's log): this index leads with both.
+            models.UniqueConstraint(fields=["site", "night", "telescope"], name="one_usage_row_per_telescope_night"),
+            # NULLs are distinct in a unique index, so the site's own row needs a partial one.
+            models.UniqueConstraint(
+                fields=["site", "night"], condition=models.Q(telescope__isnull=True),
+                name="one_site_usage_row_per_night",
+            ),
+        ]
 
     def __str__(self) -> str:
-        return f"{self.site.slug} {self.night}: {self.open_hours:g} h open"
+        whose = f"{self.site.slug} {self.telescope.name}" if self.telescope_id else self.site.slug
+        return f"{whose} {self.night}: {self.open_hours:g} h open"
+
+    def clean(self) -> None:
+        if self.telescope_id and self.site_id and self.telescope.site_id != self.site_id:
+            raise ValidationError({"telescope": "The telescope belongs to another site."})
 
 
 class Reading(models.Model):

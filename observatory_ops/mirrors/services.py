@@ -127,7 +127,7 @@ def mirror_forecast(
     if last is None:
         return MirrorForecast(mirror, None, "", None, "no coating recorded", 0.0, fit_note="no coating recorded")
     fresh = _coating_band(mirror, last.metal, last.layers)
-    log = log if log is not None else UsageLog.for_site(mirror.subsystem.telescope.site)
+    log = log if log is not None else UsageLog.for_telescope(mirror.subsystem.telescope)
     per_night = log.per_night(metrics.DUST_HOURS, mirror.dust_sensitivity)
     measurements = sorted(
         (m for m in mirror.measurements.all() if m.measured_on >= last.coated_on and m.wavelength_nm is None),
@@ -303,7 +303,7 @@ def throughput(telescope: Telescope, today: dt.date | None = None) -> Throughput
     """The telescope's optical train (``telescope_mirrors``), each mirror's reflectance now and fresh with where it
     comes from, and the train's throughput and loss over the mirrors that have figures."""
     recorded, unrecorded = telescope_mirrors(telescope)
-    log = UsageLog.for_site(telescope.site) if recorded else None
+    log = UsageLog.for_telescope(telescope) if recorded else None
     train = [_train_mirror(mirror_forecast(m, today, log)) for m in recorded] + [
         TrainMirror(s, None, None, None, LEFT_OUT, "no mirror record (coating and measurements): left out of the total")
         for s in unrecorded
@@ -347,7 +347,7 @@ def night_costs(site: Site, start: dt.date, horizon_days: int) -> list[NightCost
     end = start + dt.timedelta(days=horizon_days - 1)
     site_sky_refresh(site, start, end)
     sky = list(NightSky.objects.filter(site=site, night__gte=start, night__lte=end).order_by("night"))
-    log = UsageLog.for_site(site)
+    log = UsageLog.site_wide(site)
     fraction = usage_model(site, log, start, 1).open_fraction
     runs = list(BookedRun.objects.filter(site=site, starts_on__lte=end, ends_on__gte=start))
     booked_name = ["" for _ in sky]

@@ -320,7 +320,7 @@ def expected_use_by_month(subsystem: Subsystem, plans: list[ServicePlan]) -> dic
     if not shown:
         return None
     site = subsystem.telescope.site
-    log = UsageLog.for_site(site)
+    log = UsageLog.for_telescope(subsystem.telescope)
     model = forecast_model(site, log, site_today(site))
     logged, years = forecast.logged_per_month(log.nights)
     days = np.datetime64(model.first_day, "D") + np.arange(len(model.open_hours))
@@ -354,6 +354,7 @@ def expected_use_by_month(subsystem: Subsystem, plans: list[ServicePlan]) -> dic
     ]
     return {
         "first_day": model.first_day, "rows": rows, "headers": headers, "basis": model.basis,
+        "telescope": subsystem.telescope.name if log.telescope_id else "",  # from its own nights
         "dust_basis": model.dust_basis if any(m == metrics.DUST_HOURS for m, _ in columns) else "",
         "prior": forecast.PRIOR_OPEN_FRACTION, "least_nights": forecast.MIN_NIGHTS_FOR_HISTORY,
     }
@@ -394,7 +395,7 @@ def plans_with_plots(subsystem: Subsystem) -> list[ServicePlan]:
             # The state the recompute stored this trigger from (services._recoat_line_state), computed again here
             # for its fit: the picture and the figures come from the one function.
             mirror = getattr(subsystem, "mirror", None)
-            log = log or UsageLog.for_site(site)
+            log = log or UsageLog.for_telescope(subsystem.telescope)
             decline = mirror_forecast(mirror, today, log) if mirror else None
             if decline is not None and decline.threshold is not None:
                 plan.plot = plots.recoat_svg(decline, today, title)
@@ -413,7 +414,7 @@ def plans_with_plots(subsystem: Subsystem) -> list[ServicePlan]:
             )
             continue
         else:
-            log = log or UsageLog.for_site(site)
+            log = log or UsageLog.for_telescope(subsystem.telescope)
             keep = log.nights >= np.datetime64(baseline, "D")
             totals = np.cumsum(log.per_night(status.metric, plan.dust_sensitivity)[keep])
             days = log.nights[keep].astype(object)

@@ -14,7 +14,7 @@ from typing import NamedTuple
 
 import numpy as np
 from django.db import transaction
-from django.db.models import Max, OuterRef, Subquery
+from django.db.models import Max, OuterRef, Q, Subquery
 from django.utils import timezone
 from simple_history.utils import bulk_create_with_history
 
@@ -152,22 +152,64 @@ def _as_datetime(value) -> dt.datetime | None:
 
 @dataclass(frozen=True)
 class UsageLog:
-    """A site's nightly log as arrays, oldest first."""
+    """One telescope's nightly log as arrays, oldest first: its own rows, and the site's rows (telescope empty)
+    on the nights it has none of its own (``NightUsage``)."""
 
     nights: np.ndarray  # datetime64[D]
     columns: dict[str, np.ndarray]  # NightUsage field -> values
     pm10: np.ndarray  # NaN where not measured
+    telescope_id: int | None = None  # the telescope whose own rows are in it; None: the site's rows alone
+
+    @property
+    def whose(self) -> str:
+        """How the pages name the log's owner."""
+        return "this site's" if self.telescope_id is None else "this telescope's"
 
     @classmethod
-    def for_site(cls, site: Site) -> UsageLog:
+    def of_site(cls, site: Site) -> dict[int | None, UsageLog]:
+        """Every log of ``site`` in one query: telescope id -> the log of a telescope with rows of its own, and
+        None -> the site's rows alone, the log of every other telescope."""
+        return cls._split(NightUsage.objects.filter(site=site))
+
+    @classmethod
+    def for_telescope(cls, telescope) -> UsageLog:
+        logs = cls._split(NightUsage.objects.filter(site=telescope.site_id).filter(
+            Q(telescope=telescope) | Q(telescope__isnull=True)
+        ))
+        return logs.get(telescope.pk, logs[None])
+
+    @classmethod
+    def site_wide(cls, site: Site) -> UsageLog:
+        """The log for a figure of the whole site (the cost of losing a night): the site's rows, or where it
+        sends none of its own, the log of its busiest telescope (the most open hours)."""
+        logs = cls.of_site(site)
+        if len(logs[None].nights) or len(logs) == 1:
+            return logs[None]
+        return max((log for key, log in logs.items() if key is not None),
+                   key=lambda log: float(log.columns["open_hours"].sum()))
+
+    @classmethod
+    def _split(cls, rows_query) -> dict[int | None, UsageLog]:
         fields = list(metrics.USAGE_FIELDS.values())
-        log = NightUsage.objects.filter(site=site).order_by("night")
-        rows = _fetched(log.values_list("night", *fields, "pm10_ugm3"))
-        nights_ = _day_array(r[0] for r in rows)
+        rows = _fetched(rows_query.order_by("night").values_list("telescope_id", "night", *fields, "pm10_ugm3"))
+        owners = {row[0] for row in rows} - {None}
+        if not owners:  # one log for the site (the usual case, read as it comes)
+            return {None: cls._of(rows, fields)}
+        site_rows = [row for row in rows if row[0] is None]
+        logs = {None: cls._of(site_rows, fields)}
+        for owner in owners:
+            own = [row for row in rows if row[0] == owner]
+            own_nights = {row[1] for row in own}
+            merged = sorted(own + [row for row in site_rows if row[1] not in own_nights], key=lambda row: row[1])
+            logs[owner] = replace(cls._of(merged, fields), telescope_id=owner)
+        return logs
+
+    @classmethod
+    def _of(cls, rows: list[tuple], fields: list[str]) -> UsageLog:
+        nights_ = _day_array(r[1] for r in rows)
         # One conversion for every figure column; numpy turns a missing PM10 (None) into NaN.
-        figures = np.array([r[1:] for r in rows], dtype=float).reshape(len(rows), len(fields) + 1)
-        columns = {f: figures[:, i] for i, f in enumerate(fields)}
-        return cls(nights_, columns, figures[:, -1])
+        figures = np.array([r[2:] for r in rows], dtype=float).reshape(len(rows), len(fields) + 1)
+        return cls(nights_, {f: figures[:, i] for i, f in enumerate(fields)}, figures[:, -1])
 
     def per_night(self, metric: str, dust_sensitivity: float) -> np.ndarray:
         """The quantity a usage metric counts, for each logged night."""
@@ -194,6 +236,7 @@ class UsageModel:
     pm10_nights: int = 0  # open nights with PM10 measured
     spread_months: int = 0  # complete months the spread was measured from; 0: the prior spread
     unlogged_nights: int = 0  # past nights from ``first_day`` to yesterday, none logged: counted as expected
+    whose: str = "this site's"  # the log's owner (``UsageLog.whose``)
 
     def expected(self, metric: str, dust_sensitivity: float) -> np.ndarray:
         if metric == metrics.OPEN_HOURS:
@@ -206,16 +249,16 @@ class UsageModel:
     @property
     def basis(self) -> str:
         if self.months_from_history == 12:
-            source = "this site's own open fraction for every month"
+            source = f"{self.whose} own open fraction for every month"
         elif self.months_from_history == 0:
             source = f"a prior open fraction of {forecast.PRIOR_OPEN_FRACTION:.0%} (no usable history yet)"
         else:
             source = (
-                f"this site's open fraction for {self.months_from_history} of 12 months and a prior of "
+                f"{self.whose} open fraction for {self.months_from_history} of 12 months and a prior of "
                 f"{forecast.PRIOR_OPEN_FRACTION:.0%} for the rest"
             )
         if self.spread_months:
-            band = (f"band from this site's month-to-month spread {self.spread:.0%} ({self.spread_months} complete "
+            band = (f"band from {self.whose} month-to-month spread {self.spread:.0%} ({self.spread_months} complete "
                     "months, each against the same month of its other years)")
         else:
             band = (f"band from a prior month-to-month spread of {self.spread:.0%} (too few complete months logged "
@@ -235,7 +278,7 @@ class UsageModel:
             return self.basis
         unit = metrics.METRICS[metric][1]
         rate = self.per_open_hour[metrics.USAGE_FIELDS[metric]]
-        return f"{self.basis}; times {rate:.3g} {unit} per open hour (this site's log)"
+        return f"{self.basis}; times {rate:.3g} {unit} per open hour ({self.whose} log)"
 
     @property
     def dust_basis(self) -> str:
@@ -346,6 +389,7 @@ def usage_model(site: Site, log: UsageLog, first_day: dt.date, days: int) -> Usa
         dark_hours=dark,
         pm10_months=int((pm10_nights >= forecast.MIN_NIGHTS_FOR_HISTORY).sum()),
         pm10_nights=int(pm10_nights.sum()),
+        whose=log.whose,
     )
 
 
@@ -437,6 +481,7 @@ class _Plan(NamedTuple):
 
     pk: int
     subsystem_id: int
+    telescope_id: int
     counting_from: dt.date
     dust_sensitivity: float
     counting_from_given: bool
@@ -447,23 +492,32 @@ def _site_recompute(site: Site, today: dt.date) -> int:
     # model instances, since a site has hundreds. A plan without triggers has no due state.
     plans: list[_Plan] = []
     triggers_of: dict[int, list] = {}
-    for plan_id, subsystem_id, counting_from, sensitivity, given, *trigger in _fetched(
+    for plan_id, subsystem_id, telescope_id, counting_from, sensitivity, given, *trigger in _fetched(
         Trigger.objects.filter(
             plan__subsystem__telescope__site=site, plan__active=True, plan__subsystem__retired_on__isnull=True
         )
         .order_by("plan_id", "pk")
-        .values_list("plan_id", "plan__subsystem_id", "plan__counting_from", "plan__dust_sensitivity",
+        .values_list("plan_id", "plan__subsystem_id", "plan__subsystem__telescope_id", "plan__counting_from",
+                     "plan__dust_sensitivity",
                      "plan__counting_from_given", "metric", "limit", "quantity", "direction")
     ):
         if plan_id not in triggers_of:
-            plans.append(_Plan(plan_id, subsystem_id, counting_from, sensitivity, bool(given)))
+            plans.append(_Plan(plan_id, subsystem_id, telescope_id, counting_from, sensitivity, bool(given)))
             triggers_of[plan_id] = []
         triggers_of[plan_id].append(_Trigger(*trigger))
     recoat = any(t.metric == metrics.RECOAT_LINE for p in plans for t in triggers_of[p.pk])
     mirrors = _mirrors_by_subsystem(site) if recoat else {}
-    log = UsageLog.for_site(site)
-    model = forecast_model(site, log, today)
-    first_day = model.first_day
+    # Each plan counts its telescope's usage (``UsageLog``): a site that logs one row a night has one log and
+    # one usage model; a telescope that logs its own nights has its own.
+    logs = UsageLog.of_site(site)
+    models_: dict[int | None, UsageModel] = {}
+
+    def usage_of(plan: _Plan) -> tuple[int | None, UsageLog, UsageModel]:
+        key = plan.telescope_id if plan.telescope_id in logs else None
+        if key not in models_:
+            models_[key] = forecast_model(site, logs[key], today)
+        return key, logs[key], models_[key]
+
     last_service = effective_last_service(subsystem__telescope__site=site)
     # A plan counts from its last service; ``counting_from`` only while it has none (service history from
     # before the plan was registered, logged afterwards, counts as it happened). With neither a service nor a
@@ -474,12 +528,13 @@ def _site_recompute(site: Site, today: dt.date) -> int:
     readings = _readings_by_subsystem_quantity(site, plans, triggers_of, baselines)
 
     states: dict[int, list[TriggerState]] = {p.pk: [] for p in plans}
-    groups: dict[tuple[str, float], list[tuple]] = {}  # (metric, dust sensitivity) -> [(plan, trigger)]
+    groups: dict[tuple, list[tuple]] = {}  # (log, metric, dust sensitivity) -> [(plan, trigger)]
     for plan in plans:
         for trig in triggers_of[plan.pk]:
             if trig.metric == metrics.CALENDAR_DAYS:
                 states[plan.pk].append(_calendar_state(trig, baselines[plan.pk], today))
             elif trig.metric == metrics.RECOAT_LINE:
+                _, log, model = usage_of(plan)
                 state = _recoat_line_state(mirrors.get(plan.subsystem_id), today, log, model)
                 if state:
                     states[plan.pk].append(state)
@@ -492,14 +547,16 @@ def _site_recompute(site: Site, today: dt.date) -> int:
                     states[plan.pk].append(state)
             else:
                 sens = plan.dust_sensitivity if trig.metric == metrics.DUST_HOURS else 0.0
-                groups.setdefault((trig.metric, sens), []).append((plan, trig))
+                groups.setdefault((usage_of(plan)[0], trig.metric, sens), []).append((plan, trig))
 
     # A counter's expected use runs from the first unlogged night, or from its plan's baseline (last service or
     # counting date) when that is later: use before the baseline is not the serviced part's (a service logged today
     # after months of unlogged nights starts from nothing, not from those months' assumed use).
-    first_counted = np.datetime64(first_day, "D")
-    ahead = (today - first_day).days  # the model's day index of today: "the next month" starts there
-    for (metric, sens), members in groups.items():
+    for (key, metric, sens), members in groups.items():
+        log, model = logs[key], models_[key]
+        first_day = model.first_day
+        first_counted = np.datetime64(first_day, "D")
+        ahead = (today - first_day).days  # the model's day index of today: "the next month" starts there
         since = _day_array(baselines[p.pk] for p, _ in members)
         per_night = log.per_night(metric, sens)
         values = exposure.accumulated_since(log.nights, per_night, since)

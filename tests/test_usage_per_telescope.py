@@ -1,0 +1,155 @@
+"""Usage logged per telescope: each plan counts its own telescope's nights.
+
+The rule (logbook.models.NightUsage, planning.services.UsageLog): a telescope's log is its own rows, and the site's
+rows (telescope empty) on the nights it has none of its own. A telescope with no rows at all counts the site's.
+
+The site below logged a row for the whole site every night from 15 Jun 2025 to 14 Jun 2026: 4 open hours and 20
+slews. From 1 Jan 2026 telescope North also sent its own nights: 8 open hours and 100 slews. South sent none.
+Today is 15 Jun 2026, so nothing is unlogged. Hand computations from the rule:
+
+    North: 15 Jun-31 Dec 2025 from the site, 200 nights x 4 h = 800 h and x 20 = 4,000 slews;
+           1 Jan-14 Jun 2026 its own, 165 nights x 8 h = 1,320 h and x 100 = 16,500 slews:
+           2,120 h and 20,500 slews in all.
+    South: 365 nights of the site's: 1,460 h and 7,300 slews.
+
+Every night has 10 dark hours (the constant sky of tests/conftest.py), so a month's open fraction is its open hours
+over 10 (calc.forecast: sum of open hours over sum of dark hours of the month's logged nights): January 2026 is
+North's own 8 of 10 (0.8) and the site's 4 of 10 (0.4) for South.
+"""
+from __future__ import annotations
+
+import datetime as dt
+
+import pytest
+from conftest import constant_sky
+
+from observatory_ops.logbook.models import NightUsage
+from observatory_ops.planning import services
+from observatory_ops.planning.models import PlanStatus, ServicePlan, Trigger
+from observatory_ops.registry.models import Site, Subsystem, Telescope
+
+TODAY = dt.date(2026, 6, 15)
+FIRST = dt.date(2025, 6, 15)
+OWN_FROM = dt.date(2026, 1, 1)
+
+
+def _days(first: dt.date, last: dt.date):
+    return (first + dt.timedelta(days=i) for i in range((last - first).days + 1))
+
+
+@pytest.fixture
+def two_telescopes(db):
+    site = Site.objects.create(name="Twin Ridge", slug="twin-ridge", latitude_deg=0, longitude_deg=0,
+                               time_zone="UTC")
+    north = Telescope.objects.create(site=site, name="North", aperture_m=0.6, mount="fork")
+    south = Telescope.objects.create(site=site, name="South", aperture_m=0.4, mount="altaz")
+    constant_sky(site, FIRST, TODAY + dt.timedelta(days=services.HORIZON_DAYS + 5))
+    last = TODAY - dt.timedelta(days=1)
+    NightUsage.objects.bulk_create(
+        [NightUsage(site=site, night=day, open_hours=4, slews=20) for day in _days(FIRST, last)]
+        + [NightUsage(site=site, telescope=north, night=day, open_hours=8, slews=100) for day in _days(OWN_FROM, last)]
+    )
+    plans = {}
+    for telescope in (north, south):
+        fans = Subsystem.objects.create(telescope=telescope, kind="cooling_fans", name=f"{telescope.name} fans")
+        plan = ServicePlan.objects.create(subsystem=fans, name="Fan bearings", counting_from=FIRST)
+        Trigger.objects.create(plan=plan, metric="open_hours", limit=3000)
+        Trigger.objects.create(plan=plan, metric="slews", limit=50_000)
+        plans[telescope.name] = plan
+    return site, north, south, plans
+
+
+def _figures(plan) -> dict[str, float]:
+    status = PlanStatus.objects.get(plan=plan)
+    return {row["metric"]: row["value"] for row in status.trigger_rows}
+
+
+def test_each_plan_counts_its_own_telescopes_nights(two_telescopes):
+    site, _, _, plans = two_telescopes
+    services.site_recompute(site, TODAY)
+    assert _figures(plans["North"]) == {"open_hours": pytest.approx(2120), "slews": pytest.approx(20_500)}
+    assert _figures(plans["South"]) == {"open_hours": pytest.approx(1460), "slews": pytest.approx(7300)}
+
+
+def test_each_telescope_forecasts_from_its_own_months(two_telescopes):
+    site, north, south, _ = two_telescopes
+    logs = services.UsageLog.of_site(site)
+    assert set(logs) == {None, north.pk}  # South has no rows of its own: it reads the site's
+    assert services.UsageLog.for_telescope(south).nights.tolist() == logs[None].nights.tolist()
+    north_model = services.forecast_model(site, services.UsageLog.for_telescope(north), TODAY)
+    south_model = services.forecast_model(site, services.UsageLog.for_telescope(south), TODAY)
+    assert north_model.open_fraction[0] == pytest.approx(0.8)
+    assert south_model.open_fraction[0] == pytest.approx(0.4)
+    assert "this telescope's" in north_model.basis and "this site's" in south_model.basis
+
+
+def test_the_forecast_basis_names_the_telescopes_log(two_telescopes):
+    site, _, _, plans = two_telescopes
+    services.site_recompute(site, TODAY)
+    assert "this telescope's" in PlanStatus.objects.get(plan=plans["North"]).basis
+    assert "this site's" in PlanStatus.objects.get(plan=plans["South"]).basis
+
+
+def test_a_night_of_its_own_replaces_the_sites_row_for_that_telescope_only(two_telescopes):
+    """One more own row for South on 14 Jun 2026 (2 h, 5 slews) takes the place of the site's row (4 h, 20 slews)
+    in South's log: 1,460 - 4 + 2 = 1,458 h and 7,300 - 20 + 5 = 7,285 slews. North is unchanged."""
+    site, _, south, plans = two_telescopes
+    NightUsage.objects.create(site=site, telescope=south, night=TODAY - dt.timedelta(days=1), open_hours=2, slews=5)
+    services.site_recompute(site, TODAY)
+    assert _figures(plans["South"]) == {"open_hours": pytest.approx(1458), "slews": pytest.approx(7285)}
+    assert _figures(plans["North"]) == {"open_hours": pytest.approx(2120), "slews": pytest.approx(20_500)}
+
+
+def test_without_rows_of_the_site_a_silent_telescope_counts_nothing_logged(two_telescopes):
+    """With the site's rows gone, South has no log at all: nothing counted (and every night since its plan started
+    is taken as used at the prior rate, as for any site that logs nothing). The site-wide figures (the cost of
+    losing a night) then come from the busiest telescope, North."""
+    site, north, south, plans = two_telescopes
+    NightUsage.objects.filter(telescope__isnull=True).delete()
+    assert len(services.UsageLog.for_telescope(south).nights) == 0
+    assert services.UsageLog.site_wide(site).nights.tolist() == services.UsageLog.for_telescope(north).nights.tolist()
+    services.site_recompute(site, TODAY)
+    assert _figures(plans["North"]) == {"open_hours": pytest.approx(1320), "slews": pytest.approx(16_500)}
+    assert _figures(plans["South"]) == {"open_hours": 0, "slews": 0}
+
+
+def test_a_site_that_logs_one_row_a_night_reads_one_log(two_telescopes):
+    site, north, _, _ = two_telescopes
+    NightUsage.objects.filter(telescope=north).delete()
+    logs = services.UsageLog.of_site(site)
+    assert list(logs) == [None] and len(logs[None].nights) == 365
+    assert services.UsageLog.site_wide(site) is not None and len(services.UsageLog.site_wide(site).nights) == 365
+
+
+def test_one_row_per_telescope_and_night_and_one_for_the_site(two_telescopes):
+    from django.db import IntegrityError, transaction
+
+    site, north, _, _ = two_telescopes
+    with pytest.raises(IntegrityError), transaction.atomic():
+        NightUsage.objects.create(site=site, telescope=north, night=OWN_FROM, open_hours=1)
+    with pytest.raises(IntegrityError), transaction.atomic():
+        NightUsage.objects.create(site=site, night=OWN_FROM, open_hours=1)
+
+
+def test_a_telescope_of_another_site_is_refused(two_telescopes):
+    from django.core.exceptions import ValidationError
+
+    site, north, _, _ = two_telescopes
+    other = Site.objects.create(name="Far Hill", slug="far-hill", latitude_deg=0, longitude_deg=0, time_zone="UTC")
+    with pytest.raises(ValidationError, match="another site"):
+        NightUsage(site=other, telescope=north, night=OWN_FROM, open_hours=1).full_clean()
+
+
+def test_the_subsystem_page_names_the_telescope_whose_use_it_expects(two_telescopes, users, client):
+    from observatory_ops.planning.services import site_today
+
+    site, north, south, _ = two_telescopes
+    sky_from = TODAY + dt.timedelta(days=services.HORIZON_DAYS + 6)  # the pages count from the real today
+    constant_sky(site, sky_from, max(sky_from, site_today(site) + dt.timedelta(days=services.HORIZON_DAYS + 5)))
+    services.site_recompute(site)
+    client.force_login(users["viewer"])
+    north_page = client.get(north.subsystems.get().get_absolute_url()).content.decode()
+    south_page = client.get(south.subsystems.get().get_absolute_url()).content.decode()
+    assert "Expected use of North at Twin Ridge, by month" in north_page
+    assert "this telescope&#x27;s own open fraction" in north_page or "this telescope's own open fraction" in north_page
+    assert "Expected use at Twin Ridge, by month" in south_page
