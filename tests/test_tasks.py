@@ -396,6 +396,49 @@ def test_a_digest_that_could_not_be_sent_is_sent_by_the_next_run(mailed_people, 
     assert planning_tasks.due_digest_send.delay(site.pk).get() == 2
 
 
+def test_a_digest_that_fails_part_way_is_taken_up_by_mailing_only_the_others(mailed_people, monkeypatch):
+    """The mail server accepts the first message and drops the connection at the second (SMTPServerDisconnected, an
+    OSError: the task retries it). The person mailed is recorded as such, the one refused is not, and the day stays
+    unsent; the retry mails only the two not yet mailed and records the day. Nobody gets the digest twice."""
+    import smtplib
+
+    from django.contrib.auth.models import Group, User
+    from django.core.mail.backends.locmem import EmailBackend
+
+    from observatory_ops.planning.models import DigestSent
+
+    User.objects.create_user("engineer2", email="engineer2@vestal-ridge.invalid").groups.add(
+        Group.objects.get(name="engineer"))
+    site = site_in_use("part-way")
+    planning.site_recompute(site)
+    today = planning.site_today(site)
+    tried: list[str] = []
+    send_messages = EmailBackend.send_messages
+
+    def second_refused(self, messages):
+        for message in messages:
+            tried.extend(message.to)
+            if len(tried) == 2:
+                raise smtplib.SMTPServerDisconnected("connection unexpectedly closed")
+        return send_messages(self, messages)
+
+    monkeypatch.setattr(EmailBackend, "send_messages", second_refused)
+    with pytest.raises(smtplib.SMTPServerDisconnected):
+        planning_tasks.due_digest_send.delay(site.pk)
+    site.refresh_from_db()
+    assert site.digest_sent_on is None
+    assert [m.to for m in mail.outbox] == [["administrator@vestal-ridge.invalid"]]
+    assert list(DigestSent.objects.filter(site=site, day=today).values_list("address", flat=True)) == [
+        "administrator@vestal-ridge.invalid"]  # engineer2's message was refused: not recorded as sent
+
+    assert planning_tasks.due_digest_send.delay(site.pk).get() == 2  # the retry: the two not yet mailed
+    assert [m.to for m in mail.outbox] == [
+        ["administrator@vestal-ridge.invalid"], ["engineer2@vestal-ridge.invalid"], ["engineer@vestal-ridge.invalid"]]
+    site.refresh_from_db()
+    assert site.digest_sent_on == today and not DigestSent.objects.filter(site=site).exists()
+    assert planning_tasks.due_digest_send.delay(site.pk).get() == 0 and len(mail.outbox) == 3
+
+
 @pytest.fixture
 def mail_server_that_never_greets(settings):
     """A listener on loopback that accepts connections (the kernel completes them) and never says a word:

@@ -18,6 +18,7 @@ from observatory_ops.access.roles import ENGINEER, holders_of
 from observatory_ops.registry.models import Site
 
 from . import selectors
+from .models import DigestSent
 from .services import site_today, sites_bring_up_to_date
 
 log = logging.getLogger(__name__)
@@ -58,14 +59,16 @@ def due_digest(site: Site, today: dt.date, to: list[str]) -> EmailMessage | None
 
 
 def due_digest_send(site: Site, today: dt.date | None = None) -> int:
-    """Send today's digest for ``site`` to each engineer once; return how many addresses it went to.
+    """Send today's digest for ``site`` to each engineer once; return how many addresses it went to this time.
 
     One message per person: a message to all of them would show every engineer's address to every other.
-    At most one digest per site and local day, whichever process or command asks: the site's row is locked
-    while the messages go out and the day is recorded on it (``Site.digest_sent_on``) in the same transaction,
-    after the last message was accepted. So a second process waits and then finds the day sent, and a send
-    that fails, times out (``EMAIL_TIMEOUT``) or is killed leaves the day unsent for the next hourly run. A
-    failure part-way means those already mailed get that day's digest twice, rather than anyone none.
+    At most one digest per site, local day and person, whichever process or command asks: the site's row is locked
+    while the messages go out, one at a time. Each person is recorded as mailed (``DigestSent``) once their message
+    was accepted, never before, and the day is recorded on the site (``Site.digest_sent_on``) once all were, in the
+    same transaction. So a second process waits and then finds the day sent. A send that fails or times out
+    (``EMAIL_TIMEOUT``) part-way commits the people mailed so far and then raises, leaving the day unsent: the task's
+    retry, or the next hourly run, mails only the others. A process killed part-way (the hard time limit) loses its
+    transaction, so those it mailed get that day's digest twice, rather than anyone none.
     """
     today = today or site_today(site)
     if Site.objects.filter(pk=site.pk, digest_sent_on=today).exists():
@@ -78,17 +81,29 @@ def due_digest_send(site: Site, today: dt.date | None = None) -> int:
     message = due_digest(site, today, to)
     if message is None:
         return 0
-    messages = [EmailMessage(message.subject, message.body, to=[address]) for address in to]
     mail = get_connection()
     # Connected and greeted before the site's row is locked: a server that accepts but never answers fails
     # here, after EMAIL_TIMEOUT, holding up no one.
     mail.open()
+    sent, failure = 0, None
     try:
         with transaction.atomic():
             if not Site.objects.select_for_update().filter(pk=site.pk).exclude(digest_sent_on=today).exists():
                 return 0  # another process sent it meanwhile
-            mail.send_messages(messages)
-            Site.objects.filter(pk=site.pk).update(digest_sent_on=today)
+            mailed = set(DigestSent.objects.filter(site=site, day=today).values_list("address", flat=True))
+            for address in (address for address in to if address not in mailed):
+                try:
+                    mail.send_messages([EmailMessage(message.subject, message.body, to=[address])])
+                except Exception as exc:  # raised below, once the people mailed so far are committed
+                    failure = exc
+                    break
+                DigestSent.objects.create(site=site, day=today, address=address)
+                sent += 1
+            if failure is None:
+                Site.objects.filter(pk=site.pk).update(digest_sent_on=today)
+                DigestSent.objects.filter(site=site).delete()  # the day is sent to all: the site's day says so
     finally:
         mail.close()
-    return len(messages)
+    if failure is not None:
+        raise failure
+    return sent

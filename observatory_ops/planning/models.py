@@ -275,3 +275,20 @@ class BookedRun(models.Model):
     def clean(self) -> None:
         if self.ends_on < self.starts_on:
             raise ValidationError({"ends_on": "A run cannot end before it starts."})
+
+
+class DigestSent(models.Model):
+    """One person mailed a site's due digest of a day, while that day is not yet sent to everyone
+    (``Site.digest_sent_on`` says when it is): a send that failed part-way is taken up by mailing only the others
+    (``digest.due_digest_send``). Written once the person's message was accepted, never before; the site's rows are
+    removed when its day is sent to all."""
+
+    site = models.ForeignKey(Site, on_delete=models.CASCADE, related_name="+")
+    day = models.DateField(help_text="The site's local day of the digest.")
+    address = models.EmailField(max_length=254)
+    sent_at = models.DateTimeField(auto_now_add=True)
+
+    class Meta:
+        constraints = [
+            models.UniqueConstraint(fields=["site", "day", "address"], name="digest_sent_once_per_person_and_day")
+        ]

@@ -1,11 +1,13 @@
 from django import forms
-from django.contrib import admin
+from django.contrib import admin, messages
+from django.contrib.admin.utils import unquote
 from django.core.exceptions import ValidationError
 from django.forms.models import BaseInlineFormSet
+from django.http import HttpResponseRedirect
 from simple_history.admin import SimpleHistoryAdmin
 
 from . import selectors
-from .models import ChecklistTick, IsolationPoint, Part, PartUse, RequiredReading, WorkOrder, WorkOrderItem
+from .models import ChecklistTick, IsolationPoint, Part, PartUse, RequiredReading, WorkOrder, WorkOrderItem, listed
 
 
 class ItemsFixedOnceStarted(BaseInlineFormSet):
@@ -53,11 +55,21 @@ class TickInline(admin.TabularInline):
         return False
 
 
+#: What the admin page of a closed order says is kept as it was (``WorkOrder.closed_edit_refusal``).
+RECORD_SHOWN = "findings, hours, readings and parts used"
+
+
 @admin.register(WorkOrder)
 class WorkOrderAdmin(SimpleHistoryAdmin):
+    """A finished, countersigned or withdrawn order is the record (``WorkOrder.closed_edit_refusal``): its page shows
+    it read only, its rows included, and says why and how it is corrected; a post to it saves nothing and says so; its
+    history offers no revert (a revert posted all the same is refused by ``WorkOrder.clean``, as one that would move
+    any order's state is); and it is not deleted."""
+
     list_display = ("number", "title", "site", "state", "planned_date", "assignee")
     list_filter = ("site", "state", "order_type")
     inlines = [ItemInline, ReadingInline, PartUseInline, TickInline]
+    object_history_form_template = "admin/workorders/workorder/object_history_form.html"
     # Hazards and steps only through the order's own pages, which never drop a hazard and keep the lockout step
     # where the energy is isolated (services.work_order_hazards_update, forms.WorkOrderEditForm).
     readonly_fields = (
@@ -65,6 +77,37 @@ class WorkOrderAdmin(SimpleHistoryAdmin):
         "hazards_confirmed_at_finish", "isolation_unticked_at_finish", "isolation_confirmed_at_finish", "crew",
         "hazards", "steps", "at_telescope",
     )
+
+    def has_change_permission(self, request, obj=None):
+        """Not for a closed order: Django then shows its page read only, its inline rows with no add, change or
+        delete, and simple_history offers no revert. ``obj`` is a past version on the history's pages: the order's
+        stored state decides."""
+        if obj is not None and obj.closed_edit_refusal(RECORD_SHOWN):
+            return False
+        return super().has_change_permission(request, obj)
+
+    def changeform_view(self, request, object_id=None, form_url="", extra_context=None):
+        stored = self.get_object(request, unquote(object_id)) if object_id else None
+        closed = stored.closed_edit_refusal(RECORD_SHOWN) if stored else ""
+        if closed and request.method == "POST":  # a page loaded before the order closed, or a post made by hand
+            self.message_user(request, f"Nothing saved: {closed}", messages.ERROR)
+            return HttpResponseRedirect(request.path)
+        return super().changeform_view(request, object_id, form_url, {**(extra_context or {}), "closed": closed})
+
+    def history_form_view(self, request, object_id, version_id, extra_context=None):
+        """A past version of a closed order is shown with no revert, and the page says why (as its change page)."""
+        stored = self.get_object(request, unquote(object_id))
+        closed = stored.closed_edit_refusal(RECORD_SHOWN) if stored else ""
+        return super().history_form_view(request, object_id, version_id, {**(extra_context or {}), "closed": closed})
+
+    def get_deleted_objects(self, objs, request):
+        """A closed order is not deleted (the single delete page and the list's delete action both ask here): Django's
+        page lists it as standing in the way, and deletes nothing."""
+        deleted, counts, permissions, protected = super().get_deleted_objects(objs, request)
+        for order in objs:
+            if closed := order.closed_edit_refusal(RECORD_SHOWN):
+                protected.append(closed)
+        return deleted, counts, permissions, protected
 
 
 @admin.register(Part)
@@ -91,8 +134,7 @@ class IsolationPointForm(forms.ModelForm):
 
 
 def _locked_by(orders: list[WorkOrder], done: str) -> str:
-    numbers = [order.number for order in orders]
-    named = " and ".join([", ".join(numbers[:-1]), numbers[-1]] if len(numbers) > 1 else numbers)
+    named = listed([order.number for order in orders])
     return (
         f"This point is on the lockout of {named}, underway: it is not {done} while that work is underway, since it "
         "would drop out of the lockout in progress. Do it once the work is finished or withdrawn."

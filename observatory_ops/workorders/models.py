@@ -142,37 +142,96 @@ class WorkOrder(models.Model):
         return [line.strip() for line in self.tools.splitlines() if line.strip()]
 
     def clean(self) -> None:
-        """Once the work has started, what its checklist is made of stays as stored (``FIXED_ONCE_STARTED``): the
-        admin's change form, the admin history's revert (which would bring back an earlier version's steps and state)
-        and the edit page all save through a form that calls this. The lifecycle moves go through
-        ``services.work_order_move`` and ``services.work_order_finish``, never a form."""
-        stored = WorkOrder.objects.filter(pk=self.pk).values(*FIXED_ONCE_STARTED).first() if self.pk else None
-        if stored and any(getattr(self, field) != stored[field] for field in FIXED_ONCE_STARTED):
+        """What a form may change of an order as stored. The admin's change form, the admin history's revert (which
+        would bring back every field of an earlier version, state and steps included) and the edit page all save
+        through a form that calls this; the lifecycle moves go through ``services.work_order_move`` and
+        ``services.work_order_finish``, never a form.
+
+        Finished, countersigned or withdrawn, the order is the record: nothing of it changes
+        (``closed_edit_refusal``). Once the work has started, what its checklist is made of stays as stored
+        (``FIXED_ONCE_STARTED``). And its state is never moved by a form (``state_move_refusal``)."""
+        stored = WorkOrder.objects.filter(pk=self.pk).values(*RECORD_FIELDS).first() if self.pk else None
+        changed = [field for field in RECORD_FIELDS if stored and getattr(self, field) != stored[field]]
+        if not changed:
+            return
+        if why := self.closed_edit_refusal(_field_names(changed)):
+            raise ValidationError(why)
+        if set(changed) & set(FIXED_ONCE_STARTED):
             if why := self.started_edit_refusal("steps, hazards, telescope and state"):
                 raise ValidationError(why)
+        if "state" in changed:
+            raise ValidationError(self.state_move_refusal(stored["state"], self.state))
+
+    def _stored_state(self) -> str | None:
+        return WorkOrder.objects.filter(pk=self.pk).values_list("state", flat=True).first() if self.pk else None
 
     def started_edit_refusal(self, what: str) -> str:
         """Why ``what`` ("the subsystems it covers") of this order may not change, "" while it may: as stored, a
         draft or an issued order is still edited. Underway, the technicians tick its lockout step, the steps done with
         the energy isolated and the isolation points it locks (its telescope's and its subsystems') as they stand, so a
-        change would move them under the lockout in progress; finished or withdrawn, it is the record."""
-        state = WorkOrder.objects.filter(pk=self.pk).values_list("state", flat=True).first() if self.pk else None
-        if state is None or state in (State.DRAFT, State.ISSUED):
-            return ""
-        if state == State.UNDERWAY:
+        change would move them under the lockout in progress; finished or withdrawn, it is the record
+        (``closed_edit_refusal``)."""
+        if self._stored_state() == State.UNDERWAY:
             return (
                 f"{self.number} is underway: its {what} are not changed while the work is underway, since its lockout "
                 "step, the steps done with the energy isolated and the isolation points it locks are ticked as they "
                 "stand. To change the work, leave it safe, withdraw this order on its page (saying why) and make a new "
                 "one."
             )
-        return f"{self.number} is {State(state).label}: its record stays as it was, its {what} included."
+        return self.closed_edit_refusal(what)
+
+    def closed_edit_refusal(self, what: str) -> str:
+        """Why ``what`` ("findings") of this order may not change because, as stored, it is finished, countersigned
+        or withdrawn (``CLOSED_STATES``), and how such a record is corrected; "" while it is not closed."""
+        state = self._stored_state()
+        if state not in CLOSED_STATES:
+            return ""
+        return f"{self.number} is {State(state).label}: its record stays as it was, its {what} included. " + (
+            RECORD_CORRECTED[state]
+        )
+
+    def state_move_refusal(self, stored: str, asked: str) -> str:
+        """Why a form may not move this order from ``stored`` to ``asked``: each move is made on the order's page,
+        where the lifecycle's conditions are checked and its dates and records written (``lifecycle.TRANSITIONS``)."""
+        from .lifecycle import available  # lifecycle reads State from this module
+
+        moves = ", ".join(f"'{t.label}'" for t in available(stored))
+        onward = f"it moves on only by the lifecycle, on its page: {moves}" if moves else "it moves no further"
+        return (
+            f"{self.number} is {State(stored).label}: its state is not changed here (to {State(asked).label}). From "
+            f"{State(stored).label} {onward}."
+        )
 
 
+#: The states in which the work is over, done or given up: the order is part of the record from then on.
+CLOSED_STATES = (State.FINISHED, State.COUNTERSIGNED, State.WITHDRAWN)
+#: How a closed order's record is corrected, by its state: finishing wrote service records, which are corrected by a
+#: new record that points back to the one it replaces (``logbook.models.ServiceRecord.corrects``).
+_FINISHED_CORRECTED = (
+    "Finished work orders are part of the record: correct them with a new service record (\"correct\" beside its "
+    "service record on the subsystem page), which points back to the one it replaces."
+)
+RECORD_CORRECTED = {
+    State.FINISHED: _FINISHED_CORRECTED,
+    State.COUNTERSIGNED: _FINISHED_CORRECTED,
+    State.WITHDRAWN: "Withdrawn work orders are part of the record: for the work, make a new work order.",
+}
 #: What an order's checklist is made of, with the state it is in: its steps (the lockout step, the work done locked
 #: out), its hazards (whether it is locked out at all, and its cautions), its telescope (whose isolation points the
 #: lockout step locks) and whether the work is at the telescope. Fixed once the work has started (``WorkOrder.clean``).
 FIXED_ONCE_STARTED = ("state", "steps", "hazards", "telescope_id", "at_telescope")
+#: Every stored field of an order but its id: all fixed once it is closed (``WorkOrder.clean``).
+RECORD_FIELDS = tuple(field.attname for field in WorkOrder._meta.concrete_fields if not field.primary_key)
+
+
+def listed(words: list[str]) -> str:
+    """``words`` in a sentence: "a", "a and b", "a, b and c"."""
+    return " and ".join([", ".join(words[:-1]), words[-1]] if len(words) > 1 else words)
+
+
+def _field_names(attnames: list[str]) -> str:
+    """The fields as people read them, e.g. "findings and actual hours"."""
+    return listed([str(WorkOrder._meta.get_field(attname).verbose_name) for attname in attnames])
 
 
 class WorkOrderItem(models.Model):
