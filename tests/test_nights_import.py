@@ -924,6 +924,8 @@ CHANGING_FILE = render(
     [[FIRST_NIGHT.isoformat(), "7.5", "40", ""], [(FIRST_NIGHT + dt.timedelta(days=1)).isoformat(), "6", "12", "20"]],
     "night,open_hours,slews,pm10_ugm3",
 )
+#: The first cells of a change of the stored night in the page's list: the night, and whose (no telescope named).
+CHANGED_NIGHT = f"<td>{FIRST_NIGHT}</td><td>whole site</td>"
 
 
 def test_an_upload_that_would_change_a_stored_night_lists_each_change_and_stores_nothing_yet(
@@ -936,9 +938,9 @@ def test_an_upload_that_would_change_a_stored_night_lists_each_change_and_stores
         "Check the changes below and confirm them. The file would change 1 stored night (1 new, 0 unchanged); "
         "nothing was stored yet."
     ]
-    assert f"<td>{FIRST_NIGHT}</td><td><code>open_hours</code></td><td>7.59</td><td>7.5</td>" in page
-    assert f"<td>{FIRST_NIGHT}</td><td><code>pm10_ugm3</code></td><td>35.5</td><td>empty</td>" in page
-    assert f"<td>{FIRST_NIGHT}</td><td><code>slews</code>" not in page  # the same figure as stored is no change
+    assert f"{CHANGED_NIGHT}<td><code>open_hours</code></td><td>7.59</td><td>7.5</td>" in page
+    assert f"{CHANGED_NIGHT}<td><code>pm10_ugm3</code></td><td>35.5</td><td>empty</td>" in page
+    assert f"{CHANGED_NIGHT}<td><code>slews</code>" not in page  # the same figure as stored is no change
     assert "choose the same file again and press <em>Store these changes</em>" in page
     assert ">Store these changes</button>" in page
     # Nothing at all is stored, not even the new night: an import is all or nothing.
@@ -953,7 +955,7 @@ def test_the_same_file_sent_again_with_the_token_stores_the_changes_shown_and_a_
     assert messages_of(response) == ["Import done: 1 new, 1 updated, 0 unchanged."]
     page = response.content.decode()
     assert "Changed in stored nights:" in page and "<th>Was</th><th>Now</th>" in page
-    assert f"<td>{FIRST_NIGHT}</td><td><code>open_hours</code></td><td>7.59</td><td>7.5</td>" in page
+    assert f"{CHANGED_NIGHT}<td><code>open_hours</code></td><td>7.59</td><td>7.5</td>" in page
     stored = NightUsage.objects.get(site=night_of_759, night=FIRST_NIGHT)
     assert (stored.open_hours, stored.slews, stored.pm10_ugm3) == (7.5, 40, None)
     assert NightUsage.objects.filter(site=night_of_759).count() == 2 and recomputes == [night_of_759.pk]
@@ -975,7 +977,7 @@ def test_a_token_of_other_changes_stores_nothing_and_shows_the_changes_now_due(
     assert messages_of(response)[0].startswith(
         "These changes are not the ones confirmed (the file or the stored nights differ): check them again."
     )
-    assert f"<td>{FIRST_NIGHT}</td><td><code>open_hours</code></td><td>7.75</td><td>7.5</td>" in (
+    assert f"{CHANGED_NIGHT}<td><code>open_hours</code></td><td>7.75</td><td>7.5</td>" in (
         response.content.decode()
     )
     assert snapshot() == before and recomputes == []

@@ -1,7 +1,7 @@
 """Specifications for what README.md tells a newcomer: the demo logins, the demo's port, how to get from the
-quick start's serving command to the tests, and an API example whose documented answer is what the demo gives.
+quick start's serving command to the tests, and API examples whose documented answers are what the demo gives.
 
-The README is read as written; the API example is sent to a freshly loaded demo exactly as its curl line sends it.
+The README is read as written; each API example is sent to a freshly loaded demo exactly as its curl line sends it.
 """
 from __future__ import annotations
 
@@ -44,13 +44,15 @@ def test_the_readme_names_the_demos_port_option_and_the_command_takes_it():
 
 
 @pytest.mark.django_db
-def test_the_api_example_posted_to_a_fresh_demo_gets_the_answer_the_readme_shows(client):
-    example = README.split("curl -X POST http://127.0.0.1:8000/api/v1/sites/vestal-ridge/nights")[1]
-    body = re.search(r"-d '(.*)'", example).group(1)
-    answer = example.split("\n")[3]
-    assert answer == '{"created": 1, "updated": 0, "unchanged": 0}'
+def test_the_api_examples_posted_to_a_fresh_demo_get_the_answers_the_readme_shows(client):
+    """In order: the site's night, two telescopes' nights, and a telescope the site does not have."""
+    examples = README.split("curl -X POST http://127.0.0.1:8000/api/v1/sites/vestal-ridge/nights")[1:]
+    bodies = [re.search(r"-d '(.*?)'\n", example, re.DOTALL).group(1) for example in examples]
+    answers = [example.split("'\n", 1)[1].split("\n")[0] for example in examples]
+    assert [json.loads(answer).get("created") for answer in answers] == [1, 2, None]
     call_command("demo", "--no-serve", stdout=StringIO())
     secret = api_services.api_token_create(Site.objects.get(slug=SITE_SLUG), "east dome control computer")[1]
-    response = client.post(f"/api/v1/sites/{SITE_SLUG}/nights", data=body, content_type="application/json",
-                           HTTP_AUTHORIZATION=f"Bearer {secret}")
-    assert response.json() == json.loads(answer)
+    for body, answer in zip(bodies, answers, strict=True):
+        response = client.post(f"/api/v1/sites/{SITE_SLUG}/nights", data=body, content_type="application/json",
+                               HTTP_AUTHORIZATION=f"Bearer {secret}")
+        assert response.json() == json.loads(answer)

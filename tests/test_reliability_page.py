@@ -15,6 +15,7 @@ from observatory_ops.logbook.models import NightUsage, ServiceRecord
 from observatory_ops.registry.models import Subsystem
 from observatory_ops.registry.services import subsystem_create
 from observatory_ops.reliability.selectors import (
+    AFTER_RETIRED,
     BEFORE_LOG,
     BEFORE_START,
     FIRST_NIGHT,
@@ -140,8 +141,9 @@ def test_the_page_shows_the_figures_and_says_how_they_are_made(record, client):
     page = client.get(url).content.decode()
     assert "Cooling fans and filters" in page and "385 h" in page
     assert "too few failures for a fit: 1" in page
-    for words in ("corrective work order that was finished or countersigned", "dome-open hours",
-                  "2T / χ²(0.95; 2n+2)", "NIST/SEMATECH e-Handbook", "<svg"):
+    for words in ("corrective work order that was finished or countersigned",
+                  "open hours of the nightly log of the subsystem", "2T / χ²(0.95; 2n+2)", "NIST/SEMATECH e-Handbook",
+                  "<svg"):
         assert words in page
 
 
@@ -316,6 +318,50 @@ def test_a_failure_before_the_day_the_hours_count_from_or_before_the_log_has_no_
 def test_without_a_logged_night_no_failure_has_hours_leading_up_to_it():
     start = Start("T1: Fans", TODAY, FIRST_NIGHT)
     assert left_out_reason(dt.date(2026, 1, 5), start, first_night=None) == BEFORE_LOG
+
+
+@pytest.mark.parametrize(("night", "reason"), [
+    (dt.date(2026, 1, 31), None),
+    (dt.date(2026, 2, 1), None),  # the day it was retired: the unit failed and was retired that day
+    (dt.date(2026, 2, 2), AFTER_RETIRED),
+])
+def test_a_failure_after_the_day_a_subsystem_was_retired_is_not_one_in_service(night, reason):
+    start = Start("T1: Fan C", START, PLANS_COUNTING_FROM)
+    assert left_out_reason(night, start, first_night=START, retired_on=dt.date(2026, 2, 1)) == reason
+
+
+def test_failures_after_a_subsystems_retirement_are_left_out_and_the_one_on_its_day_counts(record, users, client):
+    """Fan C, retired on 1 Feb 2026, with corrective orders finished on the nights of 20 Jan, 1 Feb (the day it was
+    retired), 10 Feb and 1 Mar. By hand (5 open hours a night, its hours the 31 January nights, 155 h): its failures
+    at 100 h (after the nights of 1-20 Jan) and at the end of its hours, 155 h (the night of 1 Feb, which its hours no
+    longer count); between 100 and 55 h, running 0 h. The two after 1 Feb are left out: they used to be placed at
+    155 h as well, two more failures with 0 h between them. With the fixture's fans A and B (1,000 h, failures after
+    105, 150 and 300 h, running 245 and 200 h): T = 1,155 h, n = 5, MTBF 231 h."""
+    fan_c = Subsystem.objects.get(name="Fan C")
+    for night in (dt.date(2026, 1, 20), dt.date(2026, 2, 1), dt.date(2026, 2, 10), dt.date(2026, 3, 1)):
+        _order(record, [fan_c], users["engineer"], night)
+    fans = next(k for k in site_reliability(record, TODAY).kinds if k.code == "cooling_fans")
+    assert [(f.subsystem, f.night, f.reason) for f in fans.left_out] == [
+        ("T1: Fan C", dt.date(2026, 2, 10), AFTER_RETIRED), ("T1: Fan C", dt.date(2026, 3, 1), AFTER_RETIRED),
+    ]
+    assert (fans.failures, fans.operating_hours, fans.zero_intervals) == (5, pytest.approx(1155.0), 0)
+    assert sorted(fans.between) == [55.0, 100.0, 105.0, 150.0, 300.0]
+    assert sorted(fans.running) == [0.0, 200.0, 245.0]
+    # MTBF = T / n and its 90 % interval 2T / chi2(0.95; 2n+2) to 2T / chi2(0.05; 2n), quantiles from
+    # scipy.stats.chi2 (NIST/SEMATECH e-Handbook, chapter 8, time-terminated exponential bounds).
+    assert fans.mtbf.mtbf_hours == pytest.approx(231.0)
+    assert fans.mtbf.lower_hours == pytest.approx(2 * 1155.0 / stats.chi2.ppf(0.95, 12))
+    assert fans.mtbf.upper_hours == pytest.approx(2 * 1155.0 / stats.chi2.ppf(0.05, 10))
+    # The fit is of the failures kept, fan C's interval of 0 h still running adding nothing (lifelines.WeibullFitter
+    # on the same censored data, independent reference).
+    reference = WeibullFitter().fit([55, 100, 105, 150, 300, 200, 245], event_observed=[1, 1, 1, 1, 1, 0, 0])
+    assert fans.fit.beta == pytest.approx(reference.rho_, rel=1e-5)
+    assert fans.fit.eta_hours == pytest.approx(reference.lambda_, rel=1e-5)
+    client.force_login(users["viewer"])
+    page = client.get(reverse("site-reliability", args=[record.slug])).content.decode()
+    assert "2 left out</summary>" in page
+    assert ("Left out: T1: Fan C on the nights of 10 Feb 2026, 01 Mar 2026 (after the day it was retired: it was no "
+            "longer in service). Not counted in the failures, the MTBF or the fit.") in page
 
 
 def test_a_failure_on_the_night_of_the_in_service_date_is_the_replaced_units(record):

@@ -153,3 +153,12 @@ def test_the_subsystem_page_names_the_telescope_whose_use_it_expects(two_telesco
     assert "Expected use of North at Twin Ridge, by month" in north_page
     assert "this telescope&#x27;s own open fraction" in north_page or "this telescope's own open fraction" in north_page
     assert "Expected use at Twin Ridge, by month" in south_page
+
+
+def test_reliability_counts_each_subsystems_hours_from_its_telescopes_log(two_telescopes):
+    """Both fans count from their plans' start (15 Jun 2025) to today: North 2,120 h, South 1,460 h (above)."""
+    from observatory_ops.reliability.selectors import site_reliability
+
+    site, _, _, _ = two_telescopes
+    fans = next(k for k in site_reliability(site, TODAY).kinds if k.code == "cooling_fans")
+    assert fans.operating_hours == pytest.approx(2120 + 1460)

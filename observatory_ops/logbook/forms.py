@@ -91,18 +91,27 @@ class NightsUploadForm(forms.Form):
         return upload
 
 
+#: How a telescope's log is made up (``NightUsage``), said beside the telescope choice.
+TELESCOPE_RULE = "A telescope's log is its own nights, and the whole site's nights on which it has none of its own."
+
+
 class NightForm(forms.Form):
     """One night typed in: a text field per column of the nights format, checked by the same rules as the
     CSV import and the API (``nights_csv``), so this form keeps no rules of its own. A field left empty is
-    left out: a night already stored keeps that figure, a new night takes the format's default."""
+    left out: a night already stored keeps that figure, a new night takes the format's default. The
+    telescope is chosen among ``telescopes`` (the site's telescope names); none chosen: the whole site's night."""
 
-    def __init__(self, *args, **kwargs):
+    def __init__(self, *args, telescopes=(), **kwargs):
         from .nights_csv import COLUMN_SPECS
 
         super().__init__(*args, **kwargs)
         for column in COLUMN_SPECS:
             label = f"{column.meaning[:1].upper()}{column.meaning[1:]}" + (f" ({column.unit})" if column.unit else "")
-            if column.kind == "flag":
+            if column.kind == "telescope":
+                choices = [("", f"{services.WHOLE_SITE}: every telescope without a night of its own")]
+                field = forms.ChoiceField(choices=choices + [(name, name) for name in telescopes], required=False,
+                                          label="Telescope", help_text=TELESCOPE_RULE)
+            elif column.kind == "flag":
                 choices = [("", "as stored (no for a new night)"), ("no", "no"), ("yes", "yes")]
                 field = forms.ChoiceField(choices=choices, required=False, label=label)
             elif column.kind == "date":

@@ -5,6 +5,11 @@ takes the same records as JSON objects keyed by the column names. ``COLUMN_SPECS
 once (unit, accepted range, what a blank means): the checks below read it, and so does the help table of
 the import page.
 
+A record is one night of the whole site, or of one telescope when it names one (``telescope``): the names
+are text here, checked against the site's telescope names the caller passes in (``logbook.services`` reads
+them and turns each name back into its telescope). A telescope's log is its own rows, and the site's rows
+on the nights it has none of its own (``logbook.models.NightUsage``).
+
 A column left out of a file (or a key left out of an object) gives nothing: a night already stored keeps
 that figure, and a new night takes the column's blank value. A blank cell or a JSON null is a value: the
 column's blank value.
@@ -49,7 +54,8 @@ def _figure(value: float) -> str:
 
 @dataclass(frozen=True)
 class Column:
-    """One column of the format. ``kind`` is "date", "number", "count" (a whole number) or "flag" (yes/no).
+    """One column of the format. ``kind`` is "date", "telescope" (a telescope's name), "number", "count" (a whole
+    number) or "flag" (yes/no).
 
     ``blank`` is the value a blank cell or null stands for, and a new night's value when the column is
     left out; ``example`` is the column's cell in the example row of the help.
@@ -73,6 +79,8 @@ class Column:
                     f"at most {MAX_YEARS_BACK} years back")
         if self.kind == "flag":
             return "yes or no (also 1 or 0, true or false)"
+        if self.kind == "telescope":
+            return "the name of one of the site's telescopes, as registered (case and spaces around it aside)"
         whole = " (whole number)" if self.kind == "count" else ""
         return f"{_figure(self.low)} to {_figure(self.high)}{whole}"
 
@@ -81,6 +89,8 @@ class Column:
         """What an empty cell (or null) means, in words."""
         if self.required:
             return "refused"
+        if self.kind == "telescope":
+            return "the whole site's night"
         if self.blank is None:
             return "not measured"
         if self.kind == "flag":
@@ -90,6 +100,8 @@ class Column:
 
 COLUMN_SPECS: tuple[Column, ...] = (
     Column("night", "local date of the evening the night starts", "date", "2026-03-14", required=True),
+    # Left out or empty: the site's night, counted for every telescope with no row of its own that night.
+    Column("telescope", "whose night: one telescope's, or (empty) the whole site's", "telescope", ""),
     Column("open_hours", "hours the dome was open", "number", "7.5", unit="h", low=0, high=24, required=True),
     Column("slews", "number of slews", "count", "41", low=0, high=MAX_SLEWS_PER_NIGHT, blank=0),
     Column("axis1_travel_deg", "travel of the right ascension / azimuth axis", "number", "1030.5", unit="degrees",
@@ -129,9 +141,20 @@ def cell(value: object) -> str:
     return str(value)
 
 
-def example_csv() -> str:
-    """A header line and one row, every column given."""
-    return "\n".join([",".join(COLUMNS), ",".join(c.example for c in COLUMN_SPECS)])
+def cells_of(stored) -> dict[str, str]:
+    """A stored night (a ``NightUsage``) as the cells of a row of this format, the telescope by its name: the
+    row that reads back as that night."""
+    return {
+        c.name: cell(stored.telescope.name if stored.telescope_id else None) if c.kind == "telescope"
+        else cell(getattr(stored, c.name))
+        for c in COLUMN_SPECS
+    }
+
+
+def example_csv(telescopes: Sequence[str] = ()) -> str:
+    """A header line and the whole site's row, every column given; then the same night of each of ``telescopes``."""
+    rows = [{**{c.name: c.example for c in COLUMN_SPECS}, "telescope": name} for name in ("", *telescopes)]
+    return "\n".join([",".join(COLUMNS), *(",".join(row[name] for name in COLUMNS) for row in rows)])
 
 
 def earliest_accepted(today: dt.date) -> dt.date:
@@ -185,15 +208,18 @@ class FileError(ValueError):
 class ParsedNights:
     """Records checked one by one against the same rules, CSV rows or JSON objects alike.
 
-    ``where`` words a position in the duplicate-night message ("on line", "at index"). Each row of
-    ``rows`` holds the values of the columns its record gives, night and open_hours always among them.
+    ``where`` words a position in the duplicate-night message ("on line", "at index"); ``telescopes`` are the
+    names of the site's telescopes. Each row of ``rows`` holds the values of the columns its record gives,
+    night and open_hours always among them; its ``telescope``, when given, is the name as registered (None: the
+    whole site's night).
     """
 
     latest_night: dt.date
     where: str
+    telescopes: Sequence[str] = ()
     rows: list[tuple[int, dict]] = field(default_factory=list)  # (position, NightUsage field values)
     errors: list[Problem] = field(default_factory=list)
-    _seen: dict[dt.date, int] = field(default_factory=dict, repr=False)
+    _seen: dict[tuple[str | None, dt.date], int] = field(default_factory=dict, repr=False)
 
     @property
     def whole_problem(self) -> str | None:
@@ -203,17 +229,18 @@ class ParsedNights:
     def add(self, position: int, record: Mapping[str, object]) -> None:
         """Check one record; keep its values, or every problem it has.
 
-        A night may appear only once among the good records; a record refused for its own figures takes
-        no part in that check.
+        A night of the site, or of one telescope, may appear only once among the good records; a record
+        refused for its own figures takes no part in that check.
         """
-        values, problems = _checked(record, self.latest_night)
-        night = values.get("night")
-        if not problems and night in self._seen:
-            problems.append(("night", f"night {night} already appears {self.where} {self._seen[night]}"))
+        values, problems = _checked(record, self.latest_night, self.telescopes)
+        key = (values.get("telescope"), values.get("night"))
+        if not problems and key in self._seen:
+            whose = f" of telescope {key[0]}" if key[0] else ""
+            problems.append(("night", f"night {key[1]}{whose} already appears {self.where} {self._seen[key]}"))
         for field_name, reason in problems:
             self.refuse(position, reason, field_name)
         if not problems:
-            self._seen[night] = position
+            self._seen[key] = position
             self.rows.append((position, values))
 
     def refuse(self, position: int | None, reason: str, field_name: str | None = None) -> None:
@@ -313,19 +340,43 @@ def _blank(raw: object) -> bool:
     return raw is None or (isinstance(raw, str) and not raw.strip())
 
 
-def _value(column: Column, raw: object, latest_night: dt.date) -> object:
+def _telescope(raw: object, telescopes: Sequence[str]) -> str:
+    """The name, as registered, of the site's telescope that ``raw`` names: written as registered, or else
+    ignoring case, so long as that names one telescope (names differing only in case can each be written
+    exactly). Surrounding spaces never count."""
+    if not isinstance(raw, str):
+        raise RowError("telescope", f"telescope must be a telescope's name, not {reprlib.repr(raw)}")
+    written = raw.strip()
+    by_name = {name.strip(): name for name in telescopes}
+    if written in by_name:
+        return by_name[written]
+    alike = [name for name in telescopes if name.strip().casefold() == written.casefold()]
+    if len(alike) == 1:
+        return alike[0]
+    if alike:
+        raise RowError("telescope", f"telescope {written!r} could be any of {', '.join(alike)}: write the name "
+                       "as registered")
+    known = f"known at this site: {', '.join(telescopes)}" if telescopes else "this site has no telescope registered"
+    raise RowError("telescope", f"unknown telescope {written!r} ({known}); leave it empty for the whole site's night")
+
+
+def _value(column: Column, raw: object, latest_night: dt.date, telescopes: Sequence[str]) -> object:
     if column.kind == "date":
         return _night(raw, latest_night)
     if _blank(raw):
         if column.required:
             raise RowError(column.name, f"{column.name} is empty")
         return column.blank
+    if column.kind == "telescope":
+        return _telescope(raw, telescopes)
     if column.kind == "flag":
         return _flag(raw, column.name)
     return _number(raw, column)
 
 
-def _checked(record: Mapping[str, object], latest_night: dt.date) -> tuple[dict, list[tuple[str | None, str]]]:
+def _checked(
+    record: Mapping[str, object], latest_night: dt.date, telescopes: Sequence[str]
+) -> tuple[dict, list[tuple[str | None, str]]]:
     """The values of the columns the record gives, and every (field, message) problem found."""
     values, problems = {}, []
     for name in record:
@@ -337,35 +388,36 @@ def _checked(record: Mapping[str, object], latest_night: dt.date) -> tuple[dict,
                 problems.append((column.name, f"{column.name} is missing"))
             continue
         try:
-            values[column.name] = _value(column, record[column.name], latest_night)
+            values[column.name] = _value(column, record[column.name], latest_night, telescopes)
         except RowError as exc:
             problems.append((exc.field, str(exc)))
     return values, problems
 
 
-def parse_row(record: Mapping[str, object], latest_night: dt.date) -> dict:
+def parse_row(record: Mapping[str, object], latest_night: dt.date, telescopes: Sequence[str] = ()) -> dict:
     """Check one record and return the NightUsage values of the columns it gives.
 
     A record is a CSV row (every value a string) or a JSON object (strings, numbers, booleans, null);
     the rules are the same: a blank cell and null both mean the column's blank value, whole-number
     columns take no fractions (4.0 is 4), ``dew`` and ``rain`` take yes/no, 1/0, true/false or a JSON
-    boolean. Raises RowError listing every problem (``field`` names the first).
+    boolean, ``telescope`` one of ``telescopes`` (the site's telescope names). Raises RowError listing
+    every problem (``field`` names the first).
     """
-    values, problems = _checked(record, latest_night)
+    values, problems = _checked(record, latest_night, telescopes)
     if problems:
         raise RowError(problems[0][0], "; ".join(message for _, message in problems), problems)
     return values
 
 
-def parse_objects(records: Sequence[object], latest_night: dt.date) -> ParsedNights:
+def parse_objects(records: Sequence[object], latest_night: dt.date, telescopes: Sequence[str] = ()) -> ParsedNights:
     """Check nights sent as JSON objects (keys: the CSV column names); positions are list indexes.
 
     Every problem of every object is reported with its index and field; an empty list is one problem
-    of the whole body.
+    of the whole body. ``telescopes``: the names of the site's telescopes.
     """
     if isinstance(records, str | bytes | Mapping) or not isinstance(records, Sequence):
         raise ValueError(f"the nights must be a list of objects, not {type(records).__name__}")
-    result = ParsedNights(latest_night, where="at index")
+    result = ParsedNights(latest_night, where="at index", telescopes=telescopes)
     if not records:
         result.refuse(None, "the list of nights is empty")
     for index, record in enumerate(records):
@@ -412,14 +464,15 @@ def _header_problem(columns: dict[int, str], first_line: str) -> str | None:
     return "; ".join(problems) or None
 
 
-def parse(text: str, latest_night: dt.date) -> ParsedNights:
+def parse(text: str, latest_night: dt.date, telescopes: Sequence[str] = ()) -> ParsedNights:
     """Parse and check the whole file. Every problem of every bad row is reported with its line number.
 
     A problem of the whole file (empty, no rows, a header that does not name the columns) is reported
     with position None, and no row is checked. A column with neither a header nor a value is left out:
-    spreadsheets export the empty columns right of the data that way.
+    spreadsheets export the empty columns right of the data that way. ``telescopes``: the names of the
+    site's telescopes.
     """
-    result = ParsedNights(latest_night, where="on line")
+    result = ParsedNights(latest_night, where="on line", telescopes=telescopes)
     if not text.strip():
         result.refuse(None, f"it is empty; it must hold {WHAT_A_FILE_HOLDS}")
         return result

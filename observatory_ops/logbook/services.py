@@ -12,6 +12,7 @@ from dataclasses import dataclass, field
 
 from django.core.exceptions import ValidationError
 from django.db import IntegrityError, transaction
+from django.db.models import Q
 from django.template.defaultfilters import pluralize
 from django.utils import timezone
 from simple_history.utils import bulk_create_with_history, bulk_update_with_history
@@ -20,25 +21,35 @@ from observatory_ops.calc.night_of import night_of
 from observatory_ops.planning.models import ServicePlan
 from observatory_ops.planning.selectors import nights_before_unknown_starts_note
 from observatory_ops.planning.services import site_recompute, site_today
-from observatory_ops.registry.models import Site, Subsystem
+from observatory_ops.registry.models import Site, Subsystem, Telescope
 
 from . import nights_csv
 from .models import NightUsage, Reading, ServiceRecord
 from .quantities import QUANTITIES, value_problem
 
-_USAGE_FIELDS = [c for c in nights_csv.COLUMNS if c != "night"]
+#: The columns that say which night a record is (the site's, or one telescope's), not what was used in it.
+_KEY_COLUMNS = ("night", "telescope")
+_USAGE_FIELDS = [c for c in nights_csv.COLUMNS if c not in _KEY_COLUMNS]
 #: What a new night stores for a column its record leaves out.
-_BLANKS = {c.name: c.blank for c in nights_csv.COLUMN_SPECS if not c.required}
+_BLANKS = {c.name: c.blank for c in nights_csv.COLUMN_SPECS if not c.required and c.name not in _KEY_COLUMNS}
+#: A stored night: (telescope id, or None for the whole site's night; the night).
+NightKey = tuple[int | None, dt.date]
 
 
 @dataclass(frozen=True)
 class NightChange:
-    """One figure of a stored night that an import changes (or would change, awaiting confirmation)."""
+    """One figure of a stored night that an import changes (or would change, awaiting confirmation).
+    ``telescope`` is the name of the telescope whose night it is, "" for the whole site's night."""
 
     night: dt.date
     column: str
     old: object
     new: object
+    telescope: str = ""
+
+    @property
+    def whose(self) -> str:
+        return self.telescope or WHOLE_SITE
 
     @property
     def old_text(self) -> str:
@@ -49,6 +60,15 @@ class NightChange:
         return nights_csv.cell(self.new) or "empty"
 
 
+#: How pages and messages name a night that is no one telescope's.
+WHOLE_SITE = "whole site"
+
+
+def night_named(night: dt.date | str, telescope: str) -> str:
+    """"2024-01-05" for the whole site's night, "2024-01-05 (North)" for a telescope's."""
+    return f"{night} ({telescope})" if telescope else str(night)
+
+
 @dataclass
 class ImportReport:
     created: int = 0
@@ -57,6 +77,7 @@ class ImportReport:
     errors: list[nights_csv.Problem] = field(default_factory=list)  # (line or index, reason), with .field
     skipped: list[nights_csv.Problem] = field(default_factory=list)
     stored: bool = False
+    #: The night of each stored night updated (the site's, or a telescope's: ``changes`` names which), in order.
     updated_nights: list[dt.date] = field(default_factory=list)
     file_problem: str = ""  # a sentence when the whole file or body is refused (then no row was read)
     #: Every figure of a stored night that the import changed, or would change when ``confirm_token`` is set.
@@ -82,7 +103,7 @@ class ImportReport:
         if self.errors:
             return f"{_rows(self.errors)}; nothing was stored."
         if self.confirm_token:
-            nights = len({change.night for change in self.changes})
+            nights = len({(change.night, change.telescope) for change in self.changes})
             text = (
                 "These changes are not the ones confirmed (the file or the stored nights differ): check them again"
                 if self.confirmed_other else "Check the changes below and confirm them"
@@ -134,10 +155,12 @@ def nights_import(
 
     Every problem of every bad row is reported with its line number; a file that is not a nights CSV
     at all is refused as a whole (``ImportReport.file_problem``). Unless ``skip_bad``, one bad row means
-    nothing is stored. A night already stored keeps the figures of the columns the file leaves out; if
-    the file's figures for it are the stored ones it is left untouched, otherwise it is updated and
-    reported (``ImportReport.changes``). ``progress(done, total)`` is called as rows are checked. ``by`` is
-    the person the audit trail names (None for the command line).
+    nothing is stored. A row names the whole site's night, or one telescope's (``telescope``, a name of the
+    site's telescopes; another name is a bad row). A night already stored (the site's, or that telescope's)
+    keeps the figures of the columns the file leaves out; if the file's figures for it are the stored ones it
+    is left untouched, otherwise it is updated and reported with its telescope (``ImportReport.changes``).
+    ``progress(done, total)`` is called as rows are checked. ``by`` is the person the audit trail names (None
+    for the command line).
 
     ``confirmed`` None stores changes to stored nights at once (the command line). Otherwise (the upload
     page, "" before any confirmation) a file that would change stored nights is stored only when
@@ -149,7 +172,8 @@ def nights_import(
         text = nights_csv.decode(data)
     except nights_csv.FileError as exc:
         return _refused_file(report, [nights_csv.Problem(None, str(exc))])
-    parsed = nights_csv.parse(text, latest_night=latest_night(site))
+    telescopes = _site_telescopes(site)
+    parsed = nights_csv.parse(text, latest_night=latest_night(site), telescopes=tuple(telescopes))
     if parsed.whole_problem:
         return _refused_file(report, parsed.errors)
     if parsed.errors and not (skip_bad and parsed.rows):
@@ -164,13 +188,24 @@ def nights_import(
                 return True
             report.confirm_token, report.confirmed_other = token, bool(confirmed)
             return False
-    _nights_store(site, [values for _, values in parsed.rows], source, report, progress, by, approve=approve)
+    _nights_store(site, _resolved(parsed, telescopes), source, report, progress, by, approve=approve)
     return report
+
+
+def _site_telescopes(site: Site) -> dict[str, Telescope]:
+    """The site's telescopes by name: the names a record may give as its ``telescope``."""
+    return {telescope.name: telescope for telescope in Telescope.objects.filter(site=site).order_by("name")}
+
+
+def _resolved(parsed: nights_csv.ParsedNights, telescopes: dict[str, Telescope]) -> list[dict]:
+    """The good rows' values, each ``telescope`` (a name as registered, checked by the parser) turned into the
+    telescope, or None for the whole site's night."""
+    return [values | {"telescope": telescopes.get(values.get("telescope"))} for _, values in parsed.rows]
 
 
 def _confirm_token(data: bytes, changes: list[NightChange]) -> str:
     """The token that confirms these changes by this file: what was shown is what is stored."""
-    shown = [[c.night.isoformat(), c.column, repr(c.old), repr(c.new)] for c in changes]
+    shown = [[c.night.isoformat(), c.telescope, c.column, repr(c.old), repr(c.new)] for c in changes]
     return hashlib.sha256(data + json.dumps(shown).encode()).hexdigest()
 
 
@@ -195,23 +230,36 @@ def nights_ingest(
 
     The same rules as the CSV import (``nights_csv.parse_row``); every problem of every bad object is
     reported with its list index and field (``Problem.field``), and one bad object means nothing is
-    stored. Idempotent per site and night: a night sent again with the same figures changes nothing,
-    with other figures it is updated; a key left out keeps the stored figure. Raises ValueError when
-    ``records`` is not a list.
+    stored. An object is the whole site's night, or one telescope's (``telescope``: the name of one of the
+    site's telescopes). Idempotent per site, telescope and night: a night sent again with the same figures
+    changes nothing, with other figures it is updated; a key left out keeps the stored figure. Raises
+    ValueError when ``records`` is not a list.
     """
     report = ImportReport()
-    parsed = nights_csv.parse_objects(records, latest_night=latest_night(site))
+    telescopes = _site_telescopes(site)
+    parsed = nights_csv.parse_objects(records, latest_night=latest_night(site), telescopes=tuple(telescopes))
     if parsed.errors:
         report.errors = parsed.errors
         whole = parsed.whole_problem or ""
         report.file_problem = whole[:1].upper() + whole[1:]
         return report
-    _nights_store(site, [values for _, values in parsed.rows], source, report, by=by, reason=reason)
+    _nights_store(site, _resolved(parsed, telescopes), source, report, by=by, reason=reason)
     return report
 
 
-def _stored_nights(site: Site, nights: list[dt.date]) -> dict[dt.date, NightUsage]:
-    return {u.night: u for u in NightUsage.objects.select_for_update().filter(site=site, night__in=nights)}
+def _key(values: dict) -> NightKey:
+    telescope = values["telescope"]
+    return (telescope.pk if telescope else None, values["night"])
+
+
+def _stored_nights(site: Site, keys: set[NightKey]) -> dict[NightKey, NightUsage]:
+    """The stored nights of ``keys``, locked until the transaction ends."""
+    owners = {telescope_id for telescope_id, _ in keys}
+    whose = Q(telescope__in=owners - {None})
+    if None in owners:
+        whose |= Q(telescope__isnull=True)
+    stored = NightUsage.objects.select_for_update().filter(whose, site=site, night__in={night for _, night in keys})
+    return {key: u for u in stored if (key := (u.telescope_id, u.night)) in keys}
 
 
 def _nights_store(
@@ -229,14 +277,15 @@ def _nights_store(
     ``approve(changes)``, when given, is asked inside the transaction (the stored nights locked) before
     any stored night is changed; False stores nothing, not even the new nights.
     Two writers sending the same new night at once both find it absent and one insert fails on the
-    unique (site, night) constraint; that writer starts again once, and then finds the night stored.
+    unique constraint of the site's (or the telescope's) night; that writer starts again once, and then finds
+    the night stored.
     """
-    nights = [values["night"] for values in rows]
+    keys = {_key(values) for values in rows}
     for attempt in range(2):
         try:
             with transaction.atomic():
                 new, changed, unchanged, changes = _nights_compare(
-                    site, rows, _stored_nights(site, nights), source, progress
+                    site, rows, _stored_nights(site, keys), source, progress
                 )
                 stored = not (changes and approve and not approve(changes))
                 if stored:
@@ -257,22 +306,23 @@ def _nights_store(
 def _nights_compare(
     site: Site,
     rows: list[dict],
-    existing: dict[dt.date, NightUsage],
+    existing: dict[NightKey, NightUsage],
     source: str,
     progress: Callable[[int, int], None] | None,
 ) -> tuple[list[NightUsage], list[NightUsage], int, list[NightChange]]:
     """The new nights, the stored nights with the file's figures set (not saved), the count of the others,
-    and every figure changed. Each row holds the columns its record gave: a new night takes the blank value
-    of every other column, a stored night keeps its figures for them and counts as changed only when a given
-    one differs."""
+    and every figure changed. Each row holds the columns its record gave and its telescope (None: the whole
+    site's night): a new night takes the blank value of every other column, a stored night keeps its figures
+    for them and counts as changed only when a given one differs."""
     new, changed, unchanged, changes = [], [], 0, []
     for done, values in enumerate(rows, start=1):
-        current = existing.get(values["night"])
+        current = existing.get(_key(values))
         if current is None:
             new.append(NightUsage(site=site, source=source, **(_BLANKS | values)))
         else:
             differ = [f for f in _USAGE_FIELDS if f in values and getattr(current, f) != values[f]]
-            changes += [NightChange(current.night, f, getattr(current, f), values[f]) for f in differ]
+            whose = values["telescope"].name if values["telescope"] else ""
+            changes += [NightChange(current.night, f, getattr(current, f), values[f], whose) for f in differ]
             for f in differ:
                 setattr(current, f, values[f])
             if differ:

@@ -3,6 +3,7 @@ import datetime as dt
 from django.contrib import messages
 from django.core.exceptions import ValidationError
 from django.core.paginator import Paginator
+from django.db.models import F
 from django.shortcuts import get_object_or_404, redirect, render
 from django.utils import timezone
 
@@ -12,7 +13,7 @@ from observatory_ops.planning import selectors
 from observatory_ops.registry.models import Site, Subsystem
 
 from . import nights_csv, services
-from .forms import CorrectionForm, NightForm, NightsUploadForm, ReadingForm, ServiceRecordForm
+from .forms import TELESCOPE_RULE, CorrectionForm, NightForm, NightsUploadForm, ReadingForm, ServiceRecordForm
 from .models import NightUsage, ServiceRecord
 from .quantities import usual_for_kind
 
@@ -103,25 +104,37 @@ def reading_log(request, pk):
 @requires(VIEWER)
 def nights_list(request, slug):
     site = get_object_or_404(Site, slug=slug)
-    page = Paginator(NightUsage.objects.filter(site=site).order_by("-night"), 60).get_page(request.GET.get("page"))
-    return render(request, "logbook/nights_list.html", {"site": site, "page": page})
+    # Each night the whole site's row first, then the telescopes' own.
+    nights = NightUsage.objects.filter(site=site).select_related("telescope").order_by(
+        "-night", F("telescope__name").asc(nulls_first=True)
+    )
+    page = Paginator(nights, 60).get_page(request.GET.get("page"))
+    return render(request, "logbook/nights_list.html", {
+        "site": site, "page": page, "whole_site": services.WHOLE_SITE, "telescope_rule": TELESCOPE_RULE,
+    })
 
 
 @requires(TECHNICIAN)
 def night_log(request, slug):
-    """Type in one night, or correct one (``?night=YYYY-MM-DD`` fills the form with what is stored)."""
+    """Type in one night, or correct one (``?night=YYYY-MM-DD``, with ``&telescope=NAME`` for a telescope's own
+    night, fills the form with what is stored)."""
     site = get_object_or_404(Site, slug=slug)
+    telescopes = list(site.telescopes.order_by("name").values_list("name", flat=True))
     stored = None
     if request.method == "GET" and request.GET.get("night"):
         try:
-            stored = NightUsage.objects.filter(site=site, night=dt.date.fromisoformat(request.GET["night"])).first()
+            night = dt.date.fromisoformat(request.GET["night"])
         except ValueError:
             messages.warning(request, f"{request.GET['night']!r} is not a date as YYYY-MM-DD: a blank form instead.")
+        else:
+            whose = request.GET.get("telescope", "")
+            mine = {"telescope__name": whose} if whose else {"telescope__isnull": True}
+            stored = NightUsage.objects.filter(site=site, night=night, **mine).select_related("telescope").first()
     initial = (
-        {c.name: nights_csv.cell(getattr(stored, c.name)) for c in nights_csv.COLUMN_SPECS} if stored
+        nights_csv.cells_of(stored) if stored
         else {"night": services.latest_night(site).isoformat()}  # the night most likely being typed in
     )
-    form = NightForm(request.POST or None, initial=initial)
+    form = NightForm(request.POST or None, initial=initial, telescopes=telescopes)
     if request.method == "POST" and form.is_valid():
         report = services.nights_ingest(
             site, [form.record()], source=NightUsage.Source.FORM, by=request.user, reason="typed in on the log page"
@@ -129,9 +142,12 @@ def night_log(request, slug):
         for problem in report.errors:
             form.add_error(problem.field if problem.field in form.fields else None, problem.reason)
         if not report.errors:
-            messages.success(request, f"Night {form.cleaned_data['night']}: {report.summary}")
+            named = services.night_named(form.cleaned_data["night"], form.cleaned_data["telescope"])
+            messages.success(request, f"Night {named}: {report.summary}")
             return redirect("nights-list", slug=site.slug)
-    return render(request, "logbook/night_form.html", {"site": site, "form": form, "stored": stored})
+    return render(request, "logbook/night_form.html", {
+        "site": site, "form": form, "stored": stored, "whole_site": services.WHOLE_SITE,
+    })
 
 
 @requires(TECHNICIAN)
@@ -162,6 +178,8 @@ def nights_import(request, slug):
         "logbook/nights_import.html",
         {
             "site": site, "form": form, "report": report, "columns": nights_csv.COLUMN_SPECS,
-            "example": nights_csv.example_csv(), "earliest": nights_csv.earliest_accepted(services.latest_night(site)),
+            # The example shows the whole site's row and the same night of two of the site's telescopes.
+            "example": nights_csv.example_csv(site.telescopes.order_by("name").values_list("name", flat=True)[:2]),
+            "telescope_rule": TELESCOPE_RULE, "earliest": nights_csv.earliest_accepted(services.latest_night(site)),
         },
     )

@@ -2,11 +2,13 @@
 what maintenance cost in hours.
 
 A failure is a corrective work order that was finished (or countersigned): one failure for each subsystem it
-names, except the replaced unit's and those with no counted operating hours leading up to them, which are left out
-with the reason (``left_out_reason``, the one place that rule is kept). Operating hours are the site's dome-open
-hours from the nightly log, counted for each subsystem over the nights it was in service (from its "in service
-since" date where one is given, see ``START_BASES``). Maintenance hours are those of the service records. A fixed
-handful of queries for a site, whatever its size (tests/test_reliability_page.py counts them).
+names, except the replaced unit's, those after the subsystem was retired and those with no counted operating hours
+leading up to them, which are left out with the reason (``left_out_reason``, the one place that rule is kept).
+Operating hours are the open hours of the subsystem's telescope's nightly log (``planning.services.UsageLog``: the
+site's rows, or the telescope's own where it sends them), counted for each subsystem over the nights it was in
+service (from its "in service since" date where one is given, see ``START_BASES``). Maintenance hours are those of
+the service records. A fixed handful of queries for a site, whatever its size
+(tests/test_reliability_page.py counts them).
 """
 from __future__ import annotations
 
@@ -19,9 +21,9 @@ from django.db.models import Min
 
 from observatory_ops.calc import reliability
 from observatory_ops.calc.night_of import night_of
-from observatory_ops.logbook.models import NightUsage, ServiceRecord
+from observatory_ops.logbook.models import ServiceRecord
 from observatory_ops.planning.models import ServicePlan
-from observatory_ops.planning.services import site_today
+from observatory_ops.planning.services import UsageLog, site_today
 from observatory_ops.registry.catalogue import KINDS
 from observatory_ops.registry.models import Site, Subsystem
 from observatory_ops.workorders.models import State, WorkOrder, WorkOrderItem
@@ -54,28 +56,37 @@ class Start:
 
 #: Why a failure is left out of its subsystem's failures, MTBF and fit (``left_out_reason``).
 REPLACED_UNIT = "on or before its in-service date: a failure of the unit it replaced"
+AFTER_RETIRED = "after the day it was retired: it was no longer in service"
 BEFORE_START = "before the day its hours are counted from: no counted hours lead up to it"
 BEFORE_LOG = "before the first logged night: no logged hours lead up to it"
 
 
 @dataclass(frozen=True)
 class LeftOut:
-    """A failure not counted among its subsystem's, and why (``REPLACED_UNIT``, ``BEFORE_START``, ``BEFORE_LOG``)."""
+    """A failure not counted among its subsystem's, and why (``REPLACED_UNIT``, ``AFTER_RETIRED``, ``BEFORE_START``,
+    ``BEFORE_LOG``)."""
 
     subsystem: str
     night: dt.date
     reason: str
 
 
-def left_out_reason(night: dt.date, start: Start, first_night: dt.date | None) -> str | None:
+def left_out_reason(
+    night: dt.date, start: Start, first_night: dt.date | None, retired_on: dt.date | None = None
+) -> str | None:
     """Why a failure placed on ``night`` is not one of the subsystem's own, counted against its hours; None when it is.
 
-    A unit swapped in on its in-service date replaced one that failed, and the corrective order for that failure is
-    normally finished the day of the swap: so a failure on or before the in-service date is the old unit's. A
-    failure before the day the hours are counted from, or before the first logged night, has no counted operating
-    hours leading up to it: placed at 0 h it would shorten the MTBF and add a failure at no time to the fit, so it is
-    left out rather than counted against hours it did not fall in.
+    A subsystem retired on ``retired_on`` (None: still in service) counts no hours after that day, and a failure
+    after it is not one in service: placed at the end of its hours it would add a failure to hours it did not fall
+    in and an interval of 0 h to the fit. A failure on the day it was retired counts: the unit failed and was
+    retired that day. A unit swapped in on its in-service date replaced one that failed, and the corrective order for
+    that failure is normally finished the day of the swap: so a failure on or before the in-service date is the old
+    unit's. A failure before the day the hours are counted from, or before the first logged night, has no counted
+    operating hours leading up to it: placed at 0 h it would shorten the MTBF and add a failure at no time to the
+    fit, so it is left out rather than counted against hours it did not fall in.
     """
+    if retired_on is not None and night > retired_on:
+        return AFTER_RETIRED
     if start.basis == IN_SERVICE_SINCE and night <= start.day:
         return REPLACED_UNIT
     if first_night is None or night < first_night:
@@ -188,18 +199,19 @@ def site_reliability(site: Site, today: dt.date | None = None) -> SiteReliabilit
     today = today or site_today(site)
     subsystems = list(
         Subsystem.objects.filter(telescope__site=site)
-        .values_list("pk", "telescope__name", "name", "kind", "retired_on", "in_service_since")
+        .values_list("pk", "telescope__name", "name", "kind", "retired_on", "telescope_id", "in_service_since")
         .order_by("pk")
     )
-    nights = list(NightUsage.objects.filter(site=site).order_by("night").values_list("night", "open_hours"))
-    first_night = nights[0][0] if nights else None
+    logs = UsageLog.of_site(site)
+    logged = np.concatenate([log.nights for log in logs.values()])
+    first_night = logged.min().astype(dt.date) if len(logged) else None
+    last_night = logged.max().astype(dt.date) if len(logged) else None
     starts = _starts(subsystems, site, first_night, today)
-    days = np.array([n for n, _ in nights], dtype="datetime64[D]")
-    cumulative = np.concatenate([[0.0], np.cumsum([h for _, h in nights])])
+    cumulative = {key: np.concatenate([[0.0], np.cumsum(log.columns["open_hours"])]) for key, log in logs.items()}
 
-    def hours_before(day: dt.date) -> float:
-        """Dome-open hours of the logged nights before ``day``."""
-        return float(cumulative[np.searchsorted(days, np.datetime64(day))])
+    def hours_before(key: int | None, day: dt.date) -> float:
+        """Open hours of the nights of log ``key`` logged before ``day``."""
+        return float(cumulative[key][np.searchsorted(logs[key].nights, np.datetime64(day, "D"))])
 
     failed_at: dict[int, list[dt.date]] = defaultdict(list)
     for subsystem_id, finished_at in WorkOrderItem.objects.filter(
@@ -210,7 +222,7 @@ def site_reliability(site: Site, today: dt.date | None = None) -> SiteReliabilit
 
     kinds = {code: KindReliability(code, spec.label) for code, spec in KINDS.items()}
     kind_of = {}
-    for pk, _, _, kind, retired_on, _ in subsystems:
+    for pk, _, _, kind, retired_on, telescope_id, _ in subsystems:
         row = kinds.setdefault(kind, KindReliability(kind, kind))
         kind_of[pk] = row
         row.counted += 1
@@ -218,18 +230,20 @@ def site_reliability(site: Site, today: dt.date | None = None) -> SiteReliabilit
         row.starts.append(starts[pk])
         end = min(retired_on, today + dt.timedelta(days=1)) if retired_on else today + dt.timedelta(days=1)
         start = starts[pk]
-        base = hours_before(start.day)
-        total = max(hours_before(end) - base, 0.0)
+        key = telescope_id if telescope_id in logs else None
+        own_first = logs[key].nights[0].astype(dt.date) if len(logs[key].nights) else None
+        base = hours_before(key, start.day)
+        total = max(hours_before(key, end) - base, 0.0)
         failed = []
         for night in sorted(failed_at.get(pk, [])):
-            reason = left_out_reason(night, start, first_night)
+            reason = left_out_reason(night, start, own_first, retired_on)
             if reason:
                 row.left_out.append(LeftOut(start.subsystem, night, reason))
             else:
                 failed.append(night)
-        # A failure belongs to the nights up to and including the night its repair finished in; one placed after
-        # the subsystem was retired stays at the end of its hours.
-        at = [min(hours_before(n + dt.timedelta(days=1)) - base, total) for n in failed]
+        # A failure belongs to the nights up to and including the night its repair finished in; one on the night of
+        # the day the subsystem was retired (a night its hours no longer count) stays at the end of its hours.
+        at = [min(hours_before(key, n + dt.timedelta(days=1)) - base, total) for n in failed]
         between, running = reliability.times_between_failures(at, total)
         row.operating_hours += total
         row.failures += len(at)
@@ -272,7 +286,7 @@ def site_reliability(site: Site, today: dt.date | None = None) -> SiteReliabilit
     return SiteReliability(
         today=today,
         first_night=first_night,
-        last_night=nights[-1][0] if nights else None,
+        last_night=last_night,
         kinds=shown,
         hours_since=since + dt.timedelta(days=1),
         hours_by_type=site_hours,

@@ -35,9 +35,10 @@ class Command(BaseCommand):
             self.stderr.write(f"line {line}: {reason}")
         if report.errors:
             raise CommandError(f"{file}: {report.summary}")
-        for night in report.updated_nights:
-            changed = [f"{c.column} {c.old_text} -> {c.new_text}" for c in report.changes if c.night == night]
-            self.stdout.write(f"updated night {night}: {'; '.join(changed)}")
+        for night, telescope in sorted({(c.night, c.telescope) for c in report.changes}):
+            changed = [f"{c.column} {c.old_text} -> {c.new_text}" for c in report.changes
+                       if (c.night, c.telescope) == (night, telescope)]
+            self.stdout.write(f"updated night {services.night_named(night, telescope)}: {'; '.join(changed)}")
         self.stdout.write(f"{file}: {report.summary}")
         count = len(report.updated_nights)
         self.stdout.write(f"Changed {count or 'no'} stored night{pluralize(count)}.")
