@@ -16,10 +16,11 @@ from django.db.models import Q
 from django.utils import timezone
 from simple_history.utils import bulk_create_with_history
 
-from observatory_ops.calc import exposure, nights
+from observatory_ops.calc import nights
 from observatory_ops.logbook.models import NightUsage, Reading, ServiceRecord
 from observatory_ops.mirrors.models import CleaningEvent, CoatingEvent, Mirror, ReflectanceMeasurement
 from observatory_ops.mirrors.services import plans_a_cleaning_restarts
+from observatory_ops.planning import metrics
 from observatory_ops.planning import services as planning
 from observatory_ops.planning.models import BookedRun
 from observatory_ops.registry.models import CrewDayOff, Site, Telescope
@@ -171,7 +172,7 @@ def build(today: dt.date | None = None) -> tuple[Site, bool]:
                     in_service_since=start - _T70_COMMISSIONED_BEFORE_LOG if original else None,
                 )
         _crew_days_off(site, today)
-        _usage(site, start, today, rng)
+        _usage(site, start, today, rng, r40)
         _drive_settle_readings(subsystems, users["technician"], today, rng)
         _service_history(site, subsystems, users, today, rng)
         _workshop(site, (t70, r40))
@@ -192,7 +193,12 @@ def _crew_days_off(site: Site, today: dt.date) -> None:
                 CrewDayOff.objects.create(site=site, date=day_off, note=note)
 
 
-def _usage(site: Site, start: dt.date, today: dt.date, rng: np.random.Generator) -> None:
+#: The R40's control software has sent its own nights for this many nights up to today (the rest of the log, and the
+#: T70's, are the site's rows): the demo of usage logged per telescope.
+R40_OWN_NIGHTS = 120
+
+
+def _usage(site: Site, start: dt.date, today: dt.date, rng: np.random.Generator, r40: Telescope) -> None:
     place = nights.Site(site.latitude_deg, site.longitude_deg, site.elevation_m, site.time_zone)
     sky = nights.nights_for_range(place, start, (today - start).days)
     rows = []
@@ -217,7 +223,20 @@ def _usage(site: Site, start: dt.date, today: dt.date, rng: np.random.Generator)
                 source=NightUsage.Source.DEMO,
             )
         )
-    bulk_create_with_history(rows, NightUsage, batch_size=500)
+    # The robotic R40 works through many short exposures: more slews an open hour than the site's figures, and a
+    # little less open time (it closes for its own weather limits).
+    own = []
+    for row in rows[-R40_OWN_NIGHTS:]:
+        open_hours = round(row.open_hours * rng.uniform(0.85, 1.0), 2)
+        slews = int(rng.poisson(9.0 * open_hours)) if open_hours else 0
+        own.append(NightUsage(
+            site=site, telescope=r40, night=row.night, open_hours=open_hours, slews=slews,
+            axis1_travel_deg=round(slews * rng.uniform(12, 22), 1),
+            axis2_travel_deg=round(slews * rng.uniform(6, 14), 1),
+            brake_cycles=slews + (2 if open_hours else 0), pm10_ugm3=row.pm10_ugm3, humidity_pct=row.humidity_pct,
+            dew=row.dew, rain=row.rain, source=NightUsage.Source.DEMO,
+        ))
+    bulk_create_with_history(rows + own, NightUsage, batch_size=500)
 
 
 def _drive_settle_readings(subsystems, technician, today: dt.date, rng: np.random.Generator) -> None:
@@ -317,20 +336,16 @@ _PRIMARIES = {(telescope, "Primary mirror") for telescope, *_ in _MIRRORS}
 def _mirrors(site, subsystems, technician, today: dt.date, rng: np.random.Generator) -> None:
     """Primary mirrors with a coating, CO2-snow cleanings every quarter and monthly band measurements.
 
-    The measurements follow the decline model of ``calc.reflectance`` driven by the demo's own dusty
-    nights, plus measurement noise, so the fit on the mirror page recovers an invented decline rate.
+    The measurements follow the decline model of ``calc.reflectance`` driven by the dusty nights of the mirror's
+    telescope (its log: planning.services.UsageLog), plus measurement noise, so the fit on the mirror page recovers
+    an invented decline rate.
     """
     from observatory_ops.calc import coating
 
-    usage = list(NightUsage.objects.filter(site=site).order_by("night").values_list("night", "open_hours", "pm10_ugm3"))
-    nights_ = np.array([u[0] for u in usage], dtype="datetime64[D]")
-    per_night = exposure.dust_weighted_hours(
-        [u[1] for u in usage], [np.nan if u[2] is None else u[2] for u in usage], 1.0
-    )
-    cumulative = np.concatenate([[0.0], np.cumsum(per_night)])
-
-    def exposure_on(since: dt.date, day: dt.date) -> float:
-        first, last = np.searchsorted(nights_, np.datetime64(since)), np.searchsorted(nights_, np.datetime64(day))
+    def exposure_on(telescope: str, since: dt.date, day: dt.date) -> float:
+        log = planning.UsageLog.for_telescope(site.telescopes.get(name=telescope))
+        cumulative = np.concatenate([[0.0], np.cumsum(log.per_night(metrics.DUST_HOURS, 1.0))])
+        first, last = np.searchsorted(log.nights, np.datetime64(since)), np.searchsorted(log.nights, np.datetime64(day))
         return float(cumulative[last] - cumulative[first])
 
     for telescope, dia, thick, hole, material, cell, months, metal, layers, rate, recovery in _MIRRORS:
@@ -356,9 +371,9 @@ def _mirrors(site, subsystems, technician, today: dt.date, rng: np.random.Genera
                     subsystem=mirror.subsystem, plan=plan, performed_on=day, performed_by=technician,
                     hours_spent=plan.estimated_hours, summary="Cleaning: CO2 snow", created_by=technician,
                 )
-        clean_exposures = [exposure_on(coated, c) for c in cleanings]
+        clean_exposures = [exposure_on(telescope, coated, c) for c in cleanings]
         for day in [coated + dt.timedelta(days=d) for d in range(3, (today - coated).days, 30)]:
-            e = exposure_on(coated, day)
+            e = exposure_on(telescope, coated, day)
             last_clean = max([c for c in clean_exposures if c <= e], default=0.0)
             value = r0 - rate * (e - recovery * last_clean) + rng.normal(0, 0.002)
             ReflectanceMeasurement.objects.create(

@@ -28,6 +28,7 @@ from observatory_ops.planning.services import (
     UsageLog,
     UsageModel,
     band_start,
+    forecast_model,
     site_recompute,
     site_sky_refresh,
     site_today,
@@ -77,6 +78,9 @@ class MirrorForecast:
     crossing_earliest: dt.date | None = None
     crossing_latest: dt.date | None = None
     dust_hours_per_day: float = 0.0
+    # Past nights after the last logged one (and after the coating) up to yesterday, counted at the expected rate
+    # before the crossing is forecast, as the plans count them (planning.services.forecast_model).
+    unlogged_nights: int = 0
 
 
 def _coating_band(mirror: Mirror, metal: str, layers: list[dict]) -> float:
@@ -185,14 +189,18 @@ def mirror_forecast(
     crossing = reflectance.crossing_exposure(fit, result.threshold)
     result.crossing_exposure_h = crossing.exposure_h
     if model is None or model.first_day > today:
-        model = usage_model(mirror.subsystem.telescope.site, log, today, 3 * 366)
-    expected = model.expected(metrics.DUST_HOURS, mirror.dust_sensitivity)[(today - model.first_day).days :]
-    result.dust_hours_per_day = float(expected[:30].mean())
+        model = forecast_model(mirror.subsystem.telescope.site, log, today)
+    # The nights after the last logged one (and after the coating) are taken as used at the expected rate, as the
+    # plans take them: the forecast counts from the first of them, and a crossing among them is today.
+    start = max(model.first_day, last.coated_on)
+    expected = model.expected(metrics.DUST_HOURS, mirror.dust_sensitivity)[(start - model.first_day).days :]
+    result.unlogged_nights = max((today - start).days, 0)
+    result.dust_hours_per_day = float(expected[result.unlogged_nights :][:30].mean())
     remaining = [x - result.exposure_now_h for x in (crossing.exposure_h, crossing.early_h, crossing.late_h)]
     offsets = [
         forecast.days_reached([r], expected)[0][0] if math.isfinite(r) else -1 for r in remaining
     ]
-    central, early, late = (today + dt.timedelta(days=int(o)) if o >= 0 else None for o in offsets)
+    central, early, late = (max(start + dt.timedelta(days=int(o)), today) if o >= 0 else None for o in offsets)
     result.crossing, result.crossing_earliest, result.crossing_latest = central, early, late
     return result
 
