@@ -112,10 +112,18 @@ def error_body(response) -> list[dict]:
 # --- accepted posts -----------------------------------------------------------------------------------
 
 
+def answer(created: int, updated: int, unchanged: int) -> dict:
+    """The answer to nights of the whole site alone: the three counts, and the same under ``by_telescope``'s "" (the
+    whole site's nights; each telescope's under its name: tests/test_usage_per_telescope_ingest.py)."""
+    counts = {"created": created, "updated": updated, "unchanged": unchanged}
+    return counts | {"by_telescope": {"": counts}}
+
+
+
 def test_one_night_as_an_object_is_stored_from_the_control_software(client, site, secret, recomputes):
     response = post(client, site.slug, night(), secret)
     assert response.status_code == 200
-    assert response.json() == {"created": 1, "updated": 0, "unchanged": 0}
+    assert response.json() == answer(1, 0, 0)
     usage = NightUsage.objects.get(site=site)
     assert (usage.night, usage.open_hours, usage.slews, usage.axis2_travel_deg) == (NIGHT, 7.5, 41, 610.0)
     assert (usage.pm10_ugm3, usage.humidity_pct, usage.dew, usage.rain) == (38.2, 31.0, False, False)
@@ -126,18 +134,18 @@ def test_one_night_as_an_object_is_stored_from_the_control_software(client, site
 def test_a_list_of_nights_is_stored_in_one_request(client, site, secret):
     days = [NIGHT + dt.timedelta(days=i) for i in range(3)]
     response = post(client, site.slug, [night(d, open_hours=5.0 + i) for i, d in enumerate(days)], secret)
-    assert response.json() == {"created": 3, "updated": 0, "unchanged": 0}
+    assert response.json() == answer(3, 0, 0)
     stored_hours = dict(NightUsage.objects.filter(site=site).values_list("night", "open_hours"))
     assert stored_hours == {days[0]: 5.0, days[1]: 6.0, days[2]: 7.0}
 
 
 def test_the_same_nights_sent_twice_change_nothing(client, site, secret, recomputes):
     body = [night(NIGHT), night(NIGHT + dt.timedelta(days=1), open_hours=3.25)]
-    assert post(client, site.slug, body, secret).json() == {"created": 2, "updated": 0, "unchanged": 0}
+    assert post(client, site.slug, body, secret).json() == answer(2, 0, 0)
     after_first = snapshot()
     response = post(client, site.slug, body, secret)
     assert response.status_code == 200
-    assert response.json() == {"created": 0, "updated": 0, "unchanged": 2}
+    assert response.json() == answer(0, 0, 2)
     assert snapshot() == after_first
     assert recomputes == [site.pk]  # only the request that changed something refreshes the due states
 
@@ -146,7 +154,7 @@ def test_a_night_sent_again_with_other_figures_is_updated_in_place(client, site,
     post(client, site.slug, [night(NIGHT), night(NIGHT + dt.timedelta(days=1))], secret)
     before = {row["night"]: row for row in snapshot()}
     response = post(client, site.slug, [night(NIGHT, open_hours=9.25, pm10_ugm3=None)], secret)
-    assert response.json() == {"created": 0, "updated": 1, "unchanged": 0}
+    assert response.json() == answer(0, 1, 0)
     after = {row["night"]: row for row in snapshot()}
     assert (after[NIGHT]["open_hours"], after[NIGHT]["pm10_ugm3"]) == (9.25, None)
     assert after[NIGHT]["id"] == before[NIGHT]["id"]
@@ -660,13 +668,13 @@ def test_only_an_administrator_may_see_or_create_tokens_in_the_admin(client, sit
 def test_a_key_left_out_keeps_the_stored_figure_and_only_a_real_change_counts_as_updated(
     client, site, secret, recomputes
 ):
-    assert post(client, site.slug, night(dew=True), secret).json() == {"created": 1, "updated": 0, "unchanged": 0}
+    assert post(client, site.slug, night(dew=True), secret).json() == answer(1, 0, 0)
     before = snapshot()
     short = {"night": NIGHT.isoformat(), "open_hours": 7.5}  # the stored hours; nothing else given
-    assert post(client, site.slug, short, secret).json() == {"created": 0, "updated": 0, "unchanged": 1}
+    assert post(client, site.slug, short, secret).json() == answer(0, 0, 1)
     assert snapshot() == before
     response = post(client, site.slug, {**short, "open_hours": 8.25, "pm10_ugm3": None}, secret)
-    assert response.json() == {"created": 0, "updated": 1, "unchanged": 0}
+    assert response.json() == answer(0, 1, 0)
     usage = NightUsage.objects.get(site=site)
     assert (usage.open_hours, usage.pm10_ugm3) == (8.25, None)  # given: changed (null clears)
     assert (usage.slews, usage.axis1_travel_deg, usage.axis2_travel_deg, usage.brake_cycles) == (41, 1030.5, 610, 43)

@@ -2,7 +2,8 @@
 cautions, tools and lifting figures of each phase (removal, strip and coat, reinstall, realignment).
 
 Telescope handling here (pinning an out-of-balance tube, lowering a cell from below onto a lifting table)
-is common practice, no published source; lockout follows OSHA 29 CFR 1910.147; slings OSHA 29 CFR 1910.184.
+is common practice, no published source; lockout follows OSHA 29 CFR 1910.147, stored energy (a spring brake's
+springs) its (d)(5); slings OSHA 29 CFR 1910.184.
 """
 from __future__ import annotations
 
@@ -10,6 +11,7 @@ import datetime as dt
 import html
 import io
 import math
+import re
 
 import pytest
 from pypdf import PdfReader
@@ -28,9 +30,9 @@ from observatory_ops.workorders.services import LOCKOUT_STEP
 URL = "https://ops.vestal-ridge.example/workorders/1/"
 
 
-@pytest.fixture
-def orders(telescope, users):
-    """The four recoat orders of a 500 mm borosilicate primary (120 mm hole, 50 mm thick) in a 30 kg cell."""
+def _recoat(telescope, users) -> dict[str, WorkOrder]:
+    """The four recoat orders of a 500 mm borosilicate primary (120 mm hole, 50 mm thick) in a 30 kg cell, by phase,
+    made with the telescope's register as it stands."""
     primary = Subsystem.objects.create(telescope=telescope, kind="primary_mirror", name="Primary")
     mirror = Mirror.objects.create(subsystem=primary, diameter_mm=500, thickness_mm=50, hole_mm=120,
                                    material="borosilicate", cell_mass_kg=30)
@@ -38,6 +40,12 @@ def orders(telescope, users):
     plan = services.recoat_plan_create(mirror, dt.date(2026, 8, 1), list(RECOAT_PHASES), 3.5, users["engineer"])
     removal, coating, reinstall, realignment = plan.work_orders.order_by("planned_date")
     return {"removal": removal, "coating": coating, "reinstall": reinstall, "realignment": realignment}
+
+
+@pytest.fixture
+def orders(telescope, users):
+    """The recoat orders (``_recoat``) on a telescope with no brake registered."""
+    return _recoat(telescope, users)
 
 
 #: A working load limit per sling leg, as the engineer enters it before the work starts: a lifting order starts only
@@ -219,10 +227,97 @@ def test_lifting_phases_print_the_lift_figures_and_the_precedence_statement(orde
         assert "Total suspended load" in text and "take precedence" in text
 
 
-def test_removal_and_reinstall_carry_the_cautions_of_the_energies_they_lock_out():
-    """The lockout step of both phases isolates the drives and the brake air (OSHA 29 CFR 1910.147): their
-    electrical and stored-pneumatic cautions are printed with the lift."""
-    from observatory_ops.mirrors.services import _PHASE_WORK
+# --- the axis brakes, as the telescope's register has them ------------------------------------------------------
+# Applied by springs, a brake holds its axis with its air vented or its power isolated, whatever the balance; the
+# check releases one brake at a time under the site's procedure (common practice, no published source; the site's
+# balancing procedure and the mount maker's instructions come first). Its springs stay loaded with every supply off
+# (OSHA 29 CFR 1910.147(d)(5): stored energy relieved, disconnected or restrained).
 
+#: The reinstall's balance check for spring-applied, air-released brakes, word for word as every recoat order carried
+#: it before the check was worded for the brakes registered: a telescope with air brakes still gets exactly this.
+AIR_BALANCE_CHECK = (
+    "Check the balance one axis at a time, as the site's balancing procedure and the mount maker's instructions "
+    "say. The brakes are applied by springs and released by air, so with the air vented they hold an axis whatever "
+    "its balance: never take a pinned or braked axis as balanced. For each axis: keep the drives locked out and "
+    "disabled, everyone outside the swept volume, and the axis held or restrained as the procedure says, with its "
+    "pin in; release that axis's brake only as the procedure says (its air restored under the site's lockout "
+    "procedure, or the maker's manual release); draw the pin only when ready, and let the restraint out slowly to "
+    "see whether the axis turns under gravity. Then pin it and apply its brake again (vent its air and lock it out "
+    "again) before checking the other axis, and correct the balance until neither axis turns."
+)
+
+#: Brake kinds registered on the telescope -> (hazards of the brakes on the removal and the reinstall, words of the
+#: balance check). The air brake's wording is ``AIR_BALANCE_CHECK``.
+BRAKES = {
+    "air": (("brake", "brake"), {"pneumatic"}, ("applied by springs and released by air",)),
+    "electric": (
+        ("spring_brake", "spring_brake"), {"stored_mechanical"},
+        ("applied by springs and released electrically, so with their power isolated they hold an axis",
+         "(its brake power restored under the site's lockout procedure, or the maker's manual release)",
+         "apply its brake again (isolate its power and lock it out again)"),
+    ),
+    "both": (
+        ("brake", "spring_brake"), {"pneumatic", "stored_mechanical"},
+        ("some released by air and some electrically", "its air or its brake power, whichever releases it",
+         "vent its air or isolate its power, whichever released it, and lock it out again"),
+    ),
+    "none": (
+        (), set(),
+        ("No axis brake is registered for this telescope: follow the mount's own brake arrangement as its maker's "
+         "instructions describe it", "by the means the mount's brake arrangement gives, under the site's lockout "
+         "procedure, or the maker's manual release"),
+    ),
+}
+
+
+def _braked(telescope, kinds) -> None:
+    for axis, kind in enumerate(kinds, start=1):
+        Subsystem.objects.create(telescope=telescope, kind=kind, name=f"Axis {axis} brake")
+
+
+@pytest.mark.parametrize("brakes", BRAKES)
+def test_the_removal_and_reinstall_carry_the_hazards_of_the_brakes_registered_and_word_the_check_for_them(
+    telescope, users, brakes
+):
+    kinds, hazards, words = BRAKES[brakes]
+    _braked(telescope, kinds)
+    made = _recoat(telescope, users)
     for phase in ("removal", "reinstall"):
-        assert {"electrical", "pneumatic"} <= set(_PHASE_WORK[phase].hazards), phase
+        carried = set(made[phase].hazards)
+        # The lockout isolates the drives (OSHA 29 CFR 1910.147); the brakes' energies only where they are registered.
+        assert "electrical" in carried and carried & {"pneumatic", "stored_mechanical"} == hazards, phase
+        titles = {caution.title for caution in selectors.sheet(made[phase], URL).cautions}
+        assert {HAZARDS[h] for h in hazards} <= titles, phase
+    for phase in ("coating", "realignment"):  # the brakes are nothing of theirs
+        assert not set(made[phase].hazards) & {"pneumatic", "stored_mechanical"}, phase
+    steps = made["reinstall"].step_list
+    check = steps[_first(steps, "check the balance one axis at a time")]
+    for said in (*words, "as the site's balancing procedure and the mount maker's instructions say",
+                 "never take a pinned or braked axis as balanced", "drives locked out and disabled",
+                 "release that axis's brake only as the procedure says", "pin it and apply its brake again"):
+        assert said in check, said
+    assert steps[steps.index(check) + 1].startswith("Only when both axes are balanced")  # last before the release
+    if "pneumatic" not in hazards:  # no air to restore or vent on a telescope with none registered
+        for phase in ("removal", "reinstall"):
+            assert not any(re.search(r"\bair\b", step) for step in made[phase].step_list), phase
+
+
+def test_a_telescope_with_air_brakes_gets_the_balance_check_unchanged_and_a_retired_spring_brake_counts_for_nothing(
+    telescope, users
+):
+    _braked(telescope, ("brake", "brake"))
+    Subsystem.objects.create(telescope=telescope, kind="spring_brake", name="Old axis 1 brake",
+                             retired_on=dt.date(2025, 1, 10))
+    made = _recoat(telescope, users)
+    assert AIR_BALANCE_CHECK in made["reinstall"].step_list
+    assert "stored_mechanical" not in made["reinstall"].hazards
+
+
+def test_spring_brakes_put_the_stored_energy_caution_on_the_printed_reinstall(telescope, users):
+    """The printed sheet (pypdf text of the PDF) carries the spring caution and its standard, OSHA 29 CFR
+    1910.147(d)(5), with the check worded for brakes released electrically."""
+    _braked(telescope, ("spring_brake", "spring_brake"))
+    printed = _printed(_recoat(telescope, users)["reinstall"])
+    assert HAZARDS["stored_mechanical"] in printed and "1910.147(d)(5)" in printed
+    assert "isolate its power and lock it out again" in printed
+    assert HAZARDS["pneumatic"] not in printed

@@ -48,7 +48,11 @@ def _first(steps: list[str], *words: str) -> int:
 
 @pytest.fixture
 def recoat(telescope, users):
-    """The four recoat orders of a 500 mm primary, registered as the catalogue registers one (its hazards)."""
+    """The four recoat orders of a 500 mm primary, registered as the catalogue registers one (its hazards), on a
+    telescope whose axes have air-operated brakes (the balance check is worded for the brakes registered: see
+    tests/test_recoat_phases.py for the others)."""
+    for axis in (1, 2):
+        subsystem_create(telescope, "brake", f"Axis {axis} brake", counting_from=START)
     primary = subsystem_create(telescope, "primary_mirror", "Primary", counting_from=START)
     mirror = Mirror.objects.create(subsystem=primary, diameter_mm=500, thickness_mm=50, hole_mm=120,
                                    material="borosilicate", cell_mass_kg=30)

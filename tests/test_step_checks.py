@@ -262,8 +262,9 @@ def test_locked_out_work_is_ticked_only_after_the_lockout_step_and_every_isolati
 
 def test_the_lockout_step_is_ticked_once_every_point_it_locks_is(underway, users):
     """The lockout step's own words are "Isolate, lock and tag every energy source listed under 'Energy isolation
-    points'; release stored pressure; try to start the drives ...": each point is ticked as its lock goes on, and
-    the step, which takes them all in, once every one is (OSHA 29 CFR 1910.147(d)(4) to (d)(6), in that order)."""
+    points'; relieve or restrain stored energy ...; try to start the drives ...": each point is ticked as its lock
+    goes on, and the step, which takes them all in, once every one is (OSHA 29 CFR 1910.147(d)(4) to (d)(6), in that
+    order)."""
     assert services.LOCKOUT_STEP.startswith("Isolate, lock and tag every energy source listed under 'Energy")
     technician = users["technician"]
     air = _brake_air(underway)

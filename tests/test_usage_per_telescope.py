@@ -153,6 +153,7 @@ def test_the_subsystem_page_names_the_telescope_whose_use_it_expects(two_telesco
     assert "Expected use of North at Twin Ridge, by month" in north_page
     assert "this telescope&#x27;s own open fraction" in north_page or "this telescope's own open fraction" in north_page
     assert "Expected use at Twin Ridge, by month" in south_page
+    assert "{#" not in north_page  # a template comment is one line, or Django prints it
 
 
 def test_reliability_counts_each_subsystems_hours_from_its_telescopes_log(two_telescopes):
@@ -162,3 +163,127 @@ def test_reliability_counts_each_subsystems_hours_from_its_telescopes_log(two_te
     site, _, _, _ = two_telescopes
     fans = next(k for k in site_reliability(site, TODAY).kinds if k.code == "cooling_fans")
     assert fans.operating_hours == pytest.approx(2120 + 1460)
+
+
+def test_the_dashboard_shows_the_newest_night_of_each_log(two_telescopes, users, client):
+    """The site's rows end on 14 Jun 2026, North's own too; South sends one of its own on 10 Jun 2026."""
+    from django.urls import reverse
+
+    site, _, south, _ = two_telescopes
+    NightUsage.objects.create(site=site, telescope=south, night=dt.date(2026, 6, 10), open_hours=2.5)
+    client.force_login(users["viewer"])
+    page = client.get(reverse("site-dashboard", args=[site.slug])).content.decode()
+    panel = page[page.index("Last logged night"):]
+    panel = panel[:panel.index("</div>", panel.index("Nightly log"))]
+    assert panel.index("Whole site: <strong>Sun 14 Jun 2026</strong>: 4.0 h open") < panel.index(
+        "North: <strong>Sun 14 Jun 2026</strong>: 8.0 h open") < panel.index(
+        "South: <strong>Wed 10 Jun 2026</strong>: 2.5 h open")
+
+
+def test_a_telescope_with_nights_of_its_own_stays_at_its_site(two_telescopes):
+    from django.core.exceptions import ValidationError
+
+    _, north, south, _ = two_telescopes
+    other = Site.objects.create(name="Far Hill", slug="far-hill", latitude_deg=0, longitude_deg=0, time_zone="UTC")
+    north.site = other
+    with pytest.raises(ValidationError, match="cannot move to another site"):
+        north.full_clean()
+    south.site = other  # no nights of its own: nothing ties it to the old site's log
+    south.full_clean()
+
+
+# --- figures a telescope's row leaves out -------------------------------------------------------------------------
+#
+# The rule (logbook.models.NightUsage): a telescope's night takes each figure from its own row where the row gives it,
+# and from the site's row of that night where it leaves it out (stored None, as the import stores a figure a
+# telescope's record does not give: tests/test_usage_per_telescope_ingest.py); 0, or no PM10, with no site row then.
+#
+# The site below (Dusty Knoll) logged the whole site's nights of 1-10 Jun 2026: 6 open hours, 30 slews, axis 1 travel
+# 900 degrees, axis 2 travel 500, 32 brake cycles, PM10 60 ug/m3. North's control software sends open hours and slews
+# only: 31 May 2026 (4 h, 10 slews; the site logged nothing that night) and 6-10 Jun 2026 (5 h, 50 slews). South sent
+# one night of its own, 10 Jun 2026: 2 h, 8 slews and 0 brake cycles (given). Today is 11 Jun 2026: nothing unlogged.
+# Hand computations from the rule, every plan counting from 31 May 2026:
+#
+#     North: 31 May its own with nothing to fill from: 4 h, 10 slews, 0 travel, 0 brake cycles, clean air;
+#            1-5 Jun the site's: 5 x 6 h = 30 h, 5 x 30 = 150 slews, 5 x 900 = 4,500 deg, 5 x 32 = 160 cycles;
+#            6-10 Jun its own hours and slews (5 x 5 h = 25 h, 5 x 50 = 250) with the site's travel (4,500 deg),
+#            brake cycles (160) and PM10:
+#            59 h, 410 slews, 9,000 deg, 320 brake cycles.
+#     South: 1-9 Jun the site's: 54 h, 270 slews, 8,100 deg, 288 cycles; 10 Jun its own 2 h, 8 slews, 0 cycles
+#            (given) and the site's 900 deg: 56 h, 278 slews, 9,000 deg, 288 brake cycles.
+#
+# Dust-weighted hours at dust sensitivity 1, by calc.exposure.dust_weight's documented weight
+# w = 1 + s x max(0, PM10 - 20) / 20 (a missing PM10 counts as clean air, w = 1; our own model, no published source):
+# PM10 60 weighs 1 + (60 - 20) / 20 = 3. North: 4 x 1 + (30 + 25) x 3 = 169; South: 56 x 3 = 168.
+# Counted as 0 and clean air instead (the old reading), North would have had 160 brake cycles, 4,500 deg and 119
+# dust-weighted hours.
+
+KNOLL_TODAY = dt.date(2026, 6, 11)
+WORN_BY = {"open_hours": 3000, "slews": 50_000, "axis1_travel_deg": 250_000, "brake_cycles": 5000, "dust_hours": 2000}
+
+
+@pytest.fixture
+def left_out(db):
+    site = Site.objects.create(name="Dusty Knoll", slug="dusty-knoll", latitude_deg=0, longitude_deg=0,
+                               time_zone="UTC")
+    north = Telescope.objects.create(site=site, name="North", aperture_m=0.6, mount="fork")
+    south = Telescope.objects.create(site=site, name="South", aperture_m=0.4, mount="altaz")
+    constant_sky(site, dt.date(2026, 5, 31), KNOLL_TODAY + dt.timedelta(days=services.HORIZON_DAYS + 5))
+    unknown = {"axis1_travel_deg": None, "axis2_travel_deg": None, "brake_cycles": None, "pm10_ugm3": None}
+    NightUsage.objects.bulk_create(
+        [NightUsage(site=site, night=day, open_hours=6, slews=30, axis1_travel_deg=900, axis2_travel_deg=500,
+                    brake_cycles=32, pm10_ugm3=60) for day in _days(dt.date(2026, 6, 1), dt.date(2026, 6, 10))]
+        + [NightUsage(site=site, telescope=north, night=dt.date(2026, 5, 31), open_hours=4, slews=10, **unknown)]
+        + [NightUsage(site=site, telescope=north, night=day, open_hours=5, slews=50, **unknown)
+           for day in _days(dt.date(2026, 6, 6), dt.date(2026, 6, 10))]
+        + [NightUsage(site=site, telescope=south, night=dt.date(2026, 6, 10), open_hours=2, slews=8, brake_cycles=0,
+                      axis1_travel_deg=None, axis2_travel_deg=None)]
+    )
+    plans = {}
+    for telescope in (north, south):
+        brake = Subsystem.objects.create(telescope=telescope, kind="brake", name=f"{telescope.name} brake")
+        plan = ServicePlan.objects.create(subsystem=brake, name="Brake check", counting_from=dt.date(2026, 5, 31),
+                                          dust_sensitivity=1.0)
+        Trigger.objects.bulk_create(Trigger(plan=plan, metric=metric, limit=limit) for metric, limit in WORN_BY.items())
+        plans[telescope.name] = plan
+    return site, north, south, plans
+
+
+def test_a_telescopes_night_takes_the_figures_it_leaves_out_from_the_sites_row_of_that_night(left_out):
+    site, _, _, plans = left_out
+    services.site_recompute(site, KNOLL_TODAY)
+    assert _figures(plans["North"]) == pytest.approx({
+        "open_hours": 59, "slews": 410, "axis1_travel_deg": 9000, "brake_cycles": 320, "dust_hours": 169,
+    })
+
+
+def test_a_figure_the_telescope_gives_counts_as_given_even_0(left_out):
+    site, _, _, plans = left_out
+    services.site_recompute(site, KNOLL_TODAY)
+    assert _figures(plans["South"]) == pytest.approx({
+        "open_hours": 56, "slews": 278, "axis1_travel_deg": 9000, "brake_cycles": 288, "dust_hours": 168,
+    })
+
+
+def test_a_telescopes_log_night_by_night(left_out):
+    """North's log: 31 May its own (nothing to fill from), 1-5 Jun the site's rows, 6-10 Jun its own rows filled."""
+    site, north, _, _ = left_out
+    log = services.UsageLog.of_site(site)[north.pk]
+    assert log.nights.astype(str).tolist() == [
+        "2026-05-31", *(f"2026-06-{day:02d}" for day in range(1, 11))
+    ]
+    assert log.columns["open_hours"].tolist() == [4] + [6] * 5 + [5] * 5
+    assert log.columns["brake_cycles"].tolist() == [0] + [32] * 10
+    assert log.columns["axis2_travel_deg"].tolist() == [0] + [500] * 10
+    assert log.pm10[0] != log.pm10[0] and log.pm10[1:].tolist() == [60] * 10  # NaN (not measured), then the site's
+    assert services.UsageLog.of_site(site)[None].columns["brake_cycles"].tolist() == [32] * 10  # the site's own
+
+
+def test_an_unknown_counter_on_a_row_of_the_site_counts_0(left_out):
+    """Only a telescope's row leaves counters unknown; were a row of the site's stored so, its log counts it 0."""
+    site, _, _, _ = left_out
+    NightUsage.objects.filter(telescope__isnull=False).delete()
+    NightUsage.objects.filter(site=site, night=dt.date(2026, 6, 1)).update(slews=None, brake_cycles=None)
+    log = services.UsageLog.of_site(site)[None]
+    assert log.columns["slews"].tolist() == [0] + [30] * 9
+    assert log.columns["brake_cycles"].sum() == 9 * 32

@@ -4,13 +4,15 @@ the admin all carry the telescope.
 A record with no telescope (an empty cell, JSON null, the column or key left out) is the whole site's night; one
 that names a telescope of the site (as registered, case and surrounding spaces aside) is that telescope's own
 night. Stored nights are keyed by (site, telescope, night): the same record twice changes nothing, a changed
-figure is reported with its telescope, and one bad record stores nothing. The usage each telescope's plans count
-from these rows is specified in tests/test_usage_per_telescope.py.
+figure is reported with its telescope, and one bad record stores nothing. A counter or PM10 that a telescope's record
+leaves out (or leaves empty) is stored as unknown, the site's figure of that night; the whole site's record stores 0
+as before. The usage each telescope's plans count from these rows is specified in tests/test_usage_per_telescope.py.
 """
 from __future__ import annotations
 
 import datetime as dt
 import json
+import re
 from io import StringIO
 
 import pytest
@@ -168,7 +170,7 @@ def test_skip_bad_stores_the_good_rows_and_skips_the_unknown_telescope(site, nor
     report = services.nights_import(site, b"night,telescope,open_hours\n2024-01-05,North,5\n2024-01-05,Nort,6\n",
                                     skip_bad=True)
     assert (report.created, [p.position for p in report.skipped]) == (1, [3])
-    assert logged(site) == [(NIGHT, "North", 5.0, 0)]
+    assert logged(site) == [(NIGHT, "North", 5.0, None)]
 
 
 def test_the_same_file_twice_changes_nothing(site, north, south, recomputes):
@@ -176,7 +178,8 @@ def test_the_same_file_twice_changes_nothing(site, north, south, recomputes):
     stored_once = snapshot()
     report = services.nights_import(site, MIXED_FILE)
     assert (report.created, report.updated, report.unchanged) == (0, 0, 6)
-    assert report.summary.startswith("0 new, 0 updated, 6 unchanged; nothing changed.")
+    assert report.summary.startswith("0 new, 0 updated, 6 unchanged (whole site: 2, North: 2, South: 2); nothing "
+                                     "changed.")
     assert snapshot() == stored_once
     assert recomputes == [site.pk]  # the first import only
 
@@ -204,7 +207,7 @@ def test_the_command_names_the_telescope_of_each_night_it_updates(site, north, t
     assert out.getvalue().splitlines() == [
         "updated night 2024-01-05: open_hours 5 -> 6",
         "updated night 2024-01-05 (North): open_hours 5 -> 7",
-        f"{path}: 0 new, 2 updated, 0 unchanged.",
+        f"{path}: 0 new, 2 updated (whole site: 1, North: 1), 0 unchanged.",
         "Changed 2 stored nights.",
     ]
 
@@ -222,7 +225,79 @@ def test_a_telescopes_night_inserted_by_a_concurrent_writer_is_counted_once(site
     monkeypatch.setattr(services, "_stored_nights", first_read_misses_it)
     report = services.nights_ingest(site, [record])
     assert (report.created, report.updated, report.unchanged, len(reads)) == (0, 0, 1, 2)
-    assert logged(site) == [(NIGHT, "North", 5.0, 0)]
+    assert logged(site) == [(NIGHT, "North", 5.0, None)]
+
+
+# --- figures a telescope's record leaves out -------------------------------------------------------------------
+#
+# A telescope's night takes each figure its record leaves out (a counter or PM10) from the site's row of that night
+# (planning.services.UsageLog, tests/test_usage_per_telescope.py), so such a figure is stored as unknown (None), not
+# as 0: a left-out column or key, an empty cell and a JSON null alike. The whole site's night stores 0 as before.
+
+
+def counters(site, telescope=None) -> tuple:
+    """(slews, axis 1 travel, axis 2 travel, brake cycles, PM10, humidity, dew) of the stored night NIGHT."""
+    night = NightUsage.objects.get(site=site, night=NIGHT, telescope=telescope)
+    return (night.slews, night.axis1_travel_deg, night.axis2_travel_deg, night.brake_cycles, night.pm10_ugm3,
+            night.humidity_pct, night.dew)
+
+
+def test_a_new_telescopes_night_stores_the_counters_and_dust_it_leaves_out_as_unknown_the_sites_night_0(site, north):
+    services.nights_import(site, b"night,telescope,open_hours,slews\n2024-01-05,,7,0\n2024-01-05,North,5,41\n")
+    assert counters(site) == (0, 0.0, 0.0, 0, None, None, False)
+    assert counters(site, north) == (41, None, None, None, None, None, False)
+
+
+def test_an_empty_cell_or_null_on_a_telescopes_new_night_is_unknown_and_a_0_given_is_0(site, north, south):
+    services.nights_import(site, b"night,telescope,brake_cycles,open_hours,pm10_ugm3,slews\n"
+                                 b"2024-01-05,North,,5,,\n2024-01-05,,,7,,\n")
+    services.nights_ingest(site, [{"night": "2024-01-05", "telescope": "South", "open_hours": 3, "slews": None,
+                                   "brake_cycles": 0, "axis1_travel_deg": 0, "pm10_ugm3": None}])
+    assert counters(site, north) == (None, None, None, None, None, None, False)
+    assert counters(site, south) == (None, 0.0, None, 0, None, None, False)
+    assert counters(site) == (0, 0.0, 0.0, 0, None, None, False)  # the whole site's: 0 as before
+
+
+def test_a_stored_telescopes_night_keeps_the_figures_a_record_leaves_out(site, north):
+    services.nights_import(site, b"night,telescope,open_hours,slews,brake_cycles,pm10_ugm3\n"
+                                 b"2024-01-05,North,5,41,43,38\n")
+    report = services.nights_ingest(site, [{"night": "2024-01-05", "telescope": "North", "open_hours": 5.5}])
+    assert (report.created, report.updated) == (0, 1)
+    assert counters(site, north) == (41, None, None, 43, 38.0, None, False)
+
+
+def test_a_file_of_telescopes_nights_with_left_out_figures_imported_twice_changes_nothing(site, north, recomputes):
+    data = b"night,telescope,open_hours,slews,brake_cycles\n2024-01-05,North,5,41,\n2024-01-06,North,4,30,\n"
+    services.nights_import(site, data)
+    stored_once = snapshot()
+    report = services.nights_import(site, data)
+    assert (report.created, report.updated, report.unchanged) == (0, 0, 2)
+    assert snapshot() == stored_once and recomputes == [site.pk]
+
+
+def test_emptying_a_stored_telescopes_figure_lists_the_change_as_the_sites(client, technician, site, north):
+    services.nights_import(site, b"night,telescope,open_hours,slews,brake_cycles\n2024-01-05,North,5,0,43\n")
+    report = services.nights_import(site, b"night,telescope,open_hours,brake_cycles\n2024-01-05,North,5,\n")
+    assert [(c.column, c.old_text, c.new_text) for c in report.changes] == [("brake_cycles", "43", "site's")]
+    page = upload(client, site, b"night,telescope,open_hours,slews\n2024-01-05,North,5,\n").content.decode()
+    assert "<td>North</td><td><code>slews</code></td><td>0</td><td>site&#x27;s</td>" in page
+
+
+def test_the_import_says_whose_nights_it_stored(site, north, south):
+    """The import's summary names each telescope's share of the nights stored, and the whole site's when the site has
+    several telescopes (a file without the telescope column is then seen to be the whole site's)."""
+    rows = b"".join(b"2024-01-%02d,North,5,40\n" % day for day in range(1, 29))
+    report = services.nights_import(site, b"night,telescope,open_hours,slews\n" + rows)
+    assert report.summary == "28 new (North: 28), 0 updated, 0 unchanged."
+    report = services.nights_import(site, b"night,open_hours\n2024-01-05,7\n")
+    assert report.summary == "1 new (whole site: 1), 0 updated, 0 unchanged."
+
+
+def test_a_site_with_one_telescope_names_only_the_telescopes_nights(site, north):
+    assert services.nights_import(site, b"night,open_hours\n2024-01-05,7\n").summary == (
+        "1 new, 0 updated, 0 unchanged.")
+    report = services.nights_import(site, b"night,telescope,open_hours\n2024-01-05,North,5\n2024-01-05,,7\n")
+    assert report.summary == "1 new (North: 1), 0 updated, 1 unchanged."
 
 
 # --- the upload page ------------------------------------------------------------------------------------
@@ -244,7 +319,7 @@ def test_the_upload_page_lists_a_change_of_a_telescopes_night_with_the_telescope
     page = upload(client, site, b"night,telescope,open_hours\n2024-01-05,North,5.5\n").content.decode()
     assert "<th>Night</th><th>Telescope</th><th>Column</th>" in page
     assert "<td>2024-01-05</td><td>North</td><td><code>open_hours</code></td><td>5</td><td>5.5</td>" in page
-    assert logged(site) == [(NIGHT, "North", 5.0, 0)]  # not stored until confirmed
+    assert logged(site) == [(NIGHT, "North", 5.0, None)]  # not stored until confirmed
 
 
 def test_the_upload_page_shows_the_unknown_telescope_on_its_line(client, technician, site, north):
@@ -278,11 +353,16 @@ def test_the_api_stores_each_telescopes_night_and_the_same_request_again_changes
         {"night": "2024-01-05", "telescope": "south", "open_hours": 3.25, "slews": 12},
         {"night": "2024-01-05", "telescope": None, "open_hours": 7.5},
     ]
-    assert post(client, site, body, secret).json() == {"created": 3, "updated": 0, "unchanged": 0}
-    assert post(client, site, body, secret).json() == {"created": 0, "updated": 0, "unchanged": 3}
+    one = {"created": 1, "updated": 0, "unchanged": 0}
+    assert post(client, site, body, secret).json() == {"created": 3, "updated": 0, "unchanged": 0, "by_telescope": {
+        "North": one, "South": one, "": one}}
+    again = {"created": 0, "updated": 0, "unchanged": 1}
+    assert post(client, site, body, secret).json() == {"created": 0, "updated": 0, "unchanged": 3, "by_telescope": {
+        "North": again, "South": again, "": again}}
     assert logged(site) == [(NIGHT, None, 7.5, 0), (NIGHT, "North", 7.5, 41), (NIGHT, "South", 3.25, 12)]
     body[1]["open_hours"] = 4
-    assert post(client, site, body, secret).json() == {"created": 0, "updated": 1, "unchanged": 2}
+    assert post(client, site, body, secret).json() == {"created": 0, "updated": 1, "unchanged": 2, "by_telescope": {
+        "North": again, "South": {"created": 0, "updated": 1, "unchanged": 0}, "": again}}
     assert logged(site)[2] == (NIGHT, "South", 4.0, 12)
 
 
@@ -326,9 +406,48 @@ def test_the_form_offers_the_sites_telescopes_and_stores_a_telescopes_night(clie
     response = client.post(reverse("night-log", args=[site.slug]),
                            {"night": "2024-01-05", "telescope": "South", "open_hours": "3.5"})
     assert response.status_code == 302
-    assert logged(site) == [(NIGHT, "South", 3.5, 0)]
+    assert logged(site) == [(NIGHT, "South", 3.5, None)]  # slews left empty: the site's figure of that night
     messages = [str(m) for m in client.get(reverse("nights-list", args=[site.slug])).context["messages"]]
-    assert messages == ["Night 2024-01-05 (South): 1 new, 0 updated, 0 unchanged."]
+    assert messages == ["Night 2024-01-05: 1 new (South: 1), 0 updated, 0 unchanged."]
+
+
+def test_with_several_telescopes_the_form_chooses_none_beforehand_and_asks_whose_night_it_is(
+    client, technician, site, north, south
+):
+    """A technician who forgets to choose cannot overwrite the whole site's night: nothing is stored, and the
+    telescope field says what to choose."""
+    services.nights_import(site, b"night,open_hours\n2024-01-05,7\n")
+    before = snapshot()
+    page = client.get(reverse("night-log", args=[site.slug])).content.decode()
+    assert '<input type="radio" name="telescope" value="" id="id_telescope_0">' in page  # not checked
+    assert "whole site (every telescope without a night of its own)" in page and " checked" not in page
+    response = client.post(reverse("night-log", args=[site.slug]), {"night": "2024-01-05", "open_hours": "3.5"})
+    assert response.context["form"].errors["telescope"] == [
+        "Choose whose night this is: one telescope's, or the whole site's (every telescope without a night of its "
+        "own)."
+    ]
+    assert "<li>Choose whose night this is" in response.content.decode() and " checked" not in (
+        response.content.decode())
+    assert snapshot() == before
+    client.post(reverse("night-log", args=[site.slug]), {"night": "2024-01-05", "telescope": "", "open_hours": "6"})
+    assert logged(site) == [(NIGHT, None, 6.0, 0)]
+    messages = [str(m) for m in client.get(reverse("nights-list", args=[site.slug])).context["messages"]]
+    assert messages == ["Night 2024-01-05: 0 new, 1 updated (whole site: 1), 0 unchanged."]
+
+
+def test_correcting_the_sites_night_of_a_site_with_several_telescopes_has_the_whole_site_chosen(
+    client, technician, site, north, south
+):
+    services.nights_import(site, b"night,open_hours\n2024-01-05,7\n")
+    page = client.get(reverse("night-log", args=[site.slug]) + "?night=2024-01-05").content.decode()
+    assert '<input type="radio" name="telescope" value="" id="id_telescope_0" checked>' in page
+
+
+def test_with_one_telescope_the_form_keeps_the_whole_sites_night_as_its_default(client, technician, site, north):
+    form = client.get(reverse("night-log", args=[site.slug])).context["form"]
+    assert form["telescope"].value() is None and "<select" in str(form["telescope"])
+    client.post(reverse("night-log", args=[site.slug]), {"night": "2024-01-05", "open_hours": "6"})
+    assert logged(site) == [(NIGHT, None, 6.0, 0)]
 
 
 def test_correcting_a_telescopes_night_finds_it_by_telescope_and_night_and_leaves_the_sites_alone(
@@ -370,3 +489,31 @@ def test_the_admin_shows_whose_each_night_is_and_filters_by_telescope(client, us
     assert '<td class="field-whose">whole site</td>' in page and '<td class="field-whose">North</td>' in page
     only_north = client.get(f"/admin/logbook/nightusage/?telescope__id__exact={north.pk}").context["cl"]
     assert [row.night for row in only_north.result_list] == [NIGHT + dt.timedelta(days=1)]
+
+
+def test_the_log_page_and_the_admin_show_a_telescopes_left_out_figures_as_the_sites(client, users, site, north):
+    services.nights_import(site, b"night,telescope,open_hours,slews\n2024-01-05,,7,0\n2024-01-05,North,5,41\n")
+    users["engineer"].is_staff = True
+    users["engineer"].save()
+    client.force_login(users["engineer"])
+    page = client.get(reverse("nights-list", args=[site.slug])).content.decode()
+    rows = {line.split("</td><td>")[1]: line.split("</td><td>")[2:9] for line in page.splitlines()
+            if line.startswith("<tr><td>Fri 05 Jan 2024")}
+    assert rows == {  # open hours, slews, axis 1 and 2 travel, brake cycles, PM10, humidity
+        "whole site": ["7.00", "0", "0", "0", "0", "–", "–"],
+        "North": ["5.00", "41", "site&#x27;s", "site&#x27;s", "site&#x27;s", "site&#x27;s", "–"],
+    }
+    listing = client.get("/admin/logbook/nightusage/").content.decode()
+    assert '<td class="field-shown">site&#x27;s</td>' in listing
+    record = client.get(f"/admin/logbook/nightusage/{NightUsage.objects.get(telescope=north).pk}/change/")
+    shown = re.findall(r'<label>([^<]+):</label>\s*<div class="readonly">([^<]*)</div>', record.content.decode())
+    assert dict(shown)["Slews"] == "41" and dict(shown)["Brake cycles"] == "site&#x27;s"
+
+
+def test_the_format_help_says_an_empty_figure_of_a_telescopes_row_is_the_sites(client, technician, site):
+    page = client.get(reverse("nights-import", args=[site.slug])).content.decode()
+    assert "<td><code>slews</code></td><td>no</td><td>–</td><td>0 to 10,000 (whole number)</td><td>0; on a " \
+           "telescope&#x27;s row: the site&#x27;s figure of that night</td>" in page
+    assert "<td>not measured; on a telescope&#x27;s row: the site&#x27;s figure of that night</td><td>mean PM10" in page
+    assert "<td>not measured</td><td>mean relative humidity while open</td>" in page  # nothing counts humidity
+    assert "hours the dome was open (on a telescope&#x27;s row: the hours that telescope was open and in use)" in page

@@ -49,7 +49,9 @@ def nights_post(request, site):
     report = services.nights_ingest(site, records, reason=f"sent with API token {token.prefix}... ({token.name})"[:100])
     if report.errors:
         return errors(400, [(p.position, p.field, p.reason) for p in report.errors])
-    return JsonResponse({"created": report.created, "updated": report.updated, "unchanged": report.unchanged})
+    # The three counts stay as they were (control software reads them); by_telescope says whose nights they are.
+    return JsonResponse({"created": report.created, "updated": report.updated, "unchanged": report.unchanged,
+                         "by_telescope": report.by_telescope})
 
 
 @api_token_required("GET")

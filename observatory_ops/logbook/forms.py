@@ -95,22 +95,36 @@ class NightsUploadForm(forms.Form):
 TELESCOPE_RULE = "A telescope's log is its own nights, and the whole site's nights on which it has none of its own."
 
 
+class _NoneChosen(forms.RadioSelect):
+    """Radio buttons none of which is checked until one is chosen. Django checks the empty choice (here the whole
+    site's night) when there is no value, which would choose it for whoever forgot to choose."""
+
+    def format_value(self, value):
+        return [] if value is None else super().format_value(value)
+
+
 class NightForm(forms.Form):
     """One night typed in: a text field per column of the nights format, checked by the same rules as the
     CSV import and the API (``nights_csv``), so this form keeps no rules of its own. A field left empty is
-    left out: a night already stored keeps that figure, a new night takes the format's default. The
-    telescope is chosen among ``telescopes`` (the site's telescope names); none chosen: the whole site's night."""
+    left out: a night already stored keeps that figure, a new night takes the format's default (a telescope's: the
+    site's figure of that night for a counter or PM10). The telescope is chosen among ``telescopes`` (the site's
+    telescope names), or the whole site's night (the empty choice). With more than one telescope the choice must
+    be made: nothing is chosen beforehand, so a forgotten choice cannot overwrite the whole site's night."""
 
     def __init__(self, *args, telescopes=(), **kwargs):
         from .nights_csv import COLUMN_SPECS
 
         super().__init__(*args, **kwargs)
+        self.choose_whose = len(telescopes) > 1
+        own = bool(self.initial.get("telescope"))
         for column in COLUMN_SPECS:
             label = f"{column.meaning[:1].upper()}{column.meaning[1:]}" + (f" ({column.unit})" if column.unit else "")
             if column.kind == "telescope":
-                choices = [("", f"{services.WHOLE_SITE}: every telescope without a night of its own")]
-                field = forms.ChoiceField(choices=choices + [(name, name) for name in telescopes], required=False,
-                                          label="Telescope", help_text=TELESCOPE_RULE)
+                choices = [("", f"{services.WHOLE_SITE} (every telescope without a night of its own)")]
+                field = forms.ChoiceField(
+                    choices=choices + [(name, name) for name in telescopes], required=False, label="Telescope",
+                    help_text=TELESCOPE_RULE, widget=_NoneChosen if self.choose_whose else forms.Select,
+                )
             elif column.kind == "flag":
                 choices = [("", "as stored (no for a new night)"), ("no", "no"), ("yes", "yes")]
                 field = forms.ChoiceField(choices=choices, required=False, label=label)
@@ -118,9 +132,20 @@ class NightForm(forms.Form):
                 field = forms.CharField(required=True, label=label,
                                         widget=forms.DateInput(attrs={"type": "date"}))
             else:
+                attrs = {"inputmode": "decimal", "size": 10}
+                if own and column.from_site and self.initial.get(column.name) == "":
+                    attrs["placeholder"] = services.FIGURE_FROM_SITE  # a stored telescope's night without it
                 field = forms.CharField(required=column.required, label=label, help_text=column.accepted,
-                                        widget=forms.TextInput(attrs={"inputmode": "decimal", "size": 10}))
+                                        widget=forms.TextInput(attrs=attrs))
             self.fields[column.name] = field
+
+    def clean_telescope(self) -> str:
+        if self.choose_whose and self.data.get(self.add_prefix("telescope")) is None:
+            raise forms.ValidationError(
+                f"Choose whose night this is: one telescope's, or the {services.WHOLE_SITE}'s (every telescope "
+                "without a night of its own)."
+            )
+        return self.cleaned_data["telescope"]
 
     def record(self) -> dict:
         """The night as the API would send it: only the fields filled in."""

@@ -23,7 +23,8 @@ class NightUsage(models.Model):
     The night belongs to the local date of its evening. A telescope's log is its own rows, and the site's
     rows on the nights it has none of its own (``planning.services.UsageLog``): a site whose telescopes share
     one dome sends one row a night; a site whose telescopes are used apart sends one row per telescope, and
-    may send the site's row too (the dome's controller) for the telescopes that send nothing.
+    may send the site's row too (the dome's controller) for the telescopes that send nothing. A telescope's row
+    takes each figure it leaves out (a counter or PM10 stored empty) from the site's row of that night.
     """
 
     history = HistoricalRecords()  # who changed what, when: see observatory_ops/archive
@@ -40,10 +41,12 @@ class NightUsage(models.Model):
     )
     night = models.DateField(help_text="Local date of the evening the night starts.")
     open_hours = models.FloatField(validators=[MinValueValidator(0), MaxValueValidator(24)])
-    slews = models.PositiveIntegerField(default=0)
-    axis1_travel_deg = models.FloatField(default=0, validators=[MinValueValidator(0)])
-    axis2_travel_deg = models.FloatField(default=0, validators=[MinValueValidator(0)])
-    brake_cycles = models.PositiveIntegerField(default=0)
+    # The counters are empty (unknown) only on a telescope's row that does not give them: the site's row of that
+    # night gives them instead (``planning.services.UsageLog``). The site's rows hold 0 for a counter not sent.
+    slews = models.PositiveIntegerField(default=0, null=True, blank=True)
+    axis1_travel_deg = models.FloatField(default=0, null=True, blank=True, validators=[MinValueValidator(0)])
+    axis2_travel_deg = models.FloatField(default=0, null=True, blank=True, validators=[MinValueValidator(0)])
+    brake_cycles = models.PositiveIntegerField(default=0, null=True, blank=True)
     pm10_ugm3 = models.FloatField(null=True, blank=True, validators=[MinValueValidator(0)])
     humidity_pct = models.FloatField(null=True, blank=True, validators=[MinValueValidator(0), MaxValueValidator(100)])
     dew = models.BooleanField(default=False)

@@ -12,7 +12,9 @@ on the nights it has none of its own (``logbook.models.NightUsage``).
 
 A column left out of a file (or a key left out of an object) gives nothing: a night already stored keeps
 that figure, and a new night takes the column's blank value. A blank cell or a JSON null is a value: the
-column's blank value.
+column's blank value. On a telescope's row the blank value of a counter and of PM10 is "the site's figure"
+(``Column.from_site``, stored as None): its log takes that figure from the site's row of the same night, so
+control software that knows a telescope's slews but not its brake cycles or the dust leaves them out.
 """
 from __future__ import annotations
 
@@ -52,13 +54,18 @@ def _figure(value: float) -> str:
     return f"{int(value):,}" if float(value).is_integer() else f"{value:g}"
 
 
+#: What a telescope's blank counter or PM10 stands for, in words (``Column.from_site``).
+SITES_FIGURE = "the site's figure of that night"
+
+
 @dataclass(frozen=True)
 class Column:
     """One column of the format. ``kind`` is "date", "telescope" (a telescope's name), "number", "count" (a whole
     number) or "flag" (yes/no).
 
     ``blank`` is the value a blank cell or null stands for, and a new night's value when the column is
-    left out; ``example`` is the column's cell in the example row of the help.
+    left out; ``example`` is the column's cell in the example row of the help. ``from_site``: on a telescope's
+    row the blank value is None instead, "the site's figure of that night" (``blank_of``).
     """
 
     name: str
@@ -70,6 +77,7 @@ class Column:
     high: float | None = None
     required: bool = False
     blank: object = None
+    from_site: bool = False
 
     @property
     def accepted(self) -> str:
@@ -92,30 +100,41 @@ class Column:
         if self.kind == "telescope":
             return "the whole site's night"
         if self.blank is None:
-            return "not measured"
-        if self.kind == "flag":
-            return "no"
-        return _figure(self.blank)
+            said = "not measured"
+        elif self.kind == "flag":
+            said = "no"
+        else:
+            said = _figure(self.blank)
+        return f"{said}; on a telescope's row: {SITES_FIGURE}" if self.from_site else said
+
+    def blank_of(self, own: bool) -> object:
+        """The blank value on a telescope's row (``own``) or on the whole site's."""
+        return None if own and self.from_site else self.blank
 
 
 COLUMN_SPECS: tuple[Column, ...] = (
     Column("night", "local date of the evening the night starts", "date", "2026-03-14", required=True),
     # Left out or empty: the site's night, counted for every telescope with no row of its own that night.
     Column("telescope", "whose night: one telescope's, or (empty) the whole site's", "telescope", ""),
-    Column("open_hours", "hours the dome was open", "number", "7.5", unit="h", low=0, high=24, required=True),
-    Column("slews", "number of slews", "count", "41", low=0, high=MAX_SLEWS_PER_NIGHT, blank=0),
+    Column("open_hours", "hours the dome was open (on a telescope's row: the hours that telescope was open and in "
+           "use)", "number", "7.5", unit="h", low=0, high=24, required=True),
+    Column("slews", "number of slews", "count", "41", low=0, high=MAX_SLEWS_PER_NIGHT, blank=0, from_site=True),
     Column("axis1_travel_deg", "travel of the right ascension / azimuth axis", "number", "1030.5", unit="degrees",
-           low=0, high=MAX_TRAVEL_DEG_PER_NIGHT, blank=0.0),
+           low=0, high=MAX_TRAVEL_DEG_PER_NIGHT, blank=0.0, from_site=True),
     Column("axis2_travel_deg", "travel of the declination / elevation axis", "number", "610", unit="degrees",
-           low=0, high=MAX_TRAVEL_DEG_PER_NIGHT, blank=0.0),
+           low=0, high=MAX_TRAVEL_DEG_PER_NIGHT, blank=0.0, from_site=True),
     Column("brake_cycles", "brake engage and release cycles", "count", "43", low=0, high=MAX_BRAKE_CYCLES_PER_NIGHT,
-           blank=0),
-    Column("pm10_ugm3", "mean PM10 dust while open", "number", "38.2", unit="µg/m³", low=0, high=MAX_PM10_UGM3),
+           blank=0, from_site=True),
+    Column("pm10_ugm3", "mean PM10 dust while open", "number", "38.2", unit="µg/m³", low=0, high=MAX_PM10_UGM3,
+           from_site=True),
+    # Not taken from the site's row: nothing counts humidity, so a telescope's blank is simply not measured.
     Column("humidity_pct", "mean relative humidity while open", "number", "31", unit="%", low=0, high=100),
     Column("dew", "dew formed", "flag", "no", blank=False),
     Column("rain", "rain fell", "flag", "no", blank=False),
 )
 COLUMNS = tuple(c.name for c in COLUMN_SPECS)
+#: The columns a telescope's row may leave to the site's row of the same night.
+FROM_SITE = tuple(c.name for c in COLUMN_SPECS if c.from_site)
 REQUIRED = tuple(c.name for c in COLUMN_SPECS if c.required)
 OPTIONAL = tuple(c.name for c in COLUMN_SPECS if not c.required)
 
@@ -360,13 +379,14 @@ def _telescope(raw: object, telescopes: Sequence[str]) -> str:
     raise RowError("telescope", f"unknown telescope {written!r} ({known}); leave it empty for the whole site's night")
 
 
-def _value(column: Column, raw: object, latest_night: dt.date, telescopes: Sequence[str]) -> object:
+def _value(column: Column, raw: object, latest_night: dt.date, telescopes: Sequence[str], own: bool) -> object:
+    """The value of one cell; ``own``: the record is a telescope's night (``Column.blank_of``)."""
     if column.kind == "date":
         return _night(raw, latest_night)
     if _blank(raw):
         if column.required:
             raise RowError(column.name, f"{column.name} is empty")
-        return column.blank
+        return column.blank_of(own)
     if column.kind == "telescope":
         return _telescope(raw, telescopes)
     if column.kind == "flag":
@@ -388,7 +408,9 @@ def _checked(
                 problems.append((column.name, f"{column.name} is missing"))
             continue
         try:
-            values[column.name] = _value(column, record[column.name], latest_night, telescopes)
+            # COLUMN_SPECS puts the telescope before the figures whose blank value depends on it.
+            own = values.get("telescope") is not None
+            values[column.name] = _value(column, record[column.name], latest_night, telescopes, own)
         except RowError as exc:
             problems.append((exc.field, str(exc)))
     return values, problems
@@ -398,7 +420,8 @@ def parse_row(record: Mapping[str, object], latest_night: dt.date, telescopes: S
     """Check one record and return the NightUsage values of the columns it gives.
 
     A record is a CSV row (every value a string) or a JSON object (strings, numbers, booleans, null);
-    the rules are the same: a blank cell and null both mean the column's blank value, whole-number
+    the rules are the same: a blank cell and null both mean the column's blank value (``Column.blank_of``: on
+    a telescope's night, None for a counter or PM10: the site's figure of that night), whole-number
     columns take no fractions (4.0 is 4), ``dew`` and ``rain`` take yes/no, 1/0, true/false or a JSON
     boolean, ``telescope`` one of ``telescopes`` (the site's telescope names). Raises RowError listing
     every problem (``field`` names the first).

@@ -30,8 +30,12 @@ from .quantities import QUANTITIES, value_problem
 #: The columns that say which night a record is (the site's, or one telescope's), not what was used in it.
 _KEY_COLUMNS = ("night", "telescope")
 _USAGE_FIELDS = [c for c in nights_csv.COLUMNS if c not in _KEY_COLUMNS]
-#: What a new night stores for a column its record leaves out.
-_BLANKS = {c.name: c.blank for c in nights_csv.COLUMN_SPECS if not c.required and c.name not in _KEY_COLUMNS}
+#: What a new night stores for a column its record leaves out: by whether it is a telescope's night (True: None for a
+#: figure left to the site's row of that night, ``nights_csv.Column.blank_of``) or the whole site's (False).
+_BLANKS = {
+    own: {c.name: c.blank_of(own) for c in nights_csv.COLUMN_SPECS if not c.required and c.name not in _KEY_COLUMNS}
+    for own in (False, True)
+}
 #: A stored night: (telescope id, or None for the whole site's night; the night).
 NightKey = tuple[int | None, dt.date]
 
@@ -53,15 +57,22 @@ class NightChange:
 
     @property
     def old_text(self) -> str:
-        return nights_csv.cell(self.old) or "empty"
+        return self._text(self.old)
 
     @property
     def new_text(self) -> str:
-        return nights_csv.cell(self.new) or "empty"
+        return self._text(self.new)
+
+    def _text(self, value: object) -> str:
+        if value is None and self.telescope and self.column in nights_csv.FROM_SITE:
+            return FIGURE_FROM_SITE
+        return nights_csv.cell(value) or "empty"
 
 
 #: How pages and messages name a night that is no one telescope's.
 WHOLE_SITE = "whole site"
+#: How pages show a figure a telescope's night leaves to the site's row of that night (stored as None).
+FIGURE_FROM_SITE = "site's"
 
 
 def night_named(night: dt.date | str, telescope: str) -> str:
@@ -88,6 +99,11 @@ class ImportReport:
     confirmed_other: bool = False
     #: The site and the nights stored, for ``uncounted_note``.
     stored_on: tuple[Site, list[dt.date]] | None = None
+    #: The counts of each telescope's nights in the file or request (its name; "" for the whole site's), in order of
+    #: first appearance: {"created": .., "updated": .., "unchanged": ..}, as the API answers them.
+    by_telescope: dict[str, dict[str, int]] = field(default_factory=dict)
+    #: Name whose nights were stored even when all are the whole site's: the site has more than one telescope.
+    several_telescopes: bool = False
 
     @property
     def uncounted_note(self) -> str:
@@ -112,12 +128,21 @@ class ImportReport:
                 f"{text}. The file would change {nights} stored night{pluralize(nights)} "
                 f"({self.created} new, {self.unchanged} unchanged); nothing was stored yet."
             )
-        text = f"{self.created} new, {self.updated} updated, {self.unchanged} unchanged"
+        text = (f"{self.created} new{self._whose('created')}, {self.updated} updated{self._whose('updated')}, "
+                f"{self.unchanged} unchanged{self._whose('unchanged')}")
         if self.skipped:
             text += f"; {_rows(self.skipped)} skipped"
         if not (self.created or self.updated):
             text += "; nothing changed"
         return f"{text}. {self.uncounted_note}".strip()
+
+    def _whose(self, count: str) -> str:
+        """" (whole site: 2, R40: 28)": whose nights ``count`` ("created", "updated", "unchanged") counts, when any of
+        them is a telescope's or the site has several (a whole site's night stored by mistake is then seen)."""
+        stored = [(name, tally[count]) for name, tally in self.by_telescope.items() if tally[count]]
+        if not stored or not (self.several_telescopes or any(name for name, _ in stored)):
+            return ""
+        return f" ({', '.join(f'{name or WHOLE_SITE}: {number}' for name, number in stored)})"
 
     @property
     def refused_rows(self) -> list[tuple[int | None, str]]:
@@ -188,6 +213,7 @@ def nights_import(
                 return True
             report.confirm_token, report.confirmed_other = token, bool(confirmed)
             return False
+    report.several_telescopes = len(telescopes) > 1
     _nights_store(site, _resolved(parsed, telescopes), source, report, progress, by, approve=approve)
     return report
 
@@ -243,6 +269,7 @@ def nights_ingest(
         whole = parsed.whole_problem or ""
         report.file_problem = whole[:1].upper() + whole[1:]
         return report
+    report.several_telescopes = len(telescopes) > 1
     _nights_store(site, _resolved(parsed, telescopes), source, report, by=by, reason=reason)
     return report
 
@@ -298,9 +325,27 @@ def _nights_store(
                 raise
     report.created, report.updated, report.unchanged = len(new), len(changed), unchanged
     report.changes, report.stored = changes, stored
+    report.by_telescope = _counts_by_telescope(rows, new, changed)
     if stored:
         report.updated_nights = sorted(u.night for u in changed)
         report.stored_on = (site, [u.night for u in new + changed])
+
+
+def _counts_by_telescope(
+    rows: list[dict], new: list[NightUsage], changed: list[NightUsage]
+) -> dict[str, dict[str, int]]:
+    """Created, updated and unchanged nights of each telescope ``rows`` name ("" for the whole site's)."""
+    names = {None: ""} | {t.pk: t.name for values in rows if (t := values["telescope"])}
+    counts: dict[str, dict[str, int]] = {}
+    for values in rows:  # every night counted unchanged, then moved to its count below
+        whose = names[_key(values)[0]]
+        counts.setdefault(whose, {"created": 0, "updated": 0, "unchanged": 0})["unchanged"] += 1
+    for count, nights in (("created", new), ("updated", changed)):
+        for night in nights:
+            tally = counts[names[night.telescope_id]]
+            tally[count] += 1
+            tally["unchanged"] -= 1
+    return counts
 
 
 def _nights_compare(
@@ -312,13 +357,14 @@ def _nights_compare(
 ) -> tuple[list[NightUsage], list[NightUsage], int, list[NightChange]]:
     """The new nights, the stored nights with the file's figures set (not saved), the count of the others,
     and every figure changed. Each row holds the columns its record gave and its telescope (None: the whole
-    site's night): a new night takes the blank value of every other column, a stored night keeps its figures
-    for them and counts as changed only when a given one differs."""
+    site's night): a new night takes the blank value of every other column (a telescope's: None for a figure the
+    site's row gives, ``_BLANKS``), a stored night keeps its figures for them and counts as changed only when a
+    given one differs."""
     new, changed, unchanged, changes = [], [], 0, []
     for done, values in enumerate(rows, start=1):
         current = existing.get(_key(values))
         if current is None:
-            new.append(NightUsage(site=site, source=source, **(_BLANKS | values)))
+            new.append(NightUsage(site=site, source=source, **(_BLANKS[values["telescope"] is not None] | values)))
         else:
             differ = [f for f in _USAGE_FIELDS if f in values and getattr(current, f) != values[f]]
             whose = values["telescope"].name if values["telescope"] else ""

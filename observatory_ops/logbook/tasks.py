@@ -21,6 +21,7 @@ def nights_ingest(site_id: int, records: list[dict], source: str = "api") -> dic
         "created": report.created,
         "updated": report.updated,
         "unchanged": report.unchanged,
+        "by_telescope": report.by_telescope,
         "errors": [{"index": p[0], "field": getattr(p, "field", None), "reason": p[1]} for p in report.errors],
         "summary": report.summary,
     }

@@ -111,6 +111,7 @@ def nights_list(request, slug):
     page = Paginator(nights, 60).get_page(request.GET.get("page"))
     return render(request, "logbook/nights_list.html", {
         "site": site, "page": page, "whole_site": services.WHOLE_SITE, "telescope_rule": TELESCOPE_RULE,
+        "from_site": services.FIGURE_FROM_SITE,
     })
 
 
@@ -141,12 +142,12 @@ def night_log(request, slug):
         )
         for problem in report.errors:
             form.add_error(problem.field if problem.field in form.fields else None, problem.reason)
-        if not report.errors:
-            named = services.night_named(form.cleaned_data["night"], form.cleaned_data["telescope"])
-            messages.success(request, f"Night {named}: {report.summary}")
+        if not report.errors:  # the summary names whose night it is wherever that could be mistaken
+            messages.success(request, f"Night {form.cleaned_data['night']}: {report.summary}")
             return redirect("nights-list", slug=site.slug)
     return render(request, "logbook/night_form.html", {
         "site": site, "form": form, "stored": stored, "whole_site": services.WHOLE_SITE,
+        "from_site": services.FIGURE_FROM_SITE,
     })
 
 

@@ -523,7 +523,9 @@ class _PhaseWork(NamedTuple):
     ``lifted`` says what the order's lifting figures are for:
     the mirror in its cell, the mirror alone, or nothing. ``at_telescope`` is False for work done with the
     mirror away from the telescope (at a coating plant): its order carries the phase's own hazards only, not
-    the mirror subsystem's (a telescope that can move is not part of that work).
+    the mirror subsystem's (a telescope that can move is not part of that work). ``brakes`` says that its lockout
+    holds the axis brakes: the hazards of the telescope's brakes join its own (``_brakes_of``); ``balance_check``,
+    that its locked-out work ends with the check of the balance, worded for those brakes (``_balance_check``).
     """
 
     hazards: tuple[str, ...]
@@ -534,6 +536,8 @@ class _PhaseWork(NamedTuple):
     release: str = RELEASE
     lifted: str = ""
     at_telescope: bool = True
+    brakes: bool = False
+    balance_check: bool = False
 
 
 _WITH_CELL, _MIRROR_ONLY = "mirror and cell", "mirror alone"
@@ -552,29 +556,90 @@ _MIRROR_ONLY_LIFT = (
     "is a smaller load (the mirror mass row), so rig for the figures or for the mirror mass as the lift "
     "plan says."
 )
-#: The brakes are applied by springs and released by air: vented under the lockout, they hold an axis whatever
-#: its balance, so an axis that stays put while pinned or braked shows nothing. The check releases one axis's
-#: brake at a time, under the site's procedure, with the drives disabled and the axis restrained (common
-#: practice, no published source; the site's balancing procedure and the mount maker's instructions come first).
-_BALANCE_CHECK = (
-    "Check the balance one axis at a time, as the site's balancing procedure and the mount maker's "
-    "instructions say. The brakes are applied by springs and released by air, so with the air vented they "
-    "hold an axis whatever its balance: never take a pinned or braked axis as balanced. For each axis: keep "
-    "the drives locked out and disabled, everyone outside the swept volume, and the axis held or restrained "
-    "as the procedure says, with its pin in; release that axis's brake only as the procedure says (its air "
-    "restored under the site's lockout procedure, or the maker's manual release); draw the pin only when "
-    "ready, and let the restraint out slowly to see whether the axis turns under gravity. Then pin it and "
-    "apply its brake again (vent its air and lock it out again) before checking the other axis, and "
-    "correct the balance until neither axis turns."
-)
+class _Brakes(NamedTuple):
+    """How the balance check words a telescope's axis brakes, and the hazards of the brakes that the phases locking
+    them out add (``_PhaseWork.brakes``): ``held`` says why a braked axis shows nothing of its balance, ``release``
+    how one axis's brake is released for the check, ``apply`` how it is applied again."""
+
+    held: str
+    release: str
+    apply: str
+    hazards: tuple[str, ...]
+
+
+#: The catalogue's axis brakes (registry.catalogue.KINDS): both applied by springs, released by air or by their coil.
+_AIR_BRAKE, _SPRING_BRAKE = "brake", "spring_brake"
+
+#: The brakes' wording by the kinds registered in service on the telescope (``_brakes_of``). Applied by springs, they
+#: hold an axis with their air vented or their power isolated whatever its balance, so an axis that stays put while
+#: pinned or braked shows nothing. The pneumatic caution comes with an air brake ("When air returns the brakes
+#: release"), the stored-mechanical one with a spring brake (its springs stay loaded, OSHA 29 CFR 1910.147(d)(5)).
+#: Without a registered brake the check follows the mount's own arrangement and adds no brake hazard, as nothing says
+#: which. Common practice, no published source; the site's balancing procedure and the mount maker's instructions
+#: come first.
+_BRAKES = {
+    frozenset({_AIR_BRAKE}): _Brakes(
+        held="The brakes are applied by springs and released by air, so with the air vented they hold an axis "
+        "whatever its balance",
+        release="its air restored under the site's lockout procedure, or the maker's manual release",
+        apply="vent its air and lock it out again",
+        hazards=("pneumatic",),
+    ),
+    frozenset({_SPRING_BRAKE}): _Brakes(
+        held="The brakes are applied by springs and released electrically, so with their power isolated they hold "
+        "an axis whatever its balance",
+        release="its brake power restored under the site's lockout procedure, or the maker's manual release",
+        apply="isolate its power and lock it out again",
+        hazards=("stored_mechanical",),
+    ),
+    frozenset({_AIR_BRAKE, _SPRING_BRAKE}): _Brakes(
+        held="The brakes are applied by springs, some released by air and some electrically, so with the air vented "
+        "and their power isolated they hold an axis whatever its balance",
+        release="its air or its brake power, whichever releases it, restored under the site's lockout procedure, or "
+        "the maker's manual release",
+        apply="vent its air or isolate its power, whichever released it, and lock it out again",
+        hazards=("pneumatic", "stored_mechanical"),
+    ),
+    frozenset(): _Brakes(
+        held="No axis brake is registered for this telescope: follow the mount's own brake arrangement as its "
+        "maker's instructions describe it (and have an engineer register its brakes, if it has any). A brake holds "
+        "an axis whatever its balance",
+        release="by the means the mount's brake arrangement gives, under the site's lockout procedure, or the "
+        "maker's manual release",
+        apply="by the same means, and lock it out again",
+        hazards=(),
+    ),
+}
+
+
+def _brakes_of(telescope: Telescope) -> _Brakes:
+    """The wording and hazards of the telescope's axis brakes, by the kinds of brake it has in service."""
+    kinds = Subsystem.objects.in_service().filter(telescope=telescope, kind__in=(_AIR_BRAKE, _SPRING_BRAKE))
+    return _BRAKES[frozenset(kinds.values_list("kind", flat=True))]
+
+
+def _balance_check(brakes: _Brakes) -> str:
+    """The reinstall's check of the balance, releasing one axis's brake at a time under the site's procedure with
+    the drives disabled and the axis restrained (common practice, no published source; the site's balancing
+    procedure and the mount maker's instructions come first), in the words of the telescope's brakes."""
+    return (
+        "Check the balance one axis at a time, as the site's balancing procedure and the mount maker's "
+        f"instructions say. {brakes.held}: never take a pinned or braked axis as balanced. For each axis: keep "
+        "the drives locked out and disabled, everyone outside the swept volume, and the axis held or restrained "
+        "as the procedure says, with its pin in; release that axis's brake only as the procedure says "
+        f"({brakes.release}); draw the pin only when ready, and let the restraint out slowly to see whether the "
+        f"axis turns under gravity. Then pin it and apply its brake again ({brakes.apply}) before checking the "
+        "other axis, and correct the balance until neither axis turns."
+    )
+
 
 # How to leave the removal and the reinstall if their work stops part way (both take more than a day and may pause
 # over the crew's days off) is a standing note of their orders, not a step to tick: workorders.selectors.standing_notes.
 _PHASE_WORK = {
     "removal": _PhaseWork(
-        # The drives and the brake air are locked out: their cautions (an axis out of balance swings when the
-        # air returns) belong on the sheet with the lift.
-        hazards=("suspended_load", "optical_surface", "moving_machinery", "height", "electrical", "pneumatic"),
+        # The drives and the brakes are locked out: their cautions (an axis out of balance swings when its brake
+        # releases) belong on the sheet with the lift, the brakes' as the telescope's are registered.
+        hazards=("suspended_load", "optical_surface", "moving_machinery", "height", "electrical"),
         before=(
             "Take the observatory out of robotic and remote control and close the enclosure.",
             "Point the tube at the zenith at its service position, so the cell can come out of the tube "
@@ -613,6 +678,7 @@ _PHASE_WORK = {
             "Out-of-service tags",
         ),
         lifted=_WITH_CELL,
+        brakes=True,
     ),
     "coating": _PhaseWork(
         hazards=("suspended_load", "chemical", "vacuum_plant", "optical_surface"),
@@ -643,9 +709,9 @@ _PHASE_WORK = {
         at_telescope=False,
     ),
     "reinstall": _PhaseWork(
-        # The drives and the brake air are locked out: their cautions (an axis out of balance swings when the
-        # air returns) belong on the sheet with the lift.
-        hazards=("suspended_load", "optical_surface", "moving_machinery", "height", "electrical", "pneumatic"),
+        # The drives and the brakes are locked out: their cautions (an axis out of balance swings when its brake
+        # releases) belong on the sheet with the lift, the brakes' as the telescope's are registered.
+        hazards=("suspended_load", "optical_surface", "moving_machinery", "height", "electrical"),
         before=(
             "Check that the telescope is as the removal left it: both axes pinned with the tube at the "
             "zenith, tagged out of service, out of robotic and remote control (if the drives were powered "
@@ -659,7 +725,6 @@ _PHASE_WORK = {
             "mirror-removal procedure says; a competent person checks the table and any rigging.",
             "Take off any balance weights fitted at the removal and restore the axis balance with the drives "
             "still locked out, as the site's balancing procedure and the mount maker's instructions say.",
-            _BALANCE_CHECK,
         ),
         release=(
             "Only when both axes are balanced and everyone is clear, remove the pins, the locks (the site's "
@@ -677,6 +742,8 @@ _PHASE_WORK = {
             "The axis restraint the site's balancing procedure uses",
         ),
         lifted=_WITH_CELL,
+        brakes=True,
+        balance_check=True,
     ),
     "realignment": _PhaseWork(
         hazards=("laser", "moving_machinery", "height"),
@@ -697,9 +764,11 @@ _PHASE_WORK = {
 }
 
 
-def _phase_steps(hazards: list[str], work: _PhaseWork) -> str:
-    """A phase's steps in the order of the work, the isolation placed as on every order."""
-    return "\n".join(steps_in_groups(hazards, [*work.before], [*work.locked], [*work.after], work.release))
+def _phase_steps(hazards: list[str], work: _PhaseWork, brakes: _Brakes) -> str:
+    """A phase's steps in the order of the work, the isolation placed as on every order; ``brakes`` are the
+    telescope's (``_brakes_of``)."""
+    locked = [*work.locked, _balance_check(brakes)] if work.balance_check else [*work.locked]
+    return "\n".join(steps_in_groups(hazards, [*work.before], locked, [*work.after], work.release))
 
 
 def _phase_lift(mirror: Mirror, work: _PhaseWork) -> dict | None:
@@ -750,6 +819,7 @@ def recoat_plan_create(
     starts_on, ends_on = laid[0]["first"], laid[-1]["last"]
     realignment_plans = recoat_plans(subsystem) or [None]
     why = recoat_reason(mirror_forecast(mirror), starts_on, ends_on)
+    brakes = _brakes_of(subsystem.telescope)
     with transaction.atomic():
         Mirror.objects.select_for_update().filter(pk=mirror.pk).exists()  # two submits at once take turns
         overlapping = (
@@ -774,13 +844,14 @@ def recoat_plan_create(
             kind = phase.work
             if kind in _PHASE_WORK:
                 work = _PHASE_WORK[kind]
+                own = {*work.hazards, *(brakes.hazards if work.brakes else ())}
                 mirror_hazards = set(subsystem.hazards) if work.at_telescope else set()
-                hazards = [h for h in HAZARDS if h in set(work.hazards) | mirror_hazards]
+                hazards = [h for h in HAZARDS if h in own | mirror_hazards]
                 order = WorkOrder.objects.create(
                     site=subsystem.telescope.site, telescope=subsystem.telescope,
                     title=f"Recoat {subsystem.telescope.name} {subsystem.name}: {phase.name}",
                     planned_date=dates["first"],
-                    estimated_hours=8.0 * phase.days, steps=_phase_steps(hazards, work),
+                    estimated_hours=8.0 * phase.days, steps=_phase_steps(hazards, work, brakes),
                     tools="\n".join(work.tools), hazards=hazards, at_telescope=work.at_telescope, recoat_phase=kind,
                     lift_inputs=_phase_lift(mirror, work) if "suspended_load" in hazards else None,
                     created_by=by,

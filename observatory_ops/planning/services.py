@@ -196,19 +196,31 @@ class UsageLog:
         if not owners:  # one log for the site (the usual case, read as it comes)
             return {None: cls._of(rows, fields)}
         site_rows = [row for row in rows if row[0] is None]
+        site_by_night = {row[1]: row for row in site_rows}
         logs = {None: cls._of(site_rows, fields)}
         for owner in owners:
-            own = [row for row in rows if row[0] == owner]
+            own = [cls._filled(row, site_by_night.get(row[1])) for row in rows if row[0] == owner]
             own_nights = {row[1] for row in own}
             merged = sorted(own + [row for row in site_rows if row[1] not in own_nights], key=lambda row: row[1])
             logs[owner] = replace(cls._of(merged, fields), telescope_id=owner)
         return logs
 
+    @staticmethod
+    def _filled(own: tuple, site: tuple | None) -> tuple:
+        """A telescope's row with each figure it leaves out (None: a counter or PM10 its control software does not
+        know) taken from the site's row of the same night; with no site row that night, left out (``_of``)."""
+        if site is None or None not in own:
+            return own
+        return tuple(theirs if mine is None else mine for mine, theirs in zip(own, site, strict=True))
+
     @classmethod
     def _of(cls, rows: list[tuple], fields: list[str]) -> UsageLog:
         nights_ = _day_array(r[1] for r in rows)
-        # One conversion for every figure column; numpy turns a missing PM10 (None) into NaN.
+        # One conversion for every figure column; numpy turns a missing figure (None) into NaN. A counter left out
+        # (a telescope's row with no site row that night to fill it) counts 0; PM10 stays NaN, clean air.
         figures = np.array([r[2:] for r in rows], dtype=float).reshape(len(rows), len(fields) + 1)
+        counters = figures[:, :-1]
+        counters[np.isnan(counters)] = 0.0
         return cls(nights_, {f: figures[:, i] for i, f in enumerate(fields)}, figures[:, -1])
 
     def per_night(self, metric: str, dust_sensitivity: float) -> np.ndarray:

@@ -182,7 +182,11 @@ class Telescope(models.Model):
         OTHER = "other", "Other"
 
     site = models.ForeignKey(Site, on_delete=models.PROTECT, related_name="telescopes")
-    name = models.CharField(max_length=120)
+    name = models.CharField(
+        max_length=120,
+        help_text="Also the name its control software gives for nights of its own (the nights CSV's telescope column "
+        "and the API's telescope key): renamed here, it must be renamed there too, or those nights are refused.",
+    )
     aperture_m = models.FloatField(validators=[MinValueValidator(0.01), MaxValueValidator(20)])
     mount = models.CharField(max_length=16, choices=Mount.choices)
     tube_mass_kg = models.FloatField(null=True, blank=True, validators=[MinValueValidator(0)])
@@ -194,6 +198,14 @@ class Telescope(models.Model):
 
     def __str__(self) -> str:
         return f"{self.name} ({self.aperture_m:g} m)"
+
+    def clean(self) -> None:
+        stored = Telescope.objects.filter(pk=self.pk).values_list("site_id", flat=True).first() if self.pk else None
+        if stored is not None and stored != self.site_id and self.nights.exists():
+            raise ValidationError({"site": (
+                "This telescope has logged nights of its own at its site; they stay in that site's log, so it cannot "
+                "move to another site. Register it at the new site as a new telescope."
+            )})
 
     @property
     def equatorial(self) -> bool:
@@ -224,9 +236,9 @@ class Subsystem(models.Model):
     notes = models.TextField(blank=True)
     in_service_since = models.DateField(
         "in service since", null=True, blank=True,
-        help_text="The day it went into service: the start of the operating hours (the nightly log's dome-open "
-        "hours) counted for its reliability figures. Leave empty to count from its service plans' earliest "
-        "'counting from' date (without plans, the day it was registered, else the first logged night).",
+        help_text="The day it went into service: the start of the operating hours (the open hours of its "
+        "telescope's nightly log) counted for its reliability figures. Leave empty to count from its service plans' "
+        "earliest 'counting from' date (without plans, the day it was registered, else the first logged night).",
     )
     retired_on = models.DateField(null=True, blank=True)
 

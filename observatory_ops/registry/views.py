@@ -6,7 +6,7 @@ from fixtures_demo.generator import load_refusal
 from observatory_ops.access.decorators import requires
 from observatory_ops.access.roles import ENGINEER, VIEWER
 from observatory_ops.archive.history import changes
-from observatory_ops.logbook.models import NightUsage
+from observatory_ops.logbook import selectors as logbook_selectors
 from observatory_ops.mirrors.models import TRAIN_KINDS
 from observatory_ops.planning import selectors as planning_selectors
 from observatory_ops.planning.services import site_recompute, site_today, sites_bring_up_to_date
@@ -52,7 +52,7 @@ def site_dashboard(request, slug):
             "telescopes": telescopes,
             # A site being set up: telescopes with no subsystem in service yet (the page points to where to add them).
             "bare_telescopes": [t for t, nodes, _ in telescopes if not nodes],
-            "last_night": NightUsage.objects.filter(site=site).order_by("-night").first(),
+            "last_nights": logbook_selectors.last_nights(site),
             "recent_service": planning_selectors.recent_service(site)[:8],
             "low_stock": workorder_selectors.low_stock(site),
             "telescopes_out": workorder_selectors.telescopes_out([site]).values(),

@@ -44,6 +44,32 @@ def needs_isolation(hazards: Iterable[str]) -> bool:
     return any(h in ISOLATION_HAZARDS for h in hazards)
 
 
+#: The step that isolates an order's energy, placed after the steps under power (workorders.services.steps_in_groups).
+#: Stored energy is more than pressure: after isolation OSHA 29 CFR 1910.147(d)(5) asks for all of it to be relieved,
+#: disconnected or restrained, and a spring-applied brake's springs, like the weight of a raised or out-of-balance part,
+#: keep theirs when every supply is locked off.
+LOCKOUT_STEP = (
+    "Isolate, lock and tag every energy source listed under 'Energy isolation points'; relieve or restrain stored "
+    "energy (pressure, loaded springs, raised or out-of-balance parts); try to start the drives to prove they are "
+    "dead before touching anything."
+)
+#: The lockout step as orders stored before its present wording carry it in their steps. Such an order is still found
+#: by it (``is_lockout_step``): it starts, its lockout is ticked in sequence and answered for at finish, and its paper
+#: prints the words it was issued with. Add the old words here whenever ``LOCKOUT_STEP`` is reworded.
+EARLIER_LOCKOUT_STEPS = (
+    "Isolate, lock and tag every energy source listed under 'Energy isolation points'; release stored "
+    "pressure; try to start the drives to prove they are dead before touching anything.",
+)
+_LOCKOUT_WORDINGS = frozenset((LOCKOUT_STEP, *EARLIER_LOCKOUT_STEPS))
+
+
+def is_lockout_step(text: str) -> bool:
+    """True when ``text``, one step (spaces around it ignored), is the lockout step in its present wording or an
+    earlier one (``EARLIER_LOCKOUT_STEPS``). Every check for the lockout step goes through here, never a comparison
+    with ``LOCKOUT_STEP``, so orders made before a rewording keep working."""
+    return text.strip() in _LOCKOUT_WORDINGS
+
+
 # Finishing an order whose lockout step or an isolation point nobody ticked (workorders.forms.FinishForm,
 # services.work_order_finish). The isolation comes before the work and its locks come off only after it (OSHA 29 CFR
 # 1910.147(d), (e)), so an unticked lockout is not covered by the box that confirms the other unticked lines: the

@@ -49,6 +49,7 @@ from .cautions import (
     Caution,
     cautions_for,
     hazards_missing_notice,
+    is_lockout_step,
     needs_isolation,
 )
 from .models import ChecklistTick, IsolationPoint, Part, PartUse, State, WorkOrder, WorkOrderItem
@@ -461,9 +462,7 @@ def unticked_lines(order: WorkOrder) -> list[ChecklistLine]:
 def isolation_lines(lines: Sequence[ChecklistLine]) -> list[ChecklistLine]:
     """Of ``lines``, those of the energy isolation: the isolation points and the lockout step. Not ticked when the
     work is finished, they are answered for on their own (``cautions.ISOLATION_UNTICKED``), not with the others."""
-    from .services import LOCKOUT_STEP  # services reads this module
-
-    return [line for line in lines if line.kind == POINT or line.text == LOCKOUT_STEP]
+    return [line for line in lines if line.kind == POINT or is_lockout_step(line.text)]
 
 
 def finished_line_notes(order: WorkOrder, lines: Sequence[ChecklistLine]) -> list[str]:

@@ -35,6 +35,8 @@ from .cautions import (
     ISOLATION_UNTICKED,
     ISOLATION_UNTICKED_FINDINGS,
     ISOLATION_UNTICKED_REQUIRED,
+    LOCKOUT_STEP,
+    is_lockout_step,
     needs_isolation,
 )
 from .lifecycle import TRANSITIONS
@@ -53,36 +55,31 @@ from .selectors import (
 #: The longest name the finish form takes for one of the crew (names are separated by commas).
 CREW_NAME_MAX = 80
 
-LOCKOUT_STEP = (
-    "Isolate, lock and tag every energy source listed under 'Energy isolation points'; release stored "
-    "pressure; try to start the drives to prove they are dead before touching anything."
-)
-
 
 class Refused(Exception):
     """A move or a completion that is not allowed; the message says why. Nothing was changed."""
 
 
 def lockout_missing(hazards: Sequence[str], steps: Sequence[str]) -> bool:
-    """True when the hazards call for isolation but no step is the lockout step."""
-    return needs_isolation(hazards) and LOCKOUT_STEP not in (s.strip() for s in steps)
+    """True when the hazards call for isolation but no step is the lockout step (in any of its wordings)."""
+    return needs_isolation(hazards) and not any(is_lockout_step(s) for s in steps)
 
 
 def isolated_steps(steps: Sequence[str]) -> tuple[int, range] | None:
     """Where an order's steps isolate the energy, as ``steps_in_groups`` placed it: the position of the lockout
-    step (``LOCKOUT_STEP``, its first occurrence) and the positions of the steps done locked out after it, up to
-    the step that removes the locks (``catalogue.RELEASE``), which then stands at the range's ``stop``; None when
-    no step is the lockout step.
+    step (its first occurrence, in its present wording or an earlier one: ``cautions.is_lockout_step``) and the
+    positions of the steps done locked out after it, up to the step that removes the locks
+    (``catalogue.RELEASE``), which then stands at the range's ``stop``; None when no step is the lockout step.
 
-    Only those two exact steps are looked for, never other wording. Without ``RELEASE`` after the lockout step
+    Only those two steps are looked for, never other wording. Without ``RELEASE`` after the lockout step
     (a recoat phase ends its locked-out work in words of its own, or the steps were edited by hand) every step
     after the lockout step counts as done locked out: the locks may still be on there, and steps ticked in
     their written order never meet a refusal (``checklist_tick_set``).
     """
     lines = [step.strip() for step in steps]
-    if LOCKOUT_STEP not in lines:
+    lockout = next((i for i, line in enumerate(lines) if is_lockout_step(line)), None)
+    if lockout is None:
         return None
-    lockout = lines.index(LOCKOUT_STEP)
     release = next((i for i in range(lockout + 1, len(lines)) if lines[i] == RELEASE), len(lines))
     return lockout, range(lockout + 1, release)
 
@@ -130,15 +127,20 @@ def _steps_for(plans: Sequence[ServicePlan], labels: dict[int, str], hazards: Se
         before, during, after = plan.step_groups
         if not (before or during or after):
             during = [plan.task or plan.name]
-        own = (LOCKOUT_STEP, RELEASE)  # the order's to add, once: not repeated from a plan that holds them
-        powered += [(plan, step) for step in before if step not in own]
-        work += [(plan, step) for step in during if step not in own]
-        restoring += [(plan, step) for step in after if step not in own]
+        # The lockout and the release are the order's to add, once: not repeated from a plan that holds them.
+        powered += [(plan, step) for step in before if not _orders_own(step)]
+        work += [(plan, step) for step in during if not _orders_own(step)]
+        restoring += [(plan, step) for step in after if not _orders_own(step)]
     several = len(plans) > 1
     return "\n".join(steps_in_groups(
         hazards, _shared_once(powered, labels, several), _labelled(work, labels, several),
         _shared_once(restoring, labels, several),
     ))
+
+
+def _orders_own(step: str) -> bool:
+    """The step is one an order adds itself (``steps_in_groups``): the lockout step, in any wording, or the release."""
+    return is_lockout_step(step) or step == RELEASE
 
 
 def _labelled(run: list[tuple[ServicePlan, str]], labels: dict[int, str], several: bool) -> list[str]:
@@ -691,9 +693,10 @@ def _lockout_sequence_refusal(order: WorkOrder, line: tuple, ticked: bool, what:
     named = f"isolation point{'s' if len(open_points) > 1 else ''} {', '.join(open_points)}"
     if key == lockout:
         # The lockout step's own words ("Isolate, lock and tag every energy source listed under 'Energy isolation
-        # points'; release stored pressure; try to start the drives ...") take in locking each point: each point
-        # is ticked as its lock goes on, and the step once all of them are locked, the stored energy released and
-        # the drives tried (1910.147(d)(4) to (d)(6)). So the points come first, and the step closes the lockout.
+        # points'; relieve or restrain stored energy ...; try to start the drives ...") take in locking each point:
+        # each point is ticked as its lock goes on, and the step once all of them are locked, the stored energy
+        # relieved or restrained and the drives tried (1910.147(d)(4) to (d)(6)). So the points come first, and the
+        # step closes the lockout. An order made before the present wording is read the same (is_lockout_step).
         if open_points:
             return f"step {key + 1} is the lockout, which locks and tags every isolation point: tick {named} first"
         return ""

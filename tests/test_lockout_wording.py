@@ -1,0 +1,128 @@
+"""The words of the lockout step, and the orders stored with an earlier wording of it.
+
+After the locks and tags are on, OSHA 29 CFR 1910.147(d)(5) asks for all potentially hazardous stored or residual
+energy to be relieved, disconnected, restrained or otherwise made safe: not pressure alone, but also the springs of a
+spring-applied brake (the catalogue's spring brake; the stored-mechanical caution) and the weight of a raised or
+out-of-balance part. Orders stored before the step said so carry its earlier words in their steps, and are still
+found by them (``cautions.is_lockout_step``): they are issued and started, their lockout is ticked in sequence or
+answered for at finish, and their page and paper print the words they were issued with.
+
+Orders are those of tests/test_workorders.py (an axis drive on a telescope with one AC isolation point, "Mount
+isolator").
+"""
+from __future__ import annotations
+
+import html
+import re
+
+import pytest
+from test_lockout_steps import _edit
+from test_workorder_finish import _message, _post, _started
+from test_workorder_finish_record import _pdf
+from test_workorders import _all_readings, _unticked, drive, order  # noqa: F401  (fixtures, used by name)
+
+from observatory_ops.registry.catalogue import RELEASE
+from observatory_ops.workorders import selectors, services
+from observatory_ops.workorders.cautions import (
+    EARLIER_LOCKOUT_STEPS,
+    ISOLATION_UNTICKED_SHORT,
+    LOCKOUT_STEP,
+    is_lockout_step,
+)
+from observatory_ops.workorders.models import IsolationPoint, State, WorkOrder
+
+#: The lockout step as orders made before it named stored energy of every kind carry it.
+EARLIER = (
+    "Isolate, lock and tag every energy source listed under 'Energy isolation points'; release stored "
+    "pressure; try to start the drives to prove they are dead before touching anything."
+)
+
+
+def test_the_lockout_step_relieves_or_restrains_stored_energy_of_every_kind_springs_included():
+    """OSHA 29 CFR 1910.147(d)(5): stored energy relieved, disconnected or restrained after the locks are on. A
+    spring-applied brake keeps its springs loaded with every supply off, so the step names springs beside pressure,
+    and raised or out-of-balance parts; it stays one short checklist line."""
+    assert LOCKOUT_STEP.startswith("Isolate, lock and tag every energy source listed under 'Energy isolation points'")
+    named = "relieve or restrain stored energy (pressure, loaded springs, raised or out-of-balance parts)"
+    assert named in LOCKOUT_STEP
+    assert LOCKOUT_STEP.endswith("try to start the drives to prove they are dead before touching anything.")
+    assert "\n" not in LOCKOUT_STEP and len(LOCKOUT_STEP) < 250
+    assert EARLIER_LOCKOUT_STEPS == (EARLIER,)
+
+
+def test_the_present_and_the_earlier_wording_are_the_lockout_step_and_no_other_step_is():
+    assert is_lockout_step(LOCKOUT_STEP) and is_lockout_step(EARLIER) and is_lockout_step(f"  {EARLIER}\r")
+    assert not is_lockout_step(RELEASE) and not is_lockout_step(LOCKOUT_STEP[:-1]) and not is_lockout_step("")
+    steps = ["Park the telescope at its service position.", EARLIER, "Check the motor.", RELEASE, "Test it."]
+    assert services.isolated_steps(steps) == (1, range(2, 3))
+    assert not services.lockout_missing(["electrical"], steps)
+
+
+def test_a_new_order_carries_the_present_wording(order):  # noqa: F811
+    assert LOCKOUT_STEP in order.step_list and EARLIER not in order.step_list
+
+
+@pytest.fixture
+def stored(order):  # noqa: F811
+    """The order as a database from before the rewording holds it: its lockout step in the earlier words."""
+    WorkOrder.objects.filter(pk=order.pk).update(steps=order.steps.replace(LOCKOUT_STEP, EARLIER))
+    order.refresh_from_db()
+    assert EARLIER in order.step_list and LOCKOUT_STEP not in order.step_list
+    return order
+
+
+def test_an_order_stored_with_the_earlier_wording_is_edited_issued_and_started(stored, users, client):
+    assert selectors.lockout_step_warning(stored) == ""  # no "the lockout step is missing" on its page
+    client.force_login(users["engineer"])
+    saved = _edit(client, stored, stored.step_list)  # its steps saved as they are: the lockout step is there
+    assert "The lockout step is missing" not in saved.content.decode()
+    assert WorkOrder.objects.get(pk=stored.pk).step_list == stored.step_list
+    _started(stored, users)
+    assert stored.state == State.UNDERWAY
+
+
+def test_its_lockout_is_ticked_in_sequence_and_its_paper_prints_the_ticks_beside_its_own_words(
+    stored, users, client
+):
+    _started(stored, users)
+    lockout = stored.step_list.index(EARLIER)
+    technician = users["technician"]
+    with pytest.raises(services.Refused, match=rf"tick the lockout \(step {lockout + 1}\) and isolation point"):
+        services.checklist_tick_set(stored, "step", lockout + 1, True, technician)
+    with pytest.raises(services.Refused, match=rf"step {lockout + 1} is the lockout.*'Mount isolator' first"):
+        services.checklist_tick_set(stored, "step", lockout, True, technician)
+    services.checklist_tick_set(stored, "point", IsolationPoint.objects.get().pk, True, technician)
+    for index in range(len(stored.step_list)):
+        services.checklist_tick_set(stored, "step", index, True, technician)
+    with pytest.raises(services.Refused, match=rf"the tick on step {lockout + 1} stays"):
+        services.checklist_tick_set(stored, "step", lockout, False, technician)
+    services.work_order_finish(stored, technician, 1.0, "", _all_readings(stored, 0.6))  # nothing left unticked
+    stored.refresh_from_db()
+    assert stored.isolation_unticked_at_finish == [] and stored.unticked_at_finish == []
+    client.force_login(users["viewer"])
+    paper = _pdf(client, stored)
+    assert f"{lockout + 1}. {EARLIER} ticked by technician, " in paper and LOCKOUT_STEP not in paper
+
+
+def test_its_lockout_nobody_ticked_is_asked_apart_at_finish_and_kept_on_the_record(stored, users, client):
+    _started(stored, users)
+    lockout = stored.step_list.index(EARLIER)
+    client.force_login(users["technician"])
+    form = client.get(f"/workorders/{stored.pk}/finish/").content.decode()
+    asked_apart = html.unescape(form.split('<ul class="unticked isolation">')[1].split("</ul>")[0])
+    assert EARLIER in asked_apart
+    with pytest.raises(services.Refused, match="the energy isolation is not ticked"):  # the other box is not enough
+        services.work_order_finish(stored, users["technician"], 1.0, "ok", _all_readings(stored, 0.6),
+                                   confirmed_unticked=_unticked(stored))
+    why = "Worked from the paper and ticked the lockout there."
+    response = client.post(f"/workorders/{stored.pk}/finish/", _post(stored, findings=why))
+    assert response.status_code == 302, _message(response)
+    stored.refresh_from_db()
+    assert f"Step {lockout + 1}: {EARLIER}" in stored.isolation_unticked_at_finish
+    assert EARLIER not in " ".join(stored.unticked_at_finish)
+    paper = _pdf(client, stored)
+    assert f"{lockout + 1}. {EARLIER} not ticked; at finishing technician confirmed: " in paper
+    assert ISOLATION_UNTICKED_SHORT["isolated"] in paper
+    page = " ".join(re.sub(r"<[^>]+>", " ", html.unescape(client.get(stored.get_absolute_url()).content.decode()))
+                    .split())
+    assert EARLIER in page and LOCKOUT_STEP not in page
