@@ -287,3 +287,31 @@ def test_an_unknown_counter_on_a_row_of_the_site_counts_0(left_out):
     log = services.UsageLog.of_site(site)[None]
     assert log.columns["slews"].tolist() == [0] + [30] * 9
     assert log.columns["brake_cycles"].sum() == 9 * 32
+
+
+def test_each_forecast_says_what_its_log_is_made_of(two_telescopes):
+    """North: 165 own nights of 365 (200 of the site's before 1 Jan 2026). South reads the site's rows alone."""
+    site, _, _, plans = two_telescopes
+    services.site_recompute(site, TODAY)
+    north = PlanStatus.objects.get(plan=plans["North"]).basis
+    south = PlanStatus.objects.get(plan=plans["South"]).basis
+    assert "this telescope's log: its own nights on 165 of 365 logged nights, the whole site's on the rest" in north
+    assert "the whole site's nights: this telescope sends none of its own" in south
+
+
+def test_a_telescope_with_no_nights_at_a_site_logging_per_telescope_is_told_so(two_telescopes):
+    site, _, _, plans = two_telescopes
+    NightUsage.objects.filter(telescope__isnull=True).delete()
+    services.site_recompute(site, TODAY)
+    assert "nothing is counted for it" in PlanStatus.objects.get(plan=plans["South"]).basis
+
+
+def test_a_recoat_prices_the_nights_of_the_telescope_it_takes_out(two_telescopes):
+    """January: North's own open fraction 0.8, the site's 0.4 (above). A night's cost is its moonless dark hours (5
+    in the constant sky) x the open fraction (mirrors.services.night_costs)."""
+    from observatory_ops.mirrors.services import night_costs
+
+    site, north, south, _ = two_telescopes
+    january = dt.date(2027, 1, 10)
+    assert night_costs(site, january, 1, north)[0].cost == pytest.approx(5 * 0.8)
+    assert night_costs(site, january, 1, south)[0].cost == pytest.approx(5 * 0.4)

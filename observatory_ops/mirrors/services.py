@@ -348,14 +348,15 @@ class NightCost:
     cost: float
 
 
-def night_costs(site: Site, start: dt.date, horizon_days: int) -> list[NightCost]:
+def night_costs(site: Site, start: dt.date, horizon_days: int, telescope: Telescope | None = None) -> list[NightCost]:
     """Cost to lose each coming night: moonless dark hours x the month's open fraction; bookings cost more."""
     if horizon_days < 1:
         raise ValueError("the horizon must be at least one day")
     end = start + dt.timedelta(days=horizon_days - 1)
     site_sky_refresh(site, start, end)
     sky = list(NightSky.objects.filter(site=site, night__gte=start, night__lte=end).order_by("night"))
-    log = UsageLog.site_wide(site)
+    # The open fraction of the telescope whose nights are lost (its own log), or of the site as a whole.
+    log = UsageLog.for_telescope(telescope) if telescope else UsageLog.site_wide(site)
     fraction = usage_model(site, log, start, 1).open_fraction
     runs = list(BookedRun.objects.filter(site=site, starts_on__lte=end, ends_on__gte=start))
     booked_name = ["" for _ in sky]
@@ -408,12 +409,14 @@ def crew_windows(
 
 
 def site_crew_windows(
-    site: Site, start: dt.date, horizon_days: int, phases: list[windows.Phase], alternatives: int = 3
+    site: Site, start: dt.date, horizon_days: int, phases: list[windows.Phase], alternatives: int = 3,
+    telescope: Telescope | None = None,
 ) -> tuple[list[NightCost], dict[dt.date, str], list[dict]]:
     """What the recoat planner and the ``windows`` command search at a site: each coming night's cost
     (``night_costs``), the site's crew days off in the horizon (date -> note), and the cheapest windows for
-    ``phases`` with the site's crew (``crew_windows``), cheapest first."""
-    costs = night_costs(site, start, horizon_days)
+    ``phases`` with the site's crew (``crew_windows``), cheapest first. ``telescope``: the one taken out of service
+    (the recoat planner), whose own open fraction prices its nights."""
+    costs = night_costs(site, start, horizon_days, telescope)
     days_off = crew_days_off(site, costs[0].night, costs[-1].night)
     found = crew_windows(costs[0].night, np.array([c.cost for c in costs]), phases, site.crew_days, days_off,
                          alternatives)
@@ -487,7 +490,7 @@ def recoat_windows(mirror: Mirror, start: dt.date, horizon_days: int, phases: li
     """
     days = windows.total_days(phases)
     site = mirror.subsystem.telescope.site
-    costs, days_off, found = site_crew_windows(site, start, horizon_days, phases)
+    costs, days_off, found = site_crew_windows(site, start, horizon_days, phases, telescope=mirror.subsystem.telescope)
     crew = site.crew_days
     chosen = {found[0]["start"] + dt.timedelta(days=i) for i in range(found[0]["nights"])} if found else set()
     worst = max((c.cost for c in costs if np.isfinite(c.cost)), default=1.0) or 1.0

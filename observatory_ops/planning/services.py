@@ -159,11 +159,26 @@ class UsageLog:
     columns: dict[str, np.ndarray]  # NightUsage field -> values
     pm10: np.ndarray  # NaN where not measured
     telescope_id: int | None = None  # the telescope whose own rows are in it; None: the site's rows alone
+    own_nights: int = 0  # of ``nights``, those of the telescope's own rows
+    others_send_own: bool = False  # the site's rows alone, at a site where some telescope sends nights of its own
 
     @property
     def whose(self) -> str:
         """How the pages name the log's owner."""
         return "this site's" if self.telescope_id is None else "this telescope's"
+
+    @property
+    def note(self) -> str:
+        """What the log is made of, where a site logs per telescope: said with every forecast made from it."""
+        if self.telescope_id is not None:
+            return (f"this telescope's log: its own nights on {self.own_nights:,} of {len(self.nights):,} logged "
+                    "nights, the whole site's on the rest")
+        if not self.others_send_own:
+            return ""
+        if not len(self.nights):
+            return ("no night logged for this telescope nor for the whole site: nothing is counted for it until its "
+                    "own nights or the whole site's are sent")
+        return "the whole site's nights: this telescope sends none of its own"
 
     @classmethod
     def of_site(cls, site: Site) -> dict[int | None, UsageLog]:
@@ -197,12 +212,12 @@ class UsageLog:
             return {None: cls._of(rows, fields)}
         site_rows = [row for row in rows if row[0] is None]
         site_by_night = {row[1]: row for row in site_rows}
-        logs = {None: cls._of(site_rows, fields)}
+        logs = {None: replace(cls._of(site_rows, fields), others_send_own=True)}
         for owner in owners:
             own = [cls._filled(row, site_by_night.get(row[1])) for row in rows if row[0] == owner]
             own_nights = {row[1] for row in own}
             merged = sorted(own + [row for row in site_rows if row[1] not in own_nights], key=lambda row: row[1])
-            logs[owner] = replace(cls._of(merged, fields), telescope_id=owner)
+            logs[owner] = replace(cls._of(merged, fields), telescope_id=owner, own_nights=len(own))
         return logs
 
     @staticmethod
@@ -249,6 +264,7 @@ class UsageModel:
     spread_months: int = 0  # complete months the spread was measured from; 0: the prior spread
     unlogged_nights: int = 0  # past nights from ``first_day`` to yesterday, none logged: counted as expected
     whose: str = "this site's"  # the log's owner (``UsageLog.whose``)
+    log_note: str = ""  # what the log is made of (``UsageLog.note``)
 
     def expected(self, metric: str, dust_sensitivity: float) -> np.ndarray:
         if metric == metrics.OPEN_HOURS:
@@ -280,6 +296,8 @@ class UsageModel:
             last = self.first_day - dt.timedelta(days=1)
             basis += (f"; no night logged since {last:%d %b %Y}: the {self.unlogged_nights} nights since are counted "
                       "as used at the expected rate (from the last service, if later)")
+        if self.log_note:
+            basis += f"; {self.log_note}"
         return basis
 
     def usage_basis(self, metric: str, dust_sensitivity: float) -> str:
@@ -402,6 +420,7 @@ def usage_model(site: Site, log: UsageLog, first_day: dt.date, days: int) -> Usa
         pm10_months=int((pm10_nights >= forecast.MIN_NIGHTS_FOR_HISTORY).sum()),
         pm10_nights=int(pm10_nights.sum()),
         whose=log.whose,
+        log_note=log.note,
     )
 
 
