@@ -37,13 +37,20 @@ def _days(first: dt.date, last: dt.date):
     return (first + dt.timedelta(days=i) for i in range((last - first).days + 1))
 
 
-@pytest.fixture
-def two_telescopes(db):
-    site = Site.objects.create(name="Twin Ridge", slug="twin-ridge", latitude_deg=0, longitude_deg=0,
+def _two_telescope_site(name: str, sky_from: dt.date, today: dt.date):
+    """A site at 0 N 0 E on UTC with telescopes North and South, and a constant sky from ``sky_from`` to the forecast
+    horizon after ``today``."""
+    site = Site.objects.create(name=name, slug=name.lower().replace(" ", "-"), latitude_deg=0, longitude_deg=0,
                                time_zone="UTC")
     north = Telescope.objects.create(site=site, name="North", aperture_m=0.6, mount="fork")
     south = Telescope.objects.create(site=site, name="South", aperture_m=0.4, mount="altaz")
-    constant_sky(site, FIRST, TODAY + dt.timedelta(days=services.HORIZON_DAYS + 5))
+    constant_sky(site, sky_from, today + dt.timedelta(days=services.HORIZON_DAYS + 5))
+    return site, north, south
+
+
+@pytest.fixture
+def two_telescopes(db):
+    site, north, south = _two_telescope_site("Twin Ridge", FIRST, TODAY)
     last = TODAY - dt.timedelta(days=1)
     NightUsage.objects.bulk_create(
         [NightUsage(site=site, night=day, open_hours=4, slews=20) for day in _days(FIRST, last)]
@@ -224,11 +231,7 @@ WORN_BY = {"open_hours": 3000, "slews": 50_000, "axis1_travel_deg": 250_000, "br
 
 @pytest.fixture
 def left_out(db):
-    site = Site.objects.create(name="Dusty Knoll", slug="dusty-knoll", latitude_deg=0, longitude_deg=0,
-                               time_zone="UTC")
-    north = Telescope.objects.create(site=site, name="North", aperture_m=0.6, mount="fork")
-    south = Telescope.objects.create(site=site, name="South", aperture_m=0.4, mount="altaz")
-    constant_sky(site, dt.date(2026, 5, 31), KNOLL_TODAY + dt.timedelta(days=services.HORIZON_DAYS + 5))
+    site, north, south = _two_telescope_site("Dusty Knoll", dt.date(2026, 5, 31), KNOLL_TODAY)
     unknown = {"axis1_travel_deg": None, "axis2_travel_deg": None, "brake_cycles": None, "pm10_ugm3": None}
     NightUsage.objects.bulk_create(
         [NightUsage(site=site, night=day, open_hours=6, slews=30, axis1_travel_deg=900, axis2_travel_deg=500,
