@@ -162,3 +162,21 @@ def test_the_forecast_command_lists_where_each_train_figure_comes_from(train, ca
     out = json.loads(capsys.readouterr().out)
     assert [m["source"] for m in out["optical_train"]] == [services.ESTIMATE, services.ASSUMED_FRESH]
     assert out["throughput_incomplete"].startswith("Incomplete: it takes T1: Secondary mirror as fresh")
+
+
+def test_the_estimate_says_whose_log_it_counts_where_the_site_logs_per_telescope(client, users, train):
+    """A telescope that sends nights of its own (here its last 10, the same figures as the site's) counts its own
+    log (planning.services.UsageLog): the page says what that log is made of, beside E."""
+    from observatory_ops.logbook.models import NightUsage
+
+    primary = train["primary"]
+    telescope = primary.subsystem.telescope
+    site_nights = NightUsage.objects.filter(site=telescope.site, telescope__isnull=True).order_by("-night")
+    logged = site_nights.count()
+    for night in list(site_nights[:10]):
+        night.pk, night.telescope = None, telescope
+        night.save()
+    shown = _text(_page(client, users, primary))
+    assert f"this telescope's log: its own nights on 10 of {logged:,} logged nights, the whole site's on the rest." \
+        in shown
+    assert services.mirror_forecast(primary).log_note.startswith("this telescope's log: its own nights on 10 of")

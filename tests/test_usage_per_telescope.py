@@ -172,6 +172,17 @@ def test_reliability_counts_each_subsystems_hours_from_its_telescopes_log(two_te
     assert fans.operating_hours == pytest.approx(2120 + 1460)
 
 
+def test_the_reliability_page_says_what_each_telescopes_log_is_made_of(two_telescopes, users, client):
+    from django.urls import reverse
+
+    site, north, _, _ = two_telescopes
+    logs = services.UsageLog.of_site(site)
+    client.force_login(users["viewer"])
+    page = client.get(reverse("site-reliability", args=[site.slug])).content.decode().replace("&#x27;", "'")
+    assert f"North: this telescope's log: its own nights on {logs[north.pk].own_nights:,} of " \
+           f"{len(logs[north.pk].nights):,} logged nights, the whole site's on the rest</p>" in page
+
+
 def test_the_dashboard_shows_the_newest_night_of_each_log(two_telescopes, users, client):
     """The site's rows end on 14 Jun 2026, North's own too; South sends one of its own on 10 Jun 2026."""
     from django.urls import reverse
@@ -265,6 +276,21 @@ def test_a_figure_the_telescope_gives_counts_as_given_even_0(left_out):
     services.site_recompute(site, KNOLL_TODAY)
     assert _figures(plans["South"]) == pytest.approx({
         "open_hours": 56, "slews": 278, "axis1_travel_deg": 9000, "brake_cycles": 288, "dust_hours": 168,
+    })
+
+
+def test_a_telescopes_idle_night_takes_nothing_from_the_open_site(left_out):
+    """South sends 9 Jun 2026 too, idle: 0 open hours, its counters and PM10 left out. Hand computation from the rule
+    (an idle row takes nothing from the site's row): 1-8 Jun the site's, 8 x 6 h = 48 h, 240 slews, 7,200 deg,
+    256 cycles; 9 Jun 0 of everything; 10 Jun as above (2 h, 8 slews, 0 cycles given, the site's 900 deg):
+    50 h, 248 slews, 8,100 deg, 256 brake cycles, dust-weighted 50 x 3 = 150. Taking the site's counters, South
+    would have counted 278 slews and 288 cycles for a night it stood still."""
+    site, _, south, plans = left_out
+    NightUsage.objects.create(site=site, telescope=south, night=dt.date(2026, 6, 9), open_hours=0, slews=None,
+                              axis1_travel_deg=None, axis2_travel_deg=None, brake_cycles=None, pm10_ugm3=None)
+    services.site_recompute(site, KNOLL_TODAY)
+    assert _figures(plans["South"]) == pytest.approx({
+        "open_hours": 50, "slews": 248, "axis1_travel_deg": 8100, "brake_cycles": 256, "dust_hours": 150,
     })
 
 

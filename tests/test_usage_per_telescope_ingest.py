@@ -510,10 +510,81 @@ def test_the_log_page_and_the_admin_show_a_telescopes_left_out_figures_as_the_si
     assert dict(shown)["Slews"] == "41" and dict(shown)["Brake cycles"] == "site&#x27;s"
 
 
+def _remove_in_admin(client, nights, reason: str | None):
+    """The admin's "remove" action on ``nights``: the confirmation page, or (with a reason) the removal."""
+    data = {"action": "remove", "_selected_action": [n.pk for n in nights]}
+    if reason is not None:
+        data["reason"] = reason
+    return client.post("/admin/logbook/nightusage/", data)
+
+
+def test_an_engineer_removes_a_night_sent_under_the_wrong_telescope_with_a_reason(
+    client, users, site, north, recomputes
+):
+    services.nights_import(site, b"night,telescope,open_hours,slews\n2024-01-05,,7,0\n2024-01-05,North,5,41\n")
+    wrong = NightUsage.objects.get(telescope=north)
+    users["engineer"].is_staff = True
+    users["engineer"].save()
+    client.force_login(users["engineer"])
+    recomputes.clear()
+
+    asked = _remove_in_admin(client, [wrong], reason=None)
+    page = asked.content.decode()
+    assert asked.status_code == 200 and "Remove 1 night" in page
+    assert "<td>2024-01-05</td>\n<td>North</td>" in page
+    assert "counts the whole site's row again" in page
+    assert NightUsage.objects.count() == 2 and recomputes == []  # nothing happens before the reason is given
+
+    blank = _remove_in_admin(client, [wrong], reason="  ")
+    assert "This field is required" in blank.content.decode() and NightUsage.objects.count() == 2
+
+    done = _remove_in_admin(client, [wrong], reason="was South's night")
+    assert done.status_code == 302
+    assert logged(site) == [(NIGHT, None, 7.0, 0)]  # North counts the site's row of that night again
+    assert recomputes == [site.pk]
+    gone = NightUsage.history.filter(id=wrong.pk).latest("history_date")
+    assert (gone.history_type, gone.history_user, gone.history_change_reason) == (
+        "-", users["engineer"], "was South's night"
+    )
+    assert "1 night(s) removed (Test Hill: 1)" in client.get("/admin/logbook/nightusage/").content.decode()
+    log_page = client.get(reverse("nights-list", args=[site.slug])).content.decode()
+    assert "<h2>Nights removed</h2>" in log_page
+    assert "<td>Fri 05 Jan 2024</td><td>North</td><td>5.00</td>" in log_page
+    assert "<td>engineer</td><td>was South&#x27;s night</td>" in log_page
+
+
+def test_removing_a_test_telescopes_nights_lets_it_be_deleted(client, users, site, north):
+    services.nights_import(site, b"night,telescope,open_hours\n2024-01-05,North,5\n2024-01-06,North,4\n")
+    client.force_login(users["engineer"])
+    users["engineer"].is_staff = True
+    users["engineer"].save()
+    _remove_in_admin(client, NightUsage.objects.filter(telescope=north), reason="test telescope")
+    north.delete()  # PROTECT kept it while it had nights
+    assert not NightUsage.objects.exists()
+    log_page = client.get(reverse("nights-list", args=[site.slug])).content.decode()
+    assert log_page.count("<td>a telescope since deleted</td>") == 2 and "<td>test telescope</td>" in log_page
+
+
+def test_only_an_engineer_or_above_may_remove_nights(client, users, site):
+    services.nights_import(site, b"night,open_hours\n2024-01-05,7\n")
+    assert users["engineer"].has_perm("logbook.delete_nightusage")
+    assert users["administrator"].has_perm("logbook.delete_nightusage")
+    assert not users["technician"].has_perm("logbook.delete_nightusage")
+    users["technician"].is_staff = True
+    users["technician"].save()
+    client.force_login(users["technician"])
+    listing = client.get("/admin/logbook/nightusage/").content.decode()
+    assert "Remove the selected nights" not in listing
+    _remove_in_admin(client, list(NightUsage.objects.all()), reason="not mine to remove")
+    assert NightUsage.objects.count() == 1
+
+
 def test_the_format_help_says_an_empty_figure_of_a_telescopes_row_is_the_sites(client, technician, site):
     page = client.get(reverse("nights-import", args=[site.slug])).content.decode()
     assert "<td><code>slews</code></td><td>no</td><td>–</td><td>0 to 10,000 (whole number)</td><td>0; on a " \
-           "telescope&#x27;s row: the site&#x27;s figure of that night</td>" in page
-    assert "<td>not measured; on a telescope&#x27;s row: the site&#x27;s figure of that night</td><td>mean PM10" in page
+           "telescope&#x27;s row: the site&#x27;s figure of that night (0 when the row&#x27;s open hours are 0)</td>" \
+           in page
+    assert "<td>not measured; on a telescope&#x27;s row: the site&#x27;s figure of that night (0 when the row&#x27;s " \
+           "open hours are 0)</td><td>mean PM10" in page
     assert "<td>not measured</td><td>mean relative humidity while open</td>" in page  # nothing counts humidity
     assert "hours the dome was open (on a telescope&#x27;s row: the hours that telescope was open and in use)" in page

@@ -17,9 +17,10 @@ _ENGINEER_EDITS = {
     "workorders": ("part", "isolationpoint"),
     "mirrors": ("mirror", "coatingevent", "cleaningevent"),
 }
-#: The one thing an engineer deletes: a crew day off listed by mistake or no longer off is a setting, not a
-#: record (its history keeps it all the same).
-_ENGINEER_DELETES = {"registry": ("crewdayoff",)}
+#: What an engineer deletes: a crew day off listed by mistake or no longer off is a setting, not a record; a
+#: night stored by mistake (sent under the wrong telescope, a test telescope's) is removed with a reason and its
+#: site recomputed (``logbook.services.nights_remove``). The history keeps both all the same.
+_ENGINEER_DELETES = {"registry": ("crewdayoff",), "logbook": ("nightusage",)}
 
 
 def role_permissions(role: str, all_permissions) -> list:

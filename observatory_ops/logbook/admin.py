@@ -1,16 +1,19 @@
-from django.contrib import admin
+from django import forms
+from django.contrib import admin, messages
+from django.contrib.admin import helpers
+from django.template.response import TemplateResponse
 from simple_history.admin import SimpleHistoryAdmin
 
 from .models import NightUsage, Reading, ServiceRecord
 from .nights_csv import FROM_SITE
-from .services import FIGURE_FROM_SITE, WHOLE_SITE
+from .services import WHOLE_SITE, left_out_shown, nights_remove
 
 
 class ReadOnlyAdmin(SimpleHistoryAdmin):
     """The log is written only through its own ways in, which check every value and recompute the site:
     nights by import, the API or the log page's form (a night, the site's or a telescope's, sent again with
     other figures is updated), readings and service records on the subsystem page (corrections are new rows).
-    Here it is read, with its history."""
+    Here it is read, with its history; the one write is removing nights stored by mistake (``NightUsageAdmin``)."""
 
     def has_add_permission(self, request):
         return False
@@ -29,7 +32,7 @@ def _figure_or_sites(name: str):
     @admin.display(description=NightUsage._meta.get_field(name).verbose_name, ordering=name)
     def shown(night: NightUsage):
         value = getattr(night, name)
-        return FIGURE_FROM_SITE if value is None and night.telescope_id else value
+        return left_out_shown(night) if value is None and night.telescope_id else value
 
     return shown
 
@@ -49,9 +52,40 @@ class NightUsageAdmin(ReadOnlyAdmin):
               "source", "recorded_at")
     readonly_fields = tuple(_FIGURES.values())
 
+    actions = ["remove"]
+
     @admin.display(description="telescope", ordering="telescope__name")
     def whose(self, night: NightUsage) -> str:
         return night.telescope.name if night.telescope_id else WHOLE_SITE
+
+    def has_remove_permission(self, request) -> bool:
+        return request.user.has_perm("logbook.delete_nightusage")
+
+    @admin.action(description="Remove the selected nights (sent by mistake)", permissions=["remove"])
+    def remove(self, request, queryset):
+        """Ask why, then remove the nights and recompute their sites (``services.nights_remove``)."""
+        form = NightsRemoveForm(request.POST if "reason" in request.POST else None)
+        if form.is_valid():
+            removed = nights_remove(list(queryset), by=request.user, reason=form.cleaned_data["reason"])
+            at = "; ".join(f"{site.name}: {count}" for site, count in removed.items())
+            self.message_user(
+                request, f"{sum(removed.values())} night(s) removed ({at}); their sites' due states are recomputed.",
+                messages.SUCCESS,
+            )
+            return None
+        nights = list(queryset.select_related("site", "telescope"))
+        context = {
+            **self.admin_site.each_context(request), "opts": self.opts, "form": form, "title": "Remove nights",
+            "nights": [(n, self.whose(n)) for n in nights],
+            "selected": request.POST.getlist(helpers.ACTION_CHECKBOX_NAME),
+        }
+        return TemplateResponse(request, "logbook/admin_nights_remove.html", context)
+
+
+class NightsRemoveForm(forms.Form):
+    reason = forms.CharField(
+        max_length=100, help_text="Kept in the nights' history, e.g. \"sent under R40, was T70's\".",
+    )
 
 
 @admin.register(Reading)

@@ -24,7 +24,8 @@ class NightUsage(models.Model):
     rows on the nights it has none of its own (``planning.services.UsageLog``): a site whose telescopes share
     one dome sends one row a night; a site whose telescopes are used apart sends one row per telescope, and
     may send the site's row too (the dome's controller) for the telescopes that send nothing. A telescope's row
-    takes each figure it leaves out (a counter or PM10 stored empty) from the site's row of that night.
+    takes each figure it leaves out (a counter or PM10 stored empty) from the site's row of that night, unless its
+    open hours are 0 (idle while the site was open: what it leaves out counts 0).
     """
 
     history = HistoricalRecords()  # who changed what, when: see observatory_ops/archive

@@ -55,7 +55,7 @@ def _figure(value: float) -> str:
 
 
 #: What a telescope's blank counter or PM10 stands for, in words (``Column.from_site``).
-SITES_FIGURE = "the site's figure of that night"
+SITES_FIGURE = "the site's figure of that night (0 when the row's open hours are 0)"
 
 
 @dataclass(frozen=True)

@@ -75,6 +75,14 @@ WHOLE_SITE = "whole site"
 FIGURE_FROM_SITE = "site's"
 
 
+def left_out_shown(night: NightUsage) -> str:
+    """How pages show a counter or PM10 ``night`` leaves out (stored None): the site's figure on a telescope's row,
+    0 on a telescope's row of 0 open hours (``planning.services.UsageLog._filled``), "–" (not measured) elsewhere."""
+    if not night.telescope_id:
+        return "–"
+    return FIGURE_FROM_SITE if night.open_hours else "0"
+
+
 def night_named(night: dt.date | str, telescope: str) -> str:
     """"2024-01-05" for the whole site's night, "2024-01-05 (North)" for a telescope's."""
     return f"{night} ({telescope})" if telescope else str(night)
@@ -392,6 +400,27 @@ def _nights_write(
         changed, NightUsage, [f for f in _USAGE_FIELDS if f in written] + ["source", "recorded_at"], batch_size=500,
         default_user=by, default_change_reason=reason,
     )
+
+
+def nights_remove(nights, by, reason: str = "") -> dict[Site, int]:
+    """Delete nights stored by mistake (a telescope's row sent for the wrong telescope, a test telescope's nights)
+    and recompute each site they were at, in one transaction; returns the count removed at each site.
+
+    The history keeps each removed night with who removed it and why (the archive shows it). A telescope whose wrong
+    row is removed counts the site's row of that night again (``planning.services.UsageLog``); a night to be moved to
+    another telescope is removed here and sent again under the right one.
+    """
+    removed: dict[Site, int] = {}
+    with transaction.atomic():
+        locked = NightUsage.objects.select_for_update(of=("self",)).filter(pk__in=[n.pk for n in nights])
+        for night in locked.select_related("site"):
+            night._history_user = by
+            night._change_reason = reason
+            night.delete()
+            removed[night.site] = removed.get(night.site, 0) + 1
+        for site in removed:
+            site_recompute(site)
+    return removed
 
 
 def reading_log(

@@ -101,6 +101,10 @@ def reading_log(request, pk):
         return render(request, "logbook/reading_form.html", {"form": form, "subsystem": subsystem, "site": site})
 
 
+#: How many removed nights the log page lists under the log (the admin's history keeps them all).
+REMOVED_SHOWN = 20
+
+
 @requires(VIEWER)
 def nights_list(request, slug):
     site = get_object_or_404(Site, slug=slug)
@@ -109,9 +113,14 @@ def nights_list(request, slug):
         "-night", F("telescope__name").asc(nulls_first=True)
     )
     page = Paginator(nights, 60).get_page(request.GET.get("page"))
+    for night in page:
+        night.left_out = services.left_out_shown(night)
+    # Nights removed as stored by mistake (the admin's "remove" action), newest first, from their history.
+    removed = NightUsage.history.filter(site=site, history_type="-").select_related("telescope", "history_user")
     return render(request, "logbook/nights_list.html", {
         "site": site, "page": page, "whole_site": services.WHOLE_SITE, "telescope_rule": TELESCOPE_RULE,
-        "from_site": services.FIGURE_FROM_SITE,
+        "from_site": services.FIGURE_FROM_SITE, "removed": removed.order_by("-history_date")[:REMOVED_SHOWN],
+        "removed_count": removed.count(),
     })
 
 

@@ -81,6 +81,7 @@ class MirrorForecast:
     # Past nights after the last logged one (and after the coating) up to yesterday, counted at the expected rate
     # before the crossing is forecast, as the plans count them (planning.services.forecast_model).
     unlogged_nights: int = 0
+    log_note: str = ""  # what the telescope's log is made of, where its site logs per telescope (``UsageLog.note``)
 
 
 def _coating_band(mirror: Mirror, metal: str, layers: list[dict]) -> float:
@@ -148,6 +149,7 @@ def mirror_forecast(
         fresh_basis=f"{last.recipe}, {mirror.band_from_nm:g}-{mirror.band_to_nm:g} nm band mean, "
         "characteristic-matrix method with published optical constants",
         exposure_now_h=float(exposures[-1]), exposure_logged_to=_last_logged_night(log, last.coated_on, today),
+        log_note=log.note,
         points=[(m.measured_on, float(e), m.value) for m, e in zip(measurements, exposures[:n], strict=True)],
         cleanings=[(c.cleaned_on, float(e)) for c, e in zip(cleanings, exposures[n : n + k], strict=True)],
     )

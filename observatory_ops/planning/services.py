@@ -213,8 +213,10 @@ class UsageLog:
         site_rows = [row for row in rows if row[0] is None]
         site_by_night = {row[1]: row for row in site_rows}
         logs = {None: replace(cls._of(site_rows, fields), others_send_own=True)}
+        hours_at = 2 + fields.index("open_hours")
         for owner in owners:
-            own = [cls._filled(row, site_by_night.get(row[1])) for row in rows if row[0] == owner]
+            own = [cls._filled(row, site_by_night.get(row[1]) if row[hours_at] else None)
+                   for row in rows if row[0] == owner]
             own_nights = {row[1] for row in own}
             merged = sorted(own + [row for row in site_rows if row[1] not in own_nights], key=lambda row: row[1])
             logs[owner] = replace(cls._of(merged, fields), telescope_id=owner, own_nights=len(own))
@@ -223,7 +225,8 @@ class UsageLog:
     @staticmethod
     def _filled(own: tuple, site: tuple | None) -> tuple:
         """A telescope's row with each figure it leaves out (None: a counter or PM10 its control software does not
-        know) taken from the site's row of the same night; with no site row that night, left out (``_of``)."""
+        know) taken from the site's row of the same night; with no site row that night, left out (``_of``). A row of
+        0 open hours (the telescope idle while the site was open) is given no site row: what it leaves out counts 0."""
         if site is None or None not in own:
             return own
         return tuple(theirs if mine is None else mine for mine, theirs in zip(own, site, strict=True))

@@ -166,6 +166,7 @@ class SiteReliability:
     hours_by_type: dict[str, float]
     records_in_window: int
     records_without_hours: int  # of those, records whose hours are not known: they count none
+    log_notes: list[str] = field(default_factory=list)  # each telescope that sends nights of its own: its log
 
     @property
     def hours_total(self) -> float:
@@ -292,4 +293,11 @@ def site_reliability(site: Site, today: dt.date | None = None) -> SiteReliabilit
         hours_by_type=site_hours,
         records_in_window=records,
         records_without_hours=without_hours,
+        log_notes=_log_notes(logs, subsystems),
     )
+
+
+def _log_notes(logs: dict[int | None, UsageLog], subsystems: list[tuple]) -> list[str]:
+    """Where the site logs per telescope: what each telescope's log is made of (``UsageLog.note``), by name."""
+    names = {telescope_id: telescope for _, telescope, _, _, _, telescope_id, _ in subsystems}
+    return [f"{names[key]}: {logs[key].note}" for key in sorted((k for k in logs if k in names), key=names.get)]
