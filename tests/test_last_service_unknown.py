@@ -191,6 +191,24 @@ def test_importing_past_nights_says_they_move_no_counter_of_plans_whose_last_ser
     assert "1 of these nights is before the start" in _text(page)
 
 
+def test_a_telescopes_own_nights_speak_only_of_its_own_plans(engineer, client, telescope, now):
+    """The fans' plans are on the test telescope; a second telescope's own nights never reach them (its log is its
+    own, planning.services.UsageLog), the whole site's nights do."""
+    from observatory_ops.registry.models import Telescope
+
+    fans = _added_in_the_admin(client, telescope, "cooling_fans", "Cell fans")
+    Telescope.objects.create(site=telescope.site, name="Other", aperture_m=0.3, mount="fork")
+    earlier = [now - dt.timedelta(days=d) for d in (5, 4)]
+    others = nights_import(telescope.site, ("night,telescope,open_hours\n" + "".join(
+        f"{night},Other,6\n" for night in earlier)).encode())
+    assert others.summary.startswith("2 new (Other: 2), 0 updated, 0 unchanged") and "before the start" not in \
+        others.summary
+    own = nights_import(telescope.site, f"night,telescope,open_hours\n{earlier[0]},{telescope.name},6\n"
+                        f"{earlier[1]},Other,7\n{earlier[1]},,6\n".encode())
+    assert f"2 of these nights are before the start ({now:%d %b %Y}) of {fans.plans.count()} service plans" in \
+        own.summary  # the test telescope's own night and the whole site's; not the other telescope's
+
+
 def test_past_nights_say_nothing_of_plans_whose_start_was_given(telescope, now):
     subsystem_create(telescope, "cooling_fans", "Cell fans", counting_from=now)
     report = nights_import(telescope.site, f"night,open_hours\n{now - dt.timedelta(days=3)},6\n".encode())

@@ -4,8 +4,9 @@ After the locks and tags are on, OSHA 29 CFR 1910.147(d)(5) asks for all potenti
 energy to be relieved, disconnected, restrained or otherwise made safe: not pressure alone, but also the springs of a
 spring-applied brake (the catalogue's spring brake; the stored-mechanical caution) and the weight of a raised or
 out-of-balance part. Orders stored before the step said so carry its earlier words in their steps, and are still
-found by them (``cautions.is_lockout_step``): they are issued and started, their lockout is ticked in sequence or
-answered for at finish, and their page and paper print the words they were issued with.
+found by them (``cautions.is_lockout_step``): once issued, they are started, their lockout is ticked in sequence or
+answered for at finish, and their page and paper print the words they were issued with. A draft goes out with the
+present words: issuing it rewords its lockout step.
 
 Orders are those of tests/test_workorders.py (an axis drive on a telescope with one AC isolation point, "Mount
 isolator").
@@ -17,7 +18,7 @@ import re
 
 import pytest
 from test_lockout_steps import _edit
-from test_workorder_finish import _message, _post, _started
+from test_workorder_finish import _message, _post
 from test_workorder_finish_record import _pdf
 from test_workorders import _all_readings, _unticked, drive, order  # noqa: F401  (fixtures, used by name)
 
@@ -62,23 +63,46 @@ def test_a_new_order_carries_the_present_wording(order):  # noqa: F811
     assert LOCKOUT_STEP in order.step_list and EARLIER not in order.step_list
 
 
+def _in_earlier_words(work_order: WorkOrder) -> WorkOrder:
+    """``work_order`` as a database from before the rewording holds it: its lockout step in the earlier words."""
+    WorkOrder.objects.filter(pk=work_order.pk).update(steps=work_order.steps.replace(LOCKOUT_STEP, EARLIER))
+    work_order.refresh_from_db()
+    assert EARLIER in work_order.step_list and LOCKOUT_STEP not in work_order.step_list
+    return work_order
+
+
 @pytest.fixture
-def stored(order):  # noqa: F811
-    """The order as a database from before the rewording holds it: its lockout step in the earlier words."""
-    WorkOrder.objects.filter(pk=order.pk).update(steps=order.steps.replace(LOCKOUT_STEP, EARLIER))
-    order.refresh_from_db()
-    assert EARLIER in order.step_list and LOCKOUT_STEP not in order.step_list
-    return order
+def stored(order, users):  # noqa: F811
+    """An order issued (and printed) before the rewording: it keeps the words it went out with."""
+    services.work_order_move(order, "issue", users["engineer"])
+    return _in_earlier_words(order)
 
 
-def test_an_order_stored_with_the_earlier_wording_is_edited_issued_and_started(stored, users, client):
+def _started(work_order: WorkOrder, users) -> WorkOrder:
+    """Started by a technician (this file's stored orders are issued already)."""
+    services.work_order_move(work_order, "start", users["technician"])
+    work_order.refresh_from_db()
+    return work_order
+
+
+def test_an_order_issued_with_the_earlier_wording_is_edited_and_started(stored, users, client):
     assert selectors.lockout_step_warning(stored) == ""  # no "the lockout step is missing" on its page
     client.force_login(users["engineer"])
     saved = _edit(client, stored, stored.step_list)  # its steps saved as they are: the lockout step is there
     assert "The lockout step is missing" not in saved.content.decode()
     assert WorkOrder.objects.get(pk=stored.pk).step_list == stored.step_list
     _started(stored, users)
-    assert stored.state == State.UNDERWAY
+    assert stored.state == State.UNDERWAY and EARLIER in stored.step_list  # the words it was printed with
+
+
+def test_a_draft_made_before_the_rewording_is_issued_with_the_present_words(order, users):  # noqa: F811
+    draft = _in_earlier_words(order)
+    others = [line for line in draft.step_list if line != EARLIER]
+    services.work_order_move(draft, "issue", users["engineer"])
+    draft.refresh_from_db()
+    assert LOCKOUT_STEP in draft.step_list and EARLIER not in draft.step_list
+    assert [line for line in draft.step_list if line != LOCKOUT_STEP] == others  # every other step as it was
+    assert draft.history.first().steps == draft.steps  # the audit trail holds the words it went out with
 
 
 def test_its_lockout_is_ticked_in_sequence_and_its_paper_prints_the_ticks_beside_its_own_words(

@@ -105,8 +105,8 @@ class ImportReport:
     confirm_token: str = ""
     #: A token was given but the changes are not those it confirmed (the file or the stored nights differ).
     confirmed_other: bool = False
-    #: The site and the nights stored, for ``uncounted_note``.
-    stored_on: tuple[Site, list[dt.date]] | None = None
+    #: The site and the nights stored ((telescope id or None, night)), for ``uncounted_note``.
+    stored_on: tuple[Site, list[tuple[int | None, dt.date]]] | None = None
     #: The counts of each telescope's nights in the file or request (its name; "" for the whole site's), in order of
     #: first appearance: {"created": .., "updated": .., "unchanged": ..}, as the API answers them.
     by_telescope: dict[str, dict[str, int]] = field(default_factory=dict)
@@ -336,7 +336,7 @@ def _nights_store(
     report.by_telescope = _counts_by_telescope(rows, new, changed)
     if stored:
         report.updated_nights = sorted(u.night for u in changed)
-        report.stored_on = (site, [u.night for u in new + changed])
+        report.stored_on = (site, [(u.telescope_id, u.night) for u in new + changed])
 
 
 def _counts_by_telescope(

@@ -4,7 +4,7 @@ from __future__ import annotations
 import datetime as dt
 
 import numpy as np
-from django.db.models import Count, Prefetch, QuerySet
+from django.db.models import Count, Prefetch, Q, QuerySet
 
 from observatory_ops.calc import forecast
 from observatory_ops.calc.triggers import STATUSES
@@ -122,27 +122,37 @@ def reading_before_counting_note(subsystem: Subsystem, quantity: str, day: dt.da
     return " ".join(notes) or None
 
 
-def nights_before_unknown_starts_note(site: Site, nights: list[dt.date]) -> str:
-    """Why stored ``nights`` move no counter of some plans: they are before the start of plans whose last service
-    is unknown (no service record, counting date not given: ``ServicePlan.counting_from_given``), which count from
-    their start until a service is logged. "" when there are no such plans with a usage trigger."""
+def nights_before_unknown_starts_note(site: Site, nights: list[tuple[int | None, dt.date]]) -> str:
+    """Why stored ``nights`` ((telescope id, or None for the whole site's; night)) move no counter of some plans: they
+    are before the start of plans whose last service is unknown (no service record, counting date not given:
+    ``ServicePlan.counting_from_given``), which count from their start until a service is logged. A telescope's night
+    reaches its own telescope's plans; the whole site's reaches every telescope's. "" when no such plan with a usage
+    trigger is reached."""
     from .services import effective_last_service
 
     if not nights:
         return ""
+    owners = {telescope for telescope, _ in nights}
+    reached = Q() if None in owners else Q(subsystem__telescope__in=owners)
     plans = list(ServicePlan.objects.filter(
-        subsystem__telescope__site=site, subsystem__retired_on__isnull=True, active=True, counting_from_given=False,
-        counting_from__gt=min(nights), triggers__metric__in=[*metrics.USAGE_FIELDS, metrics.DUST_HOURS],
-    ).distinct())
+        reached, subsystem__telescope__site=site, subsystem__retired_on__isnull=True, active=True,
+        counting_from_given=False, counting_from__gt=min(night for _, night in nights),
+        triggers__metric__in=[*metrics.USAGE_FIELDS, metrics.DUST_HOURS],
+    ).select_related("subsystem").distinct())
     if not plans:
         return ""
     serviced = effective_last_service(plan__in=plans)
     unknown = [p for p in plans if p.pk not in serviced]
-    if not unknown:
+    # The latest start among the unknown plans each owner's nights reach: a night before it moves none of that plan.
+    latest: dict[int | None, dt.date] = {}
+    for plan in unknown:
+        for owner in (None, plan.subsystem.telescope_id):
+            latest[owner] = max(latest.get(owner, plan.counting_from), plan.counting_from)
+    before = sum(1 for telescope, night in nights if night < latest.get(telescope, night))
+    if not before:
         return ""
     first, last = min(p.counting_from for p in unknown), max(p.counting_from for p in unknown)
     when = f"{first:%d %b %Y}" if first == last else f"{first:%d %b %Y} to {last:%d %b %Y}"
-    before = sum(1 for night in nights if night < last)
     one, count = before == 1, len(unknown)
     return (
         f"{before} of these nights {'is' if one else 'are'} before the start ({when}) of {count} service "

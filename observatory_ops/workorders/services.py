@@ -337,6 +337,10 @@ def work_order_move(order: WorkOrder, action: str, by, reason: str = "") -> Work
         if not order.step_list:
             raise Refused("a work order needs at least one step before it is issued")
         fields["issued_at"] = now
+        # A draft made before the lockout step was reworded goes out with its present words; an order already
+        # issued keeps the words it was printed with (``cautions.EARLIER_LOCKOUT_STEPS``).
+        if (steps := _present_lockout_wording(order.steps)) != order.steps:
+            fields["steps"] = order.steps = steps
     elif action == "start":
         fields["started_at"] = now
         if order.lift_inputs:  # the cell mass it starts with stays its record, whatever the mirror's says later
@@ -355,6 +359,13 @@ def work_order_move(order: WorkOrder, action: str, by, reason: str = "") -> Work
             raise Refused("someone else changed this work order meanwhile; reload it")
         _record_history(order, by, action)
     return order
+
+
+def _present_lockout_wording(steps: str) -> str:
+    """``steps`` (one a line) with the lockout step in an earlier wording put in its present one."""
+    lines = steps.splitlines()
+    reworded = [LOCKOUT_STEP if is_lockout_step(line) else line for line in lines]
+    return steps if reworded == lines else "\n".join(reworded)
 
 
 def _record_history(order: WorkOrder, by, reason: str) -> None:
