@@ -216,6 +216,76 @@ def test_the_page_says_why_an_order_without_its_lockout_step_is_not_issued(order
     assert WorkOrder.objects.get(pk=order.pk).state == State.DRAFT
 
 
+# --- the lockout in sequence ------------------------------------------------------------------------------------
+#
+# OSHA 29 CFR 1910.147(d): the energy is isolated (d)(4) and stored energy made safe (d)(5) before the work, and the
+# locks come off (e) only after it. So the lockout step stands before every step of a plan's locked-out work and the
+# step that removes the locks after all of them; an order whose steps say otherwise is neither saved nor issued nor
+# started (a reviewer moved the lockout to the last line, and the checklist then let hands-on work be ticked with
+# nothing isolated).
+
+
+def _groups(work_order):
+    """(under power, the locked-out work, the restoring) of a one-plan order, around its lockout and release."""
+    steps = work_order.step_list
+    lockout, release = steps.index(LOCKOUT), steps.index(RELEASE)
+    return steps[:lockout], steps[lockout + 1:release], steps[release + 1:]
+
+
+def test_the_lockout_moved_after_the_release_is_refused_on_save_and_on_issue(order, users, client):  # noqa: F811
+    powered, work, restore = _groups(order)
+    last = [*powered, *work, RELEASE, *restore, LOCKOUT]
+    client.force_login(users["engineer"])
+    before = order.step_list
+    page = html.unescape(_edit(client, order, last).content.decode())
+    assert (f"Step {len(powered) + len(work) + 1} removes the locks, but the energy is isolated only at step "
+            f"{len(last)} (the lockout step)") in page
+    assert WorkOrder.objects.get(pk=order.pk).step_list == before
+
+    order.steps = "\n".join(last)  # stored so outside the form (the admin, a script, before this check)
+    order.save()
+    shown = html.unescape(client.get(order.get_absolute_url()).content.decode())
+    assert "Do not start the work until the site engineer has put that right." in shown
+    with pytest.raises(services.Refused, match=r"cannot be issued: step \d+ removes the locks"):
+        services.work_order_move(order, "issue", users["engineer"])
+    assert WorkOrder.objects.get(pk=order.pk).state == State.DRAFT
+
+
+def test_a_plans_locked_out_work_moved_before_the_lockout_is_refused_by_name(order, users, client):  # noqa: F811
+    powered, work, restore = _groups(order)
+    early = [*powered, work[0], LOCKOUT, *work[1:], RELEASE, *restore]
+    client.force_login(users["engineer"])
+    page = html.unescape(_edit(client, order, early).content.decode())
+    assert f'Step {len(powered) + 1} ("{work[0][:79]}…") is work its plan does with the energy isolated, but it ' \
+           f"stands before the lockout (step {len(powered) + 2})" in page
+    after = [*powered, LOCKOUT, *work[1:], RELEASE, work[0], *restore]
+    page = html.unescape(_edit(client, order, after).content.decode())
+    assert f"stands after the locks come off (step {after.index(RELEASE) + 1})" in page
+
+    # A step in the engineer's own words is the engineer's to place; an issued order checks again when started.
+    own = [*powered, "Look the drive over for anything loose.", LOCKOUT, *work, RELEASE, *restore]
+    _edit(client, order, own)
+    assert WorkOrder.objects.get(pk=order.pk).step_list == own
+    services.work_order_move(order, "issue", users["engineer"])
+    order.refresh_from_db()
+    order.steps = "\n".join(early)
+    order.save()
+    with pytest.raises(services.Refused, match="cannot be started: step"):
+        services.work_order_move(order, "start", users["technician"])
+
+
+def test_a_lockout_with_nothing_done_under_it_is_refused(order, users, client):  # noqa: F811
+    powered, work, restore = _groups(order)
+    client.force_login(users["engineer"])
+    empty = [*powered, LOCKOUT, RELEASE, *restore]  # the plan's work taken out
+    page = html.unescape(_edit(client, order, empty).content.decode())
+    assert (f"No step comes between the lockout (step {len(powered) + 1}) and the step that removes the locks (step "
+            f"{len(powered) + 2}): the work done with the energy isolated goes there.") in page
+    at_the_end = [*powered, *restore, LOCKOUT]
+    page = html.unescape(_edit(client, order, at_the_end).content.decode())
+    assert f"No step comes between the lockout (step {len(at_the_end)}) and the end of the steps" in page
+
+
 def test_a_mirror_clean_merged_with_drive_work_closes_the_enclosure_once_and_keeps_its_own_parking(
     telescope, users
 ):

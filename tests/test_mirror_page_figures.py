@@ -180,3 +180,40 @@ def test_the_estimate_says_whose_log_it_counts_where_the_site_logs_per_telescope
     assert f"this telescope's log: its own nights on 10 of {logged:,} logged nights, the whole site's on the rest." \
         in shown
     assert services.mirror_forecast(primary).log_note.startswith("this telescope's log: its own nights on 10 of")
+
+
+def test_the_estimate_shows_the_latest_measurement_against_the_fitted_line(client, users, train):
+    """The estimate now is the fitted line at today's exposure, not the latest measurement: the page puts the latest
+    measurement beside the line's value there, R0 - b (E - f c), with the fit's scatter, so neither is taken for the
+    other. A cleaning that recovered far more than the fitted fraction f (the measurement after it more than 3 rms
+    off what the fit of the earlier measurements expected) is said to have done so."""
+    primary, today = train["primary"], train["today"]
+    state = services.mirror_forecast(primary)
+    measured_on, exposure_h, value = state.points[-1]
+    fit, (_, cleaned_h) = state.fit, state.cleanings[-1]
+    on_line = fit.r0 - fit.rate_per_hour * (exposure_h - fit.recovery_fraction * cleaned_h)
+    assert (f"Latest measurement {value:.4f} on {measured_on:%d %b %Y}, {abs(value - on_line):.4f} "
+            f"{'above' if value >= on_line else 'below'} the fitted line ({on_line:.4f} there); the fit's scatter is "
+            f"rms {fit.residual_rms:.4f}.") in _text(_page(client, users, primary))
+    assert "times the scatter" not in state.latest_note  # the readings lie within 0.0004 of the line
+
+    CleaningEvent.objects.create(mirror=primary, cleaned_on=today, method="co2_snow")
+    ReflectanceMeasurement.objects.create(mirror=primary, measured_on=today, taken_by=users["technician"], value=0.95)
+    note = services.mirror_forecast(primary).latest_note
+    assert note.startswith(f"Latest measurement 0.9500 on {today:%d %b %Y}, ")
+    assert "The fit of the 7 earlier measurements expected " in note and "over 3 times their rms" in note
+    assert f"The cleaning of {today:%d %b %Y} before it recovered more than the fitted fraction f. The estimate and " \
+           "the forecast follow the fit of all 8 measurements" in note
+
+
+def test_the_subsystem_heading_names_its_kind_only_when_the_name_does_not(client, users, train):
+    primary = train["primary"].subsystem
+    primary.name = primary.kind_label.lower()  # "primary mirror": the name says the kind already
+    primary.save()
+    client.force_login(users["viewer"])
+    heading = re.search(r"<h1>.*?</h1>", client.get(primary.get_absolute_url()).content.decode()).group(0)
+    assert heading == f"<h1>{primary.name}</h1>"
+    primary.name = "Main mirror"
+    primary.save()
+    heading = re.search(r"<h1>.*?</h1>", client.get(primary.get_absolute_url()).content.decode()).group(0)
+    assert heading == f'<h1>Main mirror <span class="muted">{primary.kind_label}</span></h1>'

@@ -335,8 +335,8 @@ def test_the_lockout_is_not_taken_back_from_under_the_work_done_locked_out(under
 
 def test_the_release_step_is_ticked_only_after_the_lockout_step(underway, users):
     """Step 7 (catalogue.RELEASE) removes the locks, which the record shows put on first: OSHA 29 CFR 1910.147(e),
-    release from lockout, comes after the work done under (d). The restoring step after it (step 8) is done under
-    power again and waits for nothing (test_the_steps_under_power_and_the_restoring_steps_are_not_held)."""
+    release from lockout, comes after the work done under (d). The restoring step after it (step 8) waits for it in
+    turn (test_the_steps_under_power_are_not_held_and_the_restoring_steps_wait_for_the_release)."""
     technician = users["technician"]
     assert underway.step_list[6] == RELEASE
     before = _ticks()
@@ -421,12 +421,29 @@ def test_a_tick_on_a_point_whose_words_changed_since_counts_for_nothing_in_the_s
         services.checklist_tick_set(underway, STEP, 4, True, users["technician"])
 
 
-def test_the_steps_under_power_and_the_restoring_steps_are_not_held(underway, users):
-    for index in (0, 3, 7):  # before the lockout step, and after the release step
-        services.checklist_tick_set(underway, STEP, index, True, users["technician"])
+def test_the_steps_under_power_are_not_held_and_the_restoring_steps_wait_for_the_release(underway, users):
+    """The steps before the lockout are done under power and wait for nothing. The restoring step after the release
+    (step 8) powers the subsystem up again, which the locks prevent: it is ticked only once the release (step 7) says
+    they are off (OSHA 29 CFR 1910.147(e)), and the release's tick then stays until the restoring's is taken back."""
+    technician = users["technician"]
+    for index in (0, 3):
+        services.checklist_tick_set(underway, STEP, index, True, technician)
+    before = _ticks()
+    with pytest.raises(services.Refused) as refusal:
+        services.checklist_tick_set(underway, STEP, 7, True, technician)
+    assert str(refusal.value) == "step 8 is done after the locks come off: tick step 7, which removes them, first"
+    assert _ticks() == before
+    _locked_out_and_working(underway, users)
+    services.checklist_tick_set(underway, STEP, 6, True, technician)
+    services.checklist_tick_set(underway, STEP, 7, True, technician)
     assert [line.ticked for line in selectors.checklist(underway).steps] == [
-        True, False, False, True, False, False, False, True
+        True, False, False, True, True, True, True, True
     ]
+    with pytest.raises(services.Refused) as refusal:
+        services.checklist_tick_set(underway, STEP, 6, False, users["engineer"])
+    assert str(refusal.value) == (
+        "the tick on step 7 stays: take back step 8 first: it was done after the locks came off"
+    )
 
 
 def test_an_order_whose_hazards_need_no_isolation_is_ticked_in_any_order(site, users, telescope):

@@ -99,6 +99,15 @@ def test_an_ad_hoc_order_with_its_planned_date_is_issued_without_an_edit(station
     assert WorkOrder.objects.get().state == State.ISSUED
 
 
+def test_a_technician_who_drafts_from_the_due_list_is_told_an_engineer_issues_it(drive, users, client):  # noqa: F811
+    """A technician may draft an order from the due list but not edit or issue it (an engineer's moves)."""
+    client.force_login(users["technician"])
+    response = client.post("/workorders/from-due/", {"plans": [p.pk for p in drive.plans.all()]})
+    assert _message(response).endswith(
+        "An engineer checks its steps and date and issues it; it is listed among the drafts on the work orders page."
+    )
+
+
 def test_an_ad_hoc_order_left_without_a_planned_date_says_it_needs_one(station, site, users, client):
     client.force_login(users["technician"])
     response = client.post(f"/sites/{site.slug}/workorders/new/", _ad_hoc(station, planned_date=""))

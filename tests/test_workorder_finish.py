@@ -207,6 +207,22 @@ def test_a_forgotten_cleaning_choice_is_refused_naming_the_mirror_and_stores_not
     _nothing_stored(cleaning_order)
 
 
+def test_a_reflectance_typed_as_a_percentage_is_named_with_the_other_problems_on_the_first_try(
+    cleaning_order, mirror, users, client
+):
+    """The reviewer typed 87 for 0.87 and learnt it only once the other fields were right: the reading's problem
+    comes with theirs, and says what the percentage is as a fraction."""
+    _started(cleaning_order, users)
+    client.force_login(users["technician"])
+    reflectance = cleaning_order.required_readings.get(quantity="reflectance")
+    data = _post(cleaning_order, **{f"reading_{reflectance.pk}": "87"})
+    del data["actual_hours"]
+    shown = _text(client.post(f"/workorders/{cleaning_order.pk}/finish/", data))
+    assert "Actual hours: enter the hours the work took." in shown
+    assert "a reflectance is a fraction between 0 and 1: 87 % is 0.87." in shown
+    _nothing_stored(cleaning_order)
+
+
 def test_not_cleaned_said_explicitly_finishes_without_a_cleaning(cleaning_order, mirror, users, client):
     _started(cleaning_order, users)
     client.force_login(users["technician"])

@@ -11,7 +11,7 @@ from django.core.management.base import CommandError
 from pypdf import PdfReader
 
 from observatory_ops.logbook.models import ServiceRecord
-from observatory_ops.planning.models import PlanStatus
+from observatory_ops.planning.models import PlanStatus, ServicePlan
 from observatory_ops.registry.catalogue import KINDS
 from observatory_ops.registry.services import subsystem_create
 from observatory_ops.workorders import selectors, services
@@ -537,3 +537,40 @@ def test_saving_an_order_unchanged_from_a_browser_records_no_change_of_its_steps
     assert order.history.count() == before or not {
         c.field for c in latest.diff_against(latest.prev_record).changes
     } & {"steps", "tools"}
+
+
+def test_the_printed_reasons_name_each_subsystem_as_the_page_does(drive, telescope, users):
+    """Two drives of one kind bring plans of one name: the paper's "Why this work is due" keeps them apart by their
+    subsystems (the order's header names the telescope)."""
+    other = subsystem_create(telescope, "axis1_drive", "Spare axis 1 drive", counting_from=dt.date(2026, 1, 1))
+    order = services.work_order_from_due([*drive.plans.all(), *other.plans.all()], users["engineer"], PLANNED)
+    order.items.update(why="Calendar days: 200 of 180 days")  # each item's due reason, as the due list gave it
+    name = drive.plans.get().name
+    assert selectors.sheet(order, "https://ops.example/").why == (
+        f"Axis 1 drive: {name}: Calendar days: 200 of 180 days",
+        f"Spare axis 1 drive: {name}: Calendar days: 200 of 180 days",
+    )
+
+
+def test_a_title_of_many_plans_keeps_whole_labels_and_counts_the_rest():
+    labels = [f"Plan number {n} with a long name" for n in range(1, 11)]  # 30 characters each, 10 of them
+    title = services._title(labels)
+    assert title == "; ".join(labels[:5]) + " and 5 more" and len(title) <= services.TITLE_MAX
+    assert services._title(labels[:3]) == "; ".join(labels[:3])
+    long = "word " * 60  # 300 characters: one label longer than a title
+    assert services._title([long, "B"]).endswith("word… and 1 more") and len(services._title([long, "B"])) <= 200
+
+
+def test_the_list_shows_a_technician_their_own_orders_or_those_nobody_has_taken(order, users, client):
+    mine = services.work_order_from_due(list(ServicePlan.objects.filter(pk__in=order.items.values("plan"))),
+                                        users["engineer"], PLANNED)
+    WorkOrder.objects.filter(pk=mine.pk).update(assignee=users["technician"])
+    client.force_login(users["technician"])
+
+    def listed(assigned: str) -> list[str]:
+        table = client.get("/workorders/", {"assigned": assigned}).context["table"]
+        return [row.record.number for row in table.page.object_list]
+
+    assert listed("me") == [mine.number]
+    assert listed("nobody") == [order.number]
+    assert sorted(listed("")) == sorted([order.number, mine.number])

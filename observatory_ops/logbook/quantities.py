@@ -80,7 +80,8 @@ def value_problem(code: str, value: float) -> str | None:
     if not math.isfinite(value):
         return f"{label} must be a finite number"
     if code == "reflectance" and not low <= value <= high:
-        return "a reflectance is a fraction between 0 and 1"
+        percent = f": {value:g} % is {value / 100:g}" if 1 < value <= 100 else ""
+        return f"a reflectance is a fraction between 0 and 1{percent}"
     if value < low:
         if low == 0:
             return f"{label} cannot be negative (got {value:g})"

@@ -82,6 +82,7 @@ class MirrorForecast:
     # before the crossing is forecast, as the plans count them (planning.services.forecast_model).
     unlogged_nights: int = 0
     log_note: str = ""  # what the telescope's log is made of, where its site logs per telescope (``UsageLog.note``)
+    latest_note: str = ""  # the latest measurement against the fitted line (``_latest_against_the_fit``)
 
 
 def _coating_band(mirror: Mirror, metal: str, layers: list[dict]) -> float:
@@ -184,6 +185,7 @@ def mirror_forecast(
         result.cleaning_counted = max(
             (c for c in result.cleanings if c[1] <= result.exposure_now_h), key=lambda c: (c[1], c[0]), default=None
         )
+    result.latest_note = _latest_against_the_fit(result, cleanings_before)
     result.threshold = fit.r0 * (1 - mirror.recoat_loss)
     result.threshold_basis = (
         f"{mirror.recoat_loss:.0%} below the fitted fresh value R0 = {reflectance_text(fit.r0)}{_loss_basis(mirror)}"
@@ -205,6 +207,46 @@ def mirror_forecast(
     central, early, late = (max(start + dt.timedelta(days=int(o)), today) if o >= 0 else None for o in offsets)
     result.crossing, result.crossing_earliest, result.crossing_latest = central, early, late
     return result
+
+
+#: How far the latest measurement may lie from what the earlier measurements' fit expected, in multiples of their rms
+#: about that fit, before the page says the mirror has left the fitted pattern.
+LATEST_OFF_FIT_RMS = 3.0
+
+
+def _latest_against_the_fit(state: MirrorForecast, cleanings_before: list[int]) -> str:
+    """The latest measurement beside the fitted line, so the estimate now is not mistaken for it. When the fit of the
+    earlier measurements (the same model, ``calc.reflectance.fit_decline``) expected it more than
+    ``LATEST_OFF_FIT_RMS`` times their rms away, also why the estimate still follows the fit: the fit takes every
+    cleaning as recovering the same fraction f, so a cleaning that recovered more (or less) shows here first."""
+    fit = state.fit
+    measured_on, exposure, value = state.points[-1]
+    on_line = float(reflectance.predict(fit, [exposure])[0])
+    off = value - on_line
+    said = (f"Latest measurement {reflectance_text(value)} on {measured_on:%d %b %Y}, {abs(off):.4f} "
+            f"{'above' if off >= 0 else 'below'} the fitted line ({reflectance_text(on_line)} there); the fit's "
+            f"scatter is rms {fit.residual_rms:.4f}.")
+    earlier = state.points[:-1]
+    try:
+        before = reflectance.fit_decline([p[1] for p in earlier], [p[2] for p in earlier],
+                                         [c[1] for c in state.cleanings], cleanings_before[:-1])
+        expected = float(reflectance.predict(before, [exposure])[0])
+    except ValueError:  # too few earlier measurements, or none after a cleaning: nothing to hold it against
+        return said
+    surprise = value - expected
+    if abs(surprise) <= LATEST_OFF_FIT_RMS * before.residual_rms:
+        return said
+    cleaned = [day for day, _ in state.cleanings if day <= measured_on]
+    first_after = cleaned and not any(cleaned[-1] <= m < measured_on for m, _, _ in earlier)
+    why = (f" The cleaning of {cleaned[-1]:%d %b %Y} before it recovered {'more' if surprise > 0 else 'less'} than "
+           "the fitted fraction f." if first_after and state.cleaning_counted else "")
+    return (
+        f"{said} The fit of the {len(earlier)} earlier measurements expected {reflectance_text(expected)}: it lies "
+        f"{abs(surprise):.4f} {'above' if surprise > 0 else 'below'}, over {LATEST_OFF_FIT_RMS:g} times their rms "
+        f"({before.residual_rms:.4f}).{why} The estimate and the forecast follow the fit of all {fit.n_points} "
+        "measurements, which takes every cleaning as recovering the same fraction f; the next measurements show "
+        "whether the mirror holds this level."
+    )
 
 
 def _recovery(state: MirrorForecast) -> None:

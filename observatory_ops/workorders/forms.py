@@ -8,6 +8,7 @@ from django.db.models import Q
 from observatory_ops.access.roles import TECHNICIAN, holders_of
 from observatory_ops.archive.history import person
 from observatory_ops.calc.lifting import DENSITY
+from observatory_ops.logbook.quantities import value_problem
 from observatory_ops.planning.services import site_today
 from observatory_ops.registry.forms import HazardsField
 from observatory_ops.registry.models import Subsystem
@@ -15,11 +16,22 @@ from observatory_ops.registry.models import Subsystem
 from . import services
 from .cautions import ISOLATION_UNTICKED, ISOLATION_UNTICKED_FINDINGS
 from .models import Part, State, WorkOrder
+from .selectors import order_plans
 
 
 class _PersonChoiceField(forms.ModelChoiceField):
     def label_from_instance(self, obj) -> str:
         return person(obj)
+
+
+def _plausible(quantity: str, label: str):
+    """A field validator: the reading's problem (``quantities.value_problem``), named by the field's label."""
+
+    def check(value: float) -> None:
+        if problem := value_problem(quantity, value):
+            raise forms.ValidationError(f"{label}: {problem}.")
+
+    return check
 
 
 class WorkOrderEditForm(forms.ModelForm):
@@ -67,6 +79,8 @@ class WorkOrderEditForm(forms.ModelForm):
                 f"The lockout step is missing, and this order's hazards call for energy isolation. Put this line "
                 f"in where the energy is isolated, after the steps done under power: {services.LOCKOUT_STEP}"
             )
+        if problem := services.lockout_sequence_problem(self.instance.hazards, steps, order_plans(self.instance)):
+            raise forms.ValidationError(problem)
         return "\n".join(steps)
 
     def clean_tools(self):
@@ -186,6 +200,8 @@ class FinishForm(forms.Form):
                 label=label, help_text=f"limit: {r.limit_text}" if r.limit_text else "", required=True,
                 error_messages={"required": f"{label}: enter the reading as measured.",
                                 "invalid": f"{label}: enter a number."},
+                # Said with the other fields' problems, on the first try (finishing checks it again).
+                validators=[_plausible(r.quantity, label)],
             )
         for use in order.part_uses.select_related("part"):
             label = f"{use.part.name} used ({use.part.unit})"

@@ -247,13 +247,23 @@ def parts_unregistered(order: WorkOrder) -> list[str]:
     return [f"{quantity:g} x {name}" for name, quantity in wanted.items()]
 
 
-def lockout_step_warning(order: WorkOrder) -> str:
-    """For an order still to do whose hazards call for isolation but whose steps lack the lockout step (it cannot
-    be issued or started until an engineer puts it in): the warning the page and the printed steps show."""
-    from .services import lockout_missing  # services reads this module
+def order_plans(order: WorkOrder) -> list[ServicePlan]:
+    """The service plans an order covers (from its due items), in the order they were added."""
+    return list(ServicePlan.objects.filter(pk__in=order.items.values("plan_id")).order_by("pk"))
 
-    if order.state in TO_DO and lockout_missing(order.hazards, order.step_list):
+
+def lockout_step_warning(order: WorkOrder) -> str:
+    """For an order still to do whose hazards call for isolation but whose steps lack the lockout step, or do not
+    isolate in sequence (it cannot be issued or started until an engineer puts that right): the warning the page and
+    the printed steps show."""
+    from .services import lockout_missing, lockout_sequence_problem  # services reads this module
+
+    if order.state not in TO_DO:
+        return ""
+    if lockout_missing(order.hazards, order.step_list):
         return LOCKOUT_STEP_MISSING
+    if problem := lockout_sequence_problem(order.hazards, order.step_list, order_plans(order)):
+        return f"{problem} Do not start the work until the site engineer has put that right."
     return ""
 
 
@@ -819,9 +829,9 @@ def sheet(order: WorkOrder, url: str) -> sheet_.Sheet:
         issued_on=order.issued_at.astimezone(zone).date() if order.issued_at else None,
         assignee=person(order.assignee),
         estimated_hours=order.estimated_hours,
+        # Named as the page names them, subsystem and plan: two subsystems' alike plans stay apart on paper.
         why=tuple(
-            f"{where(i.subsystem)}: {i.plan.name}: {i.why}" if i.plan and len(telescopes) > 1
-            else f"{i.plan.name if i.plan else where(i.subsystem)}: {i.why}"
+            f"{where(i.subsystem)}: {i.plan.name}: {i.why}" if i.plan else f"{where(i.subsystem)}: {i.why}"
             for i in items if i.why
         ),
         cautions=tuple(

@@ -49,6 +49,7 @@ from .selectors import (
     latest_ticks,
     lift_inputs,
     moves_held,
+    order_plans,
     unticked_lines,
 )
 
@@ -82,6 +83,59 @@ def isolated_steps(steps: Sequence[str]) -> tuple[int, range] | None:
         return None
     release = next((i for i in range(lockout + 1, len(lines)) if lines[i] == RELEASE), len(lines))
     return lockout, range(lockout + 1, release)
+
+
+def lockout_sequence_problem(hazards: Sequence[str], steps: Sequence[str], plans: Sequence[ServicePlan]) -> str:
+    """Why an order's steps, where its hazards call for isolation, do not isolate the energy in sequence; "" when they
+    do (or no step is the lockout step: ``lockout_missing`` says that).
+
+    Three things are refused, in this order: the step that removes the locks (``catalogue.RELEASE``) before the lockout
+    step; a step of a plan's work (``ServicePlan.steps``, done locked out, as ``steps_in_groups`` places it), in its
+    words or under its plan's "[label]", standing before the lockout step or after the release; and no step at all
+    between the two (nothing is done locked out). A step the engineer wrote in words of their own is placed by the
+    engineer.
+    """
+    if not needs_isolation(hazards):
+        return ""
+    lines = [step.strip() for step in steps]
+    placed = isolated_steps(lines)
+    if placed is None:
+        return ""
+    lockout, locked_out = placed
+    early = next((i for i in range(lockout) if lines[i] == RELEASE), None)
+    if early is not None:
+        return (f"Step {early + 1} removes the locks, but the energy is isolated only at step {lockout + 1} (the "
+                "lockout step): put the lockout step after the steps done under power and before the work.")
+    work = _locked_out_work(plans)
+    for i, line in enumerate(lines):
+        if i not in locked_out and i != lockout and _unlabelled(line) in work:
+            where = (f"before the lockout (step {lockout + 1})" if i < lockout
+                     else f"after the locks come off (step {locked_out.stop + 1})")
+            named = _unlabelled(line)
+            named = named if len(named) <= 80 else f"{named[:79].rstrip()}…"
+            return (f"Step {i + 1} (\"{named}\") is work its plan does with the energy isolated, but "
+                    f"it stands {where}: move it between the lockout step and the step that removes the locks.")
+    if not locked_out:
+        after = (f"the step that removes the locks (step {locked_out.stop + 1})" if locked_out.stop < len(lines)
+                 else "the end of the steps")
+        return (f"No step comes between the lockout (step {lockout + 1}) and {after}: the work done with the energy "
+                "isolated goes there.")
+    return ""
+
+
+def _locked_out_work(plans: Sequence[ServicePlan]) -> set[str]:
+    """The steps the plans do locked out (``_steps_for``), less any that a plan also does under power or after."""
+    work, other = set(), set()
+    for plan in plans:
+        before, during, after = plan.step_groups
+        work.update(during or ([] if before or after else [plan.task or plan.name]))
+        other.update(before + after)
+    return {step for step in work - other if not _orders_own(step)}
+
+
+def _unlabelled(line: str) -> str:
+    """A step without the "[plan label] " an order of several plans puts before it (``_labelled``)."""
+    return line.split("] ", 1)[1] if line.startswith("[") and "] " in line else line
 
 
 def steps_in_groups(
@@ -189,6 +243,22 @@ def _shared_once(run: list[tuple[ServicePlan, str]], labels: dict[int, str], sev
     return lines
 
 
+#: The longest title an order keeps (``WorkOrder.title``).
+TITLE_MAX = 200
+
+
+def _title(labels: list[str]) -> str:
+    """The plans' labels joined with "; ", as many whole ones as fit in ``TITLE_MAX``, then "and N more": never cut
+    in the middle of a word."""
+    for shown in range(len(labels), 0, -1):
+        rest = len(labels) - shown
+        title = "; ".join(labels[:shown]) + (f" and {rest} more" if rest else "")
+        if len(title) <= TITLE_MAX:
+            return title
+    tail = f" and {len(labels) - 1} more" if len(labels) > 1 else ""  # one label longer than a title by itself
+    return labels[0][: TITLE_MAX - len(tail) - 1].rsplit(" ", 1)[0] + "…" + tail
+
+
 def work_order_from_due(plans: Sequence[ServicePlan], by, planned_date: dt.date | None = None) -> WorkOrder:
     """One work order covering the given plans (selected on the due list), with steps from their templates."""
     plans = list(
@@ -212,7 +282,7 @@ def work_order_from_due(plans: Sequence[ServicePlan], by, planned_date: dt.date 
         order = WorkOrder.objects.create(
             site=site,
             telescope=subsystems[0].telescope if len(telescopes) == 1 else None,
-            title="; ".join(labels[p.pk] for p in plans)[:200],
+            title=_title([labels[p.pk] for p in plans]),
             order_type=WorkOrder.Type.CONDITION_BASED if condition_based else WorkOrder.Type.PREVENTIVE,
             planned_date=planned_date,
             estimated_hours=sum(p.estimated_hours for p in plans),
@@ -324,6 +394,12 @@ def work_order_move(order: WorkOrder, action: str, by, reason: str = "") -> Work
             "step: an engineer edits the steps and puts it in where the energy is isolated, after the steps done "
             "under power (the edit page gives its wording)"
         )
+    if action in ("issue", "start") and (
+        problem := lockout_sequence_problem(order.hazards, order.step_list, order_plans(order))
+    ):
+        done = {"issue": "issued", "start": "started"}[action]
+        raise Refused(f"{order.number} cannot be {done}: {problem[:1].lower()}{problem[1:]} An engineer edits its "
+                      "steps.")
     if action in ("issue", "start") and (missing := hazards_missing(order)):
         # Its cautions, protective equipment and isolation would be missing from the page and the paper.
         named = ", ".join(HAZARDS[h].lower() for h in missing)
@@ -672,7 +748,12 @@ def _lockout_sequence_refusal(order: WorkOrder, line: tuple, ticked: bool, what:
     def step_done(index: int) -> bool:
         return done((ChecklistTick.Kind.STEP, index), steps[index])
 
+    restored = [index for index in range(release + 1, len(steps)) if step_done(index)] if release is not None else []
     if not ticked:
+        if key == release and restored:
+            # Restoring is done under power again, after the locks came off: the record keeps the release before it.
+            return _take_back_refusal(what, [(restored, "was done after the locks came off",
+                                              "were done after the locks came off")])
         if not (is_point or key == lockout):
             return ""
         # The release and the locked-out work stand on the lockout step, and through it on every point.
@@ -688,11 +769,13 @@ def _lockout_sequence_refusal(order: WorkOrder, line: tuple, ticked: bool, what:
     if is_point:
         return ""
     if key == release:
-        # The locks come off after the locked-out work (1910.147(e)), so the record shows them put on before. The
-        # steps after the release are done under power again and wait for nothing more.
+        # The locks come off after the locked-out work (1910.147(e)), so the record shows them put on before.
         if step_done(lockout):
             return ""
         return f"step {key + 1} removes the locks: tick the lockout (step {lockout + 1}) first"
+    if release is not None and key > release and not step_done(release):
+        # The steps after the release restore power and test under it: only once the locks are off (1910.147(e)).
+        return f"step {key + 1} is done after the locks come off: tick step {release + 1}, which removes them, first"
     if key != lockout and key not in locked:
         return ""
     points = isolation_points(order)

@@ -41,12 +41,24 @@ class WorkOrderTable(tables.Table):
         return format_html('<span class="wo-state wo-{}">{}</span>', record.state, record.get_state_display())
 
 
+#: The "Assigned" filter's choices: a technician's own orders, or those nobody has taken yet.
+MINE, NOBODY = "me", "nobody"
+
+
 class WorkOrderFilter(django_filters.FilterSet):
     site = django_filters.ModelChoiceFilter(queryset=Site.objects.all(), label="Site")
     state = django_filters.ChoiceFilter(choices=State.choices, label="State")
     order_type = django_filters.ChoiceFilter(choices=WorkOrder.Type.choices, label="Type")
+    assigned = django_filters.ChoiceFilter(
+        choices=[(MINE, "to me"), (NOBODY, "to nobody yet")], label="Assigned", method="filter_assigned",
+    )
     title = django_filters.CharFilter(lookup_expr="icontains", label="Title contains")
 
     class Meta:
         model = WorkOrder
-        fields = ["site", "state", "order_type", "title"]
+        fields = ["site", "state", "order_type", "assigned", "title"]
+
+    def filter_assigned(self, queryset, name, value):
+        if value == MINE:
+            return queryset.filter(assignee=self.request.user)
+        return queryset.filter(assignee__isnull=True)

@@ -53,7 +53,7 @@ def _tick_refused(request, order: WorkOrder) -> dict | None:
 
 @requires(VIEWER)
 def work_order_list(request):
-    filtered = WorkOrderFilter(request.GET, queryset=selectors.work_orders_listed())
+    filtered = WorkOrderFilter(request.GET, queryset=selectors.work_orders_listed(), request=request)
     table = WorkOrderTable(filtered.qs)
     RequestConfig(request, paginate={"per_page": 50}).configure(table)
     return render(request, "workorders/list.html", {"filter": filtered, "table": table})
@@ -77,9 +77,12 @@ def work_order_from_due(request):
         )
         return redirect(back if back and safe else reverse("due-list"))
     items = "1 due item" if len(plans) == 1 else f"{len(plans)} due items"
-    messages.success(request, f"{order.number} drafted from {items}, planned for today ({planned:%d %b %Y}). Check "
-                              "the steps, change the planned date if the work is for another day (Edit), then issue "
-                              "it.")
+    # Drafting is a technician's to do, editing and issuing an engineer's: a technician is told who takes it on.
+    then = ("Check the steps, change the planned date if the work is for another day (Edit), then issue it."
+            if has_role(request.user, ENGINEER) else
+            "An engineer checks its steps and date and issues it; it is listed among the drafts on the work orders "
+            "page.")
+    messages.success(request, f"{order.number} drafted from {items}, planned for today ({planned:%d %b %Y}). {then}")
     already = {
         other.number: other for orders in selectors.orders_for_plans(p.pk for p in plans).values()
         for other in orders if other.pk != order.pk
