@@ -114,9 +114,10 @@ def error_body(response) -> list[dict]:
 
 def answer(created: int, updated: int, unchanged: int) -> dict:
     """The answer to nights of the whole site alone: the three counts, and the same under ``by_telescope``'s "" (the
-    whole site's nights; each telescope's under its name: tests/test_usage_per_telescope_ingest.py)."""
+    whole site's nights; each telescope's under its name: tests/test_usage_per_telescope_ingest.py), and no night to
+    check (``check``: tests/test_nights_longer_than_the_night.py)."""
     counts = {"created": created, "updated": updated, "unchanged": unchanged}
-    return counts | {"by_telescope": {"": counts}}
+    return counts | {"by_telescope": {"": counts}, "check": []}
 
 
 

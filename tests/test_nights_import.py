@@ -941,7 +941,7 @@ def test_an_upload_that_would_change_a_stored_night_lists_each_change_and_stores
     assert f"{CHANGED_NIGHT}<td><code>open_hours</code></td><td>7.59</td><td>7.5</td>" in page
     assert f"{CHANGED_NIGHT}<td><code>pm10_ugm3</code></td><td>35.5</td><td>empty</td>" in page
     assert f"{CHANGED_NIGHT}<td><code>slews</code>" not in page  # the same figure as stored is no change
-    assert "choose the same file again and press <em>Store these changes</em>" in page
+    assert "press <em>Store these changes</em> (the file is kept until then)" in page
     assert ">Store these changes</button>" in page
     # Nothing at all is stored, not even the new night: an import is all or nothing.
     assert snapshot() == before and recomputes == []
@@ -964,6 +964,22 @@ def test_the_same_file_sent_again_with_the_token_stores_the_changes_shown_and_a_
     response = upload(technician_client, night_of_759, CHANGING_FILE, confirm=token)
     assert messages_of(response) == ["Import done: 0 new, 0 updated, 2 unchanged; nothing changed."]
     assert snapshot() == after and recomputes == [night_of_759.pk]
+
+
+def test_the_changes_are_confirmed_without_choosing_the_file_again(technician_client, night_of_759, recomputes):
+    """Browsers never keep a chosen file: the page keeps the one whose changes it lists, so pressing Store these
+    changes with no file stores them; with no file and no changes waiting, the page asks for a file."""
+    token = confirm_token(upload(technician_client, night_of_759, CHANGING_FILE))
+    url = reverse("nights-import", args=[night_of_759.slug])
+    response = technician_client.post(url, {"confirm": token})
+    assert messages_of(response) == ["Import done: 1 new, 1 updated, 0 unchanged."]
+    assert NightUsage.objects.get(site=night_of_759, night=FIRST_NIGHT).open_hours == 7.5
+    after = snapshot()
+    again = technician_client.post(url, {"confirm": token})  # the kept file was spent with its import
+    assert "Choose the CSV file to import." in again.content.decode() and snapshot() == after
+    assert technician_client.post(url, {"confirm": ""}).context["form"].errors == {
+        "file": ["Choose the CSV file to import."]
+    }
 
 
 def test_a_token_of_other_changes_stores_nothing_and_shows_the_changes_now_due(

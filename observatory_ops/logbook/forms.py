@@ -72,8 +72,11 @@ class ReadingForm(forms.Form):
 
 
 class NightsUploadForm(forms.Form):
+    """A nights CSV to import; when the page lists changes to stored nights, their token, with the file kept by the
+    view (``views.nights_import``) so confirming them needs no file chosen again (``kept_token``: their token)."""
+
     file = forms.FileField(
-        help_text="CSV in the nights format described on this page.",
+        required=False, help_text="CSV in the nights format described on this page.",
         error_messages={"empty": f"The file is empty. A nights CSV holds {nights_csv.WHAT_A_FILE_HOLDS}."},
     )
     skip_bad = forms.BooleanField(
@@ -82,8 +85,18 @@ class NightsUploadForm(forms.Form):
     #: The token of the changes to stored nights the page listed (``services.nights_import``); empty at first.
     confirm = forms.CharField(required=False, widget=forms.HiddenInput)
 
+    def __init__(self, *args, kept_token: str = "", **kwargs):
+        super().__init__(*args, **kwargs)
+        self.kept_token = kept_token  # the file whose changes carry this token is kept: none need be chosen
+        if kept_token:
+            self.fields["file"].help_text = "The same file is kept: choose none to store the changes listed above."
+
     def clean_file(self):
         upload = self.cleaned_data["file"]
+        if upload is None:
+            if not (self.kept_token and self.data.get("confirm") == self.kept_token):
+                raise forms.ValidationError("Choose the CSV file to import.")
+            return None
         if upload.size > settings.NIGHTS_UPLOAD_MAX_BYTES:
             raise forms.ValidationError(
                 f"The file is {upload.size:,} bytes; the limit is {settings.NIGHTS_UPLOAD_MAX_BYTES:,} bytes."

@@ -1,8 +1,11 @@
 """Reads of the nightly log that pages share."""
 from __future__ import annotations
 
+import datetime as dt
+
 from django.db.models import F, Max, Q
 
+from observatory_ops.planning.models import NightSky
 from observatory_ops.registry.models import Site
 
 from .models import NightUsage
@@ -19,3 +22,40 @@ def last_nights(site: Site) -> list[NightUsage]:
         NightUsage.objects.filter(which, site=site).select_related("telescope")
         .order_by(F("telescope__name").asc(nulls_first=True))
     )
+
+
+#: How much longer than the night (sunset to sunrise) open hours may be before they are questioned: a dome is opened
+#: up to about an hour before sunset to let the telescope cool, and closed after sunrise (common practice, no
+#: published source); beyond that, a typing slip (20 for 2.0) is likelier.
+LONGER_THAN_THE_NIGHT_H = 2.0
+
+
+def nights_longer_than_the_night(site: Site, nights: list[NightUsage]) -> list[str]:
+    """A sentence for each of ``nights`` whose open hours exceed that night at the site (sunset to sunrise, from the
+    sky cache, ``planning.models.NightSky``) by more than ``LONGER_THAN_THE_NIGHT_H``; nights the cache does not hold
+    (the sky computed for the forecast years only) are not checked."""
+    sky = {
+        row.night: row for row in NightSky.objects.filter(site=site, night__in={n.night for n in nights}).only(
+            "night", "sunset", "sunrise"
+        )
+    }
+    long = []
+    for night in nights:
+        cached = sky.get(night.night)
+        if cached is None or cached.sunset is None or cached.sunrise is None:
+            continue
+        length_h = (cached.sunrise - cached.sunset) / dt.timedelta(hours=1)
+        if night.open_hours > length_h + LONGER_THAN_THE_NIGHT_H:
+            long.append((night, cached, length_h))
+    if not long:
+        return []
+    names = dict(site.telescopes.values_list("pk", "name"))
+    found = []
+    for night, cached, length_h in sorted(long, key=lambda n: (n[0].night, names.get(n[0].telescope_id, ""))):
+        whose = f" ({names[night.telescope_id]})" if night.telescope_id else ""
+        sunset, sunrise = cached.sunset.astimezone(site.zone), cached.sunrise.astimezone(site.zone)
+        found.append(
+            f"{night.night:%d %b %Y}{whose}: {night.open_hours:g} h open, but that night lasts {length_h:.1f} h there "
+            f"(sunset {sunset:%H:%M} to sunrise {sunrise:%H:%M})"
+        )
+    return found

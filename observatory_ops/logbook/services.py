@@ -26,6 +26,7 @@ from observatory_ops.registry.models import Site, Subsystem, Telescope
 from . import nights_csv
 from .models import NightUsage, Reading, ServiceRecord
 from .quantities import QUANTITIES, value_problem
+from .selectors import nights_longer_than_the_night
 
 #: The columns that say which night a record is (the site's, or one telescope's), not what was used in it.
 _KEY_COLUMNS = ("night", "telescope")
@@ -105,8 +106,8 @@ class ImportReport:
     confirm_token: str = ""
     #: A token was given but the changes are not those it confirmed (the file or the stored nights differ).
     confirmed_other: bool = False
-    #: The site and the nights stored ((telescope id or None, night)), for ``uncounted_note``.
-    stored_on: tuple[Site, list[tuple[int | None, dt.date]]] | None = None
+    #: The site and the nights created or updated, for ``uncounted_note`` and ``longer_than_the_night``.
+    stored_on: tuple[Site, list[NightUsage]] | None = None
     #: The counts of each telescope's nights in the file or request (its name; "" for the whole site's), in order of
     #: first appearance: {"created": .., "updated": .., "unchanged": ..}, as the API answers them.
     by_telescope: dict[str, dict[str, int]] = field(default_factory=dict)
@@ -118,7 +119,16 @@ class ImportReport:
         """Why some stored nights move no counter: they are before the start of plans whose last service is
         unknown (``planning.selectors.nights_before_unknown_starts_note``). Worked out when read (the import page
         and command read it in ``summary``; the API's ingest does not, so it costs the ingest nothing)."""
-        return nights_before_unknown_starts_note(*self.stored_on) if self.stored_on else ""
+        if not self.stored_on:
+            return ""
+        site, nights = self.stored_on
+        return nights_before_unknown_starts_note(site, [(n.telescope_id, n.night) for n in nights])
+
+    @property
+    def longer_than_the_night(self) -> list[str]:
+        """The stored nights whose open hours exceed the night at the site (``selectors.nights_longer_than_the_night``):
+        stored as sent, and named so a slip (20 for 2.0) is corrected by sending the night again."""
+        return nights_longer_than_the_night(*self.stored_on) if self.stored_on else []
 
     @property
     def summary(self) -> str:
@@ -142,6 +152,9 @@ class ImportReport:
             text += f"; {_rows(self.skipped)} skipped"
         if not (self.created or self.updated):
             text += "; nothing changed"
+        if long := self.longer_than_the_night:
+            text += (f". Check {len(long)} night{pluralize(len(long))} longer than the night, stored as sent (send a "
+                     f"night again to correct it): {'; '.join(long)}")
         return f"{text}. {self.uncounted_note}".strip()
 
     def _whose(self, count: str) -> str:
@@ -336,7 +349,7 @@ def _nights_store(
     report.by_telescope = _counts_by_telescope(rows, new, changed)
     if stored:
         report.updated_nights = sorted(u.night for u in changed)
-        report.stored_on = (site, [(u.telescope_id, u.night) for u in new + changed])
+        report.stored_on = (site, new + changed)
 
 
 def _counts_by_telescope(

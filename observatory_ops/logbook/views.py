@@ -160,16 +160,27 @@ def night_log(request, slug):
     })
 
 
+#: Where the session keeps a file whose changes to stored nights the import page asks to confirm: (site id, the
+#: changes' token, the file's text), so confirming needs no file chosen again. One at a time, per signed-in person.
+_PENDING_IMPORT = "nights_import_pending"
+
+
 @requires(TECHNICIAN)
 def nights_import(request, slug):
     site = get_object_or_404(Site, slug=slug)
-    form = NightsUploadForm(request.POST or None, request.FILES or None)
+    pending = request.session.get(_PENDING_IMPORT)
+    kept = pending if pending and pending[0] == site.pk else None
+    form = NightsUploadForm(request.POST or None, request.FILES or None, kept_token=kept[1] if kept else "")
     report = None
     if request.method == "POST" and form.is_valid():
         data = form.cleaned_data
+        upload = data["file"].read() if data["file"] else kept[2].encode("utf-8")
+        request.session.pop(_PENDING_IMPORT, None)
         report = services.nights_import(
-            site, data["file"].read(), skip_bad=data["skip_bad"], by=request.user, confirmed=data["confirm"]
+            site, upload, skip_bad=data["skip_bad"], by=request.user, confirmed=data["confirm"]
         )
+        if report.confirm_token:
+            request.session[_PENDING_IMPORT] = (site.pk, report.confirm_token, upload.decode("utf-8"))
         # The result is said once, by these messages; the report's panel below holds only its details.
         if report.file_problem:
             messages.error(request, report.summary)
@@ -179,10 +190,10 @@ def nights_import(request, slug):
             messages.warning(request, report.summary)
         else:
             messages.success(request, f"Import done: {report.summary}")
-        # Browsers never keep a chosen file, so the next import chooses one again: the same file with the token of
-        # the changes listed when the page asks to confirm them; otherwise a plain import, the token sent (if any)
-        # spent or refused with its import.
-        form = NightsUploadForm(initial={"skip_bad": data["skip_bad"], "confirm": report.confirm_token})
+        # Browsers never keep a chosen file: the session keeps the one whose changes the page asks to confirm, and
+        # the form carries their token; otherwise a plain import, the token sent (if any) spent or refused with it.
+        form = NightsUploadForm(initial={"skip_bad": data["skip_bad"], "confirm": report.confirm_token},
+                                kept_token=report.confirm_token)
     return render(
         request,
         "logbook/nights_import.html",
