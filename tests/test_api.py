@@ -596,10 +596,12 @@ def test_command_creates_a_token_that_works_lists_it_and_revokes_it(client, site
 
     listing, _ = run("list")
     assert f"{token.prefix}…" in listing and "active" in listing and secret not in listing
-    assert listing.splitlines()[0].split() == ["id", "site", "begins", "created", "last", "used", "(UTC)", "state",
-                                               "name"]
-    token.refresh_from_db()  # the night sent above used it
-    assert token.last_used_at is not None and f"{token.last_used_at:%Y-%m-%d %H:%M}" in listing
+    assert listing.splitlines()[0].split() == ["id", "site", "begins", "created", "last", "used", "(site", "time)",
+                                               "state", "name"]
+    token.refresh_from_db()  # the night sent above used it; times at the site (Europe/Madrid), as its pages show them
+    assert token.last_used_at is not None and f"{token.last_used_at.astimezone(site.zone):%Y-%m-%d %H:%M}" in listing
+    header, row = listing.splitlines()[:2]
+    assert row.index(f"{token.prefix}…") == header.index("begins")  # the columns line up whatever the slug's length
 
     out, _ = run("revoke", str(token.pk))
     assert out.strip() == f"Token {token.pk} (east dome, site test-hill) revoked."

@@ -167,6 +167,33 @@ def test_a_limit_reached_even_counting_from_the_plans_start_is_overdue_and_says_
     assert "Last service unknown, so counted from the plan's start" in state.reason and BASELINE in state.reason
 
 
+def test_a_plan_added_by_hand_starts_with_its_last_service_unknown_unless_the_box_is_ticked(
+    engineer, client, telescope, now
+):
+    """A reviewer added a plan for a refractor's objective, typed today as its counting date (the form needs one)
+    and left the box alone: the plan must not read as serviced today. The box starts unticked on a new plan, and
+    only a tick makes the date a real last service."""
+    objective = _added_in_the_admin(client, telescope, "other", "Objective lens")
+    page = client.get("/admin/planning/serviceplan/add/")
+    assert 'name="counting_from_given"' in page.content.decode()
+    assert not page.context["adminform"].form["counting_from_given"].initial
+    common = {
+        "subsystem": objective.pk, "name": "Clean the objective", "task": "", "steps_powered": "", "steps": "",
+        "steps_restore": "", "tools": "", "parts": "", "readings": "[]", "estimated_hours": "1",
+        "dust_sensitivity": "0", "basis": "", "active": "on", "counting_from": now.isoformat(),
+        "triggers-TOTAL_FORMS": "1", "triggers-INITIAL_FORMS": "0", "triggers-MIN_NUM_FORMS": "0",
+        "triggers-MAX_NUM_FORMS": "1000", "triggers-0-metric": "calendar_days", "triggers-0-limit": "365",
+        "triggers-0-quantity": "", "triggers-0-direction": "above",
+    }
+    assert client.post("/admin/planning/serviceplan/add/", common).status_code == 302
+    unknown = ServicePlan.objects.get(name="Clean the objective")
+    assert not unknown.counting_from_given
+    assert _state(objective, "Clean the objective").last_service_unknown
+    known = {**common, "name": "Check the dew heater", "counting_from_given": "on"}
+    assert client.post("/admin/planning/serviceplan/add/", known).status_code == 302
+    assert ServicePlan.objects.get(name="Check the dew heater").counting_from_given
+
+
 # --- past nights and past readings ---------------------------------------------------------------------------------
 
 

@@ -217,3 +217,21 @@ def test_the_subsystem_heading_names_its_kind_only_when_the_name_does_not(client
     primary.save()
     heading = re.search(r"<h1>.*?</h1>", client.get(primary.get_absolute_url()).content.decode()).group(0)
     assert heading == f'<h1>Main mirror <span class="muted">{primary.kind_label}</span></h1>'
+
+
+def test_a_mirror_measured_above_its_fresh_value_is_pointed_out_not_counted_silently(train, users, client):
+    """The secondary, measured twice above its computed fresh value (no fit from two readings: its last measurement
+    counts, against the computed fresh value), makes the train's loss negative; the page says why that cannot be."""
+    secondary = _mirror(train["secondary"], train["coated_on"])
+    fresh = services.mirror_forecast(secondary).fresh_band
+    for days_ago, value in ((20, fresh + 0.02), (10, fresh + 0.03)):
+        ReflectanceMeasurement.objects.create(
+            mirror=secondary, measured_on=train["today"] - dt.timedelta(days=days_ago), taken_by=users["technician"],
+            value=value,
+        )
+    result = services.throughput(secondary.subsystem.telescope)
+    row = next(m for m in result.mirrors if m.mirror == secondary)
+    assert (row.source, row.now) == (services.MEASURED, pytest.approx(fresh + 0.03))
+    note = f"{secondary.subsystem} {fresh + 0.03:.4f} against {fresh:.4f} fresh"
+    assert f"Above fresh ({note}): counted as a gain, which a mirror cannot make." in result.above_fresh_note
+    assert "Above fresh (" in _text(_page(client, users, secondary))

@@ -342,3 +342,19 @@ def test_the_page_opens_each_caution_with_the_signal_word_the_paper_prints(order
     assert word == "DANGER TO LIFE"
     assert f"{word} · Hazardous electrical energy" in page
     assert f"{word} · Moving telescope and dome" in page
+
+
+def test_the_lift_page_of_an_order_on_a_registered_mirror_starts_from_the_mirrors_record(
+    cleaning_order, mirror, users, client
+):
+    """A cleaning in place lifts nothing, so its order has no lifting inputs of its own; when the engineer opens its
+    lifting figures all the same, the form starts from the mirror's record (size, material, cell mass), not from the
+    form's blank defaults, and says so."""
+    mirror.cell_mass_kg = 30
+    mirror.save()
+    assert cleaning_order.lift_inputs in (None, {})
+    client.force_login(users["engineer"])
+    page = client.get(f"/workorders/{cleaning_order.pk}/lift/")
+    assert page.context["form"].initial == mirror.lift_inputs
+    assert f"Filled in from the record of {mirror.subsystem}: check the figures, then save them." in \
+        html.unescape(page.content.decode())

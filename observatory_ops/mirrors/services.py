@@ -309,6 +309,22 @@ class Throughput:
             return ""
         return f"Incomplete: {'; '.join(parts)}. The train has likely lost more light than this."
 
+    @property
+    def above_fresh_note(self) -> str:
+        """Which mirrors read above their fresh value, so count a gain: a reflectometer reading high, or a fresh value
+        computed low for the coating as made; "" when none does."""
+        above = [m for m in self.mirrors if m.now is not None and m.now > m.fresh]
+        if not above:
+            return ""
+        named = "; ".join(
+            f"{m.subsystem} {reflectance_text(m.now)} against {reflectance_text(m.fresh)} fresh" for m in above
+        )
+        return (
+            f"Above fresh ({named}): counted as a gain, which a mirror cannot make. A reflectometer reading high, or a "
+            "fresh value that the coating as made does not reach, would do it: check the instrument against its "
+            "reference, or record the coating's own recipe. The recoat line follows the fresh value."
+        )
+
 
 class ReflectanceNow(NamedTuple):
     """A mirror's band reflectance now and fresh as its forecast gives them (both None without a coating), where

@@ -39,8 +39,16 @@ class ServicePlanAdminForm(forms.ModelForm):
                            "to its work orders.")
 
     def __init__(self, *args, **kwargs):
-        """The readings' help names the quantity codes usual on this plan's subsystem, not one kind's example."""
+        """The readings' help names the quantity codes usual on this plan's subsystem, not one kind's example. A plan
+        added by hand starts with its last service unknown (due now for a baseline service): the counting date,
+        which the form needs, is taken as a real last service only when the box is ticked."""
         super().__init__(*args, **kwargs)
+        if self.instance._state.adding and "counting_from_given" in self.fields:
+            self.fields["counting_from_given"].initial = False
+            self.fields["counting_from"].help_text = (
+                "The day of the last service, if you know it (then tick the box below); if not, today, with the box "
+                "left unticked: the plan is then due now for a baseline service."
+            )
         subsystem = self.instance.subsystem if self.instance.subsystem_id else None
         if subsystem is None or "readings" not in self.fields:
             return
@@ -53,9 +61,11 @@ class ServicePlanAdminForm(forms.ModelForm):
         )
 
     def clean(self):
-        """A counting date typed in is a date given by hand: the plan counts from it, no longer "last service
-        unknown" (unless the box is unticked in the same change)."""
+        """A counting date changed on a stored plan is a date given by hand: the plan counts from it, no longer "last
+        service unknown" (unless the box is unticked in the same change)."""
         cleaned = super().clean()
+        if self.instance._state.adding:  # a new plan's box says it, ticked or not (``__init__``)
+            return cleaned
         if "counting_from" in self.changed_data and "counting_from_given" not in self.changed_data:
             cleaned["counting_from_given"] = True
         return cleaned

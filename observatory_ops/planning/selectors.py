@@ -330,7 +330,7 @@ def expected_use_by_month(subsystem: Subsystem, plans: list[ServicePlan]) -> dic
     if not shown:
         return None
     site = subsystem.telescope.site
-    log = UsageLog.for_telescope(subsystem.telescope)
+    log = UsageLog.for_subsystem(subsystem)
     model = forecast_model(site, log, site_today(site))
     logged, years = forecast.logged_per_month(log.nights)
     days = np.datetime64(model.first_day, "D") + np.arange(len(model.open_hours))
@@ -405,7 +405,7 @@ def plans_with_plots(subsystem: Subsystem) -> list[ServicePlan]:
             # The state the recompute stored this trigger from (services._recoat_line_state), computed again here
             # for its fit: the picture and the figures come from the one function.
             mirror = getattr(subsystem, "mirror", None)
-            log = log or UsageLog.for_telescope(subsystem.telescope)
+            log = log or UsageLog.for_subsystem(subsystem)
             decline = mirror_forecast(mirror, today, log) if mirror else None
             if decline is not None and decline.threshold is not None:
                 plan.plot = plots.recoat_svg(decline, today, title)
@@ -424,7 +424,7 @@ def plans_with_plots(subsystem: Subsystem) -> list[ServicePlan]:
             )
             continue
         else:
-            log = log or UsageLog.for_telescope(subsystem.telescope)
+            log = log or UsageLog.for_subsystem(subsystem)
             keep = log.nights >= np.datetime64(baseline, "D")
             totals = np.cumsum(log.per_night(status.metric, plan.dust_sensitivity)[keep])
             days = log.nights[keep].astype(object)

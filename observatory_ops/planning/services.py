@@ -24,7 +24,7 @@ from observatory_ops.logbook.models import NightUsage, Reading, ServiceRecord
 from observatory_ops.logbook.quantities import QUANTITIES, reflectance_text, significant
 from observatory_ops.registry.catalogue import RELEASE
 from observatory_ops.registry.catalogue import kind as catalogue_kind
-from observatory_ops.registry.models import Site, Subsystem
+from observatory_ops.registry.models import Site, Subsystem, is_shared_enclosure
 
 from . import metrics
 from .models import NightSky, PlanStatus, ServicePlan, Trigger, trigger_figures
@@ -195,13 +195,34 @@ class UsageLog:
 
     @classmethod
     def site_wide(cls, site: Site) -> UsageLog:
-        """The log for a figure of the whole site (the cost of losing a night): the site's rows, or where it
-        sends none of its own, the log of its busiest telescope (the most open hours)."""
+        """The log for a figure of the whole site (the cost of losing a night, an enclosure all its telescopes
+        share): the site's rows, or where it sends none of its own, the log of its busiest telescope (the most open
+        hours)."""
         logs = cls.of_site(site)
+        return logs[cls.site_wide_key(logs)]
+
+    @staticmethod
+    def site_wide_key(logs: dict[int | None, UsageLog]) -> int | None:
+        """Which of a site's logs (``of_site``) is the whole site's (``site_wide``)."""
         if len(logs[None].nights) or len(logs) == 1:
-            return logs[None]
-        return max((log for key, log in logs.items() if key is not None),
-                   key=lambda log: float(log.columns["open_hours"].sum()))
+            return None
+        telescopes = [key for key in logs if key is not None]
+        return max(telescopes, key=lambda key: float(logs[key].columns["open_hours"].sum()))
+
+    @classmethod
+    def key_for(cls, logs: dict[int | None, UsageLog], telescope_id: int, whole_site: bool) -> int | None:
+        """Which of a site's logs (``of_site``) a subsystem counts: its telescope's, or with ``whole_site`` (an
+        enclosure all the site's telescopes share: ``registry.models.is_shared_enclosure``) the whole site's."""
+        if whole_site:
+            return cls.site_wide_key(logs)
+        return telescope_id if telescope_id in logs else None
+
+    @classmethod
+    def for_subsystem(cls, subsystem) -> UsageLog:
+        """The log a subsystem's plans count: its telescope's, or the whole site's for a shared enclosure."""
+        if subsystem.serves_the_whole_site:
+            return cls.site_wide(subsystem.telescope.site)
+        return cls.for_telescope(subsystem.telescope)
 
     @classmethod
     def _split(cls, rows_query) -> dict[int | None, UsageLog]:
@@ -519,6 +540,7 @@ class _Plan(NamedTuple):
     counting_from: dt.date
     dust_sensitivity: float
     counting_from_given: bool
+    whole_site: bool  # a shared enclosure's plan: it counts the whole site's nights (``UsageLog.key_for``)
 
 
 def _site_recompute(site: Site, today: dt.date) -> int:
@@ -526,28 +548,29 @@ def _site_recompute(site: Site, today: dt.date) -> int:
     # model instances, since a site has hundreds. A plan without triggers has no due state.
     plans: list[_Plan] = []
     triggers_of: dict[int, list] = {}
-    for plan_id, subsystem_id, telescope_id, counting_from, sensitivity, given, *trigger in _fetched(
+    for plan_id, subsystem_id, telescope_id, kind, counting_from, sensitivity, given, *trigger in _fetched(
         Trigger.objects.filter(
             plan__subsystem__telescope__site=site, plan__active=True, plan__subsystem__retired_on__isnull=True
         )
         .order_by("plan_id", "pk")
-        .values_list("plan_id", "plan__subsystem_id", "plan__subsystem__telescope_id", "plan__counting_from",
-                     "plan__dust_sensitivity",
+        .values_list("plan_id", "plan__subsystem_id", "plan__subsystem__telescope_id", "plan__subsystem__kind",
+                     "plan__counting_from", "plan__dust_sensitivity",
                      "plan__counting_from_given", "metric", "limit", "quantity", "direction")
     ):
         if plan_id not in triggers_of:
-            plans.append(_Plan(plan_id, subsystem_id, telescope_id, counting_from, sensitivity, bool(given)))
+            plans.append(_Plan(plan_id, subsystem_id, telescope_id, counting_from, sensitivity, bool(given),
+                               is_shared_enclosure(site, kind)))
             triggers_of[plan_id] = []
         triggers_of[plan_id].append(_Trigger(*trigger))
     recoat = any(t.metric == metrics.RECOAT_LINE for p in plans for t in triggers_of[p.pk])
     mirrors = _mirrors_by_subsystem(site) if recoat else {}
     # Each plan counts its telescope's usage (``UsageLog``): a site that logs one row a night has one log and
-    # one usage model; a telescope that logs its own nights has its own.
+    # one usage model; a telescope that logs its own nights has its own; a shared enclosure counts the whole site's.
     logs = UsageLog.of_site(site)
     models_: dict[int | None, UsageModel] = {}
 
     def usage_of(plan: _Plan) -> tuple[int | None, UsageLog, UsageModel]:
-        key = plan.telescope_id if plan.telescope_id in logs else None
+        key = UsageLog.key_for(logs, plan.telescope_id, plan.whole_site)
         if key not in models_:
             models_[key] = forecast_model(site, logs[key], today)
         return key, logs[key], models_[key]

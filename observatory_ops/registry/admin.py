@@ -2,7 +2,7 @@ from django.contrib import admin, messages
 from simple_history.admin import SimpleHistoryAdmin
 
 from observatory_ops.planning.admin import RecomputesSite
-from observatory_ops.planning.services import plans_from_catalogue
+from observatory_ops.planning.services import plans_from_catalogue, site_recompute
 from observatory_ops.workorders.cautions import HAZARDS
 
 from .catalogue import kind as catalogue_kind
@@ -30,6 +30,13 @@ class SiteAdmin(SimpleHistoryAdmin):
     @admin.display(description="position")
     def position(self, site):
         return coordinates(site)
+
+    def save_related(self, request, form, formsets, change):
+        super().save_related(request, form, formsets, change)
+        # These move due states: what counts as due, and which nights a shared enclosure's plans count.
+        if change and {"look_ahead_days", "shared_enclosure"} & set(form.changed_data):
+            site_recompute(form.instance)
+            self.message_user(request, f"Due states of {form.instance} recomputed.", messages.INFO)
 
 
 @admin.register(Telescope)

@@ -85,6 +85,12 @@ class Site(models.Model):
         "Monday to Friday. The recoat planner starts the phases at the telescope (removal, reinstall, realignment) "
         "on these days and pauses them over the others.",
     )
+    shared_enclosure = models.BooleanField(
+        "one enclosure over every telescope", default=False,
+        help_text="Ticked when the site's telescopes stand under one enclosure (a roll-off roof, one dome) registered "
+        "as a subsystem of one of them: its isolation points are then locked for work with a moving telescope or "
+        "enclosure at any of them, and its service plans count the whole site's nights, not that telescope's.",
+    )
     digest_sent_on = models.DateField(
         null=True, blank=True, editable=False,
         help_text="The site's local day of the last due digest sent: at most one a day (planning.digest).",
@@ -225,6 +231,12 @@ class SubsystemQuerySet(models.QuerySet):
         return self.filter(retired_on__isnull=True)
 
 
+def is_shared_enclosure(site: Site, kind: str) -> bool:
+    """A subsystem of ``kind`` at ``site`` is the enclosure all its telescopes share: the site says it has one, and
+    the kind has a supply of its own (``catalogue.Kind.separate_supply``: the dome's or roof's drives)."""
+    return site.shared_enclosure and kind in KINDS and KINDS[kind].separate_supply
+
+
 class Subsystem(models.Model):
     history = HistoricalRecords()  # who changed what, when: see observatory_ops/archive
     telescope = models.ForeignKey(Telescope, on_delete=models.PROTECT, related_name="subsystems")
@@ -256,6 +268,12 @@ class Subsystem(models.Model):
     @property
     def kind_label(self) -> str:
         return KINDS[self.kind].label if self.kind in KINDS else self.kind
+
+    @property
+    def serves_the_whole_site(self) -> bool:
+        """An enclosure (a kind with a supply of its own) that every telescope of its site stands under
+        (``Site.shared_enclosure``)."""
+        return is_shared_enclosure(self.telescope.site, self.kind)
 
     def clean(self) -> None:
         if self.parent_id and self.parent.telescope_id != self.telescope_id:

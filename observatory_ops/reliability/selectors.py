@@ -5,10 +5,10 @@ A failure is a corrective work order that was finished (or countersigned): one f
 names, except the replaced unit's, those after the subsystem was retired and those with no counted operating hours
 leading up to them, which are left out with the reason (``left_out_reason``, the one place that rule is kept).
 Operating hours are the open hours of the subsystem's telescope's nightly log (``planning.services.UsageLog``: the
-site's rows, or the telescope's own where it sends them), counted for each subsystem over the nights it was in
-service (from its "in service since" date where one is given, see ``START_BASES``). Maintenance hours are those of
-the service records. A fixed handful of queries for a site, whatever its size
-(tests/test_reliability_page.py counts them).
+site's rows, or the telescope's own where it sends them; a shared enclosure's, the whole site's), counted for
+each subsystem over the nights it was in service (from its "in service since" date where one is given, see
+``START_BASES``). Maintenance hours are those of the service records. A fixed handful of queries for a site,
+whatever its size (tests/test_reliability_page.py counts them).
 """
 from __future__ import annotations
 
@@ -25,7 +25,7 @@ from observatory_ops.logbook.models import ServiceRecord
 from observatory_ops.planning.models import ServicePlan
 from observatory_ops.planning.services import UsageLog, site_today
 from observatory_ops.registry.catalogue import KINDS
-from observatory_ops.registry.models import Site, Subsystem
+from observatory_ops.registry.models import Site, Subsystem, is_shared_enclosure
 from observatory_ops.workorders.models import State, WorkOrder, WorkOrderItem
 
 DONE = (State.FINISHED, State.COUNTERSIGNED)
@@ -231,7 +231,7 @@ def site_reliability(site: Site, today: dt.date | None = None) -> SiteReliabilit
         row.starts.append(starts[pk])
         end = min(retired_on, today + dt.timedelta(days=1)) if retired_on else today + dt.timedelta(days=1)
         start = starts[pk]
-        key = telescope_id if telescope_id in logs else None
+        key = UsageLog.key_for(logs, telescope_id, is_shared_enclosure(site, kind))
         own_first = logs[key].nights[0].astype(dt.date) if len(logs[key].nights) else None
         base = hours_before(key, start.day)
         total = max(hours_before(key, end) - base, 0.0)

@@ -247,6 +247,13 @@ def parts_unregistered(order: WorkOrder) -> list[str]:
     return [f"{quantity:g} x {name}" for name, quantity in wanted.items()]
 
 
+def on_the_crew(order: WorkOrder, user) -> bool:
+    """``user`` is named on the crew that did the order's work: the crew's names as typed on the finish form, one of
+    them the user's full name or user name (case and spaces aside)."""
+    mine = {name.strip().casefold() for name in (user.get_full_name(), user.username) if name.strip()}
+    return bool(mine & {name.strip().casefold() for name in order.crew or []})
+
+
 def order_plans(order: WorkOrder) -> list[ServicePlan]:
     """The service plans an order covers (from its due items), in the order they were added."""
     return list(ServicePlan.objects.filter(pk__in=order.items.values("plan_id")).order_by("pk"))
@@ -283,18 +290,20 @@ def isolation_points(order: WorkOrder) -> list[IsolationPoint]:
     the points registered for one of its subsystems (a dome's own drives). Work with a moving telescope or
     dome among its hazards also locks the points of every subsystem in service on those telescopes that has
     a supply of its own: a dome turning over people on a platform is a danger to any of that work, not only
-    to work on the dome. None when its hazards need no energy isolated (the order has no lockout step)."""
+    to work on the dome; at a site whose telescopes share one enclosure (``Site.shared_enclosure``), those of every
+    telescope of the site. None when its hazards need no energy isolated (the order has no lockout step)."""
     if not needs_isolation(order.hazards):
         return []
     items = list(order.items.select_related("subsystem"))
     wanted = Q(subsystem__isnull=True) | Q(subsystem_id__in={i.subsystem_id for i in items})
+    enclosure = Q(subsystem__kind__in=_SEPARATE_SUPPLY, subsystem__retired_on__isnull=True)
     if "moving_machinery" in order.hazards:
-        wanted |= Q(subsystem__kind__in=_SEPARATE_SUPPLY, subsystem__retired_on__isnull=True)
-    return list(
-        IsolationPoint.objects.filter(telescope_id__in=_telescopes(order, items))
-        .filter(wanted)
-        .select_related("telescope", "subsystem")
-    )
+        wanted |= enclosure
+    here = Q(telescope_id__in=_telescopes(order, items)) & wanted
+    if "moving_machinery" in order.hazards and order.site.shared_enclosure:
+        # One enclosure over every telescope, registered under one of them: it moves over work at any of them.
+        here |= Q(telescope__site=order.site_id) & enclosure
+    return list(IsolationPoint.objects.filter(here).select_related("telescope", "subsystem"))
 
 
 def orders_underway_locking(point: IsolationPoint) -> list[WorkOrder]:
@@ -671,6 +680,17 @@ def lift_inputs(order: WorkOrder) -> dict | None:
     if mirror is None or mirror.cell_mass_kg is None:
         return inputs
     return {**inputs, "fixture_kg": mirror.cell_mass_kg}
+
+
+def lift_form_initial(order: WorkOrder) -> tuple[dict | None, str]:
+    """What the lift page's form starts with, and where it came from: the order's own inputs (``lift_inputs``), or
+    for an order that has none yet but covers a registered mirror, that mirror's record (to check and save)."""
+    if inputs := lift_inputs(order):
+        return inputs, ""
+    mirror = lift_mirror(order)
+    if mirror is None:
+        return None, ""
+    return mirror.lift_inputs, f"Filled in from the record of {mirror.subsystem}: check the figures, then save them."
 
 
 def lift_cell_record(order: WorkOrder) -> str:

@@ -49,6 +49,7 @@ from .selectors import (
     latest_ticks,
     lift_inputs,
     moves_held,
+    on_the_crew,
     order_plans,
     unticked_lines,
 )
@@ -424,6 +425,8 @@ def work_order_move(order: WorkOrder, action: str, by, reason: str = "") -> Work
     elif action == "countersign":
         if order.finished_by_id == by.pk:
             raise Refused("a second person must countersign: you finished this work order yourself")
+        if on_the_crew(order, by):
+            raise Refused("a second person must countersign: you are named on the crew that did the work")
         fields.update(countersigned_at=now, countersigned_by=by)
     elif action == "withdraw":
         if not reason.strip():

@@ -124,8 +124,10 @@ def work_order_detail(request, pk):
     editable = order.state in (State.DRAFT, State.ISSUED) and has_role(request.user, ENGINEER)
     missing = selectors.hazards_missing(order)
     phase = selectors.recoat_phase(order) if order.state in (State.FINISHED, State.COUNTERSIGNED) else None
-    # The person who finished the work may not countersign it (services.work_order_move): no button they can't use.
-    own_work = order.finished_by_id is not None and order.finished_by_id == request.user.pk
+    # Who finished the work, or was on its crew, may not countersign it (services.work_order_move): no button they
+    # can't use.
+    own_work = (order.finished_by_id is not None and order.finished_by_id == request.user.pk
+                or selectors.on_the_crew(order, request.user))
     # Moves refused as the order stands (no planned date, a lift that stands in the way): no buttons, and why.
     held = selectors.moves_held(order)
     held_notes: dict[str, list[str]] = {}
@@ -455,7 +457,8 @@ def _next_phase(order: WorkOrder, mirror_id: int):
 @requires(ENGINEER)
 def work_order_lift(request, pk):
     order = _order(pk)
-    form = LiftForm(request.POST or None, initial=selectors.lift_inputs(order))
+    initial, filled_from = selectors.lift_form_initial(order)
+    form = LiftForm(request.POST or None, initial=initial)
     if request.method == "POST" and form.is_valid():
         inputs = {k: v for k, v in form.cleaned_data.items() if v is not None}
         try:
@@ -478,7 +481,7 @@ def work_order_lift(request, pk):
     return render(
         request, "workorders/lift.html",
         {"form": form, "order": order, "cautions": cautions_for(["suspended_load"]),
-         "precedence": PRECEDENCE_STATEMENT, "lift": figures,
+         "precedence": PRECEDENCE_STATEMENT, "lift": figures, "filled_from": filled_from,
          "cell_record": selectors.lift_cell_record(order) if figures else ""},
     )
 

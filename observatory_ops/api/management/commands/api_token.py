@@ -53,13 +53,17 @@ class Command(BaseCommand):
         if not tokens:
             self.stdout.write("No API tokens." if not site else f"No API tokens for site {site}.")
             return
+        # Dates and times at each token's site, as its pages show them; the site column as wide as its longest slug.
+        width = max(len("site"), *(len(t.site.slug) for t in tokens))
         self.stdout.write(
-            f"{'id':>4}  {'site':<20} {'begins':<9} {'created':<10}  {'last used (UTC)':<16}  {'state':<18} name"
+            f"{'id':>4}  {'site':<{width}}  {'begins':<9} {'created':<10}  {'last used (site time)':<21}  "
+            f"{'state':<18} name"
         )
         for t in tokens:
-            state = f"revoked {t.revoked_at:%Y-%m-%d}" if t.revoked_at else "active"
-            created = f"{t.created_at:%Y-%m-%d}"
-            used = f"{t.last_used_at:%Y-%m-%d %H:%M}" if t.last_used_at else "never"
+            zone = t.site.zone
+            state = f"revoked {t.revoked_at.astimezone(zone):%Y-%m-%d}" if t.revoked_at else "active"
+            created = f"{t.created_at.astimezone(zone):%Y-%m-%d}"
+            used = f"{t.last_used_at.astimezone(zone):%Y-%m-%d %H:%M}" if t.last_used_at else "never"
             self.stdout.write(
-                f"{t.pk:>4}  {t.site.slug:<20} {t.prefix}…  {created}  {used:<16}  {state:<18} {t.name}"
+                f"{t.pk:>4}  {t.site.slug:<{width}}  {t.prefix}…  {created}  {used:<21}  {state:<18} {t.name}"
             )
