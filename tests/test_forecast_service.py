@@ -328,7 +328,7 @@ def test_a_condition_past_its_limit_says_the_day_it_was_first_past(db, users):
     status = PlanStatus.objects.get(plan=plan)
     assert status.status == "overdue"
     assert status.forecast_date == TODAY - dt.timedelta(days=10)  # 0.98 at day -20 was back under the limit
-    assert f"limit reached on {status.forecast_date:%d %b %Y}" in status.reason
+    assert f"past the limit since the reading of {status.forecast_date:%d %b %Y}." in status.reason
 
 
 def test_absurd_readings_leave_the_recompute_working_and_say_why_there_is_no_trend(db, users):
@@ -390,7 +390,7 @@ def test_a_condition_triggers_sentence_names_the_reading_the_limit_and_the_trend
     counting_from = TODAY - dt.timedelta(days=60)  # no service logged: counted from the plan's start
     assert reason.startswith("Latest reading 1.095 s against a limit of at most 1 s; Settle time after a slew: "
                              f"2 readings since the plan's start ({counting_from:%d %b %Y}), too few for a trend; "
-                             "limit reached on ")
+                             "past the limit since the reading of ")
 
 
 def test_the_due_lists_csv_download_names_things_as_the_page_does(synthetic, users, client):

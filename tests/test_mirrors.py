@@ -389,3 +389,101 @@ def test_calendar_uids_do_not_depend_on_the_address_it_was_fetched_through(mirro
     assert one == other and len(set(one)) == len(one) == 5
     assert all(uid.endswith("@ops.vestal-ridge.example") for uid in one)
 
+
+
+def test_a_recoat_due_by_the_calendar_before_the_line_bounds_the_planner_and_flags_late_windows(
+    mirror, users, client, on_today, monkeypatch
+):
+    """A reviewer found the due list saying a recoat was due 02 Feb (730 calendar days) while the mirror page spoke
+    only of the line (11 Apr) and the planner offered March. The recoat plan's first trigger is what the due list
+    shows, so the mirror page and the planner show it too, the planner looks no further by default, and a window
+    starting after it is flagged. Here the plan counts 730 days from 670 days ago: due in 60 days, before the line
+    (224 days on, the first test's hand computation)."""
+    from observatory_ops.planning import services as planning
+    from observatory_ops.planning.models import ServicePlan, Trigger
+
+    monkeypatch.setattr(planning, "site_today", lambda site, now=None: TODAY)
+    _constant_sky(mirror)
+    plan = ServicePlan.objects.create(subsystem=mirror.subsystem, name="Recoat primary",
+                                      counting_from=TODAY - dt.timedelta(days=670))
+    Trigger.objects.create(plan=plan, metric="recoat_line", limit=0)
+    Trigger.objects.create(plan=plan, metric="calendar_days", limit=730)
+    planning.site_recompute(mirror.subsystem.telescope.site, TODAY)
+    due = services.recoat_due(mirror)
+    assert (due.plan, due.metric, due.forecast_date) == (plan, "calendar_days", TODAY + dt.timedelta(days=60))
+    assert services.default_horizon_days(mirror, TODAY) == 60
+
+    client.force_login(users["engineer"])
+    said = f"is due {TODAY + dt.timedelta(days=60):%d %b %Y}"
+    assert said in client.get(mirror.get_absolute_url()).content.decode()
+    page = client.get(f"/mirrors/{mirror.pk}/recoat/", {"start": TODAY.isoformat(), "horizon_days": "365"})
+    windows_ = page.context["windows"]
+    assert said in page.content.decode()
+    assert [w["late"] for w in windows_] == [w["start"] > TODAY + dt.timedelta(days=60) for w in windows_]
+    assert any(w["late"] for w in windows_) == ("starts after the recoat plan is due" in page.content.decode())
+
+
+def test_the_planner_names_another_mirrors_recoat_already_planned_at_the_site(mirror, users, on_today):
+    """A reviewer planned T70's recoat, then R40's planner offered the same window with nothing said. The costs
+    stay those of the sky (the crew's other work is not priced), but the page names the recoat already planned and
+    flags each window that overlaps it; a recoat whose orders were withdrawn no longer counts."""
+    from observatory_ops.calc.windows import RECOAT_PHASES
+
+    _constant_sky(mirror)
+    secondary = Subsystem.objects.create(telescope=mirror.subsystem.telescope, kind="secondary_mirror",
+                                         name="Secondary")
+    other = Mirror.objects.create(subsystem=secondary, diameter_mm=150, thickness_mm=25, hole_mm=0,
+                                  material="borosilicate", cell_mass_kg=3)
+    CoatingEvent.objects.create(mirror=other, coated_on=TODAY - dt.timedelta(days=300), metal="al")
+    planned = services.recoat_plan_create(other, TODAY + dt.timedelta(days=10), list(RECOAT_PHASES), 3.0,
+                                          users["engineer"])
+    found = services.recoat_windows(mirror, TODAY, 120, list(RECOAT_PHASES))
+    assert found["committed"] == [planned]
+    for window in found["windows"]:
+        last = window["start"] + dt.timedelta(days=window["nights"] - 1)
+        overlaps = window["start"] <= planned.ends_on and planned.starts_on <= last
+        assert window["crew_committed"] == ([planned] if overlaps else []), window["start"]
+    from observatory_ops.workorders.models import State
+
+    planned.work_orders.update(state=State.WITHDRAWN)
+    assert services.recoat_windows(mirror, TODAY, 120, list(RECOAT_PHASES))["committed"] == []
+
+
+def test_the_dashboard_lists_the_downtime_planned_with_its_nights(mirror, users, client, on_today, monkeypatch):
+    """The manager's "what downtime is coming": each recoat still going ahead, its telescope, first and last day and
+    nights out of service (both ends counted), and the calendar file; withdrawn, it is gone."""
+    from observatory_ops.calc.windows import RECOAT_PHASES
+    from observatory_ops.workorders.models import State
+
+    monkeypatch.setattr("observatory_ops.registry.views.site_today", lambda site, now=None: TODAY)
+    _constant_sky(mirror)
+    plan = services.recoat_plan_create(mirror, TODAY + dt.timedelta(days=20), list(RECOAT_PHASES), 3.5,
+                                       users["engineer"])
+    site, telescope = mirror.subsystem.telescope.site, mirror.subsystem.telescope
+    assert plan.nights == (plan.ends_on - plan.starts_on).days + 1 == sum(p["days"] for p in plan.phases)
+    client.force_login(users["viewer"])
+    page = client.get(site.get_absolute_url()).content.decode()
+    assert (f"<strong>{telescope.name}</strong> out of service {plan.starts_on:%d %b %Y} to {plan.ends_on:%d %b %Y} "
+            f"({plan.nights} nights)") in page
+    assert f'href="/sites/{site.slug}/downtime.ics"' in page
+    plan.work_orders.update(state=State.WITHDRAWN)
+    assert "No recoat planned." in client.get(site.get_absolute_url()).content.decode()
+
+
+def test_the_due_list_csv_writes_a_reflectance_as_the_pages_do(mirror, on_today, monkeypatch):
+    """A reviewer found 0.825766055965813 in the download: a recoat line's figures are reflectances, written to four
+    decimals with their unit, as every page writes them."""
+    from observatory_ops.planning import services as planning
+    from observatory_ops.planning.models import PlanStatus, ServicePlan, Trigger
+    from observatory_ops.planning.selectors import DUE_CSV_HEADER, due_csv_row
+
+    monkeypatch.setattr(planning, "site_today", lambda site, now=None: TODAY)
+    _constant_sky(mirror)
+    plan = ServicePlan.objects.create(subsystem=mirror.subsystem, name="Recoat primary",
+                                      counting_from=TODAY - dt.timedelta(days=300))
+    Trigger.objects.create(plan=plan, metric="recoat_line", limit=0)
+    planning.site_recompute(mirror.subsystem.telescope.site, TODAY)
+    row = dict(zip(DUE_CSV_HEADER, due_csv_row(PlanStatus.objects.get(plan=plan)), strict=True))
+    assert (row["trigger"], row["limit"], row["unit"]) == ("Mirror reflectance reaching its recoat line", "0.8280",
+                                                          "fraction")
+    assert re.fullmatch(r"0\.\d{4}", row["now"])

@@ -123,7 +123,7 @@ def test_a_reached_limit_is_marked_on_the_reading_that_reached_it_not_on_the_lim
     status = PlanStatus.objects.get(plan=plan)
     assert status.status == "overdue" and status.forecast_date == first + dt.timedelta(days=90)
     svg = _chart(drive, plan)
-    assert f"limit reached {status.forecast_date:%d %b %Y}" in svg
+    assert f"past the limit: reading of {status.forecast_date:%d %b %Y}" in svg
     (marker_x, marker_y, _), = _circles(svg, "4.5")
     newest = max(_circles(svg, "3.5"))
     assert (marker_x, marker_y) == pytest.approx(newest[:2], abs=0.01)

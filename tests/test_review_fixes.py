@@ -113,6 +113,18 @@ def test_the_coating_phase_carries_its_own_hazards_and_the_others_the_mirrors_to
     assert "optical_surface" not in mirror_services._PHASE_WORK["realignment"].hazards
 
 
+def test_the_realignment_cautions_every_energy_its_lockout_isolates_as_the_removal_does(recoat):
+    """A reviewer found the realignment order isolating the mains and the brakes' air (its drives are locked out
+    while the cell is adjusted) without the electrical and stored-pneumatic cautions the removal and reinstall carry
+    (OSHA 29 CFR 1910.147(d)(5): stored energy; the telescope here has air-operated brakes)."""
+    from observatory_ops.workorders.cautions import needs_isolation
+
+    realignment = recoat["realignment"]
+    assert needs_isolation(realignment.hazards) and services.LOCKOUT_STEP in realignment.step_list
+    for energy in ("electrical", "pneumatic"):
+        assert energy in realignment.hazards and energy in recoat["removal"].hazards, energy
+
+
 def test_mirrors_in_a_telescope_carry_the_moving_telescope_hazard_of_their_kind(site, telescope, users):
     """A mirror is worked on in a telescope that can move (OSHA 29 CFR 1910.147: lock out the drives), so an
     ad hoc order on the primary or the secondary gets the caution and a lockout step."""

@@ -173,3 +173,8 @@ class RecoatPlan(models.Model):
 
     class Meta:
         ordering = ["-starts_on"]
+
+    @property
+    def nights(self) -> int:
+        """The nights the telescope is out of service: its first day to its last, both counted."""
+        return (self.ends_on - self.starts_on).days + 1

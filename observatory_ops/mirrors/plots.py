@@ -7,10 +7,13 @@ import numpy as np
 from django.utils.safestring import SafeString
 
 from observatory_ops.calc import reflectance
-from observatory_ops.charts import ALERT, BAND, Chart
+from observatory_ops.charts import BAND, Chart
 from observatory_ops.logbook.quantities import reflectance_text
 
 from .services import MirrorForecast
+
+#: The colour of the cleanings' dashed lines and of their key.
+CLEANING = "#5f8a8a"
 
 
 def decline_svg(state: MirrorForecast) -> SafeString | None:
@@ -33,7 +36,7 @@ def decline_svg(state: MirrorForecast) -> SafeString | None:
     if state.fresh_band is not None:
         chart.hline(state.fresh_band, f"computed fresh {reflectance_text(state.fresh_band)}", colour="#4a6b4a")
     for _, exposure in state.cleanings:
-        chart.line([(exposure, chart.y_low), (exposure, chart.y_high)], colour="#8aa", width=1, dashed=True)
+        chart.line([(exposure, chart.y_low), (exposure, chart.y_high)], colour=CLEANING, width=1, dashed=True)
     chart.dots([(p[1], p[2]) for p in state.points], label="measured")
     chart.vline(state.exposure_now_h, "now")
     if state.current is not None:  # a titled dot, not a label: a label here would cross the recoat line's
@@ -41,7 +44,8 @@ def decline_svg(state: MirrorForecast) -> SafeString | None:
                    label=f"estimate now {reflectance_text(state.current)}")
     if state.crossing_exposure_h is not None and math.isfinite(state.crossing_exposure_h) and state.crossing:
         chart.marker(state.crossing_exposure_h, state.threshold, f"crosses about {state.crossing:%d %b %Y}")
-    chart.text(chart.left + 6, chart.height - chart.bottom - 6, "dashed verticals: cleanings", colour=ALERT)
+    # Keyed in the cleanings' own colour (the recoat line's red is the line's alone).
+    chart.text(chart.left + 6, chart.height - chart.bottom - 6, "dashed verticals: cleanings", colour=CLEANING)
     return chart.svg()
 
 

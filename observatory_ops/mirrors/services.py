@@ -532,10 +532,43 @@ def _day_numbers(first: dt.date, days: Iterable[dt.date]) -> list[int]:
     return [(day - first).days for day in days if day >= first]
 
 
+def recoat_due(mirror: Mirror):
+    """The due state (``planning.models.PlanStatus``) of the mirror's recoat plan due first, as the due list has it:
+    by whichever of its triggers comes first (the recoat line, or the calendar days since the last coating); None
+    when it has no recoat plan with a due state."""
+    from observatory_ops.planning.models import PlanStatus
+
+    states = PlanStatus.objects.filter(plan__in=recoat_plans(mirror.subsystem)).select_related("plan")
+    return min(states, key=lambda s: (s.urgency, s.forecast_date or dt.date.max), default=None)
+
+
+def downtime_planned(site: Site, today: dt.date) -> list[RecoatPlan]:
+    """The site's recoats not yet over and still going ahead (an order of theirs not withdrawn), soonest first: each
+    takes its telescope out of service from its first day to its last (the dashboard's "Downtime planned")."""
+    return list(
+        RecoatPlan.objects.filter(mirror__subsystem__telescope__site=site, ends_on__gte=today)
+        .exclude(work_orders__state=State.WITHDRAWN)
+        .select_related("mirror__subsystem__telescope").order_by("starts_on")
+    )
+
+
+def _recoats_planned_at(site: Site, mirror: Mirror, first: dt.date, last: dt.date) -> list[RecoatPlan]:
+    """The site's other mirrors' recoats planned within [first, last] and still going ahead (an order of theirs not
+    withdrawn): the crew is committed on their days, which the planner does not price, so it names them."""
+    return list(
+        RecoatPlan.objects.filter(mirror__subsystem__telescope__site=site, starts_on__lte=last, ends_on__gte=first)
+        .exclude(mirror=mirror).exclude(work_orders__state=State.WITHDRAWN)
+        .select_related("mirror__subsystem__telescope").order_by("starts_on")
+    )
+
+
 def default_horizon_days(mirror: Mirror, today: dt.date) -> int:
-    """Look no further than the day the mirror is forecast to cross its recoat line (late side)."""
-    crossing = mirror_forecast(mirror, today).crossing_latest
-    return max(min((crossing - today).days, 3 * 366), 30) if crossing else 365
+    """Look no further than the day the mirror is forecast to cross its recoat line (late side), or the day its
+    recoat plan is due (``recoat_due``: a calendar limit may come first), whichever is sooner."""
+    due = recoat_due(mirror)
+    ends = [day for day in (mirror_forecast(mirror, today).crossing_latest, due and due.forecast_date)
+            if day is not None and day > today]
+    return max(min((min(ends) - today).days, 3 * 366), 30) if ends else 365
 
 
 def recoat_windows(mirror: Mirror, start: dt.date, horizon_days: int, phases: list[windows.Phase]) -> dict:
@@ -569,7 +602,14 @@ def recoat_windows(mirror: Mirror, start: dt.date, horizon_days: int, phases: li
     runs = {}
     for title, night in booked:
         runs.setdefault(title, [night, night])[1] = night
-    return {"windows": found, "days": days, "calendar": calendar, "lead_blanks": range(lead),
+    due = recoat_due(mirror)
+    committed = _recoats_planned_at(site, mirror, start, start + dt.timedelta(days=horizon_days))
+    for window in found:  # a window starting after the recoat plan is due: the due list shows it overdue by then
+        window["late"] = bool(due and due.forecast_date and window["start"] > due.forecast_date)
+        end = window["start"] + dt.timedelta(days=window["nights"] - 1)
+        window["crew_committed"] = [p for p in committed if p.starts_on <= end and window["start"] <= p.ends_on]
+    return {"windows": found, "days": days, "calendar": calendar, "lead_blanks": range(lead), "due": due,
+            "committed": committed,
             "booked_runs": [(title, span[0], span[1]) for title, span in runs.items()], "days_off": days_off,
             "crew_rest_days": windows.weekdays_text(windows.EVERY_DAY - crew)}
 
@@ -809,7 +849,10 @@ _PHASE_WORK = {
         balance_check=True,
     ),
     "realignment": _PhaseWork(
-        hazards=("laser", "moving_machinery", "height"),
+        # The drives are locked out while the cell is adjusted: the lockout isolates the same energies as the
+        # removal's and the reinstall's, so the same cautions go with it (electrical, and the brakes' own).
+        hazards=("laser", "moving_machinery", "height", "electrical"),
+        brakes=True,
         before=("Park the telescope at its service position.",),
         locked=(
             "Collimate with the alignment laser (laser controlled area posted), adjusting the cell with the "

@@ -33,6 +33,7 @@ def mirror_detail(request, pk):
             "mirror": mirror,
             "site": mirror.subsystem.telescope.site,
             "state": state,
+            "recoat_due": services.recoat_due(mirror),
             "plot": plots.decline_svg(state),
             "train": services.throughput(mirror.subsystem.telescope),
             "coatings": mirror.coatings.all(),

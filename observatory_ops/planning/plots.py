@@ -150,7 +150,7 @@ def readings_svg(
     if reached and forecast:
         on = next(((x, v) for x, v in readings if _date(x) == forecast and (v >= limit if rising else v <= limit)),
                   (forecast, limit))
-        chart.marker(*on, f"limit reached {forecast:%d %b %Y}")
+        chart.marker(*on, f"past the limit: reading of {forecast:%d %b %Y}")
     elif trend and trend.crossing_on is not None and forecast:
         said = f"forecast {forecast:%d %b %Y}" if trend.crossing_on >= today else (
             f"trend at the limit {trend.crossing_on:%d %b %Y}")  # the forecast is then today, the earliest

@@ -9,7 +9,7 @@ from django.db.models import Count, Prefetch, Q, QuerySet
 from observatory_ops.calc import forecast
 from observatory_ops.calc.triggers import STATUSES
 from observatory_ops.logbook.models import ServiceRecord
-from observatory_ops.logbook.quantities import QUANTITIES, significant
+from observatory_ops.logbook.quantities import QUANTITIES, reflectance_text, significant
 from observatory_ops.registry.catalogue import COMMON_PRACTICE, KINDS
 from observatory_ops.registry.models import Site, Subsystem
 
@@ -222,10 +222,12 @@ def due_csv_row(status: PlanStatus) -> list:
     subsystem = status.plan.subsystem
     record = due_record(status)
     unknown = status.progress == UNKNOWN_PROGRESS  # the page's words for a plan due for a baseline service
+    value, limit, unit = record["value"], status.limit, status.unit
+    if status.metric == metrics.RECOAT_LINE:  # a reflectance, written as every page writes one
+        value, limit, unit = reflectance_text(status.value), reflectance_text(status.limit), "fraction"
     return [
         status.get_status_display(), subsystem.telescope.site.name, subsystem.telescope.name, subsystem.name,
-        status.plan.name, metrics.METRICS[status.metric][0], status.progress if unknown else record["value"],
-        status.limit, status.unit,
+        status.plan.name, metrics.METRICS[status.metric][0], status.progress if unknown else value, limit, unit,
         record["rate"], record["forecast_date"], record["earliest"], record["latest"], status.reason,
     ]
 

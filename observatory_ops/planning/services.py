@@ -928,6 +928,9 @@ def reason_text(state: TriggerState) -> str:
         head = f"{label}: {state.value:,.0f} of {state.limit:,.0f} {unit}"
         if state.rate_per_day is not None and state.metric != metrics.CALENDAR_DAYS:
             head += f", about {state.rate_per_day:,.1f} {unit} per day expected over the next month"
+    if state.reached and state.metric == metrics.READING and state.forecast:
+        # The day of the first reading past the limit (``_reading_state``), not where the trend crosses it.
+        return f"{head}; past the limit since the reading of {state.forecast:%d %b %Y}."
     if state.reached:
         return f"{head}; limit reached{f' on {state.forecast:%d %b %Y}' if state.forecast else ''}."
     if state.forecast is None:

@@ -7,6 +7,7 @@ from observatory_ops.access.decorators import requires
 from observatory_ops.access.roles import ENGINEER, VIEWER
 from observatory_ops.archive.history import changes
 from observatory_ops.logbook import selectors as logbook_selectors
+from observatory_ops.mirrors import services as mirror_services
 from observatory_ops.mirrors.models import TRAIN_KINDS
 from observatory_ops.planning import selectors as planning_selectors
 from observatory_ops.planning.services import site_recompute, site_today, sites_bring_up_to_date
@@ -56,6 +57,7 @@ def site_dashboard(request, slug):
             "recent_service": planning_selectors.recent_service(site)[:8],
             "low_stock": workorder_selectors.low_stock(site),
             "telescopes_out": workorder_selectors.telescopes_out([site]).values(),
+            "downtime": mirror_services.downtime_planned(site, site_today(site)),
             "open_work_orders": workorder_selectors.work_orders()
             .filter(site=site, state__in=["draft", "issued", "underway", "finished"])
             .order_by("planned_date")[:10],
