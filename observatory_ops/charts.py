@@ -152,12 +152,19 @@ class Chart:
         anchor) that lies inside the plot area clear of everything else, or at the first if none does."""
         self.labels.append((candidates, words, colour))
 
-    def axes(self, y_format: str | None = "", x_label: str = "") -> None:
+    def axes(self, y_format: str | None = "", x_label: str = "", y_label: str = "") -> None:
         """Round ticks on both axes (``nice_ticks``, ``date_ticks``) with light grid lines across the plot.
 
         ``y_format``: "" writes each y tick with the decimals its step needs; a format spec (".3f") writes
-        them so; None leaves the y axis unlabelled (rows labelled in the plot).
+        them so; None leaves the y axis unlabelled (rows labelled in the plot). ``y_label`` names the y axis, written
+        up the left margin beside its ticks.
         """
+        if y_label:
+            middle = (self.top + self.height - self.bottom) / 2
+            self.parts.append(
+                f'<text x="12" y="{middle:.1f}" text-anchor="middle" font-size="{FONT_PX}" fill="{MUTED}" '
+                f'transform="rotate(-90 12 {middle:.1f})">{escape(y_label)}</text>'
+            )
         x0, y0, x1, y1 = self.area
         if y_format is not None:
             ticks = [v for v in nice_ticks(self.y_low, self.y_high) if self.y_low <= v <= self.y_high]
@@ -216,13 +223,20 @@ class Chart:
         self.label([(side, y, anchor) for y in range(int(y0) + 12, int(y1), LINE_PX) for side, anchor in sides],
                    label)
 
-    def line(self, points: Sequence[tuple], colour: str = ACCENT, dashed: bool = False, width: float = 2) -> None:
+    def line(
+        self, points: Sequence[tuple], colour: str = ACCENT, dashed: bool = False, width: float = 2,
+        keep_clear: bool = True,
+    ) -> None:
+        """A polyline; labels keep clear of it unless ``keep_clear`` is False (a light guide line that a label may
+        cross, such as a mirror's cleanings spanning the whole plot, which would otherwise leave no room)."""
         if len(points) < 2:
             return
         pixels = [(self.x(a), self.y(b)) for a, b in points]
         path = " ".join(f"{x:.1f},{y:.1f}" for x, y in pixels)
         dash = ' stroke-dasharray="3 3"' if dashed else ""
         self.parts.append(f'<polyline points="{path}" fill="none" stroke="{colour}" stroke-width="{width}"{dash}/>')
+        if not keep_clear:
+            return
         for (xa, ya), (xb, yb) in itertools.pairwise(pixels):  # labels keep clear of the line: a dot every 6 px
             steps = max(1, int(math.hypot(xb - xa, yb - ya) // 6))
             self.taken += [(xa + (xb - xa) * k / steps - 1, ya + (yb - ya) * k / steps - 1,

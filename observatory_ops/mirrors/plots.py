@@ -27,7 +27,7 @@ def decline_svg(state: MirrorForecast) -> SafeString | None:
     lines = (state.fresh_band, state.threshold, state.current)
     values = [p[2] for p in state.points] + [v for v in lines if v is not None]
     chart = Chart(0.0, x_high, min(values) - 0.01, max(values) + 0.01, f"Reflectance of {state.mirror}")
-    chart.axes(x_label="dust-weighted open hours since coating")
+    chart.axes(x_label="dust-weighted open hours since coating", y_label="band reflectance (fraction)")
     if state.fit is not None:
         grid = np.linspace(0, x_high, 200)
         chart.line(list(zip(grid, reflectance.predict(state.fit, grid), strict=True)))
@@ -36,7 +36,8 @@ def decline_svg(state: MirrorForecast) -> SafeString | None:
     if state.fresh_band is not None:
         chart.hline(state.fresh_band, f"computed fresh {reflectance_text(state.fresh_band)}", colour="#4a6b4a")
     for _, exposure in state.cleanings:
-        chart.line([(exposure, chart.y_low), (exposure, chart.y_high)], colour=CLEANING, width=1, dashed=True)
+        chart.line([(exposure, chart.y_low), (exposure, chart.y_high)], colour=CLEANING, width=1, dashed=True,
+                   keep_clear=False)
     chart.dots([(p[1], p[2]) for p in state.points], label="measured")
     chart.vline(state.exposure_now_h, "now")
     if state.current is not None:  # a titled dot, not a label: a label here would cross the recoat line's
