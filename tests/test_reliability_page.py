@@ -429,3 +429,22 @@ def test_the_page_names_the_failures_with_no_hours_before_them(record, telescope
     assert "1 left out</summary>" in page
     assert ("Left out: T1: Fan D on the night of 25 Jan 2026 (before the day its hours are counted from: no counted "
             "hours lead up to it). Not counted in the failures, the MTBF or the fit.") in page
+
+
+def test_an_interval_past_the_right_edge_is_solid_and_dashed_only_where_it_runs_on(record):
+    """A reviewer saw whole intervals dotted: only the stretch near the edge is dashed, where the upper bound lies
+    beyond the axis (at twice the largest MTBF); an interval inside the axis is solid throughout."""
+    import re
+
+    from observatory_ops.reliability.plots import mtbf_svg
+
+    kinds = site_reliability(record, TODAY).kinds
+    shown = [k for k in kinds if k.failures and k.operating_hours > 0]
+    x_high = max(k.mtbf.mtbf_hours for k in shown) * 2.0
+    lines = re.findall(r'<polyline points="([\d.]+),([\d.]+) ([\d.]+),[\d.]+"[^>]*?( stroke-dasharray="3 3")?/>',
+                       str(mtbf_svg(kinds)))
+    dashed = [line for line in lines if line[3]]
+    assert len(dashed) == sum(k.mtbf.upper_hours > x_high for k in shown) >= 1
+    assert len(lines) - len(dashed) == len(shown)  # one solid line a row
+    for x_start, y, _, _ in dashed:  # each dashed stretch starts where its row's solid line ends
+        assert any(solid[1] == y and solid[2] == x_start for solid in lines if not solid[3])
