@@ -546,7 +546,8 @@ def test_an_engineer_removes_a_night_sent_under_the_wrong_telescope_with_a_reaso
     assert (gone.history_type, gone.history_user, gone.history_change_reason) == (
         "-", users["engineer"], "was South's night"
     )
-    assert "1 night(s) removed (Test Hill: 1)" in client.get("/admin/logbook/nightusage/").content.decode()
+    assert "1 night removed (Test Hill: 1); its site&#x27;s due states are recomputed." in client.get(
+        "/admin/logbook/nightusage/").content.decode()
     log_page = client.get(reverse("nights-list", args=[site.slug])).content.decode()
     assert "<h2>Nights removed</h2>" in log_page
     assert "<td>Fri 05 Jan 2024</td><td>North</td><td>5.00</td>" in log_page

@@ -1,6 +1,7 @@
 from django import forms
 from django.contrib import admin, messages
 from django.contrib.admin import helpers
+from django.template.defaultfilters import pluralize
 from django.template.response import TemplateResponse
 from simple_history.admin import SimpleHistoryAdmin
 
@@ -68,9 +69,10 @@ class NightUsageAdmin(ReadOnlyAdmin):
         if form.is_valid():
             removed = nights_remove(list(queryset), by=request.user, reason=form.cleaned_data["reason"])
             at = "; ".join(f"{site.name}: {count}" for site, count in removed.items())
+            count = sum(removed.values())
+            recomputed = "its site's due states are" if len(removed) == 1 else "their sites' due states are"
             self.message_user(
-                request, f"{sum(removed.values())} night(s) removed ({at}); their sites' due states are recomputed.",
-                messages.SUCCESS,
+                request, f"{count} night{pluralize(count)} removed ({at}); {recomputed} recomputed.", messages.SUCCESS,
             )
             return None
         nights = list(queryset.select_related("site", "telescope"))
