@@ -542,24 +542,25 @@ def recoat_due(mirror: Mirror):
     return min(states, key=lambda s: (s.urgency, s.forecast_date or dt.date.max), default=None)
 
 
-def downtime_planned(site: Site, today: dt.date) -> list[RecoatPlan]:
-    """The site's recoats not yet over and still going ahead (an order of theirs not withdrawn), soonest first: each
-    takes its telescope out of service from its first day to its last (the dashboard's "Downtime planned")."""
-    return list(
-        RecoatPlan.objects.filter(mirror__subsystem__telescope__site=site, ends_on__gte=today)
-        .exclude(work_orders__state=State.WITHDRAWN)
+def _recoats_going_ahead(site: Site):
+    """The site's recoats still going ahead (no order of theirs withdrawn: a withdrawn one stops the recoat), soonest
+    first, with their mirror's subsystem and telescope."""
+    return (
+        RecoatPlan.objects.filter(mirror__subsystem__telescope__site=site).exclude(work_orders__state=State.WITHDRAWN)
         .select_related("mirror__subsystem__telescope").order_by("starts_on")
     )
+
+
+def downtime_planned(site: Site, today: dt.date) -> list[RecoatPlan]:
+    """The site's recoats going ahead and not yet over: each takes its telescope out of service from its first day to
+    its last (the dashboard's "Downtime planned")."""
+    return list(_recoats_going_ahead(site).filter(ends_on__gte=today))
 
 
 def _recoats_planned_at(site: Site, mirror: Mirror, first: dt.date, last: dt.date) -> list[RecoatPlan]:
-    """The site's other mirrors' recoats planned within [first, last] and still going ahead (an order of theirs not
-    withdrawn): the crew is committed on their days, which the planner does not price, so it names them."""
-    return list(
-        RecoatPlan.objects.filter(mirror__subsystem__telescope__site=site, starts_on__lte=last, ends_on__gte=first)
-        .exclude(mirror=mirror).exclude(work_orders__state=State.WITHDRAWN)
-        .select_related("mirror__subsystem__telescope").order_by("starts_on")
-    )
+    """The site's other mirrors' recoats going ahead within [first, last]: the crew is committed on their days, which
+    the planner does not price, so it names them."""
+    return list(_recoats_going_ahead(site).filter(starts_on__lte=last, ends_on__gte=first).exclude(mirror=mirror))
 
 
 def default_horizon_days(mirror: Mirror, today: dt.date) -> int:
