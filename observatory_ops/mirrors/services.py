@@ -210,7 +210,8 @@ def mirror_forecast(
 
 
 #: How far the latest measurement may lie from what the earlier measurements' fit expected, in multiples of their rms
-#: about that fit, before the page says the mirror has left the fitted pattern.
+#: about that fit, before the page says the mirror has left the fitted pattern (the usual three-sigma rule for an
+#: outlying point; common practice, no published source for this use).
 LATEST_OFF_FIT_RMS = 3.0
 
 
