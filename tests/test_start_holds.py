@@ -132,6 +132,16 @@ def test_a_recoat_lift_without_a_working_load_limit_is_issued_but_not_started(or
     assert f"Not offered (Start work): {refused.value}." in _text(page)
 
 
+def test_the_lifting_figures_are_offered_only_where_something_is_lifted(order, users, client):  # noqa: F811
+    """A drive service lifts nothing: its page has no lifting-figures button. Adding the suspended-load hazard (a
+    motor lowered on a hoist) offers it."""
+    client.force_login(users["engineer"])
+    assert "Lifting figures</a>" not in client.get(order.get_absolute_url()).content.decode()
+    order.hazards = [*order.hazards, "suspended_load"]
+    order.save()
+    assert "Lifting figures</a>" in client.get(order.get_absolute_url()).content.decode()
+
+
 def test_the_engineer_enters_the_limit_on_the_lift_page_and_the_work_starts(orders, users, client):  # noqa: F811
     removal = orders["removal"]
     services.work_order_move(removal, "issue", users["engineer"])

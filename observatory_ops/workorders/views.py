@@ -179,6 +179,8 @@ def work_order_detail(request, pk):
             "moves_held": [(", ".join(labels), reason) for reason, labels in held_notes.items()],
             "can_finish": order.state == State.UNDERWAY and has_role(request.user, TECHNICIAN),
             "editable": editable,
+            # The lifting figures are offered where something is lifted: a suspended load, or figures already entered.
+            "offers_lift": editable and (figures is not None or bool(lift_error) or "suspended_load" in order.hazards),
             "part_form": PartAddForm(site=order.site),
             "withdraw_form": WithdrawForm(),
             "history": selectors.history(order, limit=8),
