@@ -479,7 +479,7 @@ def test_every_api_url_declares_token_access_and_refuses_a_request_without_one(c
                 yield prefix + str(entry.pattern), entry.callback
 
     api = [(route, view) for route, view in walk(get_resolver().url_patterns) if route.startswith("api/")]
-    assert len(api) == 2
+    assert len(api) == 3  # nights, due list, planned-work calendar (tests/test_calendar_subscription.py)
     assert [route for route, view in api if getattr(view, "required_role", None) != API_ACCESS] == []
     for route, _ in api:
         url = "/" + route.replace("<slug:slug>", site.slug)
@@ -596,8 +596,8 @@ def test_command_creates_a_token_that_works_lists_it_and_revokes_it(client, site
 
     listing, _ = run("list")
     assert f"{token.prefix}…" in listing and "active" in listing and secret not in listing
-    assert listing.splitlines()[0].split() == ["id", "site", "begins", "created", "last", "used", "(site", "time)",
-                                               "state", "name"]
+    assert listing.splitlines()[0].split() == ["id", "site", "purpose", "begins", "created", "last", "used", "(site",
+                                               "time)", "state", "name"]
     token.refresh_from_db()  # the night sent above used it; times at the site (Europe/Madrid), as its pages show them
     assert token.last_used_at is not None and f"{token.last_used_at.astimezone(site.zone):%Y-%m-%d %H:%M}" in listing
     header, row = listing.splitlines()[:2]
@@ -630,7 +630,7 @@ def admin_client(client, users):
 def test_admin_creates_a_token_and_shows_its_secret_once(admin_client, client, site, users):
     add_url = reverse("admin:api_apitoken_add")
     assert admin_client.get(add_url).status_code == 200
-    response = admin_client.post(add_url, {"site": site.pk, "name": "east dome"})
+    response = admin_client.post(add_url, {"site": site.pk, "name": "east dome", "purpose": "control"})
     assert response.status_code == 200
     token = ApiToken.objects.get()
     assert token.created_by == users["administrator"]

@@ -1,4 +1,5 @@
-"""API tokens in the admin, for administrators only: create (the secret is shown once), list, revoke.
+"""API tokens in the admin, for administrators only: create (the secret is shown once, and a calendar token's
+subscription link with it), list, revoke.
 
 Nothing here edits or deletes a token: a token that should stop working is revoked, and stays listed.
 """
@@ -12,13 +13,14 @@ from observatory_ops.access.roles import ADMINISTRATOR, has_role
 from . import services
 from .forms import ApiTokenCreateForm
 from .models import ApiToken
+from .selectors import calendar_link
 
 
 @admin.register(ApiToken)
 class ApiTokenAdmin(SimpleHistoryAdmin):
-    list_display = ("name", "site", "shown_prefix", "created_at", "created_by", "last_used_at", "revoked_at")
-    list_filter = ("site", ("revoked_at", admin.EmptyFieldListFilter))
-    fields = ("site", "name", "shown_prefix", "created_at", "created_by", "last_used_at", "revoked_at")
+    list_display = ("name", "site", "purpose", "shown_prefix", "created_at", "created_by", "last_used_at", "revoked_at")
+    list_filter = ("site", "purpose", ("revoked_at", admin.EmptyFieldListFilter))
+    fields = ("site", "name", "purpose", "shown_prefix", "created_at", "created_by", "last_used_at", "revoked_at")
     readonly_fields = fields
     actions = ["revoke"]
 
@@ -50,9 +52,12 @@ class ApiTokenAdmin(SimpleHistoryAdmin):
         context["title"] = "Create API token"
         if request.method == "POST" and form.is_valid():
             data = form.cleaned_data
-            token, secret = services.api_token_create(data["site"], data["name"], by=request.user)
+            token, secret = services.api_token_create(data["site"], data["name"], by=request.user,
+                                                      purpose=data["purpose"])
             self.log_addition(request, token, [{"added": {}}])
             context.update(title="API token created", token=token, secret=secret)
+            if token.purpose == ApiToken.Purpose.CALENDAR:
+                context["calendar_link"] = calendar_link(token, secret, request.build_absolute_uri("/"))
             return TemplateResponse(request, "api/token_created.html", context)
         return TemplateResponse(request, "api/token_create.html", context)
 

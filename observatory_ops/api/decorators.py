@@ -1,13 +1,16 @@
-"""``api_token_required(*methods)``: how an API view declares who may use it.
+"""``api_token_required(*methods, purpose=...)``: how an API view declares who may use it.
 
 Control software has no login and no session: it sends ``Authorization: Bearer <token>``, and the token
-is bound to one site. The decorated view takes the site's ``slug`` from the URL and receives the Site
-itself. Every refusal is JSON (see ``responses.error``), checked in this order:
+is bound to one site. A calendar application cannot send a header: a calendar token comes in the link's
+``token`` parameter, and is taken from nowhere else (nor a control token from there). The decorated view
+takes the site's ``slug`` from the URL and receives the Site itself. Every refusal is JSON (see
+``responses.error``), checked in this order:
 
 - no token, an unknown token or a revoked one: 401 (whatever the method, so a caller without a valid
   token learns nothing about the URL);
 - a valid token and a site that does not exist: 404;
 - a valid token of another site: 403;
+- a valid token of another purpose (a calendar token posting nights, say): 403;
 - a method not listed: 405.
 
 The views are exempt from CSRF checks (no cookie is ever read) and keep ``required_role = "api-token"``
@@ -44,16 +47,33 @@ def _mark_used(token: ApiToken) -> None:
         ApiToken.objects.filter(pk=token.pk).update(last_used_at=now)
 
 
-def api_token_required(*methods: str):
+#: Why a valid token of the site is refused where it is used, by the purpose of the token.
+WRONG_PURPOSE = {
+    ApiToken.Purpose.CALENDAR: "this is a calendar token: it reads the planned-work calendar only",
+    ApiToken.Purpose.CONTROL: "this is a control-software token: it is sent in the Authorization header, never in a "
+    "link; an administrator creates a calendar token for a calendar subscription (and revokes this one if the link "
+    "was shared)",
+}
+
+
+def _calendar_secret(request) -> str | None:
+    return request.GET.get("token", "").strip() or None
+
+
+def api_token_required(*methods: str, purpose: str = ApiToken.Purpose.CONTROL):
     if not methods:
         raise ValueError("name the HTTP methods the view answers, e.g. api_token_required('GET')")
+    calendar = purpose == ApiToken.Purpose.CALENDAR
 
     def decorate(view):
         @wraps(view)
         def guarded(request, slug, *args, **kwargs):
-            secret = _bearer_secret(request)
+            secret = _calendar_secret(request) if calendar else _bearer_secret(request)
             if secret is None:
-                return _unauthorised("send the site's API token as 'Authorization: Bearer <token>'", "")
+                return _unauthorised(
+                    "subscribe with the link given when the calendar token was created (it ends in ?token=...)"
+                    if calendar else "send the site's API token as 'Authorization: Bearer <token>'", ""
+                )
             token = token_for_secret(secret)
             if token is None:
                 return _unauthorised("the API token is not known", "invalid_token")
@@ -66,6 +86,8 @@ def api_token_required(*methods: str):
                 return error(404, f"no site with slug {slug!r}")
             if site.pk != token.site_id:
                 return error(403, f"this API token belongs to site {token.site.slug!r}, not {slug!r}")
+            if token.purpose != purpose:
+                return error(403, WRONG_PURPOSE[token.purpose])
             if request.method not in methods:
                 response = error(405, f"{request.method} is not allowed here; use {' or '.join(methods)}")
                 response["Allow"] = ", ".join(methods)

@@ -10,7 +10,10 @@ import logging
 from .responses import error
 
 PREFIX = "/api/"
-ENDPOINTS = "POST /api/v1/sites/<slug>/nights and GET /api/v1/sites/<slug>/due (no trailing slash)"
+ENDPOINTS = (
+    "POST /api/v1/sites/<slug>/nights, GET /api/v1/sites/<slug>/due and GET /api/v1/sites/<slug>/planned-work.ics "
+    "(no trailing slash)"
+)
 log = logging.getLogger(__name__)
 
 

@@ -1,8 +1,13 @@
-"""API tokens: one per piece of control software, each bound to one site.
+"""API tokens: one per piece of control software or calendar subscription, each bound to one site.
 
 The token itself is shown once, when it is created; only its SHA-256 hash is stored, with its first
 characters so an administrator can tell tokens apart. A token is revoked, never deleted, so the list
 keeps who created which token and when it stopped working.
+
+A token has one purpose. Control software's token sends nights and reads the due list, in the
+``Authorization`` header. A calendar subscription's token reads the site's planned-work calendar only, and
+travels in the link a calendar application fetches (it cannot send a header): a link that leaks gives
+away the planned dates, never a way to write.
 """
 from __future__ import annotations
 
@@ -14,9 +19,14 @@ from observatory_ops.registry.models import Site
 
 
 class ApiToken(models.Model):
+    class Purpose(models.TextChoices):
+        CONTROL = "control", "Control software: sends nights and reads the due list"
+        CALENDAR = "calendar", "Calendar subscription: reads the planned-work calendar only"
+
     history = HistoricalRecords()  # who changed what, when: see observatory_ops/archive
     site = models.ForeignKey(Site, on_delete=models.PROTECT, related_name="api_tokens")
     name = models.CharField(max_length=100, help_text="What uses it, e.g. the control computer of the east dome.")
+    purpose = models.CharField(max_length=10, choices=Purpose.choices, default=Purpose.CONTROL)
     prefix = models.CharField(max_length=8, editable=False, help_text="The token's first characters.")
     secret_sha256 = models.CharField(max_length=64, unique=True, editable=False)
     created_at = models.DateTimeField(auto_now_add=True)

@@ -18,14 +18,16 @@ def secret_digest(secret: str) -> str:
     return hashlib.sha256(secret.encode()).hexdigest()
 
 
-def api_token_create(site: Site, name: str, by=None) -> tuple[ApiToken, str]:
-    """Create a token for ``site``; returns it with its secret, which is stored nowhere and shown once."""
+def api_token_create(site: Site, name: str, by=None, purpose: str = ApiToken.Purpose.CONTROL) -> tuple[ApiToken, str]:
+    """Create a token for ``site`` and ``purpose``; returns it with its secret, which is stored nowhere and shown
+    once."""
     name = name.strip()
     if not name:
         raise ValueError("a token needs a name saying what uses it")
     secret = secrets.token_urlsafe(32)  # 256 random bits
     token = ApiToken.objects.create(
-        site=site, name=name, prefix=secret[:PREFIX_LENGTH], secret_sha256=secret_digest(secret), created_by=by
+        site=site, name=name, purpose=purpose, prefix=secret[:PREFIX_LENGTH], secret_sha256=secret_digest(secret),
+        created_by=by,
     )
     return token, secret
 

@@ -1,15 +1,18 @@
-"""The ingest API for control software: post nights, read the due list. Thin: services do the work."""
+"""The ingest API for control software (post nights, read the due list) and the planned-work calendar a calendar
+application subscribes to. Thin: services do the work."""
 from __future__ import annotations
 
 import json
 
-from django.http import JsonResponse
+from django.http import HttpResponse, JsonResponse
 
 from observatory_ops.logbook import services
+from observatory_ops.mirrors import calendar_export
 from observatory_ops.planning.selectors import due_record, due_rows
 from observatory_ops.planning.services import sites_bring_up_to_date
 
 from .decorators import api_token_required
+from .models import ApiToken
 from .responses import error, errors
 
 #: Largest request body accepted by the nights endpoint (about a thousand nights), in bytes.
@@ -59,3 +62,12 @@ def nights_post(request, site):
 def due_list(request, site):
     sites_bring_up_to_date([site])
     return JsonResponse([due_record(status) for status in due_rows().filter(site=site)], safe=False)
+
+
+@api_token_required("GET", purpose=ApiToken.Purpose.CALENDAR)
+def planned_work_calendar(request, site):
+    """The site's planned work, as the signed-in download has it, for a calendar application to fetch again and
+    again: events keep their UIDs, so a moved or withdrawn order moves or is marked off in the subscriber's
+    calendar (``calendar_export``)."""
+    body = calendar_export.site_calendar(site, request.build_absolute_uri("/"))
+    return HttpResponse(body, content_type="text/calendar; charset=utf-8")
