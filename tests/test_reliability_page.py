@@ -90,7 +90,8 @@ def test_fans_failures_hours_mtbf_and_fit_by_hand(record):
 def test_maintenance_hours_are_the_service_records_hours_by_the_type_of_order_that_wrote_them(record, users):
     """The hours of the service records in the last 12 months: a finished order's records carry its hours shared
     among its subsystems (workorders.services), so they are summed as they are, by the order's type; service
-    logged on a subsystem page has its own column; a corrected record counts as corrected, a withdrawn one not."""
+    logged with neither an order nor a plan has its own column; a corrected record counts as corrected, a withdrawn
+    one not."""
     fan_a, fan_b = (Subsystem.objects.get(name=n) for n in ("Fan A", "Fan B"))
     encoder = Subsystem.objects.get(name="Axis 1 encoder")
     preventive = WorkOrder.objects.get(order_type=WorkOrder.Type.PREVENTIVE)
@@ -117,6 +118,74 @@ def test_maintenance_hours_are_the_service_records_hours_by_the_type_of_order_th
     assert encoders.hours_by_type == {"preventive": 0.0, "corrective": 0.0, "condition": 0.0, "without_order": 2.0}
     assert report.hours_by_type == {"preventive": 4.0, "corrective": 2.5, "condition": 0.0, "without_order": 2.0}
     assert report.records_in_window == 5
+
+
+def test_service_logged_against_a_plan_without_an_order_counts_as_preventive(record, users):
+    """A reviewer's year-end table read "preventive 0.0 h" for a year of scheduled service logged on subsystem pages:
+    service against one of the subsystem's plans is planned work (EN 13306: preventive maintenance), whether or not
+    a work order was printed for it. Only service with neither an order nor a plan has its own column."""
+    encoder = Subsystem.objects.get(name="Axis 1 encoder")
+    by = users["engineer"]
+    ServiceRecord.objects.create(subsystem=encoder, plan=encoder.plans.first(), performed_on=dt.date(2026, 4, 5),
+                                 performed_by=by, created_by=by, hours_spent=1.5, summary="scheduled check")
+    ServiceRecord.objects.create(subsystem=encoder, performed_on=dt.date(2026, 4, 6), performed_by=by, created_by=by,
+                                 hours_spent=0.5, summary="looked at it")
+    encoders = next(k for k in site_reliability(record, TODAY).kinds if k.code == "encoder")
+    assert encoders.hours_by_type == {"preventive": 1.5, "corrective": 0.0, "condition": 0.0, "without_order": 0.5}
+
+
+def test_a_repair_entered_days_later_is_placed_where_it_was_done_and_listed_with_its_order(record, users, client):
+    """A repair done on 30 Mar and entered on 4 Apr: its failure is the night before the day the work was done (the
+    day the finish form gives, stored on the order's service records), not the night it was entered, so the hours up
+    to it and the intervals are those the subsystem ran. The page lists each failure counted with its order."""
+    fan_b = Subsystem.objects.get(name="Fan B")
+    order = _order(record, [fan_b], users["engineer"], dt.date(2026, 4, 4))
+    ServiceRecord.objects.create(subsystem=fan_b, performed_on=dt.date(2026, 3, 30), performed_by=users["engineer"],
+                                 created_by=users["engineer"], hours_spent=1.0, summary="fan replaced",
+                                 work_order=order)
+    fans = next(k for k in site_reliability(record, TODAY).kinds if k.code == "cooling_fans")
+    listed = [f for f in fans.failures_listed if f.order_id == order.pk]
+    assert [(f.subsystem, f.night) for f in listed] == [("T1: Fan B", dt.date(2026, 3, 29))]
+    # 5 open hours a night from 1 Jan (its counting-from date) through the night of 29 Mar: 88 nights.
+    assert listed[0].hours == 88 * 5.0
+
+    client.force_login(users["viewer"])
+    page = client.get(reverse("site-reliability", args=[record.slug])).content.decode()
+    assert (f'<a href="/workorders/{order.pk}/">{order.number}</a> T1: Fan B: night of 29 Mar 2026, at 440 operating '
+            "hours") in page
+
+
+def test_a_repair_logged_without_an_order_counts_as_a_failure_until_withdrawn(record, users, client):
+    """A reviewer could not record a fan repaired on the spot in October: the service form now asks whether the work
+    repaired a failure. Marked so, it counts as a failure (the night before its date) and its hours as corrective; a
+    correction keeps the mark; a withdrawn record counts nothing."""
+    from observatory_ops.logbook.services import service_record_correct
+
+    fan_b = Subsystem.objects.get(name="Fan B")
+
+    def fans():
+        return next(k for k in site_reliability(record, TODAY).kinds if k.code == "cooling_fans")
+
+    corrective_before = fans().hours_by_type["corrective"]
+    client.force_login(users["technician"])
+    client.post(f"/subsystems/{fan_b.pk}/service/new/", {
+        "plan": "", "performed_on": "2026-04-10", "hours_spent": "1.25", "summary": "Fan seized; replaced",
+        "findings": "", "repaired_failure": "on",
+    })
+    record_ = ServiceRecord.objects.get(subsystem=fan_b, repaired_failure=True)
+    listed = [f for f in fans().failures_listed if f.order_id is None]
+    assert [(f.subsystem, f.night, f.order_number) for f in listed] == [("T1: Fan B", dt.date(2026, 4, 9), "")]
+    assert fans().hours_by_type["corrective"] == corrective_before + 1.25
+    page = client.get(reverse("site-reliability", args=[record.slug])).content.decode()
+    assert "logged without an order: T1: Fan B: night of 09 Apr 2026" in page
+    assert "repair of a failure (no work order)" in client.get(fan_b.get_absolute_url()).content.decode()
+
+    corrected = service_record_correct(record_, users["engineer"], "Fan seized; replaced (bearing)",
+                                       performed_on=dt.date(2026, 4, 11))
+    assert corrected.repaired_failure
+    assert [f.night for f in fans().failures_listed if f.order_id is None] == [dt.date(2026, 4, 10)]
+    service_record_correct(corrected, users["engineer"], "logged in error", void=True)
+    assert [f for f in fans().failures_listed if f.order_id is None] == []
 
 
 def test_one_failure_gives_an_interval_but_no_fit(record):

@@ -20,6 +20,11 @@ class ServiceRecordForm(forms.Form):
     )
     summary = forms.CharField(max_length=200)
     findings = forms.CharField(widget=forms.Textarea, required=False, max_length=10000)
+    repaired_failure = forms.BooleanField(
+        required=False, label="This work repaired a failure",
+        help_text="A fault fixed without a work order, on the spot or entered afterwards: the reliability page counts "
+        "it as a failure on the night before this date, and its hours as corrective.",
+    )
 
     def __init__(self, *args, subsystem, **kwargs):
         super().__init__(*args, **kwargs)

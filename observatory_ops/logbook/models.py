@@ -114,6 +114,11 @@ class ServiceRecord(models.Model):
         help_text="The earlier record this one replaces.",
     )
     void = models.BooleanField(default=False, help_text="This correction withdraws the record it corrects.")
+    repaired_failure = models.BooleanField(
+        default=False, verbose_name="repaired a failure",
+        help_text="Logged without a corrective work order, this work repaired a failure: the reliability page counts "
+        "it as one, and its hours as corrective.",
+    )
     work_order = models.ForeignKey(
         "workorders.WorkOrder", null=True, blank=True, on_delete=models.PROTECT, related_name="service_records"
     )

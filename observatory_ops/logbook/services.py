@@ -493,16 +493,18 @@ def service_record_log(
     hours_spent: float | None = None,
     findings: str = "",
     performed_by=None,
+    repaired_failure: bool = False,
 ) -> ServiceRecord:
     """Append a service record; a record for a plan restarts that plan's counting from ``performed_on``.
-    ``hours_spent`` None: not known, so the record counts no maintenance hours."""
+    ``hours_spent`` None: not known, so the record counts no maintenance hours. ``repaired_failure``: the work repaired
+    a failure (the reliability page counts it as one)."""
     site = subsystem.telescope.site
     problem = service_date_problem(site, performed_on)
     if problem:
         raise ValidationError(problem)
     record = ServiceRecord(
         subsystem=subsystem, plan=plan, performed_on=performed_on, performed_by=performed_by or by,
-        hours_spent=hours_spent, summary=summary, findings=findings, created_by=by,
+        hours_spent=hours_spent, summary=summary, findings=findings, created_by=by, repaired_failure=repaired_failure,
     )
     record.full_clean()
     with transaction.atomic():
@@ -531,6 +533,7 @@ def service_record_correct(
             performed_on=performed_on or original.performed_on, performed_by=original.performed_by,
             hours_spent=original.hours_spent if hours_spent is None else hours_spent,
             summary=summary, findings=findings, corrects=original, void=void, created_by=by,
+            repaired_failure=original.repaired_failure,
         )
         correction.full_clean()
         correction.save()

@@ -81,7 +81,9 @@ def subsystem_detail(request, pk):
             and not hasattr(subsystem, "mirror"),
             "plans": plans,
             "expected_use": planning_selectors.expected_use_by_month(subsystem, plans),
-            "records": subsystem.service_records.select_related("plan", "performed_by", "corrects", "corrected_by"),
+            "records": subsystem.service_records.select_related(
+                "plan", "performed_by", "corrects", "corrected_by", "work_order"
+            ),
             "readings": subsystem.readings.select_related("taken_by")[:50],
             "children": subsystem.children.in_service(),
             "hazard_labels": [HAZARDS.get(h, h) for h in subsystem.hazards],

@@ -1,9 +1,11 @@
 """Reads for the reliability page: failures, operating hours, MTBF and Weibull fits per subsystem kind, and
 what maintenance cost in hours.
 
-A failure is a corrective work order that was finished (or countersigned): one failure for each subsystem it
-names, except the replaced unit's, those after the subsystem was retired and those with no counted operating hours
-leading up to them, which are left out with the reason (``left_out_reason``, the one place that rule is kept).
+A failure is a corrective work order that was finished (or countersigned), one for each subsystem it names, or
+service logged without an order and marked as the repair of a failure; all counted except the replaced unit's,
+those after the subsystem was retired and those with no counted operating hours leading up to them, which are left
+out with the reason (``left_out_reason``, the one place that rule is kept). A failure is placed on the night before
+the day its repair was done.
 Operating hours are the open hours of the subsystem's telescope's nightly log (``planning.services.UsageLog``: the
 site's rows, or the telescope's own where it sends them; a shared enclosure's, the whole site's), counted for
 each subsystem over the nights it was in service (from its "in service since" date where one is given, see
@@ -15,9 +17,10 @@ from __future__ import annotations
 import datetime as dt
 from collections import defaultdict
 from dataclasses import dataclass, field
+from typing import NamedTuple
 
 import numpy as np
-from django.db.models import Min
+from django.db.models import Min, OuterRef, Subquery
 
 from observatory_ops.calc import reliability
 from observatory_ops.calc.night_of import night_of
@@ -31,10 +34,12 @@ from observatory_ops.workorders.models import State, WorkOrder, WorkOrderItem
 DONE = (State.FINISHED, State.COUNTERSIGNED)
 #: The maintenance-hours window: the last 12 months, as 365 days back from the site's today.
 HOURS_WINDOW_DAYS = 365
-#: The maintenance-hours columns: each work-order type, then service logged without a work order.
+#: The maintenance-hours columns: each work-order type, then service logged with neither a work order nor a plan.
+#: Service logged against a plan without a work order is planned work: it counts as preventive (``PLANNED_COLUMN``).
 WITHOUT_ORDER = "without_order"
 HOURS_COLUMNS = (*WorkOrder.Type.values, WITHOUT_ORDER)
-HOURS_COLUMN_LABELS = (*WorkOrder.Type.labels, "logged without a work order")
+HOURS_COLUMN_LABELS = (*WorkOrder.Type.labels, "logged without a work order or plan")
+PLANNED_COLUMN = WorkOrder.Type.PREVENTIVE
 #: Where a subsystem's operating hours start, first found first: the "in service since" date an engineer gave it,
 #: else the "counting from" date given when it was registered (its plans' earliest), else the day it was entered
 #: in the register (the history's), else the first logged night. The page says which each subsystem's came from.
@@ -96,6 +101,17 @@ def left_out_reason(
     return None
 
 
+class Failure(NamedTuple):
+    """A failure counted: whose, on which night, the corrective order that repaired it, and the subsystem's counted
+    operating hours up to it (as the MTBF and the fit take it)."""
+
+    subsystem: str
+    night: dt.date
+    order_number: str  # "" for a repair logged without an order (``ServiceRecord.repaired_failure``)
+    order_id: int | None
+    hours: float = 0.0
+
+
 @dataclass
 class KindReliability:
     code: str
@@ -113,6 +129,12 @@ class KindReliability:
     zero_intervals: int = 0
     starts: list[Start] = field(default_factory=list)
     left_out: list[LeftOut] = field(default_factory=list)
+    counted_failures: list[Failure] = field(default_factory=list)
+
+    @property
+    def failures_listed(self) -> list[Failure]:
+        """The failures counted, by night: what the page lists under the count, each with its order."""
+        return sorted(self.counted_failures, key=lambda f: (f.night, f.order_number))
 
     @property
     def fit_inputs(self) -> str:
@@ -214,12 +236,26 @@ def site_reliability(site: Site, today: dt.date | None = None) -> SiteReliabilit
         """Open hours of the nights of log ``key`` logged before ``day``."""
         return float(cumulative[key][np.searchsorted(logs[key].nights, np.datetime64(day, "D"))])
 
-    failed_at: dict[int, list[dt.date]] = defaultdict(list)
-    for subsystem_id, finished_at in WorkOrderItem.objects.filter(
+    # A failure is placed on the night before the day its repair was done, as the finish form gave that day (the
+    # date of the order's service records): the last night the subsystem ran up to the repair. A repair entered days
+    # later counts where it happened. An order finished without service records falls back to its finish time's night.
+    done_on = ServiceRecord.objects.filter(work_order=OuterRef("work_order_id"), corrects__isnull=True).order_by("pk")
+    failed_at: dict[int, list[Failure]] = defaultdict(list)
+    for subsystem_id, order_id, finished_at, repaired_on in WorkOrderItem.objects.filter(
         work_order__site=site, work_order__order_type=WorkOrder.Type.CORRECTIVE, work_order__state__in=DONE,
         work_order__finished_at__isnull=False,
-    ).values_list("subsystem_id", "work_order__finished_at"):
-        failed_at[subsystem_id].append(night_of(finished_at, site.time_zone))
+    ).annotate(repaired_on=Subquery(done_on.values("performed_on")[:1])).values_list(
+        "subsystem_id", "work_order_id", "work_order__finished_at", "repaired_on"
+    ):
+        night = repaired_on - dt.timedelta(days=1) if repaired_on else night_of(finished_at, site.time_zone)
+        failed_at[subsystem_id].append(Failure("", night, WorkOrder(pk=order_id).number, order_id))
+    # A repair logged on the subsystem's page without an order (``ServiceRecord.repaired_failure``), as it stands now:
+    # a correction carries the mark, a withdrawn record counts no failure.
+    for subsystem_id, repaired_on in ServiceRecord.objects.filter(
+        subsystem__telescope__site=site, repaired_failure=True, work_order__isnull=True, corrected_by__isnull=True,
+        void=False,
+    ).values_list("subsystem_id", "performed_on"):
+        failed_at[subsystem_id].append(Failure("", repaired_on - dt.timedelta(days=1), "", None))
 
     kinds = {code: KindReliability(code, spec.label) for code, spec in KINDS.items()}
     kind_of = {}
@@ -236,15 +272,16 @@ def site_reliability(site: Site, today: dt.date | None = None) -> SiteReliabilit
         base = hours_before(key, start.day)
         total = max(hours_before(key, end) - base, 0.0)
         failed = []
-        for night in sorted(failed_at.get(pk, [])):
-            reason = left_out_reason(night, start, own_first, retired_on)
+        for failure in sorted(failed_at.get(pk, []), key=lambda f: (f.night, f.order_number)):
+            reason = left_out_reason(failure.night, start, own_first, retired_on)
             if reason:
-                row.left_out.append(LeftOut(start.subsystem, night, reason))
+                row.left_out.append(LeftOut(start.subsystem, failure.night, reason))
             else:
-                failed.append(night)
-        # A failure belongs to the nights up to and including the night its repair finished in; one on the night of
-        # the day the subsystem was retired (a night its hours no longer count) stays at the end of its hours.
-        at = [min(hours_before(key, n + dt.timedelta(days=1)) - base, total) for n in failed]
+                failed.append(failure._replace(subsystem=start.subsystem))
+        # A failure belongs to the nights up to and including its night; one on the night of the day the subsystem
+        # was retired (a night its hours no longer count) stays at the end of its hours.
+        at = [min(hours_before(key, f.night + dt.timedelta(days=1)) - base, total) for f in failed]
+        row.counted_failures += [f._replace(hours=hours) for f, hours in zip(failed, at, strict=True)]
         between, running = reliability.times_between_failures(at, total)
         row.operating_hours += total
         row.failures += len(at)
@@ -258,11 +295,11 @@ def site_reliability(site: Site, today: dt.date | None = None) -> SiteReliabilit
     since = today - dt.timedelta(days=HOURS_WINDOW_DAYS)
     site_hours = dict.fromkeys(HOURS_COLUMNS, 0.0)
     records = without_hours = 0
-    for subsystem_id, hours, order_type in ServiceRecord.objects.filter(
+    for subsystem_id, hours, order_type, plan_id, repair in ServiceRecord.objects.filter(
         subsystem__telescope__site=site, performed_on__gt=since, performed_on__lte=today,
         corrected_by__isnull=True, void=False,
-    ).values_list("subsystem_id", "hours_spent", "work_order__order_type"):
-        column = order_type or WITHOUT_ORDER
+    ).values_list("subsystem_id", "hours_spent", "work_order__order_type", "plan_id", "repaired_failure"):
+        column = order_type or (WorkOrder.Type.CORRECTIVE if repair else PLANNED_COLUMN if plan_id else WITHOUT_ORDER)
         records += 1
         if hours is None:
             without_hours += 1
