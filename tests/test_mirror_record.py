@@ -137,6 +137,24 @@ def test_a_coating_dated_beyond_the_service_record_window_is_refused_and_nothing
     assert not CoatingEvent.objects.exists() and not ServiceRecord.objects.exists()
 
 
+def test_a_measurement_dated_beyond_the_window_is_refused_on_the_page_and_in_the_admin(mirror, users, client,
+                                                                                       admin_client):
+    """A reviewer stored a measurement dated 1990 though cleanings, coatings and readings refuse more than 15 years
+    back: a measurement follows the same rule, on the mirror page and in the admin."""
+    from observatory_ops.mirrors.models import ReflectanceMeasurement
+
+    long_ago = _today(mirror) - dt.timedelta(days=16 * 366)
+    with pytest.raises(ValidationError, match="measurement date .* is more than 15 years ago"):
+        services.measurement_log(mirror, users["technician"], long_ago, 0.85)
+    before = ReflectanceMeasurement.objects.count()
+    response = admin_client.post("/admin/mirrors/reflectancemeasurement/add/", {
+        "mirror": mirror.pk, "measured_on": long_ago.isoformat(), "value": "0.85", "wavelength_nm": "",
+        "position": "", "taken_by": users["technician"].pk, "note": "",
+    })
+    assert response.status_code == 200 and "Measurement date" in response.content.decode()
+    assert ReflectanceMeasurement.objects.count() == before
+
+
 def test_a_coating_added_in_the_admin_restarts_the_recoat_plan(mirror, admin_client):
     coated_on = _today(mirror) - dt.timedelta(days=20)
     response = _admin_post(

@@ -79,3 +79,52 @@ def test_the_reliability_page_counts_no_hours_for_unknown_ones_and_says_how_many
     text = _text(client.get(f"/sites/{fans.telescope.site.slug}/reliability/"))
     assert ("3 service records in these 12 months; 2 of them give no hours (not known) and are not counted below."
             in text)
+
+
+def test_a_service_form_sent_twice_stores_one_record(fans, users, client):
+    """A reviewer pressed Save twice (as a slow connection invites): two identical records, whose hours counted twice
+    on the reliability page. The same person's form with the same values within ten minutes is taken as sent twice
+    (our own window): the second stores nothing and says so. The same work logged by someone else, or with other
+    values, is a record of its own."""
+    plan = fans.plans.first()
+    day = site_today(fans.telescope.site)
+    form = {"plan": plan.pk, "performed_on": day.isoformat(), "hours_spent": "1.5", "summary": "Filters changed",
+            "findings": ""}
+    client.force_login(users["technician"])
+    first = client.post(f"/subsystems/{fans.pk}/service/new/", form, follow=True)
+    assert f"Service work logged; the plan '{plan.name}' counts again from {day:%d %b %Y}." in _text(first)
+    again = client.post(f"/subsystems/{fans.pk}/service/new/", form, follow=True)
+    assert "This service work was already logged at " in _text(again)
+    assert "(the form was sent twice); nothing was added." in _text(again)
+    assert ServiceRecord.objects.filter(subsystem=fans).count() == 1
+
+    client.post(f"/subsystems/{fans.pk}/service/new/", {**form, "hours_spent": "2"})
+    client.force_login(users["engineer"])
+    client.post(f"/subsystems/{fans.pk}/service/new/", form)
+    assert ServiceRecord.objects.filter(subsystem=fans).count() == 3
+
+
+def test_ad_hoc_service_says_no_plan_restarts(fans, users, client):
+    client.force_login(users["technician"])
+    response = client.post(f"/subsystems/{fans.pk}/service/new/", {
+        "plan": "", "performed_on": site_today(fans.telescope.site).isoformat(), "hours_spent": "0.5",
+        "summary": "Looked at a rattle", "findings": "",
+    }, follow=True)
+    assert "Service work logged (ad hoc work: no plan's counting restarts)." in _text(response)
+
+
+def test_a_reading_form_sent_twice_stores_one_reading(telescope, users, client):
+    from observatory_ops.logbook.models import Reading
+
+    drive = subsystem_create(telescope, "axis1_drive", "Axis 1 drive",
+                             counting_from=site_today(telescope.site) - dt.timedelta(days=30))
+    yesterday = site_today(telescope.site) - dt.timedelta(days=1)
+    form = {"quantity": "settle_time_s", "value": "0.61", "taken_at": f"{yesterday.isoformat()}T22:30", "note": ""}
+    client.force_login(users["technician"])
+    client.post(f"/subsystems/{drive.pk}/readings/new/", form)
+    again = client.post(f"/subsystems/{drive.pk}/readings/new/", form, follow=True)
+    assert "This reading was already logged, with the same values (the form was sent twice); nothing was added." in \
+        _text(again)
+    assert Reading.objects.filter(subsystem=drive).count() == 1
+    client.post(f"/subsystems/{drive.pk}/readings/new/", {**form, "value": "0.62"})
+    assert Reading.objects.filter(subsystem=drive).count() == 2

@@ -43,7 +43,11 @@ def nights_post(request, site):
         return _too_large(None)
     try:
         payload = json.loads(body, object_pairs_hook=_refuse_duplicate_keys)
-    except (ValueError, RecursionError) as exc:  # JSONDecodeError and UnicodeDecodeError are ValueErrors
+    except RecursionError:
+        return error(400, "the body nests lists or objects too deeply: send a night as one object, or a list of them")
+    except ValueError as exc:  # JSONDecodeError and UnicodeDecodeError are ValueErrors
+        if "integer string conversion" in str(exc):  # Python's own limit on a whole number's digits
+            return error(400, "the body holds a whole number thousands of digits long: no figure of a night is")
         return error(400, f"the body is not valid JSON: {exc}")
     records = [payload] if isinstance(payload, dict) else payload
     if not isinstance(records, list):

@@ -481,10 +481,16 @@ def _header_problem(columns: dict[int, str], first_line: str) -> str | None:
     if missing:
         problems.append(f"missing column{pluralize(missing)}: {', '.join(missing)}")
     if unknown:
-        problems.append(f"unknown column{pluralize(unknown)}: {', '.join(unknown)} (known: {', '.join(COLUMNS)})")
+        named = ", ".join(unknown[:UNKNOWN_NAMED]) + (f" and {len(unknown) - UNKNOWN_NAMED:,} more"
+                                                      if len(unknown) > UNKNOWN_NAMED else "")
+        problems.append(f"unknown column{pluralize(unknown)}: {named} (known: {', '.join(COLUMNS)})")
     if duplicated:
         problems.append(f"repeated column{pluralize(duplicated)}: {', '.join(duplicated)}")
     return "; ".join(problems) or None
+
+
+#: How many unknown columns a refusal names before it counts the rest (a file of another kind may have hundreds).
+UNKNOWN_NAMED = 10
 
 
 def parse(text: str, latest_night: dt.date, telescopes: Sequence[str] = ()) -> ParsedNights:
@@ -499,7 +505,8 @@ def parse(text: str, latest_night: dt.date, telescopes: Sequence[str] = ()) -> P
     if not text.strip():
         result.refuse(None, f"it is empty; it must hold {WHAT_A_FILE_HOLDS}")
         return result
-    reader = csv.reader(io.StringIO(text))
+    # Universal newlines: a file saved with carriage returns alone (older spreadsheets on a Mac) reads as lines too.
+    reader = csv.reader(io.StringIO(text, newline=None))
     try:
         header = [h.strip().lower() for h in next(reader)]
     except csv.Error as exc:

@@ -8,7 +8,32 @@ from django.db.models import F, Max, Q
 from observatory_ops.planning.models import NightSky
 from observatory_ops.registry.models import Site
 
-from .models import NightUsage
+from .models import NightUsage, Reading, ServiceRecord
+
+#: A service form sent twice (a second press of the button, a browser sending the page again) by the same person with
+#: the same values within this time is taken as one: the second stores nothing. Our own choice: long enough for a
+#: slow connection's retry, short enough that the same work logged again later is a new record.
+RESENT_WITHIN = dt.timedelta(minutes=10)
+
+
+def service_already_logged(subsystem, by, plan, performed_on: dt.date, summary: str, hours_spent: float | None,
+                           findings: str, now: dt.datetime) -> ServiceRecord | None:
+    """The record this service form, sent again, would repeat: the same person's record of the same subsystem with the
+    same values, stored within ``RESENT_WITHIN`` and not corrected since; None when there is none."""
+    return ServiceRecord.objects.filter(
+        subsystem=subsystem, created_by=by, plan=plan, performed_on=performed_on, summary=summary,
+        hours_spent=hours_spent, findings=findings, work_order__isnull=True, corrects__isnull=True,
+        corrected_by__isnull=True, created_at__gte=now - RESENT_WITHIN,
+    ).first()
+
+
+def reading_already_logged(subsystem, by, quantity: str, value: float, taken_at: dt.datetime,
+                           note: str) -> Reading | None:
+    """The reading this form, sent again, would repeat: the same person's reading of the same quantity of the same
+    subsystem, with the same value, time and note (one reading, whenever it was stored); None when there is none."""
+    return Reading.objects.filter(
+        subsystem=subsystem, taken_by=by, quantity=quantity, value=value, taken_at=taken_at, note=note,
+    ).first()
 
 
 def last_nights(site: Site) -> list[NightUsage]:

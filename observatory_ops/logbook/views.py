@@ -16,11 +16,18 @@ from . import nights_csv, services
 from .forms import TELESCOPE_RULE, CorrectionForm, NightForm, NightsUploadForm, ReadingForm, ServiceRecordForm
 from .models import NightUsage, ServiceRecord
 from .quantities import usual_for_kind
+from .selectors import reading_already_logged, service_already_logged
 
 
 def _form_errors_from(form, exc: ValidationError) -> None:
     for message in exc.messages:
         form.add_error(None, message)
+
+
+def _already(when: dt.datetime | None, what: str) -> str:
+    """The answer to a form sent twice (``selectors.RESENT_WITHIN``): nothing stored the second time."""
+    at = f" at {when:%H:%M}" if when else ""
+    return f"{what} was already logged{at}, with the same values (the form was sent twice); nothing was added."
 
 
 @requires(TECHNICIAN)
@@ -33,15 +40,23 @@ def service_log(request, pk):
     form = ServiceRecordForm(request.POST or None, subsystem=subsystem, initial=initial)
     if request.method == "POST" and form.is_valid():
         data = form.cleaned_data
+        repeated = service_already_logged(subsystem, request.user, data["plan"], data["performed_on"], data["summary"],
+                                          data["hours_spent"], data["findings"], timezone.now())
+        if repeated:
+            messages.info(request, _already(repeated.created_at.astimezone(site.zone), "This service work"))
+            return redirect(subsystem)
         try:
             services.service_record_log(
                 subsystem, data["plan"], data["performed_on"], request.user, data["summary"],
-                hours_spent=data["hours_spent"], findings=data["findings"],
+                hours_spent=data["hours_spent"], findings=data["findings"], repaired_failure=data["repaired_failure"],
             )
         except ValidationError as exc:
             _form_errors_from(form, exc)
         else:
-            messages.success(request, "Service work logged; the plan's counting restarts from that date.")
+            messages.success(request, "Service work logged" + (
+                f"; the plan '{data['plan'].name}' counts again from {data['performed_on']:%d %b %Y}."
+                if data["plan"] else " (ad hoc work: no plan's counting restarts)."
+            ))
             return redirect(subsystem)
     return render(request, "logbook/service_form.html", {"form": form, "subsystem": subsystem, "site": site})
 
@@ -78,6 +93,10 @@ def reading_log(request, pk):
         form = ReadingForm(request.POST or None, watched=usual, kind_label=subsystem.get_kind_display())
         if request.method == "POST" and form.is_valid():
             data = form.cleaned_data
+            if reading_already_logged(subsystem, request.user, data["quantity"], data["value"], data["taken_at"],
+                                      data["note"]):
+                messages.info(request, _already(None, "This reading"))
+                return redirect(subsystem)
             try:
                 services.reading_log(
                     subsystem, data["quantity"], data["value"], data["taken_at"], request.user, data["note"]

@@ -1,10 +1,11 @@
 from collections.abc import Callable
 
+from django import forms
 from django.contrib import admin
 from django.forms.models import BaseInlineFormSet
 from simple_history.admin import SimpleHistoryAdmin
 
-from observatory_ops.logbook.services import service_date_problem
+from observatory_ops.logbook.services import date_problem, service_date_problem
 from observatory_ops.planning.admin import RecomputesSite
 
 from . import services
@@ -83,10 +84,26 @@ class MirrorAdmin(RecomputesSite, SimpleHistoryAdmin):
                 formset.restart(event, request.user)
 
 
+class MeasurementAdminForm(forms.ModelForm):
+    """A measurement's date follows the rule of every logged date, as on the mirror page (``services._check_date``)."""
+
+    class Meta:
+        model = ReflectanceMeasurement
+        fields = "__all__"
+
+    def clean(self):
+        data = super().clean()
+        mirror, day = data.get("mirror"), data.get("measured_on")
+        if mirror and day and (problem := date_problem(mirror.subsystem.telescope.site, day, "measurement date")):
+            self.add_error("measured_on", problem[0].upper() + problem[1:] + ".")
+        return data
+
+
 @admin.register(ReflectanceMeasurement)
 class ReflectanceMeasurementAdmin(RecomputesSite, SimpleHistoryAdmin):
     """Measurements are evidence: added, never changed or deleted."""
 
+    form = MeasurementAdminForm
     list_display = ("mirror", "measured_on", "value", "wavelength_nm", "position", "taken_by", "reading")
     readonly_fields = ("reading",)  # set only when a reading is filed here (mirrors.services.measurement_from_reading)
 

@@ -21,7 +21,7 @@ from django.utils import timezone
 from observatory_ops.calc import coating, forecast, reflectance, windows
 from observatory_ops.logbook.models import Reading, ServiceRecord
 from observatory_ops.logbook.quantities import reflectance_text
-from observatory_ops.logbook.services import service_record_log
+from observatory_ops.logbook.services import date_problem, service_record_log
 from observatory_ops.planning import metrics
 from observatory_ops.planning.models import BookedRun, NightSky, ServicePlan
 from observatory_ops.planning.services import (
@@ -984,15 +984,17 @@ def _coating_band_now(mirror: Mirror) -> float:
 # --- mirror events ------------------------------------------------------------------------------------
 
 
-def _check_date(mirror: Mirror, day: dt.date) -> None:
-    today = site_today(mirror.subsystem.telescope.site)
-    if day > today:
-        raise ValidationError(f"the date cannot be after today ({today})")
+def _check_date(mirror: Mirror, day: dt.date, what: str) -> None:
+    """A mirror's dates follow the rule of every logged date (``logbook.services.date_problem``): not after today at
+    the site, and no further back than a night may be."""
+    problem = date_problem(mirror.subsystem.telescope.site, day, what)
+    if problem:
+        raise ValidationError(problem)
 
 
 def measurement_log(mirror: Mirror, by, measured_on: dt.date, value: float, **fields) -> ReflectanceMeasurement:
     """Append a band reflectance measurement and refresh the site's due states (the recoat line moves)."""
-    _check_date(mirror, measured_on)
+    _check_date(mirror, measured_on, "measurement date")
     if not 0 <= value <= 1:
         raise ValidationError("a reflectance is a fraction between 0 and 1")
     with transaction.atomic():
@@ -1009,7 +1011,7 @@ def cleaning_log(
     """A cleaning: the decline fit counts its recovery, and the mirror's cleaning plans
     (``plans_a_cleaning_restarts``) restart their counting from it, as a coating restarts the recoat plans.
     ``work_order``: the order whose finishing records it, whose page and paper then show it."""
-    _check_date(mirror, cleaned_on)
+    _check_date(mirror, cleaned_on, "cleaning date")
     with transaction.atomic():
         cleaning = CleaningEvent.objects.create(
             mirror=mirror, cleaned_on=cleaned_on, method=method, note=note, work_order=work_order
@@ -1020,7 +1022,7 @@ def cleaning_log(
 
 def coating_log(mirror: Mirror, by, coated_on: dt.date, metal: str, layers: list[dict], note: str = "") -> CoatingEvent:
     """A new coating: the decline starts again from it, and the mirror's recoat plans restart their counting."""
-    _check_date(mirror, coated_on)
+    _check_date(mirror, coated_on, "coating date")
     with transaction.atomic():
         event = CoatingEvent.objects.create(mirror=mirror, coated_on=coated_on, metal=metal, layers=layers, note=note)
         coating_service_records_log(event, by)
