@@ -517,3 +517,48 @@ def test_an_interval_past_the_right_edge_is_solid_and_dashed_only_where_it_runs_
     assert len(lines) - len(dashed) == len(shown)  # one solid line a row
     for x_start, y, _, _ in dashed:  # each dashed stretch starts where its row's solid line ends
         assert any(solid[1] == y and solid[2] == x_start for solid in lines if not solid[3])
+
+
+def test_the_service_records_of_a_period_download_as_csv_with_how_each_counts(record, users, client):
+    """For the year-end review in a spreadsheet: each record of the period with its order, the column its hours count
+    in on this page (``logbook.models.maintenance_type``) and whether it still stands, so the table can be checked
+    row by row."""
+    import csv
+    import io
+
+    from observatory_ops.logbook.services import service_record_correct
+
+    fan_a, encoder = Subsystem.objects.get(name="Fan A"), Subsystem.objects.get(name="Axis 1 encoder")
+    by = users["engineer"]
+    corrective = WorkOrder.objects.filter(order_type=WorkOrder.Type.CORRECTIVE, state=State.COUNTERSIGNED).first()
+
+    def logged(subsystem, on, summary, **more):
+        return ServiceRecord.objects.create(subsystem=subsystem, performed_on=on, performed_by=by, created_by=by,
+                                            summary=summary, **more)
+
+    logged(fan_a, dt.date(2026, 3, 2), "=SUM(A1)", hours_spent=1.0, plan=fan_a.plans.first())
+    logged(fan_a, dt.date(2026, 3, 3), "fan replaced", hours_spent=2.0, work_order=corrective)
+    wrong = logged(encoder, dt.date(2026, 3, 4), "cleaned", hours_spent=9.0)
+    fixed = service_record_correct(wrong, by, "cleaned", hours_spent=0.5)
+    gone = logged(encoder, dt.date(2026, 3, 5), "typed on the wrong subsystem", repaired_failure=True)
+    withdrawal = service_record_correct(gone, by, "logged in error", void=True)
+    logged(encoder, dt.date(2026, 4, 1), "after the period")
+
+    client.force_login(users["viewer"])
+    response = client.get(f"/sites/{record.slug}/service-records.csv?from=2026-03-01&to=2026-03-31")
+    assert response["Content-Disposition"] == (
+        f'attachment; filename="{record.slug}-service-records-2026-03-01-to-2026-03-31.csv"')
+    rows = list(csv.DictReader(io.StringIO(response.content.decode())))
+    assert [(r["summary"], r["work_order"], r["maintenance_type"], r["hours_spent"], r["standing"]) for r in rows] == [
+        ("'=SUM(A1)", "", "preventive", "1.0", "current"),  # against a plan; a formula is neutralised
+        ("fan replaced", corrective.number, "corrective", "2.0", "current"),
+        ("cleaned", "", "without_order", "9.0", f"superseded by record {fixed.pk}"),
+        ("cleaned", "", "without_order", "0.5", "current"),
+        ("typed on the wrong subsystem", "", "corrective", "", "withdrawn"),
+        ("logged in error", "", "corrective", "", f"withdraws record {gone.pk}"),
+    ]
+    assert withdrawal.pk == int(rows[-1]["record_id"])
+    assert client.get(f"/sites/{record.slug}/service-records.csv?from=2026-03-32").status_code == 400
+    assert client.get(f"/sites/{record.slug}/service-records.csv?from=2026-04-02&to=2026-04-01").status_code == 400
+    default = client.get(f"/sites/{record.slug}/service-records.csv")  # the page's 12 months to the site's today
+    assert default.status_code == 200 and "after the period" in default.content.decode()

@@ -94,6 +94,17 @@ class Reading(models.Model):
         return f"{self.get_quantity_display()}: {self.value:g} {self.unit}"
 
 
+#: The kind of maintenance a service record counts as (the reliability page's hours, the records CSV): its work order's
+#: type (``WorkOrder.Type`` values), else a repair of a failure logged without an order (corrective), else service
+#: against one of the subsystem's plans (planned work: preventive), else work logged with neither.
+WITHOUT_ORDER_OR_PLAN = "without_order"
+
+
+def maintenance_type(order_type: str | None, plan_id: int | None, repaired_failure: bool) -> str:
+    """The kind of maintenance of a record whose order has ``order_type`` (None: no order); see above."""
+    return order_type or ("corrective" if repaired_failure else "preventive" if plan_id else WITHOUT_ORDER_OR_PLAN)
+
+
 class ServiceRecord(models.Model):
     history = HistoricalRecords()  # who changed what, when: see observatory_ops/archive
     subsystem = models.ForeignKey(Subsystem, on_delete=models.PROTECT, related_name="service_records")

@@ -8,7 +8,7 @@ from django.db.models import F, Max, Q
 from observatory_ops.planning.models import NightSky
 from observatory_ops.registry.models import Site
 
-from .models import NightUsage, Reading, ServiceRecord
+from .models import NightUsage, Reading, ServiceRecord, maintenance_type
 
 #: A service form sent twice (a second press of the button, a browser sending the page again) by the same person with
 #: the same values within this time is taken as one: the second stores nothing. Our own choice: long enough for a
@@ -84,3 +84,39 @@ def nights_longer_than_the_night(site: Site, nights: list[NightUsage]) -> list[s
             f"(sunset {sunset:%H:%M} to sunrise {sunrise:%H:%M})"
         )
     return found
+
+
+#: The service-records CSV (``service_records_csv_rows``): one row a record, withdrawn and superseded ones included and
+#: marked, so the year's trail is whole; only "current" records count on the reliability page.
+SERVICE_CSV_HEADER = (
+    "performed_on", "telescope", "subsystem", "plan", "work_order", "maintenance_type", "hours_spent", "performed_by",
+    "summary", "findings", "standing", "record_id",
+)
+
+
+def service_records_csv_rows(site: Site, first: dt.date, last: dt.date):
+    """The rows of the service-records CSV of ``site`` done from ``first`` to ``last`` (local dates, both included),
+    oldest first. ``maintenance_type`` is the column the record's hours count in on the reliability page."""
+    records = (
+        ServiceRecord.objects.filter(subsystem__telescope__site=site, performed_on__gte=first, performed_on__lte=last)
+        .select_related("subsystem__telescope", "plan", "work_order", "performed_by", "corrected_by")
+        .order_by("performed_on", "pk")
+    )
+    for r in records:
+        yield (
+            r.performed_on.isoformat(), r.subsystem.telescope.name, r.subsystem.name, r.plan.name if r.plan else "",
+            r.work_order.number if r.work_order else "",
+            maintenance_type(r.work_order.order_type if r.work_order else None, r.plan_id, r.repaired_failure),
+            "" if r.hours_spent is None else r.hours_spent,
+            r.performed_by.get_full_name() or r.performed_by.username, r.summary, r.findings, _standing(r), r.pk,
+        )
+
+
+def _standing(record: ServiceRecord) -> str:
+    """Whether a record counts: "current", or replaced (by a correction, or withdrawn), or itself a withdrawal."""
+    if record.void:
+        return f"withdraws record {record.corrects_id}"
+    correction = getattr(record, "corrected_by", None)  # a reverse one-to-one: absent when there is none
+    if correction is None:
+        return "current"
+    return "withdrawn" if correction.void else f"superseded by record {correction.pk}"

@@ -4,19 +4,27 @@ from django.contrib import messages
 from django.core.exceptions import ValidationError
 from django.core.paginator import Paginator
 from django.db.models import F
+from django.http import HttpResponseBadRequest
 from django.shortcuts import get_object_or_404, redirect, render
 from django.utils import timezone
 
 from observatory_ops.access.decorators import requires
 from observatory_ops.access.roles import TECHNICIAN, VIEWER
+from observatory_ops.exports import csv_response
 from observatory_ops.planning import selectors
 from observatory_ops.registry.models import Site, Subsystem
+from observatory_ops.reliability.selectors import HOURS_WINDOW_DAYS
 
 from . import nights_csv, services
 from .forms import TELESCOPE_RULE, CorrectionForm, NightForm, NightsUploadForm, ReadingForm, ServiceRecordForm
 from .models import NightUsage, ServiceRecord
 from .quantities import usual_for_kind
-from .selectors import reading_already_logged, service_already_logged
+from .selectors import (
+    SERVICE_CSV_HEADER,
+    reading_already_logged,
+    service_already_logged,
+    service_records_csv_rows,
+)
 
 
 def _form_errors_from(form, exc: ValidationError) -> None:
@@ -28,6 +36,24 @@ def _already(when: dt.datetime | None, what: str) -> str:
     """The answer to a form sent twice (``selectors.RESENT_WITHIN``): nothing stored the second time."""
     at = f" at {when:%H:%M}" if when else ""
     return f"{what} was already logged{at}, with the same values (the form was sent twice); nothing was added."
+
+
+@requires(VIEWER)
+def service_records_csv(request, slug):
+    """A site's service records from ``from`` to ``to`` (local dates, both included; default: the reliability page's
+    12 months) as CSV, for the year-end review in a spreadsheet."""
+    site = get_object_or_404(Site, slug=slug)
+    last = services.site_today(site)
+    first = last - dt.timedelta(days=HOURS_WINDOW_DAYS - 1)
+    try:
+        first = dt.date.fromisoformat(request.GET["from"]) if request.GET.get("from") else first
+        last = dt.date.fromisoformat(request.GET["to"]) if request.GET.get("to") else last
+    except ValueError as exc:
+        return HttpResponseBadRequest(f"from and to are dates as YYYY-MM-DD ({exc})", content_type="text/plain")
+    if first > last:
+        return HttpResponseBadRequest(f"from ({first}) is after to ({last})", content_type="text/plain")
+    return csv_response(f"{site.slug}-service-records-{first}-to-{last}.csv", SERVICE_CSV_HEADER,
+                        service_records_csv_rows(site, first, last))
 
 
 @requires(TECHNICIAN)

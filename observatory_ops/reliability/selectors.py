@@ -24,7 +24,7 @@ from django.db.models import Min, OuterRef, Subquery
 
 from observatory_ops.calc import reliability
 from observatory_ops.calc.night_of import night_of
-from observatory_ops.logbook.models import ServiceRecord
+from observatory_ops.logbook.models import WITHOUT_ORDER_OR_PLAN, ServiceRecord, maintenance_type
 from observatory_ops.planning.models import ServicePlan
 from observatory_ops.planning.services import UsageLog, site_today
 from observatory_ops.registry.catalogue import KINDS
@@ -34,12 +34,10 @@ from observatory_ops.workorders.models import State, WorkOrder, WorkOrderItem
 DONE = (State.FINISHED, State.COUNTERSIGNED)
 #: The maintenance-hours window: the last 12 months, as 365 days back from the site's today.
 HOURS_WINDOW_DAYS = 365
-#: The maintenance-hours columns: each work-order type, then service logged with neither a work order nor a plan.
-#: Service logged against a plan without a work order is planned work: it counts as preventive (``PLANNED_COLUMN``).
-WITHOUT_ORDER = "without_order"
-HOURS_COLUMNS = (*WorkOrder.Type.values, WITHOUT_ORDER)
+#: The maintenance-hours columns: each work-order type, then service logged with neither a work order nor a plan
+#: (which column a record counts in: ``logbook.models.maintenance_type``).
+HOURS_COLUMNS = (*WorkOrder.Type.values, WITHOUT_ORDER_OR_PLAN)
 HOURS_COLUMN_LABELS = (*WorkOrder.Type.labels, "logged without a work order or plan")
-PLANNED_COLUMN = WorkOrder.Type.PREVENTIVE
 #: Where a subsystem's operating hours start, first found first: the "in service since" date an engineer gave it,
 #: else the "counting from" date given when it was registered (its plans' earliest), else the day it was entered
 #: in the register (the history's), else the first logged night. The page says which each subsystem's came from.
@@ -299,7 +297,7 @@ def site_reliability(site: Site, today: dt.date | None = None) -> SiteReliabilit
         subsystem__telescope__site=site, performed_on__gt=since, performed_on__lte=today,
         corrected_by__isnull=True, void=False,
     ).values_list("subsystem_id", "hours_spent", "work_order__order_type", "plan_id", "repaired_failure"):
-        column = order_type or (WorkOrder.Type.CORRECTIVE if repair else PLANNED_COLUMN if plan_id else WITHOUT_ORDER)
+        column = maintenance_type(order_type, plan_id, repair)
         records += 1
         if hours is None:
             without_hours += 1
