@@ -181,3 +181,33 @@ def test_crew_weekdays_stored_outside_the_code_are_shown_as_stored(denver, named
     site = denver.telescope.site
     _changed_at(site, WINTER_UTC, named, crew_weekdays="19")
     assert changes(site)[0].fields == [("crew_weekdays", "Mon–Fri", "19")]
+
+
+def test_a_plans_history_holds_its_triggers_changes(telescope, users, client):
+    """A reviewer changed a plan's dust limit from 500 to 450 h on the plan's admin page (the triggers are edited
+    there) and found the change only on the trigger's own history page, which nothing links to. The plan's history
+    holds its triggers' changes, each naming its trigger, deleted triggers included; the CSV too."""
+    from observatory_ops.planning.models import Trigger
+    from observatory_ops.registry.services import subsystem_create
+
+    fans = subsystem_create(telescope, "cooling_fans", "Cell fans", counting_from=dt.date(2026, 1, 1))
+    plan = fans.plans.first()
+    trigger = Trigger.objects.create(plan=plan, metric="dust_hours", limit=500)
+    trigger.limit = 450
+    trigger.save()
+    extra = Trigger.objects.create(plan=plan, metric="calendar_days", limit=90)
+    extra.delete()
+
+    entries = changes(plan)
+    changed = next(c for c in entries if c.part and c.kind == "changed")
+    assert changed.part.startswith("trigger ") and changed.part.endswith(" 450")
+    assert changed.fields == [("limit", "500.0", "450.0")]
+    assert [c.kind for c in entries if c.part.startswith("trigger") and "90" in c.part] == ["deleted", "created"]
+    assert [c.when for c in entries] == sorted((c.when for c in entries), reverse=True)
+
+    client.force_login(users["viewer"])
+    page = client.get(f"/history/planning.serviceplan/record/{plan.pk}/").content.decode()
+    assert f"{changed.part}: changed" in page and "450.0" in page
+    exported = client.get(f"/history/planning.serviceplan/record/{plan.pk}/?export=csv").content.decode()
+    assert any(row["what"] == f"{changed.part}: changed" and row["field"] == "limit"
+               for row in csv.DictReader(io.StringIO(exported)))

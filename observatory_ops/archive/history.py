@@ -24,6 +24,10 @@ UTC = zoneinfo.ZoneInfo("UTC")
 SHOWN_TIME = "d M Y H:i"
 #: Links followed from a record to its site: trigger, plan, subsystem, telescope, site is the longest.
 SITE_LINKS = 5
+#: Records whose history is shown within their owner's (model label -> [(part's model label, its link to the owner,
+#: what a part is called)]): a plan's triggers are edited on the plan's admin page, and a changed limit is a change of
+#: the plan as its people think of it. Deleted parts stay in (their history names their owner).
+PARTS = {"planning.serviceplan": [("planning.trigger", "plan", "trigger")]}
 #: Fields stored in a code a person does not read, with how they are written out: the crew's ISO weekday digits
 #: ("12345") as the site's pages write them ("Mon–Fri").
 IN_WORDS = {(Site, "crew_weekdays"): crew_weekdays_text}
@@ -38,6 +42,7 @@ class Change:
     fields: list[tuple[str, str, str]] = field(default_factory=list)  # (field, before, after) as shown
     zone: zoneinfo.ZoneInfo = UTC  # the record's site's zone, or UTC for a record of no site
     fields_exported: list[tuple[str, str, str]] = field(default_factory=list)  # the same, times in ISO UTC
+    part: str = ""  # a part's change in its owner's history (``PARTS``): which part, e.g. "trigger Dust hours"
 
     @property
     def zone_name(self) -> str:
@@ -117,10 +122,23 @@ def _shown(model, name: str, value, zone: zoneinfo.ZoneInfo) -> tuple[str, str]:
 
 
 def changes(instance: models.Model, limit: int | None = None) -> list[Change]:
-    """The instance's history, newest first, each change with the fields it changed (before, after)."""
-    records = list(instance.history.select_related("history_user").order_by("-history_date", "-history_id"))
+    """The instance's history, newest first, each change with the fields it changed (before, after); with the
+    changes of its parts (``PARTS``), each saying which part it was."""
     zone = zone_of(instance)
-    model = type(instance)
+    out = _changes(instance.history.all(), type(instance), zone, limit)
+    for label, link, called in PARTS.get(instance._meta.label_lower, []):
+        part_model = apps.get_model(label)
+        histories = part_model.history.filter(**{f"{link}_id": instance.pk})
+        for pk in sorted(set(histories.values_list("id", flat=True))):
+            out += _changes(histories.filter(id=pk), part_model, zone, limit, part=called)
+    out.sort(key=lambda c: c.when, reverse=True)
+    return out[:limit] if limit else out
+
+
+def _changes(history, model, zone: zoneinfo.ZoneInfo, limit: int | None, part: str = "") -> list[Change]:
+    """The changes of one record's ``history`` (a queryset of its historical rows), newest first; ``part``: what the
+    record is called in its owner's history (its name is added from the row)."""
+    records = list(history.select_related("history_user").order_by("-history_date", "-history_id"))
     out = []
     for i, record in enumerate(records[: limit or len(records)]):
         previous = records[i + 1] if i + 1 < len(records) else None
@@ -140,6 +158,7 @@ def changes(instance: models.Model, limit: int | None = None) -> list[Change]:
                 fields=[(name, before[0], after[0]) for name, before, after in diffs],
                 zone=zone,
                 fields_exported=[(name, before[1], after[1]) for name, before, after in diffs],
+                part=f"{part} {record.instance}" if part else "",
             )
         )
     return out
