@@ -133,6 +133,12 @@ class ServiceRecord(models.Model):
     work_order = models.ForeignKey(
         "workorders.WorkOrder", null=True, blank=True, on_delete=models.PROTECT, related_name="service_records"
     )
+    limit_passed_on = models.DateField(
+        null=True, blank=True, editable=False,
+        help_text="For work on a plan that was overdue: the day its governing limit was passed, as its due state said "
+        "when the work was logged (``logbook.services.limit_passed_before``). How late the work came, kept after "
+        "the plan counts again.",
+    )
     created_at = models.DateTimeField(auto_now_add=True)
     created_by = models.ForeignKey(settings.AUTH_USER_MODEL, on_delete=models.PROTECT, related_name="+")
 
@@ -141,6 +147,11 @@ class ServiceRecord(models.Model):
 
     def __str__(self) -> str:
         return f"{self.performed_on} {self.summary}"
+
+    @property
+    def days_after_limit(self) -> int | None:
+        """How many days after its plan's limit was passed the work was done; None when it was not late."""
+        return (self.performed_on - self.limit_passed_on).days if self.limit_passed_on else None
 
     def clean(self) -> None:
         if self.void and not self.corrects_id:

@@ -89,8 +89,8 @@ def nights_longer_than_the_night(site: Site, nights: list[NightUsage]) -> list[s
 #: The service-records CSV (``service_records_csv_rows``): one row a record, withdrawn and superseded ones included and
 #: marked, so the year's trail is whole; only "current" records count on the reliability page.
 SERVICE_CSV_HEADER = (
-    "performed_on", "telescope", "subsystem", "plan", "work_order", "maintenance_type", "hours_spent", "performed_by",
-    "summary", "findings", "standing", "record_id",
+    "performed_on", "telescope", "subsystem", "plan", "limit_passed_on", "days_after_limit", "work_order",
+    "maintenance_type", "hours_spent", "performed_by", "summary", "findings", "standing", "record_id",
 )
 
 
@@ -105,6 +105,7 @@ def service_records_csv_rows(site: Site, first: dt.date, last: dt.date):
     for r in records:
         yield (
             r.performed_on.isoformat(), r.subsystem.telescope.name, r.subsystem.name, r.plan.name if r.plan else "",
+            r.limit_passed_on.isoformat() if r.limit_passed_on else "", r.days_after_limit or "",
             r.work_order.number if r.work_order else "",
             maintenance_type(r.work_order.order_type if r.work_order else None, r.plan_id, r.repaired_failure),
             "" if r.hours_spent is None else r.hours_spent,

@@ -18,7 +18,8 @@ from django.utils import timezone
 from simple_history.utils import bulk_create_with_history, bulk_update_with_history
 
 from observatory_ops.calc.night_of import night_of
-from observatory_ops.planning.models import ServicePlan
+from observatory_ops.calc.triggers import OVERDUE
+from observatory_ops.planning.models import PlanStatus, ServicePlan
 from observatory_ops.planning.selectors import nights_before_unknown_starts_note
 from observatory_ops.planning.services import site_recompute, site_today
 from observatory_ops.registry.models import Site, Subsystem, Telescope
@@ -484,6 +485,18 @@ def service_date_problem(site: Site, performed_on: dt.date) -> str | None:
     return date_problem(site, performed_on, "service date")
 
 
+def limit_passed_before(plan: ServicePlan | None, performed_on: dt.date) -> dt.date | None:
+    """The day ``plan``'s governing limit was passed, when that was before ``performed_on``: the work came late, and the
+    record keeps by how much. Read from the plan's stored due state before the record restarts it; None for work on
+    time, for ad hoc work, and for a plan whose last service is unknown (it is due from the start, not late)."""
+    if plan is None:
+        return None
+    status = PlanStatus.objects.filter(plan=plan, status=OVERDUE, last_service_unknown=False).first()
+    if status is None or status.forecast_date is None or status.forecast_date >= performed_on:
+        return None
+    return status.forecast_date
+
+
 def service_record_log(
     subsystem: Subsystem,
     plan: ServicePlan | None,
@@ -505,6 +518,7 @@ def service_record_log(
     record = ServiceRecord(
         subsystem=subsystem, plan=plan, performed_on=performed_on, performed_by=performed_by or by,
         hours_spent=hours_spent, summary=summary, findings=findings, created_by=by, repaired_failure=repaired_failure,
+        limit_passed_on=limit_passed_before(plan, performed_on),
     )
     record.full_clean()
     with transaction.atomic():
@@ -533,7 +547,7 @@ def service_record_correct(
             performed_on=performed_on or original.performed_on, performed_by=original.performed_by,
             hours_spent=original.hours_spent if hours_spent is None else hours_spent,
             summary=summary, findings=findings, corrects=original, void=void, created_by=by,
-            repaired_failure=original.repaired_failure,
+            repaired_failure=original.repaired_failure, limit_passed_on=original.limit_passed_on,
         )
         correction.full_clean()
         correction.save()

@@ -1,0 +1,66 @@
+"""How late planned work came is kept on its service record.
+
+A due state says how overdue a plan is only until the work is logged: then the plan counts again and the lateness
+is gone. A reviewer preparing the year-end review could not tell which plans had been overdue, or by how much. The
+record of work on an overdue plan keeps the day the plan's limit was passed (``ServiceRecord.limit_passed_on``),
+read from the stored due state before the record restarts it; the subsystem page and the records CSV say how many
+days late the work came. Worked by hand: a plan counting from 1 Jan 2025 with a 365-day calendar limit passes it on
+1 Jan 2026; work on 31 Jan 2026 comes 30 days after.
+"""
+from __future__ import annotations
+
+import datetime as dt
+
+import pytest
+
+from observatory_ops.logbook import services
+from observatory_ops.planning.models import PlanStatus, ServicePlan, Trigger
+from observatory_ops.planning.services import site_recompute, site_today
+from observatory_ops.registry.models import Subsystem
+
+pytestmark = pytest.mark.django_db
+
+
+@pytest.fixture
+def late_plan(telescope):
+    """A plan with one 365-day calendar limit, counting from 1 Jan 2025: its limit was passed on 1 Jan 2026."""
+    fans = Subsystem.objects.create(telescope=telescope, kind="cooling_fans", name="Cell fans")
+    plan = ServicePlan.objects.create(subsystem=fans, name="Replace fan filters", counting_from=dt.date(2025, 1, 1),
+                                      counting_from_given=True)
+    Trigger.objects.create(plan=plan, metric="calendar_days", limit=365)
+    site_recompute(telescope.site)
+    status = PlanStatus.objects.get(plan=plan)
+    assert (status.status, status.forecast_date) == ("overdue", dt.date(2026, 1, 1))
+    return plan
+
+
+def test_work_on_an_overdue_plan_keeps_how_late_it_came(late_plan, users, client):
+    record = services.service_record_log(late_plan.subsystem, late_plan, dt.date(2026, 1, 31), users["technician"],
+                                         "Filters replaced", hours_spent=0.5)
+    assert (record.limit_passed_on, record.days_after_limit) == (dt.date(2026, 1, 1), 30)
+    assert PlanStatus.objects.get(plan=late_plan).status != "overdue"  # the plan counts again from the work
+
+    client.force_login(users["viewer"])
+    page = client.get(late_plan.subsystem.get_absolute_url()).content.decode()
+    assert "30 days after its limit was passed (01 Jan 2026)" in page
+    csv_text = client.get(f"/sites/{late_plan.subsystem.telescope.site.slug}/service-records.csv"
+                          "?from=2026-01-01&to=2026-12-31").content.decode()
+    assert ",Replace fan filters,2026-01-01,30," in csv_text
+
+
+def test_work_done_before_the_limit_or_without_a_plan_is_not_late(late_plan, users):
+    """A service back-filled from before the limit was passed was on time; ad hoc work has no limit."""
+    early = services.service_record_log(late_plan.subsystem, late_plan, dt.date(2025, 12, 20), users["technician"],
+                                        "Filters replaced (from the paper log)")
+    assert early.limit_passed_on is None and early.days_after_limit is None
+    ad_hoc = services.service_record_log(late_plan.subsystem, None, site_today(late_plan.subsystem.telescope.site),
+                                         users["technician"], "Rattle looked at")
+    assert ad_hoc.limit_passed_on is None
+
+
+def test_a_correction_keeps_the_limit_and_counts_from_its_own_date(late_plan, users):
+    record = services.service_record_log(late_plan.subsystem, late_plan, dt.date(2026, 1, 31), users["technician"],
+                                         "Filters replaced")
+    corrected = services.service_record_correct(record, users["engineer"], "Filters replaced",
+                                                performed_on=dt.date(2026, 1, 21))
+    assert (corrected.limit_passed_on, corrected.days_after_limit) == (dt.date(2026, 1, 1), 20)
