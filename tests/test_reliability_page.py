@@ -562,3 +562,13 @@ def test_the_service_records_of_a_period_download_as_csv_with_how_each_counts(re
     assert client.get(f"/sites/{record.slug}/service-records.csv?from=2026-04-02&to=2026-04-01").status_code == 400
     default = client.get(f"/sites/{record.slug}/service-records.csv")  # the page's 12 months to the site's today
     assert default.status_code == 200 and "after the period" in default.content.decode()
+
+
+def test_the_hours_fitted_leave_out_a_running_interval_of_no_hours_as_the_fit_does():
+    """A reviewer read "still running (censored): 0, 495 h" beside "1 running interval": a subsystem repaired today has
+    run 0 h since, which the fit leaves out (calc.reliability.weibull_fit); the list says what was fitted."""
+    from observatory_ops.reliability.selectors import KindReliability
+
+    kind = KindReliability("cooling_fans", "Cooling fans", between=[100.0, 200.0, 300.0], running=[0.0, 495.0])
+    assert kind.fit_inputs == "between failures: 100, 200, 300 h; still running (censored): 495 h"
+    assert reliability.weibull_fit(kind.between, kind.running).censored == 1

@@ -139,7 +139,8 @@ class KindReliability:
         """The hours the Weibull fit was made from, as the page lists them so that anyone can fit them again, and
         the failures left out of it."""
         between = ", ".join(f"{t:,.0f}" for t in sorted(t for t in self.between if t > 0))
-        running = ", ".join(f"{t:,.0f}" for t in sorted(self.running))
+        # A subsystem repaired today has run 0 h since: that tells the fit nothing (calc.reliability.weibull_fit).
+        running = ", ".join(f"{t:,.0f}" for t in sorted(t for t in self.running if t > 0))
         text = f"between failures: {between or 'none'} h; still running (censored): {running or 'none'} h"
         return f"{text}; {self.left_out_text}" if self.left_out else text
 
