@@ -1,4 +1,4 @@
-"""What a trigger can count. Adding a trigger metric: add it here, then teach
+"""What a trigger can count. Adding a trigger metric: add it here (with its bound in ``MAX_LIMIT``), then teach
 ``observatory_ops.planning.services`` how to read it (``UsageLog.per_night`` for a quantity of the nightly
 log, ``_site_recompute`` for anything else)."""
 
@@ -25,6 +25,23 @@ METRICS: dict[str, tuple[str, str]] = {
     RECOAT_LINE: ("Mirror reflectance reaching its recoat line", ""),
 }
 METRIC_CHOICES = [(code, label) for code, (label, _unit) in METRICS.items()]
+
+#: The largest limit a trigger of each metric takes, with why (a reading trigger's limit is held to its quantity's
+#: own range instead, ``logbook.quantities.PLAUSIBLE_RANGE``). Plausibility bounds of our own (common practice, no
+#: published source): 100 years for the calendar and for hours, and for counts 100 years of busy nights; each is over
+#: 200 times the catalogue's longest default interval of its metric. A limit beyond one is a typing or unit slip,
+#: refused before the recompute meets it (a calendar limit of 1e308 days overflowed it; 5,000,000 days ran past 9999).
+MAX_LIMIT: dict[str, tuple[float, str]] = {
+    CALENDAR_DAYS: (36_500, "100 years"),
+    OPEN_HOURS: (876_000, "every hour of 100 years"),
+    DUST_HOURS: (876_000, "every hour of 100 years, as open hours"),
+    SLEWS: (10_000_000, "about 270 slews a night for 100 years"),
+    BRAKE_CYCLES: (10_000_000, "about 270 cycles a night for 100 years"),
+    AXIS1_TRAVEL: (100_000_000, "about 7 turns a night for 100 years"),
+    AXIS2_TRAVEL: (100_000_000, "about 7 turns a night for 100 years"),
+    # The mirror's own recoat line governs such a trigger (mirrors.services); its limit is kept as a fraction.
+    RECOAT_LINE: (1, "a reflectance is a fraction"),
+}
 
 #: Metrics summed from the nightly usage log, with the NightUsage field each one reads.
 USAGE_FIELDS = {

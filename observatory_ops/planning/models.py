@@ -1,6 +1,8 @@
 """Service plans, their triggers, the computed due state of each plan, and the per-site nights cache."""
 from __future__ import annotations
 
+import json
+import math
 import re
 
 from django.core.exceptions import ValidationError
@@ -9,10 +11,10 @@ from django.db import models
 from simple_history.models import HistoricalRecords
 
 from observatory_ops.calc.triggers import OVERDUE, STATUSES
-from observatory_ops.logbook.quantities import QUANTITY_CHOICES, reflectance_text, unit_of
-from observatory_ops.registry.models import Site, Subsystem
+from observatory_ops.logbook.quantities import QUANTITIES, QUANTITY_CHOICES, reflectance_text, unit_of, value_problem
+from observatory_ops.registry.models import Site, Subsystem, text_newlines_normalised
 
-from .metrics import METRIC_CHOICES, METRICS, READING, RECOAT_LINE
+from .metrics import MAX_LIMIT, METRIC_CHOICES, METRICS, READING, RECOAT_LINE
 
 
 class ServicePlan(models.Model):
@@ -70,10 +72,38 @@ class ServicePlan(models.Model):
         return self.name
 
     def clean(self) -> None:
+        text_newlines_normalised(self)
+        errors = {}
         try:
             part_lines(self.parts)
         except ValueError as exc:
-            raise ValidationError({"parts": str(exc)}) from exc
+            errors["parts"] = str(exc)
+        if self.readings is None:  # the admin's box left empty: no readings
+            self.readings = []
+        problem = readings_problem(self.readings)
+        if problem:
+            errors["readings"] = problem
+        problem = self._counting_from_problem()
+        if problem:
+            errors["counting_from"] = problem
+        if errors:
+            raise ValidationError(errors)
+
+    def _counting_from_problem(self) -> str | None:
+        """Why the counting date, new or changed, cannot be: the plan counts from it as from a last service, so it
+        takes the rule of service dates (``logbook.services.date_problem``: not after the site's today, at most
+        ``MAX_YEARS_BACK`` years back). A date stored earlier is left alone: it grows older by itself."""
+        from observatory_ops.logbook.services import date_problem  # the logbook's services import this module
+
+        if self.counting_from is None or not self.subsystem_id:  # the fields' own messages say so
+            return None
+        if self.pk and ServicePlan.objects.filter(pk=self.pk, counting_from=self.counting_from).exists():
+            return None
+        problem = date_problem(self.subsystem.telescope.site, self.counting_from, "counting date")
+        if problem is None:
+            return None
+        return (f"{problem[0].upper()}{problem[1:]}. The plan counts from this date as from a last service while it "
+                "has none, so it takes the rule of service dates.")
 
     @property
     def step_groups(self) -> tuple[list[str], list[str], list[str]]:
@@ -88,6 +118,56 @@ class ServicePlan(models.Model):
         """Every step in the order of the work."""
         powered, work, restore = self.step_groups
         return powered + work + restore
+
+
+#: What a plan's readings hold, as its refusals write it.
+READING_SHAPE = '{"quantity": code, "limit": "in words"}'
+
+
+def readings_problem(readings: object) -> str | None:
+    """Why a plan's readings cannot be what its work orders ask for (None when they can).
+
+    They are a JSON list of ``READING_SHAPE`` ("limit" may be left out): a work order made for the plan asks for a
+    reading of each quantity, in its unit (``workorders.services``, from ``logbook.quantities.QUANTITIES``), once per
+    quantity, with the limit as the text its form shows (``RequiredReading.limit_text``).
+    """
+    from observatory_ops.workorders.models import RequiredReading  # the work orders build on planning
+
+    longest = RequiredReading._meta.get_field("limit_text").max_length
+    if not isinstance(readings, list):
+        return (f"Readings must be a JSON list, [{READING_SHAPE}, ...] with a quantity's code in each, or [] for none; "
+                f"not {_shown(readings)}.")
+    seen: dict[str, int] = {}
+    for number, entry in enumerate(readings, start=1):
+        if not isinstance(entry, dict):
+            return f"Reading {number}, {_shown(entry)}, must be written {READING_SHAPE}."
+        other = sorted(set(entry) - {"quantity", "limit"})
+        if other:
+            return (f"Reading {number}, {_shown(entry)}, holds {', '.join(map(json.dumps, other))}: a reading holds "
+                    '"quantity" and "limit" only.')
+        quantity, limit = entry.get("quantity"), entry.get("limit", "")
+        if "quantity" not in entry:
+            return f'Reading {number}, {_shown(entry)}, has no "quantity": give the code of what to measure.'
+        if not isinstance(quantity, str) or quantity not in QUANTITIES:
+            return (f"Reading {number}: {_shown(quantity)} is not a reading quantity; the codes are "
+                    f"{', '.join(QUANTITIES)}.")
+        if not isinstance(limit, str):
+            return (f"Reading {number} ({quantity}): the limit is written in words, in quotes (\"at most 2 s\"), "
+                    f"or left out; not {_shown(limit)}.")
+        if len(limit) > longest:
+            return (f"Reading {number} ({quantity}): the limit is {len(limit)} characters long; a work order holds "
+                    f"{longest}.")
+        if quantity in seen:
+            return (f"Reading {number} ({quantity}) asks again for the quantity of reading {seen[quantity]}: a work "
+                    "order asks for each quantity once, so give it once.")
+        seen[quantity] = number
+    return None
+
+
+def _shown(value: object, longest: int = 60) -> str:
+    """A value as it was written in JSON, cut short when long."""
+    text = json.dumps(value, ensure_ascii=False)
+    return text if len(text) <= longest else f"{text[:longest - 3]}..."
 
 
 #: A counted line of a plan's parts: "2 x Brake pad set" (or "2x", "2 ×"); and any line that starts as one.
@@ -140,8 +220,28 @@ class Trigger(models.Model):
     def clean(self) -> None:
         if self.metric == READING and not self.quantity:
             raise ValidationError({"quantity": "A reading trigger needs the quantity it watches."})
-        if self.metric != READING and self.limit is not None and self.limit <= 0:  # None: the field says so
-            raise ValidationError({"limit": "A usage or calendar limit must be more than zero."})
+        # None, or not a number: the field's own message says so.
+        problem = self._limit_problem() if isinstance(self.limit, int | float) else None
+        if problem:
+            raise ValidationError({"limit": problem})
+
+    def _limit_problem(self) -> str | None:
+        """Why the limit cannot be: not finite; a reading's outside its quantity's plausible range; any other not
+        above zero, or beyond its metric's bound (``metrics.MAX_LIMIT``)."""
+        if not math.isfinite(self.limit):
+            return f"The limit must be a finite number, not {self.limit}."
+        if self.metric == READING:
+            problem = value_problem(self.quantity, self.limit) if self.quantity in QUANTITIES else None
+            return f"{problem[0].upper()}{problem[1:]}." if problem else None
+        if self.limit <= 0:
+            return "A usage or calendar limit must be more than zero."
+        if self.metric not in MAX_LIMIT or self.limit <= MAX_LIMIT[self.metric][0]:  # unknown: the field says so
+            return None
+        bound, why = MAX_LIMIT[self.metric]
+        label, unit = METRICS[self.metric]
+        unit = f" {unit}" if unit else ""
+        return (f"{label}: a limit of {self.limit:,.10g}{unit} is more than this tool takes, at most "
+                f"{bound:,.10g}{unit} ({why}). Check the figure and its unit.")
 
 
 def trigger_figures(metric, value, limit, unit, rate_per_day, forecast, earliest, latest, basis) -> dict:

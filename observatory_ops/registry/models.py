@@ -42,6 +42,16 @@ def validate_hazards(value) -> None:
         raise ValidationError(f"hazards must be a list drawn from: {', '.join(HAZARDS)}")
 
 
+def text_newlines_normalised(record: models.Model) -> None:
+    """End every line of the record's multi-line text fields with "\\n". A browser sends a text box's lines ended by
+    "\\r\\n" (the HTML standard's form encoding), so a text saved unchanged in the admin would otherwise differ from the
+    stored one and show in the change history as changed. Called first thing in each registered model's ``clean()``."""
+    for field in record._meta.concrete_fields:
+        value = getattr(record, field.attname) if isinstance(field, models.TextField) else None
+        if isinstance(value, str) and "\r" in value:
+            setattr(record, field.attname, value.replace("\r\n", "\n").replace("\r", "\n"))
+
+
 def latitude_text(degrees: float) -> str:
     """A latitude as pages write it: 39.6072 -> "39.607° N", -27.35 -> "27.350° S"."""
     return f"{abs(degrees):.3f}° {'N' if degrees >= 0 else 'S'}"
@@ -58,6 +68,14 @@ def longitude_text(degrees: float) -> str:
 #: (109° W typed as 109° E with America/Denver: over 9 h).
 MAX_ZONE_GAP_H = 3.5
 
+#: Plausibility bounds of our own (common practice, no published source) for a site's elevation, metres: the
+#: lowest land is the Dead Sea shore at about -430 m and the highest observatories stand at about 5,600 m (both
+#: from memory), so a figure outside is a slip of the keyboard or of the unit (feet).
+ELEVATION_RANGE_M = (-500, 6000)
+#: How far ahead (days) a forecast may count as due: one day to a year, our own bound (common practice, no
+#: published source). Beyond a year nearly every plan would be listed as due.
+LOOK_AHEAD_RANGE_DAYS = (1, 365)
+
 
 class Site(models.Model):
     history = HistoricalRecords()  # who changed what, when: see observatory_ops/archive
@@ -70,13 +88,30 @@ class Site(models.Model):
         validators=[MinValueValidator(-180), MaxValueValidator(180)],
         help_text="Degrees, east positive, west negative (the Americas are negative).",
     )
-    elevation_m = models.FloatField(default=0, help_text="Metres above sea level.")
+    elevation_m = models.FloatField(
+        default=0,
+        validators=[
+            MinValueValidator(ELEVATION_RANGE_M[0], f"An elevation below {ELEVATION_RANGE_M[0]:,} m is lower than any "
+                              "land: check the figure, in metres above sea level."),
+            MaxValueValidator(ELEVATION_RANGE_M[1], f"An elevation above {ELEVATION_RANGE_M[1]:,} m is higher than any "
+                              "observatory: check the figure and its unit (metres, not feet)."),
+        ],
+        help_text=f"Metres above sea level, {ELEVATION_RANGE_M[0]:,} to {ELEVATION_RANGE_M[1]:,} (a plausibility "
+        "bound of our own).",
+    )
     time_zone = models.CharField(
         max_length=64, validators=[validate_time_zone], help_text="IANA name, e.g. America/Denver or Europe/Madrid."
     )
     dust_climate = models.TextField(blank=True, help_text="When and from where dust arrives at this site.")
     look_ahead_days = models.PositiveIntegerField(
-        default=30, help_text="Items forecast within this many days count as due."
+        default=30,
+        validators=[
+            MinValueValidator(LOOK_AHEAD_RANGE_DAYS[0], f"Look ahead at least {LOOK_AHEAD_RANGE_DAYS[0]} day."),
+            MaxValueValidator(LOOK_AHEAD_RANGE_DAYS[1], f"Look ahead at most {LOOK_AHEAD_RANGE_DAYS[1]} days: beyond "
+                              "a year nearly every plan would count as due."),
+        ],
+        help_text=f"Items forecast within this many days count as due: {LOOK_AHEAD_RANGE_DAYS[0]} to "
+        f"{LOOK_AHEAD_RANGE_DAYS[1]} (a bound of our own).",
     )
     crew_weekdays = models.CharField(
         max_length=7, default="12345", validators=[validate_crew_weekdays],
@@ -110,6 +145,7 @@ class Site(models.Model):
         return zoneinfo.ZoneInfo(self.time_zone)
 
     def clean(self) -> None:
+        text_newlines_normalised(self)
         if self.longitude_deg is not None and self.time_zone:
             self._clean_longitude_against_zone()
 
@@ -206,11 +242,28 @@ class Telescope(models.Model):
         return f"{self.name} ({self.aperture_m:g} m)"
 
     def clean(self) -> None:
+        text_newlines_normalised(self)
+        if self.site_id and self.name:
+            self._clean_name_unlike_the_others()
         stored = Telescope.objects.filter(pk=self.pk).values_list("site_id", flat=True).first() if self.pk else None
         if stored is not None and stored != self.site_id and self.nights.exists():
             raise ValidationError({"site": (
                 "This telescope has logged nights of its own at its site; they stay in that site's log, so it cannot "
                 "move to another site. Register it at the new site as a new telescope."
+            )})
+
+    def _clean_name_unlike_the_others(self) -> None:
+        """Refuse a name another telescope of the site has but for capitals or surrounding spaces: the nights CSV
+        and the API find a telescope by its name ignoring those (``logbook.nights_csv``), so a night could go to
+        the wrong one. Checked here, not by the database, so the message can say why."""
+        written = self.name.strip().casefold()
+        others = Telescope.objects.filter(site=self.site_id).exclude(pk=self.pk).values_list("name", flat=True)
+        alike = next((name for name in others if name.strip().casefold() == written), None)
+        if alike is not None:
+            raise ValidationError({"name": (
+                f"Name {self.name.strip()!r} is another telescope's at this site, {alike!r}, but for capitals or "
+                "spaces: nights sent by the CSV or the API name their telescope ignoring those, so they could go to "
+                "the wrong one. Give this telescope a name of its own."
             )})
 
     @property
@@ -276,12 +329,29 @@ class Subsystem(models.Model):
         return is_shared_enclosure(self.telescope.site, self.kind)
 
     def clean(self) -> None:
+        text_newlines_normalised(self)
         if self.parent_id and self.parent.telescope_id != self.telescope_id:
             raise ValidationError({"parent": "The parent must belong to the same telescope."})
         if self.parent_id and self.pk and self.parent_id == self.pk:
             raise ValidationError({"parent": "A subsystem cannot be its own parent."})
         if self.in_service_since:
             self._clean_in_service_since()
+        if self.retired_on:
+            self._clean_retired_on()
+
+    def _clean_retired_on(self) -> None:
+        from observatory_ops.planning.services import site_today  # planning's models import this module
+
+        retired = self.retired_on
+        if retired < EARLIEST_IN_SERVICE:
+            raise ValidationError({"retired_on": f"Retired on {retired:%d %b %Y} looks mistyped: give a date from "
+                                                 f"{EARLIEST_IN_SERVICE:%Y} on."})
+        if self.telescope_id:
+            today = site_today(self.telescope.site)
+            if retired > today:
+                raise ValidationError({"retired_on": f"Retired on {retired:%d %b %Y} is in the future: the site's "
+                                                     f"today is {today:%d %b %Y}. Retire it on the day it leaves "
+                                                     "service, not before."})
 
     def _clean_in_service_since(self) -> None:
         from observatory_ops.planning.services import site_today  # planning's models import this module
