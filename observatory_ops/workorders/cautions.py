@@ -154,8 +154,8 @@ TELESCOPE_OUT_TODO = (
 #: Parts an order's plans name that are not reserved on it (workorders.selectors.parts_unregistered).
 PARTS_UNREGISTERED = (
     "its service plans name these parts, which are not reserved on this order (the site's parts register did not "
-    "hold them when it was made), so none is counted out of stock: bring them, or ask the site engineer to add "
-    "them to the order."
+    "hold them when it was made, or held two parts whose names differ only in capitals), so none is counted out of "
+    "stock: bring them, or ask the site engineer to add them to the order."
 )
 
 #: Where an order's hazards call for isolation but its steps lack the lockout step (it cannot be issued or started).

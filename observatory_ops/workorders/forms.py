@@ -8,14 +8,13 @@ from django.db.models import Q
 from observatory_ops.access.roles import TECHNICIAN, holders_of
 from observatory_ops.archive.history import person
 from observatory_ops.calc.lifting import DENSITY
-from observatory_ops.logbook.quantities import value_problem
 from observatory_ops.planning.services import site_today
 from observatory_ops.registry.forms import HazardsField
 from observatory_ops.registry.models import Subsystem
 
 from . import services
 from .cautions import ISOLATION_UNTICKED, ISOLATION_UNTICKED_FINDINGS
-from .models import Part, State, WorkOrder
+from .models import PART_QUANTITY_MAX, Part, State, WorkOrder, part_quantity_too_many
 from .selectors import order_plans
 
 
@@ -25,10 +24,10 @@ class _PersonChoiceField(forms.ModelChoiceField):
 
 
 def _plausible(quantity: str, label: str):
-    """A field validator: the reading's problem (``quantities.value_problem``), named by the field's label."""
+    """A field validator: the reading's problem (``services.reading_problem``), named by the field's label."""
 
     def check(value: float) -> None:
-        if problem := value_problem(quantity, value):
+        if problem := services.reading_problem(quantity, value):
             raise forms.ValidationError(f"{label}: {problem}.")
 
     return check
@@ -68,7 +67,7 @@ class WorkOrderEditForm(forms.ModelForm):
             )
         if planned is None or "planned_date" not in self.changed_data:  # a date stored earlier stays as it is
             return planned
-        return _planned_not_long_past(planned, site_today(self.instance.site))
+        return _planned_date_plausible(planned, site_today(self.instance.site))
 
     def clean_steps(self):
         """One step a line; where the hazards call for isolation the lockout step must stay, where the engineer
@@ -89,27 +88,53 @@ class WorkOrderEditForm(forms.ModelForm):
         return "\n".join(line.strip() for line in self.cleaned_data["tools"].splitlines() if line.strip())
 
 
-def _a_year_before(day: dt.date) -> dt.date:
+#: How far ahead an order may be planned: beyond it a planned date is a mistyped year (2999 for 2029), which would keep
+#: the order off every calendar and weekly batch. Our own bound (common practice, no published source): a recoat, the
+#: longest-planned work here, is planned a few years ahead at most.
+PLANNED_YEARS_AHEAD = 5
+
+
+def _years_on(day: dt.date, years: int) -> dt.date:
+    """``day`` moved by whole ``years`` (back when negative); 29 February goes to the 28th in a common year."""
     try:
-        return day.replace(year=day.year - 1)
+        return day.replace(year=day.year + years)
     except ValueError:  # 29 February
-        return day.replace(year=day.year - 1, day=28)
+        return day.replace(year=day.year + years, day=28)
 
 
-def _planned_not_long_past(planned: dt.date, today: dt.date) -> dt.date:
-    """The planned date as entered, refused when it is more than a year before the site's today (a mistyped year):
-    a date a little in the past is kept, for work already done from paper and entered afterwards."""
-    if planned < _a_year_before(today):
+def _planned_date_plausible(planned: dt.date, today: dt.date) -> dt.date:
+    """The planned date as entered, refused when it is more than a year before the site's today or more than
+    ``PLANNED_YEARS_AHEAD`` years after it (a mistyped year): a date a little in the past is kept, for work already
+    done from paper and entered afterwards."""
+    if planned < _years_on(today, -1):
         raise forms.ValidationError(
             f"Planned date: {planned:%d %b %Y} is more than a year before today at the site ({today:%d %b %Y}): "
             "enter the date the work is planned for."
+        )
+    if planned > _years_on(today, PLANNED_YEARS_AHEAD):
+        raise forms.ValidationError(
+            f"Planned date: {planned:%d %b %Y} is more than {PLANNED_YEARS_AHEAD} years after today at the site "
+            f"({today:%d %b %Y}): enter the date the work is planned for."
         )
     return planned
 
 
 class AdHocForm(forms.Form):
+    """A work order not from the due list: most often a fault, so corrective is the type it starts with (and is
+    listed first): the reliability page counts a finished corrective order as a failure, and no other type."""
+
     title = forms.CharField(max_length=200)
-    order_type = forms.ChoiceField(choices=WorkOrder.Type.choices, initial=WorkOrder.Type.CORRECTIVE)
+    order_type = forms.ChoiceField(
+        # Corrective first: a browser or script that ignores the initial value still sends the fault page's type.
+        choices=[(t.value, t.label) for t in (WorkOrder.Type.CORRECTIVE, WorkOrder.Type.PREVENTIVE,
+                                              WorkOrder.Type.CONDITION_BASED)],
+        initial=WorkOrder.Type.CORRECTIVE,
+        help_text="Corrective for a fault put right: the reliability page counts it as a failure once it is "
+        "finished. Preventive for planned work, condition-based for work a measured condition called for: neither "
+        "is counted as a failure.",
+        error_messages={"required": "Order type: choose one; corrective for a fault.",
+                        "invalid_choice": "Order type: choose one of those listed; corrective for a fault."},
+    )
     planned_date = forms.DateField(
         required=False, widget=forms.DateInput(attrs={"type": "date"}),
         help_text="The day the work is planned for (today unless changed), so the order can be issued straight "
@@ -145,7 +170,7 @@ class AdHocForm(forms.Form):
 
     def clean_planned_date(self):
         planned = self.cleaned_data["planned_date"]
-        return planned if planned is None else _planned_not_long_past(planned, self._today)
+        return planned if planned is None else _planned_date_plausible(planned, self._today)
 
 
 #: The choice on the finish form that says a mirror on the order was not cleaned in its work.
@@ -162,8 +187,10 @@ class FinishForm(forms.Form):
     past their limit."""
 
     # Empty, never the estimate: a tap on Finish must not record the estimate as the time the work took.
+    # Person-hours, as the reliability page's maintenance hours add them up (what the work cost in people's time),
+    # not the time the work took from start to end: two people for 3 hours is 6.
     actual_hours = forms.FloatField(
-        min_value=0, max_value=1000, label="Actual hours",
+        min_value=0, max_value=1000, label="Actual hours (person-hours)",
         error_messages={
             "required": "Actual hours: enter the hours the work took.",
             "invalid": "Actual hours: enter a number of hours, such as 2.5.",
@@ -191,7 +218,11 @@ class FinishForm(forms.Form):
         super().__init__(*args, **kwargs)
         self._order = order
         self._today = site_today(order.site)
-        self.fields["actual_hours"].help_text = f"The estimate was {order.estimated_hours:g} h."
+        self.fields["actual_hours"].help_text = (
+            "Everyone's hours on this work added up, yours and the crew's: two people working 3 hours is 6 "
+            "person-hours. They are the maintenance hours the reliability page counts. "
+            f"The estimate was {order.estimated_hours:g} h."
+        )
         self.fields["work_done_on"].initial = self._today
         self._required = {r.pk: r for r in order.required_readings.select_related("subsystem")}
         for r in self._required.values():
@@ -206,9 +237,10 @@ class FinishForm(forms.Form):
         for use in order.part_uses.select_related("part"):
             label = f"{use.part.name} used ({use.part.unit})"
             self.fields[f"part_{use.pk}"] = forms.FloatField(
-                label=label, min_value=0, initial=use.quantity_planned,
+                label=label, min_value=0, max_value=PART_QUANTITY_MAX, initial=use.quantity_planned,
                 error_messages={"required": f"{label}: enter how many were used (0 if none).",
-                                "invalid": f"{label}: enter a number.", "min_value": f"{label}: enter 0 or more."},
+                                "invalid": f"{label}: enter a number.", "min_value": f"{label}: enter 0 or more.",
+                                "max_value": f"{part_quantity_too_many(label)}."},
             )
         from observatory_ops.mirrors.models import CleaningEvent, Mirror  # mirrors builds on work orders
 
@@ -293,18 +325,36 @@ class FinishForm(forms.Form):
 
 
 class PartAddForm(forms.Form):
-    part = forms.ModelChoiceField(queryset=Part.objects.none())
-    quantity = forms.FloatField(min_value=0.001, initial=1)
+    """A part of the site's register reserved on an order: each refusal names the field and what is wrong with it."""
+
+    part = forms.ModelChoiceField(
+        queryset=Part.objects.none(),
+        error_messages={"required": "Part: choose one from the list.",
+                        "invalid_choice": "Part: that is not a part of this site's register; choose one from the "
+                                          "list."},
+    )
+    quantity = forms.FloatField(
+        initial=1, max_value=PART_QUANTITY_MAX,
+        error_messages={"required": "Quantity: enter how many are needed, such as 2.",
+                        "invalid": "Quantity: enter a number, such as 2.",
+                        "max_value": f"{part_quantity_too_many('Quantity')}."},
+    )
 
     def __init__(self, *args, site, **kwargs):
         super().__init__(*args, **kwargs)
         self.fields["part"].queryset = Part.objects.filter(site=site)
 
+    def clean_quantity(self) -> float:
+        quantity = self.cleaned_data["quantity"]
+        if quantity <= 0:
+            raise forms.ValidationError(f"Quantity: {quantity:g} is not above zero; enter how many are needed.")
+        return quantity
+
 
 class PartCountForm(forms.Form):
     """The stock of a part as counted on the shelf, after finished work used more than the register held."""
 
-    counted = forms.FloatField(min_value=0)
+    counted = forms.FloatField(min_value=0, max_value=PART_QUANTITY_MAX)
 
     def __init__(self, *args, part: Part, **kwargs):
         super().__init__(*args, **kwargs)
@@ -314,23 +364,71 @@ class PartCountForm(forms.Form):
             "required": f"{label}: enter the number on the shelf (0 if none).",
             "invalid": f"{label}: enter a number, such as 4.",
             "min_value": f"{label}: enter 0 or more.",
+            "max_value": f"{part_quantity_too_many(label)}.",
         })
 
 
+def _within(label: str, low: float, high: float, why: str, *, above_low: bool = False, below_high: bool = False):
+    """A field validator: the value at least ``low`` (above it, with ``above_low``) and at most ``high`` (below it,
+    with ``below_high``), refused naming the field, the bounds and ``why`` they are what they are. calc.lifting takes
+    a figure of any size, and answers a diameter of 1e308 with an infinite load; this says what was mistyped."""
+    lower = f"above {low:,g}" if above_low else f"at least {low:,g}"
+    upper = f"below {high:,g}" if below_high else f"at most {high:,g}"
+
+    def check(value: float) -> None:
+        if value < low or value > high or (above_low and value == low) or (below_high and value == high):
+            raise forms.ValidationError(f"{label}: {value:,g} is out of bounds: enter a value {lower} and {upper} "
+                                        f"({why}).")
+
+    return check
+
+
+def _lift_number(label: str, low: float, high: float, why: str, *, above_low: bool = False,
+                 below_high: bool = False, **options) -> forms.FloatField:
+    return forms.FloatField(
+        label=label, validators=[_within(label, low, high, why, above_low=above_low, below_high=below_high)],
+        error_messages={"required": f"{label}: enter a value.", "invalid": f"{label}: enter a number."}, **options,
+    )
+
+
+#: The lift form's bounds, beyond which a figure is a slip of the keyboard: our own (common practice, no published
+#: source), set above the largest of each thing; the sizes of the largest mirror blanks are from memory.
+_LARGEST_MIRROR = "no single telescope mirror is that large: the largest are about 8,400 mm across"
+_HEAVIEST_LOAD = "more than 100 t is no mirror lift"
+#: The most sling legs the form takes: at most two are counted as bearing the load, however many are rigged.
+LIFT_LEGS_MAX = 8
+
+
 class LiftForm(forms.Form):
-    diameter_mm = forms.FloatField(label="Mirror diameter (mm)")
-    thickness_mm = forms.FloatField(label="Edge thickness (mm)")
-    hole_mm = forms.FloatField(label="Central hole (mm)", initial=0)
+    diameter_mm = _lift_number("Mirror diameter (mm)", 0, 10_000, _LARGEST_MIRROR, above_low=True)
+    thickness_mm = _lift_number(
+        "Edge thickness (mm)", 0, 2_000, "the thickest mirror blanks are under 1,000 mm", above_low=True
+    )
+    hole_mm = _lift_number("Central hole (mm)", 0, 10_000, _LARGEST_MIRROR, initial=0)
     material = forms.ChoiceField(choices=[(k, k.replace("_", " ")) for k in DENSITY])
-    lightweighting_fraction = forms.FloatField(initial=0, help_text="Fraction of the solid blank removed, 0 to <1.")
-    fixture_kg = forms.FloatField(
-        label="Cell / fixture mass (kg)", required=False,
+    lightweighting_fraction = _lift_number(
+        "Lightweighting fraction", 0, 1, "the fraction of the solid blank removed", below_high=True, initial=0,
+        help_text="Fraction of the solid blank removed, 0 to <1.",
+    )
+    fixture_kg = _lift_number(
+        "Cell / fixture mass (kg)", 0, 100_000, _HEAVIEST_LOAD, required=False,
         help_text="Empty: not entered (a mirror's record gives it once entered there); the figures are then the mirror "
         "alone and the work is not started. 0: nothing is lifted with the mirror.",
     )
-    legs = forms.IntegerField(label="Sling legs rigged", initial=2)
-    angle_deg = forms.FloatField(label="Leg angle from horizontal (deg)", initial=60)
-    wll_kg = forms.FloatField(label="Working load limit per leg (kg)", required=False)
+    legs = forms.IntegerField(
+        label="Sling legs rigged", initial=2, min_value=1, max_value=LIFT_LEGS_MAX,
+        error_messages={"required": "Sling legs rigged: enter how many, such as 2.",
+                        "invalid": "Sling legs rigged: enter a whole number, such as 2.",
+                        "min_value": "Sling legs rigged: enter at least 1.",
+                        "max_value": f"Sling legs rigged: enter at most {LIFT_LEGS_MAX}; however many are rigged, at "
+                                     "most 2 are counted as bearing the load."},
+    )
+    angle_deg = _lift_number(
+        "Leg angle from horizontal (deg)", 0, 90, "90 is a vertical leg", above_low=True, initial=60
+    )
+    wll_kg = _lift_number(
+        "Working load limit per leg (kg)", 0, 100_000, _HEAVIEST_LOAD, above_low=True, required=False
+    )
 
 
 class WithdrawForm(forms.Form):

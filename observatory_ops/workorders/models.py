@@ -76,7 +76,12 @@ class WorkOrder(models.Model):
     lift_inputs = models.JSONField(
         null=True, blank=True, help_text="Mirror and rigging figures for the lifting numbers (see calc.lifting)."
     )
-    actual_hours = models.FloatField(null=True, blank=True, validators=[MinValueValidator(0)])
+    actual_hours = models.FloatField(
+        null=True, blank=True, validators=[MinValueValidator(0)],
+        help_text="Person-hours, as the finish form asks: everyone's hours on the work added up (two people for 3 "
+        "hours is 6), not the time from start to end. Shared among its subsystems' service records, they are the "
+        "reliability page's maintenance hours.",
+    )
     findings = models.TextField(blank=True)
     created_at = models.DateTimeField(auto_now_add=True)
     created_by = models.ForeignKey(settings.AUTH_USER_MODEL, on_delete=models.PROTECT, related_name="+")
@@ -286,15 +291,39 @@ class RequiredReading(models.Model):
 _LIMIT = re.compile(r"at (?P<side>most|least) (?P<limit>[-+]?(?:\d+\.?\d*|\.\d+)(?:[eE][-+]?\d+)?)")
 
 
+#: The most of one part that a stock figure, a count or an order's part line takes: a site's spares run to tens or
+#: hundreds of a kind, so a figure beyond it is a slip of the keyboard (1e9 typed for 1), which would leave a shortfall
+#: of hundreds of millions to count. Our own bound (common practice, no published source).
+PART_QUANTITY_MAX = 10_000
+
+
+def part_quantity_too_many(label: str) -> str:
+    """What is said of a quantity of a part above ``PART_QUANTITY_MAX``, named by ``label`` ("Filter used (each)"),
+    without a closing full stop: the models' validators, the forms and the services' refusals all say it so."""
+    return f"{label}: more than {PART_QUANTITY_MAX:,} of one part is not accepted; check the figure"
+
+
+def _at_most_part_quantity(label: str) -> MaxValueValidator:
+    return MaxValueValidator(PART_QUANTITY_MAX, message=f"{part_quantity_too_many(label)}.")
+
+
 class Part(models.Model):
     """A spare part kept in stock at a site."""
 
     history = HistoricalRecords()  # who changed what, when: see observatory_ops/archive
     site = models.ForeignKey(Site, on_delete=models.PROTECT, related_name="parts")
-    name = models.CharField(max_length=120)
+    name = models.CharField(
+        max_length=120,
+        help_text="As the service plans' parts lines name it (\"2 x Brake pad set\"): a drafted order reserves the "
+        "part whose name a line gives. Unique at the site, capitals and surrounding spaces aside.",
+    )
     part_number = models.CharField(max_length=60, blank=True)
-    quantity_on_hand = models.FloatField(default=0, validators=[MinValueValidator(0)])
-    reorder_point = models.FloatField(default=0, validators=[MinValueValidator(0)])
+    quantity_on_hand = models.FloatField(
+        default=0, validators=[MinValueValidator(0), _at_most_part_quantity("Quantity on hand")]
+    )
+    reorder_point = models.FloatField(
+        default=0, validators=[MinValueValidator(0), _at_most_part_quantity("Reorder point")]
+    )
     unit = models.CharField(max_length=16, default="each")
     location = models.CharField(max_length=80, blank=True)
 
@@ -305,9 +334,29 @@ class Part(models.Model):
     def __str__(self) -> str:
         return f"{self.name} ({self.part_number})" if self.part_number else self.name
 
+    def clean(self) -> None:
+        """A name another part of the site already has, capitals and surrounding spaces aside, is refused: a plan's
+        parts line would name both, and a drafted order would reserve one of them by chance
+        (``selectors.register_part``)."""
+        if not self.site_id or not self.name:
+            return
+        wanted = part_name_key(self.name)
+        others = Part.objects.filter(site_id=self.site_id).exclude(pk=self.pk).values_list("name", flat=True)
+        if twin := next((name for name in others if part_name_key(name) == wanted), None):
+            raise ValidationError({"name": (
+                f"Name: \"{self.name.strip()}\" is the name of another part at this site, \"{twin.strip()}\", "
+                "but for capitals or spaces, and a service plan's parts line could not tell the two apart. Use that "
+                "part, or give this one a name of its own."
+            )})
+
     @property
     def low(self) -> bool:
         return self.quantity_on_hand <= self.reorder_point
+
+
+def part_name_key(name: str) -> str:
+    """A part's name as the register compares names: capitals and surrounding spaces aside."""
+    return name.strip().casefold()
 
 
 class PartUse(models.Model):
@@ -316,8 +365,12 @@ class PartUse(models.Model):
     history = HistoricalRecords()  # who changed what, when: see observatory_ops/archive
     work_order = models.ForeignKey(WorkOrder, on_delete=models.CASCADE, related_name="part_uses")
     part = models.ForeignKey(Part, on_delete=models.PROTECT, related_name="uses")
-    quantity_planned = models.FloatField(default=1, validators=[MinValueValidator(0)])
-    quantity_used = models.FloatField(null=True, blank=True, validators=[MinValueValidator(0)])
+    quantity_planned = models.FloatField(
+        default=1, validators=[MinValueValidator(0), _at_most_part_quantity("Quantity planned")]
+    )
+    quantity_used = models.FloatField(
+        null=True, blank=True, validators=[MinValueValidator(0), _at_most_part_quantity("Quantity used")]
+    )
     quantity_short = models.FloatField(
         default=0, validators=[MinValueValidator(0)],
         help_text="How many of those used the parts register did not hold when the work was finished: the register "

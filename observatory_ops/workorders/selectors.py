@@ -52,7 +52,7 @@ from .cautions import (
     is_lockout_step,
     needs_isolation,
 )
-from .models import ChecklistTick, IsolationPoint, Part, PartUse, State, WorkOrder, WorkOrderItem
+from .models import ChecklistTick, IsolationPoint, Part, PartUse, State, WorkOrder, WorkOrderItem, part_name_key
 
 
 def work_orders() -> QuerySet[WorkOrder]:
@@ -232,17 +232,32 @@ def hazards_notice(order: WorkOrder, missing: Sequence[str], paper: bool = False
     return HAZARDS_MISSING_TITLE, hazards_missing_notice(missing, lockout), todo
 
 
+def register_part(name: str, register: Sequence[Part]) -> Part | None:
+    """The part of a site's ``register`` that a plan's parts line names (``part_lines``): the one whose name is the
+    line's exactly (surrounding spaces aside), else the only one whose name is the line's but for capitals. None when
+    no part is, or when several are but for capitals and none exactly: which one is meant is not guessed (the register
+    refuses such names since, ``Part.clean``), and the line is named on the order for the engineer
+    (``parts_unregistered``)."""
+    exact = [part for part in register if part.name.strip() == name.strip()]
+    if len(exact) == 1:
+        return exact[0]
+    alike = [part for part in register if part_name_key(part.name) == part_name_key(name)]
+    return alike[0] if len(alike) == 1 else None
+
+
 def parts_unregistered(order: WorkOrder) -> list[str]:
     """For an order still to do: the parts its service plans name that are not reserved on it (the site's parts
-    register did not hold them when it was made, and none was added since), as "2 x Brake pad set", each
-    plan's quantities added up; [] otherwise."""
+    register did not hold them when it was made, or held two that differ only in capitals (``register_part``), and
+    none was added since), as "2 x Brake pad set", each plan's quantities added up; [] otherwise."""
     if order.state not in TO_DO:
         return []
-    held = {name.casefold() for name in order.part_uses.values_list("part__name", flat=True)}
+    held = set(order.part_uses.values_list("part_id", flat=True))
+    register = list(Part.objects.filter(site_id=order.site_id).only("name"))
     wanted: dict[str, float] = {}
     for plan in ServicePlan.objects.filter(pk__in=order.items.values("plan_id")).order_by("pk").only("parts"):
         for name, quantity in part_lines(plan.parts):
-            if name.casefold() not in held:
+            part = register_part(name, register)
+            if part is None or part.pk not in held:
                 wanted[name] = wanted.get(name, 0.0) + quantity
     return [f"{quantity:g} x {name}" for name, quantity in wanted.items()]
 

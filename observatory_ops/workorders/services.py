@@ -40,7 +40,17 @@ from .cautions import (
     needs_isolation,
 )
 from .lifecycle import TRANSITIONS
-from .models import ChecklistTick, Part, PartUse, RequiredReading, State, WorkOrder, WorkOrderItem
+from .models import (
+    PART_QUANTITY_MAX,
+    ChecklistTick,
+    Part,
+    PartUse,
+    RequiredReading,
+    State,
+    WorkOrder,
+    WorkOrderItem,
+    part_quantity_too_many,
+)
 from .selectors import (
     hazards_missing,
     hazards_of,
@@ -51,11 +61,25 @@ from .selectors import (
     moves_held,
     on_the_crew,
     order_plans,
+    register_part,
     unticked_lines,
 )
 
 #: The longest name the finish form takes for one of the crew (names are separated by commas).
 CREW_NAME_MAX = 80
+#: A reflectance typed above 1 and up to this is a fraction mistyped (1.2 for 0.92, or a 1 too many), not a percentage:
+#: 1.2 % is no reading of a telescope mirror, whose fresh aluminium reflects about 90 %. Our own bound (common practice,
+#: no published source); above it a value is read as a percentage (87 for 0.87).
+REFLECTANCE_ABOVE_ONE_NOT_PERCENT = 1.5
+
+
+def reading_problem(quantity: str, value: float) -> str | None:
+    """Why a reading recorded on finishing cannot be right (None when it can): ``logbook.quantities.value_problem``,
+    but a reflectance a little above 1 (up to ``REFLECTANCE_ABOVE_ONE_NOT_PERCENT``) is told a reflectance is at most
+    1, not what it would be as a percentage."""
+    if quantity == "reflectance" and 1 < value <= REFLECTANCE_ABOVE_ONE_NOT_PERCENT:
+        return f"a reflectance is at most 1 (a fraction, 0.87 for 87 %), and {value:g} is above it"
+    return value_problem(quantity, value)
 
 
 class Refused(Exception):
@@ -306,12 +330,12 @@ def work_order_from_due(plans: Sequence[ServicePlan], by, planned_date: dt.date 
                 _require_reading(order, plan.subsystem, wanted["quantity"], wanted.get("limit", ""))
         # Parts the site's register holds are reserved on the order, each plan's quantities added up; the others
         # are named on the order's page and paper (``selectors.parts_unregistered``).
-        register = {part.name.casefold(): part for part in Part.objects.filter(site=site)}
+        register = list(Part.objects.filter(site=site))
         planned: Counter[Part] = Counter()
         for plan in plans:
             for name, quantity in part_lines(plan.parts):
-                if name.casefold() in register:
-                    planned[register[name.casefold()]] += quantity
+                if (part := register_part(name, register)) is not None:
+                    planned[part] += quantity
         for part, quantity in planned.items():  # one by one, so the audit trail records each
             PartUse.objects.create(work_order=order, part=part, quantity_planned=quantity)
     return order
@@ -542,10 +566,10 @@ def work_order_finish(
     (``hazards_confirmed_at_finish``). ``crew`` names who did the work with the person finishing (kept as
     ``crew``, printed on the paper's crew lines).
 
-    Refused with a reason, changing nothing, when a reading is missing, a quantity is not a number of 0 or more,
-    the day the work was done is out of bounds, an unticked line or a hazard the order lacks was not confirmed,
-    an unticked isolation has no answer or no findings, a crew name is too long, or the order is no longer
-    underway (``AlreadyFinished`` when it was finished meanwhile).
+    Refused with a reason, changing nothing, when a reading is missing, a quantity of a part used is not a number
+    from 0 to ``PART_QUANTITY_MAX``, the day the work was done is out of bounds, an unticked line or a hazard the
+    order lacks was not confirmed, an unticked isolation has no answer or no findings, a crew name is too long, or
+    the order is no longer underway (``AlreadyFinished`` when it was finished meanwhile).
     """
     from observatory_ops.mirrors.models import Mirror  # mirrors builds on work orders
     from observatory_ops.mirrors.services import cleaning_log, measurement_from_reading
@@ -561,7 +585,7 @@ def work_order_finish(
         names = ", ".join(f"{QUANTITIES[r.quantity][0]} on {r.subsystem.name}" for r in missing)
         raise Refused(f"record every required reading before finishing (missing: {names})")
     for r in required:
-        problem = value_problem(r.quantity, readings[r.pk])
+        problem = reading_problem(r.quantity, readings[r.pk])
         if problem:
             raise Refused(f"{problem} ({r.subsystem.name})")
     parts_used = parts_used or {}
@@ -570,6 +594,8 @@ def work_order_finish(
         quantity = parts_used.get(use.pk, use.quantity_planned)
         if not isinstance(quantity, int | float) or not math.isfinite(quantity) or quantity < 0:
             raise Refused(f"{use.part.name} used: enter a number of 0 or more, not {quantity!r}")
+        if quantity > PART_QUANTITY_MAX:
+            raise Refused(part_quantity_too_many(f"{use.part.name} used"))
     if isinstance(crew, str):  # one string would be read as a name per character
         raise ValueError("crew must be a sequence of names, not a single string")
     crew = [name.strip() for name in crew if name.strip()]
@@ -837,24 +863,31 @@ def _step_numbers(indexes: list[int]) -> str:
 
 
 def part_add(order: WorkOrder, part: Part, quantity: float) -> PartUse:
+    """Reserve ``quantity`` of ``part`` on an order not yet finished. Refused, adding nothing, for a part of another
+    site or a quantity that is not a number above 0 and at most ``PART_QUANTITY_MAX``."""
     if order.state not in (State.DRAFT, State.ISSUED, State.UNDERWAY):
         raise Refused("parts can be added only before the work is finished")
     if part.site_id != order.site_id:
         raise Refused("that part is kept at another site")
-    if quantity <= 0:
-        raise Refused("the quantity must be more than zero")
+    if not isinstance(quantity, int | float) or not math.isfinite(quantity) or quantity <= 0:
+        raise Refused(f"quantity of {part.name}: enter a number above zero, not {quantity!r}")
+    if quantity > PART_QUANTITY_MAX:
+        raise Refused(part_quantity_too_many(f"quantity of {part.name}"))
     return PartUse.objects.create(work_order=order, part=part, quantity_planned=quantity)
 
 
 def part_count_record(part: Part, counted: float, by) -> list[PartUse]:
     """The stock of ``part`` as counted on the shelf: the register is set to it, and the shortfalls waiting for a
     count (finished work that used more than the register held, ``PartUse.quantity_short``) are marked counted.
-    Returns the part lines marked. An engineer's; refused, changing nothing, for a count that is not a number of 0 or
-    more or a part with no shortfall waiting (other corrections of the register are made in the admin)."""
+    Returns the part lines marked. An engineer's; refused, changing nothing, for a count that is not a number from 0
+    to ``PART_QUANTITY_MAX`` or a part with no shortfall waiting (other corrections of the register are made in the
+    admin)."""
     if not has_role(by, ENGINEER):
         raise Refused(f"recording a count of the stock needs the {ENGINEER} role or above")
     if not isinstance(counted, int | float) or not math.isfinite(counted) or counted < 0:
         raise Refused(f"counted {part.name}: enter the number on the shelf, 0 or more")
+    if counted > PART_QUANTITY_MAX:
+        raise Refused(part_quantity_too_many(f"counted {part.name}"))
     with transaction.atomic():
         current = Part.objects.select_for_update().get(pk=part.pk)
         waiting = list(PartUse.objects.filter(part=current, quantity_short__gt=0, short_counted_at__isnull=True))

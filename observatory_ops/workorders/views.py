@@ -499,8 +499,8 @@ def work_order_part_add(request, pk):
             services.part_add(order, form.cleaned_data["part"], form.cleaned_data["quantity"])
         except services.Refused as exc:
             messages.error(request, f"Not added: {exc}.")
-    else:
-        messages.error(request, "Not added: choose a part and a quantity above zero.")
+    else:  # each message names its field (forms.PartAddForm)
+        messages.error(request, "Not added: " + " ".join(error for errors in form.errors.values() for error in errors))
     return redirect(order)
 
 
