@@ -100,7 +100,7 @@ def test_a_reading_is_accepted_across_its_range_and_refused_beyond_it(code):
         ("temperature_c", -91, "Temperature cannot be below -90 degC (got -91)"),
         ("temperature_c", 151, "Temperature cannot be above 150 degC (got 151); a larger reading is not plausible"),
         ("supply_voltage_v", 2300, "Supply voltage cannot be above 1,000 V (got 2300)"),
-        ("reflectance", 1.2, "a reflectance is a fraction between 0 and 1"),
+        ("reflectance", 1.2, "a reflectance is at most 1 (a fraction, 0.87 for 87 %), and 1.2 is above it"),
         ("motor_current_a", math.nan, "Motor current must be a finite number"),
     ],
 )

@@ -64,3 +64,20 @@ def test_a_correction_keeps_the_limit_and_counts_from_its_own_date(late_plan, us
     corrected = services.service_record_correct(record, users["engineer"], "Filters replaced",
                                                 performed_on=dt.date(2026, 1, 21))
     assert (corrected.limit_passed_on, corrected.days_after_limit) == (dt.date(2026, 1, 1), 20)
+
+
+def test_finishing_a_work_order_on_an_overdue_plan_keeps_how_late_it_came(late_plan, users):
+    from test_workorders import _all_readings, _confirmed
+
+    from observatory_ops.logbook.models import ServiceRecord
+    from observatory_ops.workorders import services as workorders
+
+    today = site_today(late_plan.subsystem.telescope.site)
+    order = workorders.work_order_from_due([late_plan], users["engineer"], today)
+    workorders.work_order_move(order, "issue", users["engineer"])
+    workorders.work_order_move(order, "start", users["technician"])
+    workorders.work_order_finish(order, users["technician"], 1.0, "filters replaced", _all_readings(order, 0.7),
+                                 work_done_on=today, **_confirmed(order))
+    record = ServiceRecord.objects.get(work_order=order)
+    passed = dt.date(2026, 1, 1)
+    assert (record.limit_passed_on, record.days_after_limit) == (passed, (today - passed).days)

@@ -28,6 +28,7 @@ from test_workorder_finish import (  # noqa: F401  (fixtures, used by name)
 from test_workorder_finish_record import _short_by_two, filters  # noqa: F401
 from test_workorders import _all_readings, _confirmed, drive, order  # noqa: F401
 
+from observatory_ops.logbook.quantities import value_problem
 from observatory_ops.planning.models import ServicePlan
 from observatory_ops.planning.services import site_today
 from observatory_ops.registry.models import Site, Subsystem
@@ -341,12 +342,12 @@ def test_a_reflectance_a_little_above_1_is_told_a_reflectance_is_at_most_1(
 
 
 def test_a_reflectance_typed_as_a_percentage_is_still_told_its_fraction():
-    assert services.reading_problem("reflectance", 87) == "a reflectance is a fraction between 0 and 1: 87 % is 0.87"
-    assert services.reading_problem("reflectance", 1.2) == (
+    assert value_problem("reflectance", 87) == "a reflectance is a fraction between 0 and 1: 87 % is 0.87"
+    assert value_problem("reflectance", 1.2) == (
         "a reflectance is at most 1 (a fraction, 0.87 for 87 %), and 1.2 is above it"
     )
-    assert services.reading_problem("reflectance", 0.87) is None
-    assert services.reading_problem("reflectance", 1.0) is None
+    assert value_problem("reflectance", 0.87) is None
+    assert value_problem("reflectance", 1.0) is None
 
 
 # --- 8. lifting figures in proportion ---------------------------------------------------------------------------

@@ -265,7 +265,7 @@ def test_a_tube_far_from_its_aperture_class_is_flagged(telescope, users, client)
 
 @pytest.mark.parametrize("quantity, value, message", [
     ("settle_time_s", -0.2, "cannot be negative"),
-    ("reflectance", 1.2, "between 0 and 1"),
+    ("reflectance", 1.2, "at most 1"),
 ])
 def test_an_impossible_reading_is_refused_and_nothing_is_stored(telescope, users, quantity, value, message):
     from django.core.exceptions import ValidationError

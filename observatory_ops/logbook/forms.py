@@ -15,8 +15,9 @@ class ServiceRecordForm(forms.Form):
     )
     performed_on = forms.DateField(widget=forms.DateInput(attrs={"type": "date"}), help_text="Local date of the work.")
     hours_spent = forms.FloatField(
-        min_value=0, max_value=1000, required=False,
-        help_text="Leave empty if not known (a past service entered from memory): no hours are made up for it.",
+        min_value=0, max_value=1000, required=False, label="Hours spent (person-hours)",
+        help_text="Everyone's hours on the work added up (two people for 3 hours is 6). Leave empty if not known (a "
+        "past service entered from memory): no hours are made up for it.",
     )
     summary = forms.CharField(max_length=200)
     findings = forms.CharField(widget=forms.Textarea, required=False, max_length=10000)

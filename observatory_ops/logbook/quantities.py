@@ -73,6 +73,12 @@ def unit_of(code: str) -> str:
     return QUANTITIES[code][1]
 
 
+#: A reflectance typed above 1 and up to this is a fraction mistyped (1.2 for 0.92, or a 1 too many), not a percentage:
+#: 1.2 % is no reading of a telescope mirror, whose fresh aluminium reflects about 90 %. Our own bound (common practice,
+#: no published source); above it a value is read as a percentage (87 for 0.87).
+REFLECTANCE_ABOVE_ONE_NOT_PERCENT = 1.5
+
+
 def value_problem(code: str, value: float) -> str | None:
     """Why a reading cannot be right (None when it can): not finite, or outside ``PLAUSIBLE_RANGE``."""
     label, unit = QUANTITIES[code]
@@ -80,6 +86,8 @@ def value_problem(code: str, value: float) -> str | None:
     if not math.isfinite(value):
         return f"{label} must be a finite number"
     if code == "reflectance" and not low <= value <= high:
+        if 1 < value <= REFLECTANCE_ABOVE_ONE_NOT_PERCENT:
+            return f"a reflectance is at most 1 (a fraction, 0.87 for 87 %), and {value:g} is above it"
         percent = f": {value:g} % is {value / 100:g}" if 1 < value <= 100 else ""
         return f"a reflectance is a fraction between 0 and 1{percent}"
     if value < low:

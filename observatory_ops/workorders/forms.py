@@ -8,6 +8,7 @@ from django.db.models import Q
 from observatory_ops.access.roles import TECHNICIAN, holders_of
 from observatory_ops.archive.history import person
 from observatory_ops.calc.lifting import DENSITY
+from observatory_ops.logbook.quantities import value_problem
 from observatory_ops.planning.services import site_today
 from observatory_ops.registry.forms import HazardsField
 from observatory_ops.registry.models import Subsystem
@@ -24,10 +25,10 @@ class _PersonChoiceField(forms.ModelChoiceField):
 
 
 def _plausible(quantity: str, label: str):
-    """A field validator: the reading's problem (``services.reading_problem``), named by the field's label."""
+    """A field validator: the reading's problem (``logbook.quantities.value_problem``), named by the field's label."""
 
     def check(value: float) -> None:
-        if problem := services.reading_problem(quantity, value):
+        if problem := value_problem(quantity, value):
             raise forms.ValidationError(f"{label}: {problem}.")
 
     return check

@@ -23,6 +23,7 @@ from observatory_ops.calc import lifting
 from observatory_ops.calc.triggers import DUE, OVERDUE
 from observatory_ops.logbook.models import Reading, ServiceRecord
 from observatory_ops.logbook.quantities import QUANTITIES, value_problem
+from observatory_ops.logbook.services import limit_passed_before
 from observatory_ops.planning.metrics import READING
 from observatory_ops.planning.models import ServicePlan, part_lines
 from observatory_ops.planning.services import site_recompute, site_today
@@ -67,21 +68,6 @@ from .selectors import (
 
 #: The longest name the finish form takes for one of the crew (names are separated by commas).
 CREW_NAME_MAX = 80
-#: A reflectance typed above 1 and up to this is a fraction mistyped (1.2 for 0.92, or a 1 too many), not a percentage:
-#: 1.2 % is no reading of a telescope mirror, whose fresh aluminium reflects about 90 %. Our own bound (common practice,
-#: no published source); above it a value is read as a percentage (87 for 0.87).
-REFLECTANCE_ABOVE_ONE_NOT_PERCENT = 1.5
-
-
-def reading_problem(quantity: str, value: float) -> str | None:
-    """Why a reading recorded on finishing cannot be right (None when it can): ``logbook.quantities.value_problem``,
-    but a reflectance a little above 1 (up to ``REFLECTANCE_ABOVE_ONE_NOT_PERCENT``) is told a reflectance is at most
-    1, not what it would be as a percentage."""
-    if quantity == "reflectance" and 1 < value <= REFLECTANCE_ABOVE_ONE_NOT_PERCENT:
-        return f"a reflectance is at most 1 (a fraction, 0.87 for 87 %), and {value:g} is above it"
-    return value_problem(quantity, value)
-
-
 class Refused(Exception):
     """A move or a completion that is not allowed; the message says why. Nothing was changed."""
 
@@ -585,7 +571,7 @@ def work_order_finish(
         names = ", ".join(f"{QUANTITIES[r.quantity][0]} on {r.subsystem.name}" for r in missing)
         raise Refused(f"record every required reading before finishing (missing: {names})")
     for r in required:
-        problem = reading_problem(r.quantity, readings[r.pk])
+        problem = value_problem(r.quantity, readings[r.pk])
         if problem:
             raise Refused(f"{problem} ({r.subsystem.name})")
     parts_used = parts_used or {}
@@ -666,7 +652,7 @@ def work_order_finish(
             ServiceRecord.objects.create(
                 subsystem=item.subsystem, plan=item.plan, performed_on=day, performed_by=by, hours_spent=share,
                 summary=(item.plan.name if item.plan else order.title)[:200], findings=findings,
-                work_order=order, created_by=by,
+                work_order=order, created_by=by, limit_passed_on=limit_passed_before(item.plan, day),
             )
         for r in required:
             r.reading = Reading.objects.create(
