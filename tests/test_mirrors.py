@@ -212,6 +212,7 @@ def test_calendar_export_is_rfc5545(mirror, users, client):
     "args, message",
     [
         (["--metal", "al", "--layer", "SiO2:-5"], "thickness"),
+        (["--metal", "al", "--layer", "SiO2:1e9"], "1,000,000,000 nm is thicker than any overcoat"),
         (["--metal", "al", "--layer", "Unobtainium:100"], "Unobtainium"),
         (["--metal", "al", "--layer", "SiO2:100", "--from", "400", "--to", "90000"], "nm"),
         (["--metal", "al", "--layer", "SiO2"], "MATERIAL:THICKNESS_NM"),

@@ -2,7 +2,7 @@
 admin's coating rows all take them.
 
 Format: one layer per line or comma-separated, from the metal outward, each ``MATERIAL:THICKNESS_NM`` with a
-material of ``calc.coating.MATERIALS`` (any letter case) and a thickness of 0 nm or more: ``SiO2:100``, or
+material of ``calc.coating.MATERIALS`` (any letter case) and a thickness of 0 to ``MAX_LAYER_NM`` nm: ``SiO2:100``, or
 ``Al2O3:30, SiO2:80``. Empty text is a bare metal.
 """
 from __future__ import annotations
@@ -12,6 +12,10 @@ import re
 from collections.abc import Iterable
 
 from observatory_ops.calc.coating import MATERIALS, Layer
+
+#: The thickest overcoat taken, in nm: protective layers are tens to a few hundred nanometres thick, so 10 micrometres
+#: is a unit slip (um typed as nm), not a coating. Our own bound, common practice, no published source.
+MAX_LAYER_NM = 10_000
 
 #: The format in a few words, for help texts and messages.
 FORMAT = "MATERIAL:THICKNESS_NM from the metal outward, one layer per line or comma-separated, e.g. SiO2:100"
@@ -33,6 +37,9 @@ def parse_layer(text: str) -> Layer:
         nm = math.nan
     if not math.isfinite(nm) or nm < 0:
         raise ValueError(f"layer {text.strip()!r}: the thickness must be a number of nanometres, 0 or more")
+    if nm > MAX_LAYER_NM:
+        raise ValueError(f"layer {text.strip()!r}: {nm:,g} nm is thicker than any overcoat (at most {MAX_LAYER_NM:,} "
+                         "nm); give the thickness in nanometres")
     return Layer(_CANONICAL[material.lower()], nm)
 
 
