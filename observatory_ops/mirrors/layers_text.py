@@ -38,7 +38,7 @@ def parse_layer(text: str) -> Layer:
     if not math.isfinite(nm) or nm < 0:
         raise ValueError(f"layer {text.strip()!r}: the thickness must be a number of nanometres, 0 or more")
     if nm > MAX_LAYER_NM:
-        raise ValueError(f"layer {text.strip()!r}: {nm:,g} nm is thicker than any overcoat (at most {MAX_LAYER_NM:,} "
+        raise ValueError(f"layer {text.strip()!r}: {nm:,.0f} nm is thicker than any overcoat (at most {MAX_LAYER_NM:,} "
                          "nm); give the thickness in nanometres")
     return Layer(_CANONICAL[material.lower()], nm)
 
