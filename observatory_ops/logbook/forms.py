@@ -5,7 +5,7 @@ from django.utils import timezone
 from observatory_ops.planning.models import ServicePlan
 
 from . import nights_csv, services
-from .quantities import QUANTITY_CHOICES
+from .quantities import QUANTITIES, QUANTITY_CHOICES, value_problem
 
 
 class ServiceRecordForm(forms.Form):
@@ -50,6 +50,12 @@ class CorrectionForm(forms.Form):
     void = forms.BooleanField(required=False, label="Withdraw the original record (it was logged in error)")
 
 
+#: A reading more than this many times the limit its plan watches it rise to is asked about before it is logged: a
+#: value typed in milliseconds for seconds is 1,000 times too large, while a reading that has truly run away is seldom
+#: more than ten times its limit. Our own factor, common practice, no published source.
+UNIT_SLIP_FACTOR = 100
+
+
 class ReadingForm(forms.Form):
     quantity = forms.ChoiceField(choices=QUANTITY_CHOICES)
     value = forms.FloatField()
@@ -59,12 +65,18 @@ class ReadingForm(forms.Form):
         "logged): entering past readings, log the last service first.",
     )
     note = forms.CharField(max_length=200, required=False)
+    value_confirmed = forms.BooleanField(
+        required=False, label="The value is right as typed",
+        help_text="Asked only for a value far beyond its plan's limit, which is more often a unit slip.",
+    )
 
-    def __init__(self, *args, watched=(), kind_label="", **kwargs):
+    def __init__(self, *args, watched=(), kind_label="", limits=None, **kwargs):
         """``watched``: the quantities the subsystem's plans watch or ask for and its kind's usual ones, offered
         first (any other can still be chosen, under "Other quantities"). With none, the field says that nothing is
-        usually measured on a subsystem of its kind (``kind_label``) above the list of every quantity."""
+        usually measured on a subsystem of its kind (``kind_label``) above the list of every quantity. ``limits``:
+        the limits its plans' readings rise to, by quantity (``planning.selectors.reading_limits``)."""
         super().__init__(*args, **kwargs)
+        self.limits = limits or {}
         self.fields["taken_at"].initial = timezone.localtime().strftime("%Y-%m-%dT%H:%M")
         ours = [(code, label) for code, label in QUANTITY_CHOICES if code in watched]
         if ours:
@@ -75,6 +87,22 @@ class ReadingForm(forms.Form):
                 f"Nothing is usually measured on a subsystem of this kind ({kind_label}) and its plans ask for no "
                 "reading: choose the quantity from the whole list."
             )
+
+    def clean(self):
+        data = super().clean()
+        quantity, value = data.get("quantity"), data.get("value")
+        if value is None or data.get("value_confirmed") or quantity not in QUANTITIES or value_problem(quantity, value):
+            return data  # an implausible value is refused as such (``services.reading_log``), not asked about
+        for limit in self.limits.get(quantity, []):
+            if limit > 0 and value > UNIT_SLIP_FACTOR * limit:
+                label, unit = QUANTITIES[quantity]
+                self.add_error("value", (
+                    f"{value:g} {unit} is {value / limit:,.0f} times the plan's limit of {limit:g} {unit}: was it "
+                    f"typed in another unit (milliseconds for seconds, say)? If it is right, tick \"The value is right "
+                    "as typed\" and log it again."
+                ))
+                break
+        return data
 
 
 class NightsUploadForm(forms.Form):

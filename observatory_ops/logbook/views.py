@@ -116,7 +116,8 @@ def reading_log(request, pk):
     site = subsystem.telescope.site
     with timezone.override(site.zone):  # the form's times are the site's local times
         usual = selectors.watched_quantities(subsystem) | usual_for_kind(subsystem.kind)
-        form = ReadingForm(request.POST or None, watched=usual, kind_label=subsystem.get_kind_display())
+        form = ReadingForm(request.POST or None, watched=usual, kind_label=subsystem.get_kind_display(),
+                           limits=selectors.reading_limits(subsystem))
         if request.method == "POST" and form.is_valid():
             data = form.cleaned_data
             if reading_already_logged(subsystem, request.user, data["quantity"], data["value"], data["taken_at"],

@@ -79,6 +79,17 @@ def watched_quantities(subsystem: Subsystem) -> set[str]:
     return forecast_quantities(subsystem) | asked
 
 
+def reading_limits(subsystem: Subsystem) -> dict[str, list[float]]:
+    """The limits of the subsystem's active reading triggers that a reading rises to, by quantity: what a reading typed
+    in another unit is compared with (``logbook.forms.ReadingForm``)."""
+    limits: dict[str, list[float]] = {}
+    for quantity, limit in Trigger.objects.filter(
+        plan__subsystem=subsystem, plan__active=True, metric=metrics.READING, direction=Trigger.Direction.ABOVE,
+    ).values_list("quantity", "limit"):
+        limits.setdefault(quantity, []).append(limit)
+    return limits
+
+
 def unwatched_reading_note(subsystem: Subsystem, quantity: str) -> str | None:
     """What to tell whoever logs a reading that no service plan of the subsystem watches; None when one does.
 
