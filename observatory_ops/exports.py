@@ -6,6 +6,7 @@ OWASP guidance on CSV injection advises, so user-written text can never run as a
 from __future__ import annotations
 
 import csv
+import datetime as dt
 from collections.abc import Iterable, Sequence
 
 from django.http import HttpResponse
@@ -28,3 +29,17 @@ def csv_response(filename: str, header: Sequence[str], rows: Iterable[Sequence])
     for row in rows:
         writer.writerow([safe_cell(v) for v in row])
     return response
+
+
+def period(query, first: dt.date, last: dt.date) -> tuple[dt.date, dt.date]:
+    """The period a download covers: the ``from`` and ``to`` dates of ``query`` (a request's GET), each defaulting to
+    ``first`` and ``last``. ValueError, in words for the person who typed them, when either is not a date as
+    YYYY-MM-DD or ``from`` comes after ``to``."""
+    try:
+        first = dt.date.fromisoformat(query["from"]) if query.get("from") else first
+        last = dt.date.fromisoformat(query["to"]) if query.get("to") else last
+    except ValueError as exc:
+        raise ValueError(f"from and to are dates as YYYY-MM-DD ({exc})") from None
+    if first > last:
+        raise ValueError(f"from ({first}) is after to ({last})")
+    return first, last

@@ -10,7 +10,7 @@ from django.utils import timezone
 
 from observatory_ops.access.decorators import requires
 from observatory_ops.access.roles import TECHNICIAN, VIEWER
-from observatory_ops.exports import csv_response
+from observatory_ops.exports import csv_response, period
 from observatory_ops.planning import selectors
 from observatory_ops.registry.models import Site, Subsystem
 from observatory_ops.reliability.selectors import HOURS_WINDOW_DAYS
@@ -43,15 +43,11 @@ def service_records_csv(request, slug):
     """A site's service records from ``from`` to ``to`` (local dates, both included; default: the reliability page's
     12 months) as CSV, for the year-end review in a spreadsheet."""
     site = get_object_or_404(Site, slug=slug)
-    last = services.site_today(site)
-    first = last - dt.timedelta(days=HOURS_WINDOW_DAYS - 1)
+    today = services.site_today(site)
     try:
-        first = dt.date.fromisoformat(request.GET["from"]) if request.GET.get("from") else first
-        last = dt.date.fromisoformat(request.GET["to"]) if request.GET.get("to") else last
+        first, last = period(request.GET, today - dt.timedelta(days=HOURS_WINDOW_DAYS - 1), today)
     except ValueError as exc:
-        return HttpResponseBadRequest(f"from and to are dates as YYYY-MM-DD ({exc})", content_type="text/plain")
-    if first > last:
-        return HttpResponseBadRequest(f"from ({first}) is after to ({last})", content_type="text/plain")
+        return HttpResponseBadRequest(str(exc), content_type="text/plain")
     return csv_response(f"{site.slug}-service-records-{first}-to-{last}.csv", SERVICE_CSV_HEADER,
                         service_records_csv_rows(site, first, last))
 

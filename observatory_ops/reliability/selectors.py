@@ -20,7 +20,7 @@ from dataclasses import dataclass, field
 from typing import NamedTuple
 
 import numpy as np
-from django.db.models import Min, OuterRef, Subquery
+from django.db.models import Min
 
 from observatory_ops.calc import reliability
 from observatory_ops.calc.night_of import night_of
@@ -30,6 +30,7 @@ from observatory_ops.planning.services import UsageLog, site_today
 from observatory_ops.registry.catalogue import KINDS
 from observatory_ops.registry.models import Site, Subsystem, is_shared_enclosure
 from observatory_ops.workorders.models import State, WorkOrder, WorkOrderItem
+from observatory_ops.workorders.selectors import work_done_on_of
 
 DONE = (State.FINISHED, State.COUNTERSIGNED)
 #: The maintenance-hours window: the last 12 months, as 365 days back from the site's today.
@@ -238,12 +239,11 @@ def site_reliability(site: Site, today: dt.date | None = None) -> SiteReliabilit
     # A failure is placed on the night before the day its repair was done, as the finish form gave that day (the
     # date of the order's service records): the last night the subsystem ran up to the repair. A repair entered days
     # later counts where it happened. An order finished without service records falls back to its finish time's night.
-    done_on = ServiceRecord.objects.filter(work_order=OuterRef("work_order_id"), corrects__isnull=True).order_by("pk")
     failed_at: dict[int, list[Failure]] = defaultdict(list)
     for subsystem_id, order_id, finished_at, repaired_on in WorkOrderItem.objects.filter(
         work_order__site=site, work_order__order_type=WorkOrder.Type.CORRECTIVE, work_order__state__in=DONE,
         work_order__finished_at__isnull=False,
-    ).annotate(repaired_on=Subquery(done_on.values("performed_on")[:1])).values_list(
+    ).annotate(repaired_on=work_done_on_of("work_order_id")).values_list(
         "subsystem_id", "work_order_id", "work_order__finished_at", "repaired_on"
     ):
         night = repaired_on - dt.timedelta(days=1) if repaired_on else night_of(finished_at, site.time_zone)

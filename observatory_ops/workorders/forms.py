@@ -178,6 +178,10 @@ class AdHocForm(forms.Form):
 NOT_CLEANED = "none"
 
 
+#: Rows on the finish form for parts used that the order did not plan.
+OTHER_PART_ROWS = 3
+
+
 class FinishForm(forms.Form):
     """Hours, the day the work was done, who did it with the person finishing (the crew), findings, the required
     readings, the parts used and, for each mirror the order works on, whether it was cleaned.
@@ -243,6 +247,19 @@ class FinishForm(forms.Form):
                                 "invalid": f"{label}: enter a number.", "min_value": f"{label}: enter 0 or more.",
                                 "max_value": f"{part_quantity_too_many(label)}."},
             )
+        # Parts used that the order did not plan (a fan swapped on a fault found during the work): a few rows.
+        site_parts = Part.objects.filter(site=order.site).order_by("name")
+        for i in range(1, OTHER_PART_ROWS + 1):
+            self.fields[f"other_part_{i}"] = forms.ModelChoiceField(
+                site_parts, required=False, label=f"Other part used ({i})",
+                help_text="A part of the register used though the order did not list it." if i == 1 else "",
+            )
+            self.fields[f"other_quantity_{i}"] = forms.FloatField(
+                required=False, min_value=0, max_value=PART_QUANTITY_MAX, label=f"How many ({i})",
+                error_messages={"invalid": f"How many ({i}): enter a number.",
+                                "min_value": f"How many ({i}): enter more than 0.",
+                                "max_value": f"{part_quantity_too_many(f'How many ({i})')}."},
+            )
         from observatory_ops.mirrors.models import CleaningEvent, Mirror  # mirrors builds on work orders
 
         # Asked with no default for every mirror the order works on: a cleaning plan has no marker that holds (a
@@ -301,7 +318,19 @@ class FinishForm(forms.Form):
         cleaned = super().clean()
         if cleaned.get("isolation_answer") and not cleaned.get("findings", "").strip():
             self.add_error("findings", f"Findings: {ISOLATION_UNTICKED_FINDINGS}.")
+        for i in range(1, OTHER_PART_ROWS + 1):
+            part, quantity = cleaned.get(f"other_part_{i}"), cleaned.get(f"other_quantity_{i}")
+            if part and not quantity and f"other_quantity_{i}" not in self.errors:
+                self.add_error(f"other_quantity_{i}", f"How many ({i}): enter how many of {part.name} were used.")
+            elif quantity and not part:
+                self.add_error(f"other_part_{i}", f"Other part used ({i}): choose the part, or leave how many empty.")
         return cleaned
+
+    def parts_added(self) -> list[tuple[Part, float]]:
+        """The other parts used, with how many (``services.work_order_finish`` checks them against the order)."""
+        rows = [(self.cleaned_data.get(f"other_part_{i}"), self.cleaned_data.get(f"other_quantity_{i}"))
+                for i in range(1, OTHER_PART_ROWS + 1)]
+        return [(part, quantity) for part, quantity in rows if part and quantity]
 
     def readings(self) -> dict[int, float]:
         return {int(k[8:]): v for k, v in self.cleaned_data.items() if k.startswith("reading_")}

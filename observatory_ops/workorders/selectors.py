@@ -5,13 +5,14 @@ import datetime as dt
 from collections.abc import Sequence
 from dataclasses import dataclass
 
-from django.db.models import F, Prefetch, Q, QuerySet
+from django.db.models import F, OuterRef, Prefetch, Q, QuerySet, Subquery
 from django.urls import reverse
 from django.utils import dateformat, timezone
 
 from observatory_ops.archive.history import Change, changes, person
 from observatory_ops.calc import lifting
 from observatory_ops.calc.windows import RECOAT_PHASES
+from observatory_ops.logbook.models import ServiceRecord
 from observatory_ops.planning.models import ServicePlan, part_lines
 from observatory_ops.planning.services import site_today
 from observatory_ops.registry import catalogue
@@ -580,6 +581,33 @@ def cleanings_at_finish(order: WorkOrder) -> list[str]:
     return lines
 
 
+#: The parts-used CSV (``parts_used_csv_rows``): one row a part line of a finished order.
+PARTS_USED_CSV_HEADER = (
+    "work_done_on", "work_order", "order_type", "telescope", "part", "part_number", "unit", "planned", "used",
+    "short_of_the_register",
+)
+
+
+def parts_used_csv_rows(site: Site, first: dt.date, last: dt.date):
+    """The part lines of the site's finished (or countersigned) orders whose work was done from ``first`` to ``last``
+    (local dates, both included; the day the finish form gave, as the order's service records are dated), oldest
+    first: what was used, against the plan, and how many the register did not hold."""
+    uses = (
+        PartUse.objects.filter(work_order__site=site, work_order__state__in=(State.FINISHED, State.COUNTERSIGNED))
+        .annotate(done_on=work_done_on_of("work_order_id"))
+        .filter(done_on__gte=first, done_on__lte=last)
+        .select_related("part", "work_order__telescope")
+        .order_by("done_on", "work_order_id", "pk")
+    )
+    for use in uses:
+        order = use.work_order
+        yield (
+            use.done_on.isoformat(), order.number, order.get_order_type_display(),
+            order.telescope.name if order.telescope else "", use.part.name, use.part.part_number, use.part.unit,
+            use.quantity_planned, use.quantity_used, use.quantity_short,
+        )
+
+
 def parts_to_count(site: Site) -> list[tuple[Part, list[PartUse]]]:
     """The site's parts that finished work used beyond what the register held, the stock not counted since, each
     with the part lines of those orders (newest first): the register stands at zero for them, so the site engineer
@@ -601,6 +629,13 @@ def work_done_on(order: WorkOrder) -> dt.date | None:
         order.service_records.filter(corrects__isnull=True).order_by("pk").values_list("performed_on", flat=True)
         .first()
     )
+
+
+def work_done_on_of(order_id_field: str) -> Subquery:
+    """``work_done_on`` as an expression over the rows of a query, whose ``order_id_field`` holds the order's id: for
+    lists of many orders' rows (the reliability page's failures, the parts-used CSV) in one query."""
+    first = ServiceRecord.objects.filter(work_order=OuterRef(order_id_field), corrects__isnull=True).order_by("pk")
+    return Subquery(first.values("performed_on")[:1])
 
 
 #: The work of a recoat's phase orders in the order it is done (``calc.windows.RECOAT_PHASES``), and each one's name

@@ -521,6 +521,7 @@ def work_order_finish(
     work_done_on: dt.date | None = None,
     isolation_answer: str = "",
     crew: Sequence[str] = (),
+    parts_added: Sequence[tuple[Part, float]] = (),
 ) -> WorkOrder:
     """Record the work: service records for every item, readings, parts used; reset plans; recompute.
 
@@ -538,6 +539,8 @@ def work_order_finish(
     planned). A part used beyond what the parts register holds is recorded as used all the same (the work was
     done): the register is brought to zero, never below, and the difference kept on the order's part line
     (``PartUse.quantity_short``) for the site engineer to count the stock (``part_count_record``).
+    ``parts_added``: parts of the site's register used though the order did not plan them, with how many; each
+    gets a line of its own (planned 0) and is taken from the register as the planned ones are.
 
     ``confirmed_unticked`` holds the words of the checklist lines (isolation points and steps) that the person
     confirmed although nobody ticked them; every line not ticked when the work is finished must be among them.
@@ -582,6 +585,8 @@ def work_order_finish(
             raise Refused(f"{use.part.name} used: enter a number of 0 or more, not {quantity!r}")
         if quantity > PART_QUANTITY_MAX:
             raise Refused(part_quantity_too_many(f"{use.part.name} used"))
+    if problem := _parts_added_problem(order, uses, parts_added):
+        raise Refused(problem)
     if isinstance(crew, str):  # one string would be read as a name per character
         raise ValueError("crew must be a sequence of names, not a single string")
     crew = [name.strip() for name in crew if name.strip()]
@@ -664,6 +669,14 @@ def work_order_finish(
         on_order = {item.subsystem_id for item in items}
         for mirror in Mirror.objects.filter(pk__in=list(cleanings or {}), subsystem_id__in=on_order):
             cleaning_log(mirror, by, day, cleanings[mirror.pk], note=f"on {order.number}", work_order=order)
+        # A part used that the order did not plan gets its line, planned 0, and is taken from the register as
+        # the planned ones are.
+        for part, quantity in parts_added:
+            added = PartUse(work_order=order, part=part, quantity_planned=0)
+            added._history_user = by
+            added.save()
+            uses.append(added)
+            parts_used[added.pk] = quantity
         for use in uses:
             quantity = parts_used.get(use.pk, use.quantity_planned)
             part = Part.objects.select_for_update().get(pk=use.part_id)
@@ -680,6 +693,27 @@ def work_order_finish(
         site_recompute(site)
     order.refresh_from_db()
     return order
+
+
+def _parts_added_problem(order: WorkOrder, uses: Sequence[PartUse], parts_added: Sequence[tuple[Part, float]]) -> str:
+    """Why parts used beyond the order's plan cannot be recorded as given ("" when they can): each one a part of the
+    order's site, not on the order already (its own line says how many), given once, more than 0 and at most
+    ``PART_QUANTITY_MAX``."""
+    on_order = {use.part_id for use in uses}
+    seen: set[int] = set()
+    for part, quantity in parts_added:
+        if part.site_id != order.site_id:
+            return f"{part.name} is a part of another site's register"
+        if part.pk in on_order:
+            return f"{part.name} is on the order already: give how many were used on its own line"
+        if part.pk in seen:
+            return f"{part.name} is given twice among the other parts used: give it once, with the total"
+        seen.add(part.pk)
+        if not isinstance(quantity, int | float) or not math.isfinite(quantity) or quantity <= 0:
+            return f"{part.name} used: enter a number above 0, not {quantity!r}"
+        if quantity > PART_QUANTITY_MAX:
+            return part_quantity_too_many(f"{part.name} used")
+    return ""
 
 
 def checklist_tick_set(

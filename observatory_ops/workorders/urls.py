@@ -17,5 +17,6 @@ urlpatterns = [
     path("sites/<slug:slug>/workorders/new/", views.work_order_ad_hoc, name="workorder-ad-hoc"),
     path("sites/<slug:slug>/workorders/batch.pdf", views.work_order_batch_pdf, name="workorder-batch-pdf"),
     path("sites/<slug:slug>/parts/", views.part_list, name="part-list"),
+    path("sites/<slug:slug>/parts/used.csv", views.parts_used_csv, name="parts-used-csv"),
     path("sites/<slug:slug>/parts/<int:pk>/count/", views.part_count, name="part-count"),
 ]

@@ -1,7 +1,7 @@
 import datetime as dt
 
 from django.contrib import messages
-from django.http import HttpResponse, HttpResponseNotAllowed, JsonResponse
+from django.http import HttpResponse, HttpResponseBadRequest, HttpResponseNotAllowed, JsonResponse
 from django.shortcuts import get_object_or_404, redirect, render
 from django.urls import reverse
 from django.utils.html import format_html, format_html_join
@@ -11,6 +11,7 @@ from django_tables2 import RequestConfig
 from observatory_ops.access.decorators import requires
 from observatory_ops.access.roles import ENGINEER, TECHNICIAN, VIEWER, has_role
 from observatory_ops.archive.history import person
+from observatory_ops.exports import csv_response, period
 from observatory_ops.planning.models import ServicePlan
 from observatory_ops.planning.services import site_today
 from observatory_ops.registry.catalogue import RELEASE
@@ -360,6 +361,7 @@ def work_order_finish(request, pk):
                     work_done_on=form.cleaned_data["work_done_on"],
                     isolation_answer=isolation_answer,
                     crew=form.cleaned_data["crew"],
+                    parts_added=form.parts_added(),
                 )
             except services.Refused as exc:
                 if isinstance(exc, services.AlreadyFinished) and exc.by_you:  # pressed twice at once
@@ -541,6 +543,23 @@ def work_order_batch_pdf(request, slug):
 def part_list(request, slug):
     site = get_object_or_404(Site, slug=slug)
     return _part_list(request, site)
+
+
+#: The parts-used download's period unless one is given: a year to the site's today, as the reliability page's hours.
+PARTS_USED_DEFAULT_DAYS = 365
+
+
+@requires(VIEWER)
+def parts_used_csv(request, slug):
+    """The parts used by the site's finished work from ``from`` to ``to`` (default: the last 12 months) as CSV."""
+    site = get_object_or_404(Site, slug=slug)
+    today = site_today(site)
+    try:
+        first, last = period(request.GET, today - dt.timedelta(days=PARTS_USED_DEFAULT_DAYS - 1), today)
+    except ValueError as exc:
+        return HttpResponseBadRequest(str(exc), content_type="text/plain")
+    return csv_response(f"{site.slug}-parts-used-{first}-to-{last}.csv", selectors.PARTS_USED_CSV_HEADER,
+                        selectors.parts_used_csv_rows(site, first, last))
 
 
 def _part_list(request, site: Site, refused: tuple[int, PartCountForm] | None = None):
