@@ -81,3 +81,17 @@ def test_finishing_a_work_order_on_an_overdue_plan_keeps_how_late_it_came(late_p
     record = ServiceRecord.objects.get(work_order=order)
     passed = dt.date(2026, 1, 1)
     assert (record.limit_passed_on, record.days_after_limit) == (passed, (today - passed).days)
+
+
+def test_the_due_lists_csv_says_how_long_an_overdue_plan_has_been_past_its_limit(late_plan, users, client):
+    """Before the work is logged, the due list's download says it: the day the limit was passed is the overdue
+    plan's forecast date, and the days since count to the site's today."""
+    import csv
+    import io
+
+    client.force_login(users["viewer"])
+    rows = list(csv.DictReader(io.StringIO(client.get("/due/?export=csv").content.decode())))
+    row = next(r for r in rows if r["service"] == "Replace fan filters")
+    today = site_today(late_plan.subsystem.telescope.site)
+    assert (row["forecast"], row["days past the limit"]) == ("2026-01-01", str((today - dt.date(2026, 1, 1)).days))
+    assert row["last service"] == ""  # none logged: the plan counts from the start given

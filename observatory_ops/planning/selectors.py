@@ -7,7 +7,7 @@ import numpy as np
 from django.db.models import Count, Prefetch, Q, QuerySet
 
 from observatory_ops.calc import forecast
-from observatory_ops.calc.triggers import STATUSES
+from observatory_ops.calc.triggers import OVERDUE, STATUSES
 from observatory_ops.logbook.models import ServiceRecord
 from observatory_ops.logbook.quantities import QUANTITIES, reflectance_text, significant
 from observatory_ops.registry.catalogue import COMMON_PRACTICE, KINDS
@@ -220,7 +220,7 @@ def due_record(status: PlanStatus) -> dict:
 #: Columns of the due list's CSV download, for people: names as the page shows them, dates in ISO form.
 DUE_CSV_HEADER = (
     "status", "site", "telescope", "subsystem", "service", "trigger", "now", "limit", "unit", "rate per day",
-    "forecast", "earliest", "latest", "why",
+    "forecast", "earliest", "latest", "last service", "days past the limit", "why",
 )
 
 
@@ -236,10 +236,17 @@ def due_csv_row(status: PlanStatus) -> list:
     value, limit, unit = record["value"], status.limit, status.unit
     if status.metric == metrics.RECOAT_LINE:  # a reflectance, written as every page writes one
         value, limit, unit = reflectance_text(status.value), reflectance_text(status.limit), "fraction"
+    from .services import site_today  # services reads this module
+
+    last = status.last_service_on.isoformat() if status.last_service_on else "not known" if \
+        status.last_service_unknown else ""
+    # How long an overdue plan has been past its limit, at the site's today (its forecast date is the day it passed).
+    past = (site_today(subsystem.telescope.site) - status.forecast_date).days if \
+        status.status == OVERDUE and status.forecast_date and not status.last_service_unknown else ""
     return [
         status.get_status_display(), subsystem.telescope.site.name, subsystem.telescope.name, subsystem.name,
         status.plan.name, metrics.METRICS[status.metric][0], status.progress if unknown else value, limit, unit,
-        record["rate"], record["forecast_date"], record["earliest"], record["latest"], status.reason,
+        record["rate"], record["forecast_date"], record["earliest"], record["latest"], last, past, status.reason,
     ]
 
 
