@@ -333,6 +333,23 @@ def test_a_cleaning_logged_on_the_mirror_page_restarts_its_cleaning_plan(mirror,
     assert not ServiceRecord.objects.filter(plan=_recoat_plan(mirror)).exists()
 
 
+def test_a_cleaning_entered_from_an_old_logbook_says_the_plan_keeps_its_later_service(mirror, users, client):
+    """A reviewer logged a cleaning dated years back and was told the plan "restarts its counting" from then, though a
+    later service stood: a plan counts from its latest service, and the message says so."""
+    clean = ServicePlan.objects.get(subsystem=mirror.subsystem, triggers__metric=metrics.DUST_HOURS)
+    recent, old = _today(mirror) - dt.timedelta(days=3), _today(mirror) - dt.timedelta(days=200)
+    client.force_login(users["technician"])
+    client.post(f"/mirrors/{mirror.pk}/cleanings/new/", {"cleaned_on": recent.isoformat(), "method": "co2_snow",
+                                                         "note": ""})
+    response = client.post(f"/mirrors/{mirror.pk}/cleanings/new/", {"cleaned_on": old.isoformat(),
+                                                                    "method": "wash", "note": "from the logbook"})
+    assert [str(m) for m in get_messages(response.wsgi_request)][-1] == (
+        f"Cleaning logged; the decline fit counts its recovery, and the plan {clean.name} keeps counting from its "
+        f"later service of {recent:%d %b %Y}."
+    )
+    assert PlanStatus.objects.get(plan=clean).last_service_on == recent
+
+
 def test_a_cleaning_finished_on_its_work_order_gives_the_plan_one_record_not_two(mirror, users):
     from observatory_ops.workorders import services as workorders
 

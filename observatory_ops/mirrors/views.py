@@ -9,6 +9,7 @@ from observatory_ops.access.decorators import requires
 from observatory_ops.access.roles import ENGINEER, TECHNICIAN, VIEWER
 from observatory_ops.archive.history import changes
 from observatory_ops.calc import coating
+from observatory_ops.planning.models import PlanStatus
 from observatory_ops.planning.services import site_today
 from observatory_ops.registry.models import Site
 from observatory_ops.workorders.models import WorkOrder
@@ -100,9 +101,18 @@ def _restarted(logged: str, plans: list, day, none: str) -> str:
     again from ``day``, or ``none`` when the mirror has no such plan."""
     if not plans:
         return f"{logged} ({none})."
-    names = ", ".join(p.name for p in plans)
-    restart = "plan {} restarts its" if len(plans) == 1 else "plans {} restart their"
-    return f"{logged}, and the {restart.format(names)} counting from {day:%d %b %Y}."
+    # An event dated before a plan's latest service (entered late, from an old logbook) restarts nothing: the plan
+    # counts from its latest service, as its due state (recomputed on logging) says.
+    latest = dict(PlanStatus.objects.filter(plan__in=plans).values_list("plan_id", "last_service_on"))
+    later = [p for p in plans if latest.get(p.pk) and latest[p.pk] > day]
+    restarted = [p for p in plans if p not in later]
+    said = []
+    if restarted:
+        names = ", ".join(p.name for p in restarted)
+        restart = "plan {} restarts its" if len(restarted) == 1 else "plans {} restart their"
+        said.append(f"the {restart.format(names)} counting from {day:%d %b %Y}")
+    said += [f"the plan {p.name} keeps counting from its later service of {latest[p.pk]:%d %b %Y}" for p in later]
+    return f"{logged}, and " + "; ".join(said) + "."
 
 
 def _cleaning_logged(mirror: Mirror, event) -> str:
