@@ -128,3 +128,12 @@ def test_a_reading_form_sent_twice_stores_one_reading(telescope, users, client):
     assert Reading.objects.filter(subsystem=drive).count() == 1
     client.post(f"/subsystems/{drive.pk}/readings/new/", {**form, "value": "0.62"})
     assert Reading.objects.filter(subsystem=drive).count() == 2
+
+
+def test_the_admins_service_records_name_people_as_the_pages_do(fans, users, admin_client):
+    users["technician"].first_name, users["technician"].last_name = "Ines", "Varga"  # invented
+    users["technician"].save()
+    services.service_record_log(fans, None, site_today(fans.telescope.site), users["technician"], "Fan seized",
+                                repaired_failure=True)
+    page = admin_client.get("/admin/logbook/servicerecord/").content.decode()
+    assert "Ines Varga" in page and "Repaired a failure" in page

@@ -5,6 +5,8 @@ from django.template.defaultfilters import pluralize
 from django.template.response import TemplateResponse
 from simple_history.admin import SimpleHistoryAdmin
 
+from observatory_ops.archive.history import person
+
 from .models import NightUsage, Reading, ServiceRecord
 from .nights_csv import FROM_SITE
 from .services import WHOLE_SITE, left_out_shown, nights_remove
@@ -98,5 +100,11 @@ class ReadingAdmin(ReadOnlyAdmin):
 
 @admin.register(ServiceRecord)
 class ServiceRecordAdmin(ReadOnlyAdmin):
-    list_display = ("performed_on", "subsystem", "plan", "summary", "performed_by", "corrects", "void")
-    list_filter = ("subsystem__telescope",)
+    list_display = ("performed_on", "subsystem", "plan", "summary", "done_by", "work_order", "repaired_failure",
+                    "corrects", "void")
+    list_filter = ("subsystem__telescope", "repaired_failure")
+    list_select_related = ("subsystem__telescope", "plan", "performed_by", "work_order", "corrects")
+
+    @admin.display(description="performed by", ordering="performed_by__last_name")
+    def done_by(self, record: ServiceRecord) -> str:
+        return person(record.performed_by)  # by name, as the pages give people
