@@ -318,3 +318,19 @@ def test_register_texts_saved_unchanged_from_a_browser_record_no_change(engineer
     record.refresh_from_db()
     assert getattr(record, field) == "First line.\nSecond line."
     assert changes(record)[0].fields == []
+
+
+@pytest.mark.parametrize("stored", [1e308, 5_000_000, float("inf")])
+def test_a_calendar_limit_stored_before_the_bound_counts_at_the_bound_and_the_site_still_recomputes(fans, stored):
+    """Limits stored before they were bounded (written here past the model's checks, as an old database holds them)
+    must not stop the site's recompute: counted at 36,500 days, the plan is due a century after its baseline."""
+    from observatory_ops.planning.models import PlanStatus
+    from observatory_ops.planning.services import site_recompute
+
+    plan = fans.plans.first()
+    Trigger.objects.filter(plan=plan).delete()
+    trigger = Trigger.objects.create(plan=plan, metric="calendar_days", limit=30)
+    Trigger.objects.filter(pk=trigger.pk).update(limit=stored)
+    site_recompute(fans.telescope.site)
+    status = PlanStatus.objects.get(plan=plan)
+    assert status.forecast_date == plan.counting_from + dt.timedelta(days=36_500)

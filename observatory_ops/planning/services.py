@@ -9,6 +9,7 @@ from __future__ import annotations
 import datetime as dt
 import functools
 import json
+import math
 from dataclasses import dataclass, replace
 from typing import NamedTuple
 
@@ -752,7 +753,11 @@ def _clamp(day: dt.date | None, today: dt.date) -> dt.date | None:
 
 
 def _calendar_state(trig, baseline: dt.date, today: dt.date) -> TriggerState:
-    due = baseline + dt.timedelta(days=int(round(trig.limit)))
+    # A limit stored before limits were bounded (``metrics.MAX_LIMIT``) may lie beyond any date: counted at the bound,
+    # it is a century away instead of failing the whole site's recompute.
+    bound = metrics.MAX_LIMIT[metrics.CALENDAR_DAYS][0]
+    days = int(round(min(trig.limit, bound))) if math.isfinite(trig.limit) else int(bound)
+    due = baseline + dt.timedelta(days=days)
     return TriggerState(
         metric=metrics.CALENDAR_DAYS,
         value=float((today - baseline).days),
