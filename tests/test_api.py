@@ -632,14 +632,18 @@ def admin_client(client, users):
 def test_admin_creates_a_token_and_shows_its_secret_once(admin_client, client, site, users):
     add_url = reverse("admin:api_apitoken_add")
     assert admin_client.get(add_url).status_code == 200
-    response = admin_client.post(add_url, {"site": site.pk, "name": "east dome", "purpose": "control"})
-    assert response.status_code == 200
+    response = admin_client.post(add_url, {"site": site.pk, "name": "east dome", "purpose": "control"}, follow=True)
+    assert response.status_code == 200 and len(response.redirect_chain) == 1
     token = ApiToken.objects.get()
     assert token.created_by == users["administrator"]
     page = response.content.decode()
     secret = page.split('<code id="api-token-secret">')[1].split("</code>")[0]
     assert api_services.secret_digest(secret) == token.secret_sha256
     assert "shown only this once" in page
+    # Reloading the page that showed it neither shows it again nor creates a second token (it was reached by a
+    # redirect, not by the form sent again).
+    again = admin_client.get(response.redirect_chain[0][0]).content.decode()
+    assert secret not in again and "is not kept" in again and ApiToken.objects.count() == 1
     for url in (reverse("admin:api_apitoken_changelist"), reverse("admin:api_apitoken_change", args=[token.pk])):
         shown = admin_client.get(url)
         assert shown.status_code == 200 and secret not in shown.content.decode()

@@ -70,6 +70,7 @@ def test_the_link_is_refused_without_a_valid_token_of_its_site(client, planned, 
     assert feed(client, other_site.slug, secret).status_code == 403  # another site's calendar
     assert feed(client, "no-such-site", secret).status_code == 404
     assert feed(client, planned.slug, secret, method="post").status_code == 405
+    assert feed(client, planned.slug, secret, method="head").status_code == 200  # some applications look first
     services.api_token_revoke(ApiToken.objects.get(purpose=CALENDAR))
     revoked = feed(client, planned.slug, secret)
     assert revoked.status_code == 401 and "revoked" in revoked.json()["errors"][0]["message"]
@@ -110,7 +111,7 @@ def test_the_command_prints_the_link_to_subscribe_to(client, planned):
 
 def test_the_administrator_creates_a_calendar_token_and_is_shown_its_link(admin_client, client, planned):
     page = admin_client.post("/admin/api/apitoken/add/", {"site": planned.pk, "name": "workshop calendar",
-                                                    "purpose": CALENDAR}).content.decode()
+                                                    "purpose": CALENDAR}, follow=True).content.decode()
     token = ApiToken.objects.get()
     link = re.search(r'<pre id="calendar-link">([^<]+)</pre>', page).group(1).replace("&amp;", "&")
     assert link.startswith(f"http://testserver/api/v1/sites/{planned.slug}/planned-work.ics?token={token.prefix}")

@@ -239,9 +239,9 @@ def test_a_reading_of_a_kinds_own_quantity_is_stored_from_the_form(client, teles
 
 def test_a_reading_far_beyond_its_plans_limit_is_asked_about_before_it_is_logged(telescope, users, client):
     """A reviewer typed a settle time of 800 (milliseconds) into the seconds field: within the plausible hour, it was
-    logged and the plan said "800 s against a limit of at most 1 s". A reading more than 100 times the limit its plan
-    watches it rise to (our own factor, common practice, no published source) is asked about; ticked as right, it is
-    logged as typed."""
+    logged and the plan said "800 s against a limit of at most 1 s". A reading more than 10 times the limit its plan
+    watches it rise to (a slipped decimal point; our own factor, common practice, no published source) is asked about;
+    ticked as right, it is logged as typed."""
     from observatory_ops.logbook.models import Reading
     from observatory_ops.planning.services import site_today
     from observatory_ops.registry.services import subsystem_create
@@ -255,6 +255,7 @@ def test_a_reading_far_beyond_its_plans_limit_is_asked_about_before_it_is_logged
     assert page.status_code == 200 and not Reading.objects.exists()
     assert ("800 s is 800 times the plan&#x27;s limit of 1 s: was it typed in another unit (milliseconds for seconds, "
             "say)?") in page.content.decode()
+    assert client.post(f"/subsystems/{drive.pk}/readings/new/", {**form, "value": "30"}).status_code == 200
     assert client.post(f"/subsystems/{drive.pk}/readings/new/", {**form, "value": "1.4"}).status_code == 302
     assert client.post(f"/subsystems/{drive.pk}/readings/new/", {**form, "value_confirmed": "on"}).status_code == 302
     assert sorted(Reading.objects.values_list("value", flat=True)) == [1.4, 800.0]

@@ -558,6 +558,8 @@ def test_the_service_records_of_a_period_download_as_csv_with_how_each_counts(re
         ("logged in error", "", "corrective", "", f"withdraws record {gone.pk}"),
     ]
     assert withdrawal.pk == int(rows[-1]["record_id"])
+    # A reviewer summed hours_spent and got more than the page: counted_hours is what the page adds up.
+    assert [r["counted_hours"] for r in rows] == ["1.0", "2.0", "", "0.5", "", ""]
     assert client.get(f"/sites/{record.slug}/service-records.csv?from=2026-03-32").status_code == 400
     assert client.get(f"/sites/{record.slug}/service-records.csv?from=2026-04-02&to=2026-04-01").status_code == 400
     default = client.get(f"/sites/{record.slug}/service-records.csv")  # the page's 12 months to the site's today

@@ -5,7 +5,9 @@ Nothing here edits or deletes a token: a token that should stop working is revok
 """
 from django.contrib import admin, messages
 from django.core.exceptions import PermissionDenied
+from django.shortcuts import get_object_or_404, redirect
 from django.template.response import TemplateResponse
+from django.urls import path, reverse
 from simple_history.admin import SimpleHistoryAdmin
 
 from observatory_ops.access.roles import ADMINISTRATOR, has_role
@@ -14,6 +16,9 @@ from . import services
 from .forms import ApiTokenCreateForm
 from .models import ApiToken
 from .selectors import calendar_link
+
+#: The session key under which a new token's secret waits for the page that shows it once.
+SHOWN_ONCE = "api_token_shown_once"
 
 
 @admin.register(ApiToken)
@@ -44,22 +49,39 @@ class ApiTokenAdmin(SimpleHistoryAdmin):
         return False  # revoked tokens stay listed: who created which token, and when it stopped working
 
     def add_view(self, request, form_url="", extra_context=None):
-        """The "create token" flow: a short form, then one page that shows the secret, never again."""
+        """The "create token" flow: a short form, then one page that shows the secret, never again. The secret goes
+        to that page through the session and is taken out there, so reloading it neither shows the secret again nor
+        (as a form sent again would) creates a second token."""
         if not self.has_add_permission(request):
             raise PermissionDenied
         form = ApiTokenCreateForm(request.POST or None)
-        context = {**self.admin_site.each_context(request), "opts": self.opts, "form": form}
-        context["title"] = "Create API token"
         if request.method == "POST" and form.is_valid():
             data = form.cleaned_data
             token, secret = services.api_token_create(data["site"], data["name"], by=request.user,
                                                       purpose=data["purpose"])
             self.log_addition(request, token, [{"added": {}}])
-            context.update(title="API token created", token=token, secret=secret)
-            if token.purpose == ApiToken.Purpose.CALENDAR:
-                context["calendar_link"] = calendar_link(token, secret, request.build_absolute_uri("/"))
-            return TemplateResponse(request, "api/token_created.html", context)
+            request.session[SHOWN_ONCE] = {"token": token.pk, "secret": secret}
+            return redirect(reverse("admin:api_apitoken_created", args=[token.pk]))
+        context = {**self.admin_site.each_context(request), "opts": self.opts, "form": form,
+                   "title": "Create API token"}
         return TemplateResponse(request, "api/token_create.html", context)
+
+    def get_urls(self):
+        created = path("<int:pk>/created/", self.admin_site.admin_view(self.created_view), name="api_apitoken_created")
+        return [created, *super().get_urls()]
+
+    def created_view(self, request, pk):
+        """The secret of the token just created, once: taken out of the session as it is shown."""
+        if not self.has_add_permission(request):
+            raise PermissionDenied
+        token = get_object_or_404(ApiToken.objects.select_related("site"), pk=pk)
+        kept = request.session.get(SHOWN_ONCE) or {}
+        secret = request.session.pop(SHOWN_ONCE)["secret"] if kept.get("token") == token.pk else ""
+        context = {**self.admin_site.each_context(request), "opts": self.opts, "title": "API token created",
+                   "token": token, "secret": secret}
+        if secret and token.purpose == ApiToken.Purpose.CALENDAR:
+            context["calendar_link"] = calendar_link(token, secret, request.build_absolute_uri("/"))
+        return TemplateResponse(request, "api/token_created.html", context)
 
     @admin.action(description="Revoke the selected tokens")
     def revoke(self, request, queryset):

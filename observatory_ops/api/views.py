@@ -68,7 +68,7 @@ def due_list(request, site):
     return JsonResponse([due_record(status) for status in due_rows().filter(site=site)], safe=False)
 
 
-@api_token_required("GET", purpose=ApiToken.Purpose.CALENDAR)
+@api_token_required("GET", "HEAD", purpose=ApiToken.Purpose.CALENDAR)  # some applications look with HEAD first
 def planned_work_calendar(request, site):
     """The site's planned work, as the signed-in download has it, for a calendar application to fetch again and
     again: events keep their UIDs, so a moved or withdrawn order moves or is marked off in the subscriber's

@@ -51,9 +51,10 @@ class CorrectionForm(forms.Form):
 
 
 #: A reading more than this many times the limit its plan watches it rise to is asked about before it is logged: a
-#: value typed in milliseconds for seconds is 1,000 times too large, while a reading that has truly run away is seldom
-#: more than ten times its limit. Our own factor, common practice, no published source.
-UNIT_SLIP_FACTOR = 100
+#: value typed in milliseconds for seconds is 1,000 times too large, a slipped decimal point 10 times; a reading that
+#: has truly run that far is rare enough that one more tick costs nothing. Our own factor, common practice, no
+#: published source.
+UNIT_SLIP_FACTOR = 10
 
 
 class ReadingForm(forms.Form):

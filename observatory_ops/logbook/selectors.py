@@ -90,7 +90,8 @@ def nights_longer_than_the_night(site: Site, nights: list[NightUsage]) -> list[s
 #: marked, so the year's trail is whole; only "current" records count on the reliability page.
 SERVICE_CSV_HEADER = (
     "performed_on", "telescope", "subsystem", "plan", "limit_passed_on", "days_after_limit", "work_order",
-    "maintenance_type", "hours_spent", "performed_by", "summary", "findings", "standing", "record_id",
+    "maintenance_type", "hours_spent", "counted_hours", "performed_by", "crew", "summary", "findings", "standing",
+    "record_id",
 )
 
 
@@ -109,8 +110,14 @@ def service_records_csv_rows(site: Site, first: dt.date, last: dt.date):
             r.work_order.number if r.work_order else "",
             maintenance_type(r.work_order.order_type if r.work_order else None, r.plan_id, r.repaired_failure),
             "" if r.hours_spent is None else r.hours_spent,
-            r.performed_by.get_full_name() or r.performed_by.username, r.summary, r.findings, _standing(r), r.pk,
+            # What the reliability page adds up: a current record's hours; a replaced record or a withdrawal none.
+            r.hours_spent if r.hours_spent is not None and _standing(r) == CURRENT else "",
+            r.performed_by.get_full_name() or r.performed_by.username,
+            ", ".join(r.work_order.crew or ()) if r.work_order else "", r.summary, r.findings, _standing(r), r.pk,
         )
+
+
+CURRENT = "current"
 
 
 def _standing(record: ServiceRecord) -> str:
@@ -119,5 +126,5 @@ def _standing(record: ServiceRecord) -> str:
         return f"withdraws record {record.corrects_id}"
     correction = getattr(record, "corrected_by", None)  # a reverse one-to-one: absent when there is none
     if correction is None:
-        return "current"
+        return CURRENT
     return "withdrawn" if correction.void else f"superseded by record {correction.pk}"

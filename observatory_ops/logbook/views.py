@@ -78,6 +78,9 @@ def service_log(request, pk):
             messages.success(request, "Service work logged" + (
                 f"; the plan '{data['plan'].name}' counts again from {data['performed_on']:%d %b %Y}."
                 if data["plan"] else " (ad hoc work: no plan's counting restarts)."
+            ) + (
+                f" The reliability page counts it as a failure on the night of "
+                f"{data['performed_on'] - dt.timedelta(days=1):%d %b %Y}." if data["repaired_failure"] else ""
             ))
             return redirect(subsystem)
     return render(request, "logbook/service_form.html", {"form": form, "subsystem": subsystem, "site": site})

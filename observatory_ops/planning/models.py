@@ -215,6 +215,10 @@ class Trigger(models.Model):
         ordering = ["plan", "metric"]
 
     def __str__(self) -> str:
+        if self.metric == READING and self.quantity in QUANTITIES:
+            label, unit = QUANTITIES[self.quantity]  # "Settle time after a slew, at most 1.2 s", as the pages say it
+            bound = "at most" if self.direction == self.Direction.ABOVE else "at least"
+            return f"{label}, {bound} {self.limit:g} {unit}"
         return f"{self.get_metric_display()} {self.limit:g}"
 
     def clean(self) -> None:

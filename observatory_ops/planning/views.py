@@ -1,6 +1,7 @@
 from django.contrib import messages
 from django.http import HttpResponseBadRequest
 from django.shortcuts import render
+from django.utils import timezone
 from django_tables2 import RequestConfig
 
 from observatory_ops.access.decorators import requires
@@ -28,7 +29,9 @@ def due_list(request):
     if request.GET.get("export") == "csv":
         if unapplied:
             return HttpResponseBadRequest("; ".join(unapplied), content_type="text/plain; charset=utf-8")
-        return csv_response("due-list.csv", selectors.DUE_CSV_HEADER, map(selectors.due_csv_row, filtered.qs))
+        # Dated: "days past the limit" counts to the day it was made (each site's today; the name gives UTC's).
+        return csv_response(f"due-list-{timezone.now():%Y-%m-%d}.csv", selectors.DUE_CSV_HEADER,
+                            map(selectors.due_csv_row, filtered.qs))
     for problem in unapplied:
         messages.warning(request, problem)
     table = DueTable(filtered.qs)
