@@ -24,10 +24,11 @@ from django.conf import settings
 from django.contrib.auth.models import User
 from django.shortcuts import resolve_url
 from django.urls import URLResolver, get_resolver, include, path
+from django.utils import timezone
 
 from observatory_ops.access.decorators import requires
 from observatory_ops.access.roles import ADMINISTRATOR, ROLES, VIEWER, has_role, role_of
-from observatory_ops.logbook.models import ServiceRecord
+from observatory_ops.logbook.models import Reading, ServiceRecord
 from observatory_ops.mirrors.models import Mirror
 from observatory_ops.registry.services import subsystem_create
 from observatory_ops.workorders.models import Part
@@ -110,6 +111,8 @@ def records(site, telescope, users):
     primary = subsystem_create(telescope, "primary_mirror", "Primary mirror", counting_from=dt.date(2025, 1, 1))
     mirror = Mirror.objects.create(subsystem=primary, diameter_mm=500, thickness_mm=60, material="borosilicate")
     part = Part.objects.create(site=site, name="Brake pad set", quantity_on_hand=2)
+    reading = Reading.objects.create(subsystem=subsystem, quantity="brake_release_s", unit="s", value=0.4,
+                                     taken_at=timezone.now(), taken_by=users["technician"])
     return {
         ("sites", "slug"): site.slug,
         ("subsystems", "pk"): subsystem.pk,
@@ -117,6 +120,7 @@ def records(site, telescope, users):
         ("workorders", "pk"): order.pk,
         ("mirrors", "pk"): mirror.pk,
         ("parts", "pk"): part.pk,
+        ("readings", "pk"): reading.pk,
         ("history", "label"): "registry.subsystem",
         ("record", "pk"): subsystem.pk,
         # A move the draft order cannot take, so an allowed empty POST changes nothing either.

@@ -106,6 +106,10 @@ class ReadingForm(forms.Form):
         return data
 
 
+class ReadingWithdrawForm(forms.Form):
+    reason = forms.CharField(max_length=200, help_text="Why it is wrong, e.g. typed in milliseconds, not seconds.")
+
+
 class NightsUploadForm(forms.Form):
     """A nights CSV to import; when the page lists changes to stored nights, their token, with the file kept by the
     view (``views.nights_import``) so confirming them needs no file chosen again (``kept_token``: their token)."""

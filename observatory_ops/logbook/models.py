@@ -85,6 +85,15 @@ class Reading(models.Model):
     taken_at = models.DateTimeField()
     taken_by = models.ForeignKey(settings.AUTH_USER_MODEL, on_delete=models.PROTECT, related_name="+")
     note = models.CharField(max_length=200, blank=True)
+    withdrawn_at = models.DateTimeField(
+        null=True, blank=True, editable=False,
+        help_text="Set when the reading was withdrawn as wrong (``services.reading_withdraw``): it stays on the "
+        "record, marked, and no plan's trend counts it.",
+    )
+    withdrawn_by = models.ForeignKey(
+        settings.AUTH_USER_MODEL, null=True, blank=True, on_delete=models.PROTECT, related_name="+", editable=False,
+    )
+    withdrawn_reason = models.CharField(max_length=200, blank=True, editable=False)
 
     class Meta:
         ordering = ["-taken_at"]

@@ -16,8 +16,16 @@ from observatory_ops.registry.models import Site, Subsystem
 from observatory_ops.reliability.selectors import HOURS_WINDOW_DAYS
 
 from . import nights_csv, services
-from .forms import TELESCOPE_RULE, CorrectionForm, NightForm, NightsUploadForm, ReadingForm, ServiceRecordForm
-from .models import NightUsage, ServiceRecord
+from .forms import (
+    TELESCOPE_RULE,
+    CorrectionForm,
+    NightForm,
+    NightsUploadForm,
+    ReadingForm,
+    ReadingWithdrawForm,
+    ServiceRecordForm,
+)
+from .models import NightUsage, Reading, ServiceRecord
 from .quantities import usual_for_kind
 from .selectors import (
     SERVICE_CSV_HEADER,
@@ -144,6 +152,23 @@ def reading_log(request, pk):
                     messages.warning(request, early)
                 return redirect(subsystem)
         return render(request, "logbook/reading_form.html", {"form": form, "subsystem": subsystem, "site": site})
+
+
+@requires(TECHNICIAN)
+def reading_withdraw(request, pk):
+    """Withdraw a reading logged in error, with the reason: it stays listed, marked, and counts no more."""
+    reading = get_object_or_404(Reading.objects.select_related("subsystem__telescope__site", "taken_by"), pk=pk)
+    form = ReadingWithdrawForm(request.POST or None)
+    if request.method == "POST" and form.is_valid():
+        try:
+            services.reading_withdraw(reading, request.user, form.cleaned_data["reason"])
+        except ValidationError as exc:
+            _form_errors_from(form, exc)
+        else:
+            messages.success(request, "Reading withdrawn: it stays listed, marked, and no plan's trend counts it.")
+            return redirect(reading.subsystem)
+    return render(request, "logbook/reading_withdraw.html",
+                  {"form": form, "reading": reading, "site": reading.subsystem.telescope.site})
 
 
 #: How many removed nights the log page lists under the log (the admin's history keeps them all).

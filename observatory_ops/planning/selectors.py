@@ -434,7 +434,8 @@ def plans_with_plots(subsystem: Subsystem) -> list[ServicePlan]:
         elif status.metric == metrics.READING:
             trigger = _reading_trigger(plan, status.basis)
             rising = trigger.direction == Trigger.Direction.ABOVE
-            taken = list(subsystem.readings.filter(quantity=trigger.quantity).order_by("taken_at")
+            taken = list(subsystem.readings.filter(quantity=trigger.quantity, withdrawn_at__isnull=True)
+                         .order_by("taken_at")
                          .values_list("taken_at", "value"))
             plan.plot = plots.readings_svg(
                 [(plots.day_of(moment, site.zone), value) for moment, value in taken],

@@ -790,7 +790,7 @@ def _readings_by_subsystem_quantity(
     since = dt.datetime.combine(min(wanted.values()), dt.time(), tzinfo=zone)  # no reading before any baseline
     out: dict[tuple[int, str], list[tuple[dt.datetime, float]]] = {}
     for sub_id, quantity, taken_at, value in Reading.objects.filter(
-        subsystem__telescope__site=site, quantity__in=quantities, taken_at__gte=since
+        subsystem__telescope__site=site, quantity__in=quantities, taken_at__gte=since, withdrawn_at__isnull=True,
     ).order_by("taken_at").values_list("subsystem_id", "quantity", "taken_at", "value"):
         key = (sub_id, quantity)
         if key in wanted and taken_at.astimezone(zone).date() >= wanted[key]:

@@ -84,7 +84,7 @@ def subsystem_detail(request, pk):
             "records": subsystem.service_records.select_related(
                 "plan", "performed_by", "corrects", "corrected_by", "work_order"
             ),
-            "readings": subsystem.readings.select_related("taken_by")[:50],
+            "readings": subsystem.readings.select_related("taken_by", "withdrawn_by")[:50],
             "children": subsystem.children.in_service(),
             "hazard_labels": [HAZARDS.get(h, h) for h in subsystem.hazards],
             "history": changes(subsystem, limit=5),

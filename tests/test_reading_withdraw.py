@@ -1,0 +1,84 @@
+"""A reading logged in error is withdrawn, not deleted.
+
+A reviewer logged a settle time of 30 s (a slip) and then could never take it back: it decided the plan ("past the
+limit since the reading of ...") and bent its trend. A technician withdraws it with a reason: it stays listed, struck
+through with who withdrew it and why, no plan's trend counts it, and the site is recomputed at once. A reflectance
+filed among a mirror's measurements is refused here: the mirror's fit reads it, and it is corrected on the mirror's
+record.
+"""
+from __future__ import annotations
+
+import datetime as dt
+
+import pytest
+from django.core.exceptions import ValidationError
+
+from observatory_ops.logbook import services
+from observatory_ops.logbook.models import Reading
+from observatory_ops.planning.models import PlanStatus
+from observatory_ops.planning.services import site_today
+from observatory_ops.registry.services import subsystem_create
+
+pytestmark = pytest.mark.django_db
+
+
+@pytest.fixture
+def drive(telescope):
+    return subsystem_create(telescope, "axis1_drive", "Axis 1 drive",
+                            counting_from=site_today(telescope.site) - dt.timedelta(days=60))
+
+
+def _taken(drive, days_ago: int) -> dt.datetime:
+    day = site_today(drive.telescope.site) - dt.timedelta(days=days_ago)
+    return dt.datetime.combine(day, dt.time(22, 30), tzinfo=drive.telescope.site.zone)
+
+
+def _settle_status(drive) -> PlanStatus:
+    return PlanStatus.objects.get(plan__subsystem=drive, plan__triggers__quantity="settle_time_s")
+
+
+def test_a_wrong_reading_withdrawn_stays_listed_and_no_longer_decides_the_plan(drive, users, client):
+    for days_ago, value in ((20, 0.60), (10, 0.62)):
+        services.reading_log(drive, "settle_time_s", value, _taken(drive, days_ago), users["technician"])
+    slip = services.reading_log(drive, "settle_time_s", 30.0, _taken(drive, 2), users["technician"])
+    assert _settle_status(drive).status == "overdue"
+
+    client.force_login(users["technician"])
+    page = client.get(drive.get_absolute_url()).content.decode()
+    assert f'href="/readings/{slip.pk}/withdraw/"' in page
+    response = client.post(f"/readings/{slip.pk}/withdraw/", {"reason": "typed in the wrong field"}, follow=True)
+    assert "Reading withdrawn" in response.content.decode()
+    slip.refresh_from_db()
+    assert (slip.withdrawn_by, slip.withdrawn_reason) == (users["technician"], "typed in the wrong field")
+    assert _settle_status(drive).status != "overdue"  # recomputed without it
+    page = client.get(drive.get_absolute_url()).content.decode()
+    assert "<s>30 s</s>" in page and "typed in the wrong field" in page
+    assert Reading.objects.filter(subsystem=drive).count() == 3  # nothing deleted
+
+
+def test_a_withdrawal_needs_a_reason_and_happens_once(drive, users, client):
+    reading = services.reading_log(drive, "settle_time_s", 0.6, _taken(drive, 3), users["technician"])
+    client.force_login(users["technician"])
+    page = client.post(f"/readings/{reading.pk}/withdraw/", {"reason": "  "})
+    assert page.status_code == 200 and Reading.objects.get(pk=reading.pk).withdrawn_at is None
+    services.reading_withdraw(reading, users["technician"], "wrong subsystem")
+    with pytest.raises(ValidationError, match="already withdrawn"):
+        services.reading_withdraw(reading, users["engineer"], "again")
+    client.force_login(users["viewer"])
+    assert client.post(f"/readings/{reading.pk}/withdraw/", {"reason": "x"}).status_code in (302, 403)
+
+
+def test_a_reflectance_filed_on_a_mirror_is_corrected_on_the_mirrors_record(telescope, users):
+    from observatory_ops.mirrors.models import CoatingEvent, Mirror
+
+    primary = subsystem_create(telescope, "primary_mirror", "Primary",
+                               counting_from=site_today(telescope.site) - dt.timedelta(days=60))
+    mirror = Mirror.objects.create(subsystem=primary, diameter_mm=500, thickness_mm=50, material="borosilicate")
+    CoatingEvent.objects.create(mirror=mirror, coated_on=site_today(telescope.site) - dt.timedelta(days=60),
+                                metal="al")
+    taken = dt.datetime.combine(site_today(telescope.site) - dt.timedelta(days=1), dt.time(12),
+                                tzinfo=telescope.site.zone)
+    reading = services.reading_log(primary, "reflectance", 0.87, taken, users["technician"])
+    with pytest.raises(ValidationError, match="among the mirror's measurements"):
+        services.reading_withdraw(reading, users["technician"], "wrong mirror")
+    assert Reading.objects.get(pk=reading.pk).withdrawn_at is None
