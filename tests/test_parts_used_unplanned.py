@@ -92,3 +92,24 @@ def test_the_parts_used_of_a_period_download_as_csv(order, filters, fan, users, 
     before = client.get(f"/sites/{order.site.slug}/parts/used.csv?to=2020-01-01&from=2019-01-01").content.decode()
     assert before.splitlines()[1:] == []
     assert client.get(f"/sites/{order.site.slug}/parts/used.csv?from=yesterday").status_code == 400
+
+
+def test_a_part_counted_in_whole_units_takes_no_fraction(order, filters, fan, users):
+    """A reviewer finished an order with 1.5 filters "each": the register then held "0.50 each". A part whose unit
+    counts whole parts (each, set, pair ...; our own list) takes whole numbers; a part sold by the metre takes any."""
+    from observatory_ops.workorders.models import COUNTED_UNITS
+
+    assert "each" in COUNTED_UNITS and "m" not in COUNTED_UNITS
+    use = PartUse.objects.get(part=filters)
+    with pytest.raises(services.Refused, match="Filter used: 1.5 is not a whole number, and Filter is counted in"):
+        services.work_order_finish(order, users["technician"], 1.0, "ok", _all_readings(order, 0.6), {use.pk: 1.5},
+                                   **_confirmed(order))
+    with pytest.raises(services.Refused, match="is not a whole number"):
+        services.work_order_finish(order, users["technician"], 1.0, "ok", _all_readings(order, 0.6), {use.pk: 1},
+                                   parts_added=[(fan, 0.5)], **_confirmed(order))
+    _nothing_stored(order)
+    cable = Part.objects.create(site=order.site, name="Drag chain cable", unit="m", quantity_on_hand=10)
+    services.work_order_finish(order, users["technician"], 1.0, "ok", _all_readings(order, 0.6), {use.pk: 1},
+                               parts_added=[(cable, 2.5)], **_confirmed(order))
+    cable.refresh_from_db()
+    assert cable.quantity_on_hand == 7.5

@@ -177,7 +177,8 @@ def test_a_repair_logged_without_an_order_counts_as_a_failure_until_withdrawn(re
     assert [(f.subsystem, f.night, f.order_number) for f in listed] == [("T1: Fan B", dt.date(2026, 4, 9), "")]
     assert fans().hours_by_type["corrective"] == corrective_before + 1.25
     page = client.get(reverse("site-reliability", args=[record.slug])).content.decode()
-    assert "logged without an order: T1: Fan B: night of 09 Apr 2026" in page
+    assert (f'<a href="/subsystems/{fan_b.pk}/">logged without an order</a>: T1: Fan B: night of 09 Apr 2026'
+            in page)
     assert "repair of a failure (no work order)" in client.get(fan_b.get_absolute_url()).content.decode()
 
     corrected = service_record_correct(record_, users["engineer"], "Fan seized; replaced (bearing)",

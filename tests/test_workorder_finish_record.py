@@ -289,7 +289,8 @@ def test_more_used_than_the_register_held_finishes_and_the_shortfall_is_kept(ord
     (0, 2, 2), (1, 1, 0), (0.3, 0.1 + 0.2, 0),  # 0.1 + 0.2 m of cable: no shortfall of a rounding error
 ])
 def test_the_register_never_goes_below_zero(order, filters, users, on_hand, used, short):  # noqa: F811
-    Part.objects.filter(pk=filters.pk).update(quantity_on_hand=on_hand)
+    # Kept by the metre, as cable is (a part counted in whole units takes no fraction: COUNTED_UNITS).
+    Part.objects.filter(pk=filters.pk).update(quantity_on_hand=on_hand, unit="m")
     use = PartUse.objects.get(part=filters)
     services.work_order_finish(order, users["technician"], 1.0, "ok", _all_readings(order, 0.6), {use.pk: used},
                                **_confirmed(order))

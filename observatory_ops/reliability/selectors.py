@@ -109,6 +109,7 @@ class Failure(NamedTuple):
     order_number: str  # "" for a repair logged without an order (``ServiceRecord.repaired_failure``)
     order_id: int | None
     hours: float = 0.0
+    subsystem_id: int | None = None  # where a repair logged without an order is found (its service history)
 
 
 @dataclass
@@ -254,7 +255,8 @@ def site_reliability(site: Site, today: dt.date | None = None) -> SiteReliabilit
         subsystem__telescope__site=site, repaired_failure=True, work_order__isnull=True, corrected_by__isnull=True,
         void=False,
     ).values_list("subsystem_id", "performed_on"):
-        failed_at[subsystem_id].append(Failure("", repaired_on - dt.timedelta(days=1), "", None))
+        failed_at[subsystem_id].append(Failure("", repaired_on - dt.timedelta(days=1), "", None,
+                                               subsystem_id=subsystem_id))
 
     kinds = {code: KindReliability(code, spec.label) for code, spec in KINDS.items()}
     kind_of = {}

@@ -303,6 +303,22 @@ def part_quantity_too_many(label: str) -> str:
     return f"{label}: more than {PART_QUANTITY_MAX:,} of one part is not accepted; check the figure"
 
 
+#: Units a part is counted in whole: a register in one of these holds whole parts, so 1.5 of them is a slip (half a
+#: fan is not a part). Other units (m, kg, l, g ...) take fractions. Our own list, common practice.
+COUNTED_UNITS = frozenset({
+    "each", "ea", "piece", "pieces", "pc", "pcs", "set", "sets", "pair", "pairs", "unit", "units", "kit", "kits",
+    "box", "boxes", "bottle", "bottles", "cylinder", "cylinders", "roll", "rolls",
+})
+
+
+def part_quantity_not_whole(part: Part, quantity: float, label: str) -> str:
+    """Why ``quantity`` of ``part`` cannot be right as a count ("" when it can): a part counted in whole units
+    (``COUNTED_UNITS``) given a fraction. ``label`` names the figure, as ``part_quantity_too_many``'s does."""
+    if part.unit.strip().lower() in COUNTED_UNITS and quantity != int(quantity):
+        return f"{label}: {quantity:g} is not a whole number, and {part.name} is counted in whole {part.unit}"
+    return ""
+
+
 def _at_most_part_quantity(label: str) -> MaxValueValidator:
     return MaxValueValidator(PART_QUANTITY_MAX, message=f"{part_quantity_too_many(label)}.")
 

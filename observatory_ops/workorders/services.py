@@ -50,6 +50,7 @@ from .models import (
     State,
     WorkOrder,
     WorkOrderItem,
+    part_quantity_not_whole,
     part_quantity_too_many,
 )
 from .selectors import (
@@ -585,6 +586,8 @@ def work_order_finish(
             raise Refused(f"{use.part.name} used: enter a number of 0 or more, not {quantity!r}")
         if quantity > PART_QUANTITY_MAX:
             raise Refused(part_quantity_too_many(f"{use.part.name} used"))
+        if problem := part_quantity_not_whole(use.part, quantity, f"{use.part.name} used"):
+            raise Refused(problem)
     if problem := _parts_added_problem(order, uses, parts_added):
         raise Refused(problem)
     if isinstance(crew, str):  # one string would be read as a name per character
@@ -713,6 +716,8 @@ def _parts_added_problem(order: WorkOrder, uses: Sequence[PartUse], parts_added:
             return f"{part.name} used: enter a number above 0, not {quantity!r}"
         if quantity > PART_QUANTITY_MAX:
             return part_quantity_too_many(f"{part.name} used")
+        if problem := part_quantity_not_whole(part, quantity, f"{part.name} used"):
+            return problem
     return ""
 
 
@@ -893,6 +898,8 @@ def part_add(order: WorkOrder, part: Part, quantity: float) -> PartUse:
         raise Refused(f"quantity of {part.name}: enter a number above zero, not {quantity!r}")
     if quantity > PART_QUANTITY_MAX:
         raise Refused(part_quantity_too_many(f"quantity of {part.name}"))
+    if problem := part_quantity_not_whole(part, quantity, f"quantity of {part.name}"):
+        raise Refused(problem)
     return PartUse.objects.create(work_order=order, part=part, quantity_planned=quantity)
 
 
@@ -908,6 +915,8 @@ def part_count_record(part: Part, counted: float, by) -> list[PartUse]:
         raise Refused(f"counted {part.name}: enter the number on the shelf, 0 or more")
     if counted > PART_QUANTITY_MAX:
         raise Refused(part_quantity_too_many(f"counted {part.name}"))
+    if problem := part_quantity_not_whole(part, counted, f"counted {part.name}"):
+        raise Refused(problem)
     with transaction.atomic():
         current = Part.objects.select_for_update().get(pk=part.pk)
         waiting = list(PartUse.objects.filter(part=current, quantity_short__gt=0, short_counted_at__isnull=True))
