@@ -339,33 +339,28 @@ class Subsystem(models.Model):
         if self.retired_on:
             self._clean_retired_on()
 
-    def _clean_retired_on(self) -> None:
+    def _clean_service_date(self, field: str, label: str, when_future: str) -> None:
+        """A date of the subsystem's service life (``field``, called ``label`` on the page): from
+        ``EARLIEST_IN_SERVICE`` on (an earlier one is a typing slip), and not after the site's today."""
         from observatory_ops.planning.services import site_today  # planning's models import this module
 
-        retired = self.retired_on
-        if retired < EARLIEST_IN_SERVICE:
-            raise ValidationError({"retired_on": f"Retired on {retired:%d %b %Y} looks mistyped: give a date from "
-                                                 f"{EARLIEST_IN_SERVICE:%Y} on."})
+        day = getattr(self, field)
+        if day < EARLIEST_IN_SERVICE:
+            raise ValidationError({field: f"{label} {day:%d %b %Y} looks mistyped: give a date from "
+                                          f"{EARLIEST_IN_SERVICE:%Y} on."})
         if self.telescope_id:
             today = site_today(self.telescope.site)
-            if retired > today:
-                raise ValidationError({"retired_on": f"Retired on {retired:%d %b %Y} is in the future: the site's "
-                                                     f"today is {today:%d %b %Y}. Retire it on the day it leaves "
-                                                     "service, not before."})
+            if day > today:
+                raise ValidationError({field: f"{label} {day:%d %b %Y} is in the future: the site's today is "
+                                              f"{today:%d %b %Y}. {when_future}"})
+
+    def _clean_retired_on(self) -> None:
+        self._clean_service_date("retired_on", "Retired on", "Retire it on the day it leaves service, not before.")
 
     def _clean_in_service_since(self) -> None:
-        from observatory_ops.planning.services import site_today  # planning's models import this module
-
+        self._clean_service_date("in_service_since", "In service since",
+                                 "Give the day it went into service, or leave it empty.")
         since = self.in_service_since
-        if since < EARLIEST_IN_SERVICE:
-            raise ValidationError({"in_service_since": f"In service since {since:%d %b %Y} looks mistyped: give a "
-                                                       f"date from {EARLIEST_IN_SERVICE:%Y} on."})
-        if self.telescope_id:
-            today = site_today(self.telescope.site)
-            if since > today:
-                raise ValidationError({"in_service_since": f"In service since {since:%d %b %Y} is in the future: the "
-                                                           f"site's today is {today:%d %b %Y}. Give the day it went "
-                                                           "into service, or leave it empty."})
         if self.retired_on and since > self.retired_on:
             raise ValidationError({"in_service_since": f"In service since {since:%d %b %Y} is after the day it was "
                                                        f"retired ({self.retired_on:%d %b %Y})."})
