@@ -124,3 +124,11 @@ def other_site(db) -> Site:
     return Site.objects.create(
         name="Other Mesa", slug="other-mesa", latitude_deg=-30.0, longitude_deg=20.0, time_zone="Africa/Johannesburg"
     )
+
+
+def test_the_admins_token_list_gives_times_at_the_site(admin_client, planned):
+    """A reviewer read "03 Dec 2026 04:39" in the token list while it was 02 Dec 21:39 at the site: the list gives
+    each token's times in its site's zone, named."""
+    services.api_token_create(planned, "workshop calendar", purpose=CALENDAR)
+    page = admin_client.get("/admin/api/apitoken/").content.decode()
+    assert f"({planned.time_zone})" in page and "never" in page

@@ -17,17 +17,36 @@ from .forms import ApiTokenCreateForm
 from .models import ApiToken
 from .selectors import calendar_link
 
+
+def _at_site(token: ApiToken, when) -> str:
+    """A time of a token as its site's pages give times: the site's local time, the zone named."""
+    return f"{when.astimezone(token.site.zone):%d %b %Y %H:%M} ({token.site.time_zone})" if when else ""
+
+
 #: The session key under which a new token's secret waits for the page that shows it once.
 SHOWN_ONCE = "api_token_shown_once"
 
 
 @admin.register(ApiToken)
 class ApiTokenAdmin(SimpleHistoryAdmin):
-    list_display = ("name", "site", "purpose", "shown_prefix", "created_at", "created_by", "last_used_at", "revoked_at")
+    list_display = ("name", "site", "purpose", "shown_prefix", "created", "created_by", "last_used", "revoked")
+    list_select_related = ("site", "created_by")
     list_filter = ("site", "purpose", ("revoked_at", admin.EmptyFieldListFilter))
     fields = ("site", "name", "purpose", "shown_prefix", "created_at", "created_by", "last_used_at", "revoked_at")
     readonly_fields = fields
     actions = ["revoke"]
+
+    @admin.display(description="created (site time)", ordering="created_at")
+    def created(self, token: ApiToken) -> str:
+        return _at_site(token, token.created_at)
+
+    @admin.display(description="last used (site time)", ordering="last_used_at")
+    def last_used(self, token: ApiToken) -> str:
+        return _at_site(token, token.last_used_at) or "never"
+
+    @admin.display(description="revoked (site time)", ordering="revoked_at")
+    def revoked(self, token: ApiToken) -> str:
+        return _at_site(token, token.revoked_at)
 
     @admin.display(description="token starts with")
     def shown_prefix(self, token: ApiToken) -> str:

@@ -79,7 +79,8 @@ def api_token_required(*methods: str, purpose: str = ApiToken.Purpose.CONTROL):
                 return _unauthorised("the API token is not known", "invalid_token")
             if not token.active:
                 return _unauthorised(
-                    f"the API token '{token.name}' was revoked on {token.revoked_at:%Y-%m-%d}", "invalid_token"
+                    f"the API token '{token.name}' was revoked on "
+                    f"{token.revoked_at.astimezone(token.site.zone):%Y-%m-%d} (at the site)", "invalid_token"
                 )
             site = Site.objects.filter(slug=slug).first()
             if site is None:
