@@ -14,7 +14,7 @@ import pytest
 from django.core.exceptions import ValidationError
 
 from observatory_ops.logbook import services
-from observatory_ops.logbook.models import Reading
+from observatory_ops.logbook.models import NightUsage, Reading
 from observatory_ops.planning.models import PlanStatus
 from observatory_ops.planning.services import site_today
 from observatory_ops.registry.services import subsystem_create
@@ -68,17 +68,39 @@ def test_a_withdrawal_needs_a_reason_and_happens_once(drive, users, client):
     assert client.post(f"/readings/{reading.pk}/withdraw/", {"reason": "x"}).status_code in (302, 403)
 
 
-def test_a_reflectance_filed_on_a_mirror_is_corrected_on_the_mirrors_record(telescope, users):
-    from observatory_ops.mirrors.models import CoatingEvent, Mirror
+def test_a_reflectance_filed_on_a_mirror_is_withdrawn_with_its_measurement(telescope, users, client):
+    """A reflectance reading is also one of the mirror's measurements: withdrawn on either page, both are marked, and
+    the mirror's decline fit leaves it out (a 0.58 typed for 0.85 would otherwise bend the recoat forecast)."""
+    from observatory_ops.mirrors.models import CoatingEvent, Mirror, ReflectanceMeasurement
+    from observatory_ops.mirrors.services import measurement_log, measurement_withdraw, mirror_forecast
 
     primary = subsystem_create(telescope, "primary_mirror", "Primary",
                                counting_from=site_today(telescope.site) - dt.timedelta(days=60))
     mirror = Mirror.objects.create(subsystem=primary, diameter_mm=500, thickness_mm=50, material="borosilicate")
-    CoatingEvent.objects.create(mirror=mirror, coated_on=site_today(telescope.site) - dt.timedelta(days=60),
-                                metal="al")
-    taken = dt.datetime.combine(site_today(telescope.site) - dt.timedelta(days=1), dt.time(12),
-                                tzinfo=telescope.site.zone)
-    reading = services.reading_log(primary, "reflectance", 0.87, taken, users["technician"])
-    with pytest.raises(ValidationError, match="among the mirror's measurements"):
-        services.reading_withdraw(reading, users["technician"], "wrong mirror")
-    assert Reading.objects.get(pk=reading.pk).withdrawn_at is None
+    today = site_today(telescope.site)
+    CoatingEvent.objects.create(mirror=mirror, coated_on=today - dt.timedelta(days=60), metal="al")
+    NightUsage.objects.bulk_create(NightUsage(site=telescope.site, night=today - dt.timedelta(days=d), open_hours=5,
+                                              pm10_ugm3=30) for d in range(1, 61))
+    for days_ago, value in ((50, 0.89), (40, 0.888), (30, 0.885)):
+        measurement_log(mirror, users["technician"], today - dt.timedelta(days=days_ago), value)
+    taken = dt.datetime.combine(today - dt.timedelta(days=1), dt.time(12), tzinfo=telescope.site.zone)
+    slip = services.reading_log(primary, "reflectance", 0.58, taken, users["technician"])
+    assert mirror_forecast(Mirror.objects.get(pk=mirror.pk)).fit.n_points == 4
+
+    client.force_login(users["technician"])
+    filed = ReflectanceMeasurement.objects.get(reading=slip)
+    page = client.get(mirror.get_absolute_url()).content.decode()  # it showed a 500: the fit's R0 came out above 1
+    assert f'href="/measurements/{filed.pk}/withdraw/"' in page
+    assert "is no reflectance, so check the measurements" in page
+    response = client.post(f"/measurements/{filed.pk}/withdraw/", {"reason": "0.58 typed for 0.85"}, follow=True)
+    assert "the logbook reading it came from is withdrawn with it" in response.content.decode()
+    filed.refresh_from_db()
+    slip.refresh_from_db()
+    assert filed.withdrawn_reason == slip.withdrawn_reason == "0.58 typed for 0.85"
+    assert mirror_forecast(Mirror.objects.get(pk=mirror.pk)).fit.n_points == 3  # left out of the fit
+    assert "not fitted" in client.get(mirror.get_absolute_url()).content.decode()
+
+    typed = measurement_log(mirror, users["technician"], today, 0.5)  # entered on the mirror page, no reading
+    measurement_withdraw(typed, users["engineer"], "wrong mirror")
+    with pytest.raises(ValidationError, match="already withdrawn"):
+        measurement_withdraw(ReflectanceMeasurement.objects.get(pk=typed.pk), users["engineer"], "again")

@@ -29,7 +29,7 @@ from django.utils import timezone
 from observatory_ops.access.decorators import requires
 from observatory_ops.access.roles import ADMINISTRATOR, ROLES, VIEWER, has_role, role_of
 from observatory_ops.logbook.models import Reading, ServiceRecord
-from observatory_ops.mirrors.models import Mirror
+from observatory_ops.mirrors.models import Mirror, ReflectanceMeasurement
 from observatory_ops.registry.services import subsystem_create
 from observatory_ops.workorders.models import Part
 from observatory_ops.workorders.services import work_order_ad_hoc
@@ -111,6 +111,8 @@ def records(site, telescope, users):
     primary = subsystem_create(telescope, "primary_mirror", "Primary mirror", counting_from=dt.date(2025, 1, 1))
     mirror = Mirror.objects.create(subsystem=primary, diameter_mm=500, thickness_mm=60, material="borosilicate")
     part = Part.objects.create(site=site, name="Brake pad set", quantity_on_hand=2)
+    measurement = ReflectanceMeasurement.objects.create(mirror=mirror, measured_on=dt.date(2025, 6, 1), value=0.86,
+                                                     taken_by=users["technician"])
     reading = Reading.objects.create(subsystem=subsystem, quantity="brake_release_s", unit="s", value=0.4,
                                      taken_at=timezone.now(), taken_by=users["technician"])
     return {
@@ -121,6 +123,7 @@ def records(site, telescope, users):
         ("mirrors", "pk"): mirror.pk,
         ("parts", "pk"): part.pk,
         ("readings", "pk"): reading.pk,
+        ("measurements", "pk"): measurement.pk,
         ("history", "label"): "registry.subsystem",
         ("record", "pk"): subsystem.pk,
         # A move the draft order cannot take, so an allowed empty POST changes nothing either.

@@ -468,12 +468,14 @@ def reading_log(
     return reading
 
 
+WITHDRAWN_FIELDS = ["withdrawn_at", "withdrawn_by", "withdrawn_reason"]
+
+
 def reading_withdraw(reading: Reading, by, reason: str) -> Reading:
     """Withdraw a reading logged in error (a wrong unit, the wrong subsystem): it stays on the record, marked with who
     withdrew it and why, and no plan's trend counts it from now on (the site is recomputed). Nothing is deleted.
-
-    A reflectance reading filed among a mirror's measurements is refused: the measurement is the mirror's evidence,
-    and its fit reads it (an engineer handles it on the mirror's record)."""
+    A reflectance reading filed among a mirror's measurements withdraws that measurement with it (its decline fit
+    leaves it out): the two are one measurement (``mirrors.services.measurement_withdraw``)."""
     reason = reason.strip()
     if not reason:
         raise ValidationError("say why the reading is withdrawn (for example: typed in milliseconds, not seconds)")
@@ -481,14 +483,12 @@ def reading_withdraw(reading: Reading, by, reason: str) -> Reading:
         reading = Reading.objects.select_for_update().select_related("subsystem__telescope__site").get(pk=reading.pk)
         if reading.withdrawn_at is not None:
             raise ValidationError(f"this reading was already withdrawn on {reading.withdrawn_at:%d %b %Y}")
-        if hasattr(reading, "mirror_measurement"):
-            raise ValidationError(
-                "this reflectance is also among the mirror's measurements, which its decline fit reads: the site "
-                "engineer corrects it on the mirror's record"
-            )
-        reading.withdrawn_at, reading.withdrawn_by, reading.withdrawn_reason = timezone.now(), by, reason[:200]
-        reading._history_user = by
-        reading.save(update_fields=["withdrawn_at", "withdrawn_by", "withdrawn_reason"])
+        now = timezone.now()
+        marked = [reading, *([reading.mirror_measurement] if hasattr(reading, "mirror_measurement") else [])]
+        for record in marked:
+            record.withdrawn_at, record.withdrawn_by, record.withdrawn_reason = now, by, reason[:200]
+            record._history_user = by
+            record.save(update_fields=WITHDRAWN_FIELDS)
         site_recompute(reading.subsystem.telescope.site)
     return reading
 

@@ -141,6 +141,15 @@ class ReflectanceMeasurement(models.Model):
         help_text="The logbook reading this measurement comes from (subsystem page or work order); empty when "
         "it was entered as a measurement (mirror page or admin).",
     )
+    withdrawn_at = models.DateTimeField(
+        null=True, blank=True, editable=False,
+        help_text="Set when the measurement was withdrawn as wrong (``services.measurement_withdraw``): it stays "
+        "listed, marked, and the decline fit leaves it out.",
+    )
+    withdrawn_by = models.ForeignKey(
+        settings.AUTH_USER_MODEL, null=True, blank=True, on_delete=models.PROTECT, related_name="+", editable=False,
+    )
+    withdrawn_reason = models.CharField(max_length=200, blank=True, editable=False)
 
     class Meta:
         ordering = ["measured_on", "pk"]

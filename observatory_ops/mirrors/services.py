@@ -21,7 +21,7 @@ from django.utils import timezone
 from observatory_ops.calc import coating, forecast, reflectance, windows
 from observatory_ops.logbook.models import Reading, ServiceRecord
 from observatory_ops.logbook.quantities import reflectance_text
-from observatory_ops.logbook.services import date_problem, service_record_log
+from observatory_ops.logbook.services import WITHDRAWN_FIELDS, date_problem, reading_withdraw, service_record_log
 from observatory_ops.planning import metrics
 from observatory_ops.planning.models import BookedRun, NightSky, ServicePlan
 from observatory_ops.planning.services import (
@@ -136,7 +136,8 @@ def mirror_forecast(
     log = log if log is not None else UsageLog.for_telescope(mirror.subsystem.telescope)
     per_night = log.per_night(metrics.DUST_HOURS, mirror.dust_sensitivity)
     measurements = sorted(
-        (m for m in mirror.measurements.all() if m.measured_on >= last.coated_on and m.wavelength_nm is None),
+        (m for m in mirror.measurements.all()
+         if m.measured_on >= last.coated_on and m.wavelength_nm is None and m.withdrawn_at is None),
         key=lambda m: (m.measured_on, m.pk),
     )
     cleanings = sorted(
@@ -345,10 +346,16 @@ def reflectance_now(state: MirrorForecast) -> ReflectanceNow:
     if state.fresh_band is None:
         return ReflectanceNow(None, None, LEFT_OUT, "no coating recorded, so no fresh value: left out of the total")
     if state.fit is not None:
+        fresh, against = state.fit.r0, "against the fitted fresh value R0"
+        if not 0 < fresh <= 1:  # a wild measurement (0.58 typed for 0.85) can tip the line past any reflectance
+            fresh, against = state.fresh_band, (
+                f"against the computed fresh value: the fitted R0, {reflectance_text(state.fit.r0)}, is no "
+                "reflectance, so check the measurements (one entered in error is withdrawn on this page)"
+            )
         return ReflectanceNow(
-            state.current, state.fit.r0, ESTIMATE,
+            min(max(state.current, 0.0), 1.0), fresh, ESTIMATE,
             f"estimate from the fit at today's exposure ({state.exposure_now_h:,.0f} dust-weighted open hours since "
-            f"the coating of {state.coated_on:%d %b %Y}), against the fitted fresh value R0",
+            f"the coating of {state.coated_on:%d %b %Y}), {against}",
         )
     if state.points:
         measured_on, _, value = state.points[-1]
@@ -990,6 +997,29 @@ def _check_date(mirror: Mirror, day: dt.date, what: str) -> None:
     problem = date_problem(mirror.subsystem.telescope.site, day, what)
     if problem:
         raise ValidationError(problem)
+
+
+def measurement_withdraw(measurement: ReflectanceMeasurement, by, reason: str) -> ReflectanceMeasurement:
+    """Withdraw a measurement entered in error: it stays listed, marked with who withdrew it and why, and the decline
+    fit leaves it out from now on (the site is recomputed). One filed from a logbook reading is withdrawn with its
+    reading, as withdrawing the reading does (``logbook.services.reading_withdraw``)."""
+    if measurement.reading_id is not None:
+        reading_withdraw(measurement.reading, by, reason)
+        measurement.refresh_from_db()
+        return measurement
+    reason = reason.strip()
+    if not reason:
+        raise ValidationError("say why the measurement is withdrawn (for example: 0.58 typed for 0.85)")
+    with transaction.atomic():
+        measurement = ReflectanceMeasurement.objects.select_for_update().get(pk=measurement.pk)
+        if measurement.withdrawn_at is not None:
+            raise ValidationError(f"this measurement was already withdrawn on {measurement.withdrawn_at:%d %b %Y}")
+        measurement.withdrawn_at, measurement.withdrawn_by, measurement.withdrawn_reason = timezone.now(), by, \
+            reason[:200]
+        measurement._history_user = by
+        measurement.save(update_fields=WITHDRAWN_FIELDS)
+        site_recompute(measurement.mirror.subsystem.telescope.site)
+    return measurement
 
 
 def measurement_log(mirror: Mirror, by, measured_on: dt.date, value: float, **fields) -> ReflectanceMeasurement:

@@ -9,6 +9,7 @@ from observatory_ops.access.decorators import requires
 from observatory_ops.access.roles import ENGINEER, TECHNICIAN, VIEWER
 from observatory_ops.archive.history import changes
 from observatory_ops.calc import coating
+from observatory_ops.logbook.forms import ReadingWithdrawForm
 from observatory_ops.planning.models import PlanStatus
 from observatory_ops.planning.services import site_today
 from observatory_ops.registry.models import Site
@@ -16,7 +17,7 @@ from observatory_ops.workorders.models import WorkOrder
 
 from . import calendar_export, plots, response_csv, services
 from .forms import CalculatorForm, CleaningForm, CoatingForm, MeasurementForm, WindowForm
-from .models import Mirror
+from .models import Mirror, ReflectanceMeasurement
 
 
 def _mirror(pk) -> Mirror:
@@ -39,7 +40,8 @@ def mirror_detail(request, pk):
             "train": services.throughput(mirror.subsystem.telescope),
             "coatings": mirror.coatings.all(),
             "cleanings": mirror.cleanings.all(),
-            "measurements": mirror.measurements.select_related("taken_by", "reading").order_by("-measured_on")[:40],
+            "measurements": mirror.measurements.select_related("taken_by", "reading", "withdrawn_by")
+            .order_by("-measured_on")[:40],
             "history": changes(mirror, limit=5),
             "history_label": "mirrors.mirror",
             "history_pk": mirror.pk,
@@ -50,6 +52,29 @@ def mirror_detail(request, pk):
             ],
         },
     )
+
+
+@requires(TECHNICIAN)
+def measurement_withdraw(request, pk):
+    """Withdraw a measurement entered in error, with the reason: it stays listed, marked, and is fitted no more."""
+    measurement = get_object_or_404(
+        ReflectanceMeasurement.objects.select_related("mirror__subsystem__telescope__site", "taken_by", "reading"),
+        pk=pk,
+    )
+    form = ReadingWithdrawForm(request.POST or None)
+    if request.method == "POST" and form.is_valid():
+        try:
+            services.measurement_withdraw(measurement, request.user, form.cleaned_data["reason"])
+        except ValidationError as exc:
+            for message in exc.messages:
+                form.add_error(None, message)
+        else:
+            messages.success(request, "Measurement withdrawn: it stays listed, marked, and the decline fit leaves it "
+                             "out" + ("; the logbook reading it came from is withdrawn with it." if
+                                      measurement.reading_id else "."))
+            return redirect(measurement.mirror)
+    return render(request, "mirrors/measurement_withdraw.html",
+                  {"form": form, "measurement": measurement, "mirror": measurement.mirror})
 
 
 def _dated(mirror: Mirror, date_field: str, **initial) -> dict:
