@@ -92,6 +92,7 @@ def test_a_reflectance_filed_on_a_mirror_is_withdrawn_with_its_measurement(teles
     page = client.get(mirror.get_absolute_url()).content.decode()  # it showed a 500: the fit's R0 came out above 1
     assert f'href="/measurements/{filed.pk}/withdraw/"' in page
     assert "is no reflectance, so check the measurements" in page
+    assert "already below the line" in page and "withdraw it below" in page  # not "crosses about today"
     response = client.post(f"/measurements/{filed.pk}/withdraw/", {"reason": "0.58 typed for 0.85"}, follow=True)
     assert "the logbook reading it came from is withdrawn with it" in response.content.decode()
     filed.refresh_from_db()

@@ -247,7 +247,8 @@ def _latest_against_the_fit(state: MirrorForecast, cleanings_before: list[int]) 
         f"{abs(surprise):.4f} {'above' if surprise > 0 else 'below'}, over {LATEST_OFF_FIT_RMS:g} times their rms "
         f"({before.residual_rms:.4f}).{why} The estimate and the forecast follow the fit of all {fit.n_points} "
         "measurements, which takes every cleaning as recovering the same fraction f; the next measurements show "
-        "whether the mirror holds this level."
+        "whether the mirror holds this level. If it was entered in error, withdraw it (beside it, below): the fit is "
+        "then made without it."
     )
 
 

@@ -62,6 +62,7 @@ def measurement_withdraw(request, pk):
         pk=pk,
     )
     form = ReadingWithdrawForm(request.POST or None)
+    form.fields["reason"].help_text = "Why it is wrong, e.g. 0.58 typed for 0.85, or taken on another mirror."
     if request.method == "POST" and form.is_valid():
         try:
             services.measurement_withdraw(measurement, request.user, form.cleaned_data["reason"])

@@ -315,7 +315,7 @@ def part_quantity_not_whole(part: Part, quantity: float, label: str) -> str:
     """Why ``quantity`` of ``part`` cannot be right as a count ("" when it can): a part counted in whole units
     (``COUNTED_UNITS``) given a fraction. ``label`` names the figure, as ``part_quantity_too_many``'s does."""
     if part.unit.strip().lower() in COUNTED_UNITS and quantity != int(quantity):
-        return f"{label}: {quantity:g} is not a whole number, and {part.name} is counted in whole {part.unit}"
+        return f"{label}: {quantity:g} is not a whole number, and {part.name} is counted in whole parts ({part.unit})"
     return ""
 
 
