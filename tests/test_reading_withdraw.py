@@ -93,6 +93,7 @@ def test_a_reflectance_filed_on_a_mirror_is_withdrawn_with_its_measurement(teles
     assert f'href="/measurements/{filed.pk}/withdraw/"' in page
     assert "is no reflectance, so check the measurements" in page
     assert "already below the line" in page and "withdraw it below" in page  # not "crosses about today"
+    assert "below the line now" in page and "crosses about" not in page  # the chart's marker at now, too
     response = client.post(f"/measurements/{filed.pk}/withdraw/", {"reason": "0.58 typed for 0.85"}, follow=True)
     assert "the logbook reading it came from is withdrawn with it" in response.content.decode()
     filed.refresh_from_db()

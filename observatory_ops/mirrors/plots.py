@@ -44,7 +44,10 @@ def decline_svg(state: MirrorForecast) -> SafeString | None:
         chart.dots([(state.exposure_now_h, state.current)], colour=BAND,
                    label=f"estimate now {reflectance_text(state.current)}")
     if state.crossing_exposure_h is not None and math.isfinite(state.crossing_exposure_h) and state.crossing:
-        chart.marker(state.crossing_exposure_h, state.threshold, f"crosses about {state.crossing:%d %b %Y}")
+        if state.crossing_exposure_h <= state.exposure_now_h:  # crossed already: its date is clamped to today
+            chart.marker(state.exposure_now_h, state.threshold, "below the line now")
+        else:
+            chart.marker(state.crossing_exposure_h, state.threshold, f"crosses about {state.crossing:%d %b %Y}")
     # Keyed in the cleanings' own colour (the recoat line's red is the line's alone).
     chart.text(chart.left + 6, chart.height - chart.bottom - 6, "dashed verticals: cleanings", colour=CLEANING)
     return chart.svg()
