@@ -468,7 +468,14 @@ def reading_log(
     return reading
 
 
-WITHDRAWN_FIELDS = ["withdrawn_at", "withdrawn_by", "withdrawn_reason"]
+def withdrawn_mark(records, by, reason: str) -> None:
+    """Mark records (readings, mirror measurements) withdrawn now by ``by`` for ``reason``, each through ``save`` so
+    the history keeps who did it; the one writing of the three ``withdrawn_*`` fields."""
+    now = timezone.now()
+    for record in records:
+        record.withdrawn_at, record.withdrawn_by, record.withdrawn_reason = now, by, reason[:200]
+        record._history_user = by
+        record.save(update_fields=["withdrawn_at", "withdrawn_by", "withdrawn_reason"])
 
 
 def reading_withdraw(reading: Reading, by, reason: str) -> Reading:
@@ -483,12 +490,9 @@ def reading_withdraw(reading: Reading, by, reason: str) -> Reading:
         reading = Reading.objects.select_for_update().select_related("subsystem__telescope__site").get(pk=reading.pk)
         if reading.withdrawn_at is not None:
             raise ValidationError(f"this reading was already withdrawn on {reading.withdrawn_at:%d %b %Y}")
-        now = timezone.now()
-        marked = [reading, *([reading.mirror_measurement] if hasattr(reading, "mirror_measurement") else [])]
-        for record in marked:
-            record.withdrawn_at, record.withdrawn_by, record.withdrawn_reason = now, by, reason[:200]
-            record._history_user = by
-            record.save(update_fields=WITHDRAWN_FIELDS)
+        withdrawn_mark(
+            [reading, *([reading.mirror_measurement] if hasattr(reading, "mirror_measurement") else [])], by, reason
+        )
         site_recompute(reading.subsystem.telescope.site)
     return reading
 

@@ -21,7 +21,7 @@ from django.utils import timezone
 from observatory_ops.calc import coating, forecast, reflectance, windows
 from observatory_ops.logbook.models import Reading, ServiceRecord
 from observatory_ops.logbook.quantities import reflectance_text
-from observatory_ops.logbook.services import WITHDRAWN_FIELDS, date_problem, reading_withdraw, service_record_log
+from observatory_ops.logbook.services import date_problem, reading_withdraw, service_record_log, withdrawn_mark
 from observatory_ops.planning import metrics
 from observatory_ops.planning.models import BookedRun, NightSky, ServicePlan
 from observatory_ops.planning.services import (
@@ -1015,10 +1015,7 @@ def measurement_withdraw(measurement: ReflectanceMeasurement, by, reason: str) -
         measurement = ReflectanceMeasurement.objects.select_for_update().get(pk=measurement.pk)
         if measurement.withdrawn_at is not None:
             raise ValidationError(f"this measurement was already withdrawn on {measurement.withdrawn_at:%d %b %Y}")
-        measurement.withdrawn_at, measurement.withdrawn_by, measurement.withdrawn_reason = timezone.now(), by, \
-            reason[:200]
-        measurement._history_user = by
-        measurement.save(update_fields=WITHDRAWN_FIELDS)
+        withdrawn_mark([measurement], by, reason)
         site_recompute(measurement.mirror.subsystem.telescope.site)
     return measurement
 
