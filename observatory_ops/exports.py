@@ -10,6 +10,8 @@ import datetime as dt
 from collections.abc import Iterable, Sequence
 
 from django.http import HttpResponse
+from django.shortcuts import render
+from django.utils.http import url_has_allowed_host_and_scheme
 
 _FORMULA_START = ("=", "+", "-", "@", "\t", "\r")
 
@@ -43,3 +45,12 @@ def period(query, first: dt.date, last: dt.date) -> tuple[dt.date, dt.date]:
     if first > last:
         raise ValueError(f"from ({first}) is after to ({last})")
     return first, last
+
+
+def download_refused(request, reason: str, back: str) -> HttpResponse:
+    """The page a download asked for with a wrong period gets (400): the reason in words and a way back to the
+    form it came from (the referring page of this installation, else ``back``)."""
+    referrer = request.META.get("HTTP_REFERER", "")
+    if referrer and url_has_allowed_host_and_scheme(referrer, {request.get_host()}, request.is_secure()):
+        back = referrer
+    return render(request, "download_refused.html", {"reason": reason, "back": back}, status=400)

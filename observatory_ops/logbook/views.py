@@ -4,13 +4,13 @@ from django.contrib import messages
 from django.core.exceptions import ValidationError
 from django.core.paginator import Paginator
 from django.db.models import F
-from django.http import HttpResponseBadRequest
 from django.shortcuts import get_object_or_404, redirect, render
+from django.urls import reverse
 from django.utils import timezone
 
 from observatory_ops.access.decorators import requires
 from observatory_ops.access.roles import TECHNICIAN, VIEWER
-from observatory_ops.exports import csv_response, period
+from observatory_ops.exports import csv_response, download_refused, period
 from observatory_ops.planning import selectors
 from observatory_ops.registry.models import Site, Subsystem
 from observatory_ops.reliability.selectors import HOURS_WINDOW_DAYS
@@ -55,7 +55,7 @@ def service_records_csv(request, slug):
     try:
         first, last = period(request.GET, today - dt.timedelta(days=HOURS_WINDOW_DAYS - 1), today)
     except ValueError as exc:
-        return HttpResponseBadRequest(str(exc), content_type="text/plain")
+        return download_refused(request, str(exc), reverse("site-reliability", args=[site.slug]))
     return csv_response(f"{site.slug}-service-records-{first}-to-{last}.csv", SERVICE_CSV_HEADER,
                         service_records_csv_rows(site, first, last))
 

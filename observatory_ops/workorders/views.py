@@ -1,7 +1,7 @@
 import datetime as dt
 
 from django.contrib import messages
-from django.http import HttpResponse, HttpResponseBadRequest, HttpResponseNotAllowed, JsonResponse
+from django.http import HttpResponse, HttpResponseNotAllowed, JsonResponse
 from django.shortcuts import get_object_or_404, redirect, render
 from django.urls import reverse
 from django.utils.html import format_html, format_html_join
@@ -11,7 +11,7 @@ from django_tables2 import RequestConfig
 from observatory_ops.access.decorators import requires
 from observatory_ops.access.roles import ENGINEER, TECHNICIAN, VIEWER, has_role
 from observatory_ops.archive.history import person
-from observatory_ops.exports import csv_response, period
+from observatory_ops.exports import csv_response, download_refused, period
 from observatory_ops.planning.models import ServicePlan
 from observatory_ops.planning.services import site_today
 from observatory_ops.registry.catalogue import RELEASE
@@ -557,7 +557,7 @@ def parts_used_csv(request, slug):
     try:
         first, last = period(request.GET, today - dt.timedelta(days=PARTS_USED_DEFAULT_DAYS - 1), today)
     except ValueError as exc:
-        return HttpResponseBadRequest(str(exc), content_type="text/plain")
+        return download_refused(request, str(exc), reverse("part-list", args=[site.slug]))
     return csv_response(f"{site.slug}-parts-used-{first}-to-{last}.csv", selectors.PARTS_USED_CSV_HEADER,
                         selectors.parts_used_csv_rows(site, first, last))
 
