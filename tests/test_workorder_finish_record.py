@@ -29,10 +29,11 @@ from observatory_ops.mirrors.models import CleaningEvent
 from observatory_ops.planning.services import site_today
 from observatory_ops.workorders import pdf, selectors, services
 from observatory_ops.workorders.cautions import (
+    ISOLATION_REVIEW,
     ISOLATION_UNTICKED,
     ISOLATION_UNTICKED_FINDINGS,
     NOT_ISOLATED,
-    NOT_ISOLATED_REVIEW,
+    NOT_NEEDED,
 )
 from observatory_ops.workorders.models import ChecklistTick, IsolationPoint, Part, PartUse, State, WorkOrder
 
@@ -129,11 +130,26 @@ def test_the_energy_not_isolated_is_kept_and_shown_on_the_page_and_the_paper(ord
             + ISOLATION_UNTICKED[NOT_ISOLATED])
     client.force_login(users["engineer"])  # who countersigns reads it
     page = _text(client.get(order.get_absolute_url()))
-    assert said in page and NOT_ISOLATED_REVIEW in page and why in page
+    assert said in page and ISOLATION_REVIEW[NOT_ISOLATED] in page and why in page
     paper = _pdf(client, order)
     assert (f"{lockout + 1}. {services.LOCKOUT_STEP} not ticked; at finishing technician confirmed: the energy was "
             "NOT isolated") in paper
-    assert paper.index("Confirmed when the work was finished") < paper.index(said) < paper.index(NOT_ISOLATED_REVIEW)
+    review = ISOLATION_REVIEW[NOT_ISOLATED]
+    assert paper.index("Confirmed when the work was finished") < paper.index(said) < paper.index(review)
+
+
+def test_work_said_to_need_no_isolation_goes_to_the_countersigning_engineer_too(order, users, client):  # noqa: F811
+    # A safety review finished an order of a moving telescope with nothing past its lockout ticked, "needed no
+    # isolation" and findings "ok": the order was drafted with a lockout because its hazards call for one, so that
+    # answer is read by the engineer who countersigns, as "not isolated" is.
+    _started(order, users)
+    client.force_login(users["technician"])
+    response = client.post(f"/workorders/{order.pk}/finish/", _post(order, isolation_answer=NOT_NEEDED, findings="ok"))
+    assert response.status_code == 302, _text(response)[-1500:]
+    client.force_login(users["engineer"])
+    page = _text(client.get(order.get_absolute_url()))
+    assert ISOLATION_UNTICKED[NOT_NEEDED] in page and ISOLATION_REVIEW[NOT_NEEDED] in page
+    assert ISOLATION_REVIEW[NOT_NEEDED] in _pdf(client, order)
 
 
 # --- 2. the crew -------------------------------------------------------------------------------------------------

@@ -82,6 +82,10 @@ ISOLATION_UNTICKED_QUESTION = (
 )
 #: The answer that the energy was not isolated: the record shows it to the engineer who countersigns.
 NOT_ISOLATED = "not_isolated"
+#: The answer that the work needed no isolation. The order was made with a lockout because its hazards call for one,
+#: so this answer goes to the countersigning engineer too (``ISOLATION_REVIEW``): a finish with nothing past the
+#: lockout ticked and "needed no isolation, ok" once passed without anyone looking.
+NOT_NEEDED = "not_needed"
 #: Answer code -> what the person finishing confirms (the form's choice, the page's and the paper's record).
 ISOLATION_UNTICKED = {
     "isolated": (
@@ -89,7 +93,7 @@ ISOLATION_UNTICKED = {
         "isolation proved before the work, and the locks were removed only after it. It was not ticked here (ticked "
         "on paper, or missed); the findings say why."
     ),
-    "not_needed": (
+    NOT_NEEDED: (
         "The work needed no isolation: it touched nothing energised, pressurised or able to move. The findings say "
         "why."
     ),
@@ -98,7 +102,7 @@ ISOLATION_UNTICKED = {
 #: The same answers in a few words, beside each unticked line of the lockout on the finished paper.
 ISOLATION_UNTICKED_SHORT = {
     "isolated": "the energy was isolated, not ticked here",
-    "not_needed": "the work needed no isolation",
+    NOT_NEEDED: "the work needed no isolation",
     NOT_ISOLATED: "the energy was NOT isolated",
 }
 ISOLATION_UNTICKED_RECORD = (
@@ -112,11 +116,18 @@ ISOLATION_UNTICKED_FINDINGS = (
     "say in the findings why the energy isolation was not ticked: how it was isolated, why the work needed none, or "
     "why it was not isolated and how the hazards were controlled instead"
 )
-#: Shown with the record of an order finished with the energy not isolated, for the engineer who countersigns it.
-NOT_ISOLATED_REVIEW = (
-    "The site engineer reads the findings before countersigning, and follows the site's lockout procedure on work "
-    "done without isolation."
-)
+#: Answer -> what the record of an order finished with it says to the engineer who countersigns it.
+ISOLATION_REVIEW = {
+    NOT_ISOLATED: (
+        "The site engineer reads the findings before countersigning, and follows the site's lockout procedure on work "
+        "done without isolation."
+    ),
+    NOT_NEEDED: (
+        "This order's hazards called for isolation. The site engineer reads the findings before countersigning and "
+        "confirms with the crew that the work touched nothing energised, pressurised or able to move; if it did, the "
+        "site's lockout procedure on work done without isolation applies."
+    ),
+}
 
 
 # An order copies its hazards when it is made; these say so when its subsystems carry more since

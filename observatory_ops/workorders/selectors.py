@@ -25,6 +25,7 @@ from .cautions import (
     HAZARDS_MISSING_ON_PAPER,
     HAZARDS_MISSING_STARTED,
     HAZARDS_MISSING_TITLE,
+    ISOLATION_REVIEW,
     ISOLATION_UNTICKED,
     ISOLATION_UNTICKED_RECORD,
     ISOLATION_UNTICKED_SHORT,
@@ -39,8 +40,6 @@ from .cautions import (
     LIFT_REFUSED,
     LIFT_TOO_FLAT,
     LOCKOUT_STEP_MISSING,
-    NOT_ISOLATED,
-    NOT_ISOLATED_REVIEW,
     PRECEDENCE_STATEMENT,
     SEVERITY_LABELS,
     TELESCOPE_OUT,
@@ -540,8 +539,8 @@ def checklist_record(order: WorkOrder, points: list[IsolationPoint]) -> tuple[st
         record.append(ISOLATION_UNTICKED_RECORD.format(
             person=person(order.finished_by), answer=ISOLATION_UNTICKED[order.isolation_confirmed_at_finish]
         ))
-        if order.isolation_confirmed_at_finish == NOT_ISOLATED:
-            record.append(NOT_ISOLATED_REVIEW)
+        if review := ISOLATION_REVIEW.get(order.isolation_confirmed_at_finish):
+            record.append(review)
     if order.hazards_confirmed_at_finish:
         record.append(
             "Finished without the cautions for hazards its subsystems gained after it was made ("

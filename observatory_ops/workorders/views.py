@@ -20,13 +20,12 @@ from observatory_ops.registry.models import Site
 from . import pdf, selectors, services
 from .cautions import (
     HAZARDS,
+    ISOLATION_REVIEW,
     ISOLATION_UNTICKED,
     ISOLATION_UNTICKED_QUESTION,
     ISOLATION_UNTICKED_RECORD,
     ISOLATION_UNTICKED_TITLE,
     NO_ISOLATION_NEEDED,
-    NOT_ISOLATED,
-    NOT_ISOLATED_REVIEW,
     PARTS_UNREGISTERED,
     PRECEDENCE_STATEMENT,
     cautions_for,
@@ -199,7 +198,7 @@ def _isolation_record(order: WorkOrder) -> dict | None:
     return {
         "said": ISOLATION_UNTICKED_RECORD.format(person=person(order.finished_by), answer=ISOLATION_UNTICKED[answer]),
         "lines": order.isolation_unticked_at_finish,
-        "review": NOT_ISOLATED_REVIEW if answer == NOT_ISOLATED else "",
+        "review": ISOLATION_REVIEW.get(answer, ""),
     }
 
 
