@@ -130,6 +130,23 @@ ISOLATION_REVIEW = {
 }
 
 
+# Two orders underway on one telescope at once (workorders.selectors.work_alongside): personal locks protect only
+# once they are on, and before that two crews can each power or move the telescope under the other. OSHA 29 CFR
+# 1910.147(f)(3) asks, for a crew, that each person is protected by a lock of their own (group lockout); the rest is
+# common practice, no published source.
+ALONGSIDE_TITLE = "Other work is underway on {telescopes}"
+ALONGSIDE_TITLE_ON_PAPER = "When this was printed, other work was underway on {telescopes}"
+ALONGSIDE_ADVICE = (
+    "Two crews on one telescope: agree with the other crew before any step that powers, moves or releases anything, "
+    "and before either lockout comes off. Each person puts a lock of their own on every isolation point they work "
+    "under (a group lockout); nobody removes another person's lock."
+)
+ALONGSIDE_START_QUESTION = (
+    "{orders} {verb} underway on {telescopes}: have you agreed with {whose} crew how the two jobs share the telescope "
+    "and its isolation? Start anyway?"
+)
+
+
 # An order copies its hazards when it is made; these say so when its subsystems carry more since
 # (workorders.selectors.hazards_missing), on the page and on paper.
 HAZARDS_MISSING_TITLE = "Not up to date: this work order lacks hazards its subsystems now carry"

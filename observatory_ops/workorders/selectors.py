@@ -4,6 +4,7 @@ from __future__ import annotations
 import datetime as dt
 from collections.abc import Sequence
 from dataclasses import dataclass
+from typing import NamedTuple
 
 from django.db.models import F, OuterRef, Prefetch, Q, QuerySet, Subquery
 from django.urls import reverse
@@ -20,6 +21,9 @@ from observatory_ops.registry.models import Site, Subsystem
 
 from . import sheet as sheet_
 from .cautions import (
+    ALONGSIDE_ADVICE,
+    ALONGSIDE_START_QUESTION,
+    ALONGSIDE_TITLE_ON_PAPER,
     HAZARDS,
     HAZARDS_MISSING_BEFORE_START,
     HAZARDS_MISSING_ON_PAPER,
@@ -840,6 +844,74 @@ def early_start_question(order: WorkOrder) -> str:
     return f"{order.number} is planned for {order.planned_date:%d %b %Y}, {days} days from now: start anyway?"
 
 
+class Alongside(NamedTuple):
+    """Another order underway on a telescope this order works on, as the page, the paper and its start say it."""
+    order: WorkOrder
+    telescopes: list[str]  # the telescopes the two share, by name
+    lockout_ticked: bool | None  # its lockout step ticked; None when it has none
+
+    def text(self, zone: dt.tzinfo) -> str:
+        started = self.order.started_at and dateformat.format(self.order.started_at.astimezone(zone), "d M Y H:i")
+        lockout = {True: "its lockout is ticked", False: "its lockout is not ticked yet", None: "it has no lockout"}
+        who = f", assigned to {person(self.order.assignee)}" if self.order.assignee_id else ""
+        return (f"{self.order.number} {self.order.title} (on {', '.join(self.telescopes)}; started {started}{who}; "
+                f"{lockout[self.lockout_ticked]})")
+
+
+def work_alongside(order: WorkOrder) -> list[Alongside]:
+    """The other orders underway on any telescope this one works on, oldest first (for an order drafted, issued or
+    underway; none once it is finished or withdrawn). Work at a site whose telescopes share one enclosure counts
+    every telescope of the site: its dome moves over all of them."""
+    if order.state not in (State.DRAFT, State.ISSUED, State.UNDERWAY):
+        return []
+    mine = _telescopes(order, list(order.items.select_related("subsystem")))
+    others = (WorkOrder.objects.filter(state=State.UNDERWAY, site_id=order.site_id).exclude(pk=order.pk)
+              .select_related("assignee", "telescope").prefetch_related("items__subsystem__telescope").order_by("pk"))
+    alongside = []
+    for other in others:
+        theirs = {i.subsystem.telescope for i in other.items.all()} | ({other.telescope} if other.telescope else set())
+        shared = sorted(t.name for t in theirs if order.site.shared_enclosure or t.pk in mine)
+        if not shared:
+            continue
+        lockout = next((i for i, step in enumerate(other.step_list) if is_lockout_step(step)), None)
+        ticked = None
+        if lockout is not None:
+            tick = latest_ticks(other).get((STEP, lockout))
+            ticked = bool(tick and tick.ticked)
+        alongside.append(Alongside(other, shared, ticked))
+    return alongside
+
+
+def alongside_notice(order: WorkOrder) -> tuple[str, ...]:
+    """The printed order's notice of other work underway on its telescopes when it was printed (``work_alongside``):
+    title, one line an order, what to agree. () when there is none."""
+    alongside = work_alongside(order)
+    if not alongside:
+        return ()
+    return (ALONGSIDE_TITLE_ON_PAPER.format(telescopes=shared_telescopes(alongside)),
+            *(a.text(order.site.zone) for a in alongside), ALONGSIDE_ADVICE)
+
+
+def shared_telescopes(alongside: Sequence[Alongside]) -> str:
+    """The telescopes the orders of ``alongside`` share with the order, by name: "R40, T70"."""
+    return ", ".join(sorted({name for a in alongside for name in a.telescopes}))
+
+
+def start_questions(order: WorkOrder) -> list[str]:
+    """What starting ``order`` asks first, on a page of its own, before it starts: an early start
+    (``early_start_question``) and other work underway on its telescopes (``work_alongside``). Empty when nothing is
+    asked (or while its start is held: it is refused in those words)."""
+    if order.state != State.ISSUED or "start" in moves_held(order):
+        return []
+    questions = [question] if (question := early_start_question(order)) else []
+    if alongside := work_alongside(order):
+        questions.append(ALONGSIDE_START_QUESTION.format(
+            orders=", ".join(a.order.number for a in alongside), verb="is" if len(alongside) == 1 else "are",
+            telescopes=shared_telescopes(alongside), whose="its" if len(alongside) == 1 else "their",
+        ))
+    return questions
+
+
 def lift_rows(figures: lifting.LiftFigures) -> list[tuple[str, str]]:
     """The lifting figures as (label, value) pairs in kg and lb, as the page and the PDF show them: a cell / fixture
     mass not entered is said to be, and the load then to be the mirror alone; an entered 0 is said to be entered."""
@@ -909,6 +981,7 @@ def sheet(order: WorkOrder, url: str) -> sheet_.Sheet:
         precedence_statement=PRECEDENCE_STATEMENT,
         hazards_notice=hazards_notice(order, hazards_missing(order), paper=True),
         out_of_service=tuple(telescope_out_notices(order)),
+        alongside=alongside_notice(order),
         isolation_needed=needs_isolation(order.hazards),
         isolation_points=tuple(f"WARNING: {gap}" for gap in gaps) + tuple(line.text for line in lines.points),
         point_ticks=(None,) * len(gaps) + ticks(lines.points) if finished else (),

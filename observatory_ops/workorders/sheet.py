@@ -79,9 +79,10 @@ class Sheet:
     """Everything one printed work order shows, top to bottom.
 
     ``out_of_service`` holds a notice (title, what stands, what not to do) for each telescope of the order whose
-    mirror a recoat has removed, and ``hazards_notice`` (empty for an order up to date) what the order lacks of
-    its subsystems' hazards (title, the hazards, what to do): each is printed in a framed box under the header,
-    before anything of the work.
+    mirror a recoat has removed, ``alongside`` (empty when there is none) the other work underway on its telescopes
+    when it was printed (title, the orders, what to agree), and ``hazards_notice`` (empty for an order up to date)
+    what the order lacks of its subsystems' hazards (title, the hazards, what to do): each is printed in a framed box
+    under the header, before anything of the work.
     ``why`` has one line per due item (trigger, value now, limit, forecast). ``cautions`` are printed in
     a framed box before any step, most severe first, followed by ``precedence_statement``.
     ``steps_warning``, when set, is printed above the steps (the lockout step is missing from them).
@@ -139,6 +140,7 @@ class Sheet:
     confirmations: tuple[str, ...] = ()
     hazards_notice: tuple[str, ...] = ()
     out_of_service: tuple[tuple[str, ...], ...] = ()
+    alongside: tuple[str, ...] = ()
     steps_warning: str = ""
     steps_note: str = ""
     standing_notes: tuple[str, ...] = ()
@@ -152,7 +154,7 @@ class Sheet:
 
     def __post_init__(self) -> None:
         for name in ("subsystems", "why", "isolation_points", "steps", "tools", "confirmations", "hazards_notice",
-                     "parts_unregistered", "crew", "cleanings", "standing_notes"):
+                     "alongside", "parts_unregistered", "crew", "cleanings", "standing_notes"):
             if isinstance(getattr(self, name), str):
                 raise ValueError(f"{name} must be a sequence of lines, not a single string")
         if not self.number.strip():

@@ -19,6 +19,8 @@ from observatory_ops.registry.models import Site
 
 from . import pdf, selectors, services
 from .cautions import (
+    ALONGSIDE_ADVICE,
+    ALONGSIDE_TITLE,
     HAZARDS,
     ISOLATION_REVIEW,
     ISOLATION_UNTICKED,
@@ -143,6 +145,7 @@ def work_order_detail(request, pk):
             "site": order.site,
             "hazards_notice": selectors.hazards_notice(order, missing),
             "out_notices": selectors.telescope_out_notices(order),
+            "alongside": _alongside(order),
             "hazards_confirmed": [HAZARDS[h] for h in order.hazards_confirmed_at_finish],
             "isolation_record": _isolation_record(order),
             "cleanings": selectors.cleanings_at_finish(order),
@@ -188,6 +191,15 @@ def work_order_detail(request, pk):
             "history_pk": order.pk,
         },
     )
+
+
+def _alongside(order: WorkOrder) -> dict | None:
+    """Other work underway on this order's telescopes, as its page warns of it (``selectors.work_alongside``)."""
+    alongside = selectors.work_alongside(order)
+    if not alongside:
+        return None
+    return {"title": ALONGSIDE_TITLE.format(telescopes=selectors.shared_telescopes(alongside)),
+            "advice": ALONGSIDE_ADVICE, "orders": [(a.order, a.text(order.site.zone)) for a in alongside]}
 
 
 def _isolation_record(order: WorkOrder) -> dict | None:
@@ -251,13 +263,19 @@ def work_order_hazards_update(request, pk):
 @requires(TECHNICIAN)
 def work_order_move(request, pk, action):
     """Issue, start, countersign or withdraw (the buttons of the order's page). A start more than a week before the
-    planned date is asked first, on a page of its own whose button posts here again with ``early=confirmed``."""
+    planned date, or beside other work underway on its telescope, is asked first (``selectors.start_questions``), on a
+    page of its own whose button posts here again with ``asked=confirmed``."""
     if request.method != "POST":
         return HttpResponseNotAllowed(["POST"])
     order = _order(pk)
-    if action == "start" and request.POST.get("early") != "confirmed":
-        if question := selectors.early_start_question(order):
-            return render(request, "workorders/start_early.html", {"order": order, "question": question})
+    if action == "start" and request.POST.get("asked") != "confirmed":
+        if questions := selectors.start_questions(order):
+            alongside = selectors.work_alongside(order)
+            return render(request, "workorders/start_questions.html", {
+                "order": order, "questions": questions, "early": bool(selectors.early_start_question(order)),
+                "alongside": [(a.order, a.text(order.site.zone)) for a in alongside],
+                "alongside_advice": ALONGSIDE_ADVICE if alongside else "",
+            })
     try:
         services.work_order_move(order, action, request.user, reason=request.POST.get("reason", ""))
     except services.Refused as exc:

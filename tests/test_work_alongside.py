@@ -1,0 +1,91 @@
+"""Two orders underway on one telescope at once. A safety review had a mirror-cell order locked out and in work while
+a drive order on the same telescope recorded "slew and track from the control computer", with nothing said on either
+page or paper: personal locks protect only once they are on. Each person under a group lockout puts a lock of their
+own on every isolation point (OSHA 29 CFR 1910.147(f)(3)); that the crews agree before powering or moving anything
+is common practice, no published source.
+
+The telescope T1 and its orders are those of tests/test_workorders.py (an axis drive, one AC isolation point).
+"""
+from __future__ import annotations
+
+import datetime as dt
+import html
+import re
+
+import pytest
+from test_workorder_pdf import body_text
+from test_workorders import PLANNED, drive, order  # noqa: F401  (fixtures, used by name)
+
+from observatory_ops.registry.models import Telescope
+from observatory_ops.registry.services import subsystem_create
+from observatory_ops.workorders import selectors, services
+from observatory_ops.workorders.cautions import ALONGSIDE_ADVICE
+from observatory_ops.workorders.models import State, WorkOrder
+from observatory_ops.workorders.pdf import render_sheet
+
+pytestmark = pytest.mark.django_db
+
+
+def _issued(work_order, users) -> WorkOrder:
+    services.work_order_move(work_order, "issue", users["engineer"])
+    return WorkOrder.objects.get(pk=work_order.pk)
+
+
+@pytest.fixture
+def fans_order(telescope, users):  # another order on the same telescope
+    fans = subsystem_create(telescope, "cooling_fans", "Mirror fans", counting_from=dt.date(2026, 1, 1))
+    return _issued(services.work_order_from_due(list(fans.plans.all()), users["engineer"], PLANNED), users)
+
+
+def _text(response) -> str:
+    return " ".join(html.unescape(re.sub(r"<[^>]+>", " ", response.content.decode())).split())
+
+
+def test_starting_beside_work_underway_on_the_telescope_asks_first_and_names_it(order, fans_order, users, client):  # noqa: F811
+    services.work_order_move(fans_order, "start", users["technician"])
+    drive_order = _issued(order, users)
+    question = (f"{fans_order.number} is underway on T1: have you agreed with its crew how the two jobs share the "
+                "telescope and its isolation? Start anyway?")
+    assert selectors.start_questions(drive_order) == [question]
+    client.force_login(users["technician"])
+    response = client.post(f"/workorders/{drive_order.pk}/move/start/", {"go": "start"})
+    assert response.status_code == 200 and WorkOrder.objects.get(pk=drive_order.pk).state == State.ISSUED
+    page = _text(response)
+    assert question in page and ALONGSIDE_ADVICE in page
+    assert f"{fans_order.number} {fans_order.title} (on T1; started " in page
+    assert "its lockout is not ticked yet" in page
+    response = client.post(f"/workorders/{drive_order.pk}/move/start/", {"asked": "confirmed"})
+    assert response.status_code == 302 and WorkOrder.objects.get(pk=drive_order.pk).state == State.UNDERWAY
+
+
+def test_each_order_underway_warns_of_the_other_on_its_page_and_on_paper(order, fans_order, users, client):  # noqa: F811
+    services.work_order_move(fans_order, "start", users["technician"])
+    drive_order = _issued(order, users)
+    services.work_order_move(drive_order, "start", users["technician"])  # the service asks nothing: the page does
+    client.force_login(users["technician"])
+    for this, other in ((drive_order, fans_order), (fans_order, drive_order)):
+        page = _text(client.get(f"/workorders/{this.pk}/"))
+        assert "Other work is underway on T1" in page and other.number in page and ALONGSIDE_ADVICE in page
+    underway = WorkOrder.objects.get(pk=drive_order.pk)
+    for point in selectors.isolation_points(underway):  # the points first, then the lockout step (their sequence)
+        services.checklist_tick_set(underway, "point", point.pk, True, users["technician"])
+    lockout = next(i for i, step in enumerate(underway.step_list) if services.is_lockout_step(step))
+    for step in range(lockout + 1):
+        services.checklist_tick_set(underway, "step", step, True, users["technician"])
+    assert "its lockout is ticked" in _text(client.get(f"/workorders/{fans_order.pk}/"))
+    paper = " ".join(body_text(render_sheet(selectors.sheet(WorkOrder.objects.get(pk=fans_order.pk), "http://x/"))).split())
+    assert "When this was printed, other work was underway on T1" in paper and drive_order.number in paper
+
+
+def test_work_on_another_telescope_or_finished_work_asks_nothing(order, telescope, users):  # noqa: F811
+    other_scope = Telescope.objects.create(site=telescope.site, name="T2", aperture_m=0.3, mount="fork")
+    fans = subsystem_create(other_scope, "cooling_fans", "T2 fans", counting_from=dt.date(2026, 1, 1))
+    elsewhere = _issued(services.work_order_from_due(list(fans.plans.all()), users["engineer"], PLANNED), users)
+    services.work_order_move(elsewhere, "start", users["technician"])
+    drive_order = _issued(order, users)
+    assert selectors.work_alongside(drive_order) == [] and selectors.start_questions(drive_order) == []
+    # One enclosure over both telescopes: its dome moves over work at either, so the other counts.
+    telescope.site.shared_enclosure = True
+    telescope.site.save()
+    drive_order = WorkOrder.objects.get(pk=drive_order.pk)
+    assert [a.order.pk for a in selectors.work_alongside(drive_order)] == [elsewhere.pk]
