@@ -102,6 +102,10 @@ _NOTICE_TODO = ParagraphStyle("wo-notice-todo", parent=_BODY, fontName=FONT_BOLD
 _TICK_BOX = 8.5
 _TICK_INDENT = 15.0
 _NUMBER_WIDTH = 17.0
+#: A step or isolation point no taller than this (in points, about ten lines) moves whole to the next page rather than
+#: split across two: a lockout step printed "... before" at the foot of one page and "touching anything." on the next
+#: is read as two. Taller ones still split, as a paragraph does.
+_KEEP_WHOLE_UP_TO = 120.0
 _WRITING_GAP = 21.0
 _CELL_PADDING = 4
 # A table row taller than a page (a cell holding a very long text) is cut inside the row, leaving at least
@@ -221,7 +225,8 @@ class _Ticked(Flowable):
     """A paragraph with a tick box, and optionally a step number, in its left margin; the box holds a tick when
     ``ticked`` (a line ticked on the work order page, printed on the record of finished work).
 
-    Splits across pages like the paragraph it holds; the box and the number print on the first part only.
+    A short one (``_KEEP_WHOLE_UP_TO``) moves whole to the next page; a longer one splits across pages like the
+    paragraph it holds, the box and the number printed on the first part only.
     """
 
     def __init__(self, paragraph: Paragraph, number: str = "", first_part: bool = True, ticked: bool = False):
@@ -238,6 +243,9 @@ class _Ticked(Flowable):
         return avail_width, height
 
     def split(self, avail_width, avail_height):
+        _, height = self._paragraph.wrap(avail_width - self._indent, avail_height)
+        if height <= _KEEP_WHOLE_UP_TO:
+            return []  # reportlab then moves it to the next page
         parts = self._paragraph.split(avail_width - self._indent, avail_height)
         return [
             _Ticked(part, self._number, first_part=self._first_part and position == 0, ticked=self._ticked)
