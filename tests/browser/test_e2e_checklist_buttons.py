@@ -119,3 +119,27 @@ def test_without_javascript_every_line_has_a_visible_record_button_that_records(
         assert ChecklistTick.objects.filter(work_order=underway, step_index=1, ticked=True).exists()
     finally:
         context.close()
+
+
+@pytest.mark.browser
+def test_with_no_connection_a_tick_stays_as_it_was_and_says_it_was_not_recorded(
+    browser_page, live_server, login, underway
+):
+    """A review on dome Wi-Fi: ticking with the connection down threw the whole page away for the browser's error
+    page (the script fell back to a plain post). The box goes back, the line says why, the page stays."""
+    from observatory_ops.workorders.models import ChecklistTick
+
+    page = browser_page
+    _open_as_technician(page, live_server, login, underway)
+    page.context.set_offline(True)
+    try:
+        page.locator("#step-1 input[type=checkbox]").click()
+        expect(page.locator("#step-1 .tick-note.refused")).to_have_text(
+            "Not recorded: no connection to the server. Tap again when it is back.")
+        expect(page.locator("#step-1 input[type=checkbox]")).not_to_be_checked()
+        expect(page.locator("h1")).to_contain_text(underway.number)  # still the order's page
+    finally:
+        page.context.set_offline(False)
+    assert not ChecklistTick.objects.filter(work_order=underway).exists()
+    page.locator("#step-1 input[type=checkbox]").check()  # tapped again with the connection back
+    expect(page.locator("#step-1 .tick-note")).to_contain_text("ticked by technician")
