@@ -43,11 +43,18 @@ class WorkOrderTable(tables.Table):
 
 #: The "Assigned" filter's choices: a technician's own orders, or those nobody has taken yet.
 MINE, NOBODY = "me", "nobody"
+#: The "State" filter's choices beyond one state: the work still to do (the list's default: a technician looking for
+#: today's work saw finished and countersigned orders first), and every order.
+OPEN, EVERY = "open", "all"
+OPEN_STATES = (State.DRAFT, State.ISSUED, State.UNDERWAY)
 
 
 class WorkOrderFilter(django_filters.FilterSet):
     site = django_filters.ModelChoiceFilter(queryset=Site.objects.all(), label="Site")
-    state = django_filters.ChoiceFilter(choices=State.choices, label="State")
+    state = django_filters.ChoiceFilter(
+        choices=[(OPEN, "still to do (draft, issued, underway)"), *State.choices, (EVERY, "any state")],
+        label="State", method="filter_state", empty_label=None,
+    )
     order_type = django_filters.ChoiceFilter(choices=WorkOrder.Type.choices, label="Type")
     assigned = django_filters.ChoiceFilter(
         choices=[(MINE, "to me"), (NOBODY, "to nobody yet")], label="Assigned", method="filter_assigned",
@@ -57,6 +64,17 @@ class WorkOrderFilter(django_filters.FilterSet):
     class Meta:
         model = WorkOrder
         fields = ["site", "state", "order_type", "assigned", "title"]
+
+    def __init__(self, data=None, *args, **kwargs):
+        if data is not None and not data.get("state"):
+            data = data.copy()
+            data["state"] = OPEN
+        super().__init__(data, *args, **kwargs)
+
+    def filter_state(self, queryset, name, value):
+        if value == OPEN:
+            return queryset.filter(state__in=OPEN_STATES)
+        return queryset if value == EVERY else queryset.filter(state=value)
 
     def filter_assigned(self, queryset, name, value):
         if value == MINE:

@@ -135,7 +135,7 @@ def test_with_no_connection_a_tick_stays_as_it_was_and_says_it_was_not_recorded(
     try:
         page.locator("#step-1 input[type=checkbox]").click()
         expect(page.locator("#step-1 .tick-note.refused")).to_have_text(
-            "Not recorded: no connection to the server. Tap again when it is back.")
+            "No connection to the server: this tick was not kept. Tap again when it is back.")
         expect(page.locator("#step-1 input[type=checkbox]")).not_to_be_checked()
         expect(page.locator("h1")).to_contain_text(underway.number)  # still the order's page
     finally:

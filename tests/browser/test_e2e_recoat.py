@@ -76,6 +76,12 @@ def test_engineer_chooses_the_second_window_and_gets_a_recoat_plan_of_draft_work
         horizon.fill(str(LONG_HORIZON_DAYS))
     page.get_by_role("button", name="Find windows").click()
     expect(page.get_by_role("heading", name=re.compile(r"Cheapest windows for \d+ days of work"))).to_be_visible()
+    if page.locator("input[type=radio][name=window]").count() < 2:
+        # Some days of the year the default horizon holds one window only (the demo closes over the year's end and
+        # the crew keeps weekends): look further ahead.
+        page.get_by_label("Horizon days").fill(str(LONG_HORIZON_DAYS))
+        page.get_by_role("button", name="Find windows").click()
+        expect(page.locator(".calendar .night")).to_have_count(LONG_HORIZON_DAYS)
     expect(page.locator(".calendar .night")).to_have_count(int(page.get_by_label("Horizon days").input_value()))
     # A window loses its days of work and any crew days off inside it (the site's crew weekdays): its nights.
     nights = [int(n) for n in page.locator("table").first.locator("tbody tr td:nth-child(4)").all_inner_texts()]
