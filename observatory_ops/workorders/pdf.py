@@ -56,6 +56,7 @@ from observatory_ops.workorders.cautions import (
     NO_ISOLATION_NEEDED,
     PARTS_UNREGISTERED,
     SEVERITY_LABELS,
+    is_lockout_step,
     signal_word,
 )
 from observatory_ops.workorders.sheet import Sheet, SheetCaution, SheetPart, SheetTick
@@ -513,9 +514,11 @@ def _isolation(sheet: Sheet) -> list[Flowable]:
 
 def _checklist_line(text: str, tick: SheetTick | None, number: str = "") -> _Ticked:
     """A step or an isolation point with its tick box: ticked as on the work order page, with the page's note of
-    who ticked it (or took the tick back) and when under it."""
+    who ticked it (or took the tick back) and when under it. The lockout step is printed in bold, so it does not read
+    as one step among the others."""
     note = f"<br/><font size=8>{_text(tick.note)}</font>" if tick is not None and tick.note else ""
-    return _Ticked(_Paragraph(_text(text) + note, _ITEM), number, ticked=tick is not None and tick.ticked)
+    words = f"<b>{_text(text)}</b>" if number and is_lockout_step(text) else _text(text)
+    return _Ticked(_Paragraph(words + note, _ITEM), number, ticked=tick is not None and tick.ticked)
 
 
 def _lifting(sheet: Sheet, width: float) -> list[Flowable]:

@@ -416,6 +416,11 @@ class ChecklistLine:
         return self.latest is not None and self.latest.ticked and self.latest.text == self.text
 
     @property
+    def is_lockout(self) -> bool:
+        """The lockout step: set apart on the page and on paper, so it does not read as one step among the others."""
+        return self.kind == STEP and is_lockout_step(self.text)
+
+    @property
     def anchor(self) -> str:
         return line_anchor(self.kind, self.key)
 
