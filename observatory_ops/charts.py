@@ -108,14 +108,21 @@ def overlap(a: Box, b: Box) -> bool:
 
 
 class Chart:
-    def __init__(self, x_low, x_high, y_low: float, y_high: float, title: str = "", width=720, height=260):
+    """An SVG picture, one image to a screen reader: ``title`` names it, and ``described_by`` gives the ids of the
+    page's sentences or table that carry its figures in words (aria-describedby), for whoever cannot see it."""
+
+    def __init__(
+        self, x_low, x_high, y_low: float, y_high: float, title: str = "", width=720, height=260,
+        described_by: str = "",
+    ):
         self.x_low, self.x_high = x_low, x_high
         self.y_low, self.y_high = y_low, (y_high if y_high > y_low else y_low + 1.0)
         self.width, self.height = width, height
         self.left, self.right, self.top, self.bottom = 64, 16, 16, 40
+        described = f' aria-describedby="{escape(described_by)}"' if described_by else ""
         self.parts = [
             f'<svg xmlns="http://www.w3.org/2000/svg" viewBox="0 0 {width} {height}" role="img" '
-            f'aria-label="{escape(title)}">',
+            f'aria-label="{escape(title)}"{described}>',
             f'<rect x="{self.left}" y="{self.top}" width="{width - self.left - self.right}" '
             f'height="{height - self.top - self.bottom}" fill="#fbfbfa" stroke="#d5dbe0"/>',
         ]

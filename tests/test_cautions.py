@@ -27,10 +27,11 @@ REQUIRED_STANDARDS = {
     "electrical": ("1910.147", "Z244.1", "NFPA 70E"),
     "pneumatic": ("ISO 4414",),
     "stored_mechanical": ("1910.147(d)(5)", "maker"),
+    "hydraulic": ("ISO 4413", "1910.147"),  # ISO 4413: hydraulic fluid power, the counterpart of ISO 4414
     "moving_machinery": ("1910.147",),
     "suspended_load": ("1910.184",),
     "height": ("1910.28",),
-    "chemical": ("safety data sheet", "GHS"),
+    "chemical": ("safety data sheet", "GHS", "1910.106"),  # OSHA 29 CFR 1910.106: flammable liquids
     "cryogen": ("CGA P-12",),
     "vacuum_plant": ("1910.147",),  # lockout of the plant's supplies (OSHA 29 CFR 1910.147)
     "laser": ("ANSI Z136.1", "IEC 60825-1"),

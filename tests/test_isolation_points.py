@@ -70,7 +70,7 @@ def test_work_with_nothing_to_isolate_lists_no_points_and_says_why(telescope, si
     from observatory_ops.workorders.cautions import NO_ISOLATION_NEEDED
 
     IsolationPoint.objects.create(telescope=telescope, energy="ac", label="Mount isolator")
-    box = subsystem_create(telescope, "other", "Eyepiece box", counting_from=START)
+    box = subsystem_create(telescope, "other", "Eyepiece box", counting_from=START, no_hazards_found=True)
     order = services.work_order_ad_hoc(site, [box], "Sort the eyepieces", users["engineer"], steps="Sort them.")
     assert order.hazards == [] and selectors.isolation_points(order) == [] and selectors.isolation_gaps(order) == []
     client.force_login(users["viewer"])
@@ -94,7 +94,7 @@ def test_a_sheet_over_two_telescopes_says_which_telescope_each_reading_is_for(si
 def test_an_ad_hoc_order_takes_the_hazards_its_work_adds(telescope, site, users, client):
     """The reviewer's case: an ad hoc look at an optical surface from a ladder, at a telescope that can move."""
     IsolationPoint.objects.create(telescope=telescope, energy="ac", label="Mount isolator")
-    box = subsystem_create(telescope, "other", "Eyepiece box", counting_from=START)
+    box = subsystem_create(telescope, "other", "Eyepiece box", counting_from=START, no_hazards_found=True)
     client.force_login(users["engineer"])
     client.post(f"/sites/{site.slug}/workorders/new/", {
         "title": "Look at the box from the ladder", "order_type": "corrective", "subsystems": [box.pk],
@@ -116,7 +116,7 @@ def test_a_second_order_for_an_item_already_on_one_is_made_with_a_warning(telesc
 
 
 def test_an_ad_hoc_orders_page_says_it_was_raised_by_hand_as_its_pdf_does(telescope, site, users, client):
-    box = subsystem_create(telescope, "other", "Eyepiece box", counting_from=START)
+    box = subsystem_create(telescope, "other", "Eyepiece box", counting_from=START, no_hazards_found=True)
     order = services.work_order_ad_hoc(site, [box], "Sort the eyepieces", users["engineer"], steps="Sort them.")
     client.force_login(users["viewer"])
     assert "Raised by hand, not from a due item" in client.get(order.get_absolute_url()).content.decode()

@@ -58,9 +58,9 @@ def now(telescope):
     return today
 
 
-def _added_in_the_admin(client, telescope, kind: str, name: str) -> Subsystem:
+def _added_in_the_admin(client, telescope, kind: str, name: str, **fields) -> Subsystem:
     response = client.post("/admin/registry/subsystem/add/", {
-        "telescope": telescope.pk, "kind": kind, "name": name, "serial_number": "", "notes": "",
+        "telescope": telescope.pk, "kind": kind, "name": name, "serial_number": "", "notes": "", **fields,
     }, follow=True)
     assert response.status_code == 200
     return Subsystem.objects.get(name=name)
@@ -173,7 +173,7 @@ def test_a_plan_added_by_hand_starts_with_its_last_service_unknown_unless_the_bo
     """A reviewer added a plan for a refractor's objective, typed today as its counting date (the form needs one)
     and left the box alone: the plan must not read as serviced today. The box starts unticked on a new plan, and
     only a tick makes the date a real last service."""
-    objective = _added_in_the_admin(client, telescope, "other", "Objective lens")
+    objective = _added_in_the_admin(client, telescope, "other", "Objective lens", no_hazards_found="on")
     page = client.get("/admin/planning/serviceplan/add/")
     assert 'name="counting_from_given"' in page.content.decode()
     assert not page.context["adminform"].form["counting_from_given"].initial

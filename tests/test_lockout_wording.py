@@ -37,18 +37,29 @@ EARLIER = (
     "Isolate, lock and tag every energy source listed under 'Energy isolation points'; release stored "
     "pressure; try to start the drives to prove they are dead before touching anything."
 )
+#: The lockout step as orders made before it said to leave the brakes applied carry it.
+SPRINGS_NAMED = (
+    "Isolate, lock and tag every energy source listed under 'Energy isolation points'; relieve or restrain stored "
+    "energy (pressure, loaded springs, raised or out-of-balance parts); try to start the drives to prove they are "
+    "dead before touching anything."
+)
 
 
-def test_the_lockout_step_relieves_or_restrains_stored_energy_of_every_kind_springs_included():
-    """OSHA 29 CFR 1910.147(d)(5): stored energy relieved, disconnected or restrained after the locks are on. A
-    spring-applied brake keeps its springs loaded with every supply off, so the step names springs beside pressure,
-    and raised or out-of-balance parts; it stays one short checklist line."""
+def test_the_lockout_step_makes_stored_energy_safe_without_releasing_a_brake_and_leaves_the_controls_at_off():
+    """OSHA 29 CFR 1910.147(d)(5): stored energy relieved, disconnected or restrained after the locks are on; (d)(6):
+    the isolation verified before work. A safety review read "relieve or restrain ... loaded springs" on a spring-brake
+    order, ahead of the steps that need the brake applied, as "release the brake that holds the axis": the step now
+    says to leave every such brake applied (its springs are restrained only at the brake, the axis pinned first), and
+    the try-start ends with the controls back at off. It stays one checklist line."""
     assert LOCKOUT_STEP.startswith("Isolate, lock and tag every energy source listed under 'Energy isolation points'")
-    named = "relieve or restrain stored energy (pressure, loaded springs, raised or out-of-balance parts)"
-    assert named in LOCKOUT_STEP
-    assert LOCKOUT_STEP.endswith("try to start the drives to prove they are dead before touching anything.")
-    assert "\n" not in LOCKOUT_STEP and len(LOCKOUT_STEP) < 250
-    assert EARLIER_LOCKOUT_STEPS == (EARLIER,)
+    assert "bleed any stored pressure to zero and lower or block raised parts" in LOCKOUT_STEP
+    assert "leave every brake that holds an axis applied" in LOCKOUT_STEP and "axis pinned first" in LOCKOUT_STEP
+    assert "relieve or restrain" not in LOCKOUT_STEP and "release" not in LOCKOUT_STEP
+    assert LOCKOUT_STEP.endswith(
+        "Try to start the drives to prove they are dead, then return the controls to off, before touching anything."
+    )
+    assert "\n" not in LOCKOUT_STEP and len(LOCKOUT_STEP) < 450
+    assert EARLIER_LOCKOUT_STEPS == (EARLIER, SPRINGS_NAMED)
 
 
 def test_the_present_and_the_earlier_wording_are_the_lockout_step_and_no_other_step_is():

@@ -198,7 +198,9 @@ def test_the_reading_form_offers_the_kinds_usual_quantities_first_even_with_no_a
 
 @pytest.mark.parametrize("kind", KINDS)
 def test_every_kinds_own_quantities_come_first_and_a_kind_without_says_so(client, telescope, users, kind):
-    subsystem = subsystem_create(telescope, kind, "Under test", counting_from=dt.date(2026, 1, 1))
+    # "Other" brings no hazards: an engineer records that it has none (registry.models.Subsystem.no_hazards_found).
+    recorded = {"no_hazards_found": True} if not KINDS[kind].hazards else {}
+    subsystem = subsystem_create(telescope, kind, "Under test", counting_from=dt.date(2026, 1, 1), **recorded)
     subsystem.plans.update(active=False)  # only the kind's own quantities (registry.catalogue) count
     client.force_login(users["technician"])
     ours, others = _offered(client, subsystem)

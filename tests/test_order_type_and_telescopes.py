@@ -75,6 +75,8 @@ def two_telescopes(site, telescope):
     mains = subsystem_create(other, "ac_power", "Mains", counting_from=START)
     IsolationPoint.objects.create(telescope=telescope, energy="air", label="Brake air valve")
     IsolationPoint.objects.create(telescope=other, energy="ac", label="R40 mains isolator")
+    # The distribution's own point, upstream of its boards (a telescope's isolators leave their incoming side live).
+    IsolationPoint.objects.create(telescope=other, subsystem=mains, energy="ac", label="R40 mains feeder")
     return brake, mains
 
 
@@ -101,8 +103,9 @@ def test_a_telescope_missing_the_point_for_its_own_work_is_still_warned(two_tele
 def test_a_hazard_given_by_hand_concerns_every_telescope_of_the_order(site, telescope, users):
     other = Telescope.objects.create(site=site, name="R40", aperture_m=0.4, mount="fork")
     mains = [subsystem_create(t, "ac_power", "Mains", counting_from=START) for t in (telescope, other)]
-    for t in (telescope, other):
+    for t, distribution in zip((telescope, other), mains, strict=True):
         IsolationPoint.objects.create(telescope=t, energy="ac", label=f"{t.name} mains isolator")
+        IsolationPoint.objects.create(telescope=t, subsystem=distribution, energy="ac", label=f"{t.name} mains feeder")
     order = services.work_order_ad_hoc(site, mains, "Fit air-cooled contactors", users["engineer"],
                                        steps="Fit them.", hazards=["pneumatic"])  # no item says whose
     gaps = selectors.isolation_gaps(order)

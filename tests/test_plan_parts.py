@@ -105,7 +105,9 @@ def test_a_part_is_named_until_it_is_reserved_on_the_order_or_the_work_is_done(b
 
 
 def test_an_order_whose_plans_name_no_parts_says_no_parts_listed(telescope, users, client):
-    cabinet = subsystem_create(telescope, "other", "Eyepiece cabinet", counting_from=dt.date(2026, 1, 1))
+    cabinet = subsystem_create(
+        telescope, "other", "Eyepiece cabinet", counting_from=dt.date(2026, 1, 1), no_hazards_found=True
+    )
     plan = ServicePlan.objects.create(subsystem=cabinet, name="Clean", steps="Clean.",
                                       counting_from=dt.date(2026, 1, 1))
     order = services.work_order_from_due([plan], users["engineer"])

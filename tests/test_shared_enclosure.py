@@ -67,11 +67,11 @@ def test_a_shared_roofs_plans_count_the_whole_sites_nights(roof):
 
 
 def test_ticking_the_shared_enclosure_in_the_admin_recomputes_the_site(roof, users, client, monkeypatch):
-    from observatory_ops.registry import admin as registry_admin
+    from observatory_ops.registry import services as registry_services
 
     site = roof[0]
     recomputed = []
-    monkeypatch.setattr(registry_admin, "site_recompute", lambda s: recomputed.append(s.pk))
+    monkeypatch.setattr(registry_services, "site_recompute", lambda s: recomputed.append(s.pk))
     users["administrator"].is_staff = True
     users["administrator"].save()
     client.force_login(users["administrator"])

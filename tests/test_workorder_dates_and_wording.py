@@ -70,7 +70,7 @@ def test_the_bound_is_the_local_date_of_the_issue_at_the_site(order, users):  # 
 @pytest.fixture
 def station(telescope):
     """A subsystem with no hazards of its own: its work needs no lockout, so its checklist is its steps."""
-    return Subsystem.objects.create(telescope=telescope, kind="other", name="Weather station")
+    return Subsystem.objects.create(telescope=telescope, kind="other", name="Weather station", no_hazards_found=True)
 
 
 def _ad_hoc(station, **fields) -> dict:

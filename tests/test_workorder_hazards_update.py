@@ -69,7 +69,9 @@ def _pdf_text(client, work_order) -> str:
 @pytest.fixture
 def eyepieces(telescope):
     """A subsystem whose work has no energy to isolate, and a plan in its three step groups."""
-    box = subsystem_create(telescope, "other", "Eyepiece cabinet", counting_from=dt.date(2026, 1, 1))
+    box = subsystem_create(
+        telescope, "other", "Eyepiece cabinet", counting_from=dt.date(2026, 1, 1), no_hazards_found=True
+    )
     ServicePlan.objects.create(
         subsystem=box, name="Clean the eyepieces", steps_powered="Switch on the cabinet light.",
         steps="Clean each eyepiece with lens tissue.", steps_restore="Put the eyepieces back in their slots.",
@@ -98,7 +100,9 @@ def test_a_hazard_added_to_a_plan_the_order_covers_is_found_too(order, drive):  
 
 def test_hazards_the_order_has_beyond_its_subsystems_are_not_missing_nor_reported(telescope, site, users):
     # An ad hoc order keeps the further hazards the engineer ticked; only what the subsystems add counts.
-    box = subsystem_create(telescope, "other", "Eyepiece cabinet", counting_from=dt.date(2026, 1, 1))
+    box = subsystem_create(
+        telescope, "other", "Eyepiece cabinet", counting_from=dt.date(2026, 1, 1), no_hazards_found=True
+    )
     made = services.work_order_ad_hoc(site, [box], "Sort eyepieces", users["engineer"], steps="Sort them.",
                                       hazards=["laser"])
     assert selectors.hazards_missing(made) == []
@@ -363,7 +367,9 @@ def test_steps_edited_since_are_not_given_a_lockout_by_guess_and_the_order_waits
 
 def test_an_ad_hoc_order_keeps_its_steps_and_must_have_the_lockout_put_in(telescope, site, users):
     # Its step groups were not kept, so nothing can say where the lockout goes.
-    box = subsystem_create(telescope, "other", "Eyepiece cabinet", counting_from=dt.date(2026, 1, 1))
+    box = subsystem_create(
+        telescope, "other", "Eyepiece cabinet", counting_from=dt.date(2026, 1, 1), no_hazards_found=True
+    )
     made = services.work_order_ad_hoc(site, [box], "Fix the cabinet light", users["engineer"],
                                       steps="Replace the lamp.")
     _add_hazard(box, "electrical")

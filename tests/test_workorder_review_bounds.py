@@ -65,7 +65,9 @@ def _admin_part(part: Part, **changes) -> dict:
 @pytest.fixture
 def co2_plan(telescope):
     """A plan whose parts line is exactly the CO2 cylinder's name."""
-    cabinet = subsystem_create(telescope, "other", "Snow cleaning kit", counting_from=dt.date(2026, 1, 1))
+    cabinet = subsystem_create(
+        telescope, "other", "Snow cleaning kit", counting_from=dt.date(2026, 1, 1), no_hazards_found=True
+    )
     return ServicePlan.objects.create(subsystem=cabinet, name="Clean", steps="Clean.", parts=CO2,
                                       counting_from=dt.date(2026, 1, 1))
 
@@ -242,7 +244,7 @@ def test_both_fields_wrong_are_both_named(order, users, client):  # noqa: F811
 
 @pytest.fixture
 def station(telescope):
-    return Subsystem.objects.create(telescope=telescope, kind="other", name="Weather station")
+    return Subsystem.objects.create(telescope=telescope, kind="other", name="Weather station", no_hazards_found=True)
 
 
 def test_the_fault_page_starts_at_corrective_listed_first_and_says_what_it_counts_for(site, station, users, client):

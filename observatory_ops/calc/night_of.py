@@ -70,10 +70,22 @@ def zone_gap_h(longitude_deg: float, zone_name: str, year: int) -> tuple[float, 
     ValueError
         When ``zone_name`` is not an IANA time zone name.
     """
-    tz = zone(zone_name)
     solar_h = longitude_deg / 15.0
-    offsets = [
-        dt.datetime(year, month, 15, 12, tzinfo=tz).utcoffset().total_seconds() / 3600.0 for month in (1, 7)
-    ]
-    gaps = [((offset - solar_h + 12.0) % 24.0 - 12.0, offset) for offset in offsets]
+    gaps = [((offset - solar_h + 12.0) % 24.0 - 12.0, offset) for offset in zone_offsets_h(zone_name, year)]
     return min(gaps, key=lambda gap: abs(gap[0]))
+
+
+def zone_offsets_h(zone_name: str, year: int) -> tuple[float, float]:
+    """A time zone's UTC offsets in hours at noon on 15 January and on 15 July of ``year``, from the IANA time zone
+    database (:mod:`zoneinfo`): its standard and its daylight time, in either order by hemisphere, or the same
+    offset twice for a zone without daylight time.
+
+    Raises
+    ------
+    ValueError
+        When ``zone_name`` is not an IANA time zone name.
+    """
+    tz = zone(zone_name)
+    january, july = (dt.datetime(year, month, 15, 12, tzinfo=tz).utcoffset().total_seconds() / 3600.0
+                     for month in (1, 7))
+    return january, july

@@ -6,6 +6,7 @@ from django.template.response import TemplateResponse
 from simple_history.admin import SimpleHistoryAdmin
 
 from observatory_ops.archive.history import person
+from observatory_ops.registry.forms import TelescopeListFilter
 
 from .models import NightUsage, Reading, ServiceRecord
 from .nights_csv import FROM_SITE
@@ -47,7 +48,7 @@ _FIGURES = {name: _figure_or_sites(name) for name in FROM_SITE}
 class NightUsageAdmin(ReadOnlyAdmin):
     list_display = ("site", "night", "whose", "open_hours", _FIGURES["slews"], _FIGURES["brake_cycles"],
                     _FIGURES["pm10_ugm3"], "source")
-    list_filter = ("site", "telescope", "source")
+    list_filter = ("site", ("telescope", TelescopeListFilter), "source")
     list_select_related = ("site", "telescope")
     date_hierarchy = "night"
     # The record page, read-only, shows the figures as the list does.
@@ -95,14 +96,14 @@ class NightsRemoveForm(forms.Form):
 @admin.register(Reading)
 class ReadingAdmin(ReadOnlyAdmin):
     list_display = ("subsystem", "quantity", "value", "unit", "taken_at", "taken_by")
-    list_filter = ("quantity", "subsystem__telescope")
+    list_filter = ("quantity", ("subsystem__telescope", TelescopeListFilter))
 
 
 @admin.register(ServiceRecord)
 class ServiceRecordAdmin(ReadOnlyAdmin):
     list_display = ("performed_on", "subsystem", "plan", "summary", "done_by", "work_order", "repaired_failure",
                     "corrects", "void")
-    list_filter = ("subsystem__telescope", "repaired_failure")
+    list_filter = (("subsystem__telescope", TelescopeListFilter), "repaired_failure")
     list_select_related = ("subsystem__telescope", "plan", "performed_by", "work_order", "corrects")
 
     @admin.display(description="performed by", ordering="performed_by__last_name")

@@ -92,8 +92,14 @@ class ReadingForm(forms.Form):
     def clean(self):
         data = super().clean()
         quantity, value = data.get("quantity"), data.get("value")
-        if value is None or data.get("value_confirmed") or quantity not in QUANTITIES or value_problem(quantity, value):
-            return data  # an implausible value is refused as such (``services.reading_log``), not asked about
+        if value is None or quantity not in QUANTITIES:
+            return data
+        problem = value_problem(quantity, value)
+        if problem:  # refused as ``services.reading_log`` refuses it, said beside the field, not asked about
+            self.add_error("value", problem[0].upper() + problem[1:] + ".")
+            return data
+        if data.get("value_confirmed"):
+            return data
         for limit in self.limits.get(quantity, []):
             if limit > 0 and value > UNIT_SLIP_FACTOR * limit:
                 label, unit = QUANTITIES[quantity]

@@ -64,10 +64,13 @@ def service_records_csv(request, slug):
 def service_log(request, pk):
     subsystem = get_object_or_404(Subsystem.objects.select_related("telescope__site"), pk=pk)
     site = subsystem.telescope.site
-    initial = {"performed_on": services.site_today(site)}
-    if request.GET.get("plan"):
-        initial["plan"] = request.GET["plan"]
-    form = ServiceRecordForm(request.POST or None, subsystem=subsystem, initial=initial)
+    form = ServiceRecordForm(request.POST or None, subsystem=subsystem,
+                             initial={"performed_on": services.site_today(site)})
+    # From a plan's "Log service for this plan": the plan chosen, and its name as the summary to start from.
+    plan = request.GET.get("plan", "")
+    chosen = form.fields["plan"].queryset.filter(pk=plan).first() if plan.isdigit() else None
+    if chosen:
+        form.initial.update(plan=chosen.pk, summary=chosen.name)
     if request.method == "POST" and form.is_valid():
         data = form.cleaned_data
         repeated = service_already_logged(subsystem, request.user, data["plan"], data["performed_on"], data["summary"],

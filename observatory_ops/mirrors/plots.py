@@ -16,7 +16,9 @@ from .services import MirrorForecast
 CLEANING = "#5f8a8a"
 
 
-def decline_svg(state: MirrorForecast) -> SafeString | None:
+def decline_svg(state: MirrorForecast, described_by: str = "") -> SafeString | None:
+    """Measured band reflectance against dust-weighted exposure, the fit, the recoat and fresh lines, the cleanings
+    and the crossing; ``described_by``: the ids of the page's words with its figures (``Chart``)."""
     if not state.points and state.fresh_band is None:
         return None
     ends = [state.exposure_now_h, *(p[1] for p in state.points)]
@@ -26,7 +28,8 @@ def decline_svg(state: MirrorForecast) -> SafeString | None:
     x_high = max(ends) * 1.1 or 100.0
     lines = (state.fresh_band, state.threshold, state.current)
     values = [p[2] for p in state.points] + [v for v in lines if v is not None]
-    chart = Chart(0.0, x_high, min(values) - 0.01, max(values) + 0.01, f"Reflectance of {state.mirror}")
+    chart = Chart(0.0, x_high, min(values) - 0.01, max(values) + 0.01, f"Reflectance of {state.mirror}",
+                  described_by=described_by)
     chart.axes(x_label="dust-weighted open hours since coating", y_label="band reflectance (fraction)")
     if state.fit is not None:
         grid = np.linspace(0, x_high, 200)
@@ -53,11 +56,13 @@ def decline_svg(state: MirrorForecast) -> SafeString | None:
     return chart.svg()
 
 
-def curve_svg(result: dict) -> SafeString:
-    """Reflectance against wavelength for a computed coating curve, with its band mean."""
+def curve_svg(result: dict, described_by: str = "") -> SafeString:
+    """Reflectance against wavelength for a computed coating curve, with its band mean; ``described_by`` as
+    ``decline_svg``'s."""
     waves = [p["wavelength_nm"] for p in result["curve"]]
     values = [p["reflectance"] for p in result["curve"]]
-    chart = Chart(waves[0], waves[-1], min(values) - 0.01, min(max(values) + 0.01, 1.0), "Coating reflectance")
+    chart = Chart(waves[0], waves[-1], min(values) - 0.01, min(max(values) + 0.01, 1.0), "Coating reflectance",
+                  described_by=described_by)
     chart.axes(x_label="wavelength (nm)")
     chart.hline(result["band_mean"], f"band mean {reflectance_text(result['band_mean'])}", colour="#4a6b4a")
     chart.line(list(zip(waves, values, strict=True)))

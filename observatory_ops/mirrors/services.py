@@ -34,7 +34,7 @@ from observatory_ops.planning.services import (
     site_today,
     usage_model,
 )
-from observatory_ops.registry.catalogue import KINDS, RELEASE
+from observatory_ops.registry.catalogue import KINDS, PIN_AXES, RELEASE, out_of_balance_tag
 from observatory_ops.registry.models import Site, Subsystem, Telescope
 from observatory_ops.registry.selectors import crew_days_off
 from observatory_ops.workorders.cautions import HAZARDS
@@ -58,6 +58,8 @@ class MirrorForecast:
     exposure_now_h: float  # dust-weighted open hours since the coating, to the last logged night before today
     exposure_logged_to: dt.date | None = None  # that last logged night; None when none is logged since the coating
     points: list[tuple[dt.date, float, float]] = field(default_factory=list)  # (date, exposure, reflectance)
+    # The exposure of each measurement in ``points``, by its pk: the mirror page lists it, the x of its dot.
+    exposure_by_measurement: dict[int, float] = field(default_factory=dict)
     cleanings: list[tuple[dt.date, float]] = field(default_factory=list)  # (date, exposure)
     fit: reflectance.DeclineFit | None = None
     fit_note: str = ""
@@ -153,6 +155,7 @@ def mirror_forecast(
         exposure_now_h=float(exposures[-1]), exposure_logged_to=_last_logged_night(log, last.coated_on, today),
         log_note=log.note,
         points=[(m.measured_on, float(e), m.value) for m, e in zip(measurements, exposures[:n], strict=True)],
+        exposure_by_measurement={m.pk: float(e) for m, e in zip(measurements, exposures[:n], strict=True)},
         cleanings=[(c.cleaned_on, float(e)) for c, e in zip(cleanings, exposures[n : n + k], strict=True)],
     )
     measured_h, measured = [p[1] for p in result.points], [p[2] for p in result.points]
@@ -659,11 +662,7 @@ _WITH_CELL, _MIRROR_ONLY = "mirror and cell", "mirror alone"
 # stay pinned, the telescope tagged out of service and out of robotic control, and the drives locked out
 # (or powered only under the site's lockout procedure with the pins in). Telescope handling here is common
 # practice, no published source; the site's mirror-removal procedure and the maker's instructions come first.
-_OUT_OF_BALANCE_TAG = (
-    "Tag the telescope out of service at its controls and at the drive cabinet (primary mirror removed, "
-    "out of balance, axes pinned: do not move), keep the observatory out of robotic and remote control "
-    "until the reinstall order is finished, and tell the remote operators."
-)
+_OUT_OF_BALANCE_TAG = out_of_balance_tag("the reinstall order is finished")
 _MIRROR_ONLY_LIFT = (
     "The lifting figures on this order are for the mirror and its cell together; the mirror lifted alone "
     "is a smaller load (the mirror mass row), so rig for the figures or for the mirror mass as the lift "
@@ -686,7 +685,7 @@ _AIR_BRAKE, _SPRING_BRAKE = "brake", "spring_brake"
 #: The brakes' wording by the kinds registered in service on the telescope (``_brakes_of``). Applied by springs, they
 #: hold an axis with their air vented or their power isolated whatever its balance, so an axis that stays put while
 #: pinned or braked shows nothing. The pneumatic caution comes with an air brake ("When air returns the brakes
-#: release"), the stored-mechanical one with a spring brake (its springs stay loaded, OSHA 29 CFR 1910.147(d)(5)).
+#: release"), and the stored-mechanical one with either (their springs stay loaded, OSHA 29 CFR 1910.147(d)(5)).
 #: Without a registered brake the check follows the mount's own arrangement and adds no brake hazard, as nothing says
 #: which. Common practice, no published source; the site's balancing procedure and the mount maker's instructions
 #: come first.
@@ -696,7 +695,7 @@ _BRAKES = {
         "whatever its balance",
         release="its air restored under the site's lockout procedure, or the maker's manual release",
         apply="vent its air and lock it out again",
-        hazards=("pneumatic",),
+        hazards=("pneumatic", "stored_mechanical"),  # its springs stay loaded with the air vented
     ),
     frozenset({_SPRING_BRAKE}): _Brakes(
         held="The brakes are applied by springs and released electrically, so with their power isolated they hold "
@@ -760,11 +759,12 @@ _PHASE_WORK = {
             "another way).",
         ),
         locked=(
-            "Lock both axes mechanically with their locking pins; fit the mirror-handling fixture.",
+            PIN_AXES,
             "Set the lifting table (or cart) under the cell, rated for at least the total suspended load in "
             "the lifting figures; a competent person checks the table and any rigging.",
-            "Unbolt the cell and lower it, with the mirror in it, out of the tube onto the lifting table; "
-            "move it clear of the telescope.",
+            "Raise the lifting table (or take up the hoist) until it carries the cell's weight, then unbolt the "
+            "cell and lower it, with the mirror in it, out of the tube onto the lifting table; move it clear of the "
+            "telescope.",
             f"Lift the mirror out of its cell with rated slings and place it face up in its transport crate. "
             f"{_MIRROR_ONLY_LIFT}",
             "The tube is now far out of balance: fit the balance weights the site's mirror-removal procedure "

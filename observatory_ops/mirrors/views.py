@@ -28,6 +28,10 @@ def _mirror(pk) -> Mirror:
 def mirror_detail(request, pk):
     mirror = _mirror(pk)
     state = services.mirror_forecast(mirror)
+    measurements = list(mirror.measurements.select_related("taken_by", "reading", "withdrawn_by")
+                        .order_by("-measured_on")[:40])
+    for m in measurements:  # the x of its dot in the picture; None for one not fitted
+        m.exposure_h = state.exposure_by_measurement.get(m.pk)
     return render(
         request,
         "mirrors/detail.html",
@@ -36,12 +40,11 @@ def mirror_detail(request, pk):
             "site": mirror.subsystem.telescope.site,
             "state": state,
             "recoat_due": services.recoat_due(mirror),
-            "plot": plots.decline_svg(state),
+            "plot": plots.decline_svg(state, described_by="decline-words"),
             "train": services.throughput(mirror.subsystem.telescope),
             "coatings": mirror.coatings.all(),
             "cleanings": mirror.cleanings.all(),
-            "measurements": mirror.measurements.select_related("taken_by", "reading", "withdrawn_by")
-            .order_by("-measured_on")[:40],
+            "measurements": measurements,
             "history": changes(mirror, limit=5),
             "history_label": "mirrors.mirror",
             "history_pk": mirror.pk,
@@ -238,5 +241,5 @@ def coating_calculator(request):
         except ValueError as exc:
             form.add_error(None, str(exc))
         else:
-            plot = plots.curve_svg(result)
+            plot = plots.curve_svg(result, described_by="coating-words")
     return render(request, "mirrors/coating.html", {"form": form, "result": result, "plot": plot})

@@ -3,7 +3,7 @@ from django.contrib import admin, messages
 from simple_history.admin import SimpleHistoryAdmin
 
 from observatory_ops.logbook.quantities import QUANTITIES, usual_for_kind
-from observatory_ops.registry.forms import HazardsField
+from observatory_ops.registry.forms import HazardsField, TelescopeListFilter
 
 from .models import BookedRun, ServicePlan, Trigger
 from .services import site_recompute
@@ -12,16 +12,29 @@ from .services import site_recompute
 class RecomputesSite:
     """For admin pages whose changes move due states (the register, plans and triggers, nights, readings,
     service records, mirrors): the site is recomputed as soon as a change is saved, inline rows included,
-    inside the admin's own transaction, so no page shows figures from before the change."""
+    inside the admin's own transaction, so no page shows figures from before the change.
+
+    A change that moves the record to another site (a telescope, a subsystem, a plan or a mirror put under another
+    site's) recomputes the site it left, then the one it joined: the states of its plans are stored under the first
+    until it is recomputed, and one plan has one state, so the second could not store them before."""
 
     def site_of(self, obj):
         raise NotImplementedError
 
+    def save_model(self, request, obj, form, change):
+        # The site of the record as stored, read before the change is saved (kept on the instance for save_related).
+        obj._site_before = self.site_of(type(obj)._default_manager.get(pk=obj.pk)) if change else None
+        super().save_model(request, obj, form, change)
+
     def save_related(self, request, form, formsets, change):
         super().save_related(request, form, formsets, change)
         site = self.site_of(form.instance)
-        site_recompute(site)
-        self.message_user(request, f"Due states of {site} recomputed.", messages.INFO)
+        left = getattr(form.instance, "_site_before", None)
+        sites = [left, site] if left is not None and left.pk != site.pk else [site]
+        for each in sites:
+            site_recompute(each)
+        self.message_user(request, f"Due states of {' and '.join(str(each) for each in sites)} recomputed.",
+                          messages.INFO)
 
     def delete_model(self, request, obj):
         site = self.site_of(obj)
@@ -75,7 +88,7 @@ class ServicePlanAdminForm(forms.ModelForm):
 class ServicePlanAdmin(RecomputesSite, SimpleHistoryAdmin):
     form = ServicePlanAdminForm
     list_display = ("name", "subsystem", "dust_sensitivity", "counting_from", "counting_from_given", "active")
-    list_filter = ("subsystem__telescope__site", "subsystem__telescope", "active")
+    list_filter = ("subsystem__telescope__site", ("subsystem__telescope", TelescopeListFilter), "active")
     search_fields = ("name", "subsystem__name")
     inlines = [TriggerInline]
 

@@ -26,11 +26,22 @@ class QuickSelect(forms.Select):
         return mark_safe(html)  # noqa: S308  # nosec B308 B703
 
 
+class _TelescopeField(django_filters.fields.ModelChoiceField):
+    def label_from_instance(self, obj: Telescope) -> str:
+        return obj.site_label
+
+
+class TelescopeFilter(django_filters.ModelChoiceFilter):
+    """The telescopes of every site, each named with its site (``Telescope.site_label``): names repeat across sites."""
+
+    field_class = _TelescopeField
+
+
 class DueFilter(django_filters.FilterSet):
     site = django_filters.ModelChoiceFilter(
         queryset=Site.objects.all(), field_name="site", label="Site", widget=QuickSelect
     )
-    telescope = django_filters.ModelChoiceFilter(
+    telescope = TelescopeFilter(
         queryset=Telescope.objects.select_related("site"), field_name="plan__subsystem__telescope", label="Telescope",
         widget=QuickSelect,
     )

@@ -26,6 +26,14 @@ METRICS: dict[str, tuple[str, str]] = {
 }
 METRIC_CHOICES = [(code, label) for code, (label, _unit) in METRICS.items()]
 
+
+def rate_unit(metric: str, unit: str) -> str:
+    """The unit of a metric's rate per day as sentences write it: a dust-weighted hour is an open hour times the
+    night's dust weight, so a dusty site's day can count more than 24 of them, which "h per day" alone reads as an
+    error; "dust-weighted h per day" does not."""
+    return f"dust-weighted {unit}" if metric == DUST_HOURS else unit
+
+
 #: The largest limit a trigger of each metric takes, with why (a reading trigger's limit is held to its quantity's
 #: own range instead, ``logbook.quantities.PLAUSIBLE_RANGE``). Plausibility bounds of our own (common practice, no
 #: published source): 100 years for the calendar and for hours, and for counts 100 years of busy nights; each is over

@@ -59,11 +59,12 @@ def _date(day: float) -> dt.date:
 
 def _frame(
     start: dt.date, end: dt.date, values: list[float], limit: float, limit_label: str, rising: bool, title: str,
-    earliest: dt.date | None, latest: dt.date | None,
+    earliest: dt.date | None, latest: dt.date | None, described_by: str,
 ) -> Chart:
-    """The picture every plan's chart starts from: axes, the forecast band and the limit."""
+    """The picture every plan's chart starts from: axes, the forecast band and the limit. ``described_by``: the ids
+    of the page's words that carry its figures (``Chart``)."""
     low = 0.0 if rising else min(values) * 0.98
-    chart = Chart(start, end, low, max(values) * (1.08 if rising else 1.01), title)
+    chart = Chart(start, end, low, max(values) * (1.08 if rising else 1.01), title, described_by=described_by)
     chart.axes()
     if earliest and earliest != latest:
         chart.band(earliest, latest or end, "forecast band")
@@ -83,6 +84,7 @@ def accumulation_svg(
     rising: bool = True,
     title: str = "",
     metric: str = "",
+    described_by: str = "",
 ) -> SafeString:
     """Accumulated value against time, the limit, today, and the forecast with its band.
 
@@ -95,7 +97,7 @@ def accumulation_svg(
     end = max(d for d in (today, forecast, latest, earliest) if d is not None) + dt.timedelta(days=7)
     values = [v for _, v in points] + [limit, value_now]
     chart = _frame(start, end, values, limit, f"limit {figure_text(metric, unit, limit)} {unit}".strip(), rising,
-                   title, earliest, latest)
+                   title, earliest, latest, described_by)
     chart.line(points)
     if forecast and forecast < today:  # already reached: mark the day, draw no line back in time
         chart.marker(forecast, limit, f"limit reached {forecast:%d %b %Y}")
@@ -119,6 +121,7 @@ def readings_svg(
     rising: bool,
     title: str,
     counted_from: tuple[dt.date, str],
+    described_by: str = "",
 ) -> SafeString:
     """A condition trigger's readings as dots against the limit, with the Theil-Sen trend its forecast came from.
 
@@ -137,7 +140,7 @@ def readings_svg(
         drawn = [(trend.start, trend.value_at(trend.start)), (until, trend.value_at(until))]
     values = [v for _, v in readings] + [v for _, v in drawn] + [limit]
     limit_label = f"limit {figure_text(metrics.READING, unit, limit)} {unit}".strip()
-    chart = _frame(start, end, values, limit, limit_label, rising, title, earliest, latest)
+    chart = _frame(start, end, values, limit, limit_label, rising, title, earliest, latest, described_by)
     fitted = trend.start if trend else float("inf")
     left_out = [r for r in readings if r[0] < fitted]
     chart.dots(left_out, colour=LEFT_OUT, label="reading, not in the trend")
@@ -196,7 +199,7 @@ def fitted_decline_by_date(state: MirrorForecast, today: dt.date) -> list[tuple[
     return [(day, value) for day, _, value in sorted(knots, key=lambda knot: knot[:2])]
 
 
-def recoat_svg(state: MirrorForecast, today: dt.date, title: str) -> SafeString:
+def recoat_svg(state: MirrorForecast, today: dt.date, title: str, described_by: str = "") -> SafeString:
     """A recoat-line trigger's picture against dates: the mirror's band measurements since its coating as dots,
     the recoat line, and the fitted decline its forecast came from (``fitted_decline_by_date``), dashed on from
     today's estimate to the forecast date on the line, with the forecast band. Every date and figure is the
@@ -208,7 +211,7 @@ def recoat_svg(state: MirrorForecast, today: dt.date, title: str) -> SafeString:
     values = [value for _, _, value in state.points] + [value for _, value in fitted] + [limit]
     limit_label = f"recoat line {figure_text(metrics.RECOAT_LINE, '', limit)}"
     chart = _frame(state.coated_on, end, values, limit, limit_label, False, title, state.crossing_earliest,
-                   state.crossing_latest)
+                   state.crossing_latest, described_by)
     if fitted:
         chart.line(fitted, width=1.5)
         _label_along(chart, fitted, "fitted decline")

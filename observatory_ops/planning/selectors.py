@@ -42,8 +42,18 @@ def due_for_site(site: Site) -> QuerySet[PlanStatus]:
 
 
 def status_counts(site: Site) -> dict[str, int]:
-    counts = dict(PlanStatus.objects.filter(site=site).values_list("status").annotate(n=Count("pk")))
-    return {s: counts.get(s, 0) for s in STATUSES}
+    return status_counts_by_site([site])[site.pk]
+
+
+def status_counts_by_site(sites: list[Site]) -> dict[int, dict[str, int]]:
+    """Each site's number of plans in each status, from the stored states, by site id: one query for all of them."""
+    counts = {site.pk: dict.fromkeys(STATUSES, 0) for site in sites}
+    for site_id, status, n in (
+        PlanStatus.objects.filter(site__in=list(counts)).order_by().values_list("site", "status")
+        .annotate(n=Count("pk"))
+    ):
+        counts[site_id][status] = n
+    return counts
 
 
 def recent_service(site: Site) -> QuerySet[ServiceRecord]:
@@ -301,7 +311,7 @@ def trigger_table(plan: ServicePlan) -> list[dict]:
         elif row["metric"] == metrics.READING:
             words = f"{significant(rate, signed=True)} {row['unit']} (trend)"
         else:
-            words = f"{significant(rate)} {row['unit']} (mean of the next 30 days)"
+            words = f"{significant(rate)} {metrics.rate_unit(row['metric'], row['unit'])} (mean of the next 30 days)"
         value_text = figure_text(row["metric"], row["unit"], row["value"])
         if unknown and row["metric"] == metrics.CALENDAR_DAYS:
             value_text = "unknown"
@@ -393,7 +403,9 @@ def expected_use_by_month(subsystem: Subsystem, plans: list[ServicePlan]) -> dic
 def plans_with_plots(subsystem: Subsystem) -> list[ServicePlan]:
     """The subsystem's plans, each with ``plot``: an SVG of its governing trigger (see ``plots``), ``caption``: the
     words under it where it needs them (the fitted decline of a recoat line), ``trigger_table``: its triggers' rows
-    (``trigger_table``), and ``default_limits``: the notes of ``default_limit_notes``."""
+    (``trigger_table``), and ``default_limits``: the notes of ``default_limit_notes``. A plot is described
+    (aria-describedby) by the plan's due sentence, a recoat line's by its caption too: registry/subsystem_detail.html
+    gives them the ids plan-<pk>-reason and plan-<pk>-caption."""
     from observatory_ops.mirrors.services import mirror_forecast  # mirrors builds on planning
 
     from .services import UsageLog, site_today
@@ -419,6 +431,7 @@ def plans_with_plots(subsystem: Subsystem) -> list[ServicePlan]:
         if status.progress == UNKNOWN_PROGRESS:  # no picture of the way to a limit from a service nobody knows
             continue
         title = f"{plan.name}: {status.get_metric_display()}"
+        described = f"plan-{plan.pk}-reason"
         if status.metric == metrics.CALENDAR_DAYS:
             points = [(baseline, 0.0), (today, status.value)]
         elif status.metric == metrics.RECOAT_LINE:
@@ -428,7 +441,7 @@ def plans_with_plots(subsystem: Subsystem) -> list[ServicePlan]:
             log = log or UsageLog.for_subsystem(subsystem)
             decline = mirror_forecast(mirror, today, log) if mirror else None
             if decline is not None and decline.threshold is not None:
-                plan.plot = plots.recoat_svg(decline, today, title)
+                plan.plot = plots.recoat_svg(decline, today, title, f"{described} plan-{plan.pk}-caption")
                 plan.caption = plots.recoat_caption(decline)
             continue
         elif status.metric == metrics.READING:
@@ -442,6 +455,7 @@ def plans_with_plots(subsystem: Subsystem) -> list[ServicePlan]:
                 reading_trend(taken, baseline, site.zone, trigger.limit, rising), status.limit, status.unit, today,
                 plan.trigger_table[0]["reached"], status.forecast_date, status.earliest, status.latest, rising, title,
                 (baseline, f"{'last service' if status.last_service_on else 'plan start'} {baseline:%d %b %Y}"),
+                described_by=described,
             )
             continue
         else:
@@ -452,7 +466,7 @@ def plans_with_plots(subsystem: Subsystem) -> list[ServicePlan]:
             points = [(baseline, 0.0)] + list(zip(days, totals.tolist(), strict=True))
         plan.plot = plots.accumulation_svg(
             points, status.limit, status.unit, today, status.value, status.forecast_date, status.earliest,
-            status.latest, title=title, metric=status.metric,
+            status.latest, title=title, metric=status.metric, described_by=described,
         )
     return plans
 

@@ -126,6 +126,13 @@ def site_sky_refresh(site: Site, start: dt.date, end: dt.date) -> int:
     return len(rows)
 
 
+def site_sky_forget(site: Site) -> int:
+    """Empty the site's nights cache, computed for a position or time zone it no longer has (a corrected latitude,
+    longitude, elevation or zone): the next recompute fills it again for the site as it is now. Returns the number
+    of nights forgotten."""
+    return NightSky.objects.filter(site=site).delete()[0]
+
+
 _EPOCH_ORDINAL = dt.date(1970, 1, 1).toordinal()
 
 
@@ -932,7 +939,8 @@ def reason_text(state: TriggerState) -> str:
     else:
         head = f"{label}: {state.value:,.0f} of {state.limit:,.0f} {unit}"
         if state.rate_per_day is not None and state.metric != metrics.CALENDAR_DAYS:
-            head += f", about {state.rate_per_day:,.1f} {unit} per day expected over the next month"
+            head += (f", about {state.rate_per_day:,.1f} {metrics.rate_unit(state.metric, unit)} per day expected "
+                     "over the next month")
     if state.reached and state.metric == metrics.READING and state.forecast:
         # The day of the first reading past the limit (``_reading_state``), not where the trend crosses it.
         return f"{head}; past the limit since the reading of {state.forecast:%d %b %Y}."

@@ -46,7 +46,8 @@ def due_list(request):
 
 
 def _links(request, table) -> dict:
-    """Header sort links and page links that keep the filters (the rows template writes them as is)."""
+    """Header sort links and page links that keep the filters (the rows template writes them as is), the sorted
+    column's aria-sort, and each column's header words by name (the cells' labels on a narrow screen)."""
 
     def query(**changes) -> str:
         params = request.GET.copy()
@@ -58,15 +59,20 @@ def _links(request, table) -> dict:
     headers = []
     for column in table.columns:
         if column.name == "plans" or not column.orderable:
-            headers.append(("" if column.name == "plans" else column.header, "", ""))
+            headers.append(("" if column.name == "plans" else column.header, "", "", ""))
             continue
-        css = "orderable"
+        css, sort = "orderable", ""
         if column.is_ordered:
-            css += " desc" if column.order_by_alias.is_descending else " asc"
-        headers.append((column.header, query(**{table.prefixed_order_by_field: column.order_by_alias.next}), css))
+            descending = column.order_by_alias.is_descending
+            css += " desc" if descending else " asc"
+            sort = "descending" if descending else "ascending"
+        headers.append(
+            (column.header, query(**{table.prefixed_order_by_field: column.order_by_alias.next}), css, sort)
+        )
     page, field = table.page, table.prefixed_page_field
     return {
         "headers": headers,
+        "labels": {column.name: column.header for column in table.columns},
         "previous_page": query(**{field: page.previous_page_number()}) if page.has_previous() else "",
         "next_page": query(**{field: page.next_page_number()}) if page.has_next() else "",
     }

@@ -2,12 +2,20 @@ from django.contrib import admin, messages
 from simple_history.admin import SimpleHistoryAdmin
 
 from observatory_ops.planning.admin import RecomputesSite
-from observatory_ops.planning.services import plans_from_catalogue, site_recompute
+from observatory_ops.planning.services import plans_from_catalogue
 from observatory_ops.workorders.cautions import HAZARDS
 
 from .catalogue import kind as catalogue_kind
-from .forms import CrewDaysOffFormSet, SiteAdminForm, SubsystemAdminForm
+from .forms import (
+    CrewDaysOffFormSet,
+    SiteAdminForm,
+    SubsystemAdminForm,
+    TelescopeChoiceField,
+    TelescopeListFilter,
+)
 from .models import CrewDayOff, Site, Subsystem, Telescope
+from .selectors import SLUG_KEPT, slug_uses
+from .services import site_settings_apply, subsystem_parts_follow
 from .templatetags.coordinates import coordinates
 
 
@@ -31,18 +39,55 @@ class SiteAdmin(SimpleHistoryAdmin):
     def position(self, site):
         return coordinates(site)
 
+    # Once anything reaches the site by its slug (``selectors.slug_uses``), the slug is shown, not offered, with why.
+    @staticmethod
+    def _slug_in_use(request, site) -> bool:
+        """Whether ``site``'s slug is in use, asked once a request: the admin asks for a form's fields many times."""
+        if site is None:
+            return False
+        known = request.__dict__.setdefault("_slug_in_use", {})
+        if site.pk not in known:
+            known[site.pk] = bool(slug_uses(site))
+        return known[site.pk]
+
+    def get_exclude(self, request, obj=None):
+        exclude = tuple(super().get_exclude(request, obj) or ())
+        return (*exclude, "slug") if self._slug_in_use(request, obj) else exclude
+
+    def get_readonly_fields(self, request, obj=None):
+        fields = tuple(super().get_readonly_fields(request, obj))
+        return (*fields, "slug_kept") if self._slug_in_use(request, obj) else fields
+
+    def get_fields(self, request, obj=None):
+        fields = list(super().get_fields(request, obj))
+        if "slug_kept" in fields:  # where the slug's box would be, under the name
+            fields.remove("slug_kept")
+            fields.insert(fields.index("name") + 1, "slug_kept")
+        return fields
+
+    def get_prepopulated_fields(self, request, obj=None):
+        return {} if self._slug_in_use(request, obj) else super().get_prepopulated_fields(request, obj)
+
+    @admin.display(description="slug")
+    def slug_kept(self, site):
+        return f"{site.slug}: kept as it is, since it is in use: {slug_uses(site)}. {SLUG_KEPT}."
+
     def save_related(self, request, form, formsets, change):
         super().save_related(request, form, formsets, change)
-        # These move due states: what counts as due, and which nights a shared enclosure's plans count.
-        if change and {"look_ahead_days", "shared_enclosure"} & set(form.changed_data):
-            site_recompute(form.instance)
+        if change and site_settings_apply(form.instance, set(form.changed_data)):
             self.message_user(request, f"Due states of {form.instance} recomputed.", messages.INFO)
 
 
 @admin.register(Telescope)
-class TelescopeAdmin(SimpleHistoryAdmin):
+class TelescopeAdmin(RecomputesSite, SimpleHistoryAdmin):
+    """A telescope moved to another site (allowed while nothing is recorded of it: ``Telescope.clean``) takes its
+    subsystems' plans along: both sites are recomputed (``RecomputesSite``)."""
+
     list_display = ("name", "site", "aperture_m", "mount")
     list_filter = ("site", "mount")
+
+    def site_of(self, obj):
+        return obj.site
 
 
 @admin.register(Subsystem)
@@ -55,11 +100,16 @@ class SubsystemAdmin(RecomputesSite, SimpleHistoryAdmin):
 
     form = SubsystemAdminForm
     list_display = ("name", "telescope", "kind", "parent", "retired_on")
-    list_filter = ("telescope__site", "telescope", "kind")
+    list_filter = ("telescope__site", ("telescope", TelescopeListFilter), "kind")
     search_fields = ("name", "serial_number")
 
     def site_of(self, obj):
         return obj.telescope.site
+
+    def formfield_for_foreignkey(self, db_field, request, **kwargs):
+        if db_field.name == "telescope":
+            kwargs["form_class"] = TelescopeChoiceField
+        return super().formfield_for_foreignkey(db_field, request, **kwargs)
 
     def save_model(self, request, obj, form, change):
         own = catalogue_kind(obj.kind).hazards
@@ -87,6 +137,11 @@ class SubsystemAdmin(RecomputesSite, SimpleHistoryAdmin):
                 "subsystem page, log the last service of each plan if you know it.",
                 messages.INFO,
             )
+        elif "telescope" in form.changed_data:
+            moved = subsystem_parts_follow(form.instance)  # before the recompute: their plans move too
+            if moved:
+                self.message_user(request, f"Moved with it to {form.instance.telescope.site_label}: "
+                                  f"{', '.join(part.name for part in moved)}.", messages.INFO)
         super().save_related(request, form, formsets, change)
 
     def has_delete_permission(self, request, obj=None):

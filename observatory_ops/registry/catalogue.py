@@ -56,6 +56,11 @@ class Kind:
     #: Fed from a supply of its own rather than the telescope's (a dome's rotation and shutter drives): its
     #: work needs an isolation point registered for the subsystem itself (workorders.selectors.isolation_gaps).
     separate_supply: bool = False
+    #: Why work on it needs an isolation point registered for the subsystem itself, which its telescope's points do not
+    #: replace, as the warning says when none is (workorders.selectors.isolation_gaps): "" when its telescope's points
+    #: isolate it. A kind with a supply of its own needs one (a dome's drives), and so does the AC distribution: the
+    #: telescope's isolators are downstream of its boards and leave their incoming side live.
+    own_point: str = ""
     #: Reading quantities (codes of ``logbook.quantities``) a technician measures on such a subsystem besides those
     #: its plans ask for or watch: the reading form offers them first (``logbook.quantities.usual_for_kind``).
     #: Empty where nothing is usually measured (the work is looking and testing), and the form says so.
@@ -68,6 +73,7 @@ class Kind:
 _READ_RECORDS = "Read the last service record and open faults for this subsystem."
 _OUT_OF_SERVICE = "Take the observatory out of robotic and remote control and close the enclosure."
 _PARK = "Park the telescope at its service position."
+_OUT_OF_SERVICE_PARKED = "Take the observatory out of robotic and remote control and park the telescope."
 _PREPARE = (_READ_RECORDS, _OUT_OF_SERVICE, _PARK)
 _INSPECT = "Inspect for wear, looseness, contamination and damage; photograph anything unusual."
 #: The first restoring step of every plan: the one step that removes the locks. An order over several plans
@@ -76,7 +82,40 @@ RELEASE = (
     "When the work is done and everyone is clear of the telescope, remove the locks and tags as the site's "
     "lockout procedure says."
 )
-_RESTORE = (RELEASE, "Restore the subsystem to service and test it under observation.")
+_BACK_IN_SERVICE = "Restore the subsystem to service and test it under observation."
+_RESTORE = (RELEASE, _BACK_IN_SERVICE)
+_COVER_CLOSED_IN_SERVICE = "Close the mirror cover and return the telescope to service."
+#: Said of a test on live equipment, as the electrical caution asks (NFPA 70E: energised work by a qualified person).
+_ENERGISED_WORK = (
+    "This is work on live equipment: only a qualified person, under the site's rules for energised work."
+)
+
+# Work that takes the primary mirror out of its telescope (the recoat plan below, and the recoat planner's removal and
+# reinstall orders, mirrors.services._PHASE_WORK, which use these words too): without its mirror the tube stands far
+# out of balance, so the axes are pinned and the telescope tagged out of service until the balance is restored.
+# Common practice, no published source; the site's mirror-removal procedure and the mount maker's instructions come
+# first.
+PIN_AXES = "Lock both axes mechanically with their locking pins; fit the mirror-handling fixture."
+
+
+def out_of_balance_tag(until: str) -> str:
+    """The step that tags a telescope without its primary mirror out of service, kept so ``until`` (in words)."""
+    return (
+        "Tag the telescope out of service at its controls and at the drive cabinet (primary mirror removed, "
+        "out of balance, axes pinned: do not move), keep the observatory out of robotic and remote control "
+        f"until {until}, and tell the remote operators."
+    )
+
+#: The recoat plan's last locked-out step and its return to service (the planner's reinstall words them for its own
+#: phases: mirrors.services._PHASE_WORK).
+_REBALANCE = (
+    "Restore the axis balance with the drives still locked out, as the site's balancing procedure and the mount "
+    "maker's instructions say; draw the axis pins only once both axes are balanced and everyone is clear."
+)
+_FIRST_MOVES = (
+    "Return the telescope to service: make the first moves under power slowly, with everyone outside the swept "
+    "volume."
+)
 
 _GAS_MONITOR = "portable O2/CO2 gas monitor"  # the cryogen caution asks for one in a closed dome
 #: The limit of a reading that only the equipment's maker can give.
@@ -93,10 +132,12 @@ _SOLVENT_PPE = "gloves and eye protection the solvent's safety data sheet calls 
 
 
 def _move_under_procedure(what: str, why: str) -> str:
-    """A step after isolation that needs an axis or the enclosure moved: only under the site's procedure."""
+    """A step after isolation that needs an axis or the enclosure moved: only under the site's procedure, and the
+    isolation proved again once the locks are back on, as the lockout step proves it (OSHA 29 CFR 1910.147(d)(6))."""
     return (
         f"If {what} must move {why}, remove the lock only as the site's lockout procedure says: everyone clear, "
-        "move it from the control panel, then isolate, lock and tag again before touching anything."
+        "move it from the control panel, then isolate, lock and tag again and prove the isolation again (try to start "
+        "the drives, then return the controls to off) before touching anything."
     )
 
 
@@ -148,10 +189,7 @@ KINDS: dict[str, Kind] = {
                         "Measure reflectance again at the same positions: record their mean as the reflectance "
                         "reading, and both sets of values in the findings.",
                     ),
-                    restore=(
-                        RELEASE,
-                        "Close the mirror cover and return the telescope to service.",
-                    ),
+                    restore=(RELEASE, _COVER_CLOSED_IN_SERVICE),
                     estimated_hours=3.0,
                 ),
                 PlanTemplate(
@@ -167,19 +205,24 @@ KINDS: dict[str, Kind] = {
                         "Close the mirror cover and park the telescope where the site's mirror-removal procedure "
                         "says.",
                     ),
+                    # One order for all the work the recoat planner splits into phases: pinned and tagged out of service
+                    # as the planner's removal is, and left safe if it stops part way (workorders.selectors
+                    # .standing_notes); the locks stay on until the balance is restored.
                     after_isolation=(
+                        PIN_AXES,
+                        out_of_balance_tag("the mirror is back, the balance restored and this order finished"),
                         "Remove, strip and recoat the primary as the site's mirror-removal procedure, the lift plan "
                         "and the coating plant's instructions say.",
                         "Refit the mirror and its cell with the supports and clips set as before.",
+                        _REBALANCE,
                     ),
-                    restore=(
-                        RELEASE,
-                        "Check the axis balance as the site's procedure says and return the telescope to service.",
-                    ),
+                    restore=(RELEASE, _FIRST_MOVES),
                     tools=(
                         "the lifting table or cart and the rated slings the lift plan lists",
                         "mirror-handling fixture",
                         "transport crate",
+                        "axis locking pins",
+                        "out-of-service tags",
                     ),
                     estimated_hours=40.0,
                 ),
@@ -375,9 +418,11 @@ KINDS: dict[str, Kind] = {
             ),
         ),
         Kind(
+            # Applied by springs and released by air: with the air vented it is applied, and its springs stay loaded
+            # (OSHA 29 CFR 1910.147(d)(5): stored energy restrained), as a spring brake's do.
             "brake",  # the code stored subsystems and the benchmark use; the label says which brake it is
             "Brake, air-operated (pneumatic)",
-            ("pneumatic", "moving_machinery"),
+            ("pneumatic", "stored_mechanical", "moving_machinery"),
             (
                 PlanTemplate(
                     "Check brake pads, air pressure and holding",
@@ -394,12 +439,22 @@ KINDS: dict[str, Kind] = {
                     after_isolation=(
                         "Measure the pad wear with feeler gauges and note it in the findings; check the pads, "
                         "fittings and hoses for damage and photograph anything unusual.",
+                        "If the pads are worn to the maker's limit, replace them with a new pad set as the maker's "
+                        "instructions say: first pin or block the axis, since nothing holds it while the brake is "
+                        "apart; restrain the springs with the maker's spring-restraining tool before taking the brake "
+                        "apart; keep the axis pinned until the brake is back together and its springs apply it.",
                     ),
+                    # The air first, then the test, then back in service (an order over several plans puts every
+                    # plan's return to service after the others' restoring: workorders.services._steps_for).
                     restore=(
                         RELEASE,
                         "Restore the air slowly and check that the brake releases and holds.",
+                        _BACK_IN_SERVICE,
                     ),
-                    tools=("pressure gauge with quick coupling", _FEELER_GAUGES, "stopwatch"),
+                    tools=(
+                        "pressure gauge with quick coupling", _FEELER_GAUGES, "stopwatch",
+                        "the brake maker's spring-restraining tool", "axis locking pin or block",
+                    ),
                     parts=("Brake pad set",),
                     readings=(("brake_pressure_bar", "within the maker's range"), ("brake_release_s", "")),
                 ),
@@ -425,8 +480,7 @@ KINDS: dict[str, Kind] = {
                         "With everyone outside the swept volume, measure the voltage at the brake coil while the "
                         "drive holds the brake released and record it on this work order; then, with the drive "
                         "disabled, check that the springs apply the brake and that it holds the axis out of balance. "
-                        "This is work on live equipment: only a qualified person, under the site's rules for "
-                        "energised work.",
+                        f"{_ENERGISED_WORK}",
                         _PARK,
                     ),
                     after_isolation=(
@@ -446,6 +500,7 @@ KINDS: dict[str, Kind] = {
                         RELEASE,
                         "Restore the supply and, with everyone outside the swept volume, check that the brake "
                         "releases when the drive is enabled and holds when it is disabled.",
+                        _BACK_IN_SERVICE,
                     ),
                     tools=(
                         _FEELER_GAUGES,
@@ -620,16 +675,20 @@ KINDS: dict[str, Kind] = {
                     before_isolation=(
                         *_PREPARE,
                         "Tell everyone on site, then test each residual-current device with its test button and "
-                        "an RCD tester; the circuits behind it go dead when it trips.",
+                        f"an RCD tester; the circuits behind it go dead when it trips. {_ENERGISED_WORK}",
                     ),
                     after_isolation=(
-                        "Open the distribution boards, test for absence of voltage, and inspect the terminations for "
-                        "heat marks and looseness; photograph anything unusual.",
+                        "With the supply that feeds the distribution boards locked off upstream of them (their own "
+                        "isolation point, not only the telescope's isolators after them), open the boards, test for "
+                        "absence of voltage on their incoming terminals as well as their outgoing ones, and inspect "
+                        "the terminations for heat marks and looseness; photograph anything unusual.",
                     ),
                     restore=_RESTORE,
                     tools=("RCD tester", _VOLTAGE_TESTER),
                 ),
             ),
+            own_point="which is fed from upstream of the telescope's isolation points: they leave its incoming side "
+            "live",
             # The mains voltage at the distribution board; each residual-current device's trip time from the tester.
             quantities=("supply_voltage_v", "rcd_trip_time_ms"),
         ),
@@ -647,8 +706,7 @@ KINDS: dict[str, Kind] = {
                         *_PREPARE,
                         "Measure each DC rail under load; record on this work order the voltage and ripple of the "
                         "rail that carries the most current, and note every rail's voltage and ripple in the "
-                        "findings. This is work on live equipment: only a qualified person, under the site's rules "
-                        "for energised work.",
+                        f"findings. {_ENERGISED_WORK}",
                     ),
                     after_isolation=(
                         "Test for absence of voltage at the supplies' terminals, then inspect their terminations, fans "
@@ -737,7 +795,7 @@ KINDS: dict[str, Kind] = {
                     COMMON_PRACTICE,
                     before_isolation=(
                         _READ_RECORDS,
-                        "Take the observatory out of robotic and remote control and park the telescope.",
+                        _OUT_OF_SERVICE_PARKED,
                         "With everyone clear of the enclosure's moving parts and their path, open the enclosure a "
                         "little and check that the rain sensor closes it.",
                         "Close the enclosure, with a dome turned to its service position first.",
@@ -753,6 +811,7 @@ KINDS: dict[str, Kind] = {
                 ),
             ),
             separate_supply=True,
+            own_point="which has a supply of its own: the telescope's points do not make its drives safe",
             # The rotation and shutter drives' current, and the shutter's (or roof's) time to open or close: both grow
             # as wheels, chains and seals drag.
             quantities=("motor_current_a", "open_close_time_s"),
@@ -763,6 +822,8 @@ KINDS: dict[str, Kind] = {
 
 KIND_CHOICES = [(k.code, k.label) for k in KINDS.values()]
 
+_EARLIER_OUT_OF_SERVICE = "Take the observatory out of robotic and remote control and close the dome."
+_EARLIER_DOME_CLOSED = "Turn the dome to its service position and close the shutter."
 #: Earlier wordings of steps done before isolation, which plans stored before the step groups may hold.
 _EARLIER_BEFORE_ISOLATION = (
     "With the fans running, listen to each for bearing noise and measure its current; record the currents.",
@@ -774,12 +835,12 @@ _EARLIER_BEFORE_ISOLATION = (
     "With everyone outside the swept volume, step-test each loop from the tuning software and record how it "
     "settles.",
     # Worded for a dome before the enclosure's steps served a roll-off roof too.
-    "Take the observatory out of robotic and remote control and close the dome.",
+    _EARLIER_OUT_OF_SERVICE,
     "With everyone outside the swept volume, drive each axis slowly onto each soft and then each hard limit from the "
     "control panel and check that it stops; test every emergency stop and dome interlock.",
     "With everyone clear of the shutter and the dome's path, open the shutter a little and check that the rain "
     "sensor closes it.",
-    "Turn the dome to its service position and close the shutter.",
+    _EARLIER_DOME_CLOSED,
 )
 
 #: Every step the catalogue places before isolation, and every step of its plans' restoring: how the upgrade
@@ -789,6 +850,19 @@ BEFORE_ISOLATION: frozenset[str] = frozenset(
     step for k in KINDS.values() for plan in k.plans for step in plan.before_isolation
 ) | frozenset(_EARLIER_BEFORE_ISOLATION)
 RESTORE: frozenset[str] = frozenset(step for k in KINDS.values() for plan in k.plans for step in plan.restore)
+
+#: Steps about the whole telescope or observatory, not one subsystem: an order over several plans on one telescope
+#: writes each once for all of them (workorders.services._shared_once). Any other step two plans share is about each
+#: plan's own subsystem ("the brake", "this subsystem") and stays one per subsystem, named, so an order over two
+#: brakes tests each of them.
+TELESCOPE_STEPS: frozenset[str] = frozenset({
+    _OUT_OF_SERVICE, _PARK, _OUT_OF_SERVICE_PARKED, _COVER_CLOSED_IN_SERVICE,
+    _EARLIER_OUT_OF_SERVICE, _EARLIER_DOME_CLOSED,  # as plans stored before a roll-off roof was served word them
+})
+#: The restoring steps that put a subsystem or the telescope back in service: an order over several plans puts them
+#: after every other plan's restoring (its air or power restored and tested), whichever plan they come from
+#: (workorders.services._steps_for), so nothing goes back into service before the energy it needs is back.
+RETURNS_TO_SERVICE: frozenset[str] = frozenset({_BACK_IN_SERVICE, _COVER_CLOSED_IN_SERVICE, _FIRST_MOVES})
 
 
 def kind(code: str) -> Kind:

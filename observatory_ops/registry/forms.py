@@ -1,11 +1,31 @@
-"""Form fields the register's admin pages share."""
+"""Form fields and list filters the register's admin pages share."""
 from django import forms
+from django.contrib import admin
 from django.core.exceptions import ValidationError
 from django.forms.models import BaseInlineFormSet
 
 from observatory_ops.calc.windows import WEEKDAY_NAMES
-from observatory_ops.registry.models import Site
+from observatory_ops.registry.models import Site, Telescope
 from observatory_ops.workorders.cautions import HAZARDS
+
+
+class TelescopeChoiceField(forms.ModelChoiceField):
+    """A choice of telescope among every site's, each named with its site (``Telescope.site_label``): two sites may
+    each have an "MC-80 (0.8 m)"."""
+
+    def __init__(self, queryset=None, **kwargs):
+        super().__init__(queryset=(Telescope.objects if queryset is None else queryset).select_related("site"),
+                         **kwargs)
+
+    def label_from_instance(self, obj: Telescope) -> str:
+        return obj.site_label
+
+
+class TelescopeListFilter(admin.RelatedFieldListFilter):
+    """An admin list's filter by telescope, each named with its site, as ``TelescopeChoiceField`` names them."""
+
+    def field_choices(self, field, request, model_admin):
+        return [(telescope.pk, telescope.site_label) for telescope in Telescope.objects.select_related("site")]
 
 
 class HazardsField(forms.TypedMultipleChoiceField):

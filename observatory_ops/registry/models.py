@@ -146,20 +146,49 @@ class Site(models.Model):
 
     def clean(self) -> None:
         text_newlines_normalised(self)
-        if self.longitude_deg is not None and self.time_zone:
-            self._clean_longitude_against_zone()
+        errors: dict[str, list[str]] = {}  # each field's refusal, so one does not hide the other
+        for check in (self._clean_longitude_against_zone, self._clean_slug_kept):
+            try:
+                check()
+            except ValidationError as refused:
+                errors.update(refused.message_dict)
+        if errors:
+            raise ValidationError(errors)
+
+    def _clean_slug_kept(self) -> None:
+        """Refuse a new slug once anything reaches the site by the old one (``selectors.slug_uses``): the API and
+        calendar addresses, the ``--site`` of commands and cron lines, and the pages' links would find no site."""
+        from .selectors import SLUG_KEPT, slug_uses  # the selectors read other apps' models, which import this module
+
+        stored = Site.objects.filter(pk=self.pk).values_list("slug", flat=True).first() if self.pk else None
+        if stored is None or stored == self.slug:
+            return
+        uses = slug_uses(Site(pk=self.pk, slug=stored))
+        if uses:
+            raise ValidationError({"slug": (
+                f"The slug {stored!r} is in use: {uses}. {SLUG_KEPT}, so it stays as it is; the site's name can "
+                "still change."
+            )})
 
     def _clean_longitude_against_zone(self) -> None:
         """Refuse a longitude far from its time zone's (``calc.night_of.zone_gap_h``): most often one typed with
         the wrong sign, which would put every sunset and dark hour of the site hours out."""
+        if self.longitude_deg is None or not self.time_zone:
+            return
+        year = timezone.now().year
         try:
-            gap, offset = night_of.zone_gap_h(self.longitude_deg, self.time_zone, timezone.now().year)
+            gap, _ = night_of.zone_gap_h(self.longitude_deg, self.time_zone, year)
         except ValueError:
             return  # an unknown zone: the time zone's own validator says so
         if abs(gap) <= MAX_ZONE_GAP_H:
             return
         solar = self.longitude_deg / 15
-        flipped, _ = night_of.zone_gap_h(-self.longitude_deg, self.time_zone, timezone.now().year)
+        flipped, _ = night_of.zone_gap_h(-self.longitude_deg, self.time_zone, year)
+        # Both of the zone's offsets, named by month: the one the gap was measured from may be daylight time, which
+        # the zone does not keep in the other half of the year.
+        january, july = night_of.zone_offsets_h(self.time_zone, year)
+        kept = (f"UTC{january:+g} h all year" if january == july
+                else f"UTC{january:+g} h in January and UTC{july:+g} h in July")
         hint = (
             f"East is positive and west negative: is it {longitude_text(-self.longitude_deg)} "
             f"({-self.longitude_deg:g})?" if abs(flipped) <= MAX_ZONE_GAP_H
@@ -167,8 +196,8 @@ class Site(models.Model):
         )
         raise ValidationError({"longitude_deg": (
             f"Longitude {longitude_text(self.longitude_deg)} ({self.longitude_deg:g}) has its mean solar time at "
-            f"UTC{solar:+.1f} h, but {self.time_zone} keeps UTC{offset:+g} h: more than {MAX_ZONE_GAP_H:g} hours "
-            f"apart, farther than a time zone is from the places that keep it. {hint}"
+            f"UTC{solar:+.1f} h, but {self.time_zone} keeps {kept}: more than {MAX_ZONE_GAP_H:g} hours apart, "
+            f"farther than a time zone is from the places that keep it. {hint}"
         )})
 
     @property
@@ -241,15 +270,30 @@ class Telescope(models.Model):
     def __str__(self) -> str:
         return f"{self.name} ({self.aperture_m:g} m)"
 
+    @property
+    def site_label(self) -> str:
+        """The telescope named with its site, where a choice lists several sites' telescopes (names repeat across
+        sites): "Cerro Alto: MC-80 (0.8 m)". Pages of one site name it without (``__str__``)."""
+        return f"{self.site.name}: {self}"
+
     def clean(self) -> None:
         text_newlines_normalised(self)
         if self.site_id and self.name:
             self._clean_name_unlike_the_others()
         stored = Telescope.objects.filter(pk=self.pk).values_list("site_id", flat=True).first() if self.pk else None
-        if stored is not None and stored != self.site_id and self.nights.exists():
+        if stored is not None and stored != self.site_id:
+            self._clean_site_kept()
+
+    def _clean_site_kept(self) -> None:
+        """Refuse a move to another site once anything is recorded of the telescope (``selectors.records_of``):
+        the records belong to its site's log and history, which the move would rewrite."""
+        from .selectors import records_of  # the selectors read other apps' models, which import this module
+
+        recorded = records_of(list(self.subsystems.values_list("pk", flat=True)), telescope=self)
+        if recorded:
             raise ValidationError({"site": (
-                "This telescope has logged nights of its own at its site; they stay in that site's log, so it cannot "
-                "move to another site. Register it at the new site as a new telescope."
+                f"This telescope has records at its site: {recorded}. They stay in that site's log and history, so "
+                "it cannot move to another site. Register it at the new site as a new telescope."
             )})
 
     def _clean_name_unlike_the_others(self) -> None:
@@ -297,13 +341,20 @@ class Subsystem(models.Model):
     kind = models.CharField(max_length=32, choices=KIND_CHOICES)
     name = models.CharField(max_length=120)
     hazards = models.JSONField(default=list, blank=True, validators=[validate_hazards])
+    no_hazards_found = models.BooleanField(
+        "no hazards found", default=False,
+        help_text="Tick only when an engineer has checked the work done on it and found none of the hazards above. "
+        "A subsystem of a kind that brings no hazards of its own (Other) carries at least one hazard or this tick: "
+        "without either, nobody has recorded its hazards, and its work orders are neither issued nor started.",
+    )
     serial_number = models.CharField(max_length=80, blank=True)
     notes = models.TextField(blank=True)
     in_service_since = models.DateField(
         "in service since", null=True, blank=True,
         help_text="The day it went into service: the start of the operating hours (the open hours of its "
-        "telescope's nightly log) counted for its reliability figures. Leave empty to count from its service plans' "
-        "earliest 'counting from' date (without plans, the day it was registered, else the first logged night).",
+        "telescope's nightly log) counted for its reliability figures. Leave empty to count from the earliest day "
+        "the record shows it in service: its earliest service record or its service plans' earliest 'counting from' "
+        "date, whichever is earlier (without either, the day it was registered, else the first logged night).",
     )
     retired_on = models.DateField(null=True, blank=True)
 
@@ -323,6 +374,15 @@ class Subsystem(models.Model):
         return KINDS[self.kind].label if self.kind in KINDS else self.kind
 
     @property
+    def hazards_recorded(self) -> bool:
+        """Someone has recorded its hazards: it carries at least one, or an engineer recorded that it has none
+        (``no_hazards_found``), or its kind brings hazards of its own (the catalogue's, given to it when it was
+        registered: one without any had them taken off in the admin, which warns). A subsystem of the kind "Other"
+        brings none, so it has neither until an engineer says; its work orders then cannot know their cautions or
+        whether to isolate."""
+        return bool(self.hazards) or self.no_hazards_found or bool(self.kind in KINDS and KINDS[self.kind].hazards)
+
+    @property
     def serves_the_whole_site(self) -> bool:
         """An enclosure (a kind with a supply of its own) that every telescope of its site stands under
         (``Site.shared_enclosure``)."""
@@ -334,10 +394,61 @@ class Subsystem(models.Model):
             raise ValidationError({"parent": "The parent must belong to the same telescope."})
         if self.parent_id and self.pk and self.parent_id == self.pk:
             raise ValidationError({"parent": "A subsystem cannot be its own parent."})
+        if self.pk and self.telescope_id:
+            stored = Subsystem.objects.filter(pk=self.pk).values_list("telescope_id", "telescope__site_id").first()
+            if stored is not None and stored[0] != self.telescope_id:
+                self._clean_telescope_kept(moves_site=stored[1] != self.telescope.site_id)
         if self.in_service_since:
             self._clean_in_service_since()
         if self.retired_on:
             self._clean_retired_on()
+        self._clean_hazards_recorded()
+
+    def _clean_hazards_recorded(self) -> None:
+        """Refuse a subsystem of a kind that brings no hazards (``Other``) with no hazard and no record that it has
+        none (``hazards_recorded``), and any with both: the tags choose the cautions and the energy isolation of its
+        work orders, so "none" is said on purpose. A new one gets its kind's hazards besides those ticked
+        (``services.subsystem_create``, the admin's add page); taking a kind's own off a stored one is the admin's to
+        warn of (``SubsystemAdmin.save_model``)."""
+        own = KINDS[self.kind].hazards if self.kind in KINDS else ()
+        hazards = [*(self.hazards if isinstance(self.hazards, list) else []), *(() if self.pk else own)]
+        if hazards and self.no_hazards_found:
+            from observatory_ops.workorders.cautions import HAZARDS  # work orders build on the register
+
+            named = ", ".join(HAZARDS.get(code, code) for code in dict.fromkeys(hazards))
+            kinds = f" (a new {self.kind_label} gets its kind's)" if own and not self.pk else ""
+            raise ValidationError({"no_hazards_found": (
+                f"'No hazards found' is ticked, but it has hazards{kinds}: {named}. Untick one or the other."
+            )})
+        if not hazards and not self.no_hazards_found and not own:
+            raise ValidationError({"hazards": (
+                f"The kind {self.kind_label!r} brings no hazards of its own, so nobody has recorded this subsystem's "
+                "hazards: tick those its work involves, or, once an engineer has checked that there are none, tick "
+                "'No hazards found'. Its work orders take their safety cautions and energy isolation from them."
+            )})
+
+    def _clean_telescope_kept(self, moves_site: bool) -> None:
+        """Refuse a move to another telescope while a work order not yet done names the subsystem or one of its parts
+        (which move with it): the order locks out the telescope it was made for (``selectors.open_orders_of``). And
+        refuse a move to a telescope at another site once anything is recorded of them: the records belong to their
+        site's log and history (``selectors.records_of``)."""
+        from .selectors import open_orders_of, parts_of, records_of  # they read models that import this module
+
+        parts = parts_of(self)
+        ids = [self.pk, *(part.pk for part in parts)]
+        whose = "This subsystem and its parts have" if parts else "This subsystem has"
+        recorded = records_of(ids) if moves_site else ""
+        if recorded:
+            raise ValidationError({"telescope": (
+                f"{whose} records at its site: {recorded}. They stay in that site's log and history, so it cannot "
+                "move to a telescope at another site. Register it there as a new subsystem, and retire this one."
+            )})
+        orders = open_orders_of(ids)
+        if orders:
+            raise ValidationError({"telescope": (
+                f"{whose} work orders not yet done: {', '.join(f'{o.number} ({o.state})' for o in orders)}. Each locks "
+                "out the telescope it was made for, so it stays on that one until they are finished or withdrawn."
+            )})
 
     def _clean_service_date(self, field: str, label: str, when_future: str) -> None:
         """A date of the subsystem's service life (``field``, called ``label`` on the page): from

@@ -3,7 +3,12 @@ from __future__ import annotations
 
 import datetime as dt
 
+from django.db.models import Q
+
 from observatory_ops.calc.lifting import tube_mass_warning
+from observatory_ops.logbook.models import NightUsage, Reading, ServiceRecord
+from observatory_ops.mirrors.models import CleaningEvent, CoatingEvent, RecoatPlan, ReflectanceMeasurement
+from observatory_ops.workorders.models import State, WorkOrder, listed
 
 from .models import Site, Subsystem, Telescope
 
@@ -35,3 +40,73 @@ def crew_days_off(site: Site, first: dt.date, last: dt.date | None = None) -> di
     if last is not None:
         days = days.filter(date__lte=last)
     return dict(days.order_by("date").values_list("date", "note"))
+
+
+def _counted(n: int, one: str, many: str) -> str:
+    return f"{n:,} {one if n == 1 else many}"
+
+
+def records_of(subsystems: list[int], telescope: Telescope | None = None) -> str:
+    """What is recorded of the subsystems ``subsystems`` (ids), and of ``telescope`` when given (its own nights, its
+    work orders), in words: "12 service records and 1 work order"; "" when nothing is.
+
+    Such records belong to the site where they were made: its log, its totals, its history. A telescope or subsystem
+    with any of them moved to another site would take them along and rewrite the past (a service at the old site
+    counted against the new site's nights, its hours moved to the other site's totals), so it stays where it is.
+    """
+    orders = Q(items__subsystem__in=subsystems) | Q(required_readings__subsystem__in=subsystems)
+    if telescope is not None:
+        orders |= Q(telescope=telescope)
+    on_mirrors = Q(mirror__subsystem__in=subsystems)
+    counts = (
+        (NightUsage.objects.filter(telescope=telescope).count() if telescope else 0,
+         "night logged of its own", "nights logged of its own"),
+        (ServiceRecord.objects.filter(subsystem__in=subsystems).count(), "service record", "service records"),
+        (Reading.objects.filter(subsystem__in=subsystems).count(), "reading", "readings"),
+        (WorkOrder.objects.filter(orders).distinct().count(), "work order", "work orders"),
+        (CoatingEvent.objects.filter(on_mirrors).count(), "mirror coating", "mirror coatings"),
+        (CleaningEvent.objects.filter(on_mirrors).count(), "mirror cleaning", "mirror cleanings"),
+        (ReflectanceMeasurement.objects.filter(on_mirrors).count(), "reflectance measurement",
+         "reflectance measurements"),
+        (RecoatPlan.objects.filter(on_mirrors).count(), "recoat plan", "recoat plans"),
+    )
+    return listed([_counted(n, one, many) for n, one, many in counts if n])
+
+
+def open_orders_of(subsystems: list[int]) -> list[WorkOrder]:
+    """The work orders not yet done that name any of the subsystems ``subsystems`` (ids): drafted, issued or under way.
+    Each locks out its own telescope's isolation points, fixed when it was made (``WorkOrder.telescope``)."""
+    return list(WorkOrder.objects.filter(
+        Q(items__subsystem__in=subsystems) | Q(required_readings__subsystem__in=subsystems),
+        state__in=[State.DRAFT, State.ISSUED, State.UNDERWAY],
+    ).distinct().order_by("pk"))
+
+
+def parts_of(subsystem: Subsystem) -> list[Subsystem]:
+    """Every subsystem under ``subsystem`` (its parts, their parts...), retired ones included."""
+    found, frontier = [], [subsystem]
+    while frontier:
+        frontier = list(Subsystem.objects.filter(parent__in=frontier))
+        found += frontier
+    return found
+
+
+#: Why a slug in use is kept (``slug_uses``), as the admin's page and the refusal of a new one say it.
+SLUG_KEPT = "Changed, those addresses, links and commands would find no site"
+
+
+def slug_uses(site: Site) -> str:
+    """What already reaches ``site`` by its slug, in words; "" for a site still being set up (no API token, logged
+    night or telescope yet), whose slug may still be corrected."""
+    tokens = site.api_tokens.filter(revoked_at__isnull=True).count()
+    nights = site.nights.count()
+    telescopes = site.telescopes.count()
+    return listed([phrase for n, phrase in (
+        (tokens, f"{_counted(tokens, 'API token', 'API tokens')} (for the addresses control software and calendar "
+                 f"subscriptions use, /api/v1/sites/{site.slug}/...)"),
+        (nights, f"{_counted(nights, 'logged night', 'logged nights')} (control software sends them to "
+                 f"/api/v1/sites/{site.slug}/nights; imports name the site with --site {site.slug}, in commands and "
+                 "cron lines)"),
+        (telescopes, f"{_counted(telescopes, 'telescope', 'telescopes')} (the site's pages, /sites/{site.slug}/..., "
+                     "are linked and bookmarked)"),
+    ) if n])

@@ -5,20 +5,36 @@ import datetime as dt
 
 from django.db import transaction
 
-from observatory_ops.planning.services import plans_from_catalogue
+from observatory_ops.planning.services import plans_from_catalogue, site_recompute, site_sky_forget
+from observatory_ops.workorders.cautions import HAZARDS
+from observatory_ops.workorders.models import IsolationPoint
 
 from .catalogue import kind as catalogue_kind
-from .models import Subsystem, Telescope
+from .models import Site, Subsystem, Telescope
+from .selectors import parts_of
+
+#: The site's settings its sky is computed from: each night's sunset, dark hours and Moon (``calc.nights``), and which
+#: local date a night is.
+SKY_SETTINGS = frozenset({"latitude_deg", "longitude_deg", "elevation_m", "time_zone"})
+#: The site's settings its due states are computed from: its sky (the forecasts), its today (the time zone), what
+#: counts as due, and which nights a shared enclosure's plans count.
+DUE_SETTINGS = SKY_SETTINGS | {"look_ahead_days", "shared_enclosure"}
 
 
 def subsystem_create(
     telescope: Telescope, kind: str, name: str, counting_from: dt.date, parent: Subsystem | None = None, **fields
 ) -> Subsystem:
-    """Register a subsystem with its kind's hazards and default service plans (editable afterwards)."""
+    """Register a subsystem with its kind's hazards, and any ``hazards`` given among ``fields`` (codes), and its
+    kind's default service plans (editable afterwards). One of a kind that brings no hazards ("Other") is refused
+    without hazards given or ``no_hazards_found`` (``Subsystem.clean``)."""
     spec = catalogue_kind(kind)
+    given = set(fields.pop("hazards", ()))
     with transaction.atomic():
         subsystem = Subsystem(
-            telescope=telescope, kind=kind, name=name, parent=parent, hazards=list(spec.hazards), **fields
+            telescope=telescope, kind=kind, name=name, parent=parent,
+            hazards=[*spec.hazards, *(code for code in HAZARDS if code in given - set(spec.hazards)),
+                     *sorted(given - set(HAZARDS))],  # an unknown code is left for the validation to name
+            **fields,
         )
         subsystem.full_clean()
         subsystem.save()
@@ -34,7 +50,7 @@ def subsystem_retire(subsystem: Subsystem, on: dt.date, reason: str, by) -> Subs
     if not reason.strip():
         raise ValueError("say why the subsystem is retired")
     with transaction.atomic():
-        for part in [subsystem, *_descendants(subsystem)]:
+        for part in [subsystem, *parts_of(subsystem)]:
             if part.retired_on is None:
                 part.retired_on = on
                 part._history_user = by
@@ -43,10 +59,32 @@ def subsystem_retire(subsystem: Subsystem, on: dt.date, reason: str, by) -> Subs
     return subsystem
 
 
-def _descendants(subsystem: Subsystem) -> list[Subsystem]:
-    found, frontier = [], [subsystem]
-    while frontier:
-        children = list(Subsystem.objects.filter(parent__in=frontier))
-        found += children
-        frontier = children
-    return found
+def site_settings_apply(site: Site, changed: set[str]) -> bool:
+    """After the site's ``changed`` settings were saved: forget its nights cache when its position or time zone
+    changed (the sky was computed for the old ones), and recompute its due states when any setting they are computed
+    from changed. Returns whether it recomputed."""
+    if changed & SKY_SETTINGS:
+        site_sky_forget(site)
+    if not changed & DUE_SETTINGS:
+        return False
+    site_recompute(site)
+    return True
+
+
+def subsystem_parts_follow(subsystem: Subsystem) -> list[Subsystem]:
+    """After ``subsystem`` was moved to another telescope: its parts (every subsystem under it) and its isolation
+    points, and theirs, move with it, so a part stays on its parent's telescope and a point on its subsystem's.
+    Returns the parts moved. Each is saved, so the change history shows the move."""
+    with transaction.atomic():
+        moved = [part for part in parts_of(subsystem) if part.telescope_id != subsystem.telescope_id]
+        for part in moved:
+            part.telescope_id = subsystem.telescope_id
+            part._change_reason = f"moved with {subsystem.name}"
+            part.save(update_fields=["telescope"])
+        for point in IsolationPoint.objects.filter(subsystem__in=[subsystem, *moved]).exclude(
+            telescope=subsystem.telescope_id
+        ):
+            point.telescope_id = subsystem.telescope_id
+            point._change_reason = f"moved with {subsystem.name}"
+            point.save(update_fields=["telescope"])
+    return moved

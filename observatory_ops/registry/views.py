@@ -24,9 +24,13 @@ def home(request):
     sites = list(Site.objects.all())
     if len(sites) == 1:
         return redirect(sites[0])
+    sites_bring_up_to_date(sites)  # as the due list does: the counts below are today's
+    counts = planning_selectors.status_counts_by_site(sites)
     # The demo is offered only where its command would load it: never beside real users, whatever the page.
     offer_demo = not sites and not load_refusal()
-    return render(request, "registry/home.html", {"sites": sites, "offer_demo": offer_demo})
+    return render(request, "registry/home.html", {
+        "sites": [(site, counts[site.pk]) for site in sites], "offer_demo": offer_demo,
+    })
 
 
 #: Rows of the dashboard's "Needs attention" list; the rest are a link away on the due list.

@@ -8,9 +8,9 @@ out with the reason (``left_out_reason``, the one place that rule is kept). A fa
 the day its repair was done.
 Operating hours are the open hours of the subsystem's telescope's nightly log (``planning.services.UsageLog``: the
 site's rows, or the telescope's own where it sends them; a shared enclosure's, the whole site's), counted for
-each subsystem over the nights it was in service (from its "in service since" date where one is given, see
-``START_BASES``). Maintenance hours are those of the service records. A fixed handful of queries for a site,
-whatever its size (tests/test_reliability_page.py counts them).
+each subsystem over the nights it was in service (from its "in service since" date where one is given, else from
+the earliest day the record shows it in service, see ``START_BASES``). Maintenance hours are those of the service
+records. A fixed handful of queries for a site, whatever its size (tests/test_reliability_page.py counts them).
 """
 from __future__ import annotations
 
@@ -39,14 +39,19 @@ HOURS_WINDOW_DAYS = 365
 #: (which column a record counts in: ``logbook.models.maintenance_type``).
 HOURS_COLUMNS = (*WorkOrder.Type.values, WITHOUT_ORDER_OR_PLAN)
 HOURS_COLUMN_LABELS = (*WorkOrder.Type.labels, "logged without a work order or plan")
-#: Where a subsystem's operating hours start, first found first: the "in service since" date an engineer gave it,
-#: else the "counting from" date given when it was registered (its plans' earliest), else the day it was entered
-#: in the register (the history's), else the first logged night. The page says which each subsystem's came from.
+#: Where a subsystem's operating hours start: the "in service since" date an engineer gave it; without one, the
+#: earliest day the record shows it in service, which is the earlier of its earliest service record and its plans'
+#: earliest "counting from" date (the last service given when it was registered, or the day it was registered);
+#: without plans or service, the day it was entered in the register (the history's); failing that, the first logged
+#: night. The page says which each subsystem's came from. A site taken over with its past (its last services logged
+#: with their dates, the nights since imported) so counts each subsystem's hours from its last service, not from the
+#: day it was entered, after those nights.
 IN_SERVICE_SINCE = "the in-service date given"
+FIRST_SERVICE = "its earliest service record"
 PLANS_COUNTING_FROM = "the plans' earliest counting-from date"
 REGISTERED = "the day registered"
 FIRST_NIGHT = "the first logged night"
-START_BASES = (IN_SERVICE_SINCE, PLANS_COUNTING_FROM, REGISTERED, FIRST_NIGHT)
+START_BASES = (IN_SERVICE_SINCE, FIRST_SERVICE, PLANS_COUNTING_FROM, REGISTERED, FIRST_NIGHT)
 
 
 @dataclass(frozen=True)
@@ -197,23 +202,35 @@ class SiteReliability:
 
 
 def _starts(subsystems: list[tuple], site: Site, first_night: dt.date | None, today: dt.date) -> dict[int, Start]:
-    """The day each subsystem's hours are counted from, and its basis (``START_BASES``, first found first)."""
+    """The day each subsystem's hours are counted from, and its basis (``START_BASES``)."""
     names = {pk: f"{telescope}: {name}" for pk, telescope, name, *_ in subsystems}
-    starts = {pk: Start(names[pk], since, IN_SERVICE_SINCE) for pk, *_, since in subsystems if since}
-    if len(starts) < len(subsystems):
+    given = {pk: Start(names[pk], since, IN_SERVICE_SINCE) for pk, *_, since in subsystems if since}
+    shown: dict[int, Start] = {}  # without a date given: the earliest day the record shows each in service
+
+    def shown_on(pk: int, day: dt.date, basis: str) -> None:
+        if pk not in given and (pk not in shown or day < shown[pk].day):
+            shown[pk] = Start(names[pk], day, basis)
+
+    if len(given) < len(subsystems):
         for pk, day in (
             ServicePlan.objects.filter(subsystem__telescope__site=site).order_by().values("subsystem_id")
             .annotate(start=Min("counting_from")).values_list("subsystem_id", "start")
         ):
-            starts.setdefault(pk, Start(names[pk], day, PLANS_COUNTING_FROM))
-    missing = [pk for pk in names if pk not in starts]
-    if missing:
-        for pk, when in Subsystem.history.filter(id__in=missing, history_type="+").values_list("id", "history_date"):
-            starts[pk] = Start(names[pk], when.astimezone(site.zone).date(), REGISTERED)
-    # Registered before the history was kept, and without plans: nothing says when it entered service.
-    for pk in missing:
-        starts.setdefault(pk, Start(names[pk], first_night or today, FIRST_NIGHT))
-    return starts
+            shown_on(pk, day, PLANS_COUNTING_FROM)
+        unplanned = [pk for pk in names if pk not in given and pk not in shown]
+        if unplanned:
+            for pk, when in Subsystem.history.filter(id__in=unplanned, history_type="+").values_list(
+                "id", "history_date"
+            ):
+                shown_on(pk, when.astimezone(site.zone).date(), REGISTERED)
+        # A service record as it stands (not withdrawn, not since corrected) shows the subsystem in service that day.
+        for pk, day in (
+            ServiceRecord.objects.filter(subsystem__telescope__site=site, corrected_by__isnull=True, void=False)
+            .order_by().values("subsystem_id").annotate(first=Min("performed_on")).values_list("subsystem_id", "first")
+        ):
+            shown_on(pk, day, FIRST_SERVICE)
+    # Registered before the history was kept, without plans or service: nothing says when it entered service.
+    return {pk: given.get(pk) or shown.get(pk) or Start(names[pk], first_night or today, FIRST_NIGHT) for pk in names}
 
 
 def site_reliability(site: Site, today: dt.date | None = None) -> SiteReliability:

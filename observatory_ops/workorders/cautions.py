@@ -14,10 +14,11 @@ HAZARDS: dict[str, str] = {
     "electrical": "Hazardous electrical energy",
     "pneumatic": "Stored pneumatic energy",
     "stored_mechanical": "Stored mechanical energy (springs)",
+    "hydraulic": "Stored hydraulic pressure and raised loads",
     "moving_machinery": "Moving telescope and dome",
     "suspended_load": "Suspended load",
     "height": "Work at height",
-    "chemical": "Corrosive or irritant chemicals",
+    "chemical": "Chemicals: corrosive, irritant or flammable",
     "cryogen": "Cryogens and CO2 snow",
     "vacuum_plant": "Vacuum coating plant",
     "laser": "Alignment lasers",
@@ -27,16 +28,60 @@ HAZARDS: dict[str, str] = {
 #: Hazards whose energy must be isolated and locked out before work starts. A loaded spring is part of that energy
 #: control (OSHA 29 CFR 1910.147(d)(5): stored energy relieved, disconnected or restrained after isolation), but it is
 #: restrained at the equipment itself, not locked at a supply point, so it asks for no isolation point of its own, as
-#: a moving telescope does not (workorders.selectors._ISOLATES names the points that answer a hazard).
-ISOLATION_HAZARDS = ("electrical", "pneumatic", "stored_mechanical", "moving_machinery")
+#: a moving telescope does not (``ENERGY_HAZARDS`` names the points that answer a hazard). Hydraulic pressure is
+#: stored energy too, locked at its pump and its valve, and a raised load is lowered or blocked before work under it.
+ISOLATION_HAZARDS = ("electrical", "pneumatic", "stored_mechanical", "hydraulic", "moving_machinery")
+
+#: The hazard of the energy an isolation point locks, by the point's kind (``workorders.models.IsolationPoint.Energy``;
+#: "other" names none). A lockout that locks a point touches that energy, so the order prints its caution
+#: (``workorders.selectors.cautions``), and work with the hazard needs a point of one of these kinds registered
+#: (``workorders.selectors.isolation_gaps``).
+ENERGY_HAZARDS = {
+    "ac": "electrical", "dc": "electrical", "servo": "electrical", "air": "pneumatic", "hydraulic": "hydraulic",
+}
 
 
-#: What the page and the printed order say when the work's hazards need nothing isolated.
+#: What the page and the printed order say when the work's hazards need nothing isolated (``isolation_statement``).
 NO_ISOLATION_NEEDED = (
-    "This work needs no energy isolation: none of its hazards is electrical energy, stored pressure, a loaded "
-    "spring or a telescope or dome that can move. If the work turns out to touch any of them, stop and ask the site "
-    "engineer."
+    "This work needs no energy isolation: none of its hazards is electrical energy, stored air or hydraulic "
+    "pressure, a raised load, a loaded spring or a telescope or dome that can move. If the work turns out to touch "
+    "any of them, stop and ask the site engineer."
 )
+#: Said in its place while the order lacks hazards its subsystems now carry (the "Not up to date" notice above it).
+ISOLATION_UNKNOWN_NOT_UP_TO_DATE = (
+    "This work order is not up to date (see above), so it cannot say whether the work needs energy isolation: the "
+    "hazards it lacks may call for it. Do not start the work until the site engineer has brought it up to date."
+)
+#: Said in its place while nobody has recorded the hazards of one of its subsystems (``{subsystems}``, named).
+ISOLATION_UNKNOWN_NOT_RECORDED = (
+    "Nobody has recorded the hazards of {subsystems}, so this work order cannot say whether the work needs energy "
+    "isolation. The work must not start until an engineer has recorded them, or recorded that there are none."
+)
+
+
+def isolation_statement(hazards: Iterable[str], missing: Iterable[str] = (), unrecorded: Iterable[str] = ()) -> str:
+    """What the page and the printed order say under "Energy isolation" in place of the isolation points, for an order
+    whose ``hazards`` (codes) need nothing isolated; "" when they do (the points are listed instead).
+
+    ``missing`` are the hazards its subsystems now carry that it lacks (``workorders.selectors.hazards_missing``) and
+    ``unrecorded`` the names of its subsystems whose hazards nobody has recorded, neither a hazard nor an engineer's
+    "none found" (``workorders.selectors.hazards_unrecorded``). With either, the order cannot know that the work needs
+    no isolation, so it never says so: ``ISOLATION_UNKNOWN_NOT_RECORDED`` or ``ISOLATION_UNKNOWN_NOT_UP_TO_DATE``;
+    otherwise ``NO_ISOLATION_NEEDED``.
+    """
+    if needs_isolation(hazards):
+        return ""
+    names = list(unrecorded)
+    if names:
+        return ISOLATION_UNKNOWN_NOT_RECORDED.format(subsystems=in_words(names))
+    if list(missing):
+        return ISOLATION_UNKNOWN_NOT_UP_TO_DATE
+    return NO_ISOLATION_NEEDED
+
+
+def in_words(names: list[str]) -> str:
+    """"A", "A and B", "A, B and C"."""
+    return names[0] if len(names) == 1 else f"{', '.join(names[:-1])} and {names[-1]}"
 
 
 def needs_isolation(hazards: Iterable[str]) -> bool:
@@ -48,10 +93,14 @@ def needs_isolation(hazards: Iterable[str]) -> bool:
 #: Stored energy is more than pressure: after isolation OSHA 29 CFR 1910.147(d)(5) asks for all of it to be relieved,
 #: disconnected or restrained, and a spring-applied brake's springs, like the weight of a raised or out-of-balance part,
 #: keep theirs when every supply is locked off.
+#: A brake that holds an axis is never what "stored energy" asks to release: it stays applied, its springs restrained
+#: only at the brake with the axis pinned (the stored-mechanical caution), and the try-start ends with the controls
+#: back at off, so nothing starts when the isolation is removed (OSHA 29 CFR 1910.147(d)(6), verification).
 LOCKOUT_STEP = (
-    "Isolate, lock and tag every energy source listed under 'Energy isolation points'; relieve or restrain stored "
-    "energy (pressure, loaded springs, raised or out-of-balance parts); try to start the drives to prove they are "
-    "dead before touching anything."
+    "Isolate, lock and tag every energy source listed under 'Energy isolation points'. Make stored energy safe: "
+    "bleed any stored pressure to zero and lower or block raised parts, but leave every brake that holds an axis "
+    "applied (springs are restrained only at the brake, axis pinned first). Try to start the drives to prove they "
+    "are dead, then return the controls to off, before touching anything."
 )
 #: The lockout step as orders stored before its present wording carry it in their steps. Such an order is still found
 #: by it (``is_lockout_step``): it starts, its lockout is ticked in sequence and answered for at finish, and its paper
@@ -59,6 +108,9 @@ LOCKOUT_STEP = (
 EARLIER_LOCKOUT_STEPS = (
     "Isolate, lock and tag every energy source listed under 'Energy isolation points'; release stored "
     "pressure; try to start the drives to prove they are dead before touching anything.",
+    "Isolate, lock and tag every energy source listed under 'Energy isolation points'; relieve or restrain stored "
+    "energy (pressure, loaded springs, raised or out-of-balance parts); try to start the drives to prove they are "
+    "dead before touching anything.",
 )
 _LOCKOUT_WORDINGS = frozenset((LOCKOUT_STEP, *EARLIER_LOCKOUT_STEPS))
 
@@ -162,6 +214,33 @@ HAZARDS_MISSING_STARTED = (
 HAZARDS_MISSING_ON_PAPER = (
     "Do not start the work from this sheet, and if it has started, stop as soon as it is safe to do so: ask the "
     "site engineer for a work order that carries them."
+)
+
+# A subsystem with no hazard recorded and no engineer's record that it has none (registry.models.Subsystem
+# .no_hazards_found, the kind "Other" as it is added): its orders cannot know their cautions or whether to isolate
+# (workorders.selectors.hazards_unrecorded), and they are neither issued nor started until an engineer records them.
+HAZARDS_UNRECORDED_TITLE = "Hazards not recorded: this work must not start"
+HAZARDS_UNRECORDED = (
+    "Nobody has recorded the hazards of {subsystems}: neither a hazard nor an engineer's record that there are "
+    "none. This work order cannot carry their safety cautions or say whether the energy must be isolated."
+)
+HAZARDS_UNRECORDED_BEFORE_START = (
+    "Before the work starts, the site engineer records them on the subsystem in the admin (its hazards, or 'No "
+    "hazards found' once checked), then brings this work order up to date if it lacks any; until then it cannot be "
+    "{moves}."
+)
+HAZARDS_UNRECORDED_STARTED = (
+    "Technicians: stop the work as soon as it is safe to do so, and ask the site engineer to record the hazards "
+    "before going on."
+)
+HAZARDS_UNRECORDED_ON_PAPER = (
+    "Do not start the work from this sheet, and if it has started, stop as soon as it is safe to do so: ask the "
+    "site engineer to record the hazards and give you a work order that carries them."
+)
+#: Why such an order is not issued or started (workorders.selectors.moves_held).
+HAZARDS_UNRECORDED_HELD = (
+    "nobody has recorded the hazards of {subsystems}: an engineer records them on the subsystem in the admin, or "
+    "records that there are none, before it is issued or started"
 )
 
 #: A telescope whose primary mirror a recoat removed and has not yet put back (workorders.selectors.telescopes_out):
@@ -336,21 +415,45 @@ CAUTIONS: dict[str, Caution] = {
     ),
     # A spring-applied brake (or any spring pack) keeps its energy when every supply is locked off: OSHA 29 CFR
     # 1910.147(d)(5) asks for stored energy to be relieved, disconnected or restrained before the work. Releasing the
-    # brake frees the axis it holds, which the moving-telescope caution covers too.
+    # brake frees the axis it holds, which the moving-telescope caution covers too. Worded for a brake released by air
+    # and one released by its coil alike: both are applied by springs.
     "stored_mechanical": Caution(
         hazard="stored_mechanical",
         severity=SERIOUS_INJURY,
         title=HAZARDS["stored_mechanical"],
         text=(
-            "A spring-applied brake holds its axis with springs that stay loaded when every supply is locked off: "
-            "isolating the power does not release that energy. "
-            "Before you adjust or take apart a brake or any spring pack, relieve or restrain the spring force with "
-            "the tool or release screws the maker provides, never by prying the armature or the disc. "
-            "Releasing a brake, by hand or by power, frees the axis it holds: pin or block the axis first, and "
-            "keep hands out of the gap between armature and magnet. "
+            "A spring-applied brake, released by air or by a coil, holds its axis with springs that stay loaded "
+            "when every supply is locked off and the air vented: isolating the power or the air does not release "
+            "that energy. "
+            "Before you adjust or take apart a brake or any spring pack, pin or block the axis it holds, then relieve "
+            "or restrain the spring force with the tool or release screws the maker provides, never by prying the "
+            "armature, the pads or the disc. "
+            "Releasing a brake, by hand, by air or by power, frees the axis it holds: pin or block the axis first, "
+            "and keep hands out of the gap between the pads or armature and the disc. "
             "Check that the brake applies and holds the axis again before anyone relies on it."
         ),
         standard="OSHA 29 CFR 1910.147(d)(5) (stored energy); the brake maker's instructions",
+    ),
+    # A hydraulic lift or platform holds its load on trapped oil, so a raised load is stored energy as pressure is
+    # (OSHA 29 CFR 1910.147(d)(5)); a fine jet of oil under pressure can be injected under the skin (common practice,
+    # no published source; the hydraulic system's maker and ISO 4413 give the controls).
+    "hydraulic": Caution(
+        hazard="hydraulic",
+        severity=DANGER_TO_LIFE,
+        title=HAZARDS["hydraulic"],
+        text=(
+            "A hydraulic lift, jack or platform holds its load on trapped oil: a leaking seal, an opened fitting or "
+            "a valve moved by mistake lets a raised load come down. "
+            "Before anyone works under or beside a raised platform or load, lower it onto its mechanical stops or "
+            "block it with rated props or the maker's safety locks; never rely on the hydraulics alone. "
+            "Switch off and lock out the pump, release the pressure through the maker's release valve with the load "
+            "lowered or propped, and confirm zero on the gauge: an accumulator keeps its pressure after the pump "
+            "stops. "
+            "Never loosen a fitting under pressure or feel for a leak by hand: a fine jet of oil can pierce the "
+            "skin, and such an injury needs a hospital at once however small it looks. "
+            "Restore the pressure slowly, with everyone clear of the load's path."
+        ),
+        standard="ISO 4413 (hydraulic fluid power); OSHA 29 CFR 1910.147 (lockout/tagout)",
     ),
     "moving_machinery": Caution(
         hazard="moving_machinery",
@@ -402,15 +505,22 @@ CAUTIONS: dict[str, Caution] = {
         hazard="chemical",
         severity=SERIOUS_INJURY,
         title=HAZARDS["chemical"],
+        # Solvent vapour gathers in a closed dome, and aluminium dissolving in acid or alkali gives off hydrogen
+        # (from memory; the chemicals' safety data sheets say so for each).
         text=(
-            "Read the safety data sheet of every chemical before you use it and keep it at hand. "
-            "Wear the gloves, eye protection and clothing it calls for, and work with the ventilation it "
-            "requires. "
-            "Bring only the quantity the job needs, in labelled containers, and keep it away from optics you are "
-            "not cleaning. "
-            "Know where the eyewash and the spill kit are, and dispose of waste as the data sheet directs."
+            "Read the safety data sheet of every chemical before you use it and keep it at hand; wear the gloves, "
+            "eye protection and clothing it calls for, and work with the ventilation it asks for. "
+            "Solvents and solvent wipes (for encoders, rollers and optics) are flammable, and their vapour gathers "
+            "inside a closed dome or enclosure: keep the space ventilated, keep sparks, flames and hot surfaces "
+            "away, and close each container as soon as you have used it. "
+            "Stripping aluminium in an acid or alkali bath gives off hydrogen, which burns and can explode: strip "
+            "only with the extraction running and nothing that could ignite it nearby. "
+            "Bring only the small quantity the job needs, in labelled containers, and keep it away from optics you "
+            "are not cleaning. "
+            "Know where the eyewash and the spill kit are, and dispose of waste and used wipes as the data sheet "
+            "directs."
         ),
-        standard="Safety data sheet of each chemical (GHS)",
+        standard="Safety data sheet of each chemical (GHS); OSHA 29 CFR 1910.106 (flammable liquids)",
     ),
     "cryogen": Caution(
         hazard="cryogen",

@@ -13,7 +13,7 @@ from observatory_ops.planning.services import site_today
 from observatory_ops.registry.forms import HazardsField
 from observatory_ops.registry.models import Subsystem
 
-from . import services
+from . import selectors, services
 from .cautions import ISOLATION_UNTICKED, ISOLATION_UNTICKED_FINDINGS
 from .models import PART_QUANTITY_MAX, Part, State, WorkOrder, part_quantity_too_many
 from .selectors import order_plans
@@ -174,14 +174,6 @@ class AdHocForm(forms.Form):
         return planned if planned is None else _planned_date_plausible(planned, self._today)
 
 
-#: The choice on the finish form that says a mirror on the order was not cleaned in its work.
-NOT_CLEANED = "none"
-
-
-#: Rows on the finish form for parts used that the order did not plan.
-OTHER_PART_ROWS = 3
-
-
 class FinishForm(forms.Form):
     """Hours, the day the work was done, who did it with the person finishing (the crew), findings, the required
     readings, the parts used and, for each mirror the order works on, whether it was cleaned.
@@ -249,7 +241,7 @@ class FinishForm(forms.Form):
             )
         # Parts used that the order did not plan (a fan swapped on a fault found during the work): a few rows.
         site_parts = Part.objects.filter(site=order.site).order_by("name")
-        for i in range(1, OTHER_PART_ROWS + 1):
+        for i in range(1, selectors.OTHER_PART_ROWS + 1):
             self.fields[f"other_part_{i}"] = forms.ModelChoiceField(
                 site_parts, required=False, label=f"Other part used ({i})",
                 help_text="A part of the register used though the order did not list it." if i == 1 else "",
@@ -260,20 +252,13 @@ class FinishForm(forms.Form):
                                 "min_value": f"How many ({i}): enter more than 0.",
                                 "max_value": f"{part_quantity_too_many(f'How many ({i})')}."},
             )
-        from observatory_ops.mirrors.models import CleaningEvent, Mirror  # mirrors builds on work orders
-
-        # Asked with no default for every mirror the order works on: a cleaning plan has no marker that holds (a
-        # site renames its plans and edits their triggers, and a cleaning may be an order raised by hand), and a
-        # forgotten choice would drop the cleaning from the mirror's record and its reflectance forecast. Not
-        # asked on the phase orders of a recoat (removal, coating, reinstall, realignment), whose work is no cleaning.
-        mirrors = [] if order.recoat_phase else Mirror.objects.filter(
-            subsystem__in=[i.subsystem_id for i in order.items.all()]
-        ).select_related("subsystem")
-        for mirror in mirrors:
+        # Asked with no default (a cleaning plan has no marker that holds: a site renames its plans and edits their
+        # triggers, and a cleaning may be an order raised by hand): selectors.mirrors_asked_about.
+        for mirror in selectors.mirrors_asked_about(order):
             name = mirror.subsystem.name
             self.fields[f"cleaned_{mirror.pk}"] = forms.ChoiceField(
                 label=f"Cleaning of {name}",
-                choices=[("", "choose..."), (NOT_CLEANED, "not cleaned in this work"), *CleaningEvent.Method.choices],
+                choices=[("", "choose..."), *selectors.cleaning_choices()],
                 help_text="A cleaning goes on the mirror's record, so its reflectance forecast counts the recovery.",
                 error_messages={"required": f"Cleaning of {name}: choose how it was cleaned in this work, or "
                                             "'not cleaned in this work'."},
@@ -318,7 +303,7 @@ class FinishForm(forms.Form):
         cleaned = super().clean()
         if cleaned.get("isolation_answer") and not cleaned.get("findings", "").strip():
             self.add_error("findings", f"Findings: {ISOLATION_UNTICKED_FINDINGS}.")
-        for i in range(1, OTHER_PART_ROWS + 1):
+        for i in range(1, selectors.OTHER_PART_ROWS + 1):
             part, quantity = cleaned.get(f"other_part_{i}"), cleaned.get(f"other_quantity_{i}")
             if part and not quantity and f"other_quantity_{i}" not in self.errors:
                 self.add_error(f"other_quantity_{i}", f"How many ({i}): enter how many of {part.name} were used.")
@@ -329,7 +314,7 @@ class FinishForm(forms.Form):
     def parts_added(self) -> list[tuple[Part, float]]:
         """The other parts used, with how many (``services.work_order_finish`` checks them against the order)."""
         rows = [(self.cleaned_data.get(f"other_part_{i}"), self.cleaned_data.get(f"other_quantity_{i}"))
-                for i in range(1, OTHER_PART_ROWS + 1)]
+                for i in range(1, selectors.OTHER_PART_ROWS + 1)]
         return [(part, quantity) for part, quantity in rows if part and quantity]
 
     def readings(self) -> dict[int, float]:
@@ -340,7 +325,8 @@ class FinishForm(forms.Form):
 
     def cleanings(self) -> dict[int, str]:
         """Mirror id -> cleaning method, for each mirror the work cleaned."""
-        return {int(k[8:]): v for k, v in self.cleaned_data.items() if k.startswith("cleaned_") and v != NOT_CLEANED}
+        not_cleaned = selectors.NOT_CLEANED[0]
+        return {int(k[8:]): v for k, v in self.cleaned_data.items() if k.startswith("cleaned_") and v != not_cleaned}
 
     def beyond_limits(self) -> dict[str, str]:
         """Field name -> what to show beside it, for each reading entered past its limit (valid forms only)."""

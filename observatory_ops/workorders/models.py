@@ -415,6 +415,7 @@ class IsolationPoint(models.Model):
         DC = "dc", "DC supplies"
         SERVO = "servo", "servo drives"
         AIR = "air", "compressed air"
+        HYDRAULIC = "hydraulic", "hydraulic pressure"
         OTHER = "other", "other"
 
     telescope = models.ForeignKey(Telescope, on_delete=models.CASCADE, related_name="isolation_points")
@@ -423,7 +424,10 @@ class IsolationPoint(models.Model):
         help_text="For a subsystem with a supply of its own, e.g. the dome's drives: listed on its orders and on every "
         "order at a telescope that can move. Blank: for all work on the telescope.",
     )
-    energy = models.CharField(max_length=8, choices=Energy.choices)
+    energy = models.CharField(
+        max_length=16, choices=Energy.choices,
+        help_text="The energy it isolates: its work orders print that energy's caution (workorders.cautions).",
+    )
     label = models.CharField(max_length=120, help_text="What to switch, lock and tag, e.g. 'Mount main isolator'.")
     location = models.CharField(max_length=120, blank=True)
     verify = models.CharField(max_length=160, blank=True, help_text="How to prove it is dead (test before touch).")

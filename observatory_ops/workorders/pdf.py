@@ -503,7 +503,7 @@ def _cautions(sheet: Sheet, width: float) -> list[Flowable]:
 
 def _isolation(sheet: Sheet) -> list[Flowable]:
     if not sheet.isolation_needed:
-        return [_heading("Energy isolation"), _note(NO_ISOLATION_NEEDED)]
+        return [_heading("Energy isolation"), _note(sheet.isolation_statement or NO_ISOLATION_NEEDED)]
     heading = _heading("Energy isolation points \N{EN DASH} lock out and tag each before the work starts")
     if not sheet.isolation_points:
         return [heading, _note("None listed for this telescope. Ask the site engineer before working on powered "
@@ -574,6 +574,11 @@ def _parts_and_tools(sheet: Sheet, width: float) -> list[Flowable]:
             ))
     elif not sheet.parts_unregistered:
         story.append(_note("No parts listed."))
+    if sheet.other_part_rows:
+        widths = [width - 70 * mm, 36 * mm, 34 * mm]
+        blank = [[_written_box(w) for w in widths] for _ in range(sheet.other_part_rows)]
+        story += [_Paragraph("Other parts used (from the register, not listed above)", _SUBHEADING),
+                  _ruled_table(("Part", "Part no.", "How many"), blank, widths)]
     if sheet.parts_unregistered:
         story.append(_Paragraph(f"<b>Also needed:</b> {_text(PARTS_UNREGISTERED)}", _BULLET, bulletText="!"))
         story += [_Ticked(_para(line, _ITEM)) for line in sheet.parts_unregistered]
@@ -630,12 +635,20 @@ def _findings(sheet: Sheet) -> list[Flowable]:
 
 
 def _cleanings(sheet: Sheet) -> list[Flowable]:
-    if not sheet.cleanings:
+    """What finishing recorded of each mirror's cleaning; before then, for each mirror the finish form asks about, its
+    answers to tick one of (the form cannot be typed in from a paper that does not ask)."""
+    if sheet.cleanings:
+        return [
+            _heading("Mirror cleaning"),
+            *(_Paragraph(_text(line), _BULLET, bulletText="\N{BULLET}") for line in sheet.cleanings),
+        ]
+    if not sheet.cleaning_to_record:
         return []
-    return [
-        _heading("Mirror cleaning"),
-        *(_Paragraph(_text(line), _BULLET, bulletText="\N{BULLET}") for line in sheet.cleanings),
-    ]
+    story: list[Flowable] = [_heading("Mirror cleaning \N{EN DASH} tick one for each mirror")]
+    for mirror, answers in sheet.cleaning_to_record:
+        story.append(_Paragraph(_text(mirror), _SUBHEADING))
+        story += [_Ticked(_para(answer, _ITEM)) for answer in answers]
+    return story
 
 
 def _confirmations(sheet: Sheet) -> list[Flowable]:

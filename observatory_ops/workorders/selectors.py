@@ -14,6 +14,7 @@ from observatory_ops.archive.history import Change, changes, person
 from observatory_ops.calc import lifting
 from observatory_ops.calc.windows import RECOAT_PHASES
 from observatory_ops.logbook.models import ServiceRecord
+from observatory_ops.planning.metrics import RECOAT_LINE
 from observatory_ops.planning.models import ServicePlan, part_lines
 from observatory_ops.planning.services import site_today
 from observatory_ops.registry import catalogue
@@ -24,11 +25,18 @@ from .cautions import (
     ALONGSIDE_ADVICE,
     ALONGSIDE_START_QUESTION,
     ALONGSIDE_TITLE_ON_PAPER,
+    ENERGY_HAZARDS,
     HAZARDS,
     HAZARDS_MISSING_BEFORE_START,
     HAZARDS_MISSING_ON_PAPER,
     HAZARDS_MISSING_STARTED,
     HAZARDS_MISSING_TITLE,
+    HAZARDS_UNRECORDED,
+    HAZARDS_UNRECORDED_BEFORE_START,
+    HAZARDS_UNRECORDED_HELD,
+    HAZARDS_UNRECORDED_ON_PAPER,
+    HAZARDS_UNRECORDED_STARTED,
+    HAZARDS_UNRECORDED_TITLE,
     ISOLATION_REVIEW,
     ISOLATION_UNTICKED,
     ISOLATION_UNTICKED_RECORD,
@@ -53,7 +61,9 @@ from .cautions import (
     Caution,
     cautions_for,
     hazards_missing_notice,
+    in_words,
     is_lockout_step,
+    isolation_statement,
     needs_isolation,
 )
 from .models import ChecklistTick, IsolationPoint, Part, PartUse, State, WorkOrder, WorkOrderItem, part_name_key
@@ -174,10 +184,16 @@ _MAY_PAUSE_PART_WAY = ("removal", "reinstall")
 
 def standing_notes(order: WorkOrder) -> tuple[str, ...]:
     """What the page and the paper of an order still to do say to keep in mind throughout its work, above its steps
-    and not among them, so nobody ticks it: how to leave a recoat's removal or reinstall if the work stops part way.
+    and not among them, so nobody ticks it: how to leave a recoat's removal or reinstall if the work stops part way,
+    and the same for a whole recoat in one order (made from the due list: an order over a plan with a recoat-line
+    trigger, not one of the planner's phase orders).
     Orders made before it became a note keep it among their steps as they were, except those still draft or issued
     (migration ``workorders.0013``), so it may read twice on an old order underway."""
-    if order.state in TO_DO and order.recoat_phase in _MAY_PAUSE_PART_WAY:
+    if order.state not in TO_DO:
+        return ()
+    if order.recoat_phase in _MAY_PAUSE_PART_WAY or (
+        not order.recoat_phase and order.items.filter(plan__triggers__metric=RECOAT_LINE).exists()
+    ):
         return (WORK_STOPPED_PART_WAY,)
     return ()
 
@@ -186,8 +202,14 @@ def low_stock(site: Site) -> QuerySet[Part]:
     return Part.objects.filter(site=site, quantity_on_hand__lte=F("reorder_point"))
 
 
-def cautions(order: WorkOrder) -> list[Caution]:
-    return cautions_for(order.hazards)
+def cautions(order: WorkOrder, points: Sequence[IsolationPoint] | None = None) -> list[Caution]:
+    """The cautions the order prints: one for each of its hazards, and one for each energy its lockout touches (the
+    kinds of its isolation points, ``cautions.ENERGY_HAZARDS``), so a lockout that closes and bleeds the brake air
+    prints the pneumatic caution on an axis drive's order too. ``points``: ``isolation_points(order)``, read when
+    not given."""
+    points = isolation_points(order) if points is None else points
+    touched = [ENERGY_HAZARDS[point.energy] for point in points if point.energy in ENERGY_HAZARDS]
+    return cautions_for([*order.hazards, *touched])
 
 
 def hazards_of(subsystems: Sequence[Subsystem], plans: Sequence[ServicePlan]) -> list[str]:
@@ -216,24 +238,57 @@ def hazards_missing(order: WorkOrder) -> list[str]:
     return [h for h in now if h not in order.hazards]
 
 
+def hazards_unrecorded(order: WorkOrder) -> list[Subsystem]:
+    """For an order still to do: its subsystems whose hazards nobody has recorded, neither a hazard nor an engineer's
+    record that there are none (``Subsystem.hazards_recorded``), in the order of its items; [] otherwise. Until an
+    engineer records them, the order cannot know its cautions or whether its energy must be isolated."""
+    if order.state not in TO_DO:
+        return []
+    items = order.items.select_related("subsystem__telescope").order_by("pk")
+    found = {i.subsystem_id: i.subsystem for i in items if not i.subsystem.hazards_recorded}
+    return list(found.values())
+
+
 def hazards_notice(order: WorkOrder, missing: Sequence[str], paper: bool = False) -> tuple[str, ...]:
-    """The notice on an order that lacks the ``missing`` hazards: its title, what the order lacks, and what to
-    do (on the page: an engineer brings it up to date before the work starts, or, once started, the technician
-    stops and asks; on paper: ask the engineer). () when nothing is missing."""
-    if not missing:
+    """The notice on an order that lacks the ``missing`` hazards, or covers subsystems whose hazards nobody has
+    recorded (``hazards_unrecorded``): its title, what the order lacks, and what to do (on the page: an engineer
+    records them or brings it up to date before the work starts, or, once started, the technician stops and asks;
+    on paper: ask the engineer). () when there is neither."""
+    unrecorded = hazards_unrecorded(order)
+    if not missing and not unrecorded:
         return ()
     from .services import lockout_missing  # services reads this module
 
-    if paper:
-        todo = HAZARDS_MISSING_ON_PAPER
-    elif order.state == State.UNDERWAY:
-        todo = HAZARDS_MISSING_STARTED
-    else:
-        todo = HAZARDS_MISSING_BEFORE_START.format(
-            moves="issued or started" if order.state == State.DRAFT else "started"
+    if unrecorded:
+        title, (paper_todo, started, before) = HAZARDS_UNRECORDED_TITLE, (
+            HAZARDS_UNRECORDED_ON_PAPER, HAZARDS_UNRECORDED_STARTED, HAZARDS_UNRECORDED_BEFORE_START
         )
-    lockout = lockout_missing([*order.hazards, *missing], order.step_list)
-    return HAZARDS_MISSING_TITLE, hazards_missing_notice(missing, lockout), todo
+    else:
+        title, (paper_todo, started, before) = HAZARDS_MISSING_TITLE, (
+            HAZARDS_MISSING_ON_PAPER, HAZARDS_MISSING_STARTED, HAZARDS_MISSING_BEFORE_START
+        )
+    if paper:
+        todo = paper_todo
+    elif order.state == State.UNDERWAY:
+        todo = started
+    else:
+        todo = before.format(moves="issued or started" if order.state == State.DRAFT else "started")
+    lines = []
+    if missing:
+        lockout = lockout_missing([*order.hazards, *missing], order.step_list)
+        lines.append(hazards_missing_notice(missing, lockout))
+    if unrecorded:
+        lines.append(HAZARDS_UNRECORDED.format(subsystems=in_words([str(s) for s in unrecorded])))
+    return title, *lines, todo
+
+
+def order_isolation_statement(order: WorkOrder, missing: Sequence[str] | None = None) -> str:
+    """What the order's page and paper say under "Energy isolation" when its hazards need nothing isolated, and ""
+    when they do (its isolation points are listed instead): ``cautions.isolation_statement`` with what the order
+    lacks (``missing``, ``hazards_missing(order)`` read when not given) and the subsystems whose hazards nobody has
+    recorded (``hazards_unrecorded``). Never that the work needs no isolation while either stands."""
+    missing = hazards_missing(order) if missing is None else missing
+    return isolation_statement(order.hazards, missing, [str(s) for s in hazards_unrecorded(order)])
 
 
 def register_part(name: str, register: Sequence[Part]) -> Part | None:
@@ -332,9 +387,17 @@ def orders_underway_locking(point: IsolationPoint) -> list[WorkOrder]:
     return [order for order in underway if any(p.pk == point.pk for p in isolation_points(order))]
 
 
-#: Which registered isolation points answer a hazard: without one, the lockout step has nothing to lock.
-_ISOLATES = {"electrical": {"ac", "dc", "servo"}, "pneumatic": {"air"}}
-_SOURCE = {"electrical": "electrical", "pneumatic": "compressed-air"}
+#: Which registered isolation points answer a hazard (``cautions.ENERGY_HAZARDS``, turned round): without one, the
+#: lockout step has nothing to lock.
+_ISOLATES = {
+    hazard: {energy for energy, answered in ENERGY_HAZARDS.items() if answered == hazard}
+    for hazard in dict.fromkeys(ENERGY_HAZARDS.values())
+}
+_SOURCE = {"electrical": "electrical", "pneumatic": "compressed-air", "hydraulic": "hydraulic"}
+_ISOLATED_AT_THE_SUBSYSTEM = ("hydraulic",)
+#: Kinds whose work needs an isolation point registered for the subsystem itself (``catalogue.Kind.own_point``), with
+#: why, as the warning says when none is: a dome's own drives, the AC distribution's incoming supply.
+_OWN_POINT = {code: kind.own_point for code, kind in catalogue.KINDS.items() if kind.own_point}
 
 
 def _hazards_by_telescope(order: WorkOrder, items: list[WorkOrderItem]) -> dict[int, set[str]]:
@@ -354,11 +417,14 @@ def _hazards_by_telescope(order: WorkOrder, items: list[WorkOrderItem]) -> dict[
 
 
 def isolation_gaps(order: WorkOrder) -> list[str]:
-    """A warning for each telescope of the order with a hazard but no isolation point for its energy, and
-    for each subsystem fed from a supply of its own (``catalogue.Kind.separate_supply``, a dome) with no
-    point registered for it: the telescope's points do not make its own drives safe. That is each such
-    subsystem the order works on with electrical energy among its telescope's hazards and, when a moving
-    telescope or dome is among them, each one in service on that telescope (as ``isolation_points`` lists them).
+    """A warning for each telescope of the order with a hazard but no isolation point for its energy (one for the
+    whole telescope; for hydraulic pressure, also one registered for a subsystem the order works on there, a lift's
+    pump and valve), and
+    for each subsystem whose work needs a point of its own (``catalogue.Kind.own_point``) with none registered for
+    it: a dome fed from a supply of its own, whose drives the telescope's points do not make safe, or the AC
+    distribution, whose incoming side they leave live. That is each such subsystem the order works on with
+    electrical energy among its telescope's hazards and, when a moving telescope or dome is among them, each one in
+    service on that telescope with a supply of its own (as ``isolation_points`` lists them).
 
     Each telescope is judged by the hazards of the work there (``_hazards_by_telescope``): an order over two
     telescopes whose brake work on one involves compressed air asks for no air point on the other."""
@@ -367,16 +433,21 @@ def isolation_gaps(order: WorkOrder) -> list[str]:
     points = isolation_points(order)
     items = list(order.items.select_related("subsystem__telescope", "plan"))
     hazards = _hazards_by_telescope(order, items)
+    worked = {i.subsystem_id for i in items}
     gaps = []
     for telescope in sorted({i.subsystem.telescope for i in items}, key=lambda t: t.name):
-        energies = {p.energy for p in points if p.telescope_id == telescope.pk and p.subsystem_id is None}
+        whole = {p.energy for p in points if p.telescope_id == telescope.pk and p.subsystem_id is None}
+        own = {p.energy for p in points if p.telescope_id == telescope.pk and p.subsystem_id in worked}
         for hazard, answers in _ISOLATES.items():
+            # The telescope's electrical and air supplies are locked at its own points, for all work there; a
+            # hydraulic system is one subsystem's (a lift's pump and valve), locked at a point registered for it.
+            energies = whole | own if hazard in _ISOLATED_AT_THE_SUBSYSTEM else whole
             if hazard in hazards[telescope.pk] and not energies & answers:
                 gaps.append(
                     f"No {_SOURCE[hazard]} isolation point is registered for {telescope.name}: find and lock the "
                     "supply before work, and have an engineer add it to the register."
                 )
-    worked_on = {i.subsystem_id: i.subsystem for i in items if i.subsystem.kind in _SEPARATE_SUPPLY}
+    worked_on = {i.subsystem_id: i.subsystem for i in items if i.subsystem.kind in _OWN_POINT}
     own_supply = {pk: s for pk, s in worked_on.items() if "electrical" in hazards[s.telescope_id]}
     moving = [pk for pk, found in hazards.items() if "moving_machinery" in found]
     if moving:
@@ -386,13 +457,13 @@ def isolation_gaps(order: WorkOrder) -> list[str]:
         if any(p.subsystem_id == subsystem.pk for p in points):
             continue
         if subsystem.pk in worked_on:
-            why = "the telescope's points do not make its drives safe"
+            why = _OWN_POINT[subsystem.kind]
         else:
-            why = "it can move during this work, and the telescope's points do not stop it"
+            why = ("which has a supply of its own: it can move during this work, and the telescope's points do not "
+                   "stop it")
         gaps.append(
-            f"No isolation point is registered for {subsystem.telescope.name}: {subsystem.name}, which has a "
-            f"supply of its own: {why}. Find and lock its supply before work, and have an engineer add the point "
-            "to the register for this subsystem."
+            f"No isolation point is registered for {subsystem.telescope.name}: {subsystem.name}, {why}. Find and lock "
+            "its supply before work, and have an engineer add the point to the register for this subsystem."
         )
     return gaps
 
@@ -568,6 +639,33 @@ def checklist_record(order: WorkOrder, points: list[IsolationPoint]) -> tuple[st
         record.append(f"{what} (no longer on this order): {tick.text} \N{EM DASH} ticked by "
                       f"{person(tick.recorded_by)}, {when}")
     return tuple(record)
+
+
+#: The finish form's answer that a mirror on the order was not cleaned in its work, and its words.
+NOT_CLEANED = ("none", "not cleaned in this work")
+#: Rows on the finish form, and blank rows on the paper, for parts of the register used that the order did not plan.
+OTHER_PART_ROWS = 3
+
+
+def mirrors_asked_about(order: WorkOrder) -> list:
+    """The mirrors whose cleaning finishing the order asks about, by name: each mirror it works on, except on a
+    recoat's phase orders (removal, coating, reinstall, realignment), whose work is no cleaning. Asked with no default
+    on the finish form and as a choice to tick on paper: a forgotten cleaning would drop out of the mirror's record and
+    its reflectance forecast."""
+    if order.recoat_phase:
+        return []
+    from observatory_ops.mirrors.models import Mirror  # mirrors builds on work orders
+
+    return list(Mirror.objects.filter(subsystem__in=order.items.values("subsystem_id"))
+                .select_related("subsystem").order_by("subsystem__name"))
+
+
+def cleaning_choices() -> list[tuple[str, str]]:
+    """The answers to "how was this mirror cleaned in this work", not cleaned first, as the form and the paper give
+    them."""
+    from observatory_ops.mirrors.models import CleaningEvent  # mirrors builds on work orders
+
+    return [NOT_CLEANED, *CleaningEvent.Method.choices]
 
 
 def cleanings_at_finish(order: WorkOrder) -> list[str]:
@@ -826,6 +924,10 @@ def moves_held(order: WorkOrder) -> dict[str, list[str]]:
         for action in ("issue", "start"):
             if why := lift_refusal(order, action):
                 held.setdefault(action, []).append(why)
+        if unrecorded := hazards_unrecorded(order):
+            why = HAZARDS_UNRECORDED_HELD.format(subsystems=in_words([str(s) for s in unrecorded]))
+            for action in ("issue", "start"):
+                held.setdefault(action, []).append(why)
     if order.state == State.ISSUED and (why := recoat_order_refusal(order)):
         held.setdefault("start", []).append(why)
     return held
@@ -952,6 +1054,7 @@ def sheet(order: WorkOrder, url: str) -> sheet_.Sheet:
     finished = order.state in (State.FINISHED, State.COUNTERSIGNED)
     gaps = isolation_gaps(order)
     lines = checklist(order, points)
+    missing = hazards_missing(order)
 
     def ticks(checked: list[ChecklistLine]) -> tuple[sheet_.SheetTick, ...]:  # as the page shows the finished work
         if not finished:
@@ -981,13 +1084,15 @@ def sheet(order: WorkOrder, url: str) -> sheet_.Sheet:
             for i in items if i.why
         ),
         cautions=tuple(
-            sheet_.SheetCaution(c.title, c.text, c.standard, SEVERITY_LABELS[c.severity]) for c in cautions(order)
+            sheet_.SheetCaution(c.title, c.text, c.standard, SEVERITY_LABELS[c.severity])
+            for c in cautions(order, points)
         ),
         precedence_statement=PRECEDENCE_STATEMENT,
-        hazards_notice=hazards_notice(order, hazards_missing(order), paper=True),
+        hazards_notice=hazards_notice(order, missing, paper=True),
         out_of_service=tuple(telescope_out_notices(order)),
         alongside=alongside_notice(order),
         isolation_needed=needs_isolation(order.hazards),
+        isolation_statement=order_isolation_statement(order, missing),
         isolation_points=tuple(f"WARNING: {gap}" for gap in gaps) + tuple(line.text for line in lines.points),
         point_ticks=(None,) * len(gaps) + ticks(lines.points) if finished else (),
         steps=tuple(line.text for line in lines.steps),
@@ -1023,6 +1128,12 @@ def sheet(order: WorkOrder, url: str) -> sheet_.Sheet:
         confirmations=checklist_record(order, points) if finished else (),
         crew=tuple(order.crew) if finished and order.crew is not None else None,
         cleanings=tuple(cleanings_at_finish(order)),
+        # For the paper a technician fills in by hand before the finish form is typed from it: what that form asks.
+        cleaning_to_record=() if finished else tuple(
+            (mirror.subsystem.name, tuple(label for _, label in cleaning_choices()))
+            for mirror in mirrors_asked_about(order)
+        ),
+        other_part_rows=0 if finished else OTHER_PART_ROWS,
     )
 
 

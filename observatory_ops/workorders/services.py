@@ -27,7 +27,7 @@ from observatory_ops.logbook.services import limit_passed_before
 from observatory_ops.planning.metrics import READING
 from observatory_ops.planning.models import ServicePlan, part_lines
 from observatory_ops.planning.services import site_recompute, site_today
-from observatory_ops.registry.catalogue import RELEASE
+from observatory_ops.registry.catalogue import RELEASE, RETURNS_TO_SERVICE, TELESCOPE_STEPS
 from observatory_ops.registry.models import Site, Subsystem
 
 from .cautions import (
@@ -185,10 +185,13 @@ def _steps_for(plans: Sequence[ServicePlan], labels: dict[int, str], hazards: Se
     Each plan's steps come in three groups (``ServicePlan.step_groups``); the order keeps three runs, each in
     plan order: all the steps under power, then (after the one lockout step) all the locked-out work, then
     (after the one release step) all the restoring. So no plan's locks come off while another plan's
-    locked-out work is still to do. A powered or restoring step that several plans on one telescope share
-    (closing the dome, parking) is written once, for all of them.
+    locked-out work is still to do. A powered or restoring step about the whole telescope that several plans on
+    it share (closing the dome, parking: ``catalogue.TELESCOPE_STEPS``) is written once, for all of them.
+    The restoring run puts every plan's return to service (``catalogue.RETURNS_TO_SERVICE``, and whatever that plan
+    does after it) after all the plans' other restoring, so an axis drive goes back in service only once its brake's
+    air is back and tested.
     """
-    powered, work, restoring = [], [], []
+    powered, work, restoring, in_service = [], [], [], []
     for plan in plans:
         before, during, after = plan.step_groups
         if not (before or during or after):
@@ -196,11 +199,14 @@ def _steps_for(plans: Sequence[ServicePlan], labels: dict[int, str], hazards: Se
         # The lockout and the release are the order's to add, once: not repeated from a plan that holds them.
         powered += [(plan, step) for step in before if not _orders_own(step)]
         work += [(plan, step) for step in during if not _orders_own(step)]
-        restoring += [(plan, step) for step in after if not _orders_own(step)]
+        after = [step for step in after if not _orders_own(step)]
+        back = next((i for i, step in enumerate(after) if step in RETURNS_TO_SERVICE), len(after))
+        restoring += [(plan, step) for step in after[:back]]
+        in_service += [(plan, step) for step in after[back:]]
     several = len(plans) > 1
     return "\n".join(steps_in_groups(
         hazards, _shared_once(powered, labels, several), _labelled(work, labels, several),
-        _shared_once(restoring, labels, several),
+        _shared_once(restoring + in_service, labels, several),
     ))
 
 
@@ -214,8 +220,11 @@ def _labelled(run: list[tuple[ServicePlan, str]], labels: dict[int, str], severa
 
 
 def _shared_once(run: list[tuple[ServicePlan, str]], labels: dict[int, str], several: bool) -> list[str]:
-    """The run's steps, a step that several plans on one telescope share written once: without a plan's
-    label, or with the telescope's name when the order spans several telescopes.
+    """The run's steps, a step that several plans share written once: one about the whole telescope
+    (``catalogue.TELESCOPE_STEPS``) shared by plans on that telescope, without a plan's label, or with the
+    telescope's name when the order spans several telescopes; any other step shared by plans on one subsystem, with
+    the subsystem's name when the order covers several. Any other step stays one per plan, with its plan's label:
+    "check that the brake holds" is each brake's own.
 
     Merged so that every plan's steps keep their own order (a plan that tests under power before parking
     still does): a topological order of the steps, each plan's sequence as the constraints, ties going to
@@ -223,7 +232,8 @@ def _shared_once(run: list[tuple[ServicePlan, str]], labels: dict[int, str], sev
     each with its plan's label.
     """
     def key(plan, step):
-        return plan.subsystem.telescope_id, step
+        whose = None if step in TELESCOPE_STEPS else plan.subsystem_id
+        return plan.subsystem.telescope_id, whose, step
 
     sharing = Counter(key(plan, step) for plan, step in run)
     if len(sharing) == len(run):
@@ -232,14 +242,17 @@ def _shared_once(run: list[tuple[ServicePlan, str]], labels: dict[int, str], sev
     for index, (plan, step) in enumerate(run):
         first_met.setdefault(key(plan, step), (index, plan, step))
     order = graphlib.TopologicalSorter({k: set() for k in first_met})
-    for previous, (plan, step) in zip(run, run[1:], strict=False):
-        if previous[0] is plan:
-            order.add(key(plan, step), key(*previous))
+    last_of: dict[int, tuple] = {}  # each plan's previous step: its steps need not stand together in the run
+    for plan, step in run:
+        if plan.pk in last_of:
+            order.add(key(plan, step), last_of[plan.pk])
+        last_of[plan.pk] = key(plan, step)
     try:
         order.prepare()
     except graphlib.CycleError:
         return _labelled(run, labels, several)
     telescopes = len({plan.subsystem.telescope_id for plan, _ in run}) > 1
+    subsystems = len({plan.subsystem_id for plan, _ in run}) > 1
     ready, lines = [(first_met[k][0], k) for k in order.get_ready()], []
     heapq.heapify(ready)
     while ready:
@@ -247,6 +260,9 @@ def _shared_once(run: list[tuple[ServicePlan, str]], labels: dict[int, str], sev
         _, plan, step = first_met[k]
         if sharing[k] == 1:
             lines += _labelled([(plan, step)], labels, several)
+        elif k[1] is not None:  # one subsystem's plans share it
+            where = f"{plan.subsystem.telescope.name}: " if telescopes else ""
+            lines.append(f"[{where}{plan.subsystem.name}] {step}" if subsystems else step)
         else:
             lines.append(f"[{plan.subsystem.telescope.name}] {step}" if telescopes else step)
         order.done(k)

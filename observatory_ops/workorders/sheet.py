@@ -87,7 +87,9 @@ class Sheet:
     a framed box before any step, most severe first, followed by ``precedence_statement``.
     ``steps_warning``, when set, is printed above the steps (the lockout step is missing from them).
     ``isolation_points`` are the energy isolation points of the telescope for the lockout step; with
-    ``isolation_needed`` False the work's hazards need nothing isolated and the sheet says so.
+    ``isolation_needed`` False the work's hazards need nothing isolated, and ``isolation_statement`` says what the
+    sheet prints in their place (``cautions.isolation_statement``: that the work needs no isolation only when nothing
+    is missing or unrecorded).
     ``steps_note`` (how the steps of several plans were merged, before the work starts) is printed above the steps.
     ``standing_notes`` (what to keep in mind throughout the work, not steps to tick) are printed above the steps.
     ``step_ticks`` and ``point_ticks`` (finished work only; otherwise empty) give, for each of ``steps`` and of
@@ -139,6 +141,7 @@ class Sheet:
     checked_on: date | None = None
     confirmations: tuple[str, ...] = ()
     hazards_notice: tuple[str, ...] = ()
+    isolation_statement: str = ""
     out_of_service: tuple[tuple[str, ...], ...] = ()
     alongside: tuple[str, ...] = ()
     steps_warning: str = ""
@@ -151,6 +154,8 @@ class Sheet:
     parts_unregistered: tuple[str, ...] = ()  # "2 x Brake pad set": named by the plans, not in the parts register
     crew: tuple[str, ...] | None = None
     cleanings: tuple[str, ...] = ()
+    cleaning_to_record: tuple[tuple[str, tuple[str, ...]], ...] = ()  # (mirror, the answers to tick) before finishing
+    other_part_rows: int = 0  # blank rows for parts used that the order did not plan, before finishing
 
     def __post_init__(self) -> None:
         for name in ("subsystems", "why", "isolation_points", "steps", "tools", "confirmations", "hazards_notice",

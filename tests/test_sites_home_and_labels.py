@@ -1,0 +1,105 @@
+"""The sites page's counts, telescopes named with their site where a choice spans sites, and the dust-weighted rate's
+wording (a network manager's review)."""
+from __future__ import annotations
+
+import datetime as dt
+import html
+import re
+
+import pytest
+from django.urls import reverse
+
+from observatory_ops.calc.triggers import TriggerState
+from observatory_ops.planning import metrics
+from observatory_ops.planning.models import PlanStatus
+from observatory_ops.planning.selectors import status_counts, status_counts_by_site
+from observatory_ops.planning.services import reason_text, site_recompute
+from observatory_ops.registry.models import Telescope
+from tests.conftest import site_in_use
+
+pytestmark = pytest.mark.django_db
+
+
+@pytest.fixture
+def two_sites(db):
+    """Two sites in use, each with a telescope named "MC-80" besides its "T1", and their due states stored."""
+    sites = site_in_use("cerro-alto"), site_in_use("mesa-norte", kinds=("limits",))
+    for site in sites:
+        Telescope.objects.create(site=site, name="MC-80", aperture_m=0.8, mount="fork")
+        site_recompute(site)
+    return sites
+
+
+def _text(response) -> str:
+    return " ".join(html.unescape(re.sub(r"<[^>]+>", " ", response.content.decode())).split())
+
+
+# --- the sites page ------------------------------------------------------------------------------------------------
+
+
+def test_the_sites_page_gives_each_sites_overdue_and_due_counts(two_sites, users, client):
+    client.force_login(users["viewer"])
+    text = _text(client.get("/"))
+    for site in two_sites:
+        counts = status_counts(site)
+        assert f"{site.name} " in text
+        assert f"{counts['overdue']} overdue · {counts['due']} due within 30 days" in text
+    assert sum(status_counts(site)["overdue"] + status_counts(site)["due"] for site in two_sites) > 0
+
+
+def test_the_counts_of_every_site_are_one_query(two_sites, django_assert_num_queries):
+    with django_assert_num_queries(1):
+        counts = status_counts_by_site(list(two_sites))
+    for site in two_sites:
+        stored = PlanStatus.objects.filter(site=site)
+        assert counts[site.pk] == {status: stored.filter(status=status).count() for status in ("overdue", "due",
+                                                                                                 "later")}
+
+
+def test_the_sites_page_links_each_count_to_the_due_list(two_sites, users, client):
+    client.force_login(users["viewer"])
+    page = client.get("/").content.decode()
+    site = two_sites[0]
+    assert f'href="{reverse("due-list")}?site={site.pk}&amp;status=overdue"' in page
+    assert f'href="{reverse("due-list")}?site={site.pk}&amp;status=due"' in page
+
+
+# --- telescopes named with their site ------------------------------------------------------------------------------
+
+
+def test_the_subsystem_forms_telescope_choice_names_each_site(two_sites, users, client):
+    users["engineer"].is_staff = True
+    users["engineer"].save()
+    client.force_login(users["engineer"])
+    page = html.unescape(client.get("/admin/registry/subsystem/add/").content.decode())
+    options = re.findall(r"<option value=\"\d+\"[^>]*>([^<]*MC-80[^<]*)</option>", page)
+    assert options == ["Site cerro-alto: MC-80 (0.8 m)", "Site mesa-norte: MC-80 (0.8 m)"]
+    listing = html.unescape(client.get("/admin/registry/subsystem/").content.decode())
+    assert "Site cerro-alto: MC-80 (0.8 m)" in listing and "Site mesa-norte: MC-80 (0.8 m)" in listing
+
+
+def test_the_due_lists_telescope_filter_names_each_site(two_sites, users, client):
+    client.force_login(users["viewer"])
+    page = html.unescape(client.get(reverse("due-list")).content.decode())
+    assert "Site cerro-alto: MC-80 (0.8 m)</option>" in page and "Site mesa-norte: MC-80 (0.8 m)</option>" in page
+
+
+def test_pages_of_one_site_name_a_telescope_without_its_site(two_sites):
+    assert str(two_sites[0].telescopes.get(name="MC-80")) == "MC-80 (0.8 m)"
+
+
+# --- the dust-weighted rate ----------------------------------------------------------------------------------------
+
+
+def _state(metric: str, rate: float) -> TriggerState:
+    return TriggerState(metric=metric, value=900, limit=2000, rate_per_day=rate, forecast=dt.date(2027, 2, 1),
+                        unit=metrics.METRICS[metric][1])
+
+
+def test_a_dust_weighted_rate_says_dust_weighted_hours_per_day():
+    """A dust weight above 1 (a dusty month) makes a day count more than 24 dust-weighted hours: "24.8 h per day"
+    read as an error."""
+    assert ("Dust-weighted open hours: 900 of 2,000 h, about 24.8 dust-weighted h per day expected over the next "
+            "month; forecast 01 Feb 2027.") == reason_text(_state(metrics.DUST_HOURS, 24.8))
+    assert ("Open-dome hours: 900 of 2,000 h, about 6.2 h per day expected over the next month; forecast "
+            "01 Feb 2027.") == reason_text(_state(metrics.OPEN_HOURS, 6.2))
