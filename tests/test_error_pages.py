@@ -31,3 +31,11 @@ def test_a_server_failure_page_renders_without_a_request_context():
     page = server_error(RequestFactory().get("/"))
     assert page.status_code == 500
     assert b"Something went wrong" in page.content
+
+
+def test_the_address_asked_before_a_form_is_sent_answers_at_once_and_reads_nothing(client, django_assert_num_queries):
+    # forms.js asked the page's own address: a POST-only page logged a refusal at every send, and the recoat planner
+    # searched its windows again before "Plan it" went.
+    with django_assert_num_queries(0):
+        assert client.head("/alive/").status_code == 204
+    assert 'data-alive="/alive/"' in client.get("/login/").content.decode()

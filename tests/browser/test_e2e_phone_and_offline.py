@@ -288,3 +288,24 @@ def test_the_nights_import_shows_its_progress_only_for_the_send_that_goes(browse
     page.context.set_offline(False)
     page.locator("#import-button").click()
     expect(page.locator(".messages")).to_contain_text("1")
+
+
+@pytest.mark.browser
+def test_a_send_from_one_form_of_a_page_forgets_what_was_typed_in_its_other_forms(
+    browser_page, live_server, login, fans, users
+):
+    """A review: a withdraw reason half typed, then Issue pressed instead, came back on the order's page next time,
+    offered as if it had not reached the server. Once the server answers a send, every draft of that page goes."""
+    from observatory_ops.planning.services import site_today
+    from observatory_ops.workorders import services
+
+    order = services.work_order_from_due(list(fans.plans.all()), users["engineer"], site_today(fans.telescope.site))
+    page = browser_page
+    login(page, live_server, "engineer", "pw-engineer-123456")
+    page.goto(live_server.url + order.get_absolute_url())
+    page.get_by_label("Reason to withdraw").fill("drafted by mistake")
+    page.get_by_role("button", name="Issue to the technicians").click()
+    expect(page.locator(".messages")).to_contain_text("issue to the technicians: done")
+    page.goto(live_server.url + order.get_absolute_url())
+    expect(page.get_by_label("Reason to withdraw")).to_have_value("")
+    expect(page.locator(".draft-note")).to_have_count(0)

@@ -1,9 +1,9 @@
 /* observatory_ops: forms that keep what was typed when the network drops (base.html loads this, deferred).
    Progressive enhancement: without it every form is sent as the browser sends it.
 
-   1. Before a POST form is sent, the server is asked whether it answers: a HEAD request for the page itself (a
-      page of ours answers it as it answers GET, where a POST-only address would log a refusal each time), never
-      from a cache, given at most CHECK_MS. If it does not answer, nothing is sent: the page stays as it is,
+   1. Before a POST form is sent, the server is asked whether it answers: a HEAD request for its small "alive"
+      address (body data-alive: no database, no page built again; the page's own address may take POST only, or
+      run a long search), never from a cache, given at most CHECK_MS. If it does not answer, nothing is sent: the page stays as it is,
       with a note beside the button pressed. If it answers, the form is sent as pressed (requestSubmit with the
       same button, so the button's name and value go with it); the page's own submit handlers see only that
       send, once (nights_import.html shows its progress then). The sign-out form (data-drafts-forget) has nothing
@@ -28,8 +28,9 @@
     storage = null;
   }
   var PREFIX = "draft:" + owner + ":";
-  // The draft a form was sent from, until the next page of ours loads. If that page is the server's answer to the
-  // send, the draft goes: every form of ours answers a send it took with a redirect (to the record saved, or back to
+  // The page a form was sent from, until the next page of ours loads. If that page is the server's answer to the
+  // send, the drafts of every form of that page go (another form's half-typed words are stale once the page's
+  // record has changed): every form of ours answers a send it took with a redirect (to the record saved, or back to
   // its page), and one it refused with the form again, its problems listed (error-summary) and what was typed in
   // it. Any other page (after the browser's error page) keeps the draft.
   var SENT = "draft-sent";
@@ -55,7 +56,7 @@
   function serverAnswers() {
     var stop = new AbortController();
     var timer = setTimeout(function () { stop.abort(); }, CHECK_MS);
-    return fetch(location.href, {method: "HEAD", cache: "no-store", credentials: "same-origin", redirect: "manual",
+    return fetch(document.body.dataset.alive || location.href, {method: "HEAD", cache: "no-store", credentials: "same-origin", redirect: "manual",
                            signal: stop.signal})
       .then(function (reply) { return reply.status !== 502 && reply.status !== 504; },
             function () { return false; })
@@ -138,8 +139,18 @@
     });
   }
 
+  // A page's drafts share its prefix; each form is named by where it sends and, among forms sending to the same
+  // address, its place (which forms a page shows changes with the record's state: a position alone would move).
+  function pageKey() {
+    return PREFIX + location.pathname + location.search + "|";
+  }
+
   function keyOf(form) {
-    return PREFIX + location.pathname + location.search + "#" + Array.prototype.indexOf.call(document.forms, form);
+    var action = form.getAttribute("action") || "";
+    var alike = Array.prototype.filter.call(document.forms, function (other) {
+      return (other.getAttribute("action") || "") === action;
+    });
+    return pageKey() + action + "#" + alike.indexOf(form);
   }
 
   function selected(field) {
@@ -177,7 +188,7 @@
 
   function draftSent(form) {
     if (storage && drafted(form)) {
-      storage.setItem(SENT, keyOf(form));
+      storage.setItem(SENT, pageKey());
     }
   }
 
@@ -243,7 +254,11 @@
       storage.removeItem(SENT);
       var arrival = performance.getEntriesByType("navigation")[0];
       if (summary || !arrival || arrival.redirectCount > 0) {
-        storage.removeItem(sent);
+        Object.keys(storage).forEach(function (key) {
+          if (key.indexOf(sent) === 0) {
+            storage.removeItem(key);
+          }
+        });
       }
     }
     // A form that came back with problems holds what was sent, as the server read it: no draft over it.
