@@ -413,3 +413,20 @@ def test_a_count_with_no_shortfall_waiting_is_refused(filters, users):
     filters.refresh_from_db()
     assert filters.quantity_on_hand == 1
 
+
+
+def test_countersigning_work_finished_without_isolation_shows_the_answer_and_the_findings_first(
+    order, users, client  # noqa: F811
+):
+    # A review countersigned, in one click, an order of live electrical work finished as "needed no isolation".
+    _started(order, users)
+    client.force_login(users["technician"])
+    why = "Visual check of the drive from the floor; covers left on."
+    client.post(f"/workorders/{order.pk}/finish/", _post(order, isolation_answer=NOT_NEEDED, findings=why))
+    client.force_login(users["engineer"])
+    response = client.post(f"/workorders/{order.pk}/move/countersign/", {"go": "countersign"})
+    assert response.status_code == 200 and WorkOrder.objects.get(pk=order.pk).state == State.FINISHED
+    page = _text(response)
+    assert "Before you countersign" in page and ISOLATION_REVIEW[NOT_NEEDED] in page and why in page
+    response = client.post(f"/workorders/{order.pk}/move/countersign/", {"asked": "confirmed"})
+    assert response.status_code == 302 and WorkOrder.objects.get(pk=order.pk).state == State.COUNTERSIGNED

@@ -263,10 +263,16 @@ def work_order_hazards_update(request, pk):
 def work_order_move(request, pk, action):
     """Issue, start, countersign or withdraw (the buttons of the order's page). A start more than a week before the
     planned date, or beside other work underway on its telescope, is asked first (``selectors.start_questions``), on a
-    page of its own whose button posts here again with ``asked=confirmed``."""
+    page of its own whose button posts here again with ``asked=confirmed``; so is countersigning an order finished with
+    its energy isolation answered for as not needed or not done (``cautions.ISOLATION_REVIEW``): its findings are
+    read first."""
     if request.method != "POST":
         return HttpResponseNotAllowed(["POST"])
     order = _order(pk)
+    if action == "countersign" and request.POST.get("asked") != "confirmed" and order.state == State.FINISHED:
+        if record := _isolation_record(order):
+            if record["review"]:
+                return render(request, "workorders/countersign_question.html", {"order": order, "record": record})
     if action == "start" and request.POST.get("asked") != "confirmed":
         if questions := selectors.start_questions(order):
             alongside = selectors.work_alongside(order)
