@@ -64,6 +64,9 @@ def test_a_withdrawal_needs_a_reason_and_happens_once(drive, users, client):
     services.reading_withdraw(reading, users["technician"], "wrong subsystem")
     with pytest.raises(ValidationError, match="already withdrawn"):
         services.reading_withdraw(reading, users["engineer"], "again")
+    # Its withdraw page says so, and offers no form to withdraw it again.
+    page = client.get(f"/readings/{reading.pk}/withdraw/").content.decode()
+    assert "Already withdrawn" in page and "wrong subsystem" in page and "Withdraw the reading</button>" not in page
     client.force_login(users["viewer"])
     assert client.post(f"/readings/{reading.pk}/withdraw/", {"reason": "x"}).status_code in (302, 403)
 

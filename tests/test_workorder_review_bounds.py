@@ -375,6 +375,8 @@ LIFT = {"diameter_mm": "500", "thickness_mm": "50", "hole_mm": "120", "material"
                         "(90 is a vertical leg)."),
     ("wll_kg", "0", "Working load limit per leg (kg): 0 is out of bounds: enter a value above 0 and at most 100,000"),
     ("diameter_mm", "inf", "Mirror diameter (mm): enter a number."),
+    # A review had "central hole (160.0 mm) must be smaller ..." in small letters over the whole form.
+    ("diameter_mm", "120", "Central hole (mm): 120 mm must be smaller than the mirror diameter (120 mm)."),
 ])
 def test_lifting_figures_out_of_proportion_are_refused_naming_the_field(
     order, users, client, field, typed, message  # noqa: F811

@@ -446,6 +446,14 @@ class LiftForm(forms.Form):
         "Working load limit per leg (kg)", 0, 100_000, _HEAVIEST_LOAD, above_low=True, required=False
     )
 
+    def clean(self):
+        cleaned = super().clean()
+        diameter, hole = cleaned.get("diameter_mm"), cleaned.get("hole_mm")
+        if diameter is not None and hole is not None and hole >= diameter:
+            self.add_error("hole_mm", f"Central hole (mm): {hole:g} mm must be smaller than the mirror diameter "
+                                      f"({diameter:g} mm).")
+        return cleaned
+
 
 class WithdrawForm(forms.Form):
     reason = forms.CharField(max_length=200)
