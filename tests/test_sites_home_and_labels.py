@@ -103,3 +103,17 @@ def test_a_dust_weighted_rate_says_dust_weighted_hours_per_day():
             "month; forecast 01 Feb 2027.") == reason_text(_state(metrics.DUST_HOURS, 24.8))
     assert ("Open-dome hours: 900 of 2,000 h, about 6.2 h per day expected over the next month; forecast "
             "01 Feb 2027.") == reason_text(_state(metrics.OPEN_HOURS, 6.2))
+
+
+def test_the_work_order_and_isolation_point_admin_name_telescopes_with_their_site(admin_client, db):
+    # The subsystem admin did already; the work order's and the isolation point's telescope choice showed two
+    # "MC-80 (0.8 m)" with no site.
+    from observatory_ops.registry.models import Site, Telescope
+
+    for name, slug in (("Cerro Alto", "cerro-alto"), ("Lone Fen", "lone-fen")):
+        site = Site.objects.create(name=name, slug=slug, latitude_deg=30.0, longitude_deg=-100.0, elevation_m=900,
+                                   time_zone="America/Chicago")
+        Telescope.objects.create(site=site, name="MC-80", aperture_m=0.8, mount="fork")
+    for url in ("/admin/workorders/workorder/add/", "/admin/workorders/isolationpoint/add/"):
+        page = admin_client.get(url).content.decode()
+        assert "Cerro Alto: MC-80" in page and "Lone Fen: MC-80" in page, url

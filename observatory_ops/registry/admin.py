@@ -10,8 +10,8 @@ from .forms import (
     CrewDaysOffFormSet,
     SiteAdminForm,
     SubsystemAdminForm,
-    TelescopeChoiceField,
     TelescopeListFilter,
+    TelescopesNamedWithSite,
 )
 from .models import CrewDayOff, Site, Subsystem, Telescope
 from .selectors import SLUG_KEPT, slug_uses
@@ -91,7 +91,7 @@ class TelescopeAdmin(RecomputesSite, SimpleHistoryAdmin):
 
 
 @admin.register(Subsystem)
-class SubsystemAdmin(RecomputesSite, SimpleHistoryAdmin):
+class SubsystemAdmin(TelescopesNamedWithSite, RecomputesSite, SimpleHistoryAdmin):
     """A subsystem added here gets what ``registry.services.subsystem_create`` gives one: its kind's hazard
     tags and default service plans, counted from the site's today with the last service unknown (due for a baseline
     service until one is logged: ``plans_from_catalogue``). Hazards ticked when adding it are added to
@@ -105,11 +105,6 @@ class SubsystemAdmin(RecomputesSite, SimpleHistoryAdmin):
 
     def site_of(self, obj):
         return obj.telescope.site
-
-    def formfield_for_foreignkey(self, db_field, request, **kwargs):
-        if db_field.name == "telescope":
-            kwargs["form_class"] = TelescopeChoiceField
-        return super().formfield_for_foreignkey(db_field, request, **kwargs)
 
     def save_model(self, request, obj, form, change):
         own = catalogue_kind(obj.kind).hazards

@@ -21,6 +21,15 @@ class TelescopeChoiceField(forms.ModelChoiceField):
         return obj.site_label
 
 
+class TelescopesNamedWithSite:
+    """An admin whose telescope field chooses among every site's telescopes, each named with its site."""
+
+    def formfield_for_foreignkey(self, db_field, request, **kwargs):
+        if db_field.name == "telescope":
+            kwargs["form_class"] = TelescopeChoiceField
+        return super().formfield_for_foreignkey(db_field, request, **kwargs)
+
+
 class TelescopeListFilter(admin.RelatedFieldListFilter):
     """An admin list's filter by telescope, each named with its site, as ``TelescopeChoiceField`` names them."""
 

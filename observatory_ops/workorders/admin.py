@@ -6,6 +6,8 @@ from django.forms.models import BaseInlineFormSet
 from django.http import HttpResponseRedirect
 from simple_history.admin import SimpleHistoryAdmin
 
+from observatory_ops.registry.forms import TelescopesNamedWithSite
+
 from . import selectors
 from .models import ChecklistTick, IsolationPoint, Part, PartUse, RequiredReading, WorkOrder, WorkOrderItem, listed
 
@@ -60,7 +62,7 @@ RECORD_SHOWN = "findings, hours, readings and parts used"
 
 
 @admin.register(WorkOrder)
-class WorkOrderAdmin(SimpleHistoryAdmin):
+class WorkOrderAdmin(TelescopesNamedWithSite, SimpleHistoryAdmin):
     """A finished, countersigned or withdrawn order is the record (``WorkOrder.closed_edit_refusal``): its page shows
     it read only, its rows included, and says why and how it is corrected; a post to it saves nothing and says so; its
     history offers no revert (a revert posted all the same is refused by ``WorkOrder.clean``, as one that would move
@@ -142,7 +144,7 @@ def _locked_by(orders: list[WorkOrder], done: str) -> str:
 
 
 @admin.register(IsolationPoint)
-class IsolationPointAdmin(SimpleHistoryAdmin):
+class IsolationPointAdmin(TelescopesNamedWithSite, SimpleHistoryAdmin):
     form = IsolationPointForm
     list_display = ("telescope", "subsystem", "energy", "label", "location")
     list_filter = ("telescope__site", "energy")
