@@ -260,6 +260,20 @@ def due_csv_row(status: PlanStatus) -> list:
     ]
 
 
+def catalogue_revision(plan: ServicePlan):
+    """The catalogue plan (``registry.catalogue.PlanTemplate``) this plan was made from (its kind's plan of the same
+    name) when its present steps or tools differ from the plan's, else None: the catalogue's wording is revised from
+    time to time (safety wording among it), and a plan stored earlier keeps its own until an engineer takes the new
+    (``services.plan_steps_from_catalogue``), or keeps theirs on purpose."""
+    kind = KINDS.get(plan.subsystem.kind)
+    template = next((t for t in kind.plans if t.name == plan.name), None) if kind else None
+    if template is None:
+        return None
+    stored = {field: "\n".join(line.strip() for line in getattr(plan, field).splitlines() if line.strip())
+              for field in template.stored_steps}
+    return None if stored == template.stored_steps else template
+
+
 def default_limit_notes(plan: ServicePlan) -> list[str]:
     """A note for each condition trigger of the plan whose limit is still exactly the catalogue's default for its
     quantity: a figure of the trade, not this equipment's."""
@@ -417,6 +431,7 @@ def plans_with_plots(subsystem: Subsystem) -> list[ServicePlan]:
     for plan in plans:
         status = getattr(plan, "status", None)  # a plan not computed yet has none
         plan.plot, plan.caption, plan.unread, plan.default_limits = None, "", [], default_limit_notes(plan)
+        plan.catalogue_revision = catalogue_revision(plan)
         if status is None:
             continue
         plan.trigger_table = trigger_table(plan)

@@ -23,7 +23,6 @@ from observatory_ops.calc import exposure, forecast, nights, trend
 from observatory_ops.calc.triggers import STATUSES, TriggerState, due_status, governing
 from observatory_ops.logbook.models import NightUsage, Reading, ServiceRecord
 from observatory_ops.logbook.quantities import QUANTITIES, reflectance_text, significant
-from observatory_ops.registry.catalogue import RELEASE
 from observatory_ops.registry.catalogue import kind as catalogue_kind
 from observatory_ops.registry.models import Site, Subsystem, is_shared_enclosure
 
@@ -62,11 +61,7 @@ def plans_from_catalogue(subsystem: Subsystem, counting_from: dt.date | None) ->
             subsystem=subsystem,
             name=template.name,
             task=template.task,
-            steps_powered="\n".join(template.before_isolation),
-            steps="\n".join(template.after_isolation),
-            # The release step is the work order's to add (once, after all the locked-out work).
-            steps_restore="\n".join(step for step in template.restore if step != RELEASE),
-            tools="\n".join(template.tools),
+            **template.stored_steps,
             parts="\n".join(template.parts),
             readings=[{"quantity": q, "limit": limit} for q, limit in template.readings],
             hazards=list(template.hazards),
@@ -82,6 +77,24 @@ def plans_from_catalogue(subsystem: Subsystem, counting_from: dt.date | None) ->
         bulk_create_with_history(triggers, Trigger)
         created.append(plan)
     return created
+
+
+def plan_steps_from_catalogue(plan: ServicePlan, by) -> ServicePlan:
+    """Give a plan its catalogue plan's present steps and tools (``selectors.catalogue_revision``), and any hazard of
+    that plan it lacks (never removing one); the plan's history keeps what it had and who changed it. Orders already
+    made keep theirs."""
+    from .selectors import catalogue_revision
+
+    template = catalogue_revision(plan)
+    if template is None:
+        raise ValueError(f"{plan.name} already has its catalogue plan's present steps")
+    for field, value in template.stored_steps.items():
+        setattr(plan, field, value)
+    plan.hazards = [*plan.hazards, *(h for h in template.hazards if h not in plan.hazards)]
+    plan._change_reason = "steps taken from the catalogue's present wording"
+    plan._history_user = by
+    plan.save()
+    return plan
 
 
 # --- the nights cache -------------------------------------------------------------------------------

@@ -1,17 +1,18 @@
 from django.contrib import messages
-from django.http import HttpResponseBadRequest
-from django.shortcuts import render
+from django.http import HttpResponseBadRequest, HttpResponseNotAllowed
+from django.shortcuts import get_object_or_404, redirect, render
 from django.utils import timezone
 from django_tables2 import RequestConfig
 
 from observatory_ops.access.decorators import requires
-from observatory_ops.access.roles import VIEWER
+from observatory_ops.access.roles import ENGINEER, VIEWER
 from observatory_ops.exports import csv_response
 from observatory_ops.workorders.selectors import orders_for_plans, telescopes_out
 
 from . import selectors
 from .filters import DueFilter
-from .services import sites_bring_up_to_date
+from .models import ServicePlan
+from .services import plan_steps_from_catalogue, sites_bring_up_to_date
 from .tables import DueTable
 
 
@@ -76,3 +77,19 @@ def _links(request, table) -> dict:
         "previous_page": query(**{field: page.previous_page_number()}) if page.has_previous() else "",
         "next_page": query(**{field: page.next_page_number()}) if page.has_next() else "",
     }
+
+
+@requires(ENGINEER)
+def plan_catalogue_steps(request, pk):
+    """Give the plan its catalogue plan's present steps (the subsystem page's button, shown while they differ)."""
+    if request.method != "POST":
+        return HttpResponseNotAllowed(["POST"])
+    plan = get_object_or_404(ServicePlan.objects.select_related("subsystem"), pk=pk)
+    try:
+        plan_steps_from_catalogue(plan, request.user)
+    except ValueError as exc:
+        messages.info(request, f"{exc}.")
+    else:
+        messages.success(request, f"{plan.name}: its steps and tools are now the catalogue's present ones; its history "
+                                  "keeps the earlier ones. Orders already made keep theirs.")
+    return redirect(f"{plan.subsystem.get_absolute_url()}#plan-{plan.pk}")

@@ -46,6 +46,17 @@ class PlanTemplate:
         """Every step in the order of the work, as a plan made from this template lists them."""
         return self.before_isolation + self.after_isolation + self.restore
 
+    @property
+    def stored_steps(self) -> dict[str, str]:
+        """The steps and tools as a service plan stores them (``planning.ServicePlan``), one a line; the release step
+        is the work order's to add, once, after all the locked-out work."""
+        return {
+            "steps_powered": "\n".join(self.before_isolation),
+            "steps": "\n".join(self.after_isolation),
+            "steps_restore": "\n".join(step for step in self.restore if step != RELEASE),
+            "tools": "\n".join(self.tools),
+        }
+
 
 @dataclass(frozen=True)
 class Kind:
