@@ -325,9 +325,11 @@ def test_locked_out_work_on_terminals_tests_for_absence_of_voltage_first(kind, p
 # --- brakes: air-operated, or spring-applied and electrically released -------------------------------------
 
 
-def test_the_air_brake_keeps_its_code_and_its_label_says_it_is_air_operated():
+def test_the_air_brake_keeps_its_code_and_its_label_says_how_it_applies_and_releases():
+    # A safety re-check: "air-operated" did not say that the springs apply it, which the lockout step (bleed the air,
+    # leave the brakes applied) takes for granted; an air-applied brake would release with its air bled.
     air = KINDS["brake"]  # the code stored subsystems and the benchmark use
-    assert air.label == "Brake, air-operated (pneumatic)"
+    assert air.label == "Brake, spring-applied, air-released"
     assert "pneumatic" in air.hazards
 
 

@@ -44,6 +44,14 @@ SPRINGS_NAMED = (
     "dead before touching anything."
 )
 
+#: The lockout step as orders made before it said to lower raised parts before bleeding the pressure carry it.
+BLEED_FIRST = (
+    "Isolate, lock and tag every energy source listed under 'Energy isolation points'. Make stored energy safe: "
+    "bleed any stored pressure to zero and lower or block raised parts, but leave every brake that holds an axis "
+    "applied (springs are restrained only at the brake, axis pinned first). Try to start the drives to prove they "
+    "are dead, then return the controls to off, before touching anything."
+)
+
 
 def test_the_lockout_step_makes_stored_energy_safe_without_releasing_a_brake_and_leaves_the_controls_at_off():
     """OSHA 29 CFR 1910.147(d)(5): stored energy relieved, disconnected or restrained after the locks are on; (d)(6):
@@ -52,14 +60,16 @@ def test_the_lockout_step_makes_stored_energy_safe_without_releasing_a_brake_and
     says to leave every such brake applied (its springs are restrained only at the brake, the axis pinned first), and
     the try-start ends with the controls back at off. It stays one checklist line."""
     assert LOCKOUT_STEP.startswith("Isolate, lock and tag every energy source listed under 'Energy isolation points'")
-    assert "bleed any stored pressure to zero and lower or block raised parts" in LOCKOUT_STEP
+    # Lowered first: bleeding the pressure that holds a raised part up drops it (a safety re-check).
+    assert ("first lower raised parts onto their stops or block them, then bleed any stored pressure to zero"
+            in LOCKOUT_STEP)
     assert "leave every brake that holds an axis applied" in LOCKOUT_STEP and "axis pinned first" in LOCKOUT_STEP
     assert "relieve or restrain" not in LOCKOUT_STEP and "release" not in LOCKOUT_STEP
     assert LOCKOUT_STEP.endswith(
         "Try to start the drives to prove they are dead, then return the controls to off, before touching anything."
     )
     assert "\n" not in LOCKOUT_STEP and len(LOCKOUT_STEP) < 450
-    assert EARLIER_LOCKOUT_STEPS == (EARLIER, SPRINGS_NAMED)
+    assert EARLIER_LOCKOUT_STEPS == (EARLIER, SPRINGS_NAMED, BLEED_FIRST)
 
 
 def test_the_present_and_the_earlier_wording_are_the_lockout_step_and_no_other_step_is():

@@ -291,13 +291,15 @@ def test_an_order_over_two_brakes_tests_each_brake_and_restores_the_air_before_a
     steps = _made(drive, first, second, users=users).step_list
     label = "Check brake pads, air pressure and holding"
     for brake in ("Axis 1 brake", "Axis 2 brake"):
-        assert sum(f"[{brake}: {label}] With everyone outside the swept volume" in s for s in steps) == 1, brake
-        assert f"[{brake}: {label}] Restore the air slowly and check that the brake releases and holds." in steps
+        powered_test = f"[{brake}: {label}] With everyone outside the swept volume, read the brake supply pressure"
+        assert sum(powered_test in s for s in steps) == 1, brake
+        assert (f"[{brake}: {label}] With everyone outside the swept volume and the axis balanced or restrained, "
+                "restore the air slowly and check that the brake releases and holds.") in steps
     # About the whole telescope: once for all three.
     for shared in ("Take the observatory out of robotic and remote control and close the enclosure.",
                    "Park the telescope at its service position."):
         assert steps.count(shared) == 1, shared
-    air = max(i for i, s in enumerate(steps) if "Restore the air slowly" in s)
+    air = max(i for i, s in enumerate(steps) if "restore the air slowly" in s)
     back = [i for i, s in enumerate(steps) if s.endswith("Restore the subsystem to service and test it under "
                                                          "observation.")]
     assert len(back) == 3 and air < min(back) and steps.index(RELEASE) < air
@@ -382,7 +384,9 @@ def test_a_recoat_from_the_due_list_pins_the_axes_tags_the_telescope_and_carries
     removed = next(i for i, s in enumerate(steps) if s.startswith("Remove, strip and recoat"))
     rebalanced = next(i for i, s in enumerate(steps) if s.startswith("Restore the axis balance"))
     assert lockout < pinned < tagged < removed < rebalanced < steps.index(RELEASE)
-    assert "draw the axis pins only once both axes are balanced" in steps[rebalanced]
+    # A pinned or braked axis looks balanced: a safety re-check had the brakes release and the axis swing at the
+    # first moves.
+    assert "never take a pinned or braked axis as balanced" in steps[rebalanced]
     assert selectors.standing_notes(order) == (WORK_STOPPED_PART_WAY,)
     assert {"axis locking pins", "out-of-service tags"} <= set(order.tool_list)
     # The planner's removal says the same in the same words, written once in the catalogue.
@@ -407,3 +411,13 @@ def test_the_planners_removal_takes_the_cells_weight_on_the_table_before_unbolti
     unbolt = next(step for step in removal.step_list if "unbolt the cell" in step)
     assert unbolt.startswith("Raise the lifting table (or take up the hoist) until it carries the cell's weight, "
                              "then unbolt the cell and lower it")
+
+
+def test_a_coating_plant_order_never_says_its_work_needs_no_isolation():
+    # A safety re-check: the planner's strip-and-coat order said "This work needs no energy isolation" under its own
+    # caution of the plant's lethal voltages.
+    from observatory_ops.workorders.cautions import ISOLATED_BY_ITS_OWN_PROCEDURE, isolation_statement
+
+    said = isolation_statement(["vacuum_plant", "chemical"])
+    assert said == ISOLATED_BY_ITS_OWN_PROCEDURE["vacuum_plant"] and "locked out and proved dead" in said
+    assert isolation_statement(["chemical"]) == NO_ISOLATION_NEEDED

@@ -121,7 +121,9 @@ def out_of_balance_tag(until: str) -> str:
 #: phases: mirrors.services._PHASE_WORK).
 _REBALANCE = (
     "Restore the axis balance with the drives still locked out, as the site's balancing procedure and the mount "
-    "maker's instructions say; draw the axis pins only once both axes are balanced and everyone is clear."
+    "maker's instructions say, one axis at a time: never take a pinned or braked axis as balanced. Release an axis's "
+    "brake only as the procedure says, with everyone outside the swept volume and the axis restrained, and draw its "
+    "pin only once neither axis turns under gravity."
 )
 _FIRST_MOVES = (
     "Return the telescope to service: make the first moves under power slowly, with everyone outside the swept "
@@ -432,7 +434,7 @@ KINDS: dict[str, Kind] = {
             # Applied by springs and released by air: with the air vented it is applied, and its springs stay loaded
             # (OSHA 29 CFR 1910.147(d)(5): stored energy restrained), as a spring brake's do.
             "brake",  # the code stored subsystems and the benchmark use; the label says which brake it is
-            "Brake, air-operated (pneumatic)",
+            "Brake, spring-applied, air-released",
             ("pneumatic", "stored_mechanical", "moving_machinery"),
             (
                 PlanTemplate(
@@ -454,12 +456,15 @@ KINDS: dict[str, Kind] = {
                         "instructions say: first pin or block the axis, since nothing holds it while the brake is "
                         "apart; restrain the springs with the maker's spring-restraining tool before taking the brake "
                         "apart; keep the axis pinned until the brake is back together and its springs apply it.",
+                        "If the axis was pinned or blocked for the pads, take the pin or block out once the brake is "
+                        "back together and holds the axis.",
                     ),
                     # The air first, then the test, then back in service (an order over several plans puts every
                     # plan's return to service after the others' restoring: workorders.services._steps_for).
                     restore=(
                         RELEASE,
-                        "Restore the air slowly and check that the brake releases and holds.",
+                        "With everyone outside the swept volume and the axis balanced or restrained, restore the "
+                        "air slowly and check that the brake releases and holds.",
                         _BACK_IN_SERVICE,
                     ),
                     tools=(

@@ -59,6 +59,17 @@ ISOLATION_UNKNOWN_NOT_RECORDED = (
 )
 
 
+#: Hazard -> what the order says under "Energy isolation" in place of "needs no isolation": equipment locked out by
+#: its own procedure, with no isolation point of the telescope's (a coating plant's lethal supplies: a review found
+#: the strip-and-coat order telling the crew that the work needed no isolation).
+ISOLATED_BY_ITS_OWN_PROCEDURE = {
+    "vacuum_plant": (
+        "The coating plant's supplies are locked out and proved dead as the plant's own instructions and its "
+        "operator's procedure say; this order lists no isolation points for them."
+    ),
+}
+
+
 def isolation_statement(hazards: Iterable[str], missing: Iterable[str] = (), unrecorded: Iterable[str] = ()) -> str:
     """What the page and the printed order say under "Energy isolation" in place of the isolation points, for an order
     whose ``hazards`` (codes) need nothing isolated; "" when they do (the points are listed instead).
@@ -76,7 +87,8 @@ def isolation_statement(hazards: Iterable[str], missing: Iterable[str] = (), unr
         return ISOLATION_UNKNOWN_NOT_RECORDED.format(subsystems=in_words(names))
     if list(missing):
         return ISOLATION_UNKNOWN_NOT_UP_TO_DATE
-    return NO_ISOLATION_NEEDED
+    own = [ISOLATED_BY_ITS_OWN_PROCEDURE[h] for h in hazards if h in ISOLATED_BY_ITS_OWN_PROCEDURE]
+    return " ".join(own) or NO_ISOLATION_NEEDED
 
 
 def in_words(names: list[str]) -> str:
@@ -97,10 +109,10 @@ def needs_isolation(hazards: Iterable[str]) -> bool:
 #: only at the brake with the axis pinned (the stored-mechanical caution), and the try-start ends with the controls
 #: back at off, so nothing starts when the isolation is removed (OSHA 29 CFR 1910.147(d)(6), verification).
 LOCKOUT_STEP = (
-    "Isolate, lock and tag every energy source listed under 'Energy isolation points'. Make stored energy safe: "
-    "bleed any stored pressure to zero and lower or block raised parts, but leave every brake that holds an axis "
-    "applied (springs are restrained only at the brake, axis pinned first). Try to start the drives to prove they "
-    "are dead, then return the controls to off, before touching anything."
+    "Isolate, lock and tag every energy source listed under 'Energy isolation points'. Make stored energy safe: first "
+    "lower raised parts onto their stops or block them, then bleed any stored pressure to zero; leave every brake "
+    "that holds an axis applied (restrain its springs only at the brake, axis pinned first). Try to start the drives "
+    "to prove they are dead, then return the controls to off, before touching anything."
 )
 #: The lockout step as orders stored before its present wording carry it in their steps. Such an order is still found
 #: by it (``is_lockout_step``): it starts, its lockout is ticked in sequence and answered for at finish, and its paper
@@ -111,6 +123,10 @@ EARLIER_LOCKOUT_STEPS = (
     "Isolate, lock and tag every energy source listed under 'Energy isolation points'; relieve or restrain stored "
     "energy (pressure, loaded springs, raised or out-of-balance parts); try to start the drives to prove they are "
     "dead before touching anything.",
+    "Isolate, lock and tag every energy source listed under 'Energy isolation points'. Make stored energy safe: "
+    "bleed any stored pressure to zero and lower or block raised parts, but leave every brake that holds an axis "
+    "applied (springs are restrained only at the brake, axis pinned first). Try to start the drives to prove they "
+    "are dead, then return the controls to off, before touching anything.",
 )
 _LOCKOUT_WORDINGS = frozenset((LOCKOUT_STEP, *EARLIER_LOCKOUT_STEPS))
 
