@@ -249,12 +249,13 @@ def hazards_unrecorded(order: WorkOrder) -> list[Subsystem]:
     return list(found.values())
 
 
-def hazards_notice(order: WorkOrder, missing: Sequence[str], paper: bool = False) -> tuple[str, ...]:
+def hazards_notice(order: WorkOrder, missing: Sequence[str], paper: bool = False,
+                   unrecorded: Sequence[Subsystem] | None = None) -> tuple[str, ...]:
     """The notice on an order that lacks the ``missing`` hazards, or covers subsystems whose hazards nobody has
     recorded (``hazards_unrecorded``): its title, what the order lacks, and what to do (on the page: an engineer
     records them or brings it up to date before the work starts, or, once started, the technician stops and asks;
     on paper: ask the engineer). () when there is neither."""
-    unrecorded = hazards_unrecorded(order)
+    unrecorded = hazards_unrecorded(order) if unrecorded is None else unrecorded
     if not missing and not unrecorded:
         return ()
     from .services import lockout_missing  # services reads this module
@@ -282,13 +283,15 @@ def hazards_notice(order: WorkOrder, missing: Sequence[str], paper: bool = False
     return title, *lines, todo
 
 
-def order_isolation_statement(order: WorkOrder, missing: Sequence[str] | None = None) -> str:
+def order_isolation_statement(order: WorkOrder, missing: Sequence[str] | None = None,
+                              unrecorded: Sequence[Subsystem] | None = None) -> str:
     """What the order's page and paper say under "Energy isolation" when its hazards need nothing isolated, and ""
     when they do (its isolation points are listed instead): ``cautions.isolation_statement`` with what the order
     lacks (``missing``, ``hazards_missing(order)`` read when not given) and the subsystems whose hazards nobody has
     recorded (``hazards_unrecorded``). Never that the work needs no isolation while either stands."""
     missing = hazards_missing(order) if missing is None else missing
-    return isolation_statement(order.hazards, missing, [str(s) for s in hazards_unrecorded(order)])
+    unrecorded = hazards_unrecorded(order) if unrecorded is None else unrecorded
+    return isolation_statement(order.hazards, missing, [str(s) for s in unrecorded])
 
 
 def register_part(name: str, register: Sequence[Part]) -> Part | None:
@@ -971,9 +974,12 @@ def work_alongside(order: WorkOrder) -> list[Alongside]:
     every telescope of the site: its dome moves over all of them."""
     if order.state not in (State.DRAFT, State.ISSUED, State.UNDERWAY):
         return []
+    others = list(WorkOrder.objects.filter(state=State.UNDERWAY, site_id=order.site_id).exclude(pk=order.pk)
+                  .select_related("assignee", "telescope").prefetch_related("items__subsystem__telescope")
+                  .order_by("pk"))
+    if not others:  # the usual case: one query, and the order's own items are not read
+        return []
     mine = _telescopes(order, list(order.items.select_related("subsystem")))
-    others = (WorkOrder.objects.filter(state=State.UNDERWAY, site_id=order.site_id).exclude(pk=order.pk)
-              .select_related("assignee", "telescope").prefetch_related("items__subsystem__telescope").order_by("pk"))
     alongside = []
     for other in others:
         theirs = {i.subsystem.telescope for i in other.items.all()} | ({other.telescope} if other.telescope else set())
@@ -1055,6 +1061,7 @@ def sheet(order: WorkOrder, url: str) -> sheet_.Sheet:
     gaps = isolation_gaps(order)
     lines = checklist(order, points)
     missing = hazards_missing(order)
+    unrecorded = hazards_unrecorded(order)
 
     def ticks(checked: list[ChecklistLine]) -> tuple[sheet_.SheetTick, ...]:  # as the page shows the finished work
         if not finished:
@@ -1088,11 +1095,11 @@ def sheet(order: WorkOrder, url: str) -> sheet_.Sheet:
             for c in cautions(order, points)
         ),
         precedence_statement=PRECEDENCE_STATEMENT,
-        hazards_notice=hazards_notice(order, missing, paper=True),
+        hazards_notice=hazards_notice(order, missing, paper=True, unrecorded=unrecorded),
         out_of_service=tuple(telescope_out_notices(order)),
         alongside=alongside_notice(order),
         isolation_needed=needs_isolation(order.hazards),
-        isolation_statement=order_isolation_statement(order, missing),
+        isolation_statement=order_isolation_statement(order, missing, unrecorded),
         isolation_points=tuple(f"WARNING: {gap}" for gap in gaps) + tuple(line.text for line in lines.points),
         point_ticks=(None,) * len(gaps) + ticks(lines.points) if finished else (),
         steps=tuple(line.text for line in lines.steps),
