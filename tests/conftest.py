@@ -138,3 +138,13 @@ def constant_sky(site, first: dt.date, last: dt.date) -> None:
                  moonless_dark_hours=5.0)
         for i in range((last - first).days + 1)
     )
+
+
+@pytest.fixture
+def engineer_in_admin(users, client):
+    """The test client signed in as the engineer with staff status, as an engineer who edits the register in the admin
+    is (README, Users)."""
+    users["engineer"].is_staff = True
+    users["engineer"].save()
+    client.force_login(users["engineer"])
+    return client

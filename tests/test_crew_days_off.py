@@ -198,14 +198,6 @@ def test_bad_days_off_and_a_horizon_they_fill_are_refused_saying_why(call, messa
 # --- the site's list of days off ---------------------------------------------------------------------------------
 
 
-@pytest.fixture
-def engineer_in_admin(users, client):
-    users["engineer"].is_staff = True
-    users["engineer"].save()
-    client.force_login(users["engineer"])
-    return client
-
-
 def _admin_post(client, site, rows: list[dict], stored: int = 0, **changes):
     """The site's admin change form as a browser posts it, with ``rows`` in the crew days off inline (the first
     ``stored`` of them rows already stored)."""

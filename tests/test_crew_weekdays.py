@@ -256,14 +256,6 @@ def _admin_post(client, site, **changes):
     return client.post(f"/admin/registry/site/{site.pk}/change/", {k: v for k, v in data.items() if v is not None})
 
 
-@pytest.fixture
-def engineer_in_admin(users, client):
-    users["engineer"].is_staff = True
-    users["engineer"].save()
-    client.force_login(users["engineer"])
-    return client
-
-
 def test_the_admin_edits_the_crew_days_as_tick_boxes(engineer_in_admin, site) -> None:
     page = engineer_in_admin.get(f"/admin/registry/site/{site.pk}/change/").content.decode()
     for number, name in enumerate(WEEKDAY_NAMES, start=1):

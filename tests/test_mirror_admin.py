@@ -39,14 +39,6 @@ def mirror(primary) -> Mirror:
     return Mirror.objects.create(subsystem=primary, diameter_mm=500, thickness_mm=50, material="borosilicate")
 
 
-@pytest.fixture
-def engineer_in_admin(users, client):
-    users["engineer"].is_staff = True
-    users["engineer"].save()
-    client.force_login(users["engineer"])
-    return client
-
-
 def _today(mirror) -> dt.date:
     return site_today(mirror.subsystem.telescope.site)
 

@@ -169,14 +169,6 @@ def test_a_subsystem_of_kind_other_carries_a_hazard_or_an_engineers_no_hazards_f
     ]
 
 
-@pytest.fixture
-def engineer_in_admin(users, client):
-    users["engineer"].is_staff = True
-    users["engineer"].save()
-    client.force_login(users["engineer"])
-    return client
-
-
 def test_the_admin_refuses_an_other_subsystem_with_no_hazards_and_keeps_the_engineers_none(
     engineer_in_admin, telescope
 ):
