@@ -120,3 +120,23 @@ def test_an_ad_hoc_orders_page_says_it_was_raised_by_hand_as_its_pdf_does(telesc
     order = services.work_order_ad_hoc(site, [box], "Sort the eyepieces", users["engineer"], steps="Sort them.")
     client.force_login(users["viewer"])
     assert "Raised by hand, not from a due item" in client.get(order.get_absolute_url()).content.decode()
+
+
+def test_the_page_and_the_paper_read_the_orders_items_once(site, telescope, users, client):
+    """Hazards, isolation, its gaps and the work alongside all need the order's items: the page and the paper read
+    them once and hand them on (``selectors.order_items``), so printing stays a fixed, small number of queries."""
+    from django.db import connection
+    from django.test.utils import CaptureQueriesContext
+
+    IsolationPoint.objects.create(telescope=telescope, energy="ac", label="Mount isolator")
+    brake = subsystem_create(telescope, "brake", "Axis 1 brake", counting_from=START)
+    order = services.work_order_from_due(list(brake.plans.all()), users["engineer"])
+    client.force_login(users["viewer"])
+
+    def item_reads(address: str) -> int:
+        with CaptureQueriesContext(connection) as captured:
+            assert client.get(address).status_code == 200
+        return sum(q["sql"].startswith('SELECT "workorders_workorderitem"."id"') for q in captured.captured_queries)
+
+    assert item_reads(order.get_absolute_url()) == 1
+    assert item_reads(f"/workorders/{order.pk}/pdf/") == 1

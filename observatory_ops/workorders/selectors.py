@@ -219,7 +219,7 @@ def hazards_of(subsystems: Sequence[Subsystem], plans: Sequence[ServicePlan]) ->
     return [h for h in HAZARDS if h in found]
 
 
-def hazards_missing(order: WorkOrder) -> list[str]:
+def hazards_missing(order: WorkOrder, items: list[WorkOrderItem] | None = None) -> list[str]:
     """The hazards the order's subsystems, and the service plans it covers, carry now that the order does not
     (codes, in the library's order), for an order still to do; [] once it is finished or withdrawn.
 
@@ -232,19 +232,19 @@ def hazards_missing(order: WorkOrder) -> list[str]:
     """
     if order.state not in TO_DO or not order.at_telescope:
         return []
-    items = list(order.items.select_related("subsystem", "plan"))
+    items = order_items(order) if items is None else items
     recoat = order.recoat_plans.exists()  # recoat_plans: mirrors.RecoatPlan.work_orders
     now = hazards_of([i.subsystem for i in items], [] if recoat else [i.plan for i in items if i.plan_id])
     return [h for h in now if h not in order.hazards]
 
 
-def hazards_unrecorded(order: WorkOrder) -> list[Subsystem]:
+def hazards_unrecorded(order: WorkOrder, items: list[WorkOrderItem] | None = None) -> list[Subsystem]:
     """For an order still to do: its subsystems whose hazards nobody has recorded, neither a hazard nor an engineer's
     record that there are none (``Subsystem.hazards_recorded``), in the order of its items; [] otherwise. Until an
     engineer records them, the order cannot know its cautions or whether its energy must be isolated."""
     if order.state not in TO_DO:
         return []
-    items = order.items.select_related("subsystem__telescope").order_by("pk")
+    items = order_items(order) if items is None else items
     found = {i.subsystem_id: i.subsystem for i in items if not i.subsystem.hazards_recorded}
     return list(found.values())
 
@@ -355,6 +355,12 @@ def lockout_step_warning(order: WorkOrder) -> str:
 _SEPARATE_SUPPLY = tuple(code for code, kind in catalogue.KINDS.items() if kind.separate_supply)
 
 
+def order_items(order: WorkOrder) -> list[WorkOrderItem]:
+    """The order's items with their subsystems, telescopes and plans. The selectors below that read them take them
+    as ``items`` when the caller has them already: the order's page and its paper read them once for all."""
+    return list(order.items.select_related("subsystem__telescope", "plan"))
+
+
 def _telescopes(order: WorkOrder, items: list[WorkOrderItem]) -> set[int]:
     telescopes = {i.subsystem.telescope_id for i in items}
     if order.telescope_id:
@@ -362,7 +368,7 @@ def _telescopes(order: WorkOrder, items: list[WorkOrderItem]) -> set[int]:
     return telescopes
 
 
-def isolation_points(order: WorkOrder) -> list[IsolationPoint]:
+def isolation_points(order: WorkOrder, items: list[WorkOrderItem] | None = None) -> list[IsolationPoint]:
     """The points the order's lockout step locks: each of its telescopes' points for all work there, and
     the points registered for one of its subsystems (a dome's own drives). Work with a moving telescope or
     dome among its hazards also locks the points of every subsystem in service on those telescopes that has
@@ -371,7 +377,7 @@ def isolation_points(order: WorkOrder) -> list[IsolationPoint]:
     telescope of the site. None when its hazards need no energy isolated (the order has no lockout step)."""
     if not needs_isolation(order.hazards):
         return []
-    items = list(order.items.select_related("subsystem"))
+    items = order_items(order) if items is None else items
     wanted = Q(subsystem__isnull=True) | Q(subsystem_id__in={i.subsystem_id for i in items})
     enclosure = Q(subsystem__kind__in=_SEPARATE_SUPPLY, subsystem__retired_on__isnull=True)
     if "moving_machinery" in order.hazards:
@@ -419,7 +425,8 @@ def _hazards_by_telescope(order: WorkOrder, items: list[WorkOrderItem]) -> dict[
     return {pk: (found & set(order.hazards)) | unplaced for pk, found in own.items()}
 
 
-def isolation_gaps(order: WorkOrder) -> list[str]:
+def isolation_gaps(order: WorkOrder, points: list[IsolationPoint] | None = None,
+                   items: list[WorkOrderItem] | None = None) -> list[str]:
     """A warning for each telescope of the order with a hazard but no isolation point for its energy (one for the
     whole telescope; for hydraulic pressure, also one registered for a subsystem the order works on there, a lift's
     pump and valve), and
@@ -430,11 +437,12 @@ def isolation_gaps(order: WorkOrder) -> list[str]:
     service on that telescope with a supply of its own (as ``isolation_points`` lists them).
 
     Each telescope is judged by the hazards of the work there (``_hazards_by_telescope``): an order over two
-    telescopes whose brake work on one involves compressed air asks for no air point on the other."""
+    telescopes whose brake work on one involves compressed air asks for no air point on the other. ``points`` and
+    ``items``: ``isolation_points(order)`` and ``order_items(order)`` when the caller has them."""
     if not needs_isolation(order.hazards):
         return []
-    points = isolation_points(order)
-    items = list(order.items.select_related("subsystem__telescope", "plan"))
+    items = order_items(order) if items is None else items
+    points = isolation_points(order, items) if points is None else points
     hazards = _hazards_by_telescope(order, items)
     worked = {i.subsystem_id for i in items}
     gaps = []
@@ -913,13 +921,13 @@ def lift_refusal(order: WorkOrder, action: str = "issue") -> str:
 #: Why an order is not issued without a planned date.
 NO_PLANNED_DATE = "set the planned date (Edit) before issuing: the calendar export and the weekly batch go by it"
 
-def moves_held(order: WorkOrder) -> dict[str, list[str]]:
+def moves_held(order: WorkOrder, unrecorded: Sequence[Subsystem] | None = None) -> dict[str, list[str]]:
     """The moves (``lifecycle`` actions) the order may not take as it stands, whoever asks, each with the reasons:
     issuing without a planned date (the calendar export and the weekly batch go by it), issuing or starting
     while its lift stands in the way (``lift_refusal``: the start also while no working load limit is entered), and
     starting a recoat phase before the phase before it is finished (``recoat_order_refusal``).
     ``services.work_order_move`` refuses them with these words, and the order's page leaves their buttons out and
-    says why."""
+    says why. ``unrecorded``: ``hazards_unrecorded(order)``, read when not given."""
     held: dict[str, list[str]] = {}
     if order.state == State.DRAFT and order.planned_date is None:
         held.setdefault("issue", []).append(NO_PLANNED_DATE)
@@ -927,7 +935,8 @@ def moves_held(order: WorkOrder) -> dict[str, list[str]]:
         for action in ("issue", "start"):
             if why := lift_refusal(order, action):
                 held.setdefault(action, []).append(why)
-        if unrecorded := hazards_unrecorded(order):
+        unrecorded = hazards_unrecorded(order) if unrecorded is None else unrecorded
+        if unrecorded:
             why = HAZARDS_UNRECORDED_HELD.format(subsystems=in_words([str(s) for s in unrecorded]))
             for action in ("issue", "start"):
                 held.setdefault(action, []).append(why)
@@ -968,7 +977,7 @@ class Alongside(NamedTuple):
                 f"{lockout[self.lockout_ticked]})")
 
 
-def work_alongside(order: WorkOrder) -> list[Alongside]:
+def work_alongside(order: WorkOrder, items: list[WorkOrderItem] | None = None) -> list[Alongside]:
     """The other orders underway on any telescope this one works on, oldest first (for an order drafted, issued or
     underway; none once it is finished or withdrawn). Work at a site whose telescopes share one enclosure counts
     every telescope of the site: its dome moves over all of them."""
@@ -979,7 +988,7 @@ def work_alongside(order: WorkOrder) -> list[Alongside]:
                   .order_by("pk"))
     if not others:  # the usual case: one query, and the order's own items are not read
         return []
-    mine = _telescopes(order, list(order.items.select_related("subsystem")))
+    mine = _telescopes(order, order_items(order) if items is None else items)
     alongside = []
     for other in others:
         theirs = {i.subsystem.telescope for i in other.items.all()} | ({other.telescope} if other.telescope else set())
@@ -995,10 +1004,10 @@ def work_alongside(order: WorkOrder) -> list[Alongside]:
     return alongside
 
 
-def alongside_notice(order: WorkOrder) -> tuple[str, ...]:
+def alongside_notice(order: WorkOrder, items: list[WorkOrderItem] | None = None) -> tuple[str, ...]:
     """The printed order's notice of other work underway on its telescopes when it was printed (``work_alongside``):
     title, one line an order, what to agree. () when there is none."""
-    alongside = work_alongside(order)
+    alongside = work_alongside(order, items)
     if not alongside:
         return ()
     return (ALONGSIDE_TITLE_ON_PAPER.format(telescopes=shared_telescopes(alongside)),
@@ -1050,18 +1059,18 @@ def lift_rows(figures: lifting.LiftFigures) -> list[tuple[str, str]]:
 
 def sheet(order: WorkOrder, url: str) -> sheet_.Sheet:
     """Everything the printed work order shows, in plain values for ``pdf.render_sheet``."""
-    items = list(order.items.select_related("subsystem__telescope", "plan"))
+    items = order_items(order)  # read once, for every selector below that needs them
     figures = lift(order)
     zone = order.site.zone
-    points = isolation_points(order)
+    points = isolation_points(order, items)
     readings = list(order.required_readings.select_related("subsystem__telescope", "reading"))
     telescopes = sorted({i.subsystem.telescope.name for i in items})
     subsystems = {i.subsystem_id: i.subsystem for i in items}.values()  # once each, in the order of the items
     finished = order.state in (State.FINISHED, State.COUNTERSIGNED)
-    gaps = isolation_gaps(order)
+    gaps = isolation_gaps(order, points, items)
     lines = checklist(order, points)
-    missing = hazards_missing(order)
-    unrecorded = hazards_unrecorded(order)
+    missing = hazards_missing(order, items)
+    unrecorded = hazards_unrecorded(order, items)
 
     def ticks(checked: list[ChecklistLine]) -> tuple[sheet_.SheetTick, ...]:  # as the page shows the finished work
         if not finished:
@@ -1097,7 +1106,7 @@ def sheet(order: WorkOrder, url: str) -> sheet_.Sheet:
         precedence_statement=PRECEDENCE_STATEMENT,
         hazards_notice=hazards_notice(order, missing, paper=True, unrecorded=unrecorded),
         out_of_service=tuple(telescope_out_notices(order)),
-        alongside=alongside_notice(order),
+        alongside=alongside_notice(order, items),
         isolation_needed=needs_isolation(order.hazards),
         isolation_statement=order_isolation_statement(order, missing, unrecorded),
         isolation_points=tuple(f"WARNING: {gap}" for gap in gaps) + tuple(line.text for line in lines.points),

@@ -123,14 +123,17 @@ def work_order_detail(request, pk):
         lift_error = str(exc)
     readings = list(order.required_readings.select_related("subsystem", "reading"))
     editable = order.state in (State.DRAFT, State.ISSUED) and has_role(request.user, ENGINEER)
-    missing = selectors.hazards_missing(order)
+    items = selectors.order_items(order)  # read once, for every selector below that needs them
+    missing = selectors.hazards_missing(order, items)
+    unrecorded = selectors.hazards_unrecorded(order, items)
+    points = selectors.isolation_points(order, items)
     phase = selectors.recoat_phase(order) if order.state in (State.FINISHED, State.COUNTERSIGNED) else None
     # Who finished the work, or was on its crew, may not countersign it (services.work_order_move): no button they
     # can't use.
     own_work = (order.finished_by_id is not None and order.finished_by_id == request.user.pk
                 or selectors.on_the_crew(order, request.user))
     # Moves refused as the order stands (no planned date, a lift that stands in the way): no buttons, and why.
-    held = selectors.moves_held(order)
+    held = selectors.moves_held(order, unrecorded)
     held_notes: dict[str, list[str]] = {}
     for t in available(order.state):
         if has_role(request.user, t.role):
@@ -142,9 +145,9 @@ def work_order_detail(request, pk):
         {
             "order": order,
             "site": order.site,
-            "hazards_notice": selectors.hazards_notice(order, missing),
+            "hazards_notice": selectors.hazards_notice(order, missing, unrecorded=unrecorded),
             "out_notices": selectors.telescope_out_notices(order),
-            "alongside": _alongside(order),
+            "alongside": _alongside(order, items),
             "hazards_confirmed": [HAZARDS[h] for h in order.hazards_confirmed_at_finish],
             "isolation_record": _isolation_record(order),
             "cleanings": selectors.cleanings_at_finish(order),
@@ -153,15 +156,15 @@ def work_order_detail(request, pk):
             "standing_notes": selectors.standing_notes(order),
             "parts_unregistered": selectors.parts_unregistered(order),
             "parts_unregistered_text": PARTS_UNREGISTERED,
-            "items": order.items.select_related("subsystem", "plan"),
-            "has_reasons": order.items.exclude(why="").exists(),  # as the printed order says (pdf._why)
-            "cautions": selectors.cautions(order),
+            "items": items,
+            "has_reasons": any(i.why for i in items),  # as the printed order says (pdf._why)
+            "cautions": selectors.cautions(order, points),
             "precedence": selectors.PRECEDENCE_STATEMENT,
-            "checklist": selectors.checklist(order),
+            "checklist": selectors.checklist(order, points),
             "refused": _tick_refused(request, order),
             "can_tick": order.state == State.UNDERWAY and has_role(request.user, TECHNICIAN),
-            "isolation_gaps": selectors.isolation_gaps(order),
-            "no_isolation_needed": selectors.order_isolation_statement(order, missing),
+            "isolation_gaps": selectors.isolation_gaps(order, points, items),
+            "no_isolation_needed": selectors.order_isolation_statement(order, missing, unrecorded),
             "readings": readings,
             "beyond_limit": [r for r in readings if r.recorded_beyond_limit],
             "part_uses": order.part_uses.select_related("part"),
@@ -192,9 +195,9 @@ def work_order_detail(request, pk):
     )
 
 
-def _alongside(order: WorkOrder) -> dict | None:
+def _alongside(order: WorkOrder, items: list) -> dict | None:
     """Other work underway on this order's telescopes, as its page warns of it (``selectors.work_alongside``)."""
-    alongside = selectors.work_alongside(order)
+    alongside = selectors.work_alongside(order, items)
     if not alongside:
         return None
     return {"title": ALONGSIDE_TITLE.format(telescopes=selectors.shared_telescopes(alongside)),
