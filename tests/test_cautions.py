@@ -140,3 +140,33 @@ def test_a_loaded_spring_is_part_of_energy_control_and_the_no_isolation_note_nam
     assert "stored_mechanical" in ISOLATION_HAZARDS
     assert needs_isolation(["stored_mechanical"])
     assert "a loaded spring" in NO_ISOLATION_NEEDED
+
+
+# --- what stays live or pressurised after the isolator is off ------------------------------------------------
+
+
+def test_the_electrical_caution_names_back_feed_and_tests_at_the_point_of_work():
+    # OSHA 29 CFR 1910.333(b)(2)(iv): a circuit is verified de-energised before it is worked on as such, the test
+    # finding any voltage back-fed from elsewhere. The sources named are common practice, no published source.
+    caution = CAUTIONS["electrical"]
+    text = caution.text
+    assert "A UPS, a generator, a battery bank or a second supply can keep a circuit live after its isolator is off" \
+        in text
+    assert "back-feed" in text and "isolate and lock each source that can feed the work" in text
+    assert "test for absence of voltage at the point of work, not at the isolator" in text
+    assert "proved on a known live source just before and just after the test" in text  # as before
+    assert "1910.333(b)(2)(iv)" in caution.standard
+    assert caution.severity == DANGER_TO_LIFE
+
+
+def test_the_hydraulic_caution_says_a_zero_at_the_pump_proves_nothing_about_the_part_worked_on():
+    # ISO 4413 asks for the system to be isolated and its stored pressure released; that check valves, an
+    # accumulator or a load held by a cylinder keep part of the circuit pressurised while the pump's gauge reads zero
+    # is common practice, no published source.
+    caution = CAUTIONS["hydraulic"]
+    text = caution.text
+    assert "Zero on the gauge at the pump does not prove the circuit dead" in text
+    assert "check valves, an accumulator or a load held up by a cylinder keep pressure trapped in their part" in text
+    assert "bleed the part you work on and confirm zero on a gauge or test point on that part" in text
+    assert "ISO 4413" in caution.standard
+

@@ -124,7 +124,7 @@ def test_hydraulic_pressure_and_a_raised_load_are_stored_energy_with_a_caution_o
     assert "hydraulic" in ISOLATION_HAZARDS
     text = caution.text
     for said in ("lower it onto its mechanical stops or block it with rated props", "never rely on the hydraulics",
-                 "lock out the pump", "confirm zero on the gauge", "accumulator keeps its pressure",
+                 "lock out the pump", "confirm zero on a gauge or test point on that part", "an accumulator",
                  "Never loosen a fitting under pressure", "needs a hospital at once"):
         assert said in text, said
     assert "ISO 4413" in caution.standard and "1910.147" in caution.standard

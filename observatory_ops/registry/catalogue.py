@@ -17,9 +17,12 @@ Trigger metrics are listed in ``observatory_ops.planning.metrics``.
 """
 from __future__ import annotations
 
+from collections.abc import Iterable
 from dataclasses import dataclass, field
+from itertools import combinations
 
 from observatory_ops.calc.trend import SERVO_LOOP_HZ, SETTLE_TIME_LIMIT_S
+from observatory_ops.workorders.cautions import in_words
 
 COMMON_PRACTICE = "common practice, no published source"
 FROM_MEMORY = "from memory"
@@ -76,6 +79,10 @@ class Kind:
     #: its plans ask for or watch: the reading form offers them first (``logbook.quantities.usual_for_kind``).
     #: Empty where nothing is usually measured (the work is looking and testing), and the form says so.
     quantities: tuple[str, ...] = ()
+    #: What can move once the locks of work on it come off, which the release step names (a key of ``CLEAR_OF``): the
+    #: telescope, the enclosure's dome, shutter or roof, or a hoist's load. "" where the kind cannot say (Other): the
+    #: subsystem's hazards then say it (``moving_parts``).
+    moves: str = "telescope"
 
 
 # Steps shared by several plans. Parking, closing the enclosure and live tests come before isolation; the
@@ -87,12 +94,46 @@ _PARK = "Park the telescope at its service position."
 _OUT_OF_SERVICE_PARKED = "Take the observatory out of robotic and remote control and park the telescope."
 _PREPARE = (_READ_RECORDS, _OUT_OF_SERVICE, _PARK)
 _INSPECT = "Inspect for wear, looseness, contamination and damage; photograph anything unusual."
+#: What the release step asks everyone to be clear of, by what can move once the locks come off (``Kind.moves``), in
+#: the order an order names them. Removing the locks lets the drives be powered, and a dome turns, a shutter or roll-off
+#: roof runs and a hoist's hook or load comes down on whoever is in their path, not only in the telescope's swept
+#: volume (common practice, no published source; OSHA 29 CFR 1910.147(e)(2) asks that employees be safely positioned
+#: or removed before the locks come off).
+CLEAR_OF = {
+    "telescope": "clear of the telescope",
+    "enclosure": "clear of the path of the dome and its shutter (or of the roll-off roof)",
+    "load": "clear of the load's path and the area under it",
+}
+
+
+def release_step(moving: Iterable[str]) -> str:
+    """The step that removes the locks, naming each thing that can then move (keys of ``CLEAR_OF``) once, in
+    ``CLEAR_OF``'s order whatever the order of ``moving``: an order over a drive, a dome and a hoist names all three."""
+    named = set(moving)
+    clear = [words for key, words in CLEAR_OF.items() if key in named]
+    return (
+        f"When the work is done and everyone is {in_words(clear)}, remove the locks and tags as the site's lockout "
+        "procedure says."
+    )
+
+
 #: The first restoring step of every plan: the one step that removes the locks. An order over several plans
-#: writes it once (workorders.services), after all their locked-out work.
-RELEASE = (
-    "When the work is done and everyone is clear of the telescope, remove the locks and tags as the site's "
-    "lockout procedure says."
+#: writes it once (workorders.services), after all their locked-out work, in the words of what its subsystems can set
+#: moving (``release_step_for``); the plans keep this one as the place it goes.
+RELEASE = release_step(["telescope"])
+#: Every wording of the release step an order can carry (``is_release_step``).
+RELEASE_STEPS: frozenset[str] = frozenset(
+    release_step(keys) for count in range(1, len(CLEAR_OF) + 1) for keys in combinations(CLEAR_OF, count)
 )
+
+
+def is_release_step(text: str) -> bool:
+    """True when ``text``, one step (spaces around it ignored), is the step that removes the locks, in any of its
+    wordings (``RELEASE_STEPS``). Every check for the release step goes through here, never a comparison with
+    ``RELEASE``, so an order over a dome or a hoist is read like one over the telescope."""
+    return text.strip() in RELEASE_STEPS
+
+
 _BACK_IN_SERVICE = "Restore the subsystem to service and test it under observation."
 _RESTORE = (RELEASE, _BACK_IN_SERVICE)
 _COVER_CLOSED_IN_SERVICE = "Close the mirror cover and return the telescope to service."
@@ -129,6 +170,28 @@ _FIRST_MOVES = (
     "Return the telescope to service: make the first moves under power slowly, with everyone outside the swept "
     "volume."
 )
+
+#: The air brake plan's restoring step: its air back with everyone clear before the axis goes back in service.
+_BRAKE_AIR_RESTORED = (
+    "With everyone outside the swept volume and the axis balanced or restrained, restore the air slowly and check that "
+    "the brake releases and holds."
+)
+#: The code of the spring-applied, air-released brake (``KINDS["brake"]``).
+AIR_BRAKE = "brake"
+#: Said once by an order whose lockout vents the air of an air-released brake (an air isolation point it locks, on a
+#: telescope with such a brake in service) but whose restoring does not bring it back (no air brake plan among its
+#: plans): after the release, before anything goes back in service (workorders.services.steps_in_groups). The air
+#: coming back releases the brakes, and an out-of-balance axis can swing (the pneumatic caution; ISO 4414 for the
+#: air's control, the rest common practice, no published source).
+BRAKE_AIR_BACK = (
+    "With everyone told and outside the swept volume, and each axis balanced or restrained, restore the brake air the "
+    "lockout vented, slowly (an air-released brake lets its axis go as the air returns), and check that each brake "
+    "releases and holds."
+)
+#: The steps that bring an air brake's air back with everyone clear: an order holding one needs no ``BRAKE_AIR_BACK``.
+#: An earlier wording of the brake plan's ("Restore the air slowly and check that the brake releases and holds.")
+#: said nothing of anyone's being clear, so an order from a plan stored with it gets ``BRAKE_AIR_BACK`` too.
+RESTORES_BRAKE_AIR: frozenset[str] = frozenset({_BRAKE_AIR_RESTORED, BRAKE_AIR_BACK})
 
 _GAS_MONITOR = "portable O2/CO2 gas monitor"  # the cryogen caution asks for one in a closed dome
 #: The limit of a reading that only the equipment's maker can give.
@@ -461,12 +524,7 @@ KINDS: dict[str, Kind] = {
                     ),
                     # The air first, then the test, then back in service (an order over several plans puts every
                     # plan's return to service after the others' restoring: workorders.services._steps_for).
-                    restore=(
-                        RELEASE,
-                        "With everyone outside the swept volume and the axis balanced or restrained, restore the "
-                        "air slowly and check that the brake releases and holds.",
-                        _BACK_IN_SERVICE,
-                    ),
+                    restore=(RELEASE, _BRAKE_AIR_RESTORED, _BACK_IN_SERVICE),
                     tools=(
                         "pressure gauge with quick coupling", _FEELER_GAUGES, "stopwatch",
                         "the brake maker's spring-restraining tool", "axis locking pin or block",
@@ -831,8 +889,53 @@ KINDS: dict[str, Kind] = {
             # The rotation and shutter drives' current, and the shutter's (or roof's) time to open or close: both grow
             # as wheels, chains and seals drag.
             quantities=("motor_current_a", "open_close_time_s"),
+            moves="enclosure",
         ),
-        Kind("other", "Other", ()),
+        Kind(
+            # An electric hoist or crane in the dome, for the mirror and instruments: its own supply, its hook over
+            # people working below. Worked on from a platform above the telescope, in a dome that can turn under it.
+            "hoist",
+            "Hoist or crane",
+            ("suspended_load", "electrical", "height", "moving_machinery"),
+            (
+                PlanTemplate(
+                    "Inspect hoist, hook and rope or chain, test brake and limits",
+                    "Inspect the hook, the wire rope or load chain and the brake; test the limit switches, the brake "
+                    "and the emergency stop unloaded.",
+                    # A periodic inspection at 1- to 12-month intervals, the harder the use the shorter (OSHA 29 CFR
+                    # 1910.179(j) for cranes, ASME B30.16 for hoists), from memory: yearly for an observatory's light
+                    # use. The maker's interval comes first.
+                    (("calendar_days", 365.0),),
+                    FROM_MEMORY,
+                    before_isolation=(
+                        _READ_RECORDS,
+                        _OUT_OF_SERVICE_PARKED,
+                        "With the hook unloaded and everyone clear of its path and the area under it, raise and lower "
+                        "it from the pendant (and travel the hoist along its beam, if it travels): check that the "
+                        "upper and lower limit switches stop it, that the brake holds the hook without drift at each "
+                        "stop, and that the emergency stop works; note anything unusual in the findings.",
+                        "Set the hook block down on the floor or its rest, unloaded, so that the rope or chain is paid "
+                        "out for the checks below.",
+                    ),
+                    after_isolation=(
+                        "Inspect the hook for cracks, twist and a widened throat, and check its safety latch; inspect "
+                        "the paid-out wire rope or load chain for broken wires, wear, kinks, corrosion and stretch, "
+                        "and its end fixings; photograph anything unusual.",
+                        "From a work platform, inspect the hoist's brake and gearbox for wear, oil leaks and damage, "
+                        "and the pendant and its cable for damage.",
+                        "If anything is beyond the maker's limits, tag the hoist out of service at its pendant and its "
+                        "isolator, and tell the site engineer before anyone uses it.",
+                    ),
+                    restore=_RESTORE,
+                    tools=("the hoist maker's inspection instructions", "hook throat gauge or calipers",
+                           "out-of-service tags"),
+                    estimated_hours=2.0,
+                ),
+            ),
+            own_point="which has a supply of its own: the telescope's points do not make the hoist safe",
+            moves="load",
+        ),
+        Kind("other", "Other", (), moves=""),
     )
 }
 
@@ -879,6 +982,29 @@ TELESCOPE_STEPS: frozenset[str] = frozenset({
 #: after every other plan's restoring (its air or power restored and tested), whichever plan they come from
 #: (workorders.services._steps_for), so nothing goes back into service before the energy it needs is back.
 RETURNS_TO_SERVICE: frozenset[str] = frozenset({_BACK_IN_SERVICE, _COVER_CLOSED_IN_SERVICE, _FIRST_MOVES})
+
+
+#: The hazards that say a subsystem of a kind that names nothing it moves (Other) holds up a load: a hoist or sling
+#: rig, or a hydraulic lift or platform.
+_HOLDS_A_LOAD = ("suspended_load", "hydraulic")
+
+
+def moving_parts(code: str, hazards: Iterable[str] = ()) -> tuple[str, ...]:
+    """What can move once the locks of work on a subsystem of kind ``code`` come off (keys of ``CLEAR_OF``): its
+    kind's (``Kind.moves``); for a kind that cannot say (Other), a load where its ``hazards`` hold one up, and the
+    telescope where they name a moving telescope or nothing else."""
+    spec = KINDS.get(code)
+    if spec is not None and spec.moves:
+        return (spec.moves,)
+    found = set(hazards)
+    load = ("load",) if found & set(_HOLDS_A_LOAD) else ()
+    return load + (("telescope",) if "moving_machinery" in found or not load else ())
+
+
+def release_step_for(subsystems: Iterable) -> str:
+    """The release step of an order over ``subsystems`` (each with its ``kind`` and ``hazards``, as
+    ``registry.models.Subsystem``): everyone clear of all they can set moving, each named once."""
+    return release_step(key for s in subsystems for key in moving_parts(s.kind, s.hazards))
 
 
 def kind(code: str) -> Kind:

@@ -397,21 +397,30 @@ class Caution:
 
 
 CAUTIONS: dict[str, Caution] = {
+    # Back-feed: OSHA 29 CFR 1910.333(b)(2)(iv) asks that a de-energised circuit be verified dead before it is worked
+    # on as such, the test at the parts people will touch also finding voltage back-fed from elsewhere. That a UPS, a
+    # generator, a battery bank or a second supply is where it comes from at an observatory is common practice, no
+    # published source.
     "electrical": Caution(
         hazard="electrical",
         severity=DANGER_TO_LIFE,
         title=HAZARDS["electrical"],
         text=(
             "Isolate the supply at its disconnect, lock and tag it in your own name, and keep the key with you. "
-            "Before you touch any conductor, test for absence of voltage with a tester proved on a known live "
-            "source just before and just after the test. "
+            "A UPS, a generator, a battery bank or a second supply can keep a circuit live after its isolator is off "
+            "(back-feed): isolate and lock each source that can feed the work. "
+            "Before you touch any conductor, test for absence of voltage at the point of work, not at the isolator, "
+            "with a tester proved on a known live source just before and just after the test. "
             "Treat servo drives and power supplies as live until their capacitors have discharged for the time "
             "the maker states. "
             "Work on or near exposed live parts only under an energised-work permit, by a qualified person "
             "wearing the protective equipment the arc-flash assessment calls for. "
             "Remove your lock only when everyone is clear and the covers are back on."
         ),
-        standard="OSHA 29 CFR 1910.147 (lockout/tagout); ANSI/ASSP Z244.1; NFPA 70E",
+        standard=(
+            "OSHA 29 CFR 1910.147 (lockout/tagout); OSHA 29 CFR 1910.333(b)(2)(iv) (de-energisation verified before "
+            "work); ANSI/ASSP Z244.1; NFPA 70E"
+        ),
     ),
     "pneumatic": Caution(
         hazard="pneumatic",
@@ -452,7 +461,10 @@ CAUTIONS: dict[str, Caution] = {
     ),
     # A hydraulic lift or platform holds its load on trapped oil, so a raised load is stored energy as pressure is
     # (OSHA 29 CFR 1910.147(d)(5)); a fine jet of oil under pressure can be injected under the skin (common practice,
-    # no published source; the hydraulic system's maker and ISO 4413 give the controls).
+    # no published source; the hydraulic system's maker and ISO 4413 give the controls). ISO 4413 asks in general for
+    # a system that can be isolated and its stored pressure released; that check valves, an accumulator or a load
+    # held up by a cylinder keep pressure in part of the circuit while the gauge at the pump reads zero, so the
+    # pressure is bled and proved zero at the part worked on, is common practice, no published source.
     "hydraulic": Caution(
         hazard="hydraulic",
         severity=DANGER_TO_LIFE,
@@ -462,9 +474,11 @@ CAUTIONS: dict[str, Caution] = {
             "a valve moved by mistake lets a raised load come down. "
             "Before anyone works under or beside a raised platform or load, lower it onto its mechanical stops or "
             "block it with rated props or the maker's safety locks; never rely on the hydraulics alone. "
-            "Switch off and lock out the pump, release the pressure through the maker's release valve with the load "
-            "lowered or propped, and confirm zero on the gauge: an accumulator keeps its pressure after the pump "
-            "stops. "
+            "Switch off and lock out the pump, and release the pressure through the maker's release valve with the "
+            "load lowered or propped. "
+            "Zero on the gauge at the pump does not prove the circuit dead: check valves, an accumulator or a load "
+            "held up by a cylinder keep pressure trapped in their part of it, so bleed the part you work on and "
+            "confirm zero on a gauge or test point on that part. "
             "Never loosen a fitting under pressure or feel for a leak by hand: a fine jet of oil can pierce the "
             "skin, and such an injury needs a hospital at once however small it looks. "
             "Restore the pressure slowly, with everyone clear of the load's path."

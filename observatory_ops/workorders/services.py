@@ -15,6 +15,7 @@ from collections.abc import Collection, Sequence
 from dataclasses import dataclass
 
 from django.db import transaction
+from django.db.models import Q
 from django.utils import dateformat, timezone
 
 from observatory_ops.access.roles import ENGINEER, TECHNICIAN, has_role
@@ -27,7 +28,16 @@ from observatory_ops.logbook.services import limit_passed_before
 from observatory_ops.planning.metrics import READING
 from observatory_ops.planning.models import ServicePlan, part_lines
 from observatory_ops.planning.services import site_recompute, site_today
-from observatory_ops.registry.catalogue import RELEASE, RETURNS_TO_SERVICE, TELESCOPE_STEPS
+from observatory_ops.registry.catalogue import (
+    AIR_BRAKE,
+    BRAKE_AIR_BACK,
+    RELEASE,
+    RESTORES_BRAKE_AIR,
+    RETURNS_TO_SERVICE,
+    TELESCOPE_STEPS,
+    is_release_step,
+    release_step_for,
+)
 from observatory_ops.registry.models import Site, Subsystem
 
 from .cautions import (
@@ -44,6 +54,7 @@ from .lifecycle import TRANSITIONS
 from .models import (
     PART_QUANTITY_MAX,
     ChecklistTick,
+    IsolationPoint,
     Part,
     PartUse,
     RequiredReading,
@@ -81,10 +92,10 @@ def lockout_missing(hazards: Sequence[str], steps: Sequence[str]) -> bool:
 def isolated_steps(steps: Sequence[str]) -> tuple[int, range] | None:
     """Where an order's steps isolate the energy, as ``steps_in_groups`` placed it: the position of the lockout
     step (its first occurrence, in its present wording or an earlier one: ``cautions.is_lockout_step``) and the
-    positions of the steps done locked out after it, up to the step that removes the locks
-    (``catalogue.RELEASE``), which then stands at the range's ``stop``; None when no step is the lockout step.
+    positions of the steps done locked out after it, up to the step that removes the locks (in any of its wordings:
+    ``catalogue.is_release_step``), which then stands at the range's ``stop``; None when no step is the lockout step.
 
-    Only those two steps are looked for, never other wording. Without ``RELEASE`` after the lockout step
+    Only those two steps are looked for, never other wording. Without the release after the lockout step
     (a recoat phase ends its locked-out work in words of its own, or the steps were edited by hand) every step
     after the lockout step counts as done locked out: the locks may still be on there, and steps ticked in
     their written order never meet a refusal (``checklist_tick_set``).
@@ -93,7 +104,7 @@ def isolated_steps(steps: Sequence[str]) -> tuple[int, range] | None:
     lockout = next((i for i, line in enumerate(lines) if is_lockout_step(line)), None)
     if lockout is None:
         return None
-    release = next((i for i in range(lockout + 1, len(lines)) if lines[i] == RELEASE), len(lines))
+    release = next((i for i in range(lockout + 1, len(lines)) if is_release_step(lines[i])), len(lines))
     return lockout, range(lockout + 1, release)
 
 
@@ -101,10 +112,10 @@ def lockout_sequence_problem(hazards: Sequence[str], steps: Sequence[str], plans
     """Why an order's steps, where its hazards call for isolation, do not isolate the energy in sequence; "" when they
     do (or no step is the lockout step: ``lockout_missing`` says that).
 
-    Three things are refused, in this order: the step that removes the locks (``catalogue.RELEASE``) before the lockout
-    step; a step of a plan's work (``ServicePlan.steps``, done locked out, as ``steps_in_groups`` places it), in its
-    words or under its plan's "[label]", standing before the lockout step or after the release; and no step at all
-    between the two (nothing is done locked out). A step the engineer wrote in words of their own is placed by the
+    Three things are refused, in this order: the step that removes the locks (``catalogue.is_release_step``) before the
+    lockout step; a step of a plan's work (``ServicePlan.steps``, done locked out, as ``steps_in_groups`` places it),
+    in its words or under its plan's "[label]", standing before the lockout step or after the release; and no step at
+    all between the two (nothing is done locked out). A step the engineer wrote in words of their own is placed by the
     engineer.
     """
     if not needs_isolation(hazards):
@@ -114,7 +125,7 @@ def lockout_sequence_problem(hazards: Sequence[str], steps: Sequence[str], plans
     if placed is None:
         return ""
     lockout, locked_out = placed
-    early = next((i for i in range(lockout) if lines[i] == RELEASE), None)
+    early = next((i for i in range(lockout) if is_release_step(lines[i])), None)
     if early is not None:
         return (f"Step {early + 1} removes the locks, but the energy is isolated only at step {lockout + 1} (the "
                 "lockout step): put the lockout step after the steps done under power and before the work.")
@@ -151,19 +162,40 @@ def _unlabelled(line: str) -> str:
 
 
 def steps_in_groups(
-    hazards: Sequence[str], powered: list[str], work: list[str], restore: list[str], release: str = RELEASE
+    hazards: Sequence[str], powered: list[str], work: list[str], restore: list[str], release: str = RELEASE,
+    brake_air: bool = False,
 ) -> list[str]:
     """An order's steps from its three groups: with energy to isolate, the lockout step between the steps under
     power and the work, and ``release`` between the work and the restoring; without, the groups one after the
     other. The groups say where each step belongs, so no step is placed by its wording.
 
-    ``release`` is the step that ends the isolated work: the catalogue's step that removes the locks
-    (``catalogue.RELEASE``), or the work's own wording where it ends otherwise (a mirror removal keeps the
-    locks on until the reinstall; the reinstall removes them only once the balance is restored).
+    ``release`` is the step that ends the isolated work: the catalogue's step that removes the locks, naming what
+    the order's subsystems can set moving (``catalogue.release_step_for``), or the work's own wording where it ends
+    otherwise (a mirror removal keeps the locks on until the reinstall; the reinstall removes them only once the
+    balance is restored). With ``brake_air`` (the lockout vents an air brake's air and the restoring does not bring
+    it back: ``_brake_air_back``) the air comes back first, with everyone clear (``catalogue.BRAKE_AIR_BACK``).
     """
     if not needs_isolation(hazards):
         return powered + work + restore
-    return powered + [LOCKOUT_STEP] + work + [release] + restore
+    return powered + [LOCKOUT_STEP] + work + [release] + ([BRAKE_AIR_BACK] if brake_air else []) + restore
+
+
+def _brake_air_back(subsystems: Sequence[Subsystem], hazards: Sequence[str], restore: Sequence[str]) -> bool:
+    """Whether an order over ``subsystems`` adds ``catalogue.BRAKE_AIR_BACK``: its lockout vents the air of an
+    air-released brake, and none of its ``restore`` steps (a plan label before one ignored) brings the air back with
+    everyone clear (``catalogue.RESTORES_BRAKE_AIR``: an air brake's own plan does).
+
+    The lockout vents it where it locks an air point (one of a telescope's, or one of a subsystem the order works on:
+    ``selectors.isolation_points``) on a telescope with an air-released brake in service: the air there releases the
+    brakes, whichever subsystem the work is on. The points are those registered when the order is made, as its steps
+    are."""
+    if not needs_isolation(hazards) or any(_unlabelled(step) in RESTORES_BRAKE_AIR for step in restore):
+        return False
+    air = IsolationPoint.objects.filter(
+        Q(subsystem__isnull=True) | Q(subsystem__in=[s.pk for s in subsystems]),
+        telescope_id__in={s.telescope_id for s in subsystems}, energy=IsolationPoint.Energy.AIR,
+    )
+    return Subsystem.objects.in_service().filter(telescope_id__in=air.values("telescope_id"), kind=AIR_BRAKE).exists()
 
 
 def _plan_labels(plans: Sequence[ServicePlan]) -> dict[int, str]:
@@ -189,7 +221,8 @@ def _steps_for(plans: Sequence[ServicePlan], labels: dict[int, str], hazards: Se
     it share (closing the dome, parking: ``catalogue.TELESCOPE_STEPS``) is written once, for all of them.
     The restoring run puts every plan's return to service (``catalogue.RETURNS_TO_SERVICE``, and whatever that plan
     does after it) after all the plans' other restoring, so an axis drive goes back in service only once its brake's
-    air is back and tested.
+    air is back and tested. The release names what all their subsystems can set moving (``catalogue.release_step_for``),
+    and an order whose lockout vents brake air with no brake plan to bring it back says so first (``_brake_air_back``).
     """
     powered, work, restoring, in_service = [], [], [], []
     for plan in plans:
@@ -204,15 +237,17 @@ def _steps_for(plans: Sequence[ServicePlan], labels: dict[int, str], hazards: Se
         restoring += [(plan, step) for step in after[:back]]
         in_service += [(plan, step) for step in after[back:]]
     several = len(plans) > 1
+    subsystems = list({p.subsystem_id: p.subsystem for p in plans}.values())
+    restore = _shared_once(restoring + in_service, labels, several)
     return "\n".join(steps_in_groups(
-        hazards, _shared_once(powered, labels, several), _labelled(work, labels, several),
-        _shared_once(restoring + in_service, labels, several),
+        hazards, _shared_once(powered, labels, several), _labelled(work, labels, several), restore,
+        release_step_for(subsystems), _brake_air_back(subsystems, hazards, restore),
     ))
 
 
 def _orders_own(step: str) -> bool:
-    """The step is one an order adds itself (``steps_in_groups``): the lockout step, in any wording, or the release."""
-    return is_lockout_step(step) or step == RELEASE
+    """The step is one an order adds itself (``steps_in_groups``): the lockout step or the release, in any wording."""
+    return is_lockout_step(step) or is_release_step(step)
 
 
 def _labelled(run: list[tuple[ServicePlan, str]], labels: dict[int, str], several: bool) -> list[str]:
@@ -383,8 +418,9 @@ def work_order_ad_hoc(
     telescopes = {s.telescope for s in subsystems}
     telescope = telescopes.pop() if len(telescopes) == 1 else None
     hazards = [h for h in HAZARDS if h in set(hazards_of(subsystems, [])) | set(hazards)]
-    groups = ([s.strip() for s in text.splitlines() if s.strip()] for text in (powered, steps, restore))
-    lines = steps_in_groups(hazards, *groups)
+    groups = [[s.strip() for s in text.splitlines() if s.strip()] for text in (powered, steps, restore)]
+    lines = steps_in_groups(hazards, *groups, release_step_for(subsystems),
+                            _brake_air_back(subsystems, hazards, groups[2]))
     with transaction.atomic():
         order = WorkOrder.objects.create(
             site=site, telescope=telescope, title=title, order_type=order_type, planned_date=planned_date,

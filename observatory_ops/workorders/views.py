@@ -14,7 +14,7 @@ from observatory_ops.archive.history import person
 from observatory_ops.exports import csv_response, download_refused, period
 from observatory_ops.planning.models import ServicePlan
 from observatory_ops.planning.services import site_today
-from observatory_ops.registry.catalogue import RELEASE
+from observatory_ops.registry.catalogue import release_step_for
 from observatory_ops.registry.models import Site
 
 from . import pdf, selectors, services
@@ -252,11 +252,12 @@ def work_order_hazards_update(request, pk):
         done += " Lifting figures were taken from the mirror's geometry."
     messages.success(request, done)
     if update.lockout_missing:
+        release = release_step_for(item.subsystem for item in order.items.select_related("subsystem"))
         messages.warning(
             request, "Its hazards now call for energy isolation, but its steps are not those its plans give (edited "
             "since, written by hand, or the plans changed), so the lockout step was not placed by guess. Edit the "
             "steps and put it in after the steps done under power: "
-            f"\"{services.LOCKOUT_STEP}\", and after the locked-out work: \"{RELEASE}\". Until then it cannot be "
+            f"\"{services.LOCKOUT_STEP}\", and after the locked-out work: \"{release}\". Until then it cannot be "
             "issued or started.",
         )
     return redirect(order)

@@ -1,0 +1,263 @@
+"""What the step that removes the locks asks everyone to be clear of, and the brake air the lockout vented.
+
+1. Removing the locks lets the drives be powered again: on an order over a dome (its rotation, its shutter) or a hoist,
+   what then moves is the dome's or shutter's path, or the load's path and the area under it, not the telescope's
+   swept volume. The release step names what the order's subsystems can set moving (``catalogue.release_step_for``,
+   by their kinds; a subsystem of the kind Other by its hazards), and an order over several kinds names each once.
+   Before the locks come off the work area is checked and everyone is safely positioned or removed: OSHA 29 CFR
+   1910.147(e)(2); what moves at an observatory is common practice, no published source.
+2. The lockout vents the air where it locks an air isolation point; on a telescope with spring-applied, air-released
+   brakes that air releases them when it returns, and an out-of-balance axis can swing (the pneumatic caution, ISO
+   4414; common practice, no published source). An order whose lockout vents it but whose plans have no brake step to
+   bring it back restores it with everyone clear, once, right after the release and before anything goes back in
+   service.
+
+Local codes, the manufacturer's instructions and licensed practice take precedence, as every order says.
+"""
+from __future__ import annotations
+
+import datetime as dt
+import html
+import re
+
+import pytest
+
+from observatory_ops.registry.catalogue import (
+    BRAKE_AIR_BACK,
+    CLEAR_OF,
+    KINDS,
+    RELEASE,
+    RELEASE_STEPS,
+    RESTORES_BRAKE_AIR,
+    is_release_step,
+    moving_parts,
+    release_step,
+)
+from observatory_ops.registry.services import subsystem_create
+from observatory_ops.workorders import services
+from observatory_ops.workorders.cautions import PRECEDENCE_STATEMENT
+from observatory_ops.workorders.models import IsolationPoint
+
+pytestmark = pytest.mark.django_db
+
+START = dt.date(2026, 1, 1)
+LOCKOUT = services.LOCKOUT_STEP
+TELESCOPE = "clear of the telescope"
+DOME = "clear of the path of the dome and its shutter (or of the roll-off roof)"
+LOAD = "clear of the load's path and the area under it"
+BACK_IN_SERVICE = "Restore the subsystem to service and test it under observation."
+
+
+def _from_due(*subsystems, users):
+    return services.work_order_from_due([p for s in subsystems for p in s.plans.all()], users["engineer"])
+
+
+def _releases(steps: list[str]) -> list[str]:
+    return [step for step in steps if is_release_step(step)]
+
+
+@pytest.fixture
+def mains(telescope):
+    return IsolationPoint.objects.create(telescope=telescope, energy="ac", label="Mount isolator")
+
+
+# --- 1. the release names what moves ----------------------------------------------------------------------------
+
+
+def test_telescope_work_keeps_the_release_it_always_had():
+    """Orders stored before this change carry these words: they stay the telescope's release, recognised as before."""
+    assert RELEASE == (
+        "When the work is done and everyone is clear of the telescope, remove the locks and tags as the site's "
+        "lockout procedure says."
+    )
+    assert release_step(["telescope"]) == RELEASE and is_release_step(f"  {RELEASE}\r")
+    telescope_kinds = [code for code, kind in KINDS.items() if kind.moves == "telescope"]
+    assert set(KINDS) - set(telescope_kinds) == {"enclosure", "hoist", "other"}
+
+
+def test_a_dome_order_releases_with_everyone_clear_of_the_dome_and_shutter_path_not_the_telescope(
+    telescope, mains, users
+):
+    dome = subsystem_create(telescope, "enclosure", "Dome", counting_from=START)
+    steps = _from_due(dome, users=users).step_list
+    (release,) = _releases(steps)
+    assert release == (
+        "When the work is done and everyone is clear of the path of the dome and its shutter (or of the roll-off "
+        "roof), remove the locks and tags as the site's lockout procedure says."
+    )
+    assert TELESCOPE not in release
+    assert "roof" in release  # the enclosure kind serves a roll-off roof too
+    # The locked-out work ends at it, as at the telescope's release: the enclosure's own work is inside.
+    lockout, locked_out = services.isolated_steps(steps)
+    assert steps[lockout] == LOCKOUT and locked_out.stop == steps.index(release)
+    assert steps[locked_out.stop + 1:] == [BACK_IN_SERVICE]
+
+
+def test_a_hoist_order_releases_with_everyone_clear_of_the_loads_path_and_the_area_under_it(telescope, mains, users):
+    hoist = subsystem_create(telescope, "hoist", "Dome hoist", counting_from=START)
+    steps = _from_due(hoist, users=users).step_list
+    (release,) = _releases(steps)
+    assert release == (
+        "When the work is done and everyone is clear of the load's path and the area under it, remove the locks and "
+        "tags as the site's lockout procedure says."
+    )
+    assert steps.index(LOCKOUT) < steps.index(release) < steps.index(BACK_IN_SERVICE)
+
+
+def test_a_hydraulic_lift_of_the_kind_other_is_named_by_its_hazards(telescope, site, mains, users):
+    """A subsystem of the kind Other says nothing by its kind: a load held up (a suspended load, or hydraulic
+    pressure) is what moves; with neither, the telescope, as before."""
+    lift = subsystem_create(telescope, "other", "Hydraulic service lift", counting_from=START,
+                            hazards=["hydraulic", "electrical", "height"])
+    order = services.work_order_ad_hoc(site, [lift], "Service the lift", users["engineer"],
+                                       powered="Lower the platform onto its stops.", steps="Change the filter.")
+    assert _releases(order.step_list) == [release_step(["load"])]
+    assert moving_parts("other", ["electrical"]) == ("telescope",)
+    assert moving_parts("other", ["suspended_load", "moving_machinery"]) == ("load", "telescope")
+
+
+def test_an_order_over_a_drive_a_dome_and_a_hoist_removes_the_locks_once_naming_each_moving_thing_once(
+    telescope, mains, users
+):
+    drive = subsystem_create(telescope, "axis1_drive", "Axis 1 drive", counting_from=START)
+    dome = subsystem_create(telescope, "enclosure", "Dome", counting_from=START)
+    hoist = subsystem_create(telescope, "hoist", "Dome hoist", counting_from=START)
+    fans = subsystem_create(telescope, "cooling_fans", "Cell fans", counting_from=START)  # a second telescope part
+    steps = _from_due(drive, dome, hoist, fans, users=users).step_list
+    (release,) = _releases(steps)
+    assert release == (
+        f"When the work is done and everyone is {TELESCOPE}, {DOME} and {LOAD}, remove the locks and tags as the "
+        "site's lockout procedure says."
+    )
+    for words in (TELESCOPE, DOME, LOAD):
+        assert release.count(words) == 1
+    # Whatever order the subsystems come in, the same words: the set of wordings stays finite and recognised.
+    assert release_step(["load", "telescope", "enclosure", "load"]) == release
+
+
+def test_every_wording_of_the_release_is_recognised_and_placed_as_the_release():
+    assert len(RELEASE_STEPS) == 2 ** len(CLEAR_OF) - 1  # every non-empty set of moving things
+    assert not is_release_step(LOCKOUT) and not is_release_step(BACK_IN_SERVICE) and not is_release_step("")
+    dome_release = release_step(["enclosure"])
+    # Before the lockout it is refused as the telescope's is; after it, it closes the locked-out work.
+    early = ["Close the enclosure.", dome_release, LOCKOUT, "Grease the wheels.", BACK_IN_SERVICE]
+    assert services.lockout_sequence_problem(["electrical"], early, []).startswith(
+        "Step 2 removes the locks, but the energy is isolated only at step 3"
+    )
+    placed = ["Close the enclosure.", LOCKOUT, "Grease the wheels.", dome_release, BACK_IN_SERVICE]
+    assert services.isolated_steps(placed) == (1, range(2, 3))
+    assert services.lockout_sequence_problem(["electrical"], placed, []) == ""
+
+
+@pytest.mark.parametrize("code", KINDS)
+def test_every_kind_says_what_moves_once_its_locks_come_off(code):
+    kind = KINDS[code]
+    assert kind.moves in CLEAR_OF or (code == "other" and kind.moves == "")
+    for plan in kind.plans:  # the plans keep the one release as its place; the order words it
+        assert plan.restore[0] == RELEASE
+
+
+def test_the_hoist_is_a_kind_with_its_own_supply_its_load_and_work_at_height():
+    hoist = KINDS["hoist"]
+    assert hoist.label == "Hoist or crane"
+    assert {"suspended_load", "electrical", "height", "moving_machinery"} <= set(hoist.hazards)
+    assert "supply of its own" in hoist.own_point
+    (plan,) = hoist.plans
+    unloaded = " ".join(plan.before_isolation)
+    assert "everyone clear of its path and the area under it" in unloaded and "unloaded" in unloaded
+
+
+# --- 2. the brake air the lockout vented ------------------------------------------------------------------------
+
+
+@pytest.fixture
+def air_brakes(telescope, mains):
+    """The telescope's brakes are spring-applied and air-released, fed through one valve the lockout locks."""
+    IsolationPoint.objects.create(telescope=telescope, energy="air", label="Brake air supply valve")
+    return subsystem_create(telescope, "brake", "Axis 1 brake", counting_from=START)
+
+
+def test_a_drive_order_whose_lockout_vents_the_brake_air_brings_it_back_with_everyone_clear_first(
+    telescope, air_brakes, users
+):
+    drive = subsystem_create(telescope, "axis1_drive", "Axis 1 drive", counting_from=START)
+    steps = _from_due(drive, users=users).step_list
+    (release,) = _releases(steps)
+    assert steps[steps.index(release) + 1:] == [BRAKE_AIR_BACK, BACK_IN_SERVICE]
+    assert "everyone told and outside the swept volume" in BRAKE_AIR_BACK
+    assert "each axis balanced or restrained" in BRAKE_AIR_BACK and "slowly" in BRAKE_AIR_BACK
+
+
+def test_the_air_comes_back_once_per_order_however_many_plans_and_telescopes(site, telescope, air_brakes, users):
+    from observatory_ops.registry.models import Telescope
+
+    other = Telescope.objects.create(site=site, name="West", aperture_m=0.4, mount="fork")
+    IsolationPoint.objects.create(telescope=other, energy="ac", label="West isolator")
+    IsolationPoint.objects.create(telescope=other, energy="air", label="West brake air valve")
+    subsystem_create(other, "brake", "West brake", counting_from=START)
+    parts = [subsystem_create(scope, kind, f"{scope.name} {kind}", counting_from=START)
+             for scope in (telescope, other) for kind in ("axis1_drive", "cooling_fans")]
+    steps = _from_due(*parts, users=users).step_list
+    assert steps.count(BRAKE_AIR_BACK) == 1
+    release = steps.index(_releases(steps)[0])
+    assert steps[release + 1] == BRAKE_AIR_BACK
+    back_in_service = [i for i, step in enumerate(steps) if step.endswith(BACK_IN_SERVICE)]
+    assert back_in_service and min(back_in_service) > release + 1  # before anything goes back in service
+
+
+def test_an_order_with_the_air_brake_plan_brings_the_air_back_in_the_brake_steps_words_only(air_brakes, users):
+    steps = _from_due(air_brakes, users=users).step_list
+    assert BRAKE_AIR_BACK not in steps
+    assert [step for step in steps if step in RESTORES_BRAKE_AIR] == [
+        "With everyone outside the swept volume and the axis balanced or restrained, restore the air slowly and "
+        "check that the brake releases and holds."
+    ]
+
+
+def test_a_brake_plan_stored_with_the_earlier_restore_wording_gets_the_step_with_everyone_clear(air_brakes, users):
+    """The earlier wording said nothing of anyone's being clear; the plan keeps its words until an engineer takes the
+    catalogue's present ones (planning.selectors.catalogue_revision), and its orders meanwhile get the step."""
+    plan = air_brakes.plans.get()
+    plan.steps_restore = "Restore the air slowly and check that the brake releases and holds.\n" + BACK_IN_SERVICE
+    plan.save()
+    steps = _from_due(air_brakes, users=users).step_list
+    release = steps.index(_releases(steps)[0])
+    assert steps[release + 1:] == [
+        BRAKE_AIR_BACK, "Restore the air slowly and check that the brake releases and holds.", BACK_IN_SERVICE
+    ]
+
+
+def test_no_step_where_the_lockout_vents_no_brake_air(site, telescope, mains, users):
+    drive = subsystem_create(telescope, "axis1_drive", "Axis 1 drive", counting_from=START)
+    # An air-released brake, but no air point the lockout locks: nothing vented.
+    brake = subsystem_create(telescope, "brake", "Axis 1 brake", counting_from=START)
+    assert BRAKE_AIR_BACK not in _from_due(drive, users=users).step_list
+    # An air point of the brake's own is vented only by work on that brake.
+    IsolationPoint.objects.create(telescope=telescope, subsystem=brake, energy="air", label="Brake valve")
+    assert BRAKE_AIR_BACK not in _from_due(drive, users=users).step_list
+    on_the_brake = services.work_order_ad_hoc(site, [brake], "Replace a hose", users["engineer"],
+                                              steps="Replace the brake hose.", restore=BACK_IN_SERVICE)
+    steps = on_the_brake.step_list
+    assert steps[steps.index(_releases(steps)[0]) + 1:] == [BRAKE_AIR_BACK, BACK_IN_SERVICE]
+    # A retired air brake leaves spring brakes released electrically: the air vents no brake.
+    brake.retired_on = START
+    brake.save()
+    subsystem_create(telescope, "spring_brake", "Axis 2 brake", counting_from=START)
+    IsolationPoint.objects.create(telescope=telescope, energy="air", label="Cover air")
+    assert BRAKE_AIR_BACK not in _from_due(drive, users=users).step_list
+
+
+def test_the_page_and_the_paper_show_the_domes_release_and_the_brake_air(telescope, air_brakes, users, client):
+    """As a technician reads it: the order over a dome whose lockout also vents the brakes' air."""
+    from test_workorder_pdf import body_text
+
+    dome = subsystem_create(telescope, "enclosure", "Dome", counting_from=START)
+    IsolationPoint.objects.create(telescope=telescope, subsystem=dome, energy="ac", label="Dome drives isolator")
+    order = _from_due(dome, users=users)
+    client.force_login(users["technician"])
+    page = " ".join(re.sub(r"<[^>]+>", " ", html.unescape(client.get(order.get_absolute_url()).content.decode()))
+                    .split())
+    paper = " ".join(body_text(client.get(f"/workorders/{order.pk}/pdf/").content).split())
+    for text in (page, paper):
+        assert release_step(["enclosure"]) in text and BRAKE_AIR_BACK in text
+        assert " ".join(PRECEDENCE_STATEMENT.split()) in text
