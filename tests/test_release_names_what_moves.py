@@ -261,3 +261,24 @@ def test_the_page_and_the_paper_show_the_domes_release_and_the_brake_air(telesco
     for text in (page, paper):
         assert release_step(["enclosure"]) in text and BRAKE_AIR_BACK in text
         assert " ".join(PRECEDENCE_STATEMENT.split()) in text
+
+
+def test_the_recoat_phases_that_take_the_locks_off_bring_the_brake_air_back_and_the_removal_does_not(
+    telescope, air_brakes, users
+):
+    """The removal leaves the locks on until the reinstall (the tube is out of balance): nothing it vented comes back.
+    The reinstall and the realignment take the locks off: the air comes back right after, with everyone clear."""
+    from observatory_ops.calc.windows import RECOAT_PHASES
+    from observatory_ops.mirrors import services as mirror_services
+    from observatory_ops.mirrors.models import Mirror
+
+    primary = subsystem_create(telescope, "primary_mirror", "Primary", counting_from=START)
+    mirror = Mirror.objects.create(subsystem=primary, diameter_mm=500, thickness_mm=50, material="borosilicate")
+    plan = mirror_services.recoat_plan_create(mirror, dt.date(2026, 8, 3), list(RECOAT_PHASES), 3.0, users["engineer"])
+    orders = {o.title.split(": ", 1)[1]: o.step_list for o in plan.work_orders.all()}
+    assert BRAKE_AIR_BACK not in orders["removal"]
+    for phase in ("reinstall", "realignment and measurement"):
+        steps = orders[phase]
+        assert steps.count(BRAKE_AIR_BACK) == 1, phase
+        assert is_release_step(steps[steps.index(BRAKE_AIR_BACK) - 1]) or "remove the pins, the locks" in (
+            steps[steps.index(BRAKE_AIR_BACK) - 1]), phase

@@ -39,7 +39,7 @@ from observatory_ops.registry.models import Site, Subsystem, Telescope
 from observatory_ops.registry.selectors import crew_days_off
 from observatory_ops.workorders.cautions import HAZARDS
 from observatory_ops.workorders.models import RequiredReading, State, WorkOrder, WorkOrderItem
-from observatory_ops.workorders.services import steps_in_groups
+from observatory_ops.workorders.services import brake_air_back, steps_in_groups
 
 from .models import TRAIN_KINDS, CleaningEvent, CoatingEvent, Mirror, RecoatPlan, ReflectanceMeasurement
 
@@ -642,6 +642,9 @@ class _PhaseWork(NamedTuple):
     the mirror subsystem's (a telescope that can move is not part of that work). ``brakes`` says that its lockout
     holds the axis brakes: the hazards of the telescope's brakes join its own (``_brakes_of``); ``balance_check``,
     that its locked-out work ends with the check of the balance, worded for those brakes (``_balance_check``).
+    ``locks_stay_on``: its release leaves the locks on (the removal, until the reinstall), so nothing the lockout
+    vented comes back with it; the other phases that isolate bring an air brake's air back after the release, as
+    every order does (``workorders.services.brake_air_back``).
     """
 
     hazards: tuple[str, ...]
@@ -654,6 +657,7 @@ class _PhaseWork(NamedTuple):
     at_telescope: bool = True
     brakes: bool = False
     balance_check: bool = False
+    locks_stay_on: bool = False
 
 
 _WITH_CELL, _MIRROR_ONLY = "mirror and cell", "mirror alone"
@@ -792,6 +796,7 @@ _PHASE_WORK = {
         ),
         lifted=_WITH_CELL,
         brakes=True,
+        locks_stay_on=True,
     ),
     "coating": _PhaseWork(
         hazards=("suspended_load", "chemical", "vacuum_plant", "optical_surface"),
@@ -880,11 +885,12 @@ _PHASE_WORK = {
 }
 
 
-def _phase_steps(hazards: list[str], work: _PhaseWork, brakes: _Brakes) -> str:
-    """A phase's steps in the order of the work, the isolation placed as on every order; ``brakes`` are the
-    telescope's (``_brakes_of``)."""
+def _phase_steps(subsystem: Subsystem, hazards: list[str], work: _PhaseWork, brakes: _Brakes) -> str:
+    """A phase's steps for the mirror ``subsystem`` in the order of the work, the isolation placed as on every order;
+    ``brakes`` are the telescope's (``_brakes_of``)."""
     locked = [*work.locked, _balance_check(brakes)] if work.balance_check else [*work.locked]
-    return "\n".join(steps_in_groups(hazards, [*work.before], locked, [*work.after], work.release))
+    air_back = not work.locks_stay_on and brake_air_back([subsystem], hazards, work.after)
+    return "\n".join(steps_in_groups(hazards, [*work.before], locked, [*work.after], work.release, air_back))
 
 
 def _phase_lift(mirror: Mirror, work: _PhaseWork) -> dict | None:
@@ -967,7 +973,7 @@ def recoat_plan_create(
                     site=subsystem.telescope.site, telescope=subsystem.telescope,
                     title=f"Recoat {subsystem.telescope.name} {subsystem.name}: {phase.name}",
                     planned_date=dates["first"],
-                    estimated_hours=8.0 * phase.days, steps=_phase_steps(hazards, work, brakes),
+                    estimated_hours=8.0 * phase.days, steps=_phase_steps(subsystem, hazards, work, brakes),
                     tools="\n".join(work.tools), hazards=hazards, at_telescope=work.at_telescope, recoat_phase=kind,
                     lift_inputs=_phase_lift(mirror, work) if "suspended_load" in hazards else None,
                     created_by=by,

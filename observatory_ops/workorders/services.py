@@ -173,14 +173,14 @@ def steps_in_groups(
     the order's subsystems can set moving (``catalogue.release_step_for``), or the work's own wording where it ends
     otherwise (a mirror removal keeps the locks on until the reinstall; the reinstall removes them only once the
     balance is restored). With ``brake_air`` (the lockout vents an air brake's air and the restoring does not bring
-    it back: ``_brake_air_back``) the air comes back first, with everyone clear (``catalogue.BRAKE_AIR_BACK``).
+    it back: ``brake_air_back``) the air comes back first, with everyone clear (``catalogue.BRAKE_AIR_BACK``).
     """
     if not needs_isolation(hazards):
         return powered + work + restore
     return powered + [LOCKOUT_STEP] + work + [release] + ([BRAKE_AIR_BACK] if brake_air else []) + restore
 
 
-def _brake_air_back(subsystems: Sequence[Subsystem], hazards: Sequence[str], restore: Sequence[str]) -> bool:
+def brake_air_back(subsystems: Sequence[Subsystem], hazards: Sequence[str], restore: Sequence[str]) -> bool:
     """Whether an order over ``subsystems`` adds ``catalogue.BRAKE_AIR_BACK``: its lockout vents the air of an
     air-released brake, and none of its ``restore`` steps (a plan label before one ignored) brings the air back with
     everyone clear (``catalogue.RESTORES_BRAKE_AIR``: an air brake's own plan does).
@@ -222,7 +222,7 @@ def _steps_for(plans: Sequence[ServicePlan], labels: dict[int, str], hazards: Se
     The restoring run puts every plan's return to service (``catalogue.RETURNS_TO_SERVICE``, and whatever that plan
     does after it) after all the plans' other restoring, so an axis drive goes back in service only once its brake's
     air is back and tested. The release names what all their subsystems can set moving (``catalogue.release_step_for``),
-    and an order whose lockout vents brake air with no brake plan to bring it back says so first (``_brake_air_back``).
+    and an order whose lockout vents brake air with no brake plan to bring it back says so first (``brake_air_back``).
     """
     powered, work, restoring, in_service = [], [], [], []
     for plan in plans:
@@ -241,7 +241,7 @@ def _steps_for(plans: Sequence[ServicePlan], labels: dict[int, str], hazards: Se
     restore = _shared_once(restoring + in_service, labels, several)
     return "\n".join(steps_in_groups(
         hazards, _shared_once(powered, labels, several), _labelled(work, labels, several), restore,
-        release_step_for(subsystems), _brake_air_back(subsystems, hazards, restore),
+        release_step_for(subsystems), brake_air_back(subsystems, hazards, restore),
     ))
 
 
@@ -420,7 +420,7 @@ def work_order_ad_hoc(
     hazards = [h for h in HAZARDS if h in set(hazards_of(subsystems, [])) | set(hazards)]
     groups = [[s.strip() for s in text.splitlines() if s.strip()] for text in (powered, steps, restore)]
     lines = steps_in_groups(hazards, *groups, release_step_for(subsystems),
-                            _brake_air_back(subsystems, hazards, groups[2]))
+                            brake_air_back(subsystems, hazards, groups[2]))
     with transaction.atomic():
         order = WorkOrder.objects.create(
             site=site, telescope=telescope, title=title, order_type=order_type, planned_date=planned_date,
