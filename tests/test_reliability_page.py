@@ -580,3 +580,31 @@ def test_the_hours_fitted_leave_out_a_running_interval_of_no_hours_as_the_fit_do
     kind = KindReliability("cooling_fans", "Cooling fans", between=[100.0, 200.0, 300.0], running=[0.0, 495.0])
     assert kind.fit_inputs == "between failures: 100, 200, 300 h; still running (censored): 495 h"
     assert reliability.weibull_fit(kind.between, kind.running).censored == 1
+
+
+def test_the_chart_is_described_in_words_by_the_figures_it_draws(record, client):
+    """For whoever cannot see the picture: the sentence it names (aria-describedby, as the mirror and subsystem pages'
+    charts do) gives each drawn kind's MTBF, its 90 % interval and failures, row by row from the top, and where the
+    axis ends with the intervals that run on past it."""
+    import html
+    import re
+
+    client.force_login(User.objects.get(username="viewer"))
+    page = client.get(reverse("site-reliability", args=[record.slug])).content.decode()
+    assert re.search(r'<svg [^>]*aria-describedby="mtbf-words"', page)
+    words = html.unescape(re.search(r'<figcaption [^>]*id="mtbf-words">(.*?)</figcaption>', page, re.S).group(1))
+    # Bounds 2T / χ²(0.95; 2n+2) and 2T / χ²(0.05; 2n) (NIST/SEMATECH e-Handbook, chapter 8), with scipy.stats.chi2
+    # as the reference. Fans: T = 1,155 h, n = 3 (test_fans_failures_hours_mtbf_and_fit_by_hand); the encoder: 100
+    # nights x 5 h = 500 h, n = 1.
+    fans = (f"Cooling fans and filters 385 h ({2 * 1155 / stats.chi2.ppf(0.95, 8):,.0f} to "
+            f"{2 * 1155 / stats.chi2.ppf(0.05, 6):,.0f} h, 3 failures)")
+    encoder = (f"Encoder scale and read head 500 h ({2 * 500 / stats.chi2.ppf(0.95, 4):,.0f} to "
+               f"{2 * 500 / stats.chi2.ppf(0.05, 2):,.0f} h, 1 failure)")
+    assert fans in words and encoder in words
+    assert "the MTBF in operating hours and its 90 % interval" in words
+    # In the picture's order: its row labels, top first.
+    rows = re.findall(r">([^<>]+) \(\d+ failures?\)</text>", page)
+    assert sorted(rows, key=words.index) == rows and len(rows) == 2
+    # The axis ends at twice the largest MTBF (500 h); both upper bounds lie past it (1,413 h and 9,747 h).
+    assert "The axis runs to 1,000 h; intervals that run on past it: " in words
+    assert all(row in words.split("run on past it: ")[1] for row in rows)

@@ -1,5 +1,5 @@
-"""The sites page's counts, telescopes named with their site where a choice spans sites, and the dust-weighted rate's
-wording (a network manager's review)."""
+"""The sites page's counts, telescopes, subsystems and mirrors named with their site where a choice spans sites, and
+the dust-weighted rate's wording (a network manager's review)."""
 from __future__ import annotations
 
 import datetime as dt
@@ -86,6 +86,87 @@ def test_the_due_lists_telescope_filter_names_each_site(two_sites, users, client
 
 def test_pages_of_one_site_name_a_telescope_without_its_site(two_sites):
     assert str(two_sites[0].telescopes.get(name="MC-80")) == "MC-80 (0.8 m)"
+
+
+# --- subsystems and mirrors named with their telescope and site -----------------------------------------------------
+
+
+def _choices(client, url: str, field: str) -> list[str]:
+    """The labels of a choice's options on an admin page (the empty choice left out)."""
+    page = client.get(url).content.decode()
+    select = re.search(rf'<select name="{field}"[^>]*>(.*?)</select>', page, flags=re.S).group(1)
+    return [html.unescape(label) for label in re.findall(r'<option value="\d+"[^>]*>([^<]*)</option>', select)]
+
+
+@pytest.fixture
+def mirrors_at_two_sites(two_sites):
+    """A "T1: Primary mirror" at each site, each with its mirror record."""
+    from observatory_ops.mirrors.models import Mirror
+    from observatory_ops.registry.models import Subsystem
+    from observatory_ops.registry.services import subsystem_create
+
+    subsystem_create(two_sites[1].telescopes.get(name="T1"), "primary_mirror", "Primary mirror",
+                     counting_from=dt.date(2026, 1, 1))
+    for primary in Subsystem.objects.filter(kind="primary_mirror"):
+        Mirror.objects.create(subsystem=primary, diameter_mm=800, thickness_mm=100, material="borosilicate")
+    return two_sites
+
+
+@pytest.mark.parametrize(("url", "field"), [
+    ("/admin/planning/serviceplan/add/", "subsystem"),
+    ("/admin/registry/subsystem/add/", "parent"),
+])
+def test_a_subsystem_choice_names_each_subsystem_with_its_site_and_telescope(two_sites, admin_client, url, field):
+    # Both sites have a "T1: Limits": without the site the two options read alike.
+    labels = _choices(admin_client, url, field)
+    assert "Site cerro-alto: T1: Limits" in labels and "Site mesa-norte: T1: Limits" in labels
+    assert len(labels) == len(set(labels))
+    # Listed by site, as the labels read: every subsystem of the first site before any of the second.
+    sites = [label.split(": ")[0] for label in labels]
+    assert sites == sorted(sites, key=["Site cerro-alto", "Site mesa-norte"].index)
+
+
+def test_the_mirror_record_offers_each_mirror_subsystem_named_with_its_site(two_sites, admin_client):
+    from observatory_ops.registry.services import subsystem_create
+
+    subsystem_create(two_sites[1].telescopes.get(name="T1"), "primary_mirror", "Primary mirror",
+                     counting_from=dt.date(2026, 1, 1))
+    assert _choices(admin_client, "/admin/mirrors/mirror/add/", "subsystem") == [
+        "Site cerro-alto: T1: Primary mirror", "Site mesa-norte: T1: Primary mirror",
+    ]
+
+
+@pytest.mark.parametrize("url", ["/admin/mirrors/reflectancemeasurement/add/", "/admin/mirrors/recoatplan/add/"])
+def test_a_mirror_choice_names_each_mirror_with_its_site_and_telescope(mirrors_at_two_sites, admin_client, url):
+    assert _choices(admin_client, url, "mirror") == [
+        "Site cerro-alto: T1: Primary mirror", "Site mesa-norte: T1: Primary mirror",
+    ]
+
+
+def test_a_mirror_page_in_the_admin_names_its_own_subsystem_with_its_site(mirrors_at_two_sites, admin_client):
+    from observatory_ops.mirrors.models import Mirror
+
+    mirror = Mirror.objects.get(subsystem__telescope__site=mirrors_at_two_sites[1])
+    labels = _choices(admin_client, f"/admin/mirrors/mirror/{mirror.pk}/change/", "subsystem")
+    assert labels == ["Site mesa-norte: T1: Primary mirror"]  # its own; the other has its mirror record
+
+
+def test_the_subsystem_choice_takes_the_same_queries_however_many_subsystems_it_lists(two_sites, admin_client):
+    """The site and telescope of every option come with the options (one query), not one query per option."""
+    from django.db import connection
+    from django.test.utils import CaptureQueriesContext
+
+    from observatory_ops.registry.services import subsystem_create
+
+    def queries() -> int:
+        with CaptureQueriesContext(connection) as captured:
+            assert admin_client.get("/admin/planning/serviceplan/add/").status_code == 200
+        return len(captured)
+
+    before = queries()
+    for telescope in Telescope.objects.all():
+        subsystem_create(telescope, "cooling_fans", "Spare fans", counting_from=dt.date(2026, 1, 1))
+    assert queries() == before
 
 
 # --- the dust-weighted rate ----------------------------------------------------------------------------------------

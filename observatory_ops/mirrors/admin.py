@@ -7,6 +7,7 @@ from simple_history.admin import SimpleHistoryAdmin
 
 from observatory_ops.logbook.services import date_problem, service_date_problem
 from observatory_ops.planning.admin import RecomputesSite
+from observatory_ops.registry.forms import ProtectedNamed, TelescopesNamedWithSite
 
 from . import services
 from .forms import CoatingEventAdminForm, MirrorAdminForm
@@ -67,13 +68,11 @@ class CleaningInline(admin.TabularInline):
 
 
 @admin.register(Mirror)
-class MirrorAdmin(RecomputesSite, SimpleHistoryAdmin):
+class MirrorAdmin(ProtectedNamed, TelescopesNamedWithSite, RecomputesSite, SimpleHistoryAdmin):
     form = MirrorAdminForm
     list_display = ("subsystem", "diameter_mm", "thickness_mm", "material", "recoat_loss")
     inlines = [CoatingInline, CleaningInline]
-
-    def site_of(self, obj):
-        return obj.subsystem.telescope.site
+    site_path = "subsystem__telescope__site"
 
     def save_formset(self, request, form, formset, change):
         """A coating or a cleaning added (or redated) here restarts the mirror's plans as one logged on the mirror
@@ -100,15 +99,13 @@ class MeasurementAdminForm(forms.ModelForm):
 
 
 @admin.register(ReflectanceMeasurement)
-class ReflectanceMeasurementAdmin(RecomputesSite, SimpleHistoryAdmin):
+class ReflectanceMeasurementAdmin(TelescopesNamedWithSite, RecomputesSite, SimpleHistoryAdmin):
     """Measurements are evidence: added, never changed or deleted."""
 
     form = MeasurementAdminForm
     list_display = ("mirror", "measured_on", "value", "wavelength_nm", "position", "taken_by", "reading")
     readonly_fields = ("reading",)  # set only when a reading is filed here (mirrors.services.measurement_from_reading)
-
-    def site_of(self, obj):
-        return obj.mirror.subsystem.telescope.site
+    site_path = "mirror__subsystem__telescope__site"
 
     def has_change_permission(self, request, obj=None):
         return False
@@ -118,5 +115,5 @@ class ReflectanceMeasurementAdmin(RecomputesSite, SimpleHistoryAdmin):
 
 
 @admin.register(RecoatPlan)
-class RecoatPlanAdmin(SimpleHistoryAdmin):
+class RecoatPlanAdmin(TelescopesNamedWithSite, SimpleHistoryAdmin):
     list_display = ("mirror", "starts_on", "ends_on", "cost")

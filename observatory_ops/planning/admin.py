@@ -1,9 +1,14 @@
+from operator import attrgetter
+
 from django import forms
 from django.contrib import admin, messages
+from django.db import transaction
 from simple_history.admin import SimpleHistoryAdmin
 
 from observatory_ops.logbook.quantities import QUANTITIES, usual_for_kind
-from observatory_ops.registry.forms import HazardsField, TelescopeListFilter
+from observatory_ops.registry.forms import HazardsField, ProtectedNamed, TelescopeListFilter, TelescopesNamedWithSite
+from observatory_ops.registry.models import Site
+from observatory_ops.workorders.models import listed
 
 from .models import BookedRun, ServicePlan, Trigger
 from .services import site_recompute
@@ -12,14 +17,18 @@ from .services import site_recompute
 class RecomputesSite:
     """For admin pages whose changes move due states (the register, plans and triggers, nights, readings,
     service records, mirrors): the site is recomputed as soon as a change is saved, inline rows included,
-    inside the admin's own transaction, so no page shows figures from before the change.
+    inside the admin's own transaction, so no page shows figures from before the change. A deletion recomputes the
+    site the record was at, from its own page or from the list's "delete selected" (each site of the records
+    ticked, once); what stops a deletion (records kept by a protected key) stops both alike, on Django's page.
 
     A change that moves the record to another site (a telescope, a subsystem, a plan or a mirror put under another
     site's) recomputes the site it left, then the one it joined: the states of its plans are stored under the first
     until it is recomputed, and one plan has one state, so the second could not store them before."""
 
+    site_path: str  # the lookup from the record to its site, e.g. "subsystem__telescope__site"
+
     def site_of(self, obj):
-        raise NotImplementedError
+        return attrgetter(self.site_path.replace("__", "."))(obj)
 
     def save_model(self, request, obj, form, change):
         # The site of the record as stored, read before the change is saved (kept on the instance for save_related).
@@ -30,16 +39,26 @@ class RecomputesSite:
         super().save_related(request, form, formsets, change)
         site = self.site_of(form.instance)
         left = getattr(form.instance, "_site_before", None)
-        sites = [left, site] if left is not None and left.pk != site.pk else [site]
-        for each in sites:
-            site_recompute(each)
-        self.message_user(request, f"Due states of {' and '.join(str(each) for each in sites)} recomputed.",
-                          messages.INFO)
+        self._recompute(request, [left, site] if left is not None and left.pk != site.pk else [site])
 
     def delete_model(self, request, obj):
         site = self.site_of(obj)
         super().delete_model(request, obj)
-        site_recompute(site)
+        self._recompute(request, [site])
+
+    def delete_queryset(self, request, queryset):
+        # The list's action runs outside the admin's transaction (a single delete runs inside it): the deletion and
+        # the recomputes are kept together here, so no state outlives the records it was computed from.
+        with transaction.atomic():
+            sites = list(Site.objects.filter(pk__in=queryset.values(self.site_path)).order_by("name"))
+            super().delete_queryset(request, queryset)
+            self._recompute(request, sites)
+
+    def _recompute(self, request, sites: list) -> None:
+        for site in sites:
+            site_recompute(site)
+        self.message_user(request, f"Due states of {listed([str(site) for site in sites])} recomputed.",
+                          messages.INFO)
 
 
 class TriggerInline(admin.TabularInline):
@@ -85,15 +104,13 @@ class ServicePlanAdminForm(forms.ModelForm):
 
 
 @admin.register(ServicePlan)
-class ServicePlanAdmin(RecomputesSite, SimpleHistoryAdmin):
+class ServicePlanAdmin(ProtectedNamed, TelescopesNamedWithSite, RecomputesSite, SimpleHistoryAdmin):
     form = ServicePlanAdminForm
     list_display = ("name", "subsystem", "dust_sensitivity", "counting_from", "counting_from_given", "active")
     list_filter = ("subsystem__telescope__site", ("subsystem__telescope", TelescopeListFilter), "active")
     search_fields = ("name", "subsystem__name")
     inlines = [TriggerInline]
-
-    def site_of(self, obj):
-        return obj.subsystem.telescope.site
+    site_path = "subsystem__telescope__site"
 
 
 @admin.register(BookedRun)

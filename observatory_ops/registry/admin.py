@@ -8,6 +8,7 @@ from observatory_ops.workorders.cautions import HAZARDS
 from .catalogue import kind as catalogue_kind
 from .forms import (
     CrewDaysOffFormSet,
+    ProtectedNamed,
     SiteAdminForm,
     SubsystemAdminForm,
     TelescopeListFilter,
@@ -29,7 +30,7 @@ class CrewDayOffInline(admin.TabularInline):
 
 
 @admin.register(Site)
-class SiteAdmin(SimpleHistoryAdmin):
+class SiteAdmin(ProtectedNamed, SimpleHistoryAdmin):
     form = SiteAdminForm
     inlines = [CrewDayOffInline]
     list_display = ("name", "slug", "position", "elevation_m", "time_zone")
@@ -79,15 +80,13 @@ class SiteAdmin(SimpleHistoryAdmin):
 
 
 @admin.register(Telescope)
-class TelescopeAdmin(RecomputesSite, SimpleHistoryAdmin):
+class TelescopeAdmin(ProtectedNamed, RecomputesSite, SimpleHistoryAdmin):
     """A telescope moved to another site (allowed while nothing is recorded of it: ``Telescope.clean``) takes its
     subsystems' plans along: both sites are recomputed (``RecomputesSite``)."""
 
     list_display = ("name", "site", "aperture_m", "mount")
     list_filter = ("site", "mount")
-
-    def site_of(self, obj):
-        return obj.site
+    site_path = "site"
 
 
 @admin.register(Subsystem)
@@ -102,9 +101,7 @@ class SubsystemAdmin(TelescopesNamedWithSite, RecomputesSite, SimpleHistoryAdmin
     list_display = ("name", "telescope", "kind", "parent", "retired_on")
     list_filter = ("telescope__site", ("telescope", TelescopeListFilter), "kind")
     search_fields = ("name", "serial_number")
-
-    def site_of(self, obj):
-        return obj.telescope.site
+    site_path = "telescope__site"
 
     def save_model(self, request, obj, form, change):
         own = catalogue_kind(obj.kind).hazards

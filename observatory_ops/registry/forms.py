@@ -1,4 +1,6 @@
-"""Form fields and list filters the register's admin pages share."""
+"""Form fields, list filters and admin mixins the admin pages share."""
+from operator import attrgetter
+
 from django import forms
 from django.contrib import admin
 from django.core.exceptions import ValidationError
@@ -8,30 +10,60 @@ from observatory_ops.calc.windows import WEEKDAY_NAMES
 from observatory_ops.registry.models import Site, Telescope
 from observatory_ops.workorders.cautions import HAZARDS
 
+#: The records a choice may list from every site, by model: a telescope, and what is on one (a subsystem, a mirror).
+#: Their names repeat across sites ("MC-80 (0.8 m)") and across telescopes ("Primary mirror"), and a subsystem or a
+#: mirror names its telescope but not its site ("MC-80: Primary mirror"). Each: its way to its site, and the order a
+#: choice lists them in (by site, then telescope, then name, as the labels read).
+ACROSS_SITES = {
+    "registry.telescope": ("site", ("site__name", "name")),
+    "registry.subsystem": ("telescope__site", ("telescope__site__name", "telescope__name", "name")),
+    "mirrors.mirror": ("subsystem__telescope__site",
+                       ("subsystem__telescope__site__name", "subsystem__telescope__name", "subsystem__name")),
+}
 
-class TelescopeChoiceField(forms.ModelChoiceField):
-    """A choice of telescope among every site's, each named with its site (``Telescope.site_label``): two sites may
-    each have an "MC-80 (0.8 m)"."""
 
-    def __init__(self, queryset=None, **kwargs):
-        super().__init__(queryset=(Telescope.objects if queryset is None else queryset).select_related("site"),
-                         **kwargs)
+class NamedWithSiteChoiceField(forms.ModelChoiceField):
+    """A choice among every site's telescopes, subsystems or mirrors (``ACROSS_SITES``), each named after its site as
+    ``Telescope.site_label`` names a telescope: "Cerro Alto: MC-80 (0.8 m)", "Cerro Alto: MC-80: Primary mirror".
+    Whatever queryset it is given, it lists it by site and fetches each record's site with it: one query."""
 
-    def label_from_instance(self, obj: Telescope) -> str:
-        return obj.site_label
+    def _set_queryset(self, queryset):
+        if queryset is not None:
+            site, order = ACROSS_SITES[queryset.model._meta.label_lower]
+            queryset = queryset.select_related(site).order_by(*order)
+        super()._set_queryset(queryset)
+
+    queryset = property(forms.ModelChoiceField._get_queryset, _set_queryset)
+
+    def label_from_instance(self, obj) -> str:
+        site = attrgetter(ACROSS_SITES[obj._meta.label_lower][0].replace("__", "."))(obj)
+        return f"{site.name}: {obj}"
 
 
 class TelescopesNamedWithSite:
-    """An admin whose telescope field chooses among every site's telescopes, each named with its site."""
+    """An admin whose choices of a telescope, a subsystem or a mirror (any foreign key to one: ``ACROSS_SITES``)
+    list every site's, each named with its site (``NamedWithSiteChoiceField``)."""
 
     def formfield_for_foreignkey(self, db_field, request, **kwargs):
-        if db_field.name == "telescope":
-            kwargs["form_class"] = TelescopeChoiceField
+        if db_field.related_model._meta.label_lower in ACROSS_SITES:
+            kwargs["form_class"] = NamedWithSiteChoiceField
         return super().formfield_for_foreignkey(db_field, request, **kwargs)
 
 
+class ProtectedNamed:
+    """An admin whose deletion (from the record's own page or the list's "delete selected") that other records stop,
+    by a protected key (a telescope's subsystems, a plan's service records, a site's nights), names those records on
+    Django's page, as for any protected record. Django also counts them among the records it would delete, and where
+    their own admin deletes nothing (subsystems are retired, the log is never deleted) said only that the account
+    may not delete them: a refusal that read as a missing permission, when nothing would have been deleted."""
+
+    def get_deleted_objects(self, objs, request):
+        deleted, counts, permissions, protected = super().get_deleted_objects(objs, request)
+        return deleted, counts, set() if protected else permissions, protected
+
+
 class TelescopeListFilter(admin.RelatedFieldListFilter):
-    """An admin list's filter by telescope, each named with its site, as ``TelescopeChoiceField`` names them."""
+    """An admin list's filter by telescope, each named with its site, as ``NamedWithSiteChoiceField`` names them."""
 
     def field_choices(self, field, request, model_admin):
         return [(telescope.pk, telescope.site_label) for telescope in Telescope.objects.select_related("site")]

@@ -6,7 +6,7 @@ from observatory_ops.calc import reliability
 from observatory_ops.registry.models import Site
 
 from . import selectors
-from .plots import mtbf_svg
+from .plots import mtbf_svg, mtbf_words
 
 
 @requires(VIEWER)
@@ -19,7 +19,8 @@ def site_reliability(request, slug):
         {
             "site": site,
             "report": report,
-            "chart": mtbf_svg(report.kinds),
+            "chart": mtbf_svg(report.kinds, described_by="mtbf-words"),
+            "chart_words": mtbf_words(report.kinds),
             "confidence_pct": round(reliability.CONFIDENCE * 100),
             # With no failure only the lower bound exists: one-sided, at the confidence of the two-sided one's lower
             # end (90 % two-sided leaves 5 % below, so the bound is a one-sided 95 %).
