@@ -198,3 +198,12 @@ def test_the_work_order_and_isolation_point_admin_name_telescopes_with_their_sit
     for url in ("/admin/workorders/workorder/add/", "/admin/workorders/isolationpoint/add/"):
         page = admin_client.get(url).content.decode()
         assert "Cerro Alto: MC-80" in page and "Lone Fen: MC-80" in page, url
+
+
+def test_a_work_orders_item_and_reading_rows_name_each_subsystem_with_its_site(two_sites, admin_client):
+    # The work order's inline rows (the subsystems it covers, the readings it asks for) chose among every site's
+    # subsystems with nothing to tell two "T1: Limits" apart.
+    page = admin_client.get("/admin/workorders/workorder/add/").content.decode()
+    for prefix in ("items", "required_readings"):
+        select = re.search(rf'<select name="{prefix}-__prefix__-subsystem".*?</select>', page, re.S).group(0)
+        assert "Site cerro-alto: T1: Limits" in select and "Site mesa-norte: T1: Limits" in select, prefix

@@ -509,7 +509,7 @@ def test_a_refused_tick_on_the_page_says_why_and_stores_nothing(draft, users, cl
     assert response["Location"] == f"/workorders/{draft.pk}/#step-1"  # back at the line, as after a tick
     page = client.get(response["Location"]).content.decode()
     assert "Not recorded: ticks are recorded only while the work is underway" in _line(page, "step-1")
-    assert "Ticks can be recorded once the work has started." in page
+    assert "A technician ticks each step and each isolation point once the work has started." in page
     response = _post(client, draft)  # an empty post names no line: the page's top says so
     assert response["Location"] == f"/workorders/{draft.pk}/"
     assert "did not say which line" in client.get(response["Location"]).content.decode()

@@ -24,13 +24,13 @@ class ItemsFixedOnceStarted(BaseInlineFormSet):
                 raise ValidationError(why)
 
 
-class ItemInline(admin.TabularInline):
+class ItemInline(TelescopesNamedWithSite, admin.TabularInline):
     model = WorkOrderItem
     formset = ItemsFixedOnceStarted
     extra = 0
 
 
-class ReadingInline(admin.TabularInline):
+class ReadingInline(TelescopesNamedWithSite, admin.TabularInline):
     model = RequiredReading
     extra = 0
 
