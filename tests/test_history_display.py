@@ -15,7 +15,7 @@ from zoneinfo import ZoneInfo
 import pytest
 from django.template.loader import render_to_string
 
-from observatory_ops.archive.history import UTC, Change, changes, site_of, zone_of
+from observatory_ops.archive.history import KIND, UTC, Change, changes, site_of, zone_of
 from observatory_ops.registry.models import Site, Subsystem, Telescope
 
 DENVER = "America/Denver"
@@ -211,3 +211,22 @@ def test_a_plans_history_holds_its_triggers_changes(telescope, users, client):
     exported = client.get(f"/history/planning.serviceplan/record/{plan.pk}/?export=csv").content.decode()
     assert any(row["what"] == f"{changed.part}: changed" and row["field"] == "limit"
                for row in csv.DictReader(io.StringIO(exported)))
+
+
+def test_a_save_that_changed_nothing_is_not_listed_but_a_change_and_a_reasoned_save_are(denver):
+    # The admin's Save on an unchanged page stores a historical row with no difference: the list showed it as a change
+    # with no fields. The database keeps it; the history lists the changes only, and a save with a reason.
+    drive = denver
+    drive.save()  # nothing changed
+    drive.name = "Azimuth drive (new encoder)"
+    drive.save()
+    drive.save()  # nothing changed again
+    drive._change_reason = "checked after the encoder swap"
+    drive.save()
+    assert drive.history.count() == 5
+    listed = changes(drive)
+    assert len(listed) == 3  # the reasoned save, the change of name, the creation
+    assert listed[0].reason == "checked after the encoder swap" and listed[0].fields == []
+    assert [name for name, _, _ in listed[1].fields] == ["name"]
+    assert listed[2].kind == KIND["+"] and listed[2].fields == []
+    assert len(changes(drive, limit=2)) == 2

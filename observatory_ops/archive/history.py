@@ -137,10 +137,14 @@ def changes(instance: models.Model, limit: int | None = None) -> list[Change]:
 
 def _changes(history, model, zone: zoneinfo.ZoneInfo, limit: int | None, part: str = "") -> list[Change]:
     """The changes of one record's ``history`` (a queryset of its historical rows), newest first; ``part``: what the
-    record is called in its owner's history (its name is added from the row)."""
+    record is called in its owner's history (its name is added from the row). A save that changed no field and gave
+    no reason (the admin's Save pressed on an unchanged page) is left out: the database keeps it, the list would only
+    repeat the record's name."""
     records = list(history.select_related("history_user").order_by("-history_date", "-history_id"))
     out = []
-    for i, record in enumerate(records[: limit or len(records)]):
+    for i, record in enumerate(records):
+        if limit and len(out) == limit:
+            break
         previous = records[i + 1] if i + 1 < len(records) else None
         diffs = []
         if previous is not None and record.history_type == "~":
@@ -148,6 +152,8 @@ def _changes(history, model, zone: zoneinfo.ZoneInfo, limit: int | None, part: s
                 (c.field, _shown(model, c.field, c.old, zone), _shown(model, c.field, c.new, zone))
                 for c in record.diff_against(previous).changes
             ]
+            if not diffs and not record.history_change_reason:
+                continue
         user = record.history_user
         out.append(
             Change(
