@@ -247,8 +247,7 @@ CELERY_BEAT_SCHEDULE = {
     # Every hour: each site from SITE_DIGEST_HOUR local time on whose digest of the day is not sent yet.
     "site-due-digest": {
         "task": "planning.sites_due_digest_all",
-        "schedule": crontab(minute=0),
-        "kwargs": {"local_hour": SITE_DIGEST_HOUR},
+        "schedule": crontab(minute=0),  # the task's hour is SITE_DIGEST_HOUR unless given
     },
     # Sunday 18:00 UTC is Sunday or early Monday at every site: each builds the week starting that Monday.
     "weekly-work-order-batch": {

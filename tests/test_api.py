@@ -277,12 +277,14 @@ FUTURE = object()  # replaced by the site's tomorrow in the test
     ("body", "expected"),
     [
         (b"{not json", [(None, None, "the body is not valid JSON")]),
-        (b"", [(None, None, "the body is not valid JSON")]),
-        (b'{"night": "2024-03-14", "open_hours": 5, "open_hours": 6}', [(None, None, "repeated key(s) in one object")]),
+        (b"", [(None, None, "the body is empty: send one night (a JSON object) or a list of nights")]),
+        (b" \n", [(None, None, "the body is empty")]),
+        (b'{"night": "2024-03-14", "open_hours": 5, "open_hours": 6}',
+         [(0, "open_hours", '"open_hours" is given more than once in this night; send each key once')]),
         (b"[" * 100_000 + b"]" * 100_000, [(None, None, "the body nests lists or objects too deeply")]),
         (b'{"night": "2024-03-14", "open_hours": ' + b"9" * 5_000 + b"}",
          [(None, None, "the body holds a whole number thousands of digits long")]),
-        (b"\xff\xfe\x00{", [(None, None, "the body is not valid JSON")]),
+        (b"\xff\xfe\x00{", [(None, None, "the body is not UTF-8 text (byte 0xff at offset 0): send JSON as UTF-8")]),
         ('"2024-03-14,5"', [(None, None, "the body must be one night (a JSON object) or a list of nights")]),
         ([], [(None, None, "the list of nights is empty")]),
         ([night(), 7], [(1, None, "each night must be an object with the CSV column names as keys, not a number")]),
@@ -292,17 +294,19 @@ FUTURE = object()  # replaced by the site's tomorrow in the test
         ([night(humidity_pct=140)], [(0, "humidity_pct", "humidity_pct cannot be above 100 (got 140)")]),
         ([night(slews=2.5)], [(0, "slews", "slews must be a whole number, not 2.5")]),
         ([night(brake_cycles=2**31)], [(0, "brake_cycles", "brake_cycles cannot be above 10,000")]),
-        ([night(open_hours=True)], [(0, "open_hours", "open_hours must be a number, not True")]),
-        ([night(open_hours="five")], [(0, "open_hours", "open_hours must be a number, not 'five'")]),
+        ([night(open_hours=True)], [(0, "open_hours", "open_hours must be a number, not true")]),
+        ([night(open_hours="five")], [(0, "open_hours", 'open_hours must be a number, not "five"')]),
         (b'{"night": "2024-03-14", "open_hours": NaN}', [(0, "open_hours", "open_hours must be a finite number")]),
-        ([night(dew="maybe")], [(0, "dew", "dew must be yes or no, not 'maybe'")]),
-        ([night(rain=2)], [(0, "rain", "rain must be yes or no, not 2")]),
-        ([night(dome="east")], [(0, "dome", "unknown field 'dome' (known: night, telescope, open_hours,")]),
-        ([night(Open_Hours=5)], [(0, "Open_Hours", "unknown field 'Open_Hours'")]),
+        ([night(dew="maybe")], [(0, "dew", 'dew must be true or false (or "yes" or "no", 1 or 0), not "maybe"')]),
+        ([night(rain=2)], [(0, "rain", 'rain must be true or false (or "yes" or "no", 1 or 0), not 2')]),
+        ([night(dome="east")], [(0, "dome", 'unknown field "dome" (known: night, telescope, open_hours,')]),
+        ([night(Open_Hours=5)], [(0, "Open_Hours", 'unknown field "Open_Hours"')]),
         ([{"night": "2024-03-14"}], [(0, "open_hours", "open_hours is missing")]),
-        ([night(open_hours=None)], [(0, "open_hours", "open_hours is empty")]),
+        ([night(open_hours=None)], [(0, "open_hours", "open_hours cannot be null")]),
+        ([night(open_hours="")], [(0, "open_hours", "open_hours is empty")]),
+        ([night(night=None)], [(0, "night", "night cannot be null")]),
         ([{"open_hours": 5}], [(0, "night", "night is missing")]),
-        ([night(night="14/03/2024")], [(0, "night", "night must be a date as YYYY-MM-DD, not '14/03/2024'")]),
+        ([night(night="14/03/2024")], [(0, "night", 'night must be a date as YYYY-MM-DD, not "14/03/2024"')]),
         ([night(night=20240314)], [(0, "night", "night must be a date as YYYY-MM-DD, not 20240314")]),
         ([night(), night(open_hours=3)], [(1, "night", "night 2024-03-14 already appears at index 0")]),
         (
@@ -415,7 +419,7 @@ def test_a_token_of_one_site_can_neither_write_nor_read_another(client, site, ot
     before = snapshot()
     response = post(client, other_site.slug, night(open_hours=1.0), secret)
     assert response.status_code == 403
-    assert error_body(response)[0]["message"] == "this API token belongs to site 'test-hill', not 'other-mesa'"
+    assert error_body(response)[0]["message"] == 'this API token belongs to site "test-hill", not "other-mesa"'
     assert get_due(client, other_site.slug, secret).status_code == 403
     assert snapshot() == before
 
@@ -423,20 +427,21 @@ def test_a_token_of_one_site_can_neither_write_nor_read_another(client, site, ot
 def test_an_unknown_site_is_404(client, site, secret):
     response = post(client, "nowhere", night(), secret)
     assert response.status_code == 404
-    assert error_body(response)[0]["message"] == "no site with slug 'nowhere'"
+    assert error_body(response)[0]["message"] == 'no site with slug "nowhere"'
     assert get_due(client, "nowhere", secret).status_code == 404
     assert not NightUsage.objects.exists()
 
 
 @pytest.mark.parametrize(("method", "name", "allowed"), [
-    ("get", "api-nights", "POST"), ("put", "api-nights", "POST"), ("delete", "api-nights", "POST"),
-    ("post", "api-due", "GET"), ("patch", "api-due", "GET"),
+    ("get", "api-nights", ["POST"]), ("put", "api-nights", ["POST"]), ("delete", "api-nights", ["POST"]),
+    ("head", "api-nights", ["POST"]), ("post", "api-due", ["GET", "HEAD"]), ("patch", "api-due", ["GET", "HEAD"]),
 ])
 def test_a_wrong_method_is_405_with_the_allowed_one(client, site, secret, method, name, allowed):
     response = getattr(client, method)(reverse(name, args=[site.slug]), HTTP_AUTHORIZATION=f"Bearer {secret}")
     assert response.status_code == 405
-    assert response["Allow"] == allowed
-    assert error_body(response)[0]["message"].endswith(f"use {allowed}")
+    assert response["Allow"] == ", ".join(allowed)
+    if method != "head":  # a HEAD answer has no body
+        assert error_body(response)[0]["message"].endswith(f"use {' or '.join(allowed)}")
     assert not NightUsage.objects.exists()
 
 
@@ -459,7 +464,7 @@ def test_a_body_over_the_limit_is_413_and_one_at_the_limit_is_read(client, store
 
 
 def test_a_body_longer_than_its_declared_length_is_413_too(stored, secret):
-    """Without a Content-Length (e.g. a chunked upload behind a proxy) the view counts the bytes it reads."""
+    """The view counts the bytes it reads rather than trust the stream to end at the declared length."""
     request = RequestFactory().post("/", content_type="application/json", HTTP_AUTHORIZATION=f"Bearer {secret}")
     del request.META["CONTENT_LENGTH"]
     request._stream = BytesIO(padded([night()], views.BODY_MAX_BYTES + 10))
@@ -773,7 +778,7 @@ def test_every_problem_of_a_night_is_reported_each_with_its_field(client, stored
                                                          dome="east")], secret)
     assert response.status_code == 400
     assert [(e["index"], e["field"], e["message"]) for e in error_body(response)] == [
-        (1, "dome", "unknown field 'dome' (known: " + ", ".join(nights_csv.COLUMNS) + ")"),
+        (1, "dome", 'unknown field "dome" (known: ' + ", ".join(nights_csv.COLUMNS) + ")"),
         (1, "slews", "slews cannot be below 0 (got -1)"),
         (1, "humidity_pct", "humidity_pct cannot be above 100 (got 140)"),
     ]

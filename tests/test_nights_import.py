@@ -333,7 +333,7 @@ def test_a_file_with_carriage_returns_alone_between_lines_is_read_line_by_line(s
         (b"night,open_hours\n2024-01-01,-1\n", 2, "open_hours cannot be below 0 (got -1)"),
         (b"night,open_hours\n2024-01-01,24.5\n", 2, "open_hours cannot be above 24 (got 24.5)"),
         (b"night,open_hours\n2024-01-01,5\n2024-01-01,6\n", 3, "night 2024-01-01 already appears on line 2"),
-        (b"night,open_hours\n2024-01-01,five\n", 2, "open_hours must be a number, not 'five'"),
+        (b"night,open_hours\n2024-01-01,five\n", 2, 'open_hours must be a number, not "five"'),
         (b"night,open_hours,slews\n2024-01-01,5,99999999999999999999\n", 2, "slews cannot be above"),
     ],
 )
@@ -501,7 +501,7 @@ def test_command_refuses_a_bad_file_with_each_line_on_stderr_and_stores_nothing(
     with pytest.raises(CommandError, match="2 bad rows; nothing was stored"):
         call_command("import_nights", path, "--site", stored.slug, stdout=StringIO(), stderr=err)
     assert "line 3: open_hours cannot be above 24 (got 30)" in err.getvalue()
-    assert "line 4: slews must be a whole number, not 'many'" in err.getvalue()
+    assert 'line 4: slews must be a whole number, not "many"' in err.getvalue()
     assert snapshot() == before
 
 
@@ -519,7 +519,7 @@ def test_command_with_skip_bad_stores_the_good_rows_and_lists_the_skipped(site, 
     rows = [good_cells(FIRST_NIGHT + dt.timedelta(days=i)) for i in range(3)]
     rows[2][8] = "perhaps"  # line 4
     out, err = run_import(str(csv_file(render(rows))), "--site", site.slug, "--skip-bad")
-    assert "line 4: dew must be yes or no, not 'perhaps'" in err
+    assert 'line 4: dew must be yes or no (also 1 or 0, true or false), not "perhaps"' in err
     assert "2 new, 0 updated, 0 unchanged; 1 bad row skipped." in out
     assert NightUsage.objects.filter(site=site).count() == 2
 
@@ -574,7 +574,7 @@ def test_upload_of_a_bad_file_shows_each_line_and_stores_nothing(technician_clie
     page = response.content.decode()
     assert "Import refused: 2 bad rows; nothing was stored." in page
     assert "<td>2</td><td>open_hours cannot be below 0 (got -1)</td>" in page
-    reason = escape("night must be a date as YYYY-MM-DD, not 'next tuesday'")
+    reason = escape('night must be a date as YYYY-MM-DD, not "next tuesday"')
     assert f"<td>5</td><td>{reason}</td>" in page
     assert snapshot() == before
 
@@ -780,7 +780,7 @@ def test_each_figure_is_accepted_up_to_its_plausibility_bound_and_refused_above_
 def test_a_figure_that_is_not_finite_is_refused(site, column, value):
     cells = {"night": FIRST_NIGHT.isoformat(), "open_hours": "5", column: value}
     report = services.nights_import(site, render([list(cells.values())], ",".join(cells)))
-    assert report.errors == [(2, f"{column} must be a finite number, not {value!r}")]
+    assert report.errors == [(2, f"{column} must be a finite number, not {value}")]
     assert not NightUsage.objects.exists()
 
 
@@ -790,7 +790,7 @@ def test_a_count_written_as_a_whole_decimal_is_accepted_and_a_fraction_refused(s
     stored = NightUsage.objects.get(site=site)
     assert (stored.slews, stored.brake_cycles) == (4, 1000) and isinstance(stored.slews, int)
     report = services.nights_import(site, b"night,open_hours,slews\n2024-01-06,5,4.5\n")
-    assert report.errors == [(2, "slews must be a whole number, not '4.5'")]
+    assert report.errors == [(2, "slews must be a whole number, not 4.5")]
 
 
 def test_every_problem_of_a_row_is_reported_not_only_the_first(site):
@@ -802,7 +802,8 @@ def test_every_problem_of_a_row_is_reported_not_only_the_first(site):
     assert report.summary == "1 bad row; nothing was stored."
     assert report.refused_rows == [(
         2, "open_hours cannot be above 24 (got 30); slews cannot be below 0 (got -1); "
-           "humidity_pct cannot be above 100 (got 140); dew must be yes or no, not 'perhaps'",
+           "humidity_pct cannot be above 100 (got 140); "
+           'dew must be yes or no (also 1 or 0, true or false), not "perhaps"',
     )]
     assert not NightUsage.objects.exists()
 
@@ -1108,7 +1109,7 @@ def test_a_blank_header_over_values_is_named_by_its_position_and_counts_read_as_
         ("2024-04-31", "night 2024-04-31 is no such date (April 2024 has 30 days)"),
         ("2024-13-01", "night 2024-13-01 is no such date (there is no month 13)"),
         ("2024-00-10", "night 2024-00-10 is no such date (there is no month 0)"),
-        ("2024-1-5", "night must be a date as YYYY-MM-DD, not '2024-1-5'"),
+        ("2024-1-5", 'night must be a date as YYYY-MM-DD, not "2024-1-5"'),
     ],
 )
 def test_a_date_written_as_yyyy_mm_dd_that_the_calendar_lacks_is_called_no_such_date(site, night, reason):

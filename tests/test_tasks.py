@@ -209,6 +209,40 @@ def test_the_digest_goes_out_from_the_local_hour_on_once_a_day_at_each_site(mail
     assert [message.subject.split(":")[0] for message in mail.outbox[2:]] == [denver.name] * 2
 
 
+def test_a_digest_run_by_hand_waits_for_the_digest_hour_as_beat_does(mailed_people, monkeypatch):
+    """``celery -A observatory_ops call planning.sites_due_digest_all`` passes no ``local_hour``: it takes
+    SITE_DIGEST_HOUR, so at 03:00 at the site it sends nothing and leaves the day unsent (a default of 0 sent the
+    day's digest then and marked it sent). UTC site: 03:00 UTC is 03:00 there."""
+    from django.conf import settings
+    from django.utils import timezone
+
+    site = site_in_use("by-hand")
+    planning.site_recompute(site)
+    assert settings.SITE_DIGEST_HOUR == 6
+    monkeypatch.setattr(timezone, "now", lambda: dt.datetime(2026, 12, 2, 3, 0, tzinfo=dt.UTC))
+    assert planning_tasks.sites_due_digest_all.delay().get() == 0
+    assert mail.outbox == []
+    site.refresh_from_db()
+    assert site.digest_sent_on is None
+    monkeypatch.setattr(timezone, "now", lambda: dt.datetime(2026, 12, 2, 6, 0, tzinfo=dt.UTC))
+    assert planning_tasks.sites_due_digest_all.delay().get() == 1
+    assert len(mail.outbox) == 2  # one message to each of the two engineers with an address
+
+
+def test_the_digest_command_sends_now_whatever_the_hour(mailed_people, monkeypatch):
+    """README, Schedule: the way to send the day's digest before SITE_DIGEST_HOUR."""
+    from django.core.management import call_command
+    from django.utils import timezone
+
+    site = site_in_use("now")
+    planning.site_recompute(site)
+    monkeypatch.setattr(timezone, "now", lambda: dt.datetime(2026, 12, 2, 3, 0, tzinfo=dt.UTC))
+    call_command("digest", "--site", site.slug, stdout=io.StringIO())
+    assert [message.subject.split(":")[0] for message in mail.outbox] == [site.name] * 2
+    site.refresh_from_db()
+    assert site.digest_sent_on == dt.date(2026, 12, 2)
+
+
 def test_a_digest_lists_the_sites_today_even_when_its_states_are_from_yesterday(mailed_people):
     site = site_in_use("stale")
     planning.site_recompute(site, planning.site_today(site) - dt.timedelta(days=1))

@@ -92,7 +92,7 @@ def test_a_telescope_is_matched_as_registered_else_ignoring_case_and_never_mindi
     assert telescope("", ("North",)) is None  # the whole site's night
     # Names that differ only in case are each reached by writing them as registered.
     assert telescope("t1", ("T1", "t1")) == "t1" and telescope("T1 ", ("T1", "t1")) == "T1"
-    with pytest.raises(nights_csv.RowError, match="telescope 'ab' could be any of Ab, AB") as refused:
+    with pytest.raises(nights_csv.RowError, match='telescope "ab" could be any of Ab, AB') as refused:
         nights_csv.parse_row({"night": "2024-01-05", "open_hours": "5", "telescope": "ab"}, LATEST, ("Ab", "AB"))
     assert refused.value.field == "telescope"
 
@@ -147,7 +147,7 @@ def test_an_unknown_telescope_names_the_line_and_the_sites_telescopes_and_stores
     before = snapshot()
     report = services.nights_import(site, MIXED_FILE.replace(b"2024-01-06,South,0,0", b"2024-01-06,West,0,0"))
     assert [(p.position, p.field, p.reason) for p in report.errors] == [(7, "telescope", (
-        "unknown telescope 'West' (known at this site: North, South); leave it empty for the whole site's night"
+        "unknown telescope \"West\" (known at this site: North, South); leave it empty for the whole site's night"
     ))]
     assert report.summary == "1 bad row; nothing was stored."
     assert snapshot() == before
@@ -155,14 +155,14 @@ def test_an_unknown_telescope_names_the_line_and_the_sites_telescopes_and_stores
 
 def test_a_site_without_telescopes_says_so_when_a_row_names_one(site):
     report = services.nights_import(site, b"night,telescope,open_hours\n2024-01-05,North,5\n")
-    assert report.errors == [(2, "unknown telescope 'North' (this site has no telescope registered); leave it empty "
+    assert report.errors == [(2, "unknown telescope \"North\" (this site has no telescope registered); leave it empty "
                                  "for the whole site's night")]
     assert not NightUsage.objects.exists()
 
 
 def test_every_problem_of_a_row_is_listed_the_unknown_telescope_among_them(site, north):
     report = services.nights_import(site, b"night,telescope,open_hours\n2024-01-05,Nort,25\n")
-    assert report.refused_rows == [(2, "unknown telescope 'Nort' (known at this site: North); leave it empty for the "
+    assert report.refused_rows == [(2, "unknown telescope \"Nort\" (known at this site: North); leave it empty for the "
                                        "whole site's night; open_hours cannot be above 24 (got 25)")]
 
 
@@ -324,7 +324,7 @@ def test_the_upload_page_lists_a_change_of_a_telescopes_night_with_the_telescope
 
 def test_the_upload_page_shows_the_unknown_telescope_on_its_line(client, technician, site, north):
     page = upload(client, site, b"night,telescope,open_hours\n2024-01-05,West,5\n").content.decode()
-    assert ("<td>2</td><td>unknown telescope &#x27;West&#x27; (known at this site: North); leave it empty for the "
+    assert ("<td>2</td><td>unknown telescope &quot;West&quot; (known at this site: North); leave it empty for the "
             "whole site&#x27;s night</td>") in page
     assert not NightUsage.objects.exists()
 
@@ -373,7 +373,7 @@ def test_a_token_of_one_site_naming_another_sites_telescope_is_refused_as_unknow
                                    {"night": "2024-01-05", "telescope": "Mesa 1", "open_hours": 5}], secret)
     assert response.status_code == 400
     assert response.json() == {"errors": [{"index": 1, "field": "telescope", "message": (
-        "unknown telescope 'Mesa 1' (known at this site: North); leave it empty for the whole site's night"
+        "unknown telescope \"Mesa 1\" (known at this site: North); leave it empty for the whole site's night"
     )}]}
     assert snapshot() == before
 

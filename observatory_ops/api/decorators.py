@@ -11,7 +11,7 @@ takes the site's ``slug`` from the URL and receives the Site itself. Every refus
 - a valid token and a site that does not exist: 404;
 - a valid token of another site: 403;
 - a valid token of another purpose (a calendar token posting nights, say): 403;
-- a method not listed: 405.
+- a method not listed: 405 (HEAD is answered wherever GET is, as GET without the body: RFC 9110, section 9.3.2).
 
 The views are exempt from CSRF checks (no cookie is ever read) and keep ``required_role = "api-token"``
 so the project's URL walk can tell API views from the pages behind ``access.decorators.requires``.
@@ -19,6 +19,7 @@ so the project's URL walk can tell API views from the pages behind ``access.deco
 from __future__ import annotations
 
 import datetime as dt
+import json
 from functools import wraps
 
 from django.utils import timezone
@@ -63,6 +64,8 @@ def _calendar_secret(request) -> str | None:
 def api_token_required(*methods: str, purpose: str = ApiToken.Purpose.CONTROL):
     if not methods:
         raise ValueError("name the HTTP methods the view answers, e.g. api_token_required('GET')")
+    if "GET" in methods and "HEAD" not in methods:
+        methods = (*methods, "HEAD")  # the server sends a HEAD answer's headers only
     calendar = purpose == ApiToken.Purpose.CALENDAR
 
     def decorate(view):
@@ -79,14 +82,15 @@ def api_token_required(*methods: str, purpose: str = ApiToken.Purpose.CONTROL):
                 return _unauthorised("the API token is not known", "invalid_token")
             if not token.active:
                 return _unauthorised(
-                    f"the API token '{token.name}' was revoked on "
+                    f"the API token {json.dumps(token.name, ensure_ascii=False)} was revoked on "
                     f"{token.revoked_at.astimezone(token.site.zone):%Y-%m-%d} (at the site)", "invalid_token"
                 )
             site = Site.objects.filter(slug=slug).first()
             if site is None:
-                return error(404, f"no site with slug {slug!r}")
+                return error(404, f"no site with slug {json.dumps(slug)}")
             if site.pk != token.site_id:
-                return error(403, f"this API token belongs to site {token.site.slug!r}, not {slug!r}")
+                return error(403, f"this API token belongs to site {json.dumps(token.site.slug)}, not "
+                                  f"{json.dumps(slug)}")
             if token.purpose != purpose:
                 return error(403, WRONG_PURPOSE[token.purpose])
             if request.method not in methods:

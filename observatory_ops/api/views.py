@@ -7,6 +7,7 @@ import json
 from django.http import HttpResponse, JsonResponse
 
 from observatory_ops.logbook import services
+from observatory_ops.logbook.nights_csv import object_from_pairs
 from observatory_ops.mirrors import calendar_export
 from observatory_ops.planning.selectors import due_record, due_rows
 from observatory_ops.planning.services import sites_bring_up_to_date
@@ -19,15 +20,6 @@ from .responses import error, errors
 BODY_MAX_BYTES = 256 * 1024
 
 
-def _refuse_duplicate_keys(pairs: list[tuple[str, object]]) -> dict:
-    keys = [key for key, _ in pairs]
-    repeated = sorted({key for key in keys if keys.count(key) > 1})
-    if repeated:
-        # The CSV import refuses a repeated column; a JSON object with a repeated key is refused likewise.
-        raise ValueError(f"repeated key(s) in one object: {', '.join(repeated)}")
-    return dict(pairs)
-
-
 def _too_large(size: int | None) -> JsonResponse:
     said = f"{size:,} bytes" if size else f"over {BODY_MAX_BYTES:,} bytes"
     return error(413, f"the body is {said}; the limit is {BODY_MAX_BYTES:,} bytes: send fewer nights at once")
@@ -35,17 +27,29 @@ def _too_large(size: int | None) -> JsonResponse:
 
 @api_token_required("POST")
 def nights_post(request, site):
+    if "HTTP_TRANSFER_ENCODING" in request.META:
+        # Under WSGI Django reads a body only as far as its Content-Length: a chunked body, which has none, would be
+        # read as empty (and one over the limit too). RFC 9110, section 15.5.12: 411 Length Required.
+        return error(411, "send the body with a Content-Length header; chunked transfer encoding is not accepted")
     declared = request.META.get("CONTENT_LENGTH") or ""
     if declared.isdigit() and int(declared) > BODY_MAX_BYTES:
         return _too_large(int(declared))
-    body = request.read(BODY_MAX_BYTES + 1)  # the declared length may be absent or wrong
+    body = request.read(BODY_MAX_BYTES + 1)  # the declared length may be wrong
     if len(body) > BODY_MAX_BYTES:
         return _too_large(None)
+    if not body.strip():
+        return error(400, "the body is empty: send one night (a JSON object) or a list of nights")
     try:
-        payload = json.loads(body, object_pairs_hook=_refuse_duplicate_keys)
+        # RFC 8259, section 8.1: JSON exchanged between systems is UTF-8 (a byte order mark is tolerated).
+        text = body.decode("utf-8-sig")
+    except UnicodeDecodeError as exc:
+        return error(400, f"the body is not UTF-8 text (byte 0x{body[exc.start]:02x} at offset {exc.start}): send "
+                          "JSON as UTF-8")
+    try:
+        payload = json.loads(text, object_pairs_hook=object_from_pairs)
     except RecursionError:
         return error(400, "the body nests lists or objects too deeply: send a night as one object, or a list of them")
-    except ValueError as exc:  # JSONDecodeError and UnicodeDecodeError are ValueErrors
+    except ValueError as exc:  # JSONDecodeError
         if "integer string conversion" in str(exc):  # Python's own limit on a whole number's digits
             return error(400, "the body holds a whole number thousands of digits long: no figure of a night is")
         return error(400, f"the body is not valid JSON: {exc}")
@@ -64,11 +68,12 @@ def nights_post(request, site):
 
 @api_token_required("GET")
 def due_list(request, site):
+    """The site's due list, one object per plan (``planning.selectors.due_record``, as ``due --json`` prints it)."""
     sites_bring_up_to_date([site])
     return JsonResponse([due_record(status) for status in due_rows().filter(site=site)], safe=False)
 
 
-@api_token_required("GET", "HEAD", purpose=ApiToken.Purpose.CALENDAR)  # some applications look with HEAD first
+@api_token_required("GET", purpose=ApiToken.Purpose.CALENDAR)
 def planned_work_calendar(request, site):
     """The site's planned work, as the signed-in download has it, for a calendar application to fetch again and
     again: events keep their UIDs, so a moved or withdrawn order moves or is marked off in the subscriber's

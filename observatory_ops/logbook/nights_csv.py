@@ -22,9 +22,10 @@ import calendar
 import csv
 import datetime as dt
 import io
+import json
 import math
 import re
-import reprlib
+from collections import Counter
 from collections.abc import Mapping, Sequence
 from dataclasses import dataclass, field
 
@@ -47,12 +48,37 @@ _TRUE = {"yes", "y", "true", "1"}
 _FALSE = {"no", "n", "false", "0", ""}
 _JSON_KINDS = {str: "a string", int: "a number", float: "a number", bool: "true or false", list: "a list",
                type(None): "null"}
+#: How many characters of a value a message repeats: enough to recognise it, never a whole 400-digit number.
+SHOWN_MAX = 40
+
+
+def _cut(text: str) -> str:
+    return text if len(text) <= SHOWN_MAX else text[:SHOWN_MAX] + "..."
+
+
+def shown(value: object) -> str:
+    """A value as a message repeats it: as JSON writes it (a CSV cell is text, so in double quotes), cut after
+    ``SHOWN_MAX`` characters: ``"five"``, ``true``, ``null``, ``2.5``, never Python's ``'five'``, ``True`` or
+    ``None``."""
+    if isinstance(value, str):
+        return json.dumps(_cut(value), ensure_ascii=False)
+    return _cut(json.dumps(value, ensure_ascii=False, default=str))
+
+
+def _figure_shown(raw: object) -> str:
+    """A figure as a range message repeats it ("got 24.5"): a CSV cell's text as typed, a JSON number as JSON
+    writes it; cut as ``shown`` cuts."""
+    return _cut(raw.strip()) if isinstance(raw, str) else shown(raw)
 
 
 def _figure(value: float) -> str:
     """A limit as people write it: 24, 10,000, 0.5."""
     return f"{int(value):,}" if float(value).is_integer() else f"{value:g}"
 
+
+#: What a flag column takes, in the words of a CSV cell and of a JSON value: both take both.
+FLAG_ACCEPTED = "yes or no (also 1 or 0, true or false)"
+FLAG_ACCEPTED_JSON = 'true or false (or "yes" or "no", 1 or 0)'
 
 #: What a telescope's blank counter or PM10 stands for, in words (``Column.from_site``).
 SITES_FIGURE = "the site's figure of that night (0 when the row's open hours are 0)"
@@ -86,7 +112,7 @@ class Column:
             return (f"YYYY-MM-DD, begun by now (dated by its evening: before local noon the latest is last night), "
                     f"at most {MAX_YEARS_BACK} years back")
         if self.kind == "flag":
-            return "yes or no (also 1 or 0, true or false)"
+            return FLAG_ACCEPTED
         if self.kind == "telescope":
             return "the name of one of the site's telescopes, as registered (case and spaces around it aside)"
         whole = " (whole number)" if self.kind == "count" else ""
@@ -227,18 +253,24 @@ class FileError(ValueError):
 class ParsedNights:
     """Records checked one by one against the same rules, CSV rows or JSON objects alike.
 
-    ``where`` words a position in the duplicate-night message ("on line", "at index"); ``telescopes`` are the
-    names of the site's telescopes. Each row of ``rows`` holds the values of the columns its record gives,
+    ``as_json``: the records are JSON objects sent to the API (positions are list indexes, and a message words a
+    value as JSON does), else CSV rows (positions are line numbers); ``telescopes`` are the names of the site's
+    telescopes. Each row of ``rows`` holds the values of the columns its record gives,
     night and open_hours always among them; its ``telescope``, when given, is the name as registered (None: the
     whole site's night).
     """
 
     latest_night: dt.date
-    where: str
+    as_json: bool
     telescopes: Sequence[str] = ()
     rows: list[tuple[int, dict]] = field(default_factory=list)  # (position, NightUsage field values)
     errors: list[Problem] = field(default_factory=list)
     _seen: dict[tuple[str | None, dt.date], int] = field(default_factory=dict, repr=False)
+
+    @property
+    def where(self) -> str:
+        """A position, in the words of the duplicate-night message."""
+        return "at index" if self.as_json else "on line"
 
     @property
     def whole_problem(self) -> str | None:
@@ -251,7 +283,7 @@ class ParsedNights:
         A night of the site, or of one telescope, may appear only once among the good records; a record
         refused for its own figures takes no part in that check.
         """
-        values, problems = _checked(record, self.latest_night, self.telescopes)
+        values, problems = _checked(record, self.latest_night, self.telescopes, self.as_json)
         key = (values.get("telescope"), values.get("night"))
         if not problems and key in self._seen:
             whose = f" of telescope {key[0]}" if key[0] else ""
@@ -279,8 +311,7 @@ def _read_number(raw: str | int | float) -> int | float:
 def _number(raw: object, column: Column) -> float | int:
     """A CSV cell or a JSON number within the column's range; a count takes any whole value (4, 4.0, 4e0)."""
     name, whole = column.name, column.kind == "count"
-    shown = raw.strip() if isinstance(raw, str) else repr(raw)
-    wrong_kind = f"{name} must be {'a whole number' if whole else 'a number'}, not {reprlib.repr(raw)}"
+    wrong_kind = f"{name} must be {'a whole number' if whole else 'a number'}, not {shown(raw)}"
     if isinstance(raw, bool) or not isinstance(raw, str | int | float):
         raise RowError(name, wrong_kind)
     try:
@@ -293,19 +324,19 @@ def _number(raw: object, column: Column) -> float | int:
         value = math.inf
     if isinstance(value, float):
         if not math.isfinite(value):
-            raise RowError(name, f"{name} must be a finite number, not {reprlib.repr(raw)}")
+            raise RowError(name, f"{name} must be a finite number, not {_figure_shown(raw)}")
         if whole:
-            if not value.is_integer():
-                raise RowError(name, wrong_kind)
+            if not value.is_integer():  # a number all the same: shown as one
+                raise RowError(name, f"{name} must be a whole number, not {_figure_shown(raw)}")
             value = int(value)
     if column.low is not None and value < column.low:
-        raise RowError(name, f"{name} cannot be below {_figure(column.low)} (got {shown})")
+        raise RowError(name, f"{name} cannot be below {_figure(column.low)} (got {_figure_shown(raw)})")
     if column.high is not None and value > column.high:
-        raise RowError(name, f"{name} cannot be above {_figure(column.high)} (got {shown})")
+        raise RowError(name, f"{name} cannot be above {_figure(column.high)} (got {_figure_shown(raw)})")
     return value
 
 
-def _flag(raw: object, name: str) -> bool:
+def _flag(raw: object, name: str, as_json: bool) -> bool:
     if isinstance(raw, bool):
         return raw
     if isinstance(raw, str):
@@ -316,7 +347,8 @@ def _flag(raw: object, name: str) -> bool:
             return False
     elif isinstance(raw, int) and raw in (0, 1):
         return bool(raw)
-    raise RowError(name, f"{name} must be yes or no, not {reprlib.repr(raw)}")
+    accepted = FLAG_ACCEPTED_JSON if as_json else FLAG_ACCEPTED
+    raise RowError(name, f"{name} must be {accepted}, not {shown(raw)}")
 
 
 def _no_such_date(text: str) -> str | None:
@@ -336,11 +368,10 @@ def _night(raw: object, latest_night: dt.date) -> dt.date:
     try:
         night = dt.date.fromisoformat(raw.strip())
     except (AttributeError, ValueError):
-        shown = raw.strip() if isinstance(raw, str) else raw
-        why = _no_such_date(shown) if isinstance(shown, str) else None
+        why = _no_such_date(raw.strip()) if isinstance(raw, str) else None
         if why:
-            raise RowError("night", f"night {shown} is no such date ({why})") from None
-        raise RowError("night", f"night must be a date as YYYY-MM-DD, not {reprlib.repr(shown)}") from None
+            raise RowError("night", f"night {raw.strip()} is no such date ({why})") from None
+        raise RowError("night", f"night must be a date as YYYY-MM-DD, not {shown(raw)}") from None
     if night > latest_night:
         raise RowError(
             "night", f"night {night} has not begun yet (a night is dated by its evening; the latest that can be "
@@ -364,7 +395,7 @@ def _telescope(raw: object, telescopes: Sequence[str]) -> str:
     ignoring case, so long as that names one telescope (names differing only in case can each be written
     exactly). Surrounding spaces never count."""
     if not isinstance(raw, str):
-        raise RowError("telescope", f"telescope must be a telescope's name, not {reprlib.repr(raw)}")
+        raise RowError("telescope", f"telescope must be a telescope's name, not {shown(raw)}")
     written = raw.strip()
     by_name = {name.strip(): name for name in telescopes}
     if written in by_name:
@@ -373,35 +404,57 @@ def _telescope(raw: object, telescopes: Sequence[str]) -> str:
     if len(alike) == 1:
         return alike[0]
     if alike:
-        raise RowError("telescope", f"telescope {written!r} could be any of {', '.join(alike)}: write the name "
+        raise RowError("telescope", f"telescope {shown(written)} could be any of {', '.join(alike)}: write the name "
                        "as registered")
     known = f"known at this site: {', '.join(telescopes)}" if telescopes else "this site has no telescope registered"
-    raise RowError("telescope", f"unknown telescope {written!r} ({known}); leave it empty for the whole site's night")
+    raise RowError("telescope",
+                   f"unknown telescope {shown(written)} ({known}); leave it empty for the whole site's night")
 
 
-def _value(column: Column, raw: object, latest_night: dt.date, telescopes: Sequence[str], own: bool) -> object:
-    """The value of one cell; ``own``: the record is a telescope's night (``Column.blank_of``)."""
-    if column.kind == "date":
-        return _night(raw, latest_night)
+def _value(
+    column: Column, raw: object, latest_night: dt.date, telescopes: Sequence[str], own: bool, as_json: bool
+) -> object:
+    """The value of one cell; ``own``: the record is a telescope's night (``Column.blank_of``); ``as_json``: it was
+    sent as JSON (``ParsedNights.as_json``)."""
     if _blank(raw):
         if column.required:
-            raise RowError(column.name, f"{column.name} is empty")
+            raise RowError(column.name, f"{column.name} cannot be null" if raw is None else f"{column.name} is empty")
         return column.blank_of(own)
+    if column.kind == "date":
+        return _night(raw, latest_night)
     if column.kind == "telescope":
         return _telescope(raw, telescopes)
     if column.kind == "flag":
-        return _flag(raw, column.name)
+        return _flag(raw, column.name, as_json)
     return _number(raw, column)
 
 
+class SentObject(dict):
+    """A JSON object as ``object_from_pairs`` reads it: each key's value (the last, where a key is repeated), and in
+    ``repeated`` the keys it gives more than once."""
+
+    repeated: tuple[str, ...] = ()
+
+
+def object_from_pairs(pairs: list[tuple[str, object]]) -> SentObject:
+    """``json.loads``'s ``object_pairs_hook`` for nights: a key given twice in one object is refused as a problem of
+    that night, with its index and the key as the field (as the CSV import refuses a repeated column), never taken
+    silently with the last value winning."""
+    sent = SentObject(pairs)
+    sent.repeated = tuple(key for key, count in Counter(key for key, _ in pairs).items() if count > 1)
+    return sent
+
+
 def _checked(
-    record: Mapping[str, object], latest_night: dt.date, telescopes: Sequence[str]
+    record: Mapping[str, object], latest_night: dt.date, telescopes: Sequence[str], as_json: bool
 ) -> tuple[dict, list[tuple[str | None, str]]]:
     """The values of the columns the record gives, and every (field, message) problem found."""
     values, problems = {}, []
     for name in record:
         if name not in COLUMNS:
-            problems.append((name, f"unknown field {name!r} (known: {', '.join(COLUMNS)})"))
+            problems.append((name, f"unknown field {shown(name)} (known: {', '.join(COLUMNS)})"))
+    for name in getattr(record, "repeated", ()):
+        problems.append((name, f"{shown(name)} is given more than once in this night; send each key once"))
     for column in COLUMN_SPECS:
         if column.name not in record:
             if column.required:
@@ -410,13 +463,15 @@ def _checked(
         try:
             # COLUMN_SPECS puts the telescope before the figures whose blank value depends on it.
             own = values.get("telescope") is not None
-            values[column.name] = _value(column, record[column.name], latest_night, telescopes, own)
+            values[column.name] = _value(column, record[column.name], latest_night, telescopes, own, as_json)
         except RowError as exc:
             problems.append((exc.field, str(exc)))
     return values, problems
 
 
-def parse_row(record: Mapping[str, object], latest_night: dt.date, telescopes: Sequence[str] = ()) -> dict:
+def parse_row(
+    record: Mapping[str, object], latest_night: dt.date, telescopes: Sequence[str] = (), as_json: bool = False
+) -> dict:
     """Check one record and return the NightUsage values of the columns it gives.
 
     A record is a CSV row (every value a string) or a JSON object (strings, numbers, booleans, null);
@@ -424,9 +479,9 @@ def parse_row(record: Mapping[str, object], latest_night: dt.date, telescopes: S
     a telescope's night, None for a counter or PM10: the site's figure of that night), whole-number
     columns take no fractions (4.0 is 4), ``dew`` and ``rain`` take yes/no, 1/0, true/false or a JSON
     boolean, ``telescope`` one of ``telescopes`` (the site's telescope names). Raises RowError listing
-    every problem (``field`` names the first).
+    every problem (``field`` names the first); ``as_json`` words them for a JSON object.
     """
-    values, problems = _checked(record, latest_night, telescopes)
+    values, problems = _checked(record, latest_night, telescopes, as_json)
     if problems:
         raise RowError(problems[0][0], "; ".join(message for _, message in problems), problems)
     return values
@@ -435,12 +490,13 @@ def parse_row(record: Mapping[str, object], latest_night: dt.date, telescopes: S
 def parse_objects(records: Sequence[object], latest_night: dt.date, telescopes: Sequence[str] = ()) -> ParsedNights:
     """Check nights sent as JSON objects (keys: the CSV column names); positions are list indexes.
 
-    Every problem of every object is reported with its index and field; an empty list is one problem
-    of the whole body. ``telescopes``: the names of the site's telescopes.
+    Every problem of every object is reported with its index and field (a key an object repeats, read by
+    ``object_from_pairs``, among them); an empty list is one problem of the whole body. ``telescopes``: the
+    names of the site's telescopes.
     """
     if isinstance(records, str | bytes | Mapping) or not isinstance(records, Sequence):
         raise ValueError(f"the nights must be a list of objects, not {type(records).__name__}")
-    result = ParsedNights(latest_night, where="at index", telescopes=telescopes)
+    result = ParsedNights(latest_night, as_json=True, telescopes=telescopes)
     if not records:
         result.refuse(None, "the list of nights is empty")
     for index, record in enumerate(records):
@@ -501,7 +557,7 @@ def parse(text: str, latest_night: dt.date, telescopes: Sequence[str] = ()) -> P
     spreadsheets export the empty columns right of the data that way. ``telescopes``: the names of the
     site's telescopes.
     """
-    result = ParsedNights(latest_night, where="on line", telescopes=telescopes)
+    result = ParsedNights(latest_night, as_json=False, telescopes=telescopes)
     if not text.strip():
         result.refuse(None, f"it is empty; it must hold {WHAT_A_FILE_HOLDS}")
         return result

@@ -4,12 +4,19 @@ from __future__ import annotations
 import datetime as dt
 
 import numpy as np
+from django.conf import settings
 from django.db.models import Count, Prefetch, Q, QuerySet
 
 from observatory_ops.calc import forecast
 from observatory_ops.calc.triggers import OVERDUE, STATUSES
 from observatory_ops.logbook.models import ServiceRecord
-from observatory_ops.logbook.quantities import QUANTITIES, reflectance_text, significant
+from observatory_ops.logbook.quantities import (
+    QUANTITIES,
+    REFLECTANCE_DECIMALS,
+    reflectance_text,
+    significant,
+    unit_of,
+)
 from observatory_ops.registry.catalogue import COMMON_PRACTICE, KINDS
 from observatory_ops.registry.models import Site, Subsystem
 
@@ -204,21 +211,31 @@ def sky_records(site: Site, start: dt.date, end: dt.date) -> list[dict]:
     ]
 
 
+#: Decimals of the due list's value, limit and rate for programs: those every reflectance is written to, the finest
+#: figure the list holds, so a value and its limit are rounded alike and compare digit for digit.
+DUE_RECORD_DECIMALS = REFLECTANCE_DECIMALS
+
+
 def due_record(status: PlanStatus) -> dict:
-    """One plan's due state as a JSON-ready dict (the `due` command and the API use it)."""
+    """One plan's due state as a JSON-ready dict: the one serialiser of ``due --json`` and the API's due list; README.md
+    (Ingest API) lists its keys. ``page`` is the subsystem page's address, built as the due digest builds its links."""
     subsystem = status.plan.subsystem
+    # The recompute keeps a recoat line's figures without a unit; they are a reflectance, a fraction as a reading is.
+    unit = unit_of("reflectance") if status.metric == metrics.RECOAT_LINE else status.unit
     return {
         "site": subsystem.telescope.site.slug,
+        "telescope": subsystem.telescope.name,
         "subsystem": f"{subsystem.telescope.name}: {subsystem.name}",
         "subsystem_id": subsystem.pk,
+        "page": settings.SITE_URL + subsystem.get_absolute_url(),
         "plan": status.plan.name,
         "plan_id": status.plan_id,
         "status": status.status,
         "trigger": status.metric,
-        "value": round(status.value, 3),
-        "limit": status.limit,
-        "unit": status.unit,
-        "rate": None if status.rate_per_day is None else round(status.rate_per_day, 4),
+        "value": round(status.value, DUE_RECORD_DECIMALS),
+        "limit": round(status.limit, DUE_RECORD_DECIMALS),
+        "unit": unit,
+        "rate": None if status.rate_per_day is None else round(status.rate_per_day, DUE_RECORD_DECIMALS),
         "forecast_date": status.forecast_date.isoformat() if status.forecast_date else None,
         "earliest": status.earliest.isoformat() if status.earliest else None,
         "latest": status.latest.isoformat() if status.latest else None,
@@ -243,9 +260,9 @@ def due_csv_row(status: PlanStatus) -> list:
     subsystem = status.plan.subsystem
     record = due_record(status)
     unknown = status.progress == UNKNOWN_PROGRESS  # the page's words for a plan due for a baseline service
-    value, limit, unit = record["value"], status.limit, status.unit
+    value, limit, unit = record["value"], status.limit, record["unit"]
     if status.metric == metrics.RECOAT_LINE:  # a reflectance, written as every page writes one
-        value, limit, unit = reflectance_text(status.value), reflectance_text(status.limit), "fraction"
+        value, limit = reflectance_text(status.value), reflectance_text(status.limit)
     from .services import site_today  # services reads this module
 
     last = status.last_service_on.isoformat() if status.last_service_on else "not known" if \

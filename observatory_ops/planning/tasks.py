@@ -7,6 +7,7 @@ from __future__ import annotations
 import datetime as dt
 
 from celery import shared_task
+from django.conf import settings
 from django.db import transaction
 from django.utils import timezone
 
@@ -52,10 +53,16 @@ def sites_recompute_all(stale_only: bool = False) -> int:
 
 
 @shared_task(base=ServiceTask, name="planning.sites_due_digest_all")
-def sites_due_digest_all(local_hour: int = 0) -> int:
+def sites_due_digest_all(local_hour: int | None = None) -> int:
     """Send the due digest of each site where it is ``local_hour`` o'clock or later in its own time zone and
     whose digest of the day is not sent yet (the hourly beat entry: the engineers' morning, whenever the
-    workers run). Returns the number of sites asked."""
+    workers run). Returns the number of sites asked.
+
+    ``local_hour`` is ``settings.SITE_DIGEST_HOUR`` unless given, so a run by hand (``celery call``) before that
+    hour sends nothing yet, as beat's would not: it would otherwise send the day's digest at 03:00 and mark the day
+    sent. The ``digest`` command sends it now."""
+    if local_hour is None:
+        local_hour = settings.SITE_DIGEST_HOUR
     now = timezone.now()
     sites = [
         site for site in Site.objects.order_by("pk")

@@ -1,0 +1,127 @@
+"""Specifications for the due list as programs read it (``planning.selectors.due_record``): the one serialiser of the
+API's due list and of ``due --json``, every key documented in README.md, and figures a program can trace and compare.
+"""
+from __future__ import annotations
+
+import datetime as dt
+import json
+import re
+from io import StringIO
+from pathlib import Path
+
+import pytest
+from conftest import site_in_use
+from django.conf import settings
+from django.core.management import call_command
+from django.urls import reverse
+from django.utils import timezone
+
+from observatory_ops.api import services as api_services
+from observatory_ops.calc.triggers import STATUSES
+from observatory_ops.planning import metrics
+from observatory_ops.planning.models import PlanStatus
+from observatory_ops.planning.selectors import due_record, due_rows
+from observatory_ops.planning.services import site_recompute
+from observatory_ops.registry.services import subsystem_create
+
+pytestmark = pytest.mark.django_db
+README = (Path(__file__).resolve().parent.parent / "README.md").read_text()
+KEYS, TRIGGERS = "| key | meaning |", "| `trigger` | what it counts | `unit` |"
+
+
+def readme_table(header: str) -> dict[str, str]:
+    """The rows of README.md's table whose header line begins ``header``: each backquoted name in the first cell (a
+    cell may name two keys) to the row's other cells."""
+    table = README.split(f"\n{header}", 1)[1].split("\n\n", 1)[0]
+    rows = {}
+    for line in table.splitlines()[2:]:
+        first, *rest = line.strip("|").split(" | ")
+        for name in re.findall(r"`([^`]+)`", first):
+            rows[name] = " | ".join(rest)
+    return rows
+
+
+@pytest.fixture
+def due_site(db):
+    """A site in use with its states computed (catalogue plans of four kinds, 60 nights logged)."""
+    site = site_in_use("due-keys")
+    site_recompute(site)
+    return site
+
+
+def test_every_key_of_the_due_list_is_documented_in_the_readme_and_no_other(due_site):
+    records = [due_record(status) for status in due_rows().filter(site=due_site)]
+    assert records and {tuple(record) for record in records} == {tuple(readme_table(KEYS))}
+
+
+def test_the_readme_lists_every_trigger_code_with_its_unit_and_every_status():
+    triggers = readme_table(TRIGGERS)
+    assert set(triggers) == set(metrics.METRICS)
+    for code, (_label, unit) in metrics.METRICS.items():
+        if unit:  # a reading's unit is its quantity's; a recoat line's is given by the serialiser
+            assert f"`{unit}`" in triggers[code], code
+    assert "`fraction`" in triggers[metrics.RECOAT_LINE]
+    status = readme_table(KEYS)["status"]
+    assert [s for s in STATUSES if f"`{s}`" in status] == list(STATUSES)
+    assert "Look ahead days" in status  # the site's look-ahead (calc.triggers.due_status), named as the admin names it
+
+
+def test_the_api_and_the_due_command_give_the_same_records(client, due_site):
+    secret = api_services.api_token_create(due_site, "dome computer")[1]
+    api = client.get(reverse("api-due", args=[due_site.slug]), HTTP_AUTHORIZATION=f"Bearer {secret}").json()
+    out = StringIO()
+    call_command("due", "--site", due_site.slug, "--json", stdout=out)
+    assert api == json.loads(out.getvalue()) and len(api) == PlanStatus.objects.filter(site=due_site).count()
+
+
+def test_each_record_names_its_telescope_and_links_its_subsystem_page_as_the_digest_does(client, due_site, users):
+    """Programs need not split "T1: Primary mirror"; the page is SITE_URL and the subsystem's path, as in the digest
+    (planning/templates/planning/due_digest.txt)."""
+    client.force_login(users["viewer"])
+    for status in due_rows().filter(site=due_site):
+        record, subsystem = due_record(status), status.plan.subsystem
+        assert record["telescope"] == subsystem.telescope.name == "T1"
+        assert record["subsystem"] == f"T1: {subsystem.name}"
+        assert record["page"] == f"{settings.SITE_URL}/subsystems/{subsystem.pk}/"
+        assert client.get(record["page"].removeprefix(settings.SITE_URL)).status_code == 200
+
+
+def test_an_overdue_item_gives_the_past_day_it_was_reached(due_site):
+    """README: on an overdue item forecast_date is the day the limit was reached, in the past. The site's plans count
+    from 100 days ago (tests/conftest.py site_in_use), so a 30-day calendar limit was reached 70 days ago."""
+    today = timezone.now().date()  # the site is at UTC
+    plan = next(s.plan for s in due_rows().filter(site=due_site))
+    plan.triggers.all().delete()
+    plan.triggers.create(metric=metrics.CALENDAR_DAYS, limit=30)
+    site_recompute(due_site)
+    record = due_record(PlanStatus.objects.get(plan=plan))
+    reached = (today - dt.timedelta(days=100) + dt.timedelta(days=30)).isoformat()
+    assert (record["status"], record["trigger"], record["value"], record["limit"], record["unit"]) == (
+        "overdue", "calendar_days", 100, 30, "days"
+    )
+    assert record["forecast_date"] == record["earliest"] == record["latest"] == reached < today.isoformat()
+
+
+def test_a_recoat_line_gives_its_value_and_limit_alike_rounded_as_a_fraction(telescope):
+    """A reviewer read "value": 0.837 beside "limit": 0.8280808461857818 and "unit": "". Both are reflectances: to
+    4 decimals, as every page writes one (logbook.quantities.REFLECTANCE_DECIMALS), in the unit a reflectance
+    reading has ("fraction", logbook.quantities.QUANTITIES)."""
+    mirror = subsystem_create(telescope, "primary_mirror", "Primary mirror", counting_from=dt.date(2026, 1, 1))
+    status = PlanStatus(
+        plan=mirror.plans.first(), site=telescope.site, status="later", urgency=2, metric=metrics.RECOAT_LINE,
+        value=0.83698, limit=0.8280808461857818, unit="", rate_per_day=None, forecast_date=dt.date(2027, 1, 20),
+        earliest=dt.date(2027, 1, 13), latest=dt.date(2027, 1, 27), reason="", computed_at=timezone.now(),
+    )
+    record = due_record(status)
+    assert (record["value"], record["limit"], record["unit"], record["rate"]) == (0.837, 0.8281, "fraction", None)
+
+
+def test_other_figures_keep_four_decimals_alike(telescope):
+    brake = subsystem_create(telescope, "brake", "Brake", counting_from=dt.date(2026, 1, 1))
+    status = PlanStatus(
+        plan=brake.plans.first(), site=telescope.site, status="later", urgency=2, metric=metrics.READING,
+        value=4.123456, limit=4.5, unit="bar", rate_per_day=-0.0123456, forecast_date=None, earliest=None, latest=None,
+        reason="", computed_at=timezone.now(),
+    )
+    record = due_record(status)
+    assert (record["value"], record["limit"], record["unit"], record["rate"]) == (4.1235, 4.5, "bar", -0.0123)
