@@ -140,11 +140,22 @@ def constant_sky(site, first: dt.date, last: dt.date) -> None:
     )
 
 
+def _in_admin(users, client, role: str):
+    users[role].is_staff = True  # the admin needs staff status; the role group gives the permissions
+    users[role].save()
+    client.force_login(users[role])
+    return client
+
+
 @pytest.fixture
 def engineer_in_admin(users, client):
     """The test client signed in as the engineer with staff status, as an engineer who edits the register in the admin
     is (README, Users)."""
-    users["engineer"].is_staff = True
-    users["engineer"].save()
-    client.force_login(users["engineer"])
-    return client
+    return _in_admin(users, client, "engineer")
+
+
+@pytest.fixture
+def administrator_in_admin(users, client):
+    """The test client signed in as the administrator with staff status: deleting records, people and API tokens is
+    theirs, not the engineer's."""
+    return _in_admin(users, client, "administrator")

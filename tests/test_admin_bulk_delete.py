@@ -25,15 +25,6 @@ STALE = "left stale by hand"
 
 
 @pytest.fixture
-def administrator_in_admin(users, client):
-    """The test client signed in as the administrator with staff status (deleting is theirs, not the engineer's)."""
-    users["administrator"].is_staff = True
-    users["administrator"].save()
-    client.force_login(users["administrator"])
-    return client
-
-
-@pytest.fixture
 def two_sites():
     """Two sites in use, each with a primary mirror (and its mirror record) and a telescope with nothing registered,
     their due states stored, then marked stale: a recompute writes them afresh."""

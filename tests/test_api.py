@@ -627,11 +627,9 @@ def test_command_names_an_unknown_site_or_token(site):
 
 
 @pytest.fixture
-def admin_client(client, users):
-    users["administrator"].is_staff = True
-    users["administrator"].save()
-    client.force_login(users["administrator"])
-    return client
+def admin_client(administrator_in_admin):
+    """The administrator in the admin (conftest.py)."""
+    return administrator_in_admin
 
 
 def test_admin_creates_a_token_and_shows_its_secret_once(admin_client, client, site, users):

@@ -25,11 +25,9 @@ pytestmark = pytest.mark.django_db
 
 
 @pytest.fixture
-def admin_client(users, client):
-    users["administrator"].is_staff = True  # the admin needs staff status; the role group gives the permissions
-    users["administrator"].save()
-    client.force_login(users["administrator"])
-    return client
+def admin_client(administrator_in_admin):
+    """The administrator in the admin (conftest.py)."""
+    return administrator_in_admin
 
 
 @pytest.fixture

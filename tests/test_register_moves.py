@@ -39,11 +39,9 @@ pytestmark = pytest.mark.django_db
 
 
 @pytest.fixture
-def engineer(users, client):
-    users["engineer"].is_staff = True
-    users["engineer"].save()
-    client.force_login(users["engineer"])
-    return client
+def engineer(engineer_in_admin):
+    """The engineer in the admin (conftest.py)."""
+    return engineer_in_admin
 
 
 @pytest.fixture

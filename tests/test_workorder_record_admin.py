@@ -22,11 +22,9 @@ RECORD_NOTE = (
 
 
 @pytest.fixture
-def administrator(users, client):
-    users["administrator"].is_staff = True
-    users["administrator"].save()
-    client.force_login(users["administrator"])
-    return client
+def administrator(administrator_in_admin):
+    """The administrator in the admin (conftest.py)."""
+    return administrator_in_admin
 
 
 @pytest.fixture
