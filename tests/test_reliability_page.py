@@ -562,7 +562,7 @@ def test_the_service_records_of_a_period_download_as_csv_with_how_each_counts(re
     # A reviewer summed hours_spent and got more than the page: counted_hours is what the page adds up.
     assert [r["counted_hours"] for r in rows] == ["1.0", "2.0", "", "0.5", "", ""]
     assert client.get(f"/sites/{record.slug}/service-records.csv?from=2026-03-32").status_code == 400
-    # A reversed period typed on the reliability page's form gets a page in words with the way back to that form.
+    # A reversed period asked for from the reliability page gets a page in words with the way back to it.
     reversed_period = client.get(f"/sites/{record.slug}/service-records.csv?from=2026-04-02&to=2026-04-01",
                                  HTTP_REFERER=f"http://testserver/sites/{record.slug}/reliability/")
     assert reversed_period.status_code == 400

@@ -52,9 +52,10 @@ def mtbf_svg(kinds: list[KindReliability], described_by: str = "") -> SafeString
     return chart.svg()
 
 
-def mtbf_words(kinds: list[KindReliability]) -> str:
-    """What ``mtbf_svg`` draws, in words, for whoever cannot see it: each charted kind's MTBF, its interval and its
-    failures, top row first, and the intervals that run on past the axis's end; "" when nothing is drawn."""
+def mtbf_words(kinds: list[KindReliability], period: str) -> str:
+    """What ``mtbf_svg`` draws, in words, for whoever cannot see it: the period its figures cover (``period``, as
+    ``SiteReliability.period_words`` says it), each charted kind's MTBF, its interval and its failures, top row first,
+    and the intervals that run on past the axis's end; "" when nothing is drawn."""
     rows = charted(kinds)
     if not rows:
         return ""
@@ -63,8 +64,8 @@ def mtbf_words(kinds: list[KindReliability]) -> str:
         f"{k.label} {k.mtbf.mtbf_hours:,.0f} h ({k.mtbf.lower_hours:,.0f} to {k.mtbf.upper_hours:,.0f} h, "
         f"{k.failures} failure{'s' if k.failures != 1 else ''})" for k in rows
     )
-    words = (f"The picture, kind by kind from the top: the MTBF in operating hours and its "
-             f"{round(CONFIDENCE * 100)} % interval: {each}. The axis runs to {x_high:,.0f} h")
+    words = (f"The picture, of the failures and operating hours {period}, kind by kind from the top: the MTBF in "
+             f"operating hours and its {round(CONFIDENCE * 100)} % interval: {each}. The axis runs to {x_high:,.0f} h")
     past = [k.label for k in rows if k.mtbf.upper_hours > x_high]
     if past:
         words += f"; intervals that run on past it: {'; '.join(past)}"

@@ -11,6 +11,9 @@ site's rows, or the telescope's own where it sends them; a shared enclosure's, t
 each subsystem over the nights it was in service (from its "in service since" date where one is given, else from
 the earliest day the record shows it in service, see ``START_BASES``). Maintenance hours are those of the service
 records. A fixed handful of queries for a site, whatever its size (tests/test_reliability_page.py counts them).
+
+The figures cover a period: by default the whole record (every logged night to the site's today, every failure) and
+the last 12 months' maintenance hours; or a ``Period`` chosen on the page, which every figure then covers alike.
 """
 from __future__ import annotations
 
@@ -24,7 +27,7 @@ from django.db.models import Min
 
 from observatory_ops.calc import reliability
 from observatory_ops.calc.night_of import night_of
-from observatory_ops.logbook.models import WITHOUT_ORDER_OR_PLAN, ServiceRecord, maintenance_type
+from observatory_ops.logbook.models import WITHOUT_ORDER_OR_PLAN, NightUsage, ServiceRecord, maintenance_type
 from observatory_ops.planning.models import ServicePlan
 from observatory_ops.planning.services import UsageLog, site_today
 from observatory_ops.registry.catalogue import KINDS
@@ -52,6 +55,26 @@ PLANS_COUNTING_FROM = "the plans' earliest counting-from date"
 REGISTERED = "the day registered"
 FIRST_NIGHT = "the first logged night"
 START_BASES = (IN_SERVICE_SINCE, FIRST_SERVICE, PLANS_COUNTING_FROM, REGISTERED, FIRST_NIGHT)
+
+
+@dataclass(frozen=True)
+class Period:
+    """Days at the site, both included, that the figures cover when an engineer chooses them: the open hours of the
+    nights dated in it, the failures whose repair was done in it, the service records done in it.
+
+    Each subsystem counts the nights of the period it was in service (the rules of the whole record, cut to the
+    period): one put in service part way counts from the day its hours count from, one retired part way to the day it
+    was retired; one retired before the period or put in service after it is not in it. Its hours in the period start
+    as from new at the period's first night (or the later day it entered service), as a subsystem in service before
+    the log began starts at the first logged night: the fit does not know its age then."""
+
+    first: dt.date
+    last: dt.date
+
+
+def first_logged_night(site: Site) -> dt.date | None:
+    """The site's first logged night (any telescope's or the whole site's): a chosen period starts no earlier."""
+    return NightUsage.objects.filter(site=site).aggregate(first=Min("night"))["first"]
 
 
 @dataclass(frozen=True)
@@ -107,10 +130,11 @@ def left_out_reason(
 
 class Failure(NamedTuple):
     """A failure counted: whose, on which night, the corrective order that repaired it, and the subsystem's counted
-    operating hours up to it (as the MTBF and the fit take it)."""
+    operating hours up to it (as the MTBF and the fit take it: within the period, when one is chosen)."""
 
     subsystem: str
     night: dt.date
+    repaired_on: dt.date  # the day the repair was done: what places the failure in a period
     order_number: str  # "" for a repair logged without an order (``ServiceRecord.repaired_failure``)
     order_id: int | None
     hours: float = 0.0
@@ -190,7 +214,10 @@ class SiteReliability:
     first_night: dt.date | None
     last_night: dt.date | None
     kinds: list[KindReliability]
-    hours_since: dt.date
+    kinds_with_hours: list[KindReliability]  # the maintenance hours' rows
+    period: Period | None  # None: the whole record, and the last 12 months' maintenance hours
+    hours_since: dt.date  # the maintenance hours' first and last days
+    hours_until: dt.date
     hours_by_type: dict[str, float]
     records_in_window: int
     records_without_hours: int  # of those, records whose hours are not known: they count none
@@ -199,6 +226,15 @@ class SiteReliability:
     @property
     def hours_total(self) -> float:
         return sum(self.hours_by_type.values())
+
+    @property
+    def period_words(self) -> str:
+        """The days the failures, operating hours and MTBF cover, as the chart's words say them."""
+        if self.period:
+            return f"from {self.period.first:%d %b %Y} to {self.period.last:%d %b %Y}"
+        if self.first_night:
+            return f"from the first logged night, {self.first_night:%d %b %Y}, to today, {self.today:%d %b %Y}"
+        return f"to today, {self.today:%d %b %Y} (no night logged)"
 
 
 def _starts(subsystems: list[tuple], site: Site, first_night: dt.date | None, today: dt.date) -> dict[int, Start]:
@@ -233,11 +269,14 @@ def _starts(subsystems: list[tuple], site: Site, first_night: dt.date | None, to
     return {pk: given.get(pk) or shown.get(pk) or Start(names[pk], first_night or today, FIRST_NIGHT) for pk in names}
 
 
-def site_reliability(site: Site, today: dt.date | None = None) -> SiteReliability:
+def site_reliability(site: Site, today: dt.date | None = None, period: Period | None = None) -> SiteReliability:
     """Per subsystem kind at ``site``: subsystems in service, failures, operating hours, MTBF with its 90 %
-    interval, the Weibull fit where there are enough failures, and the last 12 months' maintenance hours by
-    order type (an order's hours shared equally among the subsystems it names, as its service records are)."""
+    interval, the Weibull fit where there are enough failures, and maintenance hours by order type (an order's hours
+    shared equally among the subsystems it names, as its service records are); over ``period`` (``Period``), or by
+    default the whole record and the last 12 months' maintenance hours."""
     today = today or site_today(site)
+    # The days whose nights, failures and service count: without a period, every one up to today.
+    first, last = (period.first, period.last) if period else (None, today)
     subsystems = list(
         Subsystem.objects.filter(telescope__site=site)
         .values_list("pk", "telescope__name", "name", "kind", "retired_on", "telescope_id", "in_service_since")
@@ -264,15 +303,18 @@ def site_reliability(site: Site, today: dt.date | None = None) -> SiteReliabilit
     ).annotate(repaired_on=work_done_on_of("work_order_id")).values_list(
         "subsystem_id", "work_order_id", "work_order__finished_at", "repaired_on"
     ):
-        night = repaired_on - dt.timedelta(days=1) if repaired_on else night_of(finished_at, site.time_zone)
-        failed_at[subsystem_id].append(Failure("", night, WorkOrder(pk=order_id).number, order_id))
+        if repaired_on:
+            night = repaired_on - dt.timedelta(days=1)
+        else:
+            night, repaired_on = night_of(finished_at, site.time_zone), finished_at.astimezone(site.zone).date()
+        failed_at[subsystem_id].append(Failure("", night, repaired_on, WorkOrder(pk=order_id).number, order_id))
     # A repair logged on the subsystem's page without an order (``ServiceRecord.repaired_failure``), as it stands now:
     # a correction carries the mark, a withdrawn record counts no failure.
     for subsystem_id, repaired_on in ServiceRecord.objects.filter(
         subsystem__telescope__site=site, repaired_failure=True, work_order__isnull=True, corrected_by__isnull=True,
         void=False,
     ).values_list("subsystem_id", "performed_on"):
-        failed_at[subsystem_id].append(Failure("", repaired_on - dt.timedelta(days=1), "", None,
+        failed_at[subsystem_id].append(Failure("", repaired_on - dt.timedelta(days=1), repaired_on, "", None,
                                                subsystem_id=subsystem_id))
 
     kinds = {code: KindReliability(code, spec.label) for code, spec in KINDS.items()}
@@ -280,24 +322,34 @@ def site_reliability(site: Site, today: dt.date | None = None) -> SiteReliabilit
     for pk, _, _, kind, retired_on, telescope_id, _ in subsystems:
         row = kinds.setdefault(kind, KindReliability(kind, kind))
         kind_of[pk] = row
-        row.counted += 1
-        row.in_service += retired_on is None
-        row.starts.append(starts[pk])
-        end = min(retired_on, today + dt.timedelta(days=1)) if retired_on else today + dt.timedelta(days=1)
         start = starts[pk]
+        # A failure is the period's when its repair was done in it.
+        repaired = [f for f in failed_at.get(pk, []) if (first is None or f.repaired_on >= first)
+                    and f.repaired_on <= last]
+        # A period holds the subsystems in service during it: put in service by its last day, not retired before its
+        # first (or with a repair done in it: one retired the day before it began, say).
+        if period and (start.day > last or (retired_on and retired_on < first)) and not repaired:
+            continue
+        row.counted += 1
+        row.in_service += retired_on is None or retired_on > last
+        row.starts.append(start)
+        # Its nights: from the day its hours count from (or the period's first) to the day before it was retired (or
+        # the period's last).
+        end = min(retired_on, last + dt.timedelta(days=1)) if retired_on else last + dt.timedelta(days=1)
         key = UsageLog.key_for(logs, telescope_id, is_shared_enclosure(site, kind))
         own_first = logs[key].nights[0].astype(dt.date) if len(logs[key].nights) else None
-        base = hours_before(key, start.day)
+        base = hours_before(key, max(start.day, first) if first else start.day)
         total = max(hours_before(key, end) - base, 0.0)
         failed = []
-        for failure in sorted(failed_at.get(pk, []), key=lambda f: (f.night, f.order_number)):
+        for failure in sorted(repaired, key=lambda f: (f.night, f.order_number)):
             reason = left_out_reason(failure.night, start, own_first, retired_on)
             if reason:
                 row.left_out.append(LeftOut(start.subsystem, failure.night, reason))
             else:
                 failed.append(failure._replace(subsystem=start.subsystem))
         # A failure belongs to the nights up to and including its night; one on the night of the day the subsystem
-        # was retired (a night its hours no longer count) stays at the end of its hours.
+        # was retired (a night its hours no longer count) stays at the end of its hours. One repaired on a period's
+        # first day failed on the night before it: at 0 h of the period.
         at = [min(hours_before(key, f.night + dt.timedelta(days=1)) - base, total) for f in failed]
         row.counted_failures += [f._replace(hours=hours) for f, hours in zip(failed, at, strict=True)]
         between, running = reliability.times_between_failures(at, total)
@@ -306,15 +358,15 @@ def site_reliability(site: Site, today: dt.date | None = None) -> SiteReliabilit
         row.between += [float(t) for t in between]
         row.running.append(running)
 
-    # Maintenance hours: the hours of the service records of the last 12 months (a work order's shared among the
-    # subsystems it names when it was finished), by the type of the order that wrote them, or logged without one.
-    # Records since corrected count as corrected; withdrawn ones not at all; those whose hours are not known count
-    # none, and are counted apart so the page can say how many.
-    since = today - dt.timedelta(days=HOURS_WINDOW_DAYS)
+    # Maintenance hours: the hours of the service records of the period, by default the last 12 months (a work
+    # order's shared among the subsystems it names when it was finished), by the type of the order that wrote them, or
+    # logged without one. Records since corrected count as corrected; withdrawn ones not at all; those whose hours are
+    # not known count none, and are counted apart so the page can say how many.
+    since = first if period else today - dt.timedelta(days=HOURS_WINDOW_DAYS - 1)
     site_hours = dict.fromkeys(HOURS_COLUMNS, 0.0)
     records = without_hours = 0
     for subsystem_id, hours, order_type, plan_id, repair in ServiceRecord.objects.filter(
-        subsystem__telescope__site=site, performed_on__gt=since, performed_on__lte=today,
+        subsystem__telescope__site=site, performed_on__gte=since, performed_on__lte=last,
         corrected_by__isnull=True, void=False,
     ).values_list("subsystem_id", "hours_spent", "work_order__order_type", "plan_id", "repaired_failure"):
         column = maintenance_type(order_type, plan_id, repair)
@@ -344,7 +396,11 @@ def site_reliability(site: Site, today: dt.date | None = None) -> SiteReliabilit
         first_night=first_night,
         last_night=last_night,
         kinds=shown,
-        hours_since=since + dt.timedelta(days=1),
+        # With a period, service on a subsystem outside it (retired before it began) still counts in its kind's hours.
+        kinds_with_hours=[row for row in kinds.values() if row.hours_total],
+        period=period,
+        hours_since=since,
+        hours_until=last,
         hours_by_type=site_hours,
         records_in_window=records,
         records_without_hours=without_hours,
