@@ -8,6 +8,7 @@ from __future__ import annotations
 
 import datetime as dt
 import zoneinfo
+from collections import defaultdict
 from dataclasses import dataclass, field
 
 from django.apps import apps
@@ -112,13 +113,22 @@ def _shown(model, name: str, value, zone: zoneinfo.ZoneInfo) -> tuple[str, str]:
         return text, text
     if isinstance(value, dt.datetime) and value.tzinfo is not None:
         return dateformat.format(value.astimezone(zone), SHOWN_TIME), value.astimezone(dt.UTC).isoformat()
+    if model_field.many_to_many:  # the ids it held (``_held``): each record by its name
+        found = model_field.related_model._default_manager.in_bulk(value)
+        text = ", ".join(_named(found[pk]) if pk in found else _text(pk) for pk in value)
+        return text, text
     if model_field.is_relation and value is not None:
         related = model_field.related_model._default_manager.filter(pk=value).first()
         if related is None:
             return _text(value), _text(value)
-        text = person(related) if model_field.related_model is get_user_model() else str(related)
+        text = _named(related)
         return text, text
     return _text(value), _text(value)
+
+
+def _named(related: models.Model) -> str:
+    """A related record by its name: a person by full name."""
+    return person(related) if isinstance(related, get_user_model()) else str(related)
 
 
 def changes(instance: models.Model, limit: int | None = None) -> list[Change]:
@@ -141,6 +151,7 @@ def _changes(history, model, zone: zoneinfo.ZoneInfo, limit: int | None, part: s
     no reason (the admin's Save pressed on an unchanged page) is left out: the database keeps it, the list would only
     repeat the record's name."""
     records = list(history.select_related("history_user").order_by("-history_date", "-history_id"))
+    held = {m2m.name: _held(history, m2m) for m2m in getattr(history.model, "_history_m2m_fields", ())}
     out = []
     for i, record in enumerate(records):
         if limit and len(out) == limit:
@@ -150,8 +161,13 @@ def _changes(history, model, zone: zoneinfo.ZoneInfo, limit: int | None, part: s
         if previous is not None and record.history_type == "~":
             diffs = [
                 (c.field, _shown(model, c.field, c.old, zone), _shown(model, c.field, c.new, zone))
-                for c in record.diff_against(previous).changes
+                for c in record.diff_against(previous, excluded_fields=list(held)).changes
             ]
+            diffs += [
+                (name, _shown(model, name, rows[previous.pk], zone), _shown(model, name, rows[record.pk], zone))
+                for name, rows in held.items() if rows[previous.pk] != rows[record.pk]
+            ]
+            diffs.sort(key=lambda diff: diff[0])  # by field, as diff_against gives them
             if not diffs and not record.history_change_reason:
                 continue
         user = record.history_user
@@ -168,3 +184,14 @@ def _changes(history, model, zone: zoneinfo.ZoneInfo, limit: int | None, part: s
             )
         )
     return out
+
+
+def _held(history, m2m: models.ManyToManyField) -> defaultdict[int, list[int]]:
+    """What a many-to-many field the history keeps (its ``m2m_fields``) held at each of ``history``'s records: the
+    related ids by the record's history id, in one query for them all (diff_against asks two for every change)."""
+    rows = getattr(history.model, m2m.name).model.objects.filter(history__in=history.values("pk"))
+    related = m2m.m2m_reverse_field_name()
+    held: defaultdict[int, list[int]] = defaultdict(list)
+    for record, pk in rows.order_by(related).values_list("history", related):
+        held[record].append(pk)
+    return held

@@ -77,7 +77,7 @@ class WorkOrderAdmin(TelescopesNamedWithSite, SimpleHistoryAdmin):
     readonly_fields = (
         "state", "finished_at", "finished_by", "countersigned_at", "countersigned_by", "unticked_at_finish",
         "hazards_confirmed_at_finish", "isolation_unticked_at_finish", "isolation_confirmed_at_finish", "crew",
-        "hazards", "steps", "at_telescope",
+        "crew_by_account", "hazards", "steps", "at_telescope",
     )
 
     def has_change_permission(self, request, obj=None):

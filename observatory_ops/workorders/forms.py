@@ -1,5 +1,7 @@
 import datetime as dt
 import re
+from collections import Counter
+from functools import cached_property
 
 from django import forms
 from django.contrib.auth import get_user_model
@@ -22,6 +24,35 @@ from .selectors import order_plans
 class _PersonChoiceField(forms.ModelChoiceField):
     def label_from_instance(self, obj) -> str:
         return person(obj)
+
+
+class _CrewMembersField(forms.ModelMultipleChoiceField):
+    """The crew chosen by account, each named as the pages name people (a name two of them share, with the user
+    name). A person sent who is not listed is refused by name, with why (``services.crew_member_problem``)."""
+
+    widget = forms.CheckboxSelectMultiple
+    by = None  # the person finishing, set by the form
+
+    def label_from_instance(self, obj) -> str:
+        named = person(obj)
+        return f"{named} ({obj.username})" if named in self.shared_names else named
+
+    @cached_property
+    def shared_names(self) -> set[str]:
+        named = Counter(person(user) for user in self.queryset)
+        return {name for name, count in named.items() if count > 1}
+
+    def _check_values(self, value):
+        try:
+            return super()._check_values(value)
+        except forms.ValidationError as exc:
+            if exc.code != "invalid_choice":
+                raise
+            who = get_user_model().objects.filter(pk=exc.params["value"]).first()
+            problem = services.crew_member_problem(who, self.by) if who is not None else ""
+            raise forms.ValidationError(
+                f"{self.label}: {problem}." if problem else f"{self.label}: choose people from the list."
+            ) from None
 
 
 def _plausible(quantity: str, label: str):
@@ -175,8 +206,9 @@ class AdHocForm(forms.Form):
 
 
 class FinishForm(forms.Form):
-    """Hours, the day the work was done, who did it with the person finishing (the crew), findings, the required
-    readings, the parts used and, for each mirror the order works on, whether it was cleaned.
+    """Hours, the day the work was done, who did it with the person finishing (the crew: people with an account
+    ticked, ``crew_members``, others typed by name, ``crew``), findings, the required readings, the parts used and,
+    for each mirror the order works on, whether it was cleaned.
     ``confirm_unticked`` is asked for only when checklist lines other than the energy isolation's are not ticked
     (``unticked``); ``isolation_unticked``, the lockout step and isolation points nobody ticked, get a question of
     their own (``isolation_answer``, ``cautions.ISOLATION_UNTICKED``), with no default; ``confirm_hazards`` is asked
@@ -202,18 +234,32 @@ class FinishForm(forms.Form):
         error_messages={"required": "Work done on: enter the day the work was done.",
                         "invalid": "Work done on: enter a date, such as 2026-06-15."},
     )
+    # Chosen, not typed: who may not countersign the work goes by these accounts (selectors.on_the_crew), and a
+    # typed name matched to people's names let a typo or a nickname through and blocked a namesake.
+    crew_members = _CrewMembersField(
+        queryset=get_user_model().objects.none(), required=False, label="Crew with an account",
+        help_text="Tick the people of the site who did the work with you. None of them may countersign it.",
+        error_messages={"invalid_pk_value": "Crew with an account: choose people from the list.",
+                        "invalid_list": "Crew with an account: choose people from the list."},
+    )
     crew = forms.CharField(
-        required=False, max_length=1000, label="Crew",
-        help_text="The others who did the work with you, names separated by commas; empty if you worked alone. They "
-                  "are printed on the crew lines of the paper, to sign.",
+        required=False, max_length=1000, label="Others on the crew, without an account",
+        help_text="Visitors, contractors: names separated by commas; empty if nobody else worked with you. Everyone "
+                  "on the crew is printed on the crew lines of the paper, to sign.",
         widget=forms.TextInput(attrs={"autocomplete": "off", "autocapitalize": "words"}),
-        error_messages={"max_length": "Crew: at most %(limit_value)d characters; name each person once."},
+        error_messages={"max_length": "Others on the crew: at most %(limit_value)d characters; name each person "
+                                      "once."},
     )
     findings = forms.CharField(widget=forms.Textarea, required=False, max_length=20000)
 
-    def __init__(self, *args, order, unticked=(), isolation_unticked=(), lacking_hazards=(), **kwargs):
+    def __init__(self, *args, order, by, unticked=(), isolation_unticked=(), lacking_hazards=(), **kwargs):
         super().__init__(*args, **kwargs)
         self._order = order
+        self._by = by
+        self.fields["crew_members"].by = by
+        self.fields["crew_members"].queryset = (
+            holders_of(TECHNICIAN).exclude(pk=by.pk).order_by("first_name", "last_name", "username")
+        )
         self._today = site_today(order.site)
         self.fields["actual_hours"].help_text = (
             "Everyone's hours on this work added up, yours and the crew's: two people working 3 hours is 6 "
@@ -290,13 +336,29 @@ class FinishForm(forms.Form):
         return day
 
     def clean_crew(self) -> list[str]:
-        """The names, one each, in the order typed: separated by commas, semicolons or new lines."""
+        """The names, one each, in the order typed: separated by commas, semicolons or new lines. The name of one of
+        the people listed with an account, or of the person finishing, is refused: typed, it would not keep them from
+        countersigning (``selectors.on_the_crew``)."""
         names = [name.strip() for name in re.split(r"[,;\n]", self.cleaned_data["crew"]) if name.strip()]
         if too_long := [name for name in names if len(name) > services.CREW_NAME_MAX]:
             raise forms.ValidationError(
-                f"Crew: \"{too_long[0][:40]}...\" is longer than {services.CREW_NAME_MAX} characters for one name; "
-                "separate the names with commas."
+                f"Others on the crew: \"{too_long[0][:40]}...\" is longer than {services.CREW_NAME_MAX} characters "
+                "for one name; separate the names with commas."
             )
+        holders = {key: user for user in self.fields["crew_members"].queryset for key in selectors.names_of(user)}
+        mine = selectors.names_of(self._by)
+        for name in names:
+            if name.casefold() in mine:
+                raise forms.ValidationError(
+                    f"Others on the crew: \"{name}\" is you, finishing the work; the crew are the others who did it "
+                    "with you."
+                )
+            if (holder := holders.get(name.casefold())) is not None:
+                raise forms.ValidationError(
+                    f"Others on the crew: \"{name}\" has an account here: tick {person(holder)} under Crew with an "
+                    "account instead, so that they do not countersign their own work. If it is someone else of the "
+                    f"same name, say who they are (\"{name} (contractor)\")."
+                )
         return list(dict.fromkeys(names))
 
     def clean(self):

@@ -26,8 +26,23 @@ class State(models.TextChoices):
     WITHDRAWN = "withdrawn", "withdrawn"
 
 
+class CrewMember(models.Model):
+    """One person chosen by account on a finished order's crew (``WorkOrder.crew_members``; declared before the order,
+    whose history copies it). Its key to the person keeps them (PROTECT): the admin names the crews a person was on
+    instead of deleting them (``access.selectors.protecting_fields``)."""
+
+    work_order = models.ForeignKey("WorkOrder", on_delete=models.CASCADE, related_name="+")
+    person = models.ForeignKey(settings.AUTH_USER_MODEL, on_delete=models.PROTECT, related_name="+")
+
+    class Meta:
+        verbose_name = "work order's crew"
+        verbose_name_plural = "work orders' crews"
+        constraints = [models.UniqueConstraint(fields=["work_order", "person"], name="crew_member_once_per_order")]
+
+
 class WorkOrder(models.Model):
-    history = HistoricalRecords()  # who changed what, when: see observatory_ops/archive
+    # who changed what, when: see observatory_ops/archive; the crew chosen by account with the rest
+    history = HistoricalRecords(m2m_fields=["crew_members"])
     class Type(models.TextChoices):
         # Terms as EN 13306 (maintenance terminology) uses them.
         PREVENTIVE = "preventive", "preventive"
@@ -120,8 +135,20 @@ class WorkOrder(models.Model):
     )
     crew = models.JSONField(
         null=True, blank=True,
-        help_text="Who did the work with the person who finished it, names as entered on the finish form; [] when "
-                  "none was named, null for orders finished before the form asked.",
+        help_text="Who did the work with the person who finished it, names as printed on its crew lines: the people "
+                  "chosen by account (crew_members) as they were named then, and the others typed by name (visitors, "
+                  "contractors); [] when none was named, null for orders finished before the form asked.",
+    )
+    crew_members = models.ManyToManyField(
+        settings.AUTH_USER_MODEL, through=CrewMember, blank=True, related_name="+",
+        help_text="The people of the crew chosen by their accounts on the finish form: none of them may countersign "
+                  "the work (selectors.on_the_crew).",
+    )
+    crew_by_account = models.BooleanField(
+        default=False,
+        help_text="Finished since the finish form chose the crew's people by account: crew_members alone is who did "
+                  "the work with the person finishing. False for orders finished before, whose crew is only names as "
+                  "typed.",
     )
 
     class Meta:

@@ -325,10 +325,28 @@ def parts_unregistered(order: WorkOrder) -> list[str]:
 
 
 def on_the_crew(order: WorkOrder, user) -> bool:
-    """``user`` is named on the crew that did the order's work: the crew's names as typed on the finish form, one of
-    them the user's full name or user name (case and spaces aside)."""
-    mine = {name.strip().casefold() for name in (user.get_full_name(), user.username) if name.strip()}
-    return bool(mine & {name.strip().casefold() for name in order.crew or []})
+    """``user`` did the order's work with the person who finished it, so may not countersign it.
+
+    An order finished since the finish form chose the crew's people by account (``WorkOrder.crew_by_account``) goes
+    by those accounts alone (``crew_members``): a name typed for someone without one (a visitor, a contractor) blocks
+    nobody, whatever account it resembles. An order finished before has only the names as typed, and keeps the rule
+    it was finished under: one of them is the user's full name or user name, case and spaces aside
+    (``crew_name_of``); a typo, a nickname or initials escape it there, and a namesake is caught."""
+    if order.crew_by_account:
+        return order.crew_members.filter(pk=user.pk).exists()
+    return bool(crew_name_of(order, user))
+
+
+def crew_name_of(order: WorkOrder, user) -> str:
+    """For an order finished before the crew was chosen by account: the crew name as typed that is one of ``user``'s
+    names (``names_of``), "" when none is."""
+    mine = names_of(user)
+    return next((name for name in order.crew or [] if name.strip().casefold() in mine), "")
+
+
+def names_of(user) -> set[str]:
+    """The names a crew name typed for ``user`` is matched to: full name and user name, case and spaces aside."""
+    return {name.strip().casefold() for name in (user.get_full_name(), user.username) if name.strip()}
 
 
 def order_plans(order: WorkOrder) -> list[ServicePlan]:

@@ -54,6 +54,7 @@ from .lifecycle import TRANSITIONS
 from .models import (
     PART_QUANTITY_MAX,
     ChecklistTick,
+    CrewMember,
     IsolationPoint,
     Part,
     PartUse,
@@ -65,6 +66,7 @@ from .models import (
     part_quantity_too_many,
 )
 from .selectors import (
+    crew_name_of,
     hazards_missing,
     hazards_of,
     isolation_lines,
@@ -489,7 +491,7 @@ def work_order_move(order: WorkOrder, action: str, by, reason: str = "") -> Work
         if order.finished_by_id == by.pk:
             raise Refused("a second person must countersign: you finished this work order yourself")
         if on_the_crew(order, by):
-            raise Refused("a second person must countersign: you are named on the crew that did the work")
+            raise Refused(f"a second person must countersign: {_on_the_crew_why(order, by)}")
         fields.update(countersigned_at=now, countersigned_by=by)
     elif action == "withdraw":
         if not reason.strip():
@@ -501,6 +503,28 @@ def work_order_move(order: WorkOrder, action: str, by, reason: str = "") -> Work
             raise Refused("someone else changed this work order meanwhile; reload it")
         _record_history(order, by, action)
     return order
+
+
+def _on_the_crew_why(order: WorkOrder, by) -> str:
+    """Why ``by``, on the crew of ``order`` (``selectors.on_the_crew``), is taken to have done its work."""
+    if order.crew_by_account:
+        return (f"you are on the crew that did the work: {person(order.finished_by)} chose your account on it when "
+                "finishing")
+    return (f"you are named on the crew that did the work (\"{crew_name_of(order, by)}\", typed when it was finished "
+            "before the crew was chosen by account, is your name)")
+
+
+def crew_member_problem(member, by) -> str:
+    """Why ``member`` cannot be chosen by account on the crew of work ``by`` finishes ("" when they can): the person
+    finishing is not their own crew, and only an active account with the technician role or above
+    (``access.roles.holders_of``, as the finish form lists them) did such work; anyone else is named among the others
+    without an account."""
+    if member.pk == by.pk:
+        return f"{person(member)} is finishing the work; the crew are the others who did it with them"
+    if not has_role(member, TECHNICIAN):
+        return (f"{person(member)}'s account is not active or has no technician role or above; name them among the "
+                "others without an account")
+    return ""
 
 
 def _present_lockout_wording(steps: str) -> str:
@@ -575,6 +599,7 @@ def work_order_finish(
     isolation_answer: str = "",
     crew: Sequence[str] = (),
     parts_added: Sequence[tuple[Part, float]] = (),
+    crew_members: Sequence = (),
 ) -> WorkOrder:
     """Record the work: service records for every item, readings, parts used; reset plans; recompute.
 
@@ -605,13 +630,17 @@ def work_order_finish(
     (``unticked_at_finish``). ``confirmed_hazards`` holds the codes of the hazards its subsystems gained
     after it was made (``selectors.hazards_missing``) that the person confirmed were controlled or did not
     arise; every one must be among them, the findings must say how, and the order keeps the list
-    (``hazards_confirmed_at_finish``). ``crew`` names who did the work with the person finishing (kept as
-    ``crew``, printed on the paper's crew lines).
+    (``hazards_confirmed_at_finish``). Who did the work with the person finishing: ``crew_members``, the people
+    chosen by their accounts (active, technician or above, not the person finishing: ``crew_member_problem``), whom
+    the countersign rule knows (``selectors.on_the_crew``), and ``crew``, the names of others without an account
+    (visitors, contractors). The order keeps the accounts (``crew_members``, ``crew_by_account``) and the names as
+    printed on the paper's crew lines, the accounts' first (``crew``).
 
     Refused with a reason, changing nothing, when a reading is missing, a quantity of a part used is not a number
     from 0 to ``PART_QUANTITY_MAX``, the day the work was done is out of bounds, an unticked line or a hazard the
-    order lacks was not confirmed, an unticked isolation has no answer or no findings, a crew name is too long, or
-    the order is no longer underway (``AlreadyFinished`` when it was finished meanwhile).
+    order lacks was not confirmed, an unticked isolation has no answer or no findings, a crew name is too long, a
+    person chosen on the crew cannot be (``crew_member_problem``), or the order is no longer underway
+    (``AlreadyFinished`` when it was finished meanwhile).
     """
     from observatory_ops.mirrors.models import Mirror  # mirrors builds on work orders
     from observatory_ops.mirrors.services import cleaning_log, measurement_from_reading
@@ -648,6 +677,12 @@ def work_order_finish(
     if too_long := [name for name in crew if len(name) > CREW_NAME_MAX]:
         raise Refused(f"crew: {too_long[0][:40]!r}... is longer than {CREW_NAME_MAX} characters; "
                       "separate the names with commas")
+    crew_members = list({member.pk: member for member in crew_members}.values())
+    for member in crew_members:
+        if problem := crew_member_problem(member, by):
+            raise Refused(f"crew: {problem}")
+    named = [person(member) for member in crew_members]  # one line each, though two share a name
+    crew = [*named, *(name for name in dict.fromkeys(crew) if name not in named)]
     site = order.site
     today = site_today(site)
     day = work_done_on or today
@@ -704,8 +739,11 @@ def work_order_finish(
             unticked_at_finish=[f"{line.label}: {line.text}" for line in others],
             isolation_unticked_at_finish=[f"{line.label}: {line.text}" for line in isolation],
             isolation_confirmed_at_finish=isolation_answer if isolation else "",
-            crew=crew,
+            crew=crew, crew_by_account=True,
         )
+        # Rows written as such send no m2m signal, whose own history row would come before the finish's: the save
+        # in _record_history records them with the rest.
+        CrewMember.objects.bulk_create(CrewMember(work_order=order, person=member) for member in crew_members)
         _record_history(order, by, "finish")
         share = actual_hours / max(len(items), 1)
         for item in items:

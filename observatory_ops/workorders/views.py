@@ -351,7 +351,8 @@ def work_order_finish(request, pk):
     others = [line for line in unticked if line not in isolation]
     lacking = selectors.hazards_missing(order)
     form = FinishForm(
-        request.POST or None, order=order, unticked=others, isolation_unticked=isolation, lacking_hazards=lacking
+        request.POST or None, order=order, by=request.user, unticked=others, isolation_unticked=isolation,
+        lacking_hazards=lacking,
     )
     flags: dict[str, str] = {}
     flagged: list[str] = []
@@ -387,6 +388,7 @@ def work_order_finish(request, pk):
                     work_done_on=form.cleaned_data["work_done_on"],
                     isolation_answer=isolation_answer,
                     crew=form.cleaned_data["crew"],
+                    crew_members=form.cleaned_data["crew_members"],
                     parts_added=form.parts_added(),
                 )
             except services.Refused as exc:
