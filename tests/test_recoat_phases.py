@@ -115,8 +115,9 @@ def test_reinstall_starts_where_the_removal_left_off_and_balances_before_any_pow
     balance = _first(steps, "restore the axis balance", "drives still locked out")
     released = _first(steps, "only when both axes are balanced", "remove the pins, the locks", "long-term locks")
     assert lockout < mirror_in < cell_in < balance < released
-    assert "first moves under power" in steps[released]
-    assert "out of robotic and remote control until the realignment" in steps[released + 1]
+    first_moves = _first(steps, "first moves under power")
+    assert released < first_moves
+    assert "out of robotic and remote control until the realignment" in steps[first_moves + 1]
     # The realignment gives the telescope back to robotic control only at its very end.
     realign = selectors.sheet(orders["realignment"], URL).steps
     assert "Return the observatory to robotic and remote control" in realign[-1]

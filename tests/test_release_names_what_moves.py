@@ -1,9 +1,10 @@
 """What the step that removes the locks asks everyone to be clear of, and the brake air the lockout vented.
 
 1. Removing the locks lets the drives be powered again: on an order over a dome (its rotation, its shutter) or a hoist,
-   what then moves is the dome's or shutter's path, or the load's path and the area under it, not the telescope's
-   swept volume. The release step names what the order's subsystems can set moving (``catalogue.release_step_for``,
-   by their kinds; a subsystem of the kind Other by its hazards), and an order over several kinds names each once.
+   what then moves is also the dome's or shutter's path, or the load's path and the area under it, besides the
+   telescope, whose own points every order locks. The release step names the telescope and what the order's
+   subsystems can set moving (``catalogue.release_step_for``, by their kinds; a subsystem of the kind Other by its
+   hazards), each once.
    Before the locks come off the work area is checked and everyone is safely positioned or removed: OSHA 29 CFR
    1910.147(e)(2); what moves at an observatory is common practice, no published source.
 2. The lockout vents the air where it locks an air isolation point; on a telescope with spring-applied, air-released
@@ -75,17 +76,18 @@ def test_telescope_work_keeps_the_release_it_always_had():
     assert set(KINDS) - set(telescope_kinds) == {"enclosure", "hoist", "other"}
 
 
-def test_a_dome_order_releases_with_everyone_clear_of_the_dome_and_shutter_path_not_the_telescope(
+def test_a_dome_order_releases_with_everyone_clear_of_the_telescope_and_of_the_dome_and_shutter_path(
     telescope, mains, users
 ):
+    """The lockout locks the telescope's own points for all work there (the mount isolator here): removing the locks
+    powers its drives too, so the release names the telescope as well as the dome, whatever the work was on."""
     dome = subsystem_create(telescope, "enclosure", "Dome", counting_from=START)
     steps = _from_due(dome, users=users).step_list
     (release,) = _releases(steps)
     assert release == (
-        "When the work is done and everyone is clear of the path of the dome and its shutter (or of the roll-off "
-        "roof), remove the locks and tags as the site's lockout procedure says."
+        "When the work is done and everyone is clear of the telescope and clear of the path of the dome and its "
+        "shutter (or of the roll-off roof), remove the locks and tags as the site's lockout procedure says."
     )
-    assert TELESCOPE not in release
     assert "roof" in release  # the enclosure kind serves a roll-off roof too
     # The locked-out work ends at it, as at the telescope's release: the enclosure's own work is inside.
     lockout, locked_out = services.isolated_steps(steps)
@@ -98,10 +100,13 @@ def test_a_hoist_order_releases_with_everyone_clear_of_the_loads_path_and_the_ar
     steps = _from_due(hoist, users=users).step_list
     (release,) = _releases(steps)
     assert release == (
-        "When the work is done and everyone is clear of the load's path and the area under it, remove the locks and "
-        "tags as the site's lockout procedure says."
+        "When the work is done and everyone is clear of the telescope and clear of the load's path and the area under "
+        "it, remove the locks and tags as the site's lockout procedure says."
     )
-    assert steps.index(LOCKOUT) < steps.index(release) < steps.index(BACK_IN_SERVICE)
+    # The inspection may have tagged the hoist out of service: it goes back only if it passed.
+    (back,) = [step for step in steps if "restore the subsystem to service" in step]
+    assert back.startswith("Only if nothing was found beyond the maker's limits") and "leave it tagged out" in back
+    assert steps.index(LOCKOUT) < steps.index(release) < steps.index(back)
 
 
 def test_a_hydraulic_lift_of_the_kind_other_is_named_by_its_hazards(telescope, site, mains, users):
@@ -111,7 +116,7 @@ def test_a_hydraulic_lift_of_the_kind_other_is_named_by_its_hazards(telescope, s
                             hazards=["hydraulic", "electrical", "height"])
     order = services.work_order_ad_hoc(site, [lift], "Service the lift", users["engineer"],
                                        powered="Lower the platform onto its stops.", steps="Change the filter.")
-    assert _releases(order.step_list) == [release_step(["load"])]
+    assert _releases(order.step_list) == [release_step(["telescope", "load"])]
     assert moving_parts("other", ["electrical"]) == ("telescope",)
     assert moving_parts("other", ["suspended_load", "moving_machinery"]) == ("load", "telescope")
 
@@ -214,6 +219,23 @@ def test_an_order_with_the_air_brake_plan_brings_the_air_back_in_the_brake_steps
     ]
 
 
+def test_one_brakes_plan_does_not_stand_in_for_the_other_axes_brakes_that_the_shared_air_releases(
+    telescope, air_brakes, users
+):
+    """The lockout closes the one brake air valve, so every axis's brake applies; its air coming back releases them
+    all. An order over the axis 1 brake's plan and the axis 2 drive brings back the air for every axis, with everyone
+    clear, besides the brake plan's own step for its axis."""
+    subsystem_create(telescope, "brake", "Axis 2 brake", counting_from=START)
+    drive = subsystem_create(telescope, "axis2_drive", "Axis 2 drive", counting_from=START)
+    steps = _from_due(air_brakes, drive, users=users).step_list
+    release = steps.index(_releases(steps)[0])
+    assert steps[release + 1] == BRAKE_AIR_BACK and steps.count(BRAKE_AIR_BACK) == 1
+    assert "each axis" in BRAKE_AIR_BACK and "each brake" in BRAKE_AIR_BACK
+    # Every air brake's own plan on the order: each brings its own air back; nothing added.
+    both = _from_due(*telescope.subsystems.filter(kind="brake"), users=users).step_list
+    assert BRAKE_AIR_BACK not in both
+
+
 def test_a_brake_plan_stored_with_the_earlier_restore_wording_gets_the_step_with_everyone_clear(air_brakes, users):
     """The earlier wording said nothing of anyone's being clear; the plan keeps its words until an engineer takes the
     catalogue's present ones (planning.selectors.catalogue_revision), and its orders meanwhile get the step."""
@@ -259,7 +281,7 @@ def test_the_page_and_the_paper_show_the_domes_release_and_the_brake_air(telesco
                     .split())
     paper = " ".join(body_text(client.get(f"/workorders/{order.pk}/pdf/").content).split())
     for text in (page, paper):
-        assert release_step(["enclosure"]) in text and BRAKE_AIR_BACK in text
+        assert release_step(["telescope", "enclosure"]) in text and BRAKE_AIR_BACK in text
         assert " ".join(PRECEDENCE_STATEMENT.split()) in text
 
 
@@ -282,3 +304,6 @@ def test_the_recoat_phases_that_take_the_locks_off_bring_the_brake_air_back_and_
         assert steps.count(BRAKE_AIR_BACK) == 1, phase
         assert is_release_step(steps[steps.index(BRAKE_AIR_BACK) - 1]) or "remove the pins, the locks" in (
             steps[steps.index(BRAKE_AIR_BACK) - 1]), phase
+        # Nothing moves under power before the brakes' air is back and each brake tested.
+        moves = [i for i, step in enumerate(steps) if "under power" in step and "Do not move" not in step]
+        assert all(i > steps.index(BRAKE_AIR_BACK) for i in moves), phase

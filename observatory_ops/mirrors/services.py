@@ -846,10 +846,12 @@ _PHASE_WORK = {
         ),
         release=(
             "Only when both axes are balanced and everyone is clear, remove the pins, the locks (the site's "
-            "long-term locks from the removal too) and the tags as the site's lockout procedure says; make the "
-            "first moves under power slowly, with everyone outside the swept volume."
+            "long-term locks from the removal too) and the tags as the site's lockout procedure says."
         ),
+        # The first moves come after the release and after the brake air is back (workorders.services.brake_air_back
+        # puts that step straight after the release): never under power with the brakes still to be tested.
         after=(
+            "Make the first moves under power slowly, with everyone outside the swept volume.",
             "Keep the observatory out of robotic and remote control until the realignment order is finished.",
         ),
         tools=(

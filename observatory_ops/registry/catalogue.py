@@ -135,6 +135,11 @@ def is_release_step(text: str) -> bool:
 
 
 _BACK_IN_SERVICE = "Restore the subsystem to service and test it under observation."
+#: An inspection that may end with the subsystem tagged out of service (the hoist's) returns it only if it passed.
+_BACK_IN_SERVICE_IF_PASSED = (
+    "Only if nothing was found beyond the maker's limits, restore the subsystem to service and test it under "
+    "observation; otherwise leave it tagged out of service and say so in the findings."
+)
 _RESTORE = (RELEASE, _BACK_IN_SERVICE)
 _COVER_CLOSED_IN_SERVICE = "Close the mirror cover and return the telescope to service."
 #: Said of a test on live equipment, as the electrical caution asks (NFPA 70E: energised work by a qualified person).
@@ -926,7 +931,7 @@ KINDS: dict[str, Kind] = {
                         "If anything is beyond the maker's limits, tag the hoist out of service at its pendant and its "
                         "isolator, and tell the site engineer before anyone uses it.",
                     ),
-                    restore=_RESTORE,
+                    restore=(RELEASE, _BACK_IN_SERVICE_IF_PASSED),
                     tools=("the hoist maker's inspection instructions", "hook throat gauge or calipers",
                            "out-of-service tags"),
                     estimated_hours=2.0,
@@ -981,7 +986,9 @@ TELESCOPE_STEPS: frozenset[str] = frozenset({
 #: The restoring steps that put a subsystem or the telescope back in service: an order over several plans puts them
 #: after every other plan's restoring (its air or power restored and tested), whichever plan they come from
 #: (workorders.services._steps_for), so nothing goes back into service before the energy it needs is back.
-RETURNS_TO_SERVICE: frozenset[str] = frozenset({_BACK_IN_SERVICE, _COVER_CLOSED_IN_SERVICE, _FIRST_MOVES})
+RETURNS_TO_SERVICE: frozenset[str] = frozenset(
+    {_BACK_IN_SERVICE, _BACK_IN_SERVICE_IF_PASSED, _COVER_CLOSED_IN_SERVICE, _FIRST_MOVES}
+)
 
 
 #: The hazards that say a subsystem of a kind that names nothing it moves (Other) holds up a load: a hoist or sling
@@ -1003,8 +1010,10 @@ def moving_parts(code: str, hazards: Iterable[str] = ()) -> tuple[str, ...]:
 
 def release_step_for(subsystems: Iterable) -> str:
     """The release step of an order over ``subsystems`` (each with its ``kind`` and ``hazards``, as
-    ``registry.models.Subsystem``): everyone clear of all they can set moving, each named once."""
-    return release_step(key for s in subsystems for key in moving_parts(s.kind, s.hazards))
+    ``registry.models.Subsystem``): everyone clear of all they can set moving, each named once, and always of the
+    telescope: the lockout locks each of the order's telescopes' own points for all work there
+    (``workorders.selectors.isolation_points``), so removing the locks powers its drives whatever the work was on."""
+    return release_step(["telescope", *(key for s in subsystems for key in moving_parts(s.kind, s.hazards))])
 
 
 def kind(code: str) -> Kind:

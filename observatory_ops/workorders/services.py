@@ -184,20 +184,25 @@ def steps_in_groups(
 
 def brake_air_back(subsystems: Sequence[Subsystem], hazards: Sequence[str], restore: Sequence[str]) -> bool:
     """Whether an order over ``subsystems`` adds ``catalogue.BRAKE_AIR_BACK``: its lockout vents the air of an
-    air-released brake, and none of its ``restore`` steps (a plan label before one ignored) brings the air back with
-    everyone clear (``catalogue.RESTORES_BRAKE_AIR``: an air brake's own plan does).
+    air-released brake that none of its ``restore`` steps (a plan label before one ignored) brings back with everyone
+    clear. An air brake's own plan does for its own brake (``catalogue.RESTORES_BRAKE_AIR``: "the axis", "the
+    brake"); a shared air supply also releases the other axes' brakes, so the step covering each axis is added unless
+    every vented brake is one of the order's.
 
     The lockout vents it where it locks an air point (one of a telescope's, or one of a subsystem the order works on:
     ``selectors.isolation_points``) on a telescope with an air-released brake in service: the air there releases the
     brakes, whichever subsystem the work is on. The points are those registered when the order is made, as its steps
     are."""
-    if not needs_isolation(hazards) or any(_unlabelled(step) in RESTORES_BRAKE_AIR for step in restore):
+    steps = {_unlabelled(step) for step in restore}
+    if not needs_isolation(hazards) or BRAKE_AIR_BACK in steps:
         return False
     air = IsolationPoint.objects.filter(
         Q(subsystem__isnull=True) | Q(subsystem__in=[s.pk for s in subsystems]),
         telescope_id__in={s.telescope_id for s in subsystems}, energy=IsolationPoint.Energy.AIR,
     )
-    return Subsystem.objects.in_service().filter(telescope_id__in=air.values("telescope_id"), kind=AIR_BRAKE).exists()
+    vented = Subsystem.objects.in_service().filter(telescope_id__in=air.values("telescope_id"), kind=AIR_BRAKE)
+    own = {s.pk for s in subsystems if s.kind == AIR_BRAKE} if steps & RESTORES_BRAKE_AIR else set()
+    return vented.exclude(pk__in=own).exists()
 
 
 def _plan_labels(plans: Sequence[ServicePlan]) -> dict[int, str]:
