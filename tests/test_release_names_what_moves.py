@@ -307,3 +307,57 @@ def test_the_recoat_phases_that_take_the_locks_off_bring_the_brake_air_back_and_
         # Nothing moves under power before the brakes' air is back and each brake tested.
         moves = [i for i, step in enumerate(steps) if "under power" in step and "Do not move" not in step]
         assert all(i > steps.index(BRAKE_AIR_BACK) for i in moves), phase
+
+
+# --- steps written or edited by hand ----------------------------------------------------------------------------
+
+
+def test_steps_edited_without_the_brake_air_step_are_refused_and_an_order_stored_so_is_flagged(
+    telescope, air_brakes, users, client
+):
+    """The steps an engineer edits keep the air step where the lockout vents brake air, as they keep the lockout step;
+    an order stored without it (drafted before the step existed) says so on its page and its paper."""
+    drive = subsystem_create(telescope, "axis1_drive", "Axis 1 drive", counting_from=START)
+    order = _from_due(drive, users=users)
+    without = [step for step in order.step_list if step != BRAKE_AIR_BACK]
+    client.force_login(users["engineer"])
+    form = {"title": order.title, "order_type": order.order_type, "priority": order.priority,
+            "estimated_hours": order.estimated_hours, "steps": "\n".join(without), "tools": order.tools}
+    page = html.unescape(client.post(f"/workorders/{order.pk}/edit/", form).content.decode())
+    assert "no step after the locks come off brings it back with everyone clear" in page
+    order.refresh_from_db()
+    assert BRAKE_AIR_BACK in order.step_list  # nothing stored
+    assert client.post(f"/workorders/{order.pk}/edit/",
+                       {**form, "steps": "\n".join(order.step_list)}).status_code == 302
+
+    type(order).objects.filter(pk=order.pk).update(steps="\n".join(without))  # as stored before the step existed
+    order.refresh_from_db()
+    warning = services.brake_air_problem([drive], order.hazards, order.step_list)
+    assert warning.endswith(BRAKE_AIR_BACK)
+    page = " ".join(html.unescape(client.get(order.get_absolute_url()).content.decode()).split())
+    assert "no step after the locks come off brings it back" in page and "Do not start the work" in page
+
+
+def test_a_recoat_removal_keeping_its_locks_on_is_not_asked_for_the_air(telescope, air_brakes, users):
+    from observatory_ops.calc.windows import RECOAT_PHASES
+    from observatory_ops.mirrors import services as mirror_services
+    from observatory_ops.mirrors.models import Mirror
+    from observatory_ops.workorders import selectors
+
+    primary = subsystem_create(telescope, "primary_mirror", "Primary", counting_from=START)
+    mirror = Mirror.objects.create(subsystem=primary, diameter_mm=500, thickness_mm=50, material="borosilicate")
+    plan = mirror_services.recoat_plan_create(mirror, dt.date(2026, 8, 3), list(RECOAT_PHASES), 3.0, users["engineer"])
+    assert all(selectors.lockout_step_warning(order) == "" for order in plan.work_orders.all())
+
+
+def test_hazards_brought_up_to_date_on_hand_written_steps_name_the_air_step_to_put_in(
+    telescope, site, air_brakes, users, client
+):
+    box = subsystem_create(telescope, "other", "Eyepiece box", counting_from=START, no_hazards_found=True)
+    order = services.work_order_ad_hoc(site, [box], "Sort the eyepieces", users["engineer"], steps="Sort them.")
+    box.hazards, box.no_hazards_found = ["electrical"], False
+    box.save()
+    client.force_login(users["engineer"])
+    response = client.post(f"/workorders/{order.pk}/hazards/", follow=True)
+    said = " ".join(str(m) for m in response.context["messages"])
+    assert services.LOCKOUT_STEP in said and f'right after it: "{BRAKE_AIR_BACK}"' in said

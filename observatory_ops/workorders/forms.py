@@ -112,6 +112,9 @@ class WorkOrderEditForm(forms.ModelForm):
             )
         if problem := services.lockout_sequence_problem(self.instance.hazards, steps, order_plans(self.instance)):
             raise forms.ValidationError(problem)
+        subsystems = [item.subsystem for item in self.instance.items.select_related("subsystem")]
+        if problem := services.brake_air_problem(subsystems, self.instance.hazards, steps):
+            raise forms.ValidationError(problem)
         return "\n".join(steps)
 
     def clean_tools(self):

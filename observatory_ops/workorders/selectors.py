@@ -354,19 +354,20 @@ def order_plans(order: WorkOrder) -> list[ServicePlan]:
     return list(ServicePlan.objects.filter(pk__in=order.items.values("plan_id")).order_by("pk"))
 
 
-def lockout_step_warning(order: WorkOrder) -> str:
+def lockout_step_warning(order: WorkOrder, items: list[WorkOrderItem] | None = None) -> str:
     """For an order still to do whose hazards call for isolation but whose steps lack the lockout step, or do not
-    isolate in sequence (it cannot be issued or started until an engineer puts that right): the warning the page and
-    the printed steps show."""
-    from .services import lockout_missing, lockout_sequence_problem  # services reads this module
+    isolate in sequence (it cannot be issued or started until an engineer puts that right), or leave the brake air
+    the lockout vents unrestored (``services.brake_air_problem``: steps written or edited by hand): the warning the
+    page and the printed steps show. ``items``: ``order_items(order)`` when the caller has them."""
+    from .services import brake_air_problem, lockout_missing, lockout_sequence_problem  # services reads this module
 
     if order.state not in TO_DO:
         return ""
     if lockout_missing(order.hazards, order.step_list):
         return LOCKOUT_STEP_MISSING
-    if problem := lockout_sequence_problem(order.hazards, order.step_list, order_plans(order)):
-        return f"{problem} Do not start the work until the site engineer has put that right."
-    return ""
+    problem = lockout_sequence_problem(order.hazards, order.step_list, order_plans(order)) or brake_air_problem(
+        [i.subsystem for i in (order_items(order) if items is None else items)], order.hazards, order.step_list)
+    return f"{problem} Do not start the work until the site engineer has put that right." if problem else ""
 
 
 #: Kinds fed from a supply of their own (a dome's rotation and shutter drives): the telescope's points leave them live.
@@ -1131,7 +1132,7 @@ def sheet(order: WorkOrder, url: str) -> sheet_.Sheet:
         point_ticks=(None,) * len(gaps) + ticks(lines.points) if finished else (),
         steps=tuple(line.text for line in lines.steps),
         step_ticks=ticks(lines.steps),
-        steps_warning=lockout_step_warning(order),
+        steps_warning=lockout_step_warning(order, items),
         steps_note=lines.steps_note,
         standing_notes=standing_notes(order),
         parts_unregistered=tuple(parts_unregistered(order)),

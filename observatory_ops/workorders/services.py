@@ -205,6 +205,22 @@ def brake_air_back(subsystems: Sequence[Subsystem], hazards: Sequence[str], rest
     return vented.exclude(pk__in=own).exists()
 
 
+def brake_air_problem(subsystems: Sequence[Subsystem], hazards: Sequence[str], steps: Sequence[str]) -> str:
+    """Why steps written or edited by hand leave unrestored the brake air their lockout vents (``brake_air_back``, on
+    the steps after the release): what to put in, and where; "" when nothing is missing. Looked at only where the
+    release is one of the catalogue's wordings (``is_release_step``): a recoat phase's own release keeps its locks on
+    or restores the air in its own steps."""
+    lines = [line.strip() for line in steps if line.strip()]
+    placed = isolated_steps(lines)
+    if placed is None or placed[1].stop >= len(lines):
+        return ""
+    if not brake_air_back(subsystems, hazards, lines[placed[1].stop + 1:]):
+        return ""
+    return ("The lockout vents the air of the telescope's air-released brakes, but no step after the locks come off "
+            "brings it back with everyone clear. Put this line in right after the step that removes the locks: "
+            f"{BRAKE_AIR_BACK}")
+
+
 def _plan_labels(plans: Sequence[ServicePlan]) -> dict[int, str]:
     """How each plan is named in an order's title and step prefixes: by its name, with its telescope when the
     order spans several telescopes, and with its subsystem when that still leaves two alike."""

@@ -14,7 +14,7 @@ from observatory_ops.archive.history import person
 from observatory_ops.exports import csv_response, download_refused, period
 from observatory_ops.planning.models import ServicePlan
 from observatory_ops.planning.services import site_today
-from observatory_ops.registry.catalogue import release_step_for
+from observatory_ops.registry.catalogue import BRAKE_AIR_BACK, release_step_for
 from observatory_ops.registry.models import Site
 
 from . import pdf, selectors, services
@@ -152,7 +152,7 @@ def work_order_detail(request, pk):
             "isolation_record": _isolation_record(order),
             "cleanings": selectors.cleanings_at_finish(order),
             "can_update_hazards": bool(missing) and editable,
-            "lockout_step_warning": selectors.lockout_step_warning(order),
+            "lockout_step_warning": selectors.lockout_step_warning(order, items),
             "standing_notes": selectors.standing_notes(order),
             "parts_unregistered": selectors.parts_unregistered(order),
             "parts_unregistered_text": PARTS_UNREGISTERED,
@@ -252,13 +252,17 @@ def work_order_hazards_update(request, pk):
         done += " Lifting figures were taken from the mirror's geometry."
     messages.success(request, done)
     if update.lockout_missing:
-        release = release_step_for(item.subsystem for item in order.items.select_related("subsystem"))
+        subsystems = [item.subsystem for item in order.items.select_related("subsystem")]
+        release = release_step_for(subsystems)
+        # The brake air the lockout would vent, as an order made from its plans restores it (services.brake_air_back).
+        air = (f", and right after it: \"{BRAKE_AIR_BACK}\""
+               if services.brake_air_back(subsystems, order.hazards, []) else "")
         messages.warning(
             request, "Its hazards now call for energy isolation, but its steps are not those its plans give (edited "
             "since, written by hand, or the plans changed), so the lockout step was not placed by guess. Edit the "
             "steps and put it in after the steps done under power: "
-            f"\"{services.LOCKOUT_STEP}\", and after the locked-out work: \"{release}\". Until then it cannot be "
-            "issued or started.",
+            f"\"{services.LOCKOUT_STEP}\", and after the locked-out work: \"{release}\"{air}. Until then it cannot "
+            "be issued or started.",
         )
     return redirect(order)
 
