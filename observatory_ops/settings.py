@@ -75,7 +75,7 @@ USE_X_FORWARDED_HOST = _env_flag("USE_X_FORWARDED_HOST", False)
 TRUSTED_PROXIES = _env_count("OBSOPS_TRUSTED_PROXIES", 0)
 
 INSTALLED_APPS = [
-    "django.contrib.admin",
+    "observatory_ops.admin_site.ObservatoryAdminConfig",  # django.contrib.admin, with the project's admin site
     "django.contrib.auth",
     "django.contrib.contenttypes",
     "django.contrib.sessions",

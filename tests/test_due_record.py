@@ -20,7 +20,7 @@ from observatory_ops.api import services as api_services
 from observatory_ops.calc.triggers import STATUSES
 from observatory_ops.planning import metrics
 from observatory_ops.planning.models import PlanStatus
-from observatory_ops.planning.selectors import due_record, due_rows
+from observatory_ops.planning.selectors import DUE_RECORD_DECIMALS, DUE_RECORD_RATE_FIGURES, due_record, due_rows
 from observatory_ops.planning.services import site_recompute
 from observatory_ops.registry.services import subsystem_create
 
@@ -116,12 +116,37 @@ def test_a_recoat_line_gives_its_value_and_limit_alike_rounded_as_a_fraction(tel
     assert (record["value"], record["limit"], record["unit"], record["rate"]) == (0.837, 0.8281, "fraction", None)
 
 
-def test_other_figures_keep_four_decimals_alike(telescope):
+def _reading_state(telescope, value: float, limit: float, unit: str, rate: float | None) -> PlanStatus:
     brake = subsystem_create(telescope, "brake", "Brake", counting_from=dt.date(2026, 1, 1))
-    status = PlanStatus(
+    return PlanStatus(
         plan=brake.plans.first(), site=telescope.site, status="later", urgency=2, metric=metrics.READING,
-        value=4.123456, limit=4.5, unit="bar", rate_per_day=-0.0123456, forecast_date=None, earliest=None, latest=None,
+        value=value, limit=limit, unit=unit, rate_per_day=rate, forecast_date=None, earliest=None, latest=None,
         reason="", computed_at=timezone.now(),
     )
-    record = due_record(status)
-    assert (record["value"], record["limit"], record["unit"], record["rate"]) == (4.1235, 4.5, "bar", -0.0123)
+
+
+def test_other_values_and_limits_keep_four_decimals_alike(telescope):
+    record = due_record(_reading_state(telescope, 4.123456, 4.5, "bar", -0.0123456))
+    assert (record["value"], record["limit"], record["unit"]) == (4.1235, 4.5, "bar")
+
+
+@pytest.mark.parametrize(("rate", "given"), [
+    (0.0020437, 0.002044),  # a reading's slow trend: 4 decimals gave 0.002, a fifth of it lost
+    (-0.0123456, -0.01235),
+    (-0.0000251234, -0.00002512),  # a slow reflectance decline: 4 decimals gave 0.0 (-0.0)
+    (1.0, 1.0),  # calendar days
+    (7.123456, 7.123),  # open hours a day
+    (1234.5678, 1235.0),  # slews a day
+])
+def test_the_rate_keeps_four_significant_figures_however_small(telescope, rate, given):
+    """A reviewer read "rate": 0.002 for a trend of +0.00204 s a day: 4 decimals cut a slow rate short, or to 0. Four
+    significant figures (``DUE_RECORD_RATE_FIGURES``) keep its figures at any size; it stays a JSON number."""
+    record = due_record(_reading_state(telescope, 0.55, 0.8, "s", rate))
+    assert record["rate"] == given and json.loads(json.dumps(record))["rate"] == given
+
+
+def test_the_readme_says_how_each_figure_is_rounded():
+    keys = readme_table(KEYS)
+    assert f"Rounded to {DUE_RECORD_DECIMALS} decimals" in keys["value"]
+    assert f"rounded to {DUE_RECORD_DECIMALS} decimals" in keys["limit"]
+    assert f"Rounded to {DUE_RECORD_RATE_FIGURES} significant figures" in keys["rate"]

@@ -207,3 +207,118 @@ def test_a_work_orders_item_and_reading_rows_name_each_subsystem_with_its_site(t
     for prefix in ("items", "required_readings"):
         select = re.search(rf'<select name="{prefix}-__prefix__-subsystem".*?</select>', page, re.S).group(0)
         assert "Site cerro-alto: T1: Limits" in select and "Site mesa-norte: T1: Limits" in select, prefix
+
+
+# --- a work order's rows: plans named in full, a stored order's own site's choices ---------------------------------
+
+#: The plan of both sites' "T1: Limits" (registry.catalogue), named as a choice names it below the site.
+LIMITS_PLAN = "T1: Limits: Test limit switches and interlocks"
+
+
+def _options(page: str, name: str) -> list[str]:
+    """The labels of the options of the select ``name`` on an admin page (the empty choice left out)."""
+    select = re.search(rf'<select name="{name}"[^>]*>(.*?)</select>', page, flags=re.S).group(1)
+    return [html.unescape(label) for label in re.findall(r'<option value="\d+"[^>]*>([^<]*)</option>', select)]
+
+
+@pytest.fixture
+def order_at_cerro_alto(two_sites, users):
+    """A work order for Cerro Alto's limit switches: one item, "Site cerro-alto: T1: Limits" and its plan."""
+    from observatory_ops.planning.models import ServicePlan
+    from observatory_ops.workorders.services import work_order_from_due
+
+    plans = ServicePlan.objects.filter(subsystem__telescope__site=two_sites[0], subsystem__kind="limits")
+    return work_order_from_due(list(plans), users["engineer"])
+
+
+def test_a_new_orders_item_rows_name_each_plan_with_its_site_telescope_and_subsystem(two_sites, admin_client):
+    """The plan choice read "Test limit switches and interlocks" once per site, with nothing to tell them apart."""
+    from observatory_ops.planning.models import ServicePlan
+
+    page = admin_client.get("/admin/workorders/workorder/add/").content.decode()
+    labels = _options(page, "items-__prefix__-plan")
+    assert f"Site cerro-alto: {LIMITS_PLAN}" in labels and f"Site mesa-norte: {LIMITS_PLAN}" in labels
+    assert len(labels) == len(set(labels)) == ServicePlan.objects.count()  # every site's, for an order not yet placed
+    sites = [label.split(": ")[0] for label in labels]
+    assert sites == sorted(sites, key=["Site cerro-alto", "Site mesa-norte"].index)
+
+
+def test_a_stored_orders_rows_offer_its_own_sites_subsystems_and_plans_named_as_before(
+    order_at_cerro_alto, admin_client
+):
+    """Every item and reading row listed every site's subsystems and plans: at 100 sites of 50 subsystems the change
+    page took 6 s. A stored order is at one site: its rows, stored or added, offer that site's, still named with it."""
+    from observatory_ops.planning.models import ServicePlan
+    from observatory_ops.registry.models import Subsystem
+
+    site = order_at_cerro_alto.site
+    page = admin_client.get(f"/admin/workorders/workorder/{order_at_cerro_alto.pk}/change/").content.decode()
+    subsystems = [f"{site.name}: {s}" for s in
+                  Subsystem.objects.filter(telescope__site=site).order_by("telescope__name", "name")]
+    plans = [f"{site.name}: {p.subsystem}: {p.name}" for p in ServicePlan.objects.filter(
+        subsystem__telescope__site=site).order_by("subsystem__telescope__name", "subsystem__name", "name")]
+    assert len(subsystems) == 4 and f"{site.name}: {LIMITS_PLAN}" in plans
+    for name in ("items-0-subsystem", "items-__prefix__-subsystem", "required_readings-__prefix__-subsystem"):
+        assert _options(page, name) == subsystems, name
+    for name in ("items-0-plan", "items-__prefix__-plan"):
+        assert _options(page, name) == plans, name
+    item = order_at_cerro_alto.items.get()
+    assert re.search(rf'<option value="{item.subsystem_id}" selected>Site cerro-alto: T1: Limits</option>', page)
+    assert re.search(rf'<option value="{item.plan_id}" selected>Site cerro-alto: {LIMITS_PLAN}</option>', page)
+
+
+def test_a_stored_order_saves_as_it_stands_and_refuses_a_row_of_another_site_saying_which(
+    order_at_cerro_alto, two_sites, admin_client
+):
+    from observatory_ops.registry.models import Subsystem
+    from tests.test_start_holds import _admin_post
+
+    url = f"/admin/workorders/workorder/{order_at_cerro_alto.pk}/change/"
+    assert _admin_post(admin_client, url).status_code == 302
+    elsewhere = Subsystem.objects.get(telescope__site=two_sites[1], kind="limits")
+    response = _admin_post(admin_client, url, **{"items-0-subsystem": elsewhere.pk})
+    assert response.status_code == 200
+    assert "Choose one at Site cerro-alto, the site of this work order." in _text(response)
+    assert order_at_cerro_alto.items.get().subsystem.telescope.site == two_sites[0]
+
+
+def test_the_isolation_points_subsystem_search_names_each_subsystem_with_its_site_as_the_saved_choice(
+    two_sites, admin_client
+):
+    """The search behind the subsystem choice (typed into: a network has thousands) answered "T1: Limits" twice, while
+    the choice once saved read "Site mesa-norte: T1: Limits". Both now read alike, and the site's name narrows it."""
+    from observatory_ops.registry.models import Subsystem
+    from observatory_ops.workorders.models import IsolationPoint
+
+    def found(term: str) -> list[str]:
+        answer = admin_client.get("/admin/autocomplete/", {
+            "app_label": "workorders", "model_name": "isolationpoint", "field_name": "subsystem", "term": term,
+        })
+        return [result["text"] for result in answer.json()["results"]]
+
+    assert found("limits") == ["Site cerro-alto: T1: Limits", "Site mesa-norte: T1: Limits"]
+    assert found("mesa limits") == ["Site mesa-norte: T1: Limits"]
+    limits = Subsystem.objects.get(telescope__site=two_sites[1], kind="limits")
+    point = IsolationPoint.objects.create(telescope=limits.telescope, subsystem=limits, energy="ac",
+                                          label="Limits supply")
+    page = admin_client.get(f"/admin/workorders/isolationpoint/{point.pk}/change/").content.decode()
+    assert re.search(rf'<option value="{limits.pk}" selected>Site mesa-norte: T1: Limits</option>', page)
+
+
+def test_the_subsystem_search_takes_the_same_queries_however_many_subsystems_it_finds(two_sites, admin_client):
+    """Each result's site and telescope come with the results (one query), not one query per result."""
+    from django.db import connection
+    from django.test.utils import CaptureQueriesContext
+
+    from observatory_ops.registry.services import subsystem_create
+
+    def queries() -> int:
+        with CaptureQueriesContext(connection) as captured:
+            admin_client.get("/admin/autocomplete/", {"app_label": "workorders", "model_name": "isolationpoint",
+                                                      "field_name": "subsystem", "term": "fans"})
+        return len(captured)
+
+    before = queries()
+    for telescope in Telescope.objects.all():
+        subsystem_create(telescope, "cooling_fans", "Spare fans", counting_from=dt.date(2026, 1, 1))
+    assert queries() == before

@@ -621,7 +621,10 @@ def test_a_finished_order_shows_its_ticks_read_only(underway, users, client):
     client.force_login(users["technician"])
     page = client.get(underway.get_absolute_url()).content.decode()
     assert "ticked by technician" in page
-    assert page.count(" disabled>") == len(underway.step_list) + 1  # every step and the one point
+    # Every step and the one point, each with a box that shows its tick and is no control, in no form.
+    assert page.count('<span class="tick-box" role="img"') == len(underway.step_list) + 1
+    assert page.count('<span class="tick-box" role="img" aria-label="ticked">') == 1
+    assert f'action="/workorders/{underway.pk}/tick/"' not in page and 'name="ticked"' not in page
     assert "<button type=\"submit\" class=\"noprint\">Record</button>" not in page
 
 

@@ -10,6 +10,7 @@ from simple_history.models import HistoricalRecords
 
 from observatory_ops.calc.coating import MATERIALS, METALS
 from observatory_ops.calc.lifting import DENSITY
+from observatory_ops.logbook.quantities import reflectance_text
 from observatory_ops.registry.catalogue import KINDS
 from observatory_ops.registry.models import Subsystem
 
@@ -124,6 +125,9 @@ class CleaningEvent(models.Model):
     class Meta:
         ordering = ["-cleaned_on"]
 
+    def __str__(self) -> str:
+        return f"{self.mirror}: cleaned {self.cleaned_on:%d %b %Y} ({self.get_method_display()})"
+
 
 class ReflectanceMeasurement(models.Model):
     """A measured reflectance (0..1): at one wavelength or averaged over the mirror's band. Append-only."""
@@ -154,6 +158,13 @@ class ReflectanceMeasurement(models.Model):
     class Meta:
         ordering = ["measured_on", "pk"]
 
+    def __str__(self) -> str:
+        """"T1: Primary mirror: reflectance 0.8600 at 550 nm, 01 Jun 2025", and "(withdrawn)" once it is."""
+        where = f"at {self.wavelength_nm:g} nm" if self.wavelength_nm is not None else "over its band"
+        withdrawn = " (withdrawn)" if self.withdrawn_at else ""
+        return (f"{self.mirror}: reflectance {reflectance_text(self.value)} {where}, "
+                f"{self.measured_on:%d %b %Y}{withdrawn}")
+
     @property
     def source(self) -> str:
         """The logbook reading the measurement came from (with its note), for the mirror page; blank otherwise."""
@@ -182,6 +193,9 @@ class RecoatPlan(models.Model):
 
     class Meta:
         ordering = ["-starts_on"]
+
+    def __str__(self) -> str:
+        return f"{self.mirror}: recoat from {self.starts_on:%d %b %Y} to {self.ends_on:%d %b %Y}"
 
     @property
     def nights(self) -> int:

@@ -1,6 +1,7 @@
 """Service plans, their triggers, the computed due state of each plan, and the per-site nights cache."""
 from __future__ import annotations
 
+import datetime as dt
 import json
 import math
 import re
@@ -336,10 +337,16 @@ class PlanStatus(models.Model):
                 f"{figure_text(self.metric, self.unit, self.limit)} {self.unit}").strip()
 
     class Meta:
+        verbose_name_plural = "plan statuses"
         indexes = [
             models.Index(fields=["site", "status", "forecast_date"]),
             models.Index(fields=["urgency", "forecast_date"]),
         ]
+
+    def __str__(self) -> str:
+        """"T1: Axis 1 brake: Check brake pads: due, computed 15 Jun 2026 04:10 UTC" (the admin's times are UTC)."""
+        computed = self.computed_at.astimezone(dt.UTC)
+        return f"{self.plan.subsystem}: {self.plan.name}: {self.status}, computed {computed:%d %b %Y %H:%M} UTC"
 
 
 class NightSky(models.Model):
@@ -356,8 +363,12 @@ class NightSky(models.Model):
     moonless_dark_hours = models.FloatField()
 
     class Meta:
+        verbose_name_plural = "night skies"
         ordering = ["site", "night"]
         constraints = [models.UniqueConstraint(fields=["site", "night"], name="one_sky_row_per_site_night")]
+
+    def __str__(self) -> str:
+        return f"{self.site}: night of {self.night:%a %d %b %Y} ({self.dark_hours:.1f} h dark)"
 
 
 class BookedRun(models.Model):
@@ -393,6 +404,10 @@ class DigestSent(models.Model):
     sent_at = models.DateTimeField(auto_now_add=True)
 
     class Meta:
+        verbose_name_plural = "digests sent"
         constraints = [
             models.UniqueConstraint(fields=["site", "day", "address"], name="digest_sent_once_per_person_and_day")
         ]
+
+    def __str__(self) -> str:
+        return f"{self.site}: due digest of {self.day:%d %b %Y} sent to {self.address}"

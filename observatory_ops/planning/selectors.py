@@ -211,9 +211,13 @@ def sky_records(site: Site, start: dt.date, end: dt.date) -> list[dict]:
     ]
 
 
-#: Decimals of the due list's value, limit and rate for programs: those every reflectance is written to, the finest
-#: figure the list holds, so a value and its limit are rounded alike and compare digit for digit.
+#: Decimals of the due list's value and limit for programs: those every reflectance is written to, the finest figure
+#: the list holds, so a value and its limit are rounded alike and compare digit for digit.
 DUE_RECORD_DECIMALS = REFLECTANCE_DECIMALS
+#: Significant figures of the due list's rate: a rate is small beside its value (a trend of +0.00204 s a day, a
+#: reflectance falling by 0.00002 a day), so decimals would cut it short or round it to 0; 4, as a reading's value is
+#: written (``models.figure_text``).
+DUE_RECORD_RATE_FIGURES = 4
 
 
 def due_record(status: PlanStatus) -> dict:
@@ -235,7 +239,7 @@ def due_record(status: PlanStatus) -> dict:
         "value": round(status.value, DUE_RECORD_DECIMALS),
         "limit": round(status.limit, DUE_RECORD_DECIMALS),
         "unit": unit,
-        "rate": None if status.rate_per_day is None else round(status.rate_per_day, DUE_RECORD_DECIMALS),
+        "rate": None if status.rate_per_day is None else float(f"{status.rate_per_day:.{DUE_RECORD_RATE_FIGURES}g}"),
         "forecast_date": status.forecast_date.isoformat() if status.forecast_date else None,
         "earliest": status.earliest.isoformat() if status.earliest else None,
         "latest": status.latest.isoformat() if status.latest else None,

@@ -100,7 +100,8 @@ class SubsystemAdmin(TelescopesNamedWithSite, RecomputesSite, SimpleHistoryAdmin
     form = SubsystemAdminForm
     list_display = ("name", "telescope", "kind", "parent", "retired_on")
     list_filter = ("telescope__site", ("telescope", TelescopeListFilter), "kind")
-    search_fields = ("name", "serial_number")
+    # Also what the choices name it by (``forms.named_with_site``): "cerro dome" finds Cerro Alto's domes.
+    search_fields = ("name", "serial_number", "telescope__name", "telescope__site__name")
     site_path = "telescope__site"
 
     def save_model(self, request, obj, form, change):

@@ -1,53 +1,117 @@
 """Form fields, list filters and admin mixins the admin pages share."""
 from operator import attrgetter
+from typing import NamedTuple
 
 from django import forms
 from django.contrib import admin
+from django.contrib.admin.views.autocomplete import AutocompleteJsonView
 from django.core.exceptions import ValidationError
+from django.db.models import QuerySet
 from django.forms.models import BaseInlineFormSet
 
 from observatory_ops.calc.windows import WEEKDAY_NAMES
 from observatory_ops.registry.models import Site, Telescope
 from observatory_ops.workorders.cautions import HAZARDS
 
-#: The records a choice may list from every site, by model: a telescope, and what is on one (a subsystem, a mirror).
-#: Their names repeat across sites ("MC-80 (0.8 m)") and across telescopes ("Primary mirror"), and a subsystem or a
-#: mirror names its telescope but not its site ("MC-80: Primary mirror"). Each: its way to its site, and the order a
-#: choice lists them in (by site, then telescope, then name, as the labels read).
+
+class AcrossSites(NamedTuple):
+    """How a choice among every site's records of one model names and lists them."""
+
+    site: str  # the way from the record to its site
+    order: tuple[str, ...]  # the order a choice lists them in: by site, then as the labels read
+    owner: str = ""  # the record named before this one, where its own name does not say it (a plan's subsystem)
+
+
+#: The records a choice may list from every site, by model: a telescope, what is on one (a subsystem, a mirror), and a
+#: subsystem's service plans. Their names repeat across sites ("MC-80 (0.8 m)", one plan name for every brake), and a
+#: subsystem or a mirror names its telescope but not its site ("MC-80: Primary mirror"), a plan not even its subsystem.
 ACROSS_SITES = {
-    "registry.telescope": ("site", ("site__name", "name")),
-    "registry.subsystem": ("telescope__site", ("telescope__site__name", "telescope__name", "name")),
-    "mirrors.mirror": ("subsystem__telescope__site",
-                       ("subsystem__telescope__site__name", "subsystem__telescope__name", "subsystem__name")),
+    "registry.telescope": AcrossSites("site", ("site__name", "name")),
+    "registry.subsystem": AcrossSites("telescope__site", ("telescope__site__name", "telescope__name", "name")),
+    "mirrors.mirror": AcrossSites(
+        "subsystem__telescope__site",
+        ("subsystem__telescope__site__name", "subsystem__telescope__name", "subsystem__name"),
+    ),
+    "planning.serviceplan": AcrossSites(
+        "subsystem__telescope__site",
+        ("subsystem__telescope__site__name", "subsystem__telescope__name", "subsystem__name", "name"),
+        owner="subsystem",
+    ),
 }
 
 
+def named_with_site(record) -> str:
+    """A record of ``ACROSS_SITES`` named after its site, as ``Telescope.site_label`` names a telescope: "Cerro Alto:
+    MC-80 (0.8 m)", "Cerro Alto: MC-80: Primary mirror", "Cerro Alto: MC-80: Axis 1 brake: Check brake pads"."""
+    across = ACROSS_SITES[record._meta.label_lower]
+    site = attrgetter(across.site.replace("__", "."))(record)
+    owner = f"{attrgetter(across.owner)(record)}: " if across.owner else ""
+    return f"{site.name}: {owner}{record}"
+
+
+def listed_with_sites(queryset: QuerySet) -> QuerySet:
+    """``queryset`` (of an ``ACROSS_SITES`` model) in its order by site, each record's site fetched with it (and the
+    telescope and subsystem on the way): ``named_with_site`` then names them all from one query."""
+    across = ACROSS_SITES[queryset.model._meta.label_lower]
+    return queryset.select_related(across.site).order_by(*across.order)
+
+
 class NamedWithSiteChoiceField(forms.ModelChoiceField):
-    """A choice among every site's telescopes, subsystems or mirrors (``ACROSS_SITES``), each named after its site as
-    ``Telescope.site_label`` names a telescope: "Cerro Alto: MC-80 (0.8 m)", "Cerro Alto: MC-80: Primary mirror".
-    Whatever queryset it is given, it lists it by site and fetches each record's site with it: one query."""
+    """A choice among every site's telescopes, subsystems, mirrors or plans (``ACROSS_SITES``), each named after its
+    site (``named_with_site``). Whatever queryset it is given, it lists it by site and fetches each record's site with
+    it: one query."""
 
     def _set_queryset(self, queryset):
-        if queryset is not None:
-            site, order = ACROSS_SITES[queryset.model._meta.label_lower]
-            queryset = queryset.select_related(site).order_by(*order)
-        super()._set_queryset(queryset)
+        super()._set_queryset(None if queryset is None else listed_with_sites(queryset))
 
     queryset = property(forms.ModelChoiceField._get_queryset, _set_queryset)
 
     def label_from_instance(self, obj) -> str:
-        site = attrgetter(ACROSS_SITES[obj._meta.label_lower][0].replace("__", "."))(obj)
-        return f"{site.name}: {obj}"
+        return named_with_site(obj)
+
+
+class NamedWithSiteAutocomplete(AutocompleteJsonView):
+    """The admin's search behind a choice typed into (``autocomplete_fields``: an isolation point's subsystem, among
+    thousands) names each record of ``ACROSS_SITES`` as the choice, once saved, names it (``NamedWithSiteChoiceField``):
+    "Cerro Alto: T70: Dome", where Django gives the record's own name, "T70: Dome", the same at every site. The
+    project's admin site answers with it (``observatory_ops.admin_site``)."""
+
+    def get_queryset(self):
+        queryset = super().get_queryset()
+        return listed_with_sites(queryset) if queryset.model._meta.label_lower in ACROSS_SITES else queryset
+
+    def serialize_result(self, obj, to_field_name):
+        result = super().serialize_result(obj, to_field_name)
+        return {**result, "text": named_with_site(obj)} if obj._meta.label_lower in ACROSS_SITES else result
 
 
 class TelescopesNamedWithSite:
-    """An admin whose choices of a telescope, a subsystem or a mirror (any foreign key to one: ``ACROSS_SITES``)
-    list every site's, each named with its site (``NamedWithSiteChoiceField``)."""
+    """An admin whose choices of a telescope, a subsystem, a mirror or a plan (any foreign key to one:
+    ``ACROSS_SITES``) list every site's, each named with its site (``NamedWithSiteChoiceField``)."""
 
     def formfield_for_foreignkey(self, db_field, request, **kwargs):
         if db_field.related_model._meta.label_lower in ACROSS_SITES:
             kwargs["form_class"] = NamedWithSiteChoiceField
         return super().formfield_for_foreignkey(db_field, request, **kwargs)
+
+
+class ChoicesOfItsSite(BaseInlineFormSet):
+    """The rows of a stored record of one site (a work order's items and readings) offer that site's telescopes,
+    subsystems, mirrors and plans, still named with it, where ``TelescopesNamedWithSite`` lists every site's: a network
+    of 100 sites would otherwise list thousands in every row's choice. A new record's rows offer every site's, as its
+    own site is not chosen yet. A row given another site's all the same (a page loaded before the record moved, a post
+    made by hand) is refused, saying which site's to choose."""
+
+    def add_fields(self, form, index):
+        super().add_fields(form, index)
+        if self.instance.pk is None:
+            return
+        elsewhere = f"Choose one at {self.instance.site}, the site of this {self.instance._meta.verbose_name}."
+        for field in form.fields.values():
+            if isinstance(field, NamedWithSiteChoiceField):
+                site = ACROSS_SITES[field.queryset.model._meta.label_lower].site
+                field.queryset = field.queryset.filter(**{site: self.instance.site_id})
+                field.error_messages = {**field.error_messages, "invalid_choice": elsewhere}
 
 
 class ProtectedNamed:

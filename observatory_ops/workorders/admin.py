@@ -2,20 +2,20 @@ from django import forms
 from django.contrib import admin, messages
 from django.contrib.admin.utils import unquote
 from django.core.exceptions import ValidationError
-from django.forms.models import BaseInlineFormSet
 from django.http import HttpResponseRedirect
 from simple_history.admin import SimpleHistoryAdmin
 
-from observatory_ops.registry.forms import TelescopesNamedWithSite
+from observatory_ops.registry.forms import ChoicesOfItsSite, TelescopesNamedWithSite
 
 from . import selectors
 from .models import ChecklistTick, IsolationPoint, Part, PartUse, RequiredReading, WorkOrder, WorkOrderItem, listed
 
 
-class ItemsFixedOnceStarted(BaseInlineFormSet):
+class ItemsFixedOnceStarted(ChoicesOfItsSite):
     """The subsystems an order covers choose the isolation points its lockout step locks (a dome's own drives), so
     they are not added, changed or removed once the work has started (``WorkOrder.started_edit_refusal``), as its
-    steps, hazards and telescope are not (``WorkOrder.clean``)."""
+    steps, hazards and telescope are not (``WorkOrder.clean``). A stored order's rows offer its site's subsystems and
+    plans."""
 
     def clean(self):
         super().clean()
@@ -32,6 +32,7 @@ class ItemInline(TelescopesNamedWithSite, admin.TabularInline):
 
 class ReadingInline(TelescopesNamedWithSite, admin.TabularInline):
     model = RequiredReading
+    formset = ChoicesOfItsSite
     extra = 0
 
 

@@ -39,6 +39,9 @@ class CrewMember(models.Model):
         verbose_name_plural = "work orders' crews"
         constraints = [models.UniqueConstraint(fields=["work_order", "person"], name="crew_member_once_per_order")]
 
+    def __str__(self) -> str:
+        return f"{self.work_order.number}: crew: {self.person.get_full_name() or self.person.get_username()}"
+
 
 class WorkOrder(models.Model):
     # who changed what, when: see observatory_ops/archive; the crew chosen by account with the rest
@@ -278,6 +281,10 @@ class WorkOrderItem(models.Model):
     class Meta:
         ordering = ["pk"]
 
+    def __str__(self) -> str:
+        plan = f": {self.plan.name}" if self.plan_id else ""
+        return f"{self.work_order.number}: {self.subsystem}{plan}"
+
 
 class RequiredReading(models.Model):
     """A reading the technician must record to finish the work order."""
@@ -295,6 +302,11 @@ class RequiredReading(models.Model):
 
     class Meta:
         ordering = ["pk"]
+
+    def __str__(self) -> str:
+        limit = f", {self.limit_text}" if self.limit_text else ""
+        recorded = f": recorded {self.reading.value:g} {self.unit}" if self.reading_id else ""
+        return f"{self.work_order.number}: {self.subsystem}: {self.quantity_label} ({self.unit}){limit}{recorded}"
 
     @property
     def quantity_label(self) -> str:
@@ -426,6 +438,10 @@ class PartUse(models.Model):
 
     class Meta:
         ordering = ["pk"]
+
+    def __str__(self) -> str:
+        used = f", {self.quantity_used:g} used" if self.quantity_used is not None else ""
+        return f"{self.work_order.number}: {self.part}, {self.quantity_planned:g} {self.part.unit} planned{used}"
 
     @property
     def short_to_count(self) -> bool:

@@ -1,0 +1,18 @@
+"""The project's admin site: Django's, except that the search behind a choice typed into (``autocomplete_fields``)
+names the records a choice names with their site as the saved choice does
+(``registry.forms.NamedWithSiteAutocomplete``). Installed in place of django.contrib.admin (settings.INSTALLED_APPS),
+so ``admin.site`` and ``@admin.register`` are this site."""
+from django.contrib import admin
+from django.contrib.admin.apps import AdminConfig
+
+
+class ObservatoryAdminSite(admin.AdminSite):
+    def autocomplete_view(self, request):
+        # Imported here: this module is loaded with the installed apps, before the models it would bring.
+        from observatory_ops.registry.forms import NamedWithSiteAutocomplete
+
+        return NamedWithSiteAutocomplete.as_view(admin_site=self)(request)
+
+
+class ObservatoryAdminConfig(AdminConfig):
+    default_site = "observatory_ops.admin_site.ObservatoryAdminSite"
