@@ -15,8 +15,8 @@ def protecting_fields() -> dict[type[models.Model], list[str]]:
     refuse the person's deletion (PROTECT or RESTRICT), read from the models, so a record added later is not missed.
     Found today: a service record's performer and writer, a reading's and a reflectance measurement's taker and
     withdrawer, a work order's assignee, writer, finisher and countersigner, a checklist tick's recorder, a recoat
-    plan's writer and an API token's creator. The change history keeps no such key (it keeps the id), nor the admin's
-    log (deleted with the person)."""
+    plan's writer, an API token's creator and a crew member chosen by account. The change history keeps no such key
+    (it keeps the id), nor the admin's log (deleted with the person)."""
     found: dict[type[models.Model], list[str]] = defaultdict(list)
     for relation in get_user_model()._meta.get_fields(include_hidden=True):
         if isinstance(relation, ForeignObjectRel) and relation.on_delete in (models.PROTECT, models.RESTRICT):

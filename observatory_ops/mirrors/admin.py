@@ -7,7 +7,7 @@ from simple_history.admin import SimpleHistoryAdmin
 
 from observatory_ops.logbook.services import date_problem, service_date_problem
 from observatory_ops.planning.admin import RecomputesSite
-from observatory_ops.registry.forms import ProtectedNamed, TelescopesNamedWithSite
+from observatory_ops.registry.forms import ChoicesNamedWithSite, ProtectedNamed
 
 from . import services
 from .forms import CoatingEventAdminForm, MirrorAdminForm
@@ -68,7 +68,7 @@ class CleaningInline(admin.TabularInline):
 
 
 @admin.register(Mirror)
-class MirrorAdmin(ProtectedNamed, TelescopesNamedWithSite, RecomputesSite, SimpleHistoryAdmin):
+class MirrorAdmin(ProtectedNamed, ChoicesNamedWithSite, RecomputesSite, SimpleHistoryAdmin):
     form = MirrorAdminForm
     list_display = ("subsystem", "diameter_mm", "thickness_mm", "material", "recoat_loss")
     inlines = [CoatingInline, CleaningInline]
@@ -99,7 +99,7 @@ class MeasurementAdminForm(forms.ModelForm):
 
 
 @admin.register(ReflectanceMeasurement)
-class ReflectanceMeasurementAdmin(TelescopesNamedWithSite, RecomputesSite, SimpleHistoryAdmin):
+class ReflectanceMeasurementAdmin(ChoicesNamedWithSite, RecomputesSite, SimpleHistoryAdmin):
     """Measurements are evidence: added, never changed or deleted."""
 
     form = MeasurementAdminForm
@@ -115,5 +115,5 @@ class ReflectanceMeasurementAdmin(TelescopesNamedWithSite, RecomputesSite, Simpl
 
 
 @admin.register(RecoatPlan)
-class RecoatPlanAdmin(TelescopesNamedWithSite, SimpleHistoryAdmin):
+class RecoatPlanAdmin(ChoicesNamedWithSite, SimpleHistoryAdmin):
     list_display = ("mirror", "starts_on", "ends_on", "cost")

@@ -138,7 +138,7 @@ class MirrorAdminForm(forms.ModelForm):
         if self.instance.subsystem_id:
             offered = offered | Subsystem.objects.filter(pk=self.instance.subsystem_id)
         field = self.fields["subsystem"]
-        field.queryset = offered  # each named with its site, fetched with it (the admin's TelescopesNamedWithSite)
+        field.queryset = offered  # each named with its site, fetched with it (the admin's ChoicesNamedWithSite)
         field.help_text = "A primary or secondary mirror subsystem in service that has no mirror record yet."
 
 

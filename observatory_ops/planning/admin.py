@@ -6,7 +6,7 @@ from django.db import transaction
 from simple_history.admin import SimpleHistoryAdmin
 
 from observatory_ops.logbook.quantities import QUANTITIES, usual_for_kind
-from observatory_ops.registry.forms import HazardsField, ProtectedNamed, TelescopeListFilter, TelescopesNamedWithSite
+from observatory_ops.registry.forms import ChoicesNamedWithSite, HazardsField, ProtectedNamed, TelescopeListFilter
 from observatory_ops.registry.models import Site
 from observatory_ops.workorders.models import listed
 
@@ -104,7 +104,7 @@ class ServicePlanAdminForm(forms.ModelForm):
 
 
 @admin.register(ServicePlan)
-class ServicePlanAdmin(ProtectedNamed, TelescopesNamedWithSite, RecomputesSite, SimpleHistoryAdmin):
+class ServicePlanAdmin(ProtectedNamed, ChoicesNamedWithSite, RecomputesSite, SimpleHistoryAdmin):
     form = ServicePlanAdminForm
     list_display = ("name", "subsystem", "dust_sensitivity", "counting_from", "counting_from_given", "active")
     list_filter = ("subsystem__telescope__site", ("subsystem__telescope", TelescopeListFilter), "active")

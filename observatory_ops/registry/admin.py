@@ -7,12 +7,12 @@ from observatory_ops.workorders.cautions import HAZARDS
 
 from .catalogue import kind as catalogue_kind
 from .forms import (
+    ChoicesNamedWithSite,
     CrewDaysOffFormSet,
     ProtectedNamed,
     SiteAdminForm,
     SubsystemAdminForm,
     TelescopeListFilter,
-    TelescopesNamedWithSite,
 )
 from .models import CrewDayOff, Site, Subsystem, Telescope
 from .selectors import SLUG_KEPT, slug_uses
@@ -90,7 +90,7 @@ class TelescopeAdmin(ProtectedNamed, RecomputesSite, SimpleHistoryAdmin):
 
 
 @admin.register(Subsystem)
-class SubsystemAdmin(TelescopesNamedWithSite, RecomputesSite, SimpleHistoryAdmin):
+class SubsystemAdmin(ChoicesNamedWithSite, RecomputesSite, SimpleHistoryAdmin):
     """A subsystem added here gets what ``registry.services.subsystem_create`` gives one: its kind's hazard
     tags and default service plans, counted from the site's today with the last service unknown (due for a baseline
     service until one is logged: ``plans_from_catalogue``). Hazards ticked when adding it are added to

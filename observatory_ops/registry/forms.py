@@ -85,7 +85,7 @@ class NamedWithSiteAutocomplete(AutocompleteJsonView):
         return {**result, "text": named_with_site(obj)} if obj._meta.label_lower in ACROSS_SITES else result
 
 
-class TelescopesNamedWithSite:
+class ChoicesNamedWithSite:
     """An admin whose choices of a telescope, a subsystem, a mirror or a plan (any foreign key to one:
     ``ACROSS_SITES``) list every site's, each named with its site (``NamedWithSiteChoiceField``)."""
 
@@ -97,7 +97,7 @@ class TelescopesNamedWithSite:
 
 class ChoicesOfItsSite(BaseInlineFormSet):
     """The rows of a stored record of one site (a work order's items and readings) offer that site's telescopes,
-    subsystems, mirrors and plans, still named with it, where ``TelescopesNamedWithSite`` lists every site's: a network
+    subsystems, mirrors and plans, still named with it, where ``ChoicesNamedWithSite`` lists every site's: a network
     of 100 sites would otherwise list thousands in every row's choice. A new record's rows offer every site's, as its
     own site is not chosen yet. A row given another site's all the same (a page loaded before the record moved, a post
     made by hand) is refused, saying which site's to choose."""

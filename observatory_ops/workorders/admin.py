@@ -5,7 +5,7 @@ from django.core.exceptions import ValidationError
 from django.http import HttpResponseRedirect
 from simple_history.admin import SimpleHistoryAdmin
 
-from observatory_ops.registry.forms import ChoicesOfItsSite, TelescopesNamedWithSite
+from observatory_ops.registry.forms import ChoicesNamedWithSite, ChoicesOfItsSite
 
 from . import selectors
 from .models import ChecklistTick, IsolationPoint, Part, PartUse, RequiredReading, WorkOrder, WorkOrderItem, listed
@@ -24,13 +24,13 @@ class ItemsFixedOnceStarted(ChoicesOfItsSite):
                 raise ValidationError(why)
 
 
-class ItemInline(TelescopesNamedWithSite, admin.TabularInline):
+class ItemInline(ChoicesNamedWithSite, admin.TabularInline):
     model = WorkOrderItem
     formset = ItemsFixedOnceStarted
     extra = 0
 
 
-class ReadingInline(TelescopesNamedWithSite, admin.TabularInline):
+class ReadingInline(ChoicesNamedWithSite, admin.TabularInline):
     model = RequiredReading
     formset = ChoicesOfItsSite
     extra = 0
@@ -63,7 +63,7 @@ RECORD_SHOWN = "findings, hours, readings and parts used"
 
 
 @admin.register(WorkOrder)
-class WorkOrderAdmin(TelescopesNamedWithSite, SimpleHistoryAdmin):
+class WorkOrderAdmin(ChoicesNamedWithSite, SimpleHistoryAdmin):
     """A finished, countersigned or withdrawn order is the record (``WorkOrder.closed_edit_refusal``): its page shows
     it read only, its rows included, and says why and how it is corrected; a post to it saves nothing and says so; its
     history offers no revert (a revert posted all the same is refused by ``WorkOrder.clean``, as one that would move
@@ -145,7 +145,7 @@ def _locked_by(orders: list[WorkOrder], done: str) -> str:
 
 
 @admin.register(IsolationPoint)
-class IsolationPointAdmin(TelescopesNamedWithSite, SimpleHistoryAdmin):
+class IsolationPointAdmin(ChoicesNamedWithSite, SimpleHistoryAdmin):
     form = IsolationPointForm
     list_display = ("telescope", "subsystem", "energy", "label", "location")
     list_filter = ("telescope__site", "energy")
