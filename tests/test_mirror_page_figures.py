@@ -119,7 +119,7 @@ def test_an_unmeasured_mirror_is_taken_as_fresh_and_the_total_says_it_is_incompl
         text = _text(_page(client, users, mirror))
         assert "lost since fresh (incomplete)" in text
         assert f"computed fresh value assumed: not measured since its coating of {train['coated_on']:%d %b %Y}" in text
-        assert "estimate from the fit at today's exposure (630 dust-weighted open hours" in text
+        assert "estimate from the fit at today's exposure (630.0 dust-weighted open hours" in text
         assert "Incomplete: it takes T1: Secondary mirror as fresh, so counts no loss for it." in text
 
 

@@ -9,9 +9,9 @@
    1910.147(e)(2); what moves at an observatory is common practice, no published source.
 2. The lockout vents the air where it locks an air isolation point; on a telescope with spring-applied, air-released
    brakes that air releases them when it returns, and an out-of-balance axis can swing (the pneumatic caution, ISO
-   4414; common practice, no published source). An order whose lockout vents it but whose plans have no brake step to
-   bring it back restores it with everyone clear, once, right after the release and before anything goes back in
-   service.
+   4414; common practice, no published source). An order whose lockout vents it (or that works on such a brake, air
+   point registered or not) restores it with everyone clear, once for every axis, right after the release and before
+   anything goes back in service, in place of each brake plan's own step.
 
 Local codes, the manufacturer's instructions and licensed practice take precedence, as every order says.
 """
@@ -26,6 +26,7 @@ import pytest
 from observatory_ops.registry.catalogue import (
     BRAKE_AIR_BACK,
     CLEAR_OF,
+    HAND_BACK,
     KINDS,
     RELEASE,
     RELEASE_STEPS,
@@ -46,11 +47,21 @@ LOCKOUT = services.LOCKOUT_STEP
 TELESCOPE = "clear of the telescope"
 DOME = "clear of the path of the dome and its shutter (or of the roll-off roof)"
 LOAD = "clear of the load's path and the area under it"
-BACK_IN_SERVICE = "Restore the subsystem to service and test it under observation."
+BACK_IN_SERVICE = (
+    "Restore the subsystem to service and test it under power, with everyone, whoever watches the test too, outside "
+    "the telescope's swept volume."
+)
 
 
 def _from_due(*subsystems, users):
     return services.work_order_from_due([p for s in subsystems for p in s.plans.all()], users["engineer"])
+
+
+#: The air brake plan's earlier step, one axis's words (``catalogue.RESTORES_BRAKE_AIR``).
+KINDS_BRAKE_ONE_AXIS = (
+    "With everyone outside the swept volume and the axis balanced or restrained, restore the air slowly and check that "
+    "the brake releases and holds."
+)
 
 
 def _releases(steps: list[str]) -> list[str]:
@@ -92,16 +103,23 @@ def test_a_dome_order_releases_with_everyone_clear_of_the_telescope_and_of_the_d
     # The locked-out work ends at it, as at the telescope's release: the enclosure's own work is inside.
     lockout, locked_out = services.isolated_steps(steps)
     assert steps[lockout] == LOCKOUT and locked_out.stop == steps.index(release)
-    assert steps[locked_out.stop + 1:] == [BACK_IN_SERVICE]
+    assert steps[locked_out.stop + 1:] == [
+        "Restore the subsystem to service and test it under power, with everyone, whoever watches the test too, "
+        "outside the telescope's swept volume and clear of the path of the dome and its shutter (or of the roll-off "
+        "roof).",
+        HAND_BACK,
+    ]
 
 
 def test_a_hoist_order_releases_with_everyone_clear_of_the_loads_path_and_the_area_under_it(telescope, mains, users):
     hoist = subsystem_create(telescope, "hoist", "Dome hoist", counting_from=START)
     steps = _from_due(hoist, users=users).step_list
     (release,) = _releases(steps)
+    # Its inspection may tag the hoist out of service: the release says that tag stays.
     assert release == (
         "When the work is done and everyone is clear of the telescope and clear of the load's path and the area under "
-        "it, remove the locks and tags as the site's lockout procedure says."
+        "it, remove the locks and tags as the site's lockout procedure says, but leave in place the out-of-service tag "
+        "on anything that failed its inspection: it stays out of service until it is repaired and passes."
     )
     # The inspection may have tagged the hoist out of service: it goes back only if it passed.
     (back,) = [step for step in steps if "restore the subsystem to service" in step]
@@ -130,18 +148,19 @@ def test_an_order_over_a_drive_a_dome_and_a_hoist_removes_the_locks_once_naming_
     fans = subsystem_create(telescope, "cooling_fans", "Cell fans", counting_from=START)  # a second telescope part
     steps = _from_due(drive, dome, hoist, fans, users=users).step_list
     (release,) = _releases(steps)
-    assert release == (
+    assert release.startswith(
         f"When the work is done and everyone is {TELESCOPE}, {DOME} and {LOAD}, remove the locks and tags as the "
-        "site's lockout procedure says."
+        "site's lockout procedure says, but leave in place the out-of-service tag"  # the hoist's inspection tags out
     )
     for words in (TELESCOPE, DOME, LOAD):
         assert release.count(words) == 1
     # Whatever order the subsystems come in, the same words: the set of wordings stays finite and recognised.
-    assert release_step(["load", "telescope", "enclosure", "load"]) == release
+    assert release_step(["load", "telescope", "enclosure", "load"], tagged_out=True) == release
 
 
 def test_every_wording_of_the_release_is_recognised_and_placed_as_the_release():
-    assert len(RELEASE_STEPS) == 2 ** len(CLEAR_OF) - 1  # every non-empty set of moving things
+    # Every non-empty set of moving things, with or without the out-of-service tag that stays.
+    assert len(RELEASE_STEPS) == 2 * (2 ** len(CLEAR_OF) - 1)
     assert not is_release_step(LOCKOUT) and not is_release_step(BACK_IN_SERVICE) and not is_release_step("")
     dome_release = release_step(["enclosure"])
     # Before the lockout it is refused as the telescope's is; after it, it closes the locked-out work.
@@ -188,7 +207,7 @@ def test_a_drive_order_whose_lockout_vents_the_brake_air_brings_it_back_with_eve
     drive = subsystem_create(telescope, "axis1_drive", "Axis 1 drive", counting_from=START)
     steps = _from_due(drive, users=users).step_list
     (release,) = _releases(steps)
-    assert steps[steps.index(release) + 1:] == [BRAKE_AIR_BACK, BACK_IN_SERVICE]
+    assert steps[steps.index(release) + 1:] == [BRAKE_AIR_BACK, BACK_IN_SERVICE, HAND_BACK]
     assert "everyone told and outside the swept volume" in BRAKE_AIR_BACK
     assert "each axis balanced or restrained" in BRAKE_AIR_BACK and "slowly" in BRAKE_AIR_BACK
 
@@ -207,16 +226,20 @@ def test_the_air_comes_back_once_per_order_however_many_plans_and_telescopes(sit
     release = steps.index(_releases(steps)[0])
     assert steps[release + 1] == BRAKE_AIR_BACK
     back_in_service = [i for i, step in enumerate(steps) if step.endswith(BACK_IN_SERVICE)]
+    assert len(back_in_service) == 2  # the drives'; the fans' plans end by checking that every fan runs
     assert back_in_service and min(back_in_service) > release + 1  # before anything goes back in service
 
 
-def test_an_order_with_the_air_brake_plan_brings_the_air_back_in_the_brake_steps_words_only(air_brakes, users):
+def _air_steps(steps: list[str]) -> list[str]:
+    """The steps that bring brake air back, in any wording (a plan label before one ignored)."""
+    return [step for step in steps if "restore the air" in step.lower() or "restore the brake air" in step.lower()]
+
+
+def test_an_order_with_the_air_brake_plan_brings_the_air_back_once_in_the_words_for_every_axis(air_brakes, users):
     steps = _from_due(air_brakes, users=users).step_list
-    assert BRAKE_AIR_BACK not in steps
-    assert [step for step in steps if step in RESTORES_BRAKE_AIR] == [
-        "With everyone outside the swept volume and the axis balanced or restrained, restore the air slowly and "
-        "check that the brake releases and holds."
-    ]
+    assert _air_steps(steps) == [BRAKE_AIR_BACK]
+    assert steps[steps.index(_releases(steps)[0]) + 1] == BRAKE_AIR_BACK
+    assert not RESTORES_BRAKE_AIR - {BRAKE_AIR_BACK} & set(steps)  # the brake plan's one-axis words are not printed
 
 
 def test_one_brakes_plan_does_not_stand_in_for_the_other_axes_brakes_that_the_shared_air_releases(
@@ -224,16 +247,34 @@ def test_one_brakes_plan_does_not_stand_in_for_the_other_axes_brakes_that_the_sh
 ):
     """The lockout closes the one brake air valve, so every axis's brake applies; its air coming back releases them
     all. An order over the axis 1 brake's plan and the axis 2 drive brings back the air for every axis, with everyone
-    clear, besides the brake plan's own step for its axis."""
+    clear, once: not the brake plan's own step for its axis as well."""
     subsystem_create(telescope, "brake", "Axis 2 brake", counting_from=START)
     drive = subsystem_create(telescope, "axis2_drive", "Axis 2 drive", counting_from=START)
     steps = _from_due(air_brakes, drive, users=users).step_list
     release = steps.index(_releases(steps)[0])
-    assert steps[release + 1] == BRAKE_AIR_BACK and steps.count(BRAKE_AIR_BACK) == 1
+    assert steps[release + 1] == BRAKE_AIR_BACK and _air_steps(steps) == [BRAKE_AIR_BACK]
     assert "each axis" in BRAKE_AIR_BACK and "each brake" in BRAKE_AIR_BACK
-    # Every air brake's own plan on the order: each brings its own air back; nothing added.
+    # Both air brakes' own plans on the order: still one step, not one per axis.
     both = _from_due(*telescope.subsystems.filter(kind="brake"), users=users).step_list
-    assert BRAKE_AIR_BACK not in both
+    assert _air_steps(both) == [BRAKE_AIR_BACK]
+    assert both[both.index(_releases(both)[0]) + 1] == BRAKE_AIR_BACK
+    # Each brake is still tested back in service, after the air.
+    assert sum(step.endswith(BACK_IN_SERVICE) for step in both) == 2
+
+
+def test_air_brakes_with_no_air_point_registered_get_the_step_for_every_axis(telescope, mains, users):
+    """Work on an air brake vents its air whether or not the valve is registered as an isolation point, and the shared
+    air releases the other axis's brake too: the order over one brake's plan says so in the words for every axis."""
+    first = subsystem_create(telescope, "brake", "Axis 1 brake", counting_from=START)
+    subsystem_create(telescope, "brake", "Axis 2 brake", counting_from=START)
+    assert not IsolationPoint.objects.filter(energy="air").exists()
+    steps = _from_due(first, users=users).step_list
+    assert _air_steps(steps) == [BRAKE_AIR_BACK]
+    assert steps[steps.index(_releases(steps)[0]) + 1] == BRAKE_AIR_BACK
+    # Steps edited by hand with only one axis's words leave the other brake's air unspoken for: flagged.
+    one_axis = [step for step in steps if step != BRAKE_AIR_BACK]
+    one_axis.insert(one_axis.index(_releases(steps)[0]) + 1, KINDS_BRAKE_ONE_AXIS)
+    assert services.brake_air_problem([first], ["pneumatic"], one_axis).endswith(BRAKE_AIR_BACK)
 
 
 def test_a_brake_plan_stored_with_the_earlier_restore_wording_gets_the_step_with_everyone_clear(air_brakes, users):
@@ -244,9 +285,7 @@ def test_a_brake_plan_stored_with_the_earlier_restore_wording_gets_the_step_with
     plan.save()
     steps = _from_due(air_brakes, users=users).step_list
     release = steps.index(_releases(steps)[0])
-    assert steps[release + 1:] == [
-        BRAKE_AIR_BACK, "Restore the air slowly and check that the brake releases and holds.", BACK_IN_SERVICE
-    ]
+    assert steps[release + 1:] == [BRAKE_AIR_BACK, BACK_IN_SERVICE, HAND_BACK]  # the air restored once
 
 
 def test_no_step_where_the_lockout_vents_no_brake_air(site, telescope, mains, users):
@@ -260,7 +299,7 @@ def test_no_step_where_the_lockout_vents_no_brake_air(site, telescope, mains, us
     on_the_brake = services.work_order_ad_hoc(site, [brake], "Replace a hose", users["engineer"],
                                               steps="Replace the brake hose.", restore=BACK_IN_SERVICE)
     steps = on_the_brake.step_list
-    assert steps[steps.index(_releases(steps)[0]) + 1:] == [BRAKE_AIR_BACK, BACK_IN_SERVICE]
+    assert steps[steps.index(_releases(steps)[0]) + 1:] == [BRAKE_AIR_BACK, BACK_IN_SERVICE, HAND_BACK]
     # A retired air brake leaves spring brakes released electrically: the air vents no brake.
     brake.retired_on = START
     brake.save()

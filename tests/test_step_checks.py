@@ -6,6 +6,7 @@ catalogue plan asks for readings, on a telescope with one AC isolation point, "M
 """
 from __future__ import annotations
 
+import dataclasses
 import datetime as dt
 import io
 import re
@@ -213,7 +214,8 @@ def test_the_checklist_is_read_in_the_same_number_of_queries_however_many_ticks(
 
 # --- the sequence of the lockout ------------------------------------------------------------------------
 # The axis drive's order (electrical, moving machinery): steps 1-4 under power, step 5 the lockout, step 6 the
-# locked-out inspection, step 7 the release (catalogue.RELEASE), step 8 restoring.
+# locked-out inspection, step 7 the release (catalogue.RELEASE), step 8 restoring, step 9 the hand back to robotic and
+# remote control (catalogue.HAND_BACK).
 
 
 def _brake_air(work_order) -> IsolationPoint:
@@ -437,7 +439,7 @@ def test_the_steps_under_power_are_not_held_and_the_restoring_steps_wait_for_the
     services.checklist_tick_set(underway, STEP, 6, True, technician)
     services.checklist_tick_set(underway, STEP, 7, True, technician)
     assert [line.ticked for line in selectors.checklist(underway).steps] == [
-        True, False, False, True, True, True, True, True
+        True, False, False, True, True, True, True, True, False  # step 9 hands the observatory back
     ]
     with pytest.raises(services.Refused) as refusal:
         services.checklist_tick_set(underway, STEP, 6, False, users["engineer"])
@@ -688,12 +690,28 @@ def test_a_tick_on_a_line_no_longer_on_the_order_is_kept_in_the_list_after_the_r
     point = _point(underway)
     tick = services.checklist_tick_set(underway, POINT, point.pk, True, users["technician"])
     _finish(underway, users)
+    underway.refresh_from_db()
+    kept = selectors.sheet(underway, "https://ops.example/wo/1/")
     IsolationPoint.objects.filter(pk=point.pk).update(label="Mount main isolator")
+    elsewhere = Telescope.objects.create(site=underway.site, name="T2", aperture_m=0.4, mount="fork")
+    # The record keeps its isolation as it stood at finishing (``WorkOrder.isolation_at_finish``): renaming the point
+    # or moving it to another telescope afterwards changes nothing of it.
+    def printed(sheet):  # all but the time of printing
+        return dataclasses.replace(sheet, generated_at=None)
+
+    assert printed(selectors.sheet(underway, "https://ops.example/wo/1/")) == printed(kept)
+    IsolationPoint.objects.filter(pk=point.pk).update(telescope=elsewhere)
+    assert printed(selectors.sheet(underway, "https://ops.example/wo/1/")) == printed(kept)
+    assert kept.point_ticks[0].ticked and kept.isolation_points[0].endswith("Mount isolator")
+
+    # An order finished before the isolation was kept reads the register as it is now.
+    WorkOrder.objects.filter(pk=underway.pk).update(isolation_at_finish=None)
+    underway.refresh_from_db()
+    IsolationPoint.objects.filter(pk=point.pk).update(telescope=underway.telescope)
     sheet = selectors.sheet(underway, "https://ops.example/wo/1/")
     assert not any("Mount isolator" in line for line in sheet.confirmations)
     assert not sheet.point_ticks[0].ticked and f"when it read \"{tick.text}\"" in sheet.point_ticks[0].note
 
-    elsewhere = Telescope.objects.create(site=underway.site, name="T2", aperture_m=0.4, mount="fork")
     IsolationPoint.objects.filter(pk=point.pk).update(telescope=elsewhere)
     sheet = selectors.sheet(underway, "https://ops.example/wo/1/")
     when = tick.recorded_at.astimezone(MADRID).strftime("%d %b %Y %H:%M")

@@ -358,7 +358,7 @@ def reflectance_now(state: MirrorForecast) -> ReflectanceNow:
             )
         return ReflectanceNow(
             min(max(state.current, 0.0), 1.0), fresh, ESTIMATE,
-            f"estimate from the fit at today's exposure ({state.exposure_now_h:,.0f} dust-weighted open hours since "
+            f"estimate from the fit at today's exposure ({state.exposure_now_h:,.1f} dust-weighted open hours since "
             f"the coating of {state.coated_on:%d %b %Y}), {against}",
         )
     if state.points:
@@ -429,7 +429,8 @@ def night_costs(site: Site, start: dt.date, horizon_days: int, telescope: Telesc
     sky = list(NightSky.objects.filter(site=site, night__gte=start, night__lte=end).order_by("night"))
     # The open fraction of the telescope whose nights are lost (its own log), or of the site as a whole.
     log = UsageLog.for_telescope(telescope) if telescope else UsageLog.site_wide(site)
-    fraction = usage_model(site, log, start, 1).open_fraction
+    # The share of dark hours open, at most all of them: hours open in twilight lose no dark hours.
+    fraction = np.minimum(usage_model(site, log, start, 1).open_fraction, 1.0)
     runs = list(BookedRun.objects.filter(site=site, starts_on__lte=end, ends_on__gte=start))
     booked_name = ["" for _ in sky]
     blocked = np.zeros(len(sky), dtype=bool)
@@ -766,9 +767,10 @@ _PHASE_WORK = {
             PIN_AXES,
             "Set the lifting table (or cart) under the cell, rated for at least the total suspended load in "
             "the lifting figures; a competent person checks the table and any rigging.",
-            "Raise the lifting table (or take up the hoist) until it carries the cell's weight, then unbolt the "
-            "cell and lower it, with the mirror in it, out of the tube onto the lifting table; move it clear of the "
-            "telescope.",
+            "Raise the lifting table (or take up the hoist) until it carries the cell's whole weight before any cell "
+            "bolt is loosened. Then unbolt the cell from beside the tube: nobody stands or reaches under the cell "
+            "while it is unbolted or lowered. Lower it, with the mirror in it, out of the tube onto the lifting table, "
+            "and move it clear of the telescope.",
             f"Lift the mirror out of its cell with rated slings and place it face up in its transport crate. "
             f"{_MIRROR_ONLY_LIFT}",
             "The tube is now far out of balance: fit the balance weights the site's mirror-removal procedure "
@@ -812,9 +814,12 @@ _PHASE_WORK = {
             "figures on this order are for the mirror alone: add the mass of the fixture or spreader used.",
             "Strip the old coating with those chemicals as their safety data sheets say.",
             "Coat to the recipe in the vacuum chamber, operated only by people trained on that plant and as "
-            "its operating instructions say; record the witness-sample reflectance.",
+            "its operating instructions say. Note each witness sample's reflectance, with the wavelength or band it "
+            "was measured over, in this order's findings: it is the coating's, not a measurement of the mirror "
+            "(the realignment order measures the mirror itself, as its reflectance reading).",
             "Lift the mirror back into its transport crate, face up, as the lifting figures say.",
-            "Log the new coating (date and recipe) on the mirror's page, so its decline starts again.",
+            "Log the new coating (date and recipe) on the mirror's page, with the witness samples' reflectance in its "
+            "note, so its decline starts again.",
         ),
         after=(),
         tools=(
@@ -839,8 +844,10 @@ _PHASE_WORK = {
         locked=(
             f"Lift the mirror from its crate into the cell with rated slings; set the support pads and clips. "
             f"{_MIRROR_ONLY_LIFT}",
-            "Raise the cell on the lifting table into the tube from below and bolt it as the site's "
-            "mirror-removal procedure says; a competent person checks the table and any rigging.",
+            "Raise the cell on the lifting table into the tube from below, a competent person having checked the "
+            "table and any rigging; keep the table carrying the cell's whole weight until every cell bolt is in and "
+            "tightened, and work from beside the tube: nobody stands or reaches under the cell. Tighten the bolts to "
+            "the torque and in the order that the site's mirror-reinstall procedure (or the cell maker) gives.",
             "Take off any balance weights fitted at the removal and restore the axis balance with the drives "
             "still locked out, as the site's balancing procedure and the mount maker's instructions say.",
         ),
@@ -877,10 +884,15 @@ _PHASE_WORK = {
             "Measure reflectance at the marked positions; record their mean as the reflectance reading, and each "
             "position's value in the findings.",
         ),
+        # The check on a star runs under power with the enclosure open, the telescope and the dome moving: from the
+        # control room or from outside the swept volume and the dome's path (common practice, no published source).
         after=(
-            "Under power, check the collimation on a star and record the result.",
+            "At night, in weather fit to open, with everyone outside the telescope's swept volume and clear of the "
+            "path of the dome and its shutter (or of the roll-off roof), open the enclosure from the control panel.",
+            "Under power, from the control panel, with everyone still outside the swept volume and the dome's path, "
+            "check the collimation on a star and record the result.",
             "Return the observatory to robotic and remote control only when the collimation check is "
-            "recorded.",
+            "recorded, and tell the remote operators it is back.",
         ),
         tools=("Alignment laser", "Reflectometer"),
     ),
@@ -889,9 +901,12 @@ _PHASE_WORK = {
 
 def _phase_steps(subsystem: Subsystem, hazards: list[str], work: _PhaseWork, brakes: _Brakes) -> str:
     """A phase's steps for the mirror ``subsystem`` in the order of the work, the isolation placed as on every order;
-    ``brakes`` are the telescope's (``_brakes_of``)."""
+    ``brakes`` are the telescope's (``_brakes_of``). A phase whose lockout holds the axis brakes vents the air of
+    air-released ones (its pneumatic hazard), air point registered or not, so the air comes back after its release
+    as after any order's."""
     locked = [*work.locked, _balance_check(brakes)] if work.balance_check else [*work.locked]
-    air_back = not work.locks_stay_on and brake_air_back([subsystem], hazards, work.after)
+    vents_brakes = work.brakes and "pneumatic" in brakes.hazards
+    air_back = not work.locks_stay_on and (vents_brakes or brake_air_back([subsystem], hazards, work.after))
     return "\n".join(steps_in_groups(hazards, [*work.before], locked, [*work.after], work.release, air_back))
 
 

@@ -17,6 +17,7 @@ Trigger metrics are listed in ``observatory_ops.planning.metrics``.
 """
 from __future__ import annotations
 
+import re
 from collections.abc import Iterable
 from dataclasses import dataclass, field
 from itertools import combinations
@@ -92,6 +93,9 @@ _READ_RECORDS = "Read the last service record and open faults for this subsystem
 _OUT_OF_SERVICE = "Take the observatory out of robotic and remote control and close the enclosure."
 _PARK = "Park the telescope at its service position."
 _OUT_OF_SERVICE_PARKED = "Take the observatory out of robotic and remote control and park the telescope."
+#: The step an ad hoc order on a telescope that can move starts with when its steps under power are left empty
+#: (workorders.services.work_order_ad_hoc), as planned orders start with it or ``_OUT_OF_SERVICE``.
+OUT_OF_CONTROL_PARKED = _OUT_OF_SERVICE_PARKED
 _PREPARE = (_READ_RECORDS, _OUT_OF_SERVICE, _PARK)
 _INSPECT = "Inspect for wear, looseness, contamination and damage; photograph anything unusual."
 #: What the release step asks everyone to be clear of, by what can move once the locks come off (``Kind.moves``), in
@@ -106,14 +110,25 @@ CLEAR_OF = {
 }
 
 
-def release_step(moving: Iterable[str]) -> str:
+#: What the release adds on an order with a step that may tag equipment out of service when it fails its inspection
+#: (``is_tag_out_step``): the locks and the order's own tags come off, the out-of-service tag stays until the equipment
+#: is repaired and passes (OSHA 29 CFR 1910.147(e) for the release; the rest common practice, no published source).
+_TAG_STAYS = (
+    ", but leave in place the out-of-service tag on anything that failed its inspection: it stays out of service "
+    "until it is repaired and passes"
+)
+
+
+def release_step(moving: Iterable[str], tagged_out: bool = False) -> str:
     """The step that removes the locks, naming each thing that can then move (keys of ``CLEAR_OF``) once, in
-    ``CLEAR_OF``'s order whatever the order of ``moving``: an order over a drive, a dome and a hoist names all three."""
+    ``CLEAR_OF``'s order whatever the order of ``moving``: an order over a drive, a dome and a hoist names all three.
+    With ``tagged_out`` (the order has a step that tags out what fails its inspection: ``is_tag_out_step``) it says
+    that tag stays."""
     named = set(moving)
     clear = [words for key, words in CLEAR_OF.items() if key in named]
     return (
         f"When the work is done and everyone is {in_words(clear)}, remove the locks and tags as the site's lockout "
-        "procedure says."
+        f"procedure says{_TAG_STAYS if tagged_out else ''}."
     )
 
 
@@ -121,9 +136,11 @@ def release_step(moving: Iterable[str]) -> str:
 #: writes it once (workorders.services), after all their locked-out work, in the words of what its subsystems can set
 #: moving (``release_step_for``); the plans keep this one as the place it goes.
 RELEASE = release_step(["telescope"])
-#: Every wording of the release step an order can carry (``is_release_step``).
+#: Every wording of the release step an order can carry (``is_release_step``): each set of moving things, with or
+#: without the out-of-service tag that stays.
 RELEASE_STEPS: frozenset[str] = frozenset(
-    release_step(keys) for count in range(1, len(CLEAR_OF) + 1) for keys in combinations(CLEAR_OF, count)
+    release_step(keys, tagged_out)
+    for count in range(1, len(CLEAR_OF) + 1) for keys in combinations(CLEAR_OF, count) for tagged_out in (False, True)
 )
 
 
@@ -134,14 +151,69 @@ def is_release_step(text: str) -> bool:
     return text.strip() in RELEASE_STEPS
 
 
-_BACK_IN_SERVICE = "Restore the subsystem to service and test it under observation."
+def is_tag_out_step(text: str) -> bool:
+    """True when ``text``, one step, tags something out of service if it fails its check ("If anything is beyond the
+    maker's limits, tag the hoist out of service ..."): a step starting "If" that says to tag it out of service. An
+    order holding one says in its release that the tag stays (``release_step``)."""
+    words = " ".join(text.split()).lower()
+    return words.startswith("if ") and "out of service" in words and re.search(r"\btag\b", words) is not None
+
+
+#: Where everyone stands while a subsystem is tested back in service under power, by what can move (``Kind.moves``):
+#: the test runs with the drives powered, so whoever watches it stands there too (common practice, no published
+#: source; the moving-machinery caution).
+_WATCH_FROM = {
+    "telescope": "outside the telescope's swept volume",
+    "enclosure": "clear of the path of the dome and its shutter (or of the roll-off roof)",
+    "load": "clear of the load's path and the area under it",
+}
+
+
+def _watched_from(moves: str) -> str:
+    """Where everyone stands for the test under power of a kind that can set ``moves`` moving: always outside the
+    telescope's swept volume (the order's release powers its drives too), and clear of what the kind moves."""
+    return in_words([_WATCH_FROM["telescope"], *([_WATCH_FROM[moves]] if moves != "telescope" else [])])
+
+
+def _back_in_service(moves: str = "telescope") -> str:
+    """The step that puts a subsystem back in service and tests it under power, watched from a safe place."""
+    return (
+        "Restore the subsystem to service and test it under power, with everyone, whoever watches the test too, "
+        f"{_watched_from(moves)}."
+    )
+
+
+_BACK_IN_SERVICE = _back_in_service()
+_BACK_IN_SERVICE_ENCLOSURE = _back_in_service("enclosure")
 #: An inspection that may end with the subsystem tagged out of service (the hoist's) returns it only if it passed.
 _BACK_IN_SERVICE_IF_PASSED = (
+    "Only if nothing was found beyond the maker's limits, restore the subsystem to service and test it under power, "
+    f"unloaded, with everyone, whoever watches the test too, {_watched_from('load')}; otherwise leave it tagged out "
+    "of service and say so in the findings."
+)
+#: The earlier wordings of the two steps above, which plans stored before keep (``RETURNS_TO_SERVICE``).
+_EARLIER_BACK_IN_SERVICE = (
+    "Restore the subsystem to service and test it under observation.",
     "Only if nothing was found beyond the maker's limits, restore the subsystem to service and test it under "
-    "observation; otherwise leave it tagged out of service and say so in the findings."
+    "observation; otherwise leave it tagged out of service and say so in the findings.",
 )
 _RESTORE = (RELEASE, _BACK_IN_SERVICE)
 _COVER_CLOSED_IN_SERVICE = "Close the mirror cover and return the telescope to service."
+#: Work above the primary with its cover open, as the mirror cover's check may need: the glass covered first, and the
+#: cover closed before the telescope goes back in service (common practice, no published source).
+_PRIMARY_COVER = "the primary mirror's protective cover"
+_PROTECT_OPEN_PRIMARY = (
+    f"If the mirror cover was left open, lay {_PRIMARY_COVER} over the primary before anyone works above it, and "
+    "tether the tools used over it."
+)
+_UNCOVER_PRIMARY = (
+    "If the primary was covered, check that nothing has fallen on its protective cover, then lift the cover off."
+)
+_COVER_LEFT_CLOSED = (
+    "With nobody near the petals and everyone outside the telescope's swept volume, close the mirror cover from the "
+    "control panel and check that the closed-position switch reports closed: the telescope goes back in service with "
+    "its cover closed."
+)
 #: Said of a test on live equipment, as the electrical caution asks (NFPA 70E: energised work by a qualified person).
 _ENERGISED_WORK = (
     "This is work on live equipment: only a qualified person, under the site's rules for energised work."
@@ -176,27 +248,40 @@ _FIRST_MOVES = (
     "volume."
 )
 
-#: The air brake plan's restoring step: its air back with everyone clear before the axis goes back in service.
-_BRAKE_AIR_RESTORED = (
-    "With everyone outside the swept volume and the axis balanced or restrained, restore the air slowly and check that "
-    "the brake releases and holds."
-)
 #: The code of the spring-applied, air-released brake (``KINDS["brake"]``).
 AIR_BRAKE = "brake"
-#: Said once by an order whose lockout vents the air of an air-released brake (an air isolation point it locks, on a
-#: telescope with such a brake in service) but whose restoring does not bring it back (no air brake plan among its
-#: plans): after the release, before anything goes back in service (workorders.services.steps_in_groups). The air
-#: coming back releases the brakes, and an out-of-balance axis can swing (the pneumatic caution; ISO 4414 for the
-#: air's control, the rest common practice, no published source).
+#: The one step that brings back the air of air-released brakes, said once by every order whose lockout vents it (an
+#: air isolation point it locks on a telescope with such a brake in service, or work on such a brake, air point or
+#: not): right after the release, before anything goes back in service (workorders.services.steps_in_groups). The
+#: brakes of a telescope share their air, so it covers each axis, whichever brakes the order works on; the air brake
+#: plan's own restoring uses these words, and an order writes them once for all its plans. The air coming back
+#: releases the brakes, and an out-of-balance axis can swing (the pneumatic caution; ISO 4414 for the air's control,
+#: the rest common practice, no published source).
 BRAKE_AIR_BACK = (
     "With everyone told and outside the swept volume, and each axis balanced or restrained, restore the brake air the "
     "lockout vented, slowly (an air-released brake lets its axis go as the air returns), and check that each brake "
     "releases and holds."
 )
-#: The steps that bring an air brake's air back with everyone clear: an order holding one needs no ``BRAKE_AIR_BACK``.
-#: An earlier wording of the brake plan's ("Restore the air slowly and check that the brake releases and holds.")
-#: said nothing of anyone's being clear, so an order from a plan stored with it gets ``BRAKE_AIR_BACK`` too.
+#: Earlier wordings of the air brake plan's step that brought its air back, which plans stored before keep: one axis's
+#: words, though the shared air releases every axis's brake. An order drops them for ``BRAKE_AIR_BACK``
+#: (``is_brake_air_step``).
+_BRAKE_AIR_RESTORED = (
+    "With everyone outside the swept volume and the axis balanced or restrained, restore the air slowly and check that "
+    "the brake releases and holds."
+)
+_EARLIER_BRAKE_AIR_RESTORED = "Restore the air slowly and check that the brake releases and holds."
+#: The steps that bring an air brake's air back with everyone clear: steps written by hand that hold one of them
+#: bring back the air of the order's own brakes (workorders.services.brake_air_back). The first wording of the brake
+#: plan's (``_EARLIER_BRAKE_AIR_RESTORED``) said nothing of anyone's being clear.
 RESTORES_BRAKE_AIR: frozenset[str] = frozenset({_BRAKE_AIR_RESTORED, BRAKE_AIR_BACK})
+#: Every wording of a step that brings brake air back (``is_brake_air_step``).
+BRAKE_AIR_STEPS: frozenset[str] = RESTORES_BRAKE_AIR | {_EARLIER_BRAKE_AIR_RESTORED}
+
+
+def is_brake_air_step(text: str) -> bool:
+    """True when ``text``, one step (spaces around it ignored), brings the brake air back, in any of its wordings
+    (``BRAKE_AIR_STEPS``): an order made from plans writes ``BRAKE_AIR_BACK`` once in place of them all."""
+    return text.strip() in BRAKE_AIR_STEPS
 
 _GAS_MONITOR = "portable O2/CO2 gas monitor"  # the cryogen caution asks for one in a closed dome
 #: The limit of a reading that only the equipment's maker can give.
@@ -352,14 +437,20 @@ KINDS: dict[str, Kind] = {
                     before_isolation=(
                         *_PREPARE,
                         "With nobody near the petals, close and open the cover from the control panel; watch "
-                        "every petal move and check that the closed-position switch reports closed. Leave the "
-                        "cover open.",
+                        "every petal move and check that the closed-position switch reports closed. Then close it "
+                        "again, and leave it open only if the hinges, petals or seals to be checked cannot be "
+                        "reached with it closed.",
                     ),
+                    # Work above an open primary: anything dropped lands on the glass (common practice, no published
+                    # source).
                     after_isolation=(
+                        _PROTECT_OPEN_PRIMARY,
                         "Check each hinge for play and each petal and seal for wear and damage; photograph "
                         "anything unusual.",
+                        _UNCOVER_PRIMARY,
                     ),
-                    restore=_RESTORE,
+                    restore=(*_RESTORE, _COVER_LEFT_CLOSED),
+                    tools=(_PRIMARY_COVER,),
                 ),
             ),
             # The petals' time to open or close and their drives' current both grow as the hinges stiffen.
@@ -528,8 +619,9 @@ KINDS: dict[str, Kind] = {
                         "back together and holds the axis.",
                     ),
                     # The air first, then the test, then back in service (an order over several plans puts every
-                    # plan's return to service after the others' restoring: workorders.services._steps_for).
-                    restore=(RELEASE, _BRAKE_AIR_RESTORED, _BACK_IN_SERVICE),
+                    # plan's return to service after the others' restoring, and writes the air step once for all of
+                    # them: workorders.services._steps_for).
+                    restore=(RELEASE, BRAKE_AIR_BACK, _BACK_IN_SERVICE),
                     tools=(
                         "pressure gauge with quick coupling", _FEELER_GAUGES, "stopwatch",
                         "the brake maker's spring-restraining tool", "axis locking pin or block",
@@ -884,7 +976,7 @@ KINDS: dict[str, Kind] = {
                         "photograph anything unusual.",
                         _move_under_procedure("the enclosure", "to bring the rest of the wheels within reach"),
                     ),
-                    restore=_RESTORE,
+                    restore=(RELEASE, _BACK_IN_SERVICE_ENCLOSURE),
                     tools=("grease gun", "the lubricants the maker names"),
                     estimated_hours=3.0,
                 ),
@@ -967,13 +1059,27 @@ _EARLIER_BEFORE_ISOLATION = (
     _EARLIER_DOME_CLOSED,
 )
 
+#: The steps that take the observatory out of robotic and remote control, in their present and earlier wordings: an
+#: order holding one hands it back at its very end (``HAND_BACK``, workorders.services).
+TAKES_OUT_OF_CONTROL: frozenset[str] = frozenset({_OUT_OF_SERVICE, _OUT_OF_SERVICE_PARKED, _EARLIER_OUT_OF_SERVICE})
+#: The last step of an order that took the observatory out of robotic and remote control (``TAKES_OUT_OF_CONTROL``):
+#: written once, after every plan's test, by the order (workorders.services), not by its plans. The remote operators
+#: must know that the telescope can move again under their control (common practice, no published source).
+HAND_BACK = (
+    "Only when every test on this order has passed, and everyone has left the telescope's swept volume and the path of "
+    "the dome and its shutter (or of the roll-off roof), return the observatory to robotic and remote control and tell "
+    "the remote operators it is back."
+)
+
 #: Every step the catalogue places before isolation, and every step of its plans' restoring: how the upgrade
 #: that gave stored plans their three step groups (planning migration 0007) told them apart by their words.
 #: Work orders no longer read words: they place steps by the plans' groups (workorders.services).
 BEFORE_ISOLATION: frozenset[str] = frozenset(
     step for k in KINDS.values() for plan in k.plans for step in plan.before_isolation
 ) | frozenset(_EARLIER_BEFORE_ISOLATION)
-RESTORE: frozenset[str] = frozenset(step for k in KINDS.values() for plan in k.plans for step in plan.restore)
+RESTORE: frozenset[str] = frozenset(
+    step for k in KINDS.values() for plan in k.plans for step in plan.restore
+) | frozenset(_EARLIER_BACK_IN_SERVICE) | {_BRAKE_AIR_RESTORED, _EARLIER_BRAKE_AIR_RESTORED, HAND_BACK}
 
 #: Steps about the whole telescope or observatory, not one subsystem: an order over several plans on one telescope
 #: writes each once for all of them (workorders.services._shared_once). Any other step two plans share is about each
@@ -987,7 +1093,8 @@ TELESCOPE_STEPS: frozenset[str] = frozenset({
 #: after every other plan's restoring (its air or power restored and tested), whichever plan they come from
 #: (workorders.services._steps_for), so nothing goes back into service before the energy it needs is back.
 RETURNS_TO_SERVICE: frozenset[str] = frozenset(
-    {_BACK_IN_SERVICE, _BACK_IN_SERVICE_IF_PASSED, _COVER_CLOSED_IN_SERVICE, _FIRST_MOVES}
+    {_BACK_IN_SERVICE, _BACK_IN_SERVICE_ENCLOSURE, _BACK_IN_SERVICE_IF_PASSED, _COVER_CLOSED_IN_SERVICE, _FIRST_MOVES,
+     *_EARLIER_BACK_IN_SERVICE}
 )
 
 
@@ -1008,12 +1115,15 @@ def moving_parts(code: str, hazards: Iterable[str] = ()) -> tuple[str, ...]:
     return load + (("telescope",) if "moving_machinery" in found or not load else ())
 
 
-def release_step_for(subsystems: Iterable) -> str:
+def release_step_for(subsystems: Iterable, tagged_out: bool = False) -> str:
     """The release step of an order over ``subsystems`` (each with its ``kind`` and ``hazards``, as
     ``registry.models.Subsystem``): everyone clear of all they can set moving, each named once, and always of the
     telescope: the lockout locks each of the order's telescopes' own points for all work there
-    (``workorders.selectors.isolation_points``), so removing the locks powers its drives whatever the work was on."""
-    return release_step(["telescope", *(key for s in subsystems for key in moving_parts(s.kind, s.hazards))])
+    (``workorders.selectors.isolation_points``), so removing the locks powers its drives whatever the work was on.
+    ``tagged_out``: the order has a step that tags out what fails its inspection (``is_tag_out_step``)."""
+    return release_step(
+        ["telescope", *(key for s in subsystems for key in moving_parts(s.kind, s.hazards))], tagged_out
+    )
 
 
 def kind(code: str) -> Kind:

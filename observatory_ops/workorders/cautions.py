@@ -39,6 +39,10 @@ ISOLATION_HAZARDS = ("electrical", "pneumatic", "stored_mechanical", "hydraulic"
 ENERGY_HAZARDS = {
     "ac": "electrical", "dc": "electrical", "servo": "electrical", "air": "pneumatic", "hydraulic": "hydraulic",
 }
+#: What else a lockout that locks a point of these kinds touches, for its cautions only (not the points a hazard
+#: asks for): the servo drives' points lock the telescope's drives, and restoring them lets it move, so the order
+#: prints the moving telescope's caution though its work brings no such hazard (a supply's service, say).
+ENERGY_ALSO = {"servo": "moving_machinery"}
 
 
 #: What the page and the printed order say when the work's hazards need nothing isolated (``isolation_statement``).

@@ -136,6 +136,13 @@ class WorkOrder(models.Model):
         help_text="The answer given for an unticked energy isolation: a key of cautions.ISOLATION_UNTICKED "
                   "(isolated, not_needed, not_isolated); blank when none was asked.",
     )
+    isolation_at_finish = models.JSONField(
+        null=True, blank=True,
+        help_text="The energy isolation as it stood when the work was finished, so that a later change of the register "
+                  "cannot change the record: the points its lockout locked (id, energy, telescope, subsystem, the line "
+                  "as it read) and the warnings of points the register lacked. Null for orders not finished, and for "
+                  "those finished before it was kept (they read the register as it is).",
+    )
     crew = models.JSONField(
         null=True, blank=True,
         help_text="Who did the work with the person who finished it, names as printed on its crew lines: the people "

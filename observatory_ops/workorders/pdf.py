@@ -22,7 +22,7 @@ from __future__ import annotations
 import io
 from collections import Counter
 from collections.abc import Sequence
-from datetime import date
+from datetime import date, datetime
 from itertools import groupby
 
 # escape() only escapes our own output text; no XML is parsed (bandit B406 is accepted for this line).
@@ -47,6 +47,7 @@ from reportlab.platypus import (
     PageBreak,
     PageTemplate,
     Paragraph,
+    SetTopFlowables,
     Spacer,
     Table,
     TableStyle,
@@ -59,7 +60,7 @@ from observatory_ops.workorders.cautions import (
     is_lockout_step,
     signal_word,
 )
-from observatory_ops.workorders.sheet import Sheet, SheetCaution, SheetPart, SheetTick
+from observatory_ops.workorders.sheet import WARNING_PREFIX, Sheet, SheetCaution, SheetPart, SheetTick
 
 PAPER_SIZES: dict[str, tuple[float, float]] = {"A4": A4, "letter": LETTER}
 
@@ -92,7 +93,11 @@ _HEADING = ParagraphStyle(
     "wo-heading", parent=_BODY, fontName=FONT_BOLD, fontSize=11, leading=14, spaceBefore=11, spaceAfter=4,
     keepWithNext=1,
 )
-_SUBHEADING = ParagraphStyle("wo-subheading", parent=_BODY, fontName=FONT_BOLD, spaceBefore=4, spaceAfter=2)
+_SUBHEADING = ParagraphStyle("wo-subheading", parent=_BODY, fontName=FONT_BOLD, spaceBefore=4, spaceAfter=2,
+                             keepWithNext=1)
+#: A heading repeated at the top of the page a list runs onto (``_continued``); nothing to keep it with there.
+_CONTINUED = ParagraphStyle("wo-continued", parent=_HEADING, spaceBefore=0, keepWithNext=0)
+_BLANK_PAGE = ParagraphStyle("wo-blank-page", parent=_BODY, textColor=GREY, alignment=TA_CENTER)
 _NOTE = ParagraphStyle("wo-note", parent=_SMALL, textColor=GREY, spaceAfter=4)
 _BULLET = ParagraphStyle("wo-bullet", parent=_BODY, leftIndent=11, bulletIndent=1, spaceAfter=2)
 _ITEM = ParagraphStyle("wo-item", parent=_BODY, spaceAfter=4)
@@ -108,6 +113,8 @@ _NUMBER_WIDTH = 17.0
 #: is read as two. Taller ones still split, as a paragraph does.
 _KEEP_WHOLE_UP_TO = 120.0
 _WRITING_GAP = 21.0
+#: The blank between the sign-off's name, signature and date lines.
+_SIGN_OFF_GAP = 7 * mm
 _CELL_PADDING = 4
 # A table row taller than a page (a cell holding a very long text) is cut inside the row, leaving at least
 # this much of it at the foot of a page; shorter rows move to the next page whole.
@@ -188,12 +195,24 @@ class _Table(Table):
 
     reportlab's in-row split, when left on, also cuts an ordinary row in the space left at the foot of a
     page after a split between rows, which prints the repeated header twice on one page.
+
+    With ``keep_rows`` set, a split leaves at least that many rows under the header at the foot of the page and
+    carries at least that many to the next (a table of fewer moves whole), unless the table already starts at the
+    top of a page, where moving it would not help.
     """
+
+    keep_rows = 0
+
+    def onSplit(self, table, byRow=1):  # reportlab's method names: each part keeps the rule for its own split
+        super().onSplit(table, byRow)
+        table.keep_rows = self.keep_rows
 
     def split(self, availWidth, availHeight):  # reportlab's method names
         self.splitInRow = 0
-        parts = super().split(availWidth, availHeight)
         header = self.repeatRows if isinstance(self.repeatRows, int) else max(self.repeatRows) + 1
+        at_top = getattr(getattr(self, "_frame", None), "_atTop", False)
+        self._rowSplitRange = (header + self.keep_rows, -self.keep_rows) if self.keep_rows and not at_top else None
+        parts = super().split(availWidth, availHeight)
         if parts or header >= len(self._rowHeights):
             return parts
         if sum(self._rowHeights[: header + 1]) > _SMALLEST_BODY_HEIGHT:
@@ -203,23 +222,51 @@ class _Table(Table):
 
 
 def _ruled_table(header: Sequence[str], rows: list[list], col_widths: list[float]) -> _Table:
-    """A ruled table under a bold header row that repeats on each page the table runs onto."""
-    return _Table([list(header), *rows], colWidths=col_widths, repeatRows=1, style=TableStyle(_RULED_TABLE),
-                  hAlign="LEFT")
+    """A ruled table under a bold header row that repeats on each page the table runs onto; a page break leaves
+    neither the header with one row at the foot of a page nor one row alone at the top of the next."""
+    table = _Table([list(header), *rows], colWidths=col_widths, repeatRows=1, style=TableStyle(_RULED_TABLE),
+                   hAlign="LEFT")
+    table.keep_rows = 2
+    return table
 
 
-class _SheetStart(Flowable):
-    """Invisible marker at the top of each work order: tells the canvas which work order its pages belong to."""
+class _PagesOf(Flowable):
+    """Invisible marker at the top of each work order (and of a batch's list of its orders): tells the canvas which
+    of them its pages belong to, by ``index`` (the list is -1), and what their footer and running head say."""
 
-    def __init__(self, index: int, sheet: Sheet):
+    def __init__(self, index: int, label: str, title: str):
         super().__init__()
-        self._work_order = (index, sheet.number, sheet.title)
+        self._work_order = (index, label, title)
 
     def wrap(self, avail_width, avail_height):
         return 0, 0
 
     def draw(self):
         self.canv.work_order = self._work_order
+
+
+def _sheet_start(index: int, sheet: Sheet) -> _PagesOf:
+    return _PagesOf(index, f"Work order {_shorten(sheet.number, 40)}", sheet.title)
+
+
+class _PageCount(Flowable):
+    """How many pages work order ``index`` of a batch prints on, for the batch's list of its orders: drawn as a form
+    the canvas fills in once every page is laid out (:meth:`_NumberedCanvas.save`)."""
+
+    def __init__(self, index: int):
+        super().__init__()
+        self._form = _page_count_form(index)
+
+    def wrap(self, avail_width, avail_height):
+        self.width, self.height = avail_width, BODY_LEADING
+        return self.width, self.height
+
+    def draw(self):
+        self.canv.doForm(self._form)
+
+
+def _page_count_form(index: int) -> str:
+    return f"wo-pages-{index}"
 
 
 class _Ticked(Flowable):
@@ -395,13 +442,14 @@ def _header(sheet: Sheet, width: float) -> list[Flowable]:
         ("Planned date", _date_text(sheet.planned_date)),
         ("Issued", _date_text(sheet.issued_on)),
         ("Assignee", sheet.assignee or "not assigned"),
-        ("Printed", sheet.generated_at.strftime(f"{_DAY} %H:%M") if sheet.generated_at else ""),
+        ("Printed", ""),
     )
     column = width / 4
     rows = []
     for first in (0, 4):
         rows.append([label for label, _ in facts[first : first + 4]])
         rows.append([_cell(value, column) for _, value in facts[first : first + 4]])
+    rows[-1][-1] = _printed_at(sheet.generated_at)
     grid = _Table(
         rows,
         colWidths=[column] * 4,
@@ -424,6 +472,33 @@ def _header(sheet: Sheet, width: float) -> list[Flowable]:
         ]),
     )
     return [top, Spacer(1, 6), grid]
+
+
+def _printed_at(moment: datetime | None) -> str | Paragraph:
+    """When the sheet was printed, and under it the time zone every time on the paper is in (the site's, as the
+    selectors give them: the printing time, and who ticked a line when), named once here."""
+    if moment is None:
+        return ""
+    printed, zone = _time_and_zone(moment)
+    if not zone:
+        return printed
+    return _Paragraph(f"{_text(printed)}<br/><font size=7 color='#595959'>All times: {_text(zone)}</font>", _BODY)
+
+
+def _printed_line(moment: datetime) -> str:
+    printed, zone = _time_and_zone(moment)
+    return f"Printed {printed} ({zone})" if zone else f"Printed {printed}"
+
+
+def _time_and_zone(moment: datetime) -> tuple[str, str]:
+    """A time as the paper prints it, with its zone's abbreviation ("03 Dec 2026 05:38 MST"), and the name of its
+    zone ("America/Denver"); "" for a time without a zone."""
+    printed = moment.strftime(f"{_DAY} %H:%M")
+    zone = getattr(moment.tzinfo, "key", None) or moment.tzname() or ""
+    abbreviation = moment.tzname()
+    if abbreviation and abbreviation != zone:
+        printed = f"{printed} {abbreviation}"
+    return printed, zone
 
 
 def _why(sheet: Sheet) -> list[Flowable]:
@@ -509,7 +584,36 @@ def _isolation(sheet: Sheet) -> list[Flowable]:
         return [heading, _note("None listed for this telescope. Ask the site engineer before working on powered "
                                "or pressurised equipment.")]
     ticks = sheet.point_ticks or (None,) * len(sheet.isolation_points)
-    return [heading, *(_checklist_line(point, tick) for point, tick in zip(sheet.isolation_points, ticks, strict=True))]
+    lines = [
+        _warning(point.removeprefix(WARNING_PREFIX)) if point.startswith(WARNING_PREFIX)
+        else _checklist_line(point, tick)
+        for point, tick in zip(sheet.isolation_points, ticks, strict=True)
+    ]
+    return _continued(heading, "Energy isolation points (continued)", lines)
+
+
+def _warning(text: str) -> Paragraph:
+    """A warning among checklist lines: printed bold and flagged, with no tick box (nothing to tick, as on the page)."""
+    return _Paragraph(f"<b>WARNING: {_text(text)}</b>", _BULLET, bulletText="!")
+
+
+def _continued(heading: Paragraph, continued: str, lines: list[Flowable]) -> list[Flowable]:
+    """A heading and the lines under it; on each page the lines run onto, ``continued`` is printed at the top first.
+
+    The heading stays with the first line (``keepWithNext``); from the second line on, reportlab prints the
+    continued heading at the top of each new page (``SetTopFlowables``), until the last line is placed.
+    """
+    if len(lines) < 2:
+        return [heading, *lines]
+    return [heading, lines[0], _SetTopFlowables([_Paragraph(_text(continued), _CONTINUED)]), *lines[1:],
+            _SetTopFlowables([])]
+
+
+class _SetTopFlowables(SetTopFlowables):
+    """reportlab's marker, taken as of no height also at the very foot of a page (reportlab 5.1 misspells the flag),
+    so that it takes effect where it stands rather than after a page break."""
+
+    _ZEROSIZE = True
 
 
 def _checklist_line(text: str, tick: SheetTick | None, number: str = "") -> _Ticked:
@@ -527,11 +631,14 @@ def _lifting(sheet: Sheet, width: float) -> list[Flowable]:
         return []
     widths = [width * 0.6, width * 0.4]
     story: list[Flowable] = [
-        _heading("Lifting figures"),
-        _note("Estimates from geometry and handbook densities, for planning the lift. They do not approve it: "
-              "a competent person decides whether and how it goes ahead."),
-        _ruled_table(("Figure", "Value"), [[_cell(label, widths[0]), _cell(value, widths[1])]
-                                           for label, value in lifting.rows], widths),
+        # The figures are read as one: each from the inputs and formulas above it, so the table never splits.
+        KeepTogether([
+            _heading("Lifting figures"),
+            _note("Estimates from geometry and handbook densities, for planning the lift. They do not approve it: "
+                  "a competent person decides whether and how it goes ahead."),
+            _ruled_table(("Figure", "Value"), [[_cell(label, widths[0]), _cell(value, widths[1])]
+                                               for label, value in lifting.rows], widths),
+        ]),
     ]
     if lifting.warnings:
         story.append(Spacer(1, 5))
@@ -553,8 +660,9 @@ def _steps(sheet: Sheet) -> list[Flowable]:
     if not sheet.steps:
         return [*story, _note("No steps listed.")]
     ticks = sheet.step_ticks or (None,) * len(sheet.steps)
-    return [*story, *(_checklist_line(step, tick, f"{number}.")
-                      for number, (step, tick) in enumerate(zip(sheet.steps, ticks, strict=True), start=1))]
+    lines = [_checklist_line(step, tick, f"{number}.")
+             for number, (step, tick) in enumerate(zip(sheet.steps, ticks, strict=True), start=1)]
+    return [*story[:-1], *_continued(story[-1], "Steps (continued)", lines)]
 
 
 def _parts_and_tools(sheet: Sheet, width: float) -> list[Flowable]:
@@ -562,7 +670,7 @@ def _parts_and_tools(sheet: Sheet, width: float) -> list[Flowable]:
     if sheet.parts:
         widths = [width - 100 * mm, 36 * mm, 26 * mm, 38 * mm]
         rows = [[_cell(part.name, widths[0]), _cell(part.part_number, widths[1]),
-                 _cell(f"{part.quantity:g} {part.unit}", widths[2]),
+                 _cell(_amount(part.quantity, part.unit), widths[2]),
                  _written_box(widths[3]) if part.used is None else _cell(_used(part), widths[3])]
                 for part in sheet.parts]
         story.append(_ruled_table(("Part", "Part no.", "Planned", "Used"), rows, widths))
@@ -591,8 +699,24 @@ def _parts_and_tools(sheet: Sheet, width: float) -> list[Flowable]:
 
 
 def _used(part: SheetPart) -> str:
-    used = f"{part.used:g} {part.unit}"
+    used = _amount(part.used, part.unit)
     return f"{used} ({part.short:g} beyond the register)" if part.short else used
+
+
+#: Units of the parts register that are things counted, singular to plural: "2 sets", "1 pack". Any other unit
+#: (each, a measure such as m, kg or l, an abbreviation) prints as the register writes it: "2 each", "1.5 m".
+_COUNTED_PLURALS = {
+    "bottle": "bottles", "box": "boxes", "cylinder": "cylinders", "kit": "kits", "pack": "packs", "pair": "pairs",
+    "piece": "pieces", "roll": "rolls", "set": "sets", "swab": "swabs", "unit": "units",
+}
+_COUNTED_SINGULARS = {plural: singular for singular, plural in _COUNTED_PLURALS.items()}
+
+
+def _amount(quantity: float, unit: str) -> str:
+    """A quantity with its unit as it reads: "1 set", "2 sets", "3 each", "0.5 m"."""
+    word = unit.strip()
+    table = _COUNTED_SINGULARS if quantity == 1 else _COUNTED_PLURALS
+    return f"{quantity:g} {table.get(word.lower(), word)}".rstrip()
 
 
 def _readings(sheet: Sheet, width: float) -> list[Flowable]:
@@ -645,9 +769,9 @@ def _cleanings(sheet: Sheet) -> list[Flowable]:
     if not sheet.cleaning_to_record:
         return []
     story: list[Flowable] = [_heading("Mirror cleaning \N{EN DASH} tick one for each mirror")]
-    for mirror, answers in sheet.cleaning_to_record:
-        story.append(_Paragraph(_text(mirror), _SUBHEADING))
-        story += [_Ticked(_para(answer, _ITEM)) for answer in answers]
+    for mirror, answers in sheet.cleaning_to_record:  # a mirror's choices are one question: never split
+        story.append(KeepTogether([_Paragraph(_text(mirror), _SUBHEADING),
+                                   *(_Ticked(_para(answer, _ITEM)) for answer in answers)]))
     return story
 
 
@@ -685,27 +809,33 @@ def _record_boxes(sheet: Sheet, width: float) -> Table:
 def _sign_off(sheet: Sheet, width: float) -> list[Flowable]:
     """The actual hours and the day, and a line to sign for the one who did the work, each of the crew with them
     (named as the finish form gave them, else blank lines), the competent person who checked the rigging of a
-    suspended load, and the one who checks the record."""
+    suspended load, and the one who checks the record. Name, signature and date each have a line of their own under
+    their label, with a gap between them, so it is plain where to print the name and where to sign."""
 
     def day(value) -> str:
         return value.strftime(_DAY) if value else ""
 
+    def line(role: str, name: str = "", on: str = "") -> list[str]:  # the gap columns stay empty
+        return [role, name, "", "", "", on]
+
     if sheet.crew is None:
-        crew = [["Crew member", "", "", ""] for _ in range(CREW_LINES)]
+        crew = [line("Crew member") for _ in range(CREW_LINES)]
     else:
-        crew = [["Crew member", _shorten(name, 40), "", day(sheet.performed_on)] for name in sheet.crew]
-        crew = crew or [["Crew member", "none named", "", ""]]
+        crew = [line("Crew member", _shorten(name, 40), day(sheet.performed_on)) for name in sheet.crew]
+        crew = crew or [line("Crew member", "none named")]
     rows = [
-        ["", "Name", "Signature", "Date"],
-        ["Performed by", _shorten(sheet.performed_by, 40), "", day(sheet.performed_on)],
+        ["", "Name", "", "Signature", "", "Date"],
+        line("Performed by", _shorten(sheet.performed_by, 40), day(sheet.performed_on)),
         *crew,
     ]
     if sheet.rigging_check:
-        rows.append(["Rigging checked by\n(competent person)", "", "", ""])
-    rows.append(["Checked by", _shorten(sheet.checked_by, 40), "", day(sheet.checked_on)])
+        rows.append(line("Rigging checked by\n(competent person)"))
+    rows.append(line("Checked by", _shorten(sheet.checked_by, 40), day(sheet.checked_on)))
+    gap, date_width = _SIGN_OFF_GAP, 30 * mm
+    writing = (width - 36 * mm - 2 * gap - date_width) / 2
     table = Table(
         rows,
-        colWidths=[36 * mm, (width - 66 * mm) / 2, (width - 66 * mm) / 2, 30 * mm],
+        colWidths=[36 * mm, writing, gap, writing, gap, date_width],
         rowHeights=[12] + [30] * (len(rows) - 1),
         style=TableStyle([
             ("VALIGN", (0, 0), (-1, -1), "BOTTOM"),
@@ -713,9 +843,8 @@ def _sign_off(sheet: Sheet, width: float) -> list[Flowable]:
             ("TEXTCOLOR", (0, 0), (-1, 0), GREY),
             ("FONT", (0, 1), (0, -1), FONT_BOLD, BODY_SIZE, BODY_LEADING),
             ("LEFTPADDING", (0, 0), (-1, -1), 0),
-            ("RIGHTPADDING", (0, 0), (-1, -1), 10),
-            ("LINEBELOW", (1, 1), (-2, -1), 0.8, INK),
-            ("LINEBELOW", (-1, 1), (-1, -1), 0.8, INK),
+            ("RIGHTPADDING", (0, 0), (-1, -1), 4),
+            *(("LINEBELOW", (column, 1), (column, -1), 0.8, INK) for column in (1, 3, 5)),
         ]),
         hAlign="LEFT",
     )
@@ -724,7 +853,7 @@ def _sign_off(sheet: Sheet, width: float) -> list[Flowable]:
 
 def _sheet_story(index: int, sheet: Sheet, width: float) -> list[Flowable]:
     return [
-        _SheetStart(index, sheet),
+        _sheet_start(index, sheet),
         *_header(sheet, width),
         *_notices(sheet, width),
         *_why(sheet),
@@ -744,8 +873,12 @@ def _sheet_story(index: int, sheet: Sheet, width: float) -> list[Flowable]:
 class _NumberedCanvas(Canvas):
     """A canvas that holds every page back until ``save`` so each page can say "page i of n" of its work order.
 
-    ``work_order`` (index, number, title) is set by :class:`_SheetStart` on the first page of each work order.
+    ``work_order`` (index, footer label, title) is set by :class:`_PagesOf` on the first page of each work order.
     """
+
+    #: Give each work order but the last an even number of pages, the last one a blank back saying so, so that
+    #: printed on both sides no work order starts on the back of another (a batch).
+    pad_to_even = False
 
     def __init__(self, *args, **kwargs):
         super().__init__(*args, **kwargs)
@@ -757,20 +890,45 @@ class _NumberedCanvas(Canvas):
         self._startPage()
 
     def save(self):
-        totals = Counter(page["work_order"][0] for page in self._held_pages)
+        held = self._held_pages
+        totals = Counter(page["work_order"][0] for page in held)
+        for index, pages in totals.items():  # the batch's list of its orders shows these
+            self._define_page_count(index, pages)
         seen: Counter[int] = Counter()
-        for page in self._held_pages:
+        for position, page in enumerate(held):
             self.__dict__.update(page)
             index = self.work_order[0]
             seen[index] += 1
             self._draw_page_furniture(seen[index], totals[index])
             super().showPage()
+            last_of_its_order = position + 1 < len(held) and held[position + 1]["work_order"][0] != index
+            if self.pad_to_even and last_of_its_order and totals[index] % 2:
+                self._draw_blank_back()
+                super().showPage()
         super().save()
 
-    def _draw_page_furniture(self, page: int, pages: int) -> None:
-        _, number, title = self.work_order
+    def _define_page_count(self, index: int, pages: int) -> None:
+        self.beginForm(_page_count_form(index), 0, -3, 60, BODY_LEADING)
+        self.setFont(FONT, BODY_SIZE)
+        self.setFillColor(INK)
+        self.drawString(0, BODY_LEADING - BODY_SIZE, f"{pages}")
+        self.endForm()
+
+    def _draw_blank_back(self) -> None:
+        """The back of a work order's last page in a batch: says it is blank on purpose, under the order's footer."""
         width, height = self._pagesize
-        label = f"Work order {_shorten(number, 40)}"
+        self.saveState()
+        self.setFillColor(GREY)
+        self.setFont(FONT, 11)
+        self.drawCentredString(width / 2, height / 2, "This page is left blank.")
+        self.restoreState()
+        self._draw_page_furniture(0, 0)
+
+    def _draw_page_furniture(self, page: int, pages: int) -> None:
+        """The footer (label, "page i of n"; "left blank" for a blank back, ``page`` 0) and, from page 2 on, the
+        running head."""
+        _, label, title = self.work_order
+        width, height = self._pagesize
         self.saveState()
         self.setStrokeColor(INK)
         self.setFillColor(INK)
@@ -778,8 +936,8 @@ class _NumberedCanvas(Canvas):
         self.line(MARGIN_X, MARGIN_BOTTOM - 6, width - MARGIN_X, MARGIN_BOTTOM - 6)
         self.setFont(FONT_BOLD, 8.5)
         self.drawString(MARGIN_X, MARGIN_BOTTOM - 17, label)
-        self.drawRightString(width - MARGIN_X, MARGIN_BOTTOM - 17, f"page {page} of {pages}")
-        if page > 1:
+        self.drawRightString(width - MARGIN_X, MARGIN_BOTTOM - 17, f"page {page} of {pages}" if page else "left blank")
+        if page != 1:
             self.setFont(FONT, 8)
             self.drawString(MARGIN_X, height - MARGIN_TOP + 8, f"{label} \N{EN DASH} {_shorten(title, 80)} (continued)")
             self.setLineWidth(0.4)
@@ -821,13 +979,43 @@ def render_batch(sheets: Sequence[Sheet], paper: str = "A4") -> bytes:
     frame = Frame(MARGIN_X, MARGIN_BOTTOM, document.width, document.height,
                   leftPadding=0, rightPadding=0, topPadding=0, bottomPadding=0, id="body")
     document.addPageTemplates([PageTemplate(id="work-order", frames=[frame])])
-    story: list[Flowable] = []
+    batch = len(sheets) > 1
+    story: list[Flowable] = _batch_list(sheets, document.width) if batch else []
     for index, sheet in enumerate(sheets):
-        if index:
+        if story:
             story.append(PageBreak())
         story += _sheet_story(index, sheet, document.width)
-    document.build(story, canvasmaker=_NumberedCanvas)
+    document.build(story, canvasmaker=_BatchCanvas if batch else _NumberedCanvas)
     return buffer.getvalue()
+
+
+class _BatchCanvas(_NumberedCanvas):
+    pad_to_even = True
+
+
+def _batch_list(sheets: Sequence[Sheet], width: float) -> list[Flowable]:
+    """A batch's first page: the work orders in it, in the order they follow, each with its pages."""
+    planned = sorted(sheet.planned_date for sheet in sheets if sheet.planned_date is not None)
+    when = f"planned {_date_text(planned[0])} to {_date_text(planned[-1])}" if planned else "no planned dates"
+    sites = ", ".join(sorted({sheet.site for sheet in sheets}))
+    widths = [10 * mm, 26 * mm, width - 10 * mm - 26 * mm - 30 * mm - 24 * mm - 14 * mm, 30 * mm, 24 * mm, 14 * mm]
+    rows = [
+        [f"{index + 1}", _cell(sheet.number, widths[1]), _cell(sheet.title, widths[2]),
+         _cell(sheet.telescope, widths[3]), _date_text(sheet.planned_date), _PageCount(index)]
+        for index, sheet in enumerate(sheets)
+    ]
+    generated = sheets[0].generated_at
+    return [
+        _PagesOf(-1, "Work orders in this batch", f"{len(sheets)} work orders, {when}"),
+        _Paragraph("WORK ORDERS IN THIS BATCH", _LABEL),
+        _para(f"{len(sheets)} work orders, {when}", _TITLE),
+        _para(sites),
+        *([_para(_printed_line(generated), _SMALL)] if generated else []),
+        _note("Each work order starts on a new sheet of paper: one with an odd number of pages ends with a blank "
+              "back page, so the batch can be printed on both sides. Pages below count each order's own pages."),
+        Spacer(1, 6),
+        _ruled_table(("No.", "Work order", "Title", "Telescope", "Planned", "Pages"), rows, widths),
+    ]
 
 
 def render_sheet(sheet: Sheet, paper: str = "A4") -> bytes:

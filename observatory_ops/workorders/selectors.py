@@ -25,6 +25,7 @@ from .cautions import (
     ALONGSIDE_ADVICE,
     ALONGSIDE_START_QUESTION,
     ALONGSIDE_TITLE_ON_PAPER,
+    ENERGY_ALSO,
     ENERGY_HAZARDS,
     HAZARDS,
     HAZARDS_MISSING_BEFORE_START,
@@ -205,10 +206,11 @@ def low_stock(site: Site) -> QuerySet[Part]:
 def cautions(order: WorkOrder, points: Sequence[IsolationPoint] | None = None) -> list[Caution]:
     """The cautions the order prints: one for each of its hazards, and one for each energy its lockout touches (the
     kinds of its isolation points, ``cautions.ENERGY_HAZARDS``), so a lockout that closes and bleeds the brake air
-    prints the pneumatic caution on an axis drive's order too. ``points``: ``isolation_points(order)``, read when
-    not given."""
+    prints the pneumatic caution on an axis drive's order too, and one that locks the servo drives the moving
+    telescope's (``cautions.ENERGY_ALSO``). ``points``: ``isolation_points(order)``, read when not given."""
     points = isolation_points(order) if points is None else points
-    touched = [ENERGY_HAZARDS[point.energy] for point in points if point.energy in ENERGY_HAZARDS]
+    touched = [hazard for point in points for table in (ENERGY_HAZARDS, ENERGY_ALSO)
+               if (hazard := table.get(point.energy))]
     return cautions_for([*order.hazards, *touched])
 
 
@@ -387,13 +389,44 @@ def _telescopes(order: WorkOrder, items: list[WorkOrderItem]) -> set[int]:
     return telescopes
 
 
+class RecordedPoint(NamedTuple):
+    """An isolation point as a finished order recorded it (``WorkOrder.isolation_at_finish``): what its checklist, its
+    cautions and its gaps read of a point, kept as it stood when the work was finished."""
+    pk: int
+    energy: str
+    telescope_id: int
+    subsystem_id: int | None
+    description: str
+
+
+def isolation_kept(points: Sequence[IsolationPoint], gaps: Sequence[str]) -> dict:
+    """What a finished order keeps of its energy isolation (``WorkOrder.isolation_at_finish``): its points and the
+    warnings of points the register lacked, as ``isolation_points`` and ``isolation_gaps`` read them at finishing."""
+    return {
+        "points": [{"id": p.pk, "energy": p.energy, "telescope": p.telescope_id, "subsystem": p.subsystem_id,
+                    "text": p.description} for p in points],
+        "gaps": list(gaps),
+    }
+
+
+def _kept(order: WorkOrder) -> dict | None:
+    """The isolation a finished order kept; None while it is not finished, and for one finished before it was kept."""
+    finished = order.state in (State.FINISHED, State.COUNTERSIGNED)
+    return order.isolation_at_finish if finished else None
+
+
 def isolation_points(order: WorkOrder, items: list[WorkOrderItem] | None = None) -> list[IsolationPoint]:
     """The points the order's lockout step locks: each of its telescopes' points for all work there, and
     the points registered for one of its subsystems (a dome's own drives). Work with a moving telescope or
     dome among its hazards also locks the points of every subsystem in service on those telescopes that has
     a supply of its own: a dome turning over people on a platform is a danger to any of that work, not only
     to work on the dome; at a site whose telescopes share one enclosure (``Site.shared_enclosure``), those of every
-    telescope of the site. None when its hazards need no energy isolated (the order has no lockout step)."""
+    telescope of the site. None when its hazards need no energy isolated (the order has no lockout step).
+
+    A finished order's points are those it kept when the work was finished (``RecordedPoint``), whatever the register
+    says now: the record does not change when a point is added, edited or moved."""
+    if (kept := _kept(order)) is not None:
+        return [RecordedPoint(p["id"], p["energy"], p["telescope"], p["subsystem"], p["text"]) for p in kept["points"]]
     if not needs_isolation(order.hazards):
         return []
     items = order_items(order) if items is None else items
@@ -453,11 +486,15 @@ def isolation_gaps(order: WorkOrder, points: list[IsolationPoint] | None = None,
     it: a dome fed from a supply of its own, whose drives the telescope's points do not make safe, or the AC
     distribution, whose incoming side they leave live. That is each such subsystem the order works on with
     electrical energy among its telescope's hazards and, when a moving telescope or dome is among them, each one in
-    service on that telescope with a supply of its own (as ``isolation_points`` lists them).
+    service on that telescope with a supply of its own (as ``isolation_points`` lists them), and each such telescope
+    whose brakes are released by air with no air point locked (``_brake_air_gaps``).
 
     Each telescope is judged by the hazards of the work there (``_hazards_by_telescope``): an order over two
     telescopes whose brake work on one involves compressed air asks for no air point on the other. ``points`` and
-    ``items``: ``isolation_points(order)`` and ``order_items(order)`` when the caller has them."""
+    ``items``: ``isolation_points(order)`` and ``order_items(order)`` when the caller has them. A finished order's
+    warnings are those it kept when the work was finished (``isolation_kept``)."""
+    if (kept := _kept(order)) is not None:
+        return list(kept["gaps"])
     if not needs_isolation(order.hazards):
         return []
     items = order_items(order) if items is None else items
@@ -481,8 +518,11 @@ def isolation_gaps(order: WorkOrder, points: list[IsolationPoint] | None = None,
     own_supply = {pk: s for pk, s in worked_on.items() if "electrical" in hazards[s.telescope_id]}
     moving = [pk for pk, found in hazards.items() if "moving_machinery" in found]
     if moving:
-        nearby = Subsystem.objects.in_service().filter(telescope_id__in=moving, kind__in=_SEPARATE_SUPPLY)
-        own_supply.update({s.pk: s for s in nearby.select_related("telescope")})
+        nearby = list(Subsystem.objects.in_service().filter(telescope_id__in=moving,
+                                                            kind__in=(*_SEPARATE_SUPPLY, catalogue.AIR_BRAKE))
+                      .select_related("telescope"))
+        own_supply.update({s.pk: s for s in nearby if s.kind in _SEPARATE_SUPPLY})
+        gaps += _brake_air_gaps([s for s in nearby if s.kind == catalogue.AIR_BRAKE], points, hazards)
     for subsystem in sorted(own_supply.values(), key=lambda s: (s.telescope.name, s.name)):
         if any(p.subsystem_id == subsystem.pk for p in points):
             continue
@@ -494,6 +534,26 @@ def isolation_gaps(order: WorkOrder, points: list[IsolationPoint] | None = None,
         gaps.append(
             f"No isolation point is registered for {subsystem.telescope.name}: {subsystem.name}, {why}. Find and lock "
             "its supply before work, and have an engineer add the point to the register for this subsystem."
+        )
+    return gaps
+
+
+def _brake_air_gaps(air_brakes: list[Subsystem], points: list[IsolationPoint],
+                    hazards: dict[int, set[str]]) -> list[str]:
+    """For work with a moving telescope whose brakes are released by air (``air_brakes``, in service on the order's
+    telescopes with that hazard): a warning for each such telescope whose lockout locks no compressed-air point,
+    unless it was warned of already (its work's own air hazard). With the drives locked and the air on, its brakes stay
+    released and an unbalanced tube can swing; venting the air sets them, so the lockout needs the air's point."""
+    gaps = []
+    for telescope in sorted({s.telescope for s in air_brakes}, key=lambda t: t.name):
+        if "pneumatic" in hazards[telescope.pk]:
+            continue  # warned above when no point answers it
+        if any(p.telescope_id == telescope.pk and p.energy == IsolationPoint.Energy.AIR for p in points):
+            continue
+        gaps.append(
+            f"The lockout locks no compressed-air point of {telescope.name}, whose brakes are released by air: with "
+            "its drives locked and the air on, the brakes stay off and the tube can swing. Find, close and bleed the "
+            "brake supply before work, and have an engineer register its point for the whole telescope."
         )
     return gaps
 
@@ -996,13 +1056,21 @@ class Alongside(NamedTuple):
                 f"{lockout[self.lockout_ticked]})")
 
 
-def work_alongside(order: WorkOrder, items: list[WorkOrderItem] | None = None) -> list[Alongside]:
+def work_alongside(order: WorkOrder, items: list[WorkOrderItem] | None = None,
+                   starting: bool = False) -> list[Alongside]:
     """The other orders underway on any telescope this one works on, oldest first (for an order drafted, issued or
     underway; none once it is finished or withdrawn). Work at a site whose telescopes share one enclosure counts
-    every telescope of the site: its dome moves over all of them."""
-    if order.state not in (State.DRAFT, State.ISSUED, State.UNDERWAY):
+    every telescope of the site: its dome moves over all of them. Work away from the telescope (``at_telescope``
+    False: a mirror at a coating plant) shares no telescope with anyone, nor does an order with that work. An order
+    drafted or issued for a later day than the site's today says nothing of today's work (it may be done by then);
+    its start asks (``starting``: ``start_questions``), whenever it comes."""
+    if order.state not in (State.DRAFT, State.ISSUED, State.UNDERWAY) or not order.at_telescope:
         return []
-    others = list(WorkOrder.objects.filter(state=State.UNDERWAY, site_id=order.site_id).exclude(pk=order.pk)
+    later = order.planned_date is not None and order.planned_date > site_today(order.site)
+    if order.state != State.UNDERWAY and later and not starting:
+        return []
+    others = list(WorkOrder.objects.filter(state=State.UNDERWAY, site_id=order.site_id, at_telescope=True)
+                  .exclude(pk=order.pk)
                   .select_related("assignee", "telescope").prefetch_related("items__subsystem__telescope")
                   .order_by("pk"))
     if not others:  # the usual case: one query, and the order's own items are not read
@@ -1045,7 +1113,7 @@ def start_questions(order: WorkOrder) -> list[str]:
     if order.state != State.ISSUED or "start" in moves_held(order):
         return []
     questions = [question] if (question := early_start_question(order)) else []
-    if alongside := work_alongside(order):
+    if alongside := work_alongside(order, starting=True):
         questions.append(ALONGSIDE_START_QUESTION.format(
             orders=", ".join(a.order.number for a in alongside), verb="is" if len(alongside) == 1 else "are",
             telescopes=shared_telescopes(alongside), whose="its" if len(alongside) == 1 else "their",
@@ -1053,22 +1121,43 @@ def start_questions(order: WorkOrder) -> list[str]:
     return questions
 
 
-def lift_rows(figures: lifting.LiftFigures) -> list[tuple[str, str]]:
-    """The lifting figures as (label, value) pairs in kg and lb, as the page and the PDF show them: a cell / fixture
-    mass not entered is said to be, and the load then to be the mirror alone; an entered 0 is said to be entered."""
+def lift_rows(figures: lifting.LiftFigures, inputs: dict | None = None) -> list[tuple[str, str]]:
+    """The lifting figures as (label, value) pairs in kg and lb, as the page and the PDF show them, each traceable: the
+    mirror's inputs first (``inputs``: the order's stored ``lift_inputs``, read for the size and the material only,
+    so no query; without them the figures stand alone), the material's density with its source as ``calc.lifting``
+    names it, then each figure with its formula (``calc.lifting.mirror_mass`` and ``sling_leg_tension``). A cell /
+    fixture mass not entered is said to be, and the load then to be the mirror alone; an entered 0 is said to be
+    entered."""
     if figures.fixture_not_entered:
         fixture, alone = "not entered", ", the mirror alone"
     elif figures.fixture_kg == 0:
         fixture, alone = "0 kg, entered (nothing lifted with the mirror)", ""
     else:
         fixture, alone = f"{figures.fixture_kg:,.1f} kg ({figures.fixture_kg / 0.45359237:,.1f} lb)", ""
-    rows = [
-        ("Mirror mass", f"{figures.mirror_kg:,.1f} kg ({figures.mirror_kg / 0.45359237:,.1f} lb)"),
+    rows = []
+    if inputs:
+        density = lifting.DENSITY[inputs["material"]]
+        hole = float(inputs.get("hole_mm") or 0)
+        removed = float(inputs.get("lightweighting_fraction") or 0)
+        rows += [
+            ("Mirror diameter D", f"{float(inputs['diameter_mm']):,g} mm"),
+            ("Edge thickness t", f"{float(inputs['thickness_mm']):,g} mm"),
+            ("Central hole H", f"{hole:,g} mm" if hole else "none (H = 0)"),
+            ("Lightweighting f, fraction of the blank removed", f"{removed:g}" if removed else "none (f = 0)"),
+            ("Material, density", f"{inputs['material'].replace('_', ' ')}, {density.g_cm3:g} g/cm³ "
+                                  f"({density.source})"),
+        ]
+    rows += [
+        ("Mirror mass m = pi/4 x (D² - H²) x t x (1 - f) x density",
+         f"{figures.mirror_kg:,.1f} kg ({figures.mirror_kg / 0.45359237:,.1f} lb)"),
         ("Cell / fixture mass", fixture),
         ("Total suspended load", f"{figures.total_kg:,.1f} kg ({figures.total_lb:,.1f} lb){alone}"),
-        ("Sling legs rigged / taken as bearing", f"{figures.legs_rigged} / {figures.legs_bearing}"),
-        ("Leg angle from horizontal", f"{figures.angle_deg:g} deg (load factor {figures.load_factor:.3f})"),
-        ("Tension per bearing leg", f"{figures.leg_tension_kg:,.1f} kg ({figures.leg_tension_lb:,.1f} lb)"),
+        ("Sling legs rigged / taken as bearing, n (at most 2: common practice, no published source)",
+         f"{figures.legs_rigged} / {figures.legs_bearing}"),
+        ("Leg angle from horizontal a",
+         f"{figures.angle_deg:g} deg (load factor 1 / sin a = {figures.load_factor:.3f})"),
+        ("Tension per bearing leg T = W / (n sin a), W the whole load above (ASME B30.9)",
+         f"{figures.leg_tension_kg:,.1f} kg ({figures.leg_tension_lb:,.1f} lb)"),
     ]
     if figures.wll_kg is not None:
         rows.append(("Working load limit per leg (entered)", f"{figures.wll_kg:,.1f} kg"))
@@ -1086,12 +1175,15 @@ def sheet(order: WorkOrder, url: str) -> sheet_.Sheet:
     telescopes = sorted({i.subsystem.telescope.name for i in items})
     subsystems = {i.subsystem_id: i.subsystem for i in items}.values()  # once each, in the order of the items
     finished = order.state in (State.FINISHED, State.COUNTERSIGNED)
+    underway = order.state == State.UNDERWAY
     gaps = isolation_gaps(order, points, items)
     lines = checklist(order, points)
     missing = hazards_missing(order, items)
     unrecorded = hazards_unrecorded(order, items)
 
-    def ticks(checked: list[ChecklistLine]) -> tuple[sheet_.SheetTick, ...]:  # as the page shows the finished work
+    def ticks(checked: list[ChecklistLine]) -> tuple[sheet_.SheetTick, ...]:  # as the page shows them
+        if underway:  # printed while the work goes on: the ticks so far, who and when
+            return tuple(sheet_.SheetTick(line.ticked, line.note) for line in checked)
         if not finished:
             return ()
         notes = finished_line_notes(order, checked)
@@ -1128,8 +1220,9 @@ def sheet(order: WorkOrder, url: str) -> sheet_.Sheet:
         alongside=alongside_notice(order, items),
         isolation_needed=needs_isolation(order.hazards),
         isolation_statement=order_isolation_statement(order, missing, unrecorded),
-        isolation_points=tuple(f"WARNING: {gap}" for gap in gaps) + tuple(line.text for line in lines.points),
-        point_ticks=(None,) * len(gaps) + ticks(lines.points) if finished else (),
+        isolation_points=(tuple(f"{sheet_.WARNING_PREFIX}{gap}" for gap in gaps)
+                          + tuple(line.text for line in lines.points)),
+        point_ticks=(None,) * len(gaps) + ticks(lines.points) if finished or underway else (),
         steps=tuple(line.text for line in lines.steps),
         step_ticks=ticks(lines.steps),
         steps_warning=lockout_step_warning(order, items),
@@ -1149,7 +1242,8 @@ def sheet(order: WorkOrder, url: str) -> sheet_.Sheet:
             )
             for r in readings
         ),
-        lifting=sheet_.SheetLifting(tuple(lift_rows(figures)), figures.warnings, figures.checks) if figures else None,
+        lifting=(sheet_.SheetLifting(tuple(lift_rows(figures, order.lift_inputs)), figures.warnings, figures.checks)
+                 if figures else None),
         url=url,
         findings=order.findings,
         generated_at=timezone.now().astimezone(zone),

@@ -31,11 +31,16 @@ from observatory_ops.planning.services import site_recompute, site_today
 from observatory_ops.registry.catalogue import (
     AIR_BRAKE,
     BRAKE_AIR_BACK,
+    HAND_BACK,
+    OUT_OF_CONTROL_PARKED,
     RELEASE,
     RESTORES_BRAKE_AIR,
     RETURNS_TO_SERVICE,
+    TAKES_OUT_OF_CONTROL,
     TELESCOPE_STEPS,
+    is_brake_air_step,
     is_release_step,
+    is_tag_out_step,
     release_step_for,
 )
 from observatory_ops.registry.models import Site, Subsystem
@@ -69,6 +74,8 @@ from .selectors import (
     crew_name_of,
     hazards_missing,
     hazards_of,
+    isolation_gaps,
+    isolation_kept,
     isolation_lines,
     isolation_points,
     latest_ticks,
@@ -185,24 +192,31 @@ def steps_in_groups(
 def brake_air_back(subsystems: Sequence[Subsystem], hazards: Sequence[str], restore: Sequence[str]) -> bool:
     """Whether an order over ``subsystems`` adds ``catalogue.BRAKE_AIR_BACK``: its lockout vents the air of an
     air-released brake that none of its ``restore`` steps (a plan label before one ignored) brings back with everyone
-    clear. An air brake's own plan does for its own brake (``catalogue.RESTORES_BRAKE_AIR``: "the axis", "the
-    brake"); a shared air supply also releases the other axes' brakes, so the step covering each axis is added unless
-    every vented brake is one of the order's.
+    clear. Steps written by hand in a brake plan's words (``catalogue.RESTORES_BRAKE_AIR``: "the axis", "the brake")
+    do for the order's own brakes only: a shared air supply also releases the other axes' brakes, so the step
+    covering each axis is added unless every vented brake is one of the order's. An order made from plans drops
+    those words and writes ``BRAKE_AIR_BACK`` once instead (``_steps_for``).
 
     The lockout vents it where it locks an air point (one of a telescope's, or one of a subsystem the order works on:
     ``selectors.isolation_points``) on a telescope with an air-released brake in service: the air there releases the
-    brakes, whichever subsystem the work is on. The points are those registered when the order is made, as its steps
-    are."""
-    steps = {_unlabelled(step) for step in restore}
+    brakes, whichever subsystem the work is on. Work on an air-released brake vents its air too, air point registered
+    or not, and with it that of every air brake on its telescope, which share their supply. The points are those
+    registered when the order is made, as its steps are."""
+    steps = {_unlabelled(step).strip() for step in restore}
     if not needs_isolation(hazards) or BRAKE_AIR_BACK in steps:
         return False
     air = IsolationPoint.objects.filter(
         Q(subsystem__isnull=True) | Q(subsystem__in=[s.pk for s in subsystems]),
         telescope_id__in={s.telescope_id for s in subsystems}, energy=IsolationPoint.Energy.AIR,
     )
-    vented = Subsystem.objects.in_service().filter(telescope_id__in=air.values("telescope_id"), kind=AIR_BRAKE)
-    own = {s.pk for s in subsystems if s.kind == AIR_BRAKE} if steps & RESTORES_BRAKE_AIR else set()
-    return vented.exclude(pk__in=own).exists()
+    worked_on = [s for s in subsystems if s.kind == AIR_BRAKE]
+    vented = Subsystem.objects.in_service().filter(
+        Q(telescope_id__in=air.values("telescope_id")) | Q(telescope_id__in={s.telescope_id for s in worked_on}),
+        kind=AIR_BRAKE,
+    )
+    if not steps & RESTORES_BRAKE_AIR:
+        return bool(worked_on) or vented.exists()
+    return vented.exclude(pk__in=[s.pk for s in worked_on]).exists()
 
 
 def brake_air_problem(subsystems: Sequence[Subsystem], hazards: Sequence[str], steps: Sequence[str]) -> str:
@@ -244,33 +258,50 @@ def _steps_for(plans: Sequence[ServicePlan], labels: dict[int, str], hazards: Se
     it share (closing the dome, parking: ``catalogue.TELESCOPE_STEPS``) is written once, for all of them.
     The restoring run puts every plan's return to service (``catalogue.RETURNS_TO_SERVICE``, and whatever that plan
     does after it) after all the plans' other restoring, so an axis drive goes back in service only once its brake's
-    air is back and tested. The release names what all their subsystems can set moving (``catalogue.release_step_for``),
-    and an order whose lockout vents brake air with no brake plan to bring it back says so first (``brake_air_back``).
+    air is back and tested. The release names what all their subsystems can set moving (``catalogue.release_step_for``)
+    and, where a plan tags out what fails its inspection, that the tag stays (``catalogue.is_tag_out_step``). Where the
+    lockout vents brake air (``brake_air_back``, or a brake plan brings its air back) the air comes back in one step
+    for every axis right after the release (``catalogue.BRAKE_AIR_BACK``), in place of each brake plan's own; and an
+    order that took the observatory out of robotic and remote control hands it back at the very end (``_handed_back``).
     """
+    isolating = needs_isolation(hazards)
     powered, work, restoring, in_service = [], [], [], []
+    brake_air = tagged_out = False
     for plan in plans:
         before, during, after = plan.step_groups
         if not (before or during or after):
             during = [plan.task or plan.name]
-        # The lockout and the release are the order's to add, once: not repeated from a plan that holds them.
+        tagged_out = tagged_out or any(is_tag_out_step(step) for step in during)
+        # The lockout and the release are the order's to add, once: not repeated from a plan that holds them; nor,
+        # where it isolates, a brake plan's air (it covers one axis; the order's step covers them all, once).
         powered += [(plan, step) for step in before if not _orders_own(step)]
         work += [(plan, step) for step in during if not _orders_own(step)]
         after = [step for step in after if not _orders_own(step)]
+        if isolating and any(is_brake_air_step(step) for step in after):
+            brake_air = True
+            after = [step for step in after if not is_brake_air_step(step)]
         back = next((i for i, step in enumerate(after) if step in RETURNS_TO_SERVICE), len(after))
         restoring += [(plan, step) for step in after[:back]]
         in_service += [(plan, step) for step in after[back:]]
     several = len(plans) > 1
     subsystems = list({p.subsystem_id: p.subsystem for p in plans}.values())
     restore = _shared_once(restoring + in_service, labels, several)
-    return "\n".join(steps_in_groups(
+    return "\n".join(_handed_back(steps_in_groups(
         hazards, _shared_once(powered, labels, several), _labelled(work, labels, several), restore,
-        release_step_for(subsystems), brake_air_back(subsystems, hazards, restore),
-    ))
+        release_step_for(subsystems, tagged_out), brake_air or brake_air_back(subsystems, hazards, restore),
+    )))
 
 
 def _orders_own(step: str) -> bool:
     """The step is one an order adds itself (``steps_in_groups``): the lockout step or the release, in any wording."""
     return is_lockout_step(step) or is_release_step(step)
+
+
+def _handed_back(lines: list[str]) -> list[str]:
+    """An order's steps with ``catalogue.HAND_BACK`` last where a step takes the observatory out of robotic and remote
+    control (``catalogue.TAKES_OUT_OF_CONTROL``, a plan label before it ignored) and none yet hands it back."""
+    plain = {_unlabelled(line).strip() for line in lines}
+    return [*lines, HAND_BACK] if plain & TAKES_OUT_OF_CONTROL and HAND_BACK not in plain else lines
 
 
 def _labelled(run: list[tuple[ServicePlan, str]], labels: dict[int, str], several: bool) -> list[str]:
@@ -435,6 +466,10 @@ def work_order_ad_hoc(
     parking, closing the dome, live tests), ``steps`` (the work) and ``restore`` (after the locks are off),
     put together by ``steps_in_groups``. ``hazards`` are the work's own beyond its subsystems'. With a
     ``planned_date`` it can be issued as it is (``selectors.moves_held``).
+
+    Work where the telescope can move ("moving_machinery") with nothing under power written first starts by taking
+    the observatory out of robotic and remote control and parking the telescope, as a planned order does; and an
+    order that takes it out of that control hands it back at the end (``_handed_back``).
     """
     if any(s.telescope.site_id != site.pk for s in subsystems):
         raise Refused("every subsystem must belong to the work order's site")
@@ -442,8 +477,11 @@ def work_order_ad_hoc(
     telescope = telescopes.pop() if len(telescopes) == 1 else None
     hazards = [h for h in HAZARDS if h in set(hazards_of(subsystems, [])) | set(hazards)]
     groups = [[s.strip() for s in text.splitlines() if s.strip()] for text in (powered, steps, restore)]
-    lines = steps_in_groups(hazards, *groups, release_step_for(subsystems),
-                            brake_air_back(subsystems, hazards, groups[2]))
+    if "moving_machinery" in hazards and not groups[0]:
+        groups[0] = [OUT_OF_CONTROL_PARKED]
+    tagged_out = any(is_tag_out_step(step) for step in groups[1])
+    lines = _handed_back(steps_in_groups(hazards, *groups, release_step_for(subsystems, tagged_out),
+                                         brake_air_back(subsystems, hazards, groups[2])))
     with transaction.atomic():
         order = WorkOrder.objects.create(
             site=site, telescope=telescope, title=title, order_type=order_type, planned_date=planned_date,
@@ -737,7 +775,10 @@ def work_order_finish(
                 "say in the findings how the hazards this order lacked "
                 f"({', '.join(HAZARDS[h].lower() for h in lacking)}) were controlled, or why they did not arise"
             )
-        # Read once the order is claimed: no tick can be recorded or taken back after this point.
+        # Read once the order is claimed: no tick can be recorded or taken back after this point. The isolation is
+        # read as it stands (``order`` is still underway here) and kept with the record.
+        points = isolation_points(order)
+        kept = isolation_kept(points, isolation_gaps(order, points))
         unticked = unticked_lines(WorkOrder.objects.select_related("site").get(pk=order.pk))
         isolation = isolation_lines(unticked)
         others = [line for line in unticked if line not in isolation]
@@ -759,7 +800,7 @@ def work_order_finish(
         WorkOrder.objects.filter(pk=order.pk).update(
             unticked_at_finish=[f"{line.label}: {line.text}" for line in others],
             isolation_unticked_at_finish=[f"{line.label}: {line.text}" for line in isolation],
-            isolation_confirmed_at_finish=isolation_answer if isolation else "",
+            isolation_confirmed_at_finish=isolation_answer if isolation else "", isolation_at_finish=kept,
             crew=crew, crew_by_account=True,
         )
         # Rows written as such send no m2m signal, whose own history row would come before the finish's: the save

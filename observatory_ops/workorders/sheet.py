@@ -11,6 +11,10 @@ import math
 from dataclasses import dataclass
 from datetime import date, datetime
 
+#: An ``isolation_points`` line that starts so is a warning (an isolation the order lacks), not a point to lock: it
+#: prints flagged, without a tick box, as the page shows it.
+WARNING_PREFIX = "WARNING: "
+
 
 @dataclass(frozen=True)
 class SheetCaution:
@@ -86,7 +90,8 @@ class Sheet:
     ``why`` has one line per due item (trigger, value now, limit, forecast). ``cautions`` are printed in
     a framed box before any step, most severe first, followed by ``precedence_statement``.
     ``steps_warning``, when set, is printed above the steps (the lockout step is missing from them).
-    ``isolation_points`` are the energy isolation points of the telescope for the lockout step; with
+    ``isolation_points`` are the energy isolation points of the telescope for the lockout step, after any warning
+    (a line starting with ``WARNING_PREFIX``, printed without a tick box); with
     ``isolation_needed`` False the work's hazards need nothing isolated, and ``isolation_statement`` says what the
     sheet prints in their place (``cautions.isolation_statement``: that the work needs no isolation only when nothing
     is missing or unrecorded).
@@ -106,7 +111,8 @@ class Sheet:
     ``crew`` (finished work) names who did the work with the one who finished it, one to a crew line; None leaves
     the crew lines blank to write in.
     A reading whose ``beyond_limit`` is set is flagged in the table and listed under it.
-    ``url`` is the work order's address, printed as a QR code.
+    ``url`` is the work order's address, printed as a QR code. ``generated_at`` (when it was printed) is in the site's
+    time zone, as every time in the notes is: the paper names that zone once, beside it.
     """
 
     number: str

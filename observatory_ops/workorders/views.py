@@ -173,7 +173,7 @@ def work_order_detail(request, pk):
             "recoat_phase": phase,
             "mirror_out": [phase.mirror_out] if phase and phase.mirror_out else [],
             "lift": figures,
-            "lift_rows": selectors.lift_rows(figures) if figures else [],
+            "lift_rows": selectors.lift_rows(figures, order.lift_inputs) if figures else [],
             "lift_error": lift_error,
             "cell_record": selectors.lift_cell_record(order) if figures else "",
             # An order behind its subsystems' hazards is neither issued nor started (services.work_order_move).
@@ -283,7 +283,7 @@ def work_order_move(request, pk, action):
                 return render(request, "workorders/countersign_question.html", {"order": order, "record": record})
     if action == "start" and request.POST.get("asked") != "confirmed":
         if questions := selectors.start_questions(order):
-            alongside = selectors.work_alongside(order)
+            alongside = selectors.work_alongside(order, starting=True)
             return render(request, "workorders/start_questions.html", {
                 "order": order, "questions": questions, "early": bool(selectors.early_start_question(order)),
                 "alongside": [(a.order, a.text(order.site.zone)) for a in alongside],
@@ -561,6 +561,10 @@ def work_order_batch_pdf(request, slug):
     except ValueError:
         messages.error(request, "Dates must be given as YYYY-MM-DD.")
         return redirect("workorder-list")
+    if end < start:
+        messages.error(request, f"The batch runs from {start:%d %b %Y} to {end:%d %b %Y}, which ends before it starts: "
+                                "give the earlier date as from.")
+        return redirect(reverse("workorder-list") + f"?site={site.pk}")
     orders = list(selectors.issued_between(site, start, end))
     if not orders:
         messages.warning(request, f"No issued work orders at {site.name} planned from {start} to {end}.")
