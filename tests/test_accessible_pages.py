@@ -202,7 +202,7 @@ def test_a_withdrawn_reading_is_struck_through_with_its_note_and_not_faded(fans,
     client.force_login(users["viewer"])
     page = client.get(f"/subsystems/{fans.pk}/").content.decode()
     row = re.search(r'<tr class="withdrawn">(.*?)</tr>', page, flags=re.S).group(1)
-    assert "<s>0.8000 A</s>" in row and "taken on the wrong fan" in row and "withdrawn" in row
+    assert "<s>0.8 A</s>" in row and "taken on the wrong fan" in row and "withdrawn" in row
     assert "opacity" not in page
 
 

@@ -40,7 +40,7 @@ def test_imported_nights_are_attributed_and_an_update_keeps_before_and_after(sit
     nights_import(site, b"night,open_hours\n2026-01-01,6.5\n", by=users["engineer"])
     latest = changes(row)[0]
     assert latest.kind == "changed" and latest.who == "engineer"
-    assert ("open_hours", "5.0", "6.5") in latest.fields
+    assert ("open hours", "5.0", "6.5") in latest.fields
 
 
 def test_work_order_moves_are_in_its_history_with_the_person_and_the_move(telescope, users):

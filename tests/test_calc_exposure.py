@@ -1,8 +1,11 @@
 """Specifications for dust weighting, accumulation and the usage forecast (pure, no database).
 
-observatory_ops.calc.exposure and observatory_ops.calc.forecast. Outside references: hand arithmetic
-written beside each case, closed-form results for a constant rate, and plain-Python references (a loop,
-math.fsum, statistics.stdev) that share no code with the vectorised functions.
+observatory_ops.calc.exposure and observatory_ops.calc.forecast. Outside references: the WHO 2005 PM10 guideline
+(from memory) for the clean-air reference; hand arithmetic written beside each case, closed-form results for a
+constant rate, and plain-Python references (a loop, math.fsum, statistics.stdev) or pandas that share no code with
+the vectorised functions; Bienaymé's formula for the forecast band. The dust weighting, the open fraction per
+calendar month and the band's month-by-month spread are the project's own model: the hand arithmetic checks that
+the code does what the model says, not the model itself (common practice, no published source).
 """
 from __future__ import annotations
 
@@ -21,6 +24,7 @@ from observatory_ops.calc.forecast import (
     PRIOR_MONTHLY_SPREAD,
     PRIOR_OPEN_FRACTION,
     days_reached,
+    logged_per_month,
     monthly_open_fraction,
     monthly_spread,
 )
@@ -39,7 +43,8 @@ def days(*isodates: str) -> np.ndarray:
 
 
 def test_clean_air_reference_is_twenty_ugm3():
-    # The weighting formula below is written with PM_ref = 20 ug/m3.
+    # Source: the WHO 2005 air-quality guideline for the annual mean of PM10, 20 ug/m3 (from memory, as
+    # calc/exposure.py says). The weighting formula below is written with PM_ref = 20 ug/m3.
     assert CLEAN_AIR_PM10_UGM3 == 20.0
 
 
@@ -55,6 +60,8 @@ def test_clean_air_reference_is_twenty_ugm3():
     ],
 )
 def test_dust_weight_matches_hand_computed_cases(pm10, sensitivity, weight):
+    # The weighting is the project's own model (calc/exposure.py): common practice, no published source. Hand
+    # arithmetic of w = 1 + s * max(0, PM10 - 20) / 20 beside each case.
     assert float(dust_weight(pm10, sensitivity)) == pytest.approx(weight, rel=1e-12)
 
 
@@ -64,6 +71,7 @@ def test_dust_weight_is_vectorised_over_pm10():
 
 
 def test_dust_weighted_hours_multiply_open_hours_by_the_weight():
+    # Hand arithmetic of the project's own model (common practice, no published source).
     # 8 h at PM10 40, s = 1: 8 * (1 + 20/20) = 16; 6.5 h not measured: 6.5 * 1 = 6.5; closed at PM10 200: 0 * 10 = 0
     np.testing.assert_allclose(
         dust_weighted_hours([8.0, 6.5, 0.0], [40.0, np.nan, 200.0], 1.0), [16.0, 6.5, 0.0], rtol=1e-12
@@ -187,6 +195,10 @@ def test_constant_whole_rate_reaches_the_limit_on_day_ceil_remaining_over_rate_m
 
 
 def test_one_sigma_band_within_the_first_month():
+    # The band: a sum of m independent months, each with relative spread s, has variance m (s C/m)^2 (Bienaymé's
+    # formula: the variance of a sum of uncorrelated terms is the sum of their variances), so its relative deviation
+    # is s / sqrt(m); a month is 30.44 = 365.2425 / 12 days (the mean Gregorian month). That the months' deviations
+    # are independent is the project's assumption (common practice, no published source).
     # spread 0.2, 40 remaining at 4 per day; within the first month the relative deviation is 0.2 / sqrt(1).
     # forecast: 4 (k+1) >= 40 -> k + 1 = 10 -> k = 9
     # earliest: 4 (k+1) * 1.2 >= 40 -> k + 1 >= 8.33 -> k = 8   (k = 7: 32 * 1.2 = 38.4 < 40)
@@ -196,6 +208,8 @@ def test_one_sigma_band_within_the_first_month():
 
 
 def test_one_sigma_band_narrows_with_the_square_root_of_the_months():
+    # Bienaymé's formula (variance of a sum = sum of the variances) gives the 1 / sqrt(m) narrowing; 30.44 =
+    # 365.2425 / 12 days per month (the mean Gregorian month), as the previous test says.
     # spread 0.3, 200 remaining at 2 per day. After n = k + 1 days, m = n / 30.44 months and the band is
     # C * (1 +- 0.3 / sqrt(m)) = 2n +- 0.6 * sqrt(30.44 n).
     # forecast: 2n >= 200 -> n = 100 -> k = 99
@@ -285,6 +299,8 @@ def test_from_a_start_day_the_forecast_and_band_are_those_of_the_days_from_it(pe
 
 
 def test_monthly_open_fraction_matches_hand_computed_months():
+    # The open fraction per calendar month and the 20 nights it needs are the project's own model (common practice,
+    # no published source); hand arithmetic beside each month.
     months, open_h, dark_h = [], [], []
 
     def add(month: int, count: int, opened: float, dark: float) -> None:
@@ -294,19 +310,20 @@ def test_monthly_open_fraction_matches_hand_computed_months():
 
     add(1, 20, 4.0, 10.0)  # January: 20 * 4 / (20 * 10) = 0.4
     add(2, 19, 4.0, 10.0)  # February: 19 nights, one short of the 20 needed -> prior
-    add(3, 25, 11.0, 10.0)  # March: 275 / 250 = 1.1, capped at 1
+    add(3, 25, 11.0, 10.0)  # March: 275 / 250 = 1.1 (opened in twilight: kept, not capped at 1)
     add(4, 20, 2.0, 0.0)  # April: no dark hours at all -> prior
     add(12, 10, 2.0, 12.0)  # December of one year ...
     add(12, 12, 6.0, 12.0)  # ... and of the next: (10*2 + 12*6) / (22 * 12) = 92 / 264
     fraction, from_history = monthly_open_fraction(months, open_h, dark_h)
     expected = np.full(12, PRIOR_OPEN_FRACTION)
-    expected[[0, 2, 11]] = [0.4, 1.0, 92 / 264]
+    expected[[0, 2, 11]] = [0.4, 1.1, 92 / 264]
     np.testing.assert_allclose(fraction, expected, rtol=1e-12)
     assert from_history.tolist() == [True, False, True, False, False, False, False, False, False, False, False, True]
     assert MIN_NIGHTS_FOR_HISTORY == 20
 
 
 def test_monthly_spread_is_the_sample_standard_deviation_of_relative_deviations():
+    # Checked against hand arithmetic and Python's statistics.stdev (the sample standard deviation, n - 1).
     actual = [90, 110, 100, 120, 80, 100, 0]
     expected = [100, 100, 100, 100, 100, 100, 0]  # the last month expected nothing and is left out
     # ratios - 1: -0.1, 0.1, 0, 0.2, -0.2, 0; squares sum to 0.1; sample variance 0.1 / 5 = 0.02
@@ -315,7 +332,34 @@ def test_monthly_spread_is_the_sample_standard_deviation_of_relative_deviations(
 
 
 def test_monthly_spread_needs_six_months_before_replacing_the_prior():
+    # Six months and the prior spread are our own choice (common practice, no published source).
     assert monthly_spread([90, 110, 100, 120, 80], [100] * 5) == PRIOR_MONTHLY_SPREAD
+
+
+def test_logged_per_month_matches_a_hand_count():
+    # Hand count: January has 5 Jan 2024, 7 Jan 2025, 31 Jan 2025 (3 nights, in 2 years: 2024 and 2025); February
+    # 29 Feb 2024 (1 night, 1 year); December 31 Dec 2023 and 1 Dec 2025 (2 nights, 2 years); no other month.
+    nights = days("2024-01-05", "2025-01-07", "2025-01-31", "2024-02-29", "2023-12-31", "2025-12-01")
+    count, years = logged_per_month(nights)
+    assert count.tolist() == [3, 1, 0, 0, 0, 0, 0, 0, 0, 0, 0, 2]
+    assert years.tolist() == [2, 1, 0, 0, 0, 0, 0, 0, 0, 0, 0, 2]
+    assert logged_per_month(days())[0].tolist() == [0] * 12  # an empty log: nothing anywhere
+
+
+@FAST
+@given(offsets=st.sets(st.integers(0, 3000), max_size=200))
+def test_logged_per_month_matches_pandas(offsets):
+    """Checked against pandas (an independent library): nights per calendar month by ``DatetimeIndex.month``, and
+    years per month as the number of distinct years among that month's nights."""
+    pd = pytest.importorskip("pandas")
+    nights = np.datetime64("2022-03-15") + np.array(sorted(offsets), dtype="timedelta64[D]")
+    count, years = logged_per_month(nights)
+    index = pd.DatetimeIndex(nights)
+    frame = pd.DataFrame({"month": index.month, "year": index.year})
+    expected_count = frame["month"].value_counts().reindex(range(1, 13), fill_value=0)
+    expected_years = frame.groupby("month")["year"].nunique().reindex(range(1, 13), fill_value=0)
+    assert count.tolist() == expected_count.tolist()
+    assert years.tolist() == expected_years.tolist()
 
 
 def test_reached_on_names_the_night_the_running_total_passed_the_limit():

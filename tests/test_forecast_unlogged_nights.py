@@ -84,7 +84,7 @@ def test_a_service_logged_today_after_a_gap_is_not_due_today(quiet_since_new_yea
     assert status.value == 0
     assert status.forecast_date == dt.date(2026, 8, 20)
     assert status.status == "later"
-    # "about ... per day expected over the next month": the 30 nights from today, 16 x 6 h + 14 x 8 h = 208 h.
+    # "about ... per day expected over the next 30 days": the 30 nights from today, 16 x 6 h + 14 x 8 h = 208 h.
     assert status.rate_per_day == pytest.approx(208 / 30)
     # The band, its months counted from today (calc.forecast.days_reached): a plain loop over the same nights.
     def first_night(sign: int) -> dt.date:
@@ -142,3 +142,22 @@ def test_the_basis_says_when_unlogged_nights_are_assumed_used(quiet_since_new_ye
     assert "counted as used at the expected rate" in page
     services.site_recompute(site, LAST_LOGGED + dt.timedelta(days=services.UNLOGGED_NIGHTS_SAID + 1))
     assert "no night logged since" not in PlanStatus.objects.get(site=site).basis
+
+
+def test_nights_before_the_log_begins_count_no_use_and_the_basis_says_how_many(quiet_since_new_year):
+    # A plan counting from 1 Dec 2024, a month before the first logged night (1 Jan 2025): those 31 nights add
+    # nothing (the project's own rule, common practice, no published source), and its basis says so; a plan counting
+    # from inside the log says nothing of it.
+    site, fans = quiet_since_new_year
+    early = _open_hours_plan(fans, "From before the log", 100_000, dt.date(2024, 12, 1))
+    inside = _open_hours_plan(fans, "From inside the log", 100_000, dt.date(2025, 6, 1))
+    services.site_recompute(site, TODAY)
+    logged = sum(OPEN_HOURS_BY_MONTH[(dt.date(2025, 1, 1) + dt.timedelta(days=i)).month] for i in range(365))
+    status = PlanStatus.objects.get(plan=early)
+    assert status.basis.endswith(
+        "; the log begins on 01 Jan 2025: the 31 nights from 01 Dec 2024 before it count no use (log them, or a "
+        "counting date, for a truer value)"
+    )
+    # The value is what the log holds (the unlogged nights since move the forecast, not the value): nothing before.
+    assert status.value == pytest.approx(logged, abs=1e-6)
+    assert "before it count no use" not in PlanStatus.objects.get(plan=inside).basis

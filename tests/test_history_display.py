@@ -100,7 +100,7 @@ def test_the_mirror_page_shows_its_history_in_site_time(denver, named, users, cl
     history = _history_section(client.get(f"/mirrors/{mirror.pk}/").content.decode())
     assert f"When ({DENVER})" in history
     assert f"<td>{WINTER_SHOWN}</td><td>Marta Quillan</td><td>changed</td>" in history
-    assert "<strong>cell_mass_kg</strong>: 40.0 → 42.0</div>" in history
+    assert "<strong>cell mass kg</strong>: 40.0 → 42.0</div>" in history
 
 
 def test_times_and_people_before_and_after_are_shown_in_site_time_and_by_name(denver, named, users, client):
@@ -111,8 +111,8 @@ def test_times_and_people_before_and_after_are_shown_in_site_time_and_by_name(de
     _changed_at(reading, WINTER_UTC + dt.timedelta(hours=1), named, taken_at=SUMMER_UTC, taken_by=named)
     client.force_login(users["viewer"])
     page = client.get(f"/history/logbook.reading/record/{reading.pk}/").content.decode()
-    assert f"<strong>taken_at</strong>: {WINTER_SHOWN} → {SUMMER_SHOWN}</div>" in page
-    assert "<strong>taken_by</strong>: technician → Marta Quillan</div>" in page  # no name given: user name
+    assert f"<strong>taken at</strong>: {WINTER_SHOWN} → {SUMMER_SHOWN}</div>" in page
+    assert "<strong>taken by</strong>: technician → Marta Quillan</div>" in page  # no name given: user name
     assert "+00:00" not in page
 
 
@@ -167,7 +167,7 @@ def test_the_sites_history_writes_the_crew_weekdays_in_words(denver, named, user
     client.force_login(users["viewer"])
     url = f"/history/registry.site/record/{site.pk}/"
     page = client.get(url).content.decode()
-    assert "<strong>crew_weekdays</strong>: Mon–Fri → Mon, Wed, Fri, Sun</div>" in page
+    assert "<strong>crew weekdays</strong>: Mon–Fri → Mon, Wed, Fri, Sun</div>" in page
     assert "12345" not in page and "1357" not in page
     assert site.crew_days_text == "Mon, Wed, Fri, Sun"  # one helper for both
     header, *rows = list(csv.reader(io.StringIO(client.get(f"{url}?export=csv").content.decode())))
@@ -180,7 +180,7 @@ def test_crew_weekdays_stored_outside_the_code_are_shown_as_stored(denver, named
     rather than failing."""
     site = denver.telescope.site
     _changed_at(site, WINTER_UTC, named, crew_weekdays="19")
-    assert changes(site)[0].fields == [("crew_weekdays", "Mon–Fri", "19")]
+    assert changes(site)[0].fields == [("crew weekdays", "Mon–Fri", "19")]
 
 
 def test_a_plans_history_holds_its_triggers_changes(telescope, users, client):

@@ -181,8 +181,8 @@ def test_a_dust_weighted_rate_says_dust_weighted_hours_per_day():
     """A dust weight above 1 (a dusty month) makes a day count more than 24 dust-weighted hours: "24.8 h per day"
     read as an error."""
     assert ("Dust-weighted open hours: 900 of 2,000 h, about 24.8 dust-weighted h per day expected over the next "
-            "month; forecast 01 Feb 2027.") == reason_text(_state(metrics.DUST_HOURS, 24.8))
-    assert ("Open-dome hours: 900 of 2,000 h, about 6.2 h per day expected over the next month; forecast "
+            "30 days; forecast 01 Feb 2027.") == reason_text(_state(metrics.DUST_HOURS, 24.8))
+    assert ("Open-dome hours: 900 of 2,000 h, about 6.20 h per day expected over the next 30 days; forecast "
             "01 Feb 2027.") == reason_text(_state(metrics.OPEN_HOURS, 6.2))
 
 

@@ -422,7 +422,7 @@ def test_the_history_shows_times_in_site_time_to_the_minute_and_people_by_name(o
     history = client.get(order.get_absolute_url()).content.decode().split("<h2>History</h2>")[1]
     # The test site's zone (tests/conftest.py), read here from the IANA database, not from the site.
     issued = dateformat.format(order.issued_at.astimezone(ZoneInfo("Europe/Madrid")), "d M Y H:i")
-    assert f"<strong>issued_at</strong>: (empty) → {issued}</div>" in history
+    assert f"<strong>issued at</strong>: (empty) → {issued}</div>" in history
     assert "+00:00" not in history
     assert "<strong>assignee</strong>: (empty) → Rosa Delacroix</div>" in history
 

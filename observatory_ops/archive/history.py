@@ -40,9 +40,9 @@ class Change:
     who: str
     kind: str
     reason: str
-    fields: list[tuple[str, str, str]] = field(default_factory=list)  # (field, before, after) as shown
+    fields: list[tuple[str, str, str]] = field(default_factory=list)  # (field's label, before, after) as shown
     zone: zoneinfo.ZoneInfo = UTC  # the record's site's zone, or UTC for a record of no site
-    fields_exported: list[tuple[str, str, str]] = field(default_factory=list)  # the same, times in ISO UTC
+    fields_exported: list[tuple[str, str, str]] = field(default_factory=list)  # field's name, times in ISO UTC
     part: str = ""  # a part's change in its owner's history (``PARTS``): which part, e.g. "trigger Dust hours"
 
     @property
@@ -126,6 +126,15 @@ def _shown(model, name: str, value, zone: zoneinfo.ZoneInfo) -> tuple[str, str]:
     return _text(value), _text(value)
 
 
+def _label(model, name: str) -> str:
+    """A field as the pages name it: its label (``issued_at`` -> "issued at", a ``verbose_name`` where one is given);
+    a field since removed from the model by its stored name. The CSV keeps the field's name, for programs."""
+    try:
+        return str(model._meta.get_field(name).verbose_name)
+    except FieldDoesNotExist:
+        return name
+
+
 def _named(related: models.Model) -> str:
     """A related record by its name: a person by full name."""
     return person(related) if isinstance(related, get_user_model()) else str(related)
@@ -177,7 +186,7 @@ def _changes(history, model, zone: zoneinfo.ZoneInfo, limit: int | None, part: s
                 who=person(user) if user else "system (command or background task)",
                 kind=KIND.get(record.history_type, record.history_type),
                 reason=record.history_change_reason or "",
-                fields=[(name, before[0], after[0]) for name, before, after in diffs],
+                fields=[(_label(model, name), before[0], after[0]) for name, before, after in diffs],
                 zone=zone,
                 fields_exported=[(name, before[1], after[1]) for name, before, after in diffs],
                 part=f"{part} {record.instance}" if part else "",

@@ -3,10 +3,11 @@
 Method
 ------
 Expected open hours of a coming night = its dark hours (from :mod:`nights`) x ``F_m``, the open fraction of its
-calendar month m: ``F_m = sum(open hours) / sum(dark hours)`` over the logged nights of month m in all past years,
-capped at 1, or the prior :data:`PRIOR_OPEN_FRACTION` while month m has fewer than :data:`MIN_NIGHTS_FOR_HISTORY`
-logged nights (:func:`monthly_open_fraction`). Slews, travel and brake cycles follow from their rates per open
-hour, and dust from the month's mean PM10.
+calendar month m: ``F_m = sum(open hours) / sum(dark hours)`` over the logged nights of month m in all past
+years (above 1 where the dome opens in twilight, as to cool before dark: those hours are used too), or the
+prior :data:`PRIOR_OPEN_FRACTION` while month m has fewer than :data:`MIN_NIGHTS_FOR_HISTORY` logged nights
+(:func:`monthly_open_fraction`). Slews, travel and brake cycles follow from their rates per open hour, and dust from
+the month's mean PM10.
 
 The forecast band comes from the relative month-to-month spread ``s``: the sample standard deviation of
 ``A / E - 1`` over complete past months (:func:`monthly_spread`), where A is a month's logged open hours and E its
@@ -52,7 +53,9 @@ def monthly_open_fraction(
     Method
     ------
     For each month m = 1..12: ``sum(open_hours) / sum(dark_hours)`` over the logged nights of that
-    month in all past years, capped at 1 (a dome may open in twilight). Months with fewer than
+    month in all past years: open hours per dark hour, above 1 where the dome opens in twilight (to cool before
+    dark, say), which the forecast of open hours keeps (a cap at 1 would forecast a summer that opens at sunset far
+    short). Months with fewer than
     :data:`MIN_NIGHTS_FOR_HISTORY` nights use :data:`PRIOR_OPEN_FRACTION` instead.
 
     Returns
@@ -68,7 +71,7 @@ def monthly_open_fraction(
     sum_dark = np.bincount(months - 1, weights=dark_h, minlength=12)[:12]
     from_history = (count >= MIN_NIGHTS_FOR_HISTORY) & (sum_dark > 0)
     fraction = np.full(12, PRIOR_OPEN_FRACTION)
-    fraction[from_history] = np.minimum(sum_open[from_history] / sum_dark[from_history], 1.0)
+    fraction[from_history] = sum_open[from_history] / sum_dark[from_history]
     return fraction, from_history
 
 

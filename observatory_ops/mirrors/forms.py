@@ -7,7 +7,7 @@ from observatory_ops.calc.windows import RECOAT_PHASES, Phase
 from observatory_ops.registry.models import Subsystem
 
 from . import layers_text
-from .models import TRAIN_KINDS, CleaningEvent, CoatingEvent, Mirror
+from .models import METAL_NAMES, TRAIN_KINDS, CleaningEvent, CoatingEvent, Mirror
 
 #: Wavelengths a single-wavelength measurement may be taken at: where the optical data of every coating
 #: material the app knows overlap (calc.coating), so a fresh value could be computed there for any recipe.
@@ -85,7 +85,7 @@ class WindowForm(forms.Form):
 class RecipeForm(forms.Form):
     """A coating recipe: the metal and its overcoats from the metal outward."""
 
-    metal = forms.ChoiceField(choices=[(m, m) for m in METALS])
+    metal = forms.ChoiceField(choices=[(m, METAL_NAMES[m]) for m in METALS])
     layers = forms.CharField(
         required=False, max_length=200, help_text=f"Overcoats as {layers_text.FORMAT}. Empty: bare metal.",
     )

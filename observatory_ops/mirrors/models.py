@@ -86,11 +86,15 @@ def validate_layers(value) -> None:
             raise ValidationError("each layer needs a thickness of 0 nm or more")
 
 
+#: The names of the mirror metals (``calc.coating.METALS``) as pages and forms show them.
+METAL_NAMES = {"al": "Aluminium (Al)", "ag": "Silver (Ag)"}
+
+
 class CoatingEvent(models.Model):
     history = HistoricalRecords()  # who changed what, when: see observatory_ops/archive
     mirror = models.ForeignKey(Mirror, on_delete=models.PROTECT, related_name="coatings")
     coated_on = models.DateField()
-    metal = models.CharField(max_length=4, choices=[(m, m) for m in METALS])
+    metal = models.CharField(max_length=4, choices=[(m, METAL_NAMES[m]) for m in METALS])
     layers = models.JSONField(default=list, blank=True, validators=[validate_layers],
                               help_text='Overcoats from the metal outward: [{"material": "SiO2", "thickness_nm": 100}]')
     note = models.CharField(max_length=200, blank=True)

@@ -268,11 +268,13 @@ def trigger_figures(metric, value, limit, unit, rate_per_day, forecast, earliest
 def figure_text(metric: str, unit: str, value: float) -> str:
     """A trigger's value or limit as the pages, the due list and the charts write it: a reflectance (a recoat line,
     or a reading of band reflectance) by ``reflectance_text``; any other reading as measured, to 4 significant
-    figures; a count or a number of days whole, as the sentence of its state words it."""
+    figures (whole from 1,000 on, no exponent); a count or a number of days whole, as the sentence of its state
+    words it."""
     if metric == RECOAT_LINE or (metric == READING and unit == unit_of("reflectance")):
         return reflectance_text(value)
     if metric == READING:
-        return f"{value:,.4g}"
+        # 4 significant figures, never an exponent: 12,345 reads "12,345" (its whole part), 0.0001234 as it is.
+        return f"{value:,.0f}" if abs(value) >= 1000 else f"{value:,.4g}"
     return f"{value:,.0f}"
 
 

@@ -214,10 +214,23 @@ def sky_records(site: Site, start: dt.date, end: dt.date) -> list[dict]:
 #: Decimals of the due list's value and limit for programs: those every reflectance is written to, the finest figure
 #: the list holds, so a value and its limit are rounded alike and compare digit for digit.
 DUE_RECORD_DECIMALS = REFLECTANCE_DECIMALS
-#: Significant figures of the due list's rate: a rate is small beside its value (a trend of +0.00204 s a day, a
-#: reflectance falling by 0.00002 a day), so decimals would cut it short or round it to 0; 4, as a reading's value is
-#: written (``models.figure_text``).
+#: Significant figures of the due list's rate for programs: a rate is small beside its value (a trend of +0.00204 s a
+#: day, a reflectance falling by 0.00002 a day), so decimals would cut it short or round it to 0; 4, as a reading's
+#: value is written (``models.figure_text``). People read a rate as ``rate_text`` writes it.
 DUE_RECORD_RATE_FIGURES = 4
+#: Significant figures of a rate per day wherever a person reads it (``rate_text``): 3, as a trend's slope is written
+#: in its basis (``services._reading_state``).
+RATE_FIGURES = 3
+
+
+def rate_text(rate: float, signed: bool = False, grouped: bool = True) -> str:
+    """A rate per day as every page, sentence and download for people writes it: the reason sentence, the subsystem
+    page's trigger table, the mirror page, the expected use, the due list's CSV. Significant figures, not decimals, so
+    a slow rate keeps its figures and a non-zero rate never reads "0.0" (0.004117 -> "0.00412", 5.216 -> "5.22",
+    1234.5 -> "1,230"); ``signed`` puts "+" before a rising trend; ``grouped=False`` leaves out the thousands
+    separators (a CSV cell a spreadsheet reads as a number)."""
+    text = significant(rate, RATE_FIGURES, signed=signed)
+    return text if grouped else text.replace(",", "")
 
 
 def due_record(status: PlanStatus) -> dict:
@@ -277,7 +290,8 @@ def due_csv_row(status: PlanStatus) -> list:
     return [
         status.get_status_display(), subsystem.telescope.site.name, subsystem.telescope.name, subsystem.name,
         status.plan.name, metrics.METRICS[status.metric][0], status.progress if unknown else value, limit, unit,
-        record["rate"], record["forecast_date"], record["earliest"], record["latest"], last, past, status.reason,
+        "" if status.rate_per_day is None else rate_text(status.rate_per_day, grouped=False),
+        record["forecast_date"], record["earliest"], record["latest"], last, past, status.reason,
     ]
 
 
@@ -344,9 +358,9 @@ def trigger_table(plan: ServicePlan) -> list[dict]:
         if rate is None or row["metric"] == metrics.CALENDAR_DAYS:
             words = ""
         elif row["metric"] == metrics.READING:
-            words = f"{significant(rate, signed=True)} {row['unit']} (trend)"
+            words = f"{rate_text(rate, signed=True)} {row['unit']} (trend)"
         else:
-            words = f"{significant(rate)} {metrics.rate_unit(row['metric'], row['unit'])} (mean of the next 30 days)"
+            words = f"{rate_text(rate)} {metrics.rate_unit(row['metric'], row['unit'])} (mean of the next 30 days)"
         value_text = figure_text(row["metric"], row["unit"], row["value"])
         if unknown and row["metric"] == metrics.CALENDAR_DAYS:
             value_text = "unknown"
@@ -419,7 +433,7 @@ def expected_use_by_month(subsystem: Subsystem, plans: list[ServicePlan]) -> dic
             "logged_nights": int(logged[calendar]),
             "pm10": None if np.isnan(model.month_pm10[calendar]) else float(model.month_pm10[calendar]),
             # (per day, running total at the month's end) of each column
-            "figures": [(significant(float(e[index].mean())), f"{r[index[-1]]:,.0f}")
+            "figures": [(rate_text(float(e[index].mean())), f"{r[index[-1]]:,.0f}")
                         for e, r in zip(expected, running, strict=True)],
         })
     headers = [

@@ -28,6 +28,7 @@ from observatory_ops.registry.models import Site, Subsystem, is_shared_enclosure
 
 from . import metrics
 from .models import NightSky, PlanStatus, ServicePlan, Trigger, trigger_figures
+from .selectors import rate_text
 
 #: How far ahead forecasts look. A trigger not reached by then has no forecast date.
 HORIZON_DAYS = 3 * 366
@@ -645,6 +646,7 @@ def _site_recompute(site: Site, today: dt.date) -> int:
         central, early, late = forecast.days_reached(limits - values, expected, model.spread, start)
         rate = float(expected[ahead:][:30].mean()) if len(expected) > ahead else 0.0
         basis = model.usage_basis(metric, sens)
+        log_begins = _as_date(log.nights[0]) if len(log.nights) else None
         for i, (plan, trig) in enumerate(members):
             if values[i] >= limits[i]:
                 on = _as_date(reached[i])
@@ -660,7 +662,7 @@ def _site_recompute(site: Site, today: dt.date) -> int:
                     forecast=dates[0],
                     earliest=dates[1],
                     latest=dates[2],
-                    basis=basis,
+                    basis=basis + _before_the_log(baselines[plan.pk], log_begins),
                     unit=metrics.METRICS[metric][1],
                 )
             )
@@ -687,6 +689,16 @@ def _site_recompute(site: Site, today: dt.date) -> int:
     PlanStatus.objects.filter(site=site).delete()
     _insert_all(PlanStatus, STATUS_COLUMNS, rows)
     return len(rows)
+
+
+def _before_the_log(baseline: dt.date, log_begins: dt.date | None) -> str:
+    """What a counter's basis says when its plan counts from before the first logged night: those nights count no use
+    (nothing says what they were), so its value is only what the log holds. "" when the log covers the baseline."""
+    if log_begins is None or baseline >= log_begins:
+        return ""
+    nights = (log_begins - baseline).days
+    return (f"; the log begins on {log_begins:%d %b %Y}: the {nights} night{'s' if nights != 1 else ''} from "
+            f"{baseline:%d %b %Y} before it count no use (log them, or a counting date, for a truer value)")
 
 
 #: The ``PlanStatus`` fields, in the order of the rows ``_site_recompute`` builds.
@@ -952,8 +964,8 @@ def reason_text(state: TriggerState) -> str:
     else:
         head = f"{label}: {state.value:,.0f} of {state.limit:,.0f} {unit}"
         if state.rate_per_day is not None and state.metric != metrics.CALENDAR_DAYS:
-            head += (f", about {state.rate_per_day:,.1f} {metrics.rate_unit(state.metric, unit)} per day expected "
-                     "over the next month")
+            head += (f", about {rate_text(state.rate_per_day)} {metrics.rate_unit(state.metric, unit)} per day "
+                     "expected over the next 30 days")
     if state.reached and state.metric == metrics.READING and state.forecast:
         # The day of the first reading past the limit (``_reading_state``), not where the trend crosses it.
         return f"{head}; past the limit since the reading of {state.forecast:%d %b %Y}."

@@ -1,3 +1,6 @@
+import os
+
+from django.conf import settings
 from django.core.management import call_command
 from django.core.management.base import BaseCommand, CommandError
 
@@ -31,5 +34,10 @@ class Command(BaseCommand):
             shown = password or "(an existing account, left as it was: not a demo login)"
             self.stdout.write(f"  {role:<14} {username} / {shown}")
         if not options["no_serve"]:
-            self.stdout.write(f"Serving at http://127.0.0.1:{options['port']}/ (Ctrl-C to stop)")
+            served = f"http://127.0.0.1:{options['port']}"
+            # The links the pages write for use elsewhere (the API's due list "page", the work-order sheets' QR codes)
+            # point where this demo serves, not at the default port; an address set in the environment stays.
+            if "SITE_URL" not in os.environ:
+                settings.SITE_URL = served
+            self.stdout.write(f"Serving at {served}/ (Ctrl-C to stop)")
             call_command("runserver", f"127.0.0.1:{options['port']}", use_reloader=False)
