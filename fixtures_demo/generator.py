@@ -414,6 +414,7 @@ _REPAIRS = (
 
 def _repairs(site, subsystems, users, start: dt.date) -> None:
     """Finished and countersigned corrective work orders for the faults above, each with its service record."""
+    from observatory_ops.workorders import selectors
     from observatory_ops.workorders import services as workorders
     from observatory_ops.workorders.models import State
 
@@ -427,6 +428,8 @@ def _repairs(site, subsystems, users, start: dt.date) -> None:
         order.started_at = reported + dt.timedelta(hours=1)
         order.finished_at = order.started_at + dt.timedelta(hours=hours)
         order.countersigned_at = order.finished_at + dt.timedelta(hours=2)
+        points = selectors.isolation_points(order)  # read while it is a draft, kept as work_order_finish keeps it
+        order.isolation_at_finish = selectors.isolation_kept(points, selectors.isolation_gaps(order, points))
         order.state, order.actual_hours, order.findings = State.COUNTERSIGNED, hours, findings
         order.assignee = order.finished_by = technician
         order.countersigned_by = engineer

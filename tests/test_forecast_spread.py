@@ -57,6 +57,15 @@ def test_each_month_is_compared_with_the_same_month_of_the_other_years():
     np.testing.assert_allclose(expected, [155.0, 124.0], rtol=1e-12)
 
 
+def test_a_month_opened_in_twilight_is_compared_with_its_fraction_above_1_as_the_forecast_makes_it():
+    # January 2025: 12 of 10 dark hours open (opened in twilight); January 2026: 11 of 10. Hand arithmetic of the
+    # project's own model (common practice, no published source): no cap at 1, as monthly_open_fraction.
+    keys, opened, dark = _log((2025, 1, 31, 12.0, 10.0), (2026, 1, 31, 11.0, 10.0))
+    actual, expected = months_left_out(keys, opened, dark, first_incomplete=_key(2026, 2))
+    np.testing.assert_allclose(expected, [310.0 * 1.1, 310.0 * 1.2], rtol=1e-12)
+    np.testing.assert_allclose(actual, [372.0, 341.0], rtol=1e-12)
+
+
 def test_with_one_year_of_log_no_month_is_compared_and_the_band_keeps_the_prior():
     """With one year each month's own fraction would match it exactly: every ratio 1, a spread of 0 and no band."""
     keys, opened, dark = _log(*((2025, m, 28, 3.0 + m / 4, 10.0) for m in range(1, 13)))

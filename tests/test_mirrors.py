@@ -185,6 +185,29 @@ def test_the_same_recoat_window_planned_twice_is_refused_until_the_first_is_with
     assert mirror.recoat_plans.count() == 2
 
 
+def test_a_second_recoat_of_the_mirror_is_refused_while_the_first_is_in_hand_and_the_planner_says_so(
+    mirror, users, client
+):
+    """Two recoats of one mirror in hand, even months apart, make two sets of removal orders for one mirror; the
+    planner made the second without a word (one recoat at a time: common practice, no published source)."""
+    from django.core.exceptions import ValidationError
+
+    from observatory_ops.calc.windows import RECOAT_PHASES
+    from observatory_ops.workorders.models import State
+
+    phases = list(RECOAT_PHASES)
+    first = services.recoat_plan_create(mirror, dt.date(2026, 8, 1), phases, 3.5, users["engineer"])
+    numbers = ", ".join(o.number for o in first.work_orders.order_by("pk"))
+    with pytest.raises(ValidationError, match=rf"already planned from 01 Aug 2026 to .* \({numbers}\) and its work "):
+        services.recoat_plan_create(mirror, dt.date(2027, 3, 1), phases, 3.5, users["engineer"])
+    client.force_login(users["engineer"])
+    page = client.get(f"/mirrors/{mirror.pk}/recoat/?start=2027-03-01&horizon_days=60").content.decode()
+    assert 'id="recoat-in-hand"' in page and 'id="create-recoat-plan"' not in page
+    first.work_orders.update(state=State.FINISHED)  # done: the next recoat may be planned
+    services.recoat_plan_create(mirror, dt.date(2027, 3, 1), phases, 3.5, users["engineer"])
+    assert mirror.recoat_plans.count() == 2
+
+
 def test_calendar_export_is_rfc5545(mirror, users, client):
     from icalendar import Calendar
 

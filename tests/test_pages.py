@@ -68,4 +68,5 @@ def test_each_night_of_the_recoat_calendar_says_how_its_cost_is_made(demo, clien
     titles = re.findall(r'class="night[^"]*"[^>]*title="([^"]*)"', page)
     assert titles and all("Moon" in t for t in titles)
     costed = [t for t in titles if "cost" in t]
-    assert costed and all(re.search(r"cost [\d.]+ h = [\d.]+ moonless dark h × \d+ % open", t) for t in costed)
+    made = r"cost [\d.]+ h = [\d.]+ moonless dark h × \d+ % of dark hours open"
+    assert costed and all(re.search(made, t) for t in costed)

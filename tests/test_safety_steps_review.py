@@ -146,7 +146,8 @@ def test_the_test_back_in_service_is_watched_from_a_safe_place_then_the_observat
     assert "under power" in back and "whoever watches the test too" in back and clear in back
     assert "outside the telescope's swept volume" in back
     assert steps[-1] == HAND_BACK and steps.count(HAND_BACK) == 1
-    assert "every test on this order has passed" in HAND_BACK and "tell the remote operators" in HAND_BACK
+    assert "tests of the telescope and the enclosure on this order have passed" in HAND_BACK
+    assert "tagged out of service stays out of service" in HAND_BACK and "tell the remote operators" in HAND_BACK
 
 
 def test_an_order_over_several_plans_hands_back_once_after_every_test(telescope, mains, users):

@@ -101,11 +101,12 @@ def months_left_out(
     ------
     Nights are grouped by (year, month). For each group g of calendar month m: ``A_g`` = its open hours and
     ``E_g = D_g x F_m(-g)``, with ``D_g`` its dark hours and ``F_m(-g)`` the open fraction of month m over the
-    logged nights of every *other* year (``sum(open) / sum(dark)``, capped at 1, as :func:`monthly_open_fraction`):
-    leave-one-out, so no month is judged by a fraction made from itself. The nights of ``first_incomplete`` (the
-    month still being logged) and later are left out altogether, so the night logged last cannot move the spread. A
-    group is compared only when it is well logged: with at least :data:`MIN_NIGHTS_FOR_HISTORY` logged nights of its
-    own, and at least as many nights of month m logged in the other years.
+    logged nights of every *other* year (``sum(open) / sum(dark)``, as :func:`monthly_open_fraction`: above 1 where
+    the dome opens in twilight): leave-one-out, so no month is judged by a fraction made from itself. The nights of
+    ``first_incomplete`` (the month still being logged) and later are left out altogether, so the night logged last
+    cannot move the spread. A group is compared only when it is well logged: with at least
+    :data:`MIN_NIGHTS_FOR_HISTORY` logged nights of its own, and at least as many nights of month m logged in the
+    other years.
 
     Parameters
     ----------
@@ -134,7 +135,7 @@ def months_left_out(
     other_open = np.bincount(calendar, weights=actual, minlength=12)[calendar] - actual
     other_dark = np.bincount(calendar, weights=dark, minlength=12)[calendar] - dark
     compared = (nights >= MIN_NIGHTS_FOR_HISTORY) & (other_nights >= MIN_NIGHTS_FOR_HISTORY) & (other_dark > 0)
-    fraction = np.minimum(other_open[compared] / other_dark[compared], 1.0)
+    fraction = other_open[compared] / other_dark[compared]
     return actual[compared], dark[compared] * fraction
 
 

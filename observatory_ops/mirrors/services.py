@@ -564,6 +564,25 @@ def _recoats_going_ahead(site: Site):
     )
 
 
+def recoat_in_hand(mirror: Mirror) -> RecoatPlan | None:
+    """The mirror's recoat going ahead whose work is not all done (an order of it drafted, issued or underway), with
+    its orders; None when there is none. A mirror has one recoat in hand at a time: another is refused until it is
+    done or stopped (an order withdrawn), and the planner names it."""
+    return (
+        _recoats_going_ahead(mirror.subsystem.telescope.site)
+        .filter(mirror=mirror, work_orders__state__in=(State.DRAFT, State.ISSUED, State.UNDERWAY))
+        .prefetch_related("work_orders").distinct().first()
+    )
+
+
+def recoat_in_hand_text(plan: RecoatPlan) -> str:
+    """Why another recoat of the mirror is not planned while ``plan`` is in hand (``recoat_in_hand``)."""
+    numbers = ", ".join(o.number for o in sorted(plan.work_orders.all(), key=lambda o: o.pk))
+    return (f"a recoat of this mirror is already planned from {plan.starts_on:%d %b %Y} to {plan.ends_on:%d %b %Y} "
+            f"({numbers}) and its work is not all done; finish it, or withdraw its work orders to stop it, before "
+            "planning another")
+
+
 def downtime_planned(site: Site, today: dt.date) -> list[RecoatPlan]:
     """The site's recoats going ahead and not yet over: each takes its telescope out of service from its first day to
     its last (the dashboard's "Downtime planned")."""
@@ -623,7 +642,7 @@ def recoat_windows(mirror: Mirror, start: dt.date, horizon_days: int, phases: li
         end = window["start"] + dt.timedelta(days=window["nights"] - 1)
         window["crew_committed"] = [p for p in committed if p.starts_on <= end and window["start"] <= p.ends_on]
     return {"windows": found, "days": days, "calendar": calendar, "lead_blanks": range(lead), "due": due,
-            "committed": committed,
+            "committed": committed, "in_hand": recoat_in_hand(mirror),
             "booked_runs": [(title, span[0], span[1]) for title, span in runs.items()], "days_off": days_off,
             "crew_rest_days": windows.weekdays_text(windows.EVERY_DAY - crew)}
 
@@ -961,17 +980,8 @@ def recoat_plan_create(
     brakes = _brakes_of(subsystem.telescope)
     with transaction.atomic():
         Mirror.objects.select_for_update().filter(pk=mirror.pk).exists()  # two submits at once take turns
-        overlapping = (
-            RecoatPlan.objects.filter(mirror=mirror, starts_on__lte=ends_on, ends_on__gte=starts_on)
-            .filter(work_orders__in=WorkOrder.objects.exclude(state=State.WITHDRAWN))  # a plan still in force
-            .first()
-        )
-        if overlapping:
-            raise ValidationError(
-                f"a recoat of this mirror is already planned from {overlapping.starts_on:%d %b %Y} to "
-                f"{overlapping.ends_on:%d %b %Y}; withdraw its work orders first, or choose a window that "
-                "does not overlap it"
-            )
+        if in_hand := recoat_in_hand(mirror):
+            raise ValidationError(recoat_in_hand_text(in_hand))
         plan = RecoatPlan.objects.create(
             mirror=mirror, starts_on=starts_on, ends_on=ends_on,
             phases=[{"name": d["phase"].name, "days": d["phase"].days, "first": d["first"].isoformat(),

@@ -27,7 +27,7 @@ from observatory_ops.registry.catalogue import kind as catalogue_kind
 from observatory_ops.registry.models import Site, Subsystem, is_shared_enclosure
 
 from . import metrics
-from .models import NightSky, PlanStatus, ServicePlan, Trigger, trigger_figures
+from .models import NightSky, PlanStatus, ServicePlan, Trigger, figure_text, trigger_figures
 from .selectors import rate_text
 
 #: How far ahead forecasts look. A trigger not reached by then has no forecast date.
@@ -958,7 +958,8 @@ def reason_text(state: TriggerState) -> str:
     unit = state.unit
     if state.metric == metrics.READING:
         bound = "at most" if state.rising else "at least"
-        head = f"Latest reading {state.value:g} {unit} against a limit of {bound} {state.limit:g} {unit}; {state.basis}"
+        value, limit = (figure_text(metrics.READING, unit, figure) for figure in (state.value, state.limit))
+        head = f"Latest reading {value} {unit} against a limit of {bound} {limit} {unit}; {state.basis}"
     elif state.metric == metrics.RECOAT_LINE:
         head = f"Reflectance now about {reflectance_text(state.value)}, recoat line {reflectance_text(state.limit)}"
     else:

@@ -1066,9 +1066,10 @@ TAKES_OUT_OF_CONTROL: frozenset[str] = frozenset({_OUT_OF_SERVICE, _OUT_OF_SERVI
 #: written once, after every plan's test, by the order (workorders.services), not by its plans. The remote operators
 #: must know that the telescope can move again under their control (common practice, no published source).
 HAND_BACK = (
-    "Only when every test on this order has passed, and everyone has left the telescope's swept volume and the path of "
-    "the dome and its shutter (or of the roll-off roof), return the observatory to robotic and remote control and tell "
-    "the remote operators it is back."
+    "Only when the tests of the telescope and the enclosure on this order have passed (equipment tagged out of service "
+    "stays out of service), and everyone has left the telescope's swept volume and the path of the dome and its "
+    "shutter (or of the roll-off roof), return the observatory to robotic and remote control and tell the remote "
+    "operators it is back."
 )
 
 #: Every step the catalogue places before isolation, and every step of its plans' restoring: how the upgrade

@@ -494,7 +494,7 @@ def isolation_gaps(order: WorkOrder, points: list[IsolationPoint] | None = None,
     ``items``: ``isolation_points(order)`` and ``order_items(order)`` when the caller has them. A finished order's
     warnings are those it kept when the work was finished (``isolation_kept``)."""
     if (kept := _kept(order)) is not None:
-        return list(kept["gaps"])
+        return [f"When the work was finished: {gap}" for gap in kept["gaps"]]
     if not needs_isolation(order.hazards):
         return []
     items = order_items(order) if items is None else items

@@ -200,8 +200,10 @@ def brake_air_back(subsystems: Sequence[Subsystem], hazards: Sequence[str], rest
     The lockout vents it where it locks an air point (one of a telescope's, or one of a subsystem the order works on:
     ``selectors.isolation_points``) on a telescope with an air-released brake in service: the air there releases the
     brakes, whichever subsystem the work is on. Work on an air-released brake vents its air too, air point registered
-    or not, and with it that of every air brake on its telescope, which share their supply. The points are those
-    registered when the order is made, as its steps are."""
+    or not, and with it that of every air brake on its telescope, which share their supply; so does work with a moving
+    telescope that has air-released brakes (with the drives locked and the air on, an unbalanced tube can swing: the
+    order warns to bleed that supply where no point of it is registered, ``selectors.isolation_gaps``). The points
+    are those registered when the order is made, as its steps are."""
     steps = {_unlabelled(step).strip() for step in restore}
     if not needs_isolation(hazards) or BRAKE_AIR_BACK in steps:
         return False
@@ -210,8 +212,10 @@ def brake_air_back(subsystems: Sequence[Subsystem], hazards: Sequence[str], rest
         telescope_id__in={s.telescope_id for s in subsystems}, energy=IsolationPoint.Energy.AIR,
     )
     worked_on = [s for s in subsystems if s.kind == AIR_BRAKE]
+    moving = {s.telescope_id for s in subsystems} if "moving_machinery" in hazards else set()
     vented = Subsystem.objects.in_service().filter(
-        Q(telescope_id__in=air.values("telescope_id")) | Q(telescope_id__in={s.telescope_id for s in worked_on}),
+        Q(telescope_id__in=air.values("telescope_id")) | Q(telescope_id__in={s.telescope_id for s in worked_on})
+        | Q(telescope_id__in=moving),
         kind=AIR_BRAKE,
     )
     if not steps & RESTORES_BRAKE_AIR:

@@ -14,7 +14,7 @@ from observatory_ops.archive.history import person
 from observatory_ops.exports import csv_response, download_refused, period
 from observatory_ops.planning.models import ServicePlan
 from observatory_ops.planning.services import site_today
-from observatory_ops.registry.catalogue import BRAKE_AIR_BACK, release_step_for
+from observatory_ops.registry.catalogue import BRAKE_AIR_BACK, is_tag_out_step, release_step_for
 from observatory_ops.registry.models import Site
 
 from . import pdf, selectors, services
@@ -253,7 +253,7 @@ def work_order_hazards_update(request, pk):
     messages.success(request, done)
     if update.lockout_missing:
         subsystems = [item.subsystem for item in order.items.select_related("subsystem")]
-        release = release_step_for(subsystems)
+        release = release_step_for(subsystems, tagged_out=any(is_tag_out_step(step) for step in order.step_list))
         # The brake air the lockout would vent, as an order made from its plans restores it (services.brake_air_back).
         air = (f", and right after it: \"{BRAKE_AIR_BACK}\""
                if services.brake_air_back(subsystems, order.hazards, []) else "")
