@@ -97,7 +97,8 @@ class Sheet:
     is missing or unrecorded).
     ``steps_note`` (how the steps of several plans were merged, before the work starts) is printed above the steps.
     ``standing_notes`` (what to keep in mind throughout the work, not steps to tick) are printed above the steps.
-    ``step_ticks`` and ``point_ticks`` (finished work only; otherwise empty) give, for each of ``steps`` and of
+    ``step_ticks`` and ``point_ticks`` (work underway: the ticks so far; finished work: the record; otherwise
+    empty) give, for each of ``steps`` and of
     ``isolation_points`` in turn, how it was ticked on the work order page (None for a line that is no checklist
     line, a warning among the points): a ticked line prints with its box ticked, and each note beside its line.
     ``findings`` is printed when present; otherwise blank ruled lines are left for writing.
