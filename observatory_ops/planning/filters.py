@@ -51,3 +51,20 @@ class DueFilter(django_filters.FilterSet):
     class Meta:
         model = PlanStatus
         fields = ["site", "telescope", "kind", "status"]
+
+    def __init__(self, data=None, *args, **kwargs):
+        super().__init__(data, *args, **kwargs)
+        # With a site chosen the telescope list is that site's: a telescope of another site is not applied (said so),
+        # rather than leaving the list empty without a word.
+        site = (data or {}).get("site")
+        if site and str(site).isdigit():
+            field = self.filters["telescope"]
+            field.queryset = field.queryset.filter(site_id=int(site))
+            self.form.fields["telescope"].queryset = field.queryset
+
+    def chosen_site(self) -> Site | None:
+        """The site the filters name: the site chosen, or the chosen telescope's; None for all sites. A filter that
+        is not valid names none (the others still count)."""
+        self.is_valid()  # cleans the form: ``cleaned_data`` then holds the fields that are valid
+        telescope = self.form.cleaned_data.get("telescope")
+        return self.form.cleaned_data.get("site") or (telescope.site if telescope else None)

@@ -273,8 +273,13 @@ def figure_text(metric: str, unit: str, value: float) -> str:
     if metric == RECOAT_LINE or (metric == READING and unit == unit_of("reflectance")):
         return reflectance_text(value)
     if metric == READING:
-        # 4 significant figures, never an exponent: 12,345 reads "12,345" (its whole part), 0.0001234 as it is.
-        return f"{value:,.0f}" if abs(value) >= 1000 else f"{value:,.4g}"
+        # 4 significant figures, never an exponent: 12,345 reads "12,345" (its whole part), 0.0001234 as it is and
+        # 0.000025 so too (``:g`` would write 2.5e-05 below 0.0001).
+        if abs(value) >= 1000:
+            return f"{value:,.0f}"
+        if 0 < abs(value) < 1e-4:
+            return f"{value:.{3 - math.floor(math.log10(abs(value)))}f}".rstrip("0")
+        return f"{value:,.4g}"
     return f"{value:,.0f}"
 
 

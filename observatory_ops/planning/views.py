@@ -19,7 +19,7 @@ from .tables import DueTable
 @requires(VIEWER)
 def due_list(request):
     filtered = DueFilter(request.GET, queryset=selectors.due_rows())
-    chosen = filtered.form.cleaned_data.get("site") if filtered.is_valid() else None
+    chosen = filtered.chosen_site()
     sites_bring_up_to_date([chosen] if chosen else None)
     # A filter that cannot be applied (an unknown site, a status that does not exist) is said so: on the
     # page the rest is shown, a download is refused rather than made without it.

@@ -1,0 +1,51 @@
+"""The due list's telescope filter follows the site: a telescope chosen alone names its site (the page brings that
+site up to date and lists its telescopes out of service, not the network's), and with a site chosen the telescope list
+holds that site's telescopes only. Also: a tiny reading is written without an exponent. Our own rules of the page."""
+
+import datetime as dt
+
+import pytest
+
+from observatory_ops.planning.models import PlanStatus, figure_text
+from observatory_ops.planning.services import site_recompute, site_today
+from tests.conftest import site_in_use
+
+pytestmark = pytest.mark.django_db
+
+
+def test_a_telescope_chosen_alone_names_its_site_and_only_that_site_is_brought_up_to_date(client, users):
+    first, second = site_in_use("first-hill"), site_in_use("second-hill")
+    for site in (first, second):
+        site_recompute(site)
+    yesterday = dt.datetime.combine(site_today(first) - dt.timedelta(days=1), dt.time(12), tzinfo=dt.UTC)
+    PlanStatus.objects.update(computed_at=yesterday, value=-1)  # both stale
+    client.force_login(users["viewer"])
+    telescope = first.telescopes.get()
+    page = client.get(f"/due/?telescope={telescope.pk}")
+    assert page.status_code == 200
+    assert not PlanStatus.objects.filter(site=first, value=-1).exists()  # the telescope's site: recomputed
+    assert PlanStatus.objects.filter(site=second, value=-1).exists()  # the other: left for its own look
+    rows = page.context["table"].page.object_list
+    assert rows and all(row.record.site_id == first.pk for row in rows)
+
+
+def test_with_a_site_chosen_the_telescope_list_is_that_sites(client, users):
+    first, second = site_in_use("first-hill"), site_in_use("second-hill")
+    client.force_login(users["viewer"])
+    page = client.get(f"/due/?site={first.pk}")
+    options = list(page.context["filter"].form.fields["telescope"].queryset)
+    assert options == list(first.telescopes.all())
+    # Another site's telescope with the site: not applied, and said so (the page's other filters still hold).
+    other = second.telescopes.get()
+    page = client.get(f"/due/?site={first.pk}&telescope={other.pk}")
+    warnings = [str(m) for m in page.context["messages"]]
+    assert any(w.startswith("Telescope") and "not applied" in w for w in warnings), warnings
+    assert all(row.record.site_id == first.pk for row in page.context["table"].page.object_list)
+
+
+@pytest.mark.parametrize(("value", "text"), [
+    (2.5e-05, "0.000025"), (-2.5e-05, "-0.000025"), (1.23456e-07, "0.0000001235"), (0.0001234, "0.0001234"),
+    (12.345, "12.35"), (1234.5, "1,234"), (0.0, "0"),
+])
+def test_a_reading_is_written_to_four_significant_figures_without_an_exponent(value, text):
+    assert figure_text("reading", "mm", value) == text
