@@ -374,6 +374,26 @@ def reflectance_now(state: MirrorForecast) -> ReflectanceNow:
     )
 
 
+def no_estimate_text(state: MirrorForecast) -> str:
+    """Why the mirror page has no estimate now, and what a recoat-line trigger counts meanwhile
+    (``reflectance_now``, the subsystem page's figure); "" when there is an estimate (a fitted decline)."""
+    if state.current is not None:
+        return ""
+    if state.coated_on is None:
+        return ("No estimate: no coating recorded, so there is no fresh value for a decline to start from and no "
+                "recoat line. Log the coating first.")
+    meanwhile = reflectance_now(state)
+    if not state.points:
+        measured = f"no band reflectance measured since the coating of {state.coated_on:%d %b %Y}"
+        counted = f"the computed fresh value, {reflectance_text(meanwhile.now)}"
+    else:
+        n = len(state.points)
+        measured = f"{n} band measurement{'s' if n != 1 else ''} since the coating of {state.coated_on:%d %b %Y}"
+        counted = f"the last measurement, {reflectance_text(meanwhile.now)} on {state.points[-1][0]:%d %b %Y}"
+    return (f"No estimate: {measured} ({state.fit_note}). Until a decline is fitted, a recoat-line trigger "
+            f"(the subsystem page) counts {counted}.")
+
+
 def _train_mirror(state: MirrorForecast) -> TrainMirror:
     """The reflectance a mirror's forecast gives the train now and fresh, and where each comes from."""
     return TrainMirror(state.mirror.subsystem, state.mirror, *reflectance_now(state))
@@ -587,6 +607,83 @@ def downtime_planned(site: Site, today: dt.date) -> list[RecoatPlan]:
     """The site's recoats going ahead and not yet over: each takes its telescope out of service from its first day to
     its last (the dashboard's "Downtime planned")."""
     return list(_recoats_going_ahead(site).filter(ends_on__gte=today))
+
+
+def _days_text(first: dt.date, last: dt.date) -> str:
+    return f"{first:%d %b %Y}" if first == last else f"{first:%d %b %Y} to {last:%d %b %Y}"
+
+
+@dataclass(frozen=True)
+class RunOverRecoat:
+    """A booked observing run falling on nights of a recoat going ahead (``runs_over_recoats``): ``first`` to ``last``
+    are the nights of both, from today on, both counted."""
+
+    plan: RecoatPlan
+    run: BookedRun
+    first: dt.date
+    last: dt.date
+
+    @property
+    def nights(self) -> int:
+        return (self.last - self.first).days + 1
+
+    def _clash(self, recoat: str) -> str:
+        run, nights = self.run, f"{self.nights} night{'s' if self.nights != 1 else ''}"
+        said = (f"Booked run '{run.title}' ({run.starts_on:%d %b %Y} to {run.ends_on:%d %b %Y}) falls on {nights}, "
+                f"{_days_text(self.first, self.last)}, of {recoat}")
+        if run.blocked:
+            return f"{said}: its nights are blocked to downtime, so move the run or re-plan the recoat."
+        return (f"{said}: the run is not blocked, so it loses those nights (the recoat planner weighs each "
+                f"{BOOKED_WEIGHT:g} times an unbooked night); move the run or re-plan the recoat, unless losing them "
+                "is accepted.")
+
+    @property
+    def text(self) -> str:
+        """The caution under the recoat, on the dashboard and the mirror's pages."""
+        return self._clash("this recoat")
+
+    @property
+    def admin_text(self) -> str:
+        """The admin's warning on saving the run: the recoat and its work orders named (their states too)."""
+        subsystem = self.plan.mirror.subsystem
+        orders = ", ".join(f"{o.number} ({o.get_state_display().lower()})"
+                           for o in sorted(self.plan.work_orders.all(), key=lambda o: o.pk))
+        recoat = (f"the recoat of {subsystem.telescope.name} {subsystem.name} planned "
+                  f"{self.plan.starts_on:%d %b %Y} to {self.plan.ends_on:%d %b %Y} with work orders {orders}")
+        return (f"{self._clash(recoat)} The run is saved; to re-plan the recoat, withdraw its work orders (which stops "
+                "it) and plan it again on the mirror's recoat page.")
+
+
+def runs_over_recoats(site: Site, today: dt.date) -> list[RunOverRecoat]:
+    """The site's booked runs falling on nights of its recoats going ahead and not yet over (``downtime_planned``),
+    with the nights of both from ``today`` on (nights already past cannot be moved), soonest recoat first. The recoat
+    planner keeps a new recoat off a blocked run's nights and prices an unblocked one's higher (``night_costs``), but
+    a run booked, moved or blocked after the recoat was planned shows only here. Two queries, whatever the numbers.
+    A run is booked at the site, so it is held against every telescope's recoat there, as the planner holds it."""
+    plans = downtime_planned(site, today)
+    if not plans:
+        return []
+    runs = list(
+        BookedRun.objects.filter(
+            site=site, ends_on__gte=max(today, min(p.starts_on for p in plans)),
+            starts_on__lte=max(p.ends_on for p in plans),
+        ).order_by("starts_on", "pk")
+    )
+    found = []
+    for plan in plans:
+        for run in runs:
+            first, last = max(plan.starts_on, run.starts_on, today), min(plan.ends_on, run.ends_on)
+            if first <= last:
+                found.append(RunOverRecoat(plan, run, first, last))
+    return found
+
+
+def runs_over_each_recoat(site: Site, today: dt.date) -> dict[int, list[RunOverRecoat]]:
+    """``runs_over_recoats`` by recoat plan (its pk): the cautions each page lists under a recoat."""
+    by_plan: dict[int, list[RunOverRecoat]] = {}
+    for over in runs_over_recoats(site, today):
+        by_plan.setdefault(over.plan.pk, []).append(over)
+    return by_plan
 
 
 def _recoats_planned_at(site: Site, mirror: Mirror, first: dt.date, last: dt.date) -> list[RecoatPlan]:

@@ -27,7 +27,9 @@ def _mirror(pk) -> Mirror:
 @requires(VIEWER)
 def mirror_detail(request, pk):
     mirror = _mirror(pk)
+    site = mirror.subsystem.telescope.site
     state = services.mirror_forecast(mirror)
+    runs_over = services.runs_over_each_recoat(site, site_today(site))
     measurements = list(mirror.measurements.select_related("taken_by", "reading", "withdrawn_by")
                         .order_by("-measured_on")[:40])
     for m in measurements:  # the x of its dot in the picture; None for one not fitted
@@ -37,8 +39,9 @@ def mirror_detail(request, pk):
         "mirrors/detail.html",
         {
             "mirror": mirror,
-            "site": mirror.subsystem.telescope.site,
+            "site": site,
             "state": state,
+            "no_estimate": services.no_estimate_text(state),
             "recoat_due": services.recoat_due(mirror),
             "plot": plots.decline_svg(state, described_by="decline-words"),
             "train": services.throughput(mirror.subsystem.telescope),
@@ -48,8 +51,10 @@ def mirror_detail(request, pk):
             "history": changes(mirror, limit=5),
             "history_label": "mirrors.mirror",
             "history_pk": mirror.pk,
+            # Each recoat plan, what changed in the crew's days since it was made, and the booked runs on its nights.
             "plans": [
-                (plan, services.plan_out_of_step(plan)) for plan in mirror.recoat_plans.prefetch_related(
+                (plan, services.plan_out_of_step(plan), runs_over.get(plan.pk, []))
+                for plan in mirror.recoat_plans.prefetch_related(
                     Prefetch("work_orders", queryset=WorkOrder.objects.order_by("planned_date", "pk"))
                 )
             ],
@@ -181,6 +186,9 @@ def recoat_planner(request, pk):
                                                    form.cleaned_data["horizon_days"], form.phases()))
         except ValueError as exc:
             form.add_error(None, str(exc))
+    if in_hand := context.get("in_hand"):
+        site = context["site"]
+        context["in_hand_runs_over"] = services.runs_over_each_recoat(site, site_today(site)).get(in_hand.pk, [])
     return render(request, "mirrors/recoat.html", context)
 
 

@@ -3,6 +3,7 @@ from operator import attrgetter
 from django import forms
 from django.contrib import admin, messages
 from django.db import transaction
+from django.db.models import prefetch_related_objects
 from simple_history.admin import SimpleHistoryAdmin
 
 from observatory_ops.logbook.quantities import QUANTITIES, usual_for_kind
@@ -11,7 +12,7 @@ from observatory_ops.registry.models import Site
 from observatory_ops.workorders.models import listed
 
 from .models import BookedRun, ServicePlan, Trigger
-from .services import site_recompute
+from .services import site_recompute, site_today
 
 
 class RecomputesSite:
@@ -117,3 +118,15 @@ class ServicePlanAdmin(ProtectedNamed, ChoicesNamedWithSite, RecomputesSite, Sim
 class BookedRunAdmin(SimpleHistoryAdmin):
     list_display = ("title", "site", "starts_on", "ends_on", "blocked")
     list_filter = ("site",)
+
+    def save_model(self, request, obj, form, change):
+        """Saved as entered; a run falling on nights of a recoat already planned is warned of, naming the recoat and
+        its work orders (the planner keeps only new recoats off booked nights: ``mirrors.services.runs_over_recoats``).
+        """
+        from observatory_ops.mirrors.services import runs_over_recoats  # mirrors builds on planning
+
+        super().save_model(request, obj, form, change)
+        over = [o for o in runs_over_recoats(obj.site, site_today(obj.site)) if o.run.pk == obj.pk]
+        prefetch_related_objects([o.plan for o in over], "work_orders")
+        for clash in over:
+            self.message_user(request, clash.admin_text, messages.WARNING)

@@ -46,6 +46,11 @@ def site_dashboard(request, slug):
     for status in upcoming:
         status.on_orders = on_orders.get(status.plan_id, [])
     telescopes = [(t, subsystem_tree(t), tube_warning(t)) for t in site.telescopes.all()]
+    today = site_today(site)
+    downtime = mirror_services.downtime_planned(site, today)
+    runs_over = mirror_services.runs_over_each_recoat(site, today)
+    for plan in downtime:  # the booked runs on its nights, under it
+        plan.runs_over = runs_over.get(plan.pk, [])
     return render(
         request,
         "registry/site_dashboard.html",
@@ -61,7 +66,7 @@ def site_dashboard(request, slug):
             "recent_service": planning_selectors.recent_service(site)[:8],
             "low_stock": workorder_selectors.low_stock(site),
             "telescopes_out": workorder_selectors.telescopes_out([site]).values(),
-            "downtime": mirror_services.downtime_planned(site, site_today(site)),
+            "downtime": downtime,
             "open_work_orders": workorder_selectors.work_orders()
             .filter(site=site, state__in=["draft", "issued", "underway", "finished"])
             .order_by("planned_date")[:10],

@@ -1,0 +1,257 @@
+"""A booked observing run falling on nights of a recoat already planned: the recoat planner keeps a new recoat off
+booked nights, but a run booked (or moved) afterwards over a planned recoat's days was flagged nowhere. It is now named
+on the dashboard's "Downtime planned", on the mirror's pages and in the admin when the run is saved. And the mirror
+page's "Estimate now" says why it has none. The site, runs and people are invented."""
+from __future__ import annotations
+
+import datetime as dt
+import html
+import re
+
+import pytest
+
+from observatory_ops.calc.windows import RECOAT_PHASES
+from observatory_ops.logbook.models import NightUsage
+from observatory_ops.logbook.quantities import reflectance_text
+from observatory_ops.mirrors import services
+from observatory_ops.mirrors.models import CoatingEvent, Mirror, ReflectanceMeasurement
+from observatory_ops.planning.models import BookedRun
+from observatory_ops.planning.services import HORIZON_DAYS, site_recompute
+from observatory_ops.registry.models import Site, Subsystem
+from observatory_ops.registry.services import subsystem_create
+from observatory_ops.workorders.models import State
+from tests.conftest import constant_sky
+
+TODAY = dt.date(2026, 6, 15)
+COATED = TODAY - dt.timedelta(days=60)
+
+
+@pytest.fixture
+def on_today(monkeypatch):
+    """Every page and service touched here reads the site's "today" as TODAY."""
+    for where in ("observatory_ops.mirrors.services", "observatory_ops.mirrors.views", "observatory_ops.registry.views",
+                  "observatory_ops.planning.admin", "observatory_ops.planning.services"):
+        monkeypatch.setattr(f"{where}.site_today", lambda site, now=None: TODAY)
+
+
+@pytest.fixture
+def mirror(telescope, users, on_today):
+    """A bare-aluminium primary coated 60 days ago, 4 h open every night since, nothing measured yet; the crew works
+    every day, so a recoat from a day runs the plain sum of its phases' days (12) from it."""
+    site = telescope.site
+    site.crew_weekdays = "1234567"
+    site.save()
+    NightUsage.objects.bulk_create(
+        NightUsage(site=site, night=COATED + dt.timedelta(days=i), open_hours=4, pm10_ugm3=40) for i in range(60)
+    )
+    constant_sky(site, TODAY - dt.timedelta(days=366), TODAY + dt.timedelta(days=HORIZON_DAYS + 1))
+    primary = subsystem_create(telescope, "primary_mirror", "Primary", counting_from=COATED)
+    m = Mirror.objects.create(subsystem=primary, diameter_mm=500, thickness_mm=50, hole_mm=120,
+                              material="borosilicate", cell_mass_kg=30)
+    CoatingEvent.objects.create(mirror=m, coated_on=COATED, metal="al")
+    return m
+
+
+@pytest.fixture
+def recoat(mirror, users):
+    """The primary's recoat planned from 05 Jul 2026: 12 nights, to 16 Jul 2026."""
+    plan = services.recoat_plan_create(mirror, dt.date(2026, 7, 5), list(RECOAT_PHASES), 3.5, users["engineer"])
+    assert (plan.starts_on, plan.ends_on) == (dt.date(2026, 7, 5), dt.date(2026, 7, 16))
+    return plan
+
+
+@pytest.fixture
+def runs(recoat):
+    """Runs booked after the recoat was planned: one blocked over its first two nights, one not blocked over its last,
+    one just after it, and one at another site on the same nights."""
+    site = recoat.mirror.subsystem.telescope.site
+    elsewhere = Site.objects.create(name="Other Ridge", slug="other-ridge", latitude_deg=38.0, longitude_deg=-2.0,
+                                    elevation_m=900, time_zone="Europe/Madrid")
+    return {
+        "spectra": BookedRun.objects.create(site=site, title="Spectra campaign", starts_on=dt.date(2026, 7, 3),
+                                            ends_on=dt.date(2026, 7, 6)),
+        "fill_in": BookedRun.objects.create(site=site, title="Survey fill-in", starts_on=dt.date(2026, 7, 16),
+                                            ends_on=dt.date(2026, 7, 20), blocked=False),
+        "after": BookedRun.objects.create(site=site, title="Later run", starts_on=dt.date(2026, 7, 17),
+                                          ends_on=dt.date(2026, 7, 25)),
+        "elsewhere": BookedRun.objects.create(site=elsewhere, title="Ridge run", starts_on=dt.date(2026, 7, 5),
+                                              ends_on=dt.date(2026, 7, 16)),
+    }
+
+
+def _nights(first: dt.date, last: dt.date) -> set[dt.date]:
+    return {first + dt.timedelta(days=i) for i in range((last - first).days + 1)}
+
+
+def _shared(plan, run, today) -> list[dt.date]:
+    """The nights of both from today on, counted night by night (both ends of each range counted)."""
+    return sorted(n for n in _nights(plan.starts_on, plan.ends_on) & _nights(run.starts_on, run.ends_on) if n >= today)
+
+
+# --- the function ----------------------------------------------------------------------------------------------------
+
+
+def test_the_runs_falling_on_a_planned_recoat_are_found_with_the_nights_they_share(recoat, runs):
+    site = recoat.mirror.subsystem.telescope.site
+    found = services.runs_over_recoats(site, TODAY)
+    assert [(o.plan, o.run) for o in found] == [(recoat, runs["spectra"]), (recoat, runs["fill_in"])]
+    for over in found:  # each against the nights of both counted one by one
+        shared = _shared(recoat, over.run, TODAY)
+        assert (over.first, over.last, over.nights) == (shared[0], shared[-1], len(shared))
+    assert [(o.first, o.last, o.nights) for o in found] == [
+        (dt.date(2026, 7, 5), dt.date(2026, 7, 6), 2), (dt.date(2026, 7, 16), dt.date(2026, 7, 16), 1),
+    ]
+
+
+def test_nights_already_past_are_not_held_against_a_recoat_under_way(recoat, runs):
+    site = recoat.mirror.subsystem.telescope.site
+    on_the_6th = services.runs_over_recoats(site, dt.date(2026, 7, 6))
+    assert [(o.run.title, o.first, o.nights) for o in on_the_6th] == [
+        ("Spectra campaign", dt.date(2026, 7, 6), 1), ("Survey fill-in", dt.date(2026, 7, 16), 1),
+    ]
+    assert [o.run.title for o in services.runs_over_recoats(site, dt.date(2026, 7, 7))] == ["Survey fill-in"]
+    assert services.runs_over_recoats(site, dt.date(2026, 7, 17)) == []  # the recoat is over
+
+
+def test_a_stopped_recoat_has_no_run_over_it(recoat, runs):
+    recoat.work_orders.update(state=State.WITHDRAWN)
+    assert services.runs_over_recoats(recoat.mirror.subsystem.telescope.site, TODAY) == []
+
+
+def test_two_queries_whatever_the_numbers_of_recoats_and_runs(recoat, runs, users, telescope,
+                                                              django_assert_num_queries):
+    secondary = Subsystem.objects.create(telescope=telescope, kind="secondary_mirror", name="Secondary")
+    other = Mirror.objects.create(subsystem=secondary, diameter_mm=150, thickness_mm=25, material="borosilicate",
+                                  cell_mass_kg=3)
+    CoatingEvent.objects.create(mirror=other, coated_on=COATED, metal="al")
+    second = services.recoat_plan_create(other, dt.date(2026, 7, 18), list(RECOAT_PHASES), 2.0, users["engineer"])
+    site = telescope.site
+    with django_assert_num_queries(2):
+        found = services.runs_over_recoats(site, TODAY)
+        words = [o.text for o in found] + [o.plan.mirror.subsystem.telescope.name for o in found]
+    assert [(o.plan, o.run.title) for o in found] == [
+        (recoat, "Spectra campaign"), (recoat, "Survey fill-in"), (second, "Survey fill-in"), (second, "Later run"),
+    ]
+    assert len(words) == 8
+
+
+def test_the_wording_names_the_run_its_dates_and_the_nights_blocked_or_not(recoat, runs):
+    spectra, fill_in = services.runs_over_recoats(recoat.mirror.subsystem.telescope.site, TODAY)
+    assert spectra.text == (
+        "Booked run 'Spectra campaign' (03 Jul 2026 to 06 Jul 2026) falls on 2 nights, 05 Jul 2026 to 06 Jul 2026, of "
+        "this recoat: its nights are blocked to downtime, so move the run or re-plan the recoat."
+    )
+    # services.BOOKED_WEIGHT, the planner's weight of a booked night that is not blocked (a setting of our own).
+    assert fill_in.text == (
+        "Booked run 'Survey fill-in' (16 Jul 2026 to 20 Jul 2026) falls on 1 night, 16 Jul 2026, of this recoat: the "
+        "run is not blocked, so it loses those nights (the recoat planner weighs each 5 times an unbooked night); "
+        "move the run or re-plan the recoat, unless losing them is accepted."
+    )
+
+
+# --- the pages -------------------------------------------------------------------------------------------------------
+
+
+def _cautions(page: str) -> list[str]:
+    return [html.unescape(c) for c in re.findall(r'<p class="caution run-over-recoat">(.*?)</p>', page)]
+
+
+def test_the_dashboard_names_each_run_under_its_recoat(recoat, runs, users, client):
+    client.force_login(users["viewer"])
+    page = client.get(recoat.mirror.subsystem.telescope.site.get_absolute_url()).content.decode()
+    downtime = page[page.index('id="downtime"'):page.index("Spare parts low")]
+    assert _cautions(downtime) == [o.text for o in services.runs_over_recoats(recoat.mirror.subsystem.telescope.site,
+                                                                               TODAY)]
+    assert "Booked run &#x27;Spectra campaign&#x27; (03 Jul 2026 to 06 Jul 2026) falls on 2 nights" in downtime
+    BookedRun.objects.filter(pk__in=[runs["spectra"].pk, runs["fill_in"].pk]).delete()
+    page = client.get(recoat.mirror.subsystem.telescope.site.get_absolute_url()).content.decode()
+    assert _cautions(page) == [] and "out of service 05 Jul 2026 to 16 Jul 2026" in page
+
+
+def test_the_mirror_page_and_the_recoat_page_name_the_runs_over_the_recoat_in_hand(recoat, runs, users, client):
+    client.force_login(users["viewer"])
+    mirror = recoat.mirror
+    expected = [o.text for o in services.runs_over_recoats(mirror.subsystem.telescope.site, TODAY)]
+    detail = client.get(mirror.get_absolute_url()).content.decode()
+    plans = detail[detail.index("<h2>Recoat plans</h2>"):detail.index("<h2>Coatings, cleanings")]
+    assert _cautions(plans) == expected
+    planner = client.get(f"/mirrors/{mirror.pk}/recoat/?start=2026-06-15&horizon_days=40").content.decode()
+    in_hand = planner[planner.index('id="recoat-in-hand"'):]
+    assert _cautions(in_hand) == expected
+
+
+def test_saving_a_run_over_a_planned_recoat_in_the_admin_warns_and_saves(recoat, engineer_in_admin):
+    site = recoat.mirror.subsystem.telescope.site
+    numbers = ", ".join(f"{o.number} (draft)" for o in recoat.work_orders.order_by("pk"))
+    response = engineer_in_admin.post("/admin/planning/bookedrun/add/", {
+        "site": site.pk, "title": "Comet watch", "starts_on": "2026-07-10", "ends_on": "2026-07-11", "blocked": "on",
+    }, follow=True)
+    run = BookedRun.objects.get(title="Comet watch")  # saved all the same
+    warnings = [str(m) for m in response.context["messages"] if m.level_tag == "warning"]
+    assert warnings == [
+        "Booked run 'Comet watch' (10 Jul 2026 to 11 Jul 2026) falls on 2 nights, 10 Jul 2026 to 11 Jul 2026, of the "
+        f"recoat of T1 Primary planned 05 Jul 2026 to 16 Jul 2026 with work orders {numbers}: its nights are blocked "
+        "to downtime, so move the run or re-plan the recoat. The run is saved; to re-plan the recoat, withdraw its "
+        "work orders (which stops it) and plan it again on the mirror's recoat page."
+    ]
+    assert len(numbers.split(", ")) == 4  # removal, strip and coat, reinstall, realignment
+    # Moved off the recoat: saved without a word of it.
+    response = engineer_in_admin.post(f"/admin/planning/bookedrun/{run.pk}/change/", {
+        "site": site.pk, "title": "Comet watch", "starts_on": "2026-07-20", "ends_on": "2026-07-21", "blocked": "on",
+    }, follow=True)
+    assert [m for m in response.context["messages"] if m.level_tag == "warning"] == []
+    run.refresh_from_db()
+    assert run.starts_on == dt.date(2026, 7, 20)
+
+
+# --- the estimate now, or why there is none --------------------------------------------------------------------------
+
+
+def _estimate_panel(client, mirror) -> str:
+    page = client.get(mirror.get_absolute_url()).content.decode()
+    return page[page.index("Estimate now"):page.index("Recoat line</div>")]
+
+
+def test_no_estimate_before_any_measurement_says_why_and_names_the_figure_the_recoat_line_counts(mirror, users,
+                                                                                                 client):
+    state = services.mirror_forecast(mirror, TODAY)
+    fresh = reflectance_text(state.fresh_band)
+    assert services.no_estimate_text(state) == (
+        f"No estimate: no band reflectance measured since the coating of {COATED:%d %b %Y} (no fit yet: need at least "
+        "3 readings to fit a decline with uncertainties; got 0). Until a decline is fitted, a recoat-line trigger (the "
+        f"subsystem page) counts the computed fresh value, {fresh}."
+    )
+    client.force_login(users["viewer"])
+    panel = _estimate_panel(client, mirror)
+    assert "<strong>–</strong>" in panel and 'id="no-estimate"' in panel and "no band reflectance measured" in panel
+    # The same figure as the subsystem page's recoat line (planning.services._recoat_line_state), once the site is
+    # recomputed with the mirror's record (as the admin that records it does).
+    site_recompute(mirror.subsystem.telescope.site)
+    assert fresh in client.get(mirror.subsystem.get_absolute_url()).content.decode()
+
+
+def test_no_estimate_with_too_few_measurements_names_the_last_one(mirror, users, client):
+    for days, value in ((10, 0.905), (40, 0.9)):
+        ReflectanceMeasurement.objects.create(mirror=mirror, measured_on=COATED + dt.timedelta(days=days), value=value,
+                                              taken_by=users["technician"])
+    text = services.no_estimate_text(services.mirror_forecast(mirror, TODAY))
+    assert text == (
+        f"No estimate: 2 band measurements since the coating of {COATED:%d %b %Y} (no fit yet: need at least 3 "
+        "readings to fit a decline with uncertainties; got 2). Until a decline is fitted, a recoat-line trigger (the "
+        f"subsystem page) counts the last measurement, 0.9000 on {COATED + dt.timedelta(days=40):%d %b %Y}."
+    )
+
+
+def test_an_estimate_needs_no_words_and_no_coating_is_said(mirror, users, telescope, client):
+    for days, value in ((10, 0.905), (30, 0.902), (50, 0.899)):
+        ReflectanceMeasurement.objects.create(mirror=mirror, measured_on=COATED + dt.timedelta(days=days), value=value,
+                                              taken_by=users["technician"])
+    state = services.mirror_forecast(mirror, TODAY)
+    assert state.current is not None and services.no_estimate_text(state) == ""
+    client.force_login(users["viewer"])
+    assert 'id="no-estimate"' not in _estimate_panel(client, mirror)
+    bare = Mirror.objects.create(subsystem=Subsystem.objects.create(telescope=telescope, kind="secondary_mirror",
+                                                                    name="Secondary"),
+                                 diameter_mm=150, thickness_mm=25, material="borosilicate")
+    assert services.no_estimate_text(services.mirror_forecast(bare, TODAY)).startswith(
+        "No estimate: no coating recorded, so there is no fresh value")
