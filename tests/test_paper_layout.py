@@ -19,6 +19,7 @@ from test_workorder_pdf import STEPS, body_text, flat, make_sheet, page_texts
 
 from observatory_ops.calc.lifting import DENSITY, lift_figures
 from observatory_ops.workorders import pdf, selectors
+from observatory_ops.workorders.models import amount_text
 from observatory_ops.workorders.pdf import render_batch, render_sheet
 from observatory_ops.workorders.sheet import WARNING_PREFIX, SheetLifting, SheetPart
 
@@ -169,7 +170,7 @@ def test_the_printing_time_names_the_sites_time_zone_once():
     (2, "box", "2 boxes"), (0, "pair", "0 pairs"),
 ])
 def test_a_quantity_reads_with_its_unit(quantity, unit, printed):
-    assert pdf._amount(quantity, unit) == printed
+    assert amount_text(quantity, unit) == printed
 
 
 def test_the_parts_table_prints_plural_units():

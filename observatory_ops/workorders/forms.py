@@ -17,7 +17,7 @@ from observatory_ops.registry.models import Subsystem
 
 from . import selectors, services
 from .cautions import ISOLATION_UNTICKED, ISOLATION_UNTICKED_FINDINGS
-from .models import PART_QUANTITY_MAX, Part, State, WorkOrder, part_quantity_too_many
+from .models import PART_QUANTITY_MAX, Part, State, WorkOrder, amount_text, part_quantity_too_many
 from .selectors import order_plans
 
 
@@ -280,10 +280,14 @@ class FinishForm(forms.Form):
                 # Said with the other fields' problems, on the first try (finishing checks it again).
                 validators=[_plausible(r.quantity, label)],
             )
+        # Empty, never the planned quantity: a tap on Finish must not book the plan as used (the register and the
+        # parts-used record), so each count is typed, 0 for a part not used; the plan is said beside it.
         for use in order.part_uses.select_related("part"):
             label = f"{use.part.name} used ({use.part.unit})"
             self.fields[f"part_{use.pk}"] = forms.FloatField(
-                label=label, min_value=0, max_value=PART_QUANTITY_MAX, initial=use.quantity_planned,
+                label=label, min_value=0, max_value=PART_QUANTITY_MAX, required=True,
+                help_text=(f"planned: {amount_text(use.quantity_planned, use.part.unit)}; enter what was used, "
+                           "0 if none"),
                 error_messages={"required": f"{label}: enter how many were used (0 if none).",
                                 "invalid": f"{label}: enter a number.", "min_value": f"{label}: enter 0 or more.",
                                 "max_value": f"{part_quantity_too_many(label)}."},

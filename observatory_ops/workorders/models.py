@@ -357,6 +357,22 @@ COUNTED_UNITS = frozenset({
 })
 
 
+#: Units of the parts register that are things counted, singular to plural: "2 sets", "1 pack". Any other unit
+#: (each, a measure such as m, kg or l, an abbreviation) prints as the register writes it: "2 each", "1.5 m".
+_COUNTED_PLURALS = {
+    "bottle": "bottles", "box": "boxes", "cylinder": "cylinders", "kit": "kits", "pack": "packs", "pair": "pairs",
+    "piece": "pieces", "roll": "rolls", "set": "sets", "swab": "swabs", "unit": "units",
+}
+_COUNTED_SINGULARS = {plural: singular for singular, plural in _COUNTED_PLURALS.items()}
+
+
+def amount_text(quantity: float, unit: str) -> str:
+    """A quantity with its unit as it reads: "1 set", "2 sets", "3 each", "0.5 m"."""
+    word = unit.strip()
+    table = _COUNTED_SINGULARS if quantity == 1 else _COUNTED_PLURALS
+    return f"{quantity:g} {table.get(word.lower(), word)}".rstrip()
+
+
 def part_quantity_not_whole(part: Part, quantity: float, label: str) -> str:
     """Why ``quantity`` of ``part`` cannot be right as a count ("" when it can): a part counted in whole units
     (``COUNTED_UNITS``) given a fraction. ``label`` names the figure, as ``part_quantity_too_many``'s does."""

@@ -60,6 +60,7 @@ from observatory_ops.workorders.cautions import (
     is_lockout_step,
     signal_word,
 )
+from observatory_ops.workorders.models import amount_text
 from observatory_ops.workorders.sheet import WARNING_PREFIX, Sheet, SheetCaution, SheetPart, SheetTick
 
 PAPER_SIZES: dict[str, tuple[float, float]] = {"A4": A4, "letter": LETTER}
@@ -670,7 +671,7 @@ def _parts_and_tools(sheet: Sheet, width: float) -> list[Flowable]:
     if sheet.parts:
         widths = [width - 100 * mm, 36 * mm, 26 * mm, 38 * mm]
         rows = [[_cell(part.name, widths[0]), _cell(part.part_number, widths[1]),
-                 _cell(_amount(part.quantity, part.unit), widths[2]),
+                 _cell(amount_text(part.quantity, part.unit), widths[2]),
                  _written_box(widths[3]) if part.used is None else _cell(_used(part), widths[3])]
                 for part in sheet.parts]
         story.append(_ruled_table(("Part", "Part no.", "Planned", "Used"), rows, widths))
@@ -699,24 +700,8 @@ def _parts_and_tools(sheet: Sheet, width: float) -> list[Flowable]:
 
 
 def _used(part: SheetPart) -> str:
-    used = _amount(part.used, part.unit)
+    used = amount_text(part.used, part.unit)
     return f"{used} ({part.short:g} beyond the register)" if part.short else used
-
-
-#: Units of the parts register that are things counted, singular to plural: "2 sets", "1 pack". Any other unit
-#: (each, a measure such as m, kg or l, an abbreviation) prints as the register writes it: "2 each", "1.5 m".
-_COUNTED_PLURALS = {
-    "bottle": "bottles", "box": "boxes", "cylinder": "cylinders", "kit": "kits", "pack": "packs", "pair": "pairs",
-    "piece": "pieces", "roll": "rolls", "set": "sets", "swab": "swabs", "unit": "units",
-}
-_COUNTED_SINGULARS = {plural: singular for singular, plural in _COUNTED_PLURALS.items()}
-
-
-def _amount(quantity: float, unit: str) -> str:
-    """A quantity with its unit as it reads: "1 set", "2 sets", "3 each", "0.5 m"."""
-    word = unit.strip()
-    table = _COUNTED_SINGULARS if quantity == 1 else _COUNTED_PLURALS
-    return f"{quantity:g} {table.get(word.lower(), word)}".rstrip()
 
 
 def _readings(sheet: Sheet, width: float) -> list[Flowable]:

@@ -169,6 +169,10 @@ def test_two_overdue_items_go_from_the_due_list_through_a_work_order_to_counters
         page.get_by_label(f"{r.quantity_label} on {r.subsystem.name} ({r.unit})").fill(str(values[r.pk]))
     for cleaning in page.locator("select[name^=cleaned_]").all():  # asked with no default on a mirror's order
         cleaning.select_option("none")
+    for use in order.part_uses.select_related("part"):  # typed, never prefilled with the planned quantity
+        used = page.get_by_label(f"{use.part.name} used ({use.part.unit})")
+        expect(used).to_have_value("")
+        used.fill(f"{use.quantity_planned:g}")
     # Nothing was ticked on the work order page: the form lists every line, and finishing needs the confirmations:
     # the energy isolation's on its own (OSHA 29 CFR 1910.147), the box for the other lines.
     from observatory_ops.workorders.cautions import ISOLATION_UNTICKED
