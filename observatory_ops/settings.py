@@ -5,7 +5,9 @@ Environment variables
 DEBUG            "1"/"true" for development (the default); "0" in production (see README, Deployment).
 SECRET_KEY       required when DEBUG is off; a development key is used only when it is not set and DEBUG is
                  on. An installation with a key of its own is treated as production (``demo`` refuses it).
-DATABASE_URL     default: a SQLite file in the git-ignored ``data/`` folder.
+OBSOPS_DATA_DIR  where the SQLite file, the weekly work-order batches and the beat schedule live (default:
+                 the git-ignored ``data/`` folder beside ``manage.py``).
+DATABASE_URL     default: a SQLite file in OBSOPS_DATA_DIR.
 ALLOWED_HOSTS    comma-separated host names.
 CSRF_TRUSTED_ORIGINS  comma-separated origins (scheme and host, e.g. https://observatory.example.org) whose
                  forms are accepted besides the page's own host; default none.
@@ -23,6 +25,10 @@ EMAIL_BACKEND, EMAIL_HOST, EMAIL_PORT, EMAIL_HOST_USER, EMAIL_HOST_PASSWORD, EMA
 DEFAULT_FROM_EMAIL  outgoing mail (due digests); default: printed on the console.
 EMAIL_TIMEOUT    seconds to wait for the mail server at each step before giving up (30).
 SITE_URL         address the pages are served at, for links in e-mails and QR codes (http://127.0.0.1:8000).
+SECURE_SSL_REDIRECT  with DEBUG off, "0" when the proxy in front already sends plain HTTP to HTTPS (default on).
+SECURE_HSTS_SECONDS  with DEBUG off, how long browsers keep to HTTPS (31536000, a year).
+LOG_LEVEL        the console log's level (WARNING).
+A whole-number variable that is not one stops start-up with a message naming it.
 """
 import os
 from pathlib import Path
@@ -188,7 +194,7 @@ SITE_URL = os.environ.get("SITE_URL", "http://127.0.0.1:8000").rstrip("/")
 # --- e-mail (due digests) ---------------------------------------------------------------------------
 EMAIL_BACKEND = os.environ.get("EMAIL_BACKEND") or "django.core.mail.backends.console.EmailBackend"
 EMAIL_HOST = os.environ.get("EMAIL_HOST", "localhost")
-EMAIL_PORT = int(os.environ.get("EMAIL_PORT", "25"))
+EMAIL_PORT = _env_count("EMAIL_PORT", 25, minimum=1)
 EMAIL_HOST_USER = os.environ.get("EMAIL_HOST_USER", "")
 EMAIL_HOST_PASSWORD = os.environ.get("EMAIL_HOST_PASSWORD", "")
 EMAIL_USE_TLS = _env_flag("EMAIL_USE_TLS", False)  # STARTTLS, usually on port 587
@@ -223,7 +229,7 @@ CELERY_WORKER_PREFETCH_MULTIPLIER = 1
 CELERY_WORKER_CANCEL_LONG_RUNNING_TASKS_ON_CONNECTION_LOSS = True
 CELERY_BROKER_CONNECTION_RETRY_ON_STARTUP = True
 # Must exceed the longest task plus its longest retry delay, or Redis hands a running task out twice.
-CELERY_BROKER_TRANSPORT_OPTIONS = {"visibility_timeout": int(os.environ.get("CELERY_VISIBILITY_TIMEOUT", "3600"))}
+CELERY_BROKER_TRANSPORT_OPTIONS = {"visibility_timeout": _env_count("CELERY_VISIBILITY_TIMEOUT", 3600, minimum=1)}
 # No task waits for ever on a server that stopped answering. The slowest legitimate task (tasks work one site
 # each) is a new site's first nights cache, median 1.6 s in benchmarks/bench_network.py, or a week's work-order
 # PDFs at about 60 ms an order (bench_workorder_pdf.py); 5 minutes is a wide margin. At the soft limit the task
@@ -260,7 +266,7 @@ if not DEBUG:
     SESSION_COOKIE_SECURE = True
     CSRF_COOKIE_SECURE = True
     SECURE_SSL_REDIRECT = _env_flag("SECURE_SSL_REDIRECT", True)
-    SECURE_HSTS_SECONDS = int(os.environ.get("SECURE_HSTS_SECONDS", "31536000"))
+    SECURE_HSTS_SECONDS = _env_count("SECURE_HSTS_SECONDS", 31536000)
     SECURE_HSTS_INCLUDE_SUBDOMAINS = True
     SECURE_HSTS_PRELOAD = True
     SECURE_PROXY_SSL_HEADER = ("HTTP_X_FORWARDED_PROTO", "https")

@@ -35,7 +35,7 @@ def api_token_create(site: Site, name: str, by=None, purpose: str = ApiToken.Pur
 def api_token_revoke(token: ApiToken) -> ApiToken:
     """Revoke a token from now on; a revoked token is refused and cannot be revived."""
     if token.revoked_at is not None:
-        when = f"{token.revoked_at:%Y-%m-%d %H:%M} UTC"
+        when = f"{token.revoked_at.astimezone(token.site.zone):%Y-%m-%d %H:%M} (at the site, {token.site.time_zone})"
         raise ValueError(f"token {token.pk} ({token.name}) was already revoked on {when}")
     token.revoked_at = timezone.now()
     token.save(update_fields=["revoked_at"])

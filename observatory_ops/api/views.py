@@ -52,7 +52,10 @@ def nights_post(request, site):
     except ValueError as exc:  # JSONDecodeError
         if "integer string conversion" in str(exc):  # Python's own limit on a whole number's digits
             return error(400, "the body holds a whole number thousands of digits long: no figure of a night is")
-        return error(400, f"the body is not valid JSON: {exc}")
+        sent_as = request.content_type or ""
+        hint = (f" (it was sent as {sent_as}: this endpoint takes JSON only; a CSV file goes to the site's import "
+                "page or the import_nights command)" if sent_as and "json" not in sent_as else "")
+        return error(400, f"the body is not valid JSON: {exc}{hint}")
     records = [payload] if isinstance(payload, dict) else payload
     if not isinstance(records, list):
         return error(400, "the body must be one night (a JSON object) or a list of nights")

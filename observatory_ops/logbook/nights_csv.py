@@ -324,7 +324,9 @@ def _number(raw: object, column: Column) -> float | int:
         value = math.inf
     if isinstance(value, float):
         if not math.isfinite(value):
-            raise RowError(name, f"{name} must be a finite number, not {_figure_shown(raw)}")
+            # JSON reads 1e400 as Infinity too: the sentence says both, the value itself being gone.
+            beyond = " (or a number too large to hold)" if math.isinf(value) and not isinstance(raw, str) else ""
+            raise RowError(name, f"{name} must be a finite number, not {_figure_shown(raw)}{beyond}")
         if whole:
             if not value.is_integer():  # a number all the same: shown as one
                 raise RowError(name, f"{name} must be a whole number, not {_figure_shown(raw)}")
