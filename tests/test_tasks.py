@@ -282,6 +282,7 @@ def test_ingest_of_a_bad_night_names_it_and_stores_nothing(db):
     result = logbook_tasks.nights_ingest.delay(site.pk, records).get()
     assert result["created"] == 0 and len(result["errors"]) == 1
     assert result["errors"][0]["index"] == 1 and result["errors"][0]["field"] == "open_hours"
+    assert result["errors"][0]["message"].startswith("open_hours cannot be above 24")  # the API's key and words
     assert NightUsage.objects.filter(site=site).count() == 60
 
 

@@ -22,6 +22,7 @@ def nights_ingest(site_id: int, records: list[dict], source: str = "api") -> dic
         "updated": report.updated,
         "unchanged": report.unchanged,
         "by_telescope": report.by_telescope,
-        "errors": [{"index": p[0], "field": getattr(p, "field", None), "reason": p[1]} for p in report.errors],
+        # As the API answers them (``api.views``): index, field, message.
+        "errors": [{"index": p[0], "field": getattr(p, "field", None), "message": p[1]} for p in report.errors],
         "summary": report.summary,
     }
