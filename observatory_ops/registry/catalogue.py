@@ -1059,9 +1059,24 @@ _EARLIER_BEFORE_ISOLATION = (
     _EARLIER_DOME_CLOSED,
 )
 
+#: Taking the observatory out of robotic and remote control, and nothing else: the first step of an order whose plans'
+#: steps would take it out of that control more than once (workorders.services._out_of_control_once).
+OUT_OF_CONTROL = "Take the observatory out of robotic and remote control."
+_CLOSE_ENCLOSURE = "Close the enclosure."
+_EARLIER_CLOSE_DOME = "Close the dome."
+#: The catalogue's steps that take the observatory out of robotic and remote control, in their present and earlier
+#: wordings, each with the steps it does besides, in its own words: an order that would say it more than once says
+#: ``OUT_OF_CONTROL`` first and those steps where each plan had its own (workorders.services._out_of_control_once).
+#: A step the site wrote in words of its own is the site's, and stays as it is.
+OUT_OF_CONTROL_AND: dict[str, tuple[str, ...]] = {
+    _OUT_OF_SERVICE: (_CLOSE_ENCLOSURE,),
+    _OUT_OF_SERVICE_PARKED: (_PARK,),
+    _EARLIER_OUT_OF_SERVICE: (_EARLIER_CLOSE_DOME,),
+    OUT_OF_CONTROL: (),
+}
 #: The steps that take the observatory out of robotic and remote control, in their present and earlier wordings: an
 #: order holding one hands it back at its very end (``HAND_BACK``, workorders.services).
-TAKES_OUT_OF_CONTROL: frozenset[str] = frozenset({_OUT_OF_SERVICE, _OUT_OF_SERVICE_PARKED, _EARLIER_OUT_OF_SERVICE})
+TAKES_OUT_OF_CONTROL: frozenset[str] = frozenset(OUT_OF_CONTROL_AND)
 #: The last step of an order that took the observatory out of robotic and remote control (``TAKES_OUT_OF_CONTROL``):
 #: written once, after every plan's test, by the order (workorders.services), not by its plans. The remote operators
 #: must know that the telescope can move again under their control (common practice, no published source).
@@ -1089,6 +1104,7 @@ RESTORE: frozenset[str] = frozenset(
 TELESCOPE_STEPS: frozenset[str] = frozenset({
     _OUT_OF_SERVICE, _PARK, _OUT_OF_SERVICE_PARKED, _COVER_CLOSED_IN_SERVICE,
     _EARLIER_OUT_OF_SERVICE, _EARLIER_DOME_CLOSED,  # as plans stored before a roll-off roof was served word them
+    OUT_OF_CONTROL, _CLOSE_ENCLOSURE, _EARLIER_CLOSE_DOME,  # what they say apart (OUT_OF_CONTROL_AND)
 })
 #: The restoring steps that put a subsystem or the telescope back in service: an order over several plans puts them
 #: after every other plan's restoring (its air or power restored and tested), whichever plan they come from

@@ -2,7 +2,7 @@
 from __future__ import annotations
 
 import datetime as dt
-from collections.abc import Sequence
+from collections.abc import Collection, Sequence
 from dataclasses import dataclass
 from typing import NamedTuple
 
@@ -518,11 +518,9 @@ def isolation_gaps(order: WorkOrder, points: list[IsolationPoint] | None = None,
     own_supply = {pk: s for pk, s in worked_on.items() if "electrical" in hazards[s.telescope_id]}
     moving = [pk for pk, found in hazards.items() if "moving_machinery" in found]
     if moving:
-        nearby = list(Subsystem.objects.in_service().filter(telescope_id__in=moving,
-                                                            kind__in=(*_SEPARATE_SUPPLY, catalogue.AIR_BRAKE))
-                      .select_related("telescope"))
-        own_supply.update({s.pk: s for s in nearby if s.kind in _SEPARATE_SUPPLY})
-        gaps += _brake_air_gaps([s for s in nearby if s.kind == catalogue.AIR_BRAKE], points, hazards)
+        nearby = Subsystem.objects.in_service().filter(telescope_id__in=moving, kind__in=_SEPARATE_SUPPLY)
+        own_supply.update({s.pk: s for s in nearby.select_related("telescope")})
+        gaps += _brake_air_gaps(brake_air_vented(hazards, [i.subsystem for i in items], points), hazards)
     for subsystem in sorted(own_supply.values(), key=lambda s: (s.telescope.name, s.name)):
         if any(p.subsystem_id == subsystem.pk for p in points):
             continue
@@ -538,22 +536,70 @@ def isolation_gaps(order: WorkOrder, points: list[IsolationPoint] | None = None,
     return gaps
 
 
-def _brake_air_gaps(air_brakes: list[Subsystem], points: list[IsolationPoint],
-                    hazards: dict[int, set[str]]) -> list[str]:
-    """For work with a moving telescope whose brakes are released by air (``air_brakes``, in service on the order's
-    telescopes with that hazard): a warning for each such telescope whose lockout locks no compressed-air point,
-    unless it was warned of already (its work's own air hazard). With the drives locked and the air on, its brakes stay
-    released and an unbalanced tube can swing; venting the air sets them, so the lockout needs the air's point."""
+@dataclass(frozen=True)
+class BrakeAir:
+    """One of an order's telescopes whose lockout vents the air of its air-released brakes (``brake_air_vented``)."""
+
+    telescope_id: int
+    brakes: tuple[Subsystem, ...]  # its air-released brakes in service (``catalogue.AIR_BRAKE``)
+    worked_on: tuple[Subsystem, ...]  # the order's own air brakes there, in service or not
+    moving: bool  # the work there has a moving telescope among its hazards
+    air_point: bool  # the lockout locks a compressed-air point there
+
+    @property
+    def telescope(self):
+        return (self.brakes or self.worked_on)[0].telescope
+
+
+def brake_air_vented(hazards: dict[int, Collection[str]], subsystems: Sequence[Subsystem],
+                     points: Sequence[IsolationPoint]) -> list[BrakeAir]:
+    """The one place that decides whose brake air an order's lockout vents: its telescopes (the keys of ``hazards``,
+    each with the hazards of the work there) with air-released brakes whose air it vents, each with those brakes, the
+    order's own among them (of ``subsystems``, the ones it works on), and whether the lockout locks a compressed-air
+    point there (of ``points``, those it locks). The order of the telescopes is not defined.
+
+    The lockout vents the brake air of a telescope where it locks an air point there: the air there releases the
+    brakes, whichever subsystem the work is on. Work on an air-released brake vents its air too, point or not, and with
+    it that of every air brake on its telescope, which share their supply; and so does work there with a moving
+    telescope among its hazards: with the drives locked and the air on, the brakes stay released and an unbalanced
+    tube can swing, so the air must be vented (``isolation_gaps`` warns to bleed it where no air point is registered).
+
+    What reads it: the step that brings the air back (``services.brake_air_back``) and the warning of a moving
+    telescope whose air point is missing (``isolation_gaps``)."""
+    air = {p.telescope_id for p in points if p.energy == IsolationPoint.Energy.AIR}
+    worked: dict[int, list[Subsystem]] = {}
+    for subsystem in subsystems:
+        if subsystem.kind == catalogue.AIR_BRAKE:
+            worked.setdefault(subsystem.telescope_id, []).append(subsystem)
+    moving = {pk for pk, found in hazards.items() if "moving_machinery" in found}
+    vented = {pk for pk in hazards if pk in air or pk in worked or pk in moving}
+    if not vented:
+        return []
+    brakes: dict[int, list[Subsystem]] = {}
+    for brake in (Subsystem.objects.in_service().filter(telescope_id__in=vented, kind=catalogue.AIR_BRAKE)
+                  .select_related("telescope").order_by("pk")):
+        brakes.setdefault(brake.telescope_id, []).append(brake)
+    return [
+        BrakeAir(pk, tuple(brakes.get(pk, ())), tuple(worked.get(pk, ())), pk in moving, pk in air)
+        for pk in vented if pk in brakes or pk in worked
+    ]
+
+
+def _brake_air_gaps(vented: list[BrakeAir], hazards: dict[int, set[str]]) -> list[str]:
+    """For work with a moving telescope whose brakes are released by air (``brake_air_vented``: the lockout vents their
+    air): a warning for each such telescope whose lockout locks no compressed-air point, unless it was warned of
+    already (its work's own air hazard). With the drives locked and the air on, its brakes stay released and an
+    unbalanced tube can swing; venting the air sets them, so the lockout needs the air's point."""
     gaps = []
-    for telescope in sorted({s.telescope for s in air_brakes}, key=lambda t: t.name):
-        if "pneumatic" in hazards[telescope.pk]:
-            continue  # warned above when no point answers it
-        if any(p.telescope_id == telescope.pk and p.energy == IsolationPoint.Energy.AIR for p in points):
+    for found in sorted(vented, key=lambda found: found.telescope.name):
+        if not (found.moving and found.brakes) or found.air_point:
             continue
+        if "pneumatic" in hazards[found.telescope_id]:
+            continue  # warned above when no point answers it
         gaps.append(
-            f"The lockout locks no compressed-air point of {telescope.name}, whose brakes are released by air: with "
-            "its drives locked and the air on, the brakes stay off and the tube can swing. Find, close and bleed the "
-            "brake supply before work, and have an engineer register its point for the whole telescope."
+            f"The lockout locks no compressed-air point of {found.telescope.name}, whose brakes are released by air: "
+            "with its drives locked and the air on, the brakes stay off and the tube can swing. Find, close and bleed "
+            "the brake supply before work, and have an engineer register its point for the whole telescope."
         )
     return gaps
 

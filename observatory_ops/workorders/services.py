@@ -29,9 +29,10 @@ from observatory_ops.planning.metrics import READING
 from observatory_ops.planning.models import ServicePlan, part_lines
 from observatory_ops.planning.services import site_recompute, site_today
 from observatory_ops.registry.catalogue import (
-    AIR_BRAKE,
     BRAKE_AIR_BACK,
     HAND_BACK,
+    OUT_OF_CONTROL,
+    OUT_OF_CONTROL_AND,
     OUT_OF_CONTROL_PARKED,
     RELEASE,
     RESTORES_BRAKE_AIR,
@@ -71,6 +72,7 @@ from .models import (
     part_quantity_too_many,
 )
 from .selectors import (
+    brake_air_vented,
     crew_name_of,
     hazards_missing,
     hazards_of,
@@ -197,30 +199,25 @@ def brake_air_back(subsystems: Sequence[Subsystem], hazards: Sequence[str], rest
     covering each axis is added unless every vented brake is one of the order's. An order made from plans drops
     those words and writes ``BRAKE_AIR_BACK`` once instead (``_steps_for``).
 
-    The lockout vents it where it locks an air point (one of a telescope's, or one of a subsystem the order works on:
-    ``selectors.isolation_points``) on a telescope with an air-released brake in service: the air there releases the
-    brakes, whichever subsystem the work is on. Work on an air-released brake vents its air too, air point registered
-    or not, and with it that of every air brake on its telescope, which share their supply; so does work with a moving
-    telescope that has air-released brakes (with the drives locked and the air on, an unbalanced tube can swing: the
-    order warns to bleed that supply where no point of it is registered, ``selectors.isolation_gaps``). The points
-    are those registered when the order is made, as its steps are."""
+    Whose brake air the lockout vents is decided in one place, ``selectors.brake_air_vented``, which the warning to
+    bleed a moving telescope's brake air reads too (``selectors.isolation_gaps``): here with the air points of the
+    order's telescopes (one of a telescope's, or one of a subsystem the order works on) registered when the order is
+    made, as its steps are, and the order's ``hazards`` for each of its telescopes: it is asked before the order
+    exists, and by the edit form, where nothing says which telescope's work a hazard is (the warning judges each
+    telescope by the hazards of the work there, ``selectors._hazards_by_telescope``)."""
     steps = {_unlabelled(step).strip() for step in restore}
     if not needs_isolation(hazards) or BRAKE_AIR_BACK in steps:
         return False
+    telescopes = {s.telescope_id for s in subsystems}
     air = IsolationPoint.objects.filter(
         Q(subsystem__isnull=True) | Q(subsystem__in=[s.pk for s in subsystems]),
-        telescope_id__in={s.telescope_id for s in subsystems}, energy=IsolationPoint.Energy.AIR,
+        telescope_id__in=telescopes, energy=IsolationPoint.Energy.AIR,
     )
-    worked_on = [s for s in subsystems if s.kind == AIR_BRAKE]
-    moving = {s.telescope_id for s in subsystems} if "moving_machinery" in hazards else set()
-    vented = Subsystem.objects.in_service().filter(
-        Q(telescope_id__in=air.values("telescope_id")) | Q(telescope_id__in={s.telescope_id for s in worked_on})
-        | Q(telescope_id__in=moving),
-        kind=AIR_BRAKE,
-    )
+    vented = brake_air_vented({pk: hazards for pk in telescopes}, subsystems, list(air))
     if not steps & RESTORES_BRAKE_AIR:
-        return bool(worked_on) or vented.exists()
-    return vented.exclude(pk__in=[s.pk for s in worked_on]).exists()
+        return bool(vented)
+    # Steps in a brake plan's words bring back the air of the order's own brakes only.
+    return any(brake not in found.worked_on for found in vented for brake in found.brakes)
 
 
 def brake_air_problem(subsystems: Sequence[Subsystem], hazards: Sequence[str], steps: Sequence[str]) -> str:
@@ -266,7 +263,8 @@ def _steps_for(plans: Sequence[ServicePlan], labels: dict[int, str], hazards: Se
     and, where a plan tags out what fails its inspection, that the tag stays (``catalogue.is_tag_out_step``). Where the
     lockout vents brake air (``brake_air_back``, or a brake plan brings its air back) the air comes back in one step
     for every axis right after the release (``catalogue.BRAKE_AIR_BACK``), in place of each brake plan's own; and an
-    order that took the observatory out of robotic and remote control hands it back at the very end (``_handed_back``).
+    order that took the observatory out of robotic and remote control hands it back at the very end (``_handed_back``),
+    having taken it out once, first where its plans would say so more than once (``_out_of_control_once``).
     """
     isolating = needs_isolation(hazards)
     powered, work, restoring, in_service = [], [], [], []
@@ -291,7 +289,7 @@ def _steps_for(plans: Sequence[ServicePlan], labels: dict[int, str], hazards: Se
     subsystems = list({p.subsystem_id: p.subsystem for p in plans}.values())
     restore = _shared_once(restoring + in_service, labels, several)
     return "\n".join(_handed_back(steps_in_groups(
-        hazards, _shared_once(powered, labels, several), _labelled(work, labels, several), restore,
+        hazards, _out_of_control_once(powered, labels, several), _labelled(work, labels, several), restore,
         release_step_for(subsystems, tagged_out), brake_air or brake_air_back(subsystems, hazards, restore),
     )))
 
@@ -306,6 +304,20 @@ def _handed_back(lines: list[str]) -> list[str]:
     control (``catalogue.TAKES_OUT_OF_CONTROL``, a plan label before it ignored) and none yet hands it back."""
     plain = {_unlabelled(line).strip() for line in lines}
     return [*lines, HAND_BACK] if plain & TAKES_OUT_OF_CONTROL and HAND_BACK not in plain else lines
+
+
+def _out_of_control_once(run: list[tuple[ServicePlan, str]], labels: dict[int, str], several: bool) -> list[str]:
+    """The steps under power (``_shared_once``), taking the observatory out of robotic and remote control once: where
+    they would say it more than once (plans in different words of the catalogue's, "... and close the enclosure" and
+    "... and park the telescope", or on different telescopes), ``catalogue.OUT_OF_CONTROL`` comes first, before any
+    plan's steps, and each plan keeps what its step did besides where it had it (``catalogue.OUT_OF_CONTROL_AND``),
+    parking or closing written once for the telescope. ``HAND_BACK`` stays the one step that returns it, at the end.
+    Only the catalogue's wordings are taken apart: a step the site wrote in words of its own stays as it was."""
+    lines = _shared_once(run, labels, several)
+    if sum(_unlabelled(line).strip() in TAKES_OUT_OF_CONTROL for line in lines) < 2:
+        return lines
+    apart = [(plan, rest) for plan, step in run for rest in OUT_OF_CONTROL_AND.get(step, (step,))]
+    return [OUT_OF_CONTROL, *_shared_once(apart, labels, several)]
 
 
 def _labelled(run: list[tuple[ServicePlan, str]], labels: dict[int, str], several: bool) -> list[str]:
