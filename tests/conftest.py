@@ -159,3 +159,9 @@ def administrator_in_admin(users, client):
     """The test client signed in as the administrator with staff status: deleting records, people and API tokens is
     theirs, not the engineer's."""
     return _in_admin(users, client, "administrator")
+
+
+def parts_as_planned(order) -> dict[int, float]:
+    """``parts_used`` for ``services.work_order_finish`` saying every planned part was used as planned: the service
+    takes no default (the finish form asks each count), so a test finishing an order with parts says so."""
+    return {use.pk: use.quantity_planned for use in order.part_uses.all()}

@@ -131,3 +131,15 @@ def test_the_summary_keeps_the_label_before_a_message_that_does_not_name_its_fie
 ])
 def test_names_field_knows_a_message_that_opens_with_its_field(message, label, named):
     assert names_field(message, label) is named
+
+
+def test_the_service_takes_no_count_as_planned_either(pads, order, users):  # noqa: F811
+    """Any caller, not the form only: a planned part whose count is not given is refused, changing nothing."""
+    from test_workorders import _all_readings, _confirmed
+
+    with pytest.raises(services.Refused, match=re.escape("Brake pad set used: say how many were used (0 if none)")):
+        services.work_order_finish(order, users["technician"], 1.0, "ok", _all_readings(order, 0.6),
+                                   **_confirmed(order))
+    _nothing_stored(order)
+    pads.refresh_from_db()
+    assert pads.quantity_on_hand == 3

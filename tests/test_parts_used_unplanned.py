@@ -16,6 +16,7 @@ from test_workorders import _all_readings, _confirmed, drive, order  # noqa: F40
 from observatory_ops.registry.models import Site
 from observatory_ops.workorders import services
 from observatory_ops.workorders.models import Part, PartUse, State, WorkOrder
+from tests.conftest import parts_as_planned
 
 pytestmark = pytest.mark.django_db
 
@@ -66,7 +67,7 @@ def test_the_service_refuses_a_part_already_on_the_order_another_sites_or_given_
     ):
         with pytest.raises(services.Refused, match=message):
             services.work_order_finish(order, users["technician"], 1.0, "ok", _all_readings(order, 0.6),
-                                       parts_added=added, **_confirmed(order))
+                                       parts_as_planned(order), parts_added=added, **_confirmed(order))
         _nothing_stored(order)
     assert not PartUse.objects.filter(part__in=[fan, foreign]).exists()
 

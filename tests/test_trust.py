@@ -12,6 +12,7 @@ from django.core.management import call_command
 from django.core.management.base import CommandError
 
 from observatory_ops.access.login import MAX_FAILURES
+from tests.conftest import parts_as_planned
 
 
 @pytest.fixture(autouse=True)
@@ -162,7 +163,7 @@ def test_a_completion_interrupted_part_way_leaves_the_data_as_it_was(site, teles
 
     monkeypatch.setattr(services, "site_recompute", broken_recompute)
     with pytest.raises(RuntimeError):
-        services.work_order_finish(order, users["technician"], 1.5, "done", {},
+        services.work_order_finish(order, users["technician"], 1.5, "done", {}, parts_as_planned(order),
                                    confirmed_unticked=[line.text for line in selectors.unticked_lines(order)],
                                    isolation_answer="isolated")
     assert _snapshot() == before

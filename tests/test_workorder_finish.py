@@ -34,6 +34,7 @@ from observatory_ops.registry.models import Subsystem
 from observatory_ops.workorders import services
 from observatory_ops.workorders.cautions import DANGER_TO_LIFE, SEVERITY_LABELS, signal_word
 from observatory_ops.workorders.models import Part, State, WorkOrder
+from tests.conftest import parts_as_planned
 
 
 def _started(work_order, users, issued_days_ago: int = 0) -> WorkOrder:
@@ -162,7 +163,7 @@ def test_a_future_day_or_one_before_the_order_was_issued_is_refused_naming_the_f
     # The service refuses it as well, for any caller that is not the form.
     with pytest.raises(services.Refused, match=re.escape(f"work done on: {expected[len('Work done on: '):]}")):
         services.work_order_finish(order, users["technician"], 1.0, "ok", _all_readings(order, 0.6),
-                                   **_confirmed(order), work_done_on=day)
+                                   parts_as_planned(order), **_confirmed(order), work_done_on=day)
     _nothing_stored(order)
 
 

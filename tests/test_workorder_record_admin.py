@@ -13,6 +13,7 @@ from test_workorders import _confirmed, drive, order  # noqa: F401  (fixtures, u
 from observatory_ops.logbook.models import Reading
 from observatory_ops.workorders import services
 from observatory_ops.workorders.models import Part, PartUse, RequiredReading, State, WorkOrder, WorkOrderItem
+from tests.conftest import parts_as_planned
 
 RECORD_NOTE = (
     "its record stays as it was, its findings, hours, readings and parts used included. Finished work orders are part "
@@ -38,7 +39,8 @@ def with_part(order):  # noqa: F811
 def _finish(work_order, users) -> WorkOrder:
     services.work_order_finish(
         work_order, users["technician"], 1.5, "Belt worn, replaced.",
-        {r.pk: 0.6 for r in work_order.required_readings.all()}, **_confirmed(work_order),
+        {r.pk: 0.6 for r in work_order.required_readings.all()}, parts_as_planned(work_order),
+        **_confirmed(work_order),
     )
     return _fresh(work_order)
 

@@ -16,6 +16,7 @@ from observatory_ops.registry.catalogue import KINDS
 from observatory_ops.registry.services import subsystem_create
 from observatory_ops.workorders import selectors, services
 from observatory_ops.workorders.models import IsolationPoint, Part, State, WorkOrder
+from tests.conftest import parts_as_planned
 
 
 @pytest.fixture
@@ -149,7 +150,7 @@ def test_parts_used_come_out_of_stock_and_low_stock_shows_on_the_dashboard(order
     services.work_order_move(order, "issue", users["engineer"])
     services.work_order_move(order, "start", users["technician"])
     services.work_order_finish(order, users["technician"], 1.0, "Isolation ticked on the paper.",
-                               _all_readings(order, 0.6), **_confirmed(order))
+                               _all_readings(order, 0.6), parts_as_planned(order), **_confirmed(order))
     part.refresh_from_db()
     assert part.quantity_on_hand == 1 and part.low
     client.force_login(users["viewer"])

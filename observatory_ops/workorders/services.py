@@ -688,10 +688,11 @@ def work_order_finish(
     recovery.
 
     ``readings`` maps RequiredReading id -> value (all are required; a value beyond its limit is recorded as
-    measured, and the record flags it); ``parts_used`` maps PartUse id -> quantity used (default: as
-    planned). A part used beyond what the parts register holds is recorded as used all the same (the work was
-    done): the register is brought to zero, never below, and the difference kept on the order's part line
-    (``PartUse.quantity_short``) for the site engineer to count the stock (``part_count_record``).
+    measured, and the record flags it); ``parts_used`` maps PartUse id -> quantity used, one for every part
+    the order plans (0 for a part not used: never the plan by default). A part used beyond what the parts register
+    holds is recorded as used all the same (the work was done): the register is brought to zero, never below, and
+    the difference kept on the order's part line (``PartUse.quantity_short``) for the site engineer to count the
+    stock (``part_count_record``).
     ``parts_added``: parts of the site's register used though the order did not plan them, with how many; each
     gets a line of its own (planned 0) and is taken from the register as the planned ones are.
 
@@ -711,8 +712,8 @@ def work_order_finish(
     (visitors, contractors). The order keeps the accounts (``crew_members``, ``crew_by_account``) and the names as
     printed on the paper's crew lines, the accounts' first (``crew``).
 
-    Refused with a reason, changing nothing, when a reading is missing, a quantity of a part used is not a number
-    from 0 to ``PART_QUANTITY_MAX``, the day the work was done is out of bounds, an unticked line or a hazard the
+    Refused with a reason, changing nothing, when a reading is missing, a quantity of a part used is missing or not a
+    number from 0 to ``PART_QUANTITY_MAX``, the day the work was done is out of bounds, an unticked line or a hazard the
     order lacks was not confirmed, an unticked isolation has no answer or no findings, a crew name is too long, a
     person chosen on the crew cannot be (``crew_member_problem``), or the order is no longer underway
     (``AlreadyFinished`` when it was finished meanwhile).
@@ -737,7 +738,9 @@ def work_order_finish(
     parts_used = parts_used or {}
     uses = list(order.part_uses.select_related("part"))
     for use in uses:
-        quantity = parts_used.get(use.pk, use.quantity_planned)
+        if use.pk not in parts_used:  # never the plan by default: the finish form asks each count (0 if none)
+            raise Refused(f"{use.part.name} used: say how many were used (0 if none)")
+        quantity = parts_used[use.pk]
         if not isinstance(quantity, int | float) or not math.isfinite(quantity) or quantity < 0:
             raise Refused(f"{use.part.name} used: enter a number of 0 or more, not {quantity!r}")
         if quantity > PART_QUANTITY_MAX:
@@ -849,7 +852,7 @@ def work_order_finish(
             uses.append(added)
             parts_used[added.pk] = quantity
         for use in uses:
-            quantity = parts_used.get(use.pk, use.quantity_planned)
+            quantity = parts_used[use.pk]
             part = Part.objects.select_for_update().get(pk=use.part_id)
             # The register is short when the work used more than it held: the work was done, so it is recorded,
             # the register goes to zero (a stock is never negative) and the difference waits for a count. Rounded,
