@@ -62,6 +62,22 @@ class DueFilter(django_filters.FilterSet):
             field.queryset = field.queryset.filter(site_id=int(site))
             self.form.fields["telescope"].queryset = field.queryset
 
+    def unapplied(self) -> list[str]:
+        """A sentence for each filter that cannot be applied (an unknown site, a status that does not exist, another
+        site's telescope), naming what was asked for as the page names it."""
+        said = []
+        for field, problems in self.errors.items():
+            value = self.data.get(field)
+            label = self.form.fields[field].label
+            other = (Telescope.objects.select_related("site").filter(pk=int(value)).first()
+                     if field == "telescope" and str(value).isdigit() else None)
+            site = self.form.cleaned_data.get("site")
+            if other is not None and site is not None:
+                said.append(f"{label} {other.site_label} not applied: it is not at {site.name}, the site chosen")
+            else:
+                said.append(f"{label} {value!r} not applied: {' '.join(problems)}")
+        return said
+
     def chosen_site(self) -> Site | None:
         """The site the filters name: the site chosen, or the chosen telescope's; None for all sites. A filter that
         is not valid names none (the others still count)."""

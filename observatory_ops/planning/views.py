@@ -23,10 +23,7 @@ def due_list(request):
     sites_bring_up_to_date([chosen] if chosen else None)
     # A filter that cannot be applied (an unknown site, a status that does not exist) is said so: on the
     # page the rest is shown, a download is refused rather than made without it.
-    unapplied = [
-        f"{filtered.form.fields[field].label} {request.GET.get(field)!r} not applied: {' '.join(problems)}"
-        for field, problems in filtered.errors.items()
-    ]
+    unapplied = filtered.unapplied()
     if request.GET.get("export") == "csv":
         if unapplied:
             return HttpResponseBadRequest("; ".join(unapplied), content_type="text/plain; charset=utf-8")
