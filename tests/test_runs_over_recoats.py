@@ -1,7 +1,10 @@
 """A booked observing run falling on nights of a recoat already planned: the recoat planner keeps a new recoat off
 booked nights, but a run booked (or moved) afterwards over a planned recoat's days was flagged nowhere. It is now named
 on the dashboard's "Downtime planned", on the mirror's pages and in the admin when the run is saved. And the mirror
-page's "Estimate now" says why it has none. The site, runs and people are invented."""
+page's "Estimate now" says why it has none. Then a tablet review of the mirror pages (the end of this file): the
+recoat in hand said on the planner's first visit, the no-estimate words only where a recoat line exists and with what
+to do, the run-over-recoat sentences without repeated dates, the planner's booked runs each once by date, and the
+measurement message when there is no fit yet. The site, runs and people are invented."""
 from __future__ import annotations
 
 import datetime as dt
@@ -139,13 +142,13 @@ def test_the_wording_names_the_run_its_dates_and_the_nights_blocked_or_not(recoa
     spectra, fill_in = services.runs_over_recoats(recoat.mirror.subsystem.telescope.site, TODAY)
     assert spectra.text == (
         "Booked run 'Spectra campaign' (03 Jul 2026 to 06 Jul 2026) falls on 2 nights, 05 Jul 2026 to 06 Jul 2026, of "
-        "this recoat: its nights are blocked to downtime, so move the run or re-plan the recoat."
+        "this recoat: the run is marked as blocking downtime on its nights, so move the run or re-plan the recoat."
     )
-    # services.BOOKED_WEIGHT, the planner's weight of a booked night that is not blocked (a setting of our own).
+    # A run added after the recoat was planned was never priced by the planner: it simply loses the nights.
     assert fill_in.text == (
         "Booked run 'Survey fill-in' (16 Jul 2026 to 20 Jul 2026) falls on 1 night, 16 Jul 2026, of this recoat: the "
-        "run is not blocked, so it loses those nights (the recoat planner weighs each 5 times an unbooked night); "
-        "move the run or re-plan the recoat, unless losing them is accepted."
+        "run is not marked as blocking downtime, so it loses those nights; move the run or re-plan the recoat, unless "
+        "losing them is accepted."
     )
 
 
@@ -188,11 +191,12 @@ def test_saving_a_run_over_a_planned_recoat_in_the_admin_warns_and_saves(recoat,
     }, follow=True)
     run = BookedRun.objects.get(title="Comet watch")  # saved all the same
     warnings = [str(m) for m in response.context["messages"] if m.level_tag == "warning"]
+    # Wholly inside the recoat, so its dates are said once; the subsystem named as its own __str__ names it.
     assert warnings == [
-        "Booked run 'Comet watch' (10 Jul 2026 to 11 Jul 2026) falls on 2 nights, 10 Jul 2026 to 11 Jul 2026, of the "
-        f"recoat of T1 Primary planned 05 Jul 2026 to 16 Jul 2026 with work orders {numbers}: its nights are blocked "
-        "to downtime, so move the run or re-plan the recoat. The run is saved; to re-plan the recoat, withdraw its "
-        "work orders (which stops it) and plan it again on the mirror's recoat page."
+        "Booked run 'Comet watch' (10 Jul 2026 to 11 Jul 2026, 2 nights) falls wholly within the recoat of T1: Primary "
+        f"planned 05 Jul 2026 to 16 Jul 2026 with work orders {numbers}: the run is marked as blocking downtime on its "
+        "nights, so move the run or re-plan the recoat. The run is saved; to re-plan the recoat, withdraw its work "
+        "orders (which stops it) and plan it again on the mirror's recoat page."
     ]
     assert len(numbers.split(", ")) == 4  # removal, strip and coat, reinstall, realignment
     # Moved off the recoat: saved without a word of it.
@@ -212,14 +216,15 @@ def _estimate_panel(client, mirror) -> str:
     return page[page.index("Estimate now"):page.index("Recoat line</div>")]
 
 
-def test_no_estimate_before_any_measurement_says_why_and_names_the_figure_the_recoat_line_counts(mirror, users,
-                                                                                                 client):
+def test_no_estimate_before_any_measurement_says_why_and_names_the_figure_the_recoat_line_uses(mirror, users,
+                                                                                               client):
     state = services.mirror_forecast(mirror, TODAY)
     fresh = reflectance_text(state.fresh_band)
     assert services.no_estimate_text(state) == (
         f"No estimate: no band reflectance measured since the coating of {COATED:%d %b %Y} (no fit yet: need at least "
-        "3 readings to fit a decline with uncertainties; got 0). Until a decline is fitted, a recoat-line trigger (the "
-        f"subsystem page) counts the computed fresh value, {fresh}."
+        "3 readings to fit a decline with uncertainties; got 0). Until a decline is fitted, the recoat-line trigger "
+        f"(the subsystem page) uses the computed fresh value, {fresh}. Log a band reflectance measurement after some "
+        "observing nights; take each on a different night from the last, with observing (dust exposure) between them."
     )
     client.force_login(users["viewer"])
     panel = _estimate_panel(client, mirror)
@@ -237,8 +242,10 @@ def test_no_estimate_with_too_few_measurements_names_the_last_one(mirror, users,
     text = services.no_estimate_text(services.mirror_forecast(mirror, TODAY))
     assert text == (
         f"No estimate: 2 band measurements since the coating of {COATED:%d %b %Y} (no fit yet: need at least 3 "
-        "readings to fit a decline with uncertainties; got 2). Until a decline is fitted, a recoat-line trigger (the "
-        f"subsystem page) counts the last measurement, 0.9000 on {COATED + dt.timedelta(days=40):%d %b %Y}."
+        "readings to fit a decline with uncertainties; got 2). Until a decline is fitted, the recoat-line trigger (the "
+        f"subsystem page) uses the last measurement, 0.9000 on {COATED + dt.timedelta(days=40):%d %b %Y}. Log a band "
+        "reflectance measurement after some observing nights; take each on a different night from the last, with "
+        "observing (dust exposure) between them."
     )
 
 
@@ -255,3 +262,149 @@ def test_an_estimate_needs_no_words_and_no_coating_is_said(mirror, users, telesc
                                  diameter_mm=150, thickness_mm=25, material="borosilicate")
     assert services.no_estimate_text(services.mirror_forecast(bare, TODAY)).startswith(
         "No estimate: no coating recorded, so there is no fresh value")
+
+
+# --- the tablet review of the mirror pages ---------------------------------------------------------------------------
+
+
+def test_the_planner_names_the_recoat_in_hand_and_the_runs_over_it_on_its_first_visit(recoat, runs, users, client):
+    """Before "Find windows" is sent (no query string), as after: the notice and each run's caution."""
+    client.force_login(users["viewer"])
+    mirror = recoat.mirror
+    expected = [o.text for o in services.runs_over_recoats(mirror.subsystem.telescope.site, TODAY)]
+    first = client.get(f"/mirrors/{mirror.pk}/recoat/").content.decode()
+    assert 'id="recoat-in-hand"' in first and "Cheapest windows" not in first
+    assert _cautions(first[first.index('id="recoat-in-hand"'):]) == expected and len(expected) == 2
+    assert "the windows below are for reading only" not in first  # none listed yet
+    sent = client.get(f"/mirrors/{mirror.pk}/recoat/?start=2026-06-15&horizon_days=40").content.decode()
+    assert "the windows below are for reading only" in sent and _cautions(sent) == expected
+
+
+def test_the_planners_first_visit_says_no_recoat_in_hand_when_there_is_none(mirror, users, client):
+    client.force_login(users["viewer"])
+    page = client.get(f"/mirrors/{mirror.pk}/recoat/").content.decode()
+    assert 'id="recoat-in-hand"' not in page and _cautions(page) == []
+
+
+def _coated_secondary(telescope) -> Mirror:
+    """A secondary registered by hand: no service plan, so no recoat-line trigger."""
+    secondary = Subsystem.objects.create(telescope=telescope, kind="secondary_mirror", name="Secondary")
+    m = Mirror.objects.create(subsystem=secondary, diameter_mm=150, thickness_mm=25, material="borosilicate")
+    CoatingEvent.objects.create(mirror=m, coated_on=COATED, metal="al")
+    return m
+
+
+def test_no_estimate_names_a_recoat_line_trigger_only_where_the_mirror_has_one(mirror, telescope,
+                                                                                django_assert_num_queries):
+    state = services.mirror_forecast(mirror, TODAY)
+    with django_assert_num_queries(1):  # whether the subsystem has an active plan with a recoat-line trigger
+        text = services.no_estimate_text(state)
+    assert "the recoat-line trigger (the subsystem page) uses the computed fresh value" in text
+    assert " counts " not in text
+    secondary = services.no_estimate_text(services.mirror_forecast(_coated_secondary(telescope), TODAY))
+    assert secondary.startswith("No estimate: no band reflectance measured since the coating")
+    assert "recoat-line" not in secondary and "trigger" not in secondary
+    # A plan switched off watches nothing either.
+    mirror.subsystem.plans.update(active=False)
+    assert "recoat-line" not in services.no_estimate_text(services.mirror_forecast(mirror, TODAY))
+
+
+def test_no_estimate_says_what_to_measure_next_in_plain_words(mirror, users):
+    text = services.no_estimate_text(services.mirror_forecast(mirror, TODAY))
+    assert text.endswith("Log a band reflectance measurement after some observing nights; take each on a different "
+                         "night from the last, with observing (dust exposure) between them.")
+    # Three measured on one day: enough of them, but all at one exposure (calc.reflectance's "at least two different
+    # exposures"), said as nights with observing between them.
+    for value in (0.905, 0.904, 0.906):
+        ReflectanceMeasurement.objects.create(mirror=mirror, measured_on=TODAY - dt.timedelta(days=1), value=value,
+                                              taken_by=users["technician"])
+    state = services.mirror_forecast(mirror, TODAY)
+    assert state.fit_note == "no fit yet: the readings need at least two different exposures"
+    assert services.no_estimate_text(state).endswith(
+        "The measurements so far were all taken at the same dust exposure: on one night, or with no observing logged "
+        "between them. Log the next one on a later night, after some observing nights since the last."
+    )
+
+
+def test_a_run_wholly_within_the_recoat_says_its_dates_once(recoat):
+    site = recoat.mirror.subsystem.telescope.site
+    BookedRun.objects.create(site=site, title="Occultation", starts_on=dt.date(2026, 7, 8),
+                             ends_on=dt.date(2026, 7, 12))
+    (over,) = services.runs_over_recoats(site, TODAY)
+    assert over.text == (
+        "Booked run 'Occultation' (08 Jul 2026 to 12 Jul 2026, 5 nights) falls wholly within this recoat: the run is "
+        "marked as blocking downtime on its nights, so move the run or re-plan the recoat."
+    )
+    # Part of it already past: the nights still to come are not the run's dates, so they are said.
+    (later,) = services.runs_over_recoats(site, dt.date(2026, 7, 10))
+    assert later.text.startswith(
+        "Booked run 'Occultation' (08 Jul 2026 to 12 Jul 2026) falls on 3 nights, 10 Jul 2026 to 12 Jul 2026, of this "
+        "recoat:"
+    )
+
+
+def test_a_one_night_run_is_dated_once_and_an_unblocked_one_loses_its_nights(recoat):
+    site = recoat.mirror.subsystem.telescope.site
+    BookedRun.objects.create(site=site, title="Transit", starts_on=dt.date(2026, 7, 9), ends_on=dt.date(2026, 7, 9),
+                             blocked=False)
+    (over,) = services.runs_over_recoats(site, TODAY)
+    assert over.text == (
+        "Booked run 'Transit' (09 Jul 2026) falls wholly within this recoat: the run is not marked as blocking "
+        "downtime, so it loses those nights; move the run or re-plan the recoat, unless losing them is accepted."
+    )
+    assert "to 09 Jul 2026" not in over.text and "weighs" not in over.text and "5 times" not in over.text
+
+
+def test_the_admin_warning_names_the_subsystem_as_the_site_pages_do(recoat, runs):
+    subsystem = recoat.mirror.subsystem
+    spectra = services.runs_over_recoats(subsystem.telescope.site, TODAY)[0]
+    assert str(subsystem) == "T1: Primary"  # registry.models.Subsystem.__str__, the pages' name
+    assert f"of the recoat of {subsystem} planned 05 Jul 2026 to 16 Jul 2026 with work orders " in spectra.admin_text
+
+
+def test_the_planner_lists_each_booked_run_once_by_its_first_night(mirror, users, client):
+    site = mirror.subsystem.telescope.site
+    made = [BookedRun.objects.create(site=site, title=title, starts_on=first, ends_on=last) for title, first, last in (
+        ("Alpha survey", dt.date(2026, 7, 1), dt.date(2026, 7, 1)),
+        ("Zeta campaign", dt.date(2026, 6, 20), dt.date(2026, 6, 22)),
+        ("Zeta campaign", dt.date(2026, 6, 25), dt.date(2026, 6, 27)),
+        ("Beyond the horizon", dt.date(2026, 9, 1), dt.date(2026, 9, 3)),
+    )]
+    found = services.recoat_windows(mirror, TODAY, 40, list(RECOAT_PHASES))
+    assert found["booked_runs"] == [made[1], made[2], made[0]]  # by start date; the two of one title apart
+    client.force_login(users["viewer"])
+    page = client.get(f"/mirrors/{mirror.pk}/recoat/?start=2026-06-15&horizon_days=40").content.decode()
+    listed = re.search(r'<p id="booked-runs">(.*?)</p>', page).group(1)
+    assert re.sub(r"</?strong>", "", listed) == (
+        "Booked observing runs: Zeta campaign (20 Jun to 22 Jun 2026); Zeta campaign (25 Jun to 27 Jun 2026); "
+        "Alpha survey (01 Jul 2026)"
+    )
+
+
+def _logged(client, mirror, day: dt.date, value: str) -> str:
+    from django.contrib.messages import get_messages
+
+    response = client.post(f"/mirrors/{mirror.pk}/measurements/new/", {"measured_on": day.isoformat(), "value": value})
+    assert response.status_code == 302
+    return [str(m) for m in get_messages(response.wsgi_request)][-1]  # the earlier ones wait for a page to show them
+
+
+def test_logging_a_measurement_says_why_there_is_no_fit_yet_until_there_is_one(mirror, users, client):
+    client.force_login(users["technician"])
+    first = _logged(client, mirror, COATED + dt.timedelta(days=10), "0.905")
+    assert first == "Measurement logged. " + services.no_estimate_text(services.mirror_forecast(mirror, TODAY))
+    assert first.startswith(
+        f"Measurement logged. No estimate: 1 band measurement since the coating of {COATED:%d %b %Y} (no fit yet: need "
+        "at least 3 readings to fit a decline with uncertainties; got 1)."
+    )
+    assert "the decline fit is updated" not in first
+    second = _logged(client, mirror, COATED + dt.timedelta(days=30), "0.902")
+    assert second.startswith("Measurement logged. No estimate")
+    assert _logged(client, mirror, COATED + dt.timedelta(days=50), "0.899") == (
+        "Measurement logged; the decline fit is updated."
+    )
+    # One dated before the coating is kept but never fitted: the decline runs from the coating.
+    assert _logged(client, mirror, COATED - dt.timedelta(days=5), "0.86") == (
+        f"Measurement logged. It is listed below but not fitted: it predates the coating of {COATED:%d %b %Y}, and the "
+        "decline is fitted from that coating on."
+    )

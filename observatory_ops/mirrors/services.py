@@ -374,9 +374,38 @@ def reflectance_now(state: MirrorForecast) -> ReflectanceNow:
     )
 
 
+#: What to do next for each reason ``calc.reflectance.fit_decline`` gives for no fit (the start of its message, as
+#: ``MirrorForecast.fit_note`` quotes it), in plain words; ``_NEXT_MEASUREMENT`` for any other.
+_NEXT_MEASUREMENT = ("Log a band reflectance measurement after some observing nights; take each on a different night "
+                     "from the last, with observing (dust exposure) between them.")
+_FIT_ADVICE = (
+    ("the readings need at least two different exposures",
+     "The measurements so far were all taken at the same dust exposure: on one night, or with no observing logged "
+     "between them. Log the next one on a later night, after some observing nights since the last."),
+    ("the readings cannot separate the cleaning recovery",
+     "The measurements cannot yet tell what a cleaning recovers from the fresh reflectance: log them on different "
+     "nights with observing (dust exposure) between them, and at the next cleaning one just before it and one soon "
+     "after."),
+    ("the fitted decline rate is zero",
+     "The measurements show no decline yet: log another after more observing nights."),
+)
+
+
+def _fit_advice(fit_note: str) -> str:
+    """What to measure next so the decline can be fitted, for the reason ``fit_note`` gives for no fit."""
+    reason = fit_note.removeprefix("no fit yet: ")
+    return next((advice for start, advice in _FIT_ADVICE if reason.startswith(start)), _NEXT_MEASUREMENT)
+
+
+def _has_recoat_line(subsystem: Subsystem) -> bool:
+    """The subsystem has an active plan with a recoat-line trigger (one query)."""
+    return ServicePlan.objects.filter(subsystem=subsystem, active=True, triggers__metric=metrics.RECOAT_LINE).exists()
+
+
 def no_estimate_text(state: MirrorForecast) -> str:
-    """Why the mirror page has no estimate now, and what a recoat-line trigger counts meanwhile
-    (``reflectance_now``, the subsystem page's figure); "" when there is an estimate (a fitted decline)."""
+    """Why the mirror page has no estimate now, what the mirror's recoat-line trigger uses meanwhile when it has one
+    (``reflectance_now``, the subsystem page's figure), and what to measure next; "" when there is an estimate (a
+    fitted decline). At most one query (``_has_recoat_line``)."""
     if state.current is not None:
         return ""
     if state.coated_on is None:
@@ -385,13 +414,14 @@ def no_estimate_text(state: MirrorForecast) -> str:
     meanwhile = reflectance_now(state)
     if not state.points:
         measured = f"no band reflectance measured since the coating of {state.coated_on:%d %b %Y}"
-        counted = f"the computed fresh value, {reflectance_text(meanwhile.now)}"
+        used = f"the computed fresh value, {reflectance_text(meanwhile.now)}"
     else:
         n = len(state.points)
         measured = f"{n} band measurement{'s' if n != 1 else ''} since the coating of {state.coated_on:%d %b %Y}"
-        counted = f"the last measurement, {reflectance_text(meanwhile.now)} on {state.points[-1][0]:%d %b %Y}"
-    return (f"No estimate: {measured} ({state.fit_note}). Until a decline is fitted, a recoat-line trigger "
-            f"(the subsystem page) counts {counted}.")
+        used = f"the last measurement, {reflectance_text(meanwhile.now)} on {state.points[-1][0]:%d %b %Y}"
+    trigger = (f" Until a decline is fitted, the recoat-line trigger (the subsystem page) uses {used}."
+               if _has_recoat_line(state.mirror.subsystem) else "")
+    return f"No estimate: {measured} ({state.fit_note}).{trigger} {_fit_advice(state.fit_note)}"
 
 
 def _train_mirror(state: MirrorForecast) -> TrainMirror:
@@ -629,13 +659,16 @@ class RunOverRecoat:
 
     def _clash(self, recoat: str) -> str:
         run, nights = self.run, f"{self.nights} night{'s' if self.nights != 1 else ''}"
-        said = (f"Booked run '{run.title}' ({run.starts_on:%d %b %Y} to {run.ends_on:%d %b %Y}) falls on {nights}, "
-                f"{_days_text(self.first, self.last)}, of {recoat}")
+        booked = f"Booked run '{run.title}' ({_days_text(run.starts_on, run.ends_on)}"
+        if (self.first, self.last) == (run.starts_on, run.ends_on):  # every night of the run: its dates say which
+            said = f"{booked}{f', {nights}' if self.nights > 1 else ''}) falls wholly within {recoat}"
+        else:
+            said = f"{booked}) falls on {nights}, {_days_text(self.first, self.last)}, of {recoat}"
         if run.blocked:
-            return f"{said}: its nights are blocked to downtime, so move the run or re-plan the recoat."
-        return (f"{said}: the run is not blocked, so it loses those nights (the recoat planner weighs each "
-                f"{BOOKED_WEIGHT:g} times an unbooked night); move the run or re-plan the recoat, unless losing them "
-                "is accepted.")
+            return (f"{said}: the run is marked as blocking downtime on its nights, so move the run or re-plan the "
+                    "recoat.")
+        return (f"{said}: the run is not marked as blocking downtime, so it loses those nights; move the run or "
+                "re-plan the recoat, unless losing them is accepted.")
 
     @property
     def text(self) -> str:
@@ -644,12 +677,12 @@ class RunOverRecoat:
 
     @property
     def admin_text(self) -> str:
-        """The admin's warning on saving the run: the recoat and its work orders named (their states too)."""
-        subsystem = self.plan.mirror.subsystem
+        """The admin's warning on saving the run: the recoat named as the site's pages name its subsystem, with its
+        work orders (their states too)."""
         orders = ", ".join(f"{o.number} ({o.get_state_display().lower()})"
                            for o in sorted(self.plan.work_orders.all(), key=lambda o: o.pk))
-        recoat = (f"the recoat of {subsystem.telescope.name} {subsystem.name} planned "
-                  f"{self.plan.starts_on:%d %b %Y} to {self.plan.ends_on:%d %b %Y} with work orders {orders}")
+        recoat = (f"the recoat of {self.plan.mirror.subsystem} planned "
+                  f"{_days_text(self.plan.starts_on, self.plan.ends_on)} with work orders {orders}")
         return (f"{self._clash(recoat)} The run is saved; to re-plan the recoat, withdraw its work orders (which stops "
                 "it) and plan it again on the mirror's recoat page.")
 
@@ -709,7 +742,8 @@ def recoat_windows(mirror: Mirror, start: dt.date, horizon_days: int, phases: li
     the night's cost relative to the costliest night in the horizon (0..1); ``chosen`` marks the nights of the
     cheapest window; ``day_off`` a listed crew day off (``day_off_note`` says why) and ``crew_works`` a crew
     working weekday. ``days_off`` are the site's crew days off in the horizon, date -> note; ``crew_rest_days``
-    the weekdays the crew does not work, in short words ("" when it works every day).
+    the weekdays the crew does not work, in short words ("" when it works every day). ``booked_runs`` are the site's
+    runs on nights of the horizon, each once, by their first night (two of one title stay apart).
     """
     days = windows.total_days(phases)
     site = mirror.subsystem.telescope.site
@@ -728,10 +762,8 @@ def recoat_windows(mirror: Mirror, start: dt.date, horizon_days: int, phases: li
         for c in costs
     ]
     lead = (calendar[0]["night"].weekday()) if calendar else 0  # Monday-first weeks
-    booked = sorted({(c.booked, c.night) for c in costs if c.booked})
-    runs = {}
-    for title, night in booked:
-        runs.setdefault(title, [night, night])[1] = night
+    booked_runs = list(BookedRun.objects.filter(site=site, starts_on__lte=costs[-1].night, ends_on__gte=costs[0].night)
+                       .order_by("starts_on", "pk"))
     due = recoat_due(mirror)
     committed = _recoats_planned_at(site, mirror, start, start + dt.timedelta(days=horizon_days))
     for window in found:  # a window starting after the recoat plan is due: the due list shows it overdue by then
@@ -739,8 +771,7 @@ def recoat_windows(mirror: Mirror, start: dt.date, horizon_days: int, phases: li
         end = window["start"] + dt.timedelta(days=window["nights"] - 1)
         window["crew_committed"] = [p for p in committed if p.starts_on <= end and window["start"] <= p.ends_on]
     return {"windows": found, "days": days, "calendar": calendar, "lead_blanks": range(lead), "due": due,
-            "committed": committed, "in_hand": recoat_in_hand(mirror),
-            "booked_runs": [(title, span[0], span[1]) for title, span in runs.items()], "days_off": days_off,
+            "committed": committed, "booked_runs": booked_runs, "days_off": days_off,
             "crew_rest_days": windows.weekdays_text(windows.EVERY_DAY - crew)}
 
 

@@ -108,11 +108,18 @@ def _log_event(request, mirror: Mirror, form, what: str, write, done):
 
 
 def _measurement_logged(mirror: Mirror, measurement) -> str:
-    """Whether the measurement moved the decline fit: only band means are fitted."""
-    if measurement.wavelength_nm is None:
-        return "Measurement logged; the decline fit is updated."
-    return (f"Measurement at {measurement.wavelength_nm:g} nm logged. It is listed below but not fitted: the decline "
-            "is fitted to band means, so the fit and the recoat forecast are unchanged.")
+    """Whether the measurement moved the decline fit: only band means since the latest coating are fitted, and only
+    once there are enough of them (else why not, and what to measure next: ``services.no_estimate_text``)."""
+    if measurement.wavelength_nm is not None:
+        return (f"Measurement at {measurement.wavelength_nm:g} nm logged. It is listed below but not fitted: the "
+                "decline is fitted to band means, so the fit and the recoat forecast are unchanged.")
+    state = services.mirror_forecast(mirror)
+    if state.coated_on is not None and measurement.measured_on < state.coated_on:
+        return (f"Measurement logged. It is listed below but not fitted: it predates the coating of "
+                f"{state.coated_on:%d %b %Y}, and the decline is fitted from that coating on.")
+    if state.fit is None:
+        return f"Measurement logged. {services.no_estimate_text(state)}"
+    return "Measurement logged; the decline fit is updated."
 
 
 @requires(TECHNICIAN)
@@ -179,16 +186,20 @@ def recoat_planner(request, pk):
     """Coming nights shaded by moon and cost, the cheapest windows for the recoat, and the plan button."""
     mirror = _mirror(pk)
     form = _window_form(request, mirror, request.GET or None)
-    context = {"mirror": mirror, "site": mirror.subsystem.telescope.site, "form": form}
+    site = mirror.subsystem.telescope.site
+    # The recoat already in hand and the booked runs over it are said from the first visit, windows found or not.
+    in_hand = services.recoat_in_hand(mirror)
+    context = {
+        "mirror": mirror, "site": site, "form": form, "in_hand": in_hand,
+        "in_hand_runs_over": services.runs_over_each_recoat(site, site_today(site)).get(in_hand.pk, []) if in_hand
+        else [],
+    }
     if form.is_bound and form.is_valid():
         try:
             context.update(services.recoat_windows(mirror, form.cleaned_data["start"],
                                                    form.cleaned_data["horizon_days"], form.phases()))
         except ValueError as exc:
             form.add_error(None, str(exc))
-    if in_hand := context.get("in_hand"):
-        site = context["site"]
-        context["in_hand_runs_over"] = services.runs_over_each_recoat(site, site_today(site)).get(in_hand.pk, [])
     return render(request, "mirrors/recoat.html", context)
 
 
