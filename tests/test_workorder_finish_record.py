@@ -292,7 +292,7 @@ def test_more_used_than_the_register_held_finishes_and_the_shortfall_is_kept(ord
     assert filters.quantity_on_hand == 0  # never below zero
     assert (use.quantity_used, use.quantity_short, use.short_counted_at) == (3, 2, None)
     page = _text(client.get(order.get_absolute_url()))
-    assert "3 (2 beyond the register: the site engineer counts the stock)" in page
+    assert "3 each (2 beyond the register: the site engineer counts the stock)" in page
     assert "Filter F-10 1 each 3 each (2 beyond the register)" in _pdf(client, order)
     # The register's page shows it as a discrepancy to count, naming the order.
     parts = _text(client.get(f"/sites/{filters.site.slug}/parts/"))

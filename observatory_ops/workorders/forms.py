@@ -17,7 +17,16 @@ from observatory_ops.registry.models import Subsystem
 
 from . import selectors, services
 from .cautions import ISOLATION_UNTICKED, ISOLATION_UNTICKED_FINDINGS
-from .models import PART_QUANTITY_MAX, Part, State, WorkOrder, amount_text, part_quantity_too_many
+from .models import (
+    PART_QUANTITY_MAX,
+    Part,
+    State,
+    WorkOrder,
+    amount_text,
+    counted_whole,
+    part_quantity_not_whole,
+    part_quantity_too_many,
+)
 from .selectors import order_plans
 
 
@@ -53,6 +62,13 @@ class _CrewMembersField(forms.ModelMultipleChoiceField):
             raise forms.ValidationError(
                 f"{self.label}: {problem}." if problem else f"{self.label}: choose people from the list."
             ) from None
+
+
+def _count_step(part: Part) -> str:
+    """The ``step`` of a count of ``part``: "1" for a part counted in whole units (``models.counted_whole``, as
+    ``models.part_quantity_not_whole`` reads them), so the browser offers whole numbers; "any" for a part kept by
+    measure (m, kg, l)."""
+    return "1" if counted_whole(part.unit) else "any"
 
 
 def _plausible(quantity: str, label: str):
@@ -282,10 +298,12 @@ class FinishForm(forms.Form):
             )
         # Empty, never the planned quantity: a tap on Finish must not book the plan as used (the register and the
         # parts-used record), so each count is typed, 0 for a part not used; the plan is said beside it.
-        for use in order.part_uses.select_related("part"):
+        self._uses = {use.pk: use for use in order.part_uses.select_related("part")}
+        for use in self._uses.values():
             label = f"{use.part.name} used ({use.part.unit})"
             self.fields[f"part_{use.pk}"] = forms.FloatField(
                 label=label, min_value=0, max_value=PART_QUANTITY_MAX, required=True,
+                widget=forms.NumberInput(attrs={"step": _count_step(use.part)}),
                 help_text=(f"planned: {amount_text(use.quantity_planned, use.part.unit)}; enter what was used, "
                            "0 if none"),
                 error_messages={"required": f"{label}: enter how many were used (0 if none).",
@@ -293,14 +311,20 @@ class FinishForm(forms.Form):
                                 "max_value": f"{part_quantity_too_many(label)}."},
             )
         # Parts used that the order did not plan (a fan swapped on a fault found during the work): a few rows.
+        # Each count's step follows its row's part: the one chosen when the form is shown again, and on the page the
+        # one chosen in its list (finish.html reads data-whole-parts, the parts counted in whole units).
         site_parts = Part.objects.filter(site=order.site).order_by("name")
+        whole = {str(part.pk) for part in site_parts if _count_step(part) == "1"}
         for i in range(1, selectors.OTHER_PART_ROWS + 1):
             self.fields[f"other_part_{i}"] = forms.ModelChoiceField(
                 site_parts, required=False, label=f"Other part used ({i})",
                 help_text="A part of the register used though the order did not list it." if i == 1 else "",
+                widget=forms.Select(attrs={"data-whole-parts": " ".join(sorted(whole, key=int))}),
             )
+            chosen = str(self.data.get(self.add_prefix(f"other_part_{i}"), "")) if self.is_bound else ""
             self.fields[f"other_quantity_{i}"] = forms.FloatField(
                 required=False, min_value=0, max_value=PART_QUANTITY_MAX, label=f"How many ({i})",
+                widget=forms.NumberInput(attrs={"step": "1" if chosen in whole else "any"}),
                 error_messages={"invalid": f"How many ({i}): enter a number.",
                                 "min_value": f"How many ({i}): enter more than 0.",
                                 "max_value": f"{part_quantity_too_many(f'How many ({i})')}."},
@@ -372,12 +396,22 @@ class FinishForm(forms.Form):
         cleaned = super().clean()
         if cleaned.get("isolation_answer") and not cleaned.get("findings", "").strip():
             self.add_error("findings", f"Findings: {ISOLATION_UNTICKED_FINDINGS}.")
+        # A fraction of a part counted in whole units, refused on its own field (the error summary links it) in the
+        # words finishing would refuse it with (models.part_quantity_not_whole).
+        for pk, use in self._uses.items():
+            quantity = cleaned.get(f"part_{pk}")
+            if quantity is not None and (
+                problem := part_quantity_not_whole(use.part, quantity, f"{use.part.name} used")
+            ):
+                self.add_error(f"part_{pk}", f"{problem}.")
         for i in range(1, selectors.OTHER_PART_ROWS + 1):
             part, quantity = cleaned.get(f"other_part_{i}"), cleaned.get(f"other_quantity_{i}")
             if part and not quantity and f"other_quantity_{i}" not in self.errors:
                 self.add_error(f"other_quantity_{i}", f"How many ({i}): enter how many of {part.name} were used.")
             elif quantity and not part:
                 self.add_error(f"other_part_{i}", f"Other part used ({i}): choose the part, or leave how many empty.")
+            elif part and quantity and (problem := part_quantity_not_whole(part, quantity, f"How many ({i})")):
+                self.add_error(f"other_quantity_{i}", f"{problem}.")
         return cleaned
 
     def parts_added(self) -> list[tuple[Part, float]]:

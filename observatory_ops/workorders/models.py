@@ -353,8 +353,13 @@ def part_quantity_too_many(label: str) -> str:
 #: fan is not a part). Other units (m, kg, l, g ...) take fractions. Our own list, common practice.
 COUNTED_UNITS = frozenset({
     "each", "ea", "piece", "pieces", "pc", "pcs", "set", "sets", "pair", "pairs", "unit", "units", "kit", "kits",
-    "box", "boxes", "bottle", "bottles", "cylinder", "cylinders", "roll", "rolls",
+    "box", "boxes", "bottle", "bottles", "cylinder", "cylinders", "roll", "rolls", "pack", "packs", "swab", "swabs",
 })
+
+
+def counted_whole(unit: str) -> bool:
+    """Whether a part in ``unit`` is counted in whole parts (``COUNTED_UNITS``)."""
+    return unit.strip().lower() in COUNTED_UNITS
 
 
 #: Units of the parts register that are things counted, singular to plural: "2 sets", "1 pack". Any other unit
@@ -376,7 +381,7 @@ def amount_text(quantity: float, unit: str) -> str:
 def part_quantity_not_whole(part: Part, quantity: float, label: str) -> str:
     """Why ``quantity`` of ``part`` cannot be right as a count ("" when it can): a part counted in whole units
     (``COUNTED_UNITS``) given a fraction. ``label`` names the figure, as ``part_quantity_too_many``'s does."""
-    if part.unit.strip().lower() in COUNTED_UNITS and quantity != int(quantity):
+    if counted_whole(part.unit) and quantity != int(quantity):
         return f"{label}: {quantity:g} is not a whole number, and {part.name} is counted in whole parts ({part.unit})"
     return ""
 
