@@ -143,3 +143,14 @@ def test_the_service_takes_no_count_as_planned_either(pads, order, users):  # no
     _nothing_stored(order)
     pads.refresh_from_db()
     assert pads.quantity_on_hand == 3
+
+
+def test_a_choice_fields_summary_link_reaches_its_fieldset(order, users, client):  # noqa: F811
+    """A field of tick boxes has no single input to label (Django gives it no ``id_for_label``): its summary link went
+    to "#". It goes to the fieldset, whose id is the field's own."""
+    _started(order, users)
+    client.force_login(users["technician"])
+    page = client.post(f"/workorders/{order.pk}/finish/", _post(order, crew_members=["999999"])).content.decode()
+    assert 'href="#"' not in _summary(page)
+    assert 'href="#id_crew_members"' in _summary(page)
+    assert '<fieldset class="confirm" id="id_crew_members"' in page
