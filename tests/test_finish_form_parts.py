@@ -128,6 +128,8 @@ def test_the_summary_keeps_the_label_before_a_message_that_does_not_name_its_fie
     ("Fan current cannot be above 50 A (got 500)", "Value", False),
     ("How many (2): enter a number.", "How many (1)", False),  # another row's field
     ("", "Findings", False),
+    ("Part: not at this site.", "Part number", False),  # a first word only is not the label
+    ("Brake pad set used: 1.5 is not a whole number", "Brake pad set used (set)", True),
 ])
 def test_names_field_knows_a_message_that_opens_with_its_field(message, label, named):
     assert names_field(message, label) is named

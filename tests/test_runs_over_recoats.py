@@ -408,3 +408,25 @@ def test_logging_a_measurement_says_why_there_is_no_fit_yet_until_there_is_one(m
         f"Measurement logged. It is listed below but not fitted: it predates the coating of {COATED:%d %b %Y}, and the "
         "decline is fitted from that coating on."
     )
+
+
+def test_a_recoat_without_work_orders_is_named_without_a_list_and_told_how_to_replan(recoat):
+    """A recoat plan's work orders are optional (its orders withdrawn and removed, or one entered in the admin): the
+    warning wrote "with work orders :" and told to withdraw orders there were none of."""
+    site = recoat.mirror.subsystem.telescope.site
+    recoat.work_orders.clear()
+    BookedRun.objects.create(site=site, title="Occultation", starts_on=dt.date(2026, 7, 8), ends_on=dt.date(2026, 7, 8))
+    (over,) = services.runs_over_recoats(site, TODAY)
+    assert "(no work orders)" in over.admin_text and "with work orders" not in over.admin_text
+    assert over.admin_text.endswith("to re-plan the recoat, delete this recoat plan in the admin (Recoat plans) and "
+                                    "plan it again on the mirror's recoat page.")
+
+
+def test_the_dashboard_reads_the_coming_recoats_once(recoat, runs, users, client, django_assert_max_num_queries):
+    """runs_over_recoats takes the recoats the dashboard already read."""
+    from observatory_ops.planning.services import site_today
+
+    site = recoat.mirror.subsystem.telescope.site
+    plans = services.downtime_planned(site, site_today(site))
+    with django_assert_max_num_queries(1):
+        services.runs_over_recoats(site, TODAY, plans)

@@ -211,4 +211,16 @@ def test_every_wording_taken_apart_says_what_it_said_and_is_recognised():
         assert wording.startswith(OUT_OF_CONTROL[:-1])
         for step in rest:
             assert step in TELESCOPE_STEPS
-            assert " ".join(step.split()[:3]).lower() in wording.lower()  # "close the enclosure", "park the telescope"
+            # The rest of the wording, word for word: nothing added ("at its service position" was, once).
+            assert wording.lower().endswith(" and " + step[0].lower() + step[1:])
+
+
+def test_parking_taken_apart_adds_no_position_the_plan_never_gave(telescope, mains, users):
+    """The enclosure's "... and park the telescope" taken apart is "Park the telescope." where no other plan parks at
+    the service position: the primary mirror's own step parks it at the horizon stop, "not at the service position",
+    and the order must not say both (common practice, no published source)."""
+    primary = subsystem_create(telescope, "primary_mirror", "Primary", counting_from=START)
+    dome = subsystem_create(telescope, "enclosure", "Dome", counting_from=START)
+    steps = _from_due(primary, dome, users=users).step_list
+    assert steps[0] == OUT_OF_CONTROL and PARK not in steps
+    assert any(step.endswith("] Park the telescope.") for step in steps)

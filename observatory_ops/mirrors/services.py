@@ -682,18 +682,20 @@ class RunOverRecoat:
         orders = ", ".join(f"{o.number} ({o.get_state_display().lower()})"
                            for o in sorted(self.plan.work_orders.all(), key=lambda o: o.pk))
         recoat = (f"the recoat of {self.plan.mirror.subsystem} planned "
-                  f"{_days_text(self.plan.starts_on, self.plan.ends_on)} with work orders {orders}")
-        return (f"{self._clash(recoat)} The run is saved; to re-plan the recoat, withdraw its work orders (which stops "
-                "it) and plan it again on the mirror's recoat page.")
+                  f"{_days_text(self.plan.starts_on, self.plan.ends_on)}" + (f" with work orders {orders}" if orders
+                                                                              else " (no work orders)"))
+        how = ("withdraw its work orders (which stops it) and plan it again on the mirror's recoat page" if orders
+               else "delete this recoat plan in the admin (Recoat plans) and plan it again on the mirror's recoat page")
+        return f"{self._clash(recoat)} The run is saved; to re-plan the recoat, {how}."
 
 
-def runs_over_recoats(site: Site, today: dt.date) -> list[RunOverRecoat]:
+def runs_over_recoats(site: Site, today: dt.date, plans: list[RecoatPlan] | None = None) -> list[RunOverRecoat]:
     """The site's booked runs falling on nights of its recoats going ahead and not yet over (``downtime_planned``),
     with the nights of both from ``today`` on (nights already past cannot be moved), soonest recoat first. The recoat
     planner keeps a new recoat off a blocked run's nights and prices an unblocked one's higher (``night_costs``), but
     a run booked, moved or blocked after the recoat was planned shows only here. Two queries, whatever the numbers.
     A run is booked at the site, so it is held against every telescope's recoat there, as the planner holds it."""
-    plans = downtime_planned(site, today)
+    plans = downtime_planned(site, today) if plans is None else plans  # a caller that has them read them once
     if not plans:
         return []
     runs = list(
@@ -711,10 +713,12 @@ def runs_over_recoats(site: Site, today: dt.date) -> list[RunOverRecoat]:
     return found
 
 
-def runs_over_each_recoat(site: Site, today: dt.date) -> dict[int, list[RunOverRecoat]]:
+def runs_over_each_recoat(
+    site: Site, today: dt.date, plans: list[RecoatPlan] | None = None
+) -> dict[int, list[RunOverRecoat]]:
     """``runs_over_recoats`` by recoat plan (its pk): the cautions each page lists under a recoat."""
     by_plan: dict[int, list[RunOverRecoat]] = {}
-    for over in runs_over_recoats(site, today):
+    for over in runs_over_recoats(site, today, plans):
         by_plan.setdefault(over.plan.pk, []).append(over)
     return by_plan
 
@@ -762,7 +766,8 @@ def recoat_windows(mirror: Mirror, start: dt.date, horizon_days: int, phases: li
         for c in costs
     ]
     lead = (calendar[0]["night"].weekday()) if calendar else 0  # Monday-first weeks
-    booked_runs = list(BookedRun.objects.filter(site=site, starts_on__lte=costs[-1].night, ends_on__gte=costs[0].night)
+    horizon_end = start + dt.timedelta(days=horizon_days - 1)
+    booked_runs = list(BookedRun.objects.filter(site=site, starts_on__lte=horizon_end, ends_on__gte=start)
                        .order_by("starts_on", "pk"))
     due = recoat_due(mirror)
     committed = _recoats_planned_at(site, mirror, start, start + dt.timedelta(days=horizon_days))

@@ -36,11 +36,13 @@ DEFAULT_LIMIT_SOURCES: dict[str, tuple[str, str]] = {
 }
 
 
+#: The due list's order, most urgent first, ties by telescope and plan: the page's status sort, the CSV and the API.
+DUE_ORDER = ("urgency", "forecast_date", "plan__subsystem__telescope__name", "plan_id")
+
+
 def due_rows() -> QuerySet[PlanStatus]:
     """Every computed plan state with what a due-list row shows, in one query, most urgent first."""
-    return PlanStatus.objects.select_related("plan__subsystem__telescope__site").order_by(
-        "urgency", "forecast_date", "plan__subsystem__telescope__name", "plan_id"
-    )
+    return PlanStatus.objects.select_related("plan__subsystem__telescope__site").order_by(*DUE_ORDER)
 
 
 def due_for_site(site: Site) -> QuerySet[PlanStatus]:

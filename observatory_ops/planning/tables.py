@@ -1,6 +1,7 @@
 import django_tables2 as tables
 
 from .models import PlanStatus
+from .selectors import DUE_ORDER
 
 
 class DueTable(tables.Table):
@@ -10,8 +11,7 @@ class DueTable(tables.Table):
     """
 
     plans = tables.CheckBoxColumn(accessor="plan_id", verbose_name="", attrs={"th__input": {"title": "tick all"}})
-    # Ties broken as ``selectors.due_rows`` breaks them, so the page lists rows in the order of the CSV and the API.
-    status = tables.Column(order_by=("urgency", "forecast_date", "plan__subsystem__telescope__name", "plan_id"))
+    status = tables.Column(order_by=DUE_ORDER)  # ties broken as the CSV and the API break them
     site = tables.Column(accessor="plan__subsystem__telescope__site__name", verbose_name="Site")
     telescope = tables.Column(accessor="plan__subsystem__telescope__name", verbose_name="Telescope")
     subsystem = tables.Column(accessor="plan__subsystem__name", verbose_name="Subsystem")

@@ -1063,6 +1063,12 @@ _EARLIER_BEFORE_ISOLATION = (
 #: steps would take it out of that control more than once (workorders.services._out_of_control_once).
 OUT_OF_CONTROL = "Take the observatory out of robotic and remote control."
 _CLOSE_ENCLOSURE = "Close the enclosure."
+_PARK_PLAIN = "Park the telescope."  # as the plans said it: no position (a primary's own parking names another one)
+#: The parking a split wording leaves (``OUT_OF_CONTROL_AND``), and the catalogue's parking at the service position,
+#: which stands for it where another plan on the same telescope parks there already: one parking, not two
+#: (workorders.services._out_of_control_once).
+PARK_PLAIN = _PARK_PLAIN
+PARK_AT_SERVICE = _PARK
 _EARLIER_CLOSE_DOME = "Close the dome."
 #: The catalogue's steps that take the observatory out of robotic and remote control, in their present and earlier
 #: wordings, each with the steps it does besides, in its own words: an order that would say it more than once says
@@ -1070,7 +1076,7 @@ _EARLIER_CLOSE_DOME = "Close the dome."
 #: A step the site wrote in words of its own is the site's, and stays as it is.
 OUT_OF_CONTROL_AND: dict[str, tuple[str, ...]] = {
     _OUT_OF_SERVICE: (_CLOSE_ENCLOSURE,),
-    _OUT_OF_SERVICE_PARKED: (_PARK,),
+    _OUT_OF_SERVICE_PARKED: (_PARK_PLAIN,),
     _EARLIER_OUT_OF_SERVICE: (_EARLIER_CLOSE_DOME,),
     OUT_OF_CONTROL: (),
 }
@@ -1104,7 +1110,7 @@ RESTORE: frozenset[str] = frozenset(
 TELESCOPE_STEPS: frozenset[str] = frozenset({
     _OUT_OF_SERVICE, _PARK, _OUT_OF_SERVICE_PARKED, _COVER_CLOSED_IN_SERVICE,
     _EARLIER_OUT_OF_SERVICE, _EARLIER_DOME_CLOSED,  # as plans stored before a roll-off roof was served word them
-    OUT_OF_CONTROL, _CLOSE_ENCLOSURE, _EARLIER_CLOSE_DOME,  # what they say apart (OUT_OF_CONTROL_AND)
+    OUT_OF_CONTROL, _CLOSE_ENCLOSURE, _EARLIER_CLOSE_DOME, _PARK_PLAIN,  # what they say apart (OUT_OF_CONTROL_AND)
 })
 #: The restoring steps that put a subsystem or the telescope back in service: an order over several plans puts them
 #: after every other plan's restoring (its air or power restored and tested), whichever plan they come from

@@ -48,7 +48,7 @@ def site_dashboard(request, slug):
     telescopes = [(t, subsystem_tree(t), tube_warning(t)) for t in site.telescopes.all()]
     today = site_today(site)
     downtime = mirror_services.downtime_planned(site, today)
-    runs_over = mirror_services.runs_over_each_recoat(site, today)
+    runs_over = mirror_services.runs_over_each_recoat(site, today, downtime)
     for plan in downtime:  # the booked runs on its nights, under it
         plan.runs_over = runs_over.get(plan.pk, [])
     return render(

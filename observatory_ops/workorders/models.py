@@ -349,19 +349,6 @@ def part_quantity_too_many(label: str) -> str:
     return f"{label}: more than {PART_QUANTITY_MAX:,} of one part is not accepted; check the figure"
 
 
-#: Units a part is counted in whole: a register in one of these holds whole parts, so 1.5 of them is a slip (half a
-#: fan is not a part). Other units (m, kg, l, g ...) take fractions. Our own list, common practice.
-COUNTED_UNITS = frozenset({
-    "each", "ea", "piece", "pieces", "pc", "pcs", "set", "sets", "pair", "pairs", "unit", "units", "kit", "kits",
-    "box", "boxes", "bottle", "bottles", "cylinder", "cylinders", "roll", "rolls", "pack", "packs", "swab", "swabs",
-})
-
-
-def counted_whole(unit: str) -> bool:
-    """Whether a part in ``unit`` is counted in whole parts (``COUNTED_UNITS``)."""
-    return unit.strip().lower() in COUNTED_UNITS
-
-
 #: Units of the parts register that are things counted, singular to plural: "2 sets", "1 pack". Any other unit
 #: (each, a measure such as m, kg or l, an abbreviation) prints as the register writes it: "2 each", "1.5 m".
 _COUNTED_PLURALS = {
@@ -369,6 +356,15 @@ _COUNTED_PLURALS = {
     "piece": "pieces", "roll": "rolls", "set": "sets", "swab": "swabs", "unit": "units",
 }
 _COUNTED_SINGULARS = {plural: singular for singular, plural in _COUNTED_PLURALS.items()}
+#: Units a part is counted in whole: a register in one of these holds whole parts, so 1.5 of them is a slip (half a
+#: fan is not a part). Other units (m, kg, l, g ...) take fractions. Our own list, common practice: the things
+#: counted above, singular and plural, and the words for one of anything.
+COUNTED_UNITS = frozenset({"each", "ea", "pc", "pcs", *_COUNTED_PLURALS, *_COUNTED_PLURALS.values()})
+
+
+def counted_whole(unit: str) -> bool:
+    """Whether a part in ``unit`` is counted in whole parts (``COUNTED_UNITS``)."""
+    return unit.strip().lower() in COUNTED_UNITS
 
 
 def amount_text(quantity: float, unit: str) -> str:

@@ -34,6 +34,8 @@ from observatory_ops.registry.catalogue import (
     OUT_OF_CONTROL,
     OUT_OF_CONTROL_AND,
     OUT_OF_CONTROL_PARKED,
+    PARK_AT_SERVICE,
+    PARK_PLAIN,
     RELEASE,
     RESTORES_BRAKE_AIR,
     RETURNS_TO_SERVICE,
@@ -316,7 +318,13 @@ def _out_of_control_once(run: list[tuple[ServicePlan, str]], labels: dict[int, s
     lines = _shared_once(run, labels, several)
     if sum(_unlabelled(line).strip() in TAKES_OUT_OF_CONTROL for line in lines) < 2:
         return lines
-    apart = [(plan, rest) for plan, step in run for rest in OUT_OF_CONTROL_AND.get(step, (step,))]
+    at_service = {plan.subsystem.telescope_id for plan, step in run if step == PARK_AT_SERVICE}
+
+    def parts(plan, step):
+        for rest in OUT_OF_CONTROL_AND.get(step, (step,)):
+            yield PARK_AT_SERVICE if rest == PARK_PLAIN and plan.subsystem.telescope_id in at_service else rest
+
+    apart = [(plan, rest) for plan, step in run for rest in parts(plan, step)]
     return [OUT_OF_CONTROL, *_shared_once(apart, labels, several)]
 
 

@@ -16,8 +16,18 @@ def names_field(message, label) -> bool:
     """``{% if e|names_field:field.label %}``: whether a field's error ``message`` already names the field at its
     start, so the summary writes the message alone rather than "label: message" with the label twice. It does when
     it begins with the label ("Fan used (pcs): enter how many were used" for "Fan used (pcs)"), or when the words
-    before its first colon begin the label ("Actual hours: enter a number" for "Actual hours (person-hours)",
-    "Others on the crew: ..." for "Others on the crew, without an account")."""
+    before its first colon are the label short of its note in brackets or after a comma ("Actual hours: enter a
+    number" for "Actual hours (person-hours)", "Others on the crew: ..." for "Others on the crew, without an
+    account"); "Part: ..." does not name "Part number"."""
     message, label = str(message), str(label or "").strip()
     head, colon, _ = message.partition(":")
-    return _opens_with(message, label) or (bool(colon) and _opens_with(label, head.strip()))
+    head = head.strip()
+    # The words before the colon are the label short of its note in brackets or after a comma, not any first word:
+    # "Part: ..." does not name "Part number".
+    return _opens_with(message, label) or bool(colon and head and head.casefold() == _label_stem(label))
+
+
+def _label_stem(label: str) -> str:
+    """A label short of a note in brackets or after a comma: "Actual hours (person-hours)" -> "actual hours",
+    "Others on the crew, without an account" -> "others on the crew"."""
+    return label.split(" (")[0].split(",")[0].strip().casefold()
