@@ -549,3 +549,33 @@ def test_the_digest_command_says_when_mail_is_only_printed(mailed_people, settin
         "EMAIL_BACKEND=django.core.mail.backends.smtp.EmailBackend and EMAIL_HOST to send)\n"
     )
     assert capsys.readouterr().out.count(f"Subject: {site.name}:") == 2 and not mail.outbox
+
+
+def test_a_site_that_lists_its_engineers_mails_them_only(mailed_people):
+    """A network's engineers each look after their own sites: a site's ``digest_to`` names them, and its digest goes
+    to them alone; a site that lists none mails every engineer (our own rule)."""
+    from django.contrib.auth.models import Group, User
+
+    site, other = site_in_use("listed"), site_in_use("unlisted")
+    own = User.objects.create_user("ridge-engineer", email="ridge@vestal-ridge.invalid", password="pw-ridge-123456")
+    own.groups.add(Group.objects.get(name="engineer"))
+    site.digest_to.add(own, mailed_people["technician"])  # a technician listed by mistake gets nothing
+    assert digest.recipients(site) == ["ridge@vestal-ridge.invalid"]
+    assert digest.recipients(other) == [
+        "administrator@vestal-ridge.invalid", "engineer@vestal-ridge.invalid", "ridge@vestal-ridge.invalid"]
+    planning.site_recompute(site)
+    assert planning_tasks.due_digest_send.delay(site.pk).get() == 1
+    assert [address for m in mail.outbox for address in m.recipients()] == ["ridge@vestal-ridge.invalid"]
+
+
+def test_the_site_admin_offers_engineers_only_for_the_digest(mailed_people, rf):
+    from django.contrib import admin
+
+    from observatory_ops.registry.models import Site
+
+    request = rf.get("/admin/registry/site/add/")
+    request.user = mailed_people["administrator"]
+    form = admin.site._registry[Site].get_form(request)()
+    offered = set(form.fields["digest_to"].queryset.values_list("username", flat=True))
+    assert {"engineer", "administrator", "engineer-no-mail"} <= offered
+    assert not offered & {"technician", "viewer", "engineer-left"}

@@ -31,10 +31,14 @@ def mail_is_printed() -> bool:
     return settings.EMAIL_BACKEND == CONSOLE_BACKEND
 
 
-def recipients() -> list[str]:
-    """E-mail addresses of the active people in the engineer role or above, administrators and superusers
-    included (sites have no per-person assignment)."""
-    return sorted(set(holders_of(ENGINEER).exclude(email="").values_list("email", flat=True)))
+def recipients(site: Site) -> list[str]:
+    """E-mail addresses the site's digest goes to: the people its ``digest_to`` lists, or where it lists none, every
+    active person in the engineer role or above (administrators and superusers included); either way only those who
+    still hold the role and have an address."""
+    engineers = holders_of(ENGINEER).exclude(email="")
+    if site.digest_to.exists():
+        engineers = engineers.filter(digest_sites=site)
+    return sorted(set(engineers.values_list("email", flat=True)))
 
 
 def due_digest(site: Site, today: dt.date, to: list[str]) -> EmailMessage | None:
@@ -74,9 +78,10 @@ def due_digest_send(site: Site, today: dt.date | None = None) -> int:
     if Site.objects.filter(pk=site.pk, digest_sent_on=today).exists():
         return 0
     sites_bring_up_to_date([site])  # states computed before the site's today would list yesterday's items
-    to = recipients()
+    to = recipients(site)
     if not to:
-        log.warning("due digest of %s not sent: no engineer or administrator has an e-mail address", site)
+        whom = "no engineer or administrator" + (" listed for it" if site.digest_to.exists() else "")
+        log.warning("due digest of %s not sent: %s has an e-mail address", site, whom)
         return 0
     message = due_digest(site, today, to)
     if message is None:

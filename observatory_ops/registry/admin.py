@@ -35,6 +35,7 @@ class SiteAdmin(ProtectedNamed, SimpleHistoryAdmin):
     inlines = [CrewDayOffInline]
     list_display = ("name", "slug", "position", "elevation_m", "time_zone")
     prepopulated_fields = {"slug": ("name",)}
+    filter_horizontal = ("digest_to",)
 
     @admin.display(description="position")
     def position(self, site):

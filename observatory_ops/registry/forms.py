@@ -170,6 +170,13 @@ class CrewWeekdaysField(forms.MultipleChoiceField):
 
 
 class SiteAdminForm(forms.ModelForm):
+    def __init__(self, *args, **kwargs):
+        super().__init__(*args, **kwargs)
+        if "digest_to" in self.fields:  # the people the digest can go to: engineers and above, still active
+            from observatory_ops.access.roles import ENGINEER, holders_of
+
+            self.fields["digest_to"].queryset = holders_of(ENGINEER).order_by("first_name", "last_name", "username")
+
     crew_weekdays = CrewWeekdaysField(
         # A declared field takes no initial value from the model: a new site starts with the model's default.
         initial=list(Site._meta.get_field("crew_weekdays").default),

@@ -126,6 +126,11 @@ class Site(models.Model):
         "as a subsystem of one of them: its isolation points are then locked for work with a moving telescope or "
         "enclosure at any of them, and its service plans count the whole site's nights, not that telescope's.",
     )
+    digest_to = models.ManyToManyField(
+        "auth.User", blank=True, related_name="digest_sites", verbose_name="due digest to",
+        help_text="The engineers who get this site's daily due digest. Left empty, every engineer and administrator "
+        "with an e-mail address gets it (a network's engineers each list their own sites).",
+    )
     digest_sent_on = models.DateField(
         null=True, blank=True, editable=False,
         help_text="The site's local day of the last due digest sent: at most one a day (planning.digest).",
