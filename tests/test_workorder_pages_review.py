@@ -21,7 +21,8 @@ import re
 
 import pytest
 from django.template import Context, Template
-from test_workorder_finish import _nothing_stored, _post, _started
+from test_finish_form_parts import pads  # noqa: F401  (a fixture: the order underway, 2 brake pad sets planned)
+from test_workorder_finish import _nothing_stored, _post
 from test_workorders import _all_readings, _confirmed, drive, order  # noqa: F401  (fixtures, used by name)
 
 from observatory_ops.workorders import services
@@ -29,16 +30,6 @@ from observatory_ops.workorders.forms import FinishForm
 from observatory_ops.workorders.models import Part, PartUse, State, WorkOrder
 
 pytestmark = pytest.mark.django_db
-
-
-@pytest.fixture
-def pads(order, site, users):  # noqa: F811
-    """The order, underway, with 2 brake pad sets planned (counted in whole sets); the register holds 3."""
-    part = Part.objects.create(site=site, name="Brake pad set", part_number="BP-2", quantity_on_hand=3,
-                               reorder_point=0, unit="set")
-    services.part_add(order, part, 2)
-    _started(order, users)
-    return part
 
 
 @pytest.fixture
