@@ -309,16 +309,19 @@ def register_part(name: str, register: Sequence[Part]) -> Part | None:
     return alike[0] if len(alike) == 1 else None
 
 
-def parts_unregistered(order: WorkOrder) -> list[str]:
+def parts_unregistered(order: WorkOrder, items: list[WorkOrderItem] | None = None,
+                       uses: Sequence[PartUse] | None = None) -> list[str]:
     """For an order still to do: the parts its service plans name that are not reserved on it (the site's parts
     register did not hold them when it was made, or held two that differ only in capitals (``register_part``), and
-    none was added since), as "2 x Brake pad set", each plan's quantities added up; [] otherwise."""
+    none was added since), as "2 x Brake pad set", each plan's quantities added up; [] otherwise. ``items`` and
+    ``uses`` (the order's part uses): when the caller has them already."""
     if order.state not in TO_DO:
         return []
-    held = set(order.part_uses.values_list("part_id", flat=True))
+    held = ({use.part_id for use in uses} if uses is not None
+            else set(order.part_uses.values_list("part_id", flat=True)))
     register = list(Part.objects.filter(site_id=order.site_id).only("name"))
     wanted: dict[str, float] = {}
-    for plan in ServicePlan.objects.filter(pk__in=order.items.values("plan_id")).order_by("pk").only("parts"):
+    for plan in order_plans(order, items):
         for name, quantity in part_lines(plan.parts):
             part = register_part(name, register)
             if part is None or part.pk not in held:
@@ -351,9 +354,12 @@ def names_of(user) -> set[str]:
     return {name.strip().casefold() for name in (user.get_full_name(), user.username) if name.strip()}
 
 
-def order_plans(order: WorkOrder) -> list[ServicePlan]:
-    """The service plans an order covers (from its due items), in the order they were added."""
-    return list(ServicePlan.objects.filter(pk__in=order.items.values("plan_id")).order_by("pk"))
+def order_plans(order: WorkOrder, items: list[WorkOrderItem] | None = None) -> list[ServicePlan]:
+    """The service plans an order covers (from its due items), each once, in the order they were added.
+    ``items``: ``order_items(order)`` when the caller has them (no query then)."""
+    if items is None:
+        return list(ServicePlan.objects.filter(pk__in=order.items.values("plan_id")).order_by("pk"))
+    return sorted({i.plan_id: i.plan for i in items if i.plan_id}.values(), key=lambda plan: plan.pk)
 
 
 def lockout_step_warning(order: WorkOrder, items: list[WorkOrderItem] | None = None) -> str:
@@ -367,8 +373,9 @@ def lockout_step_warning(order: WorkOrder, items: list[WorkOrderItem] | None = N
         return ""
     if lockout_missing(order.hazards, order.step_list):
         return LOCKOUT_STEP_MISSING
-    problem = lockout_sequence_problem(order.hazards, order.step_list, order_plans(order)) or brake_air_problem(
-        [i.subsystem for i in (order_items(order) if items is None else items)], order.hazards, order.step_list)
+    items = order_items(order) if items is None else items
+    problem = lockout_sequence_problem(order.hazards, order.step_list, order_plans(order, items)) or brake_air_problem(
+        [i.subsystem for i in items], order.hazards, order.step_list)
     return f"{problem} Do not start the work until the site engineer has put that right." if problem else ""
 
 
@@ -664,22 +671,24 @@ def tick_note(tick: ChecklistTick, text: str, zone: dt.tzinfo) -> str:
     return f"ticked by {said}"
 
 
-def checklist(order: WorkOrder, points: list[IsolationPoint] | None = None) -> Checklist:
+def checklist(order: WorkOrder, points: list[IsolationPoint] | None = None,
+              items: list[WorkOrderItem] | None = None) -> Checklist:
     """The order's steps and isolation points, each with its newest tick, and the note on its steps, in a
     fixed number of queries (one for the ticks, plus two for the points unless ``isolation_points(order)``
-    is passed in, plus one for the note while the order is a draft or issued)."""
+    is passed in, plus one for the note while the order is a draft or issued unless ``order_items(order)`` is)."""
     points = isolation_points(order) if points is None else points
     lines = _checklist(order, points, latest_ticks(order))
-    return Checklist(lines.steps, lines.points, merged_steps_note(order))
+    return Checklist(lines.steps, lines.points, merged_steps_note(order, items))
 
 
-def merged_steps_note(order: WorkOrder) -> str:
+def merged_steps_note(order: WorkOrder, items: list[WorkOrderItem] | None = None) -> str:
     """What the engineer should know before issuing an order over several plans: their steps were merged
     (``workorders.services``: a powered or restoring step they share written once, the locked-out work of
     all of them together), which no plan's author saw. "" for one plan, and once the work has started."""
     if order.state not in (State.DRAFT, State.ISSUED):
         return ""
-    plans = order.items.filter(plan__isnull=False).values("plan_id").distinct().count()
+    plans = (order.items.filter(plan__isnull=False).values("plan_id").distinct().count() if items is None
+             else len({i.plan_id for i in items if i.plan_id}))
     if plans < 2:
         return ""
     before = "issuing it" if order.state == State.DRAFT else "the work starts"
@@ -1223,8 +1232,9 @@ def sheet(order: WorkOrder, url: str) -> sheet_.Sheet:
     finished = order.state in (State.FINISHED, State.COUNTERSIGNED)
     underway = order.state == State.UNDERWAY
     gaps = isolation_gaps(order, points, items)
-    lines = checklist(order, points)
+    lines = checklist(order, points, items)
     missing = hazards_missing(order, items)
+    uses = list(order.part_uses.select_related("part"))
     unrecorded = hazards_unrecorded(order, items)
 
     def ticks(checked: list[ChecklistLine]) -> tuple[sheet_.SheetTick, ...]:  # as the page shows them
@@ -1274,11 +1284,11 @@ def sheet(order: WorkOrder, url: str) -> sheet_.Sheet:
         steps_warning=lockout_step_warning(order, items),
         steps_note=lines.steps_note,
         standing_notes=standing_notes(order),
-        parts_unregistered=tuple(parts_unregistered(order)),
+        parts_unregistered=tuple(parts_unregistered(order, items, uses)),
         parts=tuple(
             sheet_.SheetPart(u.part.name, u.part.part_number, u.quantity_planned, u.part.unit, used=u.quantity_used,
                              short=u.quantity_short)
-            for u in order.part_uses.select_related("part")
+            for u in uses
         ),
         tools=tuple(order.tool_list),
         readings=tuple(

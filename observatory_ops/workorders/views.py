@@ -139,6 +139,7 @@ def work_order_detail(request, pk):
         if has_role(request.user, t.role):
             for reason in held.get(t.action, []):
                 held_notes.setdefault(reason, []).append(t.label)
+    part_uses = list(order.part_uses.select_related("part"))
     return render(
         request,
         "workorders/detail.html",
@@ -154,20 +155,20 @@ def work_order_detail(request, pk):
             "can_update_hazards": bool(missing) and editable,
             "lockout_step_warning": selectors.lockout_step_warning(order, items),
             "standing_notes": selectors.standing_notes(order),
-            "parts_unregistered": selectors.parts_unregistered(order),
+            "parts_unregistered": selectors.parts_unregistered(order, items, part_uses),
             "parts_unregistered_text": PARTS_UNREGISTERED,
             "items": items,
             "has_reasons": any(i.why for i in items),  # as the printed order says (pdf._why)
             "cautions": selectors.cautions(order, points),
             "precedence": selectors.PRECEDENCE_STATEMENT,
-            "checklist": selectors.checklist(order, points),
+            "checklist": selectors.checklist(order, points, items),
             "refused": _tick_refused(request, order),
             "can_tick": order.state == State.UNDERWAY and has_role(request.user, TECHNICIAN),
             "isolation_gaps": selectors.isolation_gaps(order, points, items),
             "no_isolation_needed": selectors.order_isolation_statement(order, missing, unrecorded),
             "readings": readings,
             "beyond_limit": [r for r in readings if r.recorded_beyond_limit],
-            "part_uses": order.part_uses.select_related("part"),
+            "part_uses": part_uses,
             "records": order.service_records.select_related("subsystem"),
             "work_done_on": selectors.work_done_on(order),
             "recoat_phase": phase,
