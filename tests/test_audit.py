@@ -94,6 +94,20 @@ def test_history_of_an_unaudited_kind_is_not_found(users, client):
     assert client.get("/history/nonsense/record/1/").status_code == 404
 
 
+@pytest.mark.parametrize("role, status", [("viewer", 404), ("technician", 404), ("engineer", 404),
+                                          ("administrator", 200)])
+def test_an_api_tokens_history_is_read_by_administrators_only(site, users, client, role, status):
+    """Tokens are the administrator's alone in the admin; their history page (name, site, the secret's first
+    characters, when created and revoked) is no different, page and CSV alike."""
+    from observatory_ops.api.services import api_token_create, api_token_revoke
+
+    token, _ = api_token_create(site, "control computer", by=users["administrator"])
+    api_token_revoke(token)
+    client.force_login(users[role])
+    assert client.get(f"/history/api.apitoken/record/{token.pk}/").status_code == status
+    assert client.get(f"/history/api.apitoken/record/{token.pk}/?export=csv").status_code == status
+
+
 @pytest.mark.parametrize("path", ["/admin/logbook/servicerecord/", "/admin/logbook/reading/"])
 def test_records_and_readings_cannot_be_changed_or_deleted_even_by_an_administrator(admin_client, path):
     from django.contrib import admin

@@ -15,6 +15,7 @@ from django.conf import settings
 from django.db import models
 from simple_history.models import HistoricalRecords
 
+from observatory_ops.access.roles import ADMINISTRATOR
 from observatory_ops.registry.models import Site
 
 
@@ -24,6 +25,8 @@ class ApiToken(models.Model):
         CALENDAR = "calendar", "Calendar subscription: reads the planned-work calendar only"
 
     history = HistoricalRecords()  # who changed what, when: see observatory_ops/archive
+    #: Who may read that history on its page (``archive.views.history``): administrators, as in the admin.
+    history_read_by = ADMINISTRATOR
     site = models.ForeignKey(Site, on_delete=models.PROTECT, related_name="api_tokens")
     name = models.CharField(max_length=100, help_text="What uses it, e.g. the control computer of the east dome.")
     purpose = models.CharField(max_length=10, choices=Purpose.choices, default=Purpose.CONTROL)

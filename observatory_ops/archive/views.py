@@ -2,7 +2,7 @@ from django.http import Http404
 from django.shortcuts import get_object_or_404, render
 
 from observatory_ops.access.decorators import requires
-from observatory_ops.access.roles import VIEWER
+from observatory_ops.access.roles import VIEWER, has_role
 from observatory_ops.exports import csv_response
 
 from .history import audited_model, changes
@@ -10,9 +10,11 @@ from .history import audited_model, changes
 
 @requires(VIEWER)
 def history(request, label, pk):
-    """Every change to one audited object; ``?export=csv`` downloads it, times as ISO 8601 in UTC."""
+    """Every change to one audited object; ``?export=csv`` downloads it, times as ISO 8601 in UTC. A model that
+    names a higher role in ``history_read_by`` (API tokens: administrators) shows its history to that role only; to
+    anyone else it is as if none were kept."""
     model = audited_model(label)
-    if model is None:
+    if model is None or not has_role(request.user, getattr(model, "history_read_by", VIEWER)):
         raise Http404("no history is kept for that kind of record")
     instance = get_object_or_404(model, pk=pk)
     entries = changes(instance)
