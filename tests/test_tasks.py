@@ -243,6 +243,25 @@ def test_the_digest_command_sends_now_whatever_the_hour(mailed_people, monkeypat
     assert site.digest_sent_on == dt.date(2026, 12, 2)
 
 
+def test_a_site_name_with_a_line_break_is_refused_and_one_stored_before_still_mails(mailed_people):
+    """A line break in a subject makes Django's mail refuse the message (BadHeaderError): the digest of a site so
+    named failed every hour. The name is refused now; one stored before is put on one line in the subject."""
+    from django.core.exceptions import ValidationError
+
+    from observatory_ops.registry.models import Site
+
+    site = site_in_use("newline")
+    site.name = "North dome\nBcc: someone@example.invalid"
+    with pytest.raises(ValidationError, match="one line"):
+        site.full_clean()
+    Site.objects.filter(pk=site.pk).update(name=site.name)  # as stored before the check
+    site.refresh_from_db()
+    planning.site_recompute(site)
+    assert digest.due_digest_send(site) == 2
+    assert all(m.subject.startswith("North dome Bcc: someone@example.invalid: ") for m in mail.outbox)
+    assert all("Bcc" not in m.message().keys() and m.bcc == [] for m in mail.outbox)
+
+
 def test_a_digest_lists_the_sites_today_even_when_its_states_are_from_yesterday(mailed_people):
     site = site_in_use("stale")
     planning.site_recompute(site, planning.site_today(site) - dt.timedelta(days=1))

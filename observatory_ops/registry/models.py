@@ -16,6 +16,13 @@ from observatory_ops.calc import night_of, windows
 from .catalogue import KIND_CHOICES, KINDS
 
 
+def validate_one_line(value: str) -> None:
+    """A name that heads a mail's subject and a page's title: one line, no control characters (a line break in a
+    subject makes the mail library refuse the whole message)."""
+    if any(ord(c) < 32 or ord(c) == 127 for c in value):
+        raise ValidationError("Write the name on one line, without tabs or other control characters.")
+
+
 def validate_time_zone(value: str) -> None:
     try:
         night_of.zone(value)
@@ -79,7 +86,7 @@ LOOK_AHEAD_RANGE_DAYS = (1, 365)
 
 class Site(models.Model):
     history = HistoricalRecords()  # who changed what, when: see observatory_ops/archive
-    name = models.CharField(max_length=120)
+    name = models.CharField(max_length=120, validators=[validate_one_line])
     slug = models.SlugField(unique=True)
     latitude_deg = models.FloatField(
         validators=[MinValueValidator(-90), MaxValueValidator(90)], help_text="Degrees, north positive, south negative."
