@@ -61,6 +61,13 @@ def _env_list(name: str, default: str = "") -> list[str]:
     return [item.strip() for item in os.environ.get(name, default).split(",") if item.strip()]
 
 
+# DEBUG is on unless turned off, for the README's two commands; a key of one's own says a deployment, where a
+# forgotten DEBUG=0 would show settings and code on every error page: refused rather than guessed.
+if os.environ.get("SECRET_KEY") and os.environ.get("DEBUG") is None:
+    raise RuntimeError(
+        "SECRET_KEY is set but DEBUG is not: write DEBUG=0 in a deployment's environment (README, Deployment), or "
+        "DEBUG=1 to develop with a key of your own."
+    )
 DEBUG = _env_flag("DEBUG", True)
 
 # A fixed key is acceptable only with DEBUG on and no key set (bandit B105 is accepted for this line).

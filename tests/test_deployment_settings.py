@@ -113,6 +113,14 @@ def test_check_deploy_passes_a_production_environment_and_warns_of_mail_left_pri
         assert run.returncode == 0 and "(planning.W001)" in run.stderr
 
 
+def test_a_key_of_ones_own_without_debug_said_is_refused_at_start_up():
+    """DEBUG defaults to on (the README's quick start); an environment file with a real key and no DEBUG line would
+    have served debug pages (settings and code to whoever meets an error). Refused, naming the fix."""
+    run = _check_deploy(DEBUG=None)
+    assert run.returncode != 0 and "SECRET_KEY is set but DEBUG is not: write DEBUG=0" in run.stderr
+    assert _check_deploy(DEBUG="1").returncode == 0  # said on purpose: a developer's own key
+
+
 def test_turning_off_the_https_redirect_or_hsts_gives_djangos_warnings_not_a_failure():
     """Both are allowed (README, Deployment: a proxy that redirects itself; HSTS off for a shared host). Django
     still warns (security.W008, security.W004), and `check --deploy` exits 0 on warnings."""
