@@ -21,6 +21,7 @@ can differ by a few tenths of a percent in reflectance. Metal films also age: th
 values.
 """
 
+import math
 from collections.abc import Sequence
 from dataclasses import dataclass
 from functools import cache
@@ -57,6 +58,11 @@ METALS: tuple[str, ...] = ("al", "ag")
 
 DEFAULT_BAND_NM: tuple[float, float] = (400.0, 1000.0)
 """A common science band (common practice, no published source)."""
+
+MAX_GRID_SIZE = 10_000
+"""Most wavelengths :func:`coating_curve` computes at once. Our own bound, no published source: it holds the default
+band at a 0.1 nm step (6,001) and aluminium's whole table at a 50 nm step, and keeps the calculator's page to about
+half a second, where an unbounded grid took minutes or more memory than there is."""
 
 
 @dataclass(frozen=True)
@@ -290,6 +296,44 @@ def band_mean(wavelength_nm: ArrayLike, reflectance: ArrayLike, weight: ArrayLik
     return float(trapezoid(values * weights, wavelength) / norm)
 
 
+def grid_size(from_nm: float, to_nm: float, step_nm: float) -> int:
+    """Number of wavelengths on the grid :func:`coating_curve` would build, counted without building it.
+
+    The grid runs from ``from_nm`` in steps of ``step_nm`` and always ends at ``to_nm`` (added when the step does
+    not land on it).
+
+    Parameters
+    ----------
+    from_nm, to_nm : float
+        Band edges in nm, finite, ``from_nm < to_nm``.
+    step_nm : float
+        Grid step in nm, finite and > 0.
+
+    Returns
+    -------
+    int
+        The number of wavelengths.
+
+    Raises
+    ------
+    ValueError
+        A band edge or the step that is not a finite number, a band whose start is not below its end, a step
+        not above zero.
+    """
+    if not (np.isfinite(from_nm) and np.isfinite(to_nm)):
+        raise ValueError(f"band edges must be finite numbers of nm; got {from_nm} to {to_nm}")
+    if not from_nm < to_nm:
+        raise ValueError(f"band start must be below its end; got {from_nm} to {to_nm} nm")
+    if not (np.isfinite(step_nm) and step_nm > 0):
+        raise ValueError(f"wavelength step must be a finite number > 0 nm; got {step_nm}")
+    intervals = (to_nm - from_nm) / step_nm
+    if not np.isfinite(intervals):
+        raise ValueError(f"a step of {step_nm:g} nm from {from_nm:g} to {to_nm:g} nm gives too many wavelengths")
+    steps = math.floor(intervals + 1e-9)
+    lands_on_end = to_nm - (from_nm + step_nm * steps) <= 1e-9 * step_nm
+    return steps + 1 if lands_on_end else steps + 2
+
+
 def coating_curve(
     metal: str,
     layers: Sequence[Layer],
@@ -300,8 +344,9 @@ def coating_curve(
 ) -> dict:
     """Reflectance curve of a fresh coating over a band, and its band mean.
 
-    The grid runs from ``from_nm`` in steps of ``step_nm`` and always ends at ``to_nm``. The default band,
-    400-1000 nm, is a common science band (common practice, no published source).
+    The grid runs from ``from_nm`` in steps of ``step_nm`` and always ends at ``to_nm`` (:func:`grid_size`), at
+    most :data:`MAX_GRID_SIZE` wavelengths. The default band, 400-1000 nm, is a common science band (common
+    practice, no published source).
 
     Parameters
     ----------
@@ -319,15 +364,20 @@ def coating_curve(
     -------
     dict
         ``{"band_mean": R, "curve": [{"wavelength_nm": W, "reflectance": R}, ...]}`` with plain floats.
+
+    Raises
+    ------
+    ValueError
+        As :func:`grid_size`; a grid of more than :data:`MAX_GRID_SIZE` wavelengths (refused before it is built);
+        as :func:`reflectance` (wavelengths outside the optical data).
     """
-    if not (np.isfinite(from_nm) and np.isfinite(to_nm) and from_nm < to_nm):
-        raise ValueError(f"band start must be below its end; got {from_nm} to {to_nm} nm")
-    if not (np.isfinite(step_nm) and step_nm > 0):
-        raise ValueError(f"wavelength step must be > 0 nm; got {step_nm}")
-    steps = int(np.floor((to_nm - from_nm) / step_nm + 1e-9))
-    grid = from_nm + step_nm * np.arange(steps + 1)
-    if to_nm - grid[-1] > 1e-9 * step_nm:
-        grid = np.append(grid, to_nm)
+    size = grid_size(from_nm, to_nm, step_nm)
+    if size > MAX_GRID_SIZE:
+        raise ValueError(
+            f"a step of {step_nm:g} nm from {from_nm:g} to {to_nm:g} nm gives {size:,} wavelengths; "
+            f"the limit is {MAX_GRID_SIZE:,}"
+        )
+    grid = np.append(from_nm + step_nm * np.arange(size - 1), to_nm)
     curve = reflectance(metal, layers, grid)
     weight = None
     if response is not None:

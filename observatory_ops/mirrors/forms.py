@@ -1,12 +1,13 @@
 import datetime as dt
+import math
 
 from django import forms
 
-from observatory_ops.calc.coating import MATERIALS, METALS, wavelength_range_nm
+from observatory_ops.calc.coating import MATERIALS, MAX_GRID_SIZE, METALS, grid_size, wavelength_range_nm
 from observatory_ops.calc.windows import RECOAT_PHASES, Phase
 from observatory_ops.registry.models import Subsystem
 
-from . import layers_text
+from . import layers_text, response_csv
 from .models import METAL_NAMES, TRAIN_KINDS, CleaningEvent, CoatingEvent, Mirror
 
 #: Wavelengths a single-wavelength measurement may be taken at: where the optical data of every coating
@@ -152,10 +153,72 @@ class CoatingForm(RecipeForm):
     field_order = ["coated_on", "metal", "layers", "note"]
 
 
+#: A band edge or step typed as nan, inf or a number too large for a float.
+_NOT_A_NUMBER = {"invalid": "Enter a finite number of nanometres, e.g. 400."}
+
+
+def _metal_ranges() -> str:
+    """Where each metal's optical data reach, for the band's help text: "Aluminium (Al) 0.12399 to 200,000 nm, ..."."""
+    return ", ".join(f"{METAL_NAMES[m]} {low:,g} to {high:,g} nm"
+                     for m in METALS for low, high in [wavelength_range_nm([m])])
+
+
 class CalculatorForm(RecipeForm):
-    from_nm = forms.FloatField(label="Band from (nm)", initial=400)
-    to_nm = forms.FloatField(label="Band to (nm)", initial=1000)
-    step_nm = forms.FloatField(label="Step (nm)", initial=10, min_value=0.1)
-    response = forms.FileField(
-        required=False, help_text="Optional CSV with columns wavelength_nm,weight: weights the band mean."
+    """The coating calculator's recipe, band and step. Refuses, before anything is computed, a band outside the
+    recipe's optical data and a grid of more than ``coating.MAX_GRID_SIZE`` wavelengths."""
+
+    from_nm = forms.FloatField(label="Band from (nm)", initial=400, error_messages=_NOT_A_NUMBER)
+    to_nm = forms.FloatField(
+        label="Band to (nm)", initial=1000, error_messages=_NOT_A_NUMBER,
+        help_text=f"Both edges within the optical data of the metal and its overcoats: {_metal_ranges()}; "
+        "overcoats narrow the band further.",
     )
+    step_nm = forms.FloatField(
+        label="Step (nm)", initial=10, min_value=0.1, error_messages=_NOT_A_NUMBER,
+        help_text=f"At least 0.1 nm; the curve holds at most {MAX_GRID_SIZE:,} wavelengths.",
+    )
+    response = forms.FileField(
+        required=False,
+        help_text=f"Optional CSV with columns wavelength_nm,weight, at most {response_csv.MAX_BYTES:,} bytes: "
+        "weights the band mean.",
+    )
+
+    def clean_response(self):
+        upload = self.cleaned_data["response"]
+        if upload and upload.size > response_csv.MAX_BYTES:
+            raise forms.ValidationError(
+                f"Response: the file is {upload.size:,} bytes; the limit is {response_csv.MAX_BYTES:,} bytes."
+            )
+        return upload
+
+    def clean(self):
+        cleaned = super().clean()
+        from_nm, to_nm, step_nm = (cleaned.get(name) for name in ("from_nm", "to_nm", "step_nm"))
+        if from_nm is None or to_nm is None:
+            return cleaned
+        if "metal" in cleaned and "layers" in cleaned:
+            low, high = wavelength_range_nm([cleaned["metal"], *(layer["material"] for layer in cleaned["layers"])])
+            for name, label, value in (("from_nm", "Band from", from_nm), ("to_nm", "Band to", to_nm)):
+                if not low <= value <= high:
+                    self.add_error(name, f"{label}: {value:g} nm is outside {low:,g} to {high:,g} nm, where the "
+                                         "optical data of this metal and its overcoats overlap.")
+        if from_nm >= to_nm:
+            self.add_error("to_nm", f"Band to: {to_nm:g} nm must be above band from ({from_nm:g} nm).")
+        if self.errors:  # the grid is counted only over a band known to be within the data
+            return cleaned
+        size = grid_size(from_nm, to_nm, step_nm)
+        if size > MAX_GRID_SIZE:
+            self.add_error("step_nm", (
+                f"Step: {step_nm:g} nm from {from_nm:g} to {to_nm:g} nm asks for {size:,} wavelengths; the limit is "
+                f"{MAX_GRID_SIZE:,}. Choose a step of {_step_within_limit_nm(to_nm - from_nm):g} nm or more, or a "
+                "narrower band."
+            ))
+        return cleaned
+
+
+def _step_within_limit_nm(span_nm: float) -> float:
+    """The finest round step (1, 2 or 5 times a power of ten) whose grid over ``span_nm`` stays within
+    ``MAX_GRID_SIZE`` wavelengths: a grid of step ``s`` has at most ``span_nm / s + 2`` of them."""
+    least = span_nm / (MAX_GRID_SIZE - 2)
+    decade = 10.0 ** math.floor(math.log10(least))
+    return next(m * decade for m in (1, 2, 5, 10) if m * decade >= least)

@@ -15,9 +15,10 @@ MAX_BYTES = 1024 * 1024
 
 
 def parse(data: bytes) -> tuple[np.ndarray, np.ndarray]:
-    """(wavelength_nm, weight) arrays; ValueError naming the line and the problem."""
+    """(wavelength_nm, weight) arrays; ValueError naming the line and the problem. ``data`` may be read only up to
+    one byte past ``MAX_BYTES``: a file longer than that is refused."""
     if len(data) > MAX_BYTES:
-        raise ValueError(f"the response file is {len(data):,} bytes; the limit is {MAX_BYTES:,}")
+        raise ValueError(f"the response file is over the limit of {MAX_BYTES:,} bytes")
     if b"\x00" in data:
         raise ValueError("the response file is not a text CSV file")
     try:
