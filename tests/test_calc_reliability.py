@@ -138,13 +138,24 @@ def test_the_reading_of_beta_follows_the_standard_interpretation():
 
 def test_a_units_record_becomes_times_between_failures_and_a_running_interval():
     # Failures at 120, 400 and 1000 hours of a unit with 1,300 hours in service (hand computation).
-    between, running = times_between_failures([400.0, 120.0, 1000.0], 1300.0)
+    between, running, entry = times_between_failures([400.0, 120.0, 1000.0], 1300.0)
     assert list(between) == [120.0, 280.0, 600.0]
-    assert running == 300.0
-    between, running = times_between_failures([], 800.0)
+    assert running == 300.0 and entry == 0.0
+    between, running, entry = times_between_failures([], 800.0)
     assert len(between) == 0 and running == 800.0
     with pytest.raises(ValueError, match="within the unit's 800 operating hours"):
         times_between_failures([900.0], 800.0)
+
+
+def test_a_unit_already_aged_when_its_record_starts_enters_its_first_interval_at_that_age():
+    """Hand computation: a unit 250 h past its last renewal when the record starts, failing at 120 and 400 h of the
+    record with 1,300 h in it: its first interval ends at age 370 h, entered at 250 h; the next is 280 h from new,
+    and the running one 900 h from new. With no failure, the running interval is entered at 250 h, at age 1,050 h."""
+    between, running, entry = times_between_failures([400.0, 120.0], 1300.0, age_at_start=250.0)
+    assert (list(between), running, entry) == ([370.0, 280.0], 900.0, 250.0)
+    assert tuple(times_between_failures([], 800.0, age_at_start=250.0))[1:] == (1050.0, 250.0)
+    with pytest.raises(ValueError, match="age at the start of the record must be 0 or more"):
+        times_between_failures([], 800.0, age_at_start=-1.0)
 
 
 def test_the_fits_mean_is_the_weibull_mean_scipy_gives():

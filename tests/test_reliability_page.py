@@ -226,6 +226,37 @@ def test_a_subsystem_with_neither_plans_nor_a_history_entry_counts_from_the_firs
     assert computers.operating_hours == 100 * 5.0  # every logged night, 5 open hours each
     assert computers.start_bases == FIRST_NIGHT
     assert computers.no_fit == "no failure to fit"
+    # Its age at the first logged night is not known: its running interval is not the fit's (the MTBF's hours, yes).
+    assert computers.unknown_age == ["T1: Old control PC"] and computers.running == []
+
+
+def test_a_subsystem_in_service_before_the_log_is_fitted_from_its_first_failure_seen(record, telescope, users, client):
+    """Fan E has been in service since 1 Dec 2025, before the log began on 1 Jan 2026: how long it had run by then
+    nobody knows. By hand (5 open hours a night, 100 nights): its failures on the nights of 20 Jan, 1 Mar and 31 Mar
+    come at 100, 300 and 450 h of the log. Its first interval (100 h counted, of an age not known) is left out of the
+    fit; then 200 and 150 h from new, and 50 h running since. The MTBF counts all: with the fixture's fans (1,155 h,
+    3 failures), T = 1,655 h, n = 6."""
+    fan_e = subsystem_create(telescope, "cooling_fans", "Fan E", counting_from=START,
+                             in_service_since=dt.date(2025, 12, 1))
+    for night in (dt.date(2026, 1, 20), dt.date(2026, 3, 1), dt.date(2026, 3, 31)):
+        _order(record, [fan_e], users["engineer"], night)
+    fans = next(k for k in site_reliability(record, TODAY).kinds if k.code == "cooling_fans")
+    assert (fans.failures, fans.operating_hours) == (6, pytest.approx(1655.0))
+    assert fans.mtbf.mtbf_hours == pytest.approx(1655.0 / 6)
+    assert fans.unknown_age == ["T1: Fan E"] and fans.delayed_entries == 0
+    assert sorted(fans.between) == [105.0, 150.0, 150.0, 200.0, 300.0]
+    assert sorted(fans.running) == [50.0, 155.0, 200.0, 245.0]
+    # lifelines.WeibullFitter on the same censored data (independent reference; every interval fitted from new).
+    reference = WeibullFitter().fit([105, 150, 150, 200, 300, 50, 155, 200, 245],
+                                    event_observed=[1, 1, 1, 1, 1, 0, 0, 0, 0])
+    assert fans.fit.beta == pytest.approx(reference.rho_, rel=1e-5)
+    assert fans.fit.eta_hours == pytest.approx(reference.lambda_, rel=1e-5)
+    assert fans.fit_inputs == ("between failures: 105, 150, 150, 200, 300 h; still running (censored): 50, 155, 200, "
+                               "245 h; first interval of unknown age left out: T1: Fan E")
+    client.force_login(users["viewer"])
+    page = client.get(reverse("site-reliability", args=[record.slug])).content.decode().replace("&#x27;", "'")
+    assert ("1 first interval (T1: Fan E) is left out of the fit, as its subsystem's hours before the log began are "
+            "not known.</span>") in page
 
 
 def test_a_failure_with_no_operating_hours_logged_says_the_mtbf_cannot_be_estimated(site, telescope, users, client):
@@ -460,7 +491,9 @@ def test_failures_with_no_counted_hours_before_them_are_left_out_of_the_mtbf_and
     By hand (5 open hours a night, log 1 Jan to 10 Apr 2026, 100 nights): fan D from 1 Feb, 69 nights, 345 h, its
     failure on the night of 10 Mar after 38 nights (190 h), running 155 h; fan E every logged night, 500 h, its
     failure on the night of 31 Mar after 90 nights (450 h), running 50 h; with the fixture's fans (1,155 h, failures
-    after 105, 150 and 300 h, running 155, 200 and 245 h): T = 2,000 h, n = 5, MTBF 400 h."""
+    after 105, 150 and 300 h, running 155, 200 and 245 h): T = 2,000 h, n = 5, MTBF 400 h.
+    Fan E's first interval (450 h counted) began before the log, at an age nobody knows: the MTBF counts its hours
+    and failure, the fit leaves that interval out (its running 50 h since, from new, stays)."""
     engineer = users["engineer"]
     fan_d = subsystem_create(telescope, "cooling_fans", "Fan D", counting_from=dt.date(2026, 2, 1))
     fan_e = subsystem_create(telescope, "cooling_fans", "Fan E", counting_from=START,
@@ -473,17 +506,19 @@ def test_failures_with_no_counted_hours_before_them_are_left_out_of_the_mtbf_and
         ("T1: Fan D", dt.date(2026, 1, 25), BEFORE_START), ("T1: Fan E", dt.date(2025, 12, 15), BEFORE_LOG),
     ]
     assert (fans.failures, fans.operating_hours, fans.zero_intervals) == (5, pytest.approx(2000.0), 0)
-    assert sorted(fans.between) == [105.0, 150.0, 190.0, 300.0, 450.0]
+    assert sorted(fans.between) == [105.0, 150.0, 190.0, 300.0]
     assert sorted(fans.running) == [50.0, 155.0, 155.0, 200.0, 245.0]
+    assert fans.unknown_age == ["T1: Fan E"] and fans.delayed_entries == 0
     # MTBF and its 90 % interval, quantiles from scipy.stats.chi2 (NIST/SEMATECH e-Handbook, chapter 8).
     assert fans.mtbf.mtbf_hours == pytest.approx(400.0)
     assert fans.mtbf.lower_hours == pytest.approx(2 * 2000.0 / stats.chi2.ppf(0.95, 12))
     assert fans.mtbf.upper_hours == pytest.approx(2 * 2000.0 / stats.chi2.ppf(0.05, 10))
     # The fit is of the failures kept (lifelines.WeibullFitter on the same censored data, independent reference).
-    reference = WeibullFitter().fit([105, 150, 190, 300, 450, 50, 155, 155, 200, 245],
-                                    event_observed=[1, 1, 1, 1, 1, 0, 0, 0, 0, 0])
+    reference = WeibullFitter().fit([105, 150, 190, 300, 50, 155, 155, 200, 245],
+                                    event_observed=[1, 1, 1, 1, 0, 0, 0, 0, 0])
     assert fans.fit.beta == pytest.approx(reference.rho_, rel=1e-5)
     assert fans.fit.eta_hours == pytest.approx(reference.lambda_, rel=1e-5)
+    assert "; first interval of unknown age left out: T1: Fan E; " in fans.fit_inputs
     assert fans.fit_inputs.endswith(
         "left out: T1: Fan D on the night of 25 Jan 2026 (before the day its hours are counted from: no counted hours "
         "lead up to it); T1: Fan E on the night of 15 Dec 2025 (before the first logged night: no logged hours lead "
@@ -577,7 +612,8 @@ def test_the_hours_fitted_leave_out_a_running_interval_of_no_hours_as_the_fit_do
     run 0 h since, which the fit leaves out (calc.reliability.weibull_fit); the list says what was fitted."""
     from observatory_ops.reliability.selectors import KindReliability
 
-    kind = KindReliability("cooling_fans", "Cooling fans", between=[100.0, 200.0, 300.0], running=[0.0, 495.0])
+    kind = KindReliability("cooling_fans", "Cooling fans", between=[100.0, 200.0, 300.0], between_entry=[0.0] * 3,
+                           running=[0.0, 495.0], running_entry=[0.0, 0.0])
     assert kind.fit_inputs == "between failures: 100, 200, 300 h; still running (censored): 495 h"
     assert reliability.weibull_fit(kind.between, kind.running).censored == 1
 

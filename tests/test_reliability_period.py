@@ -104,19 +104,67 @@ def test_a_periods_mtbf_is_its_hours_over_its_failures_by_hand(drives):
 def test_a_periods_failures_sit_at_its_hours_and_the_fit_is_of_them(drives):
     """Each failure at the hours of its subsystem's nights in the period up to it: A's repaired on 1 Mar failed the
     night before the period, at 0 h of it; A's of 20 Mar after 20 nights, 80 h; C's of 20 Apr after 124 + 20 x 6 =
-    244 h; B's of 10 May after 16 x 6 + 10 x 6 = 156 h. Between failures 0, 80, 156, 244 h; running A 490 - 80 = 410,
-    B 282 - 156 = 126, C 304 - 244 = 60 h. The 0 h interval counts in the MTBF and is left out of the fit."""
+    244 h; B's of 10 May after 16 x 6 + 10 x 6 = 156 h; running A 490 - 80 = 410, B 282 - 156 = 126, C 304 - 244 = 60 h.
+    Each unit's age when the period began, from the log (delayed entry): A had run the 49 nights of 11 Jan to 28 Feb
+    since its failure of the night of 10 Jan, 196 h; C all 59 nights of January and February since its hours began,
+    236 h; B entered service in the period, at 0 h. So the intervals, as (age at failure, age at entry): A (196, 196),
+    (80, 0); B (156, 0); C (244 + 236 = 480, 236). A's first, with no hours in the period, counts in the MTBF and is
+    left out of the fit."""
     fans = _fans(drives)
     assert [(f.subsystem, f.night, f.hours) for f in fans.failures_listed] == [
         ("T1: Fan A", dt.date(2026, 2, 28), 0.0), ("T1: Fan A", dt.date(2026, 3, 20), 80.0),
         ("T1: Fan C", dt.date(2026, 4, 20), 244.0), ("T1: Fan B", dt.date(2026, 5, 10), 156.0),
     ]
-    assert sorted(fans.between) == [0.0, 80.0, 156.0, 244.0] and fans.zero_intervals == 1
-    assert sorted(fans.running) == [60.0, 126.0, 410.0]
-    # lifelines.WeibullFitter on the same censored data (independent reference).
-    reference = WeibullFitter().fit([80, 156, 244, 60, 126, 410], event_observed=[1, 1, 1, 0, 0, 0])
+    assert sorted(zip(fans.between, fans.between_entry, strict=True)) == [(80.0, 0.0), (156.0, 0.0), (196.0, 196.0),
+                                                                          (480.0, 236.0)]
+    assert fans.zero_intervals == 1 and fans.delayed_entries == 1 and fans.unknown_age == []
+    assert sorted(fans.running) == [60.0, 126.0, 410.0] and fans.running_entry == [0.0, 0.0, 0.0]
+    # lifelines.WeibullFitter with entry= (left truncation) on the same censored data (independent reference).
+    reference = WeibullFitter().fit([80, 156, 480, 60, 126, 410], event_observed=[1, 1, 1, 0, 0, 0],
+                                    entry=[0, 0, 236, 0, 0, 0])
     assert fans.fit.beta == pytest.approx(reference.rho_, rel=1e-5)
     assert fans.fit.eta_hours == pytest.approx(reference.lambda_, rel=1e-5)
+    assert fans.fit_inputs.startswith(
+        "between failures: 80, 156, 480 (counted from 236) h; still running (censored): 60, 126, 410 h; left out: ")
+
+
+def test_in_a_period_a_unit_of_unknown_age_is_fitted_from_its_first_failure_seen(drives, telescope, users):
+    """Three fans in service since 1 Dec 2025, before the log began (1 Jan 2026): their hours before the log are not
+    known. F fails on the night of 25 Mar, at 25 x 4 = 100 h of the period: its interval up to then is of unknown age
+    and left out of the fit; it runs 490 - 100 = 390 h from new since. G failed on the night of 20 Jan, before the
+    period, and is new from then: at the period's start it had run the 39 nights of 21 Jan to 28 Feb, 156 h; it
+    fails on the night of 10 Apr, at 124 + 10 x 6 = 184 h of the period: age 340 h, entered at 156 h; it runs
+    490 - 184 = 306 h since. H never fails: its only interval is of unknown age, and it is not in the fit.
+    The MTBF still counts every hour and failure: T = 1,076 + 3 x 490 = 2,546 h, n = 4 + 2 = 6."""
+    by = users["engineer"]
+    before_the_log = dt.date(2025, 12, 1)
+    fan = {name: subsystem_create(telescope, "cooling_fans", f"Fan {name}", counting_from=LOG_START,
+                                  in_service_since=before_the_log) for name in "FGH"}
+    _order(drives, [fan["F"]], by, dt.date(2026, 3, 25))
+    _order(drives, [fan["G"]], by, dt.date(2026, 1, 20))
+    _order(drives, [fan["G"]], by, dt.date(2026, 4, 10))
+    fans = _fans(drives)
+    assert fans.operating_hours == pytest.approx(1076.0 + 3 * 490.0) and fans.failures == 6
+    assert fans.mtbf.mtbf_hours == pytest.approx(2546.0 / 6)
+    assert fans.unknown_age == ["T1: Fan F", "T1: Fan H"]
+    assert fans.fitted_between == [(80.0, 0.0), (156.0, 0.0), (340.0, 156.0), (480.0, 236.0)]
+    assert fans.fitted_running == [(60.0, 0.0), (126.0, 0.0), (306.0, 0.0), (390.0, 0.0), (410.0, 0.0)]
+    assert fans.delayed_entries == 2
+    # lifelines.WeibullFitter with entry= (left truncation) on the same data (independent reference).
+    reference = WeibullFitter().fit([80, 156, 340, 480, 60, 126, 306, 390, 410],
+                                    event_observed=[1, 1, 1, 1, 0, 0, 0, 0, 0], entry=[0, 0, 156, 236, 0, 0, 0, 0, 0])
+    assert fans.fit.beta == pytest.approx(reference.rho_, rel=1e-5)
+    assert fans.fit.eta_hours == pytest.approx(reference.lambda_, rel=1e-5)
+    assert fans.entry_note == (
+        "2 intervals were already under way when the count began and are fitted from the ages the log gives them "
+        "then; 2 first intervals (T1: Fan F, T1: Fan H) are left out of the fit, as their subsystems' hours before "
+        "the log began are not known.")
+
+
+def test_the_whole_record_as_a_period_fits_as_the_default_does(drives):
+    """A period from the first logged night: every unit's age at its start is 0 or not known, as by default."""
+    whole, default = _fans(drives, Period(LOG_START, TODAY)), _fans(drives, None)
+    assert (whole.fit, whole.delayed_entries, whole.unknown_age) == (default.fit, 0, [])
 
 
 def test_a_periods_maintenance_hours_are_the_service_done_in_it(drives):
@@ -175,6 +223,10 @@ def test_the_page_shows_the_periods_figures_and_says_which_period_they_cover(dri
     assert "1 service record in this period" in page
     assert "one put in service part way counts from the day its hours count from" in page
     assert "T1: Fan B: from 15 Apr 2026 (the in-service date given)" in page
+    # Beside the fit, how many intervals were fitted from the age they had when the period began (fan C's).
+    assert ("1 interval was already under way when the count began and is fitted from the age the log gives it "
+            "then.</span>") in page
+    assert "480 (counted from 236)" in page
     assert ("In the period, each from 01 Mar 2026 or its later day above, to 31 May 2026 or the day before it was "
             "retired") in page
     # The picture's words say the period, and its figures: T = 1,076 h, n = 4, bounds from scipy.stats.chi2.

@@ -1,11 +1,12 @@
 """Reliability of repairable subsystems: MTBF with its confidence interval, and a Weibull fit of the times
-between failures with right-censoring.
+between failures with right-censoring and delayed entry (left truncation).
 
 Times are operating hours (the site's dome-open hours), not calendar time. Pure: no Django, no clock.
 """
 from __future__ import annotations
 
 from dataclasses import dataclass
+from typing import NamedTuple
 
 import numpy as np
 from numpy.typing import ArrayLike
@@ -99,58 +100,133 @@ class WeibullFit:
         return float(self.eta_hours * special.gamma(1.0 + 1.0 / self.beta))
 
 
-def _profile(beta: float, times: np.ndarray, failed: np.ndarray) -> tuple[float, float]:
+def _exposure(beta: float, times: np.ndarray, log_ratios: np.ndarray) -> float:
+    """A(beta) = sum(t^beta - e^beta) over the intervals, each term as -t^beta expm1(beta ln(e/t)) (``log_ratios``
+    ln(e/t), minus infinity for e = 0), so that an interval observed for a short time past a long age keeps its
+    digits (a plain difference would cancel them) and a tiny e neither overflows nor underflows into 0 x inf."""
+    return float(-np.sum(times**beta * np.expm1(beta * log_ratios)))
+
+
+def _profile(beta: float, times: np.ndarray, log_ratios: np.ndarray, failed: np.ndarray) -> tuple[float, float]:
     """(profile log-likelihood, eta) at ``beta``; ``times`` scaled so their largest is 1 (no overflow)."""
     r = failed.sum()
-    total = np.sum(times**beta)
+    total = _exposure(beta, times, log_ratios)
     eta = (total / r) ** (1 / beta)
     log_likelihood = r * np.log(beta) - r * np.log(total / r) + (beta - 1) * np.log(times[failed]).sum() - r
     return float(log_likelihood), float(eta)
 
 
-def weibull_fit(failure_hours: ArrayLike, censored_hours: ArrayLike = (), confidence: float = CONFIDENCE) -> WeibullFit:
-    """Maximum-likelihood Weibull fit to times between failures, with right-censored times.
+def _hours(values: ArrayLike | None, like: np.ndarray, what: str) -> np.ndarray:
+    """``values`` as a flat float array the length of ``like`` (zeros when None), or a ValueError naming ``what``."""
+    if values is None:
+        return np.zeros(len(like))
+    hours = np.asarray(values, dtype=float).ravel()
+    if len(hours) != len(like):
+        raise ValueError(f"{what}: {len(hours)} ages at entry given for {len(like)} intervals")
+    return hours
+
+
+def weibull_fit(
+    failure_hours: ArrayLike,
+    censored_hours: ArrayLike = (),
+    confidence: float = CONFIDENCE,
+    *,
+    failure_entry_hours: ArrayLike | None = None,
+    censored_entry_hours: ArrayLike | None = None,
+) -> WeibullFit:
+    """Maximum-likelihood Weibull fit to times between failures, with right-censored times and delayed entry
+    (left truncation).
 
     Method
     ------
-    Likelihood of failures t_i and censored times c_j: prod f(t_i) * prod S(c_j), with
-    S(t) = exp(-(t/eta)^beta). Setting d/d eta = 0 gives eta^beta = sum(all t^beta) / r (r failures), and
-    the shape solves the profile equation
+    An interval that had already run e operating hours when observation of it began (its age at entry; 0 for one
+    observed from its start) is seen only because it lasted past e, so its contribution is conditioned on that.
+    The likelihood of failures at ages t_i and censored ages c_j, entered at e_i and e_j, is
 
-        sum(t^beta ln t) / sum(t^beta) - 1/beta - mean(ln t_i over failures) = 0
+        prod f(t_i) / S(e_i) * prod S(c_j) / S(e_j),   S(t) = exp(-(t/eta)^beta)
 
-    (sums over failures and censored times), which is increasing in beta, so a bracketing root finder
-    (Brent) gives the unique maximum. Cohen (1965), Technometrics 7, 579; NIST/SEMATECH e-Handbook,
-    chapter 8, Weibull maximum likelihood with censored data. The shape is compared with beta = 1 by the
-    likelihood-ratio test, 2 (l(beta) - l(1)) against chi2(confidence; 1) (Meeker and Escobar 1998,
-    Statistical Methods for Reliability Data, likelihood-based inference).
+    (Lawless 2003, Statistical Models and Methods for Lifetime Data, 2nd ed., chapter 2, left truncation;
+    Meeker and Escobar 1998, Statistical Methods for Reliability Data, chapter 11, truncated data; chapter numbers
+    from memory). Its log is
+
+        l = r ln beta - r beta ln eta + (beta - 1) sum(ln t_i) - A(beta) / eta^beta,   A(beta) = sum t^beta - sum e^beta
+
+    (r failures; the sums of A over every interval, failed or censored). Setting dl/d eta = 0 gives
+    eta^beta = A(beta) / r, and dl/d beta = 0 on that profile gives the shape's equation (derived here)
+
+        (sum t^beta ln t - sum e^beta ln e) / A(beta) - 1/beta - mean(ln t_i over failures) = 0,
+
+    with e^beta ln e = 0 for e = 0. With every e = 0 it is Cohen's (1965, Technometrics 7, 579) equation for
+    censored data (NIST/SEMATECH e-Handbook, chapter 8, Weibull maximum likelihood). The root is unique: since
+    t^beta - e^beta = beta * integral from ln e to ln t of exp(beta u) du, A(beta) = beta M(beta) with
+    M(beta) = integral of w(u) exp(beta u) du (w(u) the number of intervals under observation at log-age u), and
+    the left side is d ln M / d beta - mean(ln t_i), the mean of u under weights w(u) exp(beta u) less a constant:
+    strictly increasing in beta (its derivative is that weighting's variance), so the profile log-likelihood
+    -r ln M(beta) + beta sum(ln t_i) + const is strictly concave. As beta grows the left side tends to
+    ln(longest time) - mean(ln t_i), positive unless every failure came at the longest time; as beta falls to 0 it
+    tends to minus infinity when some interval entered at 0, but to a finite limit when every one entered late, which
+    can be positive: the likelihood then has no maximum at a positive shape, and the fit says so. A bracketing root
+    finder (Brent) then gives the maximum. The shape is compared with beta = 1 by the likelihood-ratio test,
+    2 (l(beta) - l(1)) against chi2(confidence; 1), both on the same truncated likelihood (at beta = 1 the
+    exponential with eta = sum(t - e) / r) (Meeker and Escobar 1998, likelihood-based inference).
 
     Parameters
     ----------
-    failure_hours : operating hours from the start of each interval to its failure, each > 0.
-    censored_hours : operating hours of intervals still running (or ended without failure). A censored
-        time of 0 carries no information and is left out.
+    failure_hours : the age (operating hours since the interval began) at each failure, each > 0.
+    censored_hours : the ages of intervals still running (or ended without failure). One observed for no hours
+        (its age no more than its age at entry, e.g. 0) carries no information and is left out.
+    failure_entry_hours, censored_entry_hours : each interval's age when its observation began, 0 or more and less
+        than its failure age (no more than its censored age); None: every one observed from 0.
     """
     failures = np.asarray(failure_hours, dtype=float).ravel()
     censored = np.asarray(censored_hours, dtype=float).ravel()
+    failure_entries = _hours(failure_entry_hours, failures, "failures")
+    censored_entries = _hours(censored_entry_hours, censored, "censored times")
     if len(failures) < MIN_FAILURES_FOR_FIT:
         raise ValueError(f"a Weibull fit needs at least {MIN_FAILURES_FOR_FIT} failures, got {len(failures)}")
     if not np.all(np.isfinite(failures)) or np.any(failures <= 0):
         raise ValueError("every time to failure must be a positive number of operating hours")
     if not np.all(np.isfinite(censored)) or np.any(censored < 0):
         raise ValueError("every censored time must be 0 or more operating hours")
-    censored = censored[censored > 0]
+    for entries, what in ((failure_entries, "failure"), (censored_entries, "censored time")):
+        bad = np.flatnonzero(~np.isfinite(entries) | (entries < 0))
+        if len(bad):
+            i = int(bad[0])
+            raise ValueError(f"{what} {i + 1}: its age at entry must be 0 or more operating hours, got {entries[i]}")
+    late = np.flatnonzero(failure_entries >= failures)
+    if len(late):
+        i = int(late[0])
+        raise ValueError(f"failure {i + 1}: at {failures[i]:g} h, not after its age at entry, {failure_entries[i]:g} h")
+    late = np.flatnonzero(censored_entries > censored)
+    if len(late):
+        i = int(late[0])
+        raise ValueError(
+            f"censored time {i + 1}: {censored[i]:g} h, less than its age at entry, {censored_entries[i]:g} h"
+        )
+    observed = censored > censored_entries
+    censored, censored_entries = censored[observed], censored_entries[observed]
     times = np.concatenate([failures, censored])
+    entries = np.concatenate([failure_entries, censored_entries])
     failed = np.concatenate([np.ones(len(failures), bool), np.zeros(len(censored), bool)])
     scale = times.max()
-    times = times / scale
-    mean_log_failure = np.log(times[failed]).mean()
+    times, entries = times / scale, entries / scale
+    log_times = np.log(times)
+    entered = entries > 0
+    # ln e where e > 0; e^beta ln e is 0 for e = 0, which a 0 here gives (0^beta x 0).
+    log_entries = np.log(entries, where=entered, out=np.zeros_like(entries))
+    log_ratios = np.where(entered, log_entries - log_times, -np.inf)
+    mean_log_failure = log_times[failed].mean()
 
     def slope(beta: float) -> float:
-        weights = times**beta
-        return float(np.sum(weights * np.log(times)) / weights.sum() - 1 / beta - mean_log_failure)
+        numerator = np.sum(times**beta * log_times) - np.sum(entries**beta * log_entries)
+        return float(numerator / _exposure(beta, times, log_ratios) - 1 / beta - mean_log_failure)
 
     low, high = 1e-3, 1.0
+    if slope(low) >= 0:
+        raise ValueError(
+            "the failures do not determine a Weibull shape: they come so soon after the ages at which their "
+            "intervals were first observed that the likelihood is greatest at a shape near 0 (below 0.001)"
+        )
     while slope(high) < 0:
         high *= 2
         if high > 1e4:
@@ -158,9 +234,15 @@ def weibull_fit(failure_hours: ArrayLike, censored_hours: ArrayLike = (), confid
                 "the failures do not determine a Weibull shape: every failure came at the longest time recorded"
             )
     beta = optimize.brentq(slope, low, high, xtol=1e-12, rtol=1e-12)
-    log_likelihood, eta = _profile(beta, times, failed)
-    at_random, _ = _profile(1.0, times, failed)
-    # The scaling of times shifts every log-likelihood by the same r * ln(scale); undo it for the caller.
+    log_likelihood, eta = _profile(beta, times, log_ratios, failed)
+    if not (np.isfinite(eta) and 0 < eta * scale < np.inf):
+        raise ValueError(
+            f"the failures do not determine a Weibull fit: the shape comes out at {beta:.2g}, so small that the "
+            "scale is no number of hours"
+        )
+    at_random, _ = _profile(1.0, times, log_ratios, failed)
+    # The scaling of times shifts every log-likelihood by the same r * ln(scale) (the S(e) terms do not move); undo
+    # it for the caller.
     shift = len(failures) * np.log(scale)
     lr = max(2 * (log_likelihood - at_random), 0.0)
     return WeibullFit(
@@ -187,27 +269,42 @@ def beta_reading(beta: float, differs_from_random: bool = True) -> str:
     return INFANT_MORTALITY if beta < 1 else WEAR_OUT
 
 
-def times_between_failures(failures_at_hours: ArrayLike, in_service_hours: float) -> tuple[np.ndarray, float]:
+class UnitRecord(NamedTuple):
+    """One unit's record as the fit takes it (``times_between_failures``)."""
+
+    between: np.ndarray  # the age at each failure, in order
+    running: float  # the age of the interval still running (right-censored)
+    entry: float  # the age of the first interval (the first failure's, or the running one's) when counting began
+
+
+def times_between_failures(
+    failures_at_hours: ArrayLike, in_service_hours: float, age_at_start: float = 0.0
+) -> UnitRecord:
     """One unit's record as times between failures and the running (censored) interval.
 
     Method
     ------
     Each repair is taken to return the unit to as good as new (a renewal process), so the first interval
-    runs from the start of service to the first failure and each next one from failure to failure; the
+    runs from the start of the record to the first failure and each next one from failure to failure; the
     interval since the last failure has not ended and is right-censored at ``in_service_hours``
-    (NIST/SEMATECH e-Handbook, chapter 8: repairable systems under the renewal assumption).
+    (NIST/SEMATECH e-Handbook, chapter 8: repairable systems under the renewal assumption). A unit that had
+    already run ``age_at_start`` hours since it was last new when the record starts enters observation at that
+    age: its first interval's age at its end counts those hours, and ``entry`` says so, for the fit's delayed
+    entry (``weibull_fit``); every later interval starts from new, at 0.
 
     Parameters
     ----------
-    failures_at_hours : the unit's operating hours (since it entered service) at each failure.
-    in_service_hours : its operating hours in service up to now (or to its retirement).
-
-    Returns
-    -------
-    (times between failures, in order; the censored running interval)
+    failures_at_hours : the unit's operating hours (since the record starts) at each failure.
+    in_service_hours : its operating hours in the record up to now (or to its retirement).
+    age_at_start : its operating hours since it was last new (since its last failure, or since it entered
+        service) when the record starts, 0 or more.
     """
     at = np.sort(np.asarray(failures_at_hours, dtype=float).ravel())
     if np.any(at < 0) or np.any(at > in_service_hours):
         raise ValueError(f"failures must lie within the unit's {in_service_hours:g} operating hours in service")
-    between = np.diff(np.concatenate([[0.0], at]))
-    return between, float(in_service_hours - (at[-1] if len(at) else 0.0))
+    if not np.isfinite(age_at_start) or age_at_start < 0:
+        raise ValueError(f"the unit's age at the start of the record must be 0 or more operating hours, got "
+                         f"{age_at_start}")
+    between = np.diff(np.concatenate([[-age_at_start], at]))
+    running = float(in_service_hours - (at[-1] if len(at) else -age_at_start))
+    return UnitRecord(between, running, float(age_at_start))

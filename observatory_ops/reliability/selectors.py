@@ -65,8 +65,9 @@ class Period:
     Each subsystem counts the nights of the period it was in service (the rules of the whole record, cut to the
     period): one put in service part way counts from the day its hours count from, one retired part way to the day it
     was retired; one retired before the period or put in service after it is not in it. Its hours in the period start
-    as from new at the period's first night (or the later day it entered service), as a subsystem in service before
-    the log began starts at the first logged night: the fit does not know its age then."""
+    at the period's first night (or the later day it entered service), at the age the log gives it then: the hours
+    since its last failure before the period, or since the day its hours count from; not known when neither lies
+    within the log (``site_reliability``)."""
 
     first: dt.date
     last: dt.date
@@ -149,13 +150,19 @@ class KindReliability:
     counted: int = 0  # subsystems whose hours count, retired ones included
     failures: int = 0
     operating_hours: float = 0.0
+    #: The intervals whose age is known: each failure's age (hours since the subsystem was last new) and, in
+    #: ``between_entry``, its age when its hours began to be counted (0 for most; more for the first interval in a
+    #: period); the same for each running interval. The fit conditions each on the age at entry (delayed entry).
     between: list[float] = field(default_factory=list)
+    between_entry: list[float] = field(default_factory=list)
     running: list[float] = field(default_factory=list)
+    running_entry: list[float] = field(default_factory=list)
+    #: The subsystems whose first interval the fit leaves out: it began before the log, so its age is not known.
+    unknown_age: list[str] = field(default_factory=list)
     hours_by_type: dict[str, float] = field(default_factory=lambda: dict.fromkeys(HOURS_COLUMNS, 0.0))
     mtbf: reliability.MtbfEstimate | None = None
     fit: reliability.WeibullFit | None = None
     no_fit: str = ""
-    zero_intervals: int = 0
     starts: list[Start] = field(default_factory=list)
     left_out: list[LeftOut] = field(default_factory=list)
     counted_failures: list[Failure] = field(default_factory=list)
@@ -166,13 +173,56 @@ class KindReliability:
         return sorted(self.counted_failures, key=lambda f: (f.night, f.order_number))
 
     @property
+    def fitted_between(self) -> list[tuple[float, float]]:
+        """(age at failure, age at entry) of each failure the fit takes: those with hours counted before them."""
+        return sorted((t, e) for t, e in zip(self.between, self.between_entry, strict=True) if t > e)
+
+    @property
+    def fitted_running(self) -> list[tuple[float, float]]:
+        """(age now, age at entry) of each running interval the fit takes: a subsystem repaired today has run 0 h
+        since, which tells the fit nothing (calc.reliability.weibull_fit)."""
+        return sorted((t, e) for t, e in zip(self.running, self.running_entry, strict=True) if t > e)
+
+    @property
+    def zero_intervals(self) -> int:
+        """Failures with no hours counted since the one before (or since the period began): not fitted."""
+        return len(self.between) - len(self.fitted_between)
+
+    @property
+    def delayed_entries(self) -> int:
+        """The intervals fitted from a known age above 0 at entry."""
+        return sum(e > 0 for _, e in self.fitted_between + self.fitted_running)
+
+    @property
+    def entry_note(self) -> str:
+        """What the page says beside the fit about the intervals' ages when their hours began to be counted."""
+        said = []
+        if self.delayed_entries == 1:
+            said.append("1 interval was already under way when the count began and is fitted from the age the log "
+                        "gives it then")
+        elif self.delayed_entries:
+            said.append(f"{self.delayed_entries} intervals were already under way when the count began and are "
+                        "fitted from the ages the log gives them then")
+        names = ", ".join(self.unknown_age)
+        if len(self.unknown_age) == 1:
+            said.append(f"1 first interval ({names}) is left out of the fit, as its subsystem's hours before the log "
+                        "began are not known")
+        elif self.unknown_age:
+            said.append(f"{len(self.unknown_age)} first intervals ({names}) are left out of the fit, as their "
+                        "subsystems' hours before the log began are not known")
+        return f"{'; '.join(said)}." if said else ""
+
+    @property
     def fit_inputs(self) -> str:
-        """The hours the Weibull fit was made from, as the page lists them so that anyone can fit them again, and
-        the failures left out of it."""
-        between = ", ".join(f"{t:,.0f}" for t in sorted(t for t in self.between if t > 0))
-        # A subsystem repaired today has run 0 h since: that tells the fit nothing (calc.reliability.weibull_fit).
-        running = ", ".join(f"{t:,.0f}" for t in sorted(t for t in self.running if t > 0))
-        text = f"between failures: {between or 'none'} h; still running (censored): {running or 'none'} h"
+        """The hours the Weibull fit was made from, as the page lists them so that anyone can fit them again (each
+        with the age it was first counted at, when above 0), and what was left out of it."""
+        def listed(intervals: list[tuple[float, float]]) -> str:
+            return ", ".join(f"{t:,.0f}" + (f" (counted from {e:,.0f})" if e else "") for t, e in intervals)
+
+        text = (f"between failures: {listed(self.fitted_between) or 'none'} h; "
+                f"still running (censored): {listed(self.fitted_running) or 'none'} h")
+        if self.unknown_age:
+            text += f"; first interval of unknown age left out: {', '.join(self.unknown_age)}"
         return f"{text}; {self.left_out_text}" if self.left_out else text
 
     @property
@@ -339,7 +389,8 @@ def site_reliability(site: Site, today: dt.date | None = None, period: Period | 
         key = UsageLog.key_for(logs, telescope_id, is_shared_enclosure(site, kind))
         own_first = logs[key].nights[0].astype(dt.date) if len(logs[key].nights) else None
         base = hours_before(key, max(start.day, first) if first else start.day)
-        total = max(hours_before(key, end) - base, 0.0)
+        counted_until = hours_before(key, end)
+        total = max(counted_until - base, 0.0)
         failed = []
         for failure in sorted(repaired, key=lambda f: (f.night, f.order_number)):
             reason = left_out_reason(failure.night, start, own_first, retired_on)
@@ -352,11 +403,37 @@ def site_reliability(site: Site, today: dt.date | None = None, period: Period | 
         # first day failed on the night before it: at 0 h of the period.
         at = [min(hours_before(key, f.night + dt.timedelta(days=1)) - base, total) for f in failed]
         row.counted_failures += [f._replace(hours=hours) for f, hours in zip(failed, at, strict=True)]
-        between, running = reliability.times_between_failures(at, total)
+        # Its age when its counted hours begin (renewal: new at its last failure, or on the day its hours count
+        # from): in a period, the log's hours from its last failure before the period, or from that day, to the
+        # period's first night; not known when that day lies before its log (its hours before the log are not
+        # logged) and no failure of its own came since.
+        before = [f for f in failed_at.get(pk, []) if period and f.repaired_on < first
+                  and not left_out_reason(f.night, start, own_first, retired_on)]
+        if before:
+            renewed = hours_before(key, max(f.night for f in before) + dt.timedelta(days=1))
+        elif start.basis != FIRST_NIGHT and own_first is not None and start.day >= own_first:
+            renewed = hours_before(key, start.day)
+        else:
+            renewed = None
+        age = None if renewed is None else max(min(base, counted_until) - min(renewed, counted_until), 0.0)
+        unit = reliability.times_between_failures(at, total, age or 0.0)
+        between = [(float(t), unit.entry if i == 0 else 0.0) for i, t in enumerate(unit.between)]
+        running = [(unit.running, 0.0 if between else unit.entry)]
+        if age is None:
+            # That first interval cannot be placed: observation of the unit starts at its first failure seen, and
+            # a unit with none seen (and hours counted) is not in the fit.
+            if between or unit.running > 0:
+                row.unknown_age.append(start.subsystem)
+            if between:
+                between = between[1:]
+            else:
+                running = []
         row.operating_hours += total
         row.failures += len(at)
-        row.between += [float(t) for t in between]
-        row.running.append(running)
+        row.between += [t for t, _ in between]
+        row.between_entry += [e for _, e in between]
+        row.running += [t for t, _ in running]
+        row.running_entry += [e for _, e in running]
 
     # Maintenance hours: the hours of the service records of the period, by default the last 12 months (a work
     # order's shared among the subsystems it names when it was finished), by the type of the order that wrote them, or
@@ -380,10 +457,12 @@ def site_reliability(site: Site, today: dt.date | None = None, period: Period | 
     shown = [row for row in kinds.values() if row.counted]
     for row in shown:
         row.mtbf = reliability.mtbf(row.operating_hours, row.failures)
-        positive = [t for t in row.between if t > 0]
-        row.zero_intervals = len(row.between) - len(positive)
+        positive = row.fitted_between
         try:
-            row.fit = reliability.weibull_fit(positive, row.running)
+            row.fit = reliability.weibull_fit(
+                [t for t, _ in positive], [t for t, _ in row.fitted_running],
+                failure_entry_hours=[e for _, e in positive], censored_entry_hours=[e for _, e in row.fitted_running],
+            )
         except ValueError as exc:
             if not positive:
                 row.no_fit = "no failure to fit"
