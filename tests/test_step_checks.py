@@ -678,7 +678,8 @@ def test_the_finished_paper_prints_each_tick_once_beside_its_line_with_who_and_w
     )  # once, beside step 1 (the point's tick, in the same minute, is beside the point)
     assert text.count(underway.step_list[0]) == 1
 
-    services.work_order_move(underway, "countersign", users["engineer"])
+    # Not the engineer, who took a tick back: someone with no hand in the work (services.countersign_refusal).
+    services.work_order_move(underway, "countersign", users["administrator"])
     underway.refresh_from_db()
     assert selectors.sheet(underway, "https://ops.example/wo/1/").confirmations == sheet.confirmations
 

@@ -127,21 +127,22 @@ def test_the_person_who_finished_gets_no_countersign_button_but_a_note_that_a_se
     order, users, client
 ):
     """Countersigning is a second person's (lifecycle.py; services.work_order_move refuses the one who finished):
-    that person's page offers no button the service would refuse, and says who countersigns instead."""
+    that person's page offers no button the service would refuse, and says why, as it says of any move held."""
     services.work_order_move(order, "issue", users["engineer"])
     services.work_order_move(order, "start", users["technician"])
     services.work_order_finish(order, users["technician"], 1.0, "ok", _all_readings(order, 0.6),
                                **_confirmed(order))
-    note = '<span class="muted" id="countersign-note">a second person countersigns</span>'
+    note = ("Not offered (Countersign (second person)): a second person must countersign: you finished this work "
+            "order yourself; and you started this work order.")
     client.force_login(users["technician"])
     page = client.get(order.get_absolute_url()).content.decode()
-    assert "Countersign (second person)" not in page and note in page
+    assert ">Countersign (second person)</button>" not in page and note in page
     client.force_login(users["engineer"])
     page = client.get(order.get_absolute_url()).content.decode()
-    assert ">Countersign (second person)</button>" in page and "countersign-note" not in page
+    assert ">Countersign (second person)</button>" in page and "Not offered" not in page
     services.work_order_move(order, "countersign", users["engineer"])
     client.force_login(users["technician"])
-    assert "countersign-note" not in client.get(order.get_absolute_url()).content.decode()  # nothing left to sign
+    assert "Not offered" not in client.get(order.get_absolute_url()).content.decode()  # nothing left to sign
 
 
 def test_parts_used_come_out_of_stock_and_low_stock_shows_on_the_dashboard(order, users, site, client):
@@ -588,7 +589,8 @@ def test_a_crew_member_cannot_countersign_the_work_they_did(order, users, client
     order.refresh_from_db()
     client.force_login(engineer)
     page = client.get(order.get_absolute_url()).content.decode()
-    assert "Countersign (second person)" not in page and 'id="countersign-note"' in page
+    assert ">Countersign (second person)</button>" not in page
+    assert "Not offered (Countersign (second person)): a second person must countersign: you are on the crew" in page
     with pytest.raises(services.Refused, match="you are on the crew that did the work"):
         services.work_order_move(order, "countersign", engineer)
     services.work_order_move(order, "countersign", users["administrator"])

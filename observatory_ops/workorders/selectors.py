@@ -329,6 +329,40 @@ def parts_unregistered(order: WorkOrder, items: list[WorkOrderItem] | None = Non
     return [f"{quantity:g} x {name}" for name, quantity in wanted.items()]
 
 
+def second_person_refusal(order: WorkOrder, user) -> str:
+    """Why ``user`` took part in the order's work and so may not countersign it, "" when they took none.
+
+    Countersigning is a second person's check of work they had no hand in (common practice, no published source):
+    not the one who finished it, nor anyone on its crew (``on_the_crew``), nor the one who started it (the first
+    state of its history that is underway: ``services.work_order_move`` records who made each move), nor anyone who
+    ticked a line of its checklist or took a tick back (``ChecklistTick.recorded_by``), for the finisher may leave
+    them off the crew. Every reason that holds is given. Four queries at most, whatever the order."""
+    reasons = []
+    if order.finished_by_id is not None and order.finished_by_id == user.pk:
+        reasons.append("you finished this work order yourself")
+    if on_the_crew(order, user):
+        reasons.append(_crew_why(order, user))
+    starter = (order.history.filter(state=State.UNDERWAY).order_by("history_date", "history_id")
+               .values_list("history_user_id", flat=True).first())
+    if starter is not None and starter == user.pk:
+        reasons.append("you started this work order")
+    ticks = set(order.ticks.filter(recorded_by=user).values_list("ticked", flat=True).distinct())
+    if True in ticks:
+        reasons.append("you ticked its lines")
+    elif ticks:
+        reasons.append("you took back a tick of its lines")
+    return "; and ".join(reasons)
+
+
+def _crew_why(order: WorkOrder, user) -> str:
+    """Why ``user``, on the crew of ``order`` (``on_the_crew``), is taken to have done its work."""
+    if order.crew_by_account:
+        return (f"you are on the crew that did the work: {person(order.finished_by)} chose your account on it when "
+                "finishing")
+    return (f"you are named on the crew that did the work (\"{crew_name_of(order, user)}\", typed when it was "
+            "finished before the crew was chosen by account, is your name)")
+
+
 def on_the_crew(order: WorkOrder, user) -> bool:
     """``user`` did the order's work with the person who finished it, so may not countersign it.
 

@@ -58,7 +58,7 @@ from .cautions import (
     is_lockout_step,
     needs_isolation,
 )
-from .lifecycle import TRANSITIONS
+from .lifecycle import TRANSITIONS, role_refusal
 from .models import (
     PART_QUANTITY_MAX,
     ChecklistTick,
@@ -75,7 +75,6 @@ from .models import (
 )
 from .selectors import (
     brake_air_vented,
-    crew_name_of,
     hazards_missing,
     hazards_of,
     isolation_gaps,
@@ -85,9 +84,9 @@ from .selectors import (
     latest_ticks,
     lift_inputs,
     moves_held,
-    on_the_crew,
     order_plans,
     register_part,
+    second_person_refusal,
     unticked_lines,
 )
 
@@ -525,8 +524,8 @@ def _check_move(order: WorkOrder, action: str, by) -> None:
             f"cannot {action} a work order that is {order.get_state_display()}; "
             f"it must be {' or '.join(str(State(s).label) for s in transition.sources)}"
         )
-    if not has_role(by, transition.role):
-        raise Refused(f"'{transition.label}' needs the {transition.role} role or above")
+    if why := role_refusal(order, action, by):
+        raise Refused(why)
 
 
 def work_order_move(order: WorkOrder, action: str, by, reason: str = "") -> WorkOrder:
@@ -571,10 +570,8 @@ def work_order_move(order: WorkOrder, action: str, by, reason: str = "") -> Work
         if order.lift_inputs:  # the cell mass it starts with stays its record, whatever the mirror's says later
             fields["lift_inputs"] = lift_inputs(order)
     elif action == "countersign":
-        if order.finished_by_id == by.pk:
-            raise Refused("a second person must countersign: you finished this work order yourself")
-        if on_the_crew(order, by):
-            raise Refused(f"a second person must countersign: {_on_the_crew_why(order, by)}")
+        if why := countersign_refusal(order, by):
+            raise Refused(why)
         fields.update(countersigned_at=now, countersigned_by=by)
     elif action == "withdraw":
         if not reason.strip():
@@ -588,13 +585,16 @@ def work_order_move(order: WorkOrder, action: str, by, reason: str = "") -> Work
     return order
 
 
-def _on_the_crew_why(order: WorkOrder, by) -> str:
-    """Why ``by``, on the crew of ``order`` (``selectors.on_the_crew``), is taken to have done its work."""
-    if order.crew_by_account:
-        return (f"you are on the crew that did the work: {person(order.finished_by)} chose your account on it when "
-                "finishing")
-    return (f"you are named on the crew that did the work (\"{crew_name_of(order, by)}\", typed when it was finished "
-            "before the crew was chosen by account, is your name)")
+def countersign_refusal(order: WorkOrder, by) -> str:
+    """Why ``by`` may not countersign ``order`` as it stands, "" when they may, in the words ``work_order_move``
+    refuses it with: the role it needs (``lifecycle.role_refusal``: the engineer's when its isolation answer is put to
+    review), then the second person's rule (``selectors.second_person_refusal``). The order's page leaves the button
+    out and says why."""
+    if why := role_refusal(order, "countersign", by):
+        return why
+    if why := second_person_refusal(order, by):
+        return f"a second person must countersign: {why}"
+    return ""
 
 
 def crew_member_problem(member, by) -> str:

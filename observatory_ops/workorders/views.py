@@ -128,12 +128,12 @@ def work_order_detail(request, pk):
     unrecorded = selectors.hazards_unrecorded(order, items)
     points = selectors.isolation_points(order, items)
     phase = selectors.recoat_phase(order) if order.state in (State.FINISHED, State.COUNTERSIGNED) else None
-    # Who finished the work, or was on its crew, may not countersign it (services.work_order_move): no button they
-    # can't use.
-    own_work = (order.finished_by_id is not None and order.finished_by_id == request.user.pk
-                or selectors.on_the_crew(order, request.user))
-    # Moves refused as the order stands (no planned date, a lift that stands in the way): no buttons, and why.
+    # Moves refused as the order stands (no planned date, a lift that stands in the way), and a countersign refused to
+    # this person (one who took part in the work; a technician, when the isolation answer is put to the engineer):
+    # no buttons, and why.
     held = selectors.moves_held(order, unrecorded)
+    if order.state == State.FINISHED and (why := services.countersign_refusal(order, request.user)):
+        held["countersign"] = [why]
     held_notes: dict[str, list[str]] = {}
     for t in available(order.state):
         if has_role(request.user, t.role):
@@ -179,9 +179,7 @@ def work_order_detail(request, pk):
             "cell_record": selectors.lift_cell_record(order) if figures else "",
             # An order behind its subsystems' hazards is neither issued nor started (services.work_order_move).
             "moves": [t for t in available(order.state) if t.action != "finish" and has_role(request.user, t.role)
-                      and not (missing and t.action in ("issue", "start")) and t.action not in held
-                      and not (own_work and t.action == "countersign")],
-            "countersign_by_another": own_work and order.state == State.FINISHED,
+                      and not (missing and t.action in ("issue", "start")) and t.action not in held],
             "moves_held": [(", ".join(labels), reason) for reason, labels in held_notes.items()],
             "can_finish": order.state == State.UNDERWAY and has_role(request.user, TECHNICIAN),
             "editable": editable,
@@ -278,7 +276,8 @@ def work_order_move(request, pk, action):
     if request.method != "POST":
         return HttpResponseNotAllowed(["POST"])
     order = _order(pk)
-    if action == "countersign" and request.POST.get("asked") != "confirmed" and order.state == State.FINISHED:
+    if (action == "countersign" and request.POST.get("asked") != "confirmed" and order.state == State.FINISHED
+            and not services.countersign_refusal(order, request.user)):  # asked only of someone who may
         if record := _isolation_record(order):
             if record["review"]:
                 return render(request, "workorders/countersign_question.html", {"order": order, "record": record})
