@@ -196,6 +196,8 @@ def test_lifting_rows_show_the_inputs_the_density_and_its_source_and_the_formula
     assert rows["Leg angle from horizontal a"] == "60 deg (load factor 1 / sin a = 1.155)"
     tension = next(value for label, value in rows.items() if label.startswith("Tension per bearing leg T = W / (n"))
     assert tension.startswith("87.7 kg")
+    # 87.7 kg x standard gravity 9.80665 m/s² (3rd CGPM, 1901) = 860 N: the force the kilograms stand for.
+    assert tension.endswith("as a force 860 N")
 
 
 def test_a_density_recalled_from_memory_says_so():

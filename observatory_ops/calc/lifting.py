@@ -18,6 +18,7 @@ from dataclasses import dataclass, replace
 
 import astropy.units as u
 import numpy as np
+from astropy import constants
 
 CRC_HANDBOOK = "CRC Handbook of Chemistry and Physics"
 
@@ -253,6 +254,12 @@ class LiftFigures:
     margin: float | None
     warnings: tuple[str, ...]
     checks: tuple[str, ...]
+
+    @property
+    def leg_tension_n(self) -> float:
+        """The tension per bearing leg as a force in newtons: its kilograms times standard gravity, g0 = 9.80665
+        m/s² (3rd CGPM, 1901; ``astropy.constants.g0``)."""
+        return float((self.leg_tension_kg * u.kg * constants.g0).to_value(u.N))
 
     @property
     def over_limit(self) -> bool:

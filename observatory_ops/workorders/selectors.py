@@ -1245,8 +1245,10 @@ def lift_rows(figures: lifting.LiftFigures, inputs: dict | None = None) -> list[
          f"{figures.legs_rigged} / {figures.legs_bearing}"),
         ("Leg angle from horizontal a",
          f"{figures.angle_deg:g} deg (load factor 1 / sin a = {figures.load_factor:.3f})"),
-        ("Tension per bearing leg T = W / (n sin a), W the whole load above (ASME B30.9)",
-         f"{figures.leg_tension_kg:,.1f} kg ({figures.leg_tension_lb:,.1f} lb)"),
+        ("Tension per bearing leg T = W / (n sin a), W the whole load above (ASME B30.9), as a load in kg, the way "
+         "sling tags rate their working load limit",
+         f"{figures.leg_tension_kg:,.1f} kg ({figures.leg_tension_lb:,.1f} lb); "
+         f"as a force {figures.leg_tension_n:,.0f} N"),
     ]
     if figures.wll_kg is not None:
         rows.append(("Working load limit per leg (entered)", f"{figures.wll_kg:,.1f} kg"))
