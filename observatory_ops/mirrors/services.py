@@ -1092,6 +1092,17 @@ def recoat_reason(state: MirrorForecast, starts_on: dt.date, ends_on: dt.date) -
     return f"Reflectance forecast to reach {line} on {state.crossing:%d %b %Y} ({band}); {window}"
 
 
+#: A recoat phase order's estimated hours for each day of its phase: one person's working day (our own planning
+#: figure, no published source); the engineer edits the estimate where the crew or the plant's hours differ.
+PHASE_DAY_HOURS = 8.0
+
+
+def phase_estimate_basis(phase: windows.Phase) -> str:
+    """Where a recoat phase order's estimated hours come from, as its page and paper say beside them."""
+    days = f"{phase.days} day{'s' if phase.days != 1 else ''}"
+    return f"{days} of the phase x {PHASE_DAY_HOURS:g} h, one person's working day (our own planning figure)"
+
+
 def recoat_plan_create(
     mirror: Mirror, starts_on: dt.date, phases: list[windows.Phase], cost: float, by
 ) -> RecoatPlan:
@@ -1133,7 +1144,8 @@ def recoat_plan_create(
                     site=subsystem.telescope.site, telescope=subsystem.telescope,
                     title=f"Recoat {subsystem.telescope.name} {subsystem.name}: {phase.name}",
                     planned_date=dates["first"],
-                    estimated_hours=8.0 * phase.days, steps=_phase_steps(subsystem, hazards, work, brakes),
+                    estimated_hours=PHASE_DAY_HOURS * phase.days, estimate_basis=phase_estimate_basis(phase),
+                    steps=_phase_steps(subsystem, hazards, work, brakes),
                     tools="\n".join(work.tools), hazards=hazards, at_telescope=work.at_telescope, recoat_phase=kind,
                     lift_inputs=_phase_lift(mirror, work) if "suspended_load" in hazards else None,
                     created_by=by,

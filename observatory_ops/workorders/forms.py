@@ -106,6 +106,12 @@ class WorkOrderEditForm(forms.ModelForm):
             .distinct().order_by("first_name", "last_name", "username")
         )
 
+    def save(self, commit=True):
+        # The engineer's own figure now: what the estimate was made from no longer holds.
+        if "estimated_hours" in self.changed_data:
+            self.instance.estimate_basis = ""
+        return super().save(commit)
+
     def clean_planned_date(self):
         planned = self.cleaned_data["planned_date"]
         if planned is None and "planned_date" in self.changed_data and self.instance.state == State.ISSUED:

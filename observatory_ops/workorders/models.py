@@ -77,6 +77,11 @@ class WorkOrder(models.Model):
             ),
         ],
     )
+    estimate_basis = models.TextField(
+        blank=True, editable=False,
+        help_text="Where the estimated hours came from when the order was made (the plans' own estimates, a recoat "
+                  "phase's days); emptied when an engineer edits the estimate.",
+    )
     steps = models.TextField(blank=True, help_text="One step per line.")
     tools = models.TextField(blank=True, help_text="One tool per line.")
     hazards = models.JSONField(default=list, blank=True)

@@ -1297,6 +1297,7 @@ def sheet(order: WorkOrder, url: str) -> sheet_.Sheet:
         issued_on=order.issued_at.astimezone(zone).date() if order.issued_at else None,
         assignee=person(order.assignee),
         estimated_hours=order.estimated_hours,
+        estimate_basis=order.estimate_basis,
         # Named as the page names them, subsystem and plan: two subsystems' alike plans stay apart on paper.
         why=tuple(
             f"{where(i.subsystem)}: {i.plan.name}: {i.why}" if i.plan else f"{where(i.subsystem)}: {i.why}"

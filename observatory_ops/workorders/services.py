@@ -387,6 +387,14 @@ def _shared_once(run: list[tuple[ServicePlan, str]], labels: dict[int, str], sev
 TITLE_MAX = 200
 
 
+def estimate_basis_of_plans(plans: Sequence[ServicePlan]) -> str:
+    """Where an order's estimated hours come from when it is made from the due list: its plans' own estimates,
+    added up, as the page and the paper say beside them."""
+    if len(plans) == 1:
+        return "the plan's own estimate"
+    return "the plans' own estimates, " + " + ".join(f"{p.estimated_hours:g} h" for p in plans)
+
+
 def _title(labels: list[str]) -> str:
     """The plans' labels joined with "; ", as many whole ones as fit in ``TITLE_MAX``, then "and N more": never cut
     in the middle of a word."""
@@ -426,6 +434,7 @@ def work_order_from_due(plans: Sequence[ServicePlan], by, planned_date: dt.date 
             order_type=WorkOrder.Type.CONDITION_BASED if condition_based else WorkOrder.Type.PREVENTIVE,
             planned_date=planned_date,
             estimated_hours=sum(p.estimated_hours for p in plans),
+            estimate_basis=estimate_basis_of_plans(plans),
             steps=_steps_for(plans, labels, hazards),
             tools="\n".join(tools),
             hazards=hazards,

@@ -142,6 +142,7 @@ class Sheet:
     findings: str = ""
     generated_at: datetime | None = None
     actual_hours: float | None = None
+    estimate_basis: str = ""  # where the estimated hours came from (``WorkOrder.estimate_basis``), "" when entered
     performed_by: str = ""
     performed_on: date | None = None
     checked_by: str = ""
