@@ -907,6 +907,83 @@ def parts_to_count(site: Site) -> list[tuple[Part, list[PartUse]]]:
     return list(found.values())
 
 
+@dataclass(frozen=True)
+class OpenPlanned:
+    """What the orders still to do (``TO_DO``: draft, issued, underway) plan of one part and have not yet recorded as
+    used (``PartUse.quantity_used`` empty). Finishing takes what was used from the register, so a finished order's
+    lines are in ``Part.quantity_on_hand`` already and are not counted again; a withdrawn order's are not counted.
+    ``lines``: those part lines, each with its order, oldest order first."""
+
+    part: Part
+    lines: tuple[PartUse, ...]
+
+    @property
+    def planned(self) -> float:
+        """The open orders' planned quantities added up."""
+        return sum(line.quantity_planned for line in self.lines)
+
+    @property
+    def free(self) -> float:
+        """In stock less ``planned``: below zero when the open orders plan more than the register holds."""
+        return self.part.quantity_on_hand - self.planned
+
+    @property
+    def short_by(self) -> float:
+        """How much more the open orders plan than the register holds (0 when it holds enough)."""
+        return max(0.0, -self.free)
+
+
+def parts_planned_open(parts: QuerySet[Part]) -> dict[int, OpenPlanned]:
+    """``OpenPlanned`` of each of ``parts``, by part id in the queryset's order (a part no open order plans has no
+    lines): the parts register's planned and free columns, and the other orders on an order's page. Two queries (the
+    parts, and the open orders' lines of them), whatever the number of parts and orders."""
+    found: dict[int, tuple[Part, list[PartUse]]] = {part.pk: (part, []) for part in parts}
+    lines = (
+        PartUse.objects.filter(part__in=parts, work_order__state__in=TO_DO, quantity_used__isnull=True,
+                               quantity_planned__gt=0)
+        .select_related("work_order").order_by("work_order_id", "pk")
+    )
+    for line in lines:
+        part, its_lines = found[line.part_id]
+        line.part = part  # the one already read
+        its_lines.append(line)
+    return {pk: OpenPlanned(part, tuple(its_lines)) for pk, (part, its_lines) in found.items()}
+
+
+@dataclass(frozen=True)
+class PartRow:
+    """One part line on an order's page, with ``open_planned`` (``parts_planned_open``) while the order is still to
+    do and the line not yet used; None otherwise (a finished order's parts are already taken from the stock)."""
+
+    use: PartUse
+    open_planned: OpenPlanned | None
+
+    @property
+    def others(self) -> tuple[PartUse, ...]:
+        """The other open orders' lines of the part."""
+        lines = self.open_planned.lines if self.open_planned else ()
+        return tuple(line for line in lines if line.work_order_id != self.use.work_order_id)
+
+    @property
+    def others_planned(self) -> float:
+        return sum(line.quantity_planned for line in self.others)
+
+    @property
+    def open_orders_short(self) -> bool:
+        """This order and the others together plan more than the register holds (this order alone is "short of the
+        planned" on the page)."""
+        return bool(self.others) and self.open_planned.short_by > 0
+
+
+def part_rows(order: WorkOrder, uses: Sequence[PartUse]) -> list[PartRow]:
+    """The rows of an order's parts table (``uses``: its part uses, with their parts): what other open orders plan
+    of each part still to use, and whether all of them together plan more than is held. Two queries, none when the
+    order is not still to do or has used its parts."""
+    still_to_use = [use.part_id for use in uses if use.quantity_used is None] if order.state in TO_DO else []
+    planned = parts_planned_open(Part.objects.filter(pk__in=still_to_use)) if still_to_use else {}
+    return [PartRow(use, planned.get(use.part_id) if use.quantity_used is None else None) for use in uses]
+
+
 def work_done_on(order: WorkOrder) -> dt.date | None:
     """The day a finished order's work was done, as the finish form gave it: the date of the service records it
     wrote (``services.work_order_finish``); None before it is finished."""

@@ -168,7 +168,7 @@ def work_order_detail(request, pk):
             "no_isolation_needed": selectors.order_isolation_statement(order, missing, unrecorded),
             "readings": readings,
             "beyond_limit": [r for r in readings if r.recorded_beyond_limit],
-            "part_uses": part_uses,
+            "part_rows": selectors.part_rows(order, part_uses),
             "records": order.service_records.select_related("subsystem"),
             "work_done_on": selectors.work_done_on(order),
             "recoat_phase": phase,
@@ -607,7 +607,8 @@ def _part_list(request, site: Site, refused: tuple[int, PartCountForm] | None = 
     ]
     return render(
         request, "workorders/parts.html",
-        {"site": site, "parts": Part.objects.filter(site=site), "to_count": to_count,
+        {"site": site, "rows": selectors.parts_planned_open(Part.objects.filter(site=site)).values(),
+         "to_count": to_count,
          "counting": {part.pk for part, _, _ in to_count}, "can_count": has_role(request.user, ENGINEER)},
     )
 
