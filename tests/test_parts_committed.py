@@ -136,3 +136,18 @@ def test_the_register_reads_a_fixed_number_of_queries_whatever_the_number_of_ord
             services.part_add(order, part, 1)
             services.part_add(order, cylinder, 1)
     assert _register_queries(client, site) == few
+
+
+def test_the_dashboard_lists_a_part_the_open_orders_plan_more_of_than_is_held(two_orders, cylinder, site, users,
+                                                                              client):
+    """Not only parts at their reorder point: one held above it but planned beyond it is listed, short by how much."""
+    Part.objects.filter(pk=cylinder.pk).update(reorder_point=0)  # above its reorder point now: not "low"
+    Part.objects.create(site=site, name="Drive roller wipes", unit="pack", quantity_on_hand=12, reorder_point=5)
+    client.force_login(users["viewer"])
+    page = _page(client, f"/sites/{site.slug}/")
+    panel = page[page.index("Spare parts low"):page.index("All spare parts")].replace(" :", ":")
+    assert f"{CO2}: 1 cylinder left; 2 cylinders planned on open orders: short by 1 cylinder" in panel
+    assert "Drive roller wipes" not in panel and "reorder at" not in panel
+    services.work_order_move(two_orders[1], "withdraw", users["engineer"], reason="Planned twice.")
+    panel = _page(client, f"/sites/{site.slug}/")
+    assert CO2 not in panel[panel.index("Spare parts low"):panel.index("All spare parts")]

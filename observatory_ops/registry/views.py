@@ -64,7 +64,7 @@ def site_dashboard(request, slug):
             "bare_telescopes": [t for t, nodes, _ in telescopes if not nodes],
             "last_nights": logbook_selectors.last_nights(site),
             "recent_service": planning_selectors.recent_service(site)[:8],
-            "low_stock": workorder_selectors.low_stock(site),
+            "parts_to_see_to": workorder_selectors.parts_low_or_short(site),
             "telescopes_out": workorder_selectors.telescopes_out([site]).values(),
             "downtime": downtime,
             "open_work_orders": workorder_selectors.work_orders()

@@ -199,8 +199,11 @@ def standing_notes(order: WorkOrder) -> tuple[str, ...]:
     return ()
 
 
-def low_stock(site: Site) -> QuerySet[Part]:
-    return Part.objects.filter(site=site, quantity_on_hand__lte=F("reorder_point"))
+def parts_low_or_short(site: Site) -> list[OpenPlanned]:
+    """The site's parts to see to, for the dashboard: those at or below their reorder point, and those the orders
+    still to do plan more of than the register holds (``parts_planned_open``), by name. Two queries."""
+    found = parts_planned_open(Part.objects.filter(site=site).order_by("name"))
+    return [row for row in found.values() if row.part.low or row.short_by > 0]
 
 
 def cautions(order: WorkOrder, points: Sequence[IsolationPoint] | None = None) -> list[Caution]:
