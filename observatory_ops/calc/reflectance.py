@@ -34,6 +34,12 @@ from dataclasses import dataclass
 import numpy as np
 from numpy.typing import ArrayLike
 
+#: Why ``fit_decline`` can fit nothing from readings it accepts: each the start of its ValueError's message, named so
+#: that a caller telling the reasons apart (the mirror page's advice, ``mirrors.services``) follows any rewording.
+SAME_EXPOSURE = "the readings need at least two different exposures"
+RECOVERY_NOT_SEPARATED = "the readings cannot separate the cleaning recovery from the fresh reflectance"
+NO_DECLINE = "the fitted decline rate is zero"
+
 
 @dataclass(frozen=True)
 class DeclineFit:
@@ -167,19 +173,18 @@ def fit_decline(
     design = np.column_stack(columns)
     largest = np.abs(design).max(axis=0)
     if not largest.all():  # a column of zeros (every reading at zero exposure): nothing to scale or fit
-        raise ValueError("the readings need at least two different exposures")
+        raise ValueError(SAME_EXPOSURE)
     scaled = design / largest
     if np.linalg.matrix_rank(scaled) < n_params:
         if fits_recovery:
             raise ValueError(
-                "the readings cannot separate the cleaning recovery from the fresh reflectance: "
-                "need readings at different exposures before and after a cleaning"
+                f"{RECOVERY_NOT_SEPARATED}: need readings at different exposures before and after a cleaning"
             )
-        raise ValueError("the readings need at least two different exposures")
+        raise ValueError(SAME_EXPOSURE)
     solution = np.linalg.lstsq(design, measured, rcond=None)[0]
     if fits_recovery:
         if solution[1] == 0:
-            raise ValueError("the fitted decline rate is zero, so the cleaning recovery is undefined")
+            raise ValueError(f"{NO_DECLINE}, so the cleaning recovery is undefined")
         params = np.array([solution[0], solution[1], solution[2] / solution[1]])
     else:
         params = solution

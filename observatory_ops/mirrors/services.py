@@ -374,19 +374,19 @@ def reflectance_now(state: MirrorForecast) -> ReflectanceNow:
     )
 
 
-#: What to do next for each reason ``calc.reflectance.fit_decline`` gives for no fit (the start of its message, as
-#: ``MirrorForecast.fit_note`` quotes it), in plain words; ``_NEXT_MEASUREMENT`` for any other.
+#: What to do next for each reason ``calc.reflectance.fit_decline`` gives for no fit (its named reasons, which start
+#: the message ``MirrorForecast.fit_note`` quotes), in plain words; ``_NEXT_MEASUREMENT`` for any other.
 _NEXT_MEASUREMENT = ("Log a band reflectance measurement after some observing nights; take each on a different night "
                      "from the last, with observing (dust exposure) between them.")
 _FIT_ADVICE = (
-    ("the readings need at least two different exposures",
+    (reflectance.SAME_EXPOSURE,
      "The measurements so far were all taken at the same dust exposure: on one night, or with no observing logged "
      "between them. Log the next one on a later night, after some observing nights since the last."),
-    ("the readings cannot separate the cleaning recovery",
+    (reflectance.RECOVERY_NOT_SEPARATED,
      "The measurements cannot yet tell what a cleaning recovers from the fresh reflectance: log them on different "
      "nights with observing (dust exposure) between them, and at the next cleaning one just before it and one soon "
      "after."),
-    ("the fitted decline rate is zero",
+    (reflectance.NO_DECLINE,
      "The measurements show no decline yet: log another after more observing nights."),
 )
 
