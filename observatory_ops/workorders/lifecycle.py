@@ -4,8 +4,8 @@ draft --issue--> issued --start--> underway --finish--> finished --countersign--
 draft / issued / underway --withdraw--> withdrawn
 
 Finishing records hours, findings, readings and parts, and writes the service records. Countersigning
-is done by a second person: never one who took part in the work, by starting it, ticking its lines, finishing it or
-being on its crew (``selectors.second_person_refusal``); and an order finished with its energy isolation answered for
+is done by a second person: never one who took part in the work, by ticking its lines, finishing it or being on its
+crew (``selectors.second_person_refusal``); and an order finished with its energy isolation answered for
 as not done or not needed (``cautions.ISOLATION_REVIEW``) is countersigned by an engineer (``role_needed``). Some
 moves wait as an order stands, whoever asks (``selectors.moves_held``): issuing without a planned date, issuing or
 starting with a lift in the way (starting also while no working load limit is entered), and starting a recoat phase

@@ -336,19 +336,16 @@ def second_person_refusal(order: WorkOrder, user) -> str:
     """Why ``user`` took part in the order's work and so may not countersign it, "" when they took none.
 
     Countersigning is a second person's check of work they had no hand in (common practice, no published source):
-    not the one who finished it, nor anyone on its crew (``on_the_crew``), nor the one who started it (the first
-    state of its history that is underway: ``services.work_order_move`` records who made each move), nor anyone who
-    ticked a line of its checklist or took a tick back (``ChecklistTick.recorded_by``), for the finisher may leave
-    them off the crew. Every reason that holds is given. Four queries at most, whatever the order."""
+    not the one who finished it, nor anyone on its crew (``on_the_crew``), nor anyone who ticked a line of its
+    checklist or took a tick back (``ChecklistTick.recorded_by``), for the finisher may leave them off the crew.
+    Starting it is not a hand in the work: at a small site the engineer often starts the order the technician then
+    works, and barred for that, an order whose isolation answer is put to the engineer could have nobody left to
+    countersign it. Every reason that holds is given. Three queries at most, whatever the order."""
     reasons = []
     if order.finished_by_id is not None and order.finished_by_id == user.pk:
         reasons.append("you finished this work order yourself")
     if on_the_crew(order, user):
         reasons.append(_crew_why(order, user))
-    starter = (order.history.filter(state=State.UNDERWAY).order_by("history_date", "history_id")
-               .values_list("history_user_id", flat=True).first())
-    if starter is not None and starter == user.pk:
-        reasons.append("you started this work order")
     ticks = set(order.ticks.filter(recorded_by=user).values_list("ticked", flat=True).distinct())
     if True in ticks:
         reasons.append("you ticked its lines")

@@ -58,7 +58,7 @@ from .cautions import (
     is_lockout_step,
     needs_isolation,
 )
-from .lifecycle import TRANSITIONS, role_refusal
+from .lifecycle import TRANSITIONS, role_needed, role_refusal
 from .models import (
     PART_QUANTITY_MAX,
     ChecklistTick,
@@ -602,7 +602,9 @@ def countersign_refusal(order: WorkOrder, by) -> str:
     if why := role_refusal(order, "countersign", by):
         return why
     if why := second_person_refusal(order, by):
-        return f"a second person must countersign: {why}"
+        whom = role_needed(order, "countersign")
+        return (f"a second person must countersign: {why}. Someone else with the {whom} role or above who had no hand "
+                "in the work countersigns it")
     return ""
 
 
