@@ -55,3 +55,26 @@ def test_an_estimate_edited_by_the_engineer_is_theirs_alone(telescope, users, cl
     order.refresh_from_db()
     assert order.estimated_hours == 6 and order.estimate_basis == ""
     assert "own estimate" not in client.get(order.get_absolute_url()).content.decode()
+
+
+def test_an_estimate_edited_in_the_admin_is_theirs_alone_too(telescope, users, rf):
+    """The admin's change form (WorkOrderAdmin.save_model) clears the basis as the order's edit page does."""
+    from django.contrib import admin
+
+    from observatory_ops.workorders.models import WorkOrder
+
+    fans = subsystem_create(telescope, "cooling_fans", "Mirror cell fans", counting_from=dt.date(2026, 1, 1))
+    order = services.work_order_from_due([fans.plans.first()], users["engineer"])
+    request = rf.post("/admin/")
+    request.user = users["administrator"]
+    model_admin = admin.site._registry[WorkOrder]
+    form_class = model_admin.get_form(request, order)
+    unchanged = form_class(instance=order)
+    data = {name: ("" if value is None else value) for name, value in unchanged.initial.items()
+            if name in unchanged.fields}
+    for estimate, basis in ((order.estimated_hours, "the plan's own estimate"), (40, "")):
+        form = form_class({**data, "estimated_hours": estimate}, instance=order)
+        assert form.is_valid(), form.errors
+        model_admin.save_model(request, form.save(commit=False), form, change=True)
+        order.refresh_from_db()
+        assert (order.estimated_hours, order.estimate_basis) == (estimate, basis)

@@ -81,6 +81,11 @@ class WorkOrderAdmin(ChoicesNamedWithSite, SimpleHistoryAdmin):
         "crew_by_account", "hazards", "steps", "at_telescope",
     )
 
+    def save_model(self, request, obj, form, change):
+        if "estimated_hours" in form.changed_data:  # as on the order's edit page: the estimate is the engineer's now
+            obj.estimate_basis = ""
+        super().save_model(request, obj, form, change)
+
     def has_change_permission(self, request, obj=None):
         """Not for a closed order: Django then shows its page read only, its inline rows with no add, change or
         delete, and simple_history offers no revert. ``obj`` is a past version on the history's pages: the order's
