@@ -150,3 +150,12 @@ def test_grid_size_counts_the_wavelengths_coating_curve_computes(from_nm, to_nm,
     curve = coating.coating_curve("al", [], from_nm, to_nm, step_nm)["curve"]
     assert coating.grid_size(from_nm, to_nm, step_nm) == len(curve)
     assert curve[-1]["wavelength_nm"] == to_nm
+
+
+def test_the_lower_limit_as_printed_is_accepted_typed_back():
+    """The range is printed as 0.12399 nm (Rakic 1995's table in micrometres times 1000 gave 0.12399000000000002):
+    typed back, it is inside."""
+    low, _ = coating.wavelength_range_nm(["al"])
+    assert f"{low:g}" == "0.12399" and low == 0.12399
+    form = CalculatorForm(_band(from_nm="0.12399", to_nm="1000", step_nm="1"))
+    assert form.is_valid(), form.errors

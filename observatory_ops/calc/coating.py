@@ -92,7 +92,9 @@ def _valid_range_nm(source: _Source) -> tuple[float, float]:
     if source.formula_range_nm is not None:
         return source.formula_range_nm
     wavelength_nm = 1000.0 * _read_columns(source.file)["wavelength_um"]
-    return float(wavelength_nm[0]), float(wavelength_nm[-1])
+    # To 1e-9 nm: the table's micrometres times 1000 carry the float's last bit (0.12399000000000002 nm), and a range
+    # printed as 0.12399 must accept 0.12399 typed back.
+    return round(float(wavelength_nm[0]), 9), round(float(wavelength_nm[-1]), 9)
 
 
 def refractive_index(material: str, wavelength_nm: ArrayLike) -> np.ndarray:
