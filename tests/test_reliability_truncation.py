@@ -189,3 +189,10 @@ def test_failures_just_after_late_entries_determine_no_shape_and_say_so():
     with pytest.raises(ValueError, match="do not determine a Weibull shape: they come so soon after the ages"):
         weibull_fit([1001.0, 2001.0, 3001.0], [100000.0], failure_entry_hours=[1000.0, 2000.0, 3000.0],
                     censored_entry_hours=[5000.0])
+
+
+def test_a_fit_whose_scale_comes_out_at_no_usable_number_of_hours_is_refused():
+    """Each failure a hour after the age it was first seen at: the likelihood is greatest at a shape near 0.02, whose
+    scale is 1e-148 h (checked with scipy by a reviewer), which a page would print as "scale 0 h"."""
+    with pytest.raises(ValueError, match="no usable number of hours|shape near 0"):
+        weibull_fit([101, 202, 303], [], failure_entry_hours=[100, 200, 300])

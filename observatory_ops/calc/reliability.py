@@ -107,6 +107,11 @@ def _exposure(beta: float, times: np.ndarray, log_ratios: np.ndarray) -> float:
     return float(-np.sum(times**beta * np.expm1(beta * log_ratios)))
 
 
+#: A fitted scale below this fraction of the longest time recorded is no usable number of hours (a shape near 0 puts
+#: it at 1e-148 h, which a page would print as "0 h"): such a fit is refused.
+_SMALLEST_SCALE = 1e-6
+
+
 def _profile(beta: float, times: np.ndarray, log_ratios: np.ndarray, failed: np.ndarray) -> tuple[float, float]:
     """(profile log-likelihood, eta) at ``beta``; ``times`` scaled so their largest is 1 (no overflow)."""
     r = failed.sum()
@@ -235,10 +240,10 @@ def weibull_fit(
             )
     beta = optimize.brentq(slope, low, high, xtol=1e-12, rtol=1e-12)
     log_likelihood, eta = _profile(beta, times, log_ratios, failed)
-    if not (np.isfinite(eta) and 0 < eta * scale < np.inf):
+    if not (np.isfinite(eta) and eta > _SMALLEST_SCALE):
         raise ValueError(
             f"the failures do not determine a Weibull fit: the shape comes out at {beta:.2g}, so small that the "
-            "scale is no number of hours"
+            "scale is no usable number of hours"
         )
     at_random, _ = _profile(1.0, times, log_ratios, failed)
     # The scaling of times shifts every log-likelihood by the same r * ln(scale) (the S(e) terms do not move); undo
