@@ -133,7 +133,8 @@ def test_the_person_who_finished_gets_no_countersign_button_but_a_note_that_a_se
     services.work_order_finish(order, users["technician"], 1.0, "ok", _all_readings(order, 0.6),
                                **_confirmed(order))
     note = ("Not offered (Countersign (second person)): a second person must countersign: you finished this work "
-            "order yourself; and you started this work order.")
+            "order yourself. Someone else with the technician role or above who had no hand in the work "
+            "countersigns it.")
     client.force_login(users["technician"])
     page = client.get(order.get_absolute_url()).content.decode()
     assert ">Countersign (second person)</button>" not in page and note in page
@@ -200,6 +201,8 @@ def test_lift_command_json_and_checks(capsys):
     assert out["total_lb"] == pytest.approx(out["total_kg"] / 0.45359237, abs=0.002)  # 1 lb = 0.45359237 kg
     # ASME B30.9 load factor 1.155 at 60 degrees: T = W x 1.155 / 2.
     assert out["leg_tension_kg"] == pytest.approx(175.1 * 1.1547 / 2, rel=1e-3)
+    # The kg are a load (as sling tags rate limits); as a force, times standard gravity 9.80665 m/s² (3rd CGPM, 1901).
+    assert out["leg_tension_n"] == pytest.approx(out["leg_tension_kg"] * 9.80665, abs=0.1)
     assert out["checks"] and not any("is safe" in c for c in out["checks"])
 
 

@@ -45,6 +45,7 @@ class Command(BaseCommand):
             "load_factor": round(f.load_factor, 4),
             "leg_tension_kg": round(f.leg_tension_kg, 3),
             "leg_tension_lb": round(f.leg_tension_lb, 3),
+            "leg_tension_n": round(f.leg_tension_n, 1),  # the kg above are a load, as sling tags rate limits
             "margin": None if f.margin is None else round(f.margin, 3),
             "warnings": list(f.warnings),
             "checks": list(f.checks),
@@ -55,7 +56,7 @@ class Command(BaseCommand):
             self.stdout.write(json.dumps(result, indent=1))
             return
         for key in ("mirror_kg", "fixture_kg", "total_kg", "total_lb", "legs_bearing", "load_factor",
-                    "leg_tension_kg", "leg_tension_lb", "margin"):
+                    "leg_tension_kg", "leg_tension_lb", "leg_tension_n", "margin"):
             self.stdout.write(f"{key:<16} {result[key]}")
         for w in f.warnings:
             self.stdout.write(f"WARNING: {w}")
