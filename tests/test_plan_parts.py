@@ -89,7 +89,7 @@ def test_a_part_planned_beyond_the_stock_on_hand_is_marked_short(brakes, users, 
     client.force_login(users["technician"])
     page = " ".join(html.unescape(re.sub(r"<[^>]+>", " ", client.get(order.get_absolute_url()).content.decode()))
                     .split())
-    assert "2 (short of the planned 3)" in page
+    assert "2 each (short of the planned 3 each)" in page
 
 
 def test_a_part_is_named_until_it_is_reserved_on_the_order_or_the_work_is_done(brakes, users, site):
