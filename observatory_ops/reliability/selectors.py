@@ -221,8 +221,6 @@ class KindReliability:
 
         text = (f"between failures: {listed(self.fitted_between) or 'none'} h; "
                 f"still running (censored): {listed(self.fitted_running) or 'none'} h")
-        if self.unknown_age:
-            text += f"; first interval of unknown age left out: {', '.join(self.unknown_age)}"
         return f"{text}; {self.left_out_text}" if self.left_out else text
 
     @property
