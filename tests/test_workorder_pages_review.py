@@ -189,6 +189,6 @@ def test_the_dashboard_and_the_register_write_the_stock_with_its_unit(site, user
     Part.objects.create(site=site, name="Nitrogen", unit="cylinder", quantity_on_hand=0, reorder_point=2)
     client.force_login(users["viewer"])
     dashboard = html.unescape(client.get(f"/sites/{site.slug}/").content.decode())
-    assert "<strong>Nitrogen</strong>: 0 cylinders left (reorder at 2)" in dashboard
+    assert "<strong>Nitrogen</strong>: 0 cylinders left (reorder at 2 cylinders)" in dashboard
     register = html.unescape(client.get(f"/sites/{site.slug}/parts/").content.decode())
     assert "<td>0 cylinders " in register
