@@ -34,7 +34,7 @@ from observatory_ops.workorders.models import State, WorkOrder
 pytestmark = pytest.mark.django_db
 
 BUTTON = ">Countersign (second person)</button>"
-HELD = "Not offered (Countersign (second person)): "
+HELD = "Not offered: Countersign (second person). "
 
 
 @pytest.fixture
@@ -170,7 +170,7 @@ def test_one_who_ticked_its_lines_may_not_countersign_it_though_left_off_the_cre
     _finish(order, people)
     _refused_both_ways(client, order, people["imarrow"], "a second person must countersign: you ticked its lines")
     page = _page(client, order, people["imarrow"])
-    assert BUTTON not in page and f"{HELD}a second person must countersign: you ticked its lines." in page
+    assert BUTTON not in page and f"{HELD}A second person must countersign: you ticked its lines." in page
 
 
 def test_one_who_took_a_tick_back_may_not_countersign_it_either(order, people, client):  # noqa: F811

@@ -145,7 +145,7 @@ def test_it_is_issued_but_its_start_is_refused_with_where_to_enter_the_cell_mass
     client.force_login(users["technician"])
     page = client.get(removal.get_absolute_url())
     assert 'value="start"' not in page.content.decode()
-    assert f"Not offered (Start work): {refusal}." in _text(page)
+    assert f"Not offered: Start work. {refusal[:1].upper()}{refusal[1:]}." in _text(page)
 
 
 def test_with_neither_the_limit_nor_the_cell_entered_the_start_names_both_with_where_to_enter_them(uncelled):

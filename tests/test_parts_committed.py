@@ -4,7 +4,8 @@ Our own rules (no published source): an order still to do (draft, issued, underw
 recorded as used counts against the stock; a finished order's use is already taken from the register, and a
 withdrawn order's plan is dropped, so neither is counted. Both the order page and the parts register say what the
 other open orders plan, naming them, and warn when all of them together plan more than the register holds
-("free" = in stock less planned on open orders). The register page reads them in a fixed number of queries.
+("free" = in stock less planned on open orders); the paper, which shows no stock otherwise, says when the register
+was short as it was printed. The register page reads them in a fixed number of queries.
 
 Orders are those of tests/test_workorders.py (an axis drive with one AC isolation point); the part and its
 quantities are invented.
@@ -12,15 +13,17 @@ quantities are invented.
 from __future__ import annotations
 
 import html
+import io
 import re
 
 import pytest
 from conftest import parts_as_planned
 from django.db import connection
 from django.test.utils import CaptureQueriesContext
+from pypdf import PdfReader
 from test_workorders import PLANNED, _all_readings, _confirmed, drive, order  # noqa: F401  (fixtures, used by name)
 
-from observatory_ops.workorders import selectors, services
+from observatory_ops.workorders import pdf, selectors, services
 from observatory_ops.workorders.models import Part, PartUse, WorkOrder
 
 pytestmark = pytest.mark.django_db
@@ -49,6 +52,11 @@ def _page(client, url: str) -> str:
     return re.sub(r" ([,;.)])", r"\1", text)  # the space a tag left before punctuation
 
 
+def _paper(work_order) -> str:
+    document = pdf.render_sheet(selectors.sheet(work_order, "https://ops.example/wo/1/"))
+    return " ".join(" ".join(page.extract_text().split()) for page in PdfReader(io.BytesIO(document)).pages)
+
+
 def _register(client, site) -> str:
     return _page(client, f"/sites/{site.slug}/parts/")
 
@@ -61,9 +69,8 @@ def test_two_open_orders_over_one_part_held_once_say_so_on_both_order_pages(two_
     first, second = two_orders
     client.force_login(users["viewer"])
     page = _page(client, first.get_absolute_url())
-    assert (f"1 cylinder (low); 1 cylinder planned on {second.number} too. 2 cylinders planned on open orders "
-            "against 1 "
-            "cylinder held: order more or re-plan") in page
+    assert (f"1 cylinder (reorder at 1 cylinder); 1 cylinder planned on {second.number} too. 2 cylinders planned on "
+            "open orders against 1 cylinder held: order more or re-plan") in page
     page = _page(client, second.get_absolute_url())
     assert f"1 cylinder planned on {first.number} too. 2 cylinders planned on open orders against 1 cylinder" in page
 
@@ -143,13 +150,40 @@ def test_the_register_reads_a_fixed_number_of_queries_whatever_the_number_of_ord
 def test_the_dashboard_lists_a_part_the_open_orders_plan_more_of_than_is_held(two_orders, cylinder, site, users,
                                                                               client):
     """Not only parts at their reorder point: one held above it but planned beyond it is listed, short by how much."""
-    Part.objects.filter(pk=cylinder.pk).update(reorder_point=0)  # above its reorder point now: not "low"
+    Part.objects.filter(pk=cylinder.pk).update(reorder_point=0)  # above its reorder point now: not to reorder
     Part.objects.create(site=site, name="Drive roller wipes", unit="pack", quantity_on_hand=12, reorder_point=5)
     client.force_login(users["viewer"])
     page = _page(client, f"/sites/{site.slug}/")
-    panel = page[page.index("Spare parts low"):page.index("All spare parts")].replace(" :", ":")
+    panel = page[page.index("Spare parts to reorder"):page.index("All spare parts")].replace(" :", ":")
     assert f"{CO2}: 1 cylinder left; 2 cylinders planned on open orders: short by 1 cylinder" in panel
     assert "Drive roller wipes" not in panel and "reorder at" not in panel
     services.work_order_move(two_orders[1], "withdraw", users["engineer"], reason="Planned twice.")
     panel = _page(client, f"/sites/{site.slug}/")
-    assert CO2 not in panel[panel.index("Spare parts low"):panel.index("All spare parts")]
+    assert CO2 not in panel[panel.index("Spare parts to reorder"):panel.index("All spare parts")]
+
+
+SHORT_ON_PAPER = "Short in stock when printed: check these are to hand before starting, or ask the site engineer."
+
+
+def test_the_paper_says_the_part_is_short_and_names_the_other_open_orders(two_orders):
+    first, second = two_orders
+    paper = _paper(first)
+    assert SHORT_ON_PAPER in paper
+    assert (f"{CO2}: 1 cylinder in stock, 2 cylinders planned on open orders (1 cylinder on this one, 1 cylinder on "
+            f"{second.number})") in paper
+    assert f"1 cylinder on {first.number})" in _paper(second)
+
+
+def test_the_paper_says_when_the_order_alone_plans_more_than_is_held(order, cylinder):  # noqa: F811
+    services.part_add(order, cylinder, 2)
+    assert f"{CO2}: 1 cylinder in stock, 2 cylinders planned on this order" in _paper(order)
+
+
+def test_the_paper_says_nothing_of_stock_when_there_is_enough_or_the_work_is_finished(two_orders, users, site):
+    first, second = two_orders
+    Part.objects.filter(name=CO2).update(quantity_on_hand=2)
+    assert "Short in stock" not in _paper(first)
+    services.work_order_move(first, "start", users["technician"])
+    services.work_order_finish(first, users["technician"], 1.0, "Isolation ticked on the paper.",
+                               _all_readings(first, 0.6), parts_as_planned(first), **_confirmed(first))
+    assert "Short in stock" not in _paper(WorkOrder.objects.get(pk=first.pk))

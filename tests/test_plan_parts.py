@@ -95,7 +95,7 @@ def test_a_part_planned_beyond_the_stock_on_hand_is_marked_short(brakes, users, 
 def test_a_part_is_named_until_it_is_reserved_on_the_order_or_the_work_is_done(brakes, users, site):
     order = services.work_order_from_due(_plans(brakes), users["engineer"])
     springs = Part.objects.create(site=site, name="Spring kit")
-    assert selectors.parts_unregistered(order) == ["1 x Spring kit"]  # in the register now, still not reserved
+    assert selectors.parts_unregistered(order) == ["1 x Spring kit"]  # in the register now, not on the order
     services.part_add(order, springs, 1)
     assert selectors.parts_unregistered(order) == []
     order.part_uses.filter(part=springs).delete()

@@ -110,7 +110,8 @@ def test_the_reinstall_does_not_start_while_the_strip_and_coat_is_not_finished(r
     client.force_login(users["technician"])
     page = client.get(reinstall.get_absolute_url()).content.decode()
     assert 'value="start"' not in page  # no button the service would refuse
-    assert f"Not offered (Start work): {expected}." in _text(client.get(reinstall.get_absolute_url()))
+    shown = _text(client.get(reinstall.get_absolute_url()))
+    assert f"Not offered: Start work. {expected[:1].upper()}{expected[1:]}." in shown
     # A post from an old page is refused in the same words.
     response = client.post(f"/workorders/{reinstall.pk}/move/start/", follow=True)
     assert f"Not done: {expected}." in _text(response)

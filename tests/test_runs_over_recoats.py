@@ -162,7 +162,7 @@ def _cautions(page: str) -> list[str]:
 def test_the_dashboard_names_each_run_under_its_recoat(recoat, runs, users, client):
     client.force_login(users["viewer"])
     page = client.get(recoat.mirror.subsystem.telescope.site.get_absolute_url()).content.decode()
-    downtime = page[page.index('id="downtime"'):page.index("Spare parts low")]
+    downtime = page[page.index('id="downtime"'):page.index("Spare parts to reorder")]
     assert _cautions(downtime) == [o.text for o in services.runs_over_recoats(recoat.mirror.subsystem.telescope.site,
                                                                                TODAY)]
     assert "Booked run &#x27;Spectra campaign&#x27; (03 Jul 2026 to 06 Jul 2026) falls on 2 nights" in downtime

@@ -129,7 +129,7 @@ def test_a_recoat_lift_without_a_working_load_limit_is_issued_but_not_started(or
     client.force_login(users["technician"])
     page = client.get(removal.get_absolute_url())
     assert 'value="start"' not in page.content.decode()
-    assert f"Not offered (Start work): {refused.value}." in _text(page)
+    assert f"Not offered: Start work. {str(refused.value)[:1].upper()}{str(refused.value)[1:]}." in _text(page)
 
 
 def test_the_lifting_figures_are_offered_only_where_something_is_lifted(order, users, client):  # noqa: F811

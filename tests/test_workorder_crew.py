@@ -100,7 +100,7 @@ def test_a_crew_member_chosen_by_account_cannot_countersign_whatever_their_name(
     client.force_login(engineer)
     page = client.get(order.get_absolute_url()).content.decode()
     assert ">Countersign (second person)</button>" not in page
-    assert ("Not offered (Countersign (second person)): a second person must countersign: you are on the crew that did "
+    assert ("Not offered: Countersign (second person). A second person must countersign: you are on the crew that did "
             "the work") in page
     with pytest.raises(services.Refused, match=r"^a second person must countersign: you are on the crew that did the "
                                                r"work: technician chose your account on it when finishing\. "
@@ -153,7 +153,7 @@ def test_an_order_finished_before_keeps_the_name_rule_it_was_finished_under(orde
     client.force_login(people["engineer"])
     page = client.get(order.get_absolute_url()).content.decode()
     assert ">Countersign (second person)</button>" not in page
-    assert "Not offered (Countersign (second person)): a second person must countersign: you are named on the crew" in (
+    assert "Not offered: Countersign (second person). A second person must countersign: you are named on the crew" in (
         html.unescape(page))
     assert "Crew:  marta QUILLAN , Dana Quist." in html.unescape(page)  # the record as it was typed
     with pytest.raises(services.Refused, match=r'^a second person must countersign: you are named on the crew that '

@@ -132,7 +132,7 @@ def test_the_person_who_finished_gets_no_countersign_button_but_a_note_that_a_se
     services.work_order_move(order, "start", users["technician"])
     services.work_order_finish(order, users["technician"], 1.0, "ok", _all_readings(order, 0.6),
                                **_confirmed(order))
-    note = ("Not offered (Countersign (second person)): a second person must countersign: you finished this work "
+    note = ("Not offered: Countersign (second person). A second person must countersign: you finished this work "
             "order yourself. Someone else with the technician role or above who had no hand in the work "
             "countersigns it.")
     client.force_login(users["technician"])
@@ -593,7 +593,7 @@ def test_a_crew_member_cannot_countersign_the_work_they_did(order, users, client
     client.force_login(engineer)
     page = client.get(order.get_absolute_url()).content.decode()
     assert ">Countersign (second person)</button>" not in page
-    assert "Not offered (Countersign (second person)): a second person must countersign: you are on the crew" in page
+    assert "Not offered: Countersign (second person). A second person must countersign: you are on the crew" in page
     with pytest.raises(services.Refused, match="you are on the crew that did the work"):
         services.work_order_move(order, "countersign", engineer)
     services.work_order_move(order, "countersign", users["administrator"])

@@ -278,9 +278,9 @@ TELESCOPE_OUT_TODO = (
     "engineer before going on."
 )
 
-#: Parts an order's plans name that are not reserved on it (workorders.selectors.parts_unregistered).
+#: Parts an order's plans name that are not on its parts list (workorders.selectors.parts_unregistered).
 PARTS_UNREGISTERED = (
-    "its service plans name these parts, which are not reserved on this order (the site's parts register did not "
+    "its service plans name these parts, which are not on this order's parts list (the site's parts register did not "
     "hold them when it was made, or held two parts whose names differ only in capitals), so none is counted out of "
     "stock: bring them, or ask the site engineer to add them to the order."
 )

@@ -450,7 +450,7 @@ class FinishForm(forms.Form):
 
 
 class PartAddForm(forms.Form):
-    """A part of the site's register reserved on an order: each refusal names the field and what is wrong with it."""
+    """A part of the site's register planned on an order: each refusal names the field and what is wrong with it."""
 
     part = forms.ModelChoiceField(
         queryset=Part.objects.none(),

@@ -682,6 +682,12 @@ def _parts_and_tools(sheet: Sheet, width: float) -> list[Flowable]:
                 "It was brought to zero, and the shortfall marked for the site engineer to count the stock.",
                 _BULLET, bulletText="!",
             ))
+        if short_in_stock := [part for part in sheet.parts if part.stock_note]:
+            story.append(_Paragraph(
+                "<b>Short in stock when printed:</b> check these are to hand before starting, or ask the site "
+                "engineer.", _BULLET, bulletText="!",
+            ))
+            story += [_para(f"{part.name}: {part.stock_note}", _ITEM) for part in short_in_stock]
     elif not sheet.parts_unregistered:
         story.append(_note("No parts listed."))
     if sheet.other_part_rows:

@@ -2,7 +2,7 @@
 from __future__ import annotations
 
 import datetime as dt
-from collections.abc import Collection, Sequence
+from collections.abc import Collection, Iterable, Sequence
 from dataclasses import dataclass
 from typing import NamedTuple
 
@@ -67,7 +67,17 @@ from .cautions import (
     isolation_statement,
     needs_isolation,
 )
-from .models import ChecklistTick, IsolationPoint, Part, PartUse, State, WorkOrder, WorkOrderItem, part_name_key
+from .models import (
+    ChecklistTick,
+    IsolationPoint,
+    Part,
+    PartUse,
+    State,
+    WorkOrder,
+    WorkOrderItem,
+    amount_text,
+    part_name_key,
+)
 
 
 def work_orders() -> QuerySet[WorkOrder]:
@@ -314,7 +324,7 @@ def register_part(name: str, register: Sequence[Part]) -> Part | None:
 
 def parts_unregistered(order: WorkOrder, items: list[WorkOrderItem] | None = None,
                        uses: Sequence[PartUse] | None = None) -> list[str]:
-    """For an order still to do: the parts its service plans name that are not reserved on it (the site's parts
+    """For an order still to do: the parts its service plans name that are not on its parts list (the site's parts
     register did not hold them when it was made, or held two that differ only in capitals (``register_part``), and
     none was added since), as "2 x Brake pad set", each plan's quantities added up; [] otherwise. ``items`` and
     ``uses`` (the order's part uses): when the caller has them already."""
@@ -933,13 +943,13 @@ class OpenPlanned:
         return max(0.0, -self.free)
 
 
-def parts_planned_open(parts: QuerySet[Part]) -> dict[int, OpenPlanned]:
-    """``OpenPlanned`` of each of ``parts``, by part id in the queryset's order (a part no open order plans has no
-    lines): the parts register's planned and free columns, and the other orders on an order's page. Two queries (the
-    parts, and the open orders' lines of them), whatever the number of parts and orders."""
+def parts_planned_open(parts: Iterable[Part]) -> dict[int, OpenPlanned]:
+    """``OpenPlanned`` of each of ``parts``, by part id in their order (a part no open order plans has no lines): the
+    parts register's planned and free columns, and the other orders on an order's page. One query (the open orders'
+    lines of the parts), and one more when ``parts`` is a queryset, whatever the number of parts and orders."""
     found: dict[int, tuple[Part, list[PartUse]]] = {part.pk: (part, []) for part in parts}
     lines = (
-        PartUse.objects.filter(part__in=parts, work_order__state__in=TO_DO, quantity_used__isnull=True,
+        PartUse.objects.filter(part__in=list(found), work_order__state__in=TO_DO, quantity_used__isnull=True,
                                quantity_planned__gt=0)
         .select_related("work_order").order_by("work_order_id", "pk")
     )
@@ -974,13 +984,30 @@ class PartRow:
         planned" on the page)."""
         return bool(self.others) and self.open_planned.short_by > 0
 
+    @property
+    def stock_note(self) -> str:
+        """For the paper, which shows no stock: how the register stands against this line when printed, "" when it
+        holds enough for it and for the other open orders' lines of the part."""
+        use, part = self.use, self.use.part
+        held = amount_text(part.quantity_on_hand, part.unit)
+        if self.open_planned is None:
+            return ""
+        if use.quantity_planned > part.quantity_on_hand:
+            return f"{held} in stock, {amount_text(use.quantity_planned, part.unit)} planned on this order"
+        if self.open_orders_short:
+            others = ", ".join(f"{amount_text(line.quantity_planned, part.unit)} on {line.work_order.number}"
+                               for line in self.others)
+            return (f"{held} in stock, {amount_text(self.open_planned.planned, part.unit)} planned on open orders "
+                    f"({amount_text(use.quantity_planned, part.unit)} on this one, {others})")
+        return ""
+
 
 def part_rows(order: WorkOrder, uses: Sequence[PartUse]) -> list[PartRow]:
     """The rows of an order's parts table (``uses``: its part uses, with their parts): what other open orders plan
-    of each part still to use, and whether all of them together plan more than is held. Two queries, none when the
+    of each part still to use, and whether all of them together plan more than is held. One query, none when the
     order is not still to do or has used its parts."""
-    still_to_use = [use.part_id for use in uses if use.quantity_used is None] if order.state in TO_DO else []
-    planned = parts_planned_open(Part.objects.filter(pk__in=still_to_use)) if still_to_use else {}
+    still_to_use = [use.part for use in uses if use.quantity_used is None] if order.state in TO_DO else []
+    planned = parts_planned_open(still_to_use) if still_to_use else {}
     return [PartRow(use, planned.get(use.part_id) if use.quantity_used is None else None) for use in uses]
 
 
@@ -1400,9 +1427,9 @@ def sheet(order: WorkOrder, url: str) -> sheet_.Sheet:
         standing_notes=standing_notes(order),
         parts_unregistered=tuple(parts_unregistered(order, items, uses)),
         parts=tuple(
-            sheet_.SheetPart(u.part.name, u.part.part_number, u.quantity_planned, u.part.unit, used=u.quantity_used,
-                             short=u.quantity_short)
-            for u in uses
+            sheet_.SheetPart(row.use.part.name, row.use.part.part_number, row.use.quantity_planned, row.use.part.unit,
+                             used=row.use.quantity_used, short=row.use.quantity_short, stock_note=row.stock_note)
+            for row in part_rows(order, uses)
         ),
         tools=tuple(order.tool_list),
         readings=tuple(

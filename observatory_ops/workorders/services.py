@@ -452,7 +452,7 @@ def work_order_from_due(plans: Sequence[ServicePlan], by, planned_date: dt.date 
                     _require_reading(order, plan.subsystem, trig.quantity, f"{sign} {trig.limit:g}")
             for wanted in plan.readings:
                 _require_reading(order, plan.subsystem, wanted["quantity"], wanted.get("limit", ""))
-        # Parts the site's register holds are reserved on the order, each plan's quantities added up; the others
+        # Parts the site's register holds go on the order's parts list, each plan's quantities added up; the others
         # are named on the order's page and paper (``selectors.parts_unregistered``).
         register = list(Part.objects.filter(site=site))
         planned: Counter[Part] = Counter()

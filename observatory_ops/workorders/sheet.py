@@ -38,6 +38,7 @@ class SheetPart:
     unit: str = "each"
     used: float | None = None
     short: float = 0
+    stock_note: str = ""  # the register short of it when printed, for a line still to use (selectors.PartRow)
 
     def __post_init__(self) -> None:
         for what, value in (("quantity", self.quantity), ("quantity used", self.used), ("shortfall", self.short)):
