@@ -103,6 +103,28 @@ def test_the_estimate_now_recomputes_by_hand_from_the_inputs_the_page_shows(trai
     assert f"c: E at the cleaning of {cleaned_on:%d %b %Y}, the last before today" in text
 
 
+def test_a_rising_fit_writes_its_rate_after_a_plus_not_a_double_minus(train, users, client):
+    """Readings rising with exposure (a reflectometer drifting, say) fit a b below zero: R0 - b E is then written
+    R0 + |b| E, and the figures shown still give the estimate by hand (calc/reflectance.py's model)."""
+    secondary = _mirror(train["secondary"], train["coated_on"])
+    for days_ago, scatter in ((50, 0.0002), (35, -0.0003), (20, 0.0001), (8, -0.0001)):
+        exposure_h = HOURS_A_NIGHT * (COATED_DAYS_AGO - days_ago)
+        ReflectanceMeasurement.objects.create(mirror=secondary, taken_by=users["technician"],
+                                              measured_on=train["today"] - dt.timedelta(days=days_ago),
+                                              value=0.85 + 2e-5 * exposure_h + scatter)
+    html = _page(client, users, secondary)
+    inputs = _text(re.search(r'<div class="reason" id="estimate-inputs">(.*?)</div>', html, re.S).group(1))
+    assert "− -" not in inputs and "+ -" not in inputs
+    shown = {name: _shown(html, name) for name in ("r0", "b", "e", "estimate")}
+    assert inputs.startswith(f"R0 − b·E = {shown['r0']} + {shown['b']} × ")
+    assert "(b is below zero: the fit rises with exposure)" in inputs
+    r0, b_size, e, estimate = (float(shown[name]) for name in ("r0", "b", "e", "estimate"))
+    assert services.mirror_forecast(secondary).fit.rate_per_hour == pytest.approx(-b_size, rel=1e-4)
+    slack = _half_unit(shown["r0"]) + e * _half_unit(shown["b"]) + b_size * _half_unit(shown["e"]) + _half_unit(
+        shown["estimate"])
+    assert abs(r0 + b_size * e - estimate) <= slack
+
+
 def test_an_unmeasured_mirror_is_taken_as_fresh_and_the_total_says_it_is_incomplete(train, users, client):
     secondary = _mirror(train["secondary"], train["coated_on"])
     result = services.throughput(train["primary"].subsystem.telescope)

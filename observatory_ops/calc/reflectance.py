@@ -39,6 +39,8 @@ from numpy.typing import ArrayLike
 SAME_EXPOSURE = "the readings need at least two different exposures"
 RECOVERY_NOT_SEPARATED = "the readings cannot separate the cleaning recovery from the fresh reflectance"
 NO_DECLINE = "the fitted decline rate is zero"
+#: Too few readings left once those whose exposure is not known (``fit_decline``'s ``exposure_known``) are left out.
+EXPOSURE_NOT_KNOWN = "the exposure since the coating is not known for some readings"
 
 
 @dataclass(frozen=True)
@@ -129,6 +131,7 @@ def fit_decline(
     reflectance: ArrayLike,
     cleaning_exposure_h: Sequence[float] = (),
     cleanings_before: Sequence[int] | None = None,
+    exposure_known: Sequence[bool] | None = None,
 ) -> DeclineFit:
     """Fit ``R(E) = R0 - b (E - f c_last(E))`` to measured reflectance by least squares.
 
@@ -145,29 +148,47 @@ def fit_decline(
     cleanings_before : sequence of int, optional
         For each reading, how many of the cleanings were done before it (by their dates). By default every
         cleaning at or below the reading's exposure.
+    exposure_known : sequence of bool, optional
+        For each reading, whether its exposure since coating is known. A reading whose exposure is not known
+        (its ``exposure_h`` is then ignored, though it must still be a number of hours) is left out of the fit:
+        it has no place along the exposure axis. By default every reading's is known.
 
     Returns
     -------
     DeclineFit
+        ``n_points`` counts the readings fitted (those whose exposure is known).
 
     Raises
     ------
     ValueError
         Mismatched lengths, values out of range, too few readings (3 for a line, 4 when a reading
-        follows a cleaning), ``cleanings_before`` that puts a cleaning before a reading at a lower exposure,
-        or readings that cannot separate the recovery from the fresh reflectance.
+        follows a cleaning; the message starts with ``EXPOSURE_NOT_KNOWN`` when readings were left out for it),
+        ``cleanings_before`` that puts a cleaning before a reading at a lower exposure, or readings that cannot
+        separate the recovery from the fresh reflectance.
     """
     exposure = _as_exposures(exposure_h, "exposures")
     measured = _as_reflectances(reflectance, "reflectances")
     cleanings = _as_cleanings(cleaning_exposure_h)
     if exposure.size != measured.size:
         raise ValueError(f"{exposure.size} exposures but {measured.size} reflectances")
+    known = np.ones(exposure.size, dtype=bool) if exposure_known is None else np.asarray(exposure_known, dtype=bool)
+    if known.shape != exposure.shape:
+        raise ValueError("exposure_known needs one flag per reading")
+    if cleanings_before is not None and len(cleanings_before) == known.size:  # else _cleanings_done says so
+        cleanings_before = np.asarray(cleanings_before)[known]
+    unknown = int(exposure.size - known.sum())
+    exposure, measured = exposure[known], measured[known]
     last_cleaning = (_last_cleaning(exposure, cleanings) if cleanings_before is None
                      else _cleanings_done(exposure, cleanings, cleanings_before))
     fits_recovery = bool(np.any(last_cleaning > 0))
     n_params = 3 if fits_recovery else 2
     if exposure.size < n_params + 1:
         what = "a decline with cleaning recovery" if fits_recovery else "a decline"
+        if unknown:
+            raise ValueError(
+                f"{EXPOSURE_NOT_KNOWN}: {unknown} of the {unknown + exposure.size}, which leaves {exposure.size}; "
+                f"{what} needs at least {n_params + 1}"
+            )
         raise ValueError(f"need at least {n_params + 1} readings to fit {what} with uncertainties; got {exposure.size}")
     columns = [np.ones_like(exposure), -exposure, last_cleaning][:n_params]
     design = np.column_stack(columns)

@@ -16,6 +16,13 @@ from .models import METAL_NAMES, TRAIN_KINDS, CleaningEvent, CoatingEvent, Mirro
 MEASURABLE_NM = wavelength_range_nm(MATERIALS)
 
 
+#: How far above the fresh value of its coating a band-mean measurement may be before the form asks whether it is
+#: right: our own margin, twice the repeatability of about 0.01 of hand-held reflectometers (from memory). A coating
+#: does not get better with use, so a value well above fresh is more often another band, another instrument's scale
+#: or a slip of the keys.
+ABOVE_FRESH_MARGIN = 0.02
+
+
 class MeasurementForm(forms.Form):
     measured_on = forms.DateField(widget=forms.DateInput(attrs={"type": "date"}))
     value = forms.FloatField(
@@ -25,9 +32,14 @@ class MeasurementForm(forms.Form):
     wavelength_nm = forms.FloatField(label="Wavelength (nm)", required=False)
     position = forms.CharField(max_length=60, required=False)
     instrument = forms.CharField(max_length=80, required=False)
+    value_confirmed = forms.BooleanField(
+        required=False, label="The value is right as measured",
+        help_text="Asked only for a band mean well above the fresh value of the mirror's coating.",
+    )
 
     def __init__(self, *args, mirror: Mirror, **kwargs):
         super().__init__(*args, **kwargs)
+        self.mirror = mirror
         low, high = MEASURABLE_NM
         self.fields["wavelength_nm"].help_text = (
             f"Empty: averaged over the mirror's band from {mirror.band_from_nm:g} to {mirror.band_to_nm:g} nm. "
@@ -44,6 +56,29 @@ class MeasurementForm(forms.Form):
                 "coating materials overlap; give it in nanometres, or leave it empty for a band mean."
             )
         return wavelength
+
+    def clean(self):
+        """A band mean above the fresh value of the coating in force that day by more than ``ABOVE_FRESH_MARGIN`` is
+        asked about (``value_confirmed``), not refused: the fresh value is computed, the instrument may know better."""
+        from .services import fresh_band_on  # the services build on these forms' models
+
+        data = super().clean()
+        confirmed = data.pop("value_confirmed", False)
+        value, day = data.get("value"), data.get("measured_on")
+        if confirmed or value is None or day is None or data.get("wavelength_nm") is not None:
+            return data
+        found = fresh_band_on(self.mirror, day)
+        if found and value > found[0] + ABOVE_FRESH_MARGIN:
+            fresh, coating = found
+            mirror = self.mirror
+            self.add_error("value", (
+                f"{value:g} is above the fresh value of the coating of {coating.coated_on:%d %b %Y} "
+                f"({coating.recipe}), {fresh:.4f} as a band mean over {mirror.band_from_nm:g}-{mirror.band_to_nm:g} "
+                f"nm, by more than {ABOVE_FRESH_MARGIN:g}. A coating does not get better with use: was it measured "
+                "over another band, or read on another scale? If it is right, tick \"The value is right as measured\" "
+                "and save it again."
+            ))
+        return data
 
 
 class CleaningForm(forms.Form):

@@ -19,6 +19,7 @@ from django.db import transaction
 from django.utils import timezone
 
 from observatory_ops.calc import coating, forecast, reflectance, windows
+from observatory_ops.calc.triggers import OVERDUE
 from observatory_ops.logbook.models import Reading, ServiceRecord
 from observatory_ops.logbook.quantities import reflectance_text
 from observatory_ops.logbook.services import date_problem, reading_withdraw, service_record_log, withdrawn_mark
@@ -85,6 +86,68 @@ class MirrorForecast:
     unlogged_nights: int = 0
     log_note: str = ""  # what the telescope's log is made of, where its site logs per telescope (``UsageLog.note``)
     latest_note: str = ""  # the latest measurement against the fitted line (``_latest_against_the_fit``)
+    # The first logged night when the coating predates it, else None: the nights from the coating to it are not
+    # logged, so every exposure here counts from it (``log_start_note``), and the measurements and cleanings dated on
+    # or before it have no known exposure: left out of the fit (``unlogged_measurements``, ``unlogged_cleanings``).
+    log_begins: dt.date | None = None
+    unlogged_measurements: list[ReflectanceMeasurement] = field(default_factory=list)
+    unlogged_cleanings: list[dt.date] = field(default_factory=list)
+
+    @property
+    def rate_size(self) -> float | None:
+        """The size of the fitted rate b, for a formula that writes its sign apart ("+ 1.39e-04" for a b below 0)."""
+        return None if self.fit is None else abs(self.fit.rate_per_hour)
+
+    @property
+    def log_gap_text(self) -> str:
+        """Which nights before the log are not logged, in the words of a plan's basis for the same gap
+        (``planning.services._before_the_log``); "" when the log covers the coating."""
+        if self.log_begins is None:
+            return ""
+        nights = (self.log_begins - self.coated_on).days
+        return (f"the usage log begins on {self.log_begins:%d %b %Y}; the {nights} night{'s' if nights != 1 else ''} "
+                f"from the coating of {self.coated_on:%d %b %Y} to then are not logged")
+
+    @property
+    def left_out_note(self) -> str:
+        """The measurements and cleanings left out of the fit because their exposure since the coating is not known,
+        how many, their dates and why; "" when none is."""
+        if not (self.unlogged_measurements or self.unlogged_cleanings):
+            return ""
+        what = []
+        if n := len(self.unlogged_measurements):
+            dated = "; ".join(f"{m.measured_on:%d %b %Y}, {reflectance_text(m.value)}"
+                              for m in self.unlogged_measurements)
+            what.append(f"{n} band measurement{'s' if n != 1 else ''} ({dated})")
+        if k := len(self.unlogged_cleanings):
+            dated = "; ".join(f"{day:%d %b %Y}" for day in self.unlogged_cleanings)
+            what.append(f"{k} cleaning{'s' if k != 1 else ''} ({dated})")
+        return (f"Left out of the fit: {' and '.join(what)}, dated on or before the first logged night, so their "
+                f"dust-weighted exposure since the coating is not known: {self.log_gap_text}. Log those nights and "
+                "they are fitted.")
+
+    @property
+    def log_start_note(self) -> str:
+        """How a fit counts exposure from the first logged night when the coating predates the log, and what that does
+        to its figures; "" when the log covers the coating or there is no fit.
+
+        With the missed exposure U the same for every fitted reading, R0 - b (E + U) = (R0 - b U) - b E: the least
+        squares slope is the same whatever U is, and the intercept takes R0 - b U. A cleaning's recovery term,
+        b f (c + U), does not reduce so: f is fitted as if the cleaning came U hours earlier."""
+        if self.log_begins is None or self.fit is None:
+            return ""
+        note = (
+            f"E is counted from the first logged night, {self.log_begins:%d %b %Y}, not from the coating: "
+            f"{self.log_gap_text}, so every E here (each measurement's and today's) misses their exposure, the same "
+            "unknown amount for each. The slope b is fitted from the logged nights and does not depend on it; the "
+            "intercept R0 absorbs it (the fit gives R0 less b times the missed hours), so R0 is the reflectance at "
+            "the first logged night, not the fresh value"
+        )
+        if self.recovery_fraction is None:
+            return (f"{note}, and the estimate now, taken along the same line, already allows for them. The recoat "
+                    "line is taken from that R0, not from a fresh value.")
+        return (f"{note}. The recovery per cleaning f is fitted against cleaning exposures that miss the same hours, "
+                "so it is not corrected for them. The recoat line is taken from that R0, not from a fresh value.")
 
 
 def _coating_band(mirror: Mirror, metal: str, layers: list[dict]) -> float:
@@ -112,6 +175,15 @@ def _last_logged_night(log: UsageLog, since: dt.date, before: dt.date) -> dt.dat
     ``_exposure_at`` counts for ``before``."""
     start, end = np.searchsorted(log.nights, np.array([since, before], dtype="datetime64[D]"))
     return log.nights[end - 1].astype(dt.date) if end > start else None
+
+
+def _r0_is(state: MirrorForecast) -> str:
+    """What the fitted R0 is: the fresh value, or where the coating predates the log the reflectance at the first
+    logged night, from which the fit counts exposure (``MirrorForecast.log_start_note``)."""
+    if state.log_begins is None:
+        return "fresh value"
+    return (f"value at the first logged night ({state.log_begins:%d %b %Y}; the nights from the coating to then are "
+            "not logged),")
 
 
 def _loss_basis(mirror: Mirror) -> str:
@@ -142,33 +214,46 @@ def mirror_forecast(
          if m.measured_on >= last.coated_on and m.wavelength_nm is None and m.withdrawn_at is None),
         key=lambda m: (m.measured_on, m.pk),
     )
+    # A coating before the first logged night: the exposure of a measurement or cleaning dated on or before that night
+    # (it counts the nights before its date) is not known, as no night before it is logged; one dated later counts
+    # from that night. The cleanings of unknown exposure are left out of the fit with the measurements.
+    log_begins = log.nights[0].astype(dt.date) if len(log.nights) else None
+    log_begins = log_begins if log_begins is not None and last.coated_on < log_begins else None
+    known = [log_begins is None or m.measured_on > log_begins for m in measurements]
     cleanings = sorted(
         (c for c in mirror.cleanings.all() if c.cleaned_on >= last.coated_on), key=lambda c: (c.cleaned_on, c.pk)
     )
+    unlogged_cleanings = [c.cleaned_on for c in cleanings if log_begins is not None and c.cleaned_on <= log_begins]
+    cleanings = cleanings[len(unlogged_cleanings):]
     days = [m.measured_on for m in measurements] + [c.cleaned_on for c in cleanings] + [today]
     exposures = _exposure_at(log, per_night, last.coated_on, days)
     n, k = len(measurements), len(cleanings)
+    placed = [(m, float(e)) for m, e, placed in zip(measurements, exposures[:n], known, strict=True) if placed]
     result = MirrorForecast(
         mirror=mirror, coated_on=last.coated_on, recipe=last.recipe, fresh_band=fresh,
         fresh_basis=f"{last.recipe}, {mirror.band_from_nm:g}-{mirror.band_to_nm:g} nm band mean, "
         "characteristic-matrix method with published optical constants",
         exposure_now_h=float(exposures[-1]), exposure_logged_to=_last_logged_night(log, last.coated_on, today),
         log_note=log.note,
-        points=[(m.measured_on, float(e), m.value) for m, e in zip(measurements, exposures[:n], strict=True)],
-        exposure_by_measurement={m.pk: float(e) for m, e in zip(measurements, exposures[:n], strict=True)},
+        points=[(m.measured_on, e, m.value) for m, e in placed],
+        exposure_by_measurement={m.pk: e for m, e in placed},
         cleanings=[(c.cleaned_on, float(e)) for c, e in zip(cleanings, exposures[n : n + k], strict=True)],
+        log_begins=log_begins,
+        unlogged_measurements=[m for m, placed in zip(measurements, known, strict=True) if not placed],
+        unlogged_cleanings=unlogged_cleanings,
     )
-    measured_h, measured = [p[1] for p in result.points], [p[2] for p in result.points]
+    measured_h, measured = exposures[:n], [m.value for m in measurements]
     # A measurement follows the cleanings dated on or before it, and precedes one dated after it even at the same
     # exposure (no night logged between the two): by date, not by exposure.
     cleaned_on = [c.cleaned_on for c in cleanings]
     cleanings_before = [bisect.bisect_right(cleaned_on, m.measured_on) for m in measurements]
     try:
-        fit = reflectance.fit_decline(measured_h, measured, [c[1] for c in result.cleanings], cleanings_before)
+        fit = reflectance.fit_decline(measured_h, measured, [c[1] for c in result.cleanings], cleanings_before,
+                                      exposure_known=known)
         if not math.isfinite(fit.recovery_fraction) and fit.cleaning_exposure_h:
             # No measurement follows any cleaning, so no recovery can be fitted, and calc.reflectance will not
             # predict past a cleaning of unknown recovery: count none until one is measured (the earlier date).
-            fit = reflectance.fit_decline(measured_h, measured)
+            fit = reflectance.fit_decline(measured_h, measured, exposure_known=known)
             first, last_cleaned = result.cleanings[0][0], result.cleanings[-1][0]
             which = f"The cleaning of {first:%d %b %Y} is" if k == 1 else (
                 f"The {k} cleanings from {first:%d %b %Y} to {last_cleaned:%d %b %Y} are"
@@ -189,10 +274,12 @@ def mirror_forecast(
         result.cleaning_counted = max(
             (c for c in result.cleanings if c[1] <= result.exposure_now_h), key=lambda c: (c[1], c[0]), default=None
         )
-    result.latest_note = _latest_against_the_fit(result, cleanings_before)
+    result.latest_note = _latest_against_the_fit(result, [c for c, placed in zip(cleanings_before, known,
+                                                                                strict=True) if placed])
     result.threshold = fit.r0 * (1 - mirror.recoat_loss)
     result.threshold_basis = (
-        f"{mirror.recoat_loss:.0%} below the fitted fresh value R0 = {reflectance_text(fit.r0)}{_loss_basis(mirror)}"
+        f"{mirror.recoat_loss:.0%} below the fitted {_r0_is(result)} R0 = {reflectance_text(fit.r0)}"
+        f"{_loss_basis(mirror)}"
     )
     crossing = reflectance.crossing_exposure(fit, result.threshold)
     result.crossing_exposure_h = crossing.exposure_h
@@ -350,19 +437,21 @@ def reflectance_now(state: MirrorForecast) -> ReflectanceNow:
     if state.fresh_band is None:
         return ReflectanceNow(None, None, LEFT_OUT, "no coating recorded, so no fresh value: left out of the total")
     if state.fit is not None:
-        fresh, against = state.fit.r0, "against the fitted fresh value R0"
+        fresh, against = state.fit.r0, f"against the fitted {_r0_is(state)} R0"
         if not 0 < fresh <= 1:  # a wild measurement (0.58 typed for 0.85) can tip the line past any reflectance
             fresh, against = state.fresh_band, (
                 f"against the computed fresh value: the fitted R0, {reflectance_text(state.fit.r0)}, is no "
                 "reflectance, so check the measurements (one entered in error is withdrawn on this page)"
             )
+        since = (f"the coating of {state.coated_on:%d %b %Y}" if state.log_begins is None else
+                 f"the first logged night, {state.log_begins:%d %b %Y}: {state.log_gap_text}")
         return ReflectanceNow(
             min(max(state.current, 0.0), 1.0), fresh, ESTIMATE,
             f"estimate from the fit at today's exposure ({state.exposure_now_h:,.1f} dust-weighted open hours since "
-            f"the coating of {state.coated_on:%d %b %Y}), {against}",
+            f"{since}), {against}",
         )
-    if state.points:
-        measured_on, _, value = state.points[-1]
+    if latest := _latest_measured(state):
+        measured_on, value = latest
         return ReflectanceNow(
             value, state.fresh_band, MEASURED,
             f"last measurement, {measured_on:%d %b %Y} ({state.fit_note}), against the computed fresh value",
@@ -372,6 +461,14 @@ def reflectance_now(state: MirrorForecast) -> ReflectanceNow:
         f"computed fresh value assumed: not measured since its coating of {state.coated_on:%d %b %Y} "
         f"({state.fit_note})",
     )
+
+
+def _latest_measured(state: MirrorForecast) -> tuple[dt.date, float] | None:
+    """(date, value) of the latest band measurement since the coating, fitted or left out of the fit (its value is
+    known even where its exposure is not); None when there is none."""
+    dated = [(day, value) for day, _, value in state.points] + [
+        (m.measured_on, m.value) for m in state.unlogged_measurements]
+    return max(dated, key=lambda d: d[0], default=None)
 
 
 #: What to do next for each reason ``calc.reflectance.fit_decline`` gives for no fit (its named reasons, which start
@@ -388,6 +485,10 @@ _FIT_ADVICE = (
      "after."),
     (reflectance.NO_DECLINE,
      "The measurements show no decline yet: log another after more observing nights."),
+    (reflectance.EXPOSURE_NOT_KNOWN,
+     "Measurements dated on or before the first logged night have no place along the dust-weighted exposure (see "
+     "the note on those left out): log the nights from the coating on, or log band measurements from now on, on "
+     "different nights with observing (dust exposure) between them."),
 )
 
 
@@ -412,13 +513,14 @@ def no_estimate_text(state: MirrorForecast) -> str:
         return ("No estimate: no coating recorded, so there is no fresh value for a decline to start from and no "
                 "recoat line. Log the coating first.")
     meanwhile = reflectance_now(state)
-    if not state.points:
+    latest = _latest_measured(state)
+    if latest is None:
         measured = f"no band reflectance measured since the coating of {state.coated_on:%d %b %Y}"
         used = f"the computed fresh value, {reflectance_text(meanwhile.now)}"
     else:
-        n = len(state.points)
+        n = len(state.points) + len(state.unlogged_measurements)
         measured = f"{n} band measurement{'s' if n != 1 else ''} since the coating of {state.coated_on:%d %b %Y}"
-        used = f"the last measurement, {reflectance_text(meanwhile.now)} on {state.points[-1][0]:%d %b %Y}"
+        used = f"the last measurement, {reflectance_text(meanwhile.now)} on {latest[0]:%d %b %Y}"
     trigger = (f" Until a decline is fitted, the recoat-line trigger (the subsystem page) uses {used}."
                if _has_recoat_line(state.mirror.subsystem) else "")
     return f"No estimate: {measured} ({state.fit_note}).{trigger} {_fit_advice(state.fit_note)}"
@@ -1071,25 +1173,45 @@ def _phase_lift(mirror: Mirror, work: _PhaseWork) -> dict | None:
     return None
 
 
-def recoat_reason(state: MirrorForecast, starts_on: dt.date, ends_on: dt.date) -> str:
-    """Why a recoat order exists: the recoat line it answers, the forecast crossing with its band, the window."""
-    window = f"recoat window {starts_on:%d %b %Y} to {ends_on:%d %b %Y}"
+def recoat_due_text(due) -> str:
+    """The due state of a recoat plan (``recoat_due``) as the due list gives it: its status and the sentence of its
+    governing trigger (``PlanStatus.reason``), for the mirror page and a recoat order's why."""
+    when = f"due {due.forecast_date:%d %b %Y}" if due.forecast_date and due.status != OVERDUE else due.status
+    return f"The recoat plan {due.plan.name} is {when} on the due list, by its first trigger: {due.reason}"
+
+
+def _reflectance_reason(state: MirrorForecast) -> str:
+    """The recoat line and the reflectance against it: the estimate below it, or the forecast crossing with its
+    band, or why there is none."""
     if state.threshold is None:
-        return f"No recoat line yet ({state.fit_note}); {window}"
+        return f"No recoat line yet ({state.fit_note})"
     line = f"the recoat line {reflectance_text(state.threshold)}"
     if state.current is not None and state.current <= state.threshold:
-        return f"Reflectance estimated at {reflectance_text(state.current)}, already at or below {line}; {window}"
+        return f"Reflectance estimated at {reflectance_text(state.current)}, already at or below {line}"
     if state.fit is None:
-        return f"Recoat line {reflectance_text(state.threshold)}, no crossing forecast ({state.fit_note}); {window}"
+        return f"Recoat line {reflectance_text(state.threshold)}, no crossing forecast ({state.fit_note})"
     if state.crossing is None:
-        return f"Reflectance not forecast to reach {line} within three years; {window}"
+        return f"Reflectance not forecast to reach {line} within three years"
     # The early side is reached before the central date, so it is known whenever the central date is.
     early, late = state.crossing_earliest, state.crossing_latest
     if late is None:
         band = f"between {early:%d %b %Y} and beyond three years"
     else:
         band = f"between {band_start(early, late)} and {late:%d %b %Y}"
-    return f"Reflectance forecast to reach {line} on {state.crossing:%d %b %Y} ({band}); {window}"
+    return f"Reflectance forecast to reach {line} on {state.crossing:%d %b %Y} ({band})"
+
+
+def recoat_reason(state: MirrorForecast, starts_on: dt.date, ends_on: dt.date, due=None) -> str:
+    """Why a recoat order exists, and the window. ``due``: the recoat plan's stored due state (``recoat_due``), None
+    when there is none. Where its governing trigger is not the recoat line (a calendar limit, say), that trigger comes
+    first as the due list words it (``recoat_due_text``) and the reflectance against the line after it; otherwise
+    the recoat line it answers, with the forecast crossing and its band."""
+    window = f"recoat window {starts_on:%d %b %Y} to {ends_on:%d %b %Y}"
+    reflectance_said = _reflectance_reason(state)
+    if due is None or due.metric == metrics.RECOAT_LINE:
+        return f"{reflectance_said}; {window}"
+    secondary = reflectance_said[0].lower() + reflectance_said[1:]
+    return f"{recoat_due_text(due)} Reflectance, secondary: {secondary}; {window}"
 
 
 #: A recoat phase order's estimated hours for each day of its phase: one person's working day (our own planning
@@ -1120,7 +1242,7 @@ def recoat_plan_create(
     laid = phase_dates(starts_on, phases, site.crew_days, crew_days_off(site, starts_on))
     starts_on, ends_on = laid[0]["first"], laid[-1]["last"]
     realignment_plans = recoat_plans(subsystem) or [None]
-    why = recoat_reason(mirror_forecast(mirror), starts_on, ends_on)
+    why = recoat_reason(mirror_forecast(mirror), starts_on, ends_on, recoat_due(mirror))
     brakes = _brakes_of(subsystem.telescope)
     with transaction.atomic():
         Mirror.objects.select_for_update().filter(pk=mirror.pk).exists()  # two submits at once take turns
@@ -1160,6 +1282,13 @@ def recoat_plan_create(
                 plan.work_orders.add(order)
         site_recompute(subsystem.telescope.site)
     return plan
+
+
+def fresh_band_on(mirror: Mirror, day: dt.date) -> tuple[float, CoatingEvent] | None:
+    """The fresh band-mean reflectance of the coating in force on ``day`` (the latest coated on or before it), with
+    that coating; None before the first coating recorded."""
+    coating = mirror.coatings.filter(coated_on__lte=day).order_by("-coated_on", "-pk").first()
+    return (_coating_band(mirror, coating.metal, coating.layers), coating) if coating else None
 
 
 def _coating_band_now(mirror: Mirror) -> float:

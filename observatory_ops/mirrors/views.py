@@ -32,8 +32,11 @@ def mirror_detail(request, pk):
     runs_over = services.runs_over_each_recoat(site, site_today(site))
     measurements = list(mirror.measurements.select_related("taken_by", "reading", "withdrawn_by")
                         .order_by("-measured_on")[:40])
+    unknown = {m.pk for m in state.unlogged_measurements}
     for m in measurements:  # the x of its dot in the picture; None for one not fitted
         m.exposure_h = state.exposure_by_measurement.get(m.pk)
+        m.exposure_unknown = m.pk in unknown  # dated on or before the first logged night, the coating before it
+    due = services.recoat_due(mirror)
     return render(
         request,
         "mirrors/detail.html",
@@ -42,7 +45,7 @@ def mirror_detail(request, pk):
             "site": site,
             "state": state,
             "no_estimate": services.no_estimate_text(state),
-            "recoat_due": services.recoat_due(mirror),
+            "recoat_due": services.recoat_due_text(due) if due else "",
             "plot": plots.decline_svg(state, described_by="decline-words"),
             "train": services.throughput(mirror.subsystem.telescope),
             "coatings": mirror.coatings.all(),
@@ -117,6 +120,10 @@ def _measurement_logged(mirror: Mirror, measurement) -> str:
     if state.coated_on is not None and measurement.measured_on < state.coated_on:
         return (f"Measurement logged. It is listed below but not fitted: it predates the coating of "
                 f"{state.coated_on:%d %b %Y}, and the decline is fitted from that coating on.")
+    if any(m.pk == measurement.pk for m in state.unlogged_measurements):
+        said = (f"Measurement logged. It is listed below but not fitted: its dust-weighted exposure since the coating "
+                f"is not known ({state.log_gap_text}).")
+        return f"{said} {services.no_estimate_text(state)}" if state.fit is None else said
     if state.fit is None:
         return f"Measurement logged. {services.no_estimate_text(state)}"
     return "Measurement logged; the decline fit is updated."

@@ -1,0 +1,50 @@
+"""A band-mean reflectance well above the fresh value of the mirror's coating is asked about, not stored at once: a
+coating does not get better with use, so such a value is more often another band or another scale. The margin
+(``forms.ABOVE_FRESH_MARGIN``, 0.02) is our own, twice the about 0.01 repeatability of hand-held reflectometers (from
+memory); the fresh value is the characteristic-matrix band mean checked against tmm in tests/test_calc_coating.py."""
+from __future__ import annotations
+
+import re
+
+from django.utils.html import strip_tags
+from test_measurement_wavelength import mirror  # noqa: F401  (the fixture, used by name)
+
+from observatory_ops.mirrors import services
+from observatory_ops.mirrors.forms import ABOVE_FRESH_MARGIN
+from observatory_ops.mirrors.models import ReflectanceMeasurement
+from observatory_ops.planning.services import site_today
+
+
+def _post(client, mirror, value, **more):  # noqa: F811
+    day = site_today(mirror.subsystem.telescope.site)
+    return client.post(f"/mirrors/{mirror.pk}/measurements/new/",
+                       {"measured_on": day.isoformat(), "value": value, **more})
+
+
+def test_a_band_mean_well_above_fresh_is_asked_about_and_nothing_is_stored(mirror, users, client):  # noqa: F811
+    fresh, coating = services.fresh_band_on(mirror, site_today(mirror.subsystem.telescope.site))
+    assert 0.85 < fresh < 0.93  # bare aluminium over 380-950 nm
+    client.force_login(users["technician"])
+    before = list(ReflectanceMeasurement.objects.values_list("pk", "value"))
+    response = _post(client, mirror, round(fresh + ABOVE_FRESH_MARGIN + 0.01, 4))
+    text = re.sub(r"\s+", " ", strip_tags(response.content.decode()))
+    assert response.status_code == 200
+    assert f"is above the fresh value of the coating of {coating.coated_on:%d %b %Y}" in text
+    assert f"{fresh:.4f} as a band mean over 380-950 nm, by more than 0.02" in text
+    assert 'tick "The value is right as measured"' in text.replace("&quot;", '"')
+    assert list(ReflectanceMeasurement.objects.values_list("pk", "value")) == before
+
+
+def test_ticked_it_is_stored_and_a_value_within_the_margin_is_not_asked(mirror, users, client):  # noqa: F811
+    fresh, _ = services.fresh_band_on(mirror, site_today(mirror.subsystem.telescope.site))
+    client.force_login(users["technician"])
+    high = round(fresh + ABOVE_FRESH_MARGIN + 0.01, 4)
+    assert _post(client, mirror, high, value_confirmed="on").status_code == 302
+    assert _post(client, mirror, round(fresh + ABOVE_FRESH_MARGIN - 0.005, 4)).status_code == 302
+    assert ReflectanceMeasurement.objects.filter(value=high).exists()
+
+
+def test_a_single_wavelength_value_is_not_compared_with_the_band_mean(mirror, users, client):  # noqa: F811
+    fresh, _ = services.fresh_band_on(mirror, site_today(mirror.subsystem.telescope.site))
+    client.force_login(users["technician"])
+    assert _post(client, mirror, round(fresh + 0.05, 4), wavelength_nm=550).status_code == 302
