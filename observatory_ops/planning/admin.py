@@ -4,6 +4,8 @@ from django import forms
 from django.contrib import admin, messages
 from django.db import transaction
 from django.db.models import prefetch_related_objects
+from django.forms.models import BaseInlineFormSet
+from django.utils.text import capfirst
 from simple_history.admin import SimpleHistoryAdmin
 
 from observatory_ops.logbook.quantities import QUANTITIES, usual_for_kind
@@ -12,6 +14,7 @@ from observatory_ops.registry.models import Site
 from observatory_ops.workorders.models import listed
 
 from .models import BookedRun, ServicePlan, Trigger
+from .selectors import not_computed_reason
 from .services import site_recompute, site_today
 
 
@@ -62,9 +65,32 @@ class RecomputesSite:
                           messages.INFO)
 
 
+#: The refusal of a plan saved without a trigger (or with every trigger row deleted).
+NO_TRIGGER_REFUSAL = ("Add a trigger: a plan without one is never computed, so it would be left out of the due list "
+                      "and the site's counts. Fill in a row under Triggers (Calendar days, with the interval in days "
+                      "as its limit, is the simplest).")
+
+
+class TriggerFormSet(BaseInlineFormSet):
+    """A plan's trigger rows: at least one (``TriggerInline.min_num``), refused with ``NO_TRIGGER_REFUSAL``; each
+    row's own check (``Trigger.clean``) refuses a trigger its plan's subsystem can never compute."""
+
+    default_error_messages = {"too_few_forms": NO_TRIGGER_REFUSAL}
+
+
 class TriggerInline(admin.TabularInline):
     model = Trigger
-    extra = 1
+    formset = TriggerFormSet
+    min_num = 1
+
+    def get_formset(self, request, obj=None, **kwargs):
+        # The admin takes ``min_num`` from the inline but not ``validate_min``: without it a plan whose rows are all
+        # left blank or ticked for deletion would still be saved.
+        return super().get_formset(request, obj, validate_min=True, **kwargs)
+
+    def get_extra(self, request, obj=None, **kwargs):
+        """A new plan shows its one required row; a stored plan one blank row under its triggers."""
+        return 0 if obj is None else 1
 
 
 class ServicePlanAdminForm(forms.ModelForm):
@@ -112,6 +138,17 @@ class ServicePlanAdmin(ProtectedNamed, ChoicesNamedWithSite, RecomputesSite, Sim
     search_fields = ("name", "subsystem__name")
     inlines = [TriggerInline]
     site_path = "subsystem__telescope__site"
+
+    def save_related(self, request, form, formsets, change):
+        """Saved and recomputed (``RecomputesSite``); a plan that is counted but still has no due state (a mirror
+        subsystem's plan waiting for its mirror record, a reading trigger waiting for a reading) is warned of, with
+        why (``selectors.not_computed_reason``)."""
+        super().save_related(request, form, formsets, change)
+        plan = ServicePlan.objects.select_related("subsystem__telescope__site", "status").get(pk=form.instance.pk)
+        reason = not_computed_reason(plan)
+        if reason:
+            self.message_user(request, f"{plan.name} is left out of the due list and the site's counts until it can be "
+                              f"computed. {capfirst(reason)}.", messages.WARNING)
 
 
 @admin.register(BookedRun)

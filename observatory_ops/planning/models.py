@@ -6,13 +6,14 @@ import json
 import math
 import re
 
-from django.core.exceptions import ValidationError
+from django.core.exceptions import ObjectDoesNotExist, ValidationError
 from django.core.validators import MinValueValidator
 from django.db import models
 from simple_history.models import HistoricalRecords
 
 from observatory_ops.calc.triggers import OVERDUE, STATUSES
 from observatory_ops.logbook.quantities import QUANTITIES, QUANTITY_CHOICES, reflectance_text, unit_of, value_problem
+from observatory_ops.registry.catalogue import KINDS
 from observatory_ops.registry.models import Site, Subsystem, text_newlines_normalised
 
 from .metrics import MAX_LIMIT, METRIC_CHOICES, METRICS, READING, RECOAT_LINE
@@ -225,10 +226,29 @@ class Trigger(models.Model):
     def clean(self) -> None:
         if self.metric == READING and not self.quantity:
             raise ValidationError({"quantity": "A reading trigger needs the quantity it watches."})
+        if self.metric == RECOAT_LINE:
+            problem = self._recoat_line_problem()
+            if problem:
+                raise ValidationError({"metric": problem})
         # None, or not a number: the field's own message says so.
         problem = self._limit_problem() if isinstance(self.limit, int | float) else None
         if problem:
             raise ValidationError({"limit": problem})
+
+    def _recoat_line_problem(self) -> str | None:
+        """Why a trigger on the mirror's reflectance can never be computed on its plan's subsystem: one that has no
+        mirror record and cannot have one (``takes_no_mirror``). A mirror subsystem whose record is not entered yet
+        is not refused: its plan waits for the record (``planning.selectors.not_computed_reason`` says so)."""
+        try:
+            subsystem = self.plan.subsystem
+        except ObjectDoesNotExist:  # no plan or no subsystem chosen yet: the fields' own messages say so
+            return None
+        if not takes_no_mirror(subsystem):
+            return None
+        return (f"{subsystem} is of the kind {subsystem.kind_label}, which has no mirror record and cannot have one "
+                f"(only a {mirror_kinds_text()} subsystem does): a trigger on the mirror's reflectance could never be "
+                "computed, and its plan would be left out of the due list. Choose another trigger, or put the plan "
+                "on the mirror's own subsystem.")
 
     def _limit_problem(self) -> str | None:
         """Why the limit cannot be: not finite; a reading's outside its quantity's plausible range; any other not
@@ -247,6 +267,22 @@ class Trigger(models.Model):
         unit = f" {unit}" if unit else ""
         return (f"{label}: a limit of {self.limit:,.10g}{unit} is more than this tool takes, at most "
                 f"{bound:,.10g}{unit} ({why}). Check the figure and its unit.")
+
+
+def takes_no_mirror(subsystem: Subsystem) -> bool:
+    """Whether ``subsystem`` has no mirror record and cannot have one: only a subsystem of a mirror kind
+    (``mirrors.models.TRAIN_KINDS``) takes one (``Mirror.clean``), so a trigger on a mirror's reflectance is never
+    computed anywhere else."""
+    from observatory_ops.mirrors.models import TRAIN_KINDS  # mirrors builds on planning
+
+    return subsystem.kind not in TRAIN_KINDS and not hasattr(subsystem, "mirror")
+
+
+def mirror_kinds_text() -> str:
+    """The kinds that take a mirror record, as a sentence names them: "primary mirror or secondary mirror"."""
+    from observatory_ops.mirrors.models import TRAIN_KINDS  # mirrors builds on planning
+
+    return " or ".join(KINDS[code].label.lower() for code in TRAIN_KINDS)
 
 
 def trigger_figures(metric, value, limit, unit, rate_per_day, forecast, earliest, latest, basis) -> dict:

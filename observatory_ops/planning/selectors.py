@@ -21,7 +21,16 @@ from observatory_ops.registry.catalogue import COMMON_PRACTICE, KINDS
 from observatory_ops.registry.models import Site, Subsystem
 
 from . import metrics, plots
-from .models import UNKNOWN_PROGRESS, NightSky, PlanStatus, ServicePlan, Trigger, figure_text
+from .models import (
+    UNKNOWN_PROGRESS,
+    NightSky,
+    PlanStatus,
+    ServicePlan,
+    Trigger,
+    figure_text,
+    mirror_kinds_text,
+    takes_no_mirror,
+)
 
 #: The catalogue's default limit of each quantity a condition trigger of its plans watches (registry.catalogue).
 CATALOGUE_READING_LIMITS: dict[str, float] = {
@@ -80,6 +89,89 @@ def plans_with_status(subsystem: Subsystem) -> QuerySet[ServicePlan]:
     )
 
 
+#: Why a counted plan has no due state (``not_computed_reason``), as the pages and the plan's admin say it.
+NO_TRIGGER = "no trigger: add one in the admin (Service plans)"
+NOT_RECOMPUTED = "not computed yet: the site has not been recomputed since the plan was saved"
+
+
+def not_computed_reason(plan: ServicePlan) -> str | None:
+    """Why ``plan`` has no due state, when it is counted (active, its subsystem in service) and has none: it is then
+    missing from the due list and the site's counts, so the subsystem page, the dashboard (``plans_not_computed``) and
+    the plan's admin say why and what to do. None for a plan with a state, or one not counted.
+
+    The recompute (``services._site_recompute``) stores a state from the triggers that give figures, so a plan gets
+    none when it has no trigger (``NO_TRIGGER``) or none of its triggers can be judged (``_trigger_not_judged``);
+    otherwise its site was not recomputed since it was saved (``NOT_RECOMPUTED``).
+    """
+    if not plan.active or plan.subsystem.retired_on is not None or getattr(plan, "status", None) is not None:
+        return None
+    triggers = list(plan.triggers.all())
+    if not triggers:
+        return NO_TRIGGER
+    unjudged = [_trigger_not_judged(plan, trigger) for trigger in triggers]
+    if None in unjudged:
+        return NOT_RECOMPUTED
+    unjudged = list(dict.fromkeys(unjudged))  # two alike are said once
+    if len(triggers) == 1:
+        return "its only trigger {} and {}".format(*unjudged[0])
+    if len(unjudged) == 1:
+        return "each of its triggers {} and {}".format(*unjudged[0])
+    return "none of its triggers can be judged: " + "; ".join(f"one {what} and {why}" for what, why in unjudged)
+
+
+def _trigger_not_judged(plan: ServicePlan, trigger: Trigger) -> tuple[str, str] | None:
+    """(what the trigger reads, why it gives no figures and what to do) for a trigger the recompute can give no
+    figures yet: one on the mirror's reflectance without a mirror record (``services._recoat_line_state``; refused in
+    the admin where the subsystem cannot have one, ``Trigger.clean``) or its coating (``mirrors.services
+    .mirror_forecast``: no fresh value), one on a reading with none since the plan's baseline, its last service or its
+    start (``services._reading_state``). None for a trigger that gives figures: every other metric always does."""
+    from .services import effective_last_service
+
+    subsystem = plan.subsystem
+    if trigger.metric == metrics.RECOAT_LINE:
+        what = "reads the mirror's reflectance"
+        mirror = getattr(subsystem, "mirror", None)
+        if mirror is None and takes_no_mirror(subsystem):
+            return what, (f"a subsystem of the kind {subsystem.kind_label} has no mirror record (only a "
+                          f"{mirror_kinds_text()} subsystem does): replace the trigger in the admin (Service plans) "
+                          "with one this subsystem can count")
+        if mirror is None:
+            return what, "this subsystem has no mirror record: add the mirror and its coating in the admin (Mirrors)"
+        if not mirror.coatings.exists():
+            return what, "its mirror has no coating recorded: add the coating in the admin (Mirrors)"
+        return None
+    if trigger.metric != metrics.READING or trigger.quantity not in QUANTITIES:
+        return None
+    served = effective_last_service(plan=plan).get(plan.pk)
+    baseline = served or plan.counting_from
+    zone = subsystem.telescope.site.zone
+    if subsystem.readings.filter(quantity=trigger.quantity, withdrawn_at__isnull=True,
+                                 taken_at__gte=dt.datetime.combine(baseline, dt.time(), tzinfo=zone)).exists():
+        return None
+    since = "the last service" if served else "the plan's start"
+    return (f"watches readings of {_mid_sentence(QUANTITIES[trigger.quantity][0])}",
+            f"none is logged since {since} ({baseline:%d %b %Y}): log one (Log a reading, on the subsystem's page)")
+
+
+def plans_not_computed(site: Site) -> list[ServicePlan]:
+    """The site's counted plans (active, their subsystem in service) that have no due state, each with
+    ``not_computed``: why (``not_computed_reason``). The dashboard names them: the due list and the counts leave
+    them out."""
+    plans = list(
+        ServicePlan.objects.filter(
+            subsystem__telescope__site=site, active=True, subsystem__retired_on__isnull=True, status__isnull=True
+        ).select_related("subsystem__telescope__site", "status").prefetch_related("triggers")
+    )
+    for plan in plans:
+        plan.not_computed = not_computed_reason(plan)
+    return plans
+
+
+def _mid_sentence(label: str) -> str:
+    """A quantity's label inside a sentence: "Motor current" reads "motor current"; "RMS following error" stays."""
+    return label if label[:2].isupper() else label[:1].lower() + label[1:]
+
+
 def forecast_quantities(subsystem: Subsystem) -> set[str]:
     """The reading quantities that move a forecast of the subsystem: those its active plans' condition triggers
     watch, and reflectance for a mirror (its readings join the decline fit behind the recoat line)."""
@@ -116,9 +208,7 @@ def unwatched_reading_note(subsystem: Subsystem, quantity: str) -> str | None:
     """
     if quantity in forecast_quantities(subsystem):
         return None
-    label = QUANTITIES[quantity][0]
-    if not label[:2].isupper():  # "Motor current" reads "motor current" mid-sentence; "RMS following error" stays
-        label = label[:1].lower() + label[1:]
+    label = _mid_sentence(QUANTITIES[quantity][0])
     return (f"No condition trigger of {subsystem.name}'s service plans watches {label}: this reading is stored "
             "with its history, but it moves no forecast.")
 
@@ -454,9 +544,10 @@ def expected_use_by_month(subsystem: Subsystem, plans: list[ServicePlan]) -> dic
 def plans_with_plots(subsystem: Subsystem) -> list[ServicePlan]:
     """The subsystem's plans, each with ``plot``: an SVG of its governing trigger (see ``plots``), ``caption``: the
     words under it where it needs them (the fitted decline of a recoat line), ``trigger_table``: its triggers' rows
-    (``trigger_table``), and ``default_limits``: the notes of ``default_limit_notes``. A plot is described
-    (aria-describedby) by the plan's due sentence, a recoat line's by its caption too: registry/subsystem_detail.html
-    gives them the ids plan-<pk>-reason and plan-<pk>-caption."""
+    (``trigger_table``), and ``default_limits``: the notes of ``default_limit_notes``; a plan with no due state has
+    ``not_computed`` instead: why (``not_computed_reason``). A plot is described (aria-describedby) by the plan's due
+    sentence, a recoat line's by its caption too: registry/subsystem_detail.html gives them the ids plan-<pk>-reason
+    and plan-<pk>-caption."""
     from observatory_ops.mirrors.services import mirror_forecast  # mirrors builds on planning
 
     from .services import UsageLog, site_today
@@ -470,6 +561,8 @@ def plans_with_plots(subsystem: Subsystem) -> list[ServicePlan]:
         plan.plot, plan.caption, plan.unread, plan.default_limits = None, "", [], default_limit_notes(plan)
         plan.catalogue_revision = catalogue_revision(plan)
         if status is None:
+            plan.subsystem = subsystem
+            plan.not_computed = not_computed_reason(plan)
             continue
         plan.trigger_table = trigger_table(plan)
         baseline = status.last_service_on or plan.counting_from  # as the recompute counts

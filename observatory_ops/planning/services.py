@@ -567,7 +567,8 @@ class _Plan(NamedTuple):
 
 def _site_recompute(site: Site, today: dt.date) -> int:
     # One query for the triggers of every active plan, each with the five plan fields read here: rows, not
-    # model instances, since a site has hundreds. A plan without triggers has no due state.
+    # model instances, since a site has hundreds. A plan without triggers has no due state, nor one none of whose
+    # triggers gives figures (no mirror record, no reading yet): the pages say why (selectors.not_computed_reason).
     plans: list[_Plan] = []
     triggers_of: dict[int, list] = {}
     for plan_id, subsystem_id, telescope_id, kind, counting_from, sensitivity, given, *trigger in _fetched(
@@ -847,7 +848,7 @@ def _recoat_line_state(mirror, today: dt.date, log: UsageLog, model: UsageModel)
     (``mirrors.services.reflectance_now``)."""
     from observatory_ops.mirrors.services import mirror_forecast, reflectance_now  # mirrors builds on planning
 
-    if mirror is None:
+    if mirror is None:  # no mirror record yet (``selectors.not_computed_reason`` says so)
         return None
     state = mirror_forecast(mirror, today, log, model)
     now = reflectance_now(state)

@@ -57,6 +57,8 @@ def site_dashboard(request, slug):
         {
             "site": site,
             "counts": planning_selectors.status_counts(site),
+            # Counted plans with no due state, each with why: missing from the counts and the due list, so named.
+            "not_computed": planning_selectors.plans_not_computed(site),
             "upcoming": upcoming,
             "attention_rows": ATTENTION_ROWS,
             "telescopes": telescopes,
