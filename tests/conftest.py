@@ -106,8 +106,8 @@ def today():
 def site_in_use(slug: str, kinds=("primary_mirror", "cooling_fans", "limits", "enclosure"), nights: int = 60):
     """An invented site (UTC zone) in use for a while: catalogue plans counted from 100 days ago, ``nights``
     logged nights up to yesterday, and a constant sky (10 dark hours a night) cached from a year back to
-    past the forecast horizon, so recomputing it never waits for astropy. Dates follow the real clock,
-    because tasks use each site's own "today"."""
+    past the forecast horizon, so recomputing it never waits for astropy; its telescope's mains isolation point
+    registered (``mains_isolator``). Dates follow the real clock, because tasks use each site's own "today"."""
     from observatory_ops.logbook.models import NightUsage
     from observatory_ops.planning.services import HORIZON_DAYS, site_today
     from observatory_ops.registry.models import Site, Telescope
@@ -116,6 +116,7 @@ def site_in_use(slug: str, kinds=("primary_mirror", "cooling_fans", "limits", "e
     site = Site.objects.create(name=f"Site {slug}", slug=slug, latitude_deg=31.5, longitude_deg=-110.2,
                                elevation_m=1500, time_zone="UTC")
     telescope = Telescope.objects.create(site=site, name="T1", aperture_m=0.6, mount="fork")
+    mains_isolator(telescope)
     today = site_today(site)
     for kind in kinds:
         subsystem_create(telescope, kind, kind.replace("_", " ").capitalize(), counting_from=today - dt.timedelta(100))
@@ -165,3 +166,13 @@ def parts_as_planned(order) -> dict[int, float]:
     """``parts_used`` for ``services.work_order_finish`` saying every planned part was used as planned: the service
     takes no default (the finish form asks each count), so a test finishing an order with parts says so."""
     return {use.pk: use.quantity_planned for use in order.part_uses.all()}
+
+
+def mains_isolator(telescope, subsystem=None):
+    """The telescope's AC isolation point, or ``subsystem``'s own (a dome on a supply of its own): work whose hazards
+    call for isolating electricity is neither issued nor started while none is registered
+    (workorders.selectors.moves_held)."""
+    from observatory_ops.workorders.models import IsolationPoint
+
+    label = f"{subsystem.name} breaker" if subsystem else "Mount isolator"
+    return IsolationPoint.objects.get_or_create(telescope=telescope, subsystem=subsystem, energy="ac", label=label)[0]

@@ -6,6 +6,7 @@ import datetime as dt
 import io
 
 import pytest
+from conftest import mains_isolator
 
 from observatory_ops.archive.history import changes
 from observatory_ops.logbook.models import NightUsage
@@ -48,6 +49,7 @@ def test_work_order_moves_are_in_its_history_with_the_person_and_the_move(telesc
 
     fans = subsystem_create(telescope, "cooling_fans", "Fans", counting_from=dt.date(2026, 1, 1))
     order = services.work_order_from_due(list(fans.plans.all()), users["engineer"], dt.date(2026, 6, 16))
+    mains_isolator(telescope)
     services.work_order_move(order, "issue", users["engineer"])
     services.work_order_move(order, "start", users["technician"])
     history = changes(order)

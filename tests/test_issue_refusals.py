@@ -1,5 +1,9 @@
 """What stops a work order being issued or started as it stands: a lift its figures show to be overloaded or
-rigged too flat, stored lifting inputs that are not valid, and (for issuing) no planned date.
+rigged too flat, stored lifting inputs that are not valid, an energy its work calls for isolating with no isolation
+point registered, and (for issuing) no planned date.
+
+Energy control procedures are developed and documented for each piece of equipment before work (OSHA 29 CFR
+1910.147(c)(4)(i)); holding the order until the register names the point is our own rule.
 
 Sling leg tension T = W / (n sin a), a the leg angle from the horizontal (ASME B30.9 and rigging handbooks: load
 factor 1/sin a, 2.000 at 30 degrees; flatter angles are not used). The mirror mass is pi/4 D^2 t times the
@@ -14,7 +18,8 @@ import pytest
 
 from observatory_ops.registry.services import subsystem_create
 from observatory_ops.workorders import selectors, services
-from observatory_ops.workorders.models import State, WorkOrder
+from observatory_ops.workorders.cautions import ISOLATION_POINTS_MISSING_HELD
+from observatory_ops.workorders.models import IsolationPoint, State, WorkOrder
 
 START = dt.date(2026, 1, 1)
 PLANNED = dt.date(2026, 6, 16)
@@ -155,3 +160,25 @@ def test_an_issued_order_keeps_its_planned_date(lift_order, users, client):
     })
     assert response.status_code == 200 and "An issued order keeps its planned date" in response.content.decode()
     assert WorkOrder.objects.get(pk=order.pk).planned_date == PLANNED
+
+
+def test_work_on_energy_with_no_isolation_point_registered_is_neither_issued_nor_started(site, telescope, users,
+                                                                                          client):
+    drive = subsystem_create(telescope, "axis1_drive", "Axis 1 drive", counting_from=START)
+    order = services.work_order_from_due(list(drive.plans.all()), users["engineer"], PLANNED)
+    assert "electrical" in order.hazards and selectors.isolation_gaps(order)
+    held = selectors.moves_held(order)
+    assert held["issue"] == held["start"] == [ISOLATION_POINTS_MISSING_HELD]
+    with pytest.raises(services.Refused, match="no isolation point registered"):
+        services.work_order_move(order, "issue", users["engineer"])
+    client.force_login(users["engineer"])
+    page = " ".join(client.get(order.get_absolute_url()).content.decode().split())
+    assert "Issue to the technicians</button>" not in page
+    assert f"Not offered: Issue to the technicians. {ISOLATION_POINTS_MISSING_HELD[:1].upper()}" in page
+    assert "No electrical isolation point is registered for T1" in page  # the warning it points to
+    assert _state(order) == State.DRAFT
+
+    IsolationPoint.objects.create(telescope=telescope, energy="ac", label="Mount isolator")
+    services.work_order_move(WorkOrder.objects.get(pk=order.pk), "issue", users["engineer"])
+    services.work_order_move(WorkOrder.objects.get(pk=order.pk), "start", users["technician"])
+    assert _state(order) == State.UNDERWAY

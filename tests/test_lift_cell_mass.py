@@ -16,6 +16,7 @@ import math
 import re
 
 import pytest
+from conftest import mains_isolator
 from django.apps import apps
 from django.contrib.messages import get_messages
 from test_recoat_phases import MIRROR_KG, SLING_WLL_KG, _printed, slings_rated
@@ -58,7 +59,9 @@ def _text(response) -> str:
 
 
 def _recoat(telescope, users, **cell) -> dict[str, WorkOrder]:
-    """The four recoat orders of the 500 mm primary, its mirror record made with ``cell`` (none: left empty)."""
+    """The four recoat orders of the 500 mm primary, its mirror record made with ``cell`` (none: left empty), on a
+    telescope with its mains isolation point."""
+    mains_isolator(telescope)
     primary = Subsystem.objects.create(telescope=telescope, kind="primary_mirror", name="Primary")
     mirror = Mirror.objects.create(subsystem=primary, diameter_mm=500, thickness_mm=50, hole_mm=120,
                                    material="borosilicate", **cell)

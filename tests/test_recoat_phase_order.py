@@ -15,6 +15,7 @@ import io
 import re
 
 import pytest
+from conftest import mains_isolator
 from django.contrib.messages import get_messages
 from pypdf import PdfReader
 from test_recoat_phases import slings_rated
@@ -38,6 +39,7 @@ def mirror(telescope):
     mirror = Mirror.objects.create(subsystem=primary, diameter_mm=500, thickness_mm=50, hole_mm=120,
                                    material="borosilicate", cell_mass_kg=30)
     CoatingEvent.objects.create(mirror=mirror, coated_on=dt.date(2025, 8, 1), metal="al")
+    mains_isolator(telescope)
     return mirror
 
 

@@ -14,6 +14,7 @@ import math
 import re
 
 import pytest
+from conftest import mains_isolator
 from pypdf import PdfReader
 
 from observatory_ops.calc.windows import RECOAT_PHASES
@@ -32,7 +33,8 @@ URL = "https://ops.vestal-ridge.example/workorders/1/"
 
 def _recoat(telescope, users) -> dict[str, WorkOrder]:
     """The four recoat orders of a 500 mm borosilicate primary (120 mm hole, 50 mm thick) in a 30 kg cell, by phase,
-    made with the telescope's register as it stands."""
+    made with the telescope's register as it stands, with its mains isolation point."""
+    mains_isolator(telescope)
     primary = Subsystem.objects.create(telescope=telescope, kind="primary_mirror", name="Primary")
     mirror = Mirror.objects.create(subsystem=primary, diameter_mm=500, thickness_mm=50, hole_mm=120,
                                    material="borosilicate", cell_mass_kg=30)

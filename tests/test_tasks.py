@@ -11,7 +11,7 @@ import subprocess
 import sys
 
 import pytest
-from conftest import site_in_use
+from conftest import mains_isolator, site_in_use
 from django.core import mail
 from django.db import OperationalError
 from django.utils.timezone import now as timezone_now
@@ -345,6 +345,8 @@ def test_weekly_batch_prints_that_weeks_issued_orders_and_a_rerun_replaces_it(db
     settings.DATA_DIR = tmp_path
     site = site_in_use("batch", kinds=("enclosure",))
     dome = site.telescopes.get().subsystems.get()
+    mains_isolator(dome.telescope)
+    mains_isolator(dome.telescope, dome)
     monday = dt.date(2026, 6, 15)
     wanted = [_issued_order(site, dome, users, monday + dt.timedelta(days=d), f"Order {d}") for d in (0, 6)]
     _issued_order(site, dome, users, monday + dt.timedelta(days=7), "Next week")

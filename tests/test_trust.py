@@ -7,6 +7,7 @@ import threading
 from pathlib import Path
 
 import pytest
+from conftest import mains_isolator
 from django.core.cache import cache
 from django.core.management import call_command
 from django.core.management.base import CommandError
@@ -151,6 +152,7 @@ def test_a_completion_interrupted_part_way_leaves_the_data_as_it_was(site, teles
     from observatory_ops.workorders.models import Part, State
 
     fans = subsystem_create(telescope, "cooling_fans", "Fans", counting_from=dt.date(2026, 1, 1))
+    mains_isolator(telescope)
     order = services.work_order_from_due(list(fans.plans.all()), users["engineer"], dt.date(2026, 6, 16))
     part = Part.objects.create(site=site, name="Filter", quantity_on_hand=5, reorder_point=1)
     services.part_add(order, part, 2)
@@ -181,6 +183,7 @@ def test_two_people_finishing_at_once_yield_one_completion(site, telescope, user
     from observatory_ops.workorders import selectors, services
 
     fans = subsystem_create(telescope, "cooling_fans", "Fans", counting_from=dt.date(2026, 1, 1))
+    mains_isolator(telescope)
     order = services.work_order_from_due(list(fans.plans.all()), users["engineer"], dt.date(2026, 6, 16))
     services.work_order_move(order, "issue", users["engineer"])
     services.work_order_move(order, "start", users["technician"])

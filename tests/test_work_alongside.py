@@ -13,6 +13,7 @@ import html
 import re
 
 import pytest
+from conftest import mains_isolator
 from test_workorder_pdf import body_text
 from test_workorders import PLANNED, drive, order  # noqa: F401  (fixtures, used by name)
 
@@ -79,6 +80,7 @@ def test_each_order_underway_warns_of_the_other_on_its_page_and_on_paper(order, 
 
 def test_work_on_another_telescope_or_finished_work_asks_nothing(order, telescope, users):  # noqa: F811
     other_scope = Telescope.objects.create(site=telescope.site, name="T2", aperture_m=0.3, mount="fork")
+    mains_isolator(other_scope)
     fans = subsystem_create(other_scope, "cooling_fans", "T2 fans", counting_from=dt.date(2026, 1, 1))
     elsewhere = _issued(services.work_order_from_due(list(fans.plans.all()), users["engineer"], PLANNED), users)
     services.work_order_move(elsewhere, "start", users["technician"])

@@ -23,7 +23,7 @@ from pathlib import Path
 from urllib.parse import quote
 
 import pytest
-from conftest import require_server, site_in_use
+from conftest import mains_isolator, require_server, site_in_use
 from django.db import connection, transaction
 
 from observatory_ops.logbook.models import NightUsage
@@ -321,6 +321,7 @@ def test_finishing_one_work_order_from_two_connections_at_once_yields_one_comple
     from observatory_ops.workorders.models import State, WorkOrder
 
     fans = site_in_use("finish", kinds=("cooling_fans",)).telescopes.get().subsystems.get()
+    mains_isolator(fans.telescope)
     order = services.work_order_from_due(list(fans.plans.all()), users["engineer"], dt.date(2026, 6, 16))
     services.work_order_move(order, "issue", users["engineer"])
     services.work_order_move(order, "start", users["technician"])

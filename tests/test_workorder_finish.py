@@ -12,7 +12,7 @@ import re
 from zoneinfo import ZoneInfo
 
 import pytest
-from conftest import site_in_use
+from conftest import mains_isolator, site_in_use
 from django.contrib.messages import get_messages
 from django.utils import timezone
 from test_recoat_phases import slings_rated
@@ -177,6 +177,7 @@ def mirror(db):
     made = Mirror.objects.create(subsystem=primary, diameter_mm=500, thickness_mm=50, hole_mm=120,
                                  material="borosilicate", cell_mass_kg=30)
     CoatingEvent.objects.create(mirror=made, coated_on=site_today(site) - dt.timedelta(days=400), metal="al")
+    mains_isolator(primary.telescope)
     return made
 
 

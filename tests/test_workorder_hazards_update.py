@@ -15,6 +15,7 @@ import io
 import re
 
 import pytest
+from conftest import mains_isolator
 from pypdf import PdfReader
 from test_workorders import (  # noqa: F401  (fixtures, used by name)
     ISOLATED,
@@ -68,7 +69,9 @@ def _pdf_text(client, work_order) -> str:
 
 @pytest.fixture
 def eyepieces(telescope):
-    """A subsystem whose work has no energy to isolate, and a plan in its three step groups."""
+    """A subsystem whose work has no energy to isolate, and a plan in its three step groups; its telescope has a
+    mains isolation point, for when the tests give the work an electrical hazard."""
+    mains_isolator(telescope)
     box = subsystem_create(
         telescope, "other", "Eyepiece cabinet", counting_from=dt.date(2026, 1, 1), no_hazards_found=True
     )

@@ -263,6 +263,14 @@ HAZARDS_UNRECORDED_HELD = (
     "records that there are none, before it is issued or started"
 )
 
+#: Why an order whose hazards call for isolating an energy with no isolation point registered for it
+#: (workorders.selectors.isolation_gaps) is neither issued nor started: its lockout step would send the technician to
+#: a list of points that leaves the energy out, and the finish form would read "every isolation point ticked".
+ISOLATION_POINTS_MISSING_HELD = (
+    "its work calls for isolating energy that has no isolation point registered (the warnings under Energy isolation "
+    "points): an engineer adds the points to the register (admin, Isolation points) before it is issued or started"
+)
+
 #: A telescope whose primary mirror a recoat removed and has not yet put back (workorders.selectors.telescopes_out):
 #: out of balance, axes pinned, drives on the site's long-term locks (the removal order's own release step). Work on
 #: it meanwhile is usual, but no step of it may move an axis or take those locks off (common practice, no published

@@ -38,6 +38,7 @@ from .cautions import (
     HAZARDS_UNRECORDED_ON_PAPER,
     HAZARDS_UNRECORDED_STARTED,
     HAZARDS_UNRECORDED_TITLE,
+    ISOLATION_POINTS_MISSING_HELD,
     ISOLATION_REVIEW,
     ISOLATION_UNTICKED,
     ISOLATION_UNTICKED_RECORD,
@@ -1193,13 +1194,16 @@ def lift_refusal(order: WorkOrder, action: str = "issue") -> str:
 #: Why an order is not issued without a planned date.
 NO_PLANNED_DATE = "set the planned date (Edit) before issuing: the calendar export and the weekly batch go by it"
 
-def moves_held(order: WorkOrder, unrecorded: Sequence[Subsystem] | None = None) -> dict[str, list[str]]:
+def moves_held(order: WorkOrder, unrecorded: Sequence[Subsystem] | None = None,
+               gaps: Sequence[str] | None = None) -> dict[str, list[str]]:
     """The moves (``lifecycle`` actions) the order may not take as it stands, whoever asks, each with the reasons:
     issuing without a planned date (the calendar export and the weekly batch go by it), issuing or starting
-    while its lift stands in the way (``lift_refusal``: the start also while no working load limit is entered), and
-    starting a recoat phase before the phase before it is finished (``recoat_order_refusal``).
-    ``services.work_order_move`` refuses them with these words, and the order's page leaves their buttons out and
-    says why. ``unrecorded``: ``hazards_unrecorded(order)``, read when not given."""
+    while its lift stands in the way (``lift_refusal``: the start also while no working load limit is entered), while
+    nobody has recorded its subsystems' hazards, or while an energy its work calls for isolating has no isolation
+    point registered (``isolation_gaps``), and starting a recoat phase before the phase before it is finished
+    (``recoat_order_refusal``). ``services.work_order_move`` refuses them with these words, and the order's page
+    leaves their buttons out and says why. ``unrecorded`` and ``gaps``: ``hazards_unrecorded(order)`` and
+    ``isolation_gaps(order)``, read when not given."""
     held: dict[str, list[str]] = {}
     if order.state == State.DRAFT and order.planned_date is None:
         held.setdefault("issue", []).append(NO_PLANNED_DATE)
@@ -1212,6 +1216,10 @@ def moves_held(order: WorkOrder, unrecorded: Sequence[Subsystem] | None = None) 
             why = HAZARDS_UNRECORDED_HELD.format(subsystems=in_words([str(s) for s in unrecorded]))
             for action in ("issue", "start"):
                 held.setdefault(action, []).append(why)
+        gaps = isolation_gaps(order) if gaps is None else gaps
+        if gaps:
+            for action in ("issue", "start"):
+                held.setdefault(action, []).append(ISOLATION_POINTS_MISSING_HELD)
     if order.state == State.ISSUED and (why := recoat_order_refusal(order)):
         held.setdefault("start", []).append(why)
     return held

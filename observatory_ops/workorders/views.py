@@ -131,7 +131,8 @@ def work_order_detail(request, pk):
     # Moves refused as the order stands (no planned date, a lift that stands in the way), and a countersign refused to
     # this person (one who took part in the work; a technician, when the isolation answer is put to the engineer):
     # no buttons, and why.
-    held = selectors.moves_held(order, unrecorded)
+    gaps = selectors.isolation_gaps(order, points, items)
+    held = selectors.moves_held(order, unrecorded, gaps)
     if order.state == State.FINISHED and (why := services.countersign_refusal(order, request.user)):
         held["countersign"] = [why]
     held_notes: dict[str, list[str]] = {}
@@ -164,7 +165,7 @@ def work_order_detail(request, pk):
             "checklist": selectors.checklist(order, points, items),
             "refused": _tick_refused(request, order),
             "can_tick": order.state == State.UNDERWAY and has_role(request.user, TECHNICIAN),
-            "isolation_gaps": selectors.isolation_gaps(order, points, items),
+            "isolation_gaps": gaps,
             "no_isolation_needed": selectors.order_isolation_statement(order, missing, unrecorded),
             "readings": readings,
             "beyond_limit": [r for r in readings if r.recorded_beyond_limit],

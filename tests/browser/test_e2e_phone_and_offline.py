@@ -163,12 +163,13 @@ def test_printed_a_work_order_leaves_out_its_buttons_and_keeps_each_caution_whol
 @pytest.fixture
 def fans(transactional_db, users):
     """The cooling fans of a site in use, its due states computed (so each plan offers "Log service for this plan")."""
-    from conftest import site_in_use
+    from conftest import mains_isolator, site_in_use
 
     from observatory_ops.planning.services import site_recompute
     from observatory_ops.registry.models import Subsystem
 
     site = site_in_use("offline", kinds=("cooling_fans",))
+    mains_isolator(site.telescopes.get())
     site_recompute(site)
     return Subsystem.objects.get(telescope__site=site)
 
@@ -252,10 +253,13 @@ def test_what_was_typed_comes_back_after_a_send_lost_on_the_way_and_never_after_
 @pytest.mark.browser
 def test_the_button_pressed_goes_with_the_form_after_the_check(browser_page, live_server, login, transactional_db,
                                                               users, telescope):
+    from conftest import mains_isolator
+
     from observatory_ops.registry.services import subsystem_create
     from observatory_ops.workorders import services
 
     fans = subsystem_create(telescope, "cooling_fans", "Fans", counting_from=dt.date(2026, 1, 1))
+    mains_isolator(telescope)
     order = services.work_order_from_due([fans.plans.get(name="Replace fan filters")], users["engineer"],
                                          planned_date=dt.date(2026, 6, 15))
     services.work_order_move(order, "issue", users["engineer"])
