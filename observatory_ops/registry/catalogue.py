@@ -199,6 +199,13 @@ _EARLIER_BACK_IN_SERVICE = (
 )
 _RESTORE = (RELEASE, _BACK_IN_SERVICE)
 _COVER_CLOSED_IN_SERVICE = "Close the mirror cover and return the telescope to service."
+#: A refractor's objective is at the front of its tube: pointed low, it is within reach from the floor or a step ladder
+#: (common practice, no published source). Both of the objective's plans park so, in these words, so an order over both
+#: parks once.
+_PARK_OBJECTIVE_LOW = (
+    "Park the telescope with its tube level or pointing low, within the mount's limits, so that the objective can be "
+    "reached from the floor or a step ladder."
+)
 #: Work above the primary with its cover open, as the mirror cover's check may need: the glass covered first, and the
 #: cover closed before the telescope goes back in service (common practice, no published source).
 _PRIMARY_COVER = "the primary mirror's protective cover"
@@ -423,6 +430,90 @@ KINDS: dict[str, Kind] = {
             ),
             # Its reflectance, measured as the primary's is, tells when a clean no longer brings it back.
             quantities=("reflectance",),
+        ),
+        Kind(
+            # A refractor's objective with its cell, its dew shield and the dew heater wrapped round them: glass at the
+            # front of a tube that can move, and a heater fed from the telescope's supply. Not a mirror: no mirror
+            # record, no recoat and no lifting figures (mirrors.models.TRAIN_KINDS leaves it out).
+            "objective_lens",
+            "Objective lens (refractor)",
+            ("optical_surface", "electrical", "moving_machinery"),
+            (
+                # An objective is cleaned far less often than it is looked at: every clean risks its coatings, and a
+                # little dust costs almost nothing (common practice, no published source).
+                PlanTemplate(
+                    "Inspect objective, clean only if needed",
+                    "Look over the objective's outer surface for dust, dew spots and fungus with a flashlight; clean "
+                    "it only where that is needed, loose dust blown off first, then lens tissue and cleaning fluid.",
+                    (("dust_hours", 600.0), ("calendar_days", 90.0)),
+                    COMMON_PRACTICE,
+                    dust_sensitivity=1.0,
+                    hazards=("chemical", "height"),
+                    before_isolation=(_READ_RECORDS, _OUT_OF_SERVICE, _PARK_OBJECTIVE_LOW),
+                    after_isolation=(
+                        "Take the cap off the dew shield, if it has one, and inspect the objective's outer surface "
+                        "with a flashlight held at a low angle, looking across the glass: note any dust, dew spots or "
+                        "water marks in the findings, and any fungus (fine threads or a web-like haze, often starting "
+                        "at the edge of the glass); photograph anything unusual.",
+                        "If there is fungus, a haze inside the lens or anything between its elements, do not clean: "
+                        "cover the objective and tell the site engineer; only the maker or someone trained for it "
+                        "opens the cell.",
+                        "Clean only if the dust or spots are heavy enough to matter. Blow the loose dust off first "
+                        "with a hand blower, then lift what stays with a soft lens brush, brushing outward.",
+                        "Only where marks remain, wet a fresh lens tissue with a few drops of the lens cleaning fluid "
+                        "(never pour fluid on the glass: it runs under the retaining ring) and wipe gently from the "
+                        "centre outward, a fresh tissue for each pass. Never wipe the glass dry, and never before the "
+                        "grit is off it: grit dragged across a coating scratches it.",
+                        "Put back the dew shield's cap, if it has one, and check that nothing was left on the tube.",
+                    ),
+                    restore=_RESTORE,
+                    tools=(
+                        "flashlight",
+                        "hand blower",
+                        "soft lens brush",
+                        "lens tissue",
+                        "the lens cleaning fluid the objective's maker approves",
+                        "powder-free gloves and the eye protection the fluid's safety data sheet calls for",
+                        "step ladder",
+                    ),
+                ),
+                PlanTemplate(
+                    "Check dew heater, its cable and the dew shield",
+                    "Check that the dew heater warms evenly at its supply voltage, inspect the heater band, its cable "
+                    "and connectors, and check the dew shield's fit and condition.",
+                    # Before each damp season, twice a year; the cable wears with the telescope's moves, so open hours
+                    # too.
+                    (("calendar_days", 180.0), ("open_hours", 2000.0)),
+                    COMMON_PRACTICE,
+                    hazards=("height",),
+                    before_isolation=(
+                        _READ_RECORDS,
+                        _OUT_OF_SERVICE,
+                        _PARK_OBJECTIVE_LOW,
+                        "With the dew heater's controller at full power, measure the voltage at the heater's "
+                        "connector and record it on this work order; after a few minutes, feel along the outside of "
+                        "the dew shield over the heater band for even warmth all round and note any cold section in "
+                        f"the findings. {_ENERGISED_WORK}",
+                    ),
+                    after_isolation=(
+                        "Test for absence of voltage at the dew heater's connector with the voltage tester before "
+                        "touching it.",
+                        "Inspect the heater band for burn marks, cracked covering and a loose fit, and its cable and "
+                        "connectors for chafe, kinks and strain; check that the cable is tied so that it cannot snag "
+                        "as the telescope moves; photograph anything unusual.",
+                        "Measure the heater band's resistance at its connector with the multimeter and note it in the "
+                        "findings beside the maker's figure.",
+                        "Inspect the dew shield: seated and fixed on the tube, not dented, its inside blackening not "
+                        "flaking towards the objective.",
+                    ),
+                    restore=_RESTORE,
+                    tools=(_MULTIMETER, _VOLTAGE_TESTER, "step ladder"),
+                    readings=(("supply_voltage_v", _MAKERS_FIGURE),),
+                ),
+            ),
+            # The objective's (or its cell's) temperature against the air's, where the dew heater's controller reads
+            # it: kept a few degrees above the dew point, the glass stays clear (common practice, no published source).
+            quantities=("temperature_c",),
         ),
         Kind(
             "mirror_cover",

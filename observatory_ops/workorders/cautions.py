@@ -617,9 +617,9 @@ CAUTIONS: dict[str, Caution] = {
         text=(
             "Touch an optical surface only as the manufacturer's handling instructions allow, and never with "
             "bare fingers. "
-            "Cover the mirror whenever you are not working on it, and keep tools, fasteners and drips away from "
-            "above it. "
-            "Clean only with the materials and method the coating supplier approves. "
+            "Cover the mirror or lens whenever you are not working on it, and keep tools, fasteners and drips away "
+            "from above it. "
+            "Clean only with the materials and method the optic's maker or coating supplier approves. "
             "Report any scratch, chip or stain with a photograph before you carry on."
         ),
         standard="Manufacturer's handling instructions for the optic",
