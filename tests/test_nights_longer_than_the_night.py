@@ -84,3 +84,13 @@ def test_the_log_pages_form_says_so_too(client, users, sky):
 def test_a_night_the_sky_cache_does_not_hold_is_not_checked(site, recomputes_recorded):
     report = services.nights_import(site, b"night,open_hours\n2020-06-20,20\n")
     assert report.created == 1 and report.longer_than_the_night == []
+
+
+def test_the_preview_of_changes_to_stored_nights_names_it_before_anything_is_stored(sky):
+    """The upload page asks before changing stored nights: the slip is named there, while nothing is stored yet."""
+    services.nights_import(sky, b"night,open_hours\n2024-06-20,2\n")
+    preview = services.nights_import(sky, b"night,open_hours\n2024-06-20,20\n", confirmed="")
+    assert preview.confirm_token and not preview.stored
+    assert NightUsage.objects.get(night=SOLSTICE).open_hours == 2  # nothing stored yet
+    assert ("nothing was stored yet. Check 1 night longer than the night before storing (correct the file and import "
+            "it again): 20 Jun 2024: 20 h open, but that night lasts ") in preview.summary

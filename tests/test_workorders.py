@@ -315,6 +315,27 @@ def test_an_order_over_two_telescopes_names_the_telescope_in_its_title_and_step_
     assert sheet.subsystems == ("T1: Mirror cell fans", "T2: Mirror cell fans")
 
 
+def test_the_title_and_the_steps_take_the_plans_in_the_order_they_were_ticked(telescope, site, users, client):
+    """A reviewer ticked three plans on the due list and got their labels in another order."""
+    from observatory_ops.registry.models import Telescope
+
+    second = Telescope.objects.create(site=site, name="T2", aperture_m=0.3, mount="fork")
+    fans = [subsystem_create(t, "cooling_fans", "Mirror cell fans", counting_from=dt.date(2026, 1, 1))
+            for t in (telescope, second)]
+    plans = [f.plans.get(name="Replace fan filters") for f in reversed(fans)]
+    order = services.work_order_from_due(plans, users["engineer"])
+    assert order.title == "T2: Replace fan filters; T1: Replace fan filters"
+    steps = order.step_list
+    assert steps.index(next(s for s in steps if s.startswith("[T2:"))) < steps.index(
+        next(s for s in steps if s.startswith("[T1:")))
+    client.force_login(users["engineer"])
+    client.post("/workorders/from-due/", {"plans": [plans[0].pk, plans[1].pk]})
+    client.post("/workorders/from-due/", {"plans": [plans[1].pk, plans[0].pk]})
+    titles = list(WorkOrder.objects.order_by("pk").values_list("title", flat=True))
+    assert titles[-2:] == ["T2: Replace fan filters; T1: Replace fan filters",
+                           "T1: Replace fan filters; T2: Replace fan filters"]
+
+
 def test_two_plans_of_one_name_on_one_telescope_are_told_apart_by_their_subsystem(telescope, users):
     fans = [subsystem_create(telescope, "cooling_fans", name, counting_from=dt.date(2026, 1, 1))
             for name in ("Electronics fans", "Mirror cell fans")]

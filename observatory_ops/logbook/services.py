@@ -107,8 +107,11 @@ class ImportReport:
     confirm_token: str = ""
     #: A token was given but the changes are not those it confirmed (the file or the stored nights differ).
     confirmed_other: bool = False
-    #: The site and the nights created or updated, for ``uncounted_note`` and ``longer_than_the_night``.
+    #: The site and the nights created or updated, for ``uncounted_note``.
     stored_on: tuple[Site, list[NightUsage]] | None = None
+    #: The site and the nights the import creates or updates, or would once its changes are confirmed, for
+    #: ``longer_than_the_night``: a slip is best caught before it is stored.
+    checked_on: tuple[Site, list[NightUsage]] | None = None
     #: The counts of each telescope's nights in the file or request (its name; "" for the whole site's), in order of
     #: first appearance: {"created": .., "updated": .., "unchanged": ..}, as the API answers them.
     by_telescope: dict[str, dict[str, int]] = field(default_factory=dict)
@@ -127,9 +130,10 @@ class ImportReport:
 
     @property
     def longer_than_the_night(self) -> list[str]:
-        """The stored nights whose open hours exceed the night at the site (``selectors.nights_longer_than_the_night``):
-        stored as sent, and named so a slip (20 for 2.0) is corrected by sending the night again."""
-        return nights_longer_than_the_night(*self.stored_on) if self.stored_on else []
+        """The nights stored, or to be stored once confirmed, whose open hours exceed the night at the site
+        (``selectors.nights_longer_than_the_night``): stored as sent, and named so a slip (20 for 2.0) is corrected
+        before confirming, or by sending the night again."""
+        return nights_longer_than_the_night(*self.checked_on) if self.checked_on else []
 
     @property
     def summary(self) -> str:
@@ -143,10 +147,14 @@ class ImportReport:
                 "These changes are not the ones confirmed (the file or the stored nights differ): check them again"
                 if self.confirmed_other else "Check the changes below and confirm them"
             )
-            return (
+            text = (
                 f"{text}. The file would change {nights} stored night{pluralize(nights)} "
-                f"({self.created} new, {self.unchanged} unchanged); nothing was stored yet."
+                f"({self.created} new, {self.unchanged} unchanged); nothing was stored yet"
             )
+            if long := self.longer_than_the_night:
+                text += (f". Check {len(long)} night{pluralize(len(long))} longer than the night before storing "
+                         f"(correct the file and import it again): {'; '.join(long)}")
+            return f"{text}."
         text = (f"{self.created} new{self._whose('created')}, {self.updated} updated{self._whose('updated')}, "
                 f"{self.unchanged} unchanged{self._whose('unchanged')}")
         if self.skipped:
@@ -348,6 +356,7 @@ def _nights_store(
     report.created, report.updated, report.unchanged = len(new), len(changed), unchanged
     report.changes, report.stored = changes, stored
     report.by_telescope = _counts_by_telescope(rows, new, changed)
+    report.checked_on = (site, new + changed)
     if stored:
         report.updated_nights = sorted(u.night for u in changed)
         report.stored_on = (site, new + changed)

@@ -408,9 +408,12 @@ def _title(labels: list[str]) -> str:
 
 
 def work_order_from_due(plans: Sequence[ServicePlan], by, planned_date: dt.date | None = None) -> WorkOrder:
-    """One work order covering the given plans (selected on the due list), with steps from their templates."""
-    plans = list(
-        ServicePlan.objects.filter(pk__in=[p.pk for p in plans]).select_related("subsystem__telescope__site", "status")
+    """One work order covering the given plans (selected on the due list), with steps from their templates: its
+    title and its steps take the plans in the order given (the due list's, as ticked there)."""
+    given = {plan.pk: position for position, plan in enumerate(plans)}
+    plans = sorted(
+        ServicePlan.objects.filter(pk__in=given).select_related("subsystem__telescope__site", "status"),
+        key=lambda plan: given[plan.pk],
     )
     if not plans:
         raise Refused("select at least one due item")

@@ -65,7 +65,8 @@ def work_order_from_due(request):
     if request.method != "POST":
         return HttpResponseNotAllowed(["POST"])
     ids = [int(v) for v in request.POST.getlist("plans") if v.isascii() and v.isdigit()]
-    plans = list(ServicePlan.objects.filter(pk__in=ids).select_related("subsystem__telescope__site"))
+    plans = sorted(ServicePlan.objects.filter(pk__in=ids).select_related("subsystem__telescope__site"),
+                   key=lambda plan: ids.index(plan.pk))  # in the due list's order
     # The due list asks no date: the order is planned for the site's today, so it can be issued straight away.
     planned = site_today(plans[0].subsystem.telescope.site) if plans else None
     try:
