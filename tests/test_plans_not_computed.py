@@ -26,6 +26,7 @@ from observatory_ops.planning.models import PlanStatus, ServicePlan, Trigger
 from observatory_ops.planning.selectors import (
     NO_TRIGGER,
     NOT_RECOMPUTED,
+    not_computed_counts,
     not_computed_reason,
     plans_not_computed,
     status_counts,
@@ -310,3 +311,35 @@ def test_a_dashboard_with_every_plan_computed_shows_no_such_notice(site, primary
     assert plans_not_computed(site) == []
     client.force_login(users["viewer"])
     assert 'id="not-computed"' not in client.get(site.get_absolute_url()).content.decode()
+
+
+def test_the_due_list_says_how_many_plans_it_cannot_list_and_where_they_are_named(site, primary, dull, wheel, users,
+                                                                                   client):
+    ServicePlan.objects.create(subsystem=wheel, name="Clean the wheel", counting_from=site_today(site))
+    site_recompute(site)
+    client.force_login(users["viewer"])
+    text = _text(client.get("/due/"))
+    assert (f"Not listed: 2 service plans at {site.name} cannot be computed yet. The site's dashboard names them and "
+            "says what to do.") in text
+    assert f'href="{site.get_absolute_url()}#not-computed"' in client.get(f"/due/?site={site.slug}").content.decode()
+    assert not_computed_counts([site]) == [(site, 2)]
+
+
+def test_the_due_list_reads_them_in_two_queries_whatever_the_number_of_sites(site, wheel, users, client):
+    from django.db import connection
+    from django.test.utils import CaptureQueriesContext
+
+    from observatory_ops.registry.models import Site, Telescope
+
+    for n in range(3):
+        other = Site.objects.create(name=f"Other {n}", slug=f"other-{n}", latitude_deg=40, longitude_deg=-3,
+                                    elevation_m=800, time_zone="UTC")
+        scope = Telescope.objects.create(site=other, name="T1", aperture_m=0.5, mount="fork")
+        ServicePlan.objects.create(subsystem=subsystem_create(scope, "other", "Wheel", counting_from=site_today(other),
+                                                              no_hazards_found=True),
+                                   name="Clean the wheel", counting_from=site_today(other))
+    with CaptureQueriesContext(connection) as queries:
+        found = not_computed_counts()
+    assert len(queries) == 2  # the counts by site, and those sites
+    assert [(found_site.slug, count) for found_site, count in found] == [
+        ("other-0", 1), ("other-1", 1), ("other-2", 1), (site.slug, 3)]  # the fixture's site, not recomputed

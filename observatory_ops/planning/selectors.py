@@ -167,6 +167,18 @@ def plans_not_computed(site: Site) -> list[ServicePlan]:
     return plans
 
 
+def not_computed_counts(sites: list[Site] | None = None) -> list[tuple[Site, int]]:
+    """For the due list, which cannot show them: how many counted plans of each site (of ``sites``; every site when
+    None) have no due state, in two queries whatever the number of sites; the dashboard says which and why
+    (``plans_not_computed``)."""
+    plans = ServicePlan.objects.filter(active=True, subsystem__retired_on__isnull=True, status__isnull=True)
+    if sites is not None:
+        plans = plans.filter(subsystem__telescope__site__in=sites)
+    counts = dict(plans.values_list("subsystem__telescope__site").annotate(n=Count("pk")).values_list(
+        "subsystem__telescope__site", "n"))
+    return [(site, counts[site.pk]) for site in Site.objects.filter(pk__in=counts).order_by("name")] if counts else []
+
+
 def _mid_sentence(label: str) -> str:
     """A quantity's label inside a sentence: "Motor current" reads "motor current"; "RMS following error" stays."""
     return label if label[:2].isupper() else label[:1].lower() + label[1:]

@@ -39,7 +39,8 @@ def due_list(request):
     for record in rows:
         record.on_orders = on_orders.get(record.plan_id, [])
     out = telescopes_out([chosen] if chosen else None).values()
-    context = {"filter": filtered, "table": table, "telescopes_out": out, **_links(request, table)}
+    context = {"filter": filtered, "table": table, "telescopes_out": out,
+               "not_computed": selectors.not_computed_counts([chosen] if chosen else None), **_links(request, table)}
     return render(request, "planning/due_list.html", context)
 
 
