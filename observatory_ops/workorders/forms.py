@@ -296,11 +296,18 @@ class FinishForm(forms.Form):
         for r in self._required.values():
             label = f"{r.quantity_label} on {r.subsystem.name} ({r.unit})"
             self.fields[f"reading_{r.pk}"] = forms.FloatField(
-                label=label, help_text=f"limit: {r.limit_text}" if r.limit_text else "", required=True,
+                label=label, help_text=f"limit: {r.limit_text}" if r.limit_text else "", required=False,
                 error_messages={"required": f"{label}: enter the reading as measured.",
                                 "invalid": f"{label}: enter a number."},
                 # Said with the other fields' problems, on the first try (finishing checks it again).
                 validators=[_plausible(r.quantity, label)],
+            )
+            # A reading that could not be taken is said so, never made up: the record keeps why (``not_measured``).
+            self.fields[f"why_{r.pk}"] = forms.CharField(
+                label=f"Not measured ({r.quantity_label} on {r.subsystem.name}): why", required=False, max_length=200,
+                help_text="Only when it could not be measured (no meter on site, the drive could not be run): "
+                          "leave the reading empty and say why. The record keeps it, and the person who countersigns "
+                          "sees it.",
             )
         # Empty, never the planned quantity: a tap on Finish must not book the plan as used (the register and the
         # parts-used record), so each count is typed, 0 for a part not used; the plan is said beside it.
@@ -402,6 +409,16 @@ class FinishForm(forms.Form):
         cleaned = super().clean()
         if cleaned.get("isolation_answer") and not cleaned.get("findings", "").strip():
             self.add_error("findings", f"Findings: {ISOLATION_UNTICKED_FINDINGS}.")
+        # Each required reading: its value as measured, or why it was not taken; not both.
+        for pk in self._required:
+            label = self.fields[f"reading_{pk}"].label
+            value, why = cleaned.get(f"reading_{pk}"), (cleaned.get(f"why_{pk}") or "").strip()
+            if value is None and not why and f"reading_{pk}" not in self.errors:
+                self.add_error(f"reading_{pk}", f"{label}: enter the reading as measured, or say below why it was "
+                                                "not measured.")
+            elif value is not None and why:
+                self.add_error(f"why_{pk}", f"{label}: a reading is entered, so leave \"not measured\" empty (or "
+                                            "empty the reading).")
         # A fraction of a part counted in whole units, refused on its own field (the error summary links it) in the
         # words finishing would refuse it with (models.part_quantity_not_whole).
         for pk, use in self._uses.items():
@@ -427,7 +444,12 @@ class FinishForm(forms.Form):
         return [(part, quantity) for part, quantity in rows if part and quantity]
 
     def readings(self) -> dict[int, float]:
-        return {int(k[8:]): v for k, v in self.cleaned_data.items() if k.startswith("reading_")}
+        """RequiredReading id -> the value entered, for the readings measured."""
+        return {int(k[8:]): v for k, v in self.cleaned_data.items() if k.startswith("reading_") and v is not None}
+
+    def not_measured(self) -> dict[int, str]:
+        """RequiredReading id -> why it was not measured, for the others."""
+        return {int(k[4:]): v.strip() for k, v in self.cleaned_data.items() if k.startswith("why_") and v.strip()}
 
     def parts(self) -> dict[int, float]:
         return {int(k[5:]): v for k, v in self.cleaned_data.items() if k.startswith("part_")}

@@ -311,6 +311,11 @@ class RequiredReading(models.Model):
         "logbook.Reading", null=True, blank=True, on_delete=models.PROTECT, related_name="+",
         help_text="The logbook reading recorded on completion.",
     )
+    not_measured = models.CharField(
+        max_length=200, blank=True,
+        help_text="Why the reading was not taken, as the person finishing said it (no meter on site, say); empty when "
+                  "it was recorded.",
+    )
 
     class Meta:
         ordering = ["pk"]

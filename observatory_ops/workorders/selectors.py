@@ -1443,7 +1443,9 @@ def sheet(order: WorkOrder, url: str) -> sheet_.Sheet:
         readings=tuple(
             sheet_.SheetReading(
                 f"{r.quantity_label} ({where(r.subsystem)})", r.unit, r.limit_text,
-                recorded=f"{r.reading.value:g}" if r.reading else "", beyond_limit=r.recorded_beyond_limit,
+                recorded=(f"{r.reading.value:g}" if r.reading else f"not measured: {r.not_measured}" if r.not_measured
+                          else ""),
+                beyond_limit=r.recorded_beyond_limit,
             )
             for r in readings
         ),

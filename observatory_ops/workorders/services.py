@@ -697,6 +697,7 @@ def work_order_finish(
     crew: Sequence[str] = (),
     parts_added: Sequence[tuple[Part, float]] = (),
     crew_members: Sequence = (),
+    not_measured: dict[int, str] | None = None,
 ) -> WorkOrder:
     """Record the work: service records for every item, readings, parts used; reset plans; recompute.
 
@@ -709,12 +710,13 @@ def work_order_finish(
     becomes a cleaning on the mirror's record, dated the day the work was done, so its decline fit sees the
     recovery.
 
-    ``readings`` maps RequiredReading id -> value (all are required; a value beyond its limit is recorded as
-    measured, and the record flags it); ``parts_used`` maps PartUse id -> quantity used, one for every part
-    the order plans (0 for a part not used: never the plan by default). A part used beyond what the parts register
-    holds is recorded as used all the same (the work was done): the register is brought to zero, never below, and
-    the difference kept on the order's part line (``PartUse.quantity_short``) for the site engineer to count the
-    stock (``part_count_record``).
+    ``readings`` maps RequiredReading id -> value (a value beyond its limit is recorded as measured, and the record
+    flags it); ``not_measured`` maps the id of each required reading not taken -> why (kept on it, never a made-up
+    value): every required reading has one or the other, not both; ``parts_used`` maps PartUse id -> quantity used,
+    one for every part the order plans (0 for a part not used: never the plan by default). A part used beyond what the
+    parts register holds is recorded as used all the same (the work was done): the register is brought to zero, never
+    below, and the difference kept on the order's part line (``PartUse.quantity_short``) for the site engineer to
+    count the stock (``part_count_record``).
     ``parts_added``: parts of the site's register used though the order did not plan them, with how many; each
     gets a line of its own (planned 0) and is taken from the register as the planned ones are.
 
@@ -749,11 +751,18 @@ def work_order_finish(
     if actual_hours is None or actual_hours < 0:
         raise Refused("actual hours must be 0 or more")
     required = list(order.required_readings.select_related("subsystem"))
-    missing = [r for r in required if readings.get(r.pk) is None]
+    why_not = {pk: why.strip()[:200] for pk, why in (not_measured or {}).items() if why and why.strip()}
+    missing = [r for r in required if readings.get(r.pk) is None and r.pk not in why_not]
     if missing:
         names = ", ".join(f"{QUANTITIES[r.quantity][0]} on {r.subsystem.name}" for r in missing)
-        raise Refused(f"record every required reading before finishing (missing: {names})")
+        raise Refused(f"record every required reading, or say why it was not measured, before finishing (missing: "
+                      f"{names})")
+    if both := [r for r in required if readings.get(r.pk) is not None and r.pk in why_not]:
+        names = ", ".join(f"{QUANTITIES[r.quantity][0]} on {r.subsystem.name}" for r in both)
+        raise Refused(f"a reading is either recorded or said not measured, not both ({names})")
     for r in required:
+        if r.pk in why_not:
+            continue
         problem = value_problem(r.quantity, readings[r.pk])
         if problem:
             raise Refused(f"{problem} ({r.subsystem.name})")
@@ -856,6 +865,10 @@ def work_order_finish(
                 work_order=order, created_by=by, limit_passed_on=limit_passed_before(item.plan, day),
             )
         for r in required:
+            if r.pk in why_not:
+                r.not_measured = why_not[r.pk]
+                r.save(update_fields=["not_measured"])
+                continue
             r.reading = Reading.objects.create(
                 subsystem=r.subsystem, quantity=r.quantity, unit=r.unit, value=readings[r.pk], taken_at=taken_at,
                 taken_by=by, note=f"recorded on {order.number}",

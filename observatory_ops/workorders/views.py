@@ -395,6 +395,7 @@ def work_order_finish(request, pk):
                     isolation_answer=isolation_answer,
                     crew=form.cleaned_data["crew"],
                     crew_members=form.cleaned_data["crew_members"],
+                    not_measured=form.not_measured(),
                     parts_added=form.parts_added(),
                 )
             except services.Refused as exc:
