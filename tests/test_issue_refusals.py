@@ -15,6 +15,7 @@ import datetime as dt
 import math
 
 import pytest
+from django.contrib.messages import get_messages
 
 from observatory_ops.registry.services import subsystem_create
 from observatory_ops.workorders import selectors, services
@@ -177,6 +178,12 @@ def test_work_on_energy_with_no_isolation_point_registered_is_neither_issued_nor
     assert f"Not offered: Issue to the technicians. {ISOLATION_POINTS_MISSING_HELD[:1].upper()}" in page
     assert "No electrical isolation point is registered for T1" in page  # the warning it points to
     assert _state(order) == State.DRAFT
+
+    # Drafted from the due list, the engineer is not told to "then issue it" but why it cannot be issued yet.
+    client.post("/workorders/from-due/", {"plans": [p.pk for p in drive.plans.all()]})
+    said = [str(m) for m in get_messages(client.get("/workorders/").wsgi_request)]
+    drafted = " ".join(" ".join(str(m) for m in said).split())
+    assert "then issue it" not in drafted and "It cannot be issued yet: its work calls for isolating energy" in drafted
 
     IsolationPoint.objects.create(telescope=telescope, energy="ac", label="Mount isolator")
     services.work_order_move(WorkOrder.objects.get(pk=order.pk), "issue", users["engineer"])

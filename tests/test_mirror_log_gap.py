@@ -148,14 +148,18 @@ def test_after_the_log_begins_the_slope_is_fitted_from_the_logged_nights_and_the
         "is fitted from the logged nights and does not depend on it; the intercept R0 absorbs it (the fit gives R0 "
         "less b times the missed hours), so R0 is the reflectance at the first logged night, not the fresh value, "
         "and the estimate now, taken along the same line, already allows for them. The recoat line is taken from "
-        "that R0, not from a fresh value.")
+        "the computed fresh value, as the loss it allows is a fall from fresh.")
     assert services.reflectance_now(state).basis.startswith(
         f"estimate from the fit at today's exposure ({state.exposure_now_h:,.1f} dust-weighted open hours since the "
         f"first logged night, 01 Jun 2026: the usage log begins on 01 Jun 2026; the {NIGHTS_BEFORE_LOG} nights from "
         "the coating of 18 May 2024 to then are not logged), against the fitted value at the first logged night")
-    assert state.threshold_basis.startswith(
-        "8% below the fitted value at the first logged night (01 Jun 2026; the nights from the coating to then are "
-        "not logged), R0 = ")
+    # The recoat line is a fall from fresh (Mirror.recoat_loss), so it is taken from the computed fresh value: R0 here
+    # is already about 13 % below fresh, and a line from it would let the mirror fall a further 8 % first.
+    assert state.threshold == pytest.approx(state.fresh_band * 0.92, rel=1e-12)
+    assert state.threshold_basis.startswith("8% below the computed fresh value")
+    assert state.threshold_basis.endswith(
+        "; the fitted R0 is the value at the first logged night (01 Jun 2026; the nights from the coating to then are "
+        "not logged), not the fresh value")
 
 
 def test_the_slope_does_not_depend_on_the_unlogged_hours():

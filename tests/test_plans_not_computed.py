@@ -114,6 +114,15 @@ def test_a_plan_with_no_trigger_is_refused_saying_what_to_add_and_nothing_is_sto
     assert not ServicePlan.objects.filter(subsystem=wheel).exists()
 
 
+def test_an_inactive_plan_is_saved_without_a_trigger(wheel, engineer_in_admin):
+    """Not counted, so never missing from the due list: an old plan without a trigger can be made inactive as it is."""
+    data = _plan_form(wheel, "Old wheel plan", [])
+    del data["active"]
+    response = engineer_in_admin.post("/admin/planning/serviceplan/add/", data)
+    assert response.status_code == 302, _trigger_messages(response)
+    assert ServicePlan.objects.get(subsystem=wheel, name="Old wheel plan").active is False
+
+
 def test_deleting_every_trigger_of_a_stored_plan_is_refused_and_its_triggers_stay(
     site, primary, administrator_in_admin
 ):

@@ -145,9 +145,10 @@ class MirrorForecast:
         )
         if self.recovery_fraction is None:
             return (f"{note}, and the estimate now, taken along the same line, already allows for them. The recoat "
-                    "line is taken from that R0, not from a fresh value.")
+                    "line is taken from the computed fresh value, as the loss it allows is a fall from fresh.")
         return (f"{note}. The recovery per cleaning f is fitted against cleaning exposures that miss the same hours, "
-                "so it is not corrected for them. The recoat line is taken from that R0, not from a fresh value.")
+                "so it is not corrected for them. The recoat line is taken from the computed fresh value, as the loss "
+                "it allows is a fall from fresh.")
 
 
 def _coating_band(mirror: Mirror, metal: str, layers: list[dict]) -> float:
@@ -276,11 +277,19 @@ def mirror_forecast(
         )
     result.latest_note = _latest_against_the_fit(result, [c for c, placed in zip(cleanings_before, known,
                                                                                 strict=True) if placed])
-    result.threshold = fit.r0 * (1 - mirror.recoat_loss)
-    result.threshold_basis = (
-        f"{mirror.recoat_loss:.0%} below the fitted {_r0_is(result)} R0 = {reflectance_text(fit.r0)}"
-        f"{_loss_basis(mirror)}"
-    )
+    if result.log_begins is None:
+        result.threshold = fit.r0 * (1 - mirror.recoat_loss)
+        result.threshold_basis = (
+            f"{mirror.recoat_loss:.0%} below the fitted fresh value R0 = {reflectance_text(fit.r0)}"
+            f"{_loss_basis(mirror)}"
+        )
+    else:  # R0 is the value at the first logged night, already below fresh: the loss is a fall from fresh
+        result.threshold = fresh * (1 - mirror.recoat_loss)
+        result.threshold_basis = (
+            f"{mirror.recoat_loss:.0%} below the computed fresh value{_loss_basis(mirror)}; the fitted R0 is the value "
+            f"at the first logged night ({result.log_begins:%d %b %Y}; the nights from the coating to then are not "
+            "logged), not the fresh value"
+        )
     crossing = reflectance.crossing_exposure(fit, result.threshold)
     result.crossing_exposure_h = crossing.exposure_h
     if model is None or model.first_day > today:

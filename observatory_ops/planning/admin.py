@@ -77,6 +77,14 @@ class TriggerFormSet(BaseInlineFormSet):
 
     default_error_messages = {"too_few_forms": NO_TRIGGER_REFUSAL}
 
+    def full_clean(self):
+        # An inactive plan is not counted, so it is never missing from the due list: an old plan without a trigger
+        # may be made inactive as it is. Decided here, not when the formset is made: the admin makes it before the
+        # plan's own form has read the posted "active".
+        if not getattr(self.instance, "active", True):
+            self.validate_min, self.min_num = False, 0
+        super().full_clean()
+
 
 class TriggerInline(admin.TabularInline):
     model = Trigger

@@ -199,13 +199,6 @@ _EARLIER_BACK_IN_SERVICE = (
 )
 _RESTORE = (RELEASE, _BACK_IN_SERVICE)
 _COVER_CLOSED_IN_SERVICE = "Close the mirror cover and return the telescope to service."
-#: A refractor's objective is at the front of its tube: pointed low, it is within reach from the floor or a step ladder
-#: (common practice, no published source). Both of the objective's plans park so, in these words, so an order over both
-#: parks once.
-_PARK_OBJECTIVE_LOW = (
-    "Park the telescope with its tube level or pointing low, within the mount's limits, so that the objective can be "
-    "reached from the floor or a step ladder."
-)
 #: Work above the primary with its cover open, as the mirror cover's check may need: the glass covered first, and the
 #: cover closed before the telescope goes back in service (common practice, no published source).
 _PRIMARY_COVER = "the primary mirror's protective cover"
@@ -449,7 +442,7 @@ KINDS: dict[str, Kind] = {
                     COMMON_PRACTICE,
                     dust_sensitivity=1.0,
                     hazards=("chemical", "height"),
-                    before_isolation=(_READ_RECORDS, _OUT_OF_SERVICE, _PARK_OBJECTIVE_LOW),
+                    before_isolation=(_READ_RECORDS, _OUT_OF_SERVICE, _PARK),
                     after_isolation=(
                         "Take the cap off the dew shield, if it has one, and inspect the objective's outer surface "
                         "with a flashlight held at a low angle, looking across the glass: note any dust, dew spots or "
@@ -489,7 +482,7 @@ KINDS: dict[str, Kind] = {
                     before_isolation=(
                         _READ_RECORDS,
                         _OUT_OF_SERVICE,
-                        _PARK_OBJECTIVE_LOW,
+                        _PARK,
                         "With the dew heater's controller at full power, measure the voltage at the heater's "
                         "connector and record it on this work order; after a few minutes, feel along the outside of "
                         "the dew shield over the heater band for even warmth all round and note any cold section in "

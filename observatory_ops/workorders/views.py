@@ -80,8 +80,10 @@ def work_order_from_due(request):
         return redirect(back if back and safe else reverse("due-list"))
     items = "1 due item" if len(plans) == 1 else f"{len(plans)} due items"
     # Drafting is a technician's to do, editing and issuing an engineer's: a technician is told who takes it on.
+    held = selectors.moves_held(order).get("issue")
     then = ("Check the steps, change the planned date if the work is for another day (Edit), then issue it."
-            if has_role(request.user, ENGINEER) else
+            if has_role(request.user, ENGINEER) and not held else
+            f"It cannot be issued yet: {held[0]}." if held else
             "An engineer checks its steps and date and issues it; it is listed among the drafts on the work orders "
             "page.")
     messages.success(request, f"{order.number} drafted from {items}, planned for today ({planned:%d %b %Y}). {then}")

@@ -9,5 +9,7 @@ DATE_FORMAT = "d M Y"
 DATETIME_FORMAT = "d M Y H:i"
 SHORT_DATE_FORMAT = "d M Y"
 SHORT_DATETIME_FORMAT = "d M Y H:i"
-DATE_INPUT_FORMATS = ["%Y-%m-%d", "%d %b %Y", "%d %B %Y", "%b %d %Y", "%b %d, %Y", "%B %d %Y", "%B %d, %Y"]
+DATE_INPUT_FORMATS = [
+    "%Y-%m-%d", "%d %b %Y", "%d %b, %Y", "%d %B %Y", "%d %B, %Y", "%b %d %Y", "%b %d, %Y", "%B %d %Y", "%B %d, %Y",
+]
 DATETIME_INPUT_FORMATS = ["%Y-%m-%d %H:%M:%S", "%Y-%m-%d %H:%M:%S.%f", "%Y-%m-%d %H:%M", "%d %b %Y %H:%M"]
