@@ -304,7 +304,7 @@ class FinishForm(forms.Form):
             )
             # A reading that could not be taken is said so, never made up: the record keeps why (``not_measured``).
             self.fields[f"why_{r.pk}"] = forms.CharField(
-                label=f"Not measured ({r.quantity_label} on {r.subsystem.name}): why", required=False, max_length=200,
+                label=f"Why not measured ({r.quantity_label} on {r.subsystem.name})", required=False, max_length=200,
                 help_text="Only when it could not be measured (no meter on site, the drive could not be run): "
                           "leave the reading empty and say why. The record keeps it, and the person who countersigns "
                           "sees it.",
