@@ -365,8 +365,8 @@ def test_a_spring_brake_order_carries_the_spring_caution_and_asks_for_an_electri
     assert "pneumatic" not in order.hazards and LOCKOUT_STEP in order.step_list
     # A spring is restrained at the brake, not locked at a supply point: only the electrical supply needs a point.
     assert selectors.isolation_gaps(order) == [
-        f"No electrical isolation point is registered for {telescope.name}: find and lock the supply before work, "
-        "and have an engineer add it to the register."
+        f"No AC mains isolation point is registered for {telescope.name}. Have an engineer add it to the register "
+        "before work; if the work is already underway, find and lock the supply before going on."
     ]
     IsolationPoint.objects.create(telescope=telescope, energy="ac", label="Mount isolator")
     assert selectors.isolation_gaps(order) == []

@@ -105,8 +105,9 @@ def test_a_moving_telescope_with_air_released_brakes_asks_for_the_brake_airs_poi
     gaps = selectors.isolation_gaps(order)
     assert [gap for gap in gaps if "whose brakes are released by air" in gap] == [
         f"The lockout locks no compressed-air point of {telescope.name}, whose brakes are released by air: with its "
-        "drives locked and the air on, the brakes stay off and the tube can swing. Find, close and bleed the brake "
-        "supply before work, and have an engineer register its point for the whole telescope."
+        "drives locked and the air on, the brakes stay off and the tube can swing. Have an engineer add its point, for "
+        "the whole telescope, to the register before work; if the work is already underway, find, close and bleed the "
+        "brake supply before going on."
     ]
     # The warning says to bleed the brake supply: the order brings the air back with everyone clear, once.
     from observatory_ops.registry.catalogue import BRAKE_AIR_BACK

@@ -51,8 +51,9 @@ def test_a_point_registered_for_the_dome_is_named_on_its_orders_and_where_it_can
 def test_a_telescope_without_a_point_for_the_energy_is_warned(telescope, users):
     brake = subsystem_create(telescope, "brake", "Axis 1 brake", counting_from=START)  # compressed air
     gaps = selectors.isolation_gaps(_order(brake, users))
-    assert gaps == [f"No compressed-air isolation point is registered for {telescope.name}: find and lock the supply "
-                    "before work, and have an engineer add it to the register."]
+    assert gaps == [f"No compressed-air isolation point is registered for {telescope.name}. Have an engineer add it "
+                    "to the register before work; if the work is already underway, find and lock the supply before "
+                    "going on."]
 
 
 def test_a_point_for_a_subsystem_of_another_telescope_is_refused(dome, site):
@@ -140,3 +141,24 @@ def test_the_page_and_the_paper_read_the_orders_items_once(site, telescope, user
 
     assert item_reads(order.get_absolute_url()) == 1
     assert item_reads(f"/workorders/{order.pk}/pdf/") == 1
+
+
+def test_a_dc_or_servo_breaker_alone_does_not_answer_electrical_work(telescope, users):
+    """A 24 V supply's or the servo amplifiers' breaker leaves the mains side live (the drives' power stage, the
+    supplies feeding it): electrical work asks for the telescope's AC mains point, and is held until it is registered.
+    Locking the mains for electrical work is OSHA 29 CFR 1910.147 (d)(3), every energy source isolated."""
+    IsolationPoint.objects.create(telescope=telescope, energy="dc", label="24 V instrument supply breaker")
+    IsolationPoint.objects.create(telescope=telescope, energy="servo", label="Servo amplifier breaker")
+    drive = subsystem_create(telescope, "axis1_drive", "Axis 1 drive", counting_from=START)
+    order = _order(drive, users)
+    assert "electrical" in order.hazards
+    assert selectors.isolation_gaps(order) == [
+        f"No AC mains isolation point is registered for {telescope.name}. Have an engineer add it to the register "
+        "before work; if the work is already underway, find and lock the supply before going on."
+    ]
+    assert "issue" in selectors.moves_held(order)
+    IsolationPoint.objects.create(telescope=telescope, energy="ac", label="Mount isolator")
+    assert selectors.isolation_gaps(order) == []
+    # The DC and servo breakers are still locked with it, and still print their cautions.
+    assert {p.label for p in selectors.isolation_points(order)} == {
+        "24 V instrument supply breaker", "Servo amplifier breaker", "Mount isolator"}

@@ -176,7 +176,7 @@ def test_work_on_energy_with_no_isolation_point_registered_is_neither_issued_nor
     page = " ".join(client.get(order.get_absolute_url()).content.decode().split())
     assert "Issue to the technicians</button>" not in page
     assert f"Not offered: Issue to the technicians. {ISOLATION_POINTS_MISSING_HELD[:1].upper()}" in page
-    assert "No electrical isolation point is registered for T1" in page  # the warning it points to
+    assert "No AC mains isolation point is registered for T1" in page  # the warning it points to
     assert _state(order) == State.DRAFT
 
     # Drafted from the due list, the engineer is not told to "then issue it" but why it cannot be issued yet.

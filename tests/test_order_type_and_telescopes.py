@@ -94,8 +94,9 @@ def test_a_telescope_missing_the_point_for_its_own_work_is_still_warned(two_tele
     dome = subsystem_create(telescope, "enclosure", "T1 dome", counting_from=START)  # T1's axis can move
     order = services.work_order_from_due([*brake.plans.all(), *mains.plans.all()], users["engineer"])
     gaps = selectors.isolation_gaps(order)
-    assert gaps[0] == ("No compressed-air isolation point is registered for T1: find and lock the supply before "
-                       "work, and have an engineer add it to the register.")
+    assert gaps[0] == ("No compressed-air isolation point is registered for T1. Have an engineer add it to the "
+                       "register before work; if the work is already underway, find and lock the supply before going "
+                       "on.")
     assert len(gaps) == 2 and f"T1: {dome.name}, which has a supply of its own" in gaps[1]
     assert "R40" not in " ".join(gaps)
 
@@ -109,7 +110,7 @@ def test_a_hazard_given_by_hand_concerns_every_telescope_of_the_order(site, tele
     order = services.work_order_ad_hoc(site, mains, "Fit air-cooled contactors", users["engineer"],
                                        steps="Fit them.", hazards=["pneumatic"])  # no item says whose
     gaps = selectors.isolation_gaps(order)
-    assert [gap.split(":")[0] for gap in gaps] == [
+    assert [gap.split(".")[0] for gap in gaps] == [
         f"No compressed-air isolation point is registered for {name}" for name in ("R40", "T1")
     ]
 

@@ -81,8 +81,9 @@ def test_ac_distribution_work_warns_until_the_boards_own_upstream_supply_is_regi
     order = _made(boards, users=users)
     assert selectors.isolation_gaps(order) == [
         "No isolation point is registered for T1: AC distribution, which is fed from upstream of the telescope's "
-        "isolation points: they leave its incoming side live. Find and lock its supply before work, and have an "
-        "engineer add the point to the register for this subsystem."
+        "isolation points: they leave its incoming side live. Have an engineer add its point, for this "
+        "subsystem, to the register before work; if the work is already underway, find and lock its supply before "
+        "going on."
     ]
     feeder = IsolationPoint.objects.create(telescope=telescope, subsystem=boards, energy="ac",
                                            label="Observatory feeder breaker", location="main switchroom")
@@ -109,8 +110,8 @@ def test_a_dome_still_warns_that_it_has_a_supply_of_its_own(telescope, site, use
     gaps = selectors.isolation_gaps(_made(dome, users=users))
     assert gaps == [
         "No isolation point is registered for T1: Dome, which has a supply of its own: the telescope's points do not "
-        "make its drives safe. Find and lock its supply before work, and have an engineer add the point to the "
-        "register for this subsystem."
+        "make its drives safe. Have an engineer add its point, for this subsystem, to the register before work; if "
+        "the work is already underway, find and lock its supply before going on."
     ]
 
 
@@ -139,8 +140,8 @@ def test_a_hydraulic_lift_is_locked_out_at_its_own_hydraulic_point_and_prints_it
                                        powered="Lower the platform onto its stops.", steps="Change the filter.")
     assert LOCKOUT_STEP in order.step_list
     assert selectors.isolation_gaps(order) == [
-        "No hydraulic isolation point is registered for T1: find and lock the supply before work, and have an "
-        "engineer add it to the register."
+        "No hydraulic isolation point is registered for T1. Have an engineer add it to the register before work; if "
+        "the work is already underway, find and lock the supply before going on."
     ]
     valve = IsolationPoint.objects.create(telescope=telescope, subsystem=lift, energy="hydraulic",
                                           label="Lift pump isolator and lowering valve")

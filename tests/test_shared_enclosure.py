@@ -20,7 +20,7 @@ from observatory_ops.planning.models import ServicePlan, Trigger
 from observatory_ops.registry.models import Subsystem
 from observatory_ops.workorders import services as workorders
 from observatory_ops.workorders.models import IsolationPoint
-from observatory_ops.workorders.selectors import isolation_points
+from observatory_ops.workorders.selectors import isolation_gaps, isolation_points, moves_held
 
 pytestmark = pytest.mark.django_db
 
@@ -86,3 +86,21 @@ def test_ticking_the_shared_enclosure_in_the_admin_recomputes_the_site(roof, use
     assert response.status_code == 302, response.context["adminform"].form.errors
     site.refresh_from_db()
     assert site.shared_enclosure and recomputed == [site.pk]
+
+
+def test_a_shared_roof_without_a_point_of_its_own_is_warned_of_for_moving_work_at_the_other_telescope(roof, users):
+    """Registered under North, unlocked: moving work on South is held as work on North would be (the roof can be
+    driven over it), not only where the roof is registered. A site without the tick keeps it to North."""
+    site, _, south, roof_subsystem, _ = roof
+    IsolationPoint.objects.filter(subsystem=roof_subsystem).delete()
+    order = _order_on_south(south, users)
+    assert not [gap for gap in isolation_gaps(order) if "Roll-off roof" in gap]
+    site.shared_enclosure = True
+    site.save()
+    order.refresh_from_db()
+    assert [gap for gap in isolation_gaps(order) if "Roll-off roof" in gap] == [
+        "No isolation point is registered for North: Roll-off roof, which has a supply of its own: it can move during "
+        "this work, and the telescope's points do not stop it. Have an engineer add its point, for this subsystem, to "
+        "the register before work; if the work is already underway, find and lock its supply before going on."
+    ]
+    assert "issue" in moves_held(order)

@@ -28,14 +28,15 @@ HAZARDS: dict[str, str] = {
 #: Hazards whose energy must be isolated and locked out before work starts. A loaded spring is part of that energy
 #: control (OSHA 29 CFR 1910.147(d)(5): stored energy relieved, disconnected or restrained after isolation), but it is
 #: restrained at the equipment itself, not locked at a supply point, so it asks for no isolation point of its own, as
-#: a moving telescope does not (``ENERGY_HAZARDS`` names the points that answer a hazard). Hydraulic pressure is
-#: stored energy too, locked at its pump and its valve, and a raised load is lowered or blocked before work under it.
+#: a moving telescope does not (``workorders.selectors._ISOLATES`` names the points that answer a hazard). Hydraulic
+#: pressure is stored energy too, locked at its pump and its valve, and a raised load is lowered or blocked before work
+#: under it.
 ISOLATION_HAZARDS = ("electrical", "pneumatic", "stored_mechanical", "hydraulic", "moving_machinery")
 
 #: The hazard of the energy an isolation point locks, by the point's kind (``workorders.models.IsolationPoint.Energy``;
 #: "other" names none). A lockout that locks a point touches that energy, so the order prints its caution
-#: (``workorders.selectors.cautions``), and work with the hazard needs a point of one of these kinds registered
-#: (``workorders.selectors.isolation_gaps``).
+#: (``workorders.selectors.cautions``). Which point a hazard's work needs registered is another table
+#: (``workorders.selectors._ISOLATES``: electrical work asks for the AC mains point, not a DC or servo breaker).
 ENERGY_HAZARDS = {
     "ac": "electrical", "dc": "electrical", "servo": "electrical", "air": "pneumatic", "hydraulic": "hydraulic",
 }

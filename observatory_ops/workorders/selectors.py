@@ -500,13 +500,16 @@ def orders_underway_locking(point: IsolationPoint) -> list[WorkOrder]:
     return [order for order in underway if any(p.pk == point.pk for p in isolation_points(order))]
 
 
-#: Which registered isolation points answer a hazard (``cautions.ENERGY_HAZARDS``, turned round): without one, the
-#: lockout step has nothing to lock.
-_ISOLATES = {
-    hazard: {energy for energy, answered in ENERGY_HAZARDS.items() if answered == hazard}
-    for hazard in dict.fromkeys(ENERGY_HAZARDS.values())
-}
-_SOURCE = {"electrical": "electrical", "pneumatic": "compressed-air", "hydraulic": "hydraulic"}
+#: Which registered isolation point answers a hazard of the work (``IsolationPoint.Energy``): without one, the lockout
+#: step has nothing to lock. Electrical energy asks for the telescope's AC mains point: a DC supply's or the servo
+#: drives' breaker, locked too where registered (their cautions: ``cautions.ENERGY_HAZARDS``), leaves the mains side
+#: live, the drives' power stage and the supplies feeding them among it.
+_ISOLATES = {"electrical": {"ac"}, "pneumatic": {"air"}, "hydraulic": {"hydraulic"}}
+_SOURCE = {"electrical": "AC mains", "pneumatic": "compressed-air", "hydraulic": "hydraulic"}
+#: What a gap's warning asks for: the hold (``moves_held``) keeps a draft or issued order from going on until the
+#: point is registered; work already underway (a point's need that arose after the start) locks the supply by hand.
+_ADD_THE_POINT = ("Have an engineer add {what} to the register before work; if the work is already underway, "
+                  "find and lock {supply} before going on.")
 _ISOLATED_AT_THE_SUBSYSTEM = ("hydraulic",)
 #: Kinds whose work needs an isolation point registered for the subsystem itself (``catalogue.Kind.own_point``), with
 #: why, as the warning says when none is: a dome's own drives, the AC distribution's incoming supply.
@@ -531,14 +534,15 @@ def _hazards_by_telescope(order: WorkOrder, items: list[WorkOrderItem]) -> dict[
 
 def isolation_gaps(order: WorkOrder, points: list[IsolationPoint] | None = None,
                    items: list[WorkOrderItem] | None = None) -> list[str]:
-    """A warning for each telescope of the order with a hazard but no isolation point for its energy (one for the
-    whole telescope; for hydraulic pressure, also one registered for a subsystem the order works on there, a lift's
-    pump and valve), and
+    """A warning for each telescope of the order with a hazard but no isolation point for its energy (``_ISOLATES``:
+    electrical energy asks for an AC mains point; one for the whole telescope; for hydraulic pressure, also one
+    registered for a subsystem the order works on there, a lift's pump and valve), and
     for each subsystem whose work needs a point of its own (``catalogue.Kind.own_point``) with none registered for
     it: a dome fed from a supply of its own, whose drives the telescope's points do not make safe, or the AC
     distribution, whose incoming side they leave live. That is each such subsystem the order works on with
     electrical energy among its telescope's hazards and, when a moving telescope or dome is among them, each one in
-    service on that telescope with a supply of its own (as ``isolation_points`` lists them), and each such telescope
+    service on that telescope with a supply of its own, or on any telescope of a site whose telescopes share one
+    enclosure (as ``isolation_points`` lists them), and each such telescope
     whose brakes are released by air with no air point locked (``_brake_air_gaps``).
 
     Each telescope is judged by the hazards of the work there (``_hazards_by_telescope``): an order over two
@@ -562,15 +566,15 @@ def isolation_gaps(order: WorkOrder, points: list[IsolationPoint] | None = None,
             # hydraulic system is one subsystem's (a lift's pump and valve), locked at a point registered for it.
             energies = whole | own if hazard in _ISOLATED_AT_THE_SUBSYSTEM else whole
             if hazard in hazards[telescope.pk] and not energies & answers:
-                gaps.append(
-                    f"No {_SOURCE[hazard]} isolation point is registered for {telescope.name}: find and lock the "
-                    "supply before work, and have an engineer add it to the register."
-                )
+                gaps.append(f"No {_SOURCE[hazard]} isolation point is registered for {telescope.name}. "
+                            + _ADD_THE_POINT.format(what="it", supply="the supply"))
     worked_on = {i.subsystem_id: i.subsystem for i in items if i.subsystem.kind in _OWN_POINT}
     own_supply = {pk: s for pk, s in worked_on.items() if "electrical" in hazards[s.telescope_id]}
     moving = [pk for pk, found in hazards.items() if "moving_machinery" in found]
     if moving:
-        nearby = Subsystem.objects.in_service().filter(telescope_id__in=moving, kind__in=_SEPARATE_SUPPLY)
+        # As ``isolation_points`` locks them: at a site whose telescopes share one enclosure, registered under any.
+        where = Q(telescope__site=order.site_id) if order.site.shared_enclosure else Q(telescope_id__in=moving)
+        nearby = Subsystem.objects.in_service().filter(where, kind__in=_SEPARATE_SUPPLY)
         own_supply.update({s.pk: s for s in nearby.select_related("telescope")})
         gaps += _brake_air_gaps(brake_air_vented(hazards, [i.subsystem for i in items], points), hazards)
     for subsystem in sorted(own_supply.values(), key=lambda s: (s.telescope.name, s.name)):
@@ -581,10 +585,8 @@ def isolation_gaps(order: WorkOrder, points: list[IsolationPoint] | None = None,
         else:
             why = ("which has a supply of its own: it can move during this work, and the telescope's points do not "
                    "stop it")
-        gaps.append(
-            f"No isolation point is registered for {subsystem.telescope.name}: {subsystem.name}, {why}. Find and lock "
-            "its supply before work, and have an engineer add the point to the register for this subsystem."
-        )
+        gaps.append(f"No isolation point is registered for {subsystem.telescope.name}: {subsystem.name}, {why}. "
+                    + _ADD_THE_POINT.format(what="its point, for this subsystem,", supply="its supply"))
     return gaps
 
 
@@ -650,8 +652,9 @@ def _brake_air_gaps(vented: list[BrakeAir], hazards: dict[int, set[str]]) -> lis
             continue  # warned above when no point answers it
         gaps.append(
             f"The lockout locks no compressed-air point of {found.telescope.name}, whose brakes are released by air: "
-            "with its drives locked and the air on, the brakes stay off and the tube can swing. Find, close and bleed "
-            "the brake supply before work, and have an engineer register its point for the whole telescope."
+            "with its drives locked and the air on, the brakes stay off and the tube can swing. Have an engineer add "
+            "its point, for the whole telescope, to the register before work; if the work is already underway, find, "
+            "close and bleed the brake supply before going on."
         )
     return gaps
 
