@@ -684,7 +684,11 @@ def measure_due_list(net: Network, few: dict[str, int]) -> None:
     many = {label: query_count(lambda url=url: net.client.get(url)) for label, url in net.urls.items()}
     report(f"due list SQL queries, {few['rows']:,} rows stored -> {rows:,}",
            ", ".join(f"{label} {few[label]} -> {many[label]}" for label in net.urls),
-           "no growth with the rows", all(few[label] == many[label] for label in net.urls))
+           "no growth with the rows", all(many[label] <= few[label] for label in net.urls))
+    # With one site's states stored the other 99 sites' plans are not computed yet: the page counts them and reads
+    # their sites by name (planning.selectors.not_computed_counts), one query that 40,000 stored states do not need.
+    print(f"  (with {few['rows']:,} rows stored the page also names the {len(net.sites) - 1} sites whose plans are not "
+          "computed yet: one query more)")
 
 
 def measure_import(net: Network) -> None:

@@ -264,7 +264,7 @@ def test_the_mirror_page_lists_the_dust_weighted_hours_of_each_measurement_its_c
     client.force_login(users["viewer"])
     page = client.get(f"/mirrors/{mirror.pk}/").content.decode()
     table = re.search(r"<h3>Measurements</h3>(.*?)</table>", page, flags=re.S).group(1)
-    assert "<th>Dust-weighted open hours since coating</th>" in table
+    assert "<th>Dust-weighted open hours since the coating</th>" in table
     rows = {re.search(r"<td>(\d\d \w\w\w \d{4})</td>", row).group(1): row for row in table.split("<tr")[2:]}
     assert "<td>126.0</td>" in rows[f"{coated_on + dt.timedelta(days=12):%d %b %Y}"]
     assert "<td>420.0</td>" in rows[f"{coated_on + dt.timedelta(days=40):%d %b %Y}"]

@@ -213,6 +213,25 @@ def test_the_page_says_exposure_counts_from_the_first_logged_night(gap, client):
     assert ("against dust-weighted open hours E since the first logged night, 01 Jun 2026 (the nights from the "
             "coating to then are not logged; measurements on or before it left out)") in text
     assert "Left out of the fit: 2 band measurements" in text
+    # The table's column and the chart's axis say the same, not "since coating".
+    assert "Dust-weighted open hours since the first logged night" in text
+    assert "dust-weighted open hours since the first logged night" in text
+    assert "since coating" not in text
+
+
+def test_the_recoat_picture_starts_its_fitted_line_at_the_first_logged_night(gap):
+    """E = 0 is the first logged night where the coating predates the log: the line's first knot is dated there,
+    with the fit's intercept R0 (the value there, which absorbed the unlogged exposure), not at the coating."""
+    from observatory_ops.planning.plots import fitted_decline_by_date, recoat_caption
+
+    _measure_after_the_log(gap, 2e-5, scatter=(0.0004, -0.0006, 0.0003))
+    state = services.mirror_forecast(gap["mirror"])
+    first_day, first_value = fitted_decline_by_date(state, gap["today"])[0]
+    assert first_day == LOG_BEGINS and first_value == pytest.approx(state.fit.r0)
+    caption = recoat_caption(state)
+    assert ("E, the dust-weighted open hours since the first logged night, 01 Jun 2026 (the coating of 18 May 2024 "
+            "predates the log)") in caption
+    assert "The line is the fit at the first logged night, at each measurement" in caption
 
 
 def test_a_recoat_order_overdue_by_the_calendar_names_that_trigger_first(gap):

@@ -30,7 +30,7 @@ def decline_svg(state: MirrorForecast, described_by: str = "") -> SafeString | N
     values = [p[2] for p in state.points] + [v for v in lines if v is not None]
     chart = Chart(0.0, x_high, min(values) - 0.01, max(values) + 0.01, f"Reflectance of {state.mirror}",
                   described_by=described_by)
-    chart.axes(x_label="dust-weighted open hours since coating", y_label="band reflectance (fraction)")
+    chart.axes(x_label=f"dust-weighted open hours since {state.exposure_since}", y_label="band reflectance (fraction)")
     if state.fit is not None:
         grid = np.linspace(0, x_high, 200)
         chart.line(list(zip(grid, reflectance.predict(state.fit, grid), strict=True)))

@@ -99,6 +99,12 @@ class MirrorForecast:
         return None if self.fit is None else abs(self.fit.rate_per_hour)
 
     @property
+    def exposure_since(self) -> str:
+        """Where this mirror's dust-weighted exposures count from, as the page's labels say it: "the coating", or "the
+        first logged night" when the coating predates the log (``log_begins``)."""
+        return "the first logged night" if self.log_begins else "the coating"
+
+    @property
     def log_gap_text(self) -> str:
         """Which nights before the log are not logged, in the words of a plan's basis for the same gap
         (``planning.services._before_the_log``); "" when the log covers the coating."""

@@ -178,7 +178,8 @@ def _counted_cleanings(state: MirrorForecast) -> list[tuple[dt.date, float]]:
 def fitted_decline_by_date(state: MirrorForecast, today: dt.date) -> list[tuple[dt.date, float]]:
     """The fitted decline of ``state`` (``mirrors.services.mirror_forecast``: the fit the recompute forecasts from
     and the mirror page draws against exposure) at each date whose dust-weighted exposure the forecast knows,
-    oldest first: the coating (E = 0), every band measurement, each cleaning the fit counts, and today (E now).
+    oldest first: the coating (E = 0; the first logged night where the coating predates the log, ``log_begins``:
+    exposure counts from it), every band measurement, each cleaning the fit counts, and today (E now).
     The values are ``calc.reflectance.predict`` of the fit at those exposures, each date after the cleanings dated
     on or before it, as the fit counts them for its measurements; on a cleaning's date the line rises from the
     fit's value with only the cleanings dated before.
@@ -187,7 +188,7 @@ def fitted_decline_by_date(state: MirrorForecast, today: dt.date) -> list[tuple[
     before a cleaning is before it even at the same exposure (no night logged between the two)."""
     fit = state.fit
     counted = _counted_cleanings(state)
-    dated = [(state.coated_on, 0.0), *((day, hours) for day, hours, _ in state.points), *counted,
+    dated = [(state.log_begins or state.coated_on, 0.0), *((day, hours) for day, hours, _ in state.points), *counted,
              (today, state.exposure_now_h)]
 
     def fitted(day: dt.date, hours: float, with_that_days: bool) -> float:
@@ -241,11 +242,14 @@ def recoat_caption(state: MirrorForecast) -> str:
         figures += (f", f = {fit.recovery_fraction:.2f} (the share of the loss a cleaning recovers; c: E at the last "
                     "cleaning)")
         cleanings = f", on either side of each cleaning ({', '.join(f'{day:%d %b %Y}' for day, _ in counted)})"
+    since = f"the coating of {coated}"
+    if state.log_begins:
+        since = f"the first logged night, {state.log_begins:%d %b %Y} (the coating of {coated} predates the log)"
     words = (
         f"Fitted decline: the least-squares fit of {formula} to the {fit.n_points} band measurements (dots) against "
-        f"E, the dust-weighted open hours since the coating of {coated}: {figures}. The line is the fit at the "
-        f"coating, at each measurement{cleanings} and today (E = {state.exposure_now_h:,.1f} h), straight between "
-        "them; the forecast comes from the same fit, and the mirror's page draws it against E."
+        f"E, the dust-weighted open hours since {since}: {figures}. The line is the fit at {state.exposure_since}, "
+        f"at each measurement{cleanings} and today (E = {state.exposure_now_h:,.1f} h), straight between them; the "
+        "forecast comes from the same fit, and the mirror's page draws it against E."
     )
     if state.crossing and state.current is not None and state.current > state.threshold:
         words += (f" Dashed: from today to the day the dust-weighted hours expected each night bring E to "
