@@ -69,6 +69,12 @@ class ServicePlan(models.Model):
 
     class Meta:
         ordering = ["subsystem__telescope__name", "subsystem__name", "name"]
+        indexes = [
+            # The active plans' ids and subsystems alone, for the due list's count of plans with no state
+            # (``selectors.not_computed_counts``): read from the index, not from the wide table (about 4 times faster
+            # over 40,000 plans on PostgreSQL, benchmarks/README.md).
+            models.Index(fields=["id", "subsystem"], condition=models.Q(active=True), name="plan_active_ids"),
+        ]
 
     def __str__(self) -> str:
         return self.name
