@@ -48,3 +48,30 @@ def test_a_single_wavelength_value_is_not_compared_with_the_band_mean(mirror, us
     fresh, _ = services.fresh_band_on(mirror, site_today(mirror.subsystem.telescope.site))
     client.force_login(users["technician"])
     assert _post(client, mirror, round(fresh + 0.05, 4), wavelength_nm=550).status_code == 302
+
+
+def test_a_reflectance_reading_of_the_mirror_is_asked_about_too(mirror, users, client):  # noqa: F811
+    """Logged as a reading on the subsystem's page it joins the same decline fit (logbook.services.reading_log ->
+    mirrors.services.measurement_from_reading), so the reading form asks the same question."""
+    from observatory_ops.logbook.models import Reading
+
+    site = mirror.subsystem.telescope.site
+    fresh, coating = services.fresh_band_on(mirror, site_today(site))
+    client.force_login(users["technician"])
+    high = round(fresh + ABOVE_FRESH_MARGIN + 0.01, 4)
+    import datetime as dt
+
+    from django.utils import timezone
+
+    taken = f"{timezone.localtime(timezone.now() - dt.timedelta(hours=1), site.zone):%Y-%m-%dT%H:%M}"  # site's time
+    url = f"/subsystems/{mirror.subsystem.pk}/readings/new/"
+    before = (list(Reading.objects.values_list("pk")), list(ReflectanceMeasurement.objects.values_list("pk")))
+    response = client.post(url, {"quantity": "reflectance", "value": high, "taken_at": taken})
+    text = re.sub(r"\s+", " ", strip_tags(response.content.decode())).replace("&quot;", '"')
+    assert response.status_code == 200
+    assert f"is above the fresh value of the coating of {coating.coated_on:%d %b %Y}" in text
+    assert 'tick "The value is right as typed" and log it again' in text
+    assert (list(Reading.objects.values_list("pk")), list(ReflectanceMeasurement.objects.values_list("pk"))) == before
+    assert client.post(url, {"quantity": "reflectance", "value": high, "taken_at": taken,
+                             "value_confirmed": "on"}).status_code == 302
+    assert ReflectanceMeasurement.objects.filter(value=high, mirror=mirror).exists()

@@ -68,16 +68,19 @@ class ReadingForm(forms.Form):
     note = forms.CharField(max_length=200, required=False)
     value_confirmed = forms.BooleanField(
         required=False, label="The value is right as typed",
-        help_text="Asked only for a value far beyond its plan's limit, which is more often a unit slip.",
+        help_text="Asked only for a value far beyond its plan's limit, which is more often a unit slip, or a mirror's "
+        "reflectance well above its coating's fresh value.",
     )
 
-    def __init__(self, *args, watched=(), kind_label="", limits=None, **kwargs):
+    def __init__(self, *args, watched=(), kind_label="", limits=None, mirror=None, **kwargs):
         """``watched``: the quantities the subsystem's plans watch or ask for and its kind's usual ones, offered
         first (any other can still be chosen, under "Other quantities"). With none, the field says that nothing is
         usually measured on a subsystem of its kind (``kind_label``) above the list of every quantity. ``limits``:
-        the limits its plans' readings rise to, by quantity (``planning.selectors.reading_limits``)."""
+        the limits its plans' readings rise to, by quantity (``planning.selectors.reading_limits``). ``mirror``: the
+        subsystem's mirror record, whose decline fit a reflectance reading joins (asked about above fresh)."""
         super().__init__(*args, **kwargs)
         self.limits = limits or {}
+        self.mirror = mirror
         self.fields["taken_at"].initial = timezone.localtime().strftime("%Y-%m-%dT%H:%M")
         ours = [(code, label) for code, label in QUANTITY_CHOICES if code in watched]
         if ours:
@@ -109,6 +112,13 @@ class ReadingForm(forms.Form):
                     "as typed\" and log it again."
                 ))
                 break
+        taken_at = data.get("taken_at")
+        if quantity == "reflectance" and self.mirror is not None and taken_at is not None:
+            from observatory_ops.mirrors.forms import above_fresh_problem  # the mirrors app builds on the logbook
+
+            day = timezone.localtime(taken_at).date()  # the view reads the form in the site's time zone
+            if problem := above_fresh_problem(self.mirror, day, value, "The value is right as typed", "log it again"):
+                self.add_error("value", problem)
         return data
 
 

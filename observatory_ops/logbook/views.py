@@ -127,7 +127,7 @@ def reading_log(request, pk):
     with timezone.override(site.zone):  # the form's times are the site's local times
         usual = selectors.watched_quantities(subsystem) | usual_for_kind(subsystem.kind)
         form = ReadingForm(request.POST or None, watched=usual, kind_label=subsystem.get_kind_display(),
-                           limits=selectors.reading_limits(subsystem))
+                           limits=selectors.reading_limits(subsystem), mirror=getattr(subsystem, "mirror", None))
         if request.method == "POST" and form.is_valid():
             data = form.cleaned_data
             if reading_already_logged(subsystem, request.user, data["quantity"], data["value"], data["taken_at"],

@@ -23,6 +23,25 @@ MEASURABLE_NM = wavelength_range_nm(MATERIALS)
 ABOVE_FRESH_MARGIN = 0.02
 
 
+def above_fresh_problem(mirror: Mirror, day: dt.date, value: float, confirm: str, again: str) -> str:
+    """What a form asks when a band mean measured on ``day`` is above the fresh value of the coating in force then
+    (``services.fresh_band_on``) by more than ``ABOVE_FRESH_MARGIN``: whether it is right, to be ticked in the box
+    labelled ``confirm`` before the form is sent ``again``; "" when it is not, or before the first coating recorded.
+    The measurement form and the logbook's reading form ask it (a mirror's reflectance reading joins its fit)."""
+    from .services import fresh_band_on  # the services build on these forms' models
+
+    found = fresh_band_on(mirror, day)
+    if not found or value <= found[0] + ABOVE_FRESH_MARGIN:
+        return ""
+    fresh, coating = found
+    return (
+        f"{value:g} is above the fresh value of the coating of {coating.coated_on:%d %b %Y} ({coating.recipe}), "
+        f"{fresh:.4f} as a band mean over {mirror.band_from_nm:g}-{mirror.band_to_nm:g} nm, by more than "
+        f"{ABOVE_FRESH_MARGIN:g}. A coating does not get better with use: was it measured over another band, or read "
+        f"on another scale? If it is right, tick \"{confirm}\" and {again}."
+    )
+
+
 class MeasurementForm(forms.Form):
     measured_on = forms.DateField(widget=forms.DateInput(attrs={"type": "date"}))
     value = forms.FloatField(
@@ -60,24 +79,14 @@ class MeasurementForm(forms.Form):
     def clean(self):
         """A band mean above the fresh value of the coating in force that day by more than ``ABOVE_FRESH_MARGIN`` is
         asked about (``value_confirmed``), not refused: the fresh value is computed, the instrument may know better."""
-        from .services import fresh_band_on  # the services build on these forms' models
-
         data = super().clean()
         confirmed = data.pop("value_confirmed", False)
         value, day = data.get("value"), data.get("measured_on")
         if confirmed or value is None or day is None or data.get("wavelength_nm") is not None:
             return data
-        found = fresh_band_on(self.mirror, day)
-        if found and value > found[0] + ABOVE_FRESH_MARGIN:
-            fresh, coating = found
-            mirror = self.mirror
-            self.add_error("value", (
-                f"{value:g} is above the fresh value of the coating of {coating.coated_on:%d %b %Y} "
-                f"({coating.recipe}), {fresh:.4f} as a band mean over {mirror.band_from_nm:g}-{mirror.band_to_nm:g} "
-                f"nm, by more than {ABOVE_FRESH_MARGIN:g}. A coating does not get better with use: was it measured "
-                "over another band, or read on another scale? If it is right, tick \"The value is right as measured\" "
-                "and save it again."
-            ))
+        if problem := above_fresh_problem(self.mirror, day, value, "The value is right as measured",
+                                          "save it again"):
+            self.add_error("value", problem)
         return data
 
 
