@@ -225,6 +225,32 @@ def test_a_reflectance_typed_as_a_percentage_is_named_with_the_other_problems_on
     _nothing_stored(cleaning_order)
 
 
+def test_a_reflectance_well_above_the_fresh_coating_is_questioned_once_then_recorded(cleaning_order, mirror, users,
+                                                                                     client):
+    """It joins the mirror's decline fit: shown once beside its field with the coating's fresh value, as a reading
+    beyond its limit is (mirrors.forms.above_fresh_problem, margin 0.02, our own), then recorded as entered, not
+    flagged."""
+    from observatory_ops.mirrors.forms import ABOVE_FRESH_MARGIN
+
+    _started(cleaning_order, users)
+    client.force_login(users["technician"])
+    fresh, _ = mirror_services.fresh_band_on(mirror, site_today(mirror.subsystem.telescope.site))
+    reflectance = cleaning_order.required_readings.get(quantity="reflectance")
+    high = f"{fresh + ABOVE_FRESH_MARGIN + 0.01:.4f}"
+    data = _post(cleaning_order, **{f"reading_{reflectance.pk}": high, f"cleaned_{mirror.pk}": "none"})
+    first = client.post(f"/workorders/{cleaning_order.pk}/finish/", data)
+    shown = _text(first)
+    assert first.status_code == 200
+    assert f"{float(high):g} is above the fresh value of the coating" in shown and "Check it" in shown
+    assert "A reading is questioned beside its field" in shown
+    _nothing_stored(cleaning_order)
+    data["flagged"] = re.findall(r'name="flagged" value="([^"]+)"', html.unescape(first.content.decode()))
+    again = client.post(f"/workorders/{cleaning_order.pk}/finish/", data)
+    assert again.status_code == 302, _text(again)[-1500:]
+    assert ReflectanceMeasurement.objects.filter(mirror=mirror, value=float(high)).exists()
+    assert "flagged on the record" not in _message(again)
+
+
 def test_not_cleaned_said_explicitly_finishes_without_a_cleaning(cleaning_order, mirror, users, client):
     _started(cleaning_order, users)
     client.force_login(users["technician"])

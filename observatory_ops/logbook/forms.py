@@ -117,8 +117,9 @@ class ReadingForm(forms.Form):
             from observatory_ops.mirrors.forms import above_fresh_problem  # the mirrors app builds on the logbook
 
             day = timezone.localtime(taken_at).date()  # the view reads the form in the site's time zone
-            if problem := above_fresh_problem(self.mirror, day, value, "The value is right as typed", "log it again"):
-                self.add_error("value", problem)
+            if problem := above_fresh_problem(self.mirror, day, value):
+                self.add_error("value", f"{problem} If it is right, tick \"The value is right as typed\" and log it "
+                                        "again.")
         return data
 
 

@@ -23,11 +23,12 @@ MEASURABLE_NM = wavelength_range_nm(MATERIALS)
 ABOVE_FRESH_MARGIN = 0.02
 
 
-def above_fresh_problem(mirror: Mirror, day: dt.date, value: float, confirm: str, again: str) -> str:
-    """What a form asks when a band mean measured on ``day`` is above the fresh value of the coating in force then
-    (``services.fresh_band_on``) by more than ``ABOVE_FRESH_MARGIN``: whether it is right, to be ticked in the box
-    labelled ``confirm`` before the form is sent ``again``; "" when it is not, or before the first coating recorded.
-    The measurement form and the logbook's reading form ask it (a mirror's reflectance reading joins its fit)."""
+def above_fresh_problem(mirror: Mirror, day: dt.date, value: float) -> str:
+    """The question a band mean measured on ``day`` raises when it is above the fresh value of the coating in force
+    then (``services.fresh_band_on``) by more than ``ABOVE_FRESH_MARGIN``; "" when it is not, or before the first
+    coating recorded. Asked, not refused: the fresh value is computed, the instrument may know better. The
+    measurement form, the logbook's reading form and the work order's finish form ask it (a mirror's reflectance
+    reading joins its decline fit); each says how to keep the value."""
     from .services import fresh_band_on  # the services build on these forms' models
 
     found = fresh_band_on(mirror, day)
@@ -38,7 +39,7 @@ def above_fresh_problem(mirror: Mirror, day: dt.date, value: float, confirm: str
         f"{value:g} is above the fresh value of the coating of {coating.coated_on:%d %b %Y} ({coating.recipe}), "
         f"{fresh:.4f} as a band mean over {mirror.band_from_nm:g}-{mirror.band_to_nm:g} nm, by more than "
         f"{ABOVE_FRESH_MARGIN:g}. A coating does not get better with use: was it measured over another band, or read "
-        f"on another scale? If it is right, tick \"{confirm}\" and {again}."
+        "on another scale?"
     )
 
 
@@ -84,9 +85,9 @@ class MeasurementForm(forms.Form):
         value, day = data.get("value"), data.get("measured_on")
         if confirmed or value is None or day is None or data.get("wavelength_nm") is not None:
             return data
-        if problem := above_fresh_problem(self.mirror, day, value, "The value is right as measured",
-                                          "save it again"):
-            self.add_error("value", problem)
+        if problem := above_fresh_problem(self.mirror, day, value):
+            self.add_error("value", f"{problem} If it is right, tick \"The value is right as measured\" and save it "
+                                    "again.")
         return data
 
 

@@ -470,6 +470,22 @@ class FinishForm(forms.Form):
             if self._required[pk].beyond_limit(value)
         }
 
+    def above_fresh(self) -> dict[str, str]:
+        """Field name -> the question beside it, for each mirror's band reflectance entered well above the fresh value
+        of its coating on the day the work was done (``mirrors.forms.above_fresh_problem``; valid forms only): it
+        joins the mirror's decline fit, so it is shown once, as a reading beyond its limit is, before it is
+        recorded. Not flagged on the record: the question is about the typing, not the mirror."""
+        from observatory_ops.mirrors.forms import above_fresh_problem  # the mirrors app builds on work orders' data
+
+        day, asked = self.cleaned_data["work_done_on"], {}
+        for pk, value in self.readings().items():
+            required = self._required[pk]
+            mirror = getattr(required.subsystem, "mirror", None)
+            if required.quantity == "reflectance" and mirror is not None:
+                if problem := above_fresh_problem(mirror, day, value):
+                    asked[f"reading_{pk}"] = f"{problem} Check it; it is recorded as entered."
+        return asked
+
 
 class PartAddForm(forms.Form):
     """A part of the site's register planned on an order: each refusal names the field and what is wrong with it."""

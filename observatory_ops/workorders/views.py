@@ -362,11 +362,13 @@ def work_order_finish(request, pk):
         request.POST or None, order=order, by=request.user, unticked=others, isolation_unticked=isolation,
         lacking_hazards=lacking,
     )
-    flags: dict[str, str] = {}
+    asked: dict[str, str] = {}  # the readings shown with a question beside them, to be posted again as they are
     flagged: list[str] = []
     if request.method == "POST" and form.is_valid():
         flags = form.beyond_limits()
-        flagged = sorted(f"{name}={form.cleaned_data[name]!r}" for name in flags)
+        # Shown once beside their fields, as the readings beyond their limit are, though not flagged on the record.
+        asked = {**form.above_fresh(), **flags}
+        flagged = sorted(f"{name}={form.cleaned_data[name]!r}" for name in asked)
         confirmed = form.cleaned_data.get("confirm_unticked", False)
         isolation_answer = form.cleaned_data.get("isolation_answer", "")
         hazards_confirmed = form.cleaned_data.get("confirm_hazards", False)
@@ -380,8 +382,8 @@ def work_order_finish(request, pk):
                 "confirm_hazards", "Confirm that these hazards were controlled or did not arise, and say how in the "
                 "findings; if you cannot, do not finish: ask the site engineer."
             )
-        # Readings beyond their limit are first shown beside their fields; the same values posted again from
-        # that page are recorded as measured.
+        # Readings beyond their limit or above a coating's fresh value are first shown beside their fields; the same
+        # values posted again from that page are recorded as measured.
         elif not flagged or flagged == sorted(request.POST.getlist("flagged")):
             try:
                 services.work_order_finish(
@@ -434,7 +436,7 @@ def work_order_finish(request, pk):
                 messages.success(request, format_html_join(" ", "{}", ((part,) for part in done)))
                 return redirect(order)
     asked_apart = ("confirm_unticked", "confirm_hazards", "isolation_answer")
-    fields = [(form[name], flags.get(name, "")) for name in form.fields if name not in asked_apart]
+    fields = [(form[name], asked.get(name, "")) for name in form.fields if name not in asked_apart]
     return render(
         request, "workorders/finish.html",
         {"form": form, "order": order, "fields": fields, "unticked": unticked, "others": others,
