@@ -219,3 +219,25 @@ def test_readings_all_at_zero_exposure_are_refused_without_a_numpy_warning():
         warnings.simplefilter("error")  # a divide-by-zero RuntimeWarning would fail the test
         with pytest.raises(ValueError, match="two different exposures"):
             fit_decline([0.0, 0.0, 0.0], [0.90, 0.89, 0.91])
+
+
+def test_a_recoat_line_below_the_fitted_r0_widens_the_band_by_r0s_uncertainty():
+    """The line 0.92 R0 moves with the fitted R0, so the band is where R(E) - 0.92 R0 = (0.08 R0 + b E) (b the fitted
+    slope, below 0) is zero within one standard error. Checked against scipy's curve_fit: its parameter covariance
+    of the straight line (an independent fit) and the delta method, the gradient of 0.08 R0 + b E being (0.08, E);
+    the roots found by brentq."""
+    exposure, measured = straight_line_readings()
+    fit = fit_decline(exposure, measured)
+    (intercept, slope), covariance = optimize.curve_fit(lambda x, a, b: a + b * x, exposure, measured)
+    line = 0.92 * intercept
+
+    def band_minus_line(x: float, side: float) -> float:
+        gradient = np.array([0.08, x])
+        return 0.08 * intercept + slope * x + side * np.sqrt(gradient @ covariance @ gradient)
+
+    moving = crossing_exposure(fit, line, follows_r0=True)
+    assert moving.early_h == pytest.approx(optimize.brentq(band_minus_line, 0, 2e4, args=(-1.0,)), rel=1e-6)
+    assert moving.late_h == pytest.approx(optimize.brentq(band_minus_line, 0, 2e4, args=(1.0,)), rel=1e-6)
+    fixed = crossing_exposure(fit, line)
+    assert moving.exposure_h == pytest.approx(fixed.exposure_h)
+    assert moving.early_h < fixed.early_h < fixed.exposure_h < fixed.late_h < moving.late_h

@@ -344,3 +344,32 @@ def test_a_recoat_prices_the_nights_of_the_telescope_it_takes_out(two_telescopes
     january = dt.date(2027, 1, 10)
     assert night_costs(site, january, 1, north)[0].cost == pytest.approx(5 * 0.8)
     assert night_costs(site, january, 1, south)[0].cost == pytest.approx(5 * 0.4)
+
+
+def test_a_counters_rate_per_open_hour_is_the_telescopes_own_once_it_sends_its_own_nights(two_telescopes):
+    """Hand computation (the module's log): North's own nights give 16,500 slews over 1,320 open hours, 12.5 per open
+    hour; over its whole log, the site's rows before them mixed in, 20,500 / 2,120 = 9.67, which made its slew
+    forecasts late for as long as the site's rows outnumber its own. South, the site's rows alone: 20 / 4 = 5."""
+    site, north, south, _ = two_telescopes
+    north_model = services.usage_model(site, services.UsageLog.for_telescope(north), TODAY, 30)
+    south_model = services.usage_model(site, services.UsageLog.for_telescope(south), TODAY, 30)
+    assert north_model.per_open_hour["slews"] == pytest.approx(12.5)
+    assert south_model.per_open_hour["slews"] == pytest.approx(5.0)
+    assert "times 12.5 slews per open hour (this telescope's own 165 nights)" in north_model.usage_basis("slews", 1.0)
+    assert "times 5 slews per open hour (this site's log)" in south_model.usage_basis("slews", 1.0)
+
+
+def test_a_telescope_with_few_nights_of_its_own_keeps_the_rate_of_its_whole_log(db):
+    """Under forecast.MIN_NIGHTS_FOR_HISTORY (20) open nights of its own, a handful of nights would set the rate: the
+    whole log's stays. 10 own nights of 8 h and 100 slews after 30 site nights of 4 h and 20 slews: (600 + 1,000) /
+    (120 + 80) = 8 per open hour."""
+    site, north, _ = _two_telescope_site("Short Own", dt.date(2026, 5, 1), TODAY)
+    first = TODAY - dt.timedelta(days=40)
+    NightUsage.objects.bulk_create(
+        [NightUsage(site=site, night=day, open_hours=4, slews=20)
+         for day in _days(first, first + dt.timedelta(days=29))]
+        + [NightUsage(site=site, telescope=north, night=day, open_hours=8, slews=100)
+           for day in _days(first + dt.timedelta(days=30), TODAY - dt.timedelta(days=1))]
+    )
+    model = services.usage_model(site, services.UsageLog.for_telescope(north), TODAY, 30)
+    assert model.per_open_hour["slews"] == pytest.approx(8.0)

@@ -265,7 +265,7 @@ def predict(fit: DeclineFit, exposure_h: ArrayLike, cleaning_exposure_h: Sequenc
     return fit.r0 - fit.rate_per_hour * (exposure - fit.recovery_fraction * last_cleaning)
 
 
-def crossing_exposure(fit: DeclineFit, threshold: float) -> Crossing:
+def crossing_exposure(fit: DeclineFit, threshold: float, follows_r0: bool = False) -> Crossing:
     """Exposure at which the mirror reaches a reflectance threshold if it is not cleaned again.
 
     The central value solves ``R(E) = threshold`` on the segment after the fit's last cleaning. The band
@@ -275,11 +275,17 @@ def crossing_exposure(fit: DeclineFit, threshold: float) -> Crossing:
     parameters and ``C`` their covariance, reach the threshold. Exposures are never earlier than the
     last cleaning: a mirror already below the threshold then gets that exposure.
 
+    A threshold set as a fraction k of the fitted R0 (``follows_r0``: the recoat line "x % below the fitted fresh
+    value") moves with R0, so the band is that of ``R(E) - k R0``: its gradient is ``g`` less ``k`` in R0's place
+    (the delta method, as for ``g``). Taking such a line as exact narrows the band by R0's share of it.
+
     Parameters
     ----------
     fit : DeclineFit
     threshold : float
         Reflectance (0 to 1) at which the mirror is due for recoating.
+    follows_r0 : bool
+        The threshold is ``threshold / fit.r0`` times the fitted R0, uncertain with it; else a fixed number.
 
     Returns
     -------
@@ -296,6 +302,8 @@ def crossing_exposure(fit: DeclineFit, threshold: float) -> Crossing:
     margin = float(predict(fit, [start])[0]) - threshold + fit.rate_per_hour * start
     g0 = _jacobian(params, np.array([0.0]), last_cleaning)[0]
     g1 = _jacobian(params, np.array([1.0]), last_cleaning)[0] - g0
+    if follows_r0:  # the line k R0 has gradient k in R0's place, constant in E
+        g0 = g0 - np.eye(params.size)[0] * (threshold / fit.r0)
     rate = fit.rate_per_hour
     real_roots = _real_roots(
         rate**2 - g1 @ covariance @ g1,

@@ -296,7 +296,9 @@ def mirror_forecast(
             f"at the first logged night ({result.log_begins:%d %b %Y}; the nights from the coating to then are not "
             "logged), not the fresh value"
         )
-    crossing = reflectance.crossing_exposure(fit, result.threshold)
+    # A line below the fitted R0 moves with it (its band counts R0's uncertainty); one below the computed fresh value
+    # is a fixed number.
+    crossing = reflectance.crossing_exposure(fit, result.threshold, follows_r0=result.log_begins is None)
     result.crossing_exposure_h = crossing.exposure_h
     if model is None or model.first_day > today:
         model = forecast_model(mirror.subsystem.telescope.site, log, today)

@@ -182,6 +182,7 @@ class UsageLog:
     pm10: np.ndarray  # NaN where not measured
     telescope_id: int | None = None  # the telescope whose own rows are in it; None: the site's rows alone
     own_nights: int = 0  # of ``nights``, those of the telescope's own rows
+    own: np.ndarray | None = None  # True on the telescope's own rows; None: the site's rows alone
     others_send_own: bool = False  # the site's rows alone, at a site where some telescope sends nights of its own
 
     @property
@@ -262,7 +263,8 @@ class UsageLog:
                    for row in rows if row[0] == owner]
             own_nights = {row[1] for row in own}
             merged = sorted(own + [row for row in site_rows if row[1] not in own_nights], key=lambda row: row[1])
-            logs[owner] = replace(cls._of(merged, fields), telescope_id=owner, own_nights=len(own))
+            logs[owner] = replace(cls._of(merged, fields), telescope_id=owner, own_nights=len(own),
+                                  own=np.array([row[0] == owner for row in merged], dtype=bool))
         return logs
 
     @staticmethod
@@ -311,6 +313,7 @@ class UsageModel:
     unlogged_nights: int = 0  # past nights from ``first_day`` to yesterday, none logged: counted as expected
     whose: str = "this site's"  # the log's owner (``UsageLog.whose``)
     log_note: str = ""  # what the log is made of (``UsageLog.note``)
+    rates_from: str = "this site's log"  # the nights ``per_open_hour`` is taken over, as the basis says them
 
     def expected(self, metric: str, dust_sensitivity: float) -> np.ndarray:
         if metric == metrics.OPEN_HOURS:
@@ -354,7 +357,7 @@ class UsageModel:
             return self.basis
         unit = metrics.METRICS[metric][1]
         rate = self.per_open_hour[metrics.USAGE_FIELDS[metric]]
-        return f"{self.basis}; times {rate:.3g} {unit} per open hour ({self.whose} log)"
+        return f"{self.basis}; times {rate:.3g} {unit} per open hour ({self.rates_from})"
 
     @property
     def dust_basis(self) -> str:
@@ -419,9 +422,16 @@ def usage_model(site: Site, log: UsageLog, first_day: dt.date, days: int) -> Usa
     dark = sky[(first_day - start).days :][:days]
     open_hours = dark * fraction[months - 1]
 
-    total_open = float(open_h.sum())
+    # A counter per open hour (brake cycles, slews) from the telescope's own nights once it has sent
+    # forecast.MIN_NIGHTS_FOR_HISTORY open ones: the site's rows before them count the site's use, not this
+    # telescope's, and would dilute or swell its rate for as long as they outnumber its own.
+    counted = slice(None)
+    rates_from = f"{log.whose} log"
+    if log.own is not None and int((open_h[log.own] > 0).sum()) >= forecast.MIN_NIGHTS_FOR_HISTORY:
+        counted, rates_from = log.own, f"this telescope's own {log.own_nights:,} nights"
+    total_open = float(open_h[counted].sum())
     per_open_hour = {
-        field: (float(log.columns[field].sum()) / total_open if total_open > 0 else 0.0)
+        field: (float(log.columns[field][counted].sum()) / total_open if total_open > 0 else 0.0)
         for field in metrics.USAGE_FIELDS.values()
     }
     per_open_hour["open_hours"] = 1.0
@@ -456,6 +466,7 @@ def usage_model(site: Site, log: UsageLog, first_day: dt.date, days: int) -> Usa
         open_hours=open_hours,
         month_pm10=month_pm10,
         per_open_hour=per_open_hour,
+        rates_from=rates_from,
         open_fraction=fraction,
         from_history=from_history,
         months_from_history=int(from_history.sum()),
