@@ -19,6 +19,7 @@ from observatory_ops.planning.models import ServicePlan, part_lines
 from observatory_ops.planning.services import site_today
 from observatory_ops.registry import catalogue
 from observatory_ops.registry.models import Site, Subsystem
+from observatory_ops.registry.selectors import crew_days_off
 
 from . import sheet as sheet_
 from .cautions import (
@@ -1102,6 +1103,38 @@ def recoat_order_refusal(order: WorkOrder) -> str:
         f"a recoat's phases are done in their order ({', '.join(_PHASE_NAMES.values())}): this {this} starts only "
         f"once {before.number} ({before.title}) is finished, and it is {_NOT_YET_FINISHED[before.state]}"
     )
+
+
+def planned_date_notes(order: WorkOrder) -> list[str]:
+    """What to check about an order's planned date, as its edit says after saving: a date before the site's today
+    (kept: work done from paper is entered afterwards), a day the crew does not work (the site's working weekdays
+    and its listed days off), and, for a recoat's phase order, a phase now planned before the one it follows or after
+    the one that follows it (they are started in their order, ``recoat_order_refusal``). [] when nothing is."""
+    day = order.planned_date
+    if day is None:
+        return []
+    notes, site = [], order.site
+    today = site_today(site)
+    if day < today:
+        notes.append(f"The planned date, {day:%d %b %Y}, is {(today - day).days} days before today at the site: if "
+                     "the work is still to be done, give the day it will be done.")
+    off = crew_days_off(site, day, day)
+    if off:
+        notes.append(f"{day:%a %d %b %Y} is listed as a crew day off ({off[day] or 'no note'}).")
+    elif day.isoweekday() not in site.crew_days:
+        notes.append(f"{day:%a %d %b %Y} is not one of the crew's working days ({site.crew_days_text}).")
+    _, before, after = _recoat_neighbours(order)
+    this = _PHASE_NAMES.get(order.recoat_phase, "")
+    for other, wrong, said in ((before, lambda d: d > day, "before the {other} it follows"),
+                               (after, lambda d: d < day, "after the {other} that follows it")):
+        if other is not None and other.state != State.WITHDRAWN and other.planned_date and wrong(other.planned_date):
+            name = _PHASE_NAMES[other.recoat_phase]
+            notes.append(
+                f"This {this} is now planned {said.format(other=name)} ({other.number}, planned "
+                f"{other.planned_date:%d %b %Y}): the phases are started in their order, and the recoat's window on "
+                "the dashboard and the mirror page keeps its dates. Give the phases dates in their order."
+            )
+    return notes
 
 
 def lift_mirror(order: WorkOrder):

@@ -229,6 +229,9 @@ def work_order_edit(request, pk):
     if request.method == "POST" and form.is_valid():
         form.save()
         messages.success(request, "Saved.")
+        if "planned_date" in form.changed_data:
+            for note in selectors.planned_date_notes(order):
+                messages.warning(request, note)
         return redirect(order)
     return render(
         request, "workorders/edit.html",
