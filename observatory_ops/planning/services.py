@@ -618,8 +618,9 @@ def _site_recompute(site: Site, today: dt.date) -> int:
     unknown = {p.pk for p in plans if not p.counting_from_given and p.pk not in last_service}
     readings = _readings_by_subsystem_quantity(site, plans, triggers_of, baselines)
 
+    downtime = _downtime_by_telescope(site, today)
     states: dict[int, list[TriggerState]] = {p.pk: [] for p in plans}
-    groups: dict[tuple, list[tuple]] = {}  # (log, metric, dust sensitivity) -> [(plan, trigger)]
+    groups: dict[tuple, list[tuple]] = {}  # (log, metric, dust sensitivity, telescope out) -> [(plan, trigger)]
     for plan in plans:
         for trig in triggers_of[plan.pk]:
             if trig.metric == metrics.CALENDAR_DAYS:
@@ -638,12 +639,15 @@ def _site_recompute(site: Site, today: dt.date) -> int:
                     states[plan.pk].append(state)
             else:
                 sens = plan.dust_sensitivity if trig.metric == metrics.DUST_HOURS else 0.0
-                groups.setdefault((usage_of(plan)[0], trig.metric, sens), []).append((plan, trig))
+                # A telescope out of service for a recoat expects no use then; an enclosure all the site's telescopes
+                # share still opens for the others.
+                out = plan.telescope_id if plan.telescope_id in downtime and not plan.whole_site else None
+                groups.setdefault((usage_of(plan)[0], trig.metric, sens, out), []).append((plan, trig))
 
     # A counter's expected use runs from the first unlogged night, or from its plan's baseline (last service or
     # counting date) when that is later: use before the baseline is not the serviced part's (a service logged today
     # after months of unlogged nights starts from nothing, not from those months' assumed use).
-    for (key, metric, sens), members in groups.items():
+    for (key, metric, sens, out), members in groups.items():
         log, model = logs[key], models_[key]
         first_day = model.first_day
         first_counted = np.datetime64(first_day, "D")
@@ -653,11 +657,13 @@ def _site_recompute(site: Site, today: dt.date) -> int:
         values = exposure.accumulated_since(log.nights, per_night, since)
         limits = np.array([t.limit for _, t in members], dtype=float)
         reached = exposure.reached_on(log.nights, per_night, since, limits)  # the night a limit was passed
-        expected = model.expected(metric, sens)
+        expected, down = model.expected(metric, sens), ""
+        if out is not None:
+            expected, down = _without_downtime(expected, first_day, downtime[out])
         start = np.maximum((since - first_counted).astype(np.int64), 0)
         central, early, late = forecast.days_reached(limits - values, expected, model.spread, start)
         rate = float(expected[ahead:][:30].mean()) if len(expected) > ahead else 0.0
-        basis = model.usage_basis(metric, sens)
+        basis = model.usage_basis(metric, sens) + down
         log_begins = _as_date(log.nights[0]) if len(log.nights) else None
         for i, (plan, trig) in enumerate(members):
             if values[i] >= limits[i]:
@@ -840,6 +846,55 @@ def _readings_by_subsystem_quantity(
         if key in wanted and taken_at.astimezone(zone).date() >= wanted[key]:
             out.setdefault(key, []).append((taken_at, value))
     return out
+
+
+@dataclass(frozen=True)
+class Downtime:
+    """A telescope out of service on coming nights, for a recoat in hand (``mirrors.services.recoat_in_hand``: going
+    ahead, some order of it not finished): its counters expect no use on ``first`` to ``last``, both counted."""
+
+    first: dt.date
+    last: dt.date
+    what: str  # "the planned recoat of T70: Primary mirror"
+
+    def basis(self, nights: int) -> str:
+        """What a counter's basis says of it, ``nights`` of it from the forecast's first night on."""
+        return (f"; no use on the {nights} night{'s' if nights != 1 else ''} of {self.what} ({self.first:%d %b %Y} to "
+                f"{self.last:%d %b %Y}): the telescope is out of service")
+
+
+def _downtime_by_telescope(site: Site, today: dt.date) -> dict[int, list[Downtime]]:
+    """The site's telescopes out of service on coming nights for a recoat in hand, each with its downtimes, in one
+    query: the recoat's days from today on, while an order of it is drafted, issued or underway and none is withdrawn
+    (a withdrawn one stops the recoat)."""
+    from observatory_ops.mirrors.models import RecoatPlan  # mirrors builds on planning
+    from observatory_ops.workorders.models import State  # work orders build on planning
+
+    plans = (
+        RecoatPlan.objects.filter(mirror__subsystem__telescope__site=site, ends_on__gte=today,
+                                  work_orders__state__in=(State.DRAFT, State.ISSUED, State.UNDERWAY))
+        .exclude(work_orders__state=State.WITHDRAWN).distinct()
+        .values_list("mirror__subsystem__telescope_id", "mirror__subsystem__telescope__name", "mirror__subsystem__name",
+                     "starts_on", "ends_on")
+    )
+    down: dict[int, list[Downtime]] = {}
+    for telescope_id, telescope, mirror, first, last in plans.order_by("starts_on"):
+        down.setdefault(telescope_id, []).append(
+            Downtime(max(first, today), last, f"the planned recoat of {telescope}: {mirror}"))
+    return down
+
+
+def _without_downtime(expected: np.ndarray, first_day: dt.date, downtimes: list[Downtime]) -> tuple[np.ndarray, str]:
+    """``expected`` (a counter's use per night from ``first_day`` on) with the nights of ``downtimes`` set to 0, and
+    what its basis says of them."""
+    expected, said = expected.copy(), ""
+    for down in downtimes:
+        start = max((down.first - first_day).days, 0)
+        stop = min((down.last - first_day).days + 1, len(expected))
+        if stop > start:
+            expected[start:stop] = 0.0
+            said += down.basis(stop - start)
+    return expected, said
 
 
 def _mirrors_by_subsystem(site: Site) -> dict:

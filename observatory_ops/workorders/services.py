@@ -594,6 +594,10 @@ def work_order_move(order: WorkOrder, action: str, by, reason: str = "") -> Work
         if not claimed:
             raise Refused("someone else changed this work order meanwhile; reload it")
         _record_history(order, by, action)
+        if action == "withdraw" and order.recoat_phase:
+            # A withdrawn phase stops its recoat: the telescope's counters expect use on its nights again
+            # (planning.services._downtime_by_telescope).
+            site_recompute(order.site)
     return order
 
 

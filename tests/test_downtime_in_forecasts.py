@@ -1,0 +1,78 @@
+"""A telescope out of service for a planned recoat expects no use on the recoat's nights: its counters' forecasts
+step over them (planning.services._downtime_by_telescope). A reviewer planning a 16-night recoat found its
+telescope's forecasts still counting those nights as used, a secondary mirror's about 83 h early.
+
+Hand computation: every night has 10 dark hours (tests/conftest.py constant_sky) and the log 8 open hours on each of
+its 400 nights, so every month's open fraction is 0.8 and 8 h a night are expected. The fans' plan counts 10 logged
+nights since its start (80 h) against a limit of 180 h: 100 h remain, reached on the 13th night from today (8 x 13 =
+104 >= 100), today + 12. With the recoat from today + 3, the nights of its window add nothing; the test adds them up
+night by night."""
+from __future__ import annotations
+
+import datetime as dt
+
+import pytest
+
+from observatory_ops.calc.windows import RECOAT_PHASES
+from observatory_ops.logbook.models import NightUsage
+from observatory_ops.mirrors import services as mirror_services
+from observatory_ops.mirrors.models import CoatingEvent, Mirror
+from observatory_ops.planning import services
+from observatory_ops.planning.models import PlanStatus, ServicePlan, Trigger
+from observatory_ops.registry.models import Site, Subsystem, Telescope
+from observatory_ops.workorders import services as workorders
+
+pytestmark = pytest.mark.django_db
+PER_NIGHT, COUNTED, LIMIT = 8.0, 80.0, 180.0
+
+
+@pytest.fixture
+def scene(users):
+    from conftest import constant_sky
+
+    site = Site.objects.create(name="Low Fell", slug="low-fell", latitude_deg=0, longitude_deg=0, time_zone="UTC")
+    telescope = Telescope.objects.create(site=site, name="F50", aperture_m=0.5, mount="fork")
+    today = services.site_today(site)
+    constant_sky(site, today - dt.timedelta(days=400), today + dt.timedelta(days=services.HORIZON_DAYS + 5))
+    NightUsage.objects.bulk_create(NightUsage(site=site, night=today - dt.timedelta(days=i), open_hours=PER_NIGHT)
+                                   for i in range(1, 401))
+    fans = Subsystem.objects.create(telescope=telescope, kind="cooling_fans", name="Fans")
+    plan = ServicePlan.objects.create(subsystem=fans, name="Fan bearings", counting_from=today - dt.timedelta(days=10),
+                                      counting_from_given=True)
+    Trigger.objects.create(plan=plan, metric="open_hours", limit=LIMIT)
+    primary = Subsystem.objects.create(telescope=telescope, kind="primary_mirror", name="Primary mirror")
+    mirror = Mirror.objects.create(subsystem=primary, diameter_mm=500, thickness_mm=50, hole_mm=120,
+                                   material="borosilicate", cell_mass_kg=30)
+    CoatingEvent.objects.create(mirror=mirror, coated_on=today - dt.timedelta(days=300), metal="al")
+    services.site_recompute(site)
+    return site, today, plan, mirror
+
+
+def _reached(today: dt.date, down: tuple[dt.date, dt.date] | None) -> dt.date:
+    """The night the remaining hours are used, adding 8 h a night from today, none on the recoat's nights."""
+    used, day = 0.0, today
+    while True:
+        used += 0.0 if down and down[0] <= day <= down[1] else PER_NIGHT
+        if used >= LIMIT - COUNTED:
+            return day
+        day += dt.timedelta(days=1)
+
+
+def test_a_planned_recoat_moves_the_telescopes_counters_past_its_nights_and_a_withdrawal_moves_them_back(scene, users):
+    site, today, plan, mirror = scene
+    status = PlanStatus.objects.get(plan=plan)
+    assert status.value == pytest.approx(COUNTED) and status.forecast_date == today + dt.timedelta(days=12)
+    assert status.forecast_date == _reached(today, None)
+
+    recoat = mirror_services.recoat_plan_create(mirror, today + dt.timedelta(days=3), list(RECOAT_PHASES), 10.0,
+                                                users["engineer"])
+    status = PlanStatus.objects.get(plan=plan)
+    assert status.forecast_date == _reached(today, (recoat.starts_on, recoat.ends_on)) > today + dt.timedelta(days=12)
+    nights = (recoat.ends_on - recoat.starts_on).days + 1
+    assert (f"no use on the {nights} nights of the planned recoat of F50: Primary mirror ({recoat.starts_on:%d %b %Y} "
+            f"to {recoat.ends_on:%d %b %Y}): the telescope is out of service") in status.basis
+
+    removal = recoat.work_orders.get(recoat_phase="removal")
+    workorders.work_order_move(removal, "withdraw", users["engineer"], reason="postponed to spring")
+    status = PlanStatus.objects.get(plan=plan)
+    assert status.forecast_date == today + dt.timedelta(days=12) and "planned recoat" not in status.basis
