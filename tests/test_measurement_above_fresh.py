@@ -75,3 +75,23 @@ def test_a_reflectance_reading_of_the_mirror_is_asked_about_too(mirror, users, c
     assert client.post(url, {"quantity": "reflectance", "value": high, "taken_at": taken,
                              "value_confirmed": "on"}).status_code == 302
     assert ReflectanceMeasurement.objects.filter(value=high, mirror=mirror).exists()
+
+
+def test_a_reading_dated_in_the_future_is_refused_beside_its_field(mirror, users, client):  # noqa: F811
+    """The service refused it as "a reading cannot be taken in the future" at the top of the form, naming no field."""
+    import datetime as dt
+
+    from django.utils import timezone
+
+    from observatory_ops.logbook.models import Reading
+
+    site = mirror.subsystem.telescope.site
+    client.force_login(users["technician"])
+    later = timezone.localtime(timezone.now() + dt.timedelta(days=1), site.zone)
+    response = client.post(f"/subsystems/{mirror.subsystem.pk}/readings/new/",
+                           {"quantity": "reflectance", "value": 0.8, "taken_at": f"{later:%Y-%m-%dT%H:%M}"})
+    text = re.sub(r"\s+", " ", strip_tags(response.content.decode()))
+    assert response.status_code == 200 and not Reading.objects.exists()
+    assert f"Taken at: {later:%d %b %Y %H:%M} is in the future (it is " in text
+    assert "at the site): enter when the reading was taken." in text
+    assert response.context["form"].errors["taken_at"]

@@ -1,3 +1,5 @@
+import datetime as dt
+
 from django import forms
 from django.conf import settings
 from django.utils import timezone
@@ -91,6 +93,17 @@ class ReadingForm(forms.Form):
                 f"Nothing is usually measured on a subsystem of this kind ({kind_label}) and its plans ask for no "
                 "reading: choose the quantity from the whole list."
             )
+
+    def clean_taken_at(self):
+        """Refused beside its field as ``services.reading_log`` refuses it (a few minutes' grace for clocks)."""
+        taken_at = self.cleaned_data["taken_at"]
+        now = timezone.localtime()  # the site's time: the view reads the form in its zone
+        if taken_at > now + dt.timedelta(minutes=5):
+            raise forms.ValidationError(
+                f"Taken at: {timezone.localtime(taken_at):%d %b %Y %H:%M} is in the future (it is {now:%d %b %Y %H:%M} "
+                "at the site): enter when the reading was taken."
+            )
+        return taken_at
 
     def clean(self):
         data = super().clean()
