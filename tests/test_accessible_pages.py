@@ -273,7 +273,9 @@ def test_the_mirror_page_lists_the_dust_weighted_hours_of_each_measurement_its_c
     assert ids == ["decline-words"] and "Least-squares fit" in _text_of(page, "decline-words")
 
 
-def test_the_recoat_calendar_has_each_nights_figures_in_a_table_as_in_its_tooltip(telescope, users, client):
+def test_the_recoat_calendar_has_each_nights_figures_in_a_table_as_in_its_tooltip(telescope, users, client,
+                                                                                    monkeypatch):
+    monkeypatch.setattr("observatory_ops.mirrors.views.site_today", lambda site, now=None: dt.date(2026, 12, 14))
     mirror = mirror_under_a_flat_sky(telescope, dt.date(2026, 12, 1), 62)
     client.force_login(users["engineer"])
     page = client.get(f"/mirrors/{mirror.pk}/recoat/", {"start": "2026-12-14", "horizon_days": "21"}).content.decode()

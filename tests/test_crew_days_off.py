@@ -186,8 +186,8 @@ def test_days_off_the_crew_has_anyway_change_nothing(cost, phases, crew, weekday
         # on Friday 18 and ends on Friday 32 (15 days); one asked for on Saturday 19 begins on Monday 21 and takes
         # the shortest, 12 days, to Friday 32. No start in a horizon of 20 days ends within it.
         (lambda: cheapest_crew_windows([1.0] * 20, RECOAT_PHASES, 1, MON_FRI, days_off=range(0, 18)),
-         "the phases take at least 12 days on the crew's working days, and every such downtime begun in the "
-         "horizon runs longer than the horizon of 20 days allows"),
+         "the phases take at least 12 days (7 on the crew's working days, 5 calendar days), and every such downtime "
+         "begun in the horizon runs longer than the horizon of 20 days allows"),
     ],
 )
 def test_bad_days_off_and_a_horizon_they_fill_are_refused_saying_why(call, message: str) -> None:
@@ -275,10 +275,13 @@ def test_an_engineer_takes_a_day_off_off_the_list(engineer_in_admin, site) -> No
 
 
 @pytest.fixture
-def mirror(telescope):
+def mirror(telescope, monkeypatch):
     """A 500 mm primary, and a sky of 4 moonless dark hours every night over December and January (every night
-    costs the same), at a site whose crew is off on Christmas Day and New Year's Day."""
+    costs the same), at a site whose crew is off on Christmas Day and New Year's Day. The planner's "today" (its
+    search starts no earlier) is Monday 14 December 2026."""
     from observatory_ops.registry.models import CrewDayOff
+
+    monkeypatch.setattr("observatory_ops.mirrors.views.site_today", lambda site, now=None: dt.date(2026, 12, 14))
 
     made = mirror_under_a_flat_sky(telescope, dt.date(2026, 12, 1), 62)
     for day in (CHRISTMAS, NEW_YEAR):

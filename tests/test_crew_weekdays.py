@@ -215,7 +215,8 @@ def test_good_crew_weekdays_read_in_any_order() -> None:
         (lambda: phase_days(RECOAT_PHASES, 8, MON_FRI), "first weekday must be an ISO weekday"),
         (lambda: phase_days(RECOAT_PHASES, 0, MON_FRI), "first weekday must be at least 1"),
         (lambda: cheapest_crew_windows([1.0] * 11, RECOAT_PHASES, 1, MON_FRI),
-         "the phases take at least 12 days on the crew's working days, longer than the horizon of 11 days"),
+         "the phases take at least 12 days (7 on the crew's working days, 5 calendar days), longer than the horizon of "
+         "11 days"),
         (lambda: cheapest_crew_windows([1.0] * 20, RECOAT_PHASES, 1, MON_FRI, alternatives=-1),
          "number of alternatives must be at least 0"),
         (lambda: cheapest_crew_windows([1.0, INF] * 10, RECOAT_PHASES, 1, MON_FRI), "contains a blocked night"),
@@ -285,8 +286,10 @@ def test_the_admin_refuses_bad_crew_days_and_keeps_the_stored_ones(engineer_in_a
 
 
 @pytest.fixture
-def mirror(telescope):
-    """A 500 mm primary, and a sky of 4 moonless dark hours every night (every night costs the same)."""
+def mirror(telescope, monkeypatch):
+    """A 500 mm primary, and a sky of 4 moonless dark hours every night (every night costs the same). The planner's
+    "today" (its search starts no earlier) is Wednesday 29 July 2026."""
+    monkeypatch.setattr("observatory_ops.mirrors.views.site_today", lambda site, now=None: dt.date(2026, 7, 29))
     return mirror_under_a_flat_sky(telescope, dt.date(2026, 7, 1), 120)
 
 

@@ -96,7 +96,9 @@ SEARCH = {"start": "2026-12-14", "horizon_days": "21"} | {
 
 
 @pytest.fixture
-def mirror(telescope):
+def mirror(telescope, monkeypatch):
+    """Under a flat sky from 1 December 2026; the planner's "today" (its search starts no earlier) is SEARCH's start."""
+    monkeypatch.setattr("observatory_ops.mirrors.views.site_today", lambda site, now=None: dt.date(2026, 12, 14))
     return mirror_under_a_flat_sky(telescope, dt.date(2026, 12, 1), 62)
 
 

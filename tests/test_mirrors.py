@@ -186,7 +186,7 @@ def test_the_same_recoat_window_planned_twice_is_refused_until_the_first_is_with
 
 
 def test_a_second_recoat_of_the_mirror_is_refused_while_the_first_is_in_hand_and_the_planner_says_so(
-    mirror, users, client
+    mirror, users, client, on_today
 ):
     """Two recoats of one mirror in hand, even months apart, make two sets of removal orders for one mirror; the
     planner made the second without a word (one recoat at a time: common practice, no published source)."""
@@ -287,8 +287,10 @@ def test_dust_weighting_used_for_mirrors_matches_the_exposure_module(mirror):
 
 @pytest.fixture
 def on_today(monkeypatch):
-    """The mirror's site reads its "today" as TODAY, the last day of the fixture's log."""
+    """The mirror's site reads its "today" as TODAY, the last day of the fixture's log (the recoat planner too: its
+    search starts no earlier)."""
     monkeypatch.setattr(services, "site_today", lambda site, now=None: TODAY)
+    monkeypatch.setattr("observatory_ops.mirrors.views.site_today", lambda site, now=None: TODAY)
 
 
 def _constant_sky(mirror):

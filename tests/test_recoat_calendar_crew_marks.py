@@ -22,10 +22,13 @@ LEGEND_REST = "◇ after the date = a weekday the crew does not work (Sat, Sun; 
 
 
 @pytest.fixture
-def mirror(telescope):
+def mirror(telescope, monkeypatch):
     """A demo-like site: a Monday-to-Friday crew (the default) off for the end-of-year closure, under a sky of 4
-    moonless dark hours every night over December and January."""
+    moonless dark hours every night over December and January. The planner's "today" (its search starts no
+    earlier) is FIRST."""
     from observatory_ops.registry.models import CrewDayOff
+
+    monkeypatch.setattr("observatory_ops.mirrors.views.site_today", lambda site, now=None: FIRST)
 
     for day, note in CLOSURE.items():
         CrewDayOff.objects.create(site=telescope.site, date=day, note=note)

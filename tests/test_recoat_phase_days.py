@@ -17,7 +17,9 @@ from observatory_ops.mirrors.forms import WindowForm
 from observatory_ops.mirrors.models import RecoatPlan
 from observatory_ops.workorders.models import WorkOrder
 
-DEFAULTS = {"start": "2026-12-14", "horizon_days": "21"} | {
+TODAY = dt.date(2026, 12, 14)  # the site's today on the planner: its search may start no earlier
+MON_FRI = frozenset(range(1, 6))  # a site's crew days unless set otherwise
+DEFAULTS = {"start": TODAY.isoformat(), "horizon_days": "21"} | {
     f"phase_{i}": str(p.days) for i, p in enumerate(RECOAT_PHASES)
 }
 HANDS_ON = [(i, p.name) for i, p in enumerate(RECOAT_PHASES) if p.work]
@@ -31,7 +33,7 @@ def test_the_phases_with_hands_on_work_are_the_four_at_the_telescope_and_the_pla
 
 @pytest.mark.parametrize(("i", "name"), HANDS_ON)
 def test_a_hands_on_phase_of_0_days_is_refused_beside_its_field(i: int, name: str):
-    form = WindowForm({**DEFAULTS, f"phase_{i}": "0"})
+    form = WindowForm({**DEFAULTS, f"phase_{i}": "0"}, today=TODAY, crew_days=MON_FRI)
     assert not form.is_valid()
     assert form.errors == {f"phase_{i}": [f"{name.capitalize()} is hands-on work and takes at least 1 day (only "
                                           "transport and return may take 0 days)."]}
@@ -39,19 +41,20 @@ def test_a_hands_on_phase_of_0_days_is_refused_beside_its_field(i: int, name: st
 
 @pytest.mark.parametrize(("i", "name"), HANDS_ON)
 def test_a_hands_on_phase_of_1_day_is_accepted(i: int, name: str):
-    form = WindowForm({**DEFAULTS, f"phase_{i}": "1"})
+    form = WindowForm({**DEFAULTS, f"phase_{i}": "1"}, today=TODAY, crew_days=MON_FRI)
     assert form.is_valid(), form.errors
     assert form.phases()[i].days == 1
 
 
 def test_transport_and_return_may_take_0_days():
-    form = WindowForm({**DEFAULTS} | {f"phase_{i}": "0" for i, _ in CARRYING})
+    form = WindowForm({**DEFAULTS} | {f"phase_{i}": "0" for i, _ in CARRYING}, today=TODAY, crew_days=MON_FRI)
     assert form.is_valid(), form.errors
     assert [p.days for p in form.phases()] == [2, 0, 3, 0, 2, 3]
 
 
 @pytest.fixture
-def mirror(telescope):
+def mirror(telescope, monkeypatch):
+    monkeypatch.setattr("observatory_ops.mirrors.views.site_today", lambda site, now=None: TODAY)
     return mirror_under_a_flat_sky(telescope, dt.date(2026, 12, 1), 62)
 
 
@@ -70,7 +73,9 @@ def test_a_plan_posted_with_a_0_day_hands_on_phase_makes_nothing(mirror, users, 
     client.force_login(users["engineer"])
     response = client.post(f"/mirrors/{mirror.pk}/recoat/plan/", {**DEFAULTS, "phase_2": "0", "window": "2026-12-14"},
                            follow=True)
-    assert "The window settings changed or are not valid; find the windows again." in response.content.decode()
+    said = html.unescape(response.content.decode())
+    assert ("No plan made: strip and coat (days): Strip and coat is hands-on work and takes at least 1 day (only "
+            "transport and return may take 0 days). Find the windows again.") in said
     assert not RecoatPlan.objects.exists() and not WorkOrder.objects.exists()
 
 

@@ -348,12 +348,12 @@ def cheapest_crew_windows(
             lengths[start] = ends - start
     shortest = min(spans)
     if shortest > per_night.size:
-        raise ValueError(f"the phases take at least {shortest} days on the crew's working days, longer than the "
-                         f"horizon of {per_night.size} days")
+        raise ValueError(f"the phases take at least {downtime_words(listed, shortest)}, longer than the horizon of "
+                         f"{per_night.size} days")
     if not np.any((lengths > 0) & (np.arange(per_night.size) + lengths <= per_night.size)):
-        raise ValueError(f"the phases take at least {shortest} days on the crew's working days, and every such "
-                         f"downtime begun in the horizon runs longer than the horizon of {per_night.size} days "
-                         "allows: lengthen the horizon")
+        raise ValueError(f"the phases take at least {downtime_words(listed, shortest)}, and every such downtime "
+                         f"begun in the horizon runs longer than the horizon of {per_night.size} days allows: "
+                         "lengthen the horizon")
     chosen = _cheapest(per_night, lengths, alternatives)
     if not chosen:
         raise ValueError(
@@ -381,6 +381,32 @@ def _crew_calendar(first_weekday: int, crew_days: Iterable[int], days_off: Itera
         return (first_weekday - 1 + day) % 7 + 1 in working and day not in off
 
     return works
+
+
+def shortest_downtime(phases: Iterable[Phase], crew_days: Iterable[int]) -> int:
+    """The fewest days ``phases`` keep the telescope down with a crew working ``crew_days`` and no listed day off in
+    the way (days off only lengthen it): laid as :func:`phase_days` lays them from each weekday, from the first day
+    of the first phase that takes days to the last day of the last. A horizon shorter than this holds no window
+    (:func:`cheapest_crew_windows` finds the same least over a horizon of a week or more without days off)."""
+    listed = list(phases)
+    spans = []
+    for weekday in EVERY_DAY:
+        laid = [p for p in phase_days(listed, weekday, crew_days) if p.phase.days]
+        spans.append(laid[-1].last + 1 - laid[0].first)
+    return min(spans)
+
+
+def downtime_words(phases: Iterable[Phase], days: int) -> str:
+    """A downtime of ``days`` for ``phases`` in words, saying how its days are made: "12 days (7 on the crew's working
+    days, 5 calendar days)", with the days the work waits over weekdays the crew does not work or its days off."""
+    listed = list(phases)
+    crew = sum(p.days for p in listed if p.needs_crew)
+    calendar = sum(p.days for p in listed if not p.needs_crew)
+    waiting = days - crew - calendar
+    made_of = f"{crew} on the crew's working days, {calendar} calendar day{'s' if calendar != 1 else ''}"
+    if waiting:
+        made_of += f", and {waiting} waiting over days the crew does not work"
+    return f"{days} day{'s' if days != 1 else ''} ({made_of})"
 
 
 def _laid(phases: list[Phase], start: int, works: Callable[[int], bool]) -> list[PhaseDays]:

@@ -4,7 +4,7 @@ import math
 from django import forms
 
 from observatory_ops.calc.coating import MATERIALS, MAX_GRID_SIZE, METALS, grid_size, wavelength_range_nm
-from observatory_ops.calc.windows import RECOAT_PHASES, Phase
+from observatory_ops.calc.windows import RECOAT_PHASES, Phase, downtime_words, shortest_downtime
 from observatory_ops.registry.models import Subsystem
 
 from . import layers_text, response_csv
@@ -97,12 +97,20 @@ class CleaningForm(forms.Form):
     note = forms.CharField(max_length=200, required=False)
 
 
-class WindowForm(forms.Form):
-    start = forms.DateField(widget=forms.DateInput(attrs={"type": "date"}))
-    horizon_days = forms.IntegerField(min_value=7, max_value=3 * 366, initial=365)
+#: The last day the recoat planner may start from.
+LAST_START = dt.date(2100, 1, 1)
 
-    def __init__(self, *args, **kwargs):
+
+class WindowForm(forms.Form):
+    """The recoat planner's search: from ``today`` (the site's) or later, over a horizon that can hold the phases
+    with the site's crew working ``crew_days``."""
+
+    start = forms.DateField(widget=forms.DateInput(attrs={"type": "date"}))
+    horizon_days = forms.IntegerField(label="Horizon (days)", min_value=7, max_value=3 * 366, initial=365)
+
+    def __init__(self, *args, today: dt.date, crew_days: frozenset[int], **kwargs):
         super().__init__(*args, **kwargs)
+        self.today, self.crew_days = today, crew_days
         carried = " and ".join(p.name for p in RECOAT_PHASES if not p.work)
         for i, phase in enumerate(RECOAT_PHASES):
             # A phase of hands-on work cannot be skipped: without a day it gets no work order, so the plan would,
@@ -122,10 +130,30 @@ class WindowForm(forms.Form):
         return [Phase(p.name, days(i, p), p.work) for i, p in enumerate(RECOAT_PHASES)]
 
     def clean_start(self):
+        """A recoat is planned from the site's today on: a window begun in the past would date its work orders
+        before the work could be done (and before the mirror's current coating, from an old start)."""
         start = self.cleaned_data["start"]
-        if start < dt.date(2000, 1, 1) or start > dt.date(2100, 1, 1):
-            raise forms.ValidationError("Choose a start between 2000 and 2100.")
+        if start < self.today:
+            raise forms.ValidationError(f"Start: choose today ({self.today:%d %b %Y}) or later; a recoat is not "
+                                        "planned in the past.")
+        if start > LAST_START:
+            raise forms.ValidationError(f"Start: choose a date up to {LAST_START:%d %b %Y}.")
         return start
+
+    def clean(self):
+        """A horizon shorter than the phases take (``shortest_downtime``) is refused beside its field, saying how the
+        days are made: crew work on the crew's working days, the rest (carrying, coating) on calendar days, and the
+        days the work waits over weekdays the crew does not work."""
+        data = super().clean()
+        horizon = data.get("horizon_days")
+        if horizon is None or any(name.startswith("phase_") for name in self.errors):
+            return data
+        phases = self.phases()
+        shortest = shortest_downtime(phases, self.crew_days)
+        if horizon < shortest:
+            self.add_error("horizon_days", f"Horizon: the phases take at least {downtime_words(phases, shortest)}: "
+                                           f"give at least {shortest} days.")
+        return data
 
 
 class RecipeForm(forms.Form):

@@ -7,6 +7,7 @@ from django.shortcuts import get_object_or_404, redirect, render
 
 from observatory_ops.access.decorators import requires
 from observatory_ops.access.roles import ENGINEER, TECHNICIAN, VIEWER
+from observatory_ops.access.templatetags.form_errors import names_field
 from observatory_ops.archive.history import changes
 from observatory_ops.calc import coating
 from observatory_ops.logbook.forms import ReadingWithdrawForm
@@ -183,9 +184,18 @@ def coating_log(request, pk):
 
 
 def _window_form(request, mirror: Mirror, data) -> WindowForm:
-    today = site_today(mirror.subsystem.telescope.site)
+    site = mirror.subsystem.telescope.site
+    today = site_today(site)
     horizon = services.default_horizon_days(mirror, today) if data is None else 365
-    return WindowForm(data, initial={"start": today, "horizon_days": horizon})
+    return WindowForm(data, today=today, crew_days=site.crew_days, initial={"start": today, "horizon_days": horizon})
+
+
+def _form_problems(form) -> str:
+    """A refused form's problems in one line, each naming its field (``form_errors.names_field``)."""
+    said = [str(e) for e in form.non_field_errors()]
+    for field in form:
+        said += [str(e) if names_field(e, field.label) else f"{field.label}: {e}" for e in field.errors]
+    return " ".join(said)
 
 
 @requires(VIEWER)
@@ -217,8 +227,8 @@ def recoat_plan_create(request, pk):
         return HttpResponseNotAllowed(["POST"])
     mirror = _mirror(pk)
     form = _window_form(request, mirror, request.POST)
-    if not form.is_valid():
-        messages.error(request, "The window settings changed or are not valid; find the windows again.")
+    if not form.is_valid():  # sent from an earlier day's page, or not from the planner: nothing is stored
+        messages.error(request, f"No plan made: {_form_problems(form)} Find the windows again.")
         return redirect("mirror-recoat", pk=mirror.pk)
     phases = form.phases()
     try:

@@ -71,7 +71,7 @@ def test_engineer_chooses_the_second_window_and_gets_a_recoat_plan_of_draft_work
     # The planner: find windows with the default phases, see the calendar of nights and the windows.
     page.get_by_role("link", name="Plan the recoat window").click()
     expect(page.get_by_role("heading", name="Choose the recoat window")).to_be_visible()
-    horizon = page.get_by_label("Horizon days")
+    horizon = page.get_by_label("Horizon (days)")
     if int(horizon.input_value()) < 2 * total_days(RECOAT_PHASES):
         horizon.fill(str(LONG_HORIZON_DAYS))
     page.get_by_role("button", name="Find windows").click()
@@ -79,10 +79,10 @@ def test_engineer_chooses_the_second_window_and_gets_a_recoat_plan_of_draft_work
     if page.locator("input[type=radio][name=window]").count() < 2:
         # Some days of the year the default horizon holds one window only (the demo closes over the year's end and
         # the crew keeps weekends): look further ahead.
-        page.get_by_label("Horizon days").fill(str(LONG_HORIZON_DAYS))
+        page.get_by_label("Horizon (days)").fill(str(LONG_HORIZON_DAYS))
         page.get_by_role("button", name="Find windows").click()
         expect(page.locator(".calendar .night")).to_have_count(LONG_HORIZON_DAYS)
-    expect(page.locator(".calendar .night")).to_have_count(int(page.get_by_label("Horizon days").input_value()))
+    expect(page.locator(".calendar .night")).to_have_count(int(page.get_by_label("Horizon (days)").input_value()))
     # A window loses its days of work and any crew days off inside it (the site's crew weekdays): its nights.
     nights = [int(n) for n in page.locator("table").first.locator("tbody tr td:nth-child(4)").all_inner_texts()]
     expect(page.locator(".calendar .night.chosen")).to_have_count(nights[0])
