@@ -145,7 +145,7 @@ def test_pm10_not_measured_on_a_telescopes_idle_night_shows_as_not_measured(site
             if line.startswith("<tr><td>Mon 05 Jan 2026")}
     # open hours, slews, axis 1 and 2 travel, brake cycles, PM10, humidity: a count left out of an idle night counts
     # 0 (planning.services.UsageLog._filled); its PM10 is NULL in the database and weighs nothing: "–".
-    assert rows["T1"] == ["0.00", "0", "0", "0", "0", "–", "–"]
+    assert rows["T1"] == ["0.00", "0", "0.0", "0.0", "0", "–", "–"]  # travel as stored, to 0.1 at least
     assert rows["whole site"][5] == "–"
     assert NightUsage.objects.get(telescope=telescope).pm10_ugm3 is None
 

@@ -500,7 +500,7 @@ def test_the_log_page_and_the_admin_show_a_telescopes_left_out_figures_as_the_si
     rows = {line.split("</td><td>")[1]: line.split("</td><td>")[2:9] for line in page.splitlines()
             if line.startswith("<tr><td>Fri 05 Jan 2024")}
     assert rows == {  # open hours, slews, axis 1 and 2 travel, brake cycles, PM10, humidity
-        "whole site": ["7.00", "0", "0", "0", "0", "–", "–"],
+        "whole site": ["7.00", "0", "0.0", "0.0", "0", "–", "–"],
         "North": ["5.00", "41", "site&#x27;s", "site&#x27;s", "site&#x27;s", "site&#x27;s", "–"],
     }
     listing = client.get("/admin/logbook/nightusage/").content.decode()

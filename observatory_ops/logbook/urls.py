@@ -10,5 +10,6 @@ urlpatterns = [
     path("sites/<slug:slug>/service-records.csv", views.service_records_csv, name="service-records-csv"),
     path("sites/<slug:slug>/nights/", views.nights_list, name="nights-list"),
     path("sites/<slug:slug>/nights/import/", views.nights_import, name="nights-import"),
+    path("sites/<slug:slug>/nights.csv", views.nights_csv_download, name="nights-csv"),
     path("sites/<slug:slug>/nights/new/", views.night_log, name="night-log"),
 ]

@@ -1,16 +1,19 @@
+import csv
 import datetime as dt
+import itertools
 
 from django.contrib import messages
 from django.core.exceptions import ValidationError
 from django.core.paginator import Paginator
-from django.db.models import F
+from django.db.models import F, Max, Min
+from django.http import StreamingHttpResponse
 from django.shortcuts import get_object_or_404, redirect, render
 from django.urls import reverse
 from django.utils import timezone
 
 from observatory_ops.access.decorators import requires
 from observatory_ops.access.roles import TECHNICIAN, VIEWER
-from observatory_ops.exports import csv_response, download_refused, period
+from observatory_ops.exports import csv_response, download_refused, period, safe_cell
 from observatory_ops.planning import selectors
 from observatory_ops.registry.models import Site, Subsystem
 from observatory_ops.reliability.selectors import HOURS_WINDOW_DAYS
@@ -177,6 +180,28 @@ def reading_withdraw(request, pk):
 #: How many removed nights the log page lists under the log (the admin's history keeps them all).
 REMOVED_SHOWN = 20
 
+#: The decimals the log page writes each figure with at least: those the demo stores them to (open hours to 0.01 h;
+#: travel and PM10 to 0.1; humidity whole). A figure stored with more is written with all of them (``_as_stored``),
+#: so what is added up from the page is what is stored. The counts are whole numbers.
+SHOWN_DECIMALS = {"open_hours": 2, "axis1_travel_deg": 1, "axis2_travel_deg": 1, "pm10_ugm3": 1, "humidity_pct": 0}
+
+
+def _as_stored(value: float | None, decimals: int) -> str | None:
+    """A stored figure with at least ``decimals`` decimals and as many more as it holds, never rounded: 38.2 -> "38.2",
+    38.0 -> "38.0", 38.25 -> "38.25" (for 1 decimal). None stays None: the page says what a figure not given means."""
+    if value is None:
+        return None
+    for places in range(decimals, 25):
+        text = f"{value:.{places}f}"
+        if float(text) == value:
+            return text
+    return nights_csv.cell(value)  # a figure too small for 24 decimals: as the CSV writes it
+
+
+def _figures_shown(night) -> dict[str, str | None]:
+    """The figures of a night (stored, or removed: its history row) as the log page writes them."""
+    return {name: _as_stored(getattr(night, name), decimals) for name, decimals in SHOWN_DECIMALS.items()}
+
 
 @requires(VIEWER)
 def nights_list(request, slug):
@@ -188,13 +213,55 @@ def nights_list(request, slug):
     page = Paginator(nights, 60).get_page(request.GET.get("page"))
     for night in page:
         night.left_out = services.left_out_shown(night)
+        night.shown = _figures_shown(night)
     # Nights removed as stored by mistake (the admin's "remove" action), newest first, from their history.
     removed = NightUsage.history.filter(site=site, history_type="-").select_related("telescope", "history_user")
+    removed_shown = list(removed.order_by("-history_date")[:REMOVED_SHOWN])
+    for night in removed_shown:
+        night.shown = _figures_shown(night)
     return render(request, "logbook/nights_list.html", {
         "site": site, "page": page, "whole_site": services.WHOLE_SITE, "telescope_rule": TELESCOPE_RULE,
-        "from_site": services.FIGURE_FROM_SITE, "removed": removed.order_by("-history_date")[:REMOVED_SHOWN],
-        "removed_count": removed.count(),
+        "from_site": services.FIGURE_FROM_SITE, "removed": removed_shown, "removed_count": removed.count(),
     })
+
+
+class _LineWritten:
+    """Where ``csv.writer`` writes a row to be streamed: the row's line comes back from ``writerow``."""
+
+    def write(self, line: str) -> str:
+        return line
+
+
+#: How many nights the download reads from the database at a time (its memory stays that of one chunk).
+NIGHTS_CSV_CHUNK = 2000
+
+
+@requires(VIEWER)
+def nights_csv_download(request, slug):
+    """A site's whole nightly log as a nights CSV (``nights_csv``, the import's format): every column, the whole site's
+    rows and each telescope's own, each night's site row first, each row the cells that read back as that night
+    (``nights_csv.cells_of``), so the file imports again unchanged. Named by the first and last night logged;
+    streamed, ``NIGHTS_CSV_CHUNK`` nights read at a time."""
+    site = get_object_or_404(Site, slug=slug)
+    nights = NightUsage.objects.filter(site=site)
+    span = nights.aggregate(first=Min("night"), last=Max("night"))
+    if span["first"] is None:
+        messages.info(request, f"No night is logged at {site.name} yet: there is no log to download.")
+        return redirect("nights-list", slug=site.slug)
+    # The nights of the span the file is named by, should one be logged while it streams.
+    rows = nights.filter(night__range=(span["first"], span["last"])).select_related("telescope").order_by(
+        "night", F("telescope__name").asc(nulls_first=True)
+    )
+    writer = csv.writer(_LineWritten())
+    lines = itertools.chain(
+        [writer.writerow(nights_csv.COLUMNS)],
+        # safe_cell: a telescope's name that a spreadsheet would take for a formula is written with an apostrophe.
+        (writer.writerow([safe_cell(cells[name]) for name in nights_csv.COLUMNS])
+         for cells in map(nights_csv.cells_of, rows.iterator(chunk_size=NIGHTS_CSV_CHUNK))),
+    )
+    response = StreamingHttpResponse(lines, content_type="text/csv; charset=utf-8")
+    response["Content-Disposition"] = f'attachment; filename="{site.slug}-nights-{span["first"]}-{span["last"]}.csv"'
+    return response
 
 
 @requires(TECHNICIAN)

@@ -12,7 +12,14 @@ from django.db import models
 from simple_history.models import HistoricalRecords
 
 from observatory_ops.calc.triggers import OVERDUE, STATUSES
-from observatory_ops.logbook.quantities import QUANTITIES, QUANTITY_CHOICES, reflectance_text, unit_of, value_problem
+from observatory_ops.logbook.quantities import (
+    PLAUSIBLE_RANGE,
+    QUANTITIES,
+    QUANTITY_CHOICES,
+    reflectance_text,
+    unit_of,
+    value_problem,
+)
 from observatory_ops.registry.catalogue import KINDS
 from observatory_ops.registry.models import Site, Subsystem, text_newlines_normalised
 
@@ -241,6 +248,38 @@ class Trigger(models.Model):
         if problem:
             raise ValidationError({"limit": problem})
 
+    def _reading_bound_problem(self) -> str | None:
+        """Why a reading's limit inside its quantity's range (``logbook.quantities.PLAUSIBLE_RANGE``) can still never
+        work as one: at the lowest value a reading can take, a rising limit is past at every reading and a falling
+        one only at that value itself, never on the way down; at the highest, the other way round. The state reads
+        a limit as reached at it (``calc.triggers.TriggerState.reached``). A limit of 0 is sound for a quantity that
+        can be negative (a temperature)."""
+        low, high = PLAUSIBLE_RANGE[self.quantity]
+        if self.direction not in self.Direction.values or low < self.limit < high:  # no direction: the field says so
+            return None
+        at_low = self.limit <= low
+        bound = low if at_low else high
+        label, unit = QUANTITIES[self.quantity]
+        unit = "" if self.quantity == "reflectance" else f" {unit}"  # a fraction: "never above 1"
+        first = label.split()[0]
+        acronym = len(first) > 1 and first.isupper()  # "RMS following error", "RCD trip time"
+        named = label if acronym else label[0].lower() + label[1:]
+        article = "an" if named[0] in ("AEFHILMNORSX" if acronym else "aeiou") else "a"
+        beyond = "below" if at_low else "above"
+        aside = "" if bound == 0 else f" (no {'lower' if at_low else 'higher'} reading is taken)"
+        given = f"{self.limit:,g}{unit}"
+        head = f"Limit: {article} {named} is never {beyond} {bound:,g}{unit}{aside}, so "
+        rising = self.direction == self.Direction.ABOVE
+        if rising == at_low:  # rises to the lowest value, or falls to the highest: passed at once
+            return (f"{head}every reading would be past a limit of {given}: the plan would be overdue from its first "
+                    f"reading on. Give the {'highest' if rising else 'lowest'} reading still acceptable, "
+                    f"{'above' if at_low else 'below'} {bound:,g}{unit}.")
+        way = "down" if at_low else "up"
+        return (f"{head}no reading could {'fall' if at_low else 'rise'} past a limit of {given}: the plan would come "
+                f"due only at a reading of {given} itself, never on the way {way}. Give the "
+                f"{'lowest' if at_low else 'highest'} reading still acceptable, {'above' if at_low else 'below'} "
+                f"{bound:,g}{unit}.")
+
     def _recoat_line_problem(self) -> str | None:
         """Why a trigger on the mirror's reflectance can never be computed on its plan's subsystem: one that has no
         mirror record and cannot have one (``takes_no_mirror``). A mirror subsystem whose record is not entered yet
@@ -257,13 +296,16 @@ class Trigger(models.Model):
                 "on the mirror's own subsystem.")
 
     def _limit_problem(self) -> str | None:
-        """Why the limit cannot be: not finite; a reading's outside its quantity's plausible range; any other not
-        above zero, or beyond its metric's bound (``metrics.MAX_LIMIT``)."""
+        """Why the limit cannot be: not finite; a reading's outside its quantity's plausible range, or at an end of
+        it (``_reading_bound_problem``); any other not above zero, or beyond its metric's bound
+        (``metrics.MAX_LIMIT``)."""
         if not math.isfinite(self.limit):
             return f"The limit must be a finite number, not {self.limit}."
         if self.metric == READING:
-            problem = value_problem(self.quantity, self.limit) if self.quantity in QUANTITIES else None
-            return f"{problem[0].upper()}{problem[1:]}." if problem else None
+            if self.quantity not in QUANTITIES:  # none chosen, or unknown: the field says so
+                return None
+            problem = value_problem(self.quantity, self.limit)
+            return f"{problem[0].upper()}{problem[1:]}." if problem else self._reading_bound_problem()
         if self.limit <= 0:
             return "A usage or calendar limit must be more than zero."
         if self.metric not in MAX_LIMIT or self.limit <= MAX_LIMIT[self.metric][0]:  # unknown: the field says so
