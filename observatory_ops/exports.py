@@ -13,14 +13,14 @@ from django.http import HttpResponse
 from django.shortcuts import render
 from django.utils.http import url_has_allowed_host_and_scheme
 
-_FORMULA_START = ("=", "+", "-", "@", "\t", "\r")
+FORMULA_START = ("=", "+", "-", "@", "\t", "\r")
 
 
 def safe_cell(value) -> str:
     text = "" if value is None else str(value)
     if isinstance(value, int | float) and not isinstance(value, bool):
         return text  # a number is data, even when negative
-    return "'" + text if text.startswith(_FORMULA_START) else text
+    return "'" + text if text.startswith(FORMULA_START) else text
 
 
 def csv_response(filename: str, header: Sequence[str], rows: Iterable[Sequence]) -> HttpResponse:

@@ -31,6 +31,8 @@ from dataclasses import dataclass, field
 
 from django.template.defaultfilters import pluralize
 
+from observatory_ops.exports import FORMULA_START
+
 #: How far back a night (or a service date, see ``logbook.services``) may lie, in years. A recompute asks
 #: the nights cache for every night from the earliest one logged to 3 years ahead (planning.services.
 #: HORIZON_DAYS), and the cache fills at most 20 years at once (calc.nights.MAX_NIGHTS): 15 years back
@@ -395,10 +397,13 @@ def _blank(raw: object) -> bool:
 def _telescope(raw: object, telescopes: Sequence[str]) -> str:
     """The name, as registered, of the site's telescope that ``raw`` names: written as registered, or else
     ignoring case, so long as that names one telescope (names differing only in case can each be written
-    exactly). Surrounding spaces never count."""
+    exactly). Surrounding spaces never count, nor the apostrophe our downloads put before a name a spreadsheet would
+    take for a formula ("'=T1": ``exports.safe_cell``), so the log downloaded imports back."""
     if not isinstance(raw, str):
         raise RowError("telescope", f"telescope must be a telescope's name, not {shown(raw)}")
     written = raw.strip()
+    if written.startswith("'") and written[1:].startswith(FORMULA_START):
+        written = written[1:]
     by_name = {name.strip(): name for name in telescopes}
     if written in by_name:
         return by_name[written]
