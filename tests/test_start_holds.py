@@ -351,3 +351,35 @@ def test_stored_orders_still_to_start_lose_the_step_and_the_others_keep_their_st
     assert _fresh(issued).history.filter(history_change_reason=reason).exists()  # on the audit trail
     assert _fresh(started).steps == started.steps
     assert selectors.standing_notes(_fresh(issued)) == (WORK_STOPPED_PART_WAY,)
+
+
+def test_a_mirror_lift_with_no_lifting_figures_is_issued_but_not_started(telescope, users):
+    """A reviewer raised an order by hand to lift the primary out of its cell (a suspended load among its hazards) and
+    was offered Start with no load, tension or working load limit worked out anywhere: the start waits for the figures
+    as it waits for a working load limit (ASME B30.9), and is offered once they are entered."""
+    from conftest import mains_isolator
+
+    from observatory_ops.mirrors.models import Mirror
+    from observatory_ops.registry.models import Subsystem
+    from observatory_ops.workorders.cautions import LIFT_NO_FIGURES_REFUSED
+
+    mains_isolator(telescope)
+    primary = Subsystem.objects.create(telescope=telescope, kind="primary_mirror", name="Primary mirror",
+                                       hazards=["suspended_load", "height", "optical_surface"])
+    Mirror.objects.create(subsystem=primary, diameter_mm=500, thickness_mm=50, hole_mm=120, material="borosilicate",
+                          cell_mass_kg=30)
+    lift_order = services.work_order_ad_hoc(telescope.site, [primary], "Lift the primary out", users["engineer"],
+                                       steps="Lift the mirror out of its cell with the crane.",
+                                       hazards=["suspended_load", "height"],
+                                       planned_date=site_today(telescope.site))
+    assert "suspended_load" in lift_order.hazards and selectors.lift(lift_order) is None
+    held = selectors.moves_held(_fresh(lift_order))
+    assert "issue" not in held
+    assert held["start"] == [LIFT_NO_FIGURES_REFUSED.format(number=lift_order.number, mirror="Primary mirror")]
+    services.work_order_move(_fresh(lift_order), "issue", users["engineer"])
+    with pytest.raises(services.Refused, match="has no lifting figures"):
+        services.work_order_move(_fresh(lift_order), "start", users["technician"])
+    services.lift_set(_fresh(lift_order), {"diameter_mm": 500, "thickness_mm": 50, "hole_mm": 120,
+                                           "material": "borosilicate", "fixture_kg": 30, "legs": 2, "angle_deg": 60,
+                                           "wll_kg": SLING_WLL_KG})
+    assert "start" not in selectors.moves_held(_fresh(lift_order))

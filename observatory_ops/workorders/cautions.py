@@ -315,6 +315,14 @@ LIFT_TOO_FLAT = (
 LIFT_INPUTS_INVALID = "stored lifting inputs that are not valid ({problem})"
 #: A lift with no working load limit entered (LiftFigures.no_limit) is not started: the paper may go out before the
 #: slings are chosen, but the legs' rated capacity is compared with their tension before the lift (ASME B30.9).
+#: An order whose work lifts a registered mirror (a suspended load among its hazards) with no lifting figures at all is
+#: not started: nobody has compared the load with the slings (ASME B30.9), and the caution refers to figures that
+#: are not there.
+LIFT_NO_FIGURES_REFUSED = (
+    "{number} lifts a suspended load on {mirror} but has no lifting figures: an engineer enters them, with the "
+    "working load limit per leg of the slings as rigged, on the lift page ('Lifting figures' on the work order page) "
+    "before the work starts; the order may be issued meanwhile"
+)
 LIFT_NO_LIMIT = "no working load limit entered per leg"
 LIFT_NO_LIMIT_REFUSED = (
     "{number}'s lifting figures have no working load limit entered, so the sling legs' rated capacity is not compared "

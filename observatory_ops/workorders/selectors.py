@@ -49,6 +49,7 @@ from .cautions import (
     LIFT_INPUTS_INVALID,
     LIFT_NO_CELL,
     LIFT_NO_CELL_REFUSED,
+    LIFT_NO_FIGURES_REFUSED,
     LIFT_NO_LIMIT,
     LIFT_NO_LIMIT_REFUSED,
     LIFT_OVER_LIMIT,
@@ -1197,13 +1198,17 @@ def lift_refusal(order: WorkOrder, action: str = "issue") -> str:
     the mirror's defaults, and no cell / fixture mass entered (``LiftFigures.fixture_not_entered``: the figures are the
     mirror alone), each said with where to enter it, as the figures also warn of them; the paper may go out before
     the slings are chosen, but the lift does not begin before their rated capacity is compared with the tension of
-    the whole load (ASME B30.9). An order without lifting figures passes."""
+    the whole load (ASME B30.9). An order without lifting figures passes, unless its work lifts a registered mirror
+    (a suspended load among its hazards, ``lift_mirror``): its start then waits for the figures
+    (``LIFT_NO_FIGURES_REFUSED``)."""
     try:
         figures = lift(order)
     except ValueError as exc:
         problems = [LIFT_INPUTS_INVALID.format(problem=exc)]
     else:
         if figures is None:
+            if action == "start" and "suspended_load" in order.hazards and (mirror := lift_mirror(order)):
+                return LIFT_NO_FIGURES_REFUSED.format(number=order.number, mirror=mirror.subsystem.name)
             return ""
         problems = []
         if figures.over_limit:
