@@ -10,6 +10,7 @@ from django.db.models import Q
 from observatory_ops.access.roles import TECHNICIAN, holders_of
 from observatory_ops.archive.history import person
 from observatory_ops.calc.lifting import DENSITY
+from observatory_ops.logbook.forms import UNIT_SLIP_FACTOR
 from observatory_ops.logbook.quantities import value_problem
 from observatory_ops.planning.services import site_today
 from observatory_ops.registry.forms import HazardsField
@@ -228,6 +229,18 @@ class AdHocForm(forms.Form):
     def clean_planned_date(self):
         planned = self.cleaned_data["planned_date"]
         return planned if planned is None else _planned_date_plausible(planned, self._today)
+
+
+#: What the finish form says beside a questioned reading (``FinishForm.beyond_limits``, ``above_fresh``): nothing is
+#: stored until it is confirmed (``READINGS_CONFIRM``) and Finish is pressed again with the same values.
+NOT_RECORDED_YET = ("Not recorded yet: correct it, or if it is right as measured, tick \"The questioned readings are "
+                    "right as measured\" below and press Finish again.")
+#: The box that keeps the questioned readings as entered, and the note at the top of the form while it is not ticked.
+READINGS_CONFIRM = "The questioned readings are right as measured"
+READINGS_QUESTIONED = (
+    "Not finished yet: {n} questioned beside {its} field{s} (beyond a limit, or a mirror's reflectance above its "
+    "coating's fresh value). Correct {it}, or tick \"" + READINGS_CONFIRM + "\" and press Finish again."
+)
 
 
 class FinishForm(forms.Form):
@@ -461,14 +474,18 @@ class FinishForm(forms.Form):
 
     def beyond_limits(self) -> dict[str, str]:
         """Field name -> what to show beside it, for each reading entered past its limit (valid forms only)."""
-        return {
-            f"reading_{pk}": (
-                f"{value:g} {self._required[pk].unit} is beyond its limit ({self._required[pk].limit_text}). "
-                "Check it; it is recorded as measured and flagged on the record."
-            )
-            for pk, value in self.readings().items()
-            if self._required[pk].beyond_limit(value)
-        }
+        said = {}
+        for pk, value in self.readings().items():
+            required = self._required[pk]
+            if not required.beyond_limit(value):
+                continue
+            text = f"{value:g} {required.unit} is beyond its limit ({required.limit_text})."
+            limit = required.limit_value
+            if limit and abs(value) > UNIT_SLIP_FACTOR * abs(limit):
+                text += (f" It is {abs(value / limit):,.0f} times the limit: was it typed in another unit "
+                         "(milliseconds for seconds, say)?")
+            said[f"reading_{pk}"] = f"{text} {NOT_RECORDED_YET}"
+        return said
 
     def above_fresh(self) -> dict[str, str]:
         """Field name -> the question beside it, for each mirror's band reflectance entered well above the fresh value
@@ -483,7 +500,7 @@ class FinishForm(forms.Form):
             mirror = getattr(required.subsystem, "mirror", None)
             if required.quantity == "reflectance" and mirror is not None:
                 if problem := above_fresh_problem(mirror, day, value):
-                    asked[f"reading_{pk}"] = f"{problem} Check it; it is recorded as entered."
+                    asked[f"reading_{pk}"] = f"{problem} {NOT_RECORDED_YET}"
         return asked
 
 

@@ -329,14 +329,20 @@ class RequiredReading(models.Model):
     def quantity_label(self) -> str:
         return QUANTITIES[self.quantity][0]
 
-    def beyond_limit(self, value: float | None) -> bool:
-        """True when ``value`` is past a limit written "at most L" or "at least L", as a reading trigger's limit
-        is written on the order. A limit in words ("within the maker's range") is not judged here."""
+    @property
+    def limit_value(self) -> float | None:
+        """The number of a limit written "at most L" or "at least L", as a reading trigger's limit is written on the
+        order; None for a limit in words ("within the maker's range") or none."""
         match = _LIMIT.fullmatch(self.limit_text.strip())
-        if match is None or value is None:
+        return None if match is None else float(match["limit"])
+
+    def beyond_limit(self, value: float | None) -> bool:
+        """True when ``value`` is past a limit written "at most L" or "at least L" (``limit_value``). A limit in
+        words is not judged here."""
+        limit = self.limit_value
+        if limit is None or value is None:
             return False
-        limit = float(match["limit"])
-        return value > limit if match["side"] == "most" else value < limit
+        return value > limit if "at most" in self.limit_text else value < limit
 
     @property
     def recorded_beyond_limit(self) -> bool:

@@ -32,7 +32,17 @@ from .cautions import (
     cautions_for,
     needs_isolation,
 )
-from .forms import AdHocForm, FinishForm, LiftForm, PartAddForm, PartCountForm, WithdrawForm, WorkOrderEditForm
+from .forms import (
+    READINGS_CONFIRM,
+    READINGS_QUESTIONED,
+    AdHocForm,
+    FinishForm,
+    LiftForm,
+    PartAddForm,
+    PartCountForm,
+    WithdrawForm,
+    WorkOrderEditForm,
+)
 from .lifecycle import TRANSITIONS, available
 from .models import Part, State, WorkOrder
 from .tables import WorkOrderFilter, WorkOrderTable
@@ -385,9 +395,15 @@ def work_order_finish(request, pk):
                 "confirm_hazards", "Confirm that these hazards were controlled or did not arise, and say how in the "
                 "findings; if you cannot, do not finish: ask the site engineer."
             )
-        # Readings beyond their limit or above a coating's fresh value are first shown beside their fields; the same
-        # values posted again from that page are recorded as measured.
-        elif not flagged or flagged == sorted(request.POST.getlist("flagged")):
+        # Readings beyond their limit or above a coating's fresh value are first shown beside their fields, with a box
+        # to keep them; the same values posted again from that page with the box ticked are recorded as measured.
+        elif flagged and not (flagged == sorted(request.POST.getlist("flagged"))
+                              and request.POST.get("readings_confirmed")):
+            n = len(flagged)
+            form.add_error(None, READINGS_QUESTIONED.format(
+                n=f"{n} reading{'s are' if n != 1 else ' is'}", its="their" if n != 1 else "its",
+                s="s" if n != 1 else "", it="them" if n != 1 else "it"))
+        else:
             try:
                 services.work_order_finish(
                     order, request.user, form.cleaned_data["actual_hours"], form.cleaned_data["findings"],
@@ -444,7 +460,7 @@ def work_order_finish(request, pk):
         request, "workorders/finish.html",
         {"form": form, "order": order, "fields": fields, "unticked": unticked, "others": others,
          "isolation": isolation, "isolation_title": ISOLATION_UNTICKED_TITLE,
-         "isolation_question": ISOLATION_UNTICKED_QUESTION, "flagged": flagged,
+         "isolation_question": ISOLATION_UNTICKED_QUESTION, "flagged": flagged, "readings_confirm": READINGS_CONFIRM,
          "lacking": lacking, "lacking_cautions": cautions_for(lacking), "precedence": PRECEDENCE_STATEMENT},
     )
 
