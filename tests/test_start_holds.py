@@ -353,7 +353,7 @@ def test_stored_orders_still_to_start_lose_the_step_and_the_others_keep_their_st
     assert selectors.standing_notes(_fresh(issued)) == (WORK_STOPPED_PART_WAY,)
 
 
-def test_a_mirror_lift_with_no_lifting_figures_is_issued_but_not_started(telescope, users):
+def test_a_mirror_lift_with_no_lifting_figures_is_issued_but_not_started(telescope, users, client):
     """A reviewer raised an order by hand to lift the primary out of its cell (a suspended load among its hazards) and
     was offered Start with no load, tension or working load limit worked out anywhere: the start waits for the figures
     as it waits for a working load limit (ASME B30.9), and is offered once they are entered."""
@@ -377,9 +377,19 @@ def test_a_mirror_lift_with_no_lifting_figures_is_issued_but_not_started(telesco
     assert "issue" not in held
     assert held["start"] == [LIFT_NO_FIGURES_REFUSED.format(number=lift_order.number, mirror="Primary mirror")]
     services.work_order_move(_fresh(lift_order), "issue", users["engineer"])
+    # The paper says so too: a technician working from it would otherwise begin (a reviewer's finding).
+    import io
+
+    from pypdf import PdfReader
+
+    client.force_login(users["technician"])
+    document = client.get(f"/workorders/{lift_order.pk}/pdf/").content
+    paper = " ".join(" ".join(page.extract_text() for page in PdfReader(io.BytesIO(document)).pages).split())
+    assert "NOT TO BE STARTED YET" in paper and "has no lifting figures" in paper
     with pytest.raises(services.Refused, match="has no lifting figures"):
         services.work_order_move(_fresh(lift_order), "start", users["technician"])
     services.lift_set(_fresh(lift_order), {"diameter_mm": 500, "thickness_mm": 50, "hole_mm": 120,
                                            "material": "borosilicate", "fixture_kg": 30, "legs": 2, "angle_deg": 60,
                                            "wll_kg": SLING_WLL_KG})
     assert "start" not in selectors.moves_held(_fresh(lift_order))
+    assert selectors.start_held_notice(_fresh(lift_order)) == ()

@@ -555,11 +555,11 @@ def _framed(head: Flowable, body: Sequence[Flowable], closing: Flowable, width: 
 
 
 def _notices(sheet: Sheet, width: float) -> list[Flowable]:
-    """What stands in the way of the work (a telescope without its mirror, other work underway on its telescope,
-    hazards the order lacks): each framed
+    """What stands in the way of the work (its start held, a telescope without its mirror, other work underway on its
+    telescope, hazards the order lacks): each framed
     like the cautions, above everything of the work; title, body lines, then what to do."""
     story: list[Flowable] = []
-    for notice in (*sheet.out_of_service, sheet.alongside, sheet.hazards_notice):
+    for notice in (sheet.start_held, *sheet.out_of_service, sheet.alongside, sheet.hazards_notice):
         if not notice:
             continue
         title, *lines = notice

@@ -1333,6 +1333,26 @@ def work_alongside(order: WorkOrder, items: list[WorkOrderItem] | None = None,
     return alongside
 
 
+#: The printed notice of an order whose start is held (``start_held_notice``): title and what to do.
+START_HELD_TITLE = "NOT TO BE STARTED YET"
+START_HELD_TODO = ("Do not begin this work from the paper: the work order page shows when it may start. Ask the site "
+                   "engineer.")
+
+
+def start_held_notice(order: WorkOrder, unrecorded: Sequence[Subsystem] | None = None,
+                      gaps: Sequence[str] | None = None) -> tuple[str, ...]:
+    """The printed order's notice that its start is held (``moves_held``: a lift without its figures or working load
+    limit, an isolation point missing, hazards unrecorded, the recoat phase before it not finished): title, one line
+    a reason, what to do; () when it may start, or has. Paper goes out before the work: a technician working from it
+    would otherwise not know."""
+    if order.state not in (State.DRAFT, State.ISSUED):
+        return ()
+    reasons = moves_held(order, unrecorded, gaps).get("start", [])
+    if not reasons:
+        return ()
+    return (START_HELD_TITLE, *(f"{reason[0].upper()}{reason[1:]}." for reason in reasons), START_HELD_TODO)
+
+
 def alongside_notice(order: WorkOrder, items: list[WorkOrderItem] | None = None) -> tuple[str, ...]:
     """The printed order's notice of other work underway on its telescopes when it was printed (``work_alongside``):
     title, one line an order, what to agree. () when there is none."""
@@ -1462,6 +1482,7 @@ def sheet(order: WorkOrder, url: str) -> sheet_.Sheet:
         ),
         precedence_statement=PRECEDENCE_STATEMENT,
         hazards_notice=hazards_notice(order, missing, paper=True, unrecorded=unrecorded),
+        start_held=start_held_notice(order, unrecorded, gaps),
         out_of_service=tuple(telescope_out_notices(order)),
         alongside=alongside_notice(order, items),
         isolation_needed=needs_isolation(order.hazards),

@@ -83,7 +83,8 @@ class SheetLifting:
 class Sheet:
     """Everything one printed work order shows, top to bottom.
 
-    ``out_of_service`` holds a notice (title, what stands, what not to do) for each telescope of the order whose
+    ``start_held`` (empty when it may start) says why the order is not to be started yet (title, the reasons, what to
+    do), ``out_of_service`` holds a notice (title, what stands, what not to do) for each telescope of the order whose
     mirror a recoat has removed, ``alongside`` (empty when there is none) the other work underway on its telescopes
     when it was printed (title, the orders, what to agree), and ``hazards_notice`` (empty for an order up to date)
     what the order lacks of its subsystems' hazards (title, the hazards, what to do): each is printed in a framed box
@@ -151,6 +152,7 @@ class Sheet:
     confirmations: tuple[str, ...] = ()
     hazards_notice: tuple[str, ...] = ()
     isolation_statement: str = ""
+    start_held: tuple[str, ...] = ()
     out_of_service: tuple[tuple[str, ...], ...] = ()
     alongside: tuple[str, ...] = ()
     steps_warning: str = ""
@@ -168,7 +170,7 @@ class Sheet:
 
     def __post_init__(self) -> None:
         for name in ("subsystems", "why", "isolation_points", "steps", "tools", "confirmations", "hazards_notice",
-                     "alongside", "parts_unregistered", "crew", "cleanings", "standing_notes"):
+                     "alongside", "start_held", "parts_unregistered", "crew", "cleanings", "standing_notes"):
             if isinstance(getattr(self, name), str):
                 raise ValueError(f"{name} must be a sequence of lines, not a single string")
         if not self.number.strip():
