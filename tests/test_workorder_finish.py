@@ -242,7 +242,7 @@ def test_a_reflectance_well_above_the_fresh_coating_is_questioned_once_then_reco
     shown = _text(first)
     assert first.status_code == 200
     assert f"{float(high):g} is above the fresh value of the coating" in shown and "Not recorded yet" in shown
-    assert "A reading is questioned beside its field" in shown
+    assert "A figure is questioned beside its field" in shown
     _nothing_stored(cleaning_order)
     data["flagged"] = re.findall(r'name="flagged" value="([^"]+)"', html.unescape(first.content.decode()))
     data["readings_confirmed"] = "on"

@@ -285,7 +285,8 @@ def test_the_finish_form_asks_for_person_hours_the_crews_included(order, users, 
     shown = _text(client.get(f"/workorders/{order.pk}/finish/"))
     assert "Actual hours (person-hours):" in shown
     assert ("Everyone's hours on this work added up, yours and the crew's: two people working 3 hours is 6 "
-            "person-hours. They are the maintenance hours the reliability page counts.") in shown
+            "person-hours. They are the maintenance hours the reliability page counts, shared equally among the "
+            "service records this order writes.") in shown
 
 
 # --- 6. a planned date more than 5 years ahead ------------------------------------------------------------------

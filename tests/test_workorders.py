@@ -494,7 +494,7 @@ def test_a_reading_beyond_its_limit_is_shown_beside_it_then_recorded_and_flagged
     # said at the top of the form.
     again = client.post(f"/workorders/{order.pk}/finish/", {**data, "flagged": flagged}).content.decode()
     assert _state(order) == State.UNDERWAY and not ServiceRecord.objects.exists()
-    assert "Not finished yet: 1 reading is questioned beside its field" in html.unescape(again)
+    assert "Not finished yet: 1 figure is questioned beside its field" in html.unescape(again)
     response = client.post(f"/workorders/{order.pk}/finish/",
                            {**data, "flagged": flagged, "readings_confirmed": "on"}, follow=True)
     page = response.content.decode()
@@ -638,3 +638,19 @@ def test_a_reading_far_beyond_its_limit_is_asked_whether_it_was_typed_in_another
     assert ("1030 s is beyond its limit (at most 1). It is 1,030 times the limit: was it typed in another unit "
             "(milliseconds for seconds, say)?") in html.unescape(first)
     assert _state(order) == State.UNDERWAY
+
+
+def test_hours_far_above_the_estimate_are_questioned_before_they_are_recorded(order, users, client):
+    """A reviewer's 400 h on an order estimated at 3.5 h went straight onto two service records, 200 h each: over
+    forms.HOURS_QUESTION_FACTOR (10) times the estimate, the hours are asked about, as a questioned reading is."""
+    services.work_order_move(order, "issue", users["engineer"])
+    services.work_order_move(order, "start", users["technician"])
+    client.force_login(users["technician"])
+    data = {**_finish_post(order, 0.5), "actual_hours": str(order.estimated_hours * 11)}
+    first = html.unescape(client.post(f"/workorders/{order.pk}/finish/", data).content.decode())
+    assert (f"{order.estimated_hours * 11:g} h is 11 times the estimate of {order.estimated_hours:g} h: were minutes "
+            "typed for hours? Not recorded yet") in first
+    assert _state(order) == State.UNDERWAY and not ServiceRecord.objects.exists()
+    flagged = re.findall(r'name="flagged" value="([^"]+)"', first)
+    client.post(f"/workorders/{order.pk}/finish/", {**data, "flagged": flagged, "readings_confirmed": "on"})
+    assert _state(order) == State.FINISHED

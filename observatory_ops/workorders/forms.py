@@ -233,14 +233,19 @@ class AdHocForm(forms.Form):
 
 #: What the finish form says beside a questioned reading (``FinishForm.beyond_limits``, ``above_fresh``): nothing is
 #: stored until it is confirmed (``READINGS_CONFIRM``) and Finish is pressed again with the same values.
-NOT_RECORDED_YET = ("Not recorded yet: correct it, or if it is right as measured, tick \"The questioned readings are "
-                    "right as measured\" below and press Finish again.")
-#: The box that keeps the questioned readings as entered, and the note at the top of the form while it is not ticked.
-READINGS_CONFIRM = "The questioned readings are right as measured"
+NOT_RECORDED_YET = ("Not recorded yet: correct it, or if it is right, tick \"The questioned figures are right as "
+                    "entered\" below and press Finish again.")
+#: The box that keeps the questioned figures as entered, and the note at the top of the form while it is not ticked.
+READINGS_CONFIRM = "The questioned figures are right as entered"
 READINGS_QUESTIONED = (
-    "Not finished yet: {n} questioned beside {its} field{s} (beyond a limit, or a mirror's reflectance above its "
-    "coating's fresh value). Correct {it}, or tick \"" + READINGS_CONFIRM + "\" and press Finish again."
+    "Not finished yet: {n} questioned beside {its} field{s} (a reading beyond its limit or above a mirror's fresh "
+    "coating, or hours far above the estimate). Correct {it}, or tick \"" + READINGS_CONFIRM + "\" and press Finish "
+    "again."
 )
+#: Actual hours above this many times the order's estimate are asked about before they are recorded: more often
+#: minutes typed for hours, or a slip of the keys, than work that ran so long (our own factor, as the reading form's
+#: unit slip: common practice, no published source).
+HOURS_QUESTION_FACTOR = 10
 
 
 class FinishForm(forms.Form):
@@ -301,8 +306,8 @@ class FinishForm(forms.Form):
         self._today = site_today(order.site)
         self.fields["actual_hours"].help_text = (
             "Everyone's hours on this work added up, yours and the crew's: two people working 3 hours is 6 "
-            "person-hours. They are the maintenance hours the reliability page counts. "
-            f"The estimate was {order.estimated_hours:g} h."
+            "person-hours. They are the maintenance hours the reliability page counts, shared equally among the "
+            f"service records this order writes. The estimate was {order.estimated_hours:g} h."
         )
         self.fields["work_done_on"].initial = self._today
         self._required = {r.pk: r for r in order.required_readings.select_related("subsystem")}
@@ -486,6 +491,16 @@ class FinishForm(forms.Form):
                          "(milliseconds for seconds, say)?")
             said[f"reading_{pk}"] = f"{text} {NOT_RECORDED_YET}"
         return said
+
+    def hours_questioned(self) -> dict[str, str]:
+        """The actual hours beside their field when above ``HOURS_QUESTION_FACTOR`` times the estimate (valid forms
+        only): shown once, as a questioned reading is, before they are recorded and shared among the service
+        records."""
+        hours, estimate = self.cleaned_data["actual_hours"], self._order.estimated_hours
+        if not estimate or hours <= HOURS_QUESTION_FACTOR * estimate:
+            return {}
+        return {"actual_hours": (f"{hours:g} h is {hours / estimate:,.0f} times the estimate of {estimate:g} h: were "
+                                 f"minutes typed for hours? {NOT_RECORDED_YET}")}
 
     def above_fresh(self) -> dict[str, str]:
         """Field name -> the question beside it, for each mirror's band reflectance entered well above the fresh value

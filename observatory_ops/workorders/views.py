@@ -380,7 +380,7 @@ def work_order_finish(request, pk):
     if request.method == "POST" and form.is_valid():
         flags = form.beyond_limits()
         # Shown once beside their fields, as the readings beyond their limit are, though not flagged on the record.
-        asked = {**form.above_fresh(), **flags}
+        asked = {**form.hours_questioned(), **form.above_fresh(), **flags}
         flagged = sorted(f"{name}={form.cleaned_data[name]!r}" for name in asked)
         confirmed = form.cleaned_data.get("confirm_unticked", False)
         isolation_answer = form.cleaned_data.get("isolation_answer", "")
@@ -401,7 +401,7 @@ def work_order_finish(request, pk):
                               and request.POST.get("readings_confirmed")):
             n = len(flagged)
             form.add_error(None, READINGS_QUESTIONED.format(
-                n=f"{n} reading{'s are' if n != 1 else ' is'}", its="their" if n != 1 else "its",
+                n=f"{n} figure{'s are' if n != 1 else ' is'}", its="their" if n != 1 else "its",
                 s="s" if n != 1 else "", it="them" if n != 1 else "it"))
         else:
             try:
