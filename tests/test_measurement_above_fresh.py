@@ -95,3 +95,17 @@ def test_a_reading_dated_in_the_future_is_refused_beside_its_field(mirror, users
     assert f"Taken at: {later:%d %b %Y %H:%M} is in the future (it is " in text
     assert "at the site): enter when the reading was taken." in text
     assert response.context["form"].errors["taken_at"]
+
+
+def test_a_decimal_comma_is_answered_with_the_point_to_use(mirror, users, client):  # noqa: F811
+    """A reviewer typed 0,87 and read only "Enter a number."."""
+    import datetime as dt
+
+    from django.utils import timezone
+
+    site = mirror.subsystem.telescope.site
+    client.force_login(users["technician"])
+    taken = f"{timezone.localtime(timezone.now() - dt.timedelta(hours=1), site.zone):%Y-%m-%dT%H:%M}"
+    response = client.post(f"/subsystems/{mirror.subsystem.pk}/readings/new/",
+                           {"quantity": "reflectance", "value": "0,87", "taken_at": taken})
+    assert response.context["form"].errors["value"] == ["Enter a number, with a point for decimals (0.87, not 0,87)."]

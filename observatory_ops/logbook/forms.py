@@ -61,7 +61,9 @@ UNIT_SLIP_FACTOR = 10
 
 class ReadingForm(forms.Form):
     quantity = forms.ChoiceField(choices=QUANTITY_CHOICES)
-    value = forms.FloatField()
+    value = forms.FloatField(error_messages={
+        "invalid": "Enter a number, with a point for decimals (0.87, not 0,87).",
+    })
     taken_at = forms.DateTimeField(
         widget=forms.DateTimeInput(attrs={"type": "datetime-local"}, format="%Y-%m-%dT%H:%M"),
         help_text="Site local time. A plan counts readings from its last service (from its start while none is "

@@ -316,7 +316,7 @@ class FinishForm(forms.Form):
             self.fields[f"reading_{r.pk}"] = forms.FloatField(
                 label=label, help_text=f"limit: {r.limit_text}" if r.limit_text else "", required=False,
                 error_messages={"required": f"{label}: enter the reading as measured.",
-                                "invalid": f"{label}: enter a number."},
+                                "invalid": f"{label}: enter a number, with a point for decimals (0.87, not 0,87)."},
                 # Said with the other fields' problems, on the first try (finishing checks it again).
                 validators=[_plausible(r.quantity, label)],
             )
