@@ -49,7 +49,8 @@ def scene(users):
 
 
 def _reached(today: dt.date, down: tuple[dt.date, dt.date] | None) -> dt.date:
-    """The night the remaining hours are used, adding 8 h a night from today, none on the recoat's nights."""
+    """The night the remaining hours are used, adding 8 h a night from ``today`` (the first night not logged), none
+    on the recoat's nights."""
     used, day = 0.0, today
     while True:
         used += 0.0 if down and down[0] <= day <= down[1] else PER_NIGHT
@@ -76,3 +77,19 @@ def test_a_planned_recoat_moves_the_telescopes_counters_past_its_nights_and_a_wi
     workorders.work_order_move(removal, "withdraw", users["engineer"], reason="postponed to spring")
     status = PlanStatus.objects.get(plan=plan)
     assert status.forecast_date == today + dt.timedelta(days=12) and "planned recoat" not in status.basis
+
+
+def test_a_recoat_begun_on_nights_not_yet_logged_counts_those_nights_unused_too(scene, users):
+    """The log ten nights behind, the plan counting from 20 nights ago (10 logged nights, 80 h): the unlogged nights
+    are counted at the expected rate from the first of them (today - 10), except those of a recoat begun five days
+    ago, which took the telescope out (a fresh-eyes review found them counted as used)."""
+    site, today, plan, mirror = scene
+    NightUsage.objects.filter(site=site, night__gte=today - dt.timedelta(days=10)).delete()
+    ServicePlan.objects.filter(pk=plan.pk).update(counting_from=today - dt.timedelta(days=20))
+    first_unlogged = today - dt.timedelta(days=10)
+    recoat = mirror_services.recoat_plan_create(mirror, today - dt.timedelta(days=5), list(RECOAT_PHASES), 10.0,
+                                                users["engineer"])
+    status = PlanStatus.objects.get(plan=plan)
+    assert status.value == pytest.approx(COUNTED)
+    assert status.forecast_date == max(_reached(first_unlogged, (recoat.starts_on, recoat.ends_on)), today)
+    assert status.forecast_date > max(_reached(first_unlogged, None), today)

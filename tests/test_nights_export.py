@@ -196,3 +196,11 @@ def test_the_log_page_shows_each_figure_as_stored_so_sums_from_the_page_are_the_
     assert cells["Sun 07 Jan 2024"] == ["5.25", "0", "0.0", "0.0", "0", "40.0", "–"]
     from_page = sum(float(row[0]) * float(row[5]) for row in cells.values())
     assert from_page == sum(hours * pm10 for hours, pm10, _travel, _humidity in nights)
+
+
+def test_a_name_that_begins_with_an_apostrophe_is_read_as_written_first():
+    """Only a name not registered as written loses the apostrophe our downloads add ("'=T1" for "=T1")."""
+    from observatory_ops.logbook.nights_csv import _telescope
+
+    assert _telescope("'=X", ["'=X", "=X"]) == "'=X"
+    assert _telescope("'=T1", ["=T1"]) == "=T1"

@@ -402,9 +402,9 @@ def _telescope(raw: object, telescopes: Sequence[str]) -> str:
     if not isinstance(raw, str):
         raise RowError("telescope", f"telescope must be a telescope's name, not {shown(raw)}")
     written = raw.strip()
-    if written.startswith("'") and written[1:].startswith(FORMULA_START):
-        written = written[1:]
     by_name = {name.strip(): name for name in telescopes}
+    if written not in by_name and written.startswith("'") and written[1:].startswith(FORMULA_START):
+        written = written[1:]
     if written in by_name:
         return by_name[written]
     alike = [name for name in telescopes if name.strip().casefold() == written.casefold()]

@@ -618,7 +618,7 @@ def _site_recompute(site: Site, today: dt.date) -> int:
     unknown = {p.pk for p in plans if not p.counting_from_given and p.pk not in last_service}
     readings = _readings_by_subsystem_quantity(site, plans, triggers_of, baselines)
 
-    downtime = _downtime_by_telescope(site, today)
+    downtime = _downtime_by_telescope(site)
     states: dict[int, list[TriggerState]] = {p.pk: [] for p in plans}
     groups: dict[tuple, list[tuple]] = {}  # (log, metric, dust sensitivity, telescope out) -> [(plan, trigger)]
     for plan in plans:
@@ -863,15 +863,16 @@ class Downtime:
                 f"{self.last:%d %b %Y}): the telescope is out of service")
 
 
-def _downtime_by_telescope(site: Site, today: dt.date) -> dict[int, list[Downtime]]:
-    """The site's telescopes out of service on coming nights for a recoat in hand, each with its downtimes, in one
-    query: the recoat's days from today on, while an order of it is drafted, issued or underway and none is withdrawn
-    (a withdrawn one stops the recoat)."""
+def _downtime_by_telescope(site: Site) -> dict[int, list[Downtime]]:
+    """The site's telescopes out of service for a recoat in hand, each with its downtimes, in one query: the recoat's
+    days while an order of it is drafted, issued or underway and none is withdrawn (a withdrawn one stops the
+    recoat), its past days too (unlogged nights are counted from the first of them, ``_without_downtime``), and a
+    recoat running late still takes its telescope out until its last order is finished."""
     from observatory_ops.mirrors.models import RecoatPlan  # mirrors builds on planning
     from observatory_ops.workorders.models import State  # work orders build on planning
 
     plans = (
-        RecoatPlan.objects.filter(mirror__subsystem__telescope__site=site, ends_on__gte=today,
+        RecoatPlan.objects.filter(mirror__subsystem__telescope__site=site,
                                   work_orders__state__in=(State.DRAFT, State.ISSUED, State.UNDERWAY))
         .exclude(work_orders__state=State.WITHDRAWN).distinct()
         .values_list("mirror__subsystem__telescope_id", "mirror__subsystem__telescope__name", "mirror__subsystem__name",
@@ -880,7 +881,7 @@ def _downtime_by_telescope(site: Site, today: dt.date) -> dict[int, list[Downtim
     down: dict[int, list[Downtime]] = {}
     for telescope_id, telescope, mirror, first, last in plans.order_by("starts_on"):
         down.setdefault(telescope_id, []).append(
-            Downtime(max(first, today), last, f"the planned recoat of {telescope}: {mirror}"))
+            Downtime(first, last, f"the planned recoat of {telescope}: {mirror}"))
     return down
 
 

@@ -485,8 +485,8 @@ class FinishForm(forms.Form):
             if not required.beyond_limit(value):
                 continue
             text = f"{value:g} {required.unit} is beyond its limit ({required.limit_text})."
-            limit = required.limit_value
-            if limit and abs(value) > UNIT_SLIP_FACTOR * abs(limit):
+            limit = required.limit_value  # a unit slip shows as a value far above an "at most" limit
+            if limit and limit > 0 and "at most" in required.limit_text and value > UNIT_SLIP_FACTOR * limit:
                 text += (f" It is {abs(value / limit):,.0f} times the limit: was it typed in another unit "
                          "(milliseconds for seconds, say)?")
             said[f"reading_{pk}"] = f"{text} {NOT_RECORDED_YET}"

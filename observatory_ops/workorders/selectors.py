@@ -1117,8 +1117,9 @@ def planned_date_notes(order: WorkOrder) -> list[str]:
     notes, site = [], order.site
     today = site_today(site)
     if day < today:
-        notes.append(f"The planned date, {day:%d %b %Y}, is {(today - day).days} days before today at the site: if "
-                     "the work is still to be done, give the day it will be done.")
+        days = (today - day).days
+        notes.append(f"The planned date, {day:%d %b %Y}, is {days} day{'s' if days != 1 else ''} before today at the "
+                     "site: if the work is still to be done, give the day it will be done.")
     off = crew_days_off(site, day, day)
     if off:
         notes.append(f"{day:%a %d %b %Y} is listed as a crew day off ({off[day] or 'no note'}).")
