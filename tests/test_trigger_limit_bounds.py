@@ -20,6 +20,7 @@ from observatory_ops.planning.models import Trigger
 from observatory_ops.planning.services import HORIZON_DAYS, site_today
 from observatory_ops.registry.services import subsystem_create
 from tests.conftest import constant_sky
+from tests.test_register_and_plan_bounds import _unchanged
 
 pytestmark = pytest.mark.django_db
 
@@ -93,21 +94,6 @@ def test_a_usage_limit_of_0_keeps_its_own_message(drive):
 
 
 # --- in the admin, as the engineer sets it ------------------------------------------------------------------------
-
-
-def _unchanged(client, url: str) -> dict:
-    """What the admin's change page at ``url`` sends back when saved untouched: its form's and inline rows' fields."""
-    page = client.get(url)
-    assert page.status_code == 200
-    data = {}
-    forms = [page.context["adminform"].form]
-    for inline in page.context["inline_admin_formsets"]:
-        forms += [inline.formset.management_form, *inline.formset.forms]
-    for form in forms:
-        for name in form.fields:
-            value = form[name].value()
-            data[form.add_prefix(name)] = value if isinstance(value, list) else "" if value is None else str(value)
-    return data
 
 
 def test_the_admin_refuses_a_settle_time_limit_of_0_and_keeps_the_stored_one(engineer_in_admin, drive):
