@@ -231,8 +231,9 @@ class AdHocForm(forms.Form):
         return planned if planned is None else _planned_date_plausible(planned, self._today)
 
 
-#: What the finish form says beside a questioned reading (``FinishForm.beyond_limits``, ``above_fresh``): nothing is
-#: stored until it is confirmed (``READINGS_CONFIRM``) and Finish is pressed again with the same values.
+#: What the finish form says beside a questioned figure (``FinishForm.beyond_limits``, ``above_fresh``,
+#: ``hours_questioned``): nothing is stored until it is confirmed (``READINGS_CONFIRM``) and Finish is pressed again
+#: with the same values.
 NOT_RECORDED_YET = ("Not recorded yet: correct it, or if it is right, tick \"The questioned figures are right as "
                     "entered\" below and press Finish again.")
 #: The box that keeps the questioned figures as entered, and the note at the top of the form while it is not ticked.

@@ -375,11 +375,12 @@ def work_order_finish(request, pk):
         request.POST or None, order=order, by=request.user, unticked=others, isolation_unticked=isolation,
         lacking_hazards=lacking,
     )
-    asked: dict[str, str] = {}  # the readings shown with a question beside them, to be posted again as they are
+    asked: dict[str, str] = {}  # the figures shown with a question beside them, to be posted again as they are
     flagged: list[str] = []
     if request.method == "POST" and form.is_valid():
         flags = form.beyond_limits()
-        # Shown once beside their fields, as the readings beyond their limit are, though not flagged on the record.
+        # Hours far above the estimate and reflectances above fresh are questioned as readings beyond their limit
+        # are; only the last are flagged on the record.
         asked = {**form.hours_questioned(), **form.above_fresh(), **flags}
         flagged = sorted(f"{name}={form.cleaned_data[name]!r}" for name in asked)
         confirmed = form.cleaned_data.get("confirm_unticked", False)
@@ -395,8 +396,8 @@ def work_order_finish(request, pk):
                 "confirm_hazards", "Confirm that these hazards were controlled or did not arise, and say how in the "
                 "findings; if you cannot, do not finish: ask the site engineer."
             )
-        # Readings beyond their limit or above a coating's fresh value are first shown beside their fields, with a box
-        # to keep them; the same values posted again from that page with the box ticked are recorded as measured.
+        # Questioned figures are first shown beside their fields, with a box to keep them; the same values posted
+        # again from that page with the box ticked are recorded as entered.
         elif flagged and not (flagged == sorted(request.POST.getlist("flagged"))
                               and request.POST.get("readings_confirmed")):
             n = len(flagged)
