@@ -259,5 +259,34 @@ def test_a_reading_far_beyond_its_plans_limit_is_asked_about_before_it_is_logged
             "say)?") in page.content.decode()
     assert client.post(f"/subsystems/{drive.pk}/readings/new/", {**form, "value": "30"}).status_code == 200
     assert client.post(f"/subsystems/{drive.pk}/readings/new/", {**form, "value": "1.4"}).status_code == 302
-    assert client.post(f"/subsystems/{drive.pk}/readings/new/", {**form, "value_confirmed": "on"}).status_code == 302
+    asked = re.search(r'name="questioned" value="([^"]*)"', page.content.decode()).group(1)
+    assert client.post(f"/subsystems/{drive.pk}/readings/new/",
+                       {**form, "value_confirmed": "on", "questioned": asked}).status_code == 302
     assert sorted(Reading.objects.values_list("value", flat=True)) == [1.4, 800.0]
+
+
+def test_the_box_keeps_only_the_value_it_was_ticked_for(telescope, users, client):
+    """A diff review: the box came back ticked with the page, so a value changed after the question (800 corrected to
+    80 by a second slip) was kept unasked. The page carries the value it asked about; another value is asked about
+    again with the box cleared, and a box ticked before any question was asked keeps nothing."""
+    from observatory_ops.logbook.models import Reading
+    from observatory_ops.planning.services import site_today
+    from observatory_ops.registry.services import subsystem_create
+
+    drive = subsystem_create(telescope, "axis1_drive", "Axis 1 drive",
+                             counting_from=site_today(telescope.site) - dt.timedelta(days=30))
+    url = f"/subsystems/{drive.pk}/readings/new/"
+    form = {"quantity": "settle_time_s", "value": "800", "note": "",
+            "taken_at": f"{site_today(telescope.site) - dt.timedelta(days=1)}T22:30"}
+    client.force_login(users["technician"])
+    page = client.post(url, {**form, "value_confirmed": "on"})  # ticked before being asked: asked all the same
+    asked = re.search(r'name="questioned" value="([^"]*)"', page.content.decode()).group(1)
+    assert page.status_code == 200 and asked == "settle_time_s=800.0"
+    assert 'name="value_confirmed" id="id_value_confirmed" checked' not in page.content.decode()
+    page = client.post(url, {**form, "value": "80", "value_confirmed": "on", "questioned": asked})
+    assert page.status_code == 200 and "80 s is 80 times the plan" in page.content.decode()
+    assert 'checked' not in re.search(r'<input[^>]*name="value_confirmed"[^>]*>', page.content.decode()).group(0)
+    assert not Reading.objects.exists()
+    asked = re.search(r'name="questioned" value="([^"]*)"', page.content.decode()).group(1)
+    assert client.post(url, {**form, "value": "80", "value_confirmed": "on", "questioned": asked}).status_code == 302
+    assert list(Reading.objects.values_list("value", flat=True)) == [80.0]

@@ -39,7 +39,10 @@ def test_ticked_it_is_stored_and_a_value_within_the_margin_is_not_asked(mirror, 
     fresh, _ = services.fresh_band_on(mirror, site_today(mirror.subsystem.telescope.site))
     client.force_login(users["technician"])
     high = round(fresh + ABOVE_FRESH_MARGIN + 0.01, 4)
-    assert _post(client, mirror, high, value_confirmed="on").status_code == 302
+    asked = re.search(r'name="questioned" value="([^"]*)"', _post(client, mirror, high).content.decode()).group(1)
+    assert _post(client, mirror, high + 0.001, value_confirmed="on", questioned=asked).status_code == 200  # not its
+    assert not ReflectanceMeasurement.objects.filter(value__gt=high - 0.0001).exists()
+    assert _post(client, mirror, high, value_confirmed="on", questioned=asked).status_code == 302
     assert _post(client, mirror, round(fresh + ABOVE_FRESH_MARGIN - 0.005, 4)).status_code == 302
     assert ReflectanceMeasurement.objects.filter(value=high).exists()
 
@@ -72,8 +75,9 @@ def test_a_reflectance_reading_of_the_mirror_is_asked_about_too(mirror, users, c
     assert f"is above the fresh value of the coating of {coating.coated_on:%d %b %Y}" in text
     assert 'tick "The value is right as typed" and log it again' in text
     assert (list(Reading.objects.values_list("pk")), list(ReflectanceMeasurement.objects.values_list("pk"))) == before
+    asked = re.search(r'name="questioned" value="([^"]*)"', response.content.decode()).group(1)
     assert client.post(url, {"quantity": "reflectance", "value": high, "taken_at": taken,
-                             "value_confirmed": "on"}).status_code == 302
+                             "value_confirmed": "on", "questioned": asked}).status_code == 302
     assert ReflectanceMeasurement.objects.filter(value=high, mirror=mirror).exists()
 
 

@@ -10,6 +10,24 @@ from . import nights_csv, services
 from .quantities import QUANTITIES, QUANTITY_CHOICES, value_problem
 
 
+class QuestionedValueMixin:
+    """A value the form questions (far beyond a limit, above a mirror's fresh coating) is kept only when its box,
+    ``value_confirmed``, is ticked on the page that asked about that very value: the page carries what it asked about
+    in ``questioned``, and a value changed after the tick is asked about again with the box cleared. The finish form
+    ties its questioned figures to their values the same way (``workorders.views.work_order_finish``)."""
+
+    def confirmed_for(self, asked: str) -> bool:
+        """Whether the person ticked the box on a page that asked about ``asked`` (the questioned fields' values)."""
+        data = self.cleaned_data
+        return bool(data.get("value_confirmed")) and data.get("questioned") == asked
+
+    def ask_again(self, asked: str) -> None:
+        """Carry ``asked`` in the page that shows the question, and clear the box: a tick is for this value only."""
+        self.data = self.data.copy()
+        self.data[self.add_prefix("questioned")] = asked
+        self.data.pop(self.add_prefix("value_confirmed"), None)
+
+
 class ServiceRecordForm(forms.Form):
     plan = forms.ModelChoiceField(
         queryset=ServicePlan.objects.none(), required=False,
@@ -59,7 +77,7 @@ class CorrectionForm(forms.Form):
 UNIT_SLIP_FACTOR = 10
 
 
-class ReadingForm(forms.Form):
+class ReadingForm(QuestionedValueMixin, forms.Form):
     quantity = forms.ChoiceField(choices=QUANTITY_CHOICES)
     value = forms.FloatField(error_messages={
         "invalid": "Enter a number, with a point for decimals (0.87, not 0,87).",
@@ -75,6 +93,7 @@ class ReadingForm(forms.Form):
         help_text="Asked only for a value far beyond its plan's limit, which is more often a unit slip, or a mirror's "
         "reflectance well above its coating's fresh value.",
     )
+    questioned = forms.CharField(required=False, widget=forms.HiddenInput)
 
     def __init__(self, *args, watched=(), kind_label="", limits=None, mirror=None, **kwargs):
         """``watched``: the quantities the subsystem's plans watch or ask for and its kind's usual ones, offered
@@ -116,7 +135,8 @@ class ReadingForm(forms.Form):
         if problem:  # refused as ``services.reading_log`` refuses it, said beside the field, not asked about
             self.add_error("value", problem[0].upper() + problem[1:] + ".")
             return data
-        if data.get("value_confirmed"):
+        asked = f"{quantity}={value!r}"
+        if self.confirmed_for(asked):
             return data
         for limit in self.limits.get(quantity, []):
             if limit > 0 and value > UNIT_SLIP_FACTOR * limit:
@@ -135,6 +155,8 @@ class ReadingForm(forms.Form):
             if problem := above_fresh_problem(self.mirror, day, value):
                 self.add_error("value", f"{problem} If it is right, tick \"The value is right as typed\" and log it "
                                         "again.")
+        if self.has_error("value"):
+            self.ask_again(asked)
         return data
 
 

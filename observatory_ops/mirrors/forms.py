@@ -5,6 +5,7 @@ from django import forms
 
 from observatory_ops.calc.coating import MATERIALS, MAX_GRID_SIZE, METALS, grid_size, wavelength_range_nm
 from observatory_ops.calc.windows import RECOAT_PHASES, Phase, downtime_words, shortest_downtime
+from observatory_ops.logbook.forms import QuestionedValueMixin
 from observatory_ops.registry.models import Subsystem
 
 from . import layers_text, response_csv
@@ -43,7 +44,7 @@ def above_fresh_problem(mirror: Mirror, day: dt.date, value: float) -> str:
     )
 
 
-class MeasurementForm(forms.Form):
+class MeasurementForm(QuestionedValueMixin, forms.Form):
     measured_on = forms.DateField(widget=forms.DateInput(attrs={"type": "date"}))
     value = forms.FloatField(
         min_value=0, max_value=1,
@@ -56,6 +57,7 @@ class MeasurementForm(forms.Form):
         required=False, label="The value is right as measured",
         help_text="Asked only for a band mean well above the fresh value of the mirror's coating.",
     )
+    questioned = forms.CharField(required=False, widget=forms.HiddenInput)
 
     def __init__(self, *args, mirror: Mirror, **kwargs):
         super().__init__(*args, **kwargs)
@@ -81,13 +83,17 @@ class MeasurementForm(forms.Form):
         """A band mean above the fresh value of the coating in force that day by more than ``ABOVE_FRESH_MARGIN`` is
         asked about (``value_confirmed``), not refused: the fresh value is computed, the instrument may know better."""
         data = super().clean()
-        confirmed = data.pop("value_confirmed", False)
         value, day = data.get("value"), data.get("measured_on")
+        asked = f"{day}={value!r}"
+        confirmed = self.confirmed_for(asked)
+        for name in ("value_confirmed", "questioned"):
+            data.pop(name, None)  # not the measurement's: the view passes the rest to ``services.measurement_log``
         if confirmed or value is None or day is None or data.get("wavelength_nm") is not None:
             return data
         if problem := above_fresh_problem(self.mirror, day, value):
             self.add_error("value", f"{problem} If it is right, tick \"The value is right as measured\" and save it "
                                     "again.")
+            self.ask_again(asked)
         return data
 
 
