@@ -654,3 +654,60 @@ def test_hours_far_above_the_estimate_are_questioned_before_they_are_recorded(or
     flagged = re.findall(r'name="flagged" value="([^"]+)"', first)
     client.post(f"/workorders/{order.pk}/finish/", {**data, "flagged": flagged, "readings_confirmed": "on"})
     assert _state(order) == State.FINISHED
+
+
+def test_an_orders_hours_corrected_in_the_logbook_show_on_its_page_and_paper_and_keep_their_orders_type(
+    order, users, client, site
+):
+    """A reviewer: a finished order's 400 h (40 typed with a slip) could be corrected on its service record, but the
+    order still said 400 h, and the correction, carrying no order, moved its hours from the order type's column of the
+    reliability page to "without an order". A correction carries its order (logbook.services.service_record_correct);
+    the page and the paper give the hours as the records now stand, beside the hours entered at finish."""
+    from io import BytesIO
+
+    from observatory_ops.reliability.selectors import site_reliability
+
+    services.work_order_move(order, "issue", users["engineer"])
+    services.work_order_move(order, "start", users["technician"])
+    services.work_order_finish(order, users["technician"], 400.0, "ok", _all_readings(order, 0.6),
+                               **_confirmed(order))
+    record = ServiceRecord.objects.get(work_order=order)
+    client.force_login(users["engineer"])
+    page = client.get(order.get_absolute_url()).content.decode()
+    assert "400 h" in page and "hours-corrected" not in page
+    response = client.post(f"/service/{record.pk}/correct/", {
+        "performed_on": record.performed_on.isoformat(), "hours_spent": "40", "summary": record.summary,
+        "findings": "hours typed as 400",
+    })
+    assert response.status_code == 302
+    correction = ServiceRecord.objects.get(corrects=record)
+    assert correction.work_order == order and correction.hours_spent == 40.0
+    page = " ".join(client.get(order.get_absolute_url()).content.decode().split())
+    assert "40 h as corrected in the service records (400 h at finish)" in page
+    assert "corrected in the logbook</li>" in page
+    pdf_text = " ".join(" ".join(p.extract_text().split()) for p in
+                        PdfReader(BytesIO(client.get(f"/workorders/{order.pk}/pdf/").content)).pages)
+    assert "40 h as corrected in the service records (400 h at finish)" in pdf_text
+    hours = site_reliability(site, record.performed_on).hours_by_type
+    assert hours["preventive"] == 40.0 and hours["without_order"] == 0.0
+
+
+def test_corrections_logged_before_they_carried_their_order_get_it_from_the_migration(order, users):
+    """logbook 0012: each correction without an order takes the one of the first record of its chain."""
+    import importlib
+
+    from django.apps import apps
+
+    from observatory_ops.logbook.services import service_record_correct
+
+    services.work_order_move(order, "issue", users["engineer"])
+    services.work_order_move(order, "start", users["technician"])
+    services.work_order_finish(order, users["technician"], 4.0, "ok", _all_readings(order, 0.6), **_confirmed(order))
+    first = ServiceRecord.objects.get(work_order=order)
+    second = service_record_correct(first, users["engineer"], "again", hours_spent=3.0)
+    third = service_record_correct(second, users["engineer"], "and again", hours_spent=2.0)
+    ServiceRecord.objects.filter(pk__in=[second.pk, third.pk]).update(work_order=None)  # as logged before
+    migration = importlib.import_module("observatory_ops.logbook.migrations.0012_corrections_carry_their_work_order")
+    migration.carry_work_order(apps, None)
+    assert set(ServiceRecord.objects.values_list("work_order", flat=True)) == {order.pk}
+    assert selectors.hours_corrected(order) == 2.0

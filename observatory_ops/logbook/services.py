@@ -571,7 +571,9 @@ def service_record_correct(
 ) -> ServiceRecord:
     """Append a correction that replaces ``original`` (or withdraws it with ``void``); nothing is edited.
 
-    A new date is held to the rules of a new record (``service_date_problem``)."""
+    A new date is held to the rules of a new record (``service_date_problem``). The correction carries the original's
+    work order: its hours stay in the order type's column of the reliability page, and the order's page and paper
+    show its hours as corrected (``workorders.selectors.hours_corrected``)."""
     if performed_on and performed_on != original.performed_on:
         problem = service_date_problem(original.subsystem.telescope.site, performed_on)
         if problem:
@@ -586,6 +588,7 @@ def service_record_correct(
             hours_spent=original.hours_spent if hours_spent is None else hours_spent,
             summary=summary, findings=findings, corrects=original, void=void, created_by=by,
             repaired_failure=original.repaired_failure, limit_passed_on=original.limit_passed_on,
+            work_order=original.work_order,
         )
         correction.full_clean()
         correction.save()

@@ -781,6 +781,9 @@ def _record_boxes(sheet: Sheet, width: float) -> Table:
     work, boxes to write in otherwise."""
     column = min(60 * mm, width / 2)
     hours = f"{sheet.actual_hours:g} h" if sheet.actual_hours is not None else _written_box(column)
+    if sheet.hours_corrected is not None:
+        hours = _Paragraph(_text(f"{sheet.hours_corrected:g} h as corrected in the service records "
+                                 f"({sheet.actual_hours:g} h at finish)"), _BODY)
     done_on = _date_text(sheet.work_done_on) if sheet.work_done_on is not None else _written_box(column)
     return Table(
         [[f"Actual hours (estimate {sheet.estimated_hours:g} h)", "Work done on (date)"], [hours, done_on]],

@@ -1026,6 +1026,17 @@ def work_done_on(order: WorkOrder) -> dt.date | None:
     )
 
 
+def hours_corrected(order: WorkOrder) -> float | None:
+    """A finished order's person-hours as its service records stand once one of them was corrected or withdrawn in the
+    logbook (a correction carries its order: ``logbook.services.service_record_correct``), the sum of the records in
+    force; None while none was, when the hours entered at finish stand. One query."""
+    rows = list(order.service_records.filter(corrected_by__isnull=True)
+                .values_list("corrects_id", "void", "hours_spent"))
+    if not any(corrects for corrects, _, _ in rows):
+        return None
+    return sum(hours or 0.0 for _, void, hours in rows if not void)
+
+
 def work_done_on_of(order_id_field: str) -> Subquery:
     """``work_done_on`` as an expression over the rows of a query, whose ``order_id_field`` holds the order's id: for
     lists of many orders' rows (the reliability page's failures, the parts-used CSV) in one query."""
@@ -1518,6 +1529,7 @@ def sheet(order: WorkOrder, url: str) -> sheet_.Sheet:
         findings=order.findings,
         generated_at=timezone.now().astimezone(zone),
         actual_hours=order.actual_hours,
+        hours_corrected=hours_corrected(order) if finished else None,
         work_done_on=work_done_on(order) if finished else None,
         rigging_check="suspended_load" in order.hazards or figures is not None,
         performed_by=person(order.finished_by),

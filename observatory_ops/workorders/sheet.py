@@ -105,8 +105,8 @@ class Sheet:
     line, a warning among the points): a ticked line prints with its box ticked, and each note beside its line.
     ``findings`` is printed when present; otherwise blank ruled lines are left for writing.
     ``actual_hours`` and ``work_done_on`` (finished work) fill their boxes by the sign-off; without them the boxes
-    are left to write in. ``rigging_check`` adds a sign-off line for the competent person who checks the rigging
-    of a suspended load.
+    are left to write in. ``hours_corrected``, once a service record of the order was corrected, prints beside them.
+    ``rigging_check`` adds a sign-off line for the competent person who checks the rigging of a suspended load.
     ``confirmations`` (finished work only) are what the person finishing confirmed beyond the notes beside the
     checklist lines (``step_ticks``, ``point_ticks``: who ticked each and when, or what was confirmed for a line
     nobody ticked): the answer for an energy isolation nobody ticked, the hazards the order lacked, and ticks on lines
@@ -144,6 +144,7 @@ class Sheet:
     findings: str = ""
     generated_at: datetime | None = None
     actual_hours: float | None = None
+    hours_corrected: float | None = None  # the hours as the order's service records stand, when one was corrected
     estimate_basis: str = ""  # where the estimated hours came from (``WorkOrder.estimate_basis``), "" when entered
     performed_by: str = ""
     performed_on: date | None = None
