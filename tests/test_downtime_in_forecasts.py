@@ -93,3 +93,46 @@ def test_a_recoat_begun_on_nights_not_yet_logged_counts_those_nights_unused_too(
     assert status.value == pytest.approx(COUNTED)
     assert status.forecast_date == max(_reached(first_unlogged, (recoat.starts_on, recoat.ends_on)), today)
     assert status.forecast_date > max(_reached(first_unlogged, None), today)
+
+
+def test_an_enclosure_all_telescopes_share_expects_no_use_only_on_the_nights_all_of_them_are_out(users):
+    """A diff review: the enclosure a site's two telescopes share still expected use while both were out for
+    recoats. It opens for either telescope, so it expects no use on the nights both are out, and only on those: with
+    one recoat it counts as before; with a second overlapping the first by ``overlap`` nights, its forecast steps over
+    those nights alone (the same hand count as above: 8 h a night, 100 h to go)."""
+    from conftest import constant_sky
+
+    site = Site.objects.create(name="Twin Knoll", slug="twin-knoll", latitude_deg=0, longitude_deg=0, time_zone="UTC",
+                               shared_enclosure=True)
+    today = services.site_today(site)
+    constant_sky(site, today - dt.timedelta(days=400), today + dt.timedelta(days=services.HORIZON_DAYS + 5))
+    NightUsage.objects.bulk_create(NightUsage(site=site, night=today - dt.timedelta(days=i), open_hours=PER_NIGHT)
+                                   for i in range(1, 401))
+    mirrors = []
+    for name in ("A40", "B40"):
+        telescope = Telescope.objects.create(site=site, name=name, aperture_m=0.4, mount="fork")
+        primary = Subsystem.objects.create(telescope=telescope, kind="primary_mirror", name="Primary mirror")
+        mirror = Mirror.objects.create(subsystem=primary, diameter_mm=400, thickness_mm=40, hole_mm=100,
+                                       material="borosilicate", cell_mass_kg=20)
+        CoatingEvent.objects.create(mirror=mirror, coated_on=today - dt.timedelta(days=300), metal="al")
+        mirrors.append(mirror)
+    dome = Subsystem.objects.create(telescope=mirrors[0].subsystem.telescope, kind="enclosure", name="Dome")
+    plan = ServicePlan.objects.create(subsystem=dome, name="Dome drives", counting_from=today - dt.timedelta(days=10),
+                                      counting_from_given=True)
+    Trigger.objects.create(plan=plan, metric="open_hours", limit=LIMIT)
+    services.site_recompute(site)
+    assert PlanStatus.objects.get(plan=plan).forecast_date == _reached(today, None)
+
+    first = mirror_services.recoat_plan_create(mirrors[0], today + dt.timedelta(days=3), list(RECOAT_PHASES), 10.0,
+                                               users["engineer"])
+    status = PlanStatus.objects.get(plan=plan)
+    assert status.forecast_date == _reached(today, None) and "planned recoat" not in status.basis
+
+    second = mirror_services.recoat_plan_create(mirrors[1], first.ends_on - dt.timedelta(days=2), list(RECOAT_PHASES),
+                                                10.0, users["engineer"])
+    both = (second.starts_on, first.ends_on)
+    status = PlanStatus.objects.get(plan=plan)
+    assert status.forecast_date == _reached(today, both) > _reached(today, None)
+    assert (f"no use on the 3 nights of the planned recoats of A40: Primary mirror and B40: Primary mirror "
+            f"({both[0]:%d %b %Y} to {both[1]:%d %b %Y}): every telescope of the site is out of service, so the "
+            "enclosure they share is not opened") in status.basis

@@ -619,6 +619,8 @@ def _site_recompute(site: Site, today: dt.date) -> int:
     readings = _readings_by_subsystem_quantity(site, plans, triggers_of, baselines)
 
     downtime = _downtime_by_telescope(site)
+    if downtime and any(p.whole_site for p in plans):
+        downtime[ALL_OUT] = _all_out(downtime, list(site.telescopes.values_list("pk", flat=True)))
     states: dict[int, list[TriggerState]] = {p.pk: [] for p in plans}
     groups: dict[tuple, list[tuple]] = {}  # (log, metric, dust sensitivity, telescope out) -> [(plan, trigger)]
     for plan in plans:
@@ -640,8 +642,11 @@ def _site_recompute(site: Site, today: dt.date) -> int:
             else:
                 sens = plan.dust_sensitivity if trig.metric == metrics.DUST_HOURS else 0.0
                 # A telescope out of service for a recoat expects no use then; an enclosure all the site's telescopes
-                # share still opens for the others.
-                out = plan.telescope_id if plan.telescope_id in downtime and not plan.whole_site else None
+                # share still opens for the others, until all of them are out.
+                if plan.whole_site:
+                    out = ALL_OUT if downtime.get(ALL_OUT) else None
+                else:
+                    out = plan.telescope_id if plan.telescope_id in downtime else None
                 groups.setdefault((usage_of(plan)[0], trig.metric, sens, out), []).append((plan, trig))
 
     # A counter's expected use runs from the first unlogged night, or from its plan's baseline (last service or
@@ -851,16 +856,22 @@ def _readings_by_subsystem_quantity(
 @dataclass(frozen=True)
 class Downtime:
     """A telescope out of service on coming nights, for a recoat in hand (``mirrors.services.recoat_in_hand``: going
-    ahead, some order of it not finished): its counters expect no use on ``first`` to ``last``, both counted."""
+    ahead, some order of it not finished): its counters expect no use on ``first`` to ``last``, both counted. Also the
+    nights every telescope of a site is out, for the enclosure they share (``_all_out``), with its own ``out``."""
 
     first: dt.date
     last: dt.date
     what: str  # "the planned recoat of T70: Primary mirror"
+    out: str = "the telescope is out of service"
 
     def basis(self, nights: int) -> str:
         """What a counter's basis says of it, ``nights`` of it from the forecast's first night on."""
         return (f"; no use on the {nights} night{'s' if nights != 1 else ''} of {self.what} ({self.first:%d %b %Y} to "
-                f"{self.last:%d %b %Y}): the telescope is out of service")
+                f"{self.last:%d %b %Y}): {self.out}")
+
+
+#: The key of the downtimes of an enclosure all a site's telescopes share (``_all_out``), beside telescopes' ids.
+ALL_OUT = "all telescopes"
 
 
 def _downtime_by_telescope(site: Site) -> dict[int, list[Downtime]]:
@@ -883,6 +894,28 @@ def _downtime_by_telescope(site: Site) -> dict[int, list[Downtime]]:
         down.setdefault(telescope_id, []).append(
             Downtime(first, last, f"the planned recoat of {telescope}: {mirror}"))
     return down
+
+
+def _all_out(downtime: dict[int, list[Downtime]], telescopes: list[int]) -> list[Downtime]:
+    """The runs of nights on which every one of ``telescopes`` (the site's) is out for a recoat in hand, as downtimes
+    of the enclosure they share: nobody opens it then. While one telescope is still in service, the enclosure opens
+    for it and expects its use as before."""
+    if not telescopes or any(t not in downtime for t in telescopes):
+        return []
+    out = None
+    for telescope in telescopes:
+        days = {d.first + dt.timedelta(days=i) for d in downtime[telescope] for i in range((d.last - d.first).days + 1)}
+        out = days if out is None else out & days
+    recoats = sorted({d.what.removeprefix("the planned recoat of ") for t in telescopes for d in downtime[t]})
+    what = f"the planned recoat{'s' if len(recoats) > 1 else ''} of {' and '.join(recoats)}"
+    runs: list[Downtime] = []
+    for day in sorted(out):
+        if runs and runs[-1].last == day - dt.timedelta(days=1):
+            runs[-1] = Downtime(runs[-1].first, day, what, runs[-1].out)
+        else:
+            runs.append(Downtime(day, day, what, "every telescope of the site is out of service, so the enclosure they "
+                                                 "share is not opened"))
+    return runs
 
 
 def _without_downtime(expected: np.ndarray, first_day: dt.date, downtimes: list[Downtime]) -> tuple[np.ndarray, str]:
