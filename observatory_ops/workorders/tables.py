@@ -7,24 +7,29 @@ from observatory_ops.registry.models import Site
 
 from .models import State, WorkOrder
 
+#: Each cell carries its column's header as data-label: on a phone each row is a card of "label: value" lines
+#: (site.css, ``.card-table``), the number and the state on its first line.
+_LABELLED = {"td": {"data-label": lambda bound_column: bound_column.header}}
+
 
 class WorkOrderTable(tables.Table):
-    number = tables.Column(accessor="pk", verbose_name="Number")
-    state = tables.Column()
-    title = tables.Column()
-    site = tables.Column(accessor="site__name", verbose_name="Site")
+    number = tables.Column(accessor="pk", verbose_name="Number", attrs=_LABELLED)
+    state = tables.Column(attrs=_LABELLED)
+    title = tables.Column(attrs=_LABELLED)
+    site = tables.Column(accessor="site__name", verbose_name="Site", attrs=_LABELLED)
     # An order over several telescopes has none of its own: its items name them (``selectors.work_orders_listed``
     # fetches them for the whole page at once). empty_values=(): rendered for those too.
-    telescope = tables.Column(accessor="telescope__name", verbose_name="Telescope", empty_values=())
-    planned_date = tables.Column(verbose_name="Planned")
-    priority = tables.Column()
-    assignee = tables.Column()
+    telescope = tables.Column(accessor="telescope__name", verbose_name="Telescope", empty_values=(), attrs=_LABELLED)
+    planned_date = tables.Column(verbose_name="Planned", attrs=_LABELLED)
+    priority = tables.Column(attrs=_LABELLED)
+    assignee = tables.Column(attrs=_LABELLED)
 
     class Meta:
         model = WorkOrder
         fields = ()
         sequence = ("number", "state", "title", "site", "telescope", "planned_date", "priority", "assignee")
         order_by = ("-number",)
+        attrs = {"class": "card-table"}
 
     def render_number(self, record):
         return format_html('<a href="{}">{}</a>', record.get_absolute_url(), record.number)

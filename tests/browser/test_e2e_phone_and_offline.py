@@ -100,6 +100,31 @@ def test_on_a_phone_each_due_item_is_a_card_of_labelled_lines(browser_page, live
     assert all(row["display"] == "table-row" for row in page.evaluate(_ROWS)), "on a desktop it stays a table"
 
 
+@pytest.mark.browser
+def test_on_a_phone_each_work_order_is_a_card_with_its_number_and_state_first(browser_page, live_server, login, demo):
+    """A review: the work order list scrolled sideways inside its box on a 390 px phone, its site, telescope, planned
+    day and assignee out of sight. Each order is now a card as a due item is (workorders.tables, site.css)."""
+    page = browser_page
+    technician = demo.usernames["technician"]
+    login(page, live_server, technician, demo.passwords[technician])
+    page.set_viewport_size({"width": 390, "height": 844})
+    page.goto(live_server.url + reverse("workorder-list") + "?state=all")
+    page.screenshot(path=str(SCREENSHOTS / "e2e_workorder_list_390_cards.png"), full_page=True)
+    rows = page.evaluate(_ROWS.replace("table.due-table", "table.card-table"))
+    assert rows
+    for row in rows:
+        assert row["width"] <= 390 - 2 * 16, f"a card fits the phone: {row}"
+        number, state, *rest = row["cells"]
+        assert re.fullmatch(r"WO-\d{5}", number["text"]) and number["shown"] == "none" and state["shown"] == "none"
+        assert [c["label"] for c in rest] == ["Title", "Site", "Telescope", "Planned", "Priority", "Assignee"]
+        for cell in rest:
+            assert cell["shown"].startswith(f'"{cell["label"]}"'), cell
+    page.set_viewport_size({"width": 1280, "height": 800})
+    page.goto(live_server.url + reverse("workorder-list"))
+    assert all(row["display"] == "table-row" for row in page.evaluate(_ROWS.replace("table.due-table",
+                                                                                     "table.card-table")))
+
+
 _BOXES = """els => els.filter(el => el.offsetParent !== null).map(el => {
   const r = el.getBoundingClientRect();
   return {what: el.outerHTML.slice(0, 90), width: r.width, height: r.height};
