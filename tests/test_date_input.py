@@ -25,3 +25,11 @@ def test_a_date_with_slashes_is_refused_not_guessed(typed):
 
 def test_a_date_and_time_is_read_in_iso_order():
     assert forms.DateTimeField().clean("2026-01-06 21:30").replace(tzinfo=None) == dt.datetime(2026, 1, 6, 21, 30)
+
+
+def test_a_date_not_read_says_which_formats_are():
+    """Django's own "Enter a valid date." named no format; a person typing a date without a date picker needs one."""
+    with pytest.raises(ValidationError, match=r"Enter the date as YYYY-MM-DD \(2027-03-23\) or as 23 Mar 2027\."):
+        forms.DateField().clean("06/01/2026")
+    with pytest.raises(ValidationError, match=r"Enter the date and time as YYYY-MM-DD HH:MM \(2027-03-23 21:30\)\."):
+        forms.DateTimeField().clean("tomorrow evening")

@@ -113,7 +113,8 @@ class _Service(forms.Form):
 def test_the_summary_keeps_the_label_before_a_message_that_does_not_name_its_field():
     form = _Service({"performed_on": "someday"})
     summary = render_to_string("_error_summary.html", {"form": form})
-    assert '<a href="#id_performed_on">Performed on</a>: Enter a valid date.' in summary  # Django's own message
+    assert ('<a href="#id_performed_on">Performed on</a>: Enter the date as YYYY-MM-DD (2027-03-23) or as 23 Mar 2027.'
+            in summary)  # formats/en/formats.py DATE_INVALID
     assert '<a href="#id_hours">Hours: enter the hours.</a>' in summary
 
 
@@ -124,7 +125,7 @@ def test_the_summary_keeps_the_label_before_a_message_that_does_not_name_its_fie
     ("findings: say why", "Findings", True),  # any case
     ("Find: a word that only begins the label's first word", "Findings", False),
     ("The service date cannot be in the future.", "Performed on", False),
-    ("Enter a valid date.", "Work done on", False),
+    ("Enter the date as YYYY-MM-DD (2027-03-23) or as 23 Mar 2027.", "Work done on", False),
     ("Fan current cannot be above 50 A (got 500)", "Value", False),
     ("How many (2): enter a number.", "How many (1)", False),  # another row's field
     ("", "Findings", False),
