@@ -136,7 +136,7 @@ def test_readings_a_work_order_could_not_ask_for_are_refused_naming_the_reading(
 
 def test_a_limit_longer_than_a_work_order_holds_is_refused_with_its_length():
     assert readings_problem([{"quantity": "ripple_mv", "limit": "x" * 81}]) == (
-        "Reading 1 (ripple_mv): the limit is 81 characters long; a work order holds 80.")
+        "Reading 1 (ripple_mv): the limit is 81 characters long; a plan's limit may be at most 80.")
 
 
 def test_readings_written_as_the_help_says_are_saved_and_asked_for_on_the_work_order(engineer, fans, users):

@@ -711,3 +711,29 @@ def test_corrections_logged_before_they_carried_their_order_get_it_from_the_migr
     migration.carry_work_order(apps, None)
     assert set(ServiceRecord.objects.values_list("work_order", flat=True)) == {order.pk}
     assert selectors.hours_corrected(order) == 2.0
+
+
+def test_a_mirrors_reflectance_row_gives_its_recoat_line_in_words(telescope, users):
+    """A reviewer: the paper's reflectance row said only "the mean after cleaning; the mean before in the findings",
+    so the technician who measured after a clean could not tell whether the mirror was still above its recoat line.
+    The row gives the line when the order was made (mirrors.services.mirror_forecast), in words: the finish form does
+    not question a value below it (RequiredReading.limit_value), the due list takes it up once recorded."""
+    from observatory_ops.logbook.quantities import reflectance_text
+    from observatory_ops.mirrors.models import CoatingEvent, Mirror
+    from observatory_ops.mirrors.services import mirror_forecast
+
+    primary = subsystem_create(telescope, "primary_mirror", "Primary", counting_from=dt.date(2026, 1, 1))
+    mirror = Mirror.objects.create(subsystem=primary, diameter_mm=500, thickness_mm=50, hole_mm=120,
+                                   material="borosilicate", cell_mass_kg=30)
+    CoatingEvent.objects.create(mirror=mirror, coated_on=dt.date(2025, 8, 1), metal="al")
+    cleaning = next(p for p in primary.plans.all() if p.readings)
+    order = services.work_order_from_due([cleaning], users["engineer"], PLANNED)
+    row = order.required_readings.get(quantity="reflectance")
+    line = reflectance_text(mirror_forecast(mirror).threshold)
+    assert row.limit_text.endswith(f"; recoat line {line} (when the order was made)")
+    assert row.limit_value is None and not row.beyond_limit(0.5)
+    # Without a mirror record the row is as the plan gives it.
+    secondary = subsystem_create(telescope, "secondary_mirror", "Secondary", counting_from=dt.date(2026, 1, 1))
+    Mirror.objects.filter(pk=mirror.pk).update(subsystem=secondary)
+    order = services.work_order_from_due([cleaning], users["engineer"], PLANNED)
+    assert "recoat line" not in order.required_readings.get(quantity="reflectance").limit_text

@@ -139,6 +139,11 @@ class ServicePlan(models.Model):
 READING_SHAPE = '{"quantity": code, "limit": "in words"}'
 
 
+#: The longest limit a plan's reading may give, in characters: the work order's row holds twice as many, so that a
+#: mirror's recoat line can follow (``workorders.services._with_recoat_line``).
+READING_LIMIT_LENGTH = 80
+
+
 def readings_problem(readings: object) -> str | None:
     """Why a plan's readings cannot be what its work orders ask for (None when they can).
 
@@ -146,9 +151,7 @@ def readings_problem(readings: object) -> str | None:
     reading of each quantity, in its unit (``workorders.services``, from ``logbook.quantities.QUANTITIES``), once per
     quantity, with the limit as the text its form shows (``RequiredReading.limit_text``).
     """
-    from observatory_ops.workorders.models import RequiredReading  # the work orders build on planning
-
-    longest = RequiredReading._meta.get_field("limit_text").max_length
+    longest = READING_LIMIT_LENGTH
     if not isinstance(readings, list):
         return (f"Readings must be a JSON list, [{READING_SHAPE}, ...] with a quantity's code in each, or [] for none; "
                 f"not {_shown(readings)}.")
@@ -170,8 +173,8 @@ def readings_problem(readings: object) -> str | None:
             return (f"Reading {number} ({quantity}): the limit is written in words, in quotes (\"at most 2 s\"), "
                     f"or left out; not {_shown(limit)}.")
         if len(limit) > longest:
-            return (f"Reading {number} ({quantity}): the limit is {len(limit)} characters long; a work order holds "
-                    f"{longest}.")
+            return (f"Reading {number} ({quantity}): the limit is {len(limit)} characters long; a plan's limit "
+                    f"may be at most {longest}.")
         if quantity in seen:
             return (f"Reading {number} ({quantity}) asks again for the quantity of reading {seen[quantity]}: a work "
                     "order asks for each quantity once, so give it once.")

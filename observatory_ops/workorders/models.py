@@ -306,7 +306,7 @@ class RequiredReading(models.Model):
     subsystem = models.ForeignKey(Subsystem, on_delete=models.PROTECT, related_name="+")
     quantity = models.CharField(max_length=40, choices=QUANTITY_CHOICES)
     unit = models.CharField(max_length=16)
-    limit_text = models.CharField(max_length=80, blank=True)
+    limit_text = models.CharField(max_length=160, blank=True)
     reading = models.OneToOneField(
         "logbook.Reading", null=True, blank=True, on_delete=models.PROTECT, related_name="+",
         help_text="The logbook reading recorded on completion.",

@@ -23,7 +23,7 @@ from observatory_ops.archive.history import person
 from observatory_ops.calc import lifting
 from observatory_ops.calc.triggers import DUE, OVERDUE
 from observatory_ops.logbook.models import Reading, ServiceRecord
-from observatory_ops.logbook.quantities import QUANTITIES, value_problem
+from observatory_ops.logbook.quantities import QUANTITIES, reflectance_text, value_problem
 from observatory_ops.logbook.services import limit_passed_before
 from observatory_ops.planning.metrics import READING
 from observatory_ops.planning.models import ServicePlan, part_lines
@@ -483,10 +483,30 @@ def _mirror_lift(subsystems: Sequence[Subsystem], hazards: Sequence[str]) -> dic
 
 def _require_reading(order: WorkOrder, subsystem: Subsystem, quantity: str, limit_text: str) -> None:
     if not order.required_readings.filter(subsystem=subsystem, quantity=quantity).exists():
+        if quantity == "reflectance":
+            limit_text = _with_recoat_line(subsystem, limit_text)
         RequiredReading.objects.create(
             work_order=order, subsystem=subsystem, quantity=quantity, unit=QUANTITIES[quantity][1],
             limit_text=limit_text,
         )
+
+
+def _with_recoat_line(subsystem: Subsystem, limit_text: str) -> str:
+    """A mirror's reflectance row as the order asks for it, with the mirror's recoat line when the order was made
+    (``mirrors.services.mirror_forecast``): the technician who measures after a clean sees on the page and the paper
+    whether the mirror is still above it. In words, so the finish form does not judge it (``RequiredReading
+    .limit_value``): below the line the mirror wants a recoat, not a second look at the figure. Unchanged for a
+    subsystem without a mirror record or a coating, or where the line would not fit the row."""
+    from observatory_ops.mirrors.models import Mirror  # mirrors builds on work orders
+    from observatory_ops.mirrors.services import mirror_forecast
+
+    mirror = Mirror.objects.filter(subsystem=subsystem).first()
+    threshold = mirror_forecast(mirror).threshold if mirror is not None else None
+    if threshold is None:
+        return limit_text
+    line = f"recoat line {reflectance_text(threshold)} (when the order was made)"
+    joined = f"{limit_text}; {line}" if limit_text else line
+    return joined if len(joined) <= RequiredReading._meta.get_field("limit_text").max_length else limit_text
 
 
 def work_order_ad_hoc(
