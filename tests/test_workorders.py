@@ -642,7 +642,8 @@ def test_a_reading_far_beyond_its_limit_is_asked_whether_it_was_typed_in_another
 
 def test_hours_far_above_the_estimate_are_questioned_before_they_are_recorded(order, users, client):
     """A reviewer's 400 h on an order estimated at 3.5 h went straight onto two service records, 200 h each: over
-    forms.HOURS_QUESTION_FACTOR (10) times the estimate, the hours are asked about, as a questioned reading is."""
+    logbook.forms.HOURS_QUESTION_FACTOR (10) times the estimate, the hours are asked about, as a questioned reading
+    is."""
     services.work_order_move(order, "issue", users["engineer"])
     services.work_order_move(order, "start", users["technician"])
     client.force_login(users["technician"])

@@ -4,10 +4,19 @@ from django import forms
 from django.conf import settings
 from django.utils import timezone
 
+from observatory_ops.archive.history import person
 from observatory_ops.planning.models import ServicePlan
 
 from . import nights_csv, services
+from .models import ServiceRecord
 from .quantities import QUANTITIES, QUANTITY_CHOICES, value_problem
+from .selectors import service_already_logged
+
+#: Hours above this many times the estimate are asked about before they are logged (the service form, against its
+#: plan's estimate) or recorded (a work order's finish form, against the order's): more often minutes typed for hours,
+#: or a slip of the keys, than work that ran so long. Our own factor, as the reading form's unit slip
+#: (``UNIT_SLIP_FACTOR``): common practice, no published source.
+HOURS_QUESTION_FACTOR = 10
 
 
 class QuestionedValueMixin:
@@ -28,7 +37,7 @@ class QuestionedValueMixin:
         self.data.pop(self.add_prefix("value_confirmed"), None)
 
 
-class ServiceRecordForm(forms.Form):
+class ServiceRecordForm(QuestionedValueMixin, forms.Form):
     plan = forms.ModelChoiceField(
         queryset=ServicePlan.objects.none(), required=False,
         help_text="The plan this work fulfils; its counting restarts from the date below. Leave empty for ad hoc work.",
@@ -46,11 +55,59 @@ class ServiceRecordForm(forms.Form):
         help_text="A fault fixed without a work order, on the spot or entered afterwards: the reliability page counts "
         "it as a failure on the night before this date, and its hours as corrective.",
     )
+    value_confirmed = forms.BooleanField(
+        required=False, label="Log it as entered",
+        help_text="Asked only for hours far above the plan's estimate, a second service of the plan on one day, or a "
+        "plan with a work order still open.",
+    )
+    questioned = forms.CharField(required=False, widget=forms.HiddenInput)
 
-    def __init__(self, *args, subsystem, **kwargs):
+    def __init__(self, *args, subsystem, by=None, **kwargs):
+        """``by``: the person logging, whose form sent again is said to be logged already (``selectors
+        .service_already_logged``, in the view), not asked about as a second service."""
         super().__init__(*args, **kwargs)
+        self.subsystem, self.by = subsystem, by
         self.site = subsystem.telescope.site
         self.fields["plan"].queryset = subsystem.plans.filter(active=True)
+
+    def clean(self):
+        """Asked about before the record is logged, each beside its field (``QuestionedValueMixin``: kept with the box
+        ticked on the page that asked): hours above ``HOURS_QUESTION_FACTOR`` times the plan's estimate (minutes typed
+        for hours: the reliability page's hours would carry them), a service of the plan already logged that day (a
+        second press, or the same work entered twice), and a plan a work order still to do holds (that order would
+        stay open, and its work be done twice)."""
+        from observatory_ops.workorders.models import State, WorkOrder  # the work orders build on the logbook
+
+        data = super().clean()
+        plan, day, hours = data.get("plan"), data.get("performed_on"), data.get("hours_spent")
+        if plan is None or day is None:
+            return data
+        asked = f"{plan.pk}|{day}|{hours!r}"
+        if self.confirmed_for(asked) or service_already_logged(
+            self.subsystem, self.by, plan, day, data.get("summary", ""), hours, data.get("findings", ""), timezone.now()
+        ):
+            return data
+        keep = 'If it is right, tick "Log it as entered" and save again.'
+        estimate = plan.estimated_hours
+        if hours is not None and estimate and hours > HOURS_QUESTION_FACTOR * estimate:
+            self.add_error("hours_spent", f"{hours:g} h is {hours / estimate:,.0f} times the plan's estimate of "
+                                          f"{estimate:g} h: were minutes typed for hours? {keep}")
+        same_day = (ServiceRecord.objects.filter(plan=plan, performed_on=day, corrected_by__isnull=True, void=False)
+                    .select_related("performed_by").first())
+        if same_day is not None:
+            self.add_error("performed_on", (
+                f"A service of \"{plan.name}\" is already logged on {day:%d %b %Y} ({same_day.summary}, by "
+                f"{person(same_day.performed_by)}): is this a second one? {keep}"))
+        held = list(WorkOrder.objects.filter(items__plan=plan, state__in=(State.DRAFT, State.ISSUED, State.UNDERWAY))
+                    .distinct().order_by("pk"))
+        if held:
+            orders = ", ".join(f"{o.number} ({o.get_state_display()})" for o in held)
+            self.add_error("plan", (
+                f"Work order {orders} is still to do for this plan: log its work by finishing the order. Log it here "
+                f"only for work done outside the order, then withdraw the order on its page. {keep}"))
+        if any(self.has_error(name) for name in ("hours_spent", "performed_on", "plan")):
+            self.ask_again(asked)
+        return data
 
     def clean_performed_on(self):
         performed_on = self.cleaned_data["performed_on"]

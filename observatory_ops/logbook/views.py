@@ -67,7 +67,7 @@ def service_records_csv(request, slug):
 def service_log(request, pk):
     subsystem = get_object_or_404(Subsystem.objects.select_related("telescope__site"), pk=pk)
     site = subsystem.telescope.site
-    form = ServiceRecordForm(request.POST or None, subsystem=subsystem,
+    form = ServiceRecordForm(request.POST or None, subsystem=subsystem, by=request.user,
                              initial={"performed_on": services.site_today(site)})
     # From a plan's "Log service for this plan": the plan chosen, and its name as the summary to start from.
     plan = request.GET.get("plan", "")

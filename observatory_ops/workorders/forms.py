@@ -10,7 +10,7 @@ from django.db.models import Q
 from observatory_ops.access.roles import TECHNICIAN, holders_of
 from observatory_ops.archive.history import person
 from observatory_ops.calc.lifting import DENSITY
-from observatory_ops.logbook.forms import UNIT_SLIP_FACTOR
+from observatory_ops.logbook.forms import HOURS_QUESTION_FACTOR, UNIT_SLIP_FACTOR
 from observatory_ops.logbook.quantities import value_problem
 from observatory_ops.planning.services import site_today
 from observatory_ops.registry.forms import HazardsField
@@ -243,10 +243,6 @@ READINGS_QUESTIONED = (
     "coating, or hours far above the estimate). Correct {it}, or tick \"" + READINGS_CONFIRM + "\" and press Finish "
     "again."
 )
-#: Actual hours above this many times the order's estimate are asked about before they are recorded: more often
-#: minutes typed for hours, or a slip of the keys, than work that ran so long (our own factor, as the reading form's
-#: unit slip: common practice, no published source).
-HOURS_QUESTION_FACTOR = 10
 
 
 class FinishForm(forms.Form):

@@ -1,0 +1,70 @@
+"""The service form asks before it logs what is more often a slip than the truth (logbook.forms.ServiceRecordForm),
+each question beside its field, kept with "Log it as entered" ticked on the page that asked
+(logbook.forms.QuestionedValueMixin). A site engineer's review: 500 h typed for a 1 h brake check went straight onto
+the reliability page's hours, and service logged on a plan whose work order was issued left the order open to be done
+again."""
+from __future__ import annotations
+
+import datetime as dt
+import re
+
+import pytest
+
+from observatory_ops.logbook.models import ServiceRecord
+from observatory_ops.planning.services import site_today
+from observatory_ops.registry.services import subsystem_create
+from observatory_ops.workorders import services as workorders
+
+pytestmark = pytest.mark.django_db
+
+
+@pytest.fixture
+def fans(telescope):
+    return subsystem_create(telescope, "cooling_fans", "Mirror cell fans",
+                            counting_from=site_today(telescope.site) - dt.timedelta(days=200))
+
+
+def _asked(page) -> str:
+    return re.search(r'name="questioned" value="([^"]*)"', page.content.decode()).group(1)
+
+
+def _form(fans, **more) -> dict:
+    plan = fans.plans.first()
+    return {"plan": plan.pk, "performed_on": site_today(fans.telescope.site).isoformat(), "hours_spent": "1",
+            "summary": plan.name, "findings": "", **more}
+
+
+def test_hours_far_above_the_plans_estimate_are_asked_about(fans, users, client):
+    """Over logbook.forms.HOURS_QUESTION_FACTOR (10) times the plan's estimate (our own factor, common practice, no
+    published source)."""
+    plan = fans.plans.first()
+    estimate = plan.estimated_hours
+    url = f"/subsystems/{fans.pk}/service/new/"
+    client.force_login(users["technician"])
+    sent = _form(fans, hours_spent=f"{50 * estimate:g}")
+    page = client.post(url, sent)
+    assert page.status_code == 200 and not ServiceRecord.objects.exists()
+    assert (f"{50 * estimate:g} h is 50 times the plan&#x27;s estimate of {estimate:g} h: were minutes typed for "
+            "hours?") in page.content.decode()
+    assert client.post(url, _form(fans, hours_spent=f"{10 * estimate:g}")).status_code == 302  # not above 10 x
+    ServiceRecord.objects.all().delete()
+    assert client.post(url, {**sent, "value_confirmed": "on", "questioned": _asked(page)}).status_code == 302
+    assert ServiceRecord.objects.get().hours_spent == 50 * estimate
+
+
+def test_a_plan_with_a_work_order_still_to_do_names_the_order_before_its_service_is_logged(fans, users, client):
+    plan = fans.plans.first()
+    order = workorders.work_order_from_due([plan], users["engineer"], site_today(fans.telescope.site))
+    url = f"/subsystems/{fans.pk}/service/new/"
+    client.force_login(users["technician"])
+    page = client.post(url, _form(fans))
+    text = " ".join(page.content.decode().split())
+    assert (f"Work order {order.number} (draft) is still to do for this plan: log its work by finishing the order. "
+            "Log it here only for work done outside the order, then withdraw the order on its page.") in text
+    assert not ServiceRecord.objects.exists()
+    assert client.post(url, {**_form(fans), "value_confirmed": "on", "questioned": _asked(page)}).status_code == 302
+    assert ServiceRecord.objects.count() == 1
+    # Ad hoc work (no plan) and a plan whose order is finished or withdrawn are not asked about.
+    workorders.work_order_move(order, "withdraw", users["engineer"], reason="done outside the order")
+    ServiceRecord.objects.all().delete()
+    assert client.post(url, _form(fans)).status_code == 302
