@@ -91,3 +91,40 @@ def test_work_on_another_telescope_or_finished_work_asks_nothing(order, telescop
     telescope.site.save()
     drive_order = WorkOrder.objects.get(pk=drive_order.pk)
     assert [a.order.pk for a in selectors.work_alongside(drive_order)] == [elsewhere.pk]
+
+
+def _tick_through(order, users, last: int) -> None:
+    """Tick an order underway in its sequence: its isolation points, then steps 0 to ``last``."""
+    for point in selectors.isolation_points(order):
+        services.checklist_tick_set(order, "point", point.pk, True, users["technician"])
+    for step in range(last + 1):
+        services.checklist_tick_set(order, "step", step, True, users["technician"])
+
+
+def test_nothing_after_a_release_is_ticked_while_another_crew_is_still_locked_out(order, fans_order, users):  # noqa: F811
+    """A technician's review: with the mirror-cell crew locked out on T70, the other order on the same telescope took
+    ticks for removing its locks, restoring the brake air and the supply, and handing the observatory back to robotic
+    control. Each crew removes its own locks (OSHA 29 CFR 1910.147(e)(3), (f)(3)); what follows a release waits until
+    the other crew's locks are recorded as off too (common practice, no published source)."""
+    services.work_order_move(fans_order, "start", users["technician"])
+    drive_order = _issued(order, users)
+    services.work_order_move(drive_order, "start", users["technician"])
+    fans_order, drive_order = (WorkOrder.objects.get(pk=o.pk) for o in (fans_order, drive_order))
+    fans_lockout, fans_locked = services.isolated_steps(fans_order.step_list)
+    _tick_through(fans_order, users, fans_lockout)  # the fans crew locked out, its release not ticked
+    drive_lockout, drive_locked = services.isolated_steps(drive_order.step_list)
+    release = drive_locked.stop
+    assert release < len(drive_order.step_list) - 1  # steps under power follow the release
+    _tick_through(drive_order, users, release)  # its own locks off: free
+    with pytest.raises(services.Refused) as refused:
+        services.checklist_tick_set(drive_order, "step", release + 1, True, users["technician"])
+    assert str(refused.value) == (
+        f"step {release + 2} is done after the locks come off, and another crew is still locked out on this "
+        f"telescope: {fans_order.number} {fans_order.title} (on T1), its lockout ticked and the removal of its locks "
+        "not. Agree with that crew; tick this once they have removed their locks and ticked that on their order, "
+        "with everyone clear")
+    # Once the fans crew ticks its own release, the drive order goes on.
+    for step in range(fans_lockout + 1, fans_locked.stop + 1):
+        services.checklist_tick_set(fans_order, "step", step, True, users["technician"])
+    services.checklist_tick_set(drive_order, "step", release + 1, True, users["technician"])
+    assert services.still_locked_out(drive_order) == []

@@ -88,6 +88,7 @@ from .selectors import (
     register_part,
     second_person_refusal,
     unticked_lines,
+    work_alongside,
 )
 
 #: The longest name the finish form takes for one of the crew (names are separated by commas).
@@ -1003,9 +1004,53 @@ def checklist_tick_set(
             raise Refused(f"{what} is {'already ticked' if ticked else 'not ticked'}")
         if refusal := _lockout_sequence_refusal(current, entry.line, ticked, what, ticks):
             raise Refused(refusal)
+        if ticked and kind == ChecklistTick.Kind.STEP and (refusal := _others_locked_out_refusal(current, key)):
+            raise Refused(refusal)
         entry._history_user = by
         entry.save()
     return entry
+
+
+def still_locked_out(order: WorkOrder) -> list:
+    """The other orders underway on a telescope ``order`` works on (``selectors.work_alongside``) whose crews are still
+    locked out: their lockout step is ticked and the step that removes their locks is not (an order without one,
+    whose locked-out work runs to its end, counts as locked out until it is finished: ``isolated_steps``)."""
+    held = []
+    for other in work_alongside(order):
+        if not other.lockout_ticked:
+            continue
+        steps = other.order.step_list
+        found = isolated_steps(steps)
+        release = found[1].stop if found else len(steps)
+        tick = latest_ticks(other.order).get((ChecklistTick.Kind.STEP, release)) if release < len(steps) else None
+        if not (tick and tick.ticked and tick.text == steps[release]):
+            held.append(other)
+    return held
+
+
+def _others_locked_out_refusal(order: WorkOrder, key: int) -> str:
+    """Why step ``key`` of ``order``, a step after its release (restoring brake air or power, a test under power, the
+    return to service or to robotic control), may not be ticked yet: another crew on the telescope is still locked out
+    (``still_locked_out``). Their locks keep the energy they isolated off, but the steps after a release take it for
+    granted that nobody is in the telescope's swept volume or at the isolated equipment, and the return to robotic
+    control hands the telescope to remote users. Removing one's own locks stays free: each person removes their own
+    (OSHA 29 CFR 1910.147(e)(3) and (f)(3), group lockout); waiting for the other crew is common practice, no
+    published source. "" when nothing holds it."""
+    steps = order.step_list
+    found = isolated_steps(steps)
+    if found is None or key <= found[1].stop or found[1].stop >= len(steps):
+        return ""
+    held = still_locked_out(order)
+    if not held:
+        return ""
+    named = "; ".join(f"{a.order.number} {a.order.title} (on {', '.join(a.telescopes)})" for a in held)
+    one = len(held) == 1
+    return (
+        f"step {key + 1} is done after the locks come off, and {'another crew is' if one else 'other crews are'} still "
+        f"locked out on this telescope: {named}, {'its' if one else 'their'} lockout ticked and the removal of "
+        f"{'its' if one else 'their'} locks not. Agree with {'that crew' if one else 'those crews'}; tick this once "
+        "they have removed their locks and ticked that on their order, with everyone clear"
+    )
 
 
 def _lockout_sequence_refusal(order: WorkOrder, line: tuple, ticked: bool, what: str, ticks: dict) -> str:
