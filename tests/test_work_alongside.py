@@ -93,12 +93,12 @@ def test_work_on_another_telescope_or_finished_work_asks_nothing(order, telescop
     assert [a.order.pk for a in selectors.work_alongside(drive_order)] == [elsewhere.pk]
 
 
-def _tick_through(order, users, last: int) -> None:
+def _tick_through(underway, users, last: int) -> None:
     """Tick an order underway in its sequence: its isolation points, then steps 0 to ``last``."""
-    for point in selectors.isolation_points(order):
-        services.checklist_tick_set(order, "point", point.pk, True, users["technician"])
+    for point in selectors.isolation_points(underway):
+        services.checklist_tick_set(underway, "point", point.pk, True, users["technician"])
     for step in range(last + 1):
-        services.checklist_tick_set(order, "step", step, True, users["technician"])
+        services.checklist_tick_set(underway, "step", step, True, users["technician"])
 
 
 def test_nothing_after_a_release_is_ticked_while_another_crew_is_still_locked_out(order, fans_order, users):  # noqa: F811

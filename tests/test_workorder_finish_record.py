@@ -122,10 +122,13 @@ def test_the_energy_not_isolated_is_kept_and_shown_on_the_page_and_the_paper(ord
     assert "Your answer for the energy isolation nobody ticked is on the record." in _message(response)
     order.refresh_from_db()
     assert order.isolation_confirmed_at_finish == NOT_ISOLATED
+    release = services.isolated_steps(order.step_list)[1].stop
     assert order.isolation_unticked_at_finish == [
         f"Isolation point: {IsolationPoint.objects.get().description}", f"Step {lockout + 1}: {services.LOCKOUT_STEP}",
+        f"Step {release + 1}: {order.step_list[release]}",  # the lock removal is answered for with them
     ]
     assert services.LOCKOUT_STEP not in " ".join(order.unticked_at_finish)  # not among the lines of the other box
+    assert "remove the locks" not in " ".join(order.unticked_at_finish)
     said = ("Finished with the energy isolation not ticked; technician confirmed, apart from the other lines: "
             + ISOLATION_UNTICKED[NOT_ISOLATED])
     client.force_login(users["engineer"])  # who countersigns reads it
@@ -212,7 +215,7 @@ def test_a_finished_papers_ticks_are_printed_once_beside_their_lines(order, user
     _started(order, users)
     point = IsolationPoint.objects.get()
     services.checklist_tick_set(order, "point", point.pk, True, users["technician"])
-    for index in range(order.step_list.index(services.LOCKOUT_STEP) + 1):
+    for index in range(services.isolated_steps(order.step_list)[1].stop + 1):  # up to the lock removal
         services.checklist_tick_set(order, "step", index, True, users["technician"])
     services.work_order_finish(order, users["technician"], 1.0, "", _all_readings(order, 0.6),
                                confirmed_unticked=_unticked(order))  # the isolation ticked: no answer asked
@@ -430,3 +433,26 @@ def test_countersigning_work_finished_without_isolation_shows_the_answer_and_the
     assert "Before you countersign" in page and ISOLATION_REVIEW[NOT_NEEDED] in page and why in page
     response = client.post(f"/workorders/{order.pk}/move/countersign/", {"asked": "confirmed"})
     assert response.status_code == 302 and WorkOrder.objects.get(pk=order.pk).state == State.COUNTERSIGNED
+
+
+def test_a_lock_removal_nobody_ticked_is_answered_for_with_the_isolation_not_as_did_not_apply(order, users):  # noqa: F811
+    """A technician's review: with the lockout ticked and "remove the locks and tags" not, one box ("the unticked lines
+    were done or did not apply") finished the order, and the paper printed "did not apply" beside the lock removal.
+    The lock removal now joins the lines of the energy isolation (selectors.isolation_lines), whose "isolated" answer
+    says the locks came off only after the work (cautions.ISOLATION_UNTICKED)."""
+    _started(order, users)
+    services.checklist_tick_set(order, "point", IsolationPoint.objects.get().pk, True, users["technician"])
+    lockout, locked = services.isolated_steps(order.step_list)
+    for index in range(locked.stop):  # everything up to the lock removal, not it
+        services.checklist_tick_set(order, "step", index, True, users["technician"])
+    release = order.step_list[locked.stop]
+    with pytest.raises(services.Refused, match=re.escape(f"the energy isolation is not ticked (step {locked.stop + 1} "
+                                                         f"({release}))")):
+        services.work_order_finish(order, users["technician"], 1.0, "ok", _all_readings(order, 0.6),
+                                   confirmed_unticked=_unticked(order))
+    _nothing_stored(order)
+    services.work_order_finish(order, users["technician"], 1.0, "Locks off, ticked on paper.",
+                               _all_readings(order, 0.6), **_confirmed(order))
+    order.refresh_from_db()
+    assert order.isolation_unticked_at_finish == [f"Step {locked.stop + 1}: {release}"]
+    assert order.isolation_confirmed_at_finish == "isolated"

@@ -132,9 +132,9 @@ class WorkOrder(models.Model):
     )
     isolation_unticked_at_finish = models.JSONField(
         default=list, blank=True,
-        help_text="The lockout step and isolation points nobody ticked when the work was finished; the person "
-                  "finishing answered for them on their own (isolation_confirmed_at_finish), not with the other "
-                  "unticked lines, and the findings say why.",
+        help_text="The lockout step, isolation points and lock removal nobody ticked when the work was finished; the "
+                  "person finishing answered for them on their own (isolation_confirmed_at_finish), not with the "
+                  "other unticked lines, and the findings say why.",
     )
     isolation_confirmed_at_finish = models.CharField(
         max_length=16, blank=True,

@@ -769,9 +769,12 @@ def unticked_lines(order: WorkOrder) -> list[ChecklistLine]:
 
 
 def isolation_lines(lines: Sequence[ChecklistLine]) -> list[ChecklistLine]:
-    """Of ``lines``, those of the energy isolation: the isolation points and the lockout step. Not ticked when the
-    work is finished, they are answered for on their own (``cautions.ISOLATION_UNTICKED``), not with the others."""
-    return [line for line in lines if line.kind == POINT or is_lockout_step(line.text)]
+    """Of ``lines``, those of the energy isolation: the isolation points, the lockout step and the step that removes
+    the locks. Not ticked when the work is finished, they are answered for on their own
+    (``cautions.ISOLATION_UNTICKED``: "isolated" says the locks came off only after the work), not with the others,
+    which may be confirmed as "did not apply": a reviewer finished an order with its lock removal unticked that way."""
+    return [line for line in lines
+            if line.kind == POINT or is_lockout_step(line.text) or catalogue.is_release_step(line.text)]
 
 
 def finished_line_notes(order: WorkOrder, lines: Sequence[ChecklistLine]) -> list[str]:
