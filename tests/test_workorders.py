@@ -657,6 +657,22 @@ def test_hours_far_above_the_estimate_are_questioned_before_they_are_recorded(or
     assert _state(order) == State.FINISHED
 
 
+def test_no_hours_at_all_for_work_estimated_to_take_time_are_questioned_too(order, users, client):
+    """A technician's review: 0 h on an order estimated at 0.5 h finished at once, and the reliability page counted the
+    work as taking no time."""
+    services.work_order_move(order, "issue", users["engineer"])
+    services.work_order_move(order, "start", users["technician"])
+    client.force_login(users["technician"])
+    data = {**_finish_post(order, 0.5), "actual_hours": "0"}
+    first = html.unescape(client.post(f"/workorders/{order.pk}/finish/", data).content.decode())
+    assert (f"0 h for work estimated at {order.estimated_hours:g} h: was no time spent on it at all? Enter everyone's "
+            "hours added up. Not recorded yet") in first
+    assert _state(order) == State.UNDERWAY and not ServiceRecord.objects.exists()
+    flagged = re.findall(r'name="flagged" value="([^"]+)"', first)
+    client.post(f"/workorders/{order.pk}/finish/", {**data, "flagged": flagged, "readings_confirmed": "on"})
+    assert _state(order) == State.FINISHED and ServiceRecord.objects.get().hours_spent == 0
+
+
 def test_an_orders_hours_corrected_in_the_logbook_show_on_its_page_and_paper_and_keep_their_orders_type(
     order, users, client, site
 ):

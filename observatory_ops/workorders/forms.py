@@ -490,10 +490,14 @@ class FinishForm(forms.Form):
         return said
 
     def hours_questioned(self) -> dict[str, str]:
-        """The actual hours beside their field when above ``HOURS_QUESTION_FACTOR`` times the estimate (valid forms
-        only): shown once, as a questioned reading is, before they are recorded and shared among the service
-        records."""
+        """The actual hours beside their field when above ``HOURS_QUESTION_FACTOR`` times the estimate, or 0 for an
+        order estimated to take time (an empty field filled with 0 to get past it: the reliability page would count
+        the work as taking none); valid forms only: shown once, as a questioned reading is, before they are recorded
+        and shared among the service records."""
         hours, estimate = self.cleaned_data["actual_hours"], self._order.estimated_hours
+        if hours == 0 and estimate:
+            return {"actual_hours": (f"0 h for work estimated at {estimate:g} h: was no time spent on it at all? Enter "
+                                     f"everyone's hours added up. {NOT_RECORDED_YET}")}
         if not estimate or hours <= HOURS_QUESTION_FACTOR * estimate:
             return {}
         return {"actual_hours": (f"{hours:g} h is {hours / estimate:,.0f} times the estimate of {estimate:g} h: were "
