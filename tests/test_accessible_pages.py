@@ -291,3 +291,15 @@ def test_the_recoat_calendar_has_each_nights_figures_in_a_table_as_in_its_toolti
         assert crew == ("does not work on Saturdays" if night.startswith("Sat") else
                         "does not work on Sundays" if night.startswith("Sun") else "working day")
     assert sum(row[0].endswith("cheapest window") for row in rows) >= 1
+
+
+def test_a_technician_sent_to_the_admin_is_told_why_not_shown_a_sign_in_form(users, client):
+    """A technician's review: /admin/ sent them to a bare sign-in form while the header still named them."""
+    from observatory_ops.access.login import ADMIN_NOT_ALLOWED
+
+    client.force_login(users["technician"])
+    response = client.get("/admin/", follow=True)
+    assert response.status_code == 403 and ADMIN_NOT_ALLOWED in response.content.decode()
+    assert 'name="password"' not in response.content.decode()
+    client.logout()
+    assert 'name="password"' in client.get("/admin/", follow=True).content.decode()  # signed out: the form

@@ -33,6 +33,7 @@ import logging
 from django.conf import settings
 from django.contrib.auth.views import LoginView
 from django.core.cache import cache
+from django.shortcuts import render
 
 log = logging.getLogger(__name__)
 
@@ -83,7 +84,21 @@ def _cache_failed(what: str, exc: Exception) -> None:
                 what, type(exc).__name__, exc)
 
 
+#: What a signed-in person whose account cannot open the admin is told there, in place of a sign-in form that
+#: reads as if they had been signed out (a technician's review): Django's admin sends them to sign in again.
+ADMIN_NOT_ALLOWED = (
+    "The admin pages (the register, service plans, isolation points, parts and people) are for engineers and "
+    "administrators whose accounts have staff status. Yours does not: an administrator of the site can give it "
+    "another role."
+)
+
+
 class LimitedLoginView(LoginView):
+    def get(self, request, *args, **kwargs):
+        if request.user.is_authenticated and self.get_redirect_url().startswith("/admin/"):
+            return render(request, "403.html", {"reason": ADMIN_NOT_ALLOWED}, status=403)
+        return super().get(request, *args, **kwargs)
+
     def post(self, request, *args, **kwargs):
         pair_key, address_key = self._keys = _keys(request)
         try:
