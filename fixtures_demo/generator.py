@@ -286,7 +286,9 @@ def _workshop(site: Site, telescopes) -> None:
             [
                 IsolationPoint(
                     telescope=telescope, energy=IsolationPoint.Energy.AC, label=f"{telescope.name} mount isolator",
-                    location="pier cabinet, left door", verify="mount controller display stays dark when switched on",
+                    location="pier cabinet, left door",
+                    verify=("voltage tester, proved before and after, reads no voltage at the pier cabinet's "
+                            "outgoing terminals; the mount controller stays dark when switched on"),
                 ),
                 IsolationPoint(
                     telescope=telescope, energy=IsolationPoint.Energy.SERVO,
