@@ -156,9 +156,10 @@ def test_the_reading_form_refuses_a_date_far_back_with_the_message_and_stores_no
     })
     assert response.status_code == 200
     earliest = earliest_accepted(site_today(drive.telescope.site))
-    assert f"reading date 1990-06-01 is more than 15 years ago; the earliest accepted is {earliest}" in (
+    assert f"Taken at: reading date 1990-06-01 is more than 15 years ago; the earliest accepted is {earliest}." in (
         response.content.decode()
     )
+    assert response.context["form"].errors["taken_at"]  # beside its field, not above the form
     assert not Reading.objects.exists()
 
 
@@ -290,3 +291,19 @@ def test_the_box_keeps_only_the_value_it_was_ticked_for(telescope, users, client
     asked = re.search(r'name="questioned" value="([^"]*)"', page.content.decode()).group(1)
     assert client.post(url, {**form, "value": "80", "value_confirmed": "on", "questioned": asked}).status_code == 302
     assert list(Reading.objects.values_list("value", flat=True)) == [80.0]
+
+
+def test_a_correction_dated_in_the_future_is_refused_beside_its_field_in_a_sentence(client, drive, users):
+    """A site engineer's review: the correction form said "the service date cannot be in the future" above the form,
+    in lower case, where the service form says it beside "Performed on" as a sentence."""
+    from observatory_ops.logbook.models import ServiceRecord
+    from observatory_ops.logbook.services import service_record_log
+
+    record = service_record_log(drive, None, site_today(drive.telescope.site), users["technician"], "Checked")
+    client.force_login(users["engineer"])
+    response = client.post(f"/service/{record.pk}/correct/", {
+        "performed_on": (site_today(drive.telescope.site) + dt.timedelta(days=3)).isoformat(), "summary": "Checked",
+    })
+    assert response.status_code == 200
+    assert response.context["form"].errors["performed_on"] == ["The service date cannot be in the future."]
+    assert ServiceRecord.objects.count() == 1

@@ -126,6 +126,20 @@ class CorrectionForm(forms.Form):
     findings = forms.CharField(widget=forms.Textarea, required=False, max_length=10000)
     void = forms.BooleanField(required=False, label="Withdraw the original record (it was logged in error)")
 
+    def __init__(self, *args, original=None, **kwargs):
+        """``original``: the record corrected, whose new date is held to a new record's bounds, said beside the field
+        (``services.service_record_correct`` refuses it too)."""
+        super().__init__(*args, **kwargs)
+        self.original = original
+
+    def clean_performed_on(self):
+        performed_on = self.cleaned_data["performed_on"]
+        if self.original is not None and performed_on != self.original.performed_on:
+            problem = services.service_date_problem(self.original.subsystem.telescope.site, performed_on)
+            if problem:
+                raise forms.ValidationError(problem[0].upper() + problem[1:] + ".")
+        return performed_on
+
 
 #: A reading more than this many times the limit its plan watches it rise to is asked about before it is logged: a
 #: value typed in milliseconds for seconds is 1,000 times too large, a slipped decimal point 10 times; a reading that
@@ -152,13 +166,15 @@ class ReadingForm(QuestionedValueMixin, forms.Form):
     )
     questioned = forms.CharField(required=False, widget=forms.HiddenInput)
 
-    def __init__(self, *args, watched=(), kind_label="", limits=None, mirror=None, **kwargs):
+    def __init__(self, *args, watched=(), kind_label="", limits=None, mirror=None, site=None, **kwargs):
         """``watched``: the quantities the subsystem's plans watch or ask for and its kind's usual ones, offered
         first (any other can still be chosen, under "Other quantities"). With none, the field says that nothing is
         usually measured on a subsystem of its kind (``kind_label``) above the list of every quantity. ``limits``:
         the limits its plans' readings rise to, by quantity (``planning.selectors.reading_limits``). ``mirror``: the
-        subsystem's mirror record, whose decline fit a reflectance reading joins (asked about above fresh)."""
+        subsystem's mirror record, whose decline fit a reflectance reading joins (asked about above fresh). ``site``:
+        the subsystem's, whose bounds on a reading's date (``services.date_problem``) are said beside "Taken at"."""
         super().__init__(*args, **kwargs)
+        self.site = site
         self.limits = limits or {}
         self.mirror = mirror
         self.fields["taken_at"].initial = timezone.localtime().strftime("%Y-%m-%dT%H:%M")
@@ -181,6 +197,9 @@ class ReadingForm(QuestionedValueMixin, forms.Form):
                 f"Taken at: {timezone.localtime(taken_at):%d %b %Y %H:%M} is in the future (it is {now:%d %b %Y %H:%M} "
                 "at the site): enter when the reading was taken."
             )
+        if self.site is not None and (problem := services.date_problem(self.site, timezone.localtime(taken_at).date(),
+                                                                       "reading date")):
+            raise forms.ValidationError(f"Taken at: {problem}.")
         return taken_at
 
     def clean(self):

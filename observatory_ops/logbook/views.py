@@ -107,7 +107,7 @@ def service_correct(request, pk):
         "performed_on": original.performed_on, "hours_spent": original.hours_spent,
         "summary": original.summary, "findings": original.findings,
     }
-    form = CorrectionForm(request.POST or None, initial=initial)
+    form = CorrectionForm(request.POST or None, initial=initial, original=original)
     if request.method == "POST" and form.is_valid():
         data = form.cleaned_data
         try:
@@ -130,7 +130,8 @@ def reading_log(request, pk):
     with timezone.override(site.zone):  # the form's times are the site's local times
         usual = selectors.watched_quantities(subsystem) | usual_for_kind(subsystem.kind)
         form = ReadingForm(request.POST or None, watched=usual, kind_label=subsystem.get_kind_display(),
-                           limits=selectors.reading_limits(subsystem), mirror=getattr(subsystem, "mirror", None))
+                           limits=selectors.reading_limits(subsystem), mirror=getattr(subsystem, "mirror", None),
+                           site=site)
         if request.method == "POST" and form.is_valid():
             data = form.cleaned_data
             if reading_already_logged(subsystem, request.user, data["quantity"], data["value"], data["taken_at"],
