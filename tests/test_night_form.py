@@ -81,3 +81,11 @@ def test_a_new_night_form_starts_at_the_night_most_recently_begun(client, site, 
 
     page = client.get(f"/sites/{site.slug}/nights/new/").content.decode()
     assert f'value="{latest_night(site).isoformat()}"' in page
+
+
+def test_a_figure_refused_beside_its_field_is_named_by_the_fields_label_not_the_columns(client, site, technician):
+    """A site engineer's review: "open_hours cannot be below 0" under "Hours the dome was open"."""
+    night = (site_today(site) - dt.timedelta(days=1)).isoformat()
+    response = client.post(f"/sites/{site.slug}/nights/new/", {"night": night, "open_hours": "-1"})
+    label = response.context["form"].fields["open_hours"].label
+    assert response.context["form"].errors["open_hours"] == [f"{label} cannot be below 0 (got -1)"]

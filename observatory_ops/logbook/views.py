@@ -291,7 +291,14 @@ def night_log(request, slug):
             site, [form.record()], source=NightUsage.Source.FORM, by=request.user, reason="typed in on the log page"
         )
         for problem in report.errors:
-            form.add_error(problem.field if problem.field in form.fields else None, problem.reason)
+            if problem.field not in form.fields:
+                form.add_error(None, problem.reason)
+                continue
+            # The format's rules name a column ("open_hours cannot be below 0"); beside its field, the field's label.
+            reason = problem.reason
+            if reason.startswith(f"{problem.field} "):
+                reason = form.fields[problem.field].label + reason[len(problem.field):]
+            form.add_error(problem.field, reason)
         if not report.errors:  # the summary names whose night it is wherever that could be mistaken
             messages.success(request, f"Night {form.cleaned_data['night']}: {report.summary}")
             return redirect("nights-list", slug=site.slug)
