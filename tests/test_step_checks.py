@@ -741,10 +741,11 @@ def test_the_finish_page_lists_the_unticked_lines_the_energy_isolation_apart_and
         return re.findall(r"<li>(Isolation point|Step \d+): ", page.split(opening)[1].split("</ul>")[0])
 
     lockout = underway.step_list.index(services.LOCKOUT_STEP) + 1
+    release = services.isolated_steps(underway.step_list)[1].stop + 1  # the lock removal, answered with them
     assert page.index('<ul class="unticked isolation">') < page.index('<ul class="unticked">')
-    assert listed('<ul class="unticked isolation">') == ["Isolation point", f"Step {lockout}"]
+    assert listed('<ul class="unticked isolation">') == ["Isolation point", f"Step {lockout}", f"Step {release}"]
     assert listed('<ul class="unticked">') == [
-        f"Step {n}" for n in range(2, len(underway.step_list) + 1) if n != lockout
+        f"Step {n}" for n in range(2, len(underway.step_list) + 1) if n not in (lockout, release)
     ]
     assert "I confirm the other unticked lines were done or did not apply" in page
 
@@ -753,10 +754,12 @@ def test_finishing_with_unticked_lines_needs_the_confirmation_and_the_record_kee
     services.checklist_tick_set(underway, POINT, _point(underway).pk, True, users["technician"])
     lockout = underway.step_list.index(services.LOCKOUT_STEP)
     services.checklist_tick_set(underway, STEP, lockout, True, users["technician"])
+    release = services.isolated_steps(underway.step_list)[1].stop
+    services.checklist_tick_set(underway, STEP, release, True, users["technician"])
     client.force_login(users["technician"])
     open_steps = [line.text for line in selectors.unticked_lines(underway)]
-    # The point and the lockout are ticked, no other step is: no question on the energy isolation.
-    assert open_steps == [step for index, step in enumerate(underway.step_list) if index != lockout]
+    # The point, the lockout and the lock removal are ticked, no other step is: no question on the energy isolation.
+    assert open_steps == [step for index, step in enumerate(underway.step_list) if index not in (lockout, release)]
     assert 'name="isolation_answer"' not in client.get(f"/workorders/{underway.pk}/finish/").content.decode()
 
     page = client.post(f"/workorders/{underway.pk}/finish/", _finish_form(underway, unticked=open_steps))
@@ -768,7 +771,7 @@ def test_finishing_with_unticked_lines_needs_the_confirmation_and_the_record_kee
     underway.refresh_from_db()
     assert underway.state == State.FINISHED
     assert underway.unticked_at_finish == [
-        f"Step {n}: {text}" for n, text in enumerate(underway.step_list, start=1) if n != lockout + 1
+        f"Step {n}: {text}" for n, text in enumerate(underway.step_list, start=1) if n not in (lockout + 1, release + 1)
     ]
     assert underway.isolation_unticked_at_finish == [] and underway.isolation_confirmed_at_finish == ""
     assert len(open_steps) > 1
