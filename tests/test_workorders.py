@@ -640,37 +640,28 @@ def test_a_reading_far_beyond_its_limit_is_asked_whether_it_was_typed_in_another
     assert _state(order) == State.UNDERWAY
 
 
-def test_hours_far_above_the_estimate_are_questioned_before_they_are_recorded(order, users, client):
-    """A reviewer's 400 h on an order estimated at 3.5 h went straight onto two service records, 200 h each: over
-    logbook.forms.HOURS_QUESTION_FACTOR (10) times the estimate, the hours are asked about, as a questioned reading
-    is."""
+@pytest.mark.parametrize("factor, question", [
+    # A reviewer's 400 h on an order estimated at 3.5 h went straight onto two service records, 200 h each: over
+    # logbook.forms.HOURS_QUESTION_FACTOR (10) times the estimate, the hours are asked about, as a questioned reading
+    # is.
+    (11, "{hours:g} h is 11 times the estimate of {estimate:g} h: were minutes typed for hours?"),
+    # A technician's review: 0 h on an order estimated at 0.5 h finished at once, and the reliability page counted the
+    # work as taking no time.
+    (0, "0 h for work estimated at {estimate:g} h: was no time spent on it at all? Enter everyone's hours added up."),
+])
+def test_hours_far_above_the_estimate_or_none_are_questioned_before_they_are_recorded(order, users, client, factor,
+                                                                                     question):
     services.work_order_move(order, "issue", users["engineer"])
     services.work_order_move(order, "start", users["technician"])
     client.force_login(users["technician"])
-    data = {**_finish_post(order, 0.5), "actual_hours": str(order.estimated_hours * 11)}
+    hours = order.estimated_hours * factor
+    data = {**_finish_post(order, 0.5), "actual_hours": f"{hours:g}"}
     first = html.unescape(client.post(f"/workorders/{order.pk}/finish/", data).content.decode())
-    assert (f"{order.estimated_hours * 11:g} h is 11 times the estimate of {order.estimated_hours:g} h: were minutes "
-            "typed for hours? Not recorded yet") in first
+    assert question.format(hours=hours, estimate=order.estimated_hours) + " Not recorded yet" in first
     assert _state(order) == State.UNDERWAY and not ServiceRecord.objects.exists()
     flagged = re.findall(r'name="flagged" value="([^"]+)"', first)
     client.post(f"/workorders/{order.pk}/finish/", {**data, "flagged": flagged, "readings_confirmed": "on"})
-    assert _state(order) == State.FINISHED
-
-
-def test_no_hours_at_all_for_work_estimated_to_take_time_are_questioned_too(order, users, client):
-    """A technician's review: 0 h on an order estimated at 0.5 h finished at once, and the reliability page counted the
-    work as taking no time."""
-    services.work_order_move(order, "issue", users["engineer"])
-    services.work_order_move(order, "start", users["technician"])
-    client.force_login(users["technician"])
-    data = {**_finish_post(order, 0.5), "actual_hours": "0"}
-    first = html.unescape(client.post(f"/workorders/{order.pk}/finish/", data).content.decode())
-    assert (f"0 h for work estimated at {order.estimated_hours:g} h: was no time spent on it at all? Enter everyone's "
-            "hours added up. Not recorded yet") in first
-    assert _state(order) == State.UNDERWAY and not ServiceRecord.objects.exists()
-    flagged = re.findall(r'name="flagged" value="([^"]+)"', first)
-    client.post(f"/workorders/{order.pk}/finish/", {**data, "flagged": flagged, "readings_confirmed": "on"})
-    assert _state(order) == State.FINISHED and ServiceRecord.objects.get().hours_spent == 0
+    assert _state(order) == State.FINISHED and ServiceRecord.objects.get().hours_spent == hours
 
 
 def test_an_orders_hours_corrected_in_the_logbook_show_on_its_page_and_paper_and_keep_their_orders_type(
