@@ -356,6 +356,26 @@ WORK_STOPPED_PART_WAY = (
 )
 
 
+#: An order over several plans whose steps before the lockout prepare the telescope for more than one plan's work in
+#: its own way (workorders.selectors.prepared_apart): one lockout covers all their work, so the position the last of
+#: them leaves may not suit the first plan's work (a reviewer's primary and secondary cleaning: the primary's cover
+#: opened, then closed again and the tube pointed for the secondary, before one lockout). Nothing is moved under the
+#: locks (OSHA 29 CFR 1910.147(d): the equipment isolated before the work); the rest common practice, no published
+#: source. Said on the page and the paper (a standing note) and asked before the order is issued.
+PREPARED_APART_NOTE = (
+    "The steps before the lockout prepare the telescope for the work of {n} plans ({plans}), each its own way, and "
+    "one lockout covers all their work. If the position the telescope or a cover is left in does not suit a plan's "
+    "work, stop: never move the telescope or a cover under the locks. Ask the site engineer, who splits the order or "
+    "edits its steps (a release, that plan's preparation and a new lockout before its work)."
+)
+PREPARED_APART_QUESTION = (
+    "{number} merges the work of {n} plans under one lockout, and each prepares the telescope its own way before it "
+    "(steps {steps}). Can every plan's work be done with the telescope and its covers as the last of those steps "
+    "leave them? If not, edit the steps (a release, the preparation and a new lockout before that plan's work) or make "
+    "one order for each plan. Issue as written?"
+)
+
+
 def hazards_missing_notice(hazards: Iterable[str], lockout_step_missing: bool) -> str:
     """What an order made without ``hazards`` (hazard codes) lacks, naming them as the cautions do, and the
     lockout step when its steps lack the one those hazards call for."""

@@ -57,6 +57,7 @@ from .cautions import (
     LIFT_TOO_FLAT,
     LOCKOUT_STEP_MISSING,
     PRECEDENCE_STATEMENT,
+    PREPARED_APART_NOTE,
     SEVERITY_LABELS,
     TELESCOPE_OUT,
     TELESCOPE_OUT_TITLE,
@@ -205,11 +206,31 @@ def standing_notes(order: WorkOrder) -> tuple[str, ...]:
     (migration ``workorders.0013``), so it may read twice on an old order underway."""
     if order.state not in TO_DO:
         return ()
+    notes = []
+    if len(plans := prepared_apart(order)) > 1:
+        notes.append(PREPARED_APART_NOTE.format(n=len(plans), plans="; ".join(plans)))
     if order.recoat_phase in _MAY_PAUSE_PART_WAY or (
         not order.recoat_phase and order.items.filter(plan__triggers__metric=RECOAT_LINE).exists()
     ):
-        return (WORK_STOPPED_PART_WAY,)
-    return ()
+        notes.append(WORK_STOPPED_PART_WAY)
+    return tuple(notes)
+
+
+def prepared_apart(order: WorkOrder) -> dict[str, list[int]]:
+    """The plans whose steps before the lockout prepare the telescope their own way, on an order over several plans:
+    plan label -> the positions (from 1) of its steps there, for each plan with more than one labelled step before
+    the lockout step (the one every plan has is its first, reading the subsystem's records). Read from the steps'
+    "[plan label] " prefixes (``services._labelled``) and the lockout step, never from other wording; empty without a
+    lockout or with the steps of one plan."""
+    steps = order.step_list
+    lockout = next((i for i, step in enumerate(steps) if is_lockout_step(step)), None)
+    if lockout is None:
+        return {}
+    by_plan: dict[str, list[int]] = {}
+    for index, step in enumerate(steps[:lockout]):
+        if step.startswith("[") and "] " in step:
+            by_plan.setdefault(step[1:step.index("] ")], []).append(index + 1)
+    return {label: places for label, places in by_plan.items() if len(places) > 1}
 
 
 def parts_low_or_short(site: Site) -> list[OpenPlanned]:

@@ -29,7 +29,9 @@ from .cautions import (
     ISOLATION_UNTICKED_TITLE,
     PARTS_UNREGISTERED,
     PRECEDENCE_STATEMENT,
+    PREPARED_APART_QUESTION,
     cautions_for,
+    in_words,
     needs_isolation,
 )
 from .forms import (
@@ -299,6 +301,15 @@ def work_order_move(request, pk, action):
         if record := _isolation_record(order):
             if record["review"]:
                 return render(request, "workorders/countersign_question.html", {"order": order, "record": record})
+    if action == "issue" and request.POST.get("asked") != "confirmed" and order.state == State.DRAFT:
+        if len(apart := selectors.prepared_apart(order)) > 1:
+            places = sorted(place for found in apart.values() for place in found[1:])  # not the records each reads
+            steps = in_words([str(place) for place in places])
+            return render(request, "workorders/issue_question.html", {
+                "order": order, "question": PREPARED_APART_QUESTION.format(number=order.number, n=len(apart),
+                                                                            steps=steps),
+                "steps": [(place, order.step_list[place - 1]) for place in places],
+            })
     if action == "start" and request.POST.get("asked") != "confirmed":
         if questions := selectors.start_questions(order):
             alongside = selectors.work_alongside(order, starting=True)
