@@ -88,7 +88,7 @@ def test_the_recoat_line_and_the_estimate_read_alike_on_the_subsystem_and_mirror
     subsystem_page = html.unescape(client.get(coated_primary.subsystem.get_absolute_url()).content.decode())
     mirror_page = html.unescape(client.get(coated_primary.get_absolute_url()).content.decode())
     assert f"Reflectance now about {now}, recoat line {line};" in subsystem_page  # the sentence
-    assert f"<td>{now} </td><td>{line} </td>" in subsystem_page  # the trigger table
+    assert f'<td data-label="Now">{now} </td><td data-label="Limit">{line} </td>' in subsystem_page  # the trigger table
     assert f">recoat line {line}</text>" in subsystem_page  # the chart, as the mirror page labels it
     assert f"Estimate now</div><strong>{now}</strong>" in mirror_page
     assert f"Recoat line</div><strong>{line}</strong>" in mirror_page
