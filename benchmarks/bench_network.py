@@ -669,18 +669,30 @@ def ingest_in_workers(sites: list, night: dt.date, workers: int) -> float:
 
 
 def measure_due_list(net: Network, few: dict[str, int]) -> None:
+    from django.db import connection
+
     from observatory_ops.planning.models import PlanStatus
 
     print(f"\n== the due list page as a signed-in viewer ({net.args.requests} requests each, Django test client)")
     site = net.sites[0]
     rows = PlanStatus.objects.count()
-    for label, matched in (("one site", PlanStatus.objects.filter(site=site).count()), ("unfiltered", rows)):
-        first, later, queries, size = page_timings(net.client, net.urls[label], net.args.requests)
-        median, p95 = milliseconds(later)
-        report(f"due list, {label} ({matched:,} rows, page of 50)",
-               f"median {median:.0f} ms, 95th percentile {p95:.0f} ms, first {first * 1e3:.0f} ms, "
-               f"{queries} SQL queries, {size / 1024:.0f} KiB", f"median <= {PAGE_TARGET_MS:.0f} ms",
-               median <= PAGE_TARGET_MS)
+    # Each recompute replaces its site's stored states, so right after the rounds above the table holds a dead row
+    # for each of its 40,000 live ones until PostgreSQL's autovacuum removes them: with its default settings it does
+    # so at its next pass (autovacuum_naptime, one minute) once a fifth of the rows are dead, as a nightly recompute of
+    # every site leaves them. The page is read right after, for information, and as the morning reads it, after the
+    # VACUUM that autovacuum makes (run here so the run does not wait on its timing), against the target.
+    for when in ("right after the recompute, dead rows not vacuumed yet", "vacuumed, as the morning reads it"):
+        if when.startswith("vacuumed"):
+            with connection.cursor() as cursor:
+                cursor.execute(f"VACUUM ANALYZE {PlanStatus._meta.db_table}")  # noqa: S608  # nosec B608
+        for label, matched in (("one site", PlanStatus.objects.filter(site=site).count()), ("unfiltered", rows)):
+            first, later, queries, size = page_timings(net.client, net.urls[label], net.args.requests)
+            median, p95 = milliseconds(later)
+            judged = when.startswith("vacuumed")
+            report(f"due list, {label} ({matched:,} rows, page of 50), {when}",
+                   f"median {median:.0f} ms, 95th percentile {p95:.0f} ms, first {first * 1e3:.0f} ms, "
+                   f"{queries} SQL queries, {size / 1024:.0f} KiB",
+                   f"median <= {PAGE_TARGET_MS:.0f} ms" if judged else "", median <= PAGE_TARGET_MS if judged else None)
     many = {label: query_count(lambda url=url: net.client.get(url)) for label, url in net.urls.items()}
     report(f"due list SQL queries, {few['rows']:,} rows stored -> {rows:,}",
            ", ".join(f"{label} {few[label]} -> {many[label]}" for label in net.urls),
