@@ -33,3 +33,14 @@ def test_a_date_not_read_says_which_formats_are():
         forms.DateField().clean("06/01/2026")
     with pytest.raises(ValidationError, match=r"Enter the date and time as YYYY-MM-DD HH:MM \(2027-03-23 21:30\)\."):
         forms.DateTimeField().clean("tomorrow evening")
+
+
+def test_the_projects_own_forms_say_it_too():
+    """A diff review: the admin's discovery built the apps' forms before the messages were set, so their date fields
+    kept Django's."""
+    from observatory_ops.logbook.forms import CorrectionForm, ReadingForm, ServiceRecordForm
+    from observatory_ops.mirrors.forms import MeasurementForm
+
+    for form, name in ((ServiceRecordForm, "performed_on"), (CorrectionForm, "performed_on"),
+                       (MeasurementForm, "measured_on"), (ReadingForm, "taken_at")):
+        assert form.base_fields[name].error_messages["invalid"].startswith("Enter the date"), form

@@ -128,3 +128,25 @@ def test_nothing_after_a_release_is_ticked_while_another_crew_is_still_locked_ou
         services.checklist_tick_set(fans_order, "step", step, True, users["technician"])
     services.checklist_tick_set(drive_order, "step", release + 1, True, users["technician"])
     assert services.still_locked_out(drive_order) == []
+
+
+def test_finishing_cannot_confirm_the_steps_after_a_release_while_another_crew_is_still_locked_out(
+    order, fans_order, users  # noqa: F811
+):
+    """A diff review: the ticks were refused, but the finish form confirmed the same steps as done."""
+    from test_workorders import _all_readings
+
+    services.work_order_move(fans_order, "start", users["technician"])
+    drive_order = _issued(order, users)
+    services.work_order_move(drive_order, "start", users["technician"])
+    fans_order, drive_order = (WorkOrder.objects.get(pk=o.pk) for o in (fans_order, drive_order))
+    fans_lockout, _ = services.isolated_steps(fans_order.step_list)
+    _tick_through(fans_order, users, fans_lockout)
+    release = services.isolated_steps(drive_order.step_list)[1].stop
+    _tick_through(drive_order, users, release)
+    unticked = [line.text for line in selectors.unticked_lines(drive_order)]
+    with pytest.raises(services.Refused, match=f"while another crew is still locked out on this telescope: "
+                                               f"{fans_order.number}"):
+        services.work_order_finish(drive_order, users["technician"], 1.0, "ok", _all_readings(drive_order, 0.6),
+                                   confirmed_unticked=unticked)
+    assert WorkOrder.objects.get(pk=drive_order.pk).state == State.UNDERWAY

@@ -740,6 +740,11 @@ def test_a_mirrors_reflectance_row_gives_its_recoat_line_in_words(telescope, use
     line = reflectance_text(mirror_forecast(mirror).threshold)
     assert row.limit_text.endswith(f"; recoat line {line} (when the order was made)")
     assert row.limit_value is None and not row.beyond_limit(0.5)
+    # A limit the finish form judges ("at least 0.85") stays as it is, so a reading past it is still questioned.
+    cleaning.readings = [{"quantity": "reflectance", "limit": "at least 0.85"}]
+    cleaning.save()
+    row = services.work_order_from_due([cleaning], users["engineer"], PLANNED).required_readings.get()
+    assert row.limit_text == "at least 0.85" and row.beyond_limit(0.5)
     # Without a mirror record the row is as the plan gives it.
     secondary = subsystem_create(telescope, "secondary_mirror", "Secondary", counting_from=dt.date(2026, 1, 1))
     Mirror.objects.filter(pk=mirror.pk).update(subsystem=secondary)

@@ -484,8 +484,8 @@ def _mirror_lift(subsystems: Sequence[Subsystem], hazards: Sequence[str]) -> dic
 
 def _require_reading(order: WorkOrder, subsystem: Subsystem, quantity: str, limit_text: str) -> None:
     if not order.required_readings.filter(subsystem=subsystem, quantity=quantity).exists():
-        if quantity == "reflectance":
-            limit_text = _with_recoat_line(subsystem, limit_text)
+        if quantity == "reflectance" and RequiredReading(limit_text=limit_text).limit_value is None:
+            limit_text = _with_recoat_line(subsystem, limit_text)  # a limit the finish form judges stays as it is
         RequiredReading.objects.create(
             work_order=order, subsystem=subsystem, quantity=quantity, unit=QUANTITIES[quantity][1],
             limit_text=limit_text,
@@ -746,8 +746,10 @@ def work_order_finish(
     gets a line of its own (planned 0) and is taken from the register as the planned ones are.
 
     ``confirmed_unticked`` holds the words of the checklist lines (isolation points and steps) that the person
-    confirmed although nobody ticked them; every line not ticked when the work is finished must be among them.
-    The lines of the energy isolation (the lockout step and the isolation points, ``selectors.isolation_lines``)
+    confirmed although nobody ticked them; every line not ticked when the work is finished must be among them, and
+    none of the steps after the release while another crew on the telescope is still locked out (``still_locked_out``).
+    The lines of the energy isolation (the lockout step, the isolation points and the lock removal,
+    ``selectors.isolation_lines``)
     are not confirmed with the others: ``isolation_answer`` must say, on its own, which of
     ``cautions.ISOLATION_UNTICKED`` is true (isolated, no isolation needed, not isolated), and the findings must say
     why; the order keeps those lines and the answer (``isolation_unticked_at_finish``,
@@ -865,6 +867,19 @@ def work_order_finish(
             ))
         if isolation and not findings.strip():
             raise Refused(ISOLATION_UNTICKED_FINDINGS)
+        # Steps after the release confirmed unticked would restore what another crew still locked out relies on
+        # staying off (``_others_locked_out_refusal``, which refuses their ticks).
+        found = isolated_steps(order.step_list)
+        after = ([line for line in unticked if line.kind == ChecklistTick.Kind.STEP and line.key > found[1].stop]
+                 if found and found[1].stop < len(order.step_list) else [])
+        if after and (held := still_locked_out(order)):
+            raise Refused(
+                "steps after the locks come off are not ticked ("
+                + "; ".join(line.label.lower() for line in after)
+                + ") while another crew is still locked out on this telescope: "
+                + "; ".join(f"{a.order.number} {a.order.title}" for a in held)
+                + ". Finish once they have removed their locks and ticked that on their order"
+            )
         unconfirmed = [line for line in others if line.text not in seen]
         if unconfirmed:
             raise Refused(

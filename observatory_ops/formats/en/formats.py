@@ -15,7 +15,7 @@ DATE_INPUT_FORMATS = [
 DATETIME_INPUT_FORMATS = ["%Y-%m-%d %H:%M:%S", "%Y-%m-%d %H:%M:%S.%f", "%Y-%m-%d %H:%M", "%d %b %Y %H:%M"]
 
 #: What a date or a date and time that could not be read is told, in place of Django's "Enter a valid date." (set on
-#: the form fields in ``registry.apps.RegistryConfig.ready``): the forms accept the formats above, and a person typing
-#: a date where the browser gives no date picker needs to know them.
+#: the form fields in ``admin_site.ObservatoryAdminConfig.ready``): the forms accept the formats above, and a person
+#: typing a date where the browser gives no date picker needs to know them.
 DATE_INVALID = "Enter the date as YYYY-MM-DD (2027-03-23) or as 23 Mar 2027."
 DATETIME_INVALID = "Enter the date and time as YYYY-MM-DD HH:MM (2027-03-23 21:30)."
