@@ -73,3 +73,27 @@ def test_an_order_of_one_plan_is_issued_without_the_question(telescope, users, c
     client.force_login(users["engineer"])
     assert client.post(f"/workorders/{order.pk}/move/issue/").status_code == 302
     assert WorkOrder.objects.get(pk=order.pk).state == State.ISSUED
+
+
+def test_every_plan_that_prepares_counts_and_each_telescope_is_compared_with_itself(telescope, users):
+    """A diff review: the first labelled step of each plan was taken for its records step, so a plan with one
+    preparing step (the recoat's "close the cover and park") was left out, and plans on two telescopes were compared
+    with each other."""
+    from observatory_ops.registry.models import Telescope
+
+    mains_isolator(telescope)
+    primary = subsystem_create(telescope, "primary_mirror", "Primary", counting_from=START)
+    secondary = subsystem_create(telescope, "secondary_mirror", "Secondary", counting_from=START)
+    recoat = next(p for p in primary.plans.all() if "recoat" in p.name.lower())
+    plans = [_cleaning(primary), recoat, _cleaning(secondary)]
+    order = services.work_order_from_due(plans, users["engineer"], services.site_today(telescope.site))
+    apart = selectors.prepared_apart(order)
+    assert len(apart) == 3
+    assert not any(order.step_list[place - 1].endswith("Read the last service record and open faults for this "
+                                                       "subsystem.") for places in apart.values() for place in places)
+    other = Telescope.objects.create(site=telescope.site, name="T2", aperture_m=0.3, mount="fork")
+    mains_isolator(other)
+    elsewhere = subsystem_create(other, "primary_mirror", "Primary", counting_from=START)
+    order = services.work_order_from_due([_cleaning(primary), _cleaning(elsewhere)], users["engineer"],
+                                         services.site_today(telescope.site))
+    assert selectors.prepared_apart(order) == {}  # one plan a telescope: nothing to clash

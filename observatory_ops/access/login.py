@@ -89,13 +89,14 @@ def _cache_failed(what: str, exc: Exception) -> None:
 ADMIN_NOT_ALLOWED = (
     "The admin pages (the register, service plans, isolation points, parts and people) are for engineers and "
     "administrators whose accounts have staff status. Yours does not: an administrator of the site can give it "
-    "another role."
+    "another role, or sign out and sign in with an account that has it."
 )
 
 
 class LimitedLoginView(LoginView):
     def get(self, request, *args, **kwargs):
-        if request.user.is_authenticated and self.get_redirect_url().startswith("/admin/"):
+        if (request.user.is_authenticated and not request.user.is_staff
+                and self.get_redirect_url().startswith("/admin/")):
             return render(request, "403.html", {"reason": ADMIN_NOT_ALLOWED}, status=403)
         return super().get(request, *args, **kwargs)
 

@@ -103,8 +103,9 @@ class ServiceRecordForm(QuestionedValueMixin, forms.Form):
         if held:
             orders = ", ".join(f"{o.number} ({o.get_state_display()})" for o in held)
             self.add_error("plan", (
-                f"Work order {orders} is still to do for this plan: log its work by finishing the order. Log it here "
-                f"only for work done outside the order, then withdraw the order on its page. {keep}"))
+                f"Work order{'s' if len(held) > 1 else ''} {orders} {'are' if len(held) > 1 else 'is'} still to do "
+                f"for this plan: log its work by finishing the order. Log it here only for work done outside the "
+                f"order, then withdraw the order on its page. {keep}"))
         if any(self.has_error(name) for name in ("hours_spent", "performed_on", "plan")):
             self.ask_again(asked)
         return data

@@ -89,14 +89,14 @@ class Kind:
 # Steps shared by several plans. Parking, closing the enclosure and live tests come before isolation; the
 # last step removes the locks only as the site's lockout procedure says. "Enclosure", not "dome": the same words
 # serve a dome's shutter and a roll-off roof.
-_READ_RECORDS = "Read the last service record and open faults for this subsystem."
+READ_RECORDS = "Read the last service record and open faults for this subsystem."
 _OUT_OF_SERVICE = "Take the observatory out of robotic and remote control and close the enclosure."
 _PARK = "Park the telescope at its service position."
 _OUT_OF_SERVICE_PARKED = "Take the observatory out of robotic and remote control and park the telescope."
 #: The step an ad hoc order on a telescope that can move starts with when its steps under power are left empty
 #: (workorders.services.work_order_ad_hoc), as planned orders start with it or ``_OUT_OF_SERVICE``.
 OUT_OF_CONTROL_PARKED = _OUT_OF_SERVICE_PARKED
-_PREPARE = (_READ_RECORDS, _OUT_OF_SERVICE, _PARK)
+_PREPARE = (READ_RECORDS, _OUT_OF_SERVICE, _PARK)
 _INSPECT = "Inspect for wear, looseness, contamination and damage; photograph anything unusual."
 #: What the release step asks everyone to be clear of, by what can move once the locks come off (``Kind.moves``), in
 #: the order an order names them. Removing the locks lets the drives be powered, and a dome turns, a shutter or roll-off
@@ -309,7 +309,7 @@ def _move_under_procedure(what: str, why: str) -> str:
 
 # An axis drive: the readings need the drive under power, so they are taken before isolation.
 _AXIS_BEFORE = (
-    _READ_RECORDS,
+    READ_RECORDS,
     _OUT_OF_SERVICE,
     "With everyone outside the swept volume, slew and track from the control computer; record the settle time, "
     "following error and motor current on this work order.",
@@ -343,7 +343,7 @@ KINDS: dict[str, Kind] = {
                     # fits; the value before goes in the findings.
                     readings=(("reflectance", "the mean after cleaning; the mean before in the findings"),),
                     before_isolation=(
-                        _READ_RECORDS,
+                        READ_RECORDS,
                         _OUT_OF_SERVICE,
                         "Park the telescope pointing at the horizon stop, so the mirror can be reached from the "
                         "front (not at the service position other work uses).",
@@ -366,7 +366,7 @@ KINDS: dict[str, Kind] = {
                     COMMON_PRACTICE,
                     hazards=("suspended_load", "chemical", "vacuum_plant", "moving_machinery"),
                     before_isolation=(
-                        _READ_RECORDS,
+                        READ_RECORDS,
                         _OUT_OF_SERVICE,
                         "Close the mirror cover and park the telescope where the site's mirror-removal procedure "
                         "says.",
@@ -407,7 +407,7 @@ KINDS: dict[str, Kind] = {
                     dust_sensitivity=1.0,
                     hazards=("cryogen", "moving_machinery"),
                     before_isolation=(
-                        _READ_RECORDS,
+                        READ_RECORDS,
                         _OUT_OF_SERVICE,
                         "Close the primary mirror cover and point the telescope so the secondary can be reached "
                         "from the work platform.",
@@ -442,7 +442,7 @@ KINDS: dict[str, Kind] = {
                     COMMON_PRACTICE,
                     dust_sensitivity=1.0,
                     hazards=("chemical", "height"),
-                    before_isolation=(_READ_RECORDS, _OUT_OF_SERVICE, _PARK),
+                    before_isolation=(READ_RECORDS, _OUT_OF_SERVICE, _PARK),
                     after_isolation=(
                         "Take the cap off the dew shield, if it has one, and inspect the objective's outer surface "
                         "with a flashlight held at a low angle, looking across the glass: note any dust, dew spots or "
@@ -480,7 +480,7 @@ KINDS: dict[str, Kind] = {
                     COMMON_PRACTICE,
                     hazards=("height",),
                     before_isolation=(
-                        _READ_RECORDS,
+                        READ_RECORDS,
                         _OUT_OF_SERVICE,
                         _PARK,
                         "With the dew heater's controller at full power, measure the voltage at the heater's "
@@ -552,7 +552,7 @@ KINDS: dict[str, Kind] = {
                     COMMON_PRACTICE,
                     hazards=("moving_machinery",),
                     before_isolation=(
-                        _READ_RECORDS,
+                        READ_RECORDS,
                         _OUT_OF_SERVICE,
                         "Close the mirror cover and park the telescope where the cell can be reached.",
                     ),
@@ -686,7 +686,7 @@ KINDS: dict[str, Kind] = {
                     (("calendar_days", 180.0), ("brake_cycles", 5000.0)),
                     FROM_MEMORY,
                     before_isolation=(
-                        _READ_RECORDS,
+                        READ_RECORDS,
                         _OUT_OF_SERVICE,
                         "With everyone outside the swept volume, read the brake supply pressure, time the brake "
                         "release, and check that the brake holds the axis out of balance; record the readings.",
@@ -730,7 +730,7 @@ KINDS: dict[str, Kind] = {
                     (("calendar_days", 180.0), ("brake_cycles", 5000.0)),  # as the air-operated brake's
                     COMMON_PRACTICE,
                     before_isolation=(
-                        _READ_RECORDS,
+                        READ_RECORDS,
                         _OUT_OF_SERVICE,
                         "With everyone outside the swept volume, measure the voltage at the brake coil while the "
                         "drive holds the brake released and record it on this work order; then, with the drive "
@@ -781,7 +781,7 @@ KINDS: dict[str, Kind] = {
                     (("calendar_days", 90.0),),
                     COMMON_PRACTICE,
                     before_isolation=(
-                        _READ_RECORDS,
+                        READ_RECORDS,
                         _OUT_OF_SERVICE,
                         "With everyone outside the swept volume, drive each axis slowly onto each soft and then "
                         "each hard limit from the control panel and check that it stops; test every emergency "
@@ -807,7 +807,7 @@ KINDS: dict[str, Kind] = {
                     (("calendar_days", 180.0), ("axis1_travel_deg", 200000.0)),
                     COMMON_PRACTICE,
                     before_isolation=(
-                        _READ_RECORDS,
+                        READ_RECORDS,
                         _OUT_OF_SERVICE,
                         "Move each axis slowly through its full range from the control panel and watch every "
                         "cable wrap for snagging, from outside the swept volume or by camera.",
@@ -1014,7 +1014,7 @@ KINDS: dict[str, Kind] = {
                     (("calendar_days", 180.0), ("slews", 30000.0)),
                     FROM_MEMORY,
                     before_isolation=(
-                        _READ_RECORDS,
+                        READ_RECORDS,
                         _OUT_OF_SERVICE,
                         "Read and save the drive's fault log.",
                         "With everyone outside the swept volume, step-test each loop from the tuning software; record "
@@ -1049,7 +1049,7 @@ KINDS: dict[str, Kind] = {
                     (("calendar_days", 90.0), ("open_hours", 1000.0)),
                     COMMON_PRACTICE,
                     before_isolation=(
-                        _READ_RECORDS,
+                        READ_RECORDS,
                         _OUT_OF_SERVICE_PARKED,
                         "With everyone clear of the enclosure's moving parts and their path, open the enclosure a "
                         "little and check that the rain sensor closes it.",
@@ -1089,7 +1089,7 @@ KINDS: dict[str, Kind] = {
                     (("calendar_days", 365.0),),
                     FROM_MEMORY,
                     before_isolation=(
-                        _READ_RECORDS,
+                        READ_RECORDS,
                         _OUT_OF_SERVICE_PARKED,
                         "With the hook unloaded and everyone clear of its path and the area under it, raise and lower "
                         "it from the pendant (and travel the hoist along its beam, if it travels): check that the "

@@ -217,20 +217,26 @@ def standing_notes(order: WorkOrder) -> tuple[str, ...]:
 
 
 def prepared_apart(order: WorkOrder) -> dict[str, list[int]]:
-    """The plans whose steps before the lockout prepare the telescope their own way, on an order over several plans:
-    plan label -> the positions (from 1) of its steps there, for each plan with more than one labelled step before
-    the lockout step (the one every plan has is its first, reading the subsystem's records). Read from the steps'
-    "[plan label] " prefixes (``services._labelled``) and the lockout step, never from other wording; empty without a
-    lockout or with the steps of one plan."""
+    """The plans whose steps before the lockout prepare one telescope each their own way, on an order over several
+    plans: plan label -> the positions (from 1) of its preparing steps, for each telescope with more than one such
+    plan. Read from the steps' "[plan label] " prefixes (``services._labelled``; "[T1: ...]" when the order spans
+    several telescopes, each compared with its own) and the lockout step; the step every plan begins with, reading the
+    subsystem's records (``catalogue.READ_RECORDS``), prepares nothing. Empty without a lockout or with one plan."""
     steps = order.step_list
     lockout = next((i for i, step in enumerate(steps) if is_lockout_step(step)), None)
     if lockout is None:
         return {}
     by_plan: dict[str, list[int]] = {}
     for index, step in enumerate(steps[:lockout]):
-        if step.startswith("[") and "] " in step:
+        if step.startswith("[") and "] " in step and step[step.index("] ") + 2:].strip() != catalogue.READ_RECORDS:
             by_plan.setdefault(step[1:step.index("] ")], []).append(index + 1)
-    return {label: places for label, places in by_plan.items() if len(places) > 1}
+    names = set(order.items.values_list("subsystem__telescope__name", flat=True))
+    if len(names) > 1:  # labels begin with their telescope's name
+        where = {label: label.split(": ", 1)[0] for label in by_plan}
+    else:
+        where = dict.fromkeys(by_plan, "")
+    crowded = {place for place in where.values() if list(where.values()).count(place) > 1}
+    return {label: places for label, places in by_plan.items() if where[label] in crowded}
 
 
 def parts_low_or_short(site: Site) -> list[OpenPlanned]:

@@ -303,7 +303,7 @@ def work_order_move(request, pk, action):
                 return render(request, "workorders/countersign_question.html", {"order": order, "record": record})
     if action == "issue" and request.POST.get("asked") != "confirmed" and order.state == State.DRAFT:
         if len(apart := selectors.prepared_apart(order)) > 1:
-            places = sorted(place for found in apart.values() for place in found[1:])  # not the records each reads
+            places = sorted(place for found in apart.values() for place in found)
             steps = in_words([str(place) for place in places])
             return render(request, "workorders/issue_question.html", {
                 "order": order, "question": PREPARED_APART_QUESTION.format(number=order.number, n=len(apart),
