@@ -146,7 +146,7 @@ def test_its_lockout_is_ticked_in_sequence_and_its_paper_prints_the_ticks_beside
     assert stored.isolation_unticked_at_finish == [] and stored.unticked_at_finish == []
     client.force_login(users["viewer"])
     paper = _pdf(client, stored)
-    assert f"{lockout + 1}. {EARLIER} ticked by technician, " in paper and LOCKOUT_STEP not in paper
+    assert f"{lockout + 1}. Lockout: {EARLIER} ticked by technician, " in paper and LOCKOUT_STEP not in paper
 
 
 def test_its_lockout_nobody_ticked_is_asked_apart_at_finish_and_kept_on_the_record(stored, users, client):
@@ -166,7 +166,7 @@ def test_its_lockout_nobody_ticked_is_asked_apart_at_finish_and_kept_on_the_reco
     assert f"Step {lockout + 1}: {EARLIER}" in stored.isolation_unticked_at_finish
     assert EARLIER not in " ".join(stored.unticked_at_finish)
     paper = _pdf(client, stored)
-    assert f"{lockout + 1}. {EARLIER} not ticked; at finishing technician confirmed: " in paper
+    assert f"{lockout + 1}. Lockout: {EARLIER} not ticked; at finishing technician confirmed: " in paper
     assert ISOLATION_UNTICKED_SHORT["isolated"] in paper
     page = " ".join(re.sub(r"<[^>]+>", " ", html.unescape(client.get(stored.get_absolute_url()).content.decode()))
                     .split())

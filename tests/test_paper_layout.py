@@ -127,6 +127,17 @@ def test_a_table_splits_neither_after_its_first_row_nor_before_its_last():
         assert all(count == 0 or count >= 2 for count in rows_per_page), (steps, rows_per_page)
 
 
+def test_the_precedence_statement_never_stands_alone_under_the_continued_cautions_head():
+    """A reviewer found the closing precedence statement alone on page 2 under the repeated cautions head: it is
+    carried over with the last caution at least."""
+    for lines in range(0, 60, 2):
+        why = tuple(f"Reason {n}: a line to move the cautions box down the page" for n in range(lines))
+        pages = page_texts(render_sheet(make_sheet(why=why)))
+        for text in pages:
+            if "Local codes and regulations" in flat(text) and "CAUTIONS" in text:
+                assert "Standard:" in text, (lines, text)
+
+
 def test_the_lifting_figures_table_is_never_split():
     figures = lift_figures(700, 70, "borosilicate", hole_mm=160, fixture_kg=95)
     rows = tuple(selectors.lift_rows(figures, {"diameter_mm": 700, "thickness_mm": 70, "material": "borosilicate",

@@ -135,8 +135,8 @@ def test_the_energy_not_isolated_is_kept_and_shown_on_the_page_and_the_paper(ord
     page = _text(client.get(order.get_absolute_url()))
     assert said in page and ISOLATION_REVIEW[NOT_ISOLATED] in page and why in page
     paper = _pdf(client, order)
-    assert (f"{lockout + 1}. {services.LOCKOUT_STEP} not ticked; at finishing technician confirmed: the energy was "
-            "NOT isolated") in paper
+    assert (f"{lockout + 1}. Lockout: {services.LOCKOUT_STEP} not ticked; at finishing technician confirmed: "
+            "the energy was NOT isolated") in paper
     review = ISOLATION_REVIEW[NOT_ISOLATED]
     assert paper.index("Confirmed when the work was finished") < paper.index(said) < paper.index(review)
 

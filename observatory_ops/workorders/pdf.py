@@ -534,8 +534,9 @@ def _caution_paragraph(caution: SheetCaution) -> Paragraph:
 
 def _framed(head: Flowable, body: Sequence[Flowable], closing: Flowable, width: float) -> _Table:
     """A box not to be missed: a heavy frame, a shaded head (repeated on each page the box runs onto), the body
-    ruled line by line, and a shaded closing line."""
-    return _Table(
+    ruled line by line, and a shaded closing line. Split across pages, the box leaves at least two lines at the foot
+    of the page and carries at least two over, so the closing line never stands alone under the repeated head."""
+    table = _Table(
         [[head], *([row] for row in body), [closing]],
         colWidths=[width],
         repeatRows=1,
@@ -552,6 +553,8 @@ def _framed(head: Flowable, body: Sequence[Flowable], closing: Flowable, width: 
             ("BOTTOMPADDING", (0, 0), (-1, -1), 6),
         ]),
     )
+    table.keep_rows = 2
+    return table
 
 
 def _notices(sheet: Sheet, width: float) -> list[Flowable]:
@@ -620,10 +623,10 @@ class _SetTopFlowables(SetTopFlowables):
 
 def _checklist_line(text: str, tick: SheetTick | None, number: str = "") -> _Ticked:
     """A step or an isolation point with its tick box: ticked as on the work order page, with the page's note of
-    who ticked it (or took the tick back) and when under it. The lockout step is printed in bold, so it does not read
-    as one step among the others."""
+    who ticked it (or took the tick back) and when under it. The lockout step is printed in bold after "Lockout:", as
+    the page marks it, so it does not read as one step among the others."""
     note = f"<br/><font size=8>{_text(tick.note)}</font>" if tick is not None and tick.note else ""
-    words = f"<b>{_text(text)}</b>" if number and is_lockout_step(text) else _text(text)
+    words = f"<b>Lockout: {_text(text)}</b>" if number and is_lockout_step(text) else _text(text)
     return _Ticked(_Paragraph(words + note, _ITEM), number, ticked=tick is not None and tick.ticked)
 
 
