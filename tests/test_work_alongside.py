@@ -17,6 +17,7 @@ from conftest import mains_isolator
 from test_workorder_pdf import body_text
 from test_workorders import PLANNED, drive, order  # noqa: F401  (fixtures, used by name)
 
+from observatory_ops.registry.catalogue import HAND_BACK, OUT_OF_CONTROL
 from observatory_ops.registry.models import Telescope
 from observatory_ops.registry.services import subsystem_create
 from observatory_ops.workorders import selectors, services
@@ -150,3 +151,37 @@ def test_finishing_cannot_confirm_the_steps_after_a_release_while_another_crew_i
         services.work_order_finish(drive_order, users["technician"], 1.0, "ok", _all_readings(drive_order, 0.6),
                                    confirmed_unticked=unticked)
     assert WorkOrder.objects.get(pk=drive_order.pk).state == State.UNDERWAY
+
+
+def test_an_order_without_a_lockout_does_not_hand_the_telescope_back_while_another_crew_is_locked_out(
+    order, telescope, users  # noqa: F811
+):
+    """A diff review: an order with no lockout step of its own (work on an "other" subsystem, no hazard calling for
+    isolation) could hand the observatory back to robotic control while the drive crew was locked out; remote users
+    would move the telescope the moment that crew restores power. Its hand-back waits as the steps after a release
+    do (common practice, no published source)."""
+    from test_workorders import _all_readings
+
+    camera = subsystem_create(telescope, "other", "All-sky camera", counting_from=dt.date(2026, 1, 1),
+                             no_hazards_found=True)
+    camera_order = _issued(services.work_order_ad_hoc(
+        telescope.site, [camera], "Clean the all-sky camera dome", users["engineer"], powered=OUT_OF_CONTROL,
+        steps="Clean the camera's dome with lens tissue.", planned_date=PLANNED), users)
+    steps = camera_order.step_list
+    assert services.isolated_steps(steps) is None and steps[-1] == HAND_BACK
+    assert services.held_for_other_crews(steps) == {len(steps) - 1}
+    drive_order = _issued(order, users)
+    services.work_order_move(drive_order, "start", users["technician"])
+    services.work_order_move(camera_order, "start", users["technician"])
+    drive_order, camera_order = (WorkOrder.objects.get(pk=o.pk) for o in (drive_order, camera_order))
+    _tick_through(drive_order, users, services.isolated_steps(drive_order.step_list)[0])  # the drive crew locked out
+    for step in range(len(steps) - 1):  # its own work is free
+        services.checklist_tick_set(camera_order, "step", step, True, users["technician"])
+    with pytest.raises(services.Refused, match=(
+            f"step {len(steps)} puts the telescope back in service or under robotic control, and another crew is "
+            f"still locked out on this telescope: {drive_order.number}")):
+        services.checklist_tick_set(camera_order, "step", len(steps) - 1, True, users["technician"])
+    with pytest.raises(services.Refused, match="steps that wait for the locks to come off are not ticked"):
+        services.work_order_finish(camera_order, users["technician"], 1.0, "ok", _all_readings(camera_order, 0.6),
+                                   confirmed_unticked=[HAND_BACK])
+    assert WorkOrder.objects.get(pk=camera_order.pk).state == State.UNDERWAY

@@ -747,7 +747,8 @@ def work_order_finish(
 
     ``confirmed_unticked`` holds the words of the checklist lines (isolation points and steps) that the person
     confirmed although nobody ticked them; every line not ticked when the work is finished must be among them, and
-    none of the steps after the release while another crew on the telescope is still locked out (``still_locked_out``).
+    none of the steps held for other crews (``held_for_other_crews``) while another crew on the telescope is still
+    locked out (``still_locked_out``).
     The lines of the energy isolation (the lockout step, the isolation points and the lock removal,
     ``selectors.isolation_lines``)
     are not confirmed with the others: ``isolation_answer`` must say, on its own, which of
@@ -867,14 +868,13 @@ def work_order_finish(
             ))
         if isolation and not findings.strip():
             raise Refused(ISOLATION_UNTICKED_FINDINGS)
-        # Steps after the release confirmed unticked would restore what another crew still locked out relies on
-        # staying off (``_others_locked_out_refusal``, which refuses their ticks).
-        found = isolated_steps(order.step_list)
-        after = ([line for line in unticked if line.kind == ChecklistTick.Kind.STEP and line.key > found[1].stop]
-                 if found and found[1].stop < len(order.step_list) else [])
+        # Steps held for other crews confirmed unticked would restore what another crew still locked out relies on
+        # staying off (``held_for_other_crews``; ``_others_locked_out_refusal`` refuses their ticks).
+        waiting = held_for_other_crews(order.step_list)
+        after = [line for line in unticked if line.kind == ChecklistTick.Kind.STEP and line.key in waiting]
         if after and (held := still_locked_out(order)):
             raise Refused(
-                "steps after the locks come off are not ticked ("
+                "steps that wait for the locks to come off are not ticked ("
                 + "; ".join(line.label.lower() for line in after)
                 + ") while another crew is still locked out on this telescope: "
                 + "; ".join(f"{a.order.number} {a.order.title}" for a in held)
@@ -1043,25 +1043,39 @@ def still_locked_out(order: WorkOrder) -> list:
     return held
 
 
-def _others_locked_out_refusal(order: WorkOrder, key: int) -> str:
-    """Why step ``key`` of ``order``, a step after its release (restoring brake air or power, a test under power, the
-    return to service or to robotic control), may not be ticked yet: another crew on the telescope is still locked out
-    (``still_locked_out``). Their locks keep the energy they isolated off, but the steps after a release take it for
-    granted that nobody is in the telescope's swept volume or at the isolated equipment, and the return to robotic
-    control hands the telescope to remote users. Removing one's own locks stays free: each person removes their own
-    (OSHA 29 CFR 1910.147(e)(3) and (f)(3), group lockout); waiting for the other crew is common practice, no
-    published source. "" when nothing holds it."""
-    steps = order.step_list
+def held_for_other_crews(steps: Sequence[str]) -> set[int]:
+    """The steps of an order that wait while another crew on its telescope is still locked out
+    (``still_locked_out``): with a lockout step and a release, every step after the release (restoring brake air or
+    power, a test under power, the return to service or to robotic control); without a lockout step, the steps that
+    put the telescope back in service or hand it back to robotic control (``catalogue.RETURNS_TO_SERVICE``,
+    ``catalogue.HAND_BACK``, a plan label before them ignored). The other crew's locks keep the energy they isolated
+    off, but these steps take it for granted that nobody is in the telescope's swept volume or at the isolated
+    equipment, and the return to robotic control hands the telescope to remote users who would move it the moment
+    the other crew restores power. Waiting for the other crew is common practice, no published source."""
     found = isolated_steps(steps)
-    if found is None or key <= found[1].stop or found[1].stop >= len(steps):
+    if found is not None:
+        release = found[1].stop
+        return set(range(release + 1, len(steps))) if release < len(steps) else set()
+    returning = RETURNS_TO_SERVICE | {HAND_BACK}
+    return {index for index, step in enumerate(steps) if _unlabelled(step).strip() in returning}
+
+
+def _others_locked_out_refusal(order: WorkOrder, key: int) -> str:
+    """Why step ``key`` of ``order`` may not be ticked yet: it is held for other crews (``held_for_other_crews``) and
+    another crew on the telescope is still locked out (``still_locked_out``). Removing one's own locks stays free:
+    each person removes their own (OSHA 29 CFR 1910.147(e)(3) and (f)(3), group lockout). "" when nothing holds
+    it."""
+    if key not in held_for_other_crews(order.step_list):
         return ""
     held = still_locked_out(order)
     if not held:
         return ""
     named = "; ".join(f"{a.order.number} {a.order.title} (on {', '.join(a.telescopes)})" for a in held)
     one = len(held) == 1
+    why = ("is done after the locks come off" if isolated_steps(order.step_list) is not None
+           else "puts the telescope back in service or under robotic control")
     return (
-        f"step {key + 1} is done after the locks come off, and {'another crew is' if one else 'other crews are'} still "
+        f"step {key + 1} {why}, and {'another crew is' if one else 'other crews are'} still "
         f"locked out on this telescope: {named}, {'its' if one else 'their'} lockout ticked and the removal of "
         f"{'its' if one else 'their'} locks not. Agree with {'that crew' if one else 'those crews'}; tick this once "
         "they have removed their locks and ticked that on their order, with everyone clear"
