@@ -281,8 +281,8 @@ def test_the_recoat_calendar_has_each_nights_figures_in_a_table_as_in_its_toolti
     page = client.get(f"/mirrors/{mirror.pk}/recoat/", {"start": "2026-12-14", "horizon_days": "21"}).content.decode()
     titles = [html.unescape(t) for t in re.findall(r'<div class="night[^"]*" style="[^"]*" title="([^"]*)"', page)]
     table = re.search(r'<details class="nights-table">(.*?)</details>', page, flags=re.S).group(1)
-    rows = [[html.unescape(re.sub(r"<[^>]+>", "", cell)).strip() for cell in re.findall(r"<td>(.*?)</td>", row,
-                                                                                          flags=re.S)]
+    rows = [[html.unescape(re.sub(r"<[^>]+>", "", cell)).strip() for cell in re.findall(r"<td[^>]*>(.*?)</td>",
+                                                                                          row, flags=re.S)]
             for row in table.split("<tr>")[2:]]
     assert len(rows) == len(titles) == 21
     for title, (night, cost, moon, crew, made_of) in zip(titles, rows, strict=True):

@@ -125,6 +125,35 @@ def test_on_a_phone_each_work_order_is_a_card_with_its_number_and_state_first(br
                                                                                      "table.card-table")))
 
 
+@pytest.mark.browser
+def test_on_a_phone_the_recoat_planners_tables_are_cards_of_labelled_lines(browser_page, live_server, login, demo):
+    """A review: the recoat planner's windows, phase dates and nights scrolled sideways inside their boxes on a phone,
+    their costs and crew days out of sight. Each row is now a card whose every line says what it is."""
+    from observatory_ops.mirrors.models import Mirror
+
+    page = browser_page
+    engineer = demo.usernames["engineer"]
+    login(page, live_server, engineer, demo.passwords[engineer])
+    page.set_viewport_size({"width": 390, "height": 844})
+    mirror = Mirror.objects.filter(subsystem__telescope__site=demo.site).first()
+    page.goto(live_server.url + reverse("mirror-recoat", args=[mirror.pk]))
+    page.get_by_role("button", name="Find windows").click()
+    expect(page.locator("details.nights-table")).to_have_count(1)
+    page.evaluate("document.querySelectorAll('details').forEach(d => d.open = true)")
+    page.screenshot(path=str(SCREENSHOTS / "e2e_recoat_planner_390_cards.png"), full_page=True)
+    rows = page.evaluate(_ROWS.replace("table.due-table", "table.card-lines"))
+    assert rows
+    for row in rows:
+        assert row["width"] <= 390 - 2 * 16, f"a card fits the phone: {row}"
+        for cell in row["cells"]:
+            assert cell["label"] and cell["shown"].startswith(f'"{cell["label"]}"'), cell
+    choose = page.locator("table.card-lines input[type=radio]").first
+    expect(choose).to_be_visible()
+    page.set_viewport_size({"width": 1280, "height": 800})
+    assert all(row["display"] == "table-row" for row in page.evaluate(_ROWS.replace("table.due-table",
+                                                                                     "table.card-lines")))
+
+
 _BOXES = """els => els.filter(el => el.offsetParent !== null).map(el => {
   const r = el.getBoundingClientRect();
   return {what: el.outerHTML.slice(0, 90), width: r.width, height: r.height};
