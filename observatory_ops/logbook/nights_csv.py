@@ -300,14 +300,26 @@ class ParsedNights:
         self.errors.append(Problem(position, reason, field_name))
 
 
+#: A figure as text: ASCII digits with an optional sign and decimal point, and an optional exponent ("1e3", which
+#: counts have always taken and Python's repr of a float writes: 1e-05). Python's int() and float() take more than
+#: this: "1_000" and digits of other scripts ("٣"), which a figure typed or exported by mistake should not pass as.
+PLAIN_NUMBER = re.compile(r"[+-]?(?:[0-9]+(?:\.[0-9]*)?|\.[0-9]+)(?:[eE][+-]?[0-9]+)?")
+#: What float() reads as no finite number. Still read, so the message says "must be a finite number", not "a number".
+NOT_FINITE = re.compile(r"[+-]?(?:nan|inf|infinity)", re.IGNORECASE)
+
+
 def _read_number(raw: str | int | float) -> int | float:
-    """An int for a whole-number literal, else a float; raises ValueError for text that is no number."""
+    """An int for a whole-number literal, else a float; raises ValueError for text that is no plain number
+    (``PLAIN_NUMBER``, or ``NOT_FINITE``)."""
     if not isinstance(raw, str):
         return raw
+    text = raw.strip()
+    if not (PLAIN_NUMBER.fullmatch(text) or NOT_FINITE.fullmatch(text)):
+        raise ValueError(f"not a plain decimal number: {text!r}")
     try:
-        return int(raw.strip())
+        return int(text)
     except ValueError:
-        return float(raw.strip())
+        return float(text)
 
 
 def _number(raw: object, column: Column) -> float | int:
@@ -355,11 +367,14 @@ def _flag(raw: object, name: str, as_json: bool) -> bool:
     raise RowError(name, f"{name} must be {accepted}, not {shown(raw)}")
 
 
-def _no_such_date(text: str) -> str | None:
-    """Why text written as YYYY-MM-DD names no day of the calendar (2023-02-30), or None when it is not so written."""
-    written = re.fullmatch(r"(\d{4})-(\d{2})-(\d{2})", text)
-    if not written:
-        return None
+#: A date as this format writes it: ISO 8601's calendar date in the extended format, YYYY-MM-DD, in ASCII digits.
+#: Python's date.fromisoformat (3.11) also reads ISO 8601's week dates ("2022-W11-1", a Monday in March) and its
+#: basic format ("20220314"): the format has one way of writing a date, and anything else is refused, never guessed at.
+WRITTEN_DATE = re.compile(r"([0-9]{4})-([0-9]{2})-([0-9]{2})")
+
+
+def _no_such_date(written: re.Match) -> str:
+    """Why a date written as YYYY-MM-DD names no day of the calendar (2023-02-30)."""
     year, month, _day = (int(part) for part in written.groups())
     if not 1 <= month <= 12:
         return f"there is no month {month}"
@@ -369,13 +384,14 @@ def _no_such_date(text: str) -> str | None:
 
 
 def _night(raw: object, latest_night: dt.date) -> dt.date:
+    """The night a cell or a JSON string names, written exactly as YYYY-MM-DD (``WRITTEN_DATE``)."""
+    written = WRITTEN_DATE.fullmatch(raw.strip()) if isinstance(raw, str) else None
+    if not written:
+        raise RowError("night", f"night must be a date as YYYY-MM-DD, not {shown(raw)}")
     try:
-        night = dt.date.fromisoformat(raw.strip())
-    except (AttributeError, ValueError):
-        why = _no_such_date(raw.strip()) if isinstance(raw, str) else None
-        if why:
-            raise RowError("night", f"night {raw.strip()} is no such date ({why})") from None
-        raise RowError("night", f"night must be a date as YYYY-MM-DD, not {shown(raw)}") from None
+        night = dt.date.fromisoformat(written.group())
+    except ValueError:
+        raise RowError("night", f"night {written.group()} is no such date ({_no_such_date(written)})") from None
     if night > latest_night:
         raise RowError(
             "night", f"night {night} has not begun yet (a night is dated by its evening; the latest that can be "
@@ -555,34 +571,75 @@ def _header_problem(columns: dict[int, str], first_line: str) -> str | None:
 #: How many unknown columns a refusal names before it counts the rest (a file of another kind may have hundreds).
 UNKNOWN_NAMED = 10
 
+#: The first line Excel writes, and reads, to say which character separates the columns ("sep=,"). A "sep=," line is
+#: skipped; another separator is refused, as a file separated by semicolons is.
+SEPARATOR_LINE = re.compile(r"sep=.", re.IGNORECASE)
+
+
+def _quote_left_open(exc: csv.Error) -> bool:
+    """Whether the reader came to the end of the text inside a quoted cell. Python's csv module says so only in
+    these words (its strict dialect; Modules/_csv.c, unchanged since Python 2.5)."""
+    return str(exc) == "unexpected end of data"
+
+
+def _csv_problem(exc: csv.Error, start: int, end: int) -> str:
+    """Why the row from line ``start`` to line ``end`` is not valid CSV, in words for whoever saved the file. The
+    rules are RFC 4180's (section 2): a quoted cell ends at its closing quote, which comes right before a comma or
+    the end of the line, and a quote inside it is written twice."""
+    said = str(exc)
+    if _quote_left_open(exc):
+        return (f"the row beginning on line {start} opens a quote that is never closed, so everything after it (to "
+                f"line {end}, the end of the file) was read as one cell; close the quote or remove it")
+    if said.endswith("expected after '\"'"):
+        return ("a quoted cell goes on after its closing quote; end the cell at its closing quote, and write a quote "
+                'inside a quoted cell twice ("")')
+    if said.startswith("field larger than field limit"):
+        return f"a cell is longer than {csv.field_size_limit():,} characters, the most one cell may hold"
+    return f"not valid CSV ({said})"
+
 
 def parse(text: str, latest_night: dt.date, telescopes: Sequence[str] = ()) -> ParsedNights:
     """Parse and check the whole file. Every problem of every bad row is reported with its line number.
 
     A problem of the whole file (empty, no rows, a header that does not name the columns) is reported
     with position None, and no row is checked. A column with neither a header nor a value is left out:
-    spreadsheets export the empty columns right of the data that way. ``telescopes``: the names of the
-    site's telescopes.
+    spreadsheets export the empty columns right of the data that way. A first line "sep=," (``SEPARATOR_LINE``) is
+    skipped. ``telescopes``: the names of the site's telescopes.
     """
     result = ParsedNights(latest_night, as_json=False, telescopes=telescopes)
     if not text.strip():
         result.refuse(None, f"it is empty; it must hold {WHAT_A_FILE_HOLDS}")
         return result
     # Universal newlines: a file saved with carriage returns alone (older spreadsheets on a Mac) reads as lines too.
-    reader = csv.reader(io.StringIO(text, newline=None))
+    # Strict: a quote never closed is said to be (not read as one cell running to the end of the file), and so is a
+    # cell that goes on after its closing quote (not joined up: "5"0 is not 50).
+    reader = csv.reader(io.StringIO(text, newline=None), strict=True)
+    head = io.StringIO(text, newline=None)
+    header_line = head.readline().rstrip("\n")
+    if SEPARATOR_LINE.fullmatch(header_line.strip(" ")):
+        separator = header_line.strip(" ")[4:]
+        if separator != ",":
+            result.refuse(None, f"its first line says the columns are separated by {shown(separator)}; save it as "
+                          'comma-separated CSV, without the "sep=" line')
+            return result
+        next(reader)  # skipped; the reader still counts it, so every line keeps its number in the file
+        header_line = head.readline().rstrip("\n")
+    start = reader.line_num + 1
     try:
-        header = [h.strip().lower() for h in next(reader)]
+        header = [h.strip().lower() for h in next(reader, [])]
     except csv.Error as exc:
-        result.refuse(None, f"its header line is not valid CSV ({exc})")
+        result.refuse(None, f"its header line is not valid CSV: {_csv_problem(exc, start, reader.line_num)}")
         return result
-    lines: list[tuple[int, list[str] | csv.Error]] = []  # (line number, its cells or why it is not valid CSV)
+    lines: list[tuple[int, list[str] | str]] = []  # (line number, its cells or why it is not valid CSV)
     while True:
+        start = reader.line_num + 1
         try:
             cells = next(reader)
         except StopIteration:
             break
         except csv.Error as exc:
-            lines.append((reader.line_num, exc))
+            lines.append((start if _quote_left_open(exc) else reader.line_num,
+                          _csv_problem(exc, start, reader.line_num)))
             continue
         if any(c.strip() for c in cells):
             lines.append((reader.line_num, cells))
@@ -591,15 +648,15 @@ def parse(text: str, latest_night: dt.date, telescopes: Sequence[str] = ()) -> P
         if name or any(isinstance(cells, list) and position < len(cells) and cells[position].strip()
                        for _, cells in lines)
     }
-    problem = _header_problem(columns, text.splitlines()[0])
+    problem = _header_problem(columns, header_line)
     if problem:
         result.refuse(None, problem)
         return result
     for line, cells in lines:
-        if isinstance(cells, csv.Error):
-            result.refuse(line, f"not valid CSV ({cells})")
+        if isinstance(cells, str):
+            result.refuse(line, cells)
         elif len(cells) != len(header):
-            result.refuse(line, f"has {len(cells)} fields, the header has {len(header)}")
+            result.refuse(line, f"has {len(cells)} field{pluralize(len(cells))}, the header has {len(header)}")
         else:
             result.add(line, {name: cells[position] for position, name in columns.items()})
     if not result.rows and not result.errors:

@@ -187,7 +187,7 @@ class ImportReport:
 def _rows(problems: list[nights_csv.Problem]) -> str:
     """"1 bad row", "3 bad rows": the rows the problems are on."""
     count = len(_by_position(problems))
-    return f"{count} bad row{pluralize(count)}"
+    return f"{count:,} bad row{pluralize(count)}"
 
 
 def _by_position(problems: list[nights_csv.Problem]) -> list[tuple[int | None, str]]:
@@ -565,6 +565,28 @@ def service_record_log(
     return record
 
 
+def _limit_passed_without(record: ServiceRecord, performed_on: dt.date) -> dt.date | None:
+    """``limit_passed_before`` for work on ``record``'s plan done on ``performed_on`` in place of ``record``.
+
+    The stored due state counts from ``record`` itself (logging it restarted the plan), or from a later service, so it
+    cannot say when the limit this work answered was passed: that counts from the plan's last service before
+    ``performed_on``. The state is worked out again with ``record`` and the plan's services from ``performed_on`` on
+    left out, inside a savepoint rolled back at once: nothing of it is kept, neither the records left out nor the due
+    states, which the caller recomputes."""
+    if record.plan_id is None:
+        return None
+    set_aside = transaction.savepoint()
+    try:
+        # Counted as no service while the state is read (the recompute counts no withdrawn record).
+        ServiceRecord.objects.filter(
+            Q(pk=record.pk) | Q(plan=record.plan_id, performed_on__gte=performed_on)
+        ).update(void=True)
+        site_recompute(record.subsystem.telescope.site)
+        return limit_passed_before(record.plan, performed_on)
+    finally:
+        transaction.savepoint_rollback(set_aside)
+
+
 def service_record_correct(
     original: ServiceRecord, by, summary: str, performed_on: dt.date | None = None, hours_spent: float | None = None,
     findings: str = "", void: bool = False,
@@ -573,7 +595,10 @@ def service_record_correct(
 
     A new date is held to the rules of a new record (``service_date_problem``). The correction carries the original's
     work order: its hours stay in the order type's column of the reliability page, and the order's page and paper
-    show its hours as corrected (``workorders.selectors.hours_corrected``)."""
+    show its hours as corrected (``workorders.selectors.hours_corrected``). How late the work came
+    (``limit_passed_on``) is worked out again for the corrected date, as if the original had not been logged
+    (``_limit_passed_without``, one site recompute, only when the date changes): work moved before the limit was passed
+    was on time, work moved past it came late. A withdrawal records no work, so it is late by nothing."""
     if performed_on and performed_on != original.performed_on:
         problem = service_date_problem(original.subsystem.telescope.site, performed_on)
         if problem:
@@ -582,12 +607,15 @@ def service_record_correct(
         original = ServiceRecord.objects.select_for_update().get(pk=original.pk)
         if ServiceRecord.objects.filter(corrects=original).exists():
             raise ValidationError("this record has already been corrected; correct the newest record instead")
+        performed_on = performed_on or original.performed_on
         correction = ServiceRecord(
-            subsystem=original.subsystem, plan=original.plan,
-            performed_on=performed_on or original.performed_on, performed_by=original.performed_by,
+            subsystem=original.subsystem, plan=original.plan, performed_on=performed_on,
+            performed_by=original.performed_by,
             hours_spent=original.hours_spent if hours_spent is None else hours_spent,
             summary=summary, findings=findings, corrects=original, void=void, created_by=by,
-            repaired_failure=original.repaired_failure, limit_passed_on=original.limit_passed_on,
+            repaired_failure=original.repaired_failure,
+            limit_passed_on=(None if void else original.limit_passed_on if performed_on == original.performed_on
+                             else _limit_passed_without(original, performed_on)),
             work_order=original.work_order,
         )
         correction.full_clean()

@@ -43,7 +43,7 @@ def _form_errors_from(form, exc: ValidationError) -> None:
         form.add_error(None, message)
 
 
-def _already(when: dt.datetime | None, what: str) -> str:
+def already_logged_text(when: dt.datetime | None, what: str) -> str:
     """The answer to a form sent twice (``selectors.RESENT_WITHIN``): nothing stored the second time."""
     at = f" at {when:%H:%M}" if when else ""
     return f"{what} was already logged{at}, with the same values (the form was sent twice); nothing was added."
@@ -79,7 +79,7 @@ def service_log(request, pk):
         repeated = service_already_logged(subsystem, request.user, data["plan"], data["performed_on"], data["summary"],
                                           data["hours_spent"], data["findings"], timezone.now())
         if repeated:
-            messages.info(request, _already(repeated.created_at.astimezone(site.zone), "This service work"))
+            messages.info(request, already_logged_text(repeated.created_at.astimezone(site.zone), "This service work"))
             return redirect(subsystem)
         try:
             services.service_record_log(
@@ -136,7 +136,7 @@ def reading_log(request, pk):
             data = form.cleaned_data
             if reading_already_logged(subsystem, request.user, data["quantity"], data["value"], data["taken_at"],
                                       data["note"]):
-                messages.info(request, _already(None, "This reading"))
+                messages.info(request, already_logged_text(None, "This reading"))
                 return redirect(subsystem)
             try:
                 services.reading_log(
@@ -273,10 +273,13 @@ def night_log(request, slug):
     telescopes = list(site.telescopes.order_by("name").values_list("name", flat=True))
     stored = None
     if request.method == "GET" and request.GET.get("night"):
+        written = nights_csv.WRITTEN_DATE.fullmatch(request.GET["night"].strip())
         try:
-            night = dt.date.fromisoformat(request.GET["night"])
+            night = dt.date.fromisoformat(written.group()) if written else None
         except ValueError:
-            messages.warning(request, f"{request.GET['night']!r} is not a date as YYYY-MM-DD: a blank form instead.")
+            night = None
+        if night is None:
+            messages.warning(request, f"\"{request.GET['night']}\" is not a date as YYYY-MM-DD: a blank form instead.")
         else:
             whose = request.GET.get("telescope", "")
             mine = {"telescope__name": whose} if whose else {"telescope__isnull": True}

@@ -10,7 +10,7 @@ from observatory_ops.planning.admin import RecomputesSite
 from observatory_ops.registry.forms import ChoicesNamedWithSite, ProtectedNamed
 
 from . import services
-from .forms import CoatingEventAdminForm, MirrorAdminForm
+from .forms import MEASURABLE_NM, CoatingEventAdminForm, MeasurementChecks, MirrorAdminForm
 from .models import CleaningEvent, CoatingEvent, Mirror, RecoatPlan, ReflectanceMeasurement
 
 
@@ -83,12 +83,24 @@ class MirrorAdmin(ProtectedNamed, ChoicesNamedWithSite, RecomputesSite, SimpleHi
                 formset.restart(event, request.user)
 
 
-class MeasurementAdminForm(forms.ModelForm):
-    """A measurement's date follows the rule of every logged date, as on the mirror page (``services._check_date``)."""
+class MeasurementAdminForm(MeasurementChecks, forms.ModelForm):
+    """A measurement added here is held to what the mirror page's form holds it to (``MeasurementChecks``: the
+    wavelength's bounds, the question of a band mean above the fresh value, with its box), and its date to the rule
+    of every logged date (``services._check_date``)."""
 
     class Meta:
         model = ReflectanceMeasurement
         fields = "__all__"
+
+    def __init__(self, *args, **kwargs):
+        super().__init__(*args, **kwargs)
+        low, high = MEASURABLE_NM
+        self.fields["wavelength_nm"].help_text = (
+            f"Empty: averaged over the mirror's band. Otherwise the one wavelength measured, {low:g} to {high:g} nm."
+        )
+
+    def measured_mirror(self, data: dict) -> Mirror | None:
+        return data.get("mirror")
 
     def clean(self):
         data = super().clean()

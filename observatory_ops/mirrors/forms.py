@@ -9,7 +9,7 @@ from observatory_ops.logbook.forms import QuestionedValueMixin
 from observatory_ops.registry.models import Subsystem
 
 from . import layers_text, response_csv
-from .models import METAL_NAMES, TRAIN_KINDS, CleaningEvent, CoatingEvent, Mirror
+from .models import METAL_NAMES, TRAIN_KINDS, CleaningEvent, CoatingEvent, Mirror, ReflectanceMeasurement
 
 #: Wavelengths a single-wavelength measurement may be taken at: where the optical data of every coating
 #: material the app knows overlap (calc.coating), so a fresh value could be computed there for any recipe.
@@ -44,30 +44,19 @@ def above_fresh_problem(mirror: Mirror, day: dt.date, value: float) -> str:
     )
 
 
-class MeasurementForm(QuestionedValueMixin, forms.Form):
-    measured_on = forms.DateField(widget=forms.DateInput(attrs={"type": "date"}))
-    value = forms.FloatField(
-        min_value=0, max_value=1,
-        help_text="Reflectance as a fraction, e.g. 0.86: the band mean, or at the wavelength below.",
-    )
-    wavelength_nm = forms.FloatField(label="Wavelength (nm)", required=False)
-    position = forms.CharField(max_length=60, required=False)
-    instrument = forms.CharField(max_length=80, required=False)
+class MeasurementChecks(QuestionedValueMixin, forms.Form):
+    """What a reflectance measurement is held to wherever it is entered, the mirror page's form and the admin's add
+    page alike: a wavelength within ``MEASURABLE_NM``, and a band mean well above the fresh value of the coating asked
+    about (``value_confirmed``), not refused. ``measured_mirror`` says which mirror the form measures."""
+
     value_confirmed = forms.BooleanField(
         required=False, label="The value is right as measured",
         help_text="Asked only for a band mean well above the fresh value of the mirror's coating.",
     )
     questioned = forms.CharField(required=False, widget=forms.HiddenInput)
 
-    def __init__(self, *args, mirror: Mirror, **kwargs):
-        super().__init__(*args, **kwargs)
-        self.mirror = mirror
-        low, high = MEASURABLE_NM
-        self.fields["wavelength_nm"].help_text = (
-            f"Empty: averaged over the mirror's band from {mirror.band_from_nm:g} to {mirror.band_to_nm:g} nm. "
-            f"Otherwise the one wavelength measured, {low:g} to {high:g} nm: such a value is listed on the "
-            "mirror page but not fitted, since the decline is fitted to band means."
-        )
+    def measured_mirror(self, data: dict) -> Mirror | None:
+        raise NotImplementedError
 
     def clean_wavelength_nm(self) -> float | None:
         wavelength = self.cleaned_data["wavelength_nm"]
@@ -83,24 +72,63 @@ class MeasurementForm(QuestionedValueMixin, forms.Form):
         """A band mean above the fresh value of the coating in force that day by more than ``ABOVE_FRESH_MARGIN`` is
         asked about (``value_confirmed``), not refused: the fresh value is computed, the instrument may know better."""
         data = super().clean()
-        value, day = data.get("value"), data.get("measured_on")
-        asked = f"{day}={value!r}"
+        mirror, value, day = self.measured_mirror(data), data.get("value"), data.get("measured_on")
+        asked = f"{mirror.pk if mirror else ''}|{day}={value!r}"
         confirmed = self.confirmed_for(asked)
         for name in ("value_confirmed", "questioned"):
-            data.pop(name, None)  # not the measurement's: the view passes the rest to ``services.measurement_log``
-        if confirmed or value is None or day is None or data.get("wavelength_nm") is not None:
+            data.pop(name, None)  # not the measurement's: the rest is what is stored
+        if confirmed or mirror is None or value is None or day is None or data.get("wavelength_nm") is not None:
             return data
-        if problem := above_fresh_problem(self.mirror, day, value):
+        if problem := above_fresh_problem(mirror, day, value):
             self.add_error("value", f"{problem} If it is right, tick \"The value is right as measured\" and save it "
                                     "again.")
             self.ask_again(asked)
         return data
 
 
+class MeasurementForm(MeasurementChecks):
+    measured_on = forms.DateField(widget=forms.DateInput(attrs={"type": "date"}))
+    value = forms.FloatField(
+        min_value=0, max_value=1,
+        help_text="Reflectance as a fraction, e.g. 0.86: the band mean, or at the wavelength below.",
+    )
+    wavelength_nm = forms.FloatField(label="Wavelength (nm)", required=False)
+    position = forms.CharField(max_length=60, required=False)
+    instrument = forms.CharField(max_length=80, required=False)
+    field_order = ["measured_on", "value", "wavelength_nm", "position", "instrument"]  # the question's box last
+
+    def __init__(self, *args, mirror: Mirror, **kwargs):
+        super().__init__(*args, **kwargs)
+        self.mirror = mirror
+        low, high = MEASURABLE_NM
+        self.fields["wavelength_nm"].help_text = (
+            f"Empty: averaged over the mirror's band from {mirror.band_from_nm:g} to {mirror.band_to_nm:g} nm. "
+            f"Otherwise the one wavelength measured, {low:g} to {high:g} nm: such a value is listed on the "
+            "mirror page but not fitted, since the decline is fitted to band means."
+        )
+
+    def measured_mirror(self, data: dict) -> Mirror:
+        return self.mirror
+
+    def repeats(self, mirror: Mirror, by) -> ReflectanceMeasurement | None:
+        """The measurement this form, sent again, would repeat: the same person's measurement of this mirror entered
+        on this page with the same values, not withdrawn (one measurement, whenever it was stored; as the logbook's
+        ``selectors.reading_already_logged``); None when there is none. A second copy would count twice in the fit."""
+        return mirror.measurements.filter(
+            taken_by=by, reading__isnull=True, withdrawn_at__isnull=True, **self.cleaned_data
+        ).first()
+
+
 class CleaningForm(forms.Form):
     cleaned_on = forms.DateField(widget=forms.DateInput(attrs={"type": "date"}))
     method = forms.ChoiceField(choices=CleaningEvent.Method.choices)
     note = forms.CharField(max_length=200, required=False)
+
+    def repeats(self, mirror: Mirror, by) -> CleaningEvent | None:
+        """The cleaning this form, sent again, would repeat: a cleaning of this mirror logged on this page on the same
+        day with the same method and note, by whoever logged it (the event is the mirror's, and keeps no person); None
+        when there is none. A second copy would restart the cleaning plans twice and list two cleanings."""
+        return mirror.cleanings.filter(work_order__isnull=True, **self.cleaned_data).first()
 
 
 #: The last day the recoat planner may start from.
@@ -230,6 +258,12 @@ class CoatingForm(RecipeForm):
     )
     note = forms.CharField(max_length=200, required=False)
     field_order = ["coated_on", "metal", "layers", "note"]
+
+    def repeats(self, mirror: Mirror, by) -> CoatingEvent | None:
+        """The coating this form, sent again, would repeat: one of this mirror on the same day with the same recipe and
+        note, by whoever logged it (the event keeps no person); None when there is none. A second copy would restart
+        the recoat plans twice."""
+        return mirror.coatings.filter(**self.cleaned_data).first()
 
 
 #: A band edge or step typed as nan, inf or a number too large for a float.

@@ -8,6 +8,7 @@ from __future__ import annotations
 import csv
 import io
 import math
+from collections.abc import Iterator
 
 import numpy as np
 
@@ -25,15 +26,15 @@ def parse(data: bytes) -> tuple[np.ndarray, np.ndarray]:
         text = data.decode("utf-8-sig")
     except UnicodeDecodeError:
         raise ValueError("the response file is not UTF-8 text") from None
-    reader = csv.reader(io.StringIO(text))
-    header = [h.strip().lower() for h in next(reader, [])]
+    rows = _rows(text)
+    _line, first_row = next(rows, (1, []))
+    header = [h.strip().lower() for h in first_row]
     if sorted(header) != ["wavelength_nm", "weight"]:
         raise ValueError("line 1: the header must name exactly the columns wavelength_nm and weight")
     waves, weights = [], []
-    for row in reader:
+    for line, row in rows:
         if not any(c.strip() for c in row):
             continue
-        line = reader.line_num
         if len(row) != 2:
             raise ValueError(f"line {line}: expected 2 fields, found {len(row)}")
         record = dict(zip(header, row, strict=True))
@@ -50,3 +51,22 @@ def parse(data: bytes) -> tuple[np.ndarray, np.ndarray]:
     if len(waves) < 2 or not any(weights):
         raise ValueError("the response needs at least two rows and a weight above zero")
     return np.array(waves), np.array(weights)
+
+
+def _rows(text: str) -> Iterator[tuple[int, list[str]]]:
+    """Each row of the file with the number of the line it ends on; ValueError naming the line that is not CSV.
+
+    Line ends are read as such (universal newlines: a file saved with carriage returns alone reads as lines), and
+    ``parse`` has refused NUL bytes, so the one error Python's csv module has left to raise is a cell over its field
+    limit: most often a quote never closed, which runs one cell on line after line.
+    """
+    reader = csv.reader(io.StringIO(text, newline=None))
+    while True:
+        try:
+            row = next(reader)
+        except StopIteration:
+            return
+        except csv.Error:
+            raise ValueError(f"line {reader.line_num}: a cell is longer than {csv.field_size_limit():,} characters, "
+                             "the most one cell may hold (is a quote left open?)") from None
+        yield reader.line_num, row

@@ -7,6 +7,16 @@ from observatory_ops.logbook import services
 from observatory_ops.registry.models import Site
 
 
+def _not_a_file(path: Path) -> str:
+    """What the path names instead of a file to read, in words: the command is often given a folder or a device by
+    mistake, and "no such file" would send whoever typed it looking for a file that is there."""
+    if path.is_dir():
+        return "is a directory, not a file; give the path of a CSV file"
+    if path.exists():
+        return "is not a regular file (a device, a pipe or a socket); give the path of a CSV file"
+    return "no such file"
+
+
 class Command(BaseCommand):
     help = "Import nightly usage from a CSV file (format in README.md). All or nothing unless --skip-bad."
 
@@ -22,13 +32,17 @@ class Command(BaseCommand):
             raise CommandError(f"no site with slug {site!r} (known: {known})")
         path = Path(file)
         if not path.is_file():
-            raise CommandError(f"{file}: no such file")
+            raise CommandError(f"{file}: {_not_a_file(path)}")
 
         def progress(done, total):
-            self.stderr.write(f"\r  {done}/{total} rows checked and written", ending="\n" if done == total else "")
+            self.stderr.write(f"\r  {done:,}/{total:,} rows checked and written", ending="\n" if done == total else "")
             self.stderr.flush()
 
-        report = services.nights_import(target, path.read_bytes(), skip_bad=skip_bad, progress=progress)
+        try:
+            data = path.read_bytes()
+        except OSError as exc:  # no permission to read it, or a disk error
+            raise CommandError(f"{file}: cannot be read ({exc.strerror})") from None
+        report = services.nights_import(target, data, skip_bad=skip_bad, progress=progress)
         if report.file_problem:  # the whole file is refused: no line to name (the summary says why)
             raise CommandError(f"{file}: {report.summary}")
         for line, reason in report.errors or report.skipped:
@@ -41,4 +55,5 @@ class Command(BaseCommand):
             self.stdout.write(f"updated night {services.night_named(night, telescope)}: {'; '.join(changed)}")
         self.stdout.write(f"{file}: {report.summary}")
         count = len(report.updated_nights)
-        self.stdout.write(f"Changed {count or 'no'} stored night{pluralize(count)}.")
+        how_many = f"{count:,}" if count else "no"
+        self.stdout.write(f"Changed {how_many} stored night{pluralize(count)}.")
