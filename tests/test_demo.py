@@ -156,3 +156,30 @@ def test_the_demo_loaded_once_loads_again_whatever_users_were_added_to_it_since(
     out = StringIO()
     call_command("demo", "--no-serve", stdout=out)
     assert "Already loaded: Vestal Ridge Observatory" in out.getvalue()
+
+
+def test_no_page_of_a_demo_orders_paper_ends_on_a_heading():
+    """A safety review printed the demo's cleaning order and found "Mirror cleaning - tick one for each mirror" alone
+    at the foot of page 3, its tick boxes on page 4. Every demo order's paper, page by page (read with pypdf)."""
+    import io
+    import re
+
+    from pypdf import PdfReader
+
+    from observatory_ops.workorders.models import WorkOrder
+    from observatory_ops.workorders.pdf import render_sheet
+    from observatory_ops.workorders.selectors import sheet
+
+    call_command("demo", "--no-serve", stdout=StringIO())
+    headings = ("Mirror cleaning", "Steps", "Energy isolation", "Parts", "Tools", "Readings", "Lifting figures",
+                "Sign-off", "What a competent person must check")
+    ended = []
+    for order in WorkOrder.objects.filter(site__slug=SITE_SLUG).order_by("pk"):
+        pages = PdfReader(io.BytesIO(render_sheet(sheet(order, "http://x/")))).pages
+        for number, page in enumerate(pages[:-1], start=1):
+            body = [line for line in page.extract_text().splitlines()  # less the running header and footer
+                    if line.strip() and not line.startswith("Work order ") and not re.fullmatch(r"page \d+ of \d+",
+                                                                                                 line.strip())]
+            if body and body[-1].startswith(headings):
+                ended.append((order.number, number, body[-1]))
+    assert not ended, ended

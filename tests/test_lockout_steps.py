@@ -283,6 +283,29 @@ def test_a_plans_locked_out_work_moved_before_the_lockout_is_refused_by_name(ord
         services.work_order_move(order, "start", users["technician"])
 
 
+def test_the_release_deleted_before_steps_that_bring_energy_back_is_refused_on_save_and_on_issue(
+    order, users, client  # noqa: F811
+):
+    """A safety review deleted the step that removes the locks: the restoring steps after it then counted as locked-out
+    work and were ticked while another crew was locked out, and the order finished with nothing asked about locks."""
+    powered, work, restore = _groups(order)
+    assert restore  # the drive's order brings power back and hands the telescope back after its release
+    no_release = [*powered, LOCKOUT, *work, *restore]
+    client.force_login(users["engineer"])
+    before = order.step_list
+    page = html.unescape(_edit(client, order, no_release).content.decode())
+    first = len(powered) + len(work) + 2
+    assert (f"Step {first} (\"{restore[0][:79]}") in page and "brings energy or service back after the lockout, but " \
+        "no step before it removes the locks" in page
+    assert WorkOrder.objects.get(pk=order.pk).step_list == before
+    order.steps = "\n".join(no_release)  # stored outside the form
+    order.save()
+    with pytest.raises(services.Refused, match=rf"cannot be issued: step {first} \("):
+        services.work_order_move(order, "issue", users["engineer"])
+    # Work that ends locked out in words of its own, with nothing restored after it, stays the engineer's to write.
+    assert services.lockout_sequence_problem(order.hazards, [*powered, LOCKOUT, *work], []) == ""
+
+
 def test_a_lockout_with_nothing_done_under_it_is_refused(order, users, client):  # noqa: F811
     powered, work, restore = _groups(order)
     client.force_login(users["engineer"])

@@ -29,6 +29,7 @@ from observatory_ops.registry.catalogue import (
     HAND_BACK,
     KINDS,
     RELEASE,
+    RELEASE_AT_REINSTALL,
     RELEASE_STEPS,
     RESTORES_BRAKE_AIR,
     is_release_step,
@@ -159,8 +160,9 @@ def test_an_order_over_a_drive_a_dome_and_a_hoist_removes_the_locks_once_naming_
 
 
 def test_every_wording_of_the_release_is_recognised_and_placed_as_the_release():
-    # Every non-empty set of moving things, with or without the out-of-service tag that stays.
-    assert len(RELEASE_STEPS) == 2 * (2 ** len(CLEAR_OF) - 1)
+    # Every non-empty set of moving things, with or without the out-of-service tag that stays; and the recoat
+    # reinstall's own, which takes off the removal's long-term locks and pins too.
+    assert len(RELEASE_STEPS) == 2 * (2 ** len(CLEAR_OF) - 1) + 1 and RELEASE_AT_REINSTALL in RELEASE_STEPS
     assert not is_release_step(LOCKOUT) and not is_release_step(BACK_IN_SERVICE) and not is_release_step("")
     dome_release = release_step(["enclosure"])
     # Before the lockout it is refused as the telescope's is; after it, it closes the locked-out work.
@@ -389,6 +391,14 @@ def test_a_recoat_removal_keeping_its_locks_on_is_not_asked_for_the_air(telescop
     mirror = Mirror.objects.create(subsystem=primary, diameter_mm=500, thickness_mm=50, material="borosilicate")
     plan = mirror_services.recoat_plan_create(mirror, dt.date(2026, 8, 3), list(RECOAT_PHASES), 3.0, users["engineer"])
     assert all(selectors.lockout_step_warning(order) == "" for order in plan.work_orders.all())
+    # The reinstall's release, in its own words, ends its locked-out work: its brake air and first moves under power
+    # come after it, so they wait while another crew is locked out (a safety review found them counted as
+    # locked-out work).
+    reinstall = next(o for o in plan.work_orders.all() if RELEASE_AT_REINSTALL in o.step_list)
+    steps = reinstall.step_list
+    release = steps.index(RELEASE_AT_REINSTALL)
+    assert services.isolated_steps(steps)[1].stop == release
+    assert services.held_for_other_crews(steps) == set(range(release + 1, len(steps)))
 
 
 def test_hazards_brought_up_to_date_on_hand_written_steps_name_the_air_step_to_put_in(

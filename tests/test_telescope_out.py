@@ -102,6 +102,38 @@ def test_once_the_removal_is_finished_other_work_on_the_telescope_carries_the_no
     assert OUT not in _text(client.get(recoat["reinstall"].get_absolute_url()))
 
 
+def test_with_the_mirror_out_starting_asks_and_nothing_that_brings_energy_back_is_ticked(
+    recoat, other_work, site, users, client
+):
+    """A safety review started drive work on a telescope whose mirror was out and ticked its brake air, its test
+    under power and the hand-back to robotic control: only the notice stood in the way. Starting now asks, and the
+    steps after the release (``services.held_for_other_crews``) are held until the reinstall is finished; the
+    order's own locks come off freely."""
+    from test_work_alongside import _tick_through
+
+    _finish(recoat["removal"], users)
+    order = WorkOrder.objects.get(pk=other_work.pk)
+    questions = selectors.start_questions(order)
+    assert len(questions) == 1 and questions[0].startswith(f"{OUT}. ") and questions[0].endswith("Start anyway?")
+    client.force_login(users["technician"])
+    response = client.post(f"/workorders/{order.pk}/move/start/", {"go": "start"})
+    assert response.status_code == 200 and OUT in _text(response)
+    assert WorkOrder.objects.get(pk=order.pk).state == "issued"
+    response = client.post(f"/workorders/{order.pk}/move/start/", {"asked": "confirmed"})
+    assert response.status_code == 302
+    order = WorkOrder.objects.get(pk=order.pk)
+    release = services.isolated_steps(order.step_list)[1].stop
+    _tick_through(order, users, release)
+    with pytest.raises(services.Refused, match=rf"step {release + 2} brings energy back or hands the telescope back, "
+                                               r"and T1 is out of service: its primary mirror is out: .* Leave this "
+                                               "step until the reinstall is finished"):
+        services.checklist_tick_set(order, "step", release + 1, True, users["technician"])
+    # Once the reinstall is finished the telescope is balanced again: the step goes on.
+    _finish(recoat["coating"], users)
+    _finish(recoat["reinstall"], users)
+    services.checklist_tick_set(order, "step", release + 1, True, users["technician"])
+
+
 def test_the_dashboard_and_the_due_list_say_which_telescope_stands_without_its_mirror(
     recoat, site, users, client
 ):

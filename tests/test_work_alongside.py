@@ -178,10 +178,50 @@ def test_an_order_without_a_lockout_does_not_hand_the_telescope_back_while_anoth
     for step in range(len(steps) - 1):  # its own work is free
         services.checklist_tick_set(camera_order, "step", step, True, users["technician"])
     with pytest.raises(services.Refused, match=(
-            f"step {len(steps)} puts the telescope back in service or under robotic control, and another crew is "
-            f"still locked out on this telescope: {drive_order.number}")):
+            f"step {len(steps)} hands the observatory back to robotic and remote control, and another crew is "
+            f"still at work on this telescope: {drive_order.number}")):
         services.checklist_tick_set(camera_order, "step", len(steps) - 1, True, users["technician"])
     with pytest.raises(services.Refused, match="steps that wait for the locks to come off are not ticked"):
         services.work_order_finish(camera_order, users["technician"], 1.0, "ok", _all_readings(camera_order, 0.6),
                                    confirmed_unticked=[HAND_BACK])
     assert WorkOrder.objects.get(pk=camera_order.pk).state == State.UNDERWAY
+
+
+def test_the_observatory_goes_back_to_robotic_control_only_when_no_other_crew_has_work_left(
+    order, fans_order, users  # noqa: F811
+):
+    """A safety review: a crew that had only taken the observatory out of robotic control and parked (under power, no
+    locks on) was at the telescope when the other order's hand-back was ticked. The hand-back waits until every other
+    crew on the telescope has ticked all its work; the last crew out hands it back (common practice, no published
+    source). Two crews both done may each tick their own."""
+    services.work_order_move(fans_order, "start", users["technician"])
+    drive_order = _issued(order, users)
+    services.work_order_move(drive_order, "start", users["technician"])
+    fans_order, drive_order = (WorkOrder.objects.get(pk=o.pk) for o in (fans_order, drive_order))
+    services.checklist_tick_set(fans_order, "step", 0, True, users["technician"])  # out of control, under power
+    assert fans_order.step_list[-1] == drive_order.step_list[-1] == HAND_BACK
+    last = len(drive_order.step_list) - 1
+    _tick_through(drive_order, users, last - 1)  # all its work, its own locks off: the fans crew holds no locks
+    assert services.still_locked_out(drive_order) == []
+    with pytest.raises(services.Refused) as refused:
+        services.checklist_tick_set(drive_order, "step", last, True, users["technician"])
+    assert str(refused.value) == (
+        f"step {last + 1} hands the observatory back to robotic and remote control, and another crew is still at work "
+        f"on this telescope: {fans_order.number} {fans_order.title} (on T1), its work not all ticked. Agree with that "
+        "crew; tick this once they have ticked all their work (the last crew out hands the observatory back), with "
+        "everyone clear")
+    from test_workorders import _all_readings
+
+    with pytest.raises(services.Refused, match="the hand-back to robotic and remote control, is not ticked while "
+                                               f"another crew still has work to do on this telescope: "
+                                               f"{fans_order.number}"):
+        services.work_order_finish(drive_order, users["technician"], 1.0, "ok", _all_readings(drive_order, 0.6),
+                                   confirmed_unticked=[HAND_BACK])
+    # The fans crew finishes its work up to its own hand-back: both may now hand back, whichever is last.
+    fans_last = len(fans_order.step_list) - 1
+    for point in selectors.isolation_points(fans_order):
+        services.checklist_tick_set(fans_order, "point", point.pk, True, users["technician"])
+    for step in range(1, fans_last):
+        services.checklist_tick_set(fans_order, "step", step, True, users["technician"])
+    services.checklist_tick_set(drive_order, "step", last, True, users["technician"])
+    services.checklist_tick_set(fans_order, "step", fans_last, True, users["technician"])

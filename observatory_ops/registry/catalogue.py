@@ -136,12 +136,19 @@ def release_step(moving: Iterable[str], tagged_out: bool = False) -> str:
 #: writes it once (workorders.services), after all their locked-out work, in the words of what its subsystems can set
 #: moving (``release_step_for``); the plans keep this one as the place it goes.
 RELEASE = release_step(["telescope"])
+#: The release of a recoat's reinstall order (mirrors.services), in its own words: it removes the pins and the
+#: site's long-term locks of the removal too. The removal's own release leaves the locks on, so it is no release.
+RELEASE_AT_REINSTALL = (
+    "Only when both axes are balanced and everyone is clear, remove the pins, the locks (the site's "
+    "long-term locks from the removal too) and the tags as the site's lockout procedure says."
+)
 #: Every wording of the release step an order can carry (``is_release_step``): each set of moving things, with or
-#: without the out-of-service tag that stays.
+#: without the out-of-service tag that stays, and the reinstall's. A safety review found the reinstall's unread: its
+#: brake air and first moves under power counted as locked-out work, free to tick while another crew was locked out.
 RELEASE_STEPS: frozenset[str] = frozenset(
     release_step(keys, tagged_out)
     for count in range(1, len(CLEAR_OF) + 1) for keys in combinations(CLEAR_OF, count) for tagged_out in (False, True)
-)
+) | {RELEASE_AT_REINSTALL}
 
 
 def is_release_step(text: str) -> bool:

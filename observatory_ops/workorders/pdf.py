@@ -763,10 +763,13 @@ def _cleanings(sheet: Sheet) -> list[Flowable]:
         ]
     if not sheet.cleaning_to_record:
         return []
-    story: list[Flowable] = [_heading("Mirror cleaning \N{EN DASH} tick one for each mirror")]
+    story: list[Flowable] = []
+    heading = [_heading("Mirror cleaning \N{EN DASH} tick one for each mirror")]
     for mirror, answers in sheet.cleaning_to_record:  # a mirror's choices are one question: never split
-        story.append(KeepTogether([_Paragraph(_text(mirror), _SUBHEADING),
+        # The heading goes with the first mirror's choices (a reviewer found it alone at a page foot).
+        story.append(KeepTogether([*heading, _Paragraph(_text(mirror), _SUBHEADING),
                                    *(_Ticked(_para(answer, _ITEM)) for answer in answers)]))
+        heading = []
     return story
 
 

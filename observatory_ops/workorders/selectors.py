@@ -712,6 +712,21 @@ class ChecklistLine:
         return self.kind == STEP and is_lockout_step(self.text)
 
     @property
+    def confirm_tick(self) -> str:
+        """What ticking this line asks first on a touch screen, where a tap on its words ticks it: the lockout and the
+        removal of the locks, whose ticks let other steps go on (a safety review recorded a lock removal by an
+        accidental tap, which let another crew's brake air be ticked). "" for any other line."""
+        if self.kind != STEP:
+            return ""
+        if is_lockout_step(self.text):
+            return ("Record the lockout: every isolation point locked and tagged by each of you, and the energy "
+                    "proved to be off?")
+        if catalogue.is_release_step(self.text):
+            return ("Record that your locks and tags are off: the work is done and everyone is clear? The steps after "
+                    "this bring energy back.")
+        return ""
+
+    @property
     def anchor(self) -> str:
         return line_anchor(self.kind, self.key)
 
@@ -731,6 +746,11 @@ class Checklist:
 def line_anchor(kind: str, key: int) -> str:
     """The id of a checklist line on the work order page (step numbers count from 1, as printed)."""
     return f"step-{key + 1}" if kind == STEP else f"point-{key}"
+
+
+def unlabelled(line: str) -> str:
+    """A step without the "[plan label] " an order of several plans puts before it (services._labelled)."""
+    return line.split("] ", 1)[1] if line.startswith("[") and "] " in line else line
 
 
 def latest_ticks(order: WorkOrder) -> dict[tuple[str, int | None], ChecklistTick]:
@@ -1331,13 +1351,28 @@ class Alongside(NamedTuple):
     order: WorkOrder
     telescopes: list[str]  # the telescopes the two share, by name
     lockout_ticked: bool | None  # its lockout step ticked; None when it has none
+    released: bool = False  # the step that removes its locks ticked, in its present words
+    work_left: bool = True  # a step other than the hand-back to robotic control (catalogue.HAND_BACK) not ticked
+
+    @property
+    def locked_out(self) -> bool:
+        """Its crew is locked out: its lockout ticked and the removal of its locks not (an order without a release
+        step, whose locked-out work runs to its end, stays locked out until it is finished)."""
+        return bool(self.lockout_ticked) and not self.released
 
     def text(self, zone: dt.tzinfo) -> str:
         started = self.order.started_at and dateformat.format(self.order.started_at.astimezone(zone), "d M Y H:i")
-        lockout = {True: "its lockout is ticked", False: "its lockout is not ticked yet", None: "it has no lockout"}
+        if self.lockout_ticked is None:
+            lockout = "it has no lockout"
+        elif not self.lockout_ticked:
+            lockout = "its lockout is not ticked yet"
+        elif self.locked_out:
+            lockout = "its lockout is ticked: its crew is locked out"
+        else:
+            lockout = "its lockout is ticked and the removal of its locks too: its locks are off"
         who = f", assigned to {person(self.order.assignee)}" if self.order.assignee_id else ""
         return (f"{self.order.number} {self.order.title} (on {', '.join(self.telescopes)}; started {started}{who}; "
-                f"{lockout[self.lockout_ticked]})")
+                f"{lockout})")
 
 
 def work_alongside(order: WorkOrder, items: list[WorkOrderItem] | None = None,
@@ -1366,12 +1401,20 @@ def work_alongside(order: WorkOrder, items: list[WorkOrderItem] | None = None,
         shared = sorted(t.name for t in theirs if order.site.shared_enclosure or t.pk in mine)
         if not shared:
             continue
-        lockout = next((i for i, step in enumerate(other.step_list) if is_lockout_step(step)), None)
-        ticked = None
+        steps = other.step_list
+        ticks = latest_ticks(other)
+        done = {key for (kind, key), tick in ticks.items()
+                if kind == STEP and tick.ticked and key is not None and key < len(steps) and tick.text == steps[key]}
+        lockout = next((i for i, step in enumerate(steps) if is_lockout_step(step)), None)
+        ticked = released = None
         if lockout is not None:
-            tick = latest_ticks(other).get((STEP, lockout))
+            tick = ticks.get((STEP, lockout))
             ticked = bool(tick and tick.ticked)
-        alongside.append(Alongside(other, shared, ticked))
+            release = next((i for i in range(lockout + 1, len(steps)) if catalogue.is_release_step(steps[i])), None)
+            released = release is not None and release in done
+        work_left = any(i not in done and unlabelled(step).strip() != catalogue.HAND_BACK
+                        for i, step in enumerate(steps))
+        alongside.append(Alongside(other, shared, ticked, bool(released), work_left))
     return alongside
 
 
@@ -1412,11 +1455,15 @@ def shared_telescopes(alongside: Sequence[Alongside]) -> str:
 
 def start_questions(order: WorkOrder) -> list[str]:
     """What starting ``order`` asks first, on a page of its own, before it starts: an early start
-    (``early_start_question``) and other work underway on its telescopes (``work_alongside``). Empty when nothing is
+    (``early_start_question``), a telescope whose primary mirror is out (``telescope_out_notices``) and other work
+    underway on its telescopes (``work_alongside``). Empty when nothing is
     asked (or while its start is held: it is refused in those words)."""
     if order.state != State.ISSUED or "start" in moves_held(order):
         return []
     questions = [question] if (question := early_start_question(order)) else []
+    # A telescope out of balance (its primary out for a recoat): the page and paper say so; starting asks too.
+    questions += [f"{title}. {body} Its steps that bring energy back or hand the telescope back are held until the "
+                  "reinstall is finished. Start anyway?" for title, body, _todo in telescope_out_notices(order)]
     if alongside := work_alongside(order, starting=True):
         questions.append(ALONGSIDE_START_QUESTION.format(
             orders=", ".join(a.order.number for a in alongside), verb="is" if len(alongside) == 1 else "are",

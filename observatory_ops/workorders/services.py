@@ -37,6 +37,7 @@ from observatory_ops.registry.catalogue import (
     PARK_AT_SERVICE,
     PARK_PLAIN,
     RELEASE,
+    RESTORE,
     RESTORES_BRAKE_AIR,
     RETURNS_TO_SERVICE,
     TAKES_OUT_OF_CONTROL,
@@ -87,6 +88,8 @@ from .selectors import (
     order_plans,
     register_part,
     second_person_refusal,
+    telescope_out_notices,
+    unlabelled,
     unticked_lines,
     work_alongside,
 )
@@ -125,11 +128,14 @@ def lockout_sequence_problem(hazards: Sequence[str], steps: Sequence[str], plans
     """Why an order's steps, where its hazards call for isolation, do not isolate the energy in sequence; "" when they
     do (or no step is the lockout step: ``lockout_missing`` says that).
 
-    Three things are refused, in this order: the step that removes the locks (``catalogue.is_release_step``) before the
-    lockout step; a step of a plan's work (``ServicePlan.steps``, done locked out, as ``steps_in_groups`` places it),
-    in its words or under its plan's "[label]", standing before the lockout step or after the release; and no step at
-    all between the two (nothing is done locked out). A step the engineer wrote in words of their own is placed by the
-    engineer.
+    Four things are refused, in this order: the step that removes the locks (``catalogue.is_release_step``) before the
+    lockout step; a step that brings energy or service back (``catalogue.RESTORE``, ``RETURNS_TO_SERVICE``: brake air,
+    a test under power, the return to robotic control) after the lockout with no release before it, which would count
+    as locked-out work, ticked while the locks are still on (a safety review deleted the release: the restoring steps
+    were then ticked while another crew was locked out); a step of a plan's work (``ServicePlan.steps``, done locked
+    out, as ``steps_in_groups`` places it), in its words or under its plan's "[label]", standing before the lockout
+    step or after the release; and no step at all between the two (nothing is done locked out). A step the engineer
+    wrote in words of their own is placed by the engineer.
     """
     if not needs_isolation(hazards):
         return ""
@@ -142,13 +148,19 @@ def lockout_sequence_problem(hazards: Sequence[str], steps: Sequence[str], plans
     if early is not None:
         return (f"Step {early + 1} removes the locks, but the energy is isolated only at step {lockout + 1} (the "
                 "lockout step): put the lockout step after the steps done under power and before the work.")
+    if locked_out.stop == len(lines):
+        restoring = next((i for i in locked_out if unlabelled(lines[i]) in RESTORE | RETURNS_TO_SERVICE), None)
+        if restoring is not None:
+            return (f"Step {restoring + 1} (\"{_shortened(unlabelled(lines[restoring]))}\") brings energy or service "
+                    "back after the lockout, but no step before it removes the locks: put the step that removes the "
+                    "locks (\"When the work is done and everyone is clear ..., remove the locks and tags ...\") "
+                    "after the work and before it.")
     work = _locked_out_work(plans)
     for i, line in enumerate(lines):
-        if i not in locked_out and i != lockout and _unlabelled(line) in work:
+        if i not in locked_out and i != lockout and unlabelled(line) in work:
             where = (f"before the lockout (step {lockout + 1})" if i < lockout
                      else f"after the locks come off (step {locked_out.stop + 1})")
-            named = _unlabelled(line)
-            named = named if len(named) <= 80 else f"{named[:79].rstrip()}…"
+            named = _shortened(unlabelled(line))
             return (f"Step {i + 1} (\"{named}\") is work its plan does with the energy isolated, but "
                     f"it stands {where}: move it between the lockout step and the step that removes the locks.")
     if not locked_out:
@@ -159,6 +171,11 @@ def lockout_sequence_problem(hazards: Sequence[str], steps: Sequence[str], plans
     return ""
 
 
+def _shortened(step: str) -> str:
+    """A step's words as a refusal quotes them: at most 80 characters."""
+    return step if len(step) <= 80 else f"{step[:79].rstrip()}…"
+
+
 def _locked_out_work(plans: Sequence[ServicePlan]) -> set[str]:
     """The steps the plans do locked out (``_steps_for``), less any that a plan also does under power or after."""
     work, other = set(), set()
@@ -167,11 +184,6 @@ def _locked_out_work(plans: Sequence[ServicePlan]) -> set[str]:
         work.update(during or ([] if before or after else [plan.task or plan.name]))
         other.update(before + after)
     return {step for step in work - other if not _orders_own(step)}
-
-
-def _unlabelled(line: str) -> str:
-    """A step without the "[plan label] " an order of several plans puts before it (``_labelled``)."""
-    return line.split("] ", 1)[1] if line.startswith("[") and "] " in line else line
 
 
 def steps_in_groups(
@@ -207,7 +219,7 @@ def brake_air_back(subsystems: Sequence[Subsystem], hazards: Sequence[str], rest
     made, as its steps are, and the order's ``hazards`` for each of its telescopes: it is asked before the order
     exists, and by the edit form, where nothing says which telescope's work a hazard is (the warning judges each
     telescope by the hazards of the work there, ``selectors._hazards_by_telescope``)."""
-    steps = {_unlabelled(step).strip() for step in restore}
+    steps = {unlabelled(step).strip() for step in restore}
     if not needs_isolation(hazards) or BRAKE_AIR_BACK in steps:
         return False
     telescopes = {s.telescope_id for s in subsystems}
@@ -304,7 +316,7 @@ def _orders_own(step: str) -> bool:
 def _handed_back(lines: list[str]) -> list[str]:
     """An order's steps with ``catalogue.HAND_BACK`` last where a step takes the observatory out of robotic and remote
     control (``catalogue.TAKES_OUT_OF_CONTROL``, a plan label before it ignored) and none yet hands it back."""
-    plain = {_unlabelled(line).strip() for line in lines}
+    plain = {unlabelled(line).strip() for line in lines}
     return [*lines, HAND_BACK] if plain & TAKES_OUT_OF_CONTROL and HAND_BACK not in plain else lines
 
 
@@ -316,7 +328,7 @@ def _out_of_control_once(run: list[tuple[ServicePlan, str]], labels: dict[int, s
     parking or closing written once for the telescope. ``HAND_BACK`` stays the one step that returns it, at the end.
     Only the catalogue's wordings are taken apart: a step the site wrote in words of its own stays as it was."""
     lines = _shared_once(run, labels, several)
-    if sum(_unlabelled(line).strip() in TAKES_OUT_OF_CONTROL for line in lines) < 2:
+    if sum(unlabelled(line).strip() in TAKES_OUT_OF_CONTROL for line in lines) < 2:
         return lines
     at_service = {plan.subsystem.telescope_id for plan, step in run if step == PARK_AT_SERVICE}
 
@@ -880,6 +892,15 @@ def work_order_finish(
                 + "; ".join(f"{a.order.number} {a.order.title}" for a in held)
                 + ". Finish once they have removed their locks and ticked that on their order"
             )
+        hand_back = [line for line in unticked
+                     if line.kind == ChecklistTick.Kind.STEP and unlabelled(line.text).strip() == HAND_BACK]
+        if hand_back and (working := still_working(order)):
+            raise Refused(
+                f"{hand_back[0].label.lower()}, the hand-back to robotic and remote control, is not ticked while "
+                "another crew still has work to do on this telescope: "
+                + "; ".join(f"{a.order.number} {a.order.title}" for a in working)
+                + ". Finish once they have ticked all their work (the last crew out hands the observatory back)"
+            )
         unconfirmed = [line for line in others if line.text not in seen]
         if unconfirmed:
             raise Refused(
@@ -1019,7 +1040,8 @@ def checklist_tick_set(
             raise Refused(f"{what} is {'already ticked' if ticked else 'not ticked'}")
         if refusal := _lockout_sequence_refusal(current, entry.line, ticked, what, ticks):
             raise Refused(refusal)
-        if ticked and kind == ChecklistTick.Kind.STEP and (refusal := _others_locked_out_refusal(current, key)):
+        if ticked and kind == ChecklistTick.Kind.STEP and (refusal := _others_locked_out_refusal(current, key)
+                                                           or _telescope_out_refusal(current, key)):
             raise Refused(refusal)
         entry._history_user = by
         entry.save()
@@ -1028,19 +1050,18 @@ def checklist_tick_set(
 
 def still_locked_out(order: WorkOrder) -> list:
     """The other orders underway on a telescope ``order`` works on (``selectors.work_alongside``) whose crews are still
-    locked out: their lockout step is ticked and the step that removes their locks is not (an order without one,
-    whose locked-out work runs to its end, counts as locked out until it is finished: ``isolated_steps``)."""
-    held = []
-    for other in work_alongside(order):
-        if not other.lockout_ticked:
-            continue
-        steps = other.order.step_list
-        found = isolated_steps(steps)
-        release = found[1].stop if found else len(steps)
-        tick = latest_ticks(other.order).get((ChecklistTick.Kind.STEP, release)) if release < len(steps) else None
-        if not (tick and tick.ticked and tick.text == steps[release]):
-            held.append(other)
-    return held
+    locked out (``Alongside.locked_out``): their lockout step is ticked and the step that removes their locks is not
+    (an order without one, whose locked-out work runs to its end, counts as locked out until it is finished)."""
+    return [other for other in work_alongside(order) if other.locked_out]
+
+
+def still_working(order: WorkOrder) -> list:
+    """The other orders underway on a telescope ``order`` works on whose crews still have work to do there
+    (``Alongside.work_left``: a step other than their own hand-back not ticked), locked out or not. The observatory
+    goes back to robotic and remote control only when they are done: remote users would otherwise move a telescope
+    with a crew at it (a safety review: one order handed it back while another crew, under power, had only taken it
+    out of control). The last crew out hands it back; common practice, no published source."""
+    return [other for other in work_alongside(order) if other.work_left]
 
 
 def held_for_other_crews(steps: Sequence[str]) -> set[int]:
@@ -1057,29 +1078,59 @@ def held_for_other_crews(steps: Sequence[str]) -> set[int]:
         release = found[1].stop
         return set(range(release + 1, len(steps))) if release < len(steps) else set()
     returning = RETURNS_TO_SERVICE | {HAND_BACK}
-    return {index for index, step in enumerate(steps) if _unlabelled(step).strip() in returning}
+    return {index for index, step in enumerate(steps) if unlabelled(step).strip() in returning}
 
 
 def _others_locked_out_refusal(order: WorkOrder, key: int) -> str:
-    """Why step ``key`` of ``order`` may not be ticked yet: it is held for other crews (``held_for_other_crews``) and
-    another crew on the telescope is still locked out (``still_locked_out``). Removing one's own locks stays free:
-    each person removes their own (OSHA 29 CFR 1910.147(e)(3) and (f)(3), group lockout). "" when nothing holds
-    it."""
-    if key not in held_for_other_crews(order.step_list):
+    """Why step ``key`` of ``order`` may not be ticked yet: it hands the observatory back to robotic control
+    (``catalogue.HAND_BACK``) while another crew still has work to do on the telescope (``still_working``), or it is
+    held for other crews (``held_for_other_crews``) while another crew is still locked out (``still_locked_out``).
+    Removing one's own locks stays free: each person removes their own (OSHA 29 CFR 1910.147(e)(3) and (f)(3),
+    group lockout). "" when nothing holds it."""
+    steps = order.step_list
+    if key >= len(steps):
         return ""
-    held = still_locked_out(order)
+    hand_back = unlabelled(steps[key]).strip() == HAND_BACK
+    if hand_back:
+        held, why = still_working(order), "hands the observatory back to robotic and remote control"
+    elif key in held_for_other_crews(steps):
+        held = still_locked_out(order)
+        why = ("is done after the locks come off" if isolated_steps(steps) is not None
+               else "puts the telescope back in service or under robotic control")
+    else:
+        return ""
     if not held:
         return ""
     named = "; ".join(f"{a.order.number} {a.order.title} (on {', '.join(a.telescopes)})" for a in held)
     one = len(held) == 1
-    why = ("is done after the locks come off" if isolated_steps(order.step_list) is not None
-           else "puts the telescope back in service or under robotic control")
+    if hand_back:
+        state = f"{'its' if one else 'their'} work not all ticked"
+        wait = "they have ticked all their work (the last crew out hands the observatory back)"
+    else:
+        state = f"{'its' if one else 'their'} lockout ticked and the removal of {'its' if one else 'their'} locks not"
+        wait = "they have removed their locks and ticked that on their order"
     return (
         f"step {key + 1} {why}, and {'another crew is' if one else 'other crews are'} still "
-        f"locked out on this telescope: {named}, {'its' if one else 'their'} lockout ticked and the removal of "
-        f"{'its' if one else 'their'} locks not. Agree with {'that crew' if one else 'those crews'}; tick this once "
-        "they have removed their locks and ticked that on their order, with everyone clear"
+        f"{'at work' if hand_back else 'locked out'} on this telescope: {named}, {state}. Agree with "
+        f"{'that crew' if one else 'those crews'}; tick this once {wait}, with everyone clear"
     )
+
+
+def _telescope_out_refusal(order: WorkOrder, key: int) -> str:
+    """Why step ``key`` of ``order`` may not be ticked yet: its telescope's primary mirror is out for a recoat
+    (``selectors.telescope_out_notices``), so the telescope is out of balance, and the step is one that brings energy
+    back or hands the telescope back (``held_for_other_crews``: after the release, or a return to service or to robotic
+    control), which would release a brake or move an axis of an unbalanced telescope (a safety review ticked brake air,
+    tests under power and the hand-back on such a telescope). "" when nothing holds it. Common practice, no published
+    source; the site's mirror-removal procedure and the maker's instructions come first."""
+    if key not in held_for_other_crews(order.step_list):
+        return ""
+    notices = telescope_out_notices(order)
+    if not notices:
+        return ""
+    title, body, _todo = notices[0]
+    return (f"step {key + 1} brings energy back or hands the telescope back, and {title}: "
+            f"{body} Leave this step until the reinstall is finished, and ask the site engineer")
 
 
 def _lockout_sequence_refusal(order: WorkOrder, line: tuple, ticked: bool, what: str, ticks: dict) -> str:

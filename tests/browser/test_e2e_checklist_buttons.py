@@ -66,6 +66,14 @@ def test_with_javascript_a_refusal_is_said_until_anything_is_changed_again(brows
     expect(page.locator(f"#point-{point.pk} .tick-note")).to_contain_text("ticked by technician")
     expect(page.locator("#step-5 .tick-note")).to_have_text("")
     expect(page.locator("#step-5 .tick-note")).not_to_have_class("tick-note refused")
+    # The lockout asks first (a tap on its words ticks it): dismissed, nothing is recorded; accepted, it is.
+    asked = []
+    page.once("dialog", lambda dialog: (asked.append(dialog.message), dialog.dismiss()))
+    page.locator("#step-4 input[type=checkbox]").click()
+    expect(page.locator("#step-4 input[type=checkbox]")).not_to_be_checked()
+    assert asked and asked[0].startswith("Record the lockout")
+    assert not ChecklistTick.objects.filter(work_order=underway, step_index=3).exists()
+    page.once("dialog", lambda dialog: dialog.accept())
     page.locator("#step-4 input[type=checkbox]").check()
     expect(page.locator("#step-4 .tick-note")).to_contain_text("ticked by technician")
     page.locator("#step-5 input[type=checkbox]").check()
