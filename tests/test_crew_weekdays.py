@@ -399,4 +399,4 @@ def test_the_calendar_shows_each_order_over_its_phases_working_days_weekend_incl
         (span,) = [s for summary, s in spans.items() if summary.endswith(order.title)]
         assert span == (first, last + dt.timedelta(days=1)), order.title
     window = next(e for e in events.walk("VEVENT") if str(e["summary"]).startswith("Recoat window"))
-    assert "realignment and measurement 3 d (Mon 17 Aug to Wed 19 Aug)" in str(window["description"])
+    assert "realignment and measurement 3 d (Mon 17 Aug to Wed 19 Aug 2026)" in str(window["description"])

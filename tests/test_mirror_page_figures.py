@@ -100,7 +100,7 @@ def test_the_estimate_now_recomputes_by_hand_from_the_inputs_the_page_shows(trai
     yesterday = train["today"] - dt.timedelta(days=1)
     assert f"to the night of {yesterday:%d %b %Y}, the last logged before today" in text
     cleaned_on = train["today"] - dt.timedelta(days=CLEANED_DAYS_AGO)
-    assert f"c: E at the cleaning of {cleaned_on:%d %b %Y}, the last before today" in text
+    assert f"c: E at the cleaning of {cleaned_on:%d %b %Y}, the last up to today" in text
 
 
 def test_a_rising_fit_writes_its_rate_after_a_plus_not_a_double_minus(train, users, client):

@@ -11,6 +11,7 @@ import pytest
 from django.conf import settings
 from django.core.management import call_command
 from django.core.management.base import CommandError
+from django.utils.html import strip_tags
 
 from observatory_ops.calc import coating, exposure, windows
 from observatory_ops.logbook.models import NightUsage
@@ -354,13 +355,33 @@ def test_mirror_page_says_the_forecast_assumes_no_cleanings_and_where_the_loss_f
     assert "The forecast assumes no further cleanings" in text
     # The default 8 % is a rule of thumb, worded as the model's help text words it.
     assert "common practice, no published source" in Mirror._meta.get_field("recoat_loss").help_text
-    assert "8% below the fitted fresh value R0 = 0.9000 (the default recoat loss: common practice, no published " \
-        "source)" in text
+    assert "8% below the fitted fresh value R0 = 0.9000, a fraction of R0 (R0 × 0.92), not points of reflectance " \
+        "(the default recoat loss: common practice, no published source)" in text
     mirror.recoat_loss = 0.10
     mirror.save()
     text = _page_text(client, mirror)
-    assert "10% below the fitted fresh value R0 = 0.9000 (recoat loss set for this mirror; the default is common " \
-        "practice, no published source)" in text
+    assert "10% below the fitted fresh value R0 = 0.9000, a fraction of R0 (R0 × 0.9), not points of reflectance " \
+        "(recoat loss set for this mirror; the default is common practice, no published source)" in text
+
+
+def test_work_still_to_do_that_may_clean_the_mirror_is_named_beside_the_crossing_and_in_the_planner(
+    mirror, users, client
+):
+    """A site engineer's review: the crossing date assumed no further cleaning while a cleaning order was issued for
+    the next day; logging it moved the crossing five weeks later. The orders still to do on the mirror are named."""
+    from observatory_ops.workorders import services as wo_services
+
+    order = wo_services.work_order_ad_hoc(mirror.subsystem.telescope.site, [mirror.subsystem], "Clean the primary",
+                                          users["engineer"], steps="Clean it with CO2 snow.",
+                                          planned_date=dt.date(2026, 7, 1))
+    client.force_login(users["engineer"])
+    said = (f"Work still to do on this mirror may clean it: {order.number} (draft, planned 01 Jul 2026). The forecast "
+            "counts no cleaning until it is logged (at its finish)")
+    assert said in _page_text(client, mirror)
+    planner = re.sub(r"\s+", " ", strip_tags(client.get(f"/mirrors/{mirror.pk}/recoat/").content.decode()))
+    assert said in planner
+    wo_services.work_order_move(order, "withdraw", users["engineer"], reason="not needed")
+    assert "may clean it" not in _page_text(client, mirror)
 
 
 def _events(client, slug, **extra):
@@ -447,6 +468,26 @@ def test_a_recoat_due_by_the_calendar_before_the_line_bounds_the_planner_and_fla
     assert said in page.content.decode()
     assert [w["late"] for w in windows_] == [w["start"] > TODAY + dt.timedelta(days=60) for w in windows_]
     assert any(w["late"] for w in windows_) == ("starts after the recoat plan is due" in page.content.decode())
+    # Planning a late window asks first (a reviewer planned one months late with one click), for that window only.
+    page = client.get(f"/mirrors/{mirror.pk}/recoat/", {"start": (TODAY + dt.timedelta(days=61)).isoformat(),
+                                                        "horizon_days": "120"})
+    windows_ = page.context["windows"]
+    late = windows_[0]
+    assert all(w["late"] for w in windows_)
+    fields = {**page.context["form"].data.dict(), "window": late["start"].isoformat()}
+    asked = client.post(f"/mirrors/{mirror.pk}/recoat/plan/", fields)
+    assert asked.status_code == 200 and not mirror.recoat_plans.exists()
+    question = " ".join(strip_tags(asked.content.decode()).split())
+    days = (late["start"] - due.forecast_date).days
+    assert (f"The window from {late['start']:%a %d %b %Y} starts {days} day{'s' if days != 1 else ''} after the "
+            f"recoat plan is due ({due.forecast_date:%d %b %Y}") in question
+    other = next((w for w in windows_ if w["late"] and w["start"] != late["start"]), None)
+    if other is not None:  # the answer for one window is no answer for another
+        client.post(f"/mirrors/{mirror.pk}/recoat/plan/", {**fields, "window": other["start"].isoformat(),
+                                                           "late_confirmed": late["start"].isoformat()})
+        assert not mirror.recoat_plans.exists()
+    planned = client.post(f"/mirrors/{mirror.pk}/recoat/plan/", {**fields, "late_confirmed": late["start"].isoformat()})
+    assert planned.status_code == 302 and mirror.recoat_plans.get().starts_on == late["start"]
 
 
 def test_the_planner_names_another_mirrors_recoat_already_planned_at_the_site(mirror, users, on_today):

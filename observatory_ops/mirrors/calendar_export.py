@@ -88,7 +88,9 @@ def site_calendar(site: Site, base_url: str) -> bytes:
 
 def _span(phase: dict) -> str:
     first, last = dt.date.fromisoformat(phase["first"]), dt.date.fromisoformat(phase["last"])
-    return f"{first:%a %d %b}" if first == last else f"{first:%a %d %b} to {last:%a %d %b}"
+    if first == last:
+        return f"{first:%a %d %b %Y}"
+    return f"{first:%a %d %b}{'' if first.year == last.year else f' {first:%Y}'} to {last:%a %d %b %Y}"
 
 
 def _phase_last_days(plans: list[RecoatPlan]) -> dict[int, dt.date]:

@@ -16,6 +16,7 @@ from typing import NamedTuple
 import numpy as np
 from django.core.exceptions import ValidationError
 from django.db import transaction
+from django.db.models import F
 from django.utils import timezone
 
 from observatory_ops.calc import coating, forecast, reflectance, windows
@@ -35,7 +36,7 @@ from observatory_ops.planning.services import (
     site_today,
     usage_model,
 )
-from observatory_ops.registry.catalogue import KINDS, PIN_AXES, RELEASE, out_of_balance_tag
+from observatory_ops.registry.catalogue import KINDS, PIN_AXES, RELEASE, RELEASE_AT_REINSTALL, out_of_balance_tag
 from observatory_ops.registry.models import Site, Subsystem, Telescope
 from observatory_ops.registry.selectors import crew_days_off
 from observatory_ops.workorders.cautions import HAZARDS
@@ -286,7 +287,8 @@ def mirror_forecast(
     if result.log_begins is None:
         result.threshold = fit.r0 * (1 - mirror.recoat_loss)
         result.threshold_basis = (
-            f"{mirror.recoat_loss:.0%} below the fitted fresh value R0 = {reflectance_text(fit.r0)}"
+            f"{mirror.recoat_loss:.0%} below the fitted fresh value R0 = {reflectance_text(fit.r0)}, a fraction "
+            f"of R0 (R0 \N{MULTIPLICATION SIGN} {1 - mirror.recoat_loss:g}), not points of reflectance"
             f"{_loss_basis(mirror)}"
         )
     else:  # R0 is the value at the first logged night, already below fresh: the loss is a fall from fresh
@@ -744,6 +746,32 @@ def recoat_in_hand(mirror: Mirror) -> RecoatPlan | None:
     )
 
 
+def orders_that_may_clean(mirror: Mirror) -> list[WorkOrder]:
+    """The work orders still to do (drafted, issued or underway) on the mirror's subsystem that are no recoat phase:
+    finishing each asks how the mirror was cleaned (``workorders.selectors.mirrors_asked_about``), and a cleaning
+    recovers part of the loss. The forecast counts no cleaning not yet logged, so the page names them beside the
+    crossing date: a reviewer planned a recoat five weeks too early, the cleaning already issued for the next day."""
+    return list(
+        WorkOrder.objects.filter(items__subsystem=mirror.subsystem, recoat_phase="",
+                                 state__in=(State.DRAFT, State.ISSUED, State.UNDERWAY))
+        .distinct().order_by(F("planned_date").asc(nulls_last=True), "pk")
+    )
+
+
+def orders_that_may_clean_text(orders: list[WorkOrder]) -> str:
+    """The sentence the mirror page and the recoat planner give for ``orders_that_may_clean``; "" for none."""
+    if not orders:
+        return ""
+    named = ", ".join(
+        f"{o.number} ({o.get_state_display().lower()}, "
+        f"{f'planned {o.planned_date:%d %b %Y}' if o.planned_date else 'no day set'})" for o in orders
+    )
+    one = len(orders) == 1
+    return (f"Work still to do on this mirror may clean it: {named}. The forecast counts no cleaning until it is "
+            f"logged (at {'its' if one else 'their'} finish): a cleaning there moves the crossing later, so plan the "
+            "recoat window once it is logged.")
+
+
 def recoat_in_hand_text(plan: RecoatPlan) -> str:
     """Why another recoat of the mirror is not planned while ``plan`` is in hand (``recoat_in_hand``)."""
     numbers = ", ".join(o.number for o in sorted(plan.work_orders.all(), key=lambda o: o.pk))
@@ -1122,10 +1150,7 @@ _PHASE_WORK = {
             "Take off any balance weights fitted at the removal and restore the axis balance with the drives "
             "still locked out, as the site's balancing procedure and the mount maker's instructions say.",
         ),
-        release=(
-            "Only when both axes are balanced and everyone is clear, remove the pins, the locks (the site's "
-            "long-term locks from the removal too) and the tags as the site's lockout procedure says."
-        ),
+        release=RELEASE_AT_REINSTALL,
         # The first moves come after the release and after the brake air is back (workorders.services.brake_air_back
         # puts that step straight after the release): never under power with the brakes still to be tested.
         after=(
