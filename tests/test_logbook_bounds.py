@@ -266,6 +266,28 @@ def test_a_reading_far_beyond_its_plans_limit_is_asked_about_before_it_is_logged
     assert sorted(Reading.objects.values_list("value", flat=True)) == [1.4, 800.0]
 
 
+def test_a_reading_of_zero_against_a_limit_is_asked_about_before_it_is_logged(telescope, users, client):
+    """An input review logged a settle time of 0 s unasked: it took an overdue plan off overdue with no service done.
+    A reading of exactly 0 against a limit it must stay under is more often a measurement missed (common practice, no
+    published source); ticked as right, it is logged."""
+    from observatory_ops.logbook.models import Reading
+    from observatory_ops.planning.services import site_today
+    from observatory_ops.registry.services import subsystem_create
+
+    drive = subsystem_create(telescope, "axis1_drive", "Axis 1 drive",
+                             counting_from=site_today(telescope.site) - dt.timedelta(days=30))
+    form = {"quantity": "settle_time_s", "value": "0", "note": "",
+            "taken_at": f"{site_today(telescope.site) - dt.timedelta(days=1)}T22:30"}
+    client.force_login(users["technician"])
+    page = client.post(f"/subsystems/{drive.pk}/readings/new/", form)
+    assert page.status_code == 200 and not Reading.objects.exists()
+    assert "0 s against the plan&#x27;s limit of 1 s: was the measurement missed" in page.content.decode()
+    asked = re.search(r'name="questioned" value="([^"]*)"', page.content.decode()).group(1)
+    assert client.post(f"/subsystems/{drive.pk}/readings/new/",
+                       {**form, "value_confirmed": "on", "questioned": asked}).status_code == 302
+    assert list(Reading.objects.values_list("value", flat=True)) == [0.0]
+
+
 def test_the_box_keeps_only_the_value_it_was_ticked_for(telescope, users, client):
     """A diff review: the box came back ticked with the page, so a value changed after the question (800 corrected to
     80 by a second slip) was kept unasked. The page carries the value it asked about; another value is asked about

@@ -48,6 +48,7 @@ from observatory_ops.workorders.cautions import (
     ISOLATION_UNKNOWN_NOT_UP_TO_DATE,
     LOCKOUT_STEP,
     NO_ISOLATION_NEEDED,
+    NO_LIFT_FIGURES_NOTE,
     PRECEDENCE_STATEMENT,
     WORK_STOPPED_PART_WAY,
     isolation_statement,
@@ -383,7 +384,8 @@ def test_a_recoat_from_the_due_list_pins_the_axes_tags_the_telescope_and_carries
     # A pinned or braked axis looks balanced: a safety re-check had the brakes release and the axis swing at the
     # first moves.
     assert "never take a pinned or braked axis as balanced" in steps[rebalanced]
-    assert selectors.standing_notes(order) == (WORK_STOPPED_PART_WAY,)
+    # No mirror record here: the lift has no figures, and the note says so (a registered mirror's would wait for them).
+    assert selectors.standing_notes(order) == (WORK_STOPPED_PART_WAY, NO_LIFT_FIGURES_NOTE)
     assert {"axis locking pins", "out-of-service tags"} <= set(order.tool_list)
     # The planner's removal says the same in the same words, written once in the catalogue.
     assert _PHASE_WORK["removal"].locked[0] is PIN_AXES

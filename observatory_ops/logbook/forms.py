@@ -162,8 +162,9 @@ class ReadingForm(QuestionedValueMixin, forms.Form):
     note = forms.CharField(max_length=200, required=False)
     value_confirmed = forms.BooleanField(
         required=False, label="The value is right as typed",
-        help_text="Asked only for a value far beyond its plan's limit, which is more often a unit slip, or a mirror's "
-        "reflectance well above its coating's fresh value.",
+        help_text="Asked only for a value far beyond its plan's limit, which is more often a unit slip, a value of 0 "
+        "against a limit (more often a measurement missed), or a mirror's reflectance well above its coating's fresh "
+        "value.",
     )
     questioned = forms.CharField(required=False, widget=forms.HiddenInput)
 
@@ -216,6 +217,16 @@ class ReadingForm(QuestionedValueMixin, forms.Form):
         if self.confirmed_for(asked):
             return data
         for limit in self.limits.get(quantity, []):
+            if limit > 0 and value == 0:
+                # A reviewer logged a settle time of 0 s: taken as right, it moved an overdue plan to due. A reading of
+                # exactly nothing against a limit it must stay under is more often a measurement missed.
+                label, unit = QUANTITIES[quantity]
+                self.add_error("value", (
+                    f"0 {unit} against the plan's limit of {limit:g} {unit}: was the measurement missed, or the "
+                    "field left at 0? A reading of 0 can take the plan off overdue. If it is right, tick \"The value "
+                    "is right as typed\" and log it again."
+                ))
+                break
             if limit > 0 and value > UNIT_SLIP_FACTOR * limit:
                 label, unit = QUANTITIES[quantity]
                 self.add_error("value", (

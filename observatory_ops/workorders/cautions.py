@@ -323,6 +323,15 @@ LIFT_NO_FIGURES_REFUSED = (
     "working load limit per leg of the slings as rigged, on the lift page ('Lifting figures' on the work order page) "
     "before the work starts; the order may be issued meanwhile"
 )
+#: The standing note of an order whose hazards hold a suspended load but which carries no lifting figures and lifts no
+#: registered mirror (whose start ``LIFT_NO_FIGURES_REFUSED`` holds instead): an ad hoc lift of a mirror cell, a hoist
+#: job. A safety review found such an order's paper silent, its caution speaking of "the figures on this sheet".
+NO_LIFT_FIGURES_NOTE = (
+    "This work's hazards include a suspended load, and this order carries no lifting figures. Before anything is "
+    "lifted, the site engineer enters the load and the working load limit per leg of the slings as rigged on the lift "
+    "page ('Lifting figures' on the work order page), or gives them in a written lift plan, and a competent person "
+    "checks the rigging (ASME B30.9). Where a caution speaks of the figures on this sheet, there are none yet."
+)
 LIFT_NO_LIMIT = "no working load limit entered per leg"
 LIFT_NO_LIMIT_REFUSED = (
     "{number}'s lifting figures have no working load limit entered, so the sling legs' rated capacity is not compared "

@@ -56,6 +56,7 @@ from .cautions import (
     LIFT_REFUSED,
     LIFT_TOO_FLAT,
     LOCKOUT_STEP_MISSING,
+    NO_LIFT_FIGURES_NOTE,
     PRECEDENCE_STATEMENT,
     PREPARED_APART_NOTE,
     SEVERITY_LABELS,
@@ -201,7 +202,8 @@ def standing_notes(order: WorkOrder) -> tuple[str, ...]:
     """What the page and the paper of an order still to do say to keep in mind throughout its work, above its steps
     and not among them, so nobody ticks it: how to leave a recoat's removal or reinstall if the work stops part way,
     and the same for a whole recoat in one order (made from the due list: an order over a plan with a recoat-line
-    trigger, not one of the planner's phase orders).
+    trigger, not one of the planner's phase orders); that a suspended load has no lifting figures on the order
+    (``NO_LIFT_FIGURES_NOTE``; one lifting a registered mirror waits for them instead: ``lift_refusal``).
     Orders made before it became a note keep it among their steps as they were, except those still draft or issued
     (migration ``workorders.0013``), so it may read twice on an old order underway."""
     if order.state not in TO_DO:
@@ -213,6 +215,8 @@ def standing_notes(order: WorkOrder) -> tuple[str, ...]:
         not order.recoat_phase and order.items.filter(plan__triggers__metric=RECOAT_LINE).exists()
     ):
         notes.append(WORK_STOPPED_PART_WAY)
+    if "suspended_load" in order.hazards and not order.lift_inputs and lift_mirror(order) is None:
+        notes.append(NO_LIFT_FIGURES_NOTE)
     return tuple(notes)
 
 
