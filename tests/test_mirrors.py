@@ -554,3 +554,44 @@ def test_the_due_list_csv_writes_a_reflectance_as_the_pages_do(mirror, on_today,
     assert (row["trigger"], row["limit"], row["unit"]) == ("Mirror reflectance reaching its recoat line", "0.8280",
                                                           "fraction")
     assert re.fullmatch(r"0\.\d{4}", row["now"])
+
+
+def test_a_recoat_in_hand_offers_the_telescopes_other_due_work_for_its_downtime(mirror, users, client, on_today,
+                                                                                monkeypatch):
+    """A site engineer's review: nothing helped fold other due work into a recoat's downtime; it took the due list,
+    an order planned for today and a date typed by hand. The mirror page lists the telescope's other plans forecast
+    from today to 60 days after the recoat's end (our own margin: common practice, no published source), overdue ones
+    left to be done now, and one press makes one draft order for them, planned for the realignment's first day."""
+    from observatory_ops.calc.windows import RECOAT_PHASES
+    from observatory_ops.planning import services as planning
+    from observatory_ops.registry.services import subsystem_create
+    from observatory_ops.workorders import views as wo_views
+    from observatory_ops.workorders.models import WorkOrder
+
+    monkeypatch.setattr(planning, "site_today", lambda site, now=None: TODAY)
+    monkeypatch.setattr(wo_views, "site_today", lambda site, now=None: TODAY)
+    fans = subsystem_create(mirror.subsystem.telescope, "cooling_fans", "Mirror fans",
+                            counting_from=TODAY - dt.timedelta(days=40))  # its filters due in about 22 days
+    subsystem_create(mirror.subsystem.telescope, "limits", "Limits", counting_from=TODAY - dt.timedelta(days=400))
+    planning.site_recompute(mirror.subsystem.telescope.site, TODAY)
+    plan = services.recoat_plan_create(mirror, TODAY + dt.timedelta(days=10), list(RECOAT_PHASES), 3.0,
+                                       users["engineer"])
+    offer = services.due_in_downtime(plan)
+    realignment = plan.work_orders.get(recoat_phase="realignment").planned_date
+    assert offer.planned_on == realignment
+    offered = {s.plan for s in offer.states}
+    # Neither the mirror's own plans (the recoat's) nor the overdue limit switches (done now, not put off).
+    assert offered and all(p.subsystem == fans for p in offered)
+    client.force_login(users["engineer"])
+    page = " ".join(strip_tags(client.get(mirror.get_absolute_url()).content.decode()).split())
+    assert f"Other work on {mirror.subsystem.telescope.name} this downtime could take" in page
+    assert f"Make one work order for the ticked plans, planned for {realignment:%d %b %Y}" in page
+    response = client.post("/workorders/from-due/", {"plans": [p.pk for p in offered],
+                                                      "planned_on": realignment.isoformat()})
+    assert response.status_code == 302
+    order = WorkOrder.objects.exclude(recoat_phase__gt="").get()
+    assert order.planned_date == realignment and {i.plan for i in order.items.all()} == offered
+    assert services.due_in_downtime(plan) is None  # on an order now: offered no more
+    # A day before today is refused, and nothing is made.
+    refused = client.post("/workorders/from-due/", {"plans": [p.pk for p in offered], "planned_on": "2020-01-01"})
+    assert refused.status_code == 302 and WorkOrder.objects.exclude(recoat_phase__gt="").count() == 1

@@ -772,6 +772,59 @@ def orders_that_may_clean_text(orders: list[WorkOrder]) -> str:
             "recoat window once it is logged.")
 
 
+#: How far past a recoat's last day a service plan's forecast may fall and still be offered for the recoat's downtime:
+#: work due within two months is done while the telescope is down anyway (common practice, no published source).
+DOWNTIME_MARGIN_DAYS = 60
+#: How far before a recoat's first day a plan's forecast may fall and still be listed (not ticked) for its downtime:
+#: sooner than that, it is the due list's, to be done when due (common practice, no published source).
+DOWNTIME_EARLY_DAYS = 30
+
+
+@dataclass(frozen=True)
+class DowntimeOffer:
+    """The other work a recoat's downtime could take (``due_in_downtime``): the due states of the telescope's other
+    plans, and the day an order for them is planned (the realignment's first day: the mirror back and the telescope
+    balanced, not yet back in service; the recoat's last day without one)."""
+
+    states: list
+    planned_on: dt.date
+    margin_days: int = DOWNTIME_MARGIN_DAYS
+    early_days: int = DOWNTIME_EARLY_DAYS
+
+
+def due_in_downtime(plan: RecoatPlan) -> DowntimeOffer | None:
+    """For a recoat in hand not yet over, the service plans of its telescope's other subsystems forecast from
+    ``DOWNTIME_EARLY_DAYS`` before its first day to ``DOWNTIME_MARGIN_DAYS`` after its last, and on no work order still
+    to do: a site engineer folds them into
+    the downtime rather than taking the telescope out again (a reviewer had to find them by hand on the due list).
+    Overdue plans are not offered: they are done now, not put off to the downtime. Each state carries ``days_early``,
+    how many days before the downtime's first day it comes due (0 when within it or after): the page ticks only those
+    at 0, since folding in the others leaves them late. None when the recoat is over or nothing is offered."""
+    from observatory_ops.planning.models import PlanStatus
+    from observatory_ops.workorders.selectors import orders_for_plans  # mirrors builds on work orders
+
+    site = plan.mirror.subsystem.telescope.site
+    if plan.ends_on < site_today(site):
+        return None
+    horizon = plan.ends_on + dt.timedelta(days=DOWNTIME_MARGIN_DAYS)
+    states = list(
+        PlanStatus.objects.filter(plan__subsystem__telescope=plan.mirror.subsystem.telescope, plan__active=True,
+                                  forecast_date__lte=horizon,
+                                  forecast_date__gte=plan.starts_on - dt.timedelta(days=DOWNTIME_EARLY_DAYS))
+        .exclude(plan__subsystem=plan.mirror.subsystem).exclude(status=OVERDUE)
+        .select_related("plan__subsystem").order_by("forecast_date", "plan_id")
+    )
+    held = orders_for_plans(s.plan_id for s in states)
+    states = [s for s in states if s.plan_id not in held]
+    for state in states:
+        state.days_early = max((plan.starts_on - state.forecast_date).days, 0)
+    if not states:
+        return None
+    realignment = next((o.planned_date for o in plan.work_orders.all()
+                        if o.recoat_phase == "realignment" and o.planned_date), None)
+    return DowntimeOffer(states, realignment or plan.ends_on)
+
+
 def recoat_in_hand_text(plan: RecoatPlan) -> str:
     """Why another recoat of the mirror is not planned while ``plan`` is in hand (``recoat_in_hand``)."""
     numbers = ", ".join(o.number for o in sorted(plan.work_orders.all(), key=lambda o: o.pk))

@@ -9,7 +9,7 @@ from django.urls import reverse
 from django.utils.http import urlencode
 
 from observatory_ops.access.decorators import requires
-from observatory_ops.access.roles import ENGINEER, TECHNICIAN, VIEWER
+from observatory_ops.access.roles import ENGINEER, TECHNICIAN, VIEWER, has_role
 from observatory_ops.access.templatetags.form_errors import names_field
 from observatory_ops.archive.history import changes
 from observatory_ops.calc import coating
@@ -60,9 +60,11 @@ def mirror_detail(request, pk):
             "history": changes(mirror, limit=5),
             "history_label": "mirrors.mirror",
             "history_pk": mirror.pk,
-            # Each recoat plan, what changed in the crew's days since it was made, and the booked runs on its nights.
+            "can_log": has_role(request.user, TECHNICIAN),
+            # Each recoat plan, what changed in the crew's days since it was made, the booked runs on its nights, and
+            # the telescope's other work its downtime could take.
             "plans": [
-                (plan, services.plan_out_of_step(plan), runs_over.get(plan.pk, []))
+                (plan, services.plan_out_of_step(plan), runs_over.get(plan.pk, []), services.due_in_downtime(plan))
                 for plan in mirror.recoat_plans.prefetch_related(
                     Prefetch("work_orders", queryset=WorkOrder.objects.order_by("planned_date", "pk"))
                 )

@@ -1,4 +1,5 @@
 import datetime as dt
+import re
 
 from django.contrib import messages
 from django.http import HttpResponse, HttpResponseNotAllowed, JsonResponse
@@ -79,8 +80,19 @@ def work_order_from_due(request):
     ids = [int(v) for v in request.POST.getlist("plans") if v.isascii() and v.isdigit()]
     plans = sorted(ServicePlan.objects.filter(pk__in=ids).select_related("subsystem__telescope__site"),
                    key=lambda plan: ids.index(plan.pk))  # in the due list's order
-    # The due list asks no date: the order is planned for the site's today, so it can be issued straight away.
+    # The due list asks no date: the order is planned for the site's today, so it can be issued straight away. A
+    # recoat's downtime offer (mirrors.services.due_in_downtime) sends the day it plans the work for, today or later.
     planned = site_today(plans[0].subsystem.telescope.site) if plans else None
+    asked_for = request.POST.get("planned_on", "")
+    if plans and asked_for:
+        try:
+            day = dt.date.fromisoformat(asked_for) if re.fullmatch(r"[0-9]{4}-[0-9]{2}-[0-9]{2}", asked_for) else None
+        except ValueError:
+            day = None
+        if day is None or day < planned:
+            messages.error(request, f"No work order made: the planned day \"{asked_for}\" is not a date from today on.")
+            return redirect(reverse("due-list"))
+        planned = day
     try:
         order = services.work_order_from_due(plans, request.user, planned)
     except services.Refused as exc:
@@ -98,7 +110,8 @@ def work_order_from_due(request):
             f"It cannot be issued yet: {held[0]}." if held else
             "An engineer checks its steps and date and issues it; it is listed among the drafts on the work orders "
             "page.")
-    messages.success(request, f"{order.number} drafted from {items}, planned for today ({planned:%d %b %Y}). {then}")
+    when = "today" if planned == site_today(plans[0].subsystem.telescope.site) else "the downtime"
+    messages.success(request, f"{order.number} drafted from {items}, planned for {when} ({planned:%d %b %Y}). {then}")
     already = {
         other.number: other for orders in selectors.orders_for_plans(p.pk for p in plans).values()
         for other in orders if other.pk != order.pk
