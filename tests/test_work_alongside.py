@@ -225,3 +225,19 @@ def test_the_observatory_goes_back_to_robotic_control_only_when_no_other_crew_ha
         services.checklist_tick_set(fans_order, "step", step, True, users["technician"])
     services.checklist_tick_set(drive_order, "step", last, True, users["technician"])
     services.checklist_tick_set(fans_order, "step", fans_last, True, users["technician"])
+
+
+def test_the_finish_form_says_not_to_do_locked_out_work_left_unticked_after_the_locks_came_off(order, users, client):  # noqa: F811
+    """A safety review: with the lock removal ticked, locked-out work left unticked was confirmed "done or did not
+    apply" with nothing said, where ticking it on the page is refused ("isolate again"). The finish form now says,
+    beside each such step, not to do it now without isolating again."""
+    drive_order = _issued(order, users)
+    services.work_order_move(drive_order, "start", users["technician"])
+    drive_order = WorkOrder.objects.get(pk=drive_order.pk)
+    lockout, locked = services.isolated_steps(drive_order.step_list)
+    _tick_through(drive_order, users, lockout)
+    services.checklist_tick_set(drive_order, "step", locked.stop, True, users["technician"])  # the locks off, work not
+    client.force_login(users["technician"])
+    page = client.get(f"/workorders/{drive_order.pk}/finish/").content.decode()
+    said = "Done with the energy isolated, and the locks are off now: if it was not done, do not do it now"
+    assert page.count(said) == len(locked)

@@ -482,12 +482,21 @@ def work_order_finish(request, pk):
                 return redirect(order)
     asked_apart = ("confirm_unticked", "confirm_hazards", "isolation_answer")
     fields = [(form[name], asked.get(name, "")) for name in form.fields if name not in asked_apart]
+    # Locked-out work left unticked after the locks came off (the release ticked): confirming it "done or did not
+    # apply" is allowed, but if it was not done it is not done now without isolating again (a safety review: the form
+    # said nothing of it, where the page refuses the same tick with "isolate again").
+    found = services.isolated_steps(order.step_list)
+    released = found is not None and found[1].stop < len(order.step_list) and not any(
+        line.kind == "step" and line.key == found[1].stop for line in unticked)
+    locked_after_release = {line.anchor for line in others if released and line.kind == "step"
+                            and line.key in found[1]}
     return render(
         request, "workorders/finish.html",
         {"form": form, "order": order, "fields": fields, "unticked": unticked, "others": others,
          "isolation": isolation, "isolation_title": ISOLATION_UNTICKED_TITLE,
          "isolation_question": ISOLATION_UNTICKED_QUESTION, "flagged": flagged, "readings_confirm": READINGS_CONFIRM,
-         "lacking": lacking, "lacking_cautions": cautions_for(lacking), "precedence": PRECEDENCE_STATEMENT},
+         "lacking": lacking, "lacking_cautions": cautions_for(lacking), "precedence": PRECEDENCE_STATEMENT,
+         "locked_after_release": locked_after_release},
     )
 
 
