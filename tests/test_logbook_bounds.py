@@ -288,6 +288,32 @@ def test_a_reading_of_zero_against_a_limit_is_asked_about_before_it_is_logged(te
     assert list(Reading.objects.values_list("value", flat=True)) == [0.0]
 
 
+def test_a_reading_in_the_hour_the_clocks_repeat_is_logged_as_the_first_and_one_in_the_skipped_hour_is_refused(
+    telescope, users, client
+):
+    """An input review could not log a reading taken at 01:30 on the night the clocks went back: "may be ambiguous or
+    may not exist", with no way round it. In Europe/Madrid (the test site) 2026-10-25 02:30 came twice (CEST, then
+    CET) and 2026-03-29 02:30 never came (the IANA tz database's EU rule: last Sunday of October and of March, 01:00
+    UTC). The repeated time is taken as the first, and said; the skipped one is refused, named."""
+    import zoneinfo
+
+    from observatory_ops.logbook.models import Reading
+    from observatory_ops.registry.services import subsystem_create
+
+    drive = subsystem_create(telescope, "axis1_drive", "Axis 1 drive", counting_from=dt.date(2026, 1, 1))
+    form = {"quantity": "settle_time_s", "value": "0.8", "note": "", "taken_at": "2026-10-25T02:30"}
+    client.force_login(users["technician"])
+    response = client.post(f"/subsystems/{drive.pk}/readings/new/", form, follow=True)
+    assert response.redirect_chain, response.content.decode()[-2000:]
+    first = dt.datetime(2026, 10, 25, 2, 30, tzinfo=zoneinfo.ZoneInfo("Europe/Madrid"))  # fold=0: CEST, UTC+2
+    assert Reading.objects.get().taken_at == first.astimezone(dt.UTC) == dt.datetime(2026, 10, 25, 0, 30, tzinfo=dt.UTC)
+    said = " ".join(str(m) for m in response.context["messages"])
+    assert "02:30 came twice on 25 Oct 2026 (the clocks went back): it was taken as the first, 02:30 CEST" in said
+    page = client.post(f"/subsystems/{drive.pk}/readings/new/", {**form, "taken_at": "2026-03-29T02:30"})
+    assert page.status_code == 200 and Reading.objects.count() == 1
+    assert "29 Mar 2026 02:30 did not happen at the site: the clocks went forward over it" in page.content.decode()
+
+
 def test_the_box_keeps_only_the_value_it_was_ticked_for(telescope, users, client):
     """A diff review: the box came back ticked with the page, so a value changed after the question (800 corrected to
     80 by a second slip) was kept unasked. The page carries the value it asked about; another value is asked about

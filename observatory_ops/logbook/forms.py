@@ -149,12 +149,39 @@ class CorrectionForm(forms.Form):
 UNIT_SLIP_FACTOR = 10
 
 
+class SiteDateTimeField(forms.DateTimeField):
+    """A date and time in the site's local time (the form is read under ``timezone.override``), through the clock
+    changes: a time the clocks repeat when they go back (01:30 twice) is read as its first occurrence and said so
+    (``repeated``, for the page's message), rather than refused with no way round it; a time the clocks skip when they
+    go forward is refused naming it. An input review could not log a reading taken at 01:30 on the night the clocks
+    went back."""
+
+    repeated: dt.datetime | None = None
+
+    def to_python(self, value):
+        self.repeated = None
+        try:
+            return super().to_python(value)
+        except forms.ValidationError as exc:
+            if exc.code != "ambiguous_timezone":
+                raise
+            naive = exc.params["datetime"]
+        zone = timezone.get_current_timezone()
+        first = naive.replace(tzinfo=zone, fold=0)
+        if first.astimezone(dt.UTC).astimezone(zone).replace(tzinfo=None) != naive:
+            raise forms.ValidationError(
+                f"{naive:%d %b %Y %H:%M} did not happen at the site: the clocks went forward over it. Enter the time "
+                "the site's clocks showed.", code="skipped_hour")
+        self.repeated = first
+        return first
+
+
 class ReadingForm(QuestionedValueMixin, forms.Form):
     quantity = forms.ChoiceField(choices=QUANTITY_CHOICES)
     value = forms.FloatField(error_messages={
         "invalid": "Enter a number, with a point for decimals (0.87, not 0,87).",
     })
-    taken_at = forms.DateTimeField(
+    taken_at = SiteDateTimeField(
         widget=forms.DateTimeInput(attrs={"type": "datetime-local"}, format="%Y-%m-%dT%H:%M"),
         help_text="Site local time. A plan counts readings from its last service (from its start while none is "
         "logged): entering past readings, log the last service first.",

@@ -149,6 +149,12 @@ def reading_log(request, pk):
                 messages.success(request, "Reading logged" + (
                     "; it is also among the mirror page's measurements, in its decline fit." if to_mirror else "."
                 ))
+                if repeated := form.fields["taken_at"].repeated:  # the clocks went back over it: which one is said
+                    messages.warning(request, (
+                        f"{repeated:%H:%M} came twice on {repeated:%d %b %Y} (the clocks went back): it was taken "
+                        f"as the first, {repeated:%H:%M %Z}. If it was the second, an hour later, withdraw this "
+                        "reading and log it again with a note saying so."
+                    ))
                 unwatched = selectors.unwatched_reading_note(subsystem, data["quantity"])
                 if unwatched:
                     messages.warning(request, unwatched)
