@@ -302,6 +302,11 @@ def test_the_release_deleted_before_steps_that_bring_energy_back_is_refused_on_s
     order.save()
     with pytest.raises(services.Refused, match=rf"cannot be issued: step {first} \("):
         services.work_order_move(order, "issue", users["engineer"])
+    # Nor with the release moved after a step that brings energy back (a diff review: it then counted as locked-out
+    # work, free to tick while another crew was locked out).
+    moved = [*powered, LOCKOUT, *work, restore[0], RELEASE, *restore[1:]]
+    assert services.lockout_sequence_problem(order.hazards, moved, []).startswith(
+        f"Step {len(powered) + len(work) + 2} (")
     # Work that ends locked out in words of its own, with nothing restored after it, stays the engineer's to write.
     assert services.lockout_sequence_problem(order.hazards, [*powered, LOCKOUT, *work], []) == ""
 

@@ -12,6 +12,7 @@ import re
 
 import pytest
 from django.contrib.messages import get_messages
+from django.utils import timezone
 from django.utils.html import strip_tags
 from test_mirror_record import mirror  # noqa: F401  (the fixture, used by name)
 from test_service_lateness import late_plan  # noqa: F401  (the fixture, used by name)
@@ -133,6 +134,11 @@ def test_a_measurement_sent_twice_is_stored_once_and_the_second_send_says_so(mir
     # Another place on the mirror is another measurement.
     assert client.post(url, {**sent, "position": "r=0.7 N"}).status_code == 302
     assert ReflectanceMeasurement.objects.filter(mirror=mirror).count() == 2
+    # The same value measured again later (a diff review: a repeat at the centre was dropped as a second send) is
+    # one of its own: a send counts as repeated within logbook.selectors.RESENT_WITHIN only.
+    ReflectanceMeasurement.history.update(history_date=timezone.now() - dt.timedelta(hours=1))
+    assert client.post(url, sent).status_code == 302
+    assert ReflectanceMeasurement.objects.filter(mirror=mirror).count() == 3
 
 
 def test_a_cleaning_sent_twice_is_stored_once_with_one_set_of_service_records(mirror, users, client):  # noqa: F811

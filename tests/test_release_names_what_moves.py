@@ -27,11 +27,13 @@ from observatory_ops.registry.catalogue import (
     BRAKE_AIR_BACK,
     CLEAR_OF,
     HAND_BACK,
+    HAND_BACK_AFTER_REALIGNMENT,
     KINDS,
     RELEASE,
     RELEASE_AT_REINSTALL,
     RELEASE_STEPS,
     RESTORES_BRAKE_AIR,
+    is_hand_back,
     is_release_step,
     moving_parts,
     release_step,
@@ -399,6 +401,11 @@ def test_a_recoat_removal_keeping_its_locks_on_is_not_asked_for_the_air(telescop
     release = steps.index(RELEASE_AT_REINSTALL)
     assert services.isolated_steps(steps)[1].stop == release
     assert services.held_for_other_crews(steps) == set(range(release + 1, len(steps)))
+    # The realignment hands the observatory back in words of its own: read as the hand-back, it waits while another
+    # crew has work left on the telescope (a diff review found it unread).
+    realignment = next(o for o in plan.work_orders.all() if o.recoat_phase == "realignment")
+    back = realignment.step_list.index(HAND_BACK_AFTER_REALIGNMENT)
+    assert is_hand_back(realignment.step_list[back]) and back in services.held_for_other_crews(realignment.step_list)
 
 
 def test_hazards_brought_up_to_date_on_hand_written_steps_name_the_air_step_to_put_in(

@@ -102,14 +102,15 @@ def test_once_the_removal_is_finished_other_work_on_the_telescope_carries_the_no
     assert OUT not in _text(client.get(recoat["reinstall"].get_absolute_url()))
 
 
-def test_with_the_mirror_out_starting_asks_and_nothing_that_brings_energy_back_is_ticked(
+def test_with_the_mirror_out_starting_asks_and_nothing_that_moves_an_axis_or_brings_energy_back_is_ticked(
     recoat, other_work, site, users, client
 ):
     """A safety review started drive work on a telescope whose mirror was out and ticked its brake air, its test
-    under power and the hand-back to robotic control: only the notice stood in the way. Starting now asks, and the
-    steps after the release (``services.held_for_other_crews``) are held until the reinstall is finished; the
-    order's own locks come off freely."""
-    from test_work_alongside import _tick_through
+    under power and the hand-back to robotic control; a diff review then ticked its slew under power and parking, and
+    finished it with the rest confirmed "done or did not apply". Starting now asks; the steps that move an axis, bring
+    energy back or hand the telescope back (``services.held_while_mirror_out``) wait until the reinstall is finished,
+    and so does the finish. Out of robotic control, the lockout and the locked-out work go on."""
+    from test_workorders import _all_readings
 
     _finish(recoat["removal"], users)
     order = WorkOrder.objects.get(pk=other_work.pk)
@@ -122,16 +123,29 @@ def test_with_the_mirror_out_starting_asks_and_nothing_that_brings_energy_back_i
     response = client.post(f"/workorders/{order.pk}/move/start/", {"asked": "confirmed"})
     assert response.status_code == 302
     order = WorkOrder.objects.get(pk=order.pk)
-    release = services.isolated_steps(order.step_list)[1].stop
-    _tick_through(order, users, release)
-    with pytest.raises(services.Refused, match=rf"step {release + 2} brings energy back or hands the telescope back, "
-                                               r"and T1 is out of service: its primary mirror is out: .* Leave this "
-                                               "step until the reinstall is finished"):
-        services.checklist_tick_set(order, "step", release + 1, True, users["technician"])
-    # Once the reinstall is finished the telescope is balanced again: the step goes on.
+    steps = order.step_list
+    waiting = services.held_while_mirror_out(steps)
+    lockout, locked = services.isolated_steps(steps)
+    assert {i for i in range(lockout) if "slew" in steps[i].lower() or "park" in steps[i].lower()} <= waiting
+    assert set(range(locked.stop + 1, len(steps))) <= waiting and lockout not in waiting and locked.stop not in waiting
+    for point in selectors.isolation_points(order):
+        services.checklist_tick_set(order, "point", point.pk, True, users["technician"])
+    for index in range(len(steps)):
+        if index in waiting:
+            with pytest.raises(services.Refused, match=rf"step {index + 1} moves an axis, brings energy back or hands "
+                                                       r"the telescope back, and T1 is out of service: .* Leave this "
+                                                       "step until the reinstall is finished"):
+                services.checklist_tick_set(order, "step", index, True, users["technician"])
+        else:
+            services.checklist_tick_set(order, "step", index, True, users["technician"])
+    with pytest.raises(services.Refused, match="steps that wait while the telescope's mirror is out are not ticked"):
+        services.work_order_finish(order, users["technician"], 1.0, "ok", _all_readings(order, 0.6),
+                                   confirmed_unticked=[steps[i] for i in waiting])
+    # Once the reinstall is finished the telescope is balanced again: the steps go on.
     _finish(recoat["coating"], users)
     _finish(recoat["reinstall"], users)
-    services.checklist_tick_set(order, "step", release + 1, True, users["technician"])
+    for index in sorted(waiting):
+        services.checklist_tick_set(order, "step", index, True, users["technician"])
 
 
 def test_the_dashboard_and_the_due_list_say_which_telescope_stands_without_its_mirror(
@@ -164,11 +178,11 @@ def test_a_withdrawn_reinstall_leaves_the_telescope_out_and_says_none_is_planned
 def test_finished_work_and_other_sites_show_nothing(recoat, other_work, site, users):
     from observatory_ops.registry.models import Site
 
+    _finish(other_work, users)  # before the removal: finishing is held while the mirror is out (its steps wait)
     _finish(recoat["removal"], users)
     elsewhere = Site.objects.create(name="Elsewhere", slug="elsewhere", latitude_deg=10, longitude_deg=10,
                                     elevation_m=100, time_zone="UTC")
     assert selectors.telescopes_out([elsewhere]) == {}
-    _finish(other_work, users)
     assert selectors.telescope_out_notices(WorkOrder.objects.get(pk=other_work.pk)) == []
 
 

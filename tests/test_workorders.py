@@ -640,6 +640,18 @@ def test_a_reading_far_beyond_its_limit_is_asked_whether_it_was_typed_in_another
     assert _state(order) == State.UNDERWAY
 
 
+def test_a_reading_of_zero_against_its_limit_is_asked_about_at_finish(order, users, client):
+    """A diff review: the subsystem's reading form asked about a settle time of 0, the finish form (where most
+    readings are entered) did not; taken as right, a 0 takes the plan off overdue. Asked once, not flagged; sent again
+    as it is with the box ticked, it is recorded."""
+    services.work_order_move(order, "issue", users["engineer"])
+    services.work_order_move(order, "start", users["technician"])
+    client.force_login(users["technician"])
+    first = html.unescape(client.post(f"/workorders/{order.pk}/finish/", _finish_post(order, 0)).content.decode())
+    assert "0 s against its limit (at most 1): was the measurement missed, or the field left at 0?" in first
+    assert _state(order) == State.UNDERWAY
+
+
 @pytest.mark.parametrize("factor, question", [
     # A reviewer's 400 h on an order estimated at 3.5 h went straight onto two service records, 200 h each: over
     # logbook.forms.HOURS_QUESTION_FACTOR (10) times the estimate, the hours are asked about, as a questioned reading

@@ -2,6 +2,7 @@ import datetime as dt
 import math
 
 from django import forms
+from django.utils import timezone
 
 from observatory_ops.calc.coating import MATERIALS, MAX_GRID_SIZE, METALS, grid_size, wavelength_range_nm
 from observatory_ops.calc.windows import RECOAT_PHASES, Phase, downtime_words, shortest_downtime
@@ -112,10 +113,17 @@ class MeasurementForm(MeasurementChecks):
 
     def repeats(self, mirror: Mirror, by) -> ReflectanceMeasurement | None:
         """The measurement this form, sent again, would repeat: the same person's measurement of this mirror entered
-        on this page with the same values, not withdrawn (one measurement, whenever it was stored; as the logbook's
-        ``selectors.reading_already_logged``); None when there is none. A second copy would count twice in the fit."""
+        on this page with the same values, not withdrawn, stored within ``logbook.selectors.RESENT_WITHIN`` (as the
+        logbook's ``selectors.reading_already_logged``; when, from its history's creation row: the model keeps a date
+        only); None when there is none. A second copy would count twice in the fit; the same value measured again
+        later (a repeat at the same position) is a measurement of its own."""
+        from observatory_ops.logbook.selectors import RESENT_WITHIN
+
+        recent = ReflectanceMeasurement.history.filter(
+            mirror_id=mirror.pk, history_type="+", history_date__gte=timezone.now() - RESENT_WITHIN
+        ).values("id")
         return mirror.measurements.filter(
-            taken_by=by, reading__isnull=True, withdrawn_at__isnull=True, **self.cleaned_data
+            pk__in=recent, taken_by=by, reading__isnull=True, withdrawn_at__isnull=True, **self.cleaned_data
         ).first()
 
 

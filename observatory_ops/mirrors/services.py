@@ -36,7 +36,14 @@ from observatory_ops.planning.services import (
     site_today,
     usage_model,
 )
-from observatory_ops.registry.catalogue import KINDS, PIN_AXES, RELEASE, RELEASE_AT_REINSTALL, out_of_balance_tag
+from observatory_ops.registry.catalogue import (
+    HAND_BACK_AFTER_REALIGNMENT,
+    KINDS,
+    PIN_AXES,
+    RELEASE,
+    RELEASE_AT_REINSTALL,
+    out_of_balance_tag,
+)
 from observatory_ops.registry.models import Site, Subsystem, Telescope
 from observatory_ops.registry.selectors import crew_days_off
 from observatory_ops.workorders.cautions import HAZARDS
@@ -822,7 +829,8 @@ def due_in_downtime(plan: RecoatPlan) -> DowntimeOffer | None:
         return None
     realignment = next((o.planned_date for o in plan.work_orders.all()
                         if o.recoat_phase == "realignment" and o.planned_date), None)
-    return DowntimeOffer(states, realignment or plan.ends_on)
+    # On the realignment's later days the offer plans for today: a day gone by is refused.
+    return DowntimeOffer(states, max(realignment or plan.ends_on, site_today(site)))
 
 
 def recoat_in_hand_text(plan: RecoatPlan) -> str:
@@ -1240,8 +1248,7 @@ _PHASE_WORK = {
             "path of the dome and its shutter (or of the roll-off roof), open the enclosure from the control panel.",
             "Under power, from the control panel, with everyone still outside the swept volume and the dome's path, "
             "check the collimation on a star and record the result.",
-            "Return the observatory to robotic and remote control only when the collimation check is "
-            "recorded, and tell the remote operators it is back.",
+            HAND_BACK_AFTER_REALIGNMENT,
         ),
         tools=("Alignment laser", "Reflectometer"),
     ),

@@ -65,7 +65,7 @@ def mirror_detail(request, pk):
             # the telescope's other work its downtime could take.
             "plans": [
                 (plan, services.plan_out_of_step(plan), runs_over.get(plan.pk, []), services.due_in_downtime(plan))
-                for plan in mirror.recoat_plans.prefetch_related(
+                for plan in mirror.recoat_plans.select_related("mirror__subsystem__telescope__site").prefetch_related(
                     Prefetch("work_orders", queryset=WorkOrder.objects.order_by("planned_date", "pk"))
                 )
             ],

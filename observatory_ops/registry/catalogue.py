@@ -1183,6 +1183,29 @@ HAND_BACK = (
     "shutter (or of the roll-off roof), return the observatory to robotic and remote control and tell the remote "
     "operators it is back."
 )
+#: The steps under power before a lockout that move no axis of the telescope: taking the observatory out of robotic
+#: control, closing the enclosure, reading the records. While a telescope's mirror is out (out of balance, its axes
+#: pinned) every other step before the lockout waits for the reinstall (workorders.services.held_while_mirror_out).
+MOVES_NO_AXIS: frozenset[str] = frozenset({
+    OUT_OF_CONTROL, _OUT_OF_SERVICE, _EARLIER_OUT_OF_SERVICE, _CLOSE_ENCLOSURE, _EARLIER_CLOSE_DOME, READ_RECORDS,
+})
+#: The catalogue's parkings: each moves the telescope's axes under power.
+PARKINGS: frozenset[str] = frozenset({_PARK, _PARK_PLAIN, _OUT_OF_SERVICE_PARKED})
+#: The recoat realignment's own hand-back (mirrors.services), after its check on a star.
+HAND_BACK_AFTER_REALIGNMENT = (
+    "Return the observatory to robotic and remote control only when the collimation check is recorded, and tell the "
+    "remote operators it is back."
+)
+#: Every step that hands the observatory back to robotic and remote control, in its wordings: it waits while another
+#: crew has work left on the telescope (workorders.services.still_working). A diff review found the realignment's
+#: own wording unread, so it handed the telescope back with another crew at it.
+HAND_BACKS: frozenset[str] = frozenset({HAND_BACK, HAND_BACK_AFTER_REALIGNMENT})
+
+
+def is_hand_back(step: str) -> bool:
+    """True when ``step`` (a "[plan] " label before it ignored) hands the observatory back to robotic control."""
+    words = step.split("] ", 1)[1] if step.startswith("[") and "] " in step else step
+    return words.strip() in HAND_BACKS
 
 #: Every step the catalogue places before isolation, and every step of its plans' restoring: how the upgrade
 #: that gave stored plans their three step groups (planning migration 0007) told them apart by their words.

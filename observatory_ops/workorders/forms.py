@@ -122,7 +122,7 @@ class WorkOrderEditForm(forms.ModelForm):
             )
         if planned is None or "planned_date" not in self.changed_data:  # a date stored earlier stays as it is
             return planned
-        return _planned_date_plausible(planned, site_today(self.instance.site))
+        return planned_date_plausible(planned, site_today(self.instance.site))
 
     def clean_steps(self):
         """One step a line; where the hazards call for isolation the lockout step must stay, where the engineer
@@ -160,7 +160,7 @@ def _years_on(day: dt.date, years: int) -> dt.date:
         return day.replace(year=day.year + years, day=28)
 
 
-def _planned_date_plausible(planned: dt.date, today: dt.date) -> dt.date:
+def planned_date_plausible(planned: dt.date, today: dt.date) -> dt.date:
     """The planned date as entered, refused when it is more than a year before the site's today or more than
     ``PLANNED_YEARS_AHEAD`` years after it (a mistyped year): a date a little in the past is kept, for work already
     done from paper and entered afterwards."""
@@ -228,7 +228,7 @@ class AdHocForm(forms.Form):
 
     def clean_planned_date(self):
         planned = self.cleaned_data["planned_date"]
-        return planned if planned is None else _planned_date_plausible(planned, self._today)
+        return planned if planned is None else planned_date_plausible(planned, self._today)
 
 
 #: What the finish form says beside a questioned figure (``FinishForm.beyond_limits``, ``above_fresh``,
@@ -488,6 +488,19 @@ class FinishForm(forms.Form):
                          "(milliseconds for seconds, say)?")
             said[f"reading_{pk}"] = f"{text} {NOT_RECORDED_YET}"
         return said
+
+    def zero_readings(self) -> dict[str, str]:
+        """Field name -> the question beside it, for each reading of exactly 0 against an "at most" limit (valid forms
+        only): more often a measurement missed or a field left at 0 than a real value, and it takes a plan off overdue
+        (as logbook.forms.ReadingForm asks; a diff review found the finish form, where most readings are entered, did
+        not). Shown once, as a reading beyond its limit is; not flagged on the record."""
+        asked = {}
+        for pk, value in self.readings().items():
+            required = self._required[pk]
+            if value == 0 and required.limit_value and required.limit_value > 0 and "at most" in required.limit_text:
+                asked[f"reading_{pk}"] = (f"0 {required.unit} against its limit ({required.limit_text}): was the "
+                                          f"measurement missed, or the field left at 0? {NOT_RECORDED_YET}")
+        return asked
 
     def hours_questioned(self) -> dict[str, str]:
         """The actual hours beside their field when above ``HOURS_QUESTION_FACTOR`` times the estimate, or 0 for an

@@ -1356,7 +1356,7 @@ class Alongside(NamedTuple):
     telescopes: list[str]  # the telescopes the two share, by name
     lockout_ticked: bool | None  # its lockout step ticked; None when it has none
     released: bool = False  # the step that removes its locks ticked, in its present words
-    work_left: bool = True  # a step other than the hand-back to robotic control (catalogue.HAND_BACK) not ticked
+    work_left: bool = True  # a step other than the hand-back to robotic control (catalogue.is_hand_back) not ticked
 
     @property
     def locked_out(self) -> bool:
@@ -1416,8 +1416,7 @@ def work_alongside(order: WorkOrder, items: list[WorkOrderItem] | None = None,
             ticked = bool(tick and tick.ticked)
             release = next((i for i in range(lockout + 1, len(steps)) if catalogue.is_release_step(steps[i])), None)
             released = release is not None and release in done
-        work_left = any(i not in done and unlabelled(step).strip() != catalogue.HAND_BACK
-                        for i, step in enumerate(steps))
+        work_left = any(i not in done and not catalogue.is_hand_back(step) for i, step in enumerate(steps))
         alongside.append(Alongside(other, shared, ticked, bool(released), work_left))
     return alongside
 
@@ -1466,8 +1465,9 @@ def start_questions(order: WorkOrder) -> list[str]:
         return []
     questions = [question] if (question := early_start_question(order)) else []
     # A telescope out of balance (its primary out for a recoat): the page and paper say so; starting asks too.
-    questions += [f"{title}. {body} Its steps that bring energy back or hand the telescope back are held until the "
-                  "reinstall is finished. Start anyway?" for title, body, _todo in telescope_out_notices(order)]
+    questions += [f"{title}. {body} Its steps that move an axis (under power before the lockout, parking), bring "
+                  "energy back or hand the telescope back wait until the reinstall is finished, and so does its "
+                  "finish. Start anyway?" for title, body, _todo in telescope_out_notices(order)]
     if alongside := work_alongside(order, starting=True):
         questions.append(ALONGSIDE_START_QUESTION.format(
             orders=", ".join(a.order.number for a in alongside), verb="is" if len(alongside) == 1 else "are",

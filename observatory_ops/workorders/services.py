@@ -31,11 +31,13 @@ from observatory_ops.planning.services import site_recompute, site_today
 from observatory_ops.registry.catalogue import (
     BRAKE_AIR_BACK,
     HAND_BACK,
+    MOVES_NO_AXIS,
     OUT_OF_CONTROL,
     OUT_OF_CONTROL_AND,
     OUT_OF_CONTROL_PARKED,
     PARK_AT_SERVICE,
     PARK_PLAIN,
+    PARKINGS,
     RELEASE,
     RESTORE,
     RESTORES_BRAKE_AIR,
@@ -43,6 +45,7 @@ from observatory_ops.registry.catalogue import (
     TAKES_OUT_OF_CONTROL,
     TELESCOPE_STEPS,
     is_brake_air_step,
+    is_hand_back,
     is_release_step,
     is_tag_out_step,
     release_step_for,
@@ -130,7 +133,8 @@ def lockout_sequence_problem(hazards: Sequence[str], steps: Sequence[str], plans
 
     Four things are refused, in this order: the step that removes the locks (``catalogue.is_release_step``) before the
     lockout step; a step that brings energy or service back (``catalogue.RESTORE``, ``RETURNS_TO_SERVICE``: brake air,
-    a test under power, the return to robotic control) after the lockout with no release before it, which would count
+    a test under power, the return to robotic control) after the lockout with no release before it (none at all, or
+    the release placed after it), which would count
     as locked-out work, ticked while the locks are still on (a safety review deleted the release: the restoring steps
     were then ticked while another crew was locked out); a step of a plan's work (``ServicePlan.steps``, done locked
     out, as ``steps_in_groups`` places it), in its words or under its plan's "[label]", standing before the lockout
@@ -148,13 +152,13 @@ def lockout_sequence_problem(hazards: Sequence[str], steps: Sequence[str], plans
     if early is not None:
         return (f"Step {early + 1} removes the locks, but the energy is isolated only at step {lockout + 1} (the "
                 "lockout step): put the lockout step after the steps done under power and before the work.")
-    if locked_out.stop == len(lines):
-        restoring = next((i for i in locked_out if unlabelled(lines[i]) in RESTORE | RETURNS_TO_SERVICE), None)
-        if restoring is not None:
-            return (f"Step {restoring + 1} (\"{_shortened(unlabelled(lines[restoring]))}\") brings energy or service "
-                    "back after the lockout, but no step before it removes the locks: put the step that removes the "
-                    "locks (\"When the work is done and everyone is clear ..., remove the locks and tags ...\") "
-                    "after the work and before it.")
+    restoring = next((i for i in locked_out
+                      if unlabelled(lines[i]) in RESTORE | RETURNS_TO_SERVICE or is_hand_back(lines[i])), None)
+    if restoring is not None:
+        return (f"Step {restoring + 1} (\"{_shortened(unlabelled(lines[restoring]))}\") brings energy or service "
+                "back after the lockout, but no step before it removes the locks: put the step that removes the "
+                "locks (\"When the work is done and everyone is clear ..., remove the locks and tags ...\") "
+                "after the work and before it.")
     work = _locked_out_work(plans)
     for i, line in enumerate(lines):
         if i not in locked_out and i != lockout and unlabelled(line) in work:
@@ -892,8 +896,17 @@ def work_order_finish(
                 + "; ".join(f"{a.order.number} {a.order.title}" for a in held)
                 + ". Finish once they have removed their locks and ticked that on their order"
             )
-        hand_back = [line for line in unticked
-                     if line.kind == ChecklistTick.Kind.STEP and unlabelled(line.text).strip() == HAND_BACK]
+        # Steps that wait while the telescope's mirror is out are not confirmed done meanwhile (a diff review finished
+        # an order that way, its test under power and hand-back "done or did not apply" on an unbalanced telescope).
+        mirror_out = telescope_out_notices(order)
+        waiting = held_while_mirror_out(order.step_list) if mirror_out else set()
+        if left := [line for line in unticked if line.kind == ChecklistTick.Kind.STEP and line.key in waiting]:
+            raise Refused(
+                "steps that wait while the telescope's mirror is out are not ticked ("
+                + "; ".join(line.label.lower() for line in left)
+                + f"): {mirror_out[0][0]}. Finish this order once the reinstall is finished and they are done"
+            )
+        hand_back = [line for line in unticked if line.kind == ChecklistTick.Kind.STEP and is_hand_back(line.text)]
         if hand_back and (working := still_working(order)):
             raise Refused(
                 f"{hand_back[0].label.lower()}, the hand-back to robotic and remote control, is not ticked while "
@@ -1077,8 +1090,8 @@ def held_for_other_crews(steps: Sequence[str]) -> set[int]:
     if found is not None:
         release = found[1].stop
         return set(range(release + 1, len(steps))) if release < len(steps) else set()
-    returning = RETURNS_TO_SERVICE | {HAND_BACK}
-    return {index for index, step in enumerate(steps) if unlabelled(step).strip() in returning}
+    return {index for index, step in enumerate(steps)
+            if unlabelled(step).strip() in RETURNS_TO_SERVICE or is_hand_back(step)}
 
 
 def _others_locked_out_refusal(order: WorkOrder, key: int) -> str:
@@ -1090,7 +1103,7 @@ def _others_locked_out_refusal(order: WorkOrder, key: int) -> str:
     steps = order.step_list
     if key >= len(steps):
         return ""
-    hand_back = unlabelled(steps[key]).strip() == HAND_BACK
+    hand_back = is_hand_back(steps[key])
     if hand_back:
         held, why = still_working(order), "hands the observatory back to robotic and remote control"
     elif key in held_for_other_crews(steps):
@@ -1116,21 +1129,32 @@ def _others_locked_out_refusal(order: WorkOrder, key: int) -> str:
     )
 
 
-def _telescope_out_refusal(order: WorkOrder, key: int) -> str:
-    """Why step ``key`` of ``order`` may not be ticked yet: its telescope's primary mirror is out for a recoat
-    (``selectors.telescope_out_notices``), so the telescope is out of balance, and the step is one that brings energy
-    back or hands the telescope back (``held_for_other_crews``: after the release, or a return to service or to robotic
-    control), which would release a brake or move an axis of an unbalanced telescope (a safety review ticked brake air,
-    tests under power and the hand-back on such a telescope). "" when nothing holds it. Common practice, no published
+def held_while_mirror_out(steps: Sequence[str]) -> set[int]:
+    """The steps of an order that wait while its telescope's primary mirror is out for a recoat (out of balance, its
+    axes pinned, its drives on the site's long-term locks: ``selectors.telescope_out_notices``): those that bring
+    energy back or hand the telescope back (``held_for_other_crews``), every step under power before the lockout
+    except those that move no axis (``catalogue.MOVES_NO_AXIS``: out of robotic control, closing the enclosure,
+    reading the records), and any parking (``catalogue.PARKINGS``). A safety review ticked brake air, a test under
+    power and the hand-back on such a telescope, and a diff review a slew under power. Common practice, no published
     source; the site's mirror-removal procedure and the maker's instructions come first."""
-    if key not in held_for_other_crews(order.step_list):
+    found = isolated_steps(steps)
+    powered = range(found[0]) if found is not None else range(0)
+    return (held_for_other_crews(steps)
+            | {i for i in powered if unlabelled(steps[i]).strip() not in MOVES_NO_AXIS}
+            | {i for i, step in enumerate(steps) if unlabelled(step).strip() in PARKINGS})
+
+
+def _telescope_out_refusal(order: WorkOrder, key: int) -> str:
+    """Why step ``key`` of ``order`` may not be ticked yet: it is one that waits while its telescope's mirror is out
+    (``held_while_mirror_out``). "" when nothing holds it."""
+    if key not in held_while_mirror_out(order.step_list):
         return ""
     notices = telescope_out_notices(order)
     if not notices:
         return ""
     title, body, _todo = notices[0]
-    return (f"step {key + 1} brings energy back or hands the telescope back, and {title}: "
-            f"{body} Leave this step until the reinstall is finished, and ask the site engineer")
+    return (f"step {key + 1} moves an axis, brings energy back or hands the telescope back, and {title}: {body} Leave "
+            "this step until the reinstall is finished, and ask the site engineer")
 
 
 def _lockout_sequence_refusal(order: WorkOrder, line: tuple, ticked: bool, what: str, ticks: dict) -> str:

@@ -1,6 +1,6 @@
 import datetime as dt
-import re
 
+from django import forms
 from django.contrib import messages
 from django.http import HttpResponse, HttpResponseNotAllowed, JsonResponse
 from django.shortcuts import get_object_or_404, redirect, render
@@ -13,6 +13,7 @@ from observatory_ops.access.decorators import requires
 from observatory_ops.access.roles import ENGINEER, TECHNICIAN, VIEWER, has_role
 from observatory_ops.archive.history import person
 from observatory_ops.exports import csv_response, download_refused, period
+from observatory_ops.logbook.nights_csv import WRITTEN_DATE
 from observatory_ops.planning.models import ServicePlan
 from observatory_ops.planning.services import site_today
 from observatory_ops.registry.catalogue import BRAKE_AIR_BACK, is_tag_out_step, release_step_for
@@ -45,6 +46,7 @@ from .forms import (
     PartCountForm,
     WithdrawForm,
     WorkOrderEditForm,
+    planned_date_plausible,
 )
 from .lifecycle import TRANSITIONS, available
 from .models import Part, State, WorkOrder
@@ -82,26 +84,27 @@ def work_order_from_due(request):
                    key=lambda plan: ids.index(plan.pk))  # in the due list's order
     # The due list asks no date: the order is planned for the site's today, so it can be issued straight away. A
     # recoat's downtime offer (mirrors.services.due_in_downtime) sends the day it plans the work for, today or later.
-    planned = site_today(plans[0].subsystem.telescope.site) if plans else None
-    asked_for = request.POST.get("planned_on", "")
-    if plans and asked_for:
+    back = request.POST.get("back", "")
+    if not (back and url_has_allowed_host_and_scheme(back, allowed_hosts={request.get_host()},
+                                                     require_https=request.is_secure())):
+        back = reverse("due-list")
+    today = site_today(plans[0].subsystem.telescope.site) if plans else None
+    planned = today
+    if plans and (asked_for := request.POST.get("planned_on", "")):
+        written = WRITTEN_DATE.fullmatch(asked_for)
         try:
-            day = dt.date.fromisoformat(asked_for) if re.fullmatch(r"[0-9]{4}-[0-9]{2}-[0-9]{2}", asked_for) else None
-        except ValueError:
-            day = None
-        if day is None or day < planned:
-            messages.error(request, f"No work order made: the planned day \"{asked_for}\" is not a date from today on.")
-            return redirect(reverse("due-list"))
-        planned = day
+            planned = planned_date_plausible(dt.date.fromisoformat(written.group()), today) if written else None
+        except (ValueError, forms.ValidationError):
+            planned = None
+        if planned is None or planned < today:
+            messages.error(request, f"No work order made: the planned day \"{asked_for}\" is not a date from today "
+                                    "on, within the years work is planned ahead.")
+            return redirect(back)
     try:
         order = services.work_order_from_due(plans, request.user, planned)
     except services.Refused as exc:
         messages.error(request, f"No work order made: {exc}.")
-        back = request.POST.get("back", "")
-        safe = url_has_allowed_host_and_scheme(
-            back, allowed_hosts={request.get_host()}, require_https=request.is_secure()
-        )
-        return redirect(back if back and safe else reverse("due-list"))
+        return redirect(back)
     items = "1 due item" if len(plans) == 1 else f"{len(plans)} due items"
     # Drafting is a technician's to do, editing and issuing an engineer's: a technician is told who takes it on.
     held = selectors.moves_held(order).get("issue")
@@ -110,8 +113,8 @@ def work_order_from_due(request):
             f"It cannot be issued yet: {held[0]}." if held else
             "An engineer checks its steps and date and issues it; it is listed among the drafts on the work orders "
             "page.")
-    when = "today" if planned == site_today(plans[0].subsystem.telescope.site) else "the downtime"
-    messages.success(request, f"{order.number} drafted from {items}, planned for {when} ({planned:%d %b %Y}). {then}")
+    when = f"today ({planned:%d %b %Y})" if planned == today else f"{planned:%d %b %Y}"
+    messages.success(request, f"{order.number} drafted from {items}, planned for {when}. {then}")
     already = {
         other.number: other for orders in selectors.orders_for_plans(p.pk for p in plans).values()
         for other in orders if other.pk != order.pk
@@ -404,9 +407,9 @@ def work_order_finish(request, pk):
     flagged: list[str] = []
     if request.method == "POST" and form.is_valid():
         flags = form.beyond_limits()
-        # Hours far above the estimate and reflectances above fresh are questioned as readings beyond their limit
-        # are; only the last are flagged on the record.
-        asked = {**form.hours_questioned(), **form.above_fresh(), **flags}
+        # Hours far above the estimate, reflectances above fresh and readings of 0 against a limit are questioned as
+        # readings beyond their limit are; only the last are flagged on the record.
+        asked = {**form.hours_questioned(), **form.above_fresh(), **form.zero_readings(), **flags}
         flagged = sorted(f"{name}={form.cleaned_data[name]!r}" for name in asked)
         confirmed = form.cleaned_data.get("confirm_unticked", False)
         isolation_answer = form.cleaned_data.get("isolation_answer", "")
