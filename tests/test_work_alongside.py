@@ -95,11 +95,24 @@ def test_work_on_another_telescope_or_finished_work_asks_nothing(order, telescop
 
 
 def _tick_through(underway, users, last: int) -> None:
-    """Tick an order underway in its sequence: its isolation points, then steps 0 to ``last``."""
-    for point in selectors.isolation_points(underway):
-        services.checklist_tick_set(underway, "point", point.pk, True, users["technician"])
-    for step in range(last + 1):
-        services.checklist_tick_set(underway, "step", step, True, users["technician"])
+    """Tick an order underway in its sequence: its isolation points, then steps 0 to ``last`` (those not ticked
+    yet)."""
+    lines = selectors.checklist(underway)
+    for point in lines.points:
+        if not point.ticked:
+            services.checklist_tick_set(underway, "point", point.key, True, users["technician"])
+    for step in lines.steps[:last + 1]:
+        if not step.ticked:
+            services.checklist_tick_set(underway, "step", step.key, True, users["technician"])
+
+
+def _powered_first(users, *underway) -> None:
+    """Each order's steps under power before its lockout, ticked before any crew locks out: once one is locked out,
+    the others' moves under power wait (services.moves_or_restores), as the crews agree on the day."""
+    for each in underway:
+        lockout, _ = services.isolated_steps(each.step_list)
+        for step in range(lockout):
+            services.checklist_tick_set(each, "step", step, True, users["technician"])
 
 
 def test_nothing_after_a_release_is_ticked_while_another_crew_is_still_locked_out(order, fans_order, users):  # noqa: F811
@@ -111,6 +124,7 @@ def test_nothing_after_a_release_is_ticked_while_another_crew_is_still_locked_ou
     drive_order = _issued(order, users)
     services.work_order_move(drive_order, "start", users["technician"])
     fans_order, drive_order = (WorkOrder.objects.get(pk=o.pk) for o in (fans_order, drive_order))
+    _powered_first(users, fans_order, drive_order)
     fans_lockout, fans_locked = services.isolated_steps(fans_order.step_list)
     _tick_through(fans_order, users, fans_lockout)  # the fans crew locked out, its release not ticked
     drive_lockout, drive_locked = services.isolated_steps(drive_order.step_list)
@@ -141,6 +155,7 @@ def test_finishing_cannot_confirm_the_steps_after_a_release_while_another_crew_i
     drive_order = _issued(order, users)
     services.work_order_move(drive_order, "start", users["technician"])
     fans_order, drive_order = (WorkOrder.objects.get(pk=o.pk) for o in (fans_order, drive_order))
+    _powered_first(users, fans_order, drive_order)
     fans_lockout, _ = services.isolated_steps(fans_order.step_list)
     _tick_through(fans_order, users, fans_lockout)
     release = services.isolated_steps(drive_order.step_list)[1].stop
@@ -212,19 +227,31 @@ def test_the_observatory_goes_back_to_robotic_control_only_when_no_other_crew_ha
         "everyone clear")
     from test_workorders import _all_readings
 
-    with pytest.raises(services.Refused, match="the hand-back to robotic and remote control, is not ticked while "
-                                               f"another crew still has work to do on this telescope: "
-                                               f"{fans_order.number}"):
-        services.work_order_finish(drive_order, users["technician"], 1.0, "ok", _all_readings(drive_order, 0.6),
-                                   confirmed_unticked=[HAND_BACK])
-    # The fans crew finishes its work up to its own hand-back: both may now hand back, whichever is last.
+    # Done with its work, the drive crew may finish with its hand-back left to the last crew out, and the record says
+    # so (a walk-through could not record a finished realignment while another order stood paused).
+    services.work_order_finish(drive_order, users["technician"], 1.0, "ok", _all_readings(drive_order, 0.6),
+                               confirmed_unticked=[HAND_BACK])
+    finished = WorkOrder.objects.get(pk=drive_order.pk)
+    assert finished.state == State.FINISHED and finished.findings == (
+        f"ok\nStep {last + 1}, the hand-back to robotic and remote control, was left to the last crew out: "
+        f"{fans_order.number} {fans_order.title}, still at work on the telescope when this order was finished.")
+    # The fans crew, the last out, finishes its work and hands the observatory back.
     fans_last = len(fans_order.step_list) - 1
     for point in selectors.isolation_points(fans_order):
         services.checklist_tick_set(fans_order, "point", point.pk, True, users["technician"])
-    for step in range(1, fans_last):
+    for step in range(1, fans_last + 1):
         services.checklist_tick_set(fans_order, "step", step, True, users["technician"])
-    services.checklist_tick_set(drive_order, "step", last, True, users["technician"])
-    services.checklist_tick_set(fans_order, "step", fans_last, True, users["technician"])
+
+
+def test_two_crews_both_done_may_each_hand_back(order, fans_order, users):  # noqa: F811
+    services.work_order_move(fans_order, "start", users["technician"])
+    drive_order = _issued(order, users)
+    services.work_order_move(drive_order, "start", users["technician"])
+    fans_order, drive_order = (WorkOrder.objects.get(pk=o.pk) for o in (fans_order, drive_order))
+    for underway in (fans_order, drive_order):
+        _tick_through(underway, users, len(underway.step_list) - 2)  # all but the hand-back
+    for underway in (drive_order, fans_order):
+        services.checklist_tick_set(underway, "step", len(underway.step_list) - 1, True, users["technician"])
 
 
 def test_the_finish_form_says_not_to_do_locked_out_work_left_unticked_after_the_locks_came_off(order, users, client):  # noqa: F811
@@ -241,3 +268,19 @@ def test_the_finish_form_says_not_to_do_locked_out_work_left_unticked_after_the_
     page = client.get(f"/workorders/{drive_order.pk}/finish/").content.decode()
     said = "Done with the energy isolated, and the locks are off now: if it was not done, do not do it now"
     assert page.count(said) == len(locked)
+
+
+def test_a_move_under_power_before_its_own_lockout_waits_while_another_crew_is_locked_out(order, fans_order, users):  # noqa: F811
+    """A walk-through ticked "slew axis 1 slowly to each wrap limit" on one order while another crew on the telescope
+    was locked out: their locks keep the drives off, so the move either fails or means the locks are not on. It waits
+    as the steps after a release do."""
+    services.work_order_move(fans_order, "start", users["technician"])
+    drive_order = _issued(order, users)
+    services.work_order_move(drive_order, "start", users["technician"])
+    fans_order, drive_order = (WorkOrder.objects.get(pk=o.pk) for o in (fans_order, drive_order))
+    _tick_through(fans_order, users, services.isolated_steps(fans_order.step_list)[0])  # the fans crew locked out
+    steps = drive_order.step_list
+    moving = min(i for i in services.moves_or_restores(steps) if i < services.isolated_steps(steps)[0])
+    with pytest.raises(services.Refused, match=rf"step {moving + 1} is done under power before the lockout and may "
+                                               "move an axis, and another crew is still locked out on this telescope"):
+        services.checklist_tick_set(drive_order, "step", moving, True, users["technician"])

@@ -801,36 +801,40 @@ class DowntimeOffer:
 
 def due_in_downtime(plan: RecoatPlan) -> DowntimeOffer | None:
     """For a recoat in hand not yet over, the service plans of its telescope's other subsystems forecast from
-    ``DOWNTIME_EARLY_DAYS`` before its first day to ``DOWNTIME_MARGIN_DAYS`` after its last, and on no work order still
-    to do: a site engineer folds them into
+    ``DOWNTIME_EARLY_DAYS`` before the day an order for them is planned to ``DOWNTIME_MARGIN_DAYS`` after the recoat's
+    last day, and on no work order still to do: a site engineer folds them into
     the downtime rather than taking the telescope out again (a reviewer had to find them by hand on the due list).
     Overdue plans are not offered: they are done now, not put off to the downtime. Each state carries ``days_early``,
-    how many days before the downtime's first day it comes due (0 when within it or after): the page ticks only those
-    at 0, since folding in the others leaves them late. None when the recoat is over or nothing is offered."""
+    how many days before the day the order would be planned (the realignment's first day) it comes due (0 when on or
+    after it): the page ticks only those at 0, since folding in the others leaves them that late. None when the recoat
+    is over (its last day gone, or its work all done or stopped) or nothing is offered."""
     from observatory_ops.planning.models import PlanStatus
     from observatory_ops.workorders.selectors import orders_for_plans  # mirrors builds on work orders
 
     site = plan.mirror.subsystem.telescope.site
-    if plan.ends_on < site_today(site):
+    today = site_today(site)
+    orders = list(plan.work_orders.all())
+    # Over once its last day has gone or its work is all done (or stopped): nothing is offered for it then.
+    if plan.ends_on < today or not any(o.state in (State.DRAFT, State.ISSUED, State.UNDERWAY) for o in orders):
         return None
+    realignment = next((o.planned_date for o in orders if o.recoat_phase == "realignment" and o.planned_date), None)
+    # On the realignment's later days the offer plans for today: a day gone by is refused.
+    planned_on = max(realignment or plan.ends_on, today)
     horizon = plan.ends_on + dt.timedelta(days=DOWNTIME_MARGIN_DAYS)
     states = list(
         PlanStatus.objects.filter(plan__subsystem__telescope=plan.mirror.subsystem.telescope, plan__active=True,
                                   forecast_date__lte=horizon,
-                                  forecast_date__gte=plan.starts_on - dt.timedelta(days=DOWNTIME_EARLY_DAYS))
+                                  forecast_date__gte=planned_on - dt.timedelta(days=DOWNTIME_EARLY_DAYS))
         .exclude(plan__subsystem=plan.mirror.subsystem).exclude(status=OVERDUE)
         .select_related("plan__subsystem").order_by("forecast_date", "plan_id")
     )
     held = orders_for_plans(s.plan_id for s in states)
     states = [s for s in states if s.plan_id not in held]
-    for state in states:
-        state.days_early = max((plan.starts_on - state.forecast_date).days, 0)
+    for state in states:  # how late the order, planned for ``planned_on``, does it (a walk-through: 8 days said, 21)
+        state.days_early = max((planned_on - state.forecast_date).days, 0)
     if not states:
         return None
-    realignment = next((o.planned_date for o in plan.work_orders.all()
-                        if o.recoat_phase == "realignment" and o.planned_date), None)
-    # On the realignment's later days the offer plans for today: a day gone by is refused.
-    return DowntimeOffer(states, max(realignment or plan.ends_on, site_today(site)))
+    return DowntimeOffer(states, planned_on)
 
 
 def recoat_in_hand_text(plan: RecoatPlan) -> str:

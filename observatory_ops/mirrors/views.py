@@ -268,7 +268,8 @@ def recoat_plan_create(request, pk):
                 [(name, value) for name, value in sent if name != "window"]),
             "question": (
                 f"The window from {chosen['start']:%a %d %b %Y} starts {late_by} day{pluralize(late_by)} after the "
-                f"recoat plan is due ({due.forecast_date:%d %b %Y}: {due.reason}). The mirror stays below its recoat "
+                f"recoat plan is due ({due.forecast_date:%d %b %Y}: {due.reason.rstrip('.')}). The mirror stays below "
+                "its recoat "
                 "line, or past the plan's other limit, until the work is done. Plan it in this window anyway?"
             ),
         })

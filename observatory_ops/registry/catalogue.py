@@ -1185,7 +1185,7 @@ HAND_BACK = (
 )
 #: The steps under power before a lockout that move no axis of the telescope: taking the observatory out of robotic
 #: control, closing the enclosure, reading the records. While a telescope's mirror is out (out of balance, its axes
-#: pinned) every other step before the lockout waits for the reinstall (workorders.services.held_while_mirror_out).
+#: pinned) every other step before the lockout waits for the reinstall (workorders.services.moves_or_restores).
 MOVES_NO_AXIS: frozenset[str] = frozenset({
     OUT_OF_CONTROL, _OUT_OF_SERVICE, _EARLIER_OUT_OF_SERVICE, _CLOSE_ENCLOSURE, _EARLIER_CLOSE_DOME, READ_RECORDS,
 })

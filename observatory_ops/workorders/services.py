@@ -899,7 +899,7 @@ def work_order_finish(
         # Steps that wait while the telescope's mirror is out are not confirmed done meanwhile (a diff review finished
         # an order that way, its test under power and hand-back "done or did not apply" on an unbalanced telescope).
         mirror_out = telescope_out_notices(order)
-        waiting = held_while_mirror_out(order.step_list) if mirror_out else set()
+        waiting = moves_or_restores(order.step_list) if mirror_out else set()
         if left := [line for line in unticked if line.kind == ChecklistTick.Kind.STEP and line.key in waiting]:
             raise Refused(
                 "steps that wait while the telescope's mirror is out are not ticked ("
@@ -908,11 +908,12 @@ def work_order_finish(
             )
         hand_back = [line for line in unticked if line.kind == ChecklistTick.Kind.STEP and is_hand_back(line.text)]
         if hand_back and (working := still_working(order)):
-            raise Refused(
-                f"{hand_back[0].label.lower()}, the hand-back to robotic and remote control, is not ticked while "
-                "another crew still has work to do on this telescope: "
+            # The last crew out hands the observatory back: this one, done, leaves it to them, and the record says so
+            # (a walk-through's realignment could not be recorded while another order on the telescope stood paused).
+            findings = (f"{findings}\n" if findings.strip() else "") + (
+                f"{hand_back[0].label}, the hand-back to robotic and remote control, was left to the last crew out: "
                 + "; ".join(f"{a.order.number} {a.order.title}" for a in working)
-                + ". Finish once they have ticked all their work (the last crew out hands the observatory back)"
+                + ", still at work on the telescope when this order was finished."
             )
         unconfirmed = [line for line in others if line.text not in seen]
         if unconfirmed:
@@ -925,7 +926,7 @@ def work_order_finish(
             unticked_at_finish=[f"{line.label}: {line.text}" for line in others],
             isolation_unticked_at_finish=[f"{line.label}: {line.text}" for line in isolation],
             isolation_confirmed_at_finish=isolation_answer if isolation else "", isolation_at_finish=kept,
-            crew=crew, crew_by_account=True,
+            crew=crew, crew_by_account=True, findings=findings,
         )
         # Rows written as such send no m2m signal, whose own history row would come before the finish's: the save
         # in _record_history records them with the rest.
@@ -1096,8 +1097,9 @@ def held_for_other_crews(steps: Sequence[str]) -> set[int]:
 
 def _others_locked_out_refusal(order: WorkOrder, key: int) -> str:
     """Why step ``key`` of ``order`` may not be ticked yet: it hands the observatory back to robotic control
-    (``catalogue.HAND_BACK``) while another crew still has work to do on the telescope (``still_working``), or it is
-    held for other crews (``held_for_other_crews``) while another crew is still locked out (``still_locked_out``).
+    (``catalogue.is_hand_back``) while another crew still has work to do on the telescope (``still_working``), or it
+    moves an axis, needs power or brings energy back (``moves_or_restores``) while another crew is still locked out
+    (``still_locked_out``).
     Removing one's own locks stays free: each person removes their own (OSHA 29 CFR 1910.147(e)(3) and (f)(3),
     group lockout). "" when nothing holds it."""
     steps = order.step_list
@@ -1106,10 +1108,10 @@ def _others_locked_out_refusal(order: WorkOrder, key: int) -> str:
     hand_back = is_hand_back(steps[key])
     if hand_back:
         held, why = still_working(order), "hands the observatory back to robotic and remote control"
-    elif key in held_for_other_crews(steps):
-        held = still_locked_out(order)
-        why = ("is done after the locks come off" if isolated_steps(steps) is not None
-               else "puts the telescope back in service or under robotic control")
+    elif key in moves_or_restores(steps):
+        # The other crew's locks keep the drives off: a move under power, or energy brought back, would either fail
+        # or mean their locks are not on (a walk-through ticked a slew under power before this order's own lockout).
+        held, why = still_locked_out(order), _why_held(steps, key)
     else:
         return ""
     if not held:
@@ -1129,14 +1131,17 @@ def _others_locked_out_refusal(order: WorkOrder, key: int) -> str:
     )
 
 
-def held_while_mirror_out(steps: Sequence[str]) -> set[int]:
-    """The steps of an order that wait while its telescope's primary mirror is out for a recoat (out of balance, its
-    axes pinned, its drives on the site's long-term locks: ``selectors.telescope_out_notices``): those that bring
-    energy back or hand the telescope back (``held_for_other_crews``), every step under power before the lockout
-    except those that move no axis (``catalogue.MOVES_NO_AXIS``: out of robotic control, closing the enclosure,
-    reading the records), and any parking (``catalogue.PARKINGS``). A safety review ticked brake air, a test under
-    power and the hand-back on such a telescope, and a diff review a slew under power. Common practice, no published
-    source; the site's mirror-removal procedure and the maker's instructions come first."""
+def moves_or_restores(steps: Sequence[str]) -> set[int]:
+    """The steps of an order that move an axis, need power or bring energy back: those after the release or that
+    hand the telescope back (``held_for_other_crews``), every step under power before the lockout except those that
+    move no axis (``catalogue.MOVES_NO_AXIS``: out of robotic control, closing the enclosure, reading the records),
+    and any parking (``catalogue.PARKINGS``). They wait while another crew on the telescope is locked out
+    (``_others_locked_out_refusal``: the hand-back waits for every other crew's work, ``still_working``) and while its
+    primary mirror is out for a recoat (out of balance, its axes pinned, its drives on the site's long-term locks:
+    ``_telescope_out_refusal``). A safety review ticked brake air, a test under power and the hand-back on such a
+    telescope, a diff review a slew under power, a walk-through a slew before its own lockout beside another crew's.
+    Common practice, no published source; the site's lockout and mirror-removal procedures and the maker's
+    instructions come first."""
     found = isolated_steps(steps)
     powered = range(found[0]) if found is not None else range(0)
     return (held_for_other_crews(steps)
@@ -1144,17 +1149,30 @@ def held_while_mirror_out(steps: Sequence[str]) -> set[int]:
             | {i for i, step in enumerate(steps) if unlabelled(step).strip() in PARKINGS})
 
 
+def _why_held(steps: Sequence[str], key: int) -> str:
+    """What step ``key`` does that holds it (``moves_or_restores``), in the words of a refusal."""
+    found = isolated_steps(steps)
+    if found is not None and key < found[0]:
+        return "is done under power before the lockout and may move an axis"
+    if found is not None and key > found[1].stop:
+        return "is done after the locks come off"
+    if unlabelled(steps[key]).strip() in PARKINGS:
+        return "moves the telescope"
+    return "puts the telescope back in service or under robotic control"
+
+
 def _telescope_out_refusal(order: WorkOrder, key: int) -> str:
     """Why step ``key`` of ``order`` may not be ticked yet: it is one that waits while its telescope's mirror is out
-    (``held_while_mirror_out``). "" when nothing holds it."""
-    if key not in held_while_mirror_out(order.step_list):
+    (``moves_or_restores``). "" when nothing holds it."""
+    if key not in moves_or_restores(order.step_list):
         return ""
     notices = telescope_out_notices(order)
     if not notices:
         return ""
     title, body, _todo = notices[0]
-    return (f"step {key + 1} moves an axis, brings energy back or hands the telescope back, and {title}: {body} Leave "
-            "this step until the reinstall is finished, and ask the site engineer")
+    why = "hands the telescope back" if is_hand_back(order.step_list[key]) else _why_held(order.step_list, key)
+    return (f"step {key + 1} {why}, and {title}: {body} Leave this step until the reinstall is finished, and ask "
+            "the site engineer")
 
 
 def _lockout_sequence_refusal(order: WorkOrder, line: tuple, ticked: bool, what: str, ticks: dict) -> str:
