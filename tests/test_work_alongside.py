@@ -94,6 +94,14 @@ def test_work_on_another_telescope_or_finished_work_asks_nothing(order, telescop
     assert [a.order.pk for a in selectors.work_alongside(drive_order)] == [elsewhere.pk]
 
 
+def _both_underway(drive_draft, fans_order, users) -> tuple[WorkOrder, WorkOrder]:
+    """The fans order started, then the drive order issued and started: both underway on T1, read afresh."""
+    services.work_order_move(fans_order, "start", users["technician"])
+    drive_order = _issued(drive_draft, users)
+    services.work_order_move(drive_order, "start", users["technician"])
+    return WorkOrder.objects.get(pk=fans_order.pk), WorkOrder.objects.get(pk=drive_order.pk)
+
+
 def _tick_through(underway, users, last: int) -> None:
     """Tick an order underway in its sequence: its isolation points, then steps 0 to ``last`` (those not ticked
     yet)."""
@@ -120,10 +128,7 @@ def test_nothing_after_a_release_is_ticked_while_another_crew_is_still_locked_ou
     ticks for removing its locks, restoring the brake air and the supply, and handing the observatory back to robotic
     control. Each crew removes its own locks (OSHA 29 CFR 1910.147(e)(3), (f)(3)); what follows a release waits until
     the other crew's locks are recorded as off too (common practice, no published source)."""
-    services.work_order_move(fans_order, "start", users["technician"])
-    drive_order = _issued(order, users)
-    services.work_order_move(drive_order, "start", users["technician"])
-    fans_order, drive_order = (WorkOrder.objects.get(pk=o.pk) for o in (fans_order, drive_order))
+    fans_order, drive_order = _both_underway(order, fans_order, users)
     _powered_first(users, fans_order, drive_order)
     fans_lockout, fans_locked = services.isolated_steps(fans_order.step_list)
     _tick_through(fans_order, users, fans_lockout)  # the fans crew locked out, its release not ticked
@@ -151,10 +156,7 @@ def test_finishing_cannot_confirm_the_steps_after_a_release_while_another_crew_i
     """A diff review: the ticks were refused, but the finish form confirmed the same steps as done."""
     from test_workorders import _all_readings
 
-    services.work_order_move(fans_order, "start", users["technician"])
-    drive_order = _issued(order, users)
-    services.work_order_move(drive_order, "start", users["technician"])
-    fans_order, drive_order = (WorkOrder.objects.get(pk=o.pk) for o in (fans_order, drive_order))
+    fans_order, drive_order = _both_underway(order, fans_order, users)
     _powered_first(users, fans_order, drive_order)
     fans_lockout, _ = services.isolated_steps(fans_order.step_list)
     _tick_through(fans_order, users, fans_lockout)
@@ -209,10 +211,7 @@ def test_the_observatory_goes_back_to_robotic_control_only_when_no_other_crew_ha
     locks on) was at the telescope when the other order's hand-back was ticked. The hand-back waits until every other
     crew on the telescope has ticked all its work; the last crew out hands it back (common practice, no published
     source). Two crews both done may each tick their own."""
-    services.work_order_move(fans_order, "start", users["technician"])
-    drive_order = _issued(order, users)
-    services.work_order_move(drive_order, "start", users["technician"])
-    fans_order, drive_order = (WorkOrder.objects.get(pk=o.pk) for o in (fans_order, drive_order))
+    fans_order, drive_order = _both_underway(order, fans_order, users)
     services.checklist_tick_set(fans_order, "step", 0, True, users["technician"])  # out of control, under power
     assert fans_order.step_list[-1] == drive_order.step_list[-1] == HAND_BACK
     last = len(drive_order.step_list) - 1
@@ -244,10 +243,7 @@ def test_the_observatory_goes_back_to_robotic_control_only_when_no_other_crew_ha
 
 
 def test_two_crews_both_done_may_each_hand_back(order, fans_order, users):  # noqa: F811
-    services.work_order_move(fans_order, "start", users["technician"])
-    drive_order = _issued(order, users)
-    services.work_order_move(drive_order, "start", users["technician"])
-    fans_order, drive_order = (WorkOrder.objects.get(pk=o.pk) for o in (fans_order, drive_order))
+    fans_order, drive_order = _both_underway(order, fans_order, users)
     for underway in (fans_order, drive_order):
         _tick_through(underway, users, len(underway.step_list) - 2)  # all but the hand-back
     for underway in (drive_order, fans_order):
@@ -274,10 +270,7 @@ def test_a_move_under_power_before_its_own_lockout_waits_while_another_crew_is_l
     """A walk-through ticked "slew axis 1 slowly to each wrap limit" on one order while another crew on the telescope
     was locked out: their locks keep the drives off, so the move either fails or means the locks are not on. It waits
     as the steps after a release do."""
-    services.work_order_move(fans_order, "start", users["technician"])
-    drive_order = _issued(order, users)
-    services.work_order_move(drive_order, "start", users["technician"])
-    fans_order, drive_order = (WorkOrder.objects.get(pk=o.pk) for o in (fans_order, drive_order))
+    fans_order, drive_order = _both_underway(order, fans_order, users)
     _tick_through(fans_order, users, services.isolated_steps(fans_order.step_list)[0])  # the fans crew locked out
     steps = drive_order.step_list
     moving = min(i for i in services.moves_or_restores(steps) if i < services.isolated_steps(steps)[0])
