@@ -1202,10 +1202,14 @@ HAND_BACK_AFTER_REALIGNMENT = (
 HAND_BACKS: frozenset[str] = frozenset({HAND_BACK, HAND_BACK_AFTER_REALIGNMENT})
 
 
+def unlabelled(step: str) -> str:
+    """A step without the "[plan label] " an order of several plans puts before it (workorders.services._labelled)."""
+    return step.split("] ", 1)[1] if step.startswith("[") and "] " in step else step
+
+
 def is_hand_back(step: str) -> bool:
     """True when ``step`` (a "[plan] " label before it ignored) hands the observatory back to robotic control."""
-    words = step.split("] ", 1)[1] if step.startswith("[") and "] " in step else step
-    return words.strip() in HAND_BACKS
+    return unlabelled(step).strip() in HAND_BACKS
 
 #: Every step the catalogue places before isolation, and every step of its plans' restoring: how the upgrade
 #: that gave stored plans their three step groups (planning migration 0007) told them apart by their words.

@@ -18,6 +18,7 @@ from observatory_ops.planning.metrics import RECOAT_LINE
 from observatory_ops.planning.models import ServicePlan, part_lines
 from observatory_ops.planning.services import site_today
 from observatory_ops.registry import catalogue
+from observatory_ops.registry.catalogue import unlabelled
 from observatory_ops.registry.models import Site, Subsystem
 from observatory_ops.registry.selectors import crew_days_off
 
@@ -232,7 +233,7 @@ def prepared_apart(order: WorkOrder) -> dict[str, list[int]]:
         return {}
     by_plan: dict[str, list[int]] = {}
     for index, step in enumerate(steps[:lockout]):
-        if step.startswith("[") and "] " in step and step[step.index("] ") + 2:].strip() != catalogue.READ_RECORDS:
+        if unlabelled(step) != step and unlabelled(step).strip() != catalogue.READ_RECORDS:
             by_plan.setdefault(step[1:step.index("] ")], []).append(index + 1)
     names = set(order.items.values_list("subsystem__telescope__name", flat=True))
     if len(names) > 1:  # labels begin with their telescope's name
@@ -750,11 +751,6 @@ class Checklist:
 def line_anchor(kind: str, key: int) -> str:
     """The id of a checklist line on the work order page (step numbers count from 1, as printed)."""
     return f"step-{key + 1}" if kind == STEP else f"point-{key}"
-
-
-def unlabelled(line: str) -> str:
-    """A step without the "[plan label] " an order of several plans puts before it (services._labelled)."""
-    return line.split("] ", 1)[1] if line.startswith("[") and "] " in line else line
 
 
 def latest_ticks(order: WorkOrder) -> dict[tuple[str, int | None], ChecklistTick]:
