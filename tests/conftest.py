@@ -176,3 +176,15 @@ def mains_isolator(telescope, subsystem=None):
 
     label = f"{subsystem.name} breaker" if subsystem else "Mount isolator"
     return IsolationPoint.objects.get_or_create(telescope=telescope, subsystem=subsystem, energy="ac", label=label)[0]
+
+
+def new_coating_logged(order, by) -> None:
+    """Log its mirror's new coating, on the site's today, for a recoat's strip-and-coat order (it is finished only once
+    one is logged: workorders.selectors.coating_unlogged); nothing for any other order."""
+    if order.recoat_phase != "coating":
+        return
+    from observatory_ops.mirrors.services import coating_log
+    from observatory_ops.planning.services import site_today
+    from observatory_ops.workorders.selectors import lift_mirror
+
+    coating_log(lift_mirror(order), by, site_today(order.site), "al", [{"material": "SiO2", "thickness_nm": 100}])

@@ -56,6 +56,25 @@ def test_a_telescope_without_a_point_for_the_energy_is_warned(telescope, users):
                     "going on."]
 
 
+def test_a_brakes_own_air_valve_answers_its_compressed_air(telescope, users):
+    """A site review registered a brake's own air supply valve: its order listed the valve among its points and,
+    a few lines below, said no compressed-air point was registered, and its issue was held. Locking the supply
+    of the equipment worked on is what OSHA 29 CFR 1910.147 (d)(3) asks; a point of another subsystem answers
+    nothing for it."""
+    brake = subsystem_create(telescope, "brake", "Axis 1 brake", counting_from=START)  # compressed air
+    IsolationPoint.objects.create(telescope=telescope, energy="ac", label="Mount isolator")
+    other = subsystem_create(telescope, "brake", "Axis 2 brake", counting_from=START)
+    IsolationPoint.objects.create(telescope=telescope, subsystem=other, energy="air", label="Axis 2 brake valve")
+    assert any("No compressed-air isolation point" in gap for gap in selectors.isolation_gaps(_order(brake, users)))
+    valve = IsolationPoint.objects.create(telescope=telescope, subsystem=brake, energy="air",
+                                          label="Axis 1 brake air supply valve")
+    order = _order(brake, users)
+    assert valve in selectors.isolation_points(order)
+    assert not any("compressed-air" in gap for gap in selectors.isolation_gaps(order))
+    assert "issue" not in selectors.moves_held(order) or all(
+        "isolation point" not in why for why in selectors.moves_held(order)["issue"])
+
+
 def test_a_point_for_a_subsystem_of_another_telescope_is_refused(dome, site):
     other = Telescope.objects.create(site=site, name="West", aperture_m=0.4, mount="fork")
     with pytest.raises(ValidationError, match="must belong to the point's telescope"):

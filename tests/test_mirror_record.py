@@ -10,7 +10,7 @@ import zoneinfo
 
 import numpy as np
 import pytest
-from conftest import site_in_use
+from conftest import new_coating_logged, site_in_use
 from django.contrib.messages import get_messages
 from django.core.exceptions import ValidationError
 from django.core.management import call_command
@@ -251,6 +251,7 @@ def test_the_realignment_orders_reflectance_reading_reaches_the_mirror(mirror, u
         workorders.work_order_move(order, "issue", users["engineer"])
         workorders.work_order_move(order, "start", users["technician"])
         readings = {r.pk: 0.89 for r in order.required_readings.all()}  # the realignment's reflectance
+        new_coating_logged(order, users["technician"])
         workorders.work_order_finish(order, users["technician"], 4.0, "Isolation ticked on the paper.", readings,
                                      **_confirmed(order))
     assert order.recoat_phase == "realignment"

@@ -15,7 +15,7 @@ import io
 import re
 
 import pytest
-from conftest import mains_isolator
+from conftest import mains_isolator, new_coating_logged
 from django.contrib.messages import get_messages
 from pypdf import PdfReader
 from test_recoat_phases import slings_rated
@@ -67,6 +67,7 @@ def _finished(order, users) -> WorkOrder:
         order = _issued(order, users)
     services.work_order_move(order, "start", users["technician"])
     order = _fresh(order)
+    new_coating_logged(order, users["technician"])
     services.work_order_finish(
         order, users["technician"], 8.0, "done", {r.pk: 0.9 for r in order.required_readings.all()},
         **_confirmed(order),
@@ -208,6 +209,7 @@ def _finish_by_form(client, order, users):
         order = _issued(order, users)
     services.work_order_move(order, "start", users["technician"])
     order = _fresh(order)
+    new_coating_logged(order, users["technician"])
     client.force_login(users["technician"])
     data = {
         "actual_hours": "8", "findings": "done", "work_done_on": site_today(order.site).isoformat(),
@@ -244,3 +246,62 @@ def test_a_withdrawn_next_phase_says_the_recoat_is_planned_again(recoat, users, 
         "planner</a>."
     ) in message
     assert recoat["reinstall"].number not in message.split("Next:")[1].split("was withdrawn")[0]
+
+
+# --- the strip and coat is finished only once its new coating is logged -----------------------------------------
+# Its step "Log the new coating" could be ticked with none logged: the realignment then restarted the recoat plans
+# while the mirror's reflectance decline still ran from the old coating (a review of the left-alone list).
+
+
+def _coating_underway(recoat, users) -> WorkOrder:
+    _finished(recoat["removal"], users)
+    coating = _issued(recoat["coating"], users)
+    services.work_order_move(coating, "start", users["technician"])
+    return _fresh(coating)
+
+
+def test_the_strip_and_coat_is_not_finished_before_its_new_coating_is_logged(recoat, mirror, users, client):
+    coating = _coating_underway(recoat, users)
+    today = site_today(coating.site)
+    expected = (f"no new coating of Primary mirror is logged since it came out ({today:%d %b %Y}): log it on the "
+                "mirror's page (New coating, with its date and recipe) before finishing this order")
+    with pytest.raises(services.Refused, match=re.escape(expected)):
+        services.work_order_finish(coating, users["technician"], 8.0, "done", {}, **_confirmed(coating))
+    assert _fresh(coating).state == State.UNDERWAY
+    client.force_login(users["technician"])
+    page = _text(client.get(f"/workorders/{coating.pk}/"))
+    assert "Not offered: Finish and record. No new coating of Primary mirror is logged" in page
+    assert f'href="/workorders/{coating.pk}/finish/"' not in client.get(f"/workorders/{coating.pk}/").content.decode()
+    assert f'href="/mirrors/{mirror.pk}/" id="mirror-page"' in client.get(f"/workorders/{coating.pk}/").content.decode()
+    response = client.get(f"/workorders/{coating.pk}/finish/")  # an old page or a typed address
+    assert response.status_code == 302
+    assert [str(m) for m in get_messages(response.wsgi_request)] == [
+        f"{coating.number} cannot be finished yet: {expected}, so the reflectance decline and the recoat plans start "
+        "again from it."
+    ]
+
+
+def test_a_coating_logged_before_the_mirror_came_out_does_not_count(recoat, mirror, users):
+    coating = _coating_underway(recoat, users)
+    yesterday = site_today(coating.site) - dt.timedelta(days=1)
+    mirror_services.coating_log(mirror, users["engineer"], yesterday, "al", [])
+    assert "finish" in selectors.moves_held(coating)
+
+
+def test_once_the_new_coating_is_logged_on_the_mirror_page_the_strip_and_coat_finishes(recoat, mirror, users, client):
+    coating = _coating_underway(recoat, users)
+    client.force_login(users["technician"])
+    response = client.post(f"/mirrors/{mirror.pk}/coatings/new/", {
+        "coated_on": site_today(coating.site).isoformat(), "metal": "al", "layers": "SiO2:100", "note": "",
+    })
+    assert response.status_code == 302
+    assert CoatingEvent.objects.filter(mirror=mirror, coated_on=site_today(coating.site)).exists()
+    assert f'href="/workorders/{coating.pk}/finish/"' in client.get(f"/workorders/{coating.pk}/").content.decode()
+    services.work_order_finish(coating, users["technician"], 8.0, "done", {}, **_confirmed(coating))
+    assert _fresh(coating).state == State.FINISHED
+
+
+def test_no_other_order_waits_for_a_coating(recoat, users):
+    removal = _issued(recoat["removal"], users)
+    services.work_order_move(removal, "start", users["technician"])
+    assert "finish" not in selectors.moves_held(_fresh(removal))

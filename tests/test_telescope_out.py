@@ -14,6 +14,7 @@ import io
 import re
 
 import pytest
+from conftest import new_coating_logged
 from pypdf import PdfReader
 from test_recoat_phases import orders, slings_rated  # noqa: F401  (orders: a fixture, used by name)
 from test_workorders import _confirmed
@@ -50,6 +51,7 @@ def _finish(order, users) -> None:
     if order.state == "draft":
         services.work_order_move(order, "issue", users["engineer"])
     services.work_order_move(order, "start", users["technician"])
+    new_coating_logged(order, users["technician"])
     services.work_order_finish(
         order, users["technician"], 8.0, "done", {r.pk: 0.9 for r in order.required_readings.all()},
         **_confirmed(order),

@@ -8,8 +8,9 @@ is done by a second person: never one who took part in the work, by ticking its 
 crew (``selectors.second_person_refusal``); and an order finished with its energy isolation answered for
 as not done or not needed (``cautions.ISOLATION_REVIEW``) is countersigned by an engineer (``role_needed``). Some
 moves wait as an order stands, whoever asks (``selectors.moves_held``): issuing without a planned date, issuing or
-starting with a lift in the way (starting also while no working load limit is entered), and starting a recoat phase
-before the phase order before it in its recoat plan is finished. A start more than a week before the planned date is
+starting with a lift in the way (starting also while no working load limit is entered), starting a recoat phase
+before the phase order before it in its recoat plan is finished, and finishing a recoat's strip and coat before its
+mirror's new coating is logged. A start more than a week before the planned date is
 asked first, not refused (``selectors.early_start_question``). Once the work has started, what its checklist is made
 of stays as stored (``models.WorkOrder.clean``).
 """

@@ -544,7 +544,7 @@ _SOURCE = {"electrical": "AC mains", "pneumatic": "compressed-air", "hydraulic":
 #: point is registered; work already underway (a point's need that arose after the start) locks the supply by hand.
 _ADD_THE_POINT = ("Have an engineer add {what} to the register before work; if the work is already underway, "
                   "find and lock {supply} before going on.")
-_ISOLATED_AT_THE_SUBSYSTEM = ("hydraulic",)
+_ISOLATED_AT_THE_SUBSYSTEM = ("hydraulic", "pneumatic")
 #: Kinds whose work needs an isolation point registered for the subsystem itself (``catalogue.Kind.own_point``), with
 #: why, as the warning says when none is: a dome's own drives, the AC distribution's incoming supply.
 _OWN_POINT = {code: kind.own_point for code, kind in catalogue.KINDS.items() if kind.own_point}
@@ -569,8 +569,9 @@ def _hazards_by_telescope(order: WorkOrder, items: list[WorkOrderItem]) -> dict[
 def isolation_gaps(order: WorkOrder, points: list[IsolationPoint] | None = None,
                    items: list[WorkOrderItem] | None = None) -> list[str]:
     """A warning for each telescope of the order with a hazard but no isolation point for its energy (``_ISOLATES``:
-    electrical energy asks for an AC mains point; one for the whole telescope; for hydraulic pressure, also one
-    registered for a subsystem the order works on there, a lift's pump and valve), and
+    electrical energy asks for an AC mains point; one for the whole telescope; for hydraulic pressure and compressed
+    air, also one registered for a subsystem the order works on there, a lift's pump and valve, a brake's own air
+    valve), and
     for each subsystem whose work needs a point of its own (``catalogue.Kind.own_point``) with none registered for
     it: a dome fed from a supply of its own, whose drives the telescope's points do not make safe, or the AC
     distribution, whose incoming side they leave live. That is each such subsystem the order works on with
@@ -596,8 +597,11 @@ def isolation_gaps(order: WorkOrder, points: list[IsolationPoint] | None = None,
         whole = {p.energy for p in points if p.telescope_id == telescope.pk and p.subsystem_id is None}
         own = {p.energy for p in points if p.telescope_id == telescope.pk and p.subsystem_id in worked}
         for hazard, answers in _ISOLATES.items():
-            # The telescope's electrical and air supplies are locked at its own points, for all work there; a
-            # hydraulic system is one subsystem's (a lift's pump and valve), locked at a point registered for it.
+            # The telescope's electrical supply is locked at its own points, for all work there; a hydraulic system
+            # is one subsystem's (a lift's pump and valve), and compressed air may be (a brake's own supply valve),
+            # locked at a point registered for the subsystem worked on or at the telescope's. A site review had
+            # registered a brake's own air valve: the order listed it among its points and, a few lines below,
+            # said no compressed-air point was registered, and held its issue.
             energies = whole | own if hazard in _ISOLATED_AT_THE_SUBSYSTEM else whole
             if hazard in hazards[telescope.pk] and not energies & answers:
                 gaps.append(f"No {_SOURCE[hazard]} isolation point is registered for {telescope.name}. "
@@ -1167,6 +1171,31 @@ def recoat_order_refusal(order: WorkOrder) -> str:
     )
 
 
+def coating_unlogged(order: WorkOrder) -> str:
+    """Why an underway strip-and-coat order of a recoat may not be finished yet, "" when it may: its mirror has no
+    coating logged on or after the day the mirror came out (its removal's work day; the recoat's first day when that
+    is not known). Its step "Log the new coating" could be ticked without one, and the realignment after it then
+    restarts the recoat plans while the reflectance decline still runs from the old coating, whose fit the new
+    coating's first measurement then spoils. Three queries."""
+    if order.state != State.UNDERWAY or order.recoat_phase != "coating":
+        return ""
+    from observatory_ops.mirrors.models import CoatingEvent, Mirror  # mirrors builds on work orders
+
+    mirror_id, before, _ = _recoat_neighbours(order)
+    if mirror_id is None:
+        return ""
+    plan = order.recoat_plans.order_by("-pk").first()
+    since = (work_done_on(before) if before is not None else None) or plan.starts_on
+    if CoatingEvent.objects.filter(mirror_id=mirror_id, coated_on__gte=since).exists():
+        return ""
+    mirror = Mirror.objects.select_related("subsystem").get(pk=mirror_id)
+    return (
+        f"no new coating of {mirror.subsystem.name} is logged since it came out ({since:%d %b %Y}): log it on the "
+        "mirror's page (New coating, with its date and recipe) before finishing this order, so the reflectance "
+        "decline and the recoat plans start again from it"
+    )
+
+
 def planned_date_notes(order: WorkOrder) -> list[str]:
     """What to check about an order's planned date, as its edit says after saving: a date before the site's today
     (kept: work done from paper is entered afterwards), a day the crew does not work (the site's working weekdays
@@ -1304,7 +1333,9 @@ def moves_held(order: WorkOrder, unrecorded: Sequence[Subsystem] | None = None,
     while its lift stands in the way (``lift_refusal``: the start also while no working load limit is entered), while
     nobody has recorded its subsystems' hazards, or while an energy its work calls for isolating has no isolation
     point registered (``isolation_gaps``), and starting a recoat phase before the phase before it is finished
-    (``recoat_order_refusal``). ``services.work_order_move`` refuses them with these words, and the order's page
+    (``recoat_order_refusal``), and finishing a recoat's strip and coat before its new coating is logged
+    (``coating_unlogged``). ``services.work_order_move`` (the finish: ``services.work_order_finish``) refuses them
+    with these words, and the order's page
     leaves their buttons out and says why. ``unrecorded`` and ``gaps``: ``hazards_unrecorded(order)`` and
     ``isolation_gaps(order)``, read when not given."""
     held: dict[str, list[str]] = {}
@@ -1325,6 +1356,8 @@ def moves_held(order: WorkOrder, unrecorded: Sequence[Subsystem] | None = None,
                 held.setdefault(action, []).append(ISOLATION_POINTS_MISSING_HELD)
     if order.state == State.ISSUED and (why := recoat_order_refusal(order)):
         held.setdefault("start", []).append(why)
+    if why := coating_unlogged(order):
+        held.setdefault("finish", []).append(why)
     return held
 
 

@@ -792,6 +792,8 @@ def work_order_finish(
     if order.state in (State.FINISHED, State.COUNTERSIGNED):
         raise _claim_refusal(order, by)
     _check_move(order, "finish", by)
+    if reasons := moves_held(order).get("finish"):
+        raise Refused("; and ".join(reasons))
     if actual_hours is None or actual_hours < 0:
         raise Refused("actual hours must be 0 or more")
     required = list(order.required_readings.select_related("subsystem"))

@@ -214,7 +214,8 @@ def work_order_detail(request, pk):
             "moves": [t for t in available(order.state) if t.action != "finish" and has_role(request.user, t.role)
                       and not (missing and t.action in ("issue", "start")) and t.action not in held],
             "moves_held": [(", ".join(labels), reason) for reason, labels in held_notes.items()],
-            "can_finish": order.state == State.UNDERWAY and has_role(request.user, TECHNICIAN),
+            "can_finish": order.state == State.UNDERWAY and has_role(request.user, TECHNICIAN) and "finish" not in held,
+            "mirror": selectors.lift_mirror(order) if order.recoat_phase else None,
             "editable": editable,
             # The lifting figures are offered where something is lifted: a suspended load, or figures already entered.
             "offers_lift": editable and (figures is not None or bool(lift_error) or "suspended_load" in order.hazards),
@@ -394,6 +395,9 @@ def work_order_finish(request, pk):
             messages.add_message(request, level, f"{done}.")
         else:
             messages.info(request, f"{order.number} is {order.get_state_display()}: there is nothing to finish.")
+        return redirect(order)
+    if held := selectors.moves_held(order).get("finish"):  # an old page, or a typed address: the order's page says why
+        messages.error(request, f"{order.number} cannot be finished yet: {'; and '.join(held)}.")
         return redirect(order)
     unticked = selectors.unticked_lines(order)
     isolation = selectors.isolation_lines(unticked)  # answered for on their own, not with the other lines
