@@ -216,12 +216,34 @@ def test_a_subsystem_moves_to_another_sites_telescope_with_its_parts_and_isolati
     assert not moved & _states(old) and moved <= _states(new)
 
 
-def test_a_subsystem_with_records_moves_between_telescopes_of_one_site(engineer, sites, newcomer, users):
-    """Its records stay at its site, so nothing is rewritten: it may move, and its site is recomputed."""
+def test_a_subsystem_with_records_stays_on_its_telescope_at_the_same_site(engineer, sites, newcomer, users):
+    """Moved, its counters since its last service would count the other telescope's nights back to that service, as
+    if it had always been there (a site review: a cable routing's axis travel since its service went from 39,744 to
+    94,260 deg, its reliability hours with it). A part moved is registered anew there; this one stays."""
     old, _ = sites
     fans = newcomer.subsystems.get()
     service_record_log(fans, fans.plans.first(), site_today(old) - dt.timedelta(days=3), users["technician"], "filters")
+    before = _stored(old)
     response = _move_subsystem(engineer, fans, old.telescopes.get(name="T1"))
+    error = " ".join(response.context["adminform"].form.errors["telescope"])
+    assert error.startswith(f"This subsystem has records on {newcomer.name}: 1 service record. Its counters since "
+                            "its last service count that telescope's nights;")
+    assert "tick 'It was registered on the wrong telescope'" in error
+    assert Subsystem.objects.get(pk=fans.pk).telescope_id == newcomer.pk
+    assert _stored(old) == before
+
+
+def test_a_subsystem_registered_on_the_wrong_telescope_moves_with_its_records_when_said(
+    engineer, sites, newcomer, users
+):
+    """Registered on the wrong telescope by mistake, its records were always the other one's: the box says so, and
+    it moves, its site recomputed."""
+    old, _ = sites
+    fans = newcomer.subsystems.get()
+    service_record_log(fans, fans.plans.first(), site_today(old) - dt.timedelta(days=3), users["technician"], "filters")
+    url = f"/admin/registry/subsystem/{fans.pk}/change/"
+    response = engineer.post(url, {**_unchanged(engineer, url), "telescope": str(old.telescopes.get(name="T1").pk),
+                                   "registered_on_wrong_telescope": "on"}, follow=True)
     assert "adminform" not in response.context
     assert Subsystem.objects.get(pk=fans.pk).telescope.name == "T1"
     assert _plans_of(old.telescopes.get(name="T1")) & _states(old)

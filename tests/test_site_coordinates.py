@@ -121,7 +121,7 @@ def test_pages_write_a_position_with_north_south_and_east_west(users, client, si
     """The test site is at 40 N, 3 W (conftest); a second one in the south and east lists both on the home page."""
     client.force_login(users["viewer"])
     assert "40.000° N, 3.000° W, 800 m" in _text(client.get(site.get_absolute_url()))
-    Site.objects.create(name="Cerro Bajo", slug="cerro-bajo", latitude_deg=-30.25, longitude_deg=70.5,
+    Site.objects.create(name="Scree Bank", slug="scree-bank", latitude_deg=-30.25, longitude_deg=70.5,
                         time_zone="Asia/Karachi")
     home = _text(client.get("/"))
     assert "40.000° N, 3.000° W" in home and "30.250° S, 70.500° E" in home

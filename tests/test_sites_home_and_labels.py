@@ -23,7 +23,7 @@ pytestmark = pytest.mark.django_db
 @pytest.fixture
 def two_sites(db):
     """Two sites in use, each with a telescope named "MC-80" besides its "T1", and their due states stored."""
-    sites = site_in_use("cerro-alto"), site_in_use("mesa-norte", kinds=("limits",))
+    sites = site_in_use("harrow-knoll"), site_in_use("mesa-norte", kinds=("limits",))
     for site in sites:
         Telescope.objects.create(site=site, name="MC-80", aperture_m=0.8, mount="fork")
         site_recompute(site)
@@ -73,15 +73,15 @@ def test_the_subsystem_forms_telescope_choice_names_each_site(two_sites, users, 
     client.force_login(users["engineer"])
     page = html.unescape(client.get("/admin/registry/subsystem/add/").content.decode())
     options = re.findall(r"<option value=\"\d+\"[^>]*>([^<]*MC-80[^<]*)</option>", page)
-    assert options == ["Site cerro-alto: MC-80 (0.8 m)", "Site mesa-norte: MC-80 (0.8 m)"]
+    assert options == ["Site harrow-knoll: MC-80 (0.8 m)", "Site mesa-norte: MC-80 (0.8 m)"]
     listing = html.unescape(client.get("/admin/registry/subsystem/").content.decode())
-    assert "Site cerro-alto: MC-80 (0.8 m)" in listing and "Site mesa-norte: MC-80 (0.8 m)" in listing
+    assert "Site harrow-knoll: MC-80 (0.8 m)" in listing and "Site mesa-norte: MC-80 (0.8 m)" in listing
 
 
 def test_the_due_lists_telescope_filter_names_each_site(two_sites, users, client):
     client.force_login(users["viewer"])
     page = html.unescape(client.get(reverse("due-list")).content.decode())
-    assert "Site cerro-alto: MC-80 (0.8 m)</option>" in page and "Site mesa-norte: MC-80 (0.8 m)</option>" in page
+    assert "Site harrow-knoll: MC-80 (0.8 m)</option>" in page and "Site mesa-norte: MC-80 (0.8 m)</option>" in page
 
 
 def test_pages_of_one_site_name_a_telescope_without_its_site(two_sites):
@@ -119,11 +119,11 @@ def mirrors_at_two_sites(two_sites):
 def test_a_subsystem_choice_names_each_subsystem_with_its_site_and_telescope(two_sites, admin_client, url, field):
     # Both sites have a "T1: Limits": without the site the two options read alike.
     labels = _choices(admin_client, url, field)
-    assert "Site cerro-alto: T1: Limits" in labels and "Site mesa-norte: T1: Limits" in labels
+    assert "Site harrow-knoll: T1: Limits" in labels and "Site mesa-norte: T1: Limits" in labels
     assert len(labels) == len(set(labels))
     # Listed by site, as the labels read: every subsystem of the first site before any of the second.
     sites = [label.split(": ")[0] for label in labels]
-    assert sites == sorted(sites, key=["Site cerro-alto", "Site mesa-norte"].index)
+    assert sites == sorted(sites, key=["Site harrow-knoll", "Site mesa-norte"].index)
 
 
 def test_the_mirror_record_offers_each_mirror_subsystem_named_with_its_site(two_sites, admin_client):
@@ -132,14 +132,14 @@ def test_the_mirror_record_offers_each_mirror_subsystem_named_with_its_site(two_
     subsystem_create(two_sites[1].telescopes.get(name="T1"), "primary_mirror", "Primary mirror",
                      counting_from=dt.date(2026, 1, 1))
     assert _choices(admin_client, "/admin/mirrors/mirror/add/", "subsystem") == [
-        "Site cerro-alto: T1: Primary mirror", "Site mesa-norte: T1: Primary mirror",
+        "Site harrow-knoll: T1: Primary mirror", "Site mesa-norte: T1: Primary mirror",
     ]
 
 
 @pytest.mark.parametrize("url", ["/admin/mirrors/reflectancemeasurement/add/", "/admin/mirrors/recoatplan/add/"])
 def test_a_mirror_choice_names_each_mirror_with_its_site_and_telescope(mirrors_at_two_sites, admin_client, url):
     assert _choices(admin_client, url, "mirror") == [
-        "Site cerro-alto: T1: Primary mirror", "Site mesa-norte: T1: Primary mirror",
+        "Site harrow-knoll: T1: Primary mirror", "Site mesa-norte: T1: Primary mirror",
     ]
 
 
@@ -191,13 +191,13 @@ def test_the_work_order_and_isolation_point_admin_name_telescopes_with_their_sit
     # "MC-80 (0.8 m)" with no site.
     from observatory_ops.registry.models import Site, Telescope
 
-    for name, slug in (("Cerro Alto", "cerro-alto"), ("Lone Fen", "lone-fen")):
+    for name, slug in (("Harrow Knoll", "harrow-knoll"), ("Lone Fen", "lone-fen")):
         site = Site.objects.create(name=name, slug=slug, latitude_deg=30.0, longitude_deg=-100.0, elevation_m=900,
                                    time_zone="America/Chicago")
         Telescope.objects.create(site=site, name="MC-80", aperture_m=0.8, mount="fork")
     for url in ("/admin/workorders/workorder/add/", "/admin/workorders/isolationpoint/add/"):
         page = admin_client.get(url).content.decode()
-        assert "Cerro Alto: MC-80" in page and "Lone Fen: MC-80" in page, url
+        assert "Harrow Knoll: MC-80" in page and "Lone Fen: MC-80" in page, url
 
 
 def test_a_work_orders_item_and_reading_rows_name_each_subsystem_with_its_site(two_sites, admin_client):
@@ -206,7 +206,7 @@ def test_a_work_orders_item_and_reading_rows_name_each_subsystem_with_its_site(t
     page = admin_client.get("/admin/workorders/workorder/add/").content.decode()
     for prefix in ("items", "required_readings"):
         select = re.search(rf'<select name="{prefix}-__prefix__-subsystem".*?</select>', page, re.S).group(0)
-        assert "Site cerro-alto: T1: Limits" in select and "Site mesa-norte: T1: Limits" in select, prefix
+        assert "Site harrow-knoll: T1: Limits" in select and "Site mesa-norte: T1: Limits" in select, prefix
 
 
 # --- a work order's rows: plans named in full, a stored order's own site's choices ---------------------------------
@@ -222,8 +222,8 @@ def _options(page: str, name: str) -> list[str]:
 
 
 @pytest.fixture
-def order_at_cerro_alto(two_sites, users):
-    """A work order for Cerro Alto's limit switches: one item, "Site cerro-alto: T1: Limits" and its plan."""
+def order_at_harrow_knoll(two_sites, users):
+    """A work order for Harrow Knoll's limit switches: one item, "Site harrow-knoll: T1: Limits" and its plan."""
     from observatory_ops.planning.models import ServicePlan
     from observatory_ops.workorders.services import work_order_from_due
 
@@ -237,22 +237,22 @@ def test_a_new_orders_item_rows_name_each_plan_with_its_site_telescope_and_subsy
 
     page = admin_client.get("/admin/workorders/workorder/add/").content.decode()
     labels = _options(page, "items-__prefix__-plan")
-    assert f"Site cerro-alto: {LIMITS_PLAN}" in labels and f"Site mesa-norte: {LIMITS_PLAN}" in labels
+    assert f"Site harrow-knoll: {LIMITS_PLAN}" in labels and f"Site mesa-norte: {LIMITS_PLAN}" in labels
     assert len(labels) == len(set(labels)) == ServicePlan.objects.count()  # every site's, for an order not yet placed
     sites = [label.split(": ")[0] for label in labels]
-    assert sites == sorted(sites, key=["Site cerro-alto", "Site mesa-norte"].index)
+    assert sites == sorted(sites, key=["Site harrow-knoll", "Site mesa-norte"].index)
 
 
 def test_a_stored_orders_rows_offer_its_own_sites_subsystems_and_plans_named_as_before(
-    order_at_cerro_alto, admin_client
+    order_at_harrow_knoll, admin_client
 ):
     """Every item and reading row listed every site's subsystems and plans: at 100 sites of 50 subsystems the change
     page took 6 s. A stored order is at one site: its rows, stored or added, offer that site's, still named with it."""
     from observatory_ops.planning.models import ServicePlan
     from observatory_ops.registry.models import Subsystem
 
-    site = order_at_cerro_alto.site
-    page = admin_client.get(f"/admin/workorders/workorder/{order_at_cerro_alto.pk}/change/").content.decode()
+    site = order_at_harrow_knoll.site
+    page = admin_client.get(f"/admin/workorders/workorder/{order_at_harrow_knoll.pk}/change/").content.decode()
     subsystems = [f"{site.name}: {s}" for s in
                   Subsystem.objects.filter(telescope__site=site).order_by("telescope__name", "name")]
     plans = [f"{site.name}: {p.subsystem}: {p.name}" for p in ServicePlan.objects.filter(
@@ -262,24 +262,24 @@ def test_a_stored_orders_rows_offer_its_own_sites_subsystems_and_plans_named_as_
         assert _options(page, name) == subsystems, name
     for name in ("items-0-plan", "items-__prefix__-plan"):
         assert _options(page, name) == plans, name
-    item = order_at_cerro_alto.items.get()
-    assert re.search(rf'<option value="{item.subsystem_id}" selected>Site cerro-alto: T1: Limits</option>', page)
-    assert re.search(rf'<option value="{item.plan_id}" selected>Site cerro-alto: {LIMITS_PLAN}</option>', page)
+    item = order_at_harrow_knoll.items.get()
+    assert re.search(rf'<option value="{item.subsystem_id}" selected>Site harrow-knoll: T1: Limits</option>', page)
+    assert re.search(rf'<option value="{item.plan_id}" selected>Site harrow-knoll: {LIMITS_PLAN}</option>', page)
 
 
 def test_a_stored_order_saves_as_it_stands_and_refuses_a_row_of_another_site_saying_which(
-    order_at_cerro_alto, two_sites, admin_client
+    order_at_harrow_knoll, two_sites, admin_client
 ):
     from observatory_ops.registry.models import Subsystem
     from tests.test_start_holds import _admin_post
 
-    url = f"/admin/workorders/workorder/{order_at_cerro_alto.pk}/change/"
+    url = f"/admin/workorders/workorder/{order_at_harrow_knoll.pk}/change/"
     assert _admin_post(admin_client, url).status_code == 302
     elsewhere = Subsystem.objects.get(telescope__site=two_sites[1], kind="limits")
     response = _admin_post(admin_client, url, **{"items-0-subsystem": elsewhere.pk})
     assert response.status_code == 200
-    assert "Choose one at Site cerro-alto, the site of this work order." in _text(response)
-    assert order_at_cerro_alto.items.get().subsystem.telescope.site == two_sites[0]
+    assert "Choose one at Site harrow-knoll, the site of this work order." in _text(response)
+    assert order_at_harrow_knoll.items.get().subsystem.telescope.site == two_sites[0]
 
 
 def test_the_isolation_points_subsystem_search_names_each_subsystem_with_its_site_as_the_saved_choice(
@@ -296,7 +296,7 @@ def test_the_isolation_points_subsystem_search_names_each_subsystem_with_its_sit
         })
         return [result["text"] for result in answer.json()["results"]]
 
-    assert found("limits") == ["Site cerro-alto: T1: Limits", "Site mesa-norte: T1: Limits"]
+    assert found("limits") == ["Site harrow-knoll: T1: Limits", "Site mesa-norte: T1: Limits"]
     assert found("mesa limits") == ["Site mesa-norte: T1: Limits"]
     limits = Subsystem.objects.get(telescope__site=two_sites[1], kind="limits")
     point = IsolationPoint.objects.create(telescope=limits.telescope, subsystem=limits, energy="ac",

@@ -101,7 +101,7 @@ class SubsystemAdmin(ChoicesNamedWithSite, RecomputesSite, SimpleHistoryAdmin):
     form = SubsystemAdminForm
     list_display = ("name", "telescope", "kind", "parent", "retired_on")
     list_filter = ("telescope__site", ("telescope", TelescopeListFilter), "kind")
-    # Also what the choices name it by (``forms.named_with_site``): "cerro dome" finds Cerro Alto's domes.
+    # Also what the choices name it by (``forms.named_with_site``): "vestal dome" finds Vestal Ridge's domes.
     search_fields = ("name", "serial_number", "telescope__name", "telescope__site__name")
     site_path = "telescope__site"
 

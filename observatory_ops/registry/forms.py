@@ -41,8 +41,8 @@ ACROSS_SITES = {
 
 
 def named_with_site(record) -> str:
-    """A record of ``ACROSS_SITES`` named after its site, as ``Telescope.site_label`` names a telescope: "Cerro Alto:
-    MC-80 (0.8 m)", "Cerro Alto: MC-80: Primary mirror", "Cerro Alto: MC-80: Axis 1 brake: Check brake pads"."""
+    """A record of ``ACROSS_SITES`` named after its site, as ``Telescope.site_label`` names a telescope: "Vestal Ridge:
+    MC-80 (0.8 m)", "Vestal Ridge: MC-80: Primary mirror", "Vestal Ridge: MC-80: Axis 1 brake: Check brake pads"."""
     across = ACROSS_SITES[record._meta.label_lower]
     site = attrgetter(across.site.replace("__", "."))(record)
     owner = f"{attrgetter(across.owner)(record)}: " if across.owner else ""
@@ -73,7 +73,7 @@ class NamedWithSiteChoiceField(forms.ModelChoiceField):
 class NamedWithSiteAutocomplete(AutocompleteJsonView):
     """The admin's search behind a choice typed into (``autocomplete_fields``: an isolation point's subsystem, among
     thousands) names each record of ``ACROSS_SITES`` as the choice, once saved, names it (``NamedWithSiteChoiceField``):
-    "Cerro Alto: T70: Dome", where Django gives the record's own name, "T70: Dome", the same at every site. The
+    "Vestal Ridge: T70: Dome", where Django gives the record's own name, "T70: Dome", the same at every site. The
     project's admin site answers with it (``observatory_ops.admin_site``)."""
 
     def get_queryset(self):
@@ -147,6 +147,18 @@ class HazardsField(forms.TypedMultipleChoiceField):
 class SubsystemAdminForm(forms.ModelForm):
     hazards = HazardsField(help_text="They choose the safety cautions on its work orders. A new subsystem always "
                            "gets its kind's own as well as those ticked.")
+    registered_on_wrong_telescope = forms.BooleanField(
+        required=False, label="It was registered on the wrong telescope",
+        help_text="Tick only to move a subsystem with records to the telescope it has always been on, at the same "
+        "site: its records then count that telescope's nights from the start. A part moved from one telescope to "
+        "another is registered there as a new subsystem, and this one retired.",
+    )
+
+    def clean(self):
+        cleaned = super().clean()
+        # Read by the model's clean (``Subsystem._clean_telescope_kept``), which the form calls after this one.
+        self.instance.registered_on_wrong_telescope = bool(cleaned.get("registered_on_wrong_telescope"))
+        return cleaned
 
 
 class CrewWeekdaysField(forms.MultipleChoiceField):

@@ -285,7 +285,7 @@ class Telescope(models.Model):
     @property
     def site_label(self) -> str:
         """The telescope named with its site, where a choice lists several sites' telescopes (names repeat across
-        sites): "Cerro Alto: MC-80 (0.8 m)". Pages of one site name it without (``__str__``)."""
+        sites): "Vestal Ridge: MC-80 (0.8 m)". Pages of one site name it without (``__str__``)."""
         return f"{self.site.name}: {self}"
 
     def clean(self) -> None:
@@ -442,25 +442,42 @@ class Subsystem(models.Model):
     def _clean_telescope_kept(self, moves_site: bool) -> None:
         """Refuse a move to another telescope while a work order not yet done names the subsystem or one of its parts
         (which move with it): the order locks out the telescope it was made for (``selectors.open_orders_of``). And
-        refuse a move to a telescope at another site once anything is recorded of them: the records belong to their
-        site's log and history (``selectors.records_of``)."""
+        refuse a move to another telescope once anything is recorded of them (``selectors.records_of``): records at
+        another site belong to their site's log and history; at the same site, the counters since the last service
+        would count the other telescope's nights as if it had always been there (a site review moved a cable routing
+        and its axis travel since its service went from 39,744 to 94,260 deg, its reliability hours with it), unless
+        the admin's form says it was registered on the wrong telescope (``registered_on_wrong_telescope``, set by
+        ``forms.SubsystemAdminForm``): its records were then always the other telescope's."""
         from .selectors import open_orders_of, parts_of, records_of  # they read models that import this module
 
         parts = parts_of(self)
         ids = [self.pk, *(part.pk for part in parts)]
         whose = "This subsystem and its parts have" if parts else "This subsystem has"
-        recorded = records_of(ids) if moves_site else ""
-        if recorded:
-            raise ValidationError({"telescope": (
-                f"{whose} records at its site: {recorded}. They stay in that site's log and history, so it cannot "
-                "move to a telescope at another site. Register it there as a new subsystem, and retire this one."
-            )})
         orders = open_orders_of(ids)
         if orders:
             raise ValidationError({"telescope": (
                 f"{whose} work orders not yet done: {', '.join(f'{o.number} ({o.state})' for o in orders)}. Each locks "
                 "out the telescope it was made for, so it stays on that one until they are finished or withdrawn."
             )})
+        recorded = records_of(ids)
+        if recorded and moves_site:
+            raise ValidationError({"telescope": (
+                f"{whose} records at its site: {recorded}. They stay in that site's log and history, so it cannot "
+                "move to a telescope at another site. Register it there as a new subsystem, and retire this one."
+            )})
+        if recorded and not getattr(self, "registered_on_wrong_telescope", False):
+            raise ValidationError({"telescope": (
+                f"{whose} records on {self._stored_telescope_name()}: {recorded}. Its counters since its last "
+                "service count that telescope's nights; moved, they would count the other telescope's nights back "
+                "to that service, as if it had always been there, and its reliability hours with them. If the part "
+                "was moved, register it on the other telescope as a new subsystem, with the day it was fitted there "
+                "as its 'in service since' and its plans' 'counting from', and retire this one on that day. If it "
+                "was registered on the wrong telescope and has always been on the other one, tick 'It was registered "
+                "on the wrong telescope'."
+            )})
+
+    def _stored_telescope_name(self) -> str:
+        return Subsystem.objects.filter(pk=self.pk).values_list("telescope__name", flat=True).first() or "its telescope"
 
     def _clean_service_date(self, field: str, label: str, when_future: str) -> None:
         """A date of the subsystem's service life (``field``, called ``label`` on the page): from
