@@ -90,7 +90,8 @@ def test_mirror_mass_is_vectorised_over_diameters():
 
 
 def test_every_density_names_its_source_and_handbook_values_match_crc():
-    # CRC Handbook of Chemistry and Physics, as listed in PRODUCT.md "Facts a check may use".
+    # Densities in g/cm3 from the CRC Handbook of Chemistry and Physics (densities of solids and glasses; the
+    # glass-ceramic value that of the low-expansion glass-ceramics used for mirror blanks), from memory.
     crc = {"borosilicate": 2.23, "fused_silica": 2.20, "glass_ceramic": 2.53, "aluminium": 2.70}
     for material, g_cm3 in crc.items():
         assert DENSITY[material].g_cm3 == g_cm3

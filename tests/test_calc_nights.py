@@ -317,8 +317,9 @@ def test_near_the_poles_a_whole_year_runs_with_24_hour_or_no_darkness_at_the_sol
 
 @past_the_bundled_tables
 def test_plans_ten_years_ahead_without_internet() -> None:
-    # Source: ENVIRONMENT.md asks for dates past astropy's bundled Earth-orientation table; the events
-    # still match PyEphem within a minute there.
+    # Source: PyEphem (libastro), an independent ephemeris library that needs no Earth-orientation table, for a
+    # date ten years out, past the IERS Earth-orientation table astropy bundles (astropy's own documentation on
+    # IERS data, from memory): with no download the events still match PyEphem within a minute there.
     site = SITES_BY_LATITUDE[-30]
     night = dt.date.today() + dt.timedelta(days=3653)
     table = nights_for_range(site, night, 30)

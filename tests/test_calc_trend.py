@@ -1,4 +1,18 @@
-"""Condition triggers: the Theil-Sen trend and the day it reaches a limit (no database)."""
+"""Condition triggers: the Theil-Sen trend and the day it reaches a limit (no database).
+
+References used below:
+- Sen (1968), "Estimates of the regression coefficient based on Kendall's tau", J. Amer. Statist. Assoc. 63,
+  1379-1389, and Theil (1950): the slope is the median of the pairwise slopes; its confidence interval is read off
+  the ordered pairwise slopes at ranks M1 = (N - C) / 2 and M2 + 1 = (N + C) / 2 + 1, with C = z sqrt(Var S) and
+  Var S = n (n - 1) (2 n + 5) / 18 the variance of Kendall's S without ties (Sen 1968, eq. 2.6; also Gilbert (1987),
+  Statistical Methods for Environmental Pollution Monitoring, section 16.5; both from memory). ``sen_interval``
+  below computes it by hand in plain Python, with the normal quantile from the standard library
+  (``statistics.NormalDist``), not scipy: calc.trend itself calls ``scipy.stats.theilslopes``, so that cannot be
+  its reference. Ranks that are not whole are rounded to the nearest rank (a convention); the data sets below are
+  chosen where M1 and M2 are all but whole (n = 7: 3.97 and 17.03; n = 5: 1.00 and 9.00), so the rounding is
+  unambiguous.
+- Hand arithmetic for the crossing days, from the line through the median point (Conover's convention).
+"""
 from __future__ import annotations
 
 import itertools
@@ -8,6 +22,24 @@ import numpy as np
 import pytest
 
 from observatory_ops.calc.trend import trend_to_limit
+
+
+def sen_interval(days, values, confidence: float = 0.95) -> tuple[float, float, float]:
+    """Theil-Sen slope and its confidence interval from their definition (Sen 1968), in plain Python.
+
+    Returns (slope, low, high): the median of the pairwise slopes, and the ordered pairwise slopes at the
+    1-based ranks round(M1) and round(M2) + 1. Readings with tied days or tied values are refused here, since
+    Var S would then need Sen's tie correction.
+    """
+    days, values = [float(d) for d in days], [float(v) for v in values]
+    n = len(days)
+    assert len(set(days)) == n and len(set(values)) == n, "sen_interval: no ties, so Var S needs no correction"
+    slopes = sorted((values[j] - values[i]) / (days[j] - days[i]) for i, j in itertools.combinations(range(n), 2))
+    big_n = len(slopes)
+    z = statistics.NormalDist().inv_cdf(1 - (1 - confidence) / 2)
+    c = z * (n * (n - 1) * (2 * n + 5) / 18) ** 0.5
+    m1, m2 = round((big_n - c) / 2), round((big_n + c) / 2)
+    return statistics.median(slopes), slopes[m1 - 1], slopes[m2]  # 1-based ranks m1 and m2 + 1
 
 
 def test_slope_is_the_median_of_pairwise_slopes():
@@ -48,3 +80,59 @@ def test_bad_input_is_a_clear_message(days, values, message):
 def test_values_that_cannot_be_fitted_are_refused_not_turned_into_infinities(values):
     with pytest.raises(ValueError):
         trend_to_limit([0.0, 1.0, 2.0], values, limit=5.0)
+
+
+# The readings of the first test above: 7 readings, 21 pairwise slopes, no tied days or values.
+DAYS = [0, 7, 15, 30, 44, 61, 75]
+VALUES = [0.52, 0.55, 0.61, 0.60, 0.71, 0.74, 0.90]
+
+
+def test_slope_interval_is_sens_rank_interval_computed_by_hand():
+    # Sen (1968): Var S = 7 * 6 * 19 / 18 = 44.33, sqrt = 6.658; z(97.5 %) = 1.960, C = 13.05;
+    # M1 = (21 - 13.05) / 2 = 3.97 -> 4, M2 = (21 + 13.05) / 2 = 17.03 -> 17. Of the 21 ordered slopes, the 4th is
+    # (0.60 - 0.52) / (30 - 0) = 1/375 and the 18th (M2 + 1) is (0.90 - 0.60) / (75 - 30) = 1/150 (ranked by hand).
+    fit = trend_to_limit(DAYS, VALUES, limit=1.0)
+    slope, low, high = sen_interval(DAYS, VALUES, 0.95)
+    assert fit.slope_per_day == pytest.approx(slope, rel=1e-12)
+    assert (fit.slope_low, fit.slope_high) == pytest.approx((low, high), rel=1e-12)
+    assert (fit.slope_low, fit.slope_high) == pytest.approx((1 / 375, 1 / 150), rel=1e-12)
+    assert fit.slope_low < fit.slope_per_day < fit.slope_high
+
+
+def test_earliest_and_latest_days_of_a_rising_trend_by_hand():
+    # Hand arithmetic from Sen's interval above, the line pivoting on the median point (30 days, 0.61):
+    # the steepest slope reaches 1.0 first, 30 + (1.0 - 0.61) / (1/150) = 30 + 58.5 = 88.5 days;
+    # the shallowest last, 30 + 0.39 * 375 = 30 + 146.25 = 176.25 days.
+    fit = trend_to_limit(DAYS, VALUES, limit=1.0)
+    assert fit.earliest_day == pytest.approx(88.5, rel=1e-9)
+    assert fit.latest_day == pytest.approx(176.25, rel=1e-9)
+    assert fit.earliest_day < fit.crossing_day < fit.latest_day
+
+
+def test_earliest_and_latest_days_of_a_falling_trend_by_hand():
+    # The same readings mirrored, 1.5 - value (0.98 ... 0.60): Sen's interval is (-1/150, -1/375), by hand as above
+    # with the signs changed, and the median point (30 days, 0.89). The steepest fall reaches 0.5 first,
+    # 30 + (0.5 - 0.89) / (-1/150) = 88.5 days; the shallowest last, 30 + 0.39 * 375 = 176.25 days.
+    falling = [round(1.5 - v, 2) for v in VALUES]
+    fit = trend_to_limit(DAYS, falling, limit=0.5, rising=False)
+    slope, low, high = sen_interval(DAYS, falling, 0.95)
+    assert (fit.slope_low, fit.slope_high) == pytest.approx((low, high), rel=1e-12)
+    assert (fit.slope_low, fit.slope_high) == pytest.approx((-1 / 150, -1 / 375), rel=1e-9)
+    assert fit.earliest_day == pytest.approx(88.5, rel=1e-9)
+    assert fit.latest_day == pytest.approx(176.25, rel=1e-9)
+    assert fit.earliest_day < fit.crossing_day < fit.latest_day
+
+
+def test_a_band_end_whose_slope_points_away_from_the_limit_has_no_day():
+    # Sen (1968) with n = 5: Var S = 5 * 4 * 15 / 18 = 16.67, C = 1.960 * 4.082 = 8.00, M1 = 1.00 -> 1 and
+    # M2 = 9.00 -> 9, so the interval runs from the least to the greatest (10th) of the 10 pairwise slopes, by hand
+    # (0.49 - 0.52) / 10 = -0.003 and (0.53 - 0.49) / 10 = 0.004. The negative end never reaches a limit above, so
+    # latest_day is None; the steep end, pivoting on the median point (20 days, 0.505), reaches 1.0 at
+    # 20 + 0.495 / 0.004 = 20 + 123.75 = 143.75 days (hand arithmetic).
+    days, values = [0, 10, 20, 30, 40], [0.50, 0.52, 0.49, 0.53, 0.505]
+    fit = trend_to_limit(days, values, limit=1.0)
+    _, low, high = sen_interval(days, values, 0.95)
+    assert (fit.slope_low, fit.slope_high) == pytest.approx((low, high), rel=1e-12)
+    assert (fit.slope_low, fit.slope_high) == pytest.approx((-0.003, 0.004), rel=1e-9)
+    assert fit.latest_day is None
+    assert fit.earliest_day == pytest.approx(143.75, rel=1e-9)

@@ -18,11 +18,12 @@ from observatory_ops.workorders.cautions import (
     needs_isolation,
 )
 
-# The standard each hazard must name, from PRODUCT.md "Facts a check may use": OSHA 29 CFR 1910.147,
-# ANSI/ASSP Z244.1 and NFPA 70E (electrical), ISO 4414 (pneumatic), OSHA 1910.184 (slings), OSHA 1910.28
-# (fall protection), ANSI Z136.1 / IEC 60825-1 (lasers), safety data sheets under GHS (chemicals),
-# CGA P-12 (cryogens); the manufacturer's handling instructions for optical surfaces; OSHA 29 CFR 1910.147(d)(5)
-# (stored energy relieved, disconnected or restrained) for the springs of a spring-applied brake.
+# The standard each hazard must name, the published standard that governs it in US and international practice
+# (which standard covers which hazard: from memory): OSHA 29 CFR 1910.147, ANSI/ASSP Z244.1 and NFPA 70E
+# (electrical), ISO 4414 (pneumatic), OSHA 1910.184 (slings), OSHA 1910.28 (fall protection), ANSI Z136.1 /
+# IEC 60825-1 (lasers), safety data sheets under GHS (chemicals), CGA P-12 (cryogens); the manufacturer's handling
+# instructions for optical surfaces; OSHA 29 CFR 1910.147(d)(5) (stored energy relieved, disconnected or restrained)
+# for the springs of a spring-applied brake.
 REQUIRED_STANDARDS = {
     "electrical": ("1910.147", "Z244.1", "NFPA 70E"),
     "pneumatic": ("ISO 4414",),

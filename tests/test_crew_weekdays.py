@@ -142,6 +142,7 @@ def test_a_crew_working_every_day_gives_the_plain_search_of_the_phases_total_day
     assert cheapest_crew_windows(cost, phases, weekday, EVERY_DAY, alternatives) == plain
 
 
+@settings(deadline=None)
 @given(cost=costs, weekday=st.integers(1, 7))
 def test_phases_without_crew_work_ignore_the_crew_days(cost, weekday) -> None:
     phases = [Phase("transport", 1), Phase("strip and coat", 3, "coating"), Phase("return", 1)]

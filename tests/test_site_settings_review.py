@@ -52,12 +52,13 @@ def _in_use(slug: str) -> Site:
 
 
 def test_a_site_being_set_up_may_correct_its_slug(engineer):
-    site = Site.objects.create(name="Cerro Alto", slug="cero-alto", latitude_deg=-30.2, longitude_deg=-70.7,
+    # An invented site at an invented position (southern hemisphere, in the America/Santiago zone).
+    site = Site.objects.create(name="Alto Peumal", slug="alto-pemal", latitude_deg=-37.6, longitude_deg=-71.9,
                                time_zone="America/Santiago")
-    response = engineer.post(_site_url(site), {**_unchanged(engineer, _site_url(site)), "slug": "cerro-alto"})
+    response = engineer.post(_site_url(site), {**_unchanged(engineer, _site_url(site)), "slug": "alto-peumal"})
     assert response.status_code == 302
     site.refresh_from_db()
-    assert site.slug == "cerro-alto"
+    assert site.slug == "alto-peumal"
 
 
 def test_a_site_in_use_shows_its_slug_with_what_uses_it_and_keeps_it(engineer, client):

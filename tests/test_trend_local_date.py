@@ -5,24 +5,26 @@ in the local evening too, when it is already the next day in UTC; the forecast c
 trend (its forecast and both ends of its band, and the chart's mark of the crossing) is now the local date at the
 site (``planning.services.trend_date``, with ``Site.time_zone``).
 
-Each expected date is worked out independently of the project's code: the trend with ``scipy.stats.theilslopes``
-(Sen 1968), the crossing moment from its line, and the local date with the IANA time zone database through
-``zoneinfo`` (PEP 615).
+Each expected date is worked out independently of the project's code (which calls ``scipy.stats.theilslopes``): the
+trend from the Theil-Sen definition in plain Python (the median of all pairwise slopes, Theil 1950 / Sen 1968, and
+Sen's rank-based 95 % interval, ``tests.test_calc_trend.sen_interval``), the line through the median point, the
+crossing moment by hand from that line, and the local date with the IANA time zone database through ``zoneinfo``
+(PEP 615).
 """
 from __future__ import annotations
 
 import datetime as dt
+import statistics
 import zoneinfo
 
-import numpy as np
 import pytest
 from conftest import constant_sky
-from scipy import stats
 
 from observatory_ops.logbook.models import Reading
 from observatory_ops.planning import plots, selectors, services
 from observatory_ops.planning.models import PlanStatus, ServicePlan, Trigger
 from observatory_ops.registry.models import Site, Subsystem, Telescope
+from tests.test_calc_trend import sen_interval
 
 ZONE_NAME = "America/Denver"  # UTC-7 in January and February (Mountain Standard Time)
 DENVER = zoneinfo.ZoneInfo(ZONE_NAME)
@@ -65,9 +67,10 @@ def test_an_evening_crossing_west_of_greenwich_is_dated_by_the_sites_own_calenda
     site, plan, drive = _site_with_readings(users, values)
     status = PlanStatus.objects.get(plan=plan)
 
-    # Independent check: scipy.stats.theilslopes for the line, zoneinfo for the local date.
-    slope, intercept, _, _ = stats.theilslopes(values, DAYS)
-    crossing = (LIMIT_S - intercept) / slope
+    # Independent check: the Theil-Sen line from its definition (plain Python), zoneinfo for the local date.
+    slope, _, _ = sen_interval(DAYS, values)
+    pivot_x, pivot_y = statistics.median(DAYS), statistics.median(values)
+    crossing = pivot_x + (LIMIT_S - pivot_y) / slope
     assert crossing == pytest.approx(50.0)
     moment = FIRST + dt.timedelta(days=crossing)
     assert moment.astimezone(dt.UTC).date() == dt.date(2026, 2, 22)  # the UTC date: the day late the review found
@@ -93,9 +96,12 @@ def test_the_forecast_and_both_ends_of_its_band_are_local_dates(db, users):
     _, plan, _ = _site_with_readings(users, values)
     status = PlanStatus.objects.get(plan=plan)
 
-    # Independent check: scipy.stats.theilslopes (median of pairwise slopes, with its 95 % interval) and zoneinfo.
-    slope, _, low, high = stats.theilslopes(values, DAYS, alpha=0.95)
-    pivot_x, pivot_y = np.median(DAYS), np.median(values)
+    # Independent check: the Theil-Sen slope from its definition, the median of all pairwise slopes (Sen 1968,
+    # Theil 1950), and Sen's (1968) rank-based 95 % interval, in plain Python (tests.test_calc_trend.sen_interval;
+    # with n = 8 readings the ranks M1 = 6.08 and M2 = 21.92 are rounded to the nearest, 6 and 22); the line through
+    # the median point (Conover's convention); zoneinfo for the local dates.
+    slope, low, high = sen_interval(DAYS, values, 0.95)
+    pivot_x, pivot_y = statistics.median(DAYS), statistics.median(values)
     central, earliest, latest = (max(_local_date(pivot_x + (LIMIT_S - pivot_y) / s), TODAY) for s in (slope, high, low))
     assert earliest < central < latest  # the scatter gives the band width
     assert (status.forecast_date, status.earliest, status.latest) == (central, earliest, latest)
