@@ -18,7 +18,16 @@ import pytest
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
-from observatory_ops.calc.exposure import CLEAN_AIR_PM10_UGM3, accumulated_since, dust_weight, dust_weighted_hours
+from observatory_ops.calc.exposure import (
+    CLEAN_AIR_PM10_UGM3,
+    accumulated_since,
+    dust_weight,
+    dust_weighted_hours,
+    running_since,
+    running_totals,
+    total_before,
+    total_between,
+)
 from observatory_ops.calc.forecast import (
     MIN_NIGHTS_FOR_HISTORY,
     PRIOR_MONTHLY_SPREAD,
@@ -174,6 +183,58 @@ def test_accumulated_dust_exposure_never_decreases_when_any_night_gets_more_dust
         after = accumulated_since(night_arr, changed, since_arr)
         assert np.all(after >= before - slack)
     assert np.all(before >= 0.0)
+
+
+
+def test_running_totals_and_the_totals_between_two_nights_match_hand_arithmetic():
+    # Source: hand arithmetic. Nights 1, 2, 3 and 5 Jan (the 4th not logged) with 1, 2, 4, 8 h.
+    nights = days("2025-01-01", "2025-01-02", "2025-01-03", "2025-01-05")
+    totals = running_totals([1.0, 2.0, 4.0, 8.0])
+    # 0; 1; 1 + 2 = 3; 3 + 4 = 7; 7 + 8 = 15
+    assert totals.tolist() == [0.0, 1.0, 3.0, 7.0, 15.0]
+    # Before the 1st: nothing; before the 3rd: 1 + 2 = 3 (the night of the 3rd not counted); before the 5th:
+    # 1 + 2 + 4 = 7; after the log: 15. A scalar day gives a scalar.
+    assert total_before(nights, totals, days("2025-01-01", "2025-01-03", "2025-01-05", "2025-02-01")).tolist() == [
+        0.0, 3.0, 7.0, 15.0]
+    assert float(total_before(nights, totals, dt.date(2025, 1, 4))) == 7.0
+    # A service on the 2nd counts from its night: to before the 5th, 2 + 4 = 6; to before the 6th, 2 + 4 + 8 = 14;
+    # to before the 2nd itself, or an earlier day, nothing; to before the 4th (not logged), 2 + 4 = 6.
+    until = days("2025-01-05", "2025-01-06", "2025-01-02", "2024-12-30", "2025-01-04")
+    assert total_between(nights, totals, dt.date(2025, 1, 2), until).tolist() == [6.0, 14.0, 0.0, 0.0, 6.0]
+    # To the end of the log, the same as accumulated_since: from the 2nd, 2 + 4 + 8 = 14.
+    assert float(accumulated_since(nights, [1.0, 2.0, 4.0, 8.0], days("2025-01-02"))[0]) == 14.0
+
+
+def test_running_since_gives_each_night_from_the_service_with_its_running_total():
+    # Source: hand arithmetic. A service on the 3rd counts the night of the 3rd (4), then the 5th: 4 + 8 = 12.
+    nights = days("2025-01-01", "2025-01-02", "2025-01-03", "2025-01-05")
+    counted, totals = running_since(nights, [1.0, 2.0, 4.0, 8.0], dt.date(2025, 1, 3))
+    assert counted.tolist() == [dt.date(2025, 1, 3), dt.date(2025, 1, 5)] and totals.tolist() == [4.0, 12.0]
+    # From the 4th (not logged): the 5th alone, 8; from after the log: nothing; from before it: 1, 3, 7, 15.
+    assert running_since(nights, [1.0, 2.0, 4.0, 8.0], dt.date(2025, 1, 4))[1].tolist() == [8.0]
+    assert running_since(nights, [1.0, 2.0, 4.0, 8.0], dt.date(2025, 1, 6))[1].tolist() == []
+    assert running_since(nights, [1.0, 2.0, 4.0, 8.0], dt.date(2024, 6, 1))[1].tolist() == [1.0, 3.0, 7.0, 15.0]
+    with pytest.raises(ValueError, match="one value per night"):
+        running_since(nights, [1.0], dt.date(2025, 1, 1))
+
+
+@FAST
+@given(log=logs(), data=st.data())
+def test_totals_between_two_nights_equal_a_plain_python_sum(log, data):
+    """Checked against a plain-Python sum over the nights (math.fsum), sharing no code with the cumulative sums."""
+    nights, values, since = log
+    until = [day + dt.timedelta(days=data.draw(st.integers(-20, 400))) for day in since]
+    night_arr = np.array(nights, dtype="datetime64[D]")
+    got = total_between(night_arr, running_totals(values), np.array(since, dtype="datetime64[D]"),
+                        np.array(until, dtype="datetime64[D]"))
+    for start, end, total in zip(since, until, got, strict=True):
+        expected = math.fsum(v for night, v in zip(nights, values, strict=True) if start <= night < end)
+        assert total == pytest.approx(expected, rel=1e-9, abs=1e-6)
+    counted, running = running_since(night_arr, values, since[0])
+    kept = [(night, v) for night, v in zip(nights, values, strict=True) if night >= since[0]]
+    assert counted.astype(object).tolist() == [night for night, _ in kept]
+    for i, total in enumerate(running):
+        assert total == pytest.approx(math.fsum(v for _, v in kept[: i + 1]), rel=1e-9, abs=1e-6)
 
 
 # --- the day a limit is reached ---------------------------------------------------------------------

@@ -6,6 +6,8 @@ hour in dusty air as more than one.
 """
 from __future__ import annotations
 
+import datetime as dt
+
 import numpy as np
 from numpy.typing import ArrayLike, NDArray
 
@@ -66,12 +68,66 @@ def accumulated_since(
     per_night : the quantity per night (open hours, slews, ...), same length as ``nights``.
     since : ``datetime64[D]`` array of start dates, one per plan.
     """
+    totals = running_totals(_per_night(nights, per_night))
+    return totals[-1] - total_before(nights, totals, since)
+
+
+def _per_night(nights: ArrayLike, per_night: ArrayLike) -> NDArray[np.float64]:
     values = np.asarray(per_night, dtype=float)
     if values.shape != np.shape(nights):
         raise ValueError("per_night must have one value per night")
-    totals = np.concatenate([[0.0], np.cumsum(values)])
-    first = np.searchsorted(np.asarray(nights, dtype="datetime64[D]"), np.asarray(since, dtype="datetime64[D]"))
-    return totals[-1] - totals[first]
+    return values
+
+
+def running_totals(per_night: ArrayLike) -> NDArray[np.float64]:
+    """The running totals every count here is read from: ``totals[i]`` is the sum of the first ``i`` nights' values
+    (``totals[0] = 0``, ``totals[-1]`` the whole log). Computed once per log and read with :func:`total_before` and
+    :func:`total_between`, a binary search each, so a caller asking many dates of one log sums it once."""
+    return np.concatenate([[0.0], np.cumsum(np.asarray(per_night, dtype=float))])
+
+
+def total_before(nights: ArrayLike, totals: NDArray[np.float64], day: ArrayLike) -> NDArray[np.float64]:
+    """Sum of the nights logged before each ``day``, the night of ``day`` itself not counted.
+
+    ``nights`` is the sorted ``datetime64[D]`` log and ``totals`` its :func:`running_totals`. The same rule as
+    :func:`accumulated_since`: a night belongs to the local date of its evening, so a service on day D resets the
+    count before the night of D, and ``total_before(D2) - total_before(D1)`` counts the nights of D1 up to the night
+    before D2. A scalar ``day`` gives a scalar.
+    """
+    index = np.searchsorted(np.asarray(nights, dtype="datetime64[D]"), np.asarray(day, dtype="datetime64[D]"))
+    return totals[index]
+
+
+def total_between(
+    nights: ArrayLike, totals: NDArray[np.float64], since: ArrayLike, until: ArrayLike
+) -> NDArray[np.float64]:
+    """Sum over the nights on or after ``since`` and before ``until``: from the night of ``since`` (a service that
+    day resets the count before its night, as in :func:`accumulated_since`) to the night before ``until`` (a
+    measurement made on day D has seen the nights before D). Nothing where ``until`` is on or before ``since``.
+    ``nights`` and ``totals`` as for :func:`total_before`; ``since`` and ``until`` broadcast together."""
+    nights = np.asarray(nights, dtype="datetime64[D]")
+    start = np.searchsorted(nights, np.asarray(since, dtype="datetime64[D]"))
+    end = np.searchsorted(nights, np.asarray(until, dtype="datetime64[D]"))
+    return totals[np.maximum(end, start)] - totals[start]
+
+
+def running_since(
+    nights: NDArray[np.datetime64], per_night: ArrayLike, since: dt.date | np.datetime64
+) -> tuple[NDArray[np.datetime64], NDArray[np.float64]]:
+    """Each logged night on or after ``since`` with the sum from the night of ``since`` through it: the running
+    count a chart draws, by the rule of :func:`accumulated_since` (a service on day D resets the count before the
+    night of D). One binary search and one cumulative sum of the nights counted.
+
+    Parameters
+    ----------
+    nights : sorted ``datetime64[D]`` array of logged nights.
+    per_night : the quantity per night, same length as ``nights``.
+    since : the one start date.
+    """
+    nights = np.asarray(nights, dtype="datetime64[D]")
+    values = _per_night(nights, per_night)
+    first = int(np.searchsorted(nights, np.datetime64(since, "D")))
+    return nights[first:], np.cumsum(values[first:])
 
 
 def reached_on(
@@ -88,7 +144,7 @@ def reached_on(
     if np.any(values < 0):
         raise ValueError("per-night values cannot be negative")
     nights = np.asarray(nights, dtype="datetime64[D]")
-    totals = np.concatenate([[0.0], np.cumsum(values)])
+    totals = running_totals(values)
     first = np.searchsorted(nights, np.asarray(since, dtype="datetime64[D]"))
     index = np.searchsorted(totals, totals[first] + np.asarray(limit, dtype=float), side="left")
     found = index <= len(nights)

@@ -20,6 +20,7 @@ from django.db.models import F
 from django.utils import timezone
 
 from observatory_ops.calc import coating, forecast, reflectance, windows
+from observatory_ops.calc.exposure import running_totals, total_between
 from observatory_ops.calc.triggers import OVERDUE
 from observatory_ops.logbook.models import Reading, ServiceRecord
 from observatory_ops.logbook.quantities import reflectance_text
@@ -178,11 +179,9 @@ def _band_mean(metal: str, stack: tuple[tuple[str, float], ...], from_nm: float,
 
 
 def _exposure_at(log: UsageLog, per_night: np.ndarray, since: dt.date, days: list[dt.date]) -> np.ndarray:
-    """Dust-weighted hours from the night of ``since`` up to (not including) the night of each day."""
-    cumulative = np.concatenate([[0.0], np.cumsum(per_night)])
-    start = np.searchsorted(log.nights, np.datetime64(since, "D"))
-    ends = np.searchsorted(log.nights, np.array(days, dtype="datetime64[D]"))
-    return cumulative[np.maximum(ends, start)] - cumulative[start]
+    """Dust-weighted hours from the night of ``since`` up to (not including) the night of each day: the count of
+    ``calc.exposure.total_between``, a coating on day D counting from the night of D."""
+    return total_between(log.nights, running_totals(per_night), since, np.array(days, dtype="datetime64[D]"))
 
 
 def _last_logged_night(log: UsageLog, since: dt.date, before: dt.date) -> dt.date | None:

@@ -7,7 +7,7 @@ import numpy as np
 from django.conf import settings
 from django.db.models import Count, Prefetch, Q, QuerySet
 
-from observatory_ops.calc import forecast
+from observatory_ops.calc import exposure, forecast
 from observatory_ops.calc.triggers import OVERDUE, STATUSES
 from observatory_ops.logbook.models import ServiceRecord
 from observatory_ops.logbook.quantities import (
@@ -617,10 +617,11 @@ def plans_with_plots(subsystem: Subsystem) -> list[ServicePlan]:
             continue
         else:
             log = log or UsageLog.for_subsystem(subsystem)
-            keep = log.nights >= np.datetime64(baseline, "D")
-            totals = np.cumsum(log.per_night(status.metric, plan.dust_sensitivity)[keep])
-            days = log.nights[keep].astype(object)
-            points = [(baseline, 0.0)] + list(zip(days, totals.tolist(), strict=True))
+            # The running count since the baseline, by the recompute's rule (calc.exposure.accumulated_since).
+            counted, totals = exposure.running_since(
+                log.nights, log.per_night(status.metric, plan.dust_sensitivity), baseline
+            )
+            points = [(baseline, 0.0)] + list(zip(counted.astype(object), totals.tolist(), strict=True))
         plan.plot = plots.accumulation_svg(
             points, status.limit, status.unit, today, status.value, status.forecast_date, status.earliest,
             status.latest, title=title, metric=status.metric, described_by=described,

@@ -25,7 +25,7 @@ from typing import NamedTuple
 import numpy as np
 from django.db.models import Min
 
-from observatory_ops.calc import reliability
+from observatory_ops.calc import exposure, reliability
 from observatory_ops.calc.night_of import night_of
 from observatory_ops.logbook.models import WITHOUT_ORDER_OR_PLAN, NightUsage, ServiceRecord, maintenance_type
 from observatory_ops.planning.models import ServicePlan
@@ -140,6 +140,14 @@ class Failure(NamedTuple):
     order_id: int | None
     hours: float = 0.0
     subsystem_id: int | None = None  # where a repair logged without an order is found (its service history)
+
+
+def failure_night(repaired_on: dt.date) -> dt.date:
+    """The night a failure repaired on ``repaired_on`` is placed on: the night before the day its repair was done,
+    the last night the subsystem ran up to the repair: its hours count through that night, and the repaired unit's
+    from the night of the repair day, as a service on day D resets a count before the night of D
+    (``calc.exposure``)."""
+    return repaired_on - dt.timedelta(days=1)
 
 
 @dataclass
@@ -335,15 +343,16 @@ def site_reliability(site: Site, today: dt.date | None = None, period: Period | 
     first_night = logged.min().astype(dt.date) if len(logged) else None
     last_night = logged.max().astype(dt.date) if len(logged) else None
     starts = _starts(subsystems, site, first_night, today)
-    cumulative = {key: np.concatenate([[0.0], np.cumsum(log.columns["open_hours"])]) for key, log in logs.items()}
+    cumulative = {key: exposure.running_totals(log.columns["open_hours"]) for key, log in logs.items()}
 
     def hours_before(key: int | None, day: dt.date) -> float:
-        """Open hours of the nights of log ``key`` logged before ``day``."""
-        return float(cumulative[key][np.searchsorted(logs[key].nights, np.datetime64(day, "D"))])
+        """Open hours of the nights of log ``key`` logged before ``day`` (``calc.exposure.total_before``)."""
+        return float(exposure.total_before(logs[key].nights, cumulative[key], day))
 
-    # A failure is placed on the night before the day its repair was done, as the finish form gave that day (the
-    # date of the order's service records): the last night the subsystem ran up to the repair. A repair entered days
-    # later counts where it happened. An order finished without service records falls back to its finish time's night.
+    # A failure is placed on the night before the day its repair was done (``failure_night``), as the finish form gave
+    # that day (the date of the order's service records). A repair entered days later counts where it happened. An
+    # order finished without service records falls back to its finish time's night (``night_of``, the one place the
+    # failure night is not ``failure_night``: no repair day is recorded).
     failed_at: dict[int, list[Failure]] = defaultdict(list)
     for subsystem_id, order_id, finished_at, repaired_on in WorkOrderItem.objects.filter(
         work_order__site=site, work_order__order_type=WorkOrder.Type.CORRECTIVE, work_order__state__in=DONE,
@@ -352,7 +361,7 @@ def site_reliability(site: Site, today: dt.date | None = None, period: Period | 
         "subsystem_id", "work_order_id", "work_order__finished_at", "repaired_on"
     ):
         if repaired_on:
-            night = repaired_on - dt.timedelta(days=1)
+            night = failure_night(repaired_on)
         else:
             night, repaired_on = night_of(finished_at, site.time_zone), finished_at.astimezone(site.zone).date()
         failed_at[subsystem_id].append(Failure("", night, repaired_on, WorkOrder(pk=order_id).number, order_id))
@@ -362,7 +371,7 @@ def site_reliability(site: Site, today: dt.date | None = None, period: Period | 
         subsystem__telescope__site=site, repaired_failure=True, work_order__isnull=True, corrected_by__isnull=True,
         void=False,
     ).values_list("subsystem_id", "performed_on"):
-        failed_at[subsystem_id].append(Failure("", repaired_on - dt.timedelta(days=1), repaired_on, "", None,
+        failed_at[subsystem_id].append(Failure("", failure_night(repaired_on), repaired_on, "", None,
                                                subsystem_id=subsystem_id))
 
     kinds = {code: KindReliability(code, spec.label) for code, spec in KINDS.items()}
