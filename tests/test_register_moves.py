@@ -269,6 +269,8 @@ def test_a_plan_moved_to_another_sites_subsystem_is_recomputed_at_both(engineer,
     plan = newcomer.subsystems.get().plans.first()
     url = f"/admin/planning/serviceplan/{plan.pk}/change/"
     target = new.telescopes.get().subsystems.first()
-    response = engineer.post(url, {**_unchanged(engineer, url), "subsystem": str(target.pk)}, follow=True)
+    # Renamed as it moves: the target already has an active plan of that name (two alike are refused).
+    response = engineer.post(url, {**_unchanged(engineer, url), "subsystem": str(target.pk),
+                                   "name": f"{plan.name}, moved"}, follow=True)
     assert "adminform" not in response.context, response.context["adminform"].form.errors
     assert plan.pk in _states(new) and plan.pk not in _states(old)

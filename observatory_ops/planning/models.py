@@ -21,7 +21,7 @@ from observatory_ops.logbook.quantities import (
     value_problem,
 )
 from observatory_ops.registry.catalogue import KINDS
-from observatory_ops.registry.models import Site, Subsystem, text_newlines_normalised
+from observatory_ops.registry.models import Site, Subsystem, name_alike, text_newlines_normalised
 
 from .metrics import MAX_LIMIT, METRIC_CHOICES, METRICS, READING, RECOAT_LINE
 
@@ -101,6 +101,13 @@ class ServicePlan(models.Model):
         problem = self._counting_from_problem()
         if problem:
             errors["counting_from"] = problem
+        if self.subsystem_id and self.name and self.active:
+            # Two active plans alike would be two due lines and two orders for one task (a site review added three).
+            others = (ServicePlan.objects.filter(subsystem_id=self.subsystem_id, active=True).exclude(pk=self.pk)
+                      .values_list("name", flat=True))
+            if (alike := name_alike(self.name, others)) is not None:
+                errors["name"] = (f"{alike!r} is already an active plan of this subsystem, but for capitals or "
+                                  "spaces: change that plan, or give this one a name of its own.")
         if errors:
             raise ValidationError(errors)
 

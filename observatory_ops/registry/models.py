@@ -16,6 +16,18 @@ from observatory_ops.calc import night_of, windows
 from .catalogue import KIND_CHOICES, KINDS
 
 
+def name_key(name: str) -> str:
+    """A name as the register compares names: capitals and surrounding spaces aside ("Azimuth drive " is
+    "azimuth drive")."""
+    return name.strip().casefold()
+
+
+def name_alike(name: str, others) -> str | None:
+    """The first of ``others`` (names) that is ``name`` but for capitals and surrounding spaces, None if none is."""
+    wanted = name_key(name)
+    return next((other for other in others if name_key(other) == wanted), None)
+
+
 def validate_one_line(value: str) -> None:
     """A name that heads a mail's subject and a page's title: one line, no control characters (a line break in a
     subject makes the mail library refuse the whole message)."""
@@ -159,13 +171,26 @@ class Site(models.Model):
     def clean(self) -> None:
         text_newlines_normalised(self)
         errors: dict[str, list[str]] = {}  # each field's refusal, so one does not hide the other
-        for check in (self._clean_longitude_against_zone, self._clean_slug_kept):
+        for check in (self._clean_longitude_against_zone, self._clean_slug_kept, self._clean_name_unlike_the_others):
             try:
                 check()
             except ValidationError as refused:
                 errors.update(refused.message_dict)
         if errors:
             raise ValidationError(errors)
+
+    def _clean_name_unlike_the_others(self) -> None:
+        """Refuse the name of another site but for capitals or spaces: the site list, the due list's filter and the
+        choices that name records with their site would show two alike (a site review added "vestal ridge
+        observatory" beside "Vestal Ridge Observatory")."""
+        if not self.name:
+            return
+        others = Site.objects.exclude(pk=self.pk).values_list("name", flat=True)
+        if (alike := name_alike(self.name, others)) is not None:
+            raise ValidationError({"name": (
+                f"Name {self.name.strip()!r} is another site's, {alike!r}, but for capitals or spaces: the lists and "
+                "choices would show the two alike. Give this site a name of its own."
+            )})
 
     def _clean_slug_kept(self) -> None:
         """Refuse a new slug once anything reaches the site by the old one (``selectors.slug_uses``): the API and
@@ -312,10 +337,8 @@ class Telescope(models.Model):
         """Refuse a name another telescope of the site has but for capitals or surrounding spaces: the nights CSV
         and the API find a telescope by its name ignoring those (``logbook.nights_csv``), so a night could go to
         the wrong one. Checked here, not by the database, so the message can say why."""
-        written = self.name.strip().casefold()
         others = Telescope.objects.filter(site=self.site_id).exclude(pk=self.pk).values_list("name", flat=True)
-        alike = next((name for name in others if name.strip().casefold() == written), None)
-        if alike is not None:
+        if (alike := name_alike(self.name, others)) is not None:
             raise ValidationError({"name": (
                 f"Name {self.name.strip()!r} is another telescope's at this site, {alike!r}, but for capitals or "
                 "spaces: nights sent by the CSV or the API name their telescope ignoring those, so they could go to "
@@ -325,10 +348,6 @@ class Telescope(models.Model):
     @property
     def equatorial(self) -> bool:
         return self.mount != self.Mount.ALT_AZ
-
-    @property
-    def axis_names(self) -> tuple[str, str]:
-        return ("right ascension", "declination") if self.equatorial else ("azimuth", "elevation")
 
 
 #: The earliest "in service since" date taken as typed; an earlier one is a slip of the keyboard.
@@ -410,6 +429,8 @@ class Subsystem(models.Model):
             stored = Subsystem.objects.filter(pk=self.pk).values_list("telescope_id", "telescope__site_id").first()
             if stored is not None and stored[0] != self.telescope_id:
                 self._clean_telescope_kept(moves_site=stored[1] != self.telescope.site_id)
+        if self.telescope_id and self.name and not self.retired_on:
+            self._clean_name_unlike_the_others()
         if self.in_service_since:
             self._clean_in_service_since()
         if self.retired_on:
@@ -474,6 +495,19 @@ class Subsystem(models.Model):
                 "as its 'in service since' and its plans' 'counting from', and retire this one on that day. If it "
                 "was registered on the wrong telescope and has always been on the other one, tick 'It was registered "
                 "on the wrong telescope'."
+            )})
+
+    def _clean_name_unlike_the_others(self) -> None:
+        """Refuse the name of another subsystem in service on the telescope but for capitals or spaces: the pages,
+        the due list and the work-order choices would list two alike, each with plans of its own (a site review added
+        "azimuth drive " beside "Azimuth drive"). A retired one's name may be taken again by its replacement."""
+        others = (Subsystem.objects.filter(telescope_id=self.telescope_id, retired_on__isnull=True)
+                  .exclude(pk=self.pk).values_list("name", flat=True))
+        if (alike := name_alike(self.name, others)) is not None:
+            raise ValidationError({"name": (
+                f"Name {self.name.strip()!r} is another subsystem's in service on this telescope, {alike!r}, but for "
+                "capitals or spaces: the pages and the work-order choices would list the two alike. Give it a name of "
+                "its own; if it replaces that one, retire that one first."
             )})
 
     def _stored_telescope_name(self) -> str:

@@ -12,7 +12,7 @@ from django.urls import reverse
 from simple_history.models import HistoricalRecords
 
 from observatory_ops.logbook.quantities import QUANTITIES, QUANTITY_CHOICES
-from observatory_ops.registry.models import Site, Subsystem, Telescope
+from observatory_ops.registry.models import Site, Subsystem, Telescope, name_alike
 
 
 class State(models.TextChoices):
@@ -435,9 +435,8 @@ class Part(models.Model):
         (``selectors.register_part``)."""
         if not self.site_id or not self.name:
             return
-        wanted = part_name_key(self.name)
         others = Part.objects.filter(site_id=self.site_id).exclude(pk=self.pk).values_list("name", flat=True)
-        if twin := next((name for name in others if part_name_key(name) == wanted), None):
+        if twin := name_alike(self.name, others):
             raise ValidationError({"name": (
                 f"Name: \"{self.name.strip()}\" is the name of another part at this site, \"{twin.strip()}\", "
                 "but for capitals or spaces, and a service plan's parts line could not tell the two apart. Use that "
@@ -447,11 +446,6 @@ class Part(models.Model):
     @property
     def low(self) -> bool:
         return self.quantity_on_hand <= self.reorder_point
-
-
-def part_name_key(name: str) -> str:
-    """A part's name as the register compares names: capitals and surrounding spaces aside."""
-    return name.strip().casefold()
 
 
 class PartUse(models.Model):
@@ -524,6 +518,14 @@ class IsolationPoint(models.Model):
     def clean(self) -> None:
         if self.subsystem_id and self.telescope_id and self.subsystem.telescope_id != self.telescope_id:
             raise ValidationError({"subsystem": "The subsystem must belong to the point's telescope."})
+        if self.telescope_id and self.label:
+            # The lockout step and the paper would list the point twice, to lock twice (a site review).
+            others = (IsolationPoint.objects.filter(telescope_id=self.telescope_id, subsystem_id=self.subsystem_id)
+                      .exclude(pk=self.pk).values_list("label", flat=True))
+            if (alike := name_alike(self.label, others)) is not None:
+                raise ValidationError({"label": (
+                    f"{alike!r} is already registered here: the lockout would list the point twice. Edit that one."
+                )})
 
     @property
     def description(self) -> str:

@@ -19,7 +19,7 @@ from observatory_ops.planning.models import ServicePlan, part_lines
 from observatory_ops.planning.services import site_today
 from observatory_ops.registry import catalogue
 from observatory_ops.registry.catalogue import unlabelled
-from observatory_ops.registry.models import Site, Subsystem
+from observatory_ops.registry.models import Site, Subsystem, name_key
 from observatory_ops.registry.selectors import crew_days_off
 
 from . import sheet as sheet_
@@ -82,7 +82,6 @@ from .models import (
     WorkOrder,
     WorkOrderItem,
     amount_text,
-    part_name_key,
 )
 
 
@@ -353,7 +352,7 @@ def register_part(name: str, register: Sequence[Part]) -> Part | None:
     exact = [part for part in register if part.name.strip() == name.strip()]
     if len(exact) == 1:
         return exact[0]
-    alike = [part for part in register if part_name_key(part.name) == part_name_key(name)]
+    alike = [part for part in register if name_key(part.name) == name_key(name)]
     return alike[0] if len(alike) == 1 else None
 
 

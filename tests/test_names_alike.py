@@ -1,0 +1,71 @@
+"""Two records of the register named alike but for capitals or surrounding spaces are refused where the pages, the
+choices and the lockout would list both as one name (a site review added "vestal ridge observatory" beside "Vestal
+Ridge Observatory", "azimuth drive " beside "Azimuth drive", three plans "Grease roof rails" on one roof and one
+isolator twice). The rule is our own, as the telescope's and the part's names already had it."""
+from __future__ import annotations
+
+import datetime as dt
+
+import pytest
+from django.core.exceptions import ValidationError
+
+from observatory_ops.planning.models import ServicePlan
+from observatory_ops.registry.models import Site, Subsystem, name_alike
+from observatory_ops.registry.services import subsystem_create
+from observatory_ops.workorders.models import IsolationPoint
+
+START = dt.date(2026, 1, 1)
+
+
+def test_name_alike_is_capitals_and_surrounding_spaces_aside():
+    assert name_alike(" azimuth DRIVE ", ["Altitude drive", "Azimuth drive"]) == "Azimuth drive"
+    assert name_alike("Azimuth drive 2", ["Azimuth drive"]) is None
+
+
+def test_a_site_named_as_another_but_for_capitals_is_refused(site):
+    twin = Site(name="  test hill", slug="test-hill-2", latitude_deg=40.0, longitude_deg=-3.0, elevation_m=800,
+                time_zone="Europe/Madrid")
+    with pytest.raises(ValidationError) as refused:
+        twin.full_clean()
+    assert refused.value.message_dict["name"] == [
+        "Name 'test hill' is another site's, 'Test Hill', but for capitals or spaces: the lists and choices would "
+        "show the two alike. Give this site a name of its own."
+    ]
+    site.full_clean()  # its own name is no twin of itself
+
+
+def test_a_subsystem_named_as_another_in_service_is_refused_and_a_retired_ones_name_may_be_taken(telescope):
+    drive = subsystem_create(telescope, "axis1_drive", "Azimuth drive", counting_from=START)
+    twin = Subsystem(telescope=telescope, kind="axis1_drive", name="azimuth drive ", hazards=drive.hazards)
+    with pytest.raises(ValidationError) as refused:
+        twin.full_clean()
+    assert refused.value.message_dict["name"][0].startswith(
+        "Name 'azimuth drive' is another subsystem's in service on this telescope, 'Azimuth drive'")
+    drive.retired_on = START + dt.timedelta(days=30)
+    drive.save()
+    twin.full_clean()  # its replacement
+
+
+def test_an_active_plan_named_as_another_of_its_subsystem_is_refused(telescope):
+    drive = subsystem_create(telescope, "axis1_drive", "Azimuth drive", counting_from=START)
+    plan = drive.plans.first()
+    twin = ServicePlan(subsystem=drive, name=plan.name.upper(), counting_from=START)
+    with pytest.raises(ValidationError) as refused:
+        twin.full_clean()
+    assert refused.value.message_dict["name"] == [
+        f"{plan.name!r} is already an active plan of this subsystem, but for capitals or spaces: change that plan, "
+        "or give this one a name of its own."
+    ]
+    twin.active = False  # a plan kept, not counted, does not crowd the due list
+    twin.full_clean()
+
+
+def test_an_isolation_point_registered_twice_is_refused(telescope):
+    IsolationPoint.objects.create(telescope=telescope, energy="ac", label="Mount isolator")
+    with pytest.raises(ValidationError) as refused:
+        IsolationPoint(telescope=telescope, energy="ac", label="mount isolator").full_clean()
+    assert refused.value.message_dict["label"] == [
+        "'Mount isolator' is already registered here: the lockout would list the point twice. Edit that one."
+    ]
+    dome = subsystem_create(telescope, "enclosure", "Dome", counting_from=START)
+    IsolationPoint(telescope=telescope, subsystem=dome, energy="ac", label="Mount isolator").full_clean()
