@@ -84,6 +84,26 @@ def test_a_cleaning_added_in_the_admin_restarts_the_cleaning_plan_as_one_logged_
     assert PlanStatus.objects.get(plan=plan).last_service_on == cleaned_on
 
 
+def test_a_cleanings_work_order_is_not_chosen_in_the_admin(mirror, users, engineer_in_admin):
+    """Set by the finish of the order that did it, never chosen: a site review linked a cleaning to another site's
+    work order from the admin's list of every site's orders."""
+    from observatory_ops.registry.models import Site, Telescope
+    from observatory_ops.workorders.services import work_order_ad_hoc
+
+    other = Site.objects.create(name="Far Knoll", slug="far-knoll", latitude_deg=-31.0, longitude_deg=116.0,
+                                elevation_m=400, time_zone="Australia/Perth")
+    roof = subsystem_create(Telescope.objects.create(site=other, name="K1", aperture_m=0.4, mount="fork"), "other",
+                            "Roof", counting_from=dt.date(2026, 1, 1), no_hazards_found=True)
+    elsewhere = work_order_ad_hoc(other, [roof], "Roof check", users["engineer"], steps="Look.")
+    page = engineer_in_admin.get(f"/admin/mirrors/mirror/{mirror.pk}/change/").content.decode()
+    assert 'name="cleanings-__prefix__-work_order"' not in page
+    cleaned_on = _today(mirror) - dt.timedelta(days=4)
+    response = _admin_post(engineer_in_admin, mirror, cleanings=[
+        {"cleaned_on": cleaned_on.isoformat(), "method": "co2_snow", "note": "", "work_order": elsewhere.pk}])
+    assert response.status_code == 302, _text(response)[:2000]
+    assert CleaningEvent.objects.get(mirror=mirror, cleaned_on=cleaned_on).work_order is None
+
+
 def test_the_mirror_page_and_the_admin_restart_a_cleaning_through_one_service(monkeypatch, mirror, users):
     """One path: the admin's cleaning rows call the service the mirror page's ``cleaning_log`` calls, as its coating
     rows call the one ``coating_log`` calls."""

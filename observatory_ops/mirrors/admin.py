@@ -65,6 +65,9 @@ class CleaningInline(admin.TabularInline):
     model = CleaningEvent
     formset = CleaningFormSet
     extra = 0
+    # Set by the finish of the order that did the cleaning (workorders.services.work_order_finish), never chosen: a
+    # site review linked a cleaning to another site's order from this list.
+    readonly_fields = ("work_order",)
 
 
 @admin.register(Mirror)
