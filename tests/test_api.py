@@ -2,7 +2,7 @@
 
 A refused request answers JSON ``{"errors": [{"index", "field", "message"}]}`` with its status code and
 stores nothing (every NightUsage row, every field, unchanged; no recompute). The nights endpoint applies
-the CSV import's rules (``nights_csv.parse_row``); a property test checks that a CSV cell and the same
+the CSV import's rules (``nights_csv.ParsedNights.add``); a property test checks that a CSV cell and the same
 value sent as JSON give the same stored values or a refusal of the same field.
 """
 from __future__ import annotations
@@ -245,11 +245,11 @@ def as_csv_cells(record: dict) -> dict[str, str]:
 def test_a_json_object_and_the_same_csv_row_give_the_same_values_or_fail_on_the_same_field(record):
     latest = NIGHT + dt.timedelta(days=200)
     outcomes = []
-    for form in (record, as_csv_cells(record)):
-        try:
-            outcomes.append(("stored", nights_csv.parse_row(form, latest)))
-        except nights_csv.RowError as exc:
-            outcomes.append(("refused", exc.field))
+    # Each checked as its own path checks a record: the API's parse_objects as JSON, the importer's parse as a row.
+    for form, as_json in ((record, True), (as_csv_cells(record), False)):
+        parsed = nights_csv.ParsedNights(latest, as_json=as_json)
+        parsed.add(0, form)
+        outcomes.append(("refused", parsed.errors[0].field) if parsed.errors else ("stored", parsed.rows[0][1]))
     assert outcomes[0] == outcomes[1]
 
 

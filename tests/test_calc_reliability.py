@@ -93,8 +93,13 @@ def test_the_random_failure_test_uses_the_exponential_likelihood_at_beta_one():
     fit = weibull_fit(FAILURES, CENSORED)
     scale = (sum(FAILURES) + sum(CENSORED)) / len(FAILURES)
     at_one = stats.expon.logpdf(FAILURES, scale=scale).sum() + stats.expon.logsf(CENSORED, scale=scale).sum()
-    assert fit.lr_against_random == pytest.approx(2 * (fit.log_likelihood - at_one))
-    assert fit.differs_from_random == (fit.lr_against_random > stats.chi2.ppf(0.90, 1))
+    statistic = 2 * (fit.log_likelihood - at_one)
+    assert fit.differs_from_random == (statistic > stats.chi2.ppf(0.90, 1))
+    # The fit decides on that same statistic (to 1e-6 relative): a confidence whose chi2 quantile lies just below it
+    # rejects beta = 1, one just above does not.
+    for factor, differs in ((1 - 1e-6, True), (1 + 1e-6, False)):
+        confidence = stats.chi2.cdf(factor * statistic, 1)
+        assert weibull_fit(FAILURES, CENSORED, confidence).differs_from_random is differs
 
 
 def test_weibull_fit_recovers_a_known_shape_from_a_large_simulated_sample():

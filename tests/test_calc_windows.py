@@ -23,10 +23,12 @@ from hypothesis import strategies as st
 from observatory_ops.calc.night_of import night_of
 from observatory_ops.calc.nights import Site, nights_for_range
 from observatory_ops.calc.windows import (
+    EVERY_DAY,
     RECOAT_PHASES,
+    TELESCOPE_WORK,
     Phase,
     Window,
-    cheapest_windows,
+    cheapest_crew_windows,
     night_cost,
     total_days,
 )
@@ -60,7 +62,16 @@ def test_no_bookings_leave_costs_unweighted() -> None:
     np.testing.assert_array_equal(night_cost(hours, fraction, booked=[False, False]), night_cost(hours, fraction))
 
 
-# --- cheapest_windows ----------------------------------------------------------------------------------
+# --- the plain search: the cheapest run of N consecutive nights ---------------------------------------
+
+
+def plain_windows(cost, days, alternatives=3) -> list[Window]:
+    """The cheapest run of ``days`` consecutive nights, then up to ``alternatives`` more: the production search,
+    ``cheapest_crew_windows``, for one job of ``days`` days with a crew working every day and no day off (as the
+    ``windows`` command searches at a bare position)."""
+    return cheapest_crew_windows(cost, [Phase("work at the telescope", days, TELESCOPE_WORK)], 1, EVERY_DAY,
+                                 alternatives)
+
 
 #: Two-day sums of HAND_COST, by hand: starts 0..7 -> 6, 2, 5, 4, 0, 9, 11, 4.
 HAND_COST = [5.0, 1.0, 1.0, 4.0, 0.0, 0.0, 9.0, 2.0, 2.0]
@@ -70,23 +81,23 @@ def test_cheapest_window_and_alternatives_match_the_hand_computed_sums() -> None
     # By hand, from the two-day sums above: the cheapest starts at 4 (0). Starts 3..5 overlap it; of the
     # rest the cheapest starts at 1 (2). Starts 0..2 now overlap; of 6 (11) and 7 (4), 7. Start 6
     # overlaps 7, so nothing is left.
-    windows = cheapest_windows(HAND_COST, days=2, alternatives=3)
+    windows = plain_windows(HAND_COST, days=2, alternatives=3)
     assert windows == [Window(4, 2, 0.0), Window(1, 2, 2.0), Window(7, 2, 4.0)]
 
 
 def test_fewer_alternatives_than_asked_come_back_when_the_horizon_holds_no_more() -> None:
-    assert len(cheapest_windows(HAND_COST, days=2, alternatives=10)) == 3
-    assert cheapest_windows(HAND_COST, days=2, alternatives=0) == [Window(4, 2, 0.0)]
+    assert len(plain_windows(HAND_COST, days=2, alternatives=10)) == 3
+    assert plain_windows(HAND_COST, days=2, alternatives=0) == [Window(4, 2, 0.0)]
 
 
 def test_a_window_as_long_as_the_horizon_is_the_whole_horizon() -> None:
     # By hand: 5 + 1 + 1 + 4 + 0 + 0 + 9 + 2 + 2 = 24.
-    assert cheapest_windows(HAND_COST, days=9) == [Window(0, 9, 24.0)]
+    assert plain_windows(HAND_COST, days=9) == [Window(0, 9, 24.0)]
 
 
 def test_one_day_windows_are_the_cheapest_nights_apart() -> None:
     # By hand: costs 5, 1, 1, 4 -> nights 1 and 2 (1 each, earlier first on the tie), then 3 (4).
-    assert cheapest_windows([5.0, 1.0, 1.0, 4.0], days=1, alternatives=2) == [
+    assert plain_windows([5.0, 1.0, 1.0, 4.0], days=1, alternatives=2) == [
         Window(1, 1, 1.0),
         Window(2, 1, 1.0),
         Window(3, 1, 4.0),
@@ -96,7 +107,7 @@ def test_one_day_windows_are_the_cheapest_nights_apart() -> None:
 def test_windows_never_contain_a_blocked_night() -> None:
     # By hand: two-day sums of [1, inf, 1, 5, 5, 1] are inf, inf, 6, 10, 6. The cheapest are 2 and 4
     # (6 each, the earlier first); start 3 overlaps both and 0 and 1 hold the blocked night.
-    windows = cheapest_windows([1.0, INF, 1.0, 5.0, 5.0, 1.0], days=2, alternatives=3)
+    windows = plain_windows([1.0, INF, 1.0, 5.0, 5.0, 1.0], days=2, alternatives=3)
     assert windows == [Window(2, 2, 6.0), Window(4, 2, 6.0)]
 
 
@@ -104,13 +115,13 @@ def test_a_cheap_window_across_a_blocked_night_loses_to_a_dear_one_without() -> 
     # By hand: the free nights 0, 1, 3, 4 lie between blocked nights 2 and 5, so every three-day window
     # starting at 0..5 holds one; the only window left starts at 6: 60 + 70 + 80 = 210.
     cost = [0.0, 0.0, INF, 0.0, 0.0, INF, 60.0, 70.0, 80.0]
-    assert cheapest_windows(cost, days=3, alternatives=0) == [Window(6, 3, 210.0)]
+    assert plain_windows(cost, days=3, alternatives=0) == [Window(6, 3, 210.0)]
 
 
 def test_windows_follow_the_booked_runs_that_night_cost_blocks() -> None:
     # By hand: costs 4, 1, blocked, 1, 1, 4 -> three-day sums inf, inf, inf, 6: only the last fits.
     cost = night_cost([4.0, 1.0, 1.0, 1.0, 1.0, 4.0], [1.0] * 6, booked=[False, False, True, False, False, False])
-    assert cheapest_windows(cost, days=3) == [Window(3, 3, 6.0)]
+    assert plain_windows(cost, days=3) == [Window(3, 3, 6.0)]
 
 
 @settings(max_examples=200, deadline=None)
@@ -128,15 +139,15 @@ def test_windows_agree_with_a_brute_force_search_and_never_overlap(
     # than asked come back every remaining free window overlaps a chosen one.
     if days > len(cost):
         with pytest.raises(ValueError, match="longer than the horizon"):
-            cheapest_windows(cost, days, alternatives)
+            plain_windows(cost, days, alternatives)
         return
     free = {start: sum(cost[start : start + days]) for start in range(len(cost) - days + 1)}
     free = {start: total for start, total in free.items() if total != INF}
     if not free:
         with pytest.raises(ValueError, match="contains a blocked night"):
-            cheapest_windows(cost, days, alternatives)
+            plain_windows(cost, days, alternatives)
         return
-    windows = cheapest_windows(cost, days, alternatives)
+    windows = plain_windows(cost, days, alternatives)
     assert windows[0].cost == min(free.values())
     assert [w.cost for w in windows] == sorted(w.cost for w in windows)
     assert all(free[w.start_index] == w.cost and w.days == days for w in windows)
@@ -191,7 +202,7 @@ def test_cheapest_week_of_each_lunation_is_centred_within_two_days_of_the_full_m
     for new, next_new in zip(moons, moons[1:], strict=False):
         first, stop = _night_index(new), _night_index(next_new)
         full = _night_index(ephem.next_full_moon(new))
-        window = cheapest_windows(cost[first:stop], days=7, alternatives=0)[0]
+        window = plain_windows(cost[first:stop], days=7, alternatives=0)[0]
         centre = first + window.start_index + 3
         assert abs(centre - full) <= 2, (
             f"lunation from {_instant(new):%Y-%m-%d}: cheapest week centred on night {centre}, full moon night {full}"
@@ -205,7 +216,7 @@ def test_the_cheapest_weeks_of_half_a_year_fall_one_on_each_full_moon() -> None:
     moons = new_moons()
     first, stop = _night_index(moons[0]), _night_index(moons[-1])
     fulls = sorted(_night_index(ephem.next_full_moon(new)) for new in moons[:-1])
-    windows = cheapest_windows(cost[first:stop], days=7, alternatives=LUNATIONS - 1)
+    windows = plain_windows(cost[first:stop], days=7, alternatives=LUNATIONS - 1)
     centres = sorted(first + w.start_index + 3 for w in windows)
     assert len(centres) == LUNATIONS
     assert all(abs(centre - full) <= 2 for centre, full in zip(centres, fulls, strict=True)), (centres, fulls)
@@ -237,16 +248,18 @@ def test_a_phase_of_zero_days_is_allowed_when_others_take_time() -> None:
 @pytest.mark.parametrize(
     ("make", "message"),
     [
-        (lambda: cheapest_windows(HAND_COST, days=10), "a window of 10 days is longer than the horizon of 9 days"),
-        (lambda: cheapest_windows(HAND_COST, days=0), "window length must be at least 1, not 0"),
-        (lambda: cheapest_windows(HAND_COST, days=2.5), "window length must be a whole number"),
-        (lambda: cheapest_windows(HAND_COST, days=True), "window length must be a whole number"),
-        (lambda: cheapest_windows(HAND_COST, days=2, alternatives=-1), "number of alternatives must be at least 0"),
-        (lambda: cheapest_windows([1.0, INF, 1.0], days=2), "every window of 2 days contains a blocked night"),
-        (lambda: cheapest_windows([1.0, np.nan, 1.0], days=1), "night costs must not be negative or NaN"),
-        (lambda: cheapest_windows([1.0, -2.0, 1.0], days=1), "night costs must not be negative or NaN"),
-        (lambda: cheapest_windows([[1.0, 2.0]], days=1), "cost must be a one-dimensional array"),
-        (lambda: cheapest_windows(["a", "b"], days=1), "cost must hold real numbers"),
+        (lambda: plain_windows(HAND_COST, days=10),
+         r"the phases take at least 10 days \(10 on the crew's working days, 0 calendar days\), longer than the "
+         "horizon of 9 days"),
+        (lambda: plain_windows(HAND_COST, days=0), "the phases add up to no days at all"),
+        (lambda: plain_windows(HAND_COST, days=2.5), "days of phase 'work at the telescope' must be a whole number"),
+        (lambda: plain_windows(HAND_COST, days=True), "days of phase 'work at the telescope' must be a whole number"),
+        (lambda: plain_windows(HAND_COST, days=2, alternatives=-1), "number of alternatives must be at least 0"),
+        (lambda: plain_windows([1.0, INF, 1.0], days=2), "every window for these phases contains a blocked night"),
+        (lambda: plain_windows([1.0, np.nan, 1.0], days=1), "night costs must not be negative or NaN"),
+        (lambda: plain_windows([1.0, -2.0, 1.0], days=1), "night costs must not be negative or NaN"),
+        (lambda: plain_windows([[1.0, 2.0]], days=1), "cost must be a one-dimensional array"),
+        (lambda: plain_windows(["a", "b"], days=1), "cost must hold real numbers"),
         (lambda: night_cost([1.0, 2.0], [0.5]), "open fraction has 1 values for 2 nights"),
         (lambda: night_cost([1.0, -2.0], [0.5, 0.5]), "moonless dark hours must be finite and not negative"),
         (lambda: night_cost([1.0, INF], [0.5, 0.5]), "moonless dark hours must be finite and not negative"),

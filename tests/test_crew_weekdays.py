@@ -35,11 +35,11 @@ from hypothesis import strategies as st
 from observatory_ops.calc.windows import (
     EVERY_DAY,
     RECOAT_PHASES,
+    TELESCOPE_WORK,
     WEEKDAY_NAMES,
     Phase,
     Window,
     cheapest_crew_windows,
-    cheapest_windows,
     crew_weekdays_from,
     phase_days,
     total_days,
@@ -91,6 +91,14 @@ def test_a_recoat_begun_on_a_thursday_waits_over_the_weekend_for_its_realignment
 costs = st.lists(st.one_of(st.integers(0, 20).map(float), st.just(INF)), min_size=1, max_size=45)
 
 
+def plain_windows(cost, days, alternatives=3) -> list[Window]:
+    """The plain search of ``days`` consecutive nights, as before crew days existed: ``cheapest_crew_windows`` for
+    one job of ``days`` days with a crew working every day and no day off (its own tests, hand sums, a brute-force
+    search and PyEphem's full moons, in tests/test_calc_windows.py)."""
+    return cheapest_crew_windows(cost, [Phase("work at the telescope", days, TELESCOPE_WORK)], 1, EVERY_DAY,
+                                 alternatives)
+
+
 @settings(max_examples=300, deadline=None)
 @given(cost=costs, phases=phase_lists, crew=crews, first=dates, alternatives=st.integers(0, 4))
 def test_windows_agree_with_a_brute_force_search_and_never_start_a_crew_phase_on_a_day_off(
@@ -131,10 +139,11 @@ def test_windows_agree_with_a_brute_force_search_and_never_start_a_crew_phase_on
 def test_a_crew_working_every_day_gives_the_plain_search_of_the_phases_total_days(
     cost, phases, weekday, alternatives
 ) -> None:
-    # Source: calc.windows.cheapest_windows, the search before crew days existed (its own tests above all).
+    # Source: the plain search of the phases' total days in a row, as before crew days existed (plain_windows
+    # above, itself checked by hand sums, a brute-force search and PyEphem in tests/test_calc_windows.py).
     days = total_days(phases)
     try:
-        plain = cheapest_windows(cost, days, alternatives)
+        plain = plain_windows(cost, days, alternatives)
     except ValueError:
         with pytest.raises(ValueError):
             cheapest_crew_windows(cost, phases, weekday, EVERY_DAY, alternatives)
@@ -147,7 +156,7 @@ def test_a_crew_working_every_day_gives_the_plain_search_of_the_phases_total_day
 def test_phases_without_crew_work_ignore_the_crew_days(cost, weekday) -> None:
     phases = [Phase("transport", 1), Phase("strip and coat", 3, "coating"), Phase("return", 1)]
     try:
-        plain = cheapest_windows(cost, 5)
+        plain = plain_windows(cost, 5)
     except ValueError:
         with pytest.raises(ValueError):
             cheapest_crew_windows(cost, phases, weekday, {3})
@@ -164,7 +173,7 @@ def test_a_weekend_inside_the_removal_lengthens_the_downtime_and_adds_its_nights
     assert cheapest_crew_windows([1.0, 2.0, 3.0, 4.0], removal, dt.date(2027, 4, 9).isoweekday(), MON_FRI) == [
         Window(0, 4, 10.0)
     ]
-    assert cheapest_windows([1.0, 2.0, 3.0, 4.0], 2, alternatives=0) == [Window(0, 2, 3.0)]
+    assert plain_windows([1.0, 2.0, 3.0, 4.0], 2, alternatives=0) == [Window(0, 2, 3.0)]
 
 
 def test_the_whole_recoat_over_a_weekend_costs_the_two_extra_nights() -> None:

@@ -72,8 +72,14 @@ def test_the_random_failure_test_uses_the_truncated_exponential_likelihood_at_be
     law = stats.expon(scale=scale)
     at_one = (law.logpdf(failures).sum() - law.logsf(failure_entries).sum()
               + law.logsf(censored).sum() - law.logsf(censored_entries).sum())
-    assert fit.lr_against_random == pytest.approx(2 * (fit.log_likelihood - at_one))
-    assert fit.differs_from_random == (fit.lr_against_random > stats.chi2.ppf(0.90, 1))
+    statistic = 2 * (fit.log_likelihood - at_one)
+    assert fit.differs_from_random == (statistic > stats.chi2.ppf(0.90, 1))
+    # The fit decides on that same statistic (to 1e-6 relative): a confidence whose chi2 quantile lies just below it
+    # rejects beta = 1, one just above does not.
+    for factor, differs in ((1 - 1e-6, True), (1 + 1e-6, False)):
+        confidence = stats.chi2.cdf(factor * statistic, 1)
+        assert weibull_fit(failures, censored, confidence, failure_entry_hours=failure_entries,
+                           censored_entry_hours=censored_entries).differs_from_random is differs
 
 
 @settings(max_examples=60, deadline=None)

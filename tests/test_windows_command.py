@@ -5,8 +5,9 @@ and counted); at a bare position there is no crew, and every day counts as a wor
 References checked against: hand-worked calendars in the comments (December 2026: Thursday 24 and Friday 25 are
 the invented closure, Saturday 19 the first weekend day); numpy's business-day calendar (``numpy.is_busday`` with
 the days off as holidays, independent of calc.windows) for the days a window may start on; and, at a bare position,
-``calc.windows.cheapest_windows``, the plain search of N consecutive nights the command made before the crew
-(its own tests in tests/test_calc_windows.py). The site and its nights are invented.
+the plain search of N consecutive nights the command made before the crew: ``calc.windows.cheapest_crew_windows``
+for one job of N days with a crew working every day and no day off (its own tests in tests/test_calc_windows.py).
+The site and its nights are invented.
 """
 from __future__ import annotations
 
@@ -119,9 +120,11 @@ def test_at_a_bare_position_every_day_is_a_working_day_as_before(db) -> None:
     assert "crew days off" not in text
     found = json.loads(_run(*args, "--json"))
     assert (found["site"], found["crew_weekdays"]) == (None, [1, 2, 3, 4, 5, 6, 7])
-    # Source: calc.windows.cheapest_windows over the same nights, the command's search before the crew.
+    # Source: the plain search of 4 consecutive nights over the same nights, the command's search before the crew
+    # (one job of 4 days, a crew working every day and no day off).
     sky = nights.nights_for_range(nights.Site(40, -3, 0, "Europe/Madrid"), dt.date(2027, 3, 1), 30)
-    plain = windows.cheapest_windows(windows.night_cost(sky.moonless_dark_hours, np.full(30, PRIOR)), 4)
+    plain = windows.cheapest_crew_windows(windows.night_cost(sky.moonless_dark_hours, np.full(30, PRIOR)),
+                                          [windows.Phase("work", 4, windows.TELESCOPE_WORK)], 1, windows.EVERY_DAY)
     assert [(w["start"], w["nights_lost"], w["cost"], w["days_off"]) for w in found["windows"]] == [
         ((dt.date(2027, 3, 1) + dt.timedelta(days=w.start_index)).isoformat(), 4, round(w.cost, 3), [])
         for w in plain

@@ -86,8 +86,7 @@ class WeibullFit:
     failures: int
     censored: int
     log_likelihood: float
-    #: Likelihood-ratio statistic against beta = 1 (exponential) and whether beta = 1 is rejected.
-    lr_against_random: float
+    #: Whether the likelihood-ratio test against beta = 1 (exponential) rejects beta = 1.
     differs_from_random: bool
 
     @property
@@ -249,15 +248,13 @@ def weibull_fit(
     # The scaling of times shifts every log-likelihood by the same r * ln(scale) (the S(e) terms do not move); undo
     # it for the caller.
     shift = len(failures) * np.log(scale)
-    lr = max(2 * (log_likelihood - at_random), 0.0)
     return WeibullFit(
         beta=float(beta),
         eta_hours=float(eta * scale),
         failures=len(failures),
         censored=len(censored),
         log_likelihood=float(log_likelihood - shift),
-        lr_against_random=lr,
-        differs_from_random=bool(lr > stats.chi2.ppf(confidence, 1)),
+        differs_from_random=bool(2 * (log_likelihood - at_random) > stats.chi2.ppf(confidence, 1)),
     )
 
 

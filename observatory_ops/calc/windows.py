@@ -90,49 +90,6 @@ class Window:
     cost: float
 
 
-def cheapest_windows(cost: ArrayLike, days: int, alternatives: int = 3) -> list[Window]:
-    """The cheapest run of ``days`` consecutive nights, then up to ``alternatives`` more, cheapest first.
-
-    Method
-    ------
-    Sliding-window sums from one cumulative sum, ``S[i] = C[i + days] - C[i]`` with ``C`` the cumulative
-    cost from 0; blocked (infinite) nights are counted by a second cumulative sum, so a window holding
-    one is never chosen and the infinities never enter the subtraction. The cheapest window is the
-    smallest ``S`` (the earliest one on a tie); each alternative is the cheapest window that overlaps
-    none chosen before it (windows starting fewer than ``days`` apart overlap): a greedy choice, so the
-    windows come out cheapest first. Fewer alternatives come back when the horizon holds no more.
-
-    Parameters
-    ----------
-    cost : cost per night, >= 0, ``inf`` for a blocked night (:func:`night_cost`).
-    days : length of the window, 1..len(cost).
-    alternatives : how many further windows to offer besides the cheapest, >= 0.
-
-    Returns
-    -------
-    list of Window, the cheapest first.
-
-    Raises
-    ------
-    ValueError
-        When ``cost`` is not one-dimensional or holds negative or NaN values, when ``days`` is below 1
-        or longer than the horizon, when ``alternatives`` is negative, or when every window of ``days``
-        contains a blocked night.
-    """
-    per_night = _costs(cost)
-    _check_whole("window length", days, 1)
-    _check_whole("number of alternatives", alternatives, 0)
-    if days > per_night.size:
-        raise ValueError(f"a window of {days} days is longer than the horizon of {per_night.size} days")
-    chosen = _cheapest(per_night, np.full(per_night.size, days), alternatives)
-    if not chosen:
-        raise ValueError(
-            f"every window of {days} days contains a blocked night (a booked observing run): "
-            "shorten the window, lengthen the horizon or give booked nights a finite weight"
-        )
-    return chosen
-
-
 @dataclass(frozen=True)
 class Phase:
     """One step of a downtime job, the whole days it takes, and the kind of hands-on work it is
@@ -305,10 +262,12 @@ def cheapest_crew_windows(
     The phases are laid (:func:`phase_days`) from every night ``i`` of the horizon, giving the downtime's
     length ``L_i``; no window begins on a night where the first phase would wait for the crew (the window
     begun on the day the crew comes is that one). The cost of the window begun on night ``i`` is
-    ``C[i + L_i] - C[i]`` from one cumulative sum, as in :func:`cheapest_windows`: the nights of days off
-    inside the downtime, weekly or listed, are lost too and count in it. Alternatives are chosen as there:
-    greedily, cheapest first, each overlapping none chosen before it. With every day a working day, or no
-    crew phase, every length is :func:`total_days` and the result is that of :func:`cheapest_windows`.
+    ``C[i + L_i] - C[i]`` from one cumulative sum ``C`` of the costs from 0 (:func:`_cheapest`): the nights of days
+    off inside the downtime, weekly or listed, are lost too and count in it. The cheapest window is the smallest
+    such cost (the earliest on a tie); each alternative is the cheapest window that overlaps none chosen before it:
+    a greedy choice, so the windows come out cheapest first. Fewer alternatives come back when the horizon holds no
+    more. With every day a working day and no day off, or no crew phase, every length is :func:`total_days`: the
+    plain search of that many consecutive nights.
 
     Parameters
     ----------
@@ -327,7 +286,7 @@ def cheapest_crew_windows(
     Raises
     ------
     ValueError
-        On bad costs as :func:`cheapest_windows`, bad phases, weekday, crew days or days off as
+        On bad costs (not one-dimensional, negative or NaN), bad phases, weekday, crew days or days off as
         :func:`phase_days`, a negative ``alternatives``, an empty horizon, when no downtime begun with the crew
         in the horizon ends within it, or when every window contains a blocked night.
     """
@@ -432,8 +391,11 @@ def _laid(phases: list[Phase], start: int, works: Callable[[int], bool]) -> list
 
 
 def _cheapest(per_night: NDArray[np.float64], lengths: NDArray[np.int64], alternatives: int) -> list[Window]:
-    """The greedy choice of :func:`cheapest_windows` for a window of ``lengths[i]`` nights begun on night ``i``
-    (0: none begins there); an empty list when every window that fits holds a blocked night."""
+    """The greedy choice of :func:`cheapest_crew_windows` for a window of ``lengths[i]`` nights begun on night ``i``
+    (0: none begins there); an empty list when every window that fits holds a blocked night.
+
+    Sums from one cumulative sum, ``C[i + lengths[i]] - C[i]``; blocked (infinite) nights are counted by a second
+    cumulative sum, so a window holding one is never chosen and the infinities never enter the subtraction."""
     starts = np.arange(per_night.size)
     ends = starts + lengths
     fits = (lengths > 0) & (ends <= per_night.size)

@@ -164,7 +164,6 @@ COLUMNS = tuple(c.name for c in COLUMN_SPECS)
 #: The columns a telescope's row may leave to the site's row of the same night.
 FROM_SITE = tuple(c.name for c in COLUMN_SPECS if c.from_site)
 REQUIRED = tuple(c.name for c in COLUMN_SPECS if c.required)
-OPTIONAL = tuple(c.name for c in COLUMN_SPECS if not c.required)
 
 
 #: What a nights file must hold, in words that follow "it must hold" (the upload form says it of an empty file too).
@@ -238,12 +237,11 @@ class Problem(tuple):
 
 
 class RowError(ValueError):
-    """The problems of one record: ``problems`` lists (field, message); ``field`` is the first field."""
+    """A problem of one value of a record (``_checked`` gathers them all); ``field`` names its field."""
 
-    def __init__(self, field: str | None, message: str, problems: list[tuple[str | None, str]] | None = None):
+    def __init__(self, field: str | None, message: str):
         super().__init__(message)
         self.field = field
-        self.problems = problems or [(field, message)]
 
 
 class FileError(ValueError):
@@ -490,24 +488,6 @@ def _checked(
         except RowError as exc:
             problems.append((exc.field, str(exc)))
     return values, problems
-
-
-def parse_row(
-    record: Mapping[str, object], latest_night: dt.date, telescopes: Sequence[str] = (), as_json: bool = False
-) -> dict:
-    """Check one record and return the NightUsage values of the columns it gives.
-
-    A record is a CSV row (every value a string) or a JSON object (strings, numbers, booleans, null);
-    the rules are the same: a blank cell and null both mean the column's blank value (``Column.blank_of``: on
-    a telescope's night, None for a counter or PM10: the site's figure of that night), whole-number
-    columns take no fractions (4.0 is 4), ``dew`` and ``rain`` take yes/no, 1/0, true/false or a JSON
-    boolean, ``telescope`` one of ``telescopes`` (the site's telescope names). Raises RowError listing
-    every problem (``field`` names the first); ``as_json`` words them for a JSON object.
-    """
-    values, problems = _checked(record, latest_night, telescopes, as_json)
-    if problems:
-        raise RowError(problems[0][0], "; ".join(message for _, message in problems), problems)
-    return values
 
 
 def parse_objects(records: Sequence[object], latest_night: dt.date, telescopes: Sequence[str] = ()) -> ParsedNights:

@@ -284,7 +284,8 @@ def nights_ingest(
 ) -> ImportReport:
     """Store nights sent by control software as JSON objects (keys: the CSV column names) for one site.
 
-    The same rules as the CSV import (``nights_csv.parse_row``); every problem of every bad object is
+    The same rules as the CSV import (``nights_csv.ParsedNights.add``, which checks each record for both
+    ``nights_csv.parse`` and ``nights_csv.parse_objects``); every problem of every bad object is
     reported with its list index and field (``Problem.field``), and one bad object means nothing is
     stored. An object is the whole site's night, or one telescope's (``telescope``: the name of one of the
     site's telescopes). Idempotent per site, telescope and night: a night sent again with the same figures
