@@ -28,7 +28,7 @@ def test_a_site_named_as_another_but_for_capitals_is_refused(site):
     with pytest.raises(ValidationError) as refused:
         twin.full_clean()
     assert refused.value.message_dict["name"] == [
-        "Name 'test hill' is another site's, 'Test Hill', but for capitals or spaces: the lists and choices would "
+        "Name 'test hill' is another site's, 'Test Hill' (capitals and spaces aside): the lists and choices would "
         "show the two alike. Give this site a name of its own."
     ]
     site.full_clean()  # its own name is no twin of itself
@@ -40,7 +40,8 @@ def test_a_subsystem_named_as_another_in_service_is_refused_and_a_retired_ones_n
     with pytest.raises(ValidationError) as refused:
         twin.full_clean()
     assert refused.value.message_dict["name"][0].startswith(
-        "Name 'azimuth drive' is another subsystem's in service on this telescope, 'Azimuth drive'")
+        "Name 'azimuth drive' is another subsystem's in service on this telescope, 'Azimuth drive' (capitals and "
+        "spaces aside)")
     drive.retired_on = START + dt.timedelta(days=30)
     drive.save()
     twin.full_clean()  # its replacement
@@ -53,7 +54,7 @@ def test_an_active_plan_named_as_another_of_its_subsystem_is_refused(telescope):
     with pytest.raises(ValidationError) as refused:
         twin.full_clean()
     assert refused.value.message_dict["name"] == [
-        f"{plan.name!r} is already an active plan of this subsystem, but for capitals or spaces: change that plan, "
+        f"{plan.name!r} is already an active plan of this subsystem (capitals and spaces aside): change that plan, "
         "or give this one a name of its own."
     ]
     twin.active = False  # a plan kept, not counted, does not crowd the due list

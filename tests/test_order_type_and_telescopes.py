@@ -120,8 +120,11 @@ def test_a_hazard_given_by_hand_concerns_every_telescope_of_the_order(site, tele
 
 def _orders(site, telescope, users, count: int) -> None:
     other = Telescope.objects.get_or_create(site=site, name="R40", defaults={"aperture_m": 0.4, "mount": "fork"})[0]
-    here = subsystem_create(telescope, "cooling_fans", "Fans", counting_from=START)
-    there = subsystem_create(other, "cooling_fans", "Fans", counting_from=START)
+    # Called again, it adds orders over the same fans (a second "Fans" on a telescope is refused).
+    here, there = (telescope.subsystems.filter(name="Fans").first()
+                   or subsystem_create(telescope, "cooling_fans", "Fans", counting_from=START),
+                   other.subsystems.filter(name="Fans").first()
+                   or subsystem_create(other, "cooling_fans", "Fans", counting_from=START))
     for _ in range(count):
         services.work_order_ad_hoc(site, [here], "Fans of T1", users["engineer"], steps="Look.")
         services.work_order_ad_hoc(site, [here, there], "Fans of both", users["engineer"], steps="Look.")

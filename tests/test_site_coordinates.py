@@ -45,7 +45,9 @@ def test_the_gap_between_a_longitude_and_its_zone_by_hand(longitude, zone, gap, 
 
 
 def _site(longitude: float, zone: str) -> Site:
-    return Site(name="Mesa Alta", slug="mesa-alta", latitude_deg=38.9, longitude_deg=longitude, time_zone=zone)
+    """A site at 38.9 degrees from the equator, on its zone's side of it (Pacific/Auckland's: south)."""
+    latitude = -38.9 if zone.startswith(("Pacific/Auckland", "Australia/")) else 38.9
+    return Site(name="Mesa Alta", slug="mesa-alta", latitude_deg=latitude, longitude_deg=longitude, time_zone=zone)
 
 
 @pytest.mark.parametrize(
@@ -125,3 +127,46 @@ def test_pages_write_a_position_with_north_south_and_east_west(users, client, si
                         time_zone="Asia/Karachi")
     home = _text(client.get("/"))
     assert "40.000° N, 3.000° W" in home and "30.250° S, 70.500° E" in home
+
+
+# --- a latitude in the other hemisphere from its time zone ---------------------------------------------------------
+# The latitudes of the places zones are named after are the IANA time zone database's zone.tab (Australia/Perth
+# -3157 = 31 deg 57 min S; America/Los_Angeles +340308 = 34 deg 03 min 08 s N; Pacific/Auckland -3652 = 36 deg 52 min
+# S; America/Guayaquil -0210 = 2 deg 10 min S). A site review saved 29.843 N with Australia/Perth.
+
+
+def test_the_zone_tables_latitudes_are_read_as_iso_6709():
+    from observatory_ops.calc.night_of import zone_reference_latitude
+
+    assert zone_reference_latitude("Australia/Perth") == pytest.approx(-(31 + 57 / 60))
+    assert zone_reference_latitude("America/Los_Angeles") == pytest.approx(34 + 3 / 60 + 8 / 3600)
+    assert zone_reference_latitude("UTC") is None and zone_reference_latitude("Etc/GMT+5") is None
+
+
+def _salt_pan(latitude, longitude, zone) -> Site:
+    return Site(name="Salt Pan Rise", slug="salt-pan-rise", latitude_deg=latitude, longitude_deg=longitude,
+                elevation_m=400, time_zone=zone)
+
+
+@pytest.mark.parametrize(("latitude", "longitude", "zone"), [
+    (29.843, 116.512, "Australia/Perth"),  # the minus sign left out
+    (-29.843, -116.512, "America/Los_Angeles"),  # both signs flipped: the longitude alone agrees with the zone
+    (40.5, 174.8, "Pacific/Auckland"),
+])
+def test_a_latitude_in_the_other_hemisphere_from_its_zone_is_refused_naming_the_other_sign(
+    db, latitude, longitude, zone
+):
+    with pytest.raises(ValidationError) as refused:
+        _salt_pan(latitude, longitude, zone).full_clean()
+    error = refused.value.message_dict["latitude_deg"][0]
+    assert "is in the other hemisphere from" in error and f"({-latitude:g})?" in error
+
+
+@pytest.mark.parametrize(("latitude", "longitude", "zone"), [
+    (-29.843, 116.512, "Australia/Perth"),
+    (34.2, -116.9, "America/Los_Angeles"),
+    (1.2, -78.5, "America/Guayaquil"),  # near the equator nothing is compared
+    (29.843, 0.0, "UTC"),  # a zone named after no place
+])
+def test_a_latitude_on_its_zones_side_or_near_the_equator_is_kept(db, latitude, longitude, zone):
+    _salt_pan(latitude, longitude, zone).full_clean()

@@ -2,7 +2,10 @@
 from __future__ import annotations
 
 import datetime as dt
+import functools
+import os
 import zoneinfo
+from importlib import resources
 
 _NOON = dt.time(12, 0)
 
@@ -73,6 +76,48 @@ def zone_gap_h(longitude_deg: float, zone_name: str, year: int) -> tuple[float, 
     solar_h = longitude_deg / 15.0
     gaps = [((offset - solar_h + 12.0) % 24.0 - 12.0, offset) for offset in zone_offsets_h(zone_name, year)]
     return min(gaps, key=lambda gap: abs(gap[0]))
+
+
+def zone_reference_latitude(zone_name: str) -> float | None:
+    """The latitude, in degrees (north positive), of the place a time zone is named after, as the IANA time zone
+    database's ``zone.tab`` gives it (its second column, ISO 6709 ``+-DDMM`` or ``+-DDMMSS``); None for a zone without
+    a line there (UTC, Etc/GMT-3) or where no ``zone.tab`` is installed (the system's zoneinfo directories, then the
+    ``tzdata`` package)."""
+    return _zone_table().get(zone_name)
+
+
+@functools.cache
+def _zone_table() -> dict[str, float]:
+    """zone name -> latitude of its ``zone.tab`` line, from the first ``zone.tab`` found; read once."""
+    for text in _zone_tab_texts():
+        rows = [line.split("\t") for line in text.splitlines() if line and not line.startswith("#")]
+        table = {fields[2]: _iso6709_latitude(fields[1]) for fields in rows if len(fields) >= 3}
+        if table:
+            return table
+    return {}
+
+
+def _zone_tab_texts():
+    for directory in zoneinfo.TZPATH:
+        try:
+            with open(os.path.join(directory, "zone.tab"), encoding="utf-8") as file:
+                yield file.read()
+        except OSError:
+            continue
+    try:
+        yield resources.files("tzdata").joinpath("zoneinfo", "zone.tab").read_text(encoding="utf-8")
+    except (ImportError, OSError):
+        return
+
+
+def _iso6709_latitude(coordinates: str) -> float:
+    """The latitude of a zone.tab position, ``-3157+11551`` (31 deg 57 min south) or ``+340308-1181434``."""
+    split = max(coordinates.rfind("+"), coordinates.rfind("-"))
+    latitude = coordinates[:split]
+    sign = -1.0 if latitude[0] == "-" else 1.0
+    digits = latitude[1:]
+    degrees, minutes, seconds = int(digits[:2]), int(digits[2:4]), int(digits[4:6] or 0)
+    return sign * (degrees + minutes / 60 + seconds / 3600)
 
 
 def zone_offsets_h(zone_name: str, year: int) -> tuple[float, float]:

@@ -106,8 +106,8 @@ class ServicePlan(models.Model):
             others = (ServicePlan.objects.filter(subsystem_id=self.subsystem_id, active=True).exclude(pk=self.pk)
                       .values_list("name", flat=True))
             if (alike := name_alike(self.name, others)) is not None:
-                errors["name"] = (f"{alike!r} is already an active plan of this subsystem, but for capitals or "
-                                  "spaces: change that plan, or give this one a name of its own.")
+                errors["name"] = (f"{alike!r} is already an active plan of this subsystem (capitals and spaces "
+                                  "aside): change that plan, or give this one a name of its own.")
         if errors:
             raise ValidationError(errors)
 

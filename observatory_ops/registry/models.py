@@ -15,6 +15,11 @@ from observatory_ops.calc import night_of, windows
 
 from .catalogue import KIND_CHOICES, KINDS
 
+#: How far from the equator both a site and its time zone's named place must be before their hemispheres are compared
+#: (``Site._clean_latitude_against_zone``): a zone may reach a little across the equator (Ecuador, Kenya, Indonesia).
+#: Our own margin, no published source.
+ZONE_HEMISPHERE_MIN_DEG = 15.0
+
 
 def name_key(name: str) -> str:
     """A name as the register compares names: capitals and surrounding spaces aside ("Azimuth drive " is
@@ -171,7 +176,8 @@ class Site(models.Model):
     def clean(self) -> None:
         text_newlines_normalised(self)
         errors: dict[str, list[str]] = {}  # each field's refusal, so one does not hide the other
-        for check in (self._clean_longitude_against_zone, self._clean_slug_kept, self._clean_name_unlike_the_others):
+        for check in (self._clean_longitude_against_zone, self._clean_latitude_against_zone, self._clean_slug_kept,
+                      self._clean_name_unlike_the_others):
             try:
                 check()
             except ValidationError as refused:
@@ -188,7 +194,7 @@ class Site(models.Model):
         others = Site.objects.exclude(pk=self.pk).values_list("name", flat=True)
         if (alike := name_alike(self.name, others)) is not None:
             raise ValidationError({"name": (
-                f"Name {self.name.strip()!r} is another site's, {alike!r}, but for capitals or spaces: the lists and "
+                f"Name {self.name.strip()!r} is another site's, {alike!r} (capitals and spaces aside): the lists and "
                 "choices would show the two alike. Give this site a name of its own."
             )})
 
@@ -235,6 +241,25 @@ class Site(models.Model):
             f"Longitude {longitude_text(self.longitude_deg)} ({self.longitude_deg:g}) has its mean solar time at "
             f"UTC{solar:+.1f} h, but {self.time_zone} keeps {kept}: more than {MAX_ZONE_GAP_H:g} hours apart, "
             f"farther than a time zone is from the places that keep it. {hint}"
+        )})
+
+    def _clean_latitude_against_zone(self) -> None:
+        """Refuse a latitude in the other hemisphere from the place its time zone is named after
+        (``calc.night_of.zone_reference_latitude``), both at least ``ZONE_HEMISPHERE_MIN_DEG`` from the equator: most
+        often one typed without its minus sign, which turns every season of dark hours round (a site review saved
+        29.8 N with Australia/Perth). Near the equator, where a zone may reach across it, nothing is checked."""
+        if self.latitude_deg is None or not self.time_zone:
+            return
+        reference = night_of.zone_reference_latitude(self.time_zone)
+        if reference is None or min(abs(reference), abs(self.latitude_deg)) < ZONE_HEMISPHERE_MIN_DEG:
+            return
+        if (reference > 0) == (self.latitude_deg > 0):
+            return
+        raise ValidationError({"latitude_deg": (
+            f"Latitude {latitude_text(self.latitude_deg)} ({self.latitude_deg:g}) is in the other hemisphere from "
+            f"{self.time_zone} (the time zone database places it at {latitude_text(reference)}). North is positive "
+            f"and south negative: is it {latitude_text(-self.latitude_deg)} ({-self.latitude_deg:g})? Otherwise "
+            "check the time zone."
         )})
 
     @property
@@ -344,10 +369,6 @@ class Telescope(models.Model):
                 "spaces: nights sent by the CSV or the API name their telescope ignoring those, so they could go to "
                 "the wrong one. Give this telescope a name of its own."
             )})
-
-    @property
-    def equatorial(self) -> bool:
-        return self.mount != self.Mount.ALT_AZ
 
 
 #: The earliest "in service since" date taken as typed; an earlier one is a slip of the keyboard.
@@ -505,8 +526,8 @@ class Subsystem(models.Model):
                   .exclude(pk=self.pk).values_list("name", flat=True))
         if (alike := name_alike(self.name, others)) is not None:
             raise ValidationError({"name": (
-                f"Name {self.name.strip()!r} is another subsystem's in service on this telescope, {alike!r}, but for "
-                "capitals or spaces: the pages and the work-order choices would list the two alike. Give it a name of "
+                f"Name {self.name.strip()!r} is another subsystem's in service on this telescope, {alike!r} (capitals "
+                "and spaces aside): the pages and the work-order choices would list the two alike. Give it a name of "
                 "its own; if it replaces that one, retire that one first."
             )})
 
