@@ -194,8 +194,9 @@ def test_the_dashboard_shows_the_newest_night_of_each_log(two_telescopes, users,
     panel = page[page.index("Last logged night"):]
     panel = panel[:panel.index("</div>", panel.index("Nightly log"))]
     assert panel.index("Whole site: <strong>Sun 14 Jun 2026</strong>: 4.0 h open") < panel.index(
-        "North: <strong>Sun 14 Jun 2026</strong>: 8.0 h open") < panel.index(
-        "South: <strong>Wed 10 Jun 2026</strong>: 2.5 h open")
+        "North's own: <strong>Sun 14 Jun 2026</strong>: 8.0 h open<br>") < panel.index(
+        "South's own: <strong>Wed 10 Jun 2026</strong>: 2.5 h open <span class=\"muted\">(the whole site's "
+        "nights to Sun 14 Jun 2026 counted for it after that)</span>")
 
 
 def test_a_telescope_with_nights_of_its_own_stays_at_its_site(two_telescopes):
@@ -325,7 +326,7 @@ def test_each_forecast_says_what_its_log_is_made_of(two_telescopes):
     north = PlanStatus.objects.get(plan=plans["North"]).basis
     south = PlanStatus.objects.get(plan=plans["South"]).basis
     assert "this telescope's log: its own nights on 165 of 365 logged nights, the whole site's on the rest" in north
-    assert "the whole site's nights: this telescope sends none of its own" in south
+    assert "the whole site's nights (those sent for the site, not for one telescope)" in south
 
 
 def test_a_telescope_with_no_nights_at_a_site_logging_per_telescope_is_told_so(two_telescopes):

@@ -38,15 +38,22 @@ def reading_already_logged(subsystem, by, quantity: str, value: float, taken_at:
 
 def last_nights(site: Site) -> list[NightUsage]:
     """The newest logged night of each of the site's logs: the site's own rows first, then each telescope that sends
-    nights of its own, by name (a telescope's log also counts the site's rows: ``planning.services.UsageLog``)."""
+    nights of its own, by name (a telescope's log also counts the site's rows: ``planning.services.UsageLog``), each
+    telescope's with ``site_counted_to``: the site's newest night when it is later, counted for the telescope too."""
     newest = NightUsage.objects.filter(site=site).order_by().values("telescope").annotate(last=Max("night"))
     which = Q(pk__in=[])
     for row in newest:
         which |= Q(telescope=row["telescope"], night=row["last"])
-    return list(
+    rows = list(
         NightUsage.objects.filter(which, site=site).select_related("telescope")
         .order_by(F("telescope__name").asc(nulls_first=True))
     )
+    # A telescope's own newest night may be older than the site's, whose later rows its log counts: said beside it
+    # (a site review read "K36: Thu 03 Dec" as K36's last night counted, where the site's 04 Dec was).
+    site_newest = next((row.night for row in rows if row.telescope_id is None), None)
+    for row in rows:
+        row.site_counted_to = site_newest if row.telescope_id and site_newest and site_newest > row.night else None
+    return rows
 
 
 #: How much longer than the night (sunset to sunrise) open hours may be before they are questioned: a dome is opened

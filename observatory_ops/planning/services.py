@@ -201,7 +201,7 @@ class UsageLog:
         if not len(self.nights):
             return ("no night logged for this telescope nor for the whole site: nothing is counted for it until its "
                     "own nights or the whole site's are sent")
-        return "the whole site's nights: this telescope sends none of its own"
+        return "the whole site's nights (those sent for the site, not for one telescope)"
 
     @classmethod
     def of_site(cls, site: Site) -> dict[int | None, UsageLog]:
