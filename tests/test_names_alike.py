@@ -70,3 +70,20 @@ def test_an_isolation_point_registered_twice_is_refused(telescope):
     ]
     dome = subsystem_create(telescope, "enclosure", "Dome", counting_from=START)
     IsolationPoint(telescope=telescope, subsystem=dome, energy="ac", label="Mount isolator").full_clean()
+
+
+def test_a_record_stored_beside_a_twin_before_the_check_is_still_saved_by_an_edit_of_its_other_fields(telescope):
+    """Refused only when the name (or what scopes it) is new or changed: records stored beside a twin before the
+    check existed are edited as before, and say nothing until renamed."""
+    first = subsystem_create(telescope, "axis1_drive", "Azimuth drive", counting_from=START)
+    Subsystem.objects.filter(pk=first.pk).update(name="Spare")
+    twin = subsystem_create(telescope, "axis1_drive", "Azimuth drive", counting_from=START)
+    Subsystem.objects.filter(pk=first.pk).update(name="Azimuth drive")  # as stored before the check
+    first.refresh_from_db()
+    first.serial_number = "AZ-0042"
+    first.full_clean()
+    subsystem_create(telescope, "brake", "Axis 1 brake", counting_from=START)
+    first.name = "axis 1 BRAKE"  # renamed: the check runs
+    with pytest.raises(ValidationError):
+        first.full_clean()
+    assert twin.pk != first.pk

@@ -21,7 +21,7 @@ from observatory_ops.logbook.quantities import (
     value_problem,
 )
 from observatory_ops.registry.catalogue import KINDS
-from observatory_ops.registry.models import Site, Subsystem, name_alike, text_newlines_normalised
+from observatory_ops.registry.models import Site, Subsystem, name_alike, named_anew, text_newlines_normalised
 
 from .metrics import MAX_LIMIT, METRIC_CHOICES, METRICS, READING, RECOAT_LINE
 
@@ -101,7 +101,7 @@ class ServicePlan(models.Model):
         problem = self._counting_from_problem()
         if problem:
             errors["counting_from"] = problem
-        if self.subsystem_id and self.name and self.active:
+        if self.subsystem_id and self.name and self.active and named_anew(self, "name", "subsystem_id", "active"):
             # Two active plans alike would be two due lines and two orders for one task (a site review added three).
             others = (ServicePlan.objects.filter(subsystem_id=self.subsystem_id, active=True).exclude(pk=self.pk)
                       .values_list("name", flat=True))

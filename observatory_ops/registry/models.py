@@ -33,6 +33,19 @@ def name_alike(name: str, others) -> str | None:
     return next((other for other in others if name_key(other) == wanted), None)
 
 
+def named_anew(record: models.Model, *fields: str) -> bool:
+    """Whether the names-alike check of ``record`` runs: it is new, or one of ``fields`` (its name and what scopes the
+    name: its telescope, its subsystem) differs from the stored record's, capitals and spaces aside. A record stored
+    beside a twin before the check existed is then still saved by an edit of its other fields."""
+    if record.pk is None:
+        return True
+    stored = type(record).objects.filter(pk=record.pk).values(*fields).first()
+    if stored is None:
+        return True
+    return any(name_key(value) != name_key(getattr(record, field)) if isinstance(value, str)
+               else value != getattr(record, field) for field, value in stored.items())
+
+
 def validate_one_line(value: str) -> None:
     """A name that heads a mail's subject and a page's title: one line, no control characters (a line break in a
     subject makes the mail library refuse the whole message)."""
@@ -189,7 +202,7 @@ class Site(models.Model):
         """Refuse the name of another site but for capitals or spaces: the site list, the due list's filter and the
         choices that name records with their site would show two alike (a site review added "vestal ridge
         observatory" beside "Vestal Ridge Observatory")."""
-        if not self.name:
+        if not self.name or not named_anew(self, "name"):
             return
         others = Site.objects.exclude(pk=self.pk).values_list("name", flat=True)
         if (alike := name_alike(self.name, others)) is not None:
@@ -450,7 +463,7 @@ class Subsystem(models.Model):
             stored = Subsystem.objects.filter(pk=self.pk).values_list("telescope_id", "telescope__site_id").first()
             if stored is not None and stored[0] != self.telescope_id:
                 self._clean_telescope_kept(moves_site=stored[1] != self.telescope.site_id)
-        if self.telescope_id and self.name and not self.retired_on:
+        if self.telescope_id and self.name and not self.retired_on and named_anew(self, "name", "telescope_id"):
             self._clean_name_unlike_the_others()
         if self.in_service_since:
             self._clean_in_service_since()

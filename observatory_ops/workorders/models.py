@@ -12,7 +12,7 @@ from django.urls import reverse
 from simple_history.models import HistoricalRecords
 
 from observatory_ops.logbook.quantities import QUANTITIES, QUANTITY_CHOICES
-from observatory_ops.registry.models import Site, Subsystem, Telescope, name_alike
+from observatory_ops.registry.models import Site, Subsystem, Telescope, name_alike, named_anew
 
 
 class State(models.TextChoices):
@@ -518,7 +518,7 @@ class IsolationPoint(models.Model):
     def clean(self) -> None:
         if self.subsystem_id and self.telescope_id and self.subsystem.telescope_id != self.telescope_id:
             raise ValidationError({"subsystem": "The subsystem must belong to the point's telescope."})
-        if self.telescope_id and self.label:
+        if self.telescope_id and self.label and named_anew(self, "label", "telescope_id", "subsystem_id"):
             # The lockout step and the paper would list the point twice, to lock twice (a site review).
             others = (IsolationPoint.objects.filter(telescope_id=self.telescope_id, subsystem_id=self.subsystem_id)
                       .exclude(pk=self.pk).values_list("label", flat=True))
