@@ -1,7 +1,8 @@
 """Two records of the register named alike but for capitals or surrounding spaces are refused where the pages, the
-choices and the lockout would list both as one name (a site review added "vestal ridge observatory" beside "Vestal
-Ridge Observatory", "azimuth drive " beside "Azimuth drive", three plans "Grease roof rails" on one roof and one
-isolator twice). The rule is our own, as the telescope's and the part's names already had it."""
+choices and the lockout would list both as one name, and two triggers of one plan watching the same thing the same
+way (a site review added "vestal ridge observatory" beside "Vestal Ridge Observatory", "azimuth drive " beside
+"Azimuth drive", three plans "Grease roof rails" on one roof, one isolator twice and two dust-weighted limits on one
+plan). The rule is our own, as the telescope's and the part's names already had it."""
 from __future__ import annotations
 
 import datetime as dt
@@ -87,3 +88,32 @@ def test_a_record_stored_beside_a_twin_before_the_check_is_still_saved_by_an_edi
     with pytest.raises(ValidationError):
         first.full_clean()
     assert twin.pk != first.pk
+
+
+def test_two_triggers_watching_the_same_thing_the_same_way_are_refused(telescope, users, client):
+    """Whichever comes first makes the lower limit govern: a second dust-weighted limit on one plan is never read.
+    Two readings of one quantity toward opposite sides (a band) stay allowed."""
+    from observatory_ops.registry.services import subsystem_create as create
+
+    users["engineer"].is_staff = True
+    users["engineer"].save()
+    client.force_login(users["engineer"])
+    fans = create(telescope, "other", "Roof rails", counting_from=START, no_hazards_found=True)
+    rows = [("dust_hours", "300", "", "above"), ("dust_hours", "200", "", "above")]
+    data = {
+        "subsystem": fans.pk, "name": "Grease roof rails", "task": "", "steps_powered": "", "steps": "",
+        "steps_restore": "", "tools": "", "parts": "", "readings": "[]", "estimated_hours": "1",
+        "dust_sensitivity": "1", "basis": "", "active": "on", "counting_from": START.isoformat(),
+        "triggers-TOTAL_FORMS": str(len(rows)), "triggers-INITIAL_FORMS": "0", "triggers-MIN_NUM_FORMS": "0",
+        "triggers-MAX_NUM_FORMS": "1000",
+    }
+    for i, (metric, limit, quantity, direction) in enumerate(rows):
+        data.update({f"triggers-{i}-metric": metric, f"triggers-{i}-limit": limit,
+                     f"triggers-{i}-quantity": quantity, f"triggers-{i}-direction": direction})
+    response = client.post("/admin/planning/serviceplan/add/", data)
+    assert response.status_code == 200
+    errors = " ".join(response.context["inline_admin_formsets"][0].formset.non_form_errors())
+    assert errors.startswith("Two triggers watch dust-weighted") and "limits 300 and 200" in errors
+    assert not ServicePlan.objects.filter(name="Grease roof rails").exists()
+    data["triggers-1-metric"] = "calendar_days"
+    assert client.post("/admin/planning/serviceplan/add/", data).status_code == 302

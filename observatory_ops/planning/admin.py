@@ -85,6 +85,27 @@ class TriggerFormSet(BaseInlineFormSet):
             self.validate_min, self.min_num = False, 0
         super().full_clean()
 
+    def clean(self):
+        """Two rows counting the same thing toward the same side (two dust-weighted limits, 300 h and 200 h) are
+        refused: whichever comes first makes the lower one govern and the other never does, so one of them was
+        meant as something else (a site review saved such a plan unasked)."""
+        super().clean()
+        seen = {}
+        for form in self.forms:
+            data = getattr(form, "cleaned_data", None)
+            if not data or data.get("DELETE") or not data.get("metric"):
+                continue
+            key = (data["metric"], data.get("quantity") or "", data.get("direction"))
+            if key in seen:
+                trigger = Trigger(metric=data["metric"], quantity=data.get("quantity") or "")
+                what = (QUANTITIES[trigger.quantity][0] if trigger.quantity in QUANTITIES
+                        else trigger.get_metric_display())
+                raise forms.ValidationError(
+                    f"Two triggers watch {what.lower()} the same way (limits {seen[key]:g} and {data.get('limit'):g}): "
+                    "the first reached always governs, so the other never does. Keep one."
+                )
+            seen[key] = data.get("limit") or 0
+
 
 class TriggerInline(admin.TabularInline):
     model = Trigger
