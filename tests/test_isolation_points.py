@@ -75,6 +75,23 @@ def test_a_brakes_own_air_valve_answers_its_compressed_air(telescope, users):
         "isolation point" not in why for why in selectors.moves_held(order)["issue"])
 
 
+def test_one_brakes_own_air_valve_does_not_answer_for_the_other_brakes_air(telescope, users):
+    """A diff review: with the Axis 1 brake's valve registered, an order over both brakes listed that valve alone and
+    warned of nothing, the Axis 2 brake's air left live. Each subsystem carrying the hazard needs its own point, or
+    the telescope one for its whole supply."""
+    IsolationPoint.objects.create(telescope=telescope, energy="ac", label="Mount isolator")
+    first = subsystem_create(telescope, "brake", "Axis 1 brake", counting_from=START)
+    second = subsystem_create(telescope, "brake", "Axis 2 brake", counting_from=START)
+    IsolationPoint.objects.create(telescope=telescope, subsystem=first, energy="air", label="Axis 1 brake air valve")
+    both = services.work_order_from_due([*first.plans.all(), *second.plans.all()], users["engineer"])
+    gaps = [gap for gap in selectors.isolation_gaps(both) if "compressed-air" in gap]
+    assert gaps == [f"No compressed-air isolation point is registered for {telescope.name}, nor for Axis 2 brake. "
+                    "Have an engineer add one to the register before work; if the work is already underway, find and "
+                    "lock the supply before going on."]
+    IsolationPoint.objects.create(telescope=telescope, energy="air", label="Compressor outlet valve")
+    assert not [gap for gap in selectors.isolation_gaps(both) if "compressed-air" in gap]  # the whole supply
+
+
 def test_a_point_for_a_subsystem_of_another_telescope_is_refused(dome, site):
     other = Telescope.objects.create(site=site, name="West", aperture_m=0.4, mount="fork")
     with pytest.raises(ValidationError, match="must belong to the point's telescope"):

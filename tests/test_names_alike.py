@@ -48,6 +48,18 @@ def test_a_subsystem_named_as_another_in_service_is_refused_and_a_retired_ones_n
     twin.full_clean()  # its replacement
 
 
+def test_parts_of_two_parents_may_share_a_name_and_siblings_may_not(telescope):
+    """A diff review: "Encoder" of each axis drive is a usual way to name parts."""
+    first = subsystem_create(telescope, "axis1_drive", "Axis 1 drive", counting_from=START)
+    second = subsystem_create(telescope, "axis2_drive", "Axis 2 drive", counting_from=START)
+    subsystem_create(telescope, "other", "Encoder", counting_from=START, parent=first, no_hazards_found=True)
+    subsystem_create(telescope, "other", "Encoder", counting_from=START, parent=second, no_hazards_found=True)
+    twin = Subsystem(telescope=telescope, kind="other", name="encoder", parent=first, no_hazards_found=True)
+    with pytest.raises(ValidationError) as refused:
+        twin.full_clean()
+    assert "is another subsystem's in service under Axis 1 drive, 'Encoder'" in refused.value.message_dict["name"][0]
+
+
 def test_an_active_plan_named_as_another_of_its_subsystem_is_refused(telescope):
     drive = subsystem_create(telescope, "axis1_drive", "Azimuth drive", counting_from=START)
     plan = drive.plans.first()
@@ -67,10 +79,13 @@ def test_an_isolation_point_registered_twice_is_refused(telescope):
     with pytest.raises(ValidationError) as refused:
         IsolationPoint(telescope=telescope, energy="ac", label="mount isolator").full_clean()
     assert refused.value.message_dict["label"] == [
-        "'Mount isolator' is already registered here: the lockout would list the point twice. Edit that one."
+        "'Mount isolator' (AC mains) is already registered for this telescope: the lockout would list two points by "
+        "one name. If it is the same point, edit that one; if not, name this one apart (where it is, what it feeds)."
     ]
     dome = subsystem_create(telescope, "enclosure", "Dome", counting_from=START)
-    IsolationPoint(telescope=telescope, subsystem=dome, energy="ac", label="Mount isolator").full_clean()
+    with pytest.raises(ValidationError):  # the dome's order locks the telescope's too: the same name twice
+        IsolationPoint(telescope=telescope, subsystem=dome, energy="ac", label="Mount isolator").full_clean()
+    IsolationPoint(telescope=telescope, energy="dc", label="Mount isolator").full_clean()  # another energy
 
 
 def test_a_record_stored_beside_a_twin_before_the_check_is_still_saved_by_an_edit_of_its_other_fields(telescope):

@@ -263,14 +263,15 @@ def _coating_underway(recoat, users) -> WorkOrder:
 def test_the_strip_and_coat_is_not_finished_before_its_new_coating_is_logged(recoat, mirror, users, client):
     coating = _coating_underway(recoat, users)
     today = site_today(coating.site)
-    expected = (f"no new coating of Primary mirror is logged since it came out ({today:%d %b %Y}): log it on the "
-                "mirror's page (New coating, with its date and recipe) before finishing this order")
+    expected = (f"Primary mirror has no new coating logged: its newest logged coating is of 01 Aug 2025, before this "
+                f"recoat was planned or began ({today:%d %b %Y}). Log the new coating on the mirror's page (New "
+                "coating, with the day it was coated and its recipe) before finishing this order")
     with pytest.raises(services.Refused, match=re.escape(expected)):
         services.work_order_finish(coating, users["technician"], 8.0, "done", {}, **_confirmed(coating))
     assert _fresh(coating).state == State.UNDERWAY
     client.force_login(users["technician"])
     page = _text(client.get(f"/workorders/{coating.pk}/"))
-    assert "Not offered: Finish and record. No new coating of Primary mirror is logged" in page
+    assert "Not offered: Finish and record. Primary mirror has no new coating logged" in page
     assert f'href="/workorders/{coating.pk}/finish/"' not in client.get(f"/workorders/{coating.pk}/").content.decode()
     assert f'href="/mirrors/{mirror.pk}/" id="mirror-page"' in client.get(f"/workorders/{coating.pk}/").content.decode()
     response = client.get(f"/workorders/{coating.pk}/finish/")  # an old page or a typed address
@@ -281,11 +282,20 @@ def test_the_strip_and_coat_is_not_finished_before_its_new_coating_is_logged(rec
     ]
 
 
-def test_a_coating_logged_before_the_mirror_came_out_does_not_count(recoat, mirror, users):
+def test_a_coating_older_than_the_recoat_does_not_count_and_one_entered_late_with_its_true_date_does(
+    recoat, mirror, users
+):
+    """A diff review: the removal entered afterwards (finished on the day it was typed in) had made a coating logged
+    with its true, earlier date count for nothing, and a corrected removal date was never read. The coating the
+    recoat replaces is older than the plan made for it; the new one is not, whenever it is entered."""
     coating = _coating_underway(recoat, users)
-    yesterday = site_today(coating.site) - dt.timedelta(days=1)
-    mirror_services.coating_log(mirror, users["engineer"], yesterday, "al", [])
+    plan = coating.recoat_plans.get()
+    planned = site_today(coating.site)  # made today, for a window a week ahead (the fixture)
+    mirror_services.coating_log(mirror, users["engineer"], planned - dt.timedelta(days=1), "al", [])
     assert "finish" in selectors.moves_held(coating)
+    assert plan.starts_on > planned
+    mirror_services.coating_log(mirror, users["engineer"], planned, "al", [])
+    assert "finish" not in selectors.moves_held(_fresh(coating))
 
 
 def test_once_the_new_coating_is_logged_on_the_mirror_page_the_strip_and_coat_finishes(recoat, mirror, users, client):

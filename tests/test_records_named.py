@@ -53,7 +53,7 @@ def _text(response) -> str:
 
 
 def test_deleting_a_plan_names_its_due_state_and_counts_it(administrator_in_admin):
-    site = site_in_use("cerro-alto", kinds=("cooling_fans",))
+    site = site_in_use("tor-brae", kinds=("cooling_fans",))
     site_recompute(site)
     plan = ServicePlan.objects.get(subsystem__telescope__site=site, name="Replace fan filters")
     state = PlanStatus.objects.get(plan=plan)

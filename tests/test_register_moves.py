@@ -46,7 +46,7 @@ def engineer(engineer_in_admin):
 
 @pytest.fixture
 def sites(db):
-    return site_in_use("cerro-alto"), site_in_use("mesa-norte")
+    return site_in_use("tor-brae"), site_in_use("mesa-norte")
 
 
 @pytest.fixture
@@ -173,7 +173,7 @@ def test_a_telescope_with_nothing_recorded_moves_and_both_due_lists_are_right(en
     assert moved <= _states(old)
     response = _move_telescope(engineer, newcomer, new)
     assert response.status_code == 200 and "adminform" not in response.context
-    assert "Due states of Site cerro-alto and Site mesa-norte recomputed." in _messages(response)
+    assert "Due states of Site tor-brae and Site mesa-norte recomputed." in _messages(response)
     assert not moved & _states(old)
     assert moved <= _states(new)
     assert not {s.plan_id for s in due_for_site(old)} & moved
@@ -209,7 +209,7 @@ def test_a_subsystem_moves_to_another_sites_telescope_with_its_parts_and_isolati
     response = _move_subsystem(engineer, fans, target)
     assert "adminform" not in response.context
     assert "Moved with it to Site mesa-norte: T1 (0.6 m): Fan 2." in _messages(response)
-    assert "Due states of Site cerro-alto and Site mesa-norte recomputed." in _messages(response)
+    assert "Due states of Site tor-brae and Site mesa-norte recomputed." in _messages(response)
     part.refresh_from_db()
     point.refresh_from_db()
     assert (part.telescope_id, part.parent_id, point.telescope_id) == (target.pk, fans.pk, target.pk)
@@ -231,6 +231,19 @@ def test_a_subsystem_with_records_stays_on_its_telescope_at_the_same_site(engine
     assert "tick 'It was registered on the wrong telescope'" in error
     assert Subsystem.objects.get(pk=fans.pk).telescope_id == newcomer.pk
     assert _stored(old) == before
+
+
+def test_an_enclosure_all_the_telescopes_share_moves_with_its_records(engineer, sites, newcomer, users):
+    """A diff review: it counts the site's nights wherever it is registered (``serves_the_whole_site``), so moving
+    its record rewrites nothing and is not refused."""
+    old, _ = sites
+    old.shared_enclosure = True
+    old.save()
+    roof = subsystem_create(newcomer, "enclosure", "Roll-off roof", counting_from=site_today(old) - dt.timedelta(30))
+    service_record_log(roof, roof.plans.first(), site_today(old) - dt.timedelta(days=3), users["technician"], "rails")
+    response = _move_subsystem(engineer, roof, old.telescopes.get(name="T1"))
+    assert "adminform" not in response.context, response.context["adminform"].form.errors
+    assert Subsystem.objects.get(pk=roof.pk).telescope.name == "T1"
 
 
 def test_a_subsystem_registered_on_the_wrong_telescope_moves_with_its_records_when_said(

@@ -463,7 +463,8 @@ class Subsystem(models.Model):
             stored = Subsystem.objects.filter(pk=self.pk).values_list("telescope_id", "telescope__site_id").first()
             if stored is not None and stored[0] != self.telescope_id:
                 self._clean_telescope_kept(moves_site=stored[1] != self.telescope.site_id)
-        if self.telescope_id and self.name and not self.retired_on and named_anew(self, "name", "telescope_id"):
+        if (self.telescope_id and self.name and not self.retired_on
+                and named_anew(self, "name", "telescope_id", "parent_id")):
             self._clean_name_unlike_the_others()
         if self.in_service_since:
             self._clean_in_service_since()
@@ -520,7 +521,10 @@ class Subsystem(models.Model):
                 f"{whose} records at its site: {recorded}. They stay in that site's log and history, so it cannot "
                 "move to a telescope at another site. Register it there as a new subsystem, and retire this one."
             )})
-        if recorded and not getattr(self, "registered_on_wrong_telescope", False):
+        # An enclosure all the site's telescopes share counts the site's nights wherever it is registered
+        # (``serves_the_whole_site``): moved, it counts the same nights.
+        whole_site = is_shared_enclosure(self.telescope.site, self.kind)
+        if recorded and not whole_site and not getattr(self, "registered_on_wrong_telescope", False):
             raise ValidationError({"telescope": (
                 f"{whose} records on {self._stored_telescope_name()}: {recorded}. Its counters since its last "
                 "service count that telescope's nights; moved, they would count the other telescope's nights back "
@@ -532,14 +536,17 @@ class Subsystem(models.Model):
             )})
 
     def _clean_name_unlike_the_others(self) -> None:
-        """Refuse the name of another subsystem in service on the telescope but for capitals or spaces: the pages,
-        the due list and the work-order choices would list two alike, each with plans of its own (a site review added
-        "azimuth drive " beside "Azimuth drive"). A retired one's name may be taken again by its replacement."""
-        others = (Subsystem.objects.filter(telescope_id=self.telescope_id, retired_on__isnull=True)
+        """Refuse the name of another subsystem in service on the telescope under the same parent (or none) but for
+        capitals or spaces: the pages, the due list and the work-order choices would list two alike, each with plans
+        of its own (a site review added "azimuth drive " beside "Azimuth drive"). Parts of two parents may share a
+        name ("Encoder" of each axis drive); a retired one's name may be taken again by its replacement."""
+        others = (Subsystem.objects.filter(telescope_id=self.telescope_id, parent_id=self.parent_id,
+                                           retired_on__isnull=True)
                   .exclude(pk=self.pk).values_list("name", flat=True))
         if (alike := name_alike(self.name, others)) is not None:
+            where = f"under {self.parent.name}" if self.parent_id else "on this telescope"
             raise ValidationError({"name": (
-                f"Name {self.name.strip()!r} is another subsystem's in service on this telescope, {alike!r} (capitals "
+                f"Name {self.name.strip()!r} is another subsystem's in service {where}, {alike!r} (capitals "
                 "and spaces aside): the pages and the work-order choices would list the two alike. Give it a name of "
                 "its own; if it replaces that one, retire that one first."
             )})

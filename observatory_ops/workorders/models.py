@@ -518,13 +518,18 @@ class IsolationPoint(models.Model):
     def clean(self) -> None:
         if self.subsystem_id and self.telescope_id and self.subsystem.telescope_id != self.telescope_id:
             raise ValidationError({"subsystem": "The subsystem must belong to the point's telescope."})
-        if self.telescope_id and self.label and named_anew(self, "label", "telescope_id", "subsystem_id"):
-            # The lockout step and the paper would list the point twice, to lock twice (a site review).
-            others = (IsolationPoint.objects.filter(telescope_id=self.telescope_id, subsystem_id=self.subsystem_id)
+        if self.telescope_id and self.label and named_anew(self, "label", "telescope_id", "subsystem_id", "energy"):
+            # Two points of one energy by one name where one order locks both (the same subsystem's, or one of them
+            # the whole telescope's): the lockout would list the name twice, and which is which is left to the crew
+            # at the panel (a site review registered one isolator twice).
+            scope = models.Q(subsystem__isnull=True) | models.Q(subsystem_id=self.subsystem_id)
+            others = (IsolationPoint.objects.filter(scope, telescope_id=self.telescope_id, energy=self.energy)
                       .exclude(pk=self.pk).values_list("label", flat=True))
             if (alike := name_alike(self.label, others)) is not None:
                 raise ValidationError({"label": (
-                    f"{alike!r} is already registered here: the lockout would list the point twice. Edit that one."
+                    f"{alike!r} ({self.get_energy_display()}) is already registered for this telescope: the lockout "
+                    "would list two points by one name. If it is the same point, edit that one; if not, name this "
+                    "one apart (where it is, what it feeds)."
                 )})
 
     @property

@@ -596,15 +596,26 @@ def isolation_gaps(order: WorkOrder, points: list[IsolationPoint] | None = None,
         whole = {p.energy for p in points if p.telescope_id == telescope.pk and p.subsystem_id is None}
         own = {p.energy for p in points if p.telescope_id == telescope.pk and p.subsystem_id in worked}
         for hazard, answers in _ISOLATES.items():
-            # The telescope's electrical supply is locked at its own points, for all work there; a hydraulic system
-            # is one subsystem's (a lift's pump and valve), and compressed air may be (a brake's own supply valve),
-            # locked at a point registered for the subsystem worked on or at the telescope's. A site review had
-            # registered a brake's own air valve: the order listed it among its points and, a few lines below,
-            # said no compressed-air point was registered, and held its issue.
-            energies = whole | own if hazard in _ISOLATED_AT_THE_SUBSYSTEM else whole
-            if hazard in hazards[telescope.pk] and not energies & answers:
-                gaps.append(f"No {_SOURCE[hazard]} isolation point is registered for {telescope.name}. "
-                            + _ADD_THE_POINT.format(what="it", supply="the supply"))
+            if hazard not in hazards[telescope.pk] or whole & answers:
+                continue
+            # The telescope's electrical supply is locked at its own points, for all work there. A hydraulic system
+            # is one subsystem's (a lift's pump and valve), and compressed air may be (a brake's own supply valve):
+            # without a point for the whole telescope, each subsystem worked on whose work carries the hazard needs
+            # one of its own (a site review's brake valve had been reported missing beside itself; one brake's valve
+            # must not answer for the other brake's air). A hazard no item carries takes any of theirs.
+            if hazard in _ISOLATED_AT_THE_SUBSYSTEM:
+                lacking = _subsystems_without_own_point(telescope.pk, hazard, answers, items, points)
+                if lacking is not None and not lacking:
+                    continue
+                if lacking is None and own & answers:
+                    continue
+                if lacking and own & answers:  # some have a point of their own, these not
+                    gaps.append(f"No {_SOURCE[hazard]} isolation point is registered for {telescope.name}, nor for "
+                                f"{in_words([s.name for s in lacking])}. "
+                                + _ADD_THE_POINT.format(what="one", supply="the supply"))
+                    continue
+            gaps.append(f"No {_SOURCE[hazard]} isolation point is registered for {telescope.name}. "
+                        + _ADD_THE_POINT.format(what="it", supply="the supply"))
     worked_on = {i.subsystem_id: i.subsystem for i in items if i.subsystem.kind in _OWN_POINT}
     own_supply = {pk: s for pk, s in worked_on.items() if "electrical" in hazards[s.telescope_id]}
     moving = [pk for pk, found in hazards.items() if "moving_machinery" in found]
@@ -674,6 +685,19 @@ def brake_air_vented(hazards: dict[int, Collection[str]], subsystems: Sequence[S
         BrakeAir(pk, tuple(brakes.get(pk, ())), tuple(worked.get(pk, ())), pk in moving, pk in air)
         for pk in vented if pk in brakes or pk in worked
     ]
+
+
+def _subsystems_without_own_point(telescope_id: int, hazard: str, answers: set[str], items: list[WorkOrderItem],
+                                  points: Sequence[IsolationPoint]) -> list[Subsystem] | None:
+    """Of the subsystems the order works on at ``telescope_id`` whose work carries ``hazard`` (``hazards_of``: theirs
+    and their plans'), those with no point of theirs for its energy (``answers``), by name; None when no item there
+    carries the hazard (it was given to the order by hand)."""
+    carriers = {i.subsystem.pk: i.subsystem for i in items if i.subsystem.telescope_id == telescope_id
+                and hazard in hazards_of([i.subsystem], [i.plan] if i.plan_id else [])}
+    if not carriers:
+        return None
+    covered = {p.subsystem_id for p in points if p.subsystem_id in carriers and p.energy in answers}
+    return sorted((s for pk, s in carriers.items() if pk not in covered), key=lambda s: s.name)
 
 
 def _brake_air_gaps(vented: list[BrakeAir], hazards: dict[int, set[str]]) -> list[str]:
@@ -1172,26 +1196,28 @@ def recoat_order_refusal(order: WorkOrder) -> str:
 
 def coating_unlogged(order: WorkOrder) -> str:
     """Why an underway strip-and-coat order of a recoat may not be finished yet, "" when it may: its mirror has no
-    coating logged on or after the day the mirror came out (its removal's work day; the recoat's first day when that
-    is not known). Its step "Log the new coating" could be ticked without one, and the realignment after it then
+    coating logged dated on or after the day the recoat was planned or its first day, whichever is earlier (the
+    coating it replaces is older than the plan made for it; a coating done at the plant and entered later keeps its
+    true date). Its step "Log the new coating" could be ticked without one, and the realignment after it then
     restarts the recoat plans while the reflectance decline still runs from the old coating, whose fit the new
     coating's first measurement then spoils. Three queries."""
     if order.state != State.UNDERWAY or order.recoat_phase != "coating":
         return ""
-    from observatory_ops.mirrors.models import CoatingEvent, Mirror  # mirrors builds on work orders
+    from observatory_ops.mirrors.models import CoatingEvent  # mirrors builds on work orders
 
-    mirror_id, before, _ = _recoat_neighbours(order)
-    if mirror_id is None:
+    plan = order.recoat_plans.select_related("mirror__subsystem").order_by("-pk").first()
+    if plan is None:
         return ""
-    plan = order.recoat_plans.order_by("-pk").first()
-    since = (work_done_on(before) if before is not None else None) or plan.starts_on
-    if CoatingEvent.objects.filter(mirror_id=mirror_id, coated_on__gte=since).exists():
+    since = min(plan.starts_on, timezone.localtime(plan.created_at, order.site.zone).date())
+    newest = CoatingEvent.objects.filter(mirror=plan.mirror).order_by("-coated_on").first()
+    if newest is not None and newest.coated_on >= since:
         return ""
-    mirror = Mirror.objects.select_related("subsystem").get(pk=mirror_id)
+    logged = (f"its newest logged coating is of {newest.coated_on:%d %b %Y}" if newest is not None
+              else "no coating of it is logged")
     return (
-        f"no new coating of {mirror.subsystem.name} is logged since it came out ({since:%d %b %Y}): log it on the "
-        "mirror's page (New coating, with its date and recipe) before finishing this order, so the reflectance "
-        "decline and the recoat plans start again from it"
+        f"{plan.mirror.subsystem.name} has no new coating logged: {logged}, before this recoat was planned or began "
+        f"({since:%d %b %Y}). Log the new coating on the mirror's page (New coating, with the day it was coated and "
+        "its recipe) before finishing this order, so the reflectance decline and the recoat plans start again from it"
     )
 
 
