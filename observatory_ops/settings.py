@@ -27,7 +27,7 @@ EMAIL_TIMEOUT    seconds to wait for the mail server at each step before giving 
 SITE_URL         address the pages are served at, for links in e-mails and QR codes (http://127.0.0.1:8000).
 SECURE_SSL_REDIRECT  with DEBUG off, "0" when the proxy in front already sends plain HTTP to HTTPS (default on).
 SECURE_HSTS_SECONDS  with DEBUG off, how long browsers keep to HTTPS (31536000, a year).
-LOG_LEVEL        the console log's level (WARNING).
+LOG_LEVEL        the console log's level: DEBUG, INFO, WARNING (the default), ERROR or CRITICAL.
 A whole-number variable that is not one stops start-up with a message naming it.
 """
 import os
@@ -55,6 +55,14 @@ def _env_count(name: str, default: int, minimum: int = 0) -> int:
     if not (value.isascii() and value.isdigit()) or int(value) < minimum:
         raise RuntimeError(f"{name} must be a whole number of {minimum} or more, not {value!r}.")
     return int(value)
+
+
+def _env_choice(name: str, default: str, choices: tuple[str, ...]) -> str:
+    """One of ``choices`` from the environment, capitals aside; a refusal naming the variable otherwise."""
+    value = os.environ.get(name, "").strip().upper() or default
+    if value not in choices:
+        raise RuntimeError(f"{name} must be one of {', '.join(choices)}, not {os.environ.get(name)!r}.")
+    return value
 
 
 def _env_list(name: str, default: str = "") -> list[str]:
@@ -144,6 +152,7 @@ TEMPLATES = [
 WSGI_APPLICATION = "observatory_ops.wsgi.application"
 
 DATA_DIR.mkdir(parents=True, exist_ok=True)
+DATABASE_URL_GIVEN = bool(os.environ.get("DATABASE_URL"))  # read by the deploy checks (planning/checks.py)
 DATABASES = {
     "default": dj_database_url.parse(
         os.environ.get("DATABASE_URL", f"sqlite:///{DATA_DIR / 'observatory_ops.sqlite3'}"),
@@ -221,6 +230,9 @@ CACHES = {
 
 # --- background work (observatory_ops/celery.py) ----------------------------------------------------
 CELERY_BROKER_URL = os.environ.get("CELERY_BROKER_URL") or None
+if CELERY_BROKER_URL and "://" not in CELERY_BROKER_URL:  # taken by Celery as a host name, failing on the first task
+    raise RuntimeError(f"CELERY_BROKER_URL must name its scheme, e.g. redis://127.0.0.1:6379/0, not "
+                       f"{CELERY_BROKER_URL!r}.")
 # Without a broker every task runs inline in the calling process and its errors reach the caller.
 CELERY_TASK_ALWAYS_EAGER = CELERY_BROKER_URL is None
 CELERY_TASK_EAGER_PROPAGATES = CELERY_TASK_ALWAYS_EAGER
@@ -278,9 +290,23 @@ if not DEBUG:
     SECURE_HSTS_PRELOAD = True
     SECURE_PROXY_SSL_HEADER = ("HTTP_X_FORWARDED_PROTO", "https")
 
+def _without_traceback(record) -> bool:
+    """A logging filter: the message alone, its traceback dropped."""
+    record.exc_info = record.exc_text = None
+    return True
+
+
 LOGGING = {
     "version": 1,
     "disable_existing_loggers": False,
-    "handlers": {"console": {"class": "logging.StreamHandler"}},
-    "root": {"handlers": ["console"], "level": os.environ.get("LOG_LEVEL", "WARNING")},
+    "filters": {"without_traceback": {"()": "django.utils.log.CallbackFilter", "callback": _without_traceback}},
+    "handlers": {
+        "console": {"class": "logging.StreamHandler"},
+        "console_one_line": {"class": "logging.StreamHandler", "filters": ["without_traceback"]},
+    },
+    # A request for a host not in ALLOWED_HOSTS in one line ("Invalid HTTP_HOST header: ..."), not fifteen: scanners
+    # calling the bare address filled the journal (a deployment review).
+    "loggers": {"django.security.DisallowedHost": {"handlers": ["console_one_line"], "propagate": False}},
+    "root": {"handlers": ["console"],
+             "level": _env_choice("LOG_LEVEL", "WARNING", ("DEBUG", "INFO", "WARNING", "ERROR", "CRITICAL"))},
 }

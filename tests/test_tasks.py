@@ -551,7 +551,23 @@ def test_the_digest_command_sends_each_site_once_a_day_for_cron(mailed_people):
     call_command("digest", "--site", "cron", stdout=out)
     assert f"{site.name}: sent to 2 address(es)" in out.getvalue()
     call_command("digest", "--site", "cron", stdout=out)
-    assert "nothing sent" in out.getvalue() and len(mail.outbox) == 2
+    today = planning.site_today(site)
+    assert f"{site.name}: nothing sent: already sent today ({today:%d %b %Y})" in out.getvalue()
+    assert len(mail.outbox) == 2
+
+
+def test_the_digest_command_says_why_nothing_was_sent(users):
+    """A deployment review could not tell "already sent", "nobody to send to" and "nothing due" apart."""
+    from io import StringIO
+
+    from django.core.management import call_command
+
+    site = site_in_use("why-not")
+    planning.site_recompute(site)
+    out = StringIO()
+    call_command("digest", "--site", "why-not", stdout=out)
+    assert out.getvalue() == (f"{site.name}: nothing sent: nobody to send it to has an e-mail address (the site's "
+                              "'Due digest to', or every engineer)\n")
 
 
 def test_the_digest_command_says_when_mail_is_only_printed(mailed_people, settings, capsys):

@@ -1,6 +1,7 @@
 from django.core.management.base import BaseCommand, CommandError
 
 from observatory_ops.planning import digest
+from observatory_ops.planning.services import site_today
 from observatory_ops.registry.models import Site
 
 
@@ -23,7 +24,7 @@ class Command(BaseCommand):
         for target in sites:
             sent = digest.due_digest_send(target)
             if not sent:
-                outcome = "nothing sent (nothing due, already sent today, or nobody with an e-mail address)"
+                outcome = f"nothing sent: {_why_not_sent(target)}"
             elif printed:
                 outcome = (f"printed to the log, not sent, for {sent} address(es): EMAIL_BACKEND is the console "
                            "backend (set EMAIL_BACKEND=django.core.mail.backends.smtp.EmailBackend and EMAIL_HOST "
@@ -31,3 +32,14 @@ class Command(BaseCommand):
             else:
                 outcome = f"sent to {sent} address(es)"
             self.stdout.write(f"{target.name}: {outcome}")
+
+
+def _why_not_sent(site: Site) -> str:
+    """Which of the reasons a digest goes nowhere holds (a deployment review could not tell them apart)."""
+    site.refresh_from_db(fields=["digest_sent_on"])
+    today = site_today(site)
+    if site.digest_sent_on == today:
+        return f"already sent today ({today:%d %b %Y})"
+    if not digest.recipients(site):
+        return "nobody to send it to has an e-mail address (the site's 'Due digest to', or every engineer)"
+    return "nothing is due or overdue at the site"
