@@ -306,6 +306,9 @@ def test_once_the_new_coating_is_logged_on_the_mirror_page_the_strip_and_coat_fi
     })
     assert response.status_code == 302
     assert CoatingEvent.objects.filter(mirror=mirror, coated_on=site_today(coating.site)).exists()
+    said = [str(m) for m in get_messages(response.wsgi_request)][-1]  # the way back to the order it held
+    assert said.endswith(f'<a href="/workorders/{coating.pk}/">{coating.number}</a> ({coating.title}) can now be '
+                         "finished.")
     assert f'href="/workorders/{coating.pk}/finish/"' in client.get(f"/workorders/{coating.pk}/").content.decode()
     services.work_order_finish(coating, users["technician"], 8.0, "done", {}, **_confirmed(coating))
     assert _fresh(coating).state == State.FINISHED

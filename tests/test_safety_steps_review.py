@@ -226,7 +226,8 @@ def test_the_witness_samples_reflectance_goes_in_the_findings_and_the_coatings_n
     coat = next(step for step in recoat["coating"] if "witness sample" in step)
     assert "in this order's findings" in coat and "not a measurement of the mirror" in coat
     logged = next(step for step in recoat["coating"] if step.startswith("Log the new coating"))
-    assert "witness samples' reflectance in its note" in logged
+    # One place to write it first, copied into the coating's note (a walk-through read two places in two steps).
+    assert "copy the witness samples' reflectance from this order's findings into its note" in logged
 
 
 def test_the_reinstall_bolts_the_cell_in_its_own_words_with_the_table_carrying_it(recoat):

@@ -277,3 +277,13 @@ def test_a_move_under_power_before_its_own_lockout_waits_while_another_crew_is_l
     with pytest.raises(services.Refused, match=rf"step {moving + 1} is done under power before the lockout and may "
                                                "move an axis, and another crew is still locked out on this telescope"):
         services.checklist_tick_set(drive_order, "step", moving, True, users["technician"])
+    # Nor is it confirmed "done or did not apply" at the finish meanwhile: a walk-through finished a recoat's removal
+    # that way, the record saying the tube was slewed to the zenith under power while another crew was inside.
+    from test_workorders import _all_readings, _confirmed
+
+    drive_order = WorkOrder.objects.get(pk=drive_order.pk)
+    with pytest.raises(services.Refused, match=rf"steps that wait for the locks to come off are not ticked \(step "
+                                               rf"{moving + 1};.*\) while another crew is still locked out"):
+        services.work_order_finish(drive_order, users["technician"], 1.0, "ok", _all_readings(drive_order, 0.6),
+                                   **_confirmed(drive_order))
+    assert WorkOrder.objects.get(pk=drive_order.pk).state == State.UNDERWAY

@@ -1181,8 +1181,9 @@ _PHASE_WORK = {
             "was measured over, in this order's findings: it is the coating's, not a measurement of the mirror "
             "(the realignment order measures the mirror itself, as its reflectance reading).",
             "Lift the mirror back into its transport crate, face up, as the lifting figures say.",
-            "Log the new coating (date and recipe) on the mirror's page, with the witness samples' reflectance in its "
-            "note, so its decline starts again.",
+            "Log the new coating (the day it was coated and its recipe) on the mirror's page, so its decline starts "
+            "again, and copy the witness samples' reflectance from this order's findings into its note: this order "
+            "is finished only once the coating is logged.",
         ),
         after=(),
         tools=(

@@ -6,6 +6,7 @@ from django.http import HttpResponse, HttpResponseNotAllowed
 from django.shortcuts import get_object_or_404, redirect, render
 from django.template.defaultfilters import pluralize
 from django.urls import reverse
+from django.utils.html import format_html, format_html_join
 from django.utils.http import urlencode
 
 from observatory_ops.access.decorators import requires
@@ -18,7 +19,8 @@ from observatory_ops.logbook.views import already_logged_text
 from observatory_ops.planning.models import PlanStatus
 from observatory_ops.planning.services import site_today
 from observatory_ops.registry.models import Site
-from observatory_ops.workorders.models import WorkOrder
+from observatory_ops.workorders.models import State, WorkOrder
+from observatory_ops.workorders.selectors import coating_unlogged
 
 from . import calendar_export, plots, response_csv, services
 from .forms import CalculatorForm, CleaningForm, CoatingForm, MeasurementForm, WindowForm
@@ -183,9 +185,18 @@ def _cleaning_logged(mirror: Mirror, event) -> str:
 
 
 def _coating_logged(mirror: Mirror, event) -> str:
-    return _restarted("New coating logged; the decline starts again from it",
+    said = _restarted("New coating logged; the decline starts again from it",
                       services.plans_a_coating_restarts(mirror.subsystem), event.coated_on,
                       "this mirror has no recoat service plan")
+    # The strip-and-coat order that waited for it (workorders.selectors.coating_unlogged): a walk-through's technician
+    # logged the coating and was left on this page with no way back to the order it had held.
+    waiting = WorkOrder.objects.filter(recoat_plans__mirror=mirror, recoat_phase="coating", state=State.UNDERWAY)
+    freed = [order for order in waiting.select_related("site").distinct() if not coating_unlogged(order)]
+    if not freed:
+        return said
+    return format_html("{} {}", said, format_html_join(
+        " ", '<a href="{}">{}</a> ({}) can now be finished.',
+        ((order.get_absolute_url(), order.number, order.title) for order in freed)))
 
 
 @requires(TECHNICIAN)

@@ -763,8 +763,8 @@ def work_order_finish(
 
     ``confirmed_unticked`` holds the words of the checklist lines (isolation points and steps) that the person
     confirmed although nobody ticked them; every line not ticked when the work is finished must be among them, and
-    none of the steps held for other crews (``held_for_other_crews``) while another crew on the telescope is still
-    locked out (``still_locked_out``).
+    none of the steps held while another crew on the telescope is still locked out (``moves_or_restores``,
+    ``still_locked_out``).
     The lines of the energy isolation (the lockout step, the isolation points and the lock removal,
     ``selectors.isolation_lines``)
     are not confirmed with the others: ``isolation_answer`` must say, on its own, which of
@@ -886,9 +886,11 @@ def work_order_finish(
             ))
         if isolation and not findings.strip():
             raise Refused(ISOLATION_UNTICKED_FINDINGS)
-        # Steps held for other crews confirmed unticked would restore what another crew still locked out relies on
-        # staying off (``held_for_other_crews``; ``_others_locked_out_refusal`` refuses their ticks).
-        waiting = held_for_other_crews(order.step_list)
+        # Steps held while another crew is locked out (``moves_or_restores``: a move under power, energy brought back,
+        # the return to service; ``_others_locked_out_refusal`` refuses their ticks) are not confirmed done meanwhile:
+        # the record would say the tube moved under power with another crew inside (a walk-through finished a
+        # recoat's removal so, its slew to the zenith refused a minute before).
+        waiting = moves_or_restores(order.step_list)
         after = [line for line in unticked if line.kind == ChecklistTick.Kind.STEP and line.key in waiting]
         if after and (held := still_locked_out(order)):
             raise Refused(
@@ -896,7 +898,8 @@ def work_order_finish(
                 + "; ".join(line.label.lower() for line in after)
                 + ") while another crew is still locked out on this telescope: "
                 + "; ".join(f"{a.order.number} {a.order.title}" for a in held)
-                + ". Finish once they have removed their locks and ticked that on their order"
+                + ". Finish once they have removed their locks and ticked that on their order, and these steps are "
+                "done"
             )
         # Steps that wait while the telescope's mirror is out are not confirmed done meanwhile (a diff review finished
         # an order that way, its test under power and hand-back "done or did not apply" on an unbalanced telescope).
