@@ -267,9 +267,12 @@ HAZARDS_UNRECORDED_HELD = (
 #: Why an order whose hazards call for isolating an energy with no isolation point registered for it
 #: (workorders.selectors.isolation_gaps) is neither issued nor started: its lockout step would send the technician to
 #: a list of points that leaves the energy out, and the finish form would read "every isolation point ticked".
+#: ``missing``: each warning's first sentence, so the hold names the energy and where (a walk-through's phone showed
+#: the hold at the top and its warning a long scroll below).
 ISOLATION_POINTS_MISSING_HELD = (
-    "its work calls for isolating energy that has no isolation point registered (the warnings under Energy isolation "
-    "points): an engineer adds the points to the register (admin, Isolation points) before it is issued or started"
+    "its work calls for isolating energy that has no isolation point registered ({missing}; the warnings under Energy "
+    "isolation points): an engineer adds the points to the register (admin, Isolation points) before it is issued or "
+    "started"
 )
 
 #: A telescope whose primary mirror a recoat removed and has not yet put back (workorders.selectors.telescopes_out):

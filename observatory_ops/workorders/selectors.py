@@ -1377,8 +1377,9 @@ def moves_held(order: WorkOrder, unrecorded: Sequence[Subsystem] | None = None,
                 held.setdefault(action, []).append(why)
         gaps = isolation_gaps(order) if gaps is None else gaps
         if gaps:
+            missing = "; ".join(gap.split(". ", 1)[0][:1].lower() + gap.split(". ", 1)[0][1:] for gap in gaps)
             for action in ("issue", "start"):
-                held.setdefault(action, []).append(ISOLATION_POINTS_MISSING_HELD)
+                held.setdefault(action, []).append(ISOLATION_POINTS_MISSING_HELD.format(missing=missing))
     if order.state == State.ISSUED and (why := recoat_order_refusal(order)):
         held.setdefault("start", []).append(why)
     if why := coating_unlogged(order):
