@@ -17,7 +17,7 @@ from observatory_ops.calc import coating, exposure, windows
 from observatory_ops.logbook.models import NightUsage
 from observatory_ops.mirrors import services
 from observatory_ops.mirrors.models import CleaningEvent, CoatingEvent, Mirror, ReflectanceMeasurement
-from observatory_ops.planning.models import BookedRun, NightSky
+from observatory_ops.planning.models import BookedRun, NightSky, PlanStatus
 from observatory_ops.registry.models import Subsystem
 
 TODAY = dt.date(2026, 6, 15)
@@ -379,7 +379,14 @@ def test_work_still_to_do_that_may_clean_the_mirror_is_named_beside_the_crossing
             "counts no cleaning until it is logged (at its finish)")
     assert said in _page_text(client, mirror)
     planner = re.sub(r"\s+", " ", strip_tags(client.get(f"/mirrors/{mirror.pk}/recoat/").content.decode()))
-    assert said in planner
+    assert said in planner and "a cleaning there moves the crossing later, so plan the recoat window once" in planner
+    # The mirror page advises planning the recoat only while it is due or overdue with none in hand (a walk-through
+    # read the advice on a mirror just recoated).
+    due = services.recoat_due(mirror)
+    advised = due is not None and due.status != "later" and not services.recoat_in_hand(mirror)
+    assert ("so plan the recoat window once it is logged" in _page_text(client, mirror)) == advised
+    PlanStatus.objects.filter(plan__subsystem=mirror.subsystem).update(status="later")
+    assert "so plan the recoat window" not in _page_text(client, mirror) and said in _page_text(client, mirror)
     wo_services.work_order_move(order, "withdraw", users["engineer"], reason="not needed")
     assert "may clean it" not in _page_text(client, mirror)
 

@@ -764,8 +764,11 @@ def orders_that_may_clean(mirror: Mirror) -> list[WorkOrder]:
     )
 
 
-def orders_that_may_clean_text(orders: list[WorkOrder]) -> str:
-    """The sentence the mirror page and the recoat planner give for ``orders_that_may_clean``; "" for none."""
+def orders_that_may_clean_text(orders: list[WorkOrder], planning: bool = True) -> str:
+    """The sentence the mirror page and the recoat planner give for ``orders_that_may_clean``; "" for none.
+    ``planning``: a recoat is to be planned (the planner; the mirror page while the recoat plan is due or overdue and
+    none is in hand), so the sentence ends by saying to plan it once the cleaning is logged. A walk-through read that
+    advice on a mirror just recoated."""
     if not orders:
         return ""
     named = ", ".join(
@@ -773,9 +776,9 @@ def orders_that_may_clean_text(orders: list[WorkOrder]) -> str:
         f"{f'planned {o.planned_date:%d %b %Y}' if o.planned_date else 'no day set'})" for o in orders
     )
     one = len(orders) == 1
-    return (f"Work still to do on this mirror may clean it: {named}. The forecast counts no cleaning until it is "
-            f"logged (at {'its' if one else 'their'} finish): a cleaning there moves the crossing later, so plan the "
-            "recoat window once it is logged.")
+    said = (f"Work still to do on this mirror may clean it: {named}. The forecast counts no cleaning until it is "
+            f"logged (at {'its' if one else 'their'} finish): a cleaning there moves the crossing later")
+    return f"{said}, so plan the recoat window once it is logged." if planning else f"{said}."
 
 
 #: How far past a recoat's last day a service plan's forecast may fall and still be offered for the recoat's downtime:
