@@ -298,6 +298,8 @@ def test_the_isolation_points_subsystem_search_names_each_subsystem_with_its_sit
 
     assert found("limits") == ["Site harrow-knoll: T1: Limits", "Site mesa-norte: T1: Limits"]
     assert found("mesa limits") == ["Site mesa-norte: T1: Limits"]
+    # Typed as the pages write it, colons and all (a walk-through's "R40: Axis 1 brake" had found nothing).
+    assert found("Site mesa-norte: T1: Limits") == ["Site mesa-norte: T1: Limits"]
     limits = Subsystem.objects.get(telescope__site=two_sites[1], kind="limits")
     point = IsolationPoint.objects.create(telescope=limits.telescope, subsystem=limits, energy="ac",
                                           label="Limits supply")

@@ -77,6 +77,9 @@ class NamedWithSiteAutocomplete(AutocompleteJsonView):
     project's admin site answers with it (``observatory_ops.admin_site``)."""
 
     def get_queryset(self):
+        # Typed as the pages write a record ("R40: Axis 1 brake"), each word is searched without its colon: "R40:"
+        # matched no telescope's name, so the search found nothing (a walk-through).
+        self.term = self.term.replace(":", " ")
         queryset = super().get_queryset()
         return listed_with_sites(queryset) if queryset.model._meta.label_lower in ACROSS_SITES else queryset
 
