@@ -463,8 +463,7 @@ class Subsystem(models.Model):
             stored = Subsystem.objects.filter(pk=self.pk).values_list("telescope_id", "telescope__site_id").first()
             if stored is not None and stored[0] != self.telescope_id:
                 self._clean_telescope_kept(moves_site=stored[1] != self.telescope.site_id)
-        if (self.telescope_id and self.name and not self.retired_on
-                and named_anew(self, "name", "telescope_id", "parent_id")):
+        if self.telescope_id and self.name and not self.retired_on and named_anew(self, "name", "telescope_id"):
             self._clean_name_unlike_the_others()
         if self.in_service_since:
             self._clean_in_service_since()
@@ -536,19 +535,19 @@ class Subsystem(models.Model):
             )})
 
     def _clean_name_unlike_the_others(self) -> None:
-        """Refuse the name of another subsystem in service on the telescope under the same parent (or none) but for
-        capitals or spaces: the pages, the due list and the work-order choices would list two alike, each with plans
-        of its own (a site review added "azimuth drive " beside "Azimuth drive"). Parts of two parents may share a
-        name ("Encoder" of each axis drive); a retired one's name may be taken again by its replacement."""
-        others = (Subsystem.objects.filter(telescope_id=self.telescope_id, parent_id=self.parent_id,
-                                           retired_on__isnull=True)
+        """Refuse the name of another subsystem in service on the telescope but for capitals or spaces, whatever their
+        parents: the pages, the due list and the work-order choices name a subsystem by its telescope and its own
+        name ("T70: Encoder"), so they would list two alike, each with plans of its own (a site review added
+        "azimuth drive " beside "Azimuth drive"; a part named as a part of another parent reads the same). A retired
+        one's name may be taken again by its replacement."""
+        others = (Subsystem.objects.filter(telescope_id=self.telescope_id, retired_on__isnull=True)
                   .exclude(pk=self.pk).values_list("name", flat=True))
         if (alike := name_alike(self.name, others)) is not None:
-            where = f"under {self.parent.name}" if self.parent_id else "on this telescope"
             raise ValidationError({"name": (
-                f"Name {self.name.strip()!r} is another subsystem's in service {where}, {alike!r} (capitals "
-                "and spaces aside): the pages and the work-order choices would list the two alike. Give it a name of "
-                "its own; if it replaces that one, retire that one first."
+                f"Name {self.name.strip()!r} is another subsystem's in service on this telescope, {alike!r} (capitals "
+                "and spaces aside): the pages and the work-order choices name both as "
+                f"'{self.telescope.name}: {alike.strip()}'. Give it a name of its own (a part with its parent's: "
+                "'Axis 2 encoder'); if it replaces that one, retire that one first."
             )})
 
     def _stored_telescope_name(self) -> str:
