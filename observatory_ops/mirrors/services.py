@@ -21,7 +21,7 @@ from django.utils import timezone
 
 from observatory_ops.calc import coating, forecast, reflectance, windows
 from observatory_ops.calc.exposure import running_totals, total_between
-from observatory_ops.calc.triggers import OVERDUE
+from observatory_ops.calc.triggers import LATER, OVERDUE
 from observatory_ops.logbook.models import Reading, ServiceRecord
 from observatory_ops.logbook.quantities import reflectance_text
 from observatory_ops.logbook.services import date_problem, reading_withdraw, service_record_log, withdrawn_mark
@@ -764,11 +764,27 @@ def orders_that_may_clean(mirror: Mirror) -> list[WorkOrder]:
     )
 
 
+#: How far ahead a recoat is planned (a coating plant booked, the downtime chosen): the mirror page advises planning it
+#: once a pending cleaning is logged only while its recoat plan is forecast within this many days (common practice,
+#: no published source).
+RECOAT_PLANNED_AHEAD_DAYS = 365
+
+
+def recoat_to_plan(mirror: Mirror, due, today: dt.date) -> bool:
+    """Whether the mirror's recoat is one to plan now: its recoat plan's due state (``recoat_due``) due, overdue or
+    forecast within ``RECOAT_PLANNED_AHEAD_DAYS``, and no recoat in hand (``recoat_in_hand``). A walk-through read the
+    advice to plan the recoat window on a mirror just recoated."""
+    if due is None or recoat_in_hand(mirror) is not None:
+        return False
+    if due.status != LATER:
+        return True
+    return due.forecast_date is not None and due.forecast_date <= today + dt.timedelta(days=RECOAT_PLANNED_AHEAD_DAYS)
+
+
 def orders_that_may_clean_text(orders: list[WorkOrder], planning: bool = True) -> str:
     """The sentence the mirror page and the recoat planner give for ``orders_that_may_clean``; "" for none.
-    ``planning``: a recoat is to be planned (the planner; the mirror page while the recoat plan is due or overdue and
-    none is in hand), so the sentence ends by saying to plan it once the cleaning is logged. A walk-through read that
-    advice on a mirror just recoated."""
+    ``planning``: a recoat is to be planned (the planner; the mirror page: ``recoat_to_plan``), so the sentence ends
+    by saying to plan it once the cleaning is logged."""
     if not orders:
         return ""
     named = ", ".join(

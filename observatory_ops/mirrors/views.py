@@ -14,7 +14,6 @@ from observatory_ops.access.roles import ENGINEER, TECHNICIAN, VIEWER, has_role
 from observatory_ops.access.templatetags.form_errors import names_field
 from observatory_ops.archive.history import changes
 from observatory_ops.calc import coating
-from observatory_ops.calc.triggers import LATER
 from observatory_ops.logbook.forms import ReadingWithdrawForm
 from observatory_ops.logbook.views import already_logged_text
 from observatory_ops.planning.models import PlanStatus
@@ -56,7 +55,7 @@ def mirror_detail(request, pk):
             "recoat_due": services.recoat_due_text(due) if due else "",
             "may_clean": services.orders_that_may_clean_text(
                 services.orders_that_may_clean(mirror),
-                planning=due is not None and due.status != LATER and not services.recoat_in_hand(mirror),
+                planning=services.recoat_to_plan(mirror, due, site_today(site)),
             ),
             "plot": plots.decline_svg(state, described_by="decline-words"),
             "train": services.throughput(mirror.subsystem.telescope),
