@@ -460,9 +460,10 @@ class Subsystem(models.Model):
         if self.parent_id and self.pk and self.parent_id == self.pk:
             raise ValidationError({"parent": "A subsystem cannot be its own parent."})
         if self.pk and self.telescope_id:
-            stored = Subsystem.objects.filter(pk=self.pk).values_list("telescope_id", "telescope__site_id").first()
+            stored = (Subsystem.objects.filter(pk=self.pk)
+                      .values_list("telescope_id", "telescope__site_id", "telescope__name").first())
             if stored is not None and stored[0] != self.telescope_id:
-                self._clean_telescope_kept(moves_site=stored[1] != self.telescope.site_id)
+                self._clean_telescope_kept(moves_site=stored[1] != self.telescope.site_id, leaves=stored[2])
         if self.telescope_id and self.name and not self.retired_on and named_anew(self, "name", "telescope_id"):
             self._clean_name_unlike_the_others()
         if self.in_service_since:
@@ -494,7 +495,7 @@ class Subsystem(models.Model):
                 "'No hazards found'. Its work orders take their safety cautions and energy isolation from them."
             )})
 
-    def _clean_telescope_kept(self, moves_site: bool) -> None:
+    def _clean_telescope_kept(self, moves_site: bool, leaves: str) -> None:
         """Refuse a move to another telescope while a work order not yet done names the subsystem or one of its parts
         (which move with it): the order locks out the telescope it was made for (``selectors.open_orders_of``). And
         refuse a move to another telescope once anything is recorded of them (``selectors.records_of``): records at
@@ -502,7 +503,8 @@ class Subsystem(models.Model):
         would count the other telescope's nights as if it had always been there (a site review moved a cable routing
         and its axis travel since its service went from 39,744 to 94,260 deg, its reliability hours with it), unless
         the admin's form says it was registered on the wrong telescope (``registered_on_wrong_telescope``, set by
-        ``forms.SubsystemAdminForm``): its records were then always the other telescope's."""
+        ``forms.SubsystemAdminForm``): its records were then always the other telescope's. ``leaves``: the name of
+        the telescope it is stored on, read with the move's other stored figures."""
         from .selectors import open_orders_of, parts_of, records_of  # they read models that import this module
 
         parts = parts_of(self)
@@ -525,7 +527,7 @@ class Subsystem(models.Model):
         whole_site = is_shared_enclosure(self.telescope.site, self.kind)
         if recorded and not whole_site and not getattr(self, "registered_on_wrong_telescope", False):
             raise ValidationError({"telescope": (
-                f"{whose} records on {self._stored_telescope_name()}: {recorded}. Its counters since its last "
+                f"{whose} records on {leaves}: {recorded}. Its counters since its last "
                 "service count that telescope's nights; moved, they would count the other telescope's nights back "
                 "to that service, as if it had always been there, and its reliability hours with them. If the part "
                 "was moved, register it on the other telescope as a new subsystem, with the day it was fitted there "
@@ -549,9 +551,6 @@ class Subsystem(models.Model):
                 f"'{self.telescope.name}: {alike.strip()}'. Give it a name of its own (a part with its parent's: "
                 "'Axis 2 encoder'); if it replaces that one, retire that one first."
             )})
-
-    def _stored_telescope_name(self) -> str:
-        return Subsystem.objects.filter(pk=self.pk).values_list("telescope__name", flat=True).first() or "its telescope"
 
     def _clean_service_date(self, field: str, label: str, when_future: str) -> None:
         """A date of the subsystem's service life (``field``, called ``label`` on the page): from
