@@ -18,14 +18,17 @@ class ObservatoryAdminConfig(AdminConfig):
     default_site = "observatory_ops.admin_site.ObservatoryAdminSite"
 
     def ready(self) -> None:
-        # Every date field of every form says which formats it reads (formats/en/formats.py). Set here, first of the
-        # installed apps and before the admin's discovery imports the apps' forms, whose fields copy the messages
-        # when their classes are built.
+        # Every date field of every form says which formats it reads (formats/en/formats.py), and which part of a date
+        # written in one of them does not exist (formats/calendar_words.py). Set here, first of the installed apps and
+        # before the admin's discovery imports the apps' forms, whose fields copy the messages when their classes are
+        # built.
         from django import forms
 
+        from observatory_ops.formats import calendar_words
         from observatory_ops.formats.en.formats import DATE_INVALID, DATETIME_INVALID
 
         forms.DateField.default_error_messages = {**forms.DateField.default_error_messages, "invalid": DATE_INVALID}
         forms.DateTimeField.default_error_messages = {**forms.DateTimeField.default_error_messages,
                                                       "invalid": DATETIME_INVALID}
+        calendar_words.install()
         super().ready()

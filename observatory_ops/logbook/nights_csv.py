@@ -18,7 +18,6 @@ control software that knows a telescope's slews but not its brake cycles or the 
 """
 from __future__ import annotations
 
-import calendar
 import csv
 import datetime as dt
 import io
@@ -32,6 +31,7 @@ from dataclasses import dataclass, field
 from django.template.defaultfilters import pluralize
 
 from observatory_ops.exports import FORMULA_START
+from observatory_ops.formats.calendar_words import why_no_such_date
 
 #: How far back a night (or a service date, see ``logbook.services``) may lie, in years. A recompute asks
 #: the nights cache for every night from the earliest one logged to 3 years ahead (planning.services.
@@ -371,16 +371,6 @@ def _flag(raw: object, name: str, as_json: bool) -> bool:
 WRITTEN_DATE = re.compile(r"([0-9]{4})-([0-9]{2})-([0-9]{2})")
 
 
-def _no_such_date(written: re.Match) -> str:
-    """Why a date written as YYYY-MM-DD names no day of the calendar (2023-02-30)."""
-    year, month, _day = (int(part) for part in written.groups())
-    if not 1 <= month <= 12:
-        return f"there is no month {month}"
-    if year == 0:
-        return "there is no year 0"
-    return f"{calendar.month_name[month]} {year} has {calendar.monthrange(year, month)[1]} days"
-
-
 def _night(raw: object, latest_night: dt.date) -> dt.date:
     """The night a cell or a JSON string names, written exactly as YYYY-MM-DD (``WRITTEN_DATE``)."""
     written = WRITTEN_DATE.fullmatch(raw.strip()) if isinstance(raw, str) else None
@@ -389,7 +379,8 @@ def _night(raw: object, latest_night: dt.date) -> dt.date:
     try:
         night = dt.date.fromisoformat(written.group())
     except ValueError:
-        raise RowError("night", f"night {written.group()} is no such date ({_no_such_date(written)})") from None
+        problem = why_no_such_date(*map(int, written.groups()))
+        raise RowError("night", f"night {written.group()} is no such date ({problem})") from None
     if night > latest_night:
         raise RowError(
             "night", f"night {night} has not begun yet (a night is dated by its evening; the latest that can be "
