@@ -198,7 +198,7 @@ def test_an_order_without_a_lockout_does_not_hand_the_telescope_back_while_anoth
             f"step {len(steps)} hands the observatory back to robotic and remote control, and another crew is "
             f"still at work on this telescope: {drive_order.number}")):
         services.checklist_tick_set(camera_order, "step", len(steps) - 1, True, users["technician"])
-    with pytest.raises(services.Refused, match="steps that wait for the locks to come off are not ticked"):
+    with pytest.raises(services.Refused, match="steps that wait for the other crew's locks to come off are not ticked"):
         services.work_order_finish(camera_order, users["technician"], 1.0, "ok", _all_readings(camera_order, 0.6),
                                    confirmed_unticked=[HAND_BACK])
     assert WorkOrder.objects.get(pk=camera_order.pk).state == State.UNDERWAY
@@ -282,8 +282,26 @@ def test_a_move_under_power_before_its_own_lockout_waits_while_another_crew_is_l
     from test_workorders import _all_readings, _confirmed
 
     drive_order = WorkOrder.objects.get(pk=drive_order.pk)
-    with pytest.raises(services.Refused, match=rf"steps that wait for the locks to come off are not ticked \(step "
-                                               rf"{moving + 1};.*\) while another crew is still locked out"):
+    with pytest.raises(services.Refused, match=rf"steps that wait for the other crew's locks to come off are "
+                                               rf"not ticked \(step {moving + 1};.*\) while another crew is still "
+                                               "locked out"):
         services.work_order_finish(drive_order, users["technician"], 1.0, "ok", _all_readings(drive_order, 0.6),
                                    **_confirmed(drive_order))
     assert WorkOrder.objects.get(pk=drive_order.pk).state == State.UNDERWAY
+
+
+def test_the_finish_form_says_before_it_is_filled_in_that_steps_wait_for_the_other_crew(
+    order, fans_order, users, client  # noqa: F811
+):
+    """A walk-through filled in the whole finish form, then read the refusal: the form says it first."""
+    fans_order, drive_order = _both_underway(order, fans_order, users)
+    _tick_through(fans_order, users, services.isolated_steps(fans_order.step_list)[0])  # the fans crew locked out
+    client.force_login(users["technician"])
+    page = html.unescape(client.get(f"/workorders/{drive_order.pk}/finish/").content.decode())
+    notice = re.search(r'<div class="caution" id="finish-waits" role="alert">(.*?)</div>', page, re.S).group(1)
+    assert "Not yet:</strong> Steps that wait for the other crew's locks to come off are not ticked (step " in notice
+    assert f"{fans_order.number} {fans_order.title}" in notice and "Finishing now will be refused." in notice
+    # Once the other crew's locks are off, the form says nothing of it.
+    _tick_through(fans_order, users, services.isolated_steps(fans_order.step_list)[1].stop)  # their release ticked
+    page = client.get(f"/workorders/{drive_order.pk}/finish/").content.decode()
+    assert 'id="finish-waits"' not in page

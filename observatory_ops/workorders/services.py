@@ -886,31 +886,8 @@ def work_order_finish(
             ))
         if isolation and not findings.strip():
             raise Refused(ISOLATION_UNTICKED_FINDINGS)
-        # Steps held while another crew is locked out (``moves_or_restores``: a move under power, energy brought back,
-        # the return to service; ``_others_locked_out_refusal`` refuses their ticks) are not confirmed done meanwhile:
-        # the record would say the tube moved under power with another crew inside (a walk-through finished a
-        # recoat's removal so, its slew to the zenith refused a minute before).
-        waiting = moves_or_restores(order.step_list)
-        after = [line for line in unticked if line.kind == ChecklistTick.Kind.STEP and line.key in waiting]
-        if after and (held := still_locked_out(order)):
-            raise Refused(
-                "steps that wait for the locks to come off are not ticked ("
-                + "; ".join(line.label.lower() for line in after)
-                + ") while another crew is still locked out on this telescope: "
-                + "; ".join(f"{a.order.number} {a.order.title}" for a in held)
-                + ". Finish once they have removed their locks and ticked that on their order, and these steps are "
-                "done"
-            )
-        # Steps that wait while the telescope's mirror is out are not confirmed done meanwhile (a diff review finished
-        # an order that way, its test under power and hand-back "done or did not apply" on an unbalanced telescope).
-        mirror_out = telescope_out_notices(order)
-        waiting = moves_or_restores(order.step_list) if mirror_out else set()
-        if left := [line for line in unticked if line.kind == ChecklistTick.Kind.STEP and line.key in waiting]:
-            raise Refused(
-                "steps that wait while the telescope's mirror is out are not ticked ("
-                + "; ".join(line.label.lower() for line in left)
-                + f"): {mirror_out[0][0]}. Finish this order once the reinstall is finished and they are done"
-            )
+        if waiting := finish_waits(order, unticked):
+            raise Refused(waiting)
         hand_back = [line for line in unticked if line.kind == ChecklistTick.Kind.STEP and is_hand_back(line.text)]
         if hand_back and (working := still_working(order)):
             # The last crew out hands the observatory back: this one, done, leaves it to them, and the record says so
@@ -1065,6 +1042,36 @@ def checklist_tick_set(
         entry._history_user = by
         entry.save()
     return entry
+
+
+def finish_waits(order: WorkOrder, unticked: Sequence) -> str:
+    """Why ``order`` may not be finished yet with its ``unticked`` lines (``selectors.unticked_lines``) confirmed "done
+    or did not apply", or "" when nothing waits: a step held while another crew is locked out
+    (``moves_or_restores``: a move under power, energy brought back, the return to service;
+    ``_others_locked_out_refusal`` refuses their ticks), or while the telescope's mirror is out
+    (``telescope_out_notices``). The record would otherwise say the tube moved under power with another crew inside (a
+    walk-through finished a recoat's removal so, its slew to the zenith refused a minute before), or that a test under
+    power and the hand-back were done on an unbalanced telescope (a diff review). The finish refuses it
+    (``work_order_finish``); the finish form says it before it is filled in."""
+    steps = [line for line in unticked if line.kind == ChecklistTick.Kind.STEP]
+    waiting = moves_or_restores(order.step_list) if steps else set()
+    after = [line for line in steps if line.key in waiting]
+    if after and (held := still_locked_out(order)):
+        return (
+            "steps that wait for the other crew's locks to come off are not ticked ("
+            + "; ".join(line.label.lower() for line in after)
+            + ") while another crew is still locked out on this telescope: "
+            + "; ".join(f"{a.order.number} {a.order.title}" for a in held)
+            + ". Finish once they have removed their locks and ticked that on their order, and these steps are "
+            "done"
+        )
+    if after and (mirror_out := telescope_out_notices(order)):
+        return (
+            "steps that wait while the telescope's mirror is out are not ticked ("
+            + "; ".join(line.label.lower() for line in after)
+            + f"): {mirror_out[0][0]}. Finish this order once the reinstall is finished and they are done"
+        )
+    return ""
 
 
 def still_locked_out(order: WorkOrder) -> list:

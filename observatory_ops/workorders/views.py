@@ -403,6 +403,7 @@ def work_order_finish(request, pk):
     isolation = selectors.isolation_lines(unticked)  # answered for on their own, not with the other lines
     others = [line for line in unticked if line not in isolation]
     lacking = selectors.hazards_missing(order)
+    waits = services.finish_waits(order, unticked)  # said above the form, before it is filled in
     form = FinishForm(
         request.POST or None, order=order, by=request.user, unticked=others, isolation_unticked=isolation,
         lacking_hazards=lacking,
@@ -503,7 +504,7 @@ def work_order_finish(request, pk):
          "isolation": isolation, "isolation_title": ISOLATION_UNTICKED_TITLE,
          "isolation_question": ISOLATION_UNTICKED_QUESTION, "flagged": flagged, "readings_confirm": READINGS_CONFIRM,
          "lacking": lacking, "lacking_cautions": cautions_for(lacking), "precedence": PRECEDENCE_STATEMENT,
-         "locked_after_release": locked_after_release},
+         "locked_after_release": locked_after_release, "waits": waits},
     )
 
 
