@@ -188,3 +188,23 @@ def new_coating_logged(order, by) -> None:
     from observatory_ops.workorders.selectors import lift_mirror
 
     coating_log(lift_mirror(order), by, site_today(order.site), "al", [{"material": "SiO2", "thickness_nm": 100}])
+
+
+def ticked_in_sequence(order, by, through: int | None = None) -> None:
+    """Tick an order underway as its crew works it: the steps under power before its lockout, then its isolation
+    points as the locks go on, then the lockout and the steps after it up to step index ``through`` (the last step by
+    default). Lines already ticked stay; an order without a lockout ticks its points first, then its steps. A step
+    under power ticked once a lock is on is refused (workorders.services._lockout_sequence_refusal)."""
+    from observatory_ops.workorders import selectors, services
+
+    lines = selectors.checklist(order)
+    found = services.isolated_steps(order.step_list)
+    lockout = found[0] if found is not None else 0
+    last = len(order.step_list) - 1 if through is None else through
+    steps = [step for step in lines.steps if step.key <= last and not step.ticked]
+    for step in (s for s in steps if s.key < lockout):
+        services.checklist_tick_set(order, "step", step.key, True, by)
+    for point in (p for p in lines.points if not p.ticked):
+        services.checklist_tick_set(order, "point", point.key, True, by)
+    for step in (s for s in steps if s.key >= lockout):
+        services.checklist_tick_set(order, "step", step.key, True, by)

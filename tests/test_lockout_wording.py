@@ -17,6 +17,7 @@ import html
 import re
 
 import pytest
+from conftest import ticked_in_sequence
 from test_lockout_steps import _edit
 from test_workorder_finish import _message, _post
 from test_workorder_finish_record import _pdf
@@ -30,7 +31,7 @@ from observatory_ops.workorders.cautions import (
     LOCKOUT_STEP,
     is_lockout_step,
 )
-from observatory_ops.workorders.models import IsolationPoint, State, WorkOrder
+from observatory_ops.workorders.models import State, WorkOrder
 
 #: The lockout step as orders made before it named stored energy of every kind carry it.
 EARLIER = (
@@ -136,9 +137,7 @@ def test_its_lockout_is_ticked_in_sequence_and_its_paper_prints_the_ticks_beside
         services.checklist_tick_set(stored, "step", lockout + 1, True, technician)
     with pytest.raises(services.Refused, match=rf"step {lockout + 1} is the lockout.*'Mount isolator' first"):
         services.checklist_tick_set(stored, "step", lockout, True, technician)
-    services.checklist_tick_set(stored, "point", IsolationPoint.objects.get().pk, True, technician)
-    for index in range(len(stored.step_list)):
-        services.checklist_tick_set(stored, "step", index, True, technician)
+    ticked_in_sequence(stored, technician)
     with pytest.raises(services.Refused, match=rf"the tick on step {lockout + 1} stays"):
         services.checklist_tick_set(stored, "step", lockout, False, technician)
     services.work_order_finish(stored, technician, 1.0, "", _all_readings(stored, 0.6))  # nothing left unticked

@@ -13,6 +13,7 @@ import re
 from zoneinfo import ZoneInfo
 
 import pytest
+from conftest import ticked_in_sequence
 from django.db import connection
 from django.test.utils import CaptureQueriesContext
 from django.utils import dateformat
@@ -204,9 +205,8 @@ def test_the_checklist_is_read_in_the_same_number_of_queries_however_many_ticks(
 
     few = queries()
     assert few == 3  # the ticks; the order's items (for their telescopes); the isolation points
-    services.checklist_tick_set(underway, POINT, _point(underway).pk, True, users["technician"])
-    for index in range(len(underway.step_list)):  # in order: the lockout before the locked-out work
-        services.checklist_tick_set(underway, STEP, index, True, users["technician"])
+    _point(underway)
+    ticked_in_sequence(underway, users["technician"])  # in order: the lockout before the locked-out work
     for index in reversed(range(len(underway.step_list))):  # the lockout's tick after the work done under it
         services.checklist_tick_set(underway, STEP, index, False, users["engineer"])
     assert queries() == few
@@ -280,6 +280,53 @@ def test_the_lockout_step_is_ticked_once_every_point_it_locks_is(underway, users
     services.checklist_tick_set(underway, POINT, air.pk, True, technician)
     services.checklist_tick_set(underway, STEP, 4, True, technician)
     assert selectors.checklist(underway).steps[4].ticked
+
+
+def test_a_step_under_power_that_may_move_an_axis_is_not_ticked_while_the_locks_are_on(underway, users):
+    """A tablet walk-through ticked every isolation point, then "slew and track from the control computer", then the
+    lockout: the record said the telescope slewed with its drives locked out. Before the lockout, a step that may move
+    an axis (services.moves_or_restores) is refused once a point or the lockout is ticked, until the release says the
+    locks are off (OSHA 29 CFR 1910.147(d): shutdown under power comes before the isolating devices are locked)."""
+    technician = users["technician"]
+    steps = underway.step_list
+    moving = sorted(i for i in services.moves_or_restores(steps) if i < 4)
+    assert moving, "the axis order has steps under power that may move an axis before its lockout"
+    mount = _point(underway)
+    for index in (i for i in range(4) if i not in moving):  # those that move no axis are free
+        services.checklist_tick_set(underway, STEP, index, True, technician)
+    services.checklist_tick_set(underway, POINT, mount.pk, True, technician)
+    before = _ticks()
+    with pytest.raises(services.Refused) as refusal:
+        services.checklist_tick_set(underway, STEP, moving[0], True, technician)
+    assert str(refusal.value) == (
+        f"step {moving[0] + 1} is done under power before the lockout and may move an axis, but isolation point "
+        "'Mount isolator' is ticked as locked: if it was done before the locks went on, take back those ticks first, "
+        "tick this one, then tick them again; if not, it is not done with the locks on"
+    )
+    assert _ticks() == before  # nothing stored
+    # Taken back, the point is ticked again after the moves, in their sequence.
+    services.checklist_tick_set(underway, POINT, mount.pk, False, technician)
+    for index in moving:
+        services.checklist_tick_set(underway, STEP, index, True, technician)
+    services.checklist_tick_set(underway, POINT, mount.pk, True, technician)
+    services.checklist_tick_set(underway, STEP, 4, True, technician)
+    assert all(line.ticked for line in selectors.checklist(underway).steps[:5])
+
+
+def test_with_the_lockout_ticked_a_move_under_power_waits_for_the_release(underway, users):
+    technician = users["technician"]
+    steps = underway.step_list
+    moving = min(i for i in services.moves_or_restores(steps) if i < 4)
+    services.checklist_tick_set(underway, POINT, _point(underway).pk, True, technician)
+    services.checklist_tick_set(underway, STEP, 4, True, technician)  # the lockout
+    with pytest.raises(services.Refused, match=rf"^step {moving + 1} is done under power before the lockout and may "
+                                               r"move an axis, but the lockout \(step 5\) and isolation point "
+                                               r"'Mount isolator' are ticked as locked: "):
+        services.checklist_tick_set(underway, STEP, moving, True, technician)
+    services.checklist_tick_set(underway, STEP, 5, True, technician)  # the locked-out work
+    services.checklist_tick_set(underway, STEP, 6, True, technician)  # the release: the locks are off
+    services.checklist_tick_set(underway, STEP, moving, True, technician)  # under power again
+    assert selectors.checklist(underway).steps[moving].ticked
 
 
 def test_without_registered_points_only_the_lockout_step_comes_first(underway, users):
@@ -635,10 +682,10 @@ def test_a_finished_order_shows_its_ticks_read_only(underway, users, client):
 
 def test_the_finished_paper_prints_each_tick_once_beside_its_line_with_who_and_when(underway, users):
     point = _point(underway)
-    services.checklist_tick_set(underway, POINT, point.pk, True, users["technician"])
-    services.checklist_tick_set(underway, STEP, 0, True, users["technician"])
+    services.checklist_tick_set(underway, STEP, 0, True, users["technician"])  # under power, before the locks
     services.checklist_tick_set(underway, STEP, 2, True, users["engineer"])
     services.checklist_tick_set(underway, STEP, 2, False, users["engineer"])
+    services.checklist_tick_set(underway, POINT, point.pk, True, users["technician"])
     assert selectors.sheet(underway, "https://ops.example/wo/1/").confirmations == ()  # not finished yet
     _finish(underway, users)
 
@@ -780,9 +827,8 @@ def test_finishing_with_unticked_lines_needs_the_confirmation_and_the_record_kee
 
 
 def test_a_line_whose_tick_was_taken_back_after_the_page_loaded_is_not_confirmed_unseen(underway, users):
-    services.checklist_tick_set(underway, POINT, _point(underway).pk, True, users["technician"])
-    for index in range(len(underway.step_list) - 1):
-        services.checklist_tick_set(underway, STEP, index, True, users["technician"])
+    _point(underway)
+    ticked_in_sequence(underway, users["technician"], through=len(underway.step_list) - 2)
     seen = [line.text for line in selectors.unticked_lines(underway)]  # only the last step
     services.checklist_tick_set(underway, STEP, 0, False, users["engineer"])  # meanwhile, on another tablet
     with pytest.raises(services.Refused, match=r"not ticked: step 1 \("):
@@ -793,9 +839,8 @@ def test_a_line_whose_tick_was_taken_back_after_the_page_loaded_is_not_confirmed
 
 
 def test_with_every_line_ticked_finishing_needs_no_confirmation(underway, users, client):
-    services.checklist_tick_set(underway, POINT, _point(underway).pk, True, users["technician"])
-    for index in range(len(underway.step_list)):
-        services.checklist_tick_set(underway, STEP, index, True, users["technician"])
+    _point(underway)
+    ticked_in_sequence(underway, users["technician"])
     client.force_login(users["technician"])
     page = client.get(f"/workorders/{underway.pk}/finish/").content.decode()
     assert "Every isolation point and step is ticked." in page and "I confirm" not in page

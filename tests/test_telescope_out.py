@@ -130,9 +130,10 @@ def test_with_the_mirror_out_starting_asks_and_nothing_that_moves_an_axis_or_bri
     lockout, locked = services.isolated_steps(steps)
     assert {i for i in range(lockout) if "slew" in steps[i].lower() or "park" in steps[i].lower()} <= waiting
     assert set(range(locked.stop + 1, len(steps))) <= waiting and lockout not in waiting and locked.stop not in waiting
-    for point in selectors.isolation_points(order):
-        services.checklist_tick_set(order, "point", point.pk, True, users["technician"])
     for index in range(len(steps)):
+        if index == lockout:  # the locks go on
+            for point in selectors.isolation_points(order):
+                services.checklist_tick_set(order, "point", point.pk, True, users["technician"])
         if index in waiting:
             with pytest.raises(services.Refused, match=rf"step {index + 1} (is done under power before the lockout "
                                                        r"and may move an axis|is done after the locks come off|hands "

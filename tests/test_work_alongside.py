@@ -13,7 +13,7 @@ import html
 import re
 
 import pytest
-from conftest import mains_isolator
+from conftest import mains_isolator, ticked_in_sequence
 from test_workorder_pdf import body_text
 from test_workorders import PLANNED, drive, order  # noqa: F401  (fixtures, used by name)
 
@@ -69,11 +69,8 @@ def test_each_order_underway_warns_of_the_other_on_its_page_and_on_paper(order, 
         page = _text(client.get(f"/workorders/{this.pk}/"))
         assert "Other work is underway on T1" in page and other.number in page and ALONGSIDE_ADVICE in page
     underway = WorkOrder.objects.get(pk=drive_order.pk)
-    for point in selectors.isolation_points(underway):  # the points first, then the lockout step (their sequence)
-        services.checklist_tick_set(underway, "point", point.pk, True, users["technician"])
     lockout = next(i for i, step in enumerate(underway.step_list) if services.is_lockout_step(step))
-    for step in range(lockout + 1):
-        services.checklist_tick_set(underway, "step", step, True, users["technician"])
+    ticked_in_sequence(underway, users["technician"], through=lockout)  # the points, then the lockout step
     assert "its lockout is ticked" in _text(client.get(f"/workorders/{fans_order.pk}/"))
     paper = " ".join(body_text(render_sheet(selectors.sheet(WorkOrder.objects.get(pk=fans_order.pk), "http://x/"))).split())
     assert "When this was printed, other work was underway on T1" in paper and drive_order.number in paper
@@ -103,15 +100,8 @@ def _both_underway(drive_draft, fans_order, users) -> tuple[WorkOrder, WorkOrder
 
 
 def _tick_through(underway, users, last: int) -> None:
-    """Tick an order underway in its sequence: its isolation points, then steps 0 to ``last`` (those not ticked
-    yet)."""
-    lines = selectors.checklist(underway)
-    for point in lines.points:
-        if not point.ticked:
-            services.checklist_tick_set(underway, "point", point.key, True, users["technician"])
-    for step in lines.steps[:last + 1]:
-        if not step.ticked:
-            services.checklist_tick_set(underway, "step", step.key, True, users["technician"])
+    """Tick an order underway in its sequence up to step ``last`` (conftest.ticked_in_sequence)."""
+    ticked_in_sequence(underway, users["technician"], through=last)
 
 
 def _powered_first(users, *underway) -> None:
@@ -235,11 +225,7 @@ def test_the_observatory_goes_back_to_robotic_control_only_when_no_other_crew_ha
         f"ok\nStep {last + 1}, the hand-back to robotic and remote control, was left to the last crew out: "
         f"{fans_order.number} {fans_order.title}, still at work on the telescope when this order was finished.")
     # The fans crew, the last out, finishes its work and hands the observatory back.
-    fans_last = len(fans_order.step_list) - 1
-    for point in selectors.isolation_points(fans_order):
-        services.checklist_tick_set(fans_order, "point", point.pk, True, users["technician"])
-    for step in range(1, fans_last + 1):
-        services.checklist_tick_set(fans_order, "step", step, True, users["technician"])
+    ticked_in_sequence(fans_order, users["technician"])
 
 
 def test_two_crews_both_done_may_each_hand_back(order, fans_order, users):  # noqa: F811

@@ -13,6 +13,7 @@ import importlib
 import re
 
 import pytest
+from conftest import ticked_in_sequence
 from test_workorder_finish import (  # noqa: F401  (fixtures, used by name)
     _message,
     _nothing_stored,
@@ -213,10 +214,8 @@ def test_a_crew_name_too_long_is_refused_naming_the_field_and_stores_nothing(ord
 
 def test_a_finished_papers_ticks_are_printed_once_beside_their_lines(order, users, client):  # noqa: F811
     _started(order, users)
-    point = IsolationPoint.objects.get()
-    services.checklist_tick_set(order, "point", point.pk, True, users["technician"])
-    for index in range(services.isolated_steps(order.step_list)[1].stop + 1):  # up to the lock removal
-        services.checklist_tick_set(order, "step", index, True, users["technician"])
+    ticked_in_sequence(order, users["technician"], through=services.isolated_steps(order.step_list)[1].stop)
+    # up to the lock removal
     services.work_order_finish(order, users["technician"], 1.0, "", _all_readings(order, 0.6),
                                confirmed_unticked=_unticked(order))  # the isolation ticked: no answer asked
     client.force_login(users["viewer"])
@@ -441,10 +440,8 @@ def test_a_lock_removal_nobody_ticked_is_answered_for_with_the_isolation_not_as_
     The lock removal now joins the lines of the energy isolation (selectors.isolation_lines), whose "isolated" answer
     says the locks came off only after the work (cautions.ISOLATION_UNTICKED)."""
     _started(order, users)
-    services.checklist_tick_set(order, "point", IsolationPoint.objects.get().pk, True, users["technician"])
     lockout, locked = services.isolated_steps(order.step_list)
-    for index in range(locked.stop):  # everything up to the lock removal, not it
-        services.checklist_tick_set(order, "step", index, True, users["technician"])
+    ticked_in_sequence(order, users["technician"], through=locked.stop - 1)  # up to the lock removal, not it
     release = order.step_list[locked.stop]
     with pytest.raises(services.Refused, match=re.escape(f"the energy isolation is not ticked (step {locked.stop + 1} "
                                                          f"({release}))")):

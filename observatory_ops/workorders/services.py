@@ -1239,14 +1239,35 @@ def _lockout_sequence_refusal(order: WorkOrder, line: tuple, ticked: bool, what:
     if release is not None and key > release and not step_done(release):
         # The steps after the release restore power and test under it: only once the locks are off (1910.147(e)).
         return f"step {key + 1} is done after the locks come off: tick step {release + 1}, which removes them, first"
-    if key != lockout and key not in locked:
+    if key != lockout and key not in locked and not (key < lockout and key in moves_or_restores(steps)):
         return ""
     points = isolation_points(order)
     several = len({p.telescope_id for p in points}) > 1
-    open_points = [
-        f"'{p.telescope.name}: {p.label}'" if several else f"'{p.label}'"
-        for p in points if not done((ChecklistTick.Kind.POINT, p.pk), p.description)
-    ]
+
+    def point_named(point) -> str:
+        return f"'{point.telescope.name}: {point.label}'" if several else f"'{point.label}'"
+
+    open_points = [point_named(p) for p in points if not done((ChecklistTick.Kind.POINT, p.pk), p.description)]
+    if key < lockout:
+        # A step under power that may move an axis, ticked once locks are on: the record would show the telescope
+        # slewed with its drives locked out (a tablet walk-through ticked every point, then the slew, then the
+        # lockout). Either it was done before the locks went on, and is ticked in that place, or not done with them on.
+        # Once the release is ticked the locks are off, and it may be done under power again (a step left while the
+        # telescope's mirror was out, done after the reinstall).
+        if release is not None and step_done(release):
+            return ""
+        on = [] if not step_done(lockout) else [f"the lockout (step {lockout + 1})"]
+        if locked_points := [point_named(p) for p in points if done((ChecklistTick.Kind.POINT, p.pk), p.description)]:
+            on.append(f"isolation point{'s' if len(locked_points) > 1 else ''} {', '.join(locked_points)}")
+        if not on:
+            return ""
+        ticks_on = " and ".join(on)
+        return (
+            f"step {key + 1} is done under power before the lockout and may move an axis, but {ticks_on} "
+            f"{'are' if len(on) > 1 or len(locked_points) > 1 else 'is'} ticked as locked: if it was done before the "
+            "locks went on, take back those ticks first, tick this one, then tick them again; if not, it is not done "
+            "with the locks on"
+        )
     named = f"isolation point{'s' if len(open_points) > 1 else ''} {', '.join(open_points)}"
     if key == lockout:
         # The lockout step's own words ("Isolate, lock and tag every energy source listed under 'Energy isolation
