@@ -101,7 +101,8 @@ def test_the_recoat_line_and_the_estimate_read_alike_on_the_subsystem_and_mirror
 
 def _model(pm10_months: int, pm10_nights: int) -> services.UsageModel:
     return services.UsageModel(
-        first_day=dt.date(2026, 6, 15), open_hours=np.zeros(1), month_pm10=np.full(12, 35.0), per_open_hour={},
+        first_day=dt.date(2026, 6, 15), open_hours=np.zeros(1), month_pm10=np.full(12, 35.0),
+        month_excess=np.full(12, 0.75), per_open_hour={},
         open_fraction=np.full(12, 0.6), from_history=np.ones(12, bool), months_from_history=12, spread=0.2,
         months=np.ones(1, int), dark_hours=np.zeros(1), pm10_months=pm10_months, pm10_nights=pm10_nights,
     )
@@ -109,10 +110,11 @@ def _model(pm10_months: int, pm10_nights: int) -> services.UsageModel:
 
 def test_the_dust_basis_names_the_rest_only_when_some_months_take_the_overall_mean():
     every = _model(12, 400).dust_basis
-    assert every == "dust: this site's mean PM10 for every month (each measured on at least 20 open nights)"
+    assert every == ("dust: each coming open hour weighs what this site's past open hours of its month weighed on "
+                     "average (every month measured on at least 20 open nights)")
     assert "for the rest" in _model(7, 200).dust_basis and "7 of 12 months" in _model(7, 200).dust_basis
-    assert _model(0, 30).dust_basis == ("dust: this site's overall mean PM10 for every month (no month measured on "
-                                        "20 open nights yet)")
+    assert _model(0, 30).dust_basis == ("dust: each coming open hour weighs what this site's past open hours weighed "
+                                        "on average (no month measured on 20 open nights yet)")
 
 
 def test_concentrations_are_written_in_micrograms_per_cubic_metre_on_pages(db, users, client):
@@ -124,6 +126,7 @@ def test_concentrations_are_written_in_micrograms_per_cubic_metre_on_pages(db, u
     page = html.unescape(client.get(fans.get_absolute_url()).content.decode())
     assert "Mean PM10 while open, µg/m³" in page and "(PM10 in µg/m³, 20 = clean air;" in page
     assert "ug/m3" not in page
-    assert "PM10 for every month" in page and "for the rest" not in page
+    assert "of its month weighed on average (every month measured" in page and "for the rest" not in page
+    assert "Mean excess over clean air of an open hour, max(0, PM10 − 20) / 20" in page
     assert "µg/m³" in exposure.dust_weight_formula(1.0)
     assert "pm10_ugm3" in nights_csv.example_csv()  # the CSV column keeps its name: it is a format

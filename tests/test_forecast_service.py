@@ -155,6 +155,33 @@ def test_one_dusty_night_does_not_set_a_months_dust_forecast(synthetic):
     assert np.allclose(model.month_pm10, 60) and model.pm10_months == 12
 
 
+def test_a_coming_open_hour_weighs_what_its_months_past_open_hours_weighed_not_the_weight_of_their_mean_pm10(
+    synthetic
+):
+    """A traceability review: the forecast weighed each coming hour by the weight of the month's mean PM10, so a month
+    of nights at 10 and 30 ug/m3 (mean 20, clean air) forecast a weight of 1 while half its hours weighed 1.5 (s = 1),
+    and dust-weighted plans came due late. Checked against the mean weight of each month's past open hours computed
+    here from the stored nights, night by night, with the weight's definition (1 + s x max(0, PM10 - 20) / 20)."""
+    site, subsystem, start = synthetic
+    rows = list(NightUsage.objects.filter(site=site).order_by("night"))
+    for i, row in enumerate(rows):
+        row.pm10_ugm3 = 10.0 if i % 2 else 30.0
+    NightUsage.objects.bulk_update(rows, ["pm10_ugm3"])
+    model = services.usage_model(site, services.UsageLog.site_wide(site), TODAY, 400)
+    sensitivity = 1.5
+    by_month: dict[int, list[float]] = {}
+    for row in NightUsage.objects.filter(site=site, open_hours__gt=0):
+        weight = 1.0 + sensitivity * max(0.0, row.pm10_ugm3 - 20.0) / 20.0
+        totals = by_month.setdefault(row.night.month, [0.0, 0.0])
+        totals[0] += row.open_hours * weight
+        totals[1] += row.open_hours
+    expected = model.expected("dust_hours", sensitivity) / np.where(model.open_hours > 0, model.open_hours, np.nan)
+    for month, (weighted, hours) in by_month.items():
+        coming = model.months == month
+        assert np.allclose(expected[coming & (model.open_hours > 0)], weighted / hours, rtol=1e-9), month
+    assert np.nanmin(expected) > 1.2  # about 1 + 1.5 x 0.25, where the mean PM10 (about 20) weighed 1
+
+
 def test_overdue_due_and_later(synthetic):
     site, subsystem, start = synthetic
     overdue = _plan(subsystem, "overdue", [("open_hours", 2000)], start)

@@ -34,9 +34,17 @@ def dust_weight(pm10_ugm3: ArrayLike, sensitivity: float) -> NDArray[np.float64]
     """
     if sensitivity < 0:
         raise ValueError(f"dust sensitivity must be 0 or more, not {sensitivity}")
+    return 1.0 + sensitivity * dust_excess(pm10_ugm3)
+
+
+def dust_excess(pm10_ugm3: ArrayLike) -> NDArray[np.float64]:
+    """``max(0, PM10 - PM_ref) / PM_ref``, the excess over clean air in :func:`dust_weight` (NaN: clean air, 0).
+
+    The weight is linear in it, so the mean weight of many hours is ``1 + s * (their mean excess)``, whatever ``s``;
+    it is not the weight of their mean PM10, since the excess is 0 below the reference (a month of nights at 10 and
+    30 ug/m3 averages 20, clean air, while half its hours weigh more than one)."""
     pm10 = np.nan_to_num(np.asarray(pm10_ugm3, dtype=float), nan=CLEAN_AIR_PM10_UGM3)
-    excess = np.maximum(pm10 - CLEAN_AIR_PM10_UGM3, 0.0) / CLEAN_AIR_PM10_UGM3
-    return 1.0 + sensitivity * excess
+    return np.maximum(pm10 - CLEAN_AIR_PM10_UGM3, 0.0) / CLEAN_AIR_PM10_UGM3
 
 
 def dust_weight_formula(sensitivity: float) -> str:

@@ -536,6 +536,7 @@ def expected_use_by_month(subsystem: Subsystem, plans: list[ServicePlan]) -> dic
             "years": int(years[calendar]),
             "logged_nights": int(logged[calendar]),
             "pm10": None if np.isnan(model.month_pm10[calendar]) else float(model.month_pm10[calendar]),
+            "excess": float(model.month_excess[calendar]),
             # (per day, running total at the month's end) of each column
             "figures": [(rate_text(float(e[index].mean())), f"{r[index[-1]]:,.0f}")
                         for e, r in zip(expected, running, strict=True)],
@@ -550,6 +551,7 @@ def expected_use_by_month(subsystem: Subsystem, plans: list[ServicePlan]) -> dic
         "telescope": subsystem.telescope.name if log.telescope_id else "",  # from its own nights
         "dust_basis": model.dust_basis if any(m == metrics.DUST_HOURS for m, _ in columns) else "",
         "prior": forecast.PRIOR_OPEN_FRACTION, "least_nights": forecast.MIN_NIGHTS_FOR_HISTORY,
+        "clean_air": exposure.CLEAN_AIR_PM10_UGM3,
     }
 
 

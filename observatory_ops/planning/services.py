@@ -299,7 +299,8 @@ class UsageModel:
 
     first_day: dt.date
     open_hours: np.ndarray
-    month_pm10: np.ndarray  # 12 values, NaN where never measured
+    month_pm10: np.ndarray  # 12 values, NaN where never measured: shown
+    month_excess: np.ndarray  # 12 values, the mean dust excess of an open hour (calc.exposure.dust_excess), 0: clean
     per_open_hour: dict[str, float]  # usage field -> rate per open hour
     open_fraction: np.ndarray  # 12 values
     from_history: np.ndarray  # 12 booleans: False where the month took the prior (calc.forecast)
@@ -319,8 +320,7 @@ class UsageModel:
         if metric == metrics.OPEN_HOURS:
             return self.open_hours
         if metric == metrics.DUST_HOURS:
-            weight = exposure.dust_weight(self.month_pm10[self.months - 1], dust_sensitivity)
-            return self.open_hours * weight
+            return self.open_hours * (1.0 + dust_sensitivity * self.month_excess[self.months - 1])
         return self.open_hours * self.per_open_hour[metrics.USAGE_FIELDS[metric]]
 
     @property
@@ -366,13 +366,14 @@ class UsageModel:
         if self.pm10_nights < least:
             return (f"dust: PM10 measured on {self.pm10_nights} open nights, under {least}, so counted as clean "
                     "air")
+        weighs = "dust: each coming open hour weighs what this site's past open hours"
         if self.pm10_months == 12:
-            return f"dust: this site's mean PM10 for every month (each measured on at least {least} open nights)"
+            return (f"{weighs} of its month weighed on average (every month measured on at least {least} open "
+                    "nights)")
         if self.pm10_months == 0:
-            return (f"dust: this site's overall mean PM10 for every month (no month measured on {least} open "
-                    "nights yet)")
-        return (f"dust: this site's mean PM10 for {self.pm10_months} of 12 months (each measured on at least "
-                f"{least} open nights) and its overall mean for the rest")
+            return f"{weighs} weighed on average (no month measured on {least} open nights yet)"
+        return (f"{weighs} of its month weighed on average for {self.pm10_months} of 12 months (each measured on "
+                f"at least {least} open nights), and what all of them weighed for the rest")
 
 
 def _dark_hours(site: Site, start: dt.date, end: dt.date) -> np.ndarray | None:
@@ -436,19 +437,23 @@ def usage_model(site: Site, log: UsageLog, first_day: dt.date, days: int) -> Usa
     }
     per_open_hour["open_hours"] = 1.0
 
-    # Mean PM10 while open, per calendar month, as the open fraction is made: a month measured on fewer than
-    # forecast.MIN_NIGHTS_FOR_HISTORY open nights takes the site's overall mean, and a site with fewer such
-    # nights in all counts as clean air (calc.exposure.dust_weight), so one dusty night cannot set a month.
-    month_pm10 = np.full(12, np.nan)
+    # Dust per calendar month, as the open fraction is made, weighted by open hours: the mean PM10 while open (shown)
+    # and the mean excess over clean air (calc.exposure.dust_excess), which the forecast weighs each coming open hour
+    # by, 1 + s x excess: the mean weight of the month's past open hours. The weight of the mean PM10 would count a
+    # month of nights at 10 and 30 as clean air and bring its plans due late (a traceability review: 1.05 for a
+    # month whose hours weighed 1.20). A month measured on fewer than forecast.MIN_NIGHTS_FOR_HISTORY open nights
+    # takes the site's overall means, and a site with fewer such nights in all counts as clean air, so one dusty
+    # night cannot set a month.
+    month_pm10, month_excess = np.full(12, np.nan), np.zeros(12)
     measured = ~np.isnan(log.pm10) & (open_h > 0)
     pm10_nights = np.bincount(past_months[measured] - 1, minlength=12)[:12]
     if pm10_nights.sum() >= forecast.MIN_NIGHTS_FOR_HISTORY:
+        own = pm10_nights >= forecast.MIN_NIGHTS_FOR_HISTORY
         weights = np.bincount(past_months[measured] - 1, weights=open_h[measured], minlength=12)[:12]
-        sums = np.bincount(past_months[measured] - 1, weights=(open_h * log.pm10)[measured], minlength=12)[:12]
         with np.errstate(invalid="ignore", divide="ignore"):
-            month_pm10 = np.where(
-                pm10_nights >= forecast.MIN_NIGHTS_FOR_HISTORY, sums / weights, sums.sum() / weights.sum()
-            )
+            for values, into in ((log.pm10, month_pm10), (exposure.dust_excess(log.pm10), month_excess)):
+                sums = np.bincount(past_months[measured] - 1, weights=(open_h * values)[measured], minlength=12)[:12]
+                into[:] = np.where(own, sums / weights, sums.sum() / weights.sum())
 
     # Month-to-month spread: each complete past (year, month) against the same month of the other years
     # (calc.forecast.months_left_out). The month of the night after the last logged one (or of the first forecast
@@ -465,6 +470,7 @@ def usage_model(site: Site, log: UsageLog, first_day: dt.date, days: int) -> Usa
         first_day=first_day,
         open_hours=open_hours,
         month_pm10=month_pm10,
+        month_excess=month_excess,
         per_open_hour=per_open_hour,
         rates_from=rates_from,
         open_fraction=fraction,
