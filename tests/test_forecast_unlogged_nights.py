@@ -161,3 +161,24 @@ def test_nights_before_the_log_begins_count_no_use_and_the_basis_says_how_many(q
     # The value is what the log holds (the unlogged nights since move the forecast, not the value): nothing before.
     assert status.value == pytest.approx(logged, abs=1e-6)
     assert "before it count no use" not in PlanStatus.objects.get(plan=inside).basis
+
+
+def test_tonight_logged_in_the_afternoon_is_not_expected_again(quiet_since_new_year):
+    """A traceability review: with today's night logged (a shutdown entered in the afternoon as 0 hours, as the README
+    advises), the forecast still counted from today, so tonight's use was counted twice, logged and expected. By hand:
+    June nights open 6 h; every night to 15 Jun logged, a plan counting from 1 Jun has 15 x 6 = 90 h; a limit of 108 h
+    leaves 18 h, three coming nights: 16, 17 and 18 Jun, so it is reached on 18 Jun (17 Jun if tonight were counted
+    again)."""
+    site, fans = quiet_since_new_year
+    first = LAST_LOGGED + dt.timedelta(days=1)
+    NightUsage.objects.bulk_create(
+        NightUsage(site=site, night=first + dt.timedelta(days=i),
+                   open_hours=OPEN_HOURS_BY_MONTH[(first + dt.timedelta(days=i)).month])
+        for i in range((TODAY - first).days + 1)
+    )
+    plan = _open_hours_plan(fans, "Filters", 108, dt.date(2026, 6, 1))
+    services.site_recompute(site, TODAY)
+    state = PlanStatus.objects.get(plan=plan)
+    assert state.value == pytest.approx(90.0) and state.forecast_date == dt.date(2026, 6, 18)
+    model = services.forecast_model(site, services.UsageLog.site_wide(site), TODAY)
+    assert model.first_day == TODAY + dt.timedelta(days=1) and model.unlogged_nights == 0

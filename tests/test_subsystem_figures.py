@@ -132,7 +132,7 @@ def test_the_expected_use_by_month_shown_reproduces_the_forecast_date(db, users,
     first_day = dt.datetime.strptime(re.search(r"total counts from\s+(\d\d \w{3} \d{4})", page)[1], "%d %b %Y").date()
 
     remaining, total, found = hours["limit"] - hours["value"], 0.0, None
-    for month, nights, dark, fraction, _pm10, per_day, *_ in _month_rows(page):
+    for month, nights, dark, fraction, _pm10, _excess, per_day, *_ in _month_rows(page):
         nights, per_day = int(nights), float(per_day)
         # the figures of a row agree: dark hours x open fraction = expected open hours per day
         assert float(dark) * float(fraction.split()[0]) == pytest.approx(per_day, rel=5e-3)
@@ -151,11 +151,11 @@ def test_dust_weighted_figures_name_the_sensitivity_and_the_weighting(db, users,
     page = html.unescape(client.get(fans.get_absolute_url()).content.decode())
     assert exposure.dust_weight_formula(1.5) in page
     assert "1 + 1.5 x max(0, PM10 - 20) / 20" in exposure.dust_weight_formula(1.5)
-    # each month's dust-weighted hours per day = open hours per day x the weight at that month's PM10 (35 ug/m3
-    # on every logged night: 1 + 1.5 x 15 / 20 = 2.125)
+    # each month's dust-weighted hours per day = open hours per day x the mean weight of its open hours (35 ug/m3
+    # on every logged night: an excess of 15 / 20 = 0.75, a weight of 1 + 1.5 x 0.75 = 2.125)
     for row in _month_rows(page):
-        assert float(row[7]) == pytest.approx(float(row[5]) * 2.125, rel=5e-3)
-        assert row[4] == "35"
+        assert float(row[8]) == pytest.approx(float(row[6]) * 2.125, rel=5e-3)
+        assert row[4] == "35" and row[5] == "0.750"
     # the dust plan is past its limit: its forecast column says when the limit was reached, not a bare date
     status = PlanStatus.objects.get(plan__subsystem=fans, metric="dust_hours")
     assert f"reached {status.forecast_date:%d %b %Y}" in page

@@ -212,7 +212,7 @@ def mirror_forecast(
 ) -> MirrorForecast:
     """Fresh reflectance, fitted decline, current estimate, recoat threshold and its crossing date.
 
-    ``log`` and ``model`` (expected usage from ``model.first_day``, on or before ``today``) may be passed
+    ``log`` and ``model`` (expected usage from ``model.first_day``, on or before ``today``'s next day) may be passed
     by a caller that has already read them, such as the site recompute; otherwise they are read here.
     """
     today = today or site_today(mirror.subsystem.telescope.site)
@@ -308,7 +308,7 @@ def mirror_forecast(
     # is a fixed number.
     crossing = reflectance.crossing_exposure(fit, result.threshold, follows_r0=result.log_begins is None)
     result.crossing_exposure_h = crossing.exposure_h
-    if model is None or model.first_day > today:
+    if model is None or model.first_day > today + dt.timedelta(days=1):  # a model made for a later day
         model = forecast_model(mirror.subsystem.telescope.site, log, today)
     # The nights after the last logged one (and after the coating) are taken as used at the expected rate, as the
     # plans take them: the forecast counts from the first of them, and a crossing among them is today.

@@ -488,8 +488,9 @@ def usage_model(site: Site, log: UsageLog, first_day: dt.date, days: int) -> Usa
 
 
 def forecast_model(site: Site, log: UsageLog, today: dt.date) -> UsageModel:
-    """The usage model a recompute forecasts with: from the first night not yet logged (today at the latest) to
-    ``HORIZON_DAYS`` after today.
+    """The usage model a recompute forecasts with: from the first night not yet logged to ``HORIZON_DAYS`` after
+    today. That is today's night at the latest, or tomorrow's once today's is logged (a shutdown entered in the
+    afternoon as 0 hours: a traceability review found tonight counted twice, logged and expected).
 
     Past nights after the last logged one are taken as used at the expected rate, a plan's from its baseline when
     that is later (``_site_recompute``): a log that lags behind still moves the due dates on (common practice, no
@@ -497,9 +498,9 @@ def forecast_model(site: Site, log: UsageLog, today: dt.date) -> UsageModel:
     every plan counting from before it is due. The basis says so once more than ``UNLOGGED_NIGHTS_SAID`` nights
     are missing."""
     last_logged = _as_date(log.nights[-1]) if len(log.nights) else None
-    first_day = min(today, last_logged + dt.timedelta(days=1)) if last_logged else today
+    first_day = last_logged + dt.timedelta(days=1) if last_logged else today
     model = usage_model(site, log, first_day, (today - first_day).days + HORIZON_DAYS)
-    return replace(model, unlogged_nights=(today - first_day).days) if last_logged else model
+    return replace(model, unlogged_nights=max((today - first_day).days, 0)) if last_logged else model
 
 
 # --- the recompute ----------------------------------------------------------------------------------
@@ -662,7 +663,7 @@ def _site_recompute(site: Site, today: dt.date) -> int:
         log, model = logs[key], models_[key]
         first_day = model.first_day
         first_counted = np.datetime64(first_day, "D")
-        ahead = (today - first_day).days  # the model's day index of today: "the next month" starts there
+        ahead = max((today - first_day).days, 0)  # the model's day index of today: "the next month" starts there
         since = _day_array(baselines[p.pk] for p, _ in members)
         per_night = log.per_night(metric, sens)
         values = exposure.accumulated_since(log.nights, per_night, since)

@@ -16,7 +16,10 @@ class WorkOrderTable(tables.Table):
     number = tables.Column(accessor="pk", verbose_name="Number", attrs=_LABELLED)
     state = tables.Column(attrs=_LABELLED)
     title = tables.Column(attrs=_LABELLED)
-    site = tables.Column(accessor="site__name", verbose_name="Site", attrs=_LABELLED)
+    # order-site: the column site.css leaves out on a tablet, for the list to fit without scrolling sideways.
+    site = tables.Column(accessor="site__name", verbose_name="Site", attrs={
+        "th": {"class": "order-site"}, "td": {**_LABELLED["td"], "class": "order-site"},
+    })
     # An order over several telescopes has none of its own: its items name them (``selectors.work_orders_listed``
     # fetches them for the whole page at once). empty_values=(): rendered for those too.
     telescope = tables.Column(accessor="telescope__name", verbose_name="Telescope", empty_values=(), attrs=_LABELLED)
@@ -32,7 +35,7 @@ class WorkOrderTable(tables.Table):
         attrs = {"class": "card-table"}
 
     def render_number(self, record):
-        return format_html('<a href="{}">{}</a>', record.get_absolute_url(), record.number)
+        return format_html('<a class="nowrap" href="{}">{}</a>', record.get_absolute_url(), record.number)
 
     def render_telescope(self, record):
         if record.telescope_id:
