@@ -233,6 +233,18 @@ def test_an_order_whose_hazards_nobody_recorded_says_so_and_is_neither_issued_no
     assert HAZARDS["cryogen"] in _titles(order)
 
 
+def test_the_isolation_statement_prints_a_subsystem_name_with_markup_characters_as_written(telescope, site, users,
+                                                                                            client):
+    """A bad-input review: the statement names subsystems, and reportlab read "Fans & <filters>" as markup, printing
+    "Fans &" (the name's "<filters>" lost) under "Energy isolation"."""
+    odd = Subsystem.objects.create(telescope=telescope, kind="other", name='Fans & <filters> "x"')
+    order = services.work_order_ad_hoc(site, [odd], "Refill the dewar", users["engineer"], steps="Refill it.",
+                                       planned_date=START)
+    client.force_login(users["engineer"])
+    paper = " ".join(body_text(client.get(f"/workorders/{order.pk}/pdf/").content).split())
+    assert 'T1: Fans & <filters> "x"' in paper
+
+
 def test_an_engineers_no_hazards_found_lets_the_order_go_with_the_no_isolation_statement(unrecorded, site, users):
     order = services.work_order_ad_hoc(site, [unrecorded], "Label the line", users["engineer"],
                                        steps="Label it.", planned_date=START)

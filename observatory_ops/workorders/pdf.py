@@ -583,7 +583,7 @@ def _cautions(sheet: Sheet, width: float) -> list[Flowable]:
 
 def _isolation(sheet: Sheet) -> list[Flowable]:
     if not sheet.isolation_needed:
-        return [_heading("Energy isolation"), _note(sheet.isolation_statement or NO_ISOLATION_NEEDED)]
+        return [_heading("Energy isolation"), _note(_text(sheet.isolation_statement or NO_ISOLATION_NEEDED))]
     heading = _heading("Energy isolation points \N{EN DASH} lock out and tag each before the work starts")
     if not sheet.isolation_points:
         return [heading, _note("None listed for this telescope. Ask the site engineer before working on powered "
