@@ -113,3 +113,44 @@ def test_a_decimal_comma_is_answered_with_the_point_to_use(mirror, users, client
     response = client.post(f"/subsystems/{mirror.subsystem.pk}/readings/new/",
                            {"quantity": "reflectance", "value": "0,87", "taken_at": taken})
     assert response.context["form"].errors["value"] == ["Enter a number, with a point for decimals (0.87, not 0,87)."]
+
+
+def test_a_band_mean_far_below_what_a_coated_mirror_reflects_is_asked_about_on_both_forms(mirror, users, client):  # noqa: F811,E501
+    """A bad-input review: a reflectance of 0 (a field left at 0) was stored at once and made the recoat overdue. A
+    band mean under LOWEST_UNQUESTIONED (0.5, our own bound: a dirty aluminium mirror still reflects about 0.7, from
+    memory) is asked about on the mirror's form and on the reading form, and stored only once the box is ticked."""
+    import datetime as dt
+
+    from django.utils import timezone
+
+    from observatory_ops.logbook.models import Reading
+    from observatory_ops.mirrors.forms import LOWEST_UNQUESTIONED
+
+    assert LOWEST_UNQUESTIONED == 0.5
+    client.force_login(users["technician"])
+    before = (list(Reading.objects.values_list("pk")), list(ReflectanceMeasurement.objects.values_list("pk")))
+    for value in ("0", "-0", "0.3"):
+        text = re.sub(r"\s+", " ", strip_tags(_post(client, mirror, value).content.decode()))
+        assert "is far below what a coated mirror reflects (a dirty aluminium one still about 0.7)" in text, value
+    site = mirror.subsystem.telescope.site
+    taken = f"{timezone.localtime(timezone.now() - dt.timedelta(hours=1), site.zone):%Y-%m-%dT%H:%M}"
+    url = f"/subsystems/{mirror.subsystem.pk}/readings/new/"
+    response = client.post(url, {"quantity": "reflectance", "value": "0", "taken_at": taken})
+    assert "0 is far below what a coated mirror reflects" in strip_tags(response.content.decode())
+    assert (list(Reading.objects.values_list("pk")), list(ReflectanceMeasurement.objects.values_list("pk"))) == before
+    asked = re.search(r'name="questioned" value="([^"]*)"', _post(client, mirror, "0.3").content.decode()).group(1)
+    assert _post(client, mirror, "0.3", value_confirmed="on", questioned=asked).status_code == 302
+    # Kept, it bends the straight line's fresh value R0 above 1: that fit is not used, and the page says why (the
+    # site's recompute had stopped on a recoat line above 1).
+    state = services.mirror_forecast(mirror)
+    assert state.fit is None and state.fit_note.startswith("no fit yet: the fitted fresh value R0 = ")
+    assert "is not a reflectance between 0 and 1: a measurement in the list is likely wrong" in state.fit_note
+    assert client.get(f"/mirrors/{mirror.pk}/").status_code == 200
+    assert _post(client, mirror, "0.55").status_code == 302  # above the bound: not asked
+
+
+def test_a_percentage_on_the_measurement_form_is_told_as_a_fraction(mirror, users, client):  # noqa: F811
+    client.force_login(users["technician"])
+    text = strip_tags(_post(client, mirror, "87").content.decode())
+    assert "A reflectance is a fraction between 0 and 1: 87 % is 0.87." in text
+    assert not ReflectanceMeasurement.objects.filter(value=87).exists()

@@ -264,10 +264,10 @@ class ReadingForm(QuestionedValueMixin, forms.Form):
                 break
         taken_at = data.get("taken_at")
         if quantity == "reflectance" and self.mirror is not None and taken_at is not None:
-            from observatory_ops.mirrors.forms import above_fresh_problem  # the mirrors app builds on the logbook
+            from observatory_ops.mirrors.forms import reflectance_question  # the mirrors app builds on the logbook
 
             day = timezone.localtime(taken_at).date()  # the view reads the form in the site's time zone
-            if problem := above_fresh_problem(self.mirror, day, value):
+            if problem := reflectance_question(self.mirror, day, value):
                 self.add_error("value", f"{problem} If it is right, tick \"The value is right as typed\" and log it "
                                         "again.")
         if self.has_error("value"):

@@ -7,6 +7,7 @@ from django.utils import timezone
 from observatory_ops.calc.coating import MATERIALS, MAX_GRID_SIZE, METALS, grid_size, wavelength_range_nm
 from observatory_ops.calc.windows import RECOAT_PHASES, Phase, downtime_words, shortest_downtime
 from observatory_ops.logbook.forms import QuestionedValueMixin
+from observatory_ops.logbook.quantities import value_problem
 from observatory_ops.registry.models import Subsystem
 
 from . import layers_text, response_csv
@@ -23,6 +24,22 @@ MEASURABLE_NM = wavelength_range_nm(MATERIALS)
 #: does not get better with use, so a value well above fresh is more often another band, another instrument's scale
 #: or a slip of the keys.
 ABOVE_FRESH_MARGIN = 0.02
+
+
+#: A band mean of a coated telescope mirror below this is asked about: a dirty aluminium mirror still reflects about
+#: 0.7 (from memory), so a lower value is more often a field left at 0, a percentage or another scale read wrongly, or
+#: a missed measurement. Our own bound, common practice, no published source; asked, not refused.
+LOWEST_UNQUESTIONED = 0.5
+
+
+def reflectance_question(mirror: Mirror, day: dt.date, value: float) -> str:
+    """The question a band mean measured on ``day`` raises, or "" when none: far below what a coated mirror reflects
+    (``LOWEST_UNQUESTIONED``: a bad-input review's 0 made the recoat overdue without a word), or above the fresh value
+    of its coating (``above_fresh_problem``)."""
+    if value < LOWEST_UNQUESTIONED:
+        return (f"{value:g} is far below what a coated mirror reflects (a dirty aluminium one still about 0.7): was "
+                "the measurement missed, or the field left at 0? A value this low can make the recoat overdue.")
+    return above_fresh_problem(mirror, day, value)
 
 
 def above_fresh_problem(mirror: Mirror, day: dt.date, value: float) -> str:
@@ -52,12 +69,20 @@ class MeasurementChecks(QuestionedValueMixin, forms.Form):
 
     value_confirmed = forms.BooleanField(
         required=False, label="The value is right as measured",
-        help_text="Asked only for a band mean well above the fresh value of the mirror's coating.",
+        help_text="Asked only for a band mean well above the fresh value of the mirror's coating, or far below what a "
+        "coated mirror reflects.",
     )
     questioned = forms.CharField(required=False, widget=forms.HiddenInput)
 
     def measured_mirror(self, data: dict) -> Mirror | None:
         raise NotImplementedError
+
+    def clean_value(self) -> float | None:
+        """A fraction between 0 and 1, told as the reading form tells it (87 is "87 % is 0.87")."""
+        value = self.cleaned_data["value"]
+        if value is not None and (problem := value_problem("reflectance", value)):
+            raise forms.ValidationError(problem[0].upper() + problem[1:] + ".")
+        return value
 
     def clean_wavelength_nm(self) -> float | None:
         wavelength = self.cleaned_data["wavelength_nm"]
@@ -80,7 +105,7 @@ class MeasurementChecks(QuestionedValueMixin, forms.Form):
             data.pop(name, None)  # not the measurement's: the rest is what is stored
         if confirmed or mirror is None or value is None or day is None or data.get("wavelength_nm") is not None:
             return data
-        if problem := above_fresh_problem(mirror, day, value):
+        if problem := reflectance_question(mirror, day, value):
             self.add_error("value", f"{problem} If it is right, tick \"The value is right as measured\" and save it "
                                     "again.")
             self.ask_again(asked)
@@ -90,7 +115,6 @@ class MeasurementChecks(QuestionedValueMixin, forms.Form):
 class MeasurementForm(MeasurementChecks):
     measured_on = forms.DateField(widget=forms.DateInput(attrs={"type": "date"}))
     value = forms.FloatField(
-        min_value=0, max_value=1,
         help_text="Reflectance as a fraction, e.g. 0.86: the band mean, or at the wavelength below.",
     )
     wavelength_nm = forms.FloatField(label="Wavelength (nm)", required=False)

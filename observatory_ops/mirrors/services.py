@@ -207,6 +207,12 @@ def _loss_basis(mirror: Mirror) -> str:
     return " (recoat loss set for this mirror; the default is common practice, no published source)"
 
 
+#: Why a fit whose fresh value R0 is no reflectance is not used (a bad-input review's value of 0.3, kept when asked
+#: about, gave R0 above 1 and a recoat line above 1, and the site's recompute stopped on it).
+UNPHYSICAL_R0 = ("the fitted fresh value R0 = {r0} is not a reflectance between 0 and 1: a measurement in the list is "
+                 "likely wrong (withdraw it, and the fit returns)")
+
+
 def mirror_forecast(
     mirror: Mirror, today: dt.date | None = None, log: UsageLog | None = None, model: UsageModel | None = None
 ) -> MirrorForecast:
@@ -276,6 +282,8 @@ def mirror_forecast(
                 f"{which} not counted yet: no measurement follows, so the estimate and the forecast assume no "
                 "recovery from cleaning (the earlier date) until one is measured."
             )
+        if not 0 < fit.r0 <= 1:  # a straight line through an outlying value (kept when asked about) may leave 0..1
+            raise ValueError(UNPHYSICAL_R0.format(r0=f"{fit.r0:.4f}"))
     except ValueError as exc:
         result.fit_note = f"no fit yet: {exc}"
         result.threshold = fresh * (1 - mirror.recoat_loss)
