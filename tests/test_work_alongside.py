@@ -195,7 +195,7 @@ def test_an_order_without_a_lockout_does_not_hand_the_telescope_back_while_anoth
 
 
 def test_the_observatory_goes_back_to_robotic_control_only_when_no_other_crew_has_work_left(
-    order, fans_order, users  # noqa: F811
+    order, fans_order, users, client  # noqa: F811
 ):
     """A safety review: a crew that had only taken the observatory out of robotic control and parked (under power, no
     locks on) was at the telescope when the other order's hand-back was ticked. The hand-back waits until every other
@@ -217,13 +217,21 @@ def test_the_observatory_goes_back_to_robotic_control_only_when_no_other_crew_ha
     from test_workorders import _all_readings
 
     # Done with its work, the drive crew may finish with its hand-back left to the last crew out, and the record says
-    # so (a walk-through could not record a finished realignment while another order stood paused).
+    # so (a walk-through could not record a finished realignment while another order stood paused). The finish form
+    # says it, and asks no confirmation of it.
+    client.force_login(users["technician"])
+    form = html.unescape(client.get(f"/workorders/{drive_order.pk}/finish/").content.decode())
+    assert (f"Step {last + 1}, the hand-back to robotic and remote control, is left to the last crew out: "
+            f"{fans_order.number} {fans_order.title}, still at work on the telescope.") in form
+    assert 'name="confirm_unticked"' not in form
     services.work_order_finish(drive_order, users["technician"], 1.0, "ok", _all_readings(drive_order, 0.6),
                                confirmed_unticked=[HAND_BACK])
     finished = WorkOrder.objects.get(pk=drive_order.pk)
     assert finished.state == State.FINISHED and finished.findings == (
         f"ok\nStep {last + 1}, the hand-back to robotic and remote control, was left to the last crew out: "
         f"{fans_order.number} {fans_order.title}, still at work on the telescope when this order was finished.")
+    # Not also confirmed "done or did not apply" (a tablet walk-through's record said both).
+    assert not any(HAND_BACK in line for line in finished.unticked_at_finish)
     # The fans crew, the last out, finishes its work and hands the observatory back.
     ticked_in_sequence(fans_order, users["technician"])
 

@@ -877,7 +877,8 @@ def work_order_finish(
         kept = isolation_kept(points, isolation_gaps(order, points))
         unticked = unticked_lines(WorkOrder.objects.select_related("site").get(pk=order.pk))
         isolation = isolation_lines(unticked)
-        others = [line for line in unticked if line not in isolation]
+        hand_back, working = left_to_the_last_crew(order, unticked)
+        others = [line for line in unticked if line not in isolation and line not in hand_back]
         seen = set(confirmed_unticked)
         answered = isolation_answer in ISOLATION_UNTICKED and all(line.text in seen for line in isolation)
         if isolation and not answered:
@@ -888,10 +889,10 @@ def work_order_finish(
             raise Refused(ISOLATION_UNTICKED_FINDINGS)
         if waiting := finish_waits(order, unticked):
             raise Refused(waiting)
-        hand_back = [line for line in unticked if line.kind == ChecklistTick.Kind.STEP and is_hand_back(line.text)]
-        if hand_back and (working := still_working(order)):
+        if hand_back:
             # The last crew out hands the observatory back: this one, done, leaves it to them, and the record says so
-            # (a walk-through's realignment could not be recorded while another order on the telescope stood paused).
+            # (a walk-through's realignment could not be recorded while another order on the telescope stood paused),
+            # not also that it was "done or did not apply" (a tablet walk-through's record said both).
             findings = (f"{findings}\n" if findings.strip() else "") + (
                 f"{hand_back[0].label}, the hand-back to robotic and remote control, was left to the last crew out: "
                 + "; ".join(f"{a.order.number} {a.order.title}" for a in working)
@@ -1072,6 +1073,15 @@ def finish_waits(order: WorkOrder, unticked: Sequence) -> str:
             + f"): {mirror_out[0][0]}. Finish this order once the reinstall is finished and they are done"
         )
     return ""
+
+
+def left_to_the_last_crew(order: WorkOrder, unticked: Sequence) -> tuple[list, list]:
+    """(the hand-back lines of ``unticked`` that ``order`` leaves to the last crew out, the other orders whose crews
+    are still at work on the telescope: ``still_working``), or ([], []) when this crew hands back itself. A finish
+    records the hand-back left to them in the findings, and does not ask it confirmed "done or did not apply"."""
+    hand_back = [line for line in unticked if line.kind == ChecklistTick.Kind.STEP and is_hand_back(line.text)]
+    working = still_working(order) if hand_back else []
+    return (hand_back, working) if working else ([], [])
 
 
 def still_locked_out(order: WorkOrder) -> list:

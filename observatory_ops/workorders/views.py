@@ -401,7 +401,8 @@ def work_order_finish(request, pk):
         return redirect(order)
     unticked = selectors.unticked_lines(order)
     isolation = selectors.isolation_lines(unticked)  # answered for on their own, not with the other lines
-    others = [line for line in unticked if line not in isolation]
+    hand_back, working = services.left_to_the_last_crew(order, unticked)  # said, not confirmed
+    others = [line for line in unticked if line not in isolation and line not in hand_back]
     lacking = selectors.hazards_missing(order)
     waits = services.finish_waits(order, unticked)  # said above the form, before it is filled in
     form = FinishForm(
@@ -504,7 +505,7 @@ def work_order_finish(request, pk):
          "isolation": isolation, "isolation_title": ISOLATION_UNTICKED_TITLE,
          "isolation_question": ISOLATION_UNTICKED_QUESTION, "flagged": flagged, "readings_confirm": READINGS_CONFIRM,
          "lacking": lacking, "lacking_cautions": cautions_for(lacking), "precedence": PRECEDENCE_STATEMENT,
-         "locked_after_release": locked_after_release, "waits": waits},
+         "locked_after_release": locked_after_release, "waits": waits, "hand_back": hand_back, "working": working},
     )
 
 
