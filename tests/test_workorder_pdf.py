@@ -20,7 +20,7 @@ from observatory_ops.calc.lifting import lift_figures
 from observatory_ops.workorders import pdf
 from observatory_ops.workorders.cautions import PRECEDENCE_STATEMENT, SEVERITY_LABELS, cautions_for
 from observatory_ops.workorders.pdf import render_batch, render_sheet
-from observatory_ops.workorders.sheet import Sheet, SheetCaution, SheetLifting, SheetPart, SheetReading
+from observatory_ops.workorders.sheet import WHY_AS_OF, Sheet, SheetCaution, SheetLifting, SheetPart, SheetReading
 
 POINTS_PER_INCH = 72
 MM_PER_INCH = 25.4
@@ -355,3 +355,12 @@ def test_no_beyond_limit_note_when_every_reading_is_within_its_limit():
     readings = (SheetReading("Settle time after a slew (Axis 1 drive)", "s", "at most 1", recorded="0.4"),)
     text = body_text(render_sheet(make_sheet(readings=readings)))
     assert "0.4" in text and "beyond" not in text.lower()
+
+
+def test_the_due_figures_say_the_day_they_were_computed():
+    """A traceability review defended a printout eight days late: its brake cycles were those of the day the order was
+    made, with nothing saying so. The page and the paper say the day, above the figures."""
+    text = flat(body_text(render_sheet(make_sheet(why_as_of=dt.date(2026, 6, 12)))))
+    said = WHY_AS_OF.format(day="12 Jun 2026")
+    assert said in text and text.index("Why this work is due") < text.index(said) < text.index("91 of 90 calendar")
+    assert "As computed when this order was made" not in flat(body_text(render_sheet(make_sheet(why=()))))

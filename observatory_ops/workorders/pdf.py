@@ -61,7 +61,7 @@ from observatory_ops.workorders.cautions import (
     signal_word,
 )
 from observatory_ops.workorders.models import amount_text
-from observatory_ops.workorders.sheet import WARNING_PREFIX, Sheet, SheetCaution, SheetPart, SheetTick
+from observatory_ops.workorders.sheet import WARNING_PREFIX, WHY_AS_OF, Sheet, SheetCaution, SheetPart, SheetTick
 
 PAPER_SIZES: dict[str, tuple[float, float]] = {"A4": A4, "letter": LETTER}
 
@@ -507,7 +507,8 @@ def _why(sheet: Sheet) -> list[Flowable]:
     heading = _heading("Why this work is due")
     if not sheet.why:
         return [heading, _note("Raised by hand, not from a due item.")]
-    return [heading, *(_Paragraph(_text(line), _BULLET, bulletText="\N{BULLET}") for line in sheet.why)]
+    as_of = [_note(WHY_AS_OF.format(day=f"{sheet.why_as_of:%d %b %Y}"))] if sheet.why_as_of else []
+    return [heading, *as_of, *(_Paragraph(_text(line), _BULLET, bulletText="\N{BULLET}") for line in sheet.why)]
 
 
 _SEVERITY_RANK = {label: severity for severity, label in SEVERITY_LABELS.items()}

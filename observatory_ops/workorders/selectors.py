@@ -1624,6 +1624,7 @@ def sheet(order: WorkOrder, url: str) -> sheet_.Sheet:
             f"{where(i.subsystem)}: {i.plan.name}: {i.why}" if i.plan else f"{where(i.subsystem)}: {i.why}"
             for i in items if i.why
         ),
+        why_as_of=order.created_at.astimezone(zone).date() if order.created_at else None,
         cautions=tuple(
             sheet_.SheetCaution(c.title, c.text, c.standard, SEVERITY_LABELS[c.severity])
             for c in cautions(order, points)

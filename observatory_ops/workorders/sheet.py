@@ -15,6 +15,11 @@ from datetime import date, datetime
 #: prints flagged, without a tick box, as the page shows it.
 WARNING_PREFIX = "WARNING: "
 
+#: Said above the due items' figures on the page and on paper: they are kept as computed when the order was made (a
+#: traceability review defended a printout eight days late, its brake cycles of the day it was made).
+WHY_AS_OF = ("As computed when this order was made, {day}; not brought up to date since. Each subsystem's page has "
+             "today's figures.")
+
 
 @dataclass(frozen=True)
 class SheetCaution:
@@ -89,7 +94,9 @@ class Sheet:
     when it was printed (title, the orders, what to agree), and ``hazards_notice`` (empty for an order up to date)
     what the order lacks of its subsystems' hazards (title, the hazards, what to do): each is printed in a framed box
     under the header, before anything of the work.
-    ``why`` has one line per due item (trigger, value now, limit, forecast). ``cautions`` are printed in
+    ``why`` has one line per due item (trigger, value now, limit, forecast), as computed on ``why_as_of`` (the day
+    the order was made: the figures are not brought up to date afterwards, and the paper says so). ``cautions`` are
+    printed in
     a framed box before any step, most severe first, followed by ``precedence_statement``.
     ``steps_warning``, when set, is printed above the steps (the lockout step is missing from them).
     ``isolation_points`` are the energy isolation points of the telescope for the lockout step, after any warning
@@ -168,6 +175,7 @@ class Sheet:
     cleanings: tuple[str, ...] = ()
     cleaning_to_record: tuple[tuple[str, tuple[str, ...]], ...] = ()  # (mirror, the answers to tick) before finishing
     other_part_rows: int = 0  # blank rows for parts used that the order did not plan, before finishing
+    why_as_of: date | None = None  # the day ``why`` was computed: the order was made
 
     def __post_init__(self) -> None:
         for name in ("subsystems", "why", "isolation_points", "steps", "tools", "confirmations", "hazards_notice",

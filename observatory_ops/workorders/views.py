@@ -5,6 +5,7 @@ from django.contrib import messages
 from django.http import HttpResponse, HttpResponseNotAllowed, JsonResponse
 from django.shortcuts import get_object_or_404, redirect, render
 from django.urls import reverse
+from django.utils import timezone
 from django.utils.html import format_html, format_html_join
 from django.utils.http import url_has_allowed_host_and_scheme
 from django_tables2 import RequestConfig
@@ -47,9 +48,11 @@ from .forms import (
     WithdrawForm,
     WorkOrderEditForm,
     planned_date_plausible,
+    possible_id,
 )
 from .lifecycle import TRANSITIONS, available
 from .models import Part, State, WorkOrder
+from .sheet import WHY_AS_OF
 from .tables import WorkOrderFilter, WorkOrderTable
 
 #: The session key of a tick refused on a plain post: (order id, line anchor, message), shown once at the line.
@@ -79,7 +82,8 @@ def work_order_list(request):
 def work_order_from_due(request):
     if request.method != "POST":
         return HttpResponseNotAllowed(["POST"])
-    ids = [int(v) for v in request.POST.getlist("plans") if v.isascii() and v.isdigit()]
+    # A value no plan id can be is dropped, as one of no plan is found in none: an order of nothing is refused.
+    ids = [plan_id for v in request.POST.getlist("plans") if (plan_id := possible_id(ServicePlan, v)) is not None]
     plans = sorted(ServicePlan.objects.filter(pk__in=ids).select_related("subsystem__telescope__site"),
                    key=lambda plan: ids.index(plan.pk))  # in the due list's order
     # The due list asks no date: the order is planned for the site's today, so it can be issued straight away. A
@@ -191,6 +195,7 @@ def work_order_detail(request, pk):
             "parts_unregistered_text": PARTS_UNREGISTERED,
             "items": items,
             "has_reasons": any(i.why for i in items),  # as the printed order says (pdf._why)
+            "why_as_of": WHY_AS_OF.format(day=f"{timezone.localtime(order.created_at, order.site.zone):%d %b %Y}"),
             "cautions": selectors.cautions(order, points),
             "precedence": selectors.PRECEDENCE_STATEMENT,
             "checklist": selectors.checklist(order, points, items),
