@@ -188,4 +188,5 @@ def test_one_year_of_log_keeps_the_prior_band_and_says_so(flat_site):
     nights, opened = _two_years(np.random.default_rng(6))
     model = forecast_model(flat_site, _usage_log(nights[-365:], opened[-365:]), TODAY)
     assert model.spread == PRIOR_MONTHLY_SPREAD and model.spread_months == 0
-    assert "band from a prior month-to-month spread of 35%" in model.basis
+    assert "one-sigma band (about 68 %) from a prior month-to-month spread of 35%" in model.basis
+    assert "divided by the square root of the months to the limit" in model.basis

@@ -335,11 +335,13 @@ class UsageModel:
                 f"{forecast.PRIOR_OPEN_FRACTION:.0%} for the rest"
             )
         if self.spread_months:
-            band = (f"band from {self.whose} month-to-month spread {self.spread:.0%} ({self.spread_months} complete "
-                    "months, each against the same month of its other years)")
+            spread = (f"{self.whose} month-to-month spread {self.spread:.0%} ({self.spread_months} complete months, "
+                      "each against the same month of its other years)")
         else:
-            band = (f"band from a prior month-to-month spread of {self.spread:.0%} (too few complete months logged "
-                    "in more than one year to measure the site's own)")
+            spread = (f"a prior month-to-month spread of {self.spread:.0%} (too few complete months logged in more "
+                      "than one year to measure the site's own)")
+        band = (f"one-sigma band (about 68 %) from {spread}, divided by the square root of the months to the limit "
+                "(months above and below the expected use partly cancel)")
         basis = f"dark hours of each coming night x {source}; {band}"
         if self.unlogged_nights > UNLOGGED_NIGHTS_SAID:
             last = self.first_day - dt.timedelta(days=1)
