@@ -33,7 +33,8 @@ def test_a_reflectance_is_written_to_four_decimals_and_other_figures_as_before()
     assert figure_text("recoat_line", "", 0.839) == "0.8390"
     assert figure_text("reading", "fraction", 0.86) == "0.8600"  # a band reflectance logged as a reading
     assert figure_text("reading", "s", 1.0954) == "1.095" and figure_text("open_hours", "h", 934.7) == "935"
-    assert PlanStatus(metric="recoat_line", value=0.83912, limit=0.82768, unit="").progress == "0.8391 / 0.8277"
+    recoat = PlanStatus(metric="recoat_line", value=0.83912, limit=0.82768, unit="")
+    assert recoat.progress == "0.8391 / 0.8277 fraction"  # the unit as the CSV and the API give it
     state = TriggerState(metric="recoat_line", value=0.83912, limit=0.82768, rate_per_day=None,
                          forecast=dt.date(2027, 3, 1), rising=False)
     assert services.reason_text(state).startswith("Reflectance now about 0.8391, recoat line 0.8277; forecast")

@@ -2,7 +2,7 @@
 
 - A trend's rate: the rate column and the basis sentence both print the fitted slope by
   ``logbook.quantities.significant``, from the same unrounded number (a slope of 0.00051 s a day once read
-  "+0.000500 s (trend)" beside "+0.000510 s/day").
+  "+0.000500 s (trend)" beside "+0.000510 s/day"), with its unit per day.
 - A recoat line with no fit yet: "Now" is the computed fresh value, assumed because nothing is measured since the
   coating, and the row says so in the mirror page's words (``mirrors.services.reflectance_now``), not "fitted decline".
 """
@@ -55,11 +55,11 @@ def test_a_trends_rate_column_and_its_basis_print_the_same_figures(telescope, us
     assert state.metric == "calendar_days"
     trend = next(row for row in trigger_table(plan) if row["metric"] == "reading")
     assert trend["rate_per_day"] == pytest.approx(0.00051, rel=1e-9)  # stored as fitted, not rounded to 0.0005
-    assert trend["rate"] == "+0.000510 s (trend)"
+    assert trend["rate"] == "+0.000510 s/day (trend)"
     assert "+0.000510 s/day" in trend["basis"]
     client.force_login(users["viewer"])
     page = _text(client.get(drive.get_absolute_url()))
-    assert "+0.000510 s (trend)" in page and "+0.000510 s/day" in page and "+0.000500" not in page
+    assert "+0.000510 s/day (trend)" in page and "+0.000510 s/day" in page and "+0.000500" not in page
 
 
 def test_a_recoat_line_with_nothing_measured_says_the_fresh_value_is_assumed_as_the_mirror_page_does(

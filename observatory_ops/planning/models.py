@@ -434,8 +434,10 @@ class PlanStatus(models.Model):
         service (its figures count from the plan's start, not from a service) until a limit is reached."""
         if self.last_service_unknown and self.status != OVERDUE:
             return UNKNOWN_PROGRESS
+        # The recompute keeps a recoat line's figures without a unit: a reflectance, a fraction (as ``due_record``).
+        unit = unit_of("reflectance") if self.metric == RECOAT_LINE else self.unit
         return (f"{figure_text(self.metric, self.unit, self.value)} / "
-                f"{figure_text(self.metric, self.unit, self.limit)} {self.unit}").strip()
+                f"{figure_text(self.metric, self.unit, self.limit)} {unit}").strip()
 
     class Meta:
         verbose_name_plural = "plan statuses"

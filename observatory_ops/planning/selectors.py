@@ -462,7 +462,7 @@ def trigger_table(plan: ServicePlan) -> list[dict]:
         if rate is None or row["metric"] == metrics.CALENDAR_DAYS:
             words = ""
         elif row["metric"] == metrics.READING:
-            words = f"{rate_text(rate, signed=True)} {row['unit']} (trend)"
+            words = f"{rate_text(rate, signed=True)} {row['unit']}/day (trend)"  # as the basis writes it
         else:
             words = f"{rate_text(rate)} {metrics.rate_unit(row['metric'], row['unit'])} (mean of the next 30 days)"
         value_text = figure_text(row["metric"], row["unit"], row["value"])
