@@ -762,3 +762,19 @@ def test_a_mirrors_reflectance_row_gives_its_recoat_line_in_words(telescope, use
     Mirror.objects.filter(pk=mirror.pk).update(subsystem=secondary)
     order = services.work_order_from_due([cleaning], users["engineer"], PLANNED)
     assert "recoat line" not in order.required_readings.get(quantity="reflectance").limit_text
+
+
+def test_the_order_page_says_its_due_figures_are_those_of_the_day_it_was_made(drive, users, client):
+    from django.utils import timezone
+
+    from observatory_ops.planning.services import site_recompute
+    from observatory_ops.workorders.sheet import WHY_AS_OF
+
+    site_recompute(drive.telescope.site)
+    order = services.work_order_from_due(list(drive.plans.all()), users["engineer"], PLANNED)
+    assert any(item.why for item in order.items.all())
+    client.force_login(users["viewer"])
+    page = client.get(order.get_absolute_url()).content.decode()
+    made = timezone.localtime(order.created_at, order.site.zone)
+    said = WHY_AS_OF.format(day=f"{made:%d %b %Y}").replace("'", "&#x27;")
+    assert said in page and page.index("Why this work is due") < page.index(said)
