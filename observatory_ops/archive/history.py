@@ -7,6 +7,7 @@ records by their names. The CSV export takes the same changes with times as ISO 
 from __future__ import annotations
 
 import datetime as dt
+import json
 import zoneinfo
 from collections import defaultdict
 from dataclasses import dataclass, field
@@ -113,6 +114,10 @@ def _shown(model, name: str, value, zone: zoneinfo.ZoneInfo) -> tuple[str, str]:
         return text, text
     if isinstance(value, dt.datetime) and value.tzinfo is not None:
         return dateformat.format(value.astimezone(zone), SHOWN_TIME), value.astimezone(dt.UTC).isoformat()
+    if isinstance(model_field, models.JSONField):  # lists and records kept as data: in words, and as JSON in the CSV
+        return _data_in_words(value), "" if value is None else json.dumps(value, ensure_ascii=False)
+    if isinstance(model_field, models.BooleanField) and value is not None:
+        return ("yes" if value else "no"), _text(value)
     if model_field.many_to_many:  # the ids it held (``_held``): each record by its name
         found = model_field.related_model._default_manager.in_bulk(value)
         text = ", ".join(_named(found[pk]) if pk in found else _text(pk) for pk in value)
@@ -124,6 +129,22 @@ def _shown(model, name: str, value, zone: zoneinfo.ZoneInfo) -> tuple[str, str]:
         text = _named(related)
         return text, text
     return _text(value), _text(value)
+
+
+def _data_in_words(value) -> str:
+    """A JSON field's value as a person reads it (a tablet review read "{'points': [{'id': 1, 'energy': 'ac', ..."
+    and "[]" in an order's history): a list's items joined with "; " ("none" when empty), a record (a kept isolation
+    point) by the words it kept ("text"), any other record as its labelled parts, ids left out."""
+    if value is None:
+        return ""
+    if isinstance(value, list):
+        return "; ".join(_data_in_words(item) for item in value) or "none"
+    if isinstance(value, dict):
+        if "text" in value:
+            return _data_in_words(value["text"])
+        return "; ".join(f"{key.replace('_', ' ')}: {_data_in_words(item)}" for key, item in value.items()
+                         if key != "id")
+    return _text(value)
 
 
 def _label(model, name: str) -> str:
