@@ -10,6 +10,7 @@ from __future__ import annotations
 import csv
 import datetime as dt
 import io
+import json
 from zoneinfo import ZoneInfo
 
 import pytest
@@ -230,3 +231,20 @@ def test_a_save_that_changed_nothing_is_not_listed_but_a_change_and_a_reasoned_s
     assert [name for name, _, _ in listed[1].fields] == ["name"]
     assert listed[2].kind == KIND["+"] and listed[2].fields == []
     assert len(changes(drive, limit=2)) == 2
+
+
+def test_kept_data_and_yes_or_no_read_in_words_and_the_csv_keeps_json():
+    """A tablet review read "{'points': [{'id': 1, 'energy': 'ac', ..." and "crew: (empty) -> []" in an order's
+    history: a finished order's kept isolation reads as the words its points kept, a list joined ("none" empty)."""
+    from observatory_ops.archive.history import _shown
+    from observatory_ops.workorders.models import WorkOrder
+
+    kept = {"points": [{"id": 1, "energy": "ac", "telescope": 1, "subsystem": None, "text": "Mount isolator, pier"}],
+            "gaps": []}
+    utc = ZoneInfo("UTC")
+    shown, exported = _shown(WorkOrder, "isolation_at_finish", kept, utc)
+    assert shown == "points: Mount isolator, pier; gaps: none"
+    assert json.loads(exported) == kept
+    assert _shown(WorkOrder, "crew", [], utc) == ("none", "[]")
+    assert _shown(WorkOrder, "crew", ["Ana Reyes", "a visitor"], utc)[0] == "Ana Reyes; a visitor"
+    assert _shown(WorkOrder, "crew_by_account", True, utc) == ("yes", "True")
