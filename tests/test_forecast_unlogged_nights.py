@@ -180,5 +180,7 @@ def test_tonight_logged_in_the_afternoon_is_not_expected_again(quiet_since_new_y
     services.site_recompute(site, TODAY)
     state = PlanStatus.objects.get(plan=plan)
     assert state.value == pytest.approx(90.0) and state.forecast_date == dt.date(2026, 6, 18)
+    # The basis says which nights the value adds up (the service day's night included), then how the rest is forecast.
+    assert state.basis.startswith("now: the logged nights of 01 Jun 2026 to 15 Jun 2026, both included; coming: ")
     model = services.forecast_model(site, services.UsageLog.site_wide(site), TODAY)
     assert model.first_day == TODAY + dt.timedelta(days=1) and model.unlogged_nights == 0

@@ -679,6 +679,7 @@ def _site_recompute(site: Site, today: dt.date) -> int:
         rate = float(expected[ahead:][:30].mean()) if len(expected) > ahead else 0.0
         basis = model.usage_basis(metric, sens) + down
         log_begins = _as_date(log.nights[0]) if len(log.nights) else None
+        log_ends = _as_date(log.nights[-1]) if len(log.nights) else None
         for i, (plan, trig) in enumerate(members):
             if values[i] >= limits[i]:
                 on = _as_date(reached[i])
@@ -694,7 +695,8 @@ def _site_recompute(site: Site, today: dt.date) -> int:
                     forecast=dates[0],
                     earliest=dates[1],
                     latest=dates[2],
-                    basis=basis + _before_the_log(baselines[plan.pk], log_begins),
+                    basis=(_counted_nights(baselines[plan.pk], log_ends) + basis
+                           + _before_the_log(baselines[plan.pk], log_begins)),
                     unit=metrics.METRICS[metric][1],
                 )
             )
@@ -721,6 +723,14 @@ def _site_recompute(site: Site, today: dt.date) -> int:
     PlanStatus.objects.filter(site=site).delete()
     _insert_all(PlanStatus, STATUS_COLUMNS, rows)
     return len(rows)
+
+
+def _counted_nights(baseline: dt.date, log_ends: dt.date | None) -> str:
+    """Which logged nights a counter's value now adds up, said first in its basis (a traceability review had to guess
+    whether the night of the service day was in it: it is, as ``calc.exposure.accumulated_since`` counts)."""
+    if log_ends is None or baseline > log_ends:
+        return f"now: no night logged since {baseline:%d %b %Y}; coming: "
+    return f"now: the logged nights of {baseline:%d %b %Y} to {log_ends:%d %b %Y}, both included; coming: "
 
 
 def _before_the_log(baseline: dt.date, log_begins: dt.date | None) -> str:
