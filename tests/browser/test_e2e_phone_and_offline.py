@@ -367,3 +367,22 @@ def test_a_send_from_one_form_of_a_page_forgets_what_was_typed_in_its_other_form
     page.goto(live_server.url + order.get_absolute_url())
     expect(page.get_by_label("Reason to withdraw")).to_have_value("")
     expect(page.locator(".draft-note")).to_have_count(0)
+
+
+@pytest.mark.browser
+def test_what_was_typed_comes_back_in_a_new_tab_after_the_tab_was_closed(browser_page, live_server, login, fans):
+    """A tablet review closed the finish form's tab and lost its findings: drafts were kept per tab. They are kept in
+    the browser for the signed-in user, for a shift, until a send the server answers or signing out."""
+    page = browser_page
+    login(page, live_server, *TECHNICIAN)
+    plan = fans.plans.get(name="Replace fan filters")
+    page.goto(live_server.url + fans.get_absolute_url())
+    page.locator(f"#plan-{plan.pk}").get_by_role("link", name="Log service for this plan").click()
+    form_url = page.url
+    page.get_by_label("Findings").fill("Left filter torn.")
+    again = page.context.new_page()
+    page.close()
+    again.goto(form_url)
+    expect(again.get_by_label("Findings")).to_have_value("Left filter torn.")
+    expect(again.locator(".draft-note")).to_contain_text("What you typed here before is back")
+    again.close()

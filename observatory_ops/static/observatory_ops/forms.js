@@ -7,11 +7,13 @@
       with a note beside the button pressed. If it answers, the form is sent as pressed (requestSubmit with the
       same button, so the button's name and value go with it); the page's own submit handlers see only that
       send, once (nights_import.html shows its progress then). The sign-out form (data-drafts-forget) has nothing
-      typed to keep: it goes at once, and takes this tab's drafts with it.
-   2. What is typed in a POST form is kept in the tab's sessionStorage, for the signed-in user only (body
-      data-drafts), and brought back when the form's page is opened again: after a send that never reached the
-      server (the browser's error page takes the form page's place, so the way back is a link to it), a reload,
-      or a tab the tablet closed to save memory. Never after a send the server answered (see SENT).
+      typed to keep: it goes at once, and takes the browser's drafts with it.
+   2. What is typed in a POST form is kept in the browser's localStorage, for the signed-in user only (body
+      data-drafts), for a shift (KEEP_MS), and brought back when the form's page is opened again: after a send that
+      never reached the server (the browser's error page takes the form page's place, so the way back is a link to
+      it), a reload, a tab the tablet closed to save memory, or one closed by hand (a tablet review lost a finish
+      form's findings so; sessionStorage ends with its tab). Never after a send the server answered (see SENT),
+      and signing out forgets every draft the browser keeps.
    3. A page whose form came back with problems puts the focus on their list (base.html, _error_summary.html). */
 (function () {
   "use strict";
@@ -21,11 +23,12 @@
     summary.focus();
   }
 
-  var owner = document.body.dataset.drafts, storage = null;
+  var owner = document.body.dataset.drafts, storage = null, tab = null;
   try {
-    storage = owner ? window.sessionStorage : null;
+    storage = owner ? window.localStorage : null;  // the drafts: they outlive a closed tab
+    tab = owner ? window.sessionStorage : null;  // SENT: this tab's own send
   } catch (refused) {  // storage turned off in the browser: no drafts, the rest works
-    storage = null;
+    storage = tab = null;
   }
   var PREFIX = "draft:" + owner + ":";
   // The page a form was sent from, until the next page of ours loads. If that page is the server's answer to the
@@ -188,17 +191,18 @@
 
   function draftSent(form) {
     if (storage && drafted(form)) {
-      storage.setItem(SENT, pageKey());
+      tab.setItem(SENT, pageKey());
     }
   }
 
   function forgetDrafts() {
     if (storage) {
       Object.keys(storage).forEach(function (key) {
-        if (key.indexOf("draft:") === 0 || key === SENT) {
+        if (key.indexOf("draft:") === 0) {
           storage.removeItem(key);
         }
       });
+      tab.removeItem(SENT);
     }
   }
 
@@ -249,9 +253,9 @@
   }
 
   if (storage) {
-    var sent = storage.getItem(SENT);
+    var sent = tab.getItem(SENT);
     if (sent) {
-      storage.removeItem(SENT);
+      tab.removeItem(SENT);
       var arrival = performance.getEntriesByType("navigation")[0];
       if (summary || !arrival || arrival.redirectCount > 0) {
         Object.keys(storage).forEach(function (key) {
