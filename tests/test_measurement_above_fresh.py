@@ -140,12 +140,12 @@ def test_a_band_mean_far_below_what_a_coated_mirror_reflects_is_asked_about_on_b
     assert (list(Reading.objects.values_list("pk")), list(ReflectanceMeasurement.objects.values_list("pk"))) == before
     asked = re.search(r'name="questioned" value="([^"]*)"', _post(client, mirror, "0.3").content.decode()).group(1)
     assert _post(client, mirror, "0.3", value_confirmed="on", questioned=asked).status_code == 302
-    # Kept, it bends the straight line's fresh value R0 above 1: that fit is not used, and the page says why (the
-    # site's recompute had stopped on a recoat line above 1).
+    # Kept, it bends the straight line's fresh value R0 above 1: the recoat line is then drawn from the computed
+    # fresh value, not above 1 (the site's recompute had stopped on it), and the page says why.
     state = services.mirror_forecast(mirror)
-    assert state.fit is None and state.fit_note.startswith("no fit yet: the fitted fresh value R0 = ")
-    assert "is not a reflectance between 0 and 1: a measurement in the list is likely wrong" in state.fit_note
-    assert client.get(f"/mirrors/{mirror.pk}/").status_code == 200
+    assert state.fit is not None and state.fit.r0 > 1 and 0 < state.threshold < 1
+    assert state.threshold_basis.endswith("is no reflectance")
+    assert "is no reflectance, so check the measurements" in client.get(f"/mirrors/{mirror.pk}/").content.decode()
     assert _post(client, mirror, "0.55").status_code == 302  # above the bound: not asked
 
 

@@ -190,7 +190,7 @@ def test_the_accounts_and_the_names_as_printed_are_stored_with_the_finish_in_the
     fields = {name: (before, after) for name, before, after in finish.fields}
     before, after = fields["crew members"]
     assert before == "" and set(after.split(", ")) == {"administrator", "Marta Quillan"}
-    assert fields["crew by account"] == ("False", "True")
+    assert fields["crew by account"] == ("no", "yes")
     assert [set(row.crew_members.values_list("person", flat=True)) for row in order.history.all()[:2]] == [
         set(chosen), set()
     ]

@@ -207,12 +207,6 @@ def _loss_basis(mirror: Mirror) -> str:
     return " (recoat loss set for this mirror; the default is common practice, no published source)"
 
 
-#: Why a fit whose fresh value R0 is no reflectance is not used (a bad-input review's value of 0.3, kept when asked
-#: about, gave R0 above 1 and a recoat line above 1, and the site's recompute stopped on it).
-UNPHYSICAL_R0 = ("the fitted fresh value R0 = {r0} is not a reflectance between 0 and 1: a measurement in the list is "
-                 "likely wrong (withdraw it, and the fit returns)")
-
-
 def mirror_forecast(
     mirror: Mirror, today: dt.date | None = None, log: UsageLog | None = None, model: UsageModel | None = None
 ) -> MirrorForecast:
@@ -282,8 +276,6 @@ def mirror_forecast(
                 f"{which} not counted yet: no measurement follows, so the estimate and the forecast assume no "
                 "recovery from cleaning (the earlier date) until one is measured."
             )
-        if not 0 < fit.r0 <= 1:  # a straight line through an outlying value (kept when asked about) may leave 0..1
-            raise ValueError(UNPHYSICAL_R0.format(r0=f"{fit.r0:.4f}"))
     except ValueError as exc:
         result.fit_note = f"no fit yet: {exc}"
         result.threshold = fresh * (1 - mirror.recoat_loss)
@@ -298,7 +290,16 @@ def mirror_forecast(
         )
     result.latest_note = _latest_against_the_fit(result, [c for c, placed in zip(cleanings_before, known,
                                                                                 strict=True) if placed])
-    if result.log_begins is None:
+    if not 0 < fit.r0 <= 1:
+        # A wild measurement kept (0.3, asked about and confirmed) can tip the fitted R0 past any reflectance, and a
+        # line that followed it would lie above 1, where no crossing is found (a bad-input review stopped the site's
+        # recompute so): the line is then drawn from the computed fresh value, and the page says why (reflectance_now).
+        result.threshold = fresh * (1 - mirror.recoat_loss)
+        result.threshold_basis = (
+            f"{mirror.recoat_loss:.0%} below the computed fresh value{_loss_basis(mirror)}: the fitted R0, "
+            f"{reflectance_text(fit.r0)}, is no reflectance"
+        )
+    elif result.log_begins is None:
         result.threshold = fit.r0 * (1 - mirror.recoat_loss)
         result.threshold_basis = (
             f"{mirror.recoat_loss:.0%} below the fitted fresh value R0 = {reflectance_text(fit.r0)}, a fraction "
@@ -314,7 +315,8 @@ def mirror_forecast(
         )
     # A line below the fitted R0 moves with it (its band counts R0's uncertainty); one below the computed fresh value
     # is a fixed number.
-    crossing = reflectance.crossing_exposure(fit, result.threshold, follows_r0=result.log_begins is None)
+    crossing = reflectance.crossing_exposure(fit, result.threshold,
+                                             follows_r0=result.log_begins is None and 0 < fit.r0 <= 1)
     result.crossing_exposure_h = crossing.exposure_h
     if model is None or model.first_day > today + dt.timedelta(days=1):  # a model made for a later day
         model = forecast_model(mirror.subsystem.telescope.site, log, today)
