@@ -535,6 +535,44 @@ def test_command_names_a_missing_file(site, tmp_path):
         run_import(str(tmp_path / "absent.csv"), "--site", site.slug)
 
 
+def test_command_refuses_a_file_over_the_upload_pages_size_limit_before_reading_it(stored, csv_file, settings):
+    """The upload page's limit (settings.NIGHTS_UPLOAD_MAX_BYTES): a 50 MB file took 87 s and 2.3 GB of memory."""
+    settings.NIGHTS_UPLOAD_MAX_BYTES = len(GOOD_FILE)
+    path = str(csv_file(GOOD_FILE + b"\n"))
+    before = snapshot()
+    with pytest.raises(CommandError) as refused:
+        run_import(path, "--site", stored.slug)
+    assert str(refused.value) == (
+        f"{path}: the file is {len(GOOD_FILE) + 1:,} bytes; the limit is {len(GOOD_FILE):,} bytes. Split it into "
+        "files of fewer nights and import each. Nothing was stored."
+    )
+    assert snapshot() == before
+    out, _ = run_import(str(csv_file(GOOD_FILE, "at-the-limit.csv")), "--site", stored.slug)  # at the limit: read
+    assert "0 new, 3 updated, 0 unchanged." in out
+
+
+@pytest.mark.parametrize("skip_bad", [False, True])
+def test_command_lists_the_first_50_bad_rows_as_the_upload_page_and_counts_the_rest(stored, csv_file, skip_bad):
+    rows = [good_cells(FIRST_NIGHT + dt.timedelta(days=i)) for i in range(80)]
+    for row in rows[:62]:
+        row[1] = "30"  # lines 2 to 63: above 24 hours
+    before = snapshot()
+    options = ["--skip-bad"] if skip_bad else []
+    if skip_bad:
+        out, err = run_import(str(csv_file(render(rows))), "--site", stored.slug, *options)
+        assert "18 new, 0 updated, 0 unchanged; 62 bad rows skipped." in out
+    else:
+        err_buffer = StringIO()
+        with pytest.raises(CommandError, match="62 bad rows; nothing was stored"):
+            call_command("import_nights", str(csv_file(render(rows))), "--site", stored.slug, stdout=StringIO(),
+                         stderr=err_buffer)
+        err = err_buffer.getvalue()
+        assert snapshot() == before
+    listed = re.findall(r"^line (\d+): open_hours cannot be above 24 \(got 30\)$", err, re.MULTILINE)
+    assert listed == [str(line) for line in range(2, 52)]
+    assert f"... and 12 more {'skipped' if skip_bad else 'bad'} rows, not listed." in err
+
+
 # --- the upload page ---------------------------------------------------------------------------------
 
 

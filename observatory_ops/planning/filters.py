@@ -7,6 +7,7 @@ from django.utils.safestring import mark_safe
 from observatory_ops.calc.triggers import STATUSES
 from observatory_ops.registry.catalogue import KIND_CHOICES
 from observatory_ops.registry.models import Site, Telescope
+from observatory_ops.workorders.forms import possible_id
 
 from .models import PlanStatus
 
@@ -55,11 +56,12 @@ class DueFilter(django_filters.FilterSet):
     def __init__(self, data=None, *args, **kwargs):
         super().__init__(data, *args, **kwargs)
         # With a site chosen the telescope list is that site's: a telescope of another site is not applied (said so),
-        # rather than leaving the list empty without a word.
-        site = (data or {}).get("site")
-        if site and str(site).isdigit():
+        # rather than leaving the list empty without a word. A site no id can be (a word, a number too large for the
+        # id column) narrows nothing: the site filter refuses it, as it refuses an unknown site.
+        site_id = possible_id(Site, (data or {}).get("site"))
+        if site_id is not None:
             field = self.filters["telescope"]
-            field.queryset = field.queryset.filter(site_id=int(site))
+            field.queryset = field.queryset.filter(site_id=site_id)
             self.form.fields["telescope"].queryset = field.queryset
 
     def unapplied(self) -> list[str]:
@@ -69,8 +71,9 @@ class DueFilter(django_filters.FilterSet):
         for field, problems in self.errors.items():
             value = self.data.get(field)
             label = self.form.fields[field].label
-            other = (Telescope.objects.select_related("site").filter(pk=int(value)).first()
-                     if field == "telescope" and str(value).isdigit() else None)
+            telescope_id = possible_id(Telescope, value) if field == "telescope" else None
+            other = (Telescope.objects.select_related("site").filter(pk=telescope_id).first()
+                     if telescope_id is not None else None)
             site = self.form.cleaned_data.get("site")
             if other is not None and site is not None:
                 said.append(f"{label} {other.site_label} not applied: it is not at {site.name}, the site chosen")

@@ -1,6 +1,7 @@
 from django import forms
 from django.contrib import admin, messages
 from django.contrib.admin.utils import unquote
+from django.contrib.admin.widgets import AutocompleteSelect
 from django.core.exceptions import ValidationError
 from django.http import HttpResponseRedirect
 from simple_history.admin import SimpleHistoryAdmin
@@ -8,6 +9,7 @@ from simple_history.admin import SimpleHistoryAdmin
 from observatory_ops.registry.forms import ChoicesNamedWithSite, ChoicesOfItsSite
 
 from . import selectors
+from .forms import possible_id
 from .models import ChecklistTick, IsolationPoint, Part, PartUse, RequiredReading, WorkOrder, WorkOrderItem, listed
 
 
@@ -149,12 +151,28 @@ def _locked_by(orders: list[WorkOrder], done: str) -> str:
     )
 
 
+class _SearchedChoice(AutocompleteSelect):
+    """Django's search box for a choice (``autocomplete_fields``), except that a value sent that no id can be
+    (``possible_id``: "zzz", a number too large for the id column) is shown as nothing chosen: Django's box looks the
+    value up to name it, and that query fails (ValueError, OverflowError) where the field has already refused the value
+    as not one of the choices."""
+
+    def optgroups(self, name, value, attr=None):
+        model = self.choices.queryset.model
+        return super().optgroups(name, [given for given in value if possible_id(model, given) is not None], attr)
+
+
 @admin.register(IsolationPoint)
 class IsolationPointAdmin(ChoicesNamedWithSite, SimpleHistoryAdmin):
     form = IsolationPointForm
     list_display = ("telescope", "subsystem", "energy", "label", "location")
     list_filter = ("telescope__site", "energy")
     autocomplete_fields = ("subsystem",)  # a network has thousands of subsystems: searched, not listed
+
+    def formfield_for_foreignkey(self, db_field, request, **kwargs):
+        if db_field.name in self.get_autocomplete_fields(request):
+            kwargs["widget"] = _SearchedChoice(db_field, self.admin_site, using=kwargs.get("using"))
+        return super().formfield_for_foreignkey(db_field, request, **kwargs)
 
     def get_deleted_objects(self, objs, request):
         """A point on the lockout of an order underway is not deleted (the single delete page and the list's delete

@@ -5,6 +5,7 @@ from functools import cached_property
 
 from django import forms
 from django.contrib.auth import get_user_model
+from django.db import connection
 from django.db.models import Q
 
 from observatory_ops.access.roles import TECHNICIAN, holders_of
@@ -29,6 +30,31 @@ from .models import (
     part_quantity_too_many,
 )
 from .selectors import order_plans
+
+
+def possible_id(model, value) -> int | None:
+    """``value`` as the id of a row of ``model``: a whole number in ASCII digits that the model's id column can hold;
+    None for anything else. A number beyond the column (99999999999999999999999, typed or sent by hand) is no row, as
+    an unknown id is none, but a query naming it fails (SQLite: OverflowError), so it is answered before any query as
+    an unknown id is answered after one."""
+    text = str(value)
+    low, high = connection.ops.integer_field_range(model._meta.pk.get_internal_type())
+    if not (text.isascii() and text.isdigit()) or len(text) > len(str(high)):
+        return None
+    number = int(text)
+    return number if low <= number <= high else None
+
+
+class _ChoicesOfStoredIds(forms.ModelMultipleChoiceField):
+    """A choice of several records that refuses a value no id can be (``possible_id``) as a choice not listed, with
+    the message an unknown id gets, before the query that would fail on it."""
+
+    def _check_values(self, value):
+        for given in value:
+            if possible_id(self.queryset.model, given) is None:
+                raise forms.ValidationError(self.error_messages["invalid_choice"], code="invalid_choice",
+                                            params={"value": given})
+        return super()._check_values(value)
 
 
 class _PersonChoiceField(forms.ModelChoiceField):
@@ -199,7 +225,7 @@ class AdHocForm(forms.Form):
         "away. Empty if not known yet: it is then set (Edit) before the order is issued.",
         error_messages={"invalid": "Planned date: enter a date, such as 2026-06-15."},
     )
-    subsystems = forms.ModelMultipleChoiceField(queryset=Subsystem.objects.none())
+    subsystems = _ChoicesOfStoredIds(queryset=Subsystem.objects.none())
     hazards = HazardsField(
         label="Further hazards of this work",
         help_text="The chosen subsystems' own hazards are always included; tick any this work adds (a ladder, "
@@ -577,7 +603,8 @@ class PartCountForm(forms.Form):
         })
 
 
-def _within(label: str, low: float, high: float, why: str, *, above_low: bool = False, below_high: bool = False):
+def within_bounds(label: str, low: float, high: float, why: str, *, above_low: bool = False,
+                  below_high: bool = False):
     """A field validator: the value at least ``low`` (above it, with ``above_low``) and at most ``high`` (below it,
     with ``below_high``), refused naming the field, the bounds and ``why`` they are what they are. calc.lifting takes
     a figure of any size, and answers a diameter of 1e308 with an infinite load; this says what was mistyped."""
@@ -595,32 +622,35 @@ def _within(label: str, low: float, high: float, why: str, *, above_low: bool = 
 def _lift_number(label: str, low: float, high: float, why: str, *, above_low: bool = False,
                  below_high: bool = False, **options) -> forms.FloatField:
     return forms.FloatField(
-        label=label, validators=[_within(label, low, high, why, above_low=above_low, below_high=below_high)],
+        label=label, validators=[within_bounds(label, low, high, why, above_low=above_low, below_high=below_high)],
         error_messages={"required": f"{label}: enter a value.", "invalid": f"{label}: enter a number."}, **options,
     )
 
 
 #: The lift form's bounds, beyond which a figure is a slip of the keyboard: our own (common practice, no published
-#: source), set above the largest of each thing; the sizes of the largest mirror blanks are from memory.
-_LARGEST_MIRROR = "no single telescope mirror is that large: the largest are about 8,400 mm across"
-_HEAVIEST_LOAD = "more than 100 t is no mirror lift"
+#: source), set above the largest of each thing; the sizes of the largest mirror blanks are from memory. A mirror's
+#: record is held to them too (mirrors.admin), so the figures it gives a lift are ones this form takes.
+MIRROR_DIAMETER_MAX_MM = 10_000
+LARGEST_MIRROR = "no single telescope mirror is that large: the largest are about 8,400 mm across"
+MIRROR_THICKNESS_MAX_MM = 2_000
+THICKEST_MIRROR = "the thickest mirror blanks are under 1,000 mm"
+LIFTED_MASS_MAX_KG = 100_000
+HEAVIEST_LOAD = "more than 100 t is no mirror lift"
 #: The most sling legs the form takes: at most two are counted as bearing the load, however many are rigged.
 LIFT_LEGS_MAX = 8
 
 
 class LiftForm(forms.Form):
-    diameter_mm = _lift_number("Mirror diameter (mm)", 0, 10_000, _LARGEST_MIRROR, above_low=True)
-    thickness_mm = _lift_number(
-        "Edge thickness (mm)", 0, 2_000, "the thickest mirror blanks are under 1,000 mm", above_low=True
-    )
-    hole_mm = _lift_number("Central hole (mm)", 0, 10_000, _LARGEST_MIRROR, initial=0)
+    diameter_mm = _lift_number("Mirror diameter (mm)", 0, MIRROR_DIAMETER_MAX_MM, LARGEST_MIRROR, above_low=True)
+    thickness_mm = _lift_number("Edge thickness (mm)", 0, MIRROR_THICKNESS_MAX_MM, THICKEST_MIRROR, above_low=True)
+    hole_mm = _lift_number("Central hole (mm)", 0, MIRROR_DIAMETER_MAX_MM, LARGEST_MIRROR, initial=0)
     material = forms.ChoiceField(choices=[(k, k.replace("_", " ")) for k in DENSITY])
     lightweighting_fraction = _lift_number(
         "Lightweighting fraction", 0, 1, "the fraction of the solid blank removed", below_high=True, initial=0,
         help_text="Fraction of the solid blank removed, 0 to <1.",
     )
     fixture_kg = _lift_number(
-        "Cell / fixture mass (kg)", 0, 100_000, _HEAVIEST_LOAD, required=False,
+        "Cell / fixture mass (kg)", 0, LIFTED_MASS_MAX_KG, HEAVIEST_LOAD, required=False,
         help_text="Empty: not entered (a mirror's record gives it once entered there); the figures are then the mirror "
         "alone and the work is not started. 0: nothing is lifted with the mirror.",
     )
@@ -636,7 +666,7 @@ class LiftForm(forms.Form):
         "Leg angle from horizontal (deg)", 0, 90, "90 is a vertical leg", above_low=True, initial=60
     )
     wll_kg = _lift_number(
-        "Working load limit per leg (kg)", 0, 100_000, _HEAVIEST_LOAD, above_low=True, required=False
+        "Working load limit per leg (kg)", 0, LIFTED_MASS_MAX_KG, HEAVIEST_LOAD, above_low=True, required=False
     )
 
     def clean(self):

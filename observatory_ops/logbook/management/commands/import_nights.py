@@ -1,5 +1,6 @@
 from pathlib import Path
 
+from django.conf import settings
 from django.core.management.base import BaseCommand, CommandError
 from django.template.defaultfilters import pluralize
 
@@ -15,6 +16,12 @@ def _not_a_file(path: Path) -> str:
     if path.exists():
         return "is not a regular file (a device, a pipe or a socket); give the path of a CSV file"
     return "no such file"
+
+
+#: How many bad rows are listed, the rest counted, as the upload page lists them
+#: (logbook/templates/logbook/nights_import.html): a file of many bad rows printed 2.4 million lines, and the first
+#: few show what is wrong.
+ROWS_LISTED = 50
 
 
 class Command(BaseCommand):
@@ -34,6 +41,11 @@ class Command(BaseCommand):
         if not path.is_file():
             raise CommandError(f"{file}: {_not_a_file(path)}")
 
+        size, limit = path.stat().st_size, settings.NIGHTS_UPLOAD_MAX_BYTES
+        if size > limit:  # the upload page's limit: a file of 50 MB took 87 s and 2.3 GB of memory
+            raise CommandError(f"{file}: the file is {size:,} bytes; the limit is {limit:,} bytes. Split it into "
+                               "files of fewer nights and import each. Nothing was stored.")
+
         def progress(done, total):
             self.stderr.write(f"\r  {done:,}/{total:,} rows checked and written", ending="\n" if done == total else "")
             self.stderr.flush()
@@ -45,8 +57,13 @@ class Command(BaseCommand):
         report = services.nights_import(target, data, skip_bad=skip_bad, progress=progress)
         if report.file_problem:  # the whole file is refused: no line to name (the summary says why)
             raise CommandError(f"{file}: {report.summary}")
-        for line, reason in report.errors or report.skipped:
+        rows = report.refused_rows or report.skipped_rows  # each row once, with all its problems, as the page
+        for line, reason in rows[:ROWS_LISTED]:
             self.stderr.write(f"line {line}: {reason}")
+        if len(rows) > ROWS_LISTED:
+            more = len(rows) - ROWS_LISTED
+            self.stderr.write(f"... and {more:,} more {'bad' if report.errors else 'skipped'} row{pluralize(more)}, "
+                              "not listed.")
         if report.errors:
             raise CommandError(f"{file}: {report.summary}")
         for night, telescope in sorted({(c.night, c.telescope) for c in report.changes}):
