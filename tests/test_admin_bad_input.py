@@ -191,3 +191,25 @@ def test_a_stored_measurements_admin_page_opens_read_only_and_a_post_to_it_chang
 def test_the_measurement_add_page_still_gives_the_wavelengths_bounds(mirror, admin_client):
     page = _text(admin_client.get("/admin/mirrors/reflectancemeasurement/add/"))
     assert "Otherwise the one wavelength measured, 265.2 to 1937 nm." in page
+
+
+@pytest.mark.parametrize("diameter, thickness", [(0.7, 0.07), (27.56, 2.76)])  # metres; inches
+def test_a_mirror_typed_in_metres_or_inches_is_refused_on_the_lift_form_naming_millimetres(diameter, thickness):
+    """A bad-input review typed a 0.7 m mirror as 0.7 / 0.07 and in inches: the lift's mass came out 0.0 kg, the sling
+    check held nothing and the work could start. Our own bounds (common practice, no published source): 50 mm across,
+    3 mm thick."""
+    from observatory_ops.workorders.forms import MIRROR_DIAMETER_MIN_MM, MIRROR_THICKNESS_MIN_MM, LiftForm
+
+    assert (MIRROR_DIAMETER_MIN_MM, MIRROR_THICKNESS_MIN_MM) == (50, 3)
+    form = LiftForm({"diameter_mm": diameter, "thickness_mm": thickness, "hole_mm": 0, "material": "borosilicate",
+                     "lightweighting_fraction": 0, "fixture_kg": 0, "legs": 2, "angle_deg": 60, "wll_kg": 20})
+    assert not form.is_valid()
+    assert form.errors["diameter_mm"] == [
+        f"Mirror diameter (mm): {diameter:g} mm is under 50 mm, smaller than any mirror a lift is planned for. It "
+        f"reads millimetres: {diameter:g} m is {diameter * 1000:,.0f} mm, {diameter:g} in is "
+        f"{diameter * 25.4:,.0f} mm. With a figure in another unit the mass, and the sling check, come out near "
+        "nothing."]
+    assert "Edge thickness (mm): " in form.errors["thickness_mm"][0]
+    right = LiftForm({"diameter_mm": 700, "thickness_mm": 70, "hole_mm": 160, "material": "borosilicate",
+                      "lightweighting_fraction": 0, "fixture_kg": 0, "legs": 2, "angle_deg": 60, "wll_kg": 20})
+    assert right.is_valid(), right.errors

@@ -13,8 +13,11 @@ from observatory_ops.workorders.forms import (
     LARGEST_MIRROR,
     LIFTED_MASS_MAX_KG,
     MIRROR_DIAMETER_MAX_MM,
+    MIRROR_DIAMETER_MIN_MM,
     MIRROR_THICKNESS_MAX_MM,
+    MIRROR_THICKNESS_MIN_MM,
     THICKEST_MIRROR,
+    millimetres_at_least,
     within_bounds,
 )
 
@@ -106,18 +109,20 @@ class MirrorRecordForm(MirrorAdminForm):
     ``DUST_SENSITIVITY_MAX``. A figure out of bounds is refused beside its field, and nothing is stored."""
 
     BOUNDS = {
-        "diameter_mm": within_bounds("Diameter (mm)", 0, MIRROR_DIAMETER_MAX_MM, LARGEST_MIRROR, above_low=True),
-        "thickness_mm": within_bounds("Thickness (mm)", 0, MIRROR_THICKNESS_MAX_MM, THICKEST_MIRROR, above_low=True),
-        "cell_mass_kg": within_bounds("Cell mass (kg)", 0, LIFTED_MASS_MAX_KG, HEAVIEST_LOAD),
-        "dust_sensitivity": within_bounds("Dust sensitivity", 0, DUST_SENSITIVITY_MAX,
-                                          "0: dust does not matter; 1: an hour at twice the clean-air PM10 counts "
-                                          "as two"),
+        "diameter_mm": [within_bounds("Diameter (mm)", 0, MIRROR_DIAMETER_MAX_MM, LARGEST_MIRROR, above_low=True),
+                        millimetres_at_least("Diameter (mm)", MIRROR_DIAMETER_MIN_MM)],
+        "thickness_mm": [within_bounds("Thickness (mm)", 0, MIRROR_THICKNESS_MAX_MM, THICKEST_MIRROR, above_low=True),
+                         millimetres_at_least("Thickness (mm)", MIRROR_THICKNESS_MIN_MM)],
+        "cell_mass_kg": [within_bounds("Cell mass (kg)", 0, LIFTED_MASS_MAX_KG, HEAVIEST_LOAD)],
+        "dust_sensitivity": [within_bounds("Dust sensitivity", 0, DUST_SENSITIVITY_MAX,
+                                           "0: dust does not matter; 1: an hour at twice the clean-air PM10 counts "
+                                           "as two")],
     }
 
     def __init__(self, *args, **kwargs):
         super().__init__(*args, **kwargs)
-        for name, check in self.BOUNDS.items():
-            self.fields[name].validators.append(check)
+        for name, checks in self.BOUNDS.items():
+            self.fields[name].validators.extend(checks)
         low, high = MEASURABLE_NM
         self.fields["band_to_nm"].help_text = (
             f"The band the fresh value and the band means are averaged over, both edges in nanometres from {low:,g} "

@@ -619,10 +619,24 @@ def within_bounds(label: str, low: float, high: float, why: str, *, above_low: b
     return check
 
 
+def millimetres_at_least(label: str, least: float):
+    """A field validator: a mirror's size in millimetres of at least ``least``, a smaller figure told as one typed in
+    another unit (``MIRROR_DIAMETER_MIN_MM``): the lift form's and the mirror record's."""
+    def check(value: float) -> None:
+        if 0 < value < least:
+            raise forms.ValidationError(
+                f"{label}: {value:g} mm is under {least:g} mm, smaller than any mirror a lift is planned for. It reads "
+                f"millimetres: {value:g} m is {value * 1000:,.0f} mm, {value:g} in is {value * 25.4:,.0f} mm. With a "
+                "figure in another unit the mass, and the sling check, come out near nothing.")
+
+    return check
+
+
 def _lift_number(label: str, low: float, high: float, why: str, *, above_low: bool = False,
-                 below_high: bool = False, **options) -> forms.FloatField:
+                 below_high: bool = False, also=(), **options) -> forms.FloatField:
     return forms.FloatField(
-        label=label, validators=[within_bounds(label, low, high, why, above_low=above_low, below_high=below_high)],
+        label=label,
+        validators=[within_bounds(label, low, high, why, above_low=above_low, below_high=below_high), *also],
         error_messages={"required": f"{label}: enter a value.", "invalid": f"{label}: enter a number."}, **options,
     )
 
@@ -636,13 +650,20 @@ MIRROR_THICKNESS_MAX_MM = 2_000
 THICKEST_MIRROR = "the thickest mirror blanks are under 1,000 mm"
 LIFTED_MASS_MAX_KG = 100_000
 HEAVIEST_LOAD = "more than 100 t is no mirror lift"
+#: The smallest mirror a lift is planned for, and the thinnest blank: our own bounds (common practice, no published
+#: source). A bad-input review typed a 0.7 m mirror in metres (0.7 / 0.07) and in inches (27.56 / 2.76): the mass came
+#: out 0.0 kg, the sling check held nothing and the work could start. Smaller figures are taken for another unit.
+MIRROR_DIAMETER_MIN_MM = 50
+MIRROR_THICKNESS_MIN_MM = 3
 #: The most sling legs the form takes: at most two are counted as bearing the load, however many are rigged.
 LIFT_LEGS_MAX = 8
 
 
 class LiftForm(forms.Form):
-    diameter_mm = _lift_number("Mirror diameter (mm)", 0, MIRROR_DIAMETER_MAX_MM, LARGEST_MIRROR, above_low=True)
-    thickness_mm = _lift_number("Edge thickness (mm)", 0, MIRROR_THICKNESS_MAX_MM, THICKEST_MIRROR, above_low=True)
+    diameter_mm = _lift_number("Mirror diameter (mm)", 0, MIRROR_DIAMETER_MAX_MM, LARGEST_MIRROR, above_low=True,
+                               also=[millimetres_at_least("Mirror diameter (mm)", MIRROR_DIAMETER_MIN_MM)])
+    thickness_mm = _lift_number("Edge thickness (mm)", 0, MIRROR_THICKNESS_MAX_MM, THICKEST_MIRROR, above_low=True,
+                                also=[millimetres_at_least("Edge thickness (mm)", MIRROR_THICKNESS_MIN_MM)])
     hole_mm = _lift_number("Central hole (mm)", 0, MIRROR_DIAMETER_MAX_MM, LARGEST_MIRROR, initial=0)
     material = forms.ChoiceField(choices=[(k, k.replace("_", " ")) for k in DENSITY])
     lightweighting_fraction = _lift_number(
