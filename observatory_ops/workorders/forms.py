@@ -260,6 +260,10 @@ class AdHocForm(forms.Form):
 #: What the finish form says beside a questioned figure (``FinishForm.beyond_limits``, ``above_fresh``,
 #: ``hours_questioned``): nothing is stored until it is confirmed (``READINGS_CONFIRM``) and Finish is pressed again
 #: with the same values.
+#: Actual hours below which an order's are asked about (3 minutes, whatever its estimate): our own, common practice,
+#: no published source.
+FEWEST_HOURS_UNQUESTIONED = 0.05
+
 NOT_RECORDED_YET = ("Not recorded yet: correct it, or if it is right, tick \"The questioned figures are right as "
                     "entered\" below and press Finish again.")
 #: The box that keeps the questioned figures as entered, and the note at the top of the form while it is not ticked.
@@ -523,20 +527,28 @@ class FinishForm(forms.Form):
         asked = {}
         for pk, value in self.readings().items():
             required = self._required[pk]
-            if value == 0 and required.limit_value and required.limit_value > 0 and "at most" in required.limit_text:
+            at_most = required.limit_value and required.limit_value > 0 and "at most" in required.limit_text
+            # A limit in words ("within the maker's range") is asked about too: a tablet review stored a brake air
+            # pressure of 0 bar without a word.
+            if value == 0 and (at_most or not required.limit_value):
                 asked[f"reading_{pk}"] = (f"0 {required.unit} against its limit ({required.limit_text}): was the "
                                           f"measurement missed, or the field left at 0? {NOT_RECORDED_YET}")
         return asked
 
     def hours_questioned(self) -> dict[str, str]:
-        """The actual hours beside their field when above ``HOURS_QUESTION_FACTOR`` times the estimate, or 0 for an
-        order estimated to take time (an empty field filled with 0 to get past it: the reliability page would count
-        the work as taking none); valid forms only: shown once, as a questioned reading is, before they are recorded
-        and shared among the service records."""
+        """The actual hours beside their field when above ``HOURS_QUESTION_FACTOR`` times the estimate, above 0 and
+        below ``FEWEST_HOURS_UNQUESTIONED``, or 0 for an order estimated to take time (an empty field filled with 0 to
+        get past it: the reliability page would count the work as taking none); valid forms only: shown once, as a
+        questioned reading is, before they are recorded and shared among the service records."""
         hours, estimate = self.cleaned_data["actual_hours"], self._order.estimated_hours
         if hours == 0 and estimate:
             return {"actual_hours": (f"0 h for work estimated at {estimate:g} h: was no time spent on it at all? Enter "
                                      f"everyone's hours added up. {NOT_RECORDED_YET}")}
+        if 0 < hours < FEWEST_HOURS_UNQUESTIONED:
+            # A tablet review finished an order with 1e-09 h, shown as "0.00 h": the reliability page counts it.
+            planned = f" for work estimated at {estimate:g} h" if estimate else ""
+            return {"actual_hours": (f"{hours:g} h is {hours * 60:.2g} minutes{planned}: was the figure cut short, or "
+                                     f"typed in another unit? {NOT_RECORDED_YET}")}
         if not estimate or hours <= HOURS_QUESTION_FACTOR * estimate:
             return {}
         return {"actual_hours": (f"{hours:g} h is {hours / estimate:,.0f} times the estimate of {estimate:g} h: were "
@@ -544,17 +556,18 @@ class FinishForm(forms.Form):
 
     def above_fresh(self) -> dict[str, str]:
         """Field name -> the question beside it, for each mirror's band reflectance entered well above the fresh value
-        of its coating on the day the work was done (``mirrors.forms.above_fresh_problem``; valid forms only): it
+        of its coating on the day the work was done, or far below what a coated mirror reflects
+        (``mirrors.forms.reflectance_question``; valid forms only): it
         joins the mirror's decline fit, so it is shown once, as a reading beyond its limit is, before it is
         recorded. Not flagged on the record: the question is about the typing, not the mirror."""
-        from observatory_ops.mirrors.forms import above_fresh_problem  # the mirrors app builds on work orders' data
+        from observatory_ops.mirrors.forms import reflectance_question  # the mirrors app builds on work orders' data
 
         day, asked = self.cleaned_data["work_done_on"], {}
         for pk, value in self.readings().items():
             required = self._required[pk]
             mirror = getattr(required.subsystem, "mirror", None)
             if required.quantity == "reflectance" and mirror is not None:
-                if problem := above_fresh_problem(mirror, day, value):
+                if problem := reflectance_question(mirror, day, value):
                     asked[f"reading_{pk}"] = f"{problem} {NOT_RECORDED_YET}"
         return asked
 
