@@ -10,8 +10,8 @@ import re
 import pytest
 
 from observatory_ops.calc.coating import Layer, coating_curve
+from observatory_ops.calc.exposure import DUST_SENSITIVITY_MAX
 from observatory_ops.logbook.quantities import reflectance_text
-from observatory_ops.mirrors.admin import DUST_SENSITIVITY_MAX
 from observatory_ops.mirrors.forms import MEASURABLE_NM
 from observatory_ops.mirrors.models import CoatingEvent, Mirror, ReflectanceMeasurement
 from observatory_ops.planning.services import site_today
@@ -213,3 +213,21 @@ def test_a_mirror_typed_in_metres_or_inches_is_refused_on_the_lift_form_naming_m
     right = LiftForm({"diameter_mm": 700, "thickness_mm": 70, "hole_mm": 160, "material": "borosilicate",
                       "lightweighting_fraction": 0, "fixture_kg": 0, "legs": 2, "angle_deg": 60, "wll_kg": 20})
     assert right.is_valid(), right.errors
+
+
+def test_a_plans_dust_sensitivity_is_held_to_the_same_bound(telescope):
+    """calc.exposure.DUST_SENSITIVITY_MAX holds a plan's sensitivity as it holds a mirror's (1e300 counted 1e303
+    dust-weighted hours); our own bound, no published source."""
+    import datetime as dt
+
+    from django.core.exceptions import ValidationError
+
+    from observatory_ops.planning.models import ServicePlan
+
+    fans = Subsystem.objects.create(telescope=telescope, kind="cooling_fans", name="Fans")
+    plan = ServicePlan(subsystem=fans, name="Filters", counting_from=dt.date(2026, 1, 1), dust_sensitivity=1e300)
+    with pytest.raises(ValidationError) as refused:
+        plan.full_clean()
+    assert "dust_sensitivity" in refused.value.message_dict
+    plan.dust_sensitivity = DUST_SENSITIVITY_MAX
+    plan.full_clean()

@@ -15,9 +15,9 @@ import re
 import pytest
 
 from observatory_ops.planning.models import ServicePlan
+from observatory_ops.registry.forms import possible_id
 from observatory_ops.registry.models import Site, Subsystem
 from observatory_ops.registry.services import subsystem_create
-from observatory_ops.workorders.forms import possible_id
 from observatory_ops.workorders.models import IsolationPoint, WorkOrder
 from tests.conftest import mains_isolator
 

@@ -15,6 +15,11 @@ from numpy.typing import ArrayLike, NDArray
 #: (from memory). Air at or below it weighs one hour per open hour.
 CLEAN_AIR_PM10_UGM3 = 20.0
 
+#: The most dust sensitivity a plan or a mirror takes. Our own bound, no published source: the catalogue's plans use
+#: 0.5 to 1.5, and at 10 an open hour at twice the clean-air PM10 already counts as 11; a bad-input review's 1e300
+#: counted 1e303 dust-weighted hours.
+DUST_SENSITIVITY_MAX = 10
+
 
 def dust_weight(pm10_ugm3: ArrayLike, sensitivity: float) -> NDArray[np.float64]:
     """Weight of one open hour in air with the given PM10 concentration.

@@ -5,6 +5,7 @@ from django.contrib import admin
 from django.forms.models import BaseInlineFormSet
 from simple_history.admin import SimpleHistoryAdmin
 
+from observatory_ops.calc.exposure import DUST_SENSITIVITY_MAX
 from observatory_ops.logbook.services import date_problem, service_date_problem
 from observatory_ops.planning.admin import RecomputesSite
 from observatory_ops.registry.forms import ChoicesNamedWithSite, ProtectedNamed
@@ -82,11 +83,6 @@ class CleaningInline(admin.TabularInline):
     readonly_fields = ("work_order",)
 
 
-#: The most dust sensitivity a mirror takes. Our own bound, no published source: the catalogue's plans use 0.5 to 1.5,
-#: and at 10 an open hour at twice the clean-air PM10 already counts as 11; 1e300 counted 1e303 dust-weighted hours.
-DUST_SENSITIVITY_MAX = 10
-
-
 def band_edge_problem(label: str, value_nm: float) -> str:
     """What is wrong with a mirror's band edge, "" when nothing is. The band must lie where the optical data of every
     coating material overlap (``MEASURABLE_NM``, from ``calc.coating``), so the fresh value of any coating the mirror
@@ -106,7 +102,7 @@ class MirrorRecordForm(MirrorAdminForm):
     """The mirror admin's form, its figures held to bounds: the band where the fresh value can be computed
     (``band_edge_problem``), the diameter, thickness and cell mass to the lift form's bounds (``workorders.forms``), so
     the figures a lift takes from the record are ones that form takes, and the dust sensitivity to
-    ``DUST_SENSITIVITY_MAX``. A figure out of bounds is refused beside its field, and nothing is stored."""
+    ``calc.exposure.DUST_SENSITIVITY_MAX``. A figure out of bounds is refused beside its field; nothing is stored."""
 
     BOUNDS = {
         "diameter_mm": [within_bounds("Diameter (mm)", 0, MIRROR_DIAMETER_MAX_MM, LARGEST_MIRROR, above_low=True),

@@ -8,6 +8,7 @@ from django.db import models
 from django.urls import reverse
 from simple_history.models import HistoricalRecords
 
+from observatory_ops.calc import exposure
 from observatory_ops.calc.coating import MATERIALS, METALS
 from observatory_ops.calc.lifting import DENSITY
 from observatory_ops.logbook.quantities import reflectance_text
@@ -44,7 +45,9 @@ class Mirror(models.Model):
     )
     band_from_nm = models.FloatField(default=400)
     band_to_nm = models.FloatField(default=1000)
-    dust_sensitivity = models.FloatField(default=1.0, validators=[MinValueValidator(0)])
+    dust_sensitivity = models.FloatField(
+        default=1.0, validators=[MinValueValidator(0), MaxValueValidator(exposure.DUST_SENSITIVITY_MAX)]
+    )
 
     def __str__(self) -> str:
         return str(self.subsystem)

@@ -6,8 +6,8 @@ from django.utils.safestring import mark_safe
 
 from observatory_ops.calc.triggers import STATUSES
 from observatory_ops.registry.catalogue import KIND_CHOICES
+from observatory_ops.registry.forms import possible_id
 from observatory_ops.registry.models import Site, Telescope
-from observatory_ops.workorders.forms import possible_id
 
 from .models import PlanStatus
 

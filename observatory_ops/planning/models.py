@@ -7,10 +7,11 @@ import math
 import re
 
 from django.core.exceptions import ObjectDoesNotExist, ValidationError
-from django.core.validators import MinValueValidator
+from django.core.validators import MaxValueValidator, MinValueValidator
 from django.db import models
 from simple_history.models import HistoricalRecords
 
+from observatory_ops.calc import exposure
 from observatory_ops.calc.triggers import OVERDUE, STATUSES
 from observatory_ops.logbook.quantities import (
     PLAUSIBLE_RANGE,
@@ -59,8 +60,8 @@ class ServicePlan(models.Model):
     hazards = models.JSONField(default=list, blank=True, help_text="Hazards of the task beyond the subsystem's.")
     estimated_hours = models.FloatField(default=1.0, validators=[MinValueValidator(0)])
     dust_sensitivity = models.FloatField(
-        default=0.0, validators=[MinValueValidator(0)],
-        help_text="0: dust does not matter; 1: an hour at twice the clean-air PM10 counts as two.",
+        default=0.0, validators=[MinValueValidator(0), MaxValueValidator(exposure.DUST_SENSITIVITY_MAX)],
+        help_text="0: dust does not matter; 1: an hour at twice the clean-air PM10 counts as two; at most 10.",
     )
     counting_from = models.DateField(help_text="Start of counting when the plan has no service record yet.")
     # A plan made with a new subsystem gets the day it was registered, which says nothing of when the equipment

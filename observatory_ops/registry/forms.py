@@ -6,6 +6,7 @@ from django import forms
 from django.contrib import admin
 from django.contrib.admin.views.autocomplete import AutocompleteJsonView
 from django.core.exceptions import ValidationError
+from django.db import connection
 from django.db.models import QuerySet
 from django.forms.models import BaseInlineFormSet
 
@@ -215,3 +216,16 @@ class CrewDaysOffFormSet(BaseInlineFormSet):
                 "give each date once."
             )
         super().clean()
+
+
+def possible_id(model, value) -> int | None:
+    """``value`` as the id of a row of ``model``: a whole number in ASCII digits that the model's id column can hold;
+    None for anything else. A number beyond the column (99999999999999999999999, typed or sent by hand) is no row, as
+    an unknown id is none, but a query naming it fails (SQLite: OverflowError), so it is answered before any query as
+    an unknown id is answered after one."""
+    text = str(value)
+    low, high = connection.ops.integer_field_range(model._meta.pk.get_internal_type())
+    if not (text.isascii() and text.isdigit()) or len(text) > len(str(high)):
+        return None
+    number = int(text)
+    return number if low <= number <= high else None

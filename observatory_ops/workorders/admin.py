@@ -6,10 +6,9 @@ from django.core.exceptions import ValidationError
 from django.http import HttpResponseRedirect
 from simple_history.admin import SimpleHistoryAdmin
 
-from observatory_ops.registry.forms import ChoicesNamedWithSite, ChoicesOfItsSite
+from observatory_ops.registry.forms import ChoicesNamedWithSite, ChoicesOfItsSite, possible_id
 
 from . import selectors
-from .forms import possible_id
 from .models import ChecklistTick, IsolationPoint, Part, PartUse, RequiredReading, WorkOrder, WorkOrderItem, listed
 
 

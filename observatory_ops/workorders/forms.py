@@ -5,7 +5,6 @@ from functools import cached_property
 
 from django import forms
 from django.contrib.auth import get_user_model
-from django.db import connection
 from django.db.models import Q
 
 from observatory_ops.access.roles import TECHNICIAN, holders_of
@@ -14,7 +13,7 @@ from observatory_ops.calc.lifting import DENSITY
 from observatory_ops.logbook.forms import HOURS_QUESTION_FACTOR, UNIT_SLIP_FACTOR
 from observatory_ops.logbook.quantities import value_problem
 from observatory_ops.planning.services import site_today
-from observatory_ops.registry.forms import HazardsField
+from observatory_ops.registry.forms import HazardsField, possible_id
 from observatory_ops.registry.models import Subsystem
 
 from . import selectors, services
@@ -30,19 +29,6 @@ from .models import (
     part_quantity_too_many,
 )
 from .selectors import order_plans
-
-
-def possible_id(model, value) -> int | None:
-    """``value`` as the id of a row of ``model``: a whole number in ASCII digits that the model's id column can hold;
-    None for anything else. A number beyond the column (99999999999999999999999, typed or sent by hand) is no row, as
-    an unknown id is none, but a query naming it fails (SQLite: OverflowError), so it is answered before any query as
-    an unknown id is answered after one."""
-    text = str(value)
-    low, high = connection.ops.integer_field_range(model._meta.pk.get_internal_type())
-    if not (text.isascii() and text.isdigit()) or len(text) > len(str(high)):
-        return None
-    number = int(text)
-    return number if low <= number <= high else None
 
 
 class _ChoicesOfStoredIds(forms.ModelMultipleChoiceField):

@@ -18,6 +18,7 @@ from observatory_ops.logbook.nights_csv import WRITTEN_DATE
 from observatory_ops.planning.models import ServicePlan
 from observatory_ops.planning.services import site_today
 from observatory_ops.registry.catalogue import BRAKE_AIR_BACK, is_tag_out_step, release_step_for
+from observatory_ops.registry.forms import possible_id
 from observatory_ops.registry.models import Site
 
 from . import pdf, selectors, services
@@ -48,7 +49,6 @@ from .forms import (
     WithdrawForm,
     WorkOrderEditForm,
     planned_date_plausible,
-    possible_id,
 )
 from .lifecycle import TRANSITIONS, available
 from .models import Part, State, WorkOrder
