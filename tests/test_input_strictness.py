@@ -376,4 +376,18 @@ def test_a_response_quote_never_closed_is_refused_not_a_server_error(client, use
 def test_a_response_file_with_carriage_returns_alone_is_read():
     # Old spreadsheets on a Mac end lines with CR alone; read as lines, as the nights CSV is.
     waves, weights = response_csv.parse(b"wavelength_nm,weight\r400,1\r500,2\r")
-    assert list(waves) == [400.0, 500.0] and list(weights) == [1.0, 2.0]
+    assert list(waves) == [400.0, 500.0] and list(weights) == [0.5, 1.0]  # in proportion, the largest 1
+
+
+def test_a_response_in_micrometres_or_with_semicolons_is_told_so_and_huge_weights_keep_their_proportions():
+    """A bad-input review: semicolons got "the header must name exactly ...", micrometres "the response is zero over
+    the whole band", weights of 1e308 a band mean of nan."""
+    with pytest.raises(ValueError, match="its columns look separated by ';': this format separates them by commas"):
+        response_csv.parse(b"wavelength_nm;weight\n400;1\n500;2\n")
+    with pytest.raises(ValueError, match="its columns look separated by tabs"):
+        response_csv.parse(b"wavelength_nm\tweight\n400\t1\n500\t2\n")
+    with pytest.raises(ValueError, match=r"^wavelengths 0.4 to 1 look like micrometres: the column wavelength_nm is "
+                                         r"in nanometres \(400 to 1000\)$"):
+        response_csv.parse(b"wavelength_nm,weight\n0.4,1\n1.0,2\n")
+    _, weights = response_csv.parse(b"wavelength_nm,weight\n400,1e308\n500,5e307\n")
+    assert list(weights) == [1.0, 0.5]

@@ -15,6 +15,11 @@ import numpy as np
 MAX_BYTES = 1024 * 1024
 
 
+#: A response whose wavelengths all lie below this many "nm" was written in micrometres (0.4 to 1.0): no detector or
+#: filter responds only below 20 nm, the coating data start above 200 nm.
+MICROMETRES_BELOW = 20
+
+
 def parse(data: bytes) -> tuple[np.ndarray, np.ndarray]:
     """(wavelength_nm, weight) arrays; ValueError naming the line and the problem. ``data`` may be read only up to
     one byte past ``MAX_BYTES``: a file longer than that is refused."""
@@ -30,7 +35,10 @@ def parse(data: bytes) -> tuple[np.ndarray, np.ndarray]:
     _line, first_row = next(rows, (1, []))
     header = [h.strip().lower() for h in first_row]
     if sorted(header) != ["wavelength_nm", "weight"]:
-        raise ValueError("line 1: the header must name exactly the columns wavelength_nm and weight")
+        joined = ",".join(first_row)
+        apart = next((f"'{mark}'" if mark != "\t" else "tabs" for mark in (";", "\t") if mark in joined), "")
+        hint = f" (its columns look separated by {apart}: this format separates them by commas)" if apart else ""
+        raise ValueError(f"line 1: the header must name exactly the columns wavelength_nm and weight{hint}")
     waves, weights = [], []
     for line, row in rows:
         if not any(c.strip() for c in row):
@@ -50,7 +58,13 @@ def parse(data: bytes) -> tuple[np.ndarray, np.ndarray]:
         weights.append(weight)
     if len(waves) < 2 or not any(weights):
         raise ValueError("the response needs at least two rows and a weight above zero")
-    return np.array(waves), np.array(weights)
+    if waves[-1] < MICROMETRES_BELOW:
+        raise ValueError(f"wavelengths {waves[0]:g} to {waves[-1]:g} look like micrometres: the column wavelength_nm "
+                         f"is in nanometres ({waves[0] * 1000:g} to {waves[-1] * 1000:g})")
+    # Only the weights' proportions count (a band mean divides by their sum): scaled to a largest of 1, weights of
+    # 1e308 (a bad-input review's) no longer overflow the sum and print "Band mean: nan".
+    weights_ = np.array(weights)
+    return np.array(waves), weights_ / weights_.max()
 
 
 def _rows(text: str) -> Iterator[tuple[int, list[str]]]:
