@@ -88,4 +88,9 @@ def test_a_figure_refused_beside_its_field_is_named_by_the_fields_label_not_the_
     night = (site_today(site) - dt.timedelta(days=1)).isoformat()
     response = client.post(f"/sites/{site.slug}/nights/new/", {"night": night, "open_hours": "-1"})
     label = response.context["form"].fields["open_hours"].label
-    assert response.context["form"].errors["open_hours"] == [f"{label} cannot be below 0 (got -1)"]
+    assert response.context["form"].errors["open_hours"] == [f"{label}: cannot be below 0 (got -1)"]
+    # An impossible night is set apart from its long label, not spliced into the sentence (a bad-input review).
+    response = client.post(f"/sites/{site.slug}/nights/new/", {"night": "2023-02-29", "open_hours": "1"})
+    night_label = response.context["form"].fields["night"].label
+    assert response.context["form"].errors["night"] == [
+        f"{night_label}: 2023-02-29 is no such date (February 2023 has 28 days)"]

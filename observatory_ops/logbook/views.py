@@ -303,10 +303,11 @@ def night_log(request, slug):
             if problem.field not in form.fields:
                 form.add_error(None, problem.reason)
                 continue
-            # The format's rules name a column ("open_hours cannot be below 0"); beside its field, the field's label.
+            # The format's rules name a column ("open_hours cannot be below 0"); beside its field, the field's label,
+            # set apart ("...the night starts: 2023-02-29 is no such date", not spliced into the sentence).
             reason = problem.reason
             if reason.startswith(f"{problem.field} "):
-                reason = form.fields[problem.field].label + reason[len(problem.field):]
+                reason = f"{form.fields[problem.field].label}: {reason[len(problem.field) + 1:]}"
             form.add_error(problem.field, reason)
         if not report.errors:  # the summary names whose night it is wherever that could be mistaken
             messages.success(request, f"Night {form.cleaned_data['night']}: {report.summary}")
