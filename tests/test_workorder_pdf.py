@@ -364,3 +364,7 @@ def test_the_due_figures_say_the_day_they_were_computed():
     said = WHY_AS_OF.format(day="12 Jun 2026")
     assert said in text and text.index("Why this work is due") < text.index(said) < text.index("91 of 90 calendar")
     assert "As computed when this order was made" not in flat(body_text(render_sheet(make_sheet(why=()))))
+
+
+def test_readings_still_to_take_say_where_to_write_why_one_was_not_taken():
+    assert pdf.NOT_MEASURED_ON_PAPER in flat(body_text(render_sheet(make_sheet())))

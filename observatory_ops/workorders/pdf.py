@@ -715,6 +715,11 @@ def _used(part: SheetPart) -> str:
     return f"{used} ({part.short:g} beyond the register)" if part.short else used
 
 
+#: Under the readings still to take (a tablet review found no room for a reading that could not be taken).
+NOT_MEASURED_ON_PAPER = ("A reading that could not be taken: write why in its box instead of a value; the finish form "
+                         "asks why in its place.")
+
+
 def _readings(sheet: Sheet, width: float) -> list[Flowable]:
     heading = _heading("Readings to record")
     if not sheet.readings:
@@ -730,6 +735,8 @@ def _readings(sheet: Sheet, width: float) -> list[Flowable]:
         rows.append([_cell(reading.label, widths[0]), _cell(reading.unit, widths[1]),
                      _cell(reading.limit_text, widths[2]), box])
     story: list[Flowable] = [heading, _ruled_table(("Reading", "Unit", "Limit", "Value"), rows, widths)]
+    if any(not reading.recorded for reading in sheet.readings):  # the finish form asks why in place of a value
+        story.append(_note(NOT_MEASURED_ON_PAPER))
     beyond = [reading for reading in sheet.readings if reading.recorded and reading.beyond_limit]
     if beyond:
         story.append(Spacer(1, 5))
