@@ -109,3 +109,12 @@ def test_the_service_form_names_the_impossible_day_and_stores_nothing(client, te
     }).content.decode()
     assert "2026-02-29 is no such date: February 2026 has 28 days." in html.unescape(page)
     assert not ServiceRecord.objects.exists()
+
+
+def test_a_month_name_in_full_where_the_format_takes_its_abbreviation_is_not_called_no_such_date():
+    """A diff review: "31 April 2026 10:00" was told "no such date", then "30 April 2026 10:00" the general message:
+    the date-and-time formats read the month's abbreviation only."""
+    for typed in ("31 April 2026 10:00", "30 April 2026 10:00"):
+        with pytest.raises(ValidationError) as refused:
+            forms.DateTimeField().clean(typed)
+        assert refused.value.messages == ["Enter the date and time as YYYY-MM-DD HH:MM (2027-03-23 21:30)."]

@@ -329,6 +329,20 @@ def test_with_the_lockout_ticked_a_move_under_power_waits_for_the_release(underw
     assert selectors.checklist(underway).steps[moving].ticked
 
 
+def test_the_release_is_not_taken_back_from_under_a_move_under_power_ticked_after_it(underway, users):
+    """A diff review ticked the slew (before the lockout) once the release said the locks were off, then took the
+    release back: the record showed the slew with the locks on. The release's tick stays while such a move stands."""
+    technician = users["technician"]
+    moving = min(i for i in services.moves_or_restores(underway.step_list) if i < 4)
+    services.checklist_tick_set(underway, POINT, _point(underway).pk, True, technician)
+    for index in (4, 5, 6):  # the lockout, the locked-out work, the release
+        services.checklist_tick_set(underway, STEP, index, True, technician)
+    services.checklist_tick_set(underway, STEP, moving, True, technician)
+    with pytest.raises(services.Refused, match=rf"^the tick on step 7 stays: take back step {moving + 1} first: it "
+                                               r"was done after the locks came off$"):
+        services.checklist_tick_set(underway, STEP, 6, False, technician)
+
+
 def test_without_registered_points_only_the_lockout_step_comes_first(underway, users):
     _point(underway).delete()
     assert selectors.isolation_points(underway) == []

@@ -299,3 +299,30 @@ def test_the_finish_form_says_before_it_is_filled_in_that_steps_wait_for_the_oth
     _tick_through(fans_order, users, services.isolated_steps(fans_order.step_list)[1].stop)  # their release ticked
     page = client.get(f"/workorders/{drive_order.pk}/finish/").content.decode()
     assert 'id="finish-waits"' not in page
+
+
+def test_a_hand_back_is_not_left_to_a_crew_with_no_hand_back_of_its_own(order, telescope, users):  # noqa: F811
+    """A diff review: a drive crew finished with its hand-back left to an order swapping a UPS battery, which has no
+    hand-back step: nobody would hand the observatory back. The finish waits for that crew, then the hand-back is
+    ticked (the last crew out hands back; common practice, no published source)."""
+    from test_workorders import _all_readings
+
+    ups = subsystem_create(telescope, "computers", "Control computer", counting_from=dt.date(2026, 1, 1))
+    ups_order = _issued(services.work_order_ad_hoc(telescope.site, [ups], "Swap the UPS battery", users["engineer"],
+                                                   steps="Swap the battery.", planned_date=PLANNED), users)
+    assert not any(services.is_hand_back(step) for step in ups_order.step_list)
+    drive_order = _issued(order, users)
+    services.work_order_move(drive_order, "start", users["technician"])
+    services.work_order_move(ups_order, "start", users["technician"])
+    drive_order = WorkOrder.objects.get(pk=drive_order.pk)
+    last = len(drive_order.step_list) - 1
+    assert drive_order.step_list[last] == HAND_BACK
+    _tick_through(drive_order, users, last - 1)  # all its work, its locks off
+    unticked = selectors.unticked_lines(drive_order)
+    assert services.left_to_the_last_crew(drive_order, unticked) == ([], [])
+    with pytest.raises(services.Refused, match=(
+            f"the hand-back to robotic and remote control, is not ticked while another crew is still at work on this "
+            f"telescope with no hand-back of its own to leave it to: {ups_order.number} Swap the UPS battery")):
+        services.work_order_finish(drive_order, users["technician"], 1.0, "ok", _all_readings(drive_order, 0.6),
+                                   confirmed_unticked=[HAND_BACK])
+    assert WorkOrder.objects.get(pk=drive_order.pk).state == State.UNDERWAY

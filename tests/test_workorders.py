@@ -690,6 +690,18 @@ def test_a_reading_of_zero_against_a_limit_in_words_is_asked_about_at_finish(ord
     assert _state(order) == State.UNDERWAY
 
 
+def test_a_reading_of_zero_with_no_limit_given_is_not_asked_about(order, users, client):
+    """A diff review: a reading with no limit at all was asked "0 A against its limit ()"."""
+    required = order.required_readings.first()
+    required.limit_text = ""
+    required.save()
+    services.work_order_move(order, "issue", users["engineer"])
+    services.work_order_move(order, "start", users["technician"])
+    client.force_login(users["technician"])
+    first = html.unescape(client.post(f"/workorders/{order.pk}/finish/", _finish_post(order, 0)).content.decode())
+    assert "against its limit ()" not in first and "was the measurement missed" not in first
+
+
 def test_hours_of_a_few_seconds_are_questioned_before_they_are_recorded(order, users, client):
     """A tablet review finished an order with 1e-09 h, shown as "0.00 h", counted by the reliability page. Under
     FEWEST_HOURS_UNQUESTIONED (3 minutes, our own: common practice, no published source) the hours are asked about."""

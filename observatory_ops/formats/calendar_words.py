@@ -11,9 +11,9 @@ import re
 
 from django import forms
 
-#: The month written as a word, as the input formats accept it ("Apr", "April"), lower case.
-_MONTHS = {name.lower(): number for number in range(1, 13)
-           for name in (calendar.month_abbr[number], calendar.month_name[number])}
+#: The month written as a word, lower case: "%b" reads its abbreviation ("Apr"), "%B" its full name ("April").
+_MONTH_WORDS = {"%b": {calendar.month_abbr[n].lower(): n for n in range(1, 13)},
+                "%B": {calendar.month_name[n].lower(): n for n in range(1, 13)}}
 
 #: What each directive of the input formats (formats/en/formats.py) matches, named by its part of the date.
 _DIRECTIVES = {"%Y": r"(?P<year>[0-9]{4})", "%m": r"(?P<month>[0-9]{1,2})", "%d": r"(?P<day>[0-9]{1,2})",
@@ -40,7 +40,8 @@ def _parts(value: str, format: str) -> tuple[int, int, int] | None:
     if not written:
         return None
     parts = written.groupdict()
-    month = int(parts["month"]) if parts.get("month") else _MONTHS.get(parts.get("month_word", "").lower())
+    word = next((d for d in ("%b", "%B") if d in format), None)  # a format writes the month one way
+    month = int(parts["month"]) if parts.get("month") else _MONTH_WORDS[word].get(parts["month_word"].lower())
     if month is None:
         return None
     return int(parts["year"]), month, int(parts["day"])

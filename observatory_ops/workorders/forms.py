@@ -506,17 +506,18 @@ class FinishForm(forms.Form):
         return said
 
     def zero_readings(self) -> dict[str, str]:
-        """Field name -> the question beside it, for each reading of exactly 0 against an "at most" limit (valid forms
-        only): more often a measurement missed or a field left at 0 than a real value, and it takes a plan off overdue
-        (as logbook.forms.ReadingForm asks; a diff review found the finish form, where most readings are entered, did
-        not). Shown once, as a reading beyond its limit is; not flagged on the record."""
+        """Field name -> the question beside it, for each reading of exactly 0 against an "at most" limit or one in
+        words (valid forms only): more often a measurement missed or a field left at 0 than a real value, and it takes
+        a plan off overdue (as logbook.forms.ReadingForm asks; a diff review found the finish form, where most readings
+        are entered, did not). Shown once, as a reading beyond its limit is; not flagged on the record."""
         asked = {}
         for pk, value in self.readings().items():
             required = self._required[pk]
             at_most = required.limit_value and required.limit_value > 0 and "at most" in required.limit_text
             # A limit in words ("within the maker's range") is asked about too: a tablet review stored a brake air
-            # pressure of 0 bar without a word.
-            if value == 0 and (at_most or not required.limit_value):
+            # pressure of 0 bar without a word. A reading with no limit given is not.
+            in_words = required.limit_value is None and required.limit_text.strip()
+            if value == 0 and (at_most or in_words):
                 asked[f"reading_{pk}"] = (f"0 {required.unit} against its limit ({required.limit_text}): was the "
                                           f"measurement missed, or the field left at 0? {NOT_RECORDED_YET}")
         return asked

@@ -1412,6 +1412,7 @@ class Alongside(NamedTuple):
     lockout_ticked: bool | None  # its lockout step ticked; None when it has none
     released: bool = False  # the step that removes its locks ticked, in its present words
     work_left: bool = True  # a step other than the hand-back to robotic control (catalogue.is_hand_back) not ticked
+    hands_back: bool = False  # a hand-back step of its own not ticked yet: a crew a hand-back can be left to
 
     @property
     def locked_out(self) -> bool:
@@ -1472,7 +1473,8 @@ def work_alongside(order: WorkOrder, items: list[WorkOrderItem] | None = None,
             release = next((i for i in range(lockout + 1, len(steps)) if catalogue.is_release_step(steps[i])), None)
             released = release is not None and release in done
         work_left = any(i not in done and not catalogue.is_hand_back(step) for i, step in enumerate(steps))
-        alongside.append(Alongside(other, shared, ticked, bool(released), work_left))
+        hands_back = any(i not in done and catalogue.is_hand_back(step) for i, step in enumerate(steps))
+        alongside.append(Alongside(other, shared, ticked, bool(released), work_left, hands_back))
     return alongside
 
 

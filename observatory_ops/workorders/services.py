@@ -1049,7 +1049,8 @@ def finish_waits(order: WorkOrder, unticked: Sequence) -> str:
     """Why ``order`` may not be finished yet with its ``unticked`` lines (``selectors.unticked_lines``) confirmed "done
     or did not apply", or "" when nothing waits: a step held while another crew is locked out
     (``moves_or_restores``: a move under power, energy brought back, the return to service;
-    ``_others_locked_out_refusal`` refuses their ticks), or while the telescope's mirror is out
+    ``_others_locked_out_refusal`` refuses their ticks), a hand-back while another crew is at work with no hand-back
+    of its own to leave it to (``left_to_the_last_crew``), or while the telescope's mirror is out
     (``telescope_out_notices``). The record would otherwise say the tube moved under power with another crew inside (a
     walk-through finished a recoat's removal so, its slew to the zenith refused a minute before), or that a test under
     power and the hand-back were done on an unbalanced telescope (a diff review). The finish refuses it
@@ -1066,6 +1067,14 @@ def finish_waits(order: WorkOrder, unticked: Sequence) -> str:
             + ". Finish once they have removed their locks and ticked that on their order, and these steps are "
             "done"
         )
+    hand_back = [line for line in steps if is_hand_back(line.text)]
+    if hand_back and not left_to_the_last_crew(order, unticked)[0] and (working := still_working(order)):
+        return (
+            f"{hand_back[0].label.lower()}, the hand-back to robotic and remote control, is not ticked while another "
+            "crew is still at work on this telescope with no hand-back of its own to leave it to: "
+            + "; ".join(f"{a.order.number} {a.order.title}" for a in working)
+            + ". Finish once they are done and it is ticked"
+        )
     if after and (mirror_out := telescope_out_notices(order)):
         return (
             "steps that wait while the telescope's mirror is out are not ticked ("
@@ -1076,11 +1085,14 @@ def finish_waits(order: WorkOrder, unticked: Sequence) -> str:
 
 
 def left_to_the_last_crew(order: WorkOrder, unticked: Sequence) -> tuple[list, list]:
-    """(the hand-back lines of ``unticked`` that ``order`` leaves to the last crew out, the other orders whose crews
-    are still at work on the telescope: ``still_working``), or ([], []) when this crew hands back itself. A finish
-    records the hand-back left to them in the findings, and does not ask it confirmed "done or did not apply"."""
+    """(the hand-back lines of ``unticked`` that ``order`` leaves to the last crew out, the other orders still at work
+    on the telescope that have a hand-back of their own to tick: ``still_working``, ``Alongside.hands_back``), or
+    ([], []) when there is none to leave it to. A finish records the hand-back left to them in the findings, and does
+    not ask it confirmed "done or did not apply". A crew still at work with no hand-back of its own would never hand
+    the observatory back (a diff review left it to an order swapping a UPS battery): the finish then waits
+    (``finish_waits``)."""
     hand_back = [line for line in unticked if line.kind == ChecklistTick.Kind.STEP and is_hand_back(line.text)]
-    working = still_working(order) if hand_back else []
+    working = [a for a in still_working(order) if a.hands_back] if hand_back else []
     return (hand_back, working) if working else ([], [])
 
 
@@ -1223,10 +1235,16 @@ def _lockout_sequence_refusal(order: WorkOrder, line: tuple, ticked: bool, what:
 
     restored = [index for index in range(release + 1, len(steps)) if step_done(index)] if release is not None else []
     if not ticked:
-        if key == release and restored:
-            # Restoring is done under power again, after the locks came off: the record keeps the release before it.
-            return _take_back_refusal(what, [(restored, "was done after the locks came off",
-                                              "were done after the locks came off")])
+        if key == release and release is not None and step_done(release):
+            # Restoring is done under power again, after the locks came off, and so is a move under power from before
+            # the lockout ticked since the release (a diff review took the release back from under one): the record
+            # keeps the release before them.
+            released_at = ticks[(ChecklistTick.Kind.STEP, release)].recorded_at
+            moved = [index for index in range(lockout) if index in moves_or_restores(steps) and step_done(index)
+                     and ticks[(ChecklistTick.Kind.STEP, index)].recorded_at > released_at]
+            if after_release := sorted(moved + restored):
+                return _take_back_refusal(what, [(after_release, "was done after the locks came off",
+                                                  "were done after the locks came off")])
         if not (is_point or key == lockout):
             return ""
         # The release and the locked-out work stand on the lockout step, and through it on every point.
