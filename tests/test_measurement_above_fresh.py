@@ -117,26 +117,29 @@ def test_a_decimal_comma_is_answered_with_the_point_to_use(mirror, users, client
 
 def test_a_band_mean_far_below_what_a_coated_mirror_reflects_is_asked_about_on_both_forms(mirror, users, client):  # noqa: F811,E501
     """A bad-input review: a reflectance of 0 (a field left at 0) was stored at once and made the recoat overdue. A
-    band mean under LOWEST_UNQUESTIONED (0.5, our own bound: a dirty aluminium mirror still reflects about 0.7, from
-    memory) is asked about on the mirror's form and on the reading form, and stored only once the box is ticked."""
+    band mean under LOWEST_FRACTION_OF_FRESH (0.6, our own bound: a dirty aluminium mirror still reflects about 0.7 of a
+    fresh 0.9, from memory) of its coating's fresh value is asked about on the mirror's form and on the reading form,
+    and stored only once the box is ticked."""
     import datetime as dt
 
     from django.utils import timezone
 
     from observatory_ops.logbook.models import Reading
-    from observatory_ops.mirrors.forms import LOWEST_UNQUESTIONED
+    from observatory_ops.mirrors.forms import LOWEST_FRACTION_OF_FRESH
 
-    assert LOWEST_UNQUESTIONED == 0.5
+    assert LOWEST_FRACTION_OF_FRESH == 0.6
+    fresh, _ = services.fresh_band_on(mirror, site_today(mirror.subsystem.telescope.site))
     client.force_login(users["technician"])
     before = (list(Reading.objects.values_list("pk")), list(ReflectanceMeasurement.objects.values_list("pk")))
     for value in ("0", "-0", "0.3"):
         text = re.sub(r"\s+", " ", strip_tags(_post(client, mirror, value).content.decode()))
-        assert "is far below what a coated mirror reflects (a dirty aluminium one still about 0.7)" in text, value
+        assert (f"is far below what this mirror reflects (under 60% of the fresh value of its coating, {fresh:.4f} "
+                "over 380-950 nm; a dirty aluminium mirror still reflects about 0.7)") in text, value
     site = mirror.subsystem.telescope.site
     taken = f"{timezone.localtime(timezone.now() - dt.timedelta(hours=1), site.zone):%Y-%m-%dT%H:%M}"
     url = f"/subsystems/{mirror.subsystem.pk}/readings/new/"
     response = client.post(url, {"quantity": "reflectance", "value": "0", "taken_at": taken})
-    assert "0 is far below what a coated mirror reflects" in strip_tags(response.content.decode())
+    assert "0 is far below what this mirror reflects" in strip_tags(response.content.decode())
     assert (list(Reading.objects.values_list("pk")), list(ReflectanceMeasurement.objects.values_list("pk"))) == before
     asked = re.search(r'name="questioned" value="([^"]*)"', _post(client, mirror, "0.3").content.decode()).group(1)
     assert _post(client, mirror, "0.3", value_confirmed="on", questioned=asked).status_code == 302
@@ -146,7 +149,7 @@ def test_a_band_mean_far_below_what_a_coated_mirror_reflects_is_asked_about_on_b
     assert state.fit is not None and state.fit.r0 > 1 and 0 < state.threshold < 1
     assert state.threshold_basis.endswith("is no reflectance")
     assert "is no reflectance, so check the measurements" in client.get(f"/mirrors/{mirror.pk}/").content.decode()
-    assert _post(client, mirror, "0.55").status_code == 302  # above the bound: not asked
+    assert _post(client, mirror, f"{0.6 * fresh + 0.01:.4f}").status_code == 302  # above the bound: not asked
 
 
 def test_a_percentage_on_the_measurement_form_is_told_as_a_fraction(mirror, users, client):  # noqa: F811

@@ -26,19 +26,29 @@ MEASURABLE_NM = wavelength_range_nm(MATERIALS)
 ABOVE_FRESH_MARGIN = 0.02
 
 
-#: A band mean of a coated telescope mirror below this is asked about: a dirty aluminium mirror still reflects about
-#: 0.7 (from memory), so a lower value is more often a field left at 0, a percentage or another scale read wrongly, or
-#: a missed measurement. Our own bound, common practice, no published source; asked, not refused.
+#: A band mean below this fraction of the fresh value of the mirror's coating that day is asked about, or below
+#: ``LOWEST_UNQUESTIONED`` before any coating is recorded: a dirty aluminium mirror still reflects about 0.7 of a fresh
+#: 0.9 (from memory), so a lower value is more often a field left at 0, a percentage or another scale read wrongly, or a
+#: missed measurement. Our own bounds, common practice, no published source; asked, not refused.
+LOWEST_FRACTION_OF_FRESH = 0.6
 LOWEST_UNQUESTIONED = 0.5
 
 
 def reflectance_question(mirror: Mirror, day: dt.date, value: float) -> str:
-    """The question a band mean measured on ``day`` raises, or "" when none: far below what a coated mirror reflects
-    (``LOWEST_UNQUESTIONED``: a bad-input review's 0 made the recoat overdue without a word), or above the fresh value
-    of its coating (``above_fresh_problem``)."""
-    if value < LOWEST_UNQUESTIONED:
-        return (f"{value:g} is far below what a coated mirror reflects (a dirty aluminium one still about 0.7): was "
-                "the measurement missed, or the field left at 0? A value this low can make the recoat overdue.")
+    """The question a band mean measured on ``day`` raises, or "" when none: far below what the mirror's coating
+    reflects fresh (``LOWEST_FRACTION_OF_FRESH``: a bad-input review's 0 made the recoat overdue without a word; a diff
+    review's silver over 265-330 nm is 0.19 fresh, so no fixed bound fits every band), or above the fresh value of its
+    coating (``above_fresh_problem``)."""
+    from .services import fresh_band_on  # the services build on these forms' models
+
+    found = fresh_band_on(mirror, day)
+    lowest = LOWEST_FRACTION_OF_FRESH * found[0] if found else LOWEST_UNQUESTIONED
+    if value < lowest:
+        against = (f"under {LOWEST_FRACTION_OF_FRESH:.0%} of the fresh value of its coating, {found[0]:.4f} over "
+                   f"{mirror.band_from_nm:g}-{mirror.band_to_nm:g} nm" if found else f"under {LOWEST_UNQUESTIONED:g}")
+        return (f"{value:g} is far below what this mirror reflects ({against}; a dirty aluminium mirror still "
+                "reflects about 0.7): was the measurement missed, or the field left at 0? A value this low can make "
+                "the recoat overdue.")
     return above_fresh_problem(mirror, day, value)
 
 

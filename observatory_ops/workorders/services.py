@@ -27,7 +27,7 @@ from observatory_ops.logbook.quantities import QUANTITIES, reflectance_text, val
 from observatory_ops.logbook.services import limit_passed_before
 from observatory_ops.planning.metrics import READING
 from observatory_ops.planning.models import ServicePlan, part_lines
-from observatory_ops.planning.services import site_recompute, site_today
+from observatory_ops.planning.services import site_recompute, site_today, sites_bring_up_to_date
 from observatory_ops.registry.catalogue import (
     BRAKE_AIR_BACK,
     HAND_BACK,
@@ -426,7 +426,10 @@ def _title(labels: list[str]) -> str:
 
 def work_order_from_due(plans: Sequence[ServicePlan], by, planned_date: dt.date | None = None) -> WorkOrder:
     """One work order covering the given plans (selected on the due list), with steps from their templates: its
-    title and its steps take the plans in the order given (the due list's, as ticked there)."""
+    title and its steps take the plans in the order given (the due list's, as ticked there). Its items keep the due
+    reasons of the day it is made (``sheet.WHY_AS_OF`` says that day): states computed on an earlier day are brought
+    up to date first (a due list left open over midnight, with no worker to recompute at night)."""
+    sites_bring_up_to_date(list({p.subsystem.telescope.site_id: p.subsystem.telescope.site for p in plans}.values()))
     given = {plan.pk: position for position, plan in enumerate(plans)}
     plans = sorted(
         ServicePlan.objects.filter(pk__in=given).select_related("subsystem__telescope__site", "status"),
