@@ -1003,10 +1003,12 @@ def checklist_tick_set(
     1910.147(d): the lockout devices on every isolating device, then stored energy, then the isolation verified,
     all before the work, and the locks removed only after it, (e)): a step done locked out (``isolated_steps``)
     is ticked only once the lockout step and every isolation point of the order are, the lockout step only once
-    every point is, and the release step only once the lockout step is. Nor is the sequence undone afterwards:
-    the tick on a point or on the lockout step is not taken back while a tick that needed it stands. Refused
-    otherwise, naming what to tick or take back first (``_lockout_sequence_refusal``). Taking back the tick of
-    locked-out work, of the release or of any step under power is always recorded.
+    every point is, and the release step only once the lockout step is; a step under power that may move an axis,
+    before the lockout, is not ticked while a point or the lockout is ticked and the release is not. Nor is the
+    sequence undone afterwards: the tick on a point or on the lockout step is not taken back while a tick that needed
+    it stands, nor the release's while a step done after the locks came off stands. Refused otherwise, naming what to
+    tick or take back first (``_lockout_sequence_refusal``). Taking back the tick of locked-out work or of any step
+    under power is always recorded.
     """
     if not has_role(by, TECHNICIAN):
         raise Refused(f"ticking the checklist needs the {TECHNICIAN} role or above")
