@@ -142,7 +142,7 @@ def test_the_night_form_refuses_a_week_date_beside_its_field_and_says_no_night_w
     response = client.post(f"/sites/{site.slug}/nights/new/", {"night": week_date(last_week), "open_hours": "1"})
     assert response.status_code == 200
     errors = response.context["form"].errors["night"]
-    assert errors == [f'{response.context["form"].fields["night"].label} must be a date as YYYY-MM-DD, '
+    assert errors == [f'{response.context["form"].fields["night"].label}: must be a date as YYYY-MM-DD, '
                       f'not "{week_date(last_week)}"']
     assert f"Night {week_date(last_week)}:" not in response.content.decode()
     assert snapshot() == before
