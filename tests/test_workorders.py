@@ -676,15 +676,21 @@ def test_hours_far_above_the_estimate_or_none_are_questioned_before_they_are_rec
     assert _state(order) == State.FINISHED and ServiceRecord.objects.get().hours_spent == hours
 
 
-def test_a_reading_of_zero_against_a_limit_in_words_is_asked_about_at_finish(order, users, client):
-    """A tablet review stored a brake air pressure of 0 bar against "within the maker's range" without a word."""
+def _zero_finished_against(limit_text: str, order, users, client) -> tuple[str, object]:
+    """The finish form's answer to a reading of 0 whose limit reads ``limit_text``, and that reading."""
     required = order.required_readings.first()
-    required.limit_text = "within the maker's range"
+    required.limit_text = limit_text
     required.save()
     services.work_order_move(order, "issue", users["engineer"])
     services.work_order_move(order, "start", users["technician"])
     client.force_login(users["technician"])
-    first = html.unescape(client.post(f"/workorders/{order.pk}/finish/", _finish_post(order, 0)).content.decode())
+    page = client.post(f"/workorders/{order.pk}/finish/", _finish_post(order, 0)).content.decode()
+    return html.unescape(page), required
+
+
+def test_a_reading_of_zero_against_a_limit_in_words_is_asked_about_at_finish(order, users, client):
+    """A tablet review stored a brake air pressure of 0 bar against "within the maker's range" without a word."""
+    first, required = _zero_finished_against("within the maker's range", order, users, client)
     assert (f"0 {required.unit} against its limit (within the maker's range): was the measurement missed, or the "
             "field left at 0?") in first
     assert _state(order) == State.UNDERWAY
@@ -692,13 +698,7 @@ def test_a_reading_of_zero_against_a_limit_in_words_is_asked_about_at_finish(ord
 
 def test_a_reading_of_zero_with_no_limit_given_is_not_asked_about(order, users, client):
     """A diff review: a reading with no limit at all was asked "0 A against its limit ()"."""
-    required = order.required_readings.first()
-    required.limit_text = ""
-    required.save()
-    services.work_order_move(order, "issue", users["engineer"])
-    services.work_order_move(order, "start", users["technician"])
-    client.force_login(users["technician"])
-    first = html.unescape(client.post(f"/workorders/{order.pk}/finish/", _finish_post(order, 0)).content.decode())
+    first, _ = _zero_finished_against("", order, users, client)
     assert "against its limit ()" not in first and "was the measurement missed" not in first
 
 
