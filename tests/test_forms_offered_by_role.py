@@ -222,10 +222,14 @@ def test_a_tick_refused_on_an_order_no_longer_underway_is_said_at_its_line_read_
     underway_ticked, users, client
 ):
     """A technician's page loaded while the work was underway posts a tick after it was withdrawn: the page comes back
-    at the line, which says why, and offers no form any more."""
+    at the line, which says why, and offers no form any more. (Its locks were taken back first: an order is not
+    withdrawn with its locks on, workorders.services.withdraw_refusal.)"""
+    lockout = next(line for line in checklist(underway_ticked).steps if line.is_lockout)
+    checklist_tick_set(underway_ticked, ChecklistTick.Kind.STEP, lockout.key, False, users["technician"])
+    point = checklist(underway_ticked).points[0]
+    checklist_tick_set(underway_ticked, ChecklistTick.Kind.POINT, point.key, False, users["technician"])
     work_order_move(underway_ticked, "withdraw", users["engineer"], reason="Postponed to the next shutdown")
     client.force_login(users["technician"])
-    lockout = next(line for line in checklist(underway_ticked).steps if line.is_lockout)
     response = client.post(f"/workorders/{underway_ticked.pk}/tick/",
                            {"kind": "step", "key": lockout.key + 1, "text": "whatever", "ticked": "1"}, follow=True)
     page = response.content.decode()

@@ -232,6 +232,11 @@ def test_the_observatory_goes_back_to_robotic_control_only_when_no_other_crew_ha
         f"{fans_order.number} {fans_order.title}, still at work on the telescope when this order was finished.")
     # Not also confirmed "done or did not apply" (a tablet walk-through's record said both).
     assert not any(HAND_BACK in line for line in finished.unticked_at_finish)
+    # The fans order holds it: its page says so (it had been only in the drive order's findings).
+    assert list(finished.hand_back_left_to.all()) == [fans_order]
+    page = _text(client.get(f"/workorders/{fans_order.pk}/"))
+    assert (f"This crew holds the hand-back of other work on the telescope {drive_order.number} {drive_order.title} "
+            "(finished, awaiting countersignature) They left the hand-back to robotic and remote control to the last crew out, this one.") in page
     # The fans crew, the last out, finishes its work and hands the observatory back.
     ticked_in_sequence(fans_order, users["technician"])
 
@@ -326,3 +331,59 @@ def test_a_hand_back_is_not_left_to_a_crew_with_no_hand_back_of_its_own(order, t
         services.work_order_finish(drive_order, users["technician"], 1.0, "ok", _all_readings(drive_order, 0.6),
                                    confirmed_unticked=[HAND_BACK])
     assert WorkOrder.objects.get(pk=drive_order.pk).state == State.UNDERWAY
+
+
+def test_an_order_whose_locks_are_on_is_not_withdrawn(order, users, client):  # noqa: F811
+    """A review withdrew an order underway with its points and lockout ticked as locked: its locks were then on
+    nobody's record, and another crew's order no longer waited for them (still_locked_out reads orders underway).
+    Each lock comes off by the person who put it on (OSHA 29 CFR 1910.147(e)(3)): the locks' removal is ticked first,
+    and the page says so in place of the withdrawal's form."""
+    drive_order = _issued(order, users)
+    services.work_order_move(drive_order, "start", users["technician"])
+    drive_order = WorkOrder.objects.get(pk=drive_order.pk)
+    lockout, release = services.isolated_steps(drive_order.step_list)
+    _powered_first(users, drive_order)
+    services.checklist_tick_set(drive_order, "point", selectors.checklist(drive_order).points[0].key, True,
+                                users["technician"])
+    refusal = (f"{drive_order.number}'s locks are on: an isolation point or its lockout is ticked as locked, and "
+               "their removal is not. Withdrawn, they would be on nobody's record and other crews would no longer wait "
+               "for them. Those who put the locks on take them off and tick \"")
+    with pytest.raises(services.Refused, match=re.escape(refusal)):
+        services.work_order_move(drive_order, "withdraw", users["engineer"], reason="parts missing")
+    _tick_through(drive_order, users, lockout)
+    client.force_login(users["engineer"])
+    page = _text(client.get(f"/workorders/{drive_order.pk}/"))
+    assert f"Not while it stands so: {refusal}" in page and 'name="reason"' not in page
+    assert WorkOrder.objects.get(pk=drive_order.pk).state == State.UNDERWAY
+    _tick_through(drive_order, users, release.stop)  # the locks removed
+    services.work_order_move(drive_order, "withdraw", users["engineer"], reason="parts missing")
+    assert WorkOrder.objects.get(pk=drive_order.pk).state == State.WITHDRAWN
+
+
+def test_a_withdrawn_order_passes_on_the_hand_back_it_holds(order, fans_order, telescope, users, client):  # noqa: F811
+    """An order holding the hand-back another crew left to it (``WorkOrder.hand_back_left_to``), withdrawn, passes it
+    to a crew still at work with a hand-back of its own, or its page says first that nobody's order would hand the
+    telescope back (the last crew out hands back; common practice, no published source)."""
+    from test_workorders import _all_readings
+
+    fans_order, drive_order = _both_underway(order, fans_order, users)
+    services.checklist_tick_set(fans_order, "step", 0, True, users["technician"])
+    last = len(drive_order.step_list) - 1
+    _tick_through(drive_order, users, last - 1)
+    services.work_order_finish(drive_order, users["technician"], 1.0, "ok", _all_readings(drive_order, 0.6),
+                               confirmed_unticked=[HAND_BACK])
+    client.force_login(users["engineer"])
+    said = _text(client.get(f"/workorders/{fans_order.pk}/"))
+    assert (f"Withdrawn, nobody's order hands the telescope back to robotic and remote control ({drive_order.number} "
+            "left its hand-back to this order): once nobody is at work on it, whoever withdraws this order hands it "
+            "back or leaves it out of control, and says which in the reason.") in said
+    # A third crew comes to work on the telescope with a hand-back of its own: the withdrawal passes it on.
+    mirror = subsystem_create(telescope, "cooling_fans", "Cell fans", counting_from=dt.date(2026, 1, 1))
+    third = _issued(services.work_order_from_due(list(mirror.plans.all()), users["engineer"], PLANNED), users)
+    services.work_order_move(third, "start", users["technician"])
+    said = _text(client.get(f"/workorders/{fans_order.pk}/"))
+    assert (f"Withdrawn, its hand-back to robotic and remote control, and the one {drive_order.number} left to it, "
+            f"passes to {third.number} {third.title}, still at work on the telescope") in said
+    services.work_order_move(WorkOrder.objects.get(pk=fans_order.pk), "withdraw", users["engineer"], reason="called off")
+    assert list(WorkOrder.objects.get(pk=fans_order.pk).hand_back_left_to.all()) == [third]
+    assert fans_order.number in _text(client.get(f"/workorders/{third.pk}/"))

@@ -79,7 +79,7 @@ class WorkOrderAdmin(ChoicesNamedWithSite, SimpleHistoryAdmin):
     readonly_fields = (
         "state", "finished_at", "finished_by", "countersigned_at", "countersigned_by", "unticked_at_finish",
         "hazards_confirmed_at_finish", "isolation_unticked_at_finish", "isolation_confirmed_at_finish", "crew",
-        "crew_by_account", "hazards", "steps", "at_telescope",
+        "crew_by_account", "hazards", "steps", "at_telescope", "hand_back_left_to",
     )
 
     def save_model(self, request, obj, form, change):

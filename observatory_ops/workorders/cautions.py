@@ -214,6 +214,15 @@ ALONGSIDE_ADVICE = (
     "and before either lockout comes off. Each person puts a lock of their own on every isolation point they work "
     "under (a group lockout); nobody removes another person's lock."
 )
+# A crew that finishes (or is withdrawn) while another crew with a hand-back of its own is still at work on the
+# telescope leaves the hand-back to robotic and remote control to it (workorders.services.left_to_the_last_crew;
+# WorkOrder.hand_back_left_to): the last crew out hands back. Common practice, no published source.
+HAND_BACKS_HELD_TITLE = "This crew holds the hand-back of other work on the telescope"
+HAND_BACKS_HELD_ADVICE = (
+    "They left the hand-back to robotic and remote control to the last crew out, this one. This order's own hand-back "
+    "step hands the telescope back for them too, once no other crew is at work on it. Withdrawn, its page says who "
+    "holds it next."
+)
 ALONGSIDE_START_QUESTION = (
     "{orders} {verb} underway on {telescopes}: have you agreed with {whose} crew how the two jobs share the telescope "
     "and its isolation? Start anyway?"

@@ -159,6 +159,12 @@ class WorkOrder(models.Model):
         help_text="The people of the crew chosen by their accounts on the finish form: none of them may countersign "
                   "the work (selectors.on_the_crew).",
     )
+    hand_back_left_to = models.ManyToManyField(
+        "self", symmetrical=False, blank=True, related_name="hand_backs_held",
+        help_text="The orders still at work on the telescope when this one was finished or withdrawn with its "
+                  "hand-back to robotic and remote control not done, whose crews it was left to (the last crew out "
+                  "hands the telescope back: services.left_to_the_last_crew); their pages say they hold it.",
+    )
     crew_by_account = models.BooleanField(
         default=False,
         help_text="Finished since the finish form chose the crew's people by account: crew_members alone is who did "

@@ -1413,12 +1413,19 @@ class Alongside(NamedTuple):
     released: bool = False  # the step that removes its locks ticked, in its present words
     work_left: bool = True  # a step other than the hand-back to robotic control (catalogue.is_hand_back) not ticked
     hands_back: bool = False  # a hand-back step of its own not ticked yet: a crew a hand-back can be left to
+    points_locked: bool = False  # an isolation point of its own ticked as locked
 
     @property
     def locked_out(self) -> bool:
         """Its crew is locked out: its lockout ticked and the removal of its locks not (an order without a release
         step, whose locked-out work runs to its end, stays locked out until it is finished)."""
         return bool(self.lockout_ticked) and not self.released
+
+    @property
+    def locks_on(self) -> bool:
+        """Its crew's locks are on the equipment: an isolation point ticked as locked or its lockout ticked, and the
+        removal of its locks not ticked."""
+        return (self.points_locked or bool(self.lockout_ticked)) and not self.released
 
     def text(self, zone: dt.tzinfo) -> str:
         started = self.order.started_at and dateformat.format(self.order.started_at.astimezone(zone), "d M Y H:i")
@@ -1461,21 +1468,29 @@ def work_alongside(order: WorkOrder, items: list[WorkOrderItem] | None = None,
         shared = sorted(t.name for t in theirs if order.site.shared_enclosure or t.pk in mine)
         if not shared:
             continue
-        steps = other.step_list
-        ticks = latest_ticks(other)
-        done = {key for (kind, key), tick in ticks.items()
-                if kind == STEP and tick.ticked and key is not None and key < len(steps) and tick.text == steps[key]}
-        lockout = next((i for i, step in enumerate(steps) if is_lockout_step(step)), None)
-        ticked = released = None
-        if lockout is not None:
-            tick = ticks.get((STEP, lockout))
-            ticked = bool(tick and tick.ticked)
-            release = next((i for i in range(lockout + 1, len(steps)) if catalogue.is_release_step(steps[i])), None)
-            released = release is not None and release in done
-        work_left = any(i not in done and not catalogue.is_hand_back(step) for i, step in enumerate(steps))
-        hands_back = any(i not in done and catalogue.is_hand_back(step) for i, step in enumerate(steps))
-        alongside.append(Alongside(other, shared, ticked, bool(released), work_left, hands_back))
+        alongside.append(crew_state(other, shared))
     return alongside
+
+
+def crew_state(order: WorkOrder, shared: list[str] | None = None) -> Alongside:
+    """Where the crew of ``order`` stands on its checklist, as ``work_alongside`` says it of another crew and a
+    withdrawal reads it of the order's own (``locks_on``): its lockout ticked, the removal of its locks ticked, work
+    left, a hand-back of its own still to tick."""
+    steps = order.step_list
+    ticks = latest_ticks(order)
+    done = {key for (kind, key), tick in ticks.items()
+            if kind == STEP and tick.ticked and key is not None and key < len(steps) and tick.text == steps[key]}
+    lockout = next((i for i, step in enumerate(steps) if is_lockout_step(step)), None)
+    ticked = released = None
+    if lockout is not None:
+        tick = ticks.get((STEP, lockout))
+        ticked = bool(tick and tick.ticked)
+        release = next((i for i in range(lockout + 1, len(steps)) if catalogue.is_release_step(steps[i])), None)
+        released = release is not None and release in done
+    work_left = any(i not in done and not catalogue.is_hand_back(step) for i, step in enumerate(steps))
+    hands_back = any(i not in done and catalogue.is_hand_back(step) for i, step in enumerate(steps))
+    points_locked = any(kind == POINT and tick.ticked for (kind, _key), tick in ticks.items())
+    return Alongside(order, shared or [], ticked, bool(released), work_left, hands_back, points_locked)
 
 
 #: The printed notice of an order whose start is held (``start_held_notice``): title and what to do.

@@ -79,6 +79,7 @@ from .models import (
 )
 from .selectors import (
     brake_air_vented,
+    crew_state,
     hazards_missing,
     hazards_of,
     isolation_gaps,
@@ -626,19 +627,75 @@ def work_order_move(order: WorkOrder, action: str, by, reason: str = "") -> Work
             raise Refused(why)
         fields.update(countersigned_at=now, countersigned_by=by)
     elif action == "withdraw":
+        if why := withdraw_refusal(order):
+            raise Refused(why)
         if not reason.strip():
             raise Refused("say why the work order is withdrawn")
         fields["withdrawn_reason"] = reason.strip()[:200]
+    passed_to = (hand_back_on_withdrawal(order) or ([], []))[1] if action == "withdraw" else []
     with transaction.atomic():
         claimed = WorkOrder.objects.filter(pk=order.pk, state=order.state).update(**fields)
         if not claimed:
             raise Refused("someone else changed this work order meanwhile; reload it")
         _record_history(order, by, action)
+        if passed_to:
+            order.hand_back_left_to.set(passed_to)
         if action == "withdraw" and order.recoat_phase:
             # A withdrawn phase stops its recoat: the telescope's counters expect use on its nights again
             # (planning.services._downtime_by_telescope).
             site_recompute(order.site)
     return order
+
+
+def withdraw_refusal(order: WorkOrder) -> str:
+    """Why ``order`` may not be withdrawn as it stands, "" when it may: underway with its crew's locks on (an isolation
+    point or its lockout ticked as locked, the removal of its locks not: ``selectors.Alongside.locks_on``). Withdrawn,
+    its locks would be on nobody's record: another crew on the telescope would no longer wait for them
+    (``still_locked_out`` reads orders underway) and nothing would say who is to take them off (a review withdrew an
+    order so, its lockout ticked). Each lock comes off by the person who put it on (OSHA 29 CFR 1910.147(e)(3)); the
+    page says it before the button."""
+    if order.state != State.UNDERWAY or not crew_state(order).locks_on:
+        return ""
+    release = next((step for step in order.step_list if is_release_step(step)), "")
+    then = (f"tick \"{unlabelled(release)}\"; then withdraw it, or finish it" if release else
+            "finish it, saying so in its findings (it has no step that removes the locks)")
+    return (
+        f"{order.number}'s locks are on: an isolation point or its lockout is ticked as locked, and their removal is "
+        "not. Withdrawn, they would be on nobody's record and other crews would no longer wait for them. Those who "
+        f"put the locks on take them off and {then}"
+    )
+
+
+def hand_back_on_withdrawal(order: WorkOrder) -> tuple[list[WorkOrder], list[WorkOrder]] | None:
+    """For an order underway whose own hand-back to robotic and remote control is not ticked while some of its work
+    is, or which holds another's: (the finished or withdrawn orders whose hand-back it holds, the other orders at work
+    on the telescope with a hand-back of their own that it passes to when withdrawn); None when its withdrawal leaves
+    no hand-back undone. Withdrawn with no order to pass it to, nobody's order hands the telescope back
+    (``withdrawal_hand_back_text`` says so before the withdrawal)."""
+    if order.state != State.UNDERWAY:
+        return None
+    held = list(order.hand_backs_held.order_by("pk"))
+    if not crew_state(order).hands_back or not (held or order.ticks.filter(ticked=True).exists()):
+        return None
+    return held, [a.order for a in still_working(order) if a.hands_back]
+
+
+def withdrawal_hand_back_text(order: WorkOrder) -> str:
+    """What withdrawing ``order`` does to the hand-back to robotic and remote control (``hand_back_on_withdrawal``),
+    as its page says it beside the withdrawal; "" when nothing."""
+    found = hand_back_on_withdrawal(order)
+    if found is None:
+        return ""
+    held, takers = found
+    named = ", ".join(o.number for o in held)
+    if takers:
+        also = f", and the one {named} left to it," if held else ""
+        return (f"Withdrawn, its hand-back to robotic and remote control{also} passes to "
+                + "; ".join(f"{o.number} {o.title}" for o in takers)
+                + ", still at work on the telescope (their page says they hold it).")
+    return ("Withdrawn, nobody's order hands the telescope back to robotic and remote control"
+            f"{f' ({named} left its hand-back to this order)' if held else ''}: once nobody is at work on it, whoever "
+            "withdraws this order hands it back or leaves it out of control, and says which in the reason.")
 
 
 def countersign_refusal(order: WorkOrder, by) -> str:
@@ -917,6 +974,8 @@ def work_order_finish(
         # Rows written as such send no m2m signal, whose own history row would come before the finish's: the save
         # in _record_history records them with the rest.
         CrewMember.objects.bulk_create(CrewMember(work_order=order, person=member) for member in crew_members)
+        if working:
+            order.hand_back_left_to.set([a.order for a in working])  # their pages say they hold it
         _record_history(order, by, "finish")
         share = actual_hours / max(len(items), 1)
         for item in items:
