@@ -236,7 +236,8 @@ def test_the_observatory_goes_back_to_robotic_control_only_when_no_other_crew_ha
     assert list(finished.hand_back_left_to.all()) == [fans_order]
     page = _text(client.get(f"/workorders/{fans_order.pk}/"))
     assert (f"This crew holds the hand-back of other work on the telescope {drive_order.number} {drive_order.title} "
-            "(finished, awaiting countersignature) They left the hand-back to robotic and remote control to the last crew out, this one.") in page
+            "(finished, awaiting countersignature) They left the hand-back to robotic and remote control to the last "
+            "crew out, this one.") in page
     # The fans crew, the last out, finishes its work and hands the observatory back.
     ticked_in_sequence(fans_order, users["technician"])
 
@@ -384,6 +385,7 @@ def test_a_withdrawn_order_passes_on_the_hand_back_it_holds(order, fans_order, t
     said = _text(client.get(f"/workorders/{fans_order.pk}/"))
     assert (f"Withdrawn, its hand-back to robotic and remote control, and the one {drive_order.number} left to it, "
             f"passes to {third.number} {third.title}, still at work on the telescope") in said
-    services.work_order_move(WorkOrder.objects.get(pk=fans_order.pk), "withdraw", users["engineer"], reason="called off")
+    services.work_order_move(WorkOrder.objects.get(pk=fans_order.pk), "withdraw", users["engineer"],
+                             reason="called off")
     assert list(WorkOrder.objects.get(pk=fans_order.pk).hand_back_left_to.all()) == [third]
     assert fans_order.number in _text(client.get(f"/workorders/{third.pk}/"))
