@@ -444,3 +444,33 @@ def test_a_recovery_that_is_fitted_is_shown_as_a_figure(mirror, users, client):
     assert state.recovery_fraction == pytest.approx(0.5, rel=1e-6) and state.recovery_note == ""
     client.force_login(users["viewer"])
     assert "recovery per cleaning f = 0.50 ± 0.00;" in _page_text(client, mirror)
+
+
+def test_a_measurement_taken_before_that_days_cleaning_is_fitted_before_it(mirror, users, client):
+    """A traceability review: a reflectance measured the morning before a cleaning was counted after it, which moved
+    the fit. Marked "Measured before that day's cleaning", it counts before the cleaning: the five points of the
+    model above and a sixth on the cleaning day, taken before it (its value has no recovery in it), then fit the model
+    exactly again (f = 0.5); counted after the cleaning, the same sixth point would not."""
+    today = _today(mirror)
+    coated = today - dt.timedelta(days=55)
+    CoatingEvent.objects.create(mirror=mirror, coated_on=coated, metal="al")
+    cleaned = coated + dt.timedelta(days=25)
+    CleaningEvent.objects.create(mirror=mirror, cleaned_on=cleaned, method="co2_snow")
+    for days in (5, 15, 25, 35, 45):
+        e, last_clean = 10.5 * days, (10.5 * 25 if days >= 25 else 0.0)
+        ReflectanceMeasurement.objects.create(mirror=mirror, measured_on=coated + dt.timedelta(days=days),
+                                              value=0.90 - 1e-5 * (e - 0.5 * last_clean), taken_by=users["technician"])
+    client.force_login(users["technician"])
+    response = client.post(f"/mirrors/{mirror.pk}/measurements/new/", {
+        "measured_on": cleaned.isoformat(), "value": f"{0.90 - 1e-5 * 10.5 * 25!r}", "before_cleaning": "on"})
+    assert response.status_code == 302
+    said = " ".join(str(m) for m in get_messages(response.wsgi_request))
+    assert (f"On {cleaned:%d %b %Y} the fit counts 1 band measurement(s) as taken after the cleaning and 1 before "
+            "it") in said
+    state = services.mirror_forecast(mirror)
+    assert state.fit.n_points == 6
+    assert (state.fit.r0, state.fit.rate_per_hour, state.recovery_fraction) == pytest.approx((0.90, 1e-5, 0.5),
+                                                                                             rel=1e-6)
+    assert "entered as a measurement; before that day's cleaning" in _page_text(client, mirror)
+    ReflectanceMeasurement.objects.filter(before_cleaning=True).update(before_cleaning=False)
+    assert services.mirror_forecast(mirror).recovery_fraction != pytest.approx(0.5, rel=1e-3)

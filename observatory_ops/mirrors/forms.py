@@ -130,7 +130,12 @@ class MeasurementForm(MeasurementChecks):
     wavelength_nm = forms.FloatField(label="Wavelength (nm)", required=False)
     position = forms.CharField(max_length=60, required=False)
     instrument = forms.CharField(max_length=80, required=False)
-    field_order = ["measured_on", "value", "wavelength_nm", "position", "instrument"]  # the question's box last
+    before_cleaning = forms.BooleanField(
+        required=False, label="Measured before that day's cleaning",
+        help_text="Read only when the mirror was cleaned the same day: the decline fit then counts this measurement "
+        "before the cleaning. Left empty, a measurement on a cleaning day counts as taken after it.",
+    )
+    field_order = ["measured_on", "value", "wavelength_nm", "position", "instrument", "before_cleaning"]
 
     def __init__(self, *args, mirror: Mirror, **kwargs):
         super().__init__(*args, **kwargs)

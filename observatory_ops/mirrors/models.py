@@ -146,6 +146,11 @@ class ReflectanceMeasurement(models.Model):
     wavelength_nm = models.FloatField(null=True, blank=True, help_text="Empty: averaged over the mirror's band.")
     position = models.CharField(max_length=60, blank=True, help_text="Where on the mirror, e.g. 'centre', 'r=0.7 N'.")
     instrument = models.CharField(max_length=80, blank=True)
+    before_cleaning = models.BooleanField(
+        default=False,
+        help_text="Measured before the mirror's cleaning of the same day: the decline fit counts it before that "
+                  "cleaning. Otherwise a measurement on a cleaning day counts as taken after the cleaning.",
+    )
     taken_by = models.ForeignKey(settings.AUTH_USER_MODEL, on_delete=models.PROTECT, related_name="+")
     reading = models.OneToOneField(
         "logbook.Reading", null=True, blank=True, on_delete=models.PROTECT, related_name="mirror_measurement",

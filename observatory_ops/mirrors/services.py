@@ -258,9 +258,11 @@ def mirror_forecast(
     )
     measured_h, measured = exposures[:n], [m.value for m in measurements]
     # A measurement follows the cleanings dated on or before it, and precedes one dated after it even at the same
-    # exposure (no night logged between the two): by date, not by exposure.
+    # exposure (no night logged between the two): by date, not by exposure. One marked as taken before its day's
+    # cleaning (``before_cleaning``) precedes that day's cleanings too.
     cleaned_on = [c.cleaned_on for c in cleanings]
-    cleanings_before = [bisect.bisect_right(cleaned_on, m.measured_on) for m in measurements]
+    cleanings_before = [(bisect.bisect_left if m.before_cleaning else bisect.bisect_right)(cleaned_on, m.measured_on)
+                        for m in measurements]
     try:
         fit = reflectance.fit_decline(measured_h, measured, [c[1] for c in result.cleanings], cleanings_before,
                                       exposure_known=known)

@@ -142,9 +142,10 @@ def _measurement_logged(mirror: Mirror, measurement) -> str:
         said = (f"Measurement logged. It is listed below but not fitted: its dust-weighted exposure since the coating "
                 f"is not known ({state.log_gap_text}).")
         return f"{said} {services.no_estimate_text(state)}" if state.fit is None else said
+    same_day = _same_day_said(mirror, measurement.measured_on)
     if state.fit is None:
-        return f"Measurement logged. {services.no_estimate_text(state)}"
-    return "Measurement logged; the decline fit is updated."
+        return f"Measurement logged. {services.no_estimate_text(state)} {same_day}".strip()
+    return f"Measurement logged; the decline fit is updated. {same_day}".strip()
 
 
 @requires(TECHNICIAN)
@@ -182,9 +183,25 @@ def _restarted(logged: str, plans: list, day, none: str) -> str:
 
 
 def _cleaning_logged(mirror: Mirror, event) -> str:
-    return _restarted("Cleaning logged; the decline fit counts its recovery",
+    said = _restarted("Cleaning logged; the decline fit counts its recovery",
                       services.plans_a_cleaning_restarts(mirror.subsystem), event.cleaned_on,
                       "this mirror has no cleaning service plan")
+    return f"{said} {_same_day_said(mirror, event.cleaned_on)}".strip()
+
+
+def _same_day_said(mirror: Mirror, day) -> str:
+    """Which way round the fit takes the band measurements and a cleaning of the same ``day`` (a traceability review:
+    a reflectance measured before a cleaning, counted after it, moved the fit); "" when the day has not both."""
+    if not mirror.cleanings.filter(cleaned_on=day).exists():
+        return ""
+    same_day = list(mirror.measurements.filter(measured_on=day, wavelength_nm__isnull=True, withdrawn_at__isnull=True))
+    if not same_day:
+        return ""
+    before = sum(m.before_cleaning for m in same_day)
+    after = len(same_day) - before
+    return (f"On {day:%d %b %Y} the fit counts {after} band measurement(s) as taken after the cleaning and {before} "
+            "before it (the measurement's \"Measured before that day's cleaning\"; a measurement entered wrongly so is "
+            "withdrawn on this page and entered again).")
 
 
 def _coating_logged(mirror: Mirror, event) -> str:
