@@ -47,6 +47,12 @@ def test_with_javascript_locked_out_work_ticked_too_soon_says_why_beside_the_lin
         "Not recorded: step 5 is done with the energy isolated: tick the lockout (step 4) and isolation point "
         "'Mount isolator' first."
     )
+    # Said also in the page's one live region, there from the start (a screen reader announces it): an
+    # accessibility review heard nothing of a refusal.
+    expect(page.locator("#tick-said")).to_have_text(
+        "Not recorded: step 5 is done with the energy isolated: tick the lockout (step 4) and isolation point "
+        "'Mount isolator' first."
+    )
     expect(page.locator("#step-5 input[type=checkbox]")).not_to_be_checked()
     assert not ChecklistTick.objects.filter(work_order=underway).exists()
 

@@ -31,3 +31,10 @@ def _label_stem(label: str) -> str:
     """A label short of a note in brackets or after a comma: "Actual hours (person-hours)" -> "actual hours",
     "Others on the crew, without an account" -> "others on the crew"."""
     return label.split(" (")[0].split(",")[0].strip().casefold()
+
+
+@register.filter
+def refused(messages) -> bool:
+    """``{% if messages|refused %}``: whether the page's messages hold an error (a refusal said as a message: "Not done:
+    ..."), which base.html announces as it does a form's problems."""
+    return any(m.level_tag == "error" for m in messages or ())

@@ -14,11 +14,12 @@
       it), a reload, a tab the tablet closed to save memory, or one closed by hand (a tablet review lost a finish
       form's findings so; sessionStorage ends with its tab). Never after a send the server answered (see SENT),
       and signing out forgets every draft the browser keeps.
-   3. A page whose form came back with problems puts the focus on their list (base.html, _error_summary.html). */
+   3. A page whose form came back with problems puts the focus on their list (base.html, _error_summary.html), and
+      one that says a refusal as a message (".messages .msg-error") on that message. */
 (function () {
   "use strict";
 
-  var summary = document.getElementById("error-summary");
+  var summary = document.getElementById("error-summary") || document.querySelector(".messages .msg-error");
   if (summary) {
     summary.focus();
   }
