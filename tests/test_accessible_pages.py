@@ -127,7 +127,7 @@ def test_a_page_whose_form_has_problems_says_error_first_in_its_title_and_lists_
     assert 'id="error-summary"' not in client.get(url).content.decode()
 
     page = client.post(url, {"performed_on": "2099-01-01", "summary": "Filters changed"}).content.decode()
-    assert _title(page) == "Error: Log service: Tube fans · observatory_ops"
+    assert _title(page) == "Error: Log service: T1 Tube fans · observatory_ops"
     summary = re.search(r'<div class="error-summary" id="error-summary" tabindex="-1"(.*?)</div>', page, flags=re.S)
     assert summary, "the problems are listed in a box the focus can be moved to"
     assert summary.start() < page.index("<h1>"), "the list comes before the page's heading"

@@ -234,11 +234,11 @@ def test_the_subsystem_heading_names_its_kind_only_when_the_name_does_not(client
     primary.save()
     client.force_login(users["viewer"])
     heading = re.search(r"<h1>.*?</h1>", client.get(primary.get_absolute_url()).content.decode()).group(0)
-    assert heading == f"<h1>{primary.name}</h1>"
+    assert heading == f"<h1>{primary.telescope.name}: {primary.name}</h1>"
     primary.name = "Main mirror"
     primary.save()
     heading = re.search(r"<h1>.*?</h1>", client.get(primary.get_absolute_url()).content.decode()).group(0)
-    assert heading == f'<h1>Main mirror <span class="muted">{primary.kind_label}</span></h1>'
+    assert heading == f'<h1>{primary.telescope.name}: Main mirror <span class="muted">{primary.kind_label}</span></h1>'
 
 
 def test_a_mirror_measured_above_its_fresh_value_is_pointed_out_not_counted_silently(train, users, client):

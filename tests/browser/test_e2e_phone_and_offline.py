@@ -292,7 +292,7 @@ def test_what_was_typed_comes_back_after_a_send_lost_on_the_way_and_never_after_
     page.get_by_label("Performed on").fill("2099-01-01")
     page.get_by_role("button", name="Save record").click()
     expect(page.locator("#error-summary")).to_be_focused()
-    expect(page).to_have_title("Error: Log service: Cooling fans · observatory_ops")
+    expect(page).to_have_title("Error: Log service: T1 Cooling fans · observatory_ops")
     expect(page.locator(".draft-note")).to_have_count(0)  # the server gave the form back with what was typed
 
     page.get_by_label("Performed on").fill(dt.date.today().isoformat())
