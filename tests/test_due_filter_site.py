@@ -3,9 +3,11 @@ site up to date and lists its telescopes out of service, not the network's), and
 holds that site's telescopes only. Also: a tiny reading is written without an exponent. Our own rules of the page."""
 
 import datetime as dt
+import re
 
 import pytest
 
+from observatory_ops.planning.filters import KIND_CHOICES
 from observatory_ops.planning.models import PlanStatus, figure_text
 from observatory_ops.planning.services import site_recompute, site_today
 from tests.conftest import site_in_use
@@ -49,3 +51,17 @@ def test_with_a_site_chosen_the_telescope_list_is_that_sites(client, users):
 ])
 def test_a_reading_is_written_to_four_significant_figures_without_an_exponent(value, text):
     assert figure_text("reading", "mm", value) == text
+
+
+def test_a_filtered_due_list_says_what_it_is_filtered_by_in_its_title_and_count(client, users):
+    """An accessibility review: after filtering, the page's title and heading did not change and the number of
+    matches was not stated; a screen reader heard the filtered list as the whole one."""
+    site = site_in_use("filter-words", kinds=("cooling_fans", "limits"))
+    client.force_login(users["viewer"])
+    whole = client.get("/due/").content.decode()
+    count = int(re.search(r'<p id="due-count" role="status">(\d+) plans? listed\.</p>', whole).group(1))
+    assert f"<title>Due list ({count}) · observatory_ops</title>" in whole
+    page = client.get(f"/due/?site={site.pk}&kind=cooling_fans").content.decode()
+    said = re.search(r'<p id="due-count" role="status">(\d+) plans? listed, ([^<]+)\.</p>', page)
+    assert said and said.group(2) == f"site {site.name}; kind {dict(KIND_CHOICES)['cooling_fans']}"
+    assert f"<title>Due list: site {site.name}; kind " in page

@@ -39,7 +39,13 @@ def due_list(request):
     for record in rows:
         record.on_orders = on_orders.get(record.plan_id, [])
     out = telescopes_out([chosen] if chosen else None).values()
-    context = {"filter": filtered, "table": table, "telescopes_out": out,
+    # What the list is filtered by, in the title and the count above it: a screen reader hears a filtered list's
+    # page as it heard the whole one otherwise (an accessibility review).
+    chosen_values = getattr(filtered.form, "cleaned_data", {})  # validated when the rows were filtered
+    fields = filtered.form.fields
+    shown = [f"{fields[name].label.lower()} {dict(getattr(fields[name], 'choices', ())).get(value, value)}"
+             for name, value in chosen_values.items() if value not in (None, "")]
+    context = {"filter": filtered, "table": table, "telescopes_out": out, "filtered_by": "; ".join(shown),
                "not_computed": selectors.not_computed_counts([chosen] if chosen else None), **_links(request, table)}
     return render(request, "planning/due_list.html", context)
 
