@@ -22,7 +22,14 @@ from observatory_ops.logbook.quantities import (
     value_problem,
 )
 from observatory_ops.registry.catalogue import KINDS
-from observatory_ops.registry.models import Site, Subsystem, name_alike, named_anew, text_newlines_normalised
+from observatory_ops.registry.models import (
+    Site,
+    Subsystem,
+    name_alike,
+    named_anew,
+    text_newlines_normalised,
+    validate_one_line,
+)
 
 from .metrics import MAX_LIMIT, METRIC_CHOICES, METRICS, READING, RECOAT_LINE
 
@@ -30,7 +37,7 @@ from .metrics import MAX_LIMIT, METRIC_CHOICES, METRICS, READING, RECOAT_LINE
 class ServicePlan(models.Model):
     history = HistoricalRecords()  # who changed what, when: see observatory_ops/archive
     subsystem = models.ForeignKey(Subsystem, on_delete=models.PROTECT, related_name="plans")
-    name = models.CharField(max_length=160)
+    name = models.CharField(max_length=160, validators=[validate_one_line])
     task = models.TextField(blank=True)
     # A plan's steps in the three groups a work order keeps apart: the lockout step goes between the first two
     # and the step that removes the locks between the last two (workorders.services), whatever their words.

@@ -47,8 +47,9 @@ def named_anew(record: models.Model, *fields: str) -> bool:
 
 
 def validate_one_line(value: str) -> None:
-    """A name that heads a mail's subject and a page's title: one line, no control characters (a line break in a
-    subject makes the mail library refuse the whole message)."""
+    """A name that heads a mail's subject, a page's title or a printed order's header: one line, no control characters
+    (a line break in a subject makes the mail library refuse the whole message). Sites, telescopes, subsystems,
+    service plans and parts."""
     if any(ord(c) < 32 or ord(c) == 127 for c in value):
         raise ValidationError("Write the name on one line, without tabs or other control characters.")
 
@@ -329,7 +330,7 @@ class Telescope(models.Model):
 
     site = models.ForeignKey(Site, on_delete=models.PROTECT, related_name="telescopes")
     name = models.CharField(
-        max_length=120,
+        max_length=120, validators=[validate_one_line],
         help_text="Also the name its control software gives for nights of its own (the nights CSV's telescope column "
         "and the API's telescope key): renamed here, it must be renamed there too, or those nights are refused.",
     )
@@ -404,7 +405,7 @@ class Subsystem(models.Model):
     telescope = models.ForeignKey(Telescope, on_delete=models.PROTECT, related_name="subsystems")
     parent = models.ForeignKey("self", null=True, blank=True, on_delete=models.PROTECT, related_name="children")
     kind = models.CharField(max_length=32, choices=KIND_CHOICES)
-    name = models.CharField(max_length=120)
+    name = models.CharField(max_length=120, validators=[validate_one_line])
     hazards = models.JSONField(default=list, blank=True, validators=[validate_hazards])
     no_hazards_found = models.BooleanField(
         "no hazards found", default=False,

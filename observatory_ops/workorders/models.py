@@ -12,7 +12,14 @@ from django.urls import reverse
 from simple_history.models import HistoricalRecords
 
 from observatory_ops.logbook.quantities import QUANTITIES, QUANTITY_CHOICES
-from observatory_ops.registry.models import Site, Subsystem, Telescope, name_alike, named_anew
+from observatory_ops.registry.models import (
+    Site,
+    Subsystem,
+    Telescope,
+    name_alike,
+    named_anew,
+    validate_one_line,
+)
 
 
 class State(models.TextChoices):
@@ -414,7 +421,7 @@ class Part(models.Model):
     history = HistoricalRecords()  # who changed what, when: see observatory_ops/archive
     site = models.ForeignKey(Site, on_delete=models.PROTECT, related_name="parts")
     name = models.CharField(
-        max_length=120,
+        max_length=120, validators=[validate_one_line],
         help_text="As the service plans' parts lines name it (\"2 x Brake pad set\"): a drafted order reserves the "
         "part whose name a line gives. Unique at the site, capitals and surrounding spaces aside.",
     )

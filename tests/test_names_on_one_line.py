@@ -1,0 +1,38 @@
+"""Names that head a page's title, a mail's subject or a printed order's header are one line without control characters
+(registry.models.validate_one_line): sites refused them, telescopes, subsystems, service plans and parts took them (a
+bad-input review: a telescope named with a control character printed a black box on paper and broke a mail's
+subject)."""
+from __future__ import annotations
+
+import pytest
+from django.core.exceptions import ValidationError
+
+from observatory_ops.planning.models import ServicePlan
+from observatory_ops.registry.models import Site, Subsystem, Telescope
+from observatory_ops.workorders.models import Part
+
+ONE_LINE = "Write the name on one line, without tabs or other control characters."
+
+
+@pytest.mark.parametrize("model", [Site, Telescope, Subsystem, ServicePlan, Part])
+@pytest.mark.parametrize("name", ["T70\tnorth", "T70\nnorth", "T70\x07", "T70\x7f"])
+def test_a_name_with_a_control_character_is_refused(model, name):
+    with pytest.raises(ValidationError) as refused:
+        model._meta.get_field("name").run_validators(name)
+    assert refused.value.messages == [ONE_LINE]
+
+
+@pytest.mark.parametrize("model", [Site, Telescope, Subsystem, ServicePlan, Part])
+def test_a_name_on_one_line_passes(model):
+    model._meta.get_field("name").run_validators("T70 north: Axis 2 brake (spare) – ø 60 cm")
+
+
+@pytest.mark.django_db
+def test_the_admin_refuses_a_telescope_named_with_a_tab(admin_client, telescope):
+    page = admin_client.get(f"/admin/registry/telescope/{telescope.pk}/change/")
+    form = page.context["adminform"].form
+    data = {name: ("" if value is None else value) for name, value in form.initial.items()}
+    data["name"] = "T1\tspare"
+    response = admin_client.post(f"/admin/registry/telescope/{telescope.pk}/change/", data)
+    assert response.status_code == 200 and ONE_LINE in response.content.decode()
+    assert Telescope.objects.get(pk=telescope.pk).name == telescope.name
