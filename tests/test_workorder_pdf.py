@@ -368,3 +368,20 @@ def test_the_due_figures_say_the_day_they_were_computed():
 
 def test_readings_still_to_take_say_where_to_write_why_one_was_not_taken():
     assert pdf.NOT_MEASURED_ON_PAPER in flat(body_text(render_sheet(make_sheet())))
+
+
+def test_work_still_to_do_under_a_lockout_prints_a_line_for_each_persons_lock():
+    """A group lockout protects each person only with a lock of their own on every point (OSHA 29 CFR
+    1910.147(f)(3)); the page records one tick per point, so the paper has a table for who put a lock on, its number
+    and when it came off (a tablet review found no place to write it). Under the isolation points, before the steps;
+    not on finished work, nor on work with no isolation points."""
+    from observatory_ops.workorders.pdf import PERSONAL_LOCKS_HEADING, PERSONAL_LOCKS_NOTE
+
+    text = body_text(render_sheet(make_sheet()))
+    heading = text.index(flat(PERSONAL_LOCKS_HEADING))
+    assert text.index("Compressed air valve V1 at the receiver") < heading < text.index(flat(STEPS[0]))
+    assert flat(PERSONAL_LOCKS_NOTE) in text
+    assert "Name Lock or tag number On (time) Off (time) Initials off" in text
+    for finished_or_free in (make_sheet(performed_by="Rosa Delacroix", performed_on=dt.date(2026, 7, 1)),
+                             make_sheet(isolation_needed=False, isolation_points=())):
+        assert flat(PERSONAL_LOCKS_HEADING) not in body_text(render_sheet(finished_or_free))

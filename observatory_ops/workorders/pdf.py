@@ -3,7 +3,7 @@
 Pure layout, no Django and no database: the caller fills a :class:`~observatory_ops.workorders.sheet.Sheet`.
 The order on the page follows the work: header and QR code, a framed notice when the order lacks hazards its
 subsystems now carry, why the work is due, the cautions box before anything else of the work, isolation
-points, lifting figures, steps (ticked as on the page, with who ticked each and when, for finished work), parts and
+points with a line for each person's lock (work still to do), lifting figures, steps (ticked as on the page, with who ticked each and when, for finished work), parts and
 tools, readings, the mirrors' cleaning and what was confirmed at finishing (finished work), findings, and the sign-off
 with the actual hours, the day of the work and the crew.
 Everything prints in black, white and light grey, so a mono printer loses nothing.
@@ -598,6 +598,43 @@ def _isolation(sheet: Sheet) -> list[Flowable]:
     return _continued(heading, "Energy isolation points (continued)", lines)
 
 
+#: The personal locks' table: a line for each person working under the lockout (the one signing as having done the
+#: work and the crew lines of the sign-off) and one more for a visitor or a second shift.
+PERSONAL_LOCK_LINES = CREW_LINES + 2
+PERSONAL_LOCKS_HEADING = "Personal locks \N{EN DASH} a line for each person working under the lockout"
+PERSONAL_LOCKS_NOTE = (
+    "Each person puts a lock of their own on every isolation point above and writes its number here; each removes "
+    "only their own lock, and writes when. The lockout is off only when every line has its time off."
+)
+
+
+def _personal_locks(sheet: Sheet, width: float) -> list[Flowable]:
+    """For work still to do whose energy is isolated at points: a table to write who has a lock on, its number, and
+    when it went on and came off. A group lockout protects each person only with a lock of their own on every point
+    (OSHA 29 CFR 1910.147(f)(3)); the page records one tick per point, so the paper keeps the person-by-person
+    record (a tablet review found no place for it). Not printed once the work is finished: the record holds it."""
+    if not (sheet.isolation_needed and sheet.isolation_points) or sheet.performed_by:
+        return []
+    columns = ("Name", "Lock or tag number", "On (time)", "Off (time)", "Initials off")
+    share = (0.34, 0.22, 0.14, 0.14, 0.16)
+    table = Table(
+        [list(columns), *([""] * len(columns) for _ in range(PERSONAL_LOCK_LINES))],
+        colWidths=[width * part for part in share],
+        rowHeights=[12] + [20] * PERSONAL_LOCK_LINES,
+        style=TableStyle([
+            ("FONT", (0, 0), (-1, 0), FONT, 7, 9),
+            ("TEXTCOLOR", (0, 0), (-1, 0), GREY),
+            ("VALIGN", (0, 0), (-1, -1), "BOTTOM"),
+            ("LEFTPADDING", (0, 0), (-1, -1), 0),
+            ("RIGHTPADDING", (0, 0), (-1, -1), 6),
+            ("LINEBELOW", (0, 1), (-1, -1), 0.6, INK),
+        ]),
+        hAlign="LEFT",
+    )
+    return [KeepTogether([_Paragraph(_text(PERSONAL_LOCKS_HEADING), _SUBHEADING), _note(PERSONAL_LOCKS_NOTE),
+                          table])]
+
+
 def _warning(text: str) -> Paragraph:
     """A warning among checklist lines: printed bold and flagged, with no tick box (nothing to tick, as on the page)."""
     return _Paragraph(f"<b>WARNING: {_text(text)}</b>", _BULLET, bulletText="!")
@@ -868,6 +905,7 @@ def _sheet_story(index: int, sheet: Sheet, width: float) -> list[Flowable]:
         *_why(sheet),
         *_cautions(sheet, width),
         *_isolation(sheet),
+        *_personal_locks(sheet, width),
         *_lifting(sheet, width),
         *_steps(sheet),
         *_parts_and_tools(sheet, width),
