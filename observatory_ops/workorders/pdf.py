@@ -3,9 +3,9 @@
 Pure layout, no Django and no database: the caller fills a :class:`~observatory_ops.workorders.sheet.Sheet`.
 The order on the page follows the work: header and QR code, a framed notice when the order lacks hazards its
 subsystems now carry, why the work is due, the cautions box before anything else of the work, isolation
-points with a line for each person's lock (work still to do), lifting figures, steps (ticked as on the page, with who ticked each and when, for finished work), parts and
-tools, readings, the mirrors' cleaning and what was confirmed at finishing (finished work), findings, and the sign-off
-with the actual hours, the day of the work and the crew.
+points with a line for each person's lock (work still to do), lifting figures, steps (ticked as on the page, with
+who ticked each and when, for finished work), parts and tools, readings, the mirrors' cleaning and what was confirmed
+at finishing (finished work), findings, and the sign-off with the actual hours, the day of the work and the crew.
 Everything prints in black, white and light grey, so a mono printer loses nothing.
 
 Every string of a sheet is user text. reportlab's ``Paragraph`` parses markup, so each one goes through
