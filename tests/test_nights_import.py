@@ -1190,3 +1190,17 @@ def test_after_the_confirmed_changes_are_stored_the_page_offers_a_plain_import_a
                      confirm=confirm_token(asked))
     assert ">Import</button>" in refused.content.decode()
     assert not re.search(r'name="confirm" value="[0-9a-f]+"', refused.content.decode())
+
+
+def test_a_row_with_a_quoted_line_break_is_named_by_its_first_line():
+    """A bad-input review: a row whose quoted cell held a line break was named by its last line."""
+    import datetime as dt
+
+    from observatory_ops.logbook.nights_csv import parse
+
+    text = ("night,open_hours\n"
+            "2026-03-01,5.5\n"
+            '2026-03-02,"-1\n"\n'
+            "2026-03-03,4\n")
+    result = parse(text, dt.date(2026, 12, 1))
+    assert [line for line, _ in result.errors] == [3]

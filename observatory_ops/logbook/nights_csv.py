@@ -613,7 +613,9 @@ def parse(text: str, latest_night: dt.date, telescopes: Sequence[str] = ()) -> P
                           _csv_problem(exc, start, reader.line_num)))
             continue
         if any(c.strip() for c in cells):
-            lines.append((reader.line_num, cells))
+            # Named by its first line: a row with a quoted line break in a cell runs over several lines, and the
+            # reader's count is its last (a bad-input review looked for the problem on the wrong line).
+            lines.append((start, cells))
     columns = {
         position: name for position, name in enumerate(header)
         if name or any(isinstance(cells, list) and position < len(cells) and cells[position].strip()
