@@ -385,3 +385,9 @@ def test_work_still_to_do_under_a_lockout_prints_a_line_for_each_persons_lock():
     for finished_or_free in (make_sheet(performed_by="Rosa Delacroix", performed_on=dt.date(2026, 7, 1)),
                              make_sheet(isolation_needed=False, isolation_points=())):
         assert flat(PERSONAL_LOCKS_HEADING) not in body_text(render_sheet(finished_or_free))
+
+
+def test_the_readings_follow_the_steps_that_take_them():
+    """A tablet review turned pages from the steps to the readings, printed after the parts and tools."""
+    text = body_text(render_sheet(make_sheet()))
+    assert text.index(flat(STEPS[-1])) < text.index("Reflectance at 550 nm") < text.index("Lens tissue")

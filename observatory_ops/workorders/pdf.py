@@ -4,8 +4,9 @@ Pure layout, no Django and no database: the caller fills a :class:`~observatory_
 The order on the page follows the work: header and QR code, a framed notice when the order lacks hazards its
 subsystems now carry, why the work is due, the cautions box before anything else of the work, isolation
 points with a line for each person's lock (work still to do), lifting figures, steps (ticked as on the page, with
-who ticked each and when, for finished work), parts and tools, readings, the mirrors' cleaning and what was confirmed
-at finishing (finished work), findings, and the sign-off with the actual hours, the day of the work and the crew.
+who ticked each and when, for finished work), the readings they take, parts and tools, the mirrors' cleaning and what
+was confirmed at finishing (finished work), findings, and the sign-off with the actual hours, the day of the work and
+the crew.
 Everything prints in black, white and light grey, so a mono printer loses nothing.
 
 Every string of a sheet is user text. reportlab's ``Paragraph`` parses markup, so each one goes through
@@ -908,8 +909,8 @@ def _sheet_story(index: int, sheet: Sheet, width: float) -> list[Flowable]:
         *_personal_locks(sheet, width),
         *_lifting(sheet, width),
         *_steps(sheet),
+        *_readings(sheet, width),  # right after the steps that take them (a tablet review turned pages for them)
         *_parts_and_tools(sheet, width),
-        *_readings(sheet, width),
         *_cleanings(sheet),
         *_confirmations(sheet),
         # The sign-off never lands alone on the last page: it goes over with the findings it signs for.
