@@ -65,3 +65,15 @@ def test_a_filtered_due_list_says_what_it_is_filtered_by_in_its_title_and_count(
     said = re.search(r'<p id="due-count" role="status">(\d+) plans? listed, ([^<]+)\.</p>', page)
     assert said and said.group(2) == f"site {site.name}; kind {dict(KIND_CHOICES)['cooling_fans']}"
     assert f"<title>Due list: site {site.name}; kind " in page
+
+
+def test_a_due_list_filtered_by_telescope_names_its_site(client, users):
+    """A diff review: the filter's words named "telescope T1 (0.6 m)" without its site, where several sites may have a
+    T1."""
+    from observatory_ops.registry.models import Telescope
+
+    site = site_in_use("filter-scope", kinds=("cooling_fans",))
+    scope = Telescope.objects.filter(site=site).first()
+    client.force_login(users["viewer"])
+    page = client.get(f"/due/?site={site.pk}&telescope={scope.pk}").content.decode()
+    assert f"telescope {site.name}: {scope}" in page

@@ -466,7 +466,7 @@ def test_a_measurement_taken_before_that_days_cleaning_is_fitted_before_it(mirro
     assert response.status_code == 302
     said = " ".join(str(m) for m in get_messages(response.wsgi_request))
     assert (f"On {cleaned:%d %b %Y} the fit counts 1 band measurement(s) as taken after the cleaning and 1 before "
-            "it") in said
+            "(the measurement's") in said
     state = services.mirror_forecast(mirror)
     assert state.fit.n_points == 6
     assert (state.fit.r0, state.fit.rate_per_hour, state.recovery_fraction) == pytest.approx((0.90, 1e-5, 0.5),
@@ -474,3 +474,13 @@ def test_a_measurement_taken_before_that_days_cleaning_is_fitted_before_it(mirro
     assert "entered as a measurement; before that day's cleaning" in _page_text(client, mirror)
     ReflectanceMeasurement.objects.filter(before_cleaning=True).update(before_cleaning=False)
     assert services.mirror_forecast(mirror).recovery_fraction != pytest.approx(0.5, rel=1e-3)
+
+
+def test_before_that_days_cleaning_is_not_said_of_a_day_with_no_cleaning(mirror, users, client):
+    """A diff review: a measurement marked "before that day's cleaning" on a day with no cleaning was listed so."""
+    today = _today(mirror)
+    CoatingEvent.objects.create(mirror=mirror, coated_on=today - dt.timedelta(days=30), metal="al")
+    ReflectanceMeasurement.objects.create(mirror=mirror, measured_on=today - dt.timedelta(days=10), value=0.88,
+                                          taken_by=users["technician"], before_cleaning=True)
+    client.force_login(users["viewer"])
+    assert "before that day's cleaning" not in _page_text(client, mirror)

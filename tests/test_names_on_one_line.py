@@ -9,22 +9,28 @@ from django.core.exceptions import ValidationError
 
 from observatory_ops.planning.models import ServicePlan
 from observatory_ops.registry.models import Site, Subsystem, Telescope
-from observatory_ops.workorders.models import Part
+from observatory_ops.workorders.models import IsolationPoint, Part, WorkOrder
 
 ONE_LINE = "Write the name on one line, without tabs or other control characters."
 
 
-@pytest.mark.parametrize("model", [Site, Telescope, Subsystem, ServicePlan, Part])
-@pytest.mark.parametrize("name", ["T70\tnorth", "T70\nnorth", "T70\x07", "T70\x7f"])
-def test_a_name_with_a_control_character_is_refused(model, name):
+NAMES = [(Site, "name"), (Telescope, "name"), (Subsystem, "name"), (ServicePlan, "name"), (Part, "name"),
+         (WorkOrder, "title"), (IsolationPoint, "label")]
+
+
+@pytest.mark.parametrize(("model", "field"), NAMES)
+@pytest.mark.parametrize("name", ["T70\tnorth", "T70\nnorth", "T70\x07", "T70\x7f", "T70\x85north", "T70\u2028north",
+                                  "T70\u2029north"])
+def test_a_name_with_a_control_character_is_refused(model, field, name):
+    """C0 and C1 controls (unicodedata category Cc) and the Unicode line and paragraph separators (Zl, Zp)."""
     with pytest.raises(ValidationError) as refused:
-        model._meta.get_field("name").run_validators(name)
+        model._meta.get_field(field).run_validators(name)
     assert refused.value.messages == [ONE_LINE]
 
 
-@pytest.mark.parametrize("model", [Site, Telescope, Subsystem, ServicePlan, Part])
-def test_a_name_on_one_line_passes(model):
-    model._meta.get_field("name").run_validators("T70 north: Axis 2 brake (spare) – ø 60 cm")
+@pytest.mark.parametrize(("model", "field"), NAMES)
+def test_a_name_on_one_line_passes(model, field):
+    model._meta.get_field(field).run_validators("T70 north: Axis 2 brake (spare) – ø 60 cm")
 
 
 @pytest.mark.django_db

@@ -32,6 +32,6 @@ def test_a_refusal_said_as_a_message_is_an_error_in_the_title_and_an_alert(order
     page = response.content.decode()
     assert "Not done: say why the work order is withdrawn" in page
     assert re.search(r"<title>Error: ", page)
-    assert re.search(r'<li class="msg-error[^"]*" role="alert" tabindex="-1">Not done: say why', page)
+    assert re.search(r'<li class="msg-error[^"]*" tabindex="-1"><span role="alert">Not done: say why', page)
     success = client.post(f"/workorders/{order.pk}/move/withdraw/", {"reason": "drafted twice"}, follow=True)
     assert not re.search(r"<title>Error: ", success.content.decode())

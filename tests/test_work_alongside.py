@@ -379,8 +379,8 @@ def test_a_withdrawn_order_passes_on_the_hand_back_it_holds(order, fans_order, t
             "left its hand-back to this order): once nobody is at work on it, whoever withdraws this order hands it "
             "back or leaves it out of control, and says which in the reason.") in said
     # A third crew comes to work on the telescope with a hand-back of its own: the withdrawal passes it on.
-    mirror = subsystem_create(telescope, "cooling_fans", "Cell fans", counting_from=dt.date(2026, 1, 1))
-    third = _issued(services.work_order_from_due(list(mirror.plans.all()), users["engineer"], PLANNED), users)
+    cell_fans = subsystem_create(telescope, "cooling_fans", "Cell fans", counting_from=dt.date(2026, 1, 1))
+    third = _issued(services.work_order_from_due(list(cell_fans.plans.all()), users["engineer"], PLANNED), users)
     services.work_order_move(third, "start", users["technician"])
     said = _text(client.get(f"/workorders/{fans_order.pk}/"))
     assert (f"Withdrawn, its hand-back to robotic and remote control, and the one {drive_order.number} left to it, "
@@ -388,4 +388,44 @@ def test_a_withdrawn_order_passes_on_the_hand_back_it_holds(order, fans_order, t
     services.work_order_move(WorkOrder.objects.get(pk=fans_order.pk), "withdraw", users["engineer"],
                              reason="called off")
     assert list(WorkOrder.objects.get(pk=fans_order.pk).hand_back_left_to.all()) == [third]
-    assert fans_order.number in _text(client.get(f"/workorders/{third.pk}/"))
+    # The third crew's page names both: the drive order whose hand-back is owed, and the fans order that passed it on
+    # (a diff review: only the latter had been named); the withdrawn fans order's page no longer says it holds it.
+    page = _text(client.get(f"/workorders/{third.pk}/"))
+    assert (f"This crew holds the hand-back of other work on the telescope {drive_order.number} {drive_order.title} "
+            f"(finished, awaiting countersignature) {fans_order.number} {fans_order.title} (withdrawn)") in page
+    assert "holds the hand-back" not in _text(client.get(f"/workorders/{fans_order.pk}/"))
+
+
+def test_an_order_with_its_locks_on_is_not_finished_as_needing_no_isolation(order, fans_order, users):  # noqa: F811
+    """A diff review finished a drive order with its point and lockout ticked and the locks' removal not, answering
+    "the work needed no isolation": the record contradicted its own ticks, and the fans crew no longer waited for
+    the drive crew's locks. Only "the energy was isolated" (the locks removed after the work, said in the findings)
+    finishes it so."""
+    from test_workorders import _all_readings
+
+    from observatory_ops.workorders.cautions import NOT_NEEDED
+
+    fans_order, drive_order = _both_underway(order, fans_order, users)
+    lockout, _ = services.isolated_steps(drive_order.step_list)
+    _tick_through(drive_order, users, lockout)
+    assert services.still_locked_out(fans_order) != []
+    unticked = [line.text for line in selectors.unticked_lines(drive_order)]
+    with pytest.raises(services.Refused, match="its isolation points or its lockout are ticked as locked on this "
+                                               "order and the removal of the locks is not: the energy was isolated"):
+        services.work_order_finish(drive_order, users["technician"], 1.0, "ok", _all_readings(drive_order, 0.6),
+                                   confirmed_unticked=unticked, isolation_answer=NOT_NEEDED)
+    assert WorkOrder.objects.get(pk=drive_order.pk).state == State.UNDERWAY
+    assert services.still_locked_out(fans_order) != []
+
+
+def test_a_crew_with_a_point_ticked_as_locked_holds_the_other_crew_before_its_lockout_step(order, fans_order, users):  # noqa: F811
+    """A diff review: a point ticked as locked (the lockout step not yet) refused the order's withdrawal but did not
+    hold the other crew, whose restoring steps went on. One rule now: a lock on a point holds from the moment it is
+    on (``Alongside.locked_out``)."""
+    fans_order, drive_order = _both_underway(order, fans_order, users)
+    _powered_first(users, drive_order, fans_order)
+    point = selectors.checklist(drive_order).points[0]
+    services.checklist_tick_set(drive_order, "point", point.key, True, users["technician"])
+    assert [a.order for a in services.still_locked_out(fans_order)] == [drive_order]
+    assert "an isolation point of its own is ticked as locked: its crew's locks are going on" in (
+        services.still_locked_out(fans_order)[0].text(drive_order.site.zone))

@@ -136,6 +136,18 @@ def test_a_withdrawn_order_is_not_deleted(order, users, administrator):  # noqa:
     assert WorkOrder.objects.filter(pk=order.pk).exists()
 
 
+def test_an_order_underway_is_not_deleted(order, users, administrator):  # noqa: F811
+    """A diff review deleted an order underway with its lockout ticked, past the withdrawal's refusal: its locks went
+    from the record with its ticks, and another crew no longer waited for them."""
+    services.work_order_move(order, "issue", users["engineer"])
+    services.work_order_move(order, "start", users["technician"])
+    delete = f"/admin/workorders/workorder/{order.pk}/delete/"
+    assert f"{order.number} {order.title}: it is underway, its crew at work. Withdraw it on its page instead" in _text(
+        administrator.get(delete))
+    administrator.post(delete, {"post": "yes"})
+    assert WorkOrder.objects.filter(pk=order.pk).exists()
+
+
 # --- the history's revert ------------------------------------------------------------------------------------------
 
 

@@ -40,9 +40,11 @@ def mirror_detail(request, pk):
     measurements = list(mirror.measurements.select_related("taken_by", "reading", "withdrawn_by")
                         .order_by("-measured_on")[:40])
     unknown = {m.pk for m in state.unlogged_measurements}
+    cleaned = set(mirror.cleanings.values_list("cleaned_on", flat=True))
     for m in measurements:  # the x of its dot in the picture; None for one not fitted
         m.exposure_h = state.exposure_by_measurement.get(m.pk)
         m.exposure_unknown = m.pk in unknown  # dated on or before the first logged night, the coating before it
+        m.before_a_cleaning = m.before_cleaning and m.measured_on in cleaned  # the mark means nothing on other days
     due = services.recoat_due(mirror)
     return render(
         request,
@@ -192,15 +194,17 @@ def _cleaning_logged(mirror: Mirror, event) -> str:
 def _same_day_said(mirror: Mirror, day) -> str:
     """Which way round the fit takes the band measurements and a cleaning of the same ``day`` (a traceability review:
     a reflectance measured before a cleaning, counted after it, moved the fit); "" when the day has not both."""
-    if not mirror.cleanings.filter(cleaned_on=day).exists():
+    cleanings = mirror.cleanings.filter(cleaned_on=day).count()
+    if not cleanings:
         return ""
     same_day = list(mirror.measurements.filter(measured_on=day, wavelength_nm__isnull=True, withdrawn_at__isnull=True))
     if not same_day:
         return ""
     before = sum(m.before_cleaning for m in same_day)
     after = len(same_day) - before
-    return (f"On {day:%d %b %Y} the fit counts {after} band measurement(s) as taken after the cleaning and {before} "
-            "before it (the measurement's \"Measured before that day's cleaning\"; a measurement entered wrongly so is "
+    what = "the cleaning" if cleanings == 1 else f"the {cleanings} cleanings"
+    return (f"On {day:%d %b %Y} the fit counts {after} band measurement(s) as taken after {what} and {before} "
+            "before (the measurement's \"Measured before that day's cleaning\"; a measurement entered wrongly so is "
             "withdrawn on this page and entered again).")
 
 

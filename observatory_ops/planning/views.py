@@ -1,4 +1,5 @@
 from django.contrib import messages
+from django.db.models import Model
 from django.http import HttpResponseBadRequest, HttpResponseNotAllowed
 from django.shortcuts import get_object_or_404, redirect, render
 from django.utils import timezone
@@ -7,6 +8,7 @@ from django_tables2 import RequestConfig
 from observatory_ops.access.decorators import requires
 from observatory_ops.access.roles import ENGINEER, VIEWER
 from observatory_ops.exports import csv_response
+from observatory_ops.registry.models import Telescope
 from observatory_ops.workorders.selectors import orders_for_plans, telescopes_out
 
 from . import selectors
@@ -43,11 +45,21 @@ def due_list(request):
     # page as it heard the whole one otherwise (an accessibility review).
     chosen_values = getattr(filtered.form, "cleaned_data", {})  # validated when the rows were filtered
     fields = filtered.form.fields
-    shown = [f"{fields[name].label.lower()} {dict(getattr(fields[name], 'choices', ())).get(value, value)}"
+    shown = [f"{fields[name].label.lower()} {_filter_word(fields[name], value)}"
              for name, value in chosen_values.items() if value not in (None, "")]
     context = {"filter": filtered, "table": table, "telescopes_out": out, "filtered_by": "; ".join(shown),
                "not_computed": selectors.not_computed_counts([chosen] if chosen else None), **_links(request, table)}
     return render(request, "planning/due_list.html", context)
+
+
+def _filter_word(field, value) -> str:
+    """A filter's chosen value as the page names it: a telescope with its site (several sites may have a "T1"), a
+    kind by its label, anything else as it reads."""
+    if isinstance(value, Telescope):
+        return f"{value.site.name}: {value}"
+    if isinstance(value, Model):  # read when the form was checked; its choices would be another query
+        return str(value)
+    return str(dict(getattr(field, "choices", ())).get(value, value))
 
 
 def _links(request, table) -> dict:

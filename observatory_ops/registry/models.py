@@ -2,6 +2,7 @@
 from __future__ import annotations
 
 import datetime as dt
+import unicodedata
 import zoneinfo
 
 from django.core.exceptions import ValidationError
@@ -49,8 +50,8 @@ def named_anew(record: models.Model, *fields: str) -> bool:
 def validate_one_line(value: str) -> None:
     """A name that heads a mail's subject, a page's title or a printed order's header: one line, no control characters
     (a line break in a subject makes the mail library refuse the whole message). Sites, telescopes, subsystems,
-    service plans and parts."""
-    if any(ord(c) < 32 or ord(c) == 127 for c in value):
+    service plans, parts, work order titles and isolation points."""
+    if any(unicodedata.category(c) in ("Cc", "Zl", "Zp") for c in value):  # C0, DEL, C1, and the line separators
         raise ValidationError("Write the name on one line, without tabs or other control characters.")
 
 

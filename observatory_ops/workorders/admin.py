@@ -9,7 +9,17 @@ from simple_history.admin import SimpleHistoryAdmin
 from observatory_ops.registry.forms import ChoicesNamedWithSite, ChoicesOfItsSite, possible_id
 
 from . import selectors
-from .models import ChecklistTick, IsolationPoint, Part, PartUse, RequiredReading, WorkOrder, WorkOrderItem, listed
+from .models import (
+    ChecklistTick,
+    IsolationPoint,
+    Part,
+    PartUse,
+    RequiredReading,
+    State,
+    WorkOrder,
+    WorkOrderItem,
+    listed,
+)
 
 
 class ItemsFixedOnceStarted(ChoicesOfItsSite):
@@ -116,6 +126,12 @@ class WorkOrderAdmin(ChoicesNamedWithSite, SimpleHistoryAdmin):
         for order in objs:
             if closed := order.closed_edit_refusal(RECORD_SHOWN):
                 protected.append(closed)
+            elif order.state == State.UNDERWAY:
+                # Its crew is at work: its ticks are the record of its locks, which other crews wait for, and it may
+                # hold another crew's hand-back (a diff review deleted one with its locks on, past the withdrawal's
+                # refusal).
+                protected.append(f"{order}: it is underway, its crew at work. Withdraw it on its page instead (not "
+                                 "while its crew's locks are on)")
         return deleted, counts, permissions, protected
 
 

@@ -67,7 +67,7 @@ class WorkOrder(models.Model):
 
     site = models.ForeignKey(Site, on_delete=models.PROTECT, related_name="work_orders")
     telescope = models.ForeignKey(Telescope, null=True, blank=True, on_delete=models.PROTECT, related_name="+")
-    title = models.CharField(max_length=200)
+    title = models.CharField(max_length=200, validators=[validate_one_line])
     order_type = models.CharField(max_length=12, choices=Type.choices, default=Type.PREVENTIVE)
     priority = models.PositiveSmallIntegerField(choices=Priority.choices, default=Priority.NORMAL)
     state = models.CharField(max_length=16, choices=State.choices, default=State.DRAFT)
@@ -518,7 +518,8 @@ class IsolationPoint(models.Model):
         max_length=16, choices=Energy.choices,
         help_text="The energy it isolates: its work orders print that energy's caution (workorders.cautions).",
     )
-    label = models.CharField(max_length=120, help_text="What to switch, lock and tag, e.g. 'Mount main isolator'.")
+    label = models.CharField(max_length=120, validators=[validate_one_line],
+                             help_text="What to switch, lock and tag, e.g. 'Mount main isolator'.")
     location = models.CharField(max_length=120, blank=True)
     verify = models.CharField(max_length=160, blank=True, help_text="How to prove it is dead (test before touch).")
 

@@ -1417,22 +1417,20 @@ class Alongside(NamedTuple):
 
     @property
     def locked_out(self) -> bool:
-        """Its crew is locked out: its lockout ticked and the removal of its locks not (an order without a release
-        step, whose locked-out work runs to its end, stays locked out until it is finished)."""
-        return bool(self.lockout_ticked) and not self.released
-
-    @property
-    def locks_on(self) -> bool:
-        """Its crew's locks are on the equipment: an isolation point ticked as locked or its lockout ticked, and the
-        removal of its locks not ticked."""
+        """Its crew's locks are on: an isolation point of its own ticked as locked or its lockout ticked, and the
+        removal of its locks not (an order without a release step, whose locked-out work runs to its end, stays locked
+        out until it is finished). Another crew waits for them (``services.still_locked_out``), and the order is not
+        withdrawn (``services.withdraw_refusal``): a lock on a point protects its crew from the moment it is on, before
+        the lockout step that says all are on (a diff review: the two had read different rules)."""
         return (self.points_locked or bool(self.lockout_ticked)) and not self.released
 
     def text(self, zone: dt.tzinfo) -> str:
         started = self.order.started_at and dateformat.format(self.order.started_at.astimezone(zone), "d M Y H:i")
         if self.lockout_ticked is None:
-            lockout = "it has no lockout"
+            lockout = "it has no lockout" + ("; an isolation point is ticked as locked" if self.points_locked else "")
         elif not self.lockout_ticked:
-            lockout = "its lockout is not ticked yet"
+            lockout = ("its lockout is not ticked yet, but an isolation point of its own is ticked as locked: its "
+                       "crew's locks are going on" if self.locked_out else "its lockout is not ticked yet")
         elif self.locked_out:
             lockout = "its lockout is ticked: its crew is locked out"
         else:
@@ -1472,9 +1470,23 @@ def work_alongside(order: WorkOrder, items: list[WorkOrderItem] | None = None,
     return alongside
 
 
+def hand_backs_held(order: WorkOrder) -> list[WorkOrder]:
+    """The orders whose hand-back to robotic and remote control ``order`` holds (``WorkOrder.hand_back_left_to``),
+    oldest first: those that left it to this one, and, through each of them that had passed on one it held (withdrawn
+    or finished in its turn), those before (a diff review: a chain A to B to C named only B on C's page)."""
+    held: dict[int, WorkOrder] = {}
+    reached = list(order.hand_backs_held.all())
+    while reached:
+        other = reached.pop()
+        if other.pk not in held and other.pk != order.pk:
+            held[other.pk] = other
+            reached.extend(other.hand_backs_held.all())
+    return sorted(held.values(), key=lambda o: o.pk)
+
+
 def crew_state(order: WorkOrder, shared: list[str] | None = None) -> Alongside:
     """Where the crew of ``order`` stands on its checklist, as ``work_alongside`` says it of another crew and a
-    withdrawal reads it of the order's own (``locks_on``): its lockout ticked, the removal of its locks ticked, work
+    withdrawal reads it of the order's own (``locked_out``): its lockout ticked, the removal of its locks ticked, work
     left, a hand-back of its own still to tick."""
     steps = order.step_list
     ticks = latest_ticks(order)

@@ -80,6 +80,7 @@ from .models import (
 from .selectors import (
     brake_air_vented,
     crew_state,
+    hand_backs_held,
     hazards_missing,
     hazards_of,
     isolation_gaps,
@@ -634,6 +635,11 @@ def work_order_move(order: WorkOrder, action: str, by, reason: str = "") -> Work
         fields["withdrawn_reason"] = reason.strip()[:200]
     passed_to = (hand_back_on_withdrawal(order) or ([], []))[1] if action == "withdraw" else []
     with transaction.atomic():
+        if action == "withdraw":
+            # Read again under the row's lock, which a tick takes too (checklist_tick_set): a lock ticked on meanwhile
+            # would otherwise be withdrawn with the order (a diff review).
+            if why := withdraw_refusal(WorkOrder.objects.select_for_update().get(pk=order.pk)):
+                raise Refused(why)
         claimed = WorkOrder.objects.filter(pk=order.pk, state=order.state).update(**fields)
         if not claimed:
             raise Refused("someone else changed this work order meanwhile; reload it")
@@ -649,14 +655,15 @@ def work_order_move(order: WorkOrder, action: str, by, reason: str = "") -> Work
 
 def withdraw_refusal(order: WorkOrder) -> str:
     """Why ``order`` may not be withdrawn as it stands, "" when it may: underway with its crew's locks on (an isolation
-    point or its lockout ticked as locked, the removal of its locks not: ``selectors.Alongside.locks_on``). Withdrawn,
+    point or its lockout ticked as locked, the removal of its locks not: ``selectors.Alongside.locked_out``). Withdrawn,
     its locks would be on nobody's record: another crew on the telescope would no longer wait for them
     (``still_locked_out`` reads orders underway) and nothing would say who is to take them off (a review withdrew an
     order so, its lockout ticked). Each lock comes off by the person who put it on (OSHA 29 CFR 1910.147(e)(3)); the
     page says it before the button."""
-    if order.state != State.UNDERWAY or not crew_state(order).locks_on:
+    if order.state != State.UNDERWAY or not crew_state(order).locked_out:
         return ""
-    release = next((step for step in order.step_list if is_release_step(step)), "")
+    steps, found = order.step_list, isolated_steps(order.step_list)
+    release = steps[found[1].stop] if found is not None and found[1].stop < len(steps) else ""
     then = (f"tick \"{unlabelled(release)}\"; then withdraw it, or finish it" if release else
             "finish it, saying so in its findings (it has no step that removes the locks)")
     return (
@@ -674,7 +681,7 @@ def hand_back_on_withdrawal(order: WorkOrder) -> tuple[list[WorkOrder], list[Wor
     (``withdrawal_hand_back_text`` says so before the withdrawal)."""
     if order.state != State.UNDERWAY:
         return None
-    held = list(order.hand_backs_held.order_by("pk"))
+    held = hand_backs_held(order)
     if not crew_state(order).hands_back or not (held or order.ticks.filter(ticked=True).exists()):
         return None
     return held, [a.order for a in still_working(order) if a.hands_back]
@@ -947,6 +954,14 @@ def work_order_finish(
             ))
         if isolation and not findings.strip():
             raise Refused(ISOLATION_UNTICKED_FINDINGS)
+        if isolation and isolation_answer != "isolated" and crew_state(order).locked_out:
+            # Its own ticks say the locks went on: "no isolation was needed" or "not isolated" would contradict them,
+            # and the order, finished, would no longer hold another crew for its locks (a diff review).
+            raise Refused(
+                "its isolation points or its lockout are ticked as locked on this order and the removal of the locks "
+                "is not: the energy was isolated. Tick the removal of the locks once each person has taken their own "
+                "off, or answer that the energy was isolated and say in the findings who removed the locks and when"
+            )
         if waiting := finish_waits(order, unticked):
             raise Refused(waiting)
         if hand_back:
@@ -1162,8 +1177,9 @@ def left_to_the_last_crew(order: WorkOrder, unticked: Sequence) -> tuple[list, l
 
 def still_locked_out(order: WorkOrder) -> list:
     """The other orders underway on a telescope ``order`` works on (``selectors.work_alongside``) whose crews are still
-    locked out (``Alongside.locked_out``): their lockout step is ticked and the step that removes their locks is not
-    (an order without one, whose locked-out work runs to its end, counts as locked out until it is finished)."""
+    locked out (``Alongside.locked_out``): an isolation point of theirs or their lockout step is ticked and the step
+    that removes their locks is not (an order without one, whose locked-out work runs to its end, counts as locked out
+    until it is finished)."""
     return [other for other in work_alongside(order) if other.locked_out]
 
 

@@ -230,7 +230,8 @@ def work_order_detail(request, pk):
             "withdraw_form": WithdrawForm(),
             "withdraw_waits": services.withdraw_refusal(order),
             "withdraw_hand_back": services.withdrawal_hand_back_text(order) if has_role(request.user, ENGINEER) else "",
-            "hand_backs_held": list(order.hand_backs_held.order_by("pk")),
+            # Said while its crew is at work: once it is finished or withdrawn, its record says where it went.
+            "hand_backs_held": selectors.hand_backs_held(order) if order.state == State.UNDERWAY else [],
             "hand_backs_held_title": HAND_BACKS_HELD_TITLE,
             "hand_backs_held_advice": HAND_BACKS_HELD_ADVICE,
             "history": selectors.history(order, limit=8),
