@@ -355,7 +355,7 @@ def test_a_condition_past_its_limit_says_the_day_it_was_first_past(db, users):
     status = PlanStatus.objects.get(plan=plan)
     assert status.status == "overdue"
     assert status.forecast_date == TODAY - dt.timedelta(days=10)  # 0.98 at day -20 was back under the limit
-    assert f"past the limit since the reading of {status.forecast_date:%d %b %Y}." in status.reason
+    assert f"limit reached since the reading of {status.forecast_date:%d %b %Y}." in status.reason
 
 
 def test_absurd_readings_leave_the_recompute_working_and_say_why_there_is_no_trend(db, users):
@@ -415,9 +415,9 @@ def test_a_condition_triggers_sentence_names_the_reading_the_limit_and_the_trend
     services.site_recompute(site, TODAY)
     reason = PlanStatus.objects.get(plan=plan).reason
     counting_from = TODAY - dt.timedelta(days=60)  # no service logged: counted from the plan's start
-    assert reason.startswith("Latest reading 1.095 s against a limit of at most 1 s; Settle time after a slew: "
-                             f"2 readings since the plan's start ({counting_from:%d %b %Y}), too few for a trend; "
-                             "past the limit since the reading of ")
+    assert reason.startswith("Latest reading 1.095 s against a limit of 1 s (reached at 1 s or above); Settle time "
+                             f"after a slew: 2 readings since the plan's start ({counting_from:%d %b %Y}), too few for "
+                             "a trend; limit reached since the reading of ")
 
 
 def test_the_due_lists_csv_download_names_things_as_the_page_does(synthetic, users, client):
@@ -485,3 +485,46 @@ def test_the_reading_form_offers_the_subsystems_own_quantities_first(db, users, 
     ours = page.split('<optgroup label="For this subsystem">')[1].split("</optgroup>")[0]
     assert 'value="settle_time_s"' in ours and 'value="reflectance"' not in ours
     assert 'value="reflectance"' in page.split('<optgroup label="Other quantities">')[1]
+
+
+def test_a_service_logged_without_a_reading_keeps_a_reading_past_its_limit_said(db, users, client):
+    """A year's review: a brake whose air had fallen past its limit was serviced on the subsystem page with no reading,
+    and its plan went to "later", the 4.86 bar no longer said anywhere. With no reading since the service, the last one
+    before it that had reached the limit keeps the plan overdue and says to measure again (common practice, no
+    published source); the first reading after the service decides again."""
+    from observatory_ops.logbook.models import Reading, ServiceRecord
+
+    noon = [dt.datetime.combine(TODAY - dt.timedelta(days=d), dt.time(12), tzinfo=dt.UTC) for d in (40, 20)]
+    site, plan = _drive_with_readings(users, "UTC", list(zip(noon, [0.8, 1.2], strict=True)),
+                                      TODAY - dt.timedelta(days=60))
+    serviced = TODAY - dt.timedelta(days=10)
+    by = users["technician"]
+    ServiceRecord.objects.create(subsystem=plan.subsystem, plan=plan, performed_on=serviced, performed_by=by,
+                                 summary="Drive tuned", created_by=by)
+    services.site_recompute(site, TODAY)
+    status = PlanStatus.objects.get(plan=plan)
+    assert status.status == "overdue"
+    assert (f"no reading since the last service ({serviced:%d %b %Y}), and the last one before it had reached the "
+            "limit: measure it again to confirm the service brought it back; limit reached since the reading of "
+            f"{TODAY - dt.timedelta(days=20):%d %b %Y}.") in status.reason
+    client.force_login(users["viewer"])
+    page = client.get(f"/subsystems/{plan.subsystem_id}/")
+    assert page.status_code == 200
+    assert "measure it again to confirm the service brought it back" in page.content.decode()
+    Reading.objects.create(subsystem=plan.subsystem, quantity="settle_time_s", unit="s", value=0.7, taken_by=by,
+                           taken_at=dt.datetime.combine(serviced, dt.time(15), tzinfo=dt.UTC))
+    services.site_recompute(site, TODAY)
+    assert PlanStatus.objects.get(plan=plan).status != "overdue"
+
+
+def test_a_service_after_a_reading_within_its_limit_asks_nothing_more(db, users):
+    from observatory_ops.logbook.models import ServiceRecord
+
+    noon = [dt.datetime.combine(TODAY - dt.timedelta(days=d), dt.time(12), tzinfo=dt.UTC) for d in (40, 20)]
+    site, plan = _drive_with_readings(users, "UTC", list(zip(noon, [0.8, 0.9], strict=True)),
+                                      TODAY - dt.timedelta(days=60))
+    by = users["technician"]
+    ServiceRecord.objects.create(subsystem=plan.subsystem, plan=plan, performed_on=TODAY - dt.timedelta(days=10),
+                                 performed_by=by, summary="Drive tuned", created_by=by)
+    services.site_recompute(site, TODAY)  # the plan's one trigger has no reading to go on: no due state
+    assert not PlanStatus.objects.filter(plan=plan, reason__contains="no reading since the last service").exists()

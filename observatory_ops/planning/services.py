@@ -626,6 +626,10 @@ def _site_recompute(site: Site, today: dt.date) -> int:
     baselines = {p.pk: last_service.get(p.pk, p.counting_from) for p in plans}
     unknown = {p.pk for p in plans if not p.counting_from_given and p.pk not in last_service}
     readings = _readings_by_subsystem_quantity(site, plans, triggers_of, baselines)
+    unconfirmed = _last_readings_before(site, [
+        (p.subsystem_id, t.quantity, baselines[p.pk]) for p in plans for t in triggers_of[p.pk]
+        if t.metric == metrics.READING and p.pk in last_service and (p.subsystem_id, t.quantity) not in readings
+    ])
 
     downtime = _downtime_by_telescope(site)
     if downtime and any(p.whole_site for p in plans):
@@ -646,6 +650,8 @@ def _site_recompute(site: Site, today: dt.date) -> int:
                          else f"the plan's start ({baselines[plan.pk]:%d %b %Y})")
                 state = _reading_state(trig, readings.get((plan.subsystem_id, trig.quantity), []), today, site.zone,
                                        since)
+                if state is None and (before := unconfirmed.get((plan.subsystem_id, trig.quantity))):
+                    state = _unconfirmed_state(trig, before, baselines[plan.pk], site.zone)
                 if state:
                     states[plan.pk].append(state)
             else:
@@ -872,6 +878,44 @@ def _readings_by_subsystem_quantity(
     return out
 
 
+def _last_readings_before(site: Site, wanted: list[tuple[int, str, dt.date]]) -> dict[tuple[int, str], tuple]:
+    """The newest reading (moment, value) of each (subsystem, quantity, baseline day) of ``wanted`` taken before the
+    baseline's local midnight: for a plan serviced since its last reading (``_unconfirmed_state``). One query, only
+    when some plan has no reading since its service."""
+    if not wanted:
+        return {}
+    zone = site.zone
+    before = {(sub, quantity): dt.datetime.combine(day, dt.time(), tzinfo=zone) for sub, quantity, day in wanted}
+    out: dict[tuple[int, str], tuple] = {}
+    for sub_id, quantity, taken_at, value in Reading.objects.filter(
+        subsystem_id__in={sub for sub, _ in before}, quantity__in={q for _, q in before}, withdrawn_at__isnull=True,
+        taken_at__lt=max(before.values()),
+    ).order_by("taken_at").values_list("subsystem_id", "quantity", "taken_at", "value"):
+        key = (sub_id, quantity)
+        if key in before and taken_at < before[key]:
+            out[key] = (taken_at, value)  # the newest, read last
+    return out
+
+
+def _unconfirmed_state(trig, before: tuple[dt.datetime, float], serviced: dt.date, zone) -> TriggerState | None:
+    """A condition trigger with no reading since its plan's last service (``serviced``), whose last reading before it
+    (``before``: moment, value) had reached the limit: still reached, until a reading confirms that the service brought
+    it back (a year's review logged the brake's service with no reading, and the 4.86 bar against 5 bar it had been
+    overdue for was no longer said anywhere). None when that reading had not reached the limit. Measuring after the
+    work is common practice, no published source."""
+    taken_at, value = before
+    rising = trig.direction == Trigger.Direction.ABOVE
+    label, unit = QUANTITIES[trig.quantity]
+    on = taken_at.astimezone(zone).date()
+    state = TriggerState(
+        metric=metrics.READING, value=value, limit=trig.limit, rate_per_day=None, forecast=on, earliest=on, latest=on,
+        basis=(f"{label}: no reading since the last service ({serviced:%d %b %Y}), and the last one before it had "
+               "reached the limit: measure it again to confirm the service brought it back"),
+        rising=rising, unit=unit,
+    )
+    return state if state.reached else None
+
+
 @dataclass(frozen=True)
 class Downtime:
     """A telescope out of service on coming nights, for a recoat in hand (``mirrors.services.recoat_in_hand``: going
@@ -1077,9 +1121,12 @@ def reason_text(state: TriggerState) -> str:
     label = metrics.METRICS[state.metric][0]
     unit = state.unit
     if state.metric == metrics.READING:
-        bound = "at most" if state.rising else "at least"
+        # Reached at the limit itself (calc.triggers.TriggerState.reached), so "at most 1 s" would not say it: a year's
+        # review read "1 s against a limit of at most 1 s; past the limit".
+        side = "above" if state.rising else "below"
         value, limit = (figure_text(metrics.READING, unit, figure) for figure in (state.value, state.limit))
-        head = f"Latest reading {value} {unit} against a limit of {bound} {limit} {unit}; {state.basis}"
+        head = (f"Latest reading {value} {unit} against a limit of {limit} {unit} (reached at {limit} {unit} or "
+                f"{side}); {state.basis}")
     elif state.metric == metrics.RECOAT_LINE:
         head = f"Reflectance now about {reflectance_text(state.value)}, recoat line {reflectance_text(state.limit)}"
     else:
@@ -1089,7 +1136,7 @@ def reason_text(state: TriggerState) -> str:
                      "expected over the next 30 days")
     if state.reached and state.metric == metrics.READING and state.forecast:
         # The day of the first reading past the limit (``_reading_state``), not where the trend crosses it.
-        return f"{head}; past the limit since the reading of {state.forecast:%d %b %Y}."
+        return f"{head}; limit reached since the reading of {state.forecast:%d %b %Y}."
     if state.reached:
         return f"{head}; limit reached{f' on {state.forecast:%d %b %Y}' if state.forecast else ''}."
     if state.forecast is None:
