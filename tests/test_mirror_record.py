@@ -4,6 +4,7 @@ and a recovery per cleaning the data cannot tell is said in words, never printed
 from __future__ import annotations
 
 import datetime as dt
+import html
 import json
 import re
 import zoneinfo
@@ -484,3 +485,32 @@ def test_before_that_days_cleaning_is_not_said_of_a_day_with_no_cleaning(mirror,
                                           taken_by=users["technician"], before_cleaning=True)
     client.force_login(users["viewer"])
     assert "before that day's cleaning" not in _page_text(client, mirror)
+
+
+def test_a_cleaning_plan_logged_on_the_subsystem_page_puts_the_cleaning_on_the_mirror(mirror, users, client):
+    """A year's review logged the mirror's cleaning plan on the subsystem page all year: the mirror's record kept its
+    last cleaning of the year before, and the reflectance fit and the recoat forecast went on as if it had never been
+    cleaned. The form asks how it was cleaned, and the cleaning goes on the mirror's record with the service."""
+    cleaning_plan = services.plans_a_cleaning_restarts(mirror.subsystem)[0]
+    day = _today(mirror) - dt.timedelta(days=2)
+    url = f"/subsystems/{mirror.subsystem_id}/service/new/"
+    client.force_login(users["technician"])
+    sent = {"plan": cleaning_plan.pk, "performed_on": day.isoformat(), "summary": "CO2 snow, whole surface"}
+    refused = client.post(url, sent)
+    assert refused.status_code == 200 and "cleans the mirror: say how it was cleaned" in refused.content.decode()
+    assert not CleaningEvent.objects.filter(mirror=mirror).exists()
+    response = client.post(url, {**sent, "cleaning_method": "co2_snow"})
+    assert response.status_code == 302
+    cleaning = CleaningEvent.objects.get(mirror=mirror)
+    assert (cleaning.cleaned_on, cleaning.method) == (day, "co2_snow")
+    assert ServiceRecord.objects.filter(plan=cleaning_plan, performed_on=day).count() == 1
+
+
+def test_a_recoat_plan_is_not_served_on_the_subsystem_page(mirror, users, client):
+    """Logged there, the fit would go on from the old coating: the form points to the mirror page's new coating."""
+    client.force_login(users["technician"])
+    response = client.post(f"/subsystems/{mirror.subsystem_id}/service/new/", {
+        "plan": _recoat_plan(mirror).pk, "performed_on": _today(mirror).isoformat(), "summary": "Recoated"})
+    assert response.status_code == 200
+    assert "is served by a new coating: log it on the mirror page" in html.unescape(response.content.decode())
+    assert not ServiceRecord.objects.filter(plan=_recoat_plan(mirror)).exists()

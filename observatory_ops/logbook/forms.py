@@ -69,6 +69,19 @@ class ServiceRecordForm(QuestionedValueMixin, forms.Form):
         self.subsystem, self.by = subsystem, by
         self.site = subsystem.telescope.site
         self.fields["plan"].queryset = subsystem.plans.filter(active=True)
+        from observatory_ops.mirrors.models import CleaningEvent, Mirror  # the mirrors build on the logbook
+
+        self.mirror = Mirror.objects.filter(subsystem=subsystem).first()
+        if self.mirror is not None:
+            # A year's review logged the mirror's cleaning plan here all year: the cleaning never reached the mirror's
+            # record, and its reflectance fit and recoat forecast went on as if it had never been cleaned.
+            self.fields["cleaning_method"] = forms.ChoiceField(
+                required=False, label="Mirror cleaning in this work",
+                choices=[("", "the mirror was not cleaned"), *CleaningEvent.Method.choices],
+                help_text="How the mirror was cleaned, if it was: the cleaning goes on the mirror's record, whose "
+                "reflectance fit counts its recovery. A cleaning plan's service asks it.",
+            )
+            self.order_fields(["plan", "performed_on", "cleaning_method"])
 
     def clean(self):
         """Asked about before the record is logged, each beside its field (``QuestionedValueMixin``: kept with the box
@@ -80,6 +93,8 @@ class ServiceRecordForm(QuestionedValueMixin, forms.Form):
 
         data = super().clean()
         plan, day, hours = data.get("plan"), data.get("performed_on"), data.get("hours_spent")
+        if plan is not None and self.mirror is not None:
+            self._mirror_work(plan, data.get("cleaning_method", ""))
         if plan is None or day is None:
             return data
         asked = f"{plan.pk}|{day}|{hours!r}"
@@ -109,6 +124,22 @@ class ServiceRecordForm(QuestionedValueMixin, forms.Form):
         if any(self.has_error(name) for name in ("hours_spent", "performed_on", "plan")):
             self.ask_again(asked)
         return data
+
+    def _mirror_work(self, plan: ServicePlan, method: str) -> None:
+        """A mirror's recoat plan is served by logging the new coating on the mirror page (its metal and overcoats
+        start the decline fit again, and it restarts the plan); a cleaning plan asks how the mirror was cleaned, and
+        the cleaning goes on the mirror's record with the service (``views.service_log``)."""
+        from observatory_ops.mirrors.services import plans_a_cleaning_restarts, recoat_plans
+
+        if plan in recoat_plans(self.subsystem):
+            self.add_error("plan", (
+                f"\"{plan.name}\" is served by a new coating: log it on the mirror page "
+                f"({self.mirror.get_absolute_url()}), where its metal and overcoats start the reflectance fit again "
+                "and restart this plan. Logged here, the fit would go on from the old coating."))
+        elif plan in plans_a_cleaning_restarts(self.subsystem) and not method:
+            self.add_error("cleaning_method", (
+                f"\"{plan.name}\" cleans the mirror: say how it was cleaned, so that the cleaning goes on the mirror's "
+                "record and its reflectance fit counts the recovery."))
 
     def clean_performed_on(self):
         performed_on = self.cleaned_data["performed_on"]

@@ -5,6 +5,7 @@ import itertools
 from django.contrib import messages
 from django.core.exceptions import ValidationError
 from django.core.paginator import Paginator
+from django.db import transaction
 from django.db.models import F, Max, Min
 from django.http import StreamingHttpResponse
 from django.shortcuts import get_object_or_404, redirect, render
@@ -82,13 +83,21 @@ def service_log(request, pk):
             messages.info(request, already_logged_text(repeated.created_at.astimezone(site.zone), "This service work"))
             return redirect(subsystem)
         try:
-            services.service_record_log(
-                subsystem, data["plan"], data["performed_on"], request.user, data["summary"],
-                hours_spent=data["hours_spent"], findings=data["findings"], repaired_failure=data["repaired_failure"],
-            )
+            with transaction.atomic():
+                services.service_record_log(
+                    subsystem, data["plan"], data["performed_on"], request.user, data["summary"],
+                    hours_spent=data["hours_spent"], findings=data["findings"],
+                    repaired_failure=data["repaired_failure"],
+                )
+                if method := data.get("cleaning_method"):
+                    from observatory_ops.mirrors.services import cleaning_log  # the mirrors build on the logbook
+
+                    cleaning_log(form.mirror, request.user, data["performed_on"], method, note=data["summary"][:200])
         except ValidationError as exc:
             _form_errors_from(form, exc)
         else:
+            if data.get("cleaning_method"):
+                messages.info(request, "The cleaning is on the mirror's record: its reflectance fit counts it.")
             messages.success(request, "Service work logged" + (
                 f"; the plan '{data['plan'].name}' counts again from {data['performed_on']:%d %b %Y}."
                 if data["plan"] else " (ad hoc work: no plan's counting restarts)."
