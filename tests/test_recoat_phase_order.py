@@ -318,3 +318,25 @@ def test_no_other_order_waits_for_a_coating(recoat, users):
     removal = _issued(recoat["removal"], users)
     services.work_order_move(removal, "start", users["technician"])
     assert "finish" not in selectors.moves_held(_fresh(removal))
+
+
+def test_a_new_coating_is_not_logged_while_the_recoats_removal_is_not_finished(recoat, mirror, users, admin_client):
+    """A year's review logged the new coating while the removal waited for its lifting figures: the cleaning plan
+    restarted and came overdue while the old coating was still in, and the dusty weeks to the removal were charged to
+    the new one. Refused on the mirror page's service and in the admin until the removal is finished; an old coating
+    entered late (dated before the recoat was planned) is not this recoat's."""
+    from django.core.exceptions import ValidationError
+
+    today = site_today(mirror.subsystem.telescope.site)
+    with pytest.raises(ValidationError, match=f"the mirror's removal for its recoat, {recoat['removal'].number}, is "
+                                              "draft: the mirror is still in the telescope with its old coating"):
+        mirror_services.coating_log(mirror, users["technician"], today, "al", [])
+    assert CoatingEvent.objects.filter(mirror=mirror).count() == 1
+    from test_mirror_admin import _admin_post
+
+    response = _admin_post(admin_client, mirror, coatings=[{"coated_on": today.isoformat(), "metal": "al",
+                                                            "layers": "", "note": ""}])
+    assert response.status_code == 200 and "the mirror is still in the telescope" in response.content.decode()
+    assert CoatingEvent.objects.filter(mirror=mirror).count() == 1
+    mirror_services.coating_log(mirror, users["technician"], today - dt.timedelta(days=30), "al", [])  # entered late
+    assert CoatingEvent.objects.filter(mirror=mirror).count() == 2

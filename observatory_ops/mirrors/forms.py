@@ -278,6 +278,18 @@ class CoatingEventAdminForm(forms.ModelForm):
     def clean_layers(self) -> list[dict]:
         return layers_field_clean(self.cleaned_data["layers"])
 
+    def clean(self):
+        """A new coating is not logged while its recoat's removal is not finished (``coating_before_removal``), here as
+        on the mirror page."""
+        data = super().clean()
+        day, mirror_id = data.get("coated_on"), self.instance.mirror_id
+        if day is not None and mirror_id is not None and not self.instance.pk:
+            from .services import coating_before_removal
+
+            if problem := coating_before_removal(Mirror.objects.get(pk=mirror_id), day):
+                self.add_error("coated_on", problem[0].upper() + problem[1:] + ".")
+        return data
+
 
 class MirrorAdminForm(forms.ModelForm):
     """A mirror record is offered only the mirror subsystems (``TRAIN_KINDS``) in service that have none yet, and

@@ -1493,12 +1493,34 @@ def cleaning_log(
 
 
 def coating_log(mirror: Mirror, by, coated_on: dt.date, metal: str, layers: list[dict], note: str = "") -> CoatingEvent:
-    """A new coating: the decline starts again from it, and the mirror's recoat plans restart their counting."""
+    """A new coating: the decline starts again from it, and the mirror's recoat plans restart their counting. Refused
+    while a recoat in hand has not taken the mirror out (``coating_before_removal``)."""
     _check_date(mirror, coated_on, "coating date")
+    if problem := coating_before_removal(mirror, coated_on):
+        raise ValidationError(problem)
     with transaction.atomic():
         event = CoatingEvent.objects.create(mirror=mirror, coated_on=coated_on, metal=metal, layers=layers, note=note)
         coating_service_records_log(event, by)
     return event
+
+
+def coating_before_removal(mirror: Mirror, coated_on: dt.date) -> str:
+    """Why a coating of ``mirror`` dated ``coated_on`` is not logged yet, "" when it may be: a recoat in hand
+    (``recoat_in_hand``) whose removal is not finished still has the mirror in the telescope with its old coating. A
+    year's review logged the coating while the removal waited for its lifting figures: the cleaning plan restarted and
+    came overdue while the old coating was still in, and the dusty weeks to the removal were charged to the new one. A
+    coating dated before the recoat was planned and before its first day (an old one entered late) is not this
+    recoat's (``workorders.selectors.coating_unlogged`` takes the same day)."""
+    plan = recoat_in_hand(mirror)
+    zone = mirror.subsystem.telescope.site.zone
+    if plan is None or coated_on < min(plan.starts_on, timezone.localtime(plan.created_at, zone).date()):
+        return ""
+    removal = next((o for o in plan.work_orders.all() if o.recoat_phase == "removal"), None)
+    if removal is None or removal.state in (State.FINISHED, State.COUNTERSIGNED, State.WITHDRAWN):
+        return ""
+    return (f"the mirror's removal for its recoat, {removal.number}, is {removal.get_state_display()}: the mirror is "
+            "still in the telescope with its old coating. Log the new coating once the removal is finished and the "
+            "mirror has been coated")
 
 
 def recoat_plans(subsystem: Subsystem) -> list[ServicePlan]:
