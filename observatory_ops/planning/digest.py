@@ -42,9 +42,13 @@ def recipients(site: Site) -> list[str]:
 
 
 def due_digest(site: Site, today: dt.date, to: list[str]) -> EmailMessage | None:
-    """The digest message for ``site``, or None when nothing there is overdue or due."""
+    """The digest message for ``site``, or None when nothing there is overdue or due and no work order is late (drafted
+    or issued, its planned date passed: ``workorders.selectors.late_orders``, with what holds it)."""
+    from observatory_ops.workorders.selectors import late_orders  # the work orders build on planning
+
     rows = list(selectors.due_for_site(site))
-    if not rows:
+    late = late_orders(site, today)
+    if not rows and not late:
         return None
     overdue = [r for r in rows if r.status == "overdue"]
     due = [r for r in rows if r.status == "due"]
@@ -54,13 +58,15 @@ def due_digest(site: Site, today: dt.date, to: list[str]) -> EmailMessage | None
         "overdue": overdue,
         "due": due,
         "sections": [("OVERDUE", overdue), ("DUE", due)],
+        "late": late,
         "site_url": settings.SITE_URL,
         "dashboard_url": settings.SITE_URL + site.get_absolute_url(),
         "due_list_url": f"{settings.SITE_URL}{reverse('due-list')}?site={site.pk}",
     }
     # One line whatever the name holds (a name stored before ``validate_one_line``): a line break in a subject makes
     # the mail library refuse the message, and the site's digest would fail every hour.
-    subject = f"{' '.join(site.name.split())}: {len(overdue)} overdue, {len(due)} due ({today.isoformat()})"
+    orders = f", {len(late)} work order{'s' if len(late) != 1 else ''} late" if late else ""
+    subject = f"{' '.join(site.name.split())}: {len(overdue)} overdue, {len(due)} due{orders} ({today.isoformat()})"
     return EmailMessage(subject, render_to_string("planning/due_digest.txt", context), to=to)
 
 

@@ -69,11 +69,20 @@ def site_dashboard(request, slug):
             "parts_to_see_to": workorder_selectors.parts_low_or_short(site),
             "telescopes_out": workorder_selectors.telescopes_out([site]).values(),
             "downtime": downtime,
-            "open_work_orders": workorder_selectors.work_orders()
-            .filter(site=site, state__in=["draft", "issued", "underway", "finished"])
-            .order_by("planned_date")[:10],
+            "open_work_orders": _open_orders(site, today),
         },
     )
+
+
+def _open_orders(site, today) -> list:
+    """The dashboard's open work orders, the earliest planned first, each one late said so
+    (``workorders.selectors.late_orders``: how late, and what holds it)."""
+    late = {each.order.pk: each.text for each in workorder_selectors.late_orders(site, today)}
+    orders = list(workorder_selectors.work_orders().filter(site=site, state__in=["draft", "issued", "underway",
+                                                                                 "finished"]).order_by("planned_date")[:10])
+    for order in orders:
+        order.late = late.get(order.pk, "")
+    return orders
 
 
 @requires(VIEWER)

@@ -1505,6 +1505,32 @@ def crew_state(order: WorkOrder, shared: list[str] | None = None) -> Alongside:
     return Alongside(order, shared or [], ticked, bool(released), work_left, hands_back, points_locked)
 
 
+class LateOrder(NamedTuple):
+    """An order not yet started whose planned date has passed (``late_orders``), and what to say of it."""
+    order: WorkOrder
+    text: str
+
+
+def late_orders(site: Site, today: dt.date) -> list[LateOrder]:
+    """The site's orders drafted or issued whose planned date is before ``today``, oldest date first, each said with
+    how late it is and what holds its next move (``moves_held``: issuing a draft, starting an issued order). A year's
+    review found a draft held for a missing isolation point still listed in December for a planned date in January,
+    with nothing saying it was late or why, and the digest never naming it. The dashboard marks them; the digest lists
+    them."""
+    orders = (WorkOrder.objects.filter(site=site, state__in=(State.DRAFT, State.ISSUED), planned_date__lt=today)
+              .select_related("site").order_by("planned_date", "pk"))
+    late = []
+    for order in orders:
+        days = (today - order.planned_date).days
+        move = "issue" if order.state == State.DRAFT else "start"
+        held = moves_held(order).get(move, [])
+        done = "not issued" if move == "issue" else "not started"
+        why = f"; it cannot be {'issued' if move == 'issue' else 'started'}: {held[0]}" if held else ""
+        ago = f"{days} day{'s' if days != 1 else ''} ago"
+        late.append(LateOrder(order, f"late: planned {order.planned_date:%d %b %Y}, {ago}, {done}{why}"))
+    return late
+
+
 #: The printed notice of an order whose start is held (``start_held_notice``): title and what to do.
 START_HELD_TITLE = "NOT TO BE STARTED YET"
 START_HELD_TODO = ("Do not begin this work from the paper: the work order page shows when it may start. Ask the site "
