@@ -46,3 +46,31 @@ def test_an_order_on_time_or_started_is_not_late(order, users):  # noqa: F811
     services.work_order_move(order, "start", users["technician"])
     assert selectors.late_orders(site, today) == []
     assert not mail.outbox
+
+
+def test_a_recoat_past_its_last_day_with_orders_still_to_do_is_said_running_late(users, client, telescope):
+    """A year's review: on 31 Mar all four orders of a recoat planned for 15 to 26 Mar were still open, and the
+    dashboard said "Downtime planned: No recoat planned"."""
+    from conftest import mains_isolator
+
+    from observatory_ops.calc.windows import RECOAT_PHASES
+    from observatory_ops.mirrors import services as mirror_services
+    from observatory_ops.mirrors.models import Mirror
+    from observatory_ops.registry.models import Subsystem
+
+    primary = Subsystem.objects.create(telescope=telescope, kind="primary_mirror", name="Primary mirror")
+    mirror = Mirror.objects.create(subsystem=primary, diameter_mm=500, thickness_mm=50, hole_mm=120,
+                                   material="borosilicate", cell_mass_kg=30)
+    mains_isolator(telescope)
+    site = telescope.site
+    today = site_today(site)
+    plan = mirror_services.recoat_plan_create(mirror, today + dt.timedelta(days=3), list(RECOAT_PHASES), 3.5,
+                                              users["engineer"])
+    assert mirror_services.downtime_planned(site, today) == [plan]
+    later = plan.ends_on + dt.timedelta(days=4)  # its window over, its orders still drafts
+    assert mirror_services.downtime_planned(site, later) == [plan]
+    type(plan).objects.filter(pk=plan.pk).update(starts_on=today - dt.timedelta(days=20),
+                                                 ends_on=today - dt.timedelta(days=10))
+    client.force_login(users["viewer"])
+    page = client.get(site.get_absolute_url()).content.decode()
+    assert "Running late: its last planned day has passed and some of its work orders are still to do." in page

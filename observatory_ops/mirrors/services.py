@@ -16,7 +16,7 @@ from typing import NamedTuple
 import numpy as np
 from django.core.exceptions import ValidationError
 from django.db import transaction
-from django.db.models import F
+from django.db.models import F, Q
 from django.utils import timezone
 
 from observatory_ops.calc import coating, forecast, reflectance, windows
@@ -877,8 +877,10 @@ def recoat_in_hand_text(plan: RecoatPlan) -> str:
 
 def downtime_planned(site: Site, today: dt.date) -> list[RecoatPlan]:
     """The site's recoats going ahead and not yet over: each takes its telescope out of service from its first day to
-    its last (the dashboard's "Downtime planned")."""
-    return list(_recoats_going_ahead(site).filter(ends_on__gte=today))
+    its last (the dashboard's "Downtime planned"), and one whose last day has passed with an order of it still to do
+    (running late: a year's review read "No recoat planned" with all four orders of one still open)."""
+    still_to_do = Q(work_orders__state__in=(State.DRAFT, State.ISSUED, State.UNDERWAY))
+    return list(_recoats_going_ahead(site).filter(Q(ends_on__gte=today) | still_to_do).distinct())
 
 
 def _days_text(first: dt.date, last: dt.date) -> str:

@@ -51,6 +51,7 @@ def site_dashboard(request, slug):
     runs_over = mirror_services.runs_over_each_recoat(site, today, downtime)
     for plan in downtime:  # the booked runs on its nights, under it
         plan.runs_over = runs_over.get(plan.pk, [])
+        plan.running_late = plan.ends_on < today
     return render(
         request,
         "registry/site_dashboard.html",
