@@ -248,3 +248,21 @@ def test_kept_data_and_yes_or_no_read_in_words_and_the_csv_keeps_json():
     assert _shown(WorkOrder, "crew", [], utc) == ("none", "[]")
     assert _shown(WorkOrder, "crew", ["Ana Reyes", "a visitor"], utc)[0] == "Ana Reyes; a visitor"
     assert _shown(WorkOrder, "crew_by_account", True, utc) == ("yes", "True")
+
+
+def test_a_day_reads_as_the_pages_write_it_and_a_long_records_change_shows_its_changed_parts(
+    denver, named, users, client
+):
+    """A year's review read "planned date: 2027-03-18 -> 2027-04-07" (ISO, where every other date reads "07 Apr 2027")
+    and "lift inputs: ... fixture k... -> ... fixture k..." (the working load limit entered cut off the end of both):
+    a day reads as the pages write it, and a record kept as data shows the parts that changed. The CSV keeps ISO
+    days and the whole records."""
+    from observatory_ops.archive.history import _shown, _what_changed
+
+    utc = ZoneInfo("UTC")
+    assert _shown(Site, "digest_sent_on", dt.date(2027, 4, 7), utc) == ("07 Apr 2027", "2027-04-07")
+    before = {"diameter_mm": 500, "thickness_mm": 80, "material": "borosilicate", "fixture_kg": 25, "legs": 2,
+              "angle_deg": 60, "wll_kg": None}
+    after = {**before, "wll_kg": 1000}
+    assert _what_changed(before, after) == ({"wll_kg": None}, {"wll_kg": 1000})
+    assert _what_changed([1], [1, 2]) == ([1], [1, 2])
