@@ -528,3 +528,21 @@ def test_a_service_after_a_reading_within_its_limit_asks_nothing_more(db, users)
                                  performed_by=by, summary="Drive tuned", created_by=by)
     services.site_recompute(site, TODAY)  # the plan's one trigger has no reading to go on: no due state
     assert not PlanStatus.objects.filter(plan=plan, reason__contains="no reading since the last service").exists()
+
+
+def test_two_plans_watching_one_quantity_each_read_the_reading_before_their_own_service(db, users):
+    """A diff review: the last reading before a service was kept per subsystem and quantity, so a second plan
+    watching the same quantity took the other's service day, and a plan never serviced was said to have one."""
+    from observatory_ops.logbook.models import ServiceRecord
+
+    noon = [dt.datetime.combine(TODAY - dt.timedelta(days=20), dt.time(12), tzinfo=dt.UTC)]
+    site, first = _drive_with_readings(users, "UTC", [(noon[0], 1.2)], TODAY - dt.timedelta(days=60))
+    second = _plan(first.subsystem, "settle again", [], TODAY - dt.timedelta(days=60))
+    Trigger.objects.create(plan=second, metric="reading", limit=1.0, quantity="settle_time_s")
+    by = users["technician"]
+    ServiceRecord.objects.create(subsystem=second.subsystem, plan=second, performed_on=TODAY - dt.timedelta(days=10),
+                                 performed_by=by, summary="Tuned", created_by=by)
+    services.site_recompute(site, TODAY)
+    assert "no reading since the last service" not in PlanStatus.objects.get(plan=first).reason  # never serviced
+    assert (f"no reading since the last service ({TODAY - dt.timedelta(days=10):%d %b %Y})"
+            in PlanStatus.objects.get(plan=second).reason)

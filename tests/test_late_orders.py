@@ -74,3 +74,18 @@ def test_a_recoat_past_its_last_day_with_orders_still_to_do_is_said_running_late
     client.force_login(users["viewer"])
     page = client.get(site.get_absolute_url()).content.decode()
     assert "Running late: its last planned day has passed and some of its work orders are still to do." in page
+
+
+def test_only_the_first_late_orders_are_read_for_what_holds_them(order, users, monkeypatch):  # noqa: F811
+    """About five queries an order: a site of hundreds of forgotten drafts would cost its dashboard a thousand (a diff
+    review). Beyond ``LATE_ORDERS_SAID`` they are said late without what holds them, and the digest counts them."""
+    site = order.site
+    today = site_today(site)
+    monkeypatch.setattr(selectors, "LATE_ORDERS_SAID", 1)
+    second = services.work_order_from_due(list(order.items.first().plan.subsystem.plans.all()), users["engineer"],
+                                          PLANNED)
+    IsolationPoint.objects.filter(telescope=order.telescope).delete()
+    first, other = selectors.late_orders(site, today)
+    assert "it cannot be issued" in first.text and other.text.endswith("ago, not issued")
+    message = due_digest(site, today, ["engineer@example.org"])
+    assert "... and 1 more late: " in message.body and second.number not in message.body

@@ -514,3 +514,24 @@ def test_a_recoat_plan_is_not_served_on_the_subsystem_page(mirror, users, client
     assert response.status_code == 200
     assert "is served by a new coating: log it on the mirror page" in html.unescape(response.content.decode())
     assert not ServiceRecord.objects.filter(plan=_recoat_plan(mirror)).exists()
+
+
+def test_a_cleaning_already_on_the_mirrors_record_that_day_is_not_logged_again_from_the_service_form(
+    mirror, users, client
+):
+    """A diff review logged a cleaning on the mirror page, then the cleaning plan's service of the same day with its
+    method: the fit saw two cleanings. The service is logged; the cleaning is not, and the page says so."""
+    cleaning_plan = services.plans_a_cleaning_restarts(mirror.subsystem)[0]
+    day = _today(mirror) - dt.timedelta(days=1)
+    services.cleaning_log(mirror, users["technician"], day, "co2_snow")
+    client.force_login(users["technician"])
+    url = f"/subsystems/{mirror.subsystem_id}/service/new/"
+    sent = {"plan": cleaning_plan.pk, "performed_on": day.isoformat(), "summary": "CO2 snow",
+            "cleaning_method": "co2_snow"}
+    asked = client.post(url, sent).content.decode()  # the plan's service of that day is there: a second one?
+    assert "is this a second one?" in html.unescape(asked)
+    token = re.search(r'name="questioned" value="([^"]*)"', asked).group(1)
+    response = client.post(url, {**sent, "value_confirmed": "on", "questioned": token}, follow=True)
+    assert CleaningEvent.objects.filter(mirror=mirror, cleaned_on=day).count() == 1
+    said = " ".join(str(m) for m in get_messages(response.wsgi_request))
+    assert "was already on the mirror's record: it was not logged twice" in said

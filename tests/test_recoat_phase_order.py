@@ -17,6 +17,7 @@ import re
 import pytest
 from conftest import mains_isolator, new_coating_logged
 from django.contrib.messages import get_messages
+from django.utils import timezone
 from pypdf import PdfReader
 from test_recoat_phases import slings_rated
 from test_workorders import _confirmed, _finish_confirmations
@@ -340,3 +341,22 @@ def test_a_new_coating_is_not_logged_while_the_recoats_removal_is_not_finished(r
     assert CoatingEvent.objects.filter(mirror=mirror).count() == 1
     mirror_services.coating_log(mirror, users["technician"], today - dt.timedelta(days=30), "al", [])  # entered late
     assert CoatingEvent.objects.filter(mirror=mirror).count() == 2
+
+
+def test_a_coating_is_not_dated_before_the_mirror_came_out(recoat, mirror, users):
+    """A diff review finished the removal today and logged a coating dated ten days before: the mirror was still in
+    the telescope then."""
+    from django.core.exceptions import ValidationError
+
+    from observatory_ops.logbook.models import ServiceRecord
+
+    removal = recoat["removal"]
+    WorkOrder.objects.filter(pk=removal.pk).update(state="finished", finished_at=timezone.now())
+    today = site_today(mirror.subsystem.telescope.site)
+    ServiceRecord.objects.create(subsystem=mirror.subsystem, performed_on=today, performed_by=users["technician"],
+                                 summary="Removal", created_by=users["technician"], work_order=removal)
+    type(removal.recoat_plans.first()).objects.filter(pk=removal.recoat_plans.first().pk).update(
+        starts_on=today - dt.timedelta(days=20))
+    with pytest.raises(ValidationError, match=f"the mirror came out of the telescope on {today:%d %b %Y}"):
+        mirror_services.coating_log(mirror, users["technician"], today - dt.timedelta(days=10), "al", [])
+    mirror_services.coating_log(mirror, users["technician"], today, "al", [])

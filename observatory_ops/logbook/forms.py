@@ -78,8 +78,9 @@ class ServiceRecordForm(QuestionedValueMixin, forms.Form):
             self.fields["cleaning_method"] = forms.ChoiceField(
                 required=False, label="Mirror cleaning in this work",
                 choices=[("", "the mirror was not cleaned"), *CleaningEvent.Method.choices],
-                help_text="How the mirror was cleaned, if it was: the cleaning goes on the mirror's record, whose "
-                "reflectance fit counts its recovery. A cleaning plan's service asks it.",
+                help_text="How the mirror was cleaned, if it was (in any work on it): the cleaning goes on the "
+                "mirror's record, whose reflectance fit counts its recovery, once a day. A cleaning plan's service "
+                "must say it.",
             )
             self.order_fields(["plan", "performed_on", "cleaning_method"])
 

@@ -89,14 +89,21 @@ def service_log(request, pk):
                     hours_spent=data["hours_spent"], findings=data["findings"],
                     repaired_failure=data["repaired_failure"],
                 )
-                if method := data.get("cleaning_method"):
+                method = data.get("cleaning_method")
+                # Once a day on the mirror's record: a cleaning logged on the mirror page first is not logged again
+                # (a diff review: the fit then saw two).
+                cleaned = method and form.mirror.cleanings.filter(cleaned_on=data["performed_on"]).exists()
+                if method and not cleaned:
                     from observatory_ops.mirrors.services import cleaning_log  # the mirrors build on the logbook
 
                     cleaning_log(form.mirror, request.user, data["performed_on"], method, note=data["summary"][:200])
         except ValidationError as exc:
             _form_errors_from(form, exc)
         else:
-            if data.get("cleaning_method"):
+            if cleaned:
+                messages.info(request, f"A cleaning of {data['performed_on']:%d %b %Y} was already on the mirror's "
+                                       "record: it was not logged twice.")
+            elif method:
                 messages.info(request, "The cleaning is on the mirror's record: its reflectance fit counts it.")
             messages.success(request, "Service work logged" + (
                 f"; the plan '{data['plan'].name}' counts again from {data['performed_on']:%d %b %Y}."

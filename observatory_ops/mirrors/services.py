@@ -1518,8 +1518,17 @@ def coating_before_removal(mirror: Mirror, coated_on: dt.date) -> str:
     if plan is None or coated_on < min(plan.starts_on, timezone.localtime(plan.created_at, zone).date()):
         return ""
     removal = next((o for o in plan.work_orders.all() if o.recoat_phase == "removal"), None)
-    if removal is None or removal.state in (State.FINISHED, State.COUNTERSIGNED, State.WITHDRAWN):
+    if removal is None or removal.state == State.WITHDRAWN:
         return ""
+    if removal.state in (State.FINISHED, State.COUNTERSIGNED):
+        # Finished: the mirror came out on the day its work was done (a diff review dated a coating ten days before).
+        out_on = removal.finished_at.astimezone(zone).date() if removal.finished_at else None
+        done = ServiceRecord.objects.filter(work_order=removal).order_by("performed_on").values_list(
+            "performed_on", flat=True).first() or out_on
+        if done is None or coated_on >= done:
+            return ""
+        return (f"the mirror came out of the telescope on {done:%d %b %Y} ({removal.number}, its removal): a coating "
+                f"of this recoat is dated on or after that day, not {coated_on:%d %b %Y}")
     return (f"the mirror's removal for its recoat, {removal.number}, is {removal.get_state_display()}: the mirror is "
             "still in the telescope with its old coating. Log the new coating once the removal is finished and the "
             "mirror has been coated")

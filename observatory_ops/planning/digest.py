@@ -44,7 +44,7 @@ def recipients(site: Site) -> list[str]:
 def due_digest(site: Site, today: dt.date, to: list[str]) -> EmailMessage | None:
     """The digest message for ``site``, or None when nothing there is overdue or due and no work order is late (drafted
     or issued, its planned date passed: ``workorders.selectors.late_orders``, with what holds it)."""
-    from observatory_ops.workorders.selectors import late_orders  # the work orders build on planning
+    from observatory_ops.workorders.selectors import LATE_ORDERS_SAID, late_orders  # work orders build on planning
 
     rows = list(selectors.due_for_site(site))
     late = late_orders(site, today)
@@ -58,7 +58,9 @@ def due_digest(site: Site, today: dt.date, to: list[str]) -> EmailMessage | None
         "overdue": overdue,
         "due": due,
         "sections": [("OVERDUE", overdue), ("DUE", due)],
-        "late": late,
+        "late": late[:LATE_ORDERS_SAID],
+        "late_more": len(late) - LATE_ORDERS_SAID,
+        "orders_url": f"{settings.SITE_URL}{reverse('workorder-list')}?site={site.pk}",
         "site_url": settings.SITE_URL,
         "dashboard_url": settings.SITE_URL + site.get_absolute_url(),
         "due_list_url": f"{settings.SITE_URL}{reverse('due-list')}?site={site.pk}",

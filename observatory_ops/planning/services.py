@@ -626,9 +626,15 @@ def _site_recompute(site: Site, today: dt.date) -> int:
     baselines = {p.pk: last_service.get(p.pk, p.counting_from) for p in plans}
     unknown = {p.pk for p in plans if not p.counting_from_given and p.pk not in last_service}
     readings = _readings_by_subsystem_quantity(site, plans, triggers_of, baselines)
+    def readings_of(plan: _Plan, trig) -> list[tuple[dt.datetime, float]]:
+        """The readings of what ``trig`` watches since ``plan``'s own baseline (two plans may watch one quantity from
+        different services)."""
+        return [r for r in readings.get((plan.subsystem_id, trig.quantity), [])
+                if r[0].astimezone(site.zone).date() >= baselines[plan.pk]]
+
     unconfirmed = _last_readings_before(site, [
         (p.subsystem_id, t.quantity, baselines[p.pk]) for p in plans for t in triggers_of[p.pk]
-        if t.metric == metrics.READING and p.pk in last_service and (p.subsystem_id, t.quantity) not in readings
+        if t.metric == metrics.READING and p.pk in last_service and not readings_of(p, t)
     ])
 
     downtime = _downtime_by_telescope(site)
@@ -648,9 +654,9 @@ def _site_recompute(site: Site, today: dt.date) -> int:
             elif trig.metric == metrics.READING:
                 since = (f"the last service ({baselines[plan.pk]:%d %b %Y})" if plan.pk in last_service
                          else f"the plan's start ({baselines[plan.pk]:%d %b %Y})")
-                state = _reading_state(trig, readings.get((plan.subsystem_id, trig.quantity), []), today, site.zone,
-                                       since)
-                if state is None and (before := unconfirmed.get((plan.subsystem_id, trig.quantity))):
+                state = _reading_state(trig, readings_of(plan, trig), today, site.zone, since)
+                if state is None and plan.pk in last_service and (
+                        before := unconfirmed.get((plan.subsystem_id, trig.quantity, baselines[plan.pk]))):
                     state = _unconfirmed_state(trig, before, baselines[plan.pk], site.zone)
                 if state:
                     states[plan.pk].append(state)
@@ -854,13 +860,15 @@ def _calendar_state(trig, baseline: dt.date, today: dt.date) -> TriggerState:
 def _readings_by_subsystem_quantity(
     site: Site, plans, triggers_of, baselines
 ) -> dict[tuple[int, str], list[tuple[dt.datetime, float]]]:
-    """Readings since each plan's baseline for every (subsystem, quantity) a condition trigger watches."""
-    wanted = {
-        (p.subsystem_id, t.quantity): baselines[p.pk]
-        for p in plans
-        for t in triggers_of[p.pk]
-        if t.metric == metrics.READING
-    }
+    """Readings since the earliest baseline of the plans watching each (subsystem, quantity) a condition trigger
+    watches; each plan keeps those since its own (``_site_recompute``'s ``readings_of``). Keyed by the last plan's
+    baseline, a plan serviced earlier lost its own readings (a diff review)."""
+    wanted: dict[tuple[int, str], dt.date] = {}
+    for p in plans:
+        for t in triggers_of[p.pk]:
+            if t.metric == metrics.READING:
+                key = (p.subsystem_id, t.quantity)
+                wanted[key] = min(wanted.get(key, baselines[p.pk]), baselines[p.pk])
     if not wanted:
         return {}
     quantities = {q for _, q in wanted}
@@ -878,22 +886,20 @@ def _readings_by_subsystem_quantity(
     return out
 
 
-def _last_readings_before(site: Site, wanted: list[tuple[int, str, dt.date]]) -> dict[tuple[int, str], tuple]:
+def _last_readings_before(site: Site, wanted: list[tuple[int, str, dt.date]]) -> dict[tuple[int, str, dt.date], tuple]:
     """The newest reading (moment, value) of each (subsystem, quantity, baseline day) of ``wanted`` taken before the
-    baseline's local midnight: for a plan serviced since its last reading (``_unconfirmed_state``). One query, only
-    when some plan has no reading since its service."""
-    if not wanted:
-        return {}
+    baseline's local midnight: for a plan serviced since its last reading (``_unconfirmed_state``). Keyed by the
+    baseline too: two plans watching one quantity from different services each get their own. One query a key, the
+    newest row only (never the whole history), and only for plans with no reading since their service."""
     zone = site.zone
-    before = {(sub, quantity): dt.datetime.combine(day, dt.time(), tzinfo=zone) for sub, quantity, day in wanted}
-    out: dict[tuple[int, str], tuple] = {}
-    for sub_id, quantity, taken_at, value in Reading.objects.filter(
-        subsystem_id__in={sub for sub, _ in before}, quantity__in={q for _, q in before}, withdrawn_at__isnull=True,
-        taken_at__lt=max(before.values()),
-    ).order_by("taken_at").values_list("subsystem_id", "quantity", "taken_at", "value"):
-        key = (sub_id, quantity)
-        if key in before and taken_at < before[key]:
-            out[key] = (taken_at, value)  # the newest, read last
+    out: dict[tuple[int, str, dt.date], tuple] = {}
+    for key in dict.fromkeys(wanted):
+        sub_id, quantity, day = key
+        newest = (Reading.objects.filter(subsystem_id=sub_id, quantity=quantity, withdrawn_at__isnull=True,
+                                         taken_at__lt=dt.datetime.combine(day, dt.time(), tzinfo=zone))
+                  .order_by("-taken_at").values_list("taken_at", "value").first())
+        if newest is not None:
+            out[key] = newest
     return out
 
 
@@ -940,8 +946,9 @@ ALL_OUT = "all telescopes"
 def _downtime_by_telescope(site: Site) -> dict[int, list[Downtime]]:
     """The site's telescopes out of service for a recoat in hand, each with its downtimes, in one query: the recoat's
     days while an order of it is drafted, issued or underway and none is withdrawn (a withdrawn one stops the
-    recoat), its past days too (unlogged nights are counted from the first of them, ``_without_downtime``), and a
-    recoat running late still takes its telescope out until its last order is finished."""
+    recoat), its past days too (unlogged nights are counted from the first of them, ``_without_downtime``). A recoat
+    running late takes out only its planned days: the dashboard says it is late (``mirrors.services.downtime_planned``),
+    and nights its telescope is out after them are logged with 0 open hours."""
     from observatory_ops.mirrors.models import RecoatPlan  # mirrors builds on planning
     from observatory_ops.workorders.models import State  # work orders build on planning
 
