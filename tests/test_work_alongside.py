@@ -429,3 +429,17 @@ def test_a_crew_with_a_point_ticked_as_locked_holds_the_other_crew_before_its_lo
     assert [a.order for a in services.still_locked_out(fans_order)] == [drive_order]
     assert "an isolation point of its own is ticked as locked: its crew's locks are going on" in (
         services.still_locked_out(fans_order)[0].text(drive_order.site.zone))
+
+
+def test_a_withdrawal_refused_for_locks_on_says_only_that(order, users, client):  # noqa: F811
+    """The demo walk: an order with a point ticked said what withdrawing would do to the hand-back, then that it may
+    not be withdrawn; only the refusal is said while it stands."""
+    drive_order = _issued(order, users)
+    services.work_order_move(drive_order, "start", users["technician"])
+    drive_order = WorkOrder.objects.get(pk=drive_order.pk)
+    _powered_first(users, drive_order)
+    services.checklist_tick_set(drive_order, "point", selectors.checklist(drive_order).points[0].key, True,
+                                users["technician"])
+    client.force_login(users["engineer"])
+    page = client.get(f"/workorders/{drive_order.pk}/").content.decode()
+    assert 'id="withdraw-waits"' in page and 'id="withdraw-hand-back"' not in page
