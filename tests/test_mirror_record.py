@@ -451,7 +451,8 @@ def test_a_measurement_taken_before_that_days_cleaning_is_fitted_before_it(mirro
     """A traceability review: a reflectance measured the morning before a cleaning was counted after it, which moved
     the fit. Marked "Measured before that day's cleaning", it counts before the cleaning: the five points of the
     model above and a sixth on the cleaning day, taken before it (its value has no recovery in it), then fit the model
-    exactly again (f = 0.5); counted after the cleaning, the same sixth point would not."""
+    exactly again (f = 0.5); counted after the cleaning, the same sixth point would not. The points are written by hand
+    from the model; the fit itself is checked against scipy's curve_fit in tests/test_calc_reflectance.py."""
     today = _today(mirror)
     coated = today - dt.timedelta(days=55)
     CoatingEvent.objects.create(mirror=mirror, coated_on=coated, metal="al")

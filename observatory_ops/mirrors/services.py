@@ -49,6 +49,7 @@ from observatory_ops.registry.models import Site, Subsystem, Telescope
 from observatory_ops.registry.selectors import crew_days_off
 from observatory_ops.workorders.cautions import HAZARDS
 from observatory_ops.workorders.models import RequiredReading, State, WorkOrder, WorkOrderItem
+from observatory_ops.workorders.selectors import work_done_on
 from observatory_ops.workorders.services import brake_air_back, steps_in_groups
 
 from .models import TRAIN_KINDS, CleaningEvent, CoatingEvent, Mirror, RecoatPlan, ReflectanceMeasurement
@@ -1522,9 +1523,7 @@ def coating_before_removal(mirror: Mirror, coated_on: dt.date) -> str:
         return ""
     if removal.state in (State.FINISHED, State.COUNTERSIGNED):
         # Finished: the mirror came out on the day its work was done (a diff review dated a coating ten days before).
-        out_on = removal.finished_at.astimezone(zone).date() if removal.finished_at else None
-        done = ServiceRecord.objects.filter(work_order=removal).order_by("performed_on").values_list(
-            "performed_on", flat=True).first() or out_on
+        done = work_done_on(removal) or (removal.finished_at.astimezone(zone).date() if removal.finished_at else None)
         if done is None or coated_on >= done:
             return ""
         return (f"the mirror came out of the telescope on {done:%d %b %Y} ({removal.number}, its removal): a coating "

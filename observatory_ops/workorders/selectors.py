@@ -1529,8 +1529,8 @@ def late_orders(site: Site, today: dt.date) -> list[LateOrder]:
         days = (today - order.planned_date).days
         move = "issue" if order.state == State.DRAFT else "start"
         held = moves_held(order).get(move, []) if index < LATE_ORDERS_SAID else []
-        done = "not issued" if move == "issue" else "not started"
-        why = f"; it cannot be {'issued' if move == 'issue' else 'started'}: {held[0]}" if held else ""
+        verb = "issued" if move == "issue" else "started"
+        done, why = f"not {verb}", (f"; it cannot be {verb}: {held[0]}" if held else "")
         ago = f"{days} day{'s' if days != 1 else ''} ago"
         late.append(LateOrder(order, f"late: planned {order.planned_date:%d %b %Y}, {ago}, {done}{why}"))
     return late
