@@ -142,3 +142,88 @@ def test_an_enclosure_all_telescopes_share_expects_no_use_only_on_the_nights_all
             "and B40: Primary mirror "
             f"({both[0]:%d %b %Y} to {both[1]:%d %b %Y}): every telescope of the site is out of service, so the "
             "enclosure they share is not opened") in status.basis
+
+
+def _edited(client, order, planned: dt.date) -> None:
+    """``order``'s planned date changed on its edit page, as the engineer does, its other fields as they stand."""
+    from django.urls import reverse
+
+    from observatory_ops.workorders.forms import WorkOrderEditForm
+
+    form = WorkOrderEditForm(instance=order)
+    data = {name: "" if value is None else value for name, value in form.initial.items() if name in form.fields}
+    data["planned_date"] = planned.isoformat()
+    response = client.post(reverse("workorder-edit", args=[order.pk]), data)
+    assert response.status_code == 302, response.content.decode()[:2000]
+
+
+def test_a_recoat_put_off_by_re_dating_its_orders_takes_its_telescope_out_on_the_new_days(scene, users, client):
+    """A year's review: a recoat put off by moving its work orders kept its planned nights in the forecasts, the
+    telescope counted out while it worked and in service while its mirror was away. None of its orders begun, its
+    nights follow its orders: the first day of the first to the last day of the last (its planned date and its
+    phase's planned length). Hand count as above."""
+    site, today, plan, mirror = scene
+    recoat = mirror_services.recoat_plan_create(mirror, today + dt.timedelta(days=3), list(RECOAT_PHASES), 10.0,
+                                                users["engineer"])
+    client.force_login(users["engineer"])
+    shift = dt.timedelta(days=28)
+    for order in sorted(recoat.work_orders.all(), key=lambda o: -o.pk):  # the last first: the phases keep their order
+        _edited(client, order, order.planned_date + shift)
+    moved = (recoat.starts_on + shift, recoat.ends_on + shift)
+    status = PlanStatus.objects.get(plan=plan)
+    assert status.forecast_date == _reached(today, moved) != _reached(today, (recoat.starts_on, recoat.ends_on))
+    assert (f"({moved[0]:%d %b %Y} to {moved[1]:%d %b %Y}; planned {recoat.starts_on:%d %b %Y} to "
+            f"{recoat.ends_on:%d %b %Y}, now as its work orders are dated): the telescope is out of service"
+            in status.basis)
+    page = client.get(site.get_absolute_url()).content.decode()
+    assert f"out of service {moved[0]:%d %b %Y} to {moved[1]:%d %b %Y}" in page and "Running late" not in page
+
+
+def test_a_recoat_begun_and_running_on_keeps_its_telescope_out_to_its_last_phase_as_now_dated(scene, users):
+    """Its removal begun, its realignment re-dated a fortnight later: the telescope is out from the recoat's first day
+    to the realignment's new last day (its new date and its three planned days)."""
+    from observatory_ops.workorders.models import State, WorkOrder
+
+    site, today, plan, mirror = scene
+    recoat = mirror_services.recoat_plan_create(mirror, today + dt.timedelta(days=3), list(RECOAT_PHASES), 10.0,
+                                                users["engineer"])
+    orders = {o.recoat_phase: o for o in recoat.work_orders.all()}
+    WorkOrder.objects.filter(pk=orders["removal"].pk).update(state=State.UNDERWAY)
+    later = orders["realignment"].planned_date + dt.timedelta(days=14)
+    WorkOrder.objects.filter(pk=orders["realignment"].pk).update(planned_date=later)
+    services.site_recompute(site)
+    realignment = next(p for p in recoat.phases if p["name"] == "realignment and measurement")
+    length = (dt.date.fromisoformat(realignment["last"]) - dt.date.fromisoformat(realignment["first"])).days
+    out = (recoat.starts_on, later + dt.timedelta(days=length))
+    assert out[1] > recoat.ends_on
+    assert PlanStatus.objects.get(plan=plan).forecast_date == _reached(today, out)
+
+
+def test_a_mirror_out_with_its_reinstall_late_keeps_its_telescope_out_up_to_today(scene, users, client):
+    """The recoat's days all passed, its removal finished and its reinstall still to do (late): the mirror is out, so
+    the unlogged nights up to today count no use (they had counted as used once the planned days were over); from the
+    next night on the forecast expects use again, and the dashboard asks for the reinstall's new day."""
+    from django.utils import timezone
+
+    from observatory_ops.workorders.models import State, WorkOrder
+
+    site, today, plan, mirror = scene
+    NightUsage.objects.filter(site=site, night__gte=today - dt.timedelta(days=10)).delete()
+    ServicePlan.objects.filter(pk=plan.pk).update(counting_from=today - dt.timedelta(days=20))
+    first_unlogged = today - dt.timedelta(days=10)
+    recoat = mirror_services.recoat_plan_create(mirror, today - dt.timedelta(days=30), list(RECOAT_PHASES), 10.0,
+                                                users["engineer"])
+    assert recoat.ends_on < today - dt.timedelta(days=10)  # its planned days all before the unlogged nights
+    services.site_recompute(site)
+    assert PlanStatus.objects.get(plan=plan).forecast_date == max(_reached(first_unlogged, None), today)
+
+    orders = {o.recoat_phase: o for o in recoat.work_orders.all()}
+    WorkOrder.objects.filter(pk=orders["removal"].pk).update(state=State.FINISHED, finished_at=timezone.now())
+    services.site_recompute(site)
+    status = PlanStatus.objects.get(plan=plan)
+    assert status.forecast_date == max(_reached(first_unlogged, (first_unlogged, today)), today)
+    assert (f"its mirror is out and its reinstall {orders['reinstall'].number} planned for "
+            f"{orders['reinstall'].planned_date:%d %b %Y} is late: out of service up to today" in status.basis)
+    client.force_login(users["viewer"])
+    page = client.get(site.get_absolute_url()).content.decode()
+    assert "Its mirror is out, so the forecasts count its telescope out of service up to today" in page

@@ -69,11 +69,16 @@ def test_a_recoat_past_its_last_day_with_orders_still_to_do_is_said_running_late
     assert mirror_services.downtime_planned(site, today) == [plan]
     later = plan.ends_on + dt.timedelta(days=4)  # its window over, its orders still drafts
     assert mirror_services.downtime_planned(site, later) == [plan]
-    type(plan).objects.filter(pk=plan.pk).update(starts_on=today - dt.timedelta(days=20),
-                                                 ends_on=today - dt.timedelta(days=10))
+    # Time passes: the window and its orders' days are three weeks back, the orders still drafts.
+    back = plan.starts_on - (today - dt.timedelta(days=20))
+    type(plan).objects.filter(pk=plan.pk).update(starts_on=plan.starts_on - back, ends_on=plan.ends_on - back)
+    for phase_order in plan.work_orders.all():
+        type(phase_order).objects.filter(pk=phase_order.pk).update(planned_date=phase_order.planned_date - back)
     client.force_login(users["viewer"])
     page = client.get(site.get_absolute_url()).content.decode()
-    assert "Running late: its last planned day has passed and some of its work orders are still to do." in page
+    assert ("Running late: the days its work orders are planned for have passed and some of them are still to do."
+            in page)
+    assert "Its mirror is not out, so the forecasts count its telescope in service" in page
 
 
 def test_only_the_first_late_orders_are_read_for_what_holds_them(order, users, monkeypatch):  # noqa: F811

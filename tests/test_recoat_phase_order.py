@@ -342,6 +342,24 @@ def test_a_new_coating_is_not_logged_while_the_recoats_removal_is_not_finished(r
     mirror_services.coating_log(mirror, users["technician"], today - dt.timedelta(days=30), "al", [])  # entered late
     assert CoatingEvent.objects.filter(mirror=mirror).count() == 2
 
+    # A stored coating re-dated in the admin to a day of the recoat is refused alike (the last notes left it).
+    late = CoatingEvent.objects.get(mirror=mirror, coated_on=today - dt.timedelta(days=30))
+    page = admin_client.get(f"/admin/mirrors/mirror/{mirror.pk}/change/")
+    data = {name: ("" if value is None else value) for name, value in page.context["adminform"].form.initial.items()}
+    data["subsystem"] = mirror.subsystem_id
+    for formset in page.context["inline_admin_formsets"]:
+        rows = formset.formset
+        data.update({f"{rows.prefix}-{k}": v for k, v in rows.management_form.initial.items()})
+        for form in rows.forms[:rows.initial_form_count()]:
+            data.update({form.add_prefix(k): ("" if v is None else v) for k, v in form.initial.items()})
+            data.update({form.add_prefix("id"): form.instance.pk, form.add_prefix("mirror"): mirror.pk})
+            if form.instance.pk == late.pk:
+                data[form.add_prefix("coated_on")] = today.isoformat()
+    response = admin_client.post(f"/admin/mirrors/mirror/{mirror.pk}/change/", data)
+    assert response.status_code == 200 and "the mirror is still in the telescope" in response.content.decode()
+    late.refresh_from_db()
+    assert late.coated_on == today - dt.timedelta(days=30)
+
 
 def test_a_coating_is_not_dated_before_the_mirror_came_out(recoat, mirror, users):
     """A diff review finished the removal today and logged a coating dated ten days before: the mirror was still in

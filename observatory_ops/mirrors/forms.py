@@ -280,10 +280,10 @@ class CoatingEventAdminForm(forms.ModelForm):
 
     def clean(self):
         """A new coating is not logged while its recoat's removal is not finished (``coating_before_removal``), here as
-        on the mirror page."""
+        on the mirror page; nor is a stored one re-dated so (the same check, on its changed date)."""
         data = super().clean()
         day, mirror_id = data.get("coated_on"), self.instance.mirror_id
-        if day is not None and mirror_id is not None and not self.instance.pk:
+        if day is not None and mirror_id is not None and (not self.instance.pk or "coated_on" in self.changed_data):
             from .services import coating_before_removal
 
             if problem := coating_before_removal(Mirror.objects.get(pk=mirror_id), day):

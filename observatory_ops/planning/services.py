@@ -637,7 +637,7 @@ def _site_recompute(site: Site, today: dt.date) -> int:
         if t.metric == metrics.READING and p.pk in last_service and not readings_of(p, t)
     ])
 
-    downtime = _downtime_by_telescope(site)
+    downtime = _downtime_by_telescope(site, today)
     if downtime and any(p.whole_site for p in plans):
         downtime[ALL_OUT] = _all_out(downtime, list(site.telescopes.values_list("pk", flat=True)))
     states: dict[int, list[TriggerState]] = {p.pk: [] for p in plans}
@@ -925,44 +925,106 @@ def _unconfirmed_state(trig, before: tuple[dt.datetime, float], serviced: dt.dat
 @dataclass(frozen=True)
 class Downtime:
     """A telescope out of service on coming nights, for a recoat in hand (``mirrors.services.recoat_in_hand``: going
-    ahead, some order of it not finished): its counters expect no use on ``first`` to ``last``, both counted. Also the
-    nights every telescope of a site is out, for the enclosure they share (``_all_out``), with its own ``out``."""
+    ahead, some order of it not finished): its counters expect no use on ``first`` to ``last``, both counted
+    (``recoat_downtime``: its planned days, as its work orders now stand). Also the nights every telescope of a site is
+    out, for the enclosure they share (``_all_out``), with its own ``out``. ``changed``: why the nights differ from
+    the recoat's planned days ("" when they do not)."""
 
     first: dt.date
     last: dt.date
     what: str  # "the planned recoat of T70: Primary mirror"
     out: str = "the telescope is out of service"
+    changed: str = ""
+    late: bool = False  # its days as its orders are dated have passed, some of its work still to do
+    mirror_out: bool = False  # its removal finished, its reinstall not
+
+    @property
+    def nights(self) -> int:
+        return (self.last - self.first).days + 1
 
     def basis(self, nights: int) -> str:
         """What a counter's basis says of it, ``nights`` of it from the forecast's first night on."""
+        changed = f"; {self.changed}" if self.changed else ""
         return (f"; no use on the {nights} night{'s' if nights != 1 else ''} of {self.what} ({self.first:%d %b %Y} to "
-                f"{self.last:%d %b %Y}): {self.out}")
+                f"{self.last:%d %b %Y}{changed}): {self.out}")
 
 
 #: The key of the downtimes of an enclosure all a site's telescopes share (``_all_out``), beside telescopes' ids.
 ALL_OUT = "all telescopes"
 
 
-def _downtime_by_telescope(site: Site) -> dict[int, list[Downtime]]:
-    """The site's telescopes out of service for a recoat in hand, each with its downtimes, in one query: the recoat's
-    days while an order of it is drafted, issued or underway and none is withdrawn (a withdrawn one stops the
-    recoat), its past days too (unlogged nights are counted from the first of them, ``_without_downtime``). A recoat
-    running late takes out only its planned days: the dashboard says it is late (``mirrors.services.downtime_planned``),
-    and nights its telescope is out after them are logged with 0 open hours."""
+def recoat_downtime(plan, today: dt.date) -> Downtime:
+    """The nights a recoat in hand (a ``mirrors.RecoatPlan`` with its ``work_orders`` and mirror's telescope read)
+    takes its telescope out of service, as its work orders now stand (a year's review: a recoat re-dated or running
+    late kept its planned days in the forecasts, and its telescope counted in service once they had passed):
+
+    - its planned days, ``starts_on`` to ``ends_on``;
+    - while none of its orders is begun (all drafted or issued), from the first day its orders are now planned for
+      to the last day of the last of them (its planned date and its phase's planned length, ``plan.phases``; its
+      planned last day, if later, while one has no date): a recoat put off or brought forward by re-dating its orders;
+    - once begun, up to the last day of its latest phase still to do as its order is now dated, when that is later
+      than its planned last day (running on);
+    - its mirror out (its removal finished, its reinstall not) and the reinstall's day passed or not set: up to
+      ``today``; from the next night on the forecasts expect use again, until the reinstall is given its new day.
+
+    One rule for the forecasts (``_downtime_by_telescope``) and the dashboard (``mirrors.services.downtime_planned``).
+    """
+    from observatory_ops.calc.windows import RECOAT_PHASES  # the phases' names, by the work their orders do
+    from observatory_ops.workorders.models import State  # work orders build on planning
+
+    orders = sorted(plan.work_orders.all(), key=lambda o: o.pk)
+    to_do = [o for o in orders if o.state in (State.DRAFT, State.ISSUED, State.UNDERWAY)]
+    done = {o.recoat_phase for o in orders if o.state in (State.FINISHED, State.COUNTERSIGNED)}
+    begun = any(o.state not in (State.DRAFT, State.ISSUED, State.WITHDRAWN) for o in orders)
+    names = {p.work: p.name for p in RECOAT_PHASES if p.work}
+    length = {p["name"]: (dt.date.fromisoformat(p["last"]) - dt.date.fromisoformat(p["first"])).days
+              for p in plan.phases}
+    dated = [o for o in to_do if o.planned_date]
+    ends = [o.planned_date + dt.timedelta(days=length.get(names.get(o.recoat_phase), 0)) for o in dated]
+    first, last = plan.starts_on, max([plan.ends_on, *ends])
+    if not begun and dated:  # none begun: the recoat runs as its orders are now dated
+        first = min(o.planned_date for o in dated)
+        last = max(ends) if len(dated) == len(to_do) else last
+    changed = []
+    if (first, last) != (plan.starts_on, plan.ends_on):
+        changed.append(f"planned {plan.starts_on:%d %b %Y} to {plan.ends_on:%d %b %Y}, now as its work orders are "
+                       "dated")
+    reinstall = next((o for o in to_do if o.recoat_phase == "reinstall"), None)
+    late, mirror_out = last < today, "removal" in done and "reinstall" not in done
+    if mirror_out and late:
+        said = (f"its reinstall {reinstall.number} planned for {reinstall.planned_date:%d %b %Y} is late"
+                if reinstall is not None and reinstall.planned_date else "no day is set for its reinstall")
+        changed.append(f"its mirror is out and {said}: out of service up to today")
+        last = today
+    telescope = plan.mirror.subsystem.telescope.name
+    return Downtime(first, max(first, last), f"the planned recoat of {telescope}: {plan.mirror.subsystem.name}",
+                    changed="; ".join(changed), late=late, mirror_out=mirror_out)
+
+
+def recoats_in_hand(site: Site):
+    """The site's recoats in hand: an order of each drafted, issued or underway and none withdrawn (a withdrawn one
+    stops the recoat), with their orders and their mirror's telescope (two queries)."""
     from observatory_ops.mirrors.models import RecoatPlan  # mirrors builds on planning
     from observatory_ops.workorders.models import State  # work orders build on planning
 
-    plans = (
+    return (
         RecoatPlan.objects.filter(mirror__subsystem__telescope__site=site,
                                   work_orders__state__in=(State.DRAFT, State.ISSUED, State.UNDERWAY))
         .exclude(work_orders__state=State.WITHDRAWN).distinct()
-        .values_list("mirror__subsystem__telescope_id", "mirror__subsystem__telescope__name", "mirror__subsystem__name",
-                     "starts_on", "ends_on")
+        .select_related("mirror__subsystem__telescope").prefetch_related("work_orders")
+        .order_by("starts_on", "pk")
     )
+
+
+def _downtime_by_telescope(site: Site, today: dt.date) -> dict[int, list[Downtime]]:
+    """The site's telescopes out of service for a recoat in hand (``recoats_in_hand``), each with its downtimes
+    (``recoat_downtime``: its days as its orders now stand), past days too (unlogged nights are counted from the first
+    of them, ``_without_downtime``)."""
     down: dict[int, list[Downtime]] = {}
-    for telescope_id, telescope, mirror, first, last in plans.order_by("starts_on"):
-        down.setdefault(telescope_id, []).append(
-            Downtime(first, last, f"the planned recoat of {telescope}: {mirror}"))
+    for plan in recoats_in_hand(site):
+        down.setdefault(plan.mirror.subsystem.telescope_id, []).append(recoat_downtime(plan, today))
+    for downtimes in down.values():
+        downtimes.sort(key=lambda d: d.first)
     return down
 
 

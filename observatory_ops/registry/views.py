@@ -1,4 +1,5 @@
 from django.contrib import messages
+from django.db.models import prefetch_related_objects
 from django.http import HttpResponseNotAllowed
 from django.shortcuts import get_object_or_404, redirect, render
 
@@ -10,7 +11,7 @@ from observatory_ops.logbook import selectors as logbook_selectors
 from observatory_ops.mirrors import services as mirror_services
 from observatory_ops.mirrors.models import TRAIN_KINDS
 from observatory_ops.planning import selectors as planning_selectors
-from observatory_ops.planning.services import site_recompute, site_today, sites_bring_up_to_date
+from observatory_ops.planning.services import recoat_downtime, site_recompute, site_today, sites_bring_up_to_date
 from observatory_ops.workorders import selectors as workorder_selectors
 from observatory_ops.workorders.cautions import HAZARDS
 
@@ -49,9 +50,10 @@ def site_dashboard(request, slug):
     today = site_today(site)
     downtime = mirror_services.downtime_planned(site, today)
     runs_over = mirror_services.runs_over_each_recoat(site, today, downtime)
+    prefetch_related_objects(downtime, "work_orders")  # read by recoat_downtime
     for plan in downtime:  # the booked runs on its nights, under it
         plan.runs_over = runs_over.get(plan.pk, [])
-        plan.running_late = plan.ends_on < today
+        plan.out = recoat_downtime(plan, today)  # its nights as its orders now stand, as the forecasts count them
     return render(
         request,
         "registry/site_dashboard.html",

@@ -6,6 +6,7 @@ from django.core.exceptions import ValidationError
 from django.http import HttpResponseRedirect
 from simple_history.admin import SimpleHistoryAdmin
 
+from observatory_ops.planning.services import site_recompute
 from observatory_ops.registry.forms import ChoicesNamedWithSite, ChoicesOfItsSite, possible_id
 
 from . import selectors
@@ -96,6 +97,8 @@ class WorkOrderAdmin(ChoicesNamedWithSite, SimpleHistoryAdmin):
         if "estimated_hours" in form.changed_data:  # as on the order's edit page: the estimate is the engineer's now
             obj.estimate_basis = ""
         super().save_model(request, obj, form, change)
+        if "planned_date" in form.changed_data and obj.recoat_phase:
+            site_recompute(obj.site)  # its recoat's nights follow its orders' dates (planning.services.recoat_downtime)
 
     def has_change_permission(self, request, obj=None):
         """Not for a closed order: Django then shows its page read only, its inline rows with no add, change or

@@ -646,9 +646,9 @@ def work_order_move(order: WorkOrder, action: str, by, reason: str = "") -> Work
         _record_history(order, by, action)
         if passed_to:
             order.hand_back_left_to.set(passed_to)
-        if action == "withdraw" and order.recoat_phase:
-            # A withdrawn phase stops its recoat: the telescope's counters expect use on its nights again
-            # (planning.services._downtime_by_telescope).
+        if order.recoat_phase:
+            # A withdrawn phase stops its recoat: the telescope's counters expect use on its nights again; a phase
+            # begun holds the recoat's first day (planning.services.recoat_downtime).
             site_recompute(order.site)
     return order
 

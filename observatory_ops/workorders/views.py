@@ -16,7 +16,7 @@ from observatory_ops.archive.history import person
 from observatory_ops.exports import csv_response, download_refused, period
 from observatory_ops.logbook.nights_csv import WRITTEN_DATE
 from observatory_ops.planning.models import ServicePlan
-from observatory_ops.planning.services import site_today
+from observatory_ops.planning.services import site_recompute, site_today
 from observatory_ops.registry.catalogue import BRAKE_AIR_BACK, is_tag_out_step, release_step_for
 from observatory_ops.registry.forms import possible_id
 from observatory_ops.registry.models import Site
@@ -272,6 +272,8 @@ def work_order_edit(request, pk):
     if request.method == "POST" and form.is_valid():
         form.save()
         messages.success(request, "Saved.")
+        if "planned_date" in form.changed_data and order.recoat_phase:
+            site_recompute(order.site)  # its recoat's nights follow its orders (planning.services.recoat_downtime)
         if "planned_date" in form.changed_data:
             for note in selectors.planned_date_notes(order):
                 messages.warning(request, note)
