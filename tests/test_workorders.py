@@ -420,6 +420,30 @@ def test_a_date_long_past_or_an_estimate_above_1000_hours_is_refused_and_nothing
     assert client.post(f"/workorders/{order.pk}/edit/", ok).status_code == 302
 
 
+def test_an_edit_page_loaded_before_another_change_is_not_saved_over_it(order, users, client):
+    """A bad-input review: the administrator added a step and saved; the engineer then saved a page loaded before,
+    with only its tools changed: "Saved.", and the added step was gone (a planned date and an estimate went back
+    alike). The page now carries what it was loaded with, and a save over a change made since is refused, nothing
+    stored; reloaded, the same change saves."""
+    client.force_login(users["engineer"])
+    page = client.get(f"/workorders/{order.pk}/edit/")
+    loaded_as = page.context["form"]["loaded_as"].value()
+    WorkOrder.objects.filter(pk=order.pk).update(steps=order.steps + "\nCheck the sling certificate is in date.")
+    before = WorkOrder.objects.filter(pk=order.pk).values().get()
+    stale = _edit_data(order, tools="Torque wrench", loaded_as=loaded_as)
+    response = client.post(f"/workorders/{order.pk}/edit/", stale)
+    text = html.unescape(response.content.decode())
+    assert response.status_code == 200
+    assert f"Not saved: {order.number} {order.title} was changed since this page was loaded (steps)." in text
+    assert WorkOrder.objects.filter(pk=order.pk).values().get() == before
+    order.refresh_from_db()
+    fresh = client.get(f"/workorders/{order.pk}/edit/").context["form"]["loaded_as"].value()
+    response = client.post(f"/workorders/{order.pk}/edit/", _edit_data(order, tools="Torque wrench", loaded_as=fresh))
+    assert response.status_code == 302
+    order.refresh_from_db()
+    assert order.tools == "Torque wrench" and "sling certificate" in order.steps
+
+
 # --- the page: readings and history ------------------------------------------------------------------------
 
 

@@ -1,4 +1,6 @@
 import datetime as dt
+import hashlib
+import json
 import re
 from collections import Counter
 from functools import cached_property
@@ -94,7 +96,47 @@ def _plausible(quantity: str, label: str):
     return check
 
 
-class WorkOrderEditForm(forms.ModelForm):
+def _stored_digests(instance, names) -> dict[str, str]:
+    """A short digest of each of ``names``' stored values of ``instance`` (a foreign key by its id)."""
+    fields = {f.name: f for f in instance._meta.concrete_fields}
+    return {name: hashlib.sha256(repr(getattr(instance, fields[name].attname)).encode()).hexdigest()[:12]
+            for name in names}
+
+
+class LoadedAsMixin(forms.ModelForm):
+    """A model form that refuses to save over changes made since its page was loaded: a hidden ``loaded_as`` carries a
+    digest of each of its fields as stored then, compared on saving with the row as stored now. A review saved a page
+    loaded before another engineer's change: the added step, the new planned date and estimate went back, unsaid."""
+
+    loaded_as = forms.CharField(required=False, widget=forms.HiddenInput)
+
+    def __init__(self, *args, **kwargs):
+        super().__init__(*args, **kwargs)
+        if self.instance.pk:
+            self.fields["loaded_as"].initial = json.dumps(_stored_digests(self.instance, self._meta.fields))
+
+    def clean(self):
+        data = super().clean()
+        if not self.instance.pk or not data.get("loaded_as"):  # a post made without the page (a script) is not held
+            return data
+        try:
+            loaded = json.loads(data["loaded_as"])
+        except ValueError:
+            loaded = {}
+        if not isinstance(loaded, dict):
+            loaded = {}
+        now = _stored_digests(type(self.instance).objects.get(pk=self.instance.pk), self._meta.fields)
+        changed = [name for name in self._meta.fields if loaded.get(name) != now[name]]
+        if changed:
+            names = ", ".join(str(self.fields[name].label).lower() for name in changed)
+            raise forms.ValidationError(
+                f"Not saved: {self.instance} was changed since this page was loaded ({names}). Reload it to see what "
+                "is stored now, then make your change again."
+            )
+        return data
+
+
+class WorkOrderEditForm(LoadedAsMixin, forms.ModelForm):
     """The engineer's edit of a draft or issued order. Steps without the lockout step, where the order's
     hazards call for isolation, are refused with the line to put back."""
 
