@@ -291,7 +291,11 @@ def test_the_audit_trail_says_who_brought_the_order_up_to_date(order, drive, use
 def test_the_button_updates_the_order_and_says_what_was_added(order, drive, users, client):  # noqa: F811
     _add_hazard(drive, "height")
     client.force_login(users["engineer"])
-    assert client.get(f"/workorders/{order.pk}/hazards/").status_code == 405  # POST only
+    # A visit to the button's address does nothing and goes to the order's page, saying so (posted_only).
+    visit = client.get(f"/workorders/{order.pk}/hazards/", follow=True)
+    assert visit.redirect_chain == [(order.get_absolute_url(), 302)]
+    assert "That address belongs to a button" in _text(visit) and "height" not in _fresh(order).hazards
+    assert client.put(f"/workorders/{order.pk}/hazards/").status_code == 405
     page = _text(client.post(f"/workorders/{order.pk}/hazards/", follow=True))
     assert f"{order.number}: added Work at height, with its caution." in page
     assert HAZARDS_MISSING_TITLE not in page and CAUTIONS["height"].text in page

@@ -843,3 +843,13 @@ def test_the_order_page_says_its_due_figures_are_those_of_the_day_it_was_made(dr
     made = timezone.localtime(order.created_at, order.site.zone)
     said = WHY_AS_OF.format(day=f"{made:%d %b %Y}").replace("'", "&#x27;")
     assert said in page and page.index("Why this work is due") < page.index(said)
+
+
+def test_a_reloaded_page_of_questions_goes_back_to_the_order_and_does_nothing(order, users, client):
+    """An onboarding review reloaded "Before this order is issued" (its address, the move's) and got a blank 405 page
+    with no way back: a visit to a button's address now goes to the page it belongs to, saying nothing was done."""
+    client.force_login(users["engineer"])
+    visit = client.get(f"/workorders/{order.pk}/move/issue/", follow=True)
+    assert visit.redirect_chain == [(order.get_absolute_url(), 302)]
+    assert "so nothing was done: here is the page it belongs to" in html.unescape(visit.content.decode())
+    assert WorkOrder.objects.get(pk=order.pk).state == order.state

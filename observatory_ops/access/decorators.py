@@ -2,14 +2,16 @@
 
 Anonymous users are sent to the login page; signed-in users below the role get 403 with a page that
 says which role is needed. The role is kept on the view as ``required_role`` so a test can walk every
-URL and check that each view declares one.
+URL and check that each view declares one. ``posted_only``: what a button's address answers a visit.
 """
 from __future__ import annotations
 
 from functools import wraps
 
+from django.contrib import messages
 from django.contrib.auth.views import redirect_to_login
-from django.shortcuts import render
+from django.http import HttpResponseNotAllowed
+from django.shortcuts import redirect, render
 
 from .roles import ROLES, has_role
 
@@ -31,3 +33,21 @@ def requires(role: str):
         return guarded
 
     return decorate
+
+
+#: What a visit to a button's address is told (``posted_only``).
+VISITED_A_BUTTON = ("That address belongs to a button (a reloaded page of questions, or its address opened again), so "
+                    "nothing was done: here is the page it belongs to.")
+
+
+def posted_only(request, back: str):
+    """None for a POST; otherwise the answer to give: for a visit (GET or HEAD: a page of questions reloaded, or its
+    address opened again) a redirect to ``back``, the page the button belongs to, saying nothing was done (an
+    onboarding review reloaded "Before this order is issued" and got a blank 405 page with no way back); for any other
+    method, 405."""
+    if request.method == "POST":
+        return None
+    if request.method in ("GET", "HEAD"):
+        messages.info(request, VISITED_A_BUTTON)
+        return redirect(back)
+    return HttpResponseNotAllowed(["POST"])

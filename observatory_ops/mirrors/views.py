@@ -2,14 +2,14 @@
 from django.contrib import messages
 from django.core.exceptions import ValidationError
 from django.db.models import Prefetch
-from django.http import HttpResponse, HttpResponseNotAllowed
+from django.http import HttpResponse
 from django.shortcuts import get_object_or_404, redirect, render
 from django.template.defaultfilters import pluralize
 from django.urls import reverse
 from django.utils.html import format_html, format_html_join
 from django.utils.http import urlencode
 
-from observatory_ops.access.decorators import requires
+from observatory_ops.access.decorators import posted_only, requires
 from observatory_ops.access.roles import ENGINEER, TECHNICIAN, VIEWER, has_role
 from observatory_ops.access.templatetags.form_errors import names_field
 from observatory_ops.archive.history import changes
@@ -271,9 +271,9 @@ def recoat_planner(request, pk):
 @requires(ENGINEER)
 def recoat_plan_create(request, pk):
     """Turn the window chosen on the planner into a recoat plan and its draft work orders."""
-    if request.method != "POST":
-        return HttpResponseNotAllowed(["POST"])
     mirror = _mirror(pk)
+    if (visit := posted_only(request, reverse("mirror-recoat", args=[mirror.pk]))) is not None:
+        return visit
     form = _window_form(request, mirror, request.POST)
     if not form.is_valid():  # sent from an earlier day's page, or not from the planner: nothing is stored
         messages.error(request, f"No plan made: {_form_problems(form)} Find the windows again.")

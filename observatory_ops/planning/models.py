@@ -109,6 +109,8 @@ class ServicePlan(models.Model):
         problem = self._counting_from_problem()
         if problem:
             errors["counting_from"] = problem
+        if problem := self._subsystem_kept_problem():
+            errors["subsystem"] = problem
         if self.subsystem_id and self.name and self.active and named_anew(self, "name", "subsystem_id", "active"):
             # Two active plans alike would be two due lines and two orders for one task (a site review added three).
             others = (ServicePlan.objects.filter(subsystem_id=self.subsystem_id, active=True).exclude(pk=self.pk)
@@ -118,6 +120,36 @@ class ServicePlan(models.Model):
                                   "aside): change that plan, or give this one a name of its own.")
         if errors:
             raise ValidationError(errors)
+
+    def _subsystem_kept_problem(self) -> str | None:
+        """Why a stored plan may not go to the subsystem now chosen: one at another site (its records and due state
+        are its site's), or any other once anything is recorded under the plan (service records, work orders): those
+        were the first subsystem's work. An onboarding review moved a servo drive's plan to another site's focuser
+        unsaid: the drive's maintenance left its due list. A plan just made on the wrong subsystem, with nothing
+        recorded, moves within its site."""
+        from observatory_ops.workorders.models import WorkOrder  # work orders build on planning
+
+        if self._state.adding or not self.subsystem_id:
+            return None
+        stored = (ServicePlan.objects.filter(pk=self.pk)
+                  .values_list("subsystem_id", "subsystem__telescope__site_id").first())
+        if stored is None or stored[0] == self.subsystem_id:
+            return None
+        was = Subsystem.objects.select_related("telescope").get(pk=stored[0])
+        if self.subsystem.telescope.site_id != stored[1]:
+            return (f"A plan stays at its site: its records and due state are {was.telescope.site}'s. Make a new plan "
+                    "on the other subsystem, and set this one inactive if it no longer applies here.")
+        records = self.service_records.count()
+        orders = [o.number for o in WorkOrder.objects.filter(items__plan=self).distinct().order_by("pk")]
+        if not records and not orders:
+            return None
+        said = "; ".join(filter(None, (
+            f"{records} service record{'s' if records != 1 else ''}" if records else "",
+            f"work orders {', '.join(orders)}" if orders else "",
+        )))
+        return (f"This plan has records on {was.telescope.name}: {was.name} ({said}): that subsystem's work, which "
+                "would read as the other's. Make a new plan on the other subsystem, and set this one inactive if it no "
+                "longer applies to this one.")
 
     def _counting_from_problem(self) -> str | None:
         """Why the counting date, new or changed, cannot be: the plan counts from it as from a last service, so it

@@ -1,11 +1,11 @@
 from django.contrib import messages
 from django.db.models import Model
-from django.http import HttpResponseBadRequest, HttpResponseNotAllowed
+from django.http import HttpResponseBadRequest
 from django.shortcuts import get_object_or_404, redirect, render
 from django.utils import timezone
 from django_tables2 import RequestConfig
 
-from observatory_ops.access.decorators import requires
+from observatory_ops.access.decorators import posted_only, requires
 from observatory_ops.access.roles import ENGINEER, VIEWER
 from observatory_ops.exports import csv_response
 from observatory_ops.registry.models import Telescope
@@ -98,9 +98,9 @@ def _links(request, table) -> dict:
 @requires(ENGINEER)
 def plan_catalogue_steps(request, pk):
     """Give the plan its catalogue plan's present steps (the subsystem page's button, shown while they differ)."""
-    if request.method != "POST":
-        return HttpResponseNotAllowed(["POST"])
     plan = get_object_or_404(ServicePlan.objects.select_related("subsystem"), pk=pk)
+    if (visit := posted_only(request, plan.subsystem.get_absolute_url())) is not None:
+        return visit
     try:
         plan_steps_from_catalogue(plan, request.user)
     except ValueError as exc:

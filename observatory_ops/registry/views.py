@@ -1,10 +1,9 @@
 from django.contrib import messages
 from django.db.models import prefetch_related_objects
-from django.http import HttpResponseNotAllowed
 from django.shortcuts import get_object_or_404, redirect, render
 
 from fixtures_demo.generator import load_refusal
-from observatory_ops.access.decorators import requires
+from observatory_ops.access.decorators import posted_only, requires
 from observatory_ops.access.roles import ENGINEER, VIEWER
 from observatory_ops.archive.history import changes
 from observatory_ops.logbook import selectors as logbook_selectors
@@ -120,8 +119,8 @@ def subsystem_detail(request, pk):
 @requires(ENGINEER)
 def subsystem_retire(request, pk):
     subsystem = get_object_or_404(Subsystem.objects.select_related("telescope__site"), pk=pk)
-    if request.method != "POST":
-        return HttpResponseNotAllowed(["POST"])
+    if (visit := posted_only(request, subsystem.get_absolute_url())) is not None:
+        return visit
     site = subsystem.telescope.site
     try:
         services.subsystem_retire(subsystem, site_today(site), request.POST.get("reason", ""), request.user)

@@ -2,7 +2,7 @@ import datetime as dt
 
 from django import forms
 from django.contrib import messages
-from django.http import HttpResponse, HttpResponseNotAllowed, JsonResponse
+from django.http import HttpResponse, JsonResponse
 from django.shortcuts import get_object_or_404, redirect, render
 from django.urls import reverse
 from django.utils import timezone
@@ -10,7 +10,7 @@ from django.utils.html import format_html, format_html_join
 from django.utils.http import url_has_allowed_host_and_scheme
 from django_tables2 import RequestConfig
 
-from observatory_ops.access.decorators import requires
+from observatory_ops.access.decorators import posted_only, requires
 from observatory_ops.access.roles import ENGINEER, TECHNICIAN, VIEWER, has_role
 from observatory_ops.archive.history import person
 from observatory_ops.exports import csv_response, download_refused, period
@@ -82,8 +82,8 @@ def work_order_list(request):
 
 @requires(TECHNICIAN)
 def work_order_from_due(request):
-    if request.method != "POST":
-        return HttpResponseNotAllowed(["POST"])
+    if (visit := posted_only(request, reverse("due-list"))) is not None:
+        return visit
     # A value no plan id can be is dropped, as one of no plan is found in none: an order of nothing is refused.
     ids = [plan_id for v in request.POST.getlist("plans") if (plan_id := possible_id(ServicePlan, v)) is not None]
     plans = sorted(ServicePlan.objects.filter(pk__in=ids).select_related("subsystem__telescope__site"),
@@ -287,9 +287,9 @@ def work_order_edit(request, pk):
 
 @requires(ENGINEER)
 def work_order_hazards_update(request, pk):
-    if request.method != "POST":
-        return HttpResponseNotAllowed(["POST"])
     order = _order(pk)
+    if (visit := posted_only(request, order.get_absolute_url())) is not None:
+        return visit
     try:
         update = services.work_order_hazards_update(order, request.user)
     except services.Refused as exc:
@@ -325,9 +325,9 @@ def work_order_move(request, pk, action):
     page of its own whose button posts here again with ``asked=confirmed``; so is countersigning an order finished with
     its energy isolation answered for as not needed or not done (``cautions.ISOLATION_REVIEW``): its findings are
     read first."""
-    if request.method != "POST":
-        return HttpResponseNotAllowed(["POST"])
     order = _order(pk)
+    if (visit := posted_only(request, order.get_absolute_url())) is not None:
+        return visit
     if (action == "countersign" and request.POST.get("asked") != "confirmed" and order.state == State.FINISHED
             and not services.countersign_refusal(order, request.user)):  # asked only of someone who may
         if record := _isolation_record(order):
@@ -367,9 +367,9 @@ def work_order_tick(request, pk):
     the tick was refused; a script's post that asks for JSON gets the line's new note (or the refusal) and the
     page stays as it is.
     """
-    if request.method != "POST":
-        return HttpResponseNotAllowed(["POST"])
     order = _order(pk)
+    if (visit := posted_only(request, order.get_absolute_url())) is not None:
+        return visit
     wants_json = "application/json" in request.headers.get("Accept", "")
     key = request.POST.get("key", "")
     try:
@@ -609,9 +609,9 @@ def work_order_lift(request, pk):
 
 @requires(ENGINEER)
 def work_order_part_add(request, pk):
-    if request.method != "POST":
-        return HttpResponseNotAllowed(["POST"])
     order = _order(pk)
+    if (visit := posted_only(request, order.get_absolute_url())) is not None:
+        return visit
     form = PartAddForm(request.POST, site=order.site)
     if form.is_valid():
         try:
@@ -705,10 +705,10 @@ def _count_form(part: Part, data=None) -> PartCountForm:
 @requires(ENGINEER)
 def part_count(request, slug, pk):
     """The engineer's count of a part's stock after a shortfall: the register is set to it."""
-    if request.method != "POST":
-        return HttpResponseNotAllowed(["POST"])
     site = get_object_or_404(Site, slug=slug)
     part = get_object_or_404(Part, site=site, pk=pk)
+    if (visit := posted_only(request, reverse("part-list", args=[site.slug]))) is not None:
+        return visit
     form = _count_form(part, request.POST)
     if form.is_valid():
         try:
