@@ -7,7 +7,8 @@ from __future__ import annotations
 import pytest
 from django.core.exceptions import ValidationError
 
-from observatory_ops.planning.models import ServicePlan
+from observatory_ops.api.models import ApiToken
+from observatory_ops.planning.models import BookedRun, ServicePlan
 from observatory_ops.registry.models import Site, Subsystem, Telescope
 from observatory_ops.workorders.models import IsolationPoint, Part, WorkOrder
 
@@ -15,7 +16,7 @@ ONE_LINE = "Write the name on one line, without tabs or other control characters
 
 
 NAMES = [(Site, "name"), (Telescope, "name"), (Subsystem, "name"), (ServicePlan, "name"), (Part, "name"),
-         (WorkOrder, "title"), (IsolationPoint, "label")]
+         (WorkOrder, "title"), (IsolationPoint, "label"), (BookedRun, "title"), (ApiToken, "name")]
 
 
 @pytest.mark.parametrize(("model", "field"), NAMES)
@@ -42,3 +43,17 @@ def test_the_admin_refuses_a_telescope_named_with_a_tab(admin_client, telescope)
     response = admin_client.post(f"/admin/registry/telescope/{telescope.pk}/change/", data)
     assert response.status_code == 200 and ONE_LINE in response.content.decode()
     assert Telescope.objects.get(pk=telescope.pk).name == telescope.name
+
+
+@pytest.mark.django_db
+def test_an_ad_hoc_order_and_a_token_take_no_line_break_either(users, telescope):
+    """A bad-input review: the ad hoc order's form (not a model form) stored "Fan fault\r\nEND:VEVENT...", which the
+    edit form then refused on every save; a token named over two lines printed a line of its own in `api_token list`."""
+    from observatory_ops.api.services import api_token_create
+    from observatory_ops.workorders.forms import AdHocForm
+
+    form = AdHocForm({"title": "Fan fault\r\nEND:VEVENT"}, site=telescope.site)
+    assert not form.is_valid() and form.errors["title"] == [ONE_LINE]
+    with pytest.raises(ValueError, match="the token's name: Write the name on one line"):
+        api_token_create(telescope.site, "east dome\r\nfake line: revoked")
+    assert not ApiToken.objects.exists()

@@ -16,7 +16,7 @@ from django.db import models
 from simple_history.models import HistoricalRecords
 
 from observatory_ops.access.roles import ADMINISTRATOR
-from observatory_ops.registry.models import Site
+from observatory_ops.registry.models import Site, validate_one_line
 
 
 class ApiToken(models.Model):
@@ -28,7 +28,8 @@ class ApiToken(models.Model):
     #: Who may read that history on its page (``archive.views.history``): administrators, as in the admin.
     history_read_by = ADMINISTRATOR
     site = models.ForeignKey(Site, on_delete=models.PROTECT, related_name="api_tokens")
-    name = models.CharField(max_length=100, help_text="What uses it, e.g. the control computer of the east dome.")
+    name = models.CharField(max_length=100, validators=[validate_one_line],
+                            help_text="What uses it, e.g. the control computer of the east dome.")
     purpose = models.CharField(max_length=10, choices=Purpose.choices, default=Purpose.CONTROL)
     prefix = models.CharField(max_length=8, editable=False, help_text="The token's first characters.")
     secret_sha256 = models.CharField(max_length=64, unique=True, editable=False)

@@ -4,9 +4,10 @@ from __future__ import annotations
 import hashlib
 import secrets
 
+from django.core.exceptions import ValidationError
 from django.utils import timezone
 
-from observatory_ops.registry.models import Site
+from observatory_ops.registry.models import Site, validate_one_line
 
 from .models import ApiToken
 
@@ -24,6 +25,10 @@ def api_token_create(site: Site, name: str, by=None, purpose: str = ApiToken.Pur
     name = name.strip()
     if not name:
         raise ValueError("a token needs a name saying what uses it")
+    try:
+        validate_one_line(name)  # the command's list prints one token a line
+    except ValidationError as exc:
+        raise ValueError(f"the token's name: {exc.messages[0]}") from None
     secret = secrets.token_urlsafe(32)  # 256 random bits
     token = ApiToken.objects.create(
         site=site, name=name, purpose=purpose, prefix=secret[:PREFIX_LENGTH], secret_sha256=secret_digest(secret),

@@ -519,7 +519,7 @@ class BookedRun(models.Model):
 
     history = HistoricalRecords()  # who changed what, when: see observatory_ops/archive
     site = models.ForeignKey(Site, on_delete=models.CASCADE, related_name="booked_runs")
-    title = models.CharField(max_length=120)
+    title = models.CharField(max_length=120, validators=[validate_one_line])
     starts_on = models.DateField()
     ends_on = models.DateField()
     blocked = models.BooleanField(default=True, help_text="Off: the nights cost more instead of being excluded.")

@@ -16,7 +16,7 @@ from observatory_ops.logbook.forms import HOURS_QUESTION_FACTOR, UNIT_SLIP_FACTO
 from observatory_ops.logbook.quantities import value_problem
 from observatory_ops.planning.services import site_today
 from observatory_ops.registry.forms import HazardsField, possible_id
-from observatory_ops.registry.models import Subsystem
+from observatory_ops.registry.models import Subsystem, validate_one_line
 
 from . import selectors, services
 from .cautions import ISOLATION_UNTICKED, ISOLATION_UNTICKED_FINDINGS
@@ -235,7 +235,7 @@ class AdHocForm(forms.Form):
     """A work order not from the due list: most often a fault, so corrective is the type it starts with (and is
     listed first): the reliability page counts a finished corrective order as a failure, and no other type."""
 
-    title = forms.CharField(max_length=200)
+    title = forms.CharField(max_length=200, validators=[validate_one_line])  # the model's rule: this form makes one
     order_type = forms.ChoiceField(
         # Corrective first: a browser or script that ignores the initial value still sends the fault page's type.
         choices=[(t.value, t.label) for t in (WorkOrder.Type.CORRECTIVE, WorkOrder.Type.PREVENTIVE,
