@@ -24,11 +24,12 @@ class ObservatoryAdminConfig(AdminConfig):
         # built.
         from django import forms
 
-        from observatory_ops.formats import calendar_words
+        from observatory_ops.formats import calendar_words, plain_numbers
         from observatory_ops.formats.en.formats import DATE_INVALID, DATETIME_INVALID
 
         forms.DateField.default_error_messages = {**forms.DateField.default_error_messages, "invalid": DATE_INVALID}
         forms.DateTimeField.default_error_messages = {**forms.DateTimeField.default_error_messages,
                                                       "invalid": DATETIME_INVALID}
         calendar_words.install()
+        plain_numbers.install()  # and every number field reads only numbers written plainly (formats/plain_numbers.py)
         super().ready()

@@ -32,6 +32,7 @@ from django.template.defaultfilters import pluralize
 
 from observatory_ops.exports import FORMULA_START
 from observatory_ops.formats.calendar_words import why_no_such_date
+from observatory_ops.formats.plain_numbers import PLAIN_NUMBER
 
 #: How far back a night (or a service date, see ``logbook.services``) may lie, in years. A recompute asks
 #: the nights cache for every night from the earliest one logged to 3 years ahead (planning.services.
@@ -298,10 +299,10 @@ class ParsedNights:
         self.errors.append(Problem(position, reason, field_name))
 
 
-#: A figure as text: ASCII digits with an optional sign and decimal point, and an optional exponent ("1e3", which
-#: counts have always taken and Python's repr of a float writes: 1e-05). Python's int() and float() take more than
-#: this: "1_000" and digits of other scripts ("٣"), which a figure typed or exported by mistake should not pass as.
-PLAIN_NUMBER = re.compile(r"[+-]?(?:[0-9]+(?:\.[0-9]*)?|\.[0-9]+)(?:[eE][+-]?[0-9]+)?")
+#: A figure as text: ``formats.plain_numbers.PLAIN_NUMBER`` (ASCII digits with an optional sign and decimal point, and
+#: an optional exponent: "1e3", which counts have always taken and Python's repr of a float writes: 1e-05). Python's
+#: int() and float() take more than this: "1_000" and digits of other scripts ("٣"), which a figure typed or exported
+#: by mistake should not pass as.
 #: What float() reads as no finite number. Still read, so the message says "must be a finite number", not "a number".
 NOT_FINITE = re.compile(r"[+-]?(?:nan|inf|infinity)", re.IGNORECASE)
 
