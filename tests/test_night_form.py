@@ -40,7 +40,8 @@ def test_correcting_one_figure_keeps_the_others(client, site, technician):
     NightUsage.objects.create(site=site, night=night, open_hours=6, slews=33, brake_cycles=30, pm10_ugm3=41.0)
     form = client.get(f"/sites/{site.slug}/nights/new/?night={night.isoformat()}")
     assert form.context["form"].initial["slews"] == "33"  # the stored night, ready to correct
-    client.post(f"/sites/{site.slug}/nights/new/", {"night": night.isoformat(), "open_hours": "6.5"})
+    client.post(f"/sites/{site.slug}/nights/new/", {"night": night.isoformat(), "open_hours": "6.5",
+                                                    "loaded_as": form.context["form"].initial["loaded_as"]})
     stored = NightUsage.objects.get(site=site, night=night)
     assert (stored.open_hours, stored.slews, stored.brake_cycles, stored.pm10_ugm3) == (6.5, 33, 30, 41.0)
 

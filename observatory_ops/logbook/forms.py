@@ -362,7 +362,11 @@ class NightForm(forms.Form):
     left out: a night already stored keeps that figure, a new night takes the format's default (a telescope's: the
     site's figure of that night for a counter or PM10). The telescope is chosen among ``telescopes`` (the site's
     telescope names), or the whole site's night (the empty choice). With more than one telescope the choice must
-    be made: nothing is chosen beforehand, so a forgotten choice cannot overwrite the whole site's night."""
+    be made: nothing is chosen beforehand, so a forgotten choice cannot overwrite the whole site's night.
+
+    ``loaded_as`` (hidden) carries what was stored of the night the page showed (``services.night_stored_token``; ""
+    when it showed none): figures stored since, or a night already stored typed into a blank form, are shown before
+    this form's figures go over them (``stored_unseen``)."""
 
     def __init__(self, *args, telescopes=(), **kwargs):
         from .nights_csv import COLUMN_SPECS
@@ -391,6 +395,7 @@ class NightForm(forms.Form):
                 field = forms.CharField(required=column.required, label=label, help_text=column.accepted,
                                         widget=forms.TextInput(attrs=attrs))
             self.fields[column.name] = field
+        self.fields["loaded_as"] = forms.CharField(required=False, widget=forms.HiddenInput)
 
     def clean_telescope(self) -> str:
         if self.choose_whose and self.data.get(self.add_prefix("telescope")) is None:
@@ -402,4 +407,22 @@ class NightForm(forms.Form):
 
     def record(self) -> dict:
         """The night as the API would send it: only the fields filled in."""
-        return {name: value for name, value in self.cleaned_data.items() if value not in ("", None)}
+        return {
+            name: value for name, value in self.cleaned_data.items() if value not in ("", None) and name != "loaded_as"
+        }
+
+    def stored_unseen(self, changes: list[services.NightChange], stored_as: str) -> None:
+        """Refuse this form's figures over a night stored with figures the page did not show (``changes``, the
+        ``services.NightChange`` of each), naming them; the page then carries the night as stored now
+        (``stored_as``), so saving it again is the confirmation."""
+        first = changes[0]
+        shown = "; ".join(
+            f"{self.fields[c.column].label}: {c.old_text} stored → {c.new_text} in this form" for c in changes
+        )
+        self.add_error(None, (
+            f"The night of {first.night} ({first.whose}) is stored with figures this form would change, which this "
+            f"page did not show: {shown}. Someone changed it since this page was loaded, or it was logged already. "
+            "Saving again stores this form's figures over them."
+        ))
+        self.data = self.data.copy()
+        self.data[self.add_prefix("loaded_as")] = stored_as

@@ -279,8 +279,21 @@ def latest_night(site: Site, now: dt.datetime | None = None) -> dt.date:
     return night_of(now or timezone.now(), site.time_zone)
 
 
+def night_stored_token(site: Site, night: dt.date, telescope_name: str) -> str:
+    """What is stored for one night of ``site`` (the whole site's, ``telescope_name`` "", or that telescope's), as a
+    short token: "2019-01-05|R40|<sha256 of its usage figures>", "...|none" when nothing is stored. A page that
+    showed the night carries it, so saving learns whether the night was changed, or logged, since the page was made."""
+    whose = {"telescope__name": telescope_name} if telescope_name else {"telescope__isnull": True}
+    figures = NightUsage.objects.filter(site=site, night=night, **whose).values_list(*_USAGE_FIELDS).first()
+    if figures is None:
+        return f"{night}|{telescope_name}|none"
+    shown = json.dumps([nights_csv.cell(figure) for figure in figures])
+    return f"{night}|{telescope_name}|{hashlib.sha256(shown.encode()).hexdigest()[:16]}"
+
+
 def nights_ingest(
-    site: Site, records: list[dict], source: str = NightUsage.Source.API, by=None, reason: str = ""
+    site: Site, records: list[dict], source: str = NightUsage.Source.API, by=None, reason: str = "",
+    approve: Callable[[list[NightChange]], bool] | None = None,
 ) -> ImportReport:
     """Store nights sent by control software as JSON objects (keys: the CSV column names) for one site.
 
@@ -290,7 +303,8 @@ def nights_ingest(
     stored. An object is the whole site's night, or one telescope's (``telescope``: the name of one of the
     site's telescopes). Idempotent per site, telescope and night: a night sent again with the same figures
     changes nothing, with other figures it is updated; a key left out keeps the stored figure. Raises
-    ValueError when ``records`` is not a list.
+    ValueError when ``records`` is not a list. ``approve(changes)``, when given, is asked before stored nights are
+    changed (``_nights_store``): False stores nothing.
     """
     report = ImportReport()
     telescopes = _site_telescopes(site)
@@ -301,7 +315,7 @@ def nights_ingest(
         report.file_problem = whole[:1].upper() + whole[1:]
         return report
     report.several_telescopes = len(telescopes) > 1
-    _nights_store(site, _resolved(parsed, telescopes), source, report, by=by, reason=reason)
+    _nights_store(site, _resolved(parsed, telescopes), source, report, by=by, reason=reason, approve=approve)
     return report
 
 

@@ -15,6 +15,7 @@ from django.utils import timezone
 from observatory_ops.access.decorators import requires
 from observatory_ops.access.roles import TECHNICIAN, VIEWER
 from observatory_ops.exports import csv_response, download_refused, period, safe_cell
+from observatory_ops.formats.calendar_words import why_no_such_date
 from observatory_ops.planning import selectors
 from observatory_ops.registry.models import Site, Subsystem
 from observatory_ops.reliability.selectors import HOURS_WINDOW_DAYS
@@ -287,33 +288,65 @@ def nights_csv_download(request, slug):
     return response
 
 
+def _night_asked(request, site, telescopes: list[str]) -> tuple[dict, NightUsage | None]:
+    """The night form's first values for the night and telescope the address asks for (``?night=YYYY-MM-DD``,
+    ``&telescope=NAME``), with what is stored of that night (``loaded_as``: "" when the form shows nothing stored),
+    and the stored night (None if it is not stored). What is asked is kept where it can be; a message says what
+    cannot be, and a night asked for that is not stored."""
+    initial = {"night": services.latest_night(site).isoformat(), "loaded_as": ""}  # the night most likely typed in
+    night = None
+    if asked := request.GET.get("night", "").strip():
+        written = nights_csv.WRITTEN_DATE.fullmatch(asked)
+        problem = why_no_such_date(*map(int, written.groups())) if written else None
+        if not written:
+            messages.warning(request, f"\"{asked}\" is not a date as YYYY-MM-DD: a blank form instead.")
+        elif problem:
+            messages.warning(request, f"{asked} is no such date ({problem}): a blank form instead.")
+        else:
+            night = dt.date.fromisoformat(asked)
+            initial["night"] = asked
+    whose = ""
+    if asked_whose := request.GET.get("telescope", "").strip():
+        # The name as the site registers it, case aside, as the nights format reads it.
+        whose = {name.casefold(): name for name in telescopes}.get(asked_whose.casefold())
+        if whose is None:
+            its = f"its telescopes are {', '.join(telescopes)}" if telescopes else "it has no telescope registered"
+            messages.warning(request, f"{site.name} has no telescope \"{asked_whose}\" ({its}): choose whose night "
+                                      "this is below.")
+        else:
+            initial["telescope"] = whose
+    if night is None or whose is None:
+        return initial, None
+    mine = {"telescope__name": whose} if whose else {"telescope__isnull": True}
+    stored = NightUsage.objects.filter(site=site, night=night, **mine).select_related("telescope").first()
+    if stored:
+        initial = nights_csv.cells_of(stored)
+    else:
+        messages.info(request, f"No night of {night} ({whose or services.WHOLE_SITE}) is stored yet: this form logs "
+                               "it as a new night.")
+    return initial | {"loaded_as": services.night_stored_token(site, night, whose)}, stored
+
+
 @requires(TECHNICIAN)
 def night_log(request, slug):
     """Type in one night, or correct one (``?night=YYYY-MM-DD``, with ``&telescope=NAME`` for a telescope's own
-    night, fills the form with what is stored)."""
+    night, fills the form with what is stored). Figures stored that the page did not show (changed since it was
+    loaded, or a night already stored typed into a blank form) are shown before the form's go over them."""
     site = get_object_or_404(Site, slug=slug)
     telescopes = list(site.telescopes.order_by("name").values_list("name", flat=True))
-    stored = None
-    if request.method == "GET" and request.GET.get("night"):
-        written = nights_csv.WRITTEN_DATE.fullmatch(request.GET["night"].strip())
-        try:
-            night = dt.date.fromisoformat(written.group()) if written else None
-        except ValueError:
-            night = None
-        if night is None:
-            messages.warning(request, f"\"{request.GET['night']}\" is not a date as YYYY-MM-DD: a blank form instead.")
-        else:
-            whose = request.GET.get("telescope", "")
-            mine = {"telescope__name": whose} if whose else {"telescope__isnull": True}
-            stored = NightUsage.objects.filter(site=site, night=night, **mine).select_related("telescope").first()
-    initial = (
-        nights_csv.cells_of(stored) if stored
-        else {"night": services.latest_night(site).isoformat()}  # the night most likely being typed in
-    )
+    initial, stored = _night_asked(request, site, telescopes) if request.method != "POST" else ({}, None)
     form = NightForm(request.POST or None, initial=initial, telescopes=telescopes)
     if request.method == "POST" and form.is_valid():
+        stored_now = ""
+
+        def approve(changes: list[services.NightChange]) -> bool:  # asked inside the write, the night locked
+            nonlocal stored_now
+            stored_now = services.night_stored_token(site, changes[0].night, changes[0].telescope)
+            return stored_now == form.cleaned_data["loaded_as"]
+
         report = services.nights_ingest(
-            site, [form.record()], source=NightUsage.Source.FORM, by=request.user, reason="typed in on the log page"
+            site, [form.record()], source=NightUsage.Source.FORM, by=request.user, reason="typed in on the log page",
+            approve=approve,
         )
         for problem in report.errors:
             if problem.field not in form.fields:
@@ -325,7 +358,9 @@ def night_log(request, slug):
             if reason.startswith(f"{problem.field} "):
                 reason = f"{form.fields[problem.field].label}: {reason[len(problem.field) + 1:]}"
             form.add_error(problem.field, reason)
-        if not report.errors:  # the summary names whose night it is wherever that could be mistaken
+        if not report.errors and not report.stored:
+            form.stored_unseen(report.changes, stored_now)
+        elif not report.errors:  # the summary names whose night it is wherever that could be mistaken
             messages.success(request, f"Night {form.cleaned_data['night']}: {report.summary}")
             return redirect("nights-list", slug=site.slug)
     return render(request, "logbook/night_form.html", {
