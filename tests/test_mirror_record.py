@@ -307,6 +307,21 @@ def test_the_coating_form_says_the_recoat_plan_restarts(mirror, users, client):
     ]
 
 
+def test_an_old_coating_entered_late_is_not_said_to_start_the_decline(mirror, users, client):
+    """A bad-input review logged a coating dated before the one in force and was told "the decline starts again from
+    it": the later coating stays in force."""
+    today = _today(mirror)
+    client.force_login(users["technician"])
+    client.post(f"/mirrors/{mirror.pk}/coatings/new/",
+                {"coated_on": (today - dt.timedelta(days=2)).isoformat(), "metal": "al", "layers": "", "note": ""})
+    old = today - dt.timedelta(days=400)
+    response = client.post(f"/mirrors/{mirror.pk}/coatings/new/",
+                           {"coated_on": old.isoformat(), "metal": "al", "layers": "", "note": ""})
+    assert [str(m) for m in get_messages(response.wsgi_request)][-1] == (
+        f"Coating of {old:%d %b %Y} logged, in the mirror's history: the coating in force stays the later one of "
+        f"{today - dt.timedelta(days=2):%d %b %Y}, and the decline still runs from it.")
+
+
 def test_a_new_coating_restarts_the_mirrors_cleaning_plan_too(mirror, users):
     """The reviewer's case: a freshly coated mirror's cleaning plan still said "497 of 400 h, overdue"."""
     clean = ServicePlan.objects.get(subsystem=mirror.subsystem, triggers__metric=metrics.DUST_HOURS)

@@ -209,6 +209,10 @@ def _same_day_said(mirror: Mirror, day) -> str:
 
 
 def _coating_logged(mirror: Mirror, event) -> str:
+    later = mirror.coatings.filter(coated_on__gt=event.coated_on).order_by("-coated_on").first()
+    if later is not None:  # an old coating entered late (a bad-input review was told the decline started from it)
+        return (f"Coating of {event.coated_on:%d %b %Y} logged, in the mirror's history: the coating in force stays "
+                f"the later one of {later.coated_on:%d %b %Y}, and the decline still runs from it.")
     said = _restarted("New coating logged; the decline starts again from it",
                       services.plans_a_coating_restarts(mirror.subsystem), event.coated_on,
                       "this mirror has no recoat service plan")
