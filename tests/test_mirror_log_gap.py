@@ -12,6 +12,7 @@ from __future__ import annotations
 
 import datetime as dt
 import html as html_text
+import math
 import re
 
 import numpy as np
@@ -152,7 +153,14 @@ def test_after_the_log_begins_the_slope_is_fitted_from_the_logged_nights_and_the
     assert services.reflectance_now(state).basis.startswith(
         f"estimate from the fit at today's exposure ({state.exposure_now_h:,.1f} dust-weighted open hours since the "
         f"first logged night, 01 Jun 2026: the usage log begins on 01 Jun 2026; the {NIGHTS_BEFORE_LOG} nights from "
-        "the coating of 18 May 2024 to then are not logged), against the fitted value at the first logged night")
+        "the coating of 18 May 2024 to then are not logged), against the computed fresh value, as the recoat line: "
+        f"the fitted R0, {state.fit.r0:.4f}, is the value at the first logged night, not the fresh value")
+    # The train's loss since fresh is a fall from the computed fresh value too (an onboarding review read 0.030 mag
+    # from R0 where the fall from fresh was 0.068): -2.5 log10(now / fresh), by hand (Pogson's magnitude scale).
+    now = services.reflectance_now(state)
+    assert now.fresh == state.fresh_band
+    assert services.throughput(gap["mirror"].subsystem.telescope).loss_mag == pytest.approx(
+        -2.5 * math.log10(now.now / state.fresh_band), rel=1e-9)
     # The recoat line is a fall from fresh (Mirror.recoat_loss), so it is taken from the computed fresh value: R0 here
     # is already about 13 % below fresh, and a line from it would let the mirror fall a further 8 % first.
     assert state.threshold == pytest.approx(state.fresh_band * 0.92, rel=1e-12)
@@ -249,8 +257,8 @@ def test_a_recoat_order_overdue_by_the_calendar_names_that_trigger_first(gap):
     starts_on = today + dt.timedelta(days=30)
     plan = services.recoat_plan_create(mirror, starts_on, list(RECOAT_PHASES), 3.5, gap["users"]["engineer"])
     expected = (
-        f"The recoat plan Recoat primary is overdue on the due list, by its first trigger: {due.reason} Reflectance, "
-        f"secondary: reflectance not forecast to reach the recoat line {line} within three years; recoat window "
+        f"The recoat plan Recoat primary is overdue on the due list, by its first trigger: {due.reason} Also: "
+        f"reflectance not forecast to reach the recoat line {line} within three years; recoat window "
         f"{plan.starts_on:%d %b %Y} to {plan.ends_on:%d %b %Y}"
     )
     for order in plan.work_orders.all():

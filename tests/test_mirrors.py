@@ -437,6 +437,10 @@ def test_calendar_status_follows_the_work_order_state(mirror, users, client):
     type(removal).objects.filter(pk=realign.pk).update(state=State.WITHDRAWN)
     assert statuses() == {"removal": "CONFIRMED", "strip and coat": "CONFIRMED", "reinstall": "CONFIRMED",
                           "realignment and measurement": "CANCELLED", "window": "CONFIRMED"}
+    # Done work stays as history, its title saying it is done (an onboarding review read it as work to do).
+    summaries = [str(e["summary"]) for e in _events(client, slug)]
+    assert f"{removal.number} (done) {mirror.subsystem.telescope.name}: {removal.title}" in summaries
+    assert f"{coating.number} {mirror.subsystem.telescope.name}: {coating.title}" in summaries
     plan.work_orders.update(state=State.WITHDRAWN)
     assert set(statuses().values()) == {"CANCELLED"}  # the window too, once none of its orders is in force
 

@@ -75,8 +75,10 @@ def site_calendar(site: Site, base_url: str) -> bytes:
     for order in orders:
         address = base_url.rstrip("/") + order.get_absolute_url()
         where = f"{order.telescope.name}: " if order.telescope else ""
+        # Done work stays as history, said so in its title (an onboarding review read a finished order as work to do).
+        done = " (done)" if order.state in (State.FINISHED, State.COUNTERSIGNED) else ""
         all_day(f"workorder-{order.pk}", order.planned_date, last_day.get(order.pk, order.planned_date),
-                f"{order.number} {where}{order.title}", f"State: {order.get_state_display()}. {address}",
+                f"{order.number}{done} {where}{order.title}", f"State: {order.get_state_display()}. {address}",
                 EVENT_STATUS[order.state])
     for plan in plans:
         subsystem = plan.mirror.subsystem

@@ -481,6 +481,13 @@ def reflectance_now(state: MirrorForecast) -> ReflectanceNow:
                 f"against the computed fresh value: the fitted R0, {reflectance_text(state.fit.r0)}, is no "
                 "reflectance, so check the measurements (one entered in error is withdrawn on this page)"
             )
+        elif state.log_begins is not None:
+            # R0 at the first logged night is already below fresh, as the recoat line says: measured from it, the
+            # train's loss "since fresh" read less than half of the loss (an onboarding review).
+            fresh, against = state.fresh_band, (
+                f"against the computed fresh value, as the recoat line: the fitted R0, {reflectance_text(state.fit.r0)}"
+                ", is the value at the first logged night, not the fresh value"
+            )
         since = (f"the coating of {state.coated_on:%d %b %Y}" if state.log_begins is None else
                  f"the first logged night, {state.log_begins:%d %b %Y}: {state.log_gap_text}")
         return ReflectanceNow(
@@ -1350,8 +1357,8 @@ def recoat_reason(state: MirrorForecast, starts_on: dt.date, ends_on: dt.date, d
     reflectance_said = _reflectance_reason(state)
     if due is None or due.metric == metrics.RECOAT_LINE:
         return f"{reflectance_said}; {window}"
-    secondary = reflectance_said[0].lower() + reflectance_said[1:]
-    return f"{recoat_due_text(due)} Reflectance, secondary: {secondary}; {window}"
+    also = reflectance_said[0].lower() + reflectance_said[1:]
+    return f"{recoat_due_text(due)} Also: {also}; {window}"
 
 
 #: A recoat phase order's estimated hours for each day of its phase: one person's working day (our own planning

@@ -336,7 +336,8 @@ class FinishForm(forms.Form):
     # typed name matched to people's names let a typo or a nickname through and blocked a namesake.
     crew_members = _CrewMembersField(
         queryset=get_user_model().objects.none(), required=False, label="Crew with an account",
-        help_text="Tick the people of the site who did the work with you. None of them may countersign it.",
+        help_text="Tick the people who did the work with you (everyone of this installation with the technician role "
+        "or above is listed). None of them may countersign it.",
         error_messages={"invalid_pk_value": "Crew with an account: choose people from the list.",
                         "invalid_list": "Crew with an account: choose people from the list."},
     )

@@ -715,7 +715,8 @@ def countersign_refusal(order: WorkOrder, by) -> str:
     if why := second_person_refusal(order, by):
         whom = role_needed(order, "countersign")
         return (f"a second person must countersign: {why}. Someone else with the {whom} role or above who had no hand "
-                "in the work countersigns it")
+                "in the work countersigns it (where two people did it together, a third account: another site's "
+                "engineer, or the administrator)")
     return ""
 
 
