@@ -94,3 +94,21 @@ def test_the_preview_of_changes_to_stored_nights_names_it_before_anything_is_sto
     assert NightUsage.objects.get(night=SOLSTICE).open_hours == 2  # nothing stored yet
     assert ("nothing was stored yet. Check 1 night longer than the night before storing (correct the file and import "
             "it again): 20 Jun 2024: 20 h open, but that night lasts ") in preview.summary
+
+
+def test_a_night_sent_before_its_sunset_is_named_as_not_begun(sky):
+    """An onboarding review's control software sent "tonight" with 6 h open at 13:06 local, after local noon (so a
+    night that may be logged) but hours before its sunset: stored as sent, and now named. Measured to the moment it is
+    checked: before sunset nothing of the night has passed; between sunset and sunrise, the hours since sunset."""
+    from observatory_ops.logbook.selectors import nights_longer_than_the_night
+
+    reference = pyephem_night(sky, SOLSTICE)
+    night = NightUsage.objects.create(site=sky, night=SOLSTICE, open_hours=6)
+    before = reference["sunset"] - dt.timedelta(hours=7)
+    (said,) = nights_longer_than_the_night(sky, [night], now=before)
+    assert said.startswith("20 Jun 2024: 6 h open, but that night has not begun yet there (sunset 2")
+    midway = reference["sunset"] + dt.timedelta(hours=3)
+    (said,) = nights_longer_than_the_night(sky, [night], now=midway)
+    assert float(re.search(r"has lasted ([\d.]+) h there so far", said).group(1)) == pytest.approx(3.0, abs=0.06)
+    assert nights_longer_than_the_night(sky, [night], now=reference["sunset"] + dt.timedelta(hours=4.5)) == []
+    assert nights_longer_than_the_night(sky, [night], now=reference["sunrise"] + dt.timedelta(hours=2)) == []

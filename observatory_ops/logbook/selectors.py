@@ -4,6 +4,7 @@ from __future__ import annotations
 import datetime as dt
 
 from django.db.models import F, Max, Q
+from django.utils import timezone
 
 from observatory_ops.planning.models import NightSky
 from observatory_ops.registry.models import Site
@@ -62,10 +63,13 @@ def last_nights(site: Site) -> list[NightUsage]:
 LONGER_THAN_THE_NIGHT_H = 2.0
 
 
-def nights_longer_than_the_night(site: Site, nights: list[NightUsage]) -> list[str]:
+def nights_longer_than_the_night(site: Site, nights: list[NightUsage], now: dt.datetime | None = None) -> list[str]:
     """A sentence for each of ``nights`` whose open hours exceed that night at the site (sunset to sunrise, from the
     sky cache, ``planning.models.NightSky``) by more than ``LONGER_THAN_THE_NIGHT_H``; nights the cache does not hold
-    (the sky computed for the forecast years only) are not checked."""
+    (the sky computed for the forecast years only) are not checked. A night still going on at ``now`` (the present
+    moment by default) is measured to now: one sent in the afternoon, before its sunset, with hours open is named as
+    not begun yet (an onboarding review's control software sent "tonight" at 13:06, and nothing said so)."""
+    now = now or timezone.now()
     sky = {
         row.night: row for row in NightSky.objects.filter(site=site, night__in={n.night for n in nights}).only(
             "night", "sunset", "sunrise"
@@ -76,7 +80,7 @@ def nights_longer_than_the_night(site: Site, nights: list[NightUsage]) -> list[s
         cached = sky.get(night.night)
         if cached is None or cached.sunset is None or cached.sunrise is None:
             continue
-        length_h = (cached.sunrise - cached.sunset) / dt.timedelta(hours=1)
+        length_h = max((min(cached.sunrise, now) - cached.sunset) / dt.timedelta(hours=1), 0.0)
         if night.open_hours > length_h + LONGER_THAN_THE_NIGHT_H:
             long.append((night, cached, length_h))
     if not long:
@@ -86,10 +90,15 @@ def nights_longer_than_the_night(site: Site, nights: list[NightUsage]) -> list[s
     for night, cached, length_h in sorted(long, key=lambda n: (n[0].night, names.get(n[0].telescope_id, ""))):
         whose = f" ({names[night.telescope_id]})" if night.telescope_id else ""
         sunset, sunrise = cached.sunset.astimezone(site.zone), cached.sunrise.astimezone(site.zone)
-        found.append(
-            f"{night.night:%d %b %Y}{whose}: {night.open_hours:g} h open, but that night lasts {length_h:.1f} h there "
-            f"(sunset {sunset:%H:%M} to sunrise {sunrise:%H:%M})"
-        )
+        said = f"{night.night:%d %b %Y}{whose}: {night.open_hours:g} h open, but "
+        if now < cached.sunset:
+            said += f"that night has not begun yet there (sunset {sunset:%H:%M})"
+        elif now < cached.sunrise:
+            said += (f"that night has lasted {length_h:.1f} h there so far (sunset {sunset:%H:%M}, now "
+                     f"{now.astimezone(site.zone):%H:%M})")
+        else:
+            said += f"that night lasts {length_h:.1f} h there (sunset {sunset:%H:%M} to sunrise {sunrise:%H:%M})"
+        found.append(said)
     return found
 
 
