@@ -159,6 +159,23 @@ def test_ad_hoc_steps_in_their_groups_put_the_lockout_and_the_release_between_th
     ]
 
 
+def test_a_hand_back_typed_among_the_restore_steps_is_refused_as_the_order_adds_its_own(telescope, users, site, client):
+    """An onboarding review typed "Return the observatory to robotic control." after the locks: the order then had it
+    as a step of its own, tickable while another crew worked, before the held hand-back the order adds. Refused, saying
+    why; a step that only names a remote control is kept."""
+    belt = subsystem_create(telescope, "axis1_drive", "Drive", counting_from=dt.date(2026, 1, 1))
+    client.force_login(users["engineer"])
+    before = WorkOrder.objects.count()
+    data = {"title": "Replace the drive belt", "order_type": "corrective", "subsystems": [belt.pk],
+            "steps": "Replace the belt.", "restore": "Power up and test.\nReturn the observatory to robotic control."}
+    response = client.post(f"/sites/{site.slug}/workorders/new/", data)
+    assert response.status_code == 200 and WorkOrder.objects.count() == before
+    assert ("Leave out &quot;Return the observatory to robotic control.&quot;: the order adds the return to robotic "
+            "and remote control as its last step by itself") in response.content.decode()
+    data["restore"] = "Power up and test.\nCheck the remote control handset's batteries."
+    assert client.post(f"/sites/{site.slug}/workorders/new/", data).status_code == 302
+
+
 def test_work_without_energy_to_isolate_gets_no_lockout_step(telescope, users, site):
     other = subsystem_create(
         telescope, "other", "Eyepiece box", counting_from=dt.date(2026, 1, 1), no_hazards_found=True

@@ -271,7 +271,9 @@ class AdHocForm(forms.Form):
     restore = forms.CharField(
         widget=forms.Textarea(attrs={"rows": 3}), required=False, label="After the locks are off",
         help_text="One step a line: restoring and testing. The step that removes the locks, under the site's "
-        "lockout procedure, comes before these.",
+        "lockout procedure, comes before these; the order adds after them, by itself, the step that restores the "
+        "brake air where its lockout vents an air-released brake, and last the return to robotic and remote control "
+        "where it takes the observatory out of it (held until every crew on the telescope is done): leave those out.",
     )
 
     def __init__(self, *args, site, **kwargs):
@@ -283,6 +285,24 @@ class AdHocForm(forms.Form):
     def clean_planned_date(self):
         planned = self.cleaned_data["planned_date"]
         return planned if planned is None else planned_date_plausible(planned, self._today)
+
+    def clean_restore(self):
+        """A hand-back to robotic or remote control typed here would be a step of its own, ticked while another crew
+        still works on the telescope: the order's own (``catalogue.HAND_BACK``) is held until every crew is done, and
+        added by itself (an onboarding review typed one, and the order had two, the typed one first and not held)."""
+        text = self.cleaned_data["restore"]
+        typed = [line.strip() for line in text.splitlines() if _HANDS_BACK.search(line)]
+        if typed:
+            raise forms.ValidationError(
+                f"Leave out \"{typed[0]}\": the order adds the return to robotic and remote control as its last step "
+                "by itself, held until every crew on the telescope is done; a step typed here would not be held."
+            )
+        return text
+
+
+#: A step in a person's words that hands the observatory back to robotic or remote control ("Return the observatory
+#: to robotic control"), not one that only names a remote control ("Check the remote control's batteries").
+_HANDS_BACK = re.compile(r"\b(return|hand|give|put|set|switch|restore|bring)\w*\b.*\b(robotic|remote)\b", re.IGNORECASE)
 
 
 #: What the finish form says beside a questioned figure (``FinishForm.beyond_limits``, ``above_fresh``,
