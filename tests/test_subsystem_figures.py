@@ -21,6 +21,7 @@ from observatory_ops.planning import services
 from observatory_ops.planning.models import NightSky, PlanStatus
 from observatory_ops.planning.plots import accumulation_svg
 from observatory_ops.planning.selectors import significant
+from observatory_ops.registry.models import Subsystem
 
 # --- round ticks: P. S. Heckbert, "Nice numbers for graph labels", Graphics Gems (1990), loose labelling ---
 
@@ -214,3 +215,46 @@ def test_the_dashboard_says_when_an_item_needing_attention_is_already_on_a_work_
     assert f'On <a href="{order.get_absolute_url()}">{order.number}</a> (draft)' in page
     assert f"reached {overdue.forecast_date:%d %b %Y}" in page
     assert len(after.captured_queries) == len(before.captured_queries)  # one query for the orders, found or not
+
+
+def test_the_expected_use_by_month_counts_no_use_on_a_recoats_nights_as_the_forecast(db, users, client):
+    """An onboarding review could not match a brake's forecast to the table, which counted the nights of a recoat in
+    hand as used: the table now has the nights out of each month, the use per day in service, and running totals with
+    nothing added on the nights out; the forecast is rebuilt from it as above, (nights - out) x per day a month."""
+    from observatory_ops.calc.windows import RECOAT_PHASES
+    from observatory_ops.mirrors import services as mirror_services
+    from observatory_ops.mirrors.models import CoatingEvent, Mirror
+
+    site = _seasonal_site("traced-out")
+    telescope = site.telescopes.get()
+    primary = telescope.subsystems.filter(kind="primary_mirror").first() or Subsystem.objects.create(
+        telescope=telescope, kind="primary_mirror", name="Primary mirror")
+    mirror = Mirror.objects.create(subsystem=primary, diameter_mm=500, thickness_mm=50, hole_mm=120,
+                                   material="borosilicate", cell_mass_kg=30)
+    CoatingEvent.objects.create(mirror=mirror, coated_on=services.site_today(site) - dt.timedelta(days=300),
+                                metal="al")
+    recoat = mirror_services.recoat_plan_create(mirror, services.site_today(site) + dt.timedelta(days=20),
+                                                list(RECOAT_PHASES), 10.0, users["engineer"])
+    fans = telescope.subsystems.get(kind="cooling_fans")
+    status = PlanStatus.objects.get(plan__subsystem=fans, plan__name__startswith="Check fan")
+    hours = next(t for t in status.trigger_rows if t["metric"] == "open_hours")
+    forecast_on = dt.date.fromisoformat(hours["forecast"])
+    client.force_login(users["viewer"])
+    page = client.get(fans.get_absolute_url()).content.decode()
+    assert f"the planned recoat of {telescope.name}: {primary.name} ({recoat.starts_on:%d %b %Y} to " in page
+    rows = _month_rows(page)
+    assert sum(int(row[3]) for row in rows) == recoat.nights  # every night of the recoat, in its months
+    first_day = dt.datetime.strptime(re.search(r"total counts from\s+(\d\d \w{3} \d{4})", page)[1], "%d %b %Y").date()
+    remaining, total, found = hours["limit"] - hours["value"], 0.0, None
+    for month, nights, dark, out, fraction, _pm10, _excess, per_day, *_ in rows:
+        in_service, per_day = int(nights) - int(out), float(per_day)
+        if not int(out):  # (a month with nights out: its dark hours are the whole month's mean, per day the rest's)
+            assert float(dark) * float(fraction.split()[0]) == pytest.approx(per_day, rel=5e-3)
+        start = max(first_day, dt.datetime.strptime(month, "%b %Y").date())
+        if total + in_service * per_day >= remaining:
+            found = start + dt.timedelta(days=math.ceil((remaining - total) / per_day) - 1)
+            break
+        total += in_service * per_day
+    # Within the month found, the nights out are counted as at its end: up to the recoat's length off, plus the
+    # rounding of the test above.
+    assert found is not None and abs((found - forecast_on).days) <= recoat.nights + 2

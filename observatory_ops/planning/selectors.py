@@ -18,7 +18,7 @@ from observatory_ops.logbook.quantities import (
     unit_of,
 )
 from observatory_ops.registry.catalogue import COMMON_PRACTICE, KINDS
-from observatory_ops.registry.models import Site, Subsystem
+from observatory_ops.registry.models import Site, Subsystem, is_shared_enclosure
 
 from . import metrics, plots
 from .models import (
@@ -496,7 +496,7 @@ def expected_use_by_month(subsystem: Subsystem, plans: list[ServicePlan]) -> dic
     the first forecast night. A forecast is the day that running total reaches the trigger's limit less its
     value now. Rows run to the month of the furthest forecast shown, and at least ``EXPECTED_USE_MONTHS``.
     """
-    from .services import UsageLog, forecast_model, site_today
+    from .services import UsageLog, downtimes_of, forecast_model, site_today, without_downtime
 
     counted = metrics.USAGE_FIELDS.keys() | {metrics.DUST_HOURS}
     columns = [(metrics.OPEN_HOURS, 0.0)]  # every other figure is made from the expected open hours
@@ -522,6 +522,14 @@ def expected_use_by_month(subsystem: Subsystem, plans: list[ServicePlan]) -> dic
     if furthest is not None:
         last = max(last, np.datetime64(furthest, "M"))
     expected = [model.expected(metric, sens) for metric, sens in columns]
+    # A recoat in hand takes the telescope out: its nights expect no use, as the forecasts take them (an onboarding
+    # review could not match a brake's forecast to this table, which counted them).
+    downtimes = downtimes_of(site, subsystem.telescope_id, is_shared_enclosure(site, subsystem.kind),
+                             site_today(site))
+    out_days = np.zeros(len(days), dtype=bool)
+    if downtimes:
+        expected = [without_downtime(e, model.first_day, downtimes)[0] for e in expected]
+        out_days = without_downtime(np.ones(len(days)), model.first_day, downtimes)[0] == 0.0
     running = [np.cumsum(e) for e in expected]
     rows = []
     for month in np.unique(month_of_day[month_of_day <= last]):
@@ -537,9 +545,10 @@ def expected_use_by_month(subsystem: Subsystem, plans: list[ServicePlan]) -> dic
             "logged_nights": int(logged[calendar]),
             "pm10": None if np.isnan(model.month_pm10[calendar]) else float(model.month_pm10[calendar]),
             "excess": float(model.month_excess[calendar]),
-            # (per day, running total at the month's end) of each column
-            "figures": [(rate_text(float(e[index].mean())), f"{r[index[-1]]:,.0f}")
-                        for e, r in zip(expected, running, strict=True)],
+            "out": int(out_days[index].sum()),
+            # (per day in service, running total at the month's end) of each column: the nights out add nothing
+            "figures": [(rate_text(float(e[index][~out_days[index]].mean()) if (~out_days[index]).any() else 0.0),
+                         f"{r[index[-1]]:,.0f}") for e, r in zip(expected, running, strict=True)],
         })
     headers = [
         metrics.METRICS[metric][0] + (f" (dust sensitivity {sens:g})" if metric == metrics.DUST_HOURS else "")
@@ -552,6 +561,8 @@ def expected_use_by_month(subsystem: Subsystem, plans: list[ServicePlan]) -> dic
         "dust_basis": model.dust_basis if any(m == metrics.DUST_HOURS for m, _ in columns) else "",
         "prior": forecast.PRIOR_OPEN_FRACTION, "least_nights": forecast.MIN_NIGHTS_FOR_HISTORY,
         "clean_air": exposure.CLEAN_AIR_PM10_UGM3,
+        "downtimes": [f"{d.what} ({d.first:%d %b %Y} to {d.last:%d %b %Y}"
+                      f"{'; ' + d.changed if d.changed else ''}): {d.out}" for d in downtimes],
     }
 
 

@@ -685,7 +685,7 @@ def _site_recompute(site: Site, today: dt.date) -> int:
         reached = exposure.reached_on(log.nights, per_night, since, limits)  # the night a limit was passed
         expected, down = model.expected(metric, sens), ""
         if out is not None:
-            expected, down = _without_downtime(expected, first_day, downtime[out])
+            expected, down = without_downtime(expected, first_day, downtime[out])
         start = np.maximum((since - first_counted).astype(np.int64), 0)
         central, early, late = forecast.days_reached(limits - values, expected, model.spread, start)
         rate = float(expected[ahead:][:30].mean()) if len(expected) > ahead else 0.0
@@ -1019,13 +1019,22 @@ def recoats_in_hand(site: Site):
 def _downtime_by_telescope(site: Site, today: dt.date) -> dict[int, list[Downtime]]:
     """The site's telescopes out of service for a recoat in hand (``recoats_in_hand``), each with its downtimes
     (``recoat_downtime``: its days as its orders now stand), past days too (unlogged nights are counted from the first
-    of them, ``_without_downtime``)."""
+    of them, ``without_downtime``)."""
     down: dict[int, list[Downtime]] = {}
     for plan in recoats_in_hand(site):
         down.setdefault(plan.mirror.subsystem.telescope_id, []).append(recoat_downtime(plan, today))
     for downtimes in down.values():
         downtimes.sort(key=lambda d: d.first)
     return down
+
+
+def downtimes_of(site: Site, telescope_id: int, whole_site: bool, today: dt.date) -> list[Downtime]:
+    """The downtimes a counter of ``telescope_id`` expects no use on, as the recompute takes them: its telescope's
+    recoats in hand, or for an enclosure all the site's telescopes share (``whole_site``) the nights all are out."""
+    down = _downtime_by_telescope(site, today)
+    if whole_site:
+        return _all_out(down, list(site.telescopes.values_list("pk", flat=True))) if down else []
+    return down.get(telescope_id, [])
 
 
 def _all_out(downtime: dict[int, list[Downtime]], telescopes: list[int]) -> list[Downtime]:
@@ -1050,7 +1059,7 @@ def _all_out(downtime: dict[int, list[Downtime]], telescopes: list[int]) -> list
     return runs
 
 
-def _without_downtime(expected: np.ndarray, first_day: dt.date, downtimes: list[Downtime]) -> tuple[np.ndarray, str]:
+def without_downtime(expected: np.ndarray, first_day: dt.date, downtimes: list[Downtime]) -> tuple[np.ndarray, str]:
     """``expected`` (a counter's use per night from ``first_day`` on) with the nights of ``downtimes`` set to 0, and
     what its basis says of them."""
     expected, said = expected.copy(), ""
