@@ -324,12 +324,24 @@ class NightsUploadForm(forms.Form):
     )
     #: The token of the changes to stored nights the page listed (``services.nights_import``); empty at first.
     confirm = forms.CharField(required=False, widget=forms.HiddenInput)
+    #: The name of the file the page asked about, its name saying it is another site's log
+    #: (``services.other_site_named``); empty at first. The box that imports it all the same is shown with it.
+    asked_file = forms.CharField(required=False, widget=forms.HiddenInput)
 
-    def __init__(self, *args, kept_token: str = "", **kwargs):
+    def __init__(self, *args, kept_token: str = "", site_name: str = "", **kwargs):
         super().__init__(*args, **kwargs)
         self.kept_token = kept_token  # the file whose changes carry this token is kept: none need be chosen
         if kept_token:
             self.fields["file"].help_text = "The same file is kept: choose none to store the changes listed above."
+        if asked := self["asked_file"].value():
+            self.fields["other_site"] = forms.BooleanField(
+                required=False, label=f"Import it into {site_name} all the same",
+                help_text=f"Tick this and choose {asked} again to import it here.",
+            )
+
+    def other_site_accepted(self, file_name: str) -> bool:
+        """Whether the box the page asked with is ticked, and the file chosen is the one it asked about."""
+        return bool(self.cleaned_data.get("other_site")) and self.cleaned_data["asked_file"] == file_name
 
     def clean_file(self):
         upload = self.cleaned_data["file"]

@@ -21,6 +21,7 @@ from __future__ import annotations
 import csv
 import datetime as dt
 import io
+import itertools
 import json
 import math
 import re
@@ -543,6 +544,60 @@ def _header_problem(columns: dict[int, str], first_line: str) -> str | None:
 #: How many unknown columns a refusal names before it counts the rest (a file of another kind may have hundreds).
 UNKNOWN_NAMED = 10
 
+#: The name the log's download gives its file (``logbook.views.nights_csv_download``): the site's slug, "-nights-", the
+#: first and last night logged, ".csv"; a browser saving a second copy adds " (1)" or "(1)" before ".csv". The slug may
+#: itself hold "-nights-": the dates at the end are fixed, so the slug is whatever comes before them.
+DOWNLOAD_NAME = re.compile(
+    r"(?P<slug>.+)-nights-[0-9]{4}-[0-9]{2}-[0-9]{2}-[0-9]{4}-[0-9]{2}-[0-9]{2}(?: ?\([0-9]+\))?\.csv", re.IGNORECASE
+)
+
+
+def download_name(slug: str, first: dt.date, last: dt.date) -> str:
+    """The name the log's download gives its file, which ``DOWNLOAD_NAME`` reads back."""
+    return f"{slug}-nights-{first.isoformat()}-{last.isoformat()}.csv"
+
+
+def slug_named(file_name: str) -> str | None:
+    """The slug of the site whose downloaded log ``file_name`` is by its name (``DOWNLOAD_NAME``), or None for a name
+    that is not a download's."""
+    named = DOWNLOAD_NAME.fullmatch(file_name.strip())
+    return named.group("slug") if named else None
+
+
+def _names(cells: Sequence[str]) -> list[str]:
+    """A line's cells as column names are compared: trimmed, in lower case, without the blank cells at its end."""
+    names = [c.strip().lower() for c in cells]
+    while names and not names[-1]:
+        names.pop()
+    return names
+
+
+def _is_header(cells: Sequence[str]) -> bool:
+    """Whether a line names columns instead of giving a night: every cell is blank or a column's name, the required
+    ones among them (a night's own row has a date where a header has night)."""
+    names = _names(cells)
+    return all(name in names for name in REQUIRED) and all(name in COLUMNS for name in names if name)
+
+
+def _split_figures(cells: Sequence[str]) -> list[tuple[str, str]]:
+    """Each two cells side by side that a point would join into a plain number ("7" and "5": 7.5)."""
+    trimmed = [c.strip() for c in cells]
+    return [(left, right) for left, right in itertools.pairwise(trimmed)
+            if left and right and PLAIN_NUMBER.fullmatch(f"{left}.{right}")]
+
+
+def _too_many_fields(cells: Sequence[str], header: Sequence[str]) -> str:
+    """Why a row with more fields than the header is refused; where a point joining two fields side by side would make
+    a plain number, with the hint of a decimal comma (a spreadsheet in a locale that writes 7,5 for 7.5 saves it
+    unquoted). The figure is named when only one pair of fields could be one; with several, the example is 7,5."""
+    said = f"has {len(cells)} fields, the header has {len(header)}"
+    pairs = _split_figures(cells)
+    if not pairs:
+        return said
+    left, right = pairs[0] if len(pairs) == 1 else ("7", "5")
+    return (f"{said}; a decimal comma may have split a figure in two ({left},{right} read as {left} and {right}): "
+            f"figures take a point ({left}.{right})")
+
 #: The first line Excel writes, and reads, to say which character separates the columns ("sep=,"). A "sep=," line is
 #: skipped; another separator is refused, as a file separated by semicolons is.
 SEPARATOR_LINE = re.compile(r"sep=.", re.IGNORECASE)
@@ -596,7 +651,7 @@ def parse(text: str, latest_night: dt.date, telescopes: Sequence[str] = ()) -> P
             return result
         next(reader)  # skipped; the reader still counts it, so every line keeps its number in the file
         header_line = head.readline().rstrip("\n")
-    start = reader.line_num + 1
+    start = header_number = reader.line_num + 1
     try:
         header = [h.strip().lower() for h in next(reader, [])]
     except csv.Error as exc:
@@ -626,10 +681,25 @@ def parse(text: str, latest_night: dt.date, telescopes: Sequence[str] = ()) -> P
     if problem:
         result.refuse(None, problem)
         return result
+    # A second header naming other columns, or the same in another order: the nights after it would be read under the
+    # first header's columns, some figures in the wrong ones, so no row of the file is read.
+    other_header = next((line for line, cells in lines
+                         if isinstance(cells, list) and _is_header(cells) and _names(cells) != _names(header)), None)
+    if other_header:
+        result.refuse(None, f"line {other_header} is a second header line, its columns not those of line "
+                      f"{header_number}, as where two files were joined: the nights after it would be read under the "
+                      "wrong columns; put all the nights under one header line")
+        return result
     for line, cells in lines:
         if isinstance(cells, str):
             result.refuse(line, cells)
-        elif len(cells) != len(header):
+        elif _is_header(cells):  # the same as the first (any other was refused above)
+            # Two files joined, each with its header: one message for the line, not one per column.
+            result.refuse(line, f"repeats the header line (line {header_number}), as where two files were joined; "
+                          "remove this line")
+        elif len(cells) > len(header):
+            result.refuse(line, _too_many_fields(cells, header))
+        elif len(cells) < len(header):
             result.refuse(line, f"has {len(cells)} field{pluralize(len(cells))}, the header has {len(header)}")
         else:
             result.add(line, {name: cells[position] for position, name in columns.items()})

@@ -248,6 +248,16 @@ def nights_import(
     return report
 
 
+def other_site_named(site: Site, file_name: str) -> Site | None:
+    """The other site of this installation whose log the file's name says the file is: the name the log's download
+    gives it (``nights_csv.slug_named``) with the slug of a site other than ``site``. None for a name that names no
+    site, or ``site`` itself. The upload page asks before importing such a file (``views.nights_import``)."""
+    slug = nights_csv.slug_named(file_name)
+    if slug is None or slug == site.slug:
+        return None
+    return Site.objects.filter(slug=slug).first()
+
+
 def _site_telescopes(site: Site) -> dict[str, Telescope]:
     """The site's telescopes by name: the names a record may give as its ``telescope``."""
     return {telescope.name: telescope for telescope in Telescope.objects.filter(site=site).order_by("name")}

@@ -284,7 +284,8 @@ def nights_csv_download(request, slug):
          for cells in map(nights_csv.cells_of, rows.iterator(chunk_size=NIGHTS_CSV_CHUNK))),
     )
     response = StreamingHttpResponse(lines, content_type="text/csv; charset=utf-8")
-    response["Content-Disposition"] = f'attachment; filename="{site.slug}-nights-{span["first"]}-{span["last"]}.csv"'
+    response["Content-Disposition"] = (
+        f'attachment; filename="{nights_csv.download_name(site.slug, span["first"], span["last"])}"')
     return response
 
 
@@ -376,38 +377,56 @@ _PENDING_IMPORT = "nights_import_pending"
 
 @requires(TECHNICIAN)
 def nights_import(request, slug):
+    """Import a nights CSV into this site. A file whose name is the log's download name of another site of this
+    installation (``services.other_site_named``) is not read: the page says whose log it is and offers a box that,
+    ticked with the same file chosen again, imports it all the same (``NightsUploadForm.other_site_accepted``)."""
     site = get_object_or_404(Site, slug=slug)
     pending = request.session.get(_PENDING_IMPORT)
     kept = pending if pending and pending[0] == site.pk else None
-    form = NightsUploadForm(request.POST or None, request.FILES or None, kept_token=kept[1] if kept else "")
-    report = None
+    form = NightsUploadForm(request.POST or None, request.FILES or None, kept_token=kept[1] if kept else "",
+                            site_name=site.name)
+    report = other_site = None
     if request.method == "POST" and form.is_valid():
         data = form.cleaned_data
-        upload = data["file"].read() if data["file"] else kept[2].encode("utf-8")
+        chosen = data["file"]
+        # A file chosen replaces the kept one (if any); a question about it stores nothing and keeps nothing either.
         request.session.pop(_PENDING_IMPORT, None)
-        report = services.nights_import(
-            site, upload, skip_bad=data["skip_bad"], by=request.user, confirmed=data["confirm"]
-        )
-        if report.confirm_token:
-            request.session[_PENDING_IMPORT] = (site.pk, report.confirm_token, upload.decode("utf-8"))
-        # The result is said once, by these messages; the report's panel below holds only its details.
-        if report.file_problem:
-            messages.error(request, report.summary)
-        elif report.errors:
-            messages.error(request, f"Import refused: {report.summary}")
-        elif report.confirm_token:
-            messages.warning(request, report.summary)
+        other_site = services.other_site_named(site, chosen.name) if chosen else None
+        if other_site and not form.other_site_accepted(chosen.name):
+            messages.warning(
+                request, f"Nothing was stored: the file's name, {chosen.name}, says it is the log of "
+                f"{other_site.name}, and this is {site.name}'s import page. To import it into {site.name} all the "
+                "same, tick the box below and choose the same file again.",
+            )
+            form = NightsUploadForm(initial={"skip_bad": data["skip_bad"], "asked_file": chosen.name},
+                                    site_name=site.name)
         else:
-            messages.success(request, f"Import done: {report.summary}")
-        # Browsers never keep a chosen file: the session keeps the one whose changes the page asks to confirm, and
-        # the form carries their token; otherwise a plain import, the token sent (if any) spent or refused with it.
-        form = NightsUploadForm(initial={"skip_bad": data["skip_bad"], "confirm": report.confirm_token},
-                                kept_token=report.confirm_token)
+            other_site = None
+            upload = chosen.read() if chosen else kept[2].encode("utf-8")
+            report = services.nights_import(
+                site, upload, skip_bad=data["skip_bad"], by=request.user, confirmed=data["confirm"]
+            )
+            if report.confirm_token:
+                request.session[_PENDING_IMPORT] = (site.pk, report.confirm_token, upload.decode("utf-8"))
+            # The result is said once, by these messages; the report's panel below holds only its details.
+            if report.file_problem:
+                messages.error(request, report.summary)
+            elif report.errors:
+                messages.error(request, f"Import refused: {report.summary}")
+            elif report.confirm_token:
+                messages.warning(request, report.summary)
+            else:
+                messages.success(request, f"Import done: {report.summary}")
+            # Browsers never keep a chosen file: the session keeps the one whose changes the page asks to confirm, and
+            # the form carries their token; otherwise a plain import, the token sent (if any) spent or refused with it.
+            form = NightsUploadForm(initial={"skip_bad": data["skip_bad"], "confirm": report.confirm_token},
+                                    kept_token=report.confirm_token)
     return render(
         request,
         "logbook/nights_import.html",
         {
-            "site": site, "form": form, "report": report, "columns": nights_csv.COLUMN_SPECS,
+            "site": site, "form": form, "report": report, "other_site": other_site,
+            "columns": nights_csv.COLUMN_SPECS,
             # The example shows the whole site's row and the same night of two of the site's telescopes.
             "example": nights_csv.example_csv(site.telescopes.order_by("name").values_list("name", flat=True)[:2]),
             "telescope_rule": TELESCOPE_RULE, "earliest": nights_csv.earliest_accepted(services.latest_night(site)),
