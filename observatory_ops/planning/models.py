@@ -122,34 +122,30 @@ class ServicePlan(models.Model):
             raise ValidationError(errors)
 
     def _subsystem_kept_problem(self) -> str | None:
-        """Why a stored plan may not go to the subsystem now chosen: one at another site (its records and due state
-        are its site's), or any other once anything is recorded under the plan (service records, work orders): those
-        were the first subsystem's work. An onboarding review moved a servo drive's plan to another site's focuser
-        unsaid: the drive's maintenance left its due list. A plan just made on the wrong subsystem, with nothing
-        recorded, moves within its site."""
+        """Why a stored plan may not go to the subsystem now chosen: anything is recorded under it (service records,
+        work orders), which was the first subsystem's work and would read as the other's, at its site or another (an
+        onboarding review moved a servo drive's plan, with its service, to another site's focuser unsaid: the drive's
+        maintenance left its due list). A plan made on the wrong subsystem, with nothing recorded, moves, as a
+        telescope entered under the wrong site does (tests/test_register_moves.py: both sites are recomputed)."""
         from observatory_ops.workorders.models import WorkOrder  # work orders build on planning
 
         if self._state.adding or not self.subsystem_id:
             return None
-        stored = (ServicePlan.objects.filter(pk=self.pk)
-                  .values_list("subsystem_id", "subsystem__telescope__site_id").first())
-        if stored is None or stored[0] == self.subsystem_id:
+        stored = ServicePlan.objects.filter(pk=self.pk).values_list("subsystem_id", flat=True).first()
+        if stored is None or stored == self.subsystem_id:
             return None
-        was = Subsystem.objects.select_related("telescope").get(pk=stored[0])
-        if self.subsystem.telescope.site_id != stored[1]:
-            return (f"A plan stays at its site: its records and due state are {was.telescope.site}'s. Make a new plan "
-                    "on the other subsystem, and set this one inactive if it no longer applies here.")
         records = self.service_records.count()
         orders = [o.number for o in WorkOrder.objects.filter(items__plan=self).distinct().order_by("pk")]
         if not records and not orders:
             return None
+        was = Subsystem.objects.select_related("telescope__site").get(pk=stored)
         said = "; ".join(filter(None, (
             f"{records} service record{'s' if records != 1 else ''}" if records else "",
             f"work orders {', '.join(orders)}" if orders else "",
         )))
-        return (f"This plan has records on {was.telescope.name}: {was.name} ({said}): that subsystem's work, which "
-                "would read as the other's. Make a new plan on the other subsystem, and set this one inactive if it no "
-                "longer applies to this one.")
+        return (f"This plan has records on {was.telescope.site}: {was.telescope.name}: {was.name} ({said}): that "
+                "subsystem's work, which would read as the other's. Make a new plan on the other subsystem, and set "
+                "this one inactive if it no longer applies to this one.")
 
     def _counting_from_problem(self) -> str | None:
         """Why the counting date, new or changed, cannot be: the plan counts from it as from a last service, so it
