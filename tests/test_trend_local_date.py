@@ -105,3 +105,8 @@ def test_the_forecast_and_both_ends_of_its_band_are_local_dates(db, users):
     central, earliest, latest = (max(_local_date(pivot_x + (LIMIT_S - pivot_y) / s), TODAY) for s in (slope, high, low))
     assert earliest < central < latest  # the scatter gives the band width
     assert (status.forecast_date, status.earliest, status.latest) == (central, earliest, latest)
+    # The basis gives the line's value at the first reading too, so the date can be rebuilt from the page (an
+    # onboarding review had to guess the intercept): the line through the median point, at day 0.
+    from observatory_ops.planning.selectors import significant
+
+    assert f"the line at {significant(pivot_y - slope * pivot_x)} s on " in status.basis

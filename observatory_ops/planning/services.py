@@ -1161,9 +1161,12 @@ def _reading_state(trig, readings, today: dt.date, zone, since: str) -> TriggerS
         on = trend_date(origin, offset, zone)
         return None if on is None else max(on, today)
 
+    # The line's intercept too, where it starts: an onboarding review could rebuild the date only by guessing it.
     basis = (
         f"Theil-Sen trend of {counted}: {significant(fit.slope_per_day, signed=True)} {unit}/day "
-        f"(95 % interval {significant(fit.slope_low, signed=True)} to {significant(fit.slope_high, signed=True)})"
+        f"(95 % interval {significant(fit.slope_low, signed=True)} to {significant(fit.slope_high, signed=True)}), "
+        f"the line at {significant(fit.intercept)} {unit} on {origin.astimezone(zone):%d %b %Y %H:%M}, the first of "
+        "them (the line through the median reading at the median of their days since)"
         if fit
         else no_fit
     )
