@@ -169,6 +169,18 @@ def _negative_slews(path: Path) -> Path:
     return _edited(path, edit)
 
 
+def _night_twice(path: Path) -> Path:
+    """The second night of the file given the first one's date and owner: each row's values pass, the two break the
+    one-night-per-site rule of the database."""
+    def edit(rows):
+        first, second = [row for row in rows if row["model"] == "logbook.nightusage"][:2]
+        for name in ("night", "telescope"):
+            second["fields"][name] = first["fields"][name]
+        return rows
+
+    return _edited(path, edit)
+
+
 def _nights_deleted(path: Path) -> Path:
     return _edited(path, lambda rows: [row for row in rows if row["model"] != "logbook.nightusage"])
 
@@ -191,7 +203,9 @@ def _open_hours_changed_in_place(path: Path) -> Path:
     ("record.json", _night_at_a_missing_site,
      r"record\.json: a row points at a row that is not in the file \(.*logbook_nightusage.*\)"),
     ("record.json", _negative_slews,
-     r"record\.json: row logbook\.nightusage 1 breaks a rule of the database \(.*slews.*\)"),
+     r"record\.json holds 1 value that would be refused on entry, .+: logbook\.nightusage 1 \(row [\d,]+ of the "
+     r"file\): slews cannot be below 0 \(got -3\)"),
+    ("record.json", _night_twice, r"record\.json: row logbook\.nightusage \d+ breaks a rule of the database"),
     ("record.json", _nights_deleted,
      rf"record\.json does not hold the rows its header counts \(logbook\.nightusage: {NIGHTS_LOGGED + 1} in the "
      r"header, 0 restored\)"),

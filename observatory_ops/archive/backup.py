@@ -9,11 +9,14 @@ Restore reads and checks the whole file first (the checksum catches an edit that
 no seal: an editor who also rewrites the header's checksum passes it), and refuses a backup taken at other
 migrations than the database's: rows written by an older version go into the newer tables without the data
 migrations of the upgrade (a hazard a later migration added would be missing), so such a backup is restored
-with the version that wrote it and then upgraded with ``migrate``. Then it loads everything in one
-transaction: it checks the references between rows, compares the rows restored per table with the header's
-counts, moves the database's id sequences past the restored ids (PostgreSQL; as ``loaddata`` does) and
-recomputes every site's due states (derived rows are not backed up). A refusal or failure at any point
-leaves the database as it was.
+with the version that wrote it and then upgraded with ``migrate``. Since the checksum is no seal, every row's
+values are then checked by the rules the product applies on entry (``_value_problems``: each field's own validators,
+and a night's figures by the nights format's), and a file with one refused value is refused whole, its rows named.
+Then it loads everything in one transaction: it checks the references between rows, compares the rows restored
+per table with the header's counts, moves the database's id sequences past the restored ids (PostgreSQL; as
+``loaddata`` does) and recomputes every site's due states (derived rows are not backed up). A refusal or failure
+at any point, an unforeseen error included (``_failure_named``), leaves the database as it was and is said in one
+sentence naming what failed.
 """
 from __future__ import annotations
 
@@ -23,13 +26,21 @@ import hashlib
 import json
 import os
 import zlib
+from collections.abc import Iterator
+from contextlib import contextmanager
 from pathlib import Path
 
 from django.apps import apps
 from django.core import serializers
+from django.core.exceptions import ValidationError
 from django.core.management.color import no_style
 from django.db import DataError, IntegrityError, connection, transaction
 from django.db.migrations.executor import MigrationExecutor
+from django.template.defaultfilters import pluralize
+from django.utils import timezone
+
+from observatory_ops.calc.night_of import night_of
+from observatory_ops.logbook import nights_csv
 
 FORMAT = "observatory_ops-backup/2"
 #: Backups that record no migrations: this version cannot tell which data migrations they missed.
@@ -42,6 +53,8 @@ APPS = ("auth", "registry", "planning", "logbook", "workorders", "mirrors", "api
 _SKIP = {"auth.permission", "planning.planstatus"}
 #: Tables named in full when restore refuses a database that already holds rows.
 _BUSY_NAMED = 8
+#: Refused values named in full when restore refuses a file for its values (an edit may touch thousands of rows).
+_PROBLEMS_NAMED = 10
 
 
 def _models():
@@ -205,6 +218,125 @@ def _one_line(exc: Exception) -> str:
     return " ".join(str(exc).split())
 
 
+def _field_problems(model, fields: dict) -> dict[str, str]:
+    """Why each field of a stored row is refused by its own validators (``Model.clean_fields``), by field name.
+
+    Left to the database, which checks them as the rows are loaded: relations (the row pointed at may come later in
+    the file) and uniqueness (``clean_fields`` never checks it). Empty values are left out too: "blank" is a rule of
+    the forms, code stores empty values where no form asks (a history row's change reason), and a NOT NULL column
+    refuses a missing value itself.
+    """
+    given = {
+        field.name: field for field in model._meta.concrete_fields
+        if not field.is_relation and not field.primary_key and field.name in fields
+        and fields[field.name] not in field.empty_values
+    }
+    row = model(**{field.attname: fields[name] for name, field in given.items()})
+    try:
+        row.clean_fields(exclude=[field.name for field in model._meta.fields if field.name not in given])
+    except ValidationError as exc:
+        return {
+            name: f"{name} {nights_csv.shown(fields[name])}: {' '.join(messages).rstrip('.')}"
+            for name, messages in exc.message_dict.items()
+        }
+    except (TypeError, ValueError) as exc:  # a value of a shape no field reads (a list for a date)
+        return {"": f"a value cannot be read ({_one_line(exc)})"}
+    return {}
+
+
+class _NightRules:
+    """The nights format's checks (``logbook.nights_csv``: those of the CSV import and the API) of the nightly usage
+    rows of one backup written at ``written_at``, each row's telescope named as the format names it."""
+
+    def __init__(self, rows: list[dict], written_at: dt.datetime):
+        telescopes = {row.get("pk"): row["fields"] for row in rows if row["model"] == "registry.telescope"}
+        self.telescope_names = {pk: fields.get("name") for pk, fields in telescopes.items()}
+        self.names_at_site: dict[object, list[str]] = {}
+        for fields in telescopes.values():
+            self.names_at_site.setdefault(fields.get("site"), []).append(fields.get("name"))
+        # The newest night each site could have logged when the backup was written: no row can be of a later one.
+        self.latest_anywhere = written_at.date() + dt.timedelta(days=1)  # no zone's date is a day ahead of UTC's
+        self.latest_night = {}
+        for row in rows:
+            if row["model"] == "registry.site":
+                try:
+                    self.latest_night[row.get("pk")] = night_of(written_at, row["fields"].get("time_zone"))
+                except ValueError:
+                    pass  # the site's own row is refused for its zone; its nights are held to latest_anywhere
+
+    def problems(self, fields: dict) -> dict[str, str]:
+        """Why the format refuses the figures of one stored night, by field name."""
+        record = {name: fields[name] for name in nights_csv.COLUMNS if name in fields}
+        telescope = record.pop("telescope", None)
+        if telescope is None:
+            record["telescope"] = None
+        elif telescope in self.telescope_names:  # else the database names the telescope missing
+            record["telescope"] = self.telescope_names[telescope]
+        latest = self.latest_night.get(fields.get("site"), self.latest_anywhere)
+        try:
+            night = dt.date.fromisoformat(fields.get("night"))
+        except (TypeError, ValueError):
+            night = None  # the format says why
+        # The format's earliest night lies MAX_YEARS_BACK years before the day a night was logged, which may have been
+        # long before the backup: it cannot be checked again, so an older night is checked as if logged that day.
+        if night is not None and night < nights_csv.earliest_accepted(latest):
+            latest = night
+        site_telescopes = self.names_at_site.get(fields.get("site"), ())
+        checked = nights_csv.ParsedNights(latest, as_json=True, telescopes=site_telescopes)
+        checked.add(0, record)
+        return {problem.field or "": problem.reason for problem in checked.errors}
+
+
+def _written_at(header: dict) -> dt.datetime:
+    """When the backup was written, as its header says; now, when the header says no time or a time still to come."""
+    now = timezone.now()
+    try:
+        written = dt.datetime.fromisoformat(header.get("created_at"))
+    except (TypeError, ValueError):
+        return now
+    return min(written, now) if written.utcoffset() is not None else now
+
+
+def _value_problems(path: Path, header: dict, rows: list[dict]) -> None:
+    """Refuse a file holding a value the product would refuse on entry, naming each row, field and problem.
+
+    The checksum catches no edit made by someone who writes it again, so every row is checked as it would be entered:
+    each field by its own validators (``_field_problems``) and a night's figures by the nights format's rules too
+    (``_NightRules``: 30 open hours, 99,999 slews). Checked before anything is loaded, so a refusal writes nothing.
+    """
+    nights = _NightRules(rows, _written_at(header))
+    problems = []
+    for position, row in enumerate(rows, start=1):
+        try:
+            model = apps.get_model(row["model"])
+        except (LookupError, ValueError):
+            continue  # the load names a model this version does not have
+        found = nights.problems(row["fields"]) if model._meta.label_lower == "logbook.nightusage" else {}
+        for name, reason in _field_problems(model, row["fields"]).items():
+            found.setdefault(name, reason)  # a night's field refused by both: the format's words name its limit
+        where = f"{row['model']} {row.get('pk')} (row {position:,} of the file)"
+        problems.extend(f"{where}: {reason}" for reason in found.values())
+    if problems:
+        more = f"; and {len(problems) - _PROBLEMS_NAMED:,} more" if len(problems) > _PROBLEMS_NAMED else ""
+        raise BackupError(
+            f"{path} holds {len(problems):,} value{pluralize(len(problems))} that would be refused on entry, so the "
+            f"file was edited or damaged, and nothing was restored: {'; '.join(problems[:_PROBLEMS_NAMED])}{more}"
+        )
+
+
+@contextmanager
+def _failure_named(path: Path, what: str) -> Iterator[None]:
+    """Any error but a refusal raised within, said as one sentence naming ``what`` failed (the transaction around it
+    is rolled back, so nothing is stored): a restore ends in a message, never a traceback."""
+    try:
+        yield
+    except BackupError:
+        raise
+    except Exception as exc:
+        raise BackupError(f"{path}: {what} failed ({type(exc).__name__}: {_one_line(exc)}), so nothing was "
+                          "restored") from exc
+
+
 def _load(path: Path, rows: list[dict]) -> None:
     """Save every row of the backup as it is (ids included), naming the row a database rule refuses."""
     try:
@@ -250,6 +382,7 @@ def backup_restore(path: Path) -> dict[str, int]:
         raise BackupError(f"the database is not migrated ({pending} migrations not applied): run "
                           "`python manage.py migrate` first, then restore into it")
     _check_migrations(path, header["migrations"], applied)
+    _value_problems(path, header, rows)
     busy = tables_holding_rows()
     if busy:
         more = f" and {len(busy) - _BUSY_NAMED} more" if len(busy) > _BUSY_NAMED else ""
@@ -258,10 +391,11 @@ def backup_restore(path: Path) -> dict[str, int]:
             + ", ".join(busy[:_BUSY_NAMED]) + more
             + ". Create a new database, run `python manage.py migrate`, then restore into it."
         )
-    with transaction.atomic():
+    with _failure_named(path, "the restore"), transaction.atomic():
         for model in (m for m in _models() if m._meta.label_lower == "auth.group"):
             model._default_manager.all().delete()  # the migration's role groups come back from the backup
-        _load(path, rows)
+        with _failure_named(path, "loading the rows"):
+            _load(path, rows)
         restored = _row_counts()
         _check_counts(path, header["counts"], restored)
         # Rows came with their ids: move the id sequences past them, or the next new row collides.
@@ -272,5 +406,6 @@ def backup_restore(path: Path) -> dict[str, int]:
         from observatory_ops.registry.models import Site
 
         for site in Site.objects.all():
-            site_recompute(site)
+            with _failure_named(path, f"computing the due states of site {site.slug} from the restored rows"):
+                site_recompute(site)
     return restored
