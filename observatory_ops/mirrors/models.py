@@ -46,7 +46,10 @@ class Mirror(models.Model):
     band_from_nm = models.FloatField(default=400)
     band_to_nm = models.FloatField(default=1000)
     dust_sensitivity = models.FloatField(
-        default=1.0, validators=[MinValueValidator(0), MaxValueValidator(exposure.DUST_SENSITIVITY_MAX)]
+        default=1.0, validators=[MinValueValidator(0), MaxValueValidator(exposure.DUST_SENSITIVITY_MAX)],
+        help_text="How much dust counts in the mirror's exposure: an open hour weighs 1 + this x the night's PM10 "
+        "excess over clean air (0: dust does not matter; 1: an hour at twice the clean-air PM10 counts as two; at "
+        "most 10). The reflectance decline is fitted against these weighted hours.",
     )
 
     def __str__(self) -> str:
