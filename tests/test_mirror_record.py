@@ -330,6 +330,28 @@ def test_a_new_coating_restarts_the_mirrors_cleaning_plan_too(mirror, users):
     assert ServiceRecord.objects.get(plan=clean).performed_on == _today(mirror) - dt.timedelta(days=1)
 
 
+def test_a_cleaning_is_asked_about_while_a_work_order_holds_the_cleaning_plan(mirror, users, client):
+    """A bad-input review logged a cleaning on the mirror page while an order underway held the cleaning plan: it
+    restarted the plan, and the order's finish would log the cleaning again. Asked about first, as the service form
+    asks, nothing stored; ticked, logged."""
+    from observatory_ops.mirrors.models import CleaningEvent
+    from observatory_ops.workorders.services import work_order_from_due
+
+    clean = ServicePlan.objects.get(subsystem=mirror.subsystem, triggers__metric=metrics.DUST_HOURS)
+    order = work_order_from_due([clean], users["engineer"], _today(mirror))
+    client.force_login(users["technician"])
+    data = {"cleaned_on": (_today(mirror) - dt.timedelta(days=1)).isoformat(), "method": "co2_snow", "note": ""}
+    response = client.post(f"/mirrors/{mirror.pk}/cleanings/new/", data)
+    assert response.status_code == 200 and not CleaningEvent.objects.filter(mirror=mirror).exists()
+    import html
+
+    assert (f"Work order {order.number} (draft) is still to do for this mirror's cleaning"
+            in html.unescape(response.content.decode()))
+    data.update(value_confirmed="on", questioned=response.context["form"]["questioned"].value())
+    assert client.post(f"/mirrors/{mirror.pk}/cleanings/new/", data).status_code == 302
+    assert CleaningEvent.objects.filter(mirror=mirror).count() == 1
+
+
 def test_a_cleaning_logged_on_the_mirror_page_restarts_its_cleaning_plan(mirror, users, client):
     """The reviewer's case: a mirror cleaned weeks ago still showed its cleaning plan overdue, counted from an
     older service record, because a cleaning logged on the mirror page wrote no service record."""

@@ -9,6 +9,7 @@ from observatory_ops.calc.windows import RECOAT_PHASES, Phase, downtime_words, s
 from observatory_ops.logbook.forms import QuestionedValueMixin
 from observatory_ops.logbook.quantities import value_problem
 from observatory_ops.registry.models import Subsystem
+from observatory_ops.workorders.models import State, WorkOrder
 
 from . import layers_text, response_csv
 from .models import METAL_NAMES, TRAIN_KINDS, CleaningEvent, CoatingEvent, Mirror, ReflectanceMeasurement
@@ -166,10 +167,48 @@ class MeasurementForm(MeasurementChecks):
         ).first()
 
 
-class CleaningForm(forms.Form):
+class CleaningForm(QuestionedValueMixin, forms.Form):
+    """A cleaning logged on the mirror page. Where a work order still to do holds one of the mirror's cleaning plans,
+    it is asked about first (``value_confirmed``), as the service form asks: a bad-input review logged a cleaning here
+    while an order underway held the plan, which restarted it, and the order's own cleaning would be logged again."""
+
     cleaned_on = forms.DateField(widget=forms.DateInput(attrs={"type": "date"}))
     method = forms.ChoiceField(choices=CleaningEvent.Method.choices)
     note = forms.CharField(max_length=200, required=False)
+    value_confirmed = forms.BooleanField(
+        required=False, label="Log it as entered",
+        help_text="Asked only when a work order still to do holds one of the mirror's cleaning plans.",
+    )
+    questioned = forms.CharField(required=False, widget=forms.HiddenInput)
+
+    def __init__(self, *args, mirror: Mirror, **kwargs):
+        super().__init__(*args, **kwargs)
+        self.mirror = mirror
+
+    def clean(self):
+        from .services import plans_a_cleaning_restarts  # the services import this module
+
+        data = super().clean()
+        day = data.get("cleaned_on")
+        asked = f"{self.mirror.pk}|{day}"
+        confirmed = self.confirmed_for(asked)
+        for name in ("value_confirmed", "questioned"):
+            data.pop(name, None)  # not the cleaning's: the rest is what is stored
+        if confirmed or day is None:
+            return data
+        plans = plans_a_cleaning_restarts(self.mirror.subsystem)
+        held = list(WorkOrder.objects.filter(items__plan__in=plans, state__in=(State.DRAFT, State.ISSUED,
+                                                                               State.UNDERWAY))
+                    .distinct().order_by("pk"))
+        if held:
+            orders = ", ".join(f"{o.number} ({o.get_state_display()})" for o in held)
+            one = len(held) == 1
+            self.add_error("cleaned_on", (
+                f"Work order{'' if one else 's'} {orders} {'is' if one else 'are'} still to do for this mirror's "
+                "cleaning: finishing it asks how the mirror was cleaned and logs the cleaning. Log one here only for a "
+                "cleaning done outside it. If it is right, tick \"Log it as entered\" and save again."))
+            self.ask_again(asked)
+        return data
 
     def repeats(self, mirror: Mirror, by) -> CleaningEvent | None:
         """The cleaning this form, sent again, would repeat: a cleaning of this mirror logged on this page on the same

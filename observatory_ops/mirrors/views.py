@@ -161,7 +161,7 @@ def measurement_log(request, pk):
 @requires(TECHNICIAN)
 def cleaning_log(request, pk):
     mirror = _mirror(pk)
-    form = CleaningForm(request.POST or None, initial=_dated(mirror, "cleaned_on"))
+    form = CleaningForm(request.POST or None, mirror=mirror, initial=_dated(mirror, "cleaned_on"))
     return _log_event(request, mirror, form, "a cleaning", services.cleaning_log, _cleaning_logged)
 
 
