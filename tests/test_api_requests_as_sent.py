@@ -59,6 +59,18 @@ def test_a_chunked_body_is_answered_411_length_required_and_nothing_is_stored(cl
     assert not NightUsage.objects.exists() and recomputes == []
 
 
+def test_a_content_length_that_is_no_number_is_said_so(site, secret):
+    """A bad-input review sent "Content-Length: abc" and was told "the body is empty"."""
+    request = RequestFactory().post("/", content_type="application/json", HTTP_AUTHORIZATION=f"Bearer {secret}",
+                                    data=json.dumps(NIGHT))
+    request.META["CONTENT_LENGTH"] = "abc"
+    response = views.nights_post(request, slug=site.slug)
+    assert response.status_code == 400
+    assert json.loads(response.content)["errors"][0]["message"] == (
+        "the Content-Length header, 'abc', is not a number of bytes")
+    assert not NightUsage.objects.exists()
+
+
 def test_a_chunked_body_over_the_limit_is_411_too_not_413_or_400(site, secret):
     request = RequestFactory().post("/", content_type="application/json", HTTP_AUTHORIZATION=f"Bearer {secret}",
                                     HTTP_TRANSFER_ENCODING="chunked")

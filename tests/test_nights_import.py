@@ -1204,3 +1204,11 @@ def test_a_row_with_a_quoted_line_break_is_named_by_its_first_line():
             "2026-03-03,4\n")
     result = parse(text, dt.date(2026, 12, 1))
     assert [line for line, _ in result.errors] == [3]
+
+
+def test_a_figure_of_thousands_of_digits_is_said_too_large_to_hold(site):
+    """A bad-input review's 5,000-digit slews cell was called "must be a finite number", which its digits are."""
+    from observatory_ops.logbook import services as logbook_services
+
+    report = logbook_services.nights_import(site, f"night,open_hours,slews\n2024-01-05,5,{'9' * 5000}\n".encode())
+    assert report.errors and "(a number too large to hold)" in report.errors[0].reason

@@ -31,7 +31,9 @@ def nights_post(request, site):
         # Under WSGI Django reads a body only as far as its Content-Length: a chunked body, which has none, would be
         # read as empty (and one over the limit too). RFC 9110, section 15.5.12: 411 Length Required.
         return error(411, "send the body with a Content-Length header; chunked transfer encoding is not accepted")
-    declared = request.META.get("CONTENT_LENGTH") or ""
+    declared = (request.META.get("CONTENT_LENGTH") or "").strip()
+    if declared and not declared.isdigit():  # RFC 9110, section 8.6: a length is decimal digits
+        return error(400, f"the Content-Length header, {declared[:40]!r}, is not a number of bytes")
     if declared.isdigit() and int(declared) > BODY_MAX_BYTES:
         return _too_large(int(declared))
     body = request.read(BODY_MAX_BYTES + 1)  # the declared length may be wrong

@@ -340,6 +340,8 @@ def _number(raw: object, column: Column) -> float | int:
         if not math.isfinite(value):
             # JSON reads 1e400 as Infinity too: the sentence says both, the value itself being gone.
             beyond = " (or a number too large to hold)" if math.isinf(value) and not isinstance(raw, str) else ""
+            if isinstance(raw, str) and PLAIN_NUMBER.fullmatch(raw.strip()):  # digits, too many for a number
+                beyond = " (a number too large to hold)"
             raise RowError(name, f"{name} must be a finite number, not {_figure_shown(raw)}{beyond}")
         if whole:
             if not value.is_integer():  # a number all the same: shown as one
