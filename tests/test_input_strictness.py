@@ -194,8 +194,9 @@ def test_a_plain_decimal_figure_is_read(column, written, value):
 
 @pytest.mark.parametrize("written", ["nan", "inf", "-Infinity", "1e999"])
 def test_a_figure_that_is_no_finite_number_is_still_named_as_such(written):
+    too_large = " (a number too large to hold)" if written == "1e999" else ""  # written as a number, too large
     assert read_row({"night": "2024-03-14", "open_hours": written}).errors == [
-        (2, f"open_hours must be a finite number, not {written}")
+        (2, f"open_hours must be a finite number, not {written}{too_large}")
     ]
 
 
