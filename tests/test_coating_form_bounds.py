@@ -159,3 +159,10 @@ def test_the_lower_limit_as_printed_is_accepted_typed_back():
     assert f"{low:g}" == "0.12399" and low == 0.12399
     form = CalculatorForm(_band(from_nm="0.12399", to_nm="1000", step_nm="1"))
     assert form.is_valid(), form.errors
+
+
+def test_a_utf16_response_file_is_told_to_be_saved_as_utf8():
+    """A bad-input review's UTF-16 response file was called "not a text CSV file"."""
+    data = "wavelength_nm,weight\n500,1\n600,1\n".encode("utf-16")
+    with pytest.raises(ValueError, match="the response file is UTF-16 text; save it as UTF-8 CSV"):
+        response_csv.parse(data)

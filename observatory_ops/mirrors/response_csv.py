@@ -25,6 +25,8 @@ def parse(data: bytes) -> tuple[np.ndarray, np.ndarray]:
     one byte past ``MAX_BYTES``: a file longer than that is refused."""
     if len(data) > MAX_BYTES:
         raise ValueError(f"the response file is over the limit of {MAX_BYTES:,} bytes")
+    if data.startswith((b"\xff\xfe", b"\xfe\xff")):  # the byte order marks of UTF-16, which spreadsheets may save
+        raise ValueError("the response file is UTF-16 text; save it as UTF-8 CSV")
     if b"\x00" in data:
         raise ValueError("the response file is not a text CSV file")
     try:
