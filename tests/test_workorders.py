@@ -135,9 +135,10 @@ def test_the_person_who_finished_gets_no_countersign_button_but_a_note_that_a_se
                                **_confirmed(order))
     note = ("Not offered: Countersign (second person). A second person must countersign: you finished this work "
             "order yourself. Someone else with the technician role or above who had no hand in the work "
-            "countersigns it.")
+            "countersigns it (where two people did it together, a third account: another site's engineer, or the "
+            "administrator).")
     client.force_login(users["technician"])
-    page = client.get(order.get_absolute_url()).content.decode()
+    page = html.unescape(client.get(order.get_absolute_url()).content.decode())
     assert ">Countersign (second person)</button>" not in page and note in page
     client.force_login(users["engineer"])
     page = client.get(order.get_absolute_url()).content.decode()
