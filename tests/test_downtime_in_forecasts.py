@@ -226,4 +226,74 @@ def test_a_mirror_out_with_its_reinstall_late_keeps_its_telescope_out_up_to_toda
             f"{orders['reinstall'].planned_date:%d %b %Y} is late: out of service up to today" in status.basis)
     client.force_login(users["viewer"])
     page = client.get(site.get_absolute_url()).content.decode()
-    assert "Its mirror is out, so the forecasts count its telescope out of service up to today" in page
+    assert ("Its mirror is out (or its removal underway), so the forecasts count its telescope out of service up to "
+            "today") in page
+
+
+def _recoat_redated(scene, users, shift_days: int):
+    """The scene's recoat planned from today + 40, its orders all re-dated by ``shift_days``."""
+    from observatory_ops.workorders.models import WorkOrder
+
+    site, today, plan, mirror = scene
+    recoat = mirror_services.recoat_plan_create(mirror, today + dt.timedelta(days=40), list(RECOAT_PHASES), 10.0,
+                                                users["engineer"])
+    for order in recoat.work_orders.all():
+        WorkOrder.objects.filter(pk=order.pk).update(planned_date=order.planned_date + dt.timedelta(days=shift_days))
+    return type(recoat).objects.get(pk=recoat.pk), today
+
+
+def test_a_recoat_brought_forward_keeps_its_new_first_day_once_begun(scene, users):
+    """A diff review brought a recoat's orders forward a month, then started the removal: the downtime went back to
+    the planned days. Its first day is the earliest any order is planned for or was started on, begun or not."""
+    from django.utils import timezone
+
+    from observatory_ops.workorders.models import State, WorkOrder
+
+    recoat, today = _recoat_redated(scene, users, -30)
+    out = services.recoat_downtime(recoat, today)
+    assert (out.first, out.last) == (recoat.starts_on - dt.timedelta(days=30), recoat.ends_on - dt.timedelta(days=30))
+    removal = recoat.work_orders.get(recoat_phase="removal")
+    WorkOrder.objects.filter(pk=removal.pk).update(state=State.UNDERWAY, started_at=timezone.now())
+    out = services.recoat_downtime(type(recoat).objects.get(pk=recoat.pk), today)
+    assert out.first == min(recoat.starts_on - dt.timedelta(days=30), today)
+    assert out.last == recoat.ends_on - dt.timedelta(days=30) and out.mirror_out
+
+
+def test_a_recoat_put_off_with_its_later_orders_undated_keeps_its_length(scene, users):
+    """A diff review put the removal off and cleared the later orders' dates: the downtime shrank to the removal's two
+    days. With an order undated it runs at least the recoat's planned length from its new first day."""
+    from observatory_ops.workorders.models import WorkOrder
+
+    recoat, today = _recoat_redated(scene, users, 30)
+    WorkOrder.objects.filter(pk__in=recoat.work_orders.exclude(recoat_phase="removal").values("pk")).update(
+        planned_date=None)
+    out = services.recoat_downtime(type(recoat).objects.get(pk=recoat.pk), today)
+    assert out.first == recoat.starts_on + dt.timedelta(days=30)
+    assert out.last == out.first + (recoat.ends_on - recoat.starts_on)
+
+
+def test_phases_stored_without_readable_dates_count_no_days_and_break_nothing(scene, users, client):
+    """The admin edits a recoat's phases as JSON: a diff review removed their last days, and every recompute of the
+    site (the dashboard, a night logged) failed with a KeyError."""
+    site, today, plan, mirror = scene
+    recoat = mirror_services.recoat_plan_create(mirror, today + dt.timedelta(days=3), list(RECOAT_PHASES), 10.0,
+                                                users["engineer"])
+    type(recoat).objects.filter(pk=recoat.pk).update(phases=[{"name": p["name"]} for p in recoat.phases])
+    services.site_recompute(site)
+    client.force_login(users["viewer"])
+    assert client.get(site.get_absolute_url()).status_code == 200
+
+
+def test_a_booked_run_on_the_nights_of_a_re_dated_recoat_is_warned_of(scene, users):
+    """A diff review booked a run on the nights a recoat's orders now took: the dashboard warned only of runs on its
+    planned days. The runs are held against the nights as its orders stand."""
+    from observatory_ops.planning.models import BookedRun
+
+    recoat, today = _recoat_redated(scene, users, 30)
+    site = scene[0]
+    moved = BookedRun.objects.create(site=site, title="Comet campaign",
+                                     starts_on=recoat.starts_on + dt.timedelta(days=32),
+                                     ends_on=recoat.starts_on + dt.timedelta(days=33))
+    BookedRun.objects.create(site=site, title="Old window", starts_on=recoat.starts_on,
+                             ends_on=recoat.starts_on + dt.timedelta(days=1))
+    assert [over.run for over in mirror_services.runs_over_recoats(site, today)] == [moved]

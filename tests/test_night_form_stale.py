@@ -66,12 +66,12 @@ def test_a_correction_loaded_before_another_save_is_refused_with_the_changes_the
     assert _figures(site, night) == (5, 33, 77.0)  # nothing stored
     form = refused.context["form"]
     [error] = form.non_field_errors()
-    assert f"The night of {night} ({services.WHOLE_SITE}) is stored with figures this form would change" in error
+    assert f"The night of {night} ({services.WHOLE_SITE}) is stored with other figures than this page showed" in error
     assert "Number of slews: 33 stored → 4 in this form" in error
     assert "Mean PM10 dust while open (µg/m³): 77 stored → 4 in this form" in error
     assert f"{form.fields['open_hours'].label}: 5 stored → 6 in this form" in error  # the change asked for
-    assert "Someone changed it since this page was loaded, or it was logged already" in error
-    assert "Saving again stores this form's figures over them." in error
+    assert "someone changed it since the page was loaded, or it was logged already" in error
+    assert "Saving again stores this form's figures over the stored ones: " in error
     assert form["open_hours"].value() == "6"  # the technician's figures stay on the page
     # The page now carries the night as stored: saving again is the confirmation.
     assert form["loaded_as"].value() == services.night_stored_token(site, night, "")

@@ -129,7 +129,7 @@ def test_two_queries_whatever_the_numbers_of_recoats_and_runs(recoat, runs, user
     CoatingEvent.objects.create(mirror=other, coated_on=COATED, metal="al")
     second = services.recoat_plan_create(other, dt.date(2026, 7, 18), list(RECOAT_PHASES), 2.0, users["engineer"])
     site = telescope.site
-    with django_assert_num_queries(2):
+    with django_assert_num_queries(3):  # the recoats, their work orders (their nights: recoat_downtime), the runs
         found = services.runs_over_recoats(site, TODAY)
         words = [o.text for o in found] + [o.plan.mirror.subsystem.telescope.name for o in found]
     assert [(o.plan, o.run.title) for o in found] == [
@@ -424,9 +424,12 @@ def test_a_recoat_without_work_orders_is_named_without_a_list_and_told_how_to_re
 
 def test_the_dashboard_reads_the_coming_recoats_once(recoat, runs, users, client, django_assert_max_num_queries):
     """runs_over_recoats takes the recoats the dashboard already read."""
+    from django.db.models import prefetch_related_objects
+
     from observatory_ops.planning.services import site_today
 
     site = recoat.mirror.subsystem.telescope.site
     plans = services.downtime_planned(site, site_today(site))
+    prefetch_related_objects(plans, "work_orders")  # as the dashboard reads them, for their nights
     with django_assert_max_num_queries(1):
         services.runs_over_recoats(site, TODAY, plans)

@@ -854,3 +854,10 @@ def test_a_reloaded_page_of_questions_goes_back_to_the_order_and_does_nothing(or
     assert visit.redirect_chain == [(order.get_absolute_url(), 302)]
     assert "so nothing was done: here is the page it belongs to" in html.unescape(visit.content.decode())
     assert WorkOrder.objects.get(pk=order.pk).state == order.state
+
+
+def test_a_head_request_to_a_buttons_address_leaves_no_note_for_the_next_page(order, users, client):
+    """A diff review: a link preview's HEAD put "That address belongs to a button" on the person's next page."""
+    client.force_login(users["engineer"])
+    assert client.head(f"/workorders/{order.pk}/move/issue/").status_code == 302
+    assert "That address belongs to a button" not in client.get(order.get_absolute_url()).content.decode()

@@ -48,6 +48,7 @@ def posted_only(request, back: str):
     if request.method == "POST":
         return None
     if request.method in ("GET", "HEAD"):
-        messages.info(request, VISITED_A_BUTTON)
+        if request.method == "GET":  # a HEAD (a link's preview) leaves no note for the person's next page
+            messages.info(request, VISITED_A_BUTTON)
         return redirect(back)
     return HttpResponseNotAllowed(["POST"])

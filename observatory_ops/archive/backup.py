@@ -10,7 +10,7 @@ no seal: an editor who also rewrites the header's checksum passes it), and refus
 migrations than the database's: rows written by an older version go into the newer tables without the data
 migrations of the upgrade (a hazard a later migration added would be missing), so such a backup is restored
 with the version that wrote it and then upgraded with ``migrate``. Since the checksum is no seal, every row's
-values are then checked by the rules the product applies on entry (``_value_problems``: each field's own validators,
+values are then checked by the rules the product applies on entry (``_value_problems``: each field's own bounds,
 and a night's figures by the nights format's), and a file with one refused value is refused whole, its rows named.
 Then it loads everything in one transaction: it checks the references between rows, compares the rows restored
 per table with the header's counts, moves the database's id sequences past the restored ids (PostgreSQL; as
@@ -34,6 +34,7 @@ from django.apps import apps
 from django.core import serializers
 from django.core.exceptions import ValidationError
 from django.core.management.color import no_style
+from django.core.validators import MaxValueValidator, MinValueValidator
 from django.db import DataError, IntegrityError, connection, transaction
 from django.db.migrations.executor import MigrationExecutor
 from django.template.defaultfilters import pluralize
@@ -219,29 +220,34 @@ def _one_line(exc: Exception) -> str:
 
 
 def _field_problems(model, fields: dict) -> dict[str, str]:
-    """Why each field of a stored row is refused by its own validators (``Model.clean_fields``), by field name.
+    """Why a figure of a stored row is refused by its field's own bounds, by field name: a number outside its
+    ``MinValueValidator`` / ``MaxValueValidator`` (a latitude of 120), a value outside its choices, or a value of a
+    shape the field cannot read.
 
-    Left to the database, which checks them as the rows are loaded: relations (the row pointed at may come later in
-    the file) and uniqueness (``clean_fields`` never checks it). Empty values are left out too: "blank" is a rule of
-    the forms, code stores empty values where no form asks (a history row's change reason), and a NOT NULL column
-    refuses a missing value itself.
+    Only these: a rule added since a row was written (a name on one line, a text's length) would refuse a genuine
+    backup of a record kept from before it, and a history row is never checked, since history cannot be corrected (a
+    diff review's backup holding a booked run's two-line title, valid when written, could never be restored). Left to
+    the database too: relations (the row pointed at may come later in the file) and uniqueness.
     """
-    given = {
-        field.name: field for field in model._meta.concrete_fields
-        if not field.is_relation and not field.primary_key and field.name in fields
-        and fields[field.name] not in field.empty_values
-    }
-    row = model(**{field.attname: fields[name] for name, field in given.items()})
-    try:
-        row.clean_fields(exclude=[field.name for field in model._meta.fields if field.name not in given])
-    except ValidationError as exc:
-        return {
-            name: f"{name} {nights_csv.shown(fields[name])}: {' '.join(messages).rstrip('.')}"
-            for name, messages in exc.message_dict.items()
-        }
-    except (TypeError, ValueError) as exc:  # a value of a shape no field reads (a list for a date)
-        return {"": f"a value cannot be read ({_one_line(exc)})"}
-    return {}
+    if any(field.name == "history_id" for field in model._meta.fields):  # django-simple-history's rows
+        return {}
+    found = {}
+    for field in model._meta.concrete_fields:
+        if field.is_relation or field.primary_key or fields.get(field.name, None) in (None, *field.empty_values):
+            continue
+        raw = fields[field.name]
+        try:
+            value = field.to_python(raw)
+            for validator in field.validators:
+                if isinstance(validator, MinValueValidator | MaxValueValidator):
+                    validator(value)
+            if field.choices and value not in {key for key, _ in field.flatchoices}:
+                raise ValidationError(f"not one of its choices ({', '.join(str(k) for k, _ in field.flatchoices)})")
+        except ValidationError as exc:
+            found[field.name] = f"{field.name} {nights_csv.shown(raw)}: {' '.join(exc.messages).rstrip('.')}"
+        except (TypeError, ValueError) as exc:  # a value of a shape no field reads (a list for a date)
+            found[field.name] = f"{field.name}: a value cannot be read ({_one_line(exc)})"
+    return found
 
 
 class _NightRules:
@@ -301,7 +307,7 @@ def _value_problems(path: Path, header: dict, rows: list[dict]) -> None:
     """Refuse a file holding a value the product would refuse on entry, naming each row, field and problem.
 
     The checksum catches no edit made by someone who writes it again, so every row is checked as it would be entered:
-    each field by its own validators (``_field_problems``) and a night's figures by the nights format's rules too
+    each field by its own bounds (``_field_problems``) and a night's figures by the nights format's rules too
     (``_NightRules``: 30 open hours, 99,999 slews). Checked before anything is loaded, so a refusal writes nothing.
     """
     nights = _NightRules(rows, _written_at(header))

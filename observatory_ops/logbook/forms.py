@@ -432,9 +432,9 @@ class NightForm(forms.Form):
             f"{self.fields[c.column].label}: {c.old_text} stored → {c.new_text} in this form" for c in changes
         )
         self.add_error(None, (
-            f"The night of {first.night} ({first.whose}) is stored with figures this form would change, which this "
-            f"page did not show: {shown}. Someone changed it since this page was loaded, or it was logged already. "
-            "Saving again stores this form's figures over them."
+            f"The night of {first.night} ({first.whose}) is stored with other figures than this page showed: someone "
+            f"changed it since the page was loaded, or it was logged already. Saving again stores this form's figures "
+            f"over the stored ones: {shown}."
         ))
         self.data = self.data.copy()
         self.data[self.add_prefix("loaded_as")] = stored_as

@@ -206,5 +206,6 @@ class ReflectanceMeasurementAdmin(ChoicesNamedWithSite, RecomputesSite, SimpleHi
 
 
 @admin.register(RecoatPlan)
-class RecoatPlanAdmin(ChoicesNamedWithSite, SimpleHistoryAdmin):
+class RecoatPlanAdmin(ChoicesNamedWithSite, RecomputesSite, SimpleHistoryAdmin):
     list_display = ("mirror", "starts_on", "ends_on", "cost")
+    site_path = "mirror__subsystem__telescope__site"  # its days and orders are the forecasts' downtime

@@ -16,7 +16,7 @@ from typing import NamedTuple
 import numpy as np
 from django.core.exceptions import ValidationError
 from django.db import transaction
-from django.db.models import F, Q
+from django.db.models import F, Q, prefetch_related_objects
 from django.utils import timezone
 
 from observatory_ops.calc import coating, forecast, reflectance, windows
@@ -32,6 +32,7 @@ from observatory_ops.planning.services import (
     UsageModel,
     band_start,
     forecast_model,
+    recoat_downtime,
     site_recompute,
     site_sky_refresh,
     site_today,
@@ -757,7 +758,7 @@ def _recoats_going_ahead(site: Site):
     first, with their mirror's subsystem and telescope."""
     return (
         RecoatPlan.objects.filter(mirror__subsystem__telescope__site=site).exclude(work_orders__state=State.WITHDRAWN)
-        .select_related("mirror__subsystem__telescope").order_by("starts_on")
+        .select_related("mirror__subsystem__telescope__site").order_by("starts_on")
     )
 
 
@@ -884,11 +885,15 @@ def recoat_in_hand_text(plan: RecoatPlan) -> str:
 
 
 def downtime_planned(site: Site, today: dt.date) -> list[RecoatPlan]:
-    """The site's recoats going ahead and not yet over: each takes its telescope out of service from its first day to
-    its last (the dashboard's "Downtime planned"), and one whose last day has passed with an order of it still to do
-    (running late: a year's review read "No recoat planned" with all four orders of one still open)."""
+    """The site's recoats going ahead and not yet over (an order of each still to do): each takes its telescope out of
+    service on the days its orders now give (``planning.services.recoat_downtime``; the dashboard's "Downtime
+    planned"), one whose days have passed included (running late: a year's review read "No recoat planned" with all
+    four orders of one still open)."""
+    # Its work all done, a recoat is over whatever its planned last day (one done early showed its telescope out of
+    # service to that day, where the forecasts counted it back in service).
     still_to_do = Q(work_orders__state__in=(State.DRAFT, State.ISSUED, State.UNDERWAY))
-    return list(_recoats_going_ahead(site).filter(Q(ends_on__gte=today) | still_to_do).distinct())
+    without_orders = Q(ends_on__gte=today, work_orders__isnull=True)  # one entered in the admin: its planned days
+    return list(_recoats_going_ahead(site).filter(still_to_do | without_orders).distinct())
 
 
 def _days_text(first: dt.date, last: dt.date) -> str:
@@ -950,16 +955,18 @@ def runs_over_recoats(site: Site, today: dt.date, plans: list[RecoatPlan] | None
     plans = downtime_planned(site, today) if plans is None else plans  # a caller that has them read them once
     if not plans:
         return []
+    prefetch_related_objects(plans, "work_orders")  # a recoat's nights are its orders' (recoat_downtime)
+    out = {plan.pk: recoat_downtime(plan, today) for plan in plans}
     runs = list(
         BookedRun.objects.filter(
-            site=site, ends_on__gte=max(today, min(p.starts_on for p in plans)),
-            starts_on__lte=max(p.ends_on for p in plans),
+            site=site, ends_on__gte=max(today, min(d.first for d in out.values())),
+            starts_on__lte=max(d.last for d in out.values()),
         ).order_by("starts_on", "pk")
     )
     found = []
     for plan in plans:
         for run in runs:
-            first, last = max(plan.starts_on, run.starts_on, today), min(plan.ends_on, run.ends_on)
+            first, last = max(out[plan.pk].first, run.starts_on, today), min(out[plan.pk].last, run.ends_on)
             if first <= last:
                 found.append(RunOverRecoat(plan, run, first, last))
     return found

@@ -936,7 +936,7 @@ class Downtime:
     out: str = "the telescope is out of service"
     changed: str = ""
     late: bool = False  # its days as its orders are dated have passed, some of its work still to do
-    mirror_out: bool = False  # its removal finished, its reinstall not
+    mirror_out: bool = False  # its removal underway or finished, its reinstall not finished
 
     @property
     def nights(self) -> int:
@@ -958,43 +958,58 @@ def recoat_downtime(plan, today: dt.date) -> Downtime:
     takes its telescope out of service, as its work orders now stand (a year's review: a recoat re-dated or running
     late kept its planned days in the forecasts, and its telescope counted in service once they had passed):
 
-    - its planned days, ``starts_on`` to ``ends_on``;
-    - while none of its orders is begun (all drafted or issued), from the first day its orders are now planned for
-      to the last day of the last of them (its planned date and its phase's planned length, ``plan.phases``; its
-      planned last day, if later, while one has no date): a recoat put off or brought forward by re-dating its orders;
-    - once begun, up to the last day of its latest phase still to do as its order is now dated, when that is later
-      than its planned last day (running on);
-    - its mirror out (its removal finished, its reinstall not) and the reinstall's day passed or not set: up to
-      ``today``; from the next night on the forecasts expect use again, until the reinstall is given its new day.
+    - from the first day of its work: the earliest day any of its orders (not withdrawn) is planned for or was
+      started on, or its planned first day ``starts_on`` when none is dated (put off or brought forward by re-dating
+      its orders, begun or not);
+    - to the last day of its work still to do: each order still to do, its planned date and its phase's planned
+      length (``plan.phases``); where one of them has no date, at least the recoat's planned length from its first
+      day;
+    - its mirror coming or come out (its removal underway or finished, its reinstall not finished) and those days
+      passed: up to ``today``; from the next night on the forecasts expect use again, until the orders still to do
+      are given their new days.
 
-    One rule for the forecasts (``_downtime_by_telescope``) and the dashboard (``mirrors.services.downtime_planned``).
+    One rule for the forecasts (``_downtime_by_telescope``), the dashboard and the booked runs it warns of
+    (``mirrors.services.downtime_planned``, ``runs_over_recoats``). A phase stored without readable dates counts 0
+    days (the admin edits ``phases`` as JSON).
     """
     from observatory_ops.calc.windows import RECOAT_PHASES  # the phases' names, by the work their orders do
     from observatory_ops.workorders.models import State  # work orders build on planning
 
-    orders = sorted(plan.work_orders.all(), key=lambda o: o.pk)
+    orders = [o for o in plan.work_orders.all() if o.state != State.WITHDRAWN]
     to_do = [o for o in orders if o.state in (State.DRAFT, State.ISSUED, State.UNDERWAY)]
-    done = {o.recoat_phase for o in orders if o.state in (State.FINISHED, State.COUNTERSIGNED)}
-    begun = any(o.state not in (State.DRAFT, State.ISSUED, State.WITHDRAWN) for o in orders)
     names = {p.work: p.name for p in RECOAT_PHASES if p.work}
-    length = {p["name"]: (dt.date.fromisoformat(p["last"]) - dt.date.fromisoformat(p["first"])).days
-              for p in plan.phases}
-    dated = [o for o in to_do if o.planned_date]
-    ends = [o.planned_date + dt.timedelta(days=length.get(names.get(o.recoat_phase), 0)) for o in dated]
-    first, last = plan.starts_on, max([plan.ends_on, *ends])
-    if not begun and dated:  # none begun: the recoat runs as its orders are now dated
-        first = min(o.planned_date for o in dated)
-        last = max(ends) if len(dated) == len(to_do) else last
+    length: dict[str, int] = {}
+    for phase in plan.phases if isinstance(plan.phases, list) else []:
+        try:
+            length[phase["name"]] = max((dt.date.fromisoformat(phase["last"])
+                                         - dt.date.fromisoformat(phase["first"])).days, 0)
+        except (KeyError, TypeError, ValueError):
+            continue
+    zone = plan.mirror.subsystem.telescope.site.zone
+    begun_on = [o.started_at.astimezone(zone).date() for o in orders if o.started_at]
+    dated = [o.planned_date for o in orders if o.planned_date] + begun_on
+    first = min(dated) if dated else plan.starts_on
+    ends = [o.planned_date + dt.timedelta(days=length.get(names.get(o.recoat_phase), 0)) for o in to_do
+            if o.planned_date]
+    if any(o.planned_date is None for o in to_do) or not ends:
+        ends.append(first + (plan.ends_on - plan.starts_on))
+    last = max(ends)
     changed = []
     if (first, last) != (plan.starts_on, plan.ends_on):
         changed.append(f"planned {plan.starts_on:%d %b %Y} to {plan.ends_on:%d %b %Y}, now as its work orders are "
                        "dated")
-    reinstall = next((o for o in to_do if o.recoat_phase == "reinstall"), None)
-    late, mirror_out = last < today, "removal" in done and "reinstall" not in done
+    removal = next((o for o in orders if o.recoat_phase == "removal"), None)
+    reinstalled = any(o.recoat_phase == "reinstall" and o.state in (State.FINISHED, State.COUNTERSIGNED)
+                      for o in orders)
+    mirror_out = removal is not None and removal.state != State.DRAFT and removal.state != State.ISSUED and (
+        not reinstalled)
+    late = last < today
     if mirror_out and late:
+        reinstall = next((o for o in to_do if o.recoat_phase == "reinstall"), None)
         said = (f"its reinstall {reinstall.number} planned for {reinstall.planned_date:%d %b %Y} is late"
                 if reinstall is not None and reinstall.planned_date else "no day is set for its reinstall")
-        changed.append(f"its mirror is out and {said}: out of service up to today")
+        coming = "is out" if removal.state != State.UNDERWAY else f"is coming out ({removal.number} underway)"
+        changed.append(f"its mirror {coming} and {said}: out of service up to today")
         last = today
     telescope = plan.mirror.subsystem.telescope.name
     return Downtime(first, max(first, last), f"the planned recoat of {telescope}: {plan.mirror.subsystem.name}",
@@ -1011,7 +1026,7 @@ def recoats_in_hand(site: Site):
         RecoatPlan.objects.filter(mirror__subsystem__telescope__site=site,
                                   work_orders__state__in=(State.DRAFT, State.ISSUED, State.UNDERWAY))
         .exclude(work_orders__state=State.WITHDRAWN).distinct()
-        .select_related("mirror__subsystem__telescope").prefetch_related("work_orders")
+        .select_related("mirror__subsystem__telescope__site").prefetch_related("work_orders")
         .order_by("starts_on", "pk")
     )
 

@@ -48,8 +48,8 @@ def site_dashboard(request, slug):
     telescopes = [(t, subsystem_tree(t), tube_warning(t)) for t in site.telescopes.all()]
     today = site_today(site)
     downtime = mirror_services.downtime_planned(site, today)
+    prefetch_related_objects(downtime, "work_orders")  # their nights are their orders' (recoat_downtime)
     runs_over = mirror_services.runs_over_each_recoat(site, today, downtime)
-    prefetch_related_objects(downtime, "work_orders")  # read by recoat_downtime
     for plan in downtime:  # the booked runs on its nights, under it
         plan.runs_over = runs_over.get(plan.pk, [])
         plan.out = recoat_downtime(plan, today)  # its nights as its orders now stand, as the forecasts count them

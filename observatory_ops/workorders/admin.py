@@ -6,7 +6,7 @@ from django.core.exceptions import ValidationError
 from django.http import HttpResponseRedirect
 from simple_history.admin import SimpleHistoryAdmin
 
-from observatory_ops.planning.services import site_recompute
+from observatory_ops.planning.admin import RecomputesSite
 from observatory_ops.registry.forms import ChoicesNamedWithSite, ChoicesOfItsSite, possible_id
 
 from . import selectors
@@ -75,13 +75,16 @@ RECORD_SHOWN = "findings, hours, readings and parts used"
 
 
 @admin.register(WorkOrder)
-class WorkOrderAdmin(ChoicesNamedWithSite, SimpleHistoryAdmin):
+class WorkOrderAdmin(ChoicesNamedWithSite, RecomputesSite, SimpleHistoryAdmin):
     """A finished, countersigned or withdrawn order is the record (``WorkOrder.closed_edit_refusal``): its page shows
     it read only, its rows included, and says why and how it is corrected; a post to it saves nothing and says so; its
     history offers no revert (a revert posted all the same is refused by ``WorkOrder.clean``, as one that would move
     any order's state is); and it is not deleted."""
 
     list_display = ("number", "title", "site", "state", "planned_date", "assignee")
+    # Saved or deleted, an order recomputes its site: a recoat's nights follow its orders' dates and states
+    # (planning.services.recoat_downtime), and the due list says which plans an order holds.
+    site_path = "site"
     list_filter = ("site", "state", "order_type")
     inlines = [ItemInline, ReadingInline, PartUseInline, TickInline]
     object_history_form_template = "admin/workorders/workorder/object_history_form.html"
@@ -97,8 +100,6 @@ class WorkOrderAdmin(ChoicesNamedWithSite, SimpleHistoryAdmin):
         if "estimated_hours" in form.changed_data:  # as on the order's edit page: the estimate is the engineer's now
             obj.estimate_basis = ""
         super().save_model(request, obj, form, change)
-        if "planned_date" in form.changed_data and obj.recoat_phase:
-            site_recompute(obj.site)  # its recoat's nights follow its orders' dates (planning.services.recoat_downtime)
 
     def has_change_permission(self, request, obj=None):
         """Not for a closed order: Django then shows its page read only, its inline rows with no add, change or
