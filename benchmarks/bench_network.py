@@ -26,7 +26,8 @@ is timed but has no target. Figures and targets (issue 6), each printed with "ho
   one work-order PDF with its database reads (``workorders.selectors.sheet`` + ``pdf.render_sheet``):
   at most 60 ms (issue 4).
 
-``--profile`` adds cProfile listings of one site's recompute, of one ingest and of the due list page.
+``--profile`` adds cProfile listings of one site's recompute, of one ingest and of the due list page, and the SQL of
+a recompute and an ingest with each query's time, slowest first.
 """
 from __future__ import annotations
 
@@ -531,6 +532,28 @@ def profile(label: str, work: Callable[[], object], lines: int = 25) -> None:
     stats.sort_stats("tottime").print_stats(lines)
 
 
+def profile_sql(label: str, work: Callable[[], object], lines: int = 20) -> None:
+    """Each SQL query of ``work`` with its time, slowest first (``connection.execute_wrapper``): where a recompute's
+    database time goes as the tables grow."""
+    from django.db import connection
+
+    timed: list[tuple[float, str]] = []
+
+    def wrapper(execute, sql, params, many, context):
+        started = time.perf_counter()
+        try:
+            return execute(sql, params, many, context)
+        finally:
+            timed.append((time.perf_counter() - started, sql))
+
+    with connection.execute_wrapper(wrapper):
+        work()
+    print(f"\n--- SQL: {label} ({len(timed)} queries, {sum(t for t, _ in timed) * 1000:.1f} ms in all; slowest "
+          f"{min(lines, len(timed))}) ---")
+    for seconds, sql in sorted(timed, reverse=True)[:lines]:
+        print(f"{seconds * 1000:>7.2f} ms  {' '.join(sql.split())[:300]}")
+
+
 # --- the run -------------------------------------------------------------------------------------------------
 
 
@@ -790,6 +813,10 @@ def run(args: argparse.Namespace) -> None:
     attempt("work-order PDF", lambda: measure_pdf(net))
     if args.profile:
         profile(f"site_recompute of {site.slug}", lambda: services.site_recompute(site))
+        profile_sql(f"site_recompute of {site.slug}", lambda: services.site_recompute(site))
+        other = net.sites[-1]  # a site whose next night no other profile sends
+        profile_sql(f"nights_ingest of one new night at {other.slug}",
+                    lambda: ingest_all([other], net.last_logged + dt.timedelta(days=INCREMENTAL_ROUNDS + 2), net.rng))
         profile(f"nights_ingest of one new night at {site.slug}",
                 lambda: ingest_all([site], net.last_logged + dt.timedelta(days=INCREMENTAL_ROUNDS + 2), net.rng))
         profile("the due list page, unfiltered", lambda: net.client.get(net.urls["unfiltered"]))
