@@ -2,6 +2,7 @@ import datetime as dt
 
 from django import forms
 from django.contrib import messages
+from django.db import transaction
 from django.http import HttpResponse, JsonResponse
 from django.shortcuts import get_object_or_404, redirect, render
 from django.urls import reverse
@@ -269,8 +270,15 @@ def work_order_edit(request, pk):
         messages.error(request, f"{order.number} is {order.get_state_display()}: it can no longer be edited.")
         return redirect(order)
     form = WorkOrderEditForm(request.POST or None, instance=order)
-    if request.method == "POST" and form.is_valid():
-        form.save()
+    saved = False
+    if request.method == "POST":
+        with transaction.atomic():
+            # The order's row locked while the form compares it with the page (LoadedAsMixin) and saves: another save
+            # between the two would otherwise be written over.
+            WorkOrder.objects.select_for_update().filter(pk=order.pk).exists()
+            if saved := form.is_valid():
+                form.save()
+    if saved:
         messages.success(request, "Saved.")
         if "planned_date" in form.changed_data and order.recoat_phase:
             site_recompute(order.site)  # its recoat's nights follow its orders (planning.services.recoat_downtime)
