@@ -617,3 +617,31 @@ def test_a_recoat_in_hand_offers_the_telescopes_other_due_work_for_its_downtime(
     # A day before today is refused, and nothing is made.
     refused = client.post("/workorders/from-due/", {"plans": [p.pk for p in offered], "planned_on": "2020-01-01"})
     assert refused.status_code == 302 and WorkOrder.objects.exclude(recoat_phase__gt="").count() == 1
+
+
+def test_the_calendar_follows_a_recoat_whose_orders_were_re_dated(mirror, users, client):
+    """A walk-through re-dated a recoat's orders from December to January: the dashboard followed, the calendar file
+    kept the window in December and each re-dated order as a one-day event. The window runs as its orders now stand
+    (planning.services.recoat_downtime) and each order over its phase's planned length."""
+    from observatory_ops.calc.windows import RECOAT_PHASES
+    from observatory_ops.planning.services import site_today
+    from observatory_ops.workorders.models import WorkOrder
+
+    today = site_today(mirror.subsystem.telescope.site)
+    plan = services.recoat_plan_create(mirror, today + dt.timedelta(days=10), list(RECOAT_PHASES), 3.5,
+                                       users["engineer"])
+    shift = dt.timedelta(days=28)
+    for order in plan.work_orders.all():
+        WorkOrder.objects.filter(pk=order.pk).update(planned_date=order.planned_date + shift)
+    client.force_login(users["viewer"])
+    events = {str(e["summary"]): e for e in _events(client, mirror.subsystem.telescope.site.slug)}
+    window = next(e for s, e in events.items() if s.startswith("Recoat window"))
+    assert (window["dtstart"].dt, window["dtend"].dt) == (plan.starts_on + shift, plan.ends_on + shift
+                                                          + dt.timedelta(days=1))
+    assert str(window["description"]).startswith(f"planned {plan.starts_on:%d %b %Y} to {plan.ends_on:%d %b %Y}, "
+                                                 "now as its work orders are dated. The phases as planned: ")
+    removal = plan.work_orders.get(recoat_phase="removal")
+    phase = next(p for p in plan.phases if p["name"] == "removal")
+    event = next(e for s, e in events.items() if s.startswith(removal.number))
+    assert event["dtend"].dt - event["dtstart"].dt == (dt.date.fromisoformat(phase["last"])
+                                                       - dt.date.fromisoformat(phase["first"]) + dt.timedelta(days=1))

@@ -8,6 +8,8 @@ from django.conf import settings
 from django.utils import timezone
 from icalendar import Calendar, Event
 
+from observatory_ops.calc.windows import RECOAT_PHASES
+from observatory_ops.planning.services import recoat_downtime, site_today
 from observatory_ops.registry.models import Site
 from observatory_ops.workorders.models import State, WorkOrder
 
@@ -66,7 +68,7 @@ def site_calendar(site: Site, base_url: str) -> bytes:
 
     plans = list(
         RecoatPlan.objects.filter(mirror__subsystem__telescope__site=site)
-        .select_related("mirror__subsystem__telescope").prefetch_related("work_orders")
+        .select_related("mirror__subsystem__telescope__site").prefetch_related("work_orders")
     )
     last_day = _phase_last_days(plans)
     orders = (
@@ -80,28 +82,46 @@ def site_calendar(site: Site, base_url: str) -> bytes:
         all_day(f"workorder-{order.pk}", order.planned_date, last_day.get(order.pk, order.planned_date),
                 f"{order.number}{done} {where}{order.title}", f"State: {order.get_state_display()}. {address}",
                 EVENT_STATUS[order.state])
+    today = site_today(site)
     for plan in plans:
         subsystem = plan.mirror.subsystem
-        all_day(f"recoat-{plan.pk}", plan.starts_on, plan.ends_on,
-                f"Recoat window: {subsystem.telescope.name} {subsystem.name}",
-                ", ".join(f"{p['name']} {p['days']} d ({_span(p)})" for p in plan.phases), _window_status(plan))
+        # The window as its work orders now stand, as the dashboard and the forecasts take it (a walk-through re-dated
+        # a recoat's orders to January and the calendar kept it in December).
+        out = recoat_downtime(plan, today)
+        phases = ", ".join(f"{p.get('name', '?')} {p.get('days', '?')} d ({_span(p)})" for p in plan.phases
+                           if isinstance(p, dict))
+        described = f"{out.changed}. The phases as planned: {phases}" if out.changed else phases
+        all_day(f"recoat-{plan.pk}", out.first, out.last, f"Recoat window: {subsystem.telescope.name} {subsystem.name}",
+                described, _window_status(plan))
     return calendar.to_ical()
 
 
 def _span(phase: dict) -> str:
-    first, last = dt.date.fromisoformat(phase["first"]), dt.date.fromisoformat(phase["last"])
+    try:
+        first, last = dt.date.fromisoformat(phase["first"]), dt.date.fromisoformat(phase["last"])
+    except (KeyError, TypeError, ValueError):  # the admin edits the phases as JSON
+        return "dates not readable"
     if first == last:
         return f"{first:%a %d %b %Y}"
     return f"{first:%a %d %b}{'' if first.year == last.year else f' {first:%Y}'} to {last:%a %d %b %Y}"
 
 
 def _phase_last_days(plans: list[RecoatPlan]) -> dict[int, dt.date]:
-    """The last day of each recoat work order still on its phase's first day, as the plan laid the phase out
-    (a phase at the telescope may pause over the crew's days off: ``services.phase_dates``)."""
+    """The last day of each recoat work order with a planned date: that date and its phase's planned length, so an
+    order re-dated keeps its phase's days (a phase at the telescope may pause over the crew's days off, so its
+    stored last day is read, not counted: ``services.phase_dates``)."""
+    names = {phase.work: phase.name for phase in RECOAT_PHASES if phase.work}
     last = {}
     for plan in plans:
-        last_of = {dt.date.fromisoformat(p["first"]): dt.date.fromisoformat(p["last"]) for p in plan.phases}
+        length = {}
+        for phase in plan.phases if isinstance(plan.phases, list) else []:
+            try:
+                length[phase["name"]] = (dt.date.fromisoformat(phase["last"])
+                                         - dt.date.fromisoformat(phase["first"]))
+            except (KeyError, TypeError, ValueError):
+                continue
         for order in plan.work_orders.all():
-            if order.planned_date in last_of:
-                last[order.pk] = last_of[order.planned_date]
+            span = length.get(names.get(order.recoat_phase))
+            if order.planned_date and span:
+                last[order.pk] = order.planned_date + span
     return last
