@@ -40,8 +40,9 @@ def test_a_removal_moved_after_its_reinstall_is_said_so(recoat, users, client): 
     coating = recoat["coating"]
     assert [note for note in said if "the phases are started in their order" in note] == [
         f"This removal is now planned after the strip and coat that follows it ({coating.number}, planned "
-        f"{coating.planned_date:%d %b %Y}): the phases are started in their order, and the recoat's window on the "
-        "dashboard and the mirror page keeps its dates. Give the phases dates in their order."
+        f"{coating.planned_date:%d %b %Y}): the phases are started in their order, and the recoat's days out of "
+        "service (the dashboard, the forecasts) run from its first order's date to its last's. Give the phases dates "
+        "in their order."
     ]
     # The reinstall, moved before the strip and coat it follows, is said so from its side.
     said = _edit(client, reinstall, _working_day(reinstall.site, coating.planned_date - dt.timedelta(days=1), -1))

@@ -248,8 +248,8 @@ def test_the_expected_use_by_month_counts_no_use_on_a_recoats_nights_as_the_fore
     remaining, total, found = hours["limit"] - hours["value"], 0.0, None
     for month, nights, dark, out, fraction, _pm10, _excess, per_day, *_ in rows:
         in_service, per_day = int(nights) - int(out), float(per_day)
-        if not int(out):  # (a month with nights out: its dark hours are the whole month's mean, per day the rest's)
-            assert float(dark) * float(fraction.split()[0]) == pytest.approx(per_day, rel=5e-3)
+        # (a month with nights out: its dark hours and use per day both over its nights in service)
+        assert float(dark) * float(fraction.split()[0]) == pytest.approx(per_day, rel=5e-3)
         start = max(first_day, dt.datetime.strptime(month, "%b %Y").date())
         if total + in_service * per_day >= remaining:
             found = start + dt.timedelta(days=math.ceil((remaining - total) / per_day) - 1)

@@ -538,7 +538,9 @@ def expected_use_by_month(subsystem: Subsystem, plans: list[ServicePlan]) -> dic
         rows.append({
             "month": month.astype(dt.date),
             "nights": len(index),
-            "dark_hours": float(model.dark_hours[index].mean()),
+            # Over the nights in service where some are out, as the use per day is: dark hours x open fraction = it.
+            "dark_hours": float(model.dark_hours[index][~out_days[index]].mean() if (~out_days[index]).any()
+                                else model.dark_hours[index].mean()),
             "open_fraction": float(model.open_fraction[calendar]),
             "from_history": bool(model.from_history[calendar]),
             "years": int(years[calendar]),

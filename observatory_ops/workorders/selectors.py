@@ -1248,8 +1248,9 @@ def planned_date_notes(order: WorkOrder) -> list[str]:
             name = _PHASE_NAMES[other.recoat_phase]
             notes.append(
                 f"This {this} is now planned {said.format(other=name)} ({other.number}, planned "
-                f"{other.planned_date:%d %b %Y}): the phases are started in their order, and the recoat's window on "
-                "the dashboard and the mirror page keeps its dates. Give the phases dates in their order."
+                f"{other.planned_date:%d %b %Y}): the phases are started in their order, and the recoat's days out "
+                "of service (the dashboard, the forecasts) run from its first order's date to its last's. Give the "
+                "phases dates in their order."
             )
     return notes
 
