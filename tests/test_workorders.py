@@ -435,7 +435,9 @@ def test_an_edit_page_loaded_before_another_change_is_not_saved_over_it(order, u
     response = client.post(f"/workorders/{order.pk}/edit/", stale)
     text = html.unescape(response.content.decode())
     assert response.status_code == 200
-    assert f"Not saved: {order.number} {order.title} was changed since this page was loaded (steps)." in text
+    assert (f"Not saved: {order.number} {order.title} was changed since this page was loaded (steps). Open it again "
+            "as stored now (the link below: the browser's reload would send this page again)") in text
+    assert f'<a href="/workorders/{order.pk}/edit/">Open {order.number}\'s edit page as stored now</a>' in text
     assert WorkOrder.objects.filter(pk=order.pk).values().get() == before
     order.refresh_from_db()
     fresh = client.get(f"/workorders/{order.pk}/edit/").context["form"]["loaded_as"].value()

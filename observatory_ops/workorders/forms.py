@@ -130,8 +130,9 @@ class LoadedAsMixin(forms.ModelForm):
         if changed:
             names = ", ".join(str(self.fields[name].label).lower() for name in changed)
             raise forms.ValidationError(
-                f"Not saved: {self.instance} was changed since this page was loaded ({names}). Reload it to see what "
-                "is stored now, then make your change again."
+                f"Not saved: {self.instance} was changed since this page was loaded ({names}). Open it again as "
+                "stored now (the link below: the browser's reload would send this page again), then make your change "
+                "again.", code="stale",
             )
         return data
 

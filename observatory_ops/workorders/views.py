@@ -2,6 +2,7 @@ import datetime as dt
 
 from django import forms
 from django.contrib import messages
+from django.core.exceptions import NON_FIELD_ERRORS
 from django.db import transaction
 from django.http import HttpResponse, JsonResponse
 from django.shortcuts import get_object_or_404, redirect, render
@@ -289,7 +290,7 @@ def work_order_edit(request, pk):
     return render(
         request, "workorders/edit.html",
         {"form": form, "order": order, "needs_lockout": needs_isolation(order.hazards),
-         "lockout_step": services.LOCKOUT_STEP},
+         "lockout_step": services.LOCKOUT_STEP, "stale": form.has_error(NON_FIELD_ERRORS, "stale")},
     )
 
 
