@@ -1,4 +1,5 @@
 import datetime as dt
+import json
 
 from django import forms
 from django.conf import settings
@@ -408,6 +409,7 @@ class NightForm(forms.Form):
                                         widget=forms.TextInput(attrs=attrs))
             self.fields[column.name] = field
         self.fields["loaded_as"] = forms.CharField(required=False, widget=forms.HiddenInput)
+        self.fields["loaded_cells"] = forms.CharField(required=False, widget=forms.HiddenInput)  # what it showed
 
     def clean_telescope(self) -> str:
         if self.choose_whose and self.data.get(self.add_prefix("telescope")) is None:
@@ -420,21 +422,41 @@ class NightForm(forms.Form):
     def record(self) -> dict:
         """The night as the API would send it: only the fields filled in."""
         return {
-            name: value for name, value in self.cleaned_data.items() if value not in ("", None) and name != "loaded_as"
+            name: value for name, value in self.cleaned_data.items()
+            if value not in ("", None) and name not in ("loaded_as", "loaded_cells")
         }
 
     def stored_unseen(self, changes: list[services.NightChange], stored_as: str) -> None:
         """Refuse this form's figures over a night stored with figures the page did not show (``changes``, the
-        ``services.NightChange`` of each), naming them; the page then carries the night as stored now
-        (``stored_as``), so saving it again is the confirmation."""
-        first = changes[0]
-        shown = "; ".join(
-            f"{self.fields[c.column].label}: {c.old_text} stored → {c.new_text} in this form" for c in changes
-        )
-        self.add_error(None, (
-            f"The night of {first.night} ({first.whose}) is stored with other figures than this page showed: someone "
-            f"changed it since the page was loaded, or it was logged already. Saving again stores this form's figures "
-            f"over the stored ones: {shown}."
-        ))
+        ``services.NightChange`` of each). A figure the page showed and the person left as it was, changed since by
+        someone else, is filled in as stored now (``loaded_cells``: what the page showed), so saving again keeps it: a
+        walk-through's second save put back the open hours and dust an engineer had just corrected. The figures this
+        form itself changes are named, and the page then carries the night as stored now (``stored_as``), so saving
+        it again is the confirmation."""
+        try:
+            loaded = json.loads(self.data.get(self.add_prefix("loaded_cells")) or "{}")
+        except ValueError:
+            loaded = {}
         self.data = self.data.copy()
+        kept, yours = [], []
+        for c in changes:
+            label, typed = self.fields[c.column].label, str(self.data.get(self.add_prefix(c.column), "")).strip()
+            shown = loaded.get(c.column) if isinstance(loaded, dict) else None
+            if shown is not None and typed == str(shown).strip():
+                self.data[self.add_prefix(c.column)] = nights_csv.cell(c.old)
+                kept.append(f"{label}: {shown or 'empty'} on this page, {c.old_text} now")
+            else:
+                yours.append(f"{label}: {c.old_text} stored → {c.new_text} in this form")
+        first = changes[0]
+        said = [f"The night of {first.night} ({first.whose}) was changed since this page was loaded, or was logged "
+                "already."]
+        if kept:
+            said.append(f"Changed meanwhile, and now filled in below as stored: {'; '.join(kept)}.")
+        said.append(f"Saving again stores this form's figures over the stored ones: {'; '.join(yours)}." if yours
+                    else "Saving again stores the night as the form now shows it.")
+        self.add_error(None, " ".join(said))
         self.data[self.add_prefix("loaded_as")] = stored_as
+        # What the page shows as stored from now on: a figure typed over differs from it, one left alone does not.
+        shown_now = loaded if isinstance(loaded, dict) else {}
+        shown_now.update({c.column: nights_csv.cell(c.old) for c in changes})
+        self.data[self.add_prefix("loaded_cells")] = json.dumps(shown_now)

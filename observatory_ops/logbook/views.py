@@ -1,6 +1,7 @@
 import csv
 import datetime as dt
 import itertools
+import json
 
 from django.contrib import messages
 from django.core.exceptions import ValidationError
@@ -322,6 +323,8 @@ def _night_asked(request, site, telescopes: list[str]) -> tuple[dict, NightUsage
     stored = NightUsage.objects.filter(site=site, night=night, **mine).select_related("telescope").first()
     if stored:
         initial = nights_csv.cells_of(stored)
+        initial["loaded_cells"] = json.dumps({name: cell for name, cell in initial.items()
+                                              if name not in ("night", "telescope")})
     else:
         messages.info(request, f"No night of {night} ({whose or services.WHOLE_SITE}) is stored yet: this form logs "
                                "it as a new night.")
@@ -361,6 +364,10 @@ def night_log(request, slug):
             form.add_error(problem.field, reason)
         if not report.errors and not report.stored:
             form.stored_unseen(report.changes, stored_now)
+            whose = report.changes[0].telescope
+            mine = {"telescope__name": whose} if whose else {"telescope__isnull": True}
+            # The page goes on correcting that stored night (its heading said "Log a night").
+            stored = NightUsage.objects.filter(site=site, night=report.changes[0].night, **mine).first()
         elif not report.errors:  # the summary names whose night it is wherever that could be mistaken
             messages.success(request, f"Night {form.cleaned_data['night']}: {report.summary}")
             return redirect("nights-list", slug=site.slug)
