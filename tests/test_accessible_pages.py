@@ -115,7 +115,7 @@ def test_a_reading_beyond_what_is_plausible_is_refused_beside_its_value_field(fa
         "Fan current cannot be above 50 A (got 500); a larger reading is not plausible."
     ]
     assert not response.context["form"].non_field_errors()
-    assert re.search(r'<input type="number" name="value"[^>]*aria-invalid="true"[^>]*aria-describedby="id_value_error"',
+    assert re.search(r'<input type="text" name="value"[^>]*aria-invalid="true"[^>]*aria-describedby="id_value_error"',
                      page)
     assert _title(page).startswith("Error: Log a reading")
 

@@ -4,6 +4,7 @@ stored a brake pressure of 10 bar from "1_0" and booked ten fan filters on a fin
 from __future__ import annotations
 
 import datetime as dt
+import re
 
 import pytest
 from django import forms
@@ -38,3 +39,14 @@ def test_the_reading_form_stores_nothing_from_1_0(mirror, users, client):  # noq
         assert response.context["form"].errors["value"] == [
             "Enter a number, with a point for decimals (0.87, not 0,87)."]
     assert not Reading.objects.exists()
+
+
+@pytest.mark.django_db
+def test_number_fields_are_boxes_of_text_with_the_keyboard_of_digits(mirror, users, client):  # noqa: F811
+    """A walk-through typed "1_0" into a finish form's count: Chromium's number box showed and sent 10, so the rule
+    above never saw it ("1,5" hours became 15). Number fields are text boxes with ``inputmode`` (HTML Living
+    Standard), so what is typed is what is sent and checked."""
+    client.force_login(users["technician"])
+    page = client.get(f"/subsystems/{mirror.subsystem.pk}/readings/new/").content.decode()
+    value = re.search(r'<input[^>]*name="value"[^>]*>', page)[0]
+    assert 'type="text"' in value and 'inputmode="decimal"' in value

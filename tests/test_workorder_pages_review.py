@@ -6,8 +6,10 @@ whole units refused on its own field, and a part's quantity written with its uni
    aria-describedby: the value is a list of ids of elements in the page).
 2. A part counted in whole units (``workorders.models.COUNTED_UNITS``, our own list, common practice, no published
    source) given a fraction is refused by the finish form on that field, linked from the error summary, in the words
-   finishing refuses it with (``models.part_quantity_not_whole``); its input has ``step="1"`` (HTML Living Standard,
-   the step attribute: 1 from a minimum of 0 allows whole numbers only), a part kept by measure ``step="any"``.
+   finishing refuses it with (``models.part_quantity_not_whole``); its input brings up the keyboard of digits alone,
+   ``inputmode="numeric"`` (HTML Living Standard, the inputmode attribute), a part kept by measure
+   ``inputmode="decimal"``. Text inputs, not number ones: a browser's number box filters what is typed itself
+   (formats/plain_numbers.py).
 3. Quantities read as ``models.amount_text`` writes them ("1 set", "2 sets", "0 cylinders", "1.5 m"): the order
    page's Planned and Used columns, the site dashboard's low stock and the parts register.
 
@@ -129,8 +131,8 @@ def test_a_fraction_of_another_part_counted_whole_is_refused_on_its_row(order, p
     page = response.content.decode()
     message = "How many (1): 0.5 is not a whole number, and Cell fan 80 mm is counted in whole parts (each)."
     assert f'<li><a href="#id_other_quantity_1">{message}</a></li>' in _summary(page)
-    # Shown again with the fan chosen, its count offers whole numbers.
-    assert 'step="1"' in _input(page, "other_quantity_1")
+    # Shown again with the fan chosen, its count offers the keyboard of whole numbers.
+    assert 'inputmode="numeric"' in _input(page, "other_quantity_1")
     assert WorkOrder.objects.get(pk=order.pk).state == State.UNDERWAY
     assert not PartUse.objects.filter(part=fan).exists()
 
@@ -152,11 +154,12 @@ def test_a_count_counted_whole_offers_whole_numbers_and_one_by_measure_any(order
     by_set, by_metre = PartUse.objects.get(part=pads), PartUse.objects.get(part=cable)
     client.force_login(users["technician"])
     page = client.get(f"/workorders/{order.pk}/finish/").content.decode()
-    assert 'step="1"' in _input(page, f"part_{by_set.pk}")
-    assert 'step="any"' in _input(page, f"part_{by_metre.pk}")
+    assert 'inputmode="numeric"' in _input(page, f"part_{by_set.pk}")
+    assert 'inputmode="decimal"' in _input(page, f"part_{by_metre.pk}")
+    assert 'type="text"' in _input(page, f"part_{by_set.pk}")  # what is typed reaches the plain-number rule
     # Another part's count follows the part chosen in its row: none chosen yet, so any figure; the list says which
     # parts are counted whole, for the page's script.
-    assert 'step="any"' in _input(page, "other_quantity_1")
+    assert 'inputmode="decimal"' in _input(page, "other_quantity_1")
     chooser = re.search(r'<select[^>]*name="other_part_1"[^>]*>', page)[0]
     whole = re.search(r'data-whole-parts="([^"]*)"', chooser)[1].split()
     assert str(pads.pk) in whole and str(fan.pk) in whole and str(cable.pk) not in whole

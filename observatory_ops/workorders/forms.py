@@ -12,6 +12,7 @@ from django.db.models import Q
 from observatory_ops.access.roles import TECHNICIAN, holders_of
 from observatory_ops.archive.history import person
 from observatory_ops.calc.lifting import DENSITY
+from observatory_ops.formats.plain_numbers import PlainNumberInput
 from observatory_ops.logbook.forms import HOURS_QUESTION_FACTOR, UNIT_SLIP_FACTOR
 from observatory_ops.logbook.quantities import value_problem
 from observatory_ops.planning.services import site_today
@@ -79,11 +80,11 @@ class _CrewMembersField(forms.ModelMultipleChoiceField):
             ) from None
 
 
-def _count_step(part: Part) -> str:
-    """The ``step`` of a count of ``part``: "1" for a part counted in whole units (``models.counted_whole``, as
-    ``models.part_quantity_not_whole`` reads them), so the browser offers whole numbers; "any" for a part kept by
-    measure (m, kg, l)."""
-    return "1" if counted_whole(part.unit) else "any"
+def _count_keys(part: Part) -> str:
+    """The keyboard a count of ``part`` brings up (``inputmode``): digits alone, "numeric", for a part counted in
+    whole units (``models.counted_whole``, as ``models.part_quantity_not_whole`` reads them, which finishing refuses a
+    fraction of); digits and a point, "decimal", for a part kept by measure (m, kg, l)."""
+    return "numeric" if counted_whole(part.unit) else "decimal"
 
 
 def _plausible(quantity: str, label: str):
@@ -411,7 +412,7 @@ class FinishForm(forms.Form):
             label = f"{use.part.name} used ({use.part.unit})"
             self.fields[f"part_{use.pk}"] = forms.FloatField(
                 label=label, min_value=0, max_value=PART_QUANTITY_MAX, required=True,
-                widget=forms.NumberInput(attrs={"step": _count_step(use.part)}),
+                widget=PlainNumberInput(attrs={"inputmode": _count_keys(use.part)}),
                 help_text=(f"planned: {amount_text(use.quantity_planned, use.part.unit)}; enter what was used, "
                            "0 if none"),
                 error_messages={"required": f"{label}: enter how many were used (0 if none).",
@@ -422,7 +423,7 @@ class FinishForm(forms.Form):
         # Each count's step follows its row's part: the one chosen when the form is shown again, and on the page the
         # one chosen in its list (finish.html reads data-whole-parts, the parts counted in whole units).
         site_parts = Part.objects.filter(site=order.site).order_by("name")
-        whole = {str(part.pk) for part in site_parts if _count_step(part) == "1"}
+        whole = {str(part.pk) for part in site_parts if _count_keys(part) == "numeric"}
         for i in range(1, selectors.OTHER_PART_ROWS + 1):
             self.fields[f"other_part_{i}"] = forms.ModelChoiceField(
                 site_parts, required=False, label=f"Other part used ({i})",
@@ -432,7 +433,7 @@ class FinishForm(forms.Form):
             chosen = str(self.data.get(self.add_prefix(f"other_part_{i}"), "")) if self.is_bound else ""
             self.fields[f"other_quantity_{i}"] = forms.FloatField(
                 required=False, min_value=0, max_value=PART_QUANTITY_MAX, label=f"How many ({i})",
-                widget=forms.NumberInput(attrs={"step": "1" if chosen in whole else "any"}),
+                widget=PlainNumberInput(attrs={"inputmode": "numeric" if chosen in whole else "decimal"}),
                 error_messages={"invalid": f"How many ({i}): enter a number.",
                                 "min_value": f"How many ({i}): enter more than 0.",
                                 "max_value": f"{part_quantity_too_many(f'How many ({i})')}."},
