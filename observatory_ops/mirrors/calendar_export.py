@@ -8,8 +8,7 @@ from django.conf import settings
 from django.utils import timezone
 from icalendar import Calendar, Event
 
-from observatory_ops.calc.windows import RECOAT_PHASES
-from observatory_ops.planning.services import recoat_downtime, site_today
+from observatory_ops.planning.services import phase_lengths, recoat_downtime, site_today
 from observatory_ops.registry.models import Site
 from observatory_ops.workorders.models import State, WorkOrder
 
@@ -107,21 +106,12 @@ def _span(phase: dict) -> str:
 
 
 def _phase_last_days(plans: list[RecoatPlan]) -> dict[int, dt.date]:
-    """The last day of each recoat work order with a planned date: that date and its phase's planned length, so an
-    order re-dated keeps its phase's days (a phase at the telescope may pause over the crew's days off, so its
-    stored last day is read, not counted: ``services.phase_dates``)."""
-    names = {phase.work: phase.name for phase in RECOAT_PHASES if phase.work}
+    """The last day of each recoat work order with a planned date: that date and its phase's planned length
+    (``planning.services.phase_lengths``), so an order re-dated keeps its phase's days."""
     last = {}
     for plan in plans:
-        length = {}
-        for phase in plan.phases if isinstance(plan.phases, list) else []:
-            try:
-                length[phase["name"]] = (dt.date.fromisoformat(phase["last"])
-                                         - dt.date.fromisoformat(phase["first"]))
-            except (KeyError, TypeError, ValueError):
-                continue
+        length = phase_lengths(plan)
         for order in plan.work_orders.all():
-            span = length.get(names.get(order.recoat_phase))
-            if order.planned_date and span:
-                last[order.pk] = order.planned_date + span
+            if order.planned_date and order.recoat_phase in length:
+                last[order.pk] = order.planned_date + length[order.recoat_phase]
     return last

@@ -953,6 +953,24 @@ class Downtime:
 ALL_OUT = "all telescopes"
 
 
+def phase_lengths(plan) -> dict[str, dt.timedelta]:
+    """How long after its first day each phase of a recoat plan (``mirrors.RecoatPlan``) ends, as planned, by the work
+    its order does (``WorkOrder.recoat_phase``: "removal", ...): an order re-dated keeps its phase's days. A phase
+    stored without readable dates is left out (the admin edits ``phases`` as JSON)."""
+    from observatory_ops.calc.windows import RECOAT_PHASES  # the phases' names, by the work their orders do
+
+    work_of = {p.name: p.work for p in RECOAT_PHASES if p.work}
+    lengths = {}
+    for phase in plan.phases if isinstance(plan.phases, list) else []:
+        try:
+            span = dt.date.fromisoformat(phase["last"]) - dt.date.fromisoformat(phase["first"])
+        except (KeyError, TypeError, ValueError):
+            continue
+        if phase.get("name") in work_of:
+            lengths[work_of[phase["name"]]] = max(span, dt.timedelta(0))
+    return lengths
+
+
 def recoat_downtime(plan, today: dt.date) -> Downtime:
     """The nights a recoat in hand (a ``mirrors.RecoatPlan`` with its ``work_orders`` and mirror's telescope read)
     takes its telescope out of service, as its work orders now stand (a year's review: a recoat re-dated or running
@@ -972,25 +990,16 @@ def recoat_downtime(plan, today: dt.date) -> Downtime:
     (``mirrors.services.downtime_planned``, ``runs_over_recoats``). A phase stored without readable dates counts 0
     days (the admin edits ``phases`` as JSON).
     """
-    from observatory_ops.calc.windows import RECOAT_PHASES  # the phases' names, by the work their orders do
     from observatory_ops.workorders.models import State  # work orders build on planning
 
     orders = [o for o in plan.work_orders.all() if o.state != State.WITHDRAWN]
     to_do = [o for o in orders if o.state in (State.DRAFT, State.ISSUED, State.UNDERWAY)]
-    names = {p.work: p.name for p in RECOAT_PHASES if p.work}
-    length: dict[str, int] = {}
-    for phase in plan.phases if isinstance(plan.phases, list) else []:
-        try:
-            length[phase["name"]] = max((dt.date.fromisoformat(phase["last"])
-                                         - dt.date.fromisoformat(phase["first"])).days, 0)
-        except (KeyError, TypeError, ValueError):
-            continue
+    length = phase_lengths(plan)
     zone = plan.mirror.subsystem.telescope.site.zone
     begun_on = [o.started_at.astimezone(zone).date() for o in orders if o.started_at]
     dated = [o.planned_date for o in orders if o.planned_date] + begun_on
     first = min(dated) if dated else plan.starts_on
-    ends = [o.planned_date + dt.timedelta(days=length.get(names.get(o.recoat_phase), 0)) for o in to_do
-            if o.planned_date]
+    ends = [o.planned_date + length.get(o.recoat_phase, dt.timedelta(0)) for o in to_do if o.planned_date]
     if any(o.planned_date is None for o in to_do) or not ends:
         ends.append(first + (plan.ends_on - plan.starts_on))
     last = max(ends)
