@@ -178,7 +178,7 @@ def test_the_same_recoat_window_planned_twice_is_refused_until_the_first_is_with
 
     phases = list(RECOAT_PHASES)
     first = services.recoat_plan_create(mirror, dt.date(2026, 8, 1), phases, 3.5, users["engineer"])
-    with pytest.raises(ValidationError, match="already planned from 01 Aug 2026"):
+    with pytest.raises(ValidationError, match="already planned, 01 Aug 2026 to"):
         services.recoat_plan_create(mirror, dt.date(2026, 8, 3), phases, 3.5, users["engineer"])
     assert mirror.recoat_plans.count() == 1
     first.work_orders.update(state=State.WITHDRAWN)
@@ -199,7 +199,7 @@ def test_a_second_recoat_of_the_mirror_is_refused_while_the_first_is_in_hand_and
     phases = list(RECOAT_PHASES)
     first = services.recoat_plan_create(mirror, dt.date(2026, 8, 1), phases, 3.5, users["engineer"])
     numbers = ", ".join(o.number for o in first.work_orders.order_by("pk"))
-    with pytest.raises(ValidationError, match=rf"already planned from 01 Aug 2026 to .* \({numbers}\) and its work "):
+    with pytest.raises(ValidationError, match=rf"already planned, 01 Aug 2026 to .* \({numbers}\), and its work "):
         services.recoat_plan_create(mirror, dt.date(2027, 3, 1), phases, 3.5, users["engineer"])
     client.force_login(users["engineer"])
     page = client.get(f"/mirrors/{mirror.pk}/recoat/?start=2027-03-01&horizon_days=60").content.decode()

@@ -28,6 +28,7 @@ from observatory_ops.logbook.services import date_problem, reading_withdraw, ser
 from observatory_ops.planning import metrics
 from observatory_ops.planning.models import BookedRun, NightSky, ServicePlan
 from observatory_ops.planning.services import (
+    Downtime,
     UsageLog,
     UsageModel,
     band_start,
@@ -649,6 +650,27 @@ def night_costs(site: Site, start: dt.date, horizon_days: int, telescope: Telesc
     ]
 
 
+def hours_lost(site: Site, first: dt.date, last: dt.date, telescope: Telescope | None = None) -> float:
+    """The usable moonless open hours lost by taking ``telescope`` (or the site) out of service on the nights ``first``
+    to ``last``, both counted: each night's moonless dark hours x its month's open fraction, as ``night_costs`` prices
+    them, a booked run's nights at their own hours (the runs on them are named beside the figure)."""
+    nights = night_costs(site, first, (last - first).days + 1, telescope)
+    return float(sum(n.moonless_dark_hours * n.open_fraction for n in nights))
+
+
+def with_days_out(plans: list[RecoatPlan], today: dt.date) -> list[RecoatPlan]:
+    """``plans`` (recoats in hand, with their mirror's telescope and site read), each given ``out``, the nights it
+    takes its telescope out of service as its work orders now stand (``planning.services.recoat_downtime``), and
+    ``out_cost``, the hours lost on those nights (``hours_lost``) when they differ from its planned days, else None
+    (its stored ``cost`` is theirs). What the dashboard, the mirror page and the recoat planner say of its days."""
+    prefetch_related_objects(plans, "work_orders")  # a recoat's nights are its orders' (recoat_downtime)
+    for plan in plans:
+        plan.out = recoat_downtime(plan, today)
+        plan.out_cost = (hours_lost(plan.mirror.subsystem.telescope.site, plan.out.first, plan.out.last,
+                                    plan.mirror.subsystem.telescope) if plan.out.changed else None)
+    return plans
+
+
 def _dated(first_night: dt.date, window: windows.Window) -> dict:
     return {
         "start": first_night + dt.timedelta(days=window.start_index),
@@ -853,13 +875,15 @@ def due_in_downtime(plan: RecoatPlan) -> DowntimeOffer | None:
     site = plan.mirror.subsystem.telescope.site
     today = site_today(site)
     orders = list(plan.work_orders.all())
+    # Its days as its work orders now stand (a recoat re-dated was offered work for its planned days).
+    out = recoat_downtime(plan, today)
     # Over once its last day has gone or its work is all done (or stopped): nothing is offered for it then.
-    if plan.ends_on < today or not any(o.state in (State.DRAFT, State.ISSUED, State.UNDERWAY) for o in orders):
+    if out.last < today or not any(o.state in (State.DRAFT, State.ISSUED, State.UNDERWAY) for o in orders):
         return None
     realignment = next((o.planned_date for o in orders if o.recoat_phase == "realignment" and o.planned_date), None)
     # On the realignment's later days the offer plans for today: a day gone by is refused.
-    planned_on = max(realignment or plan.ends_on, today)
-    horizon = plan.ends_on + dt.timedelta(days=DOWNTIME_MARGIN_DAYS)
+    planned_on = max(realignment or out.last, today)
+    horizon = out.last + dt.timedelta(days=DOWNTIME_MARGIN_DAYS)
     states = list(
         PlanStatus.objects.filter(plan__subsystem__telescope=plan.mirror.subsystem.telescope, plan__active=True,
                                   forecast_date__lte=horizon,
@@ -879,9 +903,10 @@ def due_in_downtime(plan: RecoatPlan) -> DowntimeOffer | None:
 def recoat_in_hand_text(plan: RecoatPlan) -> str:
     """Why another recoat of the mirror is not planned while ``plan`` is in hand (``recoat_in_hand``)."""
     numbers = ", ".join(o.number for o in sorted(plan.work_orders.all(), key=lambda o: o.pk))
-    return (f"a recoat of this mirror is already planned from {plan.starts_on:%d %b %Y} to {plan.ends_on:%d %b %Y} "
-            f"({numbers}) and its work is not all done; finish it, or withdraw its work orders to stop it, before "
-            "planning another")
+    out = recoat_downtime(plan, site_today(plan.mirror.subsystem.telescope.site))
+    stand = " as its work orders now stand" if out.changed else ""
+    return (f"a recoat of this mirror is already planned, {_days_text(out.first, out.last)}{stand} ({numbers}), and "
+            "its work is not all done; finish it, or withdraw its work orders to stop it, before planning another")
 
 
 def downtime_planned(site: Site, today: dt.date) -> list[RecoatPlan]:
@@ -909,6 +934,7 @@ class RunOverRecoat:
     run: BookedRun
     first: dt.date
     last: dt.date
+    out: Downtime  # the recoat's nights as its work orders now stand (``recoat_downtime``)
 
     @property
     def nights(self) -> int:
@@ -938,9 +964,8 @@ class RunOverRecoat:
         work orders (their states too)."""
         orders = ", ".join(f"{o.number} ({o.get_state_display().lower()})"
                            for o in sorted(self.plan.work_orders.all(), key=lambda o: o.pk))
-        recoat = (f"the recoat of {self.plan.mirror.subsystem} planned "
-                  f"{_days_text(self.plan.starts_on, self.plan.ends_on)}" + (f" with work orders {orders}" if orders
-                                                                              else " (no work orders)"))
+        recoat = (f"the recoat of {self.plan.mirror.subsystem} planned {_days_text(self.out.first, self.out.last)}"
+                  + (f" with work orders {orders}" if orders else " (no work orders)"))
         how = ("withdraw its work orders (which stops it) and plan it again on the mirror's recoat page" if orders
                else "delete this recoat plan in the admin (Recoat plans) and plan it again on the mirror's recoat page")
         return f"{self._clash(recoat)} The run is saved; to re-plan the recoat, {how}."
@@ -968,7 +993,7 @@ def runs_over_recoats(site: Site, today: dt.date, plans: list[RecoatPlan] | None
         for run in runs:
             first, last = max(out[plan.pk].first, run.starts_on, today), min(out[plan.pk].last, run.ends_on)
             if first <= last:
-                found.append(RunOverRecoat(plan, run, first, last))
+                found.append(RunOverRecoat(plan, run, first, last, out[plan.pk]))
     return found
 
 
@@ -983,9 +1008,11 @@ def runs_over_each_recoat(
 
 
 def _recoats_planned_at(site: Site, mirror: Mirror, first: dt.date, last: dt.date) -> list[RecoatPlan]:
-    """The site's other mirrors' recoats going ahead within [first, last]: the crew is committed on their days, which
-    the planner does not price, so it names them."""
-    return list(_recoats_going_ahead(site).filter(starts_on__lte=last, ends_on__gte=first).exclude(mirror=mirror))
+    """The site's other mirrors' recoats in hand within [first, last] on their days as their work orders now stand
+    (``with_days_out``): the crew is committed on those days, which the planner does not price, so it names them."""
+    others = [plan for plan in downtime_planned(site, site_today(site)) if plan.mirror_id != mirror.pk]
+    return [plan for plan in with_days_out(others, site_today(site))
+            if plan.out.first <= last and first <= plan.out.last]
 
 
 def default_horizon_days(mirror: Mirror, today: dt.date) -> int:
@@ -1033,7 +1060,7 @@ def recoat_windows(mirror: Mirror, start: dt.date, horizon_days: int, phases: li
     for window in found:  # a window starting after the recoat plan is due: the due list shows it overdue by then
         window["late"] = bool(due and due.forecast_date and window["start"] > due.forecast_date)
         end = window["start"] + dt.timedelta(days=window["nights"] - 1)
-        window["crew_committed"] = [p for p in committed if p.starts_on <= end and window["start"] <= p.ends_on]
+        window["crew_committed"] = [p for p in committed if p.out.first <= end and window["start"] <= p.out.last]
     return {"windows": found, "days": days, "calendar": calendar, "lead_blanks": range(lead), "due": due,
             "committed": committed, "booked_runs": booked_runs, "days_off": days_off,
             "crew_rest_days": windows.weekdays_text(windows.EVERY_DAY - crew)}

@@ -46,6 +46,14 @@ def mirror_detail(request, pk):
         m.exposure_unknown = m.pk in unknown  # dated on or before the first logged night, the coating before it
         m.before_a_cleaning = m.before_cleaning and m.measured_on in cleaned  # the mark means nothing on other days
     due = services.recoat_due(mirror)
+    plans = list(mirror.recoat_plans.select_related("mirror__subsystem__telescope__site").prefetch_related(
+        Prefetch("work_orders", queryset=WorkOrder.objects.order_by("planned_date", "pk"))
+    ))
+    # A recoat in hand heads with its days as its orders now stand, and their cost; a recoat over, its planned days.
+    in_hand = {plan.pk for plan in services.downtime_planned(site, site_today(site))}
+    for plan in plans:
+        plan.out = plan.out_cost = None
+    services.with_days_out([plan for plan in plans if plan.pk in in_hand], site_today(site))
     return render(
         request,
         "mirrors/detail.html",
@@ -72,9 +80,7 @@ def mirror_detail(request, pk):
             # the telescope's other work its downtime could take.
             "plans": [
                 (plan, services.plan_out_of_step(plan), runs_over.get(plan.pk, []), services.due_in_downtime(plan))
-                for plan in mirror.recoat_plans.select_related("mirror__subsystem__telescope__site").prefetch_related(
-                    Prefetch("work_orders", queryset=WorkOrder.objects.order_by("planned_date", "pk"))
-                )
+                for plan in plans
             ],
         },
     )
@@ -257,6 +263,8 @@ def recoat_planner(request, pk):
     site = mirror.subsystem.telescope.site
     # The recoat already in hand and the booked runs over it are said from the first visit, windows found or not.
     in_hand = services.recoat_in_hand(mirror)
+    if in_hand:  # said with its days as its orders now stand
+        services.with_days_out([in_hand], site_today(site))
     context = {
         "mirror": mirror, "site": site, "form": form, "in_hand": in_hand,
         "in_hand_runs_over": services.runs_over_each_recoat(site, site_today(site)).get(in_hand.pk, []) if in_hand

@@ -1,5 +1,4 @@
 from django.contrib import messages
-from django.db.models import prefetch_related_objects
 from django.shortcuts import get_object_or_404, redirect, render
 
 from fixtures_demo.generator import load_refusal
@@ -10,7 +9,7 @@ from observatory_ops.logbook import selectors as logbook_selectors
 from observatory_ops.mirrors import services as mirror_services
 from observatory_ops.mirrors.models import TRAIN_KINDS
 from observatory_ops.planning import selectors as planning_selectors
-from observatory_ops.planning.services import recoat_downtime, site_recompute, site_today, sites_bring_up_to_date
+from observatory_ops.planning.services import site_recompute, site_today, sites_bring_up_to_date
 from observatory_ops.workorders import selectors as workorder_selectors
 from observatory_ops.workorders.cautions import HAZARDS
 
@@ -47,12 +46,11 @@ def site_dashboard(request, slug):
         status.on_orders = on_orders.get(status.plan_id, [])
     telescopes = [(t, subsystem_tree(t), tube_warning(t)) for t in site.telescopes.all()]
     today = site_today(site)
-    downtime = mirror_services.downtime_planned(site, today)
-    prefetch_related_objects(downtime, "work_orders")  # their nights are their orders' (recoat_downtime)
+    # Each recoat's nights as its orders now stand, as the forecasts count them, and their cost (with_days_out).
+    downtime = mirror_services.with_days_out(mirror_services.downtime_planned(site, today), today)
     runs_over = mirror_services.runs_over_each_recoat(site, today, downtime)
     for plan in downtime:  # the booked runs on its nights, under it
         plan.runs_over = runs_over.get(plan.pk, [])
-        plan.out = recoat_downtime(plan, today)  # its nights as its orders now stand, as the forecasts count them
     return render(
         request,
         "registry/site_dashboard.html",
