@@ -12,6 +12,7 @@ import datetime as dt
 
 import pytest
 from django.core.exceptions import ValidationError
+from test_downtime_in_forecasts import _recoat_redated, scene  # noqa: F401  (the scene is a fixture)
 
 from observatory_ops.calc.windows import RECOAT_PHASES
 from observatory_ops.mirrors import services as mirror_services
@@ -20,14 +21,12 @@ from observatory_ops.planning import services
 from observatory_ops.registry.models import Subsystem
 from observatory_ops.workorders.models import WorkOrder
 
-from test_downtime_in_forecasts import _recoat_redated, scene  # noqa: F401  (the scene is a fixture)
-
 pytestmark = pytest.mark.django_db
 LOST_PER_NIGHT = 5.0 * 0.8
 SHIFT = 30
 
 
-def test_the_dashboard_prices_a_re_dated_recoat_on_its_new_nights_beside_its_planned_cost(scene, users, client):
+def test_the_dashboard_prices_a_re_dated_recoat_on_its_new_nights_beside_its_planned_cost(scene, users, client):  # noqa: F811
     recoat, today = _recoat_redated(scene, users, SHIFT)
     out = services.recoat_downtime(recoat, today)
     assert out.first == recoat.starts_on + dt.timedelta(days=SHIFT)
@@ -39,14 +38,14 @@ def test_the_dashboard_prices_a_re_dated_recoat_on_its_new_nights_beside_its_pla
             "moonless dark hours x its month's open fraction; 10.0 on its planned days)") in page
 
 
-def test_a_recoat_as_planned_keeps_its_stored_cost_on_the_dashboard(scene, users, client):
+def test_a_recoat_as_planned_keeps_its_stored_cost_on_the_dashboard(scene, users, client):  # noqa: F811
     recoat, today = _recoat_redated(scene, users, 0)
     client.force_login(users["viewer"])
     page = client.get(scene[0].get_absolute_url()).content.decode()
     assert "about 10.0 usable moonless open hours lost" in page and "on its planned days" not in page
 
 
-def test_the_mirror_page_and_the_planner_give_a_re_dated_recoat_its_new_days(scene, users, client):
+def test_the_mirror_page_and_the_planner_give_a_re_dated_recoat_its_new_days(scene, users, client):  # noqa: F811
     recoat, today = _recoat_redated(scene, users, SHIFT)
     out = services.recoat_downtime(recoat, today)
     client.force_login(users["engineer"])
@@ -64,7 +63,7 @@ def test_the_mirror_page_and_the_planner_give_a_re_dated_recoat_its_new_days(sce
                                            users["engineer"])
 
 
-def test_another_mirrors_planner_holds_the_crew_on_a_re_dated_recoats_new_days(scene, users):
+def test_another_mirrors_planner_holds_the_crew_on_a_re_dated_recoats_new_days(scene, users):  # noqa: F811
     recoat, today = _recoat_redated(scene, users, SHIFT)
     out = services.recoat_downtime(recoat, today)
     secondary = Subsystem.objects.create(telescope=recoat.mirror.subsystem.telescope, kind="secondary_mirror",
@@ -75,7 +74,7 @@ def test_another_mirrors_planner_holds_the_crew_on_a_re_dated_recoats_new_days(s
     assert mirror_services._recoats_planned_at(site, other, out.last, out.last + dt.timedelta(days=3)) == [recoat]
 
 
-def test_the_downtime_offer_follows_a_recoat_put_off_past_its_planned_days(scene, users):
+def test_the_downtime_offer_follows_a_recoat_put_off_past_its_planned_days(scene, users):  # noqa: F811
     """A recoat planned for days now gone by, its orders all put off to coming days: the offer of other work was
     withdrawn as for a recoat over. It is made for its days as its orders stand: the fans' plan, forecast inside them,
     is offered, on the realignment's day."""
