@@ -6,6 +6,7 @@ from django.conf import settings
 from django.utils import timezone
 
 from observatory_ops.archive.history import person
+from observatory_ops.formats.plain_numbers import decimal_comma_hint, full_width_hint
 from observatory_ops.planning.models import ServicePlan
 
 from . import nights_csv, services
@@ -335,9 +336,12 @@ class NightsUploadForm(forms.Form):
         if kept_token:
             self.fields["file"].help_text = "The same file is kept: choose none to store the changes listed above."
         if asked := self["asked_file"].value():
+            # Ticked already on the page after an import of that file (``views.nights_import``): the question answered.
+            help_text = (f"Ticked as you answered for {asked}: choose it again (corrected, or as it is) to import it "
+                         "here, without being asked again." if self.initial.get("other_site")
+                         else f"Tick this and choose {asked} again to import it here.")
             self.fields["other_site"] = forms.BooleanField(
-                required=False, label=f"Import it into {site_name} all the same",
-                help_text=f"Tick this and choose {asked} again to import it here.",
+                required=False, label=f"Import it into {site_name} all the same", help_text=help_text,
             )
 
     def other_site_accepted(self, file_name: str) -> bool:
@@ -356,6 +360,9 @@ class NightsUploadForm(forms.Form):
             )
         return upload
 
+
+#: The night form's fields of figures: the format's numbers and counts, whose typed slips the form names.
+FIGURES = frozenset(c.name for c in nights_csv.COLUMN_SPECS if c.kind in ("number", "count"))
 
 #: How a telescope's log is made up (``NightUsage``), said beside the telescope choice.
 TELESCOPE_RULE = "A telescope's log is its own nights, and the whole site's nights on which it has none of its own."
@@ -418,6 +425,23 @@ class NightForm(forms.Form):
                 "without a night of its own)."
             )
         return self.cleaned_data["telescope"]
+
+    def refuse(self, problem: nights_csv.Problem) -> None:
+        """Say a problem the format's rules found (``services.nights_ingest``) beside its field, or the form's own
+        when it is no one field's. The rules name a column ("open_hours cannot be below 0"); beside its field, the
+        field's label, set apart ("...the night starts: 2023-02-29 is no such date", not spliced into the sentence).
+        A figure typed with a slip has it named, in the words every number field and the CSV import use
+        (``formats.plain_numbers``): full-width digits, a decimal comma ("7,5": figures take a point)."""
+        if problem.field not in self.fields:
+            self.add_error(None, problem.reason)
+            return
+        reason = problem.reason
+        if reason.startswith(f"{problem.field} "):
+            reason = f"{self.fields[problem.field].label}: {reason[len(problem.field) + 1:]}"
+        typed = str(self.data.get(self.add_prefix(problem.field), ""))
+        if problem.field in FIGURES and (hint := full_width_hint(typed) or decimal_comma_hint(typed)):
+            reason = f"{reason}; {hint}"
+        self.add_error(problem.field, reason)
 
     def record(self) -> dict:
         """The night as the API would send it: only the fields filled in."""

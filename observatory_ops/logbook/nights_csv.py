@@ -33,7 +33,7 @@ from django.template.defaultfilters import pluralize
 
 from observatory_ops.exports import FORMULA_START
 from observatory_ops.formats.calendar_words import why_no_such_date
-from observatory_ops.formats.plain_numbers import PLAIN_NUMBER
+from observatory_ops.formats.plain_numbers import PLAIN_NUMBER, decimal_comma_hint
 
 #: How far back a night (or a service date, see ``logbook.services``) may lie, in years. A recompute asks
 #: the nights cache for every night from the earliest one logged to 3 years ahead (planning.services.
@@ -219,14 +219,19 @@ class Problem(tuple):
 
     The position is a CSV line number or a JSON list index, None for a problem of the whole file or body
     (whose records were then not read); ``field`` is None when no one field is at fault. Being a pair
-    keeps ``for line, reason in report.errors`` working for every caller.
+    keeps ``for line, reason in report.errors`` working for every caller. ``telescope_unknown``: the name the record
+    gives that is no telescope of the site, when that is the problem (``logbook.services`` says it once for every row
+    of another site's telescope, not on each row's line).
     """
 
     field: str | None
+    telescope_unknown: str | None
 
-    def __new__(cls, position: int | None, reason: str, field: str | None = None):
+    def __new__(cls, position: int | None, reason: str, field: str | None = None,
+                telescope_unknown: str | None = None):
         problem = super().__new__(cls, (position, reason))
         problem.field = field
+        problem.telescope_unknown = telescope_unknown
         return problem
 
     @property
@@ -239,11 +244,13 @@ class Problem(tuple):
 
 
 class RowError(ValueError):
-    """A problem of one value of a record (``_checked`` gathers them all); ``field`` names its field."""
+    """A problem of one value of a record (``_checked`` gathers them all); ``field`` names its field, and
+    ``telescope_unknown`` the name written, when the record names a telescope the site does not have."""
 
-    def __init__(self, field: str | None, message: str):
+    def __init__(self, field: str | None, message: str, telescope_unknown: str | None = None):
         super().__init__(message)
         self.field = field
+        self.telescope_unknown = telescope_unknown
 
 
 class FileError(ValueError):
@@ -289,15 +296,16 @@ class ParsedNights:
         key = (values.get("telescope"), values.get("night"))
         if not problems and key in self._seen:
             whose = f" of telescope {key[0]}" if key[0] else ""
-            problems.append(("night", f"night {key[1]}{whose} already appears {self.where} {self._seen[key]}"))
-        for field_name, reason in problems:
-            self.refuse(position, reason, field_name)
+            problems.append(RowError("night", f"night {key[1]}{whose} already appears {self.where} {self._seen[key]}"))
+        for problem in problems:
+            self.refuse(position, str(problem), problem.field, problem.telescope_unknown)
         if not problems:
             self._seen[key] = position
             self.rows.append((position, values))
 
-    def refuse(self, position: int | None, reason: str, field_name: str | None = None) -> None:
-        self.errors.append(Problem(position, reason, field_name))
+    def refuse(self, position: int | None, reason: str, field_name: str | None = None,
+               telescope_unknown: str | None = None) -> None:
+        self.errors.append(Problem(position, reason, field_name, telescope_unknown))
 
 
 #: A figure as text: ``formats.plain_numbers.PLAIN_NUMBER`` (ASCII digits with an optional sign and decimal point, and
@@ -423,8 +431,8 @@ def _telescope(raw: object, telescopes: Sequence[str]) -> str:
         raise RowError("telescope", f"telescope {shown(written)} could be any of {', '.join(alike)}: write the name "
                        "as registered")
     known = f"known at this site: {', '.join(telescopes)}" if telescopes else "this site has no telescope registered"
-    raise RowError("telescope",
-                   f"unknown telescope {shown(written)} ({known}); leave it empty for the whole site's night")
+    raise RowError("telescope", f"unknown telescope {shown(written)} ({known}); leave it empty for the whole site's "
+                   "night", telescope_unknown=written)
 
 
 def _value(
@@ -463,25 +471,25 @@ def object_from_pairs(pairs: list[tuple[str, object]]) -> SentObject:
 
 def _checked(
     record: Mapping[str, object], latest_night: dt.date, telescopes: Sequence[str], as_json: bool
-) -> tuple[dict, list[tuple[str | None, str]]]:
-    """The values of the columns the record gives, and every (field, message) problem found."""
+) -> tuple[dict, list[RowError]]:
+    """The values of the columns the record gives, and every problem found."""
     values, problems = {}, []
     for name in record:
         if name not in COLUMNS:
-            problems.append((name, f"unknown field {shown(name)} (known: {', '.join(COLUMNS)})"))
+            problems.append(RowError(name, f"unknown field {shown(name)} (known: {', '.join(COLUMNS)})"))
     for name in getattr(record, "repeated", ()):
-        problems.append((name, f"{shown(name)} is given more than once in this night; send each key once"))
+        problems.append(RowError(name, f"{shown(name)} is given more than once in this night; send each key once"))
     for column in COLUMN_SPECS:
         if column.name not in record:
             if column.required:
-                problems.append((column.name, f"{column.name} is missing"))
+                problems.append(RowError(column.name, f"{column.name} is missing"))
             continue
         try:
             # COLUMN_SPECS puts the telescope before the figures whose blank value depends on it.
             own = values.get("telescope") is not None
             values[column.name] = _value(column, record[column.name], latest_night, telescopes, own, as_json)
         except RowError as exc:
-            problems.append((exc.field, str(exc)))
+            problems.append(exc)
     return values, problems
 
 
@@ -585,7 +593,7 @@ def _split_figures(cells: Sequence[str]) -> list[tuple[str, str]]:
     """Each two cells side by side that a point would join into a plain number ("7" and "5": 7.5)."""
     trimmed = [c.strip() for c in cells]
     return [(left, right) for left, right in itertools.pairwise(trimmed)
-            if left and right and PLAIN_NUMBER.fullmatch(f"{left}.{right}")]
+            if left and right and decimal_comma_hint(f"{left},{right}")]
 
 
 def _too_many_fields(cells: Sequence[str], header: Sequence[str]) -> str:
@@ -598,7 +606,7 @@ def _too_many_fields(cells: Sequence[str], header: Sequence[str]) -> str:
         return said
     left, right = pairs[0] if len(pairs) == 1 else ("7", "5")
     return (f"{said}; a decimal comma may have split a figure in two ({left},{right} read as {left} and {right}): "
-            f"figures take a point ({left}.{right})")
+            f"{decimal_comma_hint(f'{left},{right}')}")
 
 #: The first line Excel writes, and reads, to say which character separates the columns ("sep=,"). A "sep=," line is
 #: skipped; another separator is refused, as a file separated by semicolons is.

@@ -117,6 +117,10 @@ class ImportReport:
     by_telescope: dict[str, dict[str, int]] = field(default_factory=dict)
     #: Name whose nights were stored even when all are the whole site's: the site has more than one telescope.
     several_telescopes: bool = False
+    #: The telescopes unknown at the site whose rows are refused (or skipped) in one sentence, ``telescopes_unknown``,
+    #: rather than on each row's line (``_telescopes_unknown``).
+    said_once: frozenset[str] = frozenset()
+    telescopes_unknown: str = ""
 
     @property
     def uncounted_note(self) -> str:
@@ -140,7 +144,7 @@ class ImportReport:
         if self.file_problem:
             return f"{self.file_problem}. Nothing was stored."
         if self.errors:
-            return f"{_rows(self.errors)}; nothing was stored."
+            return f"{_rows(self.errors)}; nothing was stored.{self._said_once_sentence}"
         if self.confirm_token:
             nights = len({(change.night, change.telescope) for change in self.changes})
             text = (
@@ -164,7 +168,11 @@ class ImportReport:
         if long := self.longer_than_the_night:
             text += (f". Check {len(long)} night{pluralize(len(long))} longer than the night, stored as sent (send a "
                      f"night again to correct it): {'; '.join(long)}")
-        return f"{text}. {self.uncounted_note}".strip()
+        return f"{text}.{self._said_once_sentence} {self.uncounted_note}".strip()
+
+    @property
+    def _said_once_sentence(self) -> str:
+        return f" {self.telescopes_unknown}." if self.telescopes_unknown else ""
 
     def _whose(self, count: str) -> str:
         """" (whole site: 2, R40: 28)": whose nights ``count`` ("created", "updated", "unchanged") counts, when any of
@@ -176,12 +184,16 @@ class ImportReport:
 
     @property
     def refused_rows(self) -> list[tuple[int | None, str]]:
-        """(line or index, every problem of that row) for each refused row, in order."""
-        return [] if self.file_problem else _by_position(self.errors)
+        """(line or index, every problem of that row) for each refused row, in order; not the problems said once
+        (``said_once``)."""
+        return [] if self.file_problem else _by_position(self._on_their_lines(self.errors))
 
     @property
     def skipped_rows(self) -> list[tuple[int | None, str]]:
-        return _by_position(self.skipped)
+        return _by_position(self._on_their_lines(self.skipped))
+
+    def _on_their_lines(self, problems: list[nights_csv.Problem]) -> list[nights_csv.Problem]:
+        return [p for p in problems if p.telescope_unknown not in self.said_once]
 
 
 def _rows(problems: list[nights_csv.Problem]) -> str:
@@ -231,7 +243,9 @@ def nights_import(
     parsed = nights_csv.parse(text, latest_night=latest_night(site), telescopes=tuple(telescopes))
     if parsed.whole_problem:
         return _refused_file(report, parsed.errors)
-    if parsed.errors and not (skip_bad and parsed.rows):
+    refused = not (skip_bad and parsed.rows)
+    report.said_once, report.telescopes_unknown = _telescopes_unknown(site, parsed.errors, list(telescopes), refused)
+    if parsed.errors and refused:
         report.errors = parsed.errors
         return report
     report.skipped = parsed.errors
@@ -256,6 +270,54 @@ def other_site_named(site: Site, file_name: str) -> Site | None:
     if slug is None or slug == site.slug:
         return None
     return Site.objects.filter(slug=slug).first()
+
+
+def _telescopes_unknown(
+    site: Site, problems: list[nights_csv.Problem], telescopes: list[str], refused: bool
+) -> tuple[frozenset[str], str]:
+    """The names of telescopes unknown at ``site`` that rows of a file give, to be said once for all their rows, and
+    the sentence that says it (refused, or skipped when not ``refused``); ``telescopes``: the site's telescopes.
+
+    Said once: a name another site of this installation has a telescope of (that site's log imported here: a
+    bad-input review's file of another site refused every row on its own line, up to 50 of them, each advising to
+    leave the telescope empty, which would make its night the whole site's), and any name given on several rows.
+    A name of no site on one row (a slip: "Nort") stays on its row's line with the rest of that row's problems.
+    """
+    lines: dict[str, list[int]] = {}
+    for problem in problems:
+        if problem.telescope_unknown is not None:
+            lines.setdefault(problem.telescope_unknown, []).append(problem.position)
+    owners: dict[str, list[str]] = {}
+    for name, owner in (Telescope.objects.filter(name__in=lines).exclude(site=site).order_by("site__name")
+                        .values_list("name", "site__name")):
+        owners.setdefault(name, []).append(owner)
+    said = {name: at for name, at in lines.items() if len(at) > 1 or name in owners}
+    if not said:
+        return frozenset(), ""
+    rows = sorted(line for at in said.values() for line in at)
+    where = (f"line {rows[0]}" if len(rows) == 1 else f"lines {rows[0]} to {rows[-1]}"
+             if rows[-1] - rows[0] == len(rows) - 1 else f"between lines {rows[0]} and {rows[-1]}")
+    names = list(said)
+    whose = {name: _listed([f"{owner}'s" for owner in owners[name]]) if name in owners
+             else "registered at no site here" for name in names}
+    if len(set(whose.values())) == 1:  # all of one site (or of none)
+        belong = f"{_listed(names)} {'is' if len(names) == 1 else 'are'} {whose[names[0]]}"
+    else:
+        belong = "; ".join(f"{name} is {at}" for name, at in whose.items())
+    here = (f"{site.name}'s telescope{pluralize(telescopes)} {'is' if len(telescopes) == 1 else 'are'} "
+            f"{_listed(telescopes)}" if telescopes else f"{site.name} has no telescope registered")
+    to_do = (f"write in the file's telescope column which of {site.name}'s telescopes each row is" if telescopes
+             else f"register the telescopes at {site.name} first")
+    return frozenset(said), (
+        f"The file's {len(rows):,} row{pluralize(rows)} of telescope{pluralize(names)} {_listed(names)} ({where}) "
+        f"{'are' if len(rows) > 1 else 'is'} {'refused' if refused else 'skipped'}: {belong}, and {here}. To import "
+        f"{'them' if len(rows) > 1 else 'it'} here, {to_do}, and import the file again"
+    )
+
+
+def _listed(names: list[str]) -> str:
+    """"R40", "R40 and R60", "R40, R60 and R80"."""
+    return " and ".join(filter(None, [", ".join(names[:-1]), names[-1]]))
 
 
 def _site_telescopes(site: Site) -> dict[str, Telescope]:

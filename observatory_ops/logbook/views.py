@@ -353,15 +353,7 @@ def night_log(request, slug):
             approve=approve,
         )
         for problem in report.errors:
-            if problem.field not in form.fields:
-                form.add_error(None, problem.reason)
-                continue
-            # The format's rules name a column ("open_hours cannot be below 0"); beside its field, the field's label,
-            # set apart ("...the night starts: 2023-02-29 is no such date", not spliced into the sentence).
-            reason = problem.reason
-            if reason.startswith(f"{problem.field} "):
-                reason = f"{form.fields[problem.field].label}: {reason[len(problem.field) + 1:]}"
-            form.add_error(problem.field, reason)
+            form.refuse(problem)
         if not report.errors and not report.stored:
             form.stored_unseen(report.changes, stored_now)
             whose = report.changes[0].telescope
@@ -386,7 +378,9 @@ _PENDING_IMPORT = "nights_import_pending"
 def nights_import(request, slug):
     """Import a nights CSV into this site. A file whose name is the log's download name of another site of this
     installation (``services.other_site_named``) is not read: the page says whose log it is and offers a box that,
-    ticked with the same file chosen again, imports it all the same (``NightsUploadForm.other_site_accepted``)."""
+    ticked with the same file chosen again, imports it all the same (``NightsUploadForm.other_site_accepted``). Once
+    answered, the answer stays with the page for that file's name: the file corrected after a refusal, or chosen
+    again, is not asked about a second time."""
     site = get_object_or_404(Site, slug=slug)
     pending = request.session.get(_PENDING_IMPORT)
     kept = pending if pending and pending[0] == site.pk else None
@@ -408,7 +402,8 @@ def nights_import(request, slug):
             form = NightsUploadForm(initial={"skip_bad": data["skip_bad"], "asked_file": chosen.name},
                                     site_name=site.name)
         else:
-            other_site = None
+            # Answered for this file: kept ticked for its name on the page that follows (the form's help says so).
+            answered = {"asked_file": chosen.name, "other_site": True} if other_site else {}
             upload = chosen.read() if chosen else kept[2].encode("utf-8")
             report = services.nights_import(
                 site, upload, skip_bad=data["skip_bad"], by=request.user, confirmed=data["confirm"]
@@ -426,8 +421,10 @@ def nights_import(request, slug):
                 messages.success(request, f"Import done: {report.summary}")
             # Browsers never keep a chosen file: the session keeps the one whose changes the page asks to confirm, and
             # the form carries their token; otherwise a plain import, the token sent (if any) spent or refused with it.
-            form = NightsUploadForm(initial={"skip_bad": data["skip_bad"], "confirm": report.confirm_token},
-                                    kept_token=report.confirm_token)
+            form = NightsUploadForm(initial={"skip_bad": data["skip_bad"], "confirm": report.confirm_token, **answered},
+                                    kept_token=report.confirm_token, site_name=site.name)
+            if not report.errors:
+                other_site = None  # the link to its own site's import page only beside a refusal
     return render(
         request,
         "logbook/nights_import.html",
