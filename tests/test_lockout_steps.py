@@ -19,7 +19,7 @@ import re
 import pytest
 from test_workorders import drive, order  # noqa: F401  (fixtures, used by name)
 
-from observatory_ops.registry.catalogue import BEFORE_ISOLATION, KINDS, RELEASE, RESTORE
+from observatory_ops.registry.catalogue import BEFORE_ISOLATION, HAND_BACK, KINDS, OUT_OF_CONTROL, RELEASE, RESTORE
 from observatory_ops.registry.services import subsystem_create
 from observatory_ops.workorders import services
 from observatory_ops.workorders.models import State, WorkOrder
@@ -131,14 +131,17 @@ def test_an_order_across_two_telescopes_parks_each_telescope(site, telescope, us
 
 
 def test_ad_hoc_steps_go_where_their_group_says_whatever_their_words(telescope, users, site):
-    """A step is placed by its group, never by its wording: catalogue words in the work stay in the work."""
+    """A step is placed by its group, never by its wording: catalogue words in the work stay in the work. A drive can
+    move the telescope: the order takes the observatory out of robotic and remote control first and hands it back
+    last, by itself."""
     mount_drive = subsystem_create(telescope, "axis1_drive", "Drive", counting_from=dt.date(2026, 1, 1))
     made = services.work_order_ad_hoc(
         site, [mount_drive], "Replace encoder cable", users["technician"],
         powered="Park the telescope at its service position.", steps="Replace the encoder cable.",
     )
     assert made.step_list == [
-        "Park the telescope at its service position.", LOCKOUT, "Replace the encoder cable.", RELEASE
+        OUT_OF_CONTROL, "Park the telescope at its service position.", LOCKOUT, "Replace the encoder cable.", RELEASE,
+        HAND_BACK,
     ]
 
 
@@ -154,9 +157,34 @@ def test_ad_hoc_steps_in_their_groups_put_the_lockout_and_the_release_between_th
     assert response.status_code == 302
     made = WorkOrder.objects.latest("pk")
     assert made.step_list == [
-        "Park the telescope at the zenith.", "Close the dome.", LOCKOUT, "Replace the belt.", RELEASE,
-        "Refit the guard, power up and test.",
+        OUT_OF_CONTROL, "Park the telescope at the zenith.", "Close the dome.", LOCKOUT, "Replace the belt.", RELEASE,
+        "Refit the guard, power up and test.", HAND_BACK,
     ]
+
+
+def test_steps_under_power_typed_by_hand_on_a_moving_telescope_still_take_it_out_of_control_and_hand_it_back(
+    telescope, users, site, client
+):
+    """A review's ad hoc order on a brake, its steps under power typed ("Take the telescope out of robotic control",
+    "Park the telescope at zenith"), had neither the order's own step out of robotic and remote control nor the
+    hand-back at the end, and another crew's hand-back then waited on it. The typed step is refused, saying why (the
+    order does it itself); typed without it, the order begins with its own and ends with the hand-back."""
+    brake = subsystem_create(telescope, "brake", "Axis 2 brake", counting_from=dt.date(2026, 1, 1))
+    client.force_login(users["engineer"])
+    before = WorkOrder.objects.count()
+    data = {"title": "Brake slips", "order_type": "corrective", "subsystems": [brake.pk],
+            "powered": "Take the telescope out of robotic control\nPark the telescope at zenith",
+            "steps": "Replace the brake pads."}
+    response = client.post(f"/sites/{site.slug}/workorders/new/", data)
+    assert response.status_code == 200 and WorkOrder.objects.count() == before
+    assert ("Leave out &quot;Take the telescope out of robotic control&quot;: where the telescope can move, the order "
+            "takes the observatory out of robotic and remote control as its first step by itself") in (
+        response.content.decode())
+    data["powered"] = "Park the telescope at zenith"
+    assert client.post(f"/sites/{site.slug}/workorders/new/", data).status_code == 302
+    steps = WorkOrder.objects.latest("pk").step_list
+    assert steps[:3] == [OUT_OF_CONTROL, "Park the telescope at zenith", LOCKOUT] and steps[-1] == HAND_BACK
+    assert steps.count(OUT_OF_CONTROL) == 1 and steps.count(HAND_BACK) == 1
 
 
 def test_a_hand_back_typed_among_the_restore_steps_is_refused_as_the_order_adds_its_own(telescope, users, site, client):

@@ -461,18 +461,19 @@ def test_several_locked_out_steps_are_named_together(drive, users, site):  # noq
     brakes.planned_date = dt.date(2026, 6, 16)  # issued only with one
     brakes.save()
     _start(brakes, users)
-    assert services.isolated_steps(brakes.step_list) == (1, range(2, 4))
+    # Step 0 takes the observatory out of robotic and remote control (the drive can move the telescope).
+    assert services.isolated_steps(brakes.step_list) == (2, range(3, 5))
     services.checklist_tick_set(brakes, POINT, _point(brakes).pk, True, users["technician"])
-    for index in (1, 2, 3):
+    for index in (2, 3, 4):
         services.checklist_tick_set(brakes, STEP, index, True, users["technician"])
     with pytest.raises(services.Refused) as refusal:
-        services.checklist_tick_set(brakes, STEP, 1, False, users["technician"])
+        services.checklist_tick_set(brakes, STEP, 2, False, users["technician"])
     assert str(refusal.value) == (
-        "the tick on step 2 stays: take back steps 4 and 3 first: they were done with the energy isolated"
+        "the tick on step 3 stays: take back steps 5 and 4 first: they were done with the energy isolated"
     )
-    services.checklist_tick_set(brakes, STEP, 2, False, users["technician"])  # locked-out work: in any order
-    services.checklist_tick_set(brakes, STEP, 3, False, users["technician"])
-    services.checklist_tick_set(brakes, STEP, 1, False, users["technician"])
+    services.checklist_tick_set(brakes, STEP, 3, False, users["technician"])  # locked-out work: in any order
+    services.checklist_tick_set(brakes, STEP, 4, False, users["technician"])
+    services.checklist_tick_set(brakes, STEP, 2, False, users["technician"])
 
 
 def test_a_tick_on_a_point_whose_words_changed_since_counts_for_nothing_in_the_sequence(underway, users):

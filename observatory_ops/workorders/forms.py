@@ -16,6 +16,7 @@ from observatory_ops.formats.plain_numbers import PlainNumberInput
 from observatory_ops.logbook.forms import HOURS_QUESTION_FACTOR, UNIT_SLIP_FACTOR
 from observatory_ops.logbook.quantities import value_problem
 from observatory_ops.planning.services import site_today
+from observatory_ops.registry.catalogue import TAKES_OUT_OF_CONTROL
 from observatory_ops.registry.forms import HazardsField, possible_id
 from observatory_ops.registry.models import Subsystem, validate_one_line
 
@@ -263,8 +264,9 @@ class AdHocForm(forms.Form):
     )
     powered = forms.CharField(
         widget=forms.Textarea(attrs={"rows": 3}), required=False, label="Steps under power, before isolation",
-        help_text="One step a line: taking the telescope out of robotic control, parking, closing the dome, tests "
-        "that need power. Empty if none.",
+        help_text="One step a line: parking, closing the dome, tests that need power. Empty if none. Where the "
+        "telescope can move (its hazard, moving telescope and dome), the order begins by itself by taking the "
+        "observatory out of robotic and remote control, and hands it back at the end: leave those out.",
     )
     steps = forms.CharField(
         widget=forms.Textarea, required=False, label="The work",
@@ -288,6 +290,23 @@ class AdHocForm(forms.Form):
         planned = self.cleaned_data["planned_date"]
         return planned if planned is None else planned_date_plausible(planned, self._today)
 
+    def clean_powered(self):
+        """A step typed here that takes the observatory out of robotic or remote control in the person's own words
+        would be one the order does not know for what it is: it would add no hand-back at the end, and the other crews'
+        hand-back would wait on it (a review's order). The order's own (``catalogue.OUT_OF_CONTROL``) is added by
+        itself where the telescope can move; the catalogue's wordings typed as they are stay."""
+        text = self.cleaned_data["powered"]
+        typed = [line.strip() for line in text.splitlines()
+                 if _TAKES_OUT.search(line) and line.strip() not in TAKES_OUT_OF_CONTROL]
+        if typed:
+            raise forms.ValidationError(
+                f"Leave out \"{typed[0]}\": where the telescope can move, the order takes the observatory out of "
+                "robotic and remote control as its first step by itself, and returns it as its last, held until every "
+                "crew on the telescope is done; for other work, tick the hazard \"Moving telescope and dome\" under "
+                "further hazards and the order does the same."
+            )
+        return text
+
     def clean_restore(self):
         """A hand-back to robotic or remote control typed here would be a step of its own, ticked while another crew
         still works on the telescope: the order's own (``catalogue.HAND_BACK``) is held until every crew is done, and
@@ -301,6 +320,11 @@ class AdHocForm(forms.Form):
             )
         return text
 
+
+#: A step in a person's words that takes the observatory out of robotic or remote control ("Take the telescope out of
+#: robotic control", "Disable remote operation"), not one that only names a remote control.
+_TAKES_OUT = re.compile(r"(\bout of\b|\b(disable|suspend|stop|pause|block|lock|switch off|turn off)\w*\b).*"
+                        r"\b(robotic|remote)\b", re.IGNORECASE)
 
 #: A step in a person's words that hands the observatory back to robotic or remote control ("Return the observatory
 #: to robotic control"), not one that only names a remote control ("Check the remote control's batteries").

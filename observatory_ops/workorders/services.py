@@ -544,9 +544,12 @@ def work_order_ad_hoc(
     put together by ``steps_in_groups``. ``hazards`` are the work's own beyond its subsystems'. With a
     ``planned_date`` it can be issued as it is (``selectors.moves_held``).
 
-    Work where the telescope can move ("moving_machinery") with nothing under power written first starts by taking
-    the observatory out of robotic and remote control and parking the telescope, as a planned order does; and an
-    order that takes it out of that control hands it back at the end (``_handed_back``).
+    Work where the telescope can move ("moving_machinery") starts by taking the observatory out of robotic and remote
+    control, as a planned order does: with nothing under power written, and parking the telescope; before the steps
+    written under power, where none of them is the catalogue's (``catalogue.TAKES_OUT_OF_CONTROL``; a review's order
+    with "Take the telescope out of robotic control" typed had neither its own step nor the hand-back, and held up
+    the other crew's hand-back). An order that takes it out of that control hands it back at the end
+    (``_handed_back``).
     """
     if any(s.telescope.site_id != site.pk for s in subsystems):
         raise Refused("every subsystem must belong to the work order's site")
@@ -554,8 +557,8 @@ def work_order_ad_hoc(
     telescope = telescopes.pop() if len(telescopes) == 1 else None
     hazards = [h for h in HAZARDS if h in set(hazards_of(subsystems, [])) | set(hazards)]
     groups = [[s.strip() for s in text.splitlines() if s.strip()] for text in (powered, steps, restore)]
-    if "moving_machinery" in hazards and not groups[0]:
-        groups[0] = [OUT_OF_CONTROL_PARKED]
+    if "moving_machinery" in hazards and not set(groups[0]) & TAKES_OUT_OF_CONTROL:
+        groups[0] = [OUT_OF_CONTROL, *groups[0]] if groups[0] else [OUT_OF_CONTROL_PARKED]
     tagged_out = any(is_tag_out_step(step) for step in groups[1])
     lines = _handed_back(steps_in_groups(hazards, *groups, release_step_for(subsystems, tagged_out),
                                          brake_air_back(subsystems, hazards, groups[2])))
