@@ -890,3 +890,17 @@ def test_without_javascript_every_line_has_its_record_button(underway, users, cl
     page = client.get(underway.get_absolute_url()).content.decode()
     buttons = re.findall(r'<button type="submit" class="noprint"[^>]*>Record</button>', page)
     assert len(buttons) == len(underway.step_list) + 1 and not any("hidden" in b for b in buttons)
+
+
+def test_the_isolation_points_say_which_step_locks_them_and_that_the_steps_under_power_come_first(
+    underway, users, client
+):
+    """A review ticked the order's page top to bottom: the isolation points, listed above the steps, first; then the
+    steps under power before the lockout were refused (a move under power with the locks on). The points now say at
+    which step they are locked, and that the steps before it come first."""
+    lockout = services.isolated_steps(underway.step_list)[0]
+    assert lockout >= 2  # the order's steps under power: out of robotic control and parking, at least
+    client.force_login(users["technician"])
+    page = client.get(underway.get_absolute_url()).content.decode()
+    assert (f"Locked at step {lockout + 1}, the lockout, after steps 1 to {lockout} under power: tick those first, "
+            "since a step under power that may move the telescope is refused once a lock is ticked.") in page

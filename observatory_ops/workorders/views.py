@@ -203,6 +203,9 @@ def work_order_detail(request, pk):
             "cautions": selectors.cautions(order, points),
             "precedence": selectors.PRECEDENCE_STATEMENT,
             "checklist": selectors.checklist(order, points, items),
+            # The step that locks the points (1-based), said above them: a review ticked them first, top to bottom, and
+            # the steps under power before it were then refused.
+            "lockout_number": (found[0] + 1) if (found := services.isolated_steps(order.step_list)) else None,
             "refused": _tick_refused(request, order),
             "can_tick": order.state == State.UNDERWAY and has_role(request.user, TECHNICIAN),
             "isolation_gaps": gaps,
