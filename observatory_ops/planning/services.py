@@ -696,8 +696,11 @@ def _site_recompute(site: Site, today: dt.date) -> int:
             if values[i] >= limits[i]:
                 on = _as_date(reached[i])
                 dates = (on, on, on)
+                unlogged = ""
             else:
+                expected_on = _offset_date(first_day, central[i])
                 dates = tuple(_clamp(_offset_date(first_day, d[i]), today) for d in (central, early, late))
+                unlogged = _reached_unlogged(expected_on, today)
             states[plan.pk].append(
                 TriggerState(
                     metric=metric,
@@ -708,7 +711,7 @@ def _site_recompute(site: Site, today: dt.date) -> int:
                     earliest=dates[1],
                     latest=dates[2],
                     basis=(_counted_nights(baselines[plan.pk], log_ends) + basis
-                           + _before_the_log(baselines[plan.pk], log_begins)),
+                           + _before_the_log(baselines[plan.pk], log_begins) + unlogged),
                     unit=metrics.METRICS[metric][1],
                 )
             )
@@ -743,6 +746,16 @@ def _counted_nights(baseline: dt.date, log_ends: dt.date | None) -> str:
     if log_ends is None or baseline > log_ends:
         return f"now: no night logged since {baseline:%d %b %Y}; coming: "
     return f"now: the logged nights of {baseline:%d %b %Y} to {log_ends:%d %b %Y}, both included; coming: "
+
+
+def _reached_unlogged(expected_on: dt.date | None, today: dt.date) -> str:
+    """What a counter's basis adds when its expected use reaches the limit on a past night not yet logged: its forecast
+    is then today (``_clamp``), and it would read "forecast <today>" day after day without saying why (a year's
+    review). "" when the expected day is today or later."""
+    if expected_on is None or expected_on >= today:
+        return ""
+    return (f"; at the expected rate the limit was reached on the night of {expected_on:%d %b %Y}, not logged yet: "
+            "due today until the nights since the last logged one are logged")
 
 
 def _before_the_log(baseline: dt.date, log_begins: dt.date | None) -> str:
