@@ -8,6 +8,7 @@ from django.utils import timezone
 from observatory_ops.archive.history import person
 from observatory_ops.formats.plain_numbers import decimal_comma_hint, full_width_hint
 from observatory_ops.planning.models import ServicePlan
+from observatory_ops.registry.services import retired_work_problem
 
 from . import nights_csv, services
 from .models import ServiceRecord
@@ -71,6 +72,9 @@ class ServiceRecordForm(QuestionedValueMixin, forms.Form):
         self.subsystem, self.by = subsystem, by
         self.site = subsystem.telescope.site
         self.fields["plan"].queryset = subsystem.plans.filter(active=True)
+        if subsystem.retired_on:  # its plans are not counted (its history entered late restarts none of them)
+            self.fields["plan"].help_text = ("The plan this work was done for. The subsystem is retired, so no plan's "
+                                             "counting restarts. Leave empty for ad hoc work.")
         from observatory_ops.mirrors.models import CleaningEvent, Mirror  # the mirrors build on the logbook
 
         self.mirror = Mirror.objects.filter(subsystem=subsystem).first()
@@ -149,6 +153,8 @@ class ServiceRecordForm(QuestionedValueMixin, forms.Form):
         problem = services.service_date_problem(self.site, performed_on)
         if problem:
             raise forms.ValidationError(problem[0].upper() + problem[1:] + ".")
+        if retired := retired_work_problem(self.subsystem, performed_on, "Service work"):
+            raise forms.ValidationError(retired)
         return performed_on
 
 
@@ -173,6 +179,8 @@ class CorrectionForm(forms.Form):
             problem = services.service_date_problem(self.original.subsystem.telescope.site, performed_on)
             if problem:
                 raise forms.ValidationError(problem[0].upper() + problem[1:] + ".")
+            if retired := retired_work_problem(self.original.subsystem, performed_on, "Service work"):
+                raise forms.ValidationError(retired)
         return performed_on
 
 
@@ -229,15 +237,16 @@ class ReadingForm(QuestionedValueMixin, forms.Form):
     )
     questioned = forms.CharField(required=False, widget=forms.HiddenInput)
 
-    def __init__(self, *args, watched=(), kind_label="", limits=None, mirror=None, site=None, **kwargs):
+    def __init__(self, *args, watched=(), kind_label="", limits=None, mirror=None, site=None, subsystem=None, **kwargs):
         """``watched``: the quantities the subsystem's plans watch or ask for and its kind's usual ones, offered
         first (any other can still be chosen, under "Other quantities"). With none, the field says that nothing is
         usually measured on a subsystem of its kind (``kind_label``) above the list of every quantity. ``limits``:
         the limits its plans' readings rise to, by quantity (``planning.selectors.reading_limits``). ``mirror``: the
         subsystem's mirror record, whose decline fit a reflectance reading joins (asked about above fresh). ``site``:
-        the subsystem's, whose bounds on a reading's date (``services.date_problem``) are said beside "Taken at"."""
+        the subsystem's, whose bounds on a reading's date (``services.date_problem``) are said beside "Taken at".
+        ``subsystem``: the one read, whose retire day bounds it too (``registry.services.retired_work_problem``)."""
         super().__init__(*args, **kwargs)
-        self.site = site
+        self.site, self.subsystem = site, subsystem
         self.limits = limits or {}
         self.mirror = mirror
         self.fields["taken_at"].initial = timezone.localtime().strftime("%Y-%m-%dT%H:%M")
@@ -263,6 +272,9 @@ class ReadingForm(QuestionedValueMixin, forms.Form):
         if self.site is not None and (problem := services.date_problem(self.site, timezone.localtime(taken_at).date(),
                                                                        "reading date")):
             raise forms.ValidationError(f"Taken at: {problem}.")
+        if self.subsystem is not None and (retired := retired_work_problem(
+                self.subsystem, timezone.localtime(taken_at).date(), "A reading")):
+            raise forms.ValidationError(retired)
         return taken_at
 
     def clean(self):

@@ -23,6 +23,7 @@ from observatory_ops.planning.models import PlanStatus, ServicePlan
 from observatory_ops.planning.selectors import nights_before_unknown_starts_note
 from observatory_ops.planning.services import site_recompute, site_today
 from observatory_ops.registry.models import Site, Subsystem, Telescope
+from observatory_ops.registry.services import retired_work_problem
 
 from . import nights_csv
 from .models import NightUsage, Reading, ServiceRecord
@@ -536,7 +537,8 @@ def nights_remove(nights, by, reason: str = "") -> dict[Site, int]:
 def reading_log(
     subsystem: Subsystem, quantity: str, value: float, taken_at: dt.datetime, by, note: str = ""
 ) -> Reading:
-    """Append a reading and refresh the due states it may change.
+    """Append a reading and refresh the due states it may change. One taken on a retired subsystem after its retire
+    day is refused (``registry.services.retired_work_problem``).
 
     A reflectance reading of a mirror subsystem is also filed among the mirror's measurements, in the same
     transaction, so the mirror page's decline fit sees it (``mirrors.services.measurement_from_reading``).
@@ -551,7 +553,8 @@ def reading_log(
     if taken_at > timezone.now() + dt.timedelta(minutes=5):
         raise ValidationError("a reading cannot be taken in the future")
     site = subsystem.telescope.site
-    problem = date_problem(site, taken_at.astimezone(site.zone).date(), "reading date")
+    day = taken_at.astimezone(site.zone).date()
+    problem = date_problem(site, day, "reading date") or retired_work_problem(subsystem, day, "A reading")
     if problem:
         raise ValidationError(problem)
     with transaction.atomic():
@@ -635,9 +638,11 @@ def service_record_log(
 ) -> ServiceRecord:
     """Append a service record; a record for a plan restarts that plan's counting from ``performed_on``.
     ``hours_spent`` None: not known, so the record counts no maintenance hours. ``repaired_failure``: the work repaired
-    a failure (the reliability page counts it as one)."""
+    a failure (the reliability page counts it as one). Work on a retired subsystem dated after its retire day is
+    refused (``registry.services.retired_work_problem``); on or before it, it is its history entered late, and its
+    plans, no longer counted, restart nothing."""
     site = subsystem.telescope.site
-    problem = service_date_problem(site, performed_on)
+    problem = service_date_problem(site, performed_on) or retired_work_problem(subsystem, performed_on, "Service work")
     if problem:
         raise ValidationError(problem)
     record = ServiceRecord(
@@ -680,14 +685,15 @@ def service_record_correct(
 ) -> ServiceRecord:
     """Append a correction that replaces ``original`` (or withdraws it with ``void``); nothing is edited.
 
-    A new date is held to the rules of a new record (``service_date_problem``). The correction carries the original's
-    work order: its hours stay in the order type's column of the reliability page, and the order's page and paper
-    show its hours as corrected (``workorders.selectors.hours_corrected``). How late the work came
-    (``limit_passed_on``) is worked out again for the corrected date, as if the original had not been logged
+    A new date is held to the rules of a new record (``service_date_problem``, ``retired_work_problem``). The correction
+    carries the original's work order: its hours stay in the order type's column of the reliability page, and the
+    order's page and paper show its hours as corrected (``workorders.selectors.hours_corrected``). How late the work
+    came (``limit_passed_on``) is worked out again for the corrected date, as if the original had not been logged
     (``_limit_passed_without``, one site recompute, only when the date changes): work moved before the limit was passed
     was on time, work moved past it came late. A withdrawal records no work, so it is late by nothing."""
     if performed_on and performed_on != original.performed_on:
-        problem = service_date_problem(original.subsystem.telescope.site, performed_on)
+        problem = (service_date_problem(original.subsystem.telescope.site, performed_on)
+                   or retired_work_problem(original.subsystem, performed_on, "Service work"))
         if problem:
             raise ValidationError(problem)
     with transaction.atomic():

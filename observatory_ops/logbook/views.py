@@ -19,6 +19,7 @@ from observatory_ops.exports import csv_response, download_refused, period, safe
 from observatory_ops.formats.calendar_words import why_no_such_date
 from observatory_ops.planning import selectors
 from observatory_ops.registry.models import Site, Subsystem
+from observatory_ops.registry.services import successors_of
 from observatory_ops.reliability.selectors import HOURS_WINDOW_DAYS
 
 from . import nights_csv, services
@@ -108,14 +109,22 @@ def service_log(request, pk):
             elif method:
                 messages.info(request, "The cleaning is on the mirror's record: its reflectance fit counts it.")
             messages.success(request, "Service work logged" + (
-                f"; the plan '{data['plan'].name}' counts again from {data['performed_on']:%d %b %Y}."
+                f" in the history of {subsystem.name}, retired on {subsystem.retired_on:%d %b %Y}: a retired "
+                "subsystem's plans are not counted, so no plan's counting restarts." if subsystem.retired_on
+                else f"; the plan '{data['plan'].name}' counts again from {data['performed_on']:%d %b %Y}."
                 if data["plan"] else " (ad hoc work: no plan's counting restarts)."
             ) + (
                 f" The reliability page counts it as a failure on the night of "
                 f"{data['performed_on'] - dt.timedelta(days=1):%d %b %Y}." if data["repaired_failure"] else ""
             ))
             return redirect(subsystem)
-    return render(request, "logbook/service_form.html", {"form": form, "subsystem": subsystem, "site": site})
+    return render(request, "logbook/service_form.html", {"form": form, "subsystem": subsystem, "site": site,
+                                                         **_retired(subsystem)})
+
+
+def _retired(subsystem: Subsystem) -> dict:
+    """What the logging pages say of a retired subsystem: where its work goes now (``successors``)."""
+    return {"successors": successors_of(subsystem) if subsystem.retired_on else []}
 
 
 @requires(TECHNICIAN)
@@ -149,7 +158,7 @@ def reading_log(request, pk):
         usual = selectors.watched_quantities(subsystem) | usual_for_kind(subsystem.kind)
         form = ReadingForm(request.POST or None, watched=usual, kind_label=subsystem.get_kind_display(),
                            limits=selectors.reading_limits(subsystem), mirror=getattr(subsystem, "mirror", None),
-                           site=site)
+                           site=site, subsystem=subsystem)
         if request.method == "POST" and form.is_valid():
             data = form.cleaned_data
             if reading_already_logged(subsystem, request.user, data["quantity"], data["value"], data["taken_at"],
@@ -182,7 +191,8 @@ def reading_log(request, pk):
                 if early:
                     messages.warning(request, early)
                 return redirect(subsystem)
-        return render(request, "logbook/reading_form.html", {"form": form, "subsystem": subsystem, "site": site})
+        return render(request, "logbook/reading_form.html", {"form": form, "subsystem": subsystem, "site": site,
+                                                             **_retired(subsystem)})
 
 
 @requires(TECHNICIAN)

@@ -37,9 +37,10 @@ def uid_host() -> str:
 
 
 def _window_status(plan: RecoatPlan) -> str:
-    """A recoat window is cancelled when all its orders are withdrawn, tentative while those left are drafts."""
+    """A recoat window is cancelled when all its orders are withdrawn or its mirror is retired (not recoated:
+    ``mirrors.services.downtime_planned``), tentative while the orders left are drafts."""
     states = {order.state for order in plan.work_orders.all()} - {State.WITHDRAWN}
-    if not states and plan.work_orders.all():
+    if (not states and plan.work_orders.all()) or plan.mirror.subsystem.retired_on is not None:
         return "CANCELLED"
     return "TENTATIVE" if states <= {State.DRAFT} else "CONFIRMED"
 
@@ -90,6 +91,8 @@ def site_calendar(site: Site, base_url: str) -> bytes:
         phases = ", ".join(f"{p.get('name', '?')} {p.get('days', '?')} d ({_span(p)})" for p in plan.phases
                            if isinstance(p, dict))
         described = f"{out.changed}. The phases as planned: {phases}" if out.changed else phases
+        if subsystem.retired_on is not None:
+            described = f"Not done: {subsystem.name} was retired on {subsystem.retired_on:%d %b %Y}. {described}"
         all_day(f"recoat-{plan.pk}", out.first, out.last, f"Recoat window: {subsystem.telescope.name} {subsystem.name}",
                 described, _window_status(plan))
     return calendar.to_ical()

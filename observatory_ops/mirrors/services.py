@@ -49,6 +49,7 @@ from observatory_ops.registry.catalogue import (
 )
 from observatory_ops.registry.models import Site, Subsystem, Telescope
 from observatory_ops.registry.selectors import crew_days_off
+from observatory_ops.registry.services import retired_work_problem
 from observatory_ops.workorders.cautions import HAZARDS
 from observatory_ops.workorders.models import RequiredReading, State, WorkOrder, WorkOrderItem
 from observatory_ops.workorders.selectors import work_done_on
@@ -872,6 +873,8 @@ def due_in_downtime(plan: RecoatPlan) -> DowntimeOffer | None:
     from observatory_ops.planning.models import PlanStatus
     from observatory_ops.workorders.selectors import orders_for_plans  # mirrors builds on work orders
 
+    if plan.mirror.subsystem.retired_on is not None:  # not recoated, so no downtime (``downtime_planned``)
+        return None
     site = plan.mirror.subsystem.telescope.site
     today = site_today(site)
     orders = list(plan.work_orders.all())
@@ -918,7 +921,23 @@ def downtime_planned(site: Site, today: dt.date) -> list[RecoatPlan]:
     # service to that day, where the forecasts counted it back in service).
     still_to_do = Q(work_orders__state__in=(State.DRAFT, State.ISSUED, State.UNDERWAY))
     without_orders = Q(ends_on__gte=today, work_orders__isnull=True)  # one entered in the admin: its planned days
-    return list(_recoats_going_ahead(site).filter(still_to_do | without_orders).distinct())
+    # A retired mirror is not recoated: its recoat takes no telescope out (``recoats_of_retired``).
+    return list(_recoats_going_ahead(site).filter(still_to_do | without_orders,
+                                                  mirror__subsystem__retired_on__isnull=True).distinct())
+
+
+def recoats_of_retired(site: Site) -> list[RecoatPlan]:
+    """The site's recoats going ahead with work still to do on a mirror since retired (with the optical tube it is a
+    part of, say): no longer counted as downtime (``downtime_planned``, ``planning.services.recoats_in_hand``), since a
+    retired mirror is not recoated, and named on the dashboard so their orders are withdrawn. Each carries
+    ``orders_to_do``, those orders. A review retired a tube and its primary's four draft recoat orders kept the
+    telescope out of service on the dashboard and in the forecasts."""
+    to_do = (State.DRAFT, State.ISSUED, State.UNDERWAY)
+    plans = list(_recoats_going_ahead(site).filter(mirror__subsystem__retired_on__isnull=False,
+                                                   work_orders__state__in=to_do).prefetch_related("work_orders").distinct())
+    for plan in plans:
+        plan.orders_to_do = sorted((o for o in plan.work_orders.all() if o.state in to_do), key=lambda o: o.pk)
+    return plans
 
 
 def _days_text(first: dt.date, last: dt.date) -> str:
@@ -1406,6 +1425,16 @@ def phase_estimate_basis(phase: windows.Phase) -> str:
     return f"{days} of the phase x {PHASE_DAY_HOURS:g} h, one person's working day (our own planning figure)"
 
 
+def retired_recoat_text(mirror: Mirror) -> str:
+    """Why no recoat is planned for ``mirror``, "" when one may be: its subsystem was retired (a review planned four
+    draft orders on the primary of a tube retired weeks before)."""
+    subsystem = mirror.subsystem
+    if subsystem.retired_on is None:
+        return ""
+    return (f"{subsystem} was retired on {subsystem.retired_on:%d %b %Y}: a retired mirror is not recoated, so no "
+            "recoat is planned for it")
+
+
 def recoat_plan_create(
     mirror: Mirror, starts_on: dt.date, phases: list[windows.Phase], cost: float, by
 ) -> RecoatPlan:
@@ -1416,8 +1445,10 @@ def recoat_plan_create(
     day, and the plan runs from the first phase's first day to the last one's last day (a window from
     ``recoat_windows`` begins with its first phase). The realignment order asks for a band reflectance reading of
     the new coating, and it carries the mirror's recoat service plans (``recoat_plans``, if any), so finishing it
-    restarts their counting.
+    restarts their counting. Refused for a retired mirror (``retired_recoat_text``).
     """
+    if refused := retired_recoat_text(mirror):
+        raise ValidationError(refused)
     subsystem = mirror.subsystem
     site = subsystem.telescope.site
     laid = phase_dates(starts_on, phases, site.crew_days, crew_days_off(site, starts_on))
@@ -1480,10 +1511,13 @@ def _coating_band_now(mirror: Mirror) -> float:
 # --- mirror events ------------------------------------------------------------------------------------
 
 
-def _check_date(mirror: Mirror, day: dt.date, what: str) -> None:
+def _check_date(mirror: Mirror, day: dt.date, what: str, retired_refused: bool = True) -> None:
     """A mirror's dates follow the rule of every logged date (``logbook.services.date_problem``): not after today at
-    the site, and no further back than a night may be."""
+    the site, and no further back than a night may be; and, with ``retired_refused``, not after the day its subsystem
+    was retired (``registry.services.retired_work_problem``), as its service work and readings."""
     problem = date_problem(mirror.subsystem.telescope.site, day, what)
+    if problem is None and retired_refused:
+        problem = retired_work_problem(mirror.subsystem, day, f"A {what.removesuffix(' date')}")
     if problem:
         raise ValidationError(problem)
 
@@ -1526,8 +1560,9 @@ def cleaning_log(
 ) -> CleaningEvent:
     """A cleaning: the decline fit counts its recovery, and the mirror's cleaning plans
     (``plans_a_cleaning_restarts``) restart their counting from it, as a coating restarts the recoat plans.
-    ``work_order``: the order whose finishing records it, whose page and paper then show it."""
-    _check_date(mirror, cleaned_on, "cleaning date")
+    ``work_order``: the order whose finishing records it, whose page and paper then show it; what the work orders of a
+    retired mirror may still record is theirs to say, so its retire day is not held against it here."""
+    _check_date(mirror, cleaned_on, "cleaning date", retired_refused=work_order is None)
     with transaction.atomic():
         cleaning = CleaningEvent.objects.create(
             mirror=mirror, cleaned_on=cleaned_on, method=method, note=note, work_order=work_order
@@ -1606,7 +1641,10 @@ def _plans_restart(
 ) -> list[ServiceRecord]:
     """A service record dated ``day`` for each plan, so each counts again from it; none for a plan that already
     has a record in force on that day (the work order that did the work wrote it), so it is idempotent. Each
-    record recomputes the site (``service_record_log``)."""
+    record recomputes the site (``service_record_log``). None after the day ``subsystem`` was retired: its plans are
+    not counted, and its service work dated then is refused (a work order's finish may still record a cleaning)."""
+    if subsystem.retired_on is not None and day > subsystem.retired_on:
+        return []
     records = []
     for plan in plans:
         in_force = ServiceRecord.objects.filter(plan=plan, performed_on=day, void=False, corrected_by__isnull=True)

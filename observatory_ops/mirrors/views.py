@@ -19,6 +19,7 @@ from observatory_ops.logbook.views import already_logged_text
 from observatory_ops.planning.models import PlanStatus
 from observatory_ops.planning.services import site_today
 from observatory_ops.registry.models import Site
+from observatory_ops.registry.services import successors_of
 from observatory_ops.workorders.models import State, WorkOrder
 from observatory_ops.workorders.selectors import coating_unlogged
 
@@ -76,6 +77,8 @@ def mirror_detail(request, pk):
             "history_label": "mirrors.mirror",
             "history_pk": mirror.pk,
             "can_log": has_role(request.user, TECHNICIAN),
+            # A retired mirror: no forecast of its crossing, no new work offered, and where its kind is in service now.
+            "successors": successors_of(mirror.subsystem) if mirror.subsystem.retired_on else [],
             # Each recoat plan, what changed in the crew's days since it was made, the booked runs on its nights, and
             # the telescope's other work its downtime could take.
             "plans": [
@@ -265,13 +268,15 @@ def recoat_planner(request, pk):
     in_hand = services.recoat_in_hand(mirror)
     if in_hand:  # said with its days as its orders now stand
         services.with_days_out([in_hand], site_today(site))
+    retired = services.retired_recoat_text(mirror)
     context = {
         "mirror": mirror, "site": site, "form": form, "in_hand": in_hand,
+        "retired": retired, "successors": successors_of(mirror.subsystem) if retired else [],
         "in_hand_runs_over": services.runs_over_each_recoat(site, site_today(site)).get(in_hand.pk, []) if in_hand
         else [],
         "may_clean": services.orders_that_may_clean_text(services.orders_that_may_clean(mirror)),
     }
-    if form.is_bound and form.is_valid():
+    if form.is_bound and form.is_valid() and not retired:  # a retired mirror's page says why no window is offered
         try:
             context.update(services.recoat_windows(mirror, form.cleaned_data["start"],
                                                    form.cleaned_data["horizon_days"], form.phases()))
@@ -286,6 +291,9 @@ def recoat_plan_create(request, pk):
     mirror = _mirror(pk)
     if (visit := posted_only(request, reverse("mirror-recoat", args=[mirror.pk]))) is not None:
         return visit
+    if retired := services.retired_recoat_text(mirror):  # sent from a page open before it was retired
+        messages.error(request, f"No plan made: {retired}.")
+        return redirect("mirror-recoat", pk=mirror.pk)
     form = _window_form(request, mirror, request.POST)
     if not form.is_valid():  # sent from an earlier day's page, or not from the planner: nothing is stored
         messages.error(request, f"No plan made: {_form_problems(form)} Find the windows again.")

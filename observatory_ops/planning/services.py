@@ -1047,7 +1047,9 @@ def recoats_in_hand(site: Site) -> list:
     from observatory_ops.workorders.models import State  # work orders build on planning
 
     states: dict[int, set] = {}
-    for pk, state in RecoatPlan.objects.filter(mirror__subsystem__telescope__site=site).values_list(
+    # A retired mirror's recoat is not done, so takes no telescope out (``mirrors.services.recoats_of_retired``).
+    for pk, state in RecoatPlan.objects.filter(mirror__subsystem__telescope__site=site,
+                                               mirror__subsystem__retired_on__isnull=True).values_list(
             "pk", "work_orders__state"):
         states.setdefault(pk, set()).add(state)
     in_hand = [pk for pk, held in states.items()

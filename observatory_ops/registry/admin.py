@@ -1,4 +1,6 @@
 from django.contrib import admin, messages
+from django.urls import reverse
+from django.utils.html import format_html, format_html_join
 from simple_history.admin import SimpleHistoryAdmin
 
 from observatory_ops.planning.admin import RecomputesSite
@@ -15,7 +17,7 @@ from .forms import (
     TelescopeListFilter,
 )
 from .models import CrewDayOff, Site, Subsystem, Telescope
-from .selectors import SLUG_KEPT, slug_uses
+from .selectors import SLUG_KEPT, parts_of, slug_uses
 from .services import site_settings_apply, subsystem_parts_follow
 from .templatetags.coordinates import coordinates
 
@@ -136,7 +138,22 @@ class SubsystemAdmin(ChoicesNamedWithSite, RecomputesSite, SimpleHistoryAdmin):
             if moved:
                 self.message_user(request, f"Moved with it to {form.instance.telescope.site_label}: "
                                   f"{', '.join(part.name for part in moved)}.", messages.INFO)
+        if change and "retired_on" in form.changed_data and form.instance.retired_on is None:
+            self._parts_left_retired(request, form.instance, form.initial.get("retired_on"))
         super().save_related(request, form, formsets, change)
+
+    def _parts_left_retired(self, request, subsystem, was_retired_on) -> None:
+        """Brought back into service (its "Retired on" cleared), a subsystem brings back none of its parts: retiring it
+        retired them on its day (``services.subsystem_retire``), but a part may have been retired that day for a
+        reason of its own, so each is brought back here by hand. Those still retired on its day are named, linked."""
+        left = [part for part in parts_of(subsystem) if was_retired_on and part.retired_on == was_retired_on]
+        if left:
+            self.message_user(request, format_html(
+                "{} is back in service; its parts retired on the same day, {}, are still retired: {}. Bring back each "
+                "that came back into service with it by clearing its Retired on.",
+                subsystem, f"{was_retired_on:%d %b %Y}", format_html_join(", ", '<a href="{}">{}</a>', (
+                    (reverse("admin:registry_subsystem_change", args=[part.pk]), part.name) for part in left)),
+            ), messages.WARNING)
 
     def has_delete_permission(self, request, obj=None):
         return False  # subsystems are retired (retired_on), never deleted, so their history stays

@@ -10,8 +10,11 @@ from observatory_ops.workorders.cautions import HAZARDS
 from observatory_ops.workorders.models import IsolationPoint
 
 from .catalogue import kind as catalogue_kind
-from .models import Site, Subsystem, Telescope
+from .models import Site, Subsystem, Telescope, name_key
 from .selectors import parts_of
+
+#: The kind whose subsystems have nothing in common but the name "Other": none of them is another's successor.
+_NO_SUCCESSOR_KIND = "other"
 
 #: The site's settings its sky is computed from: each night's sunset, dark hours and Moon (``calc.nights``), and which
 #: local date a night is.
@@ -57,6 +60,37 @@ def subsystem_retire(subsystem: Subsystem, on: dt.date, reason: str, by) -> Subs
                 part._change_reason = f"retired: {reason.strip()[:90]}"
                 part.save(update_fields=["retired_on"])
     return subsystem
+
+
+def successors_of(subsystem: Subsystem) -> list[Subsystem]:
+    """The subsystems in service of ``subsystem``'s kind on its telescope, by name: where the work of a retired one goes
+    now (its replacement is registered beside it, and may take its name). Those of the same name come alone when there
+    are any (one fan of three replaced); none for the kind "Other", which says nothing of what a subsystem is."""
+    if subsystem.kind == _NO_SUCCESSOR_KIND:
+        return []
+    found = list(Subsystem.objects.in_service().filter(telescope=subsystem.telescope_id, kind=subsystem.kind)
+                 .exclude(pk=subsystem.pk).select_related("telescope").order_by("name"))
+    same_name = [other for other in found if name_key(other.name) == name_key(subsystem.name)]
+    return same_name or found
+
+
+def retired_work_problem(subsystem: Subsystem, day: dt.date, what: str) -> str | None:
+    """Why ``what`` ("Service work", "A reading") dated ``day`` is refused on ``subsystem``: it was retired before that
+    day, so no longer in service, its plans no longer counted and the reliability page leaving out its failures after
+    it. The refusal names the retire day and where the work goes now (``successors_of``). None when it is in service,
+    or ``day`` is on or before its retire day: its history entered late is kept."""
+    if subsystem.retired_on is None or day <= subsystem.retired_on:
+        return None
+    successors = successors_of(subsystem)
+    kind, telescope = subsystem.kind_label.lower(), subsystem.telescope.name
+    if successors:
+        where = (f"Log it on the subsystem of its kind ({kind}) in service on {telescope}: "
+                 + ", ".join(f"{other.name} ({other.get_absolute_url()})" for other in successors) + ".")
+    else:
+        where = (f"No other subsystem of its kind ({kind}) is in service on {telescope}: register its replacement, "
+                 "and log the work there.")
+    return (f"{subsystem} was retired on {subsystem.retired_on:%d %b %Y}, so it was no longer in service on "
+            f"{day:%d %b %Y}: {what.lower()} dated after its retire day is refused, and nothing was stored. {where}")
 
 
 def site_settings_apply(site: Site, changed: set[str]) -> bool:

@@ -12,10 +12,11 @@ from observatory_ops.planning import selectors as planning_selectors
 from observatory_ops.planning.services import site_recompute, site_today, sites_bring_up_to_date
 from observatory_ops.workorders import selectors as workorder_selectors
 from observatory_ops.workorders.cautions import HAZARDS
+from observatory_ops.workorders.models import RequiredReading, WorkOrderItem
 
 from . import services
 from .models import Site, Subsystem
-from .selectors import subsystem_tree, tube_warning
+from .selectors import open_orders_of, parts_of, subsystem_tree, tube_warning
 
 
 @requires(VIEWER)
@@ -69,6 +70,7 @@ def site_dashboard(request, slug):
             "parts_to_see_to": workorder_selectors.parts_low_or_short(site),
             "telescopes_out": workorder_selectors.telescopes_out([site]).values(),
             "downtime": downtime,
+            "recoats_of_retired": mirror_services.recoats_of_retired(site),
             "open_work_orders": _open_orders(site, today),
         },
     )
@@ -106,6 +108,9 @@ def subsystem_detail(request, pk):
             ),
             "readings": subsystem.readings.select_related("taken_by", "withdrawn_by")[:50],
             "children": subsystem.children.in_service(),
+            # Where its work goes now, when retired; before retiring, the orders retiring would leave open.
+            "successors": services.successors_of(subsystem) if subsystem.retired_on else [],
+            "open_orders": [] if subsystem.retired_on else _open_orders_of_it_and_parts(subsystem),
             "hazard_labels": [HAZARDS.get(h, h) for h in subsystem.hazards],
             "history": changes(subsystem, limit=5),
             "history_label": "registry.subsystem",
@@ -127,10 +132,27 @@ def subsystem_retire(request, pk):
     else:
         site_recompute(site)
         messages.success(request, f"{subsystem.name} retired; its records and history are kept.")
-        open_orders = workorder_selectors.work_orders().filter(
-            items__subsystem=subsystem, state__in=["draft", "issued", "underway"]
-        ).distinct()
-        if open_orders:
-            listed = ", ".join(f"{o.number} ({o.state})" for o in open_orders)
-            messages.warning(request, f"Work orders still open for it: {listed}. Finish or withdraw them.")
+        if open_orders := _open_orders_of_it_and_parts(subsystem):
+            listed = ", ".join(f"{o.number} ({o.get_state_display().lower()}" + (f", on {o.on_parts})" if o.on_parts
+                                                                                 else ")") for o in open_orders)
+            whose = "it and its parts" if any(o.on_parts for o in open_orders) else "it"
+            messages.warning(request, f"Work orders still open for {whose}: {listed}. Finish or withdraw "
+                                      "them: a retired subsystem takes no new work, and the recoat of a retired mirror "
+                                      "is no longer counted as downtime.")
     return redirect(subsystem)
+
+
+def _open_orders_of_it_and_parts(subsystem: Subsystem) -> list:
+    """The work orders not yet done on ``subsystem`` or any of its parts, which retiring it retires too
+    (``selectors.open_orders_of``), each with ``on_parts``: the names of the parts it names ("" when it names only
+    ``subsystem``). A reviewer retired an optical tube and was told of none of the four recoat orders of its mirror."""
+    names = {subsystem.pk: subsystem.name, **{part.pk: part.name for part in parts_of(subsystem)}}
+    orders = open_orders_of(list(names))
+    named: dict[int, set[str]] = {}
+    for model in (WorkOrderItem, RequiredReading):
+        for order, part in model.objects.filter(work_order__in=orders, subsystem__in=names).exclude(
+                subsystem=subsystem).values_list("work_order_id", "subsystem_id"):
+            named.setdefault(order, set()).add(names[part])
+    for order in orders:
+        order.on_parts = ", ".join(sorted(named.get(order.pk, ())))
+    return orders

@@ -1,0 +1,287 @@
+"""A retired subsystem takes no new work. A review walking the life of a part retired an optical tube (its parts, the
+primary mirror among them, retired with it) and found that the retired unit still took work: a new recoat planned on
+the retired primary, its telescope still counted out of service for the primary's old recoat, service work and a
+repair dated after the retire day accepted with messages the plans and the reliability page then contradicted, and the
+tube brought back in the admin with its parts left retired unsaid.
+
+The rules tested: a recoat is refused on a retired mirror (``mirrors.services.retired_recoat_text``); a retired
+mirror's recoat is no downtime (``mirrors.services.downtime_planned``, ``planning.services.recoats_in_hand``) and the
+dashboard names its orders to withdraw; work and readings dated after the retire day are refused naming that day and
+the subsystem of its kind in service (``registry.services.retired_work_problem``), those dated on or before it kept as
+history entered late. The scene and its forecast by hand: tests/test_downtime_in_forecasts.py (the fans' plan reaches
+its limit on the 13th night from today, today + 12, with no recoat in its way)."""
+from __future__ import annotations
+
+import datetime as dt
+
+import pytest
+from django.contrib.messages import get_messages
+from django.core.exceptions import ValidationError
+from django.urls import reverse
+from test_downtime_in_forecasts import scene  # noqa: F401  (the scene is a fixture)
+from test_register_and_plan_bounds import _unchanged
+
+from observatory_ops.calc.windows import RECOAT_PHASES
+from observatory_ops.logbook import services as logbook
+from observatory_ops.logbook.models import Reading, ServiceRecord
+from observatory_ops.mirrors import services as mirror_services
+from observatory_ops.mirrors.models import CoatingEvent, Mirror, RecoatPlan
+from observatory_ops.planning import services
+from observatory_ops.planning.models import PlanStatus
+from observatory_ops.registry.models import Subsystem
+from observatory_ops.registry.services import subsystem_retire
+from observatory_ops.workorders.models import WorkOrder
+
+pytestmark = pytest.mark.django_db
+NO_RECOAT_IN_THE_WAY = 12  # days from today to the fans' forecast (tests/test_downtime_in_forecasts.py, by hand)
+
+
+def _retired(subsystem: Subsystem, on: dt.date) -> Subsystem:
+    Subsystem.objects.filter(pk=subsystem.pk).update(retired_on=on)
+    subsystem.refresh_from_db()
+    services.site_recompute(subsystem.telescope.site)
+    return subsystem
+
+
+def _said(response) -> str:
+    return " ".join(str(m) for m in get_messages(response.wsgi_request))
+
+
+def _new_primary(telescope, name: str = "Primary mirror") -> Mirror:
+    primary = Subsystem.objects.create(telescope=telescope, kind="primary_mirror", name=name)
+    mirror = Mirror.objects.create(subsystem=primary, diameter_mm=500, thickness_mm=50, hole_mm=120,
+                                   material="borosilicate", cell_mass_kg=30)
+    CoatingEvent.objects.create(mirror=mirror, coated_on=dt.date(2025, 1, 1), metal="al")
+    return mirror
+
+
+# --- 1. The recoat planner and the mirror page ----------------------------------------------------------------------
+
+
+def test_a_retired_mirror_is_refused_a_recoat_and_nothing_is_stored(scene, users):  # noqa: F811
+    site, today, plan, mirror = scene
+    retired_on = today - dt.timedelta(days=5)
+    _retired(mirror.subsystem, retired_on)
+    with pytest.raises(ValidationError, match=f"F50: Primary mirror was retired on {retired_on:%d %b %Y}: a retired "
+                                              "mirror is not recoated, so no recoat is planned for it"):
+        mirror_services.recoat_plan_create(mirror, today + dt.timedelta(days=3), list(RECOAT_PHASES), 10.0,
+                                           users["engineer"])
+    assert not RecoatPlan.objects.exists() and not WorkOrder.objects.exists()
+
+
+def test_the_planner_of_a_retired_mirror_says_so_and_offers_no_window_nor_plan_button(scene, users, client):  # noqa: F811
+    site, today, plan, mirror = scene
+    retired_on = today - dt.timedelta(days=5)
+    _retired(mirror.subsystem, retired_on)
+    client.force_login(users["engineer"])
+    url = reverse("mirror-recoat", args=[mirror.pk])
+    page = client.get(url, {"start": today.isoformat(), "horizon_days": 60}).content.decode()
+    assert (f"F50: Primary mirror was retired on {retired_on:%d %b %Y}: a retired mirror is not recoated, so no "
+            "recoat is planned for it.") in page
+    assert "No other subsystem of its kind (primary mirror) is in service on F50." in page
+    assert "create-recoat-plan" not in page and "Find windows" not in page and "Cheapest windows" not in page
+    # A plan sent from a page opened before the mirror was retired makes nothing either.
+    response = client.post(reverse("mirror-recoat-plan", args=[mirror.pk]),
+                           {"start": today.isoformat(), "horizon_days": 60, "window": today.isoformat()})
+    assert response.status_code == 302 and f"No plan made: F50: Primary mirror was retired on {retired_on:%d %b %Y}" \
+        in _said(response)
+    assert not RecoatPlan.objects.exists() and not WorkOrder.objects.exists()
+    # Its successor registered, the planner points to the successor's planner.
+    successor = _new_primary(mirror.subsystem.telescope)
+    page = client.get(url).content.decode()
+    assert f'<a href="{reverse("mirror-recoat", args=[successor.pk])}">Primary mirror: its recoat window</a>' in page
+
+
+def test_the_mirror_page_of_a_retired_mirror_says_it_is_retired_and_forecasts_no_crossing(scene, users, client):  # noqa: F811
+    site, today, plan, mirror = scene
+    retired_on = today - dt.timedelta(days=5)
+    _retired(mirror.subsystem, retired_on)
+    client.force_login(users["engineer"])
+    page = client.get(mirror.get_absolute_url()).content.decode()
+    assert f"<strong>Retired on {retired_on:%d %b %Y}</strong>: no longer in service" in page
+    assert (f"The mirror was retired on {retired_on:%d %b %Y}: a retired mirror is not recoated, so its crossing is "
+            "not forecast.") in page
+    # Registered but retired, not "no mirror registered".
+    assert "no mirror registered on this telescope" not in page
+    assert (f"Primary mirror: registered, but retired on {retired_on:%d %b %Y}, so left out of the train; no mirror "
+            "in service is registered on this telescope") in page
+    assert "Plan the recoat window" not in page and "Log a measurement" not in page
+    successor = _new_primary(mirror.subsystem.telescope)
+    page = client.get(mirror.get_absolute_url()).content.decode()
+    assert (f'In service on F50, of its kind (primary mirror): <a href="{successor.get_absolute_url()}">Primary '
+            "mirror</a>") in page
+
+
+# --- 2. Retiring a parent with open work on its parts ---------------------------------------------------------------
+
+
+@pytest.fixture
+def tube_in_recoat(scene, users):  # noqa: F811
+    """The scene's primary a part of an optical tube, with a recoat planned from today + 3 (four draft orders)."""
+    site, today, plan, mirror = scene
+    tube = Subsystem.objects.create(telescope=mirror.subsystem.telescope, kind="truss", name="Optical tube")
+    Subsystem.objects.filter(pk=mirror.subsystem_id).update(parent=tube)
+    recoat = mirror_services.recoat_plan_create(mirror, today + dt.timedelta(days=3), list(RECOAT_PHASES), 10.0,
+                                                users["engineer"])
+    assert PlanStatus.objects.get(plan=plan).forecast_date > today + dt.timedelta(days=NO_RECOAT_IN_THE_WAY)
+    return tube, recoat
+
+
+def test_retiring_a_tube_names_the_open_orders_of_its_mirror_before_and_after(scene, tube_in_recoat, users, client):  # noqa: F811
+    tube, recoat = tube_in_recoat
+    numbers = [o.number for o in recoat.work_orders.order_by("pk")]
+    client.force_login(users["engineer"])
+    page = client.get(tube.get_absolute_url()).content.decode()
+    for number in numbers:
+        assert f"{number}</a> (draft, on Primary mirror)" in page
+    response = client.post(reverse("subsystem-retire", args=[tube.pk]), {"reason": "tube replaced"})
+    said = _said(response)
+    listed = ", ".join(f"{number} (draft, on Primary mirror)" for number in numbers)
+    assert f"Work orders still open for it and its parts: {listed}. Finish or withdraw them" in said
+
+
+def test_a_retired_mirrors_recoat_is_no_downtime_and_the_dashboard_names_its_orders(scene, tube_in_recoat, users,  # noqa: F811
+                                                                                       client):
+    """The fans' forecast goes back to today + 12, the nights of a recoat that will not be done counted as used (the
+    safe side: a due date too early, not one too late); the dashboard says why and which orders to withdraw."""
+    site, today, plan, mirror = scene
+    tube, recoat = tube_in_recoat
+    subsystem_retire(tube, today, "tube replaced", users["engineer"])
+    services.site_recompute(site)
+    status = PlanStatus.objects.get(plan=plan)
+    assert status.forecast_date == today + dt.timedelta(days=NO_RECOAT_IN_THE_WAY)
+    assert "planned recoat" not in status.basis
+    assert mirror_services.downtime_planned(site, today) == []
+    assert services.recoats_in_hand(site) == []
+    client.force_login(users["viewer"])
+    page = client.get(site.get_absolute_url()).content.decode()
+    assert "No recoat planned." in page and "out of service" not in page.split('id="downtime"')[1].split("</div>")[0]
+    orders = ", ".join(f'<a href="{o.get_absolute_url()}">{o.number}</a> (draft)'
+                       for o in recoat.work_orders.order_by("pk"))
+    assert (f"is not counted as downtime: the mirror was retired on {today:%d %b %Y}, and a retired mirror is not "
+            f"recoated. Its work orders still to do: {orders}. Withdraw them") in page
+    # The calendar file says the same: the window cancelled, with why (the review found it still tentative).
+    from icalendar import Calendar
+
+    from observatory_ops.mirrors.calendar_export import site_calendar
+
+    window = next(e for e in Calendar.from_ical(site_calendar(site, "https://ops.example")).walk("VEVENT")
+                  if str(e["uid"]).startswith(f"recoat-{recoat.pk}@"))
+    assert str(window["status"]) == "CANCELLED"
+    assert str(window["description"]).startswith(f"Not done: Primary mirror was retired on {today:%d %b %Y}.")
+
+
+# --- 3. Service work and readings -----------------------------------------------------------------------------------
+
+
+@pytest.fixture
+def old_fans(scene):  # noqa: F811
+    """The scene's fans retired ten days ago."""
+    site, today, plan, mirror = scene
+    return _retired(plan.subsystem, today - dt.timedelta(days=10))
+
+
+def _service(client, subsystem, day: dt.date, plan=None, repaired: bool = False):
+    data = {"performed_on": day.isoformat(), "summary": "Bearings greased", "hours_spent": "1",
+            "plan": plan.pk if plan else ""}
+    if repaired:
+        data["repaired_failure"] = "on"
+    return client.post(reverse("service-log", args=[subsystem.pk]), data)
+
+
+def test_the_page_of_a_retired_unit_offers_no_logging_and_points_to_its_successor(scene, old_fans, users, client):  # noqa: F811
+    client.force_login(users["technician"])
+    page = client.get(old_fans.get_absolute_url()).content.decode()
+    assert f"<strong>Retired on {old_fans.retired_on:%d %b %Y}</strong>" in page
+    assert "No other subsystem of its kind (cooling fans and filters) is in service on F50." in page
+    assert "Log service work" not in page and "Log a reading" not in page
+    new = Subsystem.objects.create(telescope=old_fans.telescope, kind="cooling_fans", name="Fans")
+    page = client.get(old_fans.get_absolute_url()).content.decode()
+    assert (f'In service on F50, of its kind (cooling fans and filters): <a href="{new.get_absolute_url()}">'
+            "Fans</a>") in page
+
+
+def test_service_work_after_the_retire_day_is_refused_and_none_stored(scene, old_fans, users, client):  # noqa: F811
+    site, today, plan, mirror = scene
+    new = Subsystem.objects.create(telescope=old_fans.telescope, kind="cooling_fans", name="Fans")
+    client.force_login(users["technician"])
+    day = today - dt.timedelta(days=5)
+    refusal = (f"F50: Fans was retired on {old_fans.retired_on:%d %b %Y}, so it was no longer in service on "
+               f"{day:%d %b %Y}: service work dated after its retire day is refused, and nothing was stored. Log it on "
+               f"the subsystem of its kind (cooling fans and filters) in service on F50: Fans "
+               f"({new.get_absolute_url()}).")
+    for repaired in (False, True):  # a repair too: the reliability page leaves a failure after the retire day out
+        response = _service(client, old_fans, day, plan, repaired=repaired)
+        assert response.status_code == 200
+        assert refusal in response.context["form"].errors["performed_on"]
+    assert not ServiceRecord.objects.exists()
+    with pytest.raises(ValidationError, match="service work dated after its retire day is refused"):
+        logbook.service_record_log(old_fans, plan, day, users["technician"], "Bearings greased")
+    assert not ServiceRecord.objects.exists()
+
+
+def test_service_work_on_or_before_the_retire_day_is_kept_and_restarts_no_plan(scene, old_fans, users, client):  # noqa: F811
+    site, today, plan, mirror = scene
+    client.force_login(users["technician"])
+    page = client.get(reverse("service-log", args=[old_fans.pk])).content.decode()
+    assert "Work and readings dated after its retire day are refused" in page
+    response = _service(client, old_fans, old_fans.retired_on - dt.timedelta(days=2), plan)
+    assert response.status_code == 302
+    said = _said(response)
+    assert (f"Service work logged in the history of Fans, retired on {old_fans.retired_on:%d %b %Y}: a retired "
+            "subsystem's plans are not counted, so no plan's counting restarts.") in said
+    assert "counts again" not in said
+    # A repair on the retire day: its failure falls on the night before, within its service (reliability.selectors).
+    response = _service(client, old_fans, old_fans.retired_on, repaired=True)
+    assert response.status_code == 302
+    assert (f"The reliability page counts it as a failure on the night of "
+            f"{old_fans.retired_on - dt.timedelta(days=1):%d %b %Y}.") in _said(response)
+    assert ServiceRecord.objects.filter(subsystem=old_fans).count() == 2
+
+
+def test_a_reading_after_the_retire_day_is_refused_and_one_on_it_kept(scene, old_fans, users, client):  # noqa: F811
+    site, today, plan, mirror = scene
+    client.force_login(users["technician"])
+    url = reverse("reading-log", args=[old_fans.pk])
+    after = old_fans.retired_on + dt.timedelta(days=1)
+    response = client.post(url, {"quantity": "fan_current_a", "value": "0.4", "taken_at": f"{after}T10:00"})
+    assert response.status_code == 200
+    assert any(f"was retired on {old_fans.retired_on:%d %b %Y}" in e and "a reading dated after its retire day is "
+               "refused" in e for e in response.context["form"].errors["taken_at"])
+    assert not Reading.objects.exists()
+    taken_at = dt.datetime.combine(after, dt.time(10), tzinfo=dt.UTC)
+    with pytest.raises(ValidationError, match="a reading dated after its retire day is refused"):
+        logbook.reading_log(old_fans, "fan_current_a", 0.4, taken_at, users["technician"])
+    response = client.post(url, {"quantity": "fan_current_a", "value": "0.4",
+                                 "taken_at": f"{old_fans.retired_on}T10:00"})
+    assert response.status_code == 302 and Reading.objects.filter(subsystem=old_fans).count() == 1
+
+
+def test_a_retired_mirrors_cleaning_after_its_retire_day_is_refused_on_its_page(scene, users):  # noqa: F811
+    site, today, plan, mirror = scene
+    _retired(mirror.subsystem, today - dt.timedelta(days=5))
+    with pytest.raises(ValidationError, match="a cleaning dated after its retire day is refused"):
+        mirror_services.cleaning_log(mirror, users["technician"], today, "co2_snow")
+    with pytest.raises(ValidationError, match="a measurement dated after its retire day is refused"):
+        mirror_services.measurement_log(mirror, users["technician"], today, 0.8)
+    assert not mirror.cleanings.exists() and not mirror.measurements.exists()
+
+
+# --- 4. Bringing a parent back in the admin -------------------------------------------------------------------------
+
+
+def test_clearing_a_parents_retired_on_names_its_parts_still_retired(scene, users, engineer_in_admin):  # noqa: F811
+    site, today, plan, mirror = scene
+    tube = Subsystem.objects.create(telescope=mirror.subsystem.telescope, kind="truss", name="Optical tube")
+    Subsystem.objects.filter(pk=mirror.subsystem_id).update(parent=tube)
+    subsystem_retire(tube, today, "sent for repair", users["engineer"])
+    client = engineer_in_admin
+    url = reverse("admin:registry_subsystem_change", args=[tube.pk])
+    response = client.post(url, {**_unchanged(client, url), "retired_on": ""})
+    assert Subsystem.objects.get(pk=tube.pk).retired_on is None
+    said = _said(response)
+    part_url = reverse("admin:registry_subsystem_change", args=[mirror.subsystem_id])
+    assert (f"F50: Optical tube is back in service; its parts retired on the same day, {today:%d %b %Y}, are still "
+            f'retired: <a href="{part_url}">Primary mirror</a>. Bring back each that came back into service with it '
+            "by clearing its Retired on.") in said
+    assert Subsystem.objects.get(pk=mirror.subsystem_id).retired_on == today
