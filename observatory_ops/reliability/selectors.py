@@ -1,11 +1,13 @@
 """Reads for the reliability page: failures, operating hours, MTBF and Weibull fits per subsystem kind, and
 what maintenance cost in hours.
 
-A failure is a corrective work order that was finished (or countersigned), one for each subsystem it names, or
-service logged without an order and marked as the repair of a failure; all counted except the replaced unit's,
-those after the subsystem was retired and those with no counted operating hours leading up to them, which are left
-out with the reason (``left_out_reason``, the one place that rule is kept). A failure is placed on the night before
-the day its repair was done.
+A failure is a repair as its service record stands (``failures_of_site``): a record of a corrective work order that
+was finished (or countersigned), one for each subsystem it names, or service logged without an order and marked as
+the repair of a failure; a correction moves it to the corrected date, a withdrawal removes it. All are counted except
+the replaced unit's, those after the subsystem was retired and those with no counted operating hours leading up to
+them, which are left out with the reason (``left_out_reason``, the one place that rule is kept). A failure is placed
+on the night before the day its repair was done. Records that go back before a subsystem's in-service date (a part
+swapped by editing that date) are said beside its kind (``HistoryBefore``).
 Operating hours are the open hours of the subsystem's telescope's nightly log (``planning.services.UsageLog``: the
 site's rows, or the telescope's own where it sends them; a shared enclosure's, the whole site's), counted for
 each subsystem over the nights it was in service (from its "in service since" date where one is given, else from
@@ -19,11 +21,11 @@ from __future__ import annotations
 
 import datetime as dt
 from collections import defaultdict
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, replace
 from typing import NamedTuple
 
 import numpy as np
-from django.db.models import Min
+from django.db.models import Exists, Min, OuterRef, Q
 
 from observatory_ops.calc import exposure, reliability
 from observatory_ops.calc.night_of import night_of
@@ -33,7 +35,6 @@ from observatory_ops.planning.services import UsageLog, site_today
 from observatory_ops.registry.catalogue import KINDS
 from observatory_ops.registry.models import Site, Subsystem, is_shared_enclosure
 from observatory_ops.workorders.models import State, WorkOrder, WorkOrderItem
-from observatory_ops.workorders.selectors import work_done_on_of
 
 DONE = (State.FINISHED, State.COUNTERSIGNED)
 #: The maintenance-hours window: the last 12 months, as 365 days back from the site's today.
@@ -80,11 +81,12 @@ def first_logged_night(site: Site) -> dt.date | None:
 
 @dataclass(frozen=True)
 class Start:
-    """The day a subsystem's operating hours are counted from, and where that day came from."""
+    """The day a subsystem's operating hours are counted from, where that day came from, and the hours counted."""
 
     subsystem: str
     day: dt.date
     basis: str  # one of START_BASES
+    hours: float | None = None  # its counted operating hours (within the period, when one is chosen); None: not yet
 
 
 #: Why a failure is left out of its subsystem's failures, MTBF and fit (``left_out_reason``).
@@ -102,6 +104,41 @@ class LeftOut:
     subsystem: str
     night: dt.date
     reason: str
+
+
+@dataclass(frozen=True)
+class HistoryBefore:
+    """A subsystem's record from before its in-service date, left out of its failures, hours, MTBF and fit (the page
+    says so beside its kind): what a part swap recorded by editing the in-service date drops, where retiring the old
+    unit and registering the new one would keep the old unit's record. Found where service records (as they stand) go
+    back before the in-service date (``_starts``). Its failures are those left out as ``REPLACED_UNIT``; its hours,
+    about, the open hours of the subsystem's log from the day the record shows it in service with the in-service date
+    set aside (``START_BASES``) to the day before that date; both within the period, when one is chosen."""
+
+    subsystem: str
+    since: dt.date  # the in-service date given
+    failures: int
+    hours: float
+    first: dt.date  # the nights whose open hours are ``hours``, both included
+    last: dt.date
+    basis: str  # where ``first`` came from: one of START_BASES
+
+    @property
+    def text(self) -> str:
+        """E.g. "T1: Fan A: 3 failures and about 3,650 h before its in-service date 02 Jul 2026 are left out (...)"."""
+        said = [f"{self.failures} failure{'s' if self.failures != 1 else ''}"] if self.failures else []
+        if self.hours > 0:
+            said.append(f"about {self.hours:,.0f} h")
+        verb = "is" if said == ["1 failure"] else "are"
+        text = (f"{self.subsystem}: {' and '.join(said)} before its in-service date {self.since:%d %b %Y} {verb} left "
+                "out (a unit replaced by editing its in-service date; to keep a replaced unit's record, retire it and "
+                "register the new one).")
+        if self.hours > 0:
+            text += (f" The hours: the open hours of its log from {self.first:%d %b %Y} ({self.basis}) to "
+                     f"{self.last:%d %b %Y}.")
+        if self.failures:
+            text += " The failures are those left out as a failure of the unit it replaced."
+        return text
 
 
 def left_out_reason(
@@ -139,7 +176,8 @@ class Failure(NamedTuple):
     order_number: str  # "" for a repair logged without an order (``ServiceRecord.repaired_failure``)
     order_id: int | None
     hours: float = 0.0
-    subsystem_id: int | None = None  # where a repair logged without an order is found (its service history)
+    subsystem_id: int | None = None  # where its service record is found (the subsystem's service history)
+    corrected: bool = False  # its day (and subsystem) are those of a correction of the record first logged
 
 
 def failure_night(repaired_on: dt.date) -> dt.date:
@@ -148,6 +186,40 @@ def failure_night(repaired_on: dt.date) -> dt.date:
     from the night of the repair day, as a service on day D resets a count before the night of D
     (``calc.exposure``)."""
     return repaired_on - dt.timedelta(days=1)
+
+
+def failures_of_site(site: Site) -> dict[int, list[Failure]]:
+    """Every failure at ``site``, by subsystem id, as its service records stand. One rule for a corrective order and
+    for a repair logged without one: a failure is a service record in force (the newest of its chain of corrections,
+    ``ServiceRecord.corrects``, and not a withdrawal) written by a corrective work order finished or countersigned, one
+    for each subsystem it names, or logged without an order as the repair of a failure. A correction thus moves the
+    failure to its date, on the subsystem it names; a record withdrawn, with no correction standing after it, removes
+    it. A failure is placed on the night before the day its repair was done (``failure_night``), as the record gives
+    that day: a repair entered days later counts where it happened.
+
+    An order finished with no service record written for a subsystem it names (nothing there to correct) falls back to
+    its finish time's night (``night_of``): the one place the failure night is not ``failure_night``, no repair day
+    being recorded. Two queries."""
+    failed_at: dict[int, list[Failure]] = defaultdict(list)
+    for subsystem_id, repaired_on, order_id, corrects_id in ServiceRecord.objects.filter(
+        Q(work_order__order_type=WorkOrder.Type.CORRECTIVE, work_order__state__in=DONE)
+        | Q(work_order__isnull=True, repaired_failure=True),
+        subsystem__telescope__site=site, corrected_by__isnull=True, void=False,
+    ).values_list("subsystem_id", "performed_on", "work_order_id", "corrects_id"):
+        failed_at[subsystem_id].append(Failure(
+            "", failure_night(repaired_on), repaired_on, WorkOrder(pk=order_id).number if order_id else "", order_id,
+            subsystem_id=subsystem_id, corrected=corrects_id is not None,
+        ))
+    written = ServiceRecord.objects.filter(work_order=OuterRef("work_order_id"), subsystem=OuterRef("subsystem_id"))
+    for subsystem_id, order_id, finished_at in WorkOrderItem.objects.filter(
+        ~Exists(written), work_order__site=site, work_order__order_type=WorkOrder.Type.CORRECTIVE,
+        work_order__state__in=DONE, work_order__finished_at__isnull=False,
+    ).values_list("subsystem_id", "work_order_id", "work_order__finished_at"):
+        failed_at[subsystem_id].append(Failure(
+            "", night_of(finished_at, site.time_zone), finished_at.astimezone(site.zone).date(),
+            WorkOrder(pk=order_id).number, order_id, subsystem_id=subsystem_id,
+        ))
+    return failed_at
 
 
 @dataclass
@@ -171,8 +243,9 @@ class KindReliability:
     mtbf: reliability.MtbfEstimate | None = None
     fit: reliability.WeibullFit | None = None
     no_fit: str = ""
-    starts: list[Start] = field(default_factory=list)
+    starts: list[Start] = field(default_factory=list)  # each subsystem's, with its counted hours
     left_out: list[LeftOut] = field(default_factory=list)
+    before_in_service: list[HistoryBefore] = field(default_factory=list)
     counted_failures: list[Failure] = field(default_factory=list)
 
     @property
@@ -293,17 +366,23 @@ class SiteReliability:
         return f"to today, {self.today:%d %b %Y} (no night logged)"
 
 
-def _starts(subsystems: list[tuple], site: Site, first_night: dt.date | None, today: dt.date) -> dict[int, Start]:
-    """The day each subsystem's hours are counted from, and its basis (``START_BASES``)."""
+def _starts(
+    subsystems: list[tuple], site: Site, first_night: dt.date | None, today: dt.date
+) -> tuple[dict[int, Start], dict[int, Start]]:
+    """The day each subsystem's hours are counted from, and its basis (``START_BASES``); and, for each subsystem with
+    an in-service date given whose service records (as they stand) go back before that date, the day the record
+    shows it in service with that date set aside, by the same rule: where the hours of the unit it replaced began, for
+    a unit swapped by editing the in-service date (``HistoryBefore``)."""
     names = {pk: f"{telescope}: {name}" for pk, telescope, name, *_ in subsystems}
     given = {pk: Start(names[pk], since, IN_SERVICE_SINCE) for pk, *_, since in subsystems if since}
-    shown: dict[int, Start] = {}  # without a date given: the earliest day the record shows each in service
+    shown: dict[int, Start] = {}  # the earliest day the record shows each in service, an in-service date aside
+    earliest_record: dict[int, dt.date] = {}
 
     def shown_on(pk: int, day: dt.date, basis: str) -> None:
-        if pk not in given and (pk not in shown or day < shown[pk].day):
+        if pk not in shown or day < shown[pk].day:
             shown[pk] = Start(names[pk], day, basis)
 
-    if len(given) < len(subsystems):
+    if subsystems:
         for pk, day in (
             ServicePlan.objects.filter(subsystem__telescope__site=site).order_by().values("subsystem_id")
             .annotate(start=Min("counting_from")).values_list("subsystem_id", "start")
@@ -320,9 +399,13 @@ def _starts(subsystems: list[tuple], site: Site, first_night: dt.date | None, to
             ServiceRecord.objects.filter(subsystem__telescope__site=site, corrected_by__isnull=True, void=False)
             .order_by().values("subsystem_id").annotate(first=Min("performed_on")).values_list("subsystem_id", "first")
         ):
+            earliest_record[pk] = day
             shown_on(pk, day, FIRST_SERVICE)
     # Registered before the history was kept, without plans or service: nothing says when it entered service.
-    return {pk: given.get(pk) or shown.get(pk) or Start(names[pk], first_night or today, FIRST_NIGHT) for pk in names}
+    starts = {pk: given.get(pk) or shown.get(pk) or Start(names[pk], first_night or today, FIRST_NIGHT)
+              for pk in names}
+    earlier = {pk: shown[pk] for pk, start in given.items() if earliest_record.get(pk, start.day) < start.day}
+    return starts, earlier
 
 
 def site_reliability(site: Site, today: dt.date | None = None, period: Period | None = None) -> SiteReliability:
@@ -342,37 +425,14 @@ def site_reliability(site: Site, today: dt.date | None = None, period: Period | 
     logged = np.concatenate([log.nights for log in logs.values()])
     first_night = logged.min().astype(dt.date) if len(logged) else None
     last_night = logged.max().astype(dt.date) if len(logged) else None
-    starts = _starts(subsystems, site, first_night, today)
+    starts, earlier = _starts(subsystems, site, first_night, today)
     cumulative = {key: exposure.running_totals(log.columns["open_hours"]) for key, log in logs.items()}
 
     def hours_before(key: int | None, day: dt.date) -> float:
         """Open hours of the nights of log ``key`` logged before ``day`` (``calc.exposure.total_before``)."""
         return float(exposure.total_before(logs[key].nights, cumulative[key], day))
 
-    # A failure is placed on the night before the day its repair was done (``failure_night``), as the finish form gave
-    # that day (the date of the order's service records). A repair entered days later counts where it happened. An
-    # order finished without service records falls back to its finish time's night (``night_of``, the one place the
-    # failure night is not ``failure_night``: no repair day is recorded).
-    failed_at: dict[int, list[Failure]] = defaultdict(list)
-    for subsystem_id, order_id, finished_at, repaired_on in WorkOrderItem.objects.filter(
-        work_order__site=site, work_order__order_type=WorkOrder.Type.CORRECTIVE, work_order__state__in=DONE,
-        work_order__finished_at__isnull=False,
-    ).annotate(repaired_on=work_done_on_of("work_order_id")).values_list(
-        "subsystem_id", "work_order_id", "work_order__finished_at", "repaired_on"
-    ):
-        if repaired_on:
-            night = failure_night(repaired_on)
-        else:
-            night, repaired_on = night_of(finished_at, site.time_zone), finished_at.astimezone(site.zone).date()
-        failed_at[subsystem_id].append(Failure("", night, repaired_on, WorkOrder(pk=order_id).number, order_id))
-    # A repair logged on the subsystem's page without an order (``ServiceRecord.repaired_failure``), as it stands now:
-    # a correction carries the mark, a withdrawn record counts no failure.
-    for subsystem_id, repaired_on in ServiceRecord.objects.filter(
-        subsystem__telescope__site=site, repaired_failure=True, work_order__isnull=True, corrected_by__isnull=True,
-        void=False,
-    ).values_list("subsystem_id", "performed_on"):
-        failed_at[subsystem_id].append(Failure("", failure_night(repaired_on), repaired_on, "", None,
-                                               subsystem_id=subsystem_id))
+    failed_at = failures_of_site(site)
 
     kinds = {code: KindReliability(code, spec.label) for code, spec in KINDS.items()}
     kind_of = {}
@@ -389,7 +449,6 @@ def site_reliability(site: Site, today: dt.date | None = None, period: Period | 
             continue
         row.counted += 1
         row.in_service += retired_on is None or retired_on > last
-        row.starts.append(start)
         # Its nights: from the day its hours count from (or the period's first) to the day before it was retired (or
         # the period's last).
         end = min(retired_on, last + dt.timedelta(days=1)) if retired_on else last + dt.timedelta(days=1)
@@ -398,13 +457,26 @@ def site_reliability(site: Site, today: dt.date | None = None, period: Period | 
         base = hours_before(key, max(start.day, first) if first else start.day)
         counted_until = hours_before(key, end)
         total = max(counted_until - base, 0.0)
-        failed = []
+        row.starts.append(replace(start, hours=total))
+        failed, replaced_unit = [], 0
         for failure in sorted(repaired, key=lambda f: (f.night, f.order_number)):
             reason = left_out_reason(failure.night, start, own_first, retired_on)
             if reason:
                 row.left_out.append(LeftOut(start.subsystem, failure.night, reason))
+                replaced_unit += reason == REPLACED_UNIT
             else:
                 failed.append(failure._replace(subsystem=start.subsystem))
+        if pk in earlier:
+            # The unit it replaced: from the day the record shows it in service (or the period's first) to the day
+            # before the in-service date (or the end of its counted nights).
+            old_first = max(earlier[pk].day, first) if first else earlier[pk].day
+            old_end = min(start.day, end)
+            old_hours = max(hours_before(key, old_end) - hours_before(key, old_first), 0.0)
+            if replaced_unit or old_hours > 0:
+                row.before_in_service.append(HistoryBefore(
+                    start.subsystem, start.day, replaced_unit, old_hours, old_first, old_end - dt.timedelta(days=1),
+                    earlier[pk].basis,
+                ))
         # A failure belongs to the nights up to and including its night; one on the night of the day the subsystem
         # was retired (a night its hours no longer count) stays at the end of its hours. One repaired on a period's
         # first day failed on the night before it: at 0 h of the period.
