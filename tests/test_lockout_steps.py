@@ -381,3 +381,44 @@ def test_a_mirror_clean_merged_with_drive_work_closes_the_enclosure_once_and_kee
     before = made.step_list[: made.step_list.index(LOCKOUT)]
     assert sum("close the enclosure" in step.lower() for step in before) == 1
     assert any("horizon stop" in step for step in before)
+
+
+def test_an_ad_hoc_repair_may_also_do_a_plans_work_which_then_counts_again_and_one_failure_is_counted(
+    telescope, users, site, client
+):
+    """A review's corrective order fitted new brake pads and left "Check brake pads" due: an ad hoc order could not say
+    it did a plan's work. A plan chosen with its subsystem becomes an item of the order; finishing restarts it, and the
+    reliability page still counts one failure for the brake (reliability.selectors.failures_of_site). A plan of a
+    subsystem not chosen is refused, naming it, and nothing is stored."""
+    from observatory_ops.planning.models import ServicePlan
+    from observatory_ops.reliability.selectors import failures_of_site
+
+    brake = subsystem_create(telescope, "brake", "Axis 2 brake", counting_from=dt.date(2026, 1, 1))
+    fans = subsystem_create(telescope, "cooling_fans", "Fans", counting_from=dt.date(2026, 1, 1))
+    pads = ServicePlan.objects.filter(subsystem=brake).first()
+    other = ServicePlan.objects.filter(subsystem=fans).first()
+    client.force_login(users["engineer"])
+    data = {"title": "Brake slips", "order_type": "corrective", "subsystems": [brake.pk], "plans": [other.pk],
+            "steps": "Replace the brake pads."}
+    before = WorkOrder.objects.count()
+    response = client.post(f"/sites/{site.slug}/workorders/new/", data)
+    assert response.status_code == 200 and WorkOrder.objects.count() == before
+    assert "its subsystem is not among those chosen above" in response.content.decode()
+    data["plans"] = [pads.pk]
+    assert client.post(f"/sites/{site.slug}/workorders/new/", data).status_code == 302
+    made = WorkOrder.objects.latest("pk")
+    assert [(i.subsystem_id, i.plan_id) for i in made.items.all()] == [(brake.pk, pads.pk)]
+    made.planned_date = dt.date(2026, 6, 16)
+    made.save()
+    from observatory_ops.workorders.models import IsolationPoint
+
+    for energy, label in (("ac", "Mount isolator"), ("air", "Brake air valve")):
+        IsolationPoint.objects.get_or_create(telescope=telescope, energy=energy, defaults={"label": label})
+    services.work_order_move(made, "issue", users["engineer"])
+    services.work_order_move(made, "start", users["technician"])
+    from test_workorders import _confirmed
+
+    made.refresh_from_db()
+    services.work_order_finish(made, users["technician"], 1.0, "pads worn through", {}, **_confirmed(made))
+    assert made.service_records.get().plan == pads
+    assert len(failures_of_site(site)[brake.pk]) == 1

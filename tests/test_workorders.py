@@ -780,6 +780,29 @@ def test_an_orders_hours_corrected_in_the_logbook_show_on_its_page_and_paper_and
     assert hours["preventive"] == 40.0 and hours["without_order"] == 0.0
 
 
+def test_an_orders_work_day_corrected_in_the_logbook_shows_on_its_page_beside_the_day_given_at_finish(
+    order, users, client
+):
+    """A review of a part's life corrected a finished order's service record to the day the work was really done: the
+    reliability page moved the failure, the order's page kept the first day. It gives the day as the records now stand,
+    beside the day given at finish (workorders.selectors.work_done_on, work_done_at_finish)."""
+    services.work_order_move(order, "issue", users["engineer"])
+    services.work_order_move(order, "start", users["technician"])
+    services.work_order_finish(order, users["technician"], 2.0, "ok", _all_readings(order, 0.6), **_confirmed(order))
+    record = ServiceRecord.objects.get(work_order=order)
+    earlier = record.performed_on - dt.timedelta(days=2)
+    client.force_login(users["engineer"])
+    response = client.post(f"/service/{record.pk}/correct/", {
+        "performed_on": earlier.isoformat(), "hours_spent": "2", "summary": record.summary,
+        "findings": "the work was done two days before it was entered",
+    })
+    assert response.status_code == 302
+    assert selectors.work_done_on(order) == earlier and selectors.work_done_at_finish(order) == record.performed_on
+    page = " ".join(client.get(order.get_absolute_url()).content.decode().split())
+    assert (f"work done on {earlier:%d %b %Y} <span id=\"done-on-corrected\">(as corrected in the service records; "
+            f"{record.performed_on:%d %b %Y} at finish)</span>") in page
+
+
 def test_corrections_logged_before_they_carried_their_order_get_it_from_the_migration(order, users):
     """logbook 0012: each correction without an order takes the one of the first record of its chain."""
     import importlib

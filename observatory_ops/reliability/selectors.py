@@ -199,13 +199,19 @@ def failures_of_site(site: Site) -> dict[int, list[Failure]]:
 
     An order finished with no service record written for a subsystem it names (nothing there to correct) falls back to
     its finish time's night (``night_of``): the one place the failure night is not ``failure_night``, no repair day
-    being recorded. Two queries."""
+    being recorded. A corrective order that also did plans' work writes a record for each plan: one failure for each
+    subsystem it names all the same, on its earliest repair day. Two queries."""
     failed_at: dict[int, list[Failure]] = defaultdict(list)
+    counted: set[tuple[int, int]] = set()  # (order, subsystem): one failure each, whatever plans its records name
     for subsystem_id, repaired_on, order_id, corrects_id in ServiceRecord.objects.filter(
         Q(work_order__order_type=WorkOrder.Type.CORRECTIVE, work_order__state__in=DONE)
         | Q(work_order__isnull=True, repaired_failure=True),
         subsystem__telescope__site=site, corrected_by__isnull=True, void=False,
-    ).values_list("subsystem_id", "performed_on", "work_order_id", "corrects_id"):
+    ).order_by("performed_on", "pk").values_list("subsystem_id", "performed_on", "work_order_id", "corrects_id"):
+        if order_id is not None:
+            if (order_id, subsystem_id) in counted:
+                continue
+            counted.add((order_id, subsystem_id))
         failed_at[subsystem_id].append(Failure(
             "", failure_night(repaired_on), repaired_on, WorkOrder(pk=order_id).number if order_id else "", order_id,
             subsystem_id=subsystem_id, corrected=corrects_id is not None,

@@ -15,6 +15,7 @@ from observatory_ops.calc.lifting import DENSITY
 from observatory_ops.formats.plain_numbers import PlainNumberInput
 from observatory_ops.logbook.forms import HOURS_QUESTION_FACTOR, UNIT_SLIP_FACTOR
 from observatory_ops.logbook.quantities import value_problem
+from observatory_ops.planning.models import ServicePlan
 from observatory_ops.planning.services import site_today
 from observatory_ops.registry.catalogue import TAKES_OUT_OF_CONTROL
 from observatory_ops.registry.forms import HazardsField, possible_id
@@ -45,6 +46,15 @@ class _ChoicesOfStoredIds(forms.ModelMultipleChoiceField):
                 raise forms.ValidationError(self.error_messages["invalid_choice"], code="invalid_choice",
                                             params={"value": given})
         return super()._check_values(value)
+
+
+class _PlansAlsoDone(_ChoicesOfStoredIds):
+    """The service plans an ad hoc order's work also does, each named with its telescope and subsystem."""
+
+    widget = forms.CheckboxSelectMultiple
+
+    def label_from_instance(self, obj) -> str:
+        return f"{obj.subsystem.telescope.name}: {obj.subsystem.name}: {obj.name}"
 
 
 class _PersonChoiceField(forms.ModelChoiceField):
@@ -257,6 +267,12 @@ class AdHocForm(forms.Form):
         error_messages={"invalid": "Planned date: enter a date, such as 2026-06-15."},
     )
     subsystems = _ChoicesOfStoredIds(queryset=Subsystem.objects.none())
+    plans = _PlansAlsoDone(
+        queryset=ServicePlan.objects.none(), required=False, label="Service plans this work also does",
+        help_text="Optional. A repair often does a plan's work too (new brake pads and the pads' check): each plan "
+        "chosen counts again from the day the work is done, as if serviced, once the order is finished. Its "
+        "subsystem must be one of those chosen above. A corrective order still counts one failure a subsystem.",
+    )
     hazards = HazardsField(
         label="Further hazards of this work",
         help_text="The chosen subsystems' own hazards are always included; tick any this work adds (a ladder, "
@@ -283,8 +299,23 @@ class AdHocForm(forms.Form):
     def __init__(self, *args, site, **kwargs):
         super().__init__(*args, **kwargs)
         self.fields["subsystems"].queryset = Subsystem.objects.in_service().filter(telescope__site=site)
+        self.fields["plans"].queryset = (
+            ServicePlan.objects.filter(active=True, subsystem__in=self.fields["subsystems"].queryset)
+            .select_related("subsystem__telescope").order_by("subsystem__telescope__name", "subsystem__name", "name")
+        )
         self._today = site_today(site)
         self.fields["planned_date"].initial = self._today
+
+    def clean(self):
+        """A plan chosen is one of a chosen subsystem's: the order's items are its subsystems, and the plan's work is
+        done on its own."""
+        cleaned = super().clean()
+        chosen = set(cleaned.get("subsystems") or ())
+        for plan in cleaned.get("plans") or ():
+            if plan.subsystem not in chosen:
+                self.add_error("plans", f"{plan.subsystem.telescope.name}: {plan.subsystem.name}: {plan.name}: its "
+                               "subsystem is not among those chosen above: choose it too, or leave the plan out.")
+        return cleaned
 
     def clean_planned_date(self):
         planned = self.cleaned_data["planned_date"]

@@ -7,6 +7,7 @@ from dataclasses import dataclass
 from typing import NamedTuple
 
 from django.db.models import F, OuterRef, Prefetch, Q, QuerySet, Subquery
+from django.db.models.functions import Coalesce
 from django.urls import reverse
 from django.utils import dateformat, timezone
 
@@ -1095,8 +1096,18 @@ def part_rows(order: WorkOrder, uses: Sequence[PartUse]) -> list[PartRow]:
 
 
 def work_done_on(order: WorkOrder) -> dt.date | None:
-    """The day a finished order's work was done, as the finish form gave it: the date of the service records it
-    wrote (``services.work_order_finish``); None before it is finished."""
+    """The day a finished order's work was done, as its service records stand: the earliest date of those in force (a
+    date corrected in the logbook moves it, as it moves the failure on the reliability page: a review corrected an
+    order's record and its page kept the first date), else as the finish form gave it (``work_done_at_finish``: its
+    records all withdrawn); None before it is finished. Two queries at most."""
+    in_force = (order.service_records.filter(corrected_by__isnull=True, void=False).order_by("performed_on", "pk")
+                .values_list("performed_on", flat=True).first())
+    return in_force or work_done_at_finish(order)
+
+
+def work_done_at_finish(order: WorkOrder) -> dt.date | None:
+    """The day a finished order's work was done as the finish form gave it: the date of the service records it wrote
+    (``services.work_order_finish``); None before it is finished."""
     return (
         order.service_records.filter(corrects__isnull=True).order_by("pk").values_list("performed_on", flat=True)
         .first()
@@ -1114,11 +1125,13 @@ def hours_corrected(order: WorkOrder) -> float | None:
     return sum(hours or 0.0 for _, void, hours in rows if not void)
 
 
-def work_done_on_of(order_id_field: str) -> Subquery:
+def work_done_on_of(order_id_field: str) -> Coalesce:
     """``work_done_on`` as an expression over the rows of a query, whose ``order_id_field`` holds the order's id: for
-    lists of many orders' rows (the reliability page's failures, the parts-used CSV) in one query."""
+    lists of many orders' rows (the parts-used CSV) in one query."""
+    in_force = ServiceRecord.objects.filter(work_order=OuterRef(order_id_field), corrected_by__isnull=True,
+                                            void=False).order_by("performed_on", "pk")
     first = ServiceRecord.objects.filter(work_order=OuterRef(order_id_field), corrects__isnull=True).order_by("pk")
-    return Subquery(first.values("performed_on")[:1])
+    return Coalesce(Subquery(in_force.values("performed_on")[:1]), Subquery(first.values("performed_on")[:1]))
 
 
 #: The work of a recoat's phase orders in the order it is done (``calc.windows.RECOAT_PHASES``), and each one's name

@@ -534,7 +534,7 @@ def _with_recoat_line(subsystem: Subsystem, limit_text: str) -> str:
 def work_order_ad_hoc(
     site: Site, subsystems: Sequence[Subsystem], title: str, by, order_type: str = WorkOrder.Type.CORRECTIVE,
     steps: str = "", powered: str = "", restore: str = "", hazards: Sequence[str] = (),
-    planned_date: dt.date | None = None,
+    planned_date: dt.date | None = None, plans: Sequence[ServicePlan] = (),
 ) -> WorkOrder:
     """A work order not driven by a due item (a fault, an upgrade); its telescope is the subsystems' own
     when they share one.
@@ -542,7 +542,10 @@ def work_order_ad_hoc(
     Its steps come in three groups, one step a line each: ``powered`` (under power, before isolation:
     parking, closing the dome, live tests), ``steps`` (the work) and ``restore`` (after the locks are off),
     put together by ``steps_in_groups``. ``hazards`` are the work's own beyond its subsystems'. With a
-    ``planned_date`` it can be issued as it is (``selectors.moves_held``).
+    ``planned_date`` it can be issued as it is (``selectors.moves_held``). ``plans``: service plans of its subsystems
+    its work also does (a review's new brake pads left the pads' check due): an item each, in place of their
+    subsystem's plain one, so finishing restarts them (a corrective order still counts one failure a subsystem:
+    ``reliability.selectors.failures_of_site``).
 
     Work where the telescope can move ("moving_machinery") starts by taking the observatory out of robotic and remote
     control, as a planned order does: with nothing under power written, and parking the telescope; before the steps
@@ -553,6 +556,8 @@ def work_order_ad_hoc(
     """
     if any(s.telescope.site_id != site.pk for s in subsystems):
         raise Refused("every subsystem must belong to the work order's site")
+    if stray := [p for p in plans if p.subsystem_id not in {s.pk for s in subsystems}]:
+        raise Refused(f"the plan {stray[0].name} is not one of the chosen subsystems' plans")
     telescopes = {s.telescope for s in subsystems}
     telescope = telescopes.pop() if len(telescopes) == 1 else None
     hazards = [h for h in HAZARDS if h in set(hazards_of(subsystems, [])) | set(hazards)]
@@ -568,7 +573,9 @@ def work_order_ad_hoc(
             steps="\n".join(lines), hazards=hazards, created_by=by,
         )
         for subsystem in subsystems:
-            WorkOrderItem.objects.create(work_order=order, subsystem=subsystem)
+            done = [plan for plan in plans if plan.subsystem_id == subsystem.pk]
+            for plan in done or [None]:
+                WorkOrderItem.objects.create(work_order=order, subsystem=subsystem, plan=plan)
     return order
 
 

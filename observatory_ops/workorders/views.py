@@ -143,6 +143,7 @@ def work_order_ad_hoc(request, slug):
         order = services.work_order_ad_hoc(
             site, list(d["subsystems"]), d["title"], request.user, order_type=d["order_type"], steps=d["steps"],
             powered=d["powered"], restore=d["restore"], hazards=d["hazards"], planned_date=d["planned_date"],
+            plans=list(d["plans"]),
         )
         planned = f"planned for {order.planned_date:%d %b %Y}" if order.planned_date else (
             "with no planned date: set one (Edit) before issuing it")
@@ -215,6 +216,7 @@ def work_order_detail(request, pk):
             "part_rows": selectors.part_rows(order, part_uses),
             "records": order.service_records.filter(corrected_by__isnull=True).select_related("subsystem"),
             "work_done_on": selectors.work_done_on(order),
+            "work_done_at_finish": selectors.work_done_at_finish(order),
             "hours_corrected": selectors.hours_corrected(order),
             "recoat_phase": phase,
             "mirror_out": [phase.mirror_out] if phase and phase.mirror_out else [],
@@ -554,7 +556,7 @@ def _finished(order: WorkOrder) -> str:
     records = list(order.service_records.filter(corrects__isnull=True))
     if not records:  # an order that covers no subsystem
         return f"{order.number} finished: no service record written, as it covers no subsystem."
-    day = selectors.work_done_on(order)
+    day = selectors.work_done_at_finish(order)
     plans = len({r.plan_id for r in records if r.plan_id})
     written = f"{len(records)} service record{'' if len(records) == 1 else 's'} written, dated {day:%d %b %Y}"
     if plans:
