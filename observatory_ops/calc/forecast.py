@@ -6,8 +6,10 @@ Expected open hours of a coming night = its dark hours (from :mod:`nights`) x ``
 calendar month m: ``F_m = sum(open hours) / sum(dark hours)`` over the logged nights of month m in all past
 years (above 1 where the dome opens in twilight, as to cool before dark: those hours are used too), or the
 prior :data:`PRIOR_OPEN_FRACTION` while month m has fewer than :data:`MIN_NIGHTS_FOR_HISTORY` logged nights
-(:func:`monthly_open_fraction`). Slews, travel and brake cycles follow from their rates per open hour, and dust from
-the month's mean PM10.
+(:func:`monthly_open_fraction`). A month whose use its darkness does not lead (``F_m`` above
+:data:`DARKNESS_LEADS_UP_TO`, or no dark hours at all: a summer of twilight far from the equator) expects each coming
+night at its mean open hours a logged night instead (:func:`monthly_use_by_night`). Slews, travel and brake cycles
+follow from their rates per open hour, and dust from the month's mean PM10.
 
 The forecast band comes from the relative month-to-month spread ``s``: the sample standard deviation of
 ``A / E - 1`` over complete past months (:func:`monthly_spread`), where A is a month's logged open hours and E its
@@ -43,6 +45,45 @@ MIN_NIGHTS_FOR_HISTORY = 20
 #: Complete months compared (:func:`months_left_out`) before the site's own spread replaces the prior: a standard
 #: deviation from fewer is too unsteady to narrow a band (a choice of our own).
 MIN_MONTHS_FOR_SPREAD = 6
+
+
+#: Above this open fraction a month's use is not led by its darkness: its dome opens in twilight, or under a sky never
+#: fully dark, far more than it is dark (a site at 52 N in summer), and its dark hours, few and shared unevenly over
+#: the month, would expect nothing on one night and more than the whole night on another (a review of a site at
+#: 52.2 N: none in June with 105 h logged, 19 h on the last night of July). Such a month is taken by the night
+#: (:func:`monthly_use_by_night`). One and a half, a choice of our own: a dome that opens in twilight to cool before
+#: dark stays below it in the short nights of a mid-latitude summer.
+DARKNESS_LEADS_UP_TO = 1.5
+
+
+def monthly_use_by_night(
+    months: ArrayLike, open_hours: ArrayLike, dark_hours: ArrayLike
+) -> tuple[NDArray[np.float64], NDArray[np.bool_]]:
+    """The months taken by the night, not by their darkness, and their mean open hours a logged night.
+
+    Method
+    ------
+    A calendar month m with :data:`MIN_NIGHTS_FOR_HISTORY` logged nights or more whose open hours are more than
+    :data:`DARKNESS_LEADS_UP_TO` times its dark hours, or whose logged nights have no dark hours at all (the Sun never
+    18 deg down), expects each coming night at ``sum(open hours) / (logged nights)`` of month m in all past years:
+    the month's use kept, the same on each of its nights.
+
+    Returns
+    -------
+    per_night : array of 12 values, index 0 = January: the mean open hours a logged night where ``by_night``, else
+        NaN.
+    by_night : array of 12 booleans.
+    """
+    months = np.asarray(months, dtype=int)
+    open_h = np.asarray(open_hours, dtype=float)
+    dark_h = np.asarray(dark_hours, dtype=float)
+    count = np.bincount(months - 1, minlength=12)[:12]
+    sum_open = np.bincount(months - 1, weights=open_h, minlength=12)[:12]
+    sum_dark = np.bincount(months - 1, weights=dark_h, minlength=12)[:12]
+    by_night = (count >= MIN_NIGHTS_FOR_HISTORY) & (sum_open > DARKNESS_LEADS_UP_TO * sum_dark)
+    per_night = np.full(12, np.nan)
+    per_night[by_night] = sum_open[by_night] / count[by_night]
+    return per_night, by_night
 
 
 def monthly_open_fraction(

@@ -543,6 +543,8 @@ def expected_use_by_month(subsystem: Subsystem, plans: list[ServicePlan]) -> dic
                                 else model.dark_hours[index].mean()),
             "open_fraction": float(model.open_fraction[calendar]),
             "from_history": bool(model.from_history[calendar]),
+            "by_night": bool(model.by_night[calendar]),  # its use taken by the night, not by its darkness
+            "per_night": float(model.per_night[calendar]),
             "years": int(years[calendar]),
             "logged_nights": int(logged[calendar]),
             "pm10": None if np.isnan(model.month_pm10[calendar]) else float(model.month_pm10[calendar]),
@@ -562,6 +564,7 @@ def expected_use_by_month(subsystem: Subsystem, plans: list[ServicePlan]) -> dic
         "telescope": subsystem.telescope.name if log.telescope_id else "",  # from its own nights
         "dust_basis": model.dust_basis if any(m == metrics.DUST_HOURS for m, _ in columns) else "",
         "prior": forecast.PRIOR_OPEN_FRACTION, "least_nights": forecast.MIN_NIGHTS_FOR_HISTORY,
+        "darkness_leads_up_to": forecast.DARKNESS_LEADS_UP_TO, "by_night": any(row["by_night"] for row in rows),
         "clean_air": exposure.CLEAN_AIR_PM10_UGM3,
         "downtimes": [f"{d.what} ({d.first:%d %b %Y} to {d.last:%d %b %Y}"
                       f"{'; ' + d.changed if d.changed else ''}): {d.out}" for d in downtimes],

@@ -6,6 +6,7 @@ hands arrays to the pure functions of ``observatory_ops.calc`` and stores one ``
 """
 from __future__ import annotations
 
+import dataclasses
 import datetime as dt
 import functools
 import json
@@ -304,7 +305,7 @@ class UsageModel:
     per_open_hour: dict[str, float]  # usage field -> rate per open hour
     open_fraction: np.ndarray  # 12 values
     from_history: np.ndarray  # 12 booleans: False where the month took the prior (calc.forecast)
-    months_from_history: int
+    months_from_history: int  # months from the history, by their open fraction or by the night
     spread: float
     months: np.ndarray  # calendar month (1..12) of each coming night
     dark_hours: np.ndarray  # dark hours of each coming night (the sky cache)
@@ -315,6 +316,10 @@ class UsageModel:
     whose: str = "this site's"  # the log's owner (``UsageLog.whose``)
     log_note: str = ""  # what the log is made of (``UsageLog.note``)
     rates_from: str = "this site's log"  # the nights ``per_open_hour`` is taken over, as the basis says them
+    #: 12 booleans: the months taken by the night (``calc.forecast.monthly_use_by_night``), and their mean open hours a
+    #: logged night (NaN for the others)
+    by_night: np.ndarray = dataclasses.field(default_factory=lambda: np.zeros(12, dtype=bool))
+    per_night: np.ndarray = dataclasses.field(default_factory=lambda: np.full(12, np.nan))
 
     def expected(self, metric: str, dust_sensitivity: float) -> np.ndarray:
         if metric == metrics.OPEN_HOURS:
@@ -342,7 +347,13 @@ class UsageModel:
                       "than one year to measure the site's own)")
         band = (f"one-sigma band (about 68 %) from {spread}, divided by the square root of the months to the limit "
                 "(months above and below the expected use partly cancel)")
-        basis = f"dark hours of each coming night x {source}; {band}"
+        basis = f"dark hours of each coming night x {source}"
+        if self.by_night.any():
+            named = ", ".join(f"{dt.date(2000, m + 1, 1):%b}" for m in np.flatnonzero(self.by_night))
+            basis += (f"; by the night in {named} (open more than {forecast.DARKNESS_LEADS_UP_TO:g} x their dark "
+                      "hours, or with none: twilight, a sky never fully dark): each coming night of such a month at "
+                      "its mean open hours a logged night")
+        basis += f"; {band}"
         if self.unlogged_nights > UNLOGGED_NIGHTS_SAID:
             last = self.first_day - dt.timedelta(days=1)
             basis += (f"; no night logged since {last:%d %b %Y}: the {self.unlogged_nights} nights since are counted "
@@ -419,11 +430,12 @@ def usage_model(site: Site, log: UsageLog, first_day: dt.date, days: int) -> Usa
     past_months = log.nights.astype("datetime64[M]").astype(int) % 12 + 1
     open_h = log.columns["open_hours"]
     fraction, from_history = forecast.monthly_open_fraction(past_months, open_h, past_dark)
+    per_night, by_night = forecast.monthly_use_by_night(past_months, open_h, past_dark)
 
     coming = np.datetime64(first_day, "D") + np.arange(days)
     months = coming.astype("datetime64[M]").astype(int) % 12 + 1
     dark = sky[(first_day - start).days :][:days]
-    open_hours = dark * fraction[months - 1]
+    open_hours = np.where(by_night[months - 1], per_night[months - 1], dark * fraction[months - 1])
 
     # A counter per open hour (brake cycles, slews) from the telescope's own nights once it has sent
     # forecast.MIN_NIGHTS_FOR_HISTORY open ones: the site's rows before them count the site's use, not this
@@ -477,7 +489,9 @@ def usage_model(site: Site, log: UsageLog, first_day: dt.date, days: int) -> Usa
         rates_from=rates_from,
         open_fraction=fraction,
         from_history=from_history,
-        months_from_history=int(from_history.sum()),
+        months_from_history=int((from_history | by_night).sum()),
+        by_night=by_night,
+        per_night=per_night,
         spread=spread,
         spread_months=spread_months,
         months=months,
