@@ -77,11 +77,19 @@ def test_a_viewer_cannot_log_a_night(client, site, users):
     assert response.status_code == 403 and not NightUsage.objects.exists()
 
 
-def test_a_new_night_form_starts_at_the_night_most_recently_begun(client, site, technician):
-    from observatory_ops.logbook.services import latest_night
+def test_a_new_night_form_starts_at_the_last_night_that_has_ended(client, site, technician):
+    """The night before the site's today: before local noon the night just ended (``calc.night_of``'s night), after it
+    the night before the one not yet begun (a review logged last night's figures at 18:15 under tonight's date)."""
+    from django.utils import timezone
+
+    from observatory_ops.calc.night_of import night_of
 
     page = client.get(f"/sites/{site.slug}/nights/new/").content.decode()
-    assert f'value="{latest_night(site).isoformat()}"' in page
+    last_ended = site_today(site) - dt.timedelta(days=1)
+    assert f'value="{last_ended.isoformat()}"' in page
+    now = timezone.now()
+    assert last_ended == night_of(now, site.time_zone) - dt.timedelta(
+        days=0 if now.astimezone(site.zone).hour < 12 else 1)
 
 
 def test_a_figure_refused_beside_its_field_is_named_by_the_fields_label_not_the_columns(client, site, technician):

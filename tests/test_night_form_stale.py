@@ -140,5 +140,5 @@ def test_a_well_formed_date_that_does_not_exist_is_called_no_such_date(client, s
     page = client.get(_url(site, night="2026-02-30"))
     # February 2026 has 28 days: 2026 is not divisible by 4 (Gregorian calendar rule).
     assert _messages(page) == ["2026-02-30 is no such date (February 2026 has 28 days): a blank form instead."]
-    assert page.context["form"]["night"].value() == services.latest_night(site).isoformat()
+    assert page.context["form"]["night"].value() == (services.site_today(site) - dt.timedelta(days=1)).isoformat()
     assert not NightUsage.objects.exists()
