@@ -3,6 +3,8 @@ a subsystem added there gets its kind's hazards and plans, and any change that m
 recomputes the site in the same transaction."""
 from __future__ import annotations
 
+import datetime as dt
+
 import pytest
 
 from observatory_ops.planning.models import PlanStatus, ServicePlan
@@ -45,6 +47,25 @@ def test_a_subsystem_added_in_the_admin_gets_its_kinds_hazards_and_plans(enginee
     assert brake.plans.exists()
     assert PlanStatus.objects.filter(plan__subsystem=brake).count() == brake.plans.count()
     assert "default service plan(s) from its kind" in response.content.decode()
+
+
+def test_a_replacement_added_with_its_in_service_date_counts_from_it_not_due_for_a_baseline(engineer, client,
+                                                                                          telescope):
+    """A review of a part's life added a new brake in the admin with its in-service date, the day before: its plans
+    said "last service unknown ... due now" and came up in the digest. A new unit counts from the day it was fitted."""
+    from observatory_ops.planning.services import site_today
+
+    _sky(telescope.site)
+    fitted = site_today(telescope.site) - dt.timedelta(days=1)
+    response = client.post("/admin/registry/subsystem/add/", {
+        "telescope": telescope.pk, "kind": "brake", "name": "Axis 2 brake", "serial_number": "BRK-0117",
+        "in_service_since": fitted.isoformat(), "notes": "",
+    }, follow=True)
+    brake = Subsystem.objects.get(name="Axis 2 brake")
+    assert {(p.counting_from, p.counting_from_given) for p in brake.plans.all()} == {(fitted, True)}
+    assert not PlanStatus.objects.filter(plan__subsystem=brake, last_service_unknown=True).exists()
+    assert f"They count from its in-service date, {fitted:%d %b %Y}, as serviced when it was fitted" in (
+        response.content.decode())
 
 
 def test_hazards_are_ticked_by_name_in_the_admin_not_typed_as_json(engineer, client, telescope):

@@ -95,8 +95,9 @@ class TelescopeAdmin(ProtectedNamed, RecomputesSite, SimpleHistoryAdmin):
 @admin.register(Subsystem)
 class SubsystemAdmin(ChoicesNamedWithSite, RecomputesSite, SimpleHistoryAdmin):
     """A subsystem added here gets what ``registry.services.subsystem_create`` gives one: its kind's hazard
-    tags and default service plans, counted from the site's today with the last service unknown (due for a baseline
-    service until one is logged: ``plans_from_catalogue``). Hazards ticked when adding it are added to
+    tags and default service plans, counted from its in-service date where one is given (a new unit, as serviced when
+    fitted), else from the site's today with the last service unknown (due for a baseline service until one is
+    logged: ``plans_from_catalogue``). Hazards ticked when adding it are added to
     its kind's, never put in their place: the tags choose the cautions on its work orders. A change that
     leaves out any of its kind's own hazards is saved, with a warning naming them."""
 
@@ -124,13 +125,20 @@ class SubsystemAdmin(ChoicesNamedWithSite, RecomputesSite, SimpleHistoryAdmin):
     def save_related(self, request, form, formsets, change):
         if not change:
             subsystem = form.instance
-            plans = plans_from_catalogue(subsystem, None)
+            # A unit with its in-service date given (a replacement fitted that day) counts from it, as serviced when
+            # fitted: a review's new brake, entered a day late, was due at once for a baseline service.
+            since = subsystem.in_service_since
+            plans = plans_from_catalogue(subsystem, since)
+            counting = (f"They count from its in-service date, {since:%d %b %Y}, as serviced when it was fitted; for a "
+                        "unit fitted used, log the last service of each plan on the subsystem page." if since else
+                        "Their last service is unknown, so each is due for a baseline service: on the subsystem page, "
+                        "log the last service of each plan if you know it (or give its in-service date, for a new "
+                        "unit).")
             self.message_user(
                 request,
                 f"{subsystem}: hazards {', '.join(HAZARDS[code] for code in subsystem.hazards) or 'none'} (its "
                 f"kind's and any ticked), and {len(plans)} default service plan(s) from its kind; change the plans "
-                "under Service plans. Their last service is unknown, so each is due for a baseline service: on the "
-                "subsystem page, log the last service of each plan if you know it.",
+                f"under Service plans. {counting}",
                 messages.INFO,
             )
         elif "telescope" in form.changed_data:
