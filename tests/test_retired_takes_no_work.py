@@ -285,3 +285,35 @@ def test_clearing_a_parents_retired_on_names_its_parts_still_retired(scene, user
             f'retired: <a href="{part_url}">Primary mirror</a>. Bring back each that came back into service with it '
             "by clearing its Retired on.") in said
     assert Subsystem.objects.get(pk=mirror.subsystem_id).retired_on == today
+
+
+# --- 5. The day it came out of service --------------------------------------------------------------------------------
+
+
+def test_a_subsystem_is_retired_on_the_day_it_came_out_not_after_work_logged_on_it(scene, users, client):  # noqa: F811
+    """A review could retire a unit only today; moving the day back in the admin then left a failure logged since
+    after its retire day, and the reliability page dropped it. The retire form takes the day it came out of service:
+    not after today, not before it entered service, and not before work already logged on it or its parts (nothing
+    is stored when refused, and the refusal says which work and from which day it may be retired)."""
+    site, today, plan, mirror = scene
+    tube = Subsystem.objects.create(telescope=mirror.subsystem.telescope, kind="truss", name="Optical tube")
+    Subsystem.objects.filter(pk=mirror.subsystem_id).update(parent=tube)
+    worked = today - dt.timedelta(days=3)
+    logbook.service_record_log(mirror.subsystem, None, worked, users["technician"], summary="Cell bolts checked")
+    client.force_login(users["engineer"])
+    url = reverse("subsystem-retire", args=[tube.pk])
+    for day, said in (
+        (today + dt.timedelta(days=1), f"is after today at the site ({today:%d %b %Y})"),
+        (worked - dt.timedelta(days=2), f"service work on Primary mirror is logged on {worked:%d %b %Y}, after "
+                                        f"{worked - dt.timedelta(days=2):%d %b %Y}: retire it on {worked:%d %b %Y} or "
+                                        "later"),
+        ("30/11/2026", "the day it came out of service: enter a date"),
+    ):
+        response = client.post(url, {"reason": "tube replaced", "retired_on": str(day)})
+        assert said in _said(response), _said(response)
+        assert Subsystem.objects.filter(pk__in=[tube.pk, mirror.subsystem_id], retired_on__isnull=False).count() == 0
+    page = client.get(tube.get_absolute_url()).content.decode()
+    assert f'name="retired_on" type="date" value="{today:%Y-%m-%d}"' in page
+    client.post(url, {"reason": "tube replaced", "retired_on": worked.isoformat()})
+    retired = Subsystem.objects.filter(pk__in=[tube.pk, mirror.subsystem_id]).values_list("retired_on", flat=True)
+    assert set(retired) == {worked}

@@ -229,3 +229,12 @@ def possible_id(model, value) -> int | None:
         return None
     number = int(text)
     return number if low <= number <= high else None
+
+
+class RetireForm(forms.Form):
+    """The subsystem page's retire form: why, and the day it came out of service (empty: the site's today); the day's
+    rules are the service's (``services.retire_day_problem``)."""
+
+    reason = forms.CharField(max_length=90, error_messages={"required": "say why the subsystem is retired"})
+    retired_on = forms.DateField(required=False, error_messages={
+        "invalid": "the day it came out of service: enter a date, such as 2026-06-15"})

@@ -46,12 +46,17 @@ def subsystem_create(
 
 
 def subsystem_retire(subsystem: Subsystem, on: dt.date, reason: str, by) -> Subsystem:
-    """Take a subsystem (and its parts) out of service. Nothing is deleted: its plans stop counting and
-    its records and history stay. The reason is kept in the change history."""
+    """Take a subsystem (and its parts) out of service on ``on``, the day it came out (the swap day, which may be some
+    days past: a review could retire only today, and moved the date in the admin, which dropped a failure logged
+    since). Nothing is deleted: its plans stop counting and its records and history stay. The reason is kept in the
+    change history. Refused for a day after the site's today, before the subsystem entered service, or before work
+    already logged on it or its parts (``retire_day_problem``)."""
     if subsystem.retired_on:
         raise ValueError(f"{subsystem} was already retired on {subsystem.retired_on}")
     if not reason.strip():
         raise ValueError("say why the subsystem is retired")
+    if problem := retire_day_problem(subsystem, on):
+        raise ValueError(problem)
     with transaction.atomic():
         for part in [subsystem, *parts_of(subsystem)]:
             if part.retired_on is None:
@@ -60,6 +65,32 @@ def subsystem_retire(subsystem: Subsystem, on: dt.date, reason: str, by) -> Subs
                 part._change_reason = f"retired: {reason.strip()[:90]}"
                 part.save(update_fields=["retired_on"])
     return subsystem
+
+
+def retire_day_problem(subsystem: Subsystem, on: dt.date) -> str | None:
+    """Why ``subsystem`` (and its parts) cannot be retired on ``on``, or None: a day after the site's today, before it
+    entered service (its in-service date), or before service work or a reading already logged on it or its parts,
+    which retiring would leave dated after its retire day (``retired_work_problem`` refuses such work)."""
+    from observatory_ops.logbook.models import Reading, ServiceRecord  # the logbook builds on the register
+    from observatory_ops.planning.services import site_today
+
+    site = subsystem.telescope.site
+    if on > (today := site_today(site)):
+        return f"the retire date {on:%d %b %Y} is after today at the site ({today:%d %b %Y})"
+    if subsystem.in_service_since and on < subsystem.in_service_since:
+        return (f"the retire date {on:%d %b %Y} is before {subsystem} entered service "
+                f"({subsystem.in_service_since:%d %b %Y})")
+    units = [subsystem, *parts_of(subsystem)]
+    worked = [(r.performed_on, f"service work on {r.subsystem.name}") for r in ServiceRecord.objects.filter(
+        subsystem__in=units, performed_on__gt=on, corrected_by__isnull=True, void=False).select_related("subsystem")]
+    worked += [(r.taken_at.astimezone(site.zone).date(), f"a reading of {r.subsystem.name}")
+               for r in Reading.objects.filter(subsystem__in=units, taken_at__date__gt=on - dt.timedelta(days=1))
+               .select_related("subsystem") if r.taken_at.astimezone(site.zone).date() > on]
+    if worked:
+        day, what = max(worked)
+        return (f"{what} is logged on {day:%d %b %Y}, after {on:%d %b %Y}: retire it on {day:%d %b %Y} or later, or "
+                "correct that record first")
+    return None
 
 
 def successors_of(subsystem: Subsystem) -> list[Subsystem]:

@@ -15,6 +15,7 @@ from observatory_ops.workorders.cautions import HAZARDS
 from observatory_ops.workorders.models import RequiredReading, WorkOrderItem
 
 from . import services
+from .forms import RetireForm
 from .models import Site, Subsystem
 from .selectors import open_orders_of, parts_of, subsystem_tree, tube_warning
 
@@ -111,6 +112,7 @@ def subsystem_detail(request, pk):
             # Where its work goes now, when retired; before retiring, the orders retiring would leave open.
             "successors": services.successors_of(subsystem) if subsystem.retired_on else [],
             "open_orders": [] if subsystem.retired_on else _open_orders_of_it_and_parts(subsystem),
+            "today": site_today(subsystem.telescope.site),  # the retire form's day, and its latest
             "hazard_labels": [HAZARDS.get(h, h) for h in subsystem.hazards],
             "history": changes(subsystem, limit=5),
             "history_label": "registry.subsystem",
@@ -125,8 +127,13 @@ def subsystem_retire(request, pk):
     if (visit := posted_only(request, subsystem.get_absolute_url())) is not None:
         return visit
     site = subsystem.telescope.site
+    form = RetireForm(request.POST)
+    if not form.is_valid():
+        messages.error(request, "Not retired: " + "; ".join(e for errors in form.errors.values() for e in errors))
+        return redirect(subsystem)
     try:
-        services.subsystem_retire(subsystem, site_today(site), request.POST.get("reason", ""), request.user)
+        services.subsystem_retire(subsystem, form.cleaned_data["retired_on"] or site_today(site),
+                                  form.cleaned_data["reason"], request.user)
     except ValueError as exc:
         messages.error(request, f"Not retired: {exc}.")
     else:
