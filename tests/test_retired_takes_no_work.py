@@ -317,3 +317,23 @@ def test_a_subsystem_is_retired_on_the_day_it_came_out_not_after_work_logged_on_
     client.post(url, {"reason": "tube replaced", "retired_on": worked.isoformat()})
     retired = Subsystem.objects.filter(pk__in=[tube.pk, mirror.subsystem_id]).values_list("retired_on", flat=True)
     assert set(retired) == {worked}
+
+
+def test_an_order_on_a_subsystem_retired_since_is_neither_issued_nor_started(scene, tube_in_recoat, users, client):  # noqa: F811
+    """Retiring names the open orders of the unit and its parts; one left open is held: issued or started, its work
+    would be dated after the retire day (workorders.selectors.retired_refusal). The page says why in place of the
+    button."""
+    from observatory_ops.workorders import services as workorders
+
+    site, today, plan, mirror = scene
+    tube, recoat = tube_in_recoat
+    removal = recoat.work_orders.get(recoat_phase="removal")
+    subsystem_retire(tube, today, "tube replaced", users["engineer"])
+    with pytest.raises(workorders.Refused, match=f"it works on Primary mirror \\(retired on {today:%d %b %Y}\\), taken "
+                                                 "out of service since it was made: withdraw it"):
+        workorders.work_order_move(removal, "issue", users["engineer"])
+    removal.refresh_from_db()
+    assert removal.state == "draft"
+    client.force_login(users["engineer"])
+    page = client.get(removal.get_absolute_url()).content.decode()
+    assert "taken out of service since it was made" in page

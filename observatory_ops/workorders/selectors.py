@@ -1365,18 +1365,32 @@ def lift_refusal(order: WorkOrder, action: str = "issue") -> str:
 #: Why an order is not issued without a planned date.
 NO_PLANNED_DATE = "set the planned date (Edit) before issuing: the calendar export and the weekly batch go by it"
 
+def retired_refusal(order: WorkOrder, items: list[WorkOrderItem] | None = None) -> str:
+    """Why an order not yet started may not be issued or started: a subsystem it works on was retired since it was made
+    (its work would be dated after the retire day, which the subsystem's page refuses and the reliability page leaves
+    out: a review found orders of a retired tube's mirror still open). "" when none is. ``items``: ``order_items``,
+    read (one query) when not given."""
+    items = order_items(order) if items is None else items
+    retired = sorted((i.subsystem for i in items if i.subsystem.retired_on is not None), key=lambda s: s.name)
+    if not retired:
+        return ""
+    named = in_words([f"{s.name} (retired on {s.retired_on:%d %b %Y})" for s in dict.fromkeys(retired)])
+    return (f"it works on {named}, taken out of service since it was made: withdraw it, and make the work again for "
+            "the replacement if there is one")
+
+
 def moves_held(order: WorkOrder, unrecorded: Sequence[Subsystem] | None = None,
-               gaps: Sequence[str] | None = None) -> dict[str, list[str]]:
+               gaps: Sequence[str] | None = None, items: list[WorkOrderItem] | None = None) -> dict[str, list[str]]:
     """The moves (``lifecycle`` actions) the order may not take as it stands, whoever asks, each with the reasons:
     issuing without a planned date (the calendar export and the weekly batch go by it), issuing or starting
     while its lift stands in the way (``lift_refusal``: the start also while no working load limit is entered), while
     nobody has recorded its subsystems' hazards, or while an energy its work calls for isolating has no isolation
     point registered (``isolation_gaps``), and starting a recoat phase before the phase before it is finished
-    (``recoat_order_refusal``), and finishing a recoat's strip and coat before its new coating is logged
-    (``coating_unlogged``). ``services.work_order_move`` (the finish: ``services.work_order_finish``) refuses them
-    with these words, and the order's page
-    leaves their buttons out and says why. ``unrecorded`` and ``gaps``: ``hazards_unrecorded(order)`` and
-    ``isolation_gaps(order)``, read when not given."""
+    (``recoat_order_refusal``), issuing or starting one whose subsystem was retired since (``retired_refusal``), and
+    finishing a recoat's strip and coat before its new coating is logged (``coating_unlogged``).
+    ``services.work_order_move`` (the finish: ``services.work_order_finish``) refuses them with these words, and the
+    order's page leaves their buttons out and says why. ``unrecorded``, ``gaps`` and ``items``:
+    ``hazards_unrecorded(order)``, ``isolation_gaps(order)`` and ``order_items(order)``, read when not given."""
     held: dict[str, list[str]] = {}
     if order.state == State.DRAFT and order.planned_date is None:
         held.setdefault("issue", []).append(NO_PLANNED_DATE)
@@ -1394,6 +1408,9 @@ def moves_held(order: WorkOrder, unrecorded: Sequence[Subsystem] | None = None,
             missing = "; ".join(gap.split(". ", 1)[0][:1].lower() + gap.split(". ", 1)[0][1:] for gap in gaps)
             for action in ("issue", "start"):
                 held.setdefault(action, []).append(ISOLATION_POINTS_MISSING_HELD.format(missing=missing))
+    if order.state in (State.DRAFT, State.ISSUED) and (why := retired_refusal(order, items)):
+        for action in ("issue", "start"):
+            held.setdefault(action, []).append(why)
     if order.state == State.ISSUED and (why := recoat_order_refusal(order)):
         held.setdefault("start", []).append(why)
     if why := coating_unlogged(order):
@@ -1557,14 +1574,14 @@ START_HELD_TODO = ("Do not begin this work from the paper: the work order page s
 
 
 def start_held_notice(order: WorkOrder, unrecorded: Sequence[Subsystem] | None = None,
-                      gaps: Sequence[str] | None = None) -> tuple[str, ...]:
+                      gaps: Sequence[str] | None = None, items: list[WorkOrderItem] | None = None) -> tuple[str, ...]:
     """The printed order's notice that its start is held (``moves_held``: a lift without its figures or working load
     limit, an isolation point missing, hazards unrecorded, the recoat phase before it not finished): title, one line
     a reason, what to do; () when it may start, or has. Paper goes out before the work: a technician working from it
     would otherwise not know."""
     if order.state not in (State.DRAFT, State.ISSUED):
         return ()
-    reasons = moves_held(order, unrecorded, gaps).get("start", [])
+    reasons = moves_held(order, unrecorded, gaps, items).get("start", [])
     if not reasons:
         return ()
     return (START_HELD_TITLE, *(f"{reason[0].upper()}{reason[1:]}." for reason in reasons), START_HELD_TODO)
@@ -1705,7 +1722,7 @@ def sheet(order: WorkOrder, url: str) -> sheet_.Sheet:
         ),
         precedence_statement=PRECEDENCE_STATEMENT,
         hazards_notice=hazards_notice(order, missing, paper=True, unrecorded=unrecorded),
-        start_held=start_held_notice(order, unrecorded, gaps),
+        start_held=start_held_notice(order, unrecorded, gaps, items),
         out_of_service=tuple(telescope_out_notices(order)),
         alongside=alongside_notice(order, items),
         isolation_needed=needs_isolation(order.hazards),

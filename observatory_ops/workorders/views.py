@@ -172,7 +172,7 @@ def work_order_detail(request, pk):
     # this person (one who took part in the work; a technician, when the isolation answer is put to the engineer):
     # no buttons, and why.
     gaps = selectors.isolation_gaps(order, points, items)
-    held = selectors.moves_held(order, unrecorded, gaps)
+    held = selectors.moves_held(order, unrecorded, gaps, items)
     if order.state == State.FINISHED and (why := services.countersign_refusal(order, request.user)):
         held["countersign"] = [why]
     held_notes: dict[str, list[str]] = {}
