@@ -203,6 +203,33 @@ def nights_for_range(site: Site, start: dt.date, days: int) -> NightTable:
     )
 
 
+def sun_up_at_midnight(site: Site, nights: list[dt.date]) -> NDArray[np.bool_]:
+    """Whether the Sun's centre stands above :data:`SUNSET_ALTITUDE_DEG` at the local midnight of each night (the
+    midnight after the evening of each of ``nights``). On a night with neither sunset nor sunrise (NaT in
+    :class:`NightTable`) it tells the two apart: True, the midnight sun (the Sun never sets); False, the polar night
+    (it never rises).
+
+    Method
+    ------
+    The Sun's apparent place and the local apparent sidereal time at each midnight from astropy, as
+    :func:`nights_for_range` takes them at its daily nodes (no spline: the instants are evaluated directly), and the
+    topocentric altitude of its centre as there. On a night with no crossing every instant of the night is on the
+    same side of that altitude, so one instant decides.
+    """
+    if not nights:
+        return np.zeros(0, dtype=bool)
+    zone = zone_named(site.time_zone)
+    midnights = np.array([_local_clock_days(zone, night + dt.timedelta(days=1), 1, 0)[0] for night in nights])
+    times = Time(midnights * _SECONDS_PER_DAY, format="unix", scale="utc")
+    sidereal = times.sidereal_time("apparent", longitude=site.longitude_deg * u.deg).rad
+    terrestrial = times.tt
+    to_true_equator = erfa.pnm06a(terrestrial.jd1, terrestrial.jd2)
+    place = erfa.rxp(to_true_equator, get_sun(times).cartesian.xyz.to_value(u.km).T)
+    right_ascension, declination, distance = erfa.p2s(place)
+    altitude = _topocentric_altitude_deg(sidereal - right_ascension, declination, distance, _Observer.at(site))
+    return altitude > SUNSET_ALTITUDE_DEG
+
+
 # --- input checks -------------------------------------------------------------------------------
 
 
@@ -320,9 +347,17 @@ def _altitude_deg(track: _Track, observer: _Observer, days: NDArray[np.float64])
     local meridian and the true equator (Meeus ch. 40 does the same in closed form); altitude is its
     angle above the plane normal to the geodetic vertical.
     """
-    hour_angle = track.hour_angle_rad(days)
-    declination = track.declination_rad(days)
-    distance = track.distance_km(days)
+    return _topocentric_altitude_deg(
+        track.hour_angle_rad(days), track.declination_rad(days), track.distance_km(days), observer
+    )
+
+
+def _topocentric_altitude_deg(
+    hour_angle: NDArray[np.float64], declination: NDArray[np.float64], distance: NDArray[np.float64],
+    observer: _Observer,
+) -> NDArray[np.float64]:
+    """:func:`_altitude_deg` from the body's apparent geocentric place: local hour angle and declination (true
+    equator of date, radians) and distance (km)."""
     toward_meridian = distance * np.cos(declination) * np.cos(hour_angle) - observer.axis_distance_km
     westward = distance * np.cos(declination) * np.sin(hour_angle)
     northward = distance * np.sin(declination) - observer.equator_height_km

@@ -6,6 +6,7 @@ import datetime as dt
 from django.db.models import F, Max, Q
 from django.utils import timezone
 
+from observatory_ops.calc import nights as sky_calc
 from observatory_ops.planning.models import NightSky
 from observatory_ops.registry.models import Site
 
@@ -65,41 +66,75 @@ LONGER_THAN_THE_NIGHT_H = 2.0
 
 def nights_longer_than_the_night(site: Site, nights: list[NightUsage], now: dt.datetime | None = None) -> list[str]:
     """A sentence for each of ``nights`` whose open hours exceed that night at the site (sunset to sunrise, from the
-    sky cache, ``planning.models.NightSky``) by more than ``LONGER_THAN_THE_NIGHT_H``; nights the cache does not hold
-    (the sky computed for the forecast years only) are not checked. A night still going on at ``now`` (the present
-    moment by default) is measured to now: one sent in the afternoon, before its sunset, with hours open is named as
-    not begun yet (an onboarding review's control software sent "tonight" at 13:06, and nothing said so)."""
+    sky cache, ``planning.models.NightSky``) by more than ``LONGER_THAN_THE_NIGHT_H``; nights the cache
+    does not hold (the sky computed for the forecast years only) are not checked. A night still going on at ``now``
+    (the present moment by default) is measured to now: one sent in the afternoon, before its sunset, with hours open
+    is named as not begun yet (an onboarding review's control software sent "tonight" at 13:06, and nothing said so).
+
+    A night with neither sunset nor sunrise is one of two: under the midnight sun (the Sun never sets, a summer night
+    far from the equator) the night lasts 0 h, and open hours beyond the allowance are named, saying so; in the polar
+    night (the Sun never rises) the whole day is night and nothing is questioned (``calc.nights.sun_up_at_midnight``
+    tells them apart). A night whose clocks change between sunset and sunrise says so beside the clock times, which
+    then do not subtract to its length (a time-and-place review read "13.9 h (sunset 17:46 to sunrise 06:42)" as
+    12.9 h on the night the clocks went back in Europe/London)."""
     now = now or timezone.now()
     sky = {
         row.night: row for row in NightSky.objects.filter(site=site, night__in={n.night for n in nights}).only(
             "night", "sunset", "sunrise"
         )
     }
-    long = []
+    long, sunless = [], []
     for night in nights:
         cached = sky.get(night.night)
-        if cached is None or cached.sunset is None or cached.sunrise is None:
+        if cached is None:
+            continue
+        if cached.sunset is None and cached.sunrise is None:
+            if night.open_hours > LONGER_THAN_THE_NIGHT_H:  # 0 h under the midnight sun: the sky decides below
+                sunless.append(night)
+            continue
+        if cached.sunset is None or cached.sunrise is None:  # a crossing one side only: too close to call
             continue
         length_h = max((min(cached.sunrise, now) - cached.sunset) / dt.timedelta(hours=1), 0.0)
         if night.open_hours > length_h + LONGER_THAN_THE_NIGHT_H:
             long.append((night, cached, length_h))
+    if sunless:
+        where = sky_calc.Site(site.latitude_deg, site.longitude_deg, site.elevation_m, site.time_zone)
+        sun_up = sky_calc.sun_up_at_midnight(where, [night.night for night in sunless])
+        long += [(night, None, 0.0) for night, up in zip(sunless, sun_up, strict=True) if up]
     if not long:
         return []
     names = dict(site.telescopes.values_list("pk", "name"))
     found = []
     for night, cached, length_h in sorted(long, key=lambda n: (n[0].night, names.get(n[0].telescope_id, ""))):
         whose = f" ({names[night.telescope_id]})" if night.telescope_id else ""
-        sunset, sunrise = cached.sunset.astimezone(site.zone), cached.sunrise.astimezone(site.zone)
         said = f"{night.night:%d %b %Y}{whose}: {night.open_hours:g} h open, but "
+        if cached is None:
+            found.append(said + "the Sun does not set that night there (midnight sun)")
+            continue
+        sunset, sunrise = cached.sunset.astimezone(site.zone), cached.sunrise.astimezone(site.zone)
         if now < cached.sunset:
             said += f"that night has not begun yet there (sunset {sunset:%H:%M})"
         elif now < cached.sunrise:
+            local_now = now.astimezone(site.zone)
             said += (f"that night has lasted {length_h:.1f} h there so far (sunset {sunset:%H:%M}, now "
-                     f"{now.astimezone(site.zone):%H:%M})")
+                     f"{local_now:%H:%M}){_clocks_changed(sunset, local_now)}")
         else:
-            said += f"that night lasts {length_h:.1f} h there (sunset {sunset:%H:%M} to sunrise {sunrise:%H:%M})"
+            said += (f"that night lasts {length_h:.1f} h there (sunset {sunset:%H:%M} to sunrise {sunrise:%H:%M})"
+                     f"{_clocks_changed(sunset, sunrise)}")
         found.append(said)
     return found
+
+
+def _clocks_changed(before: dt.datetime, after: dt.datetime) -> str:
+    """" (the clocks went back an hour that night)" when the site's UTC offset at ``after`` differs from that at
+    ``before`` (both in the site's zone), so their clock times do not subtract to the hours between them; "" else."""
+    change = after.utcoffset() - before.utcoffset()
+    if not change:
+        return ""
+    size = abs(change)
+    amount = "an hour" if size == dt.timedelta(hours=1) else f"{size / dt.timedelta(minutes=1):g} minutes"
+    return f" (the clocks went {'forward' if change > dt.timedelta(0) else 'back'} {amount} that night)"
+
 
 
 #: The service-records CSV (``service_records_csv_rows``): one row a record, withdrawn and superseded ones included and

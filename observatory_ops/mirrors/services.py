@@ -618,6 +618,16 @@ class NightCost:
     open_fraction: float
     booked: str
     cost: float
+    #: The night's hours with the Sun below -18 deg (the sky cache); 0: no astronomical darkness, nothing to lose.
+    dark_hours: float | None = None
+    #: Why ``open_fraction`` is the prior (``calc.forecast.PRIOR_OPEN_FRACTION``), as the planner says it; "" when it
+    #: is the month's own, from past years' nights.
+    prior: str = ""
+
+
+#: Why a month's open fraction is the prior (``calc.forecast.monthly_open_fraction``), as the recoat planner says it.
+PRIOR_TOO_FEW_NIGHTS = "too few nights of this month logged"
+PRIOR_NO_DARK_LOGGED = "no dark hours in the nights of this month logged"
 
 
 def night_costs(site: Site, start: dt.date, horizon_days: int, telescope: Telescope | None = None) -> list[NightCost]:
@@ -630,7 +640,12 @@ def night_costs(site: Site, start: dt.date, horizon_days: int, telescope: Telesc
     # The open fraction of the telescope whose nights are lost (its own log), or of the site as a whole.
     log = UsageLog.for_telescope(telescope) if telescope else UsageLog.site_wide(site)
     # The share of dark hours open, at most all of them: hours open in twilight lose no dark hours.
-    fraction = np.minimum(usage_model(site, log, start, 1).open_fraction, 1.0)
+    model = usage_model(site, log, start, 1)
+    fraction = np.minimum(model.open_fraction, 1.0)
+    # A month short of its own history takes the prior: said so beside the night's cost, with why.
+    logged, _ = forecast.logged_per_month(log.nights)
+    prior = ["" if model.from_history[m] else PRIOR_TOO_FEW_NIGHTS
+             if logged[m] < forecast.MIN_NIGHTS_FOR_HISTORY else PRIOR_NO_DARK_LOGGED for m in range(12)]
     runs = list(BookedRun.objects.filter(site=site, starts_on__lte=end, ends_on__gte=start))
     booked_name = ["" for _ in sky]
     blocked = np.zeros(len(sky), dtype=bool)
@@ -646,7 +661,7 @@ def night_costs(site: Site, start: dt.date, horizon_days: int, telescope: Telesc
     cost = np.where(blocked, np.inf, cost)
     return [
         NightCost(n.night, n.moon_illumination, n.moonless_dark_hours, float(per_night_fraction[i]),
-                  booked_name[i], float(cost[i]))
+                  booked_name[i], float(cost[i]), dark_hours=n.dark_hours, prior=prior[n.night.month - 1])
         for i, n in enumerate(sky)
     ]
 
@@ -1062,7 +1077,8 @@ def recoat_windows(mirror: Mirror, start: dt.date, horizon_days: int, phases: li
     worst = max((c.cost for c in costs if np.isfinite(c.cost)), default=1.0) or 1.0
     calendar = [
         {"night": c.night, "cost": c.cost, "moon": c.moon_illumination, "booked": c.booked,
-         "moonless": c.moonless_dark_hours, "open_fraction": c.open_fraction,
+         "moonless": c.moonless_dark_hours, "open_fraction": c.open_fraction, "dark_hours": c.dark_hours,
+         "prior": c.prior,
          "weight": BOOKED_WEIGHT if c.booked and np.isfinite(c.cost) else None,
          "shade": min(c.cost / worst, 1.0) if np.isfinite(c.cost) else 1.0,
          "blocked": not np.isfinite(c.cost), "chosen": c.night in chosen,

@@ -14,7 +14,7 @@ from observatory_ops.workorders.selectors import orders_for_plans, telescopes_ou
 from . import selectors
 from .filters import DueFilter
 from .models import ServicePlan
-from .services import plan_steps_from_catalogue, sites_bring_up_to_date
+from .services import plan_steps_from_catalogue, site_today, sites_bring_up_to_date
 from .tables import DueTable
 
 
@@ -29,8 +29,10 @@ def due_list(request):
     if request.GET.get("export") == "csv":
         if unapplied:
             return HttpResponseBadRequest("; ".join(unapplied), content_type="text/plain; charset=utf-8")
-        # Dated: "days past the limit" counts to the day it was made (each site's today; the name gives UTC's).
-        return csv_response(f"due-list-{timezone.now():%Y-%m-%d}.csv", selectors.DUE_CSV_HEADER,
+        # Dated: "days past the limit" counts to the day it was made (each site's today). Filtered to one site, the
+        # name gives that site's today; across sites, UTC's (the sites' todays may differ).
+        made_on = site_today(chosen) if chosen else timezone.now().date()
+        return csv_response(f"due-list-{made_on:%Y-%m-%d}.csv", selectors.DUE_CSV_HEADER,
                             map(selectors.due_csv_row, filtered.qs))
     for problem in unapplied:
         messages.warning(request, problem)
