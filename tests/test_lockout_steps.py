@@ -416,9 +416,50 @@ def test_an_ad_hoc_repair_may_also_do_a_plans_work_which_then_counts_again_and_o
         IsolationPoint.objects.get_or_create(telescope=telescope, energy=energy, defaults={"label": label})
     services.work_order_move(made, "issue", users["engineer"])
     services.work_order_move(made, "start", users["technician"])
-    from test_workorders import _confirmed
+    from test_workorders import _all_readings, _confirmed
 
     made.refresh_from_db()
-    services.work_order_finish(made, users["technician"], 1.0, "pads worn through", {}, **_confirmed(made))
+    assert made.required_readings.exists()  # the plan's readings, as a due-list order for it asks them
+    services.work_order_finish(made, users["technician"], 1.0, "pads worn through", _all_readings(made, 0.7),
+                               **_confirmed(made))
     assert made.service_records.get().plan == pads
     assert len(failures_of_site(site)[brake.pk]) == 1
+
+
+def test_the_catalogues_out_of_control_step_typed_after_a_slew_is_moved_first_and_remote_things_are_not_refused(
+    telescope, users, site, client
+):
+    """A diff review: the catalogue's wording typed after "Slew the telescope to the zenith." was kept second, so the
+    slew came while the remote scheduler was in control; and steps that only name something remote were refused."""
+    brake = subsystem_create(telescope, "brake", "Axis 2 brake", counting_from=dt.date(2026, 1, 1))
+    made = services.work_order_ad_hoc(
+        site, [brake], "Brake slips", users["engineer"], steps="Replace the pads.",
+        powered=f"Slew the telescope to the zenith.\n{OUT_OF_CONTROL}",
+    )
+    assert made.step_list[:2] == [OUT_OF_CONTROL, "Slew the telescope to the zenith."]
+    assert made.step_list.count(OUT_OF_CONTROL) == 1 and made.step_list[-1] == HAND_BACK
+    client.force_login(users["engineer"])
+    for typed in ("Lock the remote-controlled shutter closed.", "Switch off the remote I/O box's 24 V supply.",
+                  "Move the ladder out of the way of the remote weather mast."):
+        response = client.post(f"/sites/{site.slug}/workorders/new/", {
+            "title": "Brake slips", "order_type": "corrective", "subsystems": [brake.pk], "powered": typed,
+            "steps": "Replace the pads."})
+        assert response.status_code == 302, typed
+
+
+def test_an_ad_hoc_order_naming_a_plan_takes_its_hazards_and_readings_as_a_due_list_order_does(
+    telescope, users, site
+):
+    """A diff review: an ad hoc order on a primary mirror naming its cleaning plan lacked the plan's hazards (work at
+    height, cryogens), so issuing it was refused as lacking hazards its subsystems "now" carry, and it asked for no
+    reflectance reading, so finishing would restart the plan with none taken."""
+    from observatory_ops.planning.models import ServicePlan
+
+    primary = subsystem_create(telescope, "primary_mirror", "Primary", counting_from=dt.date(2026, 1, 1))
+    plan = next(p for p in ServicePlan.objects.filter(subsystem=primary) if p.hazards and p.readings)
+    from_due = services.work_order_from_due([plan], users["engineer"])
+    ad_hoc = services.work_order_ad_hoc(site, [primary], "Mirror dirty", users["engineer"], plans=[plan],
+                                        steps="Clean the mirror.")
+    assert set(from_due.hazards) <= set(ad_hoc.hazards) and services.hazards_missing(ad_hoc) == []
+    wanted = {(r.subsystem_id, r.quantity) for r in from_due.required_readings.all()}
+    assert wanted and wanted == {(r.subsystem_id, r.quantity) for r in ad_hoc.required_readings.all()}

@@ -353,9 +353,11 @@ class AdHocForm(forms.Form):
 
 
 #: A step in a person's words that takes the observatory out of robotic or remote control ("Take the telescope out of
-#: robotic control", "Disable remote operation"), not one that only names a remote control.
-_TAKES_OUT = re.compile(r"(\bout of\b|\b(disable|suspend|stop|pause|block|lock|switch off|turn off)\w*\b).*"
-                        r"\b(robotic|remote)\b", re.IGNORECASE)
+#: robotic control", "Disable remote operation"), not one that only names something remote ("Lock the
+#: remote-controlled shutter closed", "Switch off the remote I/O box's supply").
+_TAKES_OUT = re.compile(r"(\bout of\b|\b(disable|suspend|stop|pause|block|switch off|turn off)\w*\b).*"
+                        r"\b(robotic|remote)\s+(control|operation|operations|mode|scheduler|observing)\b",
+                        re.IGNORECASE)
 
 #: A step in a person's words that hands the observatory back to robotic or remote control ("Return the observatory
 #: to robotic control"), not one that only names a remote control ("Check the remote control's batteries").

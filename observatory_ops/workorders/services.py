@@ -471,12 +471,7 @@ def work_order_from_due(plans: Sequence[ServicePlan], by, planned_date: dt.date 
             WorkOrderItem.objects.create(
                 work_order=order, subsystem=plan.subsystem, plan=plan, why=status.reason if status else ""
             )
-            for trig in plan.triggers.all():
-                if trig.metric == READING:
-                    sign = "at most" if trig.direction == "above" else "at least"
-                    _require_reading(order, plan.subsystem, trig.quantity, f"{sign} {trig.limit:g}")
-            for wanted in plan.readings:
-                _require_reading(order, plan.subsystem, wanted["quantity"], wanted.get("limit", ""))
+            _require_plan_readings(order, plan)
         # Parts the site's register holds go on the order's parts list, each plan's quantities added up; the others
         # are named on the order's page and paper (``selectors.parts_unregistered``).
         register = list(Part.objects.filter(site=site))
@@ -488,6 +483,17 @@ def work_order_from_due(plans: Sequence[ServicePlan], by, planned_date: dt.date 
         for part, quantity in planned.items():  # one by one, so the audit trail records each
             PartUse.objects.create(work_order=order, part=part, quantity_planned=quantity)
     return order
+
+
+def _require_plan_readings(order: WorkOrder, plan: ServicePlan) -> None:
+    """The readings an order doing ``plan``'s work records: those its condition triggers watch, with their limits, and
+    those the plan asks for (``ServicePlan.readings``)."""
+    for trig in plan.triggers.all():
+        if trig.metric == READING:
+            sign = "at most" if trig.direction == "above" else "at least"
+            _require_reading(order, plan.subsystem, trig.quantity, f"{sign} {trig.limit:g}")
+    for wanted in plan.readings:
+        _require_reading(order, plan.subsystem, wanted["quantity"], wanted.get("limit", ""))
 
 
 def _due_by(plan: ServicePlan, metric: str) -> bool:
@@ -544,15 +550,16 @@ def work_order_ad_hoc(
     put together by ``steps_in_groups``. ``hazards`` are the work's own beyond its subsystems'. With a
     ``planned_date`` it can be issued as it is (``selectors.moves_held``). ``plans``: service plans of its subsystems
     its work also does (a review's new brake pads left the pads' check due): an item each, in place of their
-    subsystem's plain one, so finishing restarts them (a corrective order still counts one failure a subsystem:
+    subsystem's plain one, so finishing restarts them, with their hazards and the readings they ask for, as an order
+    made from the due list for them has (a corrective order still counts one failure a subsystem:
     ``reliability.selectors.failures_of_site``).
 
     Work where the telescope can move ("moving_machinery") starts by taking the observatory out of robotic and remote
-    control, as a planned order does: with nothing under power written, and parking the telescope; before the steps
-    written under power, where none of them is the catalogue's (``catalogue.TAKES_OUT_OF_CONTROL``; a review's order
-    with "Take the telescope out of robotic control" typed had neither its own step nor the hand-back, and held up
-    the other crew's hand-back). An order that takes it out of that control hands it back at the end
-    (``_handed_back``).
+    control as its first step, as a planned order does: with nothing under power written, and parking the telescope;
+    before the steps written under power otherwise, the catalogue's wording among them
+    (``catalogue.TAKES_OUT_OF_CONTROL``) moved to the front, or the order's own (a review's order with "Take the
+    telescope out of robotic control" typed had neither its own step nor the hand-back, and held up the other crew's
+    hand-back). An order that takes it out of that control hands it back at the end (``_handed_back``).
     """
     if any(s.telescope.site_id != site.pk for s in subsystems):
         raise Refused("every subsystem must belong to the work order's site")
@@ -560,10 +567,14 @@ def work_order_ad_hoc(
         raise Refused(f"the plan {stray[0].name} is not one of the chosen subsystems' plans")
     telescopes = {s.telescope for s in subsystems}
     telescope = telescopes.pop() if len(telescopes) == 1 else None
-    hazards = [h for h in HAZARDS if h in set(hazards_of(subsystems, [])) | set(hazards)]
+    hazards = [h for h in HAZARDS if h in set(hazards_of(subsystems, list(plans))) | set(hazards)]
     groups = [[s.strip() for s in text.splitlines() if s.strip()] for text in (powered, steps, restore)]
-    if "moving_machinery" in hazards and not set(groups[0]) & TAKES_OUT_OF_CONTROL:
-        groups[0] = [OUT_OF_CONTROL, *groups[0]] if groups[0] else [OUT_OF_CONTROL_PARKED]
+    if "moving_machinery" in hazards:
+        # First, before any step under power typed (a slew typed before it would move the telescope under the remote
+        # scheduler): the catalogue's step typed among them, moved to the front; else the order's own.
+        typed = [step for step in groups[0] if step in TAKES_OUT_OF_CONTROL]
+        rest = [step for step in groups[0] if step not in TAKES_OUT_OF_CONTROL]
+        groups[0] = [*typed[:1], *rest] if typed else [OUT_OF_CONTROL, *rest] if rest else [OUT_OF_CONTROL_PARKED]
     tagged_out = any(is_tag_out_step(step) for step in groups[1])
     lines = _handed_back(steps_in_groups(hazards, *groups, release_step_for(subsystems, tagged_out),
                                          brake_air_back(subsystems, hazards, groups[2])))
@@ -576,6 +587,8 @@ def work_order_ad_hoc(
             done = [plan for plan in plans if plan.subsystem_id == subsystem.pk]
             for plan in done or [None]:
                 WorkOrderItem.objects.create(work_order=order, subsystem=subsystem, plan=plan)
+                if plan is not None:  # its readings, as an order made from the due list for it records them
+                    _require_plan_readings(order, plan)
     return order
 
 
