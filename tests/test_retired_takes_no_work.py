@@ -302,8 +302,13 @@ def test_a_subsystem_is_retired_on_the_day_it_came_out_not_after_work_logged_on_
     logbook.service_record_log(mirror.subsystem, None, worked, users["technician"], summary="Cell bolts checked")
     client.force_login(users["engineer"])
     url = reverse("subsystem-retire", args=[tube.pk])
+    Subsystem.objects.filter(pk=mirror.subsystem_id).update(in_service_since=today - dt.timedelta(days=20))
     for day, said in (
         (today + dt.timedelta(days=1), f"is after today at the site ({today:%d %b %Y})"),
+        ("1850-03-02", "the retire date 1850-03-02 looks mistyped: give a date from 1900 on"),
+        ("0001-01-01", "the retire date 0001-01-01 looks mistyped"),
+        (today - dt.timedelta(days=30), f"is before F50: Primary mirror entered service "
+                                        f"({today - dt.timedelta(days=20):%d %b %Y})"),
         (worked - dt.timedelta(days=2), f"service work on Primary mirror is logged on {worked:%d %b %Y}, after "
                                         f"{worked - dt.timedelta(days=2):%d %b %Y}: retire it on {worked:%d %b %Y} or "
                                         "later"),
@@ -337,3 +342,23 @@ def test_an_order_on_a_subsystem_retired_since_is_neither_issued_nor_started(sce
     client.force_login(users["engineer"])
     page = client.get(removal.get_absolute_url()).content.decode()
     assert "taken out of service since it was made" in page
+
+
+def test_the_admin_holds_a_retire_day_to_the_same_rules_and_retires_the_parts_with_it(scene, users,  # noqa: F811
+                                                                                     engineer_in_admin):
+    """A diff review: the admin let a retire day move back past service logged since (the page refuses it), and a tube
+    retired there left its parts in service."""
+    site, today, plan, mirror = scene
+    tube = Subsystem.objects.create(telescope=mirror.subsystem.telescope, kind="truss", name="Optical tube")
+    Subsystem.objects.filter(pk=mirror.subsystem_id).update(parent=tube)
+    worked = today - dt.timedelta(days=2)
+    mirror_services.cleaning_log(mirror, users["technician"], worked, "co2_snow")
+    client = engineer_in_admin
+    url = reverse("admin:registry_subsystem_change", args=[tube.pk])
+    response = client.post(url, {**_unchanged(client, url), "retired_on": (today - dt.timedelta(days=5)).isoformat()})
+    assert response.status_code == 200 and Subsystem.objects.get(pk=tube.pk).retired_on is None
+    assert (f"A cleaning of Primary mirror is logged on {worked:%d %b %Y}, after") in response.content.decode()
+    response = client.post(url, {**_unchanged(client, url), "retired_on": worked.isoformat()})
+    assert response.status_code == 302
+    assert Subsystem.objects.get(pk=mirror.subsystem_id).retired_on == worked
+    assert f"Retired with it on {worked:%d %b %Y}, as its parts: Primary mirror." in _said(response)

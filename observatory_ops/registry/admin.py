@@ -18,7 +18,7 @@ from .forms import (
 )
 from .models import CrewDayOff, Site, Subsystem, Telescope
 from .selectors import SLUG_KEPT, parts_of, slug_uses
-from .services import site_settings_apply, subsystem_parts_follow
+from .services import parts_retire_with, site_settings_apply, subsystem_parts_follow
 from .templatetags.coordinates import coordinates
 
 
@@ -148,6 +148,11 @@ class SubsystemAdmin(ChoicesNamedWithSite, RecomputesSite, SimpleHistoryAdmin):
                                   f"{', '.join(part.name for part in moved)}.", messages.INFO)
         if change and "retired_on" in form.changed_data and form.instance.retired_on is None:
             self._parts_left_retired(request, form.instance, form.initial.get("retired_on"))
+        elif change and "retired_on" in form.changed_data and form.initial.get("retired_on") is None:
+            # Retired here, as on its page: its parts with it (``services.parts_retire_with``).
+            if parts := parts_retire_with(form.instance, request.user, f"retired with {form.instance.name}"):
+                self.message_user(request, f"Retired with it on {form.instance.retired_on:%d %b %Y}, as its parts: "
+                                  f"{', '.join(part.name for part in parts)}.", messages.INFO)
         super().save_related(request, form, formsets, change)
 
     def _parts_left_retired(self, request, subsystem, was_retired_on) -> None:

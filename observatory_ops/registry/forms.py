@@ -11,7 +11,7 @@ from django.db.models import QuerySet
 from django.forms.models import BaseInlineFormSet
 
 from observatory_ops.calc.windows import WEEKDAY_NAMES
-from observatory_ops.registry.models import Site, Telescope
+from observatory_ops.registry.models import Site, Subsystem, Telescope
 from observatory_ops.workorders.cautions import HAZARDS
 
 
@@ -162,6 +162,15 @@ class SubsystemAdminForm(forms.ModelForm):
         cleaned = super().clean()
         # Read by the model's clean (``Subsystem._clean_telescope_kept``), which the form calls after this one.
         self.instance.registered_on_wrong_telescope = bool(cleaned.get("registered_on_wrong_telescope"))
+        # A retire day set or moved here is held to the subsystem page's rules (a diff review moved one back past
+        # service logged since, which the page refuses): one check for both (``services.retire_day_problem``).
+        on, telescope = cleaned.get("retired_on"), cleaned.get("telescope")
+        if on and telescope and self.instance.pk and "retired_on" in self.changed_data:
+            from .services import retire_day_problem  # the services build on these forms' models
+
+            unit = Subsystem.objects.get(pk=self.instance.pk)
+            if problem := retire_day_problem(unit, on):
+                self.add_error("retired_on", f"{problem[:1].upper()}{problem[1:]}.")
         return cleaned
 
 

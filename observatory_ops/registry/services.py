@@ -10,7 +10,7 @@ from observatory_ops.workorders.cautions import HAZARDS
 from observatory_ops.workorders.models import IsolationPoint
 
 from .catalogue import kind as catalogue_kind
-from .models import Site, Subsystem, Telescope, name_key
+from .models import EARLIEST_IN_SERVICE, Site, Subsystem, Telescope, name_key
 from .selectors import parts_of
 
 #: The kind whose subsystems have nothing in common but the name "Other": none of them is another's successor.
@@ -58,39 +58,70 @@ def subsystem_retire(subsystem: Subsystem, on: dt.date, reason: str, by) -> Subs
     if problem := retire_day_problem(subsystem, on):
         raise ValueError(problem)
     with transaction.atomic():
-        for part in [subsystem, *parts_of(subsystem)]:
-            if part.retired_on is None:
-                part.retired_on = on
-                part._history_user = by
-                part._change_reason = f"retired: {reason.strip()[:90]}"
-                part.save(update_fields=["retired_on"])
+        subsystem.retired_on = on
+        subsystem._history_user = by
+        subsystem._change_reason = f"retired: {reason.strip()[:90]}"
+        subsystem.save(update_fields=["retired_on"])
+        parts_retire_with(subsystem, by, f"retired: {reason.strip()[:90]}")
     return subsystem
 
 
+def parts_retire_with(subsystem: Subsystem, by, reason: str) -> list[Subsystem]:
+    """Retire, on ``subsystem``'s retire day, those of its parts still in service, each with ``reason`` in its change
+    history; return them. The subsystem page's retire and the admin's (a diff review: a tube retired in the admin left
+    its parts in service) both take the parts out with it."""
+    retired = []
+    for part in parts_of(subsystem):
+        if part.retired_on is None:
+            part.retired_on = subsystem.retired_on
+            part._history_user = by
+            part._change_reason = reason
+            part.save(update_fields=["retired_on"])
+            retired.append(part)
+    return retired
+
+
 def retire_day_problem(subsystem: Subsystem, on: dt.date) -> str | None:
-    """Why ``subsystem`` (and its parts) cannot be retired on ``on``, or None: a day after the site's today, before it
-    entered service (its in-service date), or before service work or a reading already logged on it or its parts,
-    which retiring would leave dated after its retire day (``retired_work_problem`` refuses such work)."""
+    """Why ``subsystem`` (and its parts) cannot be retired on ``on``, or None: a day before ``EARLIEST_IN_SERVICE`` (a
+    typing slip) or after the site's today, before it or one of its parts entered service (their in-service dates: the
+    part would be retired before it came), or before work already logged on it or its parts (service work, a reading,
+    a mirror's measurement or cleaning), which retiring would leave dated after its retire day (``retired_work_problem``
+    refuses such work). The subsystem page's retire and the admin's check it alike."""
     from observatory_ops.logbook.models import Reading, ServiceRecord  # the logbook builds on the register
     from observatory_ops.planning.services import site_today
 
     site = subsystem.telescope.site
+    if on < EARLIEST_IN_SERVICE:
+        return f"the retire date {on.isoformat()} looks mistyped: give a date from {EARLIEST_IN_SERVICE:%Y} on"
     if on > (today := site_today(site)):
         return f"the retire date {on:%d %b %Y} is after today at the site ({today:%d %b %Y})"
-    if subsystem.in_service_since and on < subsystem.in_service_since:
-        return (f"the retire date {on:%d %b %Y} is before {subsystem} entered service "
-                f"({subsystem.in_service_since:%d %b %Y})")
     units = [subsystem, *parts_of(subsystem)]
+    if entered := [(u.in_service_since, u) for u in units if u.in_service_since and on < u.in_service_since]:
+        since, unit = max(entered, key=lambda pair: pair[0])
+        return f"the retire date {on:%d %b %Y} is before {unit} entered service ({since:%d %b %Y})"
+    after = dt.datetime.combine(on + dt.timedelta(days=1), dt.time(), tzinfo=site.zone)  # the next local day
     worked = [(r.performed_on, f"service work on {r.subsystem.name}") for r in ServiceRecord.objects.filter(
         subsystem__in=units, performed_on__gt=on, corrected_by__isnull=True, void=False).select_related("subsystem")]
     worked += [(r.taken_at.astimezone(site.zone).date(), f"a reading of {r.subsystem.name}")
-               for r in Reading.objects.filter(subsystem__in=units, taken_at__date__gt=on - dt.timedelta(days=1))
-               .select_related("subsystem") if r.taken_at.astimezone(site.zone).date() > on]
+               for r in Reading.objects.filter(subsystem__in=units, taken_at__gte=after).select_related("subsystem")]
+    worked += _mirror_events_after(units, on)
     if worked:
         day, what = max(worked)
         return (f"{what} is logged on {day:%d %b %Y}, after {on:%d %b %Y}: retire it on {day:%d %b %Y} or later, or "
                 "correct that record first")
     return None
+
+
+def _mirror_events_after(units: list[Subsystem], on: dt.date) -> list[tuple[dt.date, str]]:
+    """The measurements and cleanings of the mirrors among ``units`` dated after ``on``, as (date, what)."""
+    from observatory_ops.mirrors.models import CleaningEvent, ReflectanceMeasurement  # mirrors build on the register
+
+    found = [(m.measured_on, f"a reflectance measurement of {m.mirror.subsystem.name}")
+             for m in ReflectanceMeasurement.objects.filter(mirror__subsystem__in=units, measured_on__gt=on,
+                                                            withdrawn_at__isnull=True).select_related("mirror__subsystem")]
+    found += [(c.cleaned_on, f"a cleaning of {c.mirror.subsystem.name}") for c in CleaningEvent.objects.filter(
+        mirror__subsystem__in=units, cleaned_on__gt=on).select_related("mirror__subsystem")]
+    return found
 
 
 def successors_of(subsystem: Subsystem) -> list[Subsystem]:
