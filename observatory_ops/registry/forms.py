@@ -11,7 +11,7 @@ from django.db.models import QuerySet
 from django.forms.models import BaseInlineFormSet
 
 from observatory_ops.calc.windows import WEEKDAY_NAMES
-from observatory_ops.registry.models import Site, Subsystem, Telescope
+from observatory_ops.registry.models import EARLIEST_IN_SERVICE, Site, Subsystem, Telescope
 from observatory_ops.workorders.cautions import HAZARDS
 
 
@@ -166,7 +166,12 @@ class SubsystemAdminForm(forms.ModelForm):
         # service logged since, which the page refuses): one check for both (``services.retire_day_problem``).
         on, telescope = cleaned.get("retired_on"), cleaned.get("telescope")
         if on and telescope and self.instance.pk and "retired_on" in self.changed_data:
+            from observatory_ops.planning.services import site_today  # planning's models import the register's
+
             from .services import retire_day_problem  # the services build on these forms' models
+
+            if not EARLIEST_IN_SERVICE <= on <= site_today(telescope.site):
+                return cleaned  # the model's own date rules say it (``Subsystem._clean_retired_on``)
 
             unit = Subsystem.objects.get(pk=self.instance.pk)
             if problem := retire_day_problem(unit, on):
