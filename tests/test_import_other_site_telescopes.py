@@ -169,3 +169,14 @@ def test_a_name_no_site_has_is_said_once_when_several_rows_give_it_and_on_its_li
     assert one.refused_rows == [
         (2, 'unknown telescope "T3" (known at this site: T1, T2); leave it empty for the whole site\'s night')]
     assert stored(here) == []
+
+
+def test_another_sites_telescope_written_in_other_case_is_still_named_as_that_sites(
+    technician_client, here, other_site
+):
+    """A diff review: rows of "r40" were said to be of a telescope "registered at no site here", where this site's
+    names are matched case aside (the nights format) and another site has R40."""
+    name, data = downloaded(technician_client, other_site)
+    response = answered(technician_client, here, data.replace(b",R40,", b",r40,"), name)
+    assert "r40 is Quill Hollow's" in messages_of(response)[0]
+    assert stored(here) == []

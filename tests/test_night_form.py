@@ -77,19 +77,24 @@ def test_a_viewer_cannot_log_a_night(client, site, users):
     assert response.status_code == 403 and not NightUsage.objects.exists()
 
 
-def test_a_new_night_form_starts_at_the_last_night_that_has_ended(client, site, technician):
-    """The night before the site's today: before local noon the night just ended (``calc.night_of``'s night), after it
-    the night before the one not yet begun (a review logged last night's figures at 18:15 under tonight's date)."""
+@pytest.mark.parametrize(("local", "night"), [
+    (dt.datetime(2026, 6, 15, 18, 15), dt.date(2026, 6, 14)),  # the afternoon: tonight has not begun
+    (dt.datetime(2026, 6, 15, 9, 0), dt.date(2026, 6, 14)),  # the morning after: the night just ended
+    (dt.datetime(2026, 6, 16, 1, 0), dt.date(2026, 6, 15)),  # after midnight: the night still going on
+])
+def test_a_new_night_form_starts_at_the_night_before_the_sites_today(client, site, technician, monkeypatch, local,
+                                                                    night):
+    """A review logged last night's figures at 18:15 under tonight's date: the form started at the night the present
+    moment belongs to (``calc.night_of``, noon to noon), in the afternoon tonight's, not begun. It starts at the night
+    before the site's today (the site is in Europe/Madrid; the clock is set there)."""
+    from zoneinfo import ZoneInfo
+
     from django.utils import timezone
 
-    from observatory_ops.calc.night_of import night_of
-
+    moment = local.replace(tzinfo=ZoneInfo(site.time_zone))
+    monkeypatch.setattr(timezone, "now", lambda: moment)
     page = client.get(f"/sites/{site.slug}/nights/new/").content.decode()
-    last_ended = site_today(site) - dt.timedelta(days=1)
-    assert f'value="{last_ended.isoformat()}"' in page
-    now = timezone.now()
-    assert last_ended == night_of(now, site.time_zone) - dt.timedelta(
-        days=0 if now.astimezone(site.zone).hour < 12 else 1)
+    assert f'name="night" value="{night.isoformat()}"' in page
 
 
 def test_a_figure_refused_beside_its_field_is_named_by_the_fields_label_not_the_columns(client, site, technician):

@@ -46,6 +46,9 @@ def typed(client, site, **figures):
                                   '"1,030"; figures take a point, and no separator of thousands (1.030 or 1030)'),
     ("slews", "１２", 'Number of slews: must be a whole number, not "１２"; full-width digits: type 12 with the '
                      "ordinary digits"),
+    # A count is a whole number: no point offered (a diff review: "1.030" would be refused in its turn).
+    ("slews", "1,030", 'Number of slews: must be a whole number, not "1,030"; a count takes no separator of thousands '
+                       "(1030)"),
     ("open_hours", "７．５", 'Hours the dome was open (on a telescope\'s row: the hours that telescope was open and in '
                            'use) (h): must be a number, not "７．５"; full-width digits: type 7.5 with the ordinary '
                            "digits"),

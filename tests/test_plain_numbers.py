@@ -80,6 +80,11 @@ def test_a_decimal_comma_is_named_only_where_a_point_would_make_a_plain_number(t
     assert decimal_comma_hint(text) == hint
 
 
+def test_a_count_is_offered_no_point():
+    assert decimal_comma_hint("1,030", count=True) == "a count takes no separator of thousands (1030)"
+    assert decimal_comma_hint("7,5", count=True) == "a count is a whole number"
+
+
 @pytest.mark.django_db
 def test_number_fields_are_boxes_of_text_with_the_keyboard_of_digits(mirror, users, client):  # noqa: F811
     """A walk-through typed "1_0" into a finish form's count: Chromium's number box showed and sent 10, so the rule

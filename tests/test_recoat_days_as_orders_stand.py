@@ -35,14 +35,15 @@ def test_the_dashboard_prices_a_re_dated_recoat_on_its_new_nights_beside_its_pla
     client.force_login(users["viewer"])
     page = client.get(scene[0].get_absolute_url()).content.decode()
     assert (f"about {LOST_PER_NIGHT * out.nights:.1f} usable moonless open hours lost on these nights (each night's "
-            "moonless dark hours x its month's open fraction; 10.0 on its planned days)") in page
+            "moonless dark hours x its month's open fraction; its planned days were priced at 10.0 when it was "
+            "planned, a booked night weighed more)") in page
 
 
 def test_a_recoat_as_planned_keeps_its_stored_cost_on_the_dashboard(scene, users, client):  # noqa: F811
     recoat, today = _recoat_redated(scene, users, 0)
     client.force_login(users["viewer"])
     page = client.get(scene[0].get_absolute_url()).content.decode()
-    assert "about 10.0 usable moonless open hours lost" in page and "on its planned days" not in page
+    assert "about 10.0 usable moonless open hours lost" in page and "when it was planned" not in page
 
 
 def test_the_mirror_page_and_the_planner_give_a_re_dated_recoat_its_new_days(scene, users, client):  # noqa: F811
@@ -51,9 +52,9 @@ def test_the_mirror_page_and_the_planner_give_a_re_dated_recoat_its_new_days(sce
     client.force_login(users["engineer"])
     mirror = recoat.mirror
     page = client.get(mirror.get_absolute_url()).content.decode()
-    assert (f"{out.first:%d %b %Y} to {out.last:%d %b %Y} as its work orders now stand (cost "
-            f"{LOST_PER_NIGHT * out.nights:.1f} h; planned {recoat.starts_on:%d %b %Y} to {recoat.ends_on:%d %b %Y}, "
-            "cost 10.0 h)") in page
+    assert (f"{out.first:%d %b %Y} to {out.last:%d %b %Y} as its work orders now stand "
+            f"({LOST_PER_NIGHT * out.nights:.1f} usable moonless open hours lost; planned {recoat.starts_on:%d %b %Y} "
+            f"to {recoat.ends_on:%d %b %Y}, priced at 10.0 h when planned)") in page
     planner = client.get(f"/mirrors/{mirror.pk}/recoat/").content.decode()
     assert (f"already planned, {out.first:%d %b %Y} to {out.last:%d %b %Y} as its work orders now stand (planned "
             f"{recoat.starts_on:%d %b %Y} to {recoat.ends_on:%d %b %Y})") in planner

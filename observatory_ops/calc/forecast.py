@@ -8,8 +8,9 @@ years (above 1 where the dome opens in twilight, as to cool before dark: those h
 prior :data:`PRIOR_OPEN_FRACTION` while month m has fewer than :data:`MIN_NIGHTS_FOR_HISTORY` logged nights
 (:func:`monthly_open_fraction`). A month whose use its darkness does not lead (``F_m`` above
 :data:`DARKNESS_LEADS_UP_TO`, or no dark hours at all: a summer of twilight far from the equator) expects each coming
-night at its mean open hours a logged night instead (:func:`monthly_use_by_night`). Slews, travel and brake cycles
-follow from their rates per open hour, and dust from the month's mean PM10.
+night at its mean open hours a logged night instead (:func:`monthly_use_by_night`; the band below still compares
+such a month with its dark hours x the other years' fraction, which holds its total, not its spread over the nights).
+Slews, travel and brake cycles follow from their rates per open hour, and dust from the month's mean PM10.
 
 The forecast band comes from the relative month-to-month spread ``s``: the sample standard deviation of
 ``A / E - 1`` over complete past months (:func:`monthly_spread`), where A is a month's logged open hours and E its

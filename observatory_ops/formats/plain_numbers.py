@@ -41,16 +41,21 @@ def full_width_hint(text: str) -> str | None:
     return f"full-width digits: type {ordinary} with the ordinary digits"
 
 
-def decimal_comma_hint(text: str) -> str | None:
+def decimal_comma_hint(text: str, count: bool = False) -> str | None:
     """What to do about a figure written with a decimal comma ("7,5"): "figures take a point (7.5)"; None when no one
     comma in ``text`` would be a point of a plain number. Three digits after the comma may be a separator of thousands
     instead ("1,030"), and the hint says both ways: "figures take a point, and no separator of thousands (1.030 or
-    1030)"."""
+    1030)". A ``count`` (slews, brake cycles) is a whole number: "a count takes no separator of thousands (1030)", or
+    "a count is a whole number" (a diff review: "1.030" offered for a count would be refused in its turn)."""
     comma = COMMA_FIGURE.fullmatch(text.strip())
     if comma is None:
         return None
     whole, decimals = comma.group("whole", "decimals")
-    if whole.lstrip("+-") and re.fullmatch("[0-9]{3}", decimals):
+    thousands = bool(whole.lstrip("+-") and re.fullmatch("[0-9]{3}", decimals))
+    if count:
+        return f"a count takes no separator of thousands ({whole}{decimals})" if thousands else (
+            "a count is a whole number")
+    if thousands:
         return f"figures take a point, and no separator of thousands ({whole}.{decimals} or {whole}{decimals})"
     return f"figures take a point ({whole}.{decimals})"
 

@@ -375,6 +375,7 @@ class NightsUploadForm(forms.Form):
 
 #: The night form's fields of figures: the format's numbers and counts, whose typed slips the form names.
 FIGURES = frozenset(c.name for c in nights_csv.COLUMN_SPECS if c.kind in ("number", "count"))
+COUNTS = frozenset(c.name for c in nights_csv.COLUMN_SPECS if c.kind == "count")
 
 #: How a telescope's log is made up (``NightUsage``), said beside the telescope choice.
 TELESCOPE_RULE = "A telescope's log is its own nights, and the whole site's nights on which it has none of its own."
@@ -451,7 +452,8 @@ class NightForm(forms.Form):
         if reason.startswith(f"{problem.field} "):
             reason = f"{self.fields[problem.field].label}: {reason[len(problem.field) + 1:]}"
         typed = str(self.data.get(self.add_prefix(problem.field), ""))
-        if problem.field in FIGURES and (hint := full_width_hint(typed) or decimal_comma_hint(typed)):
+        count = problem.field in COUNTS
+        if problem.field in FIGURES and (hint := full_width_hint(typed) or decimal_comma_hint(typed, count)):
             reason = f"{reason}; {hint}"
         self.add_error(problem.field, reason)
 

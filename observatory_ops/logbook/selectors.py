@@ -136,7 +136,6 @@ def _clocks_changed(before: dt.datetime, after: dt.datetime) -> str:
     return f" (the clocks went {'forward' if change > dt.timedelta(0) else 'back'} {amount} that night)"
 
 
-
 #: The service-records CSV (``service_records_csv_rows``): one row a record, withdrawn and superseded ones included and
 #: marked, so the year's trail is whole; only "current" records count on the reliability page.
 SERVICE_CSV_HEADER = (

@@ -288,10 +288,13 @@ def _telescopes_unknown(
     for problem in problems:
         if problem.telescope_unknown is not None:
             lines.setdefault(problem.telescope_unknown, []).append(problem.position)
+    # Matched as this site's names are (``nights_csv._telescope``), case aside: "r40" rows of another site's R40.
+    written = {name.casefold(): name for name in lines}
     owners: dict[str, list[str]] = {}
-    for name, owner in (Telescope.objects.filter(name__in=lines).exclude(site=site).order_by("site__name")
-                        .values_list("name", "site__name")):
-        owners.setdefault(name, []).append(owner)
+    others = Telescope.objects.exclude(site=site).order_by("site__name") if written else Telescope.objects.none()
+    for name, owner in others.values_list("name", "site__name"):
+        if name.casefold() in written:
+            owners.setdefault(written[name.casefold()], []).append(owner)
     said = {name: at for name, at in lines.items() if len(at) > 1 or name in owners}
     if not said:
         return frozenset(), ""

@@ -305,8 +305,9 @@ def _night_asked(request, site, telescopes: list[str]) -> tuple[dict, NightUsage
     ``&telescope=NAME``), with what is stored of that night (``loaded_as``: "" when the form shows nothing stored),
     and the stored night (None if it is not stored). What is asked is kept where it can be; a message says what
     cannot be, and a night asked for that is not stored."""
-    # The night most likely typed in: the last one that has ended, the night before the site's today (in the afternoon
-    # the present night has not begun: a review logged last night's figures at 18:15 under tonight's date, unwarned).
+    # The night most likely typed in: the night before the site's today, which has ended once the day has dawned (in the
+    # afternoon the present night has not begun: a review logged last night's figures at 18:15 under tonight's date,
+    # unwarned); between local midnight and dawn it is the night still going on.
     initial = {"night": (services.site_today(site) - dt.timedelta(days=1)).isoformat(), "loaded_as": ""}
     night = None
     if asked := request.GET.get("night", "").strip():

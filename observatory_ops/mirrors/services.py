@@ -668,8 +668,9 @@ def night_costs(site: Site, start: dt.date, horizon_days: int, telescope: Telesc
 
 def hours_lost(site: Site, first: dt.date, last: dt.date, telescope: Telescope | None = None) -> float:
     """The usable moonless open hours lost by taking ``telescope`` (or the site) out of service on the nights ``first``
-    to ``last``, both counted: each night's moonless dark hours x its month's open fraction, as ``night_costs`` prices
-    them, a booked run's nights at their own hours (the runs on them are named beside the figure)."""
+    to ``last``, both counted: each night's moonless dark hours x its month's open fraction (``night_costs``), a
+    booked run's nights at their own hours: not the planner's price of a window, which weighs a booked night
+    ``BOOKED_WEIGHT`` times to steer clear of it (the runs on these nights are named beside the figure instead)."""
     nights = night_costs(site, first, (last - first).days + 1, telescope)
     return float(sum(n.moonless_dark_hours * n.open_fraction for n in nights))
 
@@ -1043,10 +1044,13 @@ def runs_over_each_recoat(
 
 def _recoats_planned_at(site: Site, mirror: Mirror, first: dt.date, last: dt.date) -> list[RecoatPlan]:
     """The site's other mirrors' recoats in hand within [first, last] on their days as their work orders now stand
-    (``with_days_out``): the crew is committed on those days, which the planner does not price, so it names them."""
-    others = [plan for plan in downtime_planned(site, site_today(site)) if plan.mirror_id != mirror.pk]
-    return [plan for plan in with_days_out(others, site_today(site))
-            if plan.out.first <= last and first <= plan.out.last]
+    (``recoat_downtime``): the crew is committed on those days, which the planner does not price, so it names them."""
+    today = site_today(site)
+    others = [plan for plan in downtime_planned(site, today) if plan.mirror_id != mirror.pk]
+    prefetch_related_objects(others, "work_orders")  # a recoat's nights are its orders' (recoat_downtime)
+    for plan in others:
+        plan.out = recoat_downtime(plan, today)
+    return [plan for plan in others if plan.out.first <= last and first <= plan.out.last]
 
 
 def default_horizon_days(mirror: Mirror, today: dt.date) -> int:
