@@ -57,6 +57,18 @@ MIN_MONTHS_FOR_SPREAD = 6
 DARKNESS_LEADS_UP_TO = 1.5
 
 
+def _month_sums(
+    months: ArrayLike, open_hours: ArrayLike, dark_hours: ArrayLike
+) -> tuple[NDArray[np.int64], NDArray[np.float64], NDArray[np.float64]]:
+    """Per calendar month (index 0 = January), over the logged nights: how many, their open hours and their dark
+    hours, each summed."""
+    months = np.asarray(months, dtype=int)
+    count = np.bincount(months - 1, minlength=12)[:12]
+    sum_open = np.bincount(months - 1, weights=np.asarray(open_hours, dtype=float), minlength=12)[:12]
+    sum_dark = np.bincount(months - 1, weights=np.asarray(dark_hours, dtype=float), minlength=12)[:12]
+    return count, sum_open, sum_dark
+
+
 def monthly_use_by_night(
     months: ArrayLike, open_hours: ArrayLike, dark_hours: ArrayLike
 ) -> tuple[NDArray[np.float64], NDArray[np.bool_]]:
@@ -75,12 +87,7 @@ def monthly_use_by_night(
         NaN.
     by_night : array of 12 booleans.
     """
-    months = np.asarray(months, dtype=int)
-    open_h = np.asarray(open_hours, dtype=float)
-    dark_h = np.asarray(dark_hours, dtype=float)
-    count = np.bincount(months - 1, minlength=12)[:12]
-    sum_open = np.bincount(months - 1, weights=open_h, minlength=12)[:12]
-    sum_dark = np.bincount(months - 1, weights=dark_h, minlength=12)[:12]
+    count, sum_open, sum_dark = _month_sums(months, open_hours, dark_hours)
     by_night = (count >= MIN_NIGHTS_FOR_HISTORY) & (sum_open > DARKNESS_LEADS_UP_TO * sum_dark)
     per_night = np.full(12, np.nan)
     per_night[by_night] = sum_open[by_night] / count[by_night]
@@ -105,12 +112,7 @@ def monthly_open_fraction(
     fraction : array of 12 values, index 0 = January.
     from_history : array of 12 booleans, False where the prior was used.
     """
-    months = np.asarray(months, dtype=int)
-    open_h = np.asarray(open_hours, dtype=float)
-    dark_h = np.asarray(dark_hours, dtype=float)
-    count = np.bincount(months - 1, minlength=12)[:12]
-    sum_open = np.bincount(months - 1, weights=open_h, minlength=12)[:12]
-    sum_dark = np.bincount(months - 1, weights=dark_h, minlength=12)[:12]
+    count, sum_open, sum_dark = _month_sums(months, open_hours, dark_hours)
     from_history = (count >= MIN_NIGHTS_FOR_HISTORY) & (sum_dark > 0)
     fraction = np.full(12, PRIOR_OPEN_FRACTION)
     fraction[from_history] = sum_open[from_history] / sum_dark[from_history]
