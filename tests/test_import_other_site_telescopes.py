@@ -6,34 +6,28 @@ empty (which would make the night the whole site's), and the page then asked who
 says once whose telescopes the rows name and which this site has; the answer stays with the page for that file. The
 sites and telescopes here are invented (tests/test_nights_import_other_site.py has the question itself).
 """
+# ruff: noqa: F811  (the fixtures imported from tests/test_nights_import_other_site.py are used by name)
 from __future__ import annotations
 
 import datetime as dt
 
 import pytest
 from django.urls import reverse
-from test_nights_import_other_site import downloaded, messages_of, upload
+from test_nights_import_other_site import (  # noqa: F401  (recomputes and technician_client are fixtures)
+    FIRST_NIGHT,
+    NIGHTS,
+    downloaded,
+    messages_of,
+    recomputes,
+    technician_client,
+    upload,
+)
 
 from observatory_ops.logbook import services
 from observatory_ops.logbook.models import NightUsage
 from observatory_ops.registry.models import Site, Telescope
 
 pytestmark = pytest.mark.django_db
-
-FIRST_NIGHT = dt.date(2024, 1, 5)
-NIGHTS = 30
-
-
-@pytest.fixture(autouse=True)
-def recomputes(recomputes_recorded):
-    """Record due-state recomputes instead of running them (each costs seconds of sky computation)."""
-    return recomputes_recorded
-
-
-@pytest.fixture
-def technician_client(client, users):
-    client.force_login(users["technician"])
-    return client
 
 
 @pytest.fixture
