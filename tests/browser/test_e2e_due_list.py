@@ -70,8 +70,10 @@ def test_technician_logs_service_for_an_overdue_item_and_it_leaves_the_overdue_g
 
     rows = _open_due_list_sorted_by_status(page)
     page.screenshot(path=str(SCREENSHOT), full_page=True)
-    overdue = [row for row in rows if row["Status"] == OVERDUE]
-    assert overdue, "the demo should show overdue items on the first page of the due list"
+    # One on no work order yet: the form asks first about one an order holds (the demo has such orders, and which
+    # items they hold on the first page changes with the site's date: the test failed once the site's day turned).
+    overdue = [row for row in rows if row["Status"] == OVERDUE and "WO-" not in row["Why"]]
+    assert overdue, "the demo should show overdue items on no work order on the first page of the due list"
     item = overdue[0]
     assert item["Trigger"] and item["Now / limit"] and item["Why"], f"an overdue row must say why: {item}"
 
