@@ -144,6 +144,13 @@ def test_two_overdue_items_go_from_the_due_list_through_a_work_order_to_counters
     assert order.planned_date == site_today(order.site)
     expect(page.locator(".moves-held")).to_have_count(0)
     page.get_by_role("button", name="Issue to the technicians").click()
+    # Plans whose steps under power were merged are read through first (workorders/issue_question.html): which two
+    # items the demo's first page offers changes with the site's day, and after 07:00 UTC they are such plans.
+    question = page.get_by_role("heading", name="Before this order is issued")
+    expect(page.get_by_text("issue to the technicians: done").or_(question)).to_be_visible()  # whichever page comes
+    if question.count():
+        _shot(page, "2b_issue_question")
+        page.get_by_role("button", name="Issue as written").click()
     expect(page.locator(".messages")).to_contain_text("issue to the technicians: done")
     _expect_state(page, State.ISSUED.label)
 
