@@ -304,3 +304,31 @@ def test_a_viewer_is_told_who_adds_the_record_and_a_recorded_mirror_shows_no_suc
     assert "No mirror record" not in _text(client.get(primary.get_absolute_url()))
     dome = Subsystem.objects.get(telescope=primary.telescope, kind="enclosure")
     assert "No mirror record" not in _text(client.get(dome.get_absolute_url()))
+
+
+# --- a retired mirror takes no cleaning or measurement in the admin either -------------------------------------------
+
+
+def test_the_admin_refuses_a_cleaning_or_a_measurement_after_the_mirrors_retire_day(mirror, administrator_in_admin):
+    """As the mirror page does (``registry.services.retired_work_problem``); on or before the retire day it is its
+    history entered late, and kept. The administrator, who may add measurements in the admin (an engineer may not)."""
+    client = administrator_in_admin
+    retired_on = _today(mirror) - dt.timedelta(days=5)
+    Subsystem.objects.filter(pk=mirror.subsystem_id).update(retired_on=retired_on)
+    mirror.refresh_from_db()
+    after = retired_on + dt.timedelta(days=1)
+    response = _admin_post(client, mirror,
+                           cleanings=[{"cleaned_on": after.isoformat(), "method": "co2_snow", "note": ""}])
+    assert response.status_code == 200
+    assert (f"was retired on {retired_on:%d %b %Y}, so it was no longer in service on {after:%d %b %Y}: a cleaning "
+            "dated after its retire day is refused") in _text(response)
+    assert not CleaningEvent.objects.filter(mirror=mirror).exists()
+    response = _admin_post(client, mirror,
+                           cleanings=[{"cleaned_on": retired_on.isoformat(), "method": "co2_snow", "note": ""}])
+    assert response.status_code == 302, _text(response)[:2000]
+    response = client.post("/admin/mirrors/reflectancemeasurement/add/", {
+        "mirror": mirror.pk, "measured_on": after.isoformat(), "value": "0.85", "wavelength_nm": "", "position": "",
+        "taken_by": "", "notes": ""})
+    assert response.status_code == 200
+    assert "a measurement dated after its retire day is refused" in _text(response)
+    assert not mirror.measurements.exists()

@@ -362,3 +362,80 @@ def test_the_admin_holds_a_retire_day_to_the_same_rules_and_retires_the_parts_wi
     assert response.status_code == 302
     assert Subsystem.objects.get(pk=mirror.subsystem_id).retired_on == worked
     assert f"Retired with it on {worked:%d %b %Y}, as its parts: Primary mirror." in _said(response)
+
+
+# --- 5. An order underway on a subsystem retired meanwhile ----------------------------------------------------------
+
+
+@pytest.fixture
+def fans_order_underway(scene, users):  # noqa: F811
+    """An order on the scene's fans, issued six days ago and underway since (a paper order, entered afterwards)."""
+    from conftest import mains_isolator
+
+    from observatory_ops.workorders import services as workorders
+
+    site, today, plan, mirror = scene
+    mains_isolator(plan.subsystem.telescope)
+    order = workorders.work_order_ad_hoc(site, [plan.subsystem], "Fan bearing noise", users["engineer"],
+                                         steps="Replace the bearing", planned_date=today)
+    workorders.work_order_move(order, "issue", users["engineer"])
+    workorders.work_order_move(order, "start", users["technician"])
+    issued = dt.datetime.combine(today - dt.timedelta(days=6), dt.time(9), tzinfo=site.zone)
+    WorkOrder.objects.filter(pk=order.pk).update(issued_at=issued)
+    return WorkOrder.objects.get(pk=order.pk)
+
+
+def _finish(order, users, day: dt.date):
+    from observatory_ops.workorders import services as workorders
+
+    return workorders.work_order_finish(
+        order, users["technician"], 1.0, "Bearing replaced; the isolator was locked and unlocked by me.", {},
+        confirmed_unticked=[line.text for line in workorders.unticked_lines(order)], isolation_answer="isolated",
+        work_done_on=day)
+
+
+def test_an_order_underway_is_finished_on_or_before_its_subsystems_retire_day_not_after(scene, fans_order_underway,  # noqa: F811
+                                                                                       users, client):
+    """Retiring a unit while an order on it is underway leaves the order to finish: its work, done before the unit came
+    out, is dated on or before the retire day (workorders.services.retired_underway_problem); dated after, its records
+    would come after the retire day, which the unit's page refuses (a review: such records were written)."""
+    from observatory_ops.workorders import services as workorders
+
+    site, today, plan, mirror = scene
+    order = fans_order_underway
+    retired_on = today - dt.timedelta(days=2)
+    _retired(plan.subsystem, retired_on)
+    client.force_login(users["technician"])
+    page = client.get(reverse("workorder-finish", args=[order.pk])).content.decode()
+    assert (f"Fans was retired on {retired_on:%d %b %Y} while this order was underway: its work is dated on or "
+            f"before {retired_on:%d %b %Y}.") in page
+    with pytest.raises(workorders.Refused, match=f"work done on: {today:%d %b %Y} is after the retire day of Fans "
+                                                 f"\\(retired on {retired_on:%d %b %Y}\\), taken out of service while "
+                                                 f"{order.number} was underway. Enter the day the work was done, on "
+                                                 f"or before {retired_on:%d %b %Y}"):
+        _finish(order, users, today)
+    order.refresh_from_db()
+    assert order.state == "underway" and not ServiceRecord.objects.exists()
+    _finish(order, users, retired_on)
+    assert ServiceRecord.objects.get(subsystem=plan.subsystem).performed_on == retired_on
+
+
+def test_an_order_on_a_subsystem_retired_before_it_was_issued_is_said_to_be_withdrawn(scene, fans_order_underway,  # noqa: F811
+                                                                                     users):
+    from observatory_ops.workorders import services as workorders
+
+    site, today, plan, mirror = scene
+    order = fans_order_underway
+    retired_on = today - dt.timedelta(days=8)
+    _retired(plan.subsystem, retired_on)
+    issued = today - dt.timedelta(days=6)
+    for day in (today, retired_on):
+        with pytest.raises(workorders.Refused, match="work done on: "):
+            _finish(order, users, day)
+    with pytest.raises(workorders.Refused, match=f"Fans \\(retired on {retired_on:%d %b %Y}\\) was taken out of "
+                                                 f"service before {order.number} was issued \\({issued:%d %b %Y}\\), "
+                                                 "so none of its work was done on this order: the site engineer "
+                                                 "withdraws it"):
+        _finish(order, users, issued)
+    assert not ServiceRecord.objects.exists()
+

@@ -9,6 +9,7 @@ from observatory_ops.calc.exposure import DUST_SENSITIVITY_MAX
 from observatory_ops.logbook.services import date_problem, service_date_problem
 from observatory_ops.planning.admin import RecomputesSite
 from observatory_ops.registry.forms import ChoicesNamedWithSite, ProtectedNamed
+from observatory_ops.registry.services import retired_work_problem
 from observatory_ops.workorders.forms import (
     HEAVIEST_LOAD,
     LARGEST_MIRROR,
@@ -29,7 +30,8 @@ from .models import CleaningEvent, CoatingEvent, Mirror, RecoatPlan, Reflectance
 
 class RestartsPlansFormSet(BaseInlineFormSet):
     """Coating or cleaning rows: each one added (or redated) here restarts the mirror's plans as one logged on the
-    mirror page does, through the same service (``restart``), so its date must suit a service record."""
+    mirror page does, through the same service (``restart``), so its date must suit a service record, and not come
+    after the day the mirror was retired (``registry.services.retired_work_problem``), as on the mirror page."""
 
     date_field: str
     event: str  # "coating" or "cleaning"
@@ -44,10 +46,11 @@ class RestartsPlansFormSet(BaseInlineFormSet):
             redated = self.date_field in form.changed_data
             if site is None or day is None or self._should_delete_form(form) or not redated:
                 continue
-            problem = service_date_problem(site, day)
-            if problem:
+            if problem := service_date_problem(site, day):
                 why = f"The {self.event} restarts the mirror's {self.restarts} from this date, and {problem}."
                 form.add_error(self.date_field, why)
+            elif problem := retired_work_problem(self.instance.subsystem, day, f"A {self.event}"):
+                form.add_error(self.date_field, problem)
 
     def events_to_restart_from(self) -> list:
         """The rows saved as new, or with a new date."""
@@ -157,7 +160,7 @@ class MirrorAdmin(ProtectedNamed, ChoicesNamedWithSite, RecomputesSite, SimpleHi
 class MeasurementAdminForm(MeasurementChecks, forms.ModelForm):
     """A measurement added here is held to what the mirror page's form holds it to (``MeasurementChecks``: the
     wavelength's bounds, the question of a band mean above the fresh value, with its box), and its date to the rule
-    of every logged date (``services._check_date``)."""
+    of every logged date and to the mirror's retire day, as there (``services._check_date``)."""
 
     class Meta:
         model = ReflectanceMeasurement
@@ -180,6 +183,8 @@ class MeasurementAdminForm(MeasurementChecks, forms.ModelForm):
         mirror, day = data.get("mirror"), data.get("measured_on")
         if mirror and day and (problem := date_problem(mirror.subsystem.telescope.site, day, "measurement date")):
             self.add_error("measured_on", problem[0].upper() + problem[1:] + ".")
+        elif mirror and day and (problem := retired_work_problem(mirror.subsystem, day, "A measurement")):
+            self.add_error("measured_on", problem)
         return data
 
 

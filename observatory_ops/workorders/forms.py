@@ -22,7 +22,7 @@ from observatory_ops.registry.forms import HazardsField, possible_id
 from observatory_ops.registry.models import Subsystem, validate_one_line
 
 from . import selectors, services
-from .cautions import ISOLATION_UNTICKED, ISOLATION_UNTICKED_FINDINGS
+from .cautions import ISOLATION_UNTICKED, ISOLATION_UNTICKED_FINDINGS, in_words
 from .models import (
     PART_QUANTITY_MAX,
     Part,
@@ -445,6 +445,12 @@ class FinishForm(forms.Form):
             f"service records this order writes. The estimate was {order.estimated_hours:g} h."
         )
         self.fields["work_done_on"].initial = self._today
+        self._items = list(order.items.select_related("subsystem"))
+        if retired := sorted({i.subsystem for i in self._items if i.subsystem.retired_on is not None},
+                             key=lambda s: (s.retired_on, s.name)):
+            self.fields["work_done_on"].help_text += (
+                f" {in_words([f'{s.name} was retired on {s.retired_on:%d %b %Y}' for s in retired])} while this "
+                f"order was underway: its work is dated on or before {retired[0].retired_on:%d %b %Y}.")
         self._required = {r.pk: r for r in order.required_readings.select_related("subsystem")}
         for r in self._required.values():
             label = f"{r.quantity_label} on {r.subsystem.name} ({r.unit})"
@@ -528,7 +534,8 @@ class FinishForm(forms.Form):
 
     def clean_work_done_on(self):
         day = self.cleaned_data["work_done_on"]
-        if problem := services.work_done_on_problem(self._order, day, self._today):
+        if problem := (services.work_done_on_problem(self._order, day, self._today)
+                       or services.retired_underway_problem(self._order, self._items, day)):
             raise forms.ValidationError(f"Work done on: {problem}.")
         return day
 
@@ -638,8 +645,8 @@ class FinishForm(forms.Form):
             at_most = required.limit_value and required.limit_value > 0 and "at most" in required.limit_text
             # A limit in words ("within the maker's range") is asked about too: a tablet review stored a brake air
             # pressure of 0 bar without a word. A reading with no limit given is not.
-            in_words = required.limit_value is None and required.limit_text.strip()
-            if value == 0 and (at_most or in_words):
+            worded = required.limit_value is None and required.limit_text.strip()
+            if value == 0 and (at_most or worded):
                 asked[f"reading_{pk}"] = (f"0 {required.unit} against its limit ({required.limit_text}): was the "
                                           f"measurement missed, or the field left at 0? {NOT_RECORDED_YET}")
         return asked

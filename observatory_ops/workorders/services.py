@@ -59,6 +59,7 @@ from .cautions import (
     ISOLATION_UNTICKED_FINDINGS,
     ISOLATION_UNTICKED_REQUIRED,
     LOCKOUT_STEP,
+    in_words,
     is_lockout_step,
     needs_isolation,
 )
@@ -814,6 +815,29 @@ def work_done_on_problem(order: WorkOrder, day: dt.date, today: dt.date | None =
     return ""
 
 
+def retired_underway_problem(order: WorkOrder, items: Sequence[WorkOrderItem], day: dt.date) -> str:
+    """Why the order's work cannot be dated ``day``: a subsystem it works on was retired before that day, while the
+    order was underway (an order not yet started is held: ``selectors.retired_refusal``). Its records would come after
+    the retire day, which its page refuses (``registry.services.retired_work_problem``) and the reliability page leaves
+    out. Retired before the order was issued, no day suits (``work_done_on_problem``): it is withdrawn. "" when none
+    was."""
+    late = {i.subsystem for i in items if i.subsystem.retired_on is not None and day > i.subsystem.retired_on}
+    if not late:
+        return ""
+    late = sorted(late, key=lambda s: (s.retired_on, s.name))
+    named = in_words([f"{s.name} (retired on {s.retired_on:%d %b %Y})" for s in late])
+    first = late[0].retired_on
+    issued = order.issued_at.astimezone(order.site.zone).date() if order.issued_at else None
+    if issued is not None and first < issued:
+        return (f"{named} was taken out of service before {order.number} was issued ({issued:%d %b %Y}), so none of "
+                "its work was done on this order: the site engineer withdraws it, and the work is made again for the "
+                "replacement if there is one. If the retire day is wrong, the site engineer corrects it in the admin")
+    return (f"{day:%d %b %Y} is after the retire day of {named}, taken out of service while {order.number} was "
+            f"underway. Enter the day the work was done, on or before {first:%d %b %Y}; work done after it came out "
+            "was done on its replacement: log that on the replacement's page. If the retire day is wrong, the site "
+            "engineer corrects it in the admin first")
+
+
 def work_order_finish(
     order: WorkOrder,
     by,
@@ -836,7 +860,8 @@ def work_order_finish(
     ``work_done_on`` is the day the work was done at the site (default: the site's today; a paper order may be
     entered days later). The service records are dated it, so the plans count again from it; so are the
     cleanings, and the readings are taken at noon of it (now, when it is today). Refused when it is after today
-    or before the day the order was issued (``work_done_on_problem``).
+    or before the day the order was issued (``work_done_on_problem``), or after the retire day of a subsystem it works
+    on (``retired_underway_problem``).
 
     ``cleanings`` maps the id of a mirror the work cleaned -> the method (``CleaningEvent.Method``): each
     becomes a cleaning on the mirror's record, dated the day the work was done, so its decline fit sees the
@@ -934,6 +959,9 @@ def work_order_finish(
     day = work_done_on or today
     if problem := work_done_on_problem(order, day, today):
         raise Refused(f"work done on: {problem}")
+    items = list(order.items.select_related("subsystem", "plan"))
+    if problem := retired_underway_problem(order, items, day):
+        raise Refused(f"work done on: {problem}")
     now = timezone.now()
     # A reading's time of day is not asked on the form. Today's is taken now, which is never in the future
     # and keeps its order among today's other readings. An earlier day's is taken at noon, site time: its
@@ -942,7 +970,6 @@ def work_order_finish(
     # see it on the day the work was done; noon also ends the night before (calc.night_of), so it comes after
     # that night's observing, as daytime work does.
     taken_at = now if day == today else dt.datetime.combine(day, dt.time(12), tzinfo=site.zone)
-    items = list(order.items.select_related("subsystem", "plan"))
     with transaction.atomic():
         lacking = hazards_missing(order)  # read while the order is still underway
         claimed = WorkOrder.objects.filter(pk=order.pk, state=State.UNDERWAY).update(
