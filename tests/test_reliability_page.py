@@ -328,6 +328,8 @@ def test_the_page_says_where_each_kinds_hours_were_counted_from(record, client):
     page = client.get(reverse("site-reliability", args=[record.slug])).content.decode()
     assert "counted from the in-service date given (1), the plans&#x27; earliest counting-from date (2)" in page
     assert "T1: Fan B: from 01 Feb 2026 (the in-service date given)" in page
+    # The retired fan is named with its retire day: a replacement often takes the old unit's name.
+    assert "T1: Fan C (retired on 01 Feb 2026): from 01 Jan 2026" in page
     assert "counted from the plans&#x27; earliest counting-from date</summary>" in page  # the encoder
     assert "its &quot;in service since&quot; date where one is given" not in page  # written as text, not escaped
     assert 'its "in service since" date where one is given' in page

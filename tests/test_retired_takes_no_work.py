@@ -439,3 +439,17 @@ def test_an_order_on_a_subsystem_retired_before_it_was_issued_is_said_to_be_with
         _finish(order, users, issued)
     assert not ServiceRecord.objects.exists()
 
+
+
+def test_a_new_units_page_names_the_retired_units_of_its_kind(scene, old_fans, users, client):  # noqa: F811
+    """The last notes: a new unit's page did not name the unit it replaced (``registry.services.predecessors_of``),
+    whose records and failures stay on its own page."""
+    new = Subsystem.objects.create(telescope=old_fans.telescope, kind="cooling_fans", name="Fans")
+    other = Subsystem.objects.create(telescope=old_fans.telescope, kind="cooling_fans", name="Tube fan")
+    client.force_login(users["viewer"])
+    for unit in (new, other):  # the one of the same name alone; the other, of another name, gets the kind's
+        page = client.get(unit.get_absolute_url()).content.decode()
+        assert (f'Retired, of its kind (cooling fans and filters) on F50: <a href="{old_fans.get_absolute_url()}">Fans'
+                f"</a> (retired on {old_fans.retired_on:%d %b %Y}).") in page
+    page = client.get(old_fans.get_absolute_url()).content.decode()
+    assert 'id="predecessors"' not in page  # a retired unit names its successors instead

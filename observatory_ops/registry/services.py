@@ -136,6 +136,20 @@ def successors_of(subsystem: Subsystem) -> list[Subsystem]:
     return same_name or found
 
 
+def predecessors_of(subsystem: Subsystem) -> list[Subsystem]:
+    """The retired subsystems of ``subsystem``'s kind on its telescope, the last retired first: the units it may have
+    replaced, whose records and failures stay with them (the reliability page counts them beside it). Those of the
+    same name come alone when there are any, as in ``successors_of``; none for the kind "Other", nor for a retired
+    subsystem (its page names its successors)."""
+    if subsystem.kind == _NO_SUCCESSOR_KIND or subsystem.retired_on is not None:
+        return []
+    found = list(Subsystem.objects.filter(telescope=subsystem.telescope_id, kind=subsystem.kind,
+                                          retired_on__isnull=False)
+                 .exclude(pk=subsystem.pk).select_related("telescope").order_by("-retired_on", "name"))
+    same_name = [other for other in found if name_key(other.name) == name_key(subsystem.name)]
+    return same_name or found
+
+
 def retired_work_problem(subsystem: Subsystem, day: dt.date, what: str) -> str | None:
     """Why ``what`` ("Service work", "A reading") dated ``day`` is refused on ``subsystem``: it was retired before that
     day, so no longer in service, its plans no longer counted and the reliability page leaving out its failures after

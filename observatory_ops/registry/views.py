@@ -111,6 +111,7 @@ def subsystem_detail(request, pk):
             "children": subsystem.children.in_service(),
             # Where its work goes now, when retired; before retiring, the orders retiring would leave open.
             "successors": services.successors_of(subsystem) if subsystem.retired_on else [],
+            "predecessors": services.predecessors_of(subsystem),  # in service: the units of its kind it may replace
             "open_orders": [] if subsystem.retired_on else _open_orders_of_it_and_parts(subsystem),
             "today": site_today(subsystem.telescope.site),  # the retire form's day, and its latest
             "hazard_labels": [HAZARDS.get(h, h) for h in subsystem.hazards],

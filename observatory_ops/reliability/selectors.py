@@ -87,6 +87,7 @@ class Start:
     day: dt.date
     basis: str  # one of START_BASES
     hours: float | None = None  # its counted operating hours (within the period, when one is chosen); None: not yet
+    retired_on: dt.date | None = None  # said beside it: its replacement often takes its name, and both are listed
 
 
 #: Why a failure is left out of its subsystem's failures, MTBF and fit (``left_out_reason``).
@@ -463,7 +464,7 @@ def site_reliability(site: Site, today: dt.date | None = None, period: Period | 
         base = hours_before(key, max(start.day, first) if first else start.day)
         counted_until = hours_before(key, end)
         total = max(counted_until - base, 0.0)
-        row.starts.append(replace(start, hours=total))
+        row.starts.append(replace(start, hours=total, retired_on=retired_on))
         failed, replaced_unit = [], 0
         for failure in sorted(repaired, key=lambda f: (f.night, f.order_number)):
             reason = left_out_reason(failure.night, start, own_first, retired_on)
