@@ -188,3 +188,34 @@ def test_a_month_whose_logged_nights_were_never_dark_says_so_rather_than_too_few
     june, july = night_costs(site, dt.date(2026, 6, 30), 2)
     assert (june.prior, june.dark_hours) == (PRIOR_NO_DARK_LOGGED, 8)
     assert (july.prior, july.dark_hours) == (PRIOR_TOO_FEW_NIGHTS, 8)
+
+
+def test_a_window_whose_realignment_has_no_dark_night_says_its_star_checks_wait(client, users, telescope):
+    """Far from the equator in summer the cheapest windows lie on nights without astronomical darkness (they cost
+    nothing to lose), realignment and all; its checks on stars need a dark night or a bright star in twilight, which
+    the cost does not say (the last notes left it alone). The flat invented sky of the test above, its first 40
+    coming nights without darkness."""
+    from observatory_ops.mirrors.services import recoat_windows
+
+    site = telescope.site
+    today = site_today(site)
+    mirror = mirror_under_a_flat_sky(telescope, today - dt.timedelta(days=30), 120)
+    undark_until = today + dt.timedelta(days=39)
+    NightSky.objects.filter(site=site, night__gte=today, night__lte=undark_until).update(
+        dark_hours=0, moonless_dark_hours=0)
+    found = recoat_windows(mirror, today, 70, list(RECOAT_PHASES))["windows"]
+    assert found
+    for window in found:
+        realignment = next(p for p in window["phases"] if p["phase"].work == "realignment")
+        if realignment["last"] <= undark_until:
+            assert window["realignment_undark"] == realignment
+        else:
+            assert window["realignment_undark"] is None
+    first = found[0]
+    assert first["realignment_undark"] is not None  # the cheapest: nothing to lose on those nights
+    client.force_login(users["viewer"])
+    page = html.unescape(client.get(reverse("mirror-recoat", args=[mirror.pk]),
+                                    {**PHASES, "start": today.isoformat(), "horizon_days": "70"}).content.decode())
+    first_night, last_night = first["realignment_undark"]["first"], first["realignment_undark"]["last"]
+    assert (f"no astronomical darkness on the realignment's nights ({first_night:%d %b} to {last_night:%d %b %Y}): "
+            "its checks on stars wait for a dark night, or are done on a bright star in twilight") in page

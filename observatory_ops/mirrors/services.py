@@ -1096,13 +1096,27 @@ def recoat_windows(mirror: Mirror, start: dt.date, horizon_days: int, phases: li
                        .order_by("starts_on", "pk"))
     due = recoat_due(mirror)
     committed = _recoats_planned_at(site, mirror, start, start + dt.timedelta(days=horizon_days))
+    dark_hours = {c.night: c.dark_hours for c in costs}
     for window in found:  # a window starting after the recoat plan is due: the due list shows it overdue by then
         window["late"] = bool(due and due.forecast_date and window["start"] > due.forecast_date)
         end = window["start"] + dt.timedelta(days=window["nights"] - 1)
         window["crew_committed"] = [p for p in committed if p.out.first <= end and window["start"] <= p.out.last]
+        window["realignment_undark"] = _realignment_without_darkness(window["phases"], dark_hours)
     return {"windows": found, "days": days, "calendar": calendar, "lead_blanks": range(lead), "due": due,
             "committed": committed, "booked_runs": booked_runs, "days_off": days_off,
             "crew_rest_days": windows.weekdays_text(windows.EVERY_DAY - crew)}
+
+
+def _realignment_without_darkness(laid: list[dict], dark_hours: dict[dt.date, float | None]) -> dict | None:
+    """The realignment phase among ``laid`` (a window's phases on their days) when none of its nights has astronomical
+    darkness (far from the equator in summer), else None: its checks on stars wait for the first dark night after it,
+    or are done in twilight on a bright star, and the window's cost (nothing for such nights) does not say so."""
+    for p in laid:
+        if p["phase"].work == "realignment":
+            nights = [p["first"] + dt.timedelta(days=i) for i in range((p["last"] - p["first"]).days + 1)]
+            known = nights and all(n in dark_hours for n in nights)  # the horizon's nights: beyond it, unknown
+            return p if known and not any(dark_hours[n] for n in nights) else None
+    return None
 
 
 # --- recoat plans -----------------------------------------------------------------------------------
