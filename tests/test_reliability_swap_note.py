@@ -125,5 +125,6 @@ def test_the_page_says_it_beside_the_kind_and_lists_each_subsystems_hours(swappe
     assert f"T1: Fan A: 3 failures and about 295 h before its in-service date 01 Mar 2026 are left out {ADVICE}" in page
     assert 'id="before-in-service-cooling_fans"' in page
     assert "T1: Fan A: from 01 Mar 2026 (the in-service date given), 205 h" in page
-    assert "T1: Fan B: from 01 Jan 2026 (the plans' earliest counting-from date), 295 h" in page
+    assert ("T1: Fan B (retired on 01 Mar 2026): from 01 Jan 2026 (the plans' earliest counting-from date), "
+            "295 h") in page
     assert "705 h in all" in page
