@@ -13,14 +13,14 @@ _OURS = ("registry", "logbook", "planning", "workorders", "mirrors", "api")
 #: those below: subsystems are retired, records are append-only.
 _ENGINEER_EDITS = {
     "registry": ("site", "telescope", "subsystem", "crewdayoff"),
-    "planning": ("serviceplan", "trigger", "bookedrun"),
+    "planning": ("serviceplan", "trigger", "bookedrun", "closure"),
     "workorders": ("part", "isolationpoint"),
     "mirrors": ("mirror", "coatingevent", "cleaningevent"),
 }
-#: What an engineer deletes: a crew day off listed by mistake or no longer off is a setting, not a record; a
-#: night stored by mistake (sent under the wrong telescope, a test telescope's) is removed with a reason and its
-#: site recomputed (``logbook.services.nights_remove``). The history keeps both all the same.
-_ENGINEER_DELETES = {"registry": ("crewdayoff",), "logbook": ("nightusage",)}
+#: What an engineer deletes: a crew day off or a closure listed by mistake or called off is a setting, not a record;
+#: a night stored by mistake (sent under the wrong telescope, a test telescope's) is removed with a reason and its
+#: site recomputed (``logbook.services.nights_remove``). The history keeps them all the same.
+_ENGINEER_DELETES = {"registry": ("crewdayoff",), "logbook": ("nightusage",), "planning": ("closure",)}
 
 
 def role_permissions(role: str, all_permissions) -> list:

@@ -68,7 +68,7 @@ def nights_post(request, site):
     # The three counts stay as they were (control software reads them); by_telescope says whose nights they are.
     # "check": nights stored as sent whose open hours exceed the night at the site, for the operator to look at.
     return JsonResponse({"created": report.created, "updated": report.updated, "unchanged": report.unchanged,
-                         "by_telescope": report.by_telescope, "check": report.longer_than_the_night})
+                         "by_telescope": report.by_telescope, "check": report.to_check})
 
 
 @api_token_required("GET")

@@ -29,6 +29,11 @@ class TriggerState:
     basis: str = ""
     rising: bool = True  # False for a reading that falls toward its limit (reflectance, pressure)
     unit: str = ""
+    #: A counter's log behind by many nights: the first night it counts that is not logged, and how many from it to
+    #: yesterday (its value is the logged nights' alone; the forecast counts these at the expected rate). None / 0:
+    #: not said.
+    unlogged_from: dt.date | None = None
+    unlogged_nights: int = 0
 
     @property
     def reached(self) -> bool:

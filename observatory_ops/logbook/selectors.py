@@ -64,6 +64,37 @@ def last_nights(site: Site) -> list[NightUsage]:
 LONGER_THAN_THE_NIGHT_H = 2.0
 
 
+def nights_while_out(site: Site, nights: list[NightUsage]) -> list[str]:
+    """A sentence for each of ``nights`` with hours open on a night its telescope (or the whole site, for a row of the
+    site's) does not observe: a closure of it (``planning.models.Closure``), or every subsystem of the telescope
+    retired before that night. Stored as sent all the same (the log is what was sent): a closure called off, or
+    control software left sending for a telescope taken down, is best seen (a review of long downtime sent a retired
+    telescope's night and heard nothing)."""
+    from observatory_ops.planning.models import Closure
+    from observatory_ops.registry.selectors import telescopes_taken_down
+
+    used = [n for n in nights if n.open_hours and n.open_hours > 0]
+    if not used:
+        return []
+    first, last = min(n.night for n in used), max(n.night for n in used)
+    closures = list(Closure.objects.filter(site=site, first_night__lte=last, last_night__gte=first)
+                    .select_related("telescope"))
+    taken_down = telescopes_taken_down(site)  # telescope id -> the last retire day
+    said = []
+    for night in sorted(used, key=lambda n: (n.night, n.telescope_id or 0)):
+        whose = night.telescope.name if night.telescope_id else "the whole site"
+        head = f"{whose}, night of {night.night:%d %b %Y}: {night.open_hours:g} h open"
+        closure = next((c for c in closures if c.first_night <= night.night <= c.last_night and (
+            c.telescope_id is None or c.telescope_id == night.telescope_id)), None)
+        if closure is not None:
+            said.append(f"{head} while {closure.whose} is closed ({closure.reason}, {closure.first_night:%d %b} to "
+                        f"{closure.last_night:%d %b %Y}): if it observed, change the closure")
+        elif night.telescope_id in taken_down and night.night > (retired := taken_down[night.telescope_id]):
+            said.append(f"{head} though every subsystem of {whose} was retired by {retired:%d %b %Y}: check what sends "
+                        "its nights")
+    return said
+
+
 def nights_longer_than_the_night(site: Site, nights: list[NightUsage], now: dt.datetime | None = None) -> list[str]:
     """A sentence for each of ``nights`` whose open hours exceed that night at the site (sunset to sunrise, from the
     sky cache, ``planning.models.NightSky``) by more than ``LONGER_THAN_THE_NIGHT_H``; nights the cache

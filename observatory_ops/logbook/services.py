@@ -28,7 +28,7 @@ from observatory_ops.registry.services import retired_work_problem
 from . import nights_csv
 from .models import NightUsage, Reading, ServiceRecord
 from .quantities import QUANTITIES, value_problem
-from .selectors import nights_longer_than_the_night
+from .selectors import nights_longer_than_the_night, nights_while_out
 
 #: The columns that say which night a record is (the site's, or one telescope's), not what was used in it.
 _KEY_COLUMNS = ("night", "telescope")
@@ -141,6 +141,17 @@ class ImportReport:
         return nights_longer_than_the_night(*self.checked_on) if self.checked_on else []
 
     @property
+    def while_out(self) -> list[str]:
+        """The nights stored, or to be stored once confirmed, with hours open while their telescope (or the site) is
+        closed or retired (``selectors.nights_while_out``): stored as sent, and named."""
+        return nights_while_out(*self.checked_on) if self.checked_on else []
+
+    @property
+    def to_check(self) -> list[str]:
+        """Every night the import names to check: longer than the night, or open while out of service."""
+        return [*self.longer_than_the_night, *self.while_out]
+
+    @property
     def summary(self) -> str:
         if self.file_problem:
             return f"{self.file_problem}. Nothing was stored."
@@ -159,6 +170,9 @@ class ImportReport:
             if long := self.longer_than_the_night:
                 text += (f". Check {len(long)} night{pluralize(len(long))} longer than the night before storing "
                          f"(correct the file and import it again): {'; '.join(long)}")
+            if out := self.while_out:
+                text += (f". Check {len(out)} night{pluralize(len(out))} open while out of service: "
+                         f"{'; '.join(out)}")
             return f"{text}."
         text = (f"{self.created} new{self._whose('created')}, {self.updated} updated{self._whose('updated')}, "
                 f"{self.unchanged} unchanged{self._whose('unchanged')}")
@@ -169,6 +183,9 @@ class ImportReport:
         if long := self.longer_than_the_night:
             text += (f". Check {len(long)} night{pluralize(len(long))} longer than the night, stored as sent (send a "
                      f"night again to correct it): {'; '.join(long)}")
+        if out := self.while_out:
+            text += (f". Check {len(out)} night{pluralize(len(out))} open while out of service, stored as sent: "
+                     f"{'; '.join(out)}")
         return f"{text}.{self._said_once_sentence} {self.uncounted_note}".strip()
 
     @property

@@ -26,7 +26,7 @@ from observatory_ops.logbook.models import Reading, ServiceRecord
 from observatory_ops.logbook.quantities import reflectance_text
 from observatory_ops.logbook.services import date_problem, reading_withdraw, service_record_log, withdrawn_mark
 from observatory_ops.planning import metrics
-from observatory_ops.planning.models import BookedRun, NightSky, ServicePlan
+from observatory_ops.planning.models import BookedRun, Closure, NightSky, ServicePlan
 from observatory_ops.planning.services import (
     Downtime,
     UsageLog,
@@ -623,6 +623,9 @@ class NightCost:
     #: Why ``open_fraction`` is the prior (``calc.forecast.PRIOR_OPEN_FRACTION``), as the planner says it; "" when it
     #: is the month's own, from past years' nights.
     prior: str = ""
+    #: The closure the night falls in ("F50 closed: mount overhaul", ``planning.models.Closure``): nothing is observed,
+    #: so nothing is lost; "" when none.
+    closed: str = ""
 
 
 #: Why a month's open fraction is the prior (``calc.forecast.monthly_open_fraction``), as the recoat planner says it.
@@ -659,20 +662,29 @@ def night_costs(site: Site, start: dt.date, horizon_days: int, telescope: Telesc
     moonless = np.array([n.moonless_dark_hours for n in sky])
     cost = windows.night_cost(moonless, per_night_fraction, expensive, BOOKED_WEIGHT)
     cost = np.where(blocked, np.inf, cost)
+    # A night of a closure of the telescope (or of the whole site) loses nothing: it would not be observed.
+    closed = ["" for _ in sky]
+    for closure in Closure.objects.filter(site=site, first_night__lte=end, last_night__gte=start).filter(
+            Q(telescope__isnull=True) | Q(telescope=telescope)).select_related("telescope"):
+        for i, night in enumerate(sky):
+            if closure.first_night <= night.night <= closure.last_night:
+                closed[i], cost[i] = f"{closure.whose} closed: {closure.reason}", 0.0
     return [
         NightCost(n.night, n.moon_illumination, n.moonless_dark_hours, float(per_night_fraction[i]),
-                  booked_name[i], float(cost[i]), dark_hours=n.dark_hours, prior=prior[n.night.month - 1])
+                  booked_name[i], float(cost[i]), dark_hours=n.dark_hours, prior=prior[n.night.month - 1],
+                  closed=closed[i])
         for i, n in enumerate(sky)
     ]
 
 
 def hours_lost(site: Site, first: dt.date, last: dt.date, telescope: Telescope | None = None) -> float:
     """The usable moonless open hours lost by taking ``telescope`` (or the site) out of service on the nights ``first``
-    to ``last``, both counted: each night's moonless dark hours x its month's open fraction (``night_costs``), a
+    to ``last``, both counted: each night's moonless dark hours x its month's open fraction (``night_costs``; nothing
+    on a night of a closure), a
     booked run's nights at their own hours: not the planner's price of a window, which weighs a booked night
     ``BOOKED_WEIGHT`` times to steer clear of it (the runs on these nights are named beside the figure instead)."""
     nights = night_costs(site, first, (last - first).days + 1, telescope)
-    return float(sum(n.moonless_dark_hours * n.open_fraction for n in nights))
+    return float(sum(n.moonless_dark_hours * n.open_fraction for n in nights if not n.closed))
 
 
 def with_days_out(plans: list[RecoatPlan], today: dt.date) -> list[RecoatPlan]:
@@ -1082,7 +1094,7 @@ def recoat_windows(mirror: Mirror, start: dt.date, horizon_days: int, phases: li
     calendar = [
         {"night": c.night, "cost": c.cost, "moon": c.moon_illumination, "booked": c.booked,
          "moonless": c.moonless_dark_hours, "open_fraction": c.open_fraction, "dark_hours": c.dark_hours,
-         "prior": c.prior,
+         "prior": c.prior, "closed": c.closed,
          "weight": BOOKED_WEIGHT if c.booked and np.isfinite(c.cost) else None,
          "shade": min(c.cost / worst, 1.0) if np.isfinite(c.cost) else 1.0,
          "blocked": not np.isfinite(c.cost), "chosen": c.night in chosen,

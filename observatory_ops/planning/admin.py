@@ -13,7 +13,7 @@ from observatory_ops.registry.forms import ChoicesNamedWithSite, HazardsField, P
 from observatory_ops.registry.models import Site
 from observatory_ops.workorders.models import listed
 
-from .models import BookedRun, ServicePlan, Trigger
+from .models import BookedRun, Closure, ServicePlan, Trigger
 from .selectors import not_computed_reason
 from .services import site_recompute, site_today
 
@@ -196,3 +196,17 @@ class BookedRunAdmin(SimpleHistoryAdmin):
         prefetch_related_objects([o.plan for o in over], "work_orders")
         for clash in over:
             self.message_user(request, clash.admin_text, messages.WARNING)
+
+
+@admin.register(Closure)
+class ClosureAdmin(ChoicesNamedWithSite, RecomputesSite, SimpleHistoryAdmin):
+    """Nights a telescope or the whole site does not observe (a season shut, an overhaul): saved, changed or deleted,
+    its site is recomputed, the forecasts expecting no use on its nights (``planning.models.Closure``)."""
+
+    list_display = ("site", "whose", "first_night", "last_night", "reason")
+    list_filter = ("site",)
+    site_path = "site"
+
+    @admin.display(description="Closes")
+    def whose(self, obj: Closure) -> str:
+        return obj.whose

@@ -23,8 +23,10 @@ from observatory_ops.logbook.quantities import (
 )
 from observatory_ops.registry.catalogue import KINDS
 from observatory_ops.registry.models import (
+    EARLIEST_IN_SERVICE,
     Site,
     Subsystem,
+    Telescope,
     name_alike,
     named_anew,
     text_newlines_normalised,
@@ -529,6 +531,75 @@ class BookedRun(models.Model):
     def clean(self) -> None:
         if self.ends_on < self.starts_on:
             raise ValidationError({"ends_on": "A run cannot end before it starts."})
+
+
+#: The longest closure taken, in nights: a telescope out for longer is retired (its subsystems), not closed.
+CLOSURE_NIGHTS_MAX = 731
+
+
+class Closure(models.Model):
+    """Nights a telescope, or the whole site, does not observe for a reason other than the weather: a winter season
+    shut, a mount overhaul. Its nights count no use (``planning.services._downtime_by_telescope``: those not logged,
+    and the whole site's rows standing in for a telescope closed alone), and they are left out of the history the
+    months' open fractions and the forecasts' spread are made from (``UsageLog.closed``): a closure is not weather.
+    Calendar limits run on: grease ages in a shut dome. A night is named by the evening's date, as in the log."""
+
+    history = HistoricalRecords()  # who changed what, when: see observatory_ops/archive
+    site = models.ForeignKey(Site, on_delete=models.CASCADE, related_name="closures")
+    telescope = models.ForeignKey(
+        Telescope, on_delete=models.CASCADE, null=True, blank=True, related_name="closures",
+        help_text="Empty: the whole site is closed, every telescope and the enclosure.")
+    first_night = models.DateField(help_text="The first night not observed, named by the evening's date.")
+    last_night = models.DateField(help_text="The last night not observed; observing starts again the night after.")
+    reason = models.CharField(max_length=200, validators=[validate_one_line],
+                              help_text="Said with every forecast it moves, such as \"winter shutdown\" or \"mount "
+                                        "overhaul\".")
+
+    class Meta:
+        ordering = ["site", "first_night", "pk"]
+
+    def __str__(self) -> str:
+        return f"{self.whose} closed {self.first_night:%d %b %Y} to {self.last_night:%d %b %Y}: {self.reason}"
+
+    @property
+    def whose(self) -> str:
+        """"F50" or "the whole site"."""
+        return self.telescope.name if self.telescope_id else "the whole site"
+
+    @property
+    def nights(self) -> int:
+        return (self.last_night - self.first_night).days + 1
+
+    def covers(self, telescope_id: int | None) -> bool:
+        """Whether it closes ``telescope_id`` (None: the site's own log, closed only by a whole-site closure)."""
+        return self.telescope_id is None or self.telescope_id == telescope_id
+
+    def clean(self) -> None:
+        """Its nights in order, within bounds, its telescope the site's, and no other closure of the same
+        telescope or of the whole site on any of its nights (two would be counted as one, and said twice)."""
+        errors = {}
+        for name in ("first_night", "last_night"):
+            day = getattr(self, name)
+            if day is not None and day < EARLIEST_IN_SERVICE:
+                errors[name] = f"{day.isoformat()} looks mistyped: give a date from {EARLIEST_IN_SERVICE:%Y} on."
+        if errors:
+            raise ValidationError(errors)
+        if self.first_night and self.last_night:
+            if self.last_night < self.first_night:
+                raise ValidationError({"last_night": "The last night comes before the first night."})
+            if self.nights > CLOSURE_NIGHTS_MAX:
+                raise ValidationError({"last_night": (
+                    f"{self.nights:,} nights is longer than {CLOSURE_NIGHTS_MAX:,}: a telescope out for good is "
+                    "retired (its subsystems, on their pages), not closed.")})
+        if self.telescope_id and self.site_id and self.telescope.site_id != self.site_id:
+            raise ValidationError({"telescope": f"{self.telescope.name} is not at {self.site.name}."})
+        if self.site_id and self.first_night and self.last_night:
+            others = Closure.objects.filter(site=self.site_id, first_night__lte=self.last_night,
+                                            last_night__gte=self.first_night).exclude(pk=self.pk)
+            if self.telescope_id:
+                others = others.filter(models.Q(telescope__isnull=True) | models.Q(telescope=self.telescope_id))
+            if clash := others.select_related("telescope").first():
+                raise ValidationError(f"Its nights overlap another closure: {clash}. Change that one, or these dates.")
 
 
 class DigestSent(models.Model):

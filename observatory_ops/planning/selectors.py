@@ -669,3 +669,21 @@ def reading_trend(
     crossing = None if fit.crossing_day is None else start + fit.crossing_day
     return plots.TrendLine(start, start + last, fit.value_at(0.0), fit.slope_per_day, crossing,
                            trend_date(origin, fit.crossing_day, zone))
+
+
+#: How long after its last night a closure is still listed on the dashboard.
+CLOSURE_LISTED_AFTER_DAYS = 30
+
+
+def closures_listed(site, today: dt.date) -> list:
+    """The site's closures under way, coming, or ended in the last ``CLOSURE_LISTED_AFTER_DAYS`` days, the earliest
+    first, each with ``state``: "under way", "coming" or "ended" (the dashboard lists them)."""
+    from .models import Closure
+
+    since = today - dt.timedelta(days=CLOSURE_LISTED_AFTER_DAYS)
+    closures = list(Closure.objects.filter(site=site, last_night__gte=since).select_related("telescope")
+                    .order_by("first_night", "pk"))
+    for closure in closures:
+        closure.state = ("ended" if closure.last_night < today else "coming" if closure.first_night > today
+                         else "under way")
+    return closures

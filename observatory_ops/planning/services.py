@@ -185,6 +185,9 @@ class UsageLog:
     own_nights: int = 0  # of ``nights``, those of the telescope's own rows
     own: np.ndarray | None = None  # True on the telescope's own rows; None: the site's rows alone
     others_send_own: bool = False  # the site's rows alone, at a site where some telescope sends nights of its own
+    # True on the nights of a closure of the whole site, or of the log's telescope (``planning.models.Closure``): left
+    # out of the history the open fractions and the spread are made from. None: no closure on any logged night.
+    closed: np.ndarray | None = None
 
     @property
     def whose(self) -> str:
@@ -208,14 +211,32 @@ class UsageLog:
     def of_site(cls, site: Site) -> dict[int | None, UsageLog]:
         """Every log of ``site`` in one query: telescope id -> the log of a telescope with rows of its own, and
         None -> the site's rows alone, the log of every other telescope."""
-        return cls._split(NightUsage.objects.filter(site=site))
+        return cls._with_closures(cls._split(NightUsage.objects.filter(site=site)), site)
 
     @classmethod
     def for_telescope(cls, telescope) -> UsageLog:
-        logs = cls._split(NightUsage.objects.filter(site=telescope.site_id).filter(
+        logs = cls._with_closures(cls._split(NightUsage.objects.filter(site=telescope.site_id).filter(
             Q(telescope=telescope) | Q(telescope__isnull=True)
-        ))
+        )), telescope.site_id)
         return logs.get(telescope.pk, logs[None])
+
+    @staticmethod
+    def _with_closures(logs: dict[int | None, UsageLog], site) -> dict[int | None, UsageLog]:
+        """Each log with its ``closed`` nights: those of the site's closures that close its telescope (the site's own
+        log: the whole site's closures alone)."""
+        from .models import Closure
+
+        closures = list(Closure.objects.filter(site=site).values_list("telescope_id", "first_night", "last_night"))
+        if not closures:
+            return logs
+        out = {}
+        for key, log in logs.items():
+            closed = np.zeros(len(log.nights), dtype=bool)
+            for telescope_id, first, last in closures:
+                if telescope_id is None or telescope_id == key:
+                    closed |= (log.nights >= np.datetime64(first, "D")) & (log.nights <= np.datetime64(last, "D"))
+            out[key] = replace(log, closed=closed) if closed.any() else log
+        return out
 
     @classmethod
     def site_wide(cls, site: Site) -> UsageLog:
@@ -313,6 +334,7 @@ class UsageModel:
     pm10_nights: int = 0  # open nights with PM10 measured
     spread_months: int = 0  # complete months the spread was measured from; 0: the prior spread
     unlogged_nights: int = 0  # past nights from ``first_day`` to yesterday, none logged: counted as expected
+    closed_nights: int = 0  # logged nights of closures, left out of the history (``UsageLog.closed``)
     whose: str = "this site's"  # the log's owner (``UsageLog.whose``)
     log_note: str = ""  # what the log is made of (``UsageLog.note``)
     rates_from: str = "this site's log"  # the nights ``per_open_hour`` is taken over, as the basis says them
@@ -354,6 +376,9 @@ class UsageModel:
                       "hours, or with none: twilight, a sky never fully dark): each coming night of such a month at "
                       "its mean open hours a logged night")
         basis += f"; {band}"
+        if self.closed_nights:
+            basis += (f"; the {self.closed_nights:,} logged night{'s' if self.closed_nights != 1 else ''} of closures "
+                      "left out of the open fractions and the spread (a closure is not the weather)")
         if self.unlogged_nights > UNLOGGED_NIGHTS_SAID:
             last = self.first_day - dt.timedelta(days=1)
             basis += (f"; no night logged since {last:%d %b %Y}: the {self.unlogged_nights} nights since are counted "
@@ -429,8 +454,10 @@ def usage_model(site: Site, log: UsageLog, first_day: dt.date, days: int) -> Usa
     past_dark = sky[(log.nights - np.datetime64(start, "D")).astype(int)]
     past_months = log.nights.astype("datetime64[M]").astype(int) % 12 + 1
     open_h = log.columns["open_hours"]
-    fraction, from_history = forecast.monthly_open_fraction(past_months, open_h, past_dark)
-    per_night, by_night = forecast.monthly_use_by_night(past_months, open_h, past_dark)
+    # The history leaves out the nights of closures (``UsageLog.closed``): a season shut is not the weather's.
+    weather = ~log.closed if log.closed is not None else np.ones(len(log.nights), dtype=bool)
+    fraction, from_history = forecast.monthly_open_fraction(past_months[weather], open_h[weather], past_dark[weather])
+    per_night, by_night = forecast.monthly_use_by_night(past_months[weather], open_h[weather], past_dark[weather])
 
     coming = np.datetime64(first_day, "D") + np.arange(days)
     months = coming.astype("datetime64[M]").astype(int) % 12 + 1
@@ -459,7 +486,7 @@ def usage_model(site: Site, log: UsageLog, first_day: dt.date, days: int) -> Usa
     # takes the site's overall means, and a site with fewer such nights in all counts as clean air, so one dusty
     # night cannot set a month.
     month_pm10, month_excess = np.full(12, np.nan), np.zeros(12)
-    measured = ~np.isnan(log.pm10) & (open_h > 0)
+    measured = ~np.isnan(log.pm10) & (open_h > 0) & weather
     pm10_nights = np.bincount(past_months[measured] - 1, minlength=12)[:12]
     if pm10_nights.sum() >= forecast.MIN_NIGHTS_FOR_HISTORY:
         own = pm10_nights >= forecast.MIN_NIGHTS_FOR_HISTORY
@@ -475,7 +502,7 @@ def usage_model(site: Site, log: UsageLog, first_day: dt.date, days: int) -> Usa
     keys = log.nights.astype("datetime64[M]").astype(int)  # months since 1970-01: one per (year, month)
     unlogged = min([np.datetime64(first_day, "D"), *log.nights[-1:] + 1])
     first_incomplete = int(unlogged.astype("datetime64[M]").astype(int))
-    actual, expected = forecast.months_left_out(keys, open_h, past_dark, first_incomplete)
+    actual, expected = forecast.months_left_out(keys[weather], open_h[weather], past_dark[weather], first_incomplete)
     spread = forecast.monthly_spread(actual, expected)
     compared = int((expected > 0).sum())
     spread_months = compared if compared >= forecast.MIN_MONTHS_FOR_SPREAD else 0  # fewer: the prior (as above)
@@ -500,6 +527,7 @@ def usage_model(site: Site, log: UsageLog, first_day: dt.date, days: int) -> Usa
         pm10_nights=int(pm10_nights.sum()),
         whose=log.whose,
         log_note=log.note,
+        closed_nights=int((~weather).sum()),
     )
 
 
@@ -652,8 +680,9 @@ def _site_recompute(site: Site, today: dt.date) -> int:
     ])
 
     downtime = _downtime_by_telescope(site, today)
+    alone = closed_alone(site) if downtime else {}
     if downtime and any(p.whole_site for p in plans):
-        downtime[ALL_OUT] = _all_out(downtime, list(site.telescopes.values_list("pk", flat=True)))
+        downtime[ALL_OUT] = _all_out(downtime, telescopes_observing(site))
     states: dict[int, list[TriggerState]] = {p.pk: [] for p in plans}
     groups: dict[tuple, list[tuple]] = {}  # (log, metric, dust sensitivity, telescope out) -> [(plan, trigger)]
     for plan in plans:
@@ -694,6 +723,8 @@ def _site_recompute(site: Site, today: dt.date) -> int:
         ahead = max((today - first_day).days, 0)  # the model's day index of today: "the next month" starts there
         since = _day_array(baselines[p.pk] for p, _ in members)
         per_night = log.per_night(metric, sens)
+        if out in alone:  # a telescope closed alone counts none of the site's use logged on those nights
+            per_night = zero_closed_alone(log, per_night, alone[out])
         values = exposure.accumulated_since(log.nights, per_night, since)
         limits = np.array([t.limit for _, t in members], dtype=float)
         reached = exposure.reached_on(log.nights, per_night, since, limits)  # the night a limit was passed
@@ -727,6 +758,8 @@ def _site_recompute(site: Site, today: dt.date) -> int:
                     basis=(_counted_nights(baselines[plan.pk], log_ends) + basis
                            + _before_the_log(baselines[plan.pk], log_begins) + unlogged),
                     unit=metrics.METRICS[metric][1],
+                    **_unlogged_said(model, first_day, baselines[plan.pk], today,
+                                     downtime[out] if out is not None else []),
                 )
             )
 
@@ -760,6 +793,20 @@ def _counted_nights(baseline: dt.date, log_ends: dt.date | None) -> str:
     if log_ends is None or baseline > log_ends:
         return f"now: no night logged since {baseline:%d %b %Y}; coming: "
     return f"now: the logged nights of {baseline:%d %b %Y} to {log_ends:%d %b %Y}, both included; coming: "
+
+
+def _unlogged_said(model: UsageModel, first_day: dt.date, baseline: dt.date, today: dt.date,
+                   downtimes: list[Downtime]) -> dict:
+    """A counter's ``unlogged_from`` and ``unlogged_nights`` (``calc.triggers.TriggerState``): the nights from the first
+    not logged (or its plan's baseline, if later) to yesterday that its forecast counts at the expected rate (those of
+    ``downtimes``, a closure or a recoat, count none), when the log is more than ``UNLOGGED_NIGHTS_SAID`` nights
+    behind; none otherwise."""
+    since = max(first_day, baseline)
+    if model.unlogged_nights <= UNLOGGED_NIGHTS_SAID or since >= today:
+        return {}
+    out = {d.first + dt.timedelta(days=i) for d in downtimes for i in range((d.last - d.first).days + 1)}
+    counted = sum(1 for i in range((today - since).days) if since + dt.timedelta(days=i) not in out)
+    return {"unlogged_from": since, "unlogged_nights": counted} if counted else {}
 
 
 def _reached_unlogged(expected_on: dt.date | None, today: dt.date) -> str:
@@ -976,6 +1023,9 @@ class Downtime:
                 f"{self.last:%d %b %Y}{changed}): {self.out}")
 
 
+#: How a recoat's downtime is named, before its mirror (``recoat_downtime``); the enclosure's names its recoats so.
+RECOAT_WHAT = "the planned recoat of "
+
 #: The key of the downtimes of an enclosure all a site's telescopes share (``_all_out``), beside telescopes' ids.
 ALL_OUT = "all telescopes"
 
@@ -1048,7 +1098,7 @@ def recoat_downtime(plan, today: dt.date) -> Downtime:
         changed.append(f"its mirror {coming} and {said}: out of service up to today")
         last = today
     telescope = plan.mirror.subsystem.telescope.name
-    return Downtime(first, max(first, last), f"the planned recoat of {telescope}: {plan.mirror.subsystem.name}",
+    return Downtime(first, max(first, last), f"{RECOAT_WHAT}{telescope}: {plan.mirror.subsystem.name}",
                     changed="; ".join(changed), late=late, mirror_out=mirror_out)
 
 
@@ -1077,15 +1127,57 @@ def recoats_in_hand(site: Site) -> list:
 
 
 def _downtime_by_telescope(site: Site, today: dt.date) -> dict[int, list[Downtime]]:
-    """The site's telescopes out of service for a recoat in hand (``recoats_in_hand``), each with its downtimes
-    (``recoat_downtime``: its days as its orders now stand), past days too (unlogged nights are counted from the first
-    of them, ``without_downtime``)."""
+    """The site's telescopes out of service for a recoat in hand (``recoats_in_hand``) or closed (``Closure``: its
+    own, or the whole site's), each with its downtimes (``recoat_downtime``: its days as its orders now stand;
+    ``closure_downtime``), past days too (unlogged nights are counted from the first of them, ``without_downtime``)."""
+    from .models import Closure
+
     down: dict[int, list[Downtime]] = {}
     for plan in recoats_in_hand(site):
         down.setdefault(plan.mirror.subsystem.telescope_id, []).append(recoat_downtime(plan, today))
+    closures = list(Closure.objects.filter(site=site).select_related("telescope"))
+    every = list(site.telescopes.values_list("pk", flat=True)) if any(c.telescope_id is None for c in closures) else []
+    for closure in closures:
+        for telescope_id in [closure.telescope_id] if closure.telescope_id else every:
+            down.setdefault(telescope_id, []).append(closure_downtime(closure))
     for downtimes in down.values():
         downtimes.sort(key=lambda d: d.first)
     return down
+
+
+def closure_downtime(closure) -> Downtime:
+    """A closure (``planning.models.Closure``) as the forecasts take it: no use on its nights."""
+    if closure.telescope_id is None:
+        return Downtime(closure.first_night, closure.last_night, f"the closure of the whole site ({closure.reason})",
+                        "nothing is observed")
+    return Downtime(closure.first_night, closure.last_night, f"the closure of {closure.telescope.name} "
+                    f"({closure.reason})", "the telescope does not observe")
+
+
+def closed_alone(site: Site) -> dict[int, list[tuple[dt.date, dt.date]]]:
+    """The nights each telescope of ``site`` is closed on alone (a closure of its own, not the whole site's), as
+    (first, last) spans: the whole site's rows logged on them (the dome open for the others) are not its use
+    (``zero_closed_alone``)."""
+    from .models import Closure
+
+    spans: dict[int, list[tuple[dt.date, dt.date]]] = {}
+    for telescope_id, first, last in Closure.objects.filter(site=site, telescope__isnull=False).values_list(
+            "telescope_id", "first_night", "last_night"):
+        spans.setdefault(telescope_id, []).append((first, last))
+    return spans
+
+
+def zero_closed_alone(log: UsageLog, per_night: np.ndarray, spans: list[tuple[dt.date, dt.date]]) -> np.ndarray:
+    """``per_night`` (a counter's use on each of ``log``'s nights) with 0 on the nights of ``spans`` where the row
+    is the whole site's, not the telescope's own: a telescope closed alone does not use the nights the site logged
+    for the others. Its own rows are kept, as sent."""
+    zeroed = per_night.copy()
+    for first, last in spans:
+        on = (log.nights >= np.datetime64(first, "D")) & (log.nights <= np.datetime64(last, "D"))
+        if log.own is not None:
+            on &= ~log.own
+        zeroed[on] = 0.0
+    return zeroed
 
 
 def downtimes_of(site: Site, telescope_id: int, whole_site: bool, today: dt.date) -> list[Downtime]:
@@ -1093,29 +1185,45 @@ def downtimes_of(site: Site, telescope_id: int, whole_site: bool, today: dt.date
     recoats in hand, or for an enclosure all the site's telescopes share (``whole_site``) the nights all are out."""
     down = _downtime_by_telescope(site, today)
     if whole_site:
-        return _all_out(down, list(site.telescopes.values_list("pk", flat=True))) if down else []
+        return _all_out(down, telescopes_observing(site)) if down else []
     return down.get(telescope_id, [])
 
 
+def telescopes_observing(site: Site) -> list[int]:
+    """The site's telescopes an enclosure they share opens for: not those with every subsystem retired
+    (``registry.selectors.telescopes_taken_down``), which never observe again, so it is closed once the others are out
+    (a review: a telescope taken down kept the enclosure counted open through the others' downtime)."""
+    from observatory_ops.registry.selectors import telescopes_taken_down  # the register's reads build on planning
+
+    taken_down = telescopes_taken_down(site)
+    return [pk for pk in site.telescopes.values_list("pk", flat=True) if pk not in taken_down]
+
+
 def _all_out(downtime: dict[int, list[Downtime]], telescopes: list[int]) -> list[Downtime]:
-    """The runs of nights on which every one of ``telescopes`` (the site's) is out for a recoat in hand, as downtimes
-    of the enclosure they share: nobody opens it then. While one telescope is still in service, the enclosure opens
-    for it and expects its use as before."""
+    """The runs of nights on which every one of ``telescopes`` (the site's) is out (a recoat in hand, a closure), as
+    downtimes of the enclosure they share: nobody opens it then. While one telescope is still in service, the
+    enclosure opens for it and expects its use as before. Each run names what holds the telescopes out on it."""
     if not telescopes or any(t not in downtime for t in telescopes):
         return []
     out = None
     for telescope in telescopes:
         days = {d.first + dt.timedelta(days=i) for d in downtime[telescope] for i in range((d.last - d.first).days + 1)}
         out = days if out is None else out & days
-    recoats = sorted({d.what.removeprefix("the planned recoat of ") for t in telescopes for d in downtime[t]})
-    what = f"the planned recoat{'s' if len(recoats) > 1 else ''} of {' and '.join(recoats)}"
-    runs: list[Downtime] = []
+    spans: list[list[dt.date]] = []
     for day in sorted(out):
-        if runs and runs[-1].last == day - dt.timedelta(days=1):
-            runs[-1] = Downtime(runs[-1].first, day, what, runs[-1].out)
+        if spans and spans[-1][1] == day - dt.timedelta(days=1):
+            spans[-1][1] = day
         else:
-            runs.append(Downtime(day, day, what, "every telescope of the site is out of service, so the enclosure they "
-                                                 "share is not opened"))
+            spans.append([day, day])
+    runs: list[Downtime] = []
+    for first, last in spans:
+        held = [d.what for t in telescopes for d in downtime[t] if d.first <= last and first <= d.last]
+        recoats = sorted({what.removeprefix(RECOAT_WHAT) for what in held if what.startswith(RECOAT_WHAT)})
+        named = [f"{RECOAT_WHAT.replace('recoat', 'recoats') if len(recoats) > 1 else RECOAT_WHAT}"
+                 f"{' and '.join(recoats)}"] if recoats else []
+        named += sorted({what for what in held if not what.startswith(RECOAT_WHAT)})
+        runs.append(Downtime(first, last, " and ".join(named), "every telescope of the site is out of service, so "
+                                                               "the enclosure they share is not opened"))
     return runs
 
 
@@ -1272,6 +1380,11 @@ def reason_text(state: TriggerState) -> str:
         head = f"Reflectance now about {reflectance_text(state.value)}, recoat line {reflectance_text(state.limit)}"
     else:
         head = f"{label}: {state.value:,.0f} of {state.limit:,.0f} {unit}"
+        if state.unlogged_nights and state.unlogged_from:
+            # The value is the logged nights'; the forecast counts the rest as used (a review read "0 of 400 h,
+            # forecast in 12 days" on a log 70 nights behind, and took the figure for the one the date came from).
+            head += (f" logged; {state.unlogged_nights} nights from {state.unlogged_from:%d %b %Y} on, not logged, "
+                     "are counted at the expected rate")
         if state.rate_per_day is not None and state.metric != metrics.CALENDAR_DAYS:
             head += (f", about {rate_text(state.rate_per_day)} {metrics.rate_unit(state.metric, unit)} per day "
                      "expected over the next 30 days")

@@ -3,7 +3,7 @@ from __future__ import annotations
 
 import datetime as dt
 
-from django.db.models import Q
+from django.db.models import Count, Max, Q
 
 from observatory_ops.calc.lifting import tube_mass_warning
 from observatory_ops.logbook.models import NightUsage, Reading, ServiceRecord
@@ -24,6 +24,16 @@ def subsystem_tree(telescope: Telescope) -> list[tuple[Subsystem, list]]:
         return [(s, build(s.pk)) for s in children.get(parent_id, [])]
 
     return build(None)
+
+
+def telescopes_taken_down(site: Site) -> dict[int, dt.date]:
+    """The telescopes of ``site`` with every subsystem retired (and at least one registered), each with the last retire
+    day: taken out of service as a whole. The dashboard says so in place of asking for their subsystems, and a night
+    sent for one after that day is named (``logbook.selectors.nights_while_out``)."""
+    return dict(Telescope.objects.filter(site=site).annotate(
+        units=Count("subsystems"), in_service=Count("subsystems", filter=Q(subsystems__retired_on__isnull=True)),
+        last_retired=Max("subsystems__retired_on")).filter(units__gt=0, in_service=0)
+        .values_list("pk", "last_retired"))
 
 
 def tube_warning(telescope: Telescope) -> str | None:

@@ -9,7 +9,12 @@ from observatory_ops.logbook import selectors as logbook_selectors
 from observatory_ops.mirrors import services as mirror_services
 from observatory_ops.mirrors.models import TRAIN_KINDS
 from observatory_ops.planning import selectors as planning_selectors
-from observatory_ops.planning.services import site_recompute, site_today, sites_bring_up_to_date
+from observatory_ops.planning.services import (
+    UNLOGGED_NIGHTS_SAID,
+    site_recompute,
+    site_today,
+    sites_bring_up_to_date,
+)
 from observatory_ops.workorders import selectors as workorder_selectors
 from observatory_ops.workorders.cautions import HAZARDS
 from observatory_ops.workorders.models import RequiredReading, WorkOrderItem
@@ -17,7 +22,7 @@ from observatory_ops.workorders.models import RequiredReading, WorkOrderItem
 from . import services
 from .forms import RetireForm
 from .models import Site, Subsystem
-from .selectors import open_orders_of, parts_of, subsystem_tree, tube_warning
+from .selectors import open_orders_of, parts_of, subsystem_tree, telescopes_taken_down, tube_warning
 
 
 @requires(VIEWER)
@@ -47,6 +52,10 @@ def site_dashboard(request, slug):
     for status in upcoming:
         status.on_orders = on_orders.get(status.plan_id, [])
     telescopes = [(t, subsystem_tree(t), tube_warning(t)) for t in site.telescopes.all()]
+    taken_down = telescopes_taken_down(site)  # every subsystem retired: not "to register"
+    last_nights = logbook_selectors.last_nights(site)
+    for telescope, _, _ in telescopes:
+        telescope.taken_down_on = taken_down.get(telescope.pk)
     today = site_today(site)
     # Each recoat's nights as its orders now stand, as the forecasts count them, and their cost (with_days_out).
     downtime = mirror_services.with_days_out(mirror_services.downtime_planned(site, today), today)
@@ -65,16 +74,26 @@ def site_dashboard(request, slug):
             "attention_rows": ATTENTION_ROWS,
             "telescopes": telescopes,
             # A site being set up: telescopes with no subsystem in service yet (the page points to where to add them).
-            "bare_telescopes": [t for t, nodes, _ in telescopes if not nodes],
-            "last_nights": logbook_selectors.last_nights(site),
+            "bare_telescopes": [t for t, nodes, _ in telescopes if not nodes and t.pk not in taken_down],
+            "taken_down": taken_down,
+            "last_nights": last_nights,
+            # The log far behind (planning.services.UNLOGGED_NIGHTS_SAID): its unlogged nights are counted as used.
+            "log_behind": behind if (behind := _nights_behind(last_nights, today)) > UNLOGGED_NIGHTS_SAID else 0,
             "recent_service": planning_selectors.recent_service(site)[:8],
             "parts_to_see_to": workorder_selectors.parts_low_or_short(site),
             "telescopes_out": workorder_selectors.telescopes_out([site]).values(),
             "downtime": downtime,
+            "closures": planning_selectors.closures_listed(site, today),
             "recoats_of_retired": mirror_services.recoats_of_retired(site),
             "open_work_orders": _open_orders(site, today),
         },
     )
+
+
+def _nights_behind(last_nights: list, today) -> int:
+    """The nights from the newest logged one to yesterday, none logged (0 when nothing is logged yet)."""
+    newest = max((row.night for row in last_nights), default=None)
+    return max((today - newest).days - 1, 0) if newest else 0
 
 
 def _open_orders(site, today) -> list:
