@@ -443,3 +443,34 @@ def test_a_withdrawal_refused_for_locks_on_says_only_that(order, users, client):
     client.force_login(users["engineer"])
     page = client.get(f"/workorders/{drive_order.pk}/").content.decode()
     assert 'id="withdraw-waits"' in page and 'id="withdraw-hand-back"' not in page
+
+
+def test_work_entered_later_from_paper_is_not_held_by_a_crew_that_started_after_it_was_done(
+    order, fans_order, users, client  # noqa: F811
+):
+    """A review of long downtime entered an overhaul done months before from its paper order, and the finish was
+    refused for a crew that had started that morning. The crews that hold a finish are those at work by the day the
+    work was done (``services._alongside_by``); one started after it was not there. Entered with today's date, the
+    same finish is still held."""
+    from test_workorders import _all_readings
+
+    fans_order, drive_order = _both_underway(order, fans_order, users)
+    _powered_first(users, fans_order, drive_order)
+    fans_lockout, _ = services.isolated_steps(fans_order.step_list)
+    _tick_through(fans_order, users, fans_lockout)  # the fans crew, started today, locked out
+    release = services.isolated_steps(drive_order.step_list)[1].stop
+    _tick_through(drive_order, users, release)
+    today = fans_order.started_at.astimezone(fans_order.site.zone).date()
+    issued = dt.datetime.combine(today - dt.timedelta(days=20), dt.time(9), tzinfo=drive_order.site.zone)
+    WorkOrder.objects.filter(pk=drive_order.pk).update(issued_at=issued)
+    drive_order = WorkOrder.objects.get(pk=drive_order.pk)
+    unticked = [line.text for line in selectors.unticked_lines(drive_order)]
+    done_on = today - dt.timedelta(days=10)
+    assert services.finish_waits(drive_order, selectors.unticked_lines(drive_order))
+    assert services.finish_waits(drive_order, selectors.unticked_lines(drive_order), done_on) == ""
+    with pytest.raises(services.Refused, match="while another crew is still locked out"):
+        services.work_order_finish(drive_order, users["technician"], 1.0, "ok", _all_readings(drive_order, 0.6),
+                                   confirmed_unticked=unticked)
+    services.work_order_finish(drive_order, users["technician"], 1.0, "ok", _all_readings(drive_order, 0.6),
+                               confirmed_unticked=unticked, work_done_on=done_on)
+    assert WorkOrder.objects.get(pk=drive_order.pk).state == State.FINISHED

@@ -995,7 +995,7 @@ def work_order_finish(
         kept = isolation_kept(points, isolation_gaps(order, points))
         unticked = unticked_lines(WorkOrder.objects.select_related("site").get(pk=order.pk))
         isolation = isolation_lines(unticked)
-        hand_back, working = left_to_the_last_crew(order, unticked)
+        hand_back, working = left_to_the_last_crew(order, unticked, day)
         others = [line for line in unticked if line not in isolation and line not in hand_back]
         seen = set(confirmed_unticked)
         answered = isolation_answer in ISOLATION_UNTICKED and all(line.text in seen for line in isolation)
@@ -1013,7 +1013,7 @@ def work_order_finish(
                 "is not: the energy was isolated. Tick the removal of the locks once each person has taken their own "
                 "off, or answer that the energy was isolated and say in the findings who removed the locks and when"
             )
-        if waiting := finish_waits(order, unticked):
+        if waiting := finish_waits(order, unticked, day):
             raise Refused(waiting)
         if hand_back:
             # The last crew out hands the observatory back: this one, done, leaves it to them, and the record says so
@@ -1175,7 +1175,7 @@ def checklist_tick_set(
     return entry
 
 
-def finish_waits(order: WorkOrder, unticked: Sequence) -> str:
+def finish_waits(order: WorkOrder, unticked: Sequence, day: dt.date | None = None) -> str:
     """Why ``order`` may not be finished yet with its ``unticked`` lines (``selectors.unticked_lines``) confirmed "done
     or did not apply", or "" when nothing waits: a step held while another crew is locked out
     (``moves_or_restores``: a move under power, energy brought back, the return to service;
@@ -1184,11 +1184,13 @@ def finish_waits(order: WorkOrder, unticked: Sequence) -> str:
     (``telescope_out_notices``). The record would otherwise say the tube moved under power with another crew inside (a
     walk-through finished a recoat's removal so, its slew to the zenith refused a minute before), or that a test under
     power and the hand-back were done on an unbalanced telescope (a diff review). The finish refuses it
-    (``work_order_finish``); the finish form says it before it is filled in."""
+    (``work_order_finish``); the finish form says it before it is filled in. ``day``: the day the work was done, when
+    not today: the other crews are those at work by then (``_alongside_by``; a review's overhaul entered from paper
+    months later was held by a crew that started today)."""
     steps = [line for line in unticked if line.kind == ChecklistTick.Kind.STEP]
     waiting = moves_or_restores(order.step_list) if steps else set()
     after = [line for line in steps if line.key in waiting]
-    if after and (held := still_locked_out(order)):
+    if after and (held := still_locked_out(order, day)):
         return (
             "steps that wait for the other crew's locks to come off are not ticked ("
             + "; ".join(line.label.lower() for line in after)
@@ -1198,7 +1200,7 @@ def finish_waits(order: WorkOrder, unticked: Sequence) -> str:
             "done"
         )
     hand_back = [line for line in steps if is_hand_back(line.text)]
-    if hand_back and not left_to_the_last_crew(order, unticked)[0] and (working := still_working(order)):
+    if hand_back and not left_to_the_last_crew(order, unticked, day)[0] and (working := still_working(order, day)):
         return (
             f"{hand_back[0].label.lower()}, the hand-back to robotic and remote control, is not ticked while another "
             "crew is still at work on this telescope with no hand-back of its own to leave it to: "
@@ -1214,33 +1216,44 @@ def finish_waits(order: WorkOrder, unticked: Sequence) -> str:
     return ""
 
 
-def left_to_the_last_crew(order: WorkOrder, unticked: Sequence) -> tuple[list, list]:
+def left_to_the_last_crew(order: WorkOrder, unticked: Sequence, day: dt.date | None = None) -> tuple[list, list]:
     """(the hand-back lines of ``unticked`` that ``order`` leaves to the last crew out, the other orders still at work
     on the telescope that have a hand-back of their own to tick: ``still_working``, ``Alongside.hands_back``), or
     ([], []) when there is none to leave it to. A finish records the hand-back left to them in the findings, and does
     not ask it confirmed "done or did not apply". A crew still at work with no hand-back of its own would never hand
     the observatory back (a diff review left it to an order swapping a UPS battery): the finish then waits
-    (``finish_waits``)."""
+    (``finish_waits``). ``day``: as there."""
     hand_back = [line for line in unticked if line.kind == ChecklistTick.Kind.STEP and is_hand_back(line.text)]
-    working = [a for a in still_working(order) if a.hands_back] if hand_back else []
+    working = [a for a in still_working(order, day) if a.hands_back] if hand_back else []
     return (hand_back, working) if working else ([], [])
 
 
-def still_locked_out(order: WorkOrder) -> list:
+def still_locked_out(order: WorkOrder, day: dt.date | None = None) -> list:
     """The other orders underway on a telescope ``order`` works on (``selectors.work_alongside``) whose crews are still
     locked out (``Alongside.locked_out``): an isolation point of theirs or their lockout step is ticked and the step
     that removes their locks is not (an order without one, whose locked-out work runs to its end, counts as locked out
-    until it is finished)."""
-    return [other for other in work_alongside(order) if other.locked_out]
+    until it is finished). ``day``: those started by then (``_alongside_by``)."""
+    return [other for other in _alongside_by(order, day) if other.locked_out]
 
 
-def still_working(order: WorkOrder) -> list:
+def still_working(order: WorkOrder, day: dt.date | None = None) -> list:
     """The other orders underway on a telescope ``order`` works on whose crews still have work to do there
     (``Alongside.work_left``: a step other than their own hand-back not ticked), locked out or not. The observatory
     goes back to robotic and remote control only when they are done: remote users would otherwise move a telescope
     with a crew at it (a safety review: one order handed it back while another crew, under power, had only taken it
-    out of control). The last crew out hands it back; common practice, no published source."""
-    return [other for other in work_alongside(order) if other.work_left]
+    out of control). The last crew out hands it back; common practice, no published source. ``day``: those started
+    by then (``_alongside_by``)."""
+    return [other for other in _alongside_by(order, day) if other.work_left]
+
+
+def _alongside_by(order: WorkOrder, day: dt.date | None) -> list:
+    """``selectors.work_alongside(order)``, or with ``day`` (the day ``order``'s work was done, entered later) the
+    orders among them started on or before it, at the site: one started after the work was done was not there."""
+    alongside = work_alongside(order)
+    if day is None:
+        return alongside
+    zone = order.site.zone
+    return [a for a in alongside if a.order.started_at is None or a.order.started_at.astimezone(zone).date() <= day]
 
 
 def held_for_other_crews(steps: Sequence[str]) -> set[int]:

@@ -412,6 +412,14 @@ def work_order_tick(request, pk):
     return redirect(f"{order.get_absolute_url()}#{selectors.line_anchor(*tick.line)}")
 
 
+def _posted_day(text: str) -> dt.date | None:
+    """The finish form's day the work was done as posted, or None when it is not a plain date (the form says why)."""
+    try:
+        return dt.date.fromisoformat(text.strip())
+    except ValueError:
+        return None
+
+
 @requires(TECHNICIAN)
 def work_order_finish(request, pk):
     """The finish form. It lists the checklist lines nobody ticked (finishing with any needs the confirmation
@@ -430,10 +438,12 @@ def work_order_finish(request, pk):
         return redirect(order)
     unticked = selectors.unticked_lines(order)
     isolation = selectors.isolation_lines(unticked)  # answered for on their own, not with the other lines
-    hand_back, working = services.left_to_the_last_crew(order, unticked)  # said, not confirmed
+    # The other crews are those at work by the day the work was done: today, or the day posted (paper entered later).
+    day = _posted_day(request.POST.get("work_done_on", "")) if request.method == "POST" else None
+    hand_back, working = services.left_to_the_last_crew(order, unticked, day)  # said, not confirmed
     others = [line for line in unticked if line not in isolation and line not in hand_back]
     lacking = selectors.hazards_missing(order)
-    waits = services.finish_waits(order, unticked)  # said above the form, before it is filled in
+    waits = services.finish_waits(order, unticked, day)  # said above the form, before it is filled in
     form = FinishForm(
         request.POST or None, order=order, by=request.user, unticked=others, isolation_unticked=isolation,
         lacking_hazards=lacking,
