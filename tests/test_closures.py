@@ -320,3 +320,20 @@ def test_the_dashboard_says_when_the_log_is_far_behind(scene, users, client):  #
     page = client.get(site.get_absolute_url()).content.decode()
     assert ("No night logged for 40 nights: the forecasts count them as used at the expected rate, but those of a "
             "closure. Log them, or enter the closure.") in page
+
+
+def test_the_reliability_page_counts_a_telescope_closed_alone_as_its_forecasts_do(scene):  # noqa: F811
+    """The fans count from their plan's start, 10 logged nights ago: 80 h; F50 closed alone for the last five while
+    G30 observed, 40 h, as the fans' counter (above)."""
+    from observatory_ops.reliability.selectors import site_reliability
+
+    site, today, plan, mirror = scene
+
+    def fans_hours() -> float:
+        return next(k for k in site_reliability(site, today).kinds if k.code == "cooling_fans").operating_hours
+
+    assert fans_hours() == pytest.approx(COUNTED)
+    Telescope.objects.create(site=site, name="G30", aperture_m=0.3, mount="fork")
+    _closure(site, today - dt.timedelta(days=5), today - dt.timedelta(days=1), "mount overhaul",
+             telescope=plan.subsystem.telescope)
+    assert fans_hours() == pytest.approx(COUNTED - 5 * PER_NIGHT)
