@@ -337,3 +337,17 @@ def test_the_reliability_page_counts_a_telescope_closed_alone_as_its_forecasts_d
     _closure(site, today - dt.timedelta(days=5), today - dt.timedelta(days=1), "mount overhaul",
              telescope=plan.subsystem.telescope)
     assert fans_hours() == pytest.approx(COUNTED - 5 * PER_NIGHT)
+
+
+def test_the_planned_work_calendar_holds_each_closure(scene):  # noqa: F811
+    from icalendar import Calendar
+
+    from observatory_ops.mirrors.calendar_export import site_calendar
+
+    site, today, plan, mirror = scene
+    first, last = today + dt.timedelta(days=2), today + dt.timedelta(days=6)
+    closure = _closure(site, first, last, "mount overhaul", telescope=plan.subsystem.telescope)
+    event = next(e for e in Calendar.from_ical(site_calendar(site, "https://ops.example")).walk("VEVENT")
+                 if str(e["uid"]).startswith(f"closure-{closure.pk}@"))
+    assert str(event["summary"]) == "Closed: F50: mount overhaul"
+    assert (event.decoded("dtstart"), event.decoded("dtend")) == (first, last + dt.timedelta(days=1))  # RFC 5545

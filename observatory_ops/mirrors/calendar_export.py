@@ -8,6 +8,7 @@ from django.conf import settings
 from django.utils import timezone
 from icalendar import Calendar, Event
 
+from observatory_ops.planning.models import Closure
 from observatory_ops.planning.services import phase_lengths, recoat_downtime, site_today
 from observatory_ops.registry.models import Site
 from observatory_ops.workorders.models import State, WorkOrder
@@ -46,7 +47,8 @@ def _window_status(plan: RecoatPlan) -> str:
 
 
 def site_calendar(site: Site, base_url: str) -> bytes:
-    """All-day events: each planned work order (withdrawn ones cancelled), and each recoat window of the site.
+    """All-day events: each planned work order (withdrawn ones cancelled), each recoat window of the site, and each of
+    its closures (``planning.models.Closure``).
 
     ``base_url`` is where the links in the descriptions point; the events' UIDs do not depend on it.
     """
@@ -95,6 +97,13 @@ def site_calendar(site: Site, base_url: str) -> bytes:
             described = f"Not done: {subsystem.name} was retired on {subsystem.retired_on:%d %b %Y}. {described}"
         all_day(f"recoat-{plan.pk}", out.first, out.last, f"Recoat window: {subsystem.telescope.name} {subsystem.name}",
                 described, _window_status(plan))
+    # Closures: nights not observed (a season shut, an overhaul), whose days are free for work that takes a telescope
+    # out. A closure deleted leaves the calendar at the next refresh.
+    for closure in Closure.objects.filter(site=site).select_related("telescope"):
+        all_day(f"closure-{closure.pk}", closure.first_night, closure.last_night,
+                f"Closed: {closure.whose}: {closure.reason}",
+                f"No observing on the nights of {closure.first_night:%d %b %Y} to {closure.last_night:%d %b %Y}: the "
+                "forecasts count no use on them.", "CONFIRMED")
     return calendar.to_ical()
 
 
