@@ -163,11 +163,17 @@ def test_a_closure_is_held_to_its_bounds(scene):  # noqa: F811
     refused("F70 is not at Low Fell", telescope=Telescope.objects.create(site=other, name="F70", aperture_m=0.7,
                                                                           mount="fork"))
     refused("reason", reason="")
+    refused("more than 3 years ahead", first_night=today + dt.timedelta(days=3 * 366 + 1),
+            last_night=today + dt.timedelta(days=3 * 366 + 1))
     _closure(site, today, today + dt.timedelta(days=9), "winter shutdown")
-    refused("Its nights overlap another closure: the whole site closed", telescope=telescope,
-            first_night=today + dt.timedelta(days=9), last_night=today + dt.timedelta(days=12))
-    Closure(site=site, telescope=telescope, first_night=today + dt.timedelta(days=10),
-            last_night=today + dt.timedelta(days=12), reason="overhaul").full_clean()  # the night after: accepted
+    refused("Its nights overlap another closure: the whole site closed", first_night=today + dt.timedelta(days=9),
+            last_night=today + dt.timedelta(days=12))
+    Closure(site=site, first_night=today + dt.timedelta(days=10), last_night=today + dt.timedelta(days=12),
+            reason="shutdown").full_clean()  # the night after: accepted
+    # An overhaul of one telescope may run through the whole site's shutdown; two of one telescope may not overlap.
+    _closure(site, today - dt.timedelta(days=5), today + dt.timedelta(days=20), "mount overhaul", telescope=telescope)
+    refused("Its nights overlap another closure: F50 closed", telescope=telescope,
+            first_night=today + dt.timedelta(days=20), last_night=today + dt.timedelta(days=22))
 
 
 def test_an_engineer_enters_a_closure_in_the_admin_and_the_dashboard_lists_it(scene, users, engineer_in_admin):  # noqa: F811
@@ -320,6 +326,9 @@ def test_the_dashboard_says_when_the_log_is_far_behind(scene, users, client):  #
     page = client.get(site.get_absolute_url()).content.decode()
     assert ("No night logged for 40 nights: the forecasts count them as used at the expected rate, but those of a "
             "closure. Log them, or enter the closure.") in page
+    # The site shut on 25 of them: 15 left to log, under the 30 said.
+    _closure(site, today - dt.timedelta(days=40), today - dt.timedelta(days=16), "winter shutdown")
+    assert 'id="log-behind"' not in client.get(site.get_absolute_url()).content.decode()
 
 
 def test_the_reliability_page_counts_a_telescope_closed_alone_as_its_forecasts_do(scene):  # noqa: F811
@@ -351,3 +360,28 @@ def test_the_planned_work_calendar_holds_each_closure(scene):  # noqa: F811
                  if str(e["uid"]).startswith(f"closure-{closure.pk}@"))
     assert str(event["summary"]) == "Closed: F50: mount overhaul"
     assert (event.decoded("dtstart"), event.decoded("dtend")) == (first, last + dt.timedelta(days=1))  # RFC 5545
+
+
+def test_a_mirrors_recoat_line_forecast_steps_over_a_closure_as_the_plans_do(scene, users):  # noqa: F811
+    """The diff review: the crossing of the recoat line stayed where it was with the whole site shut for 201 nights.
+    Every coming night adds the same dust (8 h, clean air), so a closure from today moves a crossing still ahead by
+    exactly its nights; the mirror's own recoat would not (it renews the mirror)."""
+    from observatory_ops.mirrors.models import ReflectanceMeasurement
+
+    site, today, plan, mirror = scene
+    for i, value in enumerate((0.895, 0.885, 0.875, 0.865, 0.855)):
+        ReflectanceMeasurement.objects.create(mirror=mirror, measured_on=today - dt.timedelta(days=250 - 50 * i),
+                                              value=value, taken_by=users["technician"])
+    before = mirror_services.mirror_forecast(_afresh(mirror), today)
+    assert before.crossing is not None and before.crossing > today and before.downtime_note == ""
+    _closure(site, today, today + dt.timedelta(days=200), "winter shutdown")
+    after = mirror_services.mirror_forecast(_afresh(mirror), today)
+    assert after.crossing == before.crossing + dt.timedelta(days=201)
+    assert after.downtime_note.startswith("no use on the 201 nights of the closure of the whole site (winter shutdown)")
+
+
+def _afresh(mirror):
+    """The mirror read again, with its measurements and coatings."""
+    from observatory_ops.mirrors.models import Mirror
+
+    return Mirror.objects.get(pk=mirror.pk)

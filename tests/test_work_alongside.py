@@ -474,3 +474,29 @@ def test_work_entered_later_from_paper_is_not_held_by_a_crew_that_started_after_
     services.work_order_finish(drive_order, users["technician"], 1.0, "ok", _all_readings(drive_order, 0.6),
                                confirmed_unticked=unticked, work_done_on=done_on)
     assert WorkOrder.objects.get(pk=drive_order.pk).state == State.FINISHED
+
+
+@pytest.mark.parametrize("written", ["%Y-%m-%d", "%d %b %Y"])
+def test_the_finish_form_reads_the_day_the_work_was_done_as_its_field_does(order, fans_order, users, client,  # noqa: F811
+                                                                            written):
+    """The diff review: the page read the posted day as ISO only, its field also "25 Nov 2026" (offered where the
+    browser has no date picker); with that, the page left the hand-back to today's crew and the service, by the
+    real day, asked it confirmed: the order could not be finished. The fans crew started today, its work left; the
+    drive order, issued 20 days ago, all ticked but its hand-back, done 10 days ago."""
+    from test_workorders import _finish_post
+
+    fans_order, drive_order = _both_underway(order, fans_order, users)
+    _powered_first(users, fans_order, drive_order)
+    hand_back = next(i for i, step in enumerate(drive_order.step_list) if services.is_hand_back(step))
+    _tick_through(drive_order, users, hand_back - 1)
+    today = fans_order.started_at.astimezone(fans_order.site.zone).date()
+    issued = dt.datetime.combine(today - dt.timedelta(days=20), dt.time(9), tzinfo=drive_order.site.zone)
+    WorkOrder.objects.filter(pk=drive_order.pk).update(issued_at=issued)
+    drive_order = WorkOrder.objects.get(pk=drive_order.pk)
+    assert services.left_to_the_last_crew(drive_order, selectors.unticked_lines(drive_order))[0]  # today: left
+    client.force_login(users["technician"])
+    data = {**_finish_post(drive_order, 0.6), "work_done_on": f"{today - dt.timedelta(days=10):{written}}",
+            "confirm_unticked": "on"}
+    response = client.post(f"/workorders/{drive_order.pk}/finish/", data)
+    assert response.status_code == 302, _text(response)[:3000]
+    assert WorkOrder.objects.get(pk=drive_order.pk).state == State.FINISHED

@@ -32,12 +32,14 @@ from observatory_ops.planning.services import (
     UsageLog,
     UsageModel,
     band_start,
+    downtimes_of,
     forecast_model,
     recoat_downtime,
     site_recompute,
     site_sky_refresh,
     site_today,
     usage_model,
+    without_downtime,
 )
 from observatory_ops.registry.catalogue import (
     HAND_BACK_AFTER_REALIGNMENT,
@@ -98,6 +100,9 @@ class MirrorForecast:
     # before the crossing is forecast, as the plans count them (planning.services.forecast_model).
     unlogged_nights: int = 0
     log_note: str = ""  # what the telescope's log is made of, where its site logs per telescope (``UsageLog.note``)
+    #: The coming nights the forecast counts no dust on: its telescope out (a closure, another mirror's recoat), as
+    #: the plans count them (``planning.services.without_downtime``); "" when none.
+    downtime_note: str = ""
     latest_note: str = ""  # the latest measurement against the fitted line (``_latest_against_the_fit``)
     # The first logged night when the coating predates it, else None: the nights from the coating to it are not
     # logged, so every exposure here counts from it (``log_start_note``), and the measurements and cleanings dated on
@@ -212,12 +217,15 @@ def _loss_basis(mirror: Mirror) -> str:
 
 
 def mirror_forecast(
-    mirror: Mirror, today: dt.date | None = None, log: UsageLog | None = None, model: UsageModel | None = None
+    mirror: Mirror, today: dt.date | None = None, log: UsageLog | None = None, model: UsageModel | None = None,
+    downtimes: list[Downtime] | None = None,
 ) -> MirrorForecast:
     """Fresh reflectance, fitted decline, current estimate, recoat threshold and its crossing date.
 
-    ``log`` and ``model`` (expected usage from ``model.first_day``, on or before ``today``'s next day) may be passed
-    by a caller that has already read them, such as the site recompute; otherwise they are read here.
+    ``log`` and ``model`` (expected usage from ``model.first_day``, on or before ``today``'s next day) and
+    ``downtimes`` (its telescope's: ``planning.services.downtimes_of``) may be passed by a caller that has already read
+    them, such as the site recompute; otherwise they are read here. The nights of a downtime count no dust, as the
+    plans count them, but those of the mirror's own recoat, which renews it.
     """
     today = today or site_today(mirror.subsystem.telescope.site)
     # Through ``.all()``, so the site recompute's prefetched rows serve (see planning.services).
@@ -329,7 +337,13 @@ def mirror_forecast(
     # The nights after the last logged one (and after the coating) are taken as used at the expected rate, as the
     # plans take them: the forecast counts from the first of them, and a crossing among them is today.
     start = max(model.first_day, last.coated_on)
-    expected = model.expected(metrics.DUST_HOURS, mirror.dust_sensitivity)[(start - model.first_day).days :]
+    telescope = mirror.subsystem.telescope
+    if downtimes is None:
+        downtimes = downtimes_of(telescope.site, telescope.pk, False, today)
+    expected, said = without_downtime(model.expected(metrics.DUST_HOURS, mirror.dust_sensitivity), model.first_day,
+                                      [d for d in downtimes if d.mirror_id != mirror.pk])
+    result.downtime_note = said.removeprefix("; ")
+    expected = expected[(start - model.first_day).days :]
     result.unlogged_nights = max((today - start).days, 0)
     result.dust_hours_per_day = float(expected[result.unlogged_nights :][:30].mean())
     remaining = [x - result.exposure_now_h for x in (crossing.exposure_h, crossing.early_h, crossing.late_h)]
@@ -646,7 +660,7 @@ def night_costs(site: Site, start: dt.date, horizon_days: int, telescope: Telesc
     model = usage_model(site, log, start, 1)
     fraction = np.minimum(model.open_fraction, 1.0)
     # A month short of its own history takes the prior: said so beside the night's cost, with why.
-    logged, _ = forecast.logged_per_month(log.nights)
+    logged, _ = forecast.logged_per_month(log.nights[log.weather])
     prior = ["" if model.from_history[m] else PRIOR_TOO_FEW_NIGHTS
              if logged[m] < forecast.MIN_NIGHTS_FOR_HISTORY else PRIOR_NO_DARK_LOGGED for m in range(12)]
     runs = list(BookedRun.objects.filter(site=site, starts_on__lte=end, ends_on__gte=start))
@@ -662,13 +676,15 @@ def night_costs(site: Site, start: dt.date, horizon_days: int, telescope: Telesc
     moonless = np.array([n.moonless_dark_hours for n in sky])
     cost = windows.night_cost(moonless, per_night_fraction, expensive, BOOKED_WEIGHT)
     cost = np.where(blocked, np.inf, cost)
-    # A night of a closure of the telescope (or of the whole site) loses nothing: it would not be observed.
+    # A night of a closure of the telescope (or of the whole site) loses nothing: it would not be observed. A run
+    # booked as blocked on it stays blocked: the two contradict each other, and the run was booked to be kept.
     closed = ["" for _ in sky]
     for closure in Closure.objects.filter(site=site, first_night__lte=end, last_night__gte=start).filter(
             Q(telescope__isnull=True) | Q(telescope=telescope)).select_related("telescope"):
         for i, night in enumerate(sky):
             if closure.first_night <= night.night <= closure.last_night:
-                closed[i], cost[i] = f"{closure.whose} closed: {closure.reason}", 0.0
+                closed[i] = f"{closure.whose} closed: {closure.reason}"
+                cost[i] = cost[i] if blocked[i] else 0.0
     return [
         NightCost(n.night, n.moon_illumination, n.moonless_dark_hours, float(per_night_fraction[i]),
                   booked_name[i], float(cost[i]), dark_hours=n.dark_hours, prior=prior[n.night.month - 1],

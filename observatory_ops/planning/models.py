@@ -575,8 +575,9 @@ class Closure(models.Model):
         return self.telescope_id is None or self.telescope_id == telescope_id
 
     def clean(self) -> None:
-        """Its nights in order, within bounds, its telescope the site's, and no other closure of the same
-        telescope or of the whole site on any of its nights (two would be counted as one, and said twice)."""
+        """Its nights in order, within bounds (from 1900, at most ``CLOSURE_NIGHTS_MAX`` nights, starting within the
+        forecasts' horizon), its telescope the site's, and no other closure of the same telescope (or of the whole
+        site, for one of the whole site) on any of its nights."""
         errors = {}
         for name in ("first_night", "last_night"):
             day = getattr(self, name)
@@ -594,10 +595,18 @@ class Closure(models.Model):
         if self.telescope_id and self.site_id and self.telescope.site_id != self.site_id:
             raise ValidationError({"telescope": f"{self.telescope.name} is not at {self.site.name}."})
         if self.site_id and self.first_night and self.last_night:
-            others = Closure.objects.filter(site=self.site_id, first_night__lte=self.last_night,
+            from .services import HORIZON_DAYS, site_today  # the services build on these models
+
+            ahead = site_today(self.site) + dt.timedelta(days=HORIZON_DAYS)
+            if self.first_night > ahead:
+                raise ValidationError({"first_night": (
+                    f"{self.first_night:%d %b %Y} is more than {HORIZON_DAYS // 366} years ahead, further than the "
+                    "forecasts look: enter it nearer the time.")})
+            # One of a telescope may overlap one of the whole site (an overhaul running through the winter shutdown);
+            # two of the same would be counted as one and said twice.
+            others = Closure.objects.filter(site=self.site_id, telescope=self.telescope_id,
+                                            first_night__lte=self.last_night,
                                             last_night__gte=self.first_night).exclude(pk=self.pk)
-            if self.telescope_id:
-                others = others.filter(models.Q(telescope__isnull=True) | models.Q(telescope=self.telescope_id))
             if clash := others.select_related("telescope").first():
                 raise ValidationError(f"Its nights overlap another closure: {clash}. Change that one, or these dates.")
 

@@ -515,7 +515,7 @@ def expected_use_by_month(subsystem: Subsystem, plans: list[ServicePlan]) -> dic
     site = subsystem.telescope.site
     log = UsageLog.for_subsystem(subsystem)
     model = forecast_model(site, log, site_today(site))
-    logged, years = forecast.logged_per_month(log.nights)
+    logged, years = forecast.logged_per_month(log.nights[log.weather])
     days = np.datetime64(model.first_day, "D") + np.arange(len(model.open_hours))
     month_of_day = days.astype("datetime64[M]")
     last = np.datetime64(model.first_day, "M") + (EXPECTED_USE_MONTHS - 1)
@@ -687,3 +687,22 @@ def closures_listed(site, today: dt.date) -> list:
         closure.state = ("ended" if closure.last_night < today else "coming" if closure.first_night > today
                          else "under way")
     return closures
+
+
+def nights_unlogged_said(site, last_nights: list, today: dt.date) -> int:
+    """The nights from the newest logged one (of ``last_nights``: ``logbook.selectors.last_nights``) to yesterday, none
+    logged but those of a closure of the whole site (nothing to log then), when more than
+    ``services.UNLOGGED_NIGHTS_SAID``: the forecasts count them as used, and the dashboard says so. 0 otherwise."""
+    from .models import Closure
+    from .services import UNLOGGED_NIGHTS_SAID
+
+    newest = max((row.night for row in last_nights), default=None)
+    if newest is None or (today - newest).days - 1 <= UNLOGGED_NIGHTS_SAID:
+        return 0
+    first, last = newest + dt.timedelta(days=1), today - dt.timedelta(days=1)
+    closed = set()
+    for start, end in Closure.objects.filter(site=site, telescope__isnull=True, first_night__lte=last,
+                                             last_night__gte=first).values_list("first_night", "last_night"):
+        closed |= {start + dt.timedelta(days=i) for i in range((end - start).days + 1)}
+    behind = sum(1 for i in range((last - first).days + 1) if first + dt.timedelta(days=i) not in closed)
+    return behind if behind > UNLOGGED_NIGHTS_SAID else 0

@@ -173,6 +173,14 @@ def _as_datetime(value) -> dt.datetime | None:
 # --- the usage model --------------------------------------------------------------------------------
 
 
+def _within(nights: np.ndarray, spans: list[tuple[dt.date, dt.date]]) -> np.ndarray:
+    """True on each of ``nights`` (datetime64[D]) within one of ``spans`` ((first, last), both counted)."""
+    inside = np.zeros(len(nights), dtype=bool)
+    for first, last in spans:
+        inside |= (nights >= np.datetime64(first, "D")) & (nights <= np.datetime64(last, "D"))
+    return inside
+
+
 @dataclass(frozen=True)
 class UsageLog:
     """One telescope's nightly log as arrays, oldest first: its own rows, and the site's rows (telescope empty)
@@ -188,6 +196,13 @@ class UsageLog:
     # True on the nights of a closure of the whole site, or of the log's telescope (``planning.models.Closure``): left
     # out of the history the open fractions and the spread are made from. None: no closure on any logged night.
     closed: np.ndarray | None = None
+    closed_alone: int = 0  # nights of the whole site's rows counted 0 for the telescope, closed alone then
+
+    @property
+    def weather(self) -> np.ndarray:
+        """True on the nights the history is made of (the open fractions, the spread, the dust by month, the nights
+        counted per month): those of no closure (``closed``)."""
+        return ~self.closed if self.closed is not None else np.ones(len(self.nights), dtype=bool)
 
     @property
     def whose(self) -> str:
@@ -198,8 +213,12 @@ class UsageLog:
     def note(self) -> str:
         """What the log is made of, where a site logs per telescope: said with every forecast made from it."""
         if self.telescope_id is not None:
-            return (f"this telescope's log: its own nights on {self.own_nights:,} of {len(self.nights):,} logged "
-                    "nights, the whole site's on the rest")
+            made = (f"its own nights on {self.own_nights:,} of {len(self.nights):,} logged nights, the whole site's "
+                    "on the rest" if self.own_nights else "the whole site's nights")
+            if self.closed_alone:
+                made += (f", none of their use counted on the {self.closed_alone:,} night"
+                         f"{'s' if self.closed_alone != 1 else ''} it was closed alone (a closure of its own)")
+            return f"this telescope's log: {made}"
         if not self.others_send_own:
             return ""
         if not len(self.nights):
@@ -222,19 +241,37 @@ class UsageLog:
 
     @staticmethod
     def _with_closures(logs: dict[int | None, UsageLog], site) -> dict[int | None, UsageLog]:
-        """Each log with its ``closed`` nights: those of the site's closures that close its telescope (the site's own
-        log: the whole site's closures alone)."""
+        """The logs as the site's closures (``planning.models.Closure``) leave them, one rule for every figure made
+        from them (the forecasts, the subsystem page's charts, the mirror's exposure, the reliability page's hours):
+
+        - each log's ``closed`` nights, those of a closure of the whole site or of its telescope (the site's own log:
+          the whole site's alone), left out of the history the open fractions and the spread are made from;
+        - a telescope closed alone counts none of the whole site's rows on its closed nights (the dome open for the
+          others): the site's rows stand in for it with their counters at 0 there (``closed_alone``), in a log of
+          its own when it sends no rows of its own. Its own rows are kept, as sent."""
         from .models import Closure
 
         closures = list(Closure.objects.filter(site=site).values_list("telescope_id", "first_night", "last_night"))
         if not closures:
             return logs
-        out = {}
-        for key, log in logs.items():
-            closed = np.zeros(len(log.nights), dtype=bool)
-            for telescope_id, first, last in closures:
-                if telescope_id is None or telescope_id == key:
-                    closed |= (log.nights >= np.datetime64(first, "D")) & (log.nights <= np.datetime64(last, "D"))
+        spans: dict[int | None, list[tuple[dt.date, dt.date]]] = {}
+        for telescope_id, first, last in closures:
+            spans.setdefault(telescope_id, []).append((first, last))
+        out = dict(logs)
+        for telescope_id in spans:
+            if telescope_id is not None and telescope_id not in out:  # it counts the site's rows: a log of its own
+                base = logs[None]
+                out[telescope_id] = replace(base, telescope_id=telescope_id, own=np.zeros(len(base.nights), bool),
+                                            own_nights=0, others_send_own=False)
+        for key, log in out.items():
+            closed = _within(log.nights, spans.get(None, []))
+            if key is not None and key in spans:
+                alone = _within(log.nights, spans[key])
+                closed |= alone
+                stand_in = alone & ~log.own if log.own is not None else alone
+                if stand_in.any():
+                    log = replace(log, columns={f: np.where(stand_in, 0.0, v) for f, v in log.columns.items()},
+                                  closed_alone=int(stand_in.sum()))
             out[key] = replace(log, closed=closed) if closed.any() else log
         return out
 
@@ -382,7 +419,8 @@ class UsageModel:
         if self.unlogged_nights > UNLOGGED_NIGHTS_SAID:
             last = self.first_day - dt.timedelta(days=1)
             basis += (f"; no night logged since {last:%d %b %Y}: the {self.unlogged_nights} nights since are counted "
-                      "as used at the expected rate (from the last service, if later)")
+                      "as used at the expected rate (from the last service, if later), except any nights of a "
+                      "closure or a recoat named in this basis")
         if self.log_note:
             basis += f"; {self.log_note}"
         return basis
@@ -454,8 +492,8 @@ def usage_model(site: Site, log: UsageLog, first_day: dt.date, days: int) -> Usa
     past_dark = sky[(log.nights - np.datetime64(start, "D")).astype(int)]
     past_months = log.nights.astype("datetime64[M]").astype(int) % 12 + 1
     open_h = log.columns["open_hours"]
-    # The history leaves out the nights of closures (``UsageLog.closed``): a season shut is not the weather's.
-    weather = ~log.closed if log.closed is not None else np.ones(len(log.nights), dtype=bool)
+    # The history leaves out the nights of closures (``UsageLog.weather``): a season shut is not the weather's.
+    weather = log.weather
     fraction, from_history = forecast.monthly_open_fraction(past_months[weather], open_h[weather], past_dark[weather])
     per_night, by_night = forecast.monthly_use_by_night(past_months[weather], open_h[weather], past_dark[weather])
 
@@ -680,7 +718,6 @@ def _site_recompute(site: Site, today: dt.date) -> int:
     ])
 
     downtime = _downtime_by_telescope(site, today)
-    alone = closed_alone(site) if downtime else {}
     if downtime and any(p.whole_site for p in plans):
         downtime[ALL_OUT] = _all_out(downtime, telescopes_observing(site))
     states: dict[int, list[TriggerState]] = {p.pk: [] for p in plans}
@@ -691,7 +728,8 @@ def _site_recompute(site: Site, today: dt.date) -> int:
                 states[plan.pk].append(_calendar_state(trig, baselines[plan.pk], today))
             elif trig.metric == metrics.RECOAT_LINE:
                 _, log, model = usage_of(plan)
-                state = _recoat_line_state(mirrors.get(plan.subsystem_id), today, log, model)
+                state = _recoat_line_state(mirrors.get(plan.subsystem_id), today, log, model,
+                                           downtime.get(plan.telescope_id, []))
                 if state:
                     states[plan.pk].append(state)
             elif trig.metric == metrics.READING:
@@ -723,8 +761,6 @@ def _site_recompute(site: Site, today: dt.date) -> int:
         ahead = max((today - first_day).days, 0)  # the model's day index of today: "the next month" starts there
         since = _day_array(baselines[p.pk] for p, _ in members)
         per_night = log.per_night(metric, sens)
-        if out in alone:  # a telescope closed alone counts none of the site's use logged on those nights
-            per_night = zero_closed_alone(log, per_night, alone[out])
         values = exposure.accumulated_since(log.nights, per_night, since)
         limits = np.array([t.limit for _, t in members], dtype=float)
         reached = exposure.reached_on(log.nights, per_night, since, limits)  # the night a limit was passed
@@ -1011,6 +1047,7 @@ class Downtime:
     changed: str = ""
     late: bool = False  # its days as its orders are dated have passed, some of its work still to do
     mirror_out: bool = False  # its removal underway or finished, its reinstall not finished
+    mirror_id: int | None = None  # the mirror a recoat renews: its own reflectance forecast does not step over it
 
     @property
     def nights(self) -> int:
@@ -1099,7 +1136,7 @@ def recoat_downtime(plan, today: dt.date) -> Downtime:
         last = today
     telescope = plan.mirror.subsystem.telescope.name
     return Downtime(first, max(first, last), f"{RECOAT_WHAT}{telescope}: {plan.mirror.subsystem.name}",
-                    changed="; ".join(changed), late=late, mirror_out=mirror_out)
+                    changed="; ".join(changed), late=late, mirror_out=mirror_out, mirror_id=plan.mirror_id)
 
 
 def recoats_in_hand(site: Site) -> list:
@@ -1152,32 +1189,6 @@ def closure_downtime(closure) -> Downtime:
                         "nothing is observed")
     return Downtime(closure.first_night, closure.last_night, f"the closure of {closure.telescope.name} "
                     f"({closure.reason})", "the telescope does not observe")
-
-
-def closed_alone(site: Site) -> dict[int, list[tuple[dt.date, dt.date]]]:
-    """The nights each telescope of ``site`` is closed on alone (a closure of its own, not the whole site's), as
-    (first, last) spans: the whole site's rows logged on them (the dome open for the others) are not its use
-    (``zero_closed_alone``)."""
-    from .models import Closure
-
-    spans: dict[int, list[tuple[dt.date, dt.date]]] = {}
-    for telescope_id, first, last in Closure.objects.filter(site=site, telescope__isnull=False).values_list(
-            "telescope_id", "first_night", "last_night"):
-        spans.setdefault(telescope_id, []).append((first, last))
-    return spans
-
-
-def zero_closed_alone(log: UsageLog, per_night: np.ndarray, spans: list[tuple[dt.date, dt.date]]) -> np.ndarray:
-    """``per_night`` (a counter's use on each of ``log``'s nights) with 0 on the nights of ``spans`` where the row
-    is the whole site's, not the telescope's own: a telescope closed alone does not use the nights the site logged
-    for the others. Its own rows are kept, as sent."""
-    zeroed = per_night.copy()
-    for first, last in spans:
-        on = (log.nights >= np.datetime64(first, "D")) & (log.nights <= np.datetime64(last, "D"))
-        if log.own is not None:
-            on &= ~log.own
-        zeroed[on] = 0.0
-    return zeroed
 
 
 def downtimes_of(site: Site, telescope_id: int, whole_site: bool, today: dt.date) -> list[Downtime]:
@@ -1251,7 +1262,8 @@ def _mirrors_by_subsystem(site: Site) -> dict:
     return {m.subsystem_id: m for m in mirrors}
 
 
-def _recoat_line_state(mirror, today: dt.date, log: UsageLog, model: UsageModel) -> TriggerState | None:
+def _recoat_line_state(mirror, today: dt.date, log: UsageLog, model: UsageModel,
+                       downtimes: list[Downtime]) -> TriggerState | None:
     """A mirror's band reflectance now reaching its recoat line (see mirrors.services): the fit's estimate, or
     until there is a fit the last measurement or the computed fresh value, worded as the mirror page words them
     (``mirrors.services.reflectance_now``)."""
@@ -1259,7 +1271,7 @@ def _recoat_line_state(mirror, today: dt.date, log: UsageLog, model: UsageModel)
 
     if mirror is None:  # no mirror record yet (``selectors.not_computed_reason`` says so)
         return None
-    state = mirror_forecast(mirror, today, log, model)
+    state = mirror_forecast(mirror, today, log, model, downtimes)
     now = reflectance_now(state)
     if state.threshold is None or now.now is None:
         return None

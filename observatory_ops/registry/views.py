@@ -9,12 +9,7 @@ from observatory_ops.logbook import selectors as logbook_selectors
 from observatory_ops.mirrors import services as mirror_services
 from observatory_ops.mirrors.models import TRAIN_KINDS
 from observatory_ops.planning import selectors as planning_selectors
-from observatory_ops.planning.services import (
-    UNLOGGED_NIGHTS_SAID,
-    site_recompute,
-    site_today,
-    sites_bring_up_to_date,
-)
+from observatory_ops.planning.services import site_recompute, site_today, sites_bring_up_to_date
 from observatory_ops.workorders import selectors as workorder_selectors
 from observatory_ops.workorders.cautions import HAZARDS
 from observatory_ops.workorders.models import RequiredReading, WorkOrderItem
@@ -77,8 +72,7 @@ def site_dashboard(request, slug):
             "bare_telescopes": [t for t, nodes, _ in telescopes if not nodes and t.pk not in taken_down],
             "taken_down": taken_down,
             "last_nights": last_nights,
-            # The log far behind (planning.services.UNLOGGED_NIGHTS_SAID): its unlogged nights are counted as used.
-            "log_behind": behind if (behind := _nights_behind(last_nights, today)) > UNLOGGED_NIGHTS_SAID else 0,
+            "log_behind": planning_selectors.nights_unlogged_said(site, last_nights, today),
             "recent_service": planning_selectors.recent_service(site)[:8],
             "parts_to_see_to": workorder_selectors.parts_low_or_short(site),
             "telescopes_out": workorder_selectors.telescopes_out([site]).values(),
@@ -88,12 +82,6 @@ def site_dashboard(request, slug):
             "open_work_orders": _open_orders(site, today),
         },
     )
-
-
-def _nights_behind(last_nights: list, today) -> int:
-    """The nights from the newest logged one to yesterday, none logged (0 when nothing is logged yet)."""
-    newest = max((row.night for row in last_nights), default=None)
-    return max((today - newest).days - 1, 0) if newest else 0
 
 
 def _open_orders(site, today) -> list:

@@ -31,7 +31,7 @@ from observatory_ops.calc import exposure, reliability
 from observatory_ops.calc.night_of import night_of
 from observatory_ops.logbook.models import WITHOUT_ORDER_OR_PLAN, NightUsage, ServiceRecord, maintenance_type
 from observatory_ops.planning.models import ServicePlan
-from observatory_ops.planning.services import UsageLog, closed_alone, site_today, zero_closed_alone
+from observatory_ops.planning.services import UsageLog, site_today
 from observatory_ops.registry.catalogue import KINDS
 from observatory_ops.registry.models import Site, Subsystem, is_shared_enclosure
 from observatory_ops.workorders.models import State, WorkOrder, WorkOrderItem
@@ -433,20 +433,12 @@ def site_reliability(site: Site, today: dt.date | None = None, period: Period | 
     first_night = logged.min().astype(dt.date) if len(logged) else None
     last_night = logged.max().astype(dt.date) if len(logged) else None
     starts, earlier = _starts(subsystems, site, first_night, today)
+    # A telescope closed alone has a log of its own, the site's use not counted on its closed nights (UsageLog).
     cumulative = {key: exposure.running_totals(log.columns["open_hours"]) for key, log in logs.items()}
-    # A telescope closed alone (planning.models.Closure) counts none of the site's nights logged for the others, as
-    # its forecasts do (planning.services.zero_closed_alone): its hours are kept apart, as (log key, telescope).
-    alone = closed_alone(site)
-    for telescope_id, spans in alone.items():
-        key = UsageLog.key_for(logs, telescope_id, False)
-        cumulative[(key, telescope_id)] = exposure.running_totals(
-            zero_closed_alone(logs[key], logs[key].columns["open_hours"], spans))
 
-    def hours_before(key: int | None | tuple, day: dt.date) -> float:
-        """Open hours of the nights of log ``key`` (or of (log key, a telescope closed alone)) logged before ``day``
-        (``calc.exposure.total_before``)."""
-        log = logs[key[0] if isinstance(key, tuple) else key]
-        return float(exposure.total_before(log.nights, cumulative[key], day))
+    def hours_before(key: int | None, day: dt.date) -> float:
+        """Open hours of the nights of log ``key`` logged before ``day`` (``calc.exposure.total_before``)."""
+        return float(exposure.total_before(logs[key].nights, cumulative[key], day))
 
     failed_at = failures_of_site(site)
 
@@ -468,11 +460,8 @@ def site_reliability(site: Site, today: dt.date | None = None, period: Period | 
         # Its nights: from the day its hours count from (or the period's first) to the day before it was retired (or
         # the period's last).
         end = min(retired_on, last + dt.timedelta(days=1)) if retired_on else last + dt.timedelta(days=1)
-        shared = is_shared_enclosure(site, kind)
-        key = UsageLog.key_for(logs, telescope_id, shared)
+        key = UsageLog.key_for(logs, telescope_id, is_shared_enclosure(site, kind))
         own_first = logs[key].nights[0].astype(dt.date) if len(logs[key].nights) else None
-        if telescope_id in alone and not shared:
-            key = (key, telescope_id)
         base = hours_before(key, max(start.day, first) if first else start.day)
         counted_until = hours_before(key, end)
         total = max(counted_until - base, 0.0)

@@ -413,10 +413,11 @@ def work_order_tick(request, pk):
 
 
 def _posted_day(text: str) -> dt.date | None:
-    """The finish form's day the work was done as posted, or None when it is not a plain date (the form says why)."""
+    """The finish form's day the work was done as posted, read as the form reads it (its field: "2026-11-25" or
+    "25 Nov 2026"), or None when it cannot be read (the form says why)."""
     try:
-        return dt.date.fromisoformat(text.strip())
-    except ValueError:
+        return FinishForm.base_fields["work_done_on"].to_python(text)
+    except forms.ValidationError:
         return None
 
 
