@@ -11,6 +11,7 @@ from __future__ import annotations
 
 import datetime as dt
 
+import numpy as np
 import pytest
 from django.core.exceptions import ValidationError
 from django.urls import reverse
@@ -42,8 +43,10 @@ def test_a_coming_closure_of_the_telescope_moves_its_counters_past_its_nights(sc
     _closure(site, first, last, "mount overhaul", telescope=plan.subsystem.telescope)
     status = PlanStatus.objects.get(plan=plan)
     assert status.forecast_date == _reached(today, (first, last)) == today + dt.timedelta(days=17)
-    assert (f"no use on the 5 nights of the closure of F50 (mount overhaul) ({first:%d %b %Y} to {last:%d %b %Y}): "
+    assert (f"no use on the 5 nights of the closure of F50 for mount overhaul ({first:%d %b %Y} to {last:%d %b %Y}): "
             "the telescope does not observe") in status.basis
+    # The one-line why names it too (the due list, the API, the digest): a user review found the date moved unsaid.
+    assert ", none on the nights of the closure of F50 for mount overhaul; forecast " in status.reason
 
 
 def test_a_closure_of_the_whole_site_does_the_same_and_deleting_it_moves_them_back(scene):  # noqa: F811
@@ -52,7 +55,7 @@ def test_a_closure_of_the_whole_site_does_the_same_and_deleting_it_moves_them_ba
     closure = _closure(site, first, last, "winter shutdown")
     status = PlanStatus.objects.get(plan=plan)
     assert status.forecast_date == _reached(today, (first, last)) == today + dt.timedelta(days=22)
-    assert "the 10 nights of the closure of the whole site (winter shutdown)" in status.basis
+    assert "the 10 nights of the closure of the whole site for winter shutdown" in status.basis
     assert "nothing is observed" in status.basis
     closure.delete()
     services.site_recompute(site)
@@ -227,13 +230,13 @@ def test_an_enclosure_two_telescopes_share_expects_no_use_while_the_whole_site_i
     services.site_recompute(site)
     status = PlanStatus.objects.get(plan=plan)
     assert status.forecast_date == _reached(today, (first, last)) == today + dt.timedelta(days=17)
-    assert "the closure of A40 (mount overhaul)" in status.basis
+    assert "the closure of A40 for mount overhaul" in status.basis
     Subsystem.objects.filter(telescope=b40).delete()
     Closure.objects.all().delete()
     _closure(site, first, last, "winter shutdown")
     status = PlanStatus.objects.get(plan=plan)
     assert status.forecast_date == _reached(today, (first, last)) == today + dt.timedelta(days=17)
-    assert (f"no use on the 5 nights of the closure of the whole site (winter shutdown) ({first:%d %b %Y} to "
+    assert (f"no use on the 5 nights of the closure of the whole site for winter shutdown ({first:%d %b %Y} to "
             f"{last:%d %b %Y}): every telescope of the site is out of service, so the enclosure they share is not "
             "opened") in status.basis
 
@@ -377,7 +380,8 @@ def test_a_mirrors_recoat_line_forecast_steps_over_a_closure_as_the_plans_do(sce
     _closure(site, today, today + dt.timedelta(days=200), "winter shutdown")
     after = mirror_services.mirror_forecast(_afresh(mirror), today)
     assert after.crossing == before.crossing + dt.timedelta(days=201)
-    assert after.downtime_note.startswith("no use on the 201 nights of the closure of the whole site (winter shutdown)")
+    assert after.downtime_note.startswith(
+        "no use on the 201 nights of the closure of the whole site for winter shutdown")
 
 
 def _afresh(mirror):
@@ -385,3 +389,40 @@ def _afresh(mirror):
     from observatory_ops.mirrors.models import Mirror
 
     return Mirror.objects.get(pk=mirror.pk)
+
+
+def test_the_dashboard_says_a_telescope_is_closed_in_its_panel_and_the_admin_warns_of_a_booked_run(
+    scene, users, engineer_in_admin  # noqa: F811
+):
+    """A user review looked for a closure under way in the telescope's panel, and closed the site over a booked
+    campaign unwarned."""
+    from observatory_ops.planning.models import BookedRun
+
+    site, today, plan, mirror = scene
+    BookedRun.objects.create(site=site, title="Comet campaign", starts_on=today + dt.timedelta(days=3),
+                             ends_on=today + dt.timedelta(days=9))
+    response = engineer_in_admin.post(reverse("admin:planning_closure_add"), {
+        "site": site.pk, "telescope": plan.subsystem.telescope_id, "first_night": today.isoformat(),
+        "last_night": (today + dt.timedelta(days=4)).isoformat(), "reason": "mount overhaul"}, follow=True)
+    page = response.content.decode()
+    assert (f"The booked run Comet campaign ({today + dt.timedelta(days=3):%d %b %Y} to "
+            f"{today + dt.timedelta(days=9):%d %b %Y}) falls on nights of this closure.") in page
+    page = engineer_in_admin.get(site.get_absolute_url()).content.decode()
+    assert (f"Closed to the night of {today + dt.timedelta(days=4):%d %b %Y}: mount overhaul.") in page
+    response = engineer_in_admin.post(reverse("admin:planning_closure_add"), {
+        "site": site.pk, "first_night": (today + dt.timedelta(days=20)).isoformat(),
+        "last_night": (today + dt.timedelta(days=21)).isoformat(), "reason": "shut\nagain"})
+    assert "Write the reason on one line" in response.content.decode()
+
+
+def test_overlapping_downtimes_count_their_nights_once_and_say_so():
+    """A user review read "no use on the 21 nights of ...; no use on the 28 nights of ..." as 49 nights where 42 were
+    out: the nights are counted once, and the basis says how many in all. By hand: 0..4 and 3..6 are 7 nights."""
+    first = dt.date(2027, 1, 1)
+    a = services.Downtime(first, first + dt.timedelta(days=4), "the closure of the whole site for winter shutdown")
+    b = services.Downtime(first + dt.timedelta(days=3), first + dt.timedelta(days=6), "the closure of F50 for overhaul")
+    expected, said = services.without_downtime(np.ones(10), first, [a, b])
+    assert list(expected) == [0.0] * 7 + [1.0] * 3
+    assert "no use on the 5 nights of the closure of the whole site" in said
+    assert said.endswith("; 7 nights out in all, those named above counted once each")
+    assert "in all" not in services.without_downtime(np.ones(10), first, [a])[1]

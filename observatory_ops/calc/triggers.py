@@ -34,6 +34,9 @@ class TriggerState:
     #: not said.
     unlogged_from: dt.date | None = None
     unlogged_nights: int = 0
+    #: What takes the telescope out on nights before the forecast day, counted as no use ("the closure of T70 for
+    #: mount overhaul"); "" when nothing does.
+    steps_over: str = ""
 
     @property
     def reached(self) -> bool:

@@ -340,12 +340,16 @@ def mirror_forecast(
     telescope = mirror.subsystem.telescope
     if downtimes is None:
         downtimes = downtimes_of(telescope.site, telescope.pk, False, today)
+    out = [d for d in downtimes if d.mirror_id != mirror.pk]
     expected, said = without_downtime(model.expected(metrics.DUST_HOURS, mirror.dust_sensitivity), model.first_day,
-                                      [d for d in downtimes if d.mirror_id != mirror.pk])
+                                      out)
     result.downtime_note = said.removeprefix("; ")
     expected = expected[(start - model.first_day).days :]
-    result.unlogged_nights = max((today - start).days, 0)
-    result.dust_hours_per_day = float(expected[result.unlogged_nights :][:30].mean())
+    unlogged = max((today - start).days, 0)
+    # Said as the plans say it: the unlogged nights counted as used, those of a downtime not among them.
+    out_days = {d.first + dt.timedelta(days=i) for d in out for i in range((d.last - d.first).days + 1)}
+    result.unlogged_nights = sum(1 for i in range(unlogged) if start + dt.timedelta(days=i) not in out_days)
+    result.dust_hours_per_day = float(expected[unlogged:][:30].mean())
     remaining = [x - result.exposure_now_h for x in (crossing.exposure_h, crossing.early_h, crossing.late_h)]
     offsets = [
         forecast.days_reached([r], expected)[0][0] if math.isfinite(r) else -1 for r in remaining

@@ -210,3 +210,14 @@ class ClosureAdmin(ChoicesNamedWithSite, RecomputesSite, SimpleHistoryAdmin):
     @admin.display(description="Closes")
     def whose(self, obj: Closure) -> str:
         return obj.whose
+
+    def save_model(self, request, obj, form, change):
+        """Saved as entered; a booked run on its nights is warned of (a user review closed the site over a booked
+        campaign unsaid): the recoat planner keeps a blocked run's nights blocked, closed or not."""
+        super().save_model(request, obj, form, change)
+        runs = BookedRun.objects.filter(site=obj.site, starts_on__lte=obj.last_night, ends_on__gte=obj.first_night)
+        for run in runs:
+            self.message_user(request, (
+                f"The booked run {run.title} ({run.starts_on:%d %b %Y} to {run.ends_on:%d %b %Y}) falls on nights of "
+                "this closure. Change the run or the closure: the recoat planner keeps the nights of a run booked as "
+                "blocked blocked, closed or not."), messages.WARNING)

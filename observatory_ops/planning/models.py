@@ -533,6 +533,14 @@ class BookedRun(models.Model):
             raise ValidationError({"ends_on": "A run cannot end before it starts."})
 
 
+def validate_reason_on_one_line(value: str) -> None:
+    """A closure's reason, said in every basis it moves: one line, as a name is (``validate_one_line``)."""
+    try:
+        validate_one_line(value)
+    except ValidationError:
+        raise ValidationError("Write the reason on one line, without tabs or other control characters.") from None
+
+
 #: The longest closure taken, in nights: a telescope out for longer is retired (its subsystems), not closed.
 CLOSURE_NIGHTS_MAX = 731
 
@@ -551,7 +559,7 @@ class Closure(models.Model):
         help_text="Empty: the whole site is closed, every telescope and the enclosure.")
     first_night = models.DateField(help_text="The first night not observed, named by the evening's date.")
     last_night = models.DateField(help_text="The last night not observed; observing starts again the night after.")
-    reason = models.CharField(max_length=200, validators=[validate_one_line],
+    reason = models.CharField(max_length=200, validators=[validate_reason_on_one_line],
                               help_text="Said with every forecast it moves, such as \"winter shutdown\" or \"mount "
                                         "overhaul\".")
 

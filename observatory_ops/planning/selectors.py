@@ -567,7 +567,8 @@ def expected_use_by_month(subsystem: Subsystem, plans: list[ServicePlan]) -> dic
         "darkness_leads_up_to": forecast.DARKNESS_LEADS_UP_TO, "by_night": any(row["by_night"] for row in rows),
         "clean_air": exposure.CLEAN_AIR_PM10_UGM3,
         "downtimes": [f"{d.what} ({d.first:%d %b %Y} to {d.last:%d %b %Y}"
-                      f"{'; ' + d.changed if d.changed else ''}): {d.out}" for d in downtimes],
+                      f"{'; ' + d.changed if d.changed else ''}): {d.out}" for d in downtimes
+                      if d.last >= model.first_day],  # those over the table's nights, not long past
     }
 
 

@@ -796,6 +796,7 @@ def _site_recompute(site: Site, today: dt.date) -> int:
                     unit=metrics.METRICS[metric][1],
                     **_unlogged_said(model, first_day, baselines[plan.pk], today,
                                      downtime[out] if out is not None else []),
+                    steps_over=_steps_over(downtime[out] if out is not None else [], first_day, dates[0]),
                 )
             )
 
@@ -829,6 +830,15 @@ def _counted_nights(baseline: dt.date, log_ends: dt.date | None) -> str:
     if log_ends is None or baseline > log_ends:
         return f"now: no night logged since {baseline:%d %b %Y}; coming: "
     return f"now: the logged nights of {baseline:%d %b %Y} to {log_ends:%d %b %Y}, both included; coming: "
+
+
+def _steps_over(downtimes: list[Downtime], first_day: dt.date, forecast_on: dt.date | None) -> str:
+    """What a counter's one-line reason names of ``downtimes``: those on nights from ``first_day`` (the first not
+    logged) to its forecast day (to the horizon when it has none), whose nights it counts no use on, in words
+    ("the closure of T70 for mount overhaul and the planned recoat of T70: Primary mirror"). "" when none."""
+    names = list(dict.fromkeys(d.what for d in downtimes
+                               if d.last >= first_day and (forecast_on is None or d.first <= forecast_on)))
+    return " and ".join(names)
 
 
 def _unlogged_said(model: UsageModel, first_day: dt.date, baseline: dt.date, today: dt.date,
@@ -1185,10 +1195,10 @@ def _downtime_by_telescope(site: Site, today: dt.date) -> dict[int, list[Downtim
 def closure_downtime(closure) -> Downtime:
     """A closure (``planning.models.Closure``) as the forecasts take it: no use on its nights."""
     if closure.telescope_id is None:
-        return Downtime(closure.first_night, closure.last_night, f"the closure of the whole site ({closure.reason})",
+        return Downtime(closure.first_night, closure.last_night, f"the closure of the whole site for {closure.reason}",
                         "nothing is observed")
-    return Downtime(closure.first_night, closure.last_night, f"the closure of {closure.telescope.name} "
-                    f"({closure.reason})", "the telescope does not observe")
+    return Downtime(closure.first_night, closure.last_night,
+                    f"the closure of {closure.telescope.name} for {closure.reason}", "the telescope does not observe")
 
 
 def downtimes_of(site: Site, telescope_id: int, whole_site: bool, today: dt.date) -> list[Downtime]:
@@ -1242,12 +1252,18 @@ def without_downtime(expected: np.ndarray, first_day: dt.date, downtimes: list[D
     """``expected`` (a counter's use per night from ``first_day`` on) with the nights of ``downtimes`` set to 0, and
     what its basis says of them."""
     expected, said = expected.copy(), ""
+    out = np.zeros(len(expected), dtype=bool)
+    named = 0
     for down in downtimes:
         start = max((down.first - first_day).days, 0)
         stop = min((down.last - first_day).days + 1, len(expected))
         if stop > start:
-            expected[start:stop] = 0.0
+            out[start:stop] = True
+            named += stop - start
             said += down.basis(stop - start)
+    expected[out] = 0.0
+    if named > int(out.sum()):  # downtimes overlapping (an overhaul through a shutdown): their nights once each
+        said += f"; {int(out.sum())} nights out in all, those named above counted once each"
     return expected, said
 
 
@@ -1400,6 +1416,8 @@ def reason_text(state: TriggerState) -> str:
         if state.rate_per_day is not None and state.metric != metrics.CALENDAR_DAYS:
             head += (f", about {rate_text(state.rate_per_day)} {metrics.rate_unit(state.metric, unit)} per day "
                      "expected over the next 30 days")
+        if state.steps_over and not state.reached:
+            head += f", none on the nights of {state.steps_over}"
     if state.reached and state.metric == metrics.READING and state.forecast:
         # The day of the first reading past the limit (``_reading_state``), not where the trend crosses it.
         return f"{head}; limit reached since the reading of {state.forecast:%d %b %Y}."

@@ -49,9 +49,12 @@ def site_dashboard(request, slug):
     telescopes = [(t, subsystem_tree(t), tube_warning(t)) for t in site.telescopes.all()]
     taken_down = telescopes_taken_down(site)  # every subsystem retired: not "to register"
     last_nights = logbook_selectors.last_nights(site)
+    today = site_today(site)
+    closures = planning_selectors.closures_listed(site, today)
     for telescope, _, _ in telescopes:
         telescope.taken_down_on = taken_down.get(telescope.pk)
-    today = site_today(site)
+        # A closure under way, its own or the whole site's, said in its panel (a user review looked there first).
+        telescope.closed_now = next((c for c in closures if c.state == "under way" and c.covers(telescope.pk)), None)
     # Each recoat's nights as its orders now stand, as the forecasts count them, and their cost (with_days_out).
     downtime = mirror_services.with_days_out(mirror_services.downtime_planned(site, today), today)
     runs_over = mirror_services.runs_over_each_recoat(site, today, downtime)
@@ -77,7 +80,7 @@ def site_dashboard(request, slug):
             "parts_to_see_to": workorder_selectors.parts_low_or_short(site),
             "telescopes_out": workorder_selectors.telescopes_out([site]).values(),
             "downtime": downtime,
-            "closures": planning_selectors.closures_listed(site, today),
+            "closures": closures,
             "recoats_of_retired": mirror_services.recoats_of_retired(site),
             "open_work_orders": _open_orders(site, today),
         },
