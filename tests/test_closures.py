@@ -426,3 +426,17 @@ def test_overlapping_downtimes_count_their_nights_once_and_say_so():
     assert "no use on the 5 nights of the closure of the whole site" in said
     assert said.endswith("; 7 nights out in all, those named above counted once each")
     assert "in all" not in services.without_downtime(np.ones(10), first, [a])[1]
+
+
+def test_the_charts_forecast_line_is_level_over_a_closure():
+    """A user review read a chart's straight dashed line as use through the shutdown the table said was closed. By
+    hand: 100 to go from 0 over 10 days, 4 of them closed (days 3 to 6): 6 rising days of 100/6 each."""
+    from observatory_ops.planning.plots import _forecast_path
+
+    today = dt.date(2027, 1, 1)
+    path = _forecast_path(today, 0.0, today + dt.timedelta(days=10), 100.0,
+                          [(today + dt.timedelta(days=3), today + dt.timedelta(days=6))])
+    assert [(d - today).days for d, _ in path] == [0, 2, 6, 10]
+    assert [round(v, 6) for _, v in path] == [0.0, round(200 / 6, 6), round(200 / 6, 6), 100.0]
+    assert _forecast_path(today, 0.0, today + dt.timedelta(days=10), 100.0, []) == [
+        (today, 0.0), (today + dt.timedelta(days=10), 100.0)]

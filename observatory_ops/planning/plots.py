@@ -85,13 +85,15 @@ def accumulation_svg(
     title: str = "",
     metric: str = "",
     described_by: str = "",
+    flat: Sequence[tuple[dt.date, dt.date]] = (),
 ) -> SafeString:
     """Accumulated value against time, the limit, today, and the forecast with its band.
 
-    The forecast is drawn as a dashed line from today's value to the limit at the forecast date; the band
-    (earliest to latest) as a shaded strip, drawn to the plot's end when the slow case runs past it. A limit
-    already reached is marked on the day it was reached (the "forecast" of a reached trigger). The limit is
-    written as ``models.figure_text`` writes the ``metric``'s figures.
+    The forecast is drawn as a dashed line from today's value to the limit at the forecast date, level over the
+    nights of ``flat`` (downtimes: a closure, a recoat, (first, last) both counted, on which it counts no use) and
+    rising evenly over the rest; the band (earliest to latest) as a shaded strip, drawn to the plot's end when the
+    slow case runs past it. A limit already reached is marked on the day it was reached (the "forecast" of a reached
+    trigger). The limit is written as ``models.figure_text`` writes the ``metric``'s figures.
     """
     start = points[0][0] if points else today - dt.timedelta(days=30)
     end = max(d for d in (today, forecast, latest, earliest) if d is not None) + dt.timedelta(days=7)
@@ -102,10 +104,28 @@ def accumulation_svg(
     if forecast and forecast < today:  # already reached: mark the day, draw no line back in time
         chart.marker(forecast, limit, f"limit reached {forecast:%d %b %Y}")
     elif forecast:
-        chart.line([(today, value_now), (forecast, limit)], dashed=True, width=1.5)
+        chart.line(_forecast_path(today, value_now, forecast, limit, flat), dashed=True, width=1.5)
         chart.marker(forecast, limit, f"forecast {forecast:%d %b %Y}")
     chart.vline(today, "today")
     return chart.svg()
+
+
+def _forecast_path(today: dt.date, value_now: float, forecast: dt.date, limit: float,
+                   flat: Sequence[tuple[dt.date, dt.date]]) -> list[tuple[dt.date, float]]:
+    """The forecast's dashed path from (today, value_now) to (forecast, limit): level on the days of ``flat`` between
+    them, rising evenly on the others (a sketch of the forecast, whose own steps follow each night's expected use)."""
+    days = [today + dt.timedelta(days=i) for i in range((forecast - today).days + 1)]
+    out = {d for first, last in flat for d in days if first <= d <= last}
+    rising_days = sum(1 for d in days[1:] if d not in out)
+    if not out or not rising_days:
+        return [(today, value_now), (forecast, limit)]
+    step, value, path = (limit - value_now) / rising_days, value_now, [(today, value_now)]
+    for before, day in zip(days, days[1:], strict=False):
+        if (day in out) != (before in out):  # a turn: the line bends where a downtime begins or ends
+            path.append((before, value))
+        value += 0.0 if day in out else step
+    path.append((forecast, limit))
+    return path
 
 
 def readings_svg(

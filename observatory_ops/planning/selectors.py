@@ -581,12 +581,13 @@ def plans_with_plots(subsystem: Subsystem) -> list[ServicePlan]:
     and plan-<pk>-caption."""
     from observatory_ops.mirrors.services import mirror_forecast  # mirrors builds on planning
 
-    from .services import UsageLog, site_today
+    from .services import UsageLog, downtimes_of, site_today
 
     site = subsystem.telescope.site
     today = site_today(site)
     plans = list(plans_with_status(subsystem))
     log = None
+    flat = None  # the downtimes the forecasts step over, for the charts (read at the first chart of use)
     for plan in plans:
         status = getattr(plan, "status", None)  # a plan not computed yet has none
         plan.plot, plan.caption, plan.unread, plan.default_limits = None, "", [], default_limit_notes(plan)
@@ -641,9 +642,13 @@ def plans_with_plots(subsystem: Subsystem) -> list[ServicePlan]:
                 log.nights, log.per_night(status.metric, plan.dust_sensitivity), baseline
             )
             points = [(baseline, 0.0)] + list(zip(counted.astype(object), totals.tolist(), strict=True))
+        if status.metric != metrics.CALENDAR_DAYS and flat is None:  # its telescope's downtimes, read once a page
+            flat = [(d.first, d.last) for d in downtimes_of(site, subsystem.telescope_id,
+                                                            is_shared_enclosure(site, subsystem.kind), today)]
         plan.plot = plots.accumulation_svg(
             points, status.limit, status.unit, today, status.value, status.forecast_date, status.earliest,
             status.latest, title=title, metric=status.metric, described_by=described,
+            flat=flat if status.metric != metrics.CALENDAR_DAYS else (),
         )
     return plans
 
