@@ -17,6 +17,7 @@ from django.core.exceptions import ValidationError
 from django.urls import reverse
 from test_downtime_in_forecasts import COUNTED, PER_NIGHT, _reached, scene  # noqa: F401  (the scene is a fixture)
 
+from observatory_ops.calc.windows import Phase
 from observatory_ops.logbook.models import NightUsage
 from observatory_ops.mirrors import services as mirror_services
 from observatory_ops.planning import services
@@ -141,6 +142,12 @@ def test_the_recoat_planner_prices_closed_nights_at_nothing(scene):  # noqa: F81
             assert (c.cost, c.closed) == (0.0, "F50 closed: mount overhaul")
         else:  # 5 moonless dark hours x 0.8
             assert c.cost == pytest.approx(4.0) and c.closed == ""
+    # A window's nights that the closure takes anyway are said beside its nights lost.
+    found = mirror_services.recoat_windows(mirror, today, 30, [Phase("removal", 3, "removal")])["windows"]
+    for window in found:
+        nights = {window["start"] + dt.timedelta(days=i) for i in range(window["nights"])}
+        assert window["closed_nights"] == sum(1 for n in nights if first <= n <= last)
+    assert found[0]["closed_nights"] == found[0]["nights"]  # the cheapest lies in the closure
     # Hours lost over the closure and two nights either side: the four open nights alone, 4 x 4 h.
     assert mirror_services.hours_lost(site, first - dt.timedelta(days=2), last + dt.timedelta(days=2),
                                       telescope) == pytest.approx(16.0)

@@ -1129,11 +1129,15 @@ def recoat_windows(mirror: Mirror, start: dt.date, horizon_days: int, phases: li
     due = recoat_due(mirror)
     committed = _recoats_planned_at(site, mirror, start, start + dt.timedelta(days=horizon_days))
     dark_hours = {c.night: c.dark_hours for c in costs}
+    closed = {c.night for c in costs if c.closed}
     for window in found:  # a window starting after the recoat plan is due: the due list shows it overdue by then
         window["late"] = bool(due and due.forecast_date and window["start"] > due.forecast_date)
         end = window["start"] + dt.timedelta(days=window["nights"] - 1)
         window["crew_committed"] = [p for p in committed if p.out.first <= end and window["start"] <= p.out.last]
         window["realignment_undark"] = _realignment_without_darkness(window["phases"], dark_hours)
+        # Its nights that a closure takes anyway: out of service, but not lost to the recoat (they cost nothing).
+        window["closed_nights"] = sum(1 for i in range(window["nights"])
+                                      if window["start"] + dt.timedelta(days=i) in closed)
     return {"windows": found, "days": days, "calendar": calendar, "lead_blanks": range(lead), "due": due,
             "committed": committed, "booked_runs": booked_runs, "days_off": days_off,
             "crew_rest_days": windows.weekdays_text(windows.EVERY_DAY - crew)}
