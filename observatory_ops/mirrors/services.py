@@ -337,8 +337,8 @@ def mirror_forecast(
     # The nights after the last logged one (and after the coating) are taken as used at the expected rate, as the
     # plans take them: the forecast counts from the first of them, and a crossing among them is today.
     start = max(model.first_day, last.coated_on)
-    telescope = mirror.subsystem.telescope
-    if downtimes is None:
+    if downtimes is None:  # the recompute passes them, its mirrors read without their telescope
+        telescope = mirror.subsystem.telescope
         downtimes = downtimes_of(telescope.site, telescope.pk, False, today)
     out = [d for d in downtimes if d.mirror_id != mirror.pk]
     expected, said = without_downtime(model.expected(metrics.DUST_HOURS, mirror.dust_sensitivity), model.first_day,
