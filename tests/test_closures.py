@@ -15,7 +15,13 @@ import numpy as np
 import pytest
 from django.core.exceptions import ValidationError
 from django.urls import reverse
-from test_downtime_in_forecasts import COUNTED, PER_NIGHT, _reached, scene  # noqa: F401  (the scene is a fixture)
+from test_downtime_in_forecasts import (  # noqa: F401  (the scene is a fixture)
+    COUNTED,
+    PER_NIGHT,
+    _reached,
+    scene,
+    shared_enclosure_site,
+)
 
 from observatory_ops.calc.windows import Phase
 from observatory_ops.logbook.models import NightUsage
@@ -212,17 +218,10 @@ def test_an_enclosure_two_telescopes_share_expects_no_use_while_the_whole_site_i
     """The enclosure opens for either telescope (tests/test_downtime_in_forecasts.py): one telescope closed alone
     leaves it counting as before, unless the other is taken down (a review: it kept the enclosure open); the whole site
     closed, it expects no use on those nights, named so. Hand count as above (8 h a night from today, 100 h to go)."""
-    from conftest import constant_sky
-
     from observatory_ops.planning.models import ServicePlan, Trigger
     from observatory_ops.registry.models import Subsystem
 
-    site = Site.objects.create(name="Twin Knoll", slug="twin-knoll", latitude_deg=0, longitude_deg=0, time_zone="UTC",
-                               shared_enclosure=True)
-    today = services.site_today(site)
-    constant_sky(site, today - dt.timedelta(days=400), today + dt.timedelta(days=services.HORIZON_DAYS + 5))
-    NightUsage.objects.bulk_create(NightUsage(site=site, night=today - dt.timedelta(days=i), open_hours=PER_NIGHT)
-                                   for i in range(1, 401))
+    site, today = shared_enclosure_site()
     a40, _ = (Telescope.objects.create(site=site, name=name, aperture_m=0.4, mount="fork") for name in ("A40", "B40"))
     dome = Subsystem.objects.create(telescope=a40, kind="enclosure", name="Dome")
     plan = ServicePlan.objects.create(subsystem=dome, name="Dome drives", counting_from=today - dt.timedelta(days=10),

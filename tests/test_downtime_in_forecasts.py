@@ -48,6 +48,20 @@ def scene(users):
     return site, today, plan, mirror
 
 
+def shared_enclosure_site() -> tuple[Site, dt.date]:
+    """An invented site whose telescopes share one enclosure, with the scene's sky and log (8 h on each of the last
+    400 nights), and its today."""
+    from conftest import constant_sky
+
+    site = Site.objects.create(name="Twin Knoll", slug="twin-knoll", latitude_deg=0, longitude_deg=0, time_zone="UTC",
+                               shared_enclosure=True)
+    today = services.site_today(site)
+    constant_sky(site, today - dt.timedelta(days=400), today + dt.timedelta(days=services.HORIZON_DAYS + 5))
+    NightUsage.objects.bulk_create(NightUsage(site=site, night=today - dt.timedelta(days=i), open_hours=PER_NIGHT)
+                                   for i in range(1, 401))
+    return site, today
+
+
 def _reached(today: dt.date, down: tuple[dt.date, dt.date] | None, limit: float = LIMIT) -> dt.date:
     """The night the remaining hours are used, adding 8 h a night from ``today`` (the first night not logged), none
     on the recoat's nights."""
@@ -102,14 +116,7 @@ def test_an_enclosure_all_telescopes_share_expects_no_use_only_on_the_nights_all
     those nights alone (the same hand count as above: 8 h a night, 340 h to go, so that the limit is reached after the
     two recoats whatever weekday the test runs on: from a Saturday, their crew's days off put the overlap after a
     nearer limit)."""
-    from conftest import constant_sky
-
-    site = Site.objects.create(name="Twin Knoll", slug="twin-knoll", latitude_deg=0, longitude_deg=0, time_zone="UTC",
-                               shared_enclosure=True)
-    today = services.site_today(site)
-    constant_sky(site, today - dt.timedelta(days=400), today + dt.timedelta(days=services.HORIZON_DAYS + 5))
-    NightUsage.objects.bulk_create(NightUsage(site=site, night=today - dt.timedelta(days=i), open_hours=PER_NIGHT)
-                                   for i in range(1, 401))
+    site, today = shared_enclosure_site()
     mirrors = []
     for name in ("A40", "B40"):
         telescope = Telescope.objects.create(site=site, name=name, aperture_m=0.4, mount="fork")
