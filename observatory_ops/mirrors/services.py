@@ -32,6 +32,7 @@ from observatory_ops.planning.services import (
     UsageLog,
     UsageModel,
     band_start,
+    downtime_days,
     downtimes_of,
     forecast_model,
     recoat_downtime,
@@ -347,7 +348,7 @@ def mirror_forecast(
     expected = expected[(start - model.first_day).days :]
     unlogged = max((today - start).days, 0)
     # Said as the plans say it: the unlogged nights counted as used, those of a downtime not among them.
-    out_days = {d.first + dt.timedelta(days=i) for d in out for i in range((d.last - d.first).days + 1)}
+    out_days = downtime_days(out)
     result.unlogged_nights = sum(1 for i in range(unlogged) if start + dt.timedelta(days=i) not in out_days)
     result.dust_hours_per_day = float(expected[unlogged:][:30].mean())
     remaining = [x - result.exposure_now_h for x in (crossing.exposure_h, crossing.early_h, crossing.late_h)]

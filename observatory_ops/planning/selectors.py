@@ -700,15 +700,13 @@ def nights_unlogged_said(site, last_nights: list, today: dt.date) -> int:
     logged but those of a closure of the whole site (nothing to log then), when more than
     ``services.UNLOGGED_NIGHTS_SAID``: the forecasts count them as used, and the dashboard says so. 0 otherwise."""
     from .models import Closure
-    from .services import UNLOGGED_NIGHTS_SAID
+    from .services import UNLOGGED_NIGHTS_SAID, closure_downtime, downtime_days
 
     newest = max((row.night for row in last_nights), default=None)
     if newest is None or (today - newest).days - 1 <= UNLOGGED_NIGHTS_SAID:
         return 0
     first, last = newest + dt.timedelta(days=1), today - dt.timedelta(days=1)
-    closed = set()
-    for start, end in Closure.objects.filter(site=site, telescope__isnull=True, first_night__lte=last,
-                                             last_night__gte=first).values_list("first_night", "last_night"):
-        closed |= {start + dt.timedelta(days=i) for i in range((end - start).days + 1)}
+    closed = downtime_days(closure_downtime(c) for c in Closure.objects.filter(
+        site=site, telescope__isnull=True, first_night__lte=last, last_night__gte=first))
     behind = sum(1 for i in range((last - first).days + 1) if first + dt.timedelta(days=i) not in closed)
     return behind if behind > UNLOGGED_NIGHTS_SAID else 0

@@ -850,7 +850,7 @@ def _unlogged_said(model: UsageModel, first_day: dt.date, baseline: dt.date, tod
     since = max(first_day, baseline)
     if model.unlogged_nights <= UNLOGGED_NIGHTS_SAID or since >= today:
         return {}
-    out = {d.first + dt.timedelta(days=i) for d in downtimes for i in range((d.last - d.first).days + 1)}
+    out = downtime_days(downtimes)
     counted = sum(1 for i in range((today - since).days) if since + dt.timedelta(days=i) not in out)
     return {"unlogged_from": since, "unlogged_nights": counted} if counted else {}
 
@@ -1070,6 +1070,11 @@ class Downtime:
                 f"{self.last:%d %b %Y}{changed}): {self.out}")
 
 
+def downtime_days(downtimes) -> set[dt.date]:
+    """Every night of ``downtimes`` (each with ``first`` and ``last``, both counted), each once."""
+    return {d.first + dt.timedelta(days=i) for d in downtimes for i in range((d.last - d.first).days + 1)}
+
+
 #: How a recoat's downtime is named, before its mirror (``recoat_downtime``); the enclosure's names its recoats so.
 RECOAT_WHAT = "the planned recoat of "
 
@@ -1228,7 +1233,7 @@ def _all_out(downtime: dict[int, list[Downtime]], telescopes: list[int]) -> list
         return []
     out = None
     for telescope in telescopes:
-        days = {d.first + dt.timedelta(days=i) for d in downtime[telescope] for i in range((d.last - d.first).days + 1)}
+        days = downtime_days(downtime[telescope])
         out = days if out is None else out & days
     spans: list[list[dt.date]] = []
     for day in sorted(out):
