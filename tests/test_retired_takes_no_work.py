@@ -440,6 +440,28 @@ def test_an_order_on_a_subsystem_retired_before_it_was_issued_is_said_to_be_with
     assert not ServiceRecord.objects.exists()
 
 
+def test_the_withdraw_sentence_names_only_the_units_retired_before_the_order_was_issued():
+    """The last notes: one unit retired before the order was issued and another while it was underway were both said
+    to be why the order is withdrawn."""
+    from types import SimpleNamespace
+    from zoneinfo import ZoneInfo
+
+    from observatory_ops.workorders.services import retired_underway_problem
+
+    zone = ZoneInfo("UTC")
+    issued = dt.date(2026, 11, 10)
+    order = SimpleNamespace(number="WO-1", site=SimpleNamespace(zone=zone),
+                            issued_at=dt.datetime.combine(issued, dt.time(9), tzinfo=zone))
+    class Unit:  # hashable, as a subsystem is
+        def __init__(self, name: str, retired_on: dt.date):
+            self.name, self.retired_on = name, retired_on
+
+    before, during = Unit("Fans", dt.date(2026, 11, 1)), Unit("Brake", dt.date(2026, 11, 20))
+    said = retired_underway_problem(order, [SimpleNamespace(subsystem=before), SimpleNamespace(subsystem=during)],
+                                    dt.date(2026, 11, 25))
+    assert said.startswith("Fans (retired on 01 Nov 2026) was taken out of service before WO-1 was issued")
+    assert "Brake" not in said
+
 
 def test_a_new_units_page_names_the_retired_units_of_its_kind(scene, old_fans, users, client):  # noqa: F811
     """The last notes: a new unit's page did not name the unit it replaced (``registry.services.predecessors_of``),

@@ -227,20 +227,22 @@ class UsageLog:
         return "the whole site's nights (those sent for the site, not for one telescope)"
 
     @classmethod
-    def of_site(cls, site: Site) -> dict[int | None, UsageLog]:
+    def of_site(cls, site: Site, closures: list | None = None) -> dict[int | None, UsageLog]:
         """Every log of ``site`` in one query: telescope id -> the log of a telescope with rows of its own, and
-        None -> the site's rows alone, the log of every other telescope."""
-        return cls._with_closures(cls._split(NightUsage.objects.filter(site=site)), site)
+        None -> the site's rows alone, the log of every other telescope. ``closures``: the site's
+        (``closures_of``), where the caller has read them already."""
+        return cls._with_closures(cls._split(NightUsage.objects.filter(site=site)),
+                                  closures_of(site) if closures is None else closures)
 
     @classmethod
     def for_telescope(cls, telescope) -> UsageLog:
         logs = cls._with_closures(cls._split(NightUsage.objects.filter(site=telescope.site_id).filter(
             Q(telescope=telescope) | Q(telescope__isnull=True)
-        )), telescope.site_id)
+        )), closures_of(telescope.site_id))
         return logs.get(telescope.pk, logs[None])
 
     @staticmethod
-    def _with_closures(logs: dict[int | None, UsageLog], site) -> dict[int | None, UsageLog]:
+    def _with_closures(logs: dict[int | None, UsageLog], closures: list) -> dict[int | None, UsageLog]:
         """The logs as the site's closures (``planning.models.Closure``) leave them, one rule for every figure made
         from them (the forecasts, the subsystem page's charts, the mirror's exposure, the reliability page's hours):
 
@@ -249,14 +251,11 @@ class UsageLog:
         - a telescope closed alone counts none of the whole site's rows on its closed nights (the dome open for the
           others): the site's rows stand in for it with their counters at 0 there (``closed_alone``), in a log of
           its own when it sends no rows of its own. Its own rows are kept, as sent."""
-        from .models import Closure
-
-        closures = list(Closure.objects.filter(site=site).values_list("telescope_id", "first_night", "last_night"))
         if not closures:
             return logs
         spans: dict[int | None, list[tuple[dt.date, dt.date]]] = {}
-        for telescope_id, first, last in closures:
-            spans.setdefault(telescope_id, []).append((first, last))
+        for closure in closures:
+            spans.setdefault(closure.telescope_id, []).append((closure.first_night, closure.last_night))
         out = dict(logs)
         for telescope_id in spans:
             if telescope_id is not None and telescope_id not in out:  # it counts the site's rows: a log of its own
@@ -689,7 +688,8 @@ def _site_recompute(site: Site, today: dt.date) -> int:
     mirrors = _mirrors_by_subsystem(site) if recoat else {}
     # Each plan counts its telescope's usage (``UsageLog``): a site that logs one row a night has one log and
     # one usage model; a telescope that logs its own nights has its own; a shared enclosure counts the whole site's.
-    logs = UsageLog.of_site(site)
+    closures = closures_of(site)
+    logs = UsageLog.of_site(site, closures)
     models_: dict[int | None, UsageModel] = {}
 
     def usage_of(plan: _Plan) -> tuple[int | None, UsageLog, UsageModel]:
@@ -717,7 +717,7 @@ def _site_recompute(site: Site, today: dt.date) -> int:
         if t.metric == metrics.READING and p.pk in last_service and not readings_of(p, t)
     ])
 
-    downtime = _downtime_by_telescope(site, today)
+    downtime = _downtime_by_telescope(site, today, closures)
     if downtime and any(p.whole_site for p in plans):
         downtime[ALL_OUT] = _all_out(downtime, telescopes_observing(site))
     states: dict[int, list[TriggerState]] = {p.pk: [] for p in plans}
@@ -1178,16 +1178,24 @@ def recoats_in_hand(site: Site) -> list:
     )
 
 
-def _downtime_by_telescope(site: Site, today: dt.date) -> dict[int, list[Downtime]]:
-    """The site's telescopes out of service for a recoat in hand (``recoats_in_hand``) or closed (``Closure``: its
-    own, or the whole site's), each with its downtimes (``recoat_downtime``: its days as its orders now stand;
-    ``closure_downtime``), past days too (unlogged nights are counted from the first of them, ``without_downtime``)."""
+def closures_of(site) -> list:
+    """The closures of ``site`` (a Site or its id; ``planning.models.Closure``), with their telescopes: read once a
+    recompute, for its logs (``UsageLog.of_site``) and its downtimes (``_downtime_by_telescope``)."""
     from .models import Closure
 
+    return list(Closure.objects.filter(site=site).select_related("telescope"))
+
+
+def _downtime_by_telescope(site: Site, today: dt.date, closures: list | None = None) -> dict[int, list[Downtime]]:
+    """The site's telescopes out of service for a recoat in hand (``recoats_in_hand``) or closed (``Closure``: its
+    own, or the whole site's), each with its downtimes (``recoat_downtime``: its days as its orders now stand;
+    ``closure_downtime``), past days too (unlogged nights are counted from the first of them, ``without_downtime``).
+    ``closures``: the site's (``closures_of``), where the caller has read them already."""
     down: dict[int, list[Downtime]] = {}
     for plan in recoats_in_hand(site):
         down.setdefault(plan.mirror.subsystem.telescope_id, []).append(recoat_downtime(plan, today))
-    closures = list(Closure.objects.filter(site=site).select_related("telescope"))
+    if closures is None:
+        closures = closures_of(site)
     every = list(site.telescopes.values_list("pk", flat=True)) if any(c.telescope_id is None for c in closures) else []
     for closure in closures:
         for telescope_id in [closure.telescope_id] if closure.telescope_id else every:

@@ -829,6 +829,9 @@ def retired_underway_problem(order: WorkOrder, items: Sequence[WorkOrderItem], d
     first = late[0].retired_on
     issued = order.issued_at.astimezone(order.site.zone).date() if order.issued_at else None
     if issued is not None and first < issued:
+        # Only those retired before the order was issued are why it is withdrawn; one retired while it was underway
+        # is not named there.
+        named = in_words([f"{s.name} (retired on {s.retired_on:%d %b %Y})" for s in late if s.retired_on < issued])
         return (f"{named} was taken out of service before {order.number} was issued ({issued:%d %b %Y}), so none of "
                 "its work was done on this order: the site engineer withdraws it, and the work is made again for the "
                 "replacement if there is one. If the retire day is wrong, the site engineer corrects it in the admin")
