@@ -498,3 +498,22 @@ def test_a_recompute_reads_the_closures_once(scene):  # noqa: F811
         services.site_recompute(site)
     assert sum('"planning_closure"' in q["sql"] for q in captured.captured_queries
                if q["sql"].lstrip().upper().startswith("SELECT")) == 1
+
+
+def test_the_nightly_log_marks_the_nights_of_a_closure(scene, users, client):  # noqa: F811
+    """The last notes: a night logged during a closure was named when sent, not marked on the nightly log afterwards.
+    The page now says which nights a closure covers, and that the whole site's row counts 0 for a telescope closed
+    alone."""
+    from django.urls import reverse
+
+    site, today, plan, _ = scene
+    telescope = plan.subsystem.telescope
+    _closure(site, today - dt.timedelta(days=3), today - dt.timedelta(days=2), "mount overhaul", telescope=telescope)
+    _closure(site, today - dt.timedelta(days=6), today - dt.timedelta(days=5), "snow")
+    NightUsage.objects.create(site=site, telescope=telescope, night=today - dt.timedelta(days=3), open_hours=2.0)
+    client.force_login(users["viewer"])
+    page = client.get(reverse("nights-list", args=[site.slug])).content.decode()
+    assert page.count("F50 closed (mount overhaul): counts 0 for it") == 2  # the site's rows of the two nights
+    assert page.count("closed: mount overhaul") == 1  # the telescope's own row, as sent
+    assert page.count("closed: snow") == 2
+    assert "A night marked <em>closed</em> is one of a closure" in page

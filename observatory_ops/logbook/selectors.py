@@ -95,6 +95,29 @@ def nights_while_out(site: Site, nights: list[NightUsage]) -> list[str]:
     return said
 
 
+def closed_said(site: Site, nights: list[NightUsage]) -> dict[int, str]:
+    """Night pk -> how the nightly log page marks a night of ``nights`` that a closure (``planning.models.Closure``)
+    covers, as the forecasts take it (``planning.services.UsageLog._with_closures``): a closed night is left out of the
+    history the open fractions and the spread are made from, its hours counting as sent; the whole site's row on a
+    night one telescope is closed alone counts 0 for that telescope."""
+    from observatory_ops.planning.models import Closure
+
+    if not nights:
+        return {}
+    first, last = min(n.night for n in nights), max(n.night for n in nights)
+    closures = list(Closure.objects.filter(site=site, first_night__lte=last, last_night__gte=first)
+                    .select_related("telescope").order_by("telescope__name", "first_night"))
+    said = {}
+    for night in nights:
+        on = [c for c in closures if c.first_night <= night.night <= c.last_night]
+        whole = next((c for c in on if c.covers(night.telescope_id)), None)
+        if whole is not None:
+            said[night.pk] = f"closed: {whole.reason}"
+        elif night.telescope_id is None and on:
+            said[night.pk] = "; ".join(f"{c.telescope.name} closed ({c.reason}): counts 0 for it" for c in on)
+    return said
+
+
 def nights_longer_than_the_night(site: Site, nights: list[NightUsage], now: dt.datetime | None = None) -> list[str]:
     """A sentence for each of ``nights`` whose open hours exceed that night at the site (sunset to sunrise, from the
     sky cache, ``planning.models.NightSky``) by more than ``LONGER_THAN_THE_NIGHT_H``; nights the cache

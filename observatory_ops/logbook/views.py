@@ -36,6 +36,7 @@ from .models import NightUsage, Reading, ServiceRecord
 from .quantities import usual_for_kind
 from .selectors import (
     SERVICE_CSV_HEADER,
+    closed_said,
     reading_already_logged,
     service_already_logged,
     service_records_csv_rows,
@@ -246,9 +247,11 @@ def nights_list(request, slug):
         "-night", F("telescope__name").asc(nulls_first=True)
     )
     page = Paginator(nights, 60).get_page(request.GET.get("page"))
+    closed = closed_said(site, list(page))
     for night in page:
         night.left_out = services.left_out_shown(night)
         night.shown = _figures_shown(night)
+        night.closed = closed.get(night.pk, "")
     # Nights removed as stored by mistake (the admin's "remove" action), newest first, from their history.
     removed = NightUsage.history.filter(site=site, history_type="-").select_related("telescope", "history_user")
     removed_shown = list(removed.order_by("-history_date")[:REMOVED_SHOWN])
