@@ -25,7 +25,7 @@ def test_a_failure_inside_the_api_is_a_json_500_and_the_pages_keep_their_own(cli
     def broken(*_args, **_kwargs):
         raise RuntimeError("a bug")
 
-    monkeypatch.setattr(views, "due_rows", broken)
+    monkeypatch.setattr(views, "due_records", broken)
     client.raise_request_exception = False
     response = client.get("/api/v1/sites/test-hill/due", **auth)
     assert response.status_code == 500 and response["Content-Type"] == "application/json"

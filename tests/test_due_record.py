@@ -150,3 +150,25 @@ def test_the_readme_says_how_each_figure_is_rounded():
     assert f"Rounded to {DUE_RECORD_DECIMALS} decimals" in keys["value"]
     assert f"rounded to {DUE_RECORD_DECIMALS} decimals" in keys["limit"]
     assert f"Rounded to {DUE_RECORD_RATE_FIGURES} significant figures" in keys["rate"]
+
+
+def test_a_plan_that_cannot_be_computed_comes_last_with_its_reason_not_left_out(client, due_site):
+    """An API review: a brake plan watching a reading never logged was missing from the API's list, as if nothing were
+    due on it; the dashboard named it. It now comes last, status ``not_computed``, its figures null, with the
+    dashboard's reason, and with the same keys as every other record (README.md)."""
+    from observatory_ops.planning.models import ServicePlan
+    from observatory_ops.planning.selectors import NOT_COMPUTED
+
+    brake = subsystem_create(due_site.telescopes.first(), "brake", "Axis 1 brake", counting_from=dt.date(2026, 1, 1))
+    plan = ServicePlan.objects.create(subsystem=brake, name="Brake air pressure minimum",
+                                      counting_from=dt.date(2026, 1, 1))
+    plan.triggers.create(metric=metrics.READING, quantity="brake_pressure_bar", limit=4.0, direction="below")
+    site_recompute(due_site)
+    secret = api_services.api_token_create(due_site, "dome computer")[1]
+    api = client.get(reverse("api-due", args=[due_site.slug]), HTTP_AUTHORIZATION=f"Bearer {secret}").json()
+    last = api[-1]
+    assert (last["plan_id"], last["status"], last["kind"], last["value"], last["forecast_date"]) == (
+        plan.pk, NOT_COMPUTED, "brake", None, None)
+    assert "none is logged since the plan's start (01 Jan 2026)" in last["reason"]
+    assert tuple(last) == tuple(readme_table(KEYS))
+    assert all(record["status"] != NOT_COMPUTED for record in api[:-1])

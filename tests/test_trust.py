@@ -85,7 +85,8 @@ def test_backup_and_restore_round_trip(tmp_path):
     def due_list():
         for each in Site.objects.all():
             site_recompute(each, today)
-        return [selectors.due_record(s) for s in selectors.due_rows()]
+        # Less the moment each was computed, which a recompute renews.
+        return [{k: v for k, v in selectors.due_record(s).items() if k != "computed_at"} for s in selectors.due_rows()]
 
     def counts():
         return {

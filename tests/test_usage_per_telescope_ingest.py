@@ -360,14 +360,15 @@ def test_the_api_stores_each_telescopes_night_and_the_same_request_again_changes
     ]
     one = {"created": 1, "updated": 0, "unchanged": 0}
     assert post(client, site, body, secret).json() == {"created": 3, "updated": 0, "unchanged": 0, "by_telescope": {
-        "North": one, "South": one, "": one}, "check": []}
+        "North": one, "South": one, "": one}, "changes": [], "check": []}
     again = {"created": 0, "updated": 0, "unchanged": 1}
     assert post(client, site, body, secret).json() == {"created": 0, "updated": 0, "unchanged": 3, "by_telescope": {
-        "North": again, "South": again, "": again}, "check": []}
+        "North": again, "South": again, "": again}, "changes": [], "check": []}
     assert logged(site) == [(NIGHT, None, 7.5, 0), (NIGHT, "North", 7.5, 41), (NIGHT, "South", 3.25, 12)]
     body[1]["open_hours"] = 4
     assert post(client, site, body, secret).json() == {"created": 0, "updated": 1, "unchanged": 2, "by_telescope": {
-        "North": again, "South": {"created": 0, "updated": 1, "unchanged": 0}, "": again}, "check": []}
+        "North": again, "South": {"created": 0, "updated": 1, "unchanged": 0}, "": again}, "changes": [
+        {"night": "2024-01-05", "telescope": "South", "field": "open_hours", "old": 3.25, "new": 4.0}], "check": []}
     assert logged(site)[2] == (NIGHT, "South", 4.0, 12)
 
 

@@ -9,7 +9,7 @@ from django.http import HttpResponse, JsonResponse
 from observatory_ops.logbook import services
 from observatory_ops.logbook.nights_csv import object_from_pairs
 from observatory_ops.mirrors import calendar_export
-from observatory_ops.planning.selectors import due_record, due_rows
+from observatory_ops.planning.selectors import due_records
 from observatory_ops.planning.services import sites_bring_up_to_date
 
 from .decorators import api_token_required
@@ -66,16 +66,20 @@ def nights_post(request, site):
     if report.errors:
         return errors(400, [(p.position, p.field, p.reason) for p in report.errors])
     # The three counts stay as they were (control software reads them); by_telescope says whose nights they are.
-    # "check": nights stored as sent whose open hours exceed the night at the site, for the operator to look at.
+    # "changes": every figure of a stored night the request changed, as the import page lists them (an API review:
+    # a month of past nights rewritten by a slip showed only as a count). "check": nights stored as sent whose open
+    # hours exceed the night at the site, for the operator to look at.
     return JsonResponse({"created": report.created, "updated": report.updated, "unchanged": report.unchanged,
-                         "by_telescope": report.by_telescope, "check": report.to_check})
+                         "by_telescope": report.by_telescope, "changes": [
+                             {"night": c.night.isoformat(), "telescope": c.telescope, "field": c.column, "old": c.old,
+                              "new": c.new} for c in report.changes], "check": report.to_check})
 
 
 @api_token_required("GET")
 def due_list(request, site):
-    """The site's due list, one object per plan (``planning.selectors.due_record``, as ``due --json`` prints it)."""
+    """The site's due list, one object per plan (``planning.selectors.due_records``, as ``due --json`` prints it)."""
     sites_bring_up_to_date([site])
-    return JsonResponse([due_record(status) for status in due_rows().filter(site=site)], safe=False)
+    return JsonResponse(due_records(site), safe=False)
 
 
 @api_token_required("GET", purpose=ApiToken.Purpose.CALENDAR)

@@ -34,6 +34,9 @@ class TriggerState:
     #: not said.
     unlogged_from: dt.date | None = None
     unlogged_nights: int = 0
+    #: A counter not at its limit by the logged nights, whose expected use passed it on a night not logged yet: that
+    #: night (its forecast is then today). None otherwise.
+    reached_unlogged_on: dt.date | None = None
     #: What takes the telescope out on nights before the forecast day, counted as no use ("the closure of T70 for
     #: mount overhaul"); "" when nothing does.
     steps_over: str = ""

@@ -387,7 +387,11 @@ def _night(raw: object, latest_night: dt.date) -> dt.date:
     """The night a cell or a JSON string names, written exactly as YYYY-MM-DD (``WRITTEN_DATE``)."""
     written = WRITTEN_DATE.fullmatch(raw.strip()) if isinstance(raw, str) else None
     if not written:
-        raise RowError("night", f"night must be a date as YYYY-MM-DD, not {shown(raw)}")
+        # A date with a time (an ISO 8601 timestamp) gets a word on which date: one cut from a UTC time taken after
+        # midnight names the next day (an API review).
+        timed = isinstance(raw, str) and WRITTEN_DATE.match(raw.strip()) and raw.strip()[10:11] in {"T", "t", " "}
+        hint = (": the night is the site's local date of the evening it began, with no time" if timed else "")
+        raise RowError("night", f"night must be a date as YYYY-MM-DD, not {shown(raw)}{hint}")
     try:
         night = dt.date.fromisoformat(written.group())
     except ValueError:

@@ -452,6 +452,11 @@ class PlanStatus(models.Model):
         default=list, help_text="The figures of the plan's other triggers (the governing one is in the columns)."
     )
     computed_at = models.DateTimeField()
+    unlogged_nights = models.PositiveIntegerField(
+        default=0, help_text="Of a counter governing while its log is far behind: the nights not logged that its "
+                             "forecast counts at the expected rate (calc.triggers.TriggerState); 0 otherwise.")
+    reached_unlogged_on = models.DateField(
+        null=True, help_text="The night the expected use passed the limit, not logged yet (then due today).")
 
     @property
     def metric_label(self) -> str:

@@ -340,29 +340,71 @@ def rate_text(rate: float, signed: bool = False, grouped: bool = True) -> str:
 def due_record(status: PlanStatus) -> dict:
     """One plan's due state as a JSON-ready dict: the one serialiser of ``due --json`` and the API's due list; README.md
     (Ingest API) lists its keys. ``page`` is the subsystem page's address, built as the due digest builds its links."""
-    subsystem = status.plan.subsystem
     # The recompute keeps a recoat line's figures without a unit; they are a reflectance, a fraction as a reading is.
     unit = unit_of("reflectance") if status.metric == metrics.RECOAT_LINE else status.unit
     return {
-        "site": subsystem.telescope.site.slug,
-        "telescope": subsystem.telescope.name,
-        "subsystem": f"{subsystem.telescope.name}: {subsystem.name}",
-        "subsystem_id": subsystem.pk,
-        "page": settings.SITE_URL + subsystem.get_absolute_url(),
-        "plan": status.plan.name,
-        "plan_id": status.plan_id,
+        **_plan_keys(status.plan),
         "status": status.status,
         "trigger": status.metric,
         "value": round(status.value, DUE_RECORD_DECIMALS),
         "limit": round(status.limit, DUE_RECORD_DECIMALS),
         "unit": unit,
         "rate": None if status.rate_per_day is None else float(f"{status.rate_per_day:.{DUE_RECORD_RATE_FIGURES}g}"),
-        "forecast_date": status.forecast_date.isoformat() if status.forecast_date else None,
-        "earliest": status.earliest.isoformat() if status.earliest else None,
-        "latest": status.latest.isoformat() if status.latest else None,
+        "forecast_date": _iso(status.forecast_date),
+        "earliest": _iso(status.earliest),
+        "latest": _iso(status.latest),
+        "last_service_on": _iso(status.last_service_on),
         "last_service_unknown": status.last_service_unknown,
+        "unlogged_nights": status.unlogged_nights,
+        "reached_unlogged_on": _iso(status.reached_unlogged_on),
+        "computed_at": status.computed_at.astimezone(dt.UTC).isoformat(timespec="seconds"),
         "reason": status.reason,
     }
+
+
+#: The status of a plan that has no due state (``not_computed_reason``) in ``due_records``: a program reading the
+#: list sees it, where leaving it out would read as nothing due.
+NOT_COMPUTED = "not_computed"
+
+
+def _iso(day: dt.date | None) -> str | None:
+    return day.isoformat() if day else None
+
+
+def _plan_keys(plan: ServicePlan) -> dict:
+    """The keys of a due record that name its plan, subsystem, telescope and site."""
+    subsystem = plan.subsystem
+    return {
+        "site": subsystem.telescope.site.slug,
+        "telescope": subsystem.telescope.name,
+        "telescope_id": subsystem.telescope_id,
+        "subsystem": f"{subsystem.telescope.name}: {subsystem.name}",
+        "subsystem_id": subsystem.pk,
+        "kind": subsystem.kind,
+        "page": settings.SITE_URL + subsystem.get_absolute_url(),
+        "plan": plan.name,
+        "plan_id": plan.pk,
+    }
+
+
+def not_computed_record(plan: ServicePlan) -> dict:
+    """A plan of ``plans_not_computed`` as a due record: its status ``NOT_COMPUTED``, no figures, and why (an API
+    review: a brake check that could not be judged was missing from the list, as if nothing were due)."""
+    return {
+        **_plan_keys(plan), "status": NOT_COMPUTED, "trigger": None, "value": None, "limit": None, "unit": None,
+        "rate": None, "forecast_date": None, "earliest": None, "latest": None, "last_service_on": None,
+        "last_service_unknown": None, "unlogged_nights": 0, "reached_unlogged_on": None, "computed_at": None,
+        "reason": f"Not computed, so left out of the site's counts: {plan.not_computed}.",
+    }
+
+
+def due_records(site: Site | None = None) -> list[dict]:
+    """The due list as programs read it (the API and ``due --json``): every computed plan's ``due_record``, most
+    urgent first, then every plan that cannot be computed yet (``not_computed_record``); of one site, or of all."""
+    rows = due_rows() if site is None else due_rows().filter(site=site)
+    sites = [site] if site is not None else list(Site.objects.order_by("name"))
+    return [due_record(status) for status in rows] + [
+        not_computed_record(plan) for each in sites for plan in plans_not_computed(each)]
 
 
 #: Columns of the due list's CSV download, for people: names as the page shows them, dates in ISO form.

@@ -774,6 +774,7 @@ def _site_recompute(site: Site, today: dt.date) -> int:
         log_begins = _as_date(log.nights[0]) if len(log.nights) else None
         log_ends = _as_date(log.nights[-1]) if len(log.nights) else None
         for i, (plan, trig) in enumerate(members):
+            expected_on = None
             if values[i] >= limits[i]:
                 on = _as_date(reached[i])
                 dates = (on, on, on)
@@ -797,6 +798,7 @@ def _site_recompute(site: Site, today: dt.date) -> int:
                     **_unlogged_said(model, first_day, baselines[plan.pk], today,
                                      downtime[out] if out is not None else []),
                     steps_over=_steps_over(downtime[out] if out is not None else [], first_day, dates[0]),
+                    reached_unlogged_on=expected_on if unlogged else None,
                 )
             )
 
@@ -817,7 +819,7 @@ def _site_recompute(site: Site, today: dt.date) -> int:
         rows.append((
             plan.pk, site.pk, status, STATUSES.index(status), gov.metric, float(gov.value), float(gov.limit), gov.unit,
             gov_rate, gov.forecast, gov.earliest, gov.latest, last_service.get(plan.pk), plan.pk in unknown,
-            reason, gov.basis, [_state_json(s) for s in others], now,
+            reason, gov.basis, [_state_json(s) for s in others], now, gov.unlogged_nights, gov.reached_unlogged_on,
         ))
     PlanStatus.objects.filter(site=site).delete()
     _insert_all(PlanStatus, STATUS_COLUMNS, rows)
@@ -879,6 +881,7 @@ def _before_the_log(baseline: dt.date, log_begins: dt.date | None) -> str:
 STATUS_COLUMNS = (
     "plan", "site", "status", "urgency", "metric", "value", "limit", "unit", "rate_per_day", "forecast_date",
     "earliest", "latest", "last_service_on", "last_service_unknown", "reason", "basis", "triggers", "computed_at",
+    "unlogged_nights", "reached_unlogged_on",
 )
 
 

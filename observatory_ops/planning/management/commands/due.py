@@ -15,17 +15,15 @@ class Command(BaseCommand):
         parser.add_argument("--json", action="store_true", dest="as_json", help="print a JSON list, one per plan")
 
     def handle(self, *args, site=None, as_json=False, **options):
-        rows = selectors.due_rows()
         target = None
         if site:
             target = Site.objects.filter(slug=site).first()
             if target is None:
                 raise CommandError(f"no site with slug {site!r}")
-            rows = rows.filter(site=target)
         sites_bring_up_to_date([target] if target else None)
-        records = [selectors.due_record(s) for s in rows]
+        records = selectors.due_records(target)
         if as_json:
             self.stdout.write(json.dumps(records, indent=1))
             return
-        for r, s in zip(records, rows, strict=True):
-            self.stdout.write(f"[{s.status:<7}] {r['subsystem']}: {r['plan']}\n          {s.reason}")
+        for r in records:
+            self.stdout.write(f"[{r['status']:<7}] {r['subsystem']}: {r['plan']}\n          {r['reason']}")
