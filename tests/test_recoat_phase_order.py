@@ -288,11 +288,15 @@ def test_a_coating_older_than_the_recoat_does_not_count_and_one_entered_late_wit
 ):
     """A diff review: the removal entered afterwards (finished on the day it was typed in) had made a coating logged
     with its true, earlier date count for nothing, and a corrected removal date was never read. The coating the
-    recoat replaces is older than the plan made for it; the new one is not, whenever it is entered."""
+    recoat replaces is older than the plan made for it; the new one is not, whenever it is entered. With the mirror out,
+    an older one is refused (mirrors.services.coating_before_removal: a recoat review's slip was taken for one)."""
+    from django.core.exceptions import ValidationError
+
     coating = _coating_underway(recoat, users)
     plan = coating.recoat_plans.get()
     planned = site_today(coating.site)  # made today, for a window a week ahead (the fixture)
-    mirror_services.coating_log(mirror, users["engineer"], planned - dt.timedelta(days=1), "al", [])
+    with pytest.raises(ValidationError, match="An earlier coating entered late is logged once this recoat is finished"):
+        mirror_services.coating_log(mirror, users["engineer"], planned - dt.timedelta(days=1), "al", [])
     assert "finish" in selectors.moves_held(coating)
     assert plan.starts_on > planned
     mirror_services.coating_log(mirror, users["engineer"], planned, "al", [])
@@ -377,4 +381,45 @@ def test_a_coating_is_not_dated_before_the_mirror_came_out(recoat, mirror, users
         starts_on=today - dt.timedelta(days=20))
     with pytest.raises(ValidationError, match=f"the mirror came out of the telescope on {today:%d %b %Y}"):
         mirror_services.coating_log(mirror, users["technician"], today - dt.timedelta(days=10), "al", [])
+    # Dated before the recoat was planned and before its first day, it is refused all the same once the mirror is out
+    # (a recoat review's slip of three days was taken for an old coating entered late).
+    with pytest.raises(ValidationError, match="An earlier coating entered late is logged once this recoat is finished"):
+        mirror_services.coating_log(mirror, users["technician"], today - dt.timedelta(days=25), "al", [])
     mirror_services.coating_log(mirror, users["technician"], today, "al", [])
+
+
+
+def test_the_realignment_expects_the_new_coatings_fresh_value_and_adds_no_second_recoat_record(telescope, users):
+    """A recoat review: the realignment's reflectance row read the old bare aluminium's computed fresh value (0.9032)
+    beside a reading of the new protected coating (0.83 fresh), and its finish wrote a second record of the recoat
+    plan, days after the coating's, from which the plan then counted. A primary registered with its catalogue plans
+    (its recoat plan among them), on the fixture's telescope."""
+    from observatory_ops.logbook.models import ServiceRecord
+    from observatory_ops.logbook.quantities import reflectance_text
+    from observatory_ops.mirrors.services import _coating_band, recoat_plans
+    from observatory_ops.registry.services import subsystem_create
+
+    primary = subsystem_create(telescope, "primary_mirror", "Primary mirror", counting_from=dt.date(2025, 8, 1))
+    mirror = Mirror.objects.create(subsystem=primary, diameter_mm=500, thickness_mm=50, hole_mm=120,
+                                   material="borosilicate", cell_mass_kg=30)
+    CoatingEvent.objects.create(mirror=mirror, coated_on=dt.date(2025, 8, 1), metal="al")
+    mains_isolator(telescope)
+    [recoat_plan] = recoat_plans(primary)
+    start = site_today(telescope.site) + dt.timedelta(days=7)
+    plan = mirror_services.recoat_plan_create(mirror, start, list(RECOAT_PHASES), 3.5, users["engineer"])
+    recoat = {order.recoat_phase: order for order in slings_rated(list(plan.work_orders.all()))}
+    realignment = recoat["realignment"]
+    reading = realignment.required_readings.get()
+    old = reflectance_text(_coating_band(mirror, "al", []))
+    assert reading.limit_text == f"about {old} expected (computed fresh for Al)"
+    for phase in ("removal", "coating", "reinstall"):
+        _finished(recoat[phase], users)  # the strip and coat logs Al + SiO2 100 nm (tests/conftest.py)
+    new = reflectance_text(_coating_band(mirror, "al", [{"material": "SiO2", "thickness_nm": 100}]))
+    assert new != old
+    reading.refresh_from_db()
+    assert reading.limit_text == f"about {new} expected (computed fresh for Al + SiO2 100 nm)"
+    _finished(realignment, users)
+    records = ServiceRecord.objects.filter(plan=recoat_plan, performed_on__gte=site_today(telescope.site))
+    assert [r.summary for r in records] == ["New coating: Al + SiO2 100 nm"]
+    done = ServiceRecord.objects.get(work_order=realignment)
+    assert (done.plan, done.summary) == (None, realignment.title)

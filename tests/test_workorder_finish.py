@@ -351,7 +351,9 @@ def test_finishing_the_removal_names_the_next_phase_and_says_the_telescope_stays
     assert f"work done on {today:%d %b %Y}" in page
 
 
-def test_finishing_the_realignment_restarts_the_recoat_plan_and_names_no_next_phase(recoat, mirror, users, client):
+def test_finishing_the_realignment_leaves_the_recoat_plan_to_the_coating_and_names_no_next_phase(
+    recoat, mirror, users, client
+):
     *_, realignment = recoat
     _earlier_phases_finished(recoat, 3, users)
     _started(realignment, users)
@@ -361,7 +363,10 @@ def test_finishing_the_realignment_restarts_the_recoat_plan_and_names_no_next_ph
     response = client.post(f"/workorders/{realignment.pk}/finish/", data)
     assert response.status_code == 302, _text(response)[-1500:]
     message = _message(response)
-    assert "1 service plan restarted, counting from that day." in message  # the mirror's recoat plan
+    # The mirror's recoat plan counts from the new coating (logged before the strip and coat finished), not again
+    # from the realignment (a recoat review: two records of one recoat).
+    assert ("no service plan restarted: the recoat's new coating restarted its plans, which count from the day it was "
+            "coated.") in html.unescape(message)
     assert "Next:" not in message and "long-term locks" not in message
 
 

@@ -1558,10 +1558,8 @@ def recoat_plan_create(
                 for service_plan in realignment_plans if kind == "realignment" else [None]:
                     WorkOrderItem.objects.create(work_order=order, subsystem=subsystem, plan=service_plan, why=why)
                 if kind == "realignment":
-                    RequiredReading.objects.create(
-                        work_order=order, subsystem=subsystem, quantity="reflectance", unit="fraction",
-                        limit_text=f"about {reflectance_text(_coating_band_now(mirror))} expected (computed fresh)",
-                    )
+                    RequiredReading.objects.create(work_order=order, subsystem=subsystem, quantity="reflectance",
+                                                   unit="fraction", limit_text=_expected_fresh(mirror))
                 plan.work_orders.add(order)
         site_recompute(subsystem.telescope.site)
     return plan
@@ -1574,9 +1572,18 @@ def fresh_band_on(mirror: Mirror, day: dt.date) -> tuple[float, CoatingEvent] | 
     return (_coating_band(mirror, coating.metal, coating.layers), coating) if coating else None
 
 
-def _coating_band_now(mirror: Mirror) -> float:
-    last = mirror.coatings.order_by("-coated_on").first()
-    return _coating_band(mirror, last.metal, last.layers) if last else 0.0
+def _expected_fresh(mirror: Mirror) -> str:
+    """The realignment's reflectance row as it reads: the computed fresh band value of the mirror's newest coating,
+    with its recipe. Made with the recoat plan from the coating it replaces, and written again when the new coating is
+    logged (``coating_service_records_log``): a recoat review's realignment printed the old bare aluminium's 0.9032
+    beside a reading of the new protected coating, whose fresh value is 0.83."""
+    last = mirror.coatings.order_by("-coated_on", "-pk").first()
+    if last is None:
+        return ""
+    value = reflectance_text(_coating_band(mirror, last.metal, last.layers))
+    text = f"about {value} expected (computed fresh for {last.recipe})"
+    return text if len(text) <= RequiredReading._meta.get_field("limit_text").max_length else (
+        f"about {value} expected (computed fresh)")
 
 
 # --- mirror events ------------------------------------------------------------------------------------
@@ -1658,13 +1665,15 @@ def coating_before_removal(mirror: Mirror, coated_on: dt.date) -> str:
     """Why a coating of ``mirror`` dated ``coated_on`` is not logged yet, "" when it may be: a recoat in hand
     (``recoat_in_hand``) whose removal is not finished still has the mirror in the telescope with its old coating. A
     year's review logged the coating while the removal waited for its lifting figures: the cleaning plan restarted and
-    came overdue while the old coating was still in, and the dusty weeks to the removal were charged to the new one. A
-    coating dated before the recoat was planned and before its first day (an old one entered late) is not this
-    recoat's (``workorders.selectors.coating_unlogged`` takes the same day)."""
+    came overdue while the old coating was still in, and the dusty weeks to the removal were charged to the new one.
+    Before the removal is finished, a coating dated before the recoat was planned and before its first day (an old one
+    entered late) is not this recoat's (``workorders.selectors.coating_unlogged`` takes the same day). Once the mirror
+    is out, every coating is dated on or after the day it came out: a recoat review's slip of three days before it was
+    taken for an old coating, restarted the plans and gave the old coating's last measurement to the new one."""
     plan = recoat_in_hand(mirror)
-    zone = mirror.subsystem.telescope.site.zone
-    if plan is None or coated_on < min(plan.starts_on, timezone.localtime(plan.created_at, zone).date()):
+    if plan is None:
         return ""
+    zone = mirror.subsystem.telescope.site.zone
     removal = next((o for o in plan.work_orders.all() if o.recoat_phase == "removal"), None)
     if removal is None or removal.state == State.WITHDRAWN:
         return ""
@@ -1674,7 +1683,10 @@ def coating_before_removal(mirror: Mirror, coated_on: dt.date) -> str:
         if done is None or coated_on >= done:
             return ""
         return (f"the mirror came out of the telescope on {done:%d %b %Y} ({removal.number}, its removal): a coating "
-                f"of this recoat is dated on or after that day, not {coated_on:%d %b %Y}")
+                f"of this recoat is dated on or after that day, not {coated_on:%d %b %Y}. An earlier coating entered "
+                "late is logged once this recoat is finished")
+    if coated_on < min(plan.starts_on, timezone.localtime(plan.created_at, zone).date()):
+        return ""
     return (f"the mirror's removal for its recoat, {removal.number}, is {removal.get_state_display()}: the mirror is "
             "still in the telescope with its old coating. Log the new coating once the removal is finished and the "
             "mirror has been coated")
@@ -1734,6 +1746,12 @@ def coating_service_records_log(event: CoatingEvent, by) -> list[ServiceRecord]:
     """
     subsystem = event.mirror.subsystem
     summary = f"New coating: {event.recipe}"[:200]
+    if (plan := recoat_in_hand(event.mirror)) is not None:  # its realignment expects the new coating's fresh value
+        RequiredReading.objects.filter(
+            work_order__in=plan.work_orders.filter(recoat_phase="realignment").exclude(
+                state__in=(State.FINISHED, State.COUNTERSIGNED, State.WITHDRAWN)),
+            subsystem=subsystem, quantity="reflectance", reading__isnull=True,
+        ).update(limit_text=_expected_fresh(event.mirror))
     records = _plans_restart(subsystem, plans_a_coating_restarts(subsystem), event.coated_on, by, summary)
     if not records:
         site_recompute(subsystem.telescope.site)

@@ -841,6 +841,24 @@ def retired_underway_problem(order: WorkOrder, items: Sequence[WorkOrderItem], d
             "engineer corrects it in the admin first")
 
 
+def _restarted_by_the_new_coating(order: WorkOrder) -> set[int]:
+    """The plans of a recoat's realignment order that the recoat's new coating restarted (``mirrors.services
+    .plans_a_coating_restarts``: its recoat and cleaning plans), by id: the strip and coat is finished only once that
+    coating is logged (``selectors.coating_unlogged``), so they count from its day. Empty for any other order."""
+    if order.recoat_phase != "realignment":
+        return set()
+    from observatory_ops.mirrors.models import CoatingEvent  # mirrors builds on work orders
+    from observatory_ops.mirrors.services import plans_a_coating_restarts
+
+    plan = order.recoat_plans.select_related("mirror__subsystem").order_by("-pk").first()
+    if plan is None:
+        return set()
+    since = min(plan.starts_on, timezone.localtime(plan.created_at, order.site.zone).date())
+    if not CoatingEvent.objects.filter(mirror=plan.mirror, coated_on__gte=since).exists():
+        return set()
+    return {p.pk for p in plans_a_coating_restarts(plan.mirror.subsystem)}
+
+
 def work_order_finish(
     order: WorkOrder,
     by,
@@ -1047,11 +1065,15 @@ def work_order_finish(
             order.hand_back_left_to.set([a.order for a in working])  # their pages say they hold it
         _record_history(order, by, "finish")
         share = actual_hours / max(len(items), 1)
+        restarted = _restarted_by_the_new_coating(order)
         for item in items:
+            # A plan the recoat's new coating restarted keeps the coating's day: a second record of it here would read
+            # as another recoat, days after the first (a recoat review's plans counted from the realignment).
+            plan = None if item.plan_id in restarted else item.plan
             ServiceRecord.objects.create(
-                subsystem=item.subsystem, plan=item.plan, performed_on=day, performed_by=by, hours_spent=share,
-                summary=(item.plan.name if item.plan else order.title)[:200], findings=findings,
-                work_order=order, created_by=by, limit_passed_on=limit_passed_before(item.plan, day),
+                subsystem=item.subsystem, plan=plan, performed_on=day, performed_by=by, hours_spent=share,
+                summary=(plan.name if plan else order.title)[:200], findings=findings,
+                work_order=order, created_by=by, limit_passed_on=limit_passed_before(plan, day),
             )
         for r in required:
             if r.pk in why_not:

@@ -572,6 +572,9 @@ def _finished(order: WorkOrder) -> str:
     written = f"{len(records)} service record{'' if len(records) == 1 else 's'} written, dated {day:%d %b %Y}"
     if plans:
         restarted = f"{plans} service plan{'' if plans == 1 else 's'} restarted, counting from that day"
+    elif order.items.filter(plan__isnull=False).exists():  # a realignment (services._restarted_by_the_new_coating)
+        restarted = ("no service plan restarted: the recoat's new coating restarted its plans, which count from the "
+                     "day it was coated")
     else:
         restarted = "no service plan restarted (the order covers none)"
     return f"{order.number} finished: {written}; {restarted}."
