@@ -20,6 +20,7 @@ from test_recoat_phases import orders, slings_rated  # noqa: F401  (orders: a fi
 from test_workorders import _confirmed
 
 from observatory_ops.calc.windows import RECOAT_PHASES
+from observatory_ops.registry.catalogue import is_hand_back
 from observatory_ops.registry.services import subsystem_create
 from observatory_ops.workorders import selectors, services
 from observatory_ops.workorders.cautions import TELESCOPE_OUT_TODO
@@ -134,7 +135,12 @@ def test_with_the_mirror_out_starting_asks_and_nothing_that_moves_an_axis_or_bri
         if index == lockout:  # the locks go on
             for point in selectors.isolation_points(order):
                 services.checklist_tick_set(order, "point", point.pk, True, users["technician"])
-        if index in waiting:
+        if index in waiting and is_hand_back(steps[index]):  # left to the recoat's realignment (below)
+            with pytest.raises(services.Refused, match=rf"step {index + 1} hands the telescope back to robotic and "
+                                                       rf"remote control, and its recoat is not done: "
+                                                       rf"{recoat['realignment'].number} "):
+                services.checklist_tick_set(order, "step", index, True, users["technician"])
+        elif index in waiting:
             with pytest.raises(services.Refused, match=rf"step {index + 1} (is done under power before the lockout "
                                                        r"and may move an axis|is done after the locks come off|hands "
                                                        r"the telescope back|moves the telescope), and T1 is out of "
@@ -145,11 +151,23 @@ def test_with_the_mirror_out_starting_asks_and_nothing_that_moves_an_axis_or_bri
     with pytest.raises(services.Refused, match="steps that wait while the telescope's mirror is out are not ticked"):
         services.work_order_finish(order, users["technician"], 1.0, "ok", _all_readings(order, 0.6),
                                    confirmed_unticked=[steps[i] for i in waiting])
-    # Once the reinstall is finished the telescope is balanced again: the steps go on.
+    # Once the reinstall is finished the telescope is balanced again: the steps go on, but the hand-back, which waits
+    # for the realignment (a recoat review handed the telescope back between the two); the finish leaves it to it.
     _finish(recoat["coating"], users)
     _finish(recoat["reinstall"], users)
+    realignment = recoat["realignment"]
     for index in sorted(waiting):
-        services.checklist_tick_set(order, "step", index, True, users["technician"])
+        if is_hand_back(steps[index]):
+            with pytest.raises(services.Refused, match="its crew hands the telescope back at its end"):
+                services.checklist_tick_set(order, "step", index, True, users["technician"])
+        else:
+            services.checklist_tick_set(order, "step", index, True, users["technician"])
+    services.work_order_finish(order, users["technician"], 1.0, "ok", _all_readings(order, 0.6))
+    order = WorkOrder.objects.get(pk=order.pk)
+    assert list(order.hand_back_left_to.all()) == [realignment]
+    assert (f"the hand-back to robotic and remote control, was left to the last crew out: {realignment.number} "
+            f"{realignment.title}, still at work on the telescope or, for a recoat's realignment, still to do") in \
+        order.findings
 
 
 def test_the_dashboard_and_the_due_list_say_which_telescope_stands_without_its_mirror(
@@ -205,3 +223,61 @@ def test_the_upgrade_finds_the_phase_of_orders_planned_before_it_by_their_titles
     WorkOrder.objects.update(recoat_phase="")  # as stored before the field existed
     step.phases_from_titles(apps, None)
     assert {o.recoat_phase: o.pk for o in WorkOrder.objects.all()} == {k: o.pk for k, o in recoat.items()}
+
+
+def test_an_order_done_but_its_hand_back_finishes_while_the_mirror_is_out_leaving_it_to_the_realignment(
+    recoat, other_work, site, users
+):
+    """A recoat review: a short job underway when the removal started, its work done and its locks off, could not be
+    finished until the reinstall, weeks later (first "no hand-back of its own to leave it to", then "once the reinstall
+    is finished"). Its hand-back is the recoat's realignment's to do: the finish leaves it to that order."""
+    from conftest import ticked_in_sequence
+    from test_workorders import _all_readings
+
+    order = WorkOrder.objects.get(pk=other_work.pk)
+    services.work_order_move(order, "start", users["technician"])
+    order = WorkOrder.objects.get(pk=order.pk)
+    ticked_in_sequence(order, users["technician"], through=len(order.step_list) - 2)
+    assert is_hand_back(order.step_list[-1])
+    _finish(recoat["removal"], users)
+    order = WorkOrder.objects.get(pk=order.pk)
+    assert services.finish_waits(order, selectors.unticked_lines(order)) == ""
+    services.work_order_finish(order, users["technician"], 1.0, "ok", _all_readings(order, 0.6))
+    order = WorkOrder.objects.get(pk=order.pk)
+    assert order.state == "finished" and list(order.hand_back_left_to.all()) == [recoat["realignment"]]
+
+
+def test_the_dashboard_says_when_an_order_is_planned_and_when_a_finished_one_was_finished(recoat, site, users, client):
+    """A recoat review read "WO-00014 ... finished 15 Dec 2026" on the dashboard: the state, then the planned day,
+    in the future, of an order finished today. A finished order says the day it was finished, awaiting its
+    countersignature; the others their planned day."""
+    _finish(recoat["removal"], users)
+    removal, coating = (WorkOrder.objects.get(pk=recoat[phase].pk) for phase in ("removal", "coating"))
+    client.force_login(users["viewer"])
+    page = _text(client.get(site.get_absolute_url()))
+    finished_on = removal.finished_at.astimezone(site.zone)
+    assert f"{removal.number} {removal.title} finished on {finished_on:%d %b %Y}, to countersign" in page
+    assert f"{coating.number} {coating.title} draft planned for {coating.planned_date:%d %b %Y}" in page
+
+
+def test_the_calendar_places_a_done_recoat_on_the_days_it_was_done(recoat, site, users, client):
+    """A recoat review did the four phases on one day, a week before they were planned: the calendar kept a CONFIRMED
+    recoat window on the planned days (and their planned length) and each order on its planned day, so a subscribed
+    observer saw the telescope out for two weeks once it was back. RFC 5545 3.6.1: an all-day event's DTEND is the day
+    after its last day."""
+    from icalendar import Calendar
+
+    for phase in ("removal", "coating", "reinstall", "realignment"):
+        _finish(recoat[phase], users)
+    today = dt.datetime.now(site.zone).date()
+    client.force_login(users["viewer"])
+    events = {str(e["uid"]).split("@")[0]: e for e in Calendar.from_ical(
+        client.get(f"/sites/{site.slug}/downtime.ics").content).walk("VEVENT")}
+    for phase in ("removal", "coating", "reinstall", "realignment"):
+        event = events[f"workorder-{recoat[phase].pk}"]
+        assert (event["dtstart"].dt, event["dtend"].dt) == (today, today + dt.timedelta(days=1)), phase
+        assert "(done)" in str(event["summary"])
+    [window] = [e for uid, e in events.items() if uid.startswith("recoat-")]
+    assert str(window["summary"]).startswith("Recoat done: T1 ")
+    assert (window["dtstart"].dt, window["dtend"].dt) == (today, today + dt.timedelta(days=1))
+    assert str(window["description"]).startswith(f"Done {today:%a %d %b %Y}. The phases as planned: ")

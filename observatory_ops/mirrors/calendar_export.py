@@ -12,6 +12,7 @@ from observatory_ops.planning.models import Closure
 from observatory_ops.planning.services import phase_lengths, recoat_downtime, site_today
 from observatory_ops.registry.models import Site
 from observatory_ops.workorders.models import State, WorkOrder
+from observatory_ops.workorders.selectors import work_done_on_of
 
 from .models import RecoatPlan
 
@@ -75,27 +76,38 @@ def site_calendar(site: Site, base_url: str) -> bytes:
     last_day = _phase_last_days(plans)
     orders = (
         WorkOrder.objects.filter(site=site, planned_date__isnull=False).select_related("telescope")
+        .annotate(done_on=work_done_on_of("pk"))
     )
+    done_days: dict[int, tuple[dt.date, dt.date]] = {}  # finished order -> the days its work was done
     for order in orders:
         address = base_url.rstrip("/") + order.get_absolute_url()
         where = f"{order.telescope.name}: " if order.telescope else ""
-        # Done work stays as history, said so in its title (an onboarding review read a finished order as work to do).
-        done = " (done)" if order.state in (State.FINISHED, State.COUNTERSIGNED) else ""
-        all_day(f"workorder-{order.pk}", order.planned_date, last_day.get(order.pk, order.planned_date),
+        first, last = order.planned_date, last_day.get(order.pk, order.planned_date)
+        # Done work stays as history, said so in its title (an onboarding review read a finished order as work to do),
+        # on the days it was done (a recoat review's orders, all done on one day, stayed on their planned days ahead).
+        done = ""
+        if order.state in (State.FINISHED, State.COUNTERSIGNED):
+            done, (first, last) = " (done)", done_days.setdefault(order.pk, _done_span(order, site.zone))
+        all_day(f"workorder-{order.pk}", first, last,
                 f"{order.number}{done} {where}{order.title}", f"State: {order.get_state_display()}. {address}",
                 EVENT_STATUS[order.state])
     today = site_today(site)
     for plan in plans:
         subsystem = plan.mirror.subsystem
         # The window as its work orders now stand, as the dashboard and the forecasts take it (a walk-through re-dated
-        # a recoat's orders to January and the calendar kept it in December).
+        # a recoat's orders to January and the calendar kept it in December); once all are done, the days they took.
         out = recoat_downtime(plan, today)
         phases = ", ".join(f"{p.get('name', '?')} {p.get('days', '?')} d ({_span(p)})" for p in plan.phases
                            if isinstance(p, dict))
         described = f"{out.changed}. The phases as planned: {phases}" if out.changed else phases
+        first, last, summary = out.first, out.last, "Recoat window"
+        kept = [o for o in plan.work_orders.all() if o.state != State.WITHDRAWN]
+        if kept and all(o.pk in done_days for o in kept):
+            first, last = min(done_days[o.pk][0] for o in kept), max(done_days[o.pk][1] for o in kept)
+            summary, described = "Recoat done", f"Done {_days_text(first, last)}. The phases as planned: {phases}"
         if subsystem.retired_on is not None:
             described = f"Not done: {subsystem.name} was retired on {subsystem.retired_on:%d %b %Y}. {described}"
-        all_day(f"recoat-{plan.pk}", out.first, out.last, f"Recoat window: {subsystem.telescope.name} {subsystem.name}",
+        all_day(f"recoat-{plan.pk}", first, last, f"{summary}: {subsystem.telescope.name} {subsystem.name}",
                 described, _window_status(plan))
     # Closures: nights not observed (a season shut, an overhaul), whose days are free for work that takes a telescope
     # out. A closure deleted leaves the calendar at the next refresh.
@@ -107,11 +119,24 @@ def site_calendar(site: Site, base_url: str) -> bytes:
     return calendar.to_ical()
 
 
+def _done_span(order: WorkOrder, zone) -> tuple[dt.date, dt.date]:
+    """The days a finished order's work took: from the day it was started (the day its work was done, if that came
+    first: work entered later from paper) to the day its work was done (``workorders.selectors.work_done_on``, read
+    as ``done_on``; the day it was finished when its records say none)."""
+    done = order.done_on or timezone.localtime(order.finished_at, zone).date()
+    started = timezone.localtime(order.started_at, zone).date() if order.started_at else done
+    return min(started, done), done
+
+
 def _span(phase: dict) -> str:
     try:
         first, last = dt.date.fromisoformat(phase["first"]), dt.date.fromisoformat(phase["last"])
     except (KeyError, TypeError, ValueError):  # the admin edits the phases as JSON
         return "dates not readable"
+    return _days_text(first, last)
+
+
+def _days_text(first: dt.date, last: dt.date) -> str:
     if first == last:
         return f"{first:%a %d %b %Y}"
     return f"{first:%a %d %b}{'' if first.year == last.year else f' {first:%Y}'} to {last:%a %d %b %Y}"

@@ -259,8 +259,10 @@ def recoat_caption(state: MirrorForecast) -> str:
     formula, cleanings = "R = R0 − b·E", ""
     if counted:
         formula = "R = R0 − b·(E − f·c)"
-        figures += (f", f = {fit.recovery_fraction:.2f} (the share of the loss a cleaning recovers; c: E at the last "
-                    "cleaning)")
+        # Of the loss since the cleaning before, not of the whole loss since the coating (calc.reflectance): a recoat
+        # review read it as the whole and weighed a cleaning at four times what it would bring back.
+        figures += (f", f = {fit.recovery_fraction:.2f} (the share a cleaning recovers of the loss since the cleaning "
+                    "before it, or since the coating; c: E at the last cleaning)")
         cleanings = f", on either side of each cleaning ({', '.join(f'{day:%d %b %Y}' for day, _ in counted)})"
     since = f"the coating of {coated}"
     if state.log_begins:

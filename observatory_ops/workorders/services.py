@@ -15,7 +15,7 @@ from collections.abc import Collection, Sequence
 from dataclasses import dataclass
 
 from django.db import transaction
-from django.db.models import Q
+from django.db.models import F, Q
 from django.utils import dateformat, timezone
 
 from observatory_ops.access.roles import ENGINEER, TECHNICIAN, has_role
@@ -79,6 +79,7 @@ from .models import (
     part_quantity_too_many,
 )
 from .selectors import (
+    Alongside,
     brake_air_vented,
     crew_state,
     hand_backs_held,
@@ -708,7 +709,10 @@ def hand_back_on_withdrawal(order: WorkOrder) -> tuple[list[WorkOrder], list[Wor
     held = hand_backs_held(order)
     if not crew_state(order).hands_back or not (held or order.ticks.filter(ticked=True).exists()):
         return None
-    return held, [a.order for a in still_working(order) if a.hands_back]
+    to = [a.order for a in still_working(order) if a.hands_back]
+    if (realignment := recoat_hands_back(order)) is not None:  # it hands back last (``left_to_the_last_crew``)
+        to.append(realignment)
+    return held, to
 
 
 def withdrawal_hand_back_text(order: WorkOrder) -> str:
@@ -1043,7 +1047,9 @@ def work_order_finish(
             findings = (f"{findings}\n" if findings.strip() else "") + (
                 f"{hand_back[0].label}, the hand-back to robotic and remote control, was left to the last crew out: "
                 + "; ".join(f"{a.order.number} {a.order.title}" for a in working)
-                + ", still at work on the telescope when this order was finished."
+                + (", still at work on the telescope or, for a recoat's realignment, still to do, when this order was "
+                   "finished." if any(a.order.recoat_phase == "realignment" for a in working)
+                   else ", still at work on the telescope when this order was finished.")
             )
         unconfirmed = [line for line in others if line.text not in seen]
         if unconfirmed:
@@ -1232,6 +1238,8 @@ def finish_waits(order: WorkOrder, unticked: Sequence, day: dt.date | None = Non
             + "; ".join(f"{a.order.number} {a.order.title}" for a in working)
             + ". Finish once they are done and it is ticked"
         )
+    if left_to_the_last_crew(order, unticked, day)[0]:  # a hand-back left to others holds nothing here
+        after = [line for line in after if not is_hand_back(line.text)]
     if after and (mirror_out := telescope_out_notices(order)):
         return (
             "steps that wait while the telescope's mirror is out are not ticked ("
@@ -1249,7 +1257,11 @@ def left_to_the_last_crew(order: WorkOrder, unticked: Sequence, day: dt.date | N
     the observatory back (a diff review left it to an order swapping a UPS battery): the finish then waits
     (``finish_waits``). ``day``: as there."""
     hand_back = [line for line in unticked if line.kind == ChecklistTick.Kind.STEP and is_hand_back(line.text)]
-    working = [a for a in still_working(order, day) if a.hands_back] if hand_back else []
+    if not hand_back:
+        return [], []
+    working = [a for a in still_working(order, day) if a.hands_back]
+    if (realignment := recoat_hands_back(order)) is not None:  # it hands back last, whoever else is at work
+        working.append(Alongside(realignment, [], None, hands_back=True))
     return (hand_back, working) if working else ([], [])
 
 
@@ -1364,9 +1376,39 @@ def _why_held(steps: Sequence[str], key: int) -> str:
     return "puts the telescope back in service or under robotic control"
 
 
+def recoat_hands_back(order: WorkOrder) -> WorkOrder | None:
+    """The realignment still to do of a recoat whose mirror has come out (its removal finished), on a telescope
+    ``order`` works on, ``order`` not being it: the telescope goes back to robotic and remote control with its last
+    step, once the collimation is recorded (``catalogue.HAND_BACK_AFTER_REALIGNMENT``), and the reinstall's last step
+    says to keep it out until then. Another order's hand-back waits for it (``_telescope_out_refusal``) and is left to
+    it at the finish (``left_to_the_last_crew``): a recoat review handed the telescope back from another order between
+    the reinstall and the realignment. None when there is none."""
+    if order.recoat_phase == "realignment":
+        return None
+    telescopes = {order.telescope_id} if order.telescope_id else set(
+        order.items.values_list("subsystem__telescope_id", flat=True))
+    realignments = WorkOrder.objects.filter(
+        site=order.site_id, recoat_phase="realignment", telescope_id__in=telescopes,
+        state__in=(State.DRAFT, State.ISSUED, State.UNDERWAY),
+    ).exclude(pk=order.pk).order_by(F("planned_date").asc(nulls_last=True), "pk")
+    for realignment in realignments:
+        plan = realignment.recoat_plans.order_by("-pk").first()
+        if plan is not None and plan.work_orders.filter(
+                recoat_phase="removal", state__in=(State.FINISHED, State.COUNTERSIGNED)).exists():
+            return realignment
+    return None
+
+
 def _telescope_out_refusal(order: WorkOrder, key: int) -> str:
     """Why step ``key`` of ``order`` may not be ticked yet: it is one that waits while its telescope's mirror is out
-    (``moves_or_restores``). "" when nothing holds it."""
+    (``moves_or_restores``), or it hands the telescope back before the recoat's realignment is done
+    (``recoat_hands_back``). "" when nothing holds it."""
+    if key < len(order.step_list) and is_hand_back(order.step_list[key]) and (
+            realignment := recoat_hands_back(order)) is not None:
+        return (f"step {key + 1} hands the telescope back to robotic and remote control, and its recoat is not done: "
+                f"{realignment.number} ({realignment.title}) is {realignment.get_state_display()}, and its crew hands "
+                "the telescope back at its end, once the collimation is recorded. Leave this step to them: finishing "
+                "this order leaves it to that order")
     if key not in moves_or_restores(order.step_list):
         return ""
     notices = telescope_out_notices(order)
