@@ -887,7 +887,10 @@ def orders_that_may_clean_text(orders: list[WorkOrder], planning: bool = True) -
     one = len(orders) == 1
     said = (f"Work still to do on this mirror may clean it: {named}. The forecast counts no cleaning until it is "
             f"logged (at {'its' if one else 'their'} finish): a cleaning there moves the crossing later")
-    return f"{said}, so plan the recoat window once it is logged." if planning else f"{said}."
+    # A cleaning days before the mirror is stripped is work and consumables lost (a recoat review was told to clean
+    # first, with the last CO2 cylinder): the sentence says both ways.
+    return (f"{said}, so plan the recoat window once it is logged; or, if the mirror is to be recoated anyway, take "
+            "the cleaning off that work: the new coating is a clean surface." if planning else f"{said}.")
 
 
 #: How far past a recoat's last day a service plan's forecast may fall and still be offered for the recoat's downtime:

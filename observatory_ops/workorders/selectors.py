@@ -441,6 +441,25 @@ def order_plans(order: WorkOrder, items: list[WorkOrderItem] | None = None) -> l
     return sorted({i.plan_id: i.plan for i in items if i.plan_id}.values(), key=lambda plan: plan.pk)
 
 
+def served_since(order: WorkOrder, items: list[WorkOrderItem]) -> dict[int, ServiceRecord]:
+    """Item pk -> the service record, not of this order, that served its plan on or after the day the order was made,
+    for an order still to do: its item may be done already (a recoat review's cleaning order still read "limit
+    reached" after the new coating restarted the cleaning plan; the due list said "On WO-00012"). The newest of each;
+    one query."""
+    if order.state not in TO_DO:
+        return {}
+    plans = {i.plan_id: i.pk for i in items if i.plan_id}
+    if not plans:
+        return {}
+    made = timezone.localtime(order.created_at, order.site.zone).date()
+    newest: dict[int, ServiceRecord] = {}
+    for record in ServiceRecord.objects.filter(
+            plan__in=list(plans), performed_on__gte=made, void=False, corrected_by__isnull=True).exclude(
+            work_order=order).order_by("performed_on", "pk"):
+        newest[plans[record.plan_id]] = record
+    return newest
+
+
 def lockout_step_warning(order: WorkOrder, items: list[WorkOrderItem] | None = None) -> str:
     """For an order still to do whose hazards call for isolation but whose steps lack the lockout step, or do not
     isolate in sequence (it cannot be issued or started until an engineer puts that right), or leave the brake air

@@ -181,6 +181,9 @@ def work_order_detail(request, pk):
             for reason in held.get(t.action, []):
                 held_notes.setdefault(reason, []).append(t.label)
     part_uses = list(order.part_uses.select_related("part"))
+    served = selectors.served_since(order, items)
+    for item in items:
+        item.served_since = served.get(item.pk)
     return render(
         request,
         "workorders/detail.html",
