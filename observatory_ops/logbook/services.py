@@ -28,7 +28,7 @@ from observatory_ops.registry.services import retired_work_problem
 from . import nights_csv
 from .models import NightUsage, Reading, ServiceRecord
 from .quantities import QUANTITIES, value_problem
-from .selectors import nights_longer_than_the_night, nights_while_out
+from .selectors import counters_out_of_line, nights_longer_than_the_night, nights_while_out
 
 #: The columns that say which night a record is (the site's, or one telescope's), not what was used in it.
 _KEY_COLUMNS = ("night", "telescope")
@@ -147,9 +147,16 @@ class ImportReport:
         return nights_while_out(*self.checked_on) if self.checked_on else []
 
     @property
+    def out_of_line(self) -> list[str]:
+        """The nights stored, or to be stored once confirmed, with a counter far above its log's usual rate per open
+        hour (``selectors.counters_out_of_line``): stored as sent, and named."""
+        return counters_out_of_line(*self.checked_on) if self.checked_on else []
+
+    @property
     def to_check(self) -> list[str]:
-        """Every night the import names to check: longer than the night, or open while out of service."""
-        return [*self.longer_than_the_night, *self.while_out]
+        """Every night the import names to check: longer than the night, open while out of service, or a counter out
+        of line."""
+        return [*self.longer_than_the_night, *self.while_out, *self.out_of_line]
 
     @property
     def summary(self) -> str:
@@ -173,6 +180,8 @@ class ImportReport:
             if out := self.while_out:
                 text += (f". Check {len(out)} night{pluralize(len(out))} open while out of service: "
                          f"{'; '.join(out)}")
+            if high := self.out_of_line:
+                text += f". Check {len(high)} night{pluralize(len(high))} with a counter out of line: {'; '.join(high)}"
             return f"{text}."
         text = (f"{self.created} new{self._whose('created')}, {self.updated} updated{self._whose('updated')}, "
                 f"{self.unchanged} unchanged{self._whose('unchanged')}")
@@ -186,6 +195,9 @@ class ImportReport:
         if out := self.while_out:
             text += (f". Check {len(out)} night{pluralize(len(out))} open while out of service, stored as sent: "
                      f"{'; '.join(out)}")
+        if high := self.out_of_line:
+            text += (f". Check {len(high)} night{pluralize(len(high))} with a counter out of line, stored as sent: "
+                     f"{'; '.join(high)}")
         return f"{text}.{self._said_once_sentence} {self.uncounted_note}".strip()
 
     @property
