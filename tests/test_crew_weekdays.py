@@ -316,6 +316,9 @@ def test_the_planner_shows_the_phase_dates_with_weekdays_and_the_crew_days_used(
     text = _text(page)
     assert "The crew works Mon–Fri (site setting)" in text
     assert "Cheapest windows for 12 days of work" in text
+    # The days-off column lists the listed days; the weekly ones are said above it (a recoat review looked for them).
+    assert ("the days it does not work each week (it works Mon–Fri, a site setting) and the listed days off, which the "
+            "last column names") in text
     assert "Mon 03 Aug 2026 Fri 14 Aug 2026 12" in text  # from, to, nights lost
     for row in ("removal Mon 03 Aug 2026 Tue 04 Aug 2026 2 at the telescope",
                 "strip and coat Thu 06 Aug 2026 Sat 08 Aug 2026 3 away",
