@@ -172,3 +172,16 @@ def test_a_plan_that_cannot_be_computed_comes_last_with_its_reason_not_left_out(
     assert "none is logged since the plan's start (01 Jan 2026)" in last["reason"]
     assert tuple(last) == tuple(readme_table(KEYS))
     assert all(record["status"] != NOT_COMPUTED for record in api[:-1])
+
+
+def test_the_due_list_page_says_how_many_days_an_overdue_item_is_past_its_limit(client, due_site, users):
+    """A manager's review found how long an item is overdue only in the CSV ("days past the limit"): the page says it
+    beside the day reached, counted at the site's today as the CSV counts it. A 30-day limit from 100 days ago: 70."""
+    plan = next(s.plan for s in due_rows().filter(site=due_site))
+    plan.triggers.all().delete()
+    plan.triggers.create(metric=metrics.CALENDAR_DAYS, limit=30)
+    site_recompute(due_site)
+    status = PlanStatus.objects.get(plan=plan)
+    client.force_login(users["viewer"])
+    page = client.get("/due/", {"site": due_site.pk}).content.decode()
+    assert f'reached {status.forecast_date:%d %b %Y} <span class="days-past">(70 days ago)</span>' in page

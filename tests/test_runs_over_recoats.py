@@ -433,3 +433,26 @@ def test_the_dashboard_reads_the_coming_recoats_once(recoat, runs, users, client
     prefetch_related_objects(plans, "work_orders")  # as the dashboard reads them, for their nights
     with django_assert_max_num_queries(1):
         services.runs_over_recoats(site, TODAY, plans)
+
+
+def test_the_dashboard_names_a_recoat_to_plan_and_the_booked_run_over_its_forecast(mirror, users, client):
+    """A manager's review read "No recoat planned" on the dashboard seven weeks before a primary's crossing forecast
+    inside a booked campaign: the recoats due or forecast within a year, not planned yet, are listed under it
+    (mirrors.services.recoats_to_plan) with the booked runs over their forecast. Here the recoat plan's calendar limit
+    is set to 100 days from the coating 60 days ago: forecast 40 days on."""
+    [plan] = services.recoat_plans(mirror.subsystem)
+    plan.triggers.all().delete()
+    plan.triggers.create(metric="calendar_days", limit=100)
+    forecast = COATED + dt.timedelta(days=100)
+    BookedRun.objects.create(site=mirror.subsystem.telescope.site, title="Nova follow-up",
+                             starts_on=forecast - dt.timedelta(days=2), ends_on=forecast + dt.timedelta(days=3))
+    BookedRun.objects.create(site=mirror.subsystem.telescope.site, title="Far off", starts_on=forecast +
+                             dt.timedelta(days=30), ends_on=forecast + dt.timedelta(days=31))
+    site_recompute(mirror.subsystem.telescope.site, TODAY)
+    client.force_login(users["viewer"])
+    page = " ".join(html.unescape(re.sub(r"<[^>]+>", " ", client.get(
+        mirror.subsystem.telescope.site.get_absolute_url()).content.decode())).split())
+    assert (f"Recoats to plan T1 Primary: later, forecast {forecast:%d %b %Y} (Calendar days) inside the booked run "
+            f"Nova follow-up ({forecast - dt.timedelta(days=2):%d %b} to {forecast + dt.timedelta(days=3):%d %b %Y}) · "
+            "plan the recoat window") in page
+    assert "Far off" not in page

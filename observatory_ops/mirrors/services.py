@@ -825,6 +825,35 @@ def recoat_due(mirror: Mirror):
     return min(states, key=lambda s: (s.urgency, s.forecast_date or dt.date.max), default=None)
 
 
+@dataclass
+class RecoatComing:
+    """A recoat to plan (``recoats_to_plan``): the mirror, its recoat plan's due state, the booked runs on the nights
+    around its forecast day."""
+
+    mirror: Mirror
+    due: object  # planning.models.PlanStatus
+    runs: list
+
+
+def recoats_to_plan(site: Site, today: dt.date) -> list[RecoatComing]:
+    """The site's mirrors in service whose recoat is one to plan now (``recoat_to_plan``: due, overdue or forecast
+    within ``RECOAT_PLANNED_AHEAD_DAYS``, none in hand), soonest first, each with the booked runs over its forecast
+    band (earliest to latest): the dashboard names them beside the recoats planned (a manager's review read "No recoat
+    planned" seven weeks before a crossing forecast inside a booked campaign)."""
+    coming = []
+    mirrors = Mirror.objects.filter(subsystem__telescope__site=site, subsystem__retired_on__isnull=True).select_related(
+        "subsystem__telescope__site")
+    runs = list(BookedRun.objects.filter(site=site, ends_on__gte=today))
+    for mirror in mirrors:
+        due = recoat_due(mirror)
+        if not recoat_to_plan(mirror, due, today):
+            continue
+        first = due.earliest or due.forecast_date or today
+        last = due.latest or due.forecast_date or first
+        coming.append(RecoatComing(mirror, due, [r for r in runs if r.starts_on <= last and r.ends_on >= first]))
+    return sorted(coming, key=lambda c: (c.due.forecast_date or dt.date.max, c.mirror.pk))
+
+
 def _recoats_going_ahead(site: Site):
     """The site's recoats still going ahead (no order of theirs withdrawn: a withdrawn one stops the recoat), soonest
     first, with their mirror's subsystem and telescope."""

@@ -80,6 +80,7 @@ def site_dashboard(request, slug):
             "parts_to_see_to": workorder_selectors.parts_low_or_short(site),
             "telescopes_out": workorder_selectors.telescopes_out([site]).values(),
             "downtime": downtime,
+            "recoats_to_plan": mirror_services.recoats_to_plan(site, today),
             "closures": closures,
             "recoats_of_retired": mirror_services.recoats_of_retired(site),
             "open_work_orders": _open_orders(site, today),
