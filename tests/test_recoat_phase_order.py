@@ -423,3 +423,29 @@ def test_the_realignment_expects_the_new_coatings_fresh_value_and_adds_no_second
     assert [r.summary for r in records] == ["New coating: Al + SiO2 100 nm"]
     done = ServiceRecord.objects.get(work_order=realignment)
     assert (done.plan, done.summary) == (None, realignment.title)
+
+
+def test_a_recoat_plan_the_coating_did_not_restart_is_restarted_by_the_realignment(telescope, users):
+    """A diff review made the recoat plan inactive while the coating was logged (the coating wrote no record of it),
+    active again before the realignment: the realignment's finish restarts it, as the records say, not as assumed."""
+    from observatory_ops.logbook.models import ServiceRecord
+    from observatory_ops.mirrors.services import recoat_plans
+    from observatory_ops.registry.services import subsystem_create
+
+    primary = subsystem_create(telescope, "primary_mirror", "Primary mirror", counting_from=dt.date(2025, 8, 1))
+    mirror = Mirror.objects.create(subsystem=primary, diameter_mm=500, thickness_mm=50, hole_mm=120,
+                                   material="borosilicate", cell_mass_kg=30)
+    CoatingEvent.objects.create(mirror=mirror, coated_on=dt.date(2025, 8, 1), metal="al")
+    mains_isolator(telescope)
+    [recoat_plan] = recoat_plans(primary)
+    start = site_today(telescope.site) + dt.timedelta(days=7)
+    plan = mirror_services.recoat_plan_create(mirror, start, list(RECOAT_PHASES), 3.5, users["engineer"])
+    recoat = {order.recoat_phase: order for order in slings_rated(list(plan.work_orders.all()))}
+    _finished(recoat["removal"], users)
+    type(recoat_plan).objects.filter(pk=recoat_plan.pk).update(active=False)
+    _finished(recoat["coating"], users)
+    type(recoat_plan).objects.filter(pk=recoat_plan.pk).update(active=True)
+    _finished(recoat["reinstall"], users)
+    _finished(recoat["realignment"], users)
+    done = ServiceRecord.objects.get(work_order=recoat["realignment"])
+    assert done.plan_id == recoat_plan.pk

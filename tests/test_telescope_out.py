@@ -23,7 +23,7 @@ from observatory_ops.calc.windows import RECOAT_PHASES
 from observatory_ops.registry.catalogue import is_hand_back
 from observatory_ops.registry.services import subsystem_create
 from observatory_ops.workorders import selectors, services
-from observatory_ops.workorders.cautions import TELESCOPE_OUT_TODO
+from observatory_ops.workorders.cautions import HAND_BACKS_HELD_TITLE, TELESCOPE_OUT_TODO
 from observatory_ops.workorders.models import WorkOrder
 
 OUT = "T1 is out of service: its primary mirror is out"
@@ -244,7 +244,19 @@ def test_an_order_done_but_its_hand_back_finishes_while_the_mirror_is_out_leavin
     assert services.finish_waits(order, selectors.unticked_lines(order)) == ""
     services.work_order_finish(order, users["technician"], 1.0, "ok", _all_readings(order, 0.6))
     order = WorkOrder.objects.get(pk=order.pk)
-    assert order.state == "finished" and list(order.hand_back_left_to.all()) == [recoat["realignment"]]
+    realignment = WorkOrder.objects.get(pk=recoat["realignment"].pk)
+    assert order.state == "finished" and list(order.hand_back_left_to.all()) == [realignment]
+    # The realignment, not begun, holds it: its page says so, and withdrawn (a stopped recoat's orders are) it says who
+    # hands the telescope back then, not nothing (a diff review: the hand-back was left to a withdrawn order).
+    from django.test import Client
+
+    client = Client()
+    client.force_login(users["engineer"])
+    page = _text(client.get(realignment.get_absolute_url()))
+    assert order.number in page.split(HAND_BACKS_HELD_TITLE, 1)[1][:400]
+    said = services.withdrawal_hand_back_text(realignment)
+    assert said.startswith("Withdrawn, nobody's order hands the telescope back to robotic and remote control "
+                           f"({order.number} left its hand-back to this order)")
 
 
 def test_the_dashboard_says_when_an_order_is_planned_and_when_a_finished_one_was_finished(recoat, site, users, client):
@@ -281,3 +293,37 @@ def test_the_calendar_places_a_done_recoat_on_the_days_it_was_done(recoat, site,
     assert str(window["summary"]).startswith("Recoat done: T1 ")
     assert (window["dtstart"].dt, window["dtend"].dt) == (today, today + dt.timedelta(days=1))
     assert str(window["description"]).startswith(f"Done {today:%a %d %b %Y}. The phases as planned: ")
+
+
+
+def test_in_a_shared_enclosure_another_telescopes_hand_back_waits_for_the_realignment_too(recoat, site, users):
+    """A diff review: where the telescopes share one enclosure, the hand-back of work on the other telescope was
+    accepted between the reinstall and the realignment, the dome moving over the telescope not realigned."""
+    from observatory_ops.registry.models import Telescope
+
+    site.shared_enclosure = True
+    site.save()
+    other = Telescope.objects.create(site=site, name="T2", aperture_m=0.4, mount="fork")
+    fans = subsystem_create(other, "cooling_fans", "Fans", counting_from=dt.date(2026, 1, 1))
+    order = services.work_order_from_due(list(fans.plans.all()), users["engineer"])
+    assert services.recoat_hands_back(order) is None  # the removal is not finished: nothing is out
+    _finish(recoat["removal"], users)
+    assert services.recoat_hands_back(WorkOrder.objects.get(pk=order.pk)) == recoat["realignment"]
+    site.shared_enclosure = False
+    site.save()
+    assert services.recoat_hands_back(WorkOrder.objects.get(pk=order.pk)) is None
+
+
+def test_a_recoat_stopped_with_its_mirror_out_is_not_said_done_on_the_calendar(recoat, site, users, client):
+    """A diff review finished the removal and withdrew the other orders, as a stopped recoat asks: the calendar said
+    "Recoat done" while the mirror was out."""
+    from icalendar import Calendar
+
+    _finish(recoat["removal"], users)
+    for phase in ("coating", "reinstall", "realignment"):
+        services.work_order_move(WorkOrder.objects.get(pk=recoat[phase].pk), "withdraw", users["engineer"],
+                                 reason="stopped")
+    client.force_login(users["viewer"])
+    [window] = [e for e in Calendar.from_ical(client.get(f"/sites/{site.slug}/downtime.ics").content).walk("VEVENT")
+                if str(e["uid"]).startswith("recoat-")]
+    assert str(window["summary"]).startswith("Recoat window: T1 ")

@@ -100,15 +100,16 @@ def site_calendar(site: Site, base_url: str) -> bytes:
         phases = ", ".join(f"{p.get('name', '?')} {p.get('days', '?')} d ({_span(p)})" for p in plan.phases
                            if isinstance(p, dict))
         described = f"{out.changed}. The phases as planned: {phases}" if out.changed else phases
-        first, last, summary = out.first, out.last, "Recoat window"
-        kept = [o for o in plan.work_orders.all() if o.state != State.WITHDRAWN]
-        if kept and all(o.pk in done_days for o in kept):
-            first, last = min(done_days[o.pk][0] for o in kept), max(done_days[o.pk][1] for o in kept)
-            summary, described = "Recoat done", f"Done {_days_text(first, last)}. The phases as planned: {phases}"
+        orders_of = list(plan.work_orders.all())
+        if orders_of and all(o.pk in done_days for o in orders_of):  # all done, none withdrawn (a stopped recoat)
+            first, last = min(done_days[o.pk][0] for o in orders_of), max(done_days[o.pk][1] for o in orders_of)
+            all_day(f"recoat-{plan.pk}", first, last, f"Recoat done: {subsystem.telescope.name} {subsystem.name}",
+                    f"Done {_days_text(first, last)}. The phases as planned: {phases}", "CONFIRMED")
+            continue
         if subsystem.retired_on is not None:
             described = f"Not done: {subsystem.name} was retired on {subsystem.retired_on:%d %b %Y}. {described}"
-        all_day(f"recoat-{plan.pk}", first, last, f"{summary}: {subsystem.telescope.name} {subsystem.name}",
-                described, _window_status(plan))
+        all_day(f"recoat-{plan.pk}", out.first, out.last,
+                f"Recoat window: {subsystem.telescope.name} {subsystem.name}", described, _window_status(plan))
     # Closures: nights not observed (a season shut, an overhaul), whose days are free for work that takes a telescope
     # out. A closure deleted leaves the calendar at the next refresh.
     for closure in Closure.objects.filter(site=site).select_related("telescope"):

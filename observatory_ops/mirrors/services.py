@@ -1547,8 +1547,9 @@ def recoat_plan_create(
     its crew days off (``phase_dates``): each order is dated on its phase's first day, a crew phase's on a working
     day, and the plan runs from the first phase's first day to the last one's last day (a window from
     ``recoat_windows`` begins with its first phase). The realignment order asks for a band reflectance reading of
-    the new coating, and it carries the mirror's recoat service plans (``recoat_plans``, if any), so finishing it
-    restarts their counting. Refused for a retired mirror (``retired_recoat_text``).
+    the new coating, and it carries the mirror's recoat service plans (``recoat_plans``, if any): the due list says
+    they are on it, and finishing it restarts those the new coating did not (the coating's records come first:
+    ``workorders.services._restarted_by_the_new_coating``). Refused for a retired mirror (``retired_recoat_text``).
     """
     if refused := retired_recoat_text(mirror):
         raise ValidationError(refused)

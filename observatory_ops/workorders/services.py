@@ -702,12 +702,17 @@ def hand_back_on_withdrawal(order: WorkOrder) -> tuple[list[WorkOrder], list[Wor
     """For an order underway whose own hand-back to robotic and remote control is not ticked while some of its work
     is, or which holds another's: (the finished or withdrawn orders whose hand-back it holds, the other orders at work
     on the telescope with a hand-back of their own that it passes to when withdrawn); None when its withdrawal leaves
-    no hand-back undone. Withdrawn with no order to pass it to, nobody's order hands the telescope back
-    (``withdrawal_hand_back_text`` says so before the withdrawal)."""
-    if order.state != State.UNDERWAY:
+    no hand-back undone. A recoat's realignment still to do holds the hand-backs left to it before it starts
+    (``recoat_hands_back``): withdrawn so, it passes them on too (a diff review withdrew one as a stopped recoat asks,
+    and the hand-back it held was nobody's). Withdrawn with no order to pass it to, nobody's order hands the telescope
+    back (``withdrawal_hand_back_text`` says so before the withdrawal)."""
+    if order.state not in (State.DRAFT, State.ISSUED, State.UNDERWAY):
         return None
     held = hand_backs_held(order)
-    if not crew_state(order).hands_back or not (held or order.ticks.filter(ticked=True).exists()):
+    if order.state != State.UNDERWAY:
+        if not held:
+            return None
+    elif not crew_state(order).hands_back or not (held or order.ticks.filter(ticked=True).exists()):
         return None
     to = [a.order for a in still_working(order) if a.hands_back]
     if (realignment := recoat_hands_back(order)) is not None:  # it hands back last (``left_to_the_last_crew``)
@@ -725,12 +730,21 @@ def withdrawal_hand_back_text(order: WorkOrder) -> str:
     named = ", ".join(o.number for o in held)
     if takers:
         also = f", and the one {named} left to it," if held else ""
-        return (f"Withdrawn, its hand-back to robotic and remote control{also} passes to "
-                + "; ".join(f"{o.number} {o.title}" for o in takers)
-                + ", still at work on the telescope (their page says they hold it).")
+        own = "its hand-back to robotic and remote control" if order.state == State.UNDERWAY else (
+            "the hand-back to robotic and remote control")
+        return (f"Withdrawn, {own}{also} passes to " + "; ".join(f"{o.number} {o.title}" for o in takers)
+                + f", {still_at_it(takers)} (their page says they hold it).")
     return ("Withdrawn, nobody's order hands the telescope back to robotic and remote control"
             f"{f' ({named} left its hand-back to this order)' if held else ''}: once nobody is at work on it, whoever "
             "withdraws this order hands it back or leaves it out of control, and says which in the reason.")
+
+
+def still_at_it(orders: Sequence[WorkOrder]) -> str:
+    """How the orders a hand-back is left to stand, in words: at work on the telescope, or for a recoat's realignment
+    not begun yet (``recoat_hands_back``), still to do."""
+    if all(o.state == State.UNDERWAY for o in orders):
+        return "still at work on the telescope"
+    return "still at work on the telescope or, for a recoat's realignment, still to do"
 
 
 def countersign_refusal(order: WorkOrder, by) -> str:
@@ -846,21 +860,21 @@ def retired_underway_problem(order: WorkOrder, items: Sequence[WorkOrderItem], d
 
 
 def _restarted_by_the_new_coating(order: WorkOrder) -> set[int]:
-    """The plans of a recoat's realignment order that the recoat's new coating restarted (``mirrors.services
-    .plans_a_coating_restarts``: its recoat and cleaning plans), by id: the strip and coat is finished only once that
-    coating is logged (``selectors.coating_unlogged``), so they count from its day. Empty for any other order."""
+    """The plans of a recoat's realignment order that a record since the recoat began restarted (the new coating's,
+    ``mirrors.services.coating_service_records_log``: the strip and coat is finished only once it is logged,
+    ``selectors.coating_unlogged``), by id: they count from it. Read from the records in force, not taken for granted
+    (a diff review made the recoat plan inactive while the coating was logged: it wrote no record of it). Empty for any
+    other order."""
     if order.recoat_phase != "realignment":
         return set()
-    from observatory_ops.mirrors.models import CoatingEvent  # mirrors builds on work orders
-    from observatory_ops.mirrors.services import plans_a_coating_restarts
-
-    plan = order.recoat_plans.select_related("mirror__subsystem").order_by("-pk").first()
+    plan = order.recoat_plans.order_by("-pk").first()
     if plan is None:
         return set()
     since = min(plan.starts_on, timezone.localtime(plan.created_at, order.site.zone).date())
-    if not CoatingEvent.objects.filter(mirror=plan.mirror, coated_on__gte=since).exists():
-        return set()
-    return {p.pk for p in plans_a_coating_restarts(plan.mirror.subsystem)}
+    return set(ServiceRecord.objects.filter(
+        plan__in=order.items.filter(plan__isnull=False).values("plan_id"), performed_on__gte=since, void=False,
+        corrected_by__isnull=True,
+    ).exclude(work_order=order).values_list("plan_id", flat=True))
 
 
 def work_order_finish(
@@ -1047,9 +1061,7 @@ def work_order_finish(
             findings = (f"{findings}\n" if findings.strip() else "") + (
                 f"{hand_back[0].label}, the hand-back to robotic and remote control, was left to the last crew out: "
                 + "; ".join(f"{a.order.number} {a.order.title}" for a in working)
-                + (", still at work on the telescope or, for a recoat's realignment, still to do, when this order was "
-                   "finished." if any(a.order.recoat_phase == "realignment" for a in working)
-                   else ", still at work on the telescope when this order was finished.")
+                + f", {still_at_it([a.order for a in working])} when this order was finished."
             )
         unconfirmed = [line for line in others if line.text not in seen]
         if unconfirmed:
@@ -1231,14 +1243,15 @@ def finish_waits(order: WorkOrder, unticked: Sequence, day: dt.date | None = Non
             "done"
         )
     hand_back = [line for line in steps if is_hand_back(line.text)]
-    if hand_back and not left_to_the_last_crew(order, unticked, day)[0] and (working := still_working(order, day)):
+    left = bool(hand_back) and bool(left_to_the_last_crew(order, unticked, day)[0])
+    if hand_back and not left and (working := still_working(order, day)):
         return (
             f"{hand_back[0].label.lower()}, the hand-back to robotic and remote control, is not ticked while another "
             "crew is still at work on this telescope with no hand-back of its own to leave it to: "
             + "; ".join(f"{a.order.number} {a.order.title}" for a in working)
             + ". Finish once they are done and it is ticked"
         )
-    if left_to_the_last_crew(order, unticked, day)[0]:  # a hand-back left to others holds nothing here
+    if left:  # a hand-back left to others holds nothing here
         after = [line for line in after if not is_hand_back(line.text)]
     if after and (mirror_out := telescope_out_notices(order)):
         return (
@@ -1378,19 +1391,21 @@ def _why_held(steps: Sequence[str], key: int) -> str:
 
 def recoat_hands_back(order: WorkOrder) -> WorkOrder | None:
     """The realignment still to do of a recoat whose mirror has come out (its removal finished), on a telescope
-    ``order`` works on, ``order`` not being it: the telescope goes back to robotic and remote control with its last
-    step, once the collimation is recorded (``catalogue.HAND_BACK_AFTER_REALIGNMENT``), and the reinstall's last step
-    says to keep it out until then. Another order's hand-back waits for it (``_telescope_out_refusal``) and is left to
-    it at the finish (``left_to_the_last_crew``): a recoat review handed the telescope back from another order between
-    the reinstall and the realignment. None when there is none."""
+    ``order`` works on (any of the site's, where they share one enclosure), ``order`` not being it: the telescope
+    goes back to robotic and remote control with its last step, once the collimation is recorded
+    (``catalogue.HAND_BACK_AFTER_REALIGNMENT``), and the reinstall's last step says to keep it out until then.
+    Another order's hand-back waits for it (``_telescope_out_refusal``) and is left to it at the finish
+    (``left_to_the_last_crew``): a recoat review handed the telescope back from another order between the reinstall
+    and the realignment. None when there is none."""
     if order.recoat_phase == "realignment":
         return None
-    telescopes = {order.telescope_id} if order.telescope_id else set(
-        order.items.values_list("subsystem__telescope_id", flat=True))
     realignments = WorkOrder.objects.filter(
-        site=order.site_id, recoat_phase="realignment", telescope_id__in=telescopes,
-        state__in=(State.DRAFT, State.ISSUED, State.UNDERWAY),
+        site=order.site_id, recoat_phase="realignment", state__in=(State.DRAFT, State.ISSUED, State.UNDERWAY),
     ).exclude(pk=order.pk).order_by(F("planned_date").asc(nulls_last=True), "pk")
+    if not order.site.shared_enclosure:  # one enclosure over all: its dome moves over the telescope out (a diff review)
+        telescopes = {order.telescope_id} if order.telescope_id else set(
+            order.items.values_list("subsystem__telescope_id", flat=True))
+        realignments = realignments.filter(telescope_id__in=telescopes)
     for realignment in realignments:
         plan = realignment.recoat_plans.order_by("-pk").first()
         if plan is not None and plan.work_orders.filter(

@@ -240,8 +240,9 @@ def work_order_detail(request, pk):
             "withdraw_form": WithdrawForm(),
             "withdraw_waits": services.withdraw_refusal(order),
             "withdraw_hand_back": services.withdrawal_hand_back_text(order) if has_role(request.user, ENGINEER) else "",
-            # Said while its crew is at work: once it is finished or withdrawn, its record says where it went.
-            "hand_backs_held": selectors.hand_backs_held(order) if order.state == State.UNDERWAY else [],
+            # Said while it is to do (a recoat's realignment holds those left to it before it starts): once it is
+            # finished or withdrawn, its record says where it went.
+            "hand_backs_held": selectors.hand_backs_held(order) if order.state in selectors.TO_DO else [],
             "hand_backs_held_title": HAND_BACKS_HELD_TITLE,
             "hand_backs_held_advice": HAND_BACKS_HELD_ADVICE,
             "history": selectors.history(order, limit=8),
@@ -548,7 +549,8 @@ def work_order_finish(request, pk):
          "isolation": isolation, "isolation_title": ISOLATION_UNTICKED_TITLE,
          "isolation_question": ISOLATION_UNTICKED_QUESTION, "flagged": flagged, "readings_confirm": READINGS_CONFIRM,
          "lacking": lacking, "lacking_cautions": cautions_for(lacking), "precedence": PRECEDENCE_STATEMENT,
-         "locked_after_release": locked_after_release, "waits": waits, "hand_back": hand_back, "working": working},
+         "locked_after_release": locked_after_release, "waits": waits, "hand_back": hand_back, "working": working,
+         "still_at_it": services.still_at_it([a.order for a in working]) if working else ""},
     )
 
 
