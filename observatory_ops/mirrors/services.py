@@ -1780,11 +1780,14 @@ def coating_service_records_log(event: CoatingEvent, by) -> list[ServiceRecord]:
     subsystem = event.mirror.subsystem
     summary = f"New coating: {event.recipe}"[:200]
     if (plan := recoat_in_hand(event.mirror)) is not None:  # its realignment expects the new coating's fresh value
-        RequiredReading.objects.filter(
+        for row in RequiredReading.objects.filter(
             work_order__in=plan.work_orders.filter(recoat_phase="realignment").exclude(
                 state__in=(State.FINISHED, State.COUNTERSIGNED, State.WITHDRAWN)),
             subsystem=subsystem, quantity="reflectance", reading__isnull=True,
-        ).update(limit_text=_expected_fresh(event.mirror))
+            limit_text__contains="expected (computed fresh",  # as made: an engineer's own words stay
+        ):
+            row.limit_text = _expected_fresh(event.mirror)
+            row.save(update_fields=["limit_text"])
     records = _plans_restart(subsystem, plans_a_coating_restarts(subsystem), event.coated_on, by, summary)
     if not records:
         site_recompute(subsystem.telescope.site)
