@@ -517,3 +517,22 @@ def test_the_nightly_log_marks_the_nights_of_a_closure(scene, users, client):  #
     assert page.count("closed: mount overhaul") == 1  # the telescope's own row, as sent
     assert page.count("closed: snow") == 2
     assert "A night marked <em>closed</em> is one of a closure" in page
+
+
+def test_the_dashboard_keeps_saying_a_closure_falls_over_a_booked_run(scene, users, client):  # noqa: F811
+    """A manager's review: the admin warned of a closure over a booked campaign once, on saving, and the dashboard
+    never again (a recoat over one stays said there). Runs wholly past, or apart from it, are not named."""
+    from observatory_ops.planning.models import BookedRun
+
+    site, today, plan, _ = scene
+    _closure(site, today + dt.timedelta(days=10), today + dt.timedelta(days=16), "mount overhaul",
+             telescope=plan.subsystem.telescope)
+    BookedRun.objects.create(site=site, title="Nova follow-up", starts_on=today + dt.timedelta(days=14),
+                             ends_on=today + dt.timedelta(days=20))
+    BookedRun.objects.create(site=site, title="Far apart", starts_on=today + dt.timedelta(days=40),
+                             ends_on=today + dt.timedelta(days=41))
+    client.force_login(users["viewer"])
+    page = client.get(site.get_absolute_url()).content.decode()
+    assert (f"over the booked run Nova follow-up ({today + dt.timedelta(days=14):%d %b} to "
+            f"{today + dt.timedelta(days=20):%d %b %Y}): move one or the other, or tell the observers") in page
+    assert "Far apart" not in page

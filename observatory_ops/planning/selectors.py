@@ -725,15 +725,21 @@ CLOSURE_LISTED_AFTER_DAYS = 30
 
 def closures_listed(site, today: dt.date) -> list:
     """The site's closures under way, coming, or ended in the last ``CLOSURE_LISTED_AFTER_DAYS`` days, the earliest
-    first, each with ``state``: "under way", "coming" or "ended" (the dashboard lists them)."""
-    from .models import Closure
+    first, each with ``state``: "under way", "coming" or "ended" (the dashboard lists them), and ``runs_over``: the
+    booked runs on its nights still to come (a manager's review: the admin warned of a clash once, on saving, and the
+    dashboard never again, where a recoat's clash stays said)."""
+    from .models import BookedRun, Closure
 
     since = today - dt.timedelta(days=CLOSURE_LISTED_AFTER_DAYS)
     closures = list(Closure.objects.filter(site=site, last_night__gte=since).select_related("telescope")
                     .order_by("first_night", "pk"))
+    runs = list(BookedRun.objects.filter(site=site, ends_on__gte=today).order_by("starts_on", "pk")) if any(
+        c.last_night >= today for c in closures) else []
     for closure in closures:
         closure.state = ("ended" if closure.last_night < today else "coming" if closure.first_night > today
                          else "under way")
+        closure.runs_over = [r for r in runs if r.starts_on <= closure.last_night and r.ends_on >= max(
+            closure.first_night, today)]
     return closures
 
 
