@@ -31,12 +31,15 @@ def test_the_dashboard_prices_a_re_dated_recoat_on_its_new_nights_beside_its_pla
     out = services.recoat_downtime(recoat, today)
     assert out.first == recoat.starts_on + dt.timedelta(days=SHIFT)
     assert mirror_services.hours_lost(scene[0], out.first, out.last, recoat.mirror.subsystem.telescope) == (
-        pytest.approx(LOST_PER_NIGHT * out.nights))
+        pytest.approx((LOST_PER_NIGHT * out.nights, 10.0 * out.nights, 5.0 * out.nights)))
     client.force_login(users["viewer"])
     page = client.get(scene[0].get_absolute_url()).content.decode()
+    # Beside it, the darkness of those nights (10 h a night, 5 moonless): a manager's review took the hours lost for
+    # the dark time lost.
     assert (f"about {LOST_PER_NIGHT * out.nights:.1f} usable moonless open hours lost on these nights (each night's "
             "moonless dark hours x its month's open fraction; its planned days were priced at 10.0 when it was "
-            "planned, a booked night weighed more)") in page
+            f"planned, a booked night weighed more) (of {10.0 * out.nights:.1f} h of astronomical darkness on these "
+            f"nights, {5.0 * out.nights:.1f} h of it moonless)") in page
 
 
 def test_a_recoat_as_planned_keeps_its_stored_cost_on_the_dashboard(scene, users, client):  # noqa: F811
