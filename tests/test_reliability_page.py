@@ -600,6 +600,9 @@ def test_the_service_records_of_a_period_download_as_csv_with_how_each_counts(re
     assert withdrawal.pk == int(rows[-1]["record_id"])
     # A reviewer summed hours_spent and got more than the page: counted_hours is what the page adds up.
     assert [r["counted_hours"] for r in rows] == ["1.0", "2.0", "", "0.5", "", ""]
+    # The kind as the page groups the hours (a manager's review mapped names to kinds by hand).
+    assert all(r["kind"] for r in rows) and rows[0]["kind"] == Subsystem.objects.get(
+        name=rows[0]["subsystem"], telescope__site=record).kind_label
     assert client.get(f"/sites/{record.slug}/service-records.csv?from=2026-03-32").status_code == 400
     # A reversed period asked for from the reliability page gets a page in words with the way back to it.
     reversed_period = client.get(f"/sites/{record.slug}/service-records.csv?from=2026-04-02&to=2026-04-01",
