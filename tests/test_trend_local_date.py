@@ -14,6 +14,7 @@ crossing moment by hand from that line, and the local date with the IANA time zo
 from __future__ import annotations
 
 import datetime as dt
+import re
 import statistics
 import zoneinfo
 
@@ -110,3 +111,5 @@ def test_the_forecast_and_both_ends_of_its_band_are_local_dates(db, users):
     from observatory_ops.planning.selectors import significant
 
     assert f"the line at {significant(pivot_y - slope * pivot_x)} s on " in status.basis
+    # Its time is the site's, said so (a manager's review read a time with no zone on the due list).
+    assert re.search(r"on \d\d \w{3} \d{4} \d\d:\d\d \(site time, [A-Za-z_/]+\), the first of them", status.basis)

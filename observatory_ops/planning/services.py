@@ -1377,7 +1377,8 @@ def _reading_state(trig, readings, today: dt.date, zone, since: str) -> TriggerS
     basis = (
         f"Theil-Sen trend of {counted}: {significant(fit.slope_per_day, signed=True)} {unit}/day "
         f"(95 % interval {significant(fit.slope_low, signed=True)} to {significant(fit.slope_high, signed=True)}), "
-        f"the line at {significant(fit.intercept)} {unit} on {origin.astimezone(zone):%d %b %Y %H:%M}, the first of "
+        f"the line at {significant(fit.intercept)} {unit} on {origin.astimezone(zone):%d %b %Y %H:%M} (site time, "
+        f"{zone.key if hasattr(zone, 'key') else zone}), the first of "
         "them (the line through the median reading at the median of their days since)"
         if fit
         else no_fit
