@@ -296,3 +296,26 @@ def test_the_page_reads_as_many_queries_over_a_period_as_by_default(drives, user
     with CaptureQueriesContext(connection) as chosen:
         client.get(url, {"from": "2026-03-01", "to": "2026-05-31"})
     assert len(chosen) == len(default)
+
+
+def test_the_period_presets_are_the_calendars_cut_to_the_log():
+    """A manager's review typed each month's and quarter's dates by hand: the page offers last month, last quarter,
+    the last 12 months, this year so far and last year as links, cut to the log's first night and to today. By hand
+    for Thursday 05 Nov 2026 (a log from 20 Jul 2025): October 2026; Q3 2026, 01 Jul to 30 Sep; 06 Nov 2025 to today
+    (365 days, as the default maintenance hours); 2026 from 01 Jan; 2025 from the log's first night."""
+    from observatory_ops.reliability.views import period_presets
+
+    today, first = dt.date(2026, 11, 5), dt.date(2025, 7, 20)
+    assert period_presets(today, first) == [
+        ("last month (Oct 2026)", dt.date(2026, 10, 1), dt.date(2026, 10, 31)),
+        ("last quarter (Q3 2026)", dt.date(2026, 7, 1), dt.date(2026, 9, 30)),
+        ("the last 12 months", dt.date(2025, 11, 6), today),
+        ("2026 so far", dt.date(2026, 1, 1), today),
+        ("2025", first, dt.date(2025, 12, 31)),
+    ]
+    # January: last month and last quarter are the year before's; a log begun this month leaves out what ends before.
+    assert [label for label, _, _ in period_presets(dt.date(2027, 1, 10), dt.date(2027, 1, 2))] == [
+        "the last 12 months", "2027 so far"]
+    assert period_presets(dt.date(2027, 1, 10), None)[:2] == [
+        ("last month (Dec 2026)", dt.date(2026, 12, 1), dt.date(2026, 12, 31)),
+        ("last quarter (Q4 2026)", dt.date(2026, 10, 1), dt.date(2026, 12, 31))]

@@ -1,3 +1,5 @@
+import datetime as dt
+
 from django.shortcuts import get_object_or_404, render
 
 from observatory_ops.access.decorators import requires
@@ -17,7 +19,8 @@ def site_reliability(request, slug):
     its form, over the default period's figures."""
     site = get_object_or_404(Site, slug=slug)
     today = site_today(site)
-    form = PeriodForm(request.GET or None, first_night=selectors.first_logged_night(site), today=today)
+    first_night = selectors.first_logged_night(site)
+    form = PeriodForm(request.GET or None, first_night=first_night, today=today)
     report = selectors.site_reliability(site, today, form.period() if form.is_valid() else None)
     return render(
         request,
@@ -36,5 +39,28 @@ def site_reliability(request, slug):
             "hours_columns": selectors.HOURS_COLUMN_LABELS,
             "min_failures": reliability.MIN_FAILURES_FOR_FIT,
             "readings": (reliability.INFANT_MORTALITY, reliability.RANDOM, reliability.WEAR_OUT),
+            "presets": period_presets(today, first_night),
         },
     )
+
+
+def period_presets(today: dt.date, first_night: dt.date | None) -> list[tuple[str, dt.date, dt.date]]:
+    """The periods a monthly or yearly report asks for, as links beside the period form (a manager's review typed
+    every month and quarter's dates by hand): (label, first day, last day), each cut to the log (from its first night)
+    and to today; none that ends before the log begins."""
+    month_start = today.replace(day=1)
+    last_month_end = month_start - dt.timedelta(days=1)
+    quarter_start = dt.date(today.year, 3 * ((today.month - 1) // 3) + 1, 1)
+    last_quarter_end = quarter_start - dt.timedelta(days=1)
+    last_quarter_start = dt.date(last_quarter_end.year, 3 * ((last_quarter_end.month - 1) // 3) + 1, 1)
+    year_ago = today - dt.timedelta(days=selectors.HOURS_WINDOW_DAYS - 1)  # the default maintenance hours' 12 months
+    wanted = [
+        (f"last month ({last_month_end:%b %Y})", last_month_end.replace(day=1), last_month_end),
+        (f"last quarter (Q{(last_quarter_start.month - 1) // 3 + 1} {last_quarter_start.year})", last_quarter_start,
+         last_quarter_end),
+        ("the last 12 months", year_ago, today),
+        (f"{today.year} so far", dt.date(today.year, 1, 1), today),
+        (f"{today.year - 1}", dt.date(today.year - 1, 1, 1), dt.date(today.year - 1, 12, 31)),
+    ]
+    return [(label, max(first, first_night) if first_night else first, last) for label, first, last in wanted
+            if first_night is None or last >= first_night]
