@@ -319,3 +319,26 @@ def test_the_period_presets_are_the_calendars_cut_to_the_log():
     assert period_presets(dt.date(2027, 1, 10), None)[:2] == [
         ("last month (Dec 2026)", dt.date(2026, 12, 1), dt.date(2026, 12, 31)),
         ("last quarter (Q4 2026)", dt.date(2026, 10, 1), dt.date(2026, 12, 31))]
+
+
+def test_year_by_year_counts_each_calendar_year_as_a_period_of_its_own(drives, users, client):
+    """A manager's review loaded three yearly periods by hand to tell whether a kind got better or worse: the page
+    gives each of the last three calendar years of the log as a period (``selectors.by_year``), each cell the figures
+    the period page gives for that year."""
+    from observatory_ops.reliability import selectors
+
+    today = site_today(drives)
+    first_night = selectors.first_logged_night(drives)
+    labels, rows = selectors.by_year(drives, today, first_night)
+    assert labels and labels[-1].startswith(f"{today.year} so far")
+    for label, cells in rows:
+        for year_label, cell in zip(labels, cells, strict=True):
+            if cell is None:
+                continue
+            year = int(year_label[:4])
+            period = selectors.Period(max(dt.date(year, 1, 1), first_night), min(dt.date(year, 12, 31), today))
+            [row] = [k for k in selectors.site_reliability(drives, today, period).kinds if k.label == label]
+            assert (cell.failures, cell.operating_hours, cell.maintenance_hours) == (
+                row.failures, row.operating_hours, row.hours_total)
+    client.force_login(users["viewer"])
+    assert 'id="year-by-year"' in client.get(f"/sites/{drives.slug}/reliability/").content.decode()

@@ -578,3 +578,34 @@ def _log_notes(logs: dict[int | None, UsageLog], subsystems: list[tuple]) -> lis
     """Where the site logs per telescope: what each telescope's log is made of (``UsageLog.note``), by name."""
     names = {telescope_id: telescope for _, telescope, _, _, _, telescope_id, _ in subsystems}
     return [f"{names[key]}: {logs[key].note}" for key in sorted((k for k in logs if k in names), key=names.get)]
+
+
+@dataclass(frozen=True)
+class YearCell:
+    """One kind in one calendar year (``by_year``): its failures, its MTBF point estimate (None with no failure), its
+    operating hours and its maintenance hours."""
+
+    failures: int
+    mtbf_hours: float | None
+    operating_hours: float
+    maintenance_hours: float
+
+
+def by_year(site: Site, today: dt.date, first_night: dt.date | None, years: int = 3
+            ) -> tuple[list[str], list[tuple[str, list[YearCell | None]]]]:
+    """The last ``years`` calendar years of the log, each a period of its own (``Period``: the failures repaired in
+    it, the nights dated in it, the service done in it; this year to today, the first to the log's first night):
+    (the years' labels, oldest first; each kind's label with a cell a year, None where it had no subsystem counted
+    then). A manager's review loaded three yearly periods by hand to tell whether a kind got better or worse."""
+    if first_night is None:
+        return [], []
+    spans = [(max(dt.date(year, 1, 1), first_night), min(dt.date(year, 12, 31), today))
+             for year in range(today.year - years + 1, today.year + 1) if dt.date(year, 12, 31) >= first_night]
+    labels, cells = [], {}
+    for first, last in spans:
+        labels.append(f"{first.year}" + (" so far" if last == today else "") + (
+            f" (from {first:%d %b})" if first != dt.date(first.year, 1, 1) else ""))
+        for row in site_reliability(site, today, Period(first, last)).kinds:
+            cells.setdefault(row.label, {})[len(labels) - 1] = YearCell(
+                row.failures, row.mtbf.mtbf_hours if row.mtbf else None, row.operating_hours, row.hours_total)
+    return labels, [(label, [per_year.get(i) for i in range(len(labels))]) for label, per_year in cells.items()]

@@ -22,6 +22,7 @@ def site_reliability(request, slug):
     first_night = selectors.first_logged_night(site)
     form = PeriodForm(request.GET or None, first_night=first_night, today=today)
     report = selectors.site_reliability(site, today, form.period() if form.is_valid() else None)
+    years, year_rows = selectors.by_year(site, today, first_night)
     return render(
         request,
         "reliability/site_reliability.html",
@@ -40,6 +41,8 @@ def site_reliability(request, slug):
             "min_failures": reliability.MIN_FAILURES_FOR_FIT,
             "readings": (reliability.INFANT_MORTALITY, reliability.RANDOM, reliability.WEAR_OUT),
             "presets": period_presets(today, first_night),
+            "years": years,
+            "year_rows": year_rows,
         },
     )
 
