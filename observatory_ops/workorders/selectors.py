@@ -97,6 +97,33 @@ def work_orders_listed() -> QuerySet[WorkOrder]:
     return work_orders().prefetch_related(Prefetch("items", queryset=items))
 
 
+#: Columns of the work orders' CSV (``work_orders_csv_rows``); dates are the site's, in ISO form.
+WORK_ORDERS_CSV_HEADER = (
+    "number", "state", "type", "site", "telescope", "title", "subsystems", "planned", "started", "work_done_on",
+    "estimated_hours", "actual_hours", "assignee", "crew", "countersigned_by",
+)
+
+
+def work_orders_csv_rows(orders: QuerySet[WorkOrder]):
+    """The rows of the work orders' CSV: ``orders`` (from ``work_orders_listed``), each with the day its work was done
+    (``work_done_on``, one subquery for all) and its actual hours, empty while it is to do."""
+    for order in orders.annotate(done_on=work_done_on_of("pk")).select_related("countersigned_by"):
+        zone = order.site.zone
+        telescopes = sorted({i.subsystem.telescope.name for i in order.items.all()})
+        yield (
+            order.number, order.get_state_display(), order.get_order_type_display(), order.site.name,
+            order.telescope.name if order.telescope_id else ", ".join(telescopes),
+            order.title, "; ".join(f"{i.subsystem.telescope.name}: {i.subsystem.name}" for i in order.items.all()),
+            order.planned_date.isoformat() if order.planned_date else "",
+            order.started_at.astimezone(zone).date().isoformat() if order.started_at else "",
+            order.done_on.isoformat() if order.done_on else "",
+            "" if order.estimated_hours is None else order.estimated_hours,
+            "" if order.actual_hours is None else order.actual_hours,
+            person(order.assignee) if order.assignee_id else "", ", ".join(order.crew or ()),
+            person(order.countersigned_by) if order.countersigned_by_id else "",
+        )
+
+
 #: States of a work order whose work is still to do.
 TO_DO = (State.DRAFT, State.ISSUED, State.UNDERWAY)
 

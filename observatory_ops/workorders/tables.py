@@ -1,11 +1,13 @@
 import django_filters
 import django_tables2 as tables
+from django import forms
 from django.utils.html import format_html
 
 from observatory_ops.archive.history import person
 from observatory_ops.registry.models import Site
 
 from .models import State, WorkOrder
+from .selectors import work_done_on_of
 
 #: Each cell carries its column's header as data-label: on a phone each row is a card of "label: value" lines
 #: (site.css, ``.card-table``), the number and the state on its first line.
@@ -68,10 +70,16 @@ class WorkOrderFilter(django_filters.FilterSet):
         choices=[(MINE, "to me"), (NOBODY, "to nobody yet")], label="Assigned", method="filter_assigned",
     )
     title = django_filters.CharFilter(lookup_expr="icontains", label="Title contains")
+    # The day the work was done (``selectors.work_done_on``): a month's finished work for a report (a manager's
+    # review opened each order to find last month's).
+    done_from = django_filters.DateFilter(label="Done from", method="filter_done",
+                                          widget=forms.DateInput(attrs={"type": "date"}))
+    done_to = django_filters.DateFilter(label="Done to", method="filter_done",
+                                        widget=forms.DateInput(attrs={"type": "date"}))
 
     class Meta:
         model = WorkOrder
-        fields = ["site", "state", "order_type", "assigned", "title"]
+        fields = ["site", "state", "order_type", "assigned", "title", "done_from", "done_to"]
 
     def __init__(self, data=None, *args, **kwargs):
         if data is not None and not data.get("state"):
@@ -83,6 +91,11 @@ class WorkOrderFilter(django_filters.FilterSet):
         if value == OPEN:
             return queryset.filter(state__in=OPEN_STATES)
         return queryset if value == EVERY else queryset.filter(state=value)
+
+    def filter_done(self, queryset, name, value):
+        if "done_on" not in queryset.query.annotations:
+            queryset = queryset.annotate(done_on=work_done_on_of("pk"))
+        return queryset.filter(**{"done_on__gte" if name == "done_from" else "done_on__lte": value})
 
     def filter_assigned(self, queryset, name, value):
         if value == MINE:

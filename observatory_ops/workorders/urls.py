@@ -4,6 +4,7 @@ from . import views
 
 urlpatterns = [
     path("workorders/", views.work_order_list, name="workorder-list"),
+    path("workorders.csv", views.work_orders_csv, name="workorder-list-csv"),
     path("workorders/from-due/", views.work_order_from_due, name="workorder-from-due"),
     path("workorders/<int:pk>/", views.work_order_detail, name="workorder-detail"),
     path("workorders/<int:pk>/edit/", views.work_order_edit, name="workorder-edit"),

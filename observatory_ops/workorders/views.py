@@ -79,7 +79,21 @@ def work_order_list(request):
     filtered = WorkOrderFilter(request.GET, queryset=selectors.work_orders_listed(), request=request)
     table = WorkOrderTable(filtered.qs)
     RequestConfig(request, paginate={"per_page": 50}).configure(table)
-    return render(request, "workorders/list.html", {"filter": filtered, "table": table})
+    return render(request, "workorders/list.html", {"filter": filtered, "table": table,
+                                                    "query": request.GET.urlencode()})
+
+
+@requires(VIEWER)
+def work_orders_csv(request):
+    """The orders the list's filters choose, every one (not a page), as CSV: each with the day its work was done and
+    its actual hours, for a month's report (a manager's review had no record of finished work but the orders
+    themselves). Filters that cannot be applied are refused, as the list says them."""
+    filtered = WorkOrderFilter(request.GET, queryset=selectors.work_orders_listed(), request=request)
+    if not filtered.is_valid():
+        return download_refused(request, "; ".join(f"{name}: {' '.join(errors)}" for name, errors in
+                                                   filtered.errors.items()), reverse("workorder-list"))
+    return csv_response("work-orders.csv", selectors.WORK_ORDERS_CSV_HEADER, selectors.work_orders_csv_rows(
+        filtered.qs.order_by("pk")))
 
 
 @requires(TECHNICIAN)
