@@ -120,6 +120,7 @@ INSTALLED_APPS = [
 MIDDLEWARE = [
     "django.middleware.security.SecurityMiddleware",
     "whitenoise.middleware.WhiteNoiseMiddleware",
+    "observatory_ops.upload_limit.UploadLimitMiddleware",  # before anything reads the body (the CSRF check does)
     "django.contrib.sessions.middleware.SessionMiddleware",
     "django.middleware.common.CommonMiddleware",
     "django.middleware.csrf.CsrfViewMiddleware",
@@ -149,7 +150,8 @@ TEMPLATES = [
     },
 ]
 
-WSGI_APPLICATION = "observatory_ops.wsgi.application"
+# No WSGI_APPLICATION: runserver (the demo) builds its own handler, and observatory_ops.wsgi, which gunicorn serves,
+# refuses to start with DEBUG on.
 
 DATA_DIR.mkdir(parents=True, exist_ok=True)
 DATABASE_URL_GIVEN = bool(os.environ.get("DATABASE_URL"))  # read by the deploy checks (planning/checks.py)
@@ -202,6 +204,9 @@ STORAGES = {
 NIGHTS_UPLOAD_MAX_BYTES = 5 * 1024 * 1024
 DATA_UPLOAD_MAX_MEMORY_SIZE = NIGHTS_UPLOAD_MAX_BYTES
 FILE_UPLOAD_MAX_MEMORY_SIZE = NIGHTS_UPLOAD_MAX_BYTES
+# A multipart body declared over this is refused before it is read (upload_limit.py): the largest file with the
+# form around it, as nginx's client_max_body_size (README, Deployment).
+REQUEST_UPLOAD_MAX_BYTES = NIGHTS_UPLOAD_MAX_BYTES + 1024 * 1024
 
 DJANGO_TABLES2_TEMPLATE = "django_tables2/table.html"
 
@@ -288,7 +293,10 @@ if not DEBUG:
     SECURE_HSTS_SECONDS = _env_count("SECURE_HSTS_SECONDS", 31536000)
     SECURE_HSTS_INCLUDE_SUBDOMAINS = True
     SECURE_HSTS_PRELOAD = True
-    SECURE_PROXY_SSL_HEADER = ("HTTP_X_FORWARDED_PROTO", "https")
+    # Believed only from a proxy in front (a security review sent it to gunicorn facing the network, and plain
+    # HTTP passed as HTTPS): with OBSOPS_TRUSTED_PROXIES at 0, gunicorn serves HTTPS itself (README, One machine).
+    if TRUSTED_PROXIES:
+        SECURE_PROXY_SSL_HEADER = ("HTTP_X_FORWARDED_PROTO", "https")
 
 def _without_traceback(record) -> bool:
     """A logging filter: the message alone, its traceback dropped."""

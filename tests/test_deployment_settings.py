@@ -121,6 +121,7 @@ def test_check_deploy_passes_a_production_environment_and_warns_of_mail_left_pri
     ({"SITE_URL": None}, "(planning.W004) SITE_URL is 'http://127.0.0.1:8000'"),
     ({"SITE_URL": "observatory.example.org"}, "(planning.W004)"),
     ({"SITE_URL": "https://ops.example.org"}, "(planning.W005) SITE_URL names ops.example.org, which is not among"),
+    ({"ALLOWED_HOSTS": "*"}, "(planning.W006) ALLOWED_HOSTS holds '*'"),  # a security review: it passed silently
 ])
 def test_check_deploy_warns_of_the_database_and_addresses_left_at_their_defaults(variables, found):
     """A deployment review: each of these passed `check --deploy` and broke the site (a forgotten DATABASE_URL ran
@@ -190,3 +191,45 @@ def test_a_request_for_a_host_not_allowed_is_logged_in_one_line():
     assert run.stderr.strip().splitlines() == [
         "Invalid HTTP_HOST header: '192.0.2.7'. You may need to add '192.0.2.7' to ALLOWED_HOSTS."
     ]
+
+
+
+def _run(script: str, **variables: str | None) -> subprocess.CompletedProcess:
+    return subprocess.run([sys.executable, "-c", script], env=_environment(**variables), cwd=PROJECT,
+                          capture_output=True, text=True, check=False)
+
+
+def test_the_forwarded_scheme_is_believed_only_from_a_proxy_in_front():
+    """A security review sent X-Forwarded-Proto: https to gunicorn facing the network (README, One machine): plain
+    HTTP passed as HTTPS. The header is read only with OBSOPS_TRUSTED_PROXIES at 1 or more (the README's nginx)."""
+    script = "from django.conf import settings as s; print(getattr(s, 'SECURE_PROXY_SSL_HEADER', None))"
+    production = {"DEBUG": "0", "SECRET_KEY": secrets.token_urlsafe(50), "ALLOWED_HOSTS": "observatory.example.org"}
+    assert _run(script, **production, OBSOPS_TRUSTED_PROXIES=None).stdout.strip() == "None"
+    assert _run(script, **production, OBSOPS_TRUSTED_PROXIES="1").stdout.strip() == (
+        "('HTTP_X_FORWARDED_PROTO', 'https')")
+
+
+def test_the_wsgi_entry_point_refuses_to_serve_with_debug_on():
+    """A security review loaded observatory_ops.wsgi with neither DEBUG nor SECRET_KEY set: DEBUG came on by itself,
+    with the development key. It refuses now, unless told to serve a development setup."""
+    refused = _run("import observatory_ops.wsgi", DEBUG=None, SECRET_KEY=None)
+    assert refused.returncode != 0 and "observatory_ops.wsgi serves a deployment, and DEBUG is on" in refused.stderr
+    assert _run("import observatory_ops.wsgi", DEBUG=None, SECRET_KEY=None, OBSOPS_SERVE_DEBUG="1").returncode == 0
+    production = {"DEBUG": "0", "SECRET_KEY": secrets.token_urlsafe(50), "ALLOWED_HOSTS": "observatory.example.org"}
+    assert _run("import observatory_ops.wsgi", **production).returncode == 0
+
+
+def test_an_upload_declared_over_the_limit_is_refused_before_it_is_read(rf, settings):
+    """A security review streamed 100 MB to a form as a viewer: Django wrote it all to a temporary file before the
+    form's own check. A multipart body declared over REQUEST_UPLOAD_MAX_BYTES gets 413 at once; one within passes on."""
+    from observatory_ops.upload_limit import UploadLimitMiddleware
+
+    passed = []
+    middleware = UploadLimitMiddleware(lambda request: passed.append(request) or "passed on")
+    big = rf.post("/sites/x/nights/import/", data=b"-", content_type="multipart/form-data; boundary=x",
+                  CONTENT_LENGTH=str(settings.REQUEST_UPLOAD_MAX_BYTES + 1))
+    response = middleware(big)
+    assert response.status_code == 413 and "Nothing was stored." in response.content.decode() and not passed
+    small = rf.post("/sites/x/nights/import/", data=b"-", content_type="multipart/form-data; boundary=x",
+                    CONTENT_LENGTH=str(settings.REQUEST_UPLOAD_MAX_BYTES))
+    assert middleware(small) == "passed on"

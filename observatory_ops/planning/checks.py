@@ -61,7 +61,14 @@ def deployment_addresses_and_database(app_configs, **kwargs) -> list[Warning]:
             id="planning.W002",
         ))
     hosts = [host for host in settings.ALLOWED_HOSTS if host != "testserver"]
-    if hosts == DEFAULT_HOSTS or any("://" in host or "/" in host for host in hosts):
+    if "*" in hosts:  # any Host header is answered, and the calendar's links are built from it (a security review)
+        found.append(Warning(
+            "ALLOWED_HOSTS holds '*': a request naming any host is answered, and the links the calendar file gives "
+            "are built from the host the request named.",
+            hint="Set ALLOWED_HOSTS to the host names the site is reached by: ALLOWED_HOSTS=observatory.example.org",
+            id="planning.W006",
+        ))
+    elif hosts == DEFAULT_HOSTS or any("://" in host or "/" in host for host in hosts):
         found.append(Warning(
             f"ALLOWED_HOSTS is {','.join(hosts)}: requests for the site's own name are answered 400.",
             hint="Set ALLOWED_HOSTS to the host names the site is reached by, without scheme or path: "
