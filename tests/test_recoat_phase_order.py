@@ -418,6 +418,9 @@ def test_the_realignment_expects_the_new_coatings_fresh_value_and_adds_no_second
     assert new != old
     reading.refresh_from_db()
     assert reading.limit_text == f"about {new} expected (computed fresh for Al + SiO2 100 nm)"
+    # The coating's record of the recoat plan is not said to make the realignment's item done (a diff review: the
+    # page told the engineer to withdraw the realignment).
+    assert selectors.served_since(realignment, list(realignment.items.all())) == {}
     _finished(realignment, users)
     records = ServiceRecord.objects.filter(plan=recoat_plan, performed_on__gte=site_today(telescope.site))
     assert [r.summary for r in records] == ["New coating: Al + SiO2 100 nm"]

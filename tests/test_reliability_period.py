@@ -340,5 +340,8 @@ def test_year_by_year_counts_each_calendar_year_as_a_period_of_its_own(drives, u
             [row] = [k for k in selectors.site_reliability(drives, today, period).kinds if k.label == label]
             assert (cell.failures, cell.operating_hours, cell.maintenance_hours) == (
                 row.failures, row.operating_hours, row.hours_total)
+            # The MTBF point estimate of a time-terminated record, T / n (NIST/SEMATECH e-Handbook of Statistical
+            # Methods, section 8.1.7.1, from memory); none with no failure.
+            assert cell.mtbf_hours == (pytest.approx(cell.operating_hours / cell.failures) if cell.failures else None)
     client.force_login(users["viewer"])
     assert 'id="year-by-year"' in client.get(f"/sites/{drives.slug}/reliability/").content.decode()

@@ -452,7 +452,7 @@ def test_the_dashboard_names_a_recoat_to_plan_and_the_booked_run_over_its_foreca
     client.force_login(users["viewer"])
     page = " ".join(html.unescape(re.sub(r"<[^>]+>", " ", client.get(
         mirror.subsystem.telescope.site.get_absolute_url()).content.decode())).split())
-    assert (f"Recoats to plan T1 Primary: later, forecast {forecast:%d %b %Y} (Calendar days) inside the booked run "
+    assert (f"Recoats to plan T1 Primary: forecast {forecast:%d %b %Y} (Calendar days) inside the booked run "
             f"Nova follow-up ({forecast - dt.timedelta(days=2):%d %b} to {forecast + dt.timedelta(days=3):%d %b %Y}) · "
             "plan the recoat window") in page
     assert "Far off" not in page

@@ -136,8 +136,8 @@ def test_with_the_mirror_out_starting_asks_and_nothing_that_moves_an_axis_or_bri
             for point in selectors.isolation_points(order):
                 services.checklist_tick_set(order, "point", point.pk, True, users["technician"])
         if index in waiting and is_hand_back(steps[index]):  # left to the recoat's realignment (below)
-            with pytest.raises(services.Refused, match=rf"step {index + 1} hands the telescope back to robotic and "
-                                                       rf"remote control, and its recoat is not done: "
+            with pytest.raises(services.Refused, match=rf"step {index + 1} hands the observatory back to robotic and "
+                                                       rf"remote control, and the recoat of T1 is not done: "
                                                        rf"{recoat['realignment'].number} "):
                 services.checklist_tick_set(order, "step", index, True, users["technician"])
         elif index in waiting:
@@ -158,7 +158,7 @@ def test_with_the_mirror_out_starting_asks_and_nothing_that_moves_an_axis_or_bri
     realignment = recoat["realignment"]
     for index in sorted(waiting):
         if is_hand_back(steps[index]):
-            with pytest.raises(services.Refused, match="its crew hands the telescope back at its end"):
+            with pytest.raises(services.Refused, match="its crew hands the observatory back at its end"):
                 services.checklist_tick_set(order, "step", index, True, users["technician"])
         else:
             services.checklist_tick_set(order, "step", index, True, users["technician"])

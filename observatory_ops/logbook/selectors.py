@@ -159,7 +159,8 @@ def counters_out_of_line(site: Site, nights: list[NightUsage]) -> list[str]:
             value = getattr(night, name)
             if value is not None and median and value / night.open_hours > OUT_OF_LINE_FACTOR * median:
                 gap = "" if words.startswith("°") else " "
-                high.append(f"{value:,.6g}{gap}{words} ({value / night.open_hours:,.1f} an open hour against a median "
+                written = f"{value:,.1f}".removesuffix(".0")  # 1,000,000, not 1e+06 (a diff review)
+                high.append(f"{written}{gap}{words} ({value / night.open_hours:,.1f} an open hour against a median "
                             f"of {median:,.2f})")
         if high:
             whose = names[night.telescope_id] if night.telescope_id else "the whole site"

@@ -716,14 +716,16 @@ def with_days_out(plans: list[RecoatPlan], today: dt.date) -> list[RecoatPlan]:
     """``plans`` (recoats in hand, with their mirror's telescope and site read), each given ``out``, the nights it
     takes its telescope out of service as its work orders now stand (``planning.services.recoat_downtime``);
     ``out_cost``, the hours lost on those nights (``hours_lost``) when they differ from its planned days, else None
-    (its stored ``cost`` is theirs); and ``out_dark`` and ``out_moonless``, their hours of darkness and the moonless
-    ones. What the dashboard, the mirror page and the recoat planner say of its days."""
+    (its stored ``cost`` is theirs); ``out_lost``, those hours whatever its days, where ``cost`` is the planner's
+    price (a booked night weighed more); and ``out_dark`` and ``out_moonless``, their hours of darkness and the
+    moonless ones (a diff review: the price beside them read as more moonless hours lost than there were). What the
+    dashboard, the mirror page and the recoat planner say of its days."""
     prefetch_related_objects(plans, "work_orders")  # a recoat's nights are its orders' (recoat_downtime)
     for plan in plans:
         plan.out = recoat_downtime(plan, today)
-        lost, plan.out_dark, plan.out_moonless = hours_lost(plan.mirror.subsystem.telescope.site, plan.out.first,
-                                                            plan.out.last, plan.mirror.subsystem.telescope)
-        plan.out_cost = lost if plan.out.changed else None
+        plan.out_lost, plan.out_dark, plan.out_moonless = hours_lost(
+            plan.mirror.subsystem.telescope.site, plan.out.first, plan.out.last, plan.mirror.subsystem.telescope)
+        plan.out_cost = plan.out_lost if plan.out.changed else None
     return plans
 
 
@@ -844,8 +846,9 @@ class RecoatComing:
 def recoats_to_plan(site: Site, today: dt.date) -> list[RecoatComing]:
     """The site's mirrors in service whose recoat is one to plan now (``recoat_to_plan``: due, overdue or forecast
     within ``RECOAT_PLANNED_AHEAD_DAYS``, none in hand), soonest first, each with the booked runs over its forecast
-    band (earliest to latest): the dashboard names them beside the recoats planned (a manager's review read "No recoat
-    planned" seven weeks before a crossing forecast inside a booked campaign)."""
+    band (earliest to latest; overdue, the next ``DOWNTIME_MARGIN_DAYS`` days): the dashboard names them beside the
+    recoats planned (a manager's review read "No recoat planned" seven weeks before a crossing forecast inside a
+    booked campaign)."""
     coming = []
     mirrors = Mirror.objects.filter(subsystem__telescope__site=site, subsystem__retired_on__isnull=True).select_related(
         "subsystem__telescope__site")
@@ -854,8 +857,11 @@ def recoats_to_plan(site: Site, today: dt.date) -> list[RecoatComing]:
         due = recoat_due(mirror)
         if not recoat_to_plan(mirror, due, today):
             continue
-        first = due.earliest or due.forecast_date or today
-        last = due.latest or due.forecast_date or first
+        if due.status == OVERDUE:  # to be done now: the runs of the coming weeks stand in its way (a diff review)
+            first, last = today, today + dt.timedelta(days=DOWNTIME_MARGIN_DAYS)
+        else:
+            first = due.earliest or due.forecast_date or today
+            last = due.latest or due.forecast_date or first
         coming.append(RecoatComing(mirror, due, [r for r in runs if r.starts_on <= last and r.ends_on >= first]))
     return sorted(coming, key=lambda c: (c.due.forecast_date or dt.date.max, c.mirror.pk))
 

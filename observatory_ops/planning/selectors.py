@@ -738,8 +738,8 @@ def closures_listed(site, today: dt.date) -> list:
     for closure in closures:
         closure.state = ("ended" if closure.last_night < today else "coming" if closure.first_night > today
                          else "under way")
-        closure.runs_over = [r for r in runs if r.starts_on <= closure.last_night and r.ends_on >= max(
-            closure.first_night, today)]
+        closure.runs_over = [] if closure.state == "ended" else [  # an ended one is not to be moved (a diff review)
+            r for r in runs if r.starts_on <= closure.last_night and r.ends_on >= max(closure.first_night, today)]
     return closures
 
 

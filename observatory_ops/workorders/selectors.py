@@ -469,19 +469,20 @@ def order_plans(order: WorkOrder, items: list[WorkOrderItem] | None = None) -> l
 
 
 def served_since(order: WorkOrder, items: list[WorkOrderItem]) -> dict[int, ServiceRecord]:
-    """Item pk -> the service record, not of this order, that served its plan on or after the day the order was made,
-    for an order still to do: its item may be done already (a recoat review's cleaning order still read "limit
-    reached" after the new coating restarted the cleaning plan; the due list said "On WO-00012"). The newest of each;
-    one query."""
-    if order.state not in TO_DO:
+    """Item pk -> the service record, not of this order, entered after the order was made that serves its plan, for
+    an order still to do: its item may be done already (a recoat review's cleaning order still read "limit reached"
+    after the new coating restarted the cleaning plan; the due list said "On WO-00012"). Entered after, not dated
+    after: work done on Saturday and entered from paper on Tuesday, the order made on Monday, counts (a diff review).
+    Not for a recoat's realignment, whose plans the new coating restarts by design
+    (``services._restarted_by_the_new_coating``). The newest of each; one query."""
+    if order.state not in TO_DO or order.recoat_phase == "realignment":
         return {}
     plans = {i.plan_id: i.pk for i in items if i.plan_id}
     if not plans:
         return {}
-    made = timezone.localtime(order.created_at, order.site.zone).date()
     newest: dict[int, ServiceRecord] = {}
     for record in ServiceRecord.objects.filter(
-            plan__in=list(plans), performed_on__gte=made, void=False, corrected_by__isnull=True).exclude(
+            plan__in=list(plans), created_at__gt=order.created_at, void=False, corrected_by__isnull=True).exclude(
             work_order=order).order_by("performed_on", "pk"):
         newest[plans[record.plan_id]] = record
     return newest

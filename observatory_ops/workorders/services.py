@@ -730,9 +730,11 @@ def withdrawal_hand_back_text(order: WorkOrder) -> str:
     named = ", ".join(o.number for o in held)
     if takers:
         also = f", and the one {named} left to it," if held else ""
-        own = "its hand-back to robotic and remote control" if order.state == State.UNDERWAY else (
-            "the hand-back to robotic and remote control")
-        return (f"Withdrawn, {own}{also} passes to " + "; ".join(f"{o.number} {o.title}" for o in takers)
+        if order.state == State.UNDERWAY:
+            own = f"its hand-back to robotic and remote control{also}"
+        else:  # a realignment not begun has none of its own to pass on: only those left to it
+            own = f"the hand-back to robotic and remote control {named} left to it"
+        return (f"Withdrawn, {own} passes to " + "; ".join(f"{o.number} {o.title}" for o in takers)
                 + f", {still_at_it(takers)} (their page says they hold it).")
     return ("Withdrawn, nobody's order hands the telescope back to robotic and remote control"
             f"{f' ({named} left its hand-back to this order)' if held else ''}: once nobody is at work on it, whoever "
@@ -1420,10 +1422,11 @@ def _telescope_out_refusal(order: WorkOrder, key: int) -> str:
     (``recoat_hands_back``). "" when nothing holds it."""
     if key < len(order.step_list) and is_hand_back(order.step_list[key]) and (
             realignment := recoat_hands_back(order)) is not None:
-        return (f"step {key + 1} hands the telescope back to robotic and remote control, and its recoat is not done: "
-                f"{realignment.number} ({realignment.title}) is {realignment.get_state_display()}, and its crew hands "
-                "the telescope back at its end, once the collimation is recorded. Leave this step to them: finishing "
-                "this order leaves it to that order")
+        whose = realignment.telescope.name if realignment.telescope_id else "the telescope"
+        return (f"step {key + 1} hands the observatory back to robotic and remote control, and the recoat of "
+                f"{whose} is not done: {realignment.number} ({realignment.title}) is "
+                f"{realignment.get_state_display()}, and its crew hands the observatory back at its end, once the "
+                "collimation is recorded. Leave this step to them: finishing this order leaves it to that order")
     if key not in moves_or_restores(order.step_list):
         return ""
     notices = telescope_out_notices(order)
