@@ -531,8 +531,14 @@ def test_the_dashboard_keeps_saying_a_closure_falls_over_a_booked_run(scene, use
                              ends_on=today + dt.timedelta(days=20))
     BookedRun.objects.create(site=site, title="Far apart", starts_on=today + dt.timedelta(days=40),
                              ends_on=today + dt.timedelta(days=41))
+    # An ended closure over a run still going on is not told to move (a diff review); the coming one is.
+    _closure(site, today - dt.timedelta(days=6), today - dt.timedelta(days=3), "snow",
+             telescope=plan.subsystem.telescope)
+    BookedRun.objects.create(site=site, title="Long survey", starts_on=today - dt.timedelta(days=5),
+                             ends_on=today + dt.timedelta(days=25))
     client.force_login(users["viewer"])
     page = client.get(site.get_absolute_url()).content.decode()
     assert (f"over the booked run Nova follow-up ({today + dt.timedelta(days=14):%d %b} to "
             f"{today + dt.timedelta(days=20):%d %b %Y}): move one or the other, or tell the observers") in page
     assert "Far apart" not in page
+    assert page.count("over the booked run Long survey") == 1
