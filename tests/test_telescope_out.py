@@ -241,6 +241,9 @@ def test_an_order_done_but_its_hand_back_finishes_while_the_mirror_is_out_leavin
     assert is_hand_back(order.step_list[-1])
     _finish(recoat["removal"], users)
     order = WorkOrder.objects.get(pk=order.pk)
+    # Its page and paper say so throughout (a safety walk-through: only the tick online was refused).
+    assert any(note.startswith("The recoat of T1 is not done: its realignment, " + recoat["realignment"].number)
+               for note in selectors.standing_notes(order))
     assert services.finish_waits(order, selectors.unticked_lines(order)) == ""
     services.work_order_finish(order, users["technician"], 1.0, "ok", _all_readings(order, 0.6))
     order = WorkOrder.objects.get(pk=order.pk)
@@ -327,3 +330,22 @@ def test_a_recoat_stopped_with_its_mirror_out_is_not_said_done_on_the_calendar(r
     [window] = [e for e in Calendar.from_ical(client.get(f"/sites/{site.slug}/downtime.ics").content).walk("VEVENT")
                 if str(e["uid"]).startswith("recoat-")]
     assert str(window["summary"]).startswith("Recoat window: T1 ")
+
+
+
+def test_an_orders_own_hand_back_is_its_last_tick(recoat, other_work, users):
+    """A safety walk-through ticked a realignment's "only when the collimation check is recorded" before the check
+    on a star: an order's own hand-back is refused while another of its steps is not ticked."""
+    from conftest import ticked_in_sequence
+
+    order = WorkOrder.objects.get(pk=other_work.pk)
+    services.work_order_move(order, "start", users["technician"])
+    order = WorkOrder.objects.get(pk=order.pk)
+    last = len(order.step_list) - 1
+    assert is_hand_back(order.step_list[last])
+    ticked_in_sequence(order, users["technician"], through=last - 2)
+    with pytest.raises(services.Refused, match=rf"step {last + 1} hands the observatory back to robotic and remote "
+                                               rf"control, the crew's last act, and step {last} is not ticked yet"):
+        services.checklist_tick_set(order, "step", last, True, users["technician"])
+    services.checklist_tick_set(order, "step", last - 1, True, users["technician"])
+    services.checklist_tick_set(order, "step", last, True, users["technician"])

@@ -704,3 +704,11 @@ def cautions_for(hazards: Iterable[str]) -> list[Caution]:
         (CAUTIONS[code] for code in set(codes)),
         key=lambda caution: (-caution.severity, _LIBRARY_ORDER[caution.hazard]),
     )
+
+
+#: A standing note of an order whose hand-back waits for a recoat's realignment (``selectors.recoat_hands_back``).
+RECOAT_HOLDS_HAND_BACK = (
+    "The recoat of {telescope} is not done: its realignment, {number}, returns the observatory to robotic and remote "
+    "control once the collimation is recorded. Do not hand it back on this order: leave this order's hand-back step "
+    "to that order, and say so when this order is finished."
+)

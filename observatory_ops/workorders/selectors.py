@@ -61,6 +61,7 @@ from .cautions import (
     NO_LIFT_FIGURES_NOTE,
     PRECEDENCE_STATEMENT,
     PREPARED_APART_NOTE,
+    RECOAT_HOLDS_HAND_BACK,
     SEVERITY_LABELS,
     TELESCOPE_OUT,
     TELESCOPE_OUT_TITLE,
@@ -226,6 +227,31 @@ def telescope_out_notices(order: WorkOrder) -> list[tuple[str, str, str]]:
 _MAY_PAUSE_PART_WAY = ("removal", "reinstall")
 
 
+def recoat_hands_back(order: WorkOrder) -> WorkOrder | None:
+    """The realignment still to do of a recoat whose mirror has come out (its removal finished), on a telescope
+    ``order`` works on (any of the site's, where they share one enclosure), ``order`` not being it: the telescope
+    goes back to robotic and remote control with its last step, once the collimation is recorded
+    (``catalogue.HAND_BACK_AFTER_REALIGNMENT``), and the reinstall's last step says to keep it out until then.
+    Another order's hand-back waits for it (``_telescope_out_refusal``) and is left to it at the finish
+    (``left_to_the_last_crew``): a recoat review handed the telescope back from another order between the reinstall
+    and the realignment. None when there is none."""
+    if order.recoat_phase == "realignment":
+        return None
+    realignments = WorkOrder.objects.filter(
+        site=order.site_id, recoat_phase="realignment", state__in=(State.DRAFT, State.ISSUED, State.UNDERWAY),
+    ).exclude(pk=order.pk).order_by(F("planned_date").asc(nulls_last=True), "pk")
+    if not order.site.shared_enclosure:  # one enclosure over all: its dome moves over the telescope out (a diff review)
+        telescopes = {order.telescope_id} if order.telescope_id else set(
+            order.items.values_list("subsystem__telescope_id", flat=True))
+        realignments = realignments.filter(telescope_id__in=telescopes)
+    for realignment in realignments:
+        plan = realignment.recoat_plans.order_by("-pk").first()
+        if plan is not None and plan.work_orders.filter(
+                recoat_phase="removal", state__in=(State.FINISHED, State.COUNTERSIGNED)).exists():
+            return realignment
+    return None
+
+
 def standing_notes(order: WorkOrder) -> tuple[str, ...]:
     """What the page and the paper of an order still to do say to keep in mind throughout its work, above its steps
     and not among them, so nobody ticks it: how to leave a recoat's removal or reinstall if the work stops part way,
@@ -245,6 +271,11 @@ def standing_notes(order: WorkOrder) -> tuple[str, ...]:
         notes.append(WORK_STOPPED_PART_WAY)
     if "suspended_load" in order.hazards and not order.lift_inputs and lift_mirror(order) is None:
         notes.append(NO_LIFT_FIGURES_NOTE)
+    if any(catalogue.is_hand_back(step) for step in order.step_list) and (realignment := recoat_hands_back(order)):
+        # On paper too: the tick is refused online, but a crew working from the printed order would hand back an
+        # uncollimated telescope (a safety walk-through).
+        whose = realignment.telescope.name if realignment.telescope_id else "the telescope"
+        notes.append(RECOAT_HOLDS_HAND_BACK.format(telescope=whose, number=realignment.number))
     return tuple(notes)
 
 

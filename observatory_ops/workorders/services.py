@@ -15,7 +15,7 @@ from collections.abc import Collection, Sequence
 from dataclasses import dataclass
 
 from django.db import transaction
-from django.db.models import F, Q
+from django.db.models import Q
 from django.utils import dateformat, timezone
 
 from observatory_ops.access.roles import ENGINEER, TECHNICIAN, has_role
@@ -93,6 +93,7 @@ from .selectors import (
     lift_inputs,
     moves_held,
     order_plans,
+    recoat_hands_back,
     register_part,
     second_person_refusal,
     telescope_out_notices,
@@ -1213,11 +1214,32 @@ def checklist_tick_set(
         if refusal := _lockout_sequence_refusal(current, entry.line, ticked, what, ticks):
             raise Refused(refusal)
         if ticked and kind == ChecklistTick.Kind.STEP and (refusal := _others_locked_out_refusal(current, key)
-                                                           or _telescope_out_refusal(current, key)):
+                                                           or _telescope_out_refusal(current, key)
+                                                           or _own_hand_back_refusal(current, key, ticks)):
             raise Refused(refusal)
         entry._history_user = by
         entry.save()
     return entry
+
+
+def _own_hand_back_refusal(order: WorkOrder, key: int, ticks: dict) -> str:
+    """Why step ``key``, the order's own hand-back to robotic and remote control, may not be ticked yet: a step of the
+    order other than a hand-back is not ticked (in its present words). The hand-back is its crew's last act: a
+    safety walk-through ticked a realignment's "only when the collimation check is recorded" before the check on a
+    star. A step that did not apply is confirmed so at the finish, which then records the hand-back left undone or
+    done with it. "" when nothing holds it."""
+    steps = order.step_list
+    if key >= len(steps) or not is_hand_back(steps[key]):
+        return ""
+    left = [i for i, step in enumerate(steps) if i != key and not is_hand_back(step) and not (
+        (tick := ticks.get((ChecklistTick.Kind.STEP, i))) is not None and tick.ticked and tick.text == step)]
+    if not left:
+        return ""
+    named = in_words([f"{i + 1}" for i in left])
+    return (f"step {key + 1} hands the observatory back to robotic and remote control, the crew's last act, and "
+            f"step{'s' if len(left) > 1 else ''} {named} {'are' if len(left) > 1 else 'is'} not ticked yet: tick "
+            f"{'them' if len(left) > 1 else 'it'} first (a step that did not apply is said so at the finish, where "
+            "this step is confirmed with it)")
 
 
 def finish_waits(order: WorkOrder, unticked: Sequence, day: dt.date | None = None) -> str:
@@ -1389,31 +1411,6 @@ def _why_held(steps: Sequence[str], key: int) -> str:
     if unlabelled(steps[key]).strip() in PARKINGS:
         return "moves the telescope"
     return "puts the telescope back in service or under robotic control"
-
-
-def recoat_hands_back(order: WorkOrder) -> WorkOrder | None:
-    """The realignment still to do of a recoat whose mirror has come out (its removal finished), on a telescope
-    ``order`` works on (any of the site's, where they share one enclosure), ``order`` not being it: the telescope
-    goes back to robotic and remote control with its last step, once the collimation is recorded
-    (``catalogue.HAND_BACK_AFTER_REALIGNMENT``), and the reinstall's last step says to keep it out until then.
-    Another order's hand-back waits for it (``_telescope_out_refusal``) and is left to it at the finish
-    (``left_to_the_last_crew``): a recoat review handed the telescope back from another order between the reinstall
-    and the realignment. None when there is none."""
-    if order.recoat_phase == "realignment":
-        return None
-    realignments = WorkOrder.objects.filter(
-        site=order.site_id, recoat_phase="realignment", state__in=(State.DRAFT, State.ISSUED, State.UNDERWAY),
-    ).exclude(pk=order.pk).order_by(F("planned_date").asc(nulls_last=True), "pk")
-    if not order.site.shared_enclosure:  # one enclosure over all: its dome moves over the telescope out (a diff review)
-        telescopes = {order.telescope_id} if order.telescope_id else set(
-            order.items.values_list("subsystem__telescope_id", flat=True))
-        realignments = realignments.filter(telescope_id__in=telescopes)
-    for realignment in realignments:
-        plan = realignment.recoat_plans.order_by("-pk").first()
-        if plan is not None and plan.work_orders.filter(
-                recoat_phase="removal", state__in=(State.FINISHED, State.COUNTERSIGNED)).exists():
-            return realignment
-    return None
 
 
 def _telescope_out_refusal(order: WorkOrder, key: int) -> str:
