@@ -258,8 +258,10 @@ def test_an_order_done_but_its_hand_back_finishes_while_the_mirror_is_out_leavin
     page = _text(client.get(realignment.get_absolute_url()))
     assert order.number in page.split(HAND_BACKS_HELD_TITLE, 1)[1][:400]
     said = services.withdrawal_hand_back_text(realignment)
-    assert said.startswith("Withdrawn, nobody's order hands the telescope back to robotic and remote control "
-                           f"({order.number} left its hand-back to this order)")
+    assert said.startswith("This is the recoat's realignment: withdrawn, its telescope is left without its "
+                           "collimation check")  # said first (a safety walk-through: the page pointed to handing back)
+    assert ("Withdrawn, nobody's order hands the telescope back to robotic and remote control "
+            f"({order.number} left its hand-back to this order)") in said
 
 
 def test_the_dashboard_says_when_an_order_is_planned_and_when_a_finished_one_was_finished(recoat, site, users, client):

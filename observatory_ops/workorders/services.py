@@ -728,6 +728,16 @@ def withdrawal_hand_back_text(order: WorkOrder) -> str:
     if found is None:
         return ""
     held, takers = found
+    if order.recoat_phase == "realignment" and held:
+        # Withdrawn, nothing holds the hand-back for the collimation any more (a safety walk-through): said first.
+        return ("This is the recoat's realignment: withdrawn, its telescope is left without its collimation check, "
+                "and the reinstall's last step keeps the observatory out of robotic and remote control until a "
+                "realignment is finished: plan one before anyone hands it back. "
+                + _withdrawal_hand_back_words(order, held, takers))
+    return _withdrawal_hand_back_words(order, held, takers)
+
+
+def _withdrawal_hand_back_words(order: WorkOrder, held: list, takers: list) -> str:
     named = ", ".join(o.number for o in held)
     if takers:
         also = f", and the one {named} left to it," if held else ""
