@@ -389,14 +389,11 @@ def test_a_coating_is_not_dated_before_the_mirror_came_out(recoat, mirror, users
 
 
 
-def test_the_realignment_expects_the_new_coatings_fresh_value_and_adds_no_second_recoat_record(telescope, users):
-    """A recoat review: the realignment's reflectance row read the old bare aluminium's computed fresh value (0.9032)
-    beside a reading of the new protected coating (0.83 fresh), and its finish wrote a second record of the recoat
-    plan, days after the coating's, from which the plan then counted. A primary registered with its catalogue plans
-    (its recoat plan among them), on the fixture's telescope."""
-    from observatory_ops.logbook.models import ServiceRecord
-    from observatory_ops.logbook.quantities import reflectance_text
-    from observatory_ops.mirrors.services import _coating_band, recoat_plans
+def _catalogue_primary_recoat(telescope, users):
+    """A primary registered with its catalogue plans (its recoat plan among them) on ``telescope``, its mirror coated
+    with bare aluminium on 01 Aug 2025, and its recoat planned from a week ahead: (the mirror, its recoat plan, the
+    phase orders by phase, the slings' working load limit entered on each that lifts)."""
+    from observatory_ops.mirrors.services import recoat_plans
     from observatory_ops.registry.services import subsystem_create
 
     primary = subsystem_create(telescope, "primary_mirror", "Primary mirror", counting_from=dt.date(2025, 8, 1))
@@ -408,6 +405,19 @@ def test_the_realignment_expects_the_new_coatings_fresh_value_and_adds_no_second
     start = site_today(telescope.site) + dt.timedelta(days=7)
     plan = mirror_services.recoat_plan_create(mirror, start, list(RECOAT_PHASES), 3.5, users["engineer"])
     recoat = {order.recoat_phase: order for order in slings_rated(list(plan.work_orders.all()))}
+    return mirror, recoat_plan, recoat
+
+
+def test_the_realignment_expects_the_new_coatings_fresh_value_and_adds_no_second_recoat_record(telescope, users):
+    """A recoat review: the realignment's reflectance row read the old bare aluminium's computed fresh value (0.9032)
+    beside a reading of the new protected coating (0.83 fresh), and its finish wrote a second record of the recoat
+    plan, days after the coating's, from which the plan then counted. A primary registered with its catalogue plans
+    (its recoat plan among them), on the fixture's telescope."""
+    from observatory_ops.logbook.models import ServiceRecord
+    from observatory_ops.logbook.quantities import reflectance_text
+    from observatory_ops.mirrors.services import _coating_band
+
+    mirror, recoat_plan, recoat = _catalogue_primary_recoat(telescope, users)
     realignment = recoat["realignment"]
     reading = realignment.required_readings.get()
     old = reflectance_text(_coating_band(mirror, "al", []))
@@ -432,18 +442,8 @@ def test_a_recoat_plan_the_coating_did_not_restart_is_restarted_by_the_realignme
     """A diff review made the recoat plan inactive while the coating was logged (the coating wrote no record of it),
     active again before the realignment: the realignment's finish restarts it, as the records say, not as assumed."""
     from observatory_ops.logbook.models import ServiceRecord
-    from observatory_ops.mirrors.services import recoat_plans
-    from observatory_ops.registry.services import subsystem_create
 
-    primary = subsystem_create(telescope, "primary_mirror", "Primary mirror", counting_from=dt.date(2025, 8, 1))
-    mirror = Mirror.objects.create(subsystem=primary, diameter_mm=500, thickness_mm=50, hole_mm=120,
-                                   material="borosilicate", cell_mass_kg=30)
-    CoatingEvent.objects.create(mirror=mirror, coated_on=dt.date(2025, 8, 1), metal="al")
-    mains_isolator(telescope)
-    [recoat_plan] = recoat_plans(primary)
-    start = site_today(telescope.site) + dt.timedelta(days=7)
-    plan = mirror_services.recoat_plan_create(mirror, start, list(RECOAT_PHASES), 3.5, users["engineer"])
-    recoat = {order.recoat_phase: order for order in slings_rated(list(plan.work_orders.all()))}
+    mirror, recoat_plan, recoat = _catalogue_primary_recoat(telescope, users)
     _finished(recoat["removal"], users)
     type(recoat_plan).objects.filter(pk=recoat_plan.pk).update(active=False)
     _finished(recoat["coating"], users)
