@@ -47,10 +47,11 @@ def period(query, first: dt.date, last: dt.date) -> tuple[dt.date, dt.date]:
     return first, last
 
 
-def download_refused(request, reason: str, back: str) -> HttpResponse:
+def download_refused(request, reason: str, back: str, what: str = "") -> HttpResponse:
     """The page a download asked for with a wrong period gets (400): the reason in words and a way back to the
-    form it came from (the referring page of this installation, else ``back``)."""
+    form it came from (the referring page of this installation, else ``back``). ``what``: what could not be read,
+    when it is not a period ("The filters cannot be applied")."""
     referrer = request.META.get("HTTP_REFERER", "")
     if referrer and url_has_allowed_host_and_scheme(referrer, {request.get_host()}, request.is_secure()):
         back = referrer
-    return render(request, "download_refused.html", {"reason": reason, "back": back}, status=400)
+    return render(request, "download_refused.html", {"reason": reason, "back": back, "what": what}, status=400)

@@ -92,6 +92,13 @@ class WorkOrderFilter(django_filters.FilterSet):
             return queryset.filter(state__in=OPEN_STATES)
         return queryset if value == EVERY else queryset.filter(state=value)
 
+    def unapplied(self) -> str:
+        """The filters that cannot be applied, each by its label with why, in one sentence: the list says it above
+        its rows (which it leaves empty then) and the CSV refuses with it (a walk-through's impossible date left the
+        list empty without a word)."""
+        return "; ".join(f"{self.form.fields[name].label} {self.data.get(name)!r}: {' '.join(errors).rstrip('.')}"
+                         for name, errors in self.errors.items())
+
     def filter_done(self, queryset, name, value):
         if "done_on" not in queryset.query.annotations:
             queryset = queryset.annotate(done_on=work_done_on_of("pk"))

@@ -90,8 +90,8 @@ def work_orders_csv(request):
     themselves). Filters that cannot be applied are refused, as the list says them."""
     filtered = WorkOrderFilter(request.GET, queryset=selectors.work_orders_listed(), request=request)
     if not filtered.is_valid():
-        return download_refused(request, "; ".join(f"{name}: {' '.join(errors)}" for name, errors in
-                                                   filtered.errors.items()), reverse("workorder-list"))
+        return download_refused(request, filtered.unapplied(), reverse("workorder-list"),
+                                what="The filters cannot be applied")
     return csv_response("work-orders.csv", selectors.WORK_ORDERS_CSV_HEADER, selectors.work_orders_csv_rows(
         filtered.qs.order_by("pk")))
 
