@@ -68,7 +68,7 @@ def test_a_batch_lists_its_orders_first_and_starts_each_on_a_front_page():
     assert "WORK ORDERS IN THIS BATCH" in listing and "3 work orders, planned 01 Jul 2026 to 02 Jul 2026" in listing
     for position, (sheet, count) in enumerate(zip(sheets, alone, strict=True), start=1):
         assert f"{position} {sheet.number} {sheet.title} {sheet.telescope} {pdf._date_text(sheet.planned_date)} " \
-               f"{count}" in listing
+               f"{sheet.state} {count}" in listing
     assert "This page is left blank." in pages[1]  # the list's back
     starts = [index for index, text in enumerate(pages) if "WORK ORDER " in text and "WORK ORDERS" not in text]
     assert all(index % 2 == 0 for index in starts), starts  # pages 1, 3, 5 ...: each order on a front

@@ -326,3 +326,14 @@ def test_spring_brakes_put_the_stored_energy_caution_on_the_printed_reinstall(te
     assert HAZARDS["stored_mechanical"] in printed and "1910.147(d)(5)" in printed
     assert "isolate its power and lock it out again" in printed
     assert HAZARDS["pneumatic"] not in printed
+
+
+def test_the_paper_says_the_points_are_locked_at_the_lockout_step_after_the_steps_under_power(orders):
+    """A paper review: "lock out and tag each before the work starts" stood above a removal's slew to the zenith done
+    under power first, as the page orders it (locked at the lockout step, after the steps before it)."""
+    removal = orders["removal"]
+    at = _first(removal.step_list, "isolate, lock and tag") + 1
+    printed = " ".join(_printed(removal).split())
+    assert f"lock out and tag each at step {at}, the lockout" in printed
+    assert f"Steps 1 to {at - 1} are done under power first" in printed
+    assert "lock out and tag each before the work starts" not in printed

@@ -257,6 +257,8 @@ def test_an_order_done_but_its_hand_back_finishes_while_the_mirror_is_out_leavin
     client.force_login(users["engineer"])
     page = _text(client.get(realignment.get_absolute_url()))
     assert order.number in page.split(HAND_BACKS_HELD_TITLE, 1)[1][:400]
+    # Its paper says so too (a paper review: only the page named them).
+    assert order.number in _pdf(client, realignment).split(HAND_BACKS_HELD_TITLE, 1)[1][:400]
     said = services.withdrawal_hand_back_text(realignment)
     assert said.startswith("This is the recoat's realignment: withdrawn, its telescope is left without its "
                            "collimation check")  # said first (a safety walk-through: the page pointed to handing back)

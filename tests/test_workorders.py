@@ -192,6 +192,15 @@ def test_week_batch_pdf_holds_every_issued_order(order, drive, users, client, si
 
     text = " ".join(p.extract_text() for p in PdfReader(BytesIO(response.content)).pages)
     assert order.number in text and second.number in text
+    assert "planned 15 Jun 2026 to 21 Jun 2026" in " ".join(text.split())  # the week asked for, not the orders' days
+    # Finished work is not the paper a crew takes out (a paper review: a batch printed after the day's work held only
+    # countersigned orders): the batch holds the work still to do.
+    services.work_order_move(second, "withdraw", users["engineer"], reason="not needed")
+    services.work_order_move(order, "start", users["technician"])
+    assert list(selectors.issued_between(site, dt.date(2026, 6, 15), dt.date(2026, 6, 21))) == [order]
+    order.state = "finished"
+    order.save()
+    assert not selectors.issued_between(site, dt.date(2026, 6, 15), dt.date(2026, 6, 21)).exists()
 
 
 def test_lift_command_json_and_checks(capsys):

@@ -228,11 +228,14 @@ class WindowForm(forms.Form):
     start = forms.DateField(widget=forms.DateInput(attrs={"type": "date"}))
     horizon_days = forms.IntegerField(label="Horizon (days)", min_value=7, max_value=3 * 366, initial=365)
 
-    def __init__(self, *args, today: dt.date, crew_days: frozenset[int], **kwargs):
+    def __init__(self, *args, today: dt.date, crew_days: frozenset[int],
+                 phases: tuple[tuple[int, Phase], ...] = tuple(enumerate(RECOAT_PHASES)), **kwargs):
         super().__init__(*args, **kwargs)
-        self.today, self.crew_days = today, crew_days
+        self.today, self.crew_days, self.offered = today, crew_days, phases
         carried = " and ".join(p.name for p in RECOAT_PHASES if not p.work)
-        for i, phase in enumerate(RECOAT_PHASES):
+        # Each phase's field keeps its place in RECOAT_PHASES (``mirrors.services.recoat_phases_left`` may leave some
+        # out), so a page sent before the mirror came out does not give one phase's days to another.
+        for i, phase in phases:
             # A phase of hands-on work cannot be skipped: without a day it gets no work order, so the plan would,
             # say, reinstall a mirror never removed. Only carrying the mirror may take no day (a plant next door).
             least = 1 if phase.work else 0
@@ -247,7 +250,7 @@ class WindowForm(forms.Form):
             given = self.cleaned_data.get(f"phase_{i}")
             return phase.days if given is None else given
 
-        return [Phase(p.name, days(i, p), p.work) for i, p in enumerate(RECOAT_PHASES)]
+        return [Phase(p.name, days(i, p), p.work) for i, p in self.offered]
 
     def clean_start(self):
         """A recoat is planned from the site's today on: a window begun in the past would date its work orders

@@ -205,6 +205,11 @@ class RecoatPlan(models.Model):
     created_at = models.DateTimeField(auto_now_add=True)
     created_by = models.ForeignKey(settings.AUTH_USER_MODEL, on_delete=models.PROTECT, related_name="+")
     work_orders = models.ManyToManyField("workorders.WorkOrder", related_name="recoat_plans", blank=True)
+    continues_from = models.ForeignKey(
+        "workorders.WorkOrder", null=True, blank=True, on_delete=models.PROTECT, related_name="+", editable=False,
+        help_text="The finished removal of an earlier recoat, stopped with the mirror out, that this recoat goes on "
+        "from: it has no removal of its own (``mirrors.services.mirror_out``).",
+    )
 
     class Meta:
         ordering = ["-starts_on"]
@@ -216,3 +221,10 @@ class RecoatPlan(models.Model):
     def nights(self) -> int:
         """The nights the telescope is out of service: its first day to its last, both counted."""
         return (self.ends_on - self.starts_on).days + 1
+
+    def removal(self):
+        """The removal that takes or took this recoat's mirror out: its own phase order (withdrawn or not), or the
+        earlier recoat's it goes on from (``continues_from``); None for neither. Reads ``work_orders`` as
+        prefetched."""
+        own = next((o for o in self.work_orders.all() if o.recoat_phase == "removal"), None)
+        return own if own is not None else self.continues_from

@@ -55,7 +55,7 @@ from observatory_ops.registry.selectors import crew_days_off
 from observatory_ops.registry.services import retired_work_problem
 from observatory_ops.workorders.cautions import HAZARDS
 from observatory_ops.workorders.models import RequiredReading, State, WorkOrder, WorkOrderItem
-from observatory_ops.workorders.selectors import work_done_on
+from observatory_ops.workorders.selectors import recoat_began_on, work_done_on
 from observatory_ops.workorders.services import brake_air_back, steps_in_groups
 
 from .models import TRAIN_KINDS, CleaningEvent, CoatingEvent, Mirror, RecoatPlan, ReflectanceMeasurement
@@ -886,6 +886,62 @@ def recoat_in_hand(mirror: Mirror) -> RecoatPlan | None:
     )
 
 
+def mirror_out(mirror: Mirror) -> WorkOrder | None:
+    """The finished removal that took the mirror out of its telescope when no reinstall has put it back since (its
+    newest finished removal or reinstall order decides, as ``workorders.selectors.telescopes_out``); None when it is
+    in. A recoat stopped with its mirror out (an order after the removal withdrawn) leaves it so."""
+    newest = (WorkOrder.objects.filter(items__subsystem=mirror.subsystem, recoat_phase__in=("removal", "reinstall"),
+                                       state__in=(State.FINISHED, State.COUNTERSIGNED))
+              .select_related("site").order_by("-finished_at", "-pk").first())
+    return newest if newest is not None and newest.recoat_phase == "removal" else None
+
+
+@dataclass(frozen=True)
+class PhasesLeft:
+    """The phases the recoat planner offers for a mirror (``windows.RECOAT_PHASES``, by their place in it) and, when
+    some are left out, why: ``removal`` is the finished removal of an earlier recoat the new one goes on from."""
+
+    phases: tuple[tuple[int, windows.Phase], ...]
+    removal: WorkOrder | None = None
+    coating: CoatingEvent | None = None
+
+    @property
+    def orders_text(self) -> str:
+        """The phases that get a work order, in order: "removal, strip and coat, reinstall, realignment and
+        measurement"."""
+        return ", ".join(p.name for _, p in self.phases if p.work)
+
+    @property
+    def text(self) -> str:
+        """Why the planner leaves phases out, "" when it offers them all."""
+        if self.removal is None:
+            return ""
+        zone = self.removal.site.zone
+        out_on = work_done_on(self.removal) or timezone.localtime(self.removal.finished_at, zone).date()
+        said = (f"The mirror is out of the telescope since {out_on:%d %b %Y} ({self.removal.number}, the removal of "
+                "an earlier recoat not finished), so this recoat goes on from there with no removal")
+        if self.coating is not None:
+            said += (f"; it was coated on {self.coating.coated_on:%d %b %Y}, so no transport or strip and coat "
+                     "either")
+        return (f"{said}: {', '.join(p.name for _, p in self.phases)}. The telescope stays out of service, out of "
+                "balance, until the reinstall is finished.")
+
+
+def recoat_phases_left(mirror: Mirror) -> PhasesLeft:
+    """The phases of the mirror's next recoat: all of them with the mirror in its cell; with it out since an earlier
+    recoat was stopped (``mirror_out``), no removal (a hand-back walk-through planned a second recoat with the mirror
+    still out: the planner asked for a removal, whose slews under power the page did not hold); and coated since it
+    came out (a coating dated on or after that day), no transport or strip and coat either."""
+    every = tuple(enumerate(windows.RECOAT_PHASES))
+    removal = mirror_out(mirror)
+    if removal is None:
+        return PhasesLeft(every)
+    out_on = work_done_on(removal) or timezone.localtime(removal.finished_at, removal.site.zone).date()
+    coating = mirror.coatings.filter(coated_on__gte=out_on).order_by("-coated_on", "-pk").first()
+    skipped = {"removal", "transport", "strip and coat"} if coating is not None else {"removal"}
+    return PhasesLeft(tuple((i, p) for i, p in every if p.name not in skipped), removal, coating)
+
+
 def orders_that_may_clean(mirror: Mirror) -> list[WorkOrder]:
     """The work orders still to do (drafted, issued or underway) on the mirror's subsystem that are no recoat phase:
     finishing each asks how the mirror was cleaned (``workorders.selectors.mirrors_asked_about``), and a cleaning
@@ -1565,6 +1621,10 @@ def recoat_plan_create(
     """
     if refused := retired_recoat_text(mirror):
         raise ValidationError(refused)
+    left = recoat_phases_left(mirror)
+    if [p.name for p in phases] != [p.name for _, p in left.phases]:
+        raise ValidationError(left.text.rstrip(".") if left.removal is not None else
+                              "the mirror is in its telescope: a recoat begins with its removal")
     subsystem = mirror.subsystem
     site = subsystem.telescope.site
     laid = phase_dates(starts_on, phases, site.crew_days, crew_days_off(site, starts_on))
@@ -1580,7 +1640,7 @@ def recoat_plan_create(
             mirror=mirror, starts_on=starts_on, ends_on=ends_on,
             phases=[{"name": d["phase"].name, "days": d["phase"].days, "first": d["first"].isoformat(),
                      "last": d["last"].isoformat()} for d in laid],
-            cost=cost, created_by=by,
+            cost=cost, created_by=by, continues_from=left.removal,
         )
         for dates in laid:
             phase = dates["phase"]
@@ -1718,19 +1778,19 @@ def coating_before_removal(mirror: Mirror, coated_on: dt.date) -> str:
     plan = recoat_in_hand(mirror)
     if plan is None:
         return ""
-    zone = mirror.subsystem.telescope.site.zone
-    removal = next((o for o in plan.work_orders.all() if o.recoat_phase == "removal"), None)
+    removal = plan.removal()
     if removal is None or removal.state == State.WITHDRAWN:
         return ""
     if removal.state in (State.FINISHED, State.COUNTERSIGNED):
         # Finished: the mirror came out on the day its work was done (a diff review dated a coating ten days before).
-        done = work_done_on(removal) or (removal.finished_at.astimezone(zone).date() if removal.finished_at else None)
-        if done is None or coated_on >= done:
+        done = work_done_on(removal) or timezone.localtime(removal.finished_at, mirror.subsystem.telescope.site.zone
+                                                           ).date()
+        if coated_on >= done:
             return ""
         return (f"the mirror came out of the telescope on {done:%d %b %Y} ({removal.number}, its removal): a coating "
                 f"of this recoat is dated on or after that day, not {coated_on:%d %b %Y}. An earlier coating entered "
                 "late is logged once this recoat is finished")
-    if coated_on < min(plan.starts_on, timezone.localtime(plan.created_at, zone).date()):
+    if coated_on < recoat_began_on(plan):
         return ""
     return (f"the mirror's removal for its recoat, {removal.number}, is {removal.get_state_display()}: the mirror is "
             "still in the telescope with its old coating. Log the new coating once the removal is finished and the "

@@ -247,7 +247,8 @@ def _window_form(request, mirror: Mirror, data) -> WindowForm:
     site = mirror.subsystem.telescope.site
     today = site_today(site)
     horizon = services.default_horizon_days(mirror, today) if data is None else 365
-    return WindowForm(data, today=today, crew_days=site.crew_days, initial={"start": today, "horizon_days": horizon})
+    return WindowForm(data, today=today, crew_days=site.crew_days, phases=services.recoat_phases_left(mirror).phases,
+                      initial={"start": today, "horizon_days": horizon})
 
 
 def _form_problems(form) -> str:
@@ -275,6 +276,7 @@ def recoat_planner(request, pk):
         "in_hand_runs_over": services.runs_over_each_recoat(site, site_today(site)).get(in_hand.pk, []) if in_hand
         else [],
         "may_clean": services.orders_that_may_clean_text(services.orders_that_may_clean(mirror)),
+        "phases_left": services.recoat_phases_left(mirror),
     }
     if form.is_bound and form.is_valid() and not retired:  # a retired mirror's page says why no window is offered
         try:

@@ -1128,7 +1128,9 @@ def recoat_downtime(plan, today: dt.date) -> Downtime:
     to_do = [o for o in orders if o.state in (State.DRAFT, State.ISSUED, State.UNDERWAY)]
     length = phase_lengths(plan)
     zone = plan.mirror.subsystem.telescope.site.zone
-    begun_on = [o.started_at.astimezone(zone).date() for o in orders if o.started_at]
+    removal = plan.removal()
+    # Going on from an earlier recoat's removal, the telescope has been out since that removal began.
+    begun_on = [o.started_at.astimezone(zone).date() for o in orders + [plan.continues_from] if o and o.started_at]
     dated = [o.planned_date for o in orders if o.planned_date] + begun_on
     first = min(dated) if dated else plan.starts_on
     ends = [o.planned_date + length.get(o.recoat_phase, dt.timedelta(0)) for o in to_do if o.planned_date]
@@ -1136,13 +1138,15 @@ def recoat_downtime(plan, today: dt.date) -> Downtime:
         ends.append(first + (plan.ends_on - plan.starts_on))
     last = max(ends)
     changed = []
-    if (first, last) != (plan.starts_on, plan.ends_on):
+    if plan.continues_from is not None:
+        changed.append(f"out since {first:%d %b %Y}, the mirror removed by {plan.continues_from.number} for an earlier "
+                       f"recoat, its work planned {plan.starts_on:%d %b %Y} to {plan.ends_on:%d %b %Y}")
+    elif (first, last) != (plan.starts_on, plan.ends_on):
         changed.append(f"planned {plan.starts_on:%d %b %Y} to {plan.ends_on:%d %b %Y}, now as its work orders are "
                        "dated")
-    removal = next((o for o in orders if o.recoat_phase == "removal"), None)
     reinstalled = any(o.recoat_phase == "reinstall" and o.state in (State.FINISHED, State.COUNTERSIGNED)
                       for o in orders)
-    mirror_out = removal is not None and removal.state != State.DRAFT and removal.state != State.ISSUED and (
+    mirror_out = removal is not None and removal.state in (State.UNDERWAY, State.FINISHED, State.COUNTERSIGNED) and (
         not reinstalled)
     late = last < today
     if mirror_out and late:
@@ -1176,7 +1180,7 @@ def recoats_in_hand(site: Site) -> list:
     if not in_hand:
         return []
     return list(
-        RecoatPlan.objects.filter(pk__in=in_hand).select_related("mirror__subsystem__telescope__site")
+        RecoatPlan.objects.filter(pk__in=in_hand).select_related("mirror__subsystem__telescope__site", "continues_from")
         .prefetch_related("work_orders").order_by("starts_on", "pk")
     )
 

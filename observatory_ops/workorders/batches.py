@@ -29,7 +29,7 @@ def batch_path(site: Site, week_start: dt.date) -> Path:
 
 
 def work_order_batch_write(site: Site, week_start: dt.date, paper: str = "A4") -> tuple[Path, int]:
-    """Write the batch of issued work orders planned for the week from ``week_start`` (a Monday).
+    """Write the batch of work orders issued and still to do planned for the week from ``week_start`` (a Monday).
 
     Returns the file and the number of work orders in it. With none, no file is left for that week (a
     batch written earlier for it, whose orders have since been withdrawn, is removed).
@@ -45,7 +45,8 @@ def work_order_batch_write(site: Site, week_start: dt.date, paper: str = "A4") -
     if not orders:
         path.unlink(missing_ok=True)
         return path, 0
-    data = pdf.render_batch([selectors.sheet(o, settings.SITE_URL + o.get_absolute_url()) for o in orders], paper)
+    data = pdf.render_batch([selectors.sheet(o, settings.SITE_URL + o.get_absolute_url()) for o in orders], paper,
+                            (week_start, week_start + dt.timedelta(days=6)))
     path.parent.mkdir(parents=True, exist_ok=True)
     # Write beside the target, then rename over it: a reader never sees half a file.
     handle, temporary = tempfile.mkstemp(dir=path.parent, prefix=".", suffix=".pdf")

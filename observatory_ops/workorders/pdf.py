@@ -564,7 +564,8 @@ def _notices(sheet: Sheet, width: float) -> list[Flowable]:
     telescope, hazards the order lacks): each framed
     like the cautions, above everything of the work; title, body lines, then what to do."""
     story: list[Flowable] = []
-    for notice in (sheet.start_held, *sheet.out_of_service, sheet.alongside, sheet.hazards_notice):
+    for notice in (sheet.start_held, *sheet.out_of_service, sheet.alongside, sheet.hand_backs_held,
+                   sheet.hazards_notice):
         if not notice:
             continue
         title, *lines = notice
@@ -586,17 +587,26 @@ def _cautions(sheet: Sheet, width: float) -> list[Flowable]:
 def _isolation(sheet: Sheet) -> list[Flowable]:
     if not sheet.isolation_needed:
         return [_heading("Energy isolation"), _note(_text(sheet.isolation_statement or NO_ISOLATION_NEEDED))]
-    heading = _heading("Energy isolation points \N{EN DASH} lock out and tag each before the work starts")
+    at = sheet.lockout_step
+    # At the lockout step, after the steps under power before it, as the page says (a paper review: "before the work
+    # starts" stood above a limit test and a slew to the zenith done under power first).
+    heading = _heading("Energy isolation points \N{EN DASH} lock out and tag each "
+                       + (f"at step {at}, the lockout" if at else "before the work starts"))
     if not sheet.isolation_points:
         return [heading, _note("None listed for this telescope. Ask the site engineer before working on powered "
                                "or pressurised equipment.")]
+    first: list[Flowable] = []
+    if at and at > 1:
+        before = "Step 1 is" if at == 2 else f"Steps 1 to {at - 1} are"
+        first = [_note(f"{before} done under power first; once a lock is on, no step under power that may move the "
+                       "telescope is done.")]
     ticks = sheet.point_ticks or (None,) * len(sheet.isolation_points)
     lines = [
         _warning(point.removeprefix(WARNING_PREFIX)) if point.startswith(WARNING_PREFIX)
         else _checklist_line(point, tick)
         for point, tick in zip(sheet.isolation_points, ticks, strict=True)
     ]
-    return _continued(heading, "Energy isolation points (continued)", lines)
+    return _continued(heading, "Energy isolation points (continued)", first + lines)
 
 
 #: The personal locks' table: a line for each person working under the lockout (the one signing as having done the
@@ -993,7 +1003,7 @@ class _NumberedCanvas(Canvas):
         self.restoreState()
 
 
-def render_batch(sheets: Sequence[Sheet], paper: str = "A4") -> bytes:
+def render_batch(sheets: Sequence[Sheet], paper: str = "A4", period: tuple[date, date] | None = None) -> bytes:
     """One PDF holding several work orders, each starting on a new page with its own page numbers.
 
     Parameters
@@ -1002,6 +1012,8 @@ def render_batch(sheets: Sequence[Sheet], paper: str = "A4") -> bytes:
         The work orders, printed in this order; at least one.
     paper : str
         ``"A4"`` (595.28 x 841.89 pt) or ``"letter"`` (US Letter, 612 x 792 pt).
+    period : (date, date), optional
+        The days the batch was asked for (a week), named on its first page; otherwise the orders' planned days.
 
     Returns
     -------
@@ -1028,7 +1040,7 @@ def render_batch(sheets: Sequence[Sheet], paper: str = "A4") -> bytes:
                   leftPadding=0, rightPadding=0, topPadding=0, bottomPadding=0, id="body")
     document.addPageTemplates([PageTemplate(id="work-order", frames=[frame])])
     batch = len(sheets) > 1
-    story: list[Flowable] = _batch_list(sheets, document.width) if batch else []
+    story: list[Flowable] = _batch_list(sheets, document.width, period) if batch else []
     for index, sheet in enumerate(sheets):
         if story:
             story.append(PageBreak())
@@ -1041,15 +1053,21 @@ class _BatchCanvas(_NumberedCanvas):
     pad_to_even = True
 
 
-def _batch_list(sheets: Sequence[Sheet], width: float) -> list[Flowable]:
-    """A batch's first page: the work orders in it, in the order they follow, each with its pages."""
+def _batch_list(sheets: Sequence[Sheet], width: float, period: tuple[date, date] | None = None) -> list[Flowable]:
+    """A batch's first page: the work orders in it, in the order they follow, each with its state and its pages;
+    titled by the days asked for (``period``), else by the orders' planned days."""
     planned = sorted(sheet.planned_date for sheet in sheets if sheet.planned_date is not None)
-    when = f"planned {_date_text(planned[0])} to {_date_text(planned[-1])}" if planned else "no planned dates"
+    if period is not None:
+        when = f"planned {_date_text(period[0])} to {_date_text(period[1])}"
+    else:
+        when = f"planned {_date_text(planned[0])} to {_date_text(planned[-1])}" if planned else "no planned dates"
     sites = ", ".join(sorted({sheet.site for sheet in sheets}))
-    widths = [10 * mm, 26 * mm, width - 10 * mm - 26 * mm - 30 * mm - 24 * mm - 14 * mm, 30 * mm, 24 * mm, 14 * mm]
+    widths = [10 * mm, 24 * mm, width - 10 * mm - 24 * mm - 26 * mm - 22 * mm - 22 * mm - 14 * mm, 26 * mm, 22 * mm,
+              22 * mm, 14 * mm]
     rows = [
         [f"{index + 1}", _cell(sheet.number, widths[1]), _cell(sheet.title, widths[2]),
-         _cell(sheet.telescope, widths[3]), _date_text(sheet.planned_date), _PageCount(index)]
+         _cell(sheet.telescope, widths[3]), _date_text(sheet.planned_date), _cell(sheet.state, widths[5]),
+         _PageCount(index)]
         for index, sheet in enumerate(sheets)
     ]
     generated = sheets[0].generated_at
@@ -1062,7 +1080,7 @@ def _batch_list(sheets: Sequence[Sheet], width: float) -> list[Flowable]:
         _note("Each work order starts on a new sheet of paper: one with an odd number of pages ends with a blank "
               "back page, so the batch can be printed on both sides. Pages below count each order's own pages."),
         Spacer(1, 6),
-        _ruled_table(("No.", "Work order", "Title", "Telescope", "Planned", "Pages"), rows, widths),
+        _ruled_table(("No.", "Work order", "Title", "Telescope", "Planned", "State", "Pages"), rows, widths),
     ]
 
 

@@ -30,6 +30,8 @@ from .cautions import (
     ALONGSIDE_TITLE_ON_PAPER,
     ENERGY_ALSO,
     ENERGY_HAZARDS,
+    HAND_BACKS_HELD_ADVICE,
+    HAND_BACKS_HELD_TITLE,
     HAZARDS,
     HAZARDS_MISSING_BEFORE_START,
     HAZARDS_MISSING_ON_PAPER,
@@ -155,6 +157,7 @@ class TelescopeOut:
     mirror: str
     removal: WorkOrder
     reinstall: WorkOrder | None
+    subsystem_id: int
 
     def notice(self) -> tuple[str, str, str]:
         """Title, what stands, what not to do: for the pages and the paper of other work at this telescope."""
@@ -196,21 +199,24 @@ def telescopes_out(sites: Sequence[Site] | None = None) -> dict[int, TelescopeOu
         to_do.setdefault(item.subsystem_id, item.work_order)
     return {
         subsystem.telescope_id: TelescopeOut(
-            subsystem.telescope_id, subsystem.telescope.name, subsystem.name, order, to_do.get(pk)
+            subsystem.telescope_id, subsystem.telescope.name, subsystem.name, order, to_do.get(pk), pk
         )
         for pk, (order, subsystem) in removed.items()
     }
 
 
-#: The recoat phases whose orders are written for a telescope without its mirror (the removal takes it out, the
-#: reinstall puts it back): they carry no notice that it is out. The realignment is written for the mirror in its
-#: cell, its telescope balanced (it moves the telescope under power), so it carries the notice like any other work.
-_WRITTEN_FOR_MIRROR_OUT = ("removal", "coating", "reinstall")
+#: The recoat phases whose orders are written for a telescope without its mirror (the reinstall puts it back): they
+#: carry no notice that it is out. A removal still to do is written for a mirror in its cell, its telescope balanced
+#: (it moves the telescope under power to the removal position), so it carries the notice like any other work: a
+#: hand-back walk-through planned a second recoat with the mirror still out, and its removal's slews were not held.
+#: The realignment is written for the mirror back in its cell, so it carries the notice too.
+_WRITTEN_FOR_MIRROR_OUT = ("coating", "reinstall")
 
 
 def telescope_out_notices(order: WorkOrder) -> list[tuple[str, str, str]]:
     """The notices for an order still to do at a telescope whose mirror is out (``telescopes_out``); none for the
-    recoat's own orders written for a telescope without its mirror (``_WRITTEN_FOR_MIRROR_OUT``)."""
+    recoat's own orders written for a telescope without its mirror (``_WRITTEN_FOR_MIRROR_OUT``), nor for the removal
+    that took it out."""
     if order.state not in TO_DO or order.recoat_phase in _WRITTEN_FOR_MIRROR_OUT:
         return []
     out = telescopes_out([order.site])
@@ -219,7 +225,43 @@ def telescope_out_notices(order: WorkOrder) -> list[tuple[str, str, str]]:
     at = {order.telescope_id} if order.telescope_id else set(
         order.items.values_list("subsystem__telescope_id", flat=True)
     )
-    return [out[pk].notice() for pk in sorted(at) if pk in out]
+    # Not the removal that took it out (its finish reads it as finished, once claimed).
+    return [out[pk].notice() for pk in sorted(at) if pk in out and out[pk].removal.pk != order.pk]
+
+
+def mirror_out_on(order: WorkOrder, day: dt.date) -> str:
+    """For work of ``order`` done on a past ``day`` (entered from paper), how a telescope it works on stood that day
+    with its mirror out, in words ("" when every mirror was in, or for the recoat's own orders written for a
+    telescope without it, ``_WRITTEN_FOR_MIRROR_OUT``): a removal's work done on or before that day and no reinstall's
+    done by then (one done that day puts it back), by the days their work was done (``work_done_on_of``). A walk-through
+    entered work dated while the mirror was out once it was back, its slews confirmed done, and had work done before
+    the removal held until the reinstall (``telescope_out_notices`` tells today's state). Two queries."""
+    if order.recoat_phase in _WRITTEN_FOR_MIRROR_OUT:
+        return ""
+    at = {order.telescope_id} if order.telescope_id else set(
+        order.items.values_list("subsystem__telescope_id", flat=True))
+    items = (WorkOrderItem.objects.filter(
+        subsystem__telescope_id__in=at, work_order__recoat_phase__in=("removal", "reinstall"),
+        work_order__state__in=(State.FINISHED, State.COUNTERSIGNED)).exclude(work_order=order)
+        .annotate(done_on=work_done_on_of("work_order_id")).select_related("work_order", "subsystem__telescope"))
+    moves: dict[int, list] = {}
+    for item in items:
+        if item.done_on is not None:
+            moves.setdefault(item.subsystem_id, []).append(item)
+    for found in moves.values():
+        # By the day the work was done, a removal before a reinstall of the same day (the mirror is back that day).
+        found.sort(key=lambda i: (i.done_on, i.work_order.recoat_phase == "reinstall", i.work_order.finished_at))
+        then = [i for i in found if i.done_on <= day]
+        if not then or then[-1].work_order.recoat_phase != "removal":
+            continue
+        removal = then[-1]
+        back = next((i for i in found if i.done_on > day and i.work_order.recoat_phase == "reinstall"), None)
+        returned = (f"{back.work_order.number} put it back on {back.done_on:%d %b %Y}" if back is not None
+                    else "it is not back yet")
+        return (f"on {day:%d %b %Y} {removal.subsystem.name} of {removal.subsystem.telescope.name} was out "
+                f"({removal.work_order.number} took it out on {removal.done_on:%d %b %Y}; {returned}): the telescope "
+                "was out of balance, its axes pinned and its drives on the site's long-term locks")
+    return ""
 
 
 #: The recoat phases whose work takes more than a day and may pause over the crew's days off with the mirror off its
@@ -228,7 +270,8 @@ _MAY_PAUSE_PART_WAY = ("removal", "reinstall")
 
 
 def recoat_hands_back(order: WorkOrder) -> WorkOrder | None:
-    """The realignment still to do of a recoat whose mirror has come out (its removal finished), on a telescope
+    """The realignment still to do of a recoat whose mirror has come out (its removal finished, or the earlier
+    recoat's it goes on from: ``RecoatPlan.removal``), on a telescope
     ``order`` works on (any of the site's, where they share one enclosure), ``order`` not being it: the telescope
     goes back to robotic and remote control with its last step, once the collimation is recorded
     (``catalogue.HAND_BACK_AFTER_REALIGNMENT``), and the reinstall's last step says to keep it out until then.
@@ -246,8 +289,8 @@ def recoat_hands_back(order: WorkOrder) -> WorkOrder | None:
         realignments = realignments.filter(telescope_id__in=telescopes)
     for realignment in realignments:
         plan = realignment.recoat_plans.order_by("-pk").first()
-        if plan is not None and plan.work_orders.filter(
-                recoat_phase="removal", state__in=(State.FINISHED, State.COUNTERSIGNED)).exists():
+        removal = plan.removal() if plan is not None else None
+        if removal is not None and removal.state in (State.FINISHED, State.COUNTERSIGNED):
             return realignment
     return None
 
@@ -1183,6 +1226,20 @@ def work_done_on(order: WorkOrder) -> dt.date | None:
     return in_force or work_done_at_finish(order)
 
 
+def recoat_began_on(plan) -> dt.date:
+    """The day a recoat (``mirrors.RecoatPlan``) began, from which a coating or a record counts as its own: for one
+    going on from an earlier recoat's removal with the mirror out (``continues_from``), the day that removal's work
+    was done; otherwise the earlier of its first day and the day it was planned (a coating done at the plant and
+    entered later keeps its true date, and the coating it replaces is older than the plan). One rule for the coating
+    refused before the removal (``mirrors.services.coating_before_removal``), the strip and coat's finish
+    (``coating_unlogged``) and the realignment's restarts (``services._restarted_by_the_new_coating``)."""
+    zone = plan.mirror.subsystem.telescope.site.zone
+    removal = plan.continues_from
+    if removal is not None:
+        return work_done_on(removal) or timezone.localtime(removal.finished_at, zone).date()
+    return min(plan.starts_on, timezone.localtime(plan.created_at, zone).date())
+
+
 def work_done_at_finish(order: WorkOrder) -> dt.date | None:
     """The day a finished order's work was done as the finish form gave it: the date of the service records it wrote
     (``services.work_order_finish``); None before it is finished."""
@@ -1296,10 +1353,10 @@ def coating_unlogged(order: WorkOrder) -> str:
         return ""
     from observatory_ops.mirrors.models import CoatingEvent  # mirrors builds on work orders
 
-    plan = order.recoat_plans.select_related("mirror__subsystem").order_by("-pk").first()
+    plan = order.recoat_plans.select_related("mirror__subsystem__telescope__site").order_by("-pk").first()
     if plan is None:
         return ""
-    since = min(plan.starts_on, timezone.localtime(plan.created_at, order.site.zone).date())
+    since = recoat_began_on(plan)
     newest = CoatingEvent.objects.filter(mirror=plan.mirror).order_by("-coated_on").first()
     if newest is not None and newest.coated_on >= since:
         return ""
@@ -1675,6 +1732,17 @@ def alongside_notice(order: WorkOrder, items: list[WorkOrderItem] | None = None)
             *(a.text(order.site.zone) for a in alongside), ALONGSIDE_ADVICE)
 
 
+def hand_backs_held_notice(order: WorkOrder) -> tuple[str, ...]:
+    """The printed order's notice of the other orders whose hand-back to robotic and remote control its crew holds
+    (``hand_backs_held``), as its page lists them: title, one line an order, what to do. () when none, or once the
+    order is no longer to do (a paper review: the realignment's page named them, its paper not)."""
+    held = hand_backs_held(order) if order.state in TO_DO else []
+    if not held:
+        return ()
+    return (HAND_BACKS_HELD_TITLE, *(f"{o.number} {o.title} ({o.get_state_display().lower()})" for o in held),
+            HAND_BACKS_HELD_ADVICE)
+
+
 def shared_telescopes(alongside: Sequence[Alongside]) -> str:
     """The telescopes the orders of ``alongside`` share with the order, by name: "R40, T70"."""
     return ", ".join(sorted({name for a in alongside for name in a.telescopes}))
@@ -1803,6 +1871,8 @@ def sheet(order: WorkOrder, url: str) -> sheet_.Sheet:
         start_held=start_held_notice(order, unrecorded, gaps, items),
         out_of_service=tuple(telescope_out_notices(order)),
         alongside=alongside_notice(order, items),
+        hand_backs_held=hand_backs_held_notice(order),
+        lockout_step=next((i + 1 for i, line in enumerate(lines.steps) if is_lockout_step(line.text)), None),
         isolation_needed=needs_isolation(order.hazards),
         isolation_statement=order_isolation_statement(order, missing, unrecorded),
         isolation_points=(tuple(f"{sheet_.WARNING_PREFIX}{gap}" for gap in gaps)
@@ -1863,12 +1933,13 @@ def history(order: WorkOrder, limit: int | None = None) -> list[Change]:
 
 
 def issued_between(site: Site, start, end) -> QuerySet[WorkOrder]:
-    """Issued (not draft, not withdrawn) work orders of a site planned for [start, end], or, when they
-    have no planned date, issued in it."""
+    """The work orders of a site issued and still to do (issued or underway) planned for [start, end], or, when they
+    have no planned date, issued in it: the paper a crew takes out. Not those finished (a paper review found a week's
+    batch printed after the day's work holding only countersigned orders), drafted or withdrawn."""
     planned = Q(planned_date__gte=start, planned_date__lte=end)
     unplanned = Q(planned_date__isnull=True, issued_at__date__gte=start, issued_at__date__lte=end)
     return (
         WorkOrder.objects.filter(Q(site=site) & (planned | unplanned))
-        .exclude(state__in=[State.DRAFT, State.WITHDRAWN])
+        .filter(state__in=[State.ISSUED, State.UNDERWAY])
         .order_by("planned_date", "pk")
     )

@@ -91,8 +91,10 @@ from .selectors import (
     isolation_points,
     latest_ticks,
     lift_inputs,
+    mirror_out_on,
     moves_held,
     order_plans,
+    recoat_began_on,
     recoat_hands_back,
     register_part,
     second_person_refusal,
@@ -880,10 +882,10 @@ def _restarted_by_the_new_coating(order: WorkOrder) -> set[int]:
     other order."""
     if order.recoat_phase != "realignment":
         return set()
-    plan = order.recoat_plans.order_by("-pk").first()
+    plan = order.recoat_plans.select_related("mirror__subsystem__telescope__site").order_by("-pk").first()
     if plan is None:
         return set()
-    since = min(plan.starts_on, timezone.localtime(plan.created_at, order.site.zone).date())
+    since = recoat_began_on(plan)
     return set(ServiceRecord.objects.filter(
         plan__in=order.items.filter(plan__isnull=False).values("plan_id"), performed_on__gte=since, void=False,
         corrected_by__isnull=True,
@@ -1263,7 +1265,8 @@ def finish_waits(order: WorkOrder, unticked: Sequence, day: dt.date | None = Non
     power and the hand-back were done on an unbalanced telescope (a diff review). The finish refuses it
     (``work_order_finish``); the finish form says it before it is filled in. ``day``: the day the work was done, when
     not today: the other crews are those at work by then (``_alongside_by``; a review's overhaul entered from paper
-    months later was held by a crew that started today)."""
+    months later was held by a crew that started today), and the mirror out or in as it was that day
+    (``selectors.mirror_out_on``)."""
     steps = [line for line in unticked if line.kind == ChecklistTick.Kind.STEP]
     waiting = moves_or_restores(order.step_list) if steps else set()
     after = [line for line in steps if line.key in waiting]
@@ -1287,7 +1290,15 @@ def finish_waits(order: WorkOrder, unticked: Sequence, day: dt.date | None = Non
         )
     if left:  # a hand-back left to others holds nothing here
         after = [line for line in after if not is_hand_back(line.text)]
-    if after and (mirror_out := telescope_out_notices(order)):
+    if after and day is not None and day < site_today(order.site):  # entered from paper: as the mirror stood then
+        if out_then := mirror_out_on(order, day):
+            return (
+                "steps that wait while the telescope's mirror is out are not ticked ("
+                + "; ".join(line.label.lower() for line in after)
+                + f") and would be recorded as done {out_then}. Check the day the work was done; steps that could not "
+                "be done then wait for an order after the reinstall"
+            )
+    elif after and (mirror_out := telescope_out_notices(order)):
         return (
             "steps that wait while the telescope's mirror is out are not ticked ("
             + "; ".join(line.label.lower() for line in after)

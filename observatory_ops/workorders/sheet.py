@@ -176,10 +176,13 @@ class Sheet:
     cleaning_to_record: tuple[tuple[str, tuple[str, ...]], ...] = ()  # (mirror, the answers to tick) before finishing
     other_part_rows: int = 0  # blank rows for parts used that the order did not plan, before finishing
     why_as_of: date | None = None  # the day ``why`` was computed: the order was made
+    hand_backs_held: tuple[str, ...] = ()  # title, one line an order whose hand-back this crew holds, what to do
+    lockout_step: int | None = None  # the lockout's step number (1 = the first step), None when no step is it
 
     def __post_init__(self) -> None:
         for name in ("subsystems", "why", "isolation_points", "steps", "tools", "confirmations", "hazards_notice",
-                     "alongside", "start_held", "parts_unregistered", "crew", "cleanings", "standing_notes"):
+                     "alongside", "start_held", "parts_unregistered", "crew", "cleanings", "standing_notes",
+                     "hand_backs_held"):
             if isinstance(getattr(self, name), str):
                 raise ValueError(f"{name} must be a sequence of lines, not a single string")
         if not self.number.strip():

@@ -699,10 +699,11 @@ def work_order_batch_pdf(request, slug):
         return redirect(reverse("workorder-list") + f"?site={site.pk}")
     orders = list(selectors.issued_between(site, start, end))
     if not orders:
-        messages.warning(request, f"No issued work orders at {site.name} planned from {start} to {end}.")
+        messages.warning(request, f"No work orders issued and still to do at {site.name} planned from {start} to "
+                                  f"{end}.")
         return redirect(reverse("workorder-list") + f"?site={site.pk}")
     sheets = [selectors.sheet(o, request.build_absolute_uri(o.get_absolute_url())) for o in orders]
-    response = HttpResponse(pdf.render_batch(sheets, _paper(request)), content_type="application/pdf")
+    response = HttpResponse(pdf.render_batch(sheets, _paper(request), (start, end)), content_type="application/pdf")
     response["Content-Disposition"] = f'attachment; filename="{site.slug}-work-orders-{start}-{end}.pdf"'
     return response
 

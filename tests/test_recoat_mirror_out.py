@@ -1,0 +1,179 @@
+"""A recoat stopped with its mirror out (its removal finished, its other orders withdrawn) and planned again: the new
+recoat goes on from the mirror out, with no removal of its own.
+
+A hand-back walk-through planned a second recoat with the mirror still out: the planner asked for a removal, and that
+removal's slews under power were not held, the tube out of balance with its axes pinned and its drives on the site's
+long-term locks (OSHA 29 CFR 1910.147(f)(4), shift and personnel changes; how the removal leaves the telescope is
+common practice, no published source).
+"""
+from __future__ import annotations
+
+import datetime as dt
+import html
+import re
+
+import pytest
+from django.core.exceptions import ValidationError
+from test_recoat_phases import orders, slings_rated  # noqa: F401  (orders: a fixture, used by name)
+from test_telescope_out import _finish, other_work  # noqa: F401  (other_work: a fixture, used by name)
+
+from observatory_ops.calc.windows import RECOAT_PHASES
+from observatory_ops.mirrors import services as mirror_services
+from observatory_ops.mirrors.models import RecoatPlan
+from observatory_ops.planning.services import recoat_downtime, site_today
+from observatory_ops.workorders import selectors, services
+from observatory_ops.workorders.models import WorkOrder
+
+
+@pytest.fixture
+def stopped(orders, users):  # noqa: F811  (the imported fixture)
+    """The recoat of tests/test_recoat_phases.py with its removal finished (today) and its other orders withdrawn:
+    the mirror is out and no recoat is in hand."""
+    recoat = {order.recoat_phase: order for order in slings_rated(list(orders.values()))}
+    _finish(recoat["removal"], users)
+    for phase in ("coating", "reinstall", "realignment"):
+        services.work_order_move(WorkOrder.objects.get(pk=recoat[phase].pk), "withdraw", users["engineer"],
+                                 reason="the coating plant closed")
+    return WorkOrder.objects.get(pk=recoat["removal"].pk)
+
+
+def _mirror(removal):
+    return selectors.lift_mirror(removal)
+
+
+def _text(response) -> str:
+    assert response.status_code == 200
+    return " ".join(html.unescape(re.sub(r"<[^>]+>", " ", response.content.decode())).split())
+
+
+def _planned_again(removal, users) -> RecoatPlan:
+    mirror = _mirror(removal)
+    left = mirror_services.recoat_phases_left(mirror)
+    start = site_today(removal.site) + dt.timedelta(days=7)
+    return mirror_services.recoat_plan_create(mirror, start, [p for _, p in left.phases], 2.0, users["engineer"])
+
+
+def test_the_planner_offers_no_removal_and_says_why(stopped, users, client):
+    mirror = _mirror(stopped)
+    left = mirror_services.recoat_phases_left(mirror)
+    assert [p.name for _, p in left.phases] == [p.name for p in RECOAT_PHASES if p.work != "removal"]
+    assert left.removal == stopped
+    assert f"({stopped.number}, the removal of an earlier recoat not finished)" in left.text
+    assert "with no removal" in left.text and "until the reinstall is finished" in left.text
+
+    client.force_login(users["engineer"])
+    page = client.get(f"/mirrors/{mirror.pk}/recoat/", {"start": site_today(stopped.site).isoformat(),
+                                                        "horizon_days": 120})
+    said = _text(page)
+    assert left.text in said
+    assert 'name="phase_0"' not in page.content.decode()  # the removal's days are not asked
+    assert "Makes draft work orders for strip and coat, reinstall, realignment and measurement" in said
+
+
+def test_planned_again_it_has_no_removal_and_goes_on_from_the_one_that_took_the_mirror_out(stopped, users):
+    plan = _planned_again(stopped, users)
+    assert plan.continues_from == stopped and plan.removal() == stopped
+    assert sorted(o.recoat_phase for o in plan.work_orders.all()) == ["coating", "realignment", "reinstall"]
+    # Its first order may start: no phase before it in this plan.
+    coating = plan.work_orders.get(recoat_phase="coating")
+    assert selectors.recoat_order_refusal(coating) == ""
+    # The forecasts keep the telescope out from the removal on, the mirror out.
+    downtime = recoat_downtime(plan, site_today(stopped.site))
+    assert downtime.mirror_out and downtime.first <= site_today(stopped.site)
+    assert f"the mirror removed by {stopped.number} for an earlier recoat" in downtime.changed
+
+
+def test_a_full_recoat_is_refused_with_the_mirror_out_and_one_without_removal_with_it_in(stopped, orders, users):  # noqa: F811
+    mirror = _mirror(stopped)
+    start = site_today(stopped.site) + dt.timedelta(days=7)
+    with pytest.raises(ValidationError, match="with no removal"):
+        mirror_services.recoat_plan_create(mirror, start, list(RECOAT_PHASES), 2.0, users["engineer"])
+    assert not RecoatPlan.objects.filter(continues_from__isnull=False).exists()
+
+
+def test_a_coating_dated_before_the_mirror_came_out_is_refused_for_the_recoat_going_on(stopped, users):
+    _planned_again(stopped, users)
+    mirror = _mirror(stopped)
+    out_on = selectors.work_done_on(stopped)
+    assert "the mirror came out of the telescope on" in mirror_services.coating_before_removal(
+        mirror, out_on - dt.timedelta(days=3))
+    assert mirror_services.coating_before_removal(mirror, out_on) == ""
+
+
+def test_coated_since_it_came_out_the_planner_goes_on_from_the_return(stopped, users):
+    mirror = _mirror(stopped)
+    mirror_services.coating_log(mirror, users["technician"], selectors.work_done_on(stopped), "al", [])
+    left = mirror_services.recoat_phases_left(mirror)
+    assert [p.name for _, p in left.phases] == ["return", "reinstall", "realignment and measurement"]
+    assert "no transport or strip and coat either" in left.text
+    plan = _planned_again(stopped, users)
+    assert sorted(o.recoat_phase for o in plan.work_orders.all()) == ["realignment", "reinstall"]
+
+
+def test_its_realignment_holds_other_work_s_hand_back(stopped, other_work, users):  # noqa: F811
+    plan = _planned_again(stopped, users)
+    realignment = plan.work_orders.get(recoat_phase="realignment")
+    assert selectors.recoat_hands_back(WorkOrder.objects.get(pk=other_work.pk)) == realignment
+
+
+def test_a_removal_still_to_do_with_the_mirror_out_carries_the_notice(stopped, users):
+    """A removal order still to do (made before this was mended, or by hand) while the mirror is out: its slews to
+    the removal position under power are held like any other order's (``_WRITTEN_FOR_MIRROR_OUT``)."""
+    removal = WorkOrder.objects.create(
+        site=stopped.site, telescope=stopped.telescope, title="Take the primary out", recoat_phase="removal",
+        steps="Slew to the removal position under power\nRemove the mirror", created_by=users["engineer"],
+    )
+    [(title, _body, _todo)] = selectors.telescope_out_notices(removal)
+    assert title.endswith("is out of service: its primary mirror is out")
+
+
+def _issued_back(*issued, days: int = 30) -> None:
+    """Date the orders' issue ``days`` back: their work may be entered from paper as done since then."""
+    from django.utils import timezone
+
+    WorkOrder.objects.filter(pk__in=[o.pk for o in issued]).update(
+        issued_at=timezone.now() - dt.timedelta(days=days))
+
+
+def _finished_on(order, users, day) -> None:
+    from conftest import new_coating_logged
+    from test_workorders import _confirmed
+
+    order = WorkOrder.objects.get(pk=order.pk)
+    if order.state == "issued":
+        services.work_order_move(order, "start", users["technician"])
+    new_coating_logged(order, users["technician"])
+    services.work_order_finish(order, users["technician"], 4.0, "done from the paper",
+                               {r.pk: 0.9 for r in order.required_readings.all()}, work_done_on=day,
+                               **_confirmed(WorkOrder.objects.get(pk=order.pk)))
+
+
+def test_paper_entered_later_is_held_as_the_mirror_stood_on_the_day_the_work_was_done(orders, other_work, users):  # noqa: F811
+    """A walk-through entered drive work done while the mirror was out once it was back, its slews confirmed done,
+    and had work done before the removal held until the reinstall."""
+    recoat = {order.recoat_phase: order for order in slings_rated(list(orders.values()))}
+    today = site_today(other_work.site)
+    for order in recoat.values():
+        services.work_order_move(WorkOrder.objects.get(pk=order.pk), "issue", users["engineer"])
+    _issued_back(other_work, *recoat.values())
+    _finished_on(recoat["removal"], users, today - dt.timedelta(days=10))
+    order = WorkOrder.objects.get(pk=other_work.pk)
+    services.work_order_move(order, "start", users["technician"])
+    unticked = selectors.unticked_lines(order)
+    # Done the day before the removal, entered with the mirror out: nothing holds it.
+    assert services.finish_waits(order, unticked, today - dt.timedelta(days=11)) == ""
+    # Done today with the mirror out: held, as today's page says.
+    assert "Finish this order once the reinstall is finished" in services.finish_waits(order, unticked, today)
+    _finished_on(recoat["coating"], users, today - dt.timedelta(days=6))
+    _finished_on(recoat["reinstall"], users, today - dt.timedelta(days=2))
+    assert selectors.telescope_out_notices(order) == []
+    # Done while it was out, entered once it is back: held, saying how the mirror stood that day.
+    held = services.finish_waits(order, unticked, today - dt.timedelta(days=5))
+    removal, reinstall = recoat["removal"].number, recoat["reinstall"].number
+    assert (f"({removal} took it out on {today - dt.timedelta(days=10):%d %b %Y}; {reinstall} put it back on "
+            f"{today - dt.timedelta(days=2):%d %b %Y})") in held
+    assert "Check the day the work was done" in held
+    with pytest.raises(services.Refused, match="would be recorded as done on"):
+        _finished_on(order, users, today - dt.timedelta(days=5))
+    # The day the reinstall put it back, and after: the mirror is in.
+    assert services.finish_waits(order, unticked, today - dt.timedelta(days=2)) == ""
