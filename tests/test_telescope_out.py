@@ -353,3 +353,29 @@ def test_an_orders_own_hand_back_is_its_last_tick(recoat, other_work, users):
         services.checklist_tick_set(order, "step", last, True, users["technician"])
     services.checklist_tick_set(order, "step", last - 1, True, users["technician"])
     services.checklist_tick_set(order, "step", last, True, users["technician"])
+
+
+def test_work_planned_while_the_recoat_is_planned_to_have_the_mirror_out_says_so_before_the_removal(
+    recoat, other_work, users, client
+):
+    """A paper review printed drive work planned inside a recoat's days before its removal began: nothing on it said
+    the mirror was to come out. It is said (page and paper), not refused; once the removal is finished the notice
+    that holds the work takes its place."""
+    [(title, body, todo)] = selectors.recoat_planned_notices(other_work)
+    assert title == "T1's Primary is planned to be out for its recoat"
+    removal = recoat["removal"]
+    assert f"its removal {removal.number} is planned for {removal.planned_date:%d %b %Y} (draft)" in body
+    assert f"its reinstall {recoat['reinstall'].number} planned for" in body
+    assert "ask the site engineer whether the removal has begun" in todo
+    assert selectors.telescope_out_notices(other_work) == []  # nothing is held
+    client.force_login(users["technician"])
+    assert title in _text(client.get(other_work.get_absolute_url()))
+    assert title in _pdf(client, other_work)
+    # The recoat's own orders, and work planned outside its days, carry none.
+    assert selectors.recoat_planned_notices(WorkOrder.objects.get(pk=recoat["coating"].pk)) == []
+    WorkOrder.objects.filter(pk=other_work.pk).update(planned_date=dt.date(2026, 9, 30))
+    assert selectors.recoat_planned_notices(WorkOrder.objects.get(pk=other_work.pk)) == []
+    WorkOrder.objects.filter(pk=other_work.pk).update(planned_date=dt.date(2026, 8, 4))
+    _finish(recoat["removal"], users)
+    order = WorkOrder.objects.get(pk=other_work.pk)
+    assert selectors.recoat_planned_notices(order) == [] and selectors.telescope_out_notices(order)

@@ -229,6 +229,48 @@ def telescope_out_notices(order: WorkOrder) -> list[tuple[str, str, str]]:
     return [out[pk].notice() for pk in sorted(at) if pk in out and out[pk].removal.pk != order.pk]
 
 
+def recoat_planned_notices(order: WorkOrder) -> list[tuple[str, str, str]]:
+    """For an order still to do planned on a day a recoat in hand is planned to have its telescope's mirror out
+    (``planning.services.recoat_downtime``), the mirror still in (its removal not finished: once it is,
+    ``telescope_out_notices`` holds the work): title, what is planned, what to do. Paper printed days ahead (a weekly
+    batch) said nothing of a removal coming on those days (a paper review). [] for the recoat's own orders, an order
+    with no planned date, or none planned then. Said, never refused."""
+    if order.state not in TO_DO or order.recoat_phase or order.planned_date is None:
+        return []
+    from observatory_ops.planning.services import recoat_downtime, recoats_in_hand
+
+    at = {order.telescope_id} if order.telescope_id else set(
+        order.items.values_list("subsystem__telescope_id", flat=True))
+    today = site_today(order.site)
+    said = []
+    for plan in recoats_in_hand(order.site):
+        telescope = plan.mirror.subsystem.telescope
+        removal = plan.removal()
+        if telescope.pk not in at or removal is None or removal.state not in (State.DRAFT, State.ISSUED,
+                                                                              State.UNDERWAY):
+            continue
+        out = recoat_downtime(plan, today)
+        if not out.first <= order.planned_date <= out.last:
+            continue
+        reinstall = next((o for o in plan.work_orders.all()
+                          if o.recoat_phase == "reinstall" and o.state in TO_DO), None)
+
+        def when(o: WorkOrder) -> str:
+            return f"planned for {dateformat.format(o.planned_date, 'd M Y')}" if o.planned_date else "not dated"
+
+        back = f", its reinstall {reinstall.number} {when(reinstall)}" if reinstall else ""
+        said.append((
+            f"{telescope.name}'s {plan.mirror.subsystem.name} is planned to be out for its recoat",
+            f"This order is planned for {dateformat.format(order.planned_date, 'd M Y')}, while the recoat is "
+            f"planned to have the mirror out: its removal {removal.number} is {when(removal)} "
+            f"({removal.get_state_display().lower()}){back}.",
+            "Before starting, ask the site engineer whether the removal has begun. Once the mirror is out, do no step "
+            "that moves an axis, releases a brake or takes the site's long-term locks off until the reinstall is "
+            "finished.",
+        ))
+    return said
+
+
 def mirror_out_on(order: WorkOrder, day: dt.date) -> str:
     """For work of ``order`` done on a past ``day`` (entered from paper), how a telescope it works on stood that day
     with its mirror out, in words ("" when every mirror was in, or for the recoat's own orders written for a
@@ -1869,7 +1911,7 @@ def sheet(order: WorkOrder, url: str) -> sheet_.Sheet:
         precedence_statement=PRECEDENCE_STATEMENT,
         hazards_notice=hazards_notice(order, missing, paper=True, unrecorded=unrecorded),
         start_held=start_held_notice(order, unrecorded, gaps, items),
-        out_of_service=tuple(telescope_out_notices(order)),
+        out_of_service=tuple(telescope_out_notices(order) or recoat_planned_notices(order)),
         alongside=alongside_notice(order, items),
         hand_backs_held=hand_backs_held_notice(order),
         lockout_step=next((i + 1 for i, line in enumerate(lines.steps) if is_lockout_step(line.text)), None),
