@@ -158,6 +158,38 @@ def test_windows_agree_with_a_brute_force_search_and_never_overlap(
         assert all(any(abs(start - s) < days for s in starts) for start in free)
 
 
+@given(
+    cost=st.lists(st.one_of(st.integers(0, 20).map(float), st.just(INF)), min_size=1, max_size=40),
+    days=st.integers(1, 8),
+)
+def test_lost_from_start_prices_every_night_to_the_window_s_end_and_the_soonest_wins(
+    cost: list[float], days: int
+) -> None:
+    # Source: a brute-force search, every window's cost summed from night 0 to its end in Python (the telescope out
+    # from night 0 whatever the window, its mirror already out). Law: costs never fall as windows end later, so the
+    # first window is the earliest without a blocked night from night 0 to its end.
+    if days > len(cost):
+        return
+    free = {start: sum(cost[: start + days]) for start in range(len(cost) - days + 1)}
+    free = {start: total for start, total in free.items() if total != INF}
+    one_job = [Phase("work at the telescope", days, TELESCOPE_WORK)]
+    if not free:
+        with pytest.raises(ValueError, match="contains a blocked night"):
+            cheapest_crew_windows(cost, one_job, 1, EVERY_DAY, 0, lost_from_start=True)
+        return
+    [first] = cheapest_crew_windows(cost, one_job, 1, EVERY_DAY, 0, lost_from_start=True)
+    assert first.start_index == min(free) and first.cost == free[min(free)]
+
+
+def test_lost_from_start_by_hand() -> None:
+    # HAND_COST from night 0, two days: ends after nights 1..8 -> 6, 7, 11, 11, 11, 20, 22, 24: the first window wins,
+    # where from its own first night the one begun on night 4 (0 + 0) did.
+    [first] = cheapest_crew_windows(HAND_COST, [Phase("work", 2, TELESCOPE_WORK)], 1, EVERY_DAY, 0,
+                                    lost_from_start=True)
+    assert (first.start_index, first.cost) == (0, 6.0)
+    assert plain_windows(HAND_COST, 2, 0)[0].start_index == 4
+
+
 # --- the outside reference: full moons from PyEphem -----------------------------------------------------
 
 #: Invented site in the Arizona desert; America/Phoenix keeps no daylight-saving time.

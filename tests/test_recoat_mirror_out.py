@@ -58,7 +58,7 @@ def test_the_planner_offers_no_removal_and_says_why(stopped, users, client):
     left = mirror_services.recoat_phases_left(mirror)
     assert [p.name for _, p in left.phases] == [p.name for p in RECOAT_PHASES if p.work != "removal"]
     assert left.removal == stopped
-    assert f"({stopped.number}, the removal of an earlier recoat not finished)" in left.text
+    assert f"(removed by {stopped.number} for an earlier recoat, which was stopped)" in left.text
     assert "with no removal" in left.text and "until the reinstall is finished" in left.text
 
     client.force_login(users["engineer"])
@@ -83,7 +83,7 @@ def test_planned_again_it_has_no_removal_and_goes_on_from_the_one_that_took_the_
     assert f"the mirror removed by {stopped.number} for an earlier recoat" in downtime.changed
 
 
-def test_a_full_recoat_is_refused_with_the_mirror_out_and_one_without_removal_with_it_in(stopped, orders, users):  # noqa: F811
+def test_a_full_recoat_is_refused_with_the_mirror_out(stopped, users):
     mirror = _mirror(stopped)
     start = site_today(stopped.site) + dt.timedelta(days=7)
     with pytest.raises(ValidationError, match="with no removal"):
@@ -172,8 +172,108 @@ def test_paper_entered_later_is_held_as_the_mirror_stood_on_the_day_the_work_was
     removal, reinstall = recoat["removal"].number, recoat["reinstall"].number
     assert (f"({removal} took it out on {today - dt.timedelta(days=10):%d %b %Y}; {reinstall} put it back on "
             f"{today - dt.timedelta(days=2):%d %b %Y})") in held
-    assert "Check the day the work was done" in held
-    with pytest.raises(services.Refused, match="would be recorded as done on"):
+    assert ("they were not done then. Do them now that it is back and tick them on this page, then finish with the "
+            "day the rest of the work was done") in held
+    with pytest.raises(services.Refused, match="the day the work was done, the Primary of T1 was out"):
         _finished_on(order, users, today - dt.timedelta(days=5))
     # The day the reinstall put it back, and after: the mirror is in.
     assert services.finish_waits(order, unticked, today - dt.timedelta(days=2)) == ""
+
+
+def test_with_the_mirror_out_the_soonest_window_is_the_cheapest_and_none_is_late(stopped, users, client):
+    """A diff review was offered a window four months on as the cheapest (4.4 hours), the telescope out all the
+    while: each window now costs every night from the search's start to its end."""
+    mirror = _mirror(stopped)
+    start = site_today(stopped.site)
+    left = mirror_services.recoat_phases_left(mirror)
+    found = mirror_services.recoat_windows(mirror, start, 120, [p for _, p in left.phases])
+    assert found["out_already"]
+    first = found["windows"][0]
+    assert all(first["end"] <= w["end"] for w in found["windows"])
+    assert not any(w["late"] for w in found["windows"])
+    assert first["waiting"] == (first["start"] - start).days
+    client.force_login(users["engineer"])
+    said = _text(client.get(f"/mirrors/{mirror.pk}/recoat/", {"start": start.isoformat(), "horizon_days": 120}))
+    assert "the window that ends soonest costs least" in said
+
+
+def test_a_page_shown_before_the_mirror_came_out_plans_nothing(orders, users, client):  # noqa: F811
+    recoat = {order.recoat_phase: order for order in slings_rated(list(orders.values()))}
+    mirror = _mirror(recoat["removal"])
+    start = site_today(recoat["removal"].site) + dt.timedelta(days=7)
+    # The full recoat's fields, as the page showed them with the mirror in; then the removal is finished and the
+    # rest withdrawn before the choice is sent.
+    sent = {"start": start.isoformat(), "horizon_days": "120",
+            **{f"phase_{i}": str(p.days) for i, p in enumerate(RECOAT_PHASES)}}
+    _finish(recoat["removal"], users)
+    for phase in ("coating", "reinstall", "realignment"):
+        services.work_order_move(WorkOrder.objects.get(pk=recoat[phase].pk), "withdraw", users["engineer"],
+                                 reason="stopped")
+    found = mirror_services.recoat_windows(mirror, start, 120, [p for _, p in
+                                                                mirror_services.recoat_phases_left(mirror).phases])
+    client.force_login(users["engineer"])
+    response = client.post(f"/mirrors/{mirror.pk}/recoat/plan/",
+                           {**sent, "window": found["windows"][0]["start"].isoformat()}, follow=True)
+    assert "the recoat&#x27;s phases have changed since the page was shown" in response.content.decode()
+    assert not RecoatPlan.objects.filter(continues_from__isnull=False).exists()
+
+
+def test_with_the_mirror_in_a_recoat_without_its_removal_is_refused(orders, users):  # noqa: F811
+    mirror = _mirror(orders["removal"])
+    for order in orders.values():
+        services.work_order_move(WorkOrder.objects.get(pk=order.pk), "withdraw", users["engineer"], reason="redo")
+    with pytest.raises(ValidationError, match="the mirror is in its telescope: a recoat begins with its removal"):
+        mirror_services.recoat_plan_create(mirror, site_today(orders["removal"].site) + dt.timedelta(days=7),
+                                           [p for p in RECOAT_PHASES if p.work != "removal"], 2.0, users["engineer"])
+
+
+def test_a_removal_entered_from_paper_keeps_the_telescope_out_from_the_day_its_work_was_done(orders, users):  # noqa: F811
+    recoat = {order.recoat_phase: order for order in slings_rated(list(orders.values()))}
+    services.work_order_move(WorkOrder.objects.get(pk=recoat["removal"].pk), "issue", users["engineer"])
+    _issued_back(recoat["removal"])
+    out_on = site_today(recoat["removal"].site) - dt.timedelta(days=10)
+    _finished_on(recoat["removal"], users, out_on)
+    for phase in ("coating", "reinstall", "realignment"):
+        services.work_order_move(WorkOrder.objects.get(pk=recoat[phase].pk), "withdraw", users["engineer"],
+                                 reason="stopped")
+    removal = WorkOrder.objects.get(pk=recoat["removal"].pk)
+    plan = _planned_again(removal, users)
+    downtime = recoat_downtime(plan, site_today(removal.site))
+    assert downtime.first == out_on and f"out since {out_on:%d %b %Y}" in downtime.changed
+    [(_title, body, _todo)] = [n for o in selectors.telescopes_out([removal.site]) for n in [o.notice()]]
+    assert f"was removed on {out_on:%d %b %Y}" in body
+
+
+def test_two_mirrors_out_of_one_telescope_each_hold_the_work(stopped, users):
+    """A diff review: with the primary out, the secondary's removal, once claimed by its finish, hid the primary's
+    notice (one entry a telescope), and its slew under power was let through as "done or did not apply"."""
+    from django.utils import timezone
+
+    from observatory_ops.registry.models import Subsystem
+
+    secondary = Subsystem.objects.create(telescope=stopped.telescope, kind="secondary_mirror", name="Secondary")
+    removal = WorkOrder.objects.create(
+        site=stopped.site, telescope=stopped.telescope, title="Take the secondary out", recoat_phase="removal",
+        steps="Slew to the removal position under power\nRemove the mirror", created_by=users["engineer"],
+        state="underway",
+    )
+    removal.items.create(subsystem=secondary, why="recoat")
+    [(title, _body, _todo)] = selectors.telescope_out_notices(removal)
+    assert title == "T1 is out of service: its primary mirror is out"
+    WorkOrder.objects.filter(pk=removal.pk).update(state="finished", finished_at=timezone.now())
+    out = selectors.telescopes_out([stopped.site])
+    assert sorted(o.kind for o in out) == ["primary mirror", "secondary mirror"]
+    # Claimed by its own finish, the secondary's removal is still held by the primary out, and only by it.
+    removal.state = "underway"
+    [(title, _body, _todo)] = selectors.telescope_out_notices(removal)
+    assert title == "T1 is out of service: its primary mirror is out"
+
+
+def test_a_hand_back_dated_before_the_removal_is_not_left_to_the_realignment(stopped, other_work, users):  # noqa: F811
+    plan = _planned_again(stopped, users)
+    realignment = plan.work_orders.get(recoat_phase="realignment")
+    order = WorkOrder.objects.get(pk=other_work.pk)
+    out_on = selectors.work_done_on(stopped)
+    assert selectors.recoat_hands_back(order) == realignment
+    assert selectors.recoat_hands_back(order, out_on) == realignment  # the removal's day: out
+    assert selectors.recoat_hands_back(order, out_on - dt.timedelta(days=1)) is None

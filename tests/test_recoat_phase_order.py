@@ -109,7 +109,7 @@ def test_the_reinstall_does_not_start_while_the_strip_and_coat_is_not_finished(r
     assert str(refused.value) == expected
     assert _fresh(reinstall).state == State.ISSUED and _fresh(reinstall).started_at is None
     # The telescope still stands without its mirror: nothing cleared the notice.
-    assert list(selectors.telescopes_out([reinstall.site])) == [reinstall.telescope_id]
+    assert [o.telescope_id for o in selectors.telescopes_out([reinstall.site])] == [reinstall.telescope_id]
 
     client.force_login(users["technician"])
     page = client.get(reinstall.get_absolute_url()).content.decode()

@@ -335,5 +335,15 @@ def test_the_paper_says_the_points_are_locked_at_the_lockout_step_after_the_step
     at = _first(removal.step_list, "isolate, lock and tag") + 1
     printed = " ".join(_printed(removal).split())
     assert f"lock out and tag each at step {at}, the lockout" in printed
-    assert f"Steps 1 to {at - 1} are done under power first" in printed
+    assert f"Do steps 1 to {at - 1} first, under power; once a lock is on, do no step under power" in printed
     assert "lock out and tag each before the work starts" not in printed
+
+
+def test_the_paper_leaves_a_line_for_who_locked_out_released_and_handed_back_and_when(orders):
+    """A paper review: entered later from paper, ticks carry the time they were entered; the lockout, the removal of
+    the locks and the hand-back get a line for initials, date and time on paper of work still to do."""
+    printed = _printed(orders["removal"])
+    assert "Lockout: " in printed and printed.count("Initials ____________ Date ____________ Time ____________") == 1
+    realignment = _printed(orders["realignment"])
+    assert "Handed back by ____________ Date ____________ Time ____________ Remote observers told: yes / no" \
+        in realignment

@@ -78,7 +78,7 @@ def test_the_planner_marks_each_order_with_its_phase(recoat):
 def test_nothing_is_out_before_the_removal_is_finished(recoat, other_work, site, users):
     services.work_order_move(recoat["removal"], "issue", users["engineer"])
     services.work_order_move(recoat["removal"], "start", users["technician"])  # underway: the mirror may be in
-    assert selectors.telescopes_out([site]) == {}
+    assert selectors.telescopes_out([site]) == []
     assert selectors.telescope_out_notices(other_work) == []
 
 
@@ -86,9 +86,8 @@ def test_once_the_removal_is_finished_other_work_on_the_telescope_carries_the_no
     recoat, other_work, site, users, client
 ):
     _finish(recoat["removal"], users)
-    out = selectors.telescopes_out([site])
-    assert list(out) == [other_work.telescope_id]
-    stands = out[other_work.telescope_id]
+    [stands] = selectors.telescopes_out([site])
+    assert stands.telescope_id == other_work.telescope_id
     assert stands.removal == recoat["removal"] and stands.reinstall == recoat["reinstall"]
     title, body, todo = stands.notice()
     assert title == OUT and todo == TELESCOPE_OUT_TODO
@@ -185,14 +184,14 @@ def test_the_notice_goes_once_the_reinstall_is_finished(recoat, other_work, site
     _finish(recoat["removal"], users)
     _finish(recoat["coating"], users)
     _finish(recoat["reinstall"], users)
-    assert selectors.telescopes_out([site]) == {}
+    assert selectors.telescopes_out([site]) == []
     assert selectors.telescope_out_notices(other_work) == []
 
 
 def test_a_withdrawn_reinstall_leaves_the_telescope_out_and_says_none_is_planned(recoat, site, users):
     _finish(recoat["removal"], users)
     services.work_order_move(recoat["reinstall"], "withdraw", users["engineer"], reason="replanned")
-    [stands] = selectors.telescopes_out([site]).values()
+    [stands] = selectors.telescopes_out([site])
     assert stands.reinstall is None
     assert "no reinstall order is planned yet" in stands.notice()[1]
 
@@ -204,7 +203,7 @@ def test_finished_work_and_other_sites_show_nothing(recoat, other_work, site, us
     _finish(recoat["removal"], users)
     elsewhere = Site.objects.create(name="Elsewhere", slug="elsewhere", latitude_deg=10, longitude_deg=10,
                                     elevation_m=100, time_zone="UTC")
-    assert selectors.telescopes_out([elsewhere]) == {}
+    assert selectors.telescopes_out([elsewhere]) == []
     assert selectors.telescope_out_notices(WorkOrder.objects.get(pk=other_work.pk)) == []
 
 

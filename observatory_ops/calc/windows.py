@@ -254,6 +254,7 @@ def cheapest_crew_windows(
     alternatives: int = 3,
     *,
     days_off: Iterable[int] = (),
+    lost_from_start: bool = False,
 ) -> list[Window]:
     """The cheapest downtime for ``phases`` done on the crew's working days, then up to ``alternatives`` more.
 
@@ -269,6 +270,10 @@ def cheapest_crew_windows(
     more. With every day a working day and no day off, or no crew phase, every length is :func:`total_days`: the
     plain search of that many consecutive nights.
 
+    With ``lost_from_start`` the telescope is out of service from night 0 whatever the window (its mirror already
+    out): a window begun on night ``i`` loses every night to its end, ``C[i + L_i] - C[0]``, so the window that ends
+    first is the cheapest, and a blocked night before a window blocks it as one inside it does.
+
     Parameters
     ----------
     cost : cost per night, >= 0, ``inf`` for a blocked night (:func:`night_cost`).
@@ -278,6 +283,7 @@ def cheapest_crew_windows(
     alternatives : how many further windows to offer besides the cheapest, >= 0.
     days_off : whole days the crew is off besides the weekdays outside ``crew_days`` (public holidays, site
         closures), as night numbers of ``cost`` (0 is its first night), each at least 0.
+    lost_from_start : count each window's cost from night 0, not from its own first night (above).
 
     Returns
     -------
@@ -313,7 +319,7 @@ def cheapest_crew_windows(
         raise ValueError(f"the phases take at least {downtime_words(listed, shortest)}, and every such downtime "
                          f"begun in the horizon runs longer than the horizon of {per_night.size} days allows: "
                          "lengthen the horizon")
-    chosen = _cheapest(per_night, lengths, alternatives)
+    chosen = _cheapest(per_night, lengths, alternatives, lost_from_start)
     if not chosen:
         raise ValueError(
             "every window for these phases contains a blocked night (a booked observing run): shorten a phase, "
@@ -390,9 +396,11 @@ def _laid(phases: list[Phase], start: int, works: Callable[[int], bool]) -> list
     return laid
 
 
-def _cheapest(per_night: NDArray[np.float64], lengths: NDArray[np.int64], alternatives: int) -> list[Window]:
+def _cheapest(per_night: NDArray[np.float64], lengths: NDArray[np.int64], alternatives: int,
+              lost_from_start: bool = False) -> list[Window]:
     """The greedy choice of :func:`cheapest_crew_windows` for a window of ``lengths[i]`` nights begun on night ``i``
-    (0: none begins there); an empty list when every window that fits holds a blocked night.
+    (0: none begins there), its cost counted from night 0 with ``lost_from_start``; an empty list when every window
+    that fits holds a blocked night.
 
     Sums from one cumulative sum, ``C[i + lengths[i]] - C[i]``; blocked (infinite) nights are counted by a second
     cumulative sum, so a window holding one is never chosen and the infinities never enter the subtraction."""
@@ -404,8 +412,9 @@ def _cheapest(per_night: NDArray[np.float64], lengths: NDArray[np.int64], altern
     # Blocked nights are summed as 0 and counted apart, so the infinities never enter a subtraction.
     cumulative = np.concatenate(([0], np.cumsum(np.where(blocked, 0.0, per_night))))
     held = np.concatenate(([0], np.cumsum(blocked)))
-    sums = cumulative[last] - cumulative[starts]
-    candidates = np.where(fits & (held[last] == held[starts]), sums, np.inf)
+    counted_from = np.zeros_like(starts) if lost_from_start else starts
+    sums = cumulative[last] - cumulative[counted_from]
+    candidates = np.where(fits & (held[last] == held[counted_from]), sums, np.inf)
     chosen = []
     for _ in range(alternatives + 1):
         start = int(np.argmin(candidates))

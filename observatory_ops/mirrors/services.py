@@ -740,15 +740,16 @@ def _dated(first_night: dt.date, window: windows.Window) -> dict:
 
 def crew_windows(
     first_night: dt.date, cost: np.ndarray, phases: list[windows.Phase], crew_days: frozenset[int],
-    days_off: Mapping[dt.date, str], alternatives: int = 3,
+    days_off: Mapping[dt.date, str], alternatives: int = 3, lost_from_start: bool = False,
 ) -> list[dict]:
     """The cheapest windows for ``phases`` with the crew working ``crew_days`` and off on ``days_off`` (date ->
     note) (``calc.windows.cheapest_crew_windows``), cheapest first, each with its start and end dates, its phases'
     dates (``phase_dates``) and the days off that hold up its work at the telescope as (date, note) pairs: those
     inside the window but not while the mirror is away (transport, coating: calendar days, which a day off does not
-    change)."""
+    change). ``lost_from_start``: each window costs every night from ``first_night`` to its end (the mirror out)."""
     found = windows.cheapest_crew_windows(cost, phases, first_night.isoweekday(), crew_days, alternatives,
-                                          days_off=_day_numbers(first_night, days_off))
+                                          days_off=_day_numbers(first_night, days_off),
+                                          lost_from_start=lost_from_start)
     out = []
     for window in (_dated(first_night, w) for w in found):
         laid = phase_dates(window["start"], phases, crew_days, days_off)
@@ -761,16 +762,24 @@ def crew_windows(
 
 def site_crew_windows(
     site: Site, start: dt.date, horizon_days: int, phases: list[windows.Phase], alternatives: int = 3,
-    telescope: Telescope | None = None,
+    telescope: Telescope | None = None, out_already: bool = False,
 ) -> tuple[list[NightCost], dict[dt.date, str], list[dict]]:
     """What the recoat planner and the ``windows`` command search at a site: each coming night's cost
     (``night_costs``), the site's crew days off in the horizon (date -> note), and the cheapest windows for
     ``phases`` with the site's crew (``crew_windows``), cheapest first. ``telescope``: the one taken out of service
-    (the recoat planner), whose own open fraction prices its nights."""
+    (the recoat planner), whose own open fraction prices its nights.
+
+    ``out_already``: the telescope is out of service from ``start`` whatever the window (its mirror out,
+    ``mirror_out``): each window costs every night from ``start`` to its end, so the soonest to end is the cheapest (a
+    diff review was offered the window four months on, "4.4 hours", the telescope out all the while); a booked run
+    cannot be observed before the mirror is back, so its nights are priced at ``BOOKED_WEIGHT`` times their hours, not
+    blocked."""
     costs = night_costs(site, start, horizon_days, telescope)
     days_off = crew_days_off(site, costs[0].night, costs[-1].night)
-    found = crew_windows(costs[0].night, np.array([c.cost for c in costs]), phases, site.crew_days, days_off,
-                         alternatives)
+    priced = np.array([c.cost if np.isfinite(c.cost) or not out_already
+                       else c.moonless_dark_hours * c.open_fraction * BOOKED_WEIGHT for c in costs])
+    found = crew_windows(costs[0].night, priced, phases, site.crew_days, days_off, alternatives,
+                         lost_from_start=out_already)
     return costs, days_off, found
 
 
@@ -918,8 +927,8 @@ class PhasesLeft:
             return ""
         zone = self.removal.site.zone
         out_on = work_done_on(self.removal) or timezone.localtime(self.removal.finished_at, zone).date()
-        said = (f"The mirror is out of the telescope since {out_on:%d %b %Y} ({self.removal.number}, the removal of "
-                "an earlier recoat not finished), so this recoat goes on from there with no removal")
+        said = (f"The mirror has been out of the telescope since {out_on:%d %b %Y} (removed by {self.removal.number} "
+                "for an earlier recoat, which was stopped), so this recoat goes on from there with no removal")
         if self.coating is not None:
             said += (f"; it was coated on {self.coating.coated_on:%d %b %Y}, so no transport or strip and coat "
                      "either")
@@ -1208,7 +1217,9 @@ def recoat_windows(mirror: Mirror, start: dt.date, horizon_days: int, phases: li
     """
     days = windows.total_days(phases)
     site = mirror.subsystem.telescope.site
-    costs, days_off, found = site_crew_windows(site, start, horizon_days, phases, telescope=mirror.subsystem.telescope)
+    out_already = mirror_out(mirror) is not None
+    costs, days_off, found = site_crew_windows(site, start, horizon_days, phases, telescope=mirror.subsystem.telescope,
+                                               out_already=out_already)
     crew = site.crew_days
     chosen = {found[0]["start"] + dt.timedelta(days=i) for i in range(found[0]["nights"])} if found else set()
     worst = max((c.cost for c in costs if np.isfinite(c.cost)), default=1.0) or 1.0
@@ -1232,15 +1243,18 @@ def recoat_windows(mirror: Mirror, start: dt.date, horizon_days: int, phases: li
     dark_hours = {c.night: c.dark_hours for c in costs}
     closed = {c.night for c in costs if c.closed}
     for window in found:  # a window starting after the recoat plan is due: the due list shows it overdue by then
-        window["late"] = bool(due and due.forecast_date and window["start"] > due.forecast_date)
+        # With the mirror out, the recoat is under way: no window is "late" for it, each is priced from the start.
+        window["late"] = bool(due and due.forecast_date and window["start"] > due.forecast_date) and not out_already
+        window["waiting"] = (window["start"] - start).days if out_already else 0
         end = window["start"] + dt.timedelta(days=window["nights"] - 1)
         window["crew_committed"] = [p for p in committed if p.out.first <= end and window["start"] <= p.out.last]
         window["realignment_undark"] = _realignment_without_darkness(window["phases"], dark_hours)
         # Its nights that a closure takes anyway: out of service, but not lost to the recoat (they cost nothing).
         window["closed_nights"] = sum(1 for i in range(window["nights"])
                                       if window["start"] + dt.timedelta(days=i) in closed)
-    return {"windows": found, "days": days, "calendar": calendar, "lead_blanks": range(lead), "due": due,
-            "committed": committed, "booked_runs": booked_runs, "days_off": days_off,
+    return {"windows": found, "days": days, "calendar": calendar, "out_already": out_already,
+            "lead_blanks": range(lead), "due": due, "committed": committed, "booked_runs": booked_runs,
+            "days_off": days_off,
             "crew_rest_days": windows.weekdays_text(windows.EVERY_DAY - crew)}
 
 

@@ -300,6 +300,14 @@ def recoat_plan_create(request, pk):
     if not form.is_valid():  # sent from an earlier day's page, or not from the planner: nothing is stored
         messages.error(request, f"No plan made: {_form_problems(form)} Find the windows again.")
         return redirect("mirror-recoat", pk=mirror.pk)
+    # The page's phases as it showed them (a field each): the mirror came out, or was coated, since it was shown, and
+    # the plan would be made for other work than the windows listed (a diff review: two orders made, unsaid).
+    shown = {name for name in request.POST if name.startswith("phase_")}  # none sent: the phases' usual days
+    if shown and shown != {f"phase_{i}" for i, _ in form.offered}:
+        messages.error(request, "No plan made: the recoat's phases have changed since the page was shown ("
+                                f"{services.recoat_phases_left(mirror).text or 'the mirror is back in its telescope'}) "
+                                "Find the windows again.")
+        return redirect("mirror-recoat", pk=mirror.pk)
     phases = form.phases()
     try:
         found = services.recoat_windows(

@@ -1129,8 +1129,11 @@ def recoat_downtime(plan, today: dt.date) -> Downtime:
     length = phase_lengths(plan)
     zone = plan.mirror.subsystem.telescope.site.zone
     removal = plan.removal()
-    # Going on from an earlier recoat's removal, the telescope has been out since that removal began.
-    begun_on = [o.started_at.astimezone(zone).date() for o in orders + [plan.continues_from] if o and o.started_at]
+    begun_on = [o.started_at.astimezone(zone).date() for o in orders if o.started_at]
+    if plan.continues_from is not None:  # going on from an earlier recoat's removal: out since its work was done
+        from observatory_ops.workorders.selectors import recoat_began_on  # work orders build on planning
+
+        begun_on.append(recoat_began_on(plan))
     dated = [o.planned_date for o in orders if o.planned_date] + begun_on
     first = min(dated) if dated else plan.starts_on
     ends = [o.planned_date + length.get(o.recoat_phase, dt.timedelta(0)) for o in to_do if o.planned_date]

@@ -42,7 +42,7 @@ def due_list(request):
     on_orders = orders_for_plans(r.plan_id for r in rows)
     for record in rows:
         record.on_orders = on_orders.get(record.plan_id, [])
-    out = telescopes_out([chosen] if chosen else None).values()
+    out = telescopes_out([chosen] if chosen else None)
     # What the list is filtered by, in the title and the count above it: a screen reader hears a filtered list's
     # page as it heard the whole one otherwise (an accessibility review).
     chosen_values = getattr(filtered.form, "cleaned_data", {})  # validated when the rows were filtered

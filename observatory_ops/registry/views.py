@@ -78,7 +78,7 @@ def site_dashboard(request, slug):
             "log_behind": planning_selectors.nights_unlogged_said(site, last_nights, today),
             "recent_service": planning_selectors.recent_service(site)[:8],
             "parts_to_see_to": workorder_selectors.parts_low_or_short(site),
-            "telescopes_out": workorder_selectors.telescopes_out([site]).values(),
+            "telescopes_out": workorder_selectors.telescopes_out([site]),
             "downtime": downtime,
             "recoats_to_plan": mirror_services.recoats_to_plan(site, today),
             "closures": closures,

@@ -288,7 +288,7 @@ ISOLATION_POINTS_MISSING_HELD = (
 #: out of balance, axes pinned, drives on the site's long-term locks (the removal order's own release step). Work on
 #: it meanwhile is usual, but no step of it may move an axis or take those locks off (common practice, no published
 #: source; the site's lockout procedure, OSHA 29 CFR 1910.147(f)(4), and the mount maker's instructions come first).
-TELESCOPE_OUT_TITLE = "{telescope} is out of service: its primary mirror is out"
+TELESCOPE_OUT_TITLE = "{telescope} is out of service: its {kind} is out"
 TELESCOPE_OUT = (
     "{mirror} was removed on {removed_on} ({removal}), and {reinstall}. Until then the telescope is out of "
     "balance, with both axes pinned and its drives on the site's long-term locks."

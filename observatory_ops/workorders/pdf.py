@@ -54,6 +54,7 @@ from reportlab.platypus import (
     TableStyle,
 )
 
+from observatory_ops.registry.catalogue import is_hand_back, is_release_step
 from observatory_ops.workorders.cautions import (
     NO_ISOLATION_NEEDED,
     PARTS_UNREGISTERED,
@@ -597,9 +598,9 @@ def _isolation(sheet: Sheet) -> list[Flowable]:
                                "or pressurised equipment.")]
     first: list[Flowable] = []
     if at and at > 1:
-        before = "Step 1 is" if at == 2 else f"Steps 1 to {at - 1} are"
-        first = [_note(f"{before} done under power first; once a lock is on, no step under power that may move the "
-                       "telescope is done.")]
+        before = "step 1" if at == 2 else f"steps 1 to {at - 1}"
+        first = [_note(f"Do {before} first, under power; once a lock is on, do no step under power that may move the "
+                       "telescope.")]
     ticks = sheet.point_ticks or (None,) * len(sheet.isolation_points)
     lines = [
         _warning(point.removeprefix(WARNING_PREFIX)) if point.startswith(WARNING_PREFIX)
@@ -670,11 +671,14 @@ class _SetTopFlowables(SetTopFlowables):
     _ZEROSIZE = True
 
 
-def _checklist_line(text: str, tick: SheetTick | None, number: str = "") -> _Ticked:
+def _checklist_line(text: str, tick: SheetTick | None, number: str = "", to_sign: bool = False) -> _Ticked:
     """A step or an isolation point with its tick box: ticked as on the work order page, with the page's note of
     who ticked it (or took the tick back) and when under it. The lockout step is printed in bold after "Lockout:", as
-    the page marks it, so it does not read as one step among the others."""
+    the page marks it, so it does not read as one step among the others. ``to_sign``: a line to write who did it
+    and when under it (``SIGNED_STEP_LINE``, ``HAND_BACK_LINE``), on work still to do."""
     note = f"<br/><font size=8>{_text(tick.note)}</font>" if tick is not None and tick.note else ""
+    if to_sign:
+        note += f"<br/><font size=9>{_text(HAND_BACK_LINE if is_hand_back(text) else SIGNED_STEP_LINE)}</font>"
     words = f"<b>Lockout: {_text(text)}</b>" if number and is_lockout_step(text) else _text(text)
     return _Ticked(_Paragraph(words + note, _ITEM), number, ticked=tick is not None and tick.ticked)
 
@@ -714,9 +718,20 @@ def _steps(sheet: Sheet) -> list[Flowable]:
     if not sheet.steps:
         return [*story, _note("No steps listed.")]
     ticks = sheet.step_ticks or (None,) * len(sheet.steps)
-    lines = [_checklist_line(step, tick, f"{number}.")
+    lines = [_checklist_line(step, tick, f"{number}.", to_sign=not sheet.performed_by and _signed_step(step))
              for number, (step, tick) in enumerate(zip(sheet.steps, ticks, strict=True), start=1)]
     return [*story[:-1], *_continued(story[-1], "Steps (continued)", lines)]
+
+
+#: Written under the steps whose who and when the record must hold when the work is entered from paper: the lockout,
+#: the removal of the locks and the hand-back (a paper review: the ticks entered later carry the time of entry).
+SIGNED_STEP_LINE = "Initials ____________   Date ____________   Time ____________"
+HAND_BACK_LINE = ("Handed back by ____________   Date ____________   Time ____________   "
+                  "Remote observers told: yes / no")
+
+
+def _signed_step(step: str) -> bool:
+    return is_lockout_step(step) or is_release_step(step) or is_hand_back(step)
 
 
 def _parts_and_tools(sheet: Sheet, width: float) -> list[Flowable]:

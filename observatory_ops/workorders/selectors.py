@@ -149,34 +149,38 @@ def orders_for_plans(plan_ids) -> dict[int, list[WorkOrder]]:
 
 @dataclass(frozen=True)
 class TelescopeOut:
-    """A telescope whose primary mirror a recoat removed: the finished ``removal`` order, and the ``reinstall``
-    order still to do (None when none is planned)."""
+    """A telescope whose mirror (``mirror``, its name; ``kind``, its kind in words) a recoat removed: the finished
+    ``removal`` order, and the ``reinstall`` order still to do (None when none is planned)."""
 
     telescope_id: int
     telescope: str
     mirror: str
+    kind: str
     removal: WorkOrder
     reinstall: WorkOrder | None
-    subsystem_id: int
 
     def notice(self) -> tuple[str, str, str]:
-        """Title, what stands, what not to do: for the pages and the paper of other work at this telescope."""
-        removed_on = dateformat.format(self.removal.finished_at.astimezone(self.removal.site.zone), "d M Y")
+        """Title, what stands, what not to do: for the pages and the paper of other work at this telescope. The day
+        it came out is the day the removal's work was done (``work_done_on``: entered from paper, it is not the
+        day it was entered)."""
+        zone = self.removal.site.zone
+        done = work_done_on(self.removal) or timezone.localtime(self.removal.finished_at, zone).date()
         if self.reinstall is None:
             reinstall = "no reinstall order is planned yet: the site engineer plans one"
         else:
             day = self.reinstall.planned_date
             planned = dateformat.format(day, "d M Y") if day else "a day not set"
             reinstall = f"it goes back with {self.reinstall.number}, planned for {planned}"
-        body = TELESCOPE_OUT.format(mirror=self.mirror, removed_on=removed_on, removal=self.removal.number,
-                                    reinstall=reinstall)
-        return TELESCOPE_OUT_TITLE.format(telescope=self.telescope), body, TELESCOPE_OUT_TODO
+        body = TELESCOPE_OUT.format(mirror=self.mirror, removed_on=dateformat.format(done, "d M Y"),
+                                    removal=self.removal.number, reinstall=reinstall)
+        return TELESCOPE_OUT_TITLE.format(telescope=self.telescope, kind=self.kind), body, TELESCOPE_OUT_TODO
 
 
-def telescopes_out(sites: Sequence[Site] | None = None) -> dict[int, TelescopeOut]:
-    """Telescope id -> :class:`TelescopeOut`, for each telescope (at ``sites``, or anywhere) whose mirror a recoat
-    removed and no reinstall has put back since: for each mirror, its newest finished removal or reinstall
-    order decides. Three queries at most, whatever the number of orders."""
+def telescopes_out(sites: Sequence[Site] | None = None) -> list[TelescopeOut]:
+    """Each mirror (at ``sites``, or anywhere) that a recoat removed and no reinstall has put back since, its
+    telescope's first: for each mirror, its newest finished removal or reinstall order decides. One entry a mirror:
+    a telescope with two out has two (a diff review: one kept a telescope's entry, and a secondary's removal hid the
+    primary's). Three queries at most, whatever the number of orders."""
     finished = WorkOrder.objects.filter(
         recoat_phase__in=("removal", "reinstall"), state__in=(State.FINISHED, State.COUNTERSIGNED)
     )
@@ -190,19 +194,19 @@ def telescopes_out(sites: Sequence[Site] | None = None) -> dict[int, TelescopeOu
             newest[item.subsystem_id] = (order, item.subsystem)
     removed = {pk: pair for pk, pair in newest.items() if pair[0].recoat_phase == "removal"}
     if not removed:
-        return {}
+        return []
     to_do: dict[int, WorkOrder] = {}
     pending = WorkOrderItem.objects.filter(
         subsystem_id__in=list(removed), work_order__recoat_phase="reinstall", work_order__state__in=TO_DO
     ).select_related("work_order").order_by(F("work_order__planned_date").asc(nulls_last=True))
     for item in pending:
         to_do.setdefault(item.subsystem_id, item.work_order)
-    return {
-        subsystem.telescope_id: TelescopeOut(
-            subsystem.telescope_id, subsystem.telescope.name, subsystem.name, order, to_do.get(pk), pk
-        )
+    out = [
+        TelescopeOut(subsystem.telescope_id, subsystem.telescope.name, subsystem.name, subsystem.kind_label.lower(),
+                     order, to_do.get(pk))
         for pk, (order, subsystem) in removed.items()
-    }
+    ]
+    return sorted(out, key=lambda o: (name_key(o.telescope), o.removal.finished_at))
 
 
 #: The recoat phases whose orders are written for a telescope without its mirror (the reinstall puts it back): they
@@ -225,8 +229,8 @@ def telescope_out_notices(order: WorkOrder) -> list[tuple[str, str, str]]:
     at = {order.telescope_id} if order.telescope_id else set(
         order.items.values_list("subsystem__telescope_id", flat=True)
     )
-    # Not the removal that took it out (its finish reads it as finished, once claimed).
-    return [out[pk].notice() for pk in sorted(at) if pk in out and out[pk].removal.pk != order.pk]
+    # Not the removal that took its own mirror out (its finish reads it as finished, once claimed).
+    return [o.notice() for o in out if o.telescope_id in at and o.removal.pk != order.pk]
 
 
 def recoat_planned_notices(order: WorkOrder) -> list[tuple[str, str, str]]:
@@ -271,15 +275,22 @@ def recoat_planned_notices(order: WorkOrder) -> list[tuple[str, str, str]]:
     return said
 
 
-def mirror_out_on(order: WorkOrder, day: dt.date) -> str:
+class MirrorOutThen(NamedTuple):
+    """A mirror out on a past day (``mirror_out_on``): what stood, in words, and whether it is back since."""
+
+    text: str
+    back: bool
+
+
+def mirror_out_on(order: WorkOrder, day: dt.date) -> MirrorOutThen | None:
     """For work of ``order`` done on a past ``day`` (entered from paper), how a telescope it works on stood that day
-    with its mirror out, in words ("" when every mirror was in, or for the recoat's own orders written for a
-    telescope without it, ``_WRITTEN_FOR_MIRROR_OUT``): a removal's work done on or before that day and no reinstall's
-    done by then (one done that day puts it back), by the days their work was done (``work_done_on_of``). A walk-through
-    entered work dated while the mirror was out once it was back, its slews confirmed done, and had work done before
-    the removal held until the reinstall (``telescope_out_notices`` tells today's state). Two queries."""
+    with its mirror out (None when every mirror was in, or for the recoat's own orders written for a telescope without
+    it, ``_WRITTEN_FOR_MIRROR_OUT``): a removal's work done on or before that day and no reinstall's done by then (one
+    done that day puts it back), by the days their work was done (``work_done_on_of``). A walk-through entered work
+    dated while the mirror was out once it was back, its slews confirmed done, and had work done before the removal
+    held until the reinstall (``telescope_out_notices`` tells today's state). Two queries."""
     if order.recoat_phase in _WRITTEN_FOR_MIRROR_OUT:
-        return ""
+        return None
     at = {order.telescope_id} if order.telescope_id else set(
         order.items.values_list("subsystem__telescope_id", flat=True))
     items = (WorkOrderItem.objects.filter(
@@ -300,10 +311,13 @@ def mirror_out_on(order: WorkOrder, day: dt.date) -> str:
         back = next((i for i in found if i.done_on > day and i.work_order.recoat_phase == "reinstall"), None)
         returned = (f"{back.work_order.number} put it back on {back.done_on:%d %b %Y}" if back is not None
                     else "it is not back yet")
-        return (f"on {day:%d %b %Y} {removal.subsystem.name} of {removal.subsystem.telescope.name} was out "
-                f"({removal.work_order.number} took it out on {removal.done_on:%d %b %Y}; {returned}): the telescope "
-                "was out of balance, its axes pinned and its drives on the site's long-term locks")
-    return ""
+        return MirrorOutThen(
+            f"on {day:%d %b %Y}, the day the work was done, the {removal.subsystem.name} of "
+            f"{removal.subsystem.telescope.name} was out ({removal.work_order.number} took it out on "
+            f"{removal.done_on:%d %b %Y}; {returned}): the telescope was out of balance, its axes pinned and its "
+            "drives on the site's long-term locks",
+            back is not None and not any(i.work_order.recoat_phase == "removal" for i in found if i.done_on > day))
+    return None
 
 
 #: The recoat phases whose work takes more than a day and may pause over the crew's days off with the mirror off its
@@ -311,7 +325,7 @@ def mirror_out_on(order: WorkOrder, day: dt.date) -> str:
 _MAY_PAUSE_PART_WAY = ("removal", "reinstall")
 
 
-def recoat_hands_back(order: WorkOrder) -> WorkOrder | None:
+def recoat_hands_back(order: WorkOrder, day: dt.date | None = None) -> WorkOrder | None:
     """The realignment still to do of a recoat whose mirror has come out (its removal finished, or the earlier
     recoat's it goes on from: ``RecoatPlan.removal``), on a telescope
     ``order`` works on (any of the site's, where they share one enclosure), ``order`` not being it: the telescope
@@ -319,7 +333,9 @@ def recoat_hands_back(order: WorkOrder) -> WorkOrder | None:
     (``catalogue.HAND_BACK_AFTER_REALIGNMENT``), and the reinstall's last step says to keep it out until then.
     Another order's hand-back waits for it (``_telescope_out_refusal``) and is left to it at the finish
     (``left_to_the_last_crew``): a recoat review handed the telescope back from another order between the reinstall
-    and the realignment. None when there is none."""
+    and the realignment. None when there is none. ``day``: the day ``order``'s work was done, when not today (entered
+    from paper): work done before the mirror came out handed the telescope back then (a diff review left a hand-back
+    dated before the removal to the realignment)."""
     if order.recoat_phase == "realignment":
         return None
     realignments = WorkOrder.objects.filter(
@@ -332,8 +348,11 @@ def recoat_hands_back(order: WorkOrder) -> WorkOrder | None:
     for realignment in realignments:
         plan = realignment.recoat_plans.order_by("-pk").first()
         removal = plan.removal() if plan is not None else None
-        if removal is not None and removal.state in (State.FINISHED, State.COUNTERSIGNED):
-            return realignment
+        if removal is None or removal.state not in (State.FINISHED, State.COUNTERSIGNED):
+            continue
+        if day is not None and day < (work_done_on(removal) or day):
+            continue
+        return realignment
     return None
 
 
@@ -1350,10 +1369,9 @@ def recoat_phase(order: WorkOrder) -> RecoatPhase | None:
     if not order.recoat_phase:
         return None
     mirror_id, _, after = _recoat_neighbours(order)
-    out = telescopes_out([order.site]).get(order.telescope_id) if order.recoat_phase == "removal" else None
-    return RecoatPhase(
-        order.recoat_phase, after, mirror_id, out if out is not None and out.removal.pk == order.pk else None
-    )
+    out = [o for o in telescopes_out([order.site]) if o.removal.pk == order.pk] if order.recoat_phase == "removal" \
+        else []
+    return RecoatPhase(order.recoat_phase, after, mirror_id, out[0] if out else None)
 
 
 #: How an earlier phase order that holds up the next one stands.

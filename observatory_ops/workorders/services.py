@@ -1291,12 +1291,16 @@ def finish_waits(order: WorkOrder, unticked: Sequence, day: dt.date | None = Non
     if left:  # a hand-back left to others holds nothing here
         after = [line for line in after if not is_hand_back(line.text)]
     if after and day is not None and day < site_today(order.site):  # entered from paper: as the mirror stood then
-        if out_then := mirror_out_on(order, day):
+        if (then := mirror_out_on(order, day)) is not None:
+            # Not done that day: they are done and ticked once the mirror is back, and the order finished with the
+            # day the rest of its work was done (a diff review: "check the day" steered to dating it today).
+            todo = ("Do them now that it is back and tick them on this page" if then.back
+                    else "Do them once the reinstall is finished and tick them on this page")
             return (
                 "steps that wait while the telescope's mirror is out are not ticked ("
                 + "; ".join(line.label.lower() for line in after)
-                + f") and would be recorded as done {out_then}. Check the day the work was done; steps that could not "
-                "be done then wait for an order after the reinstall"
+                + f"), and {then.text}: they were not done then. {todo}, then finish with the day the rest of the "
+                "work was done"
             )
     elif after and (mirror_out := telescope_out_notices(order)):
         return (
@@ -1318,7 +1322,7 @@ def left_to_the_last_crew(order: WorkOrder, unticked: Sequence, day: dt.date | N
     if not hand_back:
         return [], []
     working = [a for a in still_working(order, day) if a.hands_back]
-    if (realignment := recoat_hands_back(order)) is not None:  # it hands back last, whoever else is at work
+    if (realignment := recoat_hands_back(order, day)) is not None:  # it hands back last, whoever else is at work
         working.append(Alongside(realignment, [], None, hands_back=True))
     return (hand_back, working) if working else ([], [])
 
