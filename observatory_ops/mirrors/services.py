@@ -1572,7 +1572,8 @@ def _reflectance_reason(state: MirrorForecast) -> str:
         return f"No recoat line yet ({state.fit_note})"
     line = f"the recoat line {reflectance_text(state.threshold)}"
     if state.current is not None and state.current <= state.threshold:
-        return f"Reflectance estimated at {reflectance_text(state.current)}, already at or below {line}"
+        return (f"Reflectance estimated at {reflectance_text(state.current)}, already at or below {line}"
+                f"{_fit_trace(state)}")
     if state.fit is None:
         return f"Recoat line {reflectance_text(state.threshold)}, no crossing forecast ({state.fit_note})"
     if state.crossing is None:
@@ -1583,7 +1584,28 @@ def _reflectance_reason(state: MirrorForecast) -> str:
         band = f"between {early:%d %b %Y} and beyond three years"
     else:
         band = f"between {band_start(early, late)} and {late:%d %b %Y}"
-    return f"Reflectance forecast to reach {line} on {state.crossing:%d %b %Y} ({band})"
+    return f"Reflectance forecast to reach {line} on {state.crossing:%d %b %Y} ({band}){_fit_trace(state)}"
+
+
+def _fit_trace(state: MirrorForecast) -> str:
+    """Where the reason's figures come from, for the order's paper (it keeps them as computed when it was made): the
+    decline fit over its measurements as the mirror page gives it, the line's basis, and the exposure a day the
+    forecast expects (a
+    paper review: a recoat order said only "forecast to reach the recoat line 0.8285 on 22 Jan 2027"). "" without a
+    fit."""
+    if state.fit is None:
+        return ""
+    fit, cleaning = state.fit, state.cleaning_counted
+    # As the mirror page writes it (its estimate's inputs): with a cleaning counted, the share f of the loss it won
+    # back at its exposure c.
+    model, recovered = ("R0 - b x (E - f x c)", f", f {fit.recovery_fraction:.2f} at the cleaning of "
+                        f"{cleaning[0]:%d %b %Y}, c {cleaning[1]:,.0f} h") if cleaning else ("R0 - b x E", "")
+    trace = (f" [decline fit R = {model} over {fit.n_points} measurements: R0 {reflectance_text(fit.r0)}, "
+             f"b {fit.rate_per_hour * 1000:.4f} per 1,000 dust-weighted open hours, E "
+             f"{state.exposure_now_h:,.0f} h now{recovered}; the line {state.threshold_basis}")
+    if state.dust_hours_per_day:
+        trace += f"; about {state.dust_hours_per_day:.1f} dust-weighted open hours a day expected"
+    return trace + "]"
 
 
 def recoat_reason(state: MirrorForecast, starts_on: dt.date, ends_on: dt.date, due=None) -> str:
