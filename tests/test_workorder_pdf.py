@@ -381,7 +381,7 @@ def test_work_still_to_do_under_a_lockout_prints_a_line_for_each_persons_lock():
     heading = text.index(flat(PERSONAL_LOCKS_HEADING))
     assert text.index("Compressed air valve V1 at the receiver") < heading < text.index(flat(STEPS[0]))
     assert flat(PERSONAL_LOCKS_NOTE) in text
-    assert "Name Lock or tag number On (time) Off (time) Initials off" in text
+    assert "Name Lock or tag number On (date, time) Initials on Off (date, time) Initials off" in text
     for finished_or_free in (make_sheet(performed_by="Rosa Delacroix", performed_on=dt.date(2026, 7, 1)),
                              make_sheet(isolation_needed=False, isolation_points=())):
         assert flat(PERSONAL_LOCKS_HEADING) not in body_text(render_sheet(finished_or_free))

@@ -615,8 +615,10 @@ def _isolation(sheet: Sheet) -> list[Flowable]:
 PERSONAL_LOCK_LINES = CREW_LINES + 2
 PERSONAL_LOCKS_HEADING = "Personal locks \N{EN DASH} a line for each person working under the lockout"
 PERSONAL_LOCKS_NOTE = (
-    "Each person puts a lock of their own on every isolation point above and writes its number here; each removes "
-    "only their own lock, and writes when. The lockout is off only when every line has its time off."
+    "Each person puts a lock of their own on every isolation point above and writes its number here, with the day "
+    "and time, and initials; each removes only their own lock, and writes when. The lockout is off only when every "
+    "line has its time off. Keep this paper with the order's record: the system keeps one tick a point, not each "
+    "person's lock."
 )
 
 
@@ -624,11 +626,13 @@ def _personal_locks(sheet: Sheet, width: float) -> list[Flowable]:
     """For work still to do whose energy is isolated at points: a table to write who has a lock on, its number, and
     when it went on and came off. A group lockout protects each person only with a lock of their own on every point
     (OSHA 29 CFR 1910.147(f)(3)); the page records one tick per point, so the paper keeps the person-by-person
-    record (a tablet review found no place for it). Not printed once the work is finished: the record holds it."""
+    record (a tablet review found no place for it): each lock's day and time on and off (a recoat's removal runs over
+    days) and the initials of the person at each. Not printed once the work is finished: the system keeps one tick a
+    point, so the site keeps the filled-in paper with the order's record (the table's note says so)."""
     if not (sheet.isolation_needed and sheet.isolation_points) or sheet.performed_by:
         return []
-    columns = ("Name", "Lock or tag number", "On (time)", "Off (time)", "Initials off")
-    share = (0.34, 0.22, 0.14, 0.14, 0.16)
+    columns = ("Name", "Lock or tag number", "On (date, time)", "Initials on", "Off (date, time)", "Initials off")
+    share = (0.26, 0.17, 0.17, 0.11, 0.17, 0.12)
     table = Table(
         [list(columns), *([""] * len(columns) for _ in range(PERSONAL_LOCK_LINES))],
         colWidths=[width * part for part in share],
