@@ -486,7 +486,7 @@ def _printed_at(moment: datetime | None) -> str | Paragraph:
     printed, zone = _time_and_zone(moment)
     if not zone:
         return printed
-    return _Paragraph(f"{_text(printed)}<br/><font size=7 color='#595959'>All times: {_text(zone)}</font>", _BODY)
+    return _Paragraph(f"{_text(printed)}<br/><font size=9>All times: {_text(zone)}</font>", _BODY)
 
 
 def _printed_line(moment: datetime) -> str:
