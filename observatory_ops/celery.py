@@ -12,6 +12,7 @@ the same result as running it once.
 """
 from __future__ import annotations
 
+import logging
 import os
 
 from celery import Celery, Task, chain
@@ -31,6 +32,10 @@ def _freeze_after_start(**_kwargs) -> None:
 
     freeze_loaded_objects()
 
+
+log = logging.getLogger(__name__)
+
+
 class ServiceTask(Task):
     """Base of every observatory_ops task: late acknowledgement and retries on database trouble.
 
@@ -49,12 +54,34 @@ class ServiceTask(Task):
     acks_late = True
     reject_on_worker_lost = True
 
+    def on_failure(self, exc, task_id, args, kwargs, einfo):
+        """Name the site a failed task was for (its first argument, a site id, in every site task), so an operator of
+        many sites can act on the log line (an operator review read only "Site matching query does not exist")."""
+        log.error("task %s[%s] for %s failed: %r", self.name, task_id, _site_said(args), exc)
+
+    def on_retry(self, exc, task_id, args, kwargs, einfo):
+        log.warning("task %s[%s] for %s will be retried: %r", self.name, task_id, _site_said(args), exc)
+
     def retry(self, *args, exc=None, **kwargs):
         # Inline (no broker), Celery would hand the caller a Retry exception instead of the error; the
         # caller (a page, a command) gets the error itself at once and does not wait out a back-off.
         if exc is not None and self.request.is_eager and self.app.conf.task_eager_propagates:
             raise exc
         return super().retry(*args, exc=exc, **kwargs)
+
+
+def _site_said(args) -> str:
+    """The site a task's arguments name, as a log line says it: "site 3 (vestal-ridge)", "site 999 (none such)", or
+    "no site" for a task without one."""
+    if not args or not isinstance(args[0], int):
+        return "no site"
+    from observatory_ops.registry.models import Site
+
+    try:
+        slug = Site.objects.filter(pk=args[0]).values_list("slug", flat=True).first()
+    except Exception:  # the database itself may be what failed
+        slug = None
+    return f"site {args[0]} ({slug or 'none such'})"
 
 
 def each_site(*task_names: str, sites=None) -> int:

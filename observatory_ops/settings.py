@@ -159,6 +159,9 @@ DATABASES = {
     "default": dj_database_url.parse(
         os.environ.get("DATABASE_URL", f"sqlite:///{DATA_DIR / 'observatory_ops.sqlite3'}"),
         conn_max_age=60,
+        # A connection kept across requests is checked before use: after a database restart the next request of each
+        # web worker failed with a 500 (an operator review).
+        conn_health_checks=True,
     )
 }
 if DATABASES["default"]["ENGINE"] == "django.db.backends.sqlite3":
@@ -263,8 +266,11 @@ CELERY_TASK_SOFT_TIME_LIMIT = 300
 CELERY_TASK_TIME_LIMIT = 360
 CELERY_TIMEZONE = "UTC"
 CELERY_BEAT_SCHEDULE_FILENAME = str(DATA_DIR / "celerybeat-schedule")  # when each entry last ran
-#: The local hour (each site's own time zone) from which the day's due digest goes out.
-SITE_DIGEST_HOUR = 6
+#: The local hour (each site's own time zone) from which the day's due digest goes out: set in the environment, so an
+#: upgrade's ``git pull`` keeps it (an operator review had to edit this file).
+SITE_DIGEST_HOUR = _env_count("OBSOPS_DIGEST_HOUR", 6)
+if SITE_DIGEST_HOUR > 23:
+    raise RuntimeError(f"OBSOPS_DIGEST_HOUR must be an hour of the day, 0 to 23, not {SITE_DIGEST_HOUR}.")
 CELERY_BEAT_SCHEDULE = {
     # Each ingest recomputes its own site at once. This, every hour, takes each site whose states were
     # computed before its today (so within the hour after its local midnight, and after any pause of the

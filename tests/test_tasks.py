@@ -13,6 +13,7 @@ import sys
 import pytest
 from conftest import mains_isolator, site_in_use
 from django.core import mail
+from django.core.management import CommandError, call_command
 from django.db import OperationalError
 from django.utils.timezone import now as timezone_now
 
@@ -493,6 +494,63 @@ def test_a_digest_that_fails_part_way_is_taken_up_by_mailing_only_the_others(mai
     site.refresh_from_db()
     assert site.digest_sent_on == today and not DigestSent.objects.filter(site=site).exists()
     assert planning_tasks.due_digest_send.delay(site.pk).get() == 0 and len(mail.outbox) == 3
+
+
+def test_an_address_refused_for_good_does_not_stop_the_others(mailed_people, monkeypatch, caplog):
+    """An operator review: one engineer's old address, refused "550 User unknown", stopped the site's digest every
+    hour, nobody mailed. A permanent refusal (a 5xx reply: RFC 5321, section 4.2.1) is logged with the site and the
+    address and the others are mailed; a temporary one (4xx) still stops the run for the retry."""
+    import smtplib
+
+    from django.core.mail.backends.locmem import EmailBackend
+
+    site = site_in_use("refused")
+    planning.site_recompute(site)
+    send_messages = EmailBackend.send_messages
+    code = 550
+
+    def unknown_administrator(self, messages):
+        for message in messages:
+            if message.to == ["administrator@vestal-ridge.invalid"]:
+                raise smtplib.SMTPRecipientsRefused({message.to[0]: (code, b"5.1.1 User unknown")})
+        return send_messages(self, messages)
+
+    monkeypatch.setattr(EmailBackend, "send_messages", unknown_administrator)
+    code = 450  # for now: try again later
+    with pytest.raises(smtplib.SMTPRecipientsRefused):
+        digest.due_digest_send(site)
+    assert mail.outbox == []
+    code = 550
+    with caplog.at_level("WARNING", logger="observatory_ops.planning.digest"):
+        assert digest.due_digest_send(site) == 1
+    assert [m.to for m in mail.outbox] == [["engineer@vestal-ridge.invalid"]]
+    assert "due digest of refused not delivered to administrator@vestal-ridge.invalid" in caplog.text
+    site.refresh_from_db()
+    assert site.digest_sent_on == planning.site_today(site)  # not tried again every hour
+    assert digest.due_digest_send(site) == 0
+
+
+def test_the_digest_command_says_a_mail_server_failure_and_goes_on_to_the_next_site(mailed_people, monkeypatch):
+    import smtplib
+
+    from django.core.mail.backends.locmem import EmailBackend
+
+    first, second = site_in_use("a-first"), site_in_use("b-second")
+    for site in (first, second):
+        planning.site_recompute(site)
+    send_messages = EmailBackend.send_messages
+
+    def first_site_fails(self, messages):
+        if any(first.name in m.subject for m in messages):
+            raise smtplib.SMTPServerDisconnected("connection unexpectedly closed")
+        return send_messages(self, messages)
+
+    monkeypatch.setattr(EmailBackend, "send_messages", first_site_fails)
+    out, err = io.StringIO(), io.StringIO()
+    with pytest.raises(CommandError, match="was not sent"):
+        call_command("digest", stdout=out, stderr=err)
+    assert "not sent, the mail server failed: connection unexpectedly closed" in err.getvalue()
+    assert f"{second.name}: " in out.getvalue() and len(mail.outbox) == 2  # the second site's two people
 
 
 @pytest.fixture

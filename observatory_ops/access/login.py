@@ -110,14 +110,17 @@ class LimitedLoginView(LoginView):
             return super().post(request, *args, **kwargs)
         wait = f"Wait {WINDOW_S // 60} minutes"
         if counts.get(pair_key, 0) >= MAX_FAILURES:
-            return self._refused(f"Too many failed sign-ins for this user from this address. {wait}, or ask an "
-                                 "administrator to reset the password.")
+            return self._refused(f"Too many failed sign-ins for this user from this address. {wait} and try "
+                                 "again; if the password is forgotten, an administrator sets a new one meanwhile, "
+                                 "to use once the wait is over.")
         if counts.get(address_key, 0) >= MAX_ADDRESS_FAILURES:
             return self._refused(f"Too many failed sign-ins from this address, under any user name. {wait}.")
         return super().post(request, *args, **kwargs)
 
     def _refused(self, message: str):
-        log.warning("sign-in refused from %s: %s", client_address(self.request), message)
+        # The user name tried, so an operator can tell a forgotten password from guessing (an operator review).
+        log.warning("sign-in refused for %r from %s: %s", self.request.POST.get("username", "")[:150],
+                    client_address(self.request), message)
         form = self.get_form()
         form.errors.clear()
         form.add_error(None, message)

@@ -7,6 +7,7 @@ from __future__ import annotations
 
 import datetime as dt
 import logging
+import smtplib
 
 from django.conf import settings
 from django.core.mail import EmailMessage, get_connection
@@ -81,8 +82,10 @@ def due_digest_send(site: Site, today: dt.date | None = None) -> int:
     was accepted, never before, and the day is recorded on the site (``Site.digest_sent_on``) once all were, in the
     same transaction. So a second process waits and then finds the day sent. A send that fails or times out
     (``EMAIL_TIMEOUT``) part-way commits the people mailed so far and then raises, leaving the day unsent: the task's
-    retry, or the next hourly run, mails only the others. A process killed part-way (the hard time limit) loses its
-    transaction, so those it mailed get that day's digest twice, rather than anyone none.
+    retry, or the next hourly run, mails only the others. An address the server refuses for good
+    (``refused_for_good``) is logged, counted as done for the day, and the others are mailed. A process killed
+    part-way (the hard time limit) loses its transaction, so those it mailed get that day's digest twice, rather
+    than anyone none.
     """
     today = today or site_today(site)
     if Site.objects.filter(pk=site.pk, digest_sent_on=today).exists():
@@ -109,6 +112,17 @@ def due_digest_send(site: Site, today: dt.date | None = None) -> int:
             for address in (address for address in to if address not in mailed):
                 try:
                     mail.send_messages([EmailMessage(message.subject, message.body, to=[address])])
+                except smtplib.SMTPRecipientsRefused as exc:
+                    if not refused_for_good(exc):
+                        failure = exc
+                        break
+                    # Refused for good (5xx, "user unknown"): the others still get theirs, and this address is not
+                    # tried again today (an operator review: one old address stopped the site's digest every hour).
+                    log.warning("due digest of %s not delivered to %s: the mail server refused it for good (%s)",
+                                site.slug, address, "; ".join(f"{code} {text!r}" for code, text in
+                                                              exc.recipients.values()))
+                    DigestSent.objects.create(site=site, day=today, address=address)
+                    continue
                 except Exception as exc:  # raised below, once the people mailed so far are committed
                     failure = exc
                     break
@@ -120,5 +134,12 @@ def due_digest_send(site: Site, today: dt.date | None = None) -> int:
     finally:
         mail.close()
     if failure is not None:
+        log.warning("due digest of %s stopped after %d address(es): %r", site.slug, sent, failure)
         raise failure
     return sent
+
+
+def refused_for_good(exc: smtplib.SMTPRecipientsRefused) -> bool:
+    """True when the mail server refused every recipient of a message permanently (a 5xx reply, RFC 5321 section
+    4.2.1: "permanent negative completion"), so sending again cannot help; a 4xx reply is worth a retry."""
+    return bool(exc.recipients) and all(500 <= code < 600 for code, _ in exc.recipients.values())

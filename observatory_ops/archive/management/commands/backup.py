@@ -3,6 +3,7 @@ from pathlib import Path
 from django.core.management.base import BaseCommand, CommandError
 
 from observatory_ops.archive.backup import BackupError, backup_write
+from observatory_ops.command_files import unreachable
 
 
 class Command(BaseCommand):
@@ -13,8 +14,11 @@ class Command(BaseCommand):
 
     def handle(self, *args, file, **options):
         path = Path(file)
-        if path.exists():
-            raise CommandError(f"{file} already exists; choose a new name (a backup never overwrites)")
+        try:
+            if path.exists():
+                raise CommandError(f"{file} already exists; choose a new name (a backup never overwrites)")
+        except PermissionError:
+            raise unreachable(file) from None
         try:
             counts = backup_write(path)
         except BackupError as exc:

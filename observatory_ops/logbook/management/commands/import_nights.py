@@ -4,6 +4,7 @@ from django.conf import settings
 from django.core.management.base import BaseCommand, CommandError
 from django.template.defaultfilters import pluralize
 
+from observatory_ops.command_files import unreachable
 from observatory_ops.logbook import services
 from observatory_ops.registry.models import Site
 
@@ -28,7 +29,7 @@ class Command(BaseCommand):
     help = "Import nightly usage from a CSV file (format in README.md). All or nothing unless --skip-bad."
 
     def add_arguments(self, parser):
-        parser.add_argument("file")
+        parser.add_argument("file", help="the CSV file of nights (header: night,open_hours,...; see README.md)")
         parser.add_argument("--site", required=True, help="site slug")
         parser.add_argument("--skip-bad", action="store_true", help="store the good rows and list the bad ones")
 
@@ -38,10 +39,12 @@ class Command(BaseCommand):
             known = ", ".join(Site.objects.values_list("slug", flat=True)) or "none"
             raise CommandError(f"no site with slug {site!r} (known: {known})")
         path = Path(file)
-        if not path.is_file():
-            raise CommandError(f"{file}: {_not_a_file(path)}")
-
-        size, limit = path.stat().st_size, settings.NIGHTS_UPLOAD_MAX_BYTES
+        try:
+            if not path.is_file():
+                raise CommandError(f"{file}: {_not_a_file(path)}")
+            size, limit = path.stat().st_size, settings.NIGHTS_UPLOAD_MAX_BYTES
+        except PermissionError:
+            raise unreachable(file) from None
         if size > limit:  # the upload page's limit: a file of 50 MB took 87 s and 2.3 GB of memory
             raise CommandError(f"{file}: the file is {size:,} bytes; the limit is {limit:,} bytes. Split it into "
                                "files of fewer nights and import each. Nothing was stored.")

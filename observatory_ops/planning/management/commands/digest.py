@@ -21,8 +21,15 @@ class Command(BaseCommand):
             if not sites:
                 raise CommandError(f"no site with slug {site!r}")
         printed = digest.mail_is_printed()
+        failed = []
         for target in sites:
-            sent = digest.due_digest_send(target)
+            try:
+                sent = digest.due_digest_send(target)
+            except OSError as exc:  # the mail server (smtplib.SMTPException is one): said, and the next site tried
+                failed.append(target.name)
+                self.stderr.write(f"{target.name}: not sent, the mail server failed: {exc}. The people mailed before "
+                                  "it failed are not mailed again; run the command again once the server is back.")
+                continue
             if not sent:
                 outcome = f"nothing sent: {_why_not_sent(target)}"
             elif printed:
@@ -32,6 +39,8 @@ class Command(BaseCommand):
             else:
                 outcome = f"sent to {sent} address(es)"
             self.stdout.write(f"{target.name}: {outcome}")
+        if failed:
+            raise CommandError(f"the digest of {', '.join(failed)} was not sent (above)")
 
 
 def _why_not_sent(site: Site) -> str:

@@ -1,0 +1,13 @@
+"""What the management commands say about a file they are given and cannot reach."""
+from __future__ import annotations
+
+import getpass
+
+from django.core.management.base import CommandError
+
+
+def unreachable(file: str) -> CommandError:
+    """A file behind a folder the user running the command may not enter (a root shell's file given to
+    ``runuser -u obsops``): said in a line, where ``Path.exists()`` raised a traceback (an operator review)."""
+    return CommandError(f"{file}: permission denied: the user running this command ({getpass.getuser()}) cannot reach "
+                        "it; put it where that user can read it")
