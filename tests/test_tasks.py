@@ -410,7 +410,22 @@ def test_digest_goes_to_the_engineers_with_every_overdue_and_due_item_and_its_re
     for state in listed:
         assert state.plan.name in message.body and state.reason in message.body
     assert all(s.plan.name not in message.body for s in later)
+    assert message.body.count("On no work order yet.") == len(listed)  # none is on an order
     assert f"/due/?site={site.pk}" in message.body
+
+
+def test_the_digest_says_the_work_order_an_item_is_already_on(mailed_people):
+    """An operator review: the dashboard said "On WO-00012" beside an overdue item, the digest nothing."""
+    from observatory_ops.workorders import services as workorder_services
+
+    site = site_in_use("covered")
+    planning.site_recompute(site)
+    [first, *_] = [s for s in PlanStatus.objects.filter(site=site).select_related("plan") if s.status == "overdue"]
+    order = workorder_services.work_order_from_due([first.plan], mailed_people["engineer"])
+    digest.due_digest_send(site)
+    body = mail.outbox[0].body
+    said = body.split(first.reason, 1)[1].split("\n")[1].strip()
+    assert said == f"On {order.number} (draft): http://127.0.0.1:8000{order.get_absolute_url()}"
 
 
 def test_digest_is_sent_once_a_day_however_often_the_task_runs(mailed_people):
@@ -674,3 +689,23 @@ def test_the_site_admin_offers_engineers_only_for_the_digest(mailed_people, rf):
     offered = set(form.fields["digest_to"].queryset.values_list("username", flat=True))
     assert {"engineer", "administrator", "engineer-no-mail"} <= offered
     assert not offered & {"technician", "viewer", "engineer-left"}
+
+
+def test_the_site_admin_says_when_the_digest_last_went_out_and_to_how_many(mailed_people, client):
+    """An operator review: a digest that stopped (its only listed recipient made inactive) showed nowhere but in
+    the worker's log."""
+    site = site_in_use("admin-says")
+    planning.site_recompute(site)
+    administrator = mailed_people["administrator"]
+    administrator.is_staff = administrator.is_superuser = True
+    administrator.save()
+    client.force_login(administrator)
+    page = client.get(f"/admin/registry/site/{site.pk}/change/").content.decode()
+    assert "not sent yet; goes to 2 addresses" in page
+    digest.due_digest_send(site)
+    engineer = mailed_people["engineer"]
+    site.digest_to.set([engineer])
+    engineer.is_active = False
+    engineer.save()
+    page = client.get(f"/admin/registry/site/{site.pk}/change/").content.decode()
+    assert f"last sent for {planning.site_today(site):%d %b %Y}; goes to nobody" in page

@@ -45,12 +45,21 @@ def recipients(site: Site) -> list[str]:
 def due_digest(site: Site, today: dt.date, to: list[str]) -> EmailMessage | None:
     """The digest message for ``site``, or None when nothing there is overdue or due and no work order is late (drafted
     or issued, its planned date passed: ``workorders.selectors.late_orders``, with what holds it)."""
-    from observatory_ops.workorders.selectors import LATE_ORDERS_SAID, late_orders  # work orders build on planning
+    from observatory_ops.workorders.selectors import (  # work orders build on planning
+        LATE_ORDERS_SAID,
+        late_orders,
+        orders_for_plans,
+    )
 
     rows = list(selectors.due_for_site(site))
     late = late_orders(site, today)
     if not rows and not late:
         return None
+    # The work orders still to do on each item, as the due list and the dashboard say them (an operator review: the
+    # digest listed items already on an order without saying so).
+    on_orders = orders_for_plans(r.plan_id for r in rows)
+    for row in rows:
+        row.on_orders = on_orders.get(row.plan_id, [])
     overdue = [r for r in rows if r.status == "overdue"]
     due = [r for r in rows if r.status == "due"]
     context = {

@@ -59,8 +59,24 @@ class SiteAdmin(ProtectedNamed, SimpleHistoryAdmin):
         return (*exclude, "slug") if self._slug_in_use(request, obj) else exclude
 
     def get_readonly_fields(self, request, obj=None):
-        fields = tuple(super().get_readonly_fields(request, obj))
+        fields = (*super().get_readonly_fields(request, obj), "digest_state")
         return (*fields, "slug_kept") if self._slug_in_use(request, obj) else fields
+
+    @admin.display(description="due digest")
+    def digest_state(self, site):
+        """When the site's digest last went out and to whom it goes now (an operator review: a digest that stopped,
+        its only recipient made inactive, showed nowhere but in the worker's log)."""
+        from observatory_ops.planning.digest import mail_is_printed, recipients  # planning builds on the register
+
+        if site is None or site.pk is None:
+            return "-"
+        to = recipients(site)
+        last = f"last sent for {site.digest_sent_on:%d %b %Y}" if site.digest_sent_on else "not sent yet"
+        goes = (f"goes to {len(to)} address{'es' if len(to) != 1 else ''}" if to else
+                "goes to nobody: no one it would go to has an e-mail address and the engineer role or above, so "
+                "none is sent")
+        printed = "; mail is printed to the log, not sent (EMAIL_BACKEND)" if mail_is_printed() else ""
+        return f"{last}; {goes}{printed}"
 
     def get_fields(self, request, obj=None):
         fields = list(super().get_fields(request, obj))
