@@ -12,6 +12,7 @@ the same result as running it once.
 """
 from __future__ import annotations
 
+import inspect
 import logging
 import os
 
@@ -57,10 +58,28 @@ class ServiceTask(Task):
     def on_failure(self, exc, task_id, args, kwargs, einfo):
         """Name the site a failed task was for (its first argument, a site id, in every site task), so an operator of
         many sites can act on the log line (an operator review read only "Site matching query does not exist")."""
-        log.error("task %s[%s] for %s failed: %r", self.name, task_id, _site_said(args), exc)
+        log.error("task %s[%s] for %s failed: %r", self.name, task_id, self._site_said(args, kwargs), exc)
 
     def on_retry(self, exc, task_id, args, kwargs, einfo):
-        log.warning("task %s[%s] for %s will be retried: %r", self.name, task_id, _site_said(args), exc)
+        log.warning("task %s[%s] for %s will be retried: %r", self.name, task_id, self._site_said(args, kwargs), exc)
+
+    def _site_said(self, args, kwargs) -> str:
+        """The site a task's ``site_id`` argument names, as a log line says it: "site 3 (vestal-ridge)", "site 999
+        (none such)", or "no site" for a task without one (the every-site tasks, whose first argument is an hour or
+        a flag)."""
+        if "site_id" in kwargs:
+            site_id = kwargs["site_id"]
+        elif args and next(iter(inspect.signature(self.run).parameters), None) == "site_id":
+            site_id = args[0]
+        else:
+            return "no site"
+        from observatory_ops.registry.models import Site
+
+        try:
+            slug = Site.objects.filter(pk=site_id).values_list("slug", flat=True).first()
+        except Exception:  # the database itself may be what failed
+            slug = None
+        return f"site {site_id} ({slug or 'none such'})"
 
     def retry(self, *args, exc=None, **kwargs):
         # Inline (no broker), Celery would hand the caller a Retry exception instead of the error; the
@@ -68,20 +87,6 @@ class ServiceTask(Task):
         if exc is not None and self.request.is_eager and self.app.conf.task_eager_propagates:
             raise exc
         return super().retry(*args, exc=exc, **kwargs)
-
-
-def _site_said(args) -> str:
-    """The site a task's arguments name, as a log line says it: "site 3 (vestal-ridge)", "site 999 (none such)", or
-    "no site" for a task without one."""
-    if not args or not isinstance(args[0], int):
-        return "no site"
-    from observatory_ops.registry.models import Site
-
-    try:
-        slug = Site.objects.filter(pk=args[0]).values_list("slug", flat=True).first()
-    except Exception:  # the database itself may be what failed
-        slug = None
-    return f"site {args[0]} ({slug or 'none such'})"
 
 
 def each_site(*task_names: str, sites=None) -> int:

@@ -709,3 +709,20 @@ def test_the_site_admin_says_when_the_digest_last_went_out_and_to_how_many(maile
     engineer.save()
     page = client.get(f"/admin/registry/site/{site.pk}/change/").content.decode()
     assert f"last sent for {planning.site_today(site):%d %b %Y}; goes to nobody" in page
+
+
+def test_a_failed_task_names_the_site_it_was_for_and_the_every_site_tasks_none(db, caplog):
+    """An operator review read "Site matching query does not exist" in the worker's log, no site named. What the
+    worker calls on a failure (Celery's ``Task.on_failure``; inline, the error goes to the caller instead)."""
+    from observatory_ops.registry.models import Site
+
+    site = site_in_use("named-in-log")
+    task = planning_tasks.site_recompute
+    with caplog.at_level("ERROR", logger="observatory_ops.celery"):
+        task.on_failure(Site.DoesNotExist("Site matching query does not exist."), "t-1", (site.pk + 1000,), {}, None)
+        task.on_failure(OSError("refused"), "t-2", (), {"site_id": site.pk}, None)
+    assert f"task planning.site_recompute[t-1] for site {site.pk + 1000} (none such) failed" in caplog.text
+    assert f"task planning.site_recompute[t-2] for site {site.pk} (named-in-log) failed" in caplog.text
+    # The every-site tasks' first argument is an hour or a flag, not a site.
+    assert planning_tasks.sites_due_digest_all._site_said((site.pk,), {}) == "no site"
+    assert planning_tasks.sites_recompute_all._site_said((True,), {}) == "no site"
