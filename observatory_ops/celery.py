@@ -76,10 +76,10 @@ class ServiceTask(Task):
         from observatory_ops.registry.models import Site
 
         try:
-            slug = Site.objects.filter(pk=site_id).values_list("slug", flat=True).first()
-        except Exception:  # the database itself may be what failed
-            slug = None
-        return f"site {site_id} ({slug or 'none such'})"
+            slug = Site.objects.filter(pk=site_id).values_list("slug", flat=True).first() or "none such"
+        except Exception:  # the database itself may be what failed  # noqa: BLE001
+            slug = "name not read: database error"
+        return f"site {site_id} ({slug})"
 
     def retry(self, *args, exc=None, **kwargs):
         # Inline (no broker), Celery would hand the caller a Retry exception instead of the error; the

@@ -178,6 +178,16 @@ def test_paper_entered_later_is_held_as_the_mirror_stood_on_the_day_the_work_was
         _finished_on(order, users, today - dt.timedelta(days=5))
     # The day the reinstall put it back, and after: the mirror is in.
     assert services.finish_waits(order, unticked, today - dt.timedelta(days=2)) == ""
+    # Another mirror of the telescope out today: not "now that it is back" (a diff review).
+    from observatory_ops.registry.models import Subsystem
+
+    secondary = Subsystem.objects.create(telescope=order.telescope, kind="secondary_mirror", name="Secondary")
+    taken = WorkOrder.objects.create(
+        site=order.site, telescope=order.telescope, title="Secondary out", recoat_phase="removal", state="finished",
+        finished_at=WorkOrder.objects.get(pk=recoat["removal"].pk).finished_at, created_by=users["engineer"])
+    taken.items.create(subsystem=secondary, why="recoat")
+    held = services.finish_waits(order, unticked, today - dt.timedelta(days=5))
+    assert "Do them once the reinstall is finished" in held and "the Primary of T1 was out" in held
 
 
 def test_with_the_mirror_out_the_soonest_window_is_the_cheapest_and_none_is_late(stopped, users, client):
@@ -214,7 +224,9 @@ def test_a_page_shown_before_the_mirror_came_out_plans_nothing(orders, users, cl
     client.force_login(users["engineer"])
     response = client.post(f"/mirrors/{mirror.pk}/recoat/plan/",
                            {**sent, "window": found["windows"][0]["start"].isoformat()}, follow=True)
-    assert "the recoat&#x27;s phases have changed since the page was shown" in response.content.decode()
+    said = response.content.decode()
+    assert "the recoat&#x27;s phases have changed since the page was shown: The mirror has been out" in said
+    assert "which was stopped), so this recoat goes on from there with no removal: transport" in said
     assert not RecoatPlan.objects.filter(continues_from__isnull=False).exists()
 
 

@@ -345,5 +345,5 @@ def test_the_paper_leaves_a_line_for_who_locked_out_released_and_handed_back_and
     printed = _printed(orders["removal"])
     assert "Lockout: " in printed and printed.count("Initials ____________ Date ____________ Time ____________") == 1
     realignment = _printed(orders["realignment"])
-    assert "Handed back by ____________ Date ____________ Time ____________ Remote observers told: yes / no" \
+    assert "Handed back by ____________ Date ____________ Time ____________ Remote operators told: yes / no" \
         in realignment

@@ -378,3 +378,15 @@ def test_work_planned_while_the_recoat_is_planned_to_have_the_mirror_out_says_so
     _finish(recoat["removal"], users)
     order = WorkOrder.objects.get(pk=other_work.pk)
     assert selectors.recoat_planned_notices(order) == [] and selectors.telescope_out_notices(order)
+
+
+def test_a_removal_underway_and_late_still_warns_work_planned_after_its_days(recoat, other_work, users):
+    """A diff review: the recoat planned from August, its removal underway in December, drive work planned for
+    tomorrow got no notice (the late recoat's days end today)."""
+    from observatory_ops.planning.services import site_today
+
+    services.work_order_move(recoat["removal"], "issue", users["engineer"])
+    services.work_order_move(WorkOrder.objects.get(pk=recoat["removal"].pk), "start", users["technician"])
+    WorkOrder.objects.filter(pk=other_work.pk).update(planned_date=site_today(other_work.site) + dt.timedelta(days=1))
+    [(title, body, todo)] = selectors.recoat_planned_notices(WorkOrder.objects.get(pk=other_work.pk))
+    assert "(underway)" in body and todo.startswith("Its removal is underway: the mirror may already be out.")

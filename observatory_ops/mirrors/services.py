@@ -776,8 +776,10 @@ def site_crew_windows(
     blocked."""
     costs = night_costs(site, start, horizon_days, telescope)
     days_off = crew_days_off(site, costs[0].night, costs[-1].night)
+    # A closed night costs nothing whatever is booked on it (nothing is observed).
     priced = np.array([c.cost if np.isfinite(c.cost) or not out_already
-                       else c.moonless_dark_hours * c.open_fraction * BOOKED_WEIGHT for c in costs])
+                       else 0.0 if c.closed else c.moonless_dark_hours * c.open_fraction * BOOKED_WEIGHT
+                       for c in costs])
     found = crew_windows(costs[0].night, priced, phases, site.crew_days, days_off, alternatives,
                          lost_from_start=out_already)
     return costs, days_off, found
@@ -1598,10 +1600,12 @@ def _fit_trace(state: MirrorForecast) -> str:
     fit, cleaning = state.fit, state.cleaning_counted
     # As the mirror page writes it (its estimate's inputs): with a cleaning counted, the share f of the loss it won
     # back at its exposure c.
+    counted = cleaning is not None and math.isfinite(fit.recovery_fraction)
     model, recovered = ("R0 - b x (E - f x c)", f", f {fit.recovery_fraction:.2f} at the cleaning of "
-                        f"{cleaning[0]:%d %b %Y}, c {cleaning[1]:,.0f} h") if cleaning else ("R0 - b x E", "")
+                        f"{cleaning[0]:%d %b %Y}, c {cleaning[1]:,.0f} h") if counted else ("R0 - b x E", "")
+    rising = " (below zero: the fit rises with exposure)" if fit.rate_per_hour < 0 else ""
     trace = (f" [decline fit R = {model} over {fit.n_points} measurements: R0 {reflectance_text(fit.r0)}, "
-             f"b {fit.rate_per_hour * 1000:.4f} per 1,000 dust-weighted open hours, E "
+             f"b {fit.rate_per_hour * 1000:.4f}{rising} per 1,000 dust-weighted open hours, E "
              f"{state.exposure_now_h:,.0f} h now{recovered}; the line {state.threshold_basis}")
     if state.dust_hours_per_day:
         trace += f"; about {state.dust_hours_per_day:.1f} dust-weighted open hours a day expected"

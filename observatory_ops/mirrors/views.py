@@ -304,8 +304,8 @@ def recoat_plan_create(request, pk):
     # the plan would be made for other work than the windows listed (a diff review: two orders made, unsaid).
     shown = {name for name in request.POST if name.startswith("phase_")}  # none sent: the phases' usual days
     if shown and shown != {f"phase_{i}" for i, _ in form.offered}:
-        messages.error(request, "No plan made: the recoat's phases have changed since the page was shown ("
-                                f"{services.recoat_phases_left(mirror).text or 'the mirror is back in its telescope'}) "
+        now = services.recoat_phases_left(mirror).text.rstrip(".") or "the mirror is back in its telescope"
+        messages.error(request, f"No plan made: the recoat's phases have changed since the page was shown: {now}. "
                                 "Find the windows again.")
         return redirect("mirror-recoat", pk=mirror.pk)
     phases = form.phases()

@@ -284,7 +284,8 @@ ISOLATION_POINTS_MISSING_HELD = (
     "started"
 )
 
-#: A telescope whose primary mirror a recoat removed and has not yet put back (workorders.selectors.telescopes_out):
+#: A telescope whose mirror (its primary, or another) a recoat removed and has not yet put back
+#: (workorders.selectors.telescopes_out):
 #: out of balance, axes pinned, drives on the site's long-term locks (the removal order's own release step). Work on
 #: it meanwhile is usual, but no step of it may move an axis or take those locks off (common practice, no published
 #: source; the site's lockout procedure, OSHA 29 CFR 1910.147(f)(4), and the mount maker's instructions come first).

@@ -731,7 +731,7 @@ def _steps(sheet: Sheet) -> list[Flowable]:
 #: the removal of the locks and the hand-back (a paper review: the ticks entered later carry the time of entry).
 SIGNED_STEP_LINE = "Initials ____________   Date ____________   Time ____________"
 HAND_BACK_LINE = ("Handed back by ____________   Date ____________   Time ____________   "
-                  "Remote observers told: yes / no")
+                  "Remote operators told: yes / no")
 
 
 def _signed_step(step: str) -> bool:

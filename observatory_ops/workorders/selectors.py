@@ -235,11 +235,13 @@ def telescope_out_notices(order: WorkOrder) -> list[tuple[str, str, str]]:
 
 def recoat_planned_notices(order: WorkOrder) -> list[tuple[str, str, str]]:
     """For an order still to do planned on a day a recoat in hand is planned to have its telescope's mirror out
-    (``planning.services.recoat_downtime``), the mirror still in (its removal not finished: once it is,
-    ``telescope_out_notices`` holds the work): title, what is planned, what to do. Paper printed days ahead (a weekly
-    batch) said nothing of a removal coming on those days (a paper review). [] for the recoat's own orders, an order
-    with no planned date, or none planned then. Said, never refused."""
-    if order.state not in TO_DO or order.recoat_phase or order.planned_date is None:
+    (``planning.services.recoat_downtime``; from its first day on, any day, while its removal is underway), the
+    mirror not out yet (its removal not finished: once it is, ``telescope_out_notices`` holds the work): title, what
+    is planned, what to do. At a site whose telescopes share one enclosure, a recoat of any of them counts (its dome
+    moves over the telescope, as ``recoat_hands_back`` has it). Paper printed days ahead (a weekly batch) said nothing
+    of a removal coming on those days (a paper review). [] for the recoat's own orders, an order with no planned
+    date, or none planned then. Said, never refused."""
+    if order.state not in TO_DO or order.planned_date is None:
         return []
     from observatory_ops.planning.services import recoat_downtime, recoats_in_hand
 
@@ -250,11 +252,12 @@ def recoat_planned_notices(order: WorkOrder) -> list[tuple[str, str, str]]:
     for plan in recoats_in_hand(order.site):
         telescope = plan.mirror.subsystem.telescope
         removal = plan.removal()
-        if telescope.pk not in at or removal is None or removal.state not in (State.DRAFT, State.ISSUED,
-                                                                              State.UNDERWAY):
+        if (telescope.pk not in at and not order.site.shared_enclosure) or removal is None \
+                or removal.state not in TO_DO or any(o.pk == order.pk for o in plan.work_orders.all()):
             continue
         out = recoat_downtime(plan, today)
-        if not out.first <= order.planned_date <= out.last:
+        underway = removal.state == State.UNDERWAY
+        if not (out.first <= order.planned_date and (underway or order.planned_date <= out.last)):
             continue
         reinstall = next((o for o in plan.work_orders.all()
                           if o.recoat_phase == "reinstall" and o.state in TO_DO), None)
@@ -263,14 +266,15 @@ def recoat_planned_notices(order: WorkOrder) -> list[tuple[str, str, str]]:
             return f"planned for {dateformat.format(o.planned_date, 'd M Y')}" if o.planned_date else "not dated"
 
         back = f", its reinstall {reinstall.number} {when(reinstall)}" if reinstall else ""
+        todo = ("Its removal is underway: the mirror may already be out. Ask the site engineer before starting"
+                if underway else "Before starting, ask the site engineer whether the removal has begun")
         said.append((
             f"{telescope.name}'s {plan.mirror.subsystem.name} is planned to be out for its recoat",
             f"This order is planned for {dateformat.format(order.planned_date, 'd M Y')}, while the recoat is "
             f"planned to have the mirror out: its removal {removal.number} is {when(removal)} "
             f"({removal.get_state_display().lower()}){back}.",
-            "Before starting, ask the site engineer whether the removal has begun. Once the mirror is out, do no step "
-            "that moves an axis, releases a brake or takes the site's long-term locks off until the reinstall is "
-            "finished.",
+            f"{todo}. Once the mirror is out, do no step that moves an axis, releases a brake or takes the site's "
+            "long-term locks off until the reinstall is finished.",
         ))
     return said
 
@@ -288,7 +292,8 @@ def mirror_out_on(order: WorkOrder, day: dt.date) -> MirrorOutThen | None:
     it, ``_WRITTEN_FOR_MIRROR_OUT``): a removal's work done on or before that day and no reinstall's done by then (one
     done that day puts it back), by the days their work was done (``work_done_on_of``). A walk-through entered work
     dated while the mirror was out once it was back, its slews confirmed done, and had work done before the removal
-    held until the reinstall (``telescope_out_notices`` tells today's state). Two queries."""
+    held until the reinstall (``telescope_out_notices`` tells today's state). ``back``: no mirror of its telescopes
+    is out today. Five queries at most."""
     if order.recoat_phase in _WRITTEN_FOR_MIRROR_OUT:
         return None
     at = {order.telescope_id} if order.telescope_id else set(
@@ -301,7 +306,9 @@ def mirror_out_on(order: WorkOrder, day: dt.date) -> MirrorOutThen | None:
     for item in items:
         if item.done_on is not None:
             moves.setdefault(item.subsystem_id, []).append(item)
-    for found in moves.values():
+    said = []
+    for subsystem_id in sorted(moves):  # every mirror out that day, in a steady order (a diff review)
+        found = moves[subsystem_id]
         # By the day the work was done, a removal before a reinstall of the same day (the mirror is back that day).
         found.sort(key=lambda i: (i.done_on, i.work_order.recoat_phase == "reinstall", i.work_order.finished_at))
         then = [i for i in found if i.done_on <= day]
@@ -311,13 +318,16 @@ def mirror_out_on(order: WorkOrder, day: dt.date) -> MirrorOutThen | None:
         back = next((i for i in found if i.done_on > day and i.work_order.recoat_phase == "reinstall"), None)
         returned = (f"{back.work_order.number} put it back on {back.done_on:%d %b %Y}" if back is not None
                     else "it is not back yet")
-        return MirrorOutThen(
-            f"on {day:%d %b %Y}, the day the work was done, the {removal.subsystem.name} of "
-            f"{removal.subsystem.telescope.name} was out ({removal.work_order.number} took it out on "
-            f"{removal.done_on:%d %b %Y}; {returned}): the telescope was out of balance, its axes pinned and its "
-            "drives on the site's long-term locks",
-            back is not None and not any(i.work_order.recoat_phase == "removal" for i in found if i.done_on > day))
-    return None
+        said.append(f"the {removal.subsystem.name} of {removal.subsystem.telescope.name} was out "
+                    f"({removal.work_order.number} took it out on {removal.done_on:%d %b %Y}; {returned})")
+    if not said:
+        return None
+    # Back only when no mirror of these telescopes is out today (a diff review: "now that it is back" was said of the
+    # primary with the secondary still out).
+    out_now = any(o.telescope_id in at for o in telescopes_out([order.site]))
+    return MirrorOutThen(
+        f"on {day:%d %b %Y}, the day the work was done, {'; and '.join(said)}: the telescope was out of balance, "
+        "its axes pinned and its drives on the site's long-term locks", not out_now)
 
 
 #: The recoat phases whose work takes more than a day and may pause over the crew's days off with the mirror off its
@@ -1929,7 +1939,7 @@ def sheet(order: WorkOrder, url: str) -> sheet_.Sheet:
         precedence_statement=PRECEDENCE_STATEMENT,
         hazards_notice=hazards_notice(order, missing, paper=True, unrecorded=unrecorded),
         start_held=start_held_notice(order, unrecorded, gaps, items),
-        out_of_service=tuple(telescope_out_notices(order) or recoat_planned_notices(order)),
+        out_of_service=tuple(telescope_out_notices(order) + recoat_planned_notices(order)),
         alongside=alongside_notice(order, items),
         hand_backs_held=hand_backs_held_notice(order),
         lockout_step=next((i + 1 for i, line in enumerate(lines.steps) if is_lockout_step(line.text)), None),

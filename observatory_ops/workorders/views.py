@@ -205,7 +205,7 @@ def work_order_detail(request, pk):
             "order": order,
             "site": order.site,
             "hazards_notice": selectors.hazards_notice(order, missing, unrecorded=unrecorded),
-            "out_notices": selectors.telescope_out_notices(order) or selectors.recoat_planned_notices(order),
+            "out_notices": selectors.telescope_out_notices(order) + selectors.recoat_planned_notices(order),
             "alongside": _alongside(order, items),
             "hazards_confirmed": [HAZARDS[h] for h in order.hazards_confirmed_at_finish],
             "isolation_record": _isolation_record(order),

@@ -18,7 +18,7 @@ class Command(BaseCommand):
             if path.exists():
                 raise CommandError(f"{file} already exists; choose a new name (a backup never overwrites)")
         except PermissionError:
-            raise unreachable(file) from None
+            raise unreachable(file, "write") from None
         try:
             counts = backup_write(path)
         except BackupError as exc:
