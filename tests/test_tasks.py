@@ -542,7 +542,13 @@ def test_an_address_refused_for_good_does_not_stop_the_others(mailed_people, mon
     assert "due digest of refused not delivered to administrator@vestal-ridge.invalid" in caplog.text
     site.refresh_from_db()
     assert site.digest_sent_on == planning.site_today(site)  # not tried again every hour
+    assert site.digest_refused == (f"{planning.site_today(site):%d %b %Y}: refused for good: "
+                                   "administrator@vestal-ridge.invalid (550)")
     assert digest.due_digest_send(site) == 0
+    # Said by the command and on the site's admin page too, not only in the worker's log (a diff review).
+    out = io.StringIO()
+    call_command("digest", "--site", site.slug, stdout=out)
+    assert "already sent today" in out.getvalue() and "the mail server refused" in out.getvalue()
 
 
 def test_the_digest_command_says_a_mail_server_failure_and_goes_on_to_the_next_site(mailed_people, monkeypatch):

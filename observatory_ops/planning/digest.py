@@ -112,7 +112,7 @@ def due_digest_send(site: Site, today: dt.date | None = None) -> int:
     # Connected and greeted before the site's row is locked: a server that accepts but never answers fails
     # here, after EMAIL_TIMEOUT, holding up no one.
     mail.open()
-    sent, failure = 0, None
+    sent, failure, refused = 0, None, []
     try:
         with transaction.atomic():
             if not Site.objects.select_for_update().filter(pk=site.pk).exclude(digest_sent_on=today).exists():
@@ -131,6 +131,7 @@ def due_digest_send(site: Site, today: dt.date | None = None) -> int:
                                 site.slug, address, "; ".join(f"{code} {text!r}" for code, text in
                                                               exc.recipients.values()))
                     DigestSent.objects.create(site=site, day=today, address=address)
+                    refused.append(f"{address} ({'; '.join(f'{code}' for code, _ in exc.recipients.values())})")
                     continue
                 except Exception as exc:  # raised below, once the people mailed so far are committed
                     failure = exc
@@ -138,7 +139,10 @@ def due_digest_send(site: Site, today: dt.date | None = None) -> int:
                 DigestSent.objects.create(site=site, day=today, address=address)
                 sent += 1
             if failure is None:
-                Site.objects.filter(pk=site.pk).update(digest_sent_on=today)
+                # The refusals of the day stay said on the site (its admin page, the digest command), not only in
+                # the worker's log (a diff review: every address refused read as sent).
+                said = f"{today:%d %b %Y}: refused for good: {', '.join(refused)}"[:500] if refused else ""
+                Site.objects.filter(pk=site.pk).update(digest_sent_on=today, digest_refused=said)
                 DigestSent.objects.filter(site=site).delete()  # the day is sent to all: the site's day says so
     finally:
         mail.close()

@@ -76,7 +76,8 @@ class SiteAdmin(ProtectedNamed, SimpleHistoryAdmin):
                 "goes to nobody: no one it would go to has an e-mail address and the engineer role or above, so "
                 "none is sent")
         printed = "; mail is printed to the log, not sent (EMAIL_BACKEND)" if mail_is_printed() else ""
-        return f"{last}; {goes}{printed}"
+        refused = f"; {site.digest_refused}" if site.digest_refused else ""
+        return f"{last}; {goes}{printed}{refused}"
 
     def get_fields(self, request, obj=None):
         fields = list(super().get_fields(request, obj))

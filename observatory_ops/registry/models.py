@@ -174,6 +174,11 @@ class Site(models.Model):
         null=True, blank=True, editable=False,
         help_text="The site's local day of the last due digest sent: at most one a day (planning.digest).",
     )
+    digest_refused = models.CharField(
+        max_length=500, blank=True, editable=False,
+        help_text="The addresses the mail server refused for good on the day of the last digest, with its reply; "
+        "empty when it refused none (planning.digest.refused_for_good).",
+    )
 
     class Meta:
         ordering = ["name"]

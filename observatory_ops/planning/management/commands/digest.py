@@ -25,6 +25,7 @@ class Command(BaseCommand):
         for target in sites:
             try:
                 sent = digest.due_digest_send(target)
+                target.refresh_from_db(fields=["digest_refused"])
             except OSError as exc:  # the mail server (smtplib.SMTPException is one): said, and the next site tried
                 failed.append(target.name)
                 self.stderr.write(f"{target.name}: not sent, the mail server failed: {exc}. The people mailed before "
@@ -38,6 +39,8 @@ class Command(BaseCommand):
                            "to send)")
             else:
                 outcome = f"sent to {sent} address(es)"
+            if sent and target.digest_refused:
+                outcome += f"; the mail server refused {target.digest_refused}"
             self.stdout.write(f"{target.name}: {outcome}")
         if failed:
             raise CommandError(f"the digest of {', '.join(failed)} was not sent (above)")
@@ -48,7 +51,9 @@ def _why_not_sent(site: Site) -> str:
     site.refresh_from_db(fields=["digest_sent_on"])
     today = site_today(site)
     if site.digest_sent_on == today:
-        return f"already sent today ({today:%d %b %Y})"
+        site.refresh_from_db(fields=["digest_refused"])
+        refused = f"; the mail server refused {site.digest_refused}" if site.digest_refused else ""
+        return f"already sent today ({today:%d %b %Y}){refused}"
     if not digest.recipients(site):
         return "nobody to send it to has an e-mail address (the site's 'Due digest to', or every engineer)"
     return "nothing is due or overdue at the site"
