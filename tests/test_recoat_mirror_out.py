@@ -289,3 +289,10 @@ def test_a_hand_back_dated_before_the_removal_is_not_left_to_the_realignment(sto
     assert selectors.recoat_hands_back(order) == realignment
     assert selectors.recoat_hands_back(order, out_on) == realignment  # the removal's day: out
     assert selectors.recoat_hands_back(order, out_on - dt.timedelta(days=1)) is None
+    # Ticked now, the hand-back is refused, saying how work done on paper before the removal is finished instead (a
+    # diff review: the refusal and the finish said different things).
+    from observatory_ops.registry.catalogue import is_hand_back
+
+    key = next(i for i, step in enumerate(order.step_list) if is_hand_back(step))
+    assert (f"If this work was done on paper before the mirror came out ({out_on:%d %b %Y}), finish the order with "
+            "the day it was done") in services._telescope_out_refusal(order, key)

@@ -102,6 +102,7 @@ from .selectors import (
     unlabelled,
     unticked_lines,
     work_alongside,
+    work_done_on,
 )
 
 #: The longest name the finish form takes for one of the crew (names are separated by commas).
@@ -1445,10 +1446,17 @@ def _telescope_out_refusal(order: WorkOrder, key: int) -> str:
     if key < len(order.step_list) and is_hand_back(order.step_list[key]) and (
             realignment := recoat_hands_back(order)) is not None:
         whose = realignment.telescope.name if realignment.telescope_id else "the telescope"
+        plan = realignment.recoat_plans.order_by("-pk").first()
+        removal = plan.removal() if plan is not None else None
+        out_on = work_done_on(removal) if removal is not None else None
+        # Work done on paper before the mirror came out handed back then (``recoat_hands_back`` with its day).
+        before = (f". If this work was done on paper before the mirror came out ({out_on:%d %b %Y}), finish the order "
+                  "with the day it was done: its hand-back is then confirmed as done that day") if out_on else ""
         return (f"step {key + 1} hands the observatory back to robotic and remote control, and the recoat of "
                 f"{whose} is not done: {realignment.number} ({realignment.title}) is "
                 f"{realignment.get_state_display()}, and its crew hands the observatory back at its end, once the "
-                "collimation is recorded. Leave this step to them: finishing this order leaves it to that order")
+                f"collimation is recorded. Leave this step to them: finishing this order leaves it to that order"
+                f"{before}")
     if key not in moves_or_restores(order.step_list):
         return ""
     notices = telescope_out_notices(order)
