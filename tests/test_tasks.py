@@ -714,7 +714,23 @@ def test_the_site_admin_says_when_the_digest_last_went_out_and_to_how_many(maile
     engineer.is_active = False
     engineer.save()
     page = client.get(f"/admin/registry/site/{site.pk}/change/").content.decode()
-    assert f"last sent for {planning.site_today(site):%d %b %Y}; goes to nobody" in page
+    assert (f"last sent for {planning.site_today(site):%d %b %Y}; goes to 1 address (the administrators: none of "
+            "those listed under Due digest to can receive it)") in page
+
+
+def test_a_site_whose_listed_people_are_all_gone_mails_the_administrators_saying_why(mailed_people):
+    """An operator review: the one engineer a site listed was made inactive, and its digest stopped, said only in the
+    worker's log."""
+    site = site_in_use("listed-gone")
+    planning.site_recompute(site)
+    engineer = mailed_people["engineer"]
+    site.digest_to.set([engineer])
+    assert digest.recipients(site) == ["engineer@vestal-ridge.invalid"] and not digest.listed_gone(site)
+    engineer.is_active = False
+    engineer.save()
+    assert digest.recipients(site) == ["administrator@vestal-ridge.invalid"]
+    assert digest.due_digest_send(site) == 1
+    assert "You receive this as an administrator: none of the people listed" in mail.outbox[0].body
 
 
 def test_a_failed_task_names_the_site_it_was_for_and_the_every_site_tasks_none(db, caplog):

@@ -15,7 +15,7 @@ from django.db import transaction
 from django.template.loader import render_to_string
 from django.urls import reverse
 
-from observatory_ops.access.roles import ENGINEER, holders_of
+from observatory_ops.access.roles import ADMINISTRATOR, ENGINEER, holders_of
 from observatory_ops.registry.models import Site
 
 from . import selectors
@@ -35,11 +35,25 @@ def mail_is_printed() -> bool:
 def recipients(site: Site) -> list[str]:
     """E-mail addresses the site's digest goes to: the people its ``digest_to`` lists, or where it lists none, every
     active person in the engineer role or above (administrators and superusers included); either way only those who
-    still hold the role and have an address."""
+    still hold the role and have an address. Where the site lists people and none of them can receive it any more
+    (left, role taken away, no address), the administrators (``fallback_to_administrators``): an operator review
+    found a site's digest stopped, its one listed engineer made inactive, said only in the worker's log."""
+    if listed_gone(site):
+        return fallback_to_administrators()
     engineers = holders_of(ENGINEER).exclude(email="")
     if site.digest_to.exists():
         engineers = engineers.filter(digest_sites=site)
     return sorted(set(engineers.values_list("email", flat=True)))
+
+
+def listed_gone(site: Site) -> bool:
+    """True when the site lists who gets its digest (``digest_to``) and none of them can receive it any more."""
+    return site.digest_to.exists() and not holders_of(ENGINEER).exclude(email="").filter(digest_sites=site).exists()
+
+
+def fallback_to_administrators() -> list[str]:
+    """The administrators' addresses (superusers included), for a site whose listed recipients are all gone."""
+    return sorted(set(holders_of(ADMINISTRATOR).exclude(email="").values_list("email", flat=True)))
 
 
 def due_digest(site: Site, today: dt.date, to: list[str]) -> EmailMessage | None:
@@ -74,6 +88,7 @@ def due_digest(site: Site, today: dt.date, to: list[str]) -> EmailMessage | None
         "site_url": settings.SITE_URL,
         "dashboard_url": settings.SITE_URL + site.get_absolute_url(),
         "due_list_url": f"{settings.SITE_URL}{reverse('due-list')}?site={site.pk}",
+        "listed_gone": listed_gone(site),
     }
     # One line whatever the name holds (a name stored before ``validate_one_line``): a line break in a subject makes
     # the mail library refuse the message, and the site's digest would fail every hour.

@@ -72,7 +72,11 @@ class SiteAdmin(ProtectedNamed, SimpleHistoryAdmin):
             return "-"
         to = recipients(site)
         last = f"last sent for {site.digest_sent_on:%d %b %Y}" if site.digest_sent_on else "not sent yet"
-        goes = (f"goes to {len(to)} address{'es' if len(to) != 1 else ''}" if to else
+        from observatory_ops.planning.digest import listed_gone  # planning builds on the register
+
+        gone = " (the administrators: none of those listed under Due digest to can receive it)" if listed_gone(
+            site) else ""
+        goes = (f"goes to {len(to)} address{'es' if len(to) != 1 else ''}{gone}" if to else
                 "goes to nobody: no one it would go to has an e-mail address and the engineer role or above, so "
                 "none is sent")
         printed = "; mail is printed to the log, not sent (EMAIL_BACKEND)" if mail_is_printed() else ""
