@@ -55,7 +55,7 @@ from observatory_ops.registry.selectors import crew_days_off
 from observatory_ops.registry.services import retired_work_problem
 from observatory_ops.workorders.cautions import HAZARDS
 from observatory_ops.workorders.models import RequiredReading, State, WorkOrder, WorkOrderItem
-from observatory_ops.workorders.selectors import recoat_began_on, work_done_on
+from observatory_ops.workorders.selectors import came_out_on, recoat_began_on, telescopes_out
 from observatory_ops.workorders.services import brake_air_back, steps_in_groups
 
 from .models import TRAIN_KINDS, CleaningEvent, CoatingEvent, Mirror, RecoatPlan, ReflectanceMeasurement
@@ -898,13 +898,12 @@ def recoat_in_hand(mirror: Mirror) -> RecoatPlan | None:
 
 
 def mirror_out(mirror: Mirror) -> WorkOrder | None:
-    """The finished removal that took the mirror out of its telescope when no reinstall has put it back since (its
-    newest finished removal or reinstall order decides, as ``workorders.selectors.telescopes_out``); None when it is
-    in. A recoat stopped with its mirror out (an order after the removal withdrawn) leaves it so."""
-    newest = (WorkOrder.objects.filter(items__subsystem=mirror.subsystem, recoat_phase__in=("removal", "reinstall"),
-                                       state__in=(State.FINISHED, State.COUNTERSIGNED))
-              .select_related("site").order_by("-finished_at", "-pk").first())
-    return newest if newest is not None and newest.recoat_phase == "removal" else None
+    """The finished removal that took the mirror out of its telescope when no reinstall has put it back since
+    (``workorders.selectors.telescopes_out``); None when it is in. A recoat stopped with its mirror out (an order after
+    the removal withdrawn) leaves it so."""
+    subsystem = mirror.subsystem
+    return next((o.removal for o in telescopes_out([subsystem.telescope.site]) if o.subsystem_id == subsystem.pk),
+                None)
 
 
 @dataclass(frozen=True)
@@ -927,10 +926,9 @@ class PhasesLeft:
         """Why the planner leaves phases out, "" when it offers them all."""
         if self.removal is None:
             return ""
-        zone = self.removal.site.zone
-        out_on = work_done_on(self.removal) or timezone.localtime(self.removal.finished_at, zone).date()
-        said = (f"The mirror has been out of the telescope since {out_on:%d %b %Y} (removed by {self.removal.number} "
-                "for an earlier recoat, which was stopped), so this recoat goes on from there with no removal")
+        said = (f"The mirror has been out of the telescope since {came_out_on(self.removal):%d %b %Y} (removed by "
+                f"{self.removal.number} for an earlier recoat, which was stopped), so this recoat goes on from there "
+                "with no removal")
         if self.coating is not None:
             said += (f"; it was coated on {self.coating.coated_on:%d %b %Y}, so no transport or strip and coat "
                      "either")
@@ -947,8 +945,7 @@ def recoat_phases_left(mirror: Mirror) -> PhasesLeft:
     removal = mirror_out(mirror)
     if removal is None:
         return PhasesLeft(every)
-    out_on = work_done_on(removal) or timezone.localtime(removal.finished_at, removal.site.zone).date()
-    coating = mirror.coatings.filter(coated_on__gte=out_on).order_by("-coated_on", "-pk").first()
+    coating = mirror.coatings.filter(coated_on__gte=came_out_on(removal)).order_by("-coated_on", "-pk").first()
     skipped = {"removal", "transport", "strip and coat"} if coating is not None else {"removal"}
     return PhasesLeft(tuple((i, p) for i, p in every if p.name not in skipped), removal, coating)
 
@@ -1823,8 +1820,7 @@ def coating_before_removal(mirror: Mirror, coated_on: dt.date) -> str:
         return ""
     if removal.state in (State.FINISHED, State.COUNTERSIGNED):
         # Finished: the mirror came out on the day its work was done (a diff review dated a coating ten days before).
-        done = work_done_on(removal) or timezone.localtime(removal.finished_at, mirror.subsystem.telescope.site.zone
-                                                           ).date()
+        done = came_out_on(removal)
         if coated_on >= done:
             return ""
         return (f"the mirror came out of the telescope on {done:%d %b %Y} ({removal.number}, its removal): a coating "

@@ -158,13 +158,13 @@ class TelescopeOut:
     kind: str
     removal: WorkOrder
     reinstall: WorkOrder | None
+    subsystem_id: int
 
     def notice(self) -> tuple[str, str, str]:
         """Title, what stands, what not to do: for the pages and the paper of other work at this telescope. The day
         it came out is the day the removal's work was done (``work_done_on``: entered from paper, it is not the
         day it was entered)."""
-        zone = self.removal.site.zone
-        done = work_done_on(self.removal) or timezone.localtime(self.removal.finished_at, zone).date()
+        done = came_out_on(self.removal)
         if self.reinstall is None:
             reinstall = "no reinstall order is planned yet: the site engineer plans one"
         else:
@@ -203,7 +203,7 @@ def telescopes_out(sites: Sequence[Site] | None = None) -> list[TelescopeOut]:
         to_do.setdefault(item.subsystem_id, item.work_order)
     out = [
         TelescopeOut(subsystem.telescope_id, subsystem.telescope.name, subsystem.name, subsystem.kind_label.lower(),
-                     order, to_do.get(pk))
+                     order, to_do.get(pk), pk)
         for pk, (order, subsystem) in removed.items()
     ]
     return sorted(out, key=lambda o: (name_key(o.telescope), o.removal.finished_at))
@@ -1297,6 +1297,12 @@ def work_done_on(order: WorkOrder) -> dt.date | None:
     return in_force or work_done_at_finish(order)
 
 
+def came_out_on(removal: WorkOrder) -> dt.date:
+    """The day a finished removal took its mirror out: the day its work was done (``work_done_on``: entered from
+    paper, not the day it was entered), else the site's day it was finished."""
+    return work_done_on(removal) or timezone.localtime(removal.finished_at, removal.site.zone).date()
+
+
 def recoat_began_on(plan) -> dt.date:
     """The day a recoat (``mirrors.RecoatPlan``) began, from which a coating or a record counts as its own: for one
     going on from an earlier recoat's removal with the mirror out (``continues_from``), the day that removal's work
@@ -1304,11 +1310,9 @@ def recoat_began_on(plan) -> dt.date:
     entered later keeps its true date, and the coating it replaces is older than the plan). One rule for the coating
     refused before the removal (``mirrors.services.coating_before_removal``), the strip and coat's finish
     (``coating_unlogged``) and the realignment's restarts (``services._restarted_by_the_new_coating``)."""
-    zone = plan.mirror.subsystem.telescope.site.zone
-    removal = plan.continues_from
-    if removal is not None:
-        return work_done_on(removal) or timezone.localtime(removal.finished_at, zone).date()
-    return min(plan.starts_on, timezone.localtime(plan.created_at, zone).date())
+    if plan.continues_from is not None:
+        return came_out_on(plan.continues_from)
+    return min(plan.starts_on, timezone.localtime(plan.created_at, plan.mirror.subsystem.telescope.site.zone).date())
 
 
 def work_done_at_finish(order: WorkOrder) -> dt.date | None:
