@@ -188,6 +188,17 @@ def test_the_notice_goes_once_the_reinstall_is_finished(recoat, other_work, site
     assert selectors.telescope_out_notices(other_work) == []
 
 
+def test_a_removal_and_reinstall_finished_at_the_same_instant_leave_the_telescope_in(recoat, site, users):
+    """Paper entered later can give both the same timestamp; the later order (by number) decides, on every database
+    (PostgreSQL returned ties in either order, and a refactor's test failed there)."""
+    _finish(recoat["removal"], users)
+    _finish(recoat["coating"], users)
+    _finish(recoat["reinstall"], users)
+    same = WorkOrder.objects.get(pk=recoat["reinstall"].pk).finished_at
+    WorkOrder.objects.filter(pk=recoat["removal"].pk).update(finished_at=same)
+    assert selectors.telescopes_out([site]) == []
+
+
 def test_a_withdrawn_reinstall_leaves_the_telescope_out_and_says_none_is_planned(recoat, site, users):
     _finish(recoat["removal"], users)
     services.work_order_move(recoat["reinstall"], "withdraw", users["engineer"], reason="replanned")

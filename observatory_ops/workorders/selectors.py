@@ -189,7 +189,7 @@ def telescopes_out(sites: Sequence[Site] | None = None) -> list[TelescopeOut]:
     newest: dict[int, tuple[WorkOrder, Subsystem]] = {}
     items = Prefetch("items", queryset=WorkOrderItem.objects.select_related("subsystem__telescope"))
     finished = finished.select_related("site").prefetch_related(items)
-    for order in finished.order_by("finished_at"):
+    for order in finished.order_by("finished_at", "pk"):
         for item in order.items.all():
             newest[item.subsystem_id] = (order, item.subsystem)
     removed = {pk: pair for pk, pair in newest.items() if pair[0].recoat_phase == "removal"}
@@ -198,7 +198,7 @@ def telescopes_out(sites: Sequence[Site] | None = None) -> list[TelescopeOut]:
     to_do: dict[int, WorkOrder] = {}
     pending = WorkOrderItem.objects.filter(
         subsystem_id__in=list(removed), work_order__recoat_phase="reinstall", work_order__state__in=TO_DO
-    ).select_related("work_order").order_by(F("work_order__planned_date").asc(nulls_last=True))
+    ).select_related("work_order").order_by(F("work_order__planned_date").asc(nulls_last=True), "work_order__pk")
     for item in pending:
         to_do.setdefault(item.subsystem_id, item.work_order)
     out = [
@@ -206,7 +206,7 @@ def telescopes_out(sites: Sequence[Site] | None = None) -> list[TelescopeOut]:
                      order, to_do.get(pk), pk)
         for pk, (order, subsystem) in removed.items()
     ]
-    return sorted(out, key=lambda o: (name_key(o.telescope), o.removal.finished_at))
+    return sorted(out, key=lambda o: (name_key(o.telescope), o.removal.finished_at, o.removal.pk))
 
 
 #: The recoat phases whose orders are written for a telescope without its mirror (the reinstall puts it back): they
