@@ -304,3 +304,29 @@ def test_a_booked_run_on_the_nights_of_a_re_dated_recoat_is_warned_of(scene, use
     BookedRun.objects.create(site=site, title="Old window", starts_on=recoat.starts_on,
                              ends_on=recoat.starts_on + dt.timedelta(days=1))
     assert [over.run for over in mirror_services.runs_over_recoats(site, today)] == [moved]
+
+
+def test_a_mirror_left_out_by_a_stopped_recoat_keeps_its_telescope_out_up_to_today(scene, users):
+    """As the late reinstall above, with the recoat stopped (its orders still to do withdrawn) and none planned again:
+    its telescope counted in service over the unlogged nights the mirror was out (the last notes). Hand computation
+    as the test above: no use on the unlogged nights the mirror was out, up to today."""
+    from django.utils import timezone
+
+    from observatory_ops.workorders.models import State, WorkOrder
+
+    site, today, plan, mirror = scene
+    NightUsage.objects.filter(site=site, night__gte=today - dt.timedelta(days=10)).delete()
+    ServicePlan.objects.filter(pk=plan.pk).update(counting_from=today - dt.timedelta(days=20))
+    first_unlogged = today - dt.timedelta(days=10)
+    recoat = mirror_services.recoat_plan_create(mirror, today - dt.timedelta(days=30), list(RECOAT_PHASES), 10.0,
+                                                users["engineer"])
+    orders = {o.recoat_phase: o for o in recoat.work_orders.all()}
+    finished = timezone.make_aware(dt.datetime.combine(first_unlogged, dt.time(12)), site.zone)
+    WorkOrder.objects.filter(pk=orders["removal"].pk).update(state=State.FINISHED, finished_at=finished)
+    for phase in ("coating", "reinstall", "realignment"):
+        workorders.work_order_move(WorkOrder.objects.get(pk=orders[phase].pk), "withdraw", users["engineer"],
+                                   reason="the coating plant closed")
+    status = PlanStatus.objects.get(plan=plan)  # the withdrawal recomputed the site
+    assert status.forecast_date == max(_reached(first_unlogged, (first_unlogged, today)), today)
+    assert (f"the stopped recoat of F50: Primary mirror ({first_unlogged:%d %b %Y} to {today:%d %b %Y}; its primary "
+            f"mirror out since {first_unlogged:%d %b %Y} (removed by {orders['removal'].number})") in status.basis

@@ -296,3 +296,30 @@ def test_a_hand_back_dated_before_the_removal_is_not_left_to_the_realignment(sto
     key = next(i for i, step in enumerate(order.step_list) if is_hand_back(step))
     assert (f"If this work was done on paper before the mirror came out ({out_on:%d %b %Y}), finish the order with "
             "the day it was done") in services._telescope_out_refusal(order, key)
+
+
+def test_stopped_and_not_planned_again_the_mirror_out_keeps_its_telescope_out_up_to_today(orders, users):  # noqa: F811
+    """The last notes: a recoat stopped with its mirror out and not planned again counted no downtime, so the
+    forecasts took the telescope as observing. It counts out from the day the mirror came out up to today, as a recoat
+    running late with its mirror out does (``recoat_downtime``), and once a recoat is planned again, that one's
+    downtime alone."""
+    from observatory_ops.planning.services import downtimes_of
+
+    recoat = {order.recoat_phase: order for order in slings_rated(list(orders.values()))}
+    services.work_order_move(WorkOrder.objects.get(pk=recoat["removal"].pk), "issue", users["engineer"])
+    _issued_back(recoat["removal"])
+    today = site_today(recoat["removal"].site)
+    out_on = today - dt.timedelta(days=10)
+    _finished_on(recoat["removal"], users, out_on)
+    for phase in ("coating", "reinstall", "realignment"):
+        services.work_order_move(WorkOrder.objects.get(pk=recoat[phase].pk), "withdraw", users["engineer"],
+                                 reason="stopped")
+    removal = WorkOrder.objects.get(pk=recoat["removal"].pk)
+    [down] = downtimes_of(removal.site, removal.telescope_id, False, today)
+    assert (down.first, down.last, down.nights) == (out_on, today, 11) and down.mirror_out
+    assert down.what == "the stopped recoat of T1: Primary"
+    assert f"out since {out_on:%d %b %Y} (removed by {removal.number}) and no recoat in hand" in down.changed
+
+    plan = _planned_again(removal, users)
+    [down] = downtimes_of(removal.site, removal.telescope_id, False, today)
+    assert down == recoat_downtime(RecoatPlan.objects.get(pk=plan.pk), today)

@@ -1049,8 +1049,9 @@ def _unconfirmed_state(trig, before: tuple[dt.datetime, float], serviced: dt.dat
 class Downtime:
     """A telescope out of service on coming nights, for a recoat in hand (``mirrors.services.recoat_in_hand``: going
     ahead, some order of it not finished): its counters expect no use on ``first`` to ``last``, both counted
-    (``recoat_downtime``: its planned days, as its work orders now stand). Also the nights every telescope of a site is
-    out, for the enclosure they share (``_all_out``), with its own ``out``. ``changed``: why the nights differ from
+    (``recoat_downtime``: its planned days, as its work orders now stand). Also a mirror a stopped recoat left out
+    (``mirrors_left_out``), a closure (``closure_downtime``), and the nights every telescope of a site is out, for the
+    enclosure they share (``_all_out``), with its own ``out``. ``changed``: why the nights differ from
     the recoat's planned days ("" when they do not)."""
 
     first: dt.date
@@ -1202,8 +1203,13 @@ def _downtime_by_telescope(site: Site, today: dt.date, closures: list | None = N
     ``closure_downtime``), past days too (unlogged nights are counted from the first of them, ``without_downtime``).
     ``closures``: the site's (``closures_of``), where the caller has read them already."""
     down: dict[int, list[Downtime]] = {}
-    for plan in recoats_in_hand(site):
+    in_hand = recoats_in_hand(site)
+    for plan in in_hand:
         down.setdefault(plan.mirror.subsystem.telescope_id, []).append(recoat_downtime(plan, today))
+    covered = {plan.mirror.subsystem_id for plan in in_hand}
+    for out in mirrors_left_out(site, today):
+        if out.mirror_id not in covered:
+            down.setdefault(out.telescope_id, []).append(out.downtime)
     if closures is None:
         closures = closures_of(site)
     every = list(site.telescopes.values_list("pk", flat=True)) if any(c.telescope_id is None for c in closures) else []
@@ -1213,6 +1219,35 @@ def _downtime_by_telescope(site: Site, today: dt.date, closures: list | None = N
     for downtimes in down.values():
         downtimes.sort(key=lambda d: d.first)
     return down
+
+
+@dataclass(frozen=True)
+class MirrorLeftOut:
+    """A mirror a stopped recoat left out of its telescope (``mirror_id``: its subsystem), and the downtime it
+    holds the telescope out for."""
+
+    telescope_id: int
+    mirror_id: int
+    downtime: Downtime
+
+
+def mirrors_left_out(site: Site, today: dt.date) -> list[MirrorLeftOut]:
+    """The site's mirrors out of their telescopes (``workorders.selectors.telescopes_out``), each with its
+    telescope's downtime from the day it came out up to ``today``, as a recoat running late with its mirror out
+    (``recoat_downtime``): from the next night on the forecasts expect use again. Only the caller's mirrors with no
+    recoat in hand count it (a recoat stopped with its mirror out and not planned again counted no downtime: the
+    forecasts took the telescope as observing; the last notes). One query where no mirror is out."""
+    from observatory_ops.workorders.selectors import came_out_on, telescopes_out  # work orders build on planning
+
+    left = []
+    for out in telescopes_out([site]):
+        first = came_out_on(out.removal)
+        changed = (f"its {out.kind} out since {first:%d %b %Y} (removed by {out.removal.number}) and no recoat in "
+                   "hand to put it back: out of service up to today")
+        downtime = Downtime(first, max(first, today), f"the stopped recoat of {out.telescope}: {out.mirror}",
+                            changed=changed, mirror_out=True)
+        left.append(MirrorLeftOut(out.telescope_id, out.subsystem_id, downtime))
+    return left
 
 
 def closure_downtime(closure) -> Downtime:
