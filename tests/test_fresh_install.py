@@ -81,6 +81,13 @@ def test_the_dashboard_links_an_engineer_to_the_sites_settings(engineer, users, 
     assert "Site settings" not in _text(client.get(site.get_absolute_url()))
 
 
+def test_the_admin_list_of_sites_gives_the_id_a_task_run_by_hand_takes(engineer, site):
+    """README, "A task can be run by hand": ``celery call`` takes a site's id, which an operator found said nowhere."""
+    page = _text(engineer.get("/admin/registry/site/"))
+    assert "Site id (a task run by hand takes it)" in page
+    assert re.search(rf"{re.escape(site.slug)} .* {site.pk}\b", page)
+
+
 # --- the demo is never offered beside real users ------------------------------------------------------------
 
 

@@ -35,9 +35,14 @@ class CrewDayOffInline(admin.TabularInline):
 class SiteAdmin(ProtectedNamed, SimpleHistoryAdmin):
     form = SiteAdminForm
     inlines = [CrewDayOffInline]
-    list_display = ("name", "slug", "position", "elevation_m", "time_zone")
+    list_display = ("name", "slug", "position", "elevation_m", "time_zone", "site_id")
     prepopulated_fields = {"slug": ("name",)}
     filter_horizontal = ("digest_to",)
+
+    @admin.display(description="site id (a task run by hand takes it)", ordering="pk")
+    def site_id(self, site):
+        """The number ``celery call`` takes (README, "A task can be run by hand"): no page said it."""
+        return site.pk
 
     @admin.display(description="position")
     def position(self, site):
