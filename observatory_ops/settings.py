@@ -119,6 +119,7 @@ INSTALLED_APPS = [
 
 MIDDLEWARE = [
     "django.middleware.security.SecurityMiddleware",
+    "observatory_ops.content_policy.ContentPolicyMiddleware",
     "whitenoise.middleware.WhiteNoiseMiddleware",
     "observatory_ops.upload_limit.UploadLimitMiddleware",  # before anything reads the body (the CSRF check does)
     "django.contrib.sessions.middleware.SessionMiddleware",

@@ -33,7 +33,8 @@ TIMEOUT_MS = 15_000
 
 @pytest.fixture
 def browser_page(monkeypatch):
-    """A fresh page in a fresh browser context; fails the test on any 5xx response or uncaught page error."""
+    """A fresh page in a fresh browser context; fails the test on any 5xx response, uncaught page error or anything
+    the Content-Security-Policy refused."""
     executable = require_tool(CHROMIUM, "Chromium (Debian package chromium)")
     # Playwright's sync API keeps an event loop running in this thread, and Django then refuses ORM calls
     # made here (SynchronousOnlyOperation). The test thread never shares a connection with async code, so
@@ -47,6 +48,10 @@ def browser_page(monkeypatch):
         if response.status >= 500:
             problems.append(f"HTTP {response.status} from {response.url}")
 
+    def note_policy_refusal(message) -> None:  # observatory_ops/content_policy.py: nothing the pages need is refused
+        if message.type == "error" and "Content Security Policy" in message.text:
+            problems.append(f"refused by the page's policy: {message.text}")
+
     with sync_playwright() as playwright:
         browser = playwright.chromium.launch(executable_path=executable, args=CHROMIUM_ARGS)
         context = browser.new_context(viewport={"width": 1280, "height": 900})
@@ -54,6 +59,7 @@ def browser_page(monkeypatch):
         page = context.new_page()
         page.on("pageerror", lambda error: problems.append(f"page error: {error}"))
         page.on("response", note_server_error)
+        page.on("console", note_policy_refusal)
         try:
             yield page
         finally:

@@ -1,0 +1,67 @@
+// A work order's page (workorders/detail.html): its step and isolation ticks.
+// Progressive enhancement: a changed box is recorded at once and the page stays where it is. Without a
+// script, or when the answer is not the expected one, each line's own form (Record) does the same. With no
+// connection the box goes back as it was and says so: a plain post would lose the page to the browser's error page.
+// A line takes no tap while its tick is being sent, nor for SETTLE_MS after it is recorded: on a tablet the second
+// tap of a double tap on a line's words took back the tick the first had just recorded (a tablet review).
+var SETTLE_MS = 1000;
+var said = document.getElementById("tick-said");
+function sayRefused(text) {  // emptied first, so the same refusal twice is announced twice
+  said.textContent = "";
+  window.setTimeout(function () { said.textContent = text; }, 50);
+}
+document.querySelectorAll("form.tick").forEach(function (form) {
+  var box = form.querySelector("input[type=checkbox]"), note = form.querySelector(".tick-note");
+  var busy = false;
+  form.querySelector("button").hidden = true;
+  // A tap on the box or on its words reaches the label; cancelled, the box stays as it is and sends nothing.
+  form.querySelector("label").addEventListener("click", function (event) {
+    if (busy) { event.preventDefault(); }
+  });
+  box.addEventListener("change", function () {
+    // The lockout and the lock removal ask first (data-confirm): a tap on their words ticks them, and their ticks
+    // let other steps go on. The lockout is refused while an isolation point is not ticked, and the refusal names
+    // the points: asked first, the technician would affirm a lockout that is then refused.
+    var refusedAnyway = form.closest(".lockout-line") !== null
+      && document.querySelector("#isolation input[type=checkbox]:not(:checked)") !== null;
+    if (box.checked && form.dataset.confirm && !refusedAnyway && !window.confirm(form.dataset.confirm)) {
+      box.checked = false;
+      return;
+    }
+    var data = new FormData(form);
+    // A refusal answers one request: once anything is changed again, the lines it was shown on read as recorded
+    // (what it asked for may have been done meanwhile).
+    document.querySelectorAll("form.tick .tick-note.refused").forEach(function (shown) {
+      shown.classList.remove("refused");
+      shown.textContent = shown.dataset.recorded;
+    });
+    busy = true;
+    fetch(form.action, {method: "POST", body: data, headers: {"Accept": "application/json"}, credentials: "same-origin"})
+      .catch(function () {
+        box.checked = !box.checked;
+        busy = false;
+        note.classList.add("refused");
+        note.textContent = "No connection to the server: this tick was not kept. Tap again when it is back.";
+        sayRefused(note.textContent);
+        return null;
+      })
+      .then(function (response) {
+        if (response === null) { return; }
+        return response.json().then(function (answer) {
+          // A refusal carries the line's state as recorded (someone else may have ticked it meanwhile).
+          var ticked = typeof answer.ticked === "boolean" ? answer.ticked : (response.ok ? box.checked : !box.checked);
+          box.checked = ticked;
+          form.parentNode.classList.toggle("ticked", ticked);
+          note.dataset.recorded = answer.note || "";
+          note.classList.toggle("refused", !response.ok);
+          note.textContent = response.ok ? answer.note : answer.error + (answer.note ? " (" + answer.note + ")" : "");
+          if (!response.ok) { sayRefused(answer.error); }
+          if (response.ok) {
+            window.setTimeout(function () { busy = false; }, SETTLE_MS);
+          } else {
+            busy = false;
+          }
+        }, function () { busy = false; form.submit(); });  // not the expected answer: the plain post
+      });
+  });
+});
