@@ -28,6 +28,9 @@ SITE_URL         address the pages are served at, for links in e-mails and QR co
 SECURE_SSL_REDIRECT  with DEBUG off, "0" when the proxy in front already sends plain HTTP to HTTPS (default on).
 SECURE_HSTS_SECONDS  with DEBUG off, how long browsers keep to HTTPS (31536000, a year).
 LOG_LEVEL        the console log's level: DEBUG, INFO, WARNING (the default), ERROR or CRITICAL.
+OBSOPS_DIGEST_HOUR  the hour of each site's day from which its due digest goes out (6).
+OBSOPS_SERVE_DEBUG  "1" lets the WSGI application (gunicorn) serve with DEBUG on, for a development setup only
+                 (``wsgi.py`` refuses otherwise).
 A whole-number variable that is not one stops start-up with a message naming it.
 """
 import os

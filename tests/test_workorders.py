@@ -179,6 +179,20 @@ def test_workorder_pdf_command_writes_a_pdf(order, tmp_path, capsys):
         call_command("workorder_pdf", "99999", "-o", str(out))
 
 
+def test_workorder_pdf_command_s_qr_code_goes_to_site_url(order, tmp_path, settings, monkeypatch):
+    """A newcomer review: the command's own default, the development server's address, went into the QR code of
+    paper printed on a production site; it follows SITE_URL, as the weekly batch does, unless --base-url is given."""
+    from observatory_ops.workorders.management.commands import workorder_pdf
+
+    given = []
+    real = workorder_pdf.selectors.sheet
+    monkeypatch.setattr(workorder_pdf.selectors, "sheet", lambda o, url: given.append(url) or real(o, url))
+    settings.SITE_URL = "https://obsops.example.org"
+    call_command("workorder_pdf", str(order.pk), "-o", str(tmp_path / "a.pdf"))
+    call_command("workorder_pdf", str(order.pk), "-o", str(tmp_path / "b.pdf"), "--base-url", "http://10.0.0.5:8000/")
+    assert given == [f"https://obsops.example.org/workorders/{order.pk}/", f"http://10.0.0.5:8000/workorders/{order.pk}/"]
+
+
 def test_week_batch_pdf_holds_every_issued_order(order, drive, users, client, site):
     second = services.work_order_from_due(list(drive.plans.all()), users["engineer"])
     for o in (order, second):

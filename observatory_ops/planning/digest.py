@@ -1,4 +1,6 @@
-"""The due digest: one e-mail a day per site to its engineers, listing what is overdue and due, and why.
+"""The due digest: one e-mail a day per site, listing what is overdue and due, and why, to the engineers the site
+lists (``Site.digest_to``), or where it lists none to everyone in the engineer role or above; where none of those
+listed can receive it any more, to the administrators, saying why (``recipients``, ``listed_gone``).
 
 Sent by the ``planning.due_digest_send`` task (hourly, for the sites due for it, see ``CELERY_BEAT_SCHEDULE``)
 through Django's mail: printed by the console backend unless ``EMAIL_BACKEND`` says otherwise.

@@ -100,7 +100,6 @@ _SUBHEADING = ParagraphStyle("wo-subheading", parent=_BODY, fontName=FONT_BOLD, 
                              keepWithNext=1)
 #: A heading repeated at the top of the page a list runs onto (``_continued``); nothing to keep it with there.
 _CONTINUED = ParagraphStyle("wo-continued", parent=_HEADING, spaceBefore=0, keepWithNext=0)
-_BLANK_PAGE = ParagraphStyle("wo-blank-page", parent=_BODY, textColor=GREY, alignment=TA_CENTER)
 _NOTE = ParagraphStyle("wo-note", parent=_SMALL, textColor=GREY, spaceAfter=4)
 _BULLET = ParagraphStyle("wo-bullet", parent=_BODY, leftIndent=11, bulletIndent=1, spaceAfter=2)
 _ITEM = ParagraphStyle("wo-item", parent=_BODY, spaceAfter=4)

@@ -162,8 +162,7 @@ class TelescopeOut:
 
     def notice(self) -> tuple[str, str, str]:
         """Title, what stands, what not to do: for the pages and the paper of other work at this telescope. The day
-        it came out is the day the removal's work was done (``work_done_on``: entered from paper, it is not the
-        day it was entered)."""
+        it came out is ``came_out_on``."""
         done = came_out_on(self.removal)
         if self.reinstall is None:
             reinstall = "no reinstall order is planned yet: the site engineer plans one"
@@ -360,7 +359,7 @@ def recoat_hands_back(order: WorkOrder, day: dt.date | None = None) -> WorkOrder
         removal = plan.removal() if plan is not None else None
         if removal is None or removal.state not in (State.FINISHED, State.COUNTERSIGNED):
             continue
-        if day is not None and day < (work_done_on(removal) or day):
+        if day is not None and day < came_out_on(removal):
             continue
         return realignment
     return None

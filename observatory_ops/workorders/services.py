@@ -81,6 +81,7 @@ from .models import (
 from .selectors import (
     Alongside,
     brake_air_vented,
+    came_out_on,
     crew_state,
     hand_backs_held,
     hazards_missing,
@@ -102,7 +103,6 @@ from .selectors import (
     unlabelled,
     unticked_lines,
     work_alongside,
-    work_done_on,
 )
 
 #: The longest name the finish form takes for one of the crew (names are separated by commas).
@@ -1448,7 +1448,7 @@ def _telescope_out_refusal(order: WorkOrder, key: int) -> str:
         whose = realignment.telescope.name if realignment.telescope_id else "the telescope"
         plan = realignment.recoat_plans.order_by("-pk").first()
         removal = plan.removal() if plan is not None else None
-        out_on = work_done_on(removal) if removal is not None else None
+        out_on = came_out_on(removal) if removal is not None else None
         # Work done on paper before the mirror came out handed back then (``recoat_hands_back`` with its day).
         before = (f". If this work was done on paper before the mirror came out ({out_on:%d %b %Y}), finish the order "
                   "with the day it was done: its hand-back is then confirmed as done that day") if out_on else ""

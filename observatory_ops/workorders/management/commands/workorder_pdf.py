@@ -1,5 +1,6 @@
 from pathlib import Path
 
+from django.conf import settings
 from django.core.management.base import BaseCommand, CommandError
 
 from observatory_ops.workorders import pdf, selectors
@@ -13,8 +14,10 @@ class Command(BaseCommand):
         parser.add_argument("id", type=int, help="work order id (the number without WO- and zeros)")
         parser.add_argument("-o", "--output", required=True, help="PDF file to write")
         parser.add_argument("--paper", choices=["A4", "letter"], default="A4")
+        # The address the weekly batch and the digest's links use (a newcomer review: this command's own default,
+        # the development server's, put 127.0.0.1 in the QR code of paper printed on a production site).
         parser.add_argument(
-            "--base-url", default="http://127.0.0.1:8000", help="address of the site, for the QR code"
+            "--base-url", default=None, help="address of the site, for the QR code (default: SITE_URL)"
         )
 
     def handle(self, *args, **o):
@@ -25,7 +28,7 @@ class Command(BaseCommand):
         folder = output.parent
         if not folder.is_dir():
             raise CommandError(f"the folder {str(folder)!r} does not exist: create it, or give another output file")
-        url = o["base_url"].rstrip("/") + order.get_absolute_url()
+        url = (o["base_url"] or settings.SITE_URL).rstrip("/") + order.get_absolute_url()
         data = pdf.render_sheet(selectors.sheet(order, url), o["paper"])
         try:
             output.write_bytes(data)
