@@ -323,3 +323,33 @@ def test_stopped_and_not_planned_again_the_mirror_out_keeps_its_telescope_out_up
     plan = _planned_again(removal, users)
     [down] = downtimes_of(removal.site, removal.telescope_id, False, today)
     assert down == recoat_downtime(RecoatPlan.objects.get(pk=plan.pk), today)
+
+
+def test_with_the_mirror_out_a_blocked_run_costs_five_times_its_hours_and_a_closed_night_nothing(stopped):
+    """A newcomer review: the planner priced its windows by a second formula beside ``night_costs``, and its calendar
+    said "blocked" for nights it priced 5 x. One rule now (``night_costs(blocking=False)``): the hand sum below,
+    each night moonless dark hours x open fraction (calc.windows.night_cost), x 5 on the booked ones (BOOKED_WEIGHT),
+    0 on a closed one whatever is booked on it."""
+    import math
+
+    from observatory_ops.planning.models import BookedRun, Closure
+
+    mirror = _mirror(stopped)
+    site, start = stopped.site, site_today(stopped.site)
+    BookedRun.objects.create(site=site, title="Occultation", starts_on=start + dt.timedelta(days=2),
+                             ends_on=start + dt.timedelta(days=4), blocked=True)
+    Closure.objects.create(site=site, first_night=start + dt.timedelta(days=3), last_night=start + dt.timedelta(days=3),
+                           reason="road closed")
+    left = mirror_services.recoat_phases_left(mirror)
+    costs, _off, found = mirror_services.site_crew_windows(site, start, 60, [p for _, p in left.phases],
+                                                           telescope=mirror.subsystem.telescope, out_already=True)
+    by_night = {c.night: c for c in costs}
+    for offset, weight in ((1, 1), (2, 5), (3, 0), (4, 5), (5, 1)):
+        night = by_night[start + dt.timedelta(days=offset)]
+        assert night.cost == pytest.approx(night.moonless_dark_hours * night.open_fraction * weight)
+    assert all(math.isfinite(c.cost) for c in costs)
+    first = found[0]
+    assert first["cost"] == pytest.approx(sum(c.cost for c in costs if c.night <= first["end"]), abs=1e-3)
+    # Planned with the mirror in, the run blocks its nights, the closed one too.
+    blocked = mirror_services.night_costs(site, start, 10, mirror.subsystem.telescope)
+    assert [math.isinf(c.cost) for c in blocked[2:5]] == [True, True, True]

@@ -652,8 +652,12 @@ PRIOR_TOO_FEW_NIGHTS = "too few nights of this month logged"
 PRIOR_NO_DARK_LOGGED = "no dark hours in the nights of this month logged"
 
 
-def night_costs(site: Site, start: dt.date, horizon_days: int, telescope: Telescope | None = None) -> list[NightCost]:
-    """Cost to lose each coming night: moonless dark hours x the month's open fraction; bookings cost more."""
+def night_costs(site: Site, start: dt.date, horizon_days: int, telescope: Telescope | None = None,
+                blocking: bool = True) -> list[NightCost]:
+    """Cost to lose each coming night (``calc.windows.night_cost``): moonless dark hours x the month's open fraction; a
+    booked run's nights ``BOOKED_WEIGHT`` times that, or, for a run booked as blocked, infinite, unless not
+    ``blocking`` (the telescope out whatever the window: ``site_crew_windows``); a closed night nothing, unless a
+    blocked run stands on it."""
     if horizon_days < 1:
         raise ValueError("the horizon must be at least one day")
     end = start + dt.timedelta(days=horizon_days - 1)
@@ -679,6 +683,8 @@ def night_costs(site: Site, start: dt.date, horizon_days: int, telescope: Telesc
                 (blocked if run.blocked else expensive)[i] = True
     per_night_fraction = np.array([fraction[n.night.month - 1] for n in sky])
     moonless = np.array([n.moonless_dark_hours for n in sky])
+    if not blocking:
+        expensive, blocked = expensive | blocked, np.zeros(len(sky), dtype=bool)
     cost = windows.night_cost(moonless, per_night_fraction, expensive, BOOKED_WEIGHT)
     cost = np.where(blocked, np.inf, cost)
     # A night of a closure of the telescope (or of the whole site) loses nothing: it would not be observed. A run
@@ -708,8 +714,10 @@ def hours_lost(site: Site, first: dt.date, last: dt.date, telescope: Telescope |
     two others, said beside it, keep a reader from taking it for the dark time lost (a manager's review: 19.8 h read
     beside 182 h of darkness, 45.7 of them moonless)."""
     nights = night_costs(site, first, (last - first).days + 1, telescope)
-    return (float(sum(n.moonless_dark_hours * n.open_fraction for n in nights if not n.closed)),
-            float(sum(n.dark_hours for n in nights)), float(sum(n.moonless_dark_hours for n in nights)))
+    observed = [n for n in nights if not n.closed]
+    lost = windows.night_cost([n.moonless_dark_hours for n in observed], [n.open_fraction for n in observed])
+    return (float(lost.sum()), float(sum(n.dark_hours for n in nights)),
+            float(sum(n.moonless_dark_hours for n in nights)))
 
 
 def with_days_out(plans: list[RecoatPlan], today: dt.date) -> list[RecoatPlan]:
@@ -774,14 +782,10 @@ def site_crew_windows(
     diff review was offered the window four months on, "4.4 hours", the telescope out all the while); a booked run
     cannot be observed before the mirror is back, so its nights are priced at ``BOOKED_WEIGHT`` times their hours, not
     blocked."""
-    costs = night_costs(site, start, horizon_days, telescope)
+    costs = night_costs(site, start, horizon_days, telescope, blocking=not out_already)
     days_off = crew_days_off(site, costs[0].night, costs[-1].night)
-    # A closed night costs nothing whatever is booked on it (nothing is observed).
-    priced = np.array([c.cost if np.isfinite(c.cost) or not out_already
-                       else 0.0 if c.closed else c.moonless_dark_hours * c.open_fraction * BOOKED_WEIGHT
-                       for c in costs])
-    found = crew_windows(costs[0].night, priced, phases, site.crew_days, days_off, alternatives,
-                         lost_from_start=out_already)
+    found = crew_windows(costs[0].night, np.array([c.cost for c in costs]), phases, site.crew_days, days_off,
+                         alternatives, lost_from_start=out_already)
     return costs, days_off, found
 
 
