@@ -31,3 +31,14 @@ def test_a_failure_inside_the_api_is_a_json_500_and_the_pages_keep_their_own(cli
     assert response.status_code == 500 and response["Content-Type"] == "application/json"
     assert "stored nothing" in response.json()["errors"][0]["message"]
     assert client.get("/no-such-page/").status_code == 404  # outside /api/ nothing changes
+
+
+def test_the_endpoints_a_wrong_address_is_told_are_every_route_of_the_api():
+    """``api.middleware.ENDPOINTS`` is written by hand beside api/urls.py (a newcomer review): a new route must be
+    named there too, with its method."""
+    from observatory_ops.api.middleware import ENDPOINTS
+    from observatory_ops.api.urls import urlpatterns
+
+    routes = ["/" + str(p.pattern).replace("<slug:slug>", "<slug>") for p in urlpatterns]
+    assert all(route in ENDPOINTS for route in routes), (routes, ENDPOINTS)
+    assert ENDPOINTS.count("/api/v1/") == len(routes)
