@@ -1211,6 +1211,17 @@ def is_hand_back(step: str) -> bool:
     """True when ``step`` (a "[plan] " label before it ignored) hands the observatory back to robotic control."""
     return unlabelled(step).strip() in HAND_BACKS
 
+
+#: The words by which a step asks for its result with its tick (the realignment's check of the collimation on a star,
+#: or a site's own step written so): the tick then takes what was found, in the site's own measure (arcseconds of
+#: coma, a spot's offset in pixels, "no coma seen"), since none is the same everywhere.
+RESULT_ASKED = "record the result"
+
+
+def asks_result(step: str) -> bool:
+    """True when ``step`` asks for its result with its tick (``RESULT_ASKED`` in it, in any case)."""
+    return RESULT_ASKED in step.lower()
+
 #: Every step the catalogue places before isolation, and every step of its plans' restoring: how the upgrade
 #: that gave stored plans their three step groups (planning migration 0007) told them apart by their words.
 #: Work orders no longer read words: they place steps by the plans' groups (workorders.services).

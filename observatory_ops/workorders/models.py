@@ -583,6 +583,10 @@ class ChecklistTick(models.Model):
     )
     text = models.TextField(help_text="What was ticked, as it read at the time.")
     ticked = models.BooleanField(help_text="False when this row takes an earlier tick back.")
+    result = models.CharField(
+        max_length=200, blank=True, default="",
+        help_text="What was found, for a step that asks for its result (registry.catalogue.asks_result).",
+    )
     recorded_at = models.DateTimeField(auto_now_add=True)
     recorded_by = models.ForeignKey(settings.AUTH_USER_MODEL, on_delete=models.PROTECT, related_name="+")
 

@@ -54,7 +54,7 @@ from reportlab.platypus import (
     TableStyle,
 )
 
-from observatory_ops.registry.catalogue import is_hand_back, is_release_step
+from observatory_ops.registry.catalogue import asks_result, is_hand_back, is_release_step
 from observatory_ops.workorders.cautions import (
     NO_ISOLATION_NEEDED,
     PARTS_UNREGISTERED,
@@ -674,12 +674,16 @@ class _SetTopFlowables(SetTopFlowables):
     _ZEROSIZE = True
 
 
-def _checklist_line(text: str, tick: SheetTick | None, number: str = "", to_sign: bool = False) -> _Ticked:
+def _checklist_line(text: str, tick: SheetTick | None, number: str = "", to_sign: bool = False,
+                    to_write: bool = False) -> _Ticked:
     """A step or an isolation point with its tick box: ticked as on the work order page, with the page's note of
     who ticked it (or took the tick back) and when under it. The lockout step is printed in bold after "Lockout:", as
     the page marks it, so it does not read as one step among the others. ``to_sign``: a line to write who did it
-    and when under it (``SIGNED_STEP_LINE``, ``HAND_BACK_LINE``), on work still to do."""
+    and when under it (``SIGNED_STEP_LINE``, ``HAND_BACK_LINE``), on work still to do; ``to_write``: a line for the
+    result a step asks for (``RESULT_LINE``), not yet given."""
     note = f"<br/><font size=8>{_text(tick.note)}</font>" if tick is not None and tick.note else ""
+    if to_write:
+        note += f"<br/><font size=9>{_text(RESULT_LINE)}</font>"
     if to_sign:
         note += f"<br/><font size=9>{_text(HAND_BACK_LINE if is_hand_back(text) else SIGNED_STEP_LINE)}</font>"
     words = f"<b>Lockout: {_text(text)}</b>" if number and is_lockout_step(text) else _text(text)
@@ -721,7 +725,8 @@ def _steps(sheet: Sheet) -> list[Flowable]:
     if not sheet.steps:
         return [*story, _note("No steps listed.")]
     ticks = sheet.step_ticks or (None,) * len(sheet.steps)
-    lines = [_checklist_line(step, tick, f"{number}.", to_sign=not sheet.performed_by and _signed_step(step))
+    lines = [_checklist_line(step, tick, f"{number}.", to_sign=not sheet.performed_by and _signed_step(step),
+                             to_write=not sheet.performed_by and asks_result(step) and not (tick and tick.ticked))
              for number, (step, tick) in enumerate(zip(sheet.steps, ticks, strict=True), start=1)]
     return [*story[:-1], *_continued(story[-1], "Steps (continued)", lines)]
 
@@ -729,6 +734,8 @@ def _steps(sheet: Sheet) -> list[Flowable]:
 #: Written under the steps whose who and when the record must hold when the work is entered from paper: the lockout,
 #: the removal of the locks and the hand-back (a paper review: the ticks entered later carry the time of entry).
 SIGNED_STEP_LINE = "Initials ____________   Date ____________   Time ____________"
+#: Written under a step that asks for its result (``catalogue.asks_result``), to type in with its tick later.
+RESULT_LINE = "Result (value and unit, or what was seen) ________________________________________"
 HAND_BACK_LINE = ("Handed back by ____________   Date ____________   Time ____________   "
                   "Remote operators told: yes / no")
 

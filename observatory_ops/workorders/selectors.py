@@ -951,6 +951,11 @@ class ChecklistLine:
         return ""
 
     @property
+    def asks_result(self) -> bool:
+        """A step that asks for its result with its tick (``catalogue.asks_result``): the page gives it a box."""
+        return self.kind == STEP and catalogue.asks_result(self.text)
+
+    @property
     def anchor(self) -> str:
         return line_anchor(self.kind, self.key)
 
@@ -984,7 +989,7 @@ def tick_note(tick: ChecklistTick, text: str, zone: dt.tzinfo) -> str:
         return f"tick taken back by {said}"
     if tick.text != text:
         return f"ticked by {said} when it read \"{tick.text}\"; changed since: check it again"
-    return f"ticked by {said}"
+    return f"ticked by {said}; result: {tick.result}" if tick.result else f"ticked by {said}"
 
 
 def checklist(order: WorkOrder, points: list[IsolationPoint] | None = None,

@@ -44,6 +44,7 @@ from observatory_ops.registry.catalogue import (
     RETURNS_TO_SERVICE,
     TAKES_OUT_OF_CONTROL,
     TELESCOPE_STEPS,
+    asks_result,
     is_brake_air_step,
     is_hand_back,
     is_release_step,
@@ -107,6 +108,8 @@ from .selectors import (
 
 #: The longest name the finish form takes for one of the crew (names are separated by commas).
 CREW_NAME_MAX = 80
+#: The longest result a tick keeps (``models.ChecklistTick.result``).
+RESULT_LONGEST = 200
 class Refused(Exception):
     """A move or a completion that is not allowed; the message says why. Nothing was changed."""
 
@@ -1173,7 +1176,7 @@ def _parts_added_problem(order: WorkOrder, uses: Sequence[PartUse], parts_added:
 
 
 def checklist_tick_set(
-    order: WorkOrder, kind: str, key: int, ticked: bool, by, seen_text: str | None = None
+    order: WorkOrder, kind: str, key: int, ticked: bool, by, seen_text: str | None = None, result: str = ""
 ) -> ChecklistTick:
     """Record a tick (``ticked=True``) or take one back (``ticked=False``) on the checklist of an order underway.
 
@@ -1193,6 +1196,9 @@ def checklist_tick_set(
     it stands, nor the release's while a step done after the locks came off stands. Refused otherwise, naming what to
     tick or take back first (``_lockout_sequence_refusal``). Taking back the tick of locked-out work or of any step
     under power is always recorded.
+
+    A step that asks for its result (``catalogue.asks_result``: the check of the collimation on a star) is ticked only
+    with ``result``, what was found, kept on the tick; other lines keep none.
     """
     if not has_role(by, TECHNICIAN):
         raise Refused(f"ticking the checklist needs the {TECHNICIAN} role or above")
@@ -1219,6 +1225,14 @@ def checklist_tick_set(
             raise Refused(f"unknown kind of checklist line {kind!r}; it must be 'step' or 'point'")
         if seen_text is not None and seen_text.strip() != entry.text:
             raise Refused(f"{what} has been changed since your page was loaded; reload it and check again")
+        if ticked and kind == ChecklistTick.Kind.STEP and asks_result(entry.text):
+            entry.result = " ".join(result.split())
+            if not entry.result:
+                raise Refused(f"{what} asks for its result: write what was found (a value with its unit, or what was "
+                              "seen) in its box, then tick it")
+            if len(entry.result) > RESULT_LONGEST:
+                raise Refused(f"{what}'s result is {len(entry.result)} characters long: write it in at most "
+                              f"{RESULT_LONGEST}, and the rest in the findings when you finish")
         ticks = latest_ticks(current)
         latest = ticks.get(entry.line)
         already = latest is not None and latest.ticked and latest.text == entry.text

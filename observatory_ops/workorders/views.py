@@ -409,7 +409,7 @@ def work_order_tick(request, pk):
             raise services.Refused("the form did not say which line it is about; reload the page")
         tick = services.checklist_tick_set(
             order, request.POST.get("kind", ""), int(key), request.POST.get("ticked") == "1", request.user,
-            seen_text=request.POST.get("text"),
+            seen_text=request.POST.get("text"), result=request.POST.get("result", ""),
         )
     except services.Refused as exc:
         lines = selectors.checklist(order)
