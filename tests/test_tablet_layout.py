@@ -8,6 +8,7 @@ from __future__ import annotations
 
 import html
 import re
+from pathlib import Path
 
 import pytest
 from test_accessible_pages import CSS, contrast
@@ -56,8 +57,8 @@ def test_a_ticked_lines_muted_words_keep_aa_contrast_on_the_page_and_on_the_lock
 
 
 def test_the_checklists_script_finds_the_lockout_and_the_isolation_points_it_looks_at(order, users, client):  # noqa: F811
-    """detail.html's script skips the lockout's question while a box under #isolation is unticked, and tells the lockout
-    by its line's class lockout-line."""
+    """The order page's script (ticks.js) skips the lockout's question while a box under #isolation is unticked, and
+    tells the lockout by its line's class lockout-line."""
     services.work_order_move(order, "issue", users["engineer"])
     services.work_order_move(order, "start", users["technician"])
     client.force_login(users["technician"])
@@ -66,4 +67,6 @@ def test_the_checklists_script_finds_the_lockout_and_the_isolation_points_it_loo
     lockout = re.search(r'<li id="step-\d+" class="[^"]*\blockout-line"><form [^>]*class="tick" data-confirm="([^"]*)"',
                         page)
     assert lockout and html.unescape(lockout.group(1)).startswith("Record the lockout")
-    assert 'form.closest(".lockout-line")' in page and '#isolation input[type=checkbox]:not(:checked)' in page
+    assert "observatory_ops/ticks.js" in page  # the page's script, a static file (observatory_ops/content_policy.py)
+    script = (Path(__file__).resolve().parent.parent / "observatory_ops/static/observatory_ops/ticks.js").read_text()
+    assert 'form.closest(".lockout-line")' in script and '#isolation input[type=checkbox]:not(:checked)' in script

@@ -1,5 +1,5 @@
-"""How a form's problems are listed in the frame's error summary (``templates/_error_summary.html``), for the forms
-of every app."""
+"""How a form's problems are listed in the frame's error summary (``templates/_error_summary.html``), and how a field
+whose figure is questioned is marked, for the forms of every app."""
 from django import template
 
 register = template.Library()
@@ -38,3 +38,13 @@ def refused(messages) -> bool:
     """``{% if messages|refused %}``: whether the page's messages hold an error (a refusal said as a message: "Not done:
     ..."), which base.html announces as it does a form's problems."""
     return any(m.level_tag == "error" for m in messages or ())
+
+
+@register.filter
+def questioned(field):
+    """``{{ field|questioned }}``: a field's input whose figure the form questions (the finish form's hours far above
+    the estimate, a reading beyond its limit): marked invalid, and described by the question said after it
+    (``<auto_id>_questioned``) as well as by its help text and problems, so a screen reader says why it is asked."""
+    own = field.field.widget.attrs.get("aria-describedby") or field.aria_describedby
+    described = " ".join(filter(None, (own, f"{field.auto_id}_questioned")))
+    return field.as_widget(attrs={"aria-invalid": "true", "aria-describedby": described})

@@ -52,6 +52,8 @@ document.querySelectorAll("form.tick").forEach(function (form) {
           var ticked = typeof answer.ticked === "boolean" ? answer.ticked : (response.ok ? box.checked : !box.checked);
           box.checked = ticked;
           form.parentNode.classList.toggle("ticked", ticked);
+          var result = form.querySelector(".tick-result");  // a step that asks for its result: its box, until ticked
+          if (result) { result.hidden = ticked; }
           note.dataset.recorded = answer.note || "";
           note.classList.toggle("refused", !response.ok);
           note.textContent = response.ok ? answer.note : answer.error + (answer.note ? " (" + answer.note + ")" : "");

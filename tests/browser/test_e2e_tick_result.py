@@ -1,0 +1,44 @@
+"""On a tablet in a real browser: a step that asks for its result (the realignment's check of the collimation on a
+star) is refused without it, the box going back as it was, and recorded with it; the note says the result and its box
+goes (tests/test_tick_result.py holds the rule)."""
+from __future__ import annotations
+
+import pytest
+from playwright.sync_api import expect
+
+CHECK = "Under power, from the control panel, check the collimation on a star and record the result."
+
+
+@pytest.fixture
+def realignment(transactional_db, users, site, telescope):
+    from observatory_ops.workorders.models import WorkOrder
+
+    return WorkOrder.objects.create(site=site, telescope=telescope, title="Realign after the recoat",
+                                    created_by=users["engineer"], steps="\n".join(["Park the telescope", CHECK]),
+                                    state="underway")
+
+
+@pytest.mark.browser
+def test_the_check_is_refused_without_its_result_and_recorded_with_it(browser_page, live_server, login, realignment):
+    from observatory_ops.workorders.models import ChecklistTick
+
+    page = browser_page
+    login(page, live_server, "technician", "pw-technician-123456")
+    page.goto(live_server.url + realignment.get_absolute_url())
+    box = page.locator("#step-2 input[type=checkbox]")
+    note = page.locator("#step-2 .tick-note")
+    result = page.get_by_label("Result, before ticking")
+    expect(result).to_be_visible()
+    expect(page.locator("#step-1 .tick-result")).to_have_count(0)
+
+    box.check()
+    expect(note).to_contain_text("step 2 asks for its result")
+    expect(box).not_to_be_checked()
+    assert not ChecklistTick.objects.filter(work_order=realignment).exists()
+
+    result.fill("coma under 1 arcsec")
+    box.check()
+    expect(note).to_contain_text("result: coma under 1 arcsec")
+    expect(box).to_be_checked()
+    expect(result).to_be_hidden()
+    assert ChecklistTick.objects.get(work_order=realignment).result == "coma under 1 arcsec"
