@@ -71,7 +71,7 @@ def test_the_page_gives_the_step_a_box_and_a_plain_post_records_it(underway, use
                          headers={"Accept": "application/json"})
     assert answer.status_code == 200 and answer.json()["note"].endswith("; result: no coma seen")
     page = client.get(underway.get_absolute_url()).content.decode()
-    assert 'name="result"' not in page and "result: no coma seen" in page
+    assert 'class="tick-result" hidden' in page and "result: no coma seen" in page
 
 
 def test_the_paper_has_a_line_for_the_result_until_it_is_given_then_says_it(underway, users, client):
