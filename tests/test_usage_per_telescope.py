@@ -374,3 +374,34 @@ def test_a_telescope_with_few_nights_of_its_own_keeps_the_rate_of_its_whole_log(
     )
     model = services.usage_model(site, services.UsageLog.for_telescope(north), TODAY, 30)
     assert model.per_open_hour["slews"] == pytest.approx(8.0)
+
+
+def test_reliability_of_one_telescope_counts_its_subsystems_alone(two_telescopes, users, client):
+    """A site with two telescopes could not tell which one's fans failed: the page takes one telescope. Hand figures
+    as above: North's fans 2,120 h, South's 1,460 h; one repair of North's fans, 3 h, counts on North's page only."""
+    from django.urls import reverse
+
+    from observatory_ops.logbook.models import ServiceRecord
+    from observatory_ops.reliability.selectors import site_reliability
+
+    site, north, south, plans = two_telescopes
+    by = users["engineer"]
+    ServiceRecord.objects.create(subsystem=plans["North"].subsystem, performed_on=TODAY - dt.timedelta(days=30),
+                                 performed_by=by, created_by=by, hours_spent=3.0, summary="bearing seized",
+                                 repaired_failure=True)
+
+    def fans(telescope):
+        return next(k for k in site_reliability(site, TODAY, telescope=telescope).kinds if k.code == "cooling_fans")
+
+    assert (fans(north).operating_hours, fans(north).failures, fans(north).hours_total) == (
+        pytest.approx(2120), 1, pytest.approx(3.0))
+    assert (fans(south).operating_hours, fans(south).failures, fans(south).hours_total) == (pytest.approx(1460), 0, 0)
+    assert fans(None).failures == 1 and fans(None).operating_hours == pytest.approx(2120 + 1460)
+
+    client.force_login(users["viewer"])
+    url = reverse("site-reliability", args=[site.slug])
+    page = client.get(url, {"telescope": south.pk}).content.decode()
+    assert "<h1>Reliability of South at Twin Ridge</h1>" in page and 'id="telescope-chosen"' in page
+    assert f"&amp;telescope={south.pk}" in page  # the periods offered keep the telescope
+    page = client.get(url, {"telescope": "99999"}).content.decode()
+    assert "99999 is not one of this site&#x27;s telescopes" in page and "<h1>Reliability at Twin Ridge</h1>" in page

@@ -1,5 +1,5 @@
-"""The reliability page's choice of period: ``from`` and ``to`` in the address (a GET form, so a period can be linked
-to and bookmarked)."""
+"""The reliability page's choice of period, ``from`` and ``to``, and of one telescope, ``telescope``, in the address (a
+GET form, so a choice can be linked to and bookmarked)."""
 from __future__ import annotations
 
 import datetime as dt
@@ -8,17 +8,20 @@ from django import forms
 
 from .selectors import Period
 
-#: The address's names of the two days, as the CSV downloads (``exports.period``) name them too.
-FROM, TO = "from", "to"
+#: The address's names of the two days, as the CSV downloads (``exports.period``) name them too, and of the telescope.
+FROM, TO, TELESCOPE = "from", "to", "telescope"
 
 
 class PeriodForm(forms.Form):
     """From and to, days at the site, both included, each between the site's first logged night and its today. Either
-    may be left empty: from the first logged night, to today. Both empty: the page's default figures."""
+    may be left empty: from the first logged night, to today. Both empty: the page's default figures. Telescope: one
+    of the site's ``telescopes`` whose subsystems alone count, or empty for all (a site with two telescopes could not
+    tell which one's drives failed)."""
 
-    def __init__(self, data, *, first_night: dt.date | None, today: dt.date):
+    def __init__(self, data, *, first_night: dt.date | None, today: dt.date, telescopes=()):
         super().__init__(data)
         self.first_night, self.today = first_night, today
+        self.telescopes = {str(t.pk): t for t in telescopes}
         bounds = {"type": "date", "max": today.isoformat()}
         if first_night:
             bounds["min"] = first_night.isoformat()
@@ -30,6 +33,14 @@ class PeriodForm(forms.Form):
         self.fields[TO] = forms.CharField(
             label="To", required=False, widget=forms.DateInput(attrs=bounds), help_text="empty: to today",
         )
+        if len(self.telescopes) > 1:
+            self.fields[TELESCOPE] = forms.ChoiceField(
+                label="Telescope", required=False,
+                choices=[("", "all"), *((k, t.name) for k, t in self.telescopes.items())],
+                help_text="all: every telescope's subsystems, by kind",
+                error_messages={"invalid_choice": "%(value)s is not one of this site's telescopes: choose one from the "
+                                                  "list, or all."},
+            )
 
     def clean_from(self) -> dt.date | None:
         return self._day(FROM, "From empty to start at the first logged night")
@@ -73,6 +84,10 @@ class PeriodForm(forms.Form):
             self.add_error(FROM, f"{first:%d %b %Y} is after To, {last:%d %b %Y}: the period would hold no day. "
                                  "Choose a From on or before To.")
         return data
+
+    def telescope(self):
+        """The telescope chosen (``registry.Telescope``), None for all; read from a form with a bad period too."""
+        return self.telescopes.get((getattr(self, "cleaned_data", None) or {}).get(TELESCOPE) or "")
 
     def period(self) -> Period | None:
         """The period chosen (valid forms only), None for the default: neither day given."""

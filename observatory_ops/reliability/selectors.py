@@ -33,7 +33,7 @@ from observatory_ops.logbook.models import WITHOUT_ORDER_OR_PLAN, NightUsage, Se
 from observatory_ops.planning.models import ServicePlan
 from observatory_ops.planning.services import UsageLog, site_today
 from observatory_ops.registry.catalogue import KINDS
-from observatory_ops.registry.models import Site, Subsystem, is_shared_enclosure
+from observatory_ops.registry.models import Site, Subsystem, Telescope, is_shared_enclosure
 from observatory_ops.workorders.models import State, WorkOrder, WorkOrderItem
 
 DONE = (State.FINISHED, State.COUNTERSIGNED)
@@ -358,6 +358,7 @@ class SiteReliability:
     records_in_window: int
     records_without_hours: int  # of those, records whose hours are not known: they count none
     log_notes: list[str] = field(default_factory=list)  # each telescope that sends nights of its own: its log
+    telescope: Telescope | None = None  # the one telescope whose subsystems count; None: the whole site's
 
     @property
     def hours_total(self) -> float:
@@ -391,7 +392,7 @@ def _starts(
 
     if subsystems:
         for pk, day in (
-            ServicePlan.objects.filter(subsystem__telescope__site=site).order_by().values("subsystem_id")
+            ServicePlan.objects.filter(subsystem_id__in=list(names)).order_by().values("subsystem_id")
             .annotate(start=Min("counting_from")).values_list("subsystem_id", "start")
         ):
             shown_on(pk, day, PLANS_COUNTING_FROM)
@@ -403,7 +404,7 @@ def _starts(
                 shown_on(pk, when.astimezone(site.zone).date(), REGISTERED)
         # A service record as it stands (not withdrawn, not since corrected) shows the subsystem in service that day.
         for pk, day in (
-            ServiceRecord.objects.filter(subsystem__telescope__site=site, corrected_by__isnull=True, void=False)
+            ServiceRecord.objects.filter(subsystem_id__in=list(names), corrected_by__isnull=True, void=False)
             .order_by().values("subsystem_id").annotate(first=Min("performed_on")).values_list("subsystem_id", "first")
         ):
             earliest_record[pk] = day
@@ -415,16 +416,18 @@ def _starts(
     return starts, earlier
 
 
-def site_reliability(site: Site, today: dt.date | None = None, period: Period | None = None) -> SiteReliability:
-    """Per subsystem kind at ``site``: subsystems in service, failures, operating hours, MTBF with its 90 %
-    interval, the Weibull fit where there are enough failures, and maintenance hours by order type (an order's hours
-    shared equally among the subsystems it names, as its service records are); over ``period`` (``Period``), or by
-    default the whole record and the last 12 months' maintenance hours."""
+def site_reliability(site: Site, today: dt.date | None = None, period: Period | None = None,
+                     telescope: Telescope | None = None) -> SiteReliability:
+    """Per subsystem kind at ``site`` (or of its ``telescope`` alone): subsystems in service, failures, operating
+    hours, MTBF with its 90 % interval, the Weibull fit where there are enough failures, and maintenance hours by
+    order type (an order's hours shared equally among the subsystems it names, as its service records are); over
+    ``period`` (``Period``), or by default the whole record and the last 12 months' maintenance hours."""
     today = today or site_today(site)
     # The days whose nights, failures and service count: without a period, every one up to today.
     first, last = (period.first, period.last) if period else (None, today)
+    of_site = Subsystem.objects.filter(telescope__site=site)
     subsystems = list(
-        Subsystem.objects.filter(telescope__site=site)
+        (of_site.filter(telescope=telescope) if telescope else of_site)
         .values_list("pk", "telescope__name", "name", "kind", "retired_on", "telescope_id", "in_service_since")
         .order_by("pk")
     )
@@ -529,9 +532,10 @@ def site_reliability(site: Site, today: dt.date | None = None, period: Period | 
     since = first if period else today - dt.timedelta(days=HOURS_WINDOW_DAYS - 1)
     site_hours = dict.fromkeys(HOURS_COLUMNS, 0.0)
     records = without_hours = 0
-    for subsystem_id, hours, order_type, plan_id, repair in ServiceRecord.objects.filter(
-        subsystem__telescope__site=site, performed_on__gte=since, performed_on__lte=last,
-        corrected_by__isnull=True, void=False,
+    records_of = ServiceRecord.objects.filter(subsystem__telescope__site=site, performed_on__gte=since,
+                                              performed_on__lte=last, corrected_by__isnull=True, void=False)
+    for subsystem_id, hours, order_type, plan_id, repair in (
+        records_of.filter(subsystem__telescope=telescope) if telescope else records_of
     ).values_list("subsystem_id", "hours_spent", "work_order__order_type", "plan_id", "repaired_failure"):
         column = maintenance_type(order_type, plan_id, repair)
         records += 1
@@ -571,6 +575,7 @@ def site_reliability(site: Site, today: dt.date | None = None, period: Period | 
         records_in_window=records,
         records_without_hours=without_hours,
         log_notes=_log_notes(logs, subsystems),
+        telescope=telescope,
     )
 
 
@@ -591,7 +596,7 @@ class YearCell:
     maintenance_hours: float
 
 
-def by_year(site: Site, today: dt.date, first_night: dt.date | None, years: int = 3
+def by_year(site: Site, today: dt.date, first_night: dt.date | None, years: int = 3, telescope: Telescope | None = None
             ) -> tuple[list[str], list[tuple[str, list[YearCell | None]]]]:
     """The last ``years`` calendar years of the log, each a period of its own (``Period``: the failures repaired in
     it, the nights dated in it, the service done in it; this year to today, the first to the log's first night):
@@ -605,7 +610,7 @@ def by_year(site: Site, today: dt.date, first_night: dt.date | None, years: int 
     for first, last in spans:
         labels.append(f"{first.year}" + (" so far" if last == today else "") + (
             f" (from {first:%d %b})" if first != dt.date(first.year, 1, 1) else ""))
-        for row in site_reliability(site, today, Period(first, last)).kinds:
+        for row in site_reliability(site, today, Period(first, last), telescope).kinds:
             cells.setdefault(row.label, {})[len(labels) - 1] = YearCell(
                 row.failures, row.mtbf.mtbf_hours if row.mtbf else None, row.operating_hours, row.hours_total)
     return labels, [(label, [per_year.get(i) for i in range(len(labels))]) for label, per_year in cells.items()]

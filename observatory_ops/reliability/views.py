@@ -6,7 +6,7 @@ from observatory_ops.access.decorators import requires
 from observatory_ops.access.roles import VIEWER
 from observatory_ops.calc import reliability
 from observatory_ops.planning.services import site_today
-from observatory_ops.registry.models import Site
+from observatory_ops.registry.models import Site, name_key
 
 from . import selectors
 from .forms import PeriodForm
@@ -20,9 +20,12 @@ def site_reliability(request, slug):
     site = get_object_or_404(Site, slug=slug)
     today = site_today(site)
     first_night = selectors.first_logged_night(site)
-    form = PeriodForm(request.GET or None, first_night=first_night, today=today)
-    report = selectors.site_reliability(site, today, form.period() if form.is_valid() else None)
-    years, year_rows = selectors.by_year(site, today, first_night)
+    telescopes = sorted(site.telescopes.all(), key=lambda t: name_key(t.name))
+    form = PeriodForm(request.GET or None, first_night=first_night, today=today, telescopes=telescopes)
+    period = form.period() if form.is_valid() else None
+    telescope = form.telescope()
+    report = selectors.site_reliability(site, today, period, telescope)
+    years, year_rows = selectors.by_year(site, today, first_night, telescope=telescope)
     return render(
         request,
         "reliability/site_reliability.html",
