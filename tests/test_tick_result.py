@@ -81,3 +81,22 @@ def test_the_paper_has_a_line_for_the_result_until_it_is_given_then_says_it(unde
     services.checklist_tick_set(underway, "step", 1, True, users["technician"], result="no coma seen")
     printed = _text(client.get(f"/workorders/{underway.pk}/pdf/").content)
     assert "Result (value and unit" not in printed and "result: no coma seen" in printed
+
+
+def test_done_on_paper_and_left_unticked_its_result_goes_in_the_findings(underway, users, client):
+    """Work done on paper and entered at the finish: the step's result, which its tick would have carried, is asked
+    for in the findings, and the order is not finished without it (nothing stored)."""
+    from test_workorders import _finish_confirmations
+
+    from observatory_ops.planning.services import site_today
+
+    client.force_login(users["technician"])
+    data = {"actual_hours": "2", "work_done_on": site_today(underway.site).isoformat(),
+            **_finish_confirmations(underway)}
+    page = client.get(f"/workorders/{underway.pk}/finish/").content.decode()
+    assert "the findings give the result of step 2" in page
+    answer = client.post(f"/workorders/{underway.pk}/finish/", {**data, "findings": " "})
+    assert "step 2 asks for its result, and it is not ticked with one" in answer.content.decode()
+    assert WorkOrder.objects.get(pk=underway.pk).state == "underway"
+    client.post(f"/workorders/{underway.pk}/finish/", {**data, "findings": "Collimation on a star: no coma seen."})
+    assert WorkOrder.objects.get(pk=underway.pk).state == "finished"

@@ -520,10 +520,16 @@ class FinishForm(forms.Form):
                                             "isolation on the work order page.",
                                 "invalid_choice": "Energy isolation not ticked: choose one of the answers listed."},
             )
+        # A step that asks for its result (the check of the collimation on a star), left unticked on the page (done on
+        # paper), gives its result in the findings: its tick would have carried it.
+        self._results_asked = [line for line in unticked if getattr(line, "asks_result", False)]
         if unticked:
+            asked = in_words([line.label.lower() for line in self._results_asked])
+            said = f"; the findings give the result of {asked}" if self._results_asked else ""
             self.fields["confirm_unticked"] = forms.BooleanField(
-                required=False, label="I confirm the other unticked lines were done or did not apply"
-                if isolation_unticked else "I confirm the unticked lines were done or did not apply",
+                required=False, label=("I confirm the other unticked lines were done or did not apply"
+                                       if isolation_unticked else "I confirm the unticked lines were done or did not "
+                                       "apply") + said,
             )
         if lacking_hazards:
             self.fields["confirm_hazards"] = forms.BooleanField(
@@ -569,6 +575,13 @@ class FinishForm(forms.Form):
         cleaned = super().clean()
         if cleaned.get("isolation_answer") and not cleaned.get("findings", "").strip():
             self.add_error("findings", f"Findings: {ISOLATION_UNTICKED_FINDINGS}.")
+        elif self._results_asked and cleaned.get("confirm_unticked") and not (cleaned.get("findings") or "").strip():
+            steps = in_words([line.label.lower() for line in self._results_asked])
+            one = len(self._results_asked) == 1
+            ask = "asks for its result, and it is" if one else "ask for their results, and are"
+            self.add_error("findings", f"Findings: {steps} {ask} not ticked with one: write the result here as the "
+                                       "paper gives it (a value with its unit, or what was seen), or tick the step "
+                                       "with its result on the work order page.")
         # Each required reading: its value as measured, or why it was not taken; not both.
         for pk in self._required:
             label = self.fields[f"reading_{pk}"].label
