@@ -524,8 +524,8 @@ class FinishForm(forms.Form):
         # paper), gives its result in the findings: its tick would have carried it.
         self._results_asked = [line for line in unticked if getattr(line, "asks_result", False)]
         if unticked:
-            asked = in_words([line.label.lower() for line in self._results_asked])
-            said = f"; the findings give the result of {asked}" if self._results_asked else ""
+            said = (f"; the findings give the result of {in_words([x.label.lower() for x in self._results_asked])}"
+                    if self._results_asked else "")
             self.fields["confirm_unticked"] = forms.BooleanField(
                 required=False, label=("I confirm the other unticked lines were done or did not apply"
                                        if isolation_unticked else "I confirm the unticked lines were done or did not "
