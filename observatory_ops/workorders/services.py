@@ -1238,6 +1238,8 @@ def checklist_tick_set(
         already = latest is not None and latest.ticked and latest.text == entry.text
         if already == ticked:
             raise Refused(f"{what} is {'already ticked' if ticked else 'not ticked'}")
+        if refusal := _lock_holder_refusal(current, entry, latest, ticks, by, what):
+            raise Refused(refusal)
         if refusal := _lockout_sequence_refusal(current, entry.line, ticked, what, ticks):
             raise Refused(refusal)
         if ticked and kind == ChecklistTick.Kind.STEP and (refusal := _others_locked_out_refusal(current, key)
@@ -1247,6 +1249,32 @@ def checklist_tick_set(
         entry._history_user = by
         entry.save()
     return entry
+
+
+def _lock_holder_refusal(order: WorkOrder, entry: ChecklistTick, latest: ChecklistTick | None, ticks: dict, by,
+                         what: str) -> str:
+    """Why ``by`` may not make ``entry`` on a lock's line: the tick of an isolation point or of the lockout is taken
+    back only by whoever recorded it, and the removal of the locks is ticked only by someone who recorded this order's
+    lockout or one of its points: each lock comes off by the person who put it on (OSHA 29 CFR 1910.147(e)(3), (f)(3)).
+    An auditor's review took back another crew's lock ticks one by one, which let a second crew's brake air through,
+    and ticked another order's lock removal with no part in it. An engineer may, where the one who put the lock on
+    cannot be reached, under the site's own procedure for it ((e)(3): they are named on the tick). "" when it may."""
+    if has_role(by, ENGINEER):
+        return ""
+    lock_line = entry.kind == ChecklistTick.Kind.POINT or is_lockout_step(entry.text)
+    if not entry.ticked and lock_line and latest is not None and latest.recorded_by_id != by.pk:
+        return (f"{what} was recorded by {person(latest.recorded_by)}: only they take its tick back, since the lock is "
+                "theirs. If they cannot be reached, the site engineer removes it under the site's procedure for a lock "
+                "left on (OSHA 29 CFR 1910.147(e)(3))")
+    if entry.ticked and entry.kind == ChecklistTick.Kind.STEP and is_release_step(entry.text):
+        holders = {t.recorded_by_id: t.recorded_by for t in ticks.values() if t.ticked and (
+            t.kind == ChecklistTick.Kind.POINT or is_lockout_step(t.text))}
+        if holders and by.pk not in holders:
+            return (f"{what} takes the locks off, and they were put on by "
+                    f"{in_words(sorted(person(u) for u in holders.values()))}: one of them ticks it, once their locks "
+                    "are off. If none of them can be reached, the site engineer removes the locks under the site's "
+                    "procedure for a lock left on (OSHA 29 CFR 1910.147(e)(3))")
+    return ""
 
 
 def _own_hand_back_refusal(order: WorkOrder, key: int, ticks: dict) -> str:

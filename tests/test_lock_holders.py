@@ -1,0 +1,64 @@
+"""Each lock comes off by the person who put it on (OSHA 29 CFR 1910.147(e)(3); a group lockout, (f)(3)): the tick of
+an isolation point or of the lockout is taken back only by whoever recorded it, and the removal of the locks is ticked
+only by someone who recorded the order's lockout or one of its points. An engineer may, where the one who put the lock
+on cannot be reached, under the site's procedure for a lock left on ((e)(3)), and is named on the tick.
+
+An auditor's review: a second technician took back another crew's lock ticks one by one, which let a second crew's
+brake air through, and ticked a lock removal on an order they had no part in. The order is that of
+tests/test_workorders.py (an axis drive of T1, one AC isolation point)."""
+from __future__ import annotations
+
+import pytest
+from conftest import mains_isolator, ticked_in_sequence
+from django.contrib.auth.models import Group, User
+from test_workorders import PLANNED, drive, order  # noqa: F401  (fixtures, used by name)
+
+from observatory_ops.workorders import selectors, services
+from observatory_ops.workorders.models import WorkOrder
+
+pytestmark = pytest.mark.django_db
+
+
+@pytest.fixture
+def locked_out(order, telescope, users):  # noqa: F811
+    """The drive order underway, its points and lockout ticked by the technician, its release not."""
+    mains_isolator(telescope)
+    services.work_order_move(order, "issue", users["engineer"])
+    services.work_order_move(order, "start", users["technician"])
+    underway = WorkOrder.objects.get(pk=order.pk)
+    lockout, locked = services.isolated_steps(underway.step_list)
+    ticked_in_sequence(underway, users["technician"], through=lockout)
+    return underway, lockout, locked.stop
+
+
+@pytest.fixture
+def second_technician(db):
+    other = User.objects.create_user("tech2", password="pw-tech2-123456")
+    other.groups.add(Group.objects.get(name="technician"))
+    return other
+
+
+def test_only_whoever_recorded_a_lock_takes_its_tick_back(locked_out, second_technician, users):
+    underway, lockout, _release = locked_out
+    point = next(p for p in selectors.checklist(underway).points if p.ticked)
+    for kind, key in (("step", lockout), ("point", point.key)):
+        with pytest.raises(services.Refused, match="was recorded by technician: only they take its tick back"):
+            services.checklist_tick_set(underway, kind, key, False, second_technician)
+    assert selectors.checklist(underway).points[0].ticked  # refused: nothing stored
+    services.checklist_tick_set(underway, "step", lockout, False, users["technician"])  # their own: taken back
+
+
+def test_the_locks_come_off_by_those_who_put_them_on(locked_out, second_technician, users):
+    underway, lockout, release = locked_out
+    for step in range(lockout + 1, release):
+        services.checklist_tick_set(underway, "step", step, True, users["technician"])
+    with pytest.raises(services.Refused, match="they were put on by technician: one of them ticks it"):
+        services.checklist_tick_set(underway, "step", release, True, second_technician)
+    services.checklist_tick_set(underway, "step", release, True, users["technician"])
+
+
+def test_an_engineer_may_under_the_site_s_procedure_and_is_named(locked_out, users):
+    underway, lockout, _release = locked_out
+    tick = services.checklist_tick_set(underway, "step", lockout, False, users["engineer"])
+    assert tick.recorded_by == users["engineer"]
+    assert selectors.checklist(underway).steps[lockout].note.startswith("tick taken back by engineer")
