@@ -62,3 +62,25 @@ def test_an_engineer_may_under_the_site_s_procedure_and_is_named(locked_out, use
     tick = services.checklist_tick_set(underway, "step", lockout, False, users["engineer"])
     assert tick.recorded_by == users["engineer"]
     assert selectors.checklist(underway).steps[lockout].note.startswith("tick taken back by engineer")
+
+
+def test_every_tick_and_take_back_is_on_the_page_and_the_finished_paper(locked_out, users, client):
+    """An auditor's review found the trail (a tick taken back, by whom) only in the staff's admin, in UTC: the page
+    lists it, and the finished paper prints it."""
+    import io
+
+    from pypdf import PdfReader
+
+    underway, lockout, _release = locked_out
+    services.checklist_tick_set(underway, "step", lockout, False, users["technician"])
+    services.checklist_tick_set(underway, "step", lockout, True, users["technician"])
+    trail = selectors.tick_trail(underway)
+    assert [row.recorded for row in trail][-2:] == ["tick taken back", "ticked"]
+    assert trail[-1].line.startswith(f"Step {lockout + 1}: ") and trail[-1].who == "technician"
+    client.force_login(users["viewer"])
+    page = client.get(underway.get_absolute_url()).content.decode()
+    assert f"Every tick and tick taken back, as recorded ({len(trail)})" in page and "tick taken back" in page
+    WorkOrder.objects.filter(pk=underway.pk).update(state="finished")
+    printed = PdfReader(io.BytesIO(client.get(f"/workorders/{underway.pk}/pdf/").content))
+    text = " ".join(" ".join(p.extract_text() for p in printed.pages).split())
+    assert "Every tick, as recorded" in text and "tick taken back" in text

@@ -854,6 +854,19 @@ def _cleanings(sheet: Sheet) -> list[Flowable]:
     return story
 
 
+def _tick_trail(sheet: Sheet, width: float) -> list[Flowable]:
+    """Finished work: every tick and tick taken back, in the order recorded, the record an audit of the lockout reads
+    (the lines above show only each one's newest)."""
+    if not sheet.tick_trail:
+        return []
+    widths = [28 * mm, 30 * mm, width - 88 * mm, 30 * mm]
+    rows = [[_cell(cell, w) for cell, w in zip(row, widths, strict=True)] for row in sheet.tick_trail]
+    return [_heading("Every tick, as recorded"),
+            _note("Each tick and each tick taken back on the checklist, oldest first, with who recorded it and when "
+                  "(the lines above show each one's newest)."),
+            _ruled_table(("When", "Who", "Line, as it read", "Recorded"), rows, widths)]
+
+
 def _confirmations(sheet: Sheet) -> list[Flowable]:
     if not sheet.confirmations:
         return []
@@ -948,6 +961,7 @@ def _sheet_story(index: int, sheet: Sheet, width: float) -> list[Flowable]:
         *_parts_and_tools(sheet, width),
         *_cleanings(sheet),
         *_confirmations(sheet),
+        *_tick_trail(sheet, width),
         # The sign-off never lands alone on the last page: it goes over with the findings it signs for.
         KeepTogether([*_findings(sheet), *_sign_off(sheet, width)]),
     ]

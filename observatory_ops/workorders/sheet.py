@@ -178,6 +178,8 @@ class Sheet:
     why_as_of: date | None = None  # the day ``why`` was computed: the order was made
     hand_backs_held: tuple[str, ...] = ()  # title, one line an order whose hand-back this crew holds, what to do
     lockout_step: int | None = None  # the lockout's step number (1 = the first step), None when no step is it
+    tick_trail: tuple[tuple[str, str, str, str], ...] = ()  # finished work: every tick and take-back (when, who, line,
+    # what was recorded), in the order recorded (``selectors.tick_trail``)
 
     def __post_init__(self) -> None:
         for name in ("subsystems", "why", "isolation_points", "steps", "tools", "confirmations", "hazards_notice",

@@ -221,6 +221,7 @@ def work_order_detail(request, pk):
             "cautions": selectors.cautions(order, points),
             "precedence": selectors.PRECEDENCE_STATEMENT,
             "checklist": selectors.checklist(order, points, items),
+            "tick_trail": selectors.tick_trail(order),
             # The step that locks the points (1-based), said above them: a review ticked them first, top to bottom, and
             # the steps under power before it were then refused.
             "lockout_number": (found[0] + 1) if (found := services.isolated_steps(order.step_list)) else None,
