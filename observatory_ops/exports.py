@@ -47,6 +47,18 @@ def period(query, first: dt.date, last: dt.date) -> tuple[dt.date, dt.date]:
     return first, last
 
 
+def telescope_of(query, site):
+    """The telescope a download is cut to: ``telescope`` in ``query`` (a request's GET), the id of one of ``site``'s
+    telescopes, or None for all of them when it is not given. ValueError, in words, for anything else."""
+    given = (query.get("telescope") or "").strip()
+    if not given:
+        return None
+    found = site.telescopes.filter(pk=int(given)).first() if given.isascii() and given.isdigit() else None
+    if found is None:
+        raise ValueError(f"telescope {given} is not one of {site.name}'s telescopes")
+    return found
+
+
 def download_refused(request, reason: str, back: str, what: str = "") -> HttpResponse:
     """The page a download asked for with a wrong period gets (400): the reason in words and a way back to the
     form it came from (the referring page of this installation, else ``back``). ``what``: what could not be read,

@@ -405,3 +405,40 @@ def test_reliability_of_one_telescope_counts_its_subsystems_alone(two_telescopes
     assert f"&amp;telescope={south.pk}" in page  # the periods offered keep the telescope
     page = client.get(url, {"telescope": "99999"}).content.decode()
     assert "99999 is not one of this site&#x27;s telescopes" in page and "<h1>Reliability at Twin Ridge</h1>" in page
+
+
+def test_the_service_records_and_readings_downloads_take_one_telescope(two_telescopes, users, client):
+    """An auditor's review: a telescope's year of records took three downloads, ``?telescope=`` was ignored, and the
+    readings had no download at all. Each download names its telescope's records only, and a telescope of another
+    site is refused in words."""
+    import csv
+    import io
+
+    from django.utils import timezone
+
+    from observatory_ops.logbook.models import Reading, ServiceRecord
+
+    site, north, south, plans = two_telescopes
+    by = users["engineer"]
+    for telescope, hours in (("North", 1.0), ("South", 2.0)):
+        fans = plans[telescope].subsystem
+        ServiceRecord.objects.create(subsystem=fans, performed_on=TODAY - dt.timedelta(days=3), performed_by=by,
+                                     created_by=by, hours_spent=hours, summary="filters")
+        Reading.objects.create(subsystem=fans, quantity="motor_current", unit="A", value=hours,
+                               taken_at=timezone.make_aware(dt.datetime.combine(TODAY - dt.timedelta(days=3),
+                                                                                dt.time(10)), site.zone), taken_by=by)
+    client.force_login(users["viewer"])
+
+    def rows(name: str, **query) -> list[dict]:
+        answer = client.get(f"/sites/{site.slug}/{name}.csv", {"from": "2026-01-01", "to": TODAY.isoformat(), **query})
+        assert answer.status_code == 200, answer.content
+        return list(csv.DictReader(io.StringIO(answer.content.decode("utf-8-sig"))))
+
+    assert [r["hours_spent"] for r in rows("service-records", telescope=south.pk)] == ["2.0"]
+    assert len(rows("service-records")) == 2
+    [reading] = rows("readings", telescope=north.pk)
+    assert (reading["telescope"], reading["value"], reading["unit"], reading["taken_by"]) == ("North", "1.0", "A",
+                                                                                          "engineer")
+    assert reading["taken_at"].startswith(f"{TODAY - dt.timedelta(days=3)}T10:00")
+    refused = client.get(f"/sites/{site.slug}/readings.csv", {"telescope": "99999"})
+    assert refused.status_code == 400 and "telescope 99999 is not one of Twin Ridge" in refused.content.decode()

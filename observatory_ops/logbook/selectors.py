@@ -7,6 +7,7 @@ import numpy as np
 from django.db.models import F, Max, Q
 from django.utils import timezone
 
+from observatory_ops.archive.history import person
 from observatory_ops.calc import nights as sky_calc
 from observatory_ops.planning.models import NightSky
 from observatory_ops.registry.models import Site
@@ -250,13 +251,15 @@ SERVICE_CSV_HEADER = (
 )
 
 
-def service_records_csv_rows(site: Site, first: dt.date, last: dt.date):
-    """The rows of the service-records CSV of ``site`` done from ``first`` to ``last`` (local dates, both included),
-    oldest first. ``kind`` is the subsystem's kind as the reliability page groups it (a manager's review had to map
-    names to kinds by hand for hours by telescope and kind); ``maintenance_type`` is the column the record's hours
-    count in on that page."""
+def service_records_csv_rows(site: Site, first: dt.date, last: dt.date, telescope=None):
+    """The rows of the service-records CSV of ``site`` (or of its ``telescope`` alone) done from ``first`` to ``last``
+    (local dates, both included), oldest first. ``kind`` is the subsystem's kind as the reliability page groups it (a
+    manager's review had to map names to kinds by hand for hours by telescope and kind); ``maintenance_type`` is the
+    column the record's hours count in on that page."""
+    records = ServiceRecord.objects.filter(subsystem__telescope__site=site, performed_on__gte=first,
+                                           performed_on__lte=last)
     records = (
-        ServiceRecord.objects.filter(subsystem__telescope__site=site, performed_on__gte=first, performed_on__lte=last)
+        (records.filter(subsystem__telescope=telescope) if telescope else records)
         .select_related("subsystem__telescope", "plan", "work_order", "performed_by", "corrected_by")
         .order_by("performed_on", "pk")
     )
@@ -272,6 +275,41 @@ def service_records_csv_rows(site: Site, first: dt.date, last: dt.date):
             r.hours_spent if r.hours_spent is not None and _standing(r) == CURRENT else "",
             r.performed_by.get_full_name() or r.performed_by.username,
             ", ".join(r.work_order.crew or ()) if r.work_order else "", r.summary, r.findings, _standing(r), r.pk,
+        )
+
+
+READINGS_CSV_HEADER = (
+    "taken_at", "telescope", "subsystem", "kind", "quantity", "value", "unit", "work_order", "taken_by", "note",
+    "withdrawn_at", "withdrawn_by", "withdrawn_reason", "reading_id",
+)
+
+
+def readings_csv_rows(site: Site, first: dt.date, last: dt.date, telescope=None):
+    """The rows of the readings CSV of ``site`` (or of its ``telescope`` alone) taken from ``first`` to ``last``
+    (the site's dates, both included), oldest first, in the site's time: withdrawn ones too, with who withdrew them,
+    when and why, as the subsystem page strikes them through (an auditor's review found no export of readings). The
+    work order is the one whose finish recorded it, "" for one logged on the subsystem's page."""
+    from observatory_ops.workorders.models import RequiredReading  # work orders build on the logbook
+
+    zone = site.zone
+    start = timezone.make_aware(dt.datetime.combine(first, dt.time()), zone)
+    end = timezone.make_aware(dt.datetime.combine(last + dt.timedelta(days=1), dt.time()), zone)
+    readings = Reading.objects.filter(subsystem__telescope__site=site, taken_at__gte=start, taken_at__lt=end)
+    if telescope:
+        readings = readings.filter(subsystem__telescope=telescope)
+    readings = list(readings.select_related("subsystem__telescope", "taken_by", "withdrawn_by")
+                    .order_by("taken_at", "pk"))
+    orders = {required.reading_id: required.work_order.number for required in RequiredReading.objects.filter(
+        reading__in=[r.pk for r in readings]).select_related("work_order")}
+
+    def local(moment) -> str:
+        return timezone.localtime(moment, zone).isoformat(timespec="minutes") if moment else ""
+
+    for r in readings:
+        yield (
+            local(r.taken_at), r.subsystem.telescope.name, r.subsystem.name, r.subsystem.kind_label, r.quantity,
+            r.value, r.unit, orders.get(r.pk, ""), person(r.taken_by), r.note, local(r.withdrawn_at),
+            person(r.withdrawn_by) if r.withdrawn_by else "", r.withdrawn_reason, r.pk,
         )
 
 

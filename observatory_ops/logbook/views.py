@@ -12,10 +12,11 @@ from django.http import StreamingHttpResponse
 from django.shortcuts import get_object_or_404, redirect, render
 from django.urls import reverse
 from django.utils import timezone
+from django.utils.text import slugify
 
 from observatory_ops.access.decorators import requires
 from observatory_ops.access.roles import TECHNICIAN, VIEWER
-from observatory_ops.exports import csv_response, download_refused, period, safe_cell
+from observatory_ops.exports import csv_response, download_refused, period, safe_cell, telescope_of
 from observatory_ops.formats.calendar_words import why_no_such_date
 from observatory_ops.planning import selectors
 from observatory_ops.registry.models import Site, Subsystem
@@ -35,9 +36,11 @@ from .forms import (
 from .models import NightUsage, Reading, ServiceRecord
 from .quantities import usual_for_kind
 from .selectors import (
+    READINGS_CSV_HEADER,
     SERVICE_CSV_HEADER,
     closed_said,
     reading_already_logged,
+    readings_csv_rows,
     service_already_logged,
     service_records_csv_rows,
 )
@@ -62,10 +65,28 @@ def service_records_csv(request, slug):
     today = services.site_today(site)
     try:
         first, last = period(request.GET, today - dt.timedelta(days=HOURS_WINDOW_DAYS - 1), today)
+        telescope = telescope_of(request.GET, site)
     except ValueError as exc:
         return download_refused(request, str(exc), reverse("site-reliability", args=[site.slug]))
-    return csv_response(f"{site.slug}-service-records-{first}-to-{last}.csv", SERVICE_CSV_HEADER,
-                        service_records_csv_rows(site, first, last))
+    named = f"{site.slug}-{slugify(telescope.name)}" if telescope else site.slug
+    return csv_response(f"{named}-service-records-{first}-to-{last}.csv", SERVICE_CSV_HEADER,
+                        service_records_csv_rows(site, first, last, telescope))
+
+
+@requires(VIEWER)
+def readings_csv(request, slug):
+    """A site's readings (``telescope``: one telescope's) taken from ``from`` to ``to`` (local dates, both included;
+    default: the reliability page's 12 months) as CSV, withdrawn ones with who withdrew them and why."""
+    site = get_object_or_404(Site, slug=slug)
+    today = services.site_today(site)
+    try:
+        first, last = period(request.GET, today - dt.timedelta(days=HOURS_WINDOW_DAYS - 1), today)
+        telescope = telescope_of(request.GET, site)
+    except ValueError as exc:
+        return download_refused(request, str(exc), reverse("site-reliability", args=[site.slug]))
+    named = f"{site.slug}-{slugify(telescope.name)}" if telescope else site.slug
+    return csv_response(f"{named}-readings-{first}-to-{last}.csv", READINGS_CSV_HEADER,
+                        readings_csv_rows(site, first, last, telescope))
 
 
 @requires(TECHNICIAN)
