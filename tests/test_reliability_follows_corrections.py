@@ -163,7 +163,7 @@ def test_corrections_made_on_the_subsystem_page_reach_the_reliability_page(parts
     for record, day, void in ((on_order, "2026-01-16", ""), (without, "2026-03-06", ""), (wrong, "2026-02-10", "on")):
         answer = client.post(reverse("service-correct", args=[record.pk]),
                              {"performed_on": day, "summary": "corrected", "findings": "", "hours_spent": "",
-                              **({"void": void} if void else {})})
+                              "reason": "dated wrongly", **({"void": void} if void else {})})
         assert answer.status_code == 302
     fans, focus = _kind(site, "cooling_fans"), _kind(site, "focus_mechanism")
     assert [(f.subsystem, f.night, f.hours) for f in fans.failures_listed] == [

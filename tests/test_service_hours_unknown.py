@@ -59,7 +59,7 @@ def test_a_correction_left_empty_keeps_the_originals_hours_known_or_not(fans, us
     for original in (unknown, known):
         response = client.post(f"/service/{original.pk}/correct/", {
             "performed_on": original.performed_on.isoformat(), "hours_spent": "", "summary": "corrected",
-            "findings": "",
+            "findings": "", "reason": "summary mistyped",
         })
         assert response.status_code == 302
     assert ServiceRecord.objects.get(corrects=unknown).hours_spent is None
@@ -141,3 +141,25 @@ def test_the_admins_service_records_name_people_as_the_pages_do(fans, users, adm
                                 repaired_failure=True)
     page = admin_client.get("/admin/logbook/servicerecord/").content.decode()
     assert "Ines Varga" in page and "Repaired a failure" in page
+
+
+def test_a_correction_says_who_made_it_when_and_why_beside_both_records(site, telescope, users, client):
+    """An auditor's review: the subsystem page said "superseded by a correction" with no who or why, the corrector
+    only on an unlinked history page. The reason is asked for, and both rows say it with who and when."""
+    from observatory_ops.logbook.models import ServiceRecord
+    from observatory_ops.registry.services import subsystem_create
+
+    fans = subsystem_create(telescope, "cooling_fans", "Fans", counting_from=dt.date(2026, 1, 1))
+    by = users["technician"]
+    original = ServiceRecord.objects.create(subsystem=fans, performed_on=dt.date(2026, 2, 1), performed_by=by,
+                                            created_by=by, hours_spent=1.5, summary="filters")
+    client.force_login(users["engineer"])
+    form = {"performed_on": "2026-02-01", "hours_spent": "2.5", "summary": "filters", "findings": ""}
+    refused = client.post(f"/service/{original.pk}/correct/", form)
+    assert refused.status_code == 200 and not ServiceRecord.objects.filter(corrects=original).exists()
+    client.post(f"/service/{original.pk}/correct/", {**form, "reason": "  hours of the wrong day  "})
+    correction = ServiceRecord.objects.get(corrects=original)
+    assert correction.correction_reason == "hours of the wrong day" and correction.created_by == users["engineer"]
+    page = _text(client.get(f"/subsystems/{fans.pk}/"))
+    assert "superseded by a correction by engineer on " in page and ": hours of the wrong day" in page
+    assert "corrects the record of 01 Feb 2026, by engineer on " in page

@@ -788,7 +788,7 @@ def test_an_orders_hours_corrected_in_the_logbook_show_on_its_page_and_paper_and
     assert "400 h" in page and "hours-corrected" not in page
     response = client.post(f"/service/{record.pk}/correct/", {
         "performed_on": record.performed_on.isoformat(), "hours_spent": "40", "summary": record.summary,
-        "findings": "hours typed as 400",
+        "findings": "hours typed as 400", "reason": "hours typed as 400",
     })
     assert response.status_code == 302
     correction = ServiceRecord.objects.get(corrects=record)
@@ -817,7 +817,7 @@ def test_an_orders_work_day_corrected_in_the_logbook_shows_on_its_page_beside_th
     client.force_login(users["engineer"])
     response = client.post(f"/service/{record.pk}/correct/", {
         "performed_on": earlier.isoformat(), "hours_spent": "2", "summary": record.summary,
-        "findings": "the work was done two days before it was entered",
+        "findings": "the work was done two days before it was entered", "reason": "entered two days late",
     })
     assert response.status_code == 302
     assert selectors.work_done_on(order) == earlier and selectors.work_done_at_finish(order) == record.performed_on

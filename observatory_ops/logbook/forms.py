@@ -166,6 +166,11 @@ class CorrectionForm(forms.Form):
     summary = forms.CharField(max_length=200)
     findings = forms.CharField(widget=forms.Textarea, required=False, max_length=10000)
     void = forms.BooleanField(required=False, label="Withdraw the original record (it was logged in error)")
+    reason = forms.CharField(
+        max_length=200, label="Why it is corrected",
+        help_text="What was wrong with the original, e.g. hours typed for the wrong day; kept with your name and the "
+                  "time, beside both records.",
+    )
 
     def __init__(self, *args, original=None, **kwargs):
         """``original``: the record corrected, whose new date is held to a new record's bounds, said beside the field

@@ -134,6 +134,10 @@ class ServiceRecord(models.Model):
         help_text="The earlier record this one replaces.",
     )
     void = models.BooleanField(default=False, help_text="This correction withdraws the record it corrects.")
+    correction_reason = models.CharField(
+        max_length=200, blank=True, default="",
+        help_text="A correction's why: what was wrong with the record it corrects (logbook.forms.CorrectionForm).",
+    )
     repaired_failure = models.BooleanField(
         default=False, verbose_name="repaired a failure",
         help_text="Logged without a corrective work order, this work repaired a failure: the reliability page counts "

@@ -713,9 +713,10 @@ def _limit_passed_without(record: ServiceRecord, performed_on: dt.date) -> dt.da
 
 def service_record_correct(
     original: ServiceRecord, by, summary: str, performed_on: dt.date | None = None, hours_spent: float | None = None,
-    findings: str = "", void: bool = False,
+    findings: str = "", void: bool = False, reason: str = "",
 ) -> ServiceRecord:
-    """Append a correction that replaces ``original`` (or withdraws it with ``void``); nothing is edited.
+    """Append a correction that replaces ``original`` (or withdraws it with ``void``); nothing is edited. ``reason``:
+    what was wrong with it, kept on the correction with who made it and when (``created_by``, ``created_at``).
 
     A new date is held to the rules of a new record (``service_date_problem``, ``retired_work_problem``). The correction
     carries the original's work order: its hours stay in the order type's column of the reliability page, and the
@@ -738,6 +739,7 @@ def service_record_correct(
             performed_by=original.performed_by,
             hours_spent=original.hours_spent if hours_spent is None else hours_spent,
             summary=summary, findings=findings, corrects=original, void=void, created_by=by,
+            correction_reason=" ".join(reason.split()),
             repaired_failure=original.repaired_failure,
             limit_passed_on=(None if void else original.limit_passed_on if performed_on == original.performed_on
                              else _limit_passed_without(original, performed_on)),

@@ -162,7 +162,7 @@ def service_correct(request, pk):
         try:
             services.service_record_correct(
                 original, request.user, data["summary"], performed_on=data["performed_on"],
-                hours_spent=data["hours_spent"], findings=data["findings"], void=data["void"],
+                hours_spent=data["hours_spent"], findings=data["findings"], void=data["void"], reason=data["reason"],
             )
         except ValidationError as exc:
             _form_errors_from(form, exc)

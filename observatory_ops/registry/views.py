@@ -116,7 +116,7 @@ def subsystem_detail(request, pk):
             "plans": plans,
             "expected_use": planning_selectors.expected_use_by_month(subsystem, plans),
             "records": subsystem.service_records.select_related(
-                "plan", "performed_by", "corrects", "corrected_by", "work_order"
+                "plan", "performed_by", "created_by", "corrects", "corrected_by__created_by", "work_order"
             ),
             "readings": subsystem.readings.select_related("taken_by", "withdrawn_by")[:50],
             "children": subsystem.children.in_service(),
