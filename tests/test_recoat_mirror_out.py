@@ -353,3 +353,16 @@ def test_with_the_mirror_out_a_blocked_run_costs_five_times_its_hours_and_a_clos
     # Planned with the mirror in, the run blocks its nights, the closed one too.
     blocked = mirror_services.night_costs(site, start, 10, mirror.subsystem.telescope)
     assert [math.isinf(c.cost) for c in blocked[2:5]] == [True, True, True]
+
+
+def test_a_mirror_retired_while_out_no_longer_holds_its_telescope(stopped, users):
+    """A diff review: a mirror retired while out (replaced) kept its telescope out of service in the forecasts for good,
+    and its other work held, with nothing able to put it back."""
+    from observatory_ops.planning.services import downtimes_of
+    from observatory_ops.registry.models import Subsystem
+
+    today = site_today(stopped.site)
+    assert downtimes_of(stopped.site, stopped.telescope_id, False, today)
+    Subsystem.objects.filter(pk=_mirror(stopped).subsystem_id).update(retired_on=today)
+    assert selectors.telescopes_out([stopped.site]) == []
+    assert downtimes_of(stopped.site, stopped.telescope_id, False, today) == []

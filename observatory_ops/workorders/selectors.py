@@ -191,7 +191,10 @@ def telescopes_out(sites: Sequence[Site] | None = None) -> list[TelescopeOut]:
     for order in finished.order_by("finished_at", "pk"):
         for item in order.items.all():
             newest[item.subsystem_id] = (order, item.subsystem)
-    removed = {pk: pair for pk, pair in newest.items() if pair[0].recoat_phase == "removal"}
+    # A mirror retired while out (replaced, say) is no longer out of its telescope: nothing could put it back (a diff
+    # review: the forecasts counted its telescope out for good, and its other work stayed held).
+    removed = {pk: pair for pk, pair in newest.items()
+               if pair[0].recoat_phase == "removal" and pair[1].retired_on is None}
     if not removed:
         return []
     to_do: dict[int, WorkOrder] = {}
