@@ -35,6 +35,7 @@ def test_the_realignment_s_check_on_a_star_asks_for_its_result():
     asking = [s for work in _PHASE_WORK.values() for s in (*work.before, *work.locked, *work.after) if asks_result(s)]
     assert any("collimation on a star" in s for s in asking)
     assert not asks_result("Park the telescope") and asks_result("Measure it and RECORD THE RESULT.")
+    assert not asks_result("Measure each rail and record the results.")
 
 
 def test_it_is_ticked_only_with_its_result_which_its_note_says(underway, users):
@@ -100,3 +101,12 @@ def test_done_on_paper_and_left_unticked_its_result_goes_in_the_findings(underwa
     assert WorkOrder.objects.get(pk=underway.pk).state == "underway"
     client.post(f"/workorders/{underway.pk}/finish/", {**data, "findings": "Collimation on a star: no coma seen."})
     assert WorkOrder.objects.get(pk=underway.pk).state == "finished"
+
+
+def test_without_a_script_a_result_posted_with_its_box_unticked_asks_for_the_tick(underway, users, client):
+    """Enter in the result box posts the form with its box as it stands (a diff review lost a result so)."""
+    client.force_login(users["technician"])
+    client.post(f"/workorders/{underway.pk}/tick/", {"kind": "step", "key": "1", "text": CHECK,
+                                                     "result": "no coma seen"})
+    [line] = [x for x in selectors.checklist(underway).steps if x.key == 1]
+    assert line.ticked and line.latest.result == "no coma seen"

@@ -1219,8 +1219,9 @@ RESULT_ASKED = "record the result"
 
 
 def asks_result(step: str) -> bool:
-    """True when ``step`` asks for its result with its tick (``RESULT_ASKED`` in it, in any case)."""
-    return RESULT_ASKED in step.lower()
+    """True when ``step`` asks for its result with its tick: ``RESULT_ASKED`` in it as words, in any case ("record the
+    results" of a site's own step does not: its results go in the findings, as before)."""
+    return re.search(rf"\b{RESULT_ASKED}\b", step, flags=re.IGNORECASE) is not None
 
 #: Every step the catalogue places before isolation, and every step of its plans' restoring: how the upgrade
 #: that gave stored plans their three step groups (planning migration 0007) told them apart by their words.

@@ -61,7 +61,7 @@ class TickInline(admin.TabularInline):
     model = ChecklistTick
     extra = 0
     can_delete = False
-    fields = readonly_fields = ("recorded_at", "recorded_by", "kind", "step_index", "text", "ticked")
+    fields = readonly_fields = ("recorded_at", "recorded_by", "kind", "step_index", "text", "ticked", "result")
 
     def has_add_permission(self, request, obj=None):
         return False

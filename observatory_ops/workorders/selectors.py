@@ -990,9 +990,10 @@ def tick_note(tick: ChecklistTick, text: str, zone: dt.tzinfo) -> str:
     said = f"{person(tick.recorded_by)}, {dateformat.format(tick.recorded_at.astimezone(zone), 'd M Y H:i')}"
     if not tick.ticked:
         return f"tick taken back by {said}"
+    result = f"; result: {tick.result}" if tick.result else ""
     if tick.text != text:
-        return f"ticked by {said} when it read \"{tick.text}\"; changed since: check it again"
-    return f"ticked by {said}; result: {tick.result}" if tick.result else f"ticked by {said}"
+        return f"ticked by {said} when it read \"{tick.text}\"{result}; changed since: check it again"
+    return f"ticked by {said}{result}"
 
 
 @dataclass(frozen=True)

@@ -408,9 +408,12 @@ def work_order_tick(request, pk):
     try:
         if not (key.isascii() and key.isdigit()):
             raise services.Refused("the form did not say which line it is about; reload the page")
+        # A result typed (only a step that asks for one has its box) asks for the tick, as Enter in the box posts the
+        # form with its box as it stands (a diff review lost a result so, without a script).
+        result = request.POST.get("result", "")
         tick = services.checklist_tick_set(
-            order, request.POST.get("kind", ""), int(key), request.POST.get("ticked") == "1", request.user,
-            seen_text=request.POST.get("text"), result=request.POST.get("result", ""),
+            order, request.POST.get("kind", ""), int(key), request.POST.get("ticked") == "1" or bool(result.strip()),
+            request.user, seen_text=request.POST.get("text"), result=result,
         )
     except services.Refused as exc:
         lines = selectors.checklist(order)

@@ -12,8 +12,17 @@ function sayRefused(text) {  // emptied first, so the same refusal twice is anno
 }
 document.querySelectorAll("form.tick").forEach(function (form) {
   var box = form.querySelector("input[type=checkbox]"), note = form.querySelector(".tick-note");
-  var busy = false;
+  var busy = false, result = form.querySelector(".tick-result input");
   form.querySelector("button").hidden = true;
+  // Enter in a result box (the tablet keyboard's Go) asks for the tick it is typed for; a plain post of the box as it
+  // stands, unticked, would take nothing back and lose what was typed (a diff review).
+  form.addEventListener("submit", function (event) {
+    event.preventDefault();
+    if (!busy && result && !box.checked && result.value.trim()) {
+      box.checked = true;
+      box.dispatchEvent(new Event("change"));
+    }
+  });
   // A tap on the box or on its words reaches the label; cancelled, the box stays as it is and sends nothing.
   form.querySelector("label").addEventListener("click", function (event) {
     if (busy) { event.preventDefault(); }
@@ -29,6 +38,7 @@ document.querySelectorAll("form.tick").forEach(function (form) {
       return;
     }
     var data = new FormData(form);
+    if (!box.checked) { data.delete("result"); }  // a tick taken back carries no result
     // A refusal answers one request: once anything is changed again, the lines it was shown on read as recorded
     // (what it asked for may have been done meanwhile).
     document.querySelectorAll("form.tick .tick-note.refused").forEach(function (shown) {
