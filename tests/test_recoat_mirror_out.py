@@ -320,9 +320,18 @@ def test_stopped_and_not_planned_again_the_mirror_out_keeps_its_telescope_out_up
     assert down.what == "the stopped recoat of T1: Primary"
     assert f"out since {out_on:%d %b %Y} (removed by {removal.number}) and no recoat in hand" in down.changed
 
+    from django.test import Client
+
+    client = Client()
+    client.force_login(users["viewer"])
+    page = _text(client.get(removal.site.get_absolute_url()))
+    assert (f"The stopped recoat of T1: Primary : out of service {out_on:%d %b %Y} to today (11 nights: its primary "
+            "mirror out since") in page and "plan its recoat again" in page and "No recoat planned" not in page
+
     plan = _planned_again(removal, users)
     [down] = downtimes_of(removal.site, removal.telescope_id, False, today)
     assert down == recoat_downtime(RecoatPlan.objects.get(pk=plan.pk), today)
+    assert "plan its recoat again" not in _text(client.get(removal.site.get_absolute_url()))
 
 
 def test_with_the_mirror_out_a_blocked_run_costs_five_times_its_hours_and_a_closed_night_nothing(stopped):

@@ -1206,10 +1206,8 @@ def _downtime_by_telescope(site: Site, today: dt.date, closures: list | None = N
     in_hand = recoats_in_hand(site)
     for plan in in_hand:
         down.setdefault(plan.mirror.subsystem.telescope_id, []).append(recoat_downtime(plan, today))
-    covered = {plan.mirror.subsystem_id for plan in in_hand}
-    for out in mirrors_left_out(site, today):
-        if out.mirror_id not in covered:
-            down.setdefault(out.telescope_id, []).append(out.downtime)
+    for out in mirrors_left_out(site, today, in_hand):
+        down.setdefault(out.telescope_id, []).append(out.downtime)
     if closures is None:
         closures = closures_of(site)
     every = list(site.telescopes.values_list("pk", flat=True)) if any(c.telescope_id is None for c in closures) else []
@@ -1231,16 +1229,20 @@ class MirrorLeftOut:
     downtime: Downtime
 
 
-def mirrors_left_out(site: Site, today: dt.date) -> list[MirrorLeftOut]:
-    """The site's mirrors out of their telescopes (``workorders.selectors.telescopes_out``), each with its
-    telescope's downtime from the day it came out up to ``today``, as a recoat running late with its mirror out
-    (``recoat_downtime``): from the next night on the forecasts expect use again. Only the caller's mirrors with no
-    recoat in hand count it (a recoat stopped with its mirror out and not planned again counted no downtime: the
-    forecasts took the telescope as observing; the last notes). One query where no mirror is out."""
+def mirrors_left_out(site: Site, today: dt.date, in_hand: list) -> list[MirrorLeftOut]:
+    """The site's mirrors out of their telescopes (``workorders.selectors.telescopes_out``) with no recoat of
+    ``in_hand`` (``recoats_in_hand``) to put them back, each with its telescope's downtime from the day it came out up
+    to ``today``, as a recoat running late with its mirror out (``recoat_downtime``): from the next night on the
+    forecasts expect use again (a recoat stopped with its mirror out and not planned again counted no downtime: the
+    forecasts took the telescope as observing; the last notes). The forecasts and the dashboard read it. One query
+    where no removal was ever finished, two once one was."""
     from observatory_ops.workorders.selectors import came_out_on, telescopes_out  # work orders build on planning
 
+    covered = {plan.mirror.subsystem_id for plan in in_hand}
     left = []
     for out in telescopes_out([site]):
+        if out.subsystem_id in covered:
+            continue
         first = came_out_on(out.removal)
         changed = (f"its {out.kind} out since {first:%d %b %Y} (removed by {out.removal.number}) and no recoat in "
                    "hand to put it back: out of service up to today")

@@ -9,7 +9,7 @@ from observatory_ops.logbook import selectors as logbook_selectors
 from observatory_ops.mirrors import services as mirror_services
 from observatory_ops.mirrors.models import TRAIN_KINDS
 from observatory_ops.planning import selectors as planning_selectors
-from observatory_ops.planning.services import site_recompute, site_today, sites_bring_up_to_date
+from observatory_ops.planning.services import mirrors_left_out, site_recompute, site_today, sites_bring_up_to_date
 from observatory_ops.workorders import selectors as workorder_selectors
 from observatory_ops.workorders.cautions import HAZARDS
 from observatory_ops.workorders.models import RequiredReading, WorkOrderItem
@@ -80,6 +80,7 @@ def site_dashboard(request, slug):
             "parts_to_see_to": workorder_selectors.parts_low_or_short(site),
             "telescopes_out": workorder_selectors.telescopes_out([site]),
             "downtime": downtime,
+            "left_out": mirrors_left_out(site, today, downtime),  # out with no recoat to put it back: counted to today
             "recoats_to_plan": mirror_services.recoats_to_plan(site, today),
             "closures": closures,
             "recoats_of_retired": mirror_services.recoats_of_retired(site),
