@@ -84,3 +84,28 @@ def test_every_tick_and_take_back_is_on_the_page_and_the_finished_paper(locked_o
     printed = PdfReader(io.BytesIO(client.get(f"/workorders/{underway.pk}/pdf/").content))
     text = " ".join(" ".join(p.extract_text() for p in printed.pages).split())
     assert "Every tick, as recorded" in text and "tick taken back" in text
+
+
+def test_the_finish_does_not_take_off_locks_someone_else_put_on(locked_out, second_technician, users):
+    """A diff review finished the order as a technician with no lock on it, its lock removal unticked and answered
+    "isolated": the other's locks were then recorded as off, and other crews' steps no longer held."""
+    from test_workorders import _finish_confirmations
+
+    underway, lockout, release = locked_out
+    for step in range(lockout + 1, release):
+        services.checklist_tick_set(underway, "step", step, True, users["technician"])
+    confirmed = _finish_confirmations(underway)
+
+    def finish(by):
+        services.work_order_finish(WorkOrder.objects.get(pk=underway.pk), by, 1.0, "done",
+                                   {r.pk: 0.6 for r in underway.required_readings.all()},
+                                   confirmed_unticked=confirmed["unticked"] + confirmed["isolation_unticked"],
+                                   isolation_answer=confirmed["isolation_answer"])
+
+    with pytest.raises(services.Refused, match=r"the locks on this order were put on by technician, and the removal "
+                                                rf"of the locks \(step {release + 1}\) is not ticked"):
+        finish(second_technician)
+    assert WorkOrder.objects.get(pk=underway.pk).state == "underway"
+    services.checklist_tick_set(underway, "step", release, True, users["technician"])
+    finish(second_technician)  # the locks are recorded as off by whoever put them on: anyone on the crew finishes
+    assert WorkOrder.objects.get(pk=underway.pk).state == "finished"

@@ -949,8 +949,8 @@ class ChecklistLine:
             return ("Record the lockout: every isolation point locked and tagged by each of you, and the energy "
                     "proved to be off?")
         if catalogue.is_release_step(self.text):
-            return ("Record that your locks and tags are off: the work is done and everyone is clear? The steps after "
-                    "this bring energy back.")
+            return ("Record that every lock and tag on this order is off, yours and the others': the work is done and "
+                    "everyone is clear? The steps after this bring energy back.")
         return ""
 
     @property

@@ -968,6 +968,8 @@ def work_order_finish(
     _check_move(order, "finish", by)
     if reasons := moves_held(order).get("finish"):
         raise Refused("; and ".join(reasons))
+    if problem := _locks_left_on_refusal(order, by):
+        raise Refused(problem)
     if actual_hours is None or actual_hours < 0:
         raise Refused("actual hours must be 0 or more")
     required = list(order.required_readings.select_related("subsystem"))
@@ -1267,14 +1269,44 @@ def _lock_holder_refusal(order: WorkOrder, entry: ChecklistTick, latest: Checkli
                 "theirs. If they cannot be reached, the site engineer removes it under the site's procedure for a lock "
                 "left on (OSHA 29 CFR 1910.147(e)(3))")
     if entry.ticked and entry.kind == ChecklistTick.Kind.STEP and is_release_step(entry.text):
-        holders = {t.recorded_by_id: t.recorded_by for t in ticks.values() if t.ticked and (
-            t.kind == ChecklistTick.Kind.POINT or is_lockout_step(t.text))}
+        holders = lock_holders(ticks)
         if holders and by.pk not in holders:
             return (f"{what} takes the locks off, and they were put on by "
-                    f"{in_words(sorted(person(u) for u in holders.values()))}: one of them ticks it, once their locks "
-                    "are off. If none of them can be reached, the site engineer removes the locks under the site's "
-                    "procedure for a lock left on (OSHA 29 CFR 1910.147(e)(3))")
+                    f"{in_words(sorted(person(u) for u in holders.values()))}: one of them ticks it, once every lock "
+                    "on this order is off. If none of them can be reached, the site engineer removes the locks under "
+                    "the site's procedure for a lock left on (OSHA 29 CFR 1910.147(e)(3))")
     return ""
+
+
+def lock_holders(ticks: dict) -> dict:
+    """Whoever recorded a lock on an order, by user id: the newest tick of each of its isolation points and of its
+    lockout step, still ticked (``ticks``: ``selectors.latest_ticks``)."""
+    return {t.recorded_by_id: t.recorded_by for t in ticks.values() if t.ticked and (
+        t.kind == ChecklistTick.Kind.POINT or is_lockout_step(t.text))}
+
+
+def _locks_left_on_refusal(order: WorkOrder, by) -> str:
+    """Why ``by`` may not finish ``order``: locks recorded on it by others, and its removal of the locks not ticked.
+    Finishing would say for them that their locks came off, and an order finished no longer holds another crew's
+    steps (a diff review finished so, its release unticked and answered "isolated", with no lock of its own). An
+    engineer may, under the site's procedure for a lock left on (OSHA 29 CFR 1910.147(e)(3)). "" when nothing
+    holds it."""
+    if has_role(by, ENGINEER):
+        return ""
+    ticks = latest_ticks(order)
+    holders = lock_holders(ticks)
+    if not holders or by.pk in holders:
+        return ""
+    releases = [i for i, step in enumerate(order.step_list) if is_release_step(step)]
+    left = [i for i in releases if not ((tick := ticks.get((ChecklistTick.Kind.STEP, i))) is not None and tick.ticked
+                                         and tick.text == order.step_list[i])]
+    if not left:
+        return ""
+    return (f"the locks on this order were put on by {in_words(sorted(person(u) for u in holders.values()))}, and "
+            f"the removal of the locks (step {left[0] + 1}) is not ticked: one of them ticks it on the work order page "
+            "once every lock is off, before the order is finished. If none of them can be reached, the site engineer "
+            "removes the locks under the site's procedure for a lock left on (OSHA 29 CFR 1910.147(e)(3)) and "
+            "finishes it")
 
 
 def _own_hand_back_refusal(order: WorkOrder, key: int, ticks: dict) -> str:
