@@ -33,6 +33,10 @@ def csv_response(filename: str, header: Sequence[str], rows: Iterable[Sequence])
     return response
 
 
+#: The years a download's period may run over: beyond them a day cannot be turned into the site's time and back.
+EARLIEST_YEAR, LATEST_YEAR = 1900, 2999
+
+
 def period(query, first: dt.date, last: dt.date) -> tuple[dt.date, dt.date]:
     """The period a download covers: the ``from`` and ``to`` dates of ``query`` (a request's GET), each defaulting to
     ``first`` and ``last``. ValueError, in words for the person who typed them, when either is not a date as
@@ -44,6 +48,8 @@ def period(query, first: dt.date, last: dt.date) -> tuple[dt.date, dt.date]:
         raise ValueError(f"from and to are dates as YYYY-MM-DD ({exc})") from None
     if first > last:
         raise ValueError(f"from ({first}) is after to ({last})")
+    if first.year < EARLIEST_YEAR or last.year > LATEST_YEAR:  # a day the site's clock cannot reach (a diff review)
+        raise ValueError(f"from and to are dates from {EARLIEST_YEAR} to {LATEST_YEAR}")
     return first, last
 
 

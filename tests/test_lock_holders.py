@@ -76,7 +76,7 @@ def test_every_tick_and_take_back_is_on_the_page_and_the_finished_paper(locked_o
     services.checklist_tick_set(underway, "step", lockout, True, users["technician"])
     trail = selectors.tick_trail(underway)
     assert [row.recorded for row in trail][-2:] == ["tick taken back", "ticked"]
-    assert trail[-1].line.startswith(f"Step {lockout + 1}: ") and trail[-1].who == "technician"
+    assert trail[-1].line == f"Step {lockout + 1}" and trail[-1].who == "technician"
     client.force_login(users["viewer"])
     page = client.get(underway.get_absolute_url()).content.decode()
     assert f"Every tick and tick taken back, as recorded ({len(trail)})" in page and "tick taken back" in page

@@ -163,3 +163,11 @@ def test_a_correction_says_who_made_it_when_and_why_beside_both_records(site, te
     page = _text(client.get(f"/subsystems/{fans.pk}/"))
     assert "superseded by a correction by engineer on " in page and ": hours of the wrong day" in page
     assert "corrects the record of 01 Feb 2026, by engineer on " in page
+    # The service-records CSV says it too, with who entered each record and when.
+    import csv
+    import io
+
+    rows = list(csv.DictReader(io.StringIO(client.get(f"/sites/{site.slug}/service-records.csv", {
+        "from": "2026-01-01", "to": site_today(site).isoformat()}).content.decode("utf-8-sig"))))
+    assert [(r["entered_by"], r["correction_reason"]) for r in rows] == [("technician", ""),
+                                                                         ("engineer", "hours of the wrong day")]

@@ -442,3 +442,12 @@ def test_the_service_records_and_readings_downloads_take_one_telescope(two_teles
     assert reading["taken_at"].startswith(f"{TODAY - dt.timedelta(days=3)}T10:00")
     refused = client.get(f"/sites/{site.slug}/readings.csv", {"telescope": "99999"})
     assert refused.status_code == 400 and "telescope 99999 is not one of Twin Ridge" in refused.content.decode()
+
+
+def test_a_download_s_period_beyond_the_calendar_the_site_reaches_is_refused_in_words(two_telescopes, users, client):
+    """A diff review: ?to=9999-12-31 gave a 500 (a day past it cannot be made)."""
+    site, _, _, _ = two_telescopes
+    client.force_login(users["viewer"])
+    for query in ({"to": "9999-12-31"}, {"from": "0001-01-01"}):
+        answer = client.get(f"/sites/{site.slug}/readings.csv", query)
+        assert answer.status_code == 400 and "dates from 1900 to 2999" in answer.content.decode()

@@ -247,7 +247,7 @@ def _clocks_changed(before: dt.datetime, after: dt.datetime) -> str:
 SERVICE_CSV_HEADER = (
     "performed_on", "telescope", "subsystem", "kind", "plan", "limit_passed_on", "days_after_limit", "work_order",
     "maintenance_type", "hours_spent", "counted_hours", "performed_by", "crew", "summary", "findings", "standing",
-    "record_id",
+    "record_id", "entered_by", "entered_at", "correction_reason",
 )
 
 
@@ -260,7 +260,7 @@ def service_records_csv_rows(site: Site, first: dt.date, last: dt.date, telescop
                                            performed_on__lte=last)
     records = (
         (records.filter(subsystem__telescope=telescope) if telescope else records)
-        .select_related("subsystem__telescope", "plan", "work_order", "performed_by", "corrected_by")
+        .select_related("subsystem__telescope", "plan", "work_order", "performed_by", "created_by", "corrected_by")
         .order_by("performed_on", "pk")
     )
     for r in records:
@@ -275,6 +275,9 @@ def service_records_csv_rows(site: Site, first: dt.date, last: dt.date, telescop
             r.hours_spent if r.hours_spent is not None and _standing(r) == CURRENT else "",
             r.performed_by.get_full_name() or r.performed_by.username,
             ", ".join(r.work_order.crew or ()) if r.work_order else "", r.summary, r.findings, _standing(r), r.pk,
+            # Who entered it and when (a correction's corrector), and a correction's why (an auditor's review).
+            person(r.created_by), timezone.localtime(r.created_at, site.zone).isoformat(timespec="minutes"),
+            r.correction_reason,
         )
 
 

@@ -366,12 +366,14 @@ class SiteReliability:
 
     @property
     def period_words(self) -> str:
-        """The days the failures, operating hours and MTBF cover, as the chart's words say them."""
+        """The days (and the telescope, when one alone counts) the failures, operating hours and MTBF cover, as the
+        chart's words say them."""
+        of = f" on {self.telescope.name} alone" if self.telescope else ""
         if self.period:
-            return f"from {self.period.first:%d %b %Y} to {self.period.last:%d %b %Y}"
+            return f"from {self.period.first:%d %b %Y} to {self.period.last:%d %b %Y}{of}"
         if self.first_night:
-            return f"from the first logged night, {self.first_night:%d %b %Y}, to today, {self.today:%d %b %Y}"
-        return f"to today, {self.today:%d %b %Y} (no night logged)"
+            return f"from the first logged night, {self.first_night:%d %b %Y}, to today, {self.today:%d %b %Y}{of}"
+        return f"to today, {self.today:%d %b %Y} (no night logged){of}"
 
 
 def _starts(

@@ -1011,15 +1011,17 @@ def tick_trail(order: WorkOrder) -> list[TickRecorded]:
     """Every tick and every tick taken back on ``order``'s checklist, in the order recorded: what the page's lines show
     only the newest of (an auditor's review found the full trail only in the staff's admin, in UTC). One query."""
     zone = order.site.zone
+    steps = order.step_list
     rows = []
-    for tick in order.ticks.select_related("recorded_by", "isolation_point").order_by("pk"):
-        if tick.kind == STEP:
-            line = f"Step {tick.step_index + 1}: {tick.text}"
-        else:
-            line = f"Isolation point {tick.isolation_point.label}: {tick.text}"
+    for tick in order.ticks.select_related("recorded_by").order_by("pk"):
+        if tick.kind == STEP:  # its words beside it above; here only where they have changed since
+            same = tick.step_index < len(steps) and steps[tick.step_index] == tick.text
+            line = f"Step {tick.step_index + 1}" + ("" if same else f", when it read: {tick.text}")
+        else:  # the point's words as they read when it was ticked (its label may have changed since)
+            line = f"Isolation point: {tick.text}"
         recorded = ("ticked" + (f"; result: {tick.result}" if tick.result else "")) if tick.ticked else \
             "tick taken back"
-        rows.append(TickRecorded(dateformat.format(tick.recorded_at.astimezone(zone), "d M Y H:i"),
+        rows.append(TickRecorded(dateformat.format(tick.recorded_at.astimezone(zone), "d M Y H:i T"),
                                  person(tick.recorded_by), line, recorded))
     return rows
 
