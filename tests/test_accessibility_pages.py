@@ -15,7 +15,7 @@
 10. No empty header cell (SC 1.3.1).
 
 Outside sources: WCAG 2.2 (W3C Recommendation, 2023): SC 1.3.1, 1.4.3, 2.4.2, 2.5.5, 2.5.8, 3.3.1, 4.1.3, and its
-definitions of contrast ratio and relative luminance (sRGB, threshold 0.04045), computed below by hand; CSS Generated
+definitions of contrast ratio and relative luminance, computed by hand in tests/test_accessible_pages.py; CSS Generated
 Content Level 3 for the alternative text of ``content`` (``content: " x" / ""``). Orders are those of
 tests/test_workorders.py (an axis drive with one AC isolation point).
 """
@@ -28,6 +28,7 @@ from pathlib import Path
 
 import pytest
 from crew_calendar import mirror_under_a_flat_sky
+from test_accessible_pages import contrast, over
 from test_work_alongside import fans_order  # noqa: F401  (fixture, used by name)
 from test_workorder_finish import _post, _started
 from test_workorders import drive, order  # noqa: F401  (fixtures, used by name)
@@ -41,33 +42,6 @@ pytestmark = pytest.mark.django_db
 
 PACKAGE = Path(observatory_ops.__file__).parent
 CSS = (PACKAGE / "static" / "observatory_ops" / "site.css").read_text()
-
-
-# --- The contrast ratio, by WCAG 2.2's definitions --------------------------------------------------------------------
-
-def _luminance(colour: str) -> float:
-    """Relative luminance of an sRGB colour "#rrggbb" (WCAG 2.2, definition of relative luminance)."""
-    channels = [int(colour[i:i + 2], 16) / 255 for i in (1, 3, 5)]
-    linear = [c / 12.92 if c <= 0.04045 else ((c + 0.055) / 1.055) ** 2.4 for c in channels]
-    return 0.2126 * linear[0] + 0.7152 * linear[1] + 0.0722 * linear[2]
-
-
-def _contrast(a: str, b: str) -> float:
-    """(L1 + 0.05) / (L2 + 0.05), the lighter over the darker (WCAG 2.2, definition of contrast ratio)."""
-    light, dark = sorted((_luminance(a), _luminance(b)), reverse=True)
-    return (light + 0.05) / (dark + 0.05)
-
-
-def _over(colour: str, alpha: float, background: str) -> str:
-    """``colour`` at ``alpha`` laid over ``background`` (source-over compositing), as the screen shows it."""
-    mixed = [round(int(colour[i:i + 2], 16) * alpha + int(background[i:i + 2], 16) * (1 - alpha)) for i in (1, 3, 5)]
-    return "#" + "".join(f"{c:02x}" for c in mixed)
-
-
-def test_the_contrast_formula_gives_the_known_extremes():
-    # WCAG 2.2: black on white is 21:1, a colour on itself 1:1.
-    assert _contrast("#000000", "#ffffff") == pytest.approx(21.0)
-    assert _contrast("#4a7676", "#4a7676") == pytest.approx(1.0)
 
 
 def _text(page: str) -> str:
@@ -192,16 +166,16 @@ def test_the_moon_symbols_read_on_the_darkest_night_and_on_the_hatching():
     assert "background:rgba(255,255,255,.8)" in badge
     assert re.search(r"\.calendar \.night \{[^}]*color:#000;", CSS)
     for night in ("#2e5d7a", "#a3261b", "#ffffff"):
-        assert _contrast("#000000", _over("#ffffff", 0.8, night)) >= 4.5, night
-    assert _contrast("#000000", "#2e5d7a") < 3  # as the review found it, without the badge
+        assert contrast("#000000", over("#ffffff", 0.8, night)) >= 4.5, night
+    assert contrast("#000000", "#2e5d7a") < 3  # as the review found it, without the badge
 
 
 def test_the_cleanings_key_reads_at_4_5_to_1_on_the_chart_and_stays_apart_from_the_other_lines():
     # WCAG 2.2, 1.4.3 and the relative luminance definition: the key "dashed verticals: cleanings" is text.
     background = re.search(r'fill="(#[0-9a-f]{6})" stroke', Path(charts.__file__).read_text()).group(1)
     assert background == "#fbfbfa"
-    assert _contrast(CLEANING, background) >= 4.5
-    assert _contrast("#5f8a8a", background) < 4.5  # the colour the review measured at 3.69:1
+    assert contrast(CLEANING, background) >= 4.5
+    assert contrast("#5f8a8a", background) < 4.5  # the colour the review measured at 3.69:1
     assert CLEANING not in {charts.INK, charts.MUTED, charts.ACCENT, charts.ALERT, charts.BAND, "#4a6b4a"}
 
 

@@ -61,22 +61,20 @@ def already_logged_text(when: dt.datetime | None, what: str) -> str:
 def service_records_csv(request, slug):
     """A site's service records from ``from`` to ``to`` (local dates, both included; default: the reliability page's
     12 months) as CSV, for the year-end review in a spreadsheet."""
-    site = get_object_or_404(Site, slug=slug)
-    today = services.site_today(site)
-    try:
-        first, last = period(request.GET, today - dt.timedelta(days=HOURS_WINDOW_DAYS - 1), today)
-        telescope = telescope_of(request.GET, site)
-    except ValueError as exc:
-        return download_refused(request, str(exc), reverse("site-reliability", args=[site.slug]))
-    named = f"{site.slug}-{slugify(telescope.name)}" if telescope else site.slug
-    return csv_response(f"{named}-service-records-{first}-to-{last}.csv", SERVICE_CSV_HEADER,
-                        service_records_csv_rows(site, first, last, telescope))
+    return _site_period_csv(request, slug, "service-records", SERVICE_CSV_HEADER, service_records_csv_rows)
 
 
 @requires(VIEWER)
 def readings_csv(request, slug):
-    """A site's readings (``telescope``: one telescope's) taken from ``from`` to ``to`` (local dates, both included;
-    default: the reliability page's 12 months) as CSV, withdrawn ones with who withdrew them and why."""
+    """A site's readings taken from ``from`` to ``to`` (as above) as CSV, withdrawn ones with who withdrew them and
+    why."""
+    return _site_period_csv(request, slug, "readings", READINGS_CSV_HEADER, readings_csv_rows)
+
+
+def _site_period_csv(request, slug, what: str, header, rows_of):
+    """A site's download of ``what`` over a period (``from``, ``to``: the site's dates, both included; default: the
+    reliability page's 12 months) and for one telescope or all (``telescope``): ``rows_of(site, first, last,
+    telescope)`` under ``header``; a period or a telescope it cannot take is refused in words."""
     site = get_object_or_404(Site, slug=slug)
     today = services.site_today(site)
     try:
@@ -85,8 +83,7 @@ def readings_csv(request, slug):
     except ValueError as exc:
         return download_refused(request, str(exc), reverse("site-reliability", args=[site.slug]))
     named = f"{site.slug}-{slugify(telescope.name)}" if telescope else site.slug
-    return csv_response(f"{named}-readings-{first}-to-{last}.csv", READINGS_CSV_HEADER,
-                        readings_csv_rows(site, first, last, telescope))
+    return csv_response(f"{named}-{what}-{first}-to-{last}.csv", header, rows_of(site, first, last, telescope))
 
 
 @requires(TECHNICIAN)
