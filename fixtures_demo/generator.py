@@ -25,7 +25,7 @@ from observatory_ops.planning import services as planning
 from observatory_ops.planning.models import BookedRun
 from observatory_ops.registry.models import CrewDayOff, Site, Telescope
 from observatory_ops.registry.services import subsystem_create
-from observatory_ops.workorders.models import IsolationPoint, Part
+from observatory_ops.workorders.models import EnergyControlInspection, IsolationPoint, Part
 
 SEED = 20261202
 SITE_SLUG = "vestal-ridge"
@@ -176,6 +176,7 @@ def build(today: dt.date | None = None) -> tuple[Site, bool]:
         _drive_settle_readings(subsystems, users["technician"], today, rng)
         _service_history(site, subsystems, users, today, rng)
         _workshop(site, (t70, r40))
+        _inspections(t70, users, today)
         _mirrors(site, subsystems, users["technician"], today, rng)
         _repairs(site, subsystems, users, start)
         planning.site_recompute(site, today)
@@ -277,6 +278,18 @@ def _service_history(site, subsystems, users, today: dt.date, rng: np.random.Gen
                     )
                 )
     bulk_create_with_history(records, ServiceRecord)
+
+
+def _inspections(t70, users: dict, today: dt.date) -> None:
+    """T70's energy control procedure inspected ten months ago by the administrator, watching the technician; R40's
+    never, so the dashboard shows both (a yearly inspection is due, OSHA 29 CFR 1910.147(c)(6))."""
+    EnergyControlInspection.objects.create(
+        telescope=t70, inspected_on=today - dt.timedelta(days=300), inspector=users["administrator"],
+        employees="Pavo Linnet",
+        findings="Lockout of the mount isolator, servo enable key and brake air watched on a drive order and checked "
+                 "against the procedure: followed as written; the brake air valve's tag was faded and was replaced.",
+        recorded_by=users["administrator"],
+    )
 
 
 def _workshop(site: Site, telescopes) -> None:

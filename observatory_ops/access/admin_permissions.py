@@ -14,7 +14,7 @@ _OURS = ("registry", "logbook", "planning", "workorders", "mirrors", "api")
 _ENGINEER_EDITS = {
     "registry": ("site", "telescope", "subsystem", "crewdayoff"),
     "planning": ("serviceplan", "trigger", "bookedrun", "closure"),
-    "workorders": ("part", "isolationpoint"),
+    "workorders": ("part", "isolationpoint", "energycontrolinspection"),
     "mirrors": ("mirror", "coatingevent", "cleaningevent"),
 }
 #: What an engineer deletes: a crew day off or a closure listed by mistake or called off is a setting, not a record;

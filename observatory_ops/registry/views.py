@@ -79,6 +79,7 @@ def site_dashboard(request, slug):
             "recent_service": planning_selectors.recent_service(site)[:8],
             "parts_to_see_to": workorder_selectors.parts_low_or_short(site),
             "telescopes_out": workorder_selectors.telescopes_out([site]),
+            "inspections": workorder_selectors.energy_control_inspections(site, today),
             "downtime": downtime,
             "left_out": mirrors_left_out(site, today, downtime),  # out with no recoat to put it back: counted to today
             "recoats_to_plan": mirror_services.recoats_to_plan(site, today),

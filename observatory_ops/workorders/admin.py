@@ -6,12 +6,15 @@ from django.core.exceptions import ValidationError
 from django.http import HttpResponseRedirect
 from simple_history.admin import SimpleHistoryAdmin
 
+from observatory_ops.archive.history import person
 from observatory_ops.planning.admin import RecomputesSite
+from observatory_ops.planning.services import site_today
 from observatory_ops.registry.forms import ChoicesNamedWithSite, ChoicesOfItsSite, possible_id
 
 from . import selectors
 from .models import (
     ChecklistTick,
+    EnergyControlInspection,
     IsolationPoint,
     Part,
     PartUse,
@@ -137,6 +140,40 @@ class WorkOrderAdmin(ChoicesNamedWithSite, RecomputesSite, SimpleHistoryAdmin):
                 protected.append(f"{order}: it is underway, its crew at work. Withdraw it on its page instead (not "
                                  "while its crew's locks are on)")
         return deleted, counts, permissions, protected
+
+
+class EnergyControlInspectionForm(forms.ModelForm):
+    class Meta:
+        model = EnergyControlInspection
+        fields = ("telescope", "inspected_on", "inspector", "employees", "findings")
+
+    def clean(self):
+        data = super().clean()
+        telescope, day = data.get("telescope"), data.get("inspected_on")
+        if telescope is not None and day is not None and day > site_today(telescope.site):
+            self.add_error("inspected_on", f"{day:%d %b %Y} is after today at {telescope.site.name}: record an "
+                                           "inspection once it is made.")
+        inspector, employees = data.get("inspector"), data.get("employees") or ""
+        observed = {name.strip().casefold() for name in employees.split(",")}
+        if inspector is not None and {person(inspector).casefold(), inspector.username.casefold()} & observed:
+            self.add_error("inspector", f"{person(inspector)} is among those observed: the inspector is an authorised "
+                                        "person other than those using the procedure (OSHA 29 CFR 1910.147(c)(6)).")
+        return data
+
+
+@admin.register(EnergyControlInspection)
+class EnergyControlInspectionAdmin(SimpleHistoryAdmin):
+    """The yearly inspection of a telescope's energy control procedure, certified by its inspector; the site's
+    dashboard says when each telescope's next is due (``selectors.energy_control_inspections``)."""
+
+    form = EnergyControlInspectionForm
+    list_display = ("telescope", "inspected_on", "inspector", "employees", "recorded_by")
+    list_filter = ("telescope__site",)
+
+    def save_model(self, request, obj, form, change):
+        if not change:
+            obj.recorded_by = request.user
+        super().save_model(request, obj, form, change)
 
 
 @admin.register(Part)

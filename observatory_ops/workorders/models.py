@@ -557,6 +557,39 @@ class IsolationPoint(models.Model):
         )
 
 
+class EnergyControlInspection(models.Model):
+    """A periodic inspection of a telescope's energy control procedure: at least once a year an authorised person
+    other than those using it watches the lockout done and checks it against the procedure, and certifies it (OSHA 29
+    CFR 1910.147(c)(6): the equipment, the date, the employees observed and the inspector). An auditor's review found
+    nowhere to keep it. ``selectors.energy_control_inspections`` says which are due; the site's dashboard shows them."""
+
+    history = HistoricalRecords()  # who changed what, when: see observatory_ops/archive
+
+    telescope = models.ForeignKey(Telescope, on_delete=models.PROTECT, related_name="energy_control_inspections")
+    inspected_on = models.DateField(help_text="The day the inspection was made (the site's date).")
+    inspector = models.ForeignKey(
+        settings.AUTH_USER_MODEL, on_delete=models.PROTECT, related_name="+",
+        help_text="The authorised person who made it: not one of those using the procedure that day.",
+    )
+    employees = models.CharField(
+        max_length=300, validators=[validate_one_line],
+        help_text="Who was observed applying the procedure, e.g. 'Pavo Linnet, Ivo Tarrant'.",
+    )
+    findings = models.TextField(
+        help_text="What was checked, any deviation or inadequacy found, and what was done about it; 'none found' when "
+                  "the procedure was followed as written.",
+    )
+    recorded_by = models.ForeignKey(settings.AUTH_USER_MODEL, on_delete=models.PROTECT, related_name="+",
+                                    editable=False)
+    recorded_at = models.DateTimeField(auto_now_add=True)
+
+    class Meta:
+        ordering = ["telescope", "-inspected_on", "-pk"]
+
+    def __str__(self) -> str:
+        return f"{self.telescope}: energy control procedure inspected {self.inspected_on:%d %b %Y}"
+
+
 class ChecklistTick(models.Model):
     """One tick on a work order's checklist (a step done, an isolation point locked out), or one taken back.
 

@@ -79,6 +79,7 @@ from .cautions import (
 )
 from .models import (
     ChecklistTick,
+    EnergyControlInspection,
     IsolationPoint,
     Part,
     PartUse,
@@ -994,6 +995,37 @@ def tick_note(tick: ChecklistTick, text: str, zone: dt.tzinfo) -> str:
     if tick.text != text:
         return f"ticked by {said} when it read \"{tick.text}\"{result}; changed since: check it again"
     return f"ticked by {said}{result}"
+
+
+#: How often a telescope's energy control procedure is inspected: at least once a year (OSHA 29 CFR 1910.147(c)(6)).
+INSPECTION_EVERY_DAYS = 365
+
+
+@dataclass(frozen=True)
+class InspectionDue:
+    """A telescope's energy control procedure: its ``last`` inspection (None when none is recorded) and the day the
+    next is due by (None: none recorded, due now)."""
+
+    telescope: object  # registry.Telescope
+    last: EnergyControlInspection | None
+    due_by: dt.date | None
+    overdue: bool  # none recorded, or the day it was due by has passed
+
+
+def energy_control_inspections(site: Site, today: dt.date) -> list[InspectionDue]:
+    """Each of ``site``'s telescopes with isolation points (those with an energy control procedure here), its newest
+    inspection and when the next is due (``INSPECTION_EVERY_DAYS`` after it), overdue on ``today`` or not. Two
+    queries."""
+    telescopes = [t for t in site.telescopes.filter(isolation_points__isnull=False).distinct()]
+    newest: dict[int, EnergyControlInspection] = {}
+    for inspection in EnergyControlInspection.objects.filter(telescope__site=site).select_related("inspector"):
+        newest.setdefault(inspection.telescope_id, inspection)  # ordered newest first
+    due = []
+    for telescope in sorted(telescopes, key=lambda t: name_key(t.name)):
+        last = newest.get(telescope.pk)
+        due_by = last.inspected_on + dt.timedelta(days=INSPECTION_EVERY_DAYS) if last else None
+        due.append(InspectionDue(telescope, last, due_by, due_by is None or due_by < today))
+    return due
 
 
 @dataclass(frozen=True)
