@@ -57,6 +57,7 @@ def test_the_records_that_keep_a_person_are_found_from_the_models():
         "logbook.Reading": ["taken_by", "withdrawn_by"],
         "logbook.ServiceRecord": ["performed_by", "created_by"],
         "workorders.WorkOrder": ["assignee", "created_by", "finished_by", "countersigned_by"],
+        "workorders.EnergyControlInspection": ["inspector", "recorded_by"],
         "workorders.ChecklistTick": ["recorded_by"],
         "workorders.CrewMember": ["person"],
         "mirrors.ReflectanceMeasurement": ["taken_by", "withdrawn_by"],
