@@ -55,7 +55,8 @@ def test_a_service_date_more_than_15_years_back_is_refused_naming_the_earliest_a
 def test_a_correction_cannot_move_a_record_more_than_15_years_back(drive, users):
     original = services.service_record_log(drive, None, dt.date(2026, 1, 5), users["technician"], "greased")
     with pytest.raises(ValidationError, match="is more than 15 years ago; the earliest accepted is"):
-        services.service_record_correct(original, users["technician"], "greased", performed_on=dt.date(1900, 1, 1))
+        services.service_record_correct(
+            original, users["technician"], "greased", performed_on=dt.date(1900, 1, 1), reason="typo")
     assert list(ServiceRecord.objects.all()) == [original]
 
 

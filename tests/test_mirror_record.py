@@ -99,7 +99,7 @@ def test_the_same_coating_date_logged_twice_gives_one_service_record(mirror, use
 def test_a_voided_record_on_the_coating_date_does_not_count_as_in_force(mirror, users):
     plan, coated_on = _recoat_plan(mirror), _today(mirror) - dt.timedelta(days=3)
     original = logbook.service_record_log(mirror.subsystem, plan, coated_on, users["technician"], "typed twice")
-    logbook.service_record_correct(original, users["engineer"], "withdrawn", void=True)
+    logbook.service_record_correct(original, users["engineer"], "withdrawn", void=True, reason="typo")
     services.coating_log(mirror, users["technician"], coated_on, "al", [])
     assert ServiceRecord.objects.filter(plan=plan, performed_on=coated_on, void=False,
                                         corrected_by__isnull=True).count() == 1

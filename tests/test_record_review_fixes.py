@@ -47,7 +47,7 @@ def test_a_service_moved_to_before_the_limit_was_passed_is_no_longer_late(late_p
                                          "Filters replaced")
     assert record.days_after_limit == 30
     corrected = services.service_record_correct(record, users["engineer"], "Filters replaced",
-                                                performed_on=dt.date(2025, 12, 20))
+                                                performed_on=dt.date(2025, 12, 20), reason="typo")
     assert (corrected.limit_passed_on, corrected.days_after_limit) == (None, None)
     assert PlanStatus.objects.get(plan=late_plan).last_service_on == dt.date(2025, 12, 20)  # counts from the correction
 
@@ -65,7 +65,7 @@ def test_a_service_moved_past_the_limit_comes_late(late_plan, users):  # noqa: F
                                          "Filters replaced")
     assert record.limit_passed_on is None
     corrected = services.service_record_correct(record, users["engineer"], "Filters replaced",
-                                                performed_on=dt.date(2026, 1, 31))
+                                                performed_on=dt.date(2026, 1, 31), reason="typo")
     assert (corrected.limit_passed_on, corrected.days_after_limit) == (LIMIT_PASSED, 30)
 
 
@@ -80,7 +80,7 @@ def test_the_reviewers_service_moved_from_december_to_june_is_not_172_days_late(
     record = services.service_record_log(fans, plan, dt.date(2026, 12, 4), users["technician"], "Filters replaced")
     assert (record.limit_passed_on, record.days_after_limit) == (dt.date(2026, 11, 20), 14)
     corrected = services.service_record_correct(record, users["engineer"], "Filters replaced",
-                                                performed_on=dt.date(2026, 6, 1))
+                                                performed_on=dt.date(2026, 6, 1), reason="typo")
     assert corrected.limit_passed_on is None
 
 
@@ -90,10 +90,11 @@ def test_correcting_a_late_service_a_later_one_followed_keeps_how_late_it_came(l
                                        "Filters replaced")
     services.service_record_log(late_plan.subsystem, late_plan, dt.date(2026, 3, 1), users["technician"],
                                 "Filters checked")
-    summary_only = services.service_record_correct(late, users["engineer"], "Filters replaced, both fans")
+    summary_only = services.service_record_correct(
+        late, users["engineer"], "Filters replaced, both fans", reason="typo")
     assert (summary_only.limit_passed_on, summary_only.days_after_limit) == (LIMIT_PASSED, 30)
     redated = services.service_record_correct(summary_only, users["engineer"], "Filters replaced, both fans",
-                                              performed_on=dt.date(2026, 1, 21))
+                                              performed_on=dt.date(2026, 1, 21), reason="typo")
     assert (redated.limit_passed_on, redated.days_after_limit) == (LIMIT_PASSED, 20)
     assert PlanStatus.objects.get(plan=late_plan).last_service_on == dt.date(2026, 3, 1)  # the later one still counts
 
@@ -103,7 +104,8 @@ def test_working_it_out_again_leaves_no_trace_on_the_record_or_its_history(late_
     record = services.service_record_log(late_plan.subsystem, late_plan, dt.date(2026, 1, 31), users["technician"],
                                          "Filters replaced")
     history_before = list(record.history.values_list("history_id", "void"))
-    services.service_record_correct(record, users["engineer"], "Filters replaced", performed_on=dt.date(2026, 1, 21))
+    services.service_record_correct(
+        record, users["engineer"], "Filters replaced", performed_on=dt.date(2026, 1, 21), reason="typo")
     record.refresh_from_db()
     assert record.void is False
     assert list(record.history.values_list("history_id", "void")) == history_before
@@ -113,7 +115,8 @@ def test_working_it_out_again_leaves_no_trace_on_the_record_or_its_history(late_
 def test_a_withdrawal_records_no_work_and_so_no_lateness(late_plan, users):  # noqa: F811
     record = services.service_record_log(late_plan.subsystem, late_plan, dt.date(2026, 1, 31), users["technician"],
                                          "Filters replaced")
-    withdrawal = services.service_record_correct(record, users["engineer"], "Logged on the wrong plan", void=True)
+    withdrawal = services.service_record_correct(
+        record, users["engineer"], "Logged on the wrong plan", void=True, reason="typo")
     assert withdrawal.limit_passed_on is None
     assert PlanStatus.objects.get(plan=late_plan).status == "overdue"  # as before the withdrawn work
 

@@ -68,7 +68,8 @@ def test_a_corrected_date_moves_the_failure_to_the_night_before_it(parts, users,
     """Logged as repaired on 21 Jan (night of 20 Jan, 20 x 5 = 100 h), corrected to 16 Jan: night of 15 Jan, at
     15 x 5 = 75 h."""
     record = _repair(parts["Fan A"].telescope.site, parts["Fan A"], users["engineer"], dt.date(2026, 1, 21), path)
-    service_record_correct(record, users["engineer"], "repair, date corrected", performed_on=dt.date(2026, 1, 16))
+    service_record_correct(
+        record, users["engineer"], "repair, date corrected", performed_on=dt.date(2026, 1, 16), reason="typo")
     fans = _kind(record.subsystem.telescope.site, "cooling_fans")
     [failure] = fans.failures_listed
     assert (failure.night, failure.repaired_on, failure.hours) == (dt.date(2026, 1, 15), dt.date(2026, 1, 16), 75.0)
@@ -82,8 +83,8 @@ def test_the_newest_correction_counts(parts, users, recomputes_recorded, path):
     """21 Jan, corrected to 16 Jan, that corrected again to 18 Jan: night of 17 Jan, 17 x 5 = 85 h."""
     by = users["engineer"]
     first = _repair(parts["Fan A"].telescope.site, parts["Fan A"], by, dt.date(2026, 1, 21), path)
-    second = service_record_correct(first, by, "date corrected", performed_on=dt.date(2026, 1, 16))
-    service_record_correct(second, by, "date corrected again", performed_on=dt.date(2026, 1, 18))
+    second = service_record_correct(first, by, "date corrected", performed_on=dt.date(2026, 1, 16), reason="typo")
+    service_record_correct(second, by, "date corrected again", performed_on=dt.date(2026, 1, 18), reason="typo")
     [failure] = _kind(first.subsystem.telescope.site, "cooling_fans").failures_listed
     assert (failure.night, failure.hours) == (dt.date(2026, 1, 17), 85.0)
 
@@ -94,7 +95,7 @@ def test_a_withdrawn_record_counts_no_failure_and_no_hours(parts, users, recompu
     one-sided lower bound), and its corrective hours go too."""
     site = parts["Focuser"].telescope.site
     record = _repair(site, parts["Focuser"], users["engineer"], dt.date(2026, 2, 10), path, hours=3.0)
-    service_record_correct(record, users["engineer"], "logged on the wrong subsystem", void=True)
+    service_record_correct(record, users["engineer"], "logged on the wrong subsystem", void=True, reason="typo")
     focus = _kind(site, "focus_mechanism")
     assert (focus.failures, focus.failures_listed, focus.left_out) == (0, [], [])
     assert focus.operating_hours == 500.0
@@ -108,8 +109,9 @@ def test_a_withdrawal_corrected_in_turn_brings_the_failure_back_on_its_date(part
     (31 + 28) x 5 = 295 h."""
     by = users["engineer"]
     record = _repair(parts["Fan B"].telescope.site, parts["Fan B"], by, dt.date(2026, 2, 10), path)
-    withdrawal = service_record_correct(record, by, "withdrawn", void=True)
-    service_record_correct(withdrawal, by, "it was a repair after all, on 1 Mar", performed_on=dt.date(2026, 3, 1))
+    withdrawal = service_record_correct(record, by, "withdrawn", void=True, reason="typo")
+    service_record_correct(
+        withdrawal, by, "it was a repair after all, on 1 Mar", performed_on=dt.date(2026, 3, 1), reason="typo")
     [failure] = _kind(record.subsystem.telescope.site, "cooling_fans").failures_listed
     assert (failure.subsystem, failure.night, failure.hours) == ("T1: Fan B", dt.date(2026, 2, 28), 295.0)
 
@@ -136,7 +138,7 @@ def test_a_period_places_the_failure_by_its_corrected_repair_day(parts, users, r
     site = parts["Fan A"].telescope.site
     record = _repair(site, parts["Fan A"], by, dt.date(2026, 1, 21), "order")
     assert _kind(site, "cooling_fans", Period(dt.date(2026, 1, 17), TODAY)).failures == 1
-    service_record_correct(record, by, "date corrected", performed_on=dt.date(2026, 1, 16))
+    service_record_correct(record, by, "date corrected", performed_on=dt.date(2026, 1, 16), reason="typo")
     assert _kind(site, "cooling_fans", Period(dt.date(2026, 1, 17), TODAY)).failures == 0
 
 

@@ -182,10 +182,10 @@ def test_a_repair_logged_without_an_order_counts_as_a_failure_until_withdrawn(re
     assert "repair of a failure (no work order)" in client.get(fan_b.get_absolute_url()).content.decode()
 
     corrected = service_record_correct(record_, users["engineer"], "Fan seized; replaced (bearing)",
-                                       performed_on=dt.date(2026, 4, 11))
+                                       performed_on=dt.date(2026, 4, 11), reason="typo")
     assert corrected.repaired_failure
     assert [f.night for f in fans().failures_listed if f.order_id is None] == [dt.date(2026, 4, 10)]
-    service_record_correct(corrected, users["engineer"], "logged in error", void=True)
+    service_record_correct(corrected, users["engineer"], "logged in error", void=True, reason="typo")
     assert [f for f in fans().failures_listed if f.order_id is None] == []
 
 
@@ -579,9 +579,9 @@ def test_the_service_records_of_a_period_download_as_csv_with_how_each_counts(re
     logged(fan_a, dt.date(2026, 3, 2), "=SUM(A1)", hours_spent=1.0, plan=fan_a.plans.first())
     logged(fan_a, dt.date(2026, 3, 3), "fan replaced", hours_spent=2.0, work_order=corrective)
     wrong = logged(encoder, dt.date(2026, 3, 4), "cleaned", hours_spent=9.0)
-    fixed = service_record_correct(wrong, by, "cleaned", hours_spent=0.5)
+    fixed = service_record_correct(wrong, by, "cleaned", hours_spent=0.5, reason="typo")
     gone = logged(encoder, dt.date(2026, 3, 5), "typed on the wrong subsystem", repaired_failure=True)
-    withdrawal = service_record_correct(gone, by, "logged in error", void=True)
+    withdrawal = service_record_correct(gone, by, "logged in error", void=True, reason="typo")
     logged(encoder, dt.date(2026, 4, 1), "after the period")
 
     client.force_login(users["viewer"])

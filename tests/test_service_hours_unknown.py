@@ -171,3 +171,15 @@ def test_a_correction_says_who_made_it_when_and_why_beside_both_records(site, te
         "from": "2026-01-01", "to": site_today(site).isoformat()}).content.decode("utf-8-sig"))))
     assert [(r["entered_by"], r["correction_reason"]) for r in rows] == [("technician", ""),
                                                                          ("engineer", "hours of the wrong day")]
+
+
+def test_the_correction_service_itself_refuses_a_correction_without_a_reason(fans, users):
+    """A diff review: only the form asked why, so a script or the API could correct a record and say nothing. The
+    service refuses it and stores nothing."""
+    from django.core.exceptions import ValidationError
+
+    record = services.service_record_log(fans, None, site_today(fans.telescope.site), users["technician"], "filters")
+    for blank in ("", "   "):
+        with pytest.raises(ValidationError, match="say why the record is corrected"):
+            services.service_record_correct(record, users["engineer"], "filters", hours_spent=2.0, reason=blank)
+    assert list(ServiceRecord.objects.filter(subsystem=fans)) == [record]

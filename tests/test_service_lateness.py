@@ -62,7 +62,7 @@ def test_a_correction_keeps_the_limit_and_counts_from_its_own_date(late_plan, us
     record = services.service_record_log(late_plan.subsystem, late_plan, dt.date(2026, 1, 31), users["technician"],
                                          "Filters replaced")
     corrected = services.service_record_correct(record, users["engineer"], "Filters replaced",
-                                                performed_on=dt.date(2026, 1, 21))
+                                                performed_on=dt.date(2026, 1, 21), reason="typo")
     assert (corrected.limit_passed_on, corrected.days_after_limit) == (dt.date(2026, 1, 1), 20)
 
 

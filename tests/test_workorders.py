@@ -838,8 +838,8 @@ def test_corrections_logged_before_they_carried_their_order_get_it_from_the_migr
     services.work_order_move(order, "start", users["technician"])
     services.work_order_finish(order, users["technician"], 4.0, "ok", _all_readings(order, 0.6), **_confirmed(order))
     first = ServiceRecord.objects.get(work_order=order)
-    second = service_record_correct(first, users["engineer"], "again", hours_spent=3.0)
-    third = service_record_correct(second, users["engineer"], "and again", hours_spent=2.0)
+    second = service_record_correct(first, users["engineer"], "again", hours_spent=3.0, reason="typo")
+    third = service_record_correct(second, users["engineer"], "and again", hours_spent=2.0, reason="typo")
     ServiceRecord.objects.filter(pk__in=[second.pk, third.pk]).update(work_order=None)  # as logged before
     migration = importlib.import_module("observatory_ops.logbook.migrations.0012_corrections_carry_their_work_order")
     migration.carry_work_order(apps, None)

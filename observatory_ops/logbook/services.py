@@ -712,11 +712,12 @@ def _limit_passed_without(record: ServiceRecord, performed_on: dt.date) -> dt.da
 
 
 def service_record_correct(
-    original: ServiceRecord, by, summary: str, performed_on: dt.date | None = None, hours_spent: float | None = None,
-    findings: str = "", void: bool = False, reason: str = "",
+    original: ServiceRecord, by, summary: str, *, reason: str, performed_on: dt.date | None = None,
+    hours_spent: float | None = None, findings: str = "", void: bool = False,
 ) -> ServiceRecord:
     """Append a correction that replaces ``original`` (or withdraws it with ``void``); nothing is edited. ``reason``:
-    what was wrong with it, kept on the correction with who made it and when (``created_by``, ``created_at``).
+    what was wrong with it, required, kept on the correction with who made it and when (``created_by``,
+    ``created_at``).
 
     A new date is held to the rules of a new record (``service_date_problem``, ``retired_work_problem``). The correction
     carries the original's work order: its hours stay in the order type's column of the reliability page, and the
@@ -724,6 +725,9 @@ def service_record_correct(
     came (``limit_passed_on``) is worked out again for the corrected date, as if the original had not been logged
     (``_limit_passed_without``, one site recompute, only when the date changes): work moved before the limit was passed
     was on time, work moved past it came late. A withdrawal records no work, so it is late by nothing."""
+    reason = " ".join(reason.split())
+    if not reason:
+        raise ValidationError("say why the record is corrected: a correction without a reason is not kept")
     if performed_on and performed_on != original.performed_on:
         problem = (service_date_problem(original.subsystem.telescope.site, performed_on)
                    or retired_work_problem(original.subsystem, performed_on, "Service work"))
@@ -739,7 +743,7 @@ def service_record_correct(
             performed_by=original.performed_by,
             hours_spent=original.hours_spent if hours_spent is None else hours_spent,
             summary=summary, findings=findings, corrects=original, void=void, created_by=by,
-            correction_reason=" ".join(reason.split()),
+            correction_reason=reason,
             repaired_failure=original.repaired_failure,
             limit_passed_on=(None if void else original.limit_passed_on if performed_on == original.performed_on
                              else _limit_passed_without(original, performed_on)),
