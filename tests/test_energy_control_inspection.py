@@ -70,6 +70,22 @@ def test_the_admin_refuses_an_inspection_in_the_future_or_by_someone_observed(si
     assert not EnergyControlInspection.objects.exists()
 
 
+def test_the_admin_names_the_inspector_as_the_employees_observed_are_typed(site, telescope, users,
+                                                                           engineer_in_admin):
+    """The last session's walk: the inspector list named people by user name, while those observed are typed as full
+    names. Both the choice and the list name people as the pages do."""
+    users["engineer"].first_name, users["engineer"].last_name = "Oda", "Ferrin"  # invented
+    users["engineer"].save()
+    mains_isolator(telescope)
+    add_page = engineer_in_admin.get(reverse("admin:workorders_energycontrolinspection_add")).content.decode()
+    assert f'<option value="{users["engineer"].pk}">Oda Ferrin</option>' in add_page
+    EnergyControlInspection.objects.create(telescope=telescope, inspected_on=site_today(site),
+                                           inspector=users["engineer"], employees="Technician", findings="none found",
+                                           recorded_by=users["engineer"])
+    listed = _text(engineer_in_admin.get(reverse("admin:workorders_energycontrolinspection_changelist")))
+    assert "Oda Ferrin Technician Oda Ferrin" in listed
+
+
 def test_the_demo_shows_an_inspection_made_and_one_due(client):
     """The demo's invented site: T70 inspected ten months ago, R40 never (both states on its dashboard)."""
     from django.contrib.auth.models import User

@@ -12,6 +12,7 @@ from observatory_ops.planning.services import site_today
 from observatory_ops.registry.forms import ChoicesNamedWithSite, ChoicesOfItsSite, possible_id
 
 from . import selectors
+from .forms import PersonChoiceField
 from .models import (
     ChecklistTick,
     EnergyControlInspection,
@@ -146,6 +147,7 @@ class EnergyControlInspectionForm(forms.ModelForm):
     class Meta:
         model = EnergyControlInspection
         fields = ("telescope", "inspected_on", "inspector", "employees", "findings")
+        field_classes = {"inspector": PersonChoiceField}  # by name, as "employees observed" are typed
 
     def clean(self):
         data = super().clean()
@@ -167,8 +169,17 @@ class EnergyControlInspectionAdmin(SimpleHistoryAdmin):
     dashboard says when each telescope's next is due (``selectors.energy_control_inspections``)."""
 
     form = EnergyControlInspectionForm
-    list_display = ("telescope", "inspected_on", "inspector", "employees", "recorded_by")
+    list_display = ("telescope", "inspected_on", "inspected_by", "employees", "entered_by")
     list_filter = ("telescope__site",)
+    list_select_related = ("telescope", "inspector", "recorded_by")
+
+    @admin.display(description="inspector", ordering="inspector__last_name")
+    def inspected_by(self, inspection: EnergyControlInspection) -> str:
+        return person(inspection.inspector)
+
+    @admin.display(description="recorded by", ordering="recorded_by__last_name")
+    def entered_by(self, inspection: EnergyControlInspection) -> str:
+        return person(inspection.recorded_by)
 
     def save_model(self, request, obj, form, change):
         if not change:

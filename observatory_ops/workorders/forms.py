@@ -57,7 +57,9 @@ class _PlansAlsoDone(_ChoicesOfStoredIds):
         return f"{obj.subsystem.telescope.name}: {obj.subsystem.name}: {obj.name}"
 
 
-class _PersonChoiceField(forms.ModelChoiceField):
+class PersonChoiceField(forms.ModelChoiceField):
+    """One person chosen by account, named as the pages name people (``archive.history.person``)."""
+
     def label_from_instance(self, obj) -> str:
         return person(obj)
 
@@ -153,7 +155,7 @@ class WorkOrderEditForm(LoadedAsMixin, forms.ModelForm):
     """The engineer's edit of a draft or issued order. Steps without the lockout step, where the order's
     hazards call for isolation, are refused with the line to put back."""
 
-    assignee = _PersonChoiceField(
+    assignee = PersonChoiceField(
         queryset=get_user_model().objects.none(), required=False,
         help_text="Technicians, engineers and administrators (and whoever it is assigned to now).",
         error_messages={"invalid_choice": "Choose a person from the list."},
