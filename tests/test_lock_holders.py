@@ -1,7 +1,8 @@
-"""Each lock comes off by the person who put it on (OSHA 29 CFR 1910.147(e)(3); a group lockout, (f)(3)): the tick of
-an isolation point or of the lockout is taken back only by whoever recorded it, and the removal of the locks is ticked
-only by someone who recorded the order's lockout or one of its points. An engineer may, where the one who put the lock
-on cannot be reached, under the site's procedure for a lock left on ((e)(3)), and is named on the tick.
+"""Each lock comes off by the person who put it on (OSHA 29 CFR 1910.147(e)(3); a group lockout, (f)(3)): the tick of an
+isolation point or of the lockout is taken back only by whoever recorded it, and the removal of the locks is ticked only
+by someone who recorded the order's lockout or one of its points, and taken back only by whoever ticked it. An engineer
+may, where the one who put the lock on cannot be reached, under the site's procedure for a lock left on ((e)(3)), and is
+named on the tick.
 
 An auditor's review: a second technician took back another crew's lock ticks one by one, which let a second crew's
 brake air through, and ticked a lock removal on an order they had no part in. The order is that of
@@ -55,6 +56,20 @@ def test_the_locks_come_off_by_those_who_put_them_on(locked_out, second_technici
     with pytest.raises(services.Refused, match="they were put on by technician: one of them ticks it"):
         services.checklist_tick_set(underway, "step", release, True, second_technician)
     services.checklist_tick_set(underway, "step", release, True, users["technician"])
+
+
+def test_the_removal_of_the_locks_is_taken_back_only_by_whoever_ticked_it(locked_out, second_technician, users):
+    """The last notes: a second technician took back the removal's tick and then could not tick it again, which
+    stalled the order until its holder or an engineer came."""
+    underway, lockout, release = locked_out
+    for step in range(lockout + 1, release + 1):
+        services.checklist_tick_set(underway, "step", step, True, users["technician"])
+    with pytest.raises(services.Refused, match="was recorded by technician, who took the locks off: only they take"):
+        services.checklist_tick_set(underway, "step", release, False, second_technician)
+    assert selectors.latest_ticks(underway)[("step", release)].ticked  # refused: nothing stored
+    services.checklist_tick_set(underway, "step", release, False, users["engineer"])  # the engineer may
+    services.checklist_tick_set(underway, "step", release, True, users["technician"])
+    services.checklist_tick_set(underway, "step", release, False, users["technician"])  # their own
 
 
 def test_an_engineer_may_under_the_site_s_procedure_and_is_named(locked_out, users):

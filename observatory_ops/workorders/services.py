@@ -1257,18 +1257,24 @@ def _lock_holder_refusal(order: WorkOrder, entry: ChecklistTick, latest: Checkli
                          what: str) -> str:
     """Why ``by`` may not make ``entry`` on a lock's line: the tick of an isolation point or of the lockout is taken
     back only by whoever recorded it, and the removal of the locks is ticked only by someone who recorded this order's
-    lockout or one of its points: each lock comes off by the person who put it on (OSHA 29 CFR 1910.147(e)(3), (f)(3)).
-    An auditor's review took back another crew's lock ticks one by one, which let a second crew's brake air through,
-    and ticked another order's lock removal with no part in it. An engineer may, where the one who put the lock on
-    cannot be reached, under the site's own procedure for it ((e)(3): they are named on the tick). "" when it may."""
+    lockout or one of its points, and taken back only by whoever ticked it: each lock comes off by the person who put it
+    on (OSHA 29 CFR 1910.147(e)(3), (f)(3)). An auditor's review took back another crew's lock ticks one by one, which
+    let a second crew's brake air through, and ticked another order's lock removal with no part in it. An engineer may,
+    where the one who put the lock on cannot be reached, under the site's own procedure for it ((e)(3): they are named
+    on the tick). "" when it may."""
     if has_role(by, ENGINEER):
         return ""
     lock_line = entry.kind == ChecklistTick.Kind.POINT or is_lockout_step(entry.text)
+    release = entry.kind == ChecklistTick.Kind.STEP and is_release_step(entry.text)
     if not entry.ticked and lock_line and latest is not None and latest.recorded_by_id != by.pk:
         return (f"{what} was recorded by {person(latest.recorded_by)}: only they take its tick back, since the lock is "
                 "theirs. If they cannot be reached, the site engineer removes it under the site's procedure for a lock "
                 "left on (OSHA 29 CFR 1910.147(e)(3))")
-    if entry.ticked and entry.kind == ChecklistTick.Kind.STEP and is_release_step(entry.text):
+    if not entry.ticked and release and latest is not None and latest.recorded_by_id != by.pk:
+        # Taken back by another, it could be ticked again only by a holder: the order would stall on a night shift.
+        return (f"{what} was recorded by {person(latest.recorded_by)}, who took the locks off: only they take its tick "
+                "back. If they cannot be reached, the site engineer does")
+    if entry.ticked and release:
         holders = lock_holders(ticks)
         if holders and by.pk not in holders:
             return (f"{what} takes the locks off, and they were put on by "
