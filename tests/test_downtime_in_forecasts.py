@@ -330,3 +330,24 @@ def test_a_mirror_left_out_by_a_stopped_recoat_keeps_its_telescope_out_up_to_tod
     assert status.forecast_date == max(_reached(first_unlogged, (first_unlogged, today)), today)
     assert (f"the stopped recoat of F50: Primary mirror ({first_unlogged:%d %b %Y} to {today:%d %b %Y}; its primary "
             f"mirror out since {first_unlogged:%d %b %Y} (removed by {orders['removal'].number})") in status.basis
+
+
+def test_a_recoat_entered_without_orders_counts_in_the_forecasts_as_on_the_dashboard(scene, users, client):
+    """The last notes: a recoat entered in the admin with no orders showed its days on the dashboard's "Downtime
+    planned", while the forecasts counted its nights as used (two lists of recoats in hand). One list now
+    (``recoats_in_hand``): its planned days, until they are past."""
+    from observatory_ops.mirrors.models import RecoatPlan
+
+    site, today, plan, mirror = scene
+    first, last = today + dt.timedelta(days=3), today + dt.timedelta(days=8)
+    recoat = RecoatPlan.objects.create(mirror=mirror, starts_on=first, ends_on=last, phases=[], cost=0.0,
+                                       created_by=users["engineer"])
+    services.site_recompute(site)
+    status = PlanStatus.objects.get(plan=plan)
+    assert status.forecast_date == _reached(today, (first, last)) == today + dt.timedelta(days=18)
+    assert f"no use on the 6 nights of the planned recoat of F50: Primary mirror ({first:%d %b %Y}" in status.basis
+    client.force_login(users["viewer"])
+    assert f"{first:%d %b %Y}" in client.get(site.get_absolute_url()).content.decode()
+    assert services.recoats_in_hand(site, today) == [recoat]
+    assert services.recoats_in_hand(site, last) == [recoat] and services.recoats_in_hand(site, last + dt.timedelta(
+        days=1)) == []

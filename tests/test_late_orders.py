@@ -10,7 +10,7 @@ from django.core import mail
 from test_workorders import PLANNED, drive, order  # noqa: F401  (fixtures, used by name)
 
 from observatory_ops.planning.digest import due_digest
-from observatory_ops.planning.services import site_today
+from observatory_ops.planning.services import recoats_in_hand, site_today
 from observatory_ops.workorders import selectors, services
 from observatory_ops.workorders.models import IsolationPoint
 
@@ -66,9 +66,9 @@ def test_a_recoat_past_its_last_day_with_orders_still_to_do_is_said_running_late
     today = site_today(site)
     plan = mirror_services.recoat_plan_create(mirror, today + dt.timedelta(days=3), list(RECOAT_PHASES), 3.5,
                                               users["engineer"])
-    assert mirror_services.downtime_planned(site, today) == [plan]
+    assert recoats_in_hand(site, today) == [plan]
     later = plan.ends_on + dt.timedelta(days=4)  # its window over, its orders still drafts
-    assert mirror_services.downtime_planned(site, later) == [plan]
+    assert recoats_in_hand(site, later) == [plan]
     # Time passes: the window and its orders' days are three weeks back, the orders still drafts.
     back = plan.starts_on - (today - dt.timedelta(days=20))
     type(plan).objects.filter(pk=plan.pk).update(starts_on=plan.starts_on - back, ends_on=plan.ends_on - back)

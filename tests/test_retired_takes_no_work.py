@@ -5,7 +5,7 @@ repair dated after the retire day accepted with messages the plans and the relia
 tube brought back in the admin with its parts left retired unsaid.
 
 The rules tested: a recoat is refused on a retired mirror (``mirrors.services.retired_recoat_text``); a retired
-mirror's recoat is no downtime (``mirrors.services.downtime_planned``, ``planning.services.recoats_in_hand``) and the
+mirror's recoat is no downtime (``planning.services.recoats_in_hand``) and the
 dashboard names its orders to withdraw; work and readings dated after the retire day are refused naming that day and
 the subsystem of its kind in service (``registry.services.retired_work_problem``), those dated on or before it kept as
 history entered late. The scene and its forecast by hand: tests/test_downtime_in_forecasts.py (the fans' plan reaches
@@ -151,8 +151,7 @@ def test_a_retired_mirrors_recoat_is_no_downtime_and_the_dashboard_names_its_ord
     status = PlanStatus.objects.get(plan=plan)
     assert status.forecast_date == today + dt.timedelta(days=NO_RECOAT_IN_THE_WAY)
     assert "planned recoat" not in status.basis
-    assert mirror_services.downtime_planned(site, today) == []
-    assert services.recoats_in_hand(site) == []
+    assert services.recoats_in_hand(site, today) == []
     client.force_login(users["viewer"])
     page = client.get(site.get_absolute_url()).content.decode()
     assert "No recoat planned." in page and "out of service" not in page.split('id="downtime"')[1].split("</div>")[0]

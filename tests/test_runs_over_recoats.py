@@ -121,15 +121,17 @@ def test_a_stopped_recoat_has_no_run_over_it(recoat, runs):
     assert services.runs_over_recoats(recoat.mirror.subsystem.telescope.site, TODAY) == []
 
 
-def test_two_queries_whatever_the_numbers_of_recoats_and_runs(recoat, runs, users, telescope,
-                                                              django_assert_num_queries):
+def test_four_queries_whatever_the_numbers_of_recoats_and_runs(recoat, runs, users, telescope,
+                                                               django_assert_num_queries):
     secondary = Subsystem.objects.create(telescope=telescope, kind="secondary_mirror", name="Secondary")
     other = Mirror.objects.create(subsystem=secondary, diameter_mm=150, thickness_mm=25, material="borosilicate",
                                   cell_mass_kg=3)
     CoatingEvent.objects.create(mirror=other, coated_on=COATED, metal="al")
     second = services.recoat_plan_create(other, dt.date(2026, 7, 18), list(RECOAT_PHASES), 2.0, users["engineer"])
     site = telescope.site
-    with django_assert_num_queries(3):  # the recoats, their work orders (their nights: recoat_downtime), the runs
+    # The recoats' order states (planning.services.recoats_in_hand), the recoats, their work orders (their nights:
+    # recoat_downtime), the runs.
+    with django_assert_num_queries(4):
         found = services.runs_over_recoats(site, TODAY)
         words = [o.text for o in found] + [o.plan.mirror.subsystem.telescope.name for o in found]
     assert [(o.plan, o.run.title) for o in found] == [
@@ -426,10 +428,10 @@ def test_the_dashboard_reads_the_coming_recoats_once(recoat, runs, users, client
     """runs_over_recoats takes the recoats the dashboard already read."""
     from django.db.models import prefetch_related_objects
 
-    from observatory_ops.planning.services import site_today
+    from observatory_ops.planning.services import recoats_in_hand, site_today
 
     site = recoat.mirror.subsystem.telescope.site
-    plans = services.downtime_planned(site, site_today(site))
+    plans = recoats_in_hand(site, site_today(site))
     prefetch_related_objects(plans, "work_orders")  # as the dashboard reads them, for their nights
     with django_assert_max_num_queries(1):
         services.runs_over_recoats(site, TODAY, plans)

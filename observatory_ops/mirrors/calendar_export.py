@@ -40,7 +40,7 @@ def uid_host() -> str:
 
 def _window_status(plan: RecoatPlan) -> str:
     """A recoat window is cancelled when all its orders are withdrawn or its mirror is retired (not recoated:
-    ``mirrors.services.downtime_planned``), tentative while the orders left are drafts."""
+    ``planning.services.recoats_in_hand``), tentative while the orders left are drafts."""
     states = {order.state for order in plan.work_orders.all()} - {State.WITHDRAWN}
     if (not states and plan.work_orders.all()) or plan.mirror.subsystem.retired_on is not None:
         return "CANCELLED"

@@ -36,6 +36,7 @@ from observatory_ops.planning.services import (
     downtimes_of,
     forecast_model,
     recoat_downtime,
+    recoats_in_hand,
     site_recompute,
     site_sky_refresh,
     site_today,
@@ -1034,7 +1035,7 @@ def due_in_downtime(plan: RecoatPlan) -> DowntimeOffer | None:
     from observatory_ops.planning.models import PlanStatus
     from observatory_ops.workorders.selectors import orders_for_plans  # mirrors builds on work orders
 
-    if plan.mirror.subsystem.retired_on is not None:  # not recoated, so no downtime (``downtime_planned``)
+    if plan.mirror.subsystem.retired_on is not None:  # not recoated, so no downtime (``recoats_in_hand``)
         return None
     site = plan.mirror.subsystem.telescope.site
     today = site_today(site)
@@ -1073,23 +1074,9 @@ def recoat_in_hand_text(plan: RecoatPlan) -> str:
             "its work is not all done; finish it, or withdraw its work orders to stop it, before planning another")
 
 
-def downtime_planned(site: Site, today: dt.date) -> list[RecoatPlan]:
-    """The site's recoats going ahead and not yet over (an order of each still to do): each takes its telescope out of
-    service on the days its orders now give (``planning.services.recoat_downtime``; the dashboard's "Downtime
-    planned"), one whose days have passed included (running late: a year's review read "No recoat planned" with all
-    four orders of one still open)."""
-    # Its work all done, a recoat is over whatever its planned last day (one done early showed its telescope out of
-    # service to that day, where the forecasts counted it back in service).
-    still_to_do = Q(work_orders__state__in=(State.DRAFT, State.ISSUED, State.UNDERWAY))
-    without_orders = Q(ends_on__gte=today, work_orders__isnull=True)  # one entered in the admin: its planned days
-    # A retired mirror is not recoated: its recoat takes no telescope out (``recoats_of_retired``).
-    return list(_recoats_going_ahead(site).filter(still_to_do | without_orders,
-                                                  mirror__subsystem__retired_on__isnull=True).distinct())
-
-
 def recoats_of_retired(site: Site) -> list[RecoatPlan]:
     """The site's recoats going ahead with work still to do on a mirror since retired (with the optical tube it is a
-    part of, say): no longer counted as downtime (``downtime_planned``, ``planning.services.recoats_in_hand``), since a
+    part of, say): no longer counted as downtime (``planning.services.recoats_in_hand``), since a
     retired mirror is not recoated, and named on the dashboard so their orders are withdrawn. Each carries
     ``orders_to_do``, those orders. A review retired a tube and its primary's four draft recoat orders kept the
     telescope out of service on the dashboard and in the forecasts."""
@@ -1152,12 +1139,12 @@ class RunOverRecoat:
 
 
 def runs_over_recoats(site: Site, today: dt.date, plans: list[RecoatPlan] | None = None) -> list[RunOverRecoat]:
-    """The site's booked runs falling on nights of its recoats going ahead and not yet over (``downtime_planned``),
+    """The site's booked runs falling on nights of its recoats in hand (``planning.services.recoats_in_hand``),
     with the nights of both from ``today`` on (nights already past cannot be moved), soonest recoat first. The recoat
     planner keeps a new recoat off a blocked run's nights and prices an unblocked one's higher (``night_costs``), but
-    a run booked, moved or blocked after the recoat was planned shows only here. Two queries, whatever the numbers.
+    a run booked, moved or blocked after the recoat was planned shows only here. Four queries, whatever the numbers.
     A run is booked at the site, so it is held against every telescope's recoat there, as the planner holds it."""
-    plans = downtime_planned(site, today) if plans is None else plans  # a caller that has them read them once
+    plans = recoats_in_hand(site, today) if plans is None else plans  # a caller that has them read them once
     if not plans:
         return []
     prefetch_related_objects(plans, "work_orders")  # a recoat's nights are its orders' (recoat_downtime)
@@ -1191,7 +1178,7 @@ def _recoats_planned_at(site: Site, mirror: Mirror, first: dt.date, last: dt.dat
     """The site's other mirrors' recoats in hand within [first, last] on their days as their work orders now stand
     (``recoat_downtime``): the crew is committed on those days, which the planner does not price, so it names them."""
     today = site_today(site)
-    others = [plan for plan in downtime_planned(site, today) if plan.mirror_id != mirror.pk]
+    others = [plan for plan in recoats_in_hand(site, today) if plan.mirror_id != mirror.pk]
     prefetch_related_objects(others, "work_orders")  # a recoat's nights are its orders' (recoat_downtime)
     for plan in others:
         plan.out = recoat_downtime(plan, today)

@@ -17,7 +17,7 @@ from observatory_ops.calc import coating
 from observatory_ops.logbook.forms import ReadingWithdrawForm
 from observatory_ops.logbook.views import already_logged_text
 from observatory_ops.planning.models import PlanStatus
-from observatory_ops.planning.services import site_today
+from observatory_ops.planning.services import recoats_in_hand, site_today
 from observatory_ops.registry.models import Site
 from observatory_ops.registry.services import successors_of
 from observatory_ops.workorders.models import State, WorkOrder
@@ -51,7 +51,7 @@ def mirror_detail(request, pk):
         Prefetch("work_orders", queryset=WorkOrder.objects.order_by("planned_date", "pk"))
     ))
     # A recoat in hand heads with its days as its orders now stand, and their cost; a recoat over, its planned days.
-    in_hand = {plan.pk for plan in services.downtime_planned(site, site_today(site))}
+    in_hand = {plan.pk for plan in recoats_in_hand(site, site_today(site))}
     for plan in plans:
         plan.out = plan.out_cost = None
     services.with_days_out([plan for plan in plans if plan.pk in in_hand], site_today(site))

@@ -1120,7 +1120,7 @@ def recoat_downtime(plan, today: dt.date) -> Downtime:
       are given their new days.
 
     One rule for the forecasts (``_downtime_by_telescope``), the dashboard and the booked runs it warns of
-    (``mirrors.services.downtime_planned``, ``runs_over_recoats``). A phase stored without readable dates counts 0
+    (``recoats_in_hand``, ``mirrors.services.runs_over_recoats``). A phase stored without readable dates counts 0
     days (the admin edits ``phases`` as JSON).
     """
     from observatory_ops.workorders.models import State  # work orders build on planning
@@ -1165,22 +1165,28 @@ def recoat_downtime(plan, today: dt.date) -> Downtime:
                     changed="; ".join(changed), late=late, mirror_out=mirror_out, mirror_id=plan.mirror_id)
 
 
-def recoats_in_hand(site: Site) -> list:
+def recoats_in_hand(site: Site, today: dt.date) -> list:
     """The site's recoats in hand: an order of each drafted, issued or underway and none withdrawn (a withdrawn one
-    stops the recoat), with their orders and their mirror's telescope and site, soonest first. One plain query of each
-    recoat's order states first, on every recompute's path, and two more only when some recoat is in hand (the
-    benchmark's recompute spent 6 ms a site on one query with the rows and their relations, where none was in hand)."""
+    stops the recoat), or one entered in the admin with no orders whose planned last day is not past, with their
+    orders and their mirror's telescope and site, soonest first. One list for the forecasts, the dashboard's
+    "Downtime planned", the booked runs over a recoat and the planner (the dashboard once counted a recoat without
+    orders that the forecasts did not). A retired mirror's recoat is not done, so takes no telescope out
+    (``mirrors.services.recoats_of_retired``). One plain query of each recoat's order states first, on every
+    recompute's path, and two more only when some recoat is in hand (the benchmark's recompute spent 6 ms a site on
+    one query with the rows and their relations, where none was in hand)."""
     from observatory_ops.mirrors.models import RecoatPlan  # mirrors builds on planning
     from observatory_ops.workorders.models import State  # work orders build on planning
 
     states: dict[int, set] = {}
-    # A retired mirror's recoat is not done, so takes no telescope out (``mirrors.services.recoats_of_retired``).
-    for pk, state in RecoatPlan.objects.filter(mirror__subsystem__telescope__site=site,
-                                               mirror__subsystem__retired_on__isnull=True).values_list(
-            "pk", "work_orders__state"):
+    ends: dict[int, dt.date] = {}
+    for pk, ends_on, state in RecoatPlan.objects.filter(mirror__subsystem__telescope__site=site,
+                                                        mirror__subsystem__retired_on__isnull=True).values_list(
+            "pk", "ends_on", "work_orders__state"):
         states.setdefault(pk, set()).add(state)
+        ends[pk] = ends_on
+    to_do = {State.DRAFT, State.ISSUED, State.UNDERWAY}
     in_hand = [pk for pk, held in states.items()
-               if held & {State.DRAFT, State.ISSUED, State.UNDERWAY} and State.WITHDRAWN not in held]
+               if (held & to_do and State.WITHDRAWN not in held) or (held == {None} and ends[pk] >= today)]
     if not in_hand:
         return []
     return list(
@@ -1203,7 +1209,7 @@ def _downtime_by_telescope(site: Site, today: dt.date, closures: list | None = N
     ``closure_downtime``), past days too (unlogged nights are counted from the first of them, ``without_downtime``).
     ``closures``: the site's (``closures_of``), where the caller has read them already."""
     down: dict[int, list[Downtime]] = {}
-    in_hand = recoats_in_hand(site)
+    in_hand = recoats_in_hand(site, today)
     for plan in in_hand:
         down.setdefault(plan.mirror.subsystem.telescope_id, []).append(recoat_downtime(plan, today))
     for out in mirrors_left_out(site, today, in_hand):

@@ -9,7 +9,13 @@ from observatory_ops.logbook import selectors as logbook_selectors
 from observatory_ops.mirrors import services as mirror_services
 from observatory_ops.mirrors.models import TRAIN_KINDS
 from observatory_ops.planning import selectors as planning_selectors
-from observatory_ops.planning.services import mirrors_left_out, site_recompute, site_today, sites_bring_up_to_date
+from observatory_ops.planning.services import (
+    mirrors_left_out,
+    recoats_in_hand,
+    site_recompute,
+    site_today,
+    sites_bring_up_to_date,
+)
 from observatory_ops.workorders import selectors as workorder_selectors
 from observatory_ops.workorders.cautions import HAZARDS
 from observatory_ops.workorders.models import RequiredReading, WorkOrderItem
@@ -56,7 +62,7 @@ def site_dashboard(request, slug):
         # A closure under way, its own or the whole site's, said in its panel (a user review looked there first).
         telescope.closed_now = next((c for c in closures if c.state == "under way" and c.covers(telescope.pk)), None)
     # Each recoat's nights as its orders now stand, as the forecasts count them, and their cost (with_days_out).
-    downtime = mirror_services.with_days_out(mirror_services.downtime_planned(site, today), today)
+    downtime = mirror_services.with_days_out(recoats_in_hand(site, today), today)
     runs_over = mirror_services.runs_over_each_recoat(site, today, downtime)
     for plan in downtime:  # the booked runs on its nights, under it
         plan.runs_over = runs_over.get(plan.pk, [])

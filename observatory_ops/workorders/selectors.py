@@ -252,7 +252,7 @@ def recoat_planned_notices(order: WorkOrder) -> list[tuple[str, str, str]]:
         order.items.values_list("subsystem__telescope_id", flat=True))
     today = site_today(order.site)
     said = []
-    for plan in recoats_in_hand(order.site):
+    for plan in recoats_in_hand(order.site, today):
         telescope = plan.mirror.subsystem.telescope
         removal = plan.removal()
         if (telescope.pk not in at and not order.site.shared_enclosure) or removal is None \
