@@ -120,49 +120,60 @@ def closed_said(site: Site, nights: list[NightUsage]) -> dict[int, str]:
     return said
 
 
-#: A night's counter (slews, brake cycles, axis travel) per open hour this many times its log's median over the year
-#: before is named to check: a unit slip (arcminutes for degrees) or an extra digit, not a busy night. Our own choice.
+#: A night's counter (slews, brake cycles, axis travel) per open hour, or its dust level (PM10), this many times its
+#: log's median over the year before is named to check: a unit slip (arcminutes for degrees, mg for µg) or an extra
+#: digit, not a busy night. Our own choice.
 OUT_OF_LINE_FACTOR = 10
 #: The fewest nights of at least an hour open in that year for a median worth comparing with.
 OUT_OF_LINE_HISTORY = 30
-_COUNTERS = (("slews", "slews"), ("brake_cycles", "brake cycles"), ("axis1_travel_deg", "° of axis 1 travel"),
-             ("axis2_travel_deg", "° of axis 2 travel"))
+#: Each figure compared: its field, its words, and whether it is compared per open hour (a count) or as it is (a level).
+_COUNTERS = (("slews", "slews", True), ("brake_cycles", "brake cycles", True),
+             ("axis1_travel_deg", "° of axis 1 travel", True), ("axis2_travel_deg", "° of axis 2 travel", True),
+             ("pm10_ugm3", "µg/m³ of PM10", False))
 
 
 def counters_out_of_line(site: Site, nights: list[NightUsage]) -> list[str]:
-    """A sentence for each of ``nights`` with a counter per open hour more than ``OUT_OF_LINE_FACTOR`` times the median
-    of its log (the same telescope's own nights, or the whole site's) from a year before the first of them to the last,
-    over the nights at least an hour open (``OUT_OF_LINE_HISTORY`` of them at least; a file of years of nights is
-    measured against itself): stored as sent, and named (an API review sent 10,000 brake cycles and 1,000,000° of
-    travel for one night, and six plans went overdue without a word). One query; one median a log and counter."""
+    """A sentence for each of ``nights`` with a counter per open hour, or its PM10, more than ``OUT_OF_LINE_FACTOR``
+    times the median of its log (the same telescope's own nights, or the whole site's) from a year before the first of
+    them to the last, over the nights at least an hour open (``OUT_OF_LINE_HISTORY`` of them at least; a file of years
+    of nights is measured against itself): stored as sent, and named (an API review sent 10,000 brake cycles and
+    1,000,000° of travel for one night, and six plans went overdue without a word; a forecast review typed 1,999 µg/m³
+    of PM10, 120 times the site's December median, and six dust-weighted plans went overdue the same way). A dust
+    storm is named too: its nights weigh heavily on every dust-weighted plan, worth a look. One query; one median a
+    log and figure."""
     checked = [n for n in nights if n.open_hours and n.open_hours >= 1]
     if not checked:
         return []
     first = min(n.night for n in checked) - dt.timedelta(days=365)
     last = max(n.night for n in checked)
-    fields = [name for name, _ in _COUNTERS]
+    fields = [name for name, _, _ in _COUNTERS]
     rates: dict[int | None, list[list[float]]] = {}
     for telescope_id, hours, *counts in NightUsage.objects.filter(
             site=site, night__gte=first, night__lte=last, open_hours__gte=1).values_list(
             "telescope_id", "open_hours", *fields):
         per_log = rates.setdefault(telescope_id, [[] for _ in fields])
-        for i, count in enumerate(counts):
+        for i, (count, (_, _, per_hour)) in enumerate(zip(counts, _COUNTERS, strict=True)):
             if count is not None:
-                per_log[i].append(count / hours)
+                per_log[i].append(count / hours if per_hour else count)
     medians = {key: [float(np.median(r)) if len(r) >= OUT_OF_LINE_HISTORY else None for r in per_log]
                for key, per_log in rates.items()}
     names = dict(site.telescopes.values_list("pk", "name"))
     said = []
     for night in sorted(checked, key=lambda n: (n.night, names.get(n.telescope_id, ""))):
         high = []
-        for (name, words), median in zip(_COUNTERS, medians.get(night.telescope_id, [None] * len(fields)),
-                                         strict=True):
+        for (name, words, per_hour), median in zip(_COUNTERS, medians.get(night.telescope_id, [None] * len(fields)),
+                                                   strict=True):
             value = getattr(night, name)
-            if value is not None and median and value / night.open_hours > OUT_OF_LINE_FACTOR * median:
+            if value is None or not median:
+                continue
+            written = f"{value:,.1f}".removesuffix(".0")  # 1,000,000, not 1e+06 (a diff review)
+            if per_hour and value / night.open_hours > OUT_OF_LINE_FACTOR * median:
                 gap = "" if words.startswith("°") else " "
-                written = f"{value:,.1f}".removesuffix(".0")  # 1,000,000, not 1e+06 (a diff review)
                 high.append(f"{written}{gap}{words} ({value / night.open_hours:,.1f} an open hour against a median "
                             f"of {median:,.2f})")
+            elif not per_hour and value > OUT_OF_LINE_FACTOR * median:
+                high.append(f"{written} {words} (against a median of {median:,.2f}; a dust storm weighs on every "
+                            "dust-weighted plan)")
         if high:
             whose = names[night.telescope_id] if night.telescope_id else "the whole site"
             said.append(f"{whose}, night of {night.night:%d %b %Y}, {night.open_hours:g} h open: {'; '.join(high)}: "

@@ -149,7 +149,7 @@ class ImportReport:
     @property
     def out_of_line(self) -> list[str]:
         """The nights stored, or to be stored once confirmed, with a counter far above its log's usual rate per open
-        hour (``selectors.counters_out_of_line``): stored as sent, and named."""
+        hour, or a dust level far above its usual (``selectors.counters_out_of_line``): stored as sent, and named."""
         return counters_out_of_line(*self.checked_on) if self.checked_on else []
 
     @property
@@ -181,7 +181,7 @@ class ImportReport:
                 text += (f". Check {len(out)} night{pluralize(len(out))} open while out of service: "
                          f"{'; '.join(out)}")
             if high := self.out_of_line:
-                text += f". Check {len(high)} night{pluralize(len(high))} with a counter out of line: {'; '.join(high)}"
+                text += f". Check {len(high)} night{pluralize(len(high))} with a figure out of line: {'; '.join(high)}"
             return f"{text}."
         text = (f"{self.created} new{self._whose('created')}, {self.updated} updated{self._whose('updated')}, "
                 f"{self.unchanged} unchanged{self._whose('unchanged')}")
@@ -196,7 +196,7 @@ class ImportReport:
             text += (f". Check {len(out)} night{pluralize(len(out))} open while out of service, stored as sent: "
                      f"{'; '.join(out)}")
         if high := self.out_of_line:
-            text += (f". Check {len(high)} night{pluralize(len(high))} with a counter out of line, stored as sent: "
+            text += (f". Check {len(high)} night{pluralize(len(high))} with a figure out of line, stored as sent: "
                      f"{'; '.join(high)}")
         return f"{text}.{self._said_once_sentence} {self.uncounted_note}".strip()
 
