@@ -68,3 +68,24 @@ def test_a_plan_with_a_work_order_still_to_do_names_the_order_before_its_service
     workorders.work_order_move(order, "withdraw", users["engineer"], reason="done outside the order")
     ServiceRecord.objects.all().delete()
     assert client.post(url, _form(fans)).status_code == 302
+
+
+def test_a_service_dated_before_the_unit_entered_service_is_asked_about(fans, users, client):
+    """A forecast review fitted a new brake on 3 Dec and logged a service on it dated 1 Jun: it became the plan's
+    baseline without a word, and the brake was overdue, counting the nights of the one it replaced. Asked, and kept
+    once confirmed (a unit fitted used)."""
+    today = site_today(fans.telescope.site)
+    fans.in_service_since = today - dt.timedelta(days=2)
+    fans.save()
+    url = f"/subsystems/{fans.pk}/service/new/"
+    client.force_login(users["technician"])
+    early = today - dt.timedelta(days=180)
+    sent = _form(fans, performed_on=early.isoformat())
+    page = client.post(url, sent)
+    assert page.status_code == 200 and not ServiceRecord.objects.exists()
+    assert (f"{early:%d %b %Y} is before Mirror cell fans entered service here ({fans.in_service_since:%d %b %Y}): the "
+            "plan would count this telescope&#x27;s nights from") in page.content.decode()
+    assert client.post(url, _form(fans)).status_code == 302  # on or after the day it entered service: not asked
+    ServiceRecord.objects.all().delete()
+    assert client.post(url, {**sent, "value_confirmed": "on", "questioned": _asked(page)}).status_code == 302
+    assert ServiceRecord.objects.get().performed_on == early

@@ -60,8 +60,8 @@ class ServiceRecordForm(QuestionedValueMixin, forms.Form):
     )
     value_confirmed = forms.BooleanField(
         required=False, label="Log it as entered",
-        help_text="Asked only for hours far above the plan's estimate, a second service of the plan on one day, or a "
-        "plan with a work order still open.",
+        help_text="Asked only for hours far above the plan's estimate, a second service of the plan on one day, a date "
+        "before the subsystem entered service, or a plan with a work order still open.",
     )
     questioned = forms.CharField(required=False, widget=forms.HiddenInput)
 
@@ -94,8 +94,9 @@ class ServiceRecordForm(QuestionedValueMixin, forms.Form):
         """Asked about before the record is logged, each beside its field (``QuestionedValueMixin``: kept with the box
         ticked on the page that asked): hours above ``HOURS_QUESTION_FACTOR`` times the plan's estimate (minutes typed
         for hours: the reliability page's hours would carry them), a service of the plan already logged that day (a
-        second press, or the same work entered twice), and a plan a work order still to do holds (that order would
-        stay open, and its work be done twice)."""
+        second press, or the same work entered twice), a date before the subsystem entered service (its plan would
+        count the nights of what it replaced), and a plan a work order still to do holds (that order would stay open,
+        and its work be done twice)."""
         from observatory_ops.workorders.models import State, WorkOrder  # the work orders build on the logbook
 
         data = super().clean()
@@ -120,6 +121,14 @@ class ServiceRecordForm(QuestionedValueMixin, forms.Form):
             self.add_error("performed_on", (
                 f"A service of \"{plan.name}\" is already logged on {day:%d %b %Y} ({same_day.summary}, by "
                 f"{person(same_day.performed_by)}): is this a second one? {keep}"))
+        since = self.subsystem.in_service_since
+        if since is not None and day < since and not self.has_error("performed_on"):
+            # A forecast review logged a service months before a new brake was fitted: it became the plan's baseline
+            # without a word, and the brake was overdue, counting the nights of the one it replaced.
+            self.add_error("performed_on", (
+                f"{day:%d %b %Y} is before {self.subsystem.name} entered service here ({since:%d %b %Y}): the plan "
+                f"would count this telescope's nights from {day:%d %b %Y}, nights of what it replaced. Log it only "
+                f"for a unit fitted used, its last service before it came. {keep}"))
         held = list(WorkOrder.objects.filter(items__plan=plan, state__in=(State.DRAFT, State.ISSUED, State.UNDERWAY))
                     .distinct().order_by("pk"))
         if held:
