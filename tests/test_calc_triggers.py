@@ -63,6 +63,20 @@ def test_a_limit_reached_is_overdue(state, status):
     assert due_status(state, TODAY, LOOK_AHEAD) == status
 
 
+def test_a_calendar_limit_is_due_on_its_day_and_overdue_from_the_next():
+    # Every 180 days from 17 Dec 2025: due 15 Jun 2026 (hand count: 14 + 31 + 28 + 31 + 30 + 31 + 15 = 180). On that
+    # day it is due, as work done that day is on time (logbook.services.limit_passed_before); from 16 Jun, overdue.
+    # A forecast review read "overdue, 180 of 180 days" on the due date (common practice, no published source).
+    on_the_day = rising(180, 180, TODAY, metric="calendar_days")
+    assert on_the_day.reached and due_status(on_the_day, TODAY, LOOK_AHEAD) == DUE
+    assert due_status(on_the_day, TODAY + dt.timedelta(days=1), LOOK_AHEAD) == OVERDUE
+    assert due_status(rising(181, 180, TODAY - dt.timedelta(days=1), metric="calendar_days"), TODAY,
+                      LOOK_AHEAD) == OVERDUE
+    # A counter at its limit is overdue whatever its forecast day: its hours are used up.
+    assert due_status(rising(500, 500, TODAY), TODAY, LOOK_AHEAD) == OVERDUE
+    assert dt.date(2025, 12, 17) + dt.timedelta(days=180) == TODAY
+
+
 def test_the_look_ahead_band_includes_its_last_day():
     # Look-ahead 14 days from 15 Jun 2026: due up to and including 29 Jun 2026, later from 30 Jun 2026.
     assert due_status(rising(10, 500, dt.date(2026, 6, 29)), TODAY, LOOK_AHEAD) == DUE

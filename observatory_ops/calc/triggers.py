@@ -13,6 +13,8 @@ OVERDUE = "overdue"
 DUE = "due"
 LATER = "later"
 STATUSES = (OVERDUE, DUE, LATER)
+#: The metric of a calendar trigger (``planning.metrics.CALENDAR_DAYS``).
+CALENDAR_DAYS = "calendar_days"
 
 
 @dataclass(frozen=True)
@@ -57,8 +59,11 @@ def due_status(state: TriggerState, today: dt.date, look_ahead_days: int) -> str
     """``overdue`` once the limit is reached, ``due`` when forecast inside the look-ahead, else ``later``.
 
     A trigger whose forecast date is unknown (no usage to extrapolate) is ``later`` until its value
-    reaches the limit.
+    reaches the limit. A calendar limit falls due on its day and is overdue from the next: work done
+    on the due day is on time (a forecast review read "overdue" on the due date itself).
     """
+    if state.reached and state.metric == CALENDAR_DAYS and state.forecast == today:
+        return DUE
     if state.reached:
         return OVERDUE
     if state.forecast is not None and state.forecast <= today + dt.timedelta(days=look_ahead_days):

@@ -2,7 +2,8 @@
 ``observatory_ops.planning.services`` how to read it (``UsageLog.per_night`` for a quantity of the nightly
 log, ``_site_recompute`` for anything else)."""
 
-CALENDAR_DAYS = "calendar_days"
+from observatory_ops.calc.triggers import CALENDAR_DAYS  # the due status reads it there (calc.triggers.due_status)
+
 OPEN_HOURS = "open_hours"
 SLEWS = "slews"
 BRAKE_CYCLES = "brake_cycles"
