@@ -67,14 +67,16 @@ def test_the_removal_of_the_locks_is_taken_back_only_by_whoever_ticked_it(locked
     with pytest.raises(services.Refused, match="was recorded by technician, who took the locks off: only they take"):
         services.checklist_tick_set(underway, "step", release, False, second_technician)
     assert selectors.latest_ticks(underway)[("step", release)].ticked  # refused: nothing stored
-    services.checklist_tick_set(underway, "step", release, False, users["engineer"])  # the engineer may
+    services.checklist_tick_set(underway, "step", release, False, users["engineer"],
+                                in_place_of="ticked by mistake; technician away, told by phone")  # the engineer may
     services.checklist_tick_set(underway, "step", release, True, users["technician"])
     services.checklist_tick_set(underway, "step", release, False, users["technician"])  # their own
 
 
 def test_an_engineer_may_under_the_site_s_procedure_and_is_named(locked_out, users):
     underway, lockout, _release = locked_out
-    tick = services.checklist_tick_set(underway, "step", lockout, False, users["engineer"])
+    tick = services.checklist_tick_set(underway, "step", lockout, False, users["engineer"],
+                                       in_place_of="technician gone home; told by phone")
     assert tick.recorded_by == users["engineer"]
     assert selectors.checklist(underway).steps[lockout].note.startswith("tick taken back by engineer")
 
@@ -124,3 +126,29 @@ def test_the_finish_does_not_take_off_locks_someone_else_put_on(locked_out, seco
     services.checklist_tick_set(underway, "step", release, True, users["technician"])
     finish(second_technician)  # the locks are recorded as off by whoever put them on: anyone on the crew finishes
     assert WorkOrder.objects.get(pk=underway.pk).state == "finished"
+
+
+def test_an_engineer_in_the_holders_place_says_why_and_it_is_kept(locked_out, users, client):
+    """An auditor's review: the engineer's override asked for nothing and recorded nothing of why. OSHA 29 CFR
+    1910.147(e)(3) asks that the holder is not at the facility, that reasonable efforts were made to reach them, and
+    that they are told before they are back at work: the engineer says so, on the tick, the page and the paper."""
+    underway, lockout, _release = locked_out
+    with pytest.raises(services.Refused, match="is a lock's line another put on: as the site engineer you may"):
+        services.checklist_tick_set(underway, "step", lockout, False, users["engineer"], in_place_of="  ")
+    assert selectors.checklist(underway).steps[lockout].ticked  # refused: nothing stored
+    client.force_login(users["engineer"])
+    page = client.get(underway.get_absolute_url()).content.decode()
+    # The lockout step and the one point, both the technician's, and the removal of the technician's locks.
+    assert page.count('name="in_place_of"') == 3
+    client.force_login(users["technician"])
+    assert 'name="in_place_of"' not in client.get(underway.get_absolute_url()).content.decode()  # their own locks
+    client.force_login(users["engineer"])
+    why = "Ines left the site at 18:00, phone off; called twice; told at the gate tomorrow before she starts"
+    answer = client.post(f"/workorders/{underway.pk}/tick/", {
+        "kind": "step", "key": str(lockout), "text": underway.step_list[lockout], "in_place_of": why},
+        headers={"Accept": "application/json"})
+    assert answer.status_code == 200, answer.content
+    tick = underway.ticks.order_by("pk").last()
+    assert tick.in_place_of_holder == why and tick.recorded_by == users["engineer"] and not tick.ticked
+    assert answer.json()["note"].endswith(f"in place of the lock's holder: {why}")
+    assert selectors.tick_trail(underway)[-1].recorded == f"tick taken back, in place of the lock's holder: {why}"

@@ -620,6 +620,12 @@ class ChecklistTick(models.Model):
         max_length=200, blank=True, default="",
         help_text="What was found, for a step that asks for its result (registry.catalogue.asks_result).",
     )
+    in_place_of_holder = models.CharField(
+        max_length=300, blank=True, default="",
+        help_text="An engineer's tick on a lock's line in place of whoever put the lock on: why (that person not at "
+        "the site, how they were sought, how they will be told before they are back at work: OSHA 29 CFR "
+        "1910.147(e)(3)). Empty otherwise.",
+    )
     recorded_at = models.DateTimeField(auto_now_add=True)
     recorded_by = models.ForeignKey(settings.AUTH_USER_MODEL, on_delete=models.PROTECT, related_name="+")
 

@@ -989,6 +989,8 @@ def latest_ticks(order: WorkOrder) -> dict[tuple[str, int | None], ChecklistTick
 def tick_note(tick: ChecklistTick, text: str, zone: dt.tzinfo) -> str:
     """Who ticked the line (or took the tick back) and when, in the site's time, as the page shows it."""
     said = f"{person(tick.recorded_by)}, {dateformat.format(tick.recorded_at.astimezone(zone), 'd M Y H:i')}"
+    if tick.in_place_of_holder:
+        said += f", in place of the lock's holder: {tick.in_place_of_holder}"
     if not tick.ticked:
         return f"tick taken back by {said}"
     result = f"; result: {tick.result}" if tick.result else ""
@@ -1053,6 +1055,8 @@ def tick_trail(order: WorkOrder) -> list[TickRecorded]:
             line = f"Isolation point: {tick.text}"
         recorded = ("ticked" + (f"; result: {tick.result}" if tick.result else "")) if tick.ticked else \
             "tick taken back"
+        if tick.in_place_of_holder:
+            recorded += f", in place of the lock's holder: {tick.in_place_of_holder}"
         rows.append(TickRecorded(dateformat.format(tick.recorded_at.astimezone(zone), "d M Y H:i T"),
                                  person(tick.recorded_by), line, recorded))
     return rows

@@ -1178,7 +1178,8 @@ def _parts_added_problem(order: WorkOrder, uses: Sequence[PartUse], parts_added:
 
 
 def checklist_tick_set(
-    order: WorkOrder, kind: str, key: int, ticked: bool, by, seen_text: str | None = None, result: str = ""
+    order: WorkOrder, kind: str, key: int, ticked: bool, by, seen_text: str | None = None, result: str = "",
+    in_place_of: str = "",
 ) -> ChecklistTick:
     """Record a tick (``ticked=True``) or take one back (``ticked=False``) on the checklist of an order underway.
 
@@ -1201,6 +1202,11 @@ def checklist_tick_set(
 
     A step that asks for its result (``catalogue.asks_result``: the check of the collimation on a star) is ticked only
     with ``result``, what was found, kept on the tick; other lines keep none.
+
+    A lock's line changed in place of whoever put the lock on (``_lock_holder_refusal``) is refused but to an engineer,
+    who says why in ``in_place_of`` (kept on the tick): that person not at the site, how they were sought, how they
+    will be told before they are back at work (OSHA 29 CFR 1910.147(e)(3)). An auditor's review: the override asked
+    for nothing and recorded nothing of why.
     """
     if not has_role(by, TECHNICIAN):
         raise Refused(f"ticking the checklist needs the {TECHNICIAN} role or above")
@@ -1241,7 +1247,14 @@ def checklist_tick_set(
         if already == ticked:
             raise Refused(f"{what} is {'already ticked' if ticked else 'not ticked'}")
         if refusal := _lock_holder_refusal(current, entry, latest, ticks, by, what):
-            raise Refused(refusal)
+            if not has_role(by, ENGINEER):
+                raise Refused(refusal)
+            entry.in_place_of_holder = " ".join(in_place_of.split())
+            if not entry.in_place_of_holder:
+                raise Refused(f"{what} is a lock's line another put on: {IN_PLACE_OF_ASKED}")
+            if len(entry.in_place_of_holder) > IN_PLACE_OF_LONGEST:
+                raise Refused(f"why, in place of the lock's holder, is {len(entry.in_place_of_holder)} characters "
+                              f"long: write it in at most {IN_PLACE_OF_LONGEST}")
         if refusal := _lockout_sequence_refusal(current, entry.line, ticked, what, ticks):
             raise Refused(refusal)
         if ticked and kind == ChecklistTick.Kind.STEP and (refusal := _others_locked_out_refusal(current, key)
@@ -1261,9 +1274,7 @@ def _lock_holder_refusal(order: WorkOrder, entry: ChecklistTick, latest: Checkli
     on (OSHA 29 CFR 1910.147(e)(3), (f)(3)). An auditor's review took back another crew's lock ticks one by one, which
     let a second crew's brake air through, and ticked another order's lock removal with no part in it. An engineer may,
     where the one who put the lock on cannot be reached, under the site's own procedure for it ((e)(3): they are named
-    on the tick). "" when it may."""
-    if has_role(by, ENGINEER):
-        return ""
+    on the tick, with why: ``checklist_tick_set``). "" when it may; said whatever ``by``'s role."""
     lock_line = entry.kind == ChecklistTick.Kind.POINT or is_lockout_step(entry.text)
     release = entry.kind == ChecklistTick.Kind.STEP and is_release_step(entry.text)
     if not entry.ticked and lock_line and latest is not None and latest.recorded_by_id != by.pk:
@@ -1282,6 +1293,31 @@ def _lock_holder_refusal(order: WorkOrder, entry: ChecklistTick, latest: Checkli
                     "on this order is off. If none of them can be reached, the site engineer removes the locks under "
                     "the site's procedure for a lock left on (OSHA 29 CFR 1910.147(e)(3))")
     return ""
+
+
+#: What an engineer writes to change a lock's line in another's place, and how long it may be.
+IN_PLACE_OF_ASKED = ("as the site engineer you may, in their place, under the site's procedure for a lock left on: say "
+                     "why in the box beside it (they are not at the site, how you tried to reach them, how they will "
+                     "be told before they are back at work: OSHA 29 CFR 1910.147(e)(3)), then record it")
+IN_PLACE_OF_LONGEST = 300
+
+
+def lines_in_place_of_holder(order: WorkOrder, lines, by) -> set[str]:
+    """The anchors of ``lines`` (``selectors.checklist``) whose tick, or take-back, ``by`` would record in place of
+    whoever put the lock on (``_lock_holder_refusal``): an engineer's page gives each a box for why. One query."""
+    if not has_role(by, ENGINEER):
+        return set()
+    ticks = latest_ticks(order)
+    found = set()
+    for line in lines.points + lines.steps:
+        entry = ChecklistTick(work_order=order, kind=line.kind, ticked=not line.ticked, text=line.text)
+        if line.kind == ChecklistTick.Kind.STEP:
+            entry.step_index = line.key
+        else:
+            entry.isolation_point_id = line.key
+        if _lock_holder_refusal(order, entry, ticks.get(entry.line), ticks, by, ""):
+            found.add(line.anchor)
+    return found
 
 
 def lock_holders(ticks: dict) -> dict:

@@ -220,7 +220,10 @@ def work_order_detail(request, pk):
             "why_as_of": WHY_AS_OF.format(day=f"{timezone.localtime(order.created_at, order.site.zone):%d %b %Y}"),
             "cautions": selectors.cautions(order, points),
             "precedence": selectors.PRECEDENCE_STATEMENT,
-            "checklist": selectors.checklist(order, points, items),
+            "checklist": (lines := selectors.checklist(order, points, items)),
+            # An engineer's page asks why beside a lock's line they would change in its holder's place.
+            "in_place": services.lines_in_place_of_holder(order, lines, request.user) if order.state == State.UNDERWAY
+            else set(),
             "tick_trail": selectors.tick_trail(order),
             # The step that locks the points (1-based), said above them: a review ticked them first, top to bottom, and
             # the steps under power before it were then refused.
@@ -414,6 +417,7 @@ def work_order_tick(request, pk):
         tick = services.checklist_tick_set(
             order, request.POST.get("kind", ""), int(key), request.POST.get("ticked") == "1" or bool(result.strip()),
             request.user, seen_text=request.POST.get("text"), result=result,
+            in_place_of=request.POST.get("in_place_of", ""),
         )
     except services.Refused as exc:
         lines = selectors.checklist(order)

@@ -64,6 +64,9 @@ document.querySelectorAll("form.tick").forEach(function (form) {
           form.parentNode.classList.toggle("ticked", ticked);
           var result = form.querySelector(".tick-result");  // a step that asks for its result: its box, until ticked
           if (result) { result.hidden = ticked; }
+          // Recorded in the lock holder's place: the line is now the engineer's own, and asks no why again.
+          var inPlace = form.querySelector(".tick-in-place");
+          if (inPlace && response.ok) { inPlace.remove(); }
           note.dataset.recorded = answer.note || "";
           note.classList.toggle("refused", !response.ok);
           note.textContent = response.ok ? answer.note : answer.error + (answer.note ? " (" + answer.note + ")" : "");
