@@ -1297,8 +1297,8 @@ def _lock_holder_refusal(order: WorkOrder, entry: ChecklistTick, latest: Checkli
 
 #: What an engineer writes to change a lock's line in another's place, and how long it may be.
 IN_PLACE_OF_ASKED = ("as the site engineer you may, in their place, under the site's procedure for a lock left on: "
-                     "open \"In place of the lock's holder\" under the line and say why (they are not at the site, how you "
-                     "tried to reach them, how they will be told before they are back at work: OSHA 29 CFR "
+                     "open \"In place of the lock's holder\" under the line and say why (they are not at the site, "
+                     "how you tried to reach them, how they will be told before they are back at work: OSHA 29 CFR "
                      "1910.147(e)(3)), then record it")
 IN_PLACE_OF_LONGEST = 300
 
