@@ -614,6 +614,41 @@ def expected_use_by_month(subsystem: Subsystem, plans: list[ServicePlan]) -> dic
     }
 
 
+def limit_changes(plan: ServicePlan, since: dt.date, zone) -> list[str]:
+    """How ``plan``'s triggers changed on or after ``since`` (its baseline: the last service, or its start), oldest
+    first, each with the day in the site's time and who changed it: a limit raised or lowered, a trigger added or
+    removed (their history, ``Trigger.history``). A forecast review relaxed a safety interlock test from 90 to 120
+    days and its "overdue" cleared with nothing said on the plan, then tightened it to 60 and a service logged next was
+    recorded as 37 days late. One query."""
+    from observatory_ops.archive.history import person
+
+    start = dt.datetime.combine(since, dt.time(), tzinfo=zone)
+    rows = list(Trigger.history.filter(plan_id=plan.pk).select_related("history_user").order_by("id", "history_date",
+                                                                                                 "history_id"))
+    # The triggers the plan was made with are its start, not a change (made together, within minutes).
+    made = min((row.history_date for row in rows), default=None)
+    said, before = [], {}
+    for row in rows:
+        previous = before.get(row.id)
+        before[row.id] = row
+        if row.history_date < start or (row.history_type == "+" and row.history_date - made < dt.timedelta(minutes=5)):
+            continue
+        what, unit = metrics.METRICS.get(row.metric, (row.metric, ""))
+        if row.metric == metrics.READING and row.quantity:
+            what, unit = QUANTITIES[row.quantity][:2] if row.quantity in QUANTITIES else (row.quantity, "")
+        if row.history_type == "+":
+            change = f"{what} added, limit {row.limit:g} {unit}"
+        elif row.history_type == "-":
+            change = f"{what} removed (its limit was {row.limit:g} {unit})"
+        elif previous is not None and previous.limit != row.limit:
+            change = f"{what} limit changed from {previous.limit:g} to {row.limit:g} {unit}"
+        else:
+            continue
+        who = person(row.history_user) if row.history_user else "someone not recorded"
+        said.append((row.history_date, f"{row.history_date.astimezone(zone):%d %b %Y}, by {who}: {change}"))
+    return [text for _, text in sorted(said, key=lambda pair: pair[0])]
+
+
 def plans_with_plots(subsystem: Subsystem) -> list[ServicePlan]:
     """The subsystem's plans, each with ``plot``: an SVG of its governing trigger (see ``plots``), ``caption``: the
     words under it where it needs them (the fitted decline of a recoat line), ``trigger_table``: its triggers' rows
@@ -640,6 +675,7 @@ def plans_with_plots(subsystem: Subsystem) -> list[ServicePlan]:
             continue
         plan.trigger_table = trigger_table(plan)
         baseline = status.last_service_on or plan.counting_from  # as the recompute counts
+        plan.limit_changes = limit_changes(plan, baseline, site.zone)
         # A condition trigger with no reading since the baseline has no figures: say so rather than drop it.
         shown = {row["basis"].split(":")[0] for row in status.trigger_rows if row["metric"] == metrics.READING}
         since = "the last service" if status.last_service_on else "the plan's start"
