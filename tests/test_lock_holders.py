@@ -133,7 +133,7 @@ def test_an_engineer_in_the_holders_place_says_why_and_it_is_kept(locked_out, us
     1910.147(e)(3) asks that the holder is not at the facility, that reasonable efforts were made to reach them, and
     that they are told before they are back at work: the engineer says so, on the tick, the page and the paper."""
     underway, lockout, _release = locked_out
-    with pytest.raises(services.Refused, match="is a lock's line another put on: as the site engineer you may"):
+    with pytest.raises(services.Refused, match="is another's tick on a lock's line: as the site engineer you may"):
         services.checklist_tick_set(underway, "step", lockout, False, users["engineer"], in_place_of="  ")
     assert selectors.checklist(underway).steps[lockout].ticked  # refused: nothing stored
     client.force_login(users["engineer"])

@@ -35,6 +35,8 @@ from observatory_ops.workorders.models import ChecklistTick, IsolationPoint, Sta
 from observatory_ops.workorders.sheet import SheetTick
 
 STEP, POINT = ChecklistTick.Kind.STEP, ChecklistTick.Kind.POINT
+#: The engineer taking back a technician's lock ticks says why, in their place (services.checklist_tick_set).
+AWAY = "technician gone home, phone off; told before the next shift"
 # The test site's zone (tests/conftest.py), read here from the IANA database directly, not from the site.
 MADRID = ZoneInfo("Europe/Madrid")
 
@@ -208,7 +210,7 @@ def test_the_checklist_is_read_in_the_same_number_of_queries_however_many_ticks(
     _point(underway)
     ticked_in_sequence(underway, users["technician"])  # in order: the lockout before the locked-out work
     for index in reversed(range(len(underway.step_list))):  # the lockout's tick after the work done under it
-        services.checklist_tick_set(underway, STEP, index, False, users["engineer"])
+        services.checklist_tick_set(underway, STEP, index, False, users["engineer"], in_place_of=AWAY)
     assert queries() == few
 
 
@@ -371,12 +373,12 @@ def test_the_lockout_is_not_taken_back_from_under_the_work_done_locked_out(under
     point = _locked_out_and_working(underway, users)
     before = _ticks()
     with pytest.raises(services.Refused) as refusal:
-        services.checklist_tick_set(underway, STEP, 4, False, engineer)
+        services.checklist_tick_set(underway, STEP, 4, False, engineer, in_place_of=AWAY)
     assert str(refusal.value) == (
         "the tick on step 5 stays: take back step 6 first: it was done with the energy isolated"
     )
     with pytest.raises(services.Refused) as refusal:
-        services.checklist_tick_set(underway, POINT, point.pk, False, engineer)
+        services.checklist_tick_set(underway, POINT, point.pk, False, engineer, in_place_of=AWAY)
     assert str(refusal.value) == (  # the lockout step stands on the point too: both, in an order that works
         "the tick on isolation point 'Mount isolator' stays: take back steps 6 and 5 first: step 6 was done with "
         "the energy isolated; step 5 is the lockout, which says every isolation point is locked"
@@ -387,9 +389,9 @@ def test_the_lockout_is_not_taken_back_from_under_the_work_done_locked_out(under
     with pytest.raises(services.Refused, match=r"^the tick on isolation point 'Mount isolator' stays: take back "
                                                r"step 5 first: it is the lockout, which says every isolation "
                                                r"point is locked$"):
-        services.checklist_tick_set(underway, POINT, point.pk, False, engineer)
-    services.checklist_tick_set(underway, STEP, 4, False, engineer)
-    services.checklist_tick_set(underway, POINT, point.pk, False, engineer)
+        services.checklist_tick_set(underway, POINT, point.pk, False, engineer, in_place_of=AWAY)
+    services.checklist_tick_set(underway, STEP, 4, False, engineer, in_place_of=AWAY)
+    services.checklist_tick_set(underway, POINT, point.pk, False, engineer, in_place_of=AWAY)
     assert not any(line.ticked for line in selectors.checklist(underway).steps + selectors.checklist(underway).points)
     assert [t[4] for t in _ticks()[len(before):]] == [False, False, False]  # each taking back recorded
     with pytest.raises(services.Refused, match="tick the lockout \\(step 5\\) and isolation point 'Mount isolator'"):
@@ -440,17 +442,17 @@ def test_the_lockout_is_not_taken_back_from_under_the_release_and_the_release_ca
     point = _locked_out_and_working(underway, users)
     services.checklist_tick_set(underway, STEP, 6, True, users["technician"])
     with pytest.raises(services.Refused) as refusal:
-        services.checklist_tick_set(underway, STEP, 4, False, engineer)
+        services.checklist_tick_set(underway, STEP, 4, False, engineer, in_place_of=AWAY)
     assert str(refusal.value) == (
         "the tick on step 5 stays: take back steps 7 and 6 first: step 7 says the locks were removed; step 6 was "
         "done with the energy isolated"
     )
     with pytest.raises(services.Refused, match=r"take back steps 7, 6 and 5 first: step 7 says the locks were "
                                                r"removed; step 6 was done"):
-        services.checklist_tick_set(underway, POINT, point.pk, False, engineer)
+        services.checklist_tick_set(underway, POINT, point.pk, False, engineer, in_place_of=AWAY)
     for index in (6, 5, 4):  # as the refusals name them
-        services.checklist_tick_set(underway, STEP, index, False, engineer)
-    services.checklist_tick_set(underway, POINT, point.pk, False, engineer)
+        services.checklist_tick_set(underway, STEP, index, False, engineer, in_place_of=AWAY)
+    services.checklist_tick_set(underway, POINT, point.pk, False, engineer, in_place_of=AWAY)
 
 
 def test_several_locked_out_steps_are_named_together(drive, users, site):  # noqa: F811  (fixture, imported above)
@@ -504,7 +506,7 @@ def test_the_steps_under_power_are_not_held_and_the_restoring_steps_wait_for_the
         True, False, False, True, True, True, True, True, False  # step 9 hands the observatory back
     ]
     with pytest.raises(services.Refused) as refusal:
-        services.checklist_tick_set(underway, STEP, 6, False, users["engineer"])
+        services.checklist_tick_set(underway, STEP, 6, False, users["engineer"], in_place_of=AWAY)
     assert str(refusal.value) == (
         "the tick on step 7 stays: take back step 8 first: it was done after the locks came off"
     )
@@ -699,7 +701,7 @@ def test_the_finished_paper_prints_each_tick_once_beside_its_line_with_who_and_w
     point = _point(underway)
     services.checklist_tick_set(underway, STEP, 0, True, users["technician"])  # under power, before the locks
     services.checklist_tick_set(underway, STEP, 2, True, users["engineer"])
-    services.checklist_tick_set(underway, STEP, 2, False, users["engineer"])
+    services.checklist_tick_set(underway, STEP, 2, False, users["engineer"], in_place_of=AWAY)
     services.checklist_tick_set(underway, POINT, point.pk, True, users["technician"])
     assert selectors.sheet(underway, "https://ops.example/wo/1/").confirmations == ()  # not finished yet
     _finish(underway, users)

@@ -1246,21 +1246,22 @@ def checklist_tick_set(
         already = latest is not None and latest.ticked and latest.text == entry.text
         if already == ticked:
             raise Refused(f"{what} is {'already ticked' if ticked else 'not ticked'}")
-        if refusal := _lock_holder_refusal(current, entry, latest, ticks, by, what):
-            if not has_role(by, ENGINEER):
-                raise Refused(refusal)
-            entry.in_place_of_holder = " ".join(in_place_of.split())
-            if not entry.in_place_of_holder:
-                raise Refused(f"{what} is a lock's line another put on: {IN_PLACE_OF_ASKED}")
-            if len(entry.in_place_of_holder) > IN_PLACE_OF_LONGEST:
-                raise Refused(f"why, in place of the lock's holder, is {len(entry.in_place_of_holder)} characters "
-                              f"long: write it in at most {IN_PLACE_OF_LONGEST}")
+        in_their_place = _lock_holder_refusal(current, entry, latest, ticks, by, what)
+        if in_their_place and not has_role(by, ENGINEER):
+            raise Refused(in_their_place)
         if refusal := _lockout_sequence_refusal(current, entry.line, ticked, what, ticks):
             raise Refused(refusal)
         if ticked and kind == ChecklistTick.Kind.STEP and (refusal := _others_locked_out_refusal(current, key)
                                                            or _telescope_out_refusal(current, key)
                                                            or _own_hand_back_refusal(current, key, ticks)):
             raise Refused(refusal)
+        if in_their_place:  # an engineer, in the place of whoever put the lock on: asked last, once nothing else holds
+            entry.in_place_of_holder = " ".join(in_place_of.split())
+            if not entry.in_place_of_holder:
+                raise Refused(f"{what} is {IN_PLACE_OF_WHOSE[entry.ticked]}: {IN_PLACE_OF_ASKED}")
+            if len(entry.in_place_of_holder) > IN_PLACE_OF_LONGEST:
+                raise Refused(f"why, in place of the lock's holder, is {len(entry.in_place_of_holder)} characters "
+                              f"long: write it in at most {IN_PLACE_OF_LONGEST}")
         entry._history_user = by
         entry.save()
     return entry
@@ -1299,7 +1300,9 @@ def _lock_holder_refusal(order: WorkOrder, entry: ChecklistTick, latest: Checkli
 IN_PLACE_OF_ASKED = ("as the site engineer you may, in their place, under the site's procedure for a lock left on: "
                      "open \"In place of the lock's holder\" under the line and say why (they are not at the site, "
                      "how you tried to reach them, how they will be told before they are back at work: OSHA 29 CFR "
-                     "1910.147(e)(3)), then record it")
+                     "1910.147(e)(3)), then record it again")
+#: Whose line it is, by whether it is being ticked (the removal of others' locks) or taken back (another's tick).
+IN_PLACE_OF_WHOSE = {True: "the removal of locks others put on", False: "another's tick on a lock's line"}
 IN_PLACE_OF_LONGEST = 300
 
 
