@@ -123,6 +123,10 @@ def test_the_finish_does_not_take_off_locks_someone_else_put_on(locked_out, seco
                                                 rf"of the locks \(step {release + 1}\) is not ticked"):
         finish(second_technician)
     assert WorkOrder.objects.get(pk=underway.pk).state == "underway"
+    # A diff review finished as engineer with the technician's locks on and no why asked: the engineer ticks the
+    # removal in the holder's place first, with why, kept on that tick.
+    with pytest.raises(services.Refused, match="ticks it in their place, saying why, then finishes it"):
+        finish(users["engineer"])
     services.checklist_tick_set(underway, "step", release, True, users["technician"])
     finish(second_technician)  # the locks are recorded as off by whoever put them on: anyone on the crew finishes
     assert WorkOrder.objects.get(pk=underway.pk).state == "finished"

@@ -1335,10 +1335,9 @@ def _locks_left_on_refusal(order: WorkOrder, by) -> str:
     """Why ``by`` may not finish ``order``: locks recorded on it by others, and its removal of the locks not ticked.
     Finishing would say for them that their locks came off, and an order finished no longer holds another crew's
     steps (a diff review finished so, its release unticked and answered "isolated", with no lock of its own). An
-    engineer may, under the site's procedure for a lock left on (OSHA 29 CFR 1910.147(e)(3)). "" when nothing
-    holds it."""
-    if has_role(by, ENGINEER):
-        return ""
+    engineer first ticks the removal in their place, saying why, under the site's procedure for a lock left on (OSHA 29
+    CFR 1910.147(e)(3)): the why is kept on that tick, one record of it (a diff review finished as engineer with
+    another's locks on and no why asked). "" when nothing holds it."""
     ticks = latest_ticks(order)
     holders = lock_holders(ticks)
     if not holders or by.pk in holders:
@@ -1351,8 +1350,8 @@ def _locks_left_on_refusal(order: WorkOrder, by) -> str:
     return (f"the locks on this order were put on by {in_words(sorted(person(u) for u in holders.values()))}, and "
             f"the removal of the locks (step {left[0] + 1}) is not ticked: one of them ticks it on the work order page "
             "once every lock is off, before the order is finished. If none of them can be reached, the site engineer "
-            "removes the locks under the site's procedure for a lock left on (OSHA 29 CFR 1910.147(e)(3)) and "
-            "finishes it")
+            "removes the locks under the site's procedure for a lock left on (OSHA 29 CFR 1910.147(e)(3)) and ticks "
+            "it in their place, saying why, then finishes it")
 
 
 def _own_hand_back_refusal(order: WorkOrder, key: int, ticks: dict) -> str:
