@@ -331,6 +331,15 @@ def test_a_mirror_left_out_by_a_stopped_recoat_keeps_its_telescope_out_up_to_tod
     assert (f"the stopped recoat of F50: Primary mirror ({first_unlogged:%d %b %Y} to {today:%d %b %Y}; its primary "
             f"mirror out since {first_unlogged:%d %b %Y} (removed by {orders['removal'].number})") in status.basis
 
+    # A diff review: a recoat entered in the admin without orders, days ahead, hid the mirror out (it has no
+    # reinstall to put it back), and the unlogged nights counted as observed.
+    from observatory_ops.mirrors.models import RecoatPlan
+
+    RecoatPlan.objects.create(mirror=mirror, starts_on=today + dt.timedelta(days=20),
+                              ends_on=today + dt.timedelta(days=24), phases=[], cost=0.0, created_by=users["engineer"])
+    services.site_recompute(site)
+    assert PlanStatus.objects.get(plan=plan).forecast_date == status.forecast_date
+
 
 def test_a_recoat_entered_without_orders_counts_in_the_forecasts_as_on_the_dashboard(scene, users, client):
     """The last notes: a recoat entered in the admin with no orders showed its days on the dashboard's "Downtime
@@ -349,5 +358,8 @@ def test_a_recoat_entered_without_orders_counts_in_the_forecasts_as_on_the_dashb
     client.force_login(users["viewer"])
     assert f"{first:%d %b %Y}" in client.get(site.get_absolute_url()).content.decode()
     assert services.recoats_in_hand(site, today) == [recoat]
+    # The mirror page and the planner read it too: another recoat is refused while it stands, saying where it is.
+    assert mirror_services.recoat_in_hand(mirror) == recoat
+    assert "entered in the admin without work orders; delete it there" in mirror_services.recoat_in_hand_text(recoat)
     assert services.recoats_in_hand(site, last) == [recoat] and services.recoats_in_hand(site, last + dt.timedelta(
         days=1)) == []

@@ -892,14 +892,13 @@ def _recoats_going_ahead(site: Site):
 
 
 def recoat_in_hand(mirror: Mirror) -> RecoatPlan | None:
-    """The mirror's recoat going ahead whose work is not all done (an order of it drafted, issued or underway), with
-    its orders; None when there is none. A mirror has one recoat in hand at a time: another is refused until it is
-    done or stopped (an order withdrawn), and the planner names it."""
-    return (
-        _recoats_going_ahead(mirror.subsystem.telescope.site)
-        .filter(mirror=mirror, work_orders__state__in=(State.DRAFT, State.ISSUED, State.UNDERWAY))
-        .prefetch_related("work_orders").distinct().first()
-    )
+    """The mirror's recoat in hand (``planning.services.recoats_in_hand``: an order of it drafted, issued or underway
+    and none withdrawn, or one entered in the admin without orders whose days are not past), with its orders; None
+    when there is none. A mirror has one recoat in hand at a time: another is refused until it is done or stopped (an
+    order withdrawn), and the planner names it. The dashboard's "Downtime planned" and this read one list (a diff
+    review saw a recoat entered in the admin there and the same mirror under "Recoats to plan")."""
+    site = mirror.subsystem.telescope.site
+    return next((plan for plan in recoats_in_hand(site, site_today(site)) if plan.mirror_id == mirror.pk), None)
 
 
 def mirror_out(mirror: Mirror) -> WorkOrder | None:
@@ -1067,8 +1066,12 @@ def due_in_downtime(plan: RecoatPlan) -> DowntimeOffer | None:
 
 def recoat_in_hand_text(plan: RecoatPlan) -> str:
     """Why another recoat of the mirror is not planned while ``plan`` is in hand (``recoat_in_hand``)."""
-    numbers = ", ".join(o.number for o in sorted(plan.work_orders.all(), key=lambda o: o.pk))
     out = recoat_downtime(plan, site_today(plan.mirror.subsystem.telescope.site))
+    if not plan.work_orders.all():  # entered in the admin: it has no orders to finish or withdraw
+        return (f"a recoat of this mirror is already planned, {_days_text(out.first, out.last)}, entered in the admin "
+                "without work orders; delete it there (Recoat plans), or wait until its days are past, before "
+                "planning another")
+    numbers = ", ".join(o.number for o in sorted(plan.work_orders.all(), key=lambda o: o.pk))
     stand = " as its work orders now stand" if out.changed else ""
     return (f"a recoat of this mirror is already planned, {_days_text(out.first, out.last)}{stand} ({numbers}), and "
             "its work is not all done; finish it, or withdraw its work orders to stop it, before planning another")

@@ -1244,7 +1244,8 @@ def mirrors_left_out(site: Site, today: dt.date, in_hand: list) -> list[MirrorLe
     where no removal was ever finished, two once one was."""
     from observatory_ops.workorders.selectors import came_out_on, telescopes_out  # work orders build on planning
 
-    covered = {plan.mirror.subsystem_id for plan in in_hand}
+    # A recoat entered in the admin with no orders has no reinstall to put the mirror back (a diff review's hid it).
+    covered = {plan.mirror.subsystem_id for plan in in_hand if plan.work_orders.all()}
     left = []
     for out in telescopes_out([site]):
         if out.subsystem_id in covered:
