@@ -44,5 +44,10 @@ def test_a_limit_changed_since_the_last_service_is_said_with_when_and_who(telesc
     page = _text(client.get(f"/subsystems/{fans.pk}/"))
     assert "This plan's limits changed since it started counting" in page
     assert f"{today:%d %b %Y}, by engineer: " in page
-    assert f"limit changed from {old:g} to {old / 2:g}" in page
-    assert "Calendar days added, limit 60 days" in page
+    assert re.search(rf": {old:g} \w+ changed to [^:]+: {old / 2:g} \w+", page), page
+    assert "Calendar days: 60 days added" in page
+    # What a trigger counts changed, its limit kept (a diff review: a 300-day interval became 300 open hours).
+    added.metric = "open_hours"
+    added._history_user = users["engineer"]
+    added.save()
+    assert "Calendar days: 60 days changed to Open-dome hours: 60 h" in _text(client.get(f"/subsystems/{fans.pk}/"))

@@ -614,12 +614,23 @@ def expected_use_by_month(subsystem: Subsystem, plans: list[ServicePlan]) -> dic
     }
 
 
+def _trigger_words(row) -> str:
+    """A trigger (or a historical row of one) in words with its limit: "Calendar days: 90 days", "Settle time after a
+    slew above 1.2 s"."""
+    what, unit = metrics.METRICS.get(row.metric, (row.metric, ""))
+    if row.metric == metrics.READING:
+        what, unit = QUANTITIES[row.quantity][:2] if row.quantity in QUANTITIES else (row.quantity or "a reading", "")
+        side = "below" if row.direction == Trigger.Direction.BELOW else "above"
+        return f"{what} {side} {row.limit:g} {unit}".strip()
+    return f"{what}: {row.limit:g} {unit}".strip()
+
+
 def limit_changes(plan: ServicePlan, since: dt.date, zone) -> list[str]:
     """How ``plan``'s triggers changed on or after ``since`` (its baseline: the last service, or its start), oldest
-    first, each with the day in the site's time and who changed it: a limit raised or lowered, a trigger added or
-    removed (their history, ``Trigger.history``). A forecast review relaxed a safety interlock test from 90 to 120
-    days and its "overdue" cleared with nothing said on the plan, then tightened it to 60 and a service logged next was
-    recorded as 37 days late. One query."""
+    first, each with the day in the site's time and who changed it: a limit raised or lowered, what a trigger counts
+    changed, a trigger added or removed (their history, ``Trigger.history``). A forecast review relaxed a safety
+    interlock test from 90 to 120 days and its "overdue" cleared with nothing said on the plan, then tightened it to 60
+    and a service logged next was recorded as 37 days late. One query."""
     from observatory_ops.archive.history import person
 
     start = dt.datetime.combine(since, dt.time(), tzinfo=zone)
@@ -633,15 +644,14 @@ def limit_changes(plan: ServicePlan, since: dt.date, zone) -> list[str]:
         before[row.id] = row
         if row.history_date < start or (row.history_type == "+" and row.history_date - made < dt.timedelta(minutes=5)):
             continue
-        what, unit = metrics.METRICS.get(row.metric, (row.metric, ""))
-        if row.metric == metrics.READING and row.quantity:
-            what, unit = QUANTITIES[row.quantity][:2] if row.quantity in QUANTITIES else (row.quantity, "")
         if row.history_type == "+":
-            change = f"{what} added, limit {row.limit:g} {unit}"
+            change = f"{_trigger_words(row)} added"
         elif row.history_type == "-":
-            change = f"{what} removed (its limit was {row.limit:g} {unit})"
-        elif previous is not None and previous.limit != row.limit:
-            change = f"{what} limit changed from {previous.limit:g} to {row.limit:g} {unit}"
+            change = f"{_trigger_words(row)} removed"
+        elif previous is None:  # its earlier state not kept (a change before the history was)
+            change = f"a trigger changed, now {_trigger_words(row)}"
+        elif _trigger_words(previous) != _trigger_words(row):
+            change = f"{_trigger_words(previous)} changed to {_trigger_words(row)}"
         else:
             continue
         who = person(row.history_user) if row.history_user else "someone not recorded"
