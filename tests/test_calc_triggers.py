@@ -133,3 +133,16 @@ def test_a_trigger_with_no_forecast_comes_last_and_among_those_the_largest_fract
 def test_a_plan_without_triggers_is_a_clear_error():
     with pytest.raises(ValueError, match="at least one trigger"):
         governing([])
+
+
+def test_the_due_sentence_on_a_calendar_limits_day_says_due_today_not_reached():
+    """A diff review read "due ... 339 / 339 days ... limit reached on 05 Dec 2026" on the due day: "reached" beside
+    "due" read as late. The sentence says due today, overdue from tomorrow; the day after, limit reached."""
+    from observatory_ops.planning.services import reason_text
+
+    on_the_day = TriggerState(metric="calendar_days", value=180, limit=180, rate_per_day=1.0, forecast=TODAY,
+                              unit="days")
+    assert reason_text(on_the_day) == "Calendar days: 180 of 180 days; due today, 15 Jun 2026: overdue from tomorrow."
+    day_after = TriggerState(metric="calendar_days", value=181, limit=180, rate_per_day=1.0, forecast=TODAY,
+                             unit="days")
+    assert reason_text(day_after) == "Calendar days: 181 of 180 days; limit reached on 15 Jun 2026."

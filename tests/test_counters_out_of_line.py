@@ -61,6 +61,7 @@ def test_a_dust_level_ten_times_its_usual_is_named_and_stored(site):
     night = today - dt.timedelta(days=1)
     assert _sent(site, night, pm10_ugm3=140) == []
     assert _sent(site, night, pm10_ugm3=1999) == [
-        f"the whole site, night of {night:%d %b %Y}, 8 h open: 1,999 µg/m³ of PM10 (against a median of 15.00; a dust "
-        "storm weighs on every dust-weighted plan): more than 10 times its log's usual rate (a unit or a digit?)"]
+        f"the whole site, night of {night:%d %b %Y}, 8 h open: 1,999 µg/m³ of PM10 (against a median of 15.00): more "
+        "than 10 times its log's usual level (a unit or a digit, or a dust storm: if real, keep it, every "
+        "dust-weighted plan counts it)"]
     assert NightUsage.objects.get(site=site, night=night).pm10_ugm3 == 1999  # stored as sent

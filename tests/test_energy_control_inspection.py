@@ -79,6 +79,7 @@ def test_the_admin_names_the_inspector_as_the_employees_observed_are_typed(site,
     mains_isolator(telescope)
     add_page = engineer_in_admin.get(reverse("admin:workorders_energycontrolinspection_add")).content.decode()
     assert f'<option value="{users["engineer"].pk}">Oda Ferrin</option>' in add_page
+    assert '>viewer</option>' not in add_page and '>technician</option>' in add_page  # the viewer is not authorised
     EnergyControlInspection.objects.create(telescope=telescope, inspected_on=site_today(site),
                                            inspector=users["engineer"], employees="Technician", findings="none found",
                                            recorded_by=users["engineer"])

@@ -160,7 +160,7 @@ def counters_out_of_line(site: Site, nights: list[NightUsage]) -> list[str]:
     names = dict(site.telescopes.values_list("pk", "name"))
     said = []
     for night in sorted(checked, key=lambda n: (n.night, names.get(n.telescope_id, ""))):
-        high = []
+        high, dust = [], ""
         for (name, words, per_hour), median in zip(_COUNTERS, medians.get(night.telescope_id, [None] * len(fields)),
                                                    strict=True):
             value = getattr(night, name)
@@ -172,12 +172,17 @@ def counters_out_of_line(site: Site, nights: list[NightUsage]) -> list[str]:
                 high.append(f"{written}{gap}{words} ({value / night.open_hours:,.1f} an open hour against a median "
                             f"of {median:,.2f})")
             elif not per_hour and value > OUT_OF_LINE_FACTOR * median:
-                high.append(f"{written} {words} (against a median of {median:,.2f}; a dust storm weighs on every "
-                            "dust-weighted plan)")
-        if high:
+                dust = f"{written} {words} (against a median of {median:,.2f})"
+        if high or dust:
             whose = names[night.telescope_id] if night.telescope_id else "the whole site"
-            said.append(f"{whose}, night of {night.night:%d %b %Y}, {night.open_hours:g} h open: {'; '.join(high)}: "
-                        f"more than {OUT_OF_LINE_FACTOR} times its log's usual rate (a unit or a digit?)")
+            tail = []
+            if high:
+                tail.append(f"{'; '.join(high)}: more than {OUT_OF_LINE_FACTOR} times its log's usual rate (a unit or "
+                            "a digit?)")
+            if dust:  # a level, not a rate; and a true dust storm is kept as it is, worth a look at the filters
+                tail.append(f"{dust}: more than {OUT_OF_LINE_FACTOR} times its log's usual level (a unit or a digit, "
+                            "or a dust storm: if real, keep it, every dust-weighted plan counts it)")
+            said.append(f"{whose}, night of {night.night:%d %b %Y}, {night.open_hours:g} h open: {'; '.join(tail)}")
     return said
 
 

@@ -1489,6 +1489,9 @@ def reason_text(state: TriggerState) -> str:
     if state.reached and state.metric == metrics.READING and state.forecast:
         # The day of the first reading past the limit (``_reading_state``), not where the trend crosses it.
         return f"{head}; limit reached since the reading of {state.forecast:%d %b %Y}."
+    if state.reached and state.metric == metrics.CALENDAR_DAYS and state.value == round(state.limit):
+        # Due on its day, overdue from the next (calc.triggers.due_status): "limit reached" beside "due" read as late.
+        return f"{head}; due today, {state.forecast:%d %b %Y}: overdue from tomorrow."
     if state.reached:
         return f"{head}; limit reached{f' on {state.forecast:%d %b %Y}' if state.forecast else ''}."
     if state.forecast is None:

@@ -6,6 +6,7 @@ from django.core.exceptions import ValidationError
 from django.http import HttpResponseRedirect
 from simple_history.admin import SimpleHistoryAdmin
 
+from observatory_ops.access.roles import TECHNICIAN, holders_of
 from observatory_ops.archive.history import person
 from observatory_ops.planning.admin import RecomputesSite
 from observatory_ops.planning.services import site_today
@@ -148,6 +149,13 @@ class EnergyControlInspectionForm(forms.ModelForm):
         model = EnergyControlInspection
         fields = ("telescope", "inspected_on", "inspector", "employees", "findings")
         field_classes = {"inspector": PersonChoiceField}  # by name, as "employees observed" are typed
+
+    def __init__(self, *args, **kwargs):
+        """The inspector is an authorised employee: someone who may lock out here (the technician role or above), not
+        a viewer (a diff review chose the site's viewer and it was kept)."""
+        super().__init__(*args, **kwargs)
+        if "inspector" in self.fields:
+            self.fields["inspector"].queryset = holders_of(TECHNICIAN).order_by("last_name", "first_name", "username")
 
     def clean(self):
         data = super().clean()

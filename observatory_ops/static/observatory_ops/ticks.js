@@ -12,7 +12,7 @@ function sayRefused(text) {  // emptied first, so the same refusal twice is anno
 }
 document.querySelectorAll("form.tick").forEach(function (form) {
   var box = form.querySelector("input[type=checkbox]"), note = form.querySelector(".tick-note");
-  var busy = false, result = form.querySelector(".tick-result input");
+  var busy = false, result = form.querySelector(".tick-result input"), why = form.querySelector(".tick-in-place input");
   form.querySelector("button").hidden = true;
   // Enter in a result box (the tablet keyboard's Go) asks for the tick it is typed for; a plain post of the box as it
   // stands, unticked, would take nothing back and lose what was typed (a diff review).
@@ -20,6 +20,11 @@ document.querySelectorAll("form.tick").forEach(function (form) {
     event.preventDefault();
     if (!busy && result && !box.checked && result.value.trim()) {
       box.checked = true;
+      box.dispatchEvent(new Event("change"));
+    } else if (!busy && why && document.activeElement === why && why.value.trim()) {
+      // Enter in the engineer's why, in a lock holder's place: the line's change it was typed for (a diff review's
+      // Enter there did nothing and said nothing).
+      box.checked = !box.checked;
       box.dispatchEvent(new Event("change"));
     }
   });
