@@ -17,7 +17,7 @@ import logging
 import os
 
 from celery import Celery, Task, chain
-from celery.signals import worker_init
+from celery.signals import beat_init, celeryd_init, worker_init
 from django.db import IntegrityError, InterfaceError, OperationalError
 
 os.environ.setdefault("DJANGO_SETTINGS_MODULE", "observatory_ops.settings")
@@ -25,6 +25,24 @@ os.environ.setdefault("DJANGO_SETTINGS_MODULE", "observatory_ops.settings")
 app = Celery("observatory_ops")
 app.config_from_object("django.conf:settings", namespace="CELERY")
 app.autodiscover_tasks()
+
+
+#: Why a worker or beat does not start without a broker (an IT review's worker, its environment file not loaded, went
+#: looking for a broker Celery assumes, amqp://localhost, and retried for ever without naming what was missing).
+NO_BROKER = (
+    "CELERY_BROKER_URL is not set, so tasks run inline in the web process and a worker or beat has nothing to do. "
+    "Load the environment file first (set -a; . /etc/observatory_ops.env; set +a: README, Deployment), or set "
+    "CELERY_BROKER_URL=redis://127.0.0.1:6379/0."
+)
+
+
+@celeryd_init.connect
+@beat_init.connect
+def _refuse_without_broker(**_kwargs) -> None:
+    from django.conf import settings
+
+    if not settings.CELERY_BROKER_URL:
+        raise SystemExit(NO_BROKER)  # a SystemExit passes through Celery's signal dispatch, which logs the rest
 
 
 @worker_init.connect
