@@ -322,7 +322,7 @@ def test_restore_into_a_database_never_migrated_says_to_migrate_first(tmp_path):
     )
     assert run.returncode == 1
     assert "Traceback" not in run.stderr
-    assert "the database is not migrated" in run.stderr
+    assert f"the SQLite file {database} is not migrated" in run.stderr  # which database it is (an IT review)
     assert "run `python manage.py migrate` first" in run.stderr
     with sqlite3.connect(database) as tables:
         assert tables.execute("SELECT name FROM sqlite_master").fetchall() == []
@@ -337,8 +337,20 @@ def test_backup_of_a_database_never_migrated_says_to_migrate_first(tmp_path):
     )
     assert run.returncode == 1
     assert "Traceback" not in run.stderr
-    assert "the database is not migrated" in run.stderr and "then back it up" in run.stderr
+    assert f"the SQLite file {database} is not migrated" in run.stderr and "then back it up" in run.stderr
     assert not path.exists()
+
+
+def test_without_database_url_the_commands_say_they_use_the_embedded_default(tmp_path):
+    """An IT review ran `backup` without loading the environment file: it backed up a new, empty SQLite file beside
+    the code and said only "4 rows in 56 tables written". The SQLite default is named as such."""
+    env = {k: v for k, v in os.environ.items() if k != "DATABASE_URL"}
+    env["OBSOPS_DATA_DIR"] = str(tmp_path)
+    run = subprocess.run([sys.executable, "manage.py", "backup", str(tmp_path / "record.json")], cwd=PROJECT,
+                         capture_output=True, text=True, env=env, check=False)
+    assert run.returncode == 1
+    assert (f"the SQLite file {tmp_path / 'observatory_ops.sqlite3'} (the embedded default: DATABASE_URL is not set; "
+            "load the environment file to use the site's database) is not migrated") in run.stderr
 
 
 def test_a_backup_reads_every_table_in_one_snapshot(tmp_path):

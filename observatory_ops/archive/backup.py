@@ -41,6 +41,7 @@ from django.template.defaultfilters import pluralize
 from django.utils import timezone
 
 from observatory_ops.calc.night_of import night_of
+from observatory_ops.command_files import database_in_use
 from observatory_ops.logbook import nights_csv
 
 FORMAT = "observatory_ops-backup/2"
@@ -81,7 +82,7 @@ def backup_write(path: Path) -> dict[str, int]:
     """
     pending, applied = _migrations()
     if pending:
-        raise BackupError(f"the database is not migrated ({pending} migrations not applied): run "
+        raise BackupError(f"{database_in_use()} is not migrated ({pending} migrations not applied): run "
                           "`python manage.py migrate` first, then back it up")
     objects, counts = [], {}
     # Every table read in one transaction that sees one moment of the database, so a backup taken while the
@@ -385,7 +386,7 @@ def backup_restore(path: Path) -> dict[str, int]:
     header, rows = _read(path)
     pending, applied = _migrations()
     if pending:
-        raise BackupError(f"the database is not migrated ({pending} migrations not applied): run "
+        raise BackupError(f"{database_in_use()} is not migrated ({pending} migrations not applied): run "
                           "`python manage.py migrate` first, then restore into it")
     _check_migrations(path, header["migrations"], applied)
     _value_problems(path, header, rows)

@@ -4,6 +4,7 @@ from django.core.management.base import BaseCommand, CommandError
 from observatory_ops.api import services
 from observatory_ops.api.models import ApiToken
 from observatory_ops.api.selectors import calendar_link
+from observatory_ops.command_files import database_in_use
 from observatory_ops.registry.models import Site
 
 
@@ -35,7 +36,7 @@ class Command(BaseCommand):
         site = Site.objects.filter(slug=slug).first()
         if site is None:
             known = ", ".join(Site.objects.values_list("slug", flat=True)) or "none"
-            raise CommandError(f"no site with slug {slug!r} (known: {known})")
+            raise CommandError(f"no site with slug {slug!r} (known: {known}) in {database_in_use()}")
         return site
 
     def _create(self, site, name, calendar, **options):
@@ -46,7 +47,8 @@ class Command(BaseCommand):
             raise CommandError(str(exc)) from None
         what = "Calendar token" if calendar else "Token"
         self.stderr.write(
-            f"{what} {token.pk} ({token.name}) for site {token.site.slug}. Copy it now: it is shown once."
+            f"{what} {token.pk} ({token.name}) for site {token.site.slug}, in {database_in_use()}. Copy it now: it is "
+            "shown once."
         )
         # The link holds the secret, so it is what is printed: a calendar application is given the link, not the token.
         self.stdout.write(calendar_link(token, secret, settings.SITE_URL) if calendar else secret)

@@ -3,7 +3,7 @@ from pathlib import Path
 from django.core.management.base import BaseCommand, CommandError
 
 from observatory_ops.archive.backup import BackupError, backup_write
-from observatory_ops.command_files import unreachable
+from observatory_ops.command_files import database_in_use, unreachable
 
 
 class Command(BaseCommand):
@@ -25,4 +25,5 @@ class Command(BaseCommand):
             raise CommandError(str(exc)) from None
         except OSError as exc:
             raise CommandError(f"cannot write {file}: {exc.strerror}") from None
-        self.stdout.write(f"{sum(counts.values()):,} rows in {len(counts)} tables written to {file}")
+        self.stdout.write(f"{sum(counts.values()):,} rows in {len(counts)} tables written to {file}, from "
+                          f"{database_in_use()}")
