@@ -986,11 +986,16 @@ def latest_ticks(order: WorkOrder) -> dict[tuple[str, int | None], ChecklistTick
     return {tick.line: tick for tick in order.ticks.select_related("recorded_by").order_by("pk")}
 
 
+def in_place_words(tick: ChecklistTick) -> str:
+    """", in place of the lock's holder: <why>" for an engineer's tick in the place of whoever put the lock on
+    (``services.checklist_tick_set``); "" for any other tick. The line's note and the tick trail say it alike."""
+    return f", in place of the lock's holder: {tick.in_place_of_holder}" if tick.in_place_of_holder else ""
+
+
 def tick_note(tick: ChecklistTick, text: str, zone: dt.tzinfo) -> str:
     """Who ticked the line (or took the tick back) and when, in the site's time, as the page shows it."""
     said = f"{person(tick.recorded_by)}, {dateformat.format(tick.recorded_at.astimezone(zone), 'd M Y H:i')}"
-    if tick.in_place_of_holder:
-        said += f", in place of the lock's holder: {tick.in_place_of_holder}"
+    said += in_place_words(tick)
     if not tick.ticked:
         return f"tick taken back by {said}"
     result = f"; result: {tick.result}" if tick.result else ""
@@ -1055,8 +1060,7 @@ def tick_trail(order: WorkOrder) -> list[TickRecorded]:
             line = f"Isolation point: {tick.text}"
         recorded = ("ticked" + (f"; result: {tick.result}" if tick.result else "")) if tick.ticked else \
             "tick taken back"
-        if tick.in_place_of_holder:
-            recorded += f", in place of the lock's holder: {tick.in_place_of_holder}"
+        recorded += in_place_words(tick)
         rows.append(TickRecorded(dateformat.format(tick.recorded_at.astimezone(zone), "d M Y H:i T"),
                                  person(tick.recorded_by), line, recorded))
     return rows

@@ -1303,7 +1303,7 @@ IN_PLACE_OF_ASKED = ("as the site engineer you may, in their place, under the si
                      "1910.147(e)(3)), then record it again")
 #: Whose line it is, by whether it is being ticked (the removal of others' locks) or taken back (another's tick).
 IN_PLACE_OF_WHOSE = {True: "the removal of locks others put on", False: "another's tick on a lock's line"}
-IN_PLACE_OF_LONGEST = 300
+IN_PLACE_OF_LONGEST = ChecklistTick._meta.get_field("in_place_of_holder").max_length
 
 
 def lines_in_place_of_holder(order: WorkOrder, lines, by) -> set[str]:
