@@ -251,7 +251,7 @@ def test_a_backup_from_an_older_version_is_refused_naming_the_first_migration_it
 
     def before_the_latest_planning_and_workorders_migrations(header):
         later = (["planning", planning], ["workorders", workorders])
-        return {**header, "migrations": [pair for pair in header["migrations"] if pair not in later]}
+        return {**header, "migrations": [pair for pair in header["migrations"] if pair not in later], "code": ""}
 
     older = _header_changed(path, before_the_latest_planning_and_workorders_migrations)
     before = _row_counts()
@@ -263,6 +263,26 @@ def test_a_backup_from_an_older_version_is_refused_naming_the_first_migration_it
         "with the version that wrote it, then upgrade with `python manage.py migrate`"
     )
     assert _row_counts() == before
+
+
+def test_a_backup_names_the_commit_of_the_code_that_wrote_it_and_its_refusal_says_it(tmp_path):
+    """An IT review restored a backup taken before an upgrade with the new code: refused, rightly, with nothing that
+    said which code to go back to. The header keeps the commit (read from the checkout's git folder); a checkout the
+    tests run in has one, an unpacked release none ("")."""
+    import gzip
+    import json
+
+    from observatory_ops.archive.backup import code_version
+
+    path = _backup_of_a_small_record(tmp_path / "record.json")
+    data = path.read_bytes()
+    header = json.loads((gzip.decompress(data) if data[:2] == b"\x1f\x8b" else data).split(b"\n", 1)[0])
+    assert header["code"] == code_version()
+    if (PROJECT / ".git").is_dir():
+        assert len(header["code"]) == 40 and all(c in "0123456789abcdef" for c in header["code"])
+    older = _header_changed(path, lambda h: {**h, "migrations": h["migrations"][:-1], "code": "0" * 40})
+    with pytest.raises(CommandError, match=f"Restore it with the version that wrote it \\(commit {'0' * 40}\\)"):
+        call_command("restore", str(older))
 
 
 def test_a_backup_from_a_newer_version_is_refused_naming_the_migration_this_one_lacks(tmp_path):

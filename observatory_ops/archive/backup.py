@@ -31,6 +31,7 @@ from contextlib import contextmanager
 from pathlib import Path
 
 from django.apps import apps
+from django.conf import settings
 from django.core import serializers
 from django.core.exceptions import ValidationError
 from django.core.management.color import no_style
@@ -104,7 +105,7 @@ def backup_write(path: Path) -> dict[str, int]:
     body = serializers.serialize("json", objects, use_natural_foreign_keys=True).encode()
     header = {
         "format": FORMAT, "created_at": dt.datetime.now(dt.UTC).isoformat(), "migrations": applied,
-        "counts": counts, "body_sha256": hashlib.sha256(body).hexdigest(),
+        "counts": counts, "body_sha256": hashlib.sha256(body).hexdigest(), "code": code_version(),
     }
     data = json.dumps(header).encode() + b"\n" + body
     if str(path).endswith(".gz"):
@@ -185,8 +186,29 @@ def _migrations() -> tuple[int, list[list[str]]]:
     return len(executor.migration_plan(graph.leaf_nodes())), applied
 
 
-def _check_migrations(path: Path, backup: list[list[str]], database: list[list[str]]) -> None:
-    """Refuse a backup taken at other migrations than the database's, naming the first difference."""
+def code_version() -> str:
+    """The commit the running code was checked out at, read from its git folder (no git program needed); "" for code
+    not in a git checkout (an unpacked release). Kept in a backup's header, so a refusal of a backup taken before an
+    upgrade names the code to go back to (an IT review found nothing that said which it was)."""
+    git = Path(settings.BASE_DIR) / ".git"
+    try:
+        head = (git / "HEAD").read_text().strip()
+        if not head.startswith("ref: "):
+            return head  # a detached checkout: the commit itself
+        ref = head.removeprefix("ref: ")
+        if (git / ref).is_file():
+            return (git / ref).read_text().strip()
+        for line in (git / "packed-refs").read_text().splitlines():
+            if line.endswith(f" {ref}"):
+                return line.split()[0]
+    except OSError:  # no git folder, a worktree's .git file, an unreadable one
+        pass
+    return ""
+
+
+def _check_migrations(path: Path, backup: list[list[str]], database: list[list[str]], code: str = "") -> None:
+    """Refuse a backup taken at other migrations than the database's, naming the first difference, and the commit of
+    the code that wrote it when its header has one (``code_version``)."""
     theirs, ours = {tuple(pair) for pair in backup}, {tuple(pair) for pair in database}
     differing = sorted(theirs ^ ours)
     if not differing:
@@ -197,7 +219,7 @@ def _check_migrations(path: Path, backup: list[list[str]], database: list[list[s
     more = f" (the first of {len(differing)} differences)" if len(differing) > 1 else ""
     raise BackupError(
         f"{path} was written by another version of observatory_ops: {which}{more}. Restore it with the version "
-        "that wrote it, then upgrade with `python manage.py migrate`"
+        f"that wrote it{f' (commit {code})' if code else ''}, then upgrade with `python manage.py migrate`"
     )
 
 
@@ -388,7 +410,7 @@ def backup_restore(path: Path) -> dict[str, int]:
     if pending:
         raise BackupError(f"{database_in_use()} is not migrated ({pending} migrations not applied): run "
                           "`python manage.py migrate` first, then restore into it")
-    _check_migrations(path, header["migrations"], applied)
+    _check_migrations(path, header["migrations"], applied, header.get("code", ""))
     _value_problems(path, header, rows)
     busy = tables_holding_rows()
     if busy:
