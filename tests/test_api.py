@@ -603,6 +603,7 @@ def test_command_creates_a_token_that_works_lists_it_and_revokes_it(client, site
     secret = out.strip()
     token = ApiToken.objects.get(site=site)
     assert f"Token {token.pk} (east dome) for site test-hill. Copy it now: it is shown once." in err
+    assert "Stored in the SQLite file" in err or "Stored in the PostgreSQL database" in err  # which (an IT review)
     assert post(client, site.slug, night(), secret).status_code == 200
 
     listing, _ = run("list")

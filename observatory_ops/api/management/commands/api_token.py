@@ -47,8 +47,8 @@ class Command(BaseCommand):
             raise CommandError(str(exc)) from None
         what = "Calendar token" if calendar else "Token"
         self.stderr.write(
-            f"{what} {token.pk} ({token.name}) for site {token.site.slug}, in {database_in_use()}. Copy it now: it is "
-            "shown once."
+            f"{what} {token.pk} ({token.name}) for site {token.site.slug}. Copy it now: it is shown once. Stored in "
+            f"{database_in_use()}."
         )
         # The link holds the secret, so it is what is printed: a calendar application is given the link, not the token.
         self.stdout.write(calendar_link(token, secret, settings.SITE_URL) if calendar else secret)
