@@ -74,11 +74,23 @@ def test_the_api_answers_the_nights_to_check(client, sky):
     assert [line.split(",")[0] for line in answer.json()["check"]] == ["20 Jun 2024: 20 h open"]
 
 
-def test_the_log_pages_form_says_so_too(client, users, sky):
+def test_the_log_pages_form_asks_before_storing_and_says_so_once_stored(client, users, sky):
+    """A forecast review's 24 h on a 14.5 h night was stored and counted before it was questioned: the form asks first
+    (logbook.services.night_questions), and stores it only with "Store it as typed" ticked."""
+    import html
+    import re
+
     client.force_login(users["technician"])
-    response = client.post(reverse("night-log", args=[sky.slug]), {"night": "2024-06-20", "open_hours": "20"},
-                           follow=True)
+    sent = {"night": "2024-06-20", "open_hours": "20"}
+    asked = client.post(reverse("night-log", args=[sky.slug]), sent)
+    assert "Nothing was stored yet. Check 20 Jun 2024: 20 h open, but that night lasts " in html.unescape(
+        asked.content.decode())
+    assert not NightUsage.objects.filter(night=SOLSTICE).exists()
+    questioned = html.unescape(re.search(r'name="questioned" value="([^"]*)"', asked.content.decode()).group(1))
+    response = client.post(reverse("night-log", args=[sky.slug]),
+                           {**sent, "value_confirmed": "on", "questioned": questioned}, follow=True)
     assert "Check 1 night longer than the night" in response.content.decode()
+    assert NightUsage.objects.get(night=SOLSTICE).open_hours == 20
 
 
 def test_a_night_the_sky_cache_does_not_hold_is_not_checked(site, recomputes_recorded):

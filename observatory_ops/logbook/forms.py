@@ -403,7 +403,7 @@ class _NoneChosen(forms.RadioSelect):
         return [] if value is None else super().format_value(value)
 
 
-class NightForm(forms.Form):
+class NightForm(QuestionedValueMixin, forms.Form):
     """One night typed in: a text field per column of the nights format, checked by the same rules as the
     CSV import and the API (``nights_csv``), so this form keeps no rules of its own. A field left empty is
     left out: a night already stored keeps that figure, a new night takes the format's default (a telescope's: the
@@ -413,7 +413,9 @@ class NightForm(forms.Form):
 
     ``loaded_as`` (hidden) carries what was stored of the night the page showed (``services.night_stored_token``; ""
     when it showed none): figures stored since, or a night already stored typed into a blank form, are shown before
-    this form's figures go over them (``stored_unseen``)."""
+    this form's figures go over them (``stored_unseen``). What the import would name to check once stored is asked
+    before (``services.night_questions``), and kept with "Store it as typed" ticked on the page that asked about those
+    very figures (``QuestionedValueMixin``)."""
 
     def __init__(self, *args, telescopes=(), **kwargs):
         from .nights_csv import COLUMN_SPECS
@@ -444,6 +446,12 @@ class NightForm(forms.Form):
             self.fields[column.name] = field
         self.fields["loaded_as"] = forms.CharField(required=False, widget=forms.HiddenInput)
         self.fields["loaded_cells"] = forms.CharField(required=False, widget=forms.HiddenInput)  # what it showed
+        self.fields["value_confirmed"] = forms.BooleanField(
+            required=False, label="Store it as typed",
+            help_text="Asked only for open hours longer than the night, hours open while the telescope is out of "
+            "service, or a counter or the dust far above the log's usual.",
+        )
+        self.fields["questioned"] = forms.CharField(required=False, widget=forms.HiddenInput)
 
     def clean_telescope(self) -> str:
         if self.choose_whose and self.data.get(self.add_prefix("telescope")) is None:
@@ -475,7 +483,7 @@ class NightForm(forms.Form):
         """The night as the API would send it: only the fields filled in."""
         return {
             name: value for name, value in self.cleaned_data.items()
-            if value not in ("", None) and name not in ("loaded_as", "loaded_cells")
+            if value not in ("", None) and name not in ("loaded_as", "loaded_cells", "value_confirmed", "questioned")
         }
 
     def stored_unseen(self, changes: list[services.NightChange], stored_as: str) -> None:

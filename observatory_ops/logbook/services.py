@@ -424,6 +424,25 @@ def nights_ingest(
     return report
 
 
+def night_questions(site: Site, record: dict) -> list[str]:
+    """What the nightly log's form asks about ``record`` before storing it: what the import names to check once stored
+    (``ImportReport.to_check``: longer than the night, open while out of service, a figure far out of line), worked
+    out on the night as it would be stored (``_nights_compare``), nothing written. [] when nothing is named, or when the
+    record is refused (the form then says why). A forecast review typed 24 h open on a 14.5 h night and PM10
+    1,999 µg/m³: both were stored and counted before they were questioned."""
+    telescopes = _site_telescopes(site)
+    parsed = nights_csv.parse_objects([record], latest_night=latest_night(site), telescopes=tuple(telescopes))
+    if parsed.errors:
+        return []
+    rows = _resolved(parsed, telescopes)
+    with transaction.atomic():  # the stored night read as the store reads it
+        new, changed, _, _ = _nights_compare(site, rows, _stored_nights(site, {_key(v) for v in rows}),
+                                             NightUsage.Source.FORM, None)
+    report = ImportReport()
+    report.checked_on = (site, new + changed)
+    return report.to_check
+
+
 def _key(values: dict) -> NightKey:
     telescope = values["telescope"]
     return (telescope.pk if telescope else None, values["night"])

@@ -375,6 +375,13 @@ def night_log(request, slug):
     initial, stored = _night_asked(request, site, telescopes) if request.method != "POST" else ({}, None)
     form = NightForm(request.POST or None, initial=initial, telescopes=telescopes)
     if request.method == "POST" and form.is_valid():
+        record = form.record()
+        asked = json.dumps(record, sort_keys=True)  # the figures typed: a tick holds for these only
+        if not form.confirmed_for(asked) and (questions := services.night_questions(site, record)):
+            form.add_error(None, f"Nothing was stored yet. Check {'; '.join(questions)}. If it is right, tick "
+                                 "\"Store it as typed\" and save again; if not, correct it.")
+            form.ask_again(asked)
+    if request.method == "POST" and form.is_valid():
         stored_now = ""
 
         def approve(changes: list[services.NightChange]) -> bool:  # asked inside the write, the night locked
@@ -383,7 +390,7 @@ def night_log(request, slug):
             return stored_now == form.cleaned_data["loaded_as"]
 
         report = services.nights_ingest(
-            site, [form.record()], source=NightUsage.Source.FORM, by=request.user, reason="typed in on the log page",
+            site, [record], source=NightUsage.Source.FORM, by=request.user, reason="typed in on the log page",
             approve=approve,
         )
         for problem in report.errors:
