@@ -65,3 +65,17 @@ def test_a_dust_level_ten_times_its_usual_is_named_and_stored(site):
         "than 10 times its log's usual level (a unit or a digit, or a dust storm: if real, keep it, every "
         "dust-weighted plan counts it)"]
     assert NightUsage.objects.get(site=site, night=night).pm10_ugm3 == 1999  # stored as sent
+
+
+def test_a_telescopes_own_night_with_too_few_of_its_own_is_judged_by_the_whole_sites_log(site, telescope):
+    """A walk typed PM10 1,999 for T70's own night on a site that logs the whole site's nights: T70 had too few of its
+    own to judge by, and nothing was said. Its log is the whole site's nights where it has none of its own, so the
+    site's median (15, by hand) judges it."""
+    today = site_today(site)
+    NightUsage.objects.bulk_create(NightUsage(site=site, night=today - dt.timedelta(days=i), open_hours=8,
+                                              pm10_ugm3=15) for i in range(2, 62))
+    night = today - dt.timedelta(days=1)
+    [said] = nights_ingest(site, [{"night": night.isoformat(), "telescope": telescope.name, "open_hours": 8,
+                                   "pm10_ugm3": 1999}]).to_check
+    assert said.startswith(f"{telescope.name}, night of {night:%d %b %Y}, 8 h open: 1,999 µg/m³ of PM10 (against a "
+                           "median of 15.00)")

@@ -134,13 +134,13 @@ _COUNTERS = (("slews", "slews", True), ("brake_cycles", "brake cycles", True),
 
 def counters_out_of_line(site: Site, nights: list[NightUsage]) -> list[str]:
     """A sentence for each of ``nights`` with a counter per open hour, or its PM10, more than ``OUT_OF_LINE_FACTOR``
-    times the median of its log (the same telescope's own nights, or the whole site's) from a year before the first of
-    them to the last, over the nights at least an hour open (``OUT_OF_LINE_HISTORY`` of them at least; a file of years
-    of nights is measured against itself): stored as sent, and named (an API review sent 10,000 brake cycles and
-    1,000,000° of travel for one night, and six plans went overdue without a word; a forecast review typed 1,999 µg/m³
-    of PM10, 120 times the site's December median, and six dust-weighted plans went overdue the same way). A dust
-    storm is named too: its nights weigh heavily on every dust-weighted plan, worth a look. One query; one median a
-    log and figure."""
+    times the median of its log (the same telescope's own nights, or the whole site's, also where a telescope has too
+    few of its own) from a year before the first of them to the last, over the nights at least an hour open
+    (``OUT_OF_LINE_HISTORY`` of them at least; a file of years of nights is measured against itself): stored as sent,
+    and named (an API review sent 10,000 brake cycles and 1,000,000° of travel for one night, and six plans went overdue
+    without a word; a forecast review typed 1,999 µg/m³ of PM10, 120 times the site's December median, and six
+    dust-weighted plans went overdue the same way). A dust storm is named too: its nights weigh heavily on every
+    dust-weighted plan, worth a look. One query; one median a log and figure."""
     checked = [n for n in nights if n.open_hours and n.open_hours >= 1]
     if not checked:
         return []
@@ -161,8 +161,11 @@ def counters_out_of_line(site: Site, nights: list[NightUsage]) -> list[str]:
     said = []
     for night in sorted(checked, key=lambda n: (n.night, names.get(n.telescope_id, ""))):
         high, dust = [], ""
-        for (name, words, per_hour), median in zip(_COUNTERS, medians.get(night.telescope_id, [None] * len(fields)),
-                                                   strict=True):
+        # A telescope's own nights too few to judge by (a walk typed a telescope's own night on a site logging the
+        # whole site's): its log is the whole site's nights where it has none of its own, so the site's median.
+        own, site_wide = medians.get(night.telescope_id, [None] * len(fields)), medians.get(None, [None] * len(fields))
+        for (name, words, per_hour), median in zip(_COUNTERS, [m if m is not None else w for m, w in
+                                                               zip(own, site_wide, strict=True)], strict=True):
             value = getattr(night, name)
             if value is None or not median:
                 continue
