@@ -361,5 +361,9 @@ def test_a_recoat_entered_without_orders_counts_in_the_forecasts_as_on_the_dashb
     # The mirror page and the planner read it too: another recoat is refused while it stands, saying where it is.
     assert mirror_services.recoat_in_hand(mirror) == recoat
     assert "entered in the admin without work orders; delete it there" in mirror_services.recoat_in_hand_text(recoat)
+    client.force_login(users["engineer"])
+    planner = " ".join(client.get(f"/mirrors/{mirror.pk}/recoat/").content.decode().split())
+    assert "entered in the admin without work orders. Another is planned once its days are past, or after it is " \
+           "deleted there (Recoat plans)" in planner and ": ." not in planner  # a diff review read ": . ... withdrawn"
     assert services.recoats_in_hand(site, last) == [recoat] and services.recoats_in_hand(site, last + dt.timedelta(
         days=1)) == []

@@ -51,3 +51,22 @@ def test_a_night_in_line_is_stored_at_once(site, logged, users, client):
     answer = client.post(f"/sites/{site.slug}/nights/new/", {"night": logged.isoformat(), "open_hours": "8",
                                                                "pm10_ugm3": "40"})
     assert answer.status_code == 302 and NightUsage.objects.get(site=site, night=logged).pm10_ugm3 == 40
+
+
+def test_the_box_shows_only_when_asked_and_a_correction_is_not_asked_about_what_was_stored(site, logged, users,
+                                                                                            client):
+    """A diff review: "Store it as typed" stood on every blank form; and correcting the rain of a night whose PM10
+    1,999 had been confirmed asked about the PM10 again, a figure not typed this time."""
+    client.force_login(users["technician"])
+    url = f"/sites/{site.slug}/nights/new/"
+    assert 'type="checkbox" name="value_confirmed"' not in client.get(url).content.decode()
+    sent = {"night": logged.isoformat(), "open_hours": "8", "pm10_ugm3": "1999"}
+    page = client.post(url, sent)
+    assert 'type="checkbox" name="value_confirmed"' in page.content.decode()
+    assert client.post(url, {**sent, "value_confirmed": "on", "questioned": _asked(page)}).status_code == 302
+    loaded = client.get(url, {"night": logged.isoformat()})
+    fields = {name: html.unescape(value) for name, value in re.findall(
+        r'<input type="hidden" name="(loaded_as|loaded_cells)" value="([^"]*)"', loaded.content.decode())}
+    answer = client.post(url, {**sent, **fields, "rain": "yes"})
+    assert answer.status_code == 302, answer.content.decode()[:2000]
+    assert NightUsage.objects.get(site=site, night=logged).rain is True

@@ -446,12 +446,20 @@ class NightForm(QuestionedValueMixin, forms.Form):
             self.fields[column.name] = field
         self.fields["loaded_as"] = forms.CharField(required=False, widget=forms.HiddenInput)
         self.fields["loaded_cells"] = forms.CharField(required=False, widget=forms.HiddenInput)  # what it showed
-        self.fields["value_confirmed"] = forms.BooleanField(
-            required=False, label="Store it as typed",
-            help_text="Asked only for open hours longer than the night, hours open while the telescope is out of "
-            "service, or a counter or the dust far above the log's usual.",
-        )
+        # Shown only on the page that asks (``ask``): a box on every blank form read as one more thing to fill in.
+        self.fields["value_confirmed"] = forms.BooleanField(required=False, label="Store it as typed",
+                                                            widget=forms.HiddenInput)
         self.fields["questioned"] = forms.CharField(required=False, widget=forms.HiddenInput)
+
+    def ask(self, questions: list[str], asked: str) -> None:
+        """Ask about ``questions`` (``services.night_questions``) before anything is stored: said at the top and beside
+        the box "Store it as typed", which keeps the night only for the figures asked about (``asked``)."""
+        said = (f"Check {'; '.join(questions)}. If it is right, tick \"Store it as typed\" and save again; if not, "
+                "correct it.")
+        self.add_error(None, f"Nothing was stored yet. {said}")
+        field = self.fields["value_confirmed"]
+        field.widget, field.help_text = forms.CheckboxInput(), said
+        self.ask_again(asked)
 
     def clean_telescope(self) -> str:
         if self.choose_whose and self.data.get(self.add_prefix("telescope")) is None:
@@ -498,6 +506,7 @@ class NightForm(QuestionedValueMixin, forms.Form):
         except ValueError:
             loaded = {}
         self.data = self.data.copy()
+        self.data.pop(self.add_prefix("value_confirmed"), None)  # a tick holds for the night as it was asked about
         kept, yours = [], []
         for c in changes:
             label, typed = self.fields[c.column].label, str(self.data.get(self.add_prefix(c.column), "")).strip()

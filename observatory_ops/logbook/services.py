@@ -4,6 +4,7 @@ Each write ends by recomputing the due states of the site it touched, so pages s
 """
 from __future__ import annotations
 
+import copy
 import datetime as dt
 import hashlib
 import json
@@ -427,8 +428,9 @@ def nights_ingest(
 def night_questions(site: Site, record: dict) -> list[str]:
     """What the nightly log's form asks about ``record`` before storing it: what the import names to check once stored
     (``ImportReport.to_check``: longer than the night, open while out of service, a figure far out of line), worked
-    out on the night as it would be stored (``_nights_compare``), nothing written. [] when nothing is named, or when the
-    record is refused (the form then says why). A forecast review typed 24 h open on a 14.5 h night and PM10
+    out on the night as it would be stored (``_nights_compare``), nothing written, less what the night as stored
+    already said (asked, or stored by the API, before). [] when nothing is named, or when the record is refused (the
+    form then says why). A forecast review typed 24 h open on a 14.5 h night and PM10
     1,999 µg/m³: both were stored and counted before they were questioned."""
     telescopes = _site_telescopes(site)
     parsed = nights_csv.parse_objects([record], latest_night=latest_night(site), telescopes=tuple(telescopes))
@@ -436,11 +438,15 @@ def night_questions(site: Site, record: dict) -> list[str]:
         return []
     rows = _resolved(parsed, telescopes)
     with transaction.atomic():  # the stored night read as the store reads it
-        new, changed, _, _ = _nights_compare(site, rows, _stored_nights(site, {_key(v) for v in rows}),
-                                             NightUsage.Source.FORM, None)
-    report = ImportReport()
-    report.checked_on = (site, new + changed)
-    return report.to_check
+        stored = _stored_nights(site, {_key(v) for v in rows})
+        as_stored = [copy.copy(night) for night in stored.values()]  # the comparison sets the form's figures on them
+        new, changed, _, _ = _nights_compare(site, rows, stored, NightUsage.Source.FORM, None)
+    after, before = ImportReport(), ImportReport()
+    after.checked_on, before.checked_on = (site, new + changed), (site, as_stored)
+    # What the stored night already said is not asked again: a diff review corrected the rain of a night whose PM10
+    # had been confirmed, and was asked about the PM10 it had not typed.
+    said = set(before.to_check) if as_stored else set()
+    return [question for question in after.to_check if question not in said]
 
 
 def _key(values: dict) -> NightKey:

@@ -378,9 +378,7 @@ def night_log(request, slug):
         record = form.record()
         asked = json.dumps(record, sort_keys=True)  # the figures typed: a tick holds for these only
         if not form.confirmed_for(asked) and (questions := services.night_questions(site, record)):
-            form.add_error(None, f"Nothing was stored yet. Check {'; '.join(questions)}. If it is right, tick "
-                                 "\"Store it as typed\" and save again; if not, correct it.")
-            form.ask_again(asked)
+            form.ask(questions, asked)
     if request.method == "POST" and form.is_valid():
         stored_now = ""
 
