@@ -459,6 +459,7 @@ class NightForm(QuestionedValueMixin, forms.Form):
         self.add_error(None, f"Nothing was stored yet. {said}")
         field = self.fields["value_confirmed"]
         field.widget, field.help_text = forms.CheckboxInput(), said
+        self._bound_fields_cache.pop("value_confirmed", None)  # its bound field, read while cleaning, kept the old help
         self.ask_again(asked)
 
     def clean_telescope(self) -> str:
