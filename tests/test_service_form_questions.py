@@ -89,3 +89,39 @@ def test_a_service_dated_before_the_unit_entered_service_is_asked_about(fans, us
     ServiceRecord.objects.all().delete()
     assert client.post(url, {**sent, "value_confirmed": "on", "questioned": _asked(page)}).status_code == 302
     assert ServiceRecord.objects.get().performed_on == early
+
+
+def test_a_correction_moving_a_service_before_the_unit_entered_service_is_asked_about(fans, users, client):
+    """The correction form asks as the service form does (logbook.forms.CorrectionForm.clean); a date left as it was is
+    not asked about again. A forecast review's left-alone list: a correction could move the date there unasked."""
+    today = site_today(fans.telescope.site)
+    client.force_login(users["technician"])
+    assert client.post(f"/subsystems/{fans.pk}/service/new/", _form(fans)).status_code == 302
+    original = ServiceRecord.objects.get()
+    fans.in_service_since = today - dt.timedelta(days=2)
+    fans.save()
+    early = today - dt.timedelta(days=180)
+    url = f"/service/{original.pk}/correct/"
+    sent = {"performed_on": early.isoformat(), "hours_spent": "1", "summary": "Fans cleaned", "findings": "",
+            "reason": "typed the wrong day"}
+    page = client.post(url, sent)
+    assert page.status_code == 200
+    assert (f"{early:%d %b %Y} is before Mirror cell fans entered service here ({fans.in_service_since:%d %b %Y})"
+            ) in page.content.decode()
+    assert ServiceRecord.objects.count() == 1
+    assert client.post(url, {**sent, "value_confirmed": "on", "questioned": _asked(page)}).status_code == 302
+    assert ServiceRecord.objects.filter(corrects=original).get().performed_on == early
+
+
+def test_a_correction_keeping_its_date_is_not_asked_about(fans, users, client):
+    client.force_login(users["technician"])
+    early = site_today(fans.telescope.site) - dt.timedelta(days=30)
+    sent = _form(fans, performed_on=early.isoformat())
+    assert client.post(f"/subsystems/{fans.pk}/service/new/", sent).status_code == 302
+    original = ServiceRecord.objects.get()
+    fans.in_service_since = early + dt.timedelta(days=5)  # entered in the register later, after the service
+    fans.save()
+    page = client.post(f"/service/{original.pk}/correct/", {
+        "performed_on": early.isoformat(), "hours_spent": "2", "summary": "Fans cleaned", "findings": "",
+        "reason": "two hours, not one"})
+    assert page.status_code == 302

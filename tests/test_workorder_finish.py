@@ -167,6 +167,31 @@ def test_a_future_day_or_one_before_the_order_was_issued_is_refused_naming_the_f
     _nothing_stored(order)
 
 
+def test_a_day_of_work_before_a_subsystem_entered_service_is_questioned_once_then_recorded(
+    order, users, client,  # noqa: F811
+):
+    """As the service form asks (logbook.forms.ServiceRecordForm): the plans would count the nights of what the unit
+    replaced. Its "in service since" was moved past the order's issue (a unit swapped while the paper was out)."""
+    _started(order, users, issued_days_ago=5)
+    today = site_today(order.site)
+    day = today - dt.timedelta(days=4)
+    unit = order.items.first().subsystem
+    Subsystem.objects.filter(pk=unit.pk).update(in_service_since=today - dt.timedelta(days=1))
+    client.force_login(users["technician"])
+    data = _post(order, work_done_on=day.isoformat())
+    first = client.post(f"/workorders/{order.pk}/finish/", data)
+    shown = _text(first)
+    assert first.status_code == 200
+    assert (f"{day:%d %b %Y} is before {unit.name} ({today - dt.timedelta(days=1):%d %b %Y}) entered service here: "
+            "its plans would count this telescope's nights") in shown and "Not recorded yet" in shown
+    _nothing_stored(order)
+    data["flagged"] = re.findall(r'name="flagged" value="([^"]+)"', html.unescape(first.content.decode()))
+    data["readings_confirmed"] = "on"
+    again = client.post(f"/workorders/{order.pk}/finish/", data)
+    assert again.status_code == 302, _text(again)[-1500:]
+    assert ServiceRecord.objects.get(work_order=order).performed_on == day
+
+
 # --- 3. whether a mirror was cleaned ------------------------------------------------------------------------
 
 

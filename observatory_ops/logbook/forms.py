@@ -167,7 +167,7 @@ class ServiceRecordForm(QuestionedValueMixin, forms.Form):
         return performed_on
 
 
-class CorrectionForm(forms.Form):
+class CorrectionForm(QuestionedValueMixin, forms.Form):
     performed_on = forms.DateField(widget=forms.DateInput(attrs={"type": "date"}))
     hours_spent = forms.FloatField(
         min_value=0, max_value=1000, required=False, help_text="Empty: as the original record gives them.",
@@ -180,6 +180,11 @@ class CorrectionForm(forms.Form):
         help_text="What was wrong with the original, e.g. hours typed for the wrong day; kept with your name and the "
                   "time, beside both records.",
     )
+    value_confirmed = forms.BooleanField(
+        required=False, label="Save it as entered",
+        help_text="Asked only for a date before the subsystem entered service, as the service form asks.",
+    )
+    questioned = forms.CharField(required=False, widget=forms.HiddenInput)
 
     def __init__(self, *args, original=None, **kwargs):
         """``original``: the record corrected, whose new date is held to a new record's bounds, said beside the field
@@ -196,6 +201,25 @@ class CorrectionForm(forms.Form):
             if retired := retired_work_problem(self.original.subsystem, performed_on, "Service work"):
                 raise forms.ValidationError(retired)
         return performed_on
+
+    def clean(self):
+        """A record of a plan moved to a date before its subsystem entered service is asked about, as the service form
+        asks (``ServiceRecordForm.clean``): the plan would count the nights of what the subsystem replaced. A date
+        left as it was is not asked about again."""
+        data = super().clean()
+        day, original = data.get("performed_on"), self.original
+        if original is None or original.plan_id is None or day is None or day == original.performed_on:
+            return data
+        since = original.subsystem.in_service_since
+        asked = f"{original.pk}|{day}"
+        if since is None or day >= since or self.confirmed_for(asked):
+            return data
+        self.add_error("performed_on", (
+            f"{day:%d %b %Y} is before {original.subsystem.name} entered service here ({since:%d %b %Y}): the plan "
+            f"would count this telescope's nights from {day:%d %b %Y}, nights of what it replaced. If it is right "
+            f"(a unit fitted used, its last service before it came), tick \"Save it as entered\" and save again."))
+        self.ask_again(asked)
+        return data
 
 
 #: A reading more than this many times the limit its plan watches it rise to is asked about before it is logged: a

@@ -685,6 +685,22 @@ class FinishForm(forms.Form):
         return {"actual_hours": (f"{hours:g} h is {hours / estimate:,.0f} times the estimate of {estimate:g} h: were "
                                  f"minutes typed for hours? {NOT_RECORDED_YET}")}
 
+    def before_in_service(self) -> dict[str, str]:
+        """The day of work beside its field when it comes before a subsystem of the order entered service (its "in
+        service since" moved past the order's issue), as the service form asks (``logbook.forms.ServiceRecordForm``):
+        its plans would count the nights of what it replaced. Valid forms only; shown once, as a questioned reading
+        is."""
+        day = self.cleaned_data["work_done_on"]
+        later = sorted({i.subsystem for i in self._items if i.subsystem.in_service_since and day < i.subsystem
+                        .in_service_since}, key=lambda s: (s.in_service_since, s.name))
+        if not later:
+            return {}
+        named = in_words([f"{s.name} ({s.in_service_since:%d %b %Y})" for s in later])
+        return {"work_done_on": (f"{day:%d %b %Y} is before {named} entered service here: "
+                                 f"{'its' if len(later) == 1 else 'their'} plans would count this telescope's nights "
+                                 f"from {day:%d %b %Y}, nights of what {'it' if len(later) == 1 else 'they'} "
+                                 f"replaced. {NOT_RECORDED_YET}")}
+
     def above_fresh(self) -> dict[str, str]:
         """Field name -> the question beside it, for each mirror's band reflectance entered well above the fresh value
         of its coating on the day the work was done, or far below what a coated mirror reflects

@@ -479,9 +479,11 @@ def work_order_finish(request, pk):
     flagged: list[str] = []
     if request.method == "POST" and form.is_valid():
         flags = form.beyond_limits()
-        # Hours far above the estimate, reflectances above fresh and readings of 0 against a limit are questioned as
-        # readings beyond their limit are; only the last are flagged on the record.
-        asked = {**form.hours_questioned(), **form.above_fresh(), **form.zero_readings(), **flags}
+        # Hours far above the estimate, a day of work before a subsystem entered service, reflectances above fresh
+        # and readings of 0 against a limit are questioned as readings beyond their limit are; only the last are
+        # flagged on the record.
+        asked = {**form.hours_questioned(), **form.before_in_service(), **form.above_fresh(), **form.zero_readings(),
+                 **flags}
         flagged = sorted(f"{name}={form.cleaned_data[name]!r}" for name in asked)
         confirmed = form.cleaned_data.get("confirm_unticked", False)
         isolation_answer = form.cleaned_data.get("isolation_answer", "")

@@ -62,3 +62,17 @@ def test_enter_in_the_result_box_ticks_the_step(browser_page, live_server, login
     page.wait_for_timeout(1500)  # the line takes no tap for a moment after its tick is recorded (ticks.js SETTLE_MS)
     page.locator("#step-2 input[type=checkbox]").uncheck()  # taken back: no result sent with it
     expect(page.locator("#step-2 .tick-note")).to_contain_text("tick taken back")
+
+
+@pytest.mark.browser
+def test_enter_in_the_empty_result_box_says_what_it_waits_for(browser_page, live_server, login, realignment):
+    """Enter with nothing typed said nothing (ticks.js); now the line's note says what to do, and nothing is sent."""
+    from observatory_ops.workorders.models import ChecklistTick
+
+    page = browser_page
+    login(page, live_server, "technician", "pw-technician-123456")
+    page.goto(live_server.url + realignment.get_absolute_url())
+    page.get_by_label("Result, before ticking").press("Enter")
+    expect(page.locator("#step-2 .tick-note")).to_have_text("Type the result first, then press Enter or tick the line.")
+    expect(page.locator("#step-2 input[type=checkbox]")).not_to_be_checked()
+    assert not ChecklistTick.objects.filter(work_order=realignment).exists()

@@ -26,6 +26,14 @@ document.querySelectorAll("form.tick").forEach(function (form) {
       // Enter there did nothing and said nothing).
       box.checked = !box.checked;
       box.dispatchEvent(new Event("change"));
+    } else if (!busy && ((result && !box.checked && document.activeElement === result) ||
+                         (why && document.activeElement === why))) {
+      // Enter in an empty box: what it waits for is said, not nothing (a review's left-alone list).
+      note.classList.add("refused");
+      note.textContent = document.activeElement === why
+        ? "Write why you change this line in the lock holder's place first, then press Enter."
+        : "Type the result first, then press Enter or tick the line.";
+      sayRefused(note.textContent);
     }
   });
   // A tap on the box or on its words reaches the label; cancelled, the box stays as it is and sends nothing.
