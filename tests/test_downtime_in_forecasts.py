@@ -367,3 +367,13 @@ def test_a_recoat_entered_without_orders_counts_in_the_forecasts_as_on_the_dashb
            "deleted there (Recoat plans)" in planner and ": ." not in planner  # a diff review read ": . ... withdrawn"
     assert services.recoats_in_hand(site, last) == [recoat] and services.recoats_in_hand(site, last + dt.timedelta(
         days=1)) == []
+    # The calendar feed: tentative, as a draft's days are, and its description says the forecasts count it.
+    from icalendar import Calendar
+
+    from observatory_ops.mirrors.calendar_export import site_calendar
+
+    event = next(e for e in Calendar.from_ical(site_calendar(site, "http://testserver")).walk("VEVENT")
+                 if str(e["uid"]).startswith(f"recoat-{recoat.pk}@"))
+    assert str(event["status"]) == "TENTATIVE" and event["dtstart"].dt == first
+    assert str(event["description"]).startswith("Entered in the admin without work orders: the forecasts count the "
+                                                "telescope out on these days.")

@@ -40,7 +40,8 @@ def uid_host() -> str:
 
 def _window_status(plan: RecoatPlan) -> str:
     """A recoat window is cancelled when all its orders are withdrawn or its mirror is retired (not recoated:
-    ``planning.services.recoats_in_hand``), tentative while the orders left are drafts."""
+    ``planning.services.recoats_in_hand``), tentative while the orders left are drafts or it has none (entered in the
+    admin, said so in its description)."""
     states = {order.state for order in plan.work_orders.all()} - {State.WITHDRAWN}
     if (not states and plan.work_orders.all()) or plan.mirror.subsystem.retired_on is not None:
         return "CANCELLED"
@@ -108,6 +109,10 @@ def site_calendar(site: Site, base_url: str) -> bytes:
             continue
         if subsystem.retired_on is not None:
             described = f"Not done: {subsystem.name} was retired on {subsystem.retired_on:%d %b %Y}. {described}"
+        elif not orders_of:  # tentative, as a draft's days are, yet the forecasts take the telescope out on them
+            described = ("Entered in the admin without work orders: the forecasts count the telescope out on these "
+                         "days. For work orders, delete it there (Recoat plans) and plan the recoat on the mirror's "
+                         f"page. {described}")
         all_day(f"recoat-{plan.pk}", out.first, out.last,
                 f"Recoat window: {subsystem.telescope.name} {subsystem.name}", described, _window_status(plan))
     # Closures: nights not observed (a season shut, an overhaul), whose days are free for work that takes a telescope
