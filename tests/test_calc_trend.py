@@ -136,3 +136,54 @@ def test_a_band_end_whose_slope_points_away_from_the_limit_has_no_day():
     assert (fit.slope_low, fit.slope_high) == pytest.approx((-0.003, 0.004), rel=1e-9)
     assert fit.latest_day is None
     assert fit.earliest_day == pytest.approx(143.75, rel=1e-9)
+
+
+# --- the newest reading far off the line (calc.trend.newest_off_the_line) -------------------------------------
+# Reference: the Hampel identifier, |x - median| > 3 x MAD scaled to a normal standard deviation (Leys et al. 2013,
+# J. Exp. Soc. Psychol. 49:764; the constant 1 / Phi^-1(3/4) from the standard library's NormalDist here), the MAD
+# itself from scipy.stats.median_abs_deviation(scale="normal"), independent of the function's own arithmetic.
+
+
+def test_the_normal_consistency_constant_is_one_over_the_upper_quartile_of_the_normal():
+    from observatory_ops.calc.trend import MAD_NORMAL
+
+    assert MAD_NORMAL == pytest.approx(1 / statistics.NormalDist().inv_cdf(0.75), rel=1e-12)
+
+
+def test_a_settle_time_adjusted_without_a_service_is_named_off_the_line():
+    """Settle time creeping up 0.05 s a week with a little scatter, then an adjustment: 0.45 s, far under the line."""
+    from scipy.stats import median_abs_deviation
+
+    from observatory_ops.calc.trend import STEP_SPREADS, newest_off_the_line
+
+    days = [0, 7, 14, 21, 28, 35, 42, 49]
+    values = [0.50, 0.56, 0.59, 0.66, 0.70, 0.74, 0.81, 0.45]
+    fit = trend_to_limit(days, values, 1.0, rising=True)
+    residuals = np.asarray(values) - (fit.intercept + fit.slope_per_day * np.asarray(days))
+    spread = median_abs_deviation(residuals[:-1], scale="normal")
+    expected = (np.median(residuals[:-1]) - residuals[-1]) / spread
+    assert expected > STEP_SPREADS
+    assert newest_off_the_line(days, values, fit, rising=True) == pytest.approx(expected, rel=1e-9)
+    # The same reading on the far side (toward the limit) is not a step down: the limit's own warning covers it.
+    assert newest_off_the_line(days, [*values[:-1], 1.2], trend_to_limit(days, [*values[:-1], 1.2], 1.0), True) is None
+
+
+def test_a_reading_within_the_scatter_or_too_few_readings_is_not_named():
+    from observatory_ops.calc.trend import newest_off_the_line
+
+    days = [0, 7, 14, 21, 28, 35, 42, 49]
+    values = [0.50, 0.56, 0.59, 0.66, 0.70, 0.74, 0.81, 0.83]
+    assert newest_off_the_line(days, values, trend_to_limit(days, values, 1.0), rising=True) is None
+    few = trend_to_limit([0, 7, 14], [0.5, 0.6, 0.3], 1.0)
+    assert newest_off_the_line([0, 7, 14], [0.5, 0.6, 0.3], few, rising=True) is None
+
+
+def test_a_falling_quantity_is_off_the_line_above_it():
+    """Brake air pressure falling toward its lower limit, then restored: the step is upward, away from the limit."""
+    from observatory_ops.calc.trend import newest_off_the_line
+
+    days = [0, 10, 20, 30, 40, 50]
+    values = [6.0, 5.9, 5.85, 5.7, 5.62, 6.4]
+    fit = trend_to_limit(days, values, 5.0, rising=False)
+    assert newest_off_the_line(days, values, fit, rising=False) is not None
+    assert newest_off_the_line(days, values, fit, rising=True) is None  # for a rising quantity that is toward it

@@ -85,3 +85,37 @@ def trend_to_limit(days: ArrayLike, values: ArrayLike, limit: float, rising: boo
         earliest_day=crossing(fast),
         latest_day=crossing(slow),
     )
+
+
+#: How far the newest reading may lie from the trend, on the side away from the limit, before the page asks whether
+#: the unit was adjusted without a service logged: 3 robust standard deviations of the other readings' residuals (the
+#: Hampel identifier, |x - median| > 3 x 1.4826 x MAD; Leys et al. 2013, J. Exp. Soc. Psychol. 49:764, recommend 3).
+STEP_SPREADS = 3.0
+#: The MAD's consistency constant for a normal distribution (1 / Phi^-1(3/4)), as scipy.stats.median_abs_deviation
+#: with scale="normal" uses.
+MAD_NORMAL = 1.482602218505602
+
+
+def newest_off_the_line(days: ArrayLike, values: ArrayLike, fit: Trend, rising: bool = True) -> float | None:
+    """How many robust spreads the newest reading lies from ``fit``, away from the limit, when more than
+    ``STEP_SPREADS``; None otherwise (or with fewer than ``MIN_READINGS`` others to measure the spread by).
+
+    The residuals (reading minus the line) of all readings but the newest give the centre (their median) and the
+    spread (``MAD_NORMAL`` times their median absolute deviation). A newest reading far on the good side of the line is
+    most often a unit adjusted, cleaned or repaired with no service logged: the trend still mixes readings from before
+    and after, and forecasts the limit from the old ones. A spread of 0 (the others exactly on a line) counts any
+    departure as far."""
+    days = np.asarray(days, dtype=float)
+    values = np.asarray(values, dtype=float)
+    if len(days) < MIN_READINGS + 1:
+        return None
+    residuals = values - (fit.intercept + fit.slope_per_day * days)
+    others = residuals[:-1]
+    centre = float(np.median(others))
+    spread = MAD_NORMAL * float(np.median(np.abs(others - centre)))
+    away = (centre - residuals[-1]) if rising else (residuals[-1] - centre)
+    if away <= 0:
+        return None
+    if spread == 0:
+        return float("inf")
+    return away / spread if away > STEP_SPREADS * spread else None
