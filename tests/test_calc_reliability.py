@@ -11,7 +11,7 @@ from scipy import stats
 from observatory_ops.calc.reliability import (
     INFANT_MORTALITY,
     NOT_TOLD_FROM_RANDOM,
-    RANDOM,
+    UNDECIDED,
     WEAR_OUT,
     beta_reading,
     mtbf,
@@ -138,7 +138,7 @@ def test_the_reading_of_beta_follows_the_standard_interpretation():
     # NIST/SEMATECH e-Handbook, chapter 8 (bathtub curve): < 1 early failures, 1 random, > 1 wear-out.
     assert beta_reading(0.6) == INFANT_MORTALITY
     assert beta_reading(2.4) == WEAR_OUT
-    assert beta_reading(1.3, differs_from_random=False) == f"{NOT_TOLD_FROM_RANDOM}: {RANDOM}"
+    assert beta_reading(1.3, differs_from_random=False) == f"{NOT_TOLD_FROM_RANDOM}: {UNDECIDED}"
 
 
 def test_a_units_record_becomes_times_between_failures_and_a_running_interval():
@@ -168,3 +168,45 @@ def test_the_fits_mean_is_the_weibull_mean_scipy_gives():
     fit = weibull_fit([310.0, 540.0, 720.0, 905.0, 1220.0], [400.0])
     expected = stats.weibull_min(fit.beta, scale=fit.eta_hours).mean()
     assert fit.mean_hours == pytest.approx(expected, rel=1e-12)
+
+
+def _profile_by_scipy(beta: float, failures, censored) -> float:
+    """The censored Weibull log-likelihood at shape ``beta``, maximised over the scale by scipy's scalar optimiser on
+    scipy.stats.weibull_min's logpdf and logsf: independent of calc.reliability's closed form for the scale."""
+    from scipy import optimize
+
+    def minus(log_eta: float) -> float:
+        eta = np.exp(log_eta)
+        return -(stats.weibull_min.logpdf(failures, beta, scale=eta).sum()
+                 + stats.weibull_min.logsf(censored, beta, scale=eta).sum())
+
+    best = optimize.minimize_scalar(minus, bounds=(np.log(10.0), np.log(1e6)), method="bounded",
+                                    options={"xatol": 1e-10})
+    return -best.fun
+
+
+@pytest.mark.parametrize("failures, censored", [
+    (FAILURES, CENSORED),
+    ([380.0, 2100.0, 5200.0], [900.0]),  # three failures, widely spread: an interval that holds 1
+])
+def test_the_shapes_interval_is_where_the_profile_likelihood_ratio_reaches_the_tests_critical_value(failures,
+                                                                                                      censored):
+    """Profile-likelihood interval (Meeker and Escobar 1998, section 8.3, from memory): at each end, 2 (l_max -
+    l_p(beta)) equals chi2(0.90; 1) = 2.7055 (NIST/SEMATECH e-Handbook 1.3.6.7.4 table, 1 degree of freedom), the
+    profile computed by scipy; 1 lies outside it exactly when the test rejects a constant rate."""
+    fit = weibull_fit(failures, censored)
+    top = _profile_by_scipy(fit.beta, failures, censored)
+    assert top == pytest.approx(fit.log_likelihood, rel=1e-7)
+    for end in (fit.beta_low, fit.beta_high):
+        assert end is not None
+        assert 2 * (top - _profile_by_scipy(end, failures, censored)) == pytest.approx(2.7055, abs=2e-3)
+    assert fit.beta_low < fit.beta < fit.beta_high
+    assert (fit.beta_low <= 1 <= fit.beta_high) is (not fit.differs_from_random)
+
+
+def test_three_widely_spread_failures_say_no_schedule_follows_from_them():
+    """A reliability review: 3 failures, β 0.75, were read as "replacing on a schedule does not help"."""
+    fit = weibull_fit([380.0, 2100.0, 5200.0], [900.0])
+    assert not fit.differs_from_random and fit.beta_low < 1 < fit.beta_high
+    assert fit.reading == f"{NOT_TOLD_FROM_RANDOM}: {UNDECIDED}"
+    assert "does not help" not in fit.reading

@@ -24,8 +24,14 @@ INFANT_MORTALITY = (
 )
 RANDOM = "no sign of wear-out: replacing on a schedule does not help; keep spares and inspect"
 WEAR_OUT = "wear-out: service or replacement well before η (by which about 63 % have failed) helps"
-#: Said before ``RANDOM`` when the likelihood-ratio test cannot tell the fitted shape from 1.
+#: Said when the likelihood-ratio test cannot tell the fitted shape from 1: with few failures, neither wear-out nor a
+#: constant rate is shown (a reliability review was told "replacing on a schedule does not help" from 3 failures whose
+#: shape interval ran from 0.29 to 1.5).
 NOT_TOLD_FROM_RANDOM = "cannot be told from a constant failure rate with these failures"
+UNDECIDED = ("they neither show wear-out nor rule it out, so no change of schedule follows from them; keep spares, "
+             "inspect, and read it again with more failures")
+#: The shapes the interval is searched over; an end beyond them is left open.
+BETA_SEARCHED = (1e-3, 1e3)
 
 
 @dataclass(frozen=True)
@@ -88,10 +94,21 @@ class WeibullFit:
     log_likelihood: float
     #: Whether the likelihood-ratio test against beta = 1 (exponential) rejects beta = 1.
     differs_from_random: bool
+    #: The shape's profile-likelihood interval at the fit's confidence: the shapes the same likelihood-ratio test does
+    #: not reject (1 lies outside it exactly when ``differs_from_random``). None at an end the data leave open.
+    beta_low: float | None = None
+    beta_high: float | None = None
 
     @property
     def reading(self) -> str:
         return beta_reading(self.beta, self.differs_from_random)
+
+    @property
+    def beta_interval_text(self) -> str:
+        """E.g. "0.29 to 1.5"; an end the data leave open is said so."""
+        low = f"{self.beta_low:.2g}" if self.beta_low is not None else f"below {BETA_SEARCHED[0]:g}"
+        high = f"{self.beta_high:.2g}" if self.beta_high is not None else f"above {BETA_SEARCHED[1]:g}"
+        return f"{low} to {high}"
 
     @property
     def mean_hours(self) -> float:
@@ -245,6 +262,17 @@ def weibull_fit(
             "scale is no usable number of hours"
         )
     at_random, _ = _profile(1.0, times, log_ratios, failed)
+    # The profile-likelihood interval: the shapes b with 2 (l(beta) - l_p(b)) at most the test's critical value
+    # (Meeker and Escobar 1998, Statistical Methods for Reliability Data, section 8.3; from memory).
+    critical = stats.chi2.ppf(confidence, 1)
+
+    def excess(b: float) -> float:
+        return 2 * (log_likelihood - _profile(b, times, log_ratios, failed)[0]) - critical
+
+    searched_low, searched_high = BETA_SEARCHED
+    with np.errstate(over="ignore"):  # the scale at a shape near 0 overflows; the likelihood does not use it
+        beta_low = optimize.brentq(excess, searched_low, beta, xtol=1e-10) if excess(searched_low) > 0 else None
+        beta_high = optimize.brentq(excess, beta, searched_high, xtol=1e-10) if excess(searched_high) > 0 else None
     # The scaling of times shifts every log-likelihood by the same r * ln(scale) (the S(e) terms do not move); undo
     # it for the caller.
     shift = len(failures) * np.log(scale)
@@ -254,7 +282,9 @@ def weibull_fit(
         failures=len(failures),
         censored=len(censored),
         log_likelihood=float(log_likelihood - shift),
-        differs_from_random=bool(2 * (log_likelihood - at_random) > stats.chi2.ppf(confidence, 1)),
+        differs_from_random=bool(2 * (log_likelihood - at_random) > critical),
+        beta_low=None if beta_low is None else float(beta_low),
+        beta_high=None if beta_high is None else float(beta_high),
     )
 
 
@@ -264,10 +294,10 @@ def beta_reading(beta: float, differs_from_random: bool = True) -> str:
     The standard interpretation (NIST/SEMATECH e-Handbook, chapter 8, the Weibull distribution and the
     "bathtub" curve): beta < 1 a failure rate falling with age (early failures), beta = 1 a constant rate
     (random failures), beta > 1 a rate rising with age (wear-out). A shape that the likelihood-ratio test
-    cannot tell from 1 is read as random.
+    cannot tell from 1 is read as neither: ``UNDECIDED``.
     """
     if not differs_from_random:
-        return f"{NOT_TOLD_FROM_RANDOM}: {RANDOM}"
+        return f"{NOT_TOLD_FROM_RANDOM}: {UNDECIDED}"
     return INFANT_MORTALITY if beta < 1 else WEAR_OUT
 
 

@@ -42,7 +42,7 @@ def site_reliability(request, slug):
             "one_sided_pct": round((1 + reliability.CONFIDENCE) / 2 * 100),
             "hours_columns": selectors.HOURS_COLUMN_LABELS,
             "min_failures": reliability.MIN_FAILURES_FOR_FIT,
-            "readings": (reliability.INFANT_MORTALITY, reliability.RANDOM, reliability.WEAR_OUT),
+            "readings": (reliability.INFANT_MORTALITY, reliability.RANDOM, reliability.WEAR_OUT, reliability.UNDECIDED),
             "presets": period_presets(today, first_night),
             "years": years,
             "year_rows": year_rows,
