@@ -15,6 +15,11 @@ from django.utils.http import url_has_allowed_host_and_scheme
 
 FORMULA_START = ("=", "+", "-", "@", "\t", "\r")
 
+#: The first character of every CSV this tool writes: a spreadsheet program on Windows reads a file without it in
+#: the computer's legacy code page, so "Fan, east — Ø120 mm" came out garbled (a handover review). The importers
+#: read a file with or without it (they decode "utf-8-sig").
+BYTE_ORDER_MARK = "\ufeff"
+
 
 def safe_cell(value) -> str:
     text = "" if value is None else str(value)
@@ -26,6 +31,7 @@ def safe_cell(value) -> str:
 def csv_response(filename: str, header: Sequence[str], rows: Iterable[Sequence]) -> HttpResponse:
     response = HttpResponse(content_type="text/csv; charset=utf-8")
     response["Content-Disposition"] = f'attachment; filename="{filename}"'
+    response.write(BYTE_ORDER_MARK)
     writer = csv.writer(response)
     writer.writerow(header)
     for row in rows:

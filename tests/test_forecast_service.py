@@ -428,7 +428,7 @@ def test_the_due_lists_csv_download_names_things_as_the_page_does(synthetic, use
     _plan(subsystem, "hours", [("open_hours", 3000)], start)
     services.site_recompute(site)
     client.force_login(users["viewer"])
-    rows = list(csv.reader(io.StringIO(client.get("/due/?export=csv").content.decode())))
+    rows = list(csv.reader(io.StringIO(client.get("/due/?export=csv").content.decode("utf-8-sig"))))
     assert rows[0][:6] == ["status", "site", "telescope", "subsystem", "service", "trigger"]
     record = dict(zip(rows[0], rows[1], strict=True))
     assert (record["site"], record["telescope"], record["subsystem"]) == ("Flatland", "S1", "Fans")

@@ -125,7 +125,7 @@ def test_the_csv_keeps_iso_times_in_utc_and_says_so(denver, named, users, client
     _changed_at(reading, SUMMER_UTC, named, taken_at=SUMMER_UTC)
     client.force_login(users["viewer"])
     response = client.get(f"/history/logbook.reading/record/{reading.pk}/?export=csv")
-    header, *rows = list(csv.reader(io.StringIO(response.content.decode())))
+    header, *rows = list(csv.reader(io.StringIO(response.content.decode("utf-8-sig"))))
     assert header[0] == "when_utc"
     latest = dict(zip(header, rows[0], strict=True))
     assert latest["when_utc"] == "2026-07-04T18:30:40+00:00"
@@ -171,7 +171,7 @@ def test_the_sites_history_writes_the_crew_weekdays_in_words(denver, named, user
     assert "<strong>crew weekdays</strong>: Mon–Fri → Mon, Wed, Fri, Sun</div>" in page
     assert "12345" not in page and "1357" not in page
     assert site.crew_days_text == "Mon, Wed, Fri, Sun"  # one helper for both
-    header, *rows = list(csv.reader(io.StringIO(client.get(f"{url}?export=csv").content.decode())))
+    header, *rows = list(csv.reader(io.StringIO(client.get(f"{url}?export=csv").content.decode("utf-8-sig"))))
     latest = dict(zip(header, rows[0], strict=True))
     assert (latest["field"], latest["before"], latest["after"]) == ("crew_weekdays", "Mon–Fri", "Mon, Wed, Fri, Sun")
 

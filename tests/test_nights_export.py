@@ -98,7 +98,7 @@ def test_the_download_is_named_by_the_first_and_last_night_and_holds_every_row_i
     assert response.streaming  # read a chunk of nights at a time, never the whole log at once
     assert response["Content-Type"] == "text/csv; charset=utf-8"
     assert response["Content-Disposition"] == f'attachment; filename="test-hill-nights-{FIRST}-{last}.csv"'
-    rows = list(csv.reader(io.StringIO(data.decode("utf-8"))))
+    rows = list(csv.reader(io.StringIO(data.decode("utf-8-sig"))))
     assert tuple(rows[0]) == nights_csv.COLUMNS
     assert len(rows) - 1 == NightUsage.objects.filter(site=logged).count()
     # Each night the whole site's row first, then the telescopes' own by name, as the log page lists them.

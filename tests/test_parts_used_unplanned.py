@@ -84,7 +84,8 @@ def test_the_parts_used_of_a_period_download_as_csv(order, filters, fan, users, 
                                parts_added=[(fan, 1)], **_confirmed(order))
     client.force_login(users["viewer"])
     today = site_today(order.site)
-    rows = list(csv.DictReader(io.StringIO(client.get(f"/sites/{order.site.slug}/parts/used.csv").content.decode())))
+    rows = list(csv.DictReader(io.StringIO(
+        client.get(f"/sites/{order.site.slug}/parts/used.csv").content.decode("utf-8-sig"))))
     assert [(r["work_done_on"], r["work_order"], r["part"], r["planned"], r["used"], r["short_of_the_register"])
             for r in rows] == [
         (today.isoformat(), order.number, "Filter", "1.0", "2.0", "1.0"),

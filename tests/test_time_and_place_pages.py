@@ -88,11 +88,11 @@ def test_the_due_list_download_of_one_site_is_named_by_that_sites_today(client, 
     # 13:00 UTC on 15 Jun 2026 is 01:00 on 16 Jun in Auckland (NZST, UTC+12) and 03:00 on 15 Jun in Honolulu (UTC-10).
     frozen_now(dt.datetime(2026, 6, 15, 13, 0, tzinfo=dt.UTC))
     assert site_today(auckland) == dt.date(2026, 6, 16)
-    assert _file_name(client.get(f"/due/?site={auckland.pk}&export=csv")) == "due-list-2026-06-16.csv"
-    assert _file_name(client.get(f"/due/?site={honolulu.pk}&export=csv")) == "due-list-2026-06-15.csv"
+    assert _file_name(client.get(f"/due/?site={auckland.pk}&export=csv")) == "due-list-tussock-rise-2026-06-16.csv"
+    assert _file_name(client.get(f"/due/?site={honolulu.pk}&export=csv")) == "due-list-cinder-flat-2026-06-15.csv"
     # 05:00 UTC on 15 Jun 2026 is 19:00 on 14 Jun in Honolulu.
     frozen_now(dt.datetime(2026, 6, 15, 5, 0, tzinfo=dt.UTC))
-    assert _file_name(client.get(f"/due/?site={honolulu.pk}&export=csv")) == "due-list-2026-06-14.csv"
+    assert _file_name(client.get(f"/due/?site={honolulu.pk}&export=csv")) == "due-list-cinder-flat-2026-06-14.csv"
     # Across sites, whose todays differ, the name keeps UTC's date.
     assert _file_name(client.get("/due/?export=csv")) == "due-list-2026-06-15.csv"
 
@@ -104,7 +104,7 @@ def test_a_telescope_chosen_alone_names_the_download_by_its_sites_today(client, 
     scope = Telescope.objects.create(site=honolulu, name="C1", aperture_m=0.4, mount="fork")
     client.force_login(users["viewer"])
     frozen_now(dt.datetime(2026, 6, 15, 5, 0, tzinfo=dt.UTC))  # 19:00 on 14 Jun in Honolulu
-    assert _file_name(client.get(f"/due/?telescope={scope.pk}&export=csv")) == "due-list-2026-06-14.csv"
+    assert _file_name(client.get(f"/due/?telescope={scope.pk}&export=csv")) == "due-list-cinder-flat-2026-06-14.csv"
 
 
 # --- 5. the recoat planner's night cost: the prior, and nights with no darkness ----------------------------------

@@ -31,12 +31,12 @@ def test_the_csv_gives_the_finished_work_of_a_period_with_its_day_and_hours(orde
     page = client.get("/workorders/", query).content.decode()
     assert order.number in page and "These orders as CSV" in page
     response = client.get("/workorders.csv", query)
-    rows = list(csv.DictReader(io.StringIO(response.content.decode())))
+    rows = list(csv.DictReader(io.StringIO(response.content.decode("utf-8-sig"))))
     assert [(r["number"], r["state"], r["work_done_on"], r["actual_hours"]) for r in rows] == [
         (order.number, "finished, awaiting countersignature", done.isoformat(), "2.5")]
     assert rows[0]["subsystems"].endswith(order.items.first().subsystem.name)
     before = {"state": "all", "done_to": (done - dt.timedelta(days=1)).isoformat()}
-    assert list(csv.DictReader(io.StringIO(client.get("/workorders.csv", before).content.decode()))) == []
+    assert list(csv.DictReader(io.StringIO(client.get("/workorders.csv", before).content.decode("utf-8-sig")))) == []
     refused = client.get("/workorders.csv", {"done_from": "2026-02-30"})
     assert refused.status_code == 400
     # Named by its label, on the list too, which it leaves empty (a walk-through's empty list said nothing).

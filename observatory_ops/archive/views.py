@@ -1,5 +1,6 @@
 from django.http import Http404
 from django.shortcuts import get_object_or_404, render
+from django.utils import timezone
 
 from observatory_ops.access.decorators import requires
 from observatory_ops.access.roles import VIEWER, has_role
@@ -26,7 +27,10 @@ def history(request, label, pk):
         )
         # Machine-readable: ISO 8601 in UTC, with the offset written (+00:00), for times in before and after too.
         header = ("when_utc", "who", "what", "reason", "field", "before", "after")
-        return csv_response(f"history-{label}-{pk}.csv", header, rows)
+        # Named by the kind of record in plain words and the day (UTC's, as its times) it was made: the app's label
+        # read "history-registry.subsystem-41.csv" (a handover review).
+        made_on = timezone.now().date()
+        return csv_response(f"history-{model._meta.model_name}-{pk}-{made_on:%Y-%m-%d}.csv", header, rows)
     return render(
         request, "archive/history.html",
         {"instance": instance, "entries": entries, "label": label, "verbose": model._meta.verbose_name},

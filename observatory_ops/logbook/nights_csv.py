@@ -381,16 +381,27 @@ def _flag(raw: object, name: str, as_json: bool) -> bool:
 #: Python's date.fromisoformat (3.11) also reads ISO 8601's week dates ("2022-W11-1", a Monday in March) and its
 #: basic format ("20220314"): the format has one way of writing a date, and anything else is refused, never guessed at.
 WRITTEN_DATE = re.compile(r"([0-9]{4})-([0-9]{2})-([0-9]{2})")
+#: A date in another layout, as a spreadsheet program shows dates and may save them ("12/6/2023", "6.12.2023",
+#: "2023/12/06 0:00"): digits in three groups separated by / or by dot.
+RELAID_DATE = re.compile(r"[0-9]{1,4}([/.])[0-9]{1,2}\1[0-9]{1,4}")
+#: What a CSV file with such a date is told. Its day and month are never guessed: "12/6/2023" is 12 June in one
+#: country and 6 December in another.
+RELAID_HINT = ("; a spreadsheet program may have changed the dates' layout when the file was saved: keep the night "
+               "column as text, or save the dates as YYYY-MM-DD")
 
 
-def _night(raw: object, latest_night: dt.date) -> dt.date:
-    """The night a cell or a JSON string names, written exactly as YYYY-MM-DD (``WRITTEN_DATE``)."""
+def _night(raw: object, latest_night: dt.date, as_json: bool) -> dt.date:
+    """The night a cell or a JSON string names, written exactly as YYYY-MM-DD (``WRITTEN_DATE``). ``as_json``: sent
+    as JSON, which no spreadsheet program saved (no word on one)."""
     written = WRITTEN_DATE.fullmatch(raw.strip()) if isinstance(raw, str) else None
     if not written:
         # A date with a time (an ISO 8601 timestamp) gets a word on which date: one cut from a UTC time taken after
         # midnight names the next day (an API review).
         timed = isinstance(raw, str) and WRITTEN_DATE.match(raw.strip()) and raw.strip()[10:11] in {"T", "t", " "}
         hint = (": the night is the site's local date of the evening it began, with no time" if timed else "")
+        # A handover review's file, re-saved from a spreadsheet, was refused without a word on how its dates changed.
+        if not as_json and isinstance(raw, str) and RELAID_DATE.match(raw.strip()):
+            hint = RELAID_HINT
         raise RowError("night", f"night must be a date as YYYY-MM-DD, not {shown(raw)}{hint}")
     try:
         night = dt.date.fromisoformat(written.group())
@@ -449,7 +460,7 @@ def _value(
             raise RowError(column.name, f"{column.name} cannot be null" if raw is None else f"{column.name} is empty")
         return column.blank_of(own)
     if column.kind == "date":
-        return _night(raw, latest_night)
+        return _night(raw, latest_night, as_json)
     if column.kind == "telescope":
         return _telescope(raw, telescopes)
     if column.kind == "flag":

@@ -30,10 +30,11 @@ def due_list(request):
         if unapplied:
             return HttpResponseBadRequest("; ".join(unapplied), content_type="text/plain; charset=utf-8")
         # Dated: "days past the limit" counts to the day it was made (each site's today). Filtered to one site, the
-        # name gives that site's today; across sites, UTC's (the sites' todays may differ).
-        made_on = site_today(chosen) if chosen else timezone.now().date()
-        return csv_response(f"due-list-{made_on:%Y-%m-%d}.csv", selectors.DUE_CSV_HEADER,
-                            map(selectors.due_csv_row, filtered.qs))
+        # name gives that site's slug and today (a handover review could not tell two sites' lists apart); across
+        # sites, UTC's today (the sites' todays may differ).
+        named = f"due-list-{chosen.slug}-{site_today(chosen):%Y-%m-%d}" if chosen else (
+            f"due-list-{timezone.now().date():%Y-%m-%d}")
+        return csv_response(f"{named}.csv", selectors.DUE_CSV_HEADER, map(selectors.due_csv_row, filtered.qs))
     for problem in unapplied:
         messages.warning(request, problem)
     table = DueTable(filtered.qs)

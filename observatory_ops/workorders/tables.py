@@ -54,7 +54,8 @@ class WorkOrderTable(tables.Table):
 #: The "Assigned" filter's choices: a technician's own orders, or those nobody has taken yet.
 MINE, NOBODY = "me", "nobody"
 #: The "State" filter's choices beyond one state: the work still to do (the list's default: a technician looking for
-#: today's work saw finished and countersigned orders first), and every order.
+#: today's work saw finished and countersigned orders first), and every order (the default when "Done from" or "Done
+#: to" is given).
 OPEN, EVERY = "open", "all"
 OPEN_STATES = (State.DRAFT, State.ISSUED, State.UNDERWAY)
 
@@ -84,7 +85,9 @@ class WorkOrderFilter(django_filters.FilterSet):
     def __init__(self, data=None, *args, **kwargs):
         if data is not None and not data.get("state"):
             data = data.copy()
-            data["state"] = OPEN
+            # Asked for the work done in a period, every state: "still to do" left a year's finished work out of the
+            # list and its CSV (a handover review). A state the user chose is kept.
+            data["state"] = EVERY if data.get("done_from") or data.get("done_to") else OPEN
         super().__init__(data, *args, **kwargs)
 
     def filter_state(self, queryset, name, value):

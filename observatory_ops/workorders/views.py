@@ -92,7 +92,11 @@ def work_orders_csv(request):
     if not filtered.is_valid():
         return download_refused(request, filtered.unapplied(), reverse("workorder-list"),
                                 what="The filters cannot be applied")
-    return csv_response("work-orders.csv", selectors.WORK_ORDERS_CSV_HEADER, selectors.work_orders_csv_rows(
+    # Named by the site (when filtered to one) and the day it was made, that site's today, else UTC's: a handover
+    # review's folder held several "work-orders.csv" that said neither.
+    site = filtered.form.cleaned_data.get("site")
+    named = f"work-orders-{site.slug}-{site_today(site)}" if site else f"work-orders-{timezone.now().date()}"
+    return csv_response(f"{named}.csv", selectors.WORK_ORDERS_CSV_HEADER, selectors.work_orders_csv_rows(
         filtered.qs.order_by("pk")))
 
 
