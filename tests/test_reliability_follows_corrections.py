@@ -176,7 +176,8 @@ def test_corrections_made_on_the_subsystem_page_reach_the_reliability_page(parts
     assert (focus.failures, focus.operating_hours, focus.hours_by_type["corrective"]) == (0, 500.0, 0.0)
     page = html.unescape(client.get(reverse("site-reliability", args=[site.slug])).content.decode())
     order = WorkOrder.objects.get(pk=on_order.work_order_id)
-    assert (f"{order.number}</a> T1: Fan A: night of 15 Jan 2026 (its service record as corrected), at 75 operating "
+    assert (f"{order.number}</a> T1: Fan A: night of 15 Jan 2026 (its service record as corrected), after 75 of "
+            "its counted operating hours") in page
+    assert ("T1: Fan B: night of 05 Mar 2026 (its service record as corrected), after 320 of its counted operating "
             "hours") in page
-    assert "T1: Fan B: night of 05 Mar 2026 (its service record as corrected), at 320 operating hours" in page
     assert "a record withdrawn, with no correction standing after it, counts no failure" in page

@@ -151,8 +151,8 @@ def test_a_repair_entered_days_later_is_placed_where_it_was_done_and_listed_with
 
     client.force_login(users["viewer"])
     page = client.get(reverse("site-reliability", args=[record.slug])).content.decode()
-    assert (f'<a href="/workorders/{order.pk}/">{order.number}</a> T1: Fan B: night of 29 Mar 2026, at 440 operating '
-            "hours") in page
+    assert (f'<a href="/workorders/{order.pk}/">{order.number}</a> T1: Fan B: night of 29 Mar 2026, after 440 of its '
+            "counted operating hours") in page
 
 
 def test_a_repair_logged_without_an_order_counts_as_a_failure_until_withdrawn(record, users, client):

@@ -241,7 +241,7 @@ def test_the_pages_csv_is_of_the_period(drives, users, client):
     page = _page(client, drives, **{"from": "2026-03-01", "to": "2026-05-31"})
     link = re.search(r'<p class="noprint" id="records-csv"><a href="([^"]+)">', page).group(1)
     assert link == f"/sites/{drives.slug}/service-records.csv?from=2026-03-01&to=2026-05-31"
-    rows = list(csv.DictReader(io.StringIO(client.get(link).content.decode())))
+    rows = list(csv.DictReader(io.StringIO(client.get(link).content.decode("utf-8-sig"))))
     assert [r["performed_on"] for r in rows] == ["2026-03-01"]
 
 
@@ -343,5 +343,11 @@ def test_year_by_year_counts_each_calendar_year_as_a_period_of_its_own(drives, u
             # The MTBF point estimate of a time-terminated record, T / n (NIST/SEMATECH e-Handbook of Statistical
             # Methods, section 8.1.7.1, from memory); none with no failure.
             assert cell.mtbf_hours == (pytest.approx(cell.operating_hours / cell.failures) if cell.failures else None)
+            # Its two-sided 90 % interval, time-terminated: 2T / chi2(0.95; 2n+2) to 2T / chi2(0.05; 2n) (same
+            # handbook, chapter 8, exponential confidence bounds), from scipy.stats.chi2.
+            if cell.failures:
+                t, n = cell.operating_hours, cell.failures
+                assert cell.mtbf_lower_hours == pytest.approx(2 * t / stats.chi2.ppf(0.95, 2 * n + 2))
+                assert cell.mtbf_upper_hours == pytest.approx(2 * t / stats.chi2.ppf(0.05, 2 * n))
     client.force_login(users["viewer"])
     assert 'id="year-by-year"' in client.get(f"/sites/{drives.slug}/reliability/").content.decode()

@@ -125,3 +125,39 @@ def test_a_correction_keeping_its_date_is_not_asked_about(fans, users, client):
         "performed_on": early.isoformat(), "hours_spent": "2", "summary": "Fans cleaned", "findings": "",
         "reason": "two hours, not one"})
     assert page.status_code == 302
+
+
+def test_a_repair_without_a_plan_dated_before_the_unit_entered_service_is_asked_about(fans, users, client):
+    """A reliability review logged a repair (no plan) dated before the fans entered service: nothing was asked, and the
+    message said the reliability page counted the failure, which the page left out as the unit replaced's."""
+    from observatory_ops.logbook.models import NightUsage
+    from observatory_ops.reliability.selectors import BEFORE_LOG, REPLACED_UNIT
+
+    today = site_today(fans.telescope.site)
+    fans.in_service_since = today - dt.timedelta(days=100)
+    fans.save()
+    url = f"/subsystems/{fans.pk}/service/new/"
+    client.force_login(users["technician"])
+    early = today - dt.timedelta(days=150)
+    sent = {"plan": "", "performed_on": early.isoformat(), "hours_spent": "2", "summary": "Fan replaced",
+            "findings": "seized bearing", "repaired_failure": "on"}
+    page = client.post(url, sent)
+    assert page.status_code == 200 and not ServiceRecord.objects.exists()
+    assert (f"{early:%d %b %Y} is before Mirror cell fans entered service here ({fans.in_service_since:%d %b %Y}): the "
+            "reliability page would leave the repair out, as a failure of the unit it replaced."
+            ) in page.content.decode()
+    kept = client.post(url, {**sent, "value_confirmed": "on", "questioned": _asked(page)}, follow=True)
+    said = " ".join(str(m) for m in kept.context["messages"])
+    assert (f"The reliability page leaves its failure (night of {early - dt.timedelta(days=1):%d %b %Y}) out of the "
+            f"failures of Mirror cell fans: {REPLACED_UNIT}.") in said
+    # Ad hoc work that repaired nothing is not asked about; a repair after the in-service date is counted, and said
+    # so, once its nights are logged (this site has none: said too).
+    assert client.post(url, {**sent, "repaired_failure": "", "summary": "Looked at"}).status_code == 302
+    later = {**sent, "performed_on": (today - dt.timedelta(days=10)).isoformat(), "summary": "Fan replaced again"}
+    said = " ".join(str(m) for m in client.post(url, later, follow=True).context["messages"])
+    assert f"out of the failures of Mirror cell fans: {BEFORE_LOG}." in said
+    NightUsage.objects.create(site=fans.telescope.site, night=today - dt.timedelta(days=60), open_hours=8)
+    again = client.post(url, {**later, "summary": "And again"}, follow=True)
+    said = " ".join(str(m) for m in again.context["messages"])
+    assert (f"The reliability page counts it as a failure on the night of {today - dt.timedelta(days=11):%d %b %Y}."
+            in said)

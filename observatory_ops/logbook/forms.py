@@ -40,6 +40,21 @@ class QuestionedValueMixin:
         self.data.pop(self.add_prefix("value_confirmed"), None)
 
 
+def before_in_service(subsystem, day: dt.date, planned: bool, repair: bool) -> str:
+    """The question asked of work dated ``day``, before ``subsystem`` entered service here, when it is done for a plan
+    (``planned``: the plan would count the nights of what the unit replaced) or repaired a failure (``repair``: the
+    reliability page leaves it out as the failure of the unit replaced, ``reliability.selectors.REPLACED_UNIT``); ""
+    when it is not asked. A forecast review logged a service months before a new brake was fitted: it became the
+    plan's baseline without a word; a reliability review logged a repair so, and it left the failure count unsaid."""
+    since = subsystem.in_service_since
+    if since is None or day >= since or not (planned or repair):
+        return ""
+    said = [f"the plan would count this telescope's nights from {day:%d %b %Y}, nights of what it replaced"] * planned
+    said += ["the reliability page would leave the repair out, as a failure of the unit it replaced"] * repair
+    return (f"{day:%d %b %Y} is before {subsystem.name} entered service here ({since:%d %b %Y}): {' and '.join(said)}. "
+            "Log it so only for a unit fitted used, its work before it came.")
+
+
 class ServiceRecordForm(QuestionedValueMixin, forms.Form):
     plan = forms.ModelChoiceField(
         queryset=ServicePlan.objects.none(), required=False,
@@ -103,34 +118,31 @@ class ServiceRecordForm(QuestionedValueMixin, forms.Form):
         plan, day, hours = data.get("plan"), data.get("performed_on"), data.get("hours_spent")
         if plan is not None and self.mirror is not None:
             self._mirror_work(plan, data.get("cleaning_method", ""))
-        if plan is None or day is None:
+        repair = data.get("repaired_failure", False)
+        if day is None or (plan is None and not repair):  # ad hoc work that repaired nothing: nothing to ask
             return data
-        asked = f"{plan.pk}|{day}|{hours!r}"
+        asked = f"{plan.pk if plan else ''}|{day}|{hours!r}"
         if self.confirmed_for(asked) or service_already_logged(
             self.subsystem, self.by, plan, day, data.get("summary", ""), hours, data.get("findings", ""), timezone.now()
         ):
             return data
         keep = 'If it is right, tick "Log it as entered" and save again.'
-        estimate = plan.estimated_hours
+        estimate = plan.estimated_hours if plan else None
         if hours is not None and estimate and hours > HOURS_QUESTION_FACTOR * estimate:
             self.add_error("hours_spent", f"{hours:g} h is {hours / estimate:,.0f} times the plan's estimate of "
                                           f"{estimate:g} h: were minutes typed for hours? {keep}")
-        same_day = (ServiceRecord.objects.filter(plan=plan, performed_on=day, corrected_by__isnull=True, void=False)
-                    .select_related("performed_by").first())
-        if same_day is not None:
+        same_day = plan and (ServiceRecord.objects.filter(plan=plan, performed_on=day, corrected_by__isnull=True,
+                                                          void=False).select_related("performed_by").first())
+        if same_day:
             self.add_error("performed_on", (
                 f"A service of \"{plan.name}\" is already logged on {day:%d %b %Y} ({same_day.summary}, by "
                 f"{person(same_day.performed_by)}): is this a second one? {keep}"))
-        since = self.subsystem.in_service_since
-        if since is not None and day < since and not self.has_error("performed_on"):
-            # A forecast review logged a service months before a new brake was fitted: it became the plan's baseline
-            # without a word, and the brake was overdue, counting the nights of the one it replaced.
-            self.add_error("performed_on", (
-                f"{day:%d %b %Y} is before {self.subsystem.name} entered service here ({since:%d %b %Y}): the plan "
-                f"would count this telescope's nights from {day:%d %b %Y}, nights of what it replaced. Log it only "
-                f"for a unit fitted used, its last service before it came. {keep}"))
-        held = list(WorkOrder.objects.filter(items__plan=plan, state__in=(State.DRAFT, State.ISSUED, State.UNDERWAY))
-                    .distinct().order_by("pk"))
+        if (question := before_in_service(self.subsystem, day, plan is not None, repair)) and not self.has_error(
+                "performed_on"):
+            self.add_error("performed_on", f"{question} {keep}")
+        held = [] if plan is None else list(
+            WorkOrder.objects.filter(items__plan=plan, state__in=(State.DRAFT, State.ISSUED, State.UNDERWAY))
+            .distinct().order_by("pk"))
         if held:
             orders = ", ".join(f"{o.number} ({o.get_state_display()})" for o in held)
             self.add_error("plan", (
@@ -203,22 +215,17 @@ class CorrectionForm(QuestionedValueMixin, forms.Form):
         return performed_on
 
     def clean(self):
-        """A record of a plan moved to a date before its subsystem entered service is asked about, as the service form
-        asks (``ServiceRecordForm.clean``): the plan would count the nights of what the subsystem replaced. A date
-        left as it was is not asked about again."""
+        """A record moved to a date before its subsystem entered service is asked about, as the service form asks
+        (``before_in_service``). A date left as it was is not asked about again."""
         data = super().clean()
         day, original = data.get("performed_on"), self.original
-        if original is None or original.plan_id is None or day is None or day == original.performed_on:
+        if original is None or day is None or day == original.performed_on or data.get("void"):
             return data
-        since = original.subsystem.in_service_since
         asked = f"{original.pk}|{day}"
-        if since is None or day >= since or self.confirmed_for(asked):
-            return data
-        self.add_error("performed_on", (
-            f"{day:%d %b %Y} is before {original.subsystem.name} entered service here ({since:%d %b %Y}): the plan "
-            f"would count this telescope's nights from {day:%d %b %Y}, nights of what it replaced. If it is right "
-            f"(a unit fitted used, its last service before it came), tick \"Save it as entered\" and save again."))
-        self.ask_again(asked)
+        question = before_in_service(original.subsystem, day, original.plan_id is not None, original.repaired_failure)
+        if question and not self.confirmed_for(asked):
+            self.add_error("performed_on", f'{question} If it is right, tick "Save it as entered" and save again.')
+            self.ask_again(asked)
         return data
 
 

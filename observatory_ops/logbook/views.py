@@ -16,7 +16,7 @@ from django.utils.text import slugify
 
 from observatory_ops.access.decorators import requires
 from observatory_ops.access.roles import TECHNICIAN, VIEWER
-from observatory_ops.exports import csv_response, download_refused, period, safe_cell, telescope_of
+from observatory_ops.exports import BYTE_ORDER_MARK, csv_response, download_refused, period, safe_cell, telescope_of
 from observatory_ops.formats.calendar_words import why_no_such_date
 from observatory_ops.planning import selectors
 from observatory_ops.registry.models import Site, Subsystem
@@ -77,11 +77,15 @@ def _site_period_csv(request, slug, what: str, header, rows_of):
     telescope)`` under ``header``; a period or a telescope it cannot take is refused in words."""
     site = get_object_or_404(Site, slug=slug)
     today = services.site_today(site)
+    back = reverse("site-reliability", args=[site.slug])
     try:
         first, last = period(request.GET, today - dt.timedelta(days=HOURS_WINDOW_DAYS - 1), today)
-        telescope = telescope_of(request.GET, site)
     except ValueError as exc:
-        return download_refused(request, str(exc), reverse("site-reliability", args=[site.slug]))
+        return download_refused(request, str(exc), back)
+    try:
+        telescope = telescope_of(request.GET, site)
+    except ValueError as exc:  # not the period: the page said "The period asked for cannot be read" (a handover review)
+        return download_refused(request, str(exc), back, what="The telescope asked for cannot be used")
     named = f"{site.slug}-{slugify(telescope.name)}" if telescope else site.slug
     return csv_response(f"{named}-{what}-{first}-to-{last}.csv", header, rows_of(site, first, last, telescope))
 
@@ -132,13 +136,22 @@ def service_log(request, pk):
                 "subsystem's plans are not counted, so no plan's counting restarts." if subsystem.retired_on
                 else f"; the plan '{data['plan'].name}' counts again from {data['performed_on']:%d %b %Y}."
                 if data["plan"] else " (ad hoc work: no plan's counting restarts)."
-            ) + (
-                f" The reliability page counts it as a failure on the night of "
-                f"{data['performed_on'] - dt.timedelta(days=1):%d %b %Y}." if data["repaired_failure"] else ""
-            ))
+            ) + (_failure_counted(subsystem, data["performed_on"]) if data["repaired_failure"] else ""))
             return redirect(subsystem)
     return render(request, "logbook/service_form.html", {"form": form, "subsystem": subsystem, "site": site,
                                                          **_retired(subsystem)})
+
+
+def _failure_counted(subsystem: Subsystem, day: dt.date) -> str:
+    """What the reliability page does with a repair logged on ``day``: counts its failure on the night before, or
+    leaves it out and why (``reliability.selectors.failure_left_out``)."""
+    from observatory_ops.reliability.selectors import failure_left_out, failure_night  # reliability reads the logbook
+
+    night = failure_night(day)
+    if reason := failure_left_out(subsystem, day):
+        return (f" The reliability page leaves its failure (night of {night:%d %b %Y}) out of the failures of "
+                f"{subsystem.name}: {reason}.")
+    return f" The reliability page counts it as a failure on the night of {night:%d %b %Y}."
 
 
 def _retired(subsystem: Subsystem) -> dict:
@@ -310,7 +323,7 @@ def nights_csv_download(request, slug):
     )
     writer = csv.writer(_LineWritten())
     lines = itertools.chain(
-        [writer.writerow(nights_csv.COLUMNS)],
+        [BYTE_ORDER_MARK + writer.writerow(nights_csv.COLUMNS)],  # as every CSV download (``exports.csv_response``)
         # safe_cell: a telescope's name that a spreadsheet would take for a formula is written with an apostrophe.
         (writer.writerow([safe_cell(cells[name]) for name in nights_csv.COLUMNS])
          for cells in map(nights_csv.cells_of, rows.iterator(chunk_size=NIGHTS_CSV_CHUNK))),

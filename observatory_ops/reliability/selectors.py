@@ -167,6 +167,21 @@ def left_out_reason(
     return None
 
 
+def failure_left_out(subsystem: Subsystem, repaired_on: dt.date) -> str | None:
+    """Why this page leaves out a failure of ``subsystem`` repaired on ``repaired_on`` (``left_out_reason``, by the
+    page's own start and log), None when it counts it: said when the repair is logged. A reliability review was told
+    "the reliability page counts it as a failure" of a repair the page then left out."""
+    site = subsystem.telescope.site
+    row = (subsystem.pk, subsystem.telescope.name, subsystem.name, subsystem.kind, subsystem.retired_on,
+           subsystem.telescope_id, subsystem.in_service_since)
+    logs = UsageLog.of_site(site)
+    logged = np.concatenate([log.nights for log in logs.values()])
+    starts, _ = _starts([row], site, logged.min().astype(dt.date) if len(logged) else None, site_today(site))
+    own = logs[UsageLog.key_for(logs, subsystem.telescope_id, is_shared_enclosure(site, subsystem.kind))].nights
+    return left_out_reason(failure_night(repaired_on), starts[subsystem.pk], own[0].astype(dt.date) if len(own)
+                           else None, subsystem.retired_on)
+
+
 class Failure(NamedTuple):
     """A failure counted: whose, on which night, the corrective order that repaired it, and the subsystem's counted
     operating hours up to it (as the MTBF and the fit take it: within the period, when one is chosen)."""
@@ -589,13 +604,16 @@ def _log_notes(logs: dict[int | None, UsageLog], subsystems: list[tuple]) -> lis
 
 @dataclass(frozen=True)
 class YearCell:
-    """One kind in one calendar year (``by_year``): its failures, its MTBF point estimate (None with no failure), its
+    """One kind in one calendar year (``by_year``): its failures, its MTBF point estimate (None with no failure) and
+    its interval (a reliability review read a year's 1 failure as an improvement on the year before's 2), its
     operating hours and its maintenance hours."""
 
     failures: int
     mtbf_hours: float | None
     operating_hours: float
     maintenance_hours: float
+    mtbf_lower_hours: float | None = None
+    mtbf_upper_hours: float | None = None
 
 
 def by_year(site: Site, today: dt.date, first_night: dt.date | None, years: int = 3, telescope: Telescope | None = None
@@ -614,5 +632,6 @@ def by_year(site: Site, today: dt.date, first_night: dt.date | None, years: int 
             f" (from {first:%d %b})" if first != dt.date(first.year, 1, 1) else ""))
         for row in site_reliability(site, today, Period(first, last), telescope).kinds:
             cells.setdefault(row.label, {})[len(labels) - 1] = YearCell(
-                row.failures, row.mtbf.mtbf_hours if row.mtbf else None, row.operating_hours, row.hours_total)
+                row.failures, row.mtbf.mtbf_hours if row.mtbf else None, row.operating_hours, row.hours_total,
+                row.mtbf.lower_hours if row.mtbf else None, row.mtbf.upper_hours if row.mtbf else None)
     return labels, [(label, [per_year.get(i) for i in range(len(labels))]) for label, per_year in cells.items()]
