@@ -65,7 +65,7 @@ def test_a_limit_reached_is_overdue(state, status):
 
 def test_a_calendar_limit_is_due_on_its_day_and_overdue_from_the_next():
     # Every 180 days from 17 Dec 2025: due 15 Jun 2026 (hand count: 14 + 31 + 28 + 31 + 30 + 31 + 15 = 180). On that
-    # day it is due, as work done that day is on time (logbook.services.limit_passed_before); from 16 Jun, overdue.
+    # day it is due, as work done that day is on time (logbook.services.due_before); from 16 Jun, overdue.
     # A forecast review read "overdue, 180 of 180 days" on the due date (common practice, no published source).
     on_the_day = rising(180, 180, TODAY, metric="calendar_days")
     assert on_the_day.reached and due_status(on_the_day, TODAY, LOOK_AHEAD) == DUE

@@ -55,7 +55,8 @@ def test_a_service_moved_to_before_the_limit_was_passed_is_no_longer_late(late_p
     csv_text = client.get(f"/sites/{late_plan.subsystem.telescope.site.slug}/service-records.csv"
                           "?from=2025-01-01&to=2026-12-31").content.decode()
     # No limit, no days after it.
-    assert "2025-12-20,T1,Cell fans,Cooling fans and filters,Replace fan filters,,," in csv_text
+    assert ("2025-12-20,T1,Cell fans,Cooling fans and filters,Replace fan filters,on time: before its limit was "
+            "passed,,," in csv_text)
     page = client.get(late_plan.subsystem.get_absolute_url()).content.decode()
     assert "-12 days" not in page and "days after its limit was passed" in page  # only the superseded record says so
 

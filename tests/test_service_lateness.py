@@ -43,9 +43,13 @@ def test_work_on_an_overdue_plan_keeps_how_late_it_came(late_plan, users, client
     client.force_login(users["viewer"])
     page = client.get(late_plan.subsystem.get_absolute_url()).content.decode()
     assert "30 days after its limit was passed (01 Jan 2026)" in page
+    assert "<summary>Late: after its limit was passed</summary>Due when logged: Calendar" in page
     csv_text = client.get(f"/sites/{late_plan.subsystem.telescope.site.slug}/service-records.csv"
                           "?from=2026-01-01&to=2026-12-31").content.decode()
-    assert ",Replace fan filters,2026-01-01,30," in csv_text
+    assert ",Replace fan filters,late: after its limit was passed,2026-01-01,30," in csv_text
+    # What it was due against, as the plan's due sentence stood when the work was logged (an export review's insurer).
+    assert record.timeliness == "late" and record.due_when_logged.startswith("Calendar")
+    assert record.due_when_logged in csv_text.replace('""', '"')
 
 
 def test_work_done_before_the_limit_or_without_a_plan_is_not_late(late_plan, users):
@@ -53,9 +57,11 @@ def test_work_done_before_the_limit_or_without_a_plan_is_not_late(late_plan, use
     early = services.service_record_log(late_plan.subsystem, late_plan, dt.date(2025, 12, 20), users["technician"],
                                         "Filters replaced (from the paper log)")
     assert early.limit_passed_on is None and early.days_after_limit is None
+    assert early.timeliness_text == "on time: before its limit was passed" and early.due_when_logged
     ad_hoc = services.service_record_log(late_plan.subsystem, None, site_today(late_plan.subsystem.telescope.site),
                                          users["technician"], "Rattle looked at")
     assert ad_hoc.limit_passed_on is None
+    assert (ad_hoc.timeliness_text, ad_hoc.due_when_logged) == ("ad hoc", "")
 
 
 def test_a_correction_keeps_the_limit_and_counts_from_its_own_date(late_plan, users):
@@ -64,6 +70,23 @@ def test_a_correction_keeps_the_limit_and_counts_from_its_own_date(late_plan, us
     corrected = services.service_record_correct(record, users["engineer"], "Filters replaced",
                                                 performed_on=dt.date(2026, 1, 21), reason="typo")
     assert (corrected.limit_passed_on, corrected.days_after_limit) == (dt.date(2026, 1, 1), 20)
+    assert corrected.timeliness == "late" and corrected.due_when_logged == record.due_when_logged
+    kept = services.service_record_correct(corrected, users["engineer"], "Filters and gaskets replaced", reason="more")
+    assert (kept.timeliness, kept.due_when_logged) == (corrected.timeliness, corrected.due_when_logged)
+
+
+def test_work_on_a_plan_whose_last_service_was_unknown_is_due_from_the_start_not_late(telescope, users):
+    """A plan added in the admin with no day it counts from is due at once (planning.services): its first service is
+    neither late nor on time."""
+    fans = Subsystem.objects.create(telescope=telescope, kind="cooling_fans", name="Dome fans")
+    plan = ServicePlan.objects.create(subsystem=fans, name="Clean fan blades", counting_from_given=False,
+                                      counting_from=site_today(telescope.site) - dt.timedelta(days=200))
+    Trigger.objects.create(plan=plan, metric="calendar_days", limit=90)
+    site_recompute(telescope.site)
+    assert PlanStatus.objects.get(plan=plan).last_service_unknown
+    record = services.service_record_log(fans, plan, site_today(telescope.site), users["technician"], "Cleaned")
+    assert record.timeliness_text == "due from the start: its last service before was not known"
+    assert record.limit_passed_on is None
 
 
 def test_finishing_a_work_order_on_an_overdue_plan_keeps_how_late_it_came(late_plan, users):

@@ -149,14 +149,36 @@ class ServiceRecord(models.Model):
     limit_passed_on = models.DateField(
         null=True, blank=True, editable=False,
         help_text="For work on a plan that was overdue: the day its governing limit was passed, as its due state said "
-        "when the work was logged (``logbook.services.limit_passed_before``). How late the work came, kept after "
+        "when the work was logged (``logbook.services.due_before``). How late the work came, kept after "
         "the plan counts again.",
+    )
+    due_when_logged = models.TextField(
+        blank=True, default="", editable=False,
+        help_text="For work on a plan: the plan's due sentence as it stood when the work was logged (which trigger, "
+        "value, limit and forecast: ``logbook.services.due_before``); empty for ad hoc work and for work logged before "
+        "it was kept. An export review's insurer asked what each service was due against.",
+    )
+    timeliness = models.CharField(
+        max_length=12, blank=True, default="", editable=False, choices=[
+            ("late", "late: after its limit was passed"), ("on time", "on time: before its limit was passed"),
+            ("from start", "due from the start: its last service before was not known"),
+        ],
+        help_text="For work on a plan, as its due state stood when the work was logged; empty for ad hoc work and for "
+        "work logged before it was kept (``timeliness_text``).",
     )
     created_at = models.DateTimeField(auto_now_add=True)
     created_by = models.ForeignKey(settings.AUTH_USER_MODEL, on_delete=models.PROTECT, related_name="+")
 
     class Meta:
         ordering = ["-performed_on", "-created_at"]
+
+    @property
+    def timeliness_text(self) -> str:
+        """Whether the work came late, in words for an export: "ad hoc" without a plan, "not kept" for work on a plan
+        logged before the tool kept it."""
+        if self.plan_id is None:
+            return "ad hoc"
+        return self.get_timeliness_display() if self.timeliness else "not kept (logged before it was)"
 
     def __str__(self) -> str:
         return f"{self.performed_on} {self.summary}"

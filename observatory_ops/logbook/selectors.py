@@ -264,7 +264,8 @@ def _clocks_changed(before: dt.datetime, after: dt.datetime) -> str:
 #: The service-records CSV (``service_records_csv_rows``): one row a record, withdrawn and superseded ones included and
 #: marked, so the year's trail is whole; only "current" records count on the reliability page.
 SERVICE_CSV_HEADER = (
-    "performed_on", "telescope", "subsystem", "kind", "plan", "limit_passed_on", "days_after_limit", "work_order",
+    "performed_on", "telescope", "subsystem", "kind", "plan", "timeliness", "limit_passed_on", "days_after_limit",
+    "due_when_logged", "work_order",
     "maintenance_type", "hours_spent", "counted_hours", "performed_by", "crew", "summary", "findings", "standing",
     "record_id", "entered_by", "entered_at", "correction_reason",
 )
@@ -274,7 +275,8 @@ def service_records_csv_rows(site: Site, first: dt.date, last: dt.date, telescop
     """The rows of the service-records CSV of ``site`` (or of its ``telescope`` alone) done from ``first`` to ``last``
     (local dates, both included), oldest first. ``kind`` is the subsystem's kind as the reliability page groups it (a
     manager's review had to map names to kinds by hand for hours by telescope and kind); ``maintenance_type`` is the
-    column the record's hours count in on that page."""
+    column the record's hours count in on that page; ``timeliness`` and ``due_when_logged`` what the plan was due
+    against when the work was logged (an export review's insurer asked)."""
     records = ServiceRecord.objects.filter(subsystem__telescope__site=site, performed_on__gte=first,
                                            performed_on__lte=last)
     records = (
@@ -285,8 +287,8 @@ def service_records_csv_rows(site: Site, first: dt.date, last: dt.date, telescop
     for r in records:
         yield (
             r.performed_on.isoformat(), r.subsystem.telescope.name, r.subsystem.name, r.subsystem.kind_label,
-            r.plan.name if r.plan else "",
-            r.limit_passed_on.isoformat() if r.limit_passed_on else "", r.days_after_limit or "",
+            r.plan.name if r.plan else "", r.timeliness_text,
+            r.limit_passed_on.isoformat() if r.limit_passed_on else "", r.days_after_limit or "", r.due_when_logged,
             r.work_order.number if r.work_order else "",
             maintenance_type(r.work_order.order_type if r.work_order else None, r.plan_id, r.repaired_failure),
             "" if r.hours_spent is None else r.hours_spent,

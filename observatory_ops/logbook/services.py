@@ -670,16 +670,35 @@ def service_date_problem(site: Site, performed_on: dt.date) -> str | None:
     return date_problem(site, performed_on, "service date")
 
 
-def limit_passed_before(plan: ServicePlan | None, performed_on: dt.date) -> dt.date | None:
-    """The day ``plan``'s governing limit was passed, when that was before ``performed_on``: the work came late, and the
-    record keeps by how much. Read from the plan's stored due state before the record restarts it; None for work on
-    time, for ad hoc work, and for a plan whose last service is unknown (it is due from the start, not late)."""
-    if plan is None:
-        return None
-    status = PlanStatus.objects.filter(plan=plan, status=OVERDUE, last_service_unknown=False).first()
-    if status is None or status.forecast_date is None or status.forecast_date >= performed_on:
-        return None
-    return status.forecast_date
+@dataclass(frozen=True)
+class DueBefore:
+    """What a service record keeps of its plan's due state before the record restarts it (``due_before``): the day
+    its governing limit was passed when the work came after it (None otherwise), the due sentence, and whether the
+    work was late, on time or due from the start (``ServiceRecord.timeliness``)."""
+
+    limit_passed_on: dt.date | None = None
+    due_when_logged: str = ""
+    timeliness: str = ""
+
+    def kept(self) -> dict:
+        """The record's fields for it."""
+        return {"limit_passed_on": self.limit_passed_on, "due_when_logged": self.due_when_logged,
+                "timeliness": self.timeliness}
+
+
+def due_before(plan: ServicePlan | None, performed_on: dt.date) -> DueBefore:
+    """``plan``'s due state as the work done on ``performed_on`` answers it, read from the stored state before the
+    record restarts it: late (with the day its governing limit was passed) when that day came before the work, due from
+    the start for a plan whose last service is unknown (not late), on time otherwise. Nothing for ad hoc work or a plan
+    with no state yet."""
+    status = None if plan is None else PlanStatus.objects.filter(plan=plan).first()
+    if status is None:
+        return DueBefore()
+    if status.last_service_unknown:
+        return DueBefore(None, status.reason, "from start")
+    if status.status == OVERDUE and status.forecast_date is not None and status.forecast_date < performed_on:
+        return DueBefore(status.forecast_date, status.reason, "late")
+    return DueBefore(None, status.reason, "on time")
 
 
 def service_record_log(
@@ -705,7 +724,7 @@ def service_record_log(
     record = ServiceRecord(
         subsystem=subsystem, plan=plan, performed_on=performed_on, performed_by=performed_by or by,
         hours_spent=hours_spent, summary=summary, findings=findings, created_by=by, repaired_failure=repaired_failure,
-        limit_passed_on=limit_passed_before(plan, performed_on),
+        **due_before(plan, performed_on).kept(),
     )
     record.full_clean()
     with transaction.atomic():
@@ -714,8 +733,8 @@ def service_record_log(
     return record
 
 
-def _limit_passed_without(record: ServiceRecord, performed_on: dt.date) -> dt.date | None:
-    """``limit_passed_before`` for work on ``record``'s plan done on ``performed_on`` in place of ``record``.
+def _due_without(record: ServiceRecord, performed_on: dt.date) -> DueBefore:
+    """``due_before`` for work on ``record``'s plan done on ``performed_on`` in place of ``record``.
 
     The stored due state counts from ``record`` itself (logging it restarted the plan), or from a later service, so it
     cannot say when the limit this work answered was passed: that counts from the plan's last service before
@@ -723,7 +742,7 @@ def _limit_passed_without(record: ServiceRecord, performed_on: dt.date) -> dt.da
     left out, inside a savepoint rolled back at once: nothing of it is kept, neither the records left out nor the due
     states, which the caller recomputes."""
     if record.plan_id is None:
-        return None
+        return DueBefore()
     set_aside = transaction.savepoint()
     try:
         # Counted as no service while the state is read (the recompute counts no withdrawn record).
@@ -731,7 +750,7 @@ def _limit_passed_without(record: ServiceRecord, performed_on: dt.date) -> dt.da
             Q(pk=record.pk) | Q(plan=record.plan_id, performed_on__gte=performed_on)
         ).update(void=True)
         site_recompute(record.subsystem.telescope.site)
-        return limit_passed_before(record.plan, performed_on)
+        return due_before(record.plan, performed_on)
     finally:
         transaction.savepoint_rollback(set_aside)
 
@@ -748,7 +767,7 @@ def service_record_correct(
     carries the original's work order: its hours stay in the order type's column of the reliability page, and the
     order's page and paper show its hours as corrected (``workorders.selectors.hours_corrected``). How late the work
     came (``limit_passed_on``) is worked out again for the corrected date, as if the original had not been logged
-    (``_limit_passed_without``, one site recompute, only when the date changes): work moved before the limit was passed
+    (``_due_without``, one site recompute, only when the date changes): work moved before the limit was passed
     was on time, work moved past it came late. A withdrawal records no work, so it is late by nothing."""
     reason = " ".join(reason.split())
     if not reason:
@@ -770,8 +789,9 @@ def service_record_correct(
             summary=summary, findings=findings, corrects=original, void=void, created_by=by,
             correction_reason=reason,
             repaired_failure=original.repaired_failure,
-            limit_passed_on=(None if void else original.limit_passed_on if performed_on == original.performed_on
-                             else _limit_passed_without(original, performed_on)),
+            **(DueBefore() if void else DueBefore(original.limit_passed_on, original.due_when_logged,
+                                                   original.timeliness) if performed_on == original.performed_on
+               else _due_without(original, performed_on)).kept(),
             work_order=original.work_order,
         )
         correction.full_clean()
