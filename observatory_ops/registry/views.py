@@ -1,5 +1,6 @@
 from django.contrib import messages
 from django.shortcuts import get_object_or_404, redirect, render
+from django.utils.text import slugify
 
 from fixtures_demo.generator import load_refusal
 from observatory_ops.access.decorators import posted_only, requires
@@ -42,6 +43,26 @@ def home(request):
 
 #: Rows of the dashboard's "Needs attention" list; the rest are a link away on the due list.
 ATTENTION_ROWS = 12
+
+
+@requires(VIEWER)
+def telescope_register(request, slug, pk):
+    """The telescope's register as the JSON file ``register import`` reads into another telescope
+    (``register_file.register_of``), named with the site, the telescope and the day."""
+    import json
+
+    from django.http import HttpResponse
+
+    from .models import Telescope
+    from .register_file import register_of
+
+    telescope = get_object_or_404(Telescope.objects.select_related("site"), pk=pk, site__slug=slug)
+    today = site_today(telescope.site)
+    response = HttpResponse(json.dumps(register_of(telescope, today), indent=2, ensure_ascii=False) + "\n",
+                            content_type="application/json; charset=utf-8")
+    name = f"register-{telescope.site.slug}-{slugify(telescope.name)}-{today.isoformat()}.json"
+    response["Content-Disposition"] = f'attachment; filename="{name}"'
+    return response
 
 
 @requires(VIEWER)
