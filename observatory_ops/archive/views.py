@@ -21,7 +21,8 @@ def history(request, label, pk):
     entries = changes(instance)
     if request.GET.get("export") == "csv":
         rows = (
-            (c.when.isoformat(), c.who, f"{c.part}: {c.kind}" if c.part else c.kind, c.reason, name, before, after)
+            (c.when.isoformat(timespec="seconds"), c.who, f"{c.part}: {c.kind}" if c.part else c.kind, c.reason, name,
+             before, after)
             for c in entries
             for name, before, after in (c.fields_exported or [("", "", "")])
         )
