@@ -210,3 +210,13 @@ def test_three_widely_spread_failures_say_no_schedule_follows_from_them():
     assert not fit.differs_from_random and fit.beta_low < 1 < fit.beta_high
     assert fit.reading == f"{NOT_TOLD_FROM_RANDOM}: {UNDECIDED}"
     assert "does not help" not in fit.reading
+
+
+def test_the_shapes_interval_is_written_to_two_significant_figures_and_an_open_end_said_so():
+    from observatory_ops.calc.reliability import WeibullFit
+
+    def text(low, high):
+        return WeibullFit(1.0, 1.0, 3, 0, 0.0, False, low, high).beta_interval_text
+
+    assert (text(2.6, 8.0), text(0.29, 1.48), text(None, 0.5), text(1.0, None)) == (
+        "2.6 to 8.0", "0.29 to 1.5", "below 0.001 to 0.50", "1.0 to above 1000")
