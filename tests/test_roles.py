@@ -119,6 +119,7 @@ def records(site, telescope, users):
                                      taken_at=timezone.now(), taken_by=users["technician"])
     return {
         ("sites", "slug"): site.slug,
+        ("telescopes", "pk"): telescope.pk,
         ("subsystems", "pk"): subsystem.pk,
         ("plans", "pk"): subsystem.plans.first().pk,
         ("service", "pk"): record.pk,
