@@ -551,14 +551,16 @@ def test_two_plans_watching_one_quantity_each_read_the_reading_before_their_own_
 def test_a_newest_reading_far_under_the_trend_asks_whether_the_unit_was_adjusted(db, users):
     """A forecast review's left-alone list: a drive adjusted without a service logged read 0.45 s, and the trend still
     forecast the limit from the readings before, with nothing said. The newest reading more than 3 robust spreads
-    under the line (calc.trend.newest_off_the_line, the Hampel identifier, Leys et al. 2013) is named."""
+    under the line of the readings before it (calc.trend.newest_off_the_line, the Hampel identifier, Leys et al. 2013,
+    with our own conditions) is named."""
     weeks = [49, 42, 35, 28, 21, 14, 7, 0]
     noon = [dt.datetime.combine(TODAY - dt.timedelta(days=d), dt.time(12), tzinfo=dt.UTC) for d in weeks]
     values = [0.50, 0.56, 0.59, 0.66, 0.70, 0.74, 0.81, 0.45]
     site, plan = _drive_with_readings(users, "UTC", list(zip(noon, values, strict=True)), TODAY - dt.timedelta(days=60))
     services.site_recompute(site, TODAY)
     reason = PlanStatus.objects.get(plan=plan).reason
-    assert f"The newest reading (0.45 s, {TODAY:%d %b %Y}) lies far under this line (" in reason
+    assert (f"The newest reading (0.45 s, {TODAY:%d %b %Y}) lies far under the line of the readings before it ("
+            in reason)
     assert ("if the unit was adjusted, cleaned or repaired without a service logged, log that service, and the trend "
             "starts again from it") in reason
     # Within the scatter: not said.

@@ -1434,18 +1434,16 @@ def _reading_state(trig, readings, today: dt.date, zone, since: str) -> TriggerS
         if fit
         else no_fit
     )
-    if fit and (off := trend.newest_off_the_line([(m - origin).total_seconds() / 86400 for m, _ in readings],
-                                                  [v for _, v in readings], fit, rising)):
+    if fit and fit.crossing_day is not None and (off := trend.newest_off_the_line(
+            [(m - origin).total_seconds() / 86400 for m, _ in readings], [v for _, v in readings], trig.limit, rising)):
         # A forecast review adjusted a drive without logging it: the newest reading fell far under the limit, and the
         # trend still forecast the limit soon from the readings before, with nothing said.
         moment, value = readings[-1]
-        on_line = fit.value_at((moment - origin).total_seconds() / 86400)
-        far = "" if off == float("inf") else f", {off:.0f} times the others' robust spread"
         basis += (f". The newest reading ({figure_text(metrics.READING, unit, value)} {unit}, "
-                  f"{moment.astimezone(zone):%d %b %Y}) lies far "
-                  f"{'under' if rising else 'over'} this line ({significant(on_line)} {unit} on its day{far}): if the "
-                  "unit was adjusted, cleaned or repaired without a service logged, log that service, and the trend "
-                  "starts again from it")
+                  f"{moment.astimezone(zone):%d %b %Y}) lies far {'under' if rising else 'over'} the line of the "
+                  f"readings before it ({significant(off.expected)} {unit} on its day, {off.spreads:.0f} times their "
+                  "robust spread): if the unit was adjusted, cleaned or repaired without a service logged, log that "
+                  "service, and the trend starts again from it")
     state = TriggerState(
         metric=metrics.READING,
         value=readings[-1][1],
