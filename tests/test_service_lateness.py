@@ -118,3 +118,50 @@ def test_the_due_lists_csv_says_how_long_an_overdue_plan_has_been_past_its_limit
     today = site_today(late_plan.subsystem.telescope.site)
     assert (row["forecast"], row["days past the limit"]) == ("2026-01-01", str((today - dt.date(2026, 1, 1)).days))
     assert row["last service"] == ""  # none logged: the plan counts from the start given
+
+
+def test_work_entered_late_from_a_paper_log_is_judged_against_the_limit_it_answered(late_plan, users, client):
+    """A diff review logged a service of 01 Mar 2025 after the plan's newer one: it was called "on time" against the
+    newer period's limit, with that period's due sentence (logbook.services._due_without sets the later service
+    aside). By hand: counting from 1 Jan 2025, 365 days: work on 1 Mar 2025 came before the limit of 1 Jan 2026."""
+    services.service_record_log(late_plan.subsystem, late_plan, dt.date(2026, 1, 31), users["technician"], "Done")
+    client.force_login(users["technician"])
+    page = client.post(f"/subsystems/{late_plan.subsystem.pk}/service/new/", {
+        "plan": late_plan.pk, "performed_on": "2025-03-01", "hours_spent": "0.5", "summary": "From the paper log",
+        "findings": ""}, follow=True)
+    said = " ".join(str(m) for m in page.context["messages"])
+    assert "the plan 'Replace fan filters' counts on from its later service of 31 Jan 2026." in said
+    early = late_plan.service_records.get(performed_on=dt.date(2025, 3, 1))
+    assert (early.timeliness, early.limit_passed_on) == ("on time", None)
+    assert "limit reached on 01 Jan 2026" in early.due_when_logged or "01 Jan 2026" in early.due_when_logged
+    # The stored state is as it was: counting from the newer service.
+    assert PlanStatus.objects.get(plan=late_plan).last_service_on == dt.date(2026, 1, 31)
+    assert late_plan.service_records.filter(void=True).count() == 0
+
+
+def test_a_withdrawal_and_a_plan_without_a_trigger_say_so(late_plan, users):
+    record = services.service_record_log(late_plan.subsystem, late_plan, dt.date(2026, 1, 31), users["technician"],
+                                         "Filters replaced")
+    withdrawal = services.service_record_correct(record, users["engineer"], "Filters replaced", void=True,
+                                                 reason="logged on the wrong subsystem")
+    assert withdrawal.timeliness_text == "withdrawn (counts nothing)"
+    bare = ServicePlan.objects.create(subsystem=late_plan.subsystem, name="Look at the cable wrap",
+                                      counting_from=dt.date(2025, 1, 1), counting_from_given=True)
+    looked = services.service_record_log(late_plan.subsystem, bare, dt.date(2026, 2, 1), users["technician"], "Ok")
+    assert looked.timeliness_text == "no due state: the plan had no trigger, or was not counted"
+
+
+def test_records_kept_late_before_their_timeliness_was_kept_are_said_late(late_plan, users):
+    """Migration logbook 0015 fills in "late" where the limit's day was kept."""
+    import importlib
+
+    from django.apps import apps
+
+    from observatory_ops.logbook.models import ServiceRecord
+
+    record = services.service_record_log(late_plan.subsystem, late_plan, dt.date(2026, 1, 31), users["technician"],
+                                         "Filters replaced")
+    ServiceRecord.objects.filter(pk=record.pk).update(timeliness="", due_when_logged="")
+    migration = importlib.import_module("observatory_ops.logbook.migrations.0015_timeliness_without_a_state")
+    migration.late_records_said_late(apps, None)
+    assert ServiceRecord.objects.get(pk=record.pk).timeliness == "late"

@@ -162,6 +162,7 @@ class ServiceRecord(models.Model):
         max_length=12, blank=True, default="", editable=False, choices=[
             ("late", "late: after its limit was passed"), ("on time", "on time: before its limit was passed"),
             ("from start", "due from the start: its last service before was not known"),
+            ("no state", "no due state: the plan had no trigger, or was not counted"),
         ],
         help_text="For work on a plan, as its due state stood when the work was logged; empty for ad hoc work and for "
         "work logged before it was kept (``timeliness_text``).",
@@ -176,6 +177,8 @@ class ServiceRecord(models.Model):
     def timeliness_text(self) -> str:
         """Whether the work came late, in words for an export: "ad hoc" without a plan, "not kept" for work on a plan
         logged before the tool kept it."""
+        if self.void:
+            return "withdrawn (counts nothing)"
         if self.plan_id is None:
             return "ad hoc"
         return self.get_timeliness_display() if self.timeliness else "not kept (logged before it was)"

@@ -691,9 +691,11 @@ def due_before(plan: ServicePlan | None, performed_on: dt.date) -> DueBefore:
     record restarts it: late (with the day its governing limit was passed) when that day came before the work, due from
     the start for a plan whose last service is unknown (not late), on time otherwise. Nothing for ad hoc work or a plan
     with no state yet."""
-    status = None if plan is None else PlanStatus.objects.filter(plan=plan).first()
-    if status is None:
+    if plan is None:
         return DueBefore()
+    status = PlanStatus.objects.filter(plan=plan).first()
+    if status is None:  # a plan with no trigger, or not counted (inactive, its subsystem retired)
+        return DueBefore(None, "", "no state")
     if status.last_service_unknown:
         return DueBefore(None, status.reason, "from start")
     if status.status == OVERDUE and status.forecast_date is not None and status.forecast_date < performed_on:
@@ -724,7 +726,9 @@ def service_record_log(
     record = ServiceRecord(
         subsystem=subsystem, plan=plan, performed_on=performed_on, performed_by=performed_by or by,
         hours_spent=hours_spent, summary=summary, findings=findings, created_by=by, repaired_failure=repaired_failure,
-        **due_before(plan, performed_on).kept(),
+        **(_due_without(plan, performed_on) if plan is not None and ServiceRecord.objects.filter(
+            plan=plan, performed_on__gte=performed_on, corrected_by__isnull=True, void=False).exists()
+           else due_before(plan, performed_on)).kept(),
     )
     record.full_clean()
     with transaction.atomic():
@@ -733,26 +737,34 @@ def service_record_log(
     return record
 
 
-def _due_without(record: ServiceRecord, performed_on: dt.date) -> DueBefore:
-    """``due_before`` for work on ``record``'s plan done on ``performed_on`` in place of ``record``.
+def _due_without(plan: ServicePlan | None, performed_on: dt.date, record: ServiceRecord | None = None) -> DueBefore:
+    """``due_before`` for work on ``plan`` done on ``performed_on``, with the plan's services from ``performed_on`` on
+    set aside (and ``record``, the one a correction replaces).
 
-    The stored due state counts from ``record`` itself (logging it restarted the plan), or from a later service, so it
-    cannot say when the limit this work answered was passed: that counts from the plan's last service before
-    ``performed_on``. The state is worked out again with ``record`` and the plan's services from ``performed_on`` on
-    left out, inside a savepoint rolled back at once: nothing of it is kept, neither the records left out nor the due
-    states, which the caller recomputes."""
-    if record.plan_id is None:
+    The stored due state counts from the plan's newest service, so for work dated before it (a correction moving a
+    record back, or a service entered late from a paper log: a diff review's record of March was called "on time"
+    against November's limit) it cannot say what that work answered: that counts from the plan's last service before
+    ``performed_on``. The state is worked out again with those records left out, inside a transaction rolled back at
+    once: nothing of it is kept, neither the records left out nor the due states, which the caller recomputes."""
+    if plan is None:
         return DueBefore()
-    set_aside = transaction.savepoint()
+
+    class SetAside(Exception):
+        """Rolls the worked-out state back."""
+
+    found = DueBefore()
     try:
-        # Counted as no service while the state is read (the recompute counts no withdrawn record).
-        ServiceRecord.objects.filter(
-            Q(pk=record.pk) | Q(plan=record.plan_id, performed_on__gte=performed_on)
-        ).update(void=True)
-        site_recompute(record.subsystem.telescope.site)
-        return due_before(record.plan, performed_on)
-    finally:
-        transaction.savepoint_rollback(set_aside)
+        with transaction.atomic():
+            # Counted as no service while the state is read (the recompute counts no withdrawn record).
+            ServiceRecord.objects.filter(
+                Q(plan=plan, performed_on__gte=performed_on) | (Q(pk=record.pk) if record else Q(pk__in=[]))
+            ).update(void=True)
+            site_recompute(plan.subsystem.telescope.site)
+            found = due_before(plan, performed_on)
+            raise SetAside
+    except SetAside:
+        pass
+    return found
 
 
 def service_record_correct(
@@ -791,7 +803,7 @@ def service_record_correct(
             repaired_failure=original.repaired_failure,
             **(DueBefore() if void else DueBefore(original.limit_passed_on, original.due_when_logged,
                                                    original.timeliness) if performed_on == original.performed_on
-               else _due_without(original, performed_on)).kept(),
+               else _due_without(original.plan, performed_on, original)).kept(),
             work_order=original.work_order,
         )
         correction.full_clean()

@@ -134,12 +134,23 @@ def service_log(request, pk):
             messages.success(request, "Service work logged" + (
                 f" in the history of {subsystem.name}, retired on {subsystem.retired_on:%d %b %Y}: a retired "
                 "subsystem's plans are not counted, so no plan's counting restarts." if subsystem.retired_on
-                else f"; the plan '{data['plan'].name}' counts again from {data['performed_on']:%d %b %Y}."
+                else _plan_counts_from(data["plan"], data["performed_on"])
                 if data["plan"] else " (ad hoc work: no plan's counting restarts)."
             ) + (_failure_counted(subsystem, data["performed_on"]) if data["repaired_failure"] else ""))
             return redirect(subsystem)
     return render(request, "logbook/service_form.html", {"form": form, "subsystem": subsystem, "site": site,
                                                          **_retired(subsystem)})
+
+
+def _plan_counts_from(plan, day: dt.date) -> str:
+    """Where the plan counts from once work of ``day`` is logged: that day, or its later service (work entered late
+    from a paper log restarts nothing: a diff review was told "counts again from 01 Mar 2025")."""
+    from observatory_ops.planning.models import PlanStatus
+
+    last = PlanStatus.objects.filter(plan=plan).values_list("last_service_on", flat=True).first()
+    if last is not None and last > day:
+        return f"; the plan '{plan.name}' counts on from its later service of {last:%d %b %Y}."
+    return f"; the plan '{plan.name}' counts again from {day:%d %b %Y}."
 
 
 def _failure_counted(subsystem: Subsystem, day: dt.date) -> str:
