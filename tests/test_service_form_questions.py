@@ -83,7 +83,8 @@ def test_a_service_dated_before_the_unit_entered_service_is_asked_about(fans, us
     sent = _form(fans, performed_on=early.isoformat())
     page = client.post(url, sent)
     assert page.status_code == 200 and not ServiceRecord.objects.exists()
-    assert (f"{early:%d %b %Y} is before Mirror cell fans entered service here ({fans.in_service_since:%d %b %Y}): the "
+    assert (f"{early:%d %b %Y} is before the day Mirror cell fans entered service here "
+            f"({fans.in_service_since:%d %b %Y}): the "
             "plan would count this telescope&#x27;s nights from") in page.content.decode()
     assert client.post(url, _form(fans)).status_code == 302  # on or after the day it entered service: not asked
     ServiceRecord.objects.all().delete()
@@ -106,7 +107,8 @@ def test_a_correction_moving_a_service_before_the_unit_entered_service_is_asked_
             "reason": "typed the wrong day"}
     page = client.post(url, sent)
     assert page.status_code == 200
-    assert (f"{early:%d %b %Y} is before Mirror cell fans entered service here ({fans.in_service_since:%d %b %Y})"
+    assert (f"{early:%d %b %Y} is before the day Mirror cell fans entered service here "
+            f"({fans.in_service_since:%d %b %Y})"
             ) in page.content.decode()
     assert ServiceRecord.objects.count() == 1
     assert client.post(url, {**sent, "value_confirmed": "on", "questioned": _asked(page)}).status_code == 302
@@ -143,8 +145,10 @@ def test_a_repair_without_a_plan_dated_before_the_unit_entered_service_is_asked_
             "findings": "seized bearing", "repaired_failure": "on"}
     page = client.post(url, sent)
     assert page.status_code == 200 and not ServiceRecord.objects.exists()
-    assert (f"{early:%d %b %Y} is before Mirror cell fans entered service here ({fans.in_service_since:%d %b %Y}): the "
-            "reliability page would leave the repair out, as a failure of the unit it replaced."
+    assert (f"{early:%d %b %Y} is before the day Mirror cell fans entered service here "
+            f"({fans.in_service_since:%d %b %Y}): the "
+            "reliability page would take the failure (night of "
+            f"{early - dt.timedelta(days=1):%d %b %Y}) for one of the unit it replaced, and leave it out."
             ) in page.content.decode()
     kept = client.post(url, {**sent, "value_confirmed": "on", "questioned": _asked(page)}, follow=True)
     said = " ".join(str(m) for m in kept.context["messages"])
@@ -161,3 +165,69 @@ def test_a_repair_without_a_plan_dated_before_the_unit_entered_service_is_asked_
     said = " ".join(str(m) for m in again.context["messages"])
     assert (f"The reliability page counts it as a failure on the night of {today - dt.timedelta(days=11):%d %b %Y}."
             in said)
+
+
+def test_a_repair_the_day_after_the_unit_entered_service_is_asked_about_as_the_reliability_page_counts_it(
+        fans, users, client):
+    """A diff review: a repair on 02 Nov of a unit in service since 01 Nov was not asked about, while the reliability
+    page left its failure (night of 01 Nov) out as the replaced unit's. Asked now by the page's own rule; one on 03 Nov
+    is not."""
+    today = site_today(fans.telescope.site)
+    since = today - dt.timedelta(days=10)
+    fans.in_service_since = since
+    fans.save()
+    url = f"/subsystems/{fans.pk}/service/new/"
+    client.force_login(users["technician"])
+    sent = {"plan": "", "performed_on": (since + dt.timedelta(days=1)).isoformat(), "hours_spent": "1",
+            "summary": "Fan replaced", "findings": "", "repaired_failure": "on"}
+    page = client.post(url, sent)
+    assert page.status_code == 200 and not ServiceRecord.objects.exists()
+    assert (f"{since + dt.timedelta(days=1):%d %b %Y} follows by a night at most the day Mirror cell fans entered "
+            f"service here ({since:%d %b %Y}): the reliability page would take the failure (night of {since:%d %b %Y})"
+            ) in page.content.decode()
+    assert client.post(url, {**sent, "performed_on": (since + dt.timedelta(days=2)).isoformat()}).status_code == 302
+
+
+def test_a_tick_answers_every_question_the_page_showed_and_no_other(fans, users, client):
+    """Both questions of the date are shown beside it (a diff review's tick on "a second one?" let the date before the
+    unit entered service through unseen); a tick given before the repair box was ticked does not hold for it."""
+    today = site_today(fans.telescope.site)
+    plan = fans.plans.first()
+    url = f"/subsystems/{fans.pk}/service/new/"
+    client.force_login(users["technician"])
+    early = today - dt.timedelta(days=30)
+    assert client.post(url, _form(fans, performed_on=early.isoformat(), summary="First")).status_code == 302
+    fans.in_service_since = today - dt.timedelta(days=5)
+    fans.save()
+    page = client.post(url, _form(fans, performed_on=early.isoformat(), summary="Second"))
+    text = page.content.decode()
+    assert f"A service of &quot;{plan.name}&quot; is already logged on {early:%d %b %Y}" in text
+    assert f"{early:%d %b %Y} is before the day Mirror cell fans entered service here" in text
+    # The tick was given for the work without the repair box: ticked now, the repair is asked about again.
+    again = client.post(url, _form(fans, performed_on=early.isoformat(), summary="Second", repaired_failure="on",
+                                   value_confirmed="on", questioned=_asked(page)))
+    assert again.status_code == 200 and ServiceRecord.objects.count() == 1
+
+
+def test_a_corrected_repair_says_what_the_reliability_page_does_with_its_failure(fans, users, client):
+    """A diff review moved a repair before the unit's in-service date: the correction's message said nothing of the
+    failure leaving the reliability page, which the service form's says."""
+    from observatory_ops.reliability.selectors import REPLACED_UNIT
+
+    today = site_today(fans.telescope.site)
+    client.force_login(users["technician"])
+    assert client.post(f"/subsystems/{fans.pk}/service/new/", {
+        "plan": "", "performed_on": today.isoformat(), "hours_spent": "1", "summary": "Fan replaced", "findings": "",
+        "repaired_failure": "on"}).status_code == 302
+    original = ServiceRecord.objects.get()
+    fans.in_service_since = today - dt.timedelta(days=20)
+    fans.save()
+    early = today - dt.timedelta(days=40)
+    url = f"/service/{original.pk}/correct/"
+    sent = {"performed_on": early.isoformat(), "hours_spent": "1", "summary": "Fan replaced", "findings": "",
+            "reason": "the day from the paper log"}
+    page = client.post(url, sent)
+    assert "the reliability page would take the failure" in page.content.decode()
+    done = client.post(url, {**sent, "value_confirmed": "on", "questioned": _asked(page)}, follow=True)
+    said = " ".join(str(m) for m in done.context["messages"])
+    assert f"out of the failures of Mirror cell fans: {REPLACED_UNIT}." in said

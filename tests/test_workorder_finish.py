@@ -182,14 +182,36 @@ def test_a_day_of_work_before_a_subsystem_entered_service_is_questioned_once_the
     first = client.post(f"/workorders/{order.pk}/finish/", data)
     shown = _text(first)
     assert first.status_code == 200
-    assert (f"{day:%d %b %Y} is before {unit.name} ({today - dt.timedelta(days=1):%d %b %Y}) entered service here: "
-            "its plans would count this telescope's nights") in shown and "Not recorded yet" in shown
+    assert (f"{day:%d %b %Y} is before the day {unit.name} entered service here "
+            f"({today - dt.timedelta(days=1):%d %b %Y}): the plan would count this telescope's nights") in shown
+    assert "Not recorded yet" in shown
     _nothing_stored(order)
     data["flagged"] = re.findall(r'name="flagged" value="([^"]+)"', html.unescape(first.content.decode()))
     data["readings_confirmed"] = "on"
     again = client.post(f"/workorders/{order.pk}/finish/", data)
     assert again.status_code == 302, _text(again)[-1500:]
     assert ServiceRecord.objects.get(work_order=order).performed_on == day
+
+
+def test_a_repair_orders_day_before_its_unit_entered_service_names_the_reliability_page(order, users, client,  # noqa: F811
+                                                                                          ):
+    """A diff review finished a corrective order with no plan, dated before its unit entered service: the question
+    spoke of plans it had not got, and the failure's leaving the reliability page went unsaid."""
+    WorkOrder.objects.filter(pk=order.pk).update(order_type=WorkOrder.Type.CORRECTIVE)
+    order.items.update(plan=None)
+    order.refresh_from_db()
+    _started(order, users, issued_days_ago=5)
+    today = site_today(order.site)
+    day = today - dt.timedelta(days=4)
+    unit = order.items.first().subsystem
+    Subsystem.objects.filter(pk=unit.pk).update(in_service_since=today - dt.timedelta(days=1))
+    client.force_login(users["technician"])
+    shown = _text(client.post(f"/workorders/{order.pk}/finish/", _post(order, work_done_on=day.isoformat())))
+    assert (f"{day:%d %b %Y} is before the day {unit.name} entered service here "
+            f"({today - dt.timedelta(days=1):%d %b %Y}): the reliability page would take the failure") in shown
+    assert "the plan would count" not in shown
+    assert "or a day of work before a subsystem entered service" in shown
+    _nothing_stored(order)
 
 
 # --- 3. whether a mirror was cleaned ------------------------------------------------------------------------

@@ -41,18 +41,27 @@ class QuestionedValueMixin:
 
 
 def before_in_service(subsystem, day: dt.date, planned: bool, repair: bool) -> str:
-    """The question asked of work dated ``day``, before ``subsystem`` entered service here, when it is done for a plan
-    (``planned``: the plan would count the nights of what the unit replaced) or repaired a failure (``repair``: the
-    reliability page leaves it out as the failure of the unit replaced, ``reliability.selectors.REPLACED_UNIT``); ""
-    when it is not asked. A forecast review logged a service months before a new brake was fitted: it became the
-    plan's baseline without a word; a reliability review logged a repair so, and it left the failure count unsaid."""
+    """The question asked of work dated ``day`` near or before the day ``subsystem`` entered service here: done for a
+    plan (``planned``) before that day, the plan would count the nights of what the unit replaced; the repair of a
+    failure (``repair``) whose night (the night before ``day``) is on or before that day, the reliability page takes
+    it for the failure of the unit replaced and leaves it out (``reliability.selectors.REPLACED_UNIT``, by the same
+    rule). "" when nothing is asked. A forecast review logged a service months before a new brake was fitted: it
+    became the plan's baseline without a word; a reliability review logged a repair so, and it left the failure count
+    unsaid."""
     since = subsystem.in_service_since
-    if since is None or day >= since or not (planned or repair):
+    if since is None:
         return ""
-    said = [f"the plan would count this telescope's nights from {day:%d %b %Y}, nights of what it replaced"] * planned
-    said += ["the reliability page would leave the repair out, as a failure of the unit it replaced"] * repair
-    return (f"{day:%d %b %Y} is before {subsystem.name} entered service here ({since:%d %b %Y}): {' and '.join(said)}. "
-            "Log it so only for a unit fitted used, its work before it came.")
+    said = []
+    if planned and day < since:
+        said.append(f"the plan would count this telescope's nights from {day:%d %b %Y}, nights of what it replaced")
+    if repair and day - dt.timedelta(days=1) <= since:
+        said.append(f"the reliability page would take the failure (night of {day - dt.timedelta(days=1):%d %b %Y}) for "
+                    "one of the unit it replaced, and leave it out")
+    if not said:
+        return ""
+    when = "is before" if day < since else "follows by a night at most"
+    return (f"{day:%d %b %Y} {when} the day {subsystem.name} entered service here ({since:%d %b %Y}): "
+            f"{' and '.join(said)}.")
 
 
 class ServiceRecordForm(QuestionedValueMixin, forms.Form):
@@ -121,7 +130,7 @@ class ServiceRecordForm(QuestionedValueMixin, forms.Form):
         repair = data.get("repaired_failure", False)
         if day is None or (plan is None and not repair):  # ad hoc work that repaired nothing: nothing to ask
             return data
-        asked = f"{plan.pk if plan else ''}|{day}|{hours!r}"
+        asked = f"{plan.pk if plan else ''}|{day}|{hours!r}|{repair}"  # a tick is for these, the repair box too
         if self.confirmed_for(asked) or service_already_logged(
             self.subsystem, self.by, plan, day, data.get("summary", ""), hours, data.get("findings", ""), timezone.now()
         ):
@@ -137,8 +146,9 @@ class ServiceRecordForm(QuestionedValueMixin, forms.Form):
             self.add_error("performed_on", (
                 f"A service of \"{plan.name}\" is already logged on {day:%d %b %Y} ({same_day.summary}, by "
                 f"{person(same_day.performed_by)}): is this a second one? {keep}"))
-        if (question := before_in_service(self.subsystem, day, plan is not None, repair)) and not self.has_error(
-                "performed_on"):
+        # Each question said, beside the other on the same field: one tick answers what the page shows (a diff review's
+        # tick on "a second one?" let a date before the unit entered service through unseen).
+        if question := before_in_service(self.subsystem, day, plan is not None, repair):
             self.add_error("performed_on", f"{question} {keep}")
         held = [] if plan is None else list(
             WorkOrder.objects.filter(items__plan=plan, state__in=(State.DRAFT, State.ISSUED, State.UNDERWAY))

@@ -188,7 +188,9 @@ def service_correct(request, pk):
         except ValidationError as exc:
             _form_errors_from(form, exc)
         else:
-            messages.success(request, "Correction logged; the original record is kept and marked as superseded.")
+            messages.success(request, "Correction logged; the original record is kept and marked as superseded." + (
+                _failure_counted(original.subsystem, data["performed_on"])
+                if original.repaired_failure and not data["void"] else ""))
             return redirect(original.subsystem)
     return render(request, "logbook/correction_form.html", {"form": form, "original": original})
 

@@ -379,8 +379,8 @@ NOT_RECORDED_YET = ("Not recorded yet: correct it, or if it is right, tick \"The
 READINGS_CONFIRM = "The questioned figures are right as entered"
 READINGS_QUESTIONED = (
     "Not finished yet: {n} questioned beside {its} field{s} (a reading beyond its limit or above a mirror's fresh "
-    "coating, or hours far above the estimate). Correct {it}, or tick \"" + READINGS_CONFIRM + "\" and press Finish "
-    "again."
+    "coating, hours far above the estimate, or a day of work before a subsystem entered service). Correct {it}, or "
+    "tick \"" + READINGS_CONFIRM + "\" and press Finish again."
 )
 
 
@@ -686,20 +686,18 @@ class FinishForm(forms.Form):
                                  f"minutes typed for hours? {NOT_RECORDED_YET}")}
 
     def before_in_service(self) -> dict[str, str]:
-        """The day of work beside its field when it comes before a subsystem of the order entered service (its "in
-        service since" moved past the order's issue), as the service form asks (``logbook.forms.ServiceRecordForm``):
-        its plans would count the nights of what it replaced. Valid forms only; shown once, as a questioned reading
-        is."""
+        """The day of work beside its field when it comes near or before the day a subsystem of the order entered
+        service (its "in service since" moved past the order's issue), asked as the service form asks
+        (``logbook.forms.before_in_service``): for a plan of the order, or the repair a corrective order is. Valid forms
+        only; shown once, as a questioned reading is."""
+        from observatory_ops.logbook.forms import before_in_service  # the work orders build on the logbook
+
         day = self.cleaned_data["work_done_on"]
-        later = sorted({i.subsystem for i in self._items if i.subsystem.in_service_since and day < i.subsystem
-                        .in_service_since}, key=lambda s: (s.in_service_since, s.name))
-        if not later:
-            return {}
-        named = in_words([f"{s.name} ({s.in_service_since:%d %b %Y})" for s in later])
-        return {"work_done_on": (f"{day:%d %b %Y} is before {named} entered service here: "
-                                 f"{'its' if len(later) == 1 else 'their'} plans would count this telescope's nights "
-                                 f"from {day:%d %b %Y}, nights of what {'it' if len(later) == 1 else 'they'} "
-                                 f"replaced. {NOT_RECORDED_YET}")}
+        repair = self._order.order_type == WorkOrder.Type.CORRECTIVE
+        questions = dict.fromkeys(
+            question for item in sorted(self._items, key=lambda i: (i.subsystem.name, i.pk))
+            if (question := before_in_service(item.subsystem, day, item.plan_id is not None, repair)))
+        return {"work_done_on": f"{' '.join(questions)} {NOT_RECORDED_YET}"} if questions else {}
 
     def above_fresh(self) -> dict[str, str]:
         """Field name -> the question beside it, for each mirror's band reflectance entered well above the fresh value
