@@ -377,3 +377,10 @@ def test_a_recoat_entered_without_orders_counts_in_the_forecasts_as_on_the_dashb
     assert str(event["status"]) == "TENTATIVE" and event["dtstart"].dt == first
     assert str(event["description"]).startswith("Entered in the admin without work orders: the forecasts count the "
                                                 "telescope out on these days.")
+    # Its days past, the feed no longer says so (a diff review).
+    RecoatPlan.objects.filter(pk=recoat.pk).update(starts_on=today - dt.timedelta(days=9),
+                                                   ends_on=today - dt.timedelta(days=7))
+    event = next(e for e in Calendar.from_ical(site_calendar(site, "http://testserver")).walk("VEVENT")
+                 if str(e["uid"]).startswith(f"recoat-{recoat.pk}@"))
+    assert str(event["description"]).startswith("Entered in the admin without work orders, its days past: the "
+                                                "forecasts no longer count them.")

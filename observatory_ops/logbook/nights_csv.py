@@ -383,7 +383,12 @@ def _flag(raw: object, name: str, as_json: bool) -> bool:
 WRITTEN_DATE = re.compile(r"([0-9]{4})-([0-9]{2})-([0-9]{2})")
 #: A date in another layout, as a spreadsheet program shows dates and may save them ("12/6/2023", "6.12.2023",
 #: "2023/12/06 0:00"): digits in three groups separated by / or by dot.
-RELAID_DATE = re.compile(r"[0-9]{1,4}([/.])[0-9]{1,2}\1[0-9]{1,4}")
+RELAID_DATE = re.compile(
+    r"[0-9]{1,4}([/.])[0-9]{1,2}\1[0-9]{1,4}"  # 12/6/2023, 6.12.2023, 2023/12/06
+    r"|[0-9]{1,2}-[0-9]{1,2}-[0-9]{2,4}"  # 6-12-2023 (not 2024-1-5: typed, not relaid)
+    r"|[0-9]{1,2}[ -]?[A-Za-z]{3,9}[ ,-]+[0-9]{2,4}"  # 06-Dec-2023, 6 December 2023
+    r"|[A-Za-z]{3,9}[ -][0-9]{1,2},? [0-9]{2,4}"  # Dec 6, 2023 (a diff review's layouts got no word)
+)
 #: What a CSV file with such a date is told. Its day and month are never guessed: "12/6/2023" is 12 June in one
 #: country and 6 December in another.
 RELAID_HINT = ("; a spreadsheet program may have changed the dates' layout when the file was saved: keep the night "

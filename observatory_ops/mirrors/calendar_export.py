@@ -109,6 +109,9 @@ def site_calendar(site: Site, base_url: str) -> bytes:
             continue
         if subsystem.retired_on is not None:
             described = f"Not done: {subsystem.name} was retired on {subsystem.retired_on:%d %b %Y}. {described}"
+        elif not orders_of and out.last < today:  # past: no longer in hand (planning.services.recoats_in_hand)
+            described = ("Entered in the admin without work orders, its days past: the forecasts no longer count "
+                         f"them. If it was done, log its new coating on the mirror's page. {described}")
         elif not orders_of:  # tentative, as a draft's days are, yet the forecasts take the telescope out on them
             described = ("Entered in the admin without work orders: the forecasts count the telescope out on these "
                          "days. For work orders, delete it there (Recoat plans) and plan the recoat on the mirror's "

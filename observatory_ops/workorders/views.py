@@ -77,7 +77,9 @@ def _tick_refused(request, order: WorkOrder) -> dict | None:
 @requires(VIEWER)
 def work_order_list(request):
     filtered = WorkOrderFilter(request.GET, queryset=selectors.work_orders_listed(), request=request)
-    table = WorkOrderTable(filtered.qs)
+    # A filter that cannot be applied lists nothing, as the page says above the rows (a diff review's bad done date
+    # listed every order under "No orders are listed"; django-filter skips such a filter).
+    table = WorkOrderTable(filtered.queryset.none() if filtered.errors else filtered.qs)
     RequestConfig(request, paginate={"per_page": 50}).configure(table)
     return render(request, "workorders/list.html", {"filter": filtered, "table": table,
                                                     "query": request.GET.urlencode()})
