@@ -1,4 +1,5 @@
-"""What the management commands say about a file they are given and cannot reach, and which database they use."""
+"""What the management commands say about a file they are given and cannot reach, which database they use, and a site
+they are given by slug."""
 from __future__ import annotations
 
 import getpass
@@ -27,3 +28,14 @@ def database_in_use() -> str:
             " (the embedded default: DATABASE_URL is not set; load the environment file to use the site's database)")
         return f"the SQLite file {db['NAME']}{default}"
     return f"the PostgreSQL database {db['NAME']} on {db['HOST'] or 'localhost'}:{db['PORT'] or 5432}"
+
+
+def site_by_slug(slug: str):
+    """The site of ``slug``, or a CommandError naming the slugs there are and the database looked in."""
+    from observatory_ops.registry.models import Site  # the registry's models load after this module
+
+    site = Site.objects.filter(slug=slug).first()
+    if site is None:
+        known = ", ".join(Site.objects.values_list("slug", flat=True)) or "none"
+        raise CommandError(f"no site with slug {slug!r} (known: {known}) in {database_in_use()}")
+    return site

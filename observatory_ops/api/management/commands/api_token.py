@@ -4,7 +4,7 @@ from django.core.management.base import BaseCommand, CommandError
 from observatory_ops.api import services
 from observatory_ops.api.models import ApiToken
 from observatory_ops.api.selectors import calendar_link
-from observatory_ops.command_files import database_in_use
+from observatory_ops.command_files import database_in_use, site_by_slug
 from observatory_ops.registry.models import Site
 
 
@@ -33,11 +33,7 @@ class Command(BaseCommand):
         getattr(self, f"_{action}")(**options)
 
     def _site(self, slug: str) -> Site:
-        site = Site.objects.filter(slug=slug).first()
-        if site is None:
-            known = ", ".join(Site.objects.values_list("slug", flat=True)) or "none"
-            raise CommandError(f"no site with slug {slug!r} (known: {known}) in {database_in_use()}")
-        return site
+        return site_by_slug(slug)
 
     def _create(self, site, name, calendar, **options):
         purpose = ApiToken.Purpose.CALENDAR if calendar else ApiToken.Purpose.CONTROL

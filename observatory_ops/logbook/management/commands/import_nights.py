@@ -4,9 +4,8 @@ from django.conf import settings
 from django.core.management.base import BaseCommand, CommandError
 from django.template.defaultfilters import pluralize
 
-from observatory_ops.command_files import unreachable
+from observatory_ops.command_files import site_by_slug, unreachable
 from observatory_ops.logbook import services
-from observatory_ops.registry.models import Site
 
 
 def _not_a_file(path: Path) -> str:
@@ -34,10 +33,7 @@ class Command(BaseCommand):
         parser.add_argument("--skip-bad", action="store_true", help="store the good rows and list the bad ones")
 
     def handle(self, *args, file, site, skip_bad, **options):
-        target = Site.objects.filter(slug=site).first()
-        if target is None:
-            known = ", ".join(Site.objects.values_list("slug", flat=True)) or "none"
-            raise CommandError(f"no site with slug {site!r} (known: {known})")
+        target = site_by_slug(site)
         path = Path(file)
         try:
             if not path.is_file():

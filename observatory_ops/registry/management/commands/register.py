@@ -4,9 +4,9 @@ from django.contrib.auth import get_user_model
 from django.core.management.base import BaseCommand, CommandError
 
 from observatory_ops.access.roles import ENGINEER, has_role
-from observatory_ops.command_files import database_in_use, unreachable
+from observatory_ops.command_files import site_by_slug, unreachable
 from observatory_ops.planning.services import site_today
-from observatory_ops.registry.models import Site, Telescope
+from observatory_ops.registry.models import Telescope
 from observatory_ops.registry.register_file import RegisterFileError, read_register_file, register_import, register_of
 
 #: The largest register file read: a telescope of a few hundred subsystems writes well under 2 MB.
@@ -36,10 +36,7 @@ class Command(BaseCommand):
         getattr(self, f"_{action}")(**options)
 
     def _telescope(self, site: str, telescope: str) -> Telescope:
-        found = Site.objects.filter(slug=site).first()
-        if found is None:
-            known = ", ".join(Site.objects.values_list("slug", flat=True)) or "none"
-            raise CommandError(f"no site with slug {site!r} (known: {known}) in {database_in_use()}")
+        found = site_by_slug(site)
         scope = found.telescopes.filter(name=telescope).first()
         if scope is None:
             known = ", ".join(found.telescopes.values_list("name", flat=True)) or "none"
