@@ -12,6 +12,7 @@ from django.core.management import CommandError, call_command
 
 from observatory_ops.planning.models import PlanStatus, ServicePlan, Trigger
 from observatory_ops.planning.services import site_today
+from observatory_ops.registry.catalogue import KINDS
 from observatory_ops.registry.models import Site, Subsystem, Telescope
 from observatory_ops.registry.register_file import (
     FORMAT,
@@ -32,7 +33,8 @@ def source(telescope):
     fans = subsystem_create(telescope, "cooling_fans", "Cell fans, east — Ø120 mm", counting_from=start)
     fans.serial_number, fans.in_service_since, fans.notes = "SN-1", start, "=noisy"
     fans.save()
-    Subsystem.objects.create(telescope=telescope, parent=fans, kind="cooling_fans", name="Fan filter")
+    Subsystem.objects.create(telescope=telescope, parent=fans, kind="cooling_fans", name="Fan filter",
+                             hazards=list(KINDS["cooling_fans"].hazards))
     brake = subsystem_create(telescope, "brake", "Old brake", counting_from=start)
     brake.retired_on = site_today(telescope.site)
     brake.save()
@@ -85,6 +87,44 @@ def test_reading_the_same_file_twice_adds_nothing(source, target, users):
     assert len(second.subsystems_there) == 2 and len(second.plans_there) == len(first.plans_added)
 
 
+def test_a_subsystem_keeps_its_kinds_hazards_whatever_the_file_says(source, target, users):
+    """A register review emptied the AC distribution's hazards in the file: its order needed no isolation and had no
+    caution, and could be issued. The kind's hazards stay, as the admin's add page and subsystem_create give them."""
+    content = read_register_file(_file(source))
+    content["subsystems"][0]["hazards"] = []
+    register_import(target, content, users["engineer"], site_today(target.site))
+    fans = target.subsystems.get(name="Cell fans, east — Ø120 mm")
+    assert set(KINDS["cooling_fans"].hazards) <= set(fans.hazards) and fans.hazards
+
+
+def test_what_the_file_cannot_bring_is_said_and_a_plan_changed_since_is_named(source, target, users):
+    content = read_register_file(_file(source))
+    read = register_import(target, content, users["engineer"], site_today(target.site))
+    assert any(s.startswith("Q50 has no isolation points: register them (AC mains first)") for s in read.to_enter)
+    assert any("no in-service date" in s for s in read.to_enter)
+    assert "no service plan for Fan filter" in read.to_enter
+    plan = content["subsystems"][0]["plans"][0]
+    plan["triggers"][0]["limit"] = plan["triggers"][0]["limit"] + 10
+    again = register_import(target, content, users["engineer"], site_today(target.site))
+    assert again.plans_differing == [f"Cell fans, east — Ø120 mm: {plan['name']}"]
+    assert (f"; of those, 1 plan differs from the file (Cell fans, east — Ø120 mm: {plan['name']}): change it in "
+            "the admin if the file is right") in again.summary
+
+
+def test_a_shared_enclosure_already_at_the_site_is_not_registered_again(target, users):
+    """A register review copied a telescope at a site under one roll-off roof: the roof was registered twice."""
+    site = target.site
+    site.shared_enclosure = True
+    site.save()
+    roof = subsystem_create(target, "enclosure", "Roll-off roof", counting_from=site_today(site))
+    other = Telescope.objects.create(site=site, name="Q30", aperture_m=0.3, mount="fork")
+    content = read_register_file(json.dumps(register_of(target, site_today(site))).encode())
+    read = register_import(other, content, users["engineer"], site_today(site))
+    assert not other.subsystems.exists() and read.subsystems_added == []
+    assert read.subsystems_there == ["Roll-off roof (the enclosure Quill Mesa's telescopes share)"]
+    assert Subsystem.objects.filter(kind="enclosure").get() == roof
+
+
 @pytest.mark.parametrize("change, problem", [
     (lambda c: c["subsystems"][0].update(kind="warp_drive"), "subsystem 1 (Cell fans, east — Ø120 mm): kind: "),
     (lambda c: c["subsystems"][0]["plans"][0]["triggers"][0].update(limit=-5),
@@ -93,6 +133,17 @@ def test_reading_the_same_file_twice_adds_nothing(source, target, users):
     (lambda c: c["subsystems"][1].update(colour="red"), "subsystem 2 (Fan filter): unknown field colour"),
     (lambda c: c["subsystems"][0]["plans"][0].update(triggers=[]), "a plan needs at least one trigger"),
     (lambda c: c["subsystems"][1].update(part_of="Nothing here"), "part of 'Nothing here', which comes after it"),
+    # A register review's hand edits, each stored garbled or unchecked before.
+    (lambda c: c["subsystems"][0]["plans"][0].update(hazards=["cryogne"]), ": hazards: hazards must be a list"),
+    (lambda c: c["subsystems"][0]["plans"][0].update(hazards="height"), ": hazards: must be a list"),
+    (lambda c: c["subsystems"][0]["plans"][0].update(steps=["one", "two"]), ": steps: must be text"),
+    (lambda c: c["subsystems"][0]["plans"][0]["triggers"][0].update(limit=True),
+     ", trigger 1: limit: must be a number"),
+    (lambda c: c["subsystems"][0]["plans"][0]["triggers"][0].update(limit=10 ** 400), "is no usable number"),
+    (lambda c: c["subsystems"][0]["plans"].append(dict(c["subsystems"][0]["plans"][0])),
+     "a second plan of this name on the subsystem in the file"),
+    (lambda c: c["subsystems"][0].update(kind="warp_drive") or None, "subsystem 2 (Fan filter): part of "
+     "'Cell fans, east — Ø120 mm', which was refused above"),
 ])
 def test_a_bad_record_is_named_by_its_place_and_nothing_is_stored(source, target, users, change, problem):
     content = read_register_file(_file(source))
@@ -106,6 +157,10 @@ def test_a_bad_record_is_named_by_its_place_and_nothing_is_stored(source, target
 
 @pytest.mark.parametrize("data, problem", [
     (b"\xff\xfe not text", "the file is not UTF-8 text"),
+    (b"  \n", "the file is empty"),
+    (b"[" * 100000 + b"]" * 100000, "the file nests its records too deeply"),
+    (json.dumps({"format": FORMAT, "version": 1, "subsystems": [], "mirrors": []}).encode(),
+     "the register has unknown field mirrors"),
     (b"{not json", "the file is not JSON (line 1, column 2"),
     (b'{"format": "something else", "version": 1, "subsystems": []}', "the file is not a telescope register"),
     (json.dumps({"format": FORMAT, "version": 2, "subsystems": []}).encode(), "the register's version is 2"),

@@ -15,7 +15,7 @@ REGISTER_FILE_MAX_BYTES = 10 * 1024 * 1024
 
 class Command(BaseCommand):
     help = ("Write a telescope's subsystems and service plans to a JSON file, or read such a file into another "
-            "telescope (README: Copying a telescope's register). Serial numbers, in-service days and service history "
+            "telescope (README: Your own observatory). Serial numbers, in-service days and service history "
             "stay behind; the plans read in count with their last service unknown.")
 
     def add_arguments(self, parser):
@@ -88,3 +88,5 @@ class Command(BaseCommand):
             self.stdout.write(f"added plan {name}")
         self.stdout.write(f"{scope.site.name} {scope.name}: {read.summary}. The plans added count from today with "
                           "their last service unknown (due now) until their first service is logged.")
+        for sentence in read.to_enter:
+            self.stdout.write(f"Still to enter: {sentence}.")
