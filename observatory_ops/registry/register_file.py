@@ -225,8 +225,9 @@ def _to_enter(telescope: Telescope) -> list[str]:
     subsystems = list(telescope.subsystems.filter(retired_on__isnull=True).prefetch_related("plans"))
     mirrors = set(Mirror.objects.filter(subsystem__in=subsystems).values_list("subsystem_id", flat=True))
     if bare := [s.name for s in subsystems if s.kind in TRAIN_KINDS and s.pk not in mirrors]:
-        said.append(f"no mirror record for {', '.join(bare)}: enter {'its' if len(bare) == 1 else 'each one's'} size, "
-                    "material and last coating under Mirrors")
+        whose = "its" if len(bare) == 1 else "each one's"
+        said.append(f"no mirror record for {', '.join(bare)}: enter {whose} size, material and last coating under "
+                    "Mirrors")
     if undated := [s.name for s in subsystems if s.in_service_since is None]:
         said.append(f"{len(undated)} subsystem{'s have' if len(undated) > 1 else ' has'} no in-service date: give "
                     "those you know under Subsystems (the reliability page counts hours from it)")
