@@ -1371,6 +1371,12 @@ def _recoat_line_state(mirror, today: dt.date, log: UsageLog, model: UsageModel,
     )
 
 
+#: A newest reading far on the good side of its trend is named only where the trend reaches the limit within a year of
+#: it: where the forecast is near, the sentence matters, and noise alone on a flat line then names it in under 1 % of
+#: series (calc.trend.newest_off_the_line; our own figure, common practice, no published source).
+STEP_SAID_WITHIN_DAYS = 365
+
+
 def reading_trend_fit(
     readings: list[tuple[dt.datetime, float]], limit: float, rising: bool
 ) -> tuple[trend.Trend | None, dt.datetime, str]:
@@ -1434,8 +1440,9 @@ def _reading_state(trig, readings, today: dt.date, zone, since: str) -> TriggerS
         if fit
         else no_fit
     )
-    if fit and fit.crossing_day is not None and (off := trend.newest_off_the_line(
-            [(m - origin).total_seconds() / 86400 for m, _ in readings], [v for _, v in readings], trig.limit, rising)):
+    if fit and (off := trend.newest_off_the_line(
+            [(m - origin).total_seconds() / 86400 for m, _ in readings], [v for _, v in readings], trig.limit, rising,
+            within_days=STEP_SAID_WITHIN_DAYS)):
         # A forecast review adjusted a drive without logging it: the newest reading fell far under the limit, and the
         # trend still forecast the limit soon from the readings before, with nothing said.
         moment, value = readings[-1]
