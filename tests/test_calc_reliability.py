@@ -218,5 +218,5 @@ def test_the_shapes_interval_is_written_to_two_significant_figures_and_an_open_e
     def text(low, high):
         return WeibullFit(1.0, 1.0, 3, 0, 0.0, False, low, high).beta_interval_text
 
-    assert (text(2.6, 8.0), text(0.29, 1.48), text(None, 0.5), text(1.0, None)) == (
-        "2.6 to 8.0", "0.29 to 1.5", "below 0.001 to 0.50", "1.0 to above 1000")
+    assert (text(2.6, 8.0), text(0.29, 1.48), text(None, 0.5), text(1.0, None), text(56.0, 99.7)) == (
+        "2.6 to 8.0", "0.29 to 1.5", "below 0.001 to 0.50", "1.0 to above 1000", "56 to 100")

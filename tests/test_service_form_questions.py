@@ -182,8 +182,8 @@ def test_a_repair_the_day_after_the_unit_entered_service_is_asked_about_as_the_r
             "summary": "Fan replaced", "findings": "", "repaired_failure": "on"}
     page = client.post(url, sent)
     assert page.status_code == 200 and not ServiceRecord.objects.exists()
-    assert (f"{since + dt.timedelta(days=1):%d %b %Y} follows by a night at most the day Mirror cell fans entered "
-            f"service here ({since:%d %b %Y}): the reliability page would take the failure (night of {since:%d %b %Y})"
+    assert (f"{since + dt.timedelta(days=1):%d %b %Y} is the day after the day Mirror cell fans entered service here "
+            f"({since:%d %b %Y}): the reliability page would take the failure (night of {since:%d %b %Y})"
             ) in page.content.decode()
     assert client.post(url, {**sent, "performed_on": (since + dt.timedelta(days=2)).isoformat()}).status_code == 302
 

@@ -10,6 +10,7 @@ days late the work came. Worked by hand: a plan counting from 1 Jan 2025 with a 
 from __future__ import annotations
 
 import datetime as dt
+import re
 
 import pytest
 
@@ -43,12 +44,17 @@ def test_work_on_an_overdue_plan_keeps_how_late_it_came(late_plan, users, client
     client.force_login(users["viewer"])
     page = client.get(late_plan.subsystem.get_absolute_url()).content.decode()
     assert "30 days after its limit was passed (01 Jan 2026)" in page
-    assert "<summary>Late: after its limit was passed</summary>Due when logged: Calendar" in page
+    assert "<summary>Late: after its limit was passed</summary>Due when logged: Worked out on " in page
     csv_text = client.get(f"/sites/{late_plan.subsystem.telescope.site.slug}/service-records.csv"
                           "?from=2026-01-01&to=2026-12-31").content.decode()
     assert ",Replace fan filters,late: after its limit was passed,2026-01-01,30," in csv_text
     # What it was due against, as the plan's due sentence stood when the work was logged (an export review's insurer).
-    assert record.timeliness == "late" and record.due_when_logged.startswith("Calendar")
+    # Counted to the day it was logged, months after the work, and said so (a diff review read "on time" beside a
+    # count far past the limit).
+    today = site_today(late_plan.subsystem.telescope.site)
+    assert record.timeliness == "late" and record.due_when_logged.startswith(
+        f"Worked out on {today:%d %b %Y}, {(today - dt.date(2026, 1, 31)).days} days after the work, its figures "
+        "counted to that day: Calendar")
     assert record.due_when_logged in csv_text.replace('""', '"')
 
 
@@ -70,7 +76,7 @@ def test_a_correction_keeps_the_limit_and_counts_from_its_own_date(late_plan, us
     corrected = services.service_record_correct(record, users["engineer"], "Filters replaced",
                                                 performed_on=dt.date(2026, 1, 21), reason="typo")
     assert (corrected.limit_passed_on, corrected.days_after_limit) == (dt.date(2026, 1, 1), 20)
-    assert corrected.timeliness == "late" and corrected.due_when_logged == record.due_when_logged
+    assert corrected.timeliness == "late" and "limit reached on 01 Jan 2026" in corrected.due_when_logged
     kept = services.service_record_correct(corrected, users["engineer"], "Filters and gaskets replaced", reason="more")
     assert (kept.timeliness, kept.due_when_logged) == (corrected.timeliness, corrected.due_when_logged)
 
@@ -133,7 +139,9 @@ def test_work_entered_late_from_a_paper_log_is_judged_against_the_limit_it_answe
     assert "the plan 'Replace fan filters' counts on from its later service of 31 Jan 2026." in said
     early = late_plan.service_records.get(performed_on=dt.date(2025, 3, 1))
     assert (early.timeliness, early.limit_passed_on) == ("on time", None)
-    assert "limit reached on 01 Jan 2026" in early.due_when_logged or "01 Jan 2026" in early.due_when_logged
+    # Its figures are those of the service before it (the plan's start) counted to today, and said so.
+    assert early.due_when_logged.startswith("Worked out on ")
+    assert "limit reached on 01 Jan 2026" in early.due_when_logged
     # The stored state is as it was: counting from the newer service.
     assert PlanStatus.objects.get(plan=late_plan).last_service_on == dt.date(2026, 1, 31)
     assert late_plan.service_records.filter(void=True).count() == 0
@@ -148,7 +156,7 @@ def test_a_withdrawal_and_a_plan_without_a_trigger_say_so(late_plan, users):
     bare = ServicePlan.objects.create(subsystem=late_plan.subsystem, name="Look at the cable wrap",
                                       counting_from=dt.date(2025, 1, 1), counting_from_given=True)
     looked = services.service_record_log(late_plan.subsystem, bare, dt.date(2026, 2, 1), users["technician"], "Ok")
-    assert looked.timeliness_text == "no due state: the plan had no trigger, or was not counted"
+    assert looked.timeliness_text == "no due state: the plan had no trigger, no reading yet, or was not counted"
 
 
 def test_records_kept_late_before_their_timeliness_was_kept_are_said_late(late_plan, users):
@@ -165,3 +173,28 @@ def test_records_kept_late_before_their_timeliness_was_kept_are_said_late(late_p
     migration = importlib.import_module("observatory_ops.logbook.migrations.0015_timeliness_without_a_state")
     migration.late_records_said_late(apps, None)
     assert ServiceRecord.objects.get(pk=record.pk).timeliness == "late"
+
+
+def test_a_service_before_the_plans_given_last_service_is_asked_about_and_due_from_the_start(telescope, users, client):
+    """A second diff review logged a service of June on a plan given 1 November as its last service: judged "on time"
+    against November's limit, and the plan counted from June, overdue at once, without a word."""
+    fans = Subsystem.objects.create(telescope=telescope, kind="cooling_fans", name="Dome fans")
+    today = site_today(telescope.site)
+    given = today - dt.timedelta(days=20)
+    plan = ServicePlan.objects.create(subsystem=fans, name="Clean fan blades", counting_from=given,
+                                      counting_from_given=True)
+    Trigger.objects.create(plan=plan, metric="calendar_days", limit=30)
+    site_recompute(telescope.site)
+    early = today - dt.timedelta(days=150)
+    url = f"/subsystems/{fans.pk}/service/new/"
+    client.force_login(users["technician"])
+    sent = {"plan": plan.pk, "performed_on": early.isoformat(), "hours_spent": "1", "summary": "From the paper log",
+            "findings": ""}
+    page = client.post(url, sent)
+    assert page.status_code == 200 and not plan.service_records.exists()
+    assert (f"{early:%d %b %Y} is before {given:%d %b %Y}, given as the plan&#x27;s last service: logged, the plan "
+            f"would count from {early:%d %b %Y} instead") in page.content.decode()
+    asked = re.search(r'name="questioned" value="([^"]*)"', page.content.decode()).group(1)
+    assert client.post(url, {**sent, "value_confirmed": "on", "questioned": asked}).status_code == 302
+    record = plan.service_records.get()
+    assert (record.timeliness, record.due_when_logged, record.limit_passed_on) == ("from start", "", None)

@@ -107,7 +107,7 @@ class WeibullFit:
     def beta_interval_text(self) -> str:
         """E.g. "0.29 to 1.5"; an end the data leave open is said so."""
         def two(value: float) -> str:  # two significant figures, a trailing 0 kept ("8.0", not "8")
-            return f"{value:.0f}" if value >= 100 else f"{value:#.2g}".rstrip(".")
+            return f"{value:.0f}" if value >= 99.5 else f"{value:#.2g}".rstrip(".")
 
         low = two(self.beta_low) if self.beta_low is not None else f"below {BETA_SEARCHED[0]:g}"
         high = two(self.beta_high) if self.beta_high is not None else f"above {BETA_SEARCHED[1]:g}"

@@ -59,9 +59,9 @@ def before_in_service(subsystem, day: dt.date, planned: bool, repair: bool) -> s
                     "one of the unit it replaced, and leave it out")
     if not said:
         return ""
-    when = "is before" if day < since else "follows by a night at most"
-    return (f"{day:%d %b %Y} {when} the day {subsystem.name} entered service here ({since:%d %b %Y}): "
-            f"{' and '.join(said)}.")
+    when = ("is before the day" if day < since else "is the day" if day == since else "is the day after the day")
+    return (f"{day:%d %b %Y} {when} {subsystem.name} entered service here ({since:%d %b %Y}): "
+            f"{'; and '.join(said)}.")
 
 
 class ServiceRecordForm(QuestionedValueMixin, forms.Form):
@@ -85,7 +85,8 @@ class ServiceRecordForm(QuestionedValueMixin, forms.Form):
     value_confirmed = forms.BooleanField(
         required=False, label="Log it as entered",
         help_text="Asked only for hours far above the plan's estimate, a second service of the plan on one day, a date "
-        "before the subsystem entered service, or a plan with a work order still open.",
+        "before the subsystem entered service (or a repair up to the day after), a date before the plan's given last "
+        "service, or a plan with a work order still open.",
     )
     questioned = forms.CharField(required=False, widget=forms.HiddenInput)
 
@@ -150,6 +151,15 @@ class ServiceRecordForm(QuestionedValueMixin, forms.Form):
         # tick on "a second one?" let a date before the unit entered service through unseen).
         if question := before_in_service(self.subsystem, day, plan is not None, repair):
             self.add_error("performed_on", f"{question} {keep}")
+        if (plan is not None and plan.counting_from_given and day < plan.counting_from
+                and not plan.service_records.filter(corrected_by__isnull=True, void=False).exists()):
+            # A diff review logged a service of June on a plan given November as its last service: the plan counted
+            # from June and came overdue at once, without a word.
+            self.add_error("performed_on", (
+                f"{day:%d %b %Y} is before {plan.counting_from:%d %b %Y}, given as the plan's last service: logged, "
+                f"the plan would count from {day:%d %b %Y} instead (a service record stands before a given date), and "
+                f"may come due at once. If {plan.counting_from:%d %b %Y} was a service too, log that one as well. "
+                f"{keep}"))
         held = [] if plan is None else list(
             WorkOrder.objects.filter(items__plan=plan, state__in=(State.DRAFT, State.ISSUED, State.UNDERWAY))
             .distinct().order_by("pk"))
@@ -204,7 +214,8 @@ class CorrectionForm(QuestionedValueMixin, forms.Form):
     )
     value_confirmed = forms.BooleanField(
         required=False, label="Save it as entered",
-        help_text="Asked only for a date before the subsystem entered service, as the service form asks.",
+        help_text="Asked only for a date before the subsystem entered service (or a repair up to the day after), as "
+        "the service form asks.",
     )
     questioned = forms.CharField(required=False, widget=forms.HiddenInput)
 

@@ -155,14 +155,14 @@ class ServiceRecord(models.Model):
     due_when_logged = models.TextField(
         blank=True, default="", editable=False,
         help_text="For work on a plan: the plan's due sentence as it stood when the work was logged (which trigger, "
-        "value, limit and forecast: ``logbook.services.due_before``); empty for ad hoc work and for work logged before "
-        "it was kept. An export review's insurer asked what each service was due against.",
+        "value, limit and forecast: ``logbook.services.due_of_work``); empty for ad hoc work and for work logged "
+        "before it was kept. An export review's insurer asked what each service was due against.",
     )
     timeliness = models.CharField(
         max_length=12, blank=True, default="", editable=False, choices=[
             ("late", "late: after its limit was passed"), ("on time", "on time: before its limit was passed"),
             ("from start", "due from the start: its last service before was not known"),
-            ("no state", "no due state: the plan had no trigger, or was not counted"),
+            ("no state", "no due state: the plan had no trigger, no reading yet, or was not counted"),
         ],
         help_text="For work on a plan, as its due state stood when the work was logged; empty for ad hoc work and for "
         "work logged before it was kept (``timeliness_text``).",

@@ -726,15 +726,40 @@ def service_record_log(
     record = ServiceRecord(
         subsystem=subsystem, plan=plan, performed_on=performed_on, performed_by=performed_by or by,
         hours_spent=hours_spent, summary=summary, findings=findings, created_by=by, repaired_failure=repaired_failure,
-        **(_due_without(plan, performed_on) if plan is not None and ServiceRecord.objects.filter(
-            plan=plan, performed_on__gte=performed_on, corrected_by__isnull=True, void=False).exists()
-           else due_before(plan, performed_on)).kept(),
+        **due_of_work(plan, performed_on).kept(),
     )
     record.full_clean()
     with transaction.atomic():
         record.save()
         site_recompute(site)
     return record
+
+
+def due_of_work(plan: ServicePlan | None, performed_on: dt.date, record: ServiceRecord | None = None) -> DueBefore:
+    """What work on ``plan`` done on ``performed_on`` answered, read before it is stored (``record``: the one a
+    correction moving its date replaces). From the stored state (``due_before``) for work after the plan's newest
+    service; for work dated before it, with the later services set aside (``_due_without``); for work before the
+    plan's start with no service before it, due from the start: nothing is known before it (a diff review's service of
+    June, before the plan's given last service of November, was judged against November's limit). The due sentence of
+    work done before the site's today says on which day its figures were counted to (a diff review read "on time"
+    beside "183 of 90 days")."""
+    if plan is None:
+        return DueBefore()
+    standing = ServiceRecord.objects.filter(plan=plan, corrected_by__isnull=True, void=False)
+    if record is not None:
+        standing = standing.exclude(pk=record.pk)
+    if performed_on < plan.counting_from and not standing.filter(performed_on__lt=performed_on).exists():
+        return DueBefore(None, "", "from start")
+    if record is not None or standing.filter(performed_on__gte=performed_on).exists():
+        due = _due_without(plan, performed_on, record)
+    else:
+        due = due_before(plan, performed_on)
+    today = site_today(plan.subsystem.telescope.site)
+    if due.due_when_logged and performed_on < today:
+        days = (today - performed_on).days
+        due = DueBefore(due.limit_passed_on, f"Worked out on {today:%d %b %Y}, {days} day{'s' if days != 1 else ''} "
+                        f"after the work, its figures counted to that day: {due.due_when_logged}", due.timeliness)
+    return due
 
 
 def _due_without(plan: ServicePlan | None, performed_on: dt.date, record: ServiceRecord | None = None) -> DueBefore:
@@ -803,7 +828,7 @@ def service_record_correct(
             repaired_failure=original.repaired_failure,
             **(DueBefore() if void else DueBefore(original.limit_passed_on, original.due_when_logged,
                                                    original.timeliness) if performed_on == original.performed_on
-               else _due_without(original.plan, performed_on, original)).kept(),
+               else due_of_work(original.plan, performed_on, original)).kept(),
             work_order=original.work_order,
         )
         correction.full_clean()

@@ -145,9 +145,8 @@ def service_log(request, pk):
 def _plan_counts_from(plan, day: dt.date) -> str:
     """Where the plan counts from once work of ``day`` is logged: that day, or its later service (work entered late
     from a paper log restarts nothing: a diff review was told "counts again from 01 Mar 2025")."""
-    from observatory_ops.planning.models import PlanStatus
-
-    last = PlanStatus.objects.filter(plan=plan).values_list("last_service_on", flat=True).first()
+    last = max(plan.service_records.filter(corrected_by__isnull=True, void=False).values_list("performed_on",
+                                                                                           flat=True), default=None)
     if last is not None and last > day:
         return f"; the plan '{plan.name}' counts on from its later service of {last:%d %b %Y}."
     return f"; the plan '{plan.name}' counts again from {day:%d %b %Y}."

@@ -24,7 +24,7 @@ from observatory_ops.calc import lifting
 from observatory_ops.calc.triggers import DUE, OVERDUE
 from observatory_ops.logbook.models import Reading, ServiceRecord
 from observatory_ops.logbook.quantities import QUANTITIES, reflectance_text, value_problem
-from observatory_ops.logbook.services import due_before
+from observatory_ops.logbook.services import due_of_work
 from observatory_ops.planning.metrics import READING
 from observatory_ops.planning.models import ServicePlan, part_lines
 from observatory_ops.planning.services import site_recompute, site_today, sites_bring_up_to_date
@@ -1112,7 +1112,7 @@ def work_order_finish(
             ServiceRecord.objects.create(
                 subsystem=item.subsystem, plan=plan, performed_on=day, performed_by=by, hours_spent=share,
                 summary=(plan.name if plan else order.title)[:200], findings=findings,
-                work_order=order, created_by=by, **due_before(plan, day).kept(),
+                work_order=order, created_by=by, **due_of_work(plan, day).kept(),
             )
         for r in required:
             if r.pk in why_not:
