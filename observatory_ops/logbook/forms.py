@@ -152,6 +152,7 @@ class ServiceRecordForm(QuestionedValueMixin, forms.Form):
         if question := before_in_service(self.subsystem, day, plan is not None, repair):
             self.add_error("performed_on", f"{question} {keep}")
         if (plan is not None and plan.counting_from_given and day < plan.counting_from
+                and not self.subsystem.retired_on  # a retired subsystem's plans count nothing: history only
                 and not plan.service_records.filter(corrected_by__isnull=True, void=False).exists()):
             # A diff review logged a service of June on a plan given November as its last service: the plan counted
             # from June and came overdue at once, without a word.
