@@ -181,6 +181,9 @@ def test_the_command_writes_and_reads_a_register_and_refuses_a_technician(source
     call_command("register", "import", str(path), "--site", "quill-mesa", "--telescope", "Q50", "--by", "engineer")
     out = capsys.readouterr().out
     assert "Quill Mesa Q50: 2 subsystems and" in out and "last service unknown (due now)" in out
+    call_command("register", "import", str(path), "--site", "quill-mesa", "--telescope", "Q50", "--by", "engineer")
+    again = capsys.readouterr().out
+    assert "0 subsystems and 0 plans added" in again and "last service unknown" not in again  # nothing added
     with pytest.raises(CommandError, match="no telescope named 'Q70' at Quill Mesa \\(known: Q50\\)"):
         call_command("register", "import", str(path), "--site", "quill-mesa", "--telescope", "Q70", "--by",
                      "engineer")

@@ -86,7 +86,8 @@ class Command(BaseCommand):
             self.stdout.write(f"added subsystem {name}")
         for name in read.plans_added:
             self.stdout.write(f"added plan {name}")
-        self.stdout.write(f"{scope.site.name} {scope.name}: {read.summary}. The plans added count from today with "
-                          "their last service unknown (due now) until their first service is logged.")
+        self.stdout.write(f"{scope.site.name} {scope.name}: {read.summary}." + (
+            " The plans added count from today with their last service unknown (due now) until their first service "
+            "is logged." if read.plans_added else ""))
         for sentence in read.to_enter:
             self.stdout.write(f"Still to enter: {sentence}.")
